@@ -1,0 +1,247 @@
+"""Atom and mass balance of a scheme.
+
+Mass conservation is checked two ways:
+
+1. **Atoms per reaction**, from the element formulas: for every reaction whose
+   species all have formulas (excess co-reactants and products included), the
+   element counts of both sides must agree.
+2. **Numerically**, for the tracked species: with the molar-mass vector
+   :math:`m` [g/mol], a closed scheme satisfies
+
+   .. math:: m^\\mathsf{T} K = 0,
+
+   i.e. every step turns reactant mass into the same product mass.  The largest
+   relative residual :math:`|(m^\\mathsf{T} K)_j| / (m_j \\sum_s k_s)` is reported.
+   Steps whose tracked mass changes (lumped species, excess co-reactants that
+   add mass, excess products that take it away) are named.
+
+Element formulas are read with the ``periodictable`` package (its element table
+and standard atomic weights), not a hand-written table.
+"""
+
+from __future__ import annotations
+
+import functools
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+if TYPE_CHECKING:
+    from .scheme import Reaction, Scheme
+
+__all__ = [
+    "AtomBalance",
+    "MassBalance",
+    "atom_balance",
+    "element_counts",
+    "formula_mass",
+    "mass_balance",
+    "parse_formula",
+]
+
+
+@functools.lru_cache(maxsize=1024)
+def parse_formula(text: str):
+    """Parse an element formula with periodictable; raise ValueError if it does not parse.
+
+    Parameters
+    ----------
+    text : str
+        E.g. ``"C6H12O6"``, ``"CH3COOH"``, ``"Ca(OH)2"``.
+
+    Returns
+    -------
+    periodictable.formulas.Formula
+    """
+    import periodictable
+
+    if not text or (not text[0].isupper() and text[0] != "("):
+        raise ValueError("a formula starts with an element symbol such as C or Na")
+    try:
+        formula = periodictable.formula(text)
+    except Exception as exc:  # periodictable raises pyparsing and value errors
+        raise ValueError(str(exc).splitlines()[0] or "not a formula") from None
+    if not formula.atoms:
+        raise ValueError("no elements found")
+    return formula
+
+
+def element_counts(text: str) -> dict[str, float]:
+    """Element symbol -> count for a formula (``"H2O"`` -> ``{"H": 2, "O": 1}``)."""
+    atoms = parse_formula(text).atoms
+    return {str(el): float(n) for el, n in atoms.items()}
+
+
+def formula_mass(text: str) -> float:
+    """Molar mass of a formula [g/mol] from standard atomic weights (periodictable)."""
+    return float(parse_formula(text).mass)
+
+
+@dataclass(frozen=True)
+class AtomBalance:
+    """Element counts of both sides of one reaction.
+
+    Attributes
+    ----------
+    left, right : dict of str to float
+    ok : bool
+        True when every element count agrees (to 1e-9 relative).
+    """
+
+    left: dict[str, float]
+    right: dict[str, float]
+    ok: bool
+
+    @staticmethod
+    def _text(counts: dict[str, float]) -> str:
+        return " ".join(f"{el}{n:g}" for el, n in sorted(counts.items()))
+
+    @property
+    def left_text(self) -> str:
+        """Element counts of the left side, e.g. ``C6 H12 O6``."""
+        return self._text(self.left)
+
+    @property
+    def right_text(self) -> str:
+        """Element counts of the right side."""
+        return self._text(self.right)
+
+
+def atom_balance(reaction: Reaction, formulas: dict[str, str | None]) -> AtomBalance | None:
+    """Compare element counts of both sides of ``reaction``.
+
+    Returns ``None`` when some species of the reaction has no formula (the
+    check then does not apply).
+    """
+    if any(formulas.get(name) is None for _, name in reaction.left + reaction.right):
+        return None
+
+    def side(terms) -> dict[str, float]:
+        total: dict[str, float] = {}
+        for coefficient, name in terms:
+            for el, n in element_counts(formulas[name]).items():
+                total[el] = total.get(el, 0.0) + coefficient * n
+        return total
+
+    left, right = side(reaction.left), side(reaction.right)
+    ok = set(left) == set(right) and all(
+        abs(left[el] - right[el]) <= 1e-9 * max(abs(left[el]), 1.0) for el in left
+    )
+    return AtomBalance(left, right, ok)
+
+
+@dataclass(frozen=True)
+class MassBalance:
+    """The mass-balance verdict of a scheme.
+
+    Attributes
+    ----------
+    ok : bool
+        True when every reaction with formulas balances and no tracked step
+        creates or destroys mass.
+    reactions : list of dict
+        Per reaction: ``equation``, ``line``, ``atoms`` (``"balanced"``,
+        ``"unbalanced"`` or ``"not checked"``), ``left``/``right`` element counts.
+    checked : bool
+        False when no species has a formula or molar mass (nothing could be checked).
+    max_relative_residual : float or None
+        Largest :math:`|(m^T K)_j| / (m_j \\sum k)` over species with known
+        molar mass; ``None`` when no molar masses are known.
+    mass_changing_steps : list of dict
+        Steps whose tracked mass changes: ``equation``, ``reason``.
+    """
+
+    ok: bool
+    checked: bool
+    reactions: list[dict]
+    max_relative_residual: float | None
+    mass_changing_steps: list[dict]
+
+    def to_dict(self) -> dict:
+        """JSON-ready form."""
+        return {
+            "ok": self.ok,
+            "checked": self.checked,
+            "reactions": self.reactions,
+            "max_relative_residual": self.max_relative_residual,
+            "mass_changing_steps": self.mass_changing_steps,
+        }
+
+
+def mass_balance(scheme: Scheme) -> MassBalance:
+    """Check the atom balance of each reaction and the numerical mass balance m·K = 0.
+
+    Parameters
+    ----------
+    scheme : Scheme
+
+    Returns
+    -------
+    MassBalance
+    """
+    all_species = scheme.species + scheme.excess_species
+    formulas = {s.name: s.formula for s in all_species}
+    masses = {s.name: s.molar_mass for s in all_species}
+    reactions = []
+    atoms_ok = True
+    for r in scheme.reactions:
+        result = atom_balance(r, formulas)
+        entry = {"equation": r.equation, "line": r.line}
+        if result is None:
+            entry["atoms"] = "not checked"
+            missing = sorted({n for _, n in r.left + r.right if formulas.get(n) is None})
+            entry["reason"] = "no formula for " + ", ".join(missing)
+        else:
+            entry["atoms"] = "balanced" if result.ok else "unbalanced"
+            entry["left"] = result.left
+            entry["right"] = result.right
+            atoms_ok &= result.ok
+        reactions.append(entry)
+
+    # numerical check on the tracked species: m^T K = 0 column by column
+    m = scheme.molar_masses
+    K = scheme.rate_matrix_sparse()
+    residual = None
+    known = ~np.isnan(m)
+    if known.any():
+        mm = np.where(known, m, 0.0)
+        r = K.T @ mm  # (m^T K)_j
+        out = np.asarray(abs(K).sum(axis=0)).ravel()  # scale: mass flux through column j
+        cols = known & (out > 0)
+        if cols.any():
+            rel = np.abs(r[cols]) / (mm[cols] * out[cols])
+            residual = float(rel.max())
+
+    changing = []
+    for step in scheme.steps:
+        left = [(1.0, step.reactant), *step.co_reactants]
+        right = list(step.products)
+        names = [n for _, n in left + right]
+        if any(masses.get(n) is None for n in names):
+            continue  # not checked: reported per reaction above
+        tracked_in = masses[step.reactant]
+        tracked_out = sum(c * masses[n] for c, n in step.products if n in scheme.index)
+        if abs(tracked_out - tracked_in) > 1e-9 * tracked_in:
+            reasons = []
+            if step.co_reactants:
+                reasons.append(
+                    "takes up mass from "
+                    + ", ".join(n for _, n in step.co_reactants)
+                    + " (held in excess)"
+                )
+            excess_products = [n for _, n in step.products if n not in scheme.index]
+            if excess_products:
+                reasons.append(
+                    "releases mass as " + ", ".join(excess_products) + " (held in excess)"
+                )
+            total_in = sum(c * masses[n] for c, n in left)
+            total_out = sum(c * masses[n] for c, n in right)
+            if abs(total_out - total_in) > 1e-9 * total_in:
+                reasons.append(
+                    f"creates or destroys mass ({total_in:.6g} g/mol in, {total_out:.6g} g/mol out)"
+                )
+            changing.append({"equation": step.equation, "reason": "; ".join(reasons)})
+    ok = atoms_ok and not any("creates or destroys" in c["reason"] for c in changing)
+    checked = any(v is not None for v in masses.values())
+    return MassBalance(ok, checked, reactions, residual, changing)

@@ -1,0 +1,146 @@
+"""The species graph: roles, reversible pairs, cycles, components.
+
+The graph (a :class:`networkx.DiGraph`) has one node per species, matrix and
+excess species alike, and one edge ``reactant -> product`` per step, carrying
+the step indices and constants.  From it:
+
+* **roles**: *starting material* (consumed, never formed), *intermediate*
+  (formed and consumed), *end product* (formed, never consumed), *held in
+  excess* (constant co-reactant), *inert* (neither formed nor consumed);
+* **reversible pairs** (edges both ways), **cycles** (elementary cycles of
+  length three or more: irreversible loops), **strongly connected
+  components** and **disconnected sub-schemes** (weakly connected components).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+import networkx as nx
+
+if TYPE_CHECKING:
+    from .scheme import Scheme
+
+__all__ = ["ROLES", "NetworkSummary", "species_graph", "summarise_network"]
+
+#: The role names used in reports and JSON.
+ROLES = ("starting material", "intermediate", "end product", "held in excess", "inert")
+
+
+def species_graph(scheme: Scheme) -> nx.DiGraph:
+    """Species graph of ``scheme``: nodes are species, edges are steps reactant -> product.
+
+    Node attributes: ``excess`` (bool), ``index`` (matrix index or None).
+    Edge attributes: ``steps`` (list of step indices), ``constants`` (list of names).
+    Co-reactants in excess get an edge to the products too (``co_reactant=True``).
+    """
+    graph = nx.DiGraph()
+    for s in scheme.species:
+        graph.add_node(s.name, excess=False, index=scheme.index[s.name])
+    for s in scheme.excess_species:
+        graph.add_node(s.name, excess=True, index=None)
+    for i, step in enumerate(scheme.steps):
+        for _, product in step.products:
+            if graph.has_edge(step.reactant, product):
+                data = graph.edges[step.reactant, product]
+                data["steps"].append(i)
+                data["constants"].append(step.constant)
+            else:
+                graph.add_edge(step.reactant, product, steps=[i], constants=[step.constant])
+        for _, partner in step.co_reactants:
+            for _, product in step.products:
+                if not graph.has_edge(partner, product):
+                    graph.add_edge(partner, product, steps=[], constants=[], co_reactant=True)
+    return graph
+
+
+@dataclass(frozen=True)
+class NetworkSummary:
+    """Structure of a scheme's species graph.
+
+    Attributes
+    ----------
+    roles : dict of str to str
+        Species -> one of :data:`ROLES`.
+    reversible_pairs : list of tuple of str
+    cycles : list of list of str
+        Irreversible loops (three or more species).
+    strongly_connected : list of list of str
+        Components with more than one species, in topological order.
+    sub_schemes : list of list of str
+        Disconnected parts (only when there are two or more).
+    """
+
+    roles: dict[str, str]
+    reversible_pairs: list[tuple[str, str]]
+    cycles: list[list[str]]
+    strongly_connected: list[list[str]]
+    sub_schemes: list[list[str]]
+
+    def to_dict(self) -> dict:
+        """JSON-ready form."""
+        return {
+            "roles": self.roles,
+            "reversible_pairs": [list(p) for p in self.reversible_pairs],
+            "cycles": self.cycles,
+            "strongly_connected_components": self.strongly_connected,
+            "sub_schemes": self.sub_schemes,
+        }
+
+
+def summarise_network(scheme: Scheme, *, max_cycles: int = 50) -> NetworkSummary:
+    """Roles, reversible pairs, cycles and components of ``scheme``'s species graph.
+
+    Parameters
+    ----------
+    scheme : Scheme
+    max_cycles : int, optional
+        At most this many cycles are listed (large networks can have very many).
+    """
+    graph = species_graph(scheme)
+    order = {name: i for i, name in enumerate(graph.nodes)}
+    consumed = {step.reactant for step in scheme.steps}
+    formed = {p for step in scheme.steps for _, p in step.products if p != step.reactant}
+    roles = {}
+    for name, data in graph.nodes(data=True):
+        if data["excess"]:
+            roles[name] = "held in excess"
+        elif name in consumed and name in formed:
+            roles[name] = "intermediate"
+        elif name in consumed:
+            roles[name] = "starting material"
+        elif name in formed:
+            roles[name] = "end product"
+        else:
+            roles[name] = "inert"
+    matrix_graph = graph.subgraph([s.name for s in scheme.species]).copy()
+    matrix_graph.remove_edges_from(
+        [(a, b) for a, b, co in matrix_graph.edges(data="co_reactant") if co]
+    )
+    pairs = sorted(
+        {
+            tuple(sorted((a, b), key=order.get))
+            for a, b in matrix_graph.edges
+            if a != b and matrix_graph.has_edge(b, a)
+        },
+        key=lambda p: (order[p[0]], order[p[1]]),
+    )
+    cycles: list[list[str]] = []
+    if len(matrix_graph) <= 2000:
+        for cycle in nx.simple_cycles(matrix_graph, length_bound=None):
+            if len(cycle) >= 3:
+                first = min(range(len(cycle)), key=lambda i: order[cycle[i]])
+                cycles.append(cycle[first:] + cycle[:first])
+                if len(cycles) >= max_cycles:
+                    break
+    cycles.sort(key=lambda c: [order[n] for n in c])
+    condensation = nx.condensation(matrix_graph)
+    components = []
+    for node in nx.topological_sort(condensation):
+        members = condensation.nodes[node]["members"]
+        if len(members) > 1:
+            components.append(sorted(members, key=order.get))
+    weak = [sorted(c, key=order.get) for c in nx.weakly_connected_components(graph)]
+    weak.sort(key=lambda c: order[c[0]])
+    return NetworkSummary(roles, pairs, cycles, components, weak if len(weak) > 1 else [])

@@ -1,0 +1,1398 @@
+"""Scheme text -> :class:`~kinetics.scheme.Scheme`, reporting every mistake at once.
+
+The scheme language (one statement per line, ``#`` starts a comment)::
+
+    title: Hydrolysis of an ester intermediate
+    A -> B + 2 C        k1 = 0.12 1/min
+    B <=> D             kf = 2.0e-3 1/s, kr = 5.0e-4 1/s
+    C -> E              k1                  # shares k1 with the first step
+    E + W -> F          k2 = 1.5e-4 M-1 s-1 # pseudo-first-order, W in excess
+    k3 = arrhenius(A = 1.0e13 1/s, Ea = 95 kJ/mol)
+    F -> G              k3
+    temperature = 60 degC
+    start A = 0.50 mol/L, B = 10 mmol/L
+    excess W = 55 mol/L
+    feed A = 0.01 mol/L/min
+    formula A = C6H12O6
+    molar_mass G = 180.2 g/mol
+    balance: lumped                         # atom imbalance is a warning only
+
+Parsing runs in two passes.  The first reads each line into a small frozen
+statement object (each statement kind has a ``from_line`` constructor that
+answers "not mine" with ``None``, or returns a statement or a list of errors).
+The second pass resolves names, units and orders across the whole file.  All
+errors of both passes are collected and raised together as one
+:class:`~kinetics.errors.SchemeErrors`.
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+import re
+from dataclasses import dataclass
+from fractions import Fraction
+from pathlib import Path
+from typing import ClassVar
+
+from .errors import SchemeError, SchemeErrors, SchemeFileError
+from .scheme import Arrhenius, RateConstant, Reaction, Scheme, Species, Step
+from .units import (
+    concentration_order,
+    describe_dimension,
+    parse_unit,
+    temperature_to_kelvin,
+)
+
+__all__ = ["ARROWS", "DIRECTIVES", "load", "parse"]
+
+#: Arrows of the language: irreversible and reversible, with Unicode synonyms.
+ARROWS = {"->": False, "→": False, "<=>": True, "⇌": True}
+#: Directive keywords that start a line.
+DIRECTIVES = ("start", "excess", "feed", "formula", "molar_mass", "temperature")
+_RESERVED = {*DIRECTIVES, "title", "balance", "arrhenius"}
+
+_NAME = r"[^\W\d_][\w']*"
+_NAME_RE = re.compile(_NAME)
+_NUMBER_RE = re.compile(
+    r"[-+]?(?:(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?|(?:nan|inf(?:inity)?)(?![\w]))",
+    re.IGNORECASE,
+)
+_TERM_RE = re.compile(rf"\s*(?:(?P<coef>\d+(?:\.\d*)?|\.\d+)\s*)?(?P<name>{_NAME})")
+_CONSTANT_LINE = re.compile(rf"^(?P<name>{_NAME})\s*=(?![=>])")
+_ARROW_RE = re.compile(r"<=>|⇌|->|→")
+_BAD_ARROW_RE = re.compile(r"<->|<-->|<==>|<=|=>|-->|==>|<-|==|↔|⇄|⟶|⟷|←|⇒|⇔|=|>|-(?=\s)")
+_ARRHENIUS_RE = re.compile(r"arrhenius\s*\((?P<body>.*)\)\s*$", re.IGNORECASE)
+_WORD_END = re.compile(r"[\s=]")
+
+
+# ---------------------------------------------------------------------------
+# source lines and error construction
+
+
+@dataclass(frozen=True)
+class _Line:
+    source: str
+    number: int
+    text: str  # the whole line as written
+    code: str  # the line without its comment, right-stripped
+
+    def error(self, problem: str, column: int = 0, snippet: str = "", hint: str = ""):
+        return SchemeError(problem, self.source, self.number, column, self.text, snippet, hint)
+
+
+def _strip_comment(text: str) -> str:
+    return text.split("#", 1)[0].rstrip()
+
+
+def _split_top(text: str, offset: int) -> list[tuple[str, int]]:
+    """Split at commas outside parentheses; return (piece, 0-based column) pairs, stripped."""
+    pieces: list[tuple[str, int]] = []
+    depth = 0
+    start = 0
+    for i, ch in enumerate(text + ","):
+        if ch == "(":
+            depth += 1
+        elif ch == ")":
+            depth -= 1
+        elif ch == "," and depth <= 0:
+            raw = text[start:i]
+            lead = len(raw) - len(raw.lstrip())
+            pieces.append((raw.strip(), offset + start + lead))
+            start = i + 1
+    return pieces
+
+
+# ---------------------------------------------------------------------------
+# values with units
+
+
+@dataclass(frozen=True)
+class _Value:
+    """A number with a unit as written, with the columns of both (1-based)."""
+
+    number: str
+    unit: str
+    column: int
+    unit_column: int
+
+    @property
+    def text(self) -> str:
+        return f"{self.number} {self.unit}".strip()
+
+
+def _read_value(line: _Line, text: str, column0: int, what: str, example: str):
+    """Read ``NUMBER [UNIT]`` starting at 0-based ``column0``; return _Value or SchemeError."""
+    match = _NUMBER_RE.match(text)
+    if not match:
+        return line.error(
+            f"could not read a number for {what} in {text!r}",
+            column0 + 1,
+            text or " ",
+            f"write a number and a unit, e.g. {example}",
+        )
+    number = match.group(0)
+    rest = text[match.end() :]
+    unit = rest.strip()
+    unit_col = column0 + match.end() + (len(rest) - len(rest.lstrip())) + 1
+    value = float(number)
+    if math.isnan(value) or math.isinf(value):
+        return line.error(
+            f"{what} is {number}, which is not a finite number",
+            column0 + 1,
+            number,
+            f"write a finite value, e.g. {example}",
+        )
+    if value < 0:
+        return line.error(
+            f"{what} is negative ({number})",
+            column0 + 1,
+            number,
+            f"concentrations, rates and constants are never negative; write e.g. {example}",
+        )
+    return _Value(number, unit, column0 + 1, unit_col)
+
+
+def _unit_of(line: _Line, value: _Value, what: str, example: str):
+    """Parse the unit of ``value``; return UnitSpec or SchemeError."""
+    try:
+        return parse_unit(value.unit)
+    except ValueError:
+        return line.error(
+            f"unknown unit {value.unit!r} for {what}",
+            value.unit_column,
+            value.unit,
+            f"write a unit such as {example}",
+        )
+
+
+# ---------------------------------------------------------------------------
+# statements of the first pass
+
+
+@dataclass(frozen=True)
+class TitleStatement:
+    """``title: free text``."""
+
+    text: str
+    line: _Line
+
+    @classmethod
+    def from_line(cls, line: _Line):
+        code = line.code.lstrip()
+        if not re.match(r"title\s*:", code, re.IGNORECASE):
+            return None
+        # the title keeps '#' characters? no: comments are stripped like everywhere else
+        return cls(code.split(":", 1)[1].strip(), line)
+
+
+@dataclass(frozen=True)
+class BalanceStatement:
+    """``balance: lumped`` (atom imbalance only warned about) or ``balance: strict``."""
+
+    mode: str
+    line: _Line
+
+    @classmethod
+    def from_line(cls, line: _Line):
+        code = line.code.lstrip()
+        if not re.match(r"balance\s*:", code, re.IGNORECASE):
+            return None
+        mode = code.split(":", 1)[1].strip().lower()
+        if mode not in ("lumped", "strict"):
+            column = line.code.index(":") + 2
+            return [
+                line.error(
+                    f"unknown balance mode {mode!r}",
+                    column,
+                    mode or " ",
+                    "write 'balance: lumped' to allow atom imbalance, or 'balance: strict'",
+                )
+            ]
+        return cls(mode, line)
+
+
+@dataclass(frozen=True)
+class _Item:
+    name: str
+    name_column: int
+    value: _Value | None  # None for formulas
+    formula: str = ""
+
+
+@dataclass(frozen=True)
+class ListStatement:
+    """``start``/``excess``/``feed``/``formula``/``molar_mass`` NAME = VALUE, ..."""
+
+    kind: str
+    items: tuple[_Item, ...]
+    line: _Line
+
+    _EXAMPLES: ClassVar[dict[str, str]] = {
+        "start": "start A = 0.5 mol/L",
+        "excess": "excess W = 55 mol/L",
+        "feed": "feed A = 0.01 mol/L/min",
+        "formula": "formula A = C6H12O6",
+        "molar_mass": "molar_mass A = 180.2 g/mol",
+    }
+
+    @classmethod
+    def from_line(cls, line: _Line):
+        code = line.code
+        match = re.match(r"\s*(start|excess|feed|formula|molar_mass)(?=\s|$)", code)
+        if not match:
+            return None
+        kind = match.group(1)
+        example = cls._EXAMPLES[kind]
+        body = code[match.end() :]
+        errors: list[SchemeError] = []
+        items: list[_Item] = []
+        if not body.strip():
+            return [
+                line.error(
+                    f"'{kind}' lists nothing",
+                    match.start(1) + 1,
+                    kind,
+                    f"write e.g. {example}",
+                )
+            ]
+        for piece, col0 in _split_top(body, match.end()):
+            m = re.match(rf"(?P<name>{_NAME})\s*=\s*", piece)
+            if not m:
+                errors.append(
+                    line.error(
+                        f"could not read {piece!r} in a '{kind}' statement",
+                        col0 + 1,
+                        piece or " ",
+                        f"write NAME = VALUE, e.g. {example}",
+                    )
+                )
+                continue
+            name = m.group("name")
+            rest = piece[m.end() :]
+            rest_col0 = col0 + m.end()
+            if kind == "formula":
+                if not rest.strip():
+                    errors.append(
+                        line.error(
+                            f"formula of {name} is empty",
+                            rest_col0 + 1,
+                            " ",
+                            f"write e.g. {example}",
+                        )
+                    )
+                    continue
+                items.append(_Item(name, col0 + 1, None, rest.strip()))
+                continue
+            what = {
+                "start": f"the start value of {name}",
+                "excess": f"the excess concentration of {name}",
+                "feed": f"the feed rate of {name}",
+                "molar_mass": f"the molar mass of {name}",
+            }[kind]
+            value = _read_value(line, rest, rest_col0, what, example.split("= ", 1)[1])
+            if isinstance(value, SchemeError):
+                errors.append(value)
+                continue
+            items.append(_Item(name, col0 + 1, value))
+        return errors if errors else cls(kind, tuple(items), line)
+
+
+@dataclass(frozen=True)
+class TemperatureStatement:
+    """``temperature = 60 degC`` (kelvin or degrees Celsius)."""
+
+    value: _Value
+    line: _Line
+
+    @classmethod
+    def from_line(cls, line: _Line):
+        match = re.match(r"\s*temperature\s*=\s*", line.code)
+        if not match:
+            return None
+        value = _read_value(
+            line, line.code[match.end() :], match.end(), "the temperature", "60 degC"
+        )
+        if isinstance(value, SchemeError):
+            return [value]
+        return cls(value, line)
+
+
+@dataclass(frozen=True)
+class _ConstantSpec:
+    """A rate-constant definition: a plain value or Arrhenius parameters."""
+
+    name: str
+    column: int
+    value: _Value | None = None
+    prefactor: _Value | None = None
+    energy: _Value | None = None
+    text: str = ""
+
+    @property
+    def is_arrhenius(self) -> bool:
+        return self.prefactor is not None
+
+
+def _read_constant(line: _Line, name: str, name_col0: int, text: str, text_col0: int):
+    """Read the right-hand side of ``name = ...``; return _ConstantSpec or list of errors."""
+    arr = _ARRHENIUS_RE.match(text)
+    if arr:
+        body = arr.group("body")
+        body_col0 = text_col0 + arr.start("body")
+        parts = {}
+        errors = []
+        for piece, col0 in _split_top(body, body_col0):
+            m = re.match(r"(?P<key>\w+)\s*=\s*", piece)
+            key = m.group("key") if m else ""
+            if key not in ("A", "Ea"):
+                errors.append(
+                    line.error(
+                        f"could not read {piece!r} in the Arrhenius parameters of {name}",
+                        col0 + 1,
+                        piece or " ",
+                        "write arrhenius(A = 1.0e13 1/s, Ea = 95 kJ/mol)",
+                    )
+                )
+                continue
+            what = (
+                f"the pre-exponential factor A of {name}"
+                if key == "A"
+                else f"the activation energy Ea of {name}"
+            )
+            example = "1.0e13 1/s" if key == "A" else "95 kJ/mol"
+            value = _read_value(line, piece[m.end() :], col0 + m.end(), what, example)
+            if isinstance(value, SchemeError):
+                errors.append(value)
+            else:
+                parts[key] = value
+        if not errors and set(parts) != {"A", "Ea"}:
+            missing = " and ".join(sorted({"A", "Ea"} - set(parts)))
+            errors.append(
+                line.error(
+                    f"the Arrhenius parameters of {name} lack {missing}",
+                    text_col0 + 1,
+                    text,
+                    "write arrhenius(A = 1.0e13 1/s, Ea = 95 kJ/mol)",
+                )
+            )
+        if errors:
+            return errors
+        return _ConstantSpec(
+            name, name_col0 + 1, prefactor=parts["A"], energy=parts["Ea"], text=text.strip()
+        )
+    value = _read_value(line, text, text_col0, f"rate constant {name}", "0.12 1/min")
+    if isinstance(value, SchemeError):
+        return [value]
+    if not value.unit:
+        return [
+            line.error(
+                f"rate constant {name} has no unit",
+                value.column,
+                value.number,
+                f"write its unit after the number, e.g. {name} = {value.number} 1/s",
+            )
+        ]
+    return _ConstantSpec(name, name_col0 + 1, value=value, text=text.strip())
+
+
+@dataclass(frozen=True)
+class ConstantStatement:
+    """``k1 = 0.12 1/min`` or ``k3 = arrhenius(A = ..., Ea = ...)`` on a line of its own."""
+
+    spec: _ConstantSpec
+    line: _Line
+
+    @classmethod
+    def from_line(cls, line: _Line):
+        match = _CONSTANT_LINE.match(line.code.lstrip())
+        if not match or _ARROW_RE.search(line.code):
+            return None
+        lead = len(line.code) - len(line.code.lstrip())
+        name = match.group("name")
+        rest = line.code.lstrip()[match.end() :]
+        rest_col0 = lead + match.end() + (len(rest) - len(rest.lstrip()))
+        spec = _read_constant(line, name, lead, rest.strip(), rest_col0)
+        if isinstance(spec, list):
+            return spec
+        if name in _RESERVED:
+            return [
+                line.error(
+                    f"'{name}' is a keyword of the scheme language and cannot name a constant",
+                    lead + 1,
+                    name,
+                    "choose another name, e.g. k1",
+                )
+            ]
+        return cls(spec, line)
+
+
+@dataclass(frozen=True)
+class _Term:
+    coefficient: float
+    name: str
+    column: int
+
+
+@dataclass(frozen=True)
+class _ConstantRef:
+    name: str
+    column: int
+    spec: _ConstantSpec | None  # None when referred to by name alone
+
+
+@dataclass(frozen=True)
+class ReactionStatement:
+    """``A -> B + 2 C  k1 = ...`` or ``B <=> D  kf = ..., kr = ...``."""
+
+    left: tuple[_Term, ...]
+    right: tuple[_Term, ...]
+    reversible: bool
+    arrow_column: int
+    constants: tuple[_ConstantRef, ...]
+    line: _Line
+
+    @classmethod
+    def from_line(cls, line: _Line):
+        code = line.code
+        arrows = list(_ARROW_RE.finditer(code))
+        if not arrows:
+            return None
+        if len(arrows) > 1:
+            second = arrows[1]
+            return [
+                line.error(
+                    "a reaction line has one arrow; this one has several",
+                    second.start() + 1,
+                    second.group(0),
+                    "write each step on a line of its own",
+                )
+            ]
+        arrow = arrows[0]
+        reversible = ARROWS[arrow.group(0)]
+        errors: list[SchemeError] = []
+        left = _read_terms(line, code[: arrow.start()], 0, "left")
+        if isinstance(left, SchemeError):
+            errors.append(left)
+        else:
+            left, rest = left
+            if rest.strip():
+                col = arrow.start() - len(rest) + (len(rest) - len(rest.lstrip())) + 1
+                errors.append(
+                    line.error(
+                        f"could not read {rest.strip()!r} on the left of the arrow",
+                        col,
+                        rest.strip(),
+                        "write species joined by '+', e.g. A + W -> B",
+                    )
+                )
+        right_text = code[arrow.end() :]
+        right = _read_terms(line, right_text, arrow.end(), "right")
+        if isinstance(right, SchemeError):
+            errors.append(right)
+            return errors
+        right, rest = right
+        rest_col0 = len(code) - len(rest)
+        constants = _read_constant_refs(line, rest, rest_col0, reversible, arrow)
+        if isinstance(constants, list) and constants and isinstance(constants[0], SchemeError):
+            errors.extend(constants)
+        if errors:
+            return errors
+        return cls(tuple(left), tuple(right), reversible, arrow.start() + 1, constants, line)
+
+
+def _read_terms(line: _Line, text: str, offset: int, side: str):
+    """Read ``[coef] NAME (+ [coef] NAME)*``; return (terms, rest) or SchemeError."""
+    terms: list[_Term] = []
+    pos = 0
+    while True:
+        match = _TERM_RE.match(text, pos)
+        if not match:
+            snippet = text[pos:].strip() or " "
+            column = offset + pos + (len(text[pos:]) - len(text[pos:].lstrip())) + 1
+            if side == "left":
+                hint = "write one species (plus co-reactants in excess), e.g. A -> B"
+            else:
+                hint = "write products joined by '+', e.g. A -> B + 2 C"
+            return line.error(
+                f"expected a species name on the {side} of the arrow, found {snippet!r}",
+                column,
+                snippet,
+                hint,
+            )
+        coef_text = match.group("coef")
+        coefficient = float(coef_text) if coef_text else 1.0
+        name = match.group("name")
+        column = offset + match.start("name") + 1
+        if coef_text is not None and coefficient <= 0:
+            return line.error(
+                f"stoichiometric coefficient of {name} is {coef_text}",
+                offset + match.start("coef") + 1,
+                coef_text,
+                "coefficients are positive numbers; leave out a species that does not take part",
+            )
+        if name in _RESERVED:
+            return line.error(
+                f"'{name}' is a keyword of the scheme language and cannot name a species",
+                column,
+                name,
+                "choose another name",
+            )
+        terms.append(_Term(coefficient, name, column))
+        pos = match.end()
+        plus = re.match(r"\s*\+", text[pos:])
+        if plus:
+            pos += plus.end()
+            continue
+        return terms, text[pos:]
+
+
+def _read_constant_refs(line: _Line, text: str, offset: int, reversible: bool, arrow):
+    """Read the constants after the products: ``k1``, ``k1 = ...``, ``kf = ..., kr = ...``."""
+    needed = 2 if reversible else 1
+    example = "kf = 2.0e-3 1/s, kr = 5.0e-4 1/s" if reversible else "k1 = 0.12 1/min"
+    if not text.strip():
+        return [
+            line.error(
+                "this reaction has no rate constant"
+                + (" (a reversible step needs two)" if reversible else ""),
+                len(line.code) + 1,
+                " ",
+                f"write it after the products, e.g. {example}",
+            )
+        ]
+    pieces = _split_top(text, offset)
+    errors: list[SchemeError] = []
+    refs: list[_ConstantRef] = []
+    for piece, col0 in pieces:
+        m = re.match(rf"(?P<name>{_NAME})\s*(?P<eq>=(?![=>]))?\s*", piece)
+        if not m or (not m.group("eq") and m.end() != len(piece)):
+            bad = re.match(r"\S+", piece)
+            snippet = bad.group(0) if bad else piece or " "
+            hint = f"name the constant and give its value, e.g. {example}"
+            problem = f"could not read the rate constant {piece!r}"
+            if m and not m.group("eq"):
+                problem = f"unexpected text after {m.group('name')!r}: {piece[m.end() :]!r}"
+                hint = (
+                    "join products with '+' (A -> B + C) and write the constant as NAME or "
+                    "NAME = VALUE UNIT"
+                )
+                snippet = piece[m.end() :].split()[0]
+                col0 = col0 + m.end()
+            errors.append(line.error(problem, col0 + 1, snippet, hint))
+            continue
+        name = m.group("name")
+        if name in _RESERVED:
+            errors.append(
+                line.error(
+                    f"'{name}' is a keyword of the scheme language and cannot name a constant",
+                    col0 + 1,
+                    name,
+                    "choose another name, e.g. k1",
+                )
+            )
+            continue
+        if m.group("eq"):
+            rest = piece[m.end() :]
+            spec = _read_constant(line, name, col0, rest, col0 + m.end())
+            if isinstance(spec, list):
+                errors.extend(spec)
+                continue
+            refs.append(_ConstantRef(name, col0 + 1, spec))
+        else:
+            refs.append(_ConstantRef(name, col0 + 1, None))
+    if errors:
+        return errors
+    if len(refs) != needed:
+        if reversible:
+            problem = (
+                f"a reversible step needs two rate constants (forward, then reverse); "
+                f"found {len(refs)}"
+            )
+        else:
+            problem = f"an irreversible step has one rate constant; found {len(refs)}"
+            if arrow is not None and len(refs) == 2:
+                problem += " (did you mean the reversible arrow <=>?)"
+        return [line.error(problem, refs[0].column, text.strip(), f"write e.g. {example}")]
+    return tuple(refs)
+
+
+_STATEMENTS = (
+    TitleStatement,
+    BalanceStatement,
+    TemperatureStatement,
+    ListStatement,
+    ReactionStatement,
+    ConstantStatement,
+)
+
+
+def _unknown_statement(line: _Line) -> SchemeError:
+    code = line.code
+    lead = len(code) - len(code.lstrip())
+    # Something that looks like a reaction with a wrong arrow?
+    terms = _read_terms(line, code, 0, "left")
+    if not isinstance(terms, SchemeError):
+        _, rest = terms
+        bad = _BAD_ARROW_RE.match(rest.lstrip())
+        if bad and rest.strip():
+            column = len(code) - len(rest) + (len(rest) - len(rest.lstrip())) + 1
+            return line.error(
+                f"unknown arrow {bad.group(0)!r}",
+                column,
+                bad.group(0),
+                "write -> (or →) for an irreversible step and <=> (or ⇌) for a reversible one",
+            )
+    word = re.match(r"\S+", code[lead:])
+    snippet = word.group(0) if word else code.strip()
+    return line.error(
+        f"could not read this line (unknown statement {snippet!r})",
+        lead + 1,
+        snippet,
+        "a line is a reaction (A -> B  k1 = 0.1 1/s), a constant (k1 = 0.1 1/s) or one of "
+        "title:, start, excess, feed, formula, molar_mass, temperature =, balance:",
+    )
+
+
+def _read_statements(text: str, source: str):
+    statements = []
+    errors: list[SchemeError] = []
+    for number, raw in enumerate(text.splitlines(), start=1):
+        line = _Line(source, number, raw.rstrip("\r\n"), _strip_comment(raw))
+        if not line.code.strip():
+            continue
+        for kind in _STATEMENTS:
+            result = kind.from_line(line)
+            if result is None:
+                continue
+            if isinstance(result, list):
+                errors.extend(result)
+            else:
+                statements.append(result)
+            break
+        else:
+            errors.append(_unknown_statement(line))
+    return statements, errors
+
+
+# ---------------------------------------------------------------------------
+# second pass
+
+
+def _did_you_mean(name: str, candidates) -> str:
+    close = difflib.get_close_matches(name, list(candidates), n=1, cutoff=0.6)
+    return f"did you mean {close[0]}?" if close else ""
+
+
+_CONCENTRATION_FAMILIES = {
+    (("[length]", -3), ("[substance]", 1)): "concentration",
+    (("[substance]", 1),): "amount",
+    (("[length]", -3), ("[mass]", 1)): "mass concentration",
+    (("[mass]", 1),): "mass",
+    (): "pure number",
+}
+
+
+class _Builder:
+    """Second pass: resolve names, units, orders and balance across the file."""
+
+    def __init__(self, statements, errors, source, text, strict_balance):
+        self.statements = statements
+        self.errors: list[SchemeError] = errors
+        self.source = source
+        self.text = text
+        self.strict_balance = strict_balance
+
+    def error(self, line: _Line, problem, column=0, snippet="", hint=""):
+        self.errors.append(line.error(problem, column, snippet, hint))
+
+    def build(self) -> Scheme:
+        st = self.statements
+        reactions = [s for s in st if isinstance(s, ReactionStatement)]
+        lists = [s for s in st if isinstance(s, ListStatement)]
+        title = next((s.text for s in st if isinstance(s, TitleStatement)), "")
+        balance_mode = next((s.mode for s in st if isinstance(s, BalanceStatement)), "strict")
+        allow_imbalance = balance_mode == "lumped" or not self.strict_balance
+
+        if not reactions and not self.errors:
+            if not self.text.strip() or not st:
+                problem = "the scheme is empty"
+            else:
+                problem = "the scheme has no reactions"
+            self.errors.append(
+                SchemeError(
+                    problem,
+                    self.source,
+                    0,
+                    0,
+                    "",
+                    "",
+                    "write at least one reaction, e.g. A -> B    k1 = 0.1 1/min",
+                )
+            )
+            raise SchemeErrors(self.errors)
+
+        excess_items = {}
+        for s in lists:
+            if s.kind == "excess":
+                for item in s.items:
+                    excess_items.setdefault(item.name, (item, s.line))
+        excess_names = set(excess_items)
+        self.excess_units = {}
+        for name, (item, _) in excess_items.items():
+            try:
+                self.excess_units[name] = parse_unit(item.value.unit)
+            except ValueError:
+                pass  # reported with the excess statement
+
+        # species in order of first appearance
+        order: dict[str, tuple[int, _Line, int]] = {}
+        for r in reactions:
+            for term in r.left + r.right:
+                order.setdefault(term.name, (len(order), r.line, term.column))
+        all_species = list(order)
+
+        temperature = self._temperature(st)
+        unit_info = self._concentration_unit(lists, excess_names)
+        conc_unit, unit_factor, family_dims = unit_info
+        values = self._lists(lists, all_species, family_dims, unit_factor)
+        excess_values, excess_si = values["excess"]
+
+        constants = self._constants(st, reactions, temperature)
+        reaction_objs, steps = self._reactions(reactions, excess_names, constants, excess_si)
+
+        species_objs, excess_objs = self._species(all_species, excess_names, order, values)
+        if not self.errors:
+            self._balance(reaction_objs, species_objs + excess_objs, allow_imbalance, reactions)
+        if self.errors:
+            raise SchemeErrors(self.errors)
+        return Scheme(
+            species=tuple(species_objs),
+            excess_species=tuple(excess_objs),
+            reactions=tuple(reaction_objs),
+            steps=tuple(steps),
+            constants=constants,
+            initial=values["start"][0],
+            excess=excess_values,
+            feed=values["feed"][0],
+            temperature=temperature,
+            concentration_unit=conc_unit,
+            title=title,
+            source=self.source,
+            text=self.text,
+            allow_imbalance=allow_imbalance,
+            _excess_si=excess_si,
+            _unit_factor=unit_factor,
+        )
+
+    # -- temperature ---------------------------------------------------------
+    def _temperature(self, st):
+        temps = [s for s in st if isinstance(s, TemperatureStatement)]
+        if not temps:
+            return None
+        for extra in temps[1:]:
+            self.error(
+                extra.line,
+                f"the temperature is set twice (first on line {temps[0].line.number})",
+                extra.value.column,
+                extra.value.text,
+                "keep one temperature statement; sweep temperatures with 'kinetics sweep'",
+            )
+        value = temps[0].value
+        line = temps[0].line
+        try:
+            kelvin = temperature_to_kelvin(float(value.number), value.unit or "K")
+        except ValueError:
+            self.error(
+                line,
+                f"{value.unit or 'a number without unit'!r} is not a temperature unit",
+                value.unit_column if value.unit else value.column,
+                value.unit or value.number,
+                "write the temperature in K or degC, e.g. temperature = 60 degC",
+            )
+            return None
+        if not kelvin > 0:
+            self.error(
+                line,
+                f"the temperature {value.text} is at or below absolute zero",
+                value.column,
+                value.text,
+                "write a temperature above 0 K, e.g. temperature = 25 degC",
+            )
+            return None
+        return kelvin
+
+    # -- concentrations --------------------------------------------------------
+    def _concentration_unit(self, lists, excess_names):
+        """Pick the scheme's concentration unit: the unit of the first start value."""
+        for kinds in (("start",), ("excess",), ("feed",)):
+            items = [(s, item) for s in lists if s.kind in kinds for item in s.items]
+            for s, item in items:
+                try:
+                    spec = parse_unit(item.value.unit)
+                except ValueError:
+                    continue  # reported when the item itself is checked
+                dims = spec.dimensions
+                if s.kind == "feed":
+                    dims = tuple(
+                        (k, v)
+                        for k, v in dict(
+                            dims, **{"[time]": dict(dims).get("[time]", 0) + 1}
+                        ).items()
+                        if v
+                    )
+                    dims = tuple(sorted(dims))
+                    if dims not in _CONCENTRATION_FAMILIES:
+                        continue
+                    # a feed in mol/L/min: the concentration unit is mol/L
+                    unit = _concentration_part(item.value.unit)
+                    spec = parse_unit(unit) if unit else None
+                    if spec is None:
+                        return "mol/L", Fraction(1000), dims
+                    return unit, spec.factor, dims
+                if dims not in _CONCENTRATION_FAMILIES:
+                    continue
+                return item.value.unit or "1", spec.factor, dims
+        return "mol/L", Fraction(1000), (("[length]", -3), ("[substance]", 1))
+
+    def _lists(self, lists, all_species, family_dims, unit_factor):
+        known = set(all_species)
+        family = _CONCENTRATION_FAMILIES.get(family_dims, "concentration")
+        first_family_line = None
+        out = {kind: ({}, {}) for kind in ("start", "excess", "feed", "formula", "molar_mass")}
+        seen: dict[tuple[str, str], int] = {}
+        for s in lists:
+            for item in s.items:
+                if item.name not in known:
+                    hint = _did_you_mean(item.name, known) or (
+                        "a species must take part in a reaction before it can be given a "
+                        f"{s.kind.replace('_', ' ')}"
+                    )
+                    self.error(
+                        s.line,
+                        f"{item.name} occurs in no reaction",
+                        item.name_column,
+                        item.name,
+                        hint,
+                    )
+                    continue
+                key = (s.kind, item.name)
+                if key in seen:
+                    self.error(
+                        s.line,
+                        f"{s.kind.replace('_', ' ')} of {item.name} is given twice "
+                        f"(first on line {seen[key]})",
+                        item.name_column,
+                        item.name,
+                        "give each value once",
+                    )
+                    continue
+                seen[key] = s.line.number
+                if s.kind == "formula":
+                    out["formula"][0][item.name] = item.formula
+                    continue
+                v = item.value
+                if s.kind == "molar_mass":
+                    spec = _unit_of(s.line, v, f"the molar mass of {item.name}", "g/mol")
+                    if isinstance(spec, SchemeError):
+                        self.errors.append(spec)
+                        continue
+                    if spec.dims != {"[mass]": 1, "[substance]": -1}:
+                        self.error(
+                            s.line,
+                            f"the molar mass of {item.name} is {v.text}, "
+                            f"which is {describe_dimension(spec.dims)}",
+                            v.unit_column if v.unit else v.column,
+                            v.unit or v.number,
+                            "write a molar mass such as 180.2 g/mol",
+                        )
+                        continue
+                    out["molar_mass"][0][item.name] = float(Fraction(v.number) * spec.factor * 1000)
+                    continue
+                spec = _unit_of(
+                    s.line, v, f"{s.kind} {item.name}", "mol/L" if s.kind != "feed" else "mol/L/min"
+                )
+                if isinstance(spec, SchemeError):
+                    self.errors.append(spec)
+                    continue
+                dims = dict(spec.dimensions)
+                if s.kind == "feed":
+                    dims["[time]"] = dims.get("[time]", 0) + 1
+                dims_t = tuple(sorted((k, Fraction(x)) for k, x in dims.items() if x))
+                if dims_t != family_dims:
+                    self.errors.append(
+                        self._family_error(s, item, v, spec, dims_t, family, family_dims)
+                    )
+                    continue
+                si = Fraction(v.number) * spec.factor
+                value = float(si / unit_factor)
+                out[s.kind][0][item.name] = value
+                out[s.kind][1][item.name] = si
+                first_family_line = first_family_line or s.line.number
+        return out
+
+    def _family_error(self, s, item, v, spec, dims_t, family, family_dims):
+        is_known_family = dims_t in _CONCENTRATION_FAMILIES
+        what = describe_dimension(spec.dims)
+        col = v.unit_column if v.unit else v.column
+        snippet = v.unit or v.number
+        example = {"start": "0.5 mol/L", "excess": "55 mol/L", "feed": "0.01 mol/L/min"}[s.kind]
+        if s.kind == "feed":
+            if is_known_family:
+                problem = (
+                    f"the feed of {item.name} is {v.text}, a feed of "
+                    f"{_CONCENTRATION_FAMILIES[dims_t]}, but this file uses {family} values"
+                )
+            else:
+                problem = (
+                    f"the feed of {item.name} is {v.text}, which is {what}, not a rate "
+                    "of input (concentration per time)"
+                )
+            return s.line.error(problem, col, snippet, f"write e.g. feed {item.name} = {example}")
+        if is_known_family:
+            other = _CONCENTRATION_FAMILIES[dims_t]
+            if {other, family} == {"amount", "concentration"}:
+                problem = (
+                    f"{s.kind} {item.name} = {v.text} is an amount while the file uses "
+                    "concentrations (or the other way round); amounts (mol) and "
+                    "concentrations (mol/L) may not be mixed in one file"
+                )
+            elif not v.unit:
+                problem = f"{s.kind} {item.name} = {v.number} has no unit"
+            else:
+                problem = (
+                    f"{s.kind} {item.name} = {v.text} is a {other} value, but this file "
+                    f"uses {family} values"
+                )
+            return s.line.error(
+                problem, col, snippet, f"write every value in one kind of unit, e.g. {example}"
+            )
+        return s.line.error(
+            f"{s.kind} {item.name} = {v.text} is {what}, not a concentration",
+            col,
+            snippet,
+            f"write a concentration such as {example} (or an amount, a mass or a pure number)",
+        )
+
+    # -- rate constants ------------------------------------------------------
+    def _constants(self, st, reactions, temperature):
+        specs: list[tuple[_ConstantSpec, _Line]] = []
+        for s in st:
+            if isinstance(s, ConstantStatement):
+                specs.append((s.spec, s.line))
+            elif isinstance(s, ReactionStatement):
+                for ref in s.constants:
+                    if ref.spec is not None:
+                        specs.append((ref.spec, s.line))
+        constants: dict[str, RateConstant] = {}
+        first_line: dict[str, int] = {}
+        for spec, line in specs:
+            constant = self._constant(spec, line, temperature)
+            if constant is None:
+                continue
+            if spec.name in constants:
+                old = constants[spec.name]
+                same = (old.value_si, old.arrhenius and old.arrhenius.prefactor_si) == (
+                    constant.value_si,
+                    constant.arrhenius and constant.arrhenius.prefactor_si,
+                ) and (
+                    (old.arrhenius is None) == (constant.arrhenius is None)
+                    and (
+                        old.arrhenius is None
+                        or old.arrhenius.activation_energy == constant.arrhenius.activation_energy
+                    )
+                )
+                if not same:
+                    self.error(
+                        line,
+                        f"rate constant {spec.name} is defined twice with different values "
+                        f"({old.text} on line {first_line[spec.name]}, {constant.text} here)",
+                        spec.column,
+                        spec.name,
+                        f"give each constant one value, or refer to it by name alone: {spec.name}",
+                    )
+                continue
+            constants[spec.name] = constant
+            first_line[spec.name] = line.number
+        # references to undefined constants
+        for r in reactions:
+            for ref in r.constants:
+                if ref.spec is None and ref.name not in constants:
+                    defined_somewhere = any(sp.name == ref.name for sp, _ in specs)
+                    if defined_somewhere:
+                        continue  # its definition had an error, already reported
+                    hint = _did_you_mean(ref.name, constants)
+                    hint = hint or (
+                        f"define it, e.g. {ref.name} = 0.1 1/s on a line of its own or on the "
+                        "reaction line"
+                    )
+                    self.error(
+                        r.line,
+                        f"rate constant {ref.name} is used but never defined",
+                        ref.column,
+                        ref.name,
+                        hint,
+                    )
+        return constants
+
+    def _constant(self, spec: _ConstantSpec, line: _Line, temperature):
+        if spec.is_arrhenius:
+            a, ea = spec.prefactor, spec.energy
+            a_unit = _unit_of(line, a, f"the pre-exponential factor of {spec.name}", "1/s")
+            e_unit = _unit_of(line, ea, f"the activation energy of {spec.name}", "kJ/mol")
+            ok = True
+            for u in (a_unit, e_unit):
+                if isinstance(u, SchemeError):
+                    self.errors.append(u)
+                    ok = False
+            if not ok:
+                return None
+            order = concentration_order(a_unit.dims)
+            if order is None:
+                self.error(
+                    line,
+                    f"the pre-exponential factor of {spec.name} is {a.text}, which is "
+                    f"{describe_dimension(a_unit.dims)}, not a rate constant",
+                    a.unit_column if a.unit else a.column,
+                    a.unit or a.number,
+                    "give A in the units of the rate constant, e.g. A = 1.0e13 1/s",
+                )
+                return None
+            if e_unit.dims != {
+                "[mass]": 1,
+                "[length]": 2,
+                "[time]": -2,
+                "[substance]": -1,
+            }:
+                self.error(
+                    line,
+                    f"the activation energy of {spec.name} is {ea.text}, which is "
+                    f"{describe_dimension(e_unit.dims)}, not a molar energy",
+                    ea.unit_column if ea.unit else ea.column,
+                    ea.unit or ea.number,
+                    "write Ea in kJ/mol or J/mol, e.g. Ea = 95 kJ/mol",
+                )
+                return None
+            if temperature is None:
+                self.error(
+                    line,
+                    f"{spec.name} follows the Arrhenius law but the file sets no temperature",
+                    spec.column,
+                    spec.name,
+                    "add a line such as temperature = 60 degC",
+                )
+            energy = float(Fraction(ea.number) * e_unit.factor)
+            arrhenius = Arrhenius(Fraction(a.number) * a_unit.factor, energy, a.text, ea.text)
+            return RateConstant(spec.name, spec.text, None, a.unit, order, arrhenius, line.number)
+        v = spec.value
+        unit = _unit_of(line, v, f"rate constant {spec.name}", "1/s")
+        if isinstance(unit, SchemeError):
+            self.errors.append(unit)
+            return None
+        order = concentration_order(unit.dims)
+        if order is None:
+            self.error(
+                line,
+                f"rate constant {spec.name} = {v.text} is {describe_dimension(unit.dims)}, "
+                "not a rate constant",
+                v.unit_column,
+                v.unit,
+                "a first-order constant has the unit 1/time (e.g. 1/s, min-1); a "
+                "pseudo-first-order one concentration^-1/time (e.g. M-1 s-1)",
+            )
+            return None
+        return RateConstant(
+            spec.name, spec.text, Fraction(v.number) * unit.factor, v.unit, order, None, line.number
+        )
+
+    # -- reactions -------------------------------------------------------------
+    def _reactions(self, reactions, excess_names, constants, excess_si):
+        reaction_objs: list[Reaction] = []
+        steps: list[Step] = []
+        for index, r in enumerate(reactions):
+            sides = [("left", r.left)]
+            if r.reversible:
+                sides.append(("right", r.right))
+            reacting = {}
+            for side, terms in sides:
+                movers = [t for t in terms if t.name not in excess_names]
+                partners = [t for t in terms if t.name in excess_names]
+                if len(movers) != 1:
+                    self._order_error(r, side, movers, partners)
+                    continue
+                mover = movers[0]
+                if mover.coefficient != 1:
+                    self.error(
+                        r.line,
+                        f"{mover.name} has the coefficient {mover.coefficient:g} on the "
+                        f"{side} of a first-order step",
+                        mover.column,
+                        mover.name,
+                        "a first-order step consumes one molecule of its reactant; scale the "
+                        "products instead",
+                    )
+                    continue
+                reacting[side] = (mover, partners)
+            names = [ref.name for ref in r.constants]
+            reaction_objs.append(
+                Reaction(
+                    tuple((t.coefficient, t.name) for t in r.left),
+                    tuple((t.coefficient, t.name) for t in r.right),
+                    r.reversible,
+                    tuple(names),
+                    r.line.number,
+                    r.line.text,
+                )
+            )
+            if len(reacting) != len(sides):
+                continue
+            directions = [("forward", "left", r.left, r.right, r.constants[0])]
+            if r.reversible:
+                directions.append(("reverse", "right", r.right, r.left, r.constants[1]))
+            for direction, side, _reactants, products, ref in directions:
+                mover, partners = reacting[side]
+                constant = constants.get(ref.name)
+                if constant is None:
+                    continue
+                self._check_order(r, ref, constant, mover, partners, excess_si)
+                steps.append(
+                    Step(
+                        reactant=mover.name,
+                        products=tuple((t.coefficient, t.name) for t in products),
+                        constant=ref.name,
+                        co_reactants=tuple((t.coefficient, t.name) for t in partners),
+                        reaction=index,
+                        direction=direction,
+                    )
+                )
+            # an excess species cannot be the reactant of a step; checked in _order_error
+        return reaction_objs, steps
+
+    def _order_error(self, r: ReactionStatement, side, movers, partners):
+        line = r.line
+        if not movers:
+            terms = r.left if side == "left" else r.right
+            self.error(
+                line,
+                f"every species on the {side} of this step is held in excess, so nothing is "
+                "consumed",
+                terms[0].column,
+                terms[0].name,
+                "a first-order step needs one reacting species that is not declared 'excess'",
+            )
+            return
+        names = " and ".join(t.name for t in movers)
+        second = movers[1]
+        self.error(
+            line,
+            f"{names} react together on the {side} of this step: that is a second- or "
+            "higher-order step, and this tool solves first-order schemes",
+            second.column,
+            second.name,
+            f"if {second.name} is present in large excess, declare it: "
+            f"excess {second.name} = 1.0 mol/L (pseudo-first-order)",
+        )
+
+    def _check_order(self, r, ref, constant: RateConstant, mover, partners, excess_si):
+        needed = sum(Fraction(t.coefficient) for t in partners)
+        line = r.line
+        if constant.order == needed:
+            if partners and all(t.name in excess_si for t in partners):
+                # dimensions must cancel to 1/time (amounts vs concentrations)
+                k_dims = parse_unit(constant.unit).dims
+                total = dict(k_dims)
+                for t in partners:
+                    spec = self.excess_units.get(t.name)
+                    if spec is None:
+                        continue
+                    for k, v in spec.dims.items():
+                        total[k] = total.get(k, 0) + v * Fraction(t.coefficient)
+                total = {k: v for k, v in total.items() if v}
+                if total != {"[time]": -1}:
+                    self.error(
+                        line,
+                        f"{constant.name} ({constant.unit}) times the excess concentration of "
+                        + " and ".join(t.name for t in partners)
+                        + f" does not give 1/time but {describe_dimension(total)}",
+                        ref.column,
+                        ref.name,
+                        "use concentration units for both (e.g. M-1 s-1 with mol/L)",
+                    )
+            return
+        ordinal = {0: "first", 1: "second", 2: "third", 3: "fourth"}
+        implied = ordinal.get(constant.order, f"order {constant.order + 1}")
+        if needed == 0:
+            hint = (
+                "a first-order step needs 1/time (e.g. 1/s); if a co-reactant is present in "
+                f"large excess, write it on the left (e.g. {mover.name} + W -> ...) and declare "
+                "it: excess W = 55 mol/L"
+            )
+        else:
+            hint = (
+                f"with {' and '.join(t.name for t in partners)} in excess the constant needs "
+                f"concentration^-{needed}/time (e.g. M-1 s-1 for one co-reactant)"
+            )
+        self.error(
+            line,
+            f"the units of {constant.name} ({constant.unit}) imply a {implied}-order step, "
+            f"but {mover.name} reacts here "
+            + (
+                "on its own (first order)"
+                if needed == 0
+                else f"with {needed} excess co-reactant(s) (order {needed + 1} overall)"
+            ),
+            ref.column,
+            ref.name,
+            hint,
+        )
+
+    # -- species and balance ---------------------------------------------------
+    def _species(self, all_species, excess_names, order, values):
+        formulas = values["formula"][0]
+        masses = dict(values["molar_mass"][0])
+        from .balance import formula_mass, parse_formula
+
+        species_objs, excess_objs = [], []
+        for s in [x for x in self.statements if isinstance(x, ListStatement)]:
+            if s.kind != "formula":
+                continue
+            for item in s.items:
+                if item.name not in formulas:
+                    continue
+                try:
+                    parse_formula(item.formula)
+                except ValueError as exc:
+                    col = s.line.code.find(item.formula, item.name_column - 1) + 1
+                    self.error(
+                        s.line,
+                        f"the formula {item.formula!r} of {item.name} does not parse ({exc})",
+                        col,
+                        item.formula,
+                        "write elements with counts, e.g. C6H12O6 or CH3COOH",
+                    )
+                    formulas.pop(item.name, None)
+                    continue
+                if item.name in masses:
+                    self.error(
+                        s.line,
+                        f"{item.name} has both a formula and a molar mass",
+                        item.name_column,
+                        item.name,
+                        "give one of them; the molar mass follows from the formula",
+                    )
+                    continue
+                masses[item.name] = formula_mass(item.formula)
+        for name in all_species:
+            sp = Species(
+                name,
+                formulas.get(name),
+                masses.get(name),
+                name in excess_names,
+                order[name][1].number,
+            )
+            (excess_objs if name in excess_names else species_objs).append(sp)
+        return species_objs, excess_objs
+
+    def _balance(self, reaction_objs, species, allow_imbalance, statements):
+        from .balance import atom_balance
+
+        formulas = {s.name: s.formula for s in species}
+        for reaction, statement in zip(reaction_objs, statements, strict=True):
+            result = atom_balance(reaction, formulas)
+            if result is None or result.ok or allow_imbalance:
+                continue
+            self.error(
+                statement.line,
+                f"atoms do not balance in {reaction.equation}: left {result.left_text}, "
+                f"right {result.right_text}",
+                statement.arrow_column,
+                "<=>" if reaction.reversible else "->",
+                "correct the formulas or coefficients, or write 'balance: lumped' for a "
+                "lumped scheme",
+            )
+
+
+def _concentration_part(feed_unit: str) -> str:
+    """``mol/L/min`` -> ``mol/L``: drop a trailing time division from a feed unit."""
+    text = feed_unit.strip()
+    m = re.match(
+        r"^(?P<conc>.+?)\s*(?:/\s*(?:s|sec|min|h|hr|hour|d|day)|\s+(?:s|min|h|d)-1)$", text
+    )
+    return m.group("conc") if m else ""
+
+
+# ---------------------------------------------------------------------------
+# public entry points
+
+
+def parse(text: str, source: str = "<text>", *, strict_balance: bool = True) -> Scheme:
+    """Parse scheme text into a checked :class:`~kinetics.scheme.Scheme`.
+
+    Parameters
+    ----------
+    text : str
+        The scheme, in the language described in the module docstring.
+    source : str, optional
+        Name used in error messages (a file name).
+    strict_balance : bool, optional
+        When False, an atom imbalance is not an error (as with ``balance: lumped``).
+
+    Returns
+    -------
+    Scheme
+
+    Raises
+    ------
+    SchemeErrors
+        With every mistake found in the text, each with line, column and a hint.
+
+    Examples
+    --------
+    >>> s = parse("A -> B  k1 = 0.12 1/min\\nstart A = 1 mol/L")
+    >>> s.species_names, float(s.rates[0])
+    (['A', 'B'], 0.002)
+    """
+    statements, errors = _read_statements(text, source)
+    return _Builder(statements, errors, source, text, strict_balance).build()
+
+
+def load(path, *, strict_balance: bool = True) -> Scheme:
+    """Read and check a scheme file.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        The scheme file (UTF-8 text).
+    strict_balance : bool, optional
+        See :func:`parse`.
+
+    Returns
+    -------
+    Scheme
+
+    Raises
+    ------
+    SchemeFileError
+        When the file is missing, a folder, unreadable or not UTF-8.
+    SchemeErrors
+        When the text has mistakes.
+    """
+    p = Path(path)
+    if not p.exists():
+        raise SchemeFileError("no such file", str(path), "check the path (and the current folder)")
+    if p.is_dir():
+        raise SchemeFileError("this is a folder, not a scheme file", str(path), "name a file")
+    try:
+        data = p.read_bytes()
+    except OSError as exc:
+        raise SchemeFileError(f"cannot read the file ({exc.strerror})", str(path)) from exc
+    try:
+        text = data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        raise SchemeFileError(
+            f"the file is not UTF-8 text (undecodable byte at line {line})",
+            str(path),
+            "save it as UTF-8 (plain text)",
+        ) from exc
+    return parse(text, str(path), strict_balance=strict_balance)

@@ -1,0 +1,368 @@
+"""The checked reaction scheme: species, rate constants, reactions and steps.
+
+A :class:`Scheme` is what :func:`kinetics.load` and :func:`kinetics.parse`
+return.  It is immutable; every number in it is already converted to the
+canonical units of the core:
+
+* time in seconds, first-order (effective) rate constants in 1/s;
+* concentrations (start, excess, feed) in the scheme's own
+  ``concentration_unit`` (the unit of the first start value, kept for output);
+* feed rates in ``concentration_unit`` per second;
+* temperature in kelvin.
+
+Species held in excess are constant and are not part of the rate matrix; the
+matrix species are the others, in order of first appearance in the reactions.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+from fractions import Fraction
+from functools import cached_property
+
+import numpy as np
+
+from .units import GAS_CONSTANT
+
+__all__ = ["Arrhenius", "RateConstant", "Reaction", "Scheme", "Species", "Step"]
+
+
+@dataclass(frozen=True)
+class Species:
+    """A species of the scheme.
+
+    Attributes
+    ----------
+    name : str
+        As written in the file.
+    formula : str or None
+        Element formula (``C6H12O6``) when declared.
+    molar_mass : float or None
+        [g/mol], from the formula or a ``molar_mass`` declaration.
+    excess : bool
+        True for a co-reactant held at constant concentration.
+    line : int
+        Line of first appearance.
+    """
+
+    name: str
+    formula: str | None = None
+    molar_mass: float | None = None
+    excess: bool = False
+    line: int = 0
+
+
+@dataclass(frozen=True)
+class Arrhenius:
+    """Arrhenius parameters of a rate constant.
+
+    .. math:: k(T) = A \\exp\\left(-\\frac{E_a}{R T}\\right)
+
+    Attributes
+    ----------
+    prefactor_si : Fraction
+        Pre-exponential factor A in SI base units (1/s for first order).
+    activation_energy : float
+        Ea [J/mol].
+    prefactor_text, energy_text : str
+        As written.
+
+    References
+    ----------
+    S. Arrhenius, Z. Phys. Chem. 4, 226 (1889).
+    """
+
+    prefactor_si: Fraction
+    activation_energy: float
+    prefactor_text: str = ""
+    energy_text: str = ""
+
+    def at(self, temperature: float) -> float:
+        """The constant in SI units at ``temperature`` [K]."""
+        return float(self.prefactor_si) * math.exp(
+            -self.activation_energy / (GAS_CONSTANT * temperature)
+        )
+
+
+@dataclass(frozen=True)
+class RateConstant:
+    """A named rate constant as defined in the file.
+
+    Attributes
+    ----------
+    name : str
+    text : str
+        The definition as written (``0.12 1/min`` or ``arrhenius(...)``).
+    value_si : Fraction or None
+        Exact value in SI base units (``None`` for Arrhenius constants, whose
+        value depends on the temperature).
+    unit : str
+        Unit as written (for Arrhenius: the unit of A).
+    order : int
+        Concentration order implied by the units: 0 for 1/time, 1 for
+        1/(concentration time), ...
+    arrhenius : Arrhenius or None
+    line : int
+    """
+
+    name: str
+    text: str
+    value_si: Fraction | None
+    unit: str
+    order: int
+    arrhenius: Arrhenius | None = None
+    line: int = 0
+
+    def si_value(self, temperature: float | None) -> float:
+        """The constant in SI base units (at ``temperature`` [K] for Arrhenius ones)."""
+        if self.arrhenius is not None:
+            if temperature is None:
+                raise ValueError("an Arrhenius constant needs a temperature")
+            return self.arrhenius.at(temperature)
+        return float(self.value_si)
+
+
+@dataclass(frozen=True)
+class Step:
+    """One irreversible first-order step, the unit the rate matrix is built from.
+
+    A reversible reaction contributes two steps (forward and reverse).
+
+    Attributes
+    ----------
+    reactant : str
+        The one species consumed.
+    products : tuple of (float, str)
+        Stoichiometric coefficient and name of each product (excess products included).
+    constant : str
+        Name of the rate constant.
+    co_reactants : tuple of (float, str)
+        Excess co-reactants on the reacting side: the constant is multiplied by
+        their concentrations to the power of their coefficients.
+    reaction : int
+        Index of the reaction (line) this step comes from.
+    direction : str
+        ``"forward"`` or ``"reverse"``.
+    """
+
+    reactant: str
+    products: tuple[tuple[float, str], ...]
+    constant: str
+    co_reactants: tuple[tuple[float, str], ...] = ()
+    reaction: int = 0
+    direction: str = "forward"
+
+    @property
+    def equation(self) -> str:
+        """The step written out, e.g. ``A + W -> B``."""
+        left = " + ".join([self.reactant] + [_term(c, n) for c, n in self.co_reactants])
+        right = " + ".join(_term(c, n) for c, n in self.products)
+        return f"{left} -> {right}"
+
+
+def _term(coefficient: float, name: str) -> str:
+    if coefficient == 1:
+        return name
+    text = f"{coefficient:g}"
+    return f"{text} {name}"
+
+
+@dataclass(frozen=True)
+class Reaction:
+    """A reaction line as written.
+
+    Attributes
+    ----------
+    left, right : tuple of (float, str)
+        Terms of each side.
+    reversible : bool
+    constants : tuple of str
+        One name (irreversible) or forward and reverse names.
+    line : int
+    text : str
+        The source line.
+    """
+
+    left: tuple[tuple[float, str], ...]
+    right: tuple[tuple[float, str], ...]
+    reversible: bool
+    constants: tuple[str, ...]
+    line: int = 0
+    text: str = ""
+
+    @property
+    def equation(self) -> str:
+        """The reaction written out in canonical form (``B <=> D``)."""
+        arrow = "<=>" if self.reversible else "->"
+        left = " + ".join(_term(c, n) for c, n in self.left)
+        right = " + ".join(_term(c, n) for c, n in self.right)
+        return f"{left} {arrow} {right}"
+
+
+@dataclass(frozen=True, eq=False)
+class Scheme:
+    """A checked first-order reaction scheme.
+
+    Build it with :func:`kinetics.parse` or :func:`kinetics.load`.
+
+    Attributes
+    ----------
+    species : tuple of Species
+        Matrix species in order of first appearance (excess species excluded).
+    excess_species : tuple of Species
+        Co-reactants held at constant concentration.
+    reactions : tuple of Reaction
+    steps : tuple of Step
+    constants : dict of str to RateConstant
+    initial : dict of str to float
+        Start concentrations [concentration_unit]; species not listed start at 0.
+    excess : dict of str to float
+        Excess concentrations [concentration_unit].
+    feed : dict of str to float
+        Zero-order inputs [concentration_unit/s].
+    temperature : float or None
+        [K].
+    concentration_unit : str
+        A pint-parsable unit, as the user wrote it.
+    title : str
+    source : str
+        File name, or ``"<text>"``.
+    text : str
+        The scheme as written.
+    allow_imbalance : bool
+        True when the file opted out of the atom-balance error (lumped schemes).
+    """
+
+    species: tuple[Species, ...]
+    excess_species: tuple[Species, ...]
+    reactions: tuple[Reaction, ...]
+    steps: tuple[Step, ...]
+    constants: dict[str, RateConstant]
+    initial: dict[str, float]
+    excess: dict[str, float]
+    feed: dict[str, float]
+    temperature: float | None
+    concentration_unit: str
+    title: str = ""
+    source: str = "<text>"
+    text: str = ""
+    allow_imbalance: bool = False
+    _excess_si: dict[str, Fraction] = field(default_factory=dict, repr=False)
+    _unit_factor: Fraction = field(default=Fraction(1), repr=False)
+
+    # -- names and vectors -------------------------------------------------
+    @property
+    def species_names(self) -> list[str]:
+        """Names of the matrix species, in matrix order."""
+        return [s.name for s in self.species]
+
+    @cached_property
+    def index(self) -> dict[str, int]:
+        """Matrix index of each species name."""
+        return {s.name: i for i, s in enumerate(self.species)}
+
+    def species_by_name(self, name: str) -> Species:
+        """The :class:`Species` called ``name`` (matrix or excess)."""
+        for s in self.species + self.excess_species:
+            if s.name == name:
+                return s
+        raise KeyError(name)
+
+    @property
+    def initial_vector(self) -> np.ndarray:
+        """Start concentrations in matrix order [concentration_unit]."""
+        c0 = np.zeros(len(self.species))
+        for name, value in self.initial.items():
+            c0[self.index[name]] = value
+        return c0
+
+    @property
+    def feed_vector(self) -> np.ndarray:
+        """Zero-order inputs in matrix order [concentration_unit/s]."""
+        f = np.zeros(len(self.species))
+        for name, value in self.feed.items():
+            f[self.index[name]] = value
+        return f
+
+    @property
+    def molar_masses(self) -> np.ndarray:
+        """Molar masses in matrix order [g/mol]; NaN where unknown."""
+        return np.array(
+            [np.nan if s.molar_mass is None else s.molar_mass for s in self.species], dtype=float
+        )
+
+    # -- rate constants --------------------------------------------------------
+    def step_rates(
+        self, constants: dict[str, float] | None = None, temperature: float | None = None
+    ) -> np.ndarray:
+        """Effective first-order rate constant of every step [1/s].
+
+        .. math:: k_\\mathrm{eff} = k \\prod_j [W_j]^{\\nu_j}
+
+        for excess co-reactants :math:`W_j` with coefficients :math:`\\nu_j`.
+
+        Parameters
+        ----------
+        constants : dict of str to float, optional
+            Override values in SI base units (1/s for first-order constants).
+        temperature : float, optional
+            Override temperature [K] for Arrhenius constants.
+
+        Returns
+        -------
+        numpy.ndarray
+            One rate per step, in the order of :attr:`steps`.
+        """
+        from .ratematrix import step_rates
+
+        return step_rates(self, constants=constants, temperature=temperature)
+
+    @cached_property
+    def rates(self) -> np.ndarray:
+        """Effective rate constant of every step at the scheme's values [1/s]."""
+        rates = self.step_rates()
+        rates.setflags(write=False)
+        return rates
+
+    def rate_matrix(self) -> np.ndarray:
+        """The rate matrix K [1/s], dense, species × species in matrix order.
+
+        .. math:: \\frac{dc}{dt} = K c + f
+        """
+        from .ratematrix import dense_rate_matrix
+
+        return dense_rate_matrix(self, self.rates)
+
+    def rate_matrix_sparse(self):
+        """The rate matrix K [1/s] as a ``scipy.sparse.csr_array``."""
+        from .ratematrix import sparse_rate_matrix
+
+        return sparse_rate_matrix(self, self.rates)
+
+    def constant_per_second(self, name: str) -> float:
+        """A first-order constant in 1/s, or a higher-order one in SI base units."""
+        return self.constants[name].si_value(self.temperature)
+
+    def with_values(
+        self,
+        *,
+        constants: dict[str, float] | None = None,
+        temperature: float | None = None,
+        initial: dict[str, float] | None = None,
+    ) -> Scheme:
+        """A copy with some constants [SI], the temperature [K] or start values replaced."""
+        new_constants = dict(self.constants)
+        for name, value in (constants or {}).items():
+            old = new_constants[name]
+            new_constants[name] = replace(
+                old, value_si=Fraction(value), arrhenius=None, text=f"{value!r} (SI)"
+            )
+        new_initial = dict(self.initial)
+        new_initial.update(initial or {})
+        return replace(
+            self,
+            constants=new_constants,
+            temperature=self.temperature if temperature is None else temperature,
+            initial=new_initial,
+        )

@@ -1,0 +1,295 @@
+"""Units: the one pint registry of the package and the notation chemists write.
+
+Units live only at the boundary.  The core computes in canonical floats:
+seconds, 1/s, and the scheme's own concentration unit.  Conversions are done
+with exact rational factors (pint with :class:`fractions.Fraction` magnitudes),
+so that ``0.12 1/min`` becomes the double nearest to 0.002 1/s and not a value
+that carries the round-off of a floating-point conversion chain.
+
+Notation accepted on top of everything pint parses:
+
+* exponents written after the unit, with or without a sign: ``s-1``, ``min-1``,
+  ``M-1 s-1``, ``L mol-1 s-1``, ``m3``; caret or double star forms ``s^-1``;
+* superscripts: ``s⁻¹``, ``M⁻¹ s⁻¹``;
+* juxtaposition as multiplication: ``L mol-1 s-1``;
+* ``M`` for mol/L (pint's ``molar``), ``µ``/``μ`` prefixes, ``°C`` for degC.
+"""
+
+from __future__ import annotations
+
+import functools
+import re
+from dataclasses import dataclass
+from fractions import Fraction
+
+__all__ = [
+    "GAS_CONSTANT",
+    "UnitSpec",
+    "concentration_order",
+    "convert",
+    "describe_dimension",
+    "normalise_unit",
+    "parse_unit",
+    "temperature_to_kelvin",
+]
+
+#: Molar gas constant R [J/(mol K)], exact in the 2019 SI (CODATA 2018).
+GAS_CONSTANT = 8.314462618
+
+_SUPERSCRIPTS = str.maketrans("⁰¹²³⁴⁵⁶⁷⁸⁹⁻⁺", "0123456789-+")
+_PIECE = re.compile(r"\(|\)|/|[^\s*/·⋅()]+")
+_POWER = re.compile(
+    r"^(?P<name>[^\W\d_][\w]*?)(?:\^|\*\*)?(?P<exp>[-+−]?\d+)$",
+)
+_NUMBER = re.compile(r"^[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$")
+
+
+@functools.lru_cache(maxsize=1)
+def registry():
+    """Return the package's one pint registry (exact rational magnitudes).
+
+    Created on first use (loading pint's definitions takes a fraction of a
+    second), then shared.
+    """
+    import pint
+
+    return pint.UnitRegistry(non_int_type=Fraction, autoconvert_offset_to_baseunit=True)
+
+
+def normalise_unit(text: str) -> str:
+    """Rewrite chemists' unit notation into a string pint parses.
+
+    Parameters
+    ----------
+    text : str
+        A unit as written in a scheme, e.g. ``"L mol-1 s-1"`` or ``"s⁻¹"``.
+
+    Returns
+    -------
+    str
+        The same unit in pint syntax, e.g. ``"L*mol**-1*s**-1"``.
+
+    Examples
+    --------
+    >>> normalise_unit("M-1 s-1")
+    'M**-1*s**-1'
+    >>> normalise_unit("mol/L/min")
+    'mol/L/min'
+    """
+    text = text.strip().translate(_SUPERSCRIPTS).replace("−", "-")
+    text = text.replace("°C", "degC").replace("°F", "degF").replace("℃", "degC")
+    text = text.replace("µ", "u").replace("μ", "u")
+    out: list[str] = []
+    previous_is_word = False
+    for piece in _PIECE.findall(text):
+        is_word = piece not in ("(", ")", "/")
+        if is_word and out and out[-1] == ")" and re.fullmatch(r"[-+]?\d+", piece):
+            out.append("**" + piece.replace("+", ""))
+            previous_is_word = True
+            continue
+        if is_word:
+            match = _POWER.match(piece)
+            if match:
+                piece = f"{match['name']}**{match['exp'].replace('+', '')}"
+            if previous_is_word:
+                out.append("*")
+        elif piece == "(" and previous_is_word:
+            out.append("*")
+        out.append(piece)
+        previous_is_word = is_word or piece == ")"
+    return "".join(out)
+
+
+@dataclass(frozen=True)
+class UnitSpec:
+    """A parsed unit: the text as written, its exact factor to SI and its dimension.
+
+    Attributes
+    ----------
+    text : str
+        The unit as the user wrote it (kept for display).
+    factor : Fraction
+        Exact factor to SI base units (``1 text = factor * SI``).
+    dimensions : tuple of (str, Fraction)
+        Sorted dimension exponents, e.g. ``(("[time]", -1),)`` for 1/s.
+    offset : bool
+        True for units with an offset (degC, degF): use :func:`temperature_to_kelvin`.
+    """
+
+    text: str
+    factor: Fraction
+    dimensions: tuple[tuple[str, Fraction], ...]
+    offset: bool = False
+
+    @property
+    def dims(self) -> dict[str, Fraction]:
+        """Dimension exponents as a dict."""
+        return dict(self.dimensions)
+
+
+@functools.lru_cache(maxsize=4096)
+def parse_unit(text: str) -> UnitSpec:
+    """Parse a unit written in chemists' notation.
+
+    Parameters
+    ----------
+    text : str
+        The unit, e.g. ``"1/min"``, ``"M-1 s-1"``, ``"mmol/L"``; empty for a pure number.
+
+    Returns
+    -------
+    UnitSpec
+
+    Raises
+    ------
+    ValueError
+        When pint cannot read the unit (callers turn this into a located error).
+    """
+    if not text.strip():
+        return UnitSpec(text, Fraction(1), ())
+    ureg = registry()
+    normal = normalise_unit(text)
+    if _NUMBER.match(normal.strip()):
+        raise ValueError(f"{text!r} is a number, not a unit")
+    try:
+        unit = ureg.parse_units(normal)
+    except Exception as exc:  # pint raises several unrelated types
+        raise ValueError(f"unknown unit {text!r}") from exc
+    quantity = ureg.Quantity(Fraction(1), unit)
+    if not quantity._is_multiplicative:
+        return UnitSpec(text, Fraction(1), _dims_tuple(quantity.dimensionality), True)
+    base = ureg.Quantity(Fraction(1), unit).to_base_units()
+    return UnitSpec(text, Fraction(base.magnitude), _dims_tuple(base.dimensionality), False)
+
+
+def _dims_tuple(dimensionality) -> tuple[tuple[str, Fraction], ...]:
+    return tuple(sorted((str(k), Fraction(v)) for k, v in dict(dimensionality).items() if v))
+
+
+def convert(value: float, from_unit: str, to_unit: str) -> float:
+    """Convert a number between two units of the same dimension, rounding once.
+
+    Parameters
+    ----------
+    value : float
+        The number in ``from_unit``.
+    from_unit, to_unit : str
+        Units in chemists' notation.
+
+    Returns
+    -------
+    float
+        ``value`` expressed in ``to_unit``.
+
+    Raises
+    ------
+    ValueError
+        When the units are unknown or of different dimensions.
+
+    Examples
+    --------
+    >>> convert(90.0, "min", "h")
+    1.5
+    """
+    a, b = parse_unit(from_unit), parse_unit(to_unit)
+    if a.offset or b.offset:
+        raise ValueError("use temperature_to_kelvin for temperatures")
+    if a.dimensions != b.dimensions:
+        raise ValueError(
+            f"cannot convert {from_unit!r} ({describe_dimension(a.dims)}) to {to_unit!r} "
+            f"({describe_dimension(b.dims)})"
+        )
+    return float(Fraction(value) * a.factor / b.factor)
+
+
+def temperature_to_kelvin(value: float, unit: str) -> float:
+    """Convert a temperature to kelvin (accepts K, degC, degF and °C).
+
+    Parameters
+    ----------
+    value : float
+        The temperature in ``unit``.
+    unit : str
+        ``K``, ``degC``, ``°C`` or ``degF``.
+
+    Returns
+    -------
+    float
+        The thermodynamic temperature [K].
+
+    Raises
+    ------
+    ValueError
+        When ``unit`` is not a temperature unit.
+
+    Examples
+    --------
+    >>> temperature_to_kelvin(25.0, "degC")
+    298.15
+    """
+    spec = parse_unit(unit)
+    if spec.dims != {"[temperature]": 1}:
+        raise ValueError(f"{unit!r} is not a temperature unit")
+    ureg = registry()
+    kelvin = ureg.Quantity(Fraction(value), normalise_unit(unit)).to("kelvin").magnitude
+    return float(kelvin)
+
+
+_NAMED_DIMENSIONS = {
+    (("[time]", -1),): "a frequency (1/time)",
+    (("[time]", 1),): "a time",
+    (("[length]", -3), ("[substance]", 1)): "a concentration (amount/volume)",
+    (("[substance]", 1),): "an amount of substance",
+    (("[length]", -3), ("[mass]", 1)): "a mass concentration (mass/volume)",
+    (("[mass]", 1),): "a mass",
+    (("[mass]", 1), ("[substance]", -1)): "a molar mass",
+    (("[length]", 2), ("[mass]", 1), ("[substance]", -1), ("[time]", -2)): "a molar energy",
+    (("[temperature]", 1),): "a temperature",
+    (("[length]", 1),): "a length",
+    (("[length]", 3),): "a volume",
+    (): "a pure number",
+}
+
+
+def describe_dimension(dims: dict) -> str:
+    """Name a dimension the way a chemist says it (``'a frequency (1/time)'``).
+
+    Parameters
+    ----------
+    dims : dict
+        Dimension exponents as produced by :func:`parse_unit`.
+
+    Returns
+    -------
+    str
+        A short phrase.
+    """
+    key = tuple(sorted((k, Fraction(v)) for k, v in dims.items() if v))
+    if key in _NAMED_DIMENSIONS:
+        return _NAMED_DIMENSIONS[key]
+    order = concentration_order(dims)
+    if order is not None:
+        return f"a rate constant of order {order + 1} (concentration^-{order}/time)"
+    text = " ".join(f"{k.strip('[]')}^{v}" for k, v in key)
+    return f"the dimension {text}"
+
+
+def concentration_order(dims: dict) -> int | None:
+    """The reaction order minus one implied by rate-constant dimensions, if any.
+
+    ``1/time`` gives 0, ``1/(concentration time)`` gives 1, and so on; ``None``
+    when the dimension is not of the form ``concentration^-m / time``.  A
+    dimension ``amount^-m / time`` (files in amounts) also counts.
+    """
+    d = {k: Fraction(v) for k, v in dims.items() if v}
+    if d.get("[time]") != -1:
+        return None
+    rest = {k: v for k, v in d.items() if k != "[time]"}
+    if not rest:
+        return 0
+    m = -rest.get("[substance]", Fraction(0))
+    if m <= 0 or m.denominator != 1:
+        return None
+    if rest == {"[substance]": -m, "[length]": 3 * m} or rest == {"[substance]": -m}:
+        return int(m)
+    return None
