@@ -1,4 +1,11 @@
-"""Check, solve exactly, analyse, sweep and export first-order reaction schemes."""
+"""Check, solve exactly, analyse, sweep and export first-order reaction schemes.
+
+>>> import kinetics
+>>> scheme = kinetics.parse("A -> B  k1 = 0.1 1/min\\nstart A = 1 mol/L")
+>>> result = kinetics.solve(scheme, [0.0, 600.0])
+>>> result.to_frame(time_unit="min").columns.tolist()
+['time [min]', 'A [mol/L]', 'B [mol/L]']
+"""
 
 from importlib.metadata import PackageNotFoundError, version
 
@@ -7,4 +14,29 @@ try:
 except PackageNotFoundError:  # pragma: no cover - running from a source tree
     __version__ = "0.0.0"
 
-__all__ = ["__version__"]
+from .errors import (
+    DataError,
+    KineticsError,
+    SchemeError,
+    SchemeErrors,
+    SchemeFileError,
+    UsageError,
+)
+from .parsing import load, parse
+from .scheme import Scheme
+from .solution import Solution, solve
+
+__all__ = [
+    "DataError",
+    "KineticsError",
+    "Scheme",
+    "SchemeError",
+    "SchemeErrors",
+    "SchemeFileError",
+    "Solution",
+    "UsageError",
+    "__version__",
+    "load",
+    "parse",
+    "solve",
+]

@@ -1,0 +1,146 @@
+"""Solving a checked scheme on a time grid: :func:`solve` and :class:`Solution`.
+
+This is the model layer on top of the array engine in :mod:`kinetics.propagate`:
+it takes a :class:`~kinetics.scheme.Scheme`, builds its rate matrix and feed
+vector and returns concentrations with their names and units.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from .errors import UsageError
+from .propagate import propagate
+from .units import convert, parse_unit
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+    from .scheme import Scheme
+
+__all__ = ["Solution", "check_times", "solve", "time_grid"]
+
+
+def check_times(times) -> np.ndarray:
+    """Validate a time list [s]: finite, >= 0, nondecreasing; return it as a float array."""
+    try:
+        t = np.asarray(times, dtype=float).reshape(-1)
+    except (TypeError, ValueError) as exc:
+        raise UsageError(
+            "the times are not numbers", "give times in seconds as a list of numbers"
+        ) from exc
+    if t.size == 0:
+        raise UsageError("the time list is empty", "give at least one time")
+    if not np.all(np.isfinite(t)):
+        raise UsageError("a time is not a finite number", "give finite times in seconds")
+    if np.any(t < 0):
+        raise UsageError(
+            f"a time is negative ({t[t < 0][0]!r} s)", "times start at 0 (the start values)"
+        )
+    if np.any(np.diff(t) < 0):
+        raise UsageError("the times are not in increasing order", "sort the time list")
+    return t
+
+
+def time_grid(until: float, points: int = 201) -> np.ndarray:
+    """A uniform grid of ``points`` times from 0 to ``until`` [s] inclusive."""
+    if not (np.isfinite(until) and until > 0):
+        raise UsageError(f"the end time must be positive, not {until!r}", "e.g. --until 90min")
+    if points < 2:
+        raise UsageError(f"a grid needs at least 2 points, not {points}", "e.g. --points 201")
+    return np.linspace(0.0, until, points)
+
+
+@dataclass(frozen=True)
+class Solution:
+    """Concentrations of every matrix species on a time grid.
+
+    Attributes
+    ----------
+    times : numpy.ndarray
+        [s], shape ``(m,)``.
+    species : list of str
+        Matrix order.
+    concentrations : numpy.ndarray
+        [concentration_unit], shape ``(m, n)``; every entry >= 0.
+    concentration_unit : str
+    scheme : Scheme
+    """
+
+    times: np.ndarray
+    species: list[str]
+    concentrations: np.ndarray
+    concentration_unit: str
+    scheme: Scheme
+
+    def __getitem__(self, name: str) -> np.ndarray:
+        """The curve of one species [concentration_unit]."""
+        try:
+            return self.concentrations[:, self.species.index(name)]
+        except ValueError:
+            raise UsageError(
+                f"{name} is not a species of this scheme",
+                "species are " + ", ".join(self.species),
+            ) from None
+
+    def to_frame(self, time_unit: str = "s") -> pd.DataFrame:
+        """The table as a DataFrame with unit-labelled columns.
+
+        Columns are ``time [<time_unit>]`` then ``<species> [<concentration_unit>]``.
+
+        Parameters
+        ----------
+        time_unit : str, optional
+            Unit of the time column, e.g. ``"min"``.
+        """
+        import pandas as pd
+
+        factor = time_factor(time_unit)
+        data = {f"time [{time_unit}]": self.times / factor}
+        for i, name in enumerate(self.species):
+            data[f"{name} [{self.concentration_unit}]"] = self.concentrations[:, i]
+        return pd.DataFrame(data)
+
+
+def time_factor(unit: str) -> float:
+    """Seconds per ``unit`` (``"min"`` -> 60.0); UsageError when it is not a time unit."""
+    try:
+        spec = parse_unit(unit)
+    except ValueError:
+        raise UsageError(f"unknown time unit {unit!r}", "use s, min, h or d") from None
+    if spec.dims != {"[time]": 1}:
+        raise UsageError(f"{unit!r} is not a unit of time", "use s, min, h or d")
+    return convert(1.0, unit, "s")
+
+
+def solve(scheme: Scheme, times) -> Solution:
+    """Solve a scheme exactly on a list of times.
+
+    .. math:: c(t) = e^{tK} c_0 + \\int_0^t e^{sK}\\,ds\\, f
+
+    Parameters
+    ----------
+    scheme : Scheme
+        A checked scheme (from :func:`kinetics.load` or :func:`kinetics.parse`).
+    times : array_like
+        Times [s], nondecreasing, >= 0.
+
+    Returns
+    -------
+    Solution
+
+    Examples
+    --------
+    >>> import kinetics
+    >>> s = kinetics.parse("A -> B  k1 = 1 1/s\\nstart A = 1 mol/L")
+    >>> round(float(kinetics.solve(s, [0, 1]).concentrations[1, 0]), 12)
+    0.367879441171
+    """
+    t = check_times(times)
+    K = scheme.rate_matrix_sparse()
+    feed = scheme.feed_vector if scheme.feed else None
+    c = propagate(K, scheme.initial_vector, t, feed)
+    return Solution(t, scheme.species_names, c, scheme.concentration_unit, scheme)
