@@ -208,7 +208,9 @@ def mass_balance(scheme: Scheme) -> MassBalance:
         mm = np.where(known, m, 0.0)
         r = K.T @ mm  # (m^T K)_j
         out = np.asarray(abs(K).sum(axis=0)).ravel()  # scale: mass flux through column j
-        cols = known & (out > 0)
+        # only columns whose every entry belongs to a species of known mass
+        touches_unknown = abs(K).T @ (~known).astype(float) > 0
+        cols = known & (out > 0) & ~touches_unknown
         if cols.any():
             rel = np.abs(r[cols]) / (mm[cols] * out[cols])
             residual = float(rel.max())
