@@ -1,35 +1,937 @@
-"""The exact matrix-exponential engine (PLACEHOLDER: to be replaced by the entrywise engine).
+r"""Exact propagation of first-order reaction schemes, accurate entry by entry.
 
-Contract used by the rest of the package (keep these signatures):
+A first-order scheme with rate matrix :math:`K` [1/s] and a constant
+(zero-order) feed :math:`f` [conc/s] has the solution
 
-propagate(K, c0, times, feed=None) -> ndarray, shape (len(times), n)
-    c(t) = exp(t K) c0 + int_0^t exp(s K) ds f, K essentially nonnegative [1/s],
-    dense ndarray or scipy.sparse; c0 [conc]; times [s], nondecreasing, >= 0; feed [conc/s].
+.. math::
+
+    c(t) = e^{tK} c_0 + \int_0^t e^{sK}\,\mathrm{d}s\; f
+         = \begin{bmatrix} I & 0 \end{bmatrix}
+           \exp\!\left(t \begin{bmatrix} K & f \\ 0 & 0 \end{bmatrix}\right)
+           \begin{bmatrix} c_0 \\ 1 \end{bmatrix}.
+
+:math:`K` is *essentially nonnegative* (off-diagonal entries :math:`\ge 0`).  The
+engine uses only operations on nonnegative numbers, so no entry of the result can
+be spoiled by cancellation and no result can be negative:
+
+1. shift: :math:`B = K + \sigma I \ge 0` with :math:`\sigma = \max_i(-k_{ii})`
+   (Xue & Ye 2013, sec. 2), so :math:`e^{tK} = e^{-\sigma t} e^{tB}`;
+2. scale: :math:`Y = tB/2^j`; sum the Taylor series of :math:`e^{Y}` (nonnegative
+   terms, Paterson-Stockmeyer evaluation) and multiply by
+   :math:`e^{-\sigma t/2^j}`;
+3. square :math:`j` times (products of nonnegative matrices).
+
+The relative error of an entry can double at each squaring (Xue & Ye 2013,
+Theorem 3.2), so on stiff problems (:math:`\sigma t` up to :math:`10^{12}`,
+about 40 squarings) plain double precision loses digits.  The default route
+therefore carries the shifted matrix, the Taylor sum and the squarings in
+double-double arithmetic built from error-free transformations
+(:mod:`kinetics._doubledouble`; Dekker 1971; Ogita, Rump & Oishi 2005), and
+rounds to double only at the end.  Each call also yields a certified-style
+componentwise bound (see :func:`propagate_certified`).
+
+Large schemes are split into the strongly connected components of the species
+graph; see :func:`propagate` for the block-triangular route.
+
+References
+----------
+Q. Ye, J. Xue, "A note on the componentwise perturbation bounds of matrix
+exponential", / J. Xue, Q. Ye, "Entrywise relative perturbation bounds for
+exponentials of essentially non-negative matrices", Numer. Math. 110, 393-403
+(2008). doi:10.1007/s00211-008-0167-4
+J. Xue, Q. Ye, "Computing exponentials of essentially non-negative matrices
+entrywise to high relative accuracy", Math. Comp. 82, 1577-1596 (2013).
+doi:10.1090/S0025-5718-2012-02677-2
+M. Shao, W. Gao, J. Xue, "Aggressively truncated Taylor series method for
+accurate computation of exponentials of essentially nonnegative matrices",
+SIAM J. Matrix Anal. Appl. 35, 317-338 (2014). doi:10.1137/120894294
+T. J. Dekker, "A floating-point technique for extending the available
+precision", Numer. Math. 18, 224-242 (1971). doi:10.1007/BF01397083
+T. Ogita, S. M. Rump, S. Oishi, "Accurate sum and dot product", SIAM J. Sci.
+Comput. 26, 1955-1988 (2005). doi:10.1137/030601818
+A. H. Al-Mohy, N. J. Higham, "A new scaling and squaring algorithm for the
+matrix exponential", SIAM J. Matrix Anal. Appl. 31, 970-989 (2009) -- the
+general-purpose method of :func:`scipy.linalg.expm`, used only as a
+cross-check in the tests.
 """
 
 from __future__ import annotations
 
+import math
+from dataclasses import dataclass, field
+from typing import Literal
+
 import numpy as np
-import scipy.linalg
 import scipy.sparse
 
-__all__ = ["propagate"]
+from kinetics import _doubledouble as dd
+from kinetics.errors import UsageError
+
+__all__ = [
+    "DENSE_MAX",
+    "Propagation",
+    "expm_nonnegative",
+    "expm_nonnegative_certified",
+    "propagate",
+    "propagate_batch",
+    "propagate_certified",
+    "sensitivities",
+]
+
+Precision = Literal["auto", "double", "double-double"]
+
+#: Largest scheme handled as one dense matrix; larger ones go block by block.
+DENSE_MAX = 64
+
+_U = 2.0**-53  # unit roundoff of IEEE double
+#: Entries below this are outside the relative-accuracy guarantee (underflow).
+TINY = 1e-290
+#: ``precision="auto"`` picks plain double when its bound is at most this.
+AUTO_RTOL = 2.0**-46
 
 
-def propagate(K, c0, times, feed=None) -> np.ndarray:
-    """Concentrations at each time (placeholder implementation with scipy expm)."""
+# --------------------------------------------------------------------------
+# input checking
+# --------------------------------------------------------------------------
+
+
+def _rate_matrix(K, allow_sparse: bool = True):
     if scipy.sparse.issparse(K):
-        K = K.toarray()
-    K = np.asarray(K, dtype=float)
+        if not allow_sparse:
+            K = K.toarray()
+        else:
+            K = scipy.sparse.csr_array(K, dtype=float)
+            if K.ndim != 2 or K.shape[0] != K.shape[1]:
+                raise UsageError(f"rate matrix must be square, got shape {K.shape}")
+            if not np.all(np.isfinite(K.data)):
+                raise UsageError("rate matrix has a non-finite entry")
+            coo = K.tocoo()
+            off = coo.row != coo.col
+            if np.any(coo.data[off] < 0):
+                raise UsageError(
+                    "rate matrix has a negative off-diagonal entry",
+                    "off-diagonal entries are rates of formation and must be >= 0",
+                )
+            return K
+    try:
+        K = np.array(K, dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise UsageError(f"rate matrix is not numeric: {exc}") from None
+    if K.ndim != 2 or K.shape[0] != K.shape[1]:
+        raise UsageError(f"rate matrix must be square, got shape {K.shape}")
+    _check_offdiag(K[None])
+    return K
+
+
+def _check_offdiag(K):
+    if not np.all(np.isfinite(K)):
+        raise UsageError("rate matrix has a non-finite entry")
+    n = K.shape[-1]
+    off = ~np.eye(n, dtype=bool)
+    if np.any(K[..., off] < 0):
+        raise UsageError(
+            "rate matrix has a negative off-diagonal entry",
+            "off-diagonal entries are rates of formation and must be >= 0",
+        )
+
+
+def _vector(v, n: int, what: str, lead: tuple = ()) -> np.ndarray:
+    try:
+        v = np.array(v, dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise UsageError(f"{what} is not numeric: {exc}") from None
+    if v.shape == (n,) and lead:
+        v = np.broadcast_to(v, (*lead, n)).copy()
+    if v.shape != (*lead, n):
+        raise UsageError(f"{what} must have shape {(*lead, n)}, got {v.shape}")
+    if not np.all(np.isfinite(v)):
+        raise UsageError(f"{what} has a non-finite entry")
+    if np.any(v < 0):
+        raise UsageError(
+            f"{what} has a negative entry",
+            "concentrations and feed rates must be >= 0",
+        )
+    return v
+
+
+def _times(times) -> np.ndarray:
+    try:
+        t = np.array(times, dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise UsageError(f"times are not numeric: {exc}") from None
+    if t.ndim == 0:
+        t = t.reshape(1)
+    if t.ndim != 1:
+        raise UsageError(f"times must be a 1-D list, got shape {t.shape}")
+    if not np.all(np.isfinite(t)):
+        raise UsageError("times must be finite")
+    if np.any(t < 0):
+        raise UsageError("times must be >= 0", "time 0 is the start of the reaction")
+    if np.any(np.diff(t) < 0):
+        raise UsageError("times must be in nondecreasing order", "sort the time list")
+    return t
+
+
+def _check_precision(precision) -> None:
+    if precision not in ("auto", "double", "double-double"):
+        raise UsageError(
+            f"unknown precision {precision!r}", "use 'auto', 'double' or 'double-double'"
+        )
+
+
+def _augment(K, feed):
+    """Rate matrix of the fed system, Eq. (1) of the module docstring."""
+    if feed is None:
+        return K
+    *lead, n, _ = K.shape
+    A = np.zeros((*lead, n + 1, n + 1))
+    A[..., :n, :n] = K
+    A[..., :n, n] = feed
+    return A
+
+
+# --------------------------------------------------------------------------
+# dense engine on stacks
+# --------------------------------------------------------------------------
+
+
+@dataclass
+class _Plan:
+    route: str  # "double" or "double-double"
+    j: int  # number of squarings
+    ps: int  # Paterson-Stockmeyer block size s
+    pr: int  # number of Horner steps r; Taylor degree m = s (r + 1) - 1
+
+    @property
+    def degree(self) -> int:
+        return self.ps * (self.pr + 1) - 1
+
+
+def _ps_blocks(m: int) -> tuple[int, int]:
+    """Cheapest Paterson-Stockmeyer split (s, r) with s (r + 1) - 1 >= m."""
+    best = None
+    for s in range(1, m + 2):
+        r = max(0, math.ceil((m + 1) / s) - 1)
+        cost = (s - 1) + r
+        if best is None or cost < best[0]:
+            best = (cost, s, r)
+    return best[1], best[2]
+
+
+def _plan(beta: float, n: int, route: str, target: float) -> _Plan:
+    r"""Choose squarings j and Taylor degree m for ``||tB||_1 <= beta``.
+
+    The scalar remainder estimate (Shao, Gao & Xue 2014, sec. 3) is
+    :math:`2^j \, y^{m+1} e^{y}/(m+1)!` with :math:`y = \beta/2^j`; the cost is the
+    number of matrix products, :math:`(s-1) + r + j`.
+    """
+    if beta <= 0.0:
+        return _Plan(route, 0, 2, 0)
+    jmin = max(0, math.ceil(math.log2(beta / 16.0)))
+    best = None
+    log_target = math.log(target)
+    for j in range(jmin, jmin + 12):
+        y = beta / 2.0**j
+        base = j * math.log(2.0) + y
+        # the pattern of T_m(Y)^(2^j) holds every path of length <= m 2^j
+        m = max(1, math.ceil((n - 1) / 2.0**j))
+        while base + (m + 1) * math.log(y) - math.lgamma(m + 2) > log_target and m < 400:
+            m += 1
+        s, r = _ps_blocks(max(m, 2))
+        cost = (s - 1) + r + j
+        if best is None or cost < best[0]:
+            best = (cost, _Plan(route, j, s, r))
+    return best[1]
+
+
+def _double_bound_apriori(beta: float, n: int, plan: _Plan) -> float:
+    """Rounding bound of the plain-double route (see :func:`_rounding_bound`)."""
+    return _rounding_bound(beta, n, plan, _U)
+
+
+def _rounding_bound(beta: float, n: int, plan: _Plan, unit: float) -> float:
+    r"""Componentwise relative rounding-error bound of one exponential.
+
+    * representation of :math:`tB/2^j` (the shifted diagonal is rounded once):
+      :math:`\epsilon_{in} \approx 2u(\beta + n)`, first order in the entrywise
+      relative perturbation (Xue & Ye 2008);
+    * Taylor sum of nonnegative terms: :math:`\epsilon_0 = (m + n + 4)\gamma`;
+    * each squaring :math:`\epsilon_{i+1} = 2\epsilon_i + \epsilon_i^2 +
+      \gamma_n (1 + \epsilon_i)^2` (Xue & Ye 2013, Theorem 3.2), with
+      :math:`\gamma_n = n u / (1 - n u)` for a nonnegative product in double and
+      :math:`(n^2 + n) u_{dd}` in double-double.
+    """
+    m = plan.degree
+    if unit == _U:
+        gamma = n * unit / (1 - n * unit)
+    else:
+        gamma = (n * n + n + 4) * unit
+    eps = (m + n + 4) * gamma + 8 * unit  # Taylor sum and the factor exp(-sigma t / 2^j)
+    for _ in range(plan.j):
+        eps = 2 * eps + eps * eps + gamma * (1 + eps) ** 2
+    # representation error of t B / 2^j: a perturbation of the data, not amplified
+    return eps + 2 * unit * (beta + n)
+
+
+def _shift_and_norm(A, t):
+    """Shift sigma per member and beta = max(||t B||_1, |sigma| t)."""
+    diag = np.diagonal(A, axis1=-2, axis2=-1)
+    sigma = -diag.min(axis=-1)
+    n = A.shape[-1]
+    B = A + sigma[:, None, None] * np.eye(n)
+    colsum = np.abs(B).sum(axis=-2).max(axis=-1)
+    beta = np.maximum(colsum, np.abs(sigma)) * t
+    return sigma, beta
+
+
+def _taylor_double(Y, plan: _Plan):
+    """Paterson-Stockmeyer Taylor polynomial of nonnegative ``Y`` (double)."""
+    s, r = plan.ps, plan.pr
+    n = Y.shape[-1]
+    ih, _ = dd.inverse_factorials(plan.degree)
+    eye = np.broadcast_to(np.eye(n), Y.shape)
+    pw = [eye, Y]
+    for _ in range(2, s + 1):
+        pw.append(pw[-1] @ Y)
+    ys = pw[s]
+    P = np.stack(pw[:s])  # (s, b, n, n)
+
+    def block(i):
+        acc = ih[i * s] * P[0]
+        for l_ in range(1, s):
+            acc = acc + ih[i * s + l_] * P[l_]
+        return acc
+
+    T = block(r)
+    for i in range(r - 1, -1, -1):
+        T = T @ ys + block(i)
+    return T
+
+
+def _taylor_dd(Yh, Yl, plan: _Plan):
+    """Paterson-Stockmeyer Taylor polynomial of nonnegative ``Y`` (double-double)."""
+    s, r = plan.ps, plan.pr
+    n = Yh.shape[-1]
+    ih, il = dd.inverse_factorials(plan.degree)
+    eye = np.broadcast_to(np.eye(n), Yh.shape)
+    zero = np.zeros(Yh.shape)
+    ph = [eye, Yh]
+    pl = [zero, Yl]
+    for _ in range(2, s + 1):
+        h, lo = dd.dd_matmul(ph[-1], pl[-1], Yh, Yl)
+        ph.append(h)
+        pl.append(lo)
+    ysh, ysl = ph[s], pl[s]
+    Ph = np.stack(ph[:s])  # (s, b, n, n)
+    Pl = np.stack(pl[:s])
+    ch = ih.reshape(r + 1, s, 1, 1, 1)
+    cl = il.reshape(r + 1, s, 1, 1, 1)
+    # all coefficient-times-power products at once: (r+1, s, b, n, n)
+    qh, ql = dd.dd_mul(Ph[None], Pl[None], ch, cl)
+    bh, bl = qh[:, 0], ql[:, 0]
+    for l_ in range(1, s):
+        bh, bl = dd.dd_add(bh, bl, qh[:, l_], ql[:, l_])
+    Th, Tl = bh[r], bl[r]
+    for i in range(r - 1, -1, -1):
+        Th, Tl = dd.dd_matmul(Th, Tl, ysh, ysl)
+        Th, Tl = dd.dd_add(Th, Tl, bh[i], bl[i])
+    return Th, Tl
+
+
+def _truncation_estimate(Y, F, plan: _Plan):
+    r"""A posteriori componentwise estimate of the Taylor truncation error.
+
+    With :math:`G = Y^{m+1}/(m+1)!` the remainder satisfies
+    :math:`0 \le e^{Y} - T_m(Y) \le G e^{Y}` entrywise, hence, to first order in
+    :math:`G`, :math:`e^{2^j Y} - T_m(Y)^{2^j} \lesssim 2^j G\, T_m(Y)^{2^j}`
+    (componentwise, in the spirit of Shao, Gao & Xue 2014, sec. 4).  Returns
+    the largest ratio of that estimate to the computed entry, per member.
+    """
+    m = plan.degree
+    G = np.linalg.matrix_power(Y, m + 1) if Y.shape[0] else Y
+    G = G * math.exp(-math.lgamma(m + 2))
+    GF = G @ F
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = np.where(F > TINY, GF / F, np.where(GF > TINY, np.inf, 0.0))
+    return 2.0 * 2.0**plan.j * ratio.reshape(ratio.shape[0], -1).max(axis=1)
+
+
+def _expm_group(A, t, sigma, plan: _Plan):
+    """Exponentials ``exp(t_i A_i)`` for members sharing one plan.
+
+    Returns ``(Fh, Fl, trunc)`` (``Fl`` is zero on the double route).
+    """
+    n = A.shape[-1]
+    scale = 2.0**-plan.j
+    eye = np.eye(n)
+    if plan.route == "double":
+        Y = (A + sigma[:, None, None] * eye) * (t * scale)[:, None, None]
+        T = _taylor_double(Y, plan)
+        T = T * np.exp(-sigma * t * scale)[:, None, None]
+        for _ in range(plan.j):
+            T = T @ T
+        trunc = _truncation_estimate(Y, T, plan)
+        return T, np.zeros_like(T), trunc
+    # double-double: B = A + sigma I exactly (TwoSum on the diagonal)
+    Bh = A.copy()
+    Bl = np.zeros_like(A)
+    idx = np.arange(n)
+    dh, dl = dd.two_sum(A[:, idx, idx], sigma[:, None])
+    Bh[:, idx, idx] = dh
+    Bl[:, idx, idx] = dl
+    tt = (t * scale)[:, None, None]  # exact: power-of-two scaling
+    Yh, Yl = dd.dd_scale(Bh, Bl, tt)
+    Th, Tl = _taylor_dd(Yh, Yl, plan)
+    xh, xl = dd.two_prod(sigma, t)
+    eh, el = dd.dd_exp_scalars(-xh * scale, -xl * scale)
+    Th, Tl = dd.dd_mul(Th, Tl, eh[:, None, None], el[:, None, None])
+    for _ in range(plan.j):
+        Th, Tl = dd.dd_matmul(Th, Tl, Th, Tl)
+    trunc = _truncation_estimate(Yh, Th, plan)
+    return Th, Tl, trunc
+
+
+def _expm_stack(A, t, precision: str, target: float | None = None):
+    """``exp(t_i A_i)`` for a stack, with per-member route and error bound.
+
+    Returns ``(Fh, Fl, bound, is_dd)``; ``bound[i]`` is the componentwise
+    relative bound of ``Fh + Fl`` (before any rounding to double), ``is_dd[i]``
+    tells whether member ``i`` took the double-double route.
+    """
+    A = np.asarray(A, dtype=float)
+    t = np.broadcast_to(np.asarray(t, dtype=float), A.shape[:1]).copy()
+    b, n, _ = A.shape
+    sigma, beta = _shift_and_norm(A, t)
+    Fh = np.empty_like(A)
+    Fl = np.empty_like(A)
+    bound = np.empty(b)
+    is_dd = np.zeros(b, dtype=bool)
+    groups: dict[tuple, list[int]] = {}
+    plans: dict[tuple, _Plan] = {}
+    for i in range(b):
+        route = precision
+        if route == "auto":
+            p = _plan(beta[i], n, "double", _U / 2)
+            route = (
+                "double" if _double_bound_apriori(beta[i], n, p) <= AUTO_RTOL else "double-double"
+            )
+        tgt = target if target is not None else (_U / 2 if route == "double" else 2.0**-64)
+        p = _plan(beta[i], n, route, tgt)
+        key = (p.route, p.j, p.ps, p.pr)
+        groups.setdefault(key, []).append(i)
+        plans[key] = p
+    for key, members in groups.items():
+        plan = plans[key]
+        idx = np.array(members)
+        unit = _U if plan.route == "double" else dd.DD_UNIT
+        tgt = _U / 2 if plan.route == "double" else 2.0**-64
+        for _attempt in range(4):
+            h, lo, trunc = _expm_group(A[idx], t[idx], sigma[idx], plan)
+            if np.all(trunc <= tgt) or plan.pr > 60:
+                break
+            plan = _Plan(plan.route, plan.j, plan.ps, 2 * plan.pr + 2)
+        Fh[idx], Fl[idx] = h, lo
+        is_dd[idx] = plan.route == "double-double"
+        rb = np.array([_rounding_bound(beta[i], n, plan, unit) for i in members])
+        bound[idx] = rb + trunc
+    return Fh, Fl, bound, is_dd
+
+
+def _gamma_mv(n: int, route_dd: bool) -> float:
+    return (n * n + n + 4) * dd.DD_UNIT if route_dd else n * _U / (1 - n * _U)
+
+
+# --------------------------------------------------------------------------
+# public dense exponentials
+# --------------------------------------------------------------------------
+
+
+def expm_nonnegative(A, t: float = 1.0, *, precision: Precision = "auto") -> np.ndarray:
+    r"""Matrix exponential :math:`e^{tA}` of an essentially nonnegative matrix.
+
+    .. math::
+
+        e^{tA} = e^{-\sigma t}\left(T_m\!\left(\tfrac{t}{2^j}(A + \sigma I)\right)
+        \right)^{2^j}, \qquad \sigma = \max_i(-a_{ii}),
+
+    with :math:`T_m` the degree-:math:`m` Taylor polynomial (Xue & Ye 2013,
+    Algorithm 1; Shao, Gao & Xue 2014 for the truncation).
+
+    Parameters
+    ----------
+    A : array_like or scipy.sparse, shape (n, n)
+        Essentially nonnegative matrix [1/s] (off-diagonal entries >= 0).
+    t : float
+        Time [s], >= 0.
+    precision : {"auto", "double", "double-double"}
+        Arithmetic of the Taylor sum and the squarings.  ``"auto"`` uses plain
+        double only when its componentwise bound is below ``2**-46``.
+
+    Returns
+    -------
+    ndarray, shape (n, n)
+        Nonnegative matrix; every entry above 1e-290 carries the relative error
+        reported by :func:`expm_nonnegative_certified`.
+
+    Notes
+    -----
+    Dense algorithm, :math:`O(n^3 \log(\sigma t))`; meant for n up to a few
+    hundred.  For :func:`propagate` use on large sparse schemes.
+
+    References
+    ----------
+    J. Xue, Q. Ye, Math. Comp. 82, 1577-1596 (2013); M. Shao, W. Gao, J. Xue,
+    SIAM J. Matrix Anal. Appl. 35, 317-338 (2014).
+    """
+    return expm_nonnegative_certified(A, t, precision=precision)[0]
+
+
+def expm_nonnegative_certified(
+    A, t: float = 1.0, *, precision: Precision = "auto"
+) -> tuple[np.ndarray, float]:
+    """Like :func:`expm_nonnegative`, also returning the componentwise bound.
+
+    Returns
+    -------
+    (ndarray, float)
+        The exponential and ``eps`` such that every entry ``F_ab >= 1e-290``
+        satisfies ``|computed - exact| <= eps * exact`` (exact: the exponential
+        of the given double matrix).  The rounding part of ``eps`` is a rigorous
+        worst-case bound; the truncation part is the first-order a posteriori
+        estimate of Shao, Gao & Xue (2014).
+    """
+    _check_precision(precision)
+    A = _rate_matrix(A, allow_sparse=False)
+    t = float(t)
+    if not (math.isfinite(t) and t >= 0):
+        raise UsageError("time must be finite and >= 0")
+    n = A.shape[0]
+    if t == 0.0 or n == 0:
+        return np.eye(n), 0.0
+    Fh, _, bound, _ = _expm_stack(A[None], np.array([t]), precision)
+    return np.maximum(Fh[0], 0.0), float(bound[0] + _U)
+
+
+# --------------------------------------------------------------------------
+# time grids
+# --------------------------------------------------------------------------
+
+
+@dataclass
+class Propagation:
+    """Concentrations with their componentwise error bound.
+
+    Attributes
+    ----------
+    times : ndarray, shape (p,)
+        Times [s].
+    concentrations : ndarray, shape (p, n)
+        Concentrations [same unit as ``c0``], all >= 0.
+    error_bound : ndarray, shape (p,)
+        ``error_bound[k]`` bounds the relative error of every concentration at
+        ``times[k]`` that is above 1e-290, against the exact solution for the
+        given (double) rate matrix, initial values and feed.  Rounding errors
+        are bounded rigorously; the Taylor truncation part is the first-order
+        a posteriori estimate of Shao, Gao & Xue (2014).  It does not include
+        the sensitivity to errors in the rate constants themselves.
+    precision : str
+        Route used: ``"double"``, ``"double-double"``, ``"blocks"`` (block
+        triangular, plain double) or a combination.
+    """
+
+    times: np.ndarray
+    concentrations: np.ndarray
+    error_bound: np.ndarray
+    precision: str = field(default="double-double")
+
+
+def _uniform_step(t: np.ndarray) -> float | None:
+    """Step ``dt`` if ``t[1:]`` is a uniform grid from ``t[0]`` (else None)."""
+    if t.size < 3:
+        return None
+    dt = (t[-1] - t[0]) / (t.size - 1)
+    if dt <= 0:
+        return None
+    k = np.arange(t.size)
+    if np.all(np.abs(t - (t[0] + k * dt)) <= 4 * _U * t[-1]):
+        return dt
+    return None
+
+
+def _mv(Fh, Fl, vh, vl, is_dd):
+    """Stacked nonnegative products, double-double for members with ``is_dd``."""
+    if np.all(is_dd):
+        return dd.dd_matmul(Fh, Fl, vh, vl)
+    oh = Fh @ vh
+    ol = np.zeros_like(oh)
+    if np.any(is_dd):
+        oh[is_dd], ol[is_dd] = dd.dd_matmul(Fh[is_dd], Fl[is_dd], vh[is_dd], vl[is_dd])
+    return oh, ol
+
+
+def _gamma_stack(N: int, is_dd):
+    return np.where(is_dd, _gamma_mv(N, True), _gamma_mv(N, False))
+
+
+def _propagate_dense_stack(A, x0, times, precision: str):
+    """Core grid propagation for a stack of (augmented) matrices.
+
+    A: (b, N, N), x0: (b, N).  Returns (X (b, p, N), bound (b, p), route label).
+    """
+    b, N, _ = A.shape
+    p = times.size
+    X = np.zeros((b, p, N))
+    bound = np.zeros((b, p))
+    if p == 0:
+        return X, bound, precision
+    # state as double-double column blocks (b, N, 1)
+    vh = x0[:, :, None].copy()
+    vl = np.zeros_like(vh)
+    cur_bound = np.zeros(b)
+    labels = set()
+
+    def exp_of(h):
+        Fh, Fl, eps, is_dd = _expm_stack(A, np.full(b, h), precision)
+        if np.any(is_dd):
+            labels.add("double-double")
+        if not np.all(is_dd):
+            labels.add("double")
+        return Fh, Fl, eps, is_dd
+
+    start = 0
+    # leading zeros: exactly c0
+    while start < p and times[start] == 0.0:
+        X[:, start] = x0
+        start += 1
+    if start == p:
+        return X, bound, precision
+    # first nonzero time
+    t_prev = 0.0
+    dt = _uniform_step(times[start:]) if p - start >= 3 else None
+    if dt is not None:
+        t_first = times[start]
+        if t_first > 0:
+            Fh, Fl, eps, is_dd = exp_of(t_first)
+            vh, vl = _mv(Fh, Fl, vh, vl, is_dd)
+            cur_bound = cur_bound + eps + _gamma_stack(N, is_dd)
+        Fh, Fl, eps, is_dd = exp_of(dt)
+        M = p - start - 1
+        # columns F^k v for k = 0..M by doubling: V <- [V, F^(2^i) V]
+        Vh, Vl = vh, vl
+        Ph, Pl = Fh, Fl
+        peps = eps
+        kb = np.zeros((b, 1))  # bound of each column relative to v
+        gam = _gamma_stack(N, is_dd)
+        while Vh.shape[-1] < M + 1:
+            need = min(Vh.shape[-1], M + 1 - Vh.shape[-1])
+            Wh, Wl = _mv(Ph, Pl, Vh[..., :need], Vl[..., :need], is_dd)
+            Vh = np.concatenate([Vh, Wh], axis=-1)
+            Vl = np.concatenate([Vl, Wl], axis=-1)
+            kb = np.concatenate([kb, kb[:, :need] + (peps + gam)[:, None]], axis=1)
+            if Vh.shape[-1] < M + 1:
+                Ph, Pl = _mv(Ph, Pl, Ph, Pl, is_dd)
+                peps = 2 * peps + peps * peps + gam * (1 + peps) ** 2
+        X[:, start:] = np.swapaxes(Vh + Vl, -1, -2)
+        bound[:, start:] = cur_bound[:, None] + kb
+    else:
+        cache: dict[float, tuple] = {}
+        for k in range(start, p):
+            h = times[k] - t_prev
+            if h > 0:
+                if h not in cache:
+                    cache[h] = exp_of(h)
+                Fh, Fl, eps, is_dd = cache[h]
+                vh, vl = _mv(Fh, Fl, vh, vl, is_dd)
+                cur_bound = cur_bound + eps + _gamma_stack(N, is_dd)
+            X[:, k] = (vh + vl)[:, :, 0]
+            bound[:, k] = cur_bound
+            t_prev = times[k]
+    bound[:, start:] += _U
+    label = "+".join(sorted(labels)) if labels else precision
+    return np.maximum(X, 0.0), bound, label
+
+
+def propagate_certified(K, c0, times, feed=None, *, precision: Precision = "auto") -> Propagation:
+    r"""Concentrations on a time grid with a componentwise error bound.
+
+    .. math::
+
+        c(t_k) = e^{t_k K} c_0 + \int_0^{t_k} e^{sK}\,\mathrm{d}s\, f
+
+    Parameters
+    ----------
+    K : array_like or scipy.sparse, shape (n, n)
+        Rate matrix [1/s]; off-diagonal entries >= 0; column j holds the
+        outflow of species j.
+    c0 : array_like, shape (n,)
+        Initial concentrations [conc], >= 0.
+    times : array_like, shape (p,)
+        Times [s]; finite, >= 0, nondecreasing.
+    feed : array_like, shape (n,), optional
+        Zero-order feed rates [conc/s], >= 0.
+    precision : {"auto", "double", "double-double"}
+        Arithmetic of the dense engine (the block route for large schemes is
+        plain double).
+
+    Returns
+    -------
+    Propagation
+        ``concentrations`` of shape (p, n) and ``error_bound`` of shape (p,).
+
+    Notes
+    -----
+    A uniform grid is propagated with powers of :math:`e^{K\Delta t}`
+    (:math:`F^{k}v` from :math:`F^{2^i}` by doubling); other grids interval by
+    interval.  All factors are nonnegative, so relative errors add up instead of
+    cancelling.  Time 0 returns ``c0`` exactly.
+
+    References
+    ----------
+    J. Xue, Q. Ye, Math. Comp. 82, 1577-1596 (2013); M. Shao, W. Gao, J. Xue,
+    SIAM J. Matrix Anal. Appl. 35, 317-338 (2014).
+    """
+    _check_precision(precision)
+    K = _rate_matrix(K)
     n = K.shape[0]
-    c0 = np.asarray(c0, dtype=float)
-    times = np.asarray(times, dtype=float)
-    f = np.zeros(n) if feed is None else np.asarray(feed, dtype=float)
-    aug = np.zeros((n + 1, n + 1))
-    aug[:n, :n] = K
-    aug[:n, n] = f
-    x0 = np.append(c0, 1.0)
-    out = np.empty((times.size, n))
-    for j, t in enumerate(times):
-        out[j] = np.maximum(scipy.linalg.expm(t * aug) @ x0, 0.0)[:n]
-    return out
+    c0 = _vector(c0, n, "initial concentrations")
+    times = _times(times)
+    f = None if feed is None else _vector(feed, n, "feed")
+    if scipy.sparse.issparse(K) and n <= DENSE_MAX:
+        K = K.toarray()
+    if scipy.sparse.issparse(K) or n > DENSE_MAX:
+        from kinetics._blocks import propagate_blocks
+
+        conc, bound = propagate_blocks(K, c0, times, f)
+        return Propagation(times, conc, bound, "blocks")
+    A = _augment(K[None], None if f is None else f[None])
+    x0 = c0 if f is None else np.append(c0, 1.0)
+    X, bound, label = _propagate_dense_stack(A, x0[None], times, precision)
+    conc = X[0, :, :n].copy()
+    conc[times == 0.0] = c0
+    return Propagation(times, conc, bound[0], label)
+
+
+def propagate(K, c0, times, feed=None, *, precision: Precision = "auto") -> np.ndarray:
+    r"""Concentrations of a first-order scheme at the given times.
+
+    .. math::
+
+        c(t) = e^{tK} c_0 + \int_0^t e^{sK}\,\mathrm{d}s\, f
+             = \begin{bmatrix} I & 0 \end{bmatrix}
+               \exp\!\left(t \begin{bmatrix} K & f \\ 0 & 0 \end{bmatrix}\right)
+               \begin{bmatrix} c_0 \\ 1 \end{bmatrix}
+
+    Parameters
+    ----------
+    K : array_like or scipy.sparse, shape (n, n)
+        Rate matrix [1/s], essentially nonnegative (off-diagonals >= 0).
+    c0 : array_like, shape (n,)
+        Initial concentrations [conc], >= 0.
+    times : array_like, shape (p,)
+        Times [s]; finite, >= 0 and nondecreasing.
+    feed : array_like, shape (n,), optional
+        Zero-order feed [conc/s], >= 0.
+    precision : {"auto", "double", "double-double"}
+        See :func:`expm_nonnegative`.
+
+    Returns
+    -------
+    ndarray, shape (p, n)
+        Concentrations [conc], all >= 0; row k is for ``times[k]``.
+
+    Raises
+    ------
+    kinetics.errors.UsageError
+        Negative off-diagonal rates, negative or non-finite concentrations,
+        feed or times, times out of order, wrong shapes.
+
+    Notes
+    -----
+    Schemes with at most :data:`DENSE_MAX` species (with the feed) use the dense
+    entrywise engine (see the module docstring): every entry above 1e-290 is
+    accurate to a few units of rounding (the bound is in
+    :func:`propagate_certified`).  Larger or sparse schemes are split into the
+    strongly connected components of the species graph and propagated in
+    topological order through a block-triangular, block-sparse matrix
+    exponential in plain double precision (:mod:`kinetics._blocks`).
+
+    References
+    ----------
+    J. Xue, Q. Ye, "Computing exponentials of essentially non-negative matrices
+    entrywise to high relative accuracy", Math. Comp. 82, 1577-1596 (2013).
+    M. Shao, W. Gao, J. Xue, SIAM J. Matrix Anal. Appl. 35, 317-338 (2014).
+    T. J. Dekker, Numer. Math. 18, 224-242 (1971).
+    T. Ogita, S. M. Rump, S. Oishi, SIAM J. Sci. Comput. 26, 1955-1988 (2005).
+    """
+    return propagate_certified(K, c0, times, feed, precision=precision).concentrations
+
+
+def propagate_batch(
+    K, c0, times, feed=None, *, precision: Precision = "auto", return_bound: bool = False
+):
+    r"""Concentrations for a stack of parameter sets on one time grid.
+
+    .. math::
+
+        c^{(i)}(t) = e^{tK^{(i)}} c_0^{(i)}
+                   + \int_0^t e^{sK^{(i)}}\,\mathrm{d}s\, f^{(i)}
+
+    Parameters
+    ----------
+    K : array_like, shape (b, n, n)
+        Stack of dense rate matrices [1/s].
+    c0 : array_like, shape (b, n) or (n,)
+        Initial concentrations [conc], >= 0.
+    times : array_like, shape (p,)
+        Times [s], finite, >= 0, nondecreasing.
+    feed : array_like, shape (b, n) or (n,), optional
+        Zero-order feeds [conc/s], >= 0.
+    precision : {"auto", "double", "double-double"}
+        As in :func:`propagate`; for large sweeps ``"double"`` is several
+        times faster (error bound then a few 1e-13 or worse on stiff sets).
+    return_bound : bool
+        Also return the componentwise bounds, shape (b, p).
+
+    Returns
+    -------
+    ndarray, shape (b, p, n)
+        Concentrations, all >= 0.
+
+    Notes
+    -----
+    Members are grouped by their scaling plan and each group is evaluated with
+    stacked products; every operation acts on each member independently, so
+    member ``i`` equals ``propagate(K[i], c0[i], times, feed[i])`` bit for bit
+    (tested) when ``n <= DENSE_MAX``.
+
+    References
+    ----------
+    J. Xue, Q. Ye, Math. Comp. 82, 1577-1596 (2013).
+    """
+    _check_precision(precision)
+    try:
+        K = np.array(K, dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise UsageError(f"rate matrices are not numeric: {exc}") from None
+    if K.ndim != 3 or K.shape[1] != K.shape[2]:
+        raise UsageError(f"a batch of rate matrices must have shape (b, n, n), got {K.shape}")
+    b, n, _ = K.shape
+    _check_offdiag(K)
+    c0 = _vector(c0, n, "initial concentrations", (b,))
+    times = _times(times)
+    f = None if feed is None else _vector(feed, n, "feed", (b,))
+    A = _augment(K, f)
+    x0 = c0 if f is None else np.concatenate([c0, np.ones((b, 1))], axis=1)
+    if b == 0:
+        out = np.zeros((0, times.size, n))
+        return (out, np.zeros((0, times.size))) if return_bound else out
+    X, bound, _ = _propagate_dense_stack(A, x0, times, precision)
+    conc = X[:, :, :n].copy()
+    conc[:, times == 0.0] = c0[:, None, :]
+    return (conc, bound) if return_bound else conc
+
+
+# --------------------------------------------------------------------------
+# sensitivities
+# --------------------------------------------------------------------------
+
+
+def sensitivities(
+    K, c0, times, directions, feed=None, *, precision: Precision = "auto"
+) -> np.ndarray:
+    r"""Directional derivatives :math:`\partial c(t)/\partial\theta` along ``dK``.
+
+    For :math:`K(\theta) = K + \theta E` the sensitivity
+    :math:`s = \partial c/\partial\theta` obeys :math:`s' = K s + E c`,
+    :math:`s(0) = 0`, i.e. it is the Frechet derivative of the exponential,
+
+    .. math::
+
+        s(t) = L(tK, tE)\, c_0 + \dots, \qquad
+        \exp\begin{bmatrix} tK & tE \\ 0 & tK \end{bmatrix}
+        = \begin{bmatrix} e^{tK} & L(tK, tE) \\ 0 & e^{tK} \end{bmatrix}.
+
+    ``E`` has both signs (a rate constant appears with ``-1`` on the diagonal),
+    so it is split as :math:`E = E^+ - E^-` with :math:`E^\pm \ge 0` and the
+    nonnegative system of size :math:`3n`
+
+    .. math::
+
+        \frac{d}{dt}\begin{bmatrix} s^+ \\ s^- \\ c \end{bmatrix} =
+        \begin{bmatrix} K & 0 & E^+ \\ 0 & K & E^- \\ 0 & 0 & K \end{bmatrix}
+        \begin{bmatrix} s^+ \\ s^- \\ c \end{bmatrix} +
+        \begin{bmatrix} 0 \\ 0 \\ f \end{bmatrix}
+
+    is propagated with the entrywise engine; :math:`s = s^+ - s^-`.
+
+    Parameters
+    ----------
+    K : array_like, shape (n, n)
+        Rate matrix [1/s].
+    c0 : array_like, shape (n,)
+        Initial concentrations [conc].
+    times : array_like, shape (p,)
+        Times [s].
+    directions : array_like, shape (d, n, n)
+        Direction matrices :math:`E = \partial K/\partial\theta` [1/s per unit of
+        θ], e.g. the derivative of K with respect to one rate constant.
+    feed : array_like, shape (n,), optional
+        Zero-order feed [conc/s].
+    precision : {"auto", "double", "double-double"}
+        As in :func:`propagate`.
+
+    Returns
+    -------
+    ndarray, shape (d, p, n)
+        :math:`\partial c/\partial\theta` [conc per unit of θ].
+
+    Notes
+    -----
+    :math:`s^+` and :math:`s^-` are each accurate entry by entry; their
+    difference carries an absolute error of about the rounding unit times
+    :math:`s^+ + s^-`.  Dense route (the 3n system must stay below a few
+    hundred species).
+
+    References
+    ----------
+    A. H. Al-Mohy, N. J. Higham, "Computing the Frechet derivative of the matrix
+    exponential, with an application to condition number estimation", SIAM J.
+    Matrix Anal. Appl. 30, 1639-1657 (2009) (block form; scipy's
+    ``expm_frechet``, used as a cross-check).
+    C. Van Loan, "Computing integrals involving the matrix exponential", IEEE
+    Trans. Automat. Control 23, 395-404 (1978).
+    """
+    K = _rate_matrix(K, allow_sparse=False)
+    n = K.shape[0]
+    c0 = _vector(c0, n, "initial concentrations")
+    times = _times(times)
+    f = None if feed is None else _vector(feed, n, "feed")
+    try:
+        E = np.array(directions, dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise UsageError(f"directions are not numeric: {exc}") from None
+    if E.ndim == 2:
+        E = E[None]
+    if E.ndim != 3 or E.shape[1:] != (n, n):
+        raise UsageError(f"directions must have shape (d, {n}, {n}), got {E.shape}")
+    if not np.all(np.isfinite(E)):
+        raise UsageError("directions have a non-finite entry")
+    d = E.shape[0]
+    if d == 0:
+        return np.zeros((0, times.size, n))
+    Ep = np.maximum(E, 0.0)
+    Em = np.maximum(-E, 0.0)
+    big = np.zeros((d, 3 * n, 3 * n))
+    big[:, :n, :n] = K
+    big[:, n : 2 * n, n : 2 * n] = K
+    big[:, 2 * n :, 2 * n :] = K
+    big[:, :n, 2 * n :] = Ep
+    big[:, n : 2 * n, 2 * n :] = Em
+    x0 = np.zeros((d, 3 * n))
+    x0[:, 2 * n :] = c0
+    fb = None
+    if f is not None:
+        fb = np.zeros((d, 3 * n))
+        fb[:, 2 * n :] = f
+    X = propagate_batch(big, x0, times, fb, precision=precision)
+    return X[:, :, :n] - X[:, :, n : 2 * n]
