@@ -16,11 +16,7 @@ import click
 
 from . import __version__
 from .errors import KineticsError, UsageError
-
-CAUTION = (
-    "Caution: a first-order, isothermal, ideally mixed model; not a hazard or safety assessment.\n"
-    "Runaway, heat release, gas evolution and scale-up need a process-safety review: see SAFETY.md."
-)
+from .overview import CAUTION  # the two-line short form of SAFETY.md
 
 _DURATION = re.compile(
     r"^\s*(?P<number>[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*(?P<unit>.*)$"
@@ -123,86 +119,333 @@ def check(scheme_file, as_json, allow_imbalance):
         render_check(scheme, report)
 
 
-@cli.command()
-@click.argument("scheme_file", type=click.Path(dir_okay=True, path_type=Path))
-@click.option("--until", "until", help="End of the time window, e.g. '90 min', '2h'.")
-@click.option("--points", type=int, default=201, show_default=True, help="Uniform grid points.")
-@click.option("--times", "times_text", help="Explicit times with one unit: '0,5,10,30 min'.")
-@click.option("--time-unit", help="Unit of the time column (default: the unit of --until).")
-@click.option(
-    "--out", "outputs", multiple=True, type=click.Path(path_type=Path), help="Output file (.csv)."
-)
-@click.option("--json", "as_json", is_flag=True, help="Print one JSON object.")
-@click.option("--no-caution", is_flag=True, help="Do not print the two-line caution (scripts).")
-def solve(scheme_file, until, points, times_text, time_unit, outputs, as_json, no_caution):
-    """Solve a scheme exactly on a time grid and print or write the table.
-
-    \b
-    Examples:
-      kinetics solve networks/consecutive_intermediate.scheme --until 3h
-      kinetics solve networks/consecutive_intermediate.scheme --times '0,5,10,30 min' --out t.csv
-    """
+def _grid(until, points, times_text):
+    """The time grid [s], the unit the user wrote and the settings as written."""
     from . import solution as sol
-    from .export import check_output_path, write_csv
-    from .overview import solution_json
-    from .parsing import load
-    from .terminal import render_solution
 
     if until is None and times_text is None:
-        raise UsageError("solve needs --until or --times", "write e.g. --until '90 min'")
+        raise UsageError("this command needs --until or --times", "write e.g. --until '90 min'")
     if until is not None and times_text is not None:
         raise UsageError("give either --until or --times, not both", "e.g. --until '90 min'")
     if times_text is not None:
+        if points is not None:
+            raise UsageError(
+                "--points sets a uniform grid and cannot be combined with --times",
+                "leave out --points",
+            )
         times, unit = parse_time_list(times_text)
+        times = sol.check_times(times)
+        if times[-1] <= 0:
+            raise UsageError(
+                f"--times {times_text!r} has no time after 0", "give at least one later time"
+            )
+        settings = {"times": times_text}
     else:
         end, unit = parse_duration(until)
-        times = sol.time_grid(end, points)
+        n = 201 if points is None else points
+        times = sol.time_grid(end, n)
+        settings = {"until": until, "points": n}
+    return times, unit, settings
+
+
+def _species_list(text: str | None, scheme, option: str = "--species") -> list[str] | None:
+    """Names from ``--species A,B`` checked against the scheme's matrix species."""
+    if text is None:
+        return None
+    import difflib
+
+    names = [n.strip() for n in text.split(",") if n.strip()]
+    if not names:
+        raise UsageError(f"{option} lists no species", f"write e.g. {option} A,B")
+    known = scheme.species_names
+    for name in names:
+        if name not in known:
+            close = difflib.get_close_matches(name, known, n=1)
+            hint = f"did you mean {close[0]!r}? " if close else ""
+            raise UsageError(
+                f"{option} names {name!r}, which is not a species of the scheme",
+                hint + "the species are " + ", ".join(known),
+            )
+    return list(dict.fromkeys(names))
+
+
+def _plot_solution(result, scheme):
+    """The solution on a grid fine enough to draw smooth curves (at least 201 points)."""
+    import numpy as np
+
+    from . import solution as sol
+
+    if len(result.times) >= 201:
+        return result
+    return sol.solve(scheme, np.linspace(0.0, float(result.times[-1]), 401))
+
+
+_GRID_OPTIONS = [
+    click.option("--until", "until", help="End of the time window with a unit: '90 min', '2h'."),
+    click.option(
+        "--points",
+        type=click.IntRange(min=2),
+        default=None,
+        help="Points of the uniform grid from 0 to --until (default 201).",
+    ),
+    click.option(
+        "--times", "times_text", help="Explicit times with one unit instead: '0,5,10,30 min'."
+    ),
+    click.option(
+        "--time-unit", help="Unit of time in tables and plots (default: the unit of --until)."
+    ),
+    click.option(
+        "--species",
+        "species_text",
+        help="Show and plot only these species: 'A,B' (files with tables keep them all).",
+    ),
+    click.option(
+        "--no-caution",
+        is_flag=True,
+        help="Do not print the two-line caution on stderr (for scripts; see SAFETY.md).",
+    ),
+]
+
+
+def _grid_options(func):
+    for option in reversed(_GRID_OPTIONS):
+        func = option(func)
+    return func
+
+
+def _prepare(until, points, times_text, time_unit):
+    """What can be checked before reading the scheme: the grid and the time unit."""
+    from . import solution as sol
+
+    times, unit, settings = _grid(until, points, times_text)
     time_unit = time_unit or unit
     sol.time_factor(time_unit)
-    paths = [check_output_path(p, [scheme_file]) for p in outputs]
-    for p in paths:
-        if p.suffix.lower() != ".csv":
-            raise UsageError(
-                f"unknown output format {p.suffix or '(none)'!r} for {str(p)!r}",
-                "use a .csv file name",
-            )
-    scheme = load(scheme_file)
+    settings["time_unit"] = time_unit
+    return times, time_unit, settings
+
+
+def _solve_and_summarise(scheme, times, time_unit, bar):
+    from . import solution as sol
+    from .overview import compute_summary, summary_in_units
+
+    bar.describe("solving")
     result = sol.solve(scheme, times)
-    _caution(no_caution or as_json)
-    for p in paths:
-        write_csv(result.to_frame(time_unit), p)
+    bar.step("summary quantities")
+    raw = compute_summary(result)
+    summary = summary_in_units(raw, time_unit) if raw is not None else None
+    bar.step()
+    return result, summary
+
+
+_OUT_HELP = "Output file, format from the extension: " + ", ".join(
+    ("csv", "xlsx", "json", "parquet", "png", "svg")
+)
+
+
+@cli.command()
+@click.argument("scheme_file", type=click.Path(dir_okay=True, path_type=Path))
+@_grid_options
+@click.option(
+    "--out",
+    "outputs",
+    multiple=True,
+    type=click.Path(path_type=Path),
+    help=_OUT_HELP + " (several allowed).",
+)
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object on stdout.")
+def solve(
+    scheme_file, until, points, times_text, time_unit, species_text, no_caution, outputs, as_json
+):
+    """Solve a scheme exactly on a time grid; print or write the table and the summary.
+
+    The summary (half-lives, intermediate maxima, long-time limits...) is computed
+    on the exact solution, not read off the grid.  Without --out the summary and
+    the concentration table are printed; each --out writes one file, its format
+    chosen by the extension.
+
+    \b
+    Examples:
+      kinetics solve networks/consecutive_intermediate.scheme --until 2h
+      kinetics solve networks/consecutive_intermediate.scheme --until '90 min' --points 91 \\
+          --out table.csv --out table.xlsx --out curves.png
+      kinetics solve networks/decay_pair_branching.scheme --times '0,6,12,24,48 h' --json
+    """
+    from .export import check_output_paths
+    from .overview import solution_json
+    from .parsing import load
+    from .terminal import progress, render_solution
+
+    times, time_unit, settings = _prepare(until, points, times_text, time_unit)
+    paths = check_output_paths(outputs, [scheme_file])
+    scheme = load(scheme_file)
+    species = _species_list(species_text, scheme)
+    if species:
+        settings["species"] = species
+    _caution(no_caution)
+    with progress(2 + len(paths), "solving") as bar:
+        result, summary = _solve_and_summarise(scheme, times, time_unit, bar)
+        document = solution_json(result, time_unit, summary, settings)
+        for path in paths:
+            bar.describe(f"writing {path.name}")
+            _write_output(path, result, scheme, time_unit, summary, document, species)
+            bar.step()
+    for path in paths:
+        click.echo(f"wrote {path}", err=True)
     if as_json:
-        click.echo(json.dumps(solution_json(result, time_unit), indent=2, allow_nan=False))
+        click.echo(json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False))
     elif not paths:
-        render_solution(result, time_unit)
+        render_solution(result, time_unit, summary=summary, species=species)
+
+
+def _write_output(path, result, scheme, time_unit, summary, document, species) -> None:
+    """Write one --out file; the format follows the extension (already checked)."""
+    from . import export
+    from .overview import inputs_tables, summary_rows
+
+    suffix = path.suffix.lower()
+    frame = result.to_frame(time_unit)
+    if suffix == ".csv":
+        export.write_csv(frame, path)
+    elif suffix == ".json":
+        export.write_json(document, path)
+    elif suffix == ".parquet":
+        meta = {
+            "source": scheme.source,
+            "title": scheme.title,
+            "time_unit": time_unit,
+            "concentration_unit": result.concentration_unit,
+            "software": document["software"],
+        }
+        export.write_parquet(frame, path, meta)
+    elif suffix == ".xlsx":
+        rows = summary_rows(summary, time_unit, result.concentration_unit) if summary else []
+        export.write_xlsx(
+            frame,
+            path,
+            summary_rows=rows,
+            inputs=inputs_tables(scheme),
+            scheme_text=scheme.text,
+        )
+    elif suffix in (".png", ".svg"):
+        from .plotting import save_plot
+
+        save_plot(path, _plot_solution(result, scheme), time_unit, summary, species=species)
+    else:  # pragma: no cover - check_output_paths refuses other extensions
+        raise UsageError(f"unknown output format {suffix!r}")
+
+
+@cli.command()
+@click.argument("scheme_file", type=click.Path(dir_okay=True, path_type=Path))
+@_grid_options
+@click.option(
+    "--out",
+    "output",
+    required=True,
+    type=click.Path(path_type=Path),
+    help="The report file (.html); one self-contained page, viewable offline.",
+)
+@click.option("--title", help="Title of the report (default: the title in the scheme file).")
+def report(
+    scheme_file, until, points, times_text, time_unit, species_text, no_caution, output, title
+):
+    """Write a self-contained HTML report: scheme, graph, inputs, summary, plot, table.
+
+    The page needs no network access: styles are inline and plots are embedded
+    images.  It records the software version, the date and the SHA-256 of the
+    scheme file, and carries the caution box of SAFETY.md.
+
+    \b
+    Example:
+      kinetics report networks/consecutive_intermediate.scheme --until 2h --out report.html
+    """
+    import hashlib
+
+    from .export import check_output_paths
+    from .parsing import load
+    from .report import build_report, write_report
+    from .terminal import progress
+
+    times, time_unit, settings = _prepare(until, points, times_text, time_unit)
+    (path,) = check_output_paths([output], [scheme_file], {".html": "HTML report"})
+    scheme = load(scheme_file)
+    species = _species_list(species_text, scheme)
+    digest = hashlib.sha256(Path(scheme_file).read_bytes()).hexdigest()
+    _caution(no_caution)
+    with progress(4, "solving") as bar:
+        result, summary = _solve_and_summarise(scheme, times, time_unit, bar)
+        bar.describe("drawing")
+        html = build_report(
+            scheme,
+            result,
+            summary,
+            time_unit,
+            sha256=digest,
+            settings=settings,
+            species=species,
+            title=title,
+            plot_solution=_plot_solution(result, scheme),
+        )
+        bar.step(f"writing {path.name}")
+        write_report(path, html)
+        bar.step()
+    click.echo(f"wrote {path}", err=True)
+
+
+def _split_debug(args: list[str]) -> tuple[list[str], bool]:
+    """Accept ``--debug`` anywhere before ``--`` (it is a global flag)."""
+    if "--" in args:
+        cut = args.index("--")
+        head, tail = args[:cut], args[cut:]
+    else:
+        head, tail = args, []
+    debug = "--debug" in head
+    head = [a for a in head if a != "--debug"]
+    return (["--debug", *head, *tail] if debug else head + tail), debug
 
 
 def main(argv: list[str] | None = None) -> int:
-    """Run the command line with ``argv`` (default: ``sys.argv[1:]``); return the exit status."""
-    args = list(sys.argv[1:] if argv is None else argv)
-    debug = "--debug" in args
+    """Run the command line with ``argv`` (default: ``sys.argv[1:]``); return the exit status.
+
+    Exit status: 0 success, 2 a user mistake (one sentence on stderr), 1 an
+    internal error (a bug: one sentence, the traceback only with ``--debug``),
+    130 interrupted.
+    """
+    args, debug = _split_debug(list(sys.argv[1:] if argv is None else argv))
     try:
-        cli.main(args=args, prog_name="kinetics", standalone_mode=False)
+        result = cli.main(args=args, prog_name="kinetics", standalone_mode=False)
     except click.exceptions.Exit as exc:
         return exc.exit_code
-    except click.exceptions.Abort:
+    except (click.exceptions.Abort, KeyboardInterrupt):
         click.echo("kinetics: interrupted", err=True)
         return 130
     except click.ClickException as exc:
         if debug:
             raise
-        message = exc.format_message()
-        click.echo(f"kinetics: {message}", err=True)
+        click.echo(f"kinetics: {exc.format_message()}", err=True)
+        if isinstance(exc, click.UsageError) and exc.ctx is not None:
+            click.echo(f"  (see: {exc.ctx.command_path} --help)", err=True)
         return 2
     except KineticsError as exc:
         if debug:
             raise
         click.echo(f"kinetics: {exc}", err=True)
         return 2
-    except KeyboardInterrupt:
-        click.echo("kinetics: interrupted", err=True)
-        return 130
-    return 0
+    except OSError as exc:
+        if debug:
+            raise
+        where = f" {exc.filename!r}" if exc.filename else ""
+        click.echo(f"kinetics: cannot access{where}: {exc.strerror or exc}", err=True)
+        return 2
+    except Exception as exc:
+        if debug:
+            raise
+        click.echo(
+            f"kinetics: internal error ({type(exc).__name__}: {exc}); "
+            "this is a bug, please report it with the output of --debug",
+            err=True,
+        )
+        return 1
+    return result if isinstance(result, int) else 0
 
 
 def run() -> None:  # pragma: no cover - console-script entry point

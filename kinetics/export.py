@@ -21,7 +21,26 @@ from .errors import UsageError
 if TYPE_CHECKING:
     import pandas as pd
 
-__all__ = ["atomic_path", "check_output_path", "write_csv"]
+__all__ = [
+    "OUTPUT_FORMATS",
+    "atomic_path",
+    "check_output_path",
+    "check_output_paths",
+    "write_csv",
+    "write_json",
+    "write_parquet",
+    "write_xlsx",
+]
+
+#: Output formats chosen by the file extension of ``--out``.
+OUTPUT_FORMATS = {
+    ".csv": "concentration table (CSV)",
+    ".xlsx": "spreadsheet with sheets concentrations, summary, inputs",
+    ".json": "the JSON object of --json",
+    ".parquet": "concentration table (Apache Parquet)",
+    ".png": "plot (PNG image)",
+    ".svg": "plot (SVG image)",
+}
 
 
 def check_output_path(path, inputs=()) -> Path:
@@ -52,6 +71,34 @@ def check_output_path(path, inputs=()) -> Path:
     return p
 
 
+def check_output_paths(paths, inputs=(), formats=None) -> list[Path]:
+    """Validate several output paths: known extension, folder exists, not an input, no repeats.
+
+    Parameters
+    ----------
+    paths : iterable of path-like
+    inputs : iterable of path-like
+        Files read by the command; never overwritten.
+    formats : dict of str to str, optional
+        Allowed extensions (lower case, with the dot) and their descriptions;
+        default :data:`OUTPUT_FORMATS`.
+    """
+    formats = OUTPUT_FORMATS if formats is None else formats
+    checked: list[Path] = []
+    for raw in paths:
+        p = Path(raw)
+        suffix = p.suffix.lower()
+        if suffix not in formats:
+            known = ", ".join(formats)
+            what = f"extension {p.suffix!r}" if p.suffix else "no extension"
+            raise UsageError(f"the output file {str(raw)!r} has {what}", f"the formats are {known}")
+        p = check_output_path(p, inputs)
+        if any(p.resolve() == q.resolve() for q in checked):
+            raise UsageError(f"the output file {str(raw)!r} is given twice", "name it once")
+        checked.append(p)
+    return checked
+
+
 @contextlib.contextmanager
 def atomic_path(path):
     """Yield a temporary path beside ``path``; rename it to ``path`` on success.
@@ -59,7 +106,10 @@ def atomic_path(path):
     On any exception the temporary file is removed and ``path`` is untouched.
     """
     target = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part", dir=target.parent or ".")
+    # the temporary name keeps the extension, for libraries that look at it
+    fd, tmp = tempfile.mkstemp(
+        prefix=f".{target.name}.", suffix=f".part{target.suffix}", dir=target.parent or "."
+    )
     os.close(fd)
     try:
         yield Path(tmp)
@@ -82,3 +132,130 @@ def write_csv(frame: pd.DataFrame, path) -> None:
     with atomic_path(path) as tmp:
         # float_format=None with pandas uses repr (shortest round-trip) for floats
         frame.to_csv(tmp, index=False, float_format=None, lineterminator="\n")
+
+
+def write_json(obj, path) -> None:
+    """Write a JSON-ready object (no NaN or infinity allowed), atomically, UTF-8."""
+    import json
+
+    text = json.dumps(obj, indent=2, allow_nan=False, ensure_ascii=False) + "\n"
+    with atomic_path(path) as tmp:
+        tmp.write_text(text, encoding="utf-8")
+
+
+def write_parquet(frame: pd.DataFrame, path, metadata: dict | None = None) -> None:
+    """Write a DataFrame as Apache Parquet (pyarrow), atomically.
+
+    Parameters
+    ----------
+    frame : pandas.DataFrame
+        Column names carry their units (``time [min]``).
+    metadata : dict, optional
+        JSON-ready key-value pairs stored in the file's schema metadata under ``kinetics``.
+    """
+    import json
+
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    table = pa.Table.from_pandas(frame, preserve_index=False)
+    if metadata:
+        meta = dict(table.schema.metadata or {})
+        meta[b"kinetics"] = json.dumps(metadata, allow_nan=False).encode()
+        table = table.replace_schema_metadata(meta)
+    with atomic_path(path) as tmp:
+        pq.write_table(table, tmp)
+
+
+def _xlsx_value(value):
+    if value is None:
+        return None
+    if isinstance(value, float) and value != value:
+        return None
+    if isinstance(value, list | tuple | dict):
+        import json
+
+        return json.dumps(value, allow_nan=False, default=str)
+    return value
+
+
+def _xlsx_block(sheet, title: str, rows: list[dict], bold) -> None:
+    """Append a heading, a header row and the rows of one small table to ``sheet``."""
+    if sheet.max_row > 1 or sheet.cell(1, 1).value is not None:
+        sheet.append([])
+    sheet.append([title])
+    sheet.cell(sheet.max_row, 1).font = bold
+    if not rows:
+        sheet.append(["(none)"])
+        return
+    header = list(rows[0])
+    sheet.append(header)
+    for cell in sheet[sheet.max_row]:
+        cell.font = bold
+    for row in rows:
+        sheet.append([_xlsx_value(row.get(h)) for h in header])
+
+
+def write_xlsx(
+    frame: pd.DataFrame,
+    path,
+    *,
+    summary_rows: list[dict] | None = None,
+    inputs: dict[str, list[dict]] | None = None,
+    scheme_text: str = "",
+) -> None:
+    """Write an Excel workbook with sheets ``concentrations``, ``summary`` and ``inputs``.
+
+    Parameters
+    ----------
+    frame : pandas.DataFrame
+        The concentration table (unit-labelled columns).
+    summary_rows : list of dict, optional
+        One row per species (keys are column headers with units).
+    inputs : dict of str to list of dict, optional
+        Named tables of the scheme as parsed (see :func:`kinetics.overview.inputs_tables`).
+    scheme_text : str, optional
+        The scheme as written, appended to the inputs sheet line by line.
+    """
+    from openpyxl import Workbook
+    from openpyxl.styles import Font
+
+    bold = Font(bold=True)
+    book = Workbook()
+    sheet = book.active
+    sheet.title = "concentrations"
+    sheet.append([str(c) for c in frame.columns])
+    for cell in sheet[1]:
+        cell.font = bold
+    for row in frame.itertuples(index=False):
+        sheet.append([float(v) for v in row])
+    sheet.freeze_panes = "A2"
+
+    summary_sheet = book.create_sheet("summary")
+    rows = summary_rows or []
+    if rows:
+        header = list(rows[0])
+        summary_sheet.append(header)
+        for cell in summary_sheet[1]:
+            cell.font = bold
+        for row in rows:
+            summary_sheet.append([_xlsx_value(row.get(h)) for h in header])
+    else:
+        summary_sheet.append(["no summary quantities available"])
+
+    inputs_sheet = book.create_sheet("inputs")
+    for name, table in (inputs or {}).items():
+        _xlsx_block(inputs_sheet, name, table, bold)
+    if scheme_text:
+        _xlsx_block(
+            inputs_sheet,
+            "scheme as written",
+            [{"line": i, "text": t} for i, t in enumerate(scheme_text.splitlines(), 1)],
+            bold,
+        )
+    for sh in (sheet, summary_sheet, inputs_sheet):
+        for column in sh.columns:
+            width = max((len(str(c.value)) for c in column if c.value is not None), default=8)
+            sh.column_dimensions[column[0].column_letter].width = min(max(10, width + 2), 60)
+    with atomic_path(path) as tmp:
+        book.save(tmp)

@@ -22,7 +22,119 @@ if TYPE_CHECKING:
     from .scheme import Scheme
     from .solution import Solution
 
-__all__ = ["check_report", "solution_json"]
+__all__ = [
+    "CAUTION",
+    "DEFINITIONS",
+    "check_report",
+    "compute_summary",
+    "inputs_tables",
+    "solution_json",
+    "summary_in_units",
+    "summary_rows",
+]
+
+#: The two-line caution printed by ``solve`` and ``report`` (short form of SAFETY.md).
+CAUTION = (
+    "Caution: a first-order, isothermal, ideally mixed model; not a hazard or safety assessment.\n"
+    "Runaway, heat release, gas evolution and scale-up need a process-safety review: see SAFETY.md."
+)
+
+#: Plain-words definitions of the summary quantities (README and the report use these).
+DEFINITIONS = {
+    "start": "Start: the concentration at time zero, as given in the scheme (0 when not listed).",
+    "half_life": (
+        "Half-life: the first time at which a species that has a start value falls to half of "
+        "it, found by root finding on the exact solution. Empty, with a note, when it never "
+        "falls that low (for example a reversible step whose equilibrium lies above half)."
+    ),
+    "time_to_90_percent_remaining": (
+        "90 % left at: the first time at which 90 % of the start value remains (the shelf-life "
+        "meaning of 't90'; ln(10/9)/k for a single first-order decay)."
+    ),
+    "time_to_10_percent_remaining": (
+        "10 % left at: the first time at which only 10 % of the start value remains, i.e. 90 % "
+        "has gone (the degradation-study meaning of 'DT90'; ln(10)/k for a single decay)."
+    ),
+    "t_max": (
+        "t_max: for a species that is formed and later consumed, the time of its highest "
+        "concentration over all t >= 0, located where its exact rate of change is zero; it "
+        "may lie after the end of the chosen time window (flagged)."
+    ),
+    "c_max": "c_max: the concentration of that species at t_max.",
+    "yield_at_max": (
+        "Yield at max: c_max divided by the total start concentration of the starting "
+        "materials (a fraction of material only for 1:1 stoichiometry)."
+    ),
+    "limit": (
+        "Limit: the concentration approached as t goes to infinity (equilibrium of reversible "
+        "steps, accumulation in end products, a steady state kept up by a feed); empty when "
+        "the species grows without bound."
+    ),
+    "limit_kind": (
+        "Limit kind: transient (decays to zero), end product, equilibrium, steady state, "
+        "inert, not formed, or unbounded."
+    ),
+    "time_to_limit": (
+        "Within 1 % of limit at: the time after which the species stays within 1 % of its "
+        "limit (a species whose limit is zero is compared with 1 % of the largest limit)."
+    ),
+    "lifetime": (
+        "Lifetime 1/Σk: one over the sum of the rate constants of the steps that consume the "
+        "species; how long a molecule survives on average once formed."
+    ),
+    "first_order_half_life": (
+        "ln2/Σk: ln 2 times the lifetime; equals the half-life only for a species that is "
+        "consumed by first-order steps and not formed again."
+    ),
+    "area_to_window_end": (
+        "Area to end of window: the exact integral of the concentration from 0 to the end of "
+        "the time window (no quadrature)."
+    ),
+    "area_to_infinity": (
+        "Area to infinity: the same integral to t = infinity, where finite (species that "
+        "decay to zero)."
+    ),
+    "mean_residence_time": (
+        "Mean residence time: area to infinity divided by the start value, 1/k for a single "
+        "first-order decay."
+    ),
+}
+
+#: Keys of a species summary that hold a time [s] (converted to the table's time unit).
+TIME_KEYS = frozenset(
+    {
+        "half_life",
+        "time_to_90_percent_remaining",
+        "time_to_10_percent_remaining",
+        "lifetime",
+        "first_order_half_life",
+        "t_max",
+        "time_to_limit",
+        "mean_residence_time",
+        "time",
+    }
+)
+#: Keys that hold an area under a curve [concentration * s].
+AREA_KEYS = frozenset({"area_to_window_end", "area_to_infinity"})
+
+#: Columns of the summary table: (key, header, kind), kind is "time", "conc", "area" or "".
+SUMMARY_COLUMNS = (
+    ("start", "start", "conc"),
+    ("half_life", "half-life", "time"),
+    ("time_to_90_percent_remaining", "90 % left at", "time"),
+    ("time_to_10_percent_remaining", "10 % left at", "time"),
+    ("t_max", "t_max", "time"),
+    ("c_max", "c_max", "conc"),
+    ("yield_at_max", "yield at max [-]", ""),
+    ("limit", "limit", "conc"),
+    ("limit_kind", "limit kind", ""),
+    ("time_to_limit", "within 1 % of limit at", "time"),
+    ("lifetime", "lifetime 1/Σk", "time"),
+    ("first_order_half_life", "ln2/Σk", "time"),
+    ("area_to_window_end", "area to end of window", "area"),
+    ("area_to_infinity", "area to infinity", "area"),
+    ("mean_residence_time", "mean residence time", "time"),
+)
 
 
 def _finite(x):
@@ -104,21 +216,180 @@ def check_report(scheme: Scheme) -> dict:
     }
 
 
-def solution_json(solution: Solution, time_unit: str, summary: dict | None = None) -> dict:
-    """The ``solve --json`` object: table settings, the table and the summary."""
+def solution_json(
+    solution: Solution,
+    time_unit: str,
+    summary: dict | None = None,
+    settings: dict | None = None,
+) -> dict:
+    """The ``solve --json`` object: table settings, the table and the summary.
+
+    Parameters
+    ----------
+    solution : Solution
+    time_unit : str
+        Unit of ``times`` and of every time in ``summary``.
+    summary : dict, optional
+        Species -> quantities, already in ``time_unit`` (see :func:`summary_in_units`);
+        written as ``null`` when not given.
+    settings : dict, optional
+        How the grid was asked for (``until``, ``points``, ``times``), as written.
+    """
     frame = solution.to_frame(time_unit)
-    out = {
+    return {
         "source": solution.scheme.source,
+        "title": solution.scheme.title,
         "software": f"kinetics {__version__}",
         "species": solution.species,
         "time_unit": time_unit,
         "concentration_unit": solution.concentration_unit,
+        "settings": dict(settings or {}),
         "points": len(solution.times),
+        "summary": summary,
         "times": frame.iloc[:, 0].tolist(),
         "concentrations": {
             name: solution.concentrations[:, i].tolist() for i, name in enumerate(solution.species)
         },
     }
-    if summary is not None:
-        out["summary"] = summary
-    return out
+
+
+def compute_summary(solution: Solution) -> dict[str, dict] | None:
+    """Summary quantities of every species in SI time [s] and the concentration unit.
+
+    Uses :func:`kinetics.analysis.summarise` on the scheme of ``solution`` with the
+    solution's time window.  Returns ``None`` when that module is not available.
+    """
+    try:
+        from .analysis import summarise
+    except ImportError:
+        return None
+    scheme = solution.scheme
+    feed = scheme.feed_vector if scheme.feed else None
+    window = float(solution.times[-1])
+    raw = summarise(
+        scheme.rate_matrix(),
+        scheme.initial_vector,
+        scheme.species_names,
+        feed=feed,
+        t_window=window,
+    )
+    return {name: (s.to_dict() if hasattr(s, "to_dict") else dict(s)) for name, s in raw.items()}
+
+
+def _convert_times(value, key: str, factor: float):
+    if isinstance(value, dict):
+        return {k: _convert_times(v, k, factor) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_convert_times(v, key, factor) for v in value]
+    if isinstance(value, int | float) and not isinstance(value, bool):
+        if key in TIME_KEYS or key in AREA_KEYS:
+            return _finite(value / factor)
+    if isinstance(value, float):
+        return _finite(value)
+    return value
+
+
+def summary_in_units(summary: dict[str, dict], time_unit: str) -> dict[str, dict]:
+    """Convert every time-valued entry of a summary from seconds to ``time_unit``.
+
+    Times [s] become [time_unit], areas [conc*s] become [conc*time_unit]; non-finite
+    numbers become ``None`` (JSON null); concentrations are unchanged.
+    """
+    from .solution import time_factor
+
+    factor = time_factor(time_unit)
+    return {name: _convert_times(d, "", factor) for name, d in summary.items()}
+
+
+def summary_header(key_header_kind: tuple[str, str, str], time_unit: str, conc_unit: str) -> str:
+    """Column header with its unit in brackets, e.g. ``t_max [min]``."""
+    _, header, kind = key_header_kind
+    unit = {"time": time_unit, "conc": conc_unit, "area": f"{conc_unit}·{time_unit}"}.get(kind)
+    return f"{header} [{unit}]" if unit else header
+
+
+def summary_rows(summary: dict[str, dict], time_unit: str, conc_unit: str) -> list[dict]:
+    """One row per species with unit-labelled headers (summary already in ``time_unit``)."""
+    rows = []
+    for name, entry in summary.items():
+        row: dict = {"species": name}
+        for column in SUMMARY_COLUMNS:
+            row[summary_header(column, time_unit, conc_unit)] = entry.get(column[0])
+        maxima = entry.get("maxima") or []
+        if len(maxima) > 1:
+            row[f"all maxima (time [{time_unit}], height [{conc_unit}])"] = "; ".join(
+                f"{m['time']:.6g}, {m['height']:.6g}" for m in maxima if m.get("time") is not None
+            )
+        row["notes"] = "; ".join(entry.get("notes") or [])
+        rows.append(row)
+    # make every row carry the same keys (spreadsheets and frames want a rectangle)
+    keys = list(dict.fromkeys(k for row in rows for k in row))
+    notes_last = [k for k in keys if k != "notes"] + ["notes"]
+    return [{k: row.get(k) for k in notes_last} for row in rows]
+
+
+def inputs_tables(scheme: Scheme) -> dict[str, list[dict]]:
+    """The scheme as parsed, as rows for spreadsheets and reports.
+
+    Returns
+    -------
+    dict
+        ``species`` (name, role, formula, molar mass [g/mol], start, excess, feed),
+        ``constants`` (name, as written, unit as written, SI value, SI unit),
+        ``steps`` (equation, constant, effective k [1/s], line) and ``settings``
+        (temperature, concentration unit, title, source).
+    """
+    from .network import summarise_network
+
+    roles = summarise_network(scheme).roles
+    unit = scheme.concentration_unit
+    species = []
+    for s in scheme.species + scheme.excess_species:
+        species.append(
+            {
+                "species": s.name,
+                "role": roles.get(s.name, ""),
+                "formula": s.formula or "",
+                "molar mass [g/mol]": s.molar_mass,
+                f"start [{unit}]": None if s.excess else scheme.initial.get(s.name, 0.0),
+                f"held in excess [{unit}]": scheme.excess.get(s.name) if s.excess else None,
+                f"feed [{unit}/s]": scheme.feed.get(s.name),
+            }
+        )
+    constants = []
+    for name, c in scheme.constants.items():
+        si = None
+        if c.arrhenius is None or scheme.temperature is not None:
+            si = _finite(c.si_value(scheme.temperature))
+        si_unit = {0: "1/s", 1: "m3/(mol s)"}.get(c.order, f"m{3 * c.order}/(mol{c.order} s)")
+        constants.append(
+            {
+                "constant": name,
+                "as written": c.text,
+                "unit as written": c.unit,
+                "SI value": si,
+                "SI unit": si_unit,
+                "Ea [J/mol]": c.arrhenius.activation_energy if c.arrhenius else None,
+                "line": c.line,
+            }
+        )
+    steps = []
+    for i, step in enumerate(scheme.steps):
+        steps.append(
+            {
+                "step": step.equation,
+                "constant": step.constant,
+                "effective k [1/s]": float(scheme.rates[i]),
+                "line": scheme.reactions[step.reaction].line,
+            }
+        )
+    settings = [
+        {"setting": "title", "value": scheme.title},
+        {"setting": "source", "value": scheme.source},
+        {"setting": "concentration unit", "value": unit},
+        {
+            "setting": "temperature [K]",
+            "value": scheme.temperature if scheme.temperature is not None else "",
+        },
+    ]
+    return {"species": species, "constants": constants, "steps": steps, "settings": settings}

@@ -15,12 +15,81 @@ if TYPE_CHECKING:
     from .scheme import Scheme
     from .solution import Solution
 
-__all__ = ["console", "render_check", "render_solution"]
+__all__ = ["console", "progress", "render_check", "render_solution", "render_summary"]
+
+#: Width used when stdout is not a terminal: wide enough never to cut a column.
+PIPE_WIDTH = 10_000
 
 
-def console() -> Console:
-    """A console on stdout (plain text when stdout is not a terminal)."""
-    return Console(highlight=False, soft_wrap=False)
+def console(stderr: bool = False) -> Console:
+    """A console on stdout (or stderr): colour only on a terminal, no truncation in pipes.
+
+    When the stream is not a terminal (a file, a pipe, a test), the width is set
+    very large so that tables are never wrapped or truncated, and no colour codes
+    are written.
+    """
+    probe = Console(stderr=stderr)
+    if probe.is_terminal:
+        return Console(stderr=stderr, highlight=False, soft_wrap=False)
+    return Console(stderr=stderr, highlight=False, soft_wrap=False, width=PIPE_WIDTH, no_color=True)
+
+
+class _Progress:
+    """A progress bar on stderr that appears only if the work lasts over ``delay`` seconds."""
+
+    def __init__(self, total: int, description: str, delay: float) -> None:
+        import threading
+
+        from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+
+        self._enabled = console(stderr=True).is_terminal
+        self._progress = Progress(
+            TextColumn("{task.description}"),
+            BarColumn(),
+            TextColumn("{task.completed}/{task.total}"),
+            TimeElapsedColumn(),
+            console=Console(stderr=True),
+            transient=True,
+        )
+        self._task = self._progress.add_task(description, total=total)
+        self._started = False
+        self._timer = threading.Timer(delay, self._start) if self._enabled else None
+
+    def _start(self) -> None:
+        self._started = True
+        self._progress.start()
+
+    def __enter__(self):
+        if self._timer is not None:
+            self._timer.daemon = True
+            self._timer.start()
+        return self
+
+    def step(self, description: str | None = None) -> None:
+        """Mark one piece of work as done (and name the next one)."""
+        if description is None:
+            self._progress.advance(self._task)
+        else:
+            self._progress.update(self._task, advance=1, description=description)
+
+    def describe(self, description: str) -> None:
+        """Name the piece of work now running."""
+        self._progress.update(self._task, description=description)
+
+    def __exit__(self, *exc) -> None:
+        if self._timer is not None:
+            self._timer.cancel()
+        if self._started:
+            self._progress.stop()
+
+
+def progress(total: int, description: str = "working", delay: float = 0.8) -> _Progress:
+    """A context manager with ``step()``/``describe()``: a progress bar on stderr.
+
+    Shown only when stderr is a terminal and the work lasts longer than ``delay``
+    seconds; quiet otherwise (pipes, files, scripts, tests).
+    """
+    return _Progress(total, description, delay)
 
 
 def _num(x, digits: int = 6) -> str:
@@ -106,22 +175,110 @@ def render_check(scheme: Scheme, report: dict) -> None:
         )
 
 
-def render_solution(solution: Solution, time_unit: str, max_rows: int = 25) -> None:
-    """Print the concentration table (thinned to about ``max_rows`` rows)."""
+def _cell(value) -> str:
+    if value is None:
+        return "—"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
+    if isinstance(value, float):
+        return f"{value:.6g}"
+    return _escape(str(value))
+
+
+#: Summary columns shown in the terminal (the files carry all of them).
+TERMINAL_SUMMARY = (
+    "start",
+    "half_life",
+    "time_to_90_percent_remaining",
+    "t_max",
+    "c_max",
+    "limit",
+    "time_to_limit",
+    "lifetime",
+)
+
+
+def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> None:
+    """Print the summary quantities as a table with units in every header."""
+    from .overview import SUMMARY_COLUMNS, summary_header
+
+    out = out or console()
+    out.print("[bold]Summary[/bold] (exact, from the closed-form solution)")
+    table = Table()
+    table.add_column("species")
+    columns = [c for c in SUMMARY_COLUMNS if c[0] in TERMINAL_SUMMARY]
+    for column in columns:
+        table.add_column(_escape(summary_header(column, time_unit, conc_unit)), justify="right")
+    notes = []
+    for name, entry in summary.items():
+        cells = [_escape(name)]
+        for key, _, _ in columns:
+            value = entry.get(key)
+            text = _cell(value)
+            if key == "t_max" and value is not None and entry.get("t_max_beyond_window"):
+                text += " (after window)"
+            if key == "limit" and value is None and entry.get("unbounded"):
+                text = "unbounded"
+            cells.append(text)
+        table.add_row(*cells)
+        maxima = entry.get("maxima") or []
+        if len(maxima) > 1:
+            listed = ", ".join(
+                f"{m['height']:.4g} at {m['time']:.4g} {time_unit}"
+                for m in maxima
+                if m.get("time") is not None and m.get("height") is not None
+            )
+            notes.append(f"{name}: local maxima {listed}")
+        notes.extend(f"{name}: {note}" for note in entry.get("notes") or [])
+    out.print(table)
+    for note in dict.fromkeys(notes):
+        out.print(f"  note: {_escape(note)}")
+
+
+def render_solution(
+    solution: Solution,
+    time_unit: str,
+    max_rows: int = 25,
+    summary: dict | None = None,
+    species: list[str] | None = None,
+) -> None:
+    """Print the summary table (when given) and the concentration table (about ``max_rows`` rows).
+
+    Parameters
+    ----------
+    solution : Solution
+    time_unit : str
+        Unit of the time column and of the times in ``summary``.
+    max_rows : int, optional
+        The table is thinned to about this many rows (first and last always shown).
+    summary : dict, optional
+        Species -> quantities in ``time_unit`` (see :func:`kinetics.overview.summary_in_units`).
+    species : list of str, optional
+        Columns to show (default: every species).
+    """
     out = console()
+    if summary:
+        shown = {k: v for k, v in summary.items() if not species or k in species}
+        render_summary(shown, time_unit, solution.concentration_unit, out)
     frame = solution.to_frame(time_unit)
+    if species:
+        keep = [frame.columns[0]] + [f"{name} [{solution.concentration_unit}]" for name in species]
+        frame = frame[keep]
     n = len(frame)
     step = max(1, (n - 1) // (max_rows - 1)) if n > max_rows else 1
     rows = list(range(0, n, step))
     if rows[-1] != n - 1:
         rows.append(n - 1)
-    table = Table(
-        title=f"Concentrations ({n} points; every {step}. shown)" if step > 1 else "Concentrations"
-    )
+    title = "Concentrations[/bold] (exact)"
+    if step > 1:
+        title += f": {len(rows)} of {n} points shown (1 in {step}); --out writes them all"
+    out.print(f"[bold]{title}")
+    table = Table()
     for column in frame.columns:
         table.add_column(_escape(column), justify="right")
+    values = frame.to_numpy()
     for i in rows:
-        table.add_row(*(f"{v:.6g}" for v in frame.iloc[i]))
+        table.add_row(*(f"{v:.6g}" for v in values[i]))
     out.print(table)
 
 

@@ -1,0 +1,400 @@
+"""Plots of a solution and drawings of the species graph (matplotlib, imported lazily).
+
+Figures are built with :class:`matplotlib.figure.Figure` and the Agg canvas
+directly, never through ``pyplot``: no global state, no window, no display
+needed, and importing :mod:`kinetics` does not import matplotlib.
+
+Every curve has its own line style *and* marker shape as well as its own colour,
+so that the plots stay readable when printed in black and white.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+if TYPE_CHECKING:
+    from matplotlib.figure import Figure
+
+    from .scheme import Scheme
+    from .solution import Solution
+
+__all__ = [
+    "concentration_figure",
+    "figure_bytes",
+    "save_figure",
+    "save_plot",
+    "species_graph_figure",
+]
+
+#: Line styles and markers, combined per curve (black-and-white readable).
+LINE_STYLES = ("-", "--", "-.", ":", (0, (5, 1, 1, 1, 1, 1)), (0, (8, 2)))
+MARKERS = ("o", "s", "^", "D", "v", "P", "X", "<", ">", "h")
+#: Lower end of the log panel, relative to the largest concentration shown.
+LOG_FLOOR = 1e-9
+
+
+def _style(i: int) -> dict:
+    from matplotlib import colormaps
+
+    colours = colormaps["tab10"].colors
+    return {
+        "color": colours[i % len(colours)],
+        "linestyle": LINE_STYLES[i % len(LINE_STYLES)],
+        "marker": MARKERS[i % len(MARKERS)],
+    }
+
+
+def _new_figure(width: float, height: float) -> Figure:
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=(width, height), layout="constrained")
+    FigureCanvasAgg(fig)
+    return fig
+
+
+def _fmt(x: float) -> str:
+    return f"{x:.4g}"
+
+
+def _marks(summary: dict | None, name: str, t_end: float):
+    """(half-life, maxima list, notes) of one species from a summary in the plot's units."""
+    if not summary or name not in summary:
+        return None, [], []
+    entry = summary[name] or {}
+    notes = []
+    half = entry.get("half_life")
+    if half is not None and not (0 <= half <= t_end):
+        notes.append(f"t½ {name} = {_fmt(half)} (beyond the window)")
+        half = None
+    maxima = []
+    listed = entry.get("maxima")
+    if isinstance(listed, list) and listed:
+        for m in listed:
+            t = m.get("time")
+            c = m.get("height")
+            if t is not None and c is not None:
+                maxima.append((t, c))
+    elif entry.get("t_max") is not None and entry.get("c_max") is not None:
+        maxima.append((entry["t_max"], entry["c_max"]))
+    shown = []
+    for t, c in maxima:
+        if 0 <= t <= t_end:
+            shown.append((t, c))
+        else:
+            notes.append(f"maximum of {name}: {_fmt(c)} at {_fmt(t)} (beyond the window)")
+    return half, shown, notes
+
+
+def concentration_figure(
+    solution: Solution,
+    time_unit: str = "s",
+    summary: dict | None = None,
+    *,
+    species: list[str] | None = None,
+    title: str | None = None,
+) -> Figure:
+    """Concentration against time, on a linear and on a logarithmic scale.
+
+    Parameters
+    ----------
+    solution : Solution
+        Times [s] and concentrations [concentration_unit].
+    time_unit : str, optional
+        Unit of the time axis (``"min"``, ``"h"``...).
+    summary : dict, optional
+        Species -> quantities in ``time_unit`` and the concentration unit (keys
+        ``half_life``, ``t_max``, ``c_max``, optionally ``maxima``: a list of
+        ``{"time": ..., "height": ...}``, as :func:`kinetics.overview.summary_in_units`
+        gives them); half-lives
+        (open circle at half the start value) and maxima (filled star) are marked.
+    species : list of str, optional
+        Species to draw (default: all).
+    title : str, optional
+        Figure title (default: the scheme's title).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+        Two panels: linear concentration axis and logarithmic concentration axis.
+    """
+    from .solution import time_factor
+
+    names = list(species) if species else list(solution.species)
+    t = solution.times / time_factor(time_unit)
+    t_end = float(t[-1]) if t.size else 0.0
+    unit = solution.concentration_unit
+    fig = _new_figure(11.0, 4.8)
+    ax_lin, ax_log = fig.subplots(1, 2)
+    n_points = t.size
+    every = max(1, n_points // 9)
+    notes: list[str] = []
+    peak = 0.0
+    positive_min = math.inf
+    for i, name in enumerate(names):
+        j = solution.species.index(name)
+        c = solution.concentrations[:, j]
+        style = _style(j)
+        offset = (i * every) // max(1, len(names)) if every > 1 else 0
+        kw = {
+            "label": name,
+            "linewidth": 1.8,
+            "markersize": 5.5,
+            "markevery": (offset, every),
+            "markerfacecolor": "white" if i % 2 else style["color"],
+            **style,
+        }
+        ax_lin.plot(t, c, **kw)
+        positive = np.where(c > 0, c, np.nan)
+        ax_log.plot(t, positive, **kw)
+        if np.any(c > 0):
+            peak = max(peak, float(np.nanmax(positive)))
+            positive_min = min(positive_min, float(np.nanmin(positive)))
+        half, maxima, species_notes = _marks(summary, name, t_end)
+        notes.extend(species_notes)
+        c0 = float(solution.concentrations[0, j])
+        for ax in (ax_lin, ax_log):
+            if half is not None and c0 > 0:
+                ax.plot([half], [c0 / 2], "o", ms=10, mfc="none", mec="black", mew=1.6, zorder=5)
+                ax.axvline(half, color="0.45", linestyle=(0, (1, 2)), linewidth=0.9, zorder=1)
+            for tm, cm in maxima:
+                ax.plot([tm], [cm], "*", ms=13, color="black", mec="white", mew=0.6, zorder=6)
+        if half is not None and c0 > 0:
+            ax_lin.annotate(
+                f"t½ {name} = {_fmt(half)} {time_unit}",
+                (half, c0 / 2),
+                xytext=(9, 7),
+                textcoords="offset points",
+                fontsize=8,
+                bbox={"boxstyle": "round,pad=0.2", "fc": "white", "ec": "0.6", "alpha": 0.9},
+                zorder=7,
+            )
+        for tm, cm in maxima:
+            ax_lin.annotate(
+                f"max {name} = {_fmt(cm)} at {_fmt(tm)} {time_unit}",
+                (tm, cm),
+                xytext=(9, 7),
+                textcoords="offset points",
+                fontsize=8,
+                bbox={"boxstyle": "round,pad=0.2", "fc": "white", "ec": "0.6", "alpha": 0.9},
+                zorder=7,
+            )
+    for ax in (ax_lin, ax_log):
+        ax.set_xlabel(f"time [{time_unit}]")
+        ax.set_ylabel(f"concentration [{unit}]")
+        ax.grid(True, color="0.88", linewidth=0.7)
+        ax.set_xlim(0, t_end if t_end > 0 else 1)
+    ax_lin.set_ylim(bottom=0)
+    ax_lin.set_title("linear scale", fontsize=10)
+    ax_log.set_yscale("log")
+    if peak > 0:
+        floor = max(positive_min, peak * LOG_FLOOR)
+        ax_log.set_ylim(floor / 2, peak * 2)
+    ax_log.set_title(f"logarithmic scale (down to {LOG_FLOOR:g} of the largest)", fontsize=10)
+    heading = title if title is not None else (solution.scheme.title or solution.scheme.source)
+    if heading:
+        fig.suptitle(heading, fontsize=12)
+    handles, labels = ax_lin.get_legend_handles_labels()
+    from matplotlib.lines import Line2D
+
+    if summary:
+        handles += [
+            Line2D([], [], marker="*", ls="none", color="black", ms=11),
+            Line2D([], [], marker="o", ls="none", mfc="none", mec="black", ms=9),
+        ]
+        labels += ["maximum", "half-life"]
+    fig.legend(handles, labels, loc="outside lower center", ncol=min(len(labels), 8), fontsize=9)
+    if notes:
+        fig.text(0.01, 0.005, "; ".join(notes), fontsize=7, color="0.3", ha="left", va="bottom")
+    return fig
+
+
+def _layers(scheme: Scheme, graph) -> dict[str, int]:
+    """Column of each species: shortest number of steps from where the material starts."""
+    import networkx as nx
+
+    nodes = list(graph.nodes)
+    sources = [n for n in nodes if scheme.initial.get(n, 0) > 0 or n in scheme.feed]
+    sources += [n for n in nodes if graph.in_degree(n) == 0 and n not in sources]
+    layer: dict[str, int] = {}
+    remaining = list(nodes)
+    while remaining:
+        start = [n for n in sources if n in remaining] or remaining[:1]
+        dist = nx.multi_source_dijkstra_path_length(graph.subgraph(remaining), start, weight=None)
+        for n, d in dist.items():
+            layer[n] = int(d)
+        remaining = [n for n in remaining if n not in layer]
+        sources = [n for n in sources if n in remaining]
+    return layer
+
+
+def species_graph_figure(scheme: Scheme, *, max_species: int = 60) -> Figure | None:
+    """A drawing of the species graph: one box per species, one arrow per step.
+
+    Species are placed in columns by the smallest number of steps from a species
+    with a start value or feed; arrows carry the constant names.  Species held in
+    excess are drawn with dashed boxes.
+
+    Parameters
+    ----------
+    scheme : Scheme
+    max_species : int, optional
+        Larger schemes are not drawn (``None`` is returned): the drawing would be unreadable.
+
+    Returns
+    -------
+    matplotlib.figure.Figure or None
+    """
+    from matplotlib.patches import FancyArrowPatch
+
+    from .network import species_graph
+
+    graph = species_graph(scheme)
+    matrix_edges = [(a, b, d) for a, b, d in graph.edges(data=True) if not d.get("co_reactant")]
+    if graph.number_of_nodes() > max_species:
+        return None
+    import networkx as nx
+
+    reaction_graph = nx.DiGraph()
+    reaction_graph.add_nodes_from(graph.nodes)
+    reaction_graph.add_edges_from((a, b) for a, b, _ in matrix_edges)
+    layer = _layers(scheme, reaction_graph)
+    columns: dict[int, list[str]] = {}
+    for name in graph.nodes:
+        columns.setdefault(layer[name], []).append(name)
+    n_cols = max(columns) + 1
+    n_rows = max(len(v) for v in columns.values())
+    pos = {}
+    for col, members in columns.items():
+        for r, name in enumerate(members):
+            pos[name] = (col * 2.4, 1.2 * ((len(members) - 1) / 2 - r))
+    scale = min(1.0, 12.0 / (2.4 * n_cols + 1.6), 9.0 / (1.2 * n_rows + 2.4))
+    fig = _new_figure(scale * (2.4 * (n_cols - 1) + 1.6), scale * (1.2 * (n_rows - 1) + 2.6))
+    ax = fig.subplots()
+    ax.set_axis_off()
+    label_box = {"boxstyle": "round,pad=0.35", "fc": "white", "ec": "black", "lw": 1.3}
+    texts = {}
+    for name, (x, y) in pos.items():
+        excess = graph.nodes[name]["excess"]
+        box = dict(label_box, ls="--", fc="0.95") if excess else label_box
+        texts[name] = ax.text(x, y, name, ha="center", va="center", fontsize=11, bbox=box, zorder=3)
+    for a, b, data in graph.edges(data=True):
+        co = bool(data.get("co_reactant"))
+        if a == b:
+            continue
+        back = layer[b] <= layer[a] and not graph.has_edge(b, a)
+        pair = graph.has_edge(b, a)
+        rad = 0.0
+        if pair:
+            rad = 0.18
+        elif back:
+            rad = 0.45
+        arrow = FancyArrowPatch(
+            posA=pos[a],
+            posB=pos[b],
+            patchA=texts[a].get_bbox_patch(),
+            patchB=texts[b].get_bbox_patch(),
+            arrowstyle="-|>",
+            mutation_scale=14,
+            connectionstyle=f"arc3,rad={rad}",
+            color="0.5" if co else "black",
+            linestyle="--" if co else "-",
+            linewidth=1.0 if co else 1.4,
+            shrinkA=4,
+            shrinkB=4,
+            zorder=3.5,  # drawn after the boxes, whose outlines then clip the arrow
+        )
+        ax.add_patch(arrow)
+        if data.get("constants"):
+            (xa, ya), (xb, yb) = pos[a], pos[b]
+            # midpoint of the quadratic Bezier curve drawn by arc3 (equal aspect: data = display)
+            dx, dy = xb - xa, yb - ya
+            mx = (xa + xb) / 2 + 0.5 * rad * dy
+            my = (ya + yb) / 2 - 0.5 * rad * dx
+            label = ", ".join(dict.fromkeys(data["constants"]))
+            ax.text(
+                mx,
+                my,
+                label,
+                ha="center",
+                va="center",
+                fontsize=8.5,
+                color="0.1",
+                style="italic",
+                bbox={"boxstyle": "round,pad=0.15", "fc": "white", "ec": "none"},
+                zorder=4,
+            )
+    xs = [p[0] for p in pos.values()]
+    ys = [p[1] for p in pos.values()]
+    for name in scheme.feed:
+        x, y = pos[name]
+        ax.annotate(
+            "feed",
+            xy=(x, y),
+            xytext=(x - 0.7, y + 0.55),
+            ha="center",
+            fontsize=8.5,
+            style="italic",
+            arrowprops={
+                "arrowstyle": "-|>",
+                "color": "black",
+                "lw": 1.2,
+                "ls": ":",
+                "patchB": texts[name].get_bbox_patch(),
+                "shrinkB": 4,
+            },
+            zorder=3.5,
+        )
+    back_edges = [
+        (a, b)
+        for a, b, _ in matrix_edges
+        if a != b and layer[b] <= layer[a] and not graph.has_edge(b, a)
+    ]
+    arcs = 0.6 if back_edges else 0.0
+    ax.set_xlim(min(xs) - 0.8, max(xs) + 0.8)
+    ax.set_ylim(min(ys) - 0.6 - arcs, max(ys) + 0.6 + arcs * 2)
+    ax.set_aspect("equal")
+    return fig
+
+
+def figure_bytes(fig: Figure, fmt: str = "png", dpi: int = 130) -> bytes:
+    """The figure encoded as ``png`` or ``svg`` bytes."""
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format=fmt, dpi=dpi, metadata=_metadata(fmt), bbox_inches="tight")
+    return buffer.getvalue()
+
+
+def _metadata(fmt: str) -> dict:
+    from . import __version__
+
+    if fmt == "png":
+        return {"Software": f"kinetics {__version__}"}
+    if fmt == "svg":
+        return {"Creator": f"kinetics {__version__}", "Date": None}
+    return {}
+
+
+def save_figure(fig: Figure, path, dpi: int = 150) -> None:
+    """Write a figure to ``path`` (format from its extension: .png or .svg), atomically."""
+    from .export import atomic_path
+
+    fmt = Path(path).suffix.lower().lstrip(".")
+    with atomic_path(path) as tmp:
+        fig.savefig(tmp, format=fmt, dpi=dpi, metadata=_metadata(fmt), bbox_inches="tight")
+
+
+def save_plot(
+    path,
+    solution: Solution,
+    time_unit: str = "s",
+    summary: dict | None = None,
+    *,
+    species: list[str] | None = None,
+) -> None:
+    """Draw :func:`concentration_figure` and write it to ``path`` (.png or .svg), atomically."""
+    save_figure(concentration_figure(solution, time_unit, summary, species=species), path)
