@@ -22,6 +22,7 @@ and standard atomic weights), not a hand-written table.
 from __future__ import annotations
 
 import functools
+import re
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
@@ -41,6 +42,12 @@ __all__ = [
 ]
 
 
+#: Formulas are element symbols with counts and parentheses, nothing else (the
+#: formula library also reads mixtures, densities and isotope labels, which a
+#: reaction scheme does not need).
+_FORMULA_CHARS = re.compile(r"[^A-Za-z0-9.()]")
+
+
 @functools.lru_cache(maxsize=1024)
 def parse_formula(text: str):
     """Parse an element formula with periodictable; raise ValueError if it does not parse.
@@ -58,12 +65,20 @@ def parse_formula(text: str):
 
     if not text or (not text[0].isupper() and text[0] != "("):
         raise ValueError("a formula starts with an element symbol such as C or Na")
+    bad = _FORMULA_CHARS.search(text)
+    if bad:
+        raise ValueError(f"unexpected {bad.group(0)!r} at character {bad.start() + 1}")
+    if text.count("(") != text.count(")"):
+        raise ValueError("unbalanced parentheses")
     try:
         formula = periodictable.formula(text)
     except Exception as exc:  # periodictable raises pyparsing and value errors
-        raise ValueError(str(exc).splitlines()[0] or "not a formula") from None
+        message = str(exc).splitlines()[0] if str(exc) else ""
+        raise ValueError(message or "not a formula") from None
     if not formula.atoms:
         raise ValueError("no elements found")
+    if any(not count > 0 for count in formula.atoms.values()):
+        raise ValueError("an element count is zero")
     return formula
 
 

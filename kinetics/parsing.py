@@ -30,10 +30,13 @@ from __future__ import annotations
 import difflib
 import math
 import re
+import sys
 from dataclasses import dataclass
 from fractions import Fraction
 from pathlib import Path
 from typing import ClassVar
+
+import numpy as np
 
 from .errors import SchemeError, SchemeErrors, SchemeFileError
 from .scheme import Arrhenius, RateConstant, Reaction, Scheme, Species, Step
@@ -59,11 +62,14 @@ _NUMBER_RE = re.compile(
     re.IGNORECASE,
 )
 _TERM_RE = re.compile(rf"\s*(?:(?P<coef>\d+(?:\.\d*)?|\.\d+)\s*)?(?P<name>{_NAME})")
+_ITEM_RE = re.compile(rf"(?P<name>{_NAME})\s*=\s*")
 _CONSTANT_LINE = re.compile(rf"^(?P<name>{_NAME})\s*=(?![=>])")
 _ARROW_RE = re.compile(r"<=>|⇌|->|→")
-_BAD_ARROW_RE = re.compile(r"<->|<-->|<==>|<=|=>|-->|==>|<-|==|↔|⇄|⟶|⟷|←|⇒|⇔|=|>|-(?=\s)")
+#: Characters an ASCII arrow is drawn with; a run of them that is not a known arrow
+#: (``=>``, ``<->``, ``-->``) is reported as an unknown arrow.
+_ARROW_CHARS = "<>=-~"
+_BAD_ARROW_RE = re.compile(r"[<>=~-]+|[↔⇄⟶⟷←⇒⇔⇋⟵⟹⟺↦⟼⤳⇀⇁↽⇉]")
 _ARRHENIUS_RE = re.compile(r"arrhenius\s*\((?P<body>.*)\)\s*$", re.IGNORECASE)
-_WORD_END = re.compile(r"[\s=]")
 
 
 # ---------------------------------------------------------------------------
@@ -85,21 +91,41 @@ def _strip_comment(text: str) -> str:
     return text.split("#", 1)[0].rstrip()
 
 
+def _split_plain(text: str, offset: int) -> list[tuple[str, int]]:
+    """Split at every comma; return (piece, 0-based column) pairs, stripped."""
+    pieces: list[tuple[str, int]] = []
+    start = 0
+    for raw in text.split(","):
+        lead = len(raw) - len(raw.lstrip())
+        pieces.append((raw.strip(), offset + start + lead))
+        start += len(raw) + 1
+    return pieces
+
+
 def _split_top(text: str, offset: int) -> list[tuple[str, int]]:
-    """Split at commas outside parentheses; return (piece, 0-based column) pairs, stripped."""
+    """Split at commas outside parentheses; return (piece, 0-based column) pairs, stripped.
+
+    The last piece is always returned, also when a parenthesis is left open (the
+    piece then fails to parse and is reported where it stands).
+    """
+    if "(" not in text:  # the common case
+        return _split_plain(text, offset)
     pieces: list[tuple[str, int]] = []
     depth = 0
     start = 0
-    for i, ch in enumerate(text + ","):
+    for i, ch in enumerate(text):
         if ch == "(":
             depth += 1
         elif ch == ")":
-            depth -= 1
-        elif ch == "," and depth <= 0:
+            depth = max(0, depth - 1)
+        elif ch == "," and depth == 0:
             raw = text[start:i]
             lead = len(raw) - len(raw.lstrip())
             pieces.append((raw.strip(), offset + start + lead))
             start = i + 1
+    raw = text[start:]
+    lead = len(raw) - len(raw.lstrip())
+    pieces.append((raw.strip(), offset + start + lead))
     return pieces
 
 
@@ -121,8 +147,13 @@ class _Value:
         return f"{self.number} {self.unit}".strip()
 
 
-def _read_value(line: _Line, text: str, column0: int, what: str, example: str):
-    """Read ``NUMBER [UNIT]`` starting at 0-based ``column0``; return _Value or SchemeError."""
+def _read_value(
+    line: _Line, text: str, column0: int, what: str, example: str, *, signed: bool = False
+):
+    """Read ``NUMBER [UNIT]`` starting at 0-based ``column0``; return _Value or SchemeError.
+
+    Negative numbers are refused unless ``signed`` (temperatures in degC).
+    """
     match = _NUMBER_RE.match(text)
     if not match:
         return line.error(
@@ -137,18 +168,20 @@ def _read_value(line: _Line, text: str, column0: int, what: str, example: str):
     unit_col = column0 + match.end() + (len(rest) - len(rest.lstrip())) + 1
     value = float(number)
     if math.isnan(value) or math.isinf(value):
+        spelled_out = number.lstrip("+-")[:1].lower() in ("n", "i")
         return line.error(
-            f"{what} is {number}, which is not a finite number",
+            f"{what} is {number}, which is "
+            + ("not a finite number" if spelled_out else "too large for a floating-point number"),
             column0 + 1,
             number,
             f"write a finite value, e.g. {example}",
         )
-    if value < 0:
+    if value < 0 and not signed:
         return line.error(
             f"{what} is negative ({number})",
             column0 + 1,
             number,
-            f"concentrations, rates and constants are never negative; write e.g. {example}",
+            f"this value cannot be negative; write e.g. {example}",
         )
     return _Value(number, unit, column0 + 1, unit_col)
 
@@ -157,13 +190,28 @@ def _unit_of(line: _Line, value: _Value, what: str, example: str):
     """Parse the unit of ``value``; return UnitSpec or SchemeError."""
     try:
         return parse_unit(value.unit)
-    except ValueError:
+    except ValueError as exc:
+        if "=" in value.unit:
+            hint = "separate the items of a list with commas, e.g. start A = 0.5 M, B = 0.1 M"
+        else:
+            hint = f"write a unit such as {example}"
+        reason = str(exc)
+        detail = "" if reason.startswith("unknown unit") else f" ({reason})"
         return line.error(
-            f"unknown unit {value.unit!r} for {what}",
+            f"unknown unit {value.unit!r} for {what}{detail}",
             value.unit_column,
             value.unit,
-            f"write a unit such as {example}",
+            hint,
         )
+
+
+def _exact(value: Fraction) -> float | None:
+    """``float(value)``, or None when it overflows a double."""
+    try:
+        result = float(value)
+    except OverflowError:
+        return None
+    return result if math.isfinite(result) else None
 
 
 # ---------------------------------------------------------------------------
@@ -256,8 +304,8 @@ class ListStatement:
                     f"write e.g. {example}",
                 )
             ]
-        for piece, col0 in _split_top(body, match.end()):
-            m = re.match(rf"(?P<name>{_NAME})\s*=\s*", piece)
+        for piece, col0 in _split_plain(body, match.end()):
+            m = _ITEM_RE.match(piece)
             if not m:
                 errors.append(
                     line.error(
@@ -311,7 +359,7 @@ class TemperatureStatement:
         if not match:
             return None
         value = _read_value(
-            line, line.code[match.end() :], match.end(), "the temperature", "60 degC"
+            line, line.code[match.end() :], match.end(), "the temperature", "60 degC", signed=True
         )
         if isinstance(value, SchemeError):
             return [value]
@@ -361,6 +409,16 @@ def _read_constant(line: _Line, name: str, name_col0: int, text: str, text_col0:
                 else f"the activation energy Ea of {name}"
             )
             example = "1.0e13 1/s" if key == "A" else "95 kJ/mol"
+            if key in parts:
+                errors.append(
+                    line.error(
+                        f"the Arrhenius parameters of {name} give {key} twice",
+                        col0 + 1,
+                        piece,
+                        "give A and Ea once each: arrhenius(A = 1.0e13 1/s, Ea = 95 kJ/mol)",
+                    )
+                )
+                continue
             value = _read_value(line, piece[m.end() :], col0 + m.end(), what, example)
             if isinstance(value, SchemeError):
                 errors.append(value)
@@ -412,6 +470,10 @@ class ConstantStatement:
         name = match.group("name")
         rest = line.code.lstrip()[match.end() :]
         rest_col0 = lead + match.end() + (len(rest) - len(rest.lstrip()))
+        if "=" in rest and _TERM_RE.match(rest) and not _NUMBER_RE.match(rest.lstrip()):
+            # "A = B + C  k1 = ...": a reaction written with '=' for its arrow
+            if not _ARRHENIUS_RE.match(rest.strip()):
+                return [_unknown_arrow(line, "=", line.code.index("=", lead))]
         spec = _read_constant(line, name, lead, rest.strip(), rest_col0)
         if isinstance(spec, list):
             return spec
@@ -468,6 +530,14 @@ class ReactionStatement:
                     "write each step on a line of its own",
                 )
             ]
+        for found in arrows:
+            start, end = found.span()
+            while start > 0 and code[start - 1] in _ARROW_CHARS:
+                start -= 1
+            while end < len(code) and code[end] in _ARROW_CHARS:
+                end += 1
+            if (start, end) != found.span():
+                return [_unknown_arrow(line, code[start:end], start)]
         arrow = arrows[0]
         reversible = ARROWS[arrow.group(0)]
         errors: list[SchemeError] = []
@@ -627,6 +697,28 @@ _STATEMENTS = (
 )
 
 
+def _unknown_arrow(line: _Line, arrow: str, column0: int) -> SchemeError:
+    return line.error(
+        f"unknown arrow {arrow!r}",
+        column0 + 1,
+        arrow,
+        "write -> (or →) for an irreversible step and <=> (or ⇌) for a reversible one",
+    )
+
+
+#: An example of each statement that starts with a keyword (used in hints).
+_EXAMPLES = {
+    "title": "title: Hydrolysis of an ester",
+    "balance": "balance: lumped",
+    "start": "start A = 0.5 mol/L",
+    "excess": "excess W = 55 mol/L",
+    "feed": "feed A = 0.01 mol/L/min",
+    "formula": "formula A = C6H12O6",
+    "molar_mass": "molar_mass A = 180.2 g/mol",
+    "temperature": "temperature = 60 degC",
+}
+
+
 def _unknown_statement(line: _Line) -> SchemeError:
     code = line.code
     lead = len(code) - len(code.lstrip())
@@ -635,22 +727,27 @@ def _unknown_statement(line: _Line) -> SchemeError:
     if not isinstance(terms, SchemeError):
         _, rest = terms
         bad = _BAD_ARROW_RE.match(rest.lstrip())
-        if bad and rest.strip():
-            column = len(code) - len(rest) + (len(rest) - len(rest.lstrip())) + 1
-            return line.error(
-                f"unknown arrow {bad.group(0)!r}",
-                column,
-                bad.group(0),
-                "write -> (or →) for an irreversible step and <=> (or ⇌) for a reversible one",
-            )
-    word = re.match(r"\S+", code[lead:])
+        if bad:
+            column0 = len(code) - len(rest) + (len(rest) - len(rest.lstrip()))
+            return _unknown_arrow(line, bad.group(0), column0)
+    word = re.match(r"[^\s:=]+|\S+", code[lead:])
     snippet = word.group(0) if word else code.strip()
-    return line.error(
-        f"could not read this line (unknown statement {snippet!r})",
-        lead + 1,
-        snippet,
+    hint = (
         "a line is a reaction (A -> B  k1 = 0.1 1/s), a constant (k1 = 0.1 1/s) or one of "
-        "title:, start, excess, feed, formula, molar_mass, temperature =, balance:",
+        "title:, start, excess, feed, formula, molar_mass, temperature =, balance:"
+    )
+    if snippet in _EXAMPLES:
+        return line.error(
+            f"could not read this '{snippet}' statement",
+            lead + 1,
+            snippet,
+            f"write e.g. {_EXAMPLES[snippet]}",
+        )
+    close = difflib.get_close_matches(snippet.lower(), list(_EXAMPLES), n=1, cutoff=0.7)
+    if close:
+        hint = f"did you mean '{close[0]}'? ({_EXAMPLES[close[0]]})"
+    return line.error(
+        f"could not read this line (unknown statement {snippet!r})", lead + 1, snippet, hint
     )
 
 
@@ -684,12 +781,36 @@ def _did_you_mean(name: str, candidates) -> str:
     return f"did you mean {close[0]}?" if close else ""
 
 
+#: Dimensions a start, excess or feed value may have (one kind per file).
 _CONCENTRATION_FAMILIES = {
     (("[length]", -3), ("[substance]", 1)): "concentration",
     (("[substance]", 1),): "amount",
     (("[length]", -3), ("[mass]", 1)): "mass concentration",
     (("[mass]", 1),): "mass",
     (): "pure number",
+}
+_ARTICLE = {
+    "concentration": "a",
+    "amount": "an",
+    "mass concentration": "a",
+    "mass": "a",
+    "pure number": "a",
+}
+_PLURAL = {
+    "concentration": "concentrations",
+    "amount": "amounts",
+    "mass concentration": "mass concentrations",
+    "mass": "masses",
+    "pure number": "pure numbers",
+}
+#: Unit of each kind when a feed is written in a form whose concentration part
+#: cannot be cut out (``mol/(L*min)``), with its exact factor to SI.
+_FAMILY_UNITS = {
+    (("[length]", -3), ("[substance]", 1)): ("mol/L", Fraction(1000)),
+    (("[substance]", 1),): ("mol", Fraction(1)),
+    (("[length]", -3), ("[mass]", 1)): ("g/L", Fraction(1)),
+    (("[mass]", 1),): ("g", Fraction(1, 1000)),
+    (): ("1", Fraction(1)),
 }
 
 
@@ -710,8 +831,8 @@ class _Builder:
         st = self.statements
         reactions = [s for s in st if isinstance(s, ReactionStatement)]
         lists = [s for s in st if isinstance(s, ListStatement)]
-        title = next((s.text for s in st if isinstance(s, TitleStatement)), "")
-        balance_mode = next((s.mode for s in st if isinstance(s, BalanceStatement)), "strict")
+        title = self._single(st, TitleStatement, "title", "text", "")
+        balance_mode = self._single(st, BalanceStatement, "balance mode", "mode", "strict")
         allow_imbalance = balance_mode == "lumped" or not self.strict_balance
 
         if not reactions and not self.errors:
@@ -746,27 +867,30 @@ class _Builder:
                 pass  # reported with the excess statement
 
         # species in order of first appearance
-        order: dict[str, tuple[int, _Line, int]] = {}
+        order: dict[str, _Line] = {}
         for r in reactions:
-            for term in r.left + r.right:
-                order.setdefault(term.name, (len(order), r.line, term.column))
+            for term in r.left:
+                if term.name not in order:
+                    order[term.name] = r.line
+            for term in r.right:
+                if term.name not in order:
+                    order[term.name] = r.line
         all_species = list(order)
 
         temperature = self._temperature(st)
-        unit_info = self._concentration_unit(lists, excess_names)
-        conc_unit, unit_factor, family_dims = unit_info
-        values = self._lists(lists, all_species, family_dims, unit_factor)
+        conc_unit, unit_factor, family_dims, family_origin = self._concentration_unit(lists)
+        self.conc_unit = conc_unit
+        values = self._lists(lists, order, excess_names, family_dims, unit_factor, family_origin)
         excess_values, excess_si = values["excess"]
 
         constants = self._constants(st, reactions, temperature)
         reaction_objs, steps = self._reactions(reactions, excess_names, constants, excess_si)
 
         species_objs, excess_objs = self._species(all_species, excess_names, order, values)
-        if not self.errors:
-            self._balance(reaction_objs, species_objs + excess_objs, allow_imbalance, reactions)
+        self._balance(reaction_objs, species_objs + excess_objs, allow_imbalance, reactions)
         if self.errors:
             raise SchemeErrors(self.errors)
-        return Scheme(
+        scheme = Scheme(
             species=tuple(species_objs),
             excess_species=tuple(excess_objs),
             reactions=tuple(reaction_objs),
@@ -784,6 +908,45 @@ class _Builder:
             _excess_si=excess_si,
             _unit_factor=unit_factor,
         )
+        self._check_rates(scheme, reactions)
+        if self.errors:
+            raise SchemeErrors(self.errors)
+        return scheme
+
+    def _single(self, st, kind, what, attribute, default):
+        """The value of a statement that may occur once (title, balance mode)."""
+        found = [s for s in st if isinstance(s, kind)]
+        for extra in found[1:]:
+            self.error(
+                extra.line,
+                f"the {what} is given twice (first on line {found[0].line.number})",
+                len(extra.line.code) - len(extra.line.code.lstrip()) + 1,
+                extra.line.code.strip(),
+                f"keep one {what} line",
+            )
+        return getattr(found[0], attribute) if found else default
+
+    def _check_rates(self, scheme: Scheme, reactions) -> None:
+        """Every effective rate constant must be a finite double (no overflow)."""
+        rates = scheme.rates
+        if np.isfinite(rates).all():
+            return
+        reported = set()
+        for index in np.flatnonzero(~np.isfinite(rates)):
+            step = scheme.steps[index]
+            statement = reactions[step.reaction]
+            if step.reaction in reported:
+                continue
+            reported.add(step.reaction)
+            ref = statement.constants[0 if step.direction == "forward" else 1]
+            self.error(
+                statement.line,
+                f"the effective rate constant of {step.equation} overflows "
+                f"(it is beyond {sys.float_info.max:.3g} 1/s)",
+                ref.column,
+                ref.name,
+                "check the value and unit of the constant and of the excess concentrations",
+            )
 
     # -- temperature ---------------------------------------------------------
     def _temperature(self, st):
@@ -800,14 +963,23 @@ class _Builder:
             )
         value = temps[0].value
         line = temps[0].line
+        if not value.unit:
+            self.error(
+                line,
+                f"the temperature {value.number} has no unit",
+                value.column,
+                value.number,
+                f"write it in K or degC, e.g. temperature = {value.number} K",
+            )
+            return None
         try:
-            kelvin = temperature_to_kelvin(float(value.number), value.unit or "K")
+            kelvin = temperature_to_kelvin(Fraction(value.number), value.unit)
         except ValueError:
             self.error(
                 line,
-                f"{value.unit or 'a number without unit'!r} is not a temperature unit",
-                value.unit_column if value.unit else value.column,
-                value.unit or value.number,
+                f"the temperature is given in {value.unit!r}, which is not a temperature unit",
+                value.unit_column,
+                value.unit,
                 "write the temperature in K or degC, e.g. temperature = 60 degC",
             )
             return None
@@ -823,48 +995,53 @@ class _Builder:
         return kelvin
 
     # -- concentrations --------------------------------------------------------
-    def _concentration_unit(self, lists, excess_names):
-        """Pick the scheme's concentration unit: the unit of the first start value."""
-        for kinds in (("start",), ("excess",), ("feed",)):
-            items = [(s, item) for s in lists if s.kind in kinds for item in s.items]
-            for s, item in items:
-                try:
-                    spec = parse_unit(item.value.unit)
-                except ValueError:
-                    continue  # reported when the item itself is checked
-                dims = spec.dimensions
-                if s.kind == "feed":
-                    dims = tuple(
-                        (k, v)
-                        for k, v in dict(
-                            dims, **{"[time]": dict(dims).get("[time]", 0) + 1}
-                        ).items()
-                        if v
-                    )
-                    dims = tuple(sorted(dims))
-                    if dims not in _CONCENTRATION_FAMILIES:
+    def _concentration_unit(self, lists):
+        """Pick the scheme's concentration unit: the unit of the first start value.
+
+        Without start values, the first excess concentration, then the first feed
+        (its concentration part) decides; without any, ``mol/L``.  Returns the
+        unit, its exact factor to SI, its dimension and a description of where it
+        came from (for the message when another value does not fit).
+        """
+        for kind in ("start", "excess", "feed"):
+            for s in lists:
+                if s.kind != kind:
+                    continue
+                for item in s.items:
+                    try:
+                        spec = parse_unit(item.value.unit)
+                    except ValueError:
+                        continue  # reported when the item itself is checked
+                    dims = spec.dims
+                    if kind == "feed":
+                        dims["[time]"] = dims.get("[time]", 0) + 1
+                    dims_t = tuple(sorted((k, v) for k, v in dims.items() if v))
+                    if dims_t not in _CONCENTRATION_FAMILIES:
                         continue
+                    origin = f"{kind} {item.name} = {item.value.text} on line {s.line.number}"
+                    if kind != "feed":
+                        return item.value.unit or "1", spec.factor, dims_t, origin
                     # a feed in mol/L/min: the concentration unit is mol/L
                     unit = _concentration_part(item.value.unit)
-                    spec = parse_unit(unit) if unit else None
-                    if spec is None:
-                        return "mol/L", Fraction(1000), dims
-                    return unit, spec.factor, dims
-                if dims not in _CONCENTRATION_FAMILIES:
-                    continue
-                return item.value.unit or "1", spec.factor, dims
-        return "mol/L", Fraction(1000), (("[length]", -3), ("[substance]", 1))
+                    try:
+                        part = parse_unit(unit) if unit else None
+                    except ValueError:
+                        part = None
+                    if part is None or part.dimensions != dims_t:
+                        unit, factor = _FAMILY_UNITS[dims_t]
+                        return unit, factor, dims_t, origin
+                    return unit, part.factor, dims_t, origin
+        dims_t = (("[length]", -3), ("[substance]", 1))
+        return "mol/L", Fraction(1000), dims_t, ""
 
-    def _lists(self, lists, all_species, family_dims, unit_factor):
-        known = set(all_species)
-        family = _CONCENTRATION_FAMILIES.get(family_dims, "concentration")
-        first_family_line = None
+    def _lists(self, lists, order, excess_names, family_dims, unit_factor, family_origin):
+        family = _CONCENTRATION_FAMILIES[family_dims]
         out = {kind: ({}, {}) for kind in ("start", "excess", "feed", "formula", "molar_mass")}
         seen: dict[tuple[str, str], int] = {}
         for s in lists:
             for item in s.items:
-                if item.name not in known:
-                    hint = _did_you_mean(item.name, known) or (
+                if item.name not in order:
+                    hint = _did_you_mean(item.name, order) or (
                         "a species must take part in a reaction before it can be given a "
                         f"{s.kind.replace('_', ' ')}"
                     )
@@ -874,6 +1051,17 @@ class _Builder:
                         item.name_column,
                         item.name,
                         hint,
+                    )
+                    continue
+                if s.kind in ("start", "feed") and item.name in excess_names:
+                    self.error(
+                        s.line,
+                        f"{item.name} is held in excess (constant), so it has no "
+                        f"{'start value' if s.kind == 'start' else 'feed'}",
+                        item.name_column,
+                        item.name,
+                        f"give its constant concentration once: excess {item.name} = "
+                        f"{item.value.text}",
                     )
                     continue
                 key = (s.kind, item.name)
@@ -890,6 +1078,7 @@ class _Builder:
                 seen[key] = s.line.number
                 if s.kind == "formula":
                     out["formula"][0][item.name] = item.formula
+                    out["formula"][1][item.name] = (item, s.line)
                     continue
                 v = item.value
                 if s.kind == "molar_mass":
@@ -901,77 +1090,100 @@ class _Builder:
                         self.error(
                             s.line,
                             f"the molar mass of {item.name} is {v.text}, "
-                            f"which is {describe_dimension(spec.dims)}",
+                            f"which is {describe_dimension(spec.dims)}, not a molar mass",
                             v.unit_column if v.unit else v.column,
                             v.unit or v.number,
                             "write a molar mass such as 180.2 g/mol",
                         )
                         continue
-                    out["molar_mass"][0][item.name] = float(Fraction(v.number) * spec.factor * 1000)
+                    grams = _exact(Fraction(v.number) * spec.factor * 1000)
+                    if grams is None or grams == 0:
+                        self.error(
+                            s.line,
+                            f"the molar mass of {item.name} is {v.text}, which is "
+                            + ("zero" if grams == 0 else "too large"),
+                            v.column,
+                            v.text,
+                            "write a molar mass such as 180.2 g/mol",
+                        )
+                        continue
+                    out["molar_mass"][0][item.name] = grams
                     continue
-                spec = _unit_of(
-                    s.line, v, f"{s.kind} {item.name}", "mol/L" if s.kind != "feed" else "mol/L/min"
-                )
+                example = "mol/L" if s.kind != "feed" else "mol/L/min"
+                spec = _unit_of(s.line, v, f"{s.kind} {item.name}", example)
                 if isinstance(spec, SchemeError):
                     self.errors.append(spec)
                     continue
-                dims = dict(spec.dimensions)
+                dims = spec.dims
                 if s.kind == "feed":
                     dims["[time]"] = dims.get("[time]", 0) + 1
-                dims_t = tuple(sorted((k, Fraction(x)) for k, x in dims.items() if x))
-                if dims_t != family_dims:
+                dims_t = tuple(sorted((k, x) for k, x in dims.items() if x))
+                if dims_t != family_dims or spec.offset:
                     self.errors.append(
-                        self._family_error(s, item, v, spec, dims_t, family, family_dims)
+                        self._family_error(s, item, spec, dims_t, family, family_origin)
                     )
                     continue
                 si = Fraction(v.number) * spec.factor
-                value = float(si / unit_factor)
+                value = _exact(si / unit_factor)
+                if value is None:
+                    self.error(
+                        s.line,
+                        f"{s.kind} {item.name} = {v.text} is too large in {self.conc_unit}",
+                        v.column,
+                        v.text,
+                        "check the value and its unit",
+                    )
+                    continue
                 out[s.kind][0][item.name] = value
                 out[s.kind][1][item.name] = si
-                first_family_line = first_family_line or s.line.number
         return out
 
-    def _family_error(self, s, item, v, spec, dims_t, family, family_dims):
+    def _family_error(self, s, item, spec, dims_t, family, family_origin):
+        v = item.value
         is_known_family = dims_t in _CONCENTRATION_FAMILIES
         what = describe_dimension(spec.dims)
         col = v.unit_column if v.unit else v.column
         snippet = v.unit or v.number
         example = {"start": "0.5 mol/L", "excess": "55 mol/L", "feed": "0.01 mol/L/min"}[s.kind]
-        if s.kind == "feed":
-            if is_known_family:
-                problem = (
-                    f"the feed of {item.name} is {v.text}, a feed of "
-                    f"{_CONCENTRATION_FAMILIES[dims_t]}, but this file uses {family} values"
-                )
-            else:
-                problem = (
-                    f"the feed of {item.name} is {v.text}, which is {what}, not a rate "
-                    "of input (concentration per time)"
-                )
-            return s.line.error(problem, col, snippet, f"write e.g. feed {item.name} = {example}")
-        if is_known_family:
+        if is_known_family and not spec.offset:
             other = _CONCENTRATION_FAMILIES[dims_t]
-            if {other, family} == {"amount", "concentration"}:
+            origin = f" ({family_origin})" if family_origin else ""
+            if s.kind == "feed":
                 problem = (
-                    f"{s.kind} {item.name} = {v.text} is an amount while the file uses "
-                    "concentrations (or the other way round); amounts (mol) and "
-                    "concentrations (mol/L) may not be mixed in one file"
+                    f"the feed of {item.name} is {v.text}, a feed of {_PLURAL[other]}, but "
+                    f"this file gives {_PLURAL[family]}{origin}"
                 )
             elif not v.unit:
-                problem = f"{s.kind} {item.name} = {v.number} has no unit"
+                problem = (
+                    f"{s.kind} {item.name} = {v.number} has no unit, but this file gives "
+                    f"{_PLURAL[family]}{origin}"
+                )
             else:
                 problem = (
-                    f"{s.kind} {item.name} = {v.text} is a {other} value, but this file "
-                    f"uses {family} values"
+                    f"{s.kind} {item.name} = {v.text} is {_ARTICLE[other]} {other}, but this "
+                    f"file gives {_PLURAL[family]}{origin}"
                 )
+            if {other, family} == {"amount", "concentration"}:
+                hint = (
+                    "amounts (mol) and concentrations (mol/L) may not be mixed in one file; "
+                    f"write every value as {_ARTICLE[family]} {family}"
+                )
+            else:
+                hint = f"write every value in one kind of unit, e.g. {example}"
+            return s.line.error(problem, col, snippet, hint)
+        if s.kind == "feed":
             return s.line.error(
-                problem, col, snippet, f"write every value in one kind of unit, e.g. {example}"
+                f"the feed of {item.name} is {v.text}, which is {what}, not a rate of input "
+                "(concentration per time)",
+                col,
+                snippet,
+                f"write e.g. feed {item.name} = {example}",
             )
         return s.line.error(
             f"{s.kind} {item.name} = {v.text} is {what}, not a concentration",
             col,
             snippet,
-            f"write a concentration such as {example} (or an amount, a mass or a pure number)",
+            f"write a concentration such as {example} (or an amount in mol)",
         )
 
     # -- rate constants ------------------------------------------------------
@@ -1081,8 +1293,19 @@ class _Builder:
                     spec.name,
                     "add a line such as temperature = 60 degC",
                 )
-            energy = float(Fraction(ea.number) * e_unit.factor)
-            arrhenius = Arrhenius(Fraction(a.number) * a_unit.factor, energy, a.text, ea.text)
+            energy = _exact(Fraction(ea.number) * e_unit.factor)
+            prefactor = Fraction(a.number) * a_unit.factor
+            if energy is None or _exact(prefactor) is None:
+                bad = a if energy is not None else ea
+                self.error(
+                    line,
+                    f"{bad.text} in the Arrhenius parameters of {spec.name} is too large",
+                    bad.column,
+                    bad.text,
+                    "check the value and its unit",
+                )
+                return None
+            arrhenius = Arrhenius(prefactor, energy, a.text, ea.text)
             return RateConstant(spec.name, spec.text, None, a.unit, order, arrhenius, line.number)
         v = spec.value
         unit = _unit_of(line, v, f"rate constant {spec.name}", "1/s")
@@ -1101,9 +1324,17 @@ class _Builder:
                 "pseudo-first-order one concentration^-1/time (e.g. M-1 s-1)",
             )
             return None
-        return RateConstant(
-            spec.name, spec.text, Fraction(v.number) * unit.factor, v.unit, order, None, line.number
-        )
+        value_si = Fraction(v.number) * unit.factor
+        if _exact(value_si) is None:
+            self.error(
+                line,
+                f"rate constant {spec.name} = {v.text} is too large",
+                v.column,
+                v.text,
+                "check the value and its unit",
+            )
+            return None
+        return RateConstant(spec.name, spec.text, value_si, v.unit, order, None, line.number)
 
     # -- reactions -------------------------------------------------------------
     def _reactions(self, reactions, excess_names, constants, excess_si):
@@ -1117,6 +1348,10 @@ class _Builder:
             for side, terms in sides:
                 movers = [t for t in terms if t.name not in excess_names]
                 partners = [t for t in terms if t.name in excess_names]
+                if len(movers) > 1 and len({t.name for t in movers}) == 1:
+                    # A + A -> ...: one species written twice
+                    total = sum(t.coefficient for t in movers)
+                    movers = [_Term(total, movers[0].name, movers[0].column)]
                 if len(movers) != 1:
                     self._order_error(r, side, movers, partners)
                     continue
@@ -1155,6 +1390,18 @@ class _Builder:
                 if constant is None:
                     continue
                 self._check_order(r, ref, constant, mover, partners, excess_si)
+                formed = {}
+                for t in products:
+                    formed[t.name] = formed.get(t.name, 0.0) + t.coefficient
+                if formed.get(mover.name) == 1 and len(formed) == 1 and not partners:
+                    self.error(
+                        r.line,
+                        f"this step turns {mover.name} into {mover.name}: it changes nothing",
+                        mover.column,
+                        mover.name,
+                        "remove the line, or write the product the step forms",
+                    )
+                    continue
                 steps.append(
                     Step(
                         reactant=mover.name,
@@ -1220,77 +1467,65 @@ class _Builder:
                     )
             return
         ordinal = {0: "first", 1: "second", 2: "third", 3: "fourth"}
-        implied = ordinal.get(constant.order, f"order {constant.order + 1}")
+        implied = ordinal.get(constant.order, f"order-{constant.order + 1}")
+        name = constant.name
         if needed == 0:
+            problem = (
+                f"the units of {name} ({constant.unit}) imply a {implied}-order step, but "
+                f"{mover.name} reacts alone here (a first-order step needs 1/time)"
+            )
             hint = (
-                "a first-order step needs 1/time (e.g. 1/s); if a co-reactant is present in "
-                f"large excess, write it on the left (e.g. {mover.name} + W -> ...) and declare "
-                "it: excess W = 55 mol/L"
+                f"if a co-reactant is present in large excess, write it on the left "
+                f"({mover.name} + W -> ...) and declare it: excess W = 55 mol/L; otherwise "
+                f"give {name} in 1/s"
             )
         else:
-            hint = (
-                f"with {' and '.join(t.name for t in partners)} in excess the constant needs "
-                f"concentration^-{needed}/time (e.g. M-1 s-1 for one co-reactant)"
+            partner_names = " and ".join(t.name for t in partners)
+            power = f"{int(needed)}" if needed.denominator == 1 else f"{float(needed):g}"
+            problem = (
+                f"the units of {name} ({constant.unit}) imply a {implied}-order step, but "
+                f"{mover.name} reacts here with {partner_names} held in excess (a "
+                f"pseudo-first-order step needs concentration^-{power}/time)"
             )
-        self.error(
-            line,
-            f"the units of {constant.name} ({constant.unit}) imply a {implied}-order step, "
-            f"but {mover.name} reacts here "
-            + (
-                "on its own (first order)"
-                if needed == 0
-                else f"with {needed} excess co-reactant(s) (order {needed + 1} overall)"
-            ),
-            ref.column,
-            ref.name,
-            hint,
-        )
+            example = "M-1 s-1" if power == "1" else f"M-{power} s-1"
+            hint = f"give {name} in {example}: multiplied by the excess concentration it gives 1/s"
+        self.error(line, problem, ref.column, ref.name, hint)
 
     # -- species and balance ---------------------------------------------------
     def _species(self, all_species, excess_names, order, values):
-        formulas = values["formula"][0]
-        masses = dict(values["molar_mass"][0])
         from .balance import formula_mass, parse_formula
 
-        species_objs, excess_objs = [], []
-        for s in [x for x in self.statements if isinstance(x, ListStatement)]:
-            if s.kind != "formula":
+        formulas = values["formula"][0]
+        masses = dict(values["molar_mass"][0])
+        for name, (item, line) in values["formula"][1].items():
+            try:
+                parse_formula(item.formula)
+            except ValueError as exc:
+                col = line.code.find(item.formula, item.name_column - 1) + 1
+                self.error(
+                    line,
+                    f"the formula {item.formula!r} of {name} does not parse ({exc})",
+                    col,
+                    item.formula,
+                    "write element symbols with counts, e.g. C6H12O6 or Ca(OH)2",
+                )
+                formulas.pop(name, None)
                 continue
-            for item in s.items:
-                if item.name not in formulas:
-                    continue
-                try:
-                    parse_formula(item.formula)
-                except ValueError as exc:
-                    col = s.line.code.find(item.formula, item.name_column - 1) + 1
-                    self.error(
-                        s.line,
-                        f"the formula {item.formula!r} of {item.name} does not parse ({exc})",
-                        col,
-                        item.formula,
-                        "write elements with counts, e.g. C6H12O6 or CH3COOH",
-                    )
-                    formulas.pop(item.name, None)
-                    continue
-                if item.name in masses:
-                    self.error(
-                        s.line,
-                        f"{item.name} has both a formula and a molar mass",
-                        item.name_column,
-                        item.name,
-                        "give one of them; the molar mass follows from the formula",
-                    )
-                    continue
-                masses[item.name] = formula_mass(item.formula)
+            if name in masses:
+                self.error(
+                    line,
+                    f"{name} has both a formula and a molar mass",
+                    item.name_column,
+                    name,
+                    "give one of them; the molar mass follows from the formula",
+                )
+                continue
+            masses[name] = formula_mass(item.formula)
+        species_objs, excess_objs = [], []
         for name in all_species:
-            sp = Species(
-                name,
-                formulas.get(name),
-                masses.get(name),
-                name in excess_names,
-                order[name][1].number,
-            )
-            (excess_objs if name in excess_names else species_objs).append(sp)
+            excess = name in excess_names
+            sp = Species(name, formulas.get(name), masses.get(name), excess, order[name].number)
+            (excess_objs if excess else species_objs).append(sp)
         return species_objs, excess_objs
 
     def _balance(self, reaction_objs, species, allow_imbalance, statements):

@@ -18,12 +18,15 @@ times the step rates, so a batch of parameter sets costs one multiply.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from fractions import Fraction
 from typing import TYPE_CHECKING
 
 import numpy as np
 import scipy.sparse
+
+from .errors import UsageError
 
 if TYPE_CHECKING:
     from .scheme import Scheme
@@ -123,7 +126,7 @@ def step_rates(
     ----------
     scheme : Scheme
     constants : dict of str to float, optional
-        Override values of named constants, in SI base units.
+        Override values of named constants, in SI base units [1/s for first order].
     temperature : float, optional
         Override temperature [K] for Arrhenius constants.
     excess : dict of str to float, optional
@@ -132,32 +135,97 @@ def step_rates(
     Returns
     -------
     numpy.ndarray
-        Rates in the order of ``scheme.steps``.
+        Rates in the order of ``scheme.steps``; ``inf`` where a product overflows.
+
+    Raises
+    ------
+    UsageError
+        For an unknown constant or excess name, a value that is negative or not
+        finite, or a temperature that is not above 0 K.
+
+    Notes
+    -----
+    Non-integer excess coefficients use floating-point powers (one extra rounding).
     """
     constants = constants or {}
     excess = excess or {}
+    _check_overrides(scheme, constants, temperature, excess)
     temperature = scheme.temperature if temperature is None else temperature
+    # one exact value per constant, then one float per (constant, co-reactants) pair
+    exact: dict[str, Fraction] = {}
+    for name, definition in scheme.constants.items():
+        if name in constants:
+            exact[name] = Fraction(constants[name])
+        elif definition.arrhenius is not None:
+            if temperature is None:
+                raise UsageError(
+                    f"rate constant {name} follows the Arrhenius law and needs a temperature",
+                    "give the temperature in kelvin",
+                )
+            exact[name] = Fraction(definition.arrhenius.at(temperature))
+        else:
+            exact[name] = definition.value_si
+    cache: dict[tuple, float] = {}
     rates = np.empty(len(scheme.steps))
     for s, step in enumerate(scheme.steps):
-        definition = scheme.constants[step.constant]
-        if step.constant in constants:
-            k: Fraction | float = Fraction(constants[step.constant])
-        elif definition.arrhenius is not None:
-            k = Fraction(definition.si_value(temperature))
-        else:
-            k = definition.value_si
-        for nu, name in step.co_reactants:
-            if name in excess:
-                w = Fraction(excess[name]) * scheme._unit_factor
-            else:
-                w = scheme._excess_si[name]
-            nu = Fraction(nu)
-            if nu.denominator == 1:
-                k = k * w ** int(nu)
-            else:
-                k = Fraction(float(k) * float(w) ** float(nu))
-        rates[s] = float(k)
+        key = (step.constant, step.co_reactants)
+        value = cache.get(key)
+        if value is None:
+            value = _effective(scheme, exact[step.constant], step.co_reactants, excess)
+            cache[key] = value
+        rates[s] = value
     return rates
+
+
+def _effective(scheme: Scheme, k: Fraction, co_reactants, excess) -> float:
+    """k times the excess concentrations to their powers, rounded once (inf on overflow)."""
+    if not co_reactants:
+        return _to_float(k)
+    floating = False
+    result: Fraction | float = k
+    for nu, name in co_reactants:
+        if name in excess:
+            w = Fraction(excess[name]) * scheme._unit_factor
+        else:
+            w = scheme._excess_si[name]
+        nu = Fraction(nu)
+        if nu.denominator == 1 and nu <= 64 and not floating:
+            result = result * w ** int(nu)
+        else:
+            floating = True
+            try:
+                result = float(result) * float(w) ** float(nu)
+            except OverflowError:
+                return math.inf
+    return _to_float(result)
+
+
+def _to_float(value) -> float:
+    try:
+        return float(value)
+    except OverflowError:
+        return math.inf
+
+
+def _check_overrides(scheme: Scheme, constants, temperature, excess) -> None:
+    for name, value in constants.items():
+        if name not in scheme.constants:
+            raise UsageError(
+                f"no rate constant named {name!r} in the scheme",
+                "known constants: " + ", ".join(scheme.constants),
+            )
+        if not (math.isfinite(value) and value >= 0):
+            raise UsageError(f"rate constant {name} = {value!r} must be finite and >= 0")
+    for name, value in excess.items():
+        if name not in scheme._excess_si:
+            raise UsageError(
+                f"no excess species named {name!r} in the scheme",
+                "excess species: " + (", ".join(scheme._excess_si) or "none"),
+            )
+        if not (math.isfinite(value) and value >= 0):
+            raise UsageError(f"excess concentration {name} = {value!r} must be finite and >= 0")
+    if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
+        raise UsageError(f"temperature {temperature!r} K must be finite and above 0 K")
 
 
 def dense_rate_matrix(scheme: Scheme, rates: np.ndarray | None = None) -> np.ndarray:

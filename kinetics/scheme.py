@@ -23,6 +23,7 @@ from functools import cached_property
 
 import numpy as np
 
+from .errors import UsageError
 from .units import GAS_CONSTANT
 
 __all__ = ["Arrhenius", "RateConstant", "Reaction", "Scheme", "Species", "Step"]
@@ -79,10 +80,25 @@ class Arrhenius:
     energy_text: str = ""
 
     def at(self, temperature: float) -> float:
-        """The constant in SI units at ``temperature`` [K]."""
-        return float(self.prefactor_si) * math.exp(
-            -self.activation_energy / (GAS_CONSTANT * temperature)
-        )
+        """The constant in SI units at ``temperature`` [K] (``inf`` if it overflows).
+
+        Parameters
+        ----------
+        temperature : float
+            Thermodynamic temperature [K], above 0.
+
+        Returns
+        -------
+        float
+            :math:`A \\exp(-E_a / R T)` in SI base units [1/s for first order].
+        """
+        if not temperature > 0:
+            raise UsageError(f"temperature {temperature!r} K must be above 0 K")
+        try:
+            prefactor = float(self.prefactor_si)
+        except OverflowError:
+            prefactor = math.inf
+        return prefactor * math.exp(-self.activation_energy / (GAS_CONSTANT * temperature))
 
 
 @dataclass(frozen=True)
@@ -118,7 +134,9 @@ class RateConstant:
         """The constant in SI base units (at ``temperature`` [K] for Arrhenius ones)."""
         if self.arrhenius is not None:
             if temperature is None:
-                raise ValueError("an Arrhenius constant needs a temperature")
+                raise UsageError(
+                    f"rate constant {self.name} follows the Arrhenius law and needs a temperature"
+                )
             return self.arrhenius.at(temperature)
         return float(self.value_si)
 
@@ -350,19 +368,80 @@ class Scheme:
         constants: dict[str, float] | None = None,
         temperature: float | None = None,
         initial: dict[str, float] | None = None,
+        excess: dict[str, float] | None = None,
     ) -> Scheme:
-        """A copy with some constants [SI], the temperature [K] or start values replaced."""
+        """A copy with some values replaced.
+
+        Parameters
+        ----------
+        constants : dict of str to float, optional
+            New values of named rate constants in SI base units [1/s for first
+            order]; an Arrhenius constant becomes a plain one.
+        temperature : float, optional
+            New temperature [K].
+        initial : dict of str to float, optional
+            New start concentrations [concentration_unit].
+        excess : dict of str to float, optional
+            New excess concentrations [concentration_unit].
+
+        Returns
+        -------
+        Scheme
+
+        Raises
+        ------
+        UsageError
+            For unknown names and for values that are negative or not finite.
+        """
         new_constants = dict(self.constants)
         for name, value in (constants or {}).items():
-            old = new_constants[name]
+            if name not in new_constants:
+                raise UsageError(
+                    f"no rate constant named {name!r} in the scheme",
+                    "known constants: " + ", ".join(new_constants),
+                )
+            exact = _checked_fraction(value, f"rate constant {name}")
             new_constants[name] = replace(
-                old, value_si=Fraction(value), arrhenius=None, text=f"{value!r} (SI)"
+                new_constants[name], value_si=exact, arrhenius=None, text=f"{value!r} (SI)"
             )
         new_initial = dict(self.initial)
-        new_initial.update(initial or {})
+        for name, value in (initial or {}).items():
+            if name not in self.index:
+                raise UsageError(
+                    f"no species named {name!r} in the rate matrix of the scheme",
+                    "species: " + ", ".join(self.species_names),
+                )
+            _checked_fraction(value, f"start value of {name}")
+            new_initial[name] = float(value)
+        new_excess = dict(self.excess)
+        new_excess_si = dict(self._excess_si)
+        for name, value in (excess or {}).items():
+            if name not in new_excess:
+                raise UsageError(
+                    f"no excess species named {name!r} in the scheme",
+                    "excess species: " + (", ".join(new_excess) or "none"),
+                )
+            new_excess_si[name] = (
+                _checked_fraction(value, f"excess concentration of {name}") * self._unit_factor
+            )
+            new_excess[name] = float(value)
+        if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
+            raise UsageError(f"temperature {temperature!r} K must be finite and above 0 K")
         return replace(
             self,
             constants=new_constants,
-            temperature=self.temperature if temperature is None else temperature,
+            temperature=self.temperature if temperature is None else float(temperature),
             initial=new_initial,
+            excess=new_excess,
+            _excess_si=new_excess_si,
         )
+
+
+def _checked_fraction(value: float, what: str) -> Fraction:
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        raise UsageError(f"{what} must be a number, not {value!r}") from None
+    if not (math.isfinite(number) and number >= 0):
+        raise UsageError(f"{what} = {value!r} must be finite and >= 0")
+    return Fraction(number)

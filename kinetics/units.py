@@ -24,6 +24,7 @@ from fractions import Fraction
 
 __all__ = [
     "GAS_CONSTANT",
+    "MAX_EXPONENT",
     "UnitSpec",
     "concentration_order",
     "convert",
@@ -37,11 +38,16 @@ __all__ = [
 GAS_CONSTANT = 8.314462618
 
 _SUPERSCRIPTS = str.maketrans("⁰¹²³⁴⁵⁶⁷⁸⁹⁻⁺", "0123456789-+")
-_PIECE = re.compile(r"\(|\)|/|[^\s*/·⋅()]+")
-_POWER = re.compile(
-    r"^(?P<name>[^\W\d_][\w]*?)(?:\^|\*\*)?(?P<exp>[-+−]?\d+)$",
-)
+_PIECE = re.compile(r"\(|\)|/|\*|[^\s*/·⋅()]+")
+_POWER = re.compile(r"^(?P<name>[^\W\d]+?)\^?(?P<exp>[-+]?\d+)$")
+_BARE_POWER = re.compile(r"^\^?(?P<exp>[-+]?\d+)$")
+_WORD = re.compile(r"^(?:[^\W\d]+|%|\d+)$")
+_GLUED = re.compile(r"(?<=[^\W\d_])(\^?[-+]?\d+)(?=[^\W\d_])")
 _NUMBER = re.compile(r"^[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$")
+
+#: Largest exponent accepted in a unit (``s-1``, ``m3``, ``M-2`` ...).  Larger ones
+#: are certainly typing mistakes, and exact rational powers of them cost time.
+MAX_EXPONENT = 12
 
 
 @functools.lru_cache(maxsize=1)
@@ -69,35 +75,58 @@ def normalise_unit(text: str) -> str:
     str
         The same unit in pint syntax, e.g. ``"L*mol**-1*s**-1"``.
 
+    Raises
+    ------
+    ValueError
+        For a piece that is neither a unit name (with an optional integer
+        exponent), an integer, an operator nor a parenthesis, and for exponents
+        beyond :data:`MAX_EXPONENT`.
+
     Examples
     --------
     >>> normalise_unit("M-1 s-1")
     'M**-1*s**-1'
     >>> normalise_unit("mol/L/min")
     'mol/L/min'
+    >>> normalise_unit("s**-1")
+    's**-1'
     """
     text = text.strip().translate(_SUPERSCRIPTS).replace("−", "-")
     text = text.replace("°C", "degC").replace("°F", "degF").replace("℃", "degC")
     text = text.replace("µ", "u").replace("μ", "u")
+    text = re.sub(r"\s*(?:\*\*|\^)\s*", "^", text)
+    text = _GLUED.sub(r"\1 ", text)  # M-1s-1 -> M-1 s-1
     out: list[str] = []
     previous_is_word = False
     for piece in _PIECE.findall(text):
-        is_word = piece not in ("(", ")", "/")
-        if is_word and out and out[-1] == ")" and re.fullmatch(r"[-+]?\d+", piece):
-            out.append("**" + piece.replace("+", ""))
+        if piece in ("(", ")", "/", "*"):
+            if piece == "(" and previous_is_word:
+                out.append("*")
+            out.append(piece)
+            previous_is_word = piece == ")"
+            continue
+        bare = _BARE_POWER.match(piece)
+        if bare and out and out[-1] == ")":
+            out.append("**" + _exponent(bare["exp"]))
             previous_is_word = True
             continue
-        if is_word:
-            match = _POWER.match(piece)
-            if match:
-                piece = f"{match['name']}**{match['exp'].replace('+', '')}"
-            if previous_is_word:
-                out.append("*")
-        elif piece == "(" and previous_is_word:
+        match = _POWER.match(piece)
+        if match:
+            piece = f"{match['name']}**{_exponent(match['exp'])}"
+        elif not _WORD.match(piece):
+            raise ValueError(f"cannot read {piece!r} in a unit")
+        if previous_is_word:
             out.append("*")
         out.append(piece)
-        previous_is_word = is_word or piece == ")"
+        previous_is_word = True
     return "".join(out)
+
+
+def _exponent(text: str) -> str:
+    value = int(text)
+    if abs(value) > MAX_EXPONENT:
+        raise ValueError(f"the exponent {value} is too large")
+    return str(value)
 
 
 @dataclass(frozen=True)
@@ -155,6 +184,9 @@ def parse_unit(text: str) -> UnitSpec:
         unit = ureg.parse_units(normal)
     except Exception as exc:  # pint raises several unrelated types
         raise ValueError(f"unknown unit {text!r}") from exc
+    # nested powers ((min^12)^12) multiply: bound the result before exact conversion
+    if any(abs(power) > 2 * MAX_EXPONENT for _, power in unit._units.items()):
+        raise ValueError(f"the exponents in {text!r} are too large")
     quantity = ureg.Quantity(Fraction(1), unit)
     if not quantity._is_multiplicative:
         return UnitSpec(text, Fraction(1), _dims_tuple(quantity.dimensionality), True)
@@ -202,13 +234,13 @@ def convert(value: float, from_unit: str, to_unit: str) -> float:
     return float(Fraction(value) * a.factor / b.factor)
 
 
-def temperature_to_kelvin(value: float, unit: str) -> float:
+def temperature_to_kelvin(value: float | Fraction, unit: str) -> float:
     """Convert a temperature to kelvin (accepts K, degC, degF and °C).
 
     Parameters
     ----------
-    value : float
-        The temperature in ``unit``.
+    value : float or Fraction
+        The temperature in ``unit`` (a Fraction is converted without round-off).
     unit : str
         ``K``, ``degC``, ``°C`` or ``degF``.
 
@@ -232,7 +264,10 @@ def temperature_to_kelvin(value: float, unit: str) -> float:
         raise ValueError(f"{unit!r} is not a temperature unit")
     ureg = registry()
     kelvin = ureg.Quantity(Fraction(value), normalise_unit(unit)).to("kelvin").magnitude
-    return float(kelvin)
+    try:
+        return float(kelvin)
+    except OverflowError:
+        raise ValueError(f"the temperature {value} {unit} is too large") from None
 
 
 _NAMED_DIMENSIONS = {
