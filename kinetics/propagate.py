@@ -218,7 +218,9 @@ def _ps_blocks(m: int) -> tuple[int, int]:
     return best[1], best[2]
 
 
-def _plan(beta: float, n: int, route: str, target: float) -> _Plan:
+def _plan(
+    beta: float, n: int, route: str, target: float, ymax: float = 16.0, square_cost: float = 1.0
+) -> _Plan:
     r"""Choose squarings j and Taylor degree m for ``||tB||_1 <= beta``.
 
     The scalar remainder estimate (Shao, Gao & Xue 2014, sec. 3) is
@@ -227,7 +229,7 @@ def _plan(beta: float, n: int, route: str, target: float) -> _Plan:
     """
     if beta <= 0.0:
         return _Plan(route, 0, 2, 0)
-    jmin = max(0, math.ceil(math.log2(beta / 16.0)))
+    jmin = max(0, math.ceil(math.log2(beta / ymax)))
     best = None
     log_target = math.log(target)
     for j in range(jmin, jmin + 12):
@@ -235,10 +237,10 @@ def _plan(beta: float, n: int, route: str, target: float) -> _Plan:
         base = j * math.log(2.0) + y
         # the pattern of T_m(Y)^(2^j) holds every path of length <= m 2^j
         m = max(1, math.ceil((n - 1) / 2.0**j))
-        while base + (m + 1) * math.log(y) - math.lgamma(m + 2) > log_target and m < 400:
+        while base + (m + 1) * math.log(y) - math.lgamma(m + 2) > log_target and m < 1000:
             m += 1
         s, r = _ps_blocks(max(m, 2))
-        cost = (s - 1) + r + j
+        cost = (s - 1) + r + square_cost * j
         if best is None or cost < best[0]:
             best = (cost, _Plan(route, j, s, r))
     return best[1]
@@ -266,7 +268,8 @@ def _rounding_bound(beta: float, n: int, plan: _Plan, unit: float) -> float:
         gamma = n * unit / (1 - n * unit)
     else:
         gamma = (n * n + n + 4) * unit
-    eps = (m + n + 4) * gamma + 8 * unit  # Taylor sum and the factor exp(-sigma t / 2^j)
+    # Taylor sum (term k costs k products) and the factor exp(-sigma t / 2^j)
+    eps = (m + 4) * gamma + (m + 8) * unit
     for _ in range(plan.j):
         eps = 2 * eps + eps * eps + gamma * (1 + eps) ** 2
     # representation error of t B / 2^j: a perturbation of the data, not amplified
