@@ -44,24 +44,36 @@ def parse_duration(text: str, option: str = "--until") -> tuple[float, str]:
 
 
 def parse_time_list(text: str) -> tuple[list[float], str]:
-    """``"0,5,10,30 min"`` -> ([0, 300, 600, 1800], "min")."""
+    """``"0,5,10,30 min"`` -> ([0, 300, 600, 1800], "min"): times in seconds and the unit.
+
+    The unit is written once, after the last number.
+    """
     from .solution import time_factor
 
-    match = re.match(r"^\s*(?P<numbers>[-+0-9.eE,\s]+?)\s*(?P<unit>[^\d\s,.+-][^,]*)?$", text)
-    if not match or not match["unit"]:
+    example = "write e.g. --times '0,5,10,30 min'"
+    pieces = [p.strip() for p in text.split(",")]
+    if not pieces or not pieces[-1]:
+        raise UsageError(f"--times {text!r} is not a list of times with one unit", example)
+    match = _DURATION.match(pieces[-1])
+    if not match or not match["unit"].strip():
         raise UsageError(
-            f"--times {text!r} is not a list of times with one unit",
-            "write e.g. --times '0,5,10,30 min'",
+            f"--times {text!r} does not end with a unit of time",
+            example + " (unit once, at the end)",
         )
     unit = match["unit"].strip()
-    factor = time_factor(unit)
     try:
-        values = [float(x) for x in match["numbers"].split(",") if x.strip()]
-    except ValueError:
+        factor = time_factor(unit)
+    except UsageError:
         raise UsageError(
-            f"--times {text!r} contains something that is not a number",
-            "write e.g. --times '0,5,10,30 min'",
+            f"--times {text!r}: {unit!r} is not a unit of time", "use s, min, h or d"
         ) from None
+    values = []
+    for piece in pieces[:-1]:
+        try:
+            values.append(float(piece))
+        except ValueError:
+            raise UsageError(f"--times {text!r}: {piece!r} is not a number", example) from None
+    values.append(float(match["number"]))
     return [v * factor for v in values], unit
 
 
@@ -160,7 +172,8 @@ def _species_list(text: str | None, scheme, option: str = "--species") -> list[s
     known = scheme.species_names
     for name in names:
         if name not in known:
-            close = difflib.get_close_matches(name, known, n=1)
+            same_case = [k for k in known if k.lower() == name.lower()]
+            close = same_case or difflib.get_close_matches(name, known, n=1)
             hint = f"did you mean {close[0]!r}? " if close else ""
             raise UsageError(
                 f"{option} names {name!r}, which is not a species of the scheme",
@@ -418,6 +431,9 @@ def main(argv: list[str] | None = None) -> int:
     except (click.exceptions.Abort, KeyboardInterrupt):
         click.echo("kinetics: interrupted", err=True)
         return 130
+    except click.exceptions.NoArgsIsHelpError as exc:
+        click.echo(exc.format_message(), err=True)
+        return 2
     except click.ClickException as exc:
         if debug:
             raise
@@ -451,3 +467,8 @@ def main(argv: list[str] | None = None) -> int:
 def run() -> None:  # pragma: no cover - console-script entry point
     """Console-script entry point."""
     sys.exit(main())
+
+
+from .fit_cli import fit as _fit_command  # noqa: E402
+
+cli.add_command(_fit_command)

@@ -86,13 +86,15 @@ def check_output_paths(paths, inputs=(), formats=None) -> list[Path]:
     formats = OUTPUT_FORMATS if formats is None else formats
     checked: list[Path] = []
     for raw in paths:
-        p = Path(raw)
+        p = check_output_path(raw, inputs)
         suffix = p.suffix.lower()
         if suffix not in formats:
             known = ", ".join(formats)
             what = f"extension {p.suffix!r}" if p.suffix else "no extension"
-            raise UsageError(f"the output file {str(raw)!r} has {what}", f"the formats are {known}")
-        p = check_output_path(p, inputs)
+            raise UsageError(
+                f"the output file {str(raw)!r} has {what}, which is not an output format",
+                f"use one of {known}",
+            )
         if any(p.resolve() == q.resolve() for q in checked):
             raise UsageError(f"the output file {str(raw)!r} is given twice", "name it once")
         checked.append(p)
