@@ -1,0 +1,363 @@
+"""Propagation on time grids, feeds, batches, sensitivities and large schemes."""
+
+from __future__ import annotations
+
+import math
+
+import mpmath
+import numpy as np
+import pytest
+import scipy.linalg
+import scipy.sparse
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from scipy.integrate import solve_ivp
+
+from kinetics.errors import UsageError
+from kinetics.propagate import (
+    DENSE_MAX,
+    expm_nonnegative,
+    propagate,
+    propagate_batch,
+    propagate_certified,
+    sensitivities,
+)
+
+
+def chain(ks, last_decays: bool = False):
+    n = len(ks) + 1
+    K = np.zeros((n, n))
+    for i, k in enumerate(ks):
+        K[i, i] -= k
+        K[i + 1, i] += k
+    return K
+
+
+def bateman(ks, A0, t):
+    """Bateman, Proc. Cambridge Philos. Soc. 15, 423 (1910): member n of a chain.
+
+    N_n(t) = A0 prod_{i<n} k_i sum_i exp(-k_i t) / prod_{j != i} (k_j - k_i),
+    summed over the n decaying members (all distinct constants).
+    """
+    out = []
+    for n in range(1, len(ks) + 1):
+        kk = ks[:n]
+        s = 0.0
+        for i in range(n):
+            den = np.prod([kk[j] - kk[i] for j in range(n) if j != i])
+            s += np.exp(-kk[i] * t) / den
+        out.append(A0 * np.prod(kk[:-1]) * s)
+    return np.array(out)
+
+
+# ---------------------------------------------------------------- closed forms
+
+
+def test_bateman_well_separated_chain():
+    ks = [1.0, 0.3, 0.05, 0.01]
+    K = chain(ks)
+    t = np.linspace(0, 50, 11)
+    c = propagate(K, [2.0, 0, 0, 0, 0], t)
+    for j, tj in enumerate(t):
+        # reference: Bateman 1910 closed form (well-separated constants, no cancellation)
+        ref = bateman(ks, 2.0, tj)
+        np.testing.assert_allclose(c[j, :4], ref, rtol=1e-13, atol=0)
+    # the stable end product takes the rest of the mass (conservation)
+    np.testing.assert_allclose(c[:, :].sum(axis=1), 2.0, rtol=1e-14, atol=0)
+
+
+@pytest.mark.parametrize("t", [0.01, 1.0, 10.0, 40.0])
+def test_equal_constants_limit(t):
+    k = 0.7
+    K = chain([k] * 6)
+    c = propagate(K, [1.5, 0, 0, 0, 0, 0, 0], [t])[0]
+    for n in range(6):
+        # reference: A0 (kt)^n e^{-kt} / n!, equal-constant chain (textbook result)
+        ref = 1.5 * (k * t) ** n * math.exp(-k * t) / math.factorial(n)
+        np.testing.assert_allclose(c[n], ref, rtol=1e-13, atol=0)
+
+
+def test_feed_closed_form():
+    # A fed at f [conc/s], A -> B with k: A(t) = c0 e^{-kt} + f/k (1 - e^{-kt});
+    # B(t) = B0 + f t + c0 - A(t)  (closed form of dA/dt = f - kA, common practice, no source)
+    k, f, c0 = 0.2, 0.05, 1.0
+    K = chain([k])
+    t = np.array([0.0, 0.1, 1.0, 7.5, 100.0])
+    c = propagate(K, [c0, 0.0], t, feed=[f, 0.0])
+    A = c0 * np.exp(-k * t) + f / k * -np.expm1(-k * t)
+    np.testing.assert_allclose(c[:, 0], A, rtol=1e-14, atol=0)
+    np.testing.assert_allclose(c[:, 1], f * t + c0 - A, rtol=1e-13, atol=1e-300)
+
+
+def test_against_radau_reversible_branched():
+    # A <-> B, A -> C, B -> D <-> E, C -> E
+    K = np.zeros((5, 5))
+    for src, dst, k in [(0, 1, 0.8), (1, 0, 0.3), (0, 2, 0.2), (1, 3, 0.5), (3, 4, 0.4),
+                        (4, 3, 0.1), (2, 4, 0.05)]:  # fmt: skip
+        K[dst, src] += k
+        K[src, src] -= k
+    c0 = np.array([1.0, 0.2, 0.0, 0.0, 0.0])
+    t = np.linspace(0, 30, 61)
+    c = propagate(K, c0, t)
+    # reference: scipy solve_ivp, Radau, rtol 1e-12 (independent ODE integrator)
+    sol = solve_ivp(lambda _t, y: K @ y, (0, 30), c0, method="Radau", t_eval=t,
+                    rtol=1e-12, atol=1e-15, jac=lambda _t, _y: K)  # fmt: skip
+    np.testing.assert_allclose(c, sol.y.T, rtol=1e-8, atol=1e-12)
+
+
+def test_mass_conservation_balanced_scheme():
+    rng = np.random.default_rng(7)
+    n = 8
+    # rates are powers of two between 2**-10 and 2**10 1/s, so that the diagonal
+    # (minus the column sum) is exact and every column of K sums to exactly zero
+    K = 2.0 ** rng.integers(-10, 11, (n, n)).astype(float) * (rng.random((n, n)) < 0.5)
+    np.fill_diagonal(K, 0)
+    K -= np.diag(K.sum(axis=0))  # closed, balanced scheme
+    assert np.all(K.sum(axis=0) == 0)
+    c0 = rng.uniform(0, 1, n)
+    t = np.linspace(0, 1e3, 201)
+    c = propagate(K, c0, t)
+    # conservation of the total for column sums zero (common practice, no source)
+    np.testing.assert_allclose(c.sum(axis=1), c0.sum(), rtol=1e-14, atol=0)
+
+
+# ---------------------------------------------------------------- hypothesis
+
+
+@st.composite
+def ess_nonneg(draw):
+    n = draw(st.integers(1, 7))
+    logs = draw(st.lists(st.floats(-4, 4), min_size=n * n, max_size=n * n))
+    mask = draw(st.lists(st.booleans(), min_size=n * n, max_size=n * n))
+    K = (10.0 ** np.array(logs) * np.array(mask)).reshape(n, n)
+    np.fill_diagonal(K, 0.0)
+    diag = draw(st.lists(st.floats(-1.5, 1.0), min_size=n, max_size=n))
+    K -= np.diag(K.sum(axis=0) * (1 + np.array(diag)) * (np.array(diag) > -1))
+    t = draw(st.floats(0.0, 10.0))
+    return K, t
+
+
+@settings(max_examples=60, deadline=None)
+@given(ess_nonneg())
+def test_hypothesis_agrees_with_scipy_in_norm(case):
+    K, t = case
+    F = expm_nonnegative(K, t)
+    assert np.all(F >= 0)
+    # reference: scipy.linalg.expm (Al-Mohy & Higham 2009), accurate in norm
+    S = scipy.linalg.expm(K * t)
+    scale = max(np.abs(S).max(), 1e-300)
+    np.testing.assert_allclose(F, S, rtol=0, atol=1e-11 * scale)
+
+
+# ---------------------------------------------------------------- grids
+
+
+def test_time_zero_returns_c0_exactly():
+    K = chain([0.3, 0.1])
+    c0 = np.array([0.1, 0.7, 1e-300])
+    c = propagate(K, c0, [0.0, 0.0, 1.0])
+    assert c[0].tolist() == c0.tolist()
+    assert c[1].tolist() == c0.tolist()
+
+
+def test_uniform_and_irregular_grids_agree():
+    K = chain([2.0, 0.5, 0.01])
+    c0 = [1.0, 0.0, 0.0, 0.0]
+    t = np.linspace(0.0, 20.0, 41)
+    a = propagate(K, c0, t)  # uniform: powers of exp(K dt)
+    t2 = t.copy()
+    t2[7] += 1e-9  # no longer uniform: interval by interval
+    b = propagate(K, c0, t2)
+    keep = np.arange(t.size) != 7
+    np.testing.assert_allclose(a[keep], b[keep], rtol=1e-13, atol=1e-300)
+
+
+def test_single_times_match_grid():
+    K = chain([2.0, 0.5, 0.01])
+    c0 = [1.0, 0.0, 0.0, 0.0]
+    t = np.linspace(0.0, 20.0, 41)
+    a = propagate(K, c0, t)
+    for j in (5, 23, 40):
+        np.testing.assert_allclose(propagate(K, c0, [t[j]])[0], a[j], rtol=1e-13, atol=0)
+
+
+def test_stiff_long_times_bounded_nonnegative():
+    # t * max k up to 1e10, constants over 12 orders
+    K = chain([1e4, 1e-8, 1e2, 1e-4])
+    t = np.array([0.0, 1e-6, 1.0, 1e3, 1e6])
+    c = propagate(K, [1.0, 0, 0, 0, 0], t)
+    assert np.all(c >= 0)
+    np.testing.assert_allclose(c.sum(axis=1), 1.0, rtol=1e-14, atol=0)
+    # reference: Bateman 1910 for the first two members (well separated)
+    np.testing.assert_allclose(c[1:, :2], [bateman([1e4, 1e-8], 1.0, x) for x in t[1:]],
+                               rtol=1e-12, atol=1e-300)  # fmt: skip
+
+
+def test_double_route_is_bounded_and_close():
+    K = chain([2.0, 0.5, 0.01])
+    t = np.linspace(0, 10, 21)
+    a = propagate_certified(K, [1, 0, 0, 0], t, precision="double")
+    b = propagate_certified(K, [1, 0, 0, 0], t, precision="double-double")
+    assert a.precision == "double"
+    assert b.precision == "double-double"
+    rel = np.abs(a.concentrations - b.concentrations) / np.maximum(b.concentrations, 1e-300)
+    assert np.all(rel[1:] <= a.error_bound[1:, None])
+    assert np.all(b.error_bound <= 2.3e-16)
+
+
+# ---------------------------------------------------------------- batch
+
+
+def test_batch_equals_single_bit_for_bit():
+    rng = np.random.default_rng(3)
+    b, n = 6, 5
+    K = rng.uniform(0, 2, (b, n, n)) * 10.0 ** rng.uniform(-2, 2, (b, n, n))
+    for i in range(b):
+        np.fill_diagonal(K[i], 0)
+        K[i] -= np.diag(K[i].sum(axis=0))
+    c0 = rng.uniform(0, 1, (b, n))
+    feed = rng.uniform(0, 0.1, (b, n))
+    for t in (np.linspace(0, 5, 11), np.array([0.0, 0.3, 2.0, 2.5])):
+        for prec in ("double", "double-double", "auto"):
+            X = propagate_batch(K, c0, t, feed, precision=prec)
+            assert X.shape == (b, t.size, n)
+            for i in range(b):
+                single = propagate(K[i], c0[i], t, feed[i], precision=prec)
+                np.testing.assert_array_equal(X[i], single)
+
+
+def test_batch_broadcasts_c0():
+    K = np.stack([chain([1.0, 2.0]), chain([0.5, 0.1])])
+    X = propagate_batch(K, [1.0, 0.0, 0.0], [0.0, 1.0])
+    assert X.shape == (2, 2, 3)
+    np.testing.assert_allclose(X[1, 1, 0], math.exp(-0.5), rtol=1e-15, atol=0)
+
+
+# ---------------------------------------------------------------- sensitivities
+
+
+def test_sensitivities_against_mpmath_finite_difference():
+    # A -> B (k1), B -> A (k2), B -> C (k3)
+    def K_of(k1, k2, k3):
+        return np.array([[-k1, k2, 0.0], [k1, -k2 - k3, 0.0], [0.0, k3, 0.0]])
+
+    ks = (0.7, 0.2, 0.4)
+    K = K_of(*ks)
+    dirs = np.stack([K_of(*np.eye(3)[r]) for r in range(3)])
+    c0 = np.array([1.0, 0.1, 0.0])
+    t = np.array([0.0, 0.5, 3.0])
+    S = sensitivities(K, c0, t, dirs)
+    assert S.shape == (3, 3, 3)
+    h = mpmath.mpf("1e-20")
+    with mpmath.workdps(60):
+        for r in range(3):
+            for j, tj in enumerate(t):
+                # reference: central difference of mpmath.expm at 60 digits, step 1e-20
+                Kp = mpmath.matrix(K.tolist()) + h * mpmath.matrix(dirs[r].tolist())
+                Km = mpmath.matrix(K.tolist()) - h * mpmath.matrix(dirs[r].tolist())
+                v = mpmath.matrix(c0.tolist())
+                d = (mpmath.expm(Kp * tj) * v - mpmath.expm(Km * tj) * v) / (2 * h)
+                ref = np.array([float(d[i]) for i in range(3)])
+                np.testing.assert_allclose(S[r, j], ref, rtol=1e-12, atol=1e-15)
+
+
+def test_sensitivities_against_expm_frechet():
+    K = chain([1.0, 0.25, 0.05])
+    E = np.zeros((4, 4))
+    E[1, 1], E[2, 1] = -1.0, 1.0  # d/dk2
+    c0 = np.array([1.0, 0.0, 0.0, 0.0])
+    S = sensitivities(K, c0, [2.0], E)[0, 0]
+    # reference: scipy.linalg.expm_frechet (Al-Mohy & Higham 2009), normwise accurate
+    L = scipy.linalg.expm_frechet(2.0 * K, 2.0 * E, compute_expm=False)
+    np.testing.assert_allclose(S, L @ c0, rtol=1e-10, atol=1e-14)
+
+
+# ---------------------------------------------------------------- large schemes
+
+
+def sparse_chain(ks):
+    n = len(ks)
+    rows = np.r_[np.arange(n), np.arange(1, n)]
+    cols = np.r_[np.arange(n), np.arange(n - 1)]
+    vals = np.r_[-np.asarray(ks), np.asarray(ks[:-1])]
+    return scipy.sparse.csr_array((vals, (rows, cols)), shape=(n, n))
+
+
+def test_block_route_matches_dense_engine():
+    n = 160
+    assert n > DENSE_MAX
+    ks = np.logspace(-3, 1, n)
+    ks[40:44] = 0.05  # repeated constants
+    K = sparse_chain(ks)
+    c0 = np.zeros(n)
+    c0[0], c0[50] = 1.0, 0.5
+    t = np.linspace(0, 200, 21)
+    c = propagate(K, c0, t)
+    assert np.all(c >= 0)
+    # reference: the dense double-double engine on the same matrix (checked
+    # against mpmath in test_reference_expm.py)
+    ref = propagate_batch(K.toarray()[None], c0, t)[0]
+    big = ref > 1e-100
+    np.testing.assert_allclose(c[big], ref[big], rtol=1e-10, atol=0)
+
+
+def test_block_route_permuted_scheme_with_cycle_and_feed():
+    rng = np.random.default_rng(11)
+    n = 90
+    K = np.zeros((n, n))
+    for i in range(n - 1):
+        K[i + 1, i] = 10.0 ** rng.uniform(-2, 1)
+    K[30, 35] = 0.3  # a cycle 30 -> ... -> 35 -> 30
+    K[60, 10] = 0.2  # a branch
+    K -= np.diag(K.sum(axis=0))
+    perm = rng.permutation(n)
+    Kp = K[perm][:, perm]
+    c0 = rng.uniform(0, 1, n)
+    feed = np.zeros(n)
+    feed[perm.tolist().index(0)] = 0.01
+    t = [0.0, 0.5, 3.0, 3.5, 40.0]
+    c = propagate(scipy.sparse.csr_array(Kp), c0, t, feed)
+    ref = propagate_batch(Kp[None], c0, t, feed[None])[0]
+    big = ref > 1e-100
+    np.testing.assert_allclose(c[big], ref[big], rtol=1e-10, atol=0)
+
+
+def test_small_sparse_input_equals_dense():
+    K = chain([1.0, 0.1])
+    t = [0.0, 1.0, 5.0]
+    np.testing.assert_array_equal(
+        propagate(scipy.sparse.csc_array(K), [1, 0, 0], t), propagate(K, [1, 0, 0], t)
+    )
+
+
+# ---------------------------------------------------------------- bad input
+
+
+@pytest.mark.parametrize(
+    ("K", "c0", "times", "feed"),
+    [
+        (chain([1.0]), [1, 0], [1.0, 0.5], None),  # unsorted times
+        (chain([1.0]), [1, 0], [-1.0], None),  # negative time
+        (chain([1.0]), [1, 0], [np.nan], None),  # non-finite time
+        (chain([1.0]), [1, 0], [[0.0, 1.0]], None),  # not 1-D
+        (chain([1.0]), [1, 0, 0], [1.0], None),  # wrong c0 shape
+        (chain([1.0]), [-1, 0], [1.0], None),  # negative concentration
+        (chain([1.0]), [1, 0], [1.0], [0.0, -1.0]),  # negative feed
+        (np.array([[-1.0, -0.5], [1.0, 0.0]]), [1, 0], [1.0], None),  # negative off-diagonal
+        (np.ones((2, 3)), [1, 0], [1.0], None),  # not square
+        (np.array([[np.inf, 0], [0, 0]]), [1, 0], [1.0], None),  # non-finite rate
+        ("abc", [1, 0], [1.0], None),  # not numeric
+    ],
+)
+def test_bad_input_raises_usage_error(K, c0, times, feed):
+    with pytest.raises(UsageError):
+        propagate(K, c0, times, feed)
+
+
+def test_bad_precision_and_batch_shape():
+    with pytest.raises(UsageError):
+        propagate(chain([1.0]), [1, 0], [1.0], precision="quad")
+    with pytest.raises(UsageError):
+        propagate_batch(chain([1.0]), [1, 0], [1.0])
+    with pytest.raises(UsageError):
+        sensitivities(chain([1.0]), [1, 0], [1.0], np.zeros((1, 3, 3)))
