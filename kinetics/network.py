@@ -9,7 +9,8 @@ the step indices and constants.  From it:
   excess* (constant co-reactant), *inert* (neither formed nor consumed);
 * **reversible pairs** (edges both ways), **cycles** (elementary cycles of
   length three or more: irreversible loops), **strongly connected
-  components** and **disconnected sub-schemes** (weakly connected components).
+  components** and **disconnected sub-schemes** (weakly connected components
+  of the matrix species; excess species, being constant, connect nothing).
 """
 
 from __future__ import annotations
@@ -69,7 +70,9 @@ class NetworkSummary:
     strongly_connected : list of list of str
         Components with more than one species, in topological order.
     sub_schemes : list of list of str
-        Disconnected parts (only when there are two or more).
+        Disconnected parts of the matrix species (only when there are two or
+        more); species held in excess do not connect parts, since their
+        concentration is constant.
     """
 
     roles: dict[str, str]
@@ -141,6 +144,7 @@ def summarise_network(scheme: Scheme, *, max_cycles: int = 50) -> NetworkSummary
         members = condensation.nodes[node]["members"]
         if len(members) > 1:
             components.append(sorted(members, key=order.get))
-    weak = [sorted(c, key=order.get) for c in nx.weakly_connected_components(graph)]
+    # excess species are constant: they do not couple the parts they take part in
+    weak = [sorted(c, key=order.get) for c in nx.weakly_connected_components(matrix_graph)]
     weak.sort(key=lambda c: order[c[0]])
     return NetworkSummary(roles, pairs, cycles, components, weak if len(weak) > 1 else [])

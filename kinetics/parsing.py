@@ -17,6 +17,23 @@ The scheme language (one statement per line, ``#`` starts a comment)::
     molar_mass G = 180.2 g/mol
     balance: lumped                         # atom imbalance is a warning only
 
+Atom balance and its opt-out
+----------------------------
+When every species of a reaction (excess co-reactants and products included)
+has a ``formula``, the element counts of both sides must agree; an imbalance is
+an **error** by default, and the message lists the counts of both sides.
+Lumped schemes (a "degradation products" pseudo-species, a dimer written as
+one species, an open system) opt out in one of two ways:
+
+* the line ``balance: lumped`` in the file (``balance: strict`` restates the
+  default), or
+* ``parse(text, strict_balance=False)`` / ``load(path, strict_balance=False)``
+  from Python (``kinetics check FILE --allow-imbalance`` on the command line).
+
+The imbalance is then still reported by :func:`kinetics.balance.mass_balance`
+(per reaction, and the mass-changing steps by name), but it no longer stops
+the file from loading.
+
 Parsing runs in two passes.  The first reads each line into a small frozen
 statement object (each statement kind has a ``from_line`` constructor that
 answers "not mine" with ``None``, or returns a statement or a list of errors).
@@ -38,7 +55,7 @@ from typing import ClassVar
 
 import numpy as np
 
-from .errors import SchemeError, SchemeErrors, SchemeFileError
+from .errors import SchemeError, SchemeErrors, SchemeFileError, UsageError
 from .scheme import Arrhenius, RateConstant, Reaction, Scheme, Species, Step
 from .units import (
     concentration_order,
@@ -62,6 +79,7 @@ _NUMBER_RE = re.compile(
     re.IGNORECASE,
 )
 _TERM_RE = re.compile(rf"\s*(?:(?P<coef>\d+(?:\.\d*)?|\.\d+)\s*)?(?P<name>{_NAME})")
+_DIRECTIVE_LIKE = re.compile(rf"\s*{_NAME}\s+{_NAME}\s*=")
 _ITEM_RE = re.compile(rf"(?P<name>{_NAME})\s*=\s*")
 _CONSTANT_LINE = re.compile(rf"^(?P<name>{_NAME})\s*=(?![=>])")
 _ARROW_RE = re.compile(r"<=>|⇌|->|→")
@@ -246,9 +264,10 @@ class BalanceStatement:
         code = line.code.lstrip()
         if not re.match(r"balance\s*:", code, re.IGNORECASE):
             return None
-        mode = code.split(":", 1)[1].strip().lower()
+        after = line.code[line.code.index(":") + 1 :]
+        mode = after.strip().lower()
         if mode not in ("lumped", "strict"):
-            column = line.code.index(":") + 2
+            column = line.code.index(":") + 2 + len(after) - len(after.lstrip())
             return [
                 line.error(
                     f"unknown balance mode {mode!r}",
@@ -275,6 +294,7 @@ class ListStatement:
     kind: str
     items: tuple[_Item, ...]
     line: _Line
+    declared: tuple[str, ...] = ()  # every name listed, also those with a bad value
 
     _EXAMPLES: ClassVar[dict[str, str]] = {
         "start": "start A = 0.5 mol/L",
@@ -295,6 +315,7 @@ class ListStatement:
         body = code[match.end() :]
         errors: list[SchemeError] = []
         items: list[_Item] = []
+        declared: list[str] = []
         if not body.strip():
             return [
                 line.error(
@@ -317,6 +338,7 @@ class ListStatement:
                 )
                 continue
             name = m.group("name")
+            declared.append(name)
             rest = piece[m.end() :]
             rest_col0 = col0 + m.end()
             if kind == "formula":
@@ -343,7 +365,10 @@ class ListStatement:
                 errors.append(value)
                 continue
             items.append(_Item(name, col0 + 1, value))
-        return errors if errors else cls(kind, tuple(items), line)
+        if not errors:
+            return cls(kind, tuple(items), line, tuple(declared))
+        # keep the names: an excess species with a bad value is still in excess
+        return cls(kind, (), line, tuple(declared)), errors
 
 
 @dataclass(frozen=True)
@@ -706,6 +731,13 @@ def _unknown_arrow(line: _Line, arrow: str, column0: int) -> SchemeError:
     )
 
 
+_WHAT_LISTED = {
+    "start": "a start value",
+    "excess": "an excess concentration",
+    "feed": "a feed",
+    "formula": "a formula",
+    "molar_mass": "a molar mass",
+}
 #: An example of each statement that starts with a keyword (used in hints).
 _EXAMPLES = {
     "title": "title: Hydrolysis of an ester",
@@ -727,9 +759,17 @@ def _unknown_statement(line: _Line) -> SchemeError:
     if not isinstance(terms, SchemeError):
         _, rest = terms
         bad = _BAD_ARROW_RE.match(rest.lstrip())
+        column0 = len(code) - len(rest) + (len(rest) - len(rest.lstrip()))
         if bad:
-            column0 = len(code) - len(rest) + (len(rest) - len(rest.lstrip()))
             return _unknown_arrow(line, bad.group(0), column0)
+        if rest.strip() and not _DIRECTIVE_LIKE.match(code):
+            word = re.match(r"\S+", rest.lstrip()).group(0)
+            return line.error(
+                f"could not read this line: expected an arrow before {word!r}",
+                column0 + 1,
+                word,
+                "a reaction reads A -> B + 2 C  k1 = 0.1 1/s (or <=> for a reversible step)",
+            )
     word = re.match(r"[^\s:=]+|\S+", code[lead:])
     snippet = word.group(0) if word else code.strip()
     hint = (
@@ -754,8 +794,12 @@ def _unknown_statement(line: _Line) -> SchemeError:
 def _read_statements(text: str, source: str):
     statements = []
     errors: list[SchemeError] = []
-    for number, raw in enumerate(text.splitlines(), start=1):
-        line = _Line(source, number, raw.rstrip("\r\n"), _strip_comment(raw))
+    if text.startswith("\ufeff"):  # a byte-order mark left by some editors
+        text = text[1:]
+    # lines end at "\n" only (as editors count them), with an optional "\r" before it
+    for number, raw in enumerate(text.split("\n"), start=1):
+        raw = raw.removesuffix("\r")
+        line = _Line(source, number, raw, _strip_comment(raw))
         if not line.code.strip():
             continue
         for kind in _STATEMENTS:
@@ -764,6 +808,9 @@ def _read_statements(text: str, source: str):
                 continue
             if isinstance(result, list):
                 errors.extend(result)
+            elif isinstance(result, tuple):  # a statement kept despite some errors
+                statements.append(result[0])
+                errors.extend(result[1])
             else:
                 statements.append(result)
             break
@@ -854,11 +901,12 @@ class _Builder:
             raise SchemeErrors(self.errors)
 
         excess_items = {}
+        excess_names = set()
         for s in lists:
             if s.kind == "excess":
+                excess_names.update(s.declared)
                 for item in s.items:
                     excess_items.setdefault(item.name, (item, s.line))
-        excess_names = set(excess_items)
         self.excess_units = {}
         for name, (item, _) in excess_items.items():
             try:
@@ -1042,8 +1090,8 @@ class _Builder:
             for item in s.items:
                 if item.name not in order:
                     hint = _did_you_mean(item.name, order) or (
-                        "a species must take part in a reaction before it can be given a "
-                        f"{s.kind.replace('_', ' ')}"
+                        "a species must take part in a reaction before it can be given "
+                        + _WHAT_LISTED[s.kind]
                     )
                     self.error(
                         s.line,
@@ -1587,6 +1635,11 @@ def parse(text: str, source: str = "<text>", *, strict_balance: bool = True) -> 
     >>> s.species_names, float(s.rates[0])
     (['A', 'B'], 0.002)
     """
+    if not isinstance(text, str):
+        raise UsageError(
+            f"parse() reads scheme text (str), not {type(text).__name__}",
+            "decode bytes first, or use kinetics.load(path) for a file",
+        )
     statements, errors = _read_statements(text, source)
     return _Builder(statements, errors, source, text, strict_balance).build()
 
