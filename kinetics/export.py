@@ -13,6 +13,7 @@ from __future__ import annotations
 import contextlib
 import os
 import tempfile
+import threading
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -169,6 +170,35 @@ def write_parquet(frame: pd.DataFrame, path, metadata: dict | None = None) -> No
         pq.write_table(table, tmp)
 
 
+_XLSX_LOCK = threading.Lock()
+
+
+@contextlib.contextmanager
+def _exact_xlsx_numbers():
+    """While saving, let openpyxl write floats with ``repr`` (shortest round-trip form).
+
+    openpyxl formats numbers with ``"%.16g"``, one digit short of what a double
+    needs, so some values would read back one or two units in the last place off.
+    The cell writer's formatter is swapped for the duration of one save (under a
+    lock) and restored afterwards.
+    """
+    from openpyxl.cell import _writer
+
+    original = _writer.safe_string
+
+    def exact(value):
+        if isinstance(value, float) and value == value and abs(value) != float("inf"):
+            return repr(value)
+        return original(value)
+
+    with _XLSX_LOCK:
+        _writer.safe_string = exact
+        try:
+            yield
+        finally:
+            _writer.safe_string = original
+
+
 def _xlsx_value(value):
     if value is None:
         return None
@@ -259,5 +289,5 @@ def write_xlsx(
         for column in sh.columns:
             width = max((len(str(c.value)) for c in column if c.value is not None), default=8)
             sh.column_dimensions[column[0].column_letter].width = min(max(10, width + 2), 60)
-    with atomic_path(path) as tmp:
+    with atomic_path(path) as tmp, _exact_xlsx_numbers():
         book.save(tmp)
