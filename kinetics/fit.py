@@ -230,7 +230,8 @@ def _parameter(name: str, scheme: Scheme) -> Parameter:
 
 
 def _suggest(name: str, candidates, listing: str) -> str:
-    close = difflib.get_close_matches(name, list(candidates), n=1)
+    folded = [c for c in candidates if c.lower() == name.lower()]
+    close = folded or difflib.get_close_matches(name, list(candidates), n=1)
     text = f"{listing} " + ", ".join(candidates)
     return f"did you mean {close[0]!r}? ({text})" if close else text
 
@@ -1205,7 +1206,7 @@ def fit(
     # multi-start: a loose search from every start point, then polish the distinct optima
     candidates = []
     for x0 in _start_points(model, theta0, lower, upper, starts, seed):
-        res = _least_squares(model, x0, lower, upper, 1e-8, jacobian, max_nfev)
+        res = _least_squares(model, x0, lower, upper, 1e-6, jacobian, max_nfev)
         candidates.append(res)
     candidates.sort(key=lambda r: r.cost)
     polished = []
@@ -1254,11 +1255,22 @@ def fit(
     threshold += 1e-20 * scale_y
     alternatives = []
     for res, _ in polished[1:]:
-        if 2.0 * res.cost <= threshold and np.max(np.abs(res.x - theta)) > 1e-3:
+        # an alternative must be separated from the optimum by several standard errors
+        # (points along a flat valley are the near-singular case, reported as such)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            separation = np.abs(res.x - theta) / se_theta
+        if not np.all(np.isfinite(se_theta)) or not np.nanmax(separation) > 3.0:
+            continue
+        if any(np.max(np.abs(res.x - model.theta_of(a["_si"]))) < 1e-3 for a in alternatives):
+            continue
+        if 2.0 * res.cost <= threshold:
             vals = model.si_values(res.x) / scale
             alt = {q.name: float(v) for q, v in zip(params, vals, strict=True)}
             alt["sum_of_squares"] = 2.0 * float(res.cost)
+            alt["_si"] = dict(zip([q.name for q in params], model.si_values(res.x), strict=True))
             alternatives.append(alt)
+    for alt in alternatives:
+        del alt["_si"]
 
     # profile intervals
     profiles: list[tuple[float | None, float | None]] = []
@@ -1272,7 +1284,7 @@ def fit(
             profiles.append((None, None))
             continue
         lo, hi, better_found = _profile(
-            model, j, theta, ssr, s2, t_crit, se_theta[j], lower, upper, tol
+            model, j, theta, ssr, s2, t_crit, se_theta[j], lower, upper, cov_theta
         )
         if better_found is not None:
             profile_notes.append(better_found)
@@ -1377,21 +1389,29 @@ def _covariance(J, s2):
     return cov, cond, weak, zero_cols
 
 
-def _profile(model, j, theta, ssr, s2, t_crit, se_theta, lower, upper, tol):
-    """Both ends of the 95 % profile interval of coordinate ``j`` (None: unbounded)."""
+def _profile(model, j, theta, ssr, s2, t_crit, se_theta, lower, upper, cov_theta):
+    r"""Both ends of the 95 % profile interval of coordinate ``j`` (None: unbounded).
+
+    The profile :math:`\tau(\theta_j) = \mathrm{sign}(\theta_j - \hat\theta_j)
+    \sqrt{(S_j(\theta_j) - S(\hat\theta))/s^2}` (Bates & Watts 1988, sec. 6.1) is
+    solved for :math:`|\tau| = t_{0.975}(N - p)`, which is the F-based threshold
+    :math:`S = S(\hat\theta)(1 + F_{0.95}(1, N-p)/(N-p))`.
+    """
     p = theta.size
     others = np.delete(theta, j)
     note = None
-    state = {"x": others}
+    # conditional-mean direction of the other coordinates (linearised), for warm starts
+    with np.errstate(invalid="ignore", divide="ignore"):
+        slope = np.delete(cov_theta[:, j], j) / cov_theta[j, j]
+    if not np.all(np.isfinite(slope)):
+        slope = np.zeros(p - 1)
 
     def ssr_at(value):
         if p == 1:
             r = model.residuals(np.array([value]))
             return float(r @ r)
-        res = _least_squares(
-            model, state["x"], lower, upper, 1e-10, "exact", 100 * p, fixed=(j, value)
-        )
-        state["x"] = res.x
+        guess = others + slope * (value - theta[j])
+        res = _least_squares(model, guess, lower, upper, 1e-10, "exact", 100 * p, fixed=(j, value))
         return 2.0 * float(res.cost)
 
     def tau(value):
@@ -1407,7 +1427,6 @@ def _profile(model, j, theta, ssr, s2, t_crit, se_theta, lower, upper, tol):
     ends: list[float | None] = []
     limit = SEARCH_DECADES * math.log(10.0) if model.params[j].log else 50.0
     for sign in (-1.0, 1.0):
-        state["x"] = others
         h = t_crit * se_theta if se_theta > 0 else 0.1
         h = min(h, limit)
         a = theta[j]
@@ -1430,9 +1449,8 @@ def _profile(model, j, theta, ssr, s2, t_crit, se_theta, lower, upper, tol):
             ends.append(None)
             continue
         lo_, hi_ = (found, a) if sign < 0 else (a, found)
-        state["x"] = others
         root = scipy.optimize.brentq(
-            lambda v: tau(v) - t_crit, lo_, hi_, xtol=1e-12 * max(1.0, abs(theta[j])), rtol=1e-12
+            lambda v: tau(v) - t_crit, lo_, hi_, xtol=1e-9 * max(1.0, abs(theta[j])), rtol=1e-12
         )
         ends.append(root)
     return ends[0], ends[1], note
@@ -1593,8 +1611,8 @@ def _warnings(
         )
     for j, q in enumerate(params):
         e = estimates[q.name]
-        at_low = theta[j] <= lower[j] + 1e-6 * (upper[j] - lower[j])
-        at_high = theta[j] >= upper[j] - 1e-6 * (upper[j] - lower[j])
+        at_low = theta[j] <= lower[j] + 1e-2
+        at_high = theta[j] >= upper[j] - 1e-2
         if at_low or at_high:
             out.append(
                 f"{q.name} ran into the {'lower' if at_low else 'upper'} end of the search "
@@ -1672,6 +1690,14 @@ def _plausibility(scheme, model, runs, params, theta) -> list[str]:
         all_rates.append(rates)
     rates = np.max(np.array(all_rates), axis=0)
     seen = set()
+    fast = set()
+    for q in params:
+        own = np.array([st.constant == q.target for st in scheme.steps])
+        other = rates[~own]
+        other = other[other > 0]
+        if q.kind != "start" and np.any(own) and other.size:
+            if float(np.max(rates[own])) > RATIO_LIMIT * float(np.max(other)):
+                fast.add(q.target)
     for q in params:
         if q.kind == "start" or q.target in seen:
             continue
@@ -1689,7 +1715,13 @@ def _plausibility(scheme, model, runs, params, theta) -> list[str]:
                 f"({k:.3g} 1/s): the step is effectively instantaneous for these data, which "
                 "fix only a lower bound for it."
             )
-        elif other.size and k < float(np.min(other)) / RATIO_LIMIT:
+        elif (
+            other.size
+            and k < float(np.min(other)) / RATIO_LIMIT
+            and not any(
+                st.constant in fast for st, o in zip(scheme.steps, own, strict=True) if not o
+            )
+        ):
             out.append(
                 f"{label} came out more than a million times smaller than every other constant "
                 f"({k:.3g} 1/s): the step is effectively absent from these data, which fix "

@@ -427,7 +427,8 @@ def _concentration_factor(scheme, species: str, unit: str, column: str, source: 
 
 
 def _did_you_mean(name: str, candidates) -> str:
-    close = difflib.get_close_matches(name, list(candidates), n=1)
+    folded = [c for c in candidates if c.lower() == name.lower()]
+    close = folded or difflib.get_close_matches(name, list(candidates), n=1)
     listing = "the species are " + ", ".join(candidates)
     if close:
         return f"did you mean {close[0]!r}? ({listing})"
