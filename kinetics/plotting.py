@@ -136,6 +136,7 @@ def concentration_figure(
     notes: list[str] = []
     peak = 0.0
     positive_min = math.inf
+    marked = {"maximum": False, "half-life": False}
     for i, name in enumerate(names):
         j = solution.species.index(name)
         c = solution.concentrations[:, j]
@@ -158,6 +159,8 @@ def concentration_figure(
         half, maxima, species_notes = _marks(summary, name, t_end)
         notes.extend(species_notes)
         c0 = float(solution.concentrations[0, j])
+        marked["maximum"] |= bool(maxima)
+        marked["half-life"] |= half is not None and c0 > 0
         for ax in (ax_lin, ax_log):
             if half is not None and c0 > 0:
                 ax.plot([half], [c0 / 2], "o", ms=10, mfc="none", mec="black", mew=1.6, zorder=5)
@@ -165,11 +168,14 @@ def concentration_figure(
             for tm, cm in maxima:
                 ax.plot([tm], [cm], "*", ms=13, color="black", mec="white", mew=0.6, zorder=6)
         if half is not None and c0 > 0:
+            # half-lives labelled below-right, maxima above-right: they rarely collide
             ax_lin.annotate(
                 f"t½ {name} = {_fmt(half)} {time_unit}",
                 (half, c0 / 2),
-                xytext=(9, 7),
+                xytext=(10, -10),
                 textcoords="offset points",
+                ha="left",
+                va="top",
                 fontsize=8,
                 bbox={"boxstyle": "round,pad=0.2", "fc": "white", "ec": "0.6", "alpha": 0.9},
                 zorder=7,
@@ -178,8 +184,10 @@ def concentration_figure(
             ax_lin.annotate(
                 f"max {name} = {_fmt(cm)} at {_fmt(tm)} {time_unit}",
                 (tm, cm),
-                xytext=(9, 7),
+                xytext=(8, 8),
                 textcoords="offset points",
+                ha="left",
+                va="bottom",
                 fontsize=8,
                 bbox={"boxstyle": "round,pad=0.2", "fc": "white", "ec": "0.6", "alpha": 0.9},
                 zorder=7,
@@ -195,19 +203,19 @@ def concentration_figure(
     if peak > 0:
         floor = max(positive_min, peak * LOG_FLOOR)
         ax_log.set_ylim(floor / 2, peak * 2)
-    ax_log.set_title(f"logarithmic scale (down to {LOG_FLOOR:g} of the largest)", fontsize=10)
+    ax_log.set_title("logarithmic scale", fontsize=10)
     heading = title if title is not None else (solution.scheme.title or solution.scheme.source)
     if heading:
         fig.suptitle(heading, fontsize=12)
     handles, labels = ax_lin.get_legend_handles_labels()
     from matplotlib.lines import Line2D
 
-    if summary:
-        handles += [
-            Line2D([], [], marker="*", ls="none", color="black", ms=11),
-            Line2D([], [], marker="o", ls="none", mfc="none", mec="black", ms=9),
-        ]
-        labels += ["maximum", "half-life"]
+    if marked["maximum"]:
+        handles.append(Line2D([], [], marker="*", ls="none", color="black", ms=11))
+        labels.append("maximum")
+    if marked["half-life"]:
+        handles.append(Line2D([], [], marker="o", ls="none", mfc="none", mec="black", ms=9))
+        labels.append("half-life")
     fig.legend(handles, labels, loc="outside lower center", ncol=min(len(labels), 8), fontsize=9)
     if notes:
         fig.text(0.01, 0.005, "; ".join(notes), fontsize=7, color="0.3", ha="left", va="bottom")

@@ -233,7 +233,6 @@ def _summary_section(summary: dict | None, time_unit: str, conc_unit: str) -> st
         text = DEFINITIONS.get(key)
         if text:
             label, _, rest = text.partition(": ")
-            rest = rest[:1].upper() + rest[1:]
             parts.append(f"<dt>{escape(label)}</dt><dd>{escape(rest)}</dd>")
     parts.append("</dl>")
     parts.append(

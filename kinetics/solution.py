@@ -104,6 +104,74 @@ class Solution:
             data[f"{name} [{self.concentration_unit}]"] = self.concentrations[:, i]
         return pd.DataFrame(data)
 
+    def summary(self, time_unit: str = "s") -> dict[str, dict]:
+        """The exact summary quantities of every species, times in ``time_unit``.
+
+        Half-lives, maxima, long-time limits and the other quantities of
+        :func:`kinetics.analysis.summarise`, computed on the exact solution over
+        this solution's time window (not read off the grid).
+
+        Parameters
+        ----------
+        time_unit : str, optional
+            Unit of every time in the result; concentrations stay in
+            :attr:`concentration_unit`, areas are in concentration x ``time_unit``.
+
+        Returns
+        -------
+        dict of str to dict
+            Species name -> quantities (``half_life``, ``t_max``, ``c_max``, ``limit``...),
+            ``None`` where a quantity does not apply.
+        """
+        from .overview import compute_summary, summary_in_units
+
+        return summary_in_units(compute_summary(self) or {}, time_unit)
+
+    def plot(
+        self,
+        path=None,
+        *,
+        time_unit: str = "s",
+        summary: dict | str | None = "auto",
+        species: list[str] | None = None,
+    ):
+        """Plot concentration against time (linear and log panels); optionally save it.
+
+        Parameters
+        ----------
+        path : str or os.PathLike, optional
+            Write the figure there (``.png`` or ``.svg``), atomically.
+        time_unit : str, optional
+            Unit of the time axis.
+        summary : dict, "auto" or None, optional
+            Quantities to mark (maxima, half-lives) in ``time_unit``; ``"auto"``
+            computes them with :meth:`summary`; ``None`` marks nothing.
+        species : list of str, optional
+            Species to draw (default: all).
+
+        Returns
+        -------
+        matplotlib.figure.Figure
+        """
+        from .plotting import concentration_figure, save_figure
+
+        for name in species or []:
+            self[name]  # raises UsageError for an unknown name
+        if isinstance(summary, str):
+            if summary != "auto":
+                raise UsageError(f"summary={summary!r} is not known", "use 'auto', None or a dict")
+            summary = self.summary(time_unit)
+        fig = concentration_figure(self, time_unit, summary, species=species)
+        if path is not None:
+            from pathlib import Path
+
+            if Path(path).suffix.lower() not in (".png", ".svg"):
+                raise UsageError(
+                    f"cannot save a plot as {str(path)!r}", "use a .png or .svg file name"
+                )
+            save_figure(fig, path)
+        return fig
+
 
 def time_factor(unit: str) -> float:
     """Seconds per ``unit`` (``"min"`` -> 60.0); UsageError when it is not a time unit."""

@@ -1,0 +1,146 @@
+"""Plots: two panels with units, black-and-white readable styles, maxima and half-lives marked."""
+
+from __future__ import annotations
+
+import math
+import xml.etree.ElementTree as ET
+
+import numpy as np
+import pytest
+
+import kinetics
+from kinetics import plotting
+from kinetics.overview import compute_summary, summary_in_units
+
+# A -> B -> C, k1 = 0.1, k2 = 0.05 1/min, A0 = 1 mol/L.  Consecutive first-order reactions
+# (any physical chemistry textbook): t_max = ln(k1/k2)/(k1 - k2) = 13.863 min, B_max = 0.5.
+CHAIN = "title: Plot test\nA -> B  k1 = 0.1 1/min\nB -> C  k2 = 0.05 1/min\nstart A = 1 mol/L\n"
+T_MAX = math.log(2) / 0.05  # ln(0.1/0.05)/(0.1-0.05) [min]
+HALF_LIFE_A = math.log(2) / 0.1  # first-order half-life [min] (textbook)
+
+
+@pytest.fixture(scope="module")
+def solved():
+    scheme = kinetics.parse(CHAIN)
+    result = kinetics.solve(scheme, np.linspace(0.0, 3600.0, 121))
+    summary = summary_in_units(compute_summary(result), "min")
+    return scheme, result, summary
+
+
+def _marker_points(ax, marker):
+    points = []
+    for line in ax.get_lines():
+        if line.get_marker() == marker and line.get_linestyle() in ("None", "none", ""):
+            x, y = line.get_data()
+            points.extend(zip(np.atleast_1d(x), np.atleast_1d(y), strict=True))
+    return points
+
+
+def test_two_panels_with_units(solved):
+    _, result, summary = solved
+    fig = plotting.concentration_figure(result, "min", summary)
+    ax_lin, ax_log = fig.axes
+    for ax in (ax_lin, ax_log):
+        assert ax.get_xlabel() == "time [min]"
+        assert ax.get_ylabel() == "concentration [mol/L]"
+    assert ax_lin.get_yscale() == "linear"
+    assert ax_log.get_yscale() == "log"
+    assert ax_lin.get_xlim() == pytest.approx((0.0, 60.0), rel=1e-12, abs=0)
+
+
+def test_curves_differ_in_line_style_and_marker(solved):
+    _, result, _ = solved
+    fig = plotting.concentration_figure(result, "min")
+    curves = [line for line in fig.axes[0].get_lines() if line.get_label() in result.species]
+    assert [c.get_label() for c in curves] == ["A", "B", "C"]
+    styles = {(str(c.get_linestyle()), c.get_marker()) for c in curves}
+    assert len(styles) == 3  # each curve distinguishable without colour
+    assert len({c.get_marker() for c in curves}) == 3
+    assert len({str(c.get_linestyle()) for c in curves}) == 3
+
+
+def test_maximum_and_half_life_are_marked_where_theory_puts_them(solved):
+    _, result, summary = solved
+    fig = plotting.concentration_figure(result, "min", summary)
+    for ax in fig.axes:
+        stars = _marker_points(ax, "*")
+        assert len(stars) == 1
+        t, c = stars[0]
+        assert t == pytest.approx(T_MAX, rel=1e-9, abs=0)
+        assert c == pytest.approx(0.5, rel=1e-9, abs=0)
+        circles = _marker_points(ax, "o")
+        assert len(circles) == 1
+        t, c = circles[0]
+        assert t == pytest.approx(HALF_LIFE_A, rel=1e-9, abs=0)
+        assert c == pytest.approx(0.5, rel=0, abs=1e-15)
+    labels = [t.get_text() for t in fig.axes[0].texts]
+    assert any(s.startswith("max B = 0.5 at 13.86 min") for s in labels)
+    assert any(s.startswith("t½ A = 6.931 min") for s in labels)
+    legend = [t.get_text() for t in fig.legends[0].get_texts()]
+    assert legend == ["A", "B", "C", "maximum", "half-life"]
+
+
+def test_maximum_beyond_the_window_is_noted_not_drawn():
+    scheme = kinetics.parse(CHAIN)
+    result = kinetics.solve(scheme, np.linspace(0.0, 600.0, 21))  # 10 min < t_max
+    summary = summary_in_units(compute_summary(result), "min")
+    fig = plotting.concentration_figure(result, "min", summary)
+    assert _marker_points(fig.axes[0], "*") == []
+    notes = " ".join(t.get_text() for t in fig.texts)
+    assert "maximum of B: 0.5 at 13.86 (beyond the window)" in notes
+
+
+def test_species_selection(solved):
+    _, result, summary = solved
+    fig = plotting.concentration_figure(result, "h", summary, species=["B"])
+    assert [
+        line.get_label() for line in fig.axes[0].get_lines() if not line.get_label().startswith("_")
+    ] == ["B"]
+    assert fig.axes[0].get_xlabel() == "time [h]"
+
+
+def test_png_and_svg_files(solved, tmp_path):
+    from matplotlib.image import imread
+
+    _, result, summary = solved
+    png, svg = tmp_path / "c.png", tmp_path / "c.svg"
+    plotting.save_plot(png, result, "min", summary)
+    plotting.save_plot(svg, result, "min", summary)
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    image = imread(png)
+    assert image.shape[0] > 300
+    assert image.shape[1] > 600
+    root = ET.parse(svg).getroot()
+    assert root.tag.endswith("svg")
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["c.png", "c.svg"]
+
+
+def test_species_graph_drawing():
+    scheme = kinetics.parse(
+        "A -> B  k1 = 1 1/s\nB <=> C  kf = 1 1/s, kr = 2 1/s\nC -> A  k3 = 0.5 1/s\n"
+        "B + W -> D  k4 = 0.1 M-1 s-1\nexcess W = 2 mol/L\nstart A = 1 mol/L\n"
+        "feed B = 0.1 mol/L/s\n"
+    )
+    fig = plotting.species_graph_figure(scheme)
+    texts = [t.get_text() for t in fig.axes[0].texts]
+    for name in ("A", "B", "C", "D", "W"):
+        assert name in texts
+    for constant in ("k1", "kf", "kr", "k3", "k4"):
+        assert constant in texts
+    assert "feed" in texts
+    png = plotting.figure_bytes(fig, "png")
+    assert png[:8] == b"\x89PNG\r\n\x1a\n"
+
+
+def test_species_graph_too_large_is_not_drawn():
+    lines = [f"S{i} -> S{i + 1}  k{i} = 1 1/s" for i in range(70)] + ["start S0 = 1 mol/L"]
+    scheme = kinetics.parse("\n".join(lines))
+    assert plotting.species_graph_figure(scheme, max_species=60) is None
+
+
+def test_solution_plot_method(solved, tmp_path):
+    _, result, summary = solved
+    fig = result.plot(time_unit="min", summary=summary)
+    assert len(fig.axes) == 2
+    result.plot(tmp_path / "p.png", time_unit="min")
+    assert (tmp_path / "p.png").read_bytes()[:4] == b"\x89PNG"
