@@ -284,7 +284,7 @@ def sparse_chain(ks):
 
 
 def test_block_route_matches_dense_engine():
-    n = 160
+    n = 80
     assert n > DENSE_MAX
     ks = np.logspace(-3, 1, n)
     ks[40:44] = 0.05  # repeated constants
@@ -303,7 +303,7 @@ def test_block_route_matches_dense_engine():
 
 def test_block_route_permuted_scheme_with_cycle_and_feed():
     rng = np.random.default_rng(11)
-    n = 90
+    n = 70
     K = np.zeros((n, n))
     for i in range(n - 1):
         K[i + 1, i] = 10.0 ** rng.uniform(-2, 1)
