@@ -237,7 +237,7 @@ def _plan(
     log_target = math.log(target)
     for j in range(jmin, jmin + 12):
         y = beta / 2.0**j
-        if y < 1e-300:  # tiny norm: no squaring can help
+        if y < 1e-300 and best is not None:  # tiny norm: no squaring can help
             break
         base = j * math.log(2.0) + y
         # the pattern of T_m(Y)^(2^j) holds every path of length <= m 2^j
