@@ -161,7 +161,6 @@ class Solution:
             if summary != "auto":
                 raise UsageError(f"summary={summary!r} is not known", "use 'auto', None or a dict")
             summary = self.summary(time_unit)
-        fig = concentration_figure(self, time_unit, summary, species=species)
         if path is not None:
             from pathlib import Path
 
@@ -169,6 +168,8 @@ class Solution:
                 raise UsageError(
                     f"cannot save a plot as {str(path)!r}", "use a .png or .svg file name"
                 )
+        fig = concentration_figure(self, time_unit, summary, species=species)
+        if path is not None:
             save_figure(fig, path)
         return fig
 

@@ -1,0 +1,121 @@
+"""The model-level API: solve(scheme, times) -> Solution, to_frame, summary, time helpers."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+import kinetics
+from kinetics.errors import UsageError
+from kinetics.solution import check_times, time_factor, time_grid
+
+CHAIN = "A -> B  k1 = 0.3 1/s\nB -> C  k2 = 0.1 1/s\nstart A = 2 mol/L\n"
+
+
+def test_first_order_decay_against_the_closed_form():
+    scheme = kinetics.parse("A -> B  k = 0.25 1/s\nstart A = 1.5 mmol/L\n")
+    t = np.array([0.0, 0.5, 1.0, 4.0, 20.0])
+    result = kinetics.solve(scheme, t)
+    # A(t) = A0 exp(-k t), B = A0 - A (first-order kinetics, any textbook)
+    a = 1.5 * np.exp(-0.25 * t)
+    np.testing.assert_allclose(result["A"], a, rtol=1e-14, atol=0)
+    np.testing.assert_allclose(result["B"], 1.5 - a, rtol=1e-13, atol=1e-16)
+    assert result.concentration_unit == "mmol/L"
+    assert result.species == ["A", "B"]
+
+
+def test_consecutive_chain_against_bateman():
+    result = kinetics.solve(kinetics.parse(CHAIN), [0.0, 1.0, 5.0, 30.0])
+    t = result.times
+    k1, k2, a0 = 0.3, 0.1, 2.0
+    # Bateman (1910) for A -> B -> C with k1 != k2
+    b = a0 * k1 / (k2 - k1) * (np.exp(-k1 * t) - np.exp(-k2 * t))
+    c = a0 - a0 * np.exp(-k1 * t) - b
+    np.testing.assert_allclose(result["B"], b, rtol=1e-13, atol=0)
+    np.testing.assert_allclose(result["C"], c, rtol=1e-13, atol=0)
+    # time 0 returns the start values exactly (common practice, no source)
+    assert result.concentrations[0].tolist() == [2.0, 0.0, 0.0]
+
+
+def test_zero_order_feed_into_first_order_decay():
+    scheme = kinetics.parse("A -> B  k = 0.5 1/h\nfeed A = 0.2 mol/L/h\nstart B = 0 mol/L\n")
+    t_h = np.array([0.0, 1.0, 3.0, 10.0])
+    result = kinetics.solve(scheme, t_h * 3600.0)
+    # constant input f into a first-order sink: A(t) = f/k (1 - exp(-k t)) (textbook)
+    expected = 0.2 / 0.5 * (1.0 - np.exp(-0.5 * t_h))
+    np.testing.assert_allclose(result["A"], expected, rtol=1e-13, atol=0)
+
+
+def test_to_frame_units_and_values():
+    result = kinetics.solve(kinetics.parse(CHAIN), [0.0, 30.0, 90.0])
+    frame = result.to_frame("min")
+    assert frame.columns.tolist() == ["time [min]", "A [mol/L]", "B [mol/L]", "C [mol/L]"]
+    assert frame["time [min]"].tolist() == [0.0, 0.5, 1.5]
+    np.testing.assert_array_equal(frame.iloc[:, 1:].to_numpy(), result.concentrations)
+    assert result.to_frame().columns[0] == "time [s]"
+
+
+def test_summary_method_in_the_chosen_unit():
+    result = kinetics.solve(kinetics.parse(CHAIN), np.linspace(0.0, 60.0, 61))
+    summary = result.summary("min")
+    # first-order half-life ln2/k1 (textbook), in minutes
+    assert summary["A"]["half_life"] == pytest.approx(math.log(2) / 0.3 / 60, rel=1e-9, abs=0)
+    # consecutive reactions: t_max = ln(k1/k2)/(k1-k2) (any physical chemistry textbook)
+    assert summary["B"]["t_max"] == pytest.approx(math.log(3) / 0.2 / 60, rel=1e-9, abs=0)
+    assert summary["C"]["limit"] == pytest.approx(2.0, rel=1e-12, abs=0)
+
+
+def test_unknown_species_is_a_usage_error():
+    result = kinetics.solve(kinetics.parse(CHAIN), [0.0, 1.0])
+    with pytest.raises(UsageError, match="Q is not a species of this scheme; species are A, B, C"):
+        result["Q"]
+    with pytest.raises(UsageError, match="not a species"):
+        result.plot(species=["Q"], summary=None)
+
+
+def test_plot_refuses_other_file_types(tmp_path):
+    result = kinetics.solve(kinetics.parse(CHAIN), [0.0, 1.0])
+    with pytest.raises(UsageError, match=r"use a \.png or \.svg file name"):
+        result.plot(tmp_path / "x.pdf", summary=None)
+    assert list(tmp_path.iterdir()) == []
+
+
+@pytest.mark.parametrize(
+    ("times", "message"),
+    [
+        ([], "the time list is empty"),
+        ([0.0, -1.0], "a time is negative"),
+        ([0.0, 2.0, 1.0], "not in increasing order"),
+        ([0.0, float("nan")], "not a finite number"),
+        ([0.0, float("inf")], "not a finite number"),
+        (["zero", "one"], "the times are not numbers"),
+    ],
+)
+def test_bad_times(times, message):
+    with pytest.raises(UsageError, match=message):
+        check_times(times)
+    with pytest.raises(UsageError, match=message):
+        kinetics.solve(kinetics.parse(CHAIN), times)
+
+
+def test_time_grid():
+    grid = time_grid(90.0, 4)
+    assert grid.tolist() == [0.0, 30.0, 60.0, 90.0]
+    with pytest.raises(UsageError, match="the end time must be positive"):
+        time_grid(0.0)
+    with pytest.raises(UsageError, match="at least 2 points"):
+        time_grid(10.0, 1)
+
+
+def test_time_factor():
+    # SI definitions of minute, hour and day (common practice, no source)
+    assert time_factor("s") == 1.0
+    assert time_factor("min") == 60.0
+    assert time_factor("h") == 3600.0
+    assert time_factor("d") == 86400.0
+    with pytest.raises(UsageError, match="'kg' is not a unit of time"):
+        time_factor("kg")
+    with pytest.raises(UsageError, match="unknown time unit 'bananas'"):
+        time_factor("bananas")
