@@ -49,11 +49,11 @@ def _style(i: int) -> dict:
     }
 
 
-def _new_figure(width: float, height: float) -> Figure:
+def _new_figure(width: float, height: float, layout: str | None = "constrained") -> Figure:
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
-    fig = Figure(figsize=(width, height), layout="constrained")
+    fig = Figure(figsize=(width, height), layout=layout)
     FigureCanvasAgg(fig)
     return fig
 
@@ -282,7 +282,9 @@ def species_graph_figure(scheme: Scheme, *, max_species: int = 60) -> Figure | N
         for r, name in enumerate(members):
             pos[name] = (col * 2.4, 1.2 * ((len(members) - 1) / 2 - r))
     scale = min(1.0, 12.0 / (2.4 * n_cols + 1.6), 9.0 / (1.2 * n_rows + 2.4))
-    fig = _new_figure(scale * (2.4 * (n_cols - 1) + 1.6), scale * (1.2 * (n_rows - 1) + 2.6))
+    fig = _new_figure(
+        scale * (2.4 * (n_cols - 1) + 1.6), scale * (1.2 * (n_rows - 1) + 2.6), layout=None
+    )
     ax = fig.subplots()
     ax.set_axis_off()
     label_box = {"boxstyle": "round,pad=0.35", "fc": "white", "ec": "black", "lw": 1.3}
@@ -370,10 +372,15 @@ def species_graph_figure(scheme: Scheme, *, max_species: int = 60) -> Figure | N
     return fig
 
 
+def _tight(fig: Figure) -> str | None:
+    # constrained layout already fits a figure to its canvas; others are cropped to their content
+    return None if fig.get_layout_engine() is not None else "tight"
+
+
 def figure_bytes(fig: Figure, fmt: str = "png", dpi: int = 130) -> bytes:
     """The figure encoded as ``png`` or ``svg`` bytes."""
     buffer = io.BytesIO()
-    fig.savefig(buffer, format=fmt, dpi=dpi, metadata=_metadata(fmt), bbox_inches="tight")
+    fig.savefig(buffer, format=fmt, dpi=dpi, metadata=_metadata(fmt), bbox_inches=_tight(fig))
     return buffer.getvalue()
 
 
@@ -393,7 +400,7 @@ def save_figure(fig: Figure, path, dpi: int = 150) -> None:
 
     fmt = Path(path).suffix.lower().lstrip(".")
     with atomic_path(path) as tmp:
-        fig.savefig(tmp, format=fmt, dpi=dpi, metadata=_metadata(fmt), bbox_inches="tight")
+        fig.savefig(tmp, format=fmt, dpi=dpi, metadata=_metadata(fmt), bbox_inches=_tight(fig))
 
 
 def save_plot(

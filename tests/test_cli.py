@@ -335,3 +335,34 @@ def test_no_arguments_shows_help_with_status_2(capsys):
 def test_debug_flag_anywhere_is_moved_to_the_front():
     assert cli._split_debug(["solve", "x", "--debug"]) == (["--debug", "solve", "x"], True)
     assert cli._split_debug(["solve", "--", "--debug"]) == (["solve", "--", "--debug"], False)
+
+
+# ---------------------------------------------------------------------------------------
+# report
+
+
+def test_report_command_prints_the_caution_and_honours_options(chain, capsys, tmp_path):
+    out = tmp_path / "r.html"
+    status, stdout, err = run(
+        capsys,
+        "report",
+        chain,
+        "--times",
+        "0,10,20,40 min",
+        "--species",
+        "B",
+        "--title",
+        "Quench study <draft>",
+        "--out",
+        out,
+    )
+    assert status == 0, err
+    assert stdout == ""
+    assert CAUTION in err
+    assert f"wrote {out}" in err
+    text = out.read_text(encoding="utf-8")
+    assert "<h1>Quench study &lt;draft&gt;</h1>" in text
+    table = text.split("<h3>Table (4 points")[1]
+    assert "B [mol/L]" in table
+    assert "A [mol/L]" not in table
+    assert "times = 0,10,20,40 min" in text
