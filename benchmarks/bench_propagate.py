@@ -1,0 +1,237 @@
+"""Speed and accuracy of the propagation engine, as ratios measured in one run.
+
+Usage::
+
+    python benchmarks/bench_propagate.py            # speed (about a minute)
+    python benchmarks/bench_propagate.py --accuracy 300   # + random stiff networks
+
+Baselines (measured in the same run): scipy's solve_ivp (LSODA, rtol 1e-10,
+analytic Jacobian), scipy.sparse.linalg.expm_multiply on the same grid and one
+dense scipy.linalg.expm.  Reference values: mpmath at 50 digits.
+"""
+
+from __future__ import annotations
+
+import argparse
+import time
+import tracemalloc
+
+import mpmath
+import numpy as np
+import scipy.linalg
+import scipy.sparse
+import scipy.sparse.linalg
+from scipy.integrate import solve_ivp
+
+from kinetics.propagate import expm_nonnegative_certified, propagate, propagate_batch
+
+
+def best_of(fn, repeat=5):
+    times = []
+    out = None
+    for _ in range(repeat):
+        t0 = time.perf_counter()
+        out = fn()
+        times.append(time.perf_counter() - t0)
+    return min(times), out
+
+
+def branched_10():
+    """An invented 10-species branched scheme with a reversible end pair."""
+    K = np.zeros((10, 10))
+    steps = [(0, 1, 0.5), (0, 2, 0.2), (1, 3, 0.1), (2, 3, 0.05), (3, 4, 0.02), (3, 5, 0.03),
+             (4, 6, 0.01), (5, 6, 0.2), (6, 7, 0.005), (7, 8, 0.5), (8, 9, 0.001),
+             (9, 8, 0.0005)]  # fmt: skip
+    for src, dst, k in steps:
+        K[dst, src] += k
+        K[src, src] -= k
+    return K
+
+
+def mp_grid(K, c0, t):
+    """Reference on a uniform grid: mpmath exp(K dt) at 50 digits, applied repeatedly."""
+    with mpmath.workdps(50):
+        dt = mpmath.mpf(t[1]) - mpmath.mpf(t[0])
+        F = mpmath.expm(mpmath.matrix(K.tolist()) * dt)
+        v = mpmath.matrix(c0.tolist())
+        out = [v]
+        for _ in range(len(t) - 1):
+            v = F * v
+            out.append(v)
+        return out
+
+
+def worst_rel(C, ref, floor=1e-300):
+    worst = 0.0
+    with mpmath.workdps(50):
+        for k, v in enumerate(ref):
+            for i in range(C.shape[1]):
+                if v[i] > floor:
+                    worst = max(worst, float(abs(mpmath.mpf(float(C[k, i])) - v[i]) / v[i]))
+    return worst
+
+
+def bench_small():
+    print("== 10-species branched scheme, 201 points to 1000 s ==")
+    K = branched_10()
+    c0 = np.zeros(10)
+    c0[0] = 1.0
+    t = np.linspace(0.0, 1000.0, 201)
+
+    def lsoda():
+        s = solve_ivp(lambda _t, y: K @ y, (0, 1000), c0, method="LSODA", t_eval=t,
+                      rtol=1e-10, atol=1e-20, jac=lambda _t, _y: K)  # fmt: skip
+        return s.y.T
+
+    t_ls, y_ls = best_of(lsoda)
+    ref = mp_grid(K, c0, t)
+    print(f"LSODA rtol 1e-10: {t_ls * 1e3:8.2f} ms   worst rel. error {worst_rel(y_ls, ref):.2e}")
+    for prec in ("double", "double-double"):
+        t_p, c = best_of(lambda prec=prec: propagate(K, c0, t, precision=prec), repeat=20)
+        print(f"propagate {prec:13s}: {t_p * 1e3:6.2f} ms   worst rel. error "
+              f"{worst_rel(c, ref):.2e}   LSODA/propagate = {t_ls / t_p:6.1f}x")  # fmt: skip
+
+
+def chain_matrix(n):
+    k = np.logspace(-4, 2, n)
+    rows = np.r_[np.arange(n), np.arange(1, n)]
+    cols = np.r_[np.arange(n), np.arange(n - 1)]
+    return scipy.sparse.csr_array((np.r_[-k, k[:-1]], (rows, cols)), shape=(n, n)), k
+
+
+def bateman_mp(k, t, upto):
+    """Bateman 1910 for the first members of the chain, in mpmath at 400 digits."""
+    with mpmath.workdps(400):
+        ks = [mpmath.mpf(float(x)) for x in k[:upto]]
+        T = mpmath.mpf(float(t))
+        out = []
+        for n in range(1, upto + 1):
+            s = mpmath.mpf(0)
+            for i in range(n):
+                den = mpmath.mpf(1)
+                for j in range(n):
+                    if j != i:
+                        den *= ks[j] - ks[i]
+                s += mpmath.exp(-ks[i] * T) / den
+            prod = mpmath.mpf(1)
+            for x in ks[: n - 1]:
+                prod *= x
+            out.append(prod * s)
+        return out
+
+
+def bench_chain():
+    print("\n== 2000-species chain, k log-spaced 1e-4..1e2 1/s, 101 points to 1000 s ==")
+    n = 2000
+    K, k = chain_matrix(n)
+    c0 = np.zeros(n)
+    c0[0] = 1.0
+    t = np.linspace(0.0, 1000.0, 101)
+    t_p, c = best_of(lambda: propagate(K, c0, t), repeat=3)
+    tracemalloc.start()
+    propagate(K, c0, t)
+    peak = tracemalloc.get_traced_memory()[1] / 1e6
+    tracemalloc.stop()
+    t0 = time.perf_counter()
+    em = scipy.sparse.linalg.expm_multiply(K.tocsc(), c0, start=0.0, stop=1000.0, num=101,
+                                           endpoint=True)  # fmt: skip
+    t_em = time.perf_counter() - t0
+    Kd = K.toarray()
+    t0 = time.perf_counter()
+    scipy.linalg.expm(Kd * 10.0)
+    t_ex = time.perf_counter() - t0
+    print(f"propagate:        {t_p:7.3f} s  negatives {int((c < 0).sum())}  peak {peak:.0f} MB")
+    print(f"expm_multiply:    {t_em:7.3f} s  negatives {int((em < 0).sum())}  "
+          f"ratio {t_em / t_p:5.1f}x")  # fmt: skip
+    print(f"one dense expm:   {t_ex:7.3f} s  ratio {t_ex / t_p:5.1f}x")
+    worst = 0.0
+    for j in (10, 50, 100):
+        ref = bateman_mp(k, t[j], 40)
+        with mpmath.workdps(50):
+            for i in range(40):
+                if ref[i] > 1e-280:
+                    worst = max(worst, float(abs(mpmath.mpf(float(c[j, i])) - ref[i]) / ref[i]))
+    print(f"first 40 species at t = 100, 500, 1000 s vs Bateman (mpmath, 400 digits): "
+          f"worst rel. error {worst:.2e}")  # fmt: skip
+    mass = np.abs(c.sum(axis=1) + 0.0)
+    print(f"total at 1000 s (leaky end): {mass[-1]:.16f}")
+
+
+def bench_batch():
+    print("\n== batch: 10,000 parameter sets of the 10-species scheme, 201 points ==")
+    rng = np.random.default_rng(5)
+    base = branched_10()
+    off = base.copy()
+    np.fill_diagonal(off, 0.0)
+    b = 10000
+    Ks = off[None] * 10.0 ** rng.uniform(-0.5, 0.5, (b, 10, 10))
+    for i in range(b):
+        Ks[i] -= np.diag(Ks[i].sum(axis=0))
+    c0 = np.zeros(10)
+    c0[0] = 1.0
+    t = np.linspace(0.0, 1000.0, 201)
+    for prec in ("double", "double-double"):
+        nb = b if prec == "double" else 1000
+        t0 = time.perf_counter()
+        X = propagate_batch(Ks[:nb], c0, t, precision=prec)
+        dt = time.perf_counter() - t0
+        one = propagate(Ks[0], c0, t, precision=prec)
+        same = np.array_equal(X[0], one)
+        print(f"{prec:13s}: {nb} sets in {dt:6.2f} s ({dt / nb * 1e3:.2f} ms per set), "
+              f"member 0 bit-identical to propagate(): {same}")  # fmt: skip
+
+
+def random_stiff_network(rng):
+    n = int(rng.integers(5, 15))
+    K = np.zeros((n, n))
+    for i in range(n):
+        for j in range(n):
+            if i != j and rng.random() < 0.4:
+                K[i, j] = 10.0 ** rng.uniform(-8, 8)
+    K -= np.diag(K.sum(axis=0))
+    return K, 10.0 ** rng.uniform(-6, 3)
+
+
+def accuracy(cases):
+    print(f"\n== {cases} random stiff networks vs mpmath.expm (50 digits) ==")
+    rng = np.random.default_rng(1)
+    ours, theirs, neg = [], [], 0
+    for _ in range(cases):
+        K, t = random_stiff_network(rng)
+        F, _ = expm_nonnegative_certified(K, t)
+        S = scipy.linalg.expm(K * t)
+        neg += int((S < 0).any())
+        with mpmath.workdps(50):
+            E = mpmath.expm(mpmath.matrix(K.tolist()) * mpmath.mpf(t))
+            wo = ws = 0.0
+            for i in range(K.shape[0]):
+                for j in range(K.shape[0]):
+                    e = E[i, j]
+                    if e > 1e-300:
+                        wo = max(wo, float(abs(mpmath.mpf(float(F[i, j])) - e) / e))
+                        ws = max(ws, float(abs(mpmath.mpf(float(S[i, j])) - e) / e))
+        ours.append(wo)
+        theirs.append(ws)
+        assert F.min() >= 0
+    for name, e in (("propagate engine", ours), ("scipy.linalg.expm", theirs)):
+        e = np.array(e)
+        print(f"{name:18s}: median {np.median(e):.1e}  90% {np.quantile(e, 0.9):.1e}  "
+              f"worst {e.max():.1e}")  # fmt: skip
+    print(f"scipy.linalg.expm returned negative entries in {neg} of {cases} cases; engine: 0")
+
+
+def main():
+    ap = argparse.ArgumentParser(description=__doc__)
+    ap.add_argument("--accuracy", type=int, default=0, help="number of random networks")
+    ap.add_argument("--skip-chain", action="store_true")
+    args = ap.parse_args()
+    bench_small()
+    if not args.skip_chain:
+        bench_chain()
+    bench_batch()
+    if args.accuracy:
+        accuracy(args.accuracy)
+
+
+if __name__ == "__main__":
+    main()
