@@ -989,9 +989,15 @@ def _build_runs(scheme, datasets, params, weights) -> list[_Run]:
 
 def _initial_values(scheme, params, runs) -> dict[str, float]:
     out = {}
+    positive = np.concatenate([r.times[r.times > 0] for r in runs])
+    rate_guess = 1.0 / float(np.median(positive)) if positive.size else 1.0
     for p in params:
         if p.kind == "constant":
-            out[p.name] = scheme.constants[p.target].si_value(scheme.temperature)
+            value = scheme.constants[p.target].si_value(scheme.temperature)
+            # a constant written as 0 cannot start a search in ln k: start at 1/(typical time)
+            if not value > 0:
+                value = rate_guess / _excess_factor(scheme, p.target)
+            out[p.name] = value
         elif p.kind == "prefactor":
             out[p.name] = float(scheme.constants[p.target].arrhenius.prefactor_si)
         elif p.kind == "energy":
@@ -1002,6 +1008,15 @@ def _initial_values(scheme, params, runs) -> dict[str, float]:
                 value = _start_guess(p.target, runs)
             out[p.name] = value
     return out
+
+
+def _excess_factor(scheme, constant: str) -> float:
+    """Excess-concentration factor [SI] of the first step that uses ``constant``."""
+    rates = step_rates(scheme, constants={c: 1.0 for c in scheme.constants})
+    for rate, st in zip(rates, scheme.steps, strict=True):
+        if st.constant == constant and rate > 0:
+            return float(rate)
+    return 1.0
 
 
 def _start_guess(species, runs) -> float:
@@ -1205,13 +1220,24 @@ def fit(
 
     # multi-start: a loose search from every start point, then polish the distinct optima
     candidates = []
-    for x0 in _start_points(model, theta0, lower, upper, starts, seed):
-        res = _least_squares(model, x0, lower, upper, 1e-6, jacobian, max_nfev)
+    points = _start_points(model, theta0, lower, upper, starts, seed)
+    loose = 1e-6 if len(points) > 1 else tol  # a single start goes straight to the optimum
+    for x0 in points:
+        res = _least_squares(model, x0, lower, upper, loose, jacobian, max_nfev)
         candidates.append(res)
     candidates.sort(key=lambda r: r.cost)
     polished = []
+    relevant = 2.0 * candidates[0].cost
+    if n_points > p:  # beyond the joint 95 % region of the best point nothing can matter
+        relevant *= 1.0 + 2.0 * p / (n_points - p) * scipy.stats.f.ppf(0.95, p, n_points - p)
+    relevant += 1e-20 * float(sum(np.sum((r.y / r.sigma) ** 2) for r in runs))
     for res in candidates:
+        if polished and 2.0 * res.cost > relevant:
+            break
         if any(np.max(np.abs(res.x - q.x)) < 1e-3 for q, _ in polished):
+            continue
+        if loose == tol:
+            polished.append((res, res))
             continue
         better = _least_squares(model, res.x, lower, upper, tol, jacobian, max_nfev)
         if better.cost > res.cost:
@@ -1426,33 +1452,46 @@ def _profile(model, j, theta, ssr, s2, t_crit, se_theta, lower, upper, cov_theta
 
     ends: list[float | None] = []
     limit = SEARCH_DECADES * math.log(10.0) if model.params[j].log else 50.0
+    goal = t_crit
     for sign in (-1.0, 1.0):
-        h = t_crit * se_theta if se_theta > 0 else 0.1
-        h = min(h, limit)
-        a = theta[j]
-        found = None
+        bound = lower[j] if sign < 0 else upper[j]
+        reach = min(limit, abs(bound - theta[j]))
+        # distances d from the optimum; tau grows about linearly with d (exactly so for a
+        # linear model), so extrapolate from the linearised interval to bracket the end
+        a, fa = 0.0, -goal
+        d = min(t_crit * se_theta if se_theta > 0 else 0.1, reach)
+        fd = math.nan
         while True:
-            b = theta[j] + sign * h
-            bound = lower[j] if sign < 0 else upper[j]
-            clipped = (b < bound) if sign < 0 else (b > bound)
-            if clipped:
-                b = bound
-            tb = tau(b)
-            if tb >= t_crit:
-                found = b
+            fd = tau(theta[j] + sign * d) - goal
+            if fd >= 0 or d >= reach:
                 break
-            if clipped or h >= limit:
-                break
-            a = b
-            h *= 2.0
-        if found is None:
-            ends.append(None)
+            a, fa = d, fd
+            grow = 1.05 * goal / (fd + goal) if fd + goal > 0 else 4.0
+            d = min(reach, d * min(max(grow, 1.2), 4.0))
+        if fd < 0:
+            ends.append(None)  # the data set no limit on this side within the search range
             continue
-        lo_, hi_ = (found, a) if sign < 0 else (a, found)
-        root = scipy.optimize.brentq(
-            lambda v: tau(v) - t_crit, lo_, hi_, xtol=1e-9 * max(1.0, abs(theta[j])), rtol=1e-12
-        )
-        ends.append(root)
+        b, fb = d, fd
+        side = 0
+        for _ in range(60):  # Illinois false position on [a, b]
+            if fb <= 1e-7 * goal or b - a <= 1e-10 * max(1.0, abs(theta[j])):
+                break
+            c = (a * fb - b * fa) / (fb - fa)
+            fc = tau(theta[j] + sign * c) - goal
+            if abs(fc) <= 1e-7 * goal:
+                b, fb = c, fc
+                break
+            if fc > 0:
+                b, fb = c, fc
+                if side == 1:
+                    fa /= 2.0
+                side = 1
+            else:
+                a, fa = c, fc
+                if side == -1:
+                    fb /= 2.0
+                side = -1
+        ends.append(theta[j] + sign * b)
     return ends[0], ends[1], note
 
 
