@@ -110,7 +110,7 @@ def render_check(scheme: Scheme, report: dict) -> None:
 
     table = Table(title="Species (matrix order)", title_justify="left")
     for header in ("species", "role", "formula", "molar mass [g/mol]", f"start [{unit}]"):
-        table.add_column(header)
+        table.add_column(_escape(header))
     for d in report["species_details"]:
         start = d["start"] if d["excess"] is None else d["excess"]
         label = _num(start) if d["excess"] is None else f"{_num(start)} (held)"
@@ -125,7 +125,7 @@ def render_check(scheme: Scheme, report: dict) -> None:
 
     steps = Table(title="Steps", title_justify="left")
     for header in ("line", "step", "constant", "as written", "k [1/s]"):
-        steps.add_column(header)
+        steps.add_column(_escape(header))
     for r in report["reactions"]:
         steps.add_row(
             str(r["line"]),

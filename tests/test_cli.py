@@ -366,3 +366,10 @@ def test_report_command_prints_the_caution_and_honours_options(chain, capsys, tm
     assert "B [mol/L]" in table
     assert "A [mol/L]" not in table
     assert "times = 0,10,20,40 min" in text
+
+
+def test_check_tables_keep_the_units_in_their_headers(chain, capsys):
+    status, out, err = run(capsys, "check", chain)
+    assert status == 0, err
+    for header in ("molar mass [g/mol]", "start [mol/L]", "k [1/s]"):
+        assert header in out  # brackets are not swallowed as rich markup
