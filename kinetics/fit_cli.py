@@ -21,7 +21,7 @@ if TYPE_CHECKING:
 
     from .fit import FitResult
 
-__all__ = ["fit", "fit_document", "fit_figure", "save_fit_plot"]
+__all__ = ["fit", "fit_document", "fit_figure", "render_fit", "save_fit_plot"]
 
 FIT_OUTPUTS = {
     ".json": "fit results (estimates, intervals, statistics, warnings)",
@@ -158,6 +158,7 @@ def fit(
     time_unit,
     as_json,
 ):
+    """Run ``kinetics fit`` (the help text is :data:`_HELP`); exit status 2 on bad input."""
     from . import export
     from .fit import fit as run_fit
     from .measurements import parse_condition, read_measurements
@@ -217,7 +218,19 @@ def fit(
 
 
 def fit_document(result: FitResult, scheme_file=None) -> dict:
-    """The fit.json document: :meth:`FitResult.to_dict` plus provenance."""
+    """The fit.json document: :meth:`FitResult.to_dict` plus ``scheme`` and ``software``.
+
+    Parameters
+    ----------
+    result : FitResult
+    scheme_file : str or os.PathLike, optional
+        The scheme file as given on the command line.
+
+    Returns
+    -------
+    dict
+        JSON-ready (no NaN or infinity).
+    """
     from . import __version__
 
     doc = result.to_dict()
@@ -233,7 +246,17 @@ def _g(x, digits: int = 5) -> str:
 
 
 def render_fit(result: FitResult) -> str:
-    """A plain-text summary: estimates with intervals, statistics, warnings."""
+    """A plain-text summary: estimates with intervals, statistics, correlation, warnings.
+
+    Parameters
+    ----------
+    result : FitResult
+
+    Returns
+    -------
+    str
+        Lines without colour codes (safe for pipes and files).
+    """
     rows = [("parameter", "value", "unit", "std. error", "95 % (linear)", "95 % (profile)", "p")]
     for e in result.estimates.values():
         lo, hi = e.ci95_profile
