@@ -178,7 +178,7 @@ _REL_NOISE_D = 1e-12
 # Same for a concentration compared with a level.
 _REL_NOISE_C = 1e-12
 # Log-spaced scan: points per decade, and its span in units of the time scales.
-_PER_DECADE = 24
+_PER_OCTAVE = 8  # about 27 per decade
 _SCAN_FAST = 1e-3  # first scan point: this many of the fastest time constants
 _SCAN_SLOW = 50.0  # last scan point: this many of the slowest time constants
 _MAX_LOG_POINTS = 1500
@@ -191,6 +191,33 @@ _NEARLY = 1e-3
 
 _NEVER, _DECAY, _CONST = -2, -1, 0  # growth degree of a class: t^q (see _Structure)
 _EXP = 10**9
+
+
+def _hermite_basis(x):
+    """Cubic Hermite basis h00, h10, h01, h11 on [0, 1]."""
+    x2, x3 = x * x, x * x * x
+    return 2 * x3 - 3 * x2 + 1, x3 - 2 * x2 + x, -2 * x3 + 3 * x2, x3 - x2
+
+
+def _hermite_root(a, b, ga, gb, gpa, gpb) -> np.ndarray:
+    """First root in (a, b) of the cubic Hermite model of g (values and slopes at both
+    ends, opposite signs at the ends); falls back to the secant point."""
+    h = b - a
+    s = np.linspace(0.0, 1.0, 65)[None, :]
+    h00, h10, h01, h11 = _hermite_basis(s)
+    P = h00 * ga[:, None] + h10 * (h * gpa)[:, None] + h01 * gb[:, None] + h11 * (h * gpb)[:, None]
+    flip = np.sign(P) != np.sign(ga)[:, None]
+    j = np.argmax(flip, axis=1)
+    ok = flip[np.arange(j.size), j] & (j > 0)
+    jj = np.maximum(j, 1)
+    rows = np.arange(j.size)
+    p0, p1 = P[rows, jj - 1], P[rows, jj]
+    s0, s1 = s[0, jj - 1], s[0, jj]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        sr = np.where(ok, s0 - p0 * (s1 - s0) / (p1 - p0), ga / (ga - gb))
+    sr = np.where(np.isfinite(sr), sr, 0.5)
+    sr = np.clip(sr, 1e-6, 1 - 1e-6)
+    return a + sr * h
 
 
 # ---------------------------------------------------------------------------------------
@@ -927,26 +954,40 @@ class _Context:
         return t_lo, t_hi
 
     def _base_times(self) -> np.ndarray:
+        """Scan times: a log-like grid made of octaves [2^e, 2^(e+1)) with 8 equal steps
+        each (about 27 points per decade).  All points are exact binary multiples of their
+        octave's step, so the engine needs one exponential per octave (it reuses the
+        exponential of a repeated step)."""
         span = self._scan_span()
         if span is None:
             return np.array([0.0, self.t_window or 1.0])
         t_lo, t_hi = span
-        m = math.ceil(_PER_DECADE * math.log10(t_hi / t_lo)) + 1
-        m = min(max(m, 50), _MAX_LOG_POINTS)
-        parts = [np.zeros(1), np.geomspace(t_lo, t_hi, m)]
-        # damped oscillations (complex pairs from cycles): sample every 1/8 period
+        e0 = math.floor(math.log2(t_lo))
+        e1 = math.ceil(math.log2(t_hi))
+        per = _PER_OCTAVE
+        while per > 2 and (e1 - e0) * per > _MAX_LOG_POINTS:
+            per //= 2
+        parts = [np.zeros(1)]
+        for e in range(e0, e1):
+            base = 2.0**e
+            parts.append(base + (base / per) * np.arange(per))
+        parts.append(np.array([2.0**e1]))
+        # damped oscillations (complex pairs from cycles): about 8 points per period
         osc = []
         for cl in self.struct.classes:
             for ev in cl.eigenvalues:
                 a, b = -ev.real, abs(ev.imag)
                 if b > 0.2 * abs(a) and b > 0:
                     t_end = min(t_hi, 35.0 / a) if a > 0 else t_hi
-                    osc.append((2 * math.pi / b / 8, t_end))
-        if osc:
+                    step = 2.0 ** math.floor(math.log2(2 * math.pi / b / 8))
+                    osc.append([step, t_end])
+        total = sum(t_end / step for step, t_end in osc)
+        while total > _MAX_OSC_POINTS:
+            for o in osc:
+                o[0] *= 2
             total = sum(t_end / step for step, t_end in osc)
-            stretch = max(1.0, total / _MAX_OSC_POINTS)
-            for step, t_end in osc:
-                parts.append(np.arange(step * stretch, t_end, step * stretch))
+        for step, t_end in osc:
+            parts.append(step * np.arange(1, math.ceil(t_end / step) + 1))
         if self.t_window is not None and self.t_window <= t_hi:
             parts.append(np.array([self.t_window]))
         return np.unique(np.concatenate(parts))
@@ -975,7 +1016,10 @@ class _Context:
         T, C = T[ok], C[ok]
         D = self._apply(C) + self.f
         D2 = self._apply(D)
-        return {"T": T, "C": C, "D": D, "D2": D2, "N": self._noise_d(C)}
+        N = self._noise_d(C)
+        # rounding noise of K (K c + f): the noise of each d_j carried through |K|
+        N2 = (self.absK @ (N + _REL_NOISE_D * np.abs(D)).T).T
+        return {"T": T, "C": C, "D": D, "D2": D2, "N": N, "N2": N2}
 
     def _hidden_turns(self, g: dict) -> np.ndarray:
         """New points inside intervals where a cubic Hermite model of the derivative
@@ -985,7 +1029,11 @@ class _Context:
         if T.size < 2:
             return np.zeros(0)
         s = np.sign(D) * (np.abs(D) > N)
+        s2 = np.sign(D2) * (np.abs(D2) > g["N2"])
         same = (s[:-1] == s[1:]) & (s[:-1] != 0)
+        # a hidden pair of turning points needs the derivative to move towards zero at
+        # the left end and away from it at the right end
+        same &= (s2[:-1] == -s[:-1]) & (s2[1:] == s[:-1])
         if not same.any():
             return np.zeros(0)
         h = np.diff(T)[:, None]
@@ -993,10 +1041,7 @@ class _Context:
         tol = np.maximum(N[:-1], N[1:])
         flag = np.zeros_like(same)
         for x in np.linspace(0.0, 1.0, 17)[1:-1]:
-            h00 = 2 * x**3 - 3 * x**2 + 1
-            h10 = x**3 - 2 * x**2 + x
-            h01 = -2 * x**3 + 3 * x**2
-            h11 = x**3 - x**2
+            h00, h10, h01, h11 = _hermite_basis(x)
             p = h00 * g0 + h10 * m0 + h01 * g1 + h11 * m1
             flag |= same & (np.sign(p) != s[:-1]) & (np.abs(p) > tol)
         k = np.flatnonzero(flag.any(axis=1))
@@ -1008,13 +1053,20 @@ class _Context:
         return np.setdiff1d(new, T)
 
     # -- root finding --------------------------------------------------------------------
-    def _roots(self, a, b, ga, gb, species, level, deriv) -> np.ndarray:
-        """Vectorised Illinois (modified regula falsi) with bisection safeguard.
+    def _roots(self, a, b, ga, gb, gpa, gpb, species, level, deriv, na, nb):
+        """Safeguarded Newton iteration for many bracketed roots at once.
 
         Solves g_k(t) = 0 on [a_k, b_k] with sign(g(a)) != sign(g(b)), where
-        g_k = (K c + f)_{species_k} if deriv_k else c_{species_k} - level_k.
-        All problems share one engine call per iteration.  Stops when the bracket is
-        below 1e-13 relative (Dekker/Brent-style bracketing never loses the root).
+        g_k = (K c + f)_i (``deriv``, a turning point of c_i) or c_i - level_k (a level
+        crossing), i = species_k.  The slope g' is exact too: (K (K c + f))_i or
+        (K c + f)_i.  Start: root of the cubic Hermite model from the bracket ends;
+        then Newton steps on the exact solution, one engine call per round for all
+        problems, keeping the bracket; a step leaving the bracket or a stalling bracket
+        falls back to bisection.  Converged when the Newton step is below 1e-9 of t
+        (error then ~1e-18 t), when |g| is at rounding-noise level, or when the bracket
+        is below 1e-13 relative.
+
+        Returns (roots [s], c_i at the roots [conc]).
         """
         a = np.array(a, dtype=float)
         b = np.array(b, dtype=float)
@@ -1024,53 +1076,74 @@ class _Context:
         level = np.asarray(level, dtype=float)
         deriv = np.asarray(deriv, dtype=bool)
         m = a.size
+        na = np.array(na, dtype=float)
+        nb = np.array(nb, dtype=float)
+        x = _hermite_root(a, b, ga, gb, np.asarray(gpa, float), np.asarray(gpb, float))
         root = np.full(m, np.nan)
-        side = np.zeros(m, dtype=int)
+        value = np.full(m, np.nan)
         wref = b - a
-        bisect = np.zeros(m, dtype=bool)
         active = np.ones(m, dtype=bool)
-        for it in range(400):
-            done = (b - a) <= _XTOL * np.abs(b) + 1e-300
-            root[active & done] = 0.5 * (a + b)[active & done]
-            active &= ~done
+        # an end already at rounding-noise level is the root (as good as any nearby)
+        qa, qb = np.abs(ga) <= na, np.abs(gb) <= nb
+        for q, t in ((qa, a), (qb & ~qa, b)):
+            root[q] = t[q]
+            active[q] = False
+        for it in range(200):
             k = np.flatnonzero(active)
             if k.size == 0:
                 break
-            w = b[k] - a[k]
-            with np.errstate(divide="ignore", invalid="ignore"):
-                x = b[k] - gb[k] * w / (gb[k] - ga[k])
-            mid = 0.5 * (a[k] + b[k])
-            bad = ~np.isfinite(x) | (x <= a[k]) | (x >= b[k]) | bisect[k]
-            x = np.where(bad, mid, x)
-            # keep the trial point off the ends (stagnation of regula falsi)
-            x = np.clip(x, a[k] + 1e-3 * w, b[k] - 1e-3 * w)
-            C = self._propagate(x)
+            C = self._propagate(x[k])
+            D = self._apply(C) + self.f
             rows = np.arange(k.size)
-            if deriv[k].any():
-                D = self._apply(C) + self.f
-            else:
-                D = C
-            gx = np.where(deriv[k], D[rows, species[k]], C[rows, species[k]] - level[k])
-            zero = gx == 0
-            root[k[zero]] = x[zero]
-            active[k[zero]] = False
-            kk = k[~zero]
-            x, gx = x[~zero], gx[~zero]
-            with_b = np.sign(gx) == np.sign(gb[kk])
-            # Illinois: halve the retained end's value when it is kept twice in a row
-            kb, ka = kk[with_b], kk[~with_b]
-            ga[kb] = np.where(side[kb] == 1, 0.5 * ga[kb], ga[kb])
-            b[kb], gb[kb], side[kb] = x[with_b], gx[with_b], 1
-            gb[ka] = np.where(side[ka] == -1, 0.5 * gb[ka], gb[ka])
-            a[ka], ga[ka], side[ka] = x[~with_b], gx[~with_b], -1
-            bisect[kk] = False
+            sp = species[k]
+            ci, di = C[rows, sp], D[rows, sp]
+            d2i = self._apply(D)[rows, sp]
+            dk = deriv[k]
+            g = np.where(dk, di, ci - level[k])
+            gp = np.where(dk, d2i, di)
+            noise = np.where(
+                dk, self._noise_d(C)[rows, sp], _REL_NOISE_C * np.maximum(ci, level[k])
+            )
+            left = np.sign(g) == np.sign(ga[k])
+            a[k[left]], ga[k[left]] = x[k[left]], g[left]
+            b[k[~left]], gb[k[~left]] = x[k[~left]], g[~left]
+            na[k[left]], nb[k[~left]] = noise[left], noise[~left]
+            xk = x[k]
+            with np.errstate(divide="ignore", invalid="ignore"):
+                xn = xk - g / gp
+            inside = np.isfinite(xn) & (xn > a[k]) & (xn < b[k])
+            small = np.abs(xn - xk) <= 1e-9 * np.abs(xk)
+            quiet = np.abs(g) <= noise
+            tight = (b[k] - a[k]) <= _XTOL * np.abs(b[k])
+            stop = (g == 0) | quiet
+            done = stop | (inside & small) | tight
+            near = np.clip(np.where(np.isfinite(xn), xn, xk), a[k], b[k])
+            r = np.where(stop, near, np.where(inside, xn, 0.5 * (a[k] + b[k])))
+            dt = r - xk
+            # value at the root from the last exact evaluation (Taylor, |dt| tiny)
+            v = ci + di * dt + 0.5 * d2i * dt * dt
+            root[k[done]] = r[done]
+            value[k[done]] = v[done]
+            active[k[done]] = False
+            nd = ~done
             if it % 3 == 2:
-                slow = (b[kk] - a[kk]) > 0.25 * wref[kk]
-                bisect[kk[slow]] = True
-                wref[kk] = b[kk] - a[kk]
+                slow = (b[k] - a[k]) > 0.5 * wref[k]
+                wref[k] = b[k] - a[k]
+            else:
+                slow = np.zeros(k.size, dtype=bool)
+            mid = 0.5 * (a[k] + b[k])
+            with np.errstate(divide="ignore", invalid="ignore"):
+                sec = b[k] - gb[k] * (b[k] - a[k]) / (gb[k] - ga[k])
+            ok_sec = np.isfinite(sec) & (sec > a[k]) & (sec < b[k]) & ~slow
+            fall = np.where(ok_sec, sec, mid)
+            x[k[nd]] = np.where((~inside | slow)[nd], fall[nd], xn[nd])
         left = np.isnan(root)
         root[left] = 0.5 * (a + b)[left]
-        return root
+        left |= np.isnan(value)
+        if left.any():
+            C = self._propagate(root[left])
+            value[left] = C[np.arange(C.shape[0]), species[left]]
+        return root, value
 
     # -- stationary points ---------------------------------------------------------------
     def stationary(self) -> list[dict]:
@@ -1078,47 +1151,51 @@ class _Context:
         if self._stat is not None:
             return self._stat
         g = self.grid()
-        T, D, N = g["T"], g["D"], g["N"]
+        T, D, D2, N = g["T"], g["D"], g["D2"], g["N"]
         s = np.sign(D) * (np.abs(D) > N)
-        A, B, GA, GB, SP, TY = [], [], [], [], [], []
+        A, B, GA, GB, PA, PB, SP, TY, NA, NB = ([] for _ in range(10))
         for i in range(self.n):
             sig = np.flatnonzero(s[:, i])
             if sig.size < 2:
                 continue
             ss = s[sig, i]
-            ch = np.flatnonzero(ss[:-1] != ss[1:])
-            for k in ch:
+            for k in np.flatnonzero(ss[:-1] != ss[1:]):
                 ia, ib = sig[k], sig[k + 1]
                 A.append(T[ia])
                 B.append(T[ib])
                 GA.append(D[ia, i])
                 GB.append(D[ib, i])
+                PA.append(D2[ia, i])
+                PB.append(D2[ib, i])
+                NA.append(N[ia, i])
+                NB.append(N[ib, i])
                 SP.append(i)
                 TY.append(1 if ss[k] > 0 else -1)
-        stat = [{"t": np.zeros(0), "c": np.zeros(0), "type": np.zeros(0, dtype=int)}]
-        stat = [dict(stat[0]) for _ in range(self.n)]
+        empty = {"t": np.zeros(0), "c": np.zeros(0), "type": np.zeros(0, dtype=int)}
+        stat = [dict(empty) for _ in range(self.n)]
         if A:
             SP = np.array(SP)
             TY = np.array(TY)
-            t = self._roots(A, B, GA, GB, SP, np.zeros(len(A)), np.ones(len(A), dtype=bool))
-            Ct = self._propagate(t)
-            h = Ct[np.arange(t.size), SP]
-            for i in range(self.n):
+            ones = np.ones(len(A), dtype=bool)
+            t, h = self._roots(A, B, GA, GB, PA, PB, SP, np.zeros(len(A)), ones, NA, NB)
+            for i in np.unique(SP):
                 sel = SP == i
-                if sel.any():
-                    o = np.argsort(t[sel])
-                    stat[i] = {"t": t[sel][o], "c": h[sel][o], "type": TY[sel][o]}
+                o = np.argsort(t[sel])
+                stat[i] = {"t": t[sel][o], "c": h[sel][o], "type": TY[sel][o]}
         self._stat = stat
         return stat
 
-    def samples(self, i: int) -> tuple[np.ndarray, np.ndarray]:
-        """Times and values of c_i on the grid plus its turning points (monotone between)."""
+    def samples(self, i: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Times, values and slopes of c_i on the grid plus its turning points.
+
+        Between consecutive samples c_i is monotone (every turning point is a sample)."""
         g = self.grid()
         st = self.stationary()[i]
         t = np.concatenate([g["T"], st["t"]])
         v = np.concatenate([g["C"][:, i], st["c"]])
+        d = np.concatenate([g["D"][:, i], np.zeros(st["t"].size)])
         o = np.argsort(t, kind="stable")
-        return t[o], v[o]
+        return t[o], v[o], d[o]
 
     # -- quantities ----------------------------------------------------------------------
     def maxima(self, i: int) -> list[Maximum]:
@@ -1143,11 +1220,31 @@ class _Context:
             for k in range(times.size)
         ]
 
+    def _level_roots(self, probs: list[tuple]) -> np.ndarray:
+        """Roots of c_i(t) = level on monotone sample intervals [ka, kb] of species i."""
+        if not probs:
+            return np.zeros(0)
+        A, B, GA, GB, PA, PB, SP, LV = ([] for _ in range(8))
+        for i, t, v, d, ka, kb, lev in probs:
+            A.append(t[ka])
+            B.append(t[kb])
+            GA.append(v[ka] - lev)
+            GB.append(v[kb] - lev)
+            PA.append(d[ka])
+            PB.append(d[kb])
+            SP.append(i)
+            LV.append(lev)
+        no = np.zeros(len(A), dtype=bool)
+        A, B, GA, GB, LV = (np.array(x, dtype=float) for x in (A, B, GA, GB, LV))
+        NA = _REL_NOISE_C * np.maximum(np.abs(GA + LV), LV)
+        NB = _REL_NOISE_C * np.maximum(np.abs(GB + LV), LV)
+        return self._roots(A, B, GA, GB, PA, PB, SP, LV, no, NA, NB)[0]
+
     def fraction_times(self, requests: Sequence[tuple[int, float]]) -> list[FractionTime]:
         """First times c_i = phi c0_i for each (i, phi), found together."""
         lim, _ = self.limit_parts()
         out: list[FractionTime | None] = [None] * len(requests)
-        A, B, GA, GB, SP, LV, where = [], [], [], [], [], [], []
+        probs, where = [], []
         for r, (i, phi) in enumerate(requests):
             name = self.names[i]
             c0 = self.c0[i]
@@ -1157,29 +1254,21 @@ class _Context:
                 )
                 continue
             target = phi * c0
-            t, v = self.samples(i)
+            t, v, d = self.samples(i)
             gv = v - target
             noise = _REL_NOISE_C * np.maximum(v, target)
             s = np.sign(gv) * (np.abs(gv) > noise)
             neg = np.flatnonzero(s < 0)
             if neg.size:
                 kb = int(neg[0])
-                pos = np.flatnonzero(s[:kb] > 0)
-                ka = int(pos[-1])
-                A.append(t[ka])
-                B.append(t[kb])
-                GA.append(gv[ka])
-                GB.append(gv[kb])
-                SP.append(i)
-                LV.append(target)
+                ka = int(np.flatnonzero(s[:kb] > 0)[-1])
+                probs.append((i, t, v, d, ka, kb, target))
                 where.append(r)
                 continue
             out[r] = FractionTime(i, phi, None, self._never_reason(i, phi, lim, t[-1]))
-        if A:
-            roots = self._roots(A, B, GA, GB, SP, LV, np.zeros(len(A), dtype=bool))
-            for r, t in zip(where, roots, strict=True):
-                i, phi = requests[r]
-                out[r] = FractionTime(i, phi, float(t), "")
+        for r, t in zip(where, self._level_roots(probs), strict=True):
+            i, phi = requests[r]
+            out[r] = FractionTime(i, phi, float(t), "")
         return out  # type: ignore[return-value]
 
     def _never_reason(self, i: int, phi: float, lim: Limit, t_end: float) -> str:
@@ -1217,10 +1306,10 @@ class _Context:
             )
         L = lim.values
         big = L.max() if L.max() > 0 else self.c0.max()
-        A, B, GA, GB, SP, LV = [], [], [], [], [], []
+        probs = []
         for i in range(n):
             thr = tolerance * (L[i] if L[i] > 0 else big)
-            t, v = self.samples(i)
+            t, v, d = self.samples(i)
             dev = np.abs(v - L[i]) - thr
             noise = _REL_NOISE_C * np.maximum(v, L[i])
             s = np.sign(dev) * (np.abs(dev) > noise)
@@ -1235,15 +1324,9 @@ class _Context:
                 continue
             kb = ka + 1 + int(inside[0])
             lev = L[i] + thr if v[ka] > L[i] else L[i] - thr
-            A.append(t[ka])
-            B.append(t[kb])
-            GA.append(v[ka] - lev)
-            GB.append(v[kb] - lev)
-            SP.append(i)
-            LV.append(lev)
-        if A:
-            roots = self._roots(A, B, GA, GB, SP, LV, np.zeros(len(A), dtype=bool))
-            per[np.array(SP)] = roots
+            probs.append((i, t, v, d, ka, kb, lev))
+        if probs:
+            per[np.array([p[0] for p in probs])] = self._level_roots(probs)
         if np.isinf(per).any():
             return TimeToLimit(None, per, tolerance, "not settled within the scanned time span")
         return TimeToLimit(float(per.max()), per, tolerance, "")
