@@ -44,7 +44,9 @@ errors of both passes are collected and raised together as one
 
 from __future__ import annotations
 
+import contextlib
 import difflib
+import gc
 import math
 import re
 import sys
@@ -80,6 +82,9 @@ _NUMBER_RE = re.compile(
 )
 _TERM_RE = re.compile(rf"\s*(?:(?P<coef>\d+(?:\.\d*)?|\.\d+)\s*)?(?P<name>{_NAME})")
 _DIRECTIVE_LIKE = re.compile(rf"\s*{_NAME}\s+{_NAME}\s*=")
+_PLUS_RE = re.compile(r"\s*\+")
+_REF_RE = re.compile(rf"(?P<name>{_NAME})\s*(?P<eq>=(?![=>]))?\s*")
+_FIRST_WORD = re.compile(r"\s*([^\W\d]\w*)")
 _ITEM_RE = re.compile(rf"(?P<name>{_NAME})\s*=\s*")
 _CONSTANT_LINE = re.compile(rf"^(?P<name>{_NAME})\s*=(?![=>])")
 _ARROW_RE = re.compile(r"<=>|⇌|->|→")
@@ -94,7 +99,7 @@ _ARRHENIUS_RE = re.compile(r"arrhenius\s*\((?P<body>.*)\)\s*$", re.IGNORECASE)
 # source lines and error construction
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class _Line:
     source: str
     number: int
@@ -151,7 +156,7 @@ def _split_top(text: str, offset: int) -> list[tuple[str, int]]:
 # values with units
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class _Value:
     """A number with a unit as written, with the columns of both (1-based)."""
 
@@ -223,6 +228,26 @@ def _unit_of(line: _Line, value: _Value, what: str, example: str):
         )
 
 
+_DECIMAL = re.compile(r"(?P<int>\d*)(?:\.(?P<frac>\d*))?(?:[eE](?P<exp>[-+]?\d+))?")
+
+
+def _scaled(number: str, factor: Fraction) -> Fraction:
+    """The decimal ``number`` (unsigned, as written) times ``factor``, exactly.
+
+    One rational construction instead of two (``Fraction(number) * factor``):
+    this runs once per rate constant of a file.
+    """
+    m = _DECIMAL.fullmatch(number)
+    if m is None or abs(int(m.group("exp") or 0)) > 400:
+        return Fraction(number) * factor
+    frac = m.group("frac") or ""
+    digits = int((m.group("int") or "0") + frac)
+    exponent = int(m.group("exp") or 0) - len(frac)
+    if exponent >= 0:
+        return Fraction(digits * 10**exponent * factor.numerator, factor.denominator)
+    return Fraction(digits * factor.numerator, 10**-exponent * factor.denominator)
+
+
 def _exact(value: Fraction) -> float | None:
     """``float(value)``, or None when it overflows a double."""
     try:
@@ -236,7 +261,7 @@ def _exact(value: Fraction) -> float | None:
 # statements of the first pass
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class TitleStatement:
     """``title: free text``."""
 
@@ -252,7 +277,7 @@ class TitleStatement:
         return cls(code.split(":", 1)[1].strip(), line)
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class BalanceStatement:
     """``balance: lumped`` (atom imbalance only warned about) or ``balance: strict``."""
 
@@ -279,7 +304,7 @@ class BalanceStatement:
         return cls(mode, line)
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class _Item:
     name: str
     name_column: int
@@ -287,7 +312,7 @@ class _Item:
     formula: str = ""
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class ListStatement:
     """``start``/``excess``/``feed``/``formula``/``molar_mass`` NAME = VALUE, ..."""
 
@@ -371,7 +396,7 @@ class ListStatement:
         return cls(kind, (), line, tuple(declared)), errors
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class TemperatureStatement:
     """``temperature = 60 degC`` (kelvin or degrees Celsius)."""
 
@@ -391,7 +416,7 @@ class TemperatureStatement:
         return cls(value, line)
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class _ConstantSpec:
     """A rate-constant definition: a plain value or Arrhenius parameters."""
 
@@ -479,7 +504,7 @@ def _read_constant(line: _Line, name: str, name_col0: int, text: str, text_col0:
     return _ConstantSpec(name, name_col0 + 1, value=value, text=text.strip())
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class ConstantStatement:
     """``k1 = 0.12 1/min`` or ``k3 = arrhenius(A = ..., Ea = ...)`` on a line of its own."""
 
@@ -514,21 +539,21 @@ class ConstantStatement:
         return cls(spec, line)
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class _Term:
     coefficient: float
     name: str
     column: int
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class _ConstantRef:
     name: str
     column: int
     spec: _ConstantSpec | None  # None when referred to by name alone
 
 
-@dataclass(frozen=True)
+@dataclass(slots=True)
 class ReactionStatement:
     """``A -> B + 2 C  k1 = ...`` or ``B <=> D  kf = ..., kr = ...``."""
 
@@ -541,6 +566,14 @@ class ReactionStatement:
 
     @classmethod
     def from_line(cls, line: _Line):
+        fast = _fast_reaction(line)
+        if fast is not None:
+            return fast
+        return cls.from_line_general(line)
+
+    @classmethod
+    def from_line_general(cls, line: _Line):
+        """The reference reader of a reaction line (also every error message)."""
         code = line.code
         arrows = list(_ARROW_RE.finditer(code))
         if not arrows:
@@ -596,6 +629,79 @@ class ReactionStatement:
         return cls(tuple(left), tuple(right), reversible, arrow.start() + 1, constants, line)
 
 
+# A fast reader for the plain reaction lines that make up large files.  It accepts
+# a subset of what the general reader accepts and returns the very same
+# statement (tests compare the two on generated lines); anything else (errors
+# included) goes to the general reader.
+_COEF = r"(?:\d+(?:\.\d*)?|\.\d+)"
+_SIDE = rf"(?:{_COEF}\s*)?{_NAME}(?:\s*\+\s*(?:{_COEF}\s*)?{_NAME})*"
+_PLAIN_NUMBER = r"(?>(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)"  # atomic, as the general reader
+_PLAIN_UNIT = r"[^\s,=()<>→⇌][^,=()<>→⇌]*?"
+
+
+def _ref_pattern(tag: str) -> str:
+    return (
+        rf"(?P<{tag}>{_NAME})(?:\s*=\s*(?P<{tag}n>{_PLAIN_NUMBER})\s*"
+        rf"(?P<{tag}u>{_PLAIN_UNIT}))?"
+    )
+
+
+_FAST_REACTION = re.compile(
+    rf"\s*(?P<left>{_SIDE})\s*(?P<arrow>->|→|<=>|⇌)\s*(?P<right>{_SIDE})"
+    rf"\s+{_ref_pattern('a')}(?:\s*,\s*{_ref_pattern('b')})?\s*$"
+)
+
+
+def _fast_terms(code: str, start: int, end: int):
+    terms = []
+    for m in _TERM_RE.finditer(code, start, end):
+        coef = m.group("coef")
+        name = m.group("name")
+        if name in _RESERVED:
+            return None
+        coefficient = 1.0
+        if coef is not None:
+            coefficient = float(coef)
+            if not coefficient > 0:
+                return None
+        terms.append(_Term(coefficient, name, m.start("name") + 1))
+    return tuple(terms)
+
+
+def _fast_ref(line: _Line, m, tag: str):
+    name = m.group(tag)
+    if name in _RESERVED:
+        return None
+    column = m.start(tag) + 1
+    number = m.group(tag + "n")
+    if number is None:
+        return _ConstantRef(name, column, None)
+    if not math.isfinite(float(number)):
+        return None
+    unit = m.group(tag + "u")
+    value = _Value(number, unit, m.start(tag + "n") + 1, m.start(tag + "u") + 1)
+    text = line.code[m.start(tag + "n") : m.end(tag + "u")]
+    return _ConstantRef(name, column, _ConstantSpec(name, column, value=value, text=text))
+
+
+def _fast_reaction(line: _Line):
+    """The statement of a plain reaction line, or None to use the general reader."""
+    m = _FAST_REACTION.match(line.code)
+    if m is None:
+        return None
+    reversible = ARROWS[m.group("arrow")]
+    if reversible != (m.group("b") is not None):
+        return None
+    left = _fast_terms(line.code, m.start("left"), m.end("left"))
+    right = _fast_terms(line.code, m.start("right"), m.end("right"))
+    refs = [_fast_ref(line, m, "a")]
+    if reversible:
+        refs.append(_fast_ref(line, m, "b"))
+    if left is None or right is None or None in refs:
+        return None
+    return ReactionStatement(left, right, reversible, m.start("arrow") + 1, tuple(refs), line)
+
+
 def _read_terms(line: _Line, text: str, offset: int, side: str):
     """Read ``[coef] NAME (+ [coef] NAME)*``; return (terms, rest) or SchemeError."""
     terms: list[_Term] = []
@@ -635,9 +741,9 @@ def _read_terms(line: _Line, text: str, offset: int, side: str):
             )
         terms.append(_Term(coefficient, name, column))
         pos = match.end()
-        plus = re.match(r"\s*\+", text[pos:])
+        plus = _PLUS_RE.match(text, pos)
         if plus:
-            pos += plus.end()
+            pos = plus.end()
             continue
         return terms, text[pos:]
 
@@ -660,7 +766,7 @@ def _read_constant_refs(line: _Line, text: str, offset: int, reversible: bool, a
     errors: list[SchemeError] = []
     refs: list[_ConstantRef] = []
     for piece, col0 in pieces:
-        m = re.match(rf"(?P<name>{_NAME})\s*(?P<eq>=(?![=>]))?\s*", piece)
+        m = _REF_RE.match(piece)
         if not m or (not m.group("eq") and m.end() != len(piece)):
             bad = re.match(r"\S+", piece)
             snippet = bad.group(0) if bad else piece or " "
@@ -720,6 +826,12 @@ _STATEMENTS = (
     ReactionStatement,
     ConstantStatement,
 )
+
+
+#: A line whose first word is no keyword can only be a reaction or a constant
+#: (the other statements start with their keyword): a speed-up for large files.
+_KEYWORD_STARTS = {"title", "balance", "temperature", *ListStatement._EXAMPLES}
+_NAME_STARTS = (ReactionStatement, ConstantStatement)
 
 
 def _unknown_arrow(line: _Line, arrow: str, column0: int) -> SchemeError:
@@ -802,7 +914,12 @@ def _read_statements(text: str, source: str):
         line = _Line(source, number, raw, _strip_comment(raw))
         if not line.code.strip():
             continue
-        for kind in _STATEMENTS:
+        first = _FIRST_WORD.match(line.code)
+        if first is None or first.group(1).lower() in _KEYWORD_STARTS:
+            kinds = _STATEMENTS
+        else:
+            kinds = _NAME_STARTS
+        for kind in kinds:
             result = kind.from_line(line)
             if result is None:
                 continue
@@ -870,6 +987,7 @@ class _Builder:
         self.source = source
         self.text = text
         self.strict_balance = strict_balance
+        self._orders_ok: set = set()  # (order, unit, co-reactants) found consistent
 
     def error(self, line: _Line, problem, column=0, snippet="", hint=""):
         self.errors.append(line.error(problem, column, snippet, hint))
@@ -1360,7 +1478,7 @@ class _Builder:
         if isinstance(unit, SchemeError):
             self.errors.append(unit)
             return None
-        order = concentration_order(unit.dims)
+        order = unit.rate_order
         if order is None:
             self.error(
                 line,
@@ -1372,7 +1490,7 @@ class _Builder:
                 "pseudo-first-order one concentration^-1/time (e.g. M-1 s-1)",
             )
             return None
-        value_si = Fraction(v.number) * unit.factor
+        value_si = _scaled(v.number, unit.factor)
         if _exact(value_si) is None:
             self.error(
                 line,
@@ -1389,59 +1507,25 @@ class _Builder:
         reaction_objs: list[Reaction] = []
         steps: list[Step] = []
         for index, r in enumerate(reactions):
-            sides = [("left", r.left)]
-            if r.reversible:
-                sides.append(("right", r.right))
-            reacting = {}
-            for side, terms in sides:
-                movers = [t for t in terms if t.name not in excess_names]
-                partners = [t for t in terms if t.name in excess_names]
-                if len(movers) > 1 and len({t.name for t in movers}) == 1:
-                    # A + A -> ...: one species written twice
-                    total = sum(t.coefficient for t in movers)
-                    movers = [_Term(total, movers[0].name, movers[0].column)]
-                if len(movers) != 1:
-                    self._order_error(r, side, movers, partners)
-                    continue
-                mover = movers[0]
-                if mover.coefficient != 1:
-                    self.error(
-                        r.line,
-                        f"{mover.name} has the coefficient {mover.coefficient:g} on the "
-                        f"{side} of a first-order step",
-                        mover.column,
-                        mover.name,
-                        "a first-order step consumes one molecule of its reactant; scale the "
-                        "products instead",
-                    )
-                    continue
-                reacting[side] = (mover, partners)
-            names = [ref.name for ref in r.constants]
+            left_pairs = tuple([(t.coefficient, t.name) for t in r.left])
+            right_pairs = tuple([(t.coefficient, t.name) for t in r.right])
+            names = tuple([ref.name for ref in r.constants])
             reaction_objs.append(
-                Reaction(
-                    tuple((t.coefficient, t.name) for t in r.left),
-                    tuple((t.coefficient, t.name) for t in r.right),
-                    r.reversible,
-                    tuple(names),
-                    r.line.number,
-                    r.line.text,
-                )
+                Reaction(left_pairs, right_pairs, r.reversible, names, r.line.number, r.line.text)
             )
-            if len(reacting) != len(sides):
+            forward = self._reacting(r, "left", r.left, excess_names)
+            reverse = self._reacting(r, "right", r.right, excess_names) if r.reversible else None
+            if forward is None or (r.reversible and reverse is None):
                 continue
-            directions = [("forward", "left", r.left, r.right, r.constants[0])]
+            directions = [("forward", forward, right_pairs, r.constants[0])]
             if r.reversible:
-                directions.append(("reverse", "right", r.right, r.left, r.constants[1]))
-            for direction, side, _reactants, products, ref in directions:
-                mover, partners = reacting[side]
+                directions.append(("reverse", reverse, left_pairs, r.constants[1]))
+            for direction, (mover, partners), products, ref in directions:
                 constant = constants.get(ref.name)
                 if constant is None:
                     continue
                 self._check_order(r, ref, constant, mover, partners, excess_si)
-                formed = {}
-                for t in products:
-                    formed[t.name] = formed.get(t.name, 0.0) + t.coefficient
-                if formed.get(mover.name) == 1 and len(formed) == 1 and not partners:
+                if not partners and len(products) == 1 and products[0] == (1.0, mover.name):
                     self.error(
                         r.line,
                         f"this step turns {mover.name} into {mover.name}: it changes nothing",
@@ -1450,18 +1534,38 @@ class _Builder:
                         "remove the line, or write the product the step forms",
                     )
                     continue
-                steps.append(
-                    Step(
-                        reactant=mover.name,
-                        products=tuple((t.coefficient, t.name) for t in products),
-                        constant=ref.name,
-                        co_reactants=tuple((t.coefficient, t.name) for t in partners),
-                        reaction=index,
-                        direction=direction,
-                    )
-                )
-            # an excess species cannot be the reactant of a step; checked in _order_error
+                co_reactants = tuple([(t.coefficient, t.name) for t in partners])
+                steps.append(Step(mover.name, products, ref.name, co_reactants, index, direction))
         return reaction_objs, steps
+
+    def _reacting(self, r: ReactionStatement, side: str, terms, excess_names):
+        """The one reacting species of a side and its excess partners, or None (reported)."""
+        if len(terms) == 1 and terms[0].name not in excess_names:
+            mover = terms[0]  # the common case: one species, no co-reactant
+            partners = []
+        else:
+            movers = [t for t in terms if t.name not in excess_names]
+            partners = [t for t in terms if t.name in excess_names]
+            if len(movers) > 1 and len({t.name for t in movers}) == 1:
+                # A + A -> ...: one species written twice
+                total = sum(t.coefficient for t in movers)
+                movers = [_Term(total, movers[0].name, movers[0].column)]
+            if len(movers) != 1:
+                self._order_error(r, side, movers, partners)
+                return None
+            mover = movers[0]
+        if mover.coefficient != 1:
+            self.error(
+                r.line,
+                f"{mover.name} has the coefficient {mover.coefficient:g} on the "
+                f"{side} of a first-order step",
+                mover.column,
+                mover.name,
+                "a first-order step consumes one molecule of its reactant; scale the "
+                "products instead",
+            )
+            return None
+        return mover, partners
 
     def _order_error(self, r: ReactionStatement, side, movers, partners):
         line = r.line
@@ -1489,9 +1593,15 @@ class _Builder:
         )
 
     def _check_order(self, r, ref, constant: RateConstant, mover, partners, excess_si):
+        if not partners and constant.order == 0:
+            return  # the common case: a first-order constant on a first-order step
+        key = (constant.order, constant.unit, tuple([(t.coefficient, t.name) for t in partners]))
+        if key in self._orders_ok:
+            return  # the same constant order, unit and co-reactants were fine before
         needed = sum(Fraction(t.coefficient) for t in partners)
         line = r.line
         if constant.order == needed:
+            self._orders_ok.add(key)
             if partners and all(t.name in excess_si for t in partners):
                 # dimensions must cancel to 1/time (amounts vs concentrations)
                 k_dims = parse_unit(constant.unit).dims
@@ -1504,6 +1614,7 @@ class _Builder:
                         total[k] = total.get(k, 0) + v * Fraction(t.coefficient)
                 total = {k: v for k, v in total.items() if v}
                 if total != {"[time]": -1}:
+                    self._orders_ok.discard(key)
                     self.error(
                         line,
                         f"{constant.name} ({constant.unit}) times the excess concentration of "
@@ -1640,8 +1751,27 @@ def parse(text: str, source: str = "<text>", *, strict_balance: bool = True) -> 
             f"parse() reads scheme text (str), not {type(text).__name__}",
             "decode bytes first, or use kinetics.load(path) for a file",
         )
-    statements, errors = _read_statements(text, source)
-    return _Builder(statements, errors, source, text, strict_balance).build()
+    with _collector_paused():
+        statements, errors = _read_statements(text, source)
+        return _Builder(statements, errors, source, text, strict_balance).build()
+
+
+@contextlib.contextmanager
+def _collector_paused():
+    """Pause Python's cyclic garbage collector while a scheme is read.
+
+    A large file creates hundreds of thousands of small objects that all stay
+    alive; each collector pass would walk them again (a third of the time for a
+    20,000-reaction file).  They hold no reference cycles, so nothing is lost by
+    collecting after the parse.  The previous state is restored.
+    """
+    enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if enabled:
+            gc.enable()
 
 
 def load(path, *, strict_balance: bool = True) -> Scheme:

@@ -166,15 +166,19 @@ def step_rates(
         else:
             exact[name] = definition.value_si
     cache: dict[tuple, float] = {}
-    rates = np.empty(len(scheme.steps))
-    for s, step in enumerate(scheme.steps):
+    plain = {name: _to_float(k) for name, k in exact.items()}  # steps without co-reactants
+    values = []
+    for step in scheme.steps:
+        if not step.co_reactants:
+            values.append(plain[step.constant])
+            continue
         key = (step.constant, step.co_reactants)
         value = cache.get(key)
         if value is None:
             value = _effective(scheme, exact[step.constant], step.co_reactants, excess)
             cache[key] = value
-        rates[s] = value
-    return rates
+        values.append(value)
+    return np.array(values, dtype=float).reshape(len(scheme.steps))
 
 
 def _effective(scheme: Scheme, k: Fraction, co_reactants, excess) -> float:

@@ -155,6 +155,12 @@ class UnitSpec:
         """Dimension exponents as a dict."""
         return dict(self.dimensions)
 
+    @functools.cached_property
+    def rate_order(self) -> int | None:
+        """Reaction order minus one implied by this unit as a rate constant (see
+        :func:`concentration_order`); None if it is no rate-constant unit."""
+        return _order_of(self.dimensions)
+
 
 @functools.lru_cache(maxsize=4096)
 def parse_unit(text: str) -> UnitSpec:
@@ -316,7 +322,12 @@ def concentration_order(dims: dict) -> int | None:
     when the dimension is not of the form ``concentration^-m / time``.  A
     dimension ``amount^-m / time`` (files in amounts) also counts.
     """
-    d = {k: Fraction(v) for k, v in dims.items() if v}
+    return _order_of(tuple(sorted((k, Fraction(v)) for k, v in dims.items() if v)))
+
+
+@functools.lru_cache(maxsize=256)
+def _order_of(key: tuple[tuple[str, Fraction], ...]) -> int | None:
+    d = dict(key)
     if d.get("[time]") != -1:
         return None
     rest = {k: v for k, v in d.items() if k != "[time]"}
