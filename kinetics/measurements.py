@@ -208,11 +208,15 @@ def measurements_from_frame(
 
 
 def _build(header, body, scheme, source, conditions, first_row) -> Measurements:
+    header = list(header)
+    while header and not header[-1].strip():  # trailing empty columns of spreadsheets
+        header.pop()
     if len(header) < 2:
+        hint = "write a header such as 'time [min],B [mol/L]'"
+        if header and (";" in header[0] or "\t" in header[0]):
+            hint = "separate the columns with commas: " + hint
         raise DataError(
-            "the table needs a time column and at least one species column",
-            source,
-            "write a header such as 'time [min],B [mol/L]'",
+            "the table needs a time column and at least one species column", source, hint
         )
     parsed = []
     for col, cell in enumerate(header):

@@ -166,6 +166,17 @@ def test_bad_tables_are_clear_errors(tmp_path, scheme, text, message, monkeypatc
     assert isinstance(info.value, KineticsError)
 
 
+def test_spreadsheet_quirks(tmp_path, scheme):
+    m = read_measurements(write(tmp_path, "time [min],B [mol/L],\n0,0.1,\n5,0.2,\n"), scheme)
+    assert m.species == ("B",)
+    with pytest.raises(DataError) as info:
+        read_measurements(write(tmp_path, "time [min];B [mol/L]\n0;0.1\n"), scheme)
+    assert str(info.value).endswith(
+        "the table needs a time column and at least one species column; separate the columns "
+        "with commas: write a header such as 'time [min],B [mol/L]'"
+    )
+
+
 def test_missing_file_and_folder(tmp_path, scheme):
     with pytest.raises(DataError, match="does not exist"):
         read_measurements(tmp_path / "nope.csv", scheme)
