@@ -34,6 +34,8 @@ __all__ = [
 #: Line styles and markers, combined per curve (black-and-white readable).
 LINE_STYLES = ("-", "--", "-.", ":", (0, (5, 1, 1, 1, 1, 1)), (0, (8, 2)))
 MARKERS = ("o", "s", "^", "D", "v", "P", "X", "<", ">", "h")
+#: Columns of the species graph per band before the drawing turns back (long chains snake).
+GRAPH_COLUMNS_PER_BAND = 6
 #: Lower end of the log panel, relative to the largest concentration shown.
 LOG_FLOOR = 1e-9
 
@@ -276,15 +278,24 @@ def species_graph_figure(scheme: Scheme, *, max_species: int = 60) -> Figure | N
     for name in graph.nodes:
         columns.setdefault(layer[name], []).append(name)
     n_cols = max(columns) + 1
-    n_rows = max(len(v) for v in columns.values())
+    # long schemes snake over several bands of PER_BAND columns (left to right, then back)
+    per_band = min(n_cols, GRAPH_COLUMNS_PER_BAND)
+    n_bands = -(-n_cols // per_band)
+    rows_in_band = [
+        max(len(columns.get(c, ())) for c in range(b * per_band, (b + 1) * per_band))
+        for b in range(n_bands)
+    ]
+    centre = [0.0]
+    for b in range(1, n_bands):  # each band below the previous one, 1.8 units apart at the rims
+        centre.append(centre[-1] - 0.6 * (rows_in_band[b - 1] + rows_in_band[b]) - 1.2)
     pos = {}
     for col, members in columns.items():
+        band, k = divmod(col, per_band)
+        x = k if band % 2 == 0 else per_band - 1 - k
         for r, name in enumerate(members):
-            pos[name] = (col * 2.4, 1.2 * ((len(members) - 1) / 2 - r))
-    scale = min(1.0, 12.0 / (2.4 * n_cols + 1.6), 9.0 / (1.2 * n_rows + 2.4))
-    fig = _new_figure(
-        scale * (2.4 * (n_cols - 1) + 1.6), scale * (1.2 * (n_rows - 1) + 2.6), layout=None
-    )
+            pos[name] = (x * 2.4, 1.2 * ((len(members) - 1) / 2 - r) + centre[band])
+    height = centre[0] - centre[-1] + 0.6 * (rows_in_band[0] + rows_in_band[-1]) + 1.4
+    fig = _new_figure(2.4 * (per_band - 1) + 1.6, height, None)
     ax = fig.subplots()
     ax.set_axis_off()
     label_box = {"boxstyle": "round,pad=0.35", "fc": "white", "ec": "black", "lw": 1.3}
