@@ -620,6 +620,26 @@ class FitResult:
         """Names of the free parameters, in order."""
         return [p.name for p in self.parameters]
 
+    @property
+    def diagnostics(self) -> dict:
+        """Search diagnostics: convergence, scaled-Jacobian condition number, evaluation
+        counts (model evaluations and exact Jacobians), starts, alternative optima."""
+        keys = (
+            "converged",
+            "message",
+            "optimality",
+            "condition_number",
+            "model_evaluations",
+            "model_evaluations_search",
+            "jacobian_evaluations",
+            "starts",
+            "distinct_optima",
+            "engine_difference",
+        )
+        out = {k: self.statistics[k] for k in keys}
+        out["alternatives"] = list(self.alternatives)
+        return out
+
     def value(self, name: str) -> float:
         """The estimate of ``name`` in its display unit."""
         return self.estimates[name].value

@@ -92,6 +92,8 @@ def test_result_views_and_json_contract(abc, noisy):
     assert stats["model_evaluations"] > 0
     assert stats["jacobian_evaluations"] > 0
     assert stats["engine_difference"] < 1e-12
+    assert result.diagnostics["converged"] is True
+    assert result.diagnostics["condition_number"] < 10
     frame = result.to_frame()
     assert list(frame["parameter"]) == ["k1", "k2"]
     assert {"value", "std_error", "ci95_low", "profile_high", "t_value", "p_value"} <= set(
