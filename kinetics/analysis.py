@@ -903,7 +903,8 @@ class _Context:
 
     def _limit_notes(self, q, growth, rate) -> list[str]:
         st = self.struct
-        notes = []
+        notes: list[str] = []
+        self.note_of: dict[int, tuple[str, ...]] = {}
         for kind in ("exponential", "linear", "polynomial"):
             who = [i for i in range(self.n) if growth[i] == kind]
             if not who:
@@ -932,12 +933,14 @@ class _Context:
                     "out of one species without outlet into another; there is no finite limit."
                 )
             else:
-                r = np.nanmax(rate[who])
+                r = float(np.nanmax(rate[who]))
                 notes.append(
                     f"{names} {verb} without bound, exponentially (about e^({r:.6g} t) with t "
                     "in s): a cycle of steps makes more of its members than it uses "
                     "(stoichiometric factors above one); there is no finite limit."
                 )
+            for i in who:
+                self.note_of[i] = (notes[-1],)
         return notes
 
     # -- scan grid -------------------------------------------------------------------------
@@ -2030,7 +2033,7 @@ def summarise(
         if glob and glob[0].beyond_window:
             notes.append(f"the maximum of {name} lies beyond the chosen time window")
         if lim.unbounded[i]:
-            notes.extend(s for s in lim.notes if name in s)
+            notes.extend(ctx.note_of.get(i, ()))
         out[name] = SpeciesSummary(
             name=name,
             start=float(ctx.c0[i]),
