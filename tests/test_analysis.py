@@ -1,0 +1,342 @@
+"""Behaviour of kinetics.analysis: definitions, flags, reasons, errors, JSON, properties.
+
+Closed-form checks are in test_reference_analysis.py; here each numeric expectation
+still names where it comes from.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pytest
+import scipy.sparse
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from kinetics import analysis as an
+from kinetics.errors import KineticsError, UsageError
+from kinetics.propagate import propagate
+
+
+def chain(*k):
+    n = len(k) + 1
+    K = np.zeros((n, n))
+    for j, kj in enumerate(k):
+        K[j, j] -= kj
+        K[j + 1, j] += kj
+    return K
+
+
+CYCLE = np.array([[-1, 0, 1, 0], [1, -1, 0, 0], [0, 1, -1 - 1e-6, 0], [0, 0, 1e-6, 0]])
+
+
+# ---------------------------------------------------------------------------------------
+# Errors
+# ---------------------------------------------------------------------------------------
+
+
+@pytest.mark.parametrize(
+    ("K", "c0"),
+    [
+        (np.array([[-1.0, -0.1], [1.0, 0.0]]), [1, 0]),  # negative off-diagonal
+        (np.zeros((2, 3)), [1, 0]),  # not square
+        (np.array([[np.nan, 0], [0, 0]]), [1, 0]),  # nan
+        ("abc", [1, 0]),  # not numeric
+        (chain(1.0), [1, 0, 0]),  # wrong length
+        (chain(1.0), [1, -1]),  # negative start
+        (chain(1.0), [1, np.inf]),  # inf start
+    ],
+)
+def test_bad_arrays_raise_usage_error(K, c0):
+    with pytest.raises(UsageError) as err:
+        an.long_time_limit(K, c0)
+    assert isinstance(err.value, KineticsError)
+    assert err.value.hint
+
+
+@pytest.mark.parametrize(
+    "call",
+    [
+        lambda: an.half_life(chain(1.0), [1, 0], 2),
+        lambda: an.half_life(chain(1.0), [1, 0], True),
+        lambda: an.half_life(chain(1.0), [1, 0], 0.5),
+        lambda: an.time_to_fraction(chain(1.0), [1, 0], 0, 1.0),
+        lambda: an.time_to_fraction(chain(1.0), [1, 0], 0, 0.0),
+        lambda: an.time_to_limit(chain(1.0), [1, 0], tolerance=2.0),
+        lambda: an.intermediate_maxima(chain(1.0), [1, 0], 1, t_window=-1.0),
+        lambda: an.areas(chain(1.0), [1, 0], [-1.0]),
+        lambda: an.long_time_limit(chain(1.0), [1, 0], feed=[-1, 0]),
+        lambda: an.summarise(chain(1.0), [1, 0], ["A", "A"]),
+        lambda: an.summarise(chain(1.0), [1, 0], ["A"]),
+        lambda: an.yields_and_selectivity(chain(1.0), [1, 0], basis=5),
+    ],
+)
+def test_bad_arguments_raise_usage_error(call):
+    with pytest.raises(UsageError):
+        call()
+
+
+# ---------------------------------------------------------------------------------------
+# Lifetimes, fractions and their reasons
+# ---------------------------------------------------------------------------------------
+
+
+def test_lifetimes_from_outflow():
+    # tau = 1/sum k_out, ln2 tau (definition; Atkins & de Paula, first-order reactions)
+    K = np.array([[-3.0, 0, 0], [1.0, -0.5, 0], [2.0, 0.5, 0]])
+    tau, hl = an.lifetimes(K)
+    np.testing.assert_allclose(tau, [1 / 3, 2.0, np.inf], rtol=1e-15, atol=0)
+    np.testing.assert_allclose(hl, [math.log(2) / 3, 2 * math.log(2), np.inf], rtol=1e-15)
+
+
+def test_fraction_reasons():
+    K = np.array([[-1.0, 0, 0], [1.0, 0, 0], [0, 0, 0]])
+    r = an.half_life_detail(K, [1.0, 1.0, 0.0], 1)
+    assert r.time is None
+    assert "not consumed" in r.reason
+    r = an.half_life_detail(K, [1.0, 1.0, 0.0], 2)
+    assert "starts at zero" in r.reason
+    # equilibrium exactly at one half: approached only as t -> infinity
+    r = an.half_life_detail(np.array([[-2.0, 2.0], [2.0, -2.0]]), [1.0, 0.0], 0)
+    assert r.time is None
+    assert "only as t -> infinity" in r.reason
+
+
+def test_fraction_with_feed_and_growth():
+    # A -> 2B, B -> A (stoichiometric factor 2): the class grows like e^((sqrt2-1) t)
+    # (eigenvalue of [[-1, 1], [2, -1]], closed form); A first dips, then grows.
+    K = np.array([[-1.0, 1.0], [2.0, -1.0]])
+    r = an.half_life_detail(K, [1.0, 0.0], 0)
+    assert r.time is None
+    assert "grows without bound" in r.reason
+    t90 = an.time_to_fraction(K, [1.0, 0.0], 0, 0.9)
+    c = propagate(K, [1.0, 0.0], [t90])[0]
+    np.testing.assert_allclose(c[0], 0.9, rtol=1e-10, atol=0)
+    lim = an.long_time_limit(K, [1.0, 0.0], names=["A", "B"])
+    assert lim.growth == ("exponential", "exponential")
+    np.testing.assert_allclose(lim.growth_rate, math.sqrt(2) - 1, rtol=1e-12, atol=0)
+    assert "exponentially" in lim.notes[0]
+    assert an.time_to_limit(K, [1.0, 0.0]).time is None
+    rt = an.relaxation_times(K)
+    np.testing.assert_allclose(rt.growth_times, [1 / (math.sqrt(2) - 1)], rtol=1e-12, atol=0)
+
+
+def test_time_to_fraction_solves_the_curve():
+    # the returned time satisfies c_i(t) = phi c0_i on the exact solution
+    K = chain(0.7, 0.2, 3.0)
+    K[0, 2] += 0.4  # C -> A, a back step
+    K[2, 2] -= 0.4
+    for phi in (0.9, 0.5, 0.05):
+        t = an.time_to_fraction(K, [2.0, 0, 0, 0], 0, phi)
+        c = propagate(K, [2.0, 0, 0, 0], [t])[0]
+        np.testing.assert_allclose(c[0], 2.0 * phi, rtol=1e-11, atol=0)
+
+
+# ---------------------------------------------------------------------------------------
+# Maxima flags
+# ---------------------------------------------------------------------------------------
+
+
+def test_beyond_window_flag():
+    # A -> B -> C with t_max = ln(k1/k2)/(k1 - k2) = 13.86 s (textbook)
+    K = chain(0.1, 0.05)
+    (m,) = an.intermediate_maxima(K, [1.0, 0, 0], 1, t_window=10.0)
+    assert m.beyond_window
+    assert m.is_global
+    s = an.summarise(K, [1.0, 0, 0], ["A", "B", "C"], t_window=10.0)
+    assert s["B"].t_max_beyond_window
+    assert any("beyond the chosen time window" in x for x in s["B"].notes)
+
+
+def test_cycle_start_species_maxima_are_not_global():
+    # A starts at its largest value; its later local maxima (the cycle bringing material
+    # back) are local only.
+    ms = an.intermediate_maxima(CYCLE, [1.0, 0, 0, 0], 0)
+    assert len(ms) == 2
+    assert not any(m.is_global for m in ms)
+    ms = an.intermediate_maxima(CYCLE, [1.0, 0, 0, 0], 1)
+    assert [m.is_global for m in ms] == [True, False]
+
+
+def test_no_maxima_for_monotone_species():
+    K = chain(1.0, 2.0)
+    assert an.intermediate_maxima(K, [1.0, 0, 0], 0) == []
+    assert an.intermediate_maxima(K, [1.0, 0, 0], 2) == []
+    # a species that is never formed
+    K = np.zeros((3, 3))
+    K[0, 0], K[1, 0] = -1.0, 1.0
+    assert an.intermediate_maxima(K, [1.0, 0, 0], 2) == []
+    lim = an.long_time_limit(K, [1.0, 0, 0])
+    assert lim.kind == ("transient", "end product", "not formed")
+
+
+# ---------------------------------------------------------------------------------------
+# Limits, relaxation, areas
+# ---------------------------------------------------------------------------------------
+
+
+def test_limit_kinds_and_transient_feed():
+    # feed into A, A -> B <=> C: A steady state f/k, B and C grow linearly with the
+    # equilibrium split kr/(kf+kr), kf/(kf+kr) of the feed rate (mass balance).
+    k, kf, kr, f = 2.0, 0.3, 0.1, 0.5
+    K = np.array([[-k, 0, 0], [k, -kf, kr], [0, kf, -kr]])
+    lim = an.long_time_limit(K, [0, 0, 0], feed=[f, 0, 0])
+    np.testing.assert_allclose(lim.values[0], f / k, rtol=1e-15, atol=0)
+    np.testing.assert_allclose(
+        lim.growth_rate[1:], [f * kr / (kf + kr), f * kf / (kf + kr)], rtol=1e-14, atol=0
+    )
+    assert lim.kind == ("steady state", "unbounded", "unbounded")
+    # the same without feed from a start in A: everything ends in the B <=> C equilibrium
+    lim = an.long_time_limit(K, [1.0, 0, 0])
+    np.testing.assert_allclose(lim.values, [0, kr / (kf + kr), kf / (kf + kr)], rtol=1e-15)
+    assert lim.kind == ("transient", "equilibrium", "equilibrium")
+
+
+def test_time_to_limit_first_order_decay():
+    # A -> B: |c - c_inf| = A0 e^(-kt) <= 0.01 A0 at t = ln(100)/k (definition in the
+    # module docstring, zero limit measured against the largest limit A0)
+    k = 0.25
+    res = an.time_to_limit(chain(k), [1.0, 0.0])
+    np.testing.assert_allclose(res.per_species, [math.log(100) / k] * 2, rtol=1e-10, atol=0)
+    res = an.time_to_limit(chain(k), [1.0, 0.0], tolerance=1e-3)
+    np.testing.assert_allclose(res.time, math.log(1000) / k, rtol=1e-10, atol=0)
+
+
+def test_relaxation_defective_only_along_paths():
+    # -k repeated on A and C, linked by A -> B -> C: defective (Rothblum 1975)
+    K = chain(0.5, 1.0, 0.5)
+    rt = an.relaxation_times(K)
+    assert rt.defective
+    np.testing.assert_allclose(rt.times, [2.0, 2.0, 1.0], rtol=1e-15, atol=0)
+    # A -> C and B -> C with the same rate: repeated but not linked: diagonalisable
+    K = np.array([[-0.5, 0, 0], [0, -0.5, 0], [0.5, 0.5, 0]])
+    rt = an.relaxation_times(K)
+    assert not rt.defective
+    assert not rt.nearly_defective
+    assert rt.note == ""
+    assert rt.zero_modes == 1
+
+
+def test_sparse_input_gives_the_same_results():
+    K = chain(0.3, 1.7, 0.05)
+    Ks = scipy.sparse.csr_matrix(K)
+    c0 = [1.0, 0, 0, 0]
+    a = an.intermediate_maxima(K, c0, 1)
+    b = an.intermediate_maxima(Ks, c0, 1)
+    np.testing.assert_allclose([m.time for m in a], [m.time for m in b], rtol=1e-13, atol=0)
+    np.testing.assert_allclose(
+        an.long_time_limit(Ks, c0).values, an.long_time_limit(K, c0).values, rtol=0, atol=0
+    )
+    np.testing.assert_allclose(
+        an.areas(Ks, c0, [3.0]).to_end, an.areas(K, c0, [3.0]).to_end, rtol=1e-13, atol=0
+    )
+
+
+def test_areas_match_trapezoid_on_a_fine_grid():
+    # independent check: trapezoid rule on 20001 points of the exact curve (error
+    # h^2/12 max|c''| T, below 1e-7 here)
+    K = chain(0.9, 0.3)
+    K[0, 1] += 0.2  # B -> A
+    K[1, 1] -= 0.2
+    c0 = [1.0, 0.5, 0.0]
+    T = 20.0
+    ts = np.linspace(0, T, 20001)
+    c = propagate(K, c0, ts)
+    trap = ((c[1:] + c[:-1]) / 2 * np.diff(ts)[:, None]).sum(axis=0)
+    np.testing.assert_allclose(an.areas(K, c0, T).to_end[0], trap, rtol=1e-7, atol=0)
+
+
+# ---------------------------------------------------------------------------------------
+# Summary and JSON
+# ---------------------------------------------------------------------------------------
+
+
+def test_summary_to_dict_is_json():
+    K = chain(0.1, 0.05)
+    s = an.summarise(K, [1.0, 0, 0], ["A", "B", "C"], t_window=60.0)
+    d = {k: v.to_dict() for k, v in s.items()}
+    text = json.dumps(d, allow_nan=False)
+    back = json.loads(text)
+    for name in "ABC":
+        for key in ("half_life", "t_max", "c_max", "limit"):
+            assert key in back[name]
+    assert back["A"]["t_max"] is None
+    assert back["B"]["half_life"] is None
+    assert back["C"]["lifetime"] is None  # infinite: no outflow
+    assert back["C"]["limit"] == pytest.approx(1.0, rel=1e-15)
+    assert back["B"]["maxima"][0]["global"] is True
+
+
+def test_summary_unbounded_species():
+    K = np.array([[-0.5, 0], [0.5, 0.0]])
+    s = an.summarise(K, [1.0, 0.0], ["A", "B"], feed=[0.1, 0.0])
+    assert s["B"].unbounded
+    assert s["B"].limit is None
+    assert s["B"].time_to_limit is None
+    assert any("B grows without bound" in x for x in s["B"].notes)
+    np.testing.assert_allclose(s["A"].limit, 0.1 / 0.5, rtol=1e-15)  # f/k (infusion)
+    assert s["A"].area_to_infinity is None
+
+
+def test_yield_basis():
+    # B_max = A0 (k1/k2)^(k2/(k2-k1)) (textbook); basis = A only, or all starting materials
+    k1, k2 = 1.0, 0.5
+    K = chain(k1, k2)
+    K = np.pad(K, ((0, 1), (0, 1)))  # an inert fourth species that starts with material
+    c0 = [2.0, 0, 0, 3.0]
+    bmax = 2.0 * (k1 / k2) ** (k2 / (k2 - k1))
+    ys = an.yields_and_selectivity(K, c0, basis=0)
+    np.testing.assert_allclose(ys.yield_at_max[1], bmax / 2.0, rtol=1e-12)
+    ys = an.yields_and_selectivity(K, c0)
+    np.testing.assert_allclose(ys.yield_at_max[1], bmax / 5.0, rtol=1e-12)
+    assert np.isnan(ys.yield_at_max[0])
+    assert ys.end_products == (2,)
+
+
+# ---------------------------------------------------------------------------------------
+# Property: reported maxima are stationary points and maxima of the exact curve
+# ---------------------------------------------------------------------------------------
+
+
+@st.composite
+def random_chains(draw):
+    n = draw(st.integers(3, 6))
+    logk = draw(st.lists(st.floats(-2, 2), min_size=n - 1, max_size=n - 1))
+    K = chain(*(10.0**x for x in logk))
+    # optional forward branches j -> i (i > j + 1), keeping the scheme triangular
+    for j in range(n - 2):
+        if draw(st.booleans()):
+            i = draw(st.integers(j + 2, n - 1))
+            k = 10.0 ** draw(st.floats(-2, 2))
+            K[j, j] -= k
+            K[i, j] += k
+    return K
+
+
+@settings(max_examples=15, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(random_chains())
+def test_reported_tmax_is_a_maximum_of_the_exact_curve(K):
+    n = K.shape[0]
+    c0 = np.zeros(n)
+    c0[0] = 1.0
+    names = [f"S{i}" for i in range(n)]
+    summary = an.summarise(K, c0, names)
+    for i in range(1, n):
+        formed = (K[i, :i] > 0).any() or summary[names[i]].maxima
+        consumed = K[i, i] < 0
+        s = summary[names[i]]
+        if not (consumed and formed):
+            assert s.t_max is None
+            continue
+        # an intermediate of a chain started from the first species rises and falls
+        assert s.t_max is not None
+        t = s.t_max
+        c = propagate(K, c0, [t * (1 - 1e-6), t, t * (1 + 1e-6)])
+        d = K @ c[1]
+        scale = np.abs(K[i]) @ c[1]
+        assert abs(d[i]) <= 1e-9 * scale
+        assert c[1, i] >= c[0, i] * (1 - 1e-15)
+        assert c[1, i] >= c[2, i] * (1 - 1e-15)
+        np.testing.assert_allclose(s.c_max, c[1, i], rtol=1e-12, atol=0)
