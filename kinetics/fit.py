@@ -266,6 +266,25 @@ def _expm_stack(A: np.ndarray) -> np.ndarray:
     return X
 
 
+def _group_steps(steps: np.ndarray, rtol: float = 1e-13) -> tuple[np.ndarray, np.ndarray]:
+    """Distinct time steps, merging those equal up to a few units of rounding.
+
+    A grid such as ``numpy.linspace`` has steps that differ in their last bits;
+    one exponential then serves them all (the time error is below ``rtol`` of a
+    step).
+    """
+    order = np.argsort(steps, kind="stable")
+    sorted_steps = steps[order]
+    new_group = np.ones(steps.size, dtype=bool)
+    if steps.size > 1:
+        new_group[1:] = np.diff(sorted_steps) > rtol * np.abs(sorted_steps[1:])
+    group = np.cumsum(new_group) - 1
+    starts = np.flatnonzero(new_group)
+    which = np.empty(steps.size, dtype=int)
+    which[order] = group
+    return sorted_steps[starts], which
+
+
 def propagate_sensitivities(
     K: np.ndarray,
     c0: np.ndarray,
@@ -346,7 +365,7 @@ def propagate_sensitivities(
         X[:n, 1 + i] = V[i]
     times = np.asarray(times, dtype=float)
     steps = np.diff(np.concatenate([[0.0], times]))
-    unique, which = np.unique(steps, return_inverse=True)
+    unique, which = _group_steps(steps)
     positive = unique > 0
     F = np.empty((unique.size, N, N))
     if np.any(positive):
