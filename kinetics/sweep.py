@@ -1193,7 +1193,7 @@ def chunk_result(
     else:
         from .sweep_summary import summarise_batch
 
-        q = summarise_batch(K, c0, feed, t_window=float(plan.times[-1]), precision=plan.precision)
+        q = summarise_batch(K, c0, feed, t_window=float(plan.times[-1]))
     from .solution import time_factor
 
     tf = time_factor(plan.time_unit)

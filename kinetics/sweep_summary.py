@@ -270,156 +270,277 @@ def _limits(pat: _Pattern, cls: _Classes, K, c0, f, has_c0, has_f):
 
 
 # ---------------------------------------------------------------------------------------
-# Scan and root finding
+# Scan and root finding on a ladder of exact powers
 # ---------------------------------------------------------------------------------------
 
 
-def _propagate(K, c0, times, f, precision):
-    from .propagate import propagate_batch
+class _Ladder:
+    r"""Exponentials :math:`P_\ell = e^{u_\ell A}` of the scaled (augmented) matrices.
 
-    return propagate_batch(K, c0, times, f, precision=precision)
+    :math:`A = s_i [[K, f], [0, 0]]` per member (the feed row only with a feed),
+    :math:`u_\ell = 2^{-15} 8^\ell`, :math:`B = A + \sigma I \ge 0`.  While
+    :math:`y_\ell = u_\ell (\|B\|_1) \le 1` a level is the Taylor sum of the shifted matrix,
+
+    .. math:: P_\ell = e^{-\sigma u_\ell} \sum_{k=0}^{m} \frac{u_\ell^k}{k!} B^k,
+
+    from one set of powers :math:`B^k` shared by all these levels, with :math:`m = n + 22`
+    (every path of the species graph plus a remainder below :math:`1/23!`); above, a level
+    is the exact power :math:`P_{\ell+1} = ((P_\ell^2)^2)^2`.  Every operation adds and
+    multiplies nonnegative numbers (Xue & Ye 2013), so no entry suffers cancellation; the
+    relative error of a squared level doubles with each squaring (Xue & Ye 2013,
+    Theorem 3.2), which the Taylor levels keep to a few squarings (:math:`y \le 64` at the
+    top of a scan).  Entries below 1e-290 are set to zero (outside the relative-accuracy
+    range, and slow subnormals).
+    """
+
+    U0 = 2.0**-15
+
+    def __init__(self, K, f, scale, levels: int) -> None:
+        b, n, _ = K.shape
+        na = n + (0 if f is None else 1)
+        A = np.zeros((b, na, na))
+        A[:, :n, :n] = K * scale[:, None, None]  # exact: powers of two
+        if f is not None:
+            A[:, :n, n] = f[None, :] * scale[:, None]
+        sigma = np.maximum(-np.diagonal(A, axis1=1, axis2=2).min(axis=1), 0.0)
+        B = A + sigma[:, None, None] * np.eye(na)
+        self.n, self.na, self.scale, self.sigma, self.B = n, na, scale, sigma, B
+        norm = np.abs(B[:, :n, :n]).sum(axis=1).max(axis=1) + sigma
+        steps = self.U0 * 8.0 ** np.arange(levels + 1)
+        taylor = steps[None, :] * norm[:, None] <= 1.0  # (b, levels + 1)
+        taylor[:, 0] = True
+        top = int(np.flatnonzero(taylor.any(axis=0)).max())
+        m = na + 22
+        powers = [np.broadcast_to(np.eye(na), B.shape)]
+        for _ in range(m):
+            powers.append(self._flush(powers[-1] @ B))
+        P = np.empty((b, levels + 1, na, na))
+        for level in range(top + 1):
+            u = steps[level]
+            acc = powers[m] * (u / m)
+            for k in range(m - 1, 0, -1):  # Horner in the scalar u: sum u^k/k! B^k
+                acc = (powers[k] + acc) * (u / k)
+            acc = powers[0] + acc
+            P[:, level] = self._flush(acc * np.exp(-sigma * u)[:, None, None])
+        for level in range(1, levels + 1):
+            sq = ~taylor[:, level]
+            if sq.any():
+                Q = P[sq, level - 1]
+                for _ in range(3):
+                    Q = self._flush(Q @ Q)
+                P[sq, level] = Q
+        self.P = P  # (b, levels + 1, na, na)
+
+    @staticmethod
+    def _flush(M):
+        return np.where(M < 1e-290, 0.0, M)
+
+    def step(self, level: int) -> float:
+        return self.U0 * 8.0**level
 
 
-def _at_times(K, c0, f, x, precision) -> np.ndarray:
-    """c(x_k) for member k of the stack (b, n): the scaled problem (x K, x f) at time 1."""
-    Kx = K * x[:, None, None]
-    fx = None if f is None else f[None, :] * x[:, None]
-    return _propagate(Kx, c0, np.array([1.0]), fx, precision)[:, 0, :]
+def _mv(M, x):
+    """Stacked matrix-vector products (b, k, k) @ (b, k)."""
+    return np.matmul(M, x[:, :, None])[:, :, 0]
 
 
-def _scan(K, c0, f, scale, n_segments, precision):
-    """c on the shared scaled grid: times (M,) in scaled units and C (b, M, n)."""
-    Ks = K * scale[:, None, None]  # exact: powers of two
-    fs = None if f is None else f[None, :] * scale[:, None]
-    first = _propagate(Ks, c0, np.array([0.0, _TAU0]), fs, precision)
-    taus = [np.array([0.0, _TAU0])]
-    parts = [first]
-    start = first[:, -1, :]
-    for d in range(n_segments):
-        a = _TAU0 * _SEGMENT_RATIO**d
-        local = np.linspace(0.0, (_SEGMENT_RATIO - 1.0) * a, _SEGMENT_STEPS + 1)
-        seg = _propagate(Ks, start, local, fs, precision)
-        taus.append(a + local[1:])
-        parts.append(seg[:, 1:, :])
-        start = seg[:, -1, :]
-    return np.concatenate(taus), np.concatenate(parts, axis=1)
+def _scan(lad: _Ladder, x0, n_segments):
+    r"""States on the shared scaled grid.
+
+    Points: 0, then 4 steps of :math:`u_1` up to :math:`\tau_0 = 2^{-10}`, then for
+    :math:`d = 0 .. S-1` 28 steps of :math:`u_{d+1}` from :math:`\tau_0 8^d` to
+    :math:`\tau_0 8^{d+1}`.  Returns scaled times (M,), states (b, M, na) and the ladder
+    level of each interval (M - 1,).
+    """
+    plan = [(1, 4)] + [(d + 1, 28) for d in range(n_segments)]
+    total = 1 + sum(count for _, count in plan)
+    X = np.empty((x0.shape[0], total, x0.shape[1]))
+    X[:, 0] = x0
+    taus = np.zeros(total)
+    levels = np.empty(total - 1, dtype=np.int64)
+    j = 0
+    x = x0[:, :, None]
+    for level, count in plan:
+        P = np.ascontiguousarray(lad.P[:, level])
+        u = lad.step(level)
+        for _ in range(count):
+            x = np.matmul(P, x)
+            j += 1
+            X[:, j] = x[:, :, 0]
+            taus[j] = taus[j - 1] + u
+            levels[j - 1] = level
+    return taus, X, levels
 
 
-def _hidden_turn_flags(T, D, D2, N, valid) -> np.ndarray:
-    """Intervals (b, M-1, n) where a cubic Hermite model of the derivative (values and
+def _species_values(K, f, x, sp, deriv, level, scale, n):
+    """g and dg/dtau at states x (p, na) for problems (species sp, kind deriv)."""
+    c = x[:, :n]
+    rows = np.arange(x.shape[0])
+    Ki = K[rows, sp, :]  # (p, n)
+    di = np.einsum("pj,pj->p", Ki, c) + (0.0 if f is None else f[sp])
+    g = np.where(deriv, di, c[rows, sp] - level)
+    return g, c[rows, sp], di, Ki
+
+
+def _hidden_turn_flags(T, D, D2, N, s) -> np.ndarray:
+    r"""Intervals (b, M-1, n) where a cubic Hermite model of the derivative (values and
     slopes at both ends) changes sign although both ends have the same sign: two turning
-    points may hide there (the test of :mod:`kinetics.analysis`)."""
-    s = np.sign(D) * (np.abs(D) > N)
-    s = np.where(valid[:, :, None], s, 0.0)
+    points may hide there (the test of :mod:`kinetics.analysis`).
+
+    Only intervals where the slopes point away from the end values at the start and back
+    at the end are candidates (a curve decaying through the interval, as fast exponentials
+    do, makes the cubic overshoot without any turning point), and of those only the ones
+    where the slopes can pull the cubic to zero: with
+    :math:`h_{00} + h_{01} = 1` and :math:`|h_{10}|, |h_{11}| \le 4/27` the cubic stays
+    above :math:`\min(|g_0|, |g_1|) - \tfrac{4}{27}(|m_0| + |m_1|)`.
+    """
     same = (s[:, :-1] == s[:, 1:]) & (s[:, :-1] != 0)
     flag = np.zeros_like(same)
-    if not same.any():
+    sg = s[:, :-1]
+    # a dip to the other sign and back needs the slope to point away from the end values
+    # at the start and back towards them at the end (a curve that decays through the
+    # interval, as fast exponentials do, is not a candidate)
+    cand = same & (np.sign(D2[:, :-1]) == -sg) & (np.sign(D2[:, 1:]) == sg)
+    idx = np.nonzero(cand)
+    if idx[0].size == 0:
         return flag
-    h = np.diff(T, axis=1)[:, :, None]
-    g0, g1, m0, m1 = D[:, :-1], D[:, 1:], h * D2[:, :-1], h * D2[:, 1:]
-    tol = np.maximum(N[:, :-1], N[:, 1:])
+    h = (T[:, 1:] - T[:, :-1])[idx[:2]]
+    g0, g1 = D[:, :-1][idx], D[:, 1:][idx]
+    m0, m1 = h * D2[:, :-1][idx], h * D2[:, 1:][idx]
+    tol = np.maximum(N[:, :-1][idx], N[:, 1:][idx])
+    sg = sg[idx]
+    near = 4.0 / 27.0 * (np.abs(m0) + np.abs(m1)) >= np.minimum(np.abs(g0), np.abs(g1)) - tol
+    idx = tuple(i[near] for i in idx)
+    g0, g1, m0, m1, tol, sg = g0[near], g1[near], m0[near], m1[near], tol[near], sg[near]
+    hit = np.zeros(g0.size, dtype=bool)
     for x in np.linspace(0.0, 1.0, 17)[1:-1]:
         h00 = 2 * x**3 - 3 * x**2 + 1
         h10 = x**3 - 2 * x**2 + x
         h01 = -2 * x**3 + 3 * x**2
         h11 = x**3 - x**2
         p = h00 * g0 + h10 * m0 + h01 * g1 + h11 * m1
-        flag |= same & (np.sign(p) != s[:, :-1]) & (np.abs(p) > tol)
+        hit |= (np.sign(p) != sg) & (np.abs(p) > tol)
+    flag[idx] = hit
     return flag
 
 
-def _hidden_turns(K, f, T, C, s, flags, precision) -> np.ndarray:
+def _hidden_turns(lad: _Ladder, K, f, X, s, flags, ilevel) -> np.ndarray:
     """Members (b,) with a turning point inside a flagged interval.
 
-    Each flagged interval is sampled at 7 interior points (eighths, as in
-    :mod:`kinetics.analysis`) by one exponential of the sub-step from its left end; a
+    Each flagged interval is sampled at its 7 interior eighths (as in
+    :mod:`kinetics.analysis`) by the next lower ladder level from its left end; a
     significant derivative sign different from the interval's sign there is a real hidden
     turning point.  Other flags were artefacts of the cubic model (fast exponential decay
     within one interval).
     """
-    bad = np.zeros(K.shape[0], dtype=bool)
+    b = K.shape[0]
+    n = lad.n
+    bad = np.zeros(b, dtype=bool)
     fb, fj = np.nonzero(flags.any(axis=2))
     if fb.size == 0:
         return bad
-    count = np.bincount(fb, minlength=K.shape[0])
-    bad |= count > 400
-    h = (T[fb, fj + 1] - T[fb, fj]) / 8.0
-    Ks = K[fb] * h[:, None, None]
-    fs = None if f is None else f[None, :] * h[:, None]
-    sub = _propagate(Ks, C[fb, fj], np.arange(9.0), fs, precision)[:, 1:8, :]
+    P = lad.P[fb, ilevel[fj] - 1]
+    x = X[fb, fj]
     Kb = K[fb]
-    D = sub @ np.swapaxes(Kb, 1, 2)
-    if f is not None:
-        D = D + f
-    N = _REL_NOISE_D * (sub @ np.swapaxes(np.abs(Kb), 1, 2) + (0.0 if f is None else np.abs(f)))
-    ss = np.sign(D) * (np.abs(D) > N)
-    ref = s[fb, fj][:, None, :]
-    turn = ((ss != 0) & (ss != ref) & flags[fb, fj][:, None, :]).any(axis=(1, 2))
+    ref = s[fb, fj]
+    fl = flags[fb, fj]
+    turn = np.zeros(fb.size, dtype=bool)
+    for _ in range(7):
+        x = _mv(P, x)
+        c = x[:, :n]
+        D = _mv(Kb, c) + (0.0 if f is None else f)
+        N = _REL_NOISE_D * (_mv(np.abs(Kb), c) + (0.0 if f is None else np.abs(f)))
+        ss = np.sign(D) * (np.abs(D) > N)
+        turn |= ((ss != 0) & (ss != ref) & fl).any(axis=1)
     bad[fb[turn]] = True
     return bad
 
 
-def _newton(K, c0, f, member, species, a, b, ga, deriv, level, precision):
-    """Safeguarded Newton iteration on g(t) = D_i(t) (deriv) or c_i(t) - level.
+def _refine(lad: _Ladder, K, f, member, sp, deriv, level, tau_a, x_a, ilev, sign_a):
+    r"""Roots [s] and c_i at the roots [conc] for bracket problems starting on the scan.
 
-    All problems advance together (one stacked engine call per iteration).  The bracket
-    [a, b] with g(a) of sign ga is kept; a Newton step that leaves it is replaced by the
-    midpoint.  Returns the roots [s] and c_i at the last evaluated point [conc].
+    1. *Narrowing by eighths*: a bracket of one interval of ladder level l is split into
+       eight by level l - 1 (seven products from its left end); the first eighth whose end
+       has the other sign becomes the bracket, down to level 0 (width 2^-15 scaled).
+    2. *Newton*: on the last bracket the state is the nonnegative Taylor series
+       :math:`x(\delta) = e^{-\sigma\delta} \sum_k \delta^k B^k x_a / k!` (a few terms, as
+       :math:`\delta \|B\| \le 10^{-3}`); Newton steps on g with the exact derivative
+       (:math:`dg/dt = (K D)_i` for a maximum, :math:`D_i` for a half-life) and a
+       bisection safeguard, until the step is below 1e-13 of the time.
     """
-    m = a.size
-    a = a.copy()
-    b = b.copy()
-    root = np.full(m, np.nan)
-    height = np.full(m, np.nan)
-    x = 0.5 * (a + b)
-    active = np.ones(m, dtype=bool)
-    sa = np.sign(ga)
-    shrink = b - a
-    for it in range(_MAX_NEWTON):
-        k = np.flatnonzero(active)
-        if k.size == 0:
+    n = lad.n
+    m = member
+    Kp = K[m]
+    tau_a = tau_a.copy()
+    x_a = x_a.copy()
+    lev = ilev.copy()
+    while True:
+        act = np.flatnonzero(lev > 0)
+        if act.size == 0:
             break
-        mk = member[k]
-        fk = None if f is None else f
-        C = _at_times(K[mk], c0[mk], fk, x[k], precision)
-        rows = np.arange(k.size)
-        Kk = K[mk]
-        D = np.einsum("bij,bj->bi", Kk, C)
-        if f is not None:
-            D = D + f
-        sp = species[k]
-        ci = C[rows, sp]
-        di = D[rows, sp]
-        dk = deriv[k]
-        if dk.any():
-            D2i = np.einsum("bj,bj->b", Kk[rows, sp, :], D)
-        else:
-            D2i = np.zeros(k.size)
-        g = np.where(dk, di, ci - level[k])
-        gp = np.where(dk, D2i, di)
-        height[k] = ci
-        hit = g == 0
-        left = np.sign(g) == sa[k]
-        a[k] = np.where(left & ~hit, x[k], a[k])
-        b[k] = np.where(~left & ~hit, x[k], b[k])
+        P = lad.P[m[act], lev[act] - 1]
+        u = lad.U0 * 8.0 ** (lev[act] - 1)
+        x = x_a[act]
+        prev = x
+        found = np.zeros(act.size, dtype=bool)
+        new_a = x.copy()
+        shift = np.full(act.size, 7.0)
+        for k in range(1, 8):
+            x = _mv(P, x)
+            g, *_ = _species_values(Kp[act], f, x, sp[act], deriv[act], level[act], None, n)
+            other = (np.sign(g) != sign_a[act]) & (g != 0) | (g == 0)
+            hit = other & ~found
+            new_a[hit] = prev[hit]
+            shift[hit] = k - 1
+            found |= hit
+            prev = x
+        new_a[~found] = prev[~found]  # the change is in the last eighth
+        x_a[act] = new_a
+        tau_a[act] += shift * u
+        lev[act] -= 1
+    # Newton on the Taylor series of the last bracket [tau_a, tau_a + u_0]
+    p = m.size
+    w = lad.U0
+    B = lad.B[m]
+    sig = lad.sigma[m]
+    J = lad.na + 8
+    terms = [x_a]
+    for k in range(1, J + 1):
+        terms.append(_mv(B, terms[-1]) / k)
+    W = np.stack(terms)  # (J+1, p, na)
+    sc = lad.scale[m]
+
+    def state(delta):
+        acc = W[J]
+        for k in range(J - 1, -1, -1):
+            acc = W[k] + delta[:, None] * acc
+        return acc * np.exp(-sig * delta)[:, None]
+
+    lo = np.zeros(p)
+    hi = np.full(p, w)
+    delta = np.full(p, 0.5 * w)
+    height = np.zeros(p)
+    for _ in range(_MAX_NEWTON):
+        x = state(delta)
+        g, ci, di, Ki = _species_values(Kp, f, x, sp, deriv, level, None, n)
+        c = x[:, :n]
+        D = _mv(Kp, c) + (0.0 if f is None else f)
+        d2 = np.einsum("pj,pj->p", Ki, D)
+        gp = np.where(deriv, d2, di) * sc  # dg/dtau
+        height = ci
+        left = np.sign(g) == sign_a
+        lo = np.where(left, delta, lo)
+        hi = np.where(left, hi, delta)
         with np.errstate(divide="ignore", invalid="ignore"):
-            step = g / gp
-            new = x[k] - step
-        bad = ~np.isfinite(new) | (new <= a[k]) | (new >= b[k])
-        if it % 4 == 3:  # bisect when the bracket has not halved in four steps
-            slow = (b[k] - a[k]) > 0.5 * shrink[k]
-            bad |= slow
-            shrink[k] = b[k] - a[k]
-        new = np.where(bad, 0.5 * (a[k] + b[k]), new)
-        done = (
-            hit
-            | (np.abs(new - x[k]) <= _XTOL * np.abs(x[k]))
-            | ((b[k] - a[k]) <= _XTOL * np.abs(b[k]) + 1e-300)
-        )
-        root[k] = np.where(hit, x[k], new)
-        x[k] = new
-        active[k[done]] = False
-    return root, height
+            new = delta - g / gp
+        bad = ~np.isfinite(new) | (new <= lo) | (new >= hi)
+        new = np.where(bad, 0.5 * (lo + hi), new)
+        new = np.where(g == 0, delta, new)
+        done = np.abs(new - delta) <= _XTOL * (tau_a + delta)
+        delta = new
+        if done.all():
+            break
+    return (tau_a + delta) * sc, height
 
 
 # ---------------------------------------------------------------------------------------
@@ -447,7 +568,6 @@ def summarise_batch(
     feed: np.ndarray | None = None,
     *,
     t_window: float | None = None,
-    precision: str = "double",
 ) -> dict[str, np.ndarray]:
     r"""Half-lives, intermediate maxima and long-time limits of a stack of problems.
 
@@ -461,8 +581,6 @@ def summarise_batch(
         Zero-order feed shared by all members [conc/s].
     t_window : float, optional
         End of the time window [s] (only for flags; does not change the quantities).
-    precision : {"double", "auto", "double-double"}
-        Precision of :func:`kinetics.propagate.propagate_batch`.
 
     Returns
     -------
@@ -507,13 +625,13 @@ def summarise_batch(
     fallback = np.zeros(b, dtype=bool)
     for g in np.unique(group_of):
         members = np.flatnonzero(group_of == g)
-        _group(K, c0, f, members, offdiag[members[0]], t_window, precision, out, fallback)
+        _group(K, c0, f, members, offdiag[members[0]], out, fallback)
     if fallback.any():
         _reference(K, c0, f, t_window, out, np.flatnonzero(fallback))
     return out
 
 
-def _group(K, c0, f, members, offdiag, t_window, precision, out, fallback) -> None:
+def _group(K, c0, f, members, offdiag, out, fallback) -> None:
     """Members sharing one nonzero pattern and start pattern."""
     pat = _Pattern(offdiag)
     Kg, cg = K[members], c0[members]
@@ -560,21 +678,24 @@ def _group(K, c0, f, members, offdiag, t_window, precision, out, fallback) -> No
     sc = scale[fast]
     tau_hi = t_hi[fast] / sc
     n_seg = max(1, math.ceil(math.log(float(tau_hi.max()) / _TAU0) / math.log(_SEGMENT_RATIO)))
-    tau, C = _scan(Kf, cf, f, sc, n_seg, precision)
-    T = tau[None, :] * sc[:, None]  # (b, M) real times
+    lad = _Ladder(Kf, f, sc, n_seg + 1)
+    n = Kf.shape[1]
+    x0 = cf if f is None else np.concatenate([cf, np.ones((fast.size, 1))], axis=1)
+    tau, X, ilevel = _scan(lad, x0, n_seg)
+    C = X[:, :, :n]
+    T = tau[None, :] * sc[:, None]  # (b, M) real times [s]
     valid = T <= t_hi[fast][:, None]
-    absK = np.abs(Kf)
     Kt = np.swapaxes(Kf, 1, 2)
     D = C @ Kt
     if f is not None:
         D = D + f
-    N = _REL_NOISE_D * (C @ np.swapaxes(absK, 1, 2) + (0.0 if f is None else np.abs(f)))
+    N = _REL_NOISE_D * (C @ np.abs(Kt) + (0.0 if f is None else np.abs(f)))
     D2 = D @ Kt
 
     # turning points: sign changes of D between significant points
-    s = np.sign(D) * (np.abs(D) > N)
-    s = np.where(valid[:, :, None], s, 0.0)
-    hidden = _hidden_turns(Kf, f, T, C, s, _hidden_turn_flags(T, D, D2, N, valid), precision)
+    s = np.where((np.abs(D) > N) & valid[:, :, None], np.sign(D), 0.0).astype(np.int8)
+    flags = _hidden_turn_flags(T, D, D2, N, s)
+    hidden = _hidden_turns(lad, Kf, f, X, s, flags, ilevel)
     M = s.shape[1]
     steps = np.arange(M)[None, :, None]
     last = np.maximum.accumulate(np.where(s != 0, steps, -1), axis=1)
@@ -583,27 +704,25 @@ def _group(K, c0, f, members, offdiag, t_window, precision, out, fallback) -> No
     change = (s != 0) & (prev >= 0) & (prev_sign != s)
     n_change = change.sum(axis=1)  # (b, n)
     minima = (change & (s > 0)).any(axis=1)  # - to +
-    bad = hidden | (n_change > 1).any(axis=1) | minima.any(axis=1)
+    wide = (change & (steps - prev > 1)).any(axis=(1, 2))  # noise points inside a bracket
+    bad = hidden | wide | (n_change > 1).any(axis=1) | minima.any(axis=1)
     ok = ~bad
 
-    problems_m, problems_s, pa, pb, pga, pderiv, plevel = [], [], [], [], [], [], []
+    pm, ps, pj, pderiv, plevel, psign = [], [], [], [], [], []
     # maxima: one + to - change per species
     mb, mj, mi = np.nonzero(change & (s < 0) & ok[:, None, None])
     if mb.size:
-        ia = prev[mb, mj, mi]
-        problems_m.append(mb)
-        problems_s.append(mi)
-        pa.append(T[mb, ia])
-        pb.append(T[mb, mj])
-        pga.append(D[mb, ia, mi])
+        pm.append(mb)
+        ps.append(mi)
+        pj.append(mj - 1)
         pderiv.append(np.ones(mb.size, dtype=bool))
         plevel.append(np.zeros(mb.size))
+        psign.append(np.ones(mb.size))
     # half-lives: first significant fall below half the start value
     target = 0.5 * cf
     gv = C - target[:, None, :]
     noise = _REL_NOISE_C * np.maximum(C, target[:, None, :])
-    sh = np.sign(gv) * (np.abs(gv) > noise)
-    sh = np.where(valid[:, :, None], sh, 0.0)
+    sh = np.where((np.abs(gv) > noise) & valid[:, :, None], np.sign(gv), 0.0).astype(np.int8)
     neg = sh < 0
     has_neg = neg.any(axis=1) & (cf > 0) & ok[:, None]
     kb = np.argmax(neg, axis=1)  # (b, n)
@@ -612,29 +731,28 @@ def _group(K, c0, f, members, offdiag, t_window, precision, out, fallback) -> No
     if hb.size:
         jb = kb[hb, hi]
         ja = lastpos[hb, jb - 1, hi]
-        problems_m.append(hb)
-        problems_s.append(hi)
-        pa.append(T[hb, ja])
-        pb.append(T[hb, jb])
-        pga.append(gv[hb, ja, hi])
+        # noise points between the last point above and the first below: general route
+        loose = jb - ja > 1
+        bad[hb[loose]] = True
+        keep = ~loose & ~bad[hb]
+        hb, hi, jb = hb[keep], hi[keep], jb[keep]
+        pm.append(hb)
+        ps.append(hi)
+        pj.append(jb - 1)
         pderiv.append(np.zeros(hb.size, dtype=bool))
         plevel.append(target[hb, hi])
-    if problems_m:
-        pm = np.concatenate(problems_m)
-        ps = np.concatenate(problems_s)
+        psign.append(np.ones(hb.size))
+    if pm:
+        pm = np.concatenate(pm)
+        ps = np.concatenate(ps)
+        pj = np.concatenate(pj)
         deriv = np.concatenate(pderiv)
-        roots, heights = _newton(
-            Kf,
-            cf,
-            f,
-            pm,
-            ps,
-            np.concatenate(pa),
-            np.concatenate(pb),
-            np.concatenate(pga),
-            deriv,
-            np.concatenate(plevel),
-            precision,
+        keep = ~bad[pm]
+        pm, ps, pj, deriv = pm[keep], ps[keep], pj[keep], deriv[keep]
+        lvl = np.concatenate(plevel)[keep]
+        sign_a = np.concatenate(psign)[keep]
+        roots, heights = _refine(
+            lad, Kf, f, pm, ps, deriv, lvl, tau[pj], X[pm, pj], ilevel[pj], sign_a
         )
         Lf = L[fast]
         # maxima: global when at least the start value and the long-time limit
