@@ -475,6 +475,8 @@ def parse_condition(text: str, scheme: Scheme) -> tuple[str, float]:
         )
     number = float(match["number"])
     unit = match["unit"].strip()
+    if unit.startswith("/"):  # 0.01/min
+        unit = "1" + unit
     if key == "temperature":
         try:
             kelvin = temperature_to_kelvin(number, unit or "K")

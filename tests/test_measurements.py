@@ -194,6 +194,7 @@ def test_conditions(scheme):
     assert value == pytest.approx(0.25, rel=1e-15)
     key, value = parse_condition("k1=6 1/min", scheme)
     assert (key, value) == ("k1", pytest.approx(0.1, rel=1e-15))  # 6/min = 0.1/s
+    assert parse_condition("k1=6/min", scheme) == ("k1", pytest.approx(0.1, rel=1e-15))
     for text, message in [
         (
             "temperature",
