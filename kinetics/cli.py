@@ -472,3 +472,7 @@ def run() -> None:  # pragma: no cover - console-script entry point
 from .fit_cli import fit as _fit_command  # noqa: E402
 
 cli.add_command(_fit_command)
+
+from .sweep_cli import sweep as _sweep_command  # noqa: E402
+
+cli.add_command(_sweep_command)

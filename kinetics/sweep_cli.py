@@ -1,0 +1,466 @@
+"""The ``kinetics sweep`` command: parameter grids and Monte Carlo uncertainty at scale.
+
+Argument parsing, progress, terminal output and the plot live here; the computation is
+:mod:`kinetics.sweep` and the chunk files and tables :mod:`kinetics.sweep_store`.
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import click
+
+from .errors import UsageError
+
+__all__ = ["sweep", "sweep_figure"]
+
+_QUANTITIES = ("half_life", "t_max", "c_max", "limit")
+_PLOT_FORMATS = (".png", ".svg")
+_TERMINAL_ROWS = 40
+
+
+def _check_table_path(path: Path | None, inputs, option: str) -> Path | None:
+    from .export import check_output_path
+    from .sweep_store import TABLE_FORMATS
+
+    if path is None:
+        return None
+    if path.suffix.lower() not in TABLE_FORMATS:
+        what = f"extension {path.suffix!r}" if path.suffix else "no extension"
+        raise UsageError(
+            f"{option} {str(path)!r} has {what}", "the formats are .csv, .parquet and .json"
+        )
+    return check_output_path(path, inputs)
+
+
+def _plot_target(spec: str, plan) -> tuple[str, str]:
+    """``'t_max:B'`` -> the summary column of that quantity and species."""
+    m = re.match(r"^\s*(?P<q>\w+)\s*[:\s]\s*(?P<species>\S+)\s*$", spec)
+    if not m or m["q"] not in _QUANTITIES:
+        raise UsageError(
+            f"--plot {spec!r} is not QUANTITY:SPECIES",
+            "write e.g. --plot t_max:B (quantities: " + ", ".join(_QUANTITIES) + ")",
+        )
+    for col in plan.columns:
+        if col.quantity == m["q"] and col.species == m["species"]:
+            return col.header, m["q"]
+    names = plan.scheme.species_names
+    if m["species"] not in names:
+        raise UsageError(
+            f"--plot {spec!r}: {m['species']!r} is not a species of the scheme",
+            "the species are " + ", ".join(names),
+        )
+    have = sorted({c.species for c in plan.columns if c.quantity == m["q"]})
+    raise UsageError(
+        f"--plot {spec!r}: {m['q']} does not apply to {m['species']}",
+        (f"it applies to {', '.join(have)}" if have else f"no species has a {m['q']}"),
+    )
+
+
+def sweep_figure(plan, data, column: str, quantity: str):
+    """A matplotlib figure of one summary quantity against the varied parameters.
+
+    One grid axis: a line (Monte Carlo: the median with the 2.5-97.5 % band shaded).  Two
+    grid axes: a heat map (Monte Carlo: of the median).  No grid axis (Monte Carlo only):
+    the median with its 2.5-97.5 % band as one error bar.  Log-spaced axes are drawn on a
+    log scale.
+
+    Parameters
+    ----------
+    plan : SweepPlan
+    data : pandas.DataFrame
+        Grid columns and the plotted column(s).
+    column : str
+        The summary column, e.g. ``t_max B [min]``.
+    quantity : str
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    import numpy as np
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    from .sweep import _band_label
+
+    mc = plan.samples > 0
+    fig = Figure(figsize=(6.4, 4.4), layout="constrained")
+    FigureCanvasAgg(fig)
+    ax = fig.add_subplot()
+    value = _band_label(column, 50.0) if mc else column
+    axes = plan.parameters
+    title = plan.scheme.title or plan.scheme.source
+    if len(axes) == 1:
+        p = axes[0]
+        order = np.argsort(data[p.column].to_numpy())
+        x = data[p.column].to_numpy()[order]
+        y = data[value].to_numpy()[order]
+        if mc:
+            lo = data[_band_label(column, 2.5)].to_numpy()[order]
+            hi = data[_band_label(column, 97.5)].to_numpy()[order]
+            ax.fill_between(x, lo, hi, color="0.8", label="2.5-97.5 %")
+            ax.plot(x, y, "k-o", ms=3, label="median")
+            ax.legend(frameon=False)
+        else:
+            ax.plot(x, y, "k-o", ms=3)
+        ax.set_xlabel(p.column)
+        ax.set_ylabel(value if not mc else column + " (median)")
+        if p.spacing == "log":
+            ax.set_xscale("log")
+    elif len(axes) == 2:
+        p, q = axes
+        nx, ny = p.values.size, q.values.size
+        z = data[value].to_numpy().reshape(nx, ny)
+        mesh = ax.pcolormesh(
+            _edges(q.values, q.spacing),
+            _edges(p.values, p.spacing),
+            z,
+            cmap="cividis",
+            shading="flat",
+        )
+        cbar = fig.colorbar(mesh, ax=ax)
+        cbar.set_label(value)
+        ax.set_xlabel(q.column)
+        ax.set_ylabel(p.column)
+        if q.spacing == "log":
+            ax.set_xscale("log")
+        if p.spacing == "log":
+            ax.set_yscale("log")
+    else:
+        y = float(data[value].iloc[0])
+        lo = float(data[_band_label(column, 2.5)].iloc[0])
+        hi = float(data[_band_label(column, 97.5)].iloc[0])
+        ax.errorbar([0], [y], yerr=[[y - lo], [hi - y]], fmt="ko", capsize=6)
+        ax.set_xticks([0], ["median, 2.5-97.5 %"])
+        ax.set_ylabel(column)
+    ax.set_title(title, fontsize=10)
+    return fig
+
+
+def _edges(values, spacing: str):
+    """Cell edges around grid values (geometric midpoints on a log axis)."""
+    import numpy as np
+
+    v = np.asarray(values, dtype=float)
+    if v.size == 1:
+        return np.array([v[0] * 0.9, v[0] * 1.1]) if v[0] else np.array([-0.5, 0.5])
+    if spacing == "log" and np.all(v > 0):
+        lv = np.log(v)
+        mid = (lv[1:] + lv[:-1]) / 2
+        return np.exp(np.concatenate([[2 * lv[0] - mid[0]], mid, [2 * lv[-1] - mid[-1]]]))
+    mid = (v[1:] + v[:-1]) / 2
+    return np.concatenate([[2 * v[0] - mid[0]], mid, [2 * v[-1] - mid[-1]]])
+
+
+def _print_table(frame) -> None:
+    import math
+
+    from rich.markup import escape
+    from rich.table import Table
+
+    from .terminal import console
+
+    out = console()
+    table = Table(show_edge=False)
+    for c in frame.columns:
+        table.add_column(escape(str(c)), justify="right")
+    for row in frame.head(_TERMINAL_ROWS).itertuples(index=False, name=None):
+        table.add_row(
+            *("" if isinstance(v, float) and not math.isfinite(v) else f"{v:.6g}" for v in row)
+        )
+    out.print(table)
+    if len(frame) > _TERMINAL_ROWS:
+        out.print(f"... {len(frame) - _TERMINAL_ROWS} more rows; write them all with --out")
+
+
+_EPILOG = """\b
+Parameters (NAME), as written in the scheme file:
+  k2                 a rate constant given by value
+  k3.A, k3.Ea        pre-exponential factor and activation energy of
+                     k3 = arrhenius(A = ..., Ea = ...)
+  temperature        the temperature (changes every Arrhenius constant)
+  start:A, excess:W  a start concentration, an excess concentration
+\b
+Values (--vary NAME=VALUES):
+  LO:HI:N[:log][:UNIT]   N values from LO to HI, linear or log spacing
+  V1,V2,V3[:UNIT]        an explicit list (or with the unit after a space)
+  A value without a unit is in the unit the file wrote for that quantity
+  (k2 = 0.045 min-1 -> min-1; the unit of A or Ea; the temperature line's
+  unit; the scheme's concentration unit for start and excess values).
+  Several --vary make a Cartesian grid; the first varies slowest.
+\b
+Monte Carlo (--samples N --spread NAME=SPREAD --seed S):
+  rate constants, A, start and excess values are lognormal: k1=15% means
+  ln k = ln k0 + ln(1.15) z, z standard normal (k0 is the median, the
+  geometric standard deviation is 1.15); temperature and Ea are normal with
+  an absolute standard deviation (temperature=2K, k3.Ea=2kJ/mol) or a
+  percentage.  --out then holds the percentile bands 2.5/50/97.5 of every
+  quantity per grid point, --samples-out every sample, --curves the bands
+  of the concentration curves.
+\b
+Examples:
+  kinetics sweep networks/consecutive_intermediate.scheme --until 3h \\
+      --vary k2=0.01:1:25:log --vary k1=0.06,0.12,0.24 --out sweep.csv
+  kinetics sweep networks/reversible_isomerisation.scheme --until 10h \\
+      --vary temperature=20:80:13:degC --vary kf.Ea=80:100:5:kJ/mol \\
+      --out sweep.parquet --plot t_max:TRANS --plot-out sweep.png
+  kinetics sweep networks/consecutive_intermediate.scheme --until 3h \\
+      --samples 2000 --spread k1=15% --spread k2=10% --seed 1 --out bands.csv
+"""
+
+
+@click.command("sweep", epilog=_EPILOG)
+@click.argument("scheme_file", type=click.Path(dir_okay=True, path_type=Path))
+@click.option(
+    "--vary",
+    "vary",
+    multiple=True,
+    metavar="NAME=VALUES",
+    help="A grid axis, e.g. k2=0.01:1:25:log or temperature=20:80:13:degC.",
+)
+@click.option(
+    "--samples", type=int, default=0, show_default=True, help="Monte Carlo samples per grid point."
+)
+@click.option(
+    "--spread",
+    "spread",
+    multiple=True,
+    metavar="NAME=SPREAD",
+    help="Monte Carlo spread, e.g. k1=15% (lognormal) or temperature=2K (normal).",
+)
+@click.option("--seed", type=int, default=0, show_default=True, help="Seed of the random numbers.")
+@click.option("--until", "until", help="End of the time window with a unit: '90 min', '3h'.")
+@click.option(
+    "--points",
+    type=click.IntRange(min=2),
+    default=None,
+    help="Points of the uniform grid of the curves (default 201).",
+)
+@click.option("--times", "times_text", help="Explicit times with one unit: '0,5,10,30 min'.")
+@click.option("--time-unit", help="Unit of time in the tables (default: the unit of --until).")
+@click.option(
+    "--out",
+    "outputs",
+    multiple=True,
+    type=click.Path(path_type=Path),
+    help="Summary table: .csv, .parquet or .json (several allowed).",
+)
+@click.option(
+    "--samples-out",
+    type=click.Path(path_type=Path),
+    help="Monte Carlo: every sample's row (.csv, .parquet, .json).",
+)
+@click.option(
+    "--curves",
+    "curves_path",
+    type=click.Path(path_type=Path),
+    help="Every concentration curve in long format (Monte Carlo: their bands).",
+)
+@click.option(
+    "--plot",
+    "plot_spec",
+    metavar="QUANTITY:SPECIES",
+    help="Plot one quantity against the grid axes, e.g. t_max:B.",
+)
+@click.option("--plot-out", type=click.Path(path_type=Path), help="The plot file: .png or .svg.")
+@click.option(
+    "--engine",
+    type=click.Choice(["local", "dask"]),
+    default="local",
+    show_default=True,
+    help="Where the chunks run.",
+)
+@click.option(
+    "--scheduler",
+    metavar="ADDRESS",
+    help="Dask scheduler address (default with --engine dask: a local cluster).",
+)
+@click.option(
+    "--workers",
+    type=click.IntRange(min=1),
+    default=None,
+    help="Worker processes of the local Dask cluster (default: CPUs).",
+)
+@click.option(
+    "--chunk-size",
+    type=click.IntRange(min=1),
+    default=2000,
+    show_default=True,
+    help="Parameter sets per stacked batch (and per chunk file).",
+)
+@click.option(
+    "--resume",
+    is_flag=True,
+    help="Continue an interrupted sweep with the same options: compute only the "
+    "chunks missing in <out>.chunks/.",
+)
+@click.option(
+    "--keep-chunks", is_flag=True, help="Keep <out>.chunks/ after the tables are written."
+)
+@click.option(
+    "--precision",
+    type=click.Choice(["double", "auto", "double-double"]),
+    default="double",
+    show_default=True,
+    help="Precision of the propagation engine.",
+)
+@click.option("--no-caution", is_flag=True, help="Do not print the two-line caution on stderr.")
+def sweep(
+    scheme_file,
+    vary,
+    samples,
+    spread,
+    seed,
+    until,
+    points,
+    times_text,
+    time_unit,
+    outputs,
+    samples_out,
+    curves_path,
+    plot_spec,
+    plot_out,
+    engine,
+    scheduler,
+    workers,
+    chunk_size,
+    resume,
+    keep_chunks,
+    precision,
+    no_caution,
+):
+    """Sweep rate constants, Arrhenius parameters, temperature and start values.
+
+    Every parameter set is solved exactly and summarised (half-lives, intermediate
+    maxima, long-time limits); one row per set, first the varied parameters
+    (k2 [min-1]) then t_max B [min], c_max B [mol/L], half_life A [min], limit C
+    [mol/L]; empty cells where a quantity does not apply.  Sets are evaluated in
+    stacked batches; with --out every finished chunk is kept in <out>.chunks/ so
+    that an interrupted sweep continues with --resume.
+    """
+    from .cli import _prepare
+    from .export import check_output_path, check_output_paths
+    from .overview import CAUTION
+    from .parsing import load
+    from .sweep import make_plan
+    from .sweep import sweep as sweep_table
+
+    times, time_unit, _ = _prepare(until, points, times_text, time_unit)
+    if scheduler is not None and engine != "dask":
+        raise UsageError("--scheduler needs --engine dask", "add --engine dask")
+    if workers is not None and (engine != "dask" or scheduler is not None):
+        raise UsageError(
+            "--workers sets the size of a local Dask cluster",
+            "use it with --engine dask and no --scheduler",
+        )
+    if samples_out is not None and not samples:
+        raise UsageError("--samples-out needs --samples", "e.g. --samples 1000 --spread k1=15%")
+    if resume and not (outputs or samples_out or curves_path):
+        raise UsageError("--resume needs the --out of the interrupted sweep", "add --out")
+    if (plot_spec is None) != (plot_out is None):
+        raise UsageError(
+            "--plot and --plot-out go together", "write e.g. --plot t_max:B --plot-out sweep.png"
+        )
+    inputs = [scheme_file]
+    paths = check_output_paths(outputs, inputs, formats={".csv": "", ".parquet": "", ".json": ""})
+    samples_path = _check_table_path(samples_out, inputs, "--samples-out")
+    curves_file = _check_table_path(curves_path, inputs, "--curves")
+    if plot_out is not None:
+        if plot_out.suffix.lower() not in _PLOT_FORMATS:
+            raise UsageError(
+                f"--plot-out {str(plot_out)!r} must end in .png or .svg",
+                "e.g. --plot-out sweep.png",
+            )
+        check_output_path(plot_out, inputs)
+    every = [*paths, samples_path, curves_file, plot_out]
+    named = [p.resolve() for p in every if p is not None]
+    if len(set(named)) != len(named):
+        raise UsageError("two outputs have the same file name", "give each output its own name")
+
+    scheme = load(scheme_file)
+    plan = make_plan(
+        scheme,
+        vary,
+        times,
+        samples=samples,
+        spread=spread,
+        seed=seed,
+        time_unit=time_unit,
+        chunk_size=chunk_size,
+        precision=precision,
+    )
+    plot_column = plot_quantity = None
+    if plot_spec is not None:
+        plot_column, plot_quantity = _plot_target(plot_spec, plan)
+        if not plan.parameters and not plan.samples:
+            raise UsageError("--plot needs at least one --vary", "e.g. --vary k2=0.01:1:25:log")
+        if len(plan.parameters) > 2:
+            raise UsageError(
+                f"--plot draws against one or two varied parameters, not {len(plan.parameters)}",
+                "sweep at most two parameters for a plot",
+            )
+    if not no_caution:
+        click.echo(CAUTION, err=True)
+
+    from .terminal import progress
+
+    plot_data = None
+    with progress(plan.n_chunks, "sweeping") as bar:
+        if paths or samples_path or curves_file:
+            from .sweep import _band_label
+            from .sweep_store import run_sweep
+
+            columns = []
+            if plot_column is not None:
+                columns = list(plan.grid_columns)
+                if plan.samples:
+                    columns += [_band_label(plot_column, p) for p in (2.5, 50.0, 97.5)]
+                else:
+                    columns.append(plot_column)
+            state = {"last": 0}
+
+            def tick(done, total):
+                for _ in range(done - state["last"]):
+                    bar.step()
+                state["last"] = done
+
+            report = run_sweep(
+                plan,
+                paths,
+                curves_path=curves_file,
+                samples_path=samples_path,
+                resume=resume,
+                keep_chunks=keep_chunks,
+                engine=engine,
+                scheduler=scheduler,
+                workers=workers,
+                plot_columns=columns,
+                on_progress=tick,
+            )
+            if report.reused:
+                click.echo(
+                    f"resumed: {report.reused} of {plan.n_chunks} chunks were already "
+                    f"done, computed {report.computed}",
+                    err=True,
+                )
+            for p in report.written:
+                click.echo(f"wrote {p}", err=True)
+            plot_data = report.plot_data
+        else:
+            if engine == "dask":
+                table = sweep_table(scheme, plan, engine="dask", scheduler=scheduler)
+            else:
+                table = sweep_table(scheme, plan)
+            if plan.samples:
+                from .sweep import percentile_bands
+
+                table = percentile_bands(plan, table)
+            _print_table(table)
+            plot_data = table
+    if plot_column is not None:
+        from .plotting import save_figure
+
+        save_figure(sweep_figure(plan, plot_data, plot_column, plot_quantity), plot_out)
+        click.echo(f"wrote {plot_out}", err=True)
