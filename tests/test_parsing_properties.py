@@ -1,0 +1,406 @@
+"""Property tests of the scheme language.
+
+1. Random valid schemes (names, coefficients, shared and own-line constants,
+   reversible steps, start values, excess co-reactants, noise in spacing and
+   comments) are written as text and parsed back; the scheme must be the one
+   the generator built: species order, constants, steps, initial values and the
+   rate matrix, which the test assembles itself from the definition
+   dK/dt: K[r, r] -= k, K[p, r] += nu k (common practice, no source).
+2. Random text and random mutations of valid lines never raise anything but
+   our own error type.
+3. The fast reader of plain reaction lines returns exactly what the general
+   reader returns.
+"""
+
+from __future__ import annotations
+
+import string
+from dataclasses import dataclass, field
+from fractions import Fraction
+
+import numpy as np
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from kinetics import KineticsError, parse
+from kinetics.balance import mass_balance
+from kinetics.network import summarise_network
+from kinetics.parsing import ReactionStatement, _fast_reaction, _Line
+
+SETTINGS = settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+
+# Unit factors to SI from the SI brochure (9th ed., 2019): 1 min = 60 s, 1 h = 3600 s,
+# 1 d = 86400 s, 1 L = 1e-3 m^3; M = mol/L.
+FIRST_ORDER_UNITS = {
+    "1/s": Fraction(1),
+    "s-1": Fraction(1),
+    "s⁻¹": Fraction(1),
+    "1/min": Fraction(1, 60),
+    "min-1": Fraction(1, 60),
+    "h-1": Fraction(1, 3600),
+    "d-1": Fraction(1, 86400),
+}
+SECOND_ORDER_UNITS = {  # in (mol/L)^-1 s^-1, i.e. per unit of the scheme's mol/L values
+    "M-1 s-1": Fraction(1),
+    "L mol-1 s-1": Fraction(1),
+    "M-1 min-1": Fraction(1, 60),
+}
+CONCENTRATION_UNITS = {"mol/L": Fraction(1), "mmol/L": Fraction(1, 1000), "M": Fraction(1)}
+RESERVED = {"start", "excess", "feed", "formula", "molar_mass", "temperature", "title"}
+RESERVED |= {"balance", "arrhenius", "nan", "inf", "infinity"}
+
+names = (
+    st.text(string.ascii_letters, min_size=1, max_size=1)
+    .flatmap(
+        lambda first: st.text(string.ascii_letters + string.digits + "_'", max_size=5).map(
+            lambda rest: first + rest
+        )
+    )
+    .filter(lambda n: n.lower() not in RESERVED)
+)
+decimals = st.sampled_from(["1", "2", "0.5", "1.5", "3", "0.25", "2.0"])
+values = st.one_of(
+    st.integers(1, 999).map(str),
+    st.tuples(st.integers(1, 9999), st.integers(-8, 3)).map(lambda t: f"{t[0]}e{t[1]}"),
+    st.tuples(st.integers(0, 99), st.integers(1, 999)).map(lambda t: f"{t[0]}.{t[1]:03d}"),
+).filter(lambda v: Fraction(v) > 0)
+
+
+@dataclass
+class Model:
+    """What the generator means: the expected scheme, built without the parser."""
+
+    lines: list[str] = field(default_factory=list)
+    species: list[str] = field(default_factory=list)  # matrix order
+    excess: dict[str, Fraction] = field(default_factory=dict)  # [mol/L]
+    constants: dict[str, tuple[Fraction, int]] = field(default_factory=dict)  # SI, order
+    steps: list[tuple[str, list[tuple[Fraction, str]], str, list[str]]] = field(
+        default_factory=list
+    )
+    initial: dict[str, Fraction] = field(default_factory=dict)  # [concentration unit]
+    unit: str = "mol/L"
+
+
+def noise(draw) -> tuple[str, str]:
+    """Random spacing and an optional trailing comment."""
+    gap = draw(st.sampled_from([" ", "  ", "\t", "    "]))
+    comment = draw(st.sampled_from(["", "", "  # note", "#x", " # k = 1 1/s -> B"]))
+    return gap, comment
+
+
+@st.composite
+def schemes(draw) -> Model:
+    model = Model()
+    pool = draw(st.lists(names, min_size=2, max_size=9, unique=True))
+    n_excess = draw(st.integers(0, min(2, len(pool) - 2)))
+    excess_names, movers = pool[:n_excess], pool[n_excess:]
+    excess_text = {w: draw(values) for w in excess_names}
+    for w, text in excess_text.items():
+        model.excess[w] = Fraction(text)
+    shared: dict[int, list[str]] = {0: [], 1: []}  # constants by order, for sharing by name
+    appearances: dict[str, list[str]] = {}  # reaction line -> its species, left to right
+    counter = 0
+
+    def new_constant(order: int) -> tuple[str, str]:
+        nonlocal counter
+        counter += 1
+        name = f"k{counter}"
+        units = FIRST_ORDER_UNITS if order == 0 else SECOND_ORDER_UNITS
+        unit = draw(st.sampled_from(sorted(units)))
+        value = draw(values)
+        factor = units[unit] if order == 0 else units[unit] / 1000  # (mol/L)^-1 -> m^3/mol
+        model.constants[name] = (Fraction(value) * factor, order)
+        shared[order].append(name)
+        return name, f"{name} = {value} {unit}"
+
+    def constant_text(order: int) -> tuple[str, str]:
+        how = draw(st.sampled_from(["inline", "inline", "shared", "own line"]))
+        if how == "shared" and shared[order]:
+            name = draw(st.sampled_from(shared[order]))
+            return name, name
+        name, definition = new_constant(order)
+        if how == "own line":
+            model.lines.append(definition)
+            return name, name
+        return name, definition
+
+    for _ in range(draw(st.integers(1, 8))):
+        reactant = draw(st.sampled_from(movers))
+        partner = draw(st.sampled_from([None, *excess_names])) if excess_names else None
+        arrow_kind = draw(st.sampled_from(["->", "→", "<=>", "⇌"]))
+        reversible = arrow_kind in ("<=>", "⇌")
+        if reversible:
+            product = draw(st.sampled_from([m for m in movers if m != reactant] or [None]))
+            if product is None:
+                reversible, arrow_kind = False, "->"
+        left = [(Fraction(1), reactant)] + ([(Fraction(1), partner)] if partner else [])
+        if reversible:
+            right = [(Fraction(1), product)]
+        else:
+            candidates = [m for m in pool if m != reactant]
+            chosen = draw(st.lists(st.sampled_from(candidates), min_size=1, max_size=3))
+            right = [(Fraction(draw(decimals)), n) for n in chosen]
+        gap, comment = noise(draw)
+
+        def side(terms):
+            return " + ".join(
+                n if c == 1 and draw(st.booleans()) else f"{c_text(c)} {n}" for c, n in terms
+            )
+
+        def c_text(c: Fraction) -> str:
+            return str(int(c)) if c.denominator == 1 else str(float(c))
+
+        order = 1 if partner else 0
+        k_name, k_text = constant_text(order)
+        constants_text = k_text
+        names_used = [k_name]
+        if reversible:
+            kr_name, kr_text = constant_text(0)
+            constants_text += ", " + kr_text
+            names_used.append(kr_name)
+        text = f"{side(left)} {arrow_kind} {side(right)}{gap}{constants_text}{comment}"
+        if text in appearances:
+            continue  # the very same line twice: keep the generator's bookkeeping simple
+        model.lines.append(text)
+        appearances[text] = [n for _, n in left + right]
+        model.steps.append((reactant, right, k_name, [partner] if partner else []))
+        if reversible:
+            model.steps.append((product, left, names_used[1], []))
+
+    # start values in one concentration unit (some species only)
+    model.unit = draw(st.sampled_from(sorted(CONCENTRATION_UNITS)))
+    matrix_species = sorted(
+        {n for names in appearances.values() for n in names} - set(excess_names)
+    )
+    started = draw(st.lists(st.sampled_from(matrix_species), unique=True, max_size=4))
+    if started:
+        items = []
+        for name in started:
+            value = draw(values)
+            model.initial[name] = Fraction(value)
+            items.append(f"{name} = {value} {model.unit}")
+        model.lines.append("start " + ", ".join(items))
+    else:
+        model.unit = "mol/L"  # the default, or the unit of the first excess value
+    used = {n for names in appearances.values() for n in names}
+    model.excess = {w: v for w, v in model.excess.items() if w in used}
+    if model.excess:
+        model.lines.append(
+            "excess " + ", ".join(f"{w} = {excess_text[w]} mol/L" for w in model.excess)
+        )
+    # shuffle the lines: the language does not depend on their order ...
+    order = draw(st.permutations(range(len(model.lines))))
+    model.lines = [model.lines[i] for i in order]
+    # ... except for the species order: first appearance in the reactions as they now stand
+    model.species = []
+    for line in model.lines:
+        for name in appearances.get(line, []):
+            if name not in excess_names and name not in model.species:
+                model.species.append(name)
+    return model
+
+
+def expected_rate_matrix(model: Model) -> np.ndarray:
+    n = len(model.species)
+    index = {s: i for i, s in enumerate(model.species)}
+    K = np.zeros((n, n))
+    for reactant, products, constant, partners in model.steps:
+        k = model.constants[constant][0]
+        for w in partners:  # k_eff = k [W] with [W] in mol/m^3 (SI)
+            k = k * model.excess[w] * 1000
+        rate = float(k)
+        r = index[reactant]
+        K[r, r] -= rate
+        for nu, p in products:
+            if p in index:
+                K[index[p], r] += float(nu) * rate
+    return K
+
+
+@SETTINGS
+@given(schemes())
+def test_round_trip_of_random_valid_schemes(model):
+    text = "\n".join(model.lines)
+    scheme = parse(text, "generated.scheme")
+    assert scheme.species_names == model.species, text
+    assert {k: c.value_si for k, c in scheme.constants.items()} == {
+        k: v for k, (v, _) in model.constants.items()
+    }
+    assert {k: c.order for k, c in scheme.constants.items()} == {
+        k: o for k, (_, o) in model.constants.items()
+    }
+    assert sorted((s.reactant, s.constant) for s in scheme.steps) == sorted(
+        (r, c) for r, _, c, _ in model.steps
+    )
+    assert scheme.concentration_unit == model.unit
+    assert scheme.initial == {k: float(v) for k, v in model.initial.items()}
+    expected_c0 = [float(model.initial.get(s, 0)) for s in model.species]
+    np.testing.assert_array_equal(scheme.initial_vector, expected_c0)
+    per_unit = CONCENTRATION_UNITS[model.unit]  # mol/L per unit of the scheme
+    assert scheme.excess == {k: float(v / per_unit) for k, v in model.excess.items()}
+    K = expected_rate_matrix(model)
+    # the same sums in another order: a few ulps apart at most
+    np.testing.assert_allclose(scheme.rate_matrix(), K, rtol=1e-14, atol=1e-300)
+    np.testing.assert_allclose(scheme.rate_matrix_sparse().toarray(), K, rtol=1e-14, atol=1e-300)
+
+
+# ---------------------------------------------------------------------------
+# robustness: nothing but our own errors
+
+ALPHABET = st.sampled_from(
+    list("AB CWk=0123456789.e-+<>→⇌#,()/*^⁻¹_'\t:é")
+    + [
+        "->",
+        "<=>",
+        "mol",
+        "L",
+        "s",
+        "min",
+        "M",
+        "arrhenius(",
+        "start ",
+        "excess ",
+        "feed ",
+        "formula ",
+        "molar_mass ",
+        "temperature = ",
+        "title:",
+        "balance:",
+        "nan",
+        "inf",
+        "1e999",
+        "\x00",
+        "\r",
+        "\n",
+    ]
+)
+VALID_LINES = [
+    "title: x",
+    "A -> B + 2 C    k1 = 0.12 1/min",
+    "B <=> D    kf = 2.0e-3 1/s, kr = 5.0e-4 1/s",
+    "C + W -> E  k2 = 1.5e-4 M-1 s-1",
+    "k3 = arrhenius(A = 1.0e13 1/s, Ea = 95 kJ/mol)",
+    "E -> F k3",
+    "temperature = 60 degC",
+    "start A = 0.50 mol/L, B = 10 mmol/L",
+    "excess W = 55 mol/L",
+    "feed A = 0.01 mol/L/min",
+    "formula A = C6H12O6, B = C6H12O6, C = H2O",
+    "molar_mass F = 180.2 g/mol",
+    "balance: lumped",
+]
+
+
+def exercise(text: str) -> None:
+    try:
+        scheme = parse(text, "fuzz.scheme")
+    except KineticsError as exc:
+        message = str(exc)  # formatting the message must not fail either
+        assert message
+        for error in getattr(exc, "errors", []):
+            assert error.line >= 0 and error.column >= 0
+        return
+    scheme.rate_matrix()
+    scheme.rate_matrix_sparse()
+    mass_balance(scheme)
+    summarise_network(scheme)
+
+
+@SETTINGS
+@given(st.text(max_size=200))
+def test_random_text_raises_only_our_errors(text):
+    exercise(text)
+
+
+@SETTINGS
+@given(st.lists(ALPHABET, max_size=60).map("".join))
+def test_random_token_soup_raises_only_our_errors(text):
+    exercise(text)
+
+
+@st.composite
+def mutated_schemes(draw) -> str:
+    lines = list(VALID_LINES)
+    for _ in range(draw(st.integers(1, 4))):
+        i = draw(st.integers(0, len(lines) - 1))
+        line = lines[i]
+        op = draw(st.sampled_from(["delete", "insert", "replace", "cut", "duplicate"]))
+        j = draw(st.integers(0, len(line)))
+        if op == "delete" and line:
+            j = min(j, len(line) - 1)
+            line = line[:j] + line[j + 1 :]
+        elif op == "insert":
+            line = line[:j] + draw(ALPHABET) + line[j:]
+        elif op == "replace" and line:
+            j = min(j, len(line) - 1)
+            line = line[:j] + draw(ALPHABET) + line[j + 1 :]
+        elif op == "cut":
+            k = draw(st.integers(j, len(line)))
+            line = line[:j] + line[k:]
+        else:
+            lines.insert(i, line)
+        lines[i] = line
+    return "\n".join(lines)
+
+
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(mutated_schemes())
+def test_mutated_valid_schemes_raise_only_our_errors(text):
+    exercise(text)
+
+
+@pytest.mark.parametrize(
+    "text",
+    [
+        "A -> B  k1 = 1 min**-99999999",  # huge exponents must not hang the exact conversion
+        "A -> B  k1 = 1 ((min^12)^12)^12",
+        "A -> B  k1 = 1 2^99999",
+        "A + 99999999 W -> B  k1 = 1 M-1 s-1\nexcess W = 2 M",
+        "A -> B  k1 = 1 1/s\nstart A = 1 (",
+        "A -> B  k1 = 1 1/s\nformula A = " + "(" * 500,
+        "A -> B  k1 = arrhenius(A = 1e300 1/s, Ea = 0 J/mol)\ntemperature = 1e-300 K",
+        "A -> B  k1 = arrhenius(A = 1 1/s, Ea = 1e308 kJ/mol)\ntemperature = 300 K",
+        "\ufeff\x00\x0b",
+    ],
+)
+def test_known_hard_inputs_raise_only_our_errors(text):
+    exercise(text)
+
+
+# ---------------------------------------------------------------------------
+# fast reader == general reader
+
+reaction_lines = st.builds(
+    lambda left, arrow, right, gap, refs: f"{left}{arrow}{right}{gap}{refs}",
+    st.sampled_from(["A", "A ", " A + W ", "2 A", "A+W", "start", "A'"]),
+    st.sampled_from(["->", " -> ", "→", "<=>", " ⇌ ", "-->", "=>"]),
+    st.sampled_from(["B", " B + 2 C", "0.5B+1.5 C_2", ".5 D", "B +", "0 B", "excess"]),
+    st.sampled_from([" ", "  ", "\t", ""]),
+    st.sampled_from(
+        [
+            "k1",
+            "k1 = 0.1 1/s",
+            "k1=2.0e-3 M-1 s-1",
+            "kf = 1 1/s, kr = 2 1/s",
+            "kf = 1 1/s,kr",
+            "k1 = 1e999 1/s",
+            "k1 = 0.1",
+            "k1 = 1 1/(M s)",
+            "k1 = -1 1/s",
+            "k1 = 1. s-1",
+            "k1 = .5 min-1 ",
+            "k1 = 1 s->",
+            "arrhenius = 1 1/s",
+        ]
+    ),
+)
+
+
+@settings(max_examples=200, deadline=None)
+@given(reaction_lines)
+def test_fast_reader_agrees_with_the_general_reader(code):
+    line = _Line("x", 1, code, code)
+    fast = _fast_reaction(line)
+    if fast is not None:
+        assert fast == ReactionStatement.from_line_general(line)
