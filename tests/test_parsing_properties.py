@@ -248,33 +248,10 @@ def test_round_trip_of_random_valid_schemes(model):
 # ---------------------------------------------------------------------------
 # robustness: nothing but our own errors
 
-ALPHABET = st.sampled_from(
-    list("AB CWk=0123456789.e-+<>→⇌#,()/*^⁻¹_'\t:é")
-    + [
-        "->",
-        "<=>",
-        "mol",
-        "L",
-        "s",
-        "min",
-        "M",
-        "arrhenius(",
-        "start ",
-        "excess ",
-        "feed ",
-        "formula ",
-        "molar_mass ",
-        "temperature = ",
-        "title:",
-        "balance:",
-        "nan",
-        "inf",
-        "1e999",
-        "\x00",
-        "\r",
-        "\n",
-    ]
-)
+TOKENS = ["->", "<=>", "mol", "L", "s", "min", "M", "arrhenius(", "start ", "excess ", "feed "]
+TOKENS += ["formula ", "molar_mass ", "temperature = ", "title:", "balance:", "nan", "inf"]
+TOKENS += ["1e999", "\x00", "\r", "\n"]
+ALPHABET = st.sampled_from([*"AB CWk=0123456789.e-+<>→⇌#,()/*^⁻¹_'\t:é", *TOKENS])
 VALID_LINES = [
     "title: x",
     "A -> B + 2 C    k1 = 0.12 1/min",
@@ -299,7 +276,8 @@ def exercise(text: str) -> None:
         message = str(exc)  # formatting the message must not fail either
         assert message
         for error in getattr(exc, "errors", []):
-            assert error.line >= 0 and error.column >= 0
+            assert error.line >= 0
+            assert error.column >= 0
         return
     scheme.rate_matrix()
     scheme.rate_matrix_sparse()
