@@ -428,15 +428,21 @@ def _expm_stack(A, t, precision: str, target: float | None = None):
     is_dd = np.zeros(b, dtype=bool)
     groups: dict[tuple, list[int]] = {}
     plans: dict[tuple, _Plan] = {}
+    # plans are chosen for beta rounded up to a quarter power of two: a plan
+    # valid for a larger norm is valid (conservative), and sweeps reuse plans
+    with np.errstate(divide="ignore"):
+        beta_q = np.where(beta > 0, 2.0 ** (np.ceil(4.0 * np.log2(beta)) / 4.0), 0.0)
+    beta_q = np.maximum(beta_q, beta)
     for i in range(b):
         route = precision
+        bq = float(beta_q[i])
         if route == "auto":
-            p = _plan(beta[i], n, "double", _U / 2)
+            p = _plan(bq, n, "double", _U / 2)
             route = (
                 "double" if _double_bound_apriori(beta[i], n, p) <= AUTO_RTOL else "double-double"
             )
         tgt = target if target is not None else (_U / 2 if route == "double" else 2.0**-64)
-        p = _plan(beta[i], n, route, tgt)
+        p = _plan(bq, n, route, tgt)
         key = (p.route, p.j, p.ps, p.pr)
         groups.setdefault(key, []).append(i)
         plans[key] = p
