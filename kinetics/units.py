@@ -34,8 +34,9 @@ __all__ = [
     "temperature_to_kelvin",
 ]
 
-#: Molar gas constant R [J/(mol K)], exact in the 2019 SI (CODATA 2018).
-GAS_CONSTANT = 8.314462618
+#: Molar gas constant R [J/(mol K)]: exactly N_A k = 6.02214076e23 * 1.380649e-23
+#: = 8.31446261815324 in the 2019 SI (CODATA 2018; both factors are defined exactly).
+GAS_CONSTANT = 8.31446261815324
 
 _SUPERSCRIPTS = str.maketrans("⁰¹²³⁴⁵⁶⁷⁸⁹⁻⁺", "0123456789-+")
 _PIECE = re.compile(r"\(|\)|/|\*|[^\s*/·⋅()]+")

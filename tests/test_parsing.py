@@ -834,20 +834,21 @@ def test_constant_defined_after_its_use():
 
 def test_arrhenius_in_kelvin():
     s = parse("A -> B  k3 = arrhenius(A = 1.0e13 1/s, Ea = 95 kJ/mol)\ntemperature = 350 K")
-    # k = A exp(-Ea/RT) (Arrhenius 1889) with R = 8.314462618 J/(mol K) (CODATA 2018),
-    # evaluated with mpmath at 30 digits: 0.0664206482462492476432596675435
-    assert s.rates[0] == pytest.approx(0.06642064824624925, rel=1e-13, abs=0)
+    # k = A exp(-Ea/RT) (Arrhenius 1889) with R = N_A k = 8.31446261815324 J/(mol K)
+    # (exact in the 2019 SI, CODATA 2018), evaluated with mpmath at 30 digits:
+    # 0.0664206482862126489469654310037
+    assert s.rates[0] == pytest.approx(0.06642064828621265, rel=1e-13, abs=0)
     assert s.temperature == 350.0
 
 
 def test_arrhenius_in_degrees_celsius():
     s = parse("k3 = arrhenius(A = 1.0e13 1/s, Ea = 95 kJ/mol)\nA -> B  k3\ntemperature = 60 degC")
     # 60 degC = 333.15 K (SI); k = A exp(-Ea/RT) (Arrhenius 1889), R from CODATA 2018,
-    # mpmath at 30 digits: 0.0127416637438466086969983830365
+    # mpmath at 30 digits: 0.0127416637519006471869916357799
     assert s.temperature == 333.15
-    assert s.rates[0] == pytest.approx(0.012741663743846609, rel=1e-13, abs=0)
+    assert s.rates[0] == pytest.approx(0.012741663751900647, rel=1e-13, abs=0)
     # by hand in floats, the same formula
-    by_hand = 1.0e13 * math.exp(-95_000.0 / (8.314462618 * 333.15))
+    by_hand = 1.0e13 * math.exp(-95_000.0 / (8.31446261815324 * 333.15))
     assert s.rates[0] == pytest.approx(by_hand, rel=1e-14, abs=0)
 
 
@@ -856,9 +857,11 @@ def test_arrhenius_second_order_with_excess():
         "A + W -> B  k = arrhenius(A = 2e9 L mol-1 s-1, Ea = 60 kJ/mol)\n"
         "excess W = 0.5 mol/L\ntemperature = 298.15 K"
     )
-    # k_eff = A exp(-Ea/RT) [W] (Arrhenius 1889; pseudo-first-order, common practice)
-    expected = 2e9 * math.exp(-60_000.0 / (8.314462618 * 298.15)) * 0.5
+    # k_eff = A exp(-Ea/RT) [W] (Arrhenius 1889; pseudo-first-order, common practice);
+    # mpmath at 30 digits: 0.0307931969971405058128525480732
+    expected = 2e9 * math.exp(-60_000.0 / (8.31446261815324 * 298.15)) * 0.5
     assert s.rates[0] == pytest.approx(expected, rel=1e-13, abs=0)
+    assert s.rates[0] == pytest.approx(0.030793196997140506, rel=1e-13, abs=0)
 
 
 def test_all_directives():

@@ -1,0 +1,195 @@
+"""Units: chemists' notation, exact factors, dimensions, temperatures.
+
+Reference values are the SI definitions (BIPM, The International System of Units,
+9th edition, 2019): 1 min = 60 s, 1 h = 3600 s, 1 d = 86400 s, 1 L = 1 dm^3 =
+1e-3 m^3, T/K = t/degC + 273.15; the thermochemical calorie is 4.184 J exactly
+(NIST SP 811, 2008); R = N_A k (CODATA 2018, exact).
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction
+
+import pytest
+
+from kinetics.units import (
+    GAS_CONSTANT,
+    MAX_EXPONENT,
+    concentration_order,
+    convert,
+    describe_dimension,
+    normalise_unit,
+    parse_unit,
+    temperature_to_kelvin,
+)
+
+
+@pytest.mark.parametrize(
+    ("written", "pint_form"),
+    [
+        ("M-1 s-1", "M**-1*s**-1"),
+        ("L mol-1 s-1", "L*mol**-1*s**-1"),
+        ("s⁻¹", "s**-1"),
+        ("M⁻¹ s⁻¹", "M**-1*s**-1"),
+        ("s^-1", "s**-1"),
+        ("s ** -1", "s**-1"),
+        ("mol/L/min", "mol/L/min"),
+        ("mol·L⁻¹", "mol*L**-1"),
+        ("M-1s-1", "M**-1*s**-1"),
+        ("(mol/L)-1 s-1", "(mol/L)**-1*s**-1"),
+        ("µmol/L", "umol/L"),
+        ("μM", "uM"),
+        ("°C", "degC"),
+        ("m3", "m**3"),
+    ],
+)
+def test_normalise_unit(written, pint_form):
+    assert normalise_unit(written) == pint_form
+
+
+@pytest.mark.parametrize(
+    ("unit", "factor", "dims"),
+    [
+        ("1/s", Fraction(1), {"[time]": -1}),
+        ("s-1", Fraction(1), {"[time]": -1}),
+        ("min-1", Fraction(1, 60), {"[time]": -1}),
+        ("h-1", Fraction(1, 3600), {"[time]": -1}),
+        ("d-1", Fraction(1, 86400), {"[time]": -1}),
+        ("1/ms", Fraction(1000), {"[time]": -1}),
+        ("M", Fraction(1000), {"[substance]": 1, "[length]": -3}),
+        ("mol/L", Fraction(1000), {"[substance]": 1, "[length]": -3}),
+        ("mmol/L", Fraction(1), {"[substance]": 1, "[length]": -3}),
+        ("mM", Fraction(1), {"[substance]": 1, "[length]": -3}),
+        ("nM", Fraction(1, 10**6), {"[substance]": 1, "[length]": -3}),
+        ("mol dm-3", Fraction(1000), {"[substance]": 1, "[length]": -3}),
+        ("M-1 s-1", Fraction(1, 1000), {"[substance]": -1, "[length]": 3, "[time]": -1}),
+        ("L mol-1 s-1", Fraction(1, 1000), {"[substance]": -1, "[length]": 3, "[time]": -1}),
+        ("mol/L/min", Fraction(1000, 60), {"[substance]": 1, "[length]": -3, "[time]": -1}),
+        ("g/mol", Fraction(1, 1000), {"[mass]": 1, "[substance]": -1}),
+        ("kJ/mol", Fraction(1000), {"[mass]": 1, "[length]": 2, "[time]": -2, "[substance]": -1}),
+        ("kcal/mol", Fraction(4184), {"[mass]": 1, "[length]": 2, "[time]": -2, "[substance]": -1}),
+        ("", Fraction(1), {}),
+        ("%", Fraction(1, 100), {}),
+    ],
+)
+def test_exact_factors_and_dimensions(unit, factor, dims):
+    spec = parse_unit(unit)
+    assert spec.factor == factor
+    assert spec.dims == dims
+    assert not spec.offset
+    assert spec.text == unit
+
+
+def test_offset_units_are_flagged():
+    assert parse_unit("degC").offset
+    assert parse_unit("°C").offset
+    assert not parse_unit("K").offset
+
+
+@pytest.mark.parametrize(
+    "bad",
+    [
+        "sek-1",
+        "per s",
+        "2^99999",
+        "min-99",
+        f"s^{MAX_EXPONENT + 1}",
+        "((min^12)^12)^12",
+        "1e5",
+        "s*2",
+        "1/0",
+        "(",
+        "M B = 2 M",
+    ],
+)
+def test_unknown_or_unsafe_units_raise_value_error(bad):
+    with pytest.raises(ValueError):  # noqa: PT011 - callers turn it into a located error
+        parse_unit(bad)
+
+
+def test_largest_allowed_exponent_is_accepted():
+    assert parse_unit(f"m{MAX_EXPONENT}").dims == {"[length]": MAX_EXPONENT}
+
+
+def test_convert_rounds_once():
+    assert convert(90.0, "min", "h") == 1.5
+    # a float argument is taken at its exact binary value, then divided exactly:
+    assert convert(0.7, "1/min", "1/s") == float(Fraction(0.7) / 60)
+    assert convert(250.0, "mmol/L", "M") == 0.25
+    assert convert(1.0, "d", "s") == 86400.0
+
+
+def test_convert_refuses_different_dimensions_and_offsets():
+    with pytest.raises(ValueError, match=r"cannot convert 'mol' .* to 'mol/L'"):
+        convert(1.0, "mol", "mol/L")
+    with pytest.raises(ValueError, match="temperature_to_kelvin"):
+        convert(1.0, "degC", "K")
+
+
+@pytest.mark.parametrize(
+    ("value", "unit", "kelvin"),
+    [
+        (25.0, "degC", 298.15),
+        (Fraction(60), "°C", 333.15),
+        (-10.0, "degC", 263.15),
+        (300.0, "K", 300.0),
+        (32.0, "degF", 273.15),  # 32 degF = 0 degC (NIST SP 811)
+        (212.0, "degF", 373.15),
+    ],
+)
+def test_temperature_to_kelvin(value, unit, kelvin):
+    assert temperature_to_kelvin(value, unit) == pytest.approx(kelvin, rel=1e-15, abs=1e-12)
+
+
+def test_temperature_to_kelvin_refuses_other_units():
+    with pytest.raises(ValueError, match="is not a temperature unit"):
+        temperature_to_kelvin(1.0, "s")
+
+
+@pytest.mark.parametrize(
+    ("unit", "order"),
+    [
+        ("1/s", 0),
+        ("min-1", 0),
+        ("M-1 s-1", 1),
+        ("L mol-1 s-1", 1),
+        ("L2 mol-2 s-1", 2),
+        ("mol-1 s-1", 1),  # files in amounts
+        ("m", None),
+        ("M s-1", None),
+        ("M-1", None),
+        ("s", None),
+    ],
+)
+def test_concentration_order(unit, order):
+    spec = parse_unit(unit)
+    assert concentration_order(spec.dims) == order
+    assert spec.rate_order == order
+
+
+@pytest.mark.parametrize(
+    ("unit", "phrase"),
+    [
+        ("1/s", "a frequency (1/time)"),
+        ("mol/L", "a concentration (amount/volume)"),
+        ("mol", "an amount of substance"),
+        ("g/mol", "a molar mass"),
+        ("kJ/mol", "a molar energy"),
+        ("K", "a temperature"),
+        ("m", "a length"),
+        ("M-1 s-1", "a rate constant of order 2 (concentration^-1/time)"),
+        ("A", "the dimension current^1"),
+    ],
+)
+def test_describe_dimension(unit, phrase):
+    assert describe_dimension(parse_unit(unit).dims) == phrase
+
+
+def test_gas_constant_is_avogadro_times_boltzmann():
+    # CODATA 2018 / SI 2019: N_A = 6.02214076e23 1/mol, k = 1.380649e-23 J/K, both exact
+    exact = Fraction("6.02214076e23") * Fraction("1.380649e-23")
+    assert GAS_CONSTANT == float(exact)
+
+
+def test_parse_unit_is_cached():
+    assert parse_unit("L mol-1 s-1") is parse_unit("L mol-1 s-1")
