@@ -1095,7 +1095,7 @@ def _bounds(model, theta0):
 def _start_points(model, theta0, lower, upper, starts, seed) -> np.ndarray:
     p = theta0.size
     if starts == "auto":
-        count = 6 + 4 * p
+        count = 4 + 2 * p
     else:
         count = int(starts)
     points = [theta0]
@@ -1192,7 +1192,7 @@ def fit(
         [concentration unit].
     starts : int or "auto", optional
         Number of starting points (the scheme's values plus a scrambled Halton
-        design within ±2 decades); ``"auto"`` is 6 + 4p.
+        design within ±2 decades); ``"auto"`` is 4 + 2p.
     profile : bool, optional
         Compute the profile-likelihood intervals.
     seed : int, optional
@@ -1320,20 +1320,24 @@ def fit(
     threshold += 1e-20 * scale_y
     alternatives = []
     for res, _ in polished[1:]:
-        # an alternative must be separated from the optimum by several standard errors
-        # (points along a flat valley are the near-singular case, reported as such)
-        with np.errstate(invalid="ignore", divide="ignore"):
-            separation = np.abs(res.x - theta) / se_theta
-        if not np.all(np.isfinite(se_theta)) or not np.nanmax(separation) > 3.0:
+        # a second minimum counts when it is a separate basin: the sum of squares rises
+        # between the two points (along a flat valley it does not; a near-singular
+        # Jacobian is reported as such instead)
+        if not cond <= CONDITION_LIMIT or 2.0 * res.cost > threshold:
+            continue
+        if np.max(np.abs(res.x - theta)) <= 1e-3:
             continue
         if any(np.max(np.abs(res.x - model.theta_of(a["_si"]))) < 1e-3 for a in alternatives):
             continue
-        if 2.0 * res.cost <= threshold:
-            vals = model.si_values(res.x) / scale
-            alt = {q.name: float(v) for q, v in zip(params, vals, strict=True)}
-            alt["sum_of_squares"] = 2.0 * float(res.cost)
-            alt["_si"] = dict(zip([q.name for q in params], model.si_values(res.x), strict=True))
-            alternatives.append(alt)
+        r_mid = model.residuals(0.5 * (res.x + theta))
+        barrier = float(r_mid @ r_mid) - 2.0 * max(res.cost, best.cost)
+        if not barrier > 1e-9 * ssr + 1e-20 * scale_y:
+            continue
+        vals = model.si_values(res.x) / scale
+        alt = {q.name: float(v) for q, v in zip(params, vals, strict=True)}
+        alt["sum_of_squares"] = 2.0 * float(res.cost)
+        alt["_si"] = dict(zip([q.name for q in params], model.si_values(res.x), strict=True))
+        alternatives.append(alt)
     for alt in alternatives:
         del alt["_si"]
 
@@ -1672,10 +1676,16 @@ def _warnings(
     if not zero_cols and cond > CONDITION_LIMIT:
         involved = [names[j] for j in range(len(names)) if abs(weak[j]) > 0.2]
         cond_text = "infinite" if not math.isfinite(cond) else f"{cond:.2g}"
+        unmeasured = _unmeasured_intermediates(scheme, measured)
+        advice = "fix one of them, or measure more species or a wider time range."
+        if unmeasured:
+            plural = "s" if len(unmeasured) > 1 else ""
+            advice = (
+                f"measure the intermediate{plural} {_join(unmeasured)} as well, or fix one of them."
+            )
         out.append(
             f"The Jacobian is nearly singular (condition number {cond_text} after scaling): "
-            f"the data determine only a combination of {_join(involved)}, not each one; "
-            "fix one of them, or measure more species or a wider time range."
+            f"the data determine only a combination of {_join(involved)}, not each one; " + advice
         )
     if exact and dof > 0:
         out.append(
