@@ -331,3 +331,16 @@ def test_cli_usage_errors(tmp_path, capsys):
     help_text = capsys.readouterr().out
     for fragment in ("k3.A,k3.Ea", "start:A", "--set", "relative", "column"):
         assert fragment in help_text
+
+
+@pytest.mark.parametrize("seed", [2, 5, 7, 9])
+def test_ambiguity_is_always_reported_when_only_c_is_measured(abc, seed):
+    """Random k1, k2 (seeded), C only: either the two mirrored optima or, when they merge
+    on the line k1 = k2, the near-singular warning; both name the intermediate B."""
+    rng = np.random.default_rng(seed)
+    k1, k2 = rng.uniform(0.02, 0.5, 2)
+    t = np.linspace(0.0, 60.0, 31)[1:]
+    _, c = consecutive(t, k1, k2)
+    frame = pd.DataFrame({"time [min]": t, "C [mol/L]": c + rng.normal(0.0, 0.01, t.size)})
+    result = fit(abc, frame, "k1,k2", profile=False)
+    assert any("intermediate B" in w for w in result.warnings), result.warnings
