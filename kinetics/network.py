@@ -6,7 +6,9 @@ the step indices and constants.  From it:
 
 * **roles**: *starting material* (consumed, never formed), *intermediate*
   (formed and consumed), *end product* (formed, never consumed), *held in
-  excess* (constant co-reactant), *inert* (neither formed nor consumed);
+  excess* (constant co-reactant), *inert* (neither formed nor consumed); a
+  reversible reaction counts in the direction it is written (in ``A <=> B``, A
+  is consumed and B formed);
 * **reversible pairs** (edges both ways), **cycles** (elementary cycles of
   length three or more: irreversible loops), **strongly connected
   components** and **disconnected sub-schemes** (weakly connected components
@@ -103,8 +105,11 @@ def summarise_network(scheme: Scheme, *, max_cycles: int = 50) -> NetworkSummary
     """
     graph = species_graph(scheme)
     order = {name: i for i, name in enumerate(graph.nodes)}
-    consumed = {step.reactant for step in scheme.steps}
-    formed = {p for step in scheme.steps for _, p in step.products if p != step.reactant}
+    # roles follow the reactions as written: a reversible reaction A <=> B counts in its
+    # forward direction only (A is the starting material, B the product)
+    forward = [step for step in scheme.steps if step.direction == "forward"]
+    consumed = {step.reactant for step in forward}
+    formed = {p for step in forward for _, p in step.products if p != step.reactant}
     roles = {}
     for name, data in graph.nodes(data=True):
         if data["excess"]:
