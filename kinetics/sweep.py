@@ -810,7 +810,12 @@ class SweepPlan:
                 display[:, j] = p.values[pos[j]]
                 internal[:, j] = p.internal[pos[j]]
         if self.spreads:
-            z = _standard_normals(self.seed, start, b, len(self.spreads))
+            # common random numbers: sample j of every grid point uses counter block j
+            j = idx % self.samples
+            z = np.empty((b, len(self.spreads)))
+            cut = np.flatnonzero(np.diff(j) != 1) + 1
+            for lo, hi in zip(np.r_[0, cut], np.r_[cut, b], strict=True):
+                z[lo:hi] = _standard_normals(self.seed, int(j[lo]), int(hi - lo), len(self.spreads))
             for k, s in enumerate(self.spreads):
                 j = len(self.parameters) + k
                 if s.distribution == "lognormal":

@@ -1,0 +1,524 @@
+"""Sweeps: --vary/--spread syntax, grid layout, batched evaluation, chunk store, CLI.
+
+The numerical checks here compare every sweep row with an independent single-set
+computation (:func:`kinetics.solve` and :func:`kinetics.analysis.summarise` on the
+scheme with the row's parameters); closed forms and scipy's integrators are in
+``test_reference_sweep.py``.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pandas as pd
+import pytest
+
+import kinetics
+from kinetics.analysis import summarise
+from kinetics.cli import main
+from kinetics.errors import UsageError
+from kinetics.ratematrix import dense_rate_matrix, step_rates
+from kinetics.sweep import (
+    chunk_result,
+    make_plan,
+    monte_carlo,
+    parse_spread,
+    parse_vary,
+    set_inputs,
+    sweep,
+)
+from kinetics.sweep_store import ChunkStore, run_sweep
+
+CONSECUTIVE = """\
+title: test chain
+A -> B      k1 = 0.12 1/min
+B -> C      k2 = 0.045 min-1
+C -> D      k3 = 2.0e-5 s-1
+start A = 0.80 mol/L
+"""
+
+ARRHENIUS = """\
+A -> B      k = arrhenius(A = 1.0e12 1/s, Ea = 83.144 kJ/mol)
+temperature = 25 degC
+start A = 1 mol/L
+"""
+
+PSEUDO = """\
+P + W -> M1     k_hyd = 2.5e-4 M-1 d-1
+P -> M2         k_ph = 0.021 d-1
+M1 -> CO2       k_m1 = 0.008 d-1
+M2 -> CO2       k_m2 = 0.0035 d-1
+excess W = 55.5 mol/L
+start P = 12.0 umol/L
+"""
+
+FED = """\
+S -> X                ks = 0.30 h-1
+X <=> Y               kxy = 0.9 h-1, kyx = 0.4 h-1
+Y -> P                kp = 0.05 h-1
+feed S = 0.02 mol/L/h
+start S = 0.10 mol/L
+"""
+
+REVERSIBLE = """\
+CIS <=> TRANS     kf, kr
+kf = arrhenius(A = 4.0e10 1/s, Ea = 88 kJ/mol)
+kr = arrhenius(A = 1.5e10 1/s, Ea = 92 kJ/mol)
+temperature = 45 degC
+start CIS = 250 mmol/L
+"""
+
+QUANTITIES = ("half_life", "t_max", "c_max", "limit")
+
+
+@pytest.fixture
+def chain():
+    return kinetics.parse(CONSECUTIVE)
+
+
+# ---------------------------------------------------------------------------------------
+# --vary syntax
+# ---------------------------------------------------------------------------------------
+
+
+def test_log_range_in_the_files_unit(chain):
+    p = parse_vary(chain, "k2=0.01:1:5:log")
+    # log spacing: x_j = lo (hi/lo)^(j/(N-1)) (definition of log spacing, no source needed)
+    np.testing.assert_allclose(p.values, [0.01, 10**-1.5, 0.1, 10**-0.5, 1.0], rtol=1e-15)
+    assert p.unit == "min-1"  # the unit k2 is written in
+    assert p.column == "k2 [min-1]"
+    np.testing.assert_allclose(p.internal, p.values / 60.0, rtol=1e-15, atol=0)  # 1/min in 1/s
+
+
+def test_linear_range_list_and_units(chain):
+    p = parse_vary(chain, "k1=0.1:0.3:3")
+    np.testing.assert_allclose(p.values, [0.1, 0.2, 0.3], rtol=1e-15)
+    q = parse_vary(chain, "k1=0.1,0.2,0.5")
+    np.testing.assert_array_equal(q.values, [0.1, 0.2, 0.5])
+    assert q.spacing == "list"
+    r = parse_vary(chain, "k1=2,4 1/h")
+    assert r.column == "k1 [1/h]"
+    np.testing.assert_allclose(r.internal, [2 / 3600, 4 / 3600], rtol=1e-15, atol=0)
+    s = parse_vary(chain, "k1=0.002:1/s")
+    np.testing.assert_allclose(s.internal, [0.002], rtol=1e-15, atol=0)
+    t = parse_vary(chain, "start:A=100:500:3:mmol/L")
+    assert t.column == "start A [mmol/L]"
+    np.testing.assert_allclose(t.internal, [0.1, 0.3, 0.5], rtol=1e-15, atol=0)
+
+
+def test_temperature_and_arrhenius_parameters():
+    s = kinetics.parse(REVERSIBLE)
+    t = parse_vary(s, "temperature=20:80:13:degC")
+    assert t.unit == "degC"
+    assert t.column == "temperature [degC]"
+    # 0 degC = 273.15 K exactly (SI definition of the degree Celsius)
+    np.testing.assert_allclose(t.internal, np.linspace(20, 80, 13) + 273.15, rtol=1e-15)
+    t2 = parse_vary(s, "temperature=300,310")
+    assert t2.unit == "degC"  # the unit of the file's temperature line
+    e = parse_vary(s, "kf.Ea=80:100:5:kJ/mol")
+    np.testing.assert_allclose(e.internal, [80e3, 85e3, 90e3, 95e3, 100e3], rtol=1e-15)
+    e2 = parse_vary(s, "kf.Ea=80,90")
+    assert e2.unit == "kJ/mol"
+    a = parse_vary(s, "kr.A=1e9,1e10")
+    assert a.column == "kr.A [1/s]"
+
+
+@pytest.mark.parametrize(
+    ("spec", "words"),
+    [
+        ("k9=0.1:1:3", "is not a rate constant"),
+        ("k1", "no '='"),
+        ("k1=", "needs a name and values"),
+        ("k1=0.1:1:3:log:1/min:extra", "unexpected field"),
+        ("k1=0:1:3:log", "log spacing needs positive"),
+        ("k1=0.1:1:0", "whole number >= 1"),
+        ("k1=0.1:1:2.5", "not a whole number"),
+        ("k1=0.1:1:1", "at least 2 values"),
+        ("k1=a,b", "is not a number"),
+        ("k1=0.1:1:3:meter", "does not have the dimension"),
+        ("k1=0.1:1:3:bananas", "is not a unit"),
+        ("k1=-1,2", "negative"),
+        ("temperature=20:80:3:degC", "no Arrhenius constant"),
+        ("start:Z=1,2", "not a species"),
+        ("excess:A=1,2", "held in excess"),
+        ("k1.Ea=80,90", "not by the Arrhenius law"),
+    ],
+)
+def test_bad_vary_is_one_clear_sentence(chain, spec, words):
+    with pytest.raises(UsageError) as info:
+        parse_vary(chain, spec)
+    assert words in str(info.value)
+    assert "\n" not in str(info.value)
+
+
+def test_bad_arrhenius_specs():
+    s = kinetics.parse(REVERSIBLE)
+    for spec, words in [
+        ("kf=1,2", "follows the Arrhenius law"),
+        ("temperature=-300:20:3:degC", "absolute zero"),
+        ("kf.Ea=80:90:2:K", "not a molar energy"),
+        ("temperature=1,2:kJ/mol", "not a temperature unit"),
+    ]:
+        with pytest.raises(UsageError, match=words):
+            parse_vary(s, spec)
+
+
+@pytest.mark.parametrize(
+    ("spec", "words"),
+    [
+        ("k1=15", "must be a percentage"),
+        ("k1=-5%", "positive percentage"),
+        ("k1", "no '='"),
+        ("k7=5%", "is not a rate constant"),
+    ],
+)
+def test_bad_spread(chain, spec, words):
+    with pytest.raises(UsageError, match=words):
+        parse_spread(chain, spec)
+
+
+def test_spread_definitions():
+    s = kinetics.parse(REVERSIBLE)
+    sp = parse_spread(s, "kf.A=15%")
+    assert sp.distribution == "lognormal"
+    assert sp.sigma == pytest.approx(math.log(1.15), rel=1e-15)  # geometric SD 1.15
+    st = parse_spread(s, "temperature=2K")
+    assert (st.distribution, st.sigma, st.relative) == ("normal", 2.0, False)
+    assert parse_spread(s, "temperature=1.5").sigma == 1.5  # degC difference = K
+    se = parse_spread(s, "kf.Ea=2kJ/mol")
+    assert se.sigma == pytest.approx(2000.0, rel=1e-15)
+    with pytest.raises(UsageError, match="too wide"):
+        parse_spread(s, "temperature=100K")
+
+
+def test_plan_checks(chain):
+    t = np.linspace(0, 3600, 5)
+    with pytest.raises(UsageError, match="varied twice"):
+        make_plan(chain, ["k1=0.1,0.2", "k1=0.3,0.4"], t)
+    with pytest.raises(UsageError, match="needs --samples"):
+        make_plan(chain, [], t, spread=["k1=10%"])
+    with pytest.raises(UsageError, match="needs at least one --spread"):
+        make_plan(chain, [], t, samples=10)
+    with pytest.raises(UsageError, match="seed"):
+        make_plan(chain, [], t, samples=10, spread=["k1=10%"], seed=-1)
+
+
+# ---------------------------------------------------------------------------------------
+# Grid layout and evaluation
+# ---------------------------------------------------------------------------------------
+
+
+def test_grid_is_cartesian_in_c_order(chain):
+    plan = make_plan(chain, ["k1=0.1,0.2", "k2=0.01:0.03:3"], [0.0, 600.0], chunk_size=4)
+    assert plan.n_sets == 6
+    assert plan.n_chunks == 2
+    assert plan.chunk_bounds(1) == (4, 6)
+    display, _ = plan.set_values(0, 6)
+    np.testing.assert_allclose(
+        display,
+        [[0.1, 0.01], [0.1, 0.02], [0.1, 0.03], [0.2, 0.01], [0.2, 0.02], [0.2, 0.03]],
+        rtol=1e-15,
+    )
+    table = sweep(chain, ["k1=0.1,0.2", "k2=0.01:0.03:3"], [0.0, 600.0], time_unit="min")
+    assert list(table.columns[:2]) == ["k1 [1/min]", "k2 [min-1]"]
+    assert list(table.columns[2:]) == [
+        "half_life A [min]",
+        "t_max B [min]",
+        "c_max B [mol/L]",
+        "t_max C [min]",
+        "c_max C [mol/L]",
+        "limit A [mol/L]",
+        "limit B [mol/L]",
+        "limit C [mol/L]",
+        "limit D [mol/L]",
+    ]
+    assert len(table) == 6
+
+
+def _single(scheme, plan, i):
+    """K, c0 and feed of set i computed the ordinary way (one set, rational rates)."""
+    inp = set_inputs(plan, i)
+    rates = step_rates(
+        scheme, constants=inp["constants"], temperature=inp["temperature"], excess=inp["excess"]
+    )
+    K = dense_rate_matrix(scheme, rates)
+    s2 = scheme.with_values(initial=inp["initial"])
+    feed = s2.feed_vector if s2.feed else None
+    return K, s2.initial_vector, feed, inp
+
+
+def _assert_rows_match_single_sets(scheme, vary, until, rtol=1e-9):
+    times = np.linspace(0.0, until, 21)
+    plan = make_plan(scheme, vary, times, chunk_size=7)
+    result = chunk_result(plan, 0, plan.n_sets, curves=True)
+    names = scheme.species_names
+    for i in range(plan.n_sets):
+        K, c0, feed, inp = _single(scheme, plan, i)
+        ref = summarise(K, c0, names, feed=feed, t_window=until)
+        for j, col in enumerate(plan.columns):
+            want = getattr(ref[col.species], col.quantity)
+            got = result.summary[i, j]
+            if want is None:
+                assert math.isnan(got), (i, col.header, got)
+            else:
+                assert got == pytest.approx(want, rel=rtol, abs=1e-300), (i, col.header)
+        if not inp["excess"]:
+            single = kinetics.solve(
+                scheme.with_values(
+                    constants=inp["constants"],
+                    temperature=inp["temperature"],
+                    initial=inp["initial"],
+                ),
+                times,
+            )
+            np.testing.assert_allclose(
+                result.curves[i], single.concentrations, rtol=1e-11, atol=1e-15 * c0.max()
+            )
+    return plan, result
+
+
+def test_rows_equal_single_solves_chain(chain):
+    _plan, result = _assert_rows_match_single_sets(
+        chain, ["k2=0.01:1:6:log", "start:A=0.5,1.0"], 3 * 3600.0
+    )
+    assert not np.isnan(result.summary).all()
+
+
+def test_rows_equal_single_solves_excess_and_pseudo_first_order():
+    s = kinetics.parse(PSEUDO, strict_balance=False)
+    _assert_rows_match_single_sets(s, ["excess:W=20,55.5", "k_ph=0.01:0.04:3"], 400 * 86400.0)
+
+
+def test_rows_equal_single_solves_feed_and_reversible():
+    s = kinetics.parse(FED)
+    plan, result = _assert_rows_match_single_sets(s, ["ks=0.1:1:4:log", "kyx=0.2,0.8"], 48 * 3600)
+    col = plan.summary_columns.index("limit P [mol/L]")
+    assert np.isnan(result.summary[:, col]).all()  # fed product without outlet: unbounded
+
+
+def test_rows_equal_single_solves_arrhenius():
+    s = kinetics.parse(REVERSIBLE)
+    _assert_rows_match_single_sets(
+        s, ["temperature=20:80:4:degC", "kf.Ea=85:90:3:kJ/mol"], 20 * 3600.0
+    )
+
+
+def test_results_do_not_depend_on_chunking(chain):
+    times = np.linspace(0, 7200, 11)
+    a = make_plan(chain, ["k2=0.005:2:40:log", "k1=0.06,0.12"], times, chunk_size=1000)
+    b = make_plan(chain, ["k2=0.005:2:40:log", "k1=0.06,0.12"], times, chunk_size=9)
+    ra = chunk_result(a, 0, a.n_sets, curves=True)
+    parts = [chunk_result(b, *b.chunk_bounds(k), curves=True) for k in range(b.n_chunks)]
+    np.testing.assert_array_equal(ra.summary, np.concatenate([p.summary for p in parts]))
+    np.testing.assert_array_equal(ra.curves, np.concatenate([p.curves for p in parts]))
+
+
+def test_curves_long_format(chain):
+    _table, curves = sweep(chain, ["k1=0.1,0.2"], [0.0, 60.0, 120.0], time_unit="min", curves=True)
+    assert list(curves.columns) == [
+        "set",
+        "k1 [1/min]",
+        "time [min]",
+        "species",
+        "concentration [mol/L]",
+    ]
+    assert len(curves) == 2 * 3 * 4
+    first = curves[(curves["set"] == 1) & (curves["species"] == "A")]
+    # first-order decay A0 exp(-k1 t) (textbook closed form), k1 = 0.2 1/min
+    np.testing.assert_allclose(
+        first["concentration [mol/L]"],
+        0.8 * np.exp(-0.2 * np.array([0.0, 1.0, 2.0])),
+        rtol=1e-13,
+    )
+
+
+# ---------------------------------------------------------------------------------------
+# Monte Carlo
+# ---------------------------------------------------------------------------------------
+
+
+def test_samples_do_not_depend_on_chunks_and_follow_the_seed(chain):
+    t = np.linspace(0, 3600, 5)
+    a = make_plan(chain, [], t, samples=50, spread=["k1=15%", "k2=5%"], seed=3, chunk_size=50)
+    b = make_plan(chain, [], t, samples=50, spread=["k1=15%", "k2=5%"], seed=3, chunk_size=7)
+    c = make_plan(chain, [], t, samples=50, spread=["k1=15%", "k2=5%"], seed=4, chunk_size=50)
+    da, _ = a.set_values(0, 50)
+    db = np.concatenate([b.set_values(*b.chunk_bounds(k))[0] for k in range(b.n_chunks)])
+    np.testing.assert_array_equal(da, db)
+    assert not np.array_equal(da, c.set_values(0, 50)[0])
+    # the median of k1 is the file's value: 0.12 1/min (lognormal median = x0)
+    assert np.median(da[:, 0]) == pytest.approx(0.12, rel=0.05)
+
+
+def test_monte_carlo_bands_per_grid_point(chain):
+    samples, bands = monte_carlo(
+        chain, ["k1=10%"], 200, np.linspace(0, 3600, 5), seed=1, grid=["k2=0.02,0.04"]
+    )
+    assert len(samples) == 400
+    assert len(bands) == 2
+    assert list(bands.columns[:2]) == ["k2 [min-1]", "samples"]
+    lo, mid, hi = (bands[f"half_life A p{p} [s]"] for p in ("2.5", "50", "97.5"))
+    assert (lo < mid).all()
+    assert (mid < hi).all()
+    # common random numbers and a half-life that depends only on k1: equal bands
+    assert lo.iloc[0] == lo.iloc[1]
+
+
+# ---------------------------------------------------------------------------------------
+# Chunk store, resume, output formats
+# ---------------------------------------------------------------------------------------
+
+
+def test_outputs_read_back_equal_the_api(chain, tmp_path):
+    vary = ["k2=0.01:1:7:log", "start:A=0,0.8"]  # start 0: empty half-life cells
+    times = np.linspace(0, 3 * 3600, 31)
+    want = sweep(chain, vary, times, time_unit="h", chunk_size=5).reset_index(drop=True)
+    plan = make_plan(chain, vary, times, time_unit="h", chunk_size=5)
+    paths = [tmp_path / "s.csv", tmp_path / "s.parquet", tmp_path / "s.json"]
+    report = run_sweep(plan, paths, curves_path=tmp_path / "c.parquet")
+    assert report.computed == plan.n_chunks
+    assert report.rows == 14
+    assert not (tmp_path / "s.csv.chunks").exists()
+    got_csv = pd.read_csv(paths[0])
+    pd.testing.assert_frame_equal(got_csv, want, check_exact=True)
+    assert got_csv["half_life A [h]"].isna().sum() == 7
+    pd.testing.assert_frame_equal(pd.read_parquet(paths[1]), want, check_exact=True)
+    doc = json.loads(paths[2].read_text())
+    assert doc["columns"] == list(want.columns)
+    assert doc["time_unit"] == "h"
+    got_json = pd.DataFrame(doc["rows"], columns=doc["columns"]).astype(float)
+    pd.testing.assert_frame_equal(got_json, want, check_exact=True)
+    curves = pd.read_parquet(tmp_path / "c.parquet")
+    assert len(curves) == 14 * 31 * 4
+
+
+def test_resume_computes_only_missing_chunks(chain, tmp_path):
+    vary = ["k2=0.01:1:30:log"]
+    times = np.linspace(0, 3600, 11)
+    plan = make_plan(chain, vary, times, chunk_size=4)
+    out = tmp_path / "r.csv"
+    calls = []
+
+    import kinetics.sweep_store as store_mod
+
+    real = store_mod.ChunkStore.write
+
+    def failing_write(self, result):
+        if len(calls) == 3:
+            raise KeyboardInterrupt
+        calls.append(result.index)
+        real(self, result)
+
+    store_mod.ChunkStore.write = failing_write
+    try:
+        with pytest.raises(KeyboardInterrupt):
+            run_sweep(plan, [out])
+    finally:
+        store_mod.ChunkStore.write = real
+    assert not out.exists()  # no partial table
+    assert len(list((tmp_path / "r.csv.chunks").glob("chunk_*.npz"))) == 3
+    report = run_sweep(plan, [out], resume=True)
+    assert (report.reused, report.computed) == (3, plan.n_chunks - 3)
+    fresh = tmp_path / "fresh.csv"
+    run_sweep(plan, [fresh])
+    assert out.read_text() == fresh.read_text()
+
+
+def test_resume_refuses_another_definition(chain, tmp_path):
+    times = np.linspace(0, 3600, 11)
+    plan = make_plan(chain, ["k2=0.01:1:6:log"], times, chunk_size=2)
+    store = ChunkStore(tmp_path / "x.csv.chunks", plan, curves=False, resume=False)
+    store.write(chunk_result(plan, 0, 2, index=0))
+    other = make_plan(chain, ["k2=0.01:1:7:log"], times, chunk_size=2)
+    with pytest.raises(UsageError, match="different sweep"):
+        ChunkStore(tmp_path / "x.csv.chunks", other, curves=False, resume=True)
+    # the same definition keeps its chunk
+    again = ChunkStore(tmp_path / "x.csv.chunks", plan, curves=False, resume=True)
+    assert again.done() == {0}
+
+
+# ---------------------------------------------------------------------------------------
+# Command line
+# ---------------------------------------------------------------------------------------
+
+
+@pytest.fixture
+def chain_file(tmp_path):
+    p = tmp_path / "chain.scheme"
+    p.write_text(CONSECUTIVE, encoding="utf-8")
+    return p
+
+
+def test_cli_sweep_writes_table_and_plot(chain_file, tmp_path, capsys):
+    out = tmp_path / "sweep.csv"
+    png = tmp_path / "sweep.png"
+    rc = main(
+        [
+            "sweep",
+            str(chain_file),
+            "--until",
+            "3h",
+            "--vary",
+            "k2=0.01:1:5:log",
+            "--vary",
+            "k1=0.06,0.12",
+            "--out",
+            str(out),
+            "--plot",
+            "t_max:B",
+            "--plot-out",
+            str(png),
+            "--no-caution",
+        ]
+    )
+    assert rc == 0
+    table = pd.read_csv(out)
+    assert list(table.columns[:3]) == ["k2 [min-1]", "k1 [1/min]", "half_life A [h]"]
+    assert len(table) == 10
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    # consecutive first-order steps: t_max = ln(k1/k2)/(k1 - k2) (textbook closed form)
+    k2, k1 = table["k2 [min-1]"], table["k1 [1/min]"]
+    np.testing.assert_allclose(table["t_max B [h]"], np.log(k1 / k2) / (k1 - k2) / 60, rtol=1e-9)
+
+
+def test_cli_prints_table_without_out(chain_file, capsys):
+    rc = main(["sweep", str(chain_file), "--until", "1h", "--vary", "k1=0.1,0.2", "--no-caution"])
+    assert rc == 0
+    text = capsys.readouterr().out
+    assert "k1 [1/min]" in text
+    assert "t_max B [h]" in text
+
+
+def test_cli_help_shows_syntax_and_example(capsys):
+    assert main(["sweep", "--help"]) == 0
+    text = capsys.readouterr().out
+    assert "LO:HI:N[:log][:UNIT]" in text
+    assert "kinetics sweep" in text
+    assert "without a unit" in text
+    assert "lognormal" in text
+
+
+@pytest.mark.parametrize(
+    "args",
+    [
+        ["--vary", "k9=1,2"],
+        ["--vary", "k1=0.1:1:3:banana"],
+        ["--vary", "k1=0.1,0.2", "--spread", "k2=15"],
+        ["--vary", "k1=0.1,0.2", "--samples", "10"],
+        ["--vary", "k1=0.1,0.2", "--plot", "t_max:B"],
+        ["--vary", "k1=0.1,0.2", "--plot", "t_max:A", "--plot-out", "x.png"],
+        ["--vary", "k1=0.1,0.2", "--out", "x.xlsx"],
+        ["--vary", "k1=0.1,0.2", "--scheduler", "tcp://127.0.0.1:1"],
+        ["--vary", "k1=0.1,0.2", "--resume"],
+        ["--vary", "k1=0.1,0.2", "--engine", "gpu"],
+    ],
+)
+def test_cli_user_mistakes_exit_2(chain_file, tmp_path, monkeypatch, capsys, args):
+    monkeypatch.chdir(tmp_path)
+    rc = main(["sweep", str(chain_file), "--until", "1h", "--no-caution", *args])
+    assert rc == 2
+    err = capsys.readouterr().err
+    assert err.startswith("kinetics: ")
+    assert "Traceback" not in err
