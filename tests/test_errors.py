@@ -1,0 +1,109 @@
+"""Error types: message format, location, pickling (parallel sweeps send them across
+processes).  The format is the project's own contract (common practice, no source)."""
+
+from __future__ import annotations
+
+import pickle
+
+import pytest
+
+from kinetics import parse
+from kinetics.errors import (
+    DataError,
+    KineticsError,
+    SchemeError,
+    SchemeErrors,
+    SchemeFileError,
+    UsageError,
+)
+
+FULL = SchemeError(
+    "unknown unit 'sek-1' for k3",
+    "cascade.scheme",
+    12,
+    18,
+    "A -> B    k3 = 0.1 sek-1",
+    "sek-1",
+    "write a unit such as 1/s",
+)
+
+
+def test_message_format_place_problem_hint_then_line_and_caret():
+    assert str(FULL).splitlines() == [
+        "cascade.scheme:12:18: unknown unit 'sek-1' for k3; write a unit such as 1/s",
+        "    A -> B    k3 = 0.1 sek-1",
+        "                     ^^^^^",
+    ]
+    assert FULL.headline() == str(FULL).splitlines()[0]
+    assert FULL.location == "cascade.scheme:12:18"
+
+
+def test_caret_points_at_the_snippet_in_a_parsed_error():
+    with pytest.raises(SchemeErrors) as info:
+        parse("A -> B  k1 = 0.1 1/s\nstart A = 1 meter", "x.scheme")
+    error = info.value.errors[0]
+    text, caret = str(error).splitlines()[1:]
+    start = caret.index("^")
+    assert text[start : start + caret.count("^")] == "meter"
+
+
+def test_location_without_column_or_line():
+    assert SchemeError("p", "f.scheme", 3).location == "f.scheme:3"
+    assert str(SchemeError("the scheme is empty", "f.scheme", hint="write a reaction")) == (
+        "f.scheme: the scheme is empty; write a reaction"
+    )
+    assert str(SchemeError("p", "f.scheme", 3, 0, "A B")) == "f.scheme:3: p\n    A B"
+
+
+def test_scheme_error_pickles_with_all_fields():
+    copy = pickle.loads(pickle.dumps(FULL))
+    assert type(copy) is SchemeError
+    for name in ("problem", "source", "line", "column", "text", "snippet", "hint"):
+        assert getattr(copy, name) == getattr(FULL, name)
+    assert str(copy) == str(FULL)
+
+
+def test_scheme_errors_pickle_and_sort_by_place():
+    late = SchemeError("late", "f", 9, 1)
+    early = SchemeError("early", "f", 2, 5)
+    bundle = SchemeErrors([late, early])
+    assert [e.problem for e in bundle.errors] == ["early", "late"]
+    copy = pickle.loads(pickle.dumps(bundle))
+    assert [e.headline() for e in copy.errors] == ["f:2:5: early", "f:9:1: late"]
+    assert str(copy) == str(bundle)
+    assert str(bundle).splitlines()[0] == "2 problems in f:"
+
+
+def test_single_error_bundle_prints_like_the_error():
+    assert str(SchemeErrors([FULL])) == str(FULL)
+
+
+@pytest.mark.parametrize(
+    "error",
+    [
+        SchemeFileError("no such file", "x.scheme", "check the path"),
+        UsageError("--until is not a duration", "write e.g. --until '90 min'"),
+        DataError("unknown column 'Q'", "data.csv", "name a species"),
+    ],
+)
+def test_other_errors_pickle_with_all_fields(error):
+    copy = pickle.loads(pickle.dumps(error))
+    assert type(copy) is type(error)
+    assert vars(copy) == vars(error)
+    assert str(copy) == str(error)
+
+
+def test_message_format_of_other_errors():
+    assert str(SchemeFileError("no such file", "x.scheme", "check the path")) == (
+        "x.scheme: no such file; check the path"
+    )
+    assert str(UsageError("bad", "do this")) == "bad; do this"
+    assert str(DataError("bad cell", "d.csv")) == "d.csv: bad cell"
+
+
+def test_hierarchy():
+    for cls in (SchemeError, SchemeErrors, SchemeFileError, UsageError, DataError):
+        assert issubclass(cls, KineticsError)
+    assert issubclass(SchemeError, ValueError)
+    assert issubclass(SchemeErrors, ValueError)
+    assert issubclass(SchemeFileError, OSError)
