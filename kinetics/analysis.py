@@ -199,13 +199,41 @@ def _hermite_basis(x):
     return 2 * x3 - 3 * x2 + 1, x3 - 2 * x2 + x, -2 * x3 + 3 * x2, x3 - x2
 
 
-def _hermite_root(a, b, ga, gb, gpa, gpb) -> np.ndarray:
-    """First root in (a, b) of the cubic Hermite model of g (values and slopes at both
-    ends, opposite signs at the ends); falls back to the secant point."""
+def _quintic_basis(x):
+    """Quintic Hermite basis on [0, 1]: value, slope, curvature at 0, then at 1."""
+    x2, x3, x4, x5 = x * x, x**3, x**4, x**5
+    return (
+        1 - 10 * x3 + 15 * x4 - 6 * x5,
+        x - 6 * x3 + 8 * x4 - 3 * x5,
+        0.5 * x2 - 1.5 * x3 + 1.5 * x4 - 0.5 * x5,
+        10 * x3 - 15 * x4 + 6 * x5,
+        -4 * x3 + 7 * x4 - 3 * x5,
+        0.5 * x3 - x4 + 0.5 * x5,
+    )
+
+
+def _hermite_root(a, b, ga, gb, gpa, gpb, gppa, gppb) -> np.ndarray:
+    """First root in (a, b) of the Hermite model of g from both ends (opposite signs).
+
+    Quintic (values, slopes, curvatures; error O(h^6)) where the curvatures are known,
+    cubic (error O(h^4)) where they are nan; the secant point as a last resort."""
     h = b - a
-    s = np.linspace(0.0, 1.0, 65)[None, :]
+    s = np.linspace(0.0, 1.0, 129)[None, :]
     h00, h10, h01, h11 = _hermite_basis(s)
     P = h00 * ga[:, None] + h10 * (h * gpa)[:, None] + h01 * gb[:, None] + h11 * (h * gpb)[:, None]
+    quint = np.isfinite(gppa) & np.isfinite(gppb)
+    if quint.any():
+        q0, q1, q2, q3, q4, q5 = _quintic_basis(s)
+        hh = h[quint]
+        Q = (
+            q0 * ga[quint, None]
+            + q1 * (hh * gpa[quint])[:, None]
+            + q2 * (hh * hh * gppa[quint])[:, None]
+            + q3 * gb[quint, None]
+            + q4 * (hh * gpb[quint])[:, None]
+            + q5 * (hh * hh * gppb[quint])[:, None]
+        )
+        P[quint] = Q
     flip = np.sign(P) != np.sign(ga)[:, None]
     j = np.argmax(flip, axis=1)
     ok = flip[np.arange(j.size), j] & (j > 0)
@@ -214,10 +242,15 @@ def _hermite_root(a, b, ga, gb, gpa, gpb) -> np.ndarray:
     p0, p1 = P[rows, jj - 1], P[rows, jj]
     s0, s1 = s[0, jj - 1], s[0, jj]
     with np.errstate(divide="ignore", invalid="ignore"):
+        # refine the bracketing pair by one secant step of the model itself
         sr = np.where(ok, s0 - p0 * (s1 - s0) / (p1 - p0), ga / (ga - gb))
     sr = np.where(np.isfinite(sr), sr, 0.5)
     sr = np.clip(sr, 1e-6, 1 - 1e-6)
-    return a + sr * h
+    # the model's curvature near the root, |g''| [per s^2], for the Newton error estimate
+    jc = np.clip(jj, 1, s.shape[1] - 2)
+    ds = s[0, 1] - s[0, 0]
+    curv = np.abs(P[rows, jc + 1] - 2 * P[rows, jc] + P[rows, jc - 1]) / (ds * h) ** 2
+    return a + sr * h, curv
 
 
 # ---------------------------------------------------------------------------------------
@@ -1022,7 +1055,9 @@ class _Context:
         N = self._noise_d(C)
         # rounding noise of K (K c + f): the noise of each d_j carried through |K|
         N2 = (self.absK @ (N + _REL_NOISE_D * np.abs(D)).T).T
-        return {"T": T, "C": C, "D": D, "D2": D2, "N": N, "N2": N2}
+        D3 = self._apply(D2)
+        N3 = (self.absK @ (N2 + _REL_NOISE_D * np.abs(D2)).T).T
+        return {"T": T, "C": C, "D": D, "D2": D2, "D3": D3, "N": N, "N2": N2, "N3": N3}
 
     def _hidden_turns(self, g: dict) -> np.ndarray:
         """New points inside intervals where a cubic Hermite model of the derivative
@@ -1056,7 +1091,7 @@ class _Context:
         return np.setdiff1d(new, T)
 
     # -- root finding --------------------------------------------------------------------
-    def _roots(self, a, b, ga, gb, gpa, gpb, species, level, deriv, na, nb):
+    def _roots(self, a, b, ga, gb, gpa, gpb, gppa, gppb, species, level, deriv, na, nb):
         """Safeguarded Newton iteration for many bracketed roots at once.
 
         Solves g_k(t) = 0 on [a_k, b_k] with sign(g(a)) != sign(g(b)), where
@@ -1081,7 +1116,16 @@ class _Context:
         m = a.size
         na = np.array(na, dtype=float)
         nb = np.array(nb, dtype=float)
-        x = _hermite_root(a, b, ga, gb, np.asarray(gpa, float), np.asarray(gpb, float))
+        x, curv = _hermite_root(
+            a,
+            b,
+            ga,
+            gb,
+            np.asarray(gpa, float),
+            np.asarray(gpb, float),
+            np.asarray(gppa, float),
+            np.asarray(gppb, float),
+        )
         root = np.full(m, np.nan)
         value = np.full(m, np.nan)
         wref = b - a
@@ -1100,13 +1144,21 @@ class _Context:
             rows = np.arange(k.size)
             sp = species[k]
             ci, di = C[rows, sp], D[rows, sp]
-            d2i = self._apply(D)[rows, sp]
+            D2 = self._apply(D)
+            d2i = D2[rows, sp]
+            d3i = self._apply(D2)[rows, sp]
+            N1 = self._noise_d(C)
+            N2 = (self.absK @ (N1 + _REL_NOISE_D * np.abs(D)).T).T
+            N3 = (self.absK @ (N2 + _REL_NOISE_D * np.abs(D2)).T).T
             dk = deriv[k]
             g = np.where(dk, di, ci - level[k])
             gp = np.where(dk, d2i, di)
-            noise = np.where(
-                dk, self._noise_d(C)[rows, sp], _REL_NOISE_C * np.maximum(ci, level[k])
-            )
+            # bound on |g''| (value plus its rounding noise) for the Newton error estimate
+            exact = np.where(dk, np.abs(d3i), np.abs(d2i))
+            known = exact > np.where(dk, N3[rows, sp], N2[rows, sp])
+            # exact |g''| where it stands above its rounding noise, else 4x the model's
+            gpp = np.where(known, exact, 4 * curv[k])
+            noise = np.where(dk, N1[rows, sp], _REL_NOISE_C * np.maximum(ci, level[k]))
             left = np.sign(g) == np.sign(ga[k])
             a[k[left]], ga[k[left]] = x[k[left]], g[left]
             b[k[~left]], gb[k[~left]] = x[k[~left]], g[~left]
@@ -1115,7 +1167,10 @@ class _Context:
             with np.errstate(divide="ignore", invalid="ignore"):
                 xn = xk - g / gp
             inside = np.isfinite(xn) & (xn > a[k]) & (xn < b[k])
-            small = np.abs(xn - xk) <= 1e-9 * np.abs(xk)
+            # Newton error after the step: |g''/(2 g')| dt^2 (Taylor), wanted below 1e-13 t
+            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+                est = gpp / (2 * np.abs(gp)) * (xn - xk) ** 2
+            small = (np.abs(xn - xk) <= 1e-9 * np.abs(xk)) | (est <= 1e-13 * np.abs(xk))
             quiet = np.abs(g) <= noise
             tight = (b[k] - a[k]) <= _XTOL * np.abs(b[k])
             stop = (g == 0) | quiet
@@ -1156,7 +1211,8 @@ class _Context:
         g = self.grid()
         T, D, D2, N = g["T"], g["D"], g["D2"], g["N"]
         s = np.sign(D) * (np.abs(D) > N)
-        A, B, GA, GB, PA, PB, SP, TY, NA, NB = ([] for _ in range(10))
+        A, B, GA, GB, PA, PB, QA, QB, SP, TY, NA, NB = ([] for _ in range(12))
+        D3, N3 = g["D3"], g["N3"]
         for i in range(self.n):
             sig = np.flatnonzero(s[:, i])
             if sig.size < 2:
@@ -1170,6 +1226,8 @@ class _Context:
                 GB.append(D[ib, i])
                 PA.append(D2[ia, i])
                 PB.append(D2[ib, i])
+                QA.append(D3[ia, i] if abs(D3[ia, i]) > N3[ia, i] else np.nan)
+                QB.append(D3[ib, i] if abs(D3[ib, i]) > N3[ib, i] else np.nan)
                 NA.append(N[ia, i])
                 NB.append(N[ib, i])
                 SP.append(i)
@@ -1180,7 +1238,7 @@ class _Context:
             SP = np.array(SP)
             TY = np.array(TY)
             ones = np.ones(len(A), dtype=bool)
-            t, h = self._roots(A, B, GA, GB, PA, PB, SP, np.zeros(len(A)), ones, NA, NB)
+            t, h = self._roots(A, B, GA, GB, PA, PB, QA, QB, SP, np.zeros(len(A)), ones, NA, NB)
             for i in np.unique(SP):
                 sel = SP == i
                 o = np.argsort(t[sel])
@@ -1188,8 +1246,9 @@ class _Context:
         self._stat = stat
         return stat
 
-    def samples(self, i: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-        """Times, values and slopes of c_i on the grid plus its turning points.
+    def samples(self, i: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """Times, values, slopes and curvatures (nan if unknown) of c_i on the grid plus
+        its turning points.
 
         Between consecutive samples c_i is monotone (every turning point is a sample)."""
         g = self.grid()
@@ -1197,8 +1256,10 @@ class _Context:
         t = np.concatenate([g["T"], st["t"]])
         v = np.concatenate([g["C"][:, i], st["c"]])
         d = np.concatenate([g["D"][:, i], np.zeros(st["t"].size)])
+        sig = np.abs(g["D2"][:, i]) > g["N2"][:, i]
+        d2 = np.concatenate([np.where(sig, g["D2"][:, i], np.nan), np.full(st["t"].size, np.nan)])
         o = np.argsort(t, kind="stable")
-        return t[o], v[o], d[o]
+        return t[o], v[o], d[o], d2[o]
 
     # -- quantities ----------------------------------------------------------------------
     def maxima(self, i: int) -> list[Maximum]:
@@ -1227,8 +1288,10 @@ class _Context:
         """Roots of c_i(t) = level on monotone sample intervals [ka, kb] of species i."""
         if not probs:
             return np.zeros(0)
-        A, B, GA, GB, PA, PB, SP, LV = ([] for _ in range(8))
-        for i, t, v, d, ka, kb, lev in probs:
+        A, B, GA, GB, PA, PB, QA, QB, SP, LV = ([] for _ in range(10))
+        for i, (t, v, d, d2), ka, kb, lev in probs:
+            QA.append(d2[ka])
+            QB.append(d2[kb])
             A.append(t[ka])
             B.append(t[kb])
             GA.append(v[ka] - lev)
@@ -1241,7 +1304,7 @@ class _Context:
         A, B, GA, GB, LV = (np.array(x, dtype=float) for x in (A, B, GA, GB, LV))
         NA = _REL_NOISE_C * np.maximum(np.abs(GA + LV), LV)
         NB = _REL_NOISE_C * np.maximum(np.abs(GB + LV), LV)
-        return self._roots(A, B, GA, GB, PA, PB, SP, LV, no, NA, NB)[0]
+        return self._roots(A, B, GA, GB, PA, PB, QA, QB, SP, LV, no, NA, NB)[0]
 
     def fraction_times(self, requests: Sequence[tuple[int, float]]) -> list[FractionTime]:
         """First times c_i = phi c0_i for each (i, phi), found together."""
@@ -1257,7 +1320,8 @@ class _Context:
                 )
                 continue
             target = phi * c0
-            t, v, d = self.samples(i)
+            smp = self.samples(i)
+            t, v = smp[0], smp[1]
             gv = v - target
             noise = _REL_NOISE_C * np.maximum(v, target)
             s = np.sign(gv) * (np.abs(gv) > noise)
@@ -1265,7 +1329,7 @@ class _Context:
             if neg.size:
                 kb = int(neg[0])
                 ka = int(np.flatnonzero(s[:kb] > 0)[-1])
-                probs.append((i, t, v, d, ka, kb, target))
+                probs.append((i, smp, ka, kb, target))
                 where.append(r)
                 continue
             out[r] = FractionTime(i, phi, None, self._never_reason(i, phi, lim, t[-1]))
@@ -1312,7 +1376,8 @@ class _Context:
         probs = []
         for i in range(n):
             thr = tolerance * (L[i] if L[i] > 0 else big)
-            t, v, d = self.samples(i)
+            smp = self.samples(i)
+            v = smp[1]
             dev = np.abs(v - L[i]) - thr
             noise = _REL_NOISE_C * np.maximum(v, L[i])
             s = np.sign(dev) * (np.abs(dev) > noise)
@@ -1327,7 +1392,7 @@ class _Context:
                 continue
             kb = ka + 1 + int(inside[0])
             lev = L[i] + thr if v[ka] > L[i] else L[i] - thr
-            probs.append((i, t, v, d, ka, kb, lev))
+            probs.append((i, smp, ka, kb, lev))
         if probs:
             per[np.array([p[0] for p in probs])] = self._level_roots(probs)
         if np.isinf(per).any():
