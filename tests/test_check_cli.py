@@ -1,0 +1,129 @@
+"""``kinetics check FILE [--json]`` in-process: the JSON contract and the exit status."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+
+from kinetics.cli import main
+
+NETWORKS = Path(__file__).resolve().parent.parent / "networks"
+
+SCHEME = """\
+title: Invented hydrolysis with a reversible intermediate
+E + W -> A          k1 = 1.5e-4 M-1 s-1
+A <=> B             kf = 0.12 1/min, kr = 5.0e-4 1/s
+start E = 2 mmol/L, A = 0.5 mmol/L
+excess W = 55 mol/L
+formula E = C4H8O2, W = H2O, A = C4H10O3, B = C4H10O3
+"""
+
+
+def run_json(path, capsys) -> dict:
+    status = main(["check", str(path), "--json"])
+    out, err = capsys.readouterr()
+    assert status == 0, err
+    return json.loads(out)
+
+
+def test_check_json_contract(tmp_path, capsys):
+    path = tmp_path / "hydrolysis.scheme"
+    path.write_text(SCHEME, encoding="utf-8")
+    report = run_json(path, capsys)
+    assert {"species", "rate_matrix", "initial", "concentration_unit", "reactions", "balance"} <= (
+        set(report)
+    )
+    assert report["species"] == ["E", "A", "B"]
+    assert report["concentration_unit"] == "mmol/L"
+    assert report["initial"] == {"E": 2.0, "A": 0.5, "B": 0.0}
+    # k_eff = k [W] = 1.5e-4 * 55 = 8.25e-3 1/s; 0.12 1/min = 0.002 1/s (1 min = 60 s)
+    assert [(r["equation"], r["k_per_s"]) for r in report["reactions"]] == [
+        ("E + W -> A", 8.25e-3),
+        ("A -> B", 0.002),
+        ("B -> A", 5.0e-4),
+    ]
+    assert report["rate_matrix"] == [
+        [-8.25e-3, 0.0, 0.0],
+        [8.25e-3, -0.002, 5.0e-4],
+        [0.0, 0.002, -5.0e-4],
+    ]
+    assert report["balance"]["ok"] is True
+    assert [r["atoms"] for r in report["balance"]["reactions"]] == ["balanced", "balanced"]
+
+
+def test_check_json_of_every_bundled_example(capsys):
+    paths = sorted(NETWORKS.glob("*.scheme"))
+    if not paths:
+        pytest.skip("no bundled examples yet")
+    for path in paths:
+        report = run_json(path, capsys)
+        n = len(report["species"])
+        assert len(report["rate_matrix"]) == n
+        assert all(len(row) == n for row in report["rate_matrix"])
+        assert set(report["initial"]) == set(report["species"])
+        assert isinstance(report["balance"]["ok"], bool)
+
+
+def test_check_text_summary_runs(tmp_path, capsys):
+    path = tmp_path / "s.scheme"
+    path.write_text(SCHEME, encoding="utf-8")
+    assert main(["check", str(path)]) == 0
+    out, _ = capsys.readouterr()
+    assert "E + W -> A" in out
+
+
+@pytest.mark.parametrize(
+    ("content", "message"),
+    [
+        ("A -> B  k1 = 0.1 1/s\nstart A = 1 meter\n", "start A = 1 meter is a length"),
+        ("A => B  k1 = 0.1 1/s\n", "unknown arrow '=>'"),
+        ("", "the scheme is empty"),
+        (b"A -> B  k1 = 0.1 1/s # \xe9\n", "the file is not UTF-8 text"),
+    ],
+)
+def test_bad_file_exits_2_with_one_clear_message(tmp_path, capsys, content, message):
+    path = tmp_path / "bad.scheme"
+    if isinstance(content, bytes):
+        path.write_bytes(content)
+    else:
+        path.write_text(content, encoding="utf-8")
+    assert main(["check", str(path), "--json"]) == 2
+    out, err = capsys.readouterr()
+    assert out == ""
+    assert message in err
+    assert err.startswith(f"kinetics: {path}")
+    assert "Traceback" not in err
+
+
+def test_missing_file_and_directory_exit_2(tmp_path, capsys):
+    assert main(["check", str(tmp_path / "missing.scheme")]) == 2
+    _, err = capsys.readouterr()
+    assert "no such file" in err
+    assert "Traceback" not in err
+    assert main(["check", str(tmp_path)]) == 2
+    _, err = capsys.readouterr()
+    assert "this is a folder, not a scheme file" in err
+
+
+def test_several_errors_are_reported_in_one_run(tmp_path, capsys):
+    path = tmp_path / "many.scheme"
+    path.write_text("A -> B  k1 = -1 1/s\nB -> C  k9\nstart Q = 1 M\n", encoding="utf-8")
+    assert main(["check", str(path)]) == 2
+    _, err = capsys.readouterr()
+    assert err.splitlines()[0] == f"kinetics: 3 problems in {path}:"
+    assert f"{path}:1:14:" in err
+    assert f"{path}:2:9:" in err
+    assert f"{path}:3:7:" in err
+
+
+def test_allow_imbalance_flag(tmp_path, capsys):
+    path = tmp_path / "lumped.scheme"
+    path.write_text("A -> 2 B  k1 = 0.1 1/s\nformula A = C6H12O6, B = C3H6O2\n", encoding="utf-8")
+    assert main(["check", str(path), "--json"]) == 2
+    _, err = capsys.readouterr()
+    assert "atoms do not balance in A -> 2 B" in err
+    assert main(["check", str(path), "--json", "--allow-imbalance"]) == 0
+    report = json.loads(capsys.readouterr().out)
+    assert report["balance"]["ok"] is False
