@@ -154,6 +154,7 @@ __all__ = [
     "Limit",
     "Maximum",
     "RelaxationTimes",
+    "SchemeSummary",
     "SpeciesSummary",
     "TimeToLimit",
     "YieldsAndSelectivity",
@@ -166,6 +167,7 @@ __all__ = [
     "mean_residence_time",
     "relaxation_times",
     "summarise",
+    "summarise_all",
     "time_to_fraction",
     "time_to_fraction_detail",
     "time_to_limit",
@@ -630,6 +632,65 @@ class SpeciesSummary:
             "area_to_infinity": _num(self.area_to_infinity),
             "mean_residence_time": _num(self.mean_residence_time),
             "notes": list(self.notes),
+        }
+
+
+@dataclass(frozen=True)
+class SchemeSummary:
+    """Scheme-wide derived quantities (seconds, caller's concentration unit).
+
+    Attributes
+    ----------
+    relaxation_times, oscillation_periods, growth_times : tuple of float
+        [s], see :class:`RelaxationTimes`.
+    defective, nearly_defective : bool
+    relaxation_note : str
+    time_to_limit : float or None
+        [s] every species within ``tolerance`` of its limit (module Definitions).
+    time_to_limit_note : str
+    tolerance : float
+    end_products : tuple of str
+    selectivity_at_window_end, selectivity_in_limit : dict of str to float, or None
+        Fractional selectivity of each end product.
+    yield_basis : float
+        [conc] total start concentration the yields refer to.
+    limit_notes : tuple of str
+    """
+
+    relaxation_times: tuple[float, ...]
+    oscillation_periods: tuple[float, ...]
+    growth_times: tuple[float, ...]
+    defective: bool
+    nearly_defective: bool
+    relaxation_note: str
+    time_to_limit: float | None
+    time_to_limit_note: str
+    tolerance: float
+    end_products: tuple[str, ...]
+    selectivity_at_window_end: dict[str, float] | None
+    selectivity_in_limit: dict[str, float] | None
+    yield_basis: float
+    limit_notes: tuple[str, ...] = ()
+
+    def to_dict(self) -> dict[str, Any]:
+        def sel(d):
+            return None if d is None else {k: _num(v) for k, v in d.items()}
+
+        return {
+            "relaxation_times": [_num(x) for x in self.relaxation_times],
+            "oscillation_periods": [_num(x) for x in self.oscillation_periods],
+            "growth_times": [_num(x) for x in self.growth_times],
+            "defective": bool(self.defective),
+            "nearly_defective": bool(self.nearly_defective),
+            "relaxation_note": self.relaxation_note or None,
+            "time_to_limit": _num(self.time_to_limit),
+            "time_to_limit_note": self.time_to_limit_note or None,
+            "tolerance": float(self.tolerance),
+            "end_products": list(self.end_products),
+            "selectivity_at_window_end": sel(self.selectivity_at_window_end),
+            "selectivity_in_limit": sel(self.selectivity_in_limit),
+            "yield_basis": _num(self.yield_basis),
+            "limit_notes": list(self.limit_notes),
         }
 
 
@@ -1368,8 +1429,12 @@ class _Context:
         per = np.full(n, np.nan)
         if not lim.bounded:
             who = ", ".join(self.names[i] for i in np.flatnonzero(lim.unbounded))
+            verb = "grows" if lim.unbounded.sum() == 1 else "grow"
             return TimeToLimit(
-                None, per, tolerance, f"no finite limit: {who} grow(s) without bound"
+                None,
+                per,
+                tolerance,
+                f"no finite limit: {who} {verb} without bound",
             )
         L = lim.values
         big = L.max() if L.max() > 0 else self.c0.max()
@@ -1814,8 +1879,13 @@ def relaxation_times(K, *, names: Sequence[str] | None = None) -> RelaxationTime
             if gap > _NEARLY * scale or owner[a] == owner[b]:
                 continue
             ca, cb = int(owner[a]), int(owner[b])
-            if nx.has_path(st.dag, ca, cb) or nx.has_path(st.dag, cb, ca):
-                (pairs_exact if gap <= _REPEATED * scale else pairs_near).append((a, b))
+            if nx.has_path(st.dag, cb, ca):
+                pair = (b, a)  # upstream class first in the note
+            elif nx.has_path(st.dag, ca, cb):
+                pair = (a, b)
+            else:
+                continue
+            (pairs_exact if gap <= _REPEATED * scale else pairs_near).append(pair)
     if pairs_exact:
         defective = True
     if pairs_near:
@@ -2072,6 +2142,52 @@ def summarise(
     ----------
     See the module docstring.
     """
+    return summarise_all(K, c0, species, feed, t_window, tolerance)[0]
+
+
+def summarise_all(
+    K,
+    c0,
+    species: Sequence[str],
+    feed=None,
+    t_window: float | None = None,
+    tolerance: float = 0.01,
+) -> tuple[dict[str, SpeciesSummary], SchemeSummary]:
+    r"""Per-species summaries and the scheme-wide quantities, from one shared scan.
+
+    Parameters
+    ----------
+    K : array_like or sparse, shape (n, n)
+        Rate matrix [1/s].
+    c0 : array_like, shape (n,)
+        Start concentrations [conc].
+    species : sequence of str
+        Species names, in the order of the rows of ``K``.
+    feed : array_like, shape (n,), optional
+        Zero-order feed [conc/s].
+    t_window : float, optional
+        End of the chosen time window [s].
+    tolerance : float
+        Tolerance of the time to the limit [-], default 0.01.
+
+    Returns
+    -------
+    (dict of str to SpeciesSummary, SchemeSummary)
+
+    .. math::
+
+        t_{lim} = \max_i t_i, \qquad \tau_k = 1/|\operatorname{Re}\lambda_k|, \qquad
+        s_P = \Delta c_P / \sum_Q \Delta c_Q
+
+    Notes
+    -----
+    Same definitions as :func:`summarise`, :func:`relaxation_times`,
+    :func:`time_to_limit` and :func:`yields_and_selectivity`.
+
+    References
+    ----------
+    See the module docstring.
+    """
     names = list(species)
     ctx = _Context(K, c0, feed, names=names, t_window=t_window)
     tolerance = _check_fraction(tolerance, "tolerance")
@@ -2122,4 +2238,26 @@ def summarise(
             mean_residence_time=_num(mrt[i]),
             notes=tuple(notes),
         )
-    return out
+    rt = relaxation_times(ctx.K, names=names)
+    prods = [names[i] for i in ys.end_products]
+
+    def share(x):
+        return None if x is None else {p: float(v) for p, v in zip(prods, x, strict=True)}
+
+    scheme = SchemeSummary(
+        relaxation_times=tuple(float(x) for x in rt.times),
+        oscillation_periods=tuple(float(x) for x in rt.periods),
+        growth_times=tuple(float(x) for x in rt.growth_times),
+        defective=rt.defective,
+        nearly_defective=rt.nearly_defective,
+        relaxation_note=rt.note,
+        time_to_limit=ttl.time,
+        time_to_limit_note=ttl.reason,
+        tolerance=tolerance,
+        end_products=tuple(prods),
+        selectivity_at_window_end=share(ys.selectivity_at_window_end),
+        selectivity_in_limit=share(ys.selectivity_in_limit),
+        yield_basis=ys.basis,
+        limit_notes=lim.notes,
+    )
+    return out, scheme

@@ -340,3 +340,22 @@ def test_reported_tmax_is_a_maximum_of_the_exact_curve(K):
         assert c[1, i] >= c[0, i] * (1 - 1e-15)
         assert c[1, i] >= c[2, i] * (1 - 1e-15)
         np.testing.assert_allclose(s.c_max, c[1, i], rtol=1e-12, atol=0)
+
+
+def test_scheme_summary_json():
+    # parallel A -> B (k1), A -> C (k2): fractional selectivity k1/(k1+k2), k2/(k1+k2)
+    # (Atkins & de Paula, parallel reactions); relaxation time 1/(k1 + k2)
+    k1, k2 = 0.8, 0.05
+    K = np.array([[-(k1 + k2), 0, 0], [k1, 0, 0], [k2, 0, 0]])
+    per, scheme = an.summarise_all(K, [1.0, 0, 0], ["A", "B", "C"], t_window=10.0)
+    assert set(per) == {"A", "B", "C"}
+    d = json.loads(json.dumps(scheme.to_dict(), allow_nan=False))
+    assert d["end_products"] == ["B", "C"]
+    assert d["selectivity_in_limit"]["B"] == pytest.approx(k1 / (k1 + k2), rel=1e-14)
+    assert d["relaxation_times"] == pytest.approx([1 / (k1 + k2)], rel=1e-14)
+    np.testing.assert_allclose(d["time_to_limit"], math.log(100) / (k1 + k2), rtol=1e-10)
+
+
+def test_defective_note_names_upstream_species_first():
+    rt = an.relaxation_times(chain(0.3, 0.3), names=["A", "B", "C"])
+    assert "for both A and B" in rt.note
