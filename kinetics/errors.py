@@ -20,6 +20,7 @@ from __future__ import annotations
 
 __all__ = [
     "DataError",
+    "GrowthError",
     "KineticsError",
     "SchemeError",
     "SchemeErrors",
@@ -174,3 +175,22 @@ class DataError(KineticsError, ValueError):
     def __str__(self) -> str:
         head = f"{self.source}: {self.problem}" if self.source else self.problem
         return f"{head}; {self.hint}" if self.hint else head
+
+
+class GrowthError(KineticsError, OverflowError):
+    """Concentrations that grow beyond the range of double precision (about 1e308).
+
+    Only a scheme that makes more of a species than it consumes (``A -> 2 A``)
+    or a feed over very long times can do this.
+    """
+
+    def __init__(self, problem: str, hint: str = "") -> None:
+        super().__init__(problem)
+        self.problem = problem
+        self.hint = hint
+
+    def __reduce__(self):
+        return (type(self), (self.problem, self.hint))
+
+    def __str__(self) -> str:
+        return f"{self.problem}; {self.hint}" if self.hint else self.problem

@@ -57,6 +57,7 @@ cross-check in the tests.
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, field
 from functools import lru_cache
@@ -66,7 +67,7 @@ import numpy as np
 import scipy.sparse
 
 from kinetics import _doubledouble as dd
-from kinetics.errors import UsageError
+from kinetics.errors import GrowthError, UsageError
 
 __all__ = [
     "DENSE_MAX",
@@ -472,6 +473,32 @@ def _gamma_mv(n: int, route_dd: bool) -> float:
 # --------------------------------------------------------------------------
 
 
+def _guard_growth(func):
+    """Run ``func`` with overflow silenced, then refuse non-finite results with a clear error.
+
+    A result can only overflow when the scheme grows (a positive eigenvalue of K,
+    e.g. ``A -> 2 A``) for long enough to exceed about 1e308.
+    """
+
+    @functools.wraps(func)
+    def wrapper(*args, **kwargs):
+        with np.errstate(over="ignore", invalid="ignore", under="ignore"):
+            result = func(*args, **kwargs)
+        parts = result if isinstance(result, tuple) else (result,)
+        for part in parts:
+            values = getattr(part, "concentrations", part)
+            if isinstance(values, np.ndarray) and not np.all(np.isfinite(values)):
+                raise GrowthError(
+                    "the concentrations grow beyond the range of double precision (about 1e308)",
+                    "the scheme makes more of a species than it consumes (e.g. A -> 2 A) or "
+                    "feeds it for a very long time; shorten the time window or check the "
+                    "stoichiometry",
+                )
+        return result
+
+    return wrapper
+
+
 def expm_nonnegative(A, t: float = 1.0, *, precision: Precision = "auto") -> np.ndarray:
     r"""Matrix exponential :math:`e^{tA}` of an essentially nonnegative matrix.
 
@@ -512,6 +539,7 @@ def expm_nonnegative(A, t: float = 1.0, *, precision: Precision = "auto") -> np.
     return expm_nonnegative_certified(A, t, precision=precision)[0]
 
 
+@_guard_growth
 def expm_nonnegative_certified(
     A, t: float = 1.0, *, precision: Precision = "auto"
 ) -> tuple[np.ndarray, float]:
@@ -679,6 +707,7 @@ def _propagate_dense_stack(A, x0, times, precision: str):
     return np.maximum(X, 0.0), bound, label
 
 
+@_guard_growth
 def propagate_certified(K, c0, times, feed=None, *, precision: Precision = "auto") -> Propagation:
     r"""Concentrations on a time grid with a componentwise error bound.
 
@@ -794,6 +823,7 @@ def propagate(K, c0, times, feed=None, *, precision: Precision = "auto") -> np.n
     return propagate_certified(K, c0, times, feed, precision=precision).concentrations
 
 
+@_guard_growth
 def propagate_batch(
     K, c0, times, feed=None, *, precision: Precision = "auto", return_bound: bool = False
 ):
@@ -864,6 +894,7 @@ def propagate_batch(
 # --------------------------------------------------------------------------
 
 
+@_guard_growth
 def sensitivities(
     K, c0, times, directions, feed=None, *, precision: Precision = "auto"
 ) -> np.ndarray:
