@@ -1230,6 +1230,7 @@ def run_chunks(
     engine: str = "local",
     scheduler: str | None = None,
     workers: int | None = None,
+    connect_timeout: float = 10.0,
 ) -> None:
     """Evaluate ``chunks`` of ``plan`` and hand each result to ``on_result`` as it completes.
 
@@ -1251,6 +1252,8 @@ def run_chunks(
         Address of a running Dask scheduler (``tcp://host:8786``); only with ``dask``.
     workers : int, optional
         Worker processes of the local cluster (default: the number of CPUs).
+    connect_timeout : float
+        Seconds to wait for the scheduler at ``scheduler`` [s].
 
     Raises
     ------
@@ -1272,7 +1275,7 @@ def run_chunks(
         return
     if engine != "dask":
         raise UsageError(f"unknown engine {engine!r}", "use --engine local or --engine dask")
-    client, cluster = _dask_client(scheduler, workers)
+    client, cluster = _dask_client(scheduler, workers, connect_timeout)
     try:
         _run_dask(client, plan, chunks, on_result, curves)
     finally:
@@ -1281,7 +1284,7 @@ def run_chunks(
             cluster.close()
 
 
-def _dask_client(scheduler: str | None, workers: int | None):
+def _dask_client(scheduler: str | None, workers: int | None, timeout: float = 10.0):
     try:
         from dask.distributed import Client, LocalCluster
     except ImportError:
@@ -1291,7 +1294,7 @@ def _dask_client(scheduler: str | None, workers: int | None):
         ) from None
     if scheduler is not None:
         try:
-            return Client(scheduler, timeout="10s"), None
+            return Client(scheduler, timeout=f"{timeout}s"), None
         except (OSError, TimeoutError) as exc:
             raise UsageError(
                 f"cannot reach the Dask scheduler at {scheduler!r} ({exc})",
