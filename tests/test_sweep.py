@@ -522,3 +522,55 @@ def test_cli_user_mistakes_exit_2(chain_file, tmp_path, monkeypatch, capsys, arg
     err = capsys.readouterr().err
     assert err.startswith("kinetics: ")
     assert "Traceback" not in err
+
+
+@pytest.mark.slow
+def test_killed_sweep_process_resumes_to_the_same_table(chain_file, tmp_path, capsys):
+    import subprocess
+    import sys
+    import time
+
+    out = tmp_path / "killed.csv"
+    folder = tmp_path / "killed.csv.chunks"
+    args = [
+        "sweep",
+        str(chain_file),
+        "--until",
+        "3h",
+        "--vary",
+        "k2=0.001:1:300:log",
+        "--vary",
+        "k1=0.06,0.12",
+        "--chunk-size",
+        "6",
+        "--no-caution",
+    ]
+    n_chunks = 100
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "kinetics", *args, "--out", str(out)],
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.DEVNULL,
+    )
+    try:
+        deadline = time.monotonic() + 120
+        while time.monotonic() < deadline:
+            if folder.is_dir() and len(list(folder.glob("chunk_*.npz"))) >= 3:
+                break
+            if proc.poll() is not None:
+                break
+            time.sleep(0.005)
+    finally:
+        proc.kill()
+        proc.wait()
+    before = {p.name: p.stat().st_mtime_ns for p in folder.glob("chunk_*.npz")}
+    assert 3 <= len(before) < n_chunks, "the sweep was not interrupted halfway"
+    assert not out.exists()
+    capsys.readouterr()
+    assert main([*args, "--out", str(out), "--resume", "--keep-chunks"]) == 0
+    assert f"resumed: {len(before)} of {n_chunks} chunks" in capsys.readouterr().err
+    for name, mtime in before.items():  # finished chunks were not computed again
+        assert (folder / name).stat().st_mtime_ns == mtime
+    fresh = tmp_path / "fresh.csv"
+    assert main([*args, "--out", str(fresh)]) == 0
+    assert out.read_text() == fresh.read_text()
+    assert len(pd.read_csv(out)) == 600
