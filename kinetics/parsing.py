@@ -251,7 +251,7 @@ def _scaled(number: str, factor: Fraction) -> Fraction:
 def _exact(value: Fraction) -> float | None:
     """``float(value)``, or None when it overflows a double."""
     try:
-        result = float(value)
+        result = value.numerator / value.denominator  # correctly rounded, as float(value)
     except OverflowError:
         return None
     return result if math.isfinite(result) else None
@@ -1691,6 +1691,8 @@ class _Builder:
         from .balance import atom_balance
 
         formulas = {s.name: s.formula for s in species}
+        if not any(formulas.values()):
+            return  # no formulas, nothing to balance
         for reaction, statement in zip(reaction_objs, statements, strict=True):
             result = atom_balance(reaction, formulas)
             if result is None or result.ok or allow_imbalance:

@@ -205,7 +205,10 @@ def _effective(scheme: Scheme, k: Fraction, co_reactants, excess) -> float:
 
 
 def _to_float(value) -> float:
+    """Round once to the nearest double (int / int true division is correctly rounded)."""
     try:
+        if type(value) is Fraction:
+            return value.numerator / value.denominator
         return float(value)
     except OverflowError:
         return math.inf

@@ -29,7 +29,7 @@ from .units import GAS_CONSTANT
 __all__ = ["Arrhenius", "RateConstant", "Reaction", "Scheme", "Species", "Step"]
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class Species:
     """A species of the scheme.
 
@@ -54,7 +54,7 @@ class Species:
     line: int = 0
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class Arrhenius:
     """Arrhenius parameters of a rate constant.
 
@@ -101,7 +101,7 @@ class Arrhenius:
         return prefactor * math.exp(-self.activation_energy / (GAS_CONSTANT * temperature))
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class RateConstant:
     """A named rate constant as defined in the file.
 
@@ -141,7 +141,7 @@ class RateConstant:
         return float(self.value_si)
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class Step:
     """One irreversible first-order step, the unit the rate matrix is built from.
 
@@ -186,7 +186,7 @@ def _term(coefficient: float, name: str) -> str:
     return f"{text} {name}"
 
 
-@dataclass(frozen=True)
+@dataclass(frozen=True, slots=True)
 class Reaction:
     """A reaction line as written.
 
