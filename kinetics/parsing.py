@@ -655,51 +655,63 @@ _FAST_REACTION = re.compile(
 def _fast_terms(code: str, start: int, end: int):
     terms = []
     for m in _TERM_RE.finditer(code, start, end):
-        coef = m.group("coef")
-        name = m.group("name")
+        coef, name = m.group(1, 2)
         if name in _RESERVED:
             return None
-        coefficient = 1.0
-        if coef is not None:
-            coefficient = float(coef)
-            if not coefficient > 0:
-                return None
-        terms.append(_Term(coefficient, name, m.start("name") + 1))
+        if coef is None:
+            terms.append(_Term(1.0, name, m.start(2) + 1))
+            continue
+        coefficient = float(coef)
+        if not coefficient > 0:
+            return None
+        terms.append(_Term(coefficient, name, m.start(2) + 1))
     return tuple(terms)
 
 
-def _fast_ref(line: _Line, m, tag: str):
-    name = m.group(tag)
+def _fast_ref(code: str, m, name_group: int):
+    """The constant reference in groups ``name_group`` (name), +1 (number), +2 (unit)."""
+    name, number, unit = m.group(name_group, name_group + 1, name_group + 2)
     if name in _RESERVED:
         return None
-    column = m.start(tag) + 1
-    number = m.group(tag + "n")
+    column = m.start(name_group) + 1
     if number is None:
         return _ConstantRef(name, column, None)
     if not math.isfinite(float(number)):
         return None
-    unit = m.group(tag + "u")
-    value = _Value(number, unit, m.start(tag + "n") + 1, m.start(tag + "u") + 1)
-    text = line.code[m.start(tag + "n") : m.end(tag + "u")]
-    return _ConstantRef(name, column, _ConstantSpec(name, column, value=value, text=text))
+    number_at, unit_at = m.start(name_group + 1), m.start(name_group + 2)
+    value = _Value(number, unit, number_at + 1, unit_at + 1)
+    spec = _ConstantSpec(name, column, value, None, None, code[number_at : m.end(name_group + 2)])
+    return _ConstantRef(name, column, spec)
+
+
+_LEFT, _ARROW, _RIGHT = (_FAST_REACTION.groupindex[g] for g in ("left", "arrow", "right"))
+_REF_A, _REF_B = _FAST_REACTION.groupindex["a"], _FAST_REACTION.groupindex["b"]
 
 
 def _fast_reaction(line: _Line):
     """The statement of a plain reaction line, or None to use the general reader."""
-    m = _FAST_REACTION.match(line.code)
+    code = line.code
+    m = _FAST_REACTION.match(code)
     if m is None:
         return None
-    reversible = ARROWS[m.group("arrow")]
-    if reversible != (m.group("b") is not None):
+    reversible = ARROWS[m.group(_ARROW)]
+    if reversible != (m.group(_REF_B) is not None):
         return None
-    left = _fast_terms(line.code, m.start("left"), m.end("left"))
-    right = _fast_terms(line.code, m.start("right"), m.end("right"))
-    refs = [_fast_ref(line, m, "a")]
+    left = _fast_terms(code, m.start(_LEFT), m.end(_LEFT))
+    right = _fast_terms(code, m.start(_RIGHT), m.end(_RIGHT))
+    if left is None or right is None:
+        return None
+    first = _fast_ref(code, m, _REF_A)
+    if first is None:
+        return None
     if reversible:
-        refs.append(_fast_ref(line, m, "b"))
-    if left is None or right is None or None in refs:
-        return None
-    return ReactionStatement(left, right, reversible, m.start("arrow") + 1, tuple(refs), line)
+        second = _fast_ref(code, m, _REF_B)
+        if second is None:
+            return None
+        refs = (first, second)
+    else:
+        refs = (first,)
+    return ReactionStatement(left, right, reversible, m.start(_ARROW) + 1, refs, line)
 
 
 def _read_terms(line: _Line, text: str, offset: int, side: str):
@@ -910,14 +922,20 @@ def _read_statements(text: str, source: str):
         text = text[1:]
     # lines end at "\n" only (as editors count them), with an optional "\r" before it
     for number, raw in enumerate(text.split("\n"), start=1):
-        raw = raw.removesuffix("\r")
-        line = _Line(source, number, raw, _strip_comment(raw))
-        if not line.code.strip():
+        if raw.endswith("\r"):
+            raw = raw[:-1]
+        code = raw.split("#", 1)[0].rstrip() if "#" in raw else raw.rstrip()
+        if not code or code.isspace():
             continue
-        first = _FIRST_WORD.match(line.code)
+        line = _Line(source, number, raw, code)
+        first = _FIRST_WORD.match(code)
         if first is None or first.group(1).lower() in _KEYWORD_STARTS:
             kinds = _STATEMENTS
         else:
+            fast = _fast_reaction(line)  # most lines of a large file
+            if fast is not None:
+                statements.append(fast)
+                continue
             kinds = _NAME_STARTS
         for kind in kinds:
             result = kind.from_line(line)
@@ -988,9 +1006,17 @@ class _Builder:
         self.text = text
         self.strict_balance = strict_balance
         self._orders_ok: set = set()  # (order, unit, co-reactants) found consistent
+        self._suggestions_left = 50  # "did you mean" costs a scan of all names
 
     def error(self, line: _Line, problem, column=0, snippet="", hint=""):
         self.errors.append(line.error(problem, column, snippet, hint))
+
+    def _did_you_mean(self, name: str, candidates) -> str:
+        """A suggestion for the first few misspelt names only (each costs a scan)."""
+        if self._suggestions_left <= 0:
+            return ""
+        self._suggestions_left -= 1
+        return _did_you_mean(name, candidates)
 
     def build(self) -> Scheme:
         st = self.statements
@@ -1207,7 +1233,7 @@ class _Builder:
         for s in lists:
             for item in s.items:
                 if item.name not in order:
-                    hint = _did_you_mean(item.name, order) or (
+                    hint = self._did_you_mean(item.name, order) or (
                         "a species must take part in a reaction before it can be given "
                         + _WHAT_LISTED[s.kind]
                     )
@@ -1393,13 +1419,13 @@ class _Builder:
             constants[spec.name] = constant
             first_line[spec.name] = line.number
         # references to undefined constants
+        defined = {spec.name for spec, _ in specs}
         for r in reactions:
             for ref in r.constants:
                 if ref.spec is None and ref.name not in constants:
-                    defined_somewhere = any(sp.name == ref.name for sp, _ in specs)
-                    if defined_somewhere:
+                    if ref.name in defined:
                         continue  # its definition had an error, already reported
-                    hint = _did_you_mean(ref.name, constants)
+                    hint = self._did_you_mean(ref.name, constants)
                     hint = hint or (
                         f"define it, e.g. {ref.name} = 0.1 1/s on a line of its own or on the "
                         "reaction line"
