@@ -228,24 +228,23 @@ def _unit_of(line: _Line, value: _Value, what: str, example: str):
         )
 
 
-_DECIMAL = re.compile(r"(?P<int>\d*)(?:\.(?P<frac>\d*))?(?:[eE](?P<exp>[-+]?\d+))?")
-
-
 def _scaled(number: str, factor: Fraction) -> Fraction:
-    """The decimal ``number`` (unsigned, as written) times ``factor``, exactly.
+    """The decimal ``number`` (as the readers matched it) times ``factor``, exactly.
 
     One rational construction instead of two (``Fraction(number) * factor``):
     this runs once per rate constant of a file.
     """
-    m = _DECIMAL.fullmatch(number)
-    if m is None or abs(int(m.group("exp") or 0)) > 400:
+    mantissa, _, exp_text = number.lower().partition("e")
+    whole, _, frac = mantissa.partition(".")
+    digits = whole + frac
+    if not digits.isdigit() or not (exp_text.lstrip("+-").isdigit() or not exp_text):
+        return Fraction(number) * factor  # signs, nan and the like: the general way
+    exponent = (int(exp_text) if exp_text else 0) - len(frac)
+    if abs(exponent) > 400:
         return Fraction(number) * factor
-    frac = m.group("frac") or ""
-    digits = int((m.group("int") or "0") + frac)
-    exponent = int(m.group("exp") or 0) - len(frac)
     if exponent >= 0:
-        return Fraction(digits * 10**exponent * factor.numerator, factor.denominator)
-    return Fraction(digits * factor.numerator, 10**-exponent * factor.denominator)
+        return Fraction(int(digits) * 10**exponent * factor.numerator, factor.denominator)
+    return Fraction(int(digits) * factor.numerator, 10**-exponent * factor.denominator)
 
 
 def _exact(value: Fraction) -> float | None:
@@ -1500,9 +1499,10 @@ class _Builder:
             arrhenius = Arrhenius(prefactor, energy, a.text, ea.text)
             return RateConstant(spec.name, spec.text, None, a.unit, order, arrhenius, line.number)
         v = spec.value
-        unit = _unit_of(line, v, f"rate constant {spec.name}", "1/s")
-        if isinstance(unit, SchemeError):
-            self.errors.append(unit)
+        try:
+            unit = parse_unit(v.unit)
+        except ValueError:  # reported by _unit_of, which words the message
+            self.errors.append(_unit_of(line, v, f"rate constant {spec.name}", "1/s"))
             return None
         order = unit.rate_order
         if order is None:
