@@ -881,14 +881,19 @@ class _Context:
     def _noise_d(self, C: np.ndarray) -> np.ndarray:
         return _REL_NOISE_D * ((self.absK @ C.T).T + np.abs(self.f))
 
-    def _propagate(self, times: np.ndarray) -> np.ndarray:
-        """c at arbitrary (unsorted) times, one engine call."""
+    def _propagate(self, times: np.ndarray, precision: str = "auto") -> np.ndarray:
+        """c at arbitrary (unsorted) times, one engine call.
+
+        The scan that brackets roots uses ``precision="double"`` (signs and
+        brackets need far less than the final accuracy); every reported value is
+        refined with the default entrywise-accurate engine.
+        """
         times = np.asarray(times, dtype=float)
         if times.size == 0:
             return np.zeros((0, self.n))
         order = np.argsort(times, kind="stable")
         out = np.empty((times.size, self.n))
-        out[order] = propagate(self.K, self.c0, times[order], self.feed)
+        out[order] = propagate(self.K, self.c0, times[order], self.feed, precision=precision)
         return out
 
     def _solve_block(self, cl: _Class, rhs: np.ndarray) -> np.ndarray:
@@ -1097,13 +1102,13 @@ class _Context:
         if self._grid is not None:
             return self._grid
         T = self._base_times()
-        C = self._propagate(T)
+        C = self._propagate(T, precision="double")
         g = self._eval_grid(T, C)
         for _ in range(3):
             new = self._hidden_turns(g)
             if new.size == 0:
                 break
-            Cn = self._propagate(new)
+            Cn = self._propagate(new, precision="double")
             T = np.concatenate([g["T"], new])
             C = np.concatenate([g["C"], Cn])
             order = np.argsort(T, kind="stable")

@@ -70,6 +70,7 @@ from kinetics import _doubledouble as dd
 from kinetics.errors import GrowthError, UsageError
 
 __all__ = [
+    "DENSE_DOUBLE_MAX",
     "DENSE_MAX",
     "Propagation",
     "expm_nonnegative",
@@ -82,8 +83,12 @@ __all__ = [
 
 Precision = Literal["auto", "double", "double-double"]
 
-#: Largest scheme handled as one dense matrix; larger ones go block by block.
+#: Largest scheme handled by the dense engine in double-double arithmetic.
 DENSE_MAX = 64
+#: Largest scheme handled as one dense matrix at all (in plain double above
+#: DENSE_MAX, which is faster there than the block route and keeps trace
+#: entries); larger ones go block by block.
+DENSE_DOUBLE_MAX = 200
 
 _U = 2.0**-53  # unit roundoff of IEEE double
 #: Entries below this are outside the relative-accuracy guarantee (underflow).
@@ -753,13 +758,15 @@ def propagate_certified(K, c0, times, feed=None, *, precision: Precision = "auto
     c0 = _vector(c0, n, "initial concentrations")
     times = _times(times)
     f = None if feed is None else _vector(feed, n, "feed")
-    if scipy.sparse.issparse(K) and n <= DENSE_MAX:
+    if scipy.sparse.issparse(K) and n <= DENSE_DOUBLE_MAX:
         K = K.toarray()
-    if scipy.sparse.issparse(K) or n > DENSE_MAX:
+    if scipy.sparse.issparse(K) or n > DENSE_DOUBLE_MAX:
         from kinetics._blocks import propagate_blocks
 
         conc, bound = propagate_blocks(K, c0, times, f)
         return Propagation(times, conc, bound, "blocks")
+    if n > DENSE_MAX and precision == "auto":
+        precision = "double"  # double-double costs too much at this size
     A = _augment(K[None], None if f is None else f[None])
     x0 = c0 if f is None else np.append(c0, 1.0)
     X, bound, label = _propagate_dense_stack(A, x0[None], times, precision)
@@ -807,7 +814,9 @@ def propagate(K, c0, times, feed=None, *, precision: Precision = "auto") -> np.n
     Schemes with at most :data:`DENSE_MAX` species (with the feed) use the dense
     entrywise engine (see the module docstring): every entry above 1e-290 is
     accurate to a few units of rounding (the bound is in
-    :func:`propagate_certified`).  Larger or sparse schemes are split into the
+    :func:`propagate_certified`).  Up to :data:`DENSE_DOUBLE_MAX` species the
+    same dense engine runs in plain double (``precision="auto"``).  Larger
+    schemes are split into the
     strongly connected components of the species graph and propagated in
     topological order through a block-triangular, block-sparse matrix
     exponential in plain double precision (:mod:`kinetics._blocks`).
