@@ -257,12 +257,10 @@ def compute_summary(solution: Solution) -> dict[str, dict] | None:
     """Summary quantities of every species in SI time [s] and the concentration unit.
 
     Uses :func:`kinetics.analysis.summarise` on the scheme of ``solution`` with the
-    solution's time window.  Returns ``None`` when that module is not available.
+    solution's time window.
     """
-    try:
-        from .analysis import summarise
-    except ImportError:
-        return None
+    from .analysis import summarise
+
     scheme = solution.scheme
     feed = scheme.feed_vector if scheme.feed else None
     window = float(solution.times[-1])
