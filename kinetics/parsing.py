@@ -34,12 +34,17 @@ The imbalance is then still reported by :func:`kinetics.balance.mass_balance`
 (per reaction, and the mass-changing steps by name), but it no longer stops
 the file from loading.
 
-Parsing runs in two passes.  The first reads each line into a small frozen
+Parsing runs in two passes.  The first reads each line into a small
 statement object (each statement kind has a ``from_line`` constructor that
 answers "not mine" with ``None``, or returns a statement or a list of errors).
-The second pass resolves names, units and orders across the whole file.  All
-errors of both passes are collected and raised together as one
-:class:`~kinetics.errors.SchemeErrors`.
+Plain reaction lines, which make up large files, first go through one compiled
+pattern (``_fast_reaction``) that builds the very same statement; anything it
+does not recognise, every error included, goes to the general reader
+(``ReactionStatement.from_line_general``), which words the messages.  The
+second pass (``_Builder``) resolves names, units and orders across the whole
+file.  All errors of both passes are collected and raised together as one
+:class:`~kinetics.errors.SchemeErrors`.  The work is linear in the size of the
+file (``benchmarks/bench_parse.py``).
 """
 
 from __future__ import annotations
@@ -107,7 +112,9 @@ class _Line:
     code: str  # the line without its comment, right-stripped
 
     def error(self, problem: str, column: int = 0, snippet: str = "", hint: str = ""):
-        return SchemeError(problem, self.source, self.number, column, self.text, snippet, hint)
+        # tabs shown as one space each, so that the caret under the line stays aligned
+        shown = self.text.replace("\t", " ")
+        return SchemeError(problem, self.source, self.number, column, shown, snippet, hint)
 
 
 def _strip_comment(text: str) -> str:

@@ -1056,3 +1056,11 @@ def test_scheme_errors_pickle():
 def test_public_api_is_reexported():
     assert kinetics.parse is parse
     assert kinetics.load is load
+
+
+def test_caret_stays_aligned_under_a_line_with_tabs():
+    e = only_error("A -> B\tk1 = -1 1/s")
+    text, caret = str(e).splitlines()[1:]
+    assert "\t" not in text
+    start = caret.index("^")
+    assert text[start : start + len(e.snippet)] == "-1"
