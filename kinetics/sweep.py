@@ -116,7 +116,7 @@ __all__ = [
 PERCENTILES = (2.5, 50.0, 97.5)
 #: Sets per chunk by default (memory per chunk: about sets x points x species x 8 bytes
 #: when curves are kept).
-DEFAULT_CHUNK = 2000
+DEFAULT_CHUNK = 1000
 _VERSION = 1  # of the chunk layout and the definition hash
 
 _NUMBER = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
@@ -1231,6 +1231,7 @@ def run_chunks(
     scheduler: str | None = None,
     workers: int | None = None,
     connect_timeout: float = 10.0,
+    threads: int | None = None,
 ) -> None:
     """Evaluate ``chunks`` of ``plan`` and hand each result to ``on_result`` as it completes.
 
@@ -1245,15 +1246,19 @@ def run_chunks(
     curves : bool
         Keep the concentration curves.
     engine : {"local", "dask"}
-        ``local``: in this process, one chunk after another.  ``dask``: each chunk is a task
-        on a Dask distributed cluster: the one at ``scheduler``, or a local cluster of
-        worker processes started for this run.
+        ``local``: in this process (several chunks at once on a thread pool).  ``dask``:
+        each chunk is a task on a Dask distributed cluster: the one at ``scheduler``, or a
+        local cluster of worker processes started for this run.
     scheduler : str, optional
         Address of a running Dask scheduler (``tcp://host:8786``); only with ``dask``.
     workers : int, optional
         Worker processes of the local cluster (default: the number of CPUs).
     connect_timeout : float
         Seconds to wait for the scheduler at ``scheduler`` [s].
+    threads : int, optional
+        Local engine: chunks evaluated at the same time by a pool of threads (numpy
+        releases the interpreter lock in its array loops); default: the number of CPUs,
+        at most the number of chunks.  ``1`` evaluates them one after another.
 
     Raises
     ------
@@ -1270,8 +1275,7 @@ def run_chunks(
     if engine == "local":
         if scheduler is not None:
             raise UsageError("--scheduler needs --engine dask", "add --engine dask")
-        for k in chunks:
-            on_result(evaluate_chunk(plan, k, curves))
+        _run_local(plan, chunks, on_result, curves, threads)
         return
     if engine != "dask":
         raise UsageError(f"unknown engine {engine!r}", "use --engine local or --engine dask")
@@ -1282,6 +1286,41 @@ def run_chunks(
         client.close()
         if cluster is not None:
             cluster.close()
+
+
+def _run_local(
+    plan: SweepPlan, chunks: list[int], on_result, curves: bool, threads: int | None
+) -> None:
+    import os
+
+    n = threads if threads is not None else (os.cpu_count() or 1)
+    if isinstance(n, bool) or not isinstance(n, int) or n < 1:
+        raise UsageError(f"the number of threads must be a whole number >= 1, not {n!r}", "e.g. 2")
+    n = min(n, len(chunks))
+    if n <= 1:
+        for k in chunks:
+            on_result(evaluate_chunk(plan, k, curves))
+        return
+    from concurrent.futures import FIRST_COMPLETED, ThreadPoolExecutor, wait
+
+    todo = iter(chunks)
+    with ThreadPoolExecutor(max_workers=n, thread_name_prefix="kinetics-sweep") as pool:
+        running = set()
+        try:
+            for k in todo:
+                running.add(pool.submit(evaluate_chunk, plan, k, curves))
+                if len(running) >= n:
+                    done, running = wait(running, return_when=FIRST_COMPLETED)
+                    for f in done:
+                        on_result(f.result())
+            while running:
+                done, running = wait(running, return_when=FIRST_COMPLETED)
+                for f in done:
+                    on_result(f.result())
+        except BaseException:
+            for f in running:
+                f.cancel()
+            raise
 
 
 def _dask_client(scheduler: str | None, workers: int | None, timeout: float = 10.0):

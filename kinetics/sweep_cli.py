@@ -286,7 +286,7 @@ Examples:
 @click.option(
     "--chunk-size",
     type=click.IntRange(min=1),
-    default=2000,
+    default=1000,
     show_default=True,
     help="Parameter sets per stacked batch (and per chunk file).",
 )

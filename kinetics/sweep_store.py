@@ -354,6 +354,7 @@ def run_sweep(
     engine: str = "local",
     scheduler: str | None = None,
     workers: int | None = None,
+    threads: int | None = None,
     plot_columns: Sequence[str] = (),
     on_progress: Callable[[int, int], None] | None = None,
 ) -> SweepRun:
@@ -374,7 +375,7 @@ def run_sweep(
         Reuse the finished chunks of an interrupted run of the same definition.
     keep_chunks : bool
         Keep the chunk folder after the tables are written.
-    engine, scheduler, workers
+    engine, scheduler, workers, threads
         See :func:`kinetics.sweep.run_chunks`.
     plot_columns : sequence of str
         Columns of the summary (or bands) table to collect in memory for a plot.
@@ -412,7 +413,14 @@ def run_sweep(
             on_progress(done[0], total)
 
     run_chunks(
-        plan, todo, finished, curves=curves, engine=engine, scheduler=scheduler, workers=workers
+        plan,
+        todo,
+        finished,
+        curves=curves,
+        engine=engine,
+        scheduler=scheduler,
+        workers=workers,
+        threads=threads,
     )
     if store.missing():  # pragma: no cover - an engine that lost a chunk
         raise UsageError("some chunks were not computed", "run again with --resume")

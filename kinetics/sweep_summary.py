@@ -76,10 +76,17 @@ _SCAN_SLOW = 50.0
 _XTOL = 1e-13
 _CLASS_TOL = 1e-12
 _GLOBAL_TOL = 1e-12
-# scan grid in scaled time
-_TAU0 = 2.0**-10
-_SEGMENT_RATIO = 8.0
-_SEGMENT_STEPS = 24
+# ladder and scan grid in scaled time: levels u_l = 2^-15 4^l; the scan starts with 4
+# steps of level 2 up to tau0 = 2^-9, then segments [tau0 4^d, tau0 4^(d+1)] of 12 steps
+# of level d + 2 (about 20 points per decade)
+_U0 = 2.0**-15
+_RATIO = 4
+_TAU0 = 2.0**-9
+_SEGMENT_STEPS = 12
+# brackets are narrowed until u ||B|| <= 1/4, then a Taylor series of this many terms
+# beyond the longest path of the species graph gives the state (remainder < 0.25^14/14!)
+_NEWTON_Y = 0.25
+_NEWTON_TERMS = 14
 _MAX_NEWTON = 60
 
 _NEVER, _DECAY, _CONST, _EXP = -2, -1, 0, 10**9
@@ -278,22 +285,20 @@ class _Ladder:
     r"""Exponentials :math:`P_\ell = e^{u_\ell A}` of the scaled (augmented) matrices.
 
     :math:`A = s_i [[K, f], [0, 0]]` per member (the feed row only with a feed),
-    :math:`u_\ell = 2^{-15} 8^\ell`, :math:`B = A + \sigma I \ge 0`.  While
-    :math:`y_\ell = u_\ell (\|B\|_1) \le 1` a level is the Taylor sum of the shifted matrix,
+    :math:`u_\ell = 2^{-15} 4^\ell`, :math:`B = A + \sigma I \ge 0`.  While
+    :math:`y_\ell = u_\ell \|B\|_1 \le 1/2` a level is the Taylor sum of the shifted matrix,
 
     .. math:: P_\ell = e^{-\sigma u_\ell} \sum_{k=0}^{m} \frac{u_\ell^k}{k!} B^k,
 
-    from one set of powers :math:`B^k` shared by all these levels, with :math:`m = n + 22`
-    (every path of the species graph plus a remainder below :math:`1/23!`); above, a level
-    is the exact power :math:`P_{\ell+1} = ((P_\ell^2)^2)^2`.  Every operation adds and
+    from one set of powers :math:`B^k` shared by all these levels, with :math:`m = n + 16`
+    (every path of the species graph plus a remainder below :math:`2^{-17}/17!`); above, a level
+    is the exact power :math:`P_{\ell+1} = (P_\ell^2)^2`.  Every operation adds and
     multiplies nonnegative numbers (Xue & Ye 2013), so no entry suffers cancellation; the
     relative error of a squared level doubles with each squaring (Xue & Ye 2013,
-    Theorem 3.2), which the Taylor levels keep to a few squarings (:math:`y \le 64` at the
-    top of a scan).  Entries below 1e-290 are set to zero (outside the relative-accuracy
+    Theorem 3.2), which the Taylor levels keep to a few squarings (:math:`y \le 128` at
+    the top of a scan).  Entries below 1e-290 are set to zero (outside the relative-accuracy
     range, and slow subnormals).
     """
-
-    U0 = 2.0**-15
 
     def __init__(self, K, f, scale, levels: int) -> None:
         b, n, _ = K.shape
@@ -305,38 +310,43 @@ class _Ladder:
         sigma = np.maximum(-np.diagonal(A, axis1=1, axis2=2).min(axis=1), 0.0)
         B = A + sigma[:, None, None] * np.eye(na)
         self.n, self.na, self.scale, self.sigma, self.B = n, na, scale, sigma, B
-        norm = np.abs(B[:, :n, :n]).sum(axis=1).max(axis=1) + sigma
-        steps = self.U0 * 8.0 ** np.arange(levels + 1)
-        taylor = steps[None, :] * norm[:, None] <= 1.0  # (b, levels + 1)
+        self.norm = np.abs(B[:, :n, :n]).sum(axis=1).max(axis=1) + sigma
+        steps = self.step(np.arange(levels + 1))
+        taylor = steps[None, :] * self.norm[:, None] <= 0.5  # (b, levels + 1)
         taylor[:, 0] = True
         top = int(np.flatnonzero(taylor.any(axis=0)).max())
-        m = na + 22
+        m = na + 16
         powers = [np.broadcast_to(np.eye(na), B.shape)]
         for _ in range(m):
-            powers.append(self._flush(powers[-1] @ B))
-        P = np.empty((b, levels + 1, na, na))
+            powers.append(powers[-1] @ B)
+        P = np.empty((levels + 1, b, na, na))
         for level in range(top + 1):
             u = steps[level]
             acc = powers[m] * (u / m)
             for k in range(m - 1, 0, -1):  # Horner in the scalar u: sum u^k/k! B^k
                 acc = (powers[k] + acc) * (u / k)
             acc = powers[0] + acc
-            P[:, level] = self._flush(acc * np.exp(-sigma * u)[:, None, None])
+            P[level] = self._flush(acc * np.exp(-sigma * u)[:, None, None])
         for level in range(1, levels + 1):
             sq = ~taylor[:, level]
             if sq.any():
-                Q = P[sq, level - 1]
-                for _ in range(3):
+                Q = P[level - 1, sq]
+                for _ in range(2):
                     Q = self._flush(Q @ Q)
-                P[sq, level] = Q
-        self.P = P  # (b, levels + 1, na, na)
+                P[level, sq] = Q
+        self.P = P  # (levels + 1, b, na, na)
+        # lowest level to which a bracket is narrowed before the Taylor-Newton phase
+        with np.errstate(divide="ignore"):
+            stop = np.floor(np.log(_NEWTON_Y / (_U0 * self.norm)) / np.log(_RATIO))
+        self.stop = np.clip(np.nan_to_num(stop, posinf=levels), 0, levels).astype(np.int64)
 
     @staticmethod
     def _flush(M):
         return np.where(M < 1e-290, 0.0, M)
 
-    def step(self, level: int) -> float:
-        return self.U0 * 8.0**level
+    @staticmethod
+    def step(level):
+        return _U0 * np.power(float(_RATIO), level)
 
 
 def _mv(M, x):
@@ -347,12 +357,12 @@ def _mv(M, x):
 def _scan(lad: _Ladder, x0, n_segments):
     r"""States on the shared scaled grid.
 
-    Points: 0, then 4 steps of :math:`u_1` up to :math:`\tau_0 = 2^{-10}`, then for
-    :math:`d = 0 .. S-1` 28 steps of :math:`u_{d+1}` from :math:`\tau_0 8^d` to
-    :math:`\tau_0 8^{d+1}`.  Returns scaled times (M,), states (b, M, na) and the ladder
+    Points: 0, then 4 steps of :math:`u_2` up to :math:`\tau_0 = 2^{-9}`, then for
+    :math:`d = 0 .. S-1` 12 steps of :math:`u_{d+2}` from :math:`\tau_0 4^d` to
+    :math:`\tau_0 4^{d+1}`.  Returns scaled times (M,), states (b, M, na) and the ladder
     level of each interval (M - 1,).
     """
-    plan = [(1, 4)] + [(d + 1, 28) for d in range(n_segments)]
+    plan = [(2, 4)] + [(d + 2, _SEGMENT_STEPS) for d in range(n_segments)]
     total = 1 + sum(count for _, count in plan)
     X = np.empty((x0.shape[0], total, x0.shape[1]))
     X[:, 0] = x0
@@ -361,8 +371,8 @@ def _scan(lad: _Ladder, x0, n_segments):
     j = 0
     x = x0[:, :, None]
     for level, count in plan:
-        P = np.ascontiguousarray(lad.P[:, level])
-        u = lad.step(level)
+        P = lad.P[level]
+        u = float(lad.step(level))
         for _ in range(count):
             x = np.matmul(P, x)
             j += 1
@@ -424,11 +434,11 @@ def _hidden_turn_flags(T, D, D2, N, s) -> np.ndarray:
     return flag
 
 
-def _hidden_turns(lad: _Ladder, K, f, X, s, flags, ilevel) -> np.ndarray:
+def _hidden_turns(lad: _Ladder, K, f, X, s, flags, ilevel, cols) -> np.ndarray:
     """Members (b,) with a turning point inside a flagged interval.
 
-    Each flagged interval is sampled at its 7 interior eighths (as in
-    :mod:`kinetics.analysis`) by the next lower ladder level from its left end; a
+    Each flagged interval is sampled at its interior quarters by the next lower ladder
+    level from its left end (:mod:`kinetics.analysis` inserts eighths); a
     significant derivative sign different from the interval's sign there is a real hidden
     turning point.  Other flags were artefacts of the cubic model (fast exponential decay
     within one interval).
@@ -439,17 +449,20 @@ def _hidden_turns(lad: _Ladder, K, f, X, s, flags, ilevel) -> np.ndarray:
     fb, fj = np.nonzero(flags.any(axis=2))
     if fb.size == 0:
         return bad
-    P = lad.P[fb, ilevel[fj] - 1]
+    P = lad.P[ilevel[fj] - 1, fb]
     x = X[fb, fj]
-    Kb = K[fb]
+    Kb = K[fb][:, cols, :]
+    fc = None if f is None else f[cols]
     ref = s[fb, fj]
     fl = flags[fb, fj]
     turn = np.zeros(fb.size, dtype=bool)
-    for _ in range(7):
+    for _ in range(_RATIO - 1):
         x = _mv(P, x)
         c = x[:, :n]
-        D = _mv(Kb, c) + (0.0 if f is None else f)
-        N = _REL_NOISE_D * (_mv(np.abs(Kb), c) + (0.0 if f is None else np.abs(f)))
+        D = np.einsum("bij,bj->bi", Kb, c) + (0.0 if fc is None else fc)
+        N = _REL_NOISE_D * (
+            np.einsum("bij,bj->bi", np.abs(Kb), c) + (0.0 if fc is None else np.abs(fc))
+        )
         ss = np.sign(D) * (np.abs(D) > N)
         turn |= ((ss != 0) & (ss != ref) & fl).any(axis=1)
     bad[fb[turn]] = True
@@ -459,56 +472,65 @@ def _hidden_turns(lad: _Ladder, K, f, X, s, flags, ilevel) -> np.ndarray:
 def _refine(lad: _Ladder, K, f, member, sp, deriv, level, tau_a, x_a, ilev, sign_a):
     r"""Roots [s] and c_i at the roots [conc] for bracket problems starting on the scan.
 
-    1. *Narrowing by eighths*: a bracket of one interval of ladder level l is split into
-       eight by level l - 1 (seven products from its left end); the first eighth whose end
-       has the other sign becomes the bracket, down to level 0 (width 2^-15 scaled).
+    1. *Narrowing by quarters*: a bracket of one interval of ladder level l is split into
+       four by level l - 1 (three products from its left end); the first quarter whose
+       end has the other sign becomes the bracket, until :math:`u_l \|B\| \le 1/4`.
     2. *Newton*: on the last bracket the state is the nonnegative Taylor series
-       :math:`x(\delta) = e^{-\sigma\delta} \sum_k \delta^k B^k x_a / k!` (a few terms, as
-       :math:`\delta \|B\| \le 10^{-3}`); Newton steps on g with the exact derivative
-       (:math:`dg/dt = (K D)_i` for a maximum, :math:`D_i` for a half-life) and a
-       bisection safeguard, until the step is below 1e-13 of the time.
+       :math:`x(\delta) = e^{-\sigma\delta} \sum_k \delta^k B^k x_a / k!` (the longest
+       path of the species graph plus 14 terms); Newton steps on g with the exact
+       derivative (:math:`dg/dt = (K D)_i` for a maximum, :math:`D_i` for a half-life) and
+       a bisection safeguard, until the step is below 1e-13 of the time.
     """
     n = lad.n
     m = member
-    Kp = K[m]
+    rows_all = np.arange(m.size)
+    Ki_all = K[m, sp, :]  # the row of each problem's species (p, n)
+    fi_all = 0.0 if f is None else f[sp]
     tau_a = tau_a.copy()
     x_a = x_a.copy()
     lev = ilev.copy()
+    stop = lad.stop[m]
     while True:
-        act = np.flatnonzero(lev > 0)
+        act = np.flatnonzero(lev > stop)
         if act.size == 0:
             break
-        P = lad.P[m[act], lev[act] - 1]
-        u = lad.U0 * 8.0 ** (lev[act] - 1)
-        x = x_a[act]
-        prev = x
+        P = lad.P[lev[act] - 1, m[act]]
+        u = lad.step(lev[act] - 1)
+        Ki = Ki_all[act]
+        fi = fi_all if f is None else fi_all[act]
+        rows = rows_all[: act.size]
+        spa, da, la, sa = sp[act], deriv[act], level[act], sign_a[act]
+        x = x_a[act][:, :, None]
+        prev = x_a[act]
         found = np.zeros(act.size, dtype=bool)
-        new_a = x.copy()
-        shift = np.full(act.size, 7.0)
-        for k in range(1, 8):
-            x = _mv(P, x)
-            g, *_ = _species_values(Kp[act], f, x, sp[act], deriv[act], level[act], None, n)
-            other = (np.sign(g) != sign_a[act]) & (g != 0) | (g == 0)
-            hit = other & ~found
+        new_a = prev.copy()
+        shift = np.full(act.size, float(_RATIO - 1))
+        for k in range(1, _RATIO):
+            x = np.matmul(P, x)
+            xv = x[:, :, 0]
+            c = xv[:, :n]
+            g = np.where(da, np.einsum("pj,pj->p", Ki, c) + fi, c[rows, spa] - la)
+            hit = ((np.sign(g) != sa) | (g == 0)) & ~found
             new_a[hit] = prev[hit]
             shift[hit] = k - 1
             found |= hit
-            prev = x
-        new_a[~found] = prev[~found]  # the change is in the last eighth
+            prev = xv
+        new_a[~found] = prev[~found]  # the change is in the last quarter
         x_a[act] = new_a
         tau_a[act] += shift * u
         lev[act] -= 1
-    # Newton on the Taylor series of the last bracket [tau_a, tau_a + u_0]
+    # Newton on the Taylor series of the last bracket [tau_a, tau_a + u]
     p = m.size
-    w = lad.U0
+    w = lad.step(lev)
     B = lad.B[m]
     sig = lad.sigma[m]
-    J = lad.na + 8
+    J = lad.na + _NEWTON_TERMS
     terms = [x_a]
     for k in range(1, J + 1):
         terms.append(_mv(B, terms[-1]) / k)
     W = np.stack(terms)  # (J+1, p, na)
     sc = lad.scale[m]
+    Kp = K[m]
 
     def state(delta):
         acc = W[J]
@@ -517,29 +539,35 @@ def _refine(lad: _Ladder, K, f, member, sp, deriv, level, tau_a, x_a, ilev, sign
         return acc * np.exp(-sig * delta)[:, None]
 
     lo = np.zeros(p)
-    hi = np.full(p, w)
-    delta = np.full(p, 0.5 * w)
+    hi = w.copy()
+    delta = 0.5 * w
     height = np.zeros(p)
+    active = np.ones(p, dtype=bool)
     for _ in range(_MAX_NEWTON):
-        x = state(delta)
-        g, ci, di, Ki = _species_values(Kp, f, x, sp, deriv, level, None, n)
-        c = x[:, :n]
-        D = _mv(Kp, c) + (0.0 if f is None else f)
-        d2 = np.einsum("pj,pj->p", Ki, D)
-        gp = np.where(deriv, d2, di) * sc  # dg/dtau
-        height = ci
-        left = np.sign(g) == sign_a
-        lo = np.where(left, delta, lo)
-        hi = np.where(left, hi, delta)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            new = delta - g / gp
-        bad = ~np.isfinite(new) | (new <= lo) | (new >= hi)
-        new = np.where(bad, 0.5 * (lo + hi), new)
-        new = np.where(g == 0, delta, new)
-        done = np.abs(new - delta) <= _XTOL * (tau_a + delta)
-        delta = new
-        if done.all():
+        k = np.flatnonzero(active)
+        if k.size == 0:
             break
+        x = state(delta)[k]
+        c = x[:, :n]
+        rows = rows_all[: k.size]
+        D = _mv(Kp[k], c) + (0.0 if f is None else f)
+        ci = c[rows, sp[k]]
+        di = D[rows, sp[k]]
+        d2 = np.einsum("pj,pj->p", Ki_all[k], D)
+        g = np.where(deriv[k], di, ci - level[k])
+        gp = np.where(deriv[k], d2, di) * sc[k]  # dg/dtau
+        height[k] = ci
+        left = np.sign(g) == sign_a[k]
+        lo[k] = np.where(left, delta[k], lo[k])
+        hi[k] = np.where(left, hi[k], delta[k])
+        with np.errstate(divide="ignore", invalid="ignore"):
+            new = delta[k] - g / gp
+        bad = ~np.isfinite(new) | (new <= lo[k]) | (new >= hi[k])
+        new = np.where(bad, 0.5 * (lo[k] + hi[k]), new)
+        new = np.where(g == 0, delta[k], new)
+        done = (np.abs(new - delta[k]) <= _XTOL * (tau_a[k] + delta[k])) | (g == 0)
+        delta[k] = new
+        active[k[done]] = False
     return (tau_a + delta) * sc, height
 
 
@@ -677,7 +705,7 @@ def _group(K, c0, f, members, offdiag, out, fallback) -> None:
     Kf, cf = Kg[fast], cg[fast]
     sc = scale[fast]
     tau_hi = t_hi[fast] / sc
-    n_seg = max(1, math.ceil(math.log(float(tau_hi.max()) / _TAU0) / math.log(_SEGMENT_RATIO)))
+    n_seg = max(1, math.ceil(math.log(float(tau_hi.max()) / _TAU0) / math.log(_RATIO)))
     lad = _Ladder(Kf, f, sc, n_seg + 1)
     n = Kf.shape[1]
     x0 = cf if f is None else np.concatenate([cf, np.ones((fast.size, 1))], axis=1)
@@ -686,83 +714,88 @@ def _group(K, c0, f, members, offdiag, out, fallback) -> None:
     T = tau[None, :] * sc[:, None]  # (b, M) real times [s]
     valid = T <= t_hi[fast][:, None]
     Kt = np.swapaxes(Kf, 1, 2)
-    D = C @ Kt
+    D_all = C @ Kt
     if f is not None:
-        D = D + f
-    N = _REL_NOISE_D * (C @ np.abs(Kt) + (0.0 if f is None else np.abs(f)))
-    D2 = D @ Kt
-
-    # turning points: sign changes of D between significant points
-    s = np.where((np.abs(D) > N) & valid[:, :, None], np.sign(D), 0.0).astype(np.int8)
-    flags = _hidden_turn_flags(T, D, D2, N, s)
-    hidden = _hidden_turns(lad, Kf, f, X, s, flags, ilevel)
-    M = s.shape[1]
-    steps = np.arange(M)[None, :, None]
-    last = np.maximum.accumulate(np.where(s != 0, steps, -1), axis=1)
-    prev = np.concatenate([np.full((s.shape[0], 1, s.shape[2]), -1), last[:, :-1]], axis=1)
-    prev_sign = np.take_along_axis(s, np.maximum(prev, 0), axis=1)
-    change = (s != 0) & (prev >= 0) & (prev_sign != s)
-    n_change = change.sum(axis=1)  # (b, n)
-    minima = (change & (s > 0)).any(axis=1)  # - to +
-    wide = (change & (steps - prev > 1)).any(axis=(1, 2))  # noise points inside a bracket
-    bad = hidden | wide | (n_change > 1).any(axis=1) | minima.any(axis=1)
-    ok = ~bad
-
-    pm, ps, pj, pderiv, plevel, psign = [], [], [], [], [], []
-    # maxima: one + to - change per species
-    mb, mj, mi = np.nonzero(change & (s < 0) & ok[:, None, None])
-    if mb.size:
+        D_all = D_all + f
+    # only species that are formed (a step or the feed) and consumed can turn over
+    formed = offdiag.any(axis=1)
+    if f is not None:
+        formed |= f > 0
+    mx = np.flatnonzero(formed & (np.diagonal(Kf[0]) < 0))
+    hl = np.flatnonzero(cf[0] > 0)
+    ok = np.ones(fast.size, dtype=bool)
+    steps = np.arange(X.shape[1])[None, :, None]
+    pm, ps, pj, pderiv, plevel = [], [], [], [], []
+    if mx.size:
+        D = D_all[:, :, mx]
+        N = _REL_NOISE_D * (C @ np.abs(Kt[:, :, mx]) + (0.0 if f is None else np.abs(f[mx])))
+        D2 = D_all @ Kt[:, :, mx]
+        # turning points: sign changes of D between significant points
+        s = np.where((np.abs(D) > N) & valid[:, :, None], np.sign(D), 0.0).astype(np.int8)
+        flags = _hidden_turn_flags(T, D, D2, N, s)
+        hidden = _hidden_turns(lad, Kf, f, X, s, flags, ilevel, mx)
+        last = np.maximum.accumulate(np.where(s != 0, steps, -1), axis=1)
+        prev = np.concatenate([np.full((s.shape[0], 1, s.shape[2]), -1), last[:, :-1]], axis=1)
+        prev_sign = np.take_along_axis(s, np.maximum(prev, 0), axis=1)
+        change = (s != 0) & (prev >= 0) & (prev_sign != s)
+        n_change = change.sum(axis=1)  # (b, species)
+        minima = (change & (s > 0)).any(axis=1)  # - to +
+        wide = (change & (steps - prev > 1)).any(axis=(1, 2))  # noise inside a bracket
+        ok = ~(hidden | wide | (n_change > 1).any(axis=1) | minima.any(axis=1))
+        # maxima: one + to - change per species
+        mb, mj, mi = np.nonzero(change & (s < 0) & ok[:, None, None])
         pm.append(mb)
-        ps.append(mi)
+        ps.append(mx[mi])
         pj.append(mj - 1)
         pderiv.append(np.ones(mb.size, dtype=bool))
         plevel.append(np.zeros(mb.size))
-        psign.append(np.ones(mb.size))
-    # half-lives: first significant fall below half the start value
-    target = 0.5 * cf
-    gv = C - target[:, None, :]
-    noise = _REL_NOISE_C * np.maximum(C, target[:, None, :])
-    sh = np.where((np.abs(gv) > noise) & valid[:, :, None], np.sign(gv), 0.0).astype(np.int8)
-    neg = sh < 0
-    has_neg = neg.any(axis=1) & (cf > 0) & ok[:, None]
-    kb = np.argmax(neg, axis=1)  # (b, n)
-    lastpos = np.maximum.accumulate(np.where(sh > 0, steps, -1), axis=1)
-    hb, hi = np.nonzero(has_neg)
-    if hb.size:
+    if hl.size:
+        # half-lives: first significant fall below half the start value
+        target = 0.5 * cf[:, hl]
+        Ch = C[:, :, hl]
+        gv = Ch - target[:, None, :]
+        noise = _REL_NOISE_C * np.maximum(Ch, target[:, None, :])
+        sh = np.where((np.abs(gv) > noise) & valid[:, :, None], np.sign(gv), 0.0).astype(np.int8)
+        neg = sh < 0
+        has_neg = neg.any(axis=1) & ok[:, None]
+        kb = np.argmax(neg, axis=1)
+        lastpos = np.maximum.accumulate(np.where(sh > 0, steps, -1), axis=1)
+        hb, hi = np.nonzero(has_neg)
         jb = kb[hb, hi]
         ja = lastpos[hb, jb - 1, hi]
         # noise points between the last point above and the first below: general route
         loose = jb - ja > 1
-        bad[hb[loose]] = True
-        keep = ~loose & ~bad[hb]
+        ok[hb[loose]] = False
+        keep = ~loose & ok[hb]
         hb, hi, jb = hb[keep], hi[keep], jb[keep]
         pm.append(hb)
-        ps.append(hi)
+        ps.append(hl[hi])
         pj.append(jb - 1)
         pderiv.append(np.zeros(hb.size, dtype=bool))
         plevel.append(target[hb, hi])
-        psign.append(np.ones(hb.size))
-    if pm:
+    if any(len(x) for x in pm):
         pm = np.concatenate(pm)
         ps = np.concatenate(ps)
         pj = np.concatenate(pj)
         deriv = np.concatenate(pderiv)
-        keep = ~bad[pm]
-        pm, ps, pj, deriv = pm[keep], ps[keep], pj[keep], deriv[keep]
-        lvl = np.concatenate(plevel)[keep]
-        sign_a = np.concatenate(psign)[keep]
+        lvl = np.concatenate(plevel)
+        keep = ok[pm]
+        pm, ps, pj, deriv, lvl = pm[keep], ps[keep], pj[keep], deriv[keep], lvl[keep]
+    else:
+        pm = np.zeros(0, dtype=np.int64)
+    if pm.size:
         roots, heights = _refine(
-            lad, Kf, f, pm, ps, deriv, lvl, tau[pj], X[pm, pj], ilevel[pj], sign_a
+            lad, Kf, f, pm, ps, deriv, lvl, tau[pj], X[pm, pj], ilevel[pj], np.ones(pm.size)
         )
         Lf = L[fast]
         # maxima: global when at least the start value and the long-time limit
-        mx = np.flatnonzero(deriv)
-        ceiling = np.maximum(cf[pm[mx], ps[mx]], Lf[pm[mx], ps[mx]])
-        glob = heights[mx] >= ceiling * (1 - _GLOBAL_TOL)
-        sel = mx[glob]
+        mxp = np.flatnonzero(deriv)
+        ceiling = np.maximum(cf[pm[mxp], ps[mxp]], Lf[pm[mxp], ps[mxp]])
+        glob = heights[mxp] >= ceiling * (1 - _GLOBAL_TOL)
+        sel = mxp[glob]
         rows = members[fast[pm[sel]]]
         out["t_max"][rows, ps[sel]] = roots[sel]
         out["c_max"][rows, ps[sel]] = heights[sel]
-        hl = np.flatnonzero(~deriv)
-        out["half_life"][members[fast[pm[hl]]], ps[hl]] = roots[hl]
-    fallback[members[fast[bad]]] = True
+        hlp = np.flatnonzero(~deriv)
+        out["half_life"][members[fast[pm[hlp]]], ps[hlp]] = roots[hlp]
+    fallback[members[fast[~ok]]] = True
