@@ -279,8 +279,7 @@ class TitleStatement:
         code = line.code.lstrip()
         if not re.match(r"title\s*:", code, re.IGNORECASE):
             return None
-        # the title keeps '#' characters? no: comments are stripped like everywhere else
-        return cls(code.split(":", 1)[1].strip(), line)
+        return cls(code.split(":", 1)[1].strip(), line)  # '#' starts a comment here too
 
 
 @dataclass(slots=True)
@@ -358,6 +357,16 @@ class ListStatement:
             ]
         for piece, col0 in _split_plain(body, match.end()):
             m = _ITEM_RE.match(piece)
+            if not piece:
+                errors.append(
+                    line.error(
+                        f"an empty item in a '{kind}' statement (a comma too many?)",
+                        col0 + 1,
+                        " ",
+                        f"write NAME = VALUE items separated by commas, e.g. {example}",
+                    )
+                )
+                continue
             if not m:
                 errors.append(
                     line.error(
