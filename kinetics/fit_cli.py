@@ -141,6 +141,7 @@ Examples:
 @click.option("--no-profile", is_flag=True, help="Skip the profile intervals (faster).")
 @click.option("--time-unit", help="Time unit of the plot (default: that of the first data file).")
 @click.option("--json", "as_json", is_flag=True, help="Print the fit.json document on stdout.")
+@click.option("--no-caution", is_flag=True, help="Do not print the two-line caution on stderr.")
 @click.pass_context
 def fit(
     ctx,
@@ -157,6 +158,7 @@ def fit(
     no_profile,
     time_unit,
     as_json,
+    no_caution,
 ):
     """Run ``kinetics fit`` (the help text is :data:`_HELP`); exit status 2 on bad input."""
     from . import export
@@ -202,6 +204,10 @@ def fit(
         profile=not no_profile,
     )
     document = fit_document(result, scheme_file)
+    if not no_caution:
+        from .overview import CAUTION
+
+        click.echo(CAUTION, err=True)
     for path in paths:
         if path.suffix.lower() == ".json":
             export.write_json(document, path)
