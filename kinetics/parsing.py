@@ -68,6 +68,7 @@ from .units import (
     concentration_order,
     describe_dimension,
     parse_unit,
+    pint_text,
     temperature_to_kelvin,
 )
 
@@ -1227,7 +1228,8 @@ class _Builder:
                         continue
                     origin = f"{kind} {item.name} = {item.value.text} on line {s.line.number}"
                     if kind != "feed":
-                        return item.value.unit or "1", spec.factor, dims_t, origin
+                        unit = pint_text(item.value.unit) if item.value.unit else "1"
+                        return unit, spec.factor, dims_t, origin
                     # a feed in mol/L/min: the concentration unit is mol/L
                     unit = _concentration_part(item.value.unit)
                     try:
@@ -1237,7 +1239,7 @@ class _Builder:
                     if part is None or part.dimensions != dims_t:
                         unit, factor = _FAMILY_UNITS[dims_t]
                         return unit, factor, dims_t, origin
-                    return unit, part.factor, dims_t, origin
+                    return pint_text(unit), part.factor, dims_t, origin
         dims_t = (("[length]", -3), ("[substance]", 1))
         return "mol/L", Fraction(1000), dims_t, ""
 

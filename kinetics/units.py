@@ -31,6 +31,7 @@ __all__ = [
     "describe_dimension",
     "normalise_unit",
     "parse_unit",
+    "pint_text",
     "temperature_to_kelvin",
 ]
 
@@ -199,6 +200,37 @@ def parse_unit(text: str) -> UnitSpec:
         return UnitSpec(text, Fraction(1), _dims_tuple(quantity.dimensionality), True)
     base = ureg.Quantity(Fraction(1), unit).to_base_units()
     return UnitSpec(text, Fraction(base.magnitude), _dims_tuple(base.dimensionality), False)
+
+
+def pint_text(text: str) -> str:
+    """``text`` itself when pint reads it as we do, else its pint form (``mmol*L**-1``).
+
+    Parameters
+    ----------
+    text : str
+        A unit in chemists' notation that :func:`parse_unit` accepts.
+
+    Returns
+    -------
+    str
+        A string that plain pint parses to the same unit: outputs promise that.
+
+    Examples
+    --------
+    >>> pint_text("mmol/L"), pint_text("mmol L-1")
+    ('mmol/L', 'mmol*L**-1')
+    """
+    spec = parse_unit(text)
+    try:
+        unit = registry().parse_units(text.strip())
+        base = registry().Quantity(Fraction(1), unit).to_base_units()
+        if Fraction(base.magnitude) == spec.factor and (
+            _dims_tuple(base.dimensionality) == spec.dimensions
+        ):
+            return text.strip()
+    except Exception:  # pint raises several unrelated types
+        pass
+    return normalise_unit(text)
 
 
 def _dims_tuple(dimensionality) -> tuple[tuple[str, Fraction], ...]:

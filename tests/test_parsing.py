@@ -1064,3 +1064,16 @@ def test_caret_stays_aligned_under_a_line_with_tabs():
     assert "\t" not in text
     start = caret.index("^")
     assert text[start : start + len(e.snippet)] == "-1"
+
+
+def test_concentration_unit_is_always_pint_parsable():
+    import pint
+
+    ureg = pint.UnitRegistry()
+    for written, kept in [("mmol/L", "mmol/L"), ("M", "M"), ("mmol L-1", "mmol*L**-1")]:
+        s = parse(f"A -> B  k1 = 1 1/s\nstart A = 1 {written}")
+        assert s.concentration_unit == kept
+        # plain pint reads it as the same unit (1 mmol/L = 1 mol/m^3, SI)
+        assert ureg.Quantity(1, s.concentration_unit).to("mol/m^3").magnitude == pytest.approx(
+            {"mmol/L": 1, "M": 1000, "mmol L-1": 1}[written], rel=1e-15
+        )

@@ -193,3 +193,12 @@ def test_gas_constant_is_avogadro_times_boltzmann():
 
 def test_parse_unit_is_cached():
     assert parse_unit("L mol-1 s-1") is parse_unit("L mol-1 s-1")
+
+
+def test_pint_text_keeps_what_pint_reads_and_rewrites_the_rest():
+    from kinetics.units import pint_text
+
+    assert pint_text("mmol/L") == "mmol/L"
+    assert pint_text("M") == "M"
+    assert pint_text("mmol L-1") == "mmol*L**-1"
+    assert pint_text("mol dm-3") == "mol*dm**-3"
