@@ -100,6 +100,7 @@ def schemes(draw) -> Model:
         model.excess[w] = Fraction(text)
     shared: dict[int, list[str]] = {0: [], 1: []}  # constants by order, for sharing by name
     appearances: dict[str, list[str]] = {}  # reaction line -> its species, left to right
+    line_steps: dict[str, list] = {}  # reaction line -> its steps, forward then reverse
     counter = 0
 
     def new_constant(order: int) -> tuple[str, str]:
@@ -164,9 +165,9 @@ def schemes(draw) -> Model:
             continue  # the very same line twice: keep the generator's bookkeeping simple
         model.lines.append(text)
         appearances[text] = [n for _, n in left + right]
-        model.steps.append((reactant, right, k_name, [partner] if partner else []))
+        line_steps[text] = [(reactant, right, k_name, [partner] if partner else [])]
         if reversible:
-            model.steps.append((product, left, names_used[1], []))
+            line_steps[text].append((product, left, names_used[1], []))
 
     # start values in one concentration unit (some species only)
     model.unit = draw(st.sampled_from(sorted(CONCENTRATION_UNITS)))
@@ -194,6 +195,7 @@ def schemes(draw) -> Model:
     model.lines = [model.lines[i] for i in order]
     # ... except for the species order: first appearance in the reactions as they now stand
     model.species = []
+    model.steps = [step for line in model.lines for step in line_steps.get(line, [])]
     for line in model.lines:
         for name in appearances.get(line, []):
             if name not in excess_names and name not in model.species:
@@ -230,9 +232,13 @@ def test_round_trip_of_random_valid_schemes(model):
     assert {k: c.order for k, c in scheme.constants.items()} == {
         k: o for k, (_, o) in model.constants.items()
     }
-    assert sorted((s.reactant, s.constant) for s in scheme.steps) == sorted(
-        (r, c) for r, _, c, _ in model.steps
-    )
+    # every step, in file order (a reversible reaction: forward, then reverse)
+    assert [
+        (s.reactant, s.products, s.constant, [n for _, n in s.co_reactants]) for s in scheme.steps
+    ] == [
+        (r, tuple((float(c), n) for c, n in products), k, partners)
+        for r, products, k, partners in model.steps
+    ]
     assert scheme.concentration_unit == model.unit
     assert scheme.initial == {k: float(v) for k, v in model.initial.items()}
     expected_c0 = [float(model.initial.get(s, 0)) for s in model.species]
