@@ -87,13 +87,55 @@ def parse_formula(text: str):
 
 
 def element_counts(text: str) -> dict[str, float]:
-    """Element symbol -> count for a formula (``"H2O"`` -> ``{"H": 2, "O": 1}``)."""
+    """Element symbol -> count for a formula (``"H2O"`` -> ``{"H": 2, "O": 1}``).
+
+    Parameters
+    ----------
+    text : str
+        An element formula such as ``"Ca(OH)2"``.
+
+    Returns
+    -------
+    dict of str to float
+        Number of atoms of each element per formula unit.
+
+    Raises
+    ------
+    ValueError
+        When the formula does not parse (see :func:`parse_formula`).
+    """
     atoms = parse_formula(text).atoms
     return {str(el): float(n) for el, n in atoms.items()}
 
 
 def formula_mass(text: str) -> float:
-    """Molar mass of a formula [g/mol] from standard atomic weights (periodictable)."""
+    """Molar mass of a formula [g/mol] from standard atomic weights.
+
+    .. math:: M = \\sum_e n_e A_{r,e} \\; \\mathrm{g/mol}
+
+    Parameters
+    ----------
+    text : str
+        An element formula such as ``"C6H12O6"``.
+
+    Returns
+    -------
+    float
+        Molar mass [g/mol].
+
+    Notes
+    -----
+    The atomic weights are those tabulated by the ``periodictable`` package
+    (IUPAC standard atomic weights, in the revision that package ships);
+    glucose gives 180.156 g/mol.
+
+    References
+    ----------
+    IUPAC Commission on Isotopic Abundances and Atomic Weights, standard atomic
+    weights, revised periodically; the 2021 revision: T. Prohaska et al.,
+    "Standard atomic weights of the elements 2021 (IUPAC Technical Report)",
+    Pure Appl. Chem. 94, 573-600 (2022).
+    """
     return float(parse_formula(text).mass)
 
 
@@ -130,8 +172,21 @@ class AtomBalance:
 def atom_balance(reaction: Reaction, formulas: dict[str, str | None]) -> AtomBalance | None:
     """Compare element counts of both sides of ``reaction``.
 
-    Returns ``None`` when some species of the reaction has no formula (the
-    check then does not apply).
+    .. math:: \\sum_{i \\in \\mathrm{left}} \\nu_i n_{e,i} =
+              \\sum_{j \\in \\mathrm{right}} \\nu_j n_{e,j} \\quad \\text{for every element } e
+
+    Parameters
+    ----------
+    reaction : Reaction
+        The reaction as written (excess co-reactants and products included).
+    formulas : dict of str to str or None
+        Element formula of each species name.
+
+    Returns
+    -------
+    AtomBalance or None
+        ``None`` when some species of the reaction has no formula (the check
+        then does not apply).
     """
     if any(formulas.get(name) is None for _, name in reaction.left + reaction.right):
         return None
@@ -191,13 +246,27 @@ class MassBalance:
 def mass_balance(scheme: Scheme) -> MassBalance:
     """Check the atom balance of each reaction and the numerical mass balance m·K = 0.
 
+    .. math:: r_j = \\frac{|(m^\\mathsf{T} K)_j|}{m_j \\sum_{s:\\,\\mathrm{reactant}(s)=j} k_s}
+
     Parameters
     ----------
     scheme : Scheme
+        A parsed scheme; molar masses [g/mol] come from its formulas or
+        ``molar_mass`` lines, rate constants [1/s] from its rate matrix.
 
     Returns
     -------
     MassBalance
+        Per-reaction atom counts, the largest residual :math:`r_j` over the
+        columns whose species all have known masses, and the steps whose
+        tracked mass changes (each with its reason).
+
+    Notes
+    -----
+    A closed scheme of tracked species has :math:`r_j = 0` up to rounding.
+    Co-reactants held in excess add mass to the tracked species and excess
+    products take it away; such steps are named but do not fail the check.
+    A step whose total mass (excess species included) changes fails it.
     """
     all_species = scheme.species + scheme.excess_species
     formulas = {s.name: s.formula for s in all_species}
