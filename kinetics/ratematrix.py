@@ -78,8 +78,22 @@ class RatePattern:
 def rate_pattern(scheme: Scheme) -> RatePattern:
     """Build the sparse pattern of the rate matrix of ``scheme``.
 
-    Diagonal entries (outflows) come first for each step, then the formation
-    entries; excess products are dropped (their concentration is held constant).
+    .. math:: K = \\sum_e c_e \\, k_{s(e)} \\, \\mathbf{e}_{r(e)} \\mathbf{e}_{q(e)}^\\mathsf{T}
+
+    Diagonal entries (outflows, :math:`c_e = -1`) come first for each step, then
+    the formation entries (:math:`c_e = \\nu_p`); excess products are dropped
+    (their concentration is held constant).
+
+    Parameters
+    ----------
+    scheme : Scheme
+
+    Returns
+    -------
+    RatePattern
+        Rows, columns, coefficients and step index of every entry; multiply by
+        step rates [1/s] with :meth:`RatePattern.dense` or :meth:`RatePattern.sparse`,
+        also for a batch of rate sets at once.
     """
     index = scheme.index
     rows: list[int] = []
@@ -236,12 +250,38 @@ def _check_overrides(scheme: Scheme, constants, temperature, excess) -> None:
 
 
 def dense_rate_matrix(scheme: Scheme, rates: np.ndarray | None = None) -> np.ndarray:
-    """The dense rate matrix K [1/s] for step ``rates`` (default: the scheme's)."""
+    """The dense rate matrix K [1/s] for step ``rates`` (default: the scheme's).
+
+    .. math:: K_{rr} \\mathrel{-}= k_s, \\qquad K_{pr} \\mathrel{+}= \\nu_p k_s
+
+    Parameters
+    ----------
+    scheme : Scheme
+    rates : numpy.ndarray, optional
+        Effective rate constant of each step [1/s], shape ``(n_steps,)``.
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape ``(n, n)``, species in matrix order.
+    """
     rates = scheme.rates if rates is None else rates
     return rate_pattern(scheme).dense(rates)
 
 
 def sparse_rate_matrix(scheme: Scheme, rates: np.ndarray | None = None) -> scipy.sparse.csr_array:
-    """The rate matrix K [1/s] in CSR form for step ``rates`` (default: the scheme's)."""
+    """The rate matrix K [1/s] in CSR form for step ``rates`` (default: the scheme's).
+
+    Parameters
+    ----------
+    scheme : Scheme
+    rates : numpy.ndarray, optional
+        Effective rate constant of each step [1/s], shape ``(n_steps,)``.
+
+    Returns
+    -------
+    scipy.sparse.csr_array
+        Shape ``(n, n)``; entries of the same place summed.
+    """
     rates = scheme.rates if rates is None else rates
     return rate_pattern(scheme).sparse(rates)

@@ -293,6 +293,16 @@ def temperature_to_kelvin(value: float | Fraction, unit: str) -> float:
     ValueError
         When ``unit`` is not a temperature unit.
 
+    Notes
+    -----
+    .. math:: T/\\mathrm{K} = t/{}^\\circ\\mathrm{C} + 273.15
+
+    computed exactly (rational arithmetic) and rounded once.
+
+    References
+    ----------
+    BIPM, The International System of Units (SI), 9th edition (2019), section 2.3.1.
+
     Examples
     --------
     >>> temperature_to_kelvin(25.0, "degC")
