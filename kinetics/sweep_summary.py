@@ -313,21 +313,23 @@ class _Ladder:
         self.norm = np.abs(B[:, :n, :n]).sum(axis=1).max(axis=1) + sigma
         steps = self.step(np.arange(levels + 1))
         taylor = steps[None, :] * self.norm[:, None] <= 0.5  # (b, levels + 1)
-        taylor[:, 0] = True
+        taylor[:, :2] = True  # scaled norms are a few units: y_1 = 2^-13 ||B|| is tiny
         top = int(np.flatnonzero(taylor.any(axis=0)).max())
         m = na + 16
         powers = [np.broadcast_to(np.eye(na), B.shape)]
         for _ in range(m):
             powers.append(powers[-1] @ B)
         P = np.empty((levels + 1, b, na, na))
-        for level in range(top + 1):
-            u = steps[level]
-            acc = powers[m] * (u / m)
-            for k in range(m - 1, 0, -1):  # Horner in the scalar u: sum u^k/k! B^k
+        P[0] = np.nan  # level 0 (2^-15) is not used
+        for level in range(1, top + 1):  # level 0 is not used
+            u = float(steps[level])
+            mm = m
+            acc = powers[mm] * (u / mm)
+            for k in range(mm - 1, 0, -1):  # Horner in the scalar u: sum u^k/k! B^k
                 acc = (powers[k] + acc) * (u / k)
             acc = powers[0] + acc
             P[level] = self._flush(acc * np.exp(-sigma * u)[:, None, None])
-        for level in range(1, levels + 1):
+        for level in range(2, levels + 1):
             sq = ~taylor[:, level]
             if sq.any():
                 Q = P[level - 1, sq]
@@ -338,7 +340,7 @@ class _Ladder:
         # lowest level to which a bracket is narrowed before the Taylor-Newton phase
         with np.errstate(divide="ignore"):
             stop = np.floor(np.log(_NEWTON_Y / (_U0 * self.norm)) / np.log(_RATIO))
-        self.stop = np.clip(np.nan_to_num(stop, posinf=levels), 0, levels).astype(np.int64)
+        self.stop = np.clip(np.nan_to_num(stop, posinf=levels), 1, levels).astype(np.int64)
 
     @staticmethod
     def _flush(M):
@@ -469,6 +471,47 @@ def _hidden_turns(lad: _Ladder, K, f, X, s, flags, ilevel, cols) -> np.ndarray:
     return bad
 
 
+def _sign_changes(s: np.ndarray):
+    """Sign changes between consecutive significant points, one pass over time.
+
+    Parameters
+    ----------
+    s : ndarray of int8, shape (b, M, k)
+        -1, 0 (not significant) or +1 per member, point and species.
+
+    Returns
+    -------
+    members, species, left, right : ndarray
+        Each + to - change (a maximum): the last significant point before it and the
+        point where the sign is first negative.
+    bad : ndarray of bool, shape (b,)
+        Members that need the general route: a - to + change (a minimum), more than one
+        change of one species, or points of unknown sign inside a bracket.
+    """
+    b, M, k = s.shape
+    ff = np.zeros((b, k), dtype=np.int8)  # the last significant sign so far
+    last = np.full((b, k), -1)
+    left = np.full((b, k), -1)
+    right = np.full((b, k), -1)
+    count = np.zeros((b, k), dtype=np.int64)
+    bad = np.zeros((b, k), dtype=bool)
+    for j in range(M):
+        sj = s[:, j]
+        nz = sj != 0
+        ch = nz & (ff != 0) & (sj != ff)
+        if ch.any():
+            count += ch
+            bad |= ch & ((sj > 0) | (j - last > 1))
+            down = ch & (sj < 0)
+            left = np.where(down, last, left)
+            right = np.where(down, j, right)
+        ff = np.where(nz, sj, ff)
+        last = np.where(nz, j, last)
+    bad |= count > 1
+    mb, mi = np.nonzero(right >= 0)
+    return mb, mi, left[mb, mi], right[mb, mi], bad.any(axis=1)
+
+
 def _refine(lad: _Ladder, K, f, member, sp, deriv, level, tau_a, x_a, ilev, sign_a):
     r"""Roots [s] and c_i at the roots [conc] for bracket problems starting on the scan.
 
@@ -490,33 +533,48 @@ def _refine(lad: _Ladder, K, f, member, sp, deriv, level, tau_a, x_a, ilev, sign
     x_a = x_a.copy()
     lev = ilev.copy()
     stop = lad.stop[m]
+
+    def g_of(x, idx):
+        c = x[:, :n]
+        fi = fi_all if f is None else fi_all[idx]
+        di = np.einsum("pj,pj->p", Ki_all[idx], c) + fi
+        return np.where(deriv[idx], di, c[rows_all[: idx.size], sp[idx]] - level[idx])
+
+    # g at both ends of the starting brackets (for the secant start of Newton)
+    ga = g_of(x_a, rows_all)
+    gb = g_of(_mv(lad.P[lev, m], x_a), rows_all)
     while True:
         act = np.flatnonzero(lev > stop)
         if act.size == 0:
             break
         P = lad.P[lev[act] - 1, m[act]]
         u = lad.step(lev[act] - 1)
-        Ki = Ki_all[act]
-        fi = fi_all if f is None else fi_all[act]
-        rows = rows_all[: act.size]
-        spa, da, la, sa = sp[act], deriv[act], level[act], sign_a[act]
+        sa = sign_a[act]
         x = x_a[act][:, :, None]
         prev = x_a[act]
+        g_prev = ga[act]
         found = np.zeros(act.size, dtype=bool)
         new_a = prev.copy()
+        new_ga = g_prev.copy()
+        new_gb = gb[act]
         shift = np.full(act.size, float(_RATIO - 1))
         for k in range(1, _RATIO):
             x = np.matmul(P, x)
             xv = x[:, :, 0]
-            c = xv[:, :n]
-            g = np.where(da, np.einsum("pj,pj->p", Ki, c) + fi, c[rows, spa] - la)
+            g = g_of(xv, act)
             hit = ((np.sign(g) != sa) | (g == 0)) & ~found
             new_a[hit] = prev[hit]
+            new_ga[hit] = g_prev[hit]
+            new_gb[hit] = g[hit]
             shift[hit] = k - 1
             found |= hit
             prev = xv
+            g_prev = g
         new_a[~found] = prev[~found]  # the change is in the last quarter
+        new_ga[~found] = g_prev[~found]
         x_a[act] = new_a
+        ga[act] = new_ga
+        gb[act] = new_gb
         tau_a[act] += shift * u
         lev[act] -= 1
     # Newton on the Taylor series of the last bracket [tau_a, tau_a + u]
@@ -532,22 +590,25 @@ def _refine(lad: _Ladder, K, f, member, sp, deriv, level, tau_a, x_a, ilev, sign
     sc = lad.scale[m]
     Kp = K[m]
 
-    def state(delta):
-        acc = W[J]
+    def state(delta, idx):
+        d = delta[:, None]
+        acc = W[J, idx]
         for k in range(J - 1, -1, -1):
-            acc = W[k] + delta[:, None] * acc
-        return acc * np.exp(-sig * delta)[:, None]
+            acc = W[k, idx] + d * acc
+        return acc * np.exp(-sig[idx] * delta)[:, None]
 
     lo = np.zeros(p)
     hi = w.copy()
-    delta = 0.5 * w
+    with np.errstate(divide="ignore", invalid="ignore"):
+        frac = np.clip(np.nan_to_num(ga / (ga - gb), nan=0.5), 0.02, 0.98)
+    delta = frac * w  # secant start
     height = np.zeros(p)
     active = np.ones(p, dtype=bool)
     for _ in range(_MAX_NEWTON):
         k = np.flatnonzero(active)
         if k.size == 0:
             break
-        x = state(delta)[k]
+        x = state(delta[k], k) if k.size < p else state(delta, slice(None))
         c = x[:, :n]
         rows = rows_all[: k.size]
         D = _mv(Kp[k], c) + (0.0 if f is None else f)
@@ -713,10 +774,6 @@ def _group(K, c0, f, members, offdiag, out, fallback) -> None:
     C = X[:, :, :n]
     T = tau[None, :] * sc[:, None]  # (b, M) real times [s]
     valid = T <= t_hi[fast][:, None]
-    Kt = np.swapaxes(Kf, 1, 2)
-    D_all = C @ Kt
-    if f is not None:
-        D_all = D_all + f
     # only species that are formed (a step or the feed) and consumed can turn over
     formed = offdiag.any(axis=1)
     if f is not None:
@@ -727,23 +784,23 @@ def _group(K, c0, f, members, offdiag, out, fallback) -> None:
     steps = np.arange(X.shape[1])[None, :, None]
     pm, ps, pj, pderiv, plevel = [], [], [], [], []
     if mx.size:
-        D = D_all[:, :, mx]
-        N = _REL_NOISE_D * (C @ np.abs(Kt[:, :, mx]) + (0.0 if f is None else np.abs(f[mx])))
-        D2 = D_all @ Kt[:, :, mx]
-        # turning points: sign changes of D between significant points
+        Kt = np.swapaxes(Kf, 1, 2)
+        Kmx = np.ascontiguousarray(Kt[:, :, mx])
+        # D = K c + f and its derivative K D = K^2 c + K f, for these species only
+        K2mx = np.ascontiguousarray(np.swapaxes(Kf @ Kf, 1, 2)[:, :, mx])
+        D = C @ Kmx
+        D2 = C @ K2mx
+        if f is not None:
+            D = D + f[mx]
+            D2 = D2 + (Kf @ f)[:, None, mx]
+        N = _REL_NOISE_D * (C @ np.abs(Kmx) + (0.0 if f is None else np.abs(f[mx])))
         s = np.where((np.abs(D) > N) & valid[:, :, None], np.sign(D), 0.0).astype(np.int8)
         flags = _hidden_turn_flags(T, D, D2, N, s)
         hidden = _hidden_turns(lad, Kf, f, X, s, flags, ilevel, mx)
-        last = np.maximum.accumulate(np.where(s != 0, steps, -1), axis=1)
-        prev = np.concatenate([np.full((s.shape[0], 1, s.shape[2]), -1), last[:, :-1]], axis=1)
-        prev_sign = np.take_along_axis(s, np.maximum(prev, 0), axis=1)
-        change = (s != 0) & (prev >= 0) & (prev_sign != s)
-        n_change = change.sum(axis=1)  # (b, species)
-        minima = (change & (s > 0)).any(axis=1)  # - to +
-        wide = (change & (steps - prev > 1)).any(axis=(1, 2))  # noise inside a bracket
-        ok = ~(hidden | wide | (n_change > 1).any(axis=1) | minima.any(axis=1))
-        # maxima: one + to - change per species
-        mb, mj, mi = np.nonzero(change & (s < 0) & ok[:, None, None])
+        mb, mi, ma, mj, bad = _sign_changes(s)
+        ok = ~(hidden | bad)
+        keep = ok[mb]
+        mb, mi, ma, mj = mb[keep], mi[keep], ma[keep], mj[keep]
         pm.append(mb)
         ps.append(mx[mi])
         pj.append(mj - 1)
