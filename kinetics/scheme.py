@@ -280,12 +280,13 @@ class Scheme:
         """Matrix index of each species name."""
         return {s.name: i for i, s in enumerate(self.species)}
 
+    @cached_property
+    def _by_name(self) -> dict[str, Species]:
+        return {s.name: s for s in self.species + self.excess_species}
+
     def species_by_name(self, name: str) -> Species:
-        """The :class:`Species` called ``name`` (matrix or excess)."""
-        for s in self.species + self.excess_species:
-            if s.name == name:
-                return s
-        raise KeyError(name)
+        """The :class:`Species` called ``name`` (matrix or excess); KeyError if none."""
+        return self._by_name[name]
 
     @property
     def initial_vector(self) -> np.ndarray:
