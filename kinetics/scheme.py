@@ -285,8 +285,20 @@ class Scheme:
         return {s.name: s for s in self.species + self.excess_species}
 
     def species_by_name(self, name: str) -> Species:
-        """The :class:`Species` called ``name`` (matrix or excess); KeyError if none."""
-        return self._by_name[name]
+        """The :class:`Species` called ``name`` (matrix or excess).
+
+        Raises
+        ------
+        UsageError
+            When the scheme has no species of that name.
+        """
+        try:
+            return self._by_name[name]
+        except KeyError:
+            raise UsageError(
+                f"no species named {name!r} in the scheme",
+                "species: " + ", ".join(self._by_name),
+            ) from None
 
     @property
     def initial_vector(self) -> np.ndarray:

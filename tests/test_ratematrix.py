@@ -179,3 +179,9 @@ def test_with_values_replaces_and_checks(chain):
 def test_rates_are_read_only(chain):
     with pytest.raises(ValueError, match="read-only"):
         chain.rates[0] = 1.0
+
+
+def test_species_by_name(chain):
+    assert chain.species_by_name("W").excess
+    with pytest.raises(KineticsError, match="no species named 'Q'"):
+        chain.species_by_name("Q")
