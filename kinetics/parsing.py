@@ -743,12 +743,12 @@ def _read_terms(line: _Line, text: str, offset: int, side: str):
                 hint = "write one species (plus co-reactants in excess), e.g. A -> B"
             else:
                 hint = "write products joined by '+', e.g. A -> B + 2 C"
-            return line.error(
-                f"expected a species name on the {side} of the arrow, found {snippet!r}",
-                column,
-                snippet,
-                hint,
-            )
+            if not text[pos:].strip():
+                where = "after '+'" if terms else "here"
+                problem = f"expected a species name {where} on the {side} of the arrow"
+            else:
+                problem = f"expected a species name on the {side} of the arrow, found {snippet!r}"
+            return line.error(problem, column, snippet, hint)
         coef_text = match.group("coef")
         coefficient = float(coef_text) if coef_text else 1.0
         name = match.group("name")

@@ -1077,3 +1077,50 @@ def test_concentration_unit_is_always_pint_parsable():
         assert ureg.Quantity(1, s.concentration_unit).to("mol/m^3").magnitude == pytest.approx(
             {"mmol/L": 1, "M": 1000, "mmol L-1": 1}[written], rel=1e-15
         )
+
+
+@pytest.mark.parametrize(
+    ("text", "headline", "column"),
+    [
+        (
+            "A -> 0 B  k1 = 1 1/s",
+            "t.scheme:1:6: stoichiometric coefficient of B is 0; coefficients are positive "
+            "numbers; leave out a species that does not take part",
+            6,
+        ),
+        (
+            "A -> start  k1 = 1 1/s",
+            "t.scheme:1:6: 'start' is a keyword of the scheme language and cannot name a "
+            "species; choose another name",
+            6,
+        ),
+        (
+            "A -> B -> C  k1 = 1 1/s",
+            "t.scheme:1:8: a reaction line has one arrow; this one has several; write each "
+            "step on a line of its own",
+            8,
+        ),
+        (
+            "A + -> B  k1 = 1 1/s",
+            "t.scheme:1:5: expected a species name after '+' on the left of the arrow; write "
+            "one species (plus co-reactants in excess), e.g. A -> B",
+            5,
+        ),
+        (
+            "A -> B  k1 = 1 1/s, k2 = 2 1/s",
+            "t.scheme:1:9: an irreversible step has one rate constant; found 2 (did you mean "
+            "the reversible arrow <=>?); write e.g. k1 = 0.12 1/min",
+            9,
+        ),
+        (
+            "A -> B  k1 = 1 1/s\nstart A = 1 M,",
+            "t.scheme:2:15: an empty item in a 'start' statement (a comma too many?); write "
+            "NAME = VALUE items separated by commas, e.g. start A = 0.5 mol/L",
+            15,
+        ),
+    ],
+)
+def test_other_malformed_reaction_lines(text, headline, column):
+    e = only_error(text)
+    assert e.headline() == headline
+    assert e.column == column
