@@ -1408,7 +1408,9 @@ class _Builder:
         constants: dict[str, RateConstant] = {}
         first_line: dict[str, int] = {}
         for spec, line in specs:
-            constant = self._constant(spec, line, temperature)
+            constant = _plain_constant(spec, line)  # the common case, quickly
+            if constant is None:
+                constant = self._constant(spec, line, temperature)  # and every message
             if constant is None:
                 continue
             if spec.name in constants:
@@ -1750,6 +1752,28 @@ class _Builder:
                 "correct the formulas or coefficients, or write 'balance: lumped' for a "
                 "lumped scheme",
             )
+
+
+def _plain_constant(spec: _ConstantSpec, line: _Line) -> RateConstant | None:
+    """A plain constant with a known rate unit and a value in range, else None.
+
+    The same result as ``_Builder._constant`` for such constants (which handles
+    all others and words the errors), without its checks' overhead.
+    """
+    v = spec.value
+    if v is None:
+        return None
+    try:
+        unit = parse_unit(v.unit)
+    except ValueError:
+        return None
+    order = unit.rate_order
+    if order is None:
+        return None
+    value_si = _scaled(v.number, unit.factor)
+    if _exact(value_si) is None:
+        return None
+    return RateConstant(spec.name, spec.text, value_si, v.unit, order, None, line.number)
 
 
 def _concentration_part(feed_unit: str) -> str:
