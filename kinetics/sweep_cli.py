@@ -113,12 +113,28 @@ def sweep_figure(plan, data, column: str, quantity: str):
         p, q = axes
         nx, ny = p.values.size, q.values.size
         z = data[value].to_numpy().reshape(nx, ny)
+        finite = z[np.isfinite(z)]
+        norm = None
+        if finite.size and finite.min() > 0 and finite.max() > 100 * finite.min():
+            from matplotlib.colors import LogNorm
+
+            norm = LogNorm(finite.min(), finite.max())
+        if finite.size < z.size:
+            ax.text(
+                0.0,
+                -0.16,
+                "white cells: the quantity does not apply there",
+                transform=ax.transAxes,
+                fontsize=8,
+                va="top",
+            )
         mesh = ax.pcolormesh(
             _edges(q.values, q.spacing),
             _edges(p.values, p.spacing),
             z,
             cmap="cividis",
             shading="flat",
+            norm=norm,
         )
         cbar = fig.colorbar(mesh, ax=ax)
         cbar.set_label(value)
@@ -205,7 +221,7 @@ Examples:
       --vary k2=0.01:1:25:log --vary k1=0.06,0.12,0.24 --out sweep.csv
   kinetics sweep networks/reversible_isomerisation.scheme --until 10h \\
       --vary temperature=20:80:13:degC --vary kf.Ea=80:100:5:kJ/mol \\
-      --out sweep.parquet --plot t_max:TRANS --plot-out sweep.png
+      --out sweep.parquet --plot half_life:CIS --plot-out sweep.png
   kinetics sweep networks/consecutive_intermediate.scheme --until 3h \\
       --samples 2000 --spread k1=15% --spread k2=10% --seed 1 --out bands.csv
 """

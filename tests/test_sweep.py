@@ -574,3 +574,33 @@ def test_killed_sweep_process_resumes_to_the_same_table(chain_file, tmp_path, ca
     assert main([*args, "--out", str(fresh)]) == 0
     assert out.read_text() == fresh.read_text()
     assert len(pd.read_csv(out)) == 600
+
+
+def test_cli_monte_carlo_bands_samples_and_curve_bands(chain_file, tmp_path):
+    bands, samples, curves, png = (tmp_path / n for n in ("b.csv", "s.parquet", "c.csv", "m.png"))
+    rc = main(
+        [
+            "sweep", str(chain_file), "--until", "2h", "--points", "11",
+            "--vary", "k2=0.02,0.04", "--samples", "150", "--spread", "k1=15%",
+            "--seed", "9", "--chunk-size", "64", "--out", str(bands),
+            "--samples-out", str(samples), "--curves", str(curves),
+            "--plot", "t_max:B", "--plot-out", str(png), "--no-caution",
+        ]
+    )  # fmt: skip
+    assert rc == 0
+    b = pd.read_csv(bands)
+    assert len(b) == 2
+    assert list(b.columns[:5]) == [
+        "k2 [min-1]", "samples", "half_life A p2.5 [h]", "half_life A p50 [h]",
+        "half_life A p97.5 [h]",
+    ]  # fmt: skip
+    s = pd.read_parquet(samples)
+    assert len(s) == 300
+    assert list(s.columns[:2]) == ["k2 [min-1]", "k1 [1/min]"]
+    # the bands are the sample percentiles of the sample rows (numpy's linear rule)
+    first = s[s["k2 [min-1]"] == 0.02]["t_max B [h]"]
+    assert b["t_max B p97.5 [h]"].iloc[0] == pytest.approx(np.percentile(first, 97.5), rel=1e-15)
+    c = pd.read_csv(curves)
+    assert len(c) == 2 * 11 * 4
+    assert (c["concentration p2.5 [mol/L]"] <= c["concentration p97.5 [mol/L]"]).all()
+    assert png.stat().st_size > 1000
