@@ -320,7 +320,7 @@ Examples:
     type=click.Choice(["double", "auto", "double-double"]),
     default="double",
     show_default=True,
-    help="Precision of the propagation engine.",
+    help="Precision of the propagation engine for --curves.",
 )
 @click.option("--no-caution", is_flag=True, help="Do not print the two-line caution on stderr.")
 def sweep(
