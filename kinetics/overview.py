@@ -10,6 +10,10 @@ matrix order), ``excess_species``, ``species_details``, ``rate_matrix`` (rows,
 (one object per step: ``equation``, ``k_per_s``, ``reaction``, ``direction``,
 ``constant``, ``given``, ``line``), ``balance`` (``ok`` and per-reaction
 details), ``network`` (roles, reversible pairs, cycles, components).
+
+Above :data:`DENSE_JSON_MAX` species the dense ``rate_matrix`` would be
+hundreds of megabytes of JSON: it is then ``null`` and the nonzero entries are
+given as ``rate_matrix_entries`` (``[row, column, value]`` triplets, 1/s).
 """
 
 from __future__ import annotations
@@ -145,6 +149,10 @@ def _finite(x):
     return x if x == x and abs(x) != float("inf") else None
 
 
+#: Largest scheme whose ``check --json`` carries the dense rate matrix.
+DENSE_JSON_MAX = 2000
+
+
 def check_report(scheme: Scheme) -> dict:
     """Everything ``kinetics check`` reports, as a JSON-ready dict."""
     from .balance import mass_balance
@@ -152,7 +160,15 @@ def check_report(scheme: Scheme) -> dict:
 
     balance = mass_balance(scheme)
     network = summarise_network(scheme)
-    K = scheme.rate_matrix()
+    K = scheme.rate_matrix_sparse().tocoo()
+    if len(scheme.species) <= DENSE_JSON_MAX:
+        dense_rows = K.toarray().tolist()
+        entries = None
+    else:
+        dense_rows = None
+        entries = [
+            [int(i), int(j), float(v)] for i, j, v in zip(K.row, K.col, K.data, strict=True) if v
+        ]
     details = []
     for s in scheme.species + scheme.excess_species:
         details.append(
@@ -203,7 +219,8 @@ def check_report(scheme: Scheme) -> dict:
         "species": scheme.species_names,
         "excess_species": [s.name for s in scheme.excess_species],
         "species_details": details,
-        "rate_matrix": K.tolist(),
+        "rate_matrix": dense_rows,
+        **({"rate_matrix_entries": entries} if entries is not None else {}),
         "feed": dict(scheme.feed),
         "initial": {name: scheme.initial.get(name, 0.0) for name in scheme.species_names},
         "excess": dict(scheme.excess),

@@ -7,6 +7,7 @@ from pathlib import Path
 
 import pytest
 
+import kinetics
 from kinetics.cli import main
 
 NETWORKS = Path(__file__).resolve().parent.parent / "networks"
@@ -127,3 +128,17 @@ def test_allow_imbalance_flag(tmp_path, capsys):
     assert main(["check", str(path), "--json", "--allow-imbalance"]) == 0
     report = json.loads(capsys.readouterr().out)
     assert report["balance"]["ok"] is False
+
+
+def test_large_scheme_json_gives_sparse_entries_instead_of_dense_rows():
+    # a 2,500-step chain: the dense matrix would be 2501 x 2501 (common practice, no source)
+    from kinetics.overview import DENSE_JSON_MAX, check_report
+
+    n = DENSE_JSON_MAX + 500
+    text = "\n".join(f"S{i} -> S{i + 1}  k{i} = 0.5 1/s" for i in range(n))
+    report = check_report(kinetics.parse(text))
+    assert report["rate_matrix"] is None
+    entries = {(i, j): v for i, j, v in report["rate_matrix_entries"]}
+    assert len(entries) == 2 * n
+    assert entries[(0, 0)] == -0.5
+    assert entries[(1, 0)] == 0.5
