@@ -604,3 +604,43 @@ def test_cli_monte_carlo_bands_samples_and_curve_bands(chain_file, tmp_path):
     assert len(c) == 2 * 11 * 4
     assert (c["concentration p2.5 [mol/L]"] <= c["concentration p97.5 [mol/L]"]).all()
     assert png.stat().st_size > 1000
+
+
+def test_batched_summaries_equal_analysis_on_random_networks():
+    """summarise_batch equals kinetics.analysis.summarise member by member (random
+    branched networks with some reverse steps, a second start value, sometimes a feed)."""
+    from kinetics.sweep_summary import summarise_batch
+
+    rng = np.random.default_rng(20)
+    checked = 0
+    for _ in range(12):
+        n = int(rng.integers(3, 8))
+        b = 3
+        K = np.zeros((b, n, n))
+        for j in range(n):
+            for i in range(n):
+                if i != j and rng.random() < (0.45 if i > j else 0.1):
+                    k = 10 ** rng.uniform(-3, 0, size=b)
+                    K[:, i, j] += k
+                    K[:, j, j] -= k
+        c0 = np.zeros((b, n))
+        c0[:, 0] = 1.0
+        if rng.random() < 0.3:
+            c0[:, int(rng.integers(1, n))] = rng.uniform(0.0, 0.5, size=b)
+        feed = None
+        if rng.random() < 0.2:
+            feed = np.zeros(n)
+            feed[0] = 0.01
+        got = summarise_batch(K, c0, feed, t_window=1000.0)
+        names = [f"s{i}" for i in range(n)]
+        for m in range(b):
+            ref = summarise(K[m], c0[m], names, feed=feed, t_window=1000.0)
+            for i, name in enumerate(names):
+                for q in QUANTITIES:
+                    want = getattr(ref[name], q)
+                    if want is None:
+                        assert math.isnan(got[q][m, i]), (q, name)
+                    else:
+                        assert got[q][m, i] == pytest.approx(want, rel=1e-9, abs=1e-300)
+                    checked += 1
+    assert checked > 500
