@@ -46,6 +46,8 @@ __all__ = ["ChunkStore", "SweepRun", "TableWriter", "run_sweep"]
 _CHUNK_RE = re.compile(r"^chunk_(\d{6,})\.npz$")
 #: Table formats of the sweep outputs, by extension.
 TABLE_FORMATS = (".csv", ".parquet", ".json")
+#: Rows per Parquet row group (frames are buffered up to this size).
+_ROW_GROUP = 65536
 
 
 # ---------------------------------------------------------------------------------------
@@ -236,6 +238,29 @@ class TableWriter:
         self._fh = None
         self._pq = None
         self._rows = 0
+        self._buffer: list = []
+        self._buffered = 0
+
+    def _flush_parquet(self) -> None:
+        """Write the buffered frames as one row group."""
+        if not self._buffer:
+            return
+        import pandas as pd
+        import pyarrow as pa
+        import pyarrow.parquet as pq
+
+        frame = (
+            pd.concat(self._buffer, ignore_index=True)
+            if len(self._buffer) > 1
+            else (self._buffer[0])
+        )
+        self._buffer, self._buffered = [], 0
+        table = pa.Table.from_pandas(frame, preserve_index=False)
+        if self._pq is None:
+            meta = dict(table.schema.metadata or {})
+            meta[b"kinetics"] = json.dumps(self.metadata, allow_nan=False).encode()
+            self._pq = pq.ParquetWriter(self._tmp, table.schema.with_metadata(meta))
+        self._pq.write_table(table.cast(self._pq.schema))
 
     def write(self, frame: pd.DataFrame) -> None:
         if self.kind == ".csv":
@@ -244,16 +269,10 @@ class TableWriter:
                 self._fh = open(self._tmp, "w", encoding="utf-8", newline="")
             frame.to_csv(self._fh, index=False, header=header, lineterminator="\n")
         elif self.kind == ".parquet":
-            import pyarrow as pa
-            import pyarrow.parquet as pq
-
-            table = pa.Table.from_pandas(frame, preserve_index=False)
-            if self._pq is None:
-                meta = dict(table.schema.metadata or {})
-                meta[b"kinetics"] = json.dumps(self.metadata, allow_nan=False).encode()
-                schema = table.schema.with_metadata(meta)
-                self._pq = pq.ParquetWriter(self._tmp, schema)
-            self._pq.write_table(table.cast(self._pq.schema))
+            self._buffer.append(frame)
+            self._buffered += len(frame)
+            if self._buffered >= _ROW_GROUP:
+                self._flush_parquet()
         else:
             if self._fh is None:
                 self._fh = open(self._tmp, "w", encoding="utf-8")
@@ -278,6 +297,8 @@ class TableWriter:
                     text = json.dumps(head, indent=1, allow_nan=False, ensure_ascii=False)
                     self._fh.write(text[:-1].rstrip() + ',\n "rows": [\n')
                 self._fh.write("\n ]\n}\n")
+            if self.kind == ".parquet":
+                self._flush_parquet()
             if self._fh is not None:
                 self._fh.close()
             if self._pq is not None:
