@@ -263,6 +263,7 @@ def solution_json(
         "settings": dict(settings or {}),
         "points": len(solution.times),
         "summary": summary,
+        **({} if summary is not None else {"summary_note": SUMMARY_SKIPPED_NOTE}),
         "times": frame.iloc[:, 0].tolist(),
         "concentrations": {
             name: solution.concentrations[:, i].tolist() for i, name in enumerate(solution.species)
@@ -270,15 +271,26 @@ def solution_json(
     }
 
 
+#: Largest scheme whose summary quantities are computed by ``solve`` and ``report``
+#: (each quantity costs many exact exponentials; above this size they take minutes).
+SUMMARY_MAX = 200
+SUMMARY_SKIPPED_NOTE = (
+    f"summary quantities are computed for schemes of up to {SUMMARY_MAX} species; "
+    "call kinetics.analysis.summarise for larger ones"
+)
+
+
 def compute_summary(solution: Solution) -> dict[str, dict] | None:
     """Summary quantities of every species in SI time [s] and the concentration unit.
 
     Uses :func:`kinetics.analysis.summarise` on the scheme of ``solution`` with the
-    solution's time window.
+    solution's time window.  Returns ``None`` above :data:`SUMMARY_MAX` species.
     """
     from .analysis import summarise
 
     scheme = solution.scheme
+    if len(scheme.species) > SUMMARY_MAX:
+        return None
     feed = scheme.feed_vector if scheme.feed else None
     window = float(solution.times[-1])
     raw = summarise(

@@ -241,6 +241,7 @@ def render_solution(
     max_rows: int = 25,
     summary: dict | None = None,
     species: list[str] | None = None,
+    max_columns: int = 12,
 ) -> None:
     """Print the summary table (when given) and the concentration table (about ``max_rows`` rows).
 
@@ -254,9 +255,15 @@ def render_solution(
     summary : dict, optional
         Species -> quantities in ``time_unit`` (see :func:`kinetics.overview.summary_in_units`).
     species : list of str, optional
-        Columns to show (default: every species).
+        Columns to show (default: every species, at most ``max_columns`` of them).
+    max_columns : int, optional
+        Without ``species``, show only the first this many species and say so.
     """
     out = console()
+    hidden = 0
+    if not species and len(solution.species) > max_columns:
+        hidden = len(solution.species) - max_columns
+        species = solution.species[:max_columns]
     if summary:
         shown = {k: v for k, v in summary.items() if not species or k in species}
         render_summary(shown, time_unit, solution.concentration_unit, out)
@@ -280,6 +287,11 @@ def render_solution(
     for i in rows:
         table.add_row(*(f"{v:.6g}" for v in values[i]))
     out.print(table)
+    if hidden:
+        out.print(
+            f"{hidden} more species not shown; choose columns with --species, "
+            "or write them all with --out table.csv"
+        )
 
 
 def _escape(text: str) -> str:
