@@ -92,7 +92,9 @@ if TYPE_CHECKING:
     from .scheme import Scheme
 
 __all__ = [
+    "DEFAULT_CHUNK",
     "PERCENTILES",
+    "ChunkResult",
     "Column",
     "Parameter",
     "Spread",
@@ -379,8 +381,14 @@ def parse_vary(scheme: Scheme, spec: str, option: str = "--vary") -> Parameter:
 
     Notes
     -----
-    Log spacing: :math:`x_j = x_{lo} (x_{hi}/x_{lo})^{j/(N-1)}`, computed as
-    ``numpy.geomspace``; linear spacing as ``numpy.linspace`` (end points exact).
+    .. math::
+
+        x_j = x_{lo} + \\frac{j}{N-1}(x_{hi} - x_{lo}) \\ \\text{(lin)}, \\qquad
+        x_j = x_{lo} \\left(\\frac{x_{hi}}{x_{lo}}\\right)^{j/(N-1)} \\ \\text{(log)},
+        \\qquad j = 0 \\ldots N-1
+
+    computed with ``numpy.linspace`` and ``numpy.geomspace`` (end points exact).  Values
+    are converted to internal units with exact rational unit factors (one rounding).
     """
     where = f"{option} {spec!r}"
     if "=" not in spec:
@@ -1436,9 +1444,20 @@ def percentile_bands(plan: SweepPlan, summary: pd.DataFrame) -> pd.DataFrame:
 
     Notes
     -----
-    The percentiles are the sample quantiles of :func:`numpy.nanpercentile` (linear
-    interpolation between order statistics) over the samples in which the quantity
-    exists; a quantity that exists in no sample gives empty cells.
+    With the sorted values :math:`x_{(1)} \\le \\dots \\le x_{(N)}` of the samples in
+    which the quantity exists,
+
+    .. math:: Q(p) = x_{(\\lfloor h \\rfloor + 1)} + (h - \\lfloor h \\rfloor)
+              (x_{(\\lfloor h \\rfloor + 2)} - x_{(\\lfloor h \\rfloor + 1)}), \\qquad
+              h = (N - 1)\\, p / 100
+
+    (:func:`numpy.nanpercentile`, linear interpolation between order statistics); a
+    quantity that exists in no sample gives empty cells.
+
+    References
+    ----------
+    R. J. Hyndman, Y. Fan, "Sample quantiles in statistical packages", The American
+    Statistician 50, 361-365 (1996), definition 7.
     """
     import pandas as pd
 
