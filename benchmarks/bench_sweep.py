@@ -158,7 +158,9 @@ def main() -> None:
     print(
         f"scheme: {len(scheme.species)} species, {len(scheme.steps)} steps; "
         f"{plan.n_sets} sets x {plan.times.size} points; chunks of {plan.chunk_size}; "
-        f"{os.cpu_count()} CPUs; local engine with {args.threads} threads"
+        f"{os.cpu_count()} CPUs; local engine with {args.threads} threads; "
+        f"load average before the run {os.getloadavg()[0]:.2f} (other work on the machine "
+        "slows the threaded sweep more than the single-threaded baseline)"
     )
     # warm up imports and caches on a small plan
     chunk_result(plan_for(16, 16)[1], 0, 16, curves=True)
