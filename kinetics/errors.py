@@ -145,8 +145,8 @@ class SchemeFileError(KineticsError, OSError):
         return f"{head}; {self.hint}" if self.hint else head
 
 
-class UsageError(KineticsError, ValueError):
-    """A wrong argument to a command or to a library function (times, options, names)."""
+class _ProblemAndHint(KineticsError):
+    """An error told as ``problem; hint`` with no place in a file."""
 
     def __init__(self, problem: str, hint: str = "") -> None:
         super().__init__(problem)
@@ -158,6 +158,10 @@ class UsageError(KineticsError, ValueError):
 
     def __str__(self) -> str:
         return f"{self.problem}; {self.hint}" if self.hint else self.problem
+
+
+class UsageError(_ProblemAndHint, ValueError):
+    """A wrong argument to a command or to a library function (times, options, names)."""
 
 
 class DataError(KineticsError, ValueError):
@@ -177,20 +181,9 @@ class DataError(KineticsError, ValueError):
         return f"{head}; {self.hint}" if self.hint else head
 
 
-class GrowthError(KineticsError, OverflowError):
+class GrowthError(_ProblemAndHint, OverflowError):
     """Concentrations that grow beyond the range of double precision (about 1e308).
 
     Only a scheme that makes more of a species than it consumes (``A -> 2 A``)
     or a feed over very long times can do this.
     """
-
-    def __init__(self, problem: str, hint: str = "") -> None:
-        super().__init__(problem)
-        self.problem = problem
-        self.hint = hint
-
-    def __reduce__(self):
-        return (type(self), (self.problem, self.hint))
-
-    def __str__(self) -> str:
-        return f"{self.problem}; {self.hint}" if self.hint else self.problem
