@@ -337,10 +337,17 @@ class _Ladder:
                     Q = self._flush(Q @ Q)
                 P[level, sq] = Q
         self.P = P  # (levels + 1, b, na, na)
+        # the same, structure of arrays: (na, na, (levels + 1) * b), index level * b + member
+        self.b = b
+        self.Ps = np.ascontiguousarray(P.transpose(2, 3, 0, 1)).reshape(na, na, -1)
         # lowest level to which a bracket is narrowed before the Taylor-Newton phase
         with np.errstate(divide="ignore"):
             stop = np.floor(np.log(_NEWTON_Y / (_U0 * self.norm)) / np.log(_RATIO))
         self.stop = np.clip(np.nan_to_num(stop, posinf=levels), 1, levels).astype(np.int64)
+
+    def soa(self, level, member) -> np.ndarray:
+        """Levels ``level`` of members ``member`` as (na, na, p) (structure of arrays)."""
+        return self.Ps[:, :, level * self.b + member]
 
     @staticmethod
     def _flush(M):
@@ -349,6 +356,11 @@ class _Ladder:
     @staticmethod
     def step(level):
         return _U0 * np.power(float(_RATIO), level)
+
+
+def _mvs(M, x):
+    """Matrix-vector products in structure-of-arrays layout: (k, k, p) @ (k, p)."""
+    return np.einsum("ijp,jp->ip", M, x)
 
 
 def _mv(M, x):
@@ -371,14 +383,15 @@ def _scan(lad: _Ladder, x0, n_segments):
     taus = np.zeros(total)
     levels = np.empty(total - 1, dtype=np.int64)
     j = 0
-    x = x0[:, :, None]
+    x = np.ascontiguousarray(x0.T)
+    members = np.arange(x0.shape[0])
     for level, count in plan:
-        P = lad.P[level]
+        P = lad.soa(level, members)
         u = float(lad.step(level))
         for _ in range(count):
-            x = np.matmul(P, x)
+            x = _mvs(P, x)
             j += 1
-            X[:, j] = x[:, :, 0]
+            X[:, j] = x.T
             taus[j] = taus[j - 1] + u
             levels[j - 1] = level
     return taus, X, levels
@@ -451,7 +464,7 @@ def _hidden_turns(lad: _Ladder, K, f, X, s, flags, ilevel, cols) -> np.ndarray:
     fb, fj = np.nonzero(flags.any(axis=2))
     if fb.size == 0:
         return bad
-    P = lad.P[ilevel[fj] - 1, fb]
+    P = np.ascontiguousarray(lad.P[ilevel[fj] - 1, fb])
     x = X[fb, fj]
     Kb = K[fb][:, cols, :]
     fc = None if f is None else f[cols]
@@ -530,28 +543,31 @@ def _refine(lad: _Ladder, K, f, member, sp, deriv, level, tau_a, x_a, ilev, sign
     Ki_all = K[m, sp, :]  # the row of each problem's species (p, n)
     fi_all = 0.0 if f is None else f[sp]
     tau_a = tau_a.copy()
-    x_a = x_a.copy()
     lev = ilev.copy()
     stop = lad.stop[m]
 
-    def g_of(x, idx):
-        c = x[:, :n]
-        fi = fi_all if f is None else fi_all[idx]
-        di = np.einsum("pj,pj->p", Ki_all[idx], c) + fi
-        return np.where(deriv[idx], di, c[rows_all[: idx.size], sp[idx]] - level[idx])
+    KiT = np.ascontiguousarray(Ki_all.T)  # (n, p)
 
+    def g_of(xs, idx):
+        """g for problems idx at states xs (na, len(idx)), structure of arrays."""
+        c = xs[:n]
+        fi = fi_all if f is None else fi_all[idx]
+        di = np.einsum("jp,jp->p", KiT[:, idx], c) + fi
+        return np.where(deriv[idx], di, c[sp[idx], rows_all[: idx.size]] - level[idx])
+
+    xs_a = np.ascontiguousarray(x_a.T)  # (na, p)
     # g at both ends of the starting brackets (for the secant start of Newton)
-    ga = g_of(x_a, rows_all)
-    gb = g_of(_mv(lad.P[lev, m], x_a), rows_all)
+    ga = g_of(xs_a, rows_all)
+    gb = g_of(_mvs(lad.soa(lev, m), xs_a), rows_all)
     while True:
         act = np.flatnonzero(lev > stop)
         if act.size == 0:
             break
-        P = lad.P[lev[act] - 1, m[act]]
+        P = lad.soa(lev[act] - 1, m[act])
         u = lad.step(lev[act] - 1)
         sa = sign_a[act]
-        x = x_a[act][:, :, None]
-        prev = x_a[act]
+        prev = xs_a[:, act]
+        x = prev
         g_prev = ga[act]
         found = np.zeros(act.size, dtype=bool)
         new_a = prev.copy()
@@ -559,20 +575,19 @@ def _refine(lad: _Ladder, K, f, member, sp, deriv, level, tau_a, x_a, ilev, sign
         new_gb = gb[act]
         shift = np.full(act.size, float(_RATIO - 1))
         for k in range(1, _RATIO):
-            x = np.matmul(P, x)
-            xv = x[:, :, 0]
-            g = g_of(xv, act)
+            x = _mvs(P, x)
+            g = g_of(x, act)
             hit = ((np.sign(g) != sa) | (g == 0)) & ~found
-            new_a[hit] = prev[hit]
+            new_a[:, hit] = prev[:, hit]
             new_ga[hit] = g_prev[hit]
             new_gb[hit] = g[hit]
             shift[hit] = k - 1
             found |= hit
-            prev = xv
+            prev = x
             g_prev = g
-        new_a[~found] = prev[~found]  # the change is in the last quarter
+        new_a[:, ~found] = prev[:, ~found]  # the change is in the last quarter
         new_ga[~found] = g_prev[~found]
-        x_a[act] = new_a
+        xs_a[:, act] = new_a
         ga[act] = new_ga
         gb[act] = new_gb
         tau_a[act] += shift * u
@@ -580,22 +595,22 @@ def _refine(lad: _Ladder, K, f, member, sp, deriv, level, tau_a, x_a, ilev, sign
     # Newton on the Taylor series of the last bracket [tau_a, tau_a + u]
     p = m.size
     w = lad.step(lev)
-    B = lad.B[m]
+    Bs = np.ascontiguousarray(lad.B[m].transpose(1, 2, 0))  # (na, na, p)
     sig = lad.sigma[m]
     J = lad.na + _NEWTON_TERMS
-    terms = [x_a]
+    terms = [xs_a]
     for k in range(1, J + 1):
-        terms.append(_mv(B, terms[-1]) / k)
-    W = np.stack(terms)  # (J+1, p, na)
+        terms.append(_mvs(Bs, terms[-1]) / k)
+    W = np.stack(terms)  # (J+1, na, p)
     sc = lad.scale[m]
-    Kp = K[m]
+    Ks = np.ascontiguousarray(K[m].transpose(1, 2, 0))  # (n, n, p)
+    fcol = 0.0 if f is None else f[:, None]
 
     def state(delta, idx):
-        d = delta[:, None]
-        acc = W[J, idx]
+        acc = W[J][:, idx]
         for k in range(J - 1, -1, -1):
-            acc = W[k, idx] + d * acc
-        return acc * np.exp(-sig[idx] * delta)[:, None]
+            acc = W[k][:, idx] + delta * acc
+        return acc * np.exp(-sig[idx] * delta)
 
     lo = np.zeros(p)
     hi = w.copy()
@@ -608,13 +623,15 @@ def _refine(lad: _Ladder, K, f, member, sp, deriv, level, tau_a, x_a, ilev, sign
         k = np.flatnonzero(active)
         if k.size == 0:
             break
-        x = state(delta[k], k) if k.size < p else state(delta, slice(None))
-        c = x[:, :n]
+        whole = k.size == p
+        idx = slice(None) if whole else k
+        x = state(delta[idx], idx)
+        c = x[:n]
         rows = rows_all[: k.size]
-        D = _mv(Kp[k], c) + (0.0 if f is None else f)
-        ci = c[rows, sp[k]]
-        di = D[rows, sp[k]]
-        d2 = np.einsum("pj,pj->p", Ki_all[k], D)
+        D = _mvs(Ks if whole else Ks[:, :, k], c) + fcol
+        ci = c[sp[k], rows]
+        di = D[sp[k], rows]
+        d2 = np.einsum("jp,jp->p", KiT[:, idx], D)
         g = np.where(deriv[k], di, ci - level[k])
         gp = np.where(deriv[k], d2, di) * sc[k]  # dg/dtau
         height[k] = ci
