@@ -21,23 +21,34 @@ Method
    start or are fed), so the class recursion of the limit runs once per group with
    stacked linear algebra (batched solves; the Grassmann-Taksar-Heyman reduction for the
    stationary vectors).
-2. *Scan.*  Each member ``i`` is scanned in its own scaled time :math:`\tau = t/s_i` with
-   :math:`s_i = 2^{\lfloor \log_2 (1/r_{max,i}) \rfloor}` (a power of two, so the scaled
-   matrix :math:`s_i K_i` is exact), on a grid shared by the stack: :math:`\tau_0 = 2^{-10}`,
-   then segments :math:`[\tau_0 8^d, \tau_0 8^{d+1}]` of 24 equal steps, each segment one
-   call of :func:`kinetics.propagate.propagate_batch` on a uniform grid (one exponential
-   per member and segment, then products with nonnegative matrices).  A member uses the
+2. *Ladder.*  Each member ``i`` is treated in its own scaled time :math:`\tau = t/s_i`
+   with :math:`s_i = 2^{\lfloor \log_2 (1/r_{max,i}) \rfloor}` (a power of two, so the
+   scaled matrix :math:`s_i K_i` is exact).  Exponentials :math:`P_\ell = e^{u_\ell A}` of
+   the scaled (feed-augmented) matrix for the steps :math:`u_\ell = 2^{-15} 4^\ell` are
+   formed from the shifted matrix :math:`B = A + \sigma I \ge 0` by Taylor sums of
+   nonnegative terms while :math:`u_\ell \|B\| \le 1/2`, above that by exact squaring
+   (:class:`_Ladder`; the shift-and-Taylor idea of Xue & Ye 2013, no subtraction
+   anywhere).
+3. *Scan.*  A log grid shared by the stack: 0, four steps to :math:`\tau_0 = 2^{-9}`, then
+   segments :math:`[\tau_0 4^d, \tau_0 4^{d+1}]` of 12 equal steps (about 20 points per
+   decade), each step one product with a nonnegative ladder matrix.  A member uses the
    points up to its own :math:`t_{hi} = 50/r_{min}` (:mod:`kinetics.analysis` scans from
    :math:`10^{-3}/r_{max}` to :math:`50/r_{min}`), so its result does not depend on the
-   other members of the stack.
-3. *Brackets.*  Signs of the exact derivative :math:`D = Kc + f` (below
+   other members of the stack (tested bit for bit).
+4. *Brackets.*  Signs of the exact derivative :math:`D = Kc + f` (below
    :math:`10^{-12}\,(|K|c + |f|)` counted as unknown, as in :mod:`kinetics.analysis`) give
-   the maxima; signs of :math:`c_i - c_{0,i}/2` give the half-lives.
-4. *Refinement.*  Every bracket is refined by a safeguarded Newton iteration, with the
-   exact derivatives :math:`g' = (K D)_i` for a maximum and :math:`g' = D_i` for a
-   half-life, evaluated by one stacked engine call per iteration for all brackets
-   (:math:`c(x) = e^{x K} c_0`, as the scaled problem :math:`(xK, x f)` at time 1); it
-   stops when the Newton step is below :math:`10^{-13} x`.
+   the maxima; signs of :math:`c_i - c_{0,i}/2` give the half-lives.  Intervals where a
+   cubic Hermite model of the derivative hints at two hidden turning points are sampled
+   at their quarters.
+5. *Refinement.*  A bracket is narrowed by quarters with the next lower ladder level
+   until :math:`u \|B\| \le 1/4`; then a safeguarded Newton iteration on the
+   nonnegative Taylor series of the state from the bracket's left end, with the exact
+   derivatives :math:`g' = (K D)_i` for a maximum and :math:`g' = D_i` for a half-life,
+   stops when the step is below :math:`10^{-13}` of the time.  :math:`c_{max}` is the
+   concentration at the root.
+
+The curves of a sweep are not computed here: they come from
+:func:`kinetics.propagate.propagate_batch` (:func:`kinetics.sweep.chunk_result`).
 
 Members that need the general treatment of :mod:`kinetics.analysis` -- several turning
 points of one species, minima, damped oscillations (complex eigenvalues with
