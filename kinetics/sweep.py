@@ -4,10 +4,10 @@ A sweep evaluates one scheme for many *parameter sets*.  Each set replaces some 
 scheme's inputs: rate constants, Arrhenius parameters, the temperature, start or excess
 concentrations.  Sets are laid out either as a Cartesian grid (``--vary``) or as Monte
 Carlo samples around each grid point (``--samples``/``--spread``), and are evaluated in
-*chunks*: a chunk of ``b`` sets builds a stack of ``b`` rate matrices at once and hands it
-to :func:`kinetics.propagate.propagate_batch`; the summary quantities of
-:mod:`kinetics.analysis` are computed for the whole stack by
-:mod:`kinetics.sweep_summary`.  No Python loop runs over the sets.
+*chunks*: a chunk of ``b`` sets builds a stack of ``b`` rate matrices at once; the
+summary quantities of :mod:`kinetics.analysis` are computed for the whole stack by
+:mod:`kinetics.sweep_summary`, and the curves (when asked for) by
+:func:`kinetics.propagate.propagate_batch`.  No Python loop runs over the sets.
 
 Parameter names (as in the scheme file)
 ---------------------------------------
