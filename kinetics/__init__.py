@@ -16,19 +16,26 @@ except PackageNotFoundError:  # pragma: no cover - running from a source tree
 
 from .errors import (
     DataError,
+    GrowthError,
     KineticsError,
     SchemeError,
     SchemeErrors,
     SchemeFileError,
     UsageError,
 )
+from .fit import FitResult, fit
+from .measurements import Measurements, read_measurements
 from .parsing import load, parse
 from .scheme import Scheme
 from .solution import Solution, solve
+from .sweep import monte_carlo, sweep
 
 __all__ = [
     "DataError",
+    "FitResult",
+    "GrowthError",
     "KineticsError",
+    "Measurements",
     "Scheme",
     "SchemeError",
     "SchemeErrors",
@@ -36,7 +43,11 @@ __all__ = [
     "Solution",
     "UsageError",
     "__version__",
+    "fit",
     "load",
+    "monte_carlo",
     "parse",
+    "read_measurements",
     "solve",
+    "sweep",
 ]

@@ -116,11 +116,21 @@ def atomic_path(path):
     os.close(fd)
     try:
         yield Path(tmp)
+        # mkstemp creates the file readable by its owner only; give the finished
+        # file the permissions a plainly created one would have (0666 less umask)
+        os.chmod(tmp, 0o666 & ~_umask())
         os.replace(tmp, target)
     except BaseException:
         with contextlib.suppress(OSError):
             os.unlink(tmp)
         raise
+
+
+def _umask() -> int:
+    """The process umask (read by setting and restoring it)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
 
 
 def write_csv(frame: pd.DataFrame, path) -> None:

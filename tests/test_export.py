@@ -196,3 +196,19 @@ def test_check_output_paths(tmp_path):
         export.check_output_paths([tmp_path / "a.doc"], [scheme])
     with pytest.raises(UsageError, match="given twice"):
         export.check_output_paths([tmp_path / "a.csv", tmp_path / "./a.csv"], [scheme])
+
+
+def test_written_files_get_ordinary_permissions(tmp_path):
+    # a finished file is readable like any other new file: 0666 less the umask
+    # (POSIX file-creation semantics; common practice, no source)
+    import os
+    import stat
+
+    from kinetics.export import atomic_path
+
+    target = tmp_path / "table.csv"
+    with atomic_path(target) as tmp:
+        tmp.write_text("a\n")
+    mask = os.umask(0)
+    os.umask(mask)
+    assert stat.S_IMODE(target.stat().st_mode) == 0o666 & ~mask

@@ -372,7 +372,8 @@ def test_bad_precision_and_batch_shape():
 
 
 def test_growth_beyond_double_range_is_a_clear_error():
-    # A -> 2 A with k = 1000/s for 2 s grows like exp(2000): beyond 1e308 (common practice, no source)
+    # A -> 2 A with k = 1000/s for 2 s grows like exp(2000), beyond 1e308
+    # (common practice, no source)
     K = np.array([[1000.0]])
     with pytest.raises(GrowthError, match="beyond the range of double precision"):
         propagate(K, [1.0], [0.0, 2.0])
