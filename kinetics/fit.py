@@ -59,8 +59,6 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 
 import numpy as np
-import scipy.optimize
-import scipy.stats
 
 from .errors import DataError, UsageError
 from .measurements import Measurements, measurements_from_frame, parse_condition, read_measurements
@@ -859,6 +857,9 @@ def chi2_error_level(observed, predicted, n_parameters: int, level: float = 0.05
     kinetics from environmental fate studies on pesticides in EU registration",
     report of the FOCUS Work Group on Degradation Kinetics.
     """
+    import scipy.optimize  # imported on use: keeps `import kinetics` light
+    import scipy.stats
+
     o = np.asarray(observed, dtype=float)
     c = np.asarray(predicted, dtype=float)
     df = o.size - n_parameters
@@ -1093,6 +1094,9 @@ def _bounds(model, theta0):
 
 
 def _start_points(model, theta0, lower, upper, starts, seed) -> np.ndarray:
+    import scipy.optimize  # imported on use: keeps `import kinetics` light
+    import scipy.stats
+
     p = theta0.size
     if starts == "auto":
         count = 4 + 2 * p
@@ -1115,6 +1119,9 @@ def _start_points(model, theta0, lower, upper, starts, seed) -> np.ndarray:
 
 def _least_squares(model, x0, lower, upper, tol, jac, max_nfev, fixed=None):
     """One trust-region run; ``fixed`` = (index, value) fixes one coordinate (profiles)."""
+    import scipy.optimize  # imported on use: keeps `import kinetics` light
+    import scipy.stats
+
     if fixed is None:
         fun, jacobian = model.residuals, model.jacobian
         lo, hi = lower, upper
@@ -1232,6 +1239,9 @@ def fit(
     D. M. Bates, D. G. Watts, *Nonlinear Regression Analysis and Its Applications*,
     Wiley (1988).
     """
+    import scipy.optimize  # imported on use: keeps `import kinetics` light
+    import scipy.stats
+
     if jacobian not in ("exact", "2-point", "3-point"):
         raise UsageError(f"unknown jacobian {jacobian!r}", "use exact, 2-point or 3-point")
     if engine not in ("block", "entrywise"):
@@ -1571,6 +1581,9 @@ def _species_params(scheme, params) -> dict[str, int]:
 
 
 def _statistics(model, runs, params, preds, ssr, dof, s2, cond, best, candidates, polished):
+    import scipy.optimize  # imported on use: keeps `import kinetics` light
+    import scipy.stats
+
     p = len(params)
     per_species: dict[str, dict] = {}
     observed: dict[str, list] = {}
