@@ -145,10 +145,16 @@ def render_check(scheme: Scheme, report: dict) -> None:
         verdict = "not checked (no formulas or molar masses given)"
     elif balance["ok"]:
         verdict = "[green]balanced[/green]"
+        unchecked = [r for r in balance["reactions"] if r["atoms"] == "not checked"]
+        if unchecked:
+            verdict += f" where checked ({len(unchecked)} of {len(balance['reactions'])} "
+            verdict += "reactions not checked)"
     else:
         verdict = "[red]NOT balanced[/red]"
     out.print(f"mass balance: {verdict}")
     for r in balance["reactions"]:
+        if r["atoms"] == "not checked" and balance["checked"]:
+            out.print(f"  line {r['line']}: {_escape(r['equation'])}: {_escape(r['reason'])}")
         if r["atoms"] == "unbalanced":
             left = " ".join(f"{k}{v:g}" for k, v in sorted(r["left"].items()))
             right = " ".join(f"{k}{v:g}" for k, v in sorted(r["right"].items()))
