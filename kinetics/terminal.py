@@ -135,6 +135,7 @@ def render_check(scheme: Scheme, report: dict) -> None:
             _num(r["k_per_s"], 8),
         )
     out.print(steps)
+    _render_rate_matrix(report, out)
 
     if report["feed"]:
         feeds = ", ".join(f"{_escape(k)} {_num(v)} {unit}/s" for k, v in report["feed"].items())
@@ -304,3 +305,25 @@ def _escape(text: str) -> str:
     from rich.markup import escape
 
     return escape(str(text))
+
+
+def _render_rate_matrix(report: dict, out: Console, max_species: int = 12) -> None:
+    """Print K [1/s] for small schemes (column j: what happens to species j)."""
+    names = report["species"]
+    K = report["rate_matrix"]
+    if K is None or len(names) > max_species:
+        out.print(
+            f"rate matrix K: {len(names)} x {len(names)} (shown for up to {max_species} "
+            "species; all entries are in check --json)"
+        )
+        return
+    table = Table(
+        title="Rate matrix K [1/s] (dc/dt = K c + f; column = species consumed)",
+        title_justify="left",
+    )
+    table.add_column("", justify="left")
+    for name in names:
+        table.add_column(_escape(name), justify="right")
+    for name, row in zip(names, K, strict=True):
+        table.add_row(_escape(name), *("0" if v == 0 else f"{v:.4g}" for v in row))
+    out.print(table)

@@ -142,3 +142,13 @@ def test_large_scheme_json_gives_sparse_entries_instead_of_dense_rows():
     assert len(entries) == 2 * n
     assert entries[(0, 0)] == -0.5
     assert entries[(1, 0)] == 0.5
+
+
+def test_terminal_check_prints_the_rate_matrix_of_a_small_scheme(tmp_path, capsys):
+    # A -> B with k = 0.12 1/min: K = [[-0.002, 0], [0.002, 0]] in 1/s (0.12/60; definition of K)
+    path = tmp_path / "small.scheme"
+    path.write_text("A -> B    k1 = 0.12 1/min\nstart A = 1 mol/L\n", encoding="utf-8")
+    assert main(["check", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert "Rate matrix K [1/s]" in out
+    assert "-0.002" in out
