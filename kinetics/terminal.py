@@ -317,10 +317,8 @@ def _render_rate_matrix(report: dict, out: Console, max_species: int = 12) -> No
             "species; all entries are in check --json)"
         )
         return
-    table = Table(
-        title="Rate matrix K [1/s] (dc/dt = K c + f; column = species consumed)",
-        title_justify="left",
-    )
+    out.print(r"[bold]Rate matrix K \[1/s][/bold] (dc/dt = K c + f; column = species consumed)")
+    table = Table()
     table.add_column("", justify="left")
     for name in names:
         table.add_column(_escape(name), justify="right")
