@@ -678,21 +678,36 @@ def _propagate_dense_stack(A, x0, times, precision: str):
         Fh, Fl, eps, is_dd = exp_of(dt)
         M = p - start - 1 + skip
         # columns F^k v for k = 0..M by doubling: V <- [V, F^(2^i) V]
-        Vh, Vl = vh, vl
         Ph, Pl = Fh, Fl
         peps = eps
         kb = np.zeros((b, 1))  # bound of each column relative to v
         gam = _gamma_stack(N, is_dd)
-        while Vh.shape[-1] < M + 1:
-            need = min(Vh.shape[-1], M + 1 - Vh.shape[-1])
-            Wh, Wl = _mv(Ph, Pl, Vh[..., :need], Vl[..., :need], is_dd)
-            Vh = np.concatenate([Vh, Wh], axis=-1)
-            Vl = np.concatenate([Vl, Wl], axis=-1)
+        plain = not np.any(is_dd) and not np.any(vl)
+        # columns are written in place into one buffer (no repeated concatenation)
+        Vh = np.empty((b, N, M + 1))
+        Vl = None if plain else np.empty((b, N, M + 1))
+        Vh[..., :1] = vh
+        if not plain:
+            Vl[..., :1] = vl
+        have = 1
+        while have < M + 1:
+            need = min(have, M + 1 - have)
+            if plain:  # plain double: no low parts to carry
+                Vh[..., have : have + need] = Ph @ Vh[..., :need]
+            else:
+                Wh, Wl = _mv(Ph, Pl, Vh[..., :need], Vl[..., :need], is_dd)
+                Vh[..., have : have + need] = Wh
+                Vl[..., have : have + need] = Wl
             kb = np.concatenate([kb, kb[:, :need] + (peps + gam)[:, None]], axis=1)
-            if Vh.shape[-1] < M + 1:
-                Ph, Pl = _mv(Ph, Pl, Ph, Pl, is_dd)
+            have += need
+            if have < M + 1:
+                if plain:
+                    Ph = Ph @ Ph
+                else:
+                    Ph, Pl = _mv(Ph, Pl, Ph, Pl, is_dd)
                 peps = 2 * peps + peps * peps + gam * (1 + peps) ** 2
-        X[:, start:] = np.swapaxes(Vh + Vl, -1, -2)[:, skip:]
+        V = Vh if plain else Vh + Vl
+        X[:, start:] = np.swapaxes(V, -1, -2)[:, skip:]
         bound[:, start:] = cur_bound[:, None] + kb[:, skip:]
     else:
         cache: dict[float, tuple] = {}
