@@ -13,7 +13,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .errors import UsageError
-from .propagate import propagate
+from .propagate import propagate_certified
 from .units import convert, parse_unit
 
 if TYPE_CHECKING:
@@ -68,6 +68,9 @@ class Solution:
         [concentration_unit], shape ``(m, n)``; every entry >= 0.
     concentration_unit : str
     scheme : Scheme
+    error_bound : numpy.ndarray or None
+        Shape ``(m,)``: the relative error the engine certifies for every entry
+        above 1e-290 at each time (see :func:`kinetics.propagate.propagate_certified`).
     """
 
     times: np.ndarray
@@ -75,6 +78,7 @@ class Solution:
     concentrations: np.ndarray
     concentration_unit: str
     scheme: Scheme
+    error_bound: np.ndarray | None = None
 
     def __getitem__(self, name: str) -> np.ndarray:
         """The curve of one species [concentration_unit]."""
@@ -211,5 +215,12 @@ def solve(scheme: Scheme, times) -> Solution:
     t = check_times(times)
     K = scheme.rate_matrix_sparse()
     feed = scheme.feed_vector if scheme.feed else None
-    c = propagate(K, scheme.initial_vector, t, feed)
-    return Solution(t, scheme.species_names, c, scheme.concentration_unit, scheme)
+    result = propagate_certified(K, scheme.initial_vector, t, feed)
+    return Solution(
+        t,
+        scheme.species_names,
+        result.concentrations,
+        scheme.concentration_unit,
+        scheme,
+        result.error_bound,
+    )
