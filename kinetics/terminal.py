@@ -210,7 +210,7 @@ def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> N
     from .overview import SUMMARY_COLUMNS, summary_header
 
     out = out or console()
-    out.print("[bold]Summary[/bold] (exact, from the closed-form solution)")
+    out.print("[bold]Summary[/bold] (on the exact solution, not read off the grid)")
     table = Table()
     table.add_column("species")
     columns = [c for c in SUMMARY_COLUMNS if c[0] in TERMINAL_SUMMARY]
