@@ -416,6 +416,19 @@ def _split_debug(args: list[str]) -> tuple[list[str], bool]:
     return (["--debug", *head, *tail] if debug else head + tail), debug
 
 
+@cli.command()
+def safety():
+    """Print SAFETY.md: the limits of the model and what a process-safety review must address.
+
+    \b
+    Example:
+      kinetics safety | less
+    """
+    from importlib.resources import files
+
+    click.echo(files("kinetics").joinpath("SAFETY.md").read_text(encoding="utf-8"), nl=False)
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the command line with ``argv`` (default: ``sys.argv[1:]``); return the exit status.
 

@@ -40,7 +40,8 @@ __all__ = [
 #: The two-line caution printed by ``solve`` and ``report`` (short form of SAFETY.md).
 CAUTION = (
     "Caution: a first-order, isothermal, ideally mixed model; not a hazard or safety assessment.\n"
-    "Runaway, heat release, gas evolution and scale-up need a process-safety review: see SAFETY.md."
+    "Runaway, heat release, gas evolution and scale-up need a process-safety review: "
+    "see SAFETY.md (kinetics safety)."
 )
 
 #: Plain-words definitions of the summary quantities (README and the report use these).

@@ -373,3 +373,13 @@ def test_check_tables_keep_the_units_in_their_headers(chain, capsys):
     assert status == 0, err
     for header in ("molar mass [g/mol]", "start [mol/L]", "k [1/s]"):
         assert header in out  # brackets are not swallowed as rich markup
+
+
+def test_safety_command_prints_the_whole_safety_file(capsys):
+    # the packaged copy is the repository's SAFETY.md, byte for byte (common practice, no source)
+    root = Path(__file__).resolve().parents[1]
+    text = (root / "SAFETY.md").read_text(encoding="utf-8")
+    assert (root / "kinetics" / "SAFETY.md").read_text(encoding="utf-8") == text
+    assert main(["safety"]) == 0
+    assert capsys.readouterr().out == text
+    assert CAUTION in text
