@@ -8,6 +8,7 @@ clear message on stderr and no traceback (``--debug`` shows one).
 from __future__ import annotations
 
 import json
+import math
 import re
 import sys
 from pathlib import Path
@@ -40,6 +41,10 @@ def parse_duration(text: str, option: str = "--until") -> tuple[float, str]:
             f"{option} {text!r}: {unit!r} is not a unit of time", "use s, min, h or d"
         ) from None
     value = float(match["number"])
+    if not (math.isfinite(value) and value > 0):
+        raise UsageError(
+            f"{option} {text!r} is not a positive duration", f"write e.g. {option} '90 min'"
+        )
     return value * factor, unit
 
 

@@ -181,7 +181,7 @@ ERRORS = [
     (["solve", "{chain}", "--until", "1h", "--times", "0,1 h"], "either --until or --times"),
     (["solve", "{chain}", "--until", "90"], "--until '90' is not a duration with a unit"),
     (["solve", "{chain}", "--until", "90 parsecs"], "'parsecs' is not a unit of time"),
-    (["solve", "{chain}", "--until", "-5 min"], "the end time must be positive"),
+    (["solve", "{chain}", "--until", "-5 min"], "--until '-5 min' is not a positive duration"),
     (["solve", "{chain}", "--until", "1h", "--points", "1"], "'--points': 1 is not in the range"),
     (["solve", "{chain}", "--until", "1h", "--points", "many"], "'many' is not a valid integer"),
     (["solve", "{chain}", "--times", "0,5,10"], "does not end with a unit of time"),
