@@ -328,8 +328,9 @@ def build_report(
         + escape(lines[0])
         + "</strong>"
         + "<br>".join(escape(line) for line in lines[1:])
-        + "<br>SAFETY.md (in the source distribution) states the limits of the model in full; "
-        "defer to local codes, licensed practice and your organisation's safety review.</div>"
+        + "<br>SAFETY.md (printed by <code>kinetics safety</code>) states the limits of the "
+        "model in full; defer to local codes, licensed practice and your organisation's "
+        "safety review.</div>"
     )
     parts.append("<h2>Scheme as written</h2>")
     parts.append(f'<pre class="scheme">{escape(scheme.text.rstrip())}</pre>')
