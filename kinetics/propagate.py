@@ -321,16 +321,11 @@ def _taylor_double(Y, plan: _Plan):
         pw.append(pw[-1] @ Y)
     ys = pw[s]
     P = np.stack(pw[:s])  # (s, b, n, n)
-
-    def block(i):
-        acc = ih[i * s] * P[0]
-        for l_ in range(1, s):
-            acc = acc + ih[i * s + l_] * P[l_]
-        return acc
-
-    T = block(r)
+    # every block sum_l Y^l / (i s + l)! at once: (r+1, s) coefficients times (s, ...) powers
+    blocks = np.tensordot(ih[: (r + 1) * s].reshape(r + 1, s), P, axes=(1, 0))
+    T = blocks[r]
     for i in range(r - 1, -1, -1):
-        T = T @ ys + block(i)
+        T = T @ ys + blocks[i]
     return T
 
 
