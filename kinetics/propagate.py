@@ -675,7 +675,7 @@ def _propagate_dense_stack(A, x0, times, precision: str):
         # columns F^k v for k = 0..M by doubling: V <- [V, F^(2^i) V]
         Ph, Pl = Fh, Fl
         peps = eps
-        kb = np.zeros((b, 1))  # bound of each column relative to v
+        level_bounds = []  # bound of the factor F^(2^i) used at doubling level i
         gam = _gamma_stack(N, is_dd)
         plain = not np.any(is_dd) and not np.any(vl)
         # columns are written in place into one buffer (no repeated concatenation)
@@ -693,7 +693,7 @@ def _propagate_dense_stack(A, x0, times, precision: str):
                 Wh, Wl = _mv(Ph, Pl, Vh[..., :need], Vl[..., :need], is_dd)
                 Vh[..., have : have + need] = Wh
                 Vl[..., have : have + need] = Wl
-            kb = np.concatenate([kb, kb[:, :need] + (peps + gam)[:, None]], axis=1)
+            level_bounds.append(peps + gam)
             have += need
             if have < M + 1:
                 if plain:
@@ -701,6 +701,10 @@ def _propagate_dense_stack(A, x0, times, precision: str):
                 else:
                     Ph, Pl = _mv(Ph, Pl, Ph, Pl, is_dd)
                 peps = 2 * peps + peps * peps + gam * (1 + peps) ** 2
+        # column k is F^k v, built from the factors of the set bits of k: its bound is the
+        # sum of their level bounds
+        bits = (np.arange(M + 1)[:, None] >> np.arange(len(level_bounds))) & 1
+        kb = (bits @ np.array(level_bounds).reshape(-1, b)).T if level_bounds else np.zeros((b, 1))
         V = Vh if plain else Vh + Vl
         X[:, start:] = np.swapaxes(V, -1, -2)[:, skip:]
         bound[:, start:] = cur_bound[:, None] + kb[:, skip:]
