@@ -35,10 +35,10 @@ from __future__ import annotations
 
 import math
 
-import networkx as nx
 import numpy as np
 import scipy.sparse
-import scipy.sparse.csgraph
+
+from kinetics.network import condensation
 
 __all__ = ["block_order", "expm_blocks", "propagate_blocks"]
 
@@ -65,20 +65,9 @@ def block_order(K) -> tuple[np.ndarray, list[list[int]]]:
     K = scipy.sparse.coo_array(K)
     n = K.shape[0]
     off = (K.row != K.col) & (K.data != 0)
-    src, dst = K.col[off], K.row[off]  # species j feeds species i when k_ij > 0
-    graph = scipy.sparse.csr_array((np.ones(src.size), (src, dst)), shape=(n, n))
-    # strongly connected components (Pearce's variant of Tarjan's algorithm, scipy)
-    ncomp, label = scipy.sparse.csgraph.connected_components(graph, connection="strong")
-    # condensation: a DAG on the components, ordered topologically (networkx)
-    cond = nx.DiGraph()
-    cond.add_nodes_from(range(ncomp))
-    cl, cd = label[src], label[dst]
-    keep = cl != cd
-    cond.add_edges_from(set(zip(cl[keep].tolist(), cd[keep].tolist(), strict=True)))
-    members: list[list[int]] = [[] for _ in range(ncomp)]
-    for i, c in enumerate(label.tolist()):
-        members[c].append(i)
-    blocks = [members[c] for c in nx.topological_sort(cond)]
+    # species j feeds species i when k_ij > 0; components (scipy) in topological order
+    comps = condensation(K.col[off], K.row[off], n)
+    blocks = [comps.members[c].tolist() for c in comps.order]
     order = np.array([i for b in blocks for i in b], dtype=int)
     return order, blocks
 

@@ -143,9 +143,9 @@ import networkx as nx
 import numpy as np
 import scipy.linalg
 import scipy.sparse
-from scipy.sparse.csgraph import connected_components
 
 from kinetics.errors import UsageError
+from kinetics.network import condensation
 from kinetics.propagate import propagate
 
 __all__ = [
@@ -747,21 +747,14 @@ class _Structure:
         coo = Ks.tocoo()
         off = coo.row != coo.col
         rows, cols = coo.row[off], coo.col[off]
-        # edge j -> i for K[i, j] > 0
-        adj = scipy.sparse.csr_array((np.ones(rows.size), (cols, rows)), shape=(n, n))
-        ncomp, labels = connected_components(adj, directed=True, connection="strong")
+        comps = condensation(cols, rows, n)  # edge j -> i for K[i, j] > 0
+        labels, ncomp, members = comps.labels, comps.count, comps.members
         self.labels = labels
+        self.dag = comps.dag
+        self.order = comps.order
+        self.preds = comps.predecessors
         src, dst = labels[cols], labels[rows]
         cross = src != dst
-        dag = nx.DiGraph()
-        dag.add_nodes_from(range(ncomp))
-        dag.add_edges_from(set(zip(src[cross].tolist(), dst[cross].tolist(), strict=True)))
-        self.dag = dag
-        self.order = list(nx.topological_sort(dag))
-        self.preds = [list(dag.predecessors(c)) for c in range(ncomp)]
-        order_idx = np.argsort(labels, kind="stable")
-        bounds = np.searchsorted(labels[order_idx], np.arange(ncomp + 1))
-        members = [order_idx[bounds[c] : bounds[c + 1]] for c in range(ncomp)]
         outlet = np.zeros(ncomp, dtype=bool)
         outlet[src[cross]] = True
         diag = Ks.diagonal()

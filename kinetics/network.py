@@ -21,11 +21,19 @@ from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import networkx as nx
+import numpy as np
 
 if TYPE_CHECKING:
     from .scheme import Scheme
 
-__all__ = ["ROLES", "NetworkSummary", "species_graph", "summarise_network"]
+__all__ = [
+    "ROLES",
+    "Condensation",
+    "NetworkSummary",
+    "condensation",
+    "species_graph",
+    "summarise_network",
+]
 
 #: The role names used in reports and JSON.
 ROLES = ("starting material", "intermediate", "end product", "held in excess", "inert")
@@ -153,3 +161,71 @@ def summarise_network(scheme: Scheme, *, max_cycles: int = 50) -> NetworkSummary
     weak = [sorted(c, key=order.get) for c in nx.weakly_connected_components(matrix_graph)]
     weak.sort(key=lambda c: order[c[0]])
     return NetworkSummary(roles, pairs, cycles, components, weak if len(weak) > 1 else [])
+
+
+@dataclass(frozen=True)
+class Condensation:
+    """Strongly connected components of a species graph and the DAG between them.
+
+    Attributes
+    ----------
+    labels : numpy.ndarray of int
+        Component of each species.
+    members : list of numpy.ndarray
+        Species of each component, in ascending order.
+    order : list of int
+        Components in topological order (upstream first).
+    predecessors : list of list of int
+        Components that feed each component.
+    dag : networkx.DiGraph
+        The condensation: one node per component, an edge where material flows.
+    """
+
+    labels: np.ndarray
+    members: list[np.ndarray]
+    order: list[int]
+    predecessors: list[list[int]]
+    dag: nx.DiGraph
+
+    @property
+    def count(self) -> int:
+        """Number of components."""
+        return len(self.members)
+
+
+def condensation(sources, targets, n: int) -> Condensation:
+    """Components of the graph with edges ``sources[e] -> targets[e]`` on ``n`` species.
+
+    For a rate matrix the edge ``j -> i`` stands for ``K[i, j] > 0`` (j forms i).  The
+    components come from scipy's strongly-connected-components routine, their
+    topological order from networkx.
+
+    Parameters
+    ----------
+    sources, targets : array_like of int
+        Edge ends; repeated edges are allowed.
+    n : int
+        Number of species.
+    """
+    import scipy.sparse
+    from scipy.sparse.csgraph import connected_components
+
+    sources = np.asarray(sources, dtype=np.int64)
+    targets = np.asarray(targets, dtype=np.int64)
+    adj = scipy.sparse.csr_array((np.ones(sources.size), (sources, targets)), shape=(n, n))
+    count, labels = connected_components(adj, directed=True, connection="strong")
+    src, dst = labels[sources], labels[targets]
+    cross = src != dst
+    dag = nx.DiGraph()
+    dag.add_nodes_from(range(count))
+    dag.add_edges_from(set(zip(src[cross].tolist(), dst[cross].tolist(), strict=True)))
+    by_label = np.argsort(labels, kind="stable")
+    bounds = np.searchsorted(labels[by_label], np.arange(count + 1))
+    members = [by_label[bounds[c] : bounds[c + 1]] for c in range(count)]
+    return Condensation(
+        labels=labels,
+        members=members,
+        order=list(nx.topological_sort(dag)),
+        predecessors=[list(dag.predecessors(c)) for c in range(count)],
+        dag=dag,
+    )

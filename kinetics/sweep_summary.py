@@ -113,25 +113,17 @@ class _Pattern:
     """Strongly connected components of one nonzero pattern, in topological order."""
 
     def __init__(self, offdiag: np.ndarray) -> None:
-        import networkx as nx
-        import scipy.sparse
-        from scipy.sparse.csgraph import connected_components
+        from .network import condensation
 
         n = offdiag.shape[0]
         rows, cols = np.nonzero(offdiag)
-        adj = scipy.sparse.csr_array((np.ones(rows.size), (cols, rows)), shape=(n, n))
-        ncomp, labels = connected_components(adj, directed=True, connection="strong")
-        src, dst = labels[cols], labels[rows]
-        cross = src != dst
-        dag = nx.DiGraph()
-        dag.add_nodes_from(range(ncomp))
-        dag.add_edges_from(set(zip(src[cross].tolist(), dst[cross].tolist(), strict=True)))
+        comps = condensation(cols, rows, n)  # edge j -> i for K[i, j] > 0
         self.n = n
-        self.labels = labels
-        self.ncomp = ncomp
-        self.order = list(nx.topological_sort(dag))
-        self.preds = [list(dag.predecessors(c)) for c in range(ncomp)]
-        self.members = [np.flatnonzero(labels == c) for c in range(ncomp)]
+        self.labels = comps.labels
+        self.ncomp = comps.count
+        self.order = comps.order
+        self.preds = comps.predecessors
+        self.members = comps.members
 
 
 def _gth_batch(B: np.ndarray) -> np.ndarray:
