@@ -310,106 +310,45 @@ def _shift_and_norm(A, t):
     return sigma, beta
 
 
-def _taylor_double(Y, plan: _Plan):
-    """Paterson-Stockmeyer Taylor polynomial of nonnegative ``Y`` (double)."""
-    s, r = plan.ps, plan.pr
-    n = Y.shape[-1]
-    ih, _ = dd.inverse_factorials(plan.degree)
-    eye = np.broadcast_to(np.eye(n), Y.shape)
-    pw = [eye, Y]
-    for _ in range(2, s + 1):
-        pw.append(pw[-1] @ Y)
-    ys = pw[s]
-    P = np.stack(pw[:s])  # (s, b, n, n)
-    # every block sum_l Y^l / (i s + l)! at once: (r+1, s) coefficients times (s, ...) powers
-    blocks = np.tensordot(ih[: (r + 1) * s].reshape(r + 1, s), P, axes=(1, 0))
-    T = blocks[r]
-    for i in range(r - 1, -1, -1):
-        T = T @ ys + blocks[i]
-    return T
-
-
-def _taylor_dd(Yh, Yl, plan: _Plan):
-    """Paterson-Stockmeyer Taylor polynomial of nonnegative ``Y`` (double-double)."""
-    s, r = plan.ps, plan.pr
-    n = Yh.shape[-1]
-    ih, il = dd.inverse_factorials(plan.degree)
-    eye = np.broadcast_to(np.eye(n), Yh.shape)
-    zero = np.zeros(Yh.shape)
-    ph = [eye, Yh]
-    pl = [zero, Yl]
-    for _ in range(2, s + 1):
-        h, lo = dd.dd_matmul(ph[-1], pl[-1], Yh, Yl)
-        ph.append(h)
-        pl.append(lo)
-    ysh, ysl = ph[s], pl[s]
-    Ph = np.stack(ph[:s])  # (s, b, n, n)
-    Pl = np.stack(pl[:s])
-    ch = ih.reshape(r + 1, s, 1, 1, 1)
-    cl = il.reshape(r + 1, s, 1, 1, 1)
-    # all coefficient-times-power products at once: (r+1, s, b, n, n)
-    qh, ql = dd.dd_mul(Ph[None], Pl[None], ch, cl)
-    bh, bl = qh[:, 0], ql[:, 0]
-    for l_ in range(1, s):
-        bh, bl = dd.dd_add(bh, bl, qh[:, l_], ql[:, l_])
-    Th, Tl = bh[r], bl[r]
-    for i in range(r - 1, -1, -1):
-        Th, Tl = dd.dd_matmul(Th, Tl, ysh, ysl)
-        Th, Tl = dd.dd_add(Th, Tl, bh[i], bl[i])
-    return Th, Tl
-
-
-def _truncation_estimate(Y, F, plan: _Plan):
-    r"""A posteriori componentwise estimate of the Taylor truncation error.
-
-    With :math:`G = Y^{m+1}/(m+1)!` the remainder satisfies
-    :math:`0 \le e^{Y} - T_m(Y) \le G e^{Y}` entrywise, hence, to first order in
-    :math:`G`, :math:`e^{2^j Y} - T_m(Y)^{2^j} \lesssim 2^j G\, T_m(Y)^{2^j}`
-    (componentwise, in the spirit of Shao, Gao & Xue 2014, sec. 4).  Returns
-    the largest ratio of that estimate to the computed entry, per member.
-    """
-    m = plan.degree
-    G = np.linalg.matrix_power(Y, m + 1) if Y.shape[0] else Y
-    G = G * math.exp(-math.lgamma(m + 2))
-    GF = G @ F
-    with np.errstate(divide="ignore", invalid="ignore"):
-        ratio = np.where(F > TINY, GF / F, np.where(GF > TINY, np.inf, 0.0))
-    return 2.0 * 2.0**plan.j * ratio.reshape(ratio.shape[0], -1).max(axis=1)
-
-
 def _expm_group(A, t, sigma, plan: _Plan):
-    """Exponentials ``exp(t_i A_i)`` for members sharing one plan.
+    r"""Exponentials ``exp(t_i A_i)`` for members sharing one plan.
 
-    Returns ``(Fh, Fl, trunc)`` (``Fl`` is zero on the double route).
+    Returns ``(Fh, Fl, trunc)`` (``Fl`` is zero on the double route).  The Taylor
+    sum, the factor :math:`e^{-\sigma t/2^j}` and the squarings run in the compiled
+    kernels of :mod:`kinetics._kernels`.
+
+    ``trunc`` is the a posteriori componentwise estimate of the Taylor truncation
+    error: with :math:`G = Y^{m+1}/(m+1)!` the remainder satisfies
+    :math:`0 \le e^{Y} - T_m(Y) \le G e^{Y}` entrywise, hence, to first order,
+    :math:`e^{2^j Y} - T_m(Y)^{2^j} \lesssim 2^j G\, T_m(Y)^{2^j}` (in the spirit of
+    Shao, Gao & Xue 2014, sec. 4); the largest ratio of that estimate to the
+    computed entry, per member.
     """
-    n = A.shape[-1]
+    from kinetics import _kernels
+
+    b = A.shape[0]
+    use_dd = plan.route == "double-double"
     scale = 2.0**-plan.j
-    eye = np.eye(n)
-    if plan.route == "double":
-        Y = (A + sigma[:, None, None] * eye) * (t * scale)[:, None, None]
-        T = _taylor_double(Y, plan)
-        T = T * np.exp(-sigma * t * scale)[:, None, None]
-        for _ in range(plan.j):
-            T = T @ T
-        trunc = _truncation_estimate(Y, T, plan)
-        return T, np.zeros_like(T), trunc
-    # double-double: B = A + sigma I exactly (TwoSum on the diagonal)
-    Bh = A.copy()
-    Bl = np.zeros_like(A)
-    idx = np.arange(n)
-    dh, dl = dd.two_sum(A[:, idx, idx], sigma[:, None])
-    Bh[:, idx, idx] = dh
-    Bl[:, idx, idx] = dl
-    tt = (t * scale)[:, None, None]  # exact: power-of-two scaling
-    Yh, Yl = dd.dd_scale(Bh, Bl, tt)
-    Th, Tl = _taylor_dd(Yh, Yl, plan)
-    xh, xl = dd.two_prod(sigma, t)
-    eh, el = dd.dd_exp_scalars(-xh * scale, -xl * scale)
-    Th, Tl = dd.dd_mul(Th, Tl, eh[:, None, None], el[:, None, None])
-    for _ in range(plan.j):
-        Th, Tl = dd.dd_matmul(Th, Tl, Th, Tl)
-    trunc = _truncation_estimate(Yh, Th, plan)
-    return Th, Tl, trunc
+    if use_dd:
+        ih, il = dd.inverse_factorials(plan.degree)
+        xh, xl = dd.two_prod(sigma, t)
+        eh, el = dd.dd_exp_scalars(-xh * scale, -xl * scale)
+    else:
+        ih, _ = dd.inverse_factorials(plan.degree)
+        il = np.zeros_like(ih)
+        eh = np.exp(-sigma * t * scale)
+        el = np.zeros(b)
+    A = np.ascontiguousarray(A, dtype=float)
+    Fh = np.empty_like(A)
+    Fl = np.empty_like(A)
+    Y = np.empty_like(A)
+    _kernels.exponentials(
+        A, np.ascontiguousarray(t, dtype=float), np.ascontiguousarray(sigma, dtype=float),
+        eh, el, plan.j, plan.ps, plan.pr, ih, il, use_dd, Fh, Fl, Y,
+    )  # fmt: skip
+    m = plan.degree
+    ratio = _kernels.truncation_ratios(Y, Fh, m + 1, math.exp(-math.lgamma(m + 2)), TINY)
+    return Fh, Fl, 2.0 * 2.0**plan.j * ratio
 
 
 def _expm_stack(A, t, precision: str, target: float | None = None):
@@ -613,13 +552,12 @@ def _uniform_step(t: np.ndarray) -> float | None:
 
 
 def _mv(Fh, Fl, vh, vl, is_dd):
-    """Stacked nonnegative products, double-double for members with ``is_dd``."""
-    if np.all(is_dd):
-        return dd.dd_matmul(Fh, Fl, vh, vl)
-    oh = Fh @ vh
-    ol = np.zeros_like(oh)
-    if np.any(is_dd):
-        oh[is_dd], ol[is_dd] = dd.dd_matmul(Fh[is_dd], Fl[is_dd], vh[is_dd], vl[is_dd])
+    """Stacked nonnegative products ``F v``, double-double for members with ``is_dd``."""
+    from kinetics import _kernels
+
+    oh = np.empty(vh.shape)
+    ol = np.empty(vh.shape)
+    _kernels.apply(Fh, Fl, vh, vl, np.asarray(is_dd, dtype=bool), oh, ol)
     return oh, ol
 
 
@@ -672,41 +610,25 @@ def _propagate_dense_stack(A, x0, times, precision: str):
             cur_bound = cur_bound + eps + _gamma_stack(N, is_dd)
         Fh, Fl, eps, is_dd = exp_of(dt)
         M = p - start - 1 + skip
-        # columns F^k v for k = 0..M by doubling: V <- [V, F^(2^i) V]
-        Ph, Pl = Fh, Fl
-        peps = eps
-        level_bounds = []  # bound of the factor F^(2^i) used at doubling level i
+        # columns F^k v for k = 0..M by doubling: V <- [V, F^(2^i) V] (compiled)
+        from kinetics import _kernels
+
+        _kernels.grid_powers(
+            Fh, Fl, vh[..., 0].copy(), vl[..., 0].copy(), M + 1, skip, np.asarray(is_dd), X, start
+        )
+        # the bound of the factor F^(2^i) used at doubling level i
         gam = _gamma_stack(N, is_dd)
-        plain = not np.any(is_dd) and not np.any(vl)
-        # columns are written in place into one buffer (no repeated concatenation)
-        Vh = np.empty((b, N, M + 1))
-        Vl = None if plain else np.empty((b, N, M + 1))
-        Vh[..., :1] = vh
-        if not plain:
-            Vl[..., :1] = vl
+        peps = eps
+        level_bounds = []
         have = 1
         while have < M + 1:
-            need = min(have, M + 1 - have)
-            if plain:  # plain double: no low parts to carry
-                Vh[..., have : have + need] = Ph @ Vh[..., :need]
-            else:
-                Wh, Wl = _mv(Ph, Pl, Vh[..., :need], Vl[..., :need], is_dd)
-                Vh[..., have : have + need] = Wh
-                Vl[..., have : have + need] = Wl
             level_bounds.append(peps + gam)
-            have += need
-            if have < M + 1:
-                if plain:
-                    Ph = Ph @ Ph
-                else:
-                    Ph, Pl = _mv(Ph, Pl, Ph, Pl, is_dd)
-                peps = 2 * peps + peps * peps + gam * (1 + peps) ** 2
+            have += min(have, M + 1 - have)
+            peps = 2 * peps + peps * peps + gam * (1 + peps) ** 2
         # column k is F^k v, built from the factors of the set bits of k: its bound is the
         # sum of their level bounds
         bits = (np.arange(M + 1)[:, None] >> np.arange(len(level_bounds))) & 1
         kb = (bits @ np.array(level_bounds).reshape(-1, b)).T if level_bounds else np.zeros((b, 1))
-        V = Vh if plain else Vh + Vl
-        X[:, start:] = np.swapaxes(V, -1, -2)[:, skip:]
         bound[:, start:] = cur_bound[:, None] + kb[:, skip:]
     else:
         cache: dict[float, tuple] = {}
@@ -723,7 +645,7 @@ def _propagate_dense_stack(A, x0, times, precision: str):
             t_prev = times[k]
     bound[:, start:] += _U
     label = "+".join(sorted(labels)) if labels else precision
-    return np.maximum(X, 0.0), bound, label
+    return np.maximum(X, 0.0, out=X), bound, label
 
 
 @_guard_growth
@@ -907,7 +829,7 @@ def propagate_batch(
         out = np.zeros((0, times.size, n))
         return (out, np.zeros((0, times.size))) if return_bound else out
     X, bound, _ = _propagate_dense_stack(A, x0, times, precision)
-    conc = X[:, :, :n].copy()
+    conc = X if f is None else X[:, :, :n].copy()
     conc[:, times == 0.0] = c0[:, None, :]
     return (conc, bound) if return_bound else conc
 

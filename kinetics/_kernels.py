@@ -1,0 +1,316 @@
+r"""Compiled kernels of the dense entrywise engine (private; numba).
+
+The dense engine of :mod:`kinetics.propagate` spends its time in a few dozen
+products of small nonnegative matrices per exponential and per time grid.  As
+array expressions (a temporary tensor per product) their cost is dominated by
+interpreter overhead; here each product is one compiled loop nest, and a whole
+exponential or a whole time grid of a stack of parameter sets is one call.
+
+Every kernel takes a flag ``dd`` per call or per member:
+
+* ``dd`` true: double-double arithmetic (value ``hi + lo``, about 106 bits).
+  Each term :math:`a_{il} b_{lj}` of a product is split exactly by Dekker's
+  TwoProduct (Veltkamp splitting, no fused multiply-add needed) and summed with
+  Knuth's TwoSum, the low parts in plain double, as in Ogita, Rump & Oishi's
+  ``Dot2``.  For nonnegative operands nothing cancels, so every entry of the
+  product carries a relative error of about :math:`k^2 2^{-106}` for inner
+  dimension ``k`` (Ogita, Rump & Oishi 2005, Prop. 5.5 with nonnegative data).
+* ``dd`` false: plain double, relative error at most
+  :math:`\gamma_k = k u/(1 - k u)` per entry (nonnegative data).
+
+Numba compiles with strict IEEE semantics (no ``fastmath``, no contraction of
+``a * b + c`` into a fused multiply-add), which the error-free transformations
+rely on; ``tests/test_kernels.py`` checks TwoProduct and the products against exact rational
+arithmetic.  Zero entries of the left factor are skipped, which makes products
+of the sparse, often triangular matrices of reaction schemes cheaper.
+
+The compiled code is cached on disk next to this module (numba ``cache=True``),
+so only the very first call after installation pays the compilation (a few
+seconds).
+
+References
+----------
+T. J. Dekker, "A floating-point technique for extending the available
+precision", Numer. Math. 18, 224-242 (1971). doi:10.1007/BF01397083
+T. Ogita, S. M. Rump, S. Oishi, "Accurate sum and dot product", SIAM J. Sci.
+Comput. 26, 1955-1988 (2005). doi:10.1137/030601818
+M. S. Paterson, L. J. Stockmeyer, "On the number of nonscalar multiplications
+necessary to evaluate polynomials", SIAM J. Comput. 2, 60-66 (1973).
+doi:10.1137/0202007
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numba import njit
+
+_SPLITTER = 134217729.0  # 2**27 + 1, Veltkamp splitting constant (Dekker 1971, sec. 5)
+
+_JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
+
+
+@njit(**_JIT)
+def two_prod(a, b):
+    """Error-free product ``p + e == a * b`` (Dekker's TwoProduct)."""
+    p = a * b
+    c = _SPLITTER * a
+    a1 = c - (c - a)
+    a2 = a - a1
+    c = _SPLITTER * b
+    b1 = c - (c - b)
+    b2 = b - b1
+    e = ((a1 * b1 - p) + a1 * b2 + a2 * b1) + a2 * b2
+    return p, e
+
+
+@njit(**_JIT)
+def two_sum(a, b):
+    """Error-free sum ``s + e == a + b`` (Knuth's TwoSum)."""
+    s = a + b
+    z = s - a
+    e = (a - (s - z)) + (b - z)
+    return s, e
+
+
+@njit(**_JIT)
+def product(Ah, Al, Bh, Bl, Ch, Cl, dd):
+    """``C = A B`` for nonnegative ``A`` (n, k) and ``B`` (k, m); ``C`` must not alias them."""
+    n, k = Ah.shape
+    m = Bh.shape[1]
+    if not dd:
+        for i in range(n):
+            for j in range(m):
+                Ch[i, j] = 0.0
+                Cl[i, j] = 0.0
+            for r in range(k):
+                a = Ah[i, r]
+                if a == 0.0:
+                    continue
+                for j in range(m):
+                    Ch[i, j] += a * Bh[r, j]
+        return
+    # Veltkamp halves of the right factor, once per product
+    B1 = np.empty((k, m))
+    B2 = np.empty((k, m))
+    for r in range(k):
+        for j in range(m):
+            b = Bh[r, j]
+            c = _SPLITTER * b
+            hi = c - (c - b)
+            B1[r, j] = hi
+            B2[r, j] = b - hi
+    sh = np.empty(m)
+    se = np.empty(m)
+    for i in range(n):
+        for j in range(m):
+            sh[j] = 0.0
+            se[j] = 0.0
+        for r in range(k):
+            a = Ah[i, r]
+            al = Al[i, r]
+            if a == 0.0 and al == 0.0:
+                continue
+            c = _SPLITTER * a
+            a1 = c - (c - a)
+            a2 = a - a1
+            for j in range(m):
+                b = Bh[r, j]
+                p = a * b
+                # TwoProduct error of a*b, then the cross terms of the dd product
+                e = ((a1 * B1[r, j] - p) + a1 * B2[r, j] + a2 * B1[r, j]) + a2 * B2[r, j]
+                e += a * Bl[r, j] + al * b
+                # TwoSum of the running sum and p; errors gathered in plain double
+                s0 = sh[j]
+                s = s0 + p
+                z = s - s0
+                sh[j] = s
+                se[j] += ((s0 - (s - z)) + (p - z)) + e
+        for j in range(m):
+            s0 = sh[j]
+            hi = s0 + se[j]
+            Cl[i, j] = se[j] - (hi - s0)
+            Ch[i, j] = hi
+
+
+@njit(**_JIT)
+def _scale_add(Th, Tl, Ph, Pl, ch, cl, dd):
+    """``T += c P`` elementwise (nonnegative ``c``, ``P``)."""
+    n, m = Th.shape
+    for i in range(n):
+        for j in range(m):
+            if not dd:
+                Th[i, j] += ch * Ph[i, j]
+                continue
+            p, e = two_prod(ch, Ph[i, j])
+            e += ch * Pl[i, j] + cl * Ph[i, j]
+            s, f = two_sum(Th[i, j], p)
+            f += Tl[i, j] + e
+            hi = s + f
+            Tl[i, j] = f - (hi - s)
+            Th[i, j] = hi
+
+
+@njit(**_JIT)
+def _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh, Fl):
+    """``(e_h + e_l) T_m(Y)^(2^j)`` with Paterson-Stockmeyer (degree ``s (r + 1) - 1``)."""
+    n = Yh.shape[0]
+    Ph = np.zeros((s + 1, n, n))
+    Pl = np.zeros((s + 1, n, n))
+    for i in range(n):
+        Ph[0, i, i] = 1.0
+    Ph[1] = Yh
+    Pl[1] = Yl
+    for q in range(2, s + 1):
+        product(Ph[q - 1], Pl[q - 1], Yh, Yl, Ph[q], Pl[q], dd)
+    # Horner in Y^s over the blocks sum_l c_(i s + l) Y^l
+    Th = np.zeros((n, n))
+    Tl = np.zeros((n, n))
+    Wh = np.empty((n, n))
+    Wl = np.empty((n, n))
+    for blk in range(r, -1, -1):
+        if blk < r:
+            product(Th, Tl, Ph[s], Pl[s], Wh, Wl, dd)
+            Th[:] = Wh
+            Tl[:] = Wl
+        for q in range(s):
+            _scale_add(Th, Tl, Ph[q], Pl[q], ih[blk * s + q], il[blk * s + q], dd)
+    # factor exp(-sigma t / 2^j), then the squarings
+    for a in range(n):
+        for b in range(n):
+            if dd:
+                p, e = two_prod(eh, Th[a, b])
+                e += eh * Tl[a, b] + el * Th[a, b]
+                hi = p + e
+                Tl[a, b] = e - (hi - p)
+                Th[a, b] = hi
+            else:
+                Th[a, b] *= eh
+    for _ in range(j):
+        product(Th, Tl, Th, Tl, Wh, Wl, dd)
+        Th[:] = Wh
+        Tl[:] = Wl
+    Fh[:] = Th
+    Fl[:] = Tl
+
+
+@njit(**_JIT)
+def exponentials(A, t, sigma, eh, el, j, s, r, ih, il, dd, Fh, Fl, Y):
+    """Exponentials ``exp(t_q A_q)`` of a stack sharing one plan, shift and scale inside.
+
+    ``A`` (b, n, n) essentially nonnegative; ``sigma`` the shifts; ``eh + el`` the
+    factors ``exp(-sigma t / 2^j)``; ``ih + il`` the inverse factorials.  Writes
+    ``Fh``, ``Fl`` and the scaled shifted matrices ``Y = t B / 2^j`` (double).
+    """
+    b, n, _ = A.shape
+    scale = 2.0**-j
+    Yh = np.empty((n, n))
+    Yl = np.empty((n, n))
+    for q in range(b):
+        tt = t[q] * scale  # exact: power-of-two scaling
+        for a in range(n):
+            for c in range(n):
+                x = A[q, a, c]
+                if dd:
+                    lo = 0.0
+                    if a == c:  # B = A + sigma I exactly (TwoSum on the diagonal)
+                        x, lo = two_sum(x, sigma[q])
+                    p, e = two_prod(x, tt)
+                    e += lo * tt
+                    hi = p + e
+                    Yh[a, c] = hi
+                    Yl[a, c] = e - (hi - p)
+                else:
+                    if a == c:
+                        x = x + sigma[q]
+                    Yh[a, c] = x * tt
+                    Yl[a, c] = 0.0
+        Y[q] = Yh
+        _exponential(Yh, Yl, ih, il, s, r, eh[q], el[q], j, dd, Fh[q], Fl[q])
+
+
+@njit(**_JIT)
+def truncation_ratios(Y, F, power, coef, tiny):
+    """Largest ``(coef Y^power F)_ab / F_ab`` per member (entries ``F_ab > tiny``)."""
+    b, n, _ = Y.shape
+    out = np.zeros(b)
+    zero = np.zeros((n, n))
+    G = np.empty((n, n))
+    W = np.empty((n, n))
+    Z = np.empty((n, n))
+    for q in range(b):
+        # G = Y^power by binary powering (nonnegative, plain double)
+        G[:] = 0.0
+        for i in range(n):
+            G[i, i] = 1.0
+        W[:] = Y[q]
+        e = power
+        while e > 0:
+            if e & 1:
+                product(G, zero, W, zero, Z, zero, False)
+                G[:] = Z
+            e >>= 1
+            if e:
+                product(W, zero, W, zero, Z, zero, False)
+                W[:] = Z
+        product(G, zero, F[q], zero, Z, zero, False)
+        worst = 0.0
+        for a in range(n):
+            for c in range(n):
+                g = coef * Z[a, c]
+                f = F[q, a, c]
+                if f > tiny:
+                    ratio = g / f
+                elif g > tiny:
+                    ratio = np.inf
+                else:
+                    ratio = 0.0
+                if ratio > worst:
+                    worst = ratio
+        out[q] = worst
+    return out
+
+
+@njit(**_JIT)
+def grid_powers(Fh, Fl, x0h, x0l, columns, skip, dd, X, row0):
+    """Columns ``F^k x0`` for ``k = 0 .. columns - 1`` by doubling, per member.
+
+    ``V <- [V, F^(2^i) V]``: column ``k`` passes through one product per set bit
+    of ``k``.  Column ``k >= skip`` is rounded to double and written to
+    ``X[q, row0 + k - skip, :]`` (``X`` has shape (b, p, N)).
+    """
+    b, N, _ = Fh.shape
+    Ph = np.empty((N, N))
+    Pl = np.empty((N, N))
+    Wh = np.empty((N, N))
+    Wl = np.empty((N, N))
+    Vh = np.empty((N, columns))
+    Vl = np.empty((N, columns))
+    Oh = np.empty((N, columns))
+    Ol = np.empty((N, columns))
+    for q in range(b):
+        Ph[:] = Fh[q]
+        Pl[:] = Fl[q]
+        for i in range(N):
+            Vh[i, 0] = x0h[q, i]
+            Vl[i, 0] = x0l[q, i]
+        have = 1
+        while have < columns:
+            need = min(have, columns - have)
+            product(Ph, Pl, Vh[:, :need], Vl[:, :need], Oh[:, :need], Ol[:, :need], dd[q])
+            Vh[:, have : have + need] = Oh[:, :need]
+            Vl[:, have : have + need] = Ol[:, :need]
+            have += need
+            if have < columns:
+                product(Ph, Pl, Ph, Pl, Wh, Wl, dd[q])
+                Ph[:] = Wh
+                Pl[:] = Wl
+        for k in range(skip, columns):
+            for i in range(N):
+                X[q, row0 + k - skip, i] = max(Vh[i, k] + Vl[i, k], 0.0)
+
+
+@njit(**_JIT)
+def apply(Fh, Fl, vh, vl, dd, oh, ol):
+    """``o = F v`` per member: (b, N, N) times (b, N, c)."""
+    for q in range(Fh.shape[0]):
+        product(Fh[q], Fl[q], vh[q], vl[q], oh[q], ol[q], dd[q])

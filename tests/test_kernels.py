@@ -1,0 +1,96 @@
+"""The compiled kernels of the dense engine against exact rational arithmetic."""
+
+from __future__ import annotations
+
+from fractions import Fraction
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from kinetics import _kernels
+
+# nonnegative doubles over a wide range of magnitudes, as in exponentials of stiff schemes
+# (products stay clear of overflow and of the subnormal range, where no split is exact)
+magnitudes = st.one_of(
+    st.just(0.0),
+    st.floats(min_value=1e-140, max_value=1e140, allow_nan=False, allow_infinity=False),
+)
+
+
+@settings(max_examples=300, deadline=None)
+@given(magnitudes, magnitudes)
+def test_two_prod_is_error_free(a, b):
+    # Dekker 1971, sec. 5: p + e equals a * b exactly (checked in exact rationals)
+    p, e = _kernels.two_prod(a, b)
+    assert Fraction(p) + Fraction(e) == Fraction(a) * Fraction(b)
+    assert p == a * b
+
+
+@settings(max_examples=300, deadline=None)
+@given(
+    st.floats(min_value=-1e200, max_value=1e200, allow_nan=False),
+    st.floats(min_value=-1e200, max_value=1e200, allow_nan=False),
+)
+def test_two_sum_is_error_free(a, b):
+    # Knuth's TwoSum: s + e equals a + b exactly (checked in exact rationals)
+    s, e = _kernels.two_sum(a, b)
+    assert Fraction(s) + Fraction(e) == Fraction(a) + Fraction(b)
+
+
+def _exact_product(Ah, Al, Bh, Bl):
+    n, k = Ah.shape
+    m = Bh.shape[1]
+    a = [[Fraction(Ah[i, r]) + Fraction(Al[i, r]) for r in range(k)] for i in range(n)]
+    b = [[Fraction(Bh[r, j]) + Fraction(Bl[r, j]) for j in range(m)] for r in range(k)]
+    return [[sum(a[i][r] * b[r][j] for r in range(k)) for j in range(m)] for i in range(n)]
+
+
+def _random_dd(rng, shape, zeros=0.3):
+    """Nonnegative double-doubles spanning 1e-150..1, some exact zeros."""
+    hi = 10.0 ** rng.uniform(-150, 0, shape)
+    hi[rng.random(shape) < zeros] = 0.0
+    lo = hi * rng.uniform(-1, 1, shape) * 2.0**-54
+    return hi, lo
+
+
+@pytest.mark.parametrize(("n", "k", "m"), [(1, 1, 1), (3, 5, 2), (10, 10, 10), (7, 12, 33)])
+def test_double_double_product_is_accurate_entry_by_entry(n, k, m):
+    # Ogita, Rump & Oishi 2005, Prop. 5.5 for nonnegative data: each entry of the product
+    # is accurate to about k^2 2^-106 relative, however small it is
+    rng = np.random.default_rng(n * 100 + k * 10 + m)
+    Ah, Al = _random_dd(rng, (n, k))
+    Bh, Bl = _random_dd(rng, (k, m))
+    Ch = np.empty((n, m))
+    Cl = np.empty((n, m))
+    _kernels.product(Ah, Al, Bh, Bl, Ch, Cl, True)
+    exact = _exact_product(Ah, Al, Bh, Bl)
+    for i in range(n):
+        for j in range(m):
+            got = Fraction(Ch[i, j]) + Fraction(Cl[i, j])
+            if exact[i][j] == 0:
+                assert got == 0
+            else:
+                assert abs(got - exact[i][j]) / exact[i][j] <= Fraction(k * k + 2, 2**104)
+            # normalised: |lo| <= ulp(hi) / 2
+            assert abs(Cl[i, j]) <= np.spacing(Ch[i, j]) / 2
+
+
+def test_double_product_is_within_gamma_k():
+    # plain double, nonnegative data: relative error at most k u / (1 - k u) per entry
+    # (Higham, Accuracy and Stability of Numerical Algorithms, 2nd ed., sec. 3.5)
+    rng = np.random.default_rng(3)
+    Ah, _ = _random_dd(rng, (6, 9))
+    Bh, _ = _random_dd(rng, (9, 4))
+    zero_a, zero_b = np.zeros_like(Ah), np.zeros_like(Bh)
+    Ch = np.empty((6, 4))
+    Cl = np.empty((6, 4))
+    _kernels.product(Ah, zero_a, Bh, zero_b, Ch, Cl, False)
+    exact = _exact_product(Ah, zero_a, Bh, zero_b)
+    u = Fraction(1, 2**53)
+    for i in range(6):
+        for j in range(4):
+            if exact[i][j]:
+                assert abs(Fraction(Ch[i, j]) - exact[i][j]) / exact[i][j] <= 9 * u / (1 - 9 * u)
+            assert Cl[i, j] == 0.0
