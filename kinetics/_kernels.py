@@ -72,6 +72,106 @@ def two_sum(a, b):
     return s, e
 
 
+# ln 2 as an unevaluated sum of three doubles (each the double nearest the remainder)
+_LN2 = (0.6931471805599453, 2.3190468138462996e-17, 5.707708438416212e-34)
+
+
+@njit(**_JIT)
+def _dd_add(ah, al, bh, bl):
+    """Double-double sum, either sign (the accurate variant of Bailey's QD library)."""
+    s, e = two_sum(ah, bh)
+    t, f = two_sum(al, bl)
+    e += t
+    hi = s + e
+    e = e - (hi - s)
+    e += f
+    out = hi + e
+    return out, e - (out - hi)
+
+
+@njit(**_JIT)
+def dd_exp(xh, xl):
+    r"""``exp(xh + xl)`` as a double-double, for ``|xh| <= 700``.
+
+    Argument reduction :math:`x = k \ln 2 + r`, :math:`|r| \le \ln 2 / 2`, with
+    :math:`\ln 2` in three parts (the products :math:`k \ln 2` are formed with
+    TwoProduct, so :math:`r` is accurate to about :math:`2^{-106}` absolute);
+    then the Taylor series of :math:`e^r` to degree 27 (remainder below
+    :math:`10^{-40}`) by Horner's rule in double-double, where each step adds a
+    term smaller than the previous sum, so the rounding errors stay near
+    :math:`2^{-105}` relative; finally the exact scaling by :math:`2^k`.
+    """
+    if xh == 0.0 and xl == 0.0:
+        return 1.0, 0.0
+    k = np.floor(xh / _LN2[0] + 0.5)
+    p, e = two_prod(k, _LN2[0])
+    rh, rl = _dd_add(xh, xl, -p, -e)
+    p, e = two_prod(k, _LN2[1])
+    rh, rl = _dd_add(rh, rl, -p, -e - k * _LN2[2])
+    sh = 1.0
+    sl = 0.0
+    for i in range(27, 0, -1):
+        # s <- 1 + r s / i
+        ph, pe = two_prod(rh, sh)
+        pe += rh * sl + rl * sh
+        mh = ph + pe
+        ml = pe - (mh - ph)
+        q1 = mh / i
+        qp, qe = two_prod(q1, float(i))
+        q2 = (((mh - qp) - qe) + ml) / i
+        sh, sl = _dd_add(1.0, 0.0, q1, q2)
+    scale = 2.0 ** int(k)
+    return sh * scale, sl * scale
+
+
+@njit(**_JIT)
+def shift_and_norm(A, t, sigma, beta):
+    """Shift ``sigma = max(-a_ii)`` and ``beta = max(||t B||_1, |sigma| t)``, per member."""
+    b, n, _ = A.shape
+    for q in range(b):
+        sg = -A[q, 0, 0] if n else 0.0
+        for i in range(1, n):
+            if -A[q, i, i] > sg:
+                sg = -A[q, i, i]
+        norm = 0.0
+        for c in range(n):
+            col = 0.0
+            for a in range(n):
+                x = A[q, a, c]
+                if a == c:
+                    x += sg
+                col += abs(x)
+            if col > norm:
+                norm = col
+        sigma[q] = sg
+        beta[q] = max(norm, abs(sg)) * t[q]
+
+
+@njit(**_JIT)
+def uniform_step(t, tol):
+    """Step ``dt`` if ``t`` is ``t[0] + k dt`` within ``tol`` for every ``k``, else -1."""
+    p = t.shape[0]
+    dt = (t[p - 1] - t[0]) / (p - 1)
+    if not dt > 0.0:
+        return -1.0
+    for k in range(p):
+        if abs(t[k] - (t[0] + k * dt)) > tol:
+            return -1.0
+    return dt
+
+
+@njit(**_JIT)
+def negative_offdiagonal(K):
+    """True if any off-diagonal entry of the stack ``K`` (b, n, n) is negative."""
+    b, n, _ = K.shape
+    for q in range(b):
+        for i in range(n):
+            for j in range(n):
+                if i != j and K[q, i, j] < 0.0:
+                    return True
+    return False
+
+
 @njit(**_JIT)
 def product(Ah, Al, Bh, Bl, Ch, Cl, dd):
     """``C = A B`` for nonnegative ``A`` (n, k) and ``B`` (k, m); ``C`` must not alias them."""
@@ -194,12 +294,12 @@ def _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh, Fl):
 
 
 @njit(**_JIT)
-def exponentials(A, t, sigma, eh, el, j, s, r, ih, il, dd, Fh, Fl, Y):
+def exponentials(A, t, sigma, j, s, r, ih, il, dd, Fh, Fl, Y):
     """Exponentials ``exp(t_q A_q)`` of a stack sharing one plan, shift and scale inside.
 
-    ``A`` (b, n, n) essentially nonnegative; ``sigma`` the shifts; ``eh + el`` the
-    factors ``exp(-sigma t / 2^j)``; ``ih + il`` the inverse factorials.  Writes
-    ``Fh``, ``Fl`` and the scaled shifted matrices ``Y = t B / 2^j`` (double).
+    ``A`` (b, n, n) essentially nonnegative; ``sigma`` the shifts; ``ih + il`` the
+    inverse factorials.  Writes ``Fh``, ``Fl`` and the scaled shifted matrices
+    ``Y = t B / 2^j`` (double).
     """
     b, n, _ = A.shape
     scale = 2.0**-j
@@ -225,7 +325,13 @@ def exponentials(A, t, sigma, eh, el, j, s, r, ih, il, dd, Fh, Fl, Y):
                     Yh[a, c] = x * tt
                     Yl[a, c] = 0.0
         Y[q] = Yh
-        _exponential(Yh, Yl, ih, il, s, r, eh[q], el[q], j, dd, Fh[q], Fl[q])
+        # the factor exp(-sigma t / 2^j); sigma t exact by TwoProduct, the scaling exact
+        if dd:
+            xh, xl = two_prod(sigma[q], t[q])
+            eh, el = dd_exp(-xh * scale, -xl * scale)
+        else:
+            eh, el = np.exp(-sigma[q] * t[q] * scale), 0.0
+        _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh[q], Fl[q])
 
 
 @njit(**_JIT)
@@ -307,6 +413,38 @@ def grid_powers(Fh, Fl, x0h, x0l, columns, skip, dd, X, row0):
         for k in range(skip, columns):
             for i in range(N):
                 X[q, row0 + k - skip, i] = max(Vh[i, k] + Vl[i, k], 0.0)
+
+
+@njit(**_JIT)
+def grid_bounds(eps, gamma, columns, skip, start_bound, bound, row0):
+    r"""Error bounds of the columns of :func:`grid_powers`, per member.
+
+    The factor ``F^(2^i)`` of doubling level ``i`` has the bound
+    :math:`\epsilon_{i+1} = 2\epsilon_i + \epsilon_i^2 + \gamma (1 + \epsilon_i)^2`
+    (Xue & Ye 2013, Theorem 3.2) and each product with it adds :math:`\gamma`; column
+    ``k`` adds the bounds of the levels of the set bits of ``k`` to ``start_bound``.
+    """
+    levels = np.empty(64)
+    for q in range(eps.shape[0]):
+        e = eps[q]
+        g = gamma[q]
+        count = 0
+        have = 1
+        while have < columns:
+            levels[count] = e + g
+            count += 1
+            have += min(have, columns - have)
+            e = 2.0 * e + e * e + g * (1.0 + e) ** 2
+        for k in range(skip, columns):
+            acc = start_bound[q]
+            bits = k
+            level = 0
+            while bits:
+                if bits & 1:
+                    acc += levels[level]
+                bits >>= 1
+                level += 1
+            bound[q, row0 + k - skip] = acc
 
 
 @njit(**_JIT)

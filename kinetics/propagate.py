@@ -131,11 +131,11 @@ def _rate_matrix(K, allow_sparse: bool = True):
 
 
 def _check_offdiag(K):
-    if not np.all(np.isfinite(K)):
+    from kinetics import _kernels
+
+    if not np.isfinite(K).all():
         raise UsageError("rate matrix has a non-finite entry")
-    n = K.shape[-1]
-    off = ~np.eye(n, dtype=bool)
-    if np.any(K[..., off] < 0):
+    if _kernels.negative_offdiagonal(np.ascontiguousarray(K)):
         raise UsageError(
             "rate matrix has a negative off-diagonal entry",
             "off-diagonal entries are rates of formation and must be >= 0",
@@ -151,9 +151,9 @@ def _vector(v, n: int, what: str, lead: tuple = ()) -> np.ndarray:
         v = np.broadcast_to(v, (*lead, n)).copy()
     if v.shape != (*lead, n):
         raise UsageError(f"{what} must have shape {(*lead, n)}, got {v.shape}")
-    if not np.all(np.isfinite(v)):
+    if not np.isfinite(v).all():
         raise UsageError(f"{what} has a non-finite entry")
-    if np.any(v < 0):
+    if (v < 0).any():
         raise UsageError(
             f"{what} has a negative entry",
             "concentrations and feed rates must be >= 0",
@@ -170,11 +170,11 @@ def _times(times) -> np.ndarray:
         t = t.reshape(1)
     if t.ndim != 1:
         raise UsageError(f"times must be a 1-D list, got shape {t.shape}")
-    if not np.all(np.isfinite(t)):
+    if not np.isfinite(t).all():
         raise UsageError("times must be finite")
-    if np.any(t < 0):
+    if (t < 0).any():
         raise UsageError("times must be >= 0", "time 0 is the start of the reaction")
-    if np.any(np.diff(t) < 0):
+    if (t[1:] < t[:-1]).any():
         raise UsageError("times must be in nondecreasing order", "sort the time list")
     return t
 
@@ -286,6 +286,13 @@ def _rounding_bound(beta: float, n: int, plan: _Plan, unit: float) -> float:
       :math:`\gamma_n = n u / (1 - n u)` for a nonnegative product in double and
       :math:`(n^2 + n) u_{dd}` in double-double.
     """
+    # representation error of t B / 2^j: a perturbation of the data, not amplified
+    return _arithmetic_bound(n, plan, unit) + 2 * unit * (beta + n)
+
+
+@lru_cache(maxsize=4096)
+def _arithmetic_bound(n: int, plan: _Plan, unit: float) -> float:
+    """The part of :func:`_rounding_bound` that depends on the plan only."""
     m = plan.degree
     if unit == _U:
         gamma = n * unit / (1 - n * unit)
@@ -295,19 +302,14 @@ def _rounding_bound(beta: float, n: int, plan: _Plan, unit: float) -> float:
     eps = (m + 4) * gamma + (m + 8) * unit
     for _ in range(plan.j):
         eps = 2 * eps + eps * eps + gamma * (1 + eps) ** 2
-    # representation error of t B / 2^j: a perturbation of the data, not amplified
-    return eps + 2 * unit * (beta + n)
+    return eps
 
 
-def _shift_and_norm(A, t):
-    """Shift sigma per member and beta = max(||t B||_1, |sigma| t)."""
-    diag = np.diagonal(A, axis1=-2, axis2=-1)
-    sigma = -diag.min(axis=-1)
-    n = A.shape[-1]
-    B = A + sigma[:, None, None] * np.eye(n)
-    colsum = np.abs(B).sum(axis=-2).max(axis=-1)
-    beta = np.maximum(colsum, np.abs(sigma)) * t
-    return sigma, beta
+def _quarter_power(beta: float) -> float:
+    """``beta`` rounded up to a power of 2**(1/4) (0 stays 0)."""
+    if beta <= 0.0:
+        return 0.0
+    return max(2.0 ** (math.ceil(4.0 * math.log2(beta)) / 4.0), beta)
 
 
 def _expm_group(A, t, sigma, plan: _Plan):
@@ -326,25 +328,17 @@ def _expm_group(A, t, sigma, plan: _Plan):
     """
     from kinetics import _kernels
 
-    b = A.shape[0]
     use_dd = plan.route == "double-double"
-    scale = 2.0**-plan.j
-    if use_dd:
-        ih, il = dd.inverse_factorials(plan.degree)
-        xh, xl = dd.two_prod(sigma, t)
-        eh, el = dd.dd_exp_scalars(-xh * scale, -xl * scale)
-    else:
-        ih, _ = dd.inverse_factorials(plan.degree)
+    ih, il = dd.inverse_factorials(plan.degree)
+    if not use_dd:
         il = np.zeros_like(ih)
-        eh = np.exp(-sigma * t * scale)
-        el = np.zeros(b)
     A = np.ascontiguousarray(A, dtype=float)
     Fh = np.empty_like(A)
     Fl = np.empty_like(A)
     Y = np.empty_like(A)
     _kernels.exponentials(
         A, np.ascontiguousarray(t, dtype=float), np.ascontiguousarray(sigma, dtype=float),
-        eh, el, plan.j, plan.ps, plan.pr, ih, il, use_dd, Fh, Fl, Y,
+        plan.j, plan.ps, plan.pr, ih, il, use_dd, Fh, Fl, Y,
     )  # fmt: skip
     m = plan.degree
     ratio = _kernels.truncation_ratios(Y, Fh, m + 1, math.exp(-math.lgamma(m + 2)), TINY)
@@ -358,28 +352,29 @@ def _expm_stack(A, t, precision: str, target: float | None = None):
     relative bound of ``Fh + Fl`` (before any rounding to double), ``is_dd[i]``
     tells whether member ``i`` took the double-double route.
     """
-    A = np.asarray(A, dtype=float)
-    t = np.broadcast_to(np.asarray(t, dtype=float), A.shape[:1]).copy()
+    from kinetics import _kernels
+
+    A = np.ascontiguousarray(A, dtype=float)
     b, n, _ = A.shape
-    sigma, beta = _shift_and_norm(A, t)
+    t = np.full(b, t, dtype=float) if np.ndim(t) == 0 else np.array(t, dtype=float)
+    sigma = np.empty(b)
+    beta = np.empty(b)
+    _kernels.shift_and_norm(A, t, sigma, beta)
     Fh = np.empty_like(A)
     Fl = np.empty_like(A)
     bound = np.empty(b)
     is_dd = np.zeros(b, dtype=bool)
     groups: dict[tuple, list[int]] = {}
     plans: dict[tuple, _Plan] = {}
-    # plans are chosen for beta rounded up to a quarter power of two: a plan
-    # valid for a larger norm is valid (conservative), and sweeps reuse plans
-    with np.errstate(divide="ignore"):
-        beta_q = np.where(beta > 0, 2.0 ** (np.ceil(4.0 * np.log2(beta)) / 4.0), 0.0)
-    beta_q = np.maximum(beta_q, beta)
-    for i in range(b):
+    for i, beta_i in enumerate(beta.tolist()):
         route = precision
-        bq = float(beta_q[i])
+        # plans are chosen for beta rounded up to a quarter power of two: a plan
+        # valid for a larger norm is valid (conservative), and sweeps reuse plans
+        bq = _quarter_power(beta_i)
         if route == "auto":
             p = _plan(bq, n, "double", _U / 2)
             route = (
-                "double" if _double_bound_apriori(beta[i], n, p) <= AUTO_RTOL else "double-double"
+                "double" if _double_bound_apriori(beta_i, n, p) <= AUTO_RTOL else "double-double"
             )
         tgt = target if target is not None else (_U / 2 if route == "double" else 2.0**-64)
         p = _plan(bq, n, route, tgt)
@@ -388,18 +383,18 @@ def _expm_stack(A, t, precision: str, target: float | None = None):
         plans[key] = p
     for key, members in groups.items():
         plan = plans[key]
-        idx = np.array(members)
+        # one group holding the whole stack (the usual case) needs no gathering
+        idx = slice(None) if len(members) == b else np.array(members)
         unit = _U if plan.route == "double" else dd.DD_UNIT
         tgt = _U / 2 if plan.route == "double" else 2.0**-64
         for _attempt in range(4):
             h, lo, trunc = _expm_group(A[idx], t[idx], sigma[idx], plan)
-            if np.all(trunc <= tgt) or plan.pr > 80:
+            if (trunc <= tgt).all() or plan.pr > 80:
                 break
             plan = _Plan(plan.route, plan.j, plan.ps, plan.pr + 2)
         Fh[idx], Fl[idx] = h, lo
         is_dd[idx] = plan.route == "double-double"
-        rb = np.array([_rounding_bound(beta[i], n, plan, unit) for i in members])
-        bound[idx] = rb + trunc
+        bound[idx] = _rounding_bound(beta[idx], n, plan, unit) + trunc
     return Fh, Fl, bound, is_dd
 
 
@@ -542,13 +537,10 @@ def _uniform_step(t: np.ndarray) -> float | None:
     """Step ``dt`` if ``t[1:]`` is a uniform grid from ``t[0]`` (else None)."""
     if t.size < 3:
         return None
-    dt = (t[-1] - t[0]) / (t.size - 1)
-    if dt <= 0:
-        return None
-    k = np.arange(t.size)
-    if np.all(np.abs(t - (t[0] + k * dt)) <= 4 * _U * t[-1]):
-        return dt
-    return None
+    from kinetics import _kernels
+
+    dt = _kernels.uniform_step(np.ascontiguousarray(t, dtype=float), 4 * _U * float(t[-1]))
+    return dt if dt > 0 else None
 
 
 def _mv(Fh, Fl, vh, vl, is_dd):
@@ -616,20 +608,7 @@ def _propagate_dense_stack(A, x0, times, precision: str):
         _kernels.grid_powers(
             Fh, Fl, vh[..., 0].copy(), vl[..., 0].copy(), M + 1, skip, np.asarray(is_dd), X, start
         )
-        # the bound of the factor F^(2^i) used at doubling level i
-        gam = _gamma_stack(N, is_dd)
-        peps = eps
-        level_bounds = []
-        have = 1
-        while have < M + 1:
-            level_bounds.append(peps + gam)
-            have += min(have, M + 1 - have)
-            peps = 2 * peps + peps * peps + gam * (1 + peps) ** 2
-        # column k is F^k v, built from the factors of the set bits of k: its bound is the
-        # sum of their level bounds
-        bits = (np.arange(M + 1)[:, None] >> np.arange(len(level_bounds))) & 1
-        kb = (bits @ np.array(level_bounds).reshape(-1, b)).T if level_bounds else np.zeros((b, 1))
-        bound[:, start:] = cur_bound[:, None] + kb[:, skip:]
+        _kernels.grid_bounds(eps, _gamma_stack(N, is_dd), M + 1, skip, cur_bound, bound, start)
     else:
         cache: dict[float, tuple] = {}
         for k in range(start, p):

@@ -94,3 +94,29 @@ def test_double_product_is_within_gamma_k():
             if exact[i][j]:
                 assert abs(Fraction(Ch[i, j]) - exact[i][j]) / exact[i][j] <= 9 * u / (1 - 9 * u)
             assert Cl[i, j] == 0.0
+
+
+def test_ln2_parts():
+    # the three parts of ln 2 add up to ln 2 within 2^-160 (mpmath at 60 digits)
+    import mpmath
+
+    with mpmath.workdps(60):
+        parts = sum(mpmath.mpf(x) for x in _kernels._LN2)
+        assert abs(parts - mpmath.log(2)) < mpmath.mpf(2) ** -160
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_dd_exp_against_mpmath(seed):
+    # reference: mpmath exp at 50 digits of the exact double-double argument; the factor
+    # exp(-sigma t / 2^j) of the engine needs about 2^-104 relative
+    import mpmath
+
+    rng = np.random.default_rng(seed)
+    xs = np.r_[-(10.0 ** rng.uniform(-20, 2.5, 200)), rng.uniform(-1, 1, 50), 0.0, -1e-300]
+    with mpmath.workdps(50):
+        for x in xs:
+            xl = x * rng.uniform(-1, 1) * 2.0**-54
+            h, lo = _kernels.dd_exp(x, xl)
+            ref = mpmath.exp(mpmath.mpf(x) + mpmath.mpf(xl))
+            err = abs(mpmath.mpf(h) + mpmath.mpf(lo) - ref) / ref
+            assert err <= mpmath.mpf(2) ** -103, (x, float(err))
