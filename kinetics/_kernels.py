@@ -47,9 +47,11 @@ from numba import njit
 _SPLITTER = 134217729.0  # 2**27 + 1, Veltkamp splitting constant (Dekker 1971, sec. 5)
 
 _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
+# small helpers are inlined into their callers (numba IR inlining)
+_INLINE = {**_JIT, "inline": "always"}
 
 
-@njit(**_JIT)
+@njit(**_INLINE)
 def two_prod(a, b):
     """Error-free product ``p + e == a * b`` (Dekker's TwoProduct)."""
     p = a * b
@@ -63,7 +65,7 @@ def two_prod(a, b):
     return p, e
 
 
-@njit(**_JIT)
+@njit(**_INLINE)
 def two_sum(a, b):
     """Error-free sum ``s + e == a + b`` (Knuth's TwoSum)."""
     s = a + b
@@ -76,7 +78,7 @@ def two_sum(a, b):
 _LN2 = (0.6931471805599453, 2.3190468138462996e-17, 5.707708438416212e-34)
 
 
-@njit(**_JIT)
+@njit(**_INLINE)
 def _dd_add(ah, al, bh, bl):
     """Double-double sum, either sign (the accurate variant of Bailey's QD library)."""
     s, e = two_sum(ah, bh)
@@ -232,7 +234,7 @@ def product(Ah, Al, Bh, Bl, Ch, Cl, dd):
             Ch[i, j] = hi
 
 
-@njit(**_JIT)
+@njit(**_INLINE)
 def _scale_add(Th, Tl, Ph, Pl, ch, cl, dd):
     """``T += c P`` elementwise (nonnegative ``c``, ``P``)."""
     n, m = Th.shape
@@ -390,9 +392,7 @@ def grid_powers(Fh, Fl, x0h, x0l, columns, skip, dd, X, row0):
     Wh = np.empty((N, N))
     Wl = np.empty((N, N))
     Vh = np.empty((N, columns))
-    Vl = np.empty((N, columns))
-    Oh = np.empty((N, columns))
-    Ol = np.empty((N, columns))
+    Vl = np.zeros((N, columns))
     for q in range(b):
         Ph[:] = Fh[q]
         Pl[:] = Fl[q]
@@ -402,9 +402,11 @@ def grid_powers(Fh, Fl, x0h, x0l, columns, skip, dd, X, row0):
         have = 1
         while have < columns:
             need = min(have, columns - have)
-            product(Ph, Pl, Vh[:, :need], Vl[:, :need], Oh[:, :need], Ol[:, :need], dd[q])
-            Vh[:, have : have + need] = Oh[:, :need]
-            Vl[:, have : have + need] = Ol[:, :need]
+            # the new columns do not overlap the ones they are computed from
+            product(
+                Ph, Pl, Vh[:, :need], Vl[:, :need],
+                Vh[:, have : have + need], Vl[:, have : have + need], dd[q],
+            )  # fmt: skip
             have += need
             if have < columns:
                 product(Ph, Pl, Ph, Pl, Wh, Wl, dd[q])

@@ -27,8 +27,8 @@ Method
    the scaled (feed-augmented) matrix for the steps :math:`u_\ell = 2^{-15} 4^\ell` are
    formed from the shifted matrix :math:`B = A + \sigma I \ge 0` by Taylor sums of
    nonnegative terms while :math:`u_\ell \|B\| \le 1/2`, above that by exact squaring
-   (:class:`_Ladder`; the shift-and-Taylor idea of Xue & Ye 2013, no subtraction
-   anywhere).
+   (``_ladder`` in :mod:`kinetics._sweep_kernels`; the shift-and-Taylor idea of Xue & Ye
+   2013, no subtraction anywhere).
 3. *Scan.*  A log grid shared by the stack: 0, four steps to :math:`\tau_0 = 2^{-9}`, then
    segments :math:`[\tau_0 4^d, \tau_0 4^{d+1}]` of 12 equal steps (about 20 points per
    decade), each step one product with a nonnegative ladder matrix.  A member uses the
@@ -46,6 +46,10 @@ Method
    derivatives :math:`g' = (K D)_i` for a maximum and :math:`g' = D_i` for a half-life,
    stops when the step is below :math:`10^{-13}` of the time.  :math:`c_{max}` is the
    concentration at the root.
+
+Steps 2-5 run member by member in compiled code (:mod:`kinetics._sweep_kernels`, numba):
+as array expressions over the stack they cost about 150 us per member of a 10-species
+scheme, compiled about 50 us.
 
 The curves of a sweep are not computed here: they come from
 :func:`kinetics.propagate.propagate_batch` (:func:`kinetics.sweep.chunk_result`).
@@ -280,379 +284,6 @@ def _limits(pat: _Pattern, cls: _Classes, K, c0, f, has_c0, has_f):
 
 
 # ---------------------------------------------------------------------------------------
-# Scan and root finding on a ladder of exact powers
-# ---------------------------------------------------------------------------------------
-
-
-class _Ladder:
-    r"""Exponentials :math:`P_\ell = e^{u_\ell A}` of the scaled (augmented) matrices.
-
-    :math:`A = s_i [[K, f], [0, 0]]` per member (the feed row only with a feed),
-    :math:`u_\ell = 2^{-15} 4^\ell`, :math:`B = A + \sigma I \ge 0`.  While
-    :math:`y_\ell = u_\ell \|B\|_1 \le 1/2` a level is the Taylor sum of the shifted matrix,
-
-    .. math:: P_\ell = e^{-\sigma u_\ell} \sum_{k=0}^{m} \frac{u_\ell^k}{k!} B^k,
-
-    from one set of powers :math:`B^k` shared by all these levels, with :math:`m = n + 16`
-    (every path of the species graph plus a remainder below :math:`2^{-17}/17!`); above, a level
-    is the exact power :math:`P_{\ell+1} = (P_\ell^2)^2`.  Every operation adds and
-    multiplies nonnegative numbers (Xue & Ye 2013), so no entry suffers cancellation; the
-    relative error of a squared level doubles with each squaring (Xue & Ye 2013,
-    Theorem 3.2), which the Taylor levels keep to a few squarings (:math:`y \le 128` at
-    the top of a scan).  Entries below 1e-290 are set to zero (outside the relative-accuracy
-    range, and slow subnormals).
-    """
-
-    def __init__(self, K, f, scale, levels: int) -> None:
-        b, n, _ = K.shape
-        na = n + (0 if f is None else 1)
-        A = np.zeros((b, na, na))
-        A[:, :n, :n] = K * scale[:, None, None]  # exact: powers of two
-        if f is not None:
-            A[:, :n, n] = f[None, :] * scale[:, None]
-        sigma = np.maximum(-np.diagonal(A, axis1=1, axis2=2).min(axis=1), 0.0)
-        B = A + sigma[:, None, None] * np.eye(na)
-        self.n, self.na, self.scale, self.sigma, self.B = n, na, scale, sigma, B
-        self.norm = np.abs(B[:, :n, :n]).sum(axis=1).max(axis=1) + sigma
-        steps = self.step(np.arange(levels + 1))
-        taylor = steps[None, :] * self.norm[:, None] <= 0.5  # (b, levels + 1)
-        taylor[:, :2] = True  # scaled norms are a few units: y_1 = 2^-13 ||B|| is tiny
-        top = int(np.flatnonzero(taylor.any(axis=0)).max())
-        m = na + 16
-        powers = [np.broadcast_to(np.eye(na), B.shape)]
-        for _ in range(m):
-            powers.append(powers[-1] @ B)
-        P = np.empty((levels + 1, b, na, na))
-        P[0] = np.nan  # level 0 (2^-15) is not used
-        for level in range(1, top + 1):  # level 0 is not used
-            u = float(steps[level])
-            mm = m
-            acc = powers[mm] * (u / mm)
-            for k in range(mm - 1, 0, -1):  # Horner in the scalar u: sum u^k/k! B^k
-                acc = (powers[k] + acc) * (u / k)
-            acc = powers[0] + acc
-            P[level] = self._flush(acc * np.exp(-sigma * u)[:, None, None])
-        for level in range(2, levels + 1):
-            sq = ~taylor[:, level]
-            if sq.any():
-                Q = P[level - 1, sq]
-                for _ in range(2):
-                    Q = self._flush(Q @ Q)
-                P[level, sq] = Q
-        self.P = P  # (levels + 1, b, na, na)
-        # the same, structure of arrays: (na, na, (levels + 1) * b), index level * b + member
-        self.b = b
-        self.Ps = np.ascontiguousarray(P.transpose(2, 3, 0, 1)).reshape(na, na, -1)
-        # lowest level to which a bracket is narrowed before the Taylor-Newton phase
-        with np.errstate(divide="ignore"):
-            stop = np.floor(np.log(_NEWTON_Y / (_U0 * self.norm)) / np.log(_RATIO))
-        self.stop = np.clip(np.nan_to_num(stop, posinf=levels), 1, levels).astype(np.int64)
-
-    def soa(self, level, member) -> np.ndarray:
-        """Levels ``level`` of members ``member`` as (na, na, p) (structure of arrays)."""
-        return self.Ps[:, :, level * self.b + member]
-
-    @staticmethod
-    def _flush(M):
-        return np.where(M < 1e-290, 0.0, M)
-
-    @staticmethod
-    def step(level):
-        return _U0 * np.power(float(_RATIO), level)
-
-
-def _mvs(M, x):
-    """Matrix-vector products in structure-of-arrays layout: (k, k, p) @ (k, p)."""
-    return np.einsum("ijp,jp->ip", M, x)
-
-
-def _mv(M, x):
-    """Stacked matrix-vector products (b, k, k) @ (b, k)."""
-    return np.matmul(M, x[:, :, None])[:, :, 0]
-
-
-def _scan(lad: _Ladder, x0, n_segments):
-    r"""States on the shared scaled grid.
-
-    Points: 0, then 4 steps of :math:`u_2` up to :math:`\tau_0 = 2^{-9}`, then for
-    :math:`d = 0 .. S-1` 12 steps of :math:`u_{d+2}` from :math:`\tau_0 4^d` to
-    :math:`\tau_0 4^{d+1}`.  Returns scaled times (M,), states (b, M, na) and the ladder
-    level of each interval (M - 1,).
-    """
-    plan = [(2, 4)] + [(d + 2, _SEGMENT_STEPS) for d in range(n_segments)]
-    total = 1 + sum(count for _, count in plan)
-    X = np.empty((x0.shape[0], total, x0.shape[1]))
-    X[:, 0] = x0
-    taus = np.zeros(total)
-    levels = np.empty(total - 1, dtype=np.int64)
-    j = 0
-    x = np.ascontiguousarray(x0.T)
-    members = np.arange(x0.shape[0])
-    for level, count in plan:
-        P = lad.soa(level, members)
-        u = float(lad.step(level))
-        for _ in range(count):
-            x = _mvs(P, x)
-            j += 1
-            X[:, j] = x.T
-            taus[j] = taus[j - 1] + u
-            levels[j - 1] = level
-    return taus, X, levels
-
-
-def _species_values(K, f, x, sp, deriv, level, scale, n):
-    """g and dg/dtau at states x (p, na) for problems (species sp, kind deriv)."""
-    c = x[:, :n]
-    rows = np.arange(x.shape[0])
-    Ki = K[rows, sp, :]  # (p, n)
-    di = np.einsum("pj,pj->p", Ki, c) + (0.0 if f is None else f[sp])
-    g = np.where(deriv, di, c[rows, sp] - level)
-    return g, c[rows, sp], di, Ki
-
-
-def _hidden_turn_flags(T, D, D2, N, s) -> np.ndarray:
-    r"""Intervals (b, M-1, n) where a cubic Hermite model of the derivative (values and
-    slopes at both ends) changes sign although both ends have the same sign: two turning
-    points may hide there (the test of :mod:`kinetics.analysis`).
-
-    Only intervals where the slopes point away from the end values at the start and back
-    at the end are candidates (a curve decaying through the interval, as fast exponentials
-    do, makes the cubic overshoot without any turning point), and of those only the ones
-    where the slopes can pull the cubic to zero: with
-    :math:`h_{00} + h_{01} = 1` and :math:`|h_{10}|, |h_{11}| \le 4/27` the cubic stays
-    above :math:`\min(|g_0|, |g_1|) - \tfrac{4}{27}(|m_0| + |m_1|)`.
-    """
-    same = (s[:, :-1] == s[:, 1:]) & (s[:, :-1] != 0)
-    flag = np.zeros_like(same)
-    sg = s[:, :-1]
-    # a dip to the other sign and back needs the slope to point away from the end values
-    # at the start and back towards them at the end (a curve that decays through the
-    # interval, as fast exponentials do, is not a candidate)
-    cand = same & (np.sign(D2[:, :-1]) == -sg) & (np.sign(D2[:, 1:]) == sg)
-    idx = np.nonzero(cand)
-    if idx[0].size == 0:
-        return flag
-    h = (T[:, 1:] - T[:, :-1])[idx[:2]]
-    g0, g1 = D[:, :-1][idx], D[:, 1:][idx]
-    m0, m1 = h * D2[:, :-1][idx], h * D2[:, 1:][idx]
-    tol = np.maximum(N[:, :-1][idx], N[:, 1:][idx])
-    sg = sg[idx]
-    near = 4.0 / 27.0 * (np.abs(m0) + np.abs(m1)) >= np.minimum(np.abs(g0), np.abs(g1)) - tol
-    idx = tuple(i[near] for i in idx)
-    g0, g1, m0, m1, tol, sg = g0[near], g1[near], m0[near], m1[near], tol[near], sg[near]
-    hit = np.zeros(g0.size, dtype=bool)
-    for x in np.linspace(0.0, 1.0, 17)[1:-1]:
-        h00 = 2 * x**3 - 3 * x**2 + 1
-        h10 = x**3 - 2 * x**2 + x
-        h01 = -2 * x**3 + 3 * x**2
-        h11 = x**3 - x**2
-        p = h00 * g0 + h10 * m0 + h01 * g1 + h11 * m1
-        hit |= (np.sign(p) != sg) & (np.abs(p) > tol)
-    flag[idx] = hit
-    return flag
-
-
-def _hidden_turns(lad: _Ladder, K, f, X, s, flags, ilevel, cols) -> np.ndarray:
-    """Members (b,) with a turning point inside a flagged interval.
-
-    Each flagged interval is sampled at its interior quarters by the next lower ladder
-    level from its left end (:mod:`kinetics.analysis` inserts eighths); a
-    significant derivative sign different from the interval's sign there is a real hidden
-    turning point.  Other flags were artefacts of the cubic model (fast exponential decay
-    within one interval).
-    """
-    b = K.shape[0]
-    n = lad.n
-    bad = np.zeros(b, dtype=bool)
-    fb, fj = np.nonzero(flags.any(axis=2))
-    if fb.size == 0:
-        return bad
-    P = np.ascontiguousarray(lad.P[ilevel[fj] - 1, fb])
-    x = X[fb, fj]
-    Kb = K[fb][:, cols, :]
-    fc = None if f is None else f[cols]
-    ref = s[fb, fj]
-    fl = flags[fb, fj]
-    turn = np.zeros(fb.size, dtype=bool)
-    for _ in range(_RATIO - 1):
-        x = _mv(P, x)
-        c = x[:, :n]
-        D = np.einsum("bij,bj->bi", Kb, c) + (0.0 if fc is None else fc)
-        N = _REL_NOISE_D * (
-            np.einsum("bij,bj->bi", np.abs(Kb), c) + (0.0 if fc is None else np.abs(fc))
-        )
-        ss = np.sign(D) * (np.abs(D) > N)
-        turn |= ((ss != 0) & (ss != ref) & fl).any(axis=1)
-    bad[fb[turn]] = True
-    return bad
-
-
-def _sign_changes(s: np.ndarray):
-    """Sign changes between consecutive significant points, one pass over time.
-
-    Parameters
-    ----------
-    s : ndarray of int8, shape (b, M, k)
-        -1, 0 (not significant) or +1 per member, point and species.
-
-    Returns
-    -------
-    members, species, left, right : ndarray
-        Each + to - change (a maximum): the last significant point before it and the
-        point where the sign is first negative.
-    bad : ndarray of bool, shape (b,)
-        Members that need the general route: a - to + change (a minimum), more than one
-        change of one species, or points of unknown sign inside a bracket.
-    """
-    b, M, k = s.shape
-    ff = np.zeros((b, k), dtype=np.int8)  # the last significant sign so far
-    last = np.full((b, k), -1)
-    left = np.full((b, k), -1)
-    right = np.full((b, k), -1)
-    count = np.zeros((b, k), dtype=np.int64)
-    bad = np.zeros((b, k), dtype=bool)
-    for j in range(M):
-        sj = s[:, j]
-        nz = sj != 0
-        ch = nz & (ff != 0) & (sj != ff)
-        if ch.any():
-            count += ch
-            bad |= ch & ((sj > 0) | (j - last > 1))
-            down = ch & (sj < 0)
-            left = np.where(down, last, left)
-            right = np.where(down, j, right)
-        ff = np.where(nz, sj, ff)
-        last = np.where(nz, j, last)
-    bad |= count > 1
-    mb, mi = np.nonzero(right >= 0)
-    return mb, mi, left[mb, mi], right[mb, mi], bad.any(axis=1)
-
-
-def _refine(lad: _Ladder, K, f, member, sp, deriv, level, tau_a, x_a, ilev, sign_a):
-    r"""Roots [s] and c_i at the roots [conc] for bracket problems starting on the scan.
-
-    1. *Narrowing by quarters*: a bracket of one interval of ladder level l is split into
-       four by level l - 1 (three products from its left end); the first quarter whose
-       end has the other sign becomes the bracket, until :math:`u_l \|B\| \le 1/4`.
-    2. *Newton*: on the last bracket the state is the nonnegative Taylor series
-       :math:`x(\delta) = e^{-\sigma\delta} \sum_k \delta^k B^k x_a / k!` (the longest
-       path of the species graph plus 14 terms); Newton steps on g with the exact
-       derivative (:math:`dg/dt = (K D)_i` for a maximum, :math:`D_i` for a half-life) and
-       a bisection safeguard, until the step is below 1e-13 of the time.
-    """
-    n = lad.n
-    m = member
-    rows_all = np.arange(m.size)
-    Ki_all = K[m, sp, :]  # the row of each problem's species (p, n)
-    fi_all = 0.0 if f is None else f[sp]
-    tau_a = tau_a.copy()
-    lev = ilev.copy()
-    stop = lad.stop[m]
-
-    KiT = np.ascontiguousarray(Ki_all.T)  # (n, p)
-
-    def g_of(xs, idx):
-        """g for problems idx at states xs (na, len(idx)), structure of arrays."""
-        c = xs[:n]
-        fi = fi_all if f is None else fi_all[idx]
-        di = np.einsum("jp,jp->p", KiT[:, idx], c) + fi
-        return np.where(deriv[idx], di, c[sp[idx], rows_all[: idx.size]] - level[idx])
-
-    xs_a = np.ascontiguousarray(x_a.T)  # (na, p)
-    # g at both ends of the starting brackets (for the secant start of Newton)
-    ga = g_of(xs_a, rows_all)
-    gb = g_of(_mvs(lad.soa(lev, m), xs_a), rows_all)
-    while True:
-        act = np.flatnonzero(lev > stop)
-        if act.size == 0:
-            break
-        P = lad.soa(lev[act] - 1, m[act])
-        u = lad.step(lev[act] - 1)
-        sa = sign_a[act]
-        prev = xs_a[:, act]
-        x = prev
-        g_prev = ga[act]
-        found = np.zeros(act.size, dtype=bool)
-        new_a = prev.copy()
-        new_ga = g_prev.copy()
-        new_gb = gb[act]
-        shift = np.full(act.size, float(_RATIO - 1))
-        for k in range(1, _RATIO):
-            x = _mvs(P, x)
-            g = g_of(x, act)
-            hit = ((np.sign(g) != sa) | (g == 0)) & ~found
-            new_a[:, hit] = prev[:, hit]
-            new_ga[hit] = g_prev[hit]
-            new_gb[hit] = g[hit]
-            shift[hit] = k - 1
-            found |= hit
-            prev = x
-            g_prev = g
-        new_a[:, ~found] = prev[:, ~found]  # the change is in the last quarter
-        new_ga[~found] = g_prev[~found]
-        xs_a[:, act] = new_a
-        ga[act] = new_ga
-        gb[act] = new_gb
-        tau_a[act] += shift * u
-        lev[act] -= 1
-    # Newton on the Taylor series of the last bracket [tau_a, tau_a + u]
-    p = m.size
-    w = lad.step(lev)
-    Bs = np.ascontiguousarray(lad.B[m].transpose(1, 2, 0))  # (na, na, p)
-    sig = lad.sigma[m]
-    J = lad.na + _NEWTON_TERMS
-    terms = [xs_a]
-    for k in range(1, J + 1):
-        terms.append(_mvs(Bs, terms[-1]) / k)
-    W = np.stack(terms)  # (J+1, na, p)
-    sc = lad.scale[m]
-    Ks = np.ascontiguousarray(K[m].transpose(1, 2, 0))  # (n, n, p)
-    fcol = 0.0 if f is None else f[:, None]
-
-    def state(delta, idx):
-        acc = W[J][:, idx]
-        for k in range(J - 1, -1, -1):
-            acc = W[k][:, idx] + delta * acc
-        return acc * np.exp(-sig[idx] * delta)
-
-    lo = np.zeros(p)
-    hi = w.copy()
-    with np.errstate(divide="ignore", invalid="ignore"):
-        frac = np.clip(np.nan_to_num(ga / (ga - gb), nan=0.5), 0.02, 0.98)
-    delta = frac * w  # secant start
-    height = np.zeros(p)
-    active = np.ones(p, dtype=bool)
-    for _ in range(_MAX_NEWTON):
-        k = np.flatnonzero(active)
-        if k.size == 0:
-            break
-        whole = k.size == p
-        idx = slice(None) if whole else k
-        x = state(delta[idx], idx)
-        c = x[:n]
-        rows = rows_all[: k.size]
-        D = _mvs(Ks if whole else Ks[:, :, k], c) + fcol
-        ci = c[sp[k], rows]
-        di = D[sp[k], rows]
-        d2 = np.einsum("jp,jp->p", KiT[:, idx], D)
-        g = np.where(deriv[k], di, ci - level[k])
-        gp = np.where(deriv[k], d2, di) * sc[k]  # dg/dtau
-        height[k] = ci
-        left = np.sign(g) == sign_a[k]
-        lo[k] = np.where(left, delta[k], lo[k])
-        hi[k] = np.where(left, hi[k], delta[k])
-        with np.errstate(divide="ignore", invalid="ignore"):
-            new = delta[k] - g / gp
-        bad = ~np.isfinite(new) | (new <= lo[k]) | (new >= hi[k])
-        new = np.where(bad, 0.5 * (lo[k] + hi[k]), new)
-        new = np.where(g == 0, delta[k], new)
-        done = (np.abs(new - delta[k]) <= _XTOL * (tau_a[k] + delta[k])) | (g == 0)
-        delta[k] = new
-        active[k[done]] = False
-    return (tau_a + delta) * sc, height
-
-
-# ---------------------------------------------------------------------------------------
 # The public function
 # ---------------------------------------------------------------------------------------
 
@@ -787,92 +418,31 @@ def _group(K, c0, f, members, offdiag, out, fallback) -> None:
     sc = scale[fast]
     tau_hi = t_hi[fast] / sc
     n_seg = max(1, math.ceil(math.log(float(tau_hi.max()) / _TAU0) / math.log(_RATIO)))
-    lad = _Ladder(Kf, f, sc, n_seg + 1)
     n = Kf.shape[1]
-    x0 = cf if f is None else np.concatenate([cf, np.ones((fast.size, 1))], axis=1)
-    tau, X, ilevel = _scan(lad, x0, n_seg)
-    C = X[:, :, :n]
-    T = tau[None, :] * sc[:, None]  # (b, M) real times [s]
-    valid = T <= t_hi[fast][:, None]
     # only species that are formed (a step or the feed) and consumed can turn over
     formed = offdiag.any(axis=1)
     if f is not None:
         formed |= f > 0
     mx = np.flatnonzero(formed & (np.diagonal(Kf[0]) < 0))
     hl = np.flatnonzero(cf[0] > 0)
-    ok = np.ones(fast.size, dtype=bool)
-    steps = np.arange(X.shape[1])[None, :, None]
-    pm, ps, pj, pderiv, plevel = [], [], [], [], []
-    if mx.size:
-        Kt = np.swapaxes(Kf, 1, 2)
-        Kmx = np.ascontiguousarray(Kt[:, :, mx])
-        # D = K c + f and its derivative K D = K^2 c + K f, for these species only
-        K2mx = np.ascontiguousarray(np.swapaxes(Kf @ Kf, 1, 2)[:, :, mx])
-        D = C @ Kmx
-        D2 = C @ K2mx
-        if f is not None:
-            D = D + f[mx]
-            D2 = D2 + (Kf @ f)[:, None, mx]
-        N = _REL_NOISE_D * (C @ np.abs(Kmx) + (0.0 if f is None else np.abs(f[mx])))
-        s = np.where((np.abs(D) > N) & valid[:, :, None], np.sign(D), 0.0).astype(np.int8)
-        flags = _hidden_turn_flags(T, D, D2, N, s)
-        hidden = _hidden_turns(lad, Kf, f, X, s, flags, ilevel, mx)
-        mb, mi, ma, mj, bad = _sign_changes(s)
-        ok = ~(hidden | bad)
-        keep = ok[mb]
-        mb, mi, ma, mj = mb[keep], mi[keep], ma[keep], mj[keep]
-        pm.append(mb)
-        ps.append(mx[mi])
-        pj.append(mj - 1)
-        pderiv.append(np.ones(mb.size, dtype=bool))
-        plevel.append(np.zeros(mb.size))
-    if hl.size:
-        # half-lives: first significant fall below half the start value
-        target = 0.5 * cf[:, hl]
-        Ch = C[:, :, hl]
-        gv = Ch - target[:, None, :]
-        noise = _REL_NOISE_C * np.maximum(Ch, target[:, None, :])
-        sh = np.where((np.abs(gv) > noise) & valid[:, :, None], np.sign(gv), 0.0).astype(np.int8)
-        neg = sh < 0
-        has_neg = neg.any(axis=1) & ok[:, None]
-        kb = np.argmax(neg, axis=1)
-        lastpos = np.maximum.accumulate(np.where(sh > 0, steps, -1), axis=1)
-        hb, hi = np.nonzero(has_neg)
-        jb = kb[hb, hi]
-        ja = lastpos[hb, jb - 1, hi]
-        # noise points between the last point above and the first below: general route
-        loose = jb - ja > 1
-        ok[hb[loose]] = False
-        keep = ~loose & ok[hb]
-        hb, hi, jb = hb[keep], hi[keep], jb[keep]
-        pm.append(hb)
-        ps.append(hl[hi])
-        pj.append(jb - 1)
-        pderiv.append(np.zeros(hb.size, dtype=bool))
-        plevel.append(target[hb, hi])
-    if any(len(x) for x in pm):
-        pm = np.concatenate(pm)
-        ps = np.concatenate(ps)
-        pj = np.concatenate(pj)
-        deriv = np.concatenate(pderiv)
-        lvl = np.concatenate(plevel)
-        keep = ok[pm]
-        pm, ps, pj, deriv, lvl = pm[keep], ps[keep], pj[keep], deriv[keep], lvl[keep]
-    else:
-        pm = np.zeros(0, dtype=np.int64)
-    if pm.size:
-        roots, heights = _refine(
-            lad, Kf, f, pm, ps, deriv, lvl, tau[pj], X[pm, pj], ilevel[pj], np.ones(pm.size)
-        )
-        Lf = L[fast]
-        # maxima: global when at least the start value and the long-time limit
-        mxp = np.flatnonzero(deriv)
-        ceiling = np.maximum(cf[pm[mxp], ps[mxp]], Lf[pm[mxp], ps[mxp]])
-        glob = heights[mxp] >= ceiling * (1 - _GLOBAL_TOL)
-        sel = mxp[glob]
-        rows = members[fast[pm[sel]]]
-        out["t_max"][rows, ps[sel]] = roots[sel]
-        out["c_max"][rows, ps[sel]] = heights[sel]
-        hlp = np.flatnonzero(~deriv)
-        out["half_life"][members[fast[pm[hlp]]], ps[hlp]] = roots[hlp]
+    # steps 2-5 of the method, member by member in compiled code
+    from . import _sweep_kernels as kernels
+
+    tmax = np.full((fast.size, n), np.nan)
+    cmax = np.full((fast.size, n), np.nan)
+    half = np.full((fast.size, n), np.nan)
+    status = np.empty(fast.size, dtype=np.int8)
+    kernels.summarise_members(
+        np.ascontiguousarray(Kf), np.zeros(n) if f is None else f, f is not None,
+        np.ascontiguousarray(cf), sc, np.ascontiguousarray(t_hi[fast]), mx, hl, n_seg,
+        tmax, cmax, half, status,
+    )  # fmt: skip
+    ok = status == kernels.OK
+    rows = members[fast[ok]]
+    # maxima: global when at least the start value and the long-time limit
+    ceiling = np.maximum(cf[ok], L[fast[ok]])
+    glob = cmax[ok] >= ceiling * (1 - _GLOBAL_TOL)
+    out["t_max"][rows] = np.where(glob, tmax[ok], np.nan)
+    out["c_max"][rows] = np.where(glob, cmax[ok], np.nan)
+    out["half_life"][rows] = half[ok]
     fallback[members[fast[~ok]]] = True

@@ -134,7 +134,8 @@ def test_propagate_vector_matches_reference():
     np.testing.assert_array_equal(c[0], c0)
 
 
-N_RANDOM = 300  # "a few hundred", as the engine issue asks; also benchmarks/bench_propagate.py --accuracy
+# "a few hundred", as the engine issue asks; more: benchmarks/bench_propagate.py --accuracy
+N_RANDOM = 300
 
 
 @pytest.mark.slow

@@ -1,0 +1,517 @@
+r"""Compiled per-member core of the batched summaries (private; numba).
+
+:mod:`kinetics.sweep_summary` finds the class structure, the limits and the time scales
+of a stack of problems with stacked linear algebra, then hands the members without
+special behaviour to :func:`summarise_members`, which does steps 2-5 of its method for
+one member after the other in compiled code: the ladder of exact exponentials, the scan
+on the shared log grid, the signs and brackets, the check for hidden turning points and
+the refinement (narrowing by quarters, then safeguarded Newton on the nonnegative
+Taylor series).  Each member is computed on its own, so its result does not depend on
+the other members of the stack; the kernel releases the interpreter lock, so the
+threads of the local sweep engine run members in parallel.
+
+The constants and every step follow :mod:`kinetics.sweep_summary` (see its docstring
+for the method and the references).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from numba import njit
+
+# the constants of the method live in kinetics.sweep_summary (numba reads module globals
+# as compile-time constants)
+from .sweep_summary import _MAX_NEWTON as MAX_NEWTON
+from .sweep_summary import _NEWTON_TERMS as NEWTON_TERMS
+from .sweep_summary import _NEWTON_Y as NEWTON_Y
+from .sweep_summary import _RATIO as RATIO
+from .sweep_summary import _REL_NOISE_C as REL_NOISE_C
+from .sweep_summary import _REL_NOISE_D as REL_NOISE_D
+from .sweep_summary import _SEGMENT_STEPS as SEGMENT_STEPS
+from .sweep_summary import _U0 as U0
+from .sweep_summary import _XTOL as XTOL
+
+_JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
+# small helpers are inlined into their callers (numba IR inlining)
+_INLINE = {**_JIT, "inline": "always"}
+
+FLUSH = 1e-290  # entries below are outside the relative-accuracy range (and slow)
+
+#: status codes of a member
+OK, FALLBACK = 0, 1
+
+
+@njit(**_INLINE)
+def _matmul(A, B, out):
+    """``out = A B`` (plain double, nonnegative data; zero entries of A skipped)."""
+    n, k = A.shape
+    m = B.shape[1]
+    for i in range(n):
+        for j in range(m):
+            out[i, j] = 0.0
+        for r in range(k):
+            a = A[i, r]
+            if a == 0.0:
+                continue
+            for j in range(m):
+                out[i, j] += a * B[r, j]
+
+
+@njit(**_INLINE)
+def _matvec(A, x, out):
+    """``out = A x``, column by column (independent lanes, so the loop vectorises)."""
+    n, m = A.shape
+    for i in range(n):
+        out[i] = 0.0
+    for j in range(m):
+        xj = x[j]
+        if xj == 0.0:
+            continue
+        for i in range(n):
+            out[i] += A[i, j] * xj
+
+
+@njit(**_INLINE)
+def _flush(M):
+    n, m = M.shape
+    for i in range(n):
+        for j in range(m):
+            if M[i, j] < FLUSH:
+                M[i, j] = 0.0
+
+
+@njit(**_INLINE)
+def _step(level):
+    return U0 * float(RATIO) ** level
+
+
+@njit(**_JIT)
+def _ladder(A, sigma, norm, levels, P):
+    r"""Levels :math:`P_\ell = e^{u_\ell A}`, :math:`u_\ell = 2^{-15} 4^\ell`, of the scaled matrix.
+
+    ``A`` is the scaled (feed-augmented) matrix of one member, :math:`B = A + \sigma I \ge 0`
+    (returned).  While :math:`u_\ell \|B\|_1 \le 1/2` (and always for level 1) a level is
+    the Taylor sum of the shifted matrix,
+
+    .. math:: P_\ell = e^{-\sigma u_\ell} \sum_{k=0}^{m} \frac{u_\ell^k}{k!} B^k,
+
+    from one set of powers :math:`B^k`, with :math:`m = n_a + 16` (every path of the
+    species graph plus a remainder below :math:`2^{-17}/17!`); above, a level is the exact
+    power :math:`P_{\ell+1} = (P_\ell^2)^2`.  Only nonnegative numbers are added and
+    multiplied (Xue & Ye 2013), so no entry suffers cancellation; entries below 1e-290 are
+    set to zero.
+    """
+    na = A.shape[0]
+    B = A.copy()
+    for i in range(na):
+        B[i, i] += sigma
+    m = na + 16
+    top = 1
+    for level in range(2, levels + 1):
+        if _step(level) * norm <= 0.5:
+            top = level
+    powers = np.empty((m + 1, na, na))
+    powers[0] = 0.0
+    for i in range(na):
+        powers[0, i, i] = 1.0
+    for k in range(1, m + 1):
+        _matmul(powers[k - 1], B, powers[k])
+    acc = np.empty((na, na))
+    for level in range(1, top + 1):
+        u = _step(level)
+        # Horner in the scalar u: sum_k u^k/k! B^k
+        for i in range(na):
+            for j in range(na):
+                acc[i, j] = powers[m, i, j] * (u / m)
+        for k in range(m - 1, 0, -1):
+            for i in range(na):
+                for j in range(na):
+                    acc[i, j] = (powers[k, i, j] + acc[i, j]) * (u / k)
+        e = math.exp(-sigma * u)
+        for i in range(na):
+            for j in range(na):
+                P[level, i, j] = (powers[0, i, j] + acc[i, j]) * e
+        _flush(P[level])
+    Q = np.empty((na, na))
+    for level in range(top + 1, levels + 1):
+        _matmul(P[level - 1], P[level - 1], Q)
+        _flush(Q)
+        _matmul(Q, Q, P[level])
+        _flush(P[level])
+    return B
+
+
+@njit(**_JIT)
+def _sparse(M, ptr, idx, val):
+    """Compressed rows of ``M``: row ``i`` holds ``val[ptr[i]:ptr[i+1]]`` at ``idx``."""
+    n, m = M.shape
+    k = 0
+    for i in range(n):
+        ptr[i] = k
+        for j in range(m):
+            if M[i, j] != 0.0:
+                idx[k] = j
+                val[k] = M[i, j]
+                k += 1
+    ptr[n] = k
+
+
+@njit(**_INLINE)
+def _row_dot(ptr, idx, val, i, x):
+    s = 0.0
+    for k in range(ptr[i], ptr[i + 1]):
+        s += val[k] * x[idx[k]]
+    return s
+
+
+@njit(**_INLINE)
+def _spmv(ptr, idx, val, x, out):
+    """``out = M x`` for compressed rows (reaction schemes have a few rates per species)."""
+    for i in range(ptr.shape[0] - 1):
+        out[i] = _row_dot(ptr, idx, val, i, x)
+
+
+@njit(**_INLINE)
+def _derivatives(kp, ki, kv, diag, f, c, mx, D, D2, N, work):
+    """``D = (K c + f)_i``, ``D2 = (K (K c + f))_i`` and the noise level ``N`` for ``mx``.
+
+    ``K`` in compressed rows ``kp, ki, kv`` with diagonal ``diag``;
+    ``N = 1e-12 (|K| c + |f|)_i``, with :math:`(|K| c)_i = (K c)_i - k_{ii} c_i +
+    |k_{ii}| c_i` (off-diagonal rates are >= 0).  ``work`` is an (n,) scratch array.
+    """
+    n = diag.shape[0]
+    for i in range(n):
+        work[i] = _row_dot(kp, ki, kv, i, c) + f[i]
+    for a in range(mx.shape[0]):
+        i = mx[a]
+        D[a] = work[i]
+        D2[a] = _row_dot(kp, ki, kv, i, work)
+        kc = work[i] - f[i]
+        N[a] = REL_NOISE_D * (kc - diag[i] * c[i] + abs(diag[i]) * c[i] + abs(f[i]))
+
+
+@njit(**_INLINE)
+def _sign(x):
+    return 1 if x > 0 else (-1 if x < 0 else 0)
+
+
+@njit(**_INLINE)
+def _g(kp, ki, kv, f, x, sp, deriv, level):
+    """g at state x: ``(K c + f)_sp`` for a maximum, ``c_sp - level`` for a half-life."""
+    if deriv:
+        return f[sp] + _row_dot(kp, ki, kv, sp, x)
+    return x[sp] - level
+
+
+@njit(**_JIT)
+def _refine(kp, ki, kv, bp, bi, bv, f, sigma, P, stop, sc, sp, deriv, level, tau_a, x_a, lev, out):
+    r"""Root [s] and :math:`c_{sp}` at the root of one bracket problem; writes ``out[0:2]``.
+
+    The problem is :math:`g = (K c + f)_{sp}` (a maximum, ``deriv``) or
+    :math:`g = c_{sp} - level` (a half-life), positive at the bracket's left end
+    ``(tau_a, x_a)`` on ladder level ``lev``.
+
+    1. *Narrowing by quarters*: the bracket is split into four by level ``lev - 1`` (three
+       products from its left end); the first quarter whose end is not positive becomes
+       the bracket, until level ``stop`` (:math:`u \|B\| \le 1/4`).
+    2. *Newton*: on the last bracket the state is the nonnegative Taylor series
+       :math:`x(\delta) = e^{-\sigma\delta} \sum_k \delta^k B^k x_a / k!` (the longest
+       path plus 14 terms); Newton steps on g with the exact derivative
+       (:math:`dg/dt = (K D)_{sp}` for a maximum, :math:`D_{sp}` for a half-life), started
+       at the secant point and safeguarded by bisection, until the step is below 1e-13
+       of the time.
+
+    ``K`` and ``B`` come in compressed rows (``kp, ki, kv`` and ``bp, bi, bv``).
+    """
+    n = f.shape[0]
+    na = x_a.shape[0]
+    x = np.empty(na)
+    prev = np.empty(na)
+    xa = x_a.copy()
+    ga = _g(kp, ki, kv, f, xa, sp, deriv, level)
+    _matvec(P[lev], xa, x)
+    gb = _g(kp, ki, kv, f, x, sp, deriv, level)
+    # 1. narrowing by quarters with the next lower level
+    while lev > stop:
+        u = _step(lev - 1)
+        Pm = P[lev - 1]
+        prev[:] = xa
+        g_prev = ga
+        found = False
+        shift = float(RATIO - 1)
+        new_ga = ga
+        new_gb = gb
+        na_ = xa.copy()
+        for k in range(1, RATIO):
+            _matvec(Pm, prev, x)
+            g = _g(kp, ki, kv, f, x, sp, deriv, level)
+            if not found and ((_sign(g) != 1) or g == 0.0):
+                na_[:] = prev
+                new_ga = g_prev
+                new_gb = g
+                shift = k - 1.0
+                found = True
+            prev[:] = x
+            g_prev = g
+        if not found:
+            na_[:] = prev
+            new_ga = g_prev
+        xa[:] = na_
+        ga = new_ga
+        gb = new_gb
+        tau_a += shift * u
+        lev -= 1
+    # 2. Newton on the Taylor series of the last bracket [tau_a, tau_a + w]
+    w = _step(lev)
+    J = na + NEWTON_TERMS
+    W = np.empty((J + 1, na))
+    W[0] = xa
+    for k in range(1, J + 1):
+        _spmv(bp, bi, bv, W[k - 1], x)
+        for i in range(na):
+            W[k, i] = x[i] / k
+    lo = 0.0
+    hi = w
+    den = ga - gb
+    frac = ga / den if den != 0.0 else (np.nan if ga == 0.0 else np.inf * ga)
+    if np.isnan(frac):
+        frac = 0.5
+    frac = min(max(frac, 0.02), 0.98)
+    delta = frac * w
+    height = 0.0
+    D = np.empty(n)
+    for _ in range(MAX_NEWTON):
+        for i in range(na):
+            x[i] = W[J, i]
+        for k in range(J - 1, -1, -1):
+            for i in range(na):
+                x[i] = W[k, i] + delta * x[i]
+        e = math.exp(-sigma * delta)
+        for i in range(na):
+            x[i] *= e
+        for i in range(n):
+            D[i] = _row_dot(kp, ki, kv, i, x) + f[i]
+        ci = x[sp]
+        di = D[sp]
+        d2 = _row_dot(kp, ki, kv, sp, D)
+        g = di if deriv else ci - level
+        gp = (d2 if deriv else di) * sc
+        height = ci
+        if _sign(g) == 1:
+            lo = delta
+        else:
+            hi = delta
+        new = delta - g / gp
+        if not np.isfinite(new) or new <= lo or new >= hi:
+            new = 0.5 * (lo + hi)
+        if g == 0.0:
+            new = delta
+        done = abs(new - delta) <= XTOL * (tau_a + delta) or g == 0.0
+        delta = new
+        if done:
+            break
+    out[0] = (tau_a + delta) * sc
+    out[1] = height
+
+
+@njit(**_INLINE)
+def _hermite_hit(g0, g1, m0, m1, tol, sg):
+    """A sign change of the cubic Hermite model at the interior sixteenths."""
+    for q in range(1, 16):
+        x = q / 16.0
+        h00 = 2 * x**3 - 3 * x**2 + 1
+        h10 = x**3 - 2 * x**2 + x
+        h01 = -2 * x**3 + 3 * x**2
+        h11 = x**3 - x**2
+        p = h00 * g0 + h10 * m0 + h01 * g1 + h11 * m1
+        if _sign(p) != sg and abs(p) > tol:
+            return True
+    return False
+
+
+@njit(**_JIT)
+def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax, half, status):
+    """Steps 2-5 of :mod:`kinetics.sweep_summary` for each member of a stack.
+
+    ``K`` (b, n, n) [1/s]; ``f`` (n,) feed (zeros without); ``scale`` the powers of two
+    of the scaled time; ``t_hi`` the scan ends [s]; ``mx`` the species that can turn over,
+    ``hl`` those with a start value; ``n_seg`` the scan segments of the stack.  Writes
+    ``tmax``, ``cmax`` (interior maxima, global or not), ``half`` [s] and ``status``.
+    """
+    b, n, _ = K.shape
+    na = n + 1 if has_feed else n
+    levels = n_seg + 1
+    total = 1 + 4 + SEGMENT_STEPS * n_seg
+    taus = np.zeros(total)
+    ilevel = np.empty(total - 1, dtype=np.int64)
+    j = 0
+    for seg in range(n_seg + 1):
+        level = 2 if seg == 0 else seg + 1
+        count = 4 if seg == 0 else SEGMENT_STEPS
+        for _ in range(count):
+            j += 1
+            taus[j] = taus[j - 1] + _step(level)
+            ilevel[j - 1] = level
+    A = np.zeros((na, na))
+    P = np.empty((levels + 1, na, na))
+    X = np.empty((total, na))
+    nm = mx.shape[0]
+    D = np.empty((total, nm))
+    D2 = np.empty((total, nm))
+    N = np.empty((total, nm))
+    s = np.zeros((total, nm), dtype=np.int8)
+    flags = np.zeros(nm, dtype=np.bool_)
+    work = np.empty(n)
+    diag = np.empty(n)
+    kp = np.empty(n + 1, dtype=np.int64)
+    ki = np.empty(n * n, dtype=np.int64)
+    kv = np.empty(n * n)
+    bp = np.empty(na + 1, dtype=np.int64)
+    bi = np.empty(na * na, dtype=np.int64)
+    bv = np.empty(na * na)
+    x = np.empty(na)
+    Dq = np.empty(nm)
+    Nq = np.empty(nm)
+    D2q = np.empty(nm)
+    res = np.empty(2)
+    for q in range(b):
+        Kq = K[q]
+        sc = scale[q]
+        # scaled augmented matrix, shift and norm (exact: powers of two)
+        for a in range(n):
+            for c in range(n):
+                A[a, c] = Kq[a, c] * sc
+            if has_feed:
+                A[a, n] = f[a] * sc
+        sigma = 0.0
+        for a in range(na):
+            sigma = max(sigma, -A[a, a])
+        norm = 0.0
+        for c in range(n):
+            col = 0.0
+            for a in range(n):
+                v = A[a, c] + (sigma if a == c else 0.0)
+                col += abs(v)
+            norm = max(norm, col)
+        norm += sigma
+        B = _ladder(A, sigma, norm, levels, P)
+        _sparse(Kq, kp, ki, kv)
+        _sparse(B, bp, bi, bv)
+        for i in range(n):
+            diag[i] = Kq[i, i]
+        stop_f = (
+            math.floor(math.log(NEWTON_Y / (U0 * norm)) / math.log(RATIO)) if norm > 0 else levels
+        )
+        stop = int(min(max(stop_f, 1), levels))
+        # scan, up to the member's own t_hi
+        for i in range(n):
+            X[0, i] = c0[q, i]
+        if has_feed:
+            X[0, n] = 1.0
+        last = 0
+        for jj in range(1, total):
+            if taus[jj] * sc > t_hi[q]:
+                break
+            _matvec(P[ilevel[jj - 1]], X[jj - 1], X[jj])
+            last = jj
+        M = last + 1
+        bad = False
+        # maxima: signs of the derivative, hidden turns, sign changes
+        if nm:
+            for jj in range(M):
+                _derivatives(kp, ki, kv, diag, f, X[jj], mx, D[jj], D2[jj], N[jj], work)
+                for a in range(nm):
+                    s[jj, a] = _sign(D[jj, a]) if abs(D[jj, a]) > N[jj, a] else 0
+            for jj in range(M - 1):
+                flagged = False
+                h = (taus[jj + 1] - taus[jj]) * sc
+                for a in range(nm):
+                    flags[a] = False
+                    sg = s[jj, a]
+                    if sg == 0 or s[jj + 1, a] != sg:
+                        continue
+                    if _sign(D2[jj, a]) != -sg or _sign(D2[jj + 1, a]) != sg:
+                        continue
+                    g0, g1 = D[jj, a], D[jj + 1, a]
+                    m0, m1 = h * D2[jj, a], h * D2[jj + 1, a]
+                    tol = max(N[jj, a], N[jj + 1, a])
+                    if 4.0 / 27.0 * (abs(m0) + abs(m1)) < min(abs(g0), abs(g1)) - tol:
+                        continue
+                    if _hermite_hit(g0, g1, m0, m1, tol, sg):
+                        flags[a] = True
+                        flagged = True
+                if not flagged:
+                    continue
+                # sample the interval at its quarters with the next lower level
+                x[:] = X[jj]
+                Pm = P[ilevel[jj] - 1]
+                for _ in range(RATIO - 1):
+                    y = x.copy()
+                    _matvec(Pm, y, x)
+                    _derivatives(kp, ki, kv, diag, f, x, mx, Dq, D2q, Nq, work)
+                    for a in range(nm):
+                        if not flags[a]:
+                            continue
+                        sg = s[jj, a]
+                        ss = _sign(Dq[a]) if abs(Dq[a]) > Nq[a] else 0
+                        if ss != 0 and ss != sg:
+                            bad = True
+            # + to - changes: one per species, no minimum, no unknown point inside
+            if not bad:
+                for a in range(nm):
+                    ff = 0
+                    lastsig = -1
+                    right = -1
+                    count = 0
+                    for jj in range(M):
+                        sj = s[jj, a]
+                        if sj == 0:
+                            continue
+                        if ff != 0 and sj != ff:
+                            count += 1
+                            if sj > 0 or jj - lastsig > 1:
+                                bad = True
+                            if sj < 0:
+                                right = jj
+                        ff = sj
+                        lastsig = jj
+                    if count > 1:
+                        bad = True
+                    if bad:
+                        break
+                    if right >= 0:
+                        jb = right - 1
+                        sparse = (kp, ki, kv, bp, bi, bv)
+                        bracket = (taus[jb], X[jb], ilevel[jb])
+                        _refine(*sparse, f, sigma, P, stop, sc, mx[a], True, 0.0, *bracket, res)
+                        tmax[q, mx[a]] = res[0]
+                        cmax[q, mx[a]] = res[1]
+        # half-lives: first significant fall below half the start value
+        if not bad:
+            for a in range(hl.shape[0]):
+                i = hl[a]
+                target = 0.5 * c0[q, i]
+                lastpos = -1
+                jb = -1
+                for jj in range(M):
+                    gv = X[jj, i] - target
+                    noise = REL_NOISE_C * max(X[jj, i], target)
+                    if abs(gv) <= noise:
+                        continue
+                    if gv > 0:
+                        lastpos = jj
+                    else:
+                        jb = jj
+                        break
+                if jb < 0:
+                    continue
+                if jb - lastpos > 1:
+                    bad = True
+                    break
+                sparse = (kp, ki, kv, bp, bi, bv)
+                bracket = (taus[jb - 1], X[jb - 1], ilevel[jb - 1])
+                _refine(*sparse, f, sigma, P, stop, sc, i, False, target, *bracket, res)
+                half[q, i] = res[0]
+        status[q] = FALLBACK if bad else OK
