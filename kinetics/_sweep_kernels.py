@@ -88,11 +88,11 @@ def _step(level):
 
 
 @njit(**_JIT)
-def _ladder(A, sigma, norm, levels, P):
+def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
     r"""Levels :math:`P_\ell = e^{u_\ell A}`, :math:`u_\ell = 2^{-15} 4^\ell`, of the scaled matrix.
 
-    ``A`` is the scaled (feed-augmented) matrix of one member, :math:`B = A + \sigma I \ge 0`
-    (returned).  While :math:`u_\ell \|B\|_1 \le 1/2` (and always for level 1) a level is
+    ``A`` is the scaled (feed-augmented) matrix of one member and
+    :math:`B = A + \sigma I \ge 0` (also in compressed rows ``bp, bi, bv``).  While :math:`u_\ell \|B\|_1 \le 1/2` (and always for level 1) a level is
     the Taylor sum of the shifted matrix,
 
     .. math:: P_\ell = e^{-\sigma u_\ell} \sum_{k=0}^{m} \frac{u_\ell^k}{k!} B^k,
@@ -103,10 +103,7 @@ def _ladder(A, sigma, norm, levels, P):
     multiplied (Xue & Ye 2013), so no entry suffers cancellation; entries below 1e-290 are
     set to zero.
     """
-    na = A.shape[0]
-    B = A.copy()
-    for i in range(na):
-        B[i, i] += sigma
+    na = B.shape[0]
     m = na + 16
     top = 1
     for level in range(2, levels + 1):
@@ -117,7 +114,15 @@ def _ladder(A, sigma, norm, levels, P):
     for i in range(na):
         powers[0, i, i] = 1.0
     for k in range(1, m + 1):
-        _matmul(powers[k - 1], B, powers[k])
+        # B^k = B B^(k-1): one row operation per rate (B is as sparse as the scheme)
+        for i in range(na):
+            for j in range(na):
+                powers[k, i, j] = 0.0
+            for e in range(bp[i], bp[i + 1]):
+                r = bi[e]
+                v = bv[e]
+                for j in range(na):
+                    powers[k, i, j] += v * powers[k - 1, r, j]
     acc = np.empty((na, na))
     for level in range(1, top + 1):
         u = _step(level)
@@ -140,7 +145,6 @@ def _ladder(A, sigma, norm, levels, P):
         _flush(Q)
         _matmul(Q, Q, P[level])
         _flush(P[level])
-    return B
 
 
 @njit(**_JIT)
@@ -355,6 +359,7 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
             taus[j] = taus[j - 1] + _step(level)
             ilevel[j - 1] = level
     A = np.zeros((na, na))
+    B = np.empty((na, na))
     P = np.empty((levels + 1, na, na))
     X = np.empty((total, na))
     nm = mx.shape[0]
@@ -396,9 +401,12 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
                 col += abs(v)
             norm = max(norm, col)
         norm += sigma
-        B = _ladder(A, sigma, norm, levels, P)
+        for a in range(na):
+            for c in range(na):
+                B[a, c] = A[a, c] + (sigma if a == c else 0.0)
         _sparse(Kq, kp, ki, kv)
         _sparse(B, bp, bi, bv)
+        _ladder(B, bp, bi, bv, sigma, norm, levels, P)
         for i in range(n):
             diag[i] = Kq[i, i]
         stop_f = (
