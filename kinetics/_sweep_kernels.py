@@ -89,11 +89,11 @@ def _step(level):
 
 @njit(**_JIT)
 def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
-    r"""Levels :math:`P_\ell = e^{u_\ell A}`, :math:`u_\ell = 2^{-15} 4^\ell`, of the scaled matrix.
+    r"""Levels :math:`P_\ell = e^{u_\ell A}`, :math:`u_\ell = 2^{-15} 4^\ell`, of one member.
 
-    ``A`` is the scaled (feed-augmented) matrix of one member and
-    :math:`B = A + \sigma I \ge 0` (also in compressed rows ``bp, bi, bv``).  While :math:`u_\ell \|B\|_1 \le 1/2` (and always for level 1) a level is
-    the Taylor sum of the shifted matrix,
+    ``A`` is the scaled (feed-augmented) matrix, :math:`B = A + \sigma I \ge 0` (also in
+    compressed rows ``bp, bi, bv``).  While :math:`u_\ell \|B\|_1 \le 1/2` (and always
+    for level 1) a level is the Taylor sum of the shifted matrix,
 
     .. math:: P_\ell = e^{-\sigma u_\ell} \sum_{k=0}^{m} \frac{u_\ell^k}{k!} B^k,
 
@@ -210,7 +210,9 @@ def _g(kp, ki, kv, f, x, sp, deriv, level):
 
 
 @njit(**_JIT)
-def _refine(kp, ki, kv, bp, bi, bv, f, sigma, P, stop, sc, sp, deriv, level, tau_a, x_a, lev, out):
+def _refine(
+    kp, ki, kv, bp, bi, bv, f, sigma, P, stop, sc, sp, deriv, level, tau_a, x_a, lev, out, work
+):
     r"""Root [s] and :math:`c_{sp}` at the root of one bracket problem; writes ``out[0:2]``.
 
     The problem is :math:`g = (K c + f)_{sp}` (a maximum, ``deriv``) or
@@ -227,13 +229,13 @@ def _refine(kp, ki, kv, bp, bi, bv, f, sigma, P, stop, sc, sp, deriv, level, tau
        at the secant point and safeguarded by bisection, until the step is below 1e-13
        of the time.
 
-    ``K`` and ``B`` come in compressed rows (``kp, ki, kv`` and ``bp, bi, bv``).
+    ``K`` and ``B`` come in compressed rows (``kp, ki, kv`` and ``bp, bi, bv``); ``work``
+    holds scratch arrays of shapes (na,), (na,), (na + 15, na) and (n,).
     """
     n = f.shape[0]
     na = x_a.shape[0]
-    x = np.empty(na)
-    prev = np.empty(na)
-    xa = x_a.copy()
+    x, xa, W, D = work
+    xa[:] = x_a
     ga = _g(kp, ki, kv, f, xa, sp, deriv, level)
     _matvec(P[lev], xa, x)
     gb = _g(kp, ki, kv, f, x, sp, deriv, level)
@@ -241,36 +243,28 @@ def _refine(kp, ki, kv, bp, bi, bv, f, sigma, P, stop, sc, sp, deriv, level, tau
     while lev > stop:
         u = _step(lev - 1)
         Pm = P[lev - 1]
-        prev[:] = xa
+        shift = float(RATIO - 1)
         g_prev = ga
         found = False
-        shift = float(RATIO - 1)
-        new_ga = ga
-        new_gb = gb
-        na_ = xa.copy()
         for k in range(1, RATIO):
-            _matvec(Pm, prev, x)
+            _matvec(Pm, xa, x)
             g = _g(kp, ki, kv, f, x, sp, deriv, level)
-            if not found and ((_sign(g) != 1) or g == 0.0):
-                na_[:] = prev
-                new_ga = g_prev
-                new_gb = g
+            if _sign(g) != 1:
+                # the change is in this quarter: [xa, x] is the new bracket
+                ga = g_prev
+                gb = g
                 shift = k - 1.0
                 found = True
-            prev[:] = x
+                break
+            xa[:] = x
             g_prev = g
-        if not found:
-            na_[:] = prev
-            new_ga = g_prev
-        xa[:] = na_
-        ga = new_ga
-        gb = new_gb
+        if not found:  # in the last quarter
+            ga = g_prev
         tau_a += shift * u
         lev -= 1
     # 2. Newton on the Taylor series of the last bracket [tau_a, tau_a + w]
     w = _step(lev)
     J = na + NEWTON_TERMS
-    W = np.empty((J + 1, na))
     W[0] = xa
     for k in range(1, J + 1):
         _spmv(bp, bi, bv, W[k - 1], x)
@@ -285,7 +279,6 @@ def _refine(kp, ki, kv, bp, bi, bv, f, sigma, P, stop, sc, sp, deriv, level, tau
     frac = min(max(frac, 0.02), 0.98)
     delta = frac * w
     height = 0.0
-    D = np.empty(n)
     for _ in range(MAX_NEWTON):
         for i in range(na):
             x[i] = W[J, i]
@@ -369,6 +362,9 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
     s = np.zeros((total, nm), dtype=np.int8)
     flags = np.zeros(nm, dtype=np.bool_)
     work = np.empty(n)
+    CT = np.empty((n, total))
+    DT = np.empty((n, total))
+    D2T = np.empty((n, total))
     diag = np.empty(n)
     kp = np.empty(n + 1, dtype=np.int64)
     ki = np.empty(n * n, dtype=np.int64)
@@ -381,6 +377,7 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
     Nq = np.empty(nm)
     D2q = np.empty(nm)
     res = np.empty(2)
+    rwork = (np.empty(na), np.empty(na), np.empty((na + NEWTON_TERMS + 1, na)), np.empty(n))
     for q in range(b):
         Kq = K[q]
         sc = scale[q]
@@ -428,10 +425,28 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
         bad = False
         # maxima: signs of the derivative, hidden turns, sign changes
         if nm:
+            # all scan points at once, points along rows: D = K C + f, D2 = K D (a few
+            # rates per species, each an operation on a whole row of points)
             for jj in range(M):
-                _derivatives(kp, ki, kv, diag, f, X[jj], mx, D[jj], D2[jj], N[jj], work)
+                for i in range(n):
+                    CT[i, jj] = X[jj, i]
+            _matmul(Kq, CT[:, :M], DT[:, :M])
+            for i in range(n):
+                for jj in range(M):
+                    DT[i, jj] += f[i]
+            _matmul(Kq, DT[:, :M], D2T[:, :M])
+            for jj in range(M):
                 for a in range(nm):
-                    s[jj, a] = _sign(D[jj, a]) if abs(D[jj, a]) > N[jj, a] else 0
+                    i = mx[a]
+                    d = DT[i, jj]
+                    D[jj, a] = d
+                    D2[jj, a] = D2T[i, jj]
+                    # 1e-12 (|K| c + |f|)_i, with (|K| c)_i = (K c)_i - k_ii c_i + |k_ii| c_i
+                    ci = X[jj, i]
+                    N[jj, a] = REL_NOISE_D * (
+                        (d - f[i]) - diag[i] * ci + abs(diag[i]) * ci + abs(f[i])
+                    )
+                    s[jj, a] = _sign(d) if abs(d) > N[jj, a] else 0
             for jj in range(M - 1):
                 flagged = False
                 h = (taus[jj + 1] - taus[jj]) * sc
@@ -493,7 +508,9 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
                         jb = right - 1
                         sparse = (kp, ki, kv, bp, bi, bv)
                         bracket = (taus[jb], X[jb], ilevel[jb])
-                        _refine(*sparse, f, sigma, P, stop, sc, mx[a], True, 0.0, *bracket, res)
+                        _refine(
+                            *sparse, f, sigma, P, stop, sc, mx[a], True, 0.0, *bracket, res, rwork
+                        )
                         tmax[q, mx[a]] = res[0]
                         cmax[q, mx[a]] = res[1]
         # half-lives: first significant fall below half the start value
@@ -520,6 +537,6 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
                     break
                 sparse = (kp, ki, kv, bp, bi, bv)
                 bracket = (taus[jb - 1], X[jb - 1], ilevel[jb - 1])
-                _refine(*sparse, f, sigma, P, stop, sc, i, False, target, *bracket, res)
+                _refine(*sparse, f, sigma, P, stop, sc, i, False, target, *bracket, res, rwork)
                 half[q, i] = res[0]
         status[q] = FALLBACK if bad else OK

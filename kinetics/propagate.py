@@ -269,11 +269,6 @@ def _plan(
     return best[1]
 
 
-def _double_bound_apriori(beta: float, n: int, plan: _Plan) -> float:
-    """Rounding bound of the plain-double route (see :func:`_rounding_bound`)."""
-    return _rounding_bound(beta, n, plan, _U)
-
-
 def _rounding_bound(beta: float, n: int, plan: _Plan, unit: float) -> float:
     r"""Componentwise relative rounding-error bound of one exponential.
 
@@ -303,13 +298,6 @@ def _arithmetic_bound(n: int, plan: _Plan, unit: float) -> float:
     for _ in range(plan.j):
         eps = 2 * eps + eps * eps + gamma * (1 + eps) ** 2
     return eps
-
-
-def _quarter_power(beta: float) -> float:
-    """``beta`` rounded up to a power of 2**(1/4) (0 stays 0)."""
-    if beta <= 0.0:
-        return 0.0
-    return max(2.0 ** (math.ceil(4.0 * math.log2(beta)) / 4.0), beta)
 
 
 def _expm_group(A, t, sigma, plan: _Plan):
@@ -364,27 +352,44 @@ def _expm_stack(A, t, precision: str, target: float | None = None):
     Fl = np.empty_like(A)
     bound = np.empty(b)
     is_dd = np.zeros(b, dtype=bool)
-    groups: dict[tuple, list[int]] = {}
+    # plans are chosen for beta rounded up to a quarter power of two: a plan valid for a
+    # larger norm is valid (conservative), and the members of a sweep share a few plans
+    with np.errstate(divide="ignore"):
+        bq = np.where(beta > 0, np.exp2(np.ceil(4.0 * np.log2(beta)) / 4.0), 0.0)
+    bq = np.maximum(bq, beta)
+    if b == 1:  # a single solve: nothing to sort
+        values, which = bq, np.zeros(1, dtype=np.intp)
+    else:
+        values, which = np.unique(bq, return_inverse=True)
+        which = which.reshape(-1)
+    if precision == "auto":
+        # plain double where its a priori bound is small enough, else double-double
+        arith = np.array(
+            [_arithmetic_bound(n, _plan(v, n, "double", _U / 2), _U) for v in values.tolist()]
+        )
+        route_dd = arith[which] + 2 * _U * (beta + n) > AUTO_RTOL
+    else:
+        route_dd = np.full(b, precision == "double-double")
+    codes = 2 * which + route_dd
+    if b == 1:
+        kinds, members_of = codes, [np.zeros(1, dtype=np.intp)]
+    else:
+        kinds, inverse = np.unique(codes, return_inverse=True)
+        members_of = [np.flatnonzero(inverse == u) for u in range(kinds.size)]
+    groups: dict[tuple, np.ndarray] = {}
     plans: dict[tuple, _Plan] = {}
-    for i, beta_i in enumerate(beta.tolist()):
-        route = precision
-        # plans are chosen for beta rounded up to a quarter power of two: a plan
-        # valid for a larger norm is valid (conservative), and sweeps reuse plans
-        bq = _quarter_power(beta_i)
-        if route == "auto":
-            p = _plan(bq, n, "double", _U / 2)
-            route = (
-                "double" if _double_bound_apriori(beta_i, n, p) <= AUTO_RTOL else "double-double"
-            )
-        tgt = target if target is not None else (_U / 2 if route == "double" else 2.0**-64)
-        p = _plan(bq, n, route, tgt)
+    for code, sel in zip(kinds.tolist(), members_of, strict=True):
+        v, use_dd = divmod(code, 2)
+        route = "double-double" if use_dd else "double"
+        tgt = target if target is not None else (2.0**-64 if use_dd else _U / 2)
+        p = _plan(float(values[v]), n, route, tgt)
         key = (p.route, p.j, p.ps, p.pr)
-        groups.setdefault(key, []).append(i)
+        groups[key] = np.concatenate([groups[key], sel]) if key in groups else sel
         plans[key] = p
     for key, members in groups.items():
         plan = plans[key]
         # one group holding the whole stack (the usual case) needs no gathering
-        idx = slice(None) if len(members) == b else np.array(members)
+        idx = slice(None) if members.size == b else np.sort(members)
         unit = _U if plan.route == "double" else dd.DD_UNIT
         tgt = _U / 2 if plan.route == "double" else 2.0**-64
         for _attempt in range(4):
