@@ -123,21 +123,22 @@ def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
                 v = bv[e]
                 for j in range(na):
                     powers[k, i, j] += v * powers[k - 1, r, j]
-    acc = np.empty((na, na))
+    # Horner in the scalar u, sum_k u^k/k! B^k, on the flattened matrices (long loops)
+    flat = powers.reshape(m + 1, na * na)
+    acc = np.empty(na * na)
     for level in range(1, top + 1):
         u = _step(level)
-        # Horner in the scalar u: sum_k u^k/k! B^k
-        for i in range(na):
-            for j in range(na):
-                acc[i, j] = powers[m, i, j] * (u / m)
+        c = u / m
+        for e in range(na * na):
+            acc[e] = flat[m, e] * c
         for k in range(m - 1, 0, -1):
-            for i in range(na):
-                for j in range(na):
-                    acc[i, j] = (powers[k, i, j] + acc[i, j]) * (u / k)
-        e = math.exp(-sigma * u)
-        for i in range(na):
-            for j in range(na):
-                P[level, i, j] = (powers[0, i, j] + acc[i, j]) * e
+            c = u / k
+            for e in range(na * na):
+                acc[e] = (flat[k, e] + acc[e]) * c
+        ex = math.exp(-sigma * u)
+        out = P[level].reshape(na * na)
+        for e in range(na * na):
+            out[e] = (flat[0, e] + acc[e]) * ex
         _flush(P[level])
     Q = np.empty((na, na))
     for level in range(top + 1, levels + 1):
@@ -209,6 +210,16 @@ def _g(kp, ki, kv, f, x, sp, deriv, level):
     return x[sp] - level
 
 
+@njit(**_INLINE)
+def _mark(i, mark, need, used):
+    """Append species ``i`` to ``need[:used]`` once."""
+    if not mark[i]:
+        mark[i] = True
+        need[used] = i
+        used += 1
+    return used
+
+
 @njit(**_JIT)
 def _refine(
     kp, ki, kv, bp, bi, bv, f, sigma, P, stop, sc, sp, deriv, level, tau_a, x_a, lev, out, work
@@ -230,11 +241,11 @@ def _refine(
        of the time.
 
     ``K`` and ``B`` come in compressed rows (``kp, ki, kv`` and ``bp, bi, bv``); ``work``
-    holds scratch arrays of shapes (na,), (na,), (na + 15, na) and (n,).
+    holds scratch arrays of shapes (na,), (na,), (na + 15, na), (n,), and (na,) (bool and
+    integer).
     """
-    n = f.shape[0]
     na = x_a.shape[0]
-    x, xa, W, D = work
+    x, xa, W, D, mark, need = work
     xa[:] = x_a
     ga = _g(kp, ki, kv, f, xa, sp, deriv, level)
     _matvec(P[lev], xa, x)
@@ -279,20 +290,35 @@ def _refine(
     frac = min(max(frac, 0.02), 0.98)
     delta = frac * w
     height = 0.0
+    # g and dg/dt need c only at sp, at the species of the row of sp and (for a maximum)
+    # at the species of their rows: the state is summed at those entries only
+    used = 0
+    for i in range(na):
+        mark[i] = False
+    used = _mark(sp, mark, need, used)
+    for e in range(kp[sp], kp[sp + 1]):
+        used = _mark(ki[e], mark, need, used)
+    rows_used = used
+    if deriv:
+        for r in range(rows_used):
+            j = need[r]
+            for e in range(kp[j], kp[j + 1]):
+                used = _mark(ki[e], mark, need, used)
     for _ in range(MAX_NEWTON):
-        for i in range(na):
-            x[i] = W[J, i]
-        for k in range(J - 1, -1, -1):
-            for i in range(na):
-                x[i] = W[k, i] + delta * x[i]
-        e = math.exp(-sigma * delta)
-        for i in range(na):
-            x[i] *= e
-        for i in range(n):
-            D[i] = _row_dot(kp, ki, kv, i, x) + f[i]
+        ex = math.exp(-sigma * delta)
+        for r in range(used):
+            i = need[r]
+            acc = W[J, i]
+            for k in range(J - 1, -1, -1):
+                acc = W[k, i] + delta * acc
+            x[i] = acc * ex
+        # D at sp and at the species of its row (need[:rows_used])
+        for r in range(rows_used if deriv else 1):
+            j = need[r]
+            D[j] = _row_dot(kp, ki, kv, j, x) + f[j]
         ci = x[sp]
         di = D[sp]
-        d2 = _row_dot(kp, ki, kv, sp, D)
+        d2 = _row_dot(kp, ki, kv, sp, D) if deriv else 0.0
         g = di if deriv else ci - level
         gp = (d2 if deriv else di) * sc
         height = ci
@@ -377,7 +403,10 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
     Nq = np.empty(nm)
     D2q = np.empty(nm)
     res = np.empty(2)
-    rwork = (np.empty(na), np.empty(na), np.empty((na + NEWTON_TERMS + 1, na)), np.empty(n))
+    rwork = (
+        np.empty(na), np.empty(na), np.empty((na + NEWTON_TERMS + 1, na)), np.empty(n),
+        np.zeros(na, dtype=np.bool_), np.empty(na, dtype=np.int64),
+    )  # fmt: skip
     for q in range(b):
         Kq = K[q]
         sc = scale[q]
