@@ -15,6 +15,7 @@ HEAVY = [
     "jinja2",
     "playwright",
     "PIL",
+    "numba",
 ]
 
 
