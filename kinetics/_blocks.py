@@ -17,9 +17,9 @@ in plain double precision, on the tile-sparse matrix:
         \right)^{2^j},
 
 with the Taylor polynomial evaluated by Paterson-Stockmeyer.  Entries that
-fall below ``DROP`` (1e-305) are dropped after each product; this changes every
-entry above 1e-280 by less than a unit of rounding and keeps the band of the
-tiles bounded.  The time grid is then walked with sparse products
+fall below ``DROP`` (1e-150) are dropped after each product; this keeps the band
+of the tiles bounded, and it is why entries below about 1e-150 are not resolved
+on this route (README, Limits of the method).  The time grid is then walked with sparse products
 :math:`c_{k+1} = F c_k` (nonnegative, so relative errors only add up).
 
 References
