@@ -302,6 +302,20 @@ def _reference(K, c0, f, t_window, out, members) -> None:
                 out[q][i, j] = v if v is not None and math.isfinite(v) else np.nan
 
 
+def _row_groups(rows: np.ndarray) -> np.ndarray:
+    """Group number of each row of a 2-D array (equal rows, equal numbers).
+
+    A sweep usually has a single group, found without sorting; otherwise the rows are
+    compared as raw bytes (one sort of a 1-D array instead of a lexicographic one).
+    """
+    if (rows == rows[0]).all():
+        return np.zeros(rows.shape[0], dtype=np.intp)
+    rows = np.ascontiguousarray(rows)
+    keys = rows.view(np.dtype((np.void, rows.dtype.itemsize * rows.shape[1]))).reshape(-1)
+    _, inverse = np.unique(keys, return_inverse=True)
+    return inverse.reshape(-1)
+
+
 def summarise_batch(
     K: np.ndarray,
     c0: np.ndarray,
@@ -360,8 +374,7 @@ def summarise_batch(
     key = np.concatenate(
         [offdiag.reshape(b, -1), (np.diagonal(K, axis1=1, axis2=2) != 0), c0 > 0], axis=1
     )
-    _, group_of = np.unique(np.packbits(key, axis=1), axis=0, return_inverse=True)
-    group_of = group_of.reshape(-1)
+    group_of = _row_groups(np.packbits(key, axis=1))
     fallback = np.zeros(b, dtype=bool)
     for g in np.unique(group_of):
         members = np.flatnonzero(group_of == g)
@@ -383,8 +396,7 @@ def _group(K, c0, f, members, offdiag, out, fallback) -> None:
         has_f[pat.labels[f > 0]] = True
     # limits: members of equal class kinds together
     L = np.zeros(cg.shape)
-    _, kind_group = np.unique(cls.kind, axis=0, return_inverse=True)
-    kind_group = kind_group.reshape(-1)
+    kind_group = _row_groups(cls.kind)
     growing = np.zeros(members.size, dtype=bool)
     for kg in np.unique(kind_group):
         sel = np.flatnonzero(kind_group == kg)
