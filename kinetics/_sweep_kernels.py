@@ -38,6 +38,7 @@ _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
 _INLINE = {**_JIT, "inline": "always"}
 
 FLUSH = 1e-290  # entries below are outside the relative-accuracy range (and slow)
+TAIL = 0.5**17 / math.factorial(17)  # remainder of the ladder's Taylor sum at y = 1/2
 
 #: status codes of a member
 OK, FALLBACK = 0, 1
@@ -60,9 +61,10 @@ def _matmul(A, B, out):
 
 
 @njit(**_INLINE)
-def _matvec(A, x, out):
-    """``out = A x``, column by column (independent lanes, so the loop vectorises)."""
-    n, m = A.shape
+def _matvec_t(AT, x, out):
+    """``out = A x`` from the transpose ``AT``: one contiguous row of ``AT`` per entry of ``x``
+    (independent lanes, so the inner loop vectorises)."""
+    m, n = AT.shape
     for i in range(n):
         out[i] = 0.0
     for j in range(m):
@@ -70,7 +72,7 @@ def _matvec(A, x, out):
         if xj == 0.0:
             continue
         for i in range(n):
-            out[i] += A[i, j] * xj
+            out[i] += AT[j, i] * xj
 
 
 @njit(**_INLINE)
@@ -97,18 +99,34 @@ def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
 
     .. math:: P_\ell = e^{-\sigma u_\ell} \sum_{k=0}^{m} \frac{u_\ell^k}{k!} B^k,
 
-    from one set of powers :math:`B^k`, with :math:`m = n_a + 16` (every path of the
-    species graph plus a remainder below :math:`2^{-17}/17!`); above, a level is the exact
+    from one set of powers :math:`B^k`, with :math:`m = n_a - 1 + t + 1` (every path of the
+    species graph plus :math:`t + 1` terms, :math:`t \le 16` the least with
+    :math:`y^{t+1}/(t+1)! \le 2^{-17}/17!`, the remainder at :math:`y = 1/2`, so every entry
+    carries a relative truncation error below that bound); above, a level is the exact
     power :math:`P_{\ell+1} = (P_\ell^2)^2`.  Only nonnegative numbers are added and
     multiplied (Xue & Ye 2013), so no entry suffers cancellation; entries below 1e-290 are
     set to zero.
     """
     na = B.shape[0]
-    m = na + 16
     top = 1
     for level in range(2, levels + 1):
         if _step(level) * norm <= 0.5:
             top = level
+    # degree of each Taylor level: every path (na - 1 steps) plus the terms until the
+    # scalar remainder y^(t+1)/(t+1)! is below that of the top case, y = 1/2 and 17 terms
+    # (2^-17/17!); the low levels, with tiny y, need far fewer terms
+    degree = np.empty(top + 1, dtype=np.int64)
+    for level in range(1, top + 1):
+        y = _step(level) * norm
+        t = 0
+        term = y
+        while term > TAIL and t < 16:
+            t += 1
+            term *= y / (t + 1)
+        degree[level] = na + t
+    m = degree[top]
+    for level in range(1, top + 1):
+        m = max(m, degree[level])
     powers = np.empty((m + 1, na, na))
     powers[0] = 0.0
     for i in range(na):
@@ -128,10 +146,11 @@ def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
     acc = np.empty(na * na)
     for level in range(1, top + 1):
         u = _step(level)
-        c = u / m
+        ml = degree[level]
+        c = u / ml
         for e in range(na * na):
-            acc[e] = flat[m, e] * c
-        for k in range(m - 1, 0, -1):
+            acc[e] = flat[ml, e] * c
+        for k in range(ml - 1, 0, -1):
             c = u / k
             for e in range(na * na):
                 acc[e] = (flat[k, e] + acc[e]) * c
@@ -240,7 +259,8 @@ def _refine(
        at the secant point and safeguarded by bisection, until the step is below 1e-13
        of the time.
 
-    ``K`` and ``B`` come in compressed rows (``kp, ki, kv`` and ``bp, bi, bv``); ``work``
+    ``P`` holds the ladder levels transposed; ``K`` and ``B`` come in compressed rows
+    (``kp, ki, kv`` and ``bp, bi, bv``); ``work``
     holds scratch arrays of shapes (na,), (na,), (na + 15, na), (n,), and (na,) (bool and
     integer).
     """
@@ -248,7 +268,7 @@ def _refine(
     x, xa, W, D, mark, need = work
     xa[:] = x_a
     ga = _g(kp, ki, kv, f, xa, sp, deriv, level)
-    _matvec(P[lev], xa, x)
+    _matvec_t(P[lev], xa, x)
     gb = _g(kp, ki, kv, f, x, sp, deriv, level)
     # 1. narrowing by quarters with the next lower level
     while lev > stop:
@@ -258,7 +278,7 @@ def _refine(
         g_prev = ga
         found = False
         for k in range(1, RATIO):
-            _matvec(Pm, xa, x)
+            _matvec_t(Pm, xa, x)
             g = _g(kp, ki, kv, f, x, sp, deriv, level)
             if _sign(g) != 1:
                 # the change is in this quarter: [xa, x] is the new bracket
@@ -380,6 +400,7 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
     A = np.zeros((na, na))
     B = np.empty((na, na))
     P = np.empty((levels + 1, na, na))
+    PT = np.empty((levels + 1, na, na))
     X = np.empty((total, na))
     nm = mx.shape[0]
     D = np.empty((total, nm))
@@ -433,6 +454,11 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
         _sparse(Kq, kp, ki, kv)
         _sparse(B, bp, bi, bv)
         _ladder(B, bp, bi, bv, sigma, norm, levels, P)
+        # the levels transposed: matrix-vector products then read contiguous rows
+        for level in range(1, levels + 1):
+            for a in range(na):
+                for c in range(na):
+                    PT[level, c, a] = P[level, a, c]
         for i in range(n):
             diag[i] = Kq[i, i]
         stop_f = (
@@ -448,7 +474,7 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
         for jj in range(1, total):
             if taus[jj] * sc > t_hi[q]:
                 break
-            _matvec(P[ilevel[jj - 1]], X[jj - 1], X[jj])
+            _matvec_t(PT[ilevel[jj - 1]], X[jj - 1], X[jj])
             last = jj
         M = last + 1
         bad = False
@@ -498,10 +524,10 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
                     continue
                 # sample the interval at its quarters with the next lower level
                 x[:] = X[jj]
-                Pm = P[ilevel[jj] - 1]
+                Pm = PT[ilevel[jj] - 1]
                 for _ in range(RATIO - 1):
                     y = x.copy()
-                    _matvec(Pm, y, x)
+                    _matvec_t(Pm, y, x)
                     _derivatives(kp, ki, kv, diag, f, x, mx, Dq, D2q, Nq, work)
                     for a in range(nm):
                         if not flags[a]:
@@ -538,7 +564,7 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
                         sparse = (kp, ki, kv, bp, bi, bv)
                         bracket = (taus[jb], X[jb], ilevel[jb])
                         _refine(
-                            *sparse, f, sigma, P, stop, sc, mx[a], True, 0.0, *bracket, res, rwork
+                            *sparse, f, sigma, PT, stop, sc, mx[a], True, 0.0, *bracket, res, rwork
                         )
                         tmax[q, mx[a]] = res[0]
                         cmax[q, mx[a]] = res[1]
@@ -566,6 +592,6 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
                     break
                 sparse = (kp, ki, kv, bp, bi, bv)
                 bracket = (taus[jb - 1], X[jb - 1], ilevel[jb - 1])
-                _refine(*sparse, f, sigma, P, stop, sc, i, False, target, *bracket, res, rwork)
+                _refine(*sparse, f, sigma, PT, stop, sc, i, False, target, *bracket, res, rwork)
                 half[q, i] = res[0]
         status[q] = FALLBACK if bad else OK
