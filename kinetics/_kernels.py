@@ -380,41 +380,44 @@ def truncation_ratios(Y, F, power, coef, tiny):
 
 @njit(**_JIT)
 def grid_powers(Fh, Fl, x0h, x0l, columns, skip, dd, X, row0):
-    """Columns ``F^k x0`` for ``k = 0 .. columns - 1`` by doubling, per member.
+    """States ``F^k x0`` for ``k = 0 .. columns - 1`` by doubling, per member.
 
-    ``V <- [V, F^(2^i) V]``: column ``k`` passes through one product per set bit
-    of ``k``.  Column ``k >= skip`` is rounded to double and written to
-    ``X[q, row0 + k - skip, :]`` (``X`` has shape (b, p, N)).
+    ``V <- [V, F^(2^i) V]``: state ``k`` passes through one product per set bit of
+    ``k``.  The states are kept as rows (``V[k] = F^k x0``), so a doubling step is the
+    product ``V[:need] (F^(2^i))^T`` of contiguous rows.  State ``k >= skip`` is rounded
+    to double and written to ``X[q, row0 + k - skip, :]`` (``X`` has shape (b, p, N)).
     """
     b, N, _ = Fh.shape
-    Ph = np.empty((N, N))
-    Pl = np.empty((N, N))
+    Th = np.empty((N, N))  # (F^(2^i))^T
+    Tl = np.empty((N, N))
     Wh = np.empty((N, N))
     Wl = np.empty((N, N))
-    Vh = np.empty((N, columns))
-    Vl = np.zeros((N, columns))
+    Vh = np.empty((columns, N))
+    Vl = np.zeros((columns, N))
     for q in range(b):
-        Ph[:] = Fh[q]
-        Pl[:] = Fl[q]
         for i in range(N):
-            Vh[i, 0] = x0h[q, i]
-            Vl[i, 0] = x0l[q, i]
+            for j in range(N):
+                Th[j, i] = Fh[q, i, j]
+                Tl[j, i] = Fl[q, i, j]
+        for i in range(N):
+            Vh[0, i] = x0h[q, i]
+            Vl[0, i] = x0l[q, i]
         have = 1
         while have < columns:
             need = min(have, columns - have)
-            # the new columns do not overlap the ones they are computed from
+            # the new rows do not overlap the ones they are computed from
             product(
-                Ph, Pl, Vh[:, :need], Vl[:, :need],
-                Vh[:, have : have + need], Vl[:, have : have + need], dd[q],
+                Vh[:need], Vl[:need], Th, Tl, Vh[have : have + need], Vl[have : have + need],
+                dd[q],
             )  # fmt: skip
             have += need
             if have < columns:
-                product(Ph, Pl, Ph, Pl, Wh, Wl, dd[q])
-                Ph[:] = Wh
-                Pl[:] = Wl
+                product(Th, Tl, Th, Tl, Wh, Wl, dd[q])  # (F^T)^2 = (F^2)^T
+                Th[:] = Wh
+                Tl[:] = Wl
         for k in range(skip, columns):
             for i in range(N):
-                X[q, row0 + k - skip, i] = max(Vh[i, k] + Vl[i, k], 0.0)
+                X[q, row0 + k - skip, i] = max(Vh[k, i] + Vl[k, i], 0.0)
 
 
 @njit(**_JIT)
