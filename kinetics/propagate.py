@@ -567,6 +567,8 @@ def _propagate_dense_stack(A, x0, times, precision: str):
 
     A: (b, N, N), x0: (b, N).  Returns (X (b, p, N), bound (b, p), route label).
     """
+    from kinetics import _kernels
+
     b, N, _ = A.shape
     p = times.size
     X = np.empty((b, p, N))  # every row is written below (fresh pages are costly to zero)
@@ -607,9 +609,7 @@ def _propagate_dense_stack(A, x0, times, precision: str):
             cur_bound = cur_bound + eps + _gamma_stack(N, is_dd)
         Fh, Fl, eps, is_dd = exp_of(dt)
         M = p - start - 1 + skip
-        # columns F^k v for k = 0..M by doubling: V <- [V, F^(2^i) V] (compiled)
-        from kinetics import _kernels
-
+        # states F^k v for k = 0..M by doubling: V <- [V, F^(2^i) V] (compiled)
         _kernels.grid_powers(
             Fh, Fl, vh[..., 0].copy(), vl[..., 0].copy(), M + 1, skip, np.asarray(is_dd), X, start
         )
