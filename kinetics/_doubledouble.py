@@ -5,14 +5,7 @@ A double-double number is an unevaluated sum ``hi + lo`` of two doubles with
 products in this format are compiled loops in :mod:`kinetics._kernels`; this
 module holds what needs no compiler: the unit roundoff used in the error bounds
 and the Taylor coefficients :math:`1/k!` rounded to double-double from exact
-decimal values.
-
-References
-----------
-T. J. Dekker, "A floating-point technique for extending the available
-precision", Numer. Math. 18, 224-242 (1971). doi:10.1007/BF01397083
-T. Ogita, S. M. Rump, S. Oishi, "Accurate sum and dot product", SIAM J. Sci.
-Comput. 26, 1955-1988 (2005). doi:10.1137/030601818
+decimal values.  The arithmetic and its references are in :mod:`kinetics._kernels`.
 """
 
 from __future__ import annotations

@@ -174,22 +174,30 @@ def negative_offdiagonal(K):
     return False
 
 
+@njit(**_INLINE)
+def matmul_double(A, B, out):
+    """``out = A B`` in plain double for nonnegative data; zero entries of ``A`` are skipped."""
+    n, k = A.shape
+    m = B.shape[1]
+    for i in range(n):
+        for j in range(m):
+            out[i, j] = 0.0
+        for r in range(k):
+            a = A[i, r]
+            if a == 0.0:
+                continue
+            for j in range(m):
+                out[i, j] += a * B[r, j]
+
+
 @njit(**_JIT)
 def product(Ah, Al, Bh, Bl, Ch, Cl, dd):
     """``C = A B`` for nonnegative ``A`` (n, k) and ``B`` (k, m); ``C`` must not alias them."""
     n, k = Ah.shape
     m = Bh.shape[1]
     if not dd:
-        for i in range(n):
-            for j in range(m):
-                Ch[i, j] = 0.0
-                Cl[i, j] = 0.0
-            for r in range(k):
-                a = Ah[i, r]
-                if a == 0.0:
-                    continue
-                for j in range(m):
-                    Ch[i, j] += a * Bh[r, j]
+        matmul_double(Ah, Bh, Ch)
+        Cl[:] = 0.0
         return
     # Veltkamp halves of the right factor, once per product
     B1 = np.empty((k, m))

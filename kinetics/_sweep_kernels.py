@@ -21,6 +21,8 @@ import math
 import numpy as np
 from numba import njit
 
+from ._kernels import matmul_double
+
 # the constants of the method live in kinetics.sweep_summary (numba reads module globals
 # as compile-time constants)
 from .sweep_summary import _MAX_NEWTON as MAX_NEWTON
@@ -42,22 +44,6 @@ TAIL = 0.5**17 / math.factorial(17)  # remainder of the ladder's Taylor sum at y
 
 #: status codes of a member
 OK, FALLBACK = 0, 1
-
-
-@njit(**_INLINE)
-def _matmul(A, B, out):
-    """``out = A B`` (plain double, nonnegative data; zero entries of A skipped)."""
-    n, k = A.shape
-    m = B.shape[1]
-    for i in range(n):
-        for j in range(m):
-            out[i, j] = 0.0
-        for r in range(k):
-            a = A[i, r]
-            if a == 0.0:
-                continue
-            for j in range(m):
-                out[i, j] += a * B[r, j]
 
 
 @njit(**_INLINE)
@@ -161,9 +147,9 @@ def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
         _flush(P[level])
     Q = np.empty((na, na))
     for level in range(top + 1, levels + 1):
-        _matmul(P[level - 1], P[level - 1], Q)
+        matmul_double(P[level - 1], P[level - 1], Q)
         _flush(Q)
-        _matmul(Q, Q, P[level])
+        matmul_double(Q, Q, P[level])
         _flush(P[level])
 
 
@@ -485,11 +471,11 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
             for jj in range(M):
                 for i in range(n):
                     CT[i, jj] = X[jj, i]
-            _matmul(Kq, CT[:, :M], DT[:, :M])
+            matmul_double(Kq, CT[:, :M], DT[:, :M])
             for i in range(n):
                 for jj in range(M):
                     DT[i, jj] += f[i]
-            _matmul(Kq, DT[:, :M], D2T[:, :M])
+            matmul_double(Kq, DT[:, :M], D2T[:, :M])
             for jj in range(M):
                 for a in range(nm):
                     i = mx[a]
