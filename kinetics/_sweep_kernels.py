@@ -522,38 +522,39 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
                         ss = _sign(Dq[a]) if abs(Dq[a]) > Nq[a] else 0
                         if ss != 0 and ss != sg:
                             bad = True
-            # + to - changes: one per species, no minimum, no unknown point inside
+            # sign changes between consecutive significant points: every + to - change is a
+            # local maximum, refined on its interval; the highest is the candidate for the
+            # global one (a - to + change, a minimum, needs nothing); a change across points
+            # of unknown sign has no one-interval bracket: the general route
             if not bad:
                 for a in range(nm):
                     ff = 0
                     lastsig = -1
-                    right = -1
-                    count = 0
                     for jj in range(M):
                         sj = s[jj, a]
                         if sj == 0:
                             continue
-                        if ff != 0 and sj != ff:
-                            count += 1
-                            if sj > 0 or jj - lastsig > 1:
-                                bad = True
-                            if sj < 0:
-                                right = jj
+                        if ff != 0 and sj != ff and jj - lastsig > 1:
+                            bad = True
+                            break
                         ff = sj
                         lastsig = jj
-                    if count > 1:
-                        bad = True
                     if bad:
                         break
-                    if right >= 0:
-                        jb = right - 1
+                    best = -1.0
+                    for jj in range(1, M):
+                        if not (s[jj - 1, a] > 0 and s[jj, a] < 0):
+                            continue
+                        jb = jj - 1
                         sparse = (kp, ki, kv, bp, bi, bv)
                         bracket = (taus[jb], X[jb], ilevel[jb])
                         _refine(
                             *sparse, f, sigma, PT, stop, sc, mx[a], True, 0.0, *bracket, res, rwork
                         )
-                        tmax[q, mx[a]] = res[0]
-                        cmax[q, mx[a]] = res[1]
+                        if res[1] > best:  # the first of equal heights, as analysis does
+                            best = res[1]
+                            tmax[q, mx[a]] = res[0]
+                            cmax[q, mx[a]] = res[1]
         # half-lives: first significant fall below half the start value
         if not bad:
             for a in range(hl.shape[0]):

@@ -644,3 +644,47 @@ def test_batched_summaries_equal_analysis_on_random_networks():
                         assert got[q][m, i] == pytest.approx(want, rel=1e-9, abs=1e-300)
                     checked += 1
     assert checked > 500
+
+
+def test_batched_summaries_with_two_maxima_and_a_minimum(monkeypatch):
+    """An intermediate fed twice, first fast and then late through a slow detour, has a
+    maximum, a minimum and a second maximum; the compiled scan refines both maxima and
+    keeps the higher one, as kinetics.analysis.summarise does, without the one-by-one
+    route (the case is constructed here, the reference is analysis.summarise)."""
+    import kinetics.sweep_summary as batch
+
+    names = ["A", "B", "C", "D", "E"]
+    # A -> B (kab), B -> C (0.5), D -> E (0.01), E -> B (0.01), 1/s; A and D start
+    kab = np.array([1.0, 0.3, 2.0, 1.0])
+    K = np.zeros((4, 5, 5))
+    for m, k in enumerate(kab):
+        for src, dst, rate in ((0, 1, k), (1, 2, 0.5), (3, 4, 0.01), (4, 1, 0.01)):
+            K[m, dst, src] += rate
+            K[m, src, src] -= rate
+    c0 = np.zeros((4, 5))
+    c0[:, 3] = 1.0
+    c0[:, 0] = [1.0, 1.0, 1.0, 1e-3]  # the last member: the late maximum is the higher one
+    used_general_route = []
+    original = batch._reference
+    monkeypatch.setattr(
+        batch,
+        "_reference",
+        lambda *a: used_general_route.append(list(a[-1])) or original(*a),
+    )
+    got = batch.summarise_batch(K, c0, None, t_window=1000.0)
+    assert used_general_route == []
+    for m in range(4):
+        ref = summarise(K[m], c0[m], names, t_window=1000.0)
+        for i, name in enumerate(names):
+            for q in QUANTITIES:
+                want = getattr(ref[name], q)
+                if want is None:
+                    assert math.isnan(got[q][m, i]), (m, q, name)
+                else:
+                    assert got[q][m, i] == pytest.approx(want, rel=1e-9, abs=1e-300), (m, q, name)
+    # B really has two maxima (analysis), and the global one is the early one, then the late
+    from kinetics.analysis import intermediate_maxima
+
+    assert len(intermediate_maxima(K[0], c0[0], 1)) == 2
+    assert got["t_max"][0, 1] < 10.0
+    assert got["t_max"][3, 1] > 50.0
