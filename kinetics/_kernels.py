@@ -47,11 +47,9 @@ from numba import njit
 _SPLITTER = 134217729.0  # 2**27 + 1, Veltkamp splitting constant (Dekker 1971, sec. 5)
 
 _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
-# small helpers are inlined into their callers (numba IR inlining)
-_INLINE = {**_JIT, "inline": "always"}
 
 
-@njit(**_INLINE)
+@njit(**_JIT)
 def two_prod(a, b):
     """Error-free product ``p + e == a * b`` (Dekker's TwoProduct)."""
     p = a * b
@@ -65,7 +63,7 @@ def two_prod(a, b):
     return p, e
 
 
-@njit(**_INLINE)
+@njit(**_JIT)
 def two_sum(a, b):
     """Error-free sum ``s + e == a + b`` (Knuth's TwoSum)."""
     s = a + b
@@ -78,7 +76,7 @@ def two_sum(a, b):
 _LN2 = (0.6931471805599453, 2.3190468138462996e-17, 5.707708438416212e-34)
 
 
-@njit(**_INLINE)
+@njit(**_JIT)
 def _dd_add(ah, al, bh, bl):
     """Double-double sum, either sign (the accurate variant of Bailey's QD library)."""
     s, e = two_sum(ah, bh)
@@ -174,7 +172,36 @@ def negative_offdiagonal(K):
     return False
 
 
-@njit(**_INLINE)
+@njit(**_JIT)
+def copy_pair(Ah, Al, Bh, Bl):
+    """``B = A`` for a pair of 2-D arrays (explicit loops: a slice assignment costs numba
+    seconds of compilation per call site)."""
+    n, m = Ah.shape
+    for i in range(n):
+        for j in range(m):
+            Bh[i, j] = Ah[i, j]
+            Bl[i, j] = Al[i, j]
+
+
+@njit(**_JIT)
+def copy(A, B):
+    """``B = A`` for 2-D arrays, by explicit loops (see :func:`copy_pair`)."""
+    n, m = A.shape
+    for i in range(n):
+        for j in range(m):
+            B[i, j] = A[i, j]
+
+
+@njit(**_JIT)
+def fill(A, value):
+    """Every entry of the 2-D array ``A`` set to ``value``."""
+    n, m = A.shape
+    for i in range(n):
+        for j in range(m):
+            A[i, j] = value
+
+
+@njit(**_JIT)
 def matmul_double(A, B, out):
     """``out = A B`` in plain double for nonnegative data; zero entries of ``A`` are skipped."""
     n, k = A.shape
@@ -197,7 +224,7 @@ def product(Ah, Al, Bh, Bl, Ch, Cl, dd):
     m = Bh.shape[1]
     if not dd:
         matmul_double(Ah, Bh, Ch)
-        Cl[:] = 0.0
+        fill(Cl, 0.0)
         return
     # Veltkamp halves of the right factor, once per product
     B1 = np.empty((k, m))
@@ -242,7 +269,7 @@ def product(Ah, Al, Bh, Bl, Ch, Cl, dd):
             Ch[i, j] = hi
 
 
-@njit(**_INLINE)
+@njit(**_JIT)
 def _scale_add(Th, Tl, Ph, Pl, ch, cl, dd):
     """``T += c P`` elementwise (nonnegative ``c``, ``P``)."""
     n, m = Th.shape
@@ -268,8 +295,7 @@ def _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh, Fl):
     Pl = np.zeros((s + 1, n, n))
     for i in range(n):
         Ph[0, i, i] = 1.0
-    Ph[1] = Yh
-    Pl[1] = Yl
+    copy_pair(Yh, Yl, Ph[1], Pl[1])
     for q in range(2, s + 1):
         product(Ph[q - 1], Pl[q - 1], Yh, Yl, Ph[q], Pl[q], dd)
     # Horner in Y^s over the blocks sum_l c_(i s + l) Y^l
@@ -280,8 +306,7 @@ def _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh, Fl):
     for blk in range(r, -1, -1):
         if blk < r:
             product(Th, Tl, Ph[s], Pl[s], Wh, Wl, dd)
-            Th[:] = Wh
-            Tl[:] = Wl
+            copy_pair(Wh, Wl, Th, Tl)
         for q in range(s):
             _scale_add(Th, Tl, Ph[q], Pl[q], ih[blk * s + q], il[blk * s + q], dd)
     # factor exp(-sigma t / 2^j), then the squarings
@@ -297,10 +322,8 @@ def _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh, Fl):
                 Th[a, b] *= eh
     for _ in range(j):
         product(Th, Tl, Th, Tl, Wh, Wl, dd)
-        Th[:] = Wh
-        Tl[:] = Wl
-    Fh[:] = Th
-    Fl[:] = Tl
+        copy_pair(Wh, Wl, Th, Tl)
+    copy_pair(Th, Tl, Fh, Fl)
 
 
 @njit(**_JIT)
@@ -334,7 +357,7 @@ def exponentials(A, t, sigma, j, s, r, ih, il, dd, Fh, Fl, Y):
                         x = x + sigma[q]
                     Yh[a, c] = x * tt
                     Yl[a, c] = 0.0
-        Y[q] = Yh
+        copy(Yh, Y[q])
         # the factor exp(-sigma t / 2^j); sigma t exact by TwoProduct, the scaling exact
         if dd:
             xh, xl = two_prod(sigma[q], t[q])
@@ -355,19 +378,19 @@ def truncation_ratios(Y, F, power, coef, tiny):
     Z = np.empty((n, n))
     for q in range(b):
         # G = Y^power by binary powering (nonnegative, plain double)
-        G[:] = 0.0
+        fill(G, 0.0)
         for i in range(n):
             G[i, i] = 1.0
-        W[:] = Y[q]
+        copy(Y[q], W)
         e = power
         while e > 0:
             if e & 1:
                 product(G, zero, W, zero, Z, zero, False)
-                G[:] = Z
+                copy(Z, G)
             e >>= 1
             if e:
                 product(W, zero, W, zero, Z, zero, False)
-                W[:] = Z
+                copy(Z, W)
         product(G, zero, F[q], zero, Z, zero, False)
         worst = 0.0
         for a in range(n):
@@ -421,8 +444,7 @@ def grid_powers(Fh, Fl, x0h, x0l, columns, skip, dd, X, row0):
             have += need
             if have < columns:
                 product(Th, Tl, Th, Tl, Wh, Wl, dd[q])  # (F^T)^2 = (F^2)^T
-                Th[:] = Wh
-                Tl[:] = Wl
+                copy_pair(Wh, Wl, Th, Tl)
         for k in range(skip, columns):
             for i in range(N):
                 X[q, row0 + k - skip, i] = max(Vh[k, i] + Vl[k, i], 0.0)
@@ -465,3 +487,17 @@ def apply(Fh, Fl, vh, vl, dd, oh, ol):
     """``o = F v`` per member: (b, N, N) times (b, N, c)."""
     for q in range(Fh.shape[0]):
         product(Fh[q], Fl[q], vh[q], vl[q], oh[q], ol[q], dd[q])
+
+
+def on_disk(kernel) -> bool:
+    """Whether numba's on-disk cache holds compiled code for ``kernel``.
+
+    Used only to tell the user that the first run compiles; True when numba's cache
+    layout cannot be read (a future numba), so that nothing is said.
+    """
+    from pathlib import Path
+
+    try:
+        return Path(kernel._cache._cache_file._index_path).exists()
+    except AttributeError:
+        return True

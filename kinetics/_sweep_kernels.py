@@ -61,7 +61,7 @@ def _matvec_t(AT, x, out):
             out[i] += AT[j, i] * xj
 
 
-@njit(**_INLINE)
+@njit(**_JIT)
 def _flush(M):
     n, m = M.shape
     for i in range(n):
@@ -114,9 +114,9 @@ def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
     for level in range(1, top + 1):
         m = max(m, degree[level])
     powers = np.empty((m + 1, na, na))
-    powers[0] = 0.0
     for i in range(na):
-        powers[0, i, i] = 1.0
+        for j in range(na):
+            powers[0, i, j] = 1.0 if i == j else 0.0
     for k in range(1, m + 1):
         # B^k = B B^(k-1): one row operation per rate (B is as sparse as the scheme)
         for i in range(na):
@@ -183,7 +183,7 @@ def _spmv(ptr, idx, val, x, out):
         out[i] = _row_dot(ptr, idx, val, i, x)
 
 
-@njit(**_INLINE)
+@njit(**_JIT)
 def _derivatives(kp, ki, kv, diag, f, c, mx, D, D2, N, work):
     """``D = (K c + f)_i``, ``D2 = (K (K c + f))_i`` and the noise level ``N`` for ``mx``.
 
@@ -252,7 +252,8 @@ def _refine(
     """
     na = x_a.shape[0]
     x, xa, W, D, mark, need = work
-    xa[:] = x_a
+    for i in range(na):
+        xa[i] = x_a[i]
     ga = _g(kp, ki, kv, f, xa, sp, deriv, level)
     _matvec_t(P[lev], xa, x)
     gb = _g(kp, ki, kv, f, x, sp, deriv, level)
@@ -273,7 +274,8 @@ def _refine(
                 shift = k - 1.0
                 found = True
                 break
-            xa[:] = x
+            for i in range(na):
+                xa[i] = x[i]
             g_prev = g
         if not found:  # in the last quarter
             ga = g_prev
@@ -282,7 +284,8 @@ def _refine(
     # 2. Newton on the Taylor series of the last bracket [tau_a, tau_a + w]
     w = _step(lev)
     J = na + NEWTON_TERMS
-    W[0] = xa
+    for i in range(na):
+        W[0, i] = xa[i]
     for k in range(1, J + 1):
         _spmv(bp, bi, bv, W[k - 1], x)
         for i in range(na):
@@ -345,7 +348,7 @@ def _refine(
     out[1] = height
 
 
-@njit(**_INLINE)
+@njit(**_JIT)
 def _hermite_hit(g0, g1, m0, m1, tol, sg):
     """A sign change of the cubic Hermite model at the interior sixteenths."""
     for q in range(1, 16):
@@ -406,6 +409,7 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
     bi = np.empty(na * na, dtype=np.int64)
     bv = np.empty(na * na)
     x = np.empty(na)
+    y = np.empty(na)
     Dq = np.empty(nm)
     Nq = np.empty(nm)
     D2q = np.empty(nm)
@@ -509,11 +513,13 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
                 if not flagged:
                     continue
                 # sample the interval at its quarters with the next lower level
-                x[:] = X[jj]
+                for i in range(na):
+                    y[i] = X[jj, i]
                 Pm = PT[ilevel[jj] - 1]
                 for _ in range(RATIO - 1):
-                    y = x.copy()
                     _matvec_t(Pm, y, x)
+                    for i in range(na):
+                        y[i] = x[i]
                     _derivatives(kp, ki, kv, diag, f, x, mx, Dq, D2q, Nq, work)
                     for a in range(nm):
                         if not flags[a]:

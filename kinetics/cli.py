@@ -109,6 +109,25 @@ def _caution(quiet: bool) -> None:
         click.echo(CAUTION, err=True)
 
 
+FIRST_USE = (
+    "kinetics: compiling the engine for its first use on this installation "
+    "(once, about 10 s; later runs load it from disk)"
+)
+
+
+def first_use_note(sweeps: bool = False) -> None:
+    """Say on stderr that the compiled kernels are built now, when they are not on disk."""
+    from kinetics import _kernels
+
+    kernels = [_kernels.exponentials]
+    if sweeps:
+        from kinetics import _sweep_kernels
+
+        kernels.append(_sweep_kernels.summarise_members)
+    if not all(_kernels.on_disk(k) for k in kernels):
+        click.echo(FIRST_USE, err=True)
+
+
 @cli.command()
 @click.argument("scheme_file", type=click.Path(dir_okay=True, path_type=Path))
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of tables.")
@@ -300,6 +319,7 @@ def solve(
     if species:
         settings["species"] = species
     _caution(no_caution)
+    first_use_note()
     with progress(2 + len(paths), "solving") as bar:
         result, summary = _solve_and_summarise(scheme, times, time_unit, bar)
         document = solution_json(result, time_unit, summary, settings)
@@ -389,6 +409,7 @@ def report(
     species = _species_list(species_text, scheme)
     digest = hashlib.sha256(Path(scheme_file).read_bytes()).hexdigest()
     _caution(no_caution)
+    first_use_note()
     with progress(4, "solving") as bar:
         result, summary = _solve_and_summarise(scheme, times, time_unit, bar)
         bar.describe("drawing")

@@ -194,6 +194,9 @@ def fit(
     for path, sets in runs:
         conditions = dict(parse_condition(text, scheme) for text in sets)
         datasets.append(read_measurements(path, scheme, conditions))
+    from .cli import first_use_note
+
+    first_use_note()
     result = run_fit(
         scheme,
         datasets,

@@ -319,14 +319,16 @@ def _expm_group(A, t, sigma, plan: _Plan):
     use_dd = plan.route == "double-double"
     ih, il = dd.inverse_factorials(plan.degree)
     if not use_dd:
+        # zero low parts, read-only like the cached ones (one compiled signature for both)
         il = np.zeros_like(ih)
+        il.flags.writeable = False
     A = np.ascontiguousarray(A, dtype=float)
     Fh = np.empty_like(A)
     Fl = np.empty_like(A)
     Y = np.empty_like(A)
     _kernels.exponentials(
         A, np.ascontiguousarray(t, dtype=float), np.ascontiguousarray(sigma, dtype=float),
-        plan.j, plan.ps, plan.pr, ih, il, use_dd, Fh, Fl, Y,
+        plan.j, plan.ps, plan.pr, ih, il, np.bool_(use_dd), Fh, Fl, Y,
     )  # fmt: skip
     m = plan.degree
     ratio = _kernels.truncation_ratios(Y, Fh, m + 1, math.exp(-math.lgamma(m + 2)), TINY)

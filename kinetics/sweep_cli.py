@@ -419,6 +419,9 @@ def sweep(
             )
     if not no_caution:
         click.echo(CAUTION, err=True)
+    from .cli import first_use_note
+
+    first_use_note(sweeps=True)
 
     from .terminal import progress
 

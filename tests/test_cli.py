@@ -125,7 +125,10 @@ def test_wide_table_is_not_truncated_in_a_pipe(tmp_path, capsys, monkeypatch):
     assert "…" not in out
 
 
-def test_species_option_limits_the_table(chain, capsys):
+def test_species_option_limits_the_table(chain, capsys, monkeypatch):
+    from kinetics import _kernels
+
+    monkeypatch.setattr(_kernels, "on_disk", lambda kernel: True)  # compiled before
     status, out, err = run(
         capsys, "solve", chain, "--until", "1h", "--points", "3", "--species", "B", "--no-caution"
     )
@@ -135,12 +138,36 @@ def test_species_option_limits_the_table(chain, capsys):
     assert err == ""
 
 
-def test_no_caution_flag_and_quiet_progress(chain, capsys):
+def test_no_caution_flag_and_quiet_progress(chain, capsys, monkeypatch):
+    from kinetics import _kernels
+
+    monkeypatch.setattr(_kernels, "on_disk", lambda kernel: True)  # compiled before
     status, _out, err = run(
         capsys, "solve", chain, "--until", "1h", "--points", "3", "--no-caution"
     )
     assert status == 0
     assert err == ""  # no caution, no progress bar when stderr is not a terminal
+
+
+def test_first_use_note_when_the_engine_is_not_compiled_yet(chain, capsys, monkeypatch):
+    from kinetics import _kernels
+
+    monkeypatch.setattr(_kernels, "on_disk", lambda kernel: False)
+    status, _out, err = run(
+        capsys, "solve", chain, "--until", "1h", "--points", "3", "--no-caution"
+    )
+    assert status == 0
+    assert err == (
+        "kinetics: compiling the engine for its first use on this installation "
+        "(once, about 10 s; later runs load it from disk)\n"
+    )
+
+
+def test_kernels_are_found_on_disk_after_a_solve(chain, capsys):
+    from kinetics import _kernels
+
+    assert run(capsys, "solve", chain, "--until", "1h", "--points", "3")[0] == 0
+    assert _kernels.on_disk(_kernels.exponentials)
 
 
 def test_caution_is_the_short_form_of_safety_md():
