@@ -20,13 +20,13 @@ Every kernel takes a flag ``dd`` per call or per member:
 
 Numba compiles with strict IEEE semantics (no ``fastmath``, no contraction of
 ``a * b + c`` into a fused multiply-add), which the error-free transformations
-rely on; ``tests/test_kernels.py`` checks TwoProduct and the products against exact rational
-arithmetic.  Zero entries of the left factor are skipped, which makes products
+rely on; ``tests/test_kernels.py`` checks TwoProduct and the products against
+exact rational arithmetic.  Zero entries of the left factor are skipped, which makes products
 of the sparse, often triangular matrices of reaction schemes cheaper.
 
 The compiled code is cached on disk next to this module (numba ``cache=True``),
-so only the very first call after installation pays the compilation (a few
-seconds).
+so only the very first call after installation pays the compilation (about
+5 s; :func:`on_disk` lets the command line say so).
 
 References
 ----------
