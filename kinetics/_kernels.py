@@ -45,6 +45,9 @@ import numpy as np
 from numba import njit
 
 _SPLITTER = 134217729.0  # 2**27 + 1, Veltkamp splitting constant (Dekker 1971, sec. 5)
+#: plain-double products with at least this many multiply-adds go to BLAS (the loops
+#: win below, where a call's overhead dominates)
+BLAS_FROM = 48**3
 
 _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
 
@@ -223,7 +226,11 @@ def product(Ah, Al, Bh, Bl, Ch, Cl, dd):
     n, k = Ah.shape
     m = Bh.shape[1]
     if not dd:
-        matmul_double(Ah, Bh, Ch)
+        if n * k * m >= BLAS_FROM:
+            # large plain-double products (schemes of 65-200 species): BLAS
+            copy(np.dot(Ah, Bh), Ch)
+        else:
+            matmul_double(Ah, Bh, Ch)
         fill(Cl, 0.0)
         return
     # Veltkamp halves of the right factor, once per product
