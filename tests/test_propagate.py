@@ -15,7 +15,7 @@ from scipy.integrate import solve_ivp
 
 from kinetics.errors import GrowthError, UsageError
 from kinetics.propagate import (
-    DENSE_MAX,
+    DENSE_DOUBLE_MAX,
     expm_nonnegative,
     propagate,
     propagate_batch,
@@ -292,15 +292,18 @@ def sparse_chain(ks):
 
 
 def test_block_route_matches_dense_engine():
+    # the block route itself (the public functions send schemes above DENSE_DOUBLE_MAX
+    # species there; see test_large_scheme_takes_the_block_route)
+    from kinetics._blocks import propagate_blocks
+
     n = 80
-    assert n > DENSE_MAX
     ks = np.logspace(-3, 1, n)
     ks[40:44] = 0.05  # repeated constants
     K = sparse_chain(ks)
     c0 = np.zeros(n)
     c0[0], c0[50] = 1.0, 0.5
     t = np.linspace(0, 200, 21)
-    c = propagate(K, c0, t)
+    c, _bound = propagate_blocks(K, c0, t, None)
     assert np.all(c >= 0)
     # reference: the dense double-double engine on the same matrix (checked
     # against mpmath in test_reference_expm.py)
@@ -310,6 +313,8 @@ def test_block_route_matches_dense_engine():
 
 
 def test_block_route_permuted_scheme_with_cycle_and_feed():
+    from kinetics._blocks import propagate_blocks
+
     rng = np.random.default_rng(11)
     n = 70
     K = np.zeros((n, n))
@@ -323,11 +328,28 @@ def test_block_route_permuted_scheme_with_cycle_and_feed():
     c0 = rng.uniform(0, 1, n)
     feed = np.zeros(n)
     feed[perm.tolist().index(0)] = 0.01
-    t = [0.0, 0.5, 3.0, 3.5, 40.0]
-    c = propagate(scipy.sparse.csr_array(Kp), c0, t, feed)
+    t = np.array([0.0, 0.5, 3.0, 3.5, 40.0])
+    c, _bound = propagate_blocks(scipy.sparse.csr_array(Kp), c0, t, feed)
     ref = propagate_batch(Kp[None], c0, t, feed[None])[0]
     big = ref > 1e-100
     np.testing.assert_allclose(c[big], ref[big], rtol=1e-10, atol=0)
+
+
+def test_large_scheme_takes_the_block_route():
+    n = DENSE_DOUBLE_MAX + 40
+    ks = np.logspace(-3, 1, n)
+    K = sparse_chain(ks)
+    c0 = np.zeros(n)
+    c0[0] = 1.0
+    t = np.linspace(0, 100, 11)
+    out = propagate_certified(K, c0, t)
+    assert out.precision == "blocks"
+    assert np.all(out.concentrations >= 0)
+    # reference: the dense double-double engine on the same matrix (checked against
+    # mpmath in test_reference_expm.py)
+    ref = propagate_batch(K.toarray()[None], c0, t, precision="double-double")[0]
+    big = ref > 1e-100
+    np.testing.assert_allclose(out.concentrations[big], ref[big], rtol=1e-10, atol=0)
 
 
 def test_small_sparse_input_equals_dense():
