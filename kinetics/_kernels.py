@@ -179,11 +179,8 @@ def negative_offdiagonal(K):
 def copy_pair(Ah, Al, Bh, Bl):
     """``B = A`` for a pair of 2-D arrays (explicit loops: a slice assignment costs numba
     seconds of compilation per call site)."""
-    n, m = Ah.shape
-    for i in range(n):
-        for j in range(m):
-            Bh[i, j] = Ah[i, j]
-            Bl[i, j] = Al[i, j]
+    copy(Ah, Bh)
+    copy(Al, Bl)
 
 
 @njit(**_JIT)
