@@ -161,6 +161,38 @@ def bench_chain():
     print(f"total at 1000 s (leaky end): {mass[-1]:.16f}")
 
 
+def random_sparse_scheme(n, p, rng):
+    """An invented random scheme: each ordered pair linked with probability p."""
+    K = np.zeros((n, n))
+    mask = (rng.random((n, n)) < p) & ~np.eye(n, dtype=bool)
+    K[mask] = 10.0 ** rng.uniform(-3, 1, mask.sum())
+    K -= np.diag(K.sum(axis=0))
+    return K
+
+
+def bench_mid():
+    print("\n== random sparse schemes of 100 and 200 species, 201 points to 100 s ==")
+    rng = np.random.default_rng(0)
+    for n, p in ((100, 0.05), (200, 0.03)):
+        K = random_sparse_scheme(n, p, rng)
+        c0 = np.zeros(n)
+        c0[0] = 1.0
+        t = np.linspace(0.0, 100.0, 201)
+
+        def lsoda(K=K, c0=c0, t=t):
+            return solve_ivp(lambda _t, y: K @ y, (0, 100), c0, method="LSODA", t_eval=t,
+                             rtol=1e-10, atol=1e-20, jac=lambda _t, _y: K).y.T  # fmt: skip
+
+        t_ls, _ = best_of(lsoda, repeat=3)
+        line = f"n = {n}: LSODA {t_ls * 1e3:7.1f} ms"
+        for prec in ("double", "double-double"):
+            t_p, _ = best_of(
+                lambda K=K, c0=c0, t=t, prec=prec: propagate(K, c0, t, precision=prec), repeat=5
+            )
+            line += f" | {prec} {t_p * 1e3:6.1f} ms ({t_ls / t_p:5.1f}x)"
+        print(line)
+
+
 def bench_batch():
     print("\n== batch: 10,000 parameter sets of the 10-species scheme, 201 points ==")
     rng = np.random.default_rng(5)
@@ -232,6 +264,7 @@ def main():
     bench_small()
     if not args.skip_chain:
         bench_chain()
+    bench_mid()
     bench_batch()
     if args.accuracy:
         accuracy(args.accuracy)
