@@ -41,6 +41,8 @@ doi:10.1137/0202007
 
 from __future__ import annotations
 
+import threading
+
 import numpy as np
 from numba import njit
 
@@ -225,7 +227,7 @@ def product(Ah, Al, Bh, Bl, Ch, Cl, dd):
     if not dd:
         if n * k * m >= BLAS_FROM:
             # large plain-double products (schemes of 65-200 species): BLAS
-            copy(np.dot(Ah, Bh), Ch)
+            np.dot(Ah, Bh, Ch)
         else:
             matmul_double(Ah, Bh, Ch)
         fill(Cl, 0.0)
@@ -277,11 +279,13 @@ def product(Ah, Al, Bh, Bl, Ch, Cl, dd):
 def _scale_add(Th, Tl, Ph, Pl, ch, cl, dd):
     """``T += c P`` elementwise (nonnegative ``c``, ``P``)."""
     n, m = Th.shape
+    if not dd:  # the route is decided outside the loops, so the plain one vectorises
+        for i in range(n):
+            for j in range(m):
+                Th[i, j] += ch * Ph[i, j]
+        return
     for i in range(n):
         for j in range(m):
-            if not dd:
-                Th[i, j] += ch * Ph[i, j]
-                continue
             p, e = two_prod(ch, Ph[i, j])
             e += ch * Pl[i, j] + cl * Ph[i, j]
             s, f = two_sum(Th[i, j], p)
@@ -292,21 +296,23 @@ def _scale_add(Th, Tl, Ph, Pl, ch, cl, dd):
 
 
 @njit(**_JIT)
-def _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh, Fl):
-    """``(e_h + e_l) T_m(Y)^(2^j)`` with Paterson-Stockmeyer (degree ``s (r + 1) - 1``)."""
+def _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh, Fl, Ph, Pl, Th, Tl, Wh, Wl):
+    """``(e_h + e_l) T_m(Y)^(2^j)`` with Paterson-Stockmeyer (degree ``s (r + 1) - 1``).
+
+    ``Ph, Pl`` (s + 1, n, n) and ``Th, Tl, Wh, Wl`` (n, n) are scratch space, allocated
+    once per stack (fresh memory per member made the double route twice as slow).
+    """
     n = Yh.shape[0]
-    Ph = np.zeros((s + 1, n, n))
-    Pl = np.zeros((s + 1, n, n))
+    fill(Ph[0], 0.0)
+    fill(Pl[0], 0.0)
     for i in range(n):
         Ph[0, i, i] = 1.0
     copy_pair(Yh, Yl, Ph[1], Pl[1])
     for q in range(2, s + 1):
         product(Ph[q - 1], Pl[q - 1], Yh, Yl, Ph[q], Pl[q], dd)
     # Horner in Y^s over the blocks sum_l c_(i s + l) Y^l
-    Th = np.zeros((n, n))
-    Tl = np.zeros((n, n))
-    Wh = np.empty((n, n))
-    Wl = np.empty((n, n))
+    fill(Th, 0.0)
+    fill(Tl, 0.0)
     for blk in range(r, -1, -1):
         if blk < r:
             product(Th, Tl, Ph[s], Pl[s], Wh, Wl, dd)
@@ -314,15 +320,17 @@ def _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh, Fl):
         for q in range(s):
             _scale_add(Th, Tl, Ph[q], Pl[q], ih[blk * s + q], il[blk * s + q], dd)
     # factor exp(-sigma t / 2^j), then the squarings
-    for a in range(n):
-        for b in range(n):
-            if dd:
+    if dd:
+        for a in range(n):
+            for b in range(n):
                 p, e = two_prod(eh, Th[a, b])
                 e += eh * Tl[a, b] + el * Th[a, b]
                 hi = p + e
                 Tl[a, b] = e - (hi - p)
                 Th[a, b] = hi
-            else:
+    else:
+        for a in range(n):
+            for b in range(n):
                 Th[a, b] *= eh
     for _ in range(j):
         product(Th, Tl, Th, Tl, Wh, Wl, dd)
@@ -331,17 +339,18 @@ def _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh, Fl):
 
 
 @njit(**_JIT)
-def exponentials(A, t, sigma, j, s, r, ih, il, dd, Fh, Fl, Y):
+def exponentials(A, t, sigma, j, s, r, ih, il, dd, Fh, Fl, Y, P, M):
     """Exponentials ``exp(t_q A_q)`` of a stack sharing one plan, shift and scale inside.
 
     ``A`` (b, n, n) essentially nonnegative; ``sigma`` the shifts; ``ih + il`` the
     inverse factorials.  Writes ``Fh``, ``Fl`` and the scaled shifted matrices
-    ``Y = t B / 2^j`` (double).
+    ``Y = t B / 2^j`` (double).  ``P`` (2, s + 1, n, n) and ``M`` (6, n, n) are scratch
+    space (see :func:`scratch`).
     """
     b, n, _ = A.shape
     scale = 2.0**-j
-    Yh = np.empty((n, n))
-    Yl = np.empty((n, n))
+    Yh, Yl, Th, Tl, Wh, Wl = M[0], M[1], M[2], M[3], M[4], M[5]
+    Ph, Pl = P[0], P[1]
     for q in range(b):
         tt = t[q] * scale  # exact: power-of-two scaling
         for a in range(n):
@@ -368,18 +377,19 @@ def exponentials(A, t, sigma, j, s, r, ih, il, dd, Fh, Fl, Y):
             eh, el = dd_exp(-xh * scale, -xl * scale)
         else:
             eh, el = np.exp(-sigma[q] * t[q] * scale), 0.0
-        _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh[q], Fl[q])
+        _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh[q], Fl[q], Ph, Pl, Th, Tl, Wh, Wl)
 
 
 @njit(**_JIT)
-def truncation_ratios(Y, F, power, coef, tiny):
-    """Largest ``(coef Y^power F)_ab / F_ab`` per member (entries ``F_ab > tiny``)."""
+def truncation_ratios(Y, F, power, coef, tiny, M):
+    """Largest ``(coef Y^power F)_ab / F_ab`` per member (entries ``F_ab > tiny``).
+
+    ``M`` (4, n, n) is scratch space (see :func:`scratch`).
+    """
     b, n, _ = Y.shape
     out = np.zeros(b)
-    zero = np.zeros((n, n))
-    G = np.empty((n, n))
-    W = np.empty((n, n))
-    Z = np.empty((n, n))
+    zero, G, W, Z = M[0], M[1], M[2], M[3]
+    fill(zero, 0.0)
     for q in range(b):
         # G = Y^power by binary powering (nonnegative, plain double)
         fill(G, 0.0)
@@ -505,3 +515,23 @@ def on_disk(kernel) -> bool:
         return Path(kernel._cache._cache_file._index_path).exists()
     except AttributeError:
         return True
+
+
+_scratch = threading.local()
+
+
+def scratch(name: str, shape: tuple[int, ...]) -> np.ndarray:
+    """A float64 work array of the calling thread, reused from call to call.
+
+    Kernels get their scratch space from here instead of allocating it: arrays above
+    glibc's mmap threshold (128 kB) are mapped and unmapped on every call otherwise, and
+    the page faults doubled the cost of a 100-species exponential.  One array per name
+    and thread; its contents are undefined.
+    """
+    pool = getattr(_scratch, "pool", None)
+    if pool is None:
+        pool = _scratch.pool = {}
+    a = pool.get(name)
+    if a is None or a.shape != shape:
+        a = pool[name] = np.empty(shape)
+    return a

@@ -326,13 +326,17 @@ def _expm_group(A, t, sigma, plan: _Plan):
     A = np.ascontiguousarray(A, dtype=float)
     Fh = np.empty_like(A)
     Fl = np.empty_like(A)
-    Y = np.empty_like(A)
+    n = A.shape[-1]
+    Y = _kernels.scratch("scaled", A.shape)  # internal to this function
     _kernels.exponentials(
         A, np.ascontiguousarray(t, dtype=float), np.ascontiguousarray(sigma, dtype=float),
         plan.j, plan.ps, plan.pr, ih, il, np.bool_(use_dd), Fh, Fl, Y,
+        _kernels.scratch("powers", (2, plan.ps + 1, n, n)), _kernels.scratch("mats", (6, n, n)),
     )  # fmt: skip
     m = plan.degree
-    ratio = _kernels.truncation_ratios(Y, Fh, m + 1, math.exp(-math.lgamma(m + 2)), TINY)
+    ratio = _kernels.truncation_ratios(
+        Y, Fh, m + 1, math.exp(-math.lgamma(m + 2)), TINY, _kernels.scratch("mats", (6, n, n))
+    )
     return Fh, Fl, 2.0 * 2.0**plan.j * ratio
 
 
