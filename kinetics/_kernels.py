@@ -384,7 +384,7 @@ def exponentials(A, t, sigma, j, s, r, ih, il, dd, Fh, Fl, Y, P, M):
 def truncation_ratios(Y, F, power, coef, tiny, M):
     """Largest ``(coef Y^power F)_ab / F_ab`` per member (entries ``F_ab > tiny``).
 
-    ``M`` (4, n, n) is scratch space (see :func:`scratch`).
+    ``M`` (at least 4, n, n) is scratch space (see :func:`scratch`).
     """
     b, n, _ = Y.shape
     out = np.zeros(b)

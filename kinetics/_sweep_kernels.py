@@ -183,23 +183,26 @@ def _spmv(ptr, idx, val, x, out):
         out[i] = _row_dot(ptr, idx, val, i, x)
 
 
-@njit(**_JIT)
-def _derivatives(kp, ki, kv, diag, f, c, mx, D, D2, N, work):
-    """``D = (K c + f)_i``, ``D2 = (K (K c + f))_i`` and the noise level ``N`` for ``mx``.
+@njit(**_INLINE)
+def _noise(d, fi, kii, ci):
+    r"""Noise level :math:`10^{-12} (|K| c + |f|)_i` of :math:`d = (K c + f)_i`.
 
-    ``K`` in compressed rows ``kp, ki, kv`` with diagonal ``diag``;
-    ``N = 1e-12 (|K| c + |f|)_i``, with :math:`(|K| c)_i = (K c)_i - k_{ii} c_i +
-    |k_{ii}| c_i` (off-diagonal rates are >= 0).  ``work`` is an (n,) scratch array.
+    :math:`(|K| c)_i = (K c)_i - k_{ii} c_i + |k_{ii}| c_i`, as off-diagonal rates are
+    >= 0, so it needs no second product.
     """
-    n = diag.shape[0]
-    for i in range(n):
-        work[i] = _row_dot(kp, ki, kv, i, c) + f[i]
+    return REL_NOISE_D * ((d - fi) - kii * ci + abs(kii) * ci + abs(fi))
+
+
+@njit(**_JIT)
+def _derivatives(kp, ki, kv, diag, f, c, mx, D, N):
+    """``D = (K c + f)_i`` and its noise level ``N`` for the species ``mx``.
+
+    ``K`` in compressed rows ``kp, ki, kv`` with diagonal ``diag``.
+    """
     for a in range(mx.shape[0]):
         i = mx[a]
-        D[a] = work[i]
-        D2[a] = _row_dot(kp, ki, kv, i, work)
-        kc = work[i] - f[i]
-        N[a] = REL_NOISE_D * (kc - diag[i] * c[i] + abs(diag[i]) * c[i] + abs(f[i]))
+        D[a] = _row_dot(kp, ki, kv, i, c) + f[i]
+        N[a] = _noise(D[a], f[i], diag[i], c[i])
 
 
 @njit(**_INLINE)
@@ -397,7 +400,6 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
     N = np.empty((total, nm))
     s = np.zeros((total, nm), dtype=np.int8)
     flags = np.zeros(nm, dtype=np.bool_)
-    work = np.empty(n)
     CT = np.empty((n, total))
     DT = np.empty((n, total))
     D2T = np.empty((n, total))
@@ -412,7 +414,6 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
     y = np.empty(na)
     Dq = np.empty(nm)
     Nq = np.empty(nm)
-    D2q = np.empty(nm)
     res = np.empty(2)
     rwork = (
         np.empty(na), np.empty(na), np.empty((na + NEWTON_TERMS + 1, na)), np.empty(n),
@@ -430,17 +431,16 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
         sigma = 0.0
         for a in range(na):
             sigma = max(sigma, -A[a, a])
-        norm = 0.0
-        for c in range(n):
-            col = 0.0
-            for a in range(n):
-                v = A[a, c] + (sigma if a == c else 0.0)
-                col += abs(v)
-            norm = max(norm, col)
-        norm += sigma
         for a in range(na):
             for c in range(na):
                 B[a, c] = A[a, c] + (sigma if a == c else 0.0)
+        norm = 0.0  # largest column sum of |B| over the species, plus the shift
+        for c in range(n):
+            col = 0.0
+            for a in range(n):
+                col += abs(B[a, c])
+            norm = max(norm, col)
+        norm += sigma
         _sparse(Kq, kp, ki, kv)
         _sparse(B, bp, bi, bv)
         _ladder(B, bp, bi, bv, sigma, norm, levels, P)
@@ -486,11 +486,7 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
                     d = DT[i, jj]
                     D[jj, a] = d
                     D2[jj, a] = D2T[i, jj]
-                    # 1e-12 (|K| c + |f|)_i, with (|K| c)_i = (K c)_i - k_ii c_i + |k_ii| c_i
-                    ci = X[jj, i]
-                    N[jj, a] = REL_NOISE_D * (
-                        (d - f[i]) - diag[i] * ci + abs(diag[i]) * ci + abs(f[i])
-                    )
+                    N[jj, a] = _noise(d, f[i], diag[i], X[jj, i])
                     s[jj, a] = _sign(d) if abs(d) > N[jj, a] else 0
             for jj in range(M - 1):
                 flagged = False
@@ -520,7 +516,7 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
                     _matvec_t(Pm, y, x)
                     for i in range(na):
                         y[i] = x[i]
-                    _derivatives(kp, ki, kv, diag, f, x, mx, Dq, D2q, Nq, work)
+                    _derivatives(kp, ki, kv, diag, f, x, mx, Dq, Nq)
                     for a in range(nm):
                         if not flags[a]:
                             continue

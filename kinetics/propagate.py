@@ -328,16 +328,23 @@ def _expm_group(A, t, sigma, plan: _Plan):
     Fl = np.empty_like(A)
     n = A.shape[-1]
     Y = _kernels.scratch("scaled", A.shape)  # internal to this function
+    mats = _kernels.scratch("mats", (6, n, n))  # work matrices of both kernels below
     _kernels.exponentials(
         A, np.ascontiguousarray(t, dtype=float), np.ascontiguousarray(sigma, dtype=float),
         plan.j, plan.ps, plan.pr, ih, il, np.bool_(use_dd), Fh, Fl, Y,
-        _kernels.scratch("powers", (2, plan.ps + 1, n, n)), _kernels.scratch("mats", (6, n, n)),
+        _kernels.scratch("powers", (2, plan.ps + 1, n, n)), mats,
     )  # fmt: skip
     m = plan.degree
-    ratio = _kernels.truncation_ratios(
-        Y, Fh, m + 1, math.exp(-math.lgamma(m + 2)), TINY, _kernels.scratch("mats", (6, n, n))
-    )
+    ratio = _kernels.truncation_ratios(Y, Fh, m + 1, math.exp(-math.lgamma(m + 2)), TINY, mats)
     return Fh, Fl, 2.0 * 2.0**plan.j * ratio
+
+
+def _distinct(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Distinct values of ``x`` and the index of each entry among them (no sort for one)."""
+    if x.size == 1:  # a single solve
+        return x, np.zeros(1, dtype=np.intp)
+    values, inverse = np.unique(x, return_inverse=True)
+    return values, inverse.reshape(-1)
 
 
 def _expm_stack(A, t, precision: str, target: float | None = None):
@@ -364,11 +371,7 @@ def _expm_stack(A, t, precision: str, target: float | None = None):
     with np.errstate(divide="ignore"):
         bq = np.where(beta > 0, np.exp2(np.ceil(4.0 * np.log2(beta)) / 4.0), 0.0)
     bq = np.maximum(bq, beta)
-    if b == 1:  # a single solve: nothing to sort
-        values, which = bq, np.zeros(1, dtype=np.intp)
-    else:
-        values, which = np.unique(bq, return_inverse=True)
-        which = which.reshape(-1)
+    values, which = _distinct(bq)
     if precision == "auto":
         # plain double where its a priori bound is small enough, else double-double
         arith = np.array(
@@ -377,12 +380,8 @@ def _expm_stack(A, t, precision: str, target: float | None = None):
         route_dd = arith[which] + 2 * _U * (beta + n) > AUTO_RTOL
     else:
         route_dd = np.full(b, precision == "double-double")
-    codes = 2 * which + route_dd
-    if b == 1:
-        kinds, members_of = codes, [np.zeros(1, dtype=np.intp)]
-    else:
-        kinds, inverse = np.unique(codes, return_inverse=True)
-        members_of = [np.flatnonzero(inverse == u) for u in range(kinds.size)]
+    kinds, inverse = _distinct(2 * which + route_dd)
+    members_of = [np.flatnonzero(inverse == u) for u in range(kinds.size)]
     groups: dict[tuple, np.ndarray] = {}
     plans: dict[tuple, _Plan] = {}
     for code, sel in zip(kinds.tolist(), members_of, strict=True):

@@ -22,7 +22,7 @@ magnitudes = st.one_of(
 @settings(max_examples=300, deadline=None)
 @given(magnitudes, magnitudes)
 def test_two_prod_is_error_free(a, b):
-    # Dekker 1971, sec. 5: p + e equals a * b exactly (checked in exact rationals)
+    # Dekker 1971 (section from memory): p + e equals a * b exactly (checked in exact rationals)
     p, e = _kernels.two_prod(a, b)
     assert Fraction(p) + Fraction(e) == Fraction(a) * Fraction(b)
     assert p == a * b
@@ -57,8 +57,8 @@ def _random_dd(rng, shape, zeros=0.3):
 
 @pytest.mark.parametrize(("n", "k", "m"), [(1, 1, 1), (3, 5, 2), (10, 10, 10), (7, 12, 33)])
 def test_double_double_product_is_accurate_entry_by_entry(n, k, m):
-    # Ogita, Rump & Oishi 2005, Prop. 5.5 for nonnegative data: each entry of the product
-    # is accurate to about k^2 2^-106 relative, however small it is
+    # Ogita, Rump & Oishi 2005 (Prop. 5.5, from memory) for nonnegative data: each entry of
+    # the product is accurate to about k^2 2^-106 relative, however small it is
     rng = np.random.default_rng(n * 100 + k * 10 + m)
     Ah, Al = _random_dd(rng, (n, k))
     Bh, Bl = _random_dd(rng, (k, m))
@@ -79,7 +79,7 @@ def test_double_double_product_is_accurate_entry_by_entry(n, k, m):
 
 def test_double_product_is_within_gamma_k():
     # plain double, nonnegative data: relative error at most k u / (1 - k u) per entry
-    # (Higham, Accuracy and Stability of Numerical Algorithms, 2nd ed., sec. 3.5)
+    # (Higham, Accuracy and Stability of Numerical Algorithms, 2nd ed., ch. 3; from memory)
     rng = np.random.default_rng(3)
     Ah, _ = _random_dd(rng, (6, 9))
     Bh, _ = _random_dd(rng, (9, 4))
