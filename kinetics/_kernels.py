@@ -130,26 +130,40 @@ def dd_exp(xh, xl):
 
 
 @njit(**_JIT)
-def shift_and_norm(A, t, sigma, beta):
-    """Shift ``sigma = max(-a_ii)`` and ``beta = max(||t B||_1, |sigma| t)``, per member."""
+def shift_and_norm(A, Al, t, sigma, sigma_lo, beta):
+    r"""Shift :math:`\sigma = \max_i(-a_{ii})` and :math:`\beta = \max(\|tB\|_1, \sigma t)`.
+
+    ``A + Al`` is the matrix as a double-double pair (``Al`` the low parts, zero for a
+    matrix given in doubles), so :math:`\sigma` is the exact largest outflow
+    ``sigma + sigma_lo``; the norm uses the high parts (it only chooses plans and scales
+    bounds, and is rounded up to a quarter power of two by the caller).
+    """
     b, n, _ = A.shape
     for q in range(b):
-        sg = -A[q, 0, 0] if n else 0.0
+        sh = 0.0
+        sl = 0.0
+        if n:
+            sh = -A[q, 0, 0]
+            sl = -Al[q, 0, 0]
         for i in range(1, n):
-            if -A[q, i, i] > sg:
-                sg = -A[q, i, i]
+            xh = -A[q, i, i]
+            xl = -Al[q, i, i]
+            if xh > sh or (xh == sh and xl > sl):
+                sh = xh
+                sl = xl
         norm = 0.0
         for c in range(n):
             col = 0.0
             for a in range(n):
                 x = A[q, a, c]
                 if a == c:
-                    x += sg
+                    x += sh
                 col += abs(x)
             if col > norm:
                 norm = col
-        sigma[q] = sg
-        beta[q] = max(norm, abs(sg)) * t[q]
+        sigma[q] = sh
+        sigma_lo[q] = sl
+        beta[q] = max(norm, abs(sh)) * t[q]
 
 
 @njit(**_JIT)
@@ -339,13 +353,16 @@ def _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh, Fl, Ph, Pl, Th, Tl, Wh
 
 
 @njit(**_JIT)
-def exponentials(A, t, sigma, j, s, r, ih, il, dd, Fh, Fl, Y, P, M):
-    """Exponentials ``exp(t_q A_q)`` of a stack sharing one plan, shift and scale inside.
+def exponentials(A, Al, t, sigma, sigma_lo, j, s, r, ih, il, dd, Fh, Fl, Y, P, M):
+    r"""Exponentials ``exp(t_q (A_q + Al_q))`` of a stack sharing one plan, shift and scale inside.
 
-    ``A`` (b, n, n) essentially nonnegative; ``sigma`` the shifts; ``ih + il`` the
-    inverse factorials.  Writes ``Fh``, ``Fl`` and the scaled shifted matrices
-    ``Y = t B / 2^j`` (double).  ``P`` (2, s + 1, n, n) and ``M`` (6, n, n) are scratch
-    space (see :func:`scratch`).
+    ``A + Al`` (b, n, n) essentially nonnegative, a double-double pair (``Al`` zero for a
+    matrix given in doubles); ``sigma + sigma_lo`` the shifts (:func:`shift_and_norm`);
+    ``ih + il`` the inverse factorials.  The shifted diagonal :math:`\sigma - q_i` is
+    formed in double-double from the exact outflow :math:`q_i`, so a large outflow does
+    not leave a rounding error that acts like a leak over long times.  Writes ``Fh``,
+    ``Fl`` and the scaled shifted matrices ``Y = t B / 2^j`` (double).  ``P``
+    (2, s + 1, n, n) and ``M`` (6, n, n) are scratch space (see :func:`scratch`).
     """
     b, n, _ = A.shape
     scale = 2.0**-j
@@ -355,28 +372,30 @@ def exponentials(A, t, sigma, j, s, r, ih, il, dd, Fh, Fl, Y, P, M):
         tt = t[q] * scale  # exact: power-of-two scaling
         for a in range(n):
             for c in range(n):
-                x = A[q, a, c]
+                xh = A[q, a, c]
+                xl = Al[q, a, c]
+                if a == c:  # B = A + sigma I in double-double (nonnegative by the choice of sigma)
+                    xh, xl = _dd_add(xh, xl, sigma[q], sigma_lo[q])
+                    if xh < 0.0:
+                        xh = 0.0
+                        xl = 0.0
                 if dd:
-                    lo = 0.0
-                    if a == c:  # B = A + sigma I exactly (TwoSum on the diagonal)
-                        x, lo = two_sum(x, sigma[q])
-                    p, e = two_prod(x, tt)
-                    e += lo * tt
+                    p, e = two_prod(xh, tt)
+                    e += xl * tt
                     hi = p + e
                     Yh[a, c] = hi
                     Yl[a, c] = e - (hi - p)
                 else:
-                    if a == c:
-                        x = x + sigma[q]
-                    Yh[a, c] = x * tt
+                    Yh[a, c] = (xh + xl) * tt
                     Yl[a, c] = 0.0
         copy(Yh, Y[q])
-        # the factor exp(-sigma t / 2^j); sigma t exact by TwoProduct, the scaling exact
+        # the factor exp(-sigma t / 2^j); sigma t by TwoProduct, the scaling exact
+        xh, xl = two_prod(sigma[q], t[q])
+        xl += sigma_lo[q] * t[q]
         if dd:
-            xh, xl = two_prod(sigma[q], t[q])
             eh, el = dd_exp(-xh * scale, -xl * scale)
         else:
-            eh, el = np.exp(-sigma[q] * t[q] * scale), 0.0
+            eh, el = np.exp(-(xh + xl) * scale), 0.0
         _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh[q], Fl[q], Ph, Pl, Th, Tl, Wh, Wl)
 
 
@@ -470,8 +489,9 @@ def grid_bounds(eps, gamma, columns, skip, start_bound, bound, row0):
 
     The factor ``F^(2^i)`` of doubling level ``i`` has the bound
     :math:`\epsilon_{i+1} = 2\epsilon_i + \epsilon_i^2 + \gamma (1 + \epsilon_i)^2`
-    (Xue & Ye 2013, Theorem 3.2) and each product with it adds :math:`\gamma`; column
-    ``k`` adds the bounds of the levels of the set bits of ``k`` to ``start_bound``.
+    (:func:`squared_bound`) and each product with it adds :math:`\gamma`; column ``k``
+    composes the bounds of the levels of the set bits of ``k`` with ``start_bound``
+    (relative errors of nonnegative factors multiply: :math:`(1+a)(1+b)-1`).
     """
     levels = np.empty(64)
     for q in range(eps.shape[0]):
@@ -480,17 +500,17 @@ def grid_bounds(eps, gamma, columns, skip, start_bound, bound, row0):
         count = 0
         have = 1
         while have < columns:
-            levels[count] = e + g
+            levels[count] = e + g + e * g  # a product with F^(2^i): (1 + e)(1 + g) - 1
             count += 1
             have += min(have, columns - have)
-            e = 2.0 * e + e * e + g * (1.0 + e) ** 2
+            e = squared_bound(e, g)
         for k in range(skip, columns):
             acc = start_bound[q]
             bits = k
             level = 0
             while bits:
                 if bits & 1:
-                    acc += levels[level]
+                    acc = acc + levels[level] + acc * levels[level]  # errors compose by products
                 bits >>= 1
                 level += 1
             bound[q, row0 + k - skip] = acc
@@ -535,3 +555,65 @@ def scratch(name: str, shape: tuple[int, ...]) -> np.ndarray:
     if a is None or a.shape != shape:
         a = pool[name] = np.empty(shape)
     return a
+
+
+@njit(**_JIT)
+def squared_bound(eps, gamma):
+    r"""Relative bound of :math:`F^2` from the bound ``eps`` of ``F`` (nonnegative ``F``).
+
+    .. math:: \epsilon' = 2\epsilon + \epsilon^2 + \gamma (1 + \epsilon)^2
+
+    (Xue & Ye 2013, Theorem 3.2), with :math:`\gamma` the relative error of one
+    nonnegative product in the route's arithmetic.
+    """
+    return 2.0 * eps + eps * eps + gamma * (1.0 + eps) ** 2
+
+
+@njit(**_JIT)
+def grid_residuals(times, start, t_first, dt, skip, out):
+    """``out[k] = times[k] - T_k`` for the exact times ``T_k`` the grid route reaches.
+
+    ``T_k = t_first + (k - start) dt`` (or ``(k - start + 1) dt`` with ``skip``), formed
+    with TwoProduct so that the residual is exact up to one rounding of a tiny number.
+    """
+    for k in range(start, times.shape[0]):
+        steps = float(k - start + skip)
+        p, e = two_prod(steps, dt)
+        base = 0.0 if skip else t_first
+        s, f = two_sum(base, p)
+        f += e
+        out[k] = (times[k] - s) - f
+
+
+@njit(**_JIT)
+def residual_bounds(A, X, delta, species, gamma, tiny, bound):
+    r"""Add the effect of the time residuals ``delta`` to the bounds, per member and time.
+
+    The grid route reaches :math:`T_k = t_k - \delta_k` instead of :math:`t_k`; to first
+    order the relative change of :math:`x_i` is :math:`|\delta_k|\,|(Ax)_i|/x_i`.  The
+    numerator is bounded by :math:`|\mathrm{fl}(Ax)_i| + \gamma (|A|x)_i` (rounding
+    allowance of the computed product), doubled for the first-order step.  Only the
+    first ``species`` rows count (the feed row of an augmented matrix is constant).
+    """
+    b, p, N = X.shape
+    for k in range(p):
+        d = abs(delta[k])
+        if d == 0.0:
+            continue
+        for q in range(b):
+            worst = 0.0
+            for i in range(species):
+                x = X[q, k, i]
+                if x <= tiny:
+                    continue
+                s = 0.0
+                a = 0.0
+                for c in range(N):
+                    v = A[q, i, c] * X[q, k, c]
+                    s += v
+                    a += abs(v)
+                r = (abs(s) + gamma * a) / x
+                if r > worst:
+                    worst = r
+            e = np.expm1(2.0 * d * worst)
+            bound[q, k] = bound[q, k] + e + bound[q, k] * e

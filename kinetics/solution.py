@@ -213,9 +213,9 @@ def solve(scheme: Scheme, times) -> Solution:
     0.367879441171
     """
     t = check_times(times)
-    K = scheme.rate_matrix_sparse()
+    Kh, Kl = scheme.rate_matrix_pair()
     feed = scheme.feed_vector if scheme.feed else None
-    result = propagate_certified(K, scheme.initial_vector, t, feed)
+    result = propagate_certified(Kh, scheme.initial_vector, t, feed, K_low=Kl)
     return Solution(
         t,
         scheme.species_names,

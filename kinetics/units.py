@@ -37,7 +37,8 @@ __all__ = [
 
 #: Molar gas constant R [J/(mol K)]: exactly N_A k = 6.02214076e23 * 1.380649e-23
 #: = 8.31446261815324 in the 2019 SI (CODATA 2018; both factors are defined exactly).
-GAS_CONSTANT = 8.31446261815324
+GAS_CONSTANT_EXACT = Fraction("8.31446261815324")
+GAS_CONSTANT = float(GAS_CONSTANT_EXACT)
 
 _SUPERSCRIPTS = str.maketrans("⁰¹²³⁴⁵⁶⁷⁸⁹⁻⁺", "0123456789-+")
 _PIECE = re.compile(r"\(|\)|/|\*|[^\s*/·⋅()]+")
