@@ -226,6 +226,7 @@ class _Plan:
     j: int  # number of squarings
     ps: int  # Paterson-Stockmeyer block size s
     pr: int  # number of Horner steps r; Taylor degree m = s (r + 1) - 1
+    ymax: float = 16.0  # largest scaled norm beta / 2^j left to the Taylor sum
 
     @property
     def degree(self) -> int:
@@ -255,7 +256,7 @@ def _plan(
     number of matrix products, :math:`(s-1) + r + j`.
     """
     if beta <= 0.0:
-        return _Plan(route, 0, 2, 0)
+        return _Plan(route, 0, 2, 0, ymax)
     jmin = max(0, math.ceil(math.log2(beta) - math.log2(ymax)))
     best = None
     log_target = math.log(target)
@@ -283,7 +284,7 @@ def _plan(
         s, r = _ps_blocks(max(m, 2))
         cost = (s - 1) + r + square_cost * j
         if best is None or cost < best[0]:
-            best = (cost, _Plan(route, j, s, r))
+            best = (cost, _Plan(route, j, s, r, ymax))
     return best[1]
 
 
@@ -299,14 +300,25 @@ _INPUT_RELATIVE = {False: 2 * _U, True: 8 * dd.DD_UNIT}
 _DIAGONAL_ABSOLUTE = {False: 0.0, True: 8 * dd.DD_UNIT}
 
 
-def _squarings_bound(eps0, gamma: float, j: int):
-    """Bound after ``j`` squarings of a factor with bound ``eps0`` (array or float)."""
+@lru_cache(maxsize=4096)
+def _arithmetic_bound(n: int, plan: _Plan) -> float:
+    """Rounding bound of the Taylor sum, the shift factor and the squarings of one plan.
+
+    The plan was chosen so that :math:`y = \\beta/2^j \\le` ``plan.ymax`` (:func:`_plan`),
+    which bounds the error of the factor :math:`e^{-\\sigma t/2^j}` (its argument is at
+    most :math:`y`) independently of the member.
+    """
     from kinetics import _kernels
 
-    eps = np.asarray(eps0, dtype=float).copy()
-    for _ in range(j):
+    route_dd = plan.route == "double-double"
+    unit = dd.DD_UNIT if route_dd else _U
+    gamma = _gamma(n, route_dd)
+    m = plan.degree
+    factor = (8 if route_dd else 4) * unit * (1 + plan.ymax)
+    eps = (m + 4) * gamma + (m + 8) * unit + factor
+    for _ in range(plan.j):
         eps = _kernels.squared_bound(eps, gamma)
-    return eps
+    return float(eps)
 
 
 def _rounding_bound(beta, n: int, plan: _Plan, unit: float | None = None):
@@ -322,26 +334,19 @@ def _rounding_bound(beta, n: int, plan: _Plan, unit: float | None = None):
       nonnegative matrix (Xue & Ye 2008) the exponential moves by at most
       :math:`2\delta(\beta + n) + \eta\beta`, taken through ``expm1``;
     * Taylor sum of nonnegative terms and the factor :math:`e^{-\sigma t/2^j}`:
-      :math:`\epsilon_0 = (m + 4)\gamma + (m + 8)u + c\,u (1 + \beta/2^j)` (the argument
-      of the factor is :math:`\sigma t/2^j \le \beta/2^j`);
+      :math:`\epsilon_0 = (m + 4)\gamma + (m + 8)u + c\,u (1 + y)` with :math:`y \le` ``plan.ymax``
+      the largest argument of the factor;
     * each squaring :math:`\epsilon_{i+1} = 2\epsilon_i + \epsilon_i^2 + \gamma (1 +
       \epsilon_i)^2` (Xue & Ye 2013, Theorem 3.2), with :math:`\gamma = nu/(1 - nu)`
       for a nonnegative product in double and :math:`(n^2 + n + 4) u_{dd}` in
-      double-double;
+      double-double (:func:`_arithmetic_bound`);
 
     composed as :math:`(1 + \epsilon_{in})(1 + \epsilon_j) - 1`.
     """
     route_dd = plan.route == "double-double"
-    unit = dd.DD_UNIT if route_dd else _U
-    beta = np.asarray(beta, dtype=float)
-    gamma = _gamma(n, route_dd)
-    m = plan.degree
-    y = beta / 2.0**plan.j
-    factor = (8 if route_dd else 4) * unit * (1 + y)
-    eps = _squarings_bound((m + 4) * gamma + (m + 8) * unit + factor, gamma, plan.j)
     delta = _INPUT_RELATIVE[route_dd]
-    eps_in = np.expm1(2 * delta * (beta + n) + _DIAGONAL_ABSOLUTE[route_dd] * beta)
-    return eps_in + eps + eps_in * eps
+    eps_in = np.expm1(2 * delta * (np.asarray(beta) + n) + _DIAGONAL_ABSOLUTE[route_dd] * beta)
+    return _compose(eps_in, _arithmetic_bound(n, plan))
 
 
 def _expm_group(A, Al, t, sigma, sigma_lo, plan: _Plan):
@@ -392,16 +397,16 @@ def _distinct(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return values, inverse.reshape(-1)
 
 
-def _grid_growth(eps, gamma: float, columns: int):
+def _grid_growth(eps: float, gamma: float, columns: int) -> float:
     """Worst bound over a doubling grid of ``columns`` states (all levels used once)."""
-    acc = np.zeros_like(eps)
-    e = eps
+    from kinetics import _kernels
+
+    acc = 0.0
     have = 1
     while have < columns:
-        level = e + gamma + e * gamma
-        acc = acc + level + acc * level
+        acc = _compose(acc, _compose(eps, gamma))
         have += min(have, columns - have)
-        e = np.asarray(_squarings_bound(e, gamma, 1))
+        eps = _kernels.squared_bound(eps, gamma)
     return acc
 
 
@@ -460,7 +465,7 @@ def _expm_stack(A, Al, t, precision: str, target: float | None = None, columns: 
             h, lo, trunc = _expm_group(A[idx], Al[idx], t[idx], sigma[idx], sigma_lo[idx], plan)
             if (trunc <= tgt).all() or plan.pr > 80:
                 break
-            plan = _Plan(plan.route, plan.j, plan.ps, plan.pr + 2)
+            plan = _Plan(plan.route, plan.j, plan.ps, plan.pr + 2, plan.ymax)
         Fh[idx], Fl[idx] = h, lo
         is_dd[idx] = plan.route == "double-double"
         rounding = _rounding_bound(beta[idx], n, plan)
@@ -472,8 +477,8 @@ def _expm_stack(A, Al, t, precision: str, target: float | None = None, columns: 
 def _predicted_double(beta: float, n: int, columns: int) -> float:
     """A priori bound of the double route for norm ``beta`` over a grid of ``columns``."""
     plan = _plan(beta, n, "double", _U / 2)
-    eps = float(_rounding_bound(beta, n, plan)) + _U
-    return float(_grid_growth(np.array([eps]), _gamma(n, False), columns)[0]) + eps
+    eps = _compose(float(_rounding_bound(beta, n, plan)), _U)
+    return _compose(_grid_growth(eps, _gamma(n, False), columns), eps)
 
 
 # --------------------------------------------------------------------------
