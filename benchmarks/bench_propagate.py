@@ -298,6 +298,11 @@ def accuracy(cases):
 
 
 def main():
+    from threadpoolctl import threadpool_limits
+
+    # one BLAS thread for every timing, baselines included: on two cores threaded BLAS
+    # on these sizes is several times slower, and it would flatter the ratios
+    threadpool_limits(limits=1, user_api="blas")
     ap = argparse.ArgumentParser(description=__doc__)
     ap.add_argument("--accuracy", type=int, default=0, help="number of random networks")
     ap.add_argument("--skip-chain", action="store_true")

@@ -322,14 +322,16 @@ def _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh, Fl, Ph, Pl, Th, Tl, Wh
     for i in range(n):
         Ph[0, i, i] = 1.0
     copy_pair(Yh, Yl, Ph[1], Pl[1])
+    # powers of Y, and Horner steps, with the sparser factor on the left (its zero
+    # entries are skipped; everything here is a polynomial in Y, so the factors commute)
     for q in range(2, s + 1):
-        product(Ph[q - 1], Pl[q - 1], Yh, Yl, Ph[q], Pl[q], dd)
+        product(Yh, Yl, Ph[q - 1], Pl[q - 1], Ph[q], Pl[q], dd)
     # Horner in Y^s over the blocks sum_l c_(i s + l) Y^l
     fill(Th, 0.0)
     fill(Tl, 0.0)
     for blk in range(r, -1, -1):
         if blk < r:
-            product(Th, Tl, Ph[s], Pl[s], Wh, Wl, dd)
+            product(Ph[s], Pl[s], Th, Tl, Wh, Wl, dd)
             copy_pair(Wh, Wl, Th, Tl)
         for q in range(s):
             _scale_add(Th, Tl, Ph[q], Pl[q], ih[blk * s + q], il[blk * s + q], dd)
@@ -443,77 +445,102 @@ def truncation_ratios(Y, F, power, coef, tiny, M):
 
 
 @njit(**_JIT)
-def grid_powers(Fh, Fl, x0h, x0l, columns, skip, dd, X, row0):
-    """States ``F^k x0`` for ``k = 0 .. columns - 1`` by doubling, per member.
+def grid_steps(Fh, Fl, x0h, x0l, columns, skip, dd, X, row0):
+    """States ``F^k x0`` for ``k = 0 .. columns - 1`` by repeated products, per member.
 
-    ``V <- [V, F^(2^i) V]``: state ``k`` passes through one product per set bit of
-    ``k``.  The states are kept as rows (``V[k] = F^k x0``), so a doubling step is the
-    product ``V[:need] (F^(2^i))^T`` of contiguous rows.  State ``k >= skip`` is rounded
-    to double and written to ``X[q, row0 + k - skip, :]`` (``X`` has shape (b, p, N)).
+    Each state is one product ``x_{k+1} = F x_k`` (as the row ``x_k^T F^T``, so that the
+    inner loop runs over contiguous entries), in double-double for members with ``dd``:
+    TwoProduct with the Veltkamp halves of :math:`F^T` computed once, TwoSum of the
+    running sums (Ogita, Rump & Oishi's ``Dot2``).  This costs ``columns`` matrix-vector
+    products and no squarings (doubling ``F`` would add one ``N^3`` product per level).
+    State ``k >= skip`` is rounded to double and written to ``X[q, row0 + k - skip, :]``
+    (``X`` has shape (b, p, N)).
     """
     b, N, _ = Fh.shape
-    Th = np.empty((N, N))  # (F^(2^i))^T
+    Th = np.empty((N, N))  # F^T and its Veltkamp halves
     Tl = np.empty((N, N))
-    Wh = np.empty((N, N))
-    Wl = np.empty((N, N))
-    Vh = np.empty((columns, N))
-    Vl = np.zeros((columns, N))
+    T1 = np.empty((N, N))
+    T2 = np.empty((N, N))
+    vh = np.empty(N)
+    vl = np.empty(N)
+    sh = np.empty(N)
+    se = np.empty(N)
     for q in range(b):
         for i in range(N):
             for j in range(N):
-                Th[j, i] = Fh[q, i, j]
+                x = Fh[q, i, j]
+                Th[j, i] = x
                 Tl[j, i] = Fl[q, i, j]
+                c = _SPLITTER * x
+                hi = c - (c - x)
+                T1[j, i] = hi
+                T2[j, i] = x - hi
         for i in range(N):
-            Vh[0, i] = x0h[q, i]
-            Vl[0, i] = x0l[q, i]
-        have = 1
-        while have < columns:
-            need = min(have, columns - have)
-            # the new rows do not overlap the ones they are computed from
-            product(
-                Vh[:need], Vl[:need], Th, Tl, Vh[have : have + need], Vl[have : have + need],
-                dd[q],
-            )  # fmt: skip
-            have += need
-            if have < columns:
-                product(Th, Tl, Th, Tl, Wh, Wl, dd[q])  # (F^T)^2 = (F^2)^T
-                copy_pair(Wh, Wl, Th, Tl)
-        for k in range(skip, columns):
+            vh[i] = x0h[q, i]
+            vl[i] = x0l[q, i]
+        if skip == 0:
             for i in range(N):
-                X[q, row0 + k - skip, i] = max(Vh[k, i] + Vl[k, i], 0.0)
+                X[q, row0, i] = max(vh[i] + vl[i], 0.0)
+        for k in range(1, columns):
+            for j in range(N):
+                sh[j] = 0.0
+                se[j] = 0.0
+            if dd[q]:
+                for r in range(N):
+                    a = vh[r]
+                    al = vl[r]
+                    if a == 0.0 and al == 0.0:
+                        continue
+                    c = _SPLITTER * a
+                    a1 = c - (c - a)
+                    a2 = a - a1
+                    for j in range(N):
+                        bb = Th[r, j]
+                        p = a * bb
+                        e = ((a1 * T1[r, j] - p) + a1 * T2[r, j] + a2 * T1[r, j]) + a2 * T2[r, j]
+                        e += a * Tl[r, j] + al * bb
+                        s0 = sh[j]
+                        s = s0 + p
+                        z = s - s0
+                        sh[j] = s
+                        se[j] += ((s0 - (s - z)) + (p - z)) + e
+                for j in range(N):
+                    hi = sh[j] + se[j]
+                    vl[j] = se[j] - (hi - sh[j])
+                    vh[j] = hi
+            else:
+                for r in range(N):
+                    a = vh[r]
+                    if a == 0.0:
+                        continue
+                    for j in range(N):
+                        sh[j] += a * Th[r, j]
+                for j in range(N):
+                    vh[j] = sh[j]
+                    vl[j] = 0.0
+            if k >= skip:
+                for i in range(N):
+                    X[q, row0 + k - skip, i] = max(vh[i] + vl[i], 0.0)
 
 
 @njit(**_JIT)
 def grid_bounds(eps, gamma, columns, skip, start_bound, bound, row0):
-    r"""Error bounds of the columns of :func:`grid_powers`, per member.
+    r"""Error bounds of the states of :func:`grid_steps`, per member.
 
-    The factor ``F^(2^i)`` of doubling level ``i`` has the bound
-    :math:`\epsilon_{i+1} = 2\epsilon_i + \epsilon_i^2 + \gamma (1 + \epsilon_i)^2`
-    (:func:`squared_bound`) and each product with it adds :math:`\gamma`; column ``k``
-    composes the bounds of the levels of the set bits of ``k`` with ``start_bound``
-    (relative errors of nonnegative factors multiply: :math:`(1+a)(1+b)-1`).
+    Each product with :math:`F` (bound :math:`\epsilon`) in arithmetic with product
+    error :math:`\gamma` multiplies the relative error by :math:`(1 + \epsilon)(1 +
+    \gamma)`: state ``k`` has :math:`(1 + s)\,((1 + \epsilon)(1 + \gamma))^k - 1` with
+    ``s`` the bound of the start state (relative errors of nonnegative factors
+    multiply).
     """
-    levels = np.empty(64)
     for q in range(eps.shape[0]):
-        e = eps[q]
-        g = gamma[q]
-        count = 0
-        have = 1
-        while have < columns:
-            levels[count] = e + g + e * g  # a product with F^(2^i): (1 + e)(1 + g) - 1
-            count += 1
-            have += min(have, columns - have)
-            e = squared_bound(e, g)
-        for k in range(skip, columns):
-            acc = start_bound[q]
-            bits = k
-            level = 0
-            while bits:
-                if bits & 1:
-                    acc = acc + levels[level] + acc * levels[level]  # errors compose by products
-                bits >>= 1
-                level += 1
-            bound[q, row0 + k - skip] = acc
+        step = eps[q] + gamma[q] + eps[q] * gamma[q]
+        acc = start_bound[q]
+        for k in range(columns):
+            if k:
+                acc = acc + step + acc * step
+            if k >= skip:
+                bound[q, row0 + k - skip] = acc
 
 
 @njit(**_JIT)

@@ -234,29 +234,46 @@ class _Plan:
 
 
 @lru_cache(maxsize=4096)
-def _ps_blocks(m: int) -> tuple[int, int]:
-    """Cheapest Paterson-Stockmeyer split (s, r) with s (r + 1) - 1 >= m."""
+def _ps_blocks(m: int, density: float = 1.0) -> tuple[int, int, float]:
+    """Cheapest Paterson-Stockmeyer split (s, r) with s (r + 1) - 1 >= m, and its cost.
+
+    Cost in dense products: the powers :math:`Y^2 .. Y^s` are products with ``Y`` on the
+    left (its zeros skipped, relative cost ``density``); each Horner step is a product
+    with :math:`Y^s` on the left, sparse only for ``s = 1`` (plain Horner).
+    """
     best = None
     for s in range(1, m + 2):
         r = max(0, math.ceil((m + 1) / s) - 1)
-        cost = (s - 1) + r
+        cost = (s - 1) * density + r * (density if s == 1 else 1.0)
         if best is None or cost < best[0]:
             best = (cost, s, r)
-    return best[1], best[2]
+    return best[1], best[2], best[0]
 
 
 @lru_cache(maxsize=4096)
 def _plan(
-    beta: float, n: int, route: str, target: float, ymax: float = 16.0, square_cost: float = 1.0
+    beta: float,
+    n: int,
+    route: str,
+    target: float,
+    ymax: float = 16.0,
+    square_cost: float = 1.0,
+    reach: int | None = None,
+    density: float = 1.0,
 ) -> _Plan:
     r"""Choose squarings j and Taylor degree m for ``||tB||_1 <= beta``.
 
     The scalar remainder estimate (Shao, Gao & Xue 2014, sec. 3) is
     :math:`2^j \, y^{m+1} e^{y}/(m+1)!` with :math:`y = \beta/2^j`; the cost is the
-    number of matrix products, :math:`(s-1) + r + j`.
+    number of dense matrix products (:func:`_ps_blocks`) plus ``j`` squarings.
+    ``reach`` is the longest shortest path of the species graph (default ``n - 1``,
+    a chain): an entry reached by a path of ``p`` steps needs the terms of degree
+    ``p`` and more, so the degree grows with it.  The plan is a guess checked a
+    posteriori (:func:`_expm_group`).
     """
     if beta <= 0.0:
         return _Plan(route, 0, 2, 0, ymax)
+    p_ = n - 1 if reach is None else max(0, min(reach, n - 1))
     jmin = max(0, math.ceil(math.log2(beta) - math.log2(ymax)))
     best = None
     log_target = math.log(target)
@@ -266,23 +283,24 @@ def _plan(
             break
         base = j * math.log(2.0) + y
         # the pattern of T_m(Y)^(2^j) holds every path of length <= m 2^j
-        m = max(1, math.ceil((n - 1) / 2.0**j))
+        m = max(1, math.ceil(p_ / 2.0**j))
         while base + (m + 1) * math.log(y) - math.lgamma(m + 2) > log_target and m < 1000:
             m += 1
         # entrywise, an entry reached by a path of p steps sees the scalar tail
         # shifted by p (interleavings of the path with the diagonal); the
         # squarings damp this, so add the longest path only for few squarings
-        m += (n - 1) if j <= 3 else (n - 1) // 2 if j <= 6 else 0
-        # an entry whose shortest path has p = n - 1 steps: relative truncation
-        # error about C(p, m + 1) / 2^(j m) (Taylor coefficients of T_m^N)
-        p_ = n - 1
+        m += p_ if j <= 3 else p_ // 2 if j <= 6 else 0
+        # an entry whose shortest path has p steps: relative truncation error about
+        # C(p, m + 1) / 2^(j m) (Taylor coefficients of T_m^N)
         while m + 1 <= p_ and (
             math.lgamma(p_ + 1) - math.lgamma(m + 2) - math.lgamma(p_ - m) - m * j * math.log(2.0)
             > log_target
         ):
             m += 1
-        s, r = _ps_blocks(max(m, 2))
-        cost = (s - 1) + r + square_cost * j
+        if m > _DEGREE_MAX and j < jmin + 11:
+            continue  # the a posteriori check forms Y^(m+1): keep its entries in range
+        s, r, cost = _ps_blocks(max(m, 2), density)
+        cost += square_cost * j
         if best is None or cost < best[0]:
             best = (cost, _Plan(route, j, s, r, ymax))
     return best[1]
@@ -389,6 +407,33 @@ def _expm_group(A, Al, t, sigma, sigma_lo, plan: _Plan):
     return Fh, Fl, np.where(r <= 0.5, 2.0 * r, np.inf)
 
 
+#: largest Taylor degree a plan prefers (powers of Y beyond it reach the subnormal
+#: range on stiff matrices, where products are slow)
+_DEGREE_MAX = 40
+#: below this size the plan assumes the longest path (n - 1) and a dense matrix
+_PATTERN_FROM = 33
+
+
+def _pattern(A) -> tuple[int | None, float]:
+    """Longest shortest path and density of the union of the patterns of a stack.
+
+    Both only steer the plan (:func:`_plan`); a union of patterns has shorter paths
+    than each member, and the a posteriori truncation check covers a plan that is
+    too optimistic.
+    """
+    N = A.shape[-1]
+    if N < _PATTERN_FROM:
+        return None, 1.0
+    from scipy.sparse.csgraph import shortest_path
+
+    links = (A != 0).any(axis=0)
+    np.fill_diagonal(links, False)
+    distances = shortest_path(scipy.sparse.csr_array(links), unweighted=True)
+    reach = int(distances[np.isfinite(distances)].max(initial=0))
+    density = math.ceil(16 * (links.sum() + N) / N**2) / 16  # rounded up: few plans
+    return reach, density
+
+
 def _distinct(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Distinct values of ``x`` and the index of each entry among them (no sort for one)."""
     if x.size == 1:  # a single solve
@@ -398,16 +443,8 @@ def _distinct(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _grid_growth(eps: float, gamma: float, columns: int) -> float:
-    """Worst bound over a doubling grid of ``columns`` states (all levels used once)."""
-    from kinetics import _kernels
-
-    acc = 0.0
-    have = 1
-    while have < columns:
-        acc = _compose(acc, _compose(eps, gamma))
-        have += min(have, columns - have)
-        eps = _kernels.squared_bound(eps, gamma)
-    return acc
+    """Bound of the last of ``columns`` states ``F^k x``, ``F`` with bound ``eps``."""
+    return math.expm1((columns - 1) * math.log1p(_compose(eps, gamma)))
 
 
 def _expm_stack(A, Al, t, precision: str, target: float | None = None, columns: int = 1):
@@ -417,7 +454,7 @@ def _expm_stack(A, Al, t, precision: str, target: float | None = None, columns: 
     bound of ``Fh + Fl`` against the exponential of the exact pair ``A + Al`` (before
     any rounding to double), ``is_dd[i]`` tells whether member ``i`` took the
     double-double route.  Under ``precision="auto"`` plain double is taken only where
-    its a priori bound, grown over a doubling grid of ``columns`` states, stays within
+    its a priori bound, grown over a grid of ``columns`` states, stays within
     :data:`AUTO_RTOL`.
     """
     from kinetics import _kernels
@@ -438,9 +475,12 @@ def _expm_stack(A, Al, t, precision: str, target: float | None = None, columns: 
         bq = np.where(beta > 0, np.exp2(np.ceil(4.0 * np.log2(beta)) / 4.0), 0.0)
     bq = np.maximum(bq, beta)
     values, which = _distinct(bq)
+    reach, density = _pattern(A)
     if precision == "auto":
         # plain double where its a priori bound (over the whole grid) is small enough
-        predicted = np.array([_predicted_double(v, n, columns) for v in values.tolist()])
+        predicted = np.array(
+            [_predicted_double(v, n, columns, reach, density) for v in values.tolist()]
+        )
         route_dd = predicted[which] > AUTO_RTOL
     else:
         route_dd = np.full(b, precision == "double-double")
@@ -452,7 +492,7 @@ def _expm_stack(A, Al, t, precision: str, target: float | None = None, columns: 
         v, use_dd = divmod(code, 2)
         route = "double-double" if use_dd else "double"
         tgt = target if target is not None else (2.0**-64 if use_dd else _U / 2)
-        p = _plan(float(values[v]), n, route, tgt)
+        p = _plan(float(values[v]), n, route, tgt, reach=reach, density=density)
         key = (p.route, p.j, p.ps, p.pr)
         groups[key] = np.concatenate([groups[key], sel]) if key in groups else sel
         plans[key] = p
@@ -474,9 +514,11 @@ def _expm_stack(A, Al, t, precision: str, target: float | None = None, columns: 
 
 
 @lru_cache(maxsize=4096)
-def _predicted_double(beta: float, n: int, columns: int) -> float:
+def _predicted_double(
+    beta: float, n: int, columns: int, reach: int | None = None, density: float = 1.0
+) -> float:
     """A priori bound of the double route for norm ``beta`` over a grid of ``columns``."""
-    plan = _plan(beta, n, "double", _U / 2)
+    plan = _plan(beta, n, "double", _U / 2, reach=reach, density=density)
     eps = _compose(float(_rounding_bound(beta, n, plan)), _U)
     return _compose(_grid_growth(eps, _gamma(n, False), columns), eps)
 
@@ -652,6 +694,19 @@ def _propagate_dense_stack(A, Al, x0, times, precision: str, species: int):
     """
     from kinetics import _kernels
 
+    if A.shape[-1] ** 3 < _kernels.BLAS_FROM:
+        return _propagate_dense_stack_run(A, Al, x0, times, precision, species)
+    from threadpoolctl import threadpool_limits
+
+    # the kernels call BLAS for plain-double products of this size; threaded BLAS on
+    # these matrices was 5-40 times slower on two cores (threads wait for each other)
+    with threadpool_limits(limits=1, user_api="blas"):
+        return _propagate_dense_stack_run(A, Al, x0, times, precision, species)
+
+
+def _propagate_dense_stack_run(A, Al, x0, times, precision: str, species: int):
+    from kinetics import _kernels
+
     b, N, _ = A.shape
     p = times.size
     X = np.empty((b, p, N))  # every row is written below (fresh pages are costly to zero)
@@ -691,8 +746,8 @@ def _propagate_dense_stack(A, Al, x0, times, precision: str, species: int):
             vh, vl = _mv(Fh, Fl, vh, vl, is_dd)
             cur_bound = _compose(eps, _gamma_stack(N, is_dd))
         Fh, Fl, eps, is_dd = exp_of(dt, columns=M + 1)
-        # states F^k v for k = 0..M by doubling: V <- [V, F^(2^i) V] (compiled)
-        _kernels.grid_powers(
+        # states F^k v for k = 0..M, one product each (compiled)
+        _kernels.grid_steps(
             Fh, Fl, vh[..., 0].copy(), vl[..., 0].copy(), M + 1, skip, np.asarray(is_dd), X, start
         )
         _kernels.grid_bounds(eps, _gamma_stack(N, is_dd), M + 1, skip, cur_bound, bound, start)
@@ -775,10 +830,11 @@ def propagate_certified(
 
     Notes
     -----
-    A uniform grid is propagated with powers of :math:`e^{K\Delta t}`
-    (:math:`F^{k}v` from :math:`F^{2^i}` by doubling); other grids interval by
-    interval.  All factors are nonnegative, so relative errors add up instead of
-    cancelling.  Time 0 returns ``c0`` exactly.
+    A uniform grid is propagated with one exponential :math:`F = e^{K\Delta t}` and
+    one product :math:`F v` per point; other grids interval by interval.  All factors
+    are nonnegative, so relative errors add up instead of cancelling.  Where the grid
+    reaches a time that differs from the requested one in the last bits, the bound
+    includes the effect of that residual.  Time 0 returns ``c0`` exactly.
 
     References
     ----------
