@@ -17,7 +17,7 @@ import click
 
 from . import __version__
 from .errors import KineticsError, UsageError
-from .overview import CAUTION  # the two-line short form of SAFETY.md
+from .overview import CAUTION, CHECK_TABLE_ROWS  # CAUTION: the short form of SAFETY.md
 
 _DURATION = re.compile(
     r"^\s*(?P<number>[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*(?P<unit>.*)$"
@@ -136,7 +136,13 @@ def first_use_note(sweeps: bool = False) -> None:
     is_flag=True,
     help="Report an atom imbalance without failing (as 'balance: lumped' in the file).",
 )
-def check(scheme_file, as_json, allow_imbalance):
+@click.option(
+    "--full-tables",
+    is_flag=True,
+    help="Print the species and steps tables however long (by default a scheme with more "
+    f"than {CHECK_TABLE_ROWS} species or steps gets an overview).",
+)
+def check(scheme_file, as_json, allow_imbalance, full_tables):
     """Check a scheme file and report species, steps, balance and structure.
 
     \b
@@ -152,7 +158,7 @@ def check(scheme_file, as_json, allow_imbalance):
     if as_json:
         click.echo(json.dumps(report, indent=2, allow_nan=False))
     else:
-        render_check(scheme, report)
+        render_check(scheme, report, full_tables=full_tables)
 
 
 def _grid(until, points, times_text):

@@ -28,6 +28,7 @@ if TYPE_CHECKING:
 
 __all__ = [
     "CAUTION",
+    "CHECK_TABLE_ROWS",
     "DEFINITIONS",
     "check_report",
     "compute_summary",
@@ -149,6 +150,12 @@ def _finite(x):
     x = float(x)
     return x if x == x and abs(x) != float("inf") else None
 
+
+#: Largest table ``kinetics check`` prints by default [rows]: above it a table is no
+#: longer read but scrolled, and drawing tens of thousands of rows takes seconds.  A
+#: scheme with more species or steps gets an overview instead (counts, the balance
+#: verdict and every problem found); ``--full-tables`` and ``--json`` give everything.
+CHECK_TABLE_ROWS = 200
 
 #: Largest scheme whose ``check --json`` carries the dense rate matrix.
 DENSE_JSON_MAX = 2000
