@@ -260,7 +260,9 @@ def solution_json(
     settings : dict, optional
         How the grid was asked for (``until``, ``points``, ``times``), as written.
     """
-    frame = solution.to_frame(time_unit)
+    from .solution import time_factor
+
+    times = solution.times / time_factor(time_unit)  # the time column of Solution.to_frame
     return {
         "source": solution.scheme.source,
         "title": solution.scheme.title,
@@ -272,7 +274,7 @@ def solution_json(
         "points": len(solution.times),
         "summary": summary,
         **({} if summary is not None else {"summary_note": SUMMARY_SKIPPED_NOTE}),
-        "times": frame.iloc[:, 0].tolist(),
+        "times": times.tolist(),
         "concentrations": {
             name: solution.concentrations[:, i].tolist() for i, name in enumerate(solution.species)
         },
