@@ -402,10 +402,12 @@ def exponentials(A, Al, t, sigma, sigma_lo, j, s, r, ih, il, dd, Fh, Fl, Y, P, M
 
 
 @njit(**_JIT)
-def truncation_ratios(Y, F, power, coef, tiny, M):
+def truncation_ratios(Y, F, power, coef, tiny, M, plain):
     """Largest ``(coef Y^power F)_ab / F_ab`` per member (entries ``F_ab > tiny``).
 
-    ``M`` (at least 4, n, n) is scratch space (see :func:`scratch`).
+    ``M`` (at least 4, n, n) is scratch space (see :func:`scratch`); ``plain`` is
+    ``np.bool_(False)`` (the products are in plain double; a flag rather than the literal
+    ``False`` so that :func:`product` is compiled once for both uses).
     """
     b, n, _ = Y.shape
     out = np.zeros(b)
@@ -420,13 +422,13 @@ def truncation_ratios(Y, F, power, coef, tiny, M):
         e = power
         while e > 0:
             if e & 1:
-                product(G, zero, W, zero, Z, zero, False)
+                product(G, zero, W, zero, Z, zero, plain)
                 copy(Z, G)
             e >>= 1
             if e:
-                product(W, zero, W, zero, Z, zero, False)
+                product(W, zero, W, zero, Z, zero, plain)
                 copy(Z, W)
-        product(G, zero, F[q], zero, Z, zero, False)
+        product(G, zero, F[q], zero, Z, zero, plain)
         worst = 0.0
         for a in range(n):
             for c in range(n):

@@ -402,7 +402,9 @@ def _expm_group(A, Al, t, sigma, sigma_lo, plan: _Plan):
         np.bool_(use_dd), Fh, Fl, Y, _kernels.scratch("powers", (2, plan.ps + 1, n, n)), mats,
     )  # fmt: skip
     m = plan.degree
-    ratio = _kernels.truncation_ratios(Y, Fh, m + 1, math.exp(-math.lgamma(m + 2)), TINY, mats)
+    ratio = _kernels.truncation_ratios(
+        Y, Fh, m + 1, math.exp(-math.lgamma(m + 2)), TINY, mats, np.bool_(False)
+    )
     r = 2.0**plan.j * ratio
     return Fh, Fl, np.where(r <= 0.5, 2.0 * r, np.inf)
 
