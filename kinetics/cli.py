@@ -8,8 +8,6 @@ clear message on stderr and no traceback (``--debug`` shows one).
 from __future__ import annotations
 
 import json
-import math
-import re
 import sys
 from pathlib import Path
 
@@ -18,68 +16,7 @@ import click
 from . import __version__
 from .errors import KineticsError, UsageError
 from .overview import CAUTION  # the two-line short form of SAFETY.md
-
-_DURATION = re.compile(
-    r"^\s*(?P<number>[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*(?P<unit>.*)$"
-)
-
-
-def parse_duration(text: str, option: str = "--until") -> tuple[float, str]:
-    """``"90 min"`` -> (5400.0, "min"): a duration in seconds and the unit as written."""
-    from .solution import time_factor
-
-    match = _DURATION.match(text)
-    if not match or not match["unit"].strip():
-        raise UsageError(
-            f"{option} {text!r} is not a duration with a unit", f"write e.g. {option} '90 min'"
-        )
-    unit = match["unit"].strip()
-    try:
-        factor = time_factor(unit)
-    except UsageError:
-        raise UsageError(
-            f"{option} {text!r}: {unit!r} is not a unit of time", "use s, min, h or d"
-        ) from None
-    value = float(match["number"])
-    if not (math.isfinite(value) and value > 0):
-        raise UsageError(
-            f"{option} {text!r} is not a positive duration", f"write e.g. {option} '90 min'"
-        )
-    return value * factor, unit
-
-
-def parse_time_list(text: str) -> tuple[list[float], str]:
-    """``"0,5,10,30 min"`` -> ([0, 300, 600, 1800], "min"): times in seconds and the unit.
-
-    The unit is written once, after the last number.
-    """
-    from .solution import time_factor
-
-    example = "write e.g. --times '0,5,10,30 min'"
-    pieces = [p.strip() for p in text.split(",")]
-    if not pieces or not pieces[-1]:
-        raise UsageError(f"--times {text!r} is not a list of times with one unit", example)
-    match = _DURATION.match(pieces[-1])
-    if not match or not match["unit"].strip():
-        raise UsageError(
-            f"--times {text!r} does not end with a unit of time",
-            example + " (unit once, at the end)",
-        )
-    unit = match["unit"].strip()
-    try:
-        factor = time_factor(unit)
-    except UsageError:
-        raise UsageError(
-            f"--times {text!r}: {unit!r} is not a unit of time", "use s, min, h or d"
-        ) from None
-    values = []
-    for piece in pieces[:-1]:
-        try:
-            values.append(float(piece))
-        except ValueError:
-            raise UsageError(f"--times {text!r}: {piece!r} is not a number", example) from None
-    values.append(float(match["number"]))
-    return [v * factor for v in values], unit
+from .units import parse_duration, parse_time_list
 
 
 class _Group(click.Group):

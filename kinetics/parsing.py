@@ -49,10 +49,12 @@ file (``benchmarks/bench_parse.py``).
 
 from __future__ import annotations
 
+import codecs
 import contextlib
 import difflib
 import gc
 import math
+import os
 import re
 import sys
 from dataclasses import dataclass
@@ -62,7 +64,7 @@ from typing import ClassVar
 
 import numpy as np
 
-from .errors import SchemeError, SchemeErrors, SchemeFileError, UsageError
+from .errors import SchemeError, SchemeErrors, SchemeFileError, UsageError, shorten
 from .scheme import Arrhenius, RateConstant, Reaction, Scheme, Species, Step
 from .units import (
     concentration_order,
@@ -72,7 +74,25 @@ from .units import (
     temperature_to_kelvin,
 )
 
-__all__ = ["ARROWS", "DIRECTIVES", "load", "parse"]
+__all__ = [
+    "ARROWS",
+    "DIRECTIVES",
+    "MAX_LINE_LENGTH",
+    "MAX_NUMBER_LENGTH",
+    "MAX_SCHEME_BYTES",
+    "load",
+    "parse",
+]
+
+#: Longest line read [characters]; a longer one is refused before it is parsed, so that
+#: the work per statement stays bounded (README states the limit).
+MAX_LINE_LENGTH = 10_000
+#: Largest scheme file or text read [bytes of UTF-8; characters for text] (README).
+MAX_SCHEME_BYTES = 32 * 1024 * 1024
+#: Longest number read [characters]: a double has 17 significant digits.
+MAX_NUMBER_LENGTH = 40
+#: Characters of a refused line kept for its message.
+MAX_SHOWN_LINE = 100
 
 #: Arrows of the language: irreversible and reversible, with Unicode synonyms.
 ARROWS = {"->": False, "→": False, "<=>": True, "⇌": True}
@@ -188,7 +208,7 @@ def _read_value(
     match = _NUMBER_RE.match(text)
     if not match:
         return line.error(
-            f"could not read a number for {what} in {text!r}",
+            f"could not read a number for {what} in {_q(text)}",
             column0 + 1,
             text or " ",
             f"write a number and a unit, e.g. {example}",
@@ -197,7 +217,22 @@ def _read_value(
     rest = text[match.end() :]
     unit = rest.strip()
     unit_col = column0 + match.end() + (len(rest) - len(rest.lstrip())) + 1
+    if len(number) > MAX_NUMBER_LENGTH:
+        return line.error(
+            f"{what} is a number of {len(number):,} characters (at most {MAX_NUMBER_LENGTH})",
+            column0 + 1,
+            number,
+            f"write it with an exponent, e.g. {example}",
+        )
     value = float(number)
+    if _underflows(number, value):
+        return line.error(
+            f"{what} is {number}, which is too small for a floating-point number (it would "
+            "become 0; the smallest is about 5e-324)",
+            column0 + 1,
+            number,
+            "check the exponent, or write 0 if you mean zero",
+        )
     if math.isnan(value) or math.isinf(value):
         spelled_out = number.lstrip("+-")[:1].lower() in ("n", "i")
         return line.error(
@@ -229,11 +264,21 @@ def _unit_of(line: _Line, value: _Value, what: str, example: str):
         reason = str(exc)
         detail = "" if reason.startswith("unknown unit") else f" ({reason})"
         return line.error(
-            f"unknown unit {value.unit!r} for {what}{detail}",
+            f"unknown unit {_q(value.unit)} for {what}{detail}",
             value.unit_column,
             value.unit,
             hint,
         )
+
+
+def _q(text: str) -> str:
+    """A user's text quoted in a message, cut when it is long."""
+    return repr(shorten(text))
+
+
+def _fraction(number: str) -> Fraction:
+    """The decimal ``number`` as the readers matched it, exactly (see :func:`_scaled`)."""
+    return _scaled(number, Fraction(1))
 
 
 def _scaled(number: str, factor: Fraction) -> Fraction:
@@ -242,17 +287,36 @@ def _scaled(number: str, factor: Fraction) -> Fraction:
     One rational construction instead of two (``Fraction(number) * factor``):
     this runs once per rate constant of a file.
     """
-    mantissa, _, exp_text = number.lower().partition("e")
+    text = number.lower()
+    sign = -1 if text.startswith("-") else 1
+    mantissa, _, exp_text = text.lstrip("+-").partition("e")
     whole, _, frac = mantissa.partition(".")
     digits = whole + frac
     if not digits.isdigit() or not (exp_text.lstrip("+-").isdigit() or not exp_text):
-        return Fraction(number) * factor  # signs, nan and the like: the general way
+        return Fraction(number) * factor  # not a plain decimal: the general way
+    if not digits.strip("0"):
+        return Fraction(0)  # also 0e999999999, whose power of ten is never built
     exponent = (int(exp_text) if exp_text else 0) - len(frac)
-    if abs(exponent) > 400:
-        return Fraction(number) * factor
+    if abs(exponent) > 2 * MAX_NUMBER_LENGTH + 400:
+        # the readers refuse numbers beyond the double range before they get here
+        raise ValueError(f"{shorten(number)} is far beyond the range of a double")
     if exponent >= 0:
-        return Fraction(int(digits) * 10**exponent * factor.numerator, factor.denominator)
-    return Fraction(int(digits) * factor.numerator, 10**-exponent * factor.denominator)
+        return Fraction(sign * int(digits) * 10**exponent * factor.numerator, factor.denominator)
+    return Fraction(sign * int(digits) * factor.numerator, 10**-exponent * factor.denominator)
+
+
+def _plain_number(number: str) -> bool:
+    """True for a number the readers accept as it stands: short, finite, and not a
+    nonzero value that a double would round to 0."""
+    if len(number) > MAX_NUMBER_LENGTH:
+        return False
+    value = float(number)
+    return math.isfinite(value) and not _underflows(number, value)
+
+
+def _underflows(number: str, value: float) -> bool:
+    """True when a nonzero decimal ``number`` became the double ``value`` 0."""
+    return value == 0 and any(d in "123456789" for d in number.lower().partition("e")[0])
 
 
 def _exact(value: Fraction) -> float | None:
@@ -301,7 +365,7 @@ class BalanceStatement:
             column = line.code.index(":") + 2 + len(after) - len(after.lstrip())
             return [
                 line.error(
-                    f"unknown balance mode {mode!r}",
+                    f"unknown balance mode {_q(mode)}",
                     column,
                     mode or " ",
                     "write 'balance: lumped' to allow atom imbalance, or 'balance: strict'",
@@ -371,7 +435,7 @@ class ListStatement:
             if not m:
                 errors.append(
                     line.error(
-                        f"could not read {piece!r} in a '{kind}' statement",
+                        f"could not read {_q(piece)} in a '{kind}' statement",
                         col0 + 1,
                         piece or " ",
                         f"write NAME = VALUE, e.g. {example}",
@@ -462,7 +526,7 @@ def _read_constant(line: _Line, name: str, name_col0: int, text: str, text_col0:
             if key not in ("A", "Ea"):
                 errors.append(
                     line.error(
-                        f"could not read {piece!r} in the Arrhenius parameters of {name}",
+                        f"could not read {_q(piece)} in the Arrhenius parameters of {name}",
                         col0 + 1,
                         piece or " ",
                         "write arrhenius(A = 1.0e13 1/s, Ea = 95 kJ/mol)",
@@ -624,7 +688,7 @@ class ReactionStatement:
                 col = arrow.start() - len(rest) + (len(rest) - len(rest.lstrip())) + 1
                 errors.append(
                     line.error(
-                        f"could not read {rest.strip()!r} on the left of the arrow",
+                        f"could not read {_q(rest.strip())} on the left of the arrow",
                         col,
                         rest.strip(),
                         "write species joined by '+', e.g. A + W -> B",
@@ -692,8 +756,8 @@ def _fast_ref(code: str, m, name_group: int):
     column = m.start(name_group) + 1
     if number is None:
         return _ConstantRef(name, column, None)
-    if not math.isfinite(float(number)):
-        return None
+    if not _plain_number(number):
+        return None  # the general reader words the message
     number_at, unit_at = m.start(name_group + 1), m.start(name_group + 2)
     value = _Value(number, unit, number_at + 1, unit_at + 1)
     spec = _ConstantSpec(name, column, value, None, None, code[number_at : m.end(name_group + 2)])
@@ -747,7 +811,7 @@ def _read_terms(line: _Line, text: str, offset: int, side: str):
                 where = "after '+'" if terms else "here"
                 problem = f"expected a species name {where} on the {side} of the arrow"
             else:
-                problem = f"expected a species name on the {side} of the arrow, found {snippet!r}"
+                problem = f"expected a species name on the {side} of the arrow, found {_q(snippet)}"
             return line.error(problem, column, snippet, hint)
         coef_text = match.group("coef")
         coefficient = float(coef_text) if coef_text else 1.0
@@ -799,9 +863,9 @@ def _read_constant_refs(line: _Line, text: str, offset: int, reversible: bool, a
             bad = re.match(r"\S+", piece)
             snippet = bad.group(0) if bad else piece or " "
             hint = f"name the constant and give its value, e.g. {example}"
-            problem = f"could not read the rate constant {piece!r}"
+            problem = f"could not read the rate constant {_q(piece)}"
             if m and not m.group("eq"):
-                problem = f"unexpected text after {m.group('name')!r}: {piece[m.end() :]!r}"
+                problem = f"unexpected text after {_q(m.group('name'))}: {_q(piece[m.end() :])}"
                 hint = (
                     "join products with '+' (A -> B + C) and write the constant as NAME or "
                     "NAME = VALUE UNIT"
@@ -864,7 +928,7 @@ _NAME_STARTS = (ReactionStatement, ConstantStatement)
 
 def _unknown_arrow(line: _Line, arrow: str, column0: int) -> SchemeError:
     return line.error(
-        f"unknown arrow {arrow!r}",
+        f"unknown arrow {_q(arrow)}",
         column0 + 1,
         arrow,
         "write -> (or →) for an irreversible step and <=> (or ⇌) for a reversible one",
@@ -905,7 +969,7 @@ def _unknown_statement(line: _Line) -> SchemeError:
         if rest.strip() and not _DIRECTIVE_LIKE.match(code):
             word = re.match(r"\S+", rest.lstrip()).group(0)
             return line.error(
-                f"could not read this line: expected an arrow before {word!r}",
+                f"could not read this line: expected an arrow before {_q(word)}",
                 column0 + 1,
                 word,
                 "a reaction reads A -> B + 2 C  k1 = 0.1 1/s (or <=> for a reversible step)",
@@ -927,7 +991,37 @@ def _unknown_statement(line: _Line) -> SchemeError:
     if close:
         hint = f"did you mean '{close[0]}'? ({_EXAMPLES[close[0]]})"
     return line.error(
-        f"could not read this line (unknown statement {snippet!r})", lead + 1, snippet, hint
+        f"could not read this line (unknown statement {_q(snippet)})", lead + 1, snippet, hint
+    )
+
+
+#: Control characters that never occur in a text file (tab, form feed, vertical tab and
+#: line ends aside, which count as white space).
+_CONTROL_RE = re.compile(r"[\x00-\x08\x0e-\x1f\x7f]")
+
+
+def _unreadable_line(source: str, number: int, raw: str) -> SchemeError:
+    """The error for a line refused before it is parsed: too long, or not text."""
+    if len(raw) > MAX_LINE_LENGTH:
+        return SchemeError(
+            f"this line has {len(raw):,} characters; a line may have at most {MAX_LINE_LENGTH:,}",
+            source,
+            number,
+            1,
+            raw[:MAX_SHOWN_LINE],
+            raw[:1],
+            "write one statement per line (is this a scheme file?)",
+        )
+    bad = _CONTROL_RE.search(raw)
+    return SchemeError(
+        f"this line contains the control character U+{ord(bad.group(0)):04X}, which a "
+        "scheme file never holds",
+        source,
+        number,
+        bad.start() + 1,
+        _CONTROL_RE.sub(" ", raw),
+        " ",
+        "save the scheme as plain UTF-8 text (is this a scheme file?)",
     )
 
 
@@ -936,10 +1030,12 @@ def _read_statements(text: str, source: str):
     errors: list[SchemeError] = []
     if text.startswith("\ufeff"):  # a byte-order mark left by some editors
         text = text[1:]
-    # lines end at "\n" only (as editors count them), with an optional "\r" before it
+    if "\r" in text:  # lines end at "\n", "\r\n" or a lone "\r", as editors count them
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
     for number, raw in enumerate(text.split("\n"), start=1):
-        if raw.endswith("\r"):
-            raw = raw[:-1]
+        if len(raw) > MAX_LINE_LENGTH or _CONTROL_RE.search(raw):
+            errors.append(_unreadable_line(source, number, raw))
+            continue
         code = raw.split("#", 1)[0].rstrip() if "#" in raw else raw.rstrip()
         if not code or code.isspace():
             continue
@@ -1181,11 +1277,11 @@ class _Builder:
             )
             return None
         try:
-            kelvin = temperature_to_kelvin(Fraction(value.number), value.unit)
+            kelvin = temperature_to_kelvin(_fraction(value.number), value.unit)
         except ValueError:
             self.error(
                 line,
-                f"the temperature is given in {value.unit!r}, which is not a temperature unit",
+                f"the temperature is given in {_q(value.unit)}, which is not a temperature unit",
                 value.unit_column,
                 value.unit,
                 "write the temperature in K or degC, e.g. temperature = 60 degC",
@@ -1305,7 +1401,7 @@ class _Builder:
                             "write a molar mass such as 180.2 g/mol",
                         )
                         continue
-                    grams = _exact(Fraction(v.number) * spec.factor * 1000)
+                    grams = _exact(_scaled(v.number, spec.factor * 1000))
                     if grams is None or grams == 0:
                         self.error(
                             s.line,
@@ -1332,7 +1428,7 @@ class _Builder:
                         self._family_error(s, item, spec, dims_t, family, family_origin)
                     )
                     continue
-                si = Fraction(v.number) * spec.factor
+                si = _scaled(v.number, spec.factor)
                 value = _exact(si / unit_factor)
                 if value is None:
                     self.error(
@@ -1504,8 +1600,8 @@ class _Builder:
                     spec.name,
                     "add a line such as temperature = 60 degC",
                 )
-            energy = _exact(Fraction(ea.number) * e_unit.factor)
-            prefactor = Fraction(a.number) * a_unit.factor
+            energy = _exact(_scaled(ea.number, e_unit.factor))
+            prefactor = _scaled(a.number, a_unit.factor)
             if energy is None or _exact(prefactor) is None:
                 bad = a if energy is not None else ea
                 self.error(
@@ -1709,7 +1805,7 @@ class _Builder:
                 col = line.code.find(item.formula, item.name_column - 1) + 1
                 self.error(
                     line,
-                    f"the formula {item.formula!r} of {name} does not parse ({exc})",
+                    f"the formula {_q(item.formula)} of {name} does not parse ({exc})",
                     col,
                     item.formula,
                     "write element symbols with counts, e.g. C6H12O6 or Ca(OH)2",
@@ -1821,6 +1917,17 @@ def parse(text: str, source: str = "<text>", *, strict_balance: bool = True) -> 
             f"parse() reads scheme text (str), not {type(text).__name__}",
             "decode bytes first, or use kinetics.load(path) for a file",
         )
+    if len(text) > MAX_SCHEME_BYTES:
+        limit = f"{MAX_SCHEME_BYTES:,}"
+        raise SchemeErrors(
+            [
+                SchemeError(
+                    f"the scheme text has {len(text):,} characters; the limit is {limit}",
+                    source,
+                    hint=_TOO_LARGE,
+                )
+            ]
+        )
     with _collector_paused():
         statements, errors = _read_statements(text, source)
         return _Builder(statements, errors, source, text, strict_balance).build()
@@ -1842,6 +1949,68 @@ def _collector_paused():
     finally:
         if enabled:
             gc.enable()
+
+
+def _read_text(path: Path, name: str) -> str:
+    """The UTF-8 text of a file, read in chunks up to :data:`MAX_SCHEME_BYTES`.
+
+    Reading stops at the first chunk that shows the file is not a scheme: too
+    large, binary (a NUL byte) or not UTF-8, so that ``/dev/zero`` or a large
+    binary file is refused at once and never held in memory.
+    """
+    decoder = codecs.getincrementaldecoder("utf-8-sig")()
+    parts: list[str] = []
+    size = lines = 0
+    limit = f"{MAX_SCHEME_BYTES // (1024 * 1024)} MiB"
+    try:
+        with path.open("rb") as handle:
+            if os.fstat(handle.fileno()).st_size > MAX_SCHEME_BYTES:
+                raise SchemeFileError(
+                    f"the file is larger than {limit}, the limit for a scheme", name, _TOO_LARGE
+                )
+            while chunk := handle.read(_CHUNK):
+                size += len(chunk)
+                if size > MAX_SCHEME_BYTES:
+                    raise SchemeFileError(
+                        f"the file is larger than {limit}, the limit for a scheme",
+                        name,
+                        _TOO_LARGE,
+                    )
+                if b"\0" in chunk:
+                    line = lines + chunk[: chunk.index(b"\0")].count(b"\n") + 1
+                    raise SchemeFileError(
+                        f"the file is not text (it holds a NUL byte, first on line {line})",
+                        name,
+                        "a scheme is plain UTF-8 text; is this the right file?",
+                    )
+                parts.append(_decoded(decoder, chunk, lines, name))
+                lines += chunk.count(b"\n")
+            parts.append(_decoded(decoder, b"", lines, name))
+    except OSError as exc:
+        if isinstance(exc, SchemeFileError):
+            raise
+        raise SchemeFileError(f"cannot read the file ({exc.strerror or exc})", name) from exc
+    return "".join(parts)
+
+
+def _decoded(decoder, chunk: bytes, lines: int, name: str) -> str:
+    """One chunk decoded (an empty chunk ends the text); ``lines`` lines came before it."""
+    try:
+        return decoder.decode(chunk, final=not chunk)
+    except UnicodeDecodeError as exc:
+        line = lines + exc.object[: exc.start].count(b"\n") + 1
+        raise SchemeFileError(
+            f"the file is not UTF-8 text (undecodable byte at line {line})",
+            name,
+            "save it as UTF-8 (plain text)",
+        ) from None
+
+
+_CHUNK = 1 << 20
+_TOO_LARGE = (
+    "a scheme of 500,000 reactions takes about 25 MB; is this the right file? (split a "
+    "larger scheme into independent parts)"
+)
 
 
 def load(path, *, strict_balance: bool = True) -> Scheme:
@@ -1870,17 +2039,5 @@ def load(path, *, strict_balance: bool = True) -> Scheme:
         raise SchemeFileError("no such file", str(path), "check the path (and the current folder)")
     if p.is_dir():
         raise SchemeFileError("this is a folder, not a scheme file", str(path), "name a file")
-    try:
-        data = p.read_bytes()
-    except OSError as exc:
-        raise SchemeFileError(f"cannot read the file ({exc.strerror})", str(path)) from exc
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = data[: exc.start].count(b"\n") + 1
-        raise SchemeFileError(
-            f"the file is not UTF-8 text (undecodable byte at line {line})",
-            str(path),
-            "save it as UTF-8 (plain text)",
-        ) from exc
+    text = _read_text(p, str(path))
     return parse(text, str(path), strict_balance=strict_balance)

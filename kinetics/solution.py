@@ -14,7 +14,7 @@ import numpy as np
 
 from .errors import UsageError
 from .propagate import propagate_certified
-from .units import convert, parse_unit
+from .units import time_factor
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -38,7 +38,7 @@ def check_times(times) -> np.ndarray:
         raise UsageError("a time is not a finite number", "give finite times in seconds")
     if np.any(t < 0):
         raise UsageError(
-            f"a time is negative ({t[t < 0][0]!r} s)", "times start at 0 (the start values)"
+            f"a time is negative ({float(t[t < 0][0]):g} s)", "times start at 0 (the start values)"
         )
     if np.any(np.diff(t) < 0):
         raise UsageError("the times are not in increasing order", "sort the time list")
@@ -48,7 +48,10 @@ def check_times(times) -> np.ndarray:
 def time_grid(until: float, points: int = 201) -> np.ndarray:
     """A uniform grid of ``points`` times from 0 to ``until`` [s] inclusive."""
     if not (np.isfinite(until) and until > 0):
-        raise UsageError(f"the end time must be positive, not {until!r}", "e.g. --until 90min")
+        raise UsageError(
+            f"the end time must be positive and finite, not {float(until):g} s",
+            "give the end of the window in seconds, e.g. 5400 for 90 min",
+        )
     if points < 2:
         raise UsageError(f"a grid needs at least 2 points, not {points}", "e.g. --points 201")
     return np.linspace(0.0, until, points)
@@ -176,17 +179,6 @@ class Solution:
         if path is not None:
             save_figure(fig, path)
         return fig
-
-
-def time_factor(unit: str) -> float:
-    """Seconds per ``unit`` (``"min"`` -> 60.0); UsageError when it is not a time unit."""
-    try:
-        spec = parse_unit(unit)
-    except ValueError:
-        raise UsageError(f"unknown time unit {unit!r}", "use s, min, h or d") from None
-    if spec.dims != {"[time]": 1}:
-        raise UsageError(f"{unit!r} is not a unit of time", "use s, min, h or d")
-    return convert(1.0, unit, "s")
 
 
 def solve(scheme: Scheme, times) -> Solution:
