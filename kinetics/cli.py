@@ -41,6 +41,20 @@ def cli(ctx, debug):
     ctx.obj = {"debug": debug}
 
 
+def load_scheme(path, **options):
+    """Load a scheme file and print its warnings on stderr (``kinetics: warning: ...``).
+
+    The command-line side of :attr:`kinetics.scheme.Scheme.warnings`: every command
+    that reads a scheme calls this.
+    """
+    from .parsing import load
+
+    scheme = load(path, **options)
+    for warning in scheme.warnings:
+        click.echo(f"kinetics: warning: {warning}", err=True)
+    return scheme
+
+
 def _caution(quiet: bool) -> None:
     if not quiet:
         click.echo(CAUTION, err=True)
@@ -81,10 +95,9 @@ def check(scheme_file, as_json, allow_imbalance):
       kinetics check networks/reversible_isomerisation.scheme --json
     """
     from .overview import check_report
-    from .parsing import load
     from .terminal import render_check
 
-    scheme = load(scheme_file, strict_balance=not allow_imbalance)
+    scheme = load_scheme(scheme_file, strict_balance=not allow_imbalance)
     report = check_report(scheme)
     if as_json:
         click.echo(json.dumps(report, indent=2, allow_nan=False))
@@ -246,12 +259,11 @@ def solve(
     """
     from .export import check_output_paths
     from .overview import solution_json
-    from .parsing import load
     from .terminal import progress, render_solution
 
     times, time_unit, settings = _prepare(until, points, times_text, time_unit)
     paths = check_output_paths(outputs, [scheme_file])
-    scheme = load(scheme_file)
+    scheme = load_scheme(scheme_file)
     species = _species_list(species_text, scheme)
     if species:
         settings["species"] = species
@@ -336,13 +348,12 @@ def report(
     import hashlib
 
     from .export import check_output_paths
-    from .parsing import load
     from .report import build_report, write_report
     from .terminal import progress
 
     times, time_unit, settings = _prepare(until, points, times_text, time_unit)
     (path,) = check_output_paths([output], [scheme_file], {".html": "HTML report"})
-    scheme = load(scheme_file)
+    scheme = load_scheme(scheme_file)
     species = _species_list(species_text, scheme)
     digest = hashlib.sha256(Path(scheme_file).read_bytes()).hexdigest()
     _caution(no_caution)

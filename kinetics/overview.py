@@ -9,7 +9,8 @@ matrix order), ``excess_species``, ``species_details``, ``rate_matrix`` (rows,
 ``concentration_unit``, ``temperature_K``, ``constants``, ``reactions``
 (one object per step: ``equation``, ``k_per_s``, ``reaction``, ``direction``,
 ``constant``, ``given``, ``line``), ``balance`` (``ok`` and per-reaction
-details), ``network`` (roles, reversible pairs, cycles, components).
+details), ``network`` (roles, reversible pairs, cycles, components), ``warnings``
+(sentences about probable mistakes, see :attr:`kinetics.scheme.Scheme.warnings`).
 
 Above :data:`DENSE_JSON_MAX` species the dense ``rate_matrix`` would be
 hundreds of megabytes of JSON: it is then ``null`` and the nonzero entries are
@@ -231,6 +232,7 @@ def check_report(scheme: Scheme) -> dict:
         "reactions": steps,
         "balance": balance.to_dict(),
         "network": network.to_dict(),
+        "warnings": list(scheme.warnings),
     }
 
 

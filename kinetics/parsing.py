@@ -132,10 +132,13 @@ class _Line:
     text: str  # the whole line as written
     code: str  # the line without its comment, right-stripped
 
+    shown: str = ""  # the line as errors show it, made once (a line may have many errors)
+
     def error(self, problem: str, column: int = 0, snippet: str = "", hint: str = ""):
-        # tabs shown as one space each, so that the caret under the line stays aligned
-        shown = self.text.replace("\t", " ")
-        return SchemeError(problem, self.source, self.number, column, shown, snippet, hint)
+        if not self.shown:
+            # tabs shown as one space each, so that the caret under the line stays aligned
+            self.shown = self.text.replace("\t", " ")
+        return SchemeError(problem, self.source, self.number, column, self.shown, snippet, hint)
 
 
 def _strip_comment(text: str) -> str:
@@ -408,6 +411,10 @@ class ListStatement:
         kind = match.group(1)
         example = cls._EXAMPLES[kind]
         body = code[match.end() :]
+        if _ARROW_RE.search(body):  # "start -> B  k1 = ...": a reaction with a keyword
+            return [_keyword_error(line, kind, match.start(1), "a species")]
+        if body.lstrip().startswith("="):  # "start = 0.1 1/s": a constant named so
+            return [_keyword_error(line, kind, match.start(1), "a constant")]
         errors: list[SchemeError] = []
         items: list[_Item] = []
         declared: list[str] = []
@@ -608,14 +615,7 @@ class ConstantStatement:
         if isinstance(spec, list):
             return spec
         if name in _RESERVED:
-            return [
-                line.error(
-                    f"'{name}' is a keyword of the scheme language and cannot name a constant",
-                    lead + 1,
-                    name,
-                    "choose another name, e.g. k1",
-                )
-            ]
+            return [_keyword_error(line, name, lead, "a constant")]
         return cls(spec, line)
 
 
@@ -825,12 +825,7 @@ def _read_terms(line: _Line, text: str, offset: int, side: str):
                 "coefficients are positive numbers; leave out a species that does not take part",
             )
         if name in _RESERVED:
-            return line.error(
-                f"'{name}' is a keyword of the scheme language and cannot name a species",
-                column,
-                name,
-                "choose another name",
-            )
+            return _keyword_error(line, name, column - 1, "a species")
         terms.append(_Term(coefficient, name, column))
         pos = match.end()
         plus = _PLUS_RE.match(text, pos)
@@ -876,14 +871,7 @@ def _read_constant_refs(line: _Line, text: str, offset: int, reversible: bool, a
             continue
         name = m.group("name")
         if name in _RESERVED:
-            errors.append(
-                line.error(
-                    f"'{name}' is a keyword of the scheme language and cannot name a constant",
-                    col0 + 1,
-                    name,
-                    "choose another name, e.g. k1",
-                )
-            )
+            errors.append(_keyword_error(line, name, col0, "a constant"))
             continue
         if m.group("eq"):
             rest = piece[m.end() :]
@@ -924,6 +912,16 @@ _STATEMENTS = (
 #: (the other statements start with their keyword): a speed-up for large files.
 _KEYWORD_STARTS = {"title", "balance", "temperature", *ListStatement._EXAMPLES}
 _NAME_STARTS = (ReactionStatement, ConstantStatement)
+
+
+def _keyword_error(line: _Line, name: str, column0: int, what: str) -> SchemeError:
+    """The one message for a keyword used as the name of a species or a constant."""
+    return line.error(
+        f"'{name}' is a keyword of the scheme language and cannot name {what}",
+        column0 + 1,
+        name,
+        "choose another name, e.g. k1" if what == "a constant" else "choose another name",
+    )
 
 
 def _unknown_arrow(line: _Line, arrow: str, column0: int) -> SchemeError:
@@ -1119,9 +1117,78 @@ class _Builder:
         self.strict_balance = strict_balance
         self._orders_ok: set = set()  # (order, unit, co-reactants) found consistent
         self._suggestions_left = 50  # "did you mean" costs a scan of all names
+        self.warnings: list[str] = []
 
     def error(self, line: _Line, problem, column=0, snippet="", hint=""):
         self.errors.append(line.error(problem, column, snippet, hint))
+
+    def warn(self, line: _Line | None, sentence: str) -> None:
+        """A probable mistake that does not stop the file (``Scheme.warnings``)."""
+        where = f"{self.source}:{line.number}" if line is not None else self.source
+        self.warnings.append(f"{where}: {sentence}")
+
+    # -- whole-file checks -------------------------------------------------------
+    def _repeated_steps(self, steps, reactions) -> None:
+        """A step written twice with one constant is an error; with two, a warning.
+
+        Steps are compared by what they do (:attr:`Step.key`), so ``A -> B + C`` and
+        ``A -> C + B`` are the same step; the rates of parallel steps add up.
+        """
+        first: dict[tuple, Step] = {}
+        told: set[tuple[int, int]] = set()
+        for step in steps:
+            seen = first.setdefault(step.key, step)
+            if seen is step:
+                continue
+            pair = (seen.reaction, step.reaction)
+            if pair in told:
+                continue  # the reverse step of a reversible line repeated
+            told.add(pair)
+            earlier, r = reactions[seen.reaction].line.number, reactions[step.reaction]
+            if seen.constant == step.constant:
+                self.error(
+                    r.line,
+                    f"the step {step.equation} with {step.constant} is written twice "
+                    f"(lines {earlier} and {r.line.number}); its rate would count twice",
+                    r.arrow_column,
+                    "<=>" if r.reversible else "->",
+                    "remove one of the two lines",
+                )
+            else:
+                self.warn(
+                    r.line,
+                    f"the step {step.equation} also occurs on line {earlier}: parallel "
+                    f"steps, their constants add up ({seen.constant} + {step.constant})",
+                )
+
+    def _unused_constants(self, st, constants, reactions) -> None:
+        used = {ref.name for r in reactions for ref in r.constants}
+        for s in st:
+            if isinstance(s, ConstantStatement) and s.spec.name not in used:
+                self.warn(
+                    s.line,
+                    f"rate constant {s.spec.name} is defined but no reaction uses it "
+                    "(a misspelt name?)",
+                )
+
+    def _nothing_to_start(self, values, lists, reactions) -> None:
+        """Say so when every concentration stays 0 (no start value above 0, no feed)."""
+        start, feed = values["start"][0], values["feed"][0]
+        if any(v > 0 for v in start.values()) or any(v > 0 for v in feed.values()):
+            return
+        starts = [s for s in lists if s.kind == "start"]
+        if starts:
+            self.warn(
+                starts[0].line,
+                "every start value is 0 and nothing is fed: all concentrations stay 0",
+            )
+        else:
+            self.warn(
+                None,
+                "the file has no start line, so every species starts at 0 and all "
+                "concentrations stay 0; add e.g. start "
+                f"{reactions[0].left[0].name} = 1 mol/L",
+            )
 
     def _did_you_mean(self, name: str, candidates) -> str:
         """A suggestion for the first few misspelt names only (each costs a scan)."""
@@ -1192,8 +1259,11 @@ class _Builder:
 
         species_objs, excess_objs = self._species(all_species, excess_names, order, values)
         self._balance(reaction_objs, species_objs + excess_objs, allow_imbalance, reactions)
+        self._repeated_steps(steps, reactions)
         if self.errors:
             raise SchemeErrors(self.errors)
+        self._unused_constants(st, constants, reactions)
+        self._nothing_to_start(values, lists, reactions)
         scheme = Scheme(
             species=tuple(species_objs),
             excess_species=tuple(excess_objs),
@@ -1209,6 +1279,7 @@ class _Builder:
             source=self.source,
             text=self.text,
             allow_imbalance=allow_imbalance,
+            warnings=tuple(self.warnings),
             _excess_si=excess_si,
             _unit_factor=unit_factor,
         )
@@ -1231,22 +1302,33 @@ class _Builder:
         return getattr(found[0], attribute) if found else default
 
     def _check_rates(self, scheme: Scheme, reactions) -> None:
-        """Every effective rate constant must be a finite double (no overflow)."""
+        """Every effective rate constant must be a finite double, and not a nonzero
+        product that rounds to 0 (underflow)."""
         rates = scheme.rates
-        if np.isfinite(rates).all():
-            return
+        bad = np.flatnonzero(~np.isfinite(rates) | (rates == 0))
         reported = set()
-        for index in np.flatnonzero(~np.isfinite(rates)):
+        for index in bad:
             step = scheme.steps[index]
             statement = reactions[step.reaction]
             if step.reaction in reported:
                 continue
+            if rates[index] == 0:
+                constant = scheme.constants[step.constant]
+                nominal = (
+                    constant.value_si != 0
+                    if constant.arrhenius is None
+                    else constant.arrhenius.prefactor_si != 0
+                )
+                if not nominal or any(scheme.excess[n] == 0 for _, n in step.co_reactants):
+                    continue  # a constant or an excess concentration written as 0
+                what = "underflows to 0 (it is below 5e-324 1/s)"
+            else:
+                what = f"overflows (it is beyond {sys.float_info.max:.3g} 1/s)"
             reported.add(step.reaction)
             ref = statement.constants[0 if step.direction == "forward" else 1]
             self.error(
                 statement.line,
-                f"the effective rate constant of {step.equation} overflows "
-                f"(it is beyond {sys.float_info.max:.3g} 1/s)",
+                f"the effective rate constant of {step.equation} {what}",
                 ref.column,
                 ref.name,
                 "check the value and unit of the constant and of the excess concentrations",
@@ -1430,10 +1512,11 @@ class _Builder:
                     continue
                 si = _scaled(v.number, spec.factor)
                 value = _exact(si / unit_factor)
-                if value is None:
+                if not value and si:
+                    size = "too large" if value is None else "too small (it would become 0)"
                     self.error(
                         s.line,
-                        f"{s.kind} {item.name} = {v.text} is too large in {self.conc_unit}",
+                        f"{s.kind} {item.name} = {v.text} is {size} in {self.conc_unit}",
                         v.column,
                         v.text,
                         "check the value and its unit",
@@ -1633,10 +1716,11 @@ class _Builder:
             )
             return None
         value_si = _scaled(v.number, unit.factor)
-        if _exact(value_si) is None:
+        if not _exact(value_si) and value_si:
+            size = "too large" if _exact(value_si) is None else "too small (0 in SI units)"
             self.error(
                 line,
-                f"rate constant {spec.name} = {v.text} is too large",
+                f"rate constant {spec.name} = {v.text} is {size}",
                 v.column,
                 v.text,
                 "check the value and its unit",
@@ -1867,8 +1951,8 @@ def _plain_constant(spec: _ConstantSpec, line: _Line) -> RateConstant | None:
     if order is None:
         return None
     value_si = _scaled(v.number, unit.factor)
-    if _exact(value_si) is None:
-        return None
+    if not _exact(value_si) and value_si:
+        return None  # too large or too small for a double: _Builder._constant says so
     return RateConstant(spec.name, spec.text, value_si, v.unit, order, None, line.number)
 
 

@@ -172,11 +172,26 @@ class Step:
     direction: str = "forward"
 
     @property
+    def key(self) -> tuple:
+        """What the step does, independent of how it is written and of its constant:
+        reactant, co-reactants and products with their coefficients, each sorted by name.
+        Two steps with one key are parallel (their rates add up)."""
+        return (self.reactant, _merged(self.co_reactants), _merged(self.products))
+
+    @property
     def equation(self) -> str:
         """The step written out, e.g. ``A + W -> B``."""
         left = " + ".join([self.reactant] + [_term(c, n) for c, n in self.co_reactants])
         right = " + ".join(_term(c, n) for c, n in self.products)
         return f"{left} -> {right}"
+
+
+def _merged(terms: tuple[tuple[float, str], ...]) -> tuple[tuple[str, float], ...]:
+    """Terms with one entry per species (``B + B`` is ``2 B``), sorted by name."""
+    total: dict[str, float] = {}
+    for coefficient, name in terms:
+        total[name] = total.get(name, 0.0) + coefficient
+    return tuple(sorted(total.items()))
 
 
 def _term(coefficient: float, name: str) -> str:
@@ -250,6 +265,10 @@ class Scheme:
         The scheme as written.
     allow_imbalance : bool
         True when the file opted out of the atom-balance error (lumped schemes).
+    warnings : tuple of str
+        Sentences about probable mistakes that do not stop the file from loading
+        (parallel steps, constants no step uses, nothing to start from), each led by
+        ``file:line:``; the command line prints them on stderr.
     """
 
     species: tuple[Species, ...]
@@ -266,6 +285,7 @@ class Scheme:
     source: str = "<text>"
     text: str = ""
     allow_imbalance: bool = False
+    warnings: tuple[str, ...] = ()
     _excess_si: dict[str, Fraction] = field(default_factory=dict, repr=False)
     _unit_factor: Fraction = field(default=Fraction(1), repr=False)
 
