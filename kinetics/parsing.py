@@ -1023,7 +1023,23 @@ def _unreadable_line(source: str, number: int, raw: str) -> SchemeError:
     )
 
 
-def _read_statements(text: str, source: str):
+@dataclass(slots=True)
+class _Failures:
+    """What the lines that failed to read would have said: the words on them and the
+    kinds of statement they were.  The second pass reports no follow-on errors about
+    these (a species of a broken reaction line "occurs in no reaction"; an Arrhenius
+    constant "needs a temperature" when the temperature line is broken)."""
+
+    names: set[str]
+    kinds: set[type]
+
+    def note(self, kind: type | None, code: str) -> None:
+        self.names.update(_NAME_RE.findall(code[:MAX_LINE_LENGTH]))
+        if kind is not None:
+            self.kinds.add(kind)
+
+
+def _read_statements(text: str, source: str, failures: _Failures):
     statements = []
     errors: list[SchemeError] = []
     if text.startswith("\ufeff"):  # a byte-order mark left by some editors
@@ -1033,6 +1049,7 @@ def _read_statements(text: str, source: str):
     for number, raw in enumerate(text.split("\n"), start=1):
         if len(raw) > MAX_LINE_LENGTH or _CONTROL_RE.search(raw):
             errors.append(_unreadable_line(source, number, raw))
+            failures.note(None, raw)
             continue
         code = raw.split("#", 1)[0].rstrip() if "#" in raw else raw.rstrip()
         if not code or code.isspace():
@@ -1053,6 +1070,7 @@ def _read_statements(text: str, source: str):
                 continue
             if isinstance(result, list):
                 errors.extend(result)
+                failures.note(kind, code)
             elif isinstance(result, tuple):  # a statement kept despite some errors
                 statements.append(result[0])
                 errors.extend(result[1])
@@ -1061,6 +1079,7 @@ def _read_statements(text: str, source: str):
             break
         else:
             errors.append(_unknown_statement(line))
+            failures.note(None, code)
     return statements, errors
 
 
@@ -1109,8 +1128,9 @@ _FAMILY_UNITS = {
 class _Builder:
     """Second pass: resolve names, units, orders and balance across the file."""
 
-    def __init__(self, statements, errors, source, text, strict_balance):
+    def __init__(self, statements, errors, source, text, strict_balance, failures=None):
         self.statements = statements
+        self.failures = failures or _Failures(set(), set())
         self.errors: list[SchemeError] = errors
         self.source = source
         self.text = text
@@ -1249,6 +1269,10 @@ class _Builder:
         all_species = list(order)
 
         temperature = self._temperature(st)
+        self._temperature_failed = temperature is None and (
+            TemperatureStatement in self.failures.kinds
+            or any(isinstance(s, TemperatureStatement) for s in st)
+        )
         conc_unit, unit_factor, family_dims, family_origin = self._concentration_unit(lists)
         self.conc_unit = conc_unit
         values = self._lists(lists, order, excess_names, family_dims, unit_factor, family_origin)
@@ -1428,6 +1452,8 @@ class _Builder:
         for s in lists:
             for item in s.items:
                 if item.name not in order:
+                    if item.name in self.failures.names:
+                        continue  # on a line that failed to read: that error is the cause
                     hint = self._did_you_mean(item.name, order) or (
                         "a species must take part in a reaction before it can be given "
                         + _WHAT_LISTED[s.kind]
@@ -1621,7 +1647,7 @@ class _Builder:
         for r in reactions:
             for ref in r.constants:
                 if ref.spec is None and ref.name not in constants:
-                    if ref.name in defined:
+                    if ref.name in defined or ref.name in self.failures.names:
                         continue  # its definition had an error, already reported
                     hint = self._did_you_mean(ref.name, constants)
                     hint = hint or (
@@ -1675,7 +1701,7 @@ class _Builder:
                     "write Ea in kJ/mol or J/mol, e.g. Ea = 95 kJ/mol",
                 )
                 return None
-            if temperature is None:
+            if temperature is None and not self._temperature_failed:
                 self.error(
                     line,
                     f"{spec.name} follows the Arrhenius law but the file sets no temperature",
@@ -2013,8 +2039,9 @@ def parse(text: str, source: str = "<text>", *, strict_balance: bool = True) -> 
             ]
         )
     with _collector_paused():
-        statements, errors = _read_statements(text, source)
-        return _Builder(statements, errors, source, text, strict_balance).build()
+        failures = _Failures(set(), set())
+        statements, errors = _read_statements(text, source, failures)
+        return _Builder(statements, errors, source, text, strict_balance, failures).build()
 
 
 @contextlib.contextmanager
