@@ -18,6 +18,8 @@ All errors pickle (parallel sweeps send them between processes).
 
 from __future__ import annotations
 
+import numbers
+
 __all__ = [
     "MAX_SHOWN_ERRORS",
     "DataError",
@@ -28,6 +30,7 @@ __all__ = [
     "SchemeFileError",
     "UsageError",
     "shorten",
+    "shown_value",
 ]
 
 #: Longest piece of a user's text quoted in a message [characters]; longer pieces are cut.
@@ -64,6 +67,21 @@ def shorten(text: str, limit: int = QUOTE_LIMIT) -> str:
     if len(text) <= limit:
         return text
     return f"{text[:limit]}… ({len(text):,} characters)"
+
+
+def shown_value(value) -> str:
+    """A value as a message quotes it: a number in plain Python form (never
+    ``np.float64(-300.0)``), anything else as its cut ``repr``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> shown_value(np.float64(-300.0)), shown_value("a")
+    ('-300.0', "'a'")
+    """
+    if isinstance(value, numbers.Real) and not isinstance(value, bool):
+        return repr(float(value)) if not isinstance(value, numbers.Integral) else str(int(value))
+    return shorten(repr(value))
 
 
 def _window(text: str, column: int, width: int) -> tuple[str, int, int]:

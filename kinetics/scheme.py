@@ -23,7 +23,7 @@ from functools import cached_property
 
 import numpy as np
 
-from .errors import UsageError
+from .errors import UsageError, shown_value
 from .units import GAS_CONSTANT
 
 __all__ = ["Arrhenius", "RateConstant", "Reaction", "Scheme", "Species", "Step"]
@@ -93,7 +93,7 @@ class Arrhenius:
             :math:`A \\exp(-E_a / R T)` in SI base units [1/s for first order].
         """
         if not temperature > 0:
-            raise UsageError(f"temperature {temperature!r} K must be above 0 K")
+            raise UsageError(f"temperature {shown_value(temperature)} K must be above 0 K")
         try:
             prefactor = float(self.prefactor_si)
         except OverflowError:
@@ -435,7 +435,10 @@ class Scheme:
                 )
             exact = _checked_fraction(value, f"rate constant {name}")
             new_constants[name] = replace(
-                new_constants[name], value_si=exact, arrhenius=None, text=f"{value!r} (SI)"
+                new_constants[name],
+                value_si=exact,
+                arrhenius=None,
+                text=f"{shown_value(value)} (SI)",
             )
         new_initial = dict(self.initial)
         for name, value in (initial or {}).items():
@@ -459,7 +462,9 @@ class Scheme:
             )
             new_excess[name] = float(value)
         if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
-            raise UsageError(f"temperature {temperature!r} K must be finite and above 0 K")
+            raise UsageError(
+                f"temperature {shown_value(temperature)} K must be finite and above 0 K"
+            )
         return replace(
             self,
             constants=new_constants,
@@ -474,7 +479,7 @@ def _checked_fraction(value: float, what: str) -> Fraction:
     try:
         number = float(value)
     except (TypeError, ValueError):
-        raise UsageError(f"{what} must be a number, not {value!r}") from None
+        raise UsageError(f"{what} must be a number, not {shown_value(value)}") from None
     if not (math.isfinite(number) and number >= 0):
-        raise UsageError(f"{what} = {value!r} must be finite and >= 0")
+        raise UsageError(f"{what} = {shown_value(value)} must be finite and >= 0")
     return Fraction(number)
