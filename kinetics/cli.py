@@ -164,7 +164,8 @@ def _plot_solution(result, scheme):
 
     if len(result.times) >= 201:
         return result
-    return sol.solve(scheme, np.linspace(0.0, float(result.times[-1]), 401))
+    fine = sol.solve(scheme, np.linspace(0.0, float(result.times[-1]), 401))
+    return fine if result.unit_factors is None else fine.in_unit(result.concentration_unit)
 
 
 _GRID_OPTIONS = [
@@ -191,6 +192,14 @@ _GRID_OPTIONS = [
         is_flag=True,
         help="Do not print the two-line caution on stderr (for scripts; see SAFETY.md).",
     ),
+    click.option(
+        "--concentration-unit",
+        "conc_unit",
+        help="Unit of concentrations in tables, plots and the summary: an amount unit "
+        "(mmol/L), a mass unit converted per species with its molar mass (mg/L; mg/kg for "
+        "a file per mass of soil) or '% of applied' (default: the unit of the first start "
+        "value as written).",
+    ),
 ]
 
 
@@ -211,12 +220,15 @@ def _prepare(until, points, times_text, time_unit):
     return times, time_unit, settings
 
 
-def _solve_and_summarise(scheme, times, time_unit, bar):
+def _solve_and_summarise(scheme, times, time_unit, bar, conc_unit=None):
     from . import solution as sol
     from .overview import compute_summary, summary_in_units
 
     bar.describe("solving")
     result = sol.solve(scheme, times)
+    unit = conc_unit or scheme.written_unit
+    if unit and unit != scheme.concentration_unit:
+        result = result.in_unit(unit)
     bar.step("summary quantities")
     raw = compute_summary(result)
     summary = summary_in_units(raw, time_unit) if raw is not None else None
@@ -241,7 +253,16 @@ _OUT_HELP = "Output file, format from the extension: " + ", ".join(
 )
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object on stdout.")
 def solve(
-    scheme_file, until, points, times_text, time_unit, species_text, no_caution, outputs, as_json
+    scheme_file,
+    until,
+    points,
+    times_text,
+    time_unit,
+    species_text,
+    no_caution,
+    conc_unit,
+    outputs,
+    as_json,
 ):
     """Solve a scheme exactly on a time grid; print or write the table and the summary.
 
@@ -270,7 +291,7 @@ def solve(
     _caution(no_caution)
     first_use_note()
     with progress(2 + len(paths), "solving") as bar:
-        result, summary = _solve_and_summarise(scheme, times, time_unit, bar)
+        result, summary = _solve_and_summarise(scheme, times, time_unit, bar, conc_unit)
         document = solution_json(result, time_unit, summary, settings)
         for path in paths:
             bar.describe(f"writing {path.name}")
@@ -333,7 +354,16 @@ def _write_output(path, result, scheme, time_unit, summary, document, species) -
 )
 @click.option("--title", help="Title of the report (default: the title in the scheme file).")
 def report(
-    scheme_file, until, points, times_text, time_unit, species_text, no_caution, output, title
+    scheme_file,
+    until,
+    points,
+    times_text,
+    time_unit,
+    species_text,
+    no_caution,
+    conc_unit,
+    output,
+    title,
 ):
     """Write a self-contained HTML report: scheme, graph, inputs, summary, plot, table.
 
@@ -359,7 +389,7 @@ def report(
     _caution(no_caution)
     first_use_note()
     with progress(4, "solving") as bar:
-        result, summary = _solve_and_summarise(scheme, times, time_unit, bar)
+        result, summary = _solve_and_summarise(scheme, times, time_unit, bar, conc_unit)
         bar.describe("drawing")
         html = build_report(
             scheme,

@@ -64,6 +64,7 @@ from typing import ClassVar
 
 import numpy as np
 
+from .amounts import Kind, amount_unit, kind_of
 from .errors import SchemeError, SchemeErrors, SchemeFileError, UsageError, shorten
 from .scheme import Arrhenius, RateConstant, Reaction, Scheme, Species, Step
 from .units import (
@@ -1092,37 +1093,18 @@ def _did_you_mean(name: str, candidates) -> str:
     return f"did you mean {close[0]}?" if close else ""
 
 
-#: Dimensions a start, excess or feed value may have (one kind per file).
-_CONCENTRATION_FAMILIES = {
-    (("[length]", -3), ("[substance]", 1)): "concentration",
-    (("[substance]", 1),): "amount",
-    (("[length]", -3), ("[mass]", 1)): "mass concentration",
-    (("[mass]", 1),): "mass",
-    (): "pure number",
-}
-_ARTICLE = {
-    "concentration": "a",
-    "amount": "an",
-    "mass concentration": "a",
-    "mass": "a",
-    "pure number": "a",
-}
-_PLURAL = {
-    "concentration": "concentrations",
-    "amount": "amounts",
-    "mass concentration": "mass concentrations",
-    "mass": "masses",
-    "pure number": "pure numbers",
-}
 #: Unit of each kind when a feed is written in a form whose concentration part
 #: cannot be cut out (``mol/(L*min)``), with its exact factor to SI.
 _FAMILY_UNITS = {
-    (("[length]", -3), ("[substance]", 1)): ("mol/L", Fraction(1000)),
-    (("[substance]", 1),): ("mol", Fraction(1)),
-    (("[length]", -3), ("[mass]", 1)): ("g/L", Fraction(1)),
-    (("[mass]", 1),): ("g", Fraction(1, 1000)),
-    (): ("1", Fraction(1)),
+    ("amount", "volume"): ("mol/L", Fraction(1000)),
+    ("amount", "absolute"): ("mol", Fraction(1)),
+    ("amount", "soil"): ("mol/kg", Fraction(1)),
+    ("mass", "volume"): ("g/L", Fraction(1)),
+    ("mass", "absolute"): ("g", Fraction(1, 1000)),
+    ("mass", "soil"): ("g/kg", Fraction(1, 1000)),
+    ("number", "ratio"): ("1", Fraction(1)),
 }
+_DEFAULT_KIND = Kind("amount", "volume", Fraction(1000))
 
 
 class _Builder:
@@ -1250,10 +1232,13 @@ class _Builder:
                 excess_names.update(s.declared)
                 for item in s.items:
                     excess_items.setdefault(item.name, (item, s.line))
-        self.excess_units = {}
+        self.excess_dims = {}  # of the amount each excess value stands for
         for name, (item, _) in excess_items.items():
             try:
-                self.excess_units[name] = parse_unit(item.value.unit)
+                kind = kind_of(item.value.unit)
+                self.excess_dims[name] = (
+                    kind.amount_dims if kind else parse_unit(item.value.unit).dims
+                )
             except ValueError:
                 pass  # reported with the excess statement
 
@@ -1273,15 +1258,16 @@ class _Builder:
             TemperatureStatement in self.failures.kinds
             or any(isinstance(s, TemperatureStatement) for s in st)
         )
-        conc_unit, unit_factor, family_dims, family_origin = self._concentration_unit(lists)
-        self.conc_unit = conc_unit
-        values = self._lists(lists, order, excess_names, family_dims, unit_factor, family_origin)
+        conc_unit, unit_factor, family, family_origin, written = self._concentration_unit(lists)
+        self.conc_unit, self.family = conc_unit, family
+        values = self._lists(lists, order, excess_names, family, unit_factor, family_origin)
         excess_values, excess_si = values["excess"]
 
         constants = self._constants(st, reactions, temperature)
         reaction_objs, steps = self._reactions(reactions, excess_names, constants, excess_si)
 
         species_objs, excess_objs = self._species(all_species, excess_names, order, values)
+        self._convert_masses(values, species_objs + excess_objs, unit_factor)
         self._balance(reaction_objs, species_objs + excess_objs, allow_imbalance, reactions)
         self._repeated_steps(steps, reactions)
         if self.errors:
@@ -1299,6 +1285,7 @@ class _Builder:
             feed=values["feed"][0],
             temperature=temperature,
             concentration_unit=conc_unit,
+            written_unit=written,
             title=title,
             source=self.source,
             text=self.text,
@@ -1409,9 +1396,12 @@ class _Builder:
         """Pick the scheme's concentration unit: the unit of the first start value.
 
         Without start values, the first excess concentration, then the first feed
-        (its concentration part) decides; without any, ``mol/L``.  Returns the
-        unit, its exact factor to SI, its dimension and a description of where it
-        came from (for the message when another value does not fit).
+        (its concentration part) decides; without any, ``mol/L``.  Values in mass
+        units are kept as amounts: the scheme's unit is then the amount twin of the
+        mass unit (``mg/L`` -> ``mmol/L``, :func:`kinetics.amounts.amount_unit`).
+        Returns the unit, its exact factor to SI, the :class:`~kinetics.amounts.Kind`
+        of the first value, where it came from (for the message when another value
+        does not fit) and the unit as written (the default unit of outputs).
         """
         for kind in ("start", "excess", "feed"):
             for s in lists:
@@ -1419,35 +1409,37 @@ class _Builder:
                     continue
                 for item in s.items:
                     try:
-                        spec = parse_unit(item.value.unit)
+                        found = kind_of(item.value.unit, per_time=kind == "feed")
                     except ValueError:
                         continue  # reported when the item itself is checked
-                    dims = spec.dims
-                    if kind == "feed":
-                        dims["[time]"] = dims.get("[time]", 0) + 1
-                    dims_t = tuple(sorted((k, v) for k, v in dims.items() if v))
-                    if dims_t not in _CONCENTRATION_FAMILIES:
+                    if found is None:
                         continue
                     origin = f"{kind} {item.name} = {item.value.text} on line {s.line.number}"
-                    if kind != "feed":
-                        unit = pint_text(item.value.unit) if item.value.unit else "1"
-                        return unit, spec.factor, dims_t, origin
-                    # a feed in mol/L/min: the concentration unit is mol/L
-                    unit = _concentration_part(item.value.unit)
-                    try:
-                        part = parse_unit(unit) if unit else None
-                    except ValueError:
-                        part = None
-                    if part is None or part.dimensions != dims_t:
-                        unit, factor = _FAMILY_UNITS[dims_t]
-                        return unit, factor, dims_t, origin
-                    return pint_text(unit), part.factor, dims_t, origin
-        dims_t = (("[length]", -3), ("[substance]", 1))
-        return "mol/L", Fraction(1000), dims_t, ""
+                    unit, factor = self._written_unit(item.value.unit, kind, found)
+                    if found.substance == "mass":
+                        return (*amount_unit(kind_of(unit)), found, origin, unit)
+                    return unit, factor, found, origin, unit
+        return "mol/L", Fraction(1000), _DEFAULT_KIND, "", "mol/L"
 
-    def _lists(self, lists, order, excess_names, family_dims, unit_factor, family_origin):
-        family = _CONCENTRATION_FAMILIES[family_dims]
+    @staticmethod
+    def _written_unit(text: str, kind: str, found: Kind) -> tuple[str, Fraction]:
+        """The concentration unit a value was written in, and its SI factor (a feed
+        in ``mol/L/min`` was written in ``mol/L``)."""
+        if kind != "feed":
+            unit = pint_text(text) if text else "1"
+            return unit, (found.factor if text else Fraction(1))
+        unit = _concentration_part(text)
+        try:
+            part = kind_of(unit) if unit else None
+        except ValueError:
+            part = None
+        if part is None or (part.substance, part.basis) != (found.substance, found.basis):
+            return _FAMILY_UNITS[(found.substance, found.basis)]
+        return pint_text(unit), part.factor
+
+    def _lists(self, lists, order, excess_names, family, unit_factor, family_origin):
         out = {kind: ({}, {}) for kind in ("start", "excess", "feed", "formula", "molar_mass")}
+        self._masses_to_convert: list = []
         seen: dict[tuple[str, str], int] = {}
         for s in lists:
             for item in s.items:
@@ -1527,16 +1519,15 @@ class _Builder:
                 if isinstance(spec, SchemeError):
                     self.errors.append(spec)
                     continue
-                dims = spec.dims
-                if s.kind == "feed":
-                    dims["[time]"] = dims.get("[time]", 0) + 1
-                dims_t = tuple(sorted((k, x) for k, x in dims.items() if x))
-                if dims_t != family_dims or spec.offset:
-                    self.errors.append(
-                        self._family_error(s, item, spec, dims_t, family, family_origin)
-                    )
+                kind = kind_of(v.unit, per_time=s.kind == "feed")
+                if kind is None or kind.basis != family.basis:
+                    self.errors.append(self._family_error(s, item, spec, kind, family_origin))
                     continue
                 si = _scaled(v.number, spec.factor)
+                if kind.substance == "mass":  # an amount once the molar masses are known
+                    self._masses_to_convert.append((s, item, si))
+                    out[s.kind][1][item.name] = None
+                    continue
                 value = _exact(si / unit_factor)
                 if not value and si:
                     size = "too large" if value is None else "too small (it would become 0)"
@@ -1552,35 +1543,75 @@ class _Builder:
                 out[s.kind][1][item.name] = si
         return out
 
-    def _family_error(self, s, item, spec, dims_t, family, family_origin):
+    def _convert_masses(self, values, species, unit_factor) -> None:
+        """Turn the values written as masses into amounts: n = m / M (M in g/mol)."""
+        masses = {sp.name: sp.molar_mass for sp in species}
+        for s, item, si in self._masses_to_convert:
+            v = item.value
+            grams = masses.get(item.name)
+            if grams is None:
+                what = {"start": "start value", "excess": "excess value", "feed": "feed"}
+                self.error(
+                    s.line,
+                    f"the {what[s.kind]} of {item.name} is a mass ({v.text}); the scheme "
+                    f"counts molecules, and {item.name} has no molar mass to convert it",
+                    item.name_column,
+                    item.name,
+                    f"give its formula (formula {item.name} = ...) or its molar mass "
+                    f"(molar_mass {item.name} = ... g/mol), or write the value as an amount "
+                    f"({self.conc_unit})",
+                )
+                continue
+            amount = si * 1000 / Fraction(grams)  # kg / (kg/mol) -> mol, per basis
+            value = _exact(amount / unit_factor)
+            if not value and amount:
+                self.error(
+                    s.line,
+                    f"{s.kind} {item.name} = {v.text} is too "
+                    + ("large" if value is None else "small")
+                    + f" in {self.conc_unit}",
+                    v.column,
+                    v.text,
+                    "check the value and its unit",
+                )
+                continue
+            values[s.kind][0][item.name] = value
+            values[s.kind][1][item.name] = amount
+
+    def _family_error(self, s, item, spec, kind, family_origin):
         v = item.value
-        is_known_family = dims_t in _CONCENTRATION_FAMILIES
+        family = self.family
         what = describe_dimension(spec.dims)
         col = v.unit_column if v.unit else v.column
         snippet = v.unit or v.number
         example = {"start": "0.5 mol/L", "excess": "55 mol/L", "feed": "0.01 mol/L/min"}[s.kind]
-        if is_known_family and not spec.offset:
-            other = _CONCENTRATION_FAMILIES[dims_t]
+        if kind is not None:
             origin = f" ({family_origin})" if family_origin else ""
             if s.kind == "feed":
                 problem = (
-                    f"the feed of {item.name} is {v.text}, a feed of {_PLURAL[other]}, but "
-                    f"this file gives {_PLURAL[family]}{origin}"
+                    f"the feed of {item.name} is {v.text}, a feed of {kind.plural}, but "
+                    f"this file gives {family.plural}{origin}"
                 )
             elif not v.unit:
                 problem = (
                     f"{s.kind} {item.name} = {v.number} has no unit, but this file gives "
-                    f"{_PLURAL[family]}{origin}"
+                    f"{family.plural}{origin}"
                 )
             else:
                 problem = (
-                    f"{s.kind} {item.name} = {v.text} is {_ARTICLE[other]} {other}, but this "
-                    f"file gives {_PLURAL[family]}{origin}"
+                    f"{s.kind} {item.name} = {v.text} is {kind.article} {kind.name}, but this "
+                    f"file gives {family.plural}{origin}"
                 )
-            if {other, family} == {"amount", "concentration"}:
+            if {kind.name, family.name} == {"amount", "concentration"}:
                 hint = (
                     "amounts (mol) and concentrations (mol/L) may not be mixed in one file; "
-                    f"write every value as {_ARTICLE[family]} {family}"
+                    f"write every value as {family.article} {family.name}"
+                )
+            elif "number" not in (kind.substance, family.substance):
+                hint = (
+                    "values per volume, per mass of soil and absolute amounts may not be "
+                    f"mixed in one file; write every value as {family.article} {family.name}"
+                    + (" (amounts and masses of one kind may be mixed)")
                 )
             else:
                 hint = f"write every value in one kind of unit, e.g. {example}"
@@ -1859,10 +1890,10 @@ class _Builder:
                 k_dims = parse_unit(constant.unit).dims
                 total = dict(k_dims)
                 for t in partners:
-                    spec = self.excess_units.get(t.name)
-                    if spec is None:
+                    dims = self.excess_dims.get(t.name)
+                    if dims is None:
                         continue
-                    for k, v in spec.dims.items():
+                    for k, v in dims.items():
                         total[k] = total.get(k, 0) + v * Fraction(t.coefficient)
                 total = {k: v for k, v in total.items() if v}
                 if total != {"[time]": -1}:

@@ -257,7 +257,8 @@ class Scheme:
     temperature : float or None
         [K].
     concentration_unit : str
-        A pint-parsable unit, as the user wrote it.
+        A pint-parsable unit of amounts, as the user wrote it; for a file in mass units
+        its amount twin (``mmol/L`` for ``mg/L``: masses are converted with molar masses).
     title : str
     source : str
         File name, or ``"<text>"``.
@@ -265,6 +266,10 @@ class Scheme:
         The scheme as written.
     allow_imbalance : bool
         True when the file opted out of the atom-balance error (lumped schemes).
+    written_unit : str
+        The unit of the first start value as written (``mg/L``): the unit outputs use
+        unless told otherwise (see :meth:`kinetics.solution.Solution.in_unit`); equal to
+        ``concentration_unit`` for files in amounts.
     warnings : tuple of str
         Sentences about probable mistakes that do not stop the file from loading
         (parallel steps, constants no step uses, nothing to start from), each led by
@@ -281,6 +286,7 @@ class Scheme:
     feed: dict[str, float]
     temperature: float | None
     concentration_unit: str
+    written_unit: str = ""
     title: str = ""
     source: str = "<text>"
     text: str = ""

@@ -32,6 +32,7 @@ __all__ = [
     "concentration_order",
     "convert",
     "describe_dimension",
+    "is_mass_ratio",
     "normalise_unit",
     "parse_duration",
     "parse_time_list",
@@ -215,6 +216,34 @@ def parse_unit(text: str) -> UnitSpec:
         return UnitSpec(text, Fraction(1), _dims_tuple(quantity.dimensionality), True)
     base = ureg.Quantity(Fraction(1), unit).to_base_units()
     return UnitSpec(text, Fraction(base.magnitude), _dims_tuple(base.dimensionality), False)
+
+
+@functools.lru_cache(maxsize=256)
+def is_mass_ratio(text: str) -> bool:
+    """True for a mass divided by a mass (``mg/kg``, ``ug/g``, ``mg kg-1``).
+
+    pint reduces such a unit to a pure number; a soil scientist means a mass of
+    substance per mass of soil.  False for units that do not parse.
+
+    Examples
+    --------
+    >>> is_mass_ratio("mg/kg"), is_mass_ratio("%"), is_mass_ratio("mg/L")
+    (True, False, False)
+    """
+    try:
+        if parse_unit(text).dimensions:
+            return False
+        unit = registry().parse_units(normalise_unit(text))
+    except Exception:  # pint raises several unrelated types
+        return False
+    ureg = registry()
+    up: dict = {}
+    down: dict = {}
+    for name, power in unit._units.items():  # pint's unit container: name -> exponent
+        side = up if power > 0 else down
+        for dim, exp in ureg.get_dimensionality(name).items():
+            side[dim] = side.get(dim, 0) + exp * abs(power)
+    return up == {"[mass]": 1} and down == {"[mass]": 1}
 
 
 def pint_text(text: str) -> str:
