@@ -594,6 +594,8 @@ def parse_time_list(text: str, option: str = "--times") -> tuple[list[float], st
         raise UsageError(f"{quoted} is not a list of times with one unit", example)
     number, unit = _number_and_unit(pieces[-1])
     for piece in [*pieces[:-1], number]:
+        if piece == "":
+            raise UsageError(f"{quoted} has an empty item (a comma too many?)", example)
         if piece is None or _number_and_unit(piece) != (piece, ""):
             bad = pieces[-1] if piece is None else piece
             raise UsageError(f"{quoted}: {shorten(bad)!r} is not a number", example)
