@@ -411,6 +411,7 @@ class ListStatement:
             return None
         kind = match.group(1)
         example = cls._EXAMPLES[kind]
+        article = "an" if kind == "excess" else "a"
         body = code[match.end() :]
         if _ARROW_RE.search(body):  # "start -> B  k1 = ...": a reaction with a keyword
             return [_keyword_error(line, kind, match.start(1), "a species")]
@@ -433,7 +434,7 @@ class ListStatement:
             if not piece:
                 errors.append(
                     line.error(
-                        f"an empty item in a '{kind}' statement (a comma too many?)",
+                        f"an empty item in {article} '{kind}' statement (a comma too many?)",
                         col0 + 1,
                         " ",
                         f"write NAME = VALUE items separated by commas, e.g. {example}",
@@ -443,12 +444,15 @@ class ListStatement:
             if not m:
                 errors.append(
                     line.error(
-                        f"could not read {_q(piece)} in a '{kind}' statement",
+                        f"could not read {_q(piece)} in {article} '{kind}' statement",
                         col0 + 1,
                         piece or " ",
                         f"write NAME = VALUE, e.g. {example}",
                     )
                 )
+                lead = _NAME_RE.match(piece)
+                if lead:  # "excess W 55 M": W is still meant to be in excess
+                    declared.append(lead.group(0))
                 continue
             name = m.group("name")
             declared.append(name)
@@ -1007,7 +1011,7 @@ def _unreadable_line(source: str, number: int, raw: str) -> SchemeError:
             source,
             number,
             1,
-            raw[:MAX_SHOWN_LINE],
+            raw[:MAX_SHOWN_LINE] + "…",
             raw[:1],
             "write one statement per line (is this a scheme file?)",
         )
@@ -1530,10 +1534,11 @@ class _Builder:
                     continue
                 value = _exact(si / unit_factor)
                 if not value and si:
-                    size = "too large" if value is None else "too small (it would become 0)"
+                    size = "too large" if value is None else "too small"
                     self.error(
                         s.line,
-                        f"{s.kind} {item.name} = {v.text} is {size} in {self.conc_unit}",
+                        f"{s.kind} {item.name} = {v.text} is {size} in {self.conc_unit}"
+                        + ("" if value is None else " (it would become 0)"),
                         v.column,
                         v.text,
                         "check the value and its unit",
@@ -1569,7 +1574,8 @@ class _Builder:
                     s.line,
                     f"{s.kind} {item.name} = {v.text} is too "
                     + ("large" if value is None else "small")
-                    + f" in {self.conc_unit}",
+                    + f" in {self.conc_unit}"
+                    + ("" if value is None else " (it would become 0)"),
                     v.column,
                     v.text,
                     "check the value and its unit",
