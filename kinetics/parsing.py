@@ -44,7 +44,13 @@ does not recognise, every error included, goes to the general reader
 second pass (``_Builder``) resolves names, units and orders across the whole
 file.  All errors of both passes are collected and raised together as one
 :class:`~kinetics.errors.SchemeErrors`.  The work is linear in the size of the
-file (``benchmarks/bench_parse.py``).
+file (``benchmarks/bench_parse.py``): lines longer than :data:`MAX_LINE_LENGTH`,
+units longer than ``units.MAX_UNIT_LENGTH`` and numbers longer than
+:data:`MAX_NUMBER_LENGTH` are refused before they are read, and :func:`load`
+reads a file in chunks up to :data:`MAX_SCHEME_BYTES`.  Errors that follow from
+a line that failed to read (its species "occur in no reaction") are not
+reported; probable mistakes that do not stop the file become
+``Scheme.warnings``.
 """
 
 from __future__ import annotations
