@@ -753,8 +753,8 @@ def _fast_terms(code: str, start: int, end: int):
             terms.append(_Term(1.0, name, m.start(2) + 1))
             continue
         coefficient = float(coef)
-        if not coefficient > 0:
-            return None
+        if not (coefficient > 0 and _plain_number(coef)):
+            return None  # the general reader words the message
         terms.append(_Term(coefficient, name, m.start(2) + 1))
     return tuple(terms)
 
@@ -834,6 +834,14 @@ def _read_terms(line: _Line, text: str, offset: int, side: str):
                 offset + match.start("coef") + 1,
                 coef_text,
                 "coefficients are positive numbers; leave out a species that does not take part",
+            )
+        if coef_text is not None and not _plain_number(coef_text):
+            return line.error(
+                f"stoichiometric coefficient of {name} is {_q(coef_text)}, which is too large "
+                "to count molecules",
+                offset + match.start("coef") + 1,
+                coef_text,
+                "write a coefficient such as 2 or 0.5",
             )
         if name in _RESERVED:
             return _keyword_error(line, name, column - 1, "a species")

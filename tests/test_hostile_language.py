@@ -97,6 +97,12 @@ def test_text_run_on_after_a_unit_is_quoted_cut():
             "floating-point number (it would become 0; the smallest is about 5e-324); check "
             "the exponent, or write 0 if you mean zero",
         ),
+        (  # 1e400 molecules: once an infinite entry of the rate matrix
+            "A -> " + "9" * 400 + " B  k1 = 1 1/s\nstart A = 1 M\n",
+            "t.scheme:1:6: stoichiometric coefficient of B is '" + "9" * 60 + "… (400 "
+            "characters)', which is too large to count molecules; write a coefficient such as 2 "
+            "or 0.5",
+        ),
         (
             "A -> B  k1 = 0.1 1/s\x00\nstart A = 1 M\n",
             "t.scheme:1:21: this line contains the control character U+0000, which a scheme "
