@@ -9,7 +9,8 @@ matrix order), ``excess_species``, ``species_details``, ``rate_matrix`` (rows,
 ``concentration_unit``, ``temperature_K``, ``constants``, ``reactions``
 (one object per step: ``equation``, ``k_per_s``, ``reaction``, ``direction``,
 ``constant``, ``given``, ``line``), ``balance`` (``ok`` and per-reaction
-details), ``network`` (roles, reversible pairs, cycles, components).
+details), ``network`` (roles, reversible pairs, cycles, components), ``warnings``
+(sentences about probable mistakes, see :attr:`kinetics.scheme.Scheme.warnings`).
 
 Above :data:`DENSE_JSON_MAX` species the dense ``rate_matrix`` would be
 hundreds of megabytes of JSON: it is then ``null`` and the nonzero entries are
@@ -238,6 +239,7 @@ def check_report(scheme: Scheme) -> dict:
         "reactions": steps,
         "balance": balance.to_dict(),
         "network": network.to_dict(),
+        "warnings": list(scheme.warnings),
     }
 
 
@@ -310,7 +312,24 @@ def compute_summary(solution: Solution) -> dict[str, dict] | None:
         feed=feed,
         t_window=window,
     )
-    return {name: (s.to_dict() if hasattr(s, "to_dict") else dict(s)) for name, s in raw.items()}
+    out = {name: (s.to_dict() if hasattr(s, "to_dict") else dict(s)) for name, s in raw.items()}
+    if solution.unit_factors is not None:  # reported in another unit (Solution.in_unit)
+        for name, factor in zip(solution.species, solution.unit_factors, strict=True):
+            _scale_concentrations(out[name], float(factor))
+    return out
+
+
+#: Keys of a species summary that hold a concentration (scaled by Solution.in_unit).
+CONCENTRATION_KEYS = frozenset(k for k, _, kind in SUMMARY_COLUMNS if kind == "conc")
+
+
+def _scale_concentrations(entry: dict, factor: float) -> None:
+    for key in CONCENTRATION_KEYS | AREA_KEYS:
+        if isinstance(entry.get(key), int | float):
+            entry[key] = entry[key] * factor
+    for maximum in entry.get("maxima") or []:
+        if isinstance(maximum.get("height"), int | float):
+            maximum["height"] = maximum["height"] * factor
 
 
 def _convert_times(value, key: str, factor: float):
