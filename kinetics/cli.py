@@ -83,11 +83,26 @@ def parse_time_list(text: str) -> tuple[list[float], str]:
     return [v * factor for v in values], unit
 
 
+class PipeClosed(Exception):
+    """stdout was closed by its reader before the output was complete (``| head``)."""
+
+
 class _Group(click.Group):
     """Keeps commands in the order they are defined in ``--help``."""
 
     def list_commands(self, ctx):
         return list(self.commands)
+
+    def invoke(self, ctx):
+        # click and rich would turn a closed pipe into exit status 1, the status of a bug
+        try:
+            return super().invoke(ctx)
+        except BrokenPipeError as exc:
+            raise PipeClosed() from exc
+        except SystemExit as exc:
+            if isinstance(exc.__context__, BrokenPipeError):  # rich's console
+                raise PipeClosed() from exc
+            raise
 
 
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
@@ -327,13 +342,25 @@ def solve(
     document = solution_json(result, time_unit, summary, settings)
     # the result reaches stdout before any file is written: a full disk loses nothing
     if as_json:
-        click.echo(json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False))
+        echo_long(json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False))
     elif not paths:
         render_solution(result, time_unit, summary=summary, species=species)
     write_outputs(
         paths,
         lambda path: _write_output(path, result, scheme, time_unit, summary, document, species),
     )
+
+
+def echo_long(text: str, piece: int = 1 << 16) -> None:
+    """Print a long text on stdout in pieces (with a newline).
+
+    One write of many megabytes into a pipe whose reader stops early (``| head``)
+    ends without an error and the rest is dropped silently; written in pieces, the
+    next piece meets the closed pipe and the run ends as :func:`main` says.
+    """
+    for start in range(0, len(text), piece):
+        click.echo(text[start : start + piece], nl=False)
+    click.echo()
 
 
 def _check_sheet_sizes(paths, n_times: int, scheme) -> None:
@@ -537,14 +564,6 @@ def _signals_stop_the_run():
             signal.signal(number, handler)
 
 
-def _is_broken_pipe(exc: BaseException | None) -> bool:
-    while exc is not None:
-        if isinstance(exc, BrokenPipeError):
-            return True
-        exc = exc.__cause__ or exc.__context__
-    return False
-
-
 def _silence_stdout() -> None:
     """Point stdout at the null device, so that flushing it at exit cannot fail again."""
     import os
@@ -589,12 +608,9 @@ def main(argv: list[str] | None = None) -> int:
     except click.exceptions.NoArgsIsHelpError as exc:
         click.echo(exc.format_message(), err=True)
         return 2
-    except SystemExit as exc:
-        # click ends a command whose stdout was closed (| head) with SystemExit(1)
-        if _is_broken_pipe(exc.__context__):
-            _silence_stdout()
-            return BROKEN_PIPE
-        raise
+    except PipeClosed:
+        _silence_stdout()
+        return BROKEN_PIPE
     except click.ClickException as exc:
         if debug:
             raise
@@ -608,7 +624,7 @@ def main(argv: list[str] | None = None) -> int:
         _say(exc, str(exc))
         return 2
     except OSError as exc:
-        if _is_broken_pipe(exc):
+        if isinstance(exc, BrokenPipeError):
             _silence_stdout()
             return BROKEN_PIPE
         if debug:

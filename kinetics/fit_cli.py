@@ -194,7 +194,7 @@ def fit(
     for path, sets in runs:
         conditions = dict(parse_condition(text, scheme) for text in sets)
         datasets.append(read_measurements(path, scheme, conditions))
-    from .cli import first_use_note, write_outputs
+    from .cli import echo_long, first_use_note, write_outputs
 
     first_use_note()
     result = run_fit(
@@ -213,7 +213,7 @@ def fit(
         click.echo(CAUTION, err=True)
     # the estimates reach stdout before any file is written: a full disk loses nothing
     if as_json:
-        click.echo(json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False))
+        echo_long(json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False))
     else:
         click.echo(render_fit(result))
 
@@ -377,7 +377,7 @@ def fit_figure(result: FitResult, time_unit: str | None = None) -> Figure:
         if m.conditions.get("temperature") is not None:
             t = m.conditions["temperature"]
             title += f"  ({t - 273.15:.4g} °C)"
-        top.set_title(title, fontsize=10)
+        top.set_title(title, fontsize=10, parse_math=False)  # a file name, drawn as written
         top.set_ylabel(f"concentration [{conc}]")
         bottom.set_ylabel(f"data − fit [{conc}]")
         bottom.set_xlabel(f"time [{unit}]")

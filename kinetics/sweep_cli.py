@@ -151,7 +151,7 @@ def sweep_figure(plan, data, column: str, quantity: str):
         ax.errorbar([0], [y], yerr=[[y - lo], [hi - y]], fmt="ko", capsize=6)
         ax.set_xticks([0], ["median, 2.5-97.5 %"])
         ax.set_ylabel(column)
-    ax.set_title(title, fontsize=10)
+    ax.set_title(title, fontsize=10, parse_math=False)  # the user's text, drawn as written
     return fig
 
 

@@ -153,14 +153,13 @@ class ChunkStore:
         Raises
         ------
         kinetics.errors.OutputFileError
-            The chunk cannot be written (full disk); the finished chunks are kept.
+            The chunk cannot be written (full disk); the chunks finished before stay.
         """
         target = self.path(result.index)
         try:
             self._write(target, result)
         except OSError as exc:
-            kept = "the finished chunks are kept: run the same command with --resume"
-            raise output_error(exc, target, kept) from exc
+            raise output_error(exc, target) from exc
 
     def _write(self, target: Path, result: ChunkResult) -> None:
         fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".part", dir=self.folder)
@@ -579,6 +578,8 @@ def run_sweep(
         report = SweepRun(reused=plan.n_chunks - len(store.missing()))
         try:
             _compute(plan, store, report, engine, scheduler, workers, threads, on_progress)
+            tables = _Tables(plan, paths, samples_path, curves_path)
+            tables.write_all(store, report, plot_columns, on_writing)
         except BaseException as exc:
             if store.done():
                 exc.add_note(
@@ -586,8 +587,6 @@ def run_sweep(
                     "the same command with --resume continues"
                 )
             raise
-        writers = _Tables(plan, paths, samples_path, curves_path)
-        writers.write_all(store, report, plot_columns, on_writing)
         report.written = owned
         if not keep_chunks:
             store.remove()
