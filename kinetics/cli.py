@@ -161,10 +161,14 @@ def check(scheme_file, as_json, allow_imbalance):
     """
     from .overview import check_report
     from .parsing import load
-    from .terminal import render_check
+    from .terminal import progress, render_check
 
-    scheme = load(scheme_file, strict_balance=not allow_imbalance)
-    report = check_report(scheme)
+    # a scheme of 100,000s of reactions takes a while: say which phase runs (stderr, terminal)
+    with progress(2, f"reading {scheme_file.name}") as bar:
+        scheme = load(scheme_file, strict_balance=not allow_imbalance)
+        bar.step("checking the structure")
+        report = check_report(scheme)
+        bar.step()
     if as_json:
         click.echo(json.dumps(report, indent=2, allow_nan=False))
     else:

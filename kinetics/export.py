@@ -65,6 +65,12 @@ def check_output_path(path, inputs=()) -> Path:
         )
     if p.is_dir():
         raise UsageError(f"the output path {str(path)!r} is a folder", "give a file name")
+    if p.exists() and not p.is_file():
+        # a pipe or a device would be replaced by the finished file, not written to
+        raise UsageError(
+            f"the output path {str(path)!r} is not a regular file (a pipe or a device)",
+            "give the name of a file",
+        )
     for other in inputs:
         try:
             if p.exists() and Path(other).exists() and p.samefile(other):
@@ -225,15 +231,18 @@ def atomic_path(path):
     is untouched; an operating-system error (full disk, no permission) comes out as
     :class:`~kinetics.errors.OutputFileError` naming ``path``.
     """
-    target = Path(path)
+    named = Path(path)
+    # a link to a file stays a link: the file it points to is replaced
+    target = Path(os.path.realpath(named)) if named.is_symlink() else named
     folder = target.parent if str(target.parent) else Path(".")
-    # the temporary name keeps the extension, for libraries that look at it
+    # the temporary name keeps the extension, for libraries that look at it, and stays
+    # short enough for the file system however long the target's name is
     try:
         fd, tmp = tempfile.mkstemp(
-            prefix=f".{target.name}.", suffix=f".part{target.suffix}", dir=folder
+            prefix=f".{target.name[:64]}.", suffix=f".part{target.suffix[:16]}", dir=folder
         )
     except OSError as exc:
-        raise output_error(exc, target) from exc
+        raise output_error(exc, named) from exc
     os.close(fd)
     try:
         yield Path(tmp)
@@ -245,7 +254,7 @@ def atomic_path(path):
         with contextlib.suppress(OSError):
             os.unlink(tmp)
         if isinstance(exc, OSError) and not isinstance(exc, KineticsError):
-            raise output_error(exc, target) from exc
+            raise output_error(exc, named) from exc
         raise
 
 

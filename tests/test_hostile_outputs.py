@@ -206,6 +206,37 @@ def test_json_and_parquet_keep_the_text_as_written(folder, capsys):
     assert meta["title"] == HYPERLINK
 
 
+def test_a_pipe_or_device_as_output_is_refused(folder, capsys):
+    os.mkfifo(folder / "fifo.csv")
+    status, _, err = run(
+        capsys, "solve", scheme_file(folder), "--until", "1h", "--out", "fifo.csv", "--no-caution"
+    )
+    assert (status, err) == (
+        2,
+        "kinetics: the output path 'fifo.csv' is not a regular file (a pipe or a device); "
+        "give the name of a file\n",
+    )
+
+
+def test_a_link_to_an_output_stays_a_link(folder, capsys):
+    (folder / "real.csv").write_text("old\n", encoding="utf-8")
+    (folder / "link.csv").symlink_to("real.csv")
+    status, _, err = run(
+        capsys, "solve", scheme_file(folder), "--until", "1h", "--out", "link.csv", "--no-caution"
+    )
+    assert (status, err) == (0, "wrote link.csv\n")
+    assert (folder / "link.csv").is_symlink()
+    assert (folder / "real.csv").read_text(encoding="utf-8").startswith("time [h],A [mol/L]")
+
+
+def test_a_long_output_name_is_written(folder, capsys):
+    name = "n" * 246 + ".csv"  # 250 bytes: the longest names the file system allows, nearly
+    status, _, err = run(
+        capsys, "solve", scheme_file(folder), "--until", "1h", "--out", name, "--no-caution"
+    )
+    assert (status, err) == (0, f"wrote {name}\n")
+
+
 # ---------------------------------------------------------------------------------------
 # User text in HTML and in plots
 # ---------------------------------------------------------------------------------------
