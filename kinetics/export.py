@@ -218,6 +218,10 @@ def output_error(exc: OSError, path, left: str = "no partial file was left behin
         hint = "free some space or write to another disk"
     elif number in _NOT_ALLOWED:
         hint = "write to a folder you may write to"
+    elif number in (errno.ENOENT, errno.ENOTDIR):
+        hint = f"create the folder {str(Path(path).parent)!r} first or write elsewhere"
+    elif number == errno.ENAMETOOLONG:
+        hint = "use a shorter file name"
     else:
         hint = "check the disk and the folder, then run again"
     return OutputFileError(f"not written ({reason})", str(path), f"{hint}; {left}")

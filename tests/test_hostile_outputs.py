@@ -447,6 +447,17 @@ def test_errno_in_the_text_of_a_library_error_is_read():
     )
 
 
+def test_the_api_names_the_file_of_a_missing_folder(tmp_path):
+    result = kinetics.solve(kinetics.parse(CHAIN), [0.0, 60.0, 120.0])
+    target = tmp_path / "missing" / "x.png"
+    with pytest.raises(OutputFileError) as info:
+        result.plot(target)
+    assert str(info.value) == (
+        f"{target}: not written (No such file or directory); create the folder "
+        f"{str(target.parent)!r} first or write elsewhere; no partial file was left behind"
+    )
+
+
 def test_an_os_error_without_a_file_name_says_so(folder, capsys, monkeypatch):
     import kinetics.solution
 
@@ -665,12 +676,13 @@ def test_sigterm_in_process_exits_143_and_leaves_no_file(folder, capsys, monkeyp
         real(frame, path)
 
     monkeypatch.setattr(export, "write_csv", killed)
+    before = signal.getsignal(signal.SIGTERM)
     status, _, err = run(
         capsys, "solve", source, "--until", "1h", "--out", "a.csv", "--out", "b.csv", "--no-caution"
     )
     assert (status, err) == (143, "kinetics: terminated\nkinetics: also not written: b.csv\n")
     assert sorted(p.name for p in folder.iterdir()) == ["chain.scheme"]
-    assert signal.getsignal(signal.SIGTERM) is signal.SIG_DFL  # restored after the run
+    assert signal.getsignal(signal.SIGTERM) is before  # restored after the run
 
 
 def test_a_signal_the_parent_ignores_stays_ignored(folder, capsys):
