@@ -40,7 +40,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from .errors import UsageError
+from .errors import KineticsError, UsageError
 from .export import atomic_path, output_error, spreadsheet_frame
 from .sweep import ChunkResult, SweepPlan, curve_bands, curves_frame, percentile_bands, run_chunks
 from .sweep import summary_frame as _summary_frame
@@ -581,11 +581,15 @@ def run_sweep(
             tables = _Tables(plan, paths, samples_path, curves_path)
             tables.write_all(store, report, plot_columns, on_writing)
         except BaseException as exc:
-            if store.done():
-                exc.add_note(
-                    f"the finished chunks are kept in {str(store.folder)!r}: "
-                    "the same command with --resume continues"
-                )
+            # an interrupt, a full disk or a bug: the chunks are good for --resume (a
+            # mistake such as a foreign chunk file is not mended by resuming)
+            resumable = isinstance(exc, OSError) or not isinstance(exc, KineticsError)
+            with contextlib.suppress(OSError):
+                if resumable and store.done():
+                    exc.add_note(
+                        f"the finished chunks are kept in {str(store.folder)!r}: "
+                        "the same command with --resume continues"
+                    )
             raise
         report.written = owned
         if not keep_chunks:
