@@ -207,8 +207,8 @@ def concentration_figure(
         ax_log.set_ylim(floor / 2, peak * 2)
     ax_log.set_title("logarithmic scale", fontsize=10)
     heading = title if title is not None else (solution.scheme.title or solution.scheme.source)
-    if heading:
-        fig.suptitle(heading, fontsize=12)
+    if heading:  # the user's text, drawn as written ("$" starts no formula)
+        fig.suptitle(heading, fontsize=12, parse_math=False)
     handles, labels = ax_lin.get_legend_handles_labels()
     from matplotlib.lines import Line2D
 
