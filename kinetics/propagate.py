@@ -298,6 +298,8 @@ def _arithmetic_bound(n: int, plan: _Plan, unit: float) -> float:
     eps = (m + 4) * gamma + (m + 8) * unit
     for _ in range(plan.j):
         eps = 2 * eps + eps * eps + gamma * (1 + eps) ** 2
+        if eps >= 1.0:  # guard: a bound of 100 % says nothing, and squaring it overflows
+            return math.inf
     return eps
 
 
