@@ -15,6 +15,7 @@ except PackageNotFoundError:  # pragma: no cover - running from a source tree
     __version__ = "0.0.0"
 
 from .errors import (
+    ArgumentTypeError,
     DataError,
     GrowthError,
     KineticsError,
@@ -31,6 +32,7 @@ from .solution import Solution, solve
 from .sweep import monte_carlo, sweep
 
 __all__ = [
+    "ArgumentTypeError",
     "DataError",
     "FitResult",
     "GrowthError",

@@ -19,6 +19,7 @@ All errors pickle (parallel sweeps send them between processes).
 from __future__ import annotations
 
 __all__ = [
+    "ArgumentTypeError",
     "DataError",
     "GrowthError",
     "KineticsError",
@@ -162,6 +163,14 @@ class _ProblemAndHint(KineticsError):
 
 class UsageError(_ProblemAndHint, ValueError):
     """A wrong argument to a command or to a library function (times, options, names)."""
+
+
+class ArgumentTypeError(_ProblemAndHint, TypeError):
+    """A library function called with an argument of the wrong type.
+
+    For example a file name or ``None`` where a checked scheme is needed, or a
+    single string where a list of names is needed.
+    """
 
 
 class DataError(KineticsError, ValueError):

@@ -7,12 +7,13 @@ vector and returns concentrations with their names and units.
 
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .errors import UsageError
+from .errors import ArgumentTypeError, UsageError
 from .propagate import propagate_certified
 from .units import convert, parse_unit
 
@@ -21,36 +22,122 @@ if TYPE_CHECKING:
 
     from .scheme import Scheme
 
-__all__ = ["Solution", "check_times", "solve", "time_grid"]
+__all__ = [
+    "MAX_VALUES",
+    "Solution",
+    "check_times",
+    "require_scheme",
+    "solve",
+    "time_grid",
+    "type_name",
+]
+
+
+#: Largest table a solve produces: points x species (80 MB per copy of the table; the
+#: JSON and spreadsheet outputs hold several copies).  README, "Limits of the method".
+MAX_VALUES = 10_000_000
+
+
+def type_name(x) -> str:
+    """``None`` for None, else the name of the type of ``x`` (for messages)."""
+    return "None" if x is None else type(x).__name__
+
+
+def require_scheme(scheme, function: str) -> Scheme:
+    """Return ``scheme`` if it is a checked :class:`~kinetics.scheme.Scheme`, else refuse it.
+
+    Parameters
+    ----------
+    scheme : object
+        What the caller passed.
+    function : str
+        The public function's name for the message, e.g. ``"solve"``.
+
+    Raises
+    ------
+    kinetics.errors.ArgumentTypeError
+        With a hint to :func:`kinetics.load` (a file name) or :func:`kinetics.parse` (text).
+    """
+    from .scheme import Scheme
+
+    if isinstance(scheme, Scheme):
+        return scheme
+    if isinstance(scheme, str) and ("\n" in scheme or "->" in scheme):
+        raise ArgumentTypeError(
+            f"{function}() needs a checked scheme, not the text of one",
+            f"parse it first: kinetics.{function}(kinetics.parse(text), ...)",
+        )
+    if isinstance(scheme, str | os.PathLike):
+        name = os.fspath(scheme)
+        raise ArgumentTypeError(
+            f"{function}() needs a checked scheme, not the file name {name!r}",
+            f"read it first: kinetics.{function}(kinetics.load({name!r}), ...)",
+        )
+    raise ArgumentTypeError(
+        f"{function}() needs a checked scheme, not {type_name(scheme)}",
+        "get one from kinetics.load('file.scheme') or kinetics.parse(text)",
+    )
 
 
 def check_times(times) -> np.ndarray:
-    """Validate a time list [s]: finite, >= 0, nondecreasing; return it as a float array."""
+    """Validate a time list [s]: a flat list, finite, >= 0, nondecreasing; return it as floats."""
+    if times is None or isinstance(times, str | bytes | dict):
+        raise ArgumentTypeError(
+            f"the times must be a list of numbers in seconds, not {type_name(times)}",
+            "e.g. [0, 600, 1200] or numpy.linspace(0, 3600, 201)",
+        )
     try:
-        t = np.asarray(times, dtype=float).reshape(-1)
+        t = np.asarray(times, dtype=float)
     except (TypeError, ValueError) as exc:
         raise UsageError(
             "the times are not numbers", "give times in seconds as a list of numbers"
         ) from exc
+    if t.ndim != 1:
+        shape = "a single number" if t.ndim == 0 else f"an array of shape {t.shape}"
+        raise UsageError(
+            f"the times must be a flat list of times, not {shape}",
+            "e.g. [0, 600, 1200] or numpy.linspace(0, 3600, 201); for one time give [t]",
+        )
     if t.size == 0:
         raise UsageError("the time list is empty", "give at least one time")
     if not np.all(np.isfinite(t)):
         raise UsageError("a time is not a finite number", "give finite times in seconds")
     if np.any(t < 0):
         raise UsageError(
-            f"a time is negative ({t[t < 0][0]!r} s)", "times start at 0 (the start values)"
+            f"a time is negative ({float(t[t < 0][0])!r} s)", "times start at 0 (the start values)"
         )
     if np.any(np.diff(t) < 0):
         raise UsageError("the times are not in increasing order", "sort the time list")
     return t
 
 
+def _check_size(points: int, species: int = 0) -> None:
+    """Refuse a table above :data:`MAX_VALUES` values before it is allocated."""
+    if points * max(species, 1) <= MAX_VALUES:
+        return
+    size = f"{MAX_VALUES:,} values (times x species; about {8 * MAX_VALUES // 10**6} MB per copy)"
+    if species == 0:
+        raise UsageError(
+            f"{points:,} times are too many: one run computes at most {size}",
+            "use fewer times, e.g. 201 (the default), or solve the time span in parts",
+        )
+    raise UsageError(
+        f"{points:,} times x {species} species = {points * species:,} values are too many: "
+        f"one run computes at most {size}",
+        f"use at most {MAX_VALUES // species:,} times, or solve the time span in parts",
+    )
+
+
 def time_grid(until: float, points: int = 201) -> np.ndarray:
-    """A uniform grid of ``points`` times from 0 to ``until`` [s] inclusive."""
+    """A uniform grid of ``points`` times from 0 to ``until`` [s] inclusive.
+
+    At most :data:`MAX_VALUES` points (a larger grid is refused before it is made).
+    """
     if not (np.isfinite(until) and until > 0):
         raise UsageError(f"the end time must be positive, not {until!r}", "e.g. --until 90min")
     if points < 2:
         raise UsageError(f"a grid needs at least 2 points, not {points}", "e.g. --points 201")
+    _check_size(points)
     return np.linspace(0.0, until, points)
 
 
@@ -159,6 +246,11 @@ class Solution:
         """
         from .plotting import concentration_figure, save_figure
 
+        if isinstance(species, str):
+            raise ArgumentTypeError(
+                f"species must be a list of names, not the string {species!r}",
+                f"write species=[{species!r}]",
+            )
         for name in species or []:
             self[name]  # raises UsageError for an unknown name
         if isinstance(summary, str):
@@ -166,9 +258,15 @@ class Solution:
                 raise UsageError(f"summary={summary!r} is not known", "use 'auto', None or a dict")
             summary = self.summary(time_unit)
         if path is not None:
-            from pathlib import Path
+            from .export import check_output_path
 
-            if Path(path).suffix.lower() not in (".png", ".svg"):
+            if not isinstance(path, str | os.PathLike):
+                raise ArgumentTypeError(
+                    f"path must be a file name, not {type_name(path)}",
+                    "e.g. solution.plot('curves.png')",
+                )
+            path = check_output_path(path)
+            if path.suffix.lower() not in (".png", ".svg"):
                 raise UsageError(
                     f"cannot save a plot as {str(path)!r}", "use a .png or .svg file name"
                 )
@@ -180,6 +278,11 @@ class Solution:
 
 def time_factor(unit: str) -> float:
     """Seconds per ``unit`` (``"min"`` -> 60.0); UsageError when it is not a time unit."""
+    if not isinstance(unit, str):
+        raise ArgumentTypeError(
+            f"the time unit must be text such as 'min', not {type_name(unit)}",
+            "use s, min, h or d",
+        )
     try:
         spec = parse_unit(unit)
     except ValueError:
@@ -212,8 +315,13 @@ def solve(scheme: Scheme, times) -> Solution:
     >>> round(float(kinetics.solve(s, [0, 1]).concentrations[1, 0]), 12)
     0.367879441171
     """
+    from .analysis import check_working_range
+
+    scheme = require_scheme(scheme, "solve")
     t = check_times(times)
+    _check_size(t.size, len(scheme.species))
     K = scheme.rate_matrix_sparse()
+    check_working_range(-K.diagonal(), float(t[-1]), scheme.species_names)
     feed = scheme.feed_vector if scheme.feed else None
     result = propagate_certified(K, scheme.initial_vector, t, feed)
     return Solution(
