@@ -69,10 +69,10 @@ Time to the limit
     For a tolerance :math:`\epsilon` (default 0.01): the time after which every species
     stays within :math:`\epsilon` of its own limit,
     :math:`|c_i(s) - c_i(\infty)| \le \epsilon\,c_i(\infty)` for all :math:`s \ge t`.  A
-    species whose limit is zero is compared with :math:`\epsilon` times the largest limit
-    of any species (the largest start value when all limits are zero).  Reported per
-    species and for the whole scheme (the largest of them); ``None`` when the scheme has no
-    finite limit.
+    species whose limit is zero is compared with :math:`\epsilon` times the largest finite
+    limit of any species (the largest start value when all limits are zero).  Reported per
+    species and for the whole scheme (the largest of them).  A species that grows without
+    bound has none; the others are still reported, and the whole scheme has ``None``.
 
 Relaxation times
     :math:`\tau_k = 1/|\operatorname{Re}\lambda_k|` for the nonzero eigenvalues
@@ -721,6 +721,8 @@ class SchemeSummary:
     yield_basis : float
         [conc] total start concentration the yields refer to.
     limit_notes : tuple of str
+    formed_at_window_end, formed_in_limit : dict of str to float, or None
+        [conc] amount of each end product formed, Delta c_P.
     """
 
     relaxation_times: tuple[float, ...]
@@ -737,10 +739,23 @@ class SchemeSummary:
     selectivity_in_limit: dict[str, float] | None
     yield_basis: float
     limit_notes: tuple[str, ...] = ()
+    formed_at_window_end: dict[str, float] | None = None
+    formed_in_limit: dict[str, float] | None = None
 
     def to_dict(self) -> dict[str, Any]:
         def sel(d):
             return None if d is None else {k: _num(v) for k, v in d.items()}
+
+        def ratios(d):
+            # S_P/Q = dc_P / dc_Q for each pair of end products, in their order
+            if d is None:
+                return None
+            names = list(d)
+            return {
+                f"{p}/{q}": _num(d[p] / d[q]) if d[q] != 0 else None
+                for k, p in enumerate(names)
+                for q in names[k + 1 :]
+            }
 
         return {
             "relaxation_times": [_num(x) for x in self.relaxation_times],
@@ -757,6 +772,10 @@ class SchemeSummary:
             "selectivity_in_limit": sel(self.selectivity_in_limit),
             "yield_basis": _num(self.yield_basis),
             "limit_notes": list(self.limit_notes),
+            "amount_formed_at_window_end": sel(self.formed_at_window_end),
+            "amount_formed_in_limit": sel(self.formed_in_limit),
+            "selectivity_ratios_at_window_end": ratios(self.formed_at_window_end),
+            "selectivity_ratios_in_limit": ratios(self.formed_in_limit),
         }
 
 
@@ -1557,19 +1576,14 @@ class _Context:
         lim, _ = self.limit_parts()
         n = self.n
         per = np.full(n, np.nan)
-        if not lim.bounded:
-            who = ", ".join(self.names[i] for i in np.flatnonzero(lim.unbounded))
-            verb = "grows" if lim.unbounded.sum() == 1 else "grow"
-            return TimeToLimit(
-                None,
-                per,
-                tolerance,
-                f"no finite limit: {who} {verb} without bound",
-            )
         L = lim.values
-        big = L.max() if L.max() > 0 else self.c0.max()
+        finite = L[~lim.unbounded]
+        big = finite.max(initial=0.0)
+        big = big if big > 0 else self.c0.max()
         probs = []
         for i in range(n):
+            if lim.unbounded[i]:
+                continue  # no limit to approach; the others are still timed
             thr = tolerance * (L[i] if L[i] > 0 else big)
             smp = self.samples(i)
             v = smp[1]
@@ -1590,6 +1604,10 @@ class _Context:
             probs.append((i, smp, ka, kb, lev))
         if probs:
             per[np.array([p[0] for p in probs])] = self._level_roots(probs)
+        if not lim.bounded:
+            who = ", ".join(self.names[i] for i in np.flatnonzero(lim.unbounded))
+            verb = "grows" if lim.unbounded.sum() == 1 else "grow"
+            return TimeToLimit(None, per, tolerance, f"no finite limit: {who} {verb} without bound")
         if np.isinf(per).any():
             return TimeToLimit(None, per, tolerance, "not settled within the scanned time span")
         return TimeToLimit(float(per.max()), per, tolerance, "")
@@ -1922,7 +1940,9 @@ def time_to_limit(K, c0, feed=None, tolerance: float = 0.01) -> TimeToLimit:
     -----
     For ``A -> B``: :math:`t = \ln(1/\epsilon)/k`.  For ``A <=> B`` from pure A:
     :math:`t = \ln(\max(1, k_f/k_r)/\epsilon)/(k_f + k_r)`.  When every limit is zero the
-    largest start value is the scale.  None when some species grows without bound.
+    largest start value is the scale.  A species that grows without bound has no time
+    (nan); the others are timed all the same (the scale is then the largest finite limit),
+    and the time for the whole scheme is None.
 
     References
     ----------
@@ -2392,5 +2412,7 @@ def summarise_all(
         selectivity_in_limit=share(ys.selectivity_in_limit),
         yield_basis=ys.basis,
         limit_notes=lim.notes,
+        formed_at_window_end=share(ys.formed_at_window_end),
+        formed_in_limit=share(ys.formed_in_limit),
     )
     return out, scheme
