@@ -246,9 +246,14 @@ def print_fitted(
         full.append(max(cells, _width(header)))
     if 1 + sum(w + 3 for w in full) <= out.width:
         widths = full  # everything fits on one line per row, headers too
-    # a column takes its width, one space of padding on each side and one border
+    # a column takes its width, one space of padding on each side and one border; the
+    # labels give way (fold) first, so that they and the widest other column fit
     widest = max(1, out.width - 4)
     widths = [min(w, widest) for w in widths]
+    other = max((w + 3 for w in widths[left:]), default=0)
+    spare = out.width - 1 - other - 3 * left
+    if left and sum(widths[:left]) > spare:
+        widths[:left] = [max(1, spare // left)] * left
     cost = [w + 3 for w in widths]
     budget = out.width - 1 - sum(cost[:left])
     groups: list[list[int]] = []

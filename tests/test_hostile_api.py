@@ -354,3 +354,106 @@ def test_api_fit_messages_name_no_option(scheme, tmp_path):
     with pytest.raises(UsageError) as info:
         parse_free([], scheme)
     assert str(info.value) == "no free parameter given; name at least one, e.g. k1 or k1,k2"
+
+
+# ---------------------------------------------------------------------------------------
+# Promises the outputs keep: every quantity README lists is in the JSON and the report
+
+BRANCH = "A -> P  k1 = 0.2 1/min\nA -> Q  k2 = 0.1 1/min\nstart A = 1 mol/L\n"
+CYCLE = "A -> B  k1 = 1 1/s\nB -> C  k2 = 1 1/s\nC -> A  k3 = 1 1/s\nstart A = 1 mol/L\n"
+EQUAL = "A -> B  k1 = 0.1 1/s\nB -> C  k2 = 0.1 1/s\nstart A = 1 mol/L\n"
+FED = "S -> X  ks = 0.3 1/h\nX -> Y  kx = 0.1 1/h\nfeed S = 0.02 mol/L/h\nstart S = 0.1 mol/L\n"
+
+
+def _json(tmp_path, capsys, text, *args):
+    import json
+
+    path = _write(tmp_path, text)
+    status, out, err = run(capsys, "solve", path, *args, "--json", "--no-caution")
+    assert status == 0, err
+    return json.loads(out)
+
+
+def test_selectivity_of_parallel_branches(tmp_path, capsys):
+    doc = _json(tmp_path, capsys, BRANCH, "--until", "30 min")
+    whole = doc["scheme_summary"]
+    # parallel first-order steps from one reactant: products in the ratio k1 : k2 at every
+    # time, and one relaxation time 1/(k1 + k2) (Atkins, parallel reactions)
+    assert whole["end_products"] == ["P", "Q"]
+    assert whole["selectivity_ratios_in_limit"]["P/Q"] == pytest.approx(2.0, rel=1e-14)
+    assert whole["selectivity_ratios_at_window_end"]["P/Q"] == pytest.approx(2.0, rel=1e-14)
+    assert whole["selectivity_in_limit"] == pytest.approx({"P": 2 / 3, "Q": 1 / 3}, rel=1e-14)
+    assert whole["amount_formed_in_limit"] == pytest.approx({"P": 2 / 3, "Q": 1 / 3}, rel=1e-14)
+    assert whole["relaxation_times"] == pytest.approx([1 / 0.3], rel=1e-14)  # in min
+    # P and Q come within 1 % of 2/3 and 1/3 at ln(100)/(k1 + k2); A (limit 0) is held to
+    # 1 % of the largest limit, e^(-0.3 t) = 0.01 * 2/3, later: ln(150)/(k1 + k2)
+    assert doc["summary"]["P"]["time_to_limit"] == pytest.approx(math.log(100) / 0.3, rel=1e-9)
+    assert whole["time_to_limit"] == pytest.approx(math.log(150) / 0.3, rel=1e-9)
+
+
+def test_oscillation_period_of_a_closed_cycle(tmp_path, capsys):
+    # a closed cycle of three equal constants: K is circulant, eigenvalues
+    # -k (1 - w) for the cube roots of unity w: -3k/2 +- i k sqrt(3)/2 (linear algebra,
+    # common practice, no source): relaxation time 2/(3k), period 4 pi/(k sqrt 3)
+    doc = _json(tmp_path, capsys, CYCLE, "--until", "10 s")
+    whole = doc["scheme_summary"]
+    assert whole["relaxation_times"] == pytest.approx([2 / 3], rel=1e-12)
+    assert whole["oscillation_periods"] == pytest.approx([4 * math.pi / math.sqrt(3)], rel=1e-12)
+
+
+def test_note_for_equal_constants(tmp_path, capsys):
+    doc = _json(tmp_path, capsys, EQUAL, "--until", "60 s")
+    whole = doc["scheme_summary"]
+    assert whole["defective"] is True
+    assert whole["relaxation_note"].startswith(
+        "The rate 0.1 1/s occurs for both A and B, which are linked by a reaction path, so K "
+        "is defective: the curves contain terms t*exp(-0.1 t)"
+    )
+    # the intermediate of A -> B -> C with k1 = k2 = k: B = k t e^(-kt), peak at 1/k with
+    # height 1/e (the equal-constants limit of the Bateman solution)
+    assert doc["summary"]["B"]["t_max"] == pytest.approx(10.0, rel=1e-10)
+    assert doc["summary"]["B"]["c_max"] == pytest.approx(math.exp(-1), rel=1e-12)
+
+
+def test_time_to_limit_per_species_when_one_grows_without_bound(tmp_path, capsys):
+    doc = _json(tmp_path, capsys, FED, "--until", "48 h")
+    s = doc["summary"]
+    # S' = f - ks S from S0: |S - f/ks| = (S0 - f/ks) e^(-ks t) = 0.01 f/ks at
+    # t = ln(100 (S0 ks/f - 1))/ks (first-order relaxation to a steady state)
+    ks, kx, f, s0 = 0.3, 0.1, 0.02, 0.1
+    assert s["S"]["time_to_limit"] == pytest.approx(math.log(100 * (s0 * ks / f - 1)) / ks, 1e-9)
+    assert s["X"]["limit"] == pytest.approx(f / kx, rel=1e-14)
+    assert s["X"]["time_to_limit"] is not None
+    assert s["Y"]["time_to_limit"] is None
+    assert s["Y"]["unbounded"] is True
+    whole = doc["scheme_summary"]
+    assert whole["time_to_limit"] is None
+    assert whole["time_to_limit_note"] == "no finite limit: Y grows without bound"
+
+
+def test_report_excel_and_api_carry_the_whole_scheme(tmp_path, capsys):
+    from openpyxl import load_workbook
+
+    path = _write(tmp_path, BRANCH)
+    html = tmp_path / "r.html"
+    xlsx = tmp_path / "r.xlsx"
+    assert run(capsys, "report", path, "--until", "30 min", "--out", html, "--no-caution")[0] == 0
+    assert run(capsys, "solve", path, "--until", "30 min", "--out", xlsx, "--no-caution")[0] == 0
+    text = html.read_text(encoding="utf-8")
+    for label in (
+        "<h3>Whole scheme</h3>",
+        "<td>relaxation times [min]</td><td>3.33333</td>",
+        "<td>ratio of amounts formed in the limit</td><td>P/Q 2</td>",
+        "<td>share of end products formed in the limit</td><td>P 0.666667, Q 0.333333</td>",
+        "<dt>Relaxation times</dt>",
+        "<dt>Oscillation periods</dt>",
+        "<dt>Curve shape</dt>",
+        "<dt>Selectivity between end products</dt>",
+    ):
+        assert label in text
+    rows = [r[:2] for r in load_workbook(xlsx)["summary"].iter_rows(values_only=True)]
+    assert ("whole scheme", None) in rows
+    assert ("ratio of amounts formed in the limit", "P/Q 2") in rows
+    summary = kinetics.solve(kinetics.parse(BRANCH), [0, 1800]).summary("min")
+    assert summary.scheme["selectivity_ratios_in_limit"]["P/Q"] == pytest.approx(2.0, 1e-14)
+    assert list(summary) == ["A", "P", "Q"]  # still species -> quantities
