@@ -225,6 +225,7 @@ class Solution:
         time_unit: str = "s",
         summary: dict | str | None = "auto",
         species: list[str] | None = None,
+        linear: str = "auto",
     ):
         """Plot concentration against time (linear and log panels); optionally save it.
 
@@ -239,6 +240,10 @@ class Solution:
             computes them with :meth:`summary`; ``None`` marks nothing.
         species : list of str, optional
             Species to draw (default: all).
+        linear : {"auto", "shared"}, optional
+            ``"auto"`` gives the few species that rise far above all others (e.g. a lumped
+            end product with a large stoichiometric factor) a right-hand axis of their own in
+            the linear panel; ``"shared"`` draws all against one axis.
 
         Returns
         -------
@@ -270,7 +275,7 @@ class Solution:
                 raise UsageError(
                     f"cannot save a plot as {str(path)!r}", "use a .png or .svg file name"
                 )
-        fig = concentration_figure(self, time_unit, summary, species=species)
+        fig = concentration_figure(self, time_unit, summary, species=species, linear=linear)
         if path is not None:
             save_figure(fig, path)
         return fig
