@@ -44,7 +44,11 @@ Intermediate maxima
     time).  The highest one is flagged *global* when it is also at least the start value
     and the long-time limit (otherwise the supremum over :math:`t \ge 0` is at
     :math:`t = 0` or approached as :math:`t \to \infty`).  Maxima after the end of the
-    chosen time window are found all the same and flagged ``beyond_window``.  Cycles can
+    chosen time window are found all the same and flagged ``beyond_window``.  Where
+    :math:`(Kc + f)_i` is only rounding noise (a species in quasi-steady state, e.g. the
+    short-lived daughter of a long-lived parent), the derivative is taken as
+    :math:`e^{tK}g^+ - e^{tK}g^-` with :math:`g^\pm` the positive and negative parts of
+    :math:`Kc_0 + f`, each propagated entrywise accurately.  Cycles can
     give several local maxima; all are listed.  Local maxima whose size is below the
     rounding level of the curve (damped oscillation about an equilibrium after ~30
     relaxation times) cannot be resolved in double precision and are not reported.

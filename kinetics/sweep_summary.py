@@ -59,7 +59,9 @@ Members that need the general treatment of :mod:`kinetics.analysis` -- damped
 oscillations (complex eigenvalues with :math:`|\mathrm{Im}| > 0.2 |\mathrm{Re}|`),
 exponential growth, a sign change of the derivative across scan points of unknown sign,
 a cubic model of the derivative that hints at two turning points hidden between scan
-points, a half-life crossing across such points, or a scheme without any rate -- are
+points, a half-life crossing across such points, a scheme without any rate, or a stiff
+member whose scan spans more than 1e7 shortest lifetimes (the plain-double ladder would
+lose more than 1e-10) -- are
 handed to :func:`kinetics.analysis.summarise` one by one (about 8 % of random branched
 networks with reverse steps; 24 % before maxima after a minimum were refined here).  The
 result equals :func:`kinetics.analysis.summarise` per member to about 1e-12 relative
