@@ -554,9 +554,11 @@ def _metadata(fmt: str) -> dict:
 
 
 def save_figure(fig: Figure, path, dpi: int = 150) -> None:
-    """Write a figure to ``path`` (format from its extension: .png or .svg), atomically."""
-    from .export import atomic_path
+    """Write a figure to ``path`` (format from its extension: .png or .svg), atomically
+    (its folder must exist)."""
+    from .export import atomic_path, check_output_path
 
+    path = check_output_path(path)
     fmt = Path(path).suffix.lower().lstrip(".")
     with atomic_path(path) as tmp:
         fig.savefig(tmp, format=fmt, dpi=dpi, metadata=_metadata(fmt), bbox_inches=_tight(fig))

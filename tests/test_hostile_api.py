@@ -457,3 +457,22 @@ def test_report_excel_and_api_carry_the_whole_scheme(tmp_path, capsys):
     summary = kinetics.solve(kinetics.parse(BRANCH), [0, 1800]).summary("min")
     assert summary.scheme["selectivity_ratios_in_limit"]["P/Q"] == pytest.approx(2.0, 1e-14)
     assert list(summary) == ["A", "P", "Q"]  # still species -> quantities
+
+
+@pytest.mark.parametrize("name", ["missing/x.png", "missing/x.html"])
+def test_writers_name_the_missing_folder_not_a_temporary_file(scheme, tmp_path, monkeypatch, name):
+    from kinetics import plotting, report
+
+    monkeypatch.chdir(tmp_path)
+    result = kinetics.solve(scheme, [0, 1, 2])
+    if name.endswith(".png"):
+        write = lambda: plotting.save_plot(name, result)  # noqa: E731
+    else:
+        write = lambda: report.write_report(name, "<html></html>")  # noqa: E731
+    with pytest.raises(UsageError) as info:
+        write()
+    assert str(info.value) == (
+        f"the folder of the output file {name!r} does not exist; create 'missing' first or "
+        "write elsewhere"
+    )
+    assert not list(tmp_path.iterdir())
