@@ -155,6 +155,7 @@ from kinetics.propagate import DENSE_MAX, propagate, propagate_batch
 __all__ = [
     "MAX_LIFETIMES",
     "MAX_RATE",
+    "MAX_SCALE",
     "MAX_TIME",
     "Areas",
     "FractionTime",
@@ -207,6 +208,9 @@ _NEARLY = 1e-3
 MAX_RATE = 1e100
 MAX_TIME = 1e100
 MAX_LIFETIMES = 1e27
+#: Largest concentration times the cube of the fastest consumption rate (the summary forms
+#: third derivatives of the curves; the double range ends near 1.8e308).
+MAX_SCALE = 1e300
 
 _NEVER, _DECAY, _CONST = -2, -1, 0  # growth degree of a class: t^q (see _Structure)
 _EXP = 10**9
@@ -372,7 +376,9 @@ def _check_fraction(x, what: str) -> float:
     return x
 
 
-def check_working_range(rates, t_end: float, names: Sequence[str] | None = None) -> None:
+def check_working_range(
+    rates, t_end: float, names: Sequence[str] | None = None, amount: float = 0.0
+) -> None:
     r"""Refuse a problem outside the engine's working range, before any work is done.
 
     Parameters
@@ -383,12 +389,17 @@ def check_working_range(rates, t_end: float, names: Sequence[str] | None = None)
         The latest time asked for [s].
     names : sequence of str, optional
         Species names for the message.
+    amount : float, optional
+        The largest concentration the problem can reach by simple bounds [conc]: start
+        values plus feed times the time span.
 
     Raises
     ------
     kinetics.errors.UsageError
-        When a rate exceeds :data:`MAX_RATE`, ``t_end`` exceeds :data:`MAX_TIME`, or
-        :math:`\sigma t_{end}` (:math:`\sigma = \max \sum k`) exceeds :data:`MAX_LIFETIMES`.
+        When a rate exceeds :data:`MAX_RATE`, ``t_end`` exceeds :data:`MAX_TIME`,
+        :math:`\sigma t_{end}` (:math:`\sigma = \max \sum k`) exceeds :data:`MAX_LIFETIMES`,
+        or :math:`\max(\sigma, 1)^3` ``amount`` exceeds :data:`MAX_SCALE` (the summary forms
+        the third derivative of the curves).
 
     Examples
     --------
@@ -422,6 +433,13 @@ def check_working_range(rates, t_end: float, names: Sequence[str] | None = None)
             f"in the scheme ({names[k]}: 1/sum k = {1 / sigma:.3g} s); the exact engine spans "
             f"at most {MAX_LIFETIMES:.0e} lifetimes",
             "give a shorter time span",
+        )
+    if amount * max(sigma, 1.0) ** 3 > MAX_SCALE:
+        raise UsageError(
+            f"the concentrations (up to {amount:.3g} in the scheme's unit) are too large for "
+            f"the rates of the scheme ({names[k]} is consumed at {sigma:.3g} 1/s): their rates "
+            "of change leave the range of numbers",
+            "give the start values and feeds in a larger unit",
         )
 
 
@@ -950,7 +968,9 @@ class _Context:
             raise UsageError(f"{len(names)} species names for {n} species", "one name per row")
         self.names = names
         self.t_window = None if t_window is None else _check_positive_time(t_window, "t_window")
-        check_working_range(-self.Ks.diagonal(), self.t_window or 0.0, names)
+        window = self.t_window or 0.0
+        amount = float(self.c0.sum() + self.f.sum() * window)
+        check_working_range(-self.Ks.diagonal(), window, names, amount)
         self.struct = _Structure(self.Ks, self.Kd)
         self.absK = abs(self.Ks)
         self._limit: tuple | None = None

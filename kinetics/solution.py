@@ -326,8 +326,9 @@ def solve(scheme: Scheme, times) -> Solution:
     t = check_times(times)
     _check_size(t.size, len(scheme.species))
     K = scheme.rate_matrix_sparse()
-    check_working_range(-K.diagonal(), float(t[-1]), scheme.species_names)
     feed = scheme.feed_vector if scheme.feed else None
+    amount = float(scheme.initial_vector.sum() + (0.0 if feed is None else feed.sum() * t[-1]))
+    check_working_range(-K.diagonal(), float(t[-1]), scheme.species_names, amount)
     result = propagate_certified(K, scheme.initial_vector, t, feed)
     return Solution(
         t,

@@ -1144,7 +1144,7 @@ def _axes(scheme: Scheme, vary, words: _Words) -> tuple[Parameter, ...]:
 
 def _check_sets(plan: SweepPlan, block: int = 100_000) -> None:
     """Refuse a plan with a set outside the engine's working range, before any work."""
-    from .analysis import check_working_range
+    from .analysis import MAX_RATE, MAX_SCALE, check_working_range
     from .ratematrix import rate_pattern
 
     pattern = rate_pattern(plan.scheme)
@@ -1155,15 +1155,17 @@ def _check_sets(plan: SweepPlan, block: int = 100_000) -> None:
     for start in range(0, plan.n_sets, block):
         stop = min(plan.n_sets, start + block)
         display, internal = plan.set_values(start, stop)
-        rates = _inputs(plan, internal)[0]
+        rates, c0, feed = _inputs(plan, internal)
         out = np.zeros((stop - start, n))
         for e in diag:
             out[:, pattern.rows[e]] -= pattern.coefficients[e] * rates[:, pattern.steps[e]]
-        with np.errstate(invalid="ignore"):
+        amount = c0.sum(axis=1) + (0.0 if feed is None else feed.sum() * t_end)
+        with np.errstate(invalid="ignore", over="ignore"):
             worst = np.where(np.isfinite(out), out, np.inf).max(axis=1)
-        i = int(np.argmax(worst))
+            worst = np.maximum(worst / MAX_RATE, amount * np.maximum(worst, 1.0) ** 3 / MAX_SCALE)
+        i = int(np.argmax(np.where(np.isnan(worst), np.inf, worst)))
         try:
-            check_working_range(out[i], t_end, plan.scheme.species_names)
+            check_working_range(out[i], t_end, plan.scheme.species_names, float(amount[i]))
         except UsageError as exc:
             values = ", ".join(
                 f"{c} = {v:.6g}" for c, v in zip(plan.parameter_columns, display[i], strict=True)

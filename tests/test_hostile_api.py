@@ -156,6 +156,27 @@ def test_too_many_lifetimes_are_refused(tmp_path, capsys):
     )
 
 
+def test_huge_concentration_with_a_fast_step_is_refused(tmp_path, capsys):
+    path = _write(tmp_path, "A -> B  k1 = 1e10 1/s\nstart A = 1e300 mol/L\n")
+    assert run(capsys, "solve", path, "--until", "1 s", "--no-caution") == (
+        2,
+        "",
+        "kinetics: the concentrations (up to 1e+300 in the scheme's unit) are too large for "
+        "the rates of the scheme (A is consumed at 1e+10 1/s): their rates of change leave the "
+        "range of numbers; give the start values and feeds in a larger unit\n",
+    )
+
+
+def test_huge_concentration_with_slow_steps_is_solved(scheme):
+    # linear in the start values: two-member Bateman maximum (k1/k2)^(k2/(k2 - k1)) = 0.5
+    # times 1e300, at ln(k1/k2)/(k1 - k2) = ln 2/0.05 s
+    from kinetics.sweep import sweep
+
+    table = sweep(scheme, {"start:A": [1e300]}, [0.0, 60.0])
+    assert table["c_max B [mol/L]"].iloc[0] == pytest.approx(0.5e300, rel=1e-12)
+    assert table["t_max B [s]"].iloc[0] == pytest.approx(math.log(2) / 0.05, rel=1e-12)
+
+
 def test_too_many_points_are_refused_before_allocating(pair, capsys):
     assert run(
         capsys, "solve", pair, "--until", "10 s", "--points", "100000000", "--no-caution"
