@@ -84,7 +84,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from .errors import ArgumentTypeError, GrowthError, UsageError
-from .solution import type_name
+from .solution import MAX_VALUES, type_name
 from .units import GAS_CONSTANT, convert, parse_unit, temperature_to_kelvin
 
 if TYPE_CHECKING:
@@ -117,6 +117,8 @@ __all__ = [
 
 #: Percentiles of the Monte Carlo bands.
 PERCENTILES = (2.5, 50.0, 97.5)
+#: Most values on one grid axis (each is converted with an exact rational unit factor).
+MAX_AXIS = 1_000_000
 #: Sets per chunk by default (memory per chunk: about sets x points x species x 8 bytes
 #: when curves are kept).
 DEFAULT_CHUNK = 1000
@@ -428,6 +430,11 @@ def _parse_vary(scheme: Scheme, spec: str, where: str, help_: str) -> Parameter:
                 f"{where}: the number of values must be a whole number >= 1, not {fields[2]!r}",
                 help_,
             )
+        if count > MAX_AXIS:
+            raise UsageError(
+                f"{where}: {count:,} values on one axis are too many (at most {MAX_AXIS:,})",
+                "use fewer values",
+            )
         spacing = "lin"
         for extra in fields[3:]:
             if extra.lower() in ("log", "lin", "linear"):
@@ -521,6 +528,11 @@ def _grid_axis(scheme: Scheme, name, value) -> Parameter:
         )
     if items.size == 0:
         raise UsageError(f"{where} has no values", _GRID_HELP)
+    if items.size > MAX_AXIS:
+        raise UsageError(
+            f"{where}: {items.size:,} values on one axis are too many (at most {MAX_AXIS:,})",
+            "use fewer values",
+        )
     values = np.empty(items.size)
     for j, x in enumerate(items):
         if isinstance(x, bool) or not isinstance(x, int | float | np.integer | np.floating):
@@ -1726,6 +1738,16 @@ def curve_bands(plan: SweepPlan, curves: np.ndarray, grid_point: int) -> pd.Data
 
 
 def _in_memory(plan: SweepPlan, curves: bool, engine: str, scheduler: str | None):
+    values = plan.n_sets * (len(plan.parameter_columns) + len(plan.columns))
+    if curves:
+        values = max(values, plan.n_sets * plan.times.size * len(plan.scheme.species))
+    if values > MAX_VALUES:
+        raise UsageError(
+            f"the sweep would hold {values:,} values in memory ({plan.n_sets:,} sets), more "
+            f"than {MAX_VALUES:,} (about {8 * MAX_VALUES // 10**6} MB per copy)",
+            "sweep fewer sets, or write the table to a file chunk by chunk (the command "
+            "kinetics sweep does that with --out)",
+        )
     results: dict[int, ChunkResult] = {}
     run_chunks(
         plan,

@@ -220,6 +220,24 @@ def test_sweep_set_beyond_the_working_range(pair, capsys):
     )
 
 
+def test_sweep_axis_and_memory_limits(pair, scheme, capsys):
+    assert run(
+        capsys, "sweep", pair, "--until", "10 s", "--vary", "k2=0.1:1:100000000", "--no-caution"
+    ) == (
+        2,
+        "",
+        "kinetics: --vary 'k2=0.1:1:100000000': 100,000,000 values on one axis are too many (at "
+        "most 1,000,000); use fewer values\n",
+    )
+    with pytest.raises(UsageError) as info:
+        sweep(scheme, {"k1": "0.1:1:1000", "k2": "0.1:1:2000"}, [0, 10])
+    assert str(info.value) == (
+        "the sweep would hold 16,000,000 values in memory (2,000,000 sets), more than "
+        "10,000,000 (about 80 MB per copy); sweep fewer sets, or write the table to a file "
+        "chunk by chunk (the command kinetics sweep does that with --out)"
+    )
+
+
 def test_api_huge_time(scheme):
     with pytest.raises(UsageError) as info:
         kinetics.solve(scheme, [0, 1e300])
