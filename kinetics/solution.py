@@ -8,6 +8,8 @@ vector and returns concentrations with their names and units.
 from __future__ import annotations
 
 import os
+import warnings
+from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
@@ -81,17 +83,25 @@ def require_scheme(scheme, function: str) -> Scheme:
 
 def check_times(times) -> np.ndarray:
     """Validate a time list [s]: a flat list, finite, >= 0, nondecreasing; return it as floats."""
+    if isinstance(times, Iterator):
+        times = list(times)
     if times is None or isinstance(times, str | bytes | dict):
         raise ArgumentTypeError(
             f"the times must be a list of numbers in seconds, not {type_name(times)}",
             "e.g. [0, 600, 1200] or numpy.linspace(0, 3600, 201)",
         )
     try:
-        t = np.asarray(times, dtype=float)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", np.exceptions.ComplexWarning)
+            t = np.asarray(times, dtype=float)
     except (TypeError, ValueError) as exc:
         raise UsageError(
             "the times are not numbers", "give times in seconds as a list of numbers"
         ) from exc
+    kind = np.asarray(times).dtype.kind
+    if kind in "bc":
+        what = "True/False values" if kind == "b" else "complex numbers"
+        raise UsageError(f"the times are {what}", "give times in seconds as real numbers")
     if t.ndim != 1:
         shape = "a single number" if t.ndim == 0 else f"an array of shape {t.shape}"
         raise UsageError(
@@ -258,6 +268,11 @@ class Solution:
             )
         for name in species or []:
             self[name]  # raises UsageError for an unknown name
+        if not (summary is None or isinstance(summary, str | dict)):
+            raise ArgumentTypeError(
+                f"summary must be 'auto', None or a dict, not {type_name(summary)}",
+                "leave it out to mark the maxima and half-lives",
+            )
         if isinstance(summary, str):
             if summary != "auto":
                 raise UsageError(f"summary={summary!r} is not known", "use 'auto', None or a dict")

@@ -119,6 +119,8 @@ __all__ = [
 PERCENTILES = (2.5, 50.0, 97.5)
 #: Most values on one grid axis (each is converted with an exact rational unit factor).
 MAX_AXIS = 1_000_000
+#: Most parameter sets of one sweep (about 1.4 h at 50 us per set).
+MAX_SETS = 100_000_000
 #: Sets per chunk by default (memory per chunk: about sets x points x species x 8 bytes
 #: when curves are kept).
 DEFAULT_CHUNK = 1000
@@ -1069,6 +1071,12 @@ def make_plan(
     ):
         raise UsageError("the scheme sets no temperature", "add a temperature line")
     columns = _summary_columns(scheme, parameters, spreads, time_unit)
+    n_sets = math.prod(p.values.size for p in parameters) * max(samples, 1)
+    if n_sets > MAX_SETS:
+        raise UsageError(
+            f"{n_sets:,} parameter sets are too many (at most {MAX_SETS:,}; about 50 us each)",
+            f"use fewer values or {words.samples}",
+        )
     plan = SweepPlan(
         scheme,
         parameters,

@@ -304,6 +304,28 @@ def test_api_sweep_huge_constant(scheme):
             "or numpy.linspace(0, 3600, 201); for one time give [t]",
         ),
         (
+            lambda s: kinetics.solve(s, np.array([0, 1j])),
+            UsageError,
+            "the times are complex numbers; give times in seconds as real numbers",
+        ),
+        (
+            lambda s: kinetics.solve(s, [False, True]),
+            UsageError,
+            "the times are True/False values; give times in seconds as real numbers",
+        ),
+        (
+            lambda s: kinetics.solve(s, [0, 1]).plot(summary=5),
+            ArgumentTypeError,
+            "summary must be 'auto', None or a dict, not int; leave it out to mark the maxima "
+            "and half-lives",
+        ),
+        (
+            lambda s: kinetics.monte_carlo(s, ["k1=10%"], 10**12, [0, 1]),
+            UsageError,
+            "1,000,000,000,000 parameter sets are too many (at most 100,000,000; about 50 us "
+            "each); use fewer values or samples",
+        ),
+        (
             lambda s: sweep(s, {"k2": ["a"]}, [0, 10]),
             UsageError,
             "grid['k2']: 'a' is not a number; give each parameter a list of numbers in the unit "
@@ -385,6 +407,12 @@ def test_api_misuse(scheme, tmp_path, monkeypatch, call, kind, message):
     assert isinstance(info.value, TypeError if kind is ArgumentTypeError else ValueError)
     assert "--" not in message
     assert not list(tmp_path.iterdir())  # nothing written, no hidden temporary file
+
+
+def test_times_from_a_generator_are_accepted(scheme):
+    result = kinetics.solve(scheme, (t for t in (0.0, 10.0)))
+    # first-order decay e^(-k1 t) (textbook)
+    assert result["A"][1] == pytest.approx(math.exp(-1.0), rel=1e-14)
 
 
 def test_api_fit_messages_name_no_option(scheme, tmp_path):
