@@ -25,6 +25,7 @@ if TYPE_CHECKING:
 
 __all__ = [
     "SPLIT_RATIO",
+    "Label",
     "concentration_figure",
     "figure_bytes",
     "place_labels",
@@ -182,7 +183,7 @@ def concentration_figure(
     n_points = t.size
     every = max(1, n_points // 9)
     notes: list[str] = []
-    labels: list[_Label] = []
+    labels: list[Label] = []
     peak = 0.0
     positive_min = math.inf
     marked = {"maximum": False, "half-life": False}
@@ -219,10 +220,10 @@ def concentration_figure(
                 ax.plot([tm], [cm], "*", ms=13, color="black", mec="white", mew=0.6, zorder=6)
         if half is not None and c0 > 0:
             text = f"t½ {name} = {_fmt(half)} {time_unit}"
-            labels.append(_Label(text, ax_this, (half, c0 / 2), below=True))
+            labels.append(Label(text, ax_this, (half, c0 / 2), below=True))
         for tm, cm in maxima:
             text = f"max {name} = {_fmt(cm)} at {_fmt(tm)} {time_unit}"
-            labels.append(_Label(text, ax_this, (tm, cm), below=False))
+            labels.append(Label(text, ax_this, (tm, cm), below=False))
     for ax in (ax_lin, ax_log):
         ax.set_xlabel(f"time [{time_unit}]")
         ax.set_ylabel(f"concentration [{unit}]")
@@ -263,8 +264,9 @@ def concentration_figure(
     return fig
 
 
-class _Label:
-    """A text to place near a point of an axes (data coordinates of that axes)."""
+class Label:
+    """A text to place near a point of an axes (data coordinates of that axes); ``below``
+    prefers a place below the point (half-lives) to one above it (maxima)."""
 
     def __init__(self, text: str, ax, point: tuple[float, float], below: bool) -> None:
         self.text = text
@@ -278,7 +280,7 @@ def _overlaps(a, b) -> bool:
     return a[0] < b[2] and b[0] < a[2] and a[1] < b[3] and b[1] < a[3]
 
 
-def place_labels(fig: Figure, ax, labels: list[_Label]) -> list:
+def place_labels(fig: Figure, ax, labels: list[Label]) -> list:
     """Place the labels so that no two overlap, none covers a marked point, and all stay
     inside the panel ``ax``; a label moved away from its point gets a leader line.
 
@@ -338,7 +340,7 @@ def place_labels(fig: Figure, ax, labels: list[_Label]) -> list:
     return out
 
 
-def label_anchor(label: _Label, to_pt: float) -> tuple[float, float]:
+def label_anchor(label: Label, to_pt: float) -> tuple[float, float]:
     """The marked point of a label in figure points."""
     x, y = label.ax.transData.transform(label.point) * to_pt
     return float(x), float(y)

@@ -7,6 +7,8 @@ import xml.etree.ElementTree as ET
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import kinetics
 from kinetics import plotting
@@ -240,3 +242,39 @@ def test_linear_option_is_checked(solved):
     with pytest.raises(kinetics.UsageError) as info:
         result.plot(linear="twin")
     assert str(info.value) == "linear='twin' is not known; use 'auto' or 'shared'"
+
+
+@settings(max_examples=25, deadline=None)
+@given(
+    st.lists(
+        st.tuples(st.floats(0.0, 1.0), st.floats(0.0, 1.0), st.booleans()),
+        min_size=1,
+        max_size=8,
+    )
+)
+def test_label_layout_property(points):
+    # any up to eight marked points in a panel: the labels never overlap and stay inside
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=(11.0, 4.8), layout="constrained")
+    FigureCanvasAgg(fig)
+    ax = fig.subplots()
+    ax.set_xlim(0, 1)
+    ax.set_ylim(0, 1)
+    labels = [
+        plotting.Label(f"max S{k} = {y:.4g} at {x:.4g} min", ax, (x, y), below)
+        for k, (x, y, below) in enumerate(points)
+    ]
+    plotting.place_labels(fig, ax, labels)
+    fig.draw_without_rendering()
+    renderer = fig.canvas.get_renderer()
+    panel = ax.get_window_extent(renderer)
+    boxes = [t.get_bbox_patch().get_window_extent(renderer) for t in ax.texts]
+    for k, a in enumerate(boxes):
+        assert panel.x0 <= a.x0
+        assert a.x1 <= panel.x1
+        assert panel.y0 <= a.y0
+        assert a.y1 <= panel.y1
+        for b in boxes[k + 1 :]:
+            assert not a.overlaps(b)
