@@ -84,7 +84,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from .errors import ArgumentTypeError, GrowthError, UsageError
-from .solution import MAX_VALUES, type_name
+from .solution import type_name
 from .units import GAS_CONSTANT, convert, parse_unit, temperature_to_kelvin
 
 if TYPE_CHECKING:
@@ -121,6 +121,9 @@ PERCENTILES = (2.5, 50.0, 97.5)
 MAX_AXIS = 1_000_000
 #: Most parameter sets of one sweep (about 1.4 h at 50 us per set).
 MAX_SETS = 100_000_000
+#: Most values a sweep keeps in memory (API, or the command without --out): sets x
+#: columns, or sets x times x species with curves.
+MAX_MEMORY_VALUES = 100_000_000
 #: Sets per chunk by default (memory per chunk: about sets x points x species x 8 bytes
 #: when curves are kept).
 DEFAULT_CHUNK = 1000
@@ -1090,6 +1093,8 @@ def make_plan(
         columns,
         summary_method,
     )
+    if api:  # the API keeps every result in memory: refuse before checking each set
+        _check_memory(plan, curves=False)
     _check_sets(plan)
     return plan
 
@@ -1745,17 +1750,22 @@ def curve_bands(plan: SweepPlan, curves: np.ndarray, grid_point: int) -> pd.Data
 # ---------------------------------------------------------------------------------------
 
 
-def _in_memory(plan: SweepPlan, curves: bool, engine: str, scheduler: str | None):
+def _check_memory(plan: SweepPlan, curves: bool) -> None:
+    """Refuse a sweep whose results held in memory exceed :data:`MAX_MEMORY_VALUES`."""
     values = plan.n_sets * (len(plan.parameter_columns) + len(plan.columns))
     if curves:
         values = max(values, plan.n_sets * plan.times.size * len(plan.scheme.species))
-    if values > MAX_VALUES:
+    if values > MAX_MEMORY_VALUES:
         raise UsageError(
             f"the sweep would hold {values:,} values in memory ({plan.n_sets:,} sets), more "
-            f"than {MAX_VALUES:,} (about {8 * MAX_VALUES // 10**6} MB per copy)",
+            f"than {MAX_MEMORY_VALUES:,} (about {8 * MAX_MEMORY_VALUES // 10**6} MB per copy)",
             "sweep fewer sets, or write the table to a file chunk by chunk (the command "
             "kinetics sweep does that with --out)",
         )
+
+
+def _in_memory(plan: SweepPlan, curves: bool, engine: str, scheduler: str | None):
+    _check_memory(plan, curves)
     results: dict[int, ChunkResult] = {}
     run_chunks(
         plan,

@@ -230,10 +230,10 @@ def test_sweep_axis_and_memory_limits(pair, scheme, capsys):
         "most 1,000,000); use fewer values\n",
     )
     with pytest.raises(UsageError) as info:
-        sweep(scheme, {"k1": "0.1:1:1000", "k2": "0.1:1:2000"}, [0, 10])
+        sweep(scheme, {"k1": "0.1:1:10000", "k2": "0.1:1:2000"}, [0, 10])
     assert str(info.value) == (
-        "the sweep would hold 16,000,000 values in memory (2,000,000 sets), more than "
-        "10,000,000 (about 80 MB per copy); sweep fewer sets, or write the table to a file "
+        "the sweep would hold 160,000,000 values in memory (20,000,000 sets), more than "
+        "100,000,000 (about 800 MB per copy); sweep fewer sets, or write the table to a file "
         "chunk by chunk (the command kinetics sweep does that with --out)"
     )
 
