@@ -17,7 +17,7 @@ import click
 
 from . import __version__
 from .errors import KineticsError, UsageError
-from .overview import CAUTION  # the two-line short form of SAFETY.md
+from .overview import CAUTION, CHECK_TABLE_ROWS  # CAUTION: the short form of SAFETY.md
 
 _DURATION = re.compile(
     r"^\s*(?P<number>[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*(?P<unit>.*)$"
@@ -82,11 +82,24 @@ def parse_time_list(text: str) -> tuple[list[float], str]:
     return [v * factor for v in values], unit
 
 
+#: Commands defined in their own modules, imported only when named or listed by
+#: ``--help`` (``solve`` and ``check`` start without them): name -> (module, object).
+_LAZY_COMMANDS = {"fit": ("kinetics.fit_cli", "fit"), "sweep": ("kinetics.sweep_cli", "sweep")}
+
+
 class _Group(click.Group):
-    """Keeps commands in the order they are defined in ``--help``."""
+    """Keeps commands in the order they are defined in ``--help``; loads some on demand."""
 
     def list_commands(self, ctx):
-        return list(self.commands)
+        return list(self.commands) + [n for n in _LAZY_COMMANDS if n not in self.commands]
+
+    def get_command(self, ctx, cmd_name):
+        if cmd_name in _LAZY_COMMANDS and cmd_name not in self.commands:
+            import importlib
+
+            module, name = _LAZY_COMMANDS[cmd_name]
+            self.add_command(getattr(importlib.import_module(module), name), cmd_name)
+        return super().get_command(ctx, cmd_name)
 
 
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
@@ -136,7 +149,13 @@ def first_use_note(sweeps: bool = False) -> None:
     is_flag=True,
     help="Report an atom imbalance without failing (as 'balance: lumped' in the file).",
 )
-def check(scheme_file, as_json, allow_imbalance):
+@click.option(
+    "--full-tables",
+    is_flag=True,
+    help="Print the species and steps tables however long (by default a scheme with more "
+    f"than {CHECK_TABLE_ROWS} species or steps gets an overview).",
+)
+def check(scheme_file, as_json, allow_imbalance, full_tables):
     """Check a scheme file and report species, steps, balance and structure.
 
     \b
@@ -152,7 +171,7 @@ def check(scheme_file, as_json, allow_imbalance):
     if as_json:
         click.echo(json.dumps(report, indent=2, allow_nan=False))
     else:
-        render_check(scheme, report)
+        render_check(scheme, report, full_tables=full_tables)
 
 
 def _grid(until, points, times_text):
@@ -322,7 +341,8 @@ def solve(
     first_use_note()
     with progress(2 + len(paths), "solving") as bar:
         result, summary = _solve_and_summarise(scheme, times, time_unit, bar)
-        document = solution_json(result, time_unit, summary, settings)
+        needs_document = as_json or any(p.suffix.lower() in (".json", ".parquet") for p in paths)
+        document = solution_json(result, time_unit, summary, settings) if needs_document else None
         for path in paths:
             bar.describe(f"writing {path.name}")
             _write_output(path, result, scheme, time_unit, summary, document, species)
@@ -507,12 +527,3 @@ def main(argv: list[str] | None = None) -> int:
 def run() -> None:  # pragma: no cover - console-script entry point
     """Console-script entry point."""
     sys.exit(main())
-
-
-from .fit_cli import fit as _fit_command  # noqa: E402
-
-cli.add_command(_fit_command)
-
-from .sweep_cli import sweep as _sweep_command  # noqa: E402
-
-cli.add_command(_sweep_command)

@@ -28,6 +28,7 @@ if TYPE_CHECKING:
 
 __all__ = [
     "CAUTION",
+    "CHECK_TABLE_ROWS",
     "DEFINITIONS",
     "SCHEME_DEFINITIONS",
     "Summary",
@@ -181,6 +182,12 @@ def _finite(x):
     return x if x == x and abs(x) != float("inf") else None
 
 
+#: Largest table ``kinetics check`` prints by default [rows]: above it a table is no
+#: longer read but scrolled, and drawing tens of thousands of rows takes seconds.  A
+#: scheme with more species or steps gets an overview instead (counts, the balance
+#: verdict and every problem found); ``--full-tables`` and ``--json`` give everything.
+CHECK_TABLE_ROWS = 200
+
 #: Largest scheme whose ``check --json`` carries the dense rate matrix.
 DENSE_JSON_MAX = 2000
 
@@ -300,7 +307,9 @@ def solution_json(
     settings : dict, optional
         How the grid was asked for (``until``, ``points``, ``times``), as written.
     """
-    frame = solution.to_frame(time_unit)
+    from .solution import time_factor
+
+    times = solution.times / time_factor(time_unit)  # the time column of Solution.to_frame
     return {
         "source": solution.scheme.source,
         "title": solution.scheme.title,
@@ -313,7 +322,7 @@ def solution_json(
         "summary": summary,
         **({} if summary is not None else {"summary_note": SUMMARY_SKIPPED_NOTE}),
         "scheme_summary": getattr(summary, "scheme", None) or None,
-        "times": frame.iloc[:, 0].tolist(),
+        "times": times.tolist(),
         "concentrations": {
             name: solution.concentrations[:, i].tolist() for i, name in enumerate(solution.species)
         },

@@ -24,7 +24,7 @@ from functools import cached_property
 import numpy as np
 
 from .errors import UsageError
-from .units import GAS_CONSTANT
+from .units import GAS_CONSTANT_EXACT
 
 __all__ = ["Arrhenius", "RateConstant", "Reaction", "Scheme", "Species", "Step"]
 
@@ -90,15 +90,39 @@ class Arrhenius:
         Returns
         -------
         float
-            :math:`A \\exp(-E_a / R T)` in SI base units [1/s for first order].
+            :math:`A \\exp(-E_a / R T)` in SI base units [1/s for first order],
+            correctly rounded from :meth:`exact`.
+
+        Examples
+        --------
+        Half-life of 1 h at 298.15 K for A = 1e13 1/s needs Ea near 101.7 kJ/mol
+        (k = ln 2 / 3600 s; closed form Ea = R T ln(A/k), checked here by the round trip):
+
+        >>> import math
+        >>> from kinetics.units import GAS_CONSTANT
+        >>> T = 298.15
+        >>> Ea = GAS_CONSTANT * T * math.log(1e13 / (math.log(2) / 3600))
+        >>> a = Arrhenius(Fraction(10**13), Ea)
+        >>> round(math.log(2) / a.at(T), 6)
+        3600.0
         """
+        from . import _doubledouble as dd
+
+        return dd.pair(self.exact(temperature))[0]
+
+    def exact(self, temperature: float) -> Fraction:
+        """:math:`A \\exp(-E_a/RT)` from the given A, Ea and T, to 40 decimal digits.
+
+        The prefactor is the exact SI value of what the file wrote, ``Ea`` and the
+        temperature are taken as the doubles given, and R is the exact CODATA 2018 value
+        (:data:`kinetics.units.GAS_CONSTANT_EXACT`).
+        """
+        from . import _doubledouble as dd
+
         if not temperature > 0:
             raise UsageError(f"temperature {temperature!r} K must be above 0 K")
-        try:
-            prefactor = float(self.prefactor_si)
-        except OverflowError:
-            prefactor = math.inf
-        return prefactor * math.exp(-self.activation_energy / (GAS_CONSTANT * temperature))
+        exponent = -Fraction(self.activation_energy) / (GAS_CONSTANT_EXACT * Fraction(temperature))
+        return self.prefactor_si * dd.decimal_exp(exponent)
 
 
 @dataclass(frozen=True, slots=True)
@@ -350,11 +374,36 @@ class Scheme:
         return step_rates(self, constants=constants, temperature=temperature)
 
     @cached_property
+    def rate_pairs(self) -> tuple[np.ndarray, np.ndarray]:
+        """Effective rate constant of every step as a double-double pair ``(hi, lo)`` [1/s].
+
+        ``hi + lo`` is the exact value of the constants as written to about
+        :math:`2^{-106}` (see :func:`kinetics.ratematrix.step_rate_pairs`).
+        """
+        from .ratematrix import step_rate_pairs
+
+        hi, lo = step_rate_pairs(self)
+        hi.setflags(write=False)
+        lo.setflags(write=False)
+        return hi, lo
+
+    @cached_property
     def rates(self) -> np.ndarray:
         """Effective rate constant of every step at the scheme's values [1/s]."""
-        rates = self.step_rates()
-        rates.setflags(write=False)
-        return rates
+        return self.rate_pairs[0]
+
+    @cached_property
+    def _rate_matrix_pair(self) -> tuple:
+        from .ratematrix import rate_matrix_pair
+
+        return rate_matrix_pair(self)
+
+    def rate_matrix_pair(self):
+        """The rate matrix as a double-double pair ``(K_hi, K_lo)`` [1/s], computed once.
+
+        See :func:`kinetics.ratematrix.rate_matrix_pair`.
+        """
+        return self._rate_matrix_pair
 
     def rate_matrix(self) -> np.ndarray:
         """The rate matrix K [1/s], dense, species × species in matrix order.

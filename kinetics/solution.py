@@ -340,11 +340,11 @@ def solve(scheme: Scheme, times) -> Solution:
     scheme = require_scheme(scheme, "solve")
     t = check_times(times)
     _check_size(t.size, len(scheme.species))
-    K = scheme.rate_matrix_sparse()
+    Kh, Kl = scheme.rate_matrix_pair()
     feed = scheme.feed_vector if scheme.feed else None
     amount = float(scheme.initial_vector.sum() + (0.0 if feed is None else feed.sum() * t[-1]))
-    check_working_range(-K.diagonal(), float(t[-1]), scheme.species_names, amount)
-    result = propagate_certified(K, scheme.initial_vector, t, feed)
+    check_working_range(-Kh.diagonal(), float(t[-1]), scheme.species_names, amount)
+    result = propagate_certified(Kh, scheme.initial_vector, t, feed, K_low=Kl)
     return Solution(
         t,
         scheme.species_names,

@@ -105,8 +105,22 @@ def _num(x, digits: int = 6) -> str:
     return f"{x:.{digits}g}"
 
 
-def render_check(scheme: Scheme, report: dict) -> None:
-    """Print the ``check`` summary: species, steps, balance and structure."""
+def render_check(scheme: Scheme, report: dict, full_tables: bool = False) -> None:
+    """Print the ``check`` summary: species, steps, balance and structure.
+
+    Parameters
+    ----------
+    scheme : Scheme
+    report : dict
+        :func:`kinetics.overview.check_report` of ``scheme``.
+    full_tables : bool, optional
+        Print every table however long.  Otherwise a scheme with more than
+        :data:`CHECK_TABLE_ROWS` species or steps gets an overview: counts of
+        species, roles, steps and components, the balance verdict and every
+        problem found, and where to find the rest (``--full-tables``, ``--json``).
+    """
+    from .overview import CHECK_TABLE_ROWS
+
     out = console()
     title = report["title"] or report["source"]
     out.print(f"[bold]{_escape(title)}[/bold]")
@@ -114,7 +128,30 @@ def render_check(scheme: Scheme, report: dict) -> None:
     if report["temperature_K"] is not None:
         t = report["temperature_K"]
         out.print(f"temperature: {t:.6g} K ({t - 273.15:.6g} °C)")
+    rows = max(len(report["species_details"]), len(report["reactions"]))
+    brief = rows > CHECK_TABLE_ROWS and not full_tables
+    if brief:
+        _print_counts(report, out)
+    else:
+        _print_check_tables(report, out)
+    _render_rate_matrix(report, out)
 
+    if report["feed"]:
+        if brief and len(report["feed"]) > CHECK_TABLE_ROWS:
+            out.print(f"feed: {len(report['feed'])} species fed")
+        else:
+            feeds = ", ".join(f"{_escape(k)} {_num(v)} {unit}/s" for k, v in report["feed"].items())
+            out.print(f"feed: {feeds}")
+    _print_balance(report["balance"], out, brief)
+    if brief:
+        _print_network_counts(report["network"], out)
+    else:
+        _print_network(report["network"], out)
+
+
+def _print_check_tables(report: dict, out: Console) -> None:
+    """The species and steps tables of ``check``, one row each."""
+    unit = report["concentration_unit"]
     table = Table(title="Species (matrix order)", title_justify="left")
     for header in ("species", "role", "formula", "molar mass [g/mol]", f"start [{unit}]"):
         table.add_column(_escape(header))
@@ -142,13 +179,42 @@ def render_check(scheme: Scheme, report: dict) -> None:
             _num(r["k_per_s"], 8),
         )
     out.print(steps)
-    _render_rate_matrix(report, out)
 
-    if report["feed"]:
-        feeds = ", ".join(f"{_escape(k)} {_num(v)} {unit}/s" for k, v in report["feed"].items())
-        out.print(f"feed: {feeds}")
 
-    balance = report["balance"]
+def _print_counts(report: dict, out: Console) -> None:
+    """The overview of a large scheme instead of its tables: counts and ranges."""
+    from collections import Counter
+
+    from .overview import CHECK_TABLE_ROWS
+
+    details, steps = report["species_details"], report["reactions"]
+    out.print(
+        f"[bold]Overview[/bold]: {len(details)} species and {len(steps)} steps; tables are "
+        f"printed for up to {CHECK_TABLE_ROWS} rows (--full-tables prints them all, "
+        "--json gives everything as one object)"
+    )
+    roles = Counter(d["role"] for d in details)
+    out.print("species: " + ", ".join(f"{n} {role}" for role, n in roles.most_common()))
+    with_formula = sum(1 for d in details if d["formula"])
+    with_mass = sum(1 for d in details if d["molar_mass_g_per_mol"] is not None)
+    started = sum(1 for d in details if d["excess"] is None and d["start"])
+    out.print(
+        f"  {started} with a start value, {with_formula} with a formula, "
+        f"{with_mass} with a molar mass"
+    )
+    reactions = len(report["balance"]["reactions"])
+    reverse = sum(1 for r in steps if r["direction"] == "reverse")
+    out.print(
+        f"steps: {len(steps)} from {reactions} reactions ({reverse} reversible), "
+        f"{len(report['constants'])} rate constants"
+    )
+    rates = [r["k_per_s"] for r in steps if r["k_per_s"] is not None]
+    if rates:
+        out.print(f"  k from {_num(min(rates))} to {_num(max(rates))} 1/s")
+
+
+def _print_balance(balance: dict, out: Console, brief: bool = False) -> None:
+    """The balance verdict, every problem it found, and the mass exchanged with excess."""
     if not balance["checked"]:
         verdict = "not checked (no formulas or molar masses given)"
     elif balance["ok"]:
@@ -169,10 +235,23 @@ def render_check(scheme: Scheme, report: dict) -> None:
             out.print(f"  line {r['line']}: {_escape(r['equation'])}: left {left}, right {right}")
     if balance["max_relative_residual"] is not None:
         out.print(f"  largest relative residual of m·K = 0: {balance['max_relative_residual']:.3g}")
-    for step in balance["mass_changing_steps"]:
+    changing = balance["mass_changing_steps"]
+    exchanging = 0
+    for step in changing:
+        if brief and "creates or destroys" not in step["reason"]:
+            exchanging += 1  # not a problem: mass taken from or given to excess species
+            continue
         out.print(f"  {_escape(step['equation'])}: {_escape(step['reason'])}")
+    if exchanging:
+        verb = "step exchanges" if exchanging == 1 else "steps exchange"
+        out.print(
+            f"  {exchanging} {verb} mass with species held in excess "
+            "(listed by --full-tables and --json)"
+        )
 
-    net = report["network"]
+
+def _print_network(net: dict, out: Console) -> None:
+    """Reversible pairs, cycles and components, each listed."""
     if net["reversible_pairs"]:
         out.print(
             "reversible pairs: " + ", ".join(" <=> ".join(p) for p in net["reversible_pairs"])
@@ -187,6 +266,21 @@ def render_check(scheme: Scheme, report: dict) -> None:
             "disconnected sub-schemes: "
             + "; ".join("{" + ", ".join(c) + "}" for c in net["sub_schemes"])
         )
+
+
+def _print_network_counts(net: dict, out: Console) -> None:
+    """Reversible pairs, cycles and components of a large scheme, counted."""
+    if net["reversible_pairs"]:
+        out.print(f"reversible pairs: {len(net['reversible_pairs'])}")
+    if net["cycles"]:
+        out.print(f"cycles: {len(net['cycles'])} (listed by --full-tables and --json)")
+    for key, label in (
+        ("strongly_connected_components", "strongly connected components"),
+        ("sub_schemes", "disconnected sub-schemes"),
+    ):
+        if net[key]:
+            sizes = sorted((len(c) for c in net[key]), reverse=True)
+            out.print(f"{label}: {len(sizes)}, the largest with {sizes[0]} species")
 
 
 def _cell(value) -> str:

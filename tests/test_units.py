@@ -8,11 +8,17 @@ Reference values are the SI definitions (BIPM, The International System of Units
 
 from __future__ import annotations
 
+import re
+import subprocess
+import sys
 from fractions import Fraction
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from kinetics.units import (
+    COMMON_UNITS,
     GAS_CONSTANT,
     MAX_EXPONENT,
     concentration_order,
@@ -20,6 +26,8 @@ from kinetics.units import (
     describe_dimension,
     normalise_unit,
     parse_unit,
+    parse_unit_by_pint,
+    registry,
     temperature_to_kelvin,
 )
 
@@ -202,3 +210,98 @@ def test_pint_text_keeps_what_pint_reads_and_rewrites_the_rest():
     assert pint_text("M") == "M"
     assert pint_text("mmol L-1") == "mmol*L**-1"
     assert pint_text("mol dm-3") == "mol*dm**-3"
+
+
+# -- the table of common units read without pint -----------------------------------------
+
+
+@pytest.mark.parametrize("symbol", sorted(COMMON_UNITS))
+def test_every_common_unit_reads_as_pint_reads_it(symbol):
+    # reference: pint's own definitions file (parse_unit_by_pint builds its registry)
+    assert parse_unit(symbol) == parse_unit_by_pint(symbol)
+    assert parse_unit_by_pint(symbol).factor == COMMON_UNITS[symbol][1]
+
+
+@pytest.mark.parametrize(
+    "unit",
+    [
+        "L mol-1 s-1",
+        "M-1 s-1",
+        "mol/L/min",
+        "(mol/L)-1 s-1",
+        "mol dm-3",
+        "1/min",
+        "h-1",
+        "kJ/mol",
+        "kcal mol-1",
+        "L2 mol-2 s-1",
+        "g/mol",
+        "umol/L/h",
+        "mol/(L*s)",
+        "mol/L*s",
+        "s/1",
+        f"m{MAX_EXPONENT}",
+        "(min^12)^2",
+        "min^12 minute^12 min",  # pint adds the powers of one unit: 25 > 2 * MAX_EXPONENT
+    ],
+)
+def test_combinations_of_common_units_read_as_pint_reads_them(unit):
+    try:
+        expected = parse_unit_by_pint(unit)
+    except ValueError as exc:
+        with pytest.raises(ValueError, match=re.escape(str(exc))):
+            parse_unit.__wrapped__(unit)
+    else:
+        assert parse_unit.__wrapped__(unit) == expected
+
+
+_ATOMS = sorted(k for k in COMMON_UNITS if k != "%")
+
+
+@st.composite
+def _pint_expressions(draw, depth=2):
+    pieces = [draw(st.sampled_from([*_ATOMS, "1"]))]
+    for _ in range(draw(st.integers(0, 3))):
+        pieces.append(draw(st.sampled_from(["*", "/"])))
+        if depth and draw(st.booleans()):
+            pieces.append("(" + draw(_pint_expressions(depth=depth - 1)) + ")")
+        else:
+            pieces.append(draw(st.sampled_from(_ATOMS)))
+        if draw(st.booleans()):
+            pieces.append(f"**{draw(st.integers(-3, 3))}")
+    return "".join(pieces)
+
+
+@settings(max_examples=150, deadline=None)
+@given(_pint_expressions())
+def test_random_products_of_common_units_read_as_pint_reads_them(unit):
+    # reference: pint (an independent reader of the same expression)
+    try:
+        expected = parse_unit_by_pint(unit)
+    except ValueError:
+        with pytest.raises(ValueError):  # noqa: PT011 - both readers refuse it
+            parse_unit.__wrapped__(unit)
+    else:
+        assert parse_unit.__wrapped__(unit) == expected
+
+
+@pytest.mark.parametrize("unit", ["degC", "°C", "degF", "K", "kelvin"])
+@pytest.mark.parametrize("value", [25.0, -40.0, 0.1, Fraction(1, 3), 1e300])
+def test_temperatures_without_pint_agree_with_pint(unit, value):
+    # reference: pint's conversion to kelvin in exact rational arithmetic
+    assert parse_unit(unit) == parse_unit_by_pint(unit)
+    ureg = registry()
+    exact = ureg.Quantity(Fraction(value), normalise_unit(unit)).to("kelvin").magnitude
+    assert temperature_to_kelvin(value, unit) == float(exact)
+
+
+def test_common_units_do_not_load_pint():
+    code = (
+        "import sys\nfrom kinetics.units import parse_unit, pint_text, temperature_to_kelvin\n"
+        "for u in ['1/min', 'min-1', 'M-1 s-1', 'mol/L', 'h', 'kJ/mol', 'degC', 'umol/L/h']:\n"
+        "    parse_unit(u)\n"
+        "pint_text('mol/L')\ntemperature_to_kelvin(45.0, 'degC')\n"
+        "assert 'pint' not in sys.modules"
+    )
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=False)
+    assert done.returncode == 0, done.stderr
