@@ -8,8 +8,6 @@ clear message on stderr and no traceback (``--debug`` shows one).
 from __future__ import annotations
 
 import json
-import math
-import re
 import sys
 from pathlib import Path
 
@@ -18,69 +16,7 @@ import click
 from . import __version__
 from .errors import KineticsError, UsageError
 from .overview import CAUTION, CHECK_TABLE_ROWS  # CAUTION: the short form of SAFETY.md
-
-_DURATION = re.compile(
-    r"^\s*(?P<number>[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*(?P<unit>.*)$"
-)
-
-
-def parse_duration(text: str, option: str = "--until") -> tuple[float, str]:
-    """``"90 min"`` -> (5400.0, "min"): a duration in seconds and the unit as written."""
-    from .solution import time_factor
-
-    match = _DURATION.match(text)
-    if not match or not match["unit"].strip():
-        raise UsageError(
-            f"{option} {text!r} is not a duration with a unit", f"write e.g. {option} '90 min'"
-        )
-    unit = match["unit"].strip()
-    try:
-        factor = time_factor(unit)
-    except UsageError:
-        raise UsageError(
-            f"{option} {text!r}: {unit!r} is not a unit of time", "use s, min, h or d"
-        ) from None
-    value = float(match["number"])
-    if not (math.isfinite(value) and value > 0):
-        raise UsageError(
-            f"{option} {text!r} is not a positive duration", f"write e.g. {option} '90 min'"
-        )
-    return value * factor, unit
-
-
-def parse_time_list(text: str) -> tuple[list[float], str]:
-    """``"0,5,10,30 min"`` -> ([0, 300, 600, 1800], "min"): times in seconds and the unit.
-
-    The unit is written once, after the last number.
-    """
-    from .solution import time_factor
-
-    example = "write e.g. --times '0,5,10,30 min'"
-    pieces = [p.strip() for p in text.split(",")]
-    if not pieces or not pieces[-1]:
-        raise UsageError(f"--times {text!r} is not a list of times with one unit", example)
-    match = _DURATION.match(pieces[-1])
-    if not match or not match["unit"].strip():
-        raise UsageError(
-            f"--times {text!r} does not end with a unit of time",
-            example + " (unit once, at the end)",
-        )
-    unit = match["unit"].strip()
-    try:
-        factor = time_factor(unit)
-    except UsageError:
-        raise UsageError(
-            f"--times {text!r}: {unit!r} is not a unit of time", "use s, min, h or d"
-        ) from None
-    values = []
-    for piece in pieces[:-1]:
-        try:
-            values.append(float(piece))
-        except ValueError:
-            raise UsageError(f"--times {text!r}: {piece!r} is not a number", example) from None
-    values.append(float(match["number"]))
-    return [v * factor for v in values], unit
-
+from .units import parse_duration, parse_time_list
 
 #: Commands defined in their own modules, imported only when named or listed by
 #: ``--help`` (``solve`` and ``check`` start without them): name -> (module, object).
@@ -115,6 +51,20 @@ def cli(ctx, debug):
       kinetics solve networks/consecutive_intermediate.scheme --until 3h --out table.csv
     """
     ctx.obj = {"debug": debug}
+
+
+def load_scheme(path, **options):
+    """Load a scheme file and print its warnings on stderr (``kinetics: warning: ...``).
+
+    The command-line side of :attr:`kinetics.scheme.Scheme.warnings`: every command
+    that reads a scheme calls this.
+    """
+    from .parsing import load
+
+    scheme = load(path, **options)
+    for warning in scheme.warnings:
+        click.echo(f"kinetics: warning: {warning}", err=True)
+    return scheme
 
 
 def _caution(quiet: bool) -> None:
@@ -163,10 +113,9 @@ def check(scheme_file, as_json, allow_imbalance, full_tables):
       kinetics check networks/reversible_isomerisation.scheme --json
     """
     from .overview import check_report
-    from .parsing import load
     from .terminal import render_check
 
-    scheme = load(scheme_file, strict_balance=not allow_imbalance)
+    scheme = load_scheme(scheme_file, strict_balance=not allow_imbalance)
     report = check_report(scheme)
     if as_json:
         click.echo(json.dumps(report, indent=2, allow_nan=False))
@@ -233,7 +182,8 @@ def _plot_solution(result, scheme):
 
     if len(result.times) >= 201:
         return result
-    return sol.solve(scheme, np.linspace(0.0, float(result.times[-1]), 401))
+    fine = sol.solve(scheme, np.linspace(0.0, float(result.times[-1]), 401))
+    return fine if result.unit_factors is None else fine.in_unit(result.concentration_unit)
 
 
 _GRID_OPTIONS = [
@@ -260,6 +210,14 @@ _GRID_OPTIONS = [
         is_flag=True,
         help="Do not print the two-line caution on stderr (for scripts; see SAFETY.md).",
     ),
+    click.option(
+        "--concentration-unit",
+        "conc_unit",
+        help="Unit of concentrations in tables, plots and the summary: an amount unit "
+        "(mmol/L), a mass unit converted per species with its molar mass (mg/L; mg/kg for "
+        "a file per mass of soil) or '% of applied' (default: the unit of the first start "
+        "value as written).",
+    ),
 ]
 
 
@@ -280,12 +238,15 @@ def _prepare(until, points, times_text, time_unit):
     return times, time_unit, settings
 
 
-def _solve_and_summarise(scheme, times, time_unit, bar):
+def _solve_and_summarise(scheme, times, time_unit, bar, conc_unit=None):
     from . import solution as sol
     from .overview import compute_summary, summary_in_units
 
     bar.describe("solving")
     result = sol.solve(scheme, times)
+    unit = conc_unit or scheme.written_unit
+    if unit and unit != scheme.concentration_unit:
+        result = result.in_unit(unit)
     bar.step("summary quantities")
     raw = compute_summary(result)
     summary = summary_in_units(raw, time_unit) if raw is not None else None
@@ -310,7 +271,16 @@ _OUT_HELP = "Output file, format from the extension: " + ", ".join(
 )
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object on stdout.")
 def solve(
-    scheme_file, until, points, times_text, time_unit, species_text, no_caution, outputs, as_json
+    scheme_file,
+    until,
+    points,
+    times_text,
+    time_unit,
+    species_text,
+    no_caution,
+    conc_unit,
+    outputs,
+    as_json,
 ):
     """Solve a scheme exactly on a time grid; print or write the table and the summary.
 
@@ -328,19 +298,18 @@ def solve(
     """
     from .export import check_output_paths
     from .overview import solution_json
-    from .parsing import load
     from .terminal import progress, render_solution
 
     times, time_unit, settings = _prepare(until, points, times_text, time_unit)
     paths = check_output_paths(outputs, [scheme_file])
-    scheme = load(scheme_file)
+    scheme = load_scheme(scheme_file)
     species = _species_list(species_text, scheme)
     if species:
         settings["species"] = species
     _caution(no_caution)
     first_use_note()
     with progress(2 + len(paths), "solving") as bar:
-        result, summary = _solve_and_summarise(scheme, times, time_unit, bar)
+        result, summary = _solve_and_summarise(scheme, times, time_unit, bar, conc_unit)
         needs_document = as_json or any(p.suffix.lower() in (".json", ".parquet") for p in paths)
         document = solution_json(result, time_unit, summary, settings) if needs_document else None
         for path in paths:
@@ -405,7 +374,16 @@ def _write_output(path, result, scheme, time_unit, summary, document, species) -
 )
 @click.option("--title", help="Title of the report (default: the title in the scheme file).")
 def report(
-    scheme_file, until, points, times_text, time_unit, species_text, no_caution, output, title
+    scheme_file,
+    until,
+    points,
+    times_text,
+    time_unit,
+    species_text,
+    no_caution,
+    conc_unit,
+    output,
+    title,
 ):
     """Write a self-contained HTML report: scheme, graph, inputs, summary, plot, table.
 
@@ -420,19 +398,18 @@ def report(
     import hashlib
 
     from .export import check_output_paths
-    from .parsing import load
     from .report import build_report, write_report
     from .terminal import progress
 
     times, time_unit, settings = _prepare(until, points, times_text, time_unit)
     (path,) = check_output_paths([output], [scheme_file], {".html": "HTML report"})
-    scheme = load(scheme_file)
+    scheme = load_scheme(scheme_file)
     species = _species_list(species_text, scheme)
     digest = hashlib.sha256(Path(scheme_file).read_bytes()).hexdigest()
     _caution(no_caution)
     first_use_note()
     with progress(4, "solving") as bar:
-        result, summary = _solve_and_summarise(scheme, times, time_unit, bar)
+        result, summary = _solve_and_summarise(scheme, times, time_unit, bar, conc_unit)
         bar.describe("drawing")
         html = build_report(
             scheme,

@@ -63,7 +63,7 @@ import numpy as np
 from .errors import DataError, UsageError
 from .measurements import Measurements, measurements_from_frame, parse_condition, read_measurements
 from .ratematrix import rate_pattern, step_rates
-from .units import GAS_CONSTANT, parse_unit
+from .units import GAS_CONSTANT, parse_unit, time_factor
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -960,8 +960,9 @@ def _sigma(m: Measurements, weights, rows, cols, y) -> np.ndarray:
         missing = np.isnan(sd)
         if np.any(missing):
             k = int(np.argmax(missing))
+            when = m.times[rows[k]] / time_factor(m.time_unit)  # in the table's own unit
             raise DataError(
-                f"the value of {m.species[cols[k]]} at time {m.times[rows[k]]!r} s has no "
+                f"the value of {m.species[cols[k]]} at time {when:g} {m.time_unit} has no "
                 "standard deviation",
                 m.source,
                 f"fill the column '{m.species[cols[k]]} sd' wherever a value is given",

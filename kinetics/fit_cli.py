@@ -162,9 +162,9 @@ def fit(
 ):
     """Run ``kinetics fit`` (the help text is :data:`_HELP`); exit status 2 on bad input."""
     from . import export
+    from .cli import load_scheme as load  # prints the scheme's warnings
     from .fit import fit as run_fit
     from .measurements import parse_condition, read_measurements
-    from .parsing import load
     from .solution import time_factor
 
     order = ctx.meta.get("fit_order") or [("--data", d) for d in data_opts] + [

@@ -9,7 +9,8 @@ matrix order), ``excess_species``, ``species_details``, ``rate_matrix`` (rows,
 ``concentration_unit``, ``temperature_K``, ``constants``, ``reactions``
 (one object per step: ``equation``, ``k_per_s``, ``reaction``, ``direction``,
 ``constant``, ``given``, ``line``), ``balance`` (``ok`` and per-reaction
-details), ``network`` (roles, reversible pairs, cycles, components).
+details), ``network`` (roles, reversible pairs, cycles, components), ``warnings``
+(sentences about probable mistakes, see :attr:`kinetics.scheme.Scheme.warnings`).
 
 Above :data:`DENSE_JSON_MAX` species the dense ``rate_matrix`` would be
 hundreds of megabytes of JSON: it is then ``null`` and the nonzero entries are
@@ -269,6 +270,7 @@ def check_report(scheme: Scheme) -> dict:
         "reactions": steps,
         "balance": balance.to_dict(),
         "network": network.to_dict(),
+        "warnings": list(scheme.warnings),
     }
 
 
@@ -359,7 +361,34 @@ def compute_summary(solution: Solution) -> Summary | None:
         feed=feed,
         t_window=window,
     )
-    return Summary({name: s.to_dict() for name, s in per.items()}, whole.to_dict())
+    out = {name: s.to_dict() for name, s in per.items()}
+    scheme_wide = whole.to_dict()
+    if solution.unit_factors is not None:  # reported in another unit (Solution.in_unit)
+        factors = dict(zip(solution.species, solution.unit_factors, strict=True))
+        for name, factor in factors.items():
+            _scale_concentrations(out[name], float(factor))
+        # amounts formed per end product in its reported unit (the ratios and shares stay
+        # those of the amounts of substance)
+        for key in ("amount_formed_at_window_end", "amount_formed_in_limit"):
+            formed = scheme_wide.get(key)
+            if formed:
+                scheme_wide[key] = {
+                    p: None if v is None else v * float(factors[p]) for p, v in formed.items()
+                }
+    return Summary(out, scheme_wide)
+
+
+#: Keys of a species summary that hold a concentration (scaled by Solution.in_unit).
+CONCENTRATION_KEYS = frozenset(k for k, _, kind in SUMMARY_COLUMNS if kind == "conc")
+
+
+def _scale_concentrations(entry: dict, factor: float) -> None:
+    for key in CONCENTRATION_KEYS | AREA_KEYS:
+        if isinstance(entry.get(key), int | float):
+            entry[key] = entry[key] * factor
+    for maximum in entry.get("maxima") or []:
+        if isinstance(maximum.get("height"), int | float):
+            maximum["height"] = maximum["height"] * factor
 
 
 def _convert_times(value, key: str, factor: float):

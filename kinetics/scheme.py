@@ -23,7 +23,7 @@ from functools import cached_property
 
 import numpy as np
 
-from .errors import UsageError
+from .errors import UsageError, shown_value
 from .units import GAS_CONSTANT_EXACT
 
 __all__ = ["Arrhenius", "RateConstant", "Reaction", "Scheme", "Species", "Step"]
@@ -120,7 +120,7 @@ class Arrhenius:
         from . import _doubledouble as dd
 
         if not temperature > 0:
-            raise UsageError(f"temperature {temperature!r} K must be above 0 K")
+            raise UsageError(f"temperature {shown_value(temperature)} K must be above 0 K")
         exponent = -Fraction(self.activation_energy) / (GAS_CONSTANT_EXACT * Fraction(temperature))
         return self.prefactor_si * dd.decimal_exp(exponent)
 
@@ -196,11 +196,26 @@ class Step:
     direction: str = "forward"
 
     @property
+    def key(self) -> tuple:
+        """What the step does, independent of how it is written and of its constant:
+        reactant, co-reactants and products with their coefficients, each sorted by name.
+        Two steps with one key are parallel (their rates add up)."""
+        return (self.reactant, _merged(self.co_reactants), _merged(self.products))
+
+    @property
     def equation(self) -> str:
         """The step written out, e.g. ``A + W -> B``."""
         left = " + ".join([self.reactant] + [_term(c, n) for c, n in self.co_reactants])
         right = " + ".join(_term(c, n) for c, n in self.products)
         return f"{left} -> {right}"
+
+
+def _merged(terms: tuple[tuple[float, str], ...]) -> tuple[tuple[str, float], ...]:
+    """Terms with one entry per species (``B + B`` is ``2 B``), sorted by name."""
+    total: dict[str, float] = {}
+    for coefficient, name in terms:
+        total[name] = total.get(name, 0.0) + coefficient
+    return tuple(sorted(total.items()))
 
 
 def _term(coefficient: float, name: str) -> str:
@@ -266,7 +281,8 @@ class Scheme:
     temperature : float or None
         [K].
     concentration_unit : str
-        A pint-parsable unit, as the user wrote it.
+        A pint-parsable unit of amounts, as the user wrote it; for a file in mass units
+        its amount twin (``mmol/L`` for ``mg/L``: masses are converted with molar masses).
     title : str
     source : str
         File name, or ``"<text>"``.
@@ -274,6 +290,14 @@ class Scheme:
         The scheme as written.
     allow_imbalance : bool
         True when the file opted out of the atom-balance error (lumped schemes).
+    written_unit : str
+        The unit of the first start value as written (``mg/L``): the unit outputs use
+        unless told otherwise (see :meth:`kinetics.solution.Solution.in_unit`); equal to
+        ``concentration_unit`` for files in amounts.
+    warnings : tuple of str
+        Sentences about probable mistakes that do not stop the file from loading
+        (parallel steps, constants no step uses, nothing to start from), each led by
+        ``file:line:``; the command line prints them on stderr.
     """
 
     species: tuple[Species, ...]
@@ -286,10 +310,12 @@ class Scheme:
     feed: dict[str, float]
     temperature: float | None
     concentration_unit: str
+    written_unit: str = ""
     title: str = ""
     source: str = "<text>"
     text: str = ""
     allow_imbalance: bool = False
+    warnings: tuple[str, ...] = ()
     _excess_si: dict[str, Fraction] = field(default_factory=dict, repr=False)
     _unit_factor: Fraction = field(default=Fraction(1), repr=False)
 
@@ -464,7 +490,10 @@ class Scheme:
                 )
             exact = _checked_fraction(value, f"rate constant {name}")
             new_constants[name] = replace(
-                new_constants[name], value_si=exact, arrhenius=None, text=f"{value!r} (SI)"
+                new_constants[name],
+                value_si=exact,
+                arrhenius=None,
+                text=f"{shown_value(value)} (SI)",
             )
         new_initial = dict(self.initial)
         for name, value in (initial or {}).items():
@@ -488,7 +517,9 @@ class Scheme:
             )
             new_excess[name] = float(value)
         if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
-            raise UsageError(f"temperature {temperature!r} K must be finite and above 0 K")
+            raise UsageError(
+                f"temperature {shown_value(temperature)} K must be finite and above 0 K"
+            )
         return replace(
             self,
             constants=new_constants,
@@ -503,7 +534,7 @@ def _checked_fraction(value: float, what: str) -> Fraction:
     try:
         number = float(value)
     except (TypeError, ValueError):
-        raise UsageError(f"{what} must be a number, not {value!r}") from None
+        raise UsageError(f"{what} must be a number, not {shown_value(value)}") from None
     if not (math.isfinite(number) and number >= 0):
-        raise UsageError(f"{what} = {value!r} must be finite and >= 0")
+        raise UsageError(f"{what} = {shown_value(value)} must be finite and >= 0")
     return Fraction(number)

@@ -10,14 +10,14 @@ from __future__ import annotations
 import os
 import warnings
 from collections.abc import Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .errors import ArgumentTypeError, UsageError
+from .errors import ArgumentTypeError, UsageError, type_name
 from .propagate import propagate_certified
-from .units import convert, parse_unit
+from .units import time_factor
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -31,18 +31,12 @@ __all__ = [
     "require_scheme",
     "solve",
     "time_grid",
-    "type_name",
 ]
 
 
 #: Largest table a solve produces: points x species (80 MB per copy of the table; the
 #: JSON and spreadsheet outputs hold several copies).  README, "Limits of the method".
 MAX_VALUES = 10_000_000
-
-
-def type_name(x) -> str:
-    """``None`` for None, else the name of the type of ``x`` (for messages)."""
-    return "None" if x is None else type(x).__name__
 
 
 def require_scheme(scheme, function: str) -> Scheme:
@@ -114,7 +108,7 @@ def check_times(times) -> np.ndarray:
         raise UsageError("a time is not a finite number", "give finite times in seconds")
     if np.any(t < 0):
         raise UsageError(
-            f"a time is negative ({float(t[t < 0][0])!r} s)", "times start at 0 (the start values)"
+            f"a time is negative ({float(t[t < 0][0]):g} s)", "times start at 0 (the start values)"
         )
     if np.any(np.diff(t) < 0):
         raise UsageError("the times are not in increasing order", "sort the time list")
@@ -144,7 +138,10 @@ def time_grid(until: float, points: int = 201) -> np.ndarray:
     At most :data:`MAX_VALUES` points (a larger grid is refused before it is made).
     """
     if not (np.isfinite(until) and until > 0):
-        raise UsageError(f"the end time must be positive, not {until!r}", "e.g. --until 90min")
+        raise UsageError(
+            f"the end time must be positive and finite, not {float(until):g} s",
+            "give the end of the window in seconds, e.g. 5400 for 90 min",
+        )
     if points < 2:
         raise UsageError(f"a grid needs at least 2 points, not {points}", "e.g. --points 201")
     _check_size(points)
@@ -168,6 +165,9 @@ class Solution:
     error_bound : numpy.ndarray or None
         Shape ``(m,)``: the relative error the engine certifies for every entry
         above 1e-290 at each time (see :func:`kinetics.propagate.propagate_certified`).
+    unit_factors : numpy.ndarray or None
+        Shape ``(n,)``: per species, the factor from the scheme's unit to
+        ``concentration_unit`` (set by :meth:`in_unit`; None in the scheme's unit).
     """
 
     times: np.ndarray
@@ -176,6 +176,55 @@ class Solution:
     concentration_unit: str
     scheme: Scheme
     error_bound: np.ndarray | None = None
+    unit_factors: np.ndarray | None = None
+    _amounts: np.ndarray | None = field(default=None, repr=False)  # in the scheme's unit
+
+    def in_unit(self, unit: str) -> Solution:
+        """The same solution with concentrations in another unit.
+
+        Mass units are applied per species with its molar mass; "% of applied" is the
+        percentage of the total amount at time zero (see :mod:`kinetics.amounts`).
+
+        .. math:: m_i(t) = n_i(t)\\, M_i, \\qquad
+                  p_i(t) = 100\\, n_i(t) / \\textstyle\\sum_j n_j(0)
+
+        Parameters
+        ----------
+        unit : str
+            An amount or mass unit of the scheme's kind (``mmol/L``, ``mg/L``; ``mg/kg``
+            for a scheme per mass of soil) or ``"% of applied"``.
+
+        Returns
+        -------
+        Solution
+            Its :meth:`summary`, :meth:`to_frame` and :meth:`plot` use ``unit``.
+
+        Raises
+        ------
+        UsageError
+            For a unit of another kind, or a mass unit where a species that can be
+            present has no molar mass.
+
+        Examples
+        --------
+        >>> import kinetics
+        >>> s = kinetics.parse("A -> B  k1 = 1 1/s\\nstart A = 0.5 M\\nformula A = H2O, B = H2O")
+        >>> # 0.5 mol/L times 18.015 g/mol (water, standard atomic weights)
+        >>> float(kinetics.solve(s, [0.0]).in_unit("g/L").concentrations[0, 0])
+        9.0075
+        """
+        from .amounts import PERCENT_OF_APPLIED, is_percent_of_applied, output_factors
+
+        factors = output_factors(self.scheme, unit)
+        amounts = self.concentrations if self._amounts is None else self._amounts
+        label = PERCENT_OF_APPLIED if is_percent_of_applied(unit) else unit.strip()
+        return replace(
+            self,
+            concentrations=amounts * factors,
+            concentration_unit=label,
+            unit_factors=factors,
+            _amounts=amounts,
+        )
 
     def __getitem__(self, name: str) -> np.ndarray:
         """The curve of one species [concentration_unit]."""
@@ -294,22 +343,6 @@ class Solution:
         if path is not None:
             save_figure(fig, path)
         return fig
-
-
-def time_factor(unit: str) -> float:
-    """Seconds per ``unit`` (``"min"`` -> 60.0); UsageError when it is not a time unit."""
-    if not isinstance(unit, str):
-        raise ArgumentTypeError(
-            f"the time unit must be text such as 'min', not {type_name(unit)}",
-            "use s, min, h or d",
-        )
-    try:
-        spec = parse_unit(unit)
-    except ValueError:
-        raise UsageError(f"unknown time unit {unit!r}", "use s, min, h or d") from None
-    if spec.dims != {"[time]": 1}:
-        raise UsageError(f"{unit!r} is not a unit of time", "use s, min, h or d")
-    return convert(1.0, unit, "s")
 
 
 def solve(scheme: Scheme, times) -> Solution:

@@ -83,8 +83,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from .errors import ArgumentTypeError, GrowthError, UsageError
-from .solution import type_name
+from .errors import ArgumentTypeError, GrowthError, UsageError, type_name
 from .units import GAS_CONSTANT, convert, parse_unit, temperature_to_kelvin
 
 if TYPE_CHECKING:

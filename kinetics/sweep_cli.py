@@ -357,9 +357,9 @@ def sweep(
     that an interrupted sweep continues with --resume.
     """
     from .cli import _prepare
+    from .cli import load_scheme as load  # prints the scheme's warnings
     from .export import check_output_path, check_output_paths
     from .overview import CAUTION
-    from .parsing import load
     from .sweep import make_plan
     from .sweep import sweep as sweep_table
 

@@ -179,10 +179,14 @@ def test_implausible_fast_step_is_flagged():
 
 
 def test_exactly_determined_fit_warns(tmp_path):
-    scheme = kinetics.parse("A -> P  k1 = 0.05 1/month\nstart A = 5.0 mg/mL")
+    # a start value in mg/mL needs a molar mass (issue 12: the scheme counts molecules); an
+    # invented one, on which neither k1 nor the warning depends
+    scheme = kinetics.parse(
+        "A -> P  k1 = 0.05 1/month\nstart A = 5.0 mg/mL\nmolar_mass A = 100 g/mol"
+    )
     frame = pd.DataFrame({"time [month]": [0.0, 20.0], "A [mg/mL]": [5.0, 4.2]})
     result = fit(scheme, frame, "k1,start:A")
-    assert result.value("start:A") == pytest.approx(5.0, rel=1e-10)
+    assert result.value("start:A") == pytest.approx(5.0 / 100, rel=1e-10)  # mmol/mL
     # k = ln(5/4.2)/20 per month (first-order decay through two points; pharmaceutics texts)
     assert result.value("k1") == pytest.approx(math.log(5 / 4.2) / 20, rel=1e-9)
     assert result.warnings == [

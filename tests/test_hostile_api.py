@@ -379,7 +379,8 @@ def test_api_sweep_huge_constant(scheme):
         (
             lambda s: kinetics.solve(s, [0, 1]).summary(time_unit=None),
             ArgumentTypeError,
-            "the time unit must be text such as 'min', not None; use s, min, h or d",
+            "the time unit must be text such as 'min', not None; use s, min, h, d, week, month "
+            "(1/12 year), year (365.25 d; also yr or a), or prefixed seconds such as ms and us",
         ),
         (
             lambda s: kinetics.solve(s, [0, 1]).plot(species="A"),
@@ -543,3 +544,16 @@ def test_writers_name_the_missing_folder_not_a_temporary_file(scheme, tmp_path, 
         "write elsewhere"
     )
     assert not list(tmp_path.iterdir())
+
+
+def test_whole_scheme_amounts_follow_the_reported_unit():
+    # parallel branches: P(inf) = k1/(k1 + k2) A0 (Atkins, parallel reactions); in mg/L with
+    # M(C2H4O) = 44.053 g/mol (standard atomic weights, from memory): 29.3687 mg/L
+    s = kinetics.parse(
+        BRANCH.replace("mol/L", "mmol/L") + "formula A = C2H4O, P = C2H4O, Q = C2H4O"
+    )
+    summary = kinetics.solve(s, [0, 3600]).in_unit("mg/L").summary("min")
+    formed = summary.scheme["amount_formed_in_limit"]
+    assert formed["P"] == pytest.approx(summary["P"]["limit"], rel=1e-14)
+    assert formed["P"] == pytest.approx(2 / 3 * 44.053, rel=1e-4)
+    assert summary.scheme["selectivity_ratios_in_limit"]["P/Q"] == pytest.approx(2.0, rel=1e-14)

@@ -142,8 +142,9 @@ def test_two_point_shelf_life(tmp_path):
     k = ln(5/4.2)/20 = 0.008718 per month; 90 % remaining after ln(10/9)/k, about
     12.1 months (a pharmaceutics worked example).
     """
-    scheme = kinetics.parse(
-        "title: invented shelf-life study\nA -> P  k1 = 0.05 1/month\nstart A = 5.0 mg/mL"
+    scheme = kinetics.parse(  # a mass needs a molar mass (issue 12); k does not depend on it
+        "title: invented shelf-life study\nA -> P  k1 = 0.05 1/month\nstart A = 5.0 mg/mL\n"
+        "molar_mass A = 100 g/mol"
     )
     data = tmp_path / "stability.csv"
     data.write_text("time [month],A [mg/mL]\n0,5.0\n20,4.2\n", encoding="utf-8")
