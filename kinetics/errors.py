@@ -26,6 +26,7 @@ __all__ = [
     "DataError",
     "GrowthError",
     "KineticsError",
+    "OutputFileError",
     "SchemeError",
     "SchemeErrors",
     "SchemeFileError",
@@ -211,8 +212,8 @@ class SchemeErrors(KineticsError, ValueError):
         return "\n".join(parts)
 
 
-class SchemeFileError(KineticsError, OSError):
-    """A scheme or data file that cannot be read at all (missing, a folder, not UTF-8)."""
+class _FileProblem(KineticsError, OSError):
+    """An error told as ``path: problem; hint`` about a whole file."""
 
     def __init__(self, problem: str, path: str = "", hint: str = "") -> None:
         super().__init__(problem)
@@ -226,6 +227,18 @@ class SchemeFileError(KineticsError, OSError):
     def __str__(self) -> str:
         head = f"{self.path}: {self.problem}" if self.path else self.problem
         return f"{head}; {self.hint}" if self.hint else head
+
+
+class SchemeFileError(_FileProblem):
+    """A scheme or data file that cannot be read at all (missing, a folder, not UTF-8)."""
+
+
+class OutputFileError(_FileProblem):
+    """An output file that cannot be written (full disk, no permission, read-only folder).
+
+    The message names the file the user asked for, never the hidden temporary file it
+    is written through; nothing of it is left behind.
+    """
 
 
 class _ProblemAndHint(KineticsError):

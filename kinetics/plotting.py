@@ -241,8 +241,8 @@ def concentration_figure(
         ax_log.set_ylim(floor / 2, peak * 2)
     ax_log.set_title("logarithmic scale", fontsize=10)
     heading = title if title is not None else (solution.scheme.title or solution.scheme.source)
-    if heading:
-        fig.suptitle(heading, fontsize=12)
+    if heading:  # the user's text, drawn as written ("$" starts no formula)
+        fig.suptitle(heading, fontsize=12, parse_math=False)
     handles, legend = ax_lin.get_legend_handles_labels()
     if ax_right is not None:
         more = ax_right.get_legend_handles_labels()
@@ -556,11 +556,9 @@ def _metadata(fmt: str) -> dict:
 
 
 def save_figure(fig: Figure, path, dpi: int = 150) -> None:
-    """Write a figure to ``path`` (format from its extension: .png or .svg), atomically
-    (its folder must exist)."""
-    from .export import atomic_path, check_output_path
+    """Write a figure to ``path`` (format from its extension: .png or .svg), atomically."""
+    from .export import atomic_path
 
-    path = check_output_path(path)
     fmt = Path(path).suffix.lower().lstrip(".")
     with atomic_path(path) as tmp:
         fig.savefig(tmp, format=fmt, dpi=dpi, metadata=_metadata(fmt), bbox_inches=_tight(fig))

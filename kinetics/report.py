@@ -384,9 +384,8 @@ def build_report(
 
 
 def write_report(path, html: str) -> None:
-    """Write the report text to ``path`` (UTF-8), atomically (its folder must exist)."""
-    from .export import atomic_path, check_output_path
+    """Write the report text to ``path`` (UTF-8), atomically."""
+    from .export import atomic_path
 
-    path = check_output_path(path)
     with atomic_path(path) as tmp:
         tmp.write_text(html, encoding="utf-8")

@@ -327,15 +327,14 @@ class Solution:
                 raise UsageError(f"summary={summary!r} is not known", "use 'auto', None or a dict")
             summary = self.summary(time_unit)
         if path is not None:
-            from .export import check_output_path
+            from pathlib import Path
 
             if not isinstance(path, str | os.PathLike):
                 raise ArgumentTypeError(
                     f"path must be a file name, not {type_name(path)}",
                     "e.g. solution.plot('curves.png')",
                 )
-            path = check_output_path(path)
-            if path.suffix.lower() not in (".png", ".svg"):
+            if Path(path).suffix.lower() not in (".png", ".svg"):
                 raise UsageError(
                     f"cannot save a plot as {str(path)!r}", "use a .png or .svg file name"
                 )

@@ -45,9 +45,16 @@ class _Progress:
     """A progress bar on stderr that appears only if the work lasts over ``delay`` seconds."""
 
     def __init__(self, total: int, description: str, delay: float) -> None:
+        import sys
         import threading
 
-        from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+        from rich.progress import (
+            BarColumn,
+            Progress,
+            TextColumn,
+            TimeElapsedColumn,
+            TimeRemainingColumn,
+        )
 
         self._enabled = console(stderr=True).is_terminal
         self._progress = Progress(
@@ -55,8 +62,12 @@ class _Progress:
             BarColumn(),
             TextColumn("{task.completed}/{task.total}"),
             TimeElapsedColumn(),
+            TimeRemainingColumn(),
             console=Console(stderr=True),
             transient=True,
+            # stdout passes through the bar only when it is the same screen; a table
+            # redirected to a file or a pipe must never be diverted to stderr
+            redirect_stdout=sys.stdout.isatty(),
         )
         self._task = self._progress.add_task(description, total=total)
         self._started = False
