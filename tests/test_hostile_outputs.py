@@ -522,6 +522,8 @@ def test_chunk_on_a_full_disk(folder, capsys, monkeypatch):
         real(fh, **arrays)
 
     monkeypatch.setattr(sweep_store.np, "savez", savez)
+    # one thread: chunk 0 is finished before chunk 1 fails (with two, either may be first)
+    monkeypatch.setattr("os.cpu_count", lambda: 1)
     status, _, err = run(
         capsys,
         "sweep",
