@@ -391,7 +391,7 @@ def write_outputs(paths, write_one) -> None:
 def _write_output(path, result, scheme, time_unit, summary, document, species) -> None:
     """Write one --out file; the format follows the extension (already checked)."""
     from . import export
-    from .overview import inputs_tables, summary_rows
+    from .overview import inputs_tables, scheme_rows, summary_rows
 
     suffix = path.suffix.lower()
     frame = result.to_frame(time_unit)
@@ -416,6 +416,7 @@ def _write_output(path, result, scheme, time_unit, summary, document, species) -
             summary_rows=rows,
             inputs=inputs_tables(scheme),
             scheme_text=scheme.text,
+            scheme_rows=scheme_rows(summary, time_unit, result.concentration_unit),
         )
     elif suffix in (".png", ".svg"):
         from .plotting import save_plot

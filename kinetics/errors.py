@@ -22,6 +22,7 @@ import numbers
 
 __all__ = [
     "MAX_SHOWN_ERRORS",
+    "ArgumentTypeError",
     "DataError",
     "GrowthError",
     "KineticsError",
@@ -32,6 +33,7 @@ __all__ = [
     "UsageError",
     "shorten",
     "shown_value",
+    "type_name",
 ]
 
 #: Longest piece of a user's text quoted in a message [characters]; longer pieces are cut.
@@ -83,6 +85,11 @@ def shown_value(value) -> str:
     if isinstance(value, numbers.Real) and not isinstance(value, bool):
         return repr(float(value)) if not isinstance(value, numbers.Integral) else str(int(value))
     return shorten(repr(value))
+
+
+def type_name(value) -> str:
+    """``None`` for None, else the name of the value's type (for messages about arguments)."""
+    return "None" if value is None else type(value).__name__
 
 
 def _window(text: str, column: int, width: int) -> tuple[str, int, int]:
@@ -251,6 +258,14 @@ class _ProblemAndHint(KineticsError):
 
 class UsageError(_ProblemAndHint, ValueError):
     """A wrong argument to a command or to a library function (times, options, names)."""
+
+
+class ArgumentTypeError(_ProblemAndHint, TypeError):
+    """A library function called with an argument of the wrong type.
+
+    For example a file name or ``None`` where a checked scheme is needed, or a
+    single string where a list of names is needed.
+    """
 
 
 class DataError(KineticsError, ValueError):

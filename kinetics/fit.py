@@ -174,7 +174,7 @@ def parse_free(free: str | Sequence[str], scheme: Scheme) -> list[Parameter]:
                 raise UsageError(f"the free parameter {piece!r} is listed twice", "list it once")
             names.append(piece)
     if not names:
-        raise UsageError("no free parameter given", "write e.g. --free k1,k2")
+        raise UsageError("no free parameter given", "name at least one, e.g. k1 or k1,k2")
     return [_parameter(name, scheme) for name in names]
 
 
@@ -221,7 +221,7 @@ def _parameter(name: str, scheme: Scheme) -> Parameter:
     if constants[name].arrhenius is not None:
         raise UsageError(
             f"free parameter {name!r} follows the Arrhenius law",
-            f"free its parameters instead: --free {name}.A,{name}.Ea",
+            f"free its parameters instead: {name}.A and {name}.Ea",
         )
     unit = constants[name].unit
     return Parameter(name, "constant", name, unit, float(parse_unit(unit).factor))
@@ -806,7 +806,7 @@ def _sigma(m: Measurements, weights, rows, cols, y) -> np.ndarray:
             raise DataError(
                 "weights 'column' need standard deviations, but the table has no sd columns",
                 m.source,
-                "add columns such as 'B sd [mol/L]', or use --weights equal or relative",
+                "add columns such as 'B sd [mol/L]', or use the weights 'equal' or 'relative'",
             )
         sd = m.sd[rows, cols]
         missing = np.isnan(sd)

@@ -344,7 +344,8 @@ def _distinct(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 
 def _grid_growth(eps: float, gamma: float, columns: int) -> float:
     """Bound of the last of ``columns`` states ``F^k x``, ``F`` with bound ``eps``."""
-    return math.expm1((columns - 1) * math.log1p(_compose(eps, gamma)))
+    growth = (columns - 1) * math.log1p(_compose(eps, gamma)) if columns > 1 else 0.0
+    return math.expm1(growth) if growth < 700.0 else math.inf  # guard: no overflow, no nan
 
 
 def _expm_stack(A, Al, t, precision: str, target: float | None = None, columns: int = 1):
@@ -381,7 +382,7 @@ def _expm_stack(A, Al, t, precision: str, target: float | None = None, columns: 
         predicted = np.array(
             [_predicted_double(v, n, columns, reach, density) for v in values.tolist()]
         )
-        route_dd = predicted[which] > AUTO_RTOL
+        route_dd = ~(predicted[which] <= AUTO_RTOL)  # guard: a nan bound is not small
     else:
         route_dd = np.full(b, precision == "double-double")
     kinds, inverse = _distinct(2 * which + route_dd)
