@@ -148,6 +148,7 @@ import numpy as np
 import scipy.linalg
 import scipy.sparse
 
+from kinetics import checks
 from kinetics.errors import UsageError
 from kinetics.network import condensation
 from kinetics.propagate import DENSE_MAX, propagate, propagate_batch
@@ -950,10 +951,19 @@ _DOUBLE_SIGMA_T = 1e4
 class _Context:
     """Shared work for all derived quantities of one problem (K, c0, feed)."""
 
-    def __init__(self, K, c0, feed=None, *, names=None, t_window=None) -> None:
+    def __init__(self, K, c0, feed=None, *, names=None, t_window=None, K_low=None) -> None:
         self.Kd, self.Ks = _check_matrix(K)
         n = self.Ks.shape[0]
         self.n = n
+        # low-order parts of K (the exact matrix is K + K_low, see
+        # kinetics.ratematrix.rate_matrix_pair): every propagation takes them
+        self.K_low = None
+        if K_low is not None:
+            self.K_low = (
+                checks.low_parts(K_low, (n, n), "K_low")
+                if self.Kd is not None
+                else scipy.sparse.csr_array(K_low, dtype=float)
+            )
         self.c0 = _check_vector(c0, n, "c0", "start concentrations, one per species, >= 0")
         if feed is None:
             self.f = np.zeros(n)
@@ -1013,7 +1023,9 @@ class _Context:
         order = np.argsort(times, kind="stable")
         out = np.empty((times.size, self.n))
         precision = precision or self.precision
-        out[order] = propagate(self.K, self.c0, times[order], self.feed, precision=precision)
+        out[order] = propagate(
+            self.K, self.c0, times[order], self.feed, precision=precision, K_low=self.K_low
+        )
         return out
 
     def _state(self, times: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -1045,12 +1057,14 @@ class _Context:
         t = times[unknown]
         order = np.argsort(t, kind="stable")
         Kd = self.Kd
+        Kl = np.zeros_like(Kd) if self.K_low is None else self.K_low
         X, bound = propagate_batch(
             np.stack([Kd, Kd]),
             np.stack(self._split),
             t[order],
             precision=self.precision,
             return_bound=True,
+            K_low=np.stack([Kl, Kl]),
         )
         P, Q = np.empty((2, t.size, self.n))
         P[order], Q[order] = X[0], X[1]
@@ -1639,10 +1653,14 @@ class _Context:
     def areas(self, times_end: np.ndarray) -> np.ndarray:
         """Exact int_0^T c dt via the augmented system d(area)/dt = c (Van Loan 1978)."""
         n = self.n
+        Kal = None
         if self.Kd is not None:
             Ka = np.zeros((2 * n, 2 * n))
             Ka[:n, :n] = self.Kd
             Ka[n:, :n] = np.eye(n)
+            if self.K_low is not None:
+                Kal = np.zeros((2 * n, 2 * n))
+                Kal[:n, :n] = self.K_low
         else:
             eye = scipy.sparse.identity(n, format="csr")
             Ka = scipy.sparse.bmat([[self.Ks, None], [eye, None]], format="csr")
@@ -1651,7 +1669,7 @@ class _Context:
         fa = None if self.feed is None else np.concatenate([self.f, np.zeros(n)])
         order = np.argsort(times_end, kind="stable")
         out = np.empty((times_end.size, n))
-        out[order] = propagate(Ka, c0a, times_end[order], fa)[:, n:]
+        out[order] = propagate(Ka, c0a, times_end[order], fa, K_low=Kal)[:, n:]
         return out
 
 
@@ -2280,6 +2298,8 @@ def summarise(
     feed=None,
     t_window: float | None = None,
     tolerance: float = 0.01,
+    *,
+    K_low=None,
 ) -> dict[str, SpeciesSummary]:
     r"""All derived quantities per species, ready for a table or JSON.
 
@@ -2297,6 +2317,9 @@ def summarise(
         End of the chosen time window [s] (for flags and the windowed area).
     tolerance : float
         Tolerance of the time to the limit [-], default 0.01.
+    K_low : array_like or sparse, optional
+        Low-order parts of ``K`` (the exact matrix is ``K + K_low``; see
+        :func:`kinetics.ratematrix.rate_matrix_pair`).
 
     Returns
     -------
@@ -2319,7 +2342,7 @@ def summarise(
     ----------
     See the module docstring.
     """
-    return summarise_all(K, c0, species, feed, t_window, tolerance)[0]
+    return summarise_all(K, c0, species, feed, t_window, tolerance, K_low=K_low)[0]
 
 
 def summarise_all(
@@ -2329,6 +2352,8 @@ def summarise_all(
     feed=None,
     t_window: float | None = None,
     tolerance: float = 0.01,
+    *,
+    K_low=None,
 ) -> tuple[dict[str, SpeciesSummary], SchemeSummary]:
     r"""Per-species summaries and the scheme-wide quantities, from one shared scan.
 
@@ -2346,6 +2371,8 @@ def summarise_all(
         End of the chosen time window [s].
     tolerance : float
         Tolerance of the time to the limit [-], default 0.01.
+    K_low : array_like or sparse, optional
+        Low-order parts of ``K`` (see :func:`summarise`).
 
     Returns
     -------
@@ -2366,7 +2393,7 @@ def summarise_all(
     See the module docstring.
     """
     names = list(species)
-    ctx = _Context(K, c0, feed, names=names, t_window=t_window)
+    ctx = _Context(K, c0, feed, names=names, t_window=t_window, K_low=K_low)
     tolerance = _check_fraction(tolerance, "tolerance")
     n = ctx.n
     if len(set(names)) != n:

@@ -354,12 +354,14 @@ def compute_summary(solution: Solution) -> Summary | None:
         return None
     feed = scheme.feed_vector if scheme.feed else None
     window = float(solution.times[-1])
+    K, K_low = scheme.rate_matrix_pair()
     per, whole = summarise_all(
-        scheme.rate_matrix(),
+        K,
         scheme.initial_vector,
         scheme.species_names,
         feed=feed,
         t_window=window,
+        K_low=K_low,
     )
     out = {name: s.to_dict() for name, s in per.items()}
     scheme_wide = whole.to_dict()
