@@ -635,7 +635,7 @@ def _propagate_dense_stack_run(A, Al, x0, times, precision: str, species: int):
             h = times[k] - t_prev
             if h > 0:
                 if h not in cache:
-                    cache[h] = exp_of(h)
+                    cache[h] = exp_of(h, columns=p - start + 1)  # states ahead: all of them
                 Fh, Fl, eps, is_dd = cache[h]
                 vh, vl = _mv(Fh, Fl, vh, vl, is_dd)
                 cur_bound = _compose(cur_bound, _compose(eps, _gamma_stack(N, is_dd)))
@@ -648,7 +648,7 @@ def _propagate_dense_stack_run(A, Al, x0, times, precision: str, species: int):
             t_prev = times[k]
     if residual.any():
         gamma = (N + 2) * _U
-        _kernels.residual_bounds(A, X, residual, species, gamma, TINY, bound)
+        _kernels.residual_corrections(A, X, residual, species, gamma, TINY, bound)
     # the final rounding of hi + lo to double
     bound[:, start:] = _compose(bound[:, start:], _U)
     label = "+".join(sorted(labels)) if labels else precision

@@ -309,7 +309,7 @@ def build_report(
         One complete HTML document.
     """
     from . import __version__
-    from .overview import CAUTION
+    from .overview import CAUTION, certificate_sentence
     from .plotting import concentration_figure, figure_bytes, species_graph_figure
 
     heading = title if title is not None else (scheme.title or scheme.source)
@@ -374,6 +374,9 @@ def build_report(
     parts.append(
         f"<h3>Table ({len(solution.times)} points; exact values, 8 significant digits)</h3>"
     )
+    sentence = certificate_sentence(solution)
+    if sentence is not None:
+        parts.append(f'<p class="certificate">{escape(sentence)}</p>')
     parts.append(_concentration_table(solution, time_unit, species))
     parts.append(
         f"<footer>kinetics {escape(__version__)} · {escape(when)} · input SHA-256 "

@@ -24,6 +24,9 @@ if TYPE_CHECKING:
 
     from .scheme import Scheme
 
+#: relative rounding a unit conversion adds: the factor (a few roundings) and the product
+_CONVERSION_ROUNDING = 4 * 2.0**-53
+
 __all__ = [
     "MAX_VALUES",
     "Solution",
@@ -218,11 +221,15 @@ class Solution:
         factors = output_factors(self.scheme, unit)
         amounts = self.concentrations if self._amounts is None else self._amounts
         label = PERCENT_OF_APPLIED if is_percent_of_applied(unit) else unit.strip()
+        bound = self.error_bound
+        if bound is not None:  # the factor and the product: a few more units of rounding
+            bound = bound + _CONVERSION_ROUNDING * (1 + bound)
         return replace(
             self,
             concentrations=amounts * factors,
             concentration_unit=label,
             unit_factors=factors,
+            error_bound=bound,
             _amounts=amounts,
         )
 

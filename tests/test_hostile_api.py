@@ -73,8 +73,10 @@ def test_stiff_pair_summary_against_bateman(ratio):
     t_max, c_max = _bateman(k1, k2)
     # the exponential itself loses about 1e-32 sigma t in double-double (README): the
     # parent's half-life and settling time are checked to that level, the daughter's
-    # maximum (found in its own short time scale) to 1e-12
-    level = max(1e-10, 1e-30 * ratio)
+    # maximum (found in its own short time scale) to 1e-12.  Measured at ratio 1e25: P at
+    # the settling time (sigma t = 4.6e25) is off by 1.0e-6 relative (certified bound
+    # 3.2e-3), which moves the settling time by 1.05e-5 relative: hence 3e-30, not 1e-30
+    level = max(1e-10, 3e-30 * ratio)
     assert per["D"].t_max == pytest.approx(t_max, rel=1e-12)
     assert per["D"].c_max == pytest.approx(c_max, rel=1e-12)
     assert per["P"].half_life == pytest.approx(math.log(2) / k1, rel=level)

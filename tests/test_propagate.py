@@ -365,3 +365,23 @@ def test_growth_beyond_double_range_is_a_clear_error():
     with pytest.raises(GrowthError, match="beyond the range of double precision"):
         propagate(K, [1.0], [0.0, 2.0])
     np.testing.assert_allclose(propagate(K, [1.0], [0.001])[0], [np.exp(1.0)], rtol=1e-15)
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    st.integers(2, 6),
+    st.integers(2, 400),
+    st.booleans(),
+    st.floats(0.01, 100.0),
+    st.integers(0, 2**32 - 1),
+)
+def test_auto_route_certifies_its_target_on_any_grid(n, points, uniform, until, seed):
+    # precision="auto" may take plain double only where the whole grid stays within
+    # AUTO_RTOL: the reported bound never exceeds it on a moderate scheme (issue 11)
+    from kinetics.propagate import AUTO_RTOL
+
+    rng = np.random.default_rng(seed)
+    K = chain(list(10.0 ** rng.uniform(-2, 1, n - 1)))
+    times = np.linspace(0.0, until, points) if uniform else np.sort(rng.uniform(0, until, points))
+    result = propagate_certified(K, np.eye(n)[0], times)
+    assert result.error_bound.max() <= AUTO_RTOL
