@@ -49,9 +49,7 @@ Matrix Anal. Appl. 30, 1639-1657 (2009).
 
 from __future__ import annotations
 
-import difflib
 import math
-import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field, replace
 from fractions import Fraction
@@ -60,11 +58,14 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from . import parameters
 from .errors import DataError, UsageError
 from .measurements import Measurements, measurements_from_frame, parse_condition, read_measurements
+from .parameters import FIT_WORDS, Target
 from .ratematrix import rate_pattern, step_rates
+from .scheme import arrhenius_pairs
 from .sensitivity import block_sensitivities
-from .units import GAS_CONSTANT, parse_unit, time_factor
+from .units import GAS_CONSTANT, time_factor
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -106,40 +107,8 @@ _EPS = np.finfo(float).eps
 # ---------------------------------------------------------------------------------------
 
 
-@dataclass(frozen=True)
-class Parameter:
-    """A free parameter of a fit.
-
-    Attributes
-    ----------
-    name : str
-        As the user writes it: ``k1`` (a rate constant), ``k3.A`` and ``k3.Ea``
-        (Arrhenius prefactor and activation energy of ``k3``), ``start:A`` (start
-        concentration of ``A``).
-    kind : str
-        ``"constant"``, ``"prefactor"``, ``"energy"`` or ``"start"``.
-    target : str
-        The constant or species it belongs to.
-    unit : str
-        Display unit (the unit the scheme file uses for it).
-    si_per_unit : float
-        SI value of one display unit (1 for start values, which the core keeps in
-        the scheme's concentration unit).
-    """
-
-    name: str
-    kind: str
-    target: str
-    unit: str
-    si_per_unit: float
-
-    @property
-    def log(self) -> bool:
-        """True when the fitted coordinate is the logarithm of the value."""
-        return self.kind != "energy"
-
-
-_ENERGY_TEXT = re.compile(r"^\s*[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?\s*(?P<unit>.*?)\s*$")
+#: A free parameter of a fit: what its name refers to (see :mod:`kinetics.parameters`).
+Parameter = Target
 
 
 def parse_free(free: str | Sequence[str], scheme: Scheme) -> list[Parameter]:
@@ -175,63 +144,7 @@ def parse_free(free: str | Sequence[str], scheme: Scheme) -> list[Parameter]:
             names.append(piece)
     if not names:
         raise UsageError("no free parameter given", "name at least one, e.g. k1 or k1,k2")
-    return [_parameter(name, scheme) for name in names]
-
-
-def _parameter(name: str, scheme: Scheme) -> Parameter:
-    constants = scheme.constants
-    if name.startswith("start:"):
-        species = name[len("start:") :].strip()
-        if species not in scheme.species_names:
-            raise UsageError(
-                f"free parameter {name!r}: {species!r} is not a species of the scheme",
-                _suggest(species, scheme.species_names, "the species are"),
-            )
-        return Parameter(f"start:{species}", "start", species, scheme.concentration_unit, 1.0)
-    base, dot, part = name.partition(".")
-    if dot:
-        if base not in constants:
-            raise UsageError(
-                f"free parameter {name!r}: there is no rate constant {base!r}",
-                _suggest(base, list(constants), "the constants are"),
-            )
-        arr = constants[base].arrhenius
-        if arr is None:
-            raise UsageError(
-                f"free parameter {name!r}: {base} is not an Arrhenius constant",
-                f"free {base} itself, or define it as {base} = arrhenius(A = ..., Ea = ...)",
-            )
-        if part == "A":
-            unit = constants[base].unit
-            return Parameter(name, "prefactor", base, unit, float(parse_unit(unit).factor))
-        if part == "Ea":
-            match = _ENERGY_TEXT.match(arr.energy_text or "")
-            unit = (match["unit"] if match else "") or "J/mol"
-            return Parameter(name, "energy", base, unit, float(parse_unit(unit).factor))
-        raise UsageError(
-            f"free parameter {name!r}: {part!r} is not an Arrhenius parameter",
-            f"write {base}.A or {base}.Ea",
-        )
-    if name not in constants:
-        raise UsageError(
-            f"free parameter {name!r} is not a rate constant of the scheme",
-            _suggest(name, list(constants), "the constants are")
-            + "; start values are written start:SPECIES",
-        )
-    if constants[name].arrhenius is not None:
-        raise UsageError(
-            f"free parameter {name!r} follows the Arrhenius law",
-            f"free its parameters instead: {name}.A and {name}.Ea",
-        )
-    unit = constants[name].unit
-    return Parameter(name, "constant", name, unit, float(parse_unit(unit).factor))
-
-
-def _suggest(name: str, candidates, listing: str) -> str:
-    folded = [c for c in candidates if c.lower() == name.lower()]
-    close = folded or difflib.get_close_matches(name, list(candidates), n=1)
-    text = f"{listing} " + ", ".join(candidates)
-    return f"did you mean {close[0]!r}? ({text})" if close else text
+    return [parameters.resolve(scheme, name, FIT_WORDS) for name in names]
 
 
 # ---------------------------------------------------------------------------------------
@@ -324,10 +237,14 @@ class _Model:
                 c0[i] = si[j]
                 dc0[j, i] = si[j]  # d c0 / d ln c0
         for c, parts in arrhenius.items():
-            arr = self.scheme.constants[self.const_names[c]].arrhenius
-            a = si[parts["prefactor"]] if "prefactor" in parts else float(arr.prefactor_si)
-            ea = si[parts["energy"]] if "energy" in parts else arr.activation_energy
-            k[c] = a * math.exp(-ea / (GAS_CONSTANT * run.temperature))  # Arrhenius equation
+            law = self.scheme.constants[self.const_names[c]].arrhenius
+            hi, _ = arrhenius_pairs(  # the one Arrhenius law, exact for the values given
+                law,
+                run.temperature,
+                prefactor=si[parts["prefactor"]] if "prefactor" in parts else None,
+                energy=si[parts["energy"]] if "energy" in parts else None,
+            )
+            k[c] = float(hi)
             if "prefactor" in parts:
                 dk[parts["prefactor"], c] = k[c]
             if "energy" in parts:

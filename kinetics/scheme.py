@@ -19,14 +19,22 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field, replace
 from fractions import Fraction
-from functools import cached_property
+from functools import cached_property, lru_cache
 
 import numpy as np
 
 from .errors import UsageError, shown_value
 from .units import GAS_CONSTANT_EXACT
 
-__all__ = ["Arrhenius", "RateConstant", "Reaction", "Scheme", "Species", "Step"]
+__all__ = [
+    "Arrhenius",
+    "RateConstant",
+    "Reaction",
+    "Scheme",
+    "Species",
+    "Step",
+    "arrhenius_pairs",
+]
 
 
 @dataclass(frozen=True, slots=True)
@@ -123,6 +131,95 @@ class Arrhenius:
             raise UsageError(f"temperature {shown_value(temperature)} K must be above 0 K")
         exponent = -Fraction(self.activation_energy) / (GAS_CONSTANT_EXACT * Fraction(temperature))
         return self.prefactor_si * dd.decimal_exp(exponent)
+
+
+#: distinct (Arrhenius, A, Ea, T) evaluations kept by :func:`arrhenius_pairs`
+ARRHENIUS_CACHE = 4096
+
+
+@lru_cache(maxsize=ARRHENIUS_CACHE)
+def _exact_pair(arrhenius: Arrhenius, a_hi, a_lo, energy, temperature) -> tuple[float, float]:
+    """One exact evaluation, rounded to a double-double pair (``None``: the law's own value)."""
+    from . import _doubledouble as dd
+
+    law = arrhenius
+    if a_hi is not None or energy is not None:
+        law = replace(
+            arrhenius,
+            prefactor_si=arrhenius.prefactor_si
+            if a_hi is None
+            else Fraction(a_hi) + Fraction(a_lo),
+            activation_energy=arrhenius.activation_energy if energy is None else energy,
+        )
+    return dd.pair(law.exact(temperature))
+
+
+def arrhenius_pairs(
+    arrhenius: Arrhenius, temperature, prefactor=None, prefactor_low=None, energy=None
+) -> tuple[np.ndarray, np.ndarray]:
+    r"""Arrhenius constants for arrays of temperatures and parameters, as double-double pairs.
+
+    .. math:: k(T) = A \exp\left(-\frac{E_a}{R T}\right)
+
+    Every value goes through :meth:`Arrhenius.exact` (40 significant digits, exact R),
+    once per distinct ``(A, Ea, T)``: a temperature grid costs one exact evaluation per
+    temperature, and repeated values (the rows of a sweep grid, the evaluations of a
+    fit) are taken from a cache of :data:`ARRHENIUS_CACHE` entries.
+
+    Parameters
+    ----------
+    arrhenius : Arrhenius
+        The law; its own ``A`` (exact) and ``Ea`` where ``prefactor``/``energy`` are None.
+    temperature : float or array_like
+        Thermodynamic temperatures [K], above 0.
+    prefactor, prefactor_low : float or array_like, optional
+        Pre-exponential factors as double-double pairs [SI base units, 1/s for first
+        order] (``prefactor_low`` zero when not given).
+    energy : float or array_like, optional
+        Activation energies [J/mol] (the doubles given, as :meth:`Arrhenius.exact` takes
+        them).
+
+    Returns
+    -------
+    (numpy.ndarray, numpy.ndarray)
+        ``hi`` and ``lo`` of the broadcast shape; ``hi + lo`` is the exact constant to
+        about :math:`2^{-106}` relative (``(inf, 0)`` beyond the double range).
+
+    Raises
+    ------
+    UsageError
+        For a temperature that is not above 0 K.
+
+    References
+    ----------
+    S. Arrhenius, Z. Phys. Chem. 4, 226 (1889).
+
+    Examples
+    --------
+    The ratio of k at 35 and 25 degC for Ea = 83.144 kJ/mol is
+    :math:`\exp(E_a/R\,(1/T_1 - 1/T_2)) \approx 2.97` (Arrhenius equation):
+
+    >>> law = Arrhenius(Fraction(10**12), 83144.0)
+    >>> hi, lo = arrhenius_pairs(law, [298.15, 308.15])
+    >>> round(float(hi[1] / hi[0]), 2)
+    2.97
+    """
+    columns = [np.asarray(temperature, dtype=float)]
+    if prefactor is not None:
+        low = 0.0 if prefactor_low is None else prefactor_low
+        columns += [np.asarray(prefactor, dtype=float), np.asarray(low, dtype=float)]
+    if energy is not None:
+        columns.append(np.asarray(energy, dtype=float))
+    shape = np.broadcast_shapes(*(x.shape for x in columns))
+    rows = np.stack([np.broadcast_to(x, shape).reshape(-1) for x in columns], axis=1)
+    distinct, inverse = np.unique(rows, axis=0, return_inverse=True)
+    values = np.empty((distinct.shape[0], 2))
+    for i, row in enumerate(distinct.tolist()):
+        ah, alo = (row[1], row[2]) if prefactor is not None else (None, None)
+        e = row[-1] if energy is not None else None
+        values[i] = _exact_pair(arrhenius, ah, alo, e, row[0])
+    out = values[inverse.reshape(-1)]
+    return out[:, 0].reshape(shape), out[:, 1].reshape(shape)
 
 
 @dataclass(frozen=True, slots=True)
@@ -318,6 +415,17 @@ class Scheme:
     warnings: tuple[str, ...] = ()
     _excess_si: dict[str, Fraction] = field(default_factory=dict, repr=False)
     _unit_factor: Fraction = field(default=Fraction(1), repr=False)
+
+    # -- exact values --------------------------------------------------------
+    @property
+    def excess_si(self) -> dict[str, Fraction]:
+        """Excess concentrations as exact SI values [mol/m^3] (a copy)."""
+        return dict(self._excess_si)
+
+    @property
+    def concentration_si(self) -> Fraction:
+        """The SI value of one :attr:`concentration_unit` [mol/m^3], exact."""
+        return self._unit_factor
 
     # -- names and vectors -------------------------------------------------
     @property

@@ -71,7 +71,6 @@ J. Aitchison, J. A. C. Brown, "The Lognormal Distribution", Cambridge University
 
 from __future__ import annotations
 
-import difflib
 import hashlib
 import json
 import math
@@ -83,8 +82,11 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from . import _doubledouble as dd
+from . import parameters
 from .errors import ArgumentTypeError, GrowthError, UsageError, type_name
-from .units import GAS_CONSTANT, convert, parse_unit, temperature_to_kelvin
+from .parameters import NUMBER, SweepWords, Target
+from .units import parse_unit
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -128,8 +130,7 @@ MAX_MEMORY_VALUES = 100_000_000
 DEFAULT_CHUNK = 1000
 _VERSION = 1  # of the chunk layout and the definition hash
 
-_NUMBER = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
-_NUMBER_RE = re.compile(rf"^\s*{_NUMBER}\s*$")
+_NUMBER_RE = re.compile(rf"^\s*{NUMBER}\s*$")
 _VARY_HELP = (
     "write NAME=LO:HI:N[:log][:UNIT] or NAME=V1,V2,V3[:UNIT], e.g. k2=0.01:1:25:log, "
     "temperature=20:80:13:degC, k3.Ea=80:100:5:kJ/mol, start:A=0.1,0.2,0.5"
@@ -143,174 +144,6 @@ _SPREAD_HELP = (
     "absolute standard deviation for temperature and Ea, e.g. k1=15%, temperature=2K, "
     "k3.Ea=2kJ/mol"
 )
-_ENERGY_DIMS = {"[mass]": 1, "[length]": 2, "[time]": -2, "[substance]": -1}
-
-
-# ---------------------------------------------------------------------------------------
-# Parameters: what a name refers to
-# ---------------------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class _Target:
-    """What a parameter name refers to, with the unit the file uses for it."""
-
-    name: str  # as typed, canonical: "k2", "k3.A", "k3.Ea", "temperature", "start:A"
-    kind: str  # constant | prefactor | energy | temperature | start | excess
-    target: str  # constant or species name ("" for temperature)
-    unit: str  # the file's unit for it
-    nominal: float  # the file's value in internal units (see _to_internal)
-    label: str  # column name stem
-
-
-def _file_temperature_unit(scheme: Scheme) -> str:
-    """The unit written on the ``temperature`` line of the scheme (``K`` if none)."""
-    for raw in scheme.text.splitlines():
-        code = raw.split("#", 1)[0]
-        m = re.match(rf"^\s*temperature\s*=\s*({_NUMBER})\s*(?P<unit>.*?)\s*$", code)
-        if m:
-            return m["unit"] or "K"
-    return "K"
-
-
-def _energy_unit(text: str) -> str:
-    m = re.match(rf"^\s*{_NUMBER}\s*(?P<unit>.*?)\s*$", text)
-    return m["unit"] if m and m["unit"] else "J/mol"
-
-
-def _suggest(name: str, known: Iterable[str]) -> str:
-    close = difflib.get_close_matches(name, list(known), n=1)
-    return f"did you mean {close[0]!r}? " if close else ""
-
-
-def _resolve(scheme: Scheme, name: str, where: str) -> _Target:
-    """Map a parameter name to what it changes in the scheme, or raise UsageError.
-
-    ``where`` names the place of the name in messages (``--vary 'k2=...'``, ``grid['k2']``).
-    """
-    name = name.strip()
-    constants = scheme.constants
-    arrhenius = [c for c, d in constants.items() if d.arrhenius is not None]
-    if name in ("temperature", "T"):
-        if not arrhenius:
-            raise UsageError(
-                f"{where}: the scheme has no Arrhenius constant, so the temperature changes "
-                "nothing",
-                "define a constant as k = arrhenius(A = ..., Ea = ...) to sweep temperatures",
-            )
-        unit = _file_temperature_unit(scheme)
-        return _Target("temperature", "temperature", "", unit, scheme.temperature, "temperature")
-    m = re.match(r"^(start|excess)\s*[:\s]\s*(?P<species>\S+)$", name)
-    if m:
-        kind, species = m[1], m["species"]
-        known = scheme.species_names if kind == "start" else [s.name for s in scheme.excess_species]
-        if species not in known:
-            if kind == "start" and species in scheme.excess:
-                hint = f"{species} is held in excess: vary excess:{species}"
-            elif kind == "excess" and not known:
-                hint = "the scheme declares no species in excess"
-            else:
-                hint = _suggest(species, known) + "the species are " + ", ".join(known)
-            what = "a species of the scheme" if kind == "start" else "a species held in excess"
-            raise UsageError(f"{where}: {species!r} is not {what}", hint)
-        table = scheme.initial if kind == "start" else scheme.excess
-        return _Target(
-            f"{kind}:{species}",
-            kind,
-            species,
-            scheme.concentration_unit,
-            float(table.get(species, 0.0)),
-            f"{kind} {species}",
-        )
-    m = re.match(r"^(?P<constant>[^\W\d_][\w']*)\.(?P<part>A|Ea)$", name)
-    if m:
-        c, part = m["constant"], m["part"]
-        if c not in constants:
-            raise UsageError(
-                f"{where}: the scheme has no rate constant {c!r}",
-                _suggest(c, constants) + "the constants are " + ", ".join(constants),
-            )
-        d = constants[c]
-        if d.arrhenius is None:
-            raise UsageError(
-                f"{where}: {c} is given as a number, not by the Arrhenius law, so it has no {part}",
-                f"vary {c} itself, e.g. {c}=0.1:1:10:log",
-            )
-        if part == "A":
-            return _Target(
-                f"{c}.A", "prefactor", c, d.unit, float(d.arrhenius.prefactor_si), f"{c}.A"
-            )
-        unit = _energy_unit(d.arrhenius.energy_text)
-        return _Target(
-            f"{c}.Ea", "energy", c, unit, float(d.arrhenius.activation_energy), f"{c}.Ea"
-        )
-    if name in constants:
-        d = constants[name]
-        if d.arrhenius is not None:
-            raise UsageError(
-                f"{where}: {name} follows the Arrhenius law",
-                f"vary {name}.A, {name}.Ea or temperature instead",
-            )
-        return _Target(name, "constant", name, d.unit, float(d.value_si), name)
-    known = [*constants, "temperature", "start:<species>", "excess:<species>"]
-    raise UsageError(
-        f"{where}: {name!r} is not a rate constant or parameter of the scheme",
-        _suggest(name, constants) + "parameters are " + ", ".join(known),
-    )
-
-
-def _check_unit(target: _Target, unit: str, where: str, hint: str = _VARY_HELP) -> None:
-    """The unit must have the dimension of the file's unit for that quantity."""
-    try:
-        spec = parse_unit(unit)
-    except ValueError:
-        raise UsageError(f"{where}: {unit!r} is not a unit", hint) from None
-    if target.kind == "temperature":
-        if spec.dims != {"[temperature]": 1}:
-            raise UsageError(f"{where}: {unit!r} is not a temperature unit", "use K or degC")
-        return
-    if target.kind == "energy":
-        if spec.dims != _ENERGY_DIMS:
-            raise UsageError(
-                f"{where}: {unit!r} is not a molar energy", "write Ea in kJ/mol or J/mol"
-            )
-        return
-    ref = parse_unit(target.unit)
-    if spec.dimensions != ref.dimensions:
-        raise UsageError(
-            f"{where}: {unit!r} does not have the dimension of {target.unit!r}, the unit of "
-            f"{target.name} in the file",
-            f"write the values in {target.unit} or leave out the unit",
-        )
-
-
-def _to_internal(target: _Target, values: np.ndarray, unit: str) -> np.ndarray:
-    """Values in ``unit`` -> internal units.
-
-    Constants and prefactors: SI base units (1/s for first order); energies: J/mol;
-    temperatures: K; start and excess values: the scheme's concentration unit.  Each
-    conversion rounds once (exact rational factors).
-    """
-    if target.kind == "temperature":
-        return np.array([temperature_to_kelvin(float(v), unit) for v in values])
-    if target.kind in ("start", "excess"):
-        return np.array([convert(float(v), unit, target.unit) for v in values])
-    factor = parse_unit(unit).factor
-    return np.array([float(Fraction(float(v)) * factor) for v in values])
-
-
-def _check_values(
-    target: _Target, internal: np.ndarray, where: str, hint: str = _VARY_HELP
-) -> None:
-    if not np.all(np.isfinite(internal)):
-        raise UsageError(f"{where}: a value is not a finite number", hint)
-    if target.kind == "temperature" and np.any(internal <= 0):
-        raise UsageError(f"{where}: a temperature is at or below absolute zero", "check the unit")
-    if target.kind in ("constant", "prefactor", "start", "excess") and np.any(internal < 0):
-        what = {"start": "a start concentration", "excess": "an excess concentration"}.get(
-            target.kind, "a rate constant"
-        )
-        raise UsageError(f"{where}: {what} is negative", "give values >= 0")
 
 
 # ---------------------------------------------------------------------------------------
@@ -342,6 +175,10 @@ class Parameter:
         ``lin``, ``log`` or ``list``.
     column : str
         Column name of the result table, e.g. ``k2 [1/min]``.
+    internal_low : numpy.ndarray or None
+        The exact rest of each internal value (``internal + internal_low`` is the exact
+        conversion of what was written, see :func:`kinetics.parameters.to_internal`);
+        None: zero.
     """
 
     name: str
@@ -352,6 +189,7 @@ class Parameter:
     internal: np.ndarray
     spacing: str
     column: str
+    internal_low: np.ndarray | None = None
 
     def describe(self) -> dict[str, Any]:
         """JSON-ready definition (used in the definition hash and the manifest)."""
@@ -416,7 +254,7 @@ def _parse_vary(scheme: Scheme, spec: str, where: str, help_: str) -> Parameter:
     body = body.strip()
     if not name.strip() or not body:
         raise UsageError(f"{where} needs a name and values", help_)
-    target = _resolve(scheme, name, where)
+    target = parameters.resolve(scheme, name, SweepWords(where))
     texts = None
     fields = [f.strip() for f in body.split(":")]
     unit = ""
@@ -491,13 +329,13 @@ def _check_range(values: np.ndarray, texts: list[str], where: str) -> None:
 
 
 def _parameter(
-    target: _Target, values, unit: str, spacing: str, where: str, help_: str, texts=None
+    target: Target, values, unit: str, spacing: str, where: str, help_: str, texts=None
 ) -> Parameter:
     """A grid axis from values in ``unit`` (checked and converted to internal units)."""
     _check_range(values, texts or [repr(float(v)) for v in values], where)
-    _check_unit(target, unit, where, help_)
-    internal = _to_internal(target, values, unit)
-    _check_values(target, internal, where, help_)
+    parameters.check_unit(target, unit, where, help_)
+    internal, low = parameters.to_internal(target, values, unit, texts)
+    parameters.check_values(target, internal, where, help_)
     return Parameter(
         target.name,
         target.kind,
@@ -507,6 +345,7 @@ def _parameter(
         internal,
         spacing,
         f"{target.label} [{unit}]",
+        low,
     )
 
 
@@ -519,7 +358,7 @@ def _grid_axis(scheme: Scheme, name, value) -> Parameter:
     if isinstance(value, str):
         return _parse_vary(scheme, f"{name}={value}", f"grid[{name!r}] = {value!r}", _GRID_HELP)
     where = f"grid[{name!r}]"
-    target = _resolve(scheme, name, where)
+    target = parameters.resolve(scheme, name, SweepWords(where))
     if value is None or isinstance(value, Mapping | bytes):
         raise ArgumentTypeError(
             f"{where} must be a list of numbers, not {type_name(value)}", _GRID_HELP
@@ -586,6 +425,10 @@ class Spread:
     column: str
     text: str
 
+    def as_target(self) -> Target:
+        """What the spread varies (name, kind, target and the file's unit)."""
+        return Target(self.name, self.kind, self.target, self.unit)
+
     def describe(self) -> dict[str, Any]:
         return {
             "name": self.name,
@@ -639,10 +482,10 @@ def _parse_spread(scheme: Scheme, spec: str, where: str) -> Spread:
     body = body.strip()
     if not name.strip() or not body:
         raise UsageError(f"{where} needs a name and a spread", _SPREAD_HELP)
-    target = _resolve(scheme, name, where)
+    target = parameters.resolve(scheme, name, SweepWords(where))
     normal = target.kind in ("temperature", "energy")
     column = f"{target.label} [{target.unit}]"
-    m = re.match(rf"^({_NUMBER})\s*%$", body)
+    m = re.match(rf"^({NUMBER})\s*%$", body)
     if m:
         pct = float(m[1])
         if not (math.isfinite(pct) and pct > 0):
@@ -680,7 +523,7 @@ def _parse_spread(scheme: Scheme, spec: str, where: str) -> Spread:
             f"{where}: the spread of {target.name} must be a percentage (lognormal)",
             f"write e.g. {target.name}=15%",
         )
-    m = re.match(rf"^({_NUMBER})\s*(?P<unit>.*?)\s*$", body)
+    m = re.match(rf"^({NUMBER})\s*(?P<unit>.*?)\s*$", body)
     if not m:
         raise UsageError(f"{where}: {body!r} is not a number with a unit", _SPREAD_HELP)
     value = float(m[1])
@@ -706,7 +549,7 @@ def _parse_spread(scheme: Scheme, spec: str, where: str) -> Spread:
                 "it would give temperatures near or below 0 K",
             )
     else:
-        _check_unit(target, unit, where)
+        parameters.check_unit(target, unit, where, _VARY_HELP)
         sigma = float(Fraction(value) * parse_unit(unit).factor)
     return Spread(
         target.name,
@@ -883,7 +726,29 @@ class SweepPlan:
         text = json.dumps(self.definition(curves), sort_keys=True)
         return hashlib.sha256(text.encode()).hexdigest()
 
+    def cached(self, key: str, make: Callable[[], Any]) -> Any:
+        """A value derived from the plan alone, computed once per plan (and process)."""
+        if key not in self._cache:
+            self._cache[key] = make()
+        return self._cache[key]
+
     # -- parameter values of a range of sets -------------------------------------------
+    def internal_low(self, start: int, stop: int) -> np.ndarray:
+        """Exact low parts of the internal values of sets ``start .. stop-1`` (b, p + s).
+
+        Grid axes carry the rest of their exact conversion; sampled values are the
+        doubles drawn, with no rest.
+        """
+        idx = np.arange(start, stop, dtype=np.int64)
+        grid = idx // self.samples if self.samples else idx
+        out = np.zeros((idx.size, len(self.parameters) + len(self.spreads)))
+        if self.parameters:
+            pos = np.unravel_index(grid, self.grid_shape)
+            for j, p in enumerate(self.parameters):
+                if p.internal_low is not None:
+                    out[:, j] = p.internal_low[pos[j]]
+        return out
+
     def set_values(self, start: int, stop: int) -> tuple[np.ndarray, np.ndarray]:
         """Parameter values of sets ``start .. stop-1``.
 
@@ -921,22 +786,8 @@ class SweepPlan:
                 else:
                     x = s.nominal + s.sigma * z[:, k]
                 internal[:, j] = x
-                display[:, j] = _from_internal(self.scheme, s, x)
+                display[:, j] = parameters.from_internal(s.as_target(), x, s.unit)
         return display, internal
-
-
-def _from_internal(scheme: Scheme, s: Spread, x: np.ndarray) -> np.ndarray:
-    """Internal values -> the file's unit (for the sampled-parameter columns)."""
-    if s.kind in ("start", "excess"):
-        return x
-    if s.kind == "temperature":
-        unit = s.unit
-        if unit in ("K", "kelvin"):
-            return x
-        offset = temperature_to_kelvin(0.0, unit)
-        scale = temperature_to_kelvin(1.0, unit) - offset
-        return (x - offset) / scale
-    return x / float(parse_unit(s.unit).factor)
 
 
 def _summary_columns(scheme: Scheme, parameters, spreads, time_unit: str) -> tuple[Column, ...]:
@@ -1202,59 +1053,134 @@ def _check_sets(plan: SweepPlan, block: int = 100_000) -> None:
 # ---------------------------------------------------------------------------------------
 
 
-def _inputs(plan: SweepPlan, internal: np.ndarray):
-    """Step rates (b, n_steps) [1/s], start (b, n) [conc] and feed (n,) [conc/s] or None.
+class _SetValues:
+    """The varied values of a range of sets, by parameter name, as pairs ``(hi, lo)``."""
 
-    .. math:: k_\\mathrm{eff} = k \\prod_j [W_j]^{\\nu_j}, \\qquad
-              k = A \\exp(-E_a/(R T)) \\text{ for Arrhenius constants}
+    def __init__(self, plan: SweepPlan, internal: np.ndarray, low: np.ndarray) -> None:
+        named = [*plan.parameters, *plan.spreads]
+        self.columns = {p.name: j for j, p in enumerate(named)}
+        self.internal = internal
+        self.low = low
+
+    def get(self, name: str):
+        j = self.columns.get(name)
+        return None if j is None else (self.internal[:, j], self.low[:, j])
+
+
+def _constant_pairs(plan: SweepPlan, name: str, varied: _SetValues):
+    """Values of constant ``name`` [SI] for the sets, as pairs; None when no set changes it.
+
+    .. math:: k = A \\exp(-E_a/(R T)) \\text{ for Arrhenius constants}
+    """
+    from .scheme import arrhenius_pairs
+
+    scheme = plan.scheme
+    law = scheme.constants[name].arrhenius
+    if law is None:
+        return varied.get(name)
+    a, ea, t = varied.get(f"{name}.A"), varied.get(f"{name}.Ea"), varied.get("temperature")
+    if a is None and ea is None and t is None:
+        return None
+    return arrhenius_pairs(  # the one Arrhenius law (exact, cached per distinct value)
+        law,
+        scheme.temperature if t is None else t[0],
+        prefactor=None if a is None else a[0],
+        prefactor_low=None if a is None else a[1],
+        energy=None if ea is None else ea[0],
+    )
+
+
+def _excess_power(w, nu):
+    """:math:`W^\\nu` for excess concentrations ``w`` [SI] given as pairs ``(hi, lo)``.
+
+    Integer powers by double-double products; others exactly to 40 digits
+    (:func:`kinetics._doubledouble.decimal_power`), once per distinct value.
+    """
+    wh, wl = w
+    nu = Fraction(nu)
+    if nu.denominator == 1 and 0 <= nu <= 64:
+        ph, pl = np.ones(wh.shape), np.zeros(wh.shape)
+        for _ in range(int(nu)):
+            ph, pl = dd.product(ph, pl, wh, wl)
+        return ph, pl
+    rows, inverse = np.unique(np.stack([wh, wl], axis=1), axis=0, return_inverse=True)
+    exact = [dd.pair(dd.decimal_power(Fraction(h) + Fraction(lo), nu)) for h, lo in rows.tolist()]
+    out = np.array(exact)[inverse.reshape(-1)]
+    return out[:, 0], out[:, 1]
+
+
+def _step_rate(plan: SweepPlan, s: int, k, varied: _SetValues, b: int):
+    """Effective rate pairs of step ``s`` for the sets (None: the file's own, unchanged).
+
+    .. math:: k_\\mathrm{eff} = k \\prod_j [W_j]^{\\nu_j}
+    """
+    scheme = plan.scheme
+    step = scheme.steps[s]
+    excess = [(nu, w, varied.get(f"excess:{w}")) for nu, w in step.co_reactants]
+    if k is None and all(v is None for *_, v in excess):
+        return None
+    if k is None:
+        d = scheme.constants[step.constant]
+        k = dd.pair(d.value_si if d.arrhenius is None else d.arrhenius.exact(scheme.temperature))
+    kh = np.broadcast_to(np.asarray(k[0], dtype=float), (b,))
+    kl = np.broadcast_to(np.asarray(k[1], dtype=float), (b,))
+    if not step.co_reactants:
+        return kh, kl
+    if all(v is None for *_, v in excess):
+        # the file's excess concentrations: their exact factor, rounded once
+        fh, fl = plan.cached("excess factors", lambda: _fixed_excess_factors(scheme))
+        return dd.product(kh, kl, np.full(b, fh[s]), np.full(b, fl[s]))
+    unit = [np.full(b, x) for x in dd.pair(scheme.concentration_si)]
+    for nu, w, v in excess:
+        if v is None:  # the file's value, exact in SI
+            w_si = tuple(np.full(b, x) for x in dd.pair(scheme.excess_si[w]))
+        else:  # varied in the scheme's unit: times the exact SI value of that unit
+            w_si = dd.product(v[0], v[1], *unit)
+        kh, kl = dd.product(kh, kl, *_excess_power(w_si, nu))
+    return kh, kl
+
+
+def _fixed_excess_factors(scheme: Scheme):
+    """The exact excess factor of every step (its constant set to 1), as pairs."""
+    from .ratematrix import step_rate_pairs
+
+    return step_rate_pairs(scheme, constants=dict.fromkeys(scheme.constants, 1.0))
+
+
+def _input_pairs(plan: SweepPlan, internal: np.ndarray, low: np.ndarray):
+    """Step rates as pairs ``(hi, lo)`` (b, n_steps) [1/s], start (b, n) [conc], feed (n,).
+
+    Steps that no parameter changes keep :attr:`kinetics.scheme.Scheme.rate_pairs` bit for
+    bit; changed ones are formed from the exact values (constants as written, Arrhenius
+    constants through :func:`kinetics.scheme.arrhenius_pairs`, excess factors exactly).
     """
     scheme = plan.scheme
     b = internal.shape[0]
-    named = list(plan.parameters) + list(plan.spreads)
-    col = {p.name: j for j, p in enumerate(named)}
-
-    def value(name: str):
-        j = col.get(name)
-        return None if j is None else internal[:, j]
-
-    temperature = value("temperature")
-    base = np.asarray(scheme.rates, dtype=float)
-    rates = np.broadcast_to(base, (b, base.size)).copy()
+    varied = _SetValues(plan, internal, low)
+    base_hi, base_lo = scheme.rate_pairs
+    hi = np.broadcast_to(base_hi, (b, base_hi.size)).copy()
+    lo = np.broadcast_to(base_lo, (b, base_lo.size)).copy()
+    constants = {c: _constant_pairs(plan, c, varied) for c in scheme.constants}
     for s, step in enumerate(scheme.steps):
-        c = step.constant
-        d = scheme.constants[c]
-        k = None
-        if d.arrhenius is not None:
-            a, ea = value(f"{c}.A"), value(f"{c}.Ea")
-            if a is not None or ea is not None or temperature is not None:
-                a = float(d.arrhenius.prefactor_si) if a is None else a
-                ea = d.arrhenius.activation_energy if ea is None else ea
-                tk = scheme.temperature if temperature is None else temperature
-                k = a * np.exp(-ea / (GAS_CONSTANT * tk))  # Arrhenius equation
-        else:
-            k = value(c)
-        varied_excess = [value(f"excess:{w}") is not None for _, w in step.co_reactants]
-        if k is None and not any(varied_excess):
-            continue  # the file's own rate, bit for bit
-        if k is None:
-            k = scheme.constants[c].si_value(scheme.temperature)
-        factor = np.ones(b)
-        for nu, w in step.co_reactants:
-            wv = value(f"excess:{w}")
-            if wv is None:
-                fnu = Fraction(nu)
-                w_si = scheme._excess_si[w]
-                fixed = float(w_si ** int(fnu)) if fnu.denominator == 1 else float(w_si) ** nu
-                factor = factor * fixed
-            else:
-                factor = factor * (wv * float(scheme._unit_factor)) ** float(nu)
-        rates[:, s] = k * factor if step.co_reactants else k
+        rate = _step_rate(plan, s, constants[step.constant], varied, b)
+        if rate is not None:
+            hi[:, s], lo[:, s] = rate
     c0 = np.broadcast_to(scheme.initial_vector, (b, len(scheme.species))).copy()
-    for p in named:
+    for p in [*plan.parameters, *plan.spreads]:
         if p.kind == "start":
-            c0[:, scheme.index[p.target]] = internal[:, col[p.name]]
+            c0[:, scheme.index[p.target]] = varied.get(p.name)[0]
     feed = scheme.feed_vector if scheme.feed else None
-    return rates, c0, feed
+    return hi, lo, c0, feed
+
+
+def _inputs(plan: SweepPlan, internal: np.ndarray):
+    """Step rates (b, n_steps) [1/s], start (b, n) [conc] and feed (n,) [conc/s] or None.
+
+    The high parts of :func:`_input_pairs` for values without low parts (checks of the
+    working range, references in tests and benchmarks).
+    """
+    hi, _, c0, feed = _input_pairs(plan, internal, np.zeros_like(internal))
+    return hi, c0, feed
 
 
 def set_inputs(plan: SweepPlan, i: int) -> dict[str, Any]:
@@ -1270,30 +1196,27 @@ def set_inputs(plan: SweepPlan, i: int) -> dict[str, Any]:
     if not 0 <= i < plan.n_sets:
         raise UsageError(f"set {i} does not exist", f"sets are 0 .. {plan.n_sets - 1}")
     _, internal = plan.set_values(i, i + 1)
-    row = internal[0]
-    named = list(plan.parameters) + list(plan.spreads)
-    scheme = plan.scheme
+    varied = _SetValues(plan, internal, plan.internal_low(i, i + 1))
     out: dict[str, Any] = {"constants": {}, "temperature": None, "initial": {}, "excess": {}}
-    by = {p.name: float(row[j]) for j, p in enumerate(named)}
-    if "temperature" in by:
-        out["temperature"] = by["temperature"]
-    for c, d in scheme.constants.items():
-        if d.arrhenius is not None:
-            a, ea = by.get(f"{c}.A"), by.get(f"{c}.Ea")
-            if a is None and ea is None and "temperature" not in by:
-                continue
-            a = float(d.arrhenius.prefactor_si) if a is None else a
-            ea = d.arrhenius.activation_energy if ea is None else ea
-            t = by.get("temperature", scheme.temperature)
-            out["constants"][c] = a * math.exp(-ea / (GAS_CONSTANT * t))  # Arrhenius equation
-        elif c in by:
-            out["constants"][c] = by[c]
-    for p in named:
-        if p.kind == "start":
-            out["initial"][p.target] = by[p.name]
-        elif p.kind == "excess":
-            out["excess"][p.target] = by[p.name]
+    if varied.get("temperature") is not None:
+        out["temperature"] = float(varied.get("temperature")[0][0])
+    for c in plan.scheme.constants:
+        k = _constant_pairs(plan, c, varied)
+        if k is not None:
+            out["constants"][c] = float(np.asarray(k[0]).reshape(-1)[0])
+    for p in [*plan.parameters, *plan.spreads]:
+        if p.kind in ("start", "excess"):
+            out["initial" if p.kind == "start" else "excess"][p.target] = float(
+                varied.get(p.name)[0][0]
+            )
     return out
+
+
+def _pattern(plan: SweepPlan):
+    """The scheme's :class:`kinetics.ratematrix.RatePattern` (once per plan)."""
+    from .ratematrix import rate_pattern
+
+    return plan.cached("pattern", lambda: rate_pattern(plan.scheme))
 
 
 def _dense_batch(plan: SweepPlan, rates: np.ndarray) -> np.ndarray:
@@ -1302,12 +1225,7 @@ def _dense_batch(plan: SweepPlan, rates: np.ndarray) -> np.ndarray:
     Entries are accumulated in the order of :class:`kinetics.ratematrix.RatePattern`, so a
     member equals ``rate_pattern(scheme).dense(rates[i])`` bit for bit.
     """
-    pattern = plan._cache.get("pattern")
-    if pattern is None:
-        from .ratematrix import rate_pattern
-
-        pattern = rate_pattern(plan.scheme)
-        plan._cache["pattern"] = pattern
+    pattern = _pattern(plan)
     n = pattern.n
     b = rates.shape[0]
     flat = np.zeros((b, n * n))
@@ -1419,7 +1337,7 @@ def chunk_result(
     are split into chunks or which machine runs them.
     """
     display, internal = plan.set_values(start, stop)
-    rates, c0, feed = _inputs(plan, internal)
+    rates, _, c0, feed = _input_pairs(plan, internal, plan.internal_low(start, stop))
     K = _dense_batch(plan, rates)
     if plan.summary_method == "reference":
         q = _reference_summaries(plan, K, c0, feed)
