@@ -30,7 +30,7 @@ from scipy.integrate import solve_ivp
 
 import kinetics
 from kinetics.analysis import summarise
-from kinetics.sweep import _dense_batch, _inputs, chunk_result, make_plan, run_chunks
+from kinetics.sweep import chunk_result, make_plan, run_chunks, set_matrices
 
 SCHEME = """\
 title: benchmark network, ten species, branched, reversible end pair (invented)
@@ -78,9 +78,8 @@ def baseline(plan, count: int, repeat: int = 3) -> tuple[float, np.ndarray, np.n
     runs, so both are taken at their minimum, as timeit recommends).
     """
     idx = np.linspace(0, plan.n_sets - 1, count).astype(int)
-    _, internal = plan.set_values(0, plan.n_sets)
-    rates, c0, _ = _inputs(plan, internal[idx])
-    K = _dense_batch(plan, rates)
+    K, _, c0, _ = set_matrices(plan, 0, plan.n_sets)
+    K, c0 = K[idx], c0[idx]
     out = np.empty((count, plan.times.size, K.shape[1]))
     return min(_lsoda_pass(plan, K, c0, out) for _ in range(repeat)) / count, idx, out
 
@@ -108,13 +107,13 @@ def check(plan, parts, idx, ivp) -> tuple[float, float]:
     """Largest relative differences: summaries vs analysis.summarise, curves vs LSODA."""
     summary = np.concatenate([p.summary for p in parts])
     curves = np.concatenate([p.curves for p in parts])
-    _, internal = plan.set_values(0, plan.n_sets)
     names = plan.scheme.species_names
     worst_summary = 0.0
     for i in idx[:10]:
-        rates, c0, feed = _inputs(plan, internal[i : i + 1])
-        K = _dense_batch(plan, rates)[0]
-        ref = summarise(K, c0[0], names, feed=feed, t_window=float(plan.times[-1]))
+        K, K_low, c0, feed = set_matrices(plan, i, i + 1)
+        ref = summarise(
+            K[0], c0[0], names, feed=feed, t_window=float(plan.times[-1]), K_low=K_low[0]
+        )
         for j, col in enumerate(plan.columns):
             want = getattr(ref[col.species], col.quantity)
             got = summary[i, j]

@@ -94,6 +94,7 @@ if TYPE_CHECKING:
     from .scheme import Scheme
 
 __all__ = [
+    "BOUND_COLUMN",
     "DEFAULT_CHUNK",
     "PERCENTILES",
     "ChunkResult",
@@ -112,6 +113,7 @@ __all__ = [
     "percentile_bands",
     "run_chunks",
     "set_inputs",
+    "set_matrices",
     "summary_frame",
     "sweep",
 ]
@@ -128,7 +130,10 @@ MAX_MEMORY_VALUES = 100_000_000
 #: Sets per chunk by default (memory per chunk: about sets x points x species x 8 bytes
 #: when curves are kept).
 DEFAULT_CHUNK = 1000
-_VERSION = 1  # of the chunk layout and the definition hash
+_VERSION = 2  # of the chunk layout and the definition hash (2: the curves' bound)
+#: Column of the summary table with the certified relative error bound of each set's
+#: curves (the worst over its times); present when the curves are computed.
+BOUND_COLUMN = "relative error bound"
 
 _NUMBER_RE = re.compile(rf"^\s*{NUMBER}\s*$")
 _VARY_HELP = (
@@ -1219,20 +1224,25 @@ def _pattern(plan: SweepPlan):
     return plan.cached("pattern", lambda: rate_pattern(plan.scheme))
 
 
-def _dense_batch(plan: SweepPlan, rates: np.ndarray) -> np.ndarray:
-    """Stack of dense rate matrices (b, n, n) [1/s] from step rates (b, n_steps).
+def set_matrices(plan: SweepPlan, start: int, stop: int):
+    """The exact rate matrices of sets ``start .. stop-1`` and their other inputs.
 
-    Entries are accumulated in the order of :class:`kinetics.ratematrix.RatePattern`, so a
-    member equals ``rate_pattern(scheme).dense(rates[i])`` bit for bit.
+    Returns
+    -------
+    K, K_low : ndarray, shape (b, n, n)
+        Rate matrices [1/s] as double-double pairs: ``K + K_low`` is the matrix of the
+        exact constants of each set (:meth:`kinetics.ratematrix.RatePattern.dense_pair`;
+        steps no parameter changes carry :attr:`kinetics.scheme.Scheme.rate_pairs` bit
+        for bit).
+    c0 : ndarray, shape (b, n)
+        Start concentrations [conc].
+    feed : ndarray, shape (n,) or None
+        Zero-order feed [conc/s].
     """
-    pattern = _pattern(plan)
-    n = pattern.n
-    b = rates.shape[0]
-    flat = np.zeros((b, n * n))
-    linear = pattern.rows * n + pattern.cols
-    for e in range(linear.size):
-        flat[:, linear[e]] += pattern.coefficients[e] * rates[:, pattern.steps[e]]
-    return flat.reshape(b, n, n)
+    _, internal = plan.set_values(start, stop)
+    hi, lo, c0, feed = _input_pairs(plan, internal, plan.internal_low(start, stop))
+    K, K_low = _pattern(plan).dense_pair(hi, lo)
+    return K, K_low, c0, feed
 
 
 # ---------------------------------------------------------------------------------------
@@ -1256,6 +1266,9 @@ class ChunkResult:
         Summary quantities in the units of the columns; NaN where not applicable.
     curves : ndarray, shape (b, m, n) or None
         Concentrations [conc] at the plan's times.
+    bound : ndarray, shape (b,) or None
+        With the curves: the certified relative error bound of each set's curves, the
+        worst over its times (see :func:`kinetics.propagate.propagate_certified`).
     """
 
     index: int
@@ -1264,6 +1277,7 @@ class ChunkResult:
     parameters: np.ndarray
     summary: np.ndarray
     curves: np.ndarray | None = None
+    bound: np.ndarray | None = None
 
 
 #: Curves of a plain-double sweep are recomputed in full precision for the members whose
@@ -1271,34 +1285,47 @@ class ChunkResult:
 CURVE_RTOL = 1e-9
 
 
-def _propagate_batch(K, c0, times, feed, precision):
+def _propagate_batch(K, K_low, c0, times, feed, precision):
+    """Curves (b, m, n) [conc] of the exact pairs ``K + K_low`` and the worst certified
+    relative bound of each member (b,).
+
+    With ``precision="double"`` the members whose plain-double bound exceeds
+    :data:`CURVE_RTOL` (or that overflow in double) are recomputed with ``"auto"``.
+    """
     from .propagate import propagate_batch
 
     if precision != "double":
-        return propagate_batch(K, c0, times, feed, precision=precision)
+        conc, bound = propagate_batch(
+            K, c0, times, feed, precision=precision, return_bound=True, K_low=K_low
+        )
+        return conc, bound.max(axis=1, initial=0.0)
     try:
-        conc, bound = propagate_batch(K, c0, times, feed, precision="double", return_bound=True)
+        conc, bound = propagate_batch(
+            K, c0, times, feed, precision="double", return_bound=True, K_low=K_low
+        )
+        worst = bound.max(axis=1, initial=0.0)
     except GrowthError:  # plain double can overflow on very stiff members: decide below
-        conc, bound = np.zeros((K.shape[0], np.size(times), K.shape[1])), None
-    redo = (
-        np.arange(K.shape[0])
-        if bound is None
-        else np.flatnonzero(~(bound.max(axis=1, initial=0.0) <= CURVE_RTOL))
-    )
+        conc = np.zeros((K.shape[0], np.size(times), K.shape[1]))
+        worst = np.full(K.shape[0], np.inf)
+    redo = np.flatnonzero(~(worst <= CURVE_RTOL))
     if redo.size:
-        conc[redo] = propagate_batch(K[redo], c0[redo], times, feed, precision="auto")
-    return conc
+        conc[redo], again = propagate_batch(
+            K[redo], c0[redo], times, feed, precision="auto", return_bound=True, K_low=K_low[redo]
+        )
+        worst[redo] = again.max(axis=1, initial=0.0)
+    return conc, worst
 
 
-def _reference_summaries(plan: SweepPlan, K, c0, feed) -> dict[str, np.ndarray]:
+def _reference_summaries(plan: SweepPlan, K, K_low, c0, feed) -> dict[str, np.ndarray]:
     """:func:`kinetics.analysis.summarise` once per set (the definition; slow)."""
     from .analysis import summarise
 
     b, n = c0.shape
     out = {q: np.full((b, n), np.nan) for q in _QUANTITIES}
     names = plan.scheme.species_names
+    t_window = float(plan.times[-1])
     for i in range(b):
-        s = summarise(K[i], c0[i], names, feed=feed, t_window=float(plan.times[-1]))
+        s = summarise(K[i], c0[i], names, feed=feed, t_window=t_window, K_low=K_low[i])
         for j, name in enumerate(names):
             d = s[name]
             for q in _QUANTITIES:
@@ -1336,15 +1363,14 @@ def chunk_result(
     computed independently of the others, so the result does not depend on how the sets
     are split into chunks or which machine runs them.
     """
-    display, internal = plan.set_values(start, stop)
-    rates, _, c0, feed = _input_pairs(plan, internal, plan.internal_low(start, stop))
-    K = _dense_batch(plan, rates)
+    display, _ = plan.set_values(start, stop)
+    K, K_low, c0, feed = set_matrices(plan, start, stop)
     if plan.summary_method == "reference":
-        q = _reference_summaries(plan, K, c0, feed)
+        q = _reference_summaries(plan, K, K_low, c0, feed)
     else:
         from .sweep_summary import summarise_batch
 
-        q = summarise_batch(K, c0, feed, t_window=float(plan.times[-1]))
+        q = summarise_batch(K, c0, feed, t_window=float(plan.times[-1]), K_low=K_low)
     from .solution import time_factor
 
     tf = time_factor(plan.time_unit)
@@ -1352,8 +1378,10 @@ def chunk_result(
     for j, col in enumerate(plan.columns):
         v = q[col.quantity][:, col.index]
         summary[:, j] = v / tf if col.quantity in ("half_life", "t_max") else v
-    conc = _propagate_batch(K, c0, plan.times, feed, plan.precision) if curves else None
-    return ChunkResult(index, start, stop, display, summary, conc)
+    if not curves:
+        return ChunkResult(index, start, stop, display, summary)
+    conc, bound = _propagate_batch(K, K_low, c0, plan.times, feed, plan.precision)
+    return ChunkResult(index, start, stop, display, summary, conc, bound)
 
 
 def evaluate_chunk(plan: SweepPlan, k: int, curves: bool = False) -> ChunkResult:
@@ -1521,7 +1549,11 @@ def _run_dask(client, plan: SweepPlan, chunks: list[int], on_result, curves: boo
 
 
 def summary_frame(plan: SweepPlan, result: ChunkResult) -> pd.DataFrame:
-    """The summary rows of one chunk: parameter columns, then ``<quantity> <species> [unit]``."""
+    """The summary rows of one chunk: parameter columns, then ``<quantity> <species> [unit]``.
+
+    A chunk evaluated with its curves adds :data:`BOUND_COLUMN`, the certified relative
+    error bound of each set's curves (the worst over its times).
+    """
     import pandas as pd
 
     data = {}
@@ -1529,6 +1561,8 @@ def summary_frame(plan: SweepPlan, result: ChunkResult) -> pd.DataFrame:
         data[name] = result.parameters[:, j]
     for j, name in enumerate(plan.summary_columns):
         data[name] = result.summary[:, j]
+    if result.bound is not None:
+        data[BOUND_COLUMN] = result.bound
     return pd.DataFrame(data, index=pd.RangeIndex(result.start, result.stop))
 
 
@@ -1623,6 +1657,8 @@ def percentile_bands(plan: SweepPlan, summary: pd.DataFrame) -> pd.DataFrame:
     for j, name in enumerate(plan.summary_columns):
         for k, p in enumerate(PERCENTILES):
             data[_band_label(name, p)] = pct[k, :, j]
+    if BOUND_COLUMN in summary:  # the worst of the grid point's samples
+        data[BOUND_COLUMN] = summary[BOUND_COLUMN].to_numpy(dtype=float).reshape(g, n).max(axis=1)
     return pd.DataFrame(data)
 
 

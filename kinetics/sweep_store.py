@@ -176,6 +176,8 @@ class ChunkStore:
                 }
                 if result.curves is not None:
                     arrays["curves"] = result.curves
+                if result.bound is not None:
+                    arrays["bound"] = result.bound
                 np.savez(fh, **arrays)
                 fh.flush()
                 os.fsync(fh.fileno())
@@ -199,6 +201,7 @@ class ChunkStore:
                     z["parameters"],
                     z["summary"],
                     z["curves"] if "curves" in z.files else None,
+                    z["bound"] if "bound" in z.files else None,
                 )
         except (OSError, ValueError, KeyError) as exc:
             raise UsageError(

@@ -303,13 +303,13 @@ def _limits(pat: _Pattern, cls: _Classes, K, c0, f, has_c0, has_f):
 # ---------------------------------------------------------------------------------------
 
 
-def _reference(K, c0, f, t_window, out, members) -> None:
+def _reference(K, Kl, c0, f, t_window, out, members) -> None:
     from .analysis import summarise
 
     n = c0.shape[1]
     names = [f"s{i}" for i in range(n)]
     for i in members:
-        s = summarise(K[i], c0[i], names, feed=f, t_window=t_window)
+        s = summarise(K[i], c0[i], names, feed=f, t_window=t_window, K_low=Kl[i])
         for j, name in enumerate(names):
             d = s[name]
             for q in ("half_life", "t_max", "c_max", "limit"):
@@ -337,6 +337,7 @@ def summarise_batch(
     feed: np.ndarray | None = None,
     *,
     t_window: float | None = None,
+    K_low: np.ndarray | None = None,
 ) -> dict[str, np.ndarray]:
     r"""Half-lives, intermediate maxima and long-time limits of a stack of problems.
 
@@ -350,6 +351,12 @@ def summarise_batch(
         Zero-order feed shared by all members [conc/s].
     t_window : float, optional
         End of the time window [s] (only for flags; does not change the quantities).
+    K_low : ndarray, shape (b, n, n), optional
+        Low-order parts of ``K`` when the exact matrices are the double-double sums
+        ``K + K_low`` (:meth:`kinetics.ratematrix.RatePattern.dense_pair`): the shifted
+        diagonal :math:`\sigma - q_i` of the ladder is formed from the exact diagonal
+        before it is rounded, and members handed to :func:`kinetics.analysis.summarise`
+        take the pair.
 
     Returns
     -------
@@ -381,6 +388,9 @@ def summarise_batch(
     f = None if feed is None else np.asarray(feed, dtype=float).reshape(n)
     if f is not None and not f.any():
         f = None
+    Kl = np.zeros_like(K) if K_low is None else np.asarray(K_low, dtype=float)
+    if Kl.shape != K.shape:
+        raise UsageError("summarise_batch needs K_low of the shape of K", "check the shapes")
     out = {q: np.full((b, n), np.nan) for q in ("half_life", "t_max", "c_max", "limit")}
     if b == 0:
         return out
@@ -393,13 +403,13 @@ def summarise_batch(
     fallback = np.zeros(b, dtype=bool)
     for g in np.unique(group_of):
         members = np.flatnonzero(group_of == g)
-        _group(K, c0, f, members, offdiag[members[0]], out, fallback)
+        _group(K, Kl, c0, f, members, offdiag[members[0]], out, fallback)
     if fallback.any():
-        _reference(K, c0, f, t_window, out, np.flatnonzero(fallback))
+        _reference(K, Kl, c0, f, t_window, out, np.flatnonzero(fallback))
     return out
 
 
-def _group(K, c0, f, members, offdiag, out, fallback) -> None:
+def _group(K, Kl, c0, f, members, offdiag, out, fallback) -> None:
     """Members sharing one nonzero pattern and start pattern."""
     pat = _Pattern(offdiag)
     Kg, cg = K[members], c0[members]
@@ -462,8 +472,9 @@ def _group(K, c0, f, members, offdiag, out, fallback) -> None:
     cmax = np.full((fast.size, n), np.nan)
     half = np.full((fast.size, n), np.nan)
     status = np.empty(fast.size, dtype=np.int8)
+    q_low = np.ascontiguousarray(np.diagonal(Kl[members[fast]], axis1=1, axis2=2))
     kernels.summarise_members(
-        np.ascontiguousarray(Kf), np.zeros(n) if f is None else f, f is not None,
+        np.ascontiguousarray(Kf), q_low, np.zeros(n) if f is None else f, f is not None,
         np.ascontiguousarray(cf), sc, np.ascontiguousarray(t_hi[fast]), mx, hl, n_seg,
         tmax, cmax, half, status,
     )  # fmt: skip
