@@ -104,7 +104,9 @@ __all__ = [
     "SweepPlan",
     "chunk_result",
     "curve_bands",
+    "curves_array",
     "curves_frame",
+    "curves_long_frame",
     "evaluate_chunk",
     "make_plan",
     "monte_carlo",
@@ -1567,27 +1569,133 @@ def summary_frame(plan: SweepPlan, result: ChunkResult) -> pd.DataFrame:
 
 
 def curves_frame(plan: SweepPlan, result: ChunkResult) -> pd.DataFrame:
-    """Every curve of one chunk in long format.
+    """Every curve of one chunk in long format (see :func:`curves_long_frame`).
 
     Columns: ``set`` (row number of the summary table), the parameter columns,
     ``time [unit]``, ``species``, ``concentration [unit]``.
     """
-    import pandas as pd
-
     from .solution import time_factor
 
     if result.curves is None:
         raise UsageError("this chunk was evaluated without curves", "pass curves=True")
-    b, m, n = result.curves.shape
-    names = plan.scheme.species_names
-    data: dict[str, Any] = {"set": np.repeat(np.arange(result.start, result.stop), m * n)}
-    for j, name in enumerate(plan.parameter_columns):
-        data[name] = np.repeat(result.parameters[:, j], m * n)
-    tf = time_factor(plan.time_unit)
-    data[f"time [{plan.time_unit}]"] = np.tile(np.repeat(plan.times / tf, n), b)
-    data["species"] = pd.Categorical.from_codes(np.tile(np.arange(n), b * m), names)
-    data[f"concentration [{plan.concentration_unit}]"] = result.curves.reshape(-1)
+    parameters = {name: result.parameters[:, j] for j, name in enumerate(plan.parameter_columns)}
+    return _long_frame(
+        np.arange(result.start, result.stop),
+        parameters,
+        (f"time [{plan.time_unit}]", plan.times / time_factor(plan.time_unit)),
+        plan.scheme.species_names,
+        f"concentration [{plan.concentration_unit}]",
+        result.curves,
+    )
+
+
+def _long_frame(sets, parameters, time, species, label, values) -> pd.DataFrame:
+    """The long table of curves ``values`` (b, m, n): one row per set, time and species."""
+    import pandas as pd
+
+    b, m, n = values.shape
+    data: dict[str, Any] = {"set": np.repeat(sets, m * n)}
+    for name, column in parameters.items():
+        data[name] = np.repeat(column, m * n)
+    data[time[0]] = np.tile(np.repeat(time[1], n), b)
+    data["species"] = pd.Categorical.from_codes(np.tile(np.arange(n), b * m), species)
+    data[label] = values.reshape(-1)
     return pd.DataFrame(data)
+
+
+def curves_array(plan: SweepPlan, results: Sequence[ChunkResult]):
+    """The curves of consecutive chunks as one labelled array.
+
+    Parameters
+    ----------
+    plan : SweepPlan
+    results : sequence of ChunkResult
+        Chunks evaluated with curves, in set order.
+
+    Returns
+    -------
+    xarray.DataArray
+        ``concentration`` [conc] with dims ``("set", "time", "species")``: coordinates
+        ``set`` (the row of the summary table), ``time`` [the plan's time unit],
+        ``species``, one coordinate along ``set`` per varied or sampled parameter (named
+        as in the scheme, ``k2``, ``start:A``, in the unit of its column) and
+        ``error_bound``, the certified relative bound of each set's curves.  Units are in
+        each coordinate's ``attrs["units"]``; ``attrs["column"]`` keeps the column name of
+        the tables.  :func:`curves_long_frame` converts it to the long table.
+
+    .. math:: c^{(i)}(t) = e^{tK^{(i)}} c_0^{(i)} + \\int_0^t e^{sK^{(i)}}\\,ds\\, f
+    """
+    import xarray as xr
+
+    from .solution import time_factor
+
+    values = (
+        results[0].curves
+        if len(results) == 1
+        else np.concatenate([r.curves for r in results], axis=0)
+    )
+    parameters = np.concatenate([r.parameters for r in results], axis=0)
+    sets = np.arange(results[0].start, results[-1].stop) if results else np.arange(0)
+    coords: dict[str, Any] = {
+        "set": ("set", sets),
+        "time": ("time", plan.times / time_factor(plan.time_unit), {"units": plan.time_unit}),
+        "species": ("species", plan.scheme.species_names),
+    }
+    named = [*plan.parameters, *plan.spreads]
+    for j, (p, column) in enumerate(zip(named, plan.parameter_columns, strict=True)):
+        coords[p.name] = ("set", parameters[:, j], {"units": p.unit, "column": column})
+    if all(r.bound is not None for r in results):
+        bound = np.concatenate([r.bound for r in results])
+        coords["error_bound"] = ("set", bound, {"units": "1", "column": BOUND_COLUMN})
+    unit = plan.concentration_unit
+    return xr.DataArray(
+        values,
+        dims=("set", "time", "species"),
+        coords=coords,
+        name="concentration",
+        attrs={"units": unit, "column": f"concentration [{unit}]"},
+    )
+
+
+def curves_long_frame(curves) -> pd.DataFrame:
+    """The labelled curves of :func:`curves_array` as a long table (one row per value).
+
+    Parameters
+    ----------
+    curves : xarray.DataArray
+        As returned by ``sweep(..., curves=True)`` (any selection along ``set`` too).
+
+    Returns
+    -------
+    pandas.DataFrame
+        Columns ``set``, the parameter columns (``k1 [1/min]``), ``time [unit]``,
+        ``species``, ``concentration [unit]``: the long format of the command's
+        ``--curves`` file.
+
+    Examples
+    --------
+    >>> import kinetics
+    >>> from kinetics.sweep import sweep
+    >>> s = kinetics.parse("A -> B  k1 = 0.1 1/min\\nstart A = 1 M")
+    >>> _, curves = sweep(s, ["k1=0.1,0.2"], [0.0, 60.0], time_unit="min", curves=True)
+    >>> list(curves_long_frame(curves).columns)
+    ['set', 'k1 [1/min]', 'time [min]', 'species', 'concentration [M]']
+    """
+    curves = curves.transpose("set", "time", "species")
+    parameters = {
+        c.attrs["column"]: c.values
+        for name, c in curves.coords.items()
+        if c.dims == ("set",) and name not in ("set", "error_bound")
+    }
+    time = curves.coords["time"]
+    return _long_frame(
+        curves.coords["set"].values,
+        parameters,
+        (f"time [{time.attrs['units']}]", time.values),
+        [str(x) for x in curves.coords["species"].values],
+        curves.attrs["column"],
+        np.ascontiguousarray(curves.values),
+    )
 
 
 def _band_label(column: str, p: float) -> str:
@@ -1757,7 +1865,8 @@ def sweep(
     time_unit : str
         Unit of time in the table (``"min"``).
     curves : bool
-        Also return every curve in long format (see :func:`curves_frame`).
+        Also return every curve, as a labelled array (see :func:`curves_array`;
+        :func:`curves_long_frame` converts it to the long table of earlier versions).
     chunk_size : int
         Sets per stacked batch.
     precision : {"double", "auto", "double-double"}
@@ -1768,10 +1877,12 @@ def sweep(
 
     Returns
     -------
-    pandas.DataFrame or (pandas.DataFrame, pandas.DataFrame)
+    pandas.DataFrame or (pandas.DataFrame, xarray.DataArray)
         The summary table: one column per varied parameter (``k2 [1/min]``), then
         ``half_life A [min]``, ``t_max B [min]``, ``c_max B [mol/L]``, ``limit C [mol/L]``;
-        NaN where a quantity does not apply.  With ``curves=True`` also the curves.
+        NaN where a quantity does not apply.  With ``curves=True`` the table ends in
+        :data:`BOUND_COLUMN`, and the curves come as an ``xarray.DataArray`` of dims
+        ``(set, time, species)``.
 
     .. math:: c^{(i)}(t) = e^{tK^{(i)}} c_0^{(i)} + \\int_0^t e^{sK^{(i)}}\\,ds\\, f
 
@@ -1807,7 +1918,7 @@ def sweep(
     table = pd.concat([summary_frame(plan, r) for r in parts]) if parts else None
     if not curves:
         return table
-    return table, pd.concat([curves_frame(plan, r) for r in parts], ignore_index=True)
+    return table, curves_array(plan, parts)
 
 
 def monte_carlo(

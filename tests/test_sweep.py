@@ -22,6 +22,8 @@ from kinetics.errors import UsageError
 from kinetics.ratematrix import dense_rate_matrix, step_rates
 from kinetics.sweep import (
     chunk_result,
+    curves_frame,
+    curves_long_frame,
     make_plan,
     monte_carlo,
     parse_spread,
@@ -316,23 +318,44 @@ def test_results_do_not_depend_on_chunking(chain):
     np.testing.assert_array_equal(ra.curves, np.concatenate([p.curves for p in parts]))
 
 
-def test_curves_long_format(chain):
-    _table, curves = sweep(chain, ["k1=0.1,0.2"], [0.0, 60.0, 120.0], time_unit="min", curves=True)
-    assert list(curves.columns) == [
+def test_curves_labelled_array_and_long_format(chain):
+    # issue 11 changed this contract: curves=True gives a labelled array (it was the long
+    # table, which curves_long_frame now makes from it, with the same columns)
+    table, curves = sweep(chain, ["k1=0.1,0.2"], [0.0, 60.0, 120.0], time_unit="min", curves=True)
+    assert curves.dims == ("set", "time", "species")
+    assert curves.shape == (2, 3, 4)
+    assert curves.attrs["units"] == "mol/L"
+    assert list(curves.coords["species"].values) == ["A", "B", "C", "D"]
+    assert curves.coords["time"].attrs["units"] == "min"
+    np.testing.assert_array_equal(curves.coords["time"].values, [0.0, 1.0, 2.0])
+    np.testing.assert_array_equal(curves.coords["k1"].values, [0.1, 0.2])
+    assert curves.coords["k1"].attrs["units"] == "1/min"
+    np.testing.assert_array_equal(
+        curves.coords["error_bound"].values, table["relative error bound"].to_numpy()
+    )
+    # first-order decay A0 exp(-k1 t) (textbook closed form), k1 = 0.2 1/min
+    np.testing.assert_allclose(
+        curves.sel(set=1, species="A").values,
+        0.8 * np.exp(-0.2 * np.array([0.0, 1.0, 2.0])),
+        rtol=1e-13,
+    )
+    long = curves_long_frame(curves)
+    assert list(long.columns) == [
         "set",
         "k1 [1/min]",
         "time [min]",
         "species",
         "concentration [mol/L]",
     ]
-    assert len(curves) == 2 * 3 * 4
-    first = curves[(curves["set"] == 1) & (curves["species"] == "A")]
-    # first-order decay A0 exp(-k1 t) (textbook closed form), k1 = 0.2 1/min
-    np.testing.assert_allclose(
-        first["concentration [mol/L]"],
-        0.8 * np.exp(-0.2 * np.array([0.0, 1.0, 2.0])),
-        rtol=1e-13,
+    assert len(long) == 2 * 3 * 4
+    first = long[(long["set"] == 1) & (long["species"] == "A")]
+    np.testing.assert_array_equal(
+        first["concentration [mol/L]"], curves.sel(set=1, species="A").values
     )
+    # the same table the command writes chunk by chunk
+    plan = make_plan(chain, ["k1=0.1,0.2"], [0.0, 60.0, 120.0], time_unit="min")
+    part = chunk_result(plan, 0, 2, curves=True)
+    pd.testing.assert_frame_equal(long, curves_frame(plan, part))
 
 
 # ---------------------------------------------------------------------------------------
