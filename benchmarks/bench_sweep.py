@@ -142,7 +142,7 @@ def check(plan, parts, idx, ivp) -> tuple[float, float]:
 
 
 def million(chunk: int, threads: int) -> None:
-    from kinetics.sweep_store import run_sweep
+    from kinetics.sweep.store import run_sweep
 
     scheme = kinetics.parse(SCHEME)
     times = np.linspace(0.0, 8 * 3600.0, 201)

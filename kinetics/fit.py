@@ -1325,9 +1325,9 @@ def _engine_predictions(scheme, params, si, runs, fitted):
     preds, tables = [], []
     for run in runs:
         s = _fitted_scheme(scheme, params, si, run.data.conditions)
-        K = s.rate_matrix()
+        K, K_low = s.rate_matrix_pair()  # the exact constants, diagonal unrounded
         c0 = s.initial_vector
-        c = propagate(K, c0, run.times, s.feed_vector if s.feed else None)
+        c = propagate(K, c0, run.times, s.feed_vector if s.feed else None, K_low=K_low)
         pred = c[run.t_index, run.s_index]
         preds.append(pred)
         table = np.full(run.data.values.shape, np.nan)

@@ -1,7 +1,7 @@
 """The ``kinetics sweep`` command: parameter grids and Monte Carlo uncertainty at scale.
 
 Argument parsing, progress, terminal output and the plot live here; the computation is
-:mod:`kinetics.sweep` and the chunk files and tables :mod:`kinetics.sweep_store`.
+:mod:`kinetics.sweep` and the chunk files and tables :mod:`kinetics.sweep.store`.
 """
 
 from __future__ import annotations
@@ -22,7 +22,7 @@ _TERMINAL_ROWS = 40
 
 def _check_table_path(path: Path | None, inputs, option: str) -> Path | None:
     from .export import check_output_path
-    from .sweep_store import TABLE_FORMATS
+    from .sweep.store import TABLE_FORMATS
 
     if path is None:
         return None
@@ -83,13 +83,13 @@ def sweep_figure(plan, data, column: str, quantity: str):
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
-    from .sweep import _band_label
+    from .sweep import band_label
 
     mc = plan.samples > 0
     fig = Figure(figsize=(6.4, 4.4), layout="constrained")
     FigureCanvasAgg(fig)
     ax = fig.add_subplot()
-    value = _band_label(column, 50.0) if mc else column
+    value = band_label(column, 50.0) if mc else column
     axes = plan.parameters
     title = plan.scheme.title or plan.scheme.source
     if len(axes) == 1:
@@ -98,8 +98,8 @@ def sweep_figure(plan, data, column: str, quantity: str):
         x = data[p.column].to_numpy()[order]
         y = data[value].to_numpy()[order]
         if mc:
-            lo = data[_band_label(column, 2.5)].to_numpy()[order]
-            hi = data[_band_label(column, 97.5)].to_numpy()[order]
+            lo = data[band_label(column, 2.5)].to_numpy()[order]
+            hi = data[band_label(column, 97.5)].to_numpy()[order]
             ax.fill_between(x, lo, hi, color="0.8", label="2.5-97.5 %")
             ax.plot(x, y, "k-o", ms=3, label="median")
             ax.legend(frameon=False)
@@ -146,8 +146,8 @@ def sweep_figure(plan, data, column: str, quantity: str):
             ax.set_yscale("log")
     else:
         y = float(data[value].iloc[0])
-        lo = float(data[_band_label(column, 2.5)].iloc[0])
-        hi = float(data[_band_label(column, 97.5)].iloc[0])
+        lo = float(data[band_label(column, 2.5)].iloc[0])
+        hi = float(data[band_label(column, 97.5)].iloc[0])
         ax.errorbar([0], [y], yerr=[[y - lo], [hi - y]], fmt="ko", capsize=6)
         ax.set_xticks([0], ["median, 2.5-97.5 %"])
         ax.set_ylabel(column)
@@ -172,7 +172,7 @@ def _edges(values, spacing: str):
 
 def _sweep_to_files(plan, paths, curves_file, samples_path, **options):
     """Run the sweep into its chunk store and tables, with progress; the plot's data."""
-    from .sweep_store import run_sweep
+    from .sweep.store import run_sweep
     from .terminal import progress
 
     # one bar for both phases: computing the chunks, then writing the tables from them
@@ -483,11 +483,11 @@ def sweep(
     if paths or samples_path or curves_file:
         columns = []
         if plot_column is not None:
-            from .sweep import _band_label
+            from .sweep import band_label
 
             columns = list(plan.grid_columns)
             if plan.samples:
-                columns += [_band_label(plot_column, p) for p in (2.5, 50.0, 97.5)]
+                columns += [band_label(plot_column, p) for p in (2.5, 50.0, 97.5)]
             else:
                 columns.append(plot_column)
         plot_data = _sweep_to_files(

@@ -27,10 +27,11 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 import kinetics
-from kinetics import export, sweep_store
+from kinetics import export
 from kinetics.cli import main
 from kinetics.errors import OutputFileError, UsageError
 from kinetics.sweep import chunk_result, make_plan
+from kinetics.sweep import store as sweep_store
 
 ROOT = Path(__file__).resolve().parents[1]
 CHAIN = """title: Hostile chain

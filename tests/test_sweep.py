@@ -32,7 +32,7 @@ from kinetics.sweep import (
     set_matrices,
     sweep,
 )
-from kinetics.sweep_store import ChunkStore, run_sweep
+from kinetics.sweep.store import ChunkStore, run_sweep
 
 CONSECUTIVE = """\
 title: test chain
@@ -429,7 +429,7 @@ def test_resume_computes_only_missing_chunks(chain, tmp_path):
     out = tmp_path / "r.csv"
     calls = []
 
-    import kinetics.sweep_store as store_mod
+    from kinetics.sweep import store as store_mod
 
     real = store_mod.ChunkStore.write
 

@@ -22,7 +22,7 @@ are written chunk by chunk (memory stays bounded by one chunk plus, for Monte Ca
 one grid point's samples), each atomically, and the folder is removed (``--keep-chunks``
 keeps it).  Every set therefore appears exactly once in the final table, in set order.
 
-This module does file I/O; the computation is in :mod:`kinetics.sweep`.
+This module does file I/O; the computation is in the other modules of :mod:`kinetics.sweep`.
 """
 
 from __future__ import annotations
@@ -40,10 +40,13 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from .errors import KineticsError, UsageError
-from .export import atomic_path, output_error, spreadsheet_frame
-from .sweep import ChunkResult, SweepPlan, curve_bands, curves_frame, percentile_bands, run_chunks
-from .sweep import summary_frame as _summary_frame
+from ..errors import KineticsError, UsageError
+from ..export import atomic_path, output_error, spreadsheet_frame
+from .engines import run_chunks
+from .evaluation import ChunkResult
+from .plan import SweepPlan
+from .tables import curve_bands, curves_frame, percentile_bands
+from .tables import summary_frame as _summary_frame
 
 if TYPE_CHECKING:
     import pandas as pd
