@@ -16,7 +16,8 @@ import pytest
 import kinetics
 from kinetics.cli import main
 from kinetics.errors import DataError, UsageError
-from kinetics.fit import _build_runs, _Model, fit, parse_free
+from kinetics.fit import fit, parse_free
+from kinetics.fit.model import Model, build_runs
 from kinetics.measurements import measurements_from_frame
 
 ABC = "A -> B  k1 = 0.3 1/min\nB -> C  k2 = 0.01 1/min\nstart A = 1 mol/L\n"
@@ -115,7 +116,7 @@ def test_exact_jacobian_matches_central_differences(abc, noisy):
     """Check the Fréchet-derivative Jacobian against central differences (h = 1e-6)."""
     params = parse_free("k1,k2,start:A", abc)
     data = [measurements_from_frame(noisy, abc)]
-    model = _Model(abc, _build_runs(abc, data, params, "equal"), params)
+    model = Model(abc, build_runs(abc, data, params, "equal"), params)
     theta = np.log([0.1 / 60, 0.05 / 60, 0.9])
     J = model.jacobian(theta)
     h = 1e-6
