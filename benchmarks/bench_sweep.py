@@ -188,9 +188,9 @@ def main() -> None:
 
     # best of two runs each (the first run also pays for allocating the arrays)
     t_summary = min(run_sweep_in_memory(plan, False, args.threads)[0] for _ in range(2))
-    # the engine and the public call alternate, best of three each (same load for both)
+    # the engine and the public call alternate, best of four each (same load for both)
     t_full, t_api, parts, curves = math.inf, math.inf, None, None
-    for _ in range(3):
+    for _ in range(4):
         parts = curves = None  # the previous run's curves are freed before the next run
         t, parts = run_sweep_in_memory(plan, True, args.threads)
         t_full = min(t_full, t)

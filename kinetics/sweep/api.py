@@ -21,17 +21,25 @@ __all__ = ["monte_carlo", "sweep"]
 
 
 def _in_memory(plan: SweepPlan, curves: bool, engine: str, scheduler: str | None):
+    """Every chunk's result in set order; with curves also one array of all of them.
+
+    Each chunk's curves are copied into the one array as the chunk arrives (while the
+    other chunks are computed) and the chunk keeps a view of it, so the curves are never
+    held twice and no final concatenation is needed.
+    """
     check_memory(plan, curves)
     results: dict[int, ChunkResult] = {}
-    run_chunks(
-        plan,
-        range(plan.n_chunks),
-        lambda r: results.__setitem__(r.index, r),
-        curves=curves,
-        engine=engine,
-        scheduler=scheduler,
-    )
-    return [results[k] for k in range(plan.n_chunks)]
+    n = len(plan.scheme.species)
+    every = np.empty((plan.n_sets, plan.times.size, n)) if curves else None
+
+    def keep(result: ChunkResult) -> None:
+        if every is not None:
+            every[result.start : result.stop] = result.curves
+            result.curves = every[result.start : result.stop]
+        results[result.index] = result
+
+    run_chunks(plan, range(plan.n_chunks), keep, curves=curves, engine=engine, scheduler=scheduler)
+    return [results[k] for k in range(plan.n_chunks)], every
 
 
 def sweep(
@@ -109,11 +117,11 @@ def sweep(
             precision=precision,
             api=True,
         )
-    parts = _in_memory(plan, curves, engine, scheduler)
+    parts, every = _in_memory(plan, curves, engine, scheduler)
     table = pd.concat([summary_frame(plan, r) for r in parts]) if parts else None
     if not curves:
         return table
-    return table, curves_array(plan, parts)
+    return table, curves_array(plan, parts, values=every)
 
 
 def monte_carlo(
@@ -175,6 +183,6 @@ def monte_carlo(
         precision=precision,
         api=True,
     )
-    parts = _in_memory(plan, False, "local", None)
+    parts, _ = _in_memory(plan, False, "local", None)
     table = pd.concat([summary_frame(plan, r) for r in parts])
     return table, percentile_bands(plan, table)

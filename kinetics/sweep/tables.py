@@ -87,7 +87,7 @@ def _long_frame(sets, parameters, time, species, label, values) -> pd.DataFrame:
     return pd.DataFrame(data)
 
 
-def curves_array(plan: SweepPlan, results: Sequence[ChunkResult]):
+def curves_array(plan: SweepPlan, results: Sequence[ChunkResult], values=None):
     """The curves of consecutive chunks as one labelled array.
 
     Parameters
@@ -95,6 +95,9 @@ def curves_array(plan: SweepPlan, results: Sequence[ChunkResult]):
     plan : SweepPlan
     results : sequence of ChunkResult
         Chunks evaluated with curves, in set order.
+    values : numpy.ndarray, shape (b, m, n), optional
+        The curves of all ``results`` as one array when the caller already holds them
+        (taken as they are, without a copy).
 
     Returns
     -------
@@ -113,11 +116,12 @@ def curves_array(plan: SweepPlan, results: Sequence[ChunkResult]):
 
     from ..solution import time_factor
 
-    values = (
-        results[0].curves
-        if len(results) == 1
-        else np.concatenate([r.curves for r in results], axis=0)
-    )
+    if values is None:
+        values = (
+            results[0].curves
+            if len(results) == 1
+            else np.concatenate([r.curves for r in results], axis=0)
+        )
     parameters = np.concatenate([r.parameters for r in results], axis=0)
     sets = np.arange(results[0].start, results[-1].stop) if results else np.arange(0)
     coords: dict[str, Any] = {
