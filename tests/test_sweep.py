@@ -798,3 +798,18 @@ def test_batched_summaries_take_the_exact_pair():
                         assert math.isnan(got[q][m, i]), (q, name)
                     else:
                         assert got[q][m, i] == pytest.approx(want, rel=1e-9, abs=1e-300)
+
+
+def test_monte_carlo_bands_carry_the_worst_bound_of_their_samples(chain):
+    from kinetics.sweep import percentile_bands, summary_frame
+
+    t = np.linspace(0, 3600, 5)
+    plan = make_plan(chain, ["k2=0.02,0.09"], t, samples=20, spread=["k1=15%"], chunk_size=40)
+    result = chunk_result(plan, 0, plan.n_sets, curves=True)
+    rows = summary_frame(plan, result)
+    bands = percentile_bands(plan, rows)
+    assert list(bands.columns)[-1] == "relative error bound"
+    np.testing.assert_array_equal(
+        bands["relative error bound"], result.bound.reshape(2, 20).max(axis=1)
+    )
+    assert "relative error bound" not in percentile_bands(plan, rows.iloc[:, :-1]).columns
