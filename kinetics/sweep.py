@@ -83,6 +83,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from .analysis import BATCH_QUANTITIES as _QUANTITIES
 from .errors import ArgumentTypeError, GrowthError, UsageError, type_name
 from .units import GAS_CONSTANT, convert, parse_unit, temperature_to_kelvin
 
@@ -768,9 +769,6 @@ class Column:
         return f"{self.quantity} {self.species} [{self.unit}]"
 
 
-_QUANTITIES = ("half_life", "t_max", "c_max", "limit")
-
-
 @dataclass(frozen=True, eq=False)
 class SweepPlan:
     """A sweep definition: scheme, grid axes, Monte Carlo spreads, times and chunking.
@@ -1169,6 +1167,7 @@ def _axes(scheme: Scheme, vary, words: _Words) -> tuple[Parameter, ...]:
 def _check_sets(plan: SweepPlan, block: int = 100_000) -> None:
     """Refuse a plan with a set outside the engine's working range, before any work."""
     from .analysis import MAX_RATE, MAX_SCALE, check_working_range
+    from .errors import WorkingRangeError
     from .ratematrix import rate_pattern
 
     pattern = rate_pattern(plan.scheme)
@@ -1190,7 +1189,7 @@ def _check_sets(plan: SweepPlan, block: int = 100_000) -> None:
         i = int(np.argmax(np.where(np.isnan(worst), np.inf, worst)))
         try:
             check_working_range(out[i], t_end, plan.scheme.species_names, float(amount[i]))
-        except UsageError as exc:
+        except WorkingRangeError as exc:
             values = ", ".join(
                 f"{c} = {v:.6g}" for c, v in zip(plan.parameter_columns, display[i], strict=True)
             )
