@@ -41,6 +41,7 @@ __all__ = [
     "SchemeFileError",
     "SettingError",
     "SpeciesError",
+    "TableSizeError",
     "TimesError",
     "UsageError",
     "WorkingRangeError",
@@ -275,8 +276,8 @@ class ArgumentValueError(_ProblemAndHint, ValueError):
     The common base of :class:`UsageError` (the command line) and of the typed errors of
     the numerical core (:class:`RateMatrixError`, :class:`ConcentrationError`,
     :class:`TimesError`, :class:`SpeciesError`, :class:`SettingError`,
-    :class:`WorkingRangeError`): ``except ArgumentValueError`` catches a wrong value
-    wherever it was given.
+    :class:`WorkingRangeError`, :class:`TableSizeError`): ``except ArgumentValueError``
+    catches a wrong value wherever it was given.
 
     Examples
     --------
@@ -322,6 +323,11 @@ class SettingError(ArgumentValueError):
     """A setting of a library function outside its allowed values: a fraction or a
     tolerance outside (0, 1), or a choice such as ``where=`` or ``linear=`` that is not
     one of those listed."""
+
+
+class TableSizeError(ArgumentValueError):
+    """A table larger than the chosen output format holds (an Excel sheet holds at most
+    1,048,576 rows and 16,384 columns); another format holds it."""
 
 
 class WorkingRangeError(ArgumentValueError):

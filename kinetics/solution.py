@@ -287,7 +287,7 @@ class Solution:
             Species name -> quantities (``half_life``, ``t_max``, ``c_max``, ``limit``...),
             ``None`` where a quantity does not apply.
         """
-        from .overview import compute_summary, summary_in_units
+        from .analysis.solution_summary import compute_summary, summary_in_units
 
         return summary_in_units(compute_summary(self) or {}, time_unit)
 
@@ -322,7 +322,7 @@ class Solution:
         -------
         matplotlib.figure.Figure
         """
-        from .plotting import concentration_figure, save_figure
+        from .output.plotting import concentration_figure, save_figure
 
         if isinstance(species, str):
             raise ArgumentTypeError(

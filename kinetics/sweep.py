@@ -100,6 +100,7 @@ __all__ = [
     "Parameter",
     "Spread",
     "SweepPlan",
+    "band_label",
     "chunk_result",
     "curve_bands",
     "curves_frame",
@@ -1637,7 +1638,7 @@ def curves_frame(plan: SweepPlan, result: ChunkResult) -> pd.DataFrame:
     return pd.DataFrame(data)
 
 
-def _band_label(column: str, p: float) -> str:
+def band_label(column: str, p: float) -> str:
     """``'t_max B [min]'`` and 2.5 -> ``'t_max B p2.5 [min]'``."""
     m = re.match(r"^(.*?)\s*(\[[^\]]*\])$", column)
     tag = f"p{p:g}"
@@ -1703,7 +1704,7 @@ def percentile_bands(plan: SweepPlan, summary: pd.DataFrame) -> pd.DataFrame:
             pct = np.nanpercentile(blocks, PERCENTILES, axis=1)  # (3, g, q)
     for j, name in enumerate(plan.summary_columns):
         for k, p in enumerate(PERCENTILES):
-            data[_band_label(name, p)] = pct[k, :, j]
+            data[band_label(name, p)] = pct[k, :, j]
     return pd.DataFrame(data)
 
 
@@ -1739,7 +1740,7 @@ def curve_bands(plan: SweepPlan, curves: np.ndarray, grid_point: int) -> pd.Data
     data["species"] = pd.Categorical.from_codes(np.tile(np.arange(n), m), plan.scheme.species_names)
     label = f"concentration [{plan.concentration_unit}]"
     for k, p in enumerate(PERCENTILES):
-        data[_band_label(label, p)] = pct[k].reshape(-1)
+        data[band_label(label, p)] = pct[k].reshape(-1)
     return pd.DataFrame(data)
 
 

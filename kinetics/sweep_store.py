@@ -41,7 +41,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from .errors import KineticsError, UsageError
-from .export import atomic_path, output_error, spreadsheet_frame
+from .files import atomic_path, output_error, spreadsheet_frame
 from .sweep import ChunkResult, SweepPlan, curve_bands, curves_frame, percentile_bands, run_chunks
 from .sweep import summary_frame as _summary_frame
 

@@ -525,8 +525,8 @@ def test_report_excel_and_api_carry_the_whole_scheme(tmp_path, capsys):
 
 @pytest.mark.parametrize("name", ["missing/x.png", "missing/x.html"])
 def test_writers_name_the_missing_folder_not_a_temporary_file(scheme, tmp_path, monkeypatch, name):
-    from kinetics import plotting, report
     from kinetics.errors import OutputFileError
+    from kinetics.output import plotting, report
 
     monkeypatch.chdir(tmp_path)
     result = kinetics.solve(scheme, [0, 1, 2])

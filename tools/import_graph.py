@@ -11,6 +11,11 @@ cycles are counted too); an import of the package root (``from kinetics import x
 ``x`` is no submodule) is an edge to ``kinetics/__init__.py``.  A private name is one with
 a leading underscore and no trailing double underscore, imported by ``from M import _x``
 from another module; private modules (``from kinetics import _kernels``) are listed apart.
+A string constant that is the full name of a module of the package (``"kinetics.cli.fit"``
+in a table of commands loaded on demand) counts as an import of it.
+
+Upward imports are edges from a module to one of a higher layer (:data:`LAYERS`, bottom
+first); a module of no listed layer is not judged.
 """
 
 from __future__ import annotations
@@ -22,6 +27,18 @@ from pathlib import Path
 import networkx as nx
 
 ROOT = Path(__file__).resolve().parents[1] / "kinetics"
+
+#: Layers of the package, bottom first: the first part of a module's name after
+#: ``kinetics.`` places it.
+LAYERS = [
+    ["errors", "_version", "jsonready", "files", "units", "suggest", "_doubledouble"],
+    ["scheme", "amounts", "balance", "network", "ratematrix", "parsing", "language"],
+    ["checks", "propagate", "sensitivity", "engine", "_kernels", "_blocks", "_block_exp"],
+    ["analysis", "solution"],
+    ["sweep", "sweep_summary", "sweep_store", "_sweep_kernels", "fit", "measurements"],
+    ["output"],
+    ["cli", "__main__"],
+]
 
 
 def module_name(path: Path) -> str:
@@ -69,6 +86,10 @@ def analyse():
     private_names, private_modules = [], []
     for name, path in mods.items():
         tree = ast.parse(path.read_text(encoding="utf-8"))
+        for node in ast.walk(tree):  # modules named in strings: loaded on demand
+            named = isinstance(node, ast.Constant) and "." in str(node.value)
+            if named and node.value in mods and node.value != name:
+                graph.add_edge(name, node.value)
         for node in _imports(tree):
             if isinstance(node, ast.Import):
                 for alias in node.names:
@@ -105,6 +126,27 @@ def analyse():
     return graph, sccs, cycles, private_names, private_modules
 
 
+def layer(module: str) -> int | None:
+    """Index of the layer of ``module`` in :data:`LAYERS`, or None."""
+    parts = module.split(".")
+    if len(parts) < 2:
+        return None
+    for k, names in enumerate(LAYERS):
+        if parts[1] in names:
+            return k
+    return None
+
+
+def upward(graph) -> list[tuple[str, str]]:
+    """Edges from a module to a module of a higher layer."""
+    out = []
+    for a, b in graph.edges:
+        la, lb = layer(a), layer(b)
+        if la is not None and lb is not None and lb > la:
+            out.append((a, b))
+    return sorted(out)
+
+
 def main() -> None:
     verbose = "--verbose" in sys.argv
     graph, sccs, cycles, private_names, private_modules = analyse()
@@ -116,11 +158,16 @@ def main() -> None:
     if verbose:
         for cycle in cycles:
             print("  " + " -> ".join([*cycle, cycle[0]]))
+    private_names = sorted(set(private_names))
     print(f"private names imported from another module: {len(private_names)}")
     for who, what in private_names:
         print(f"  {who}: {what}")
     root = sorted(who for who, what in graph.edges if what == "kinetics")
     print(f"modules importing the package root: {len(root)} {root if root else ''}")
+    up = upward(graph)
+    print(f"upward imports (to a higher layer): {len(up)}")
+    for a, b in up:
+        print(f"  {a} -> {b}")
     print(f"private modules imported: {len(private_modules)}")
     if verbose:
         for who, what in private_modules:

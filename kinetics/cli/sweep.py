@@ -1,28 +1,30 @@
 """The ``kinetics sweep`` command: parameter grids and Monte Carlo uncertainty at scale.
 
-Argument parsing, progress, terminal output and the plot live here; the computation is
-:mod:`kinetics.sweep` and the chunk files and tables :mod:`kinetics.sweep_store`.
+Argument parsing, progress and terminal output live here; the computation is
+:mod:`kinetics.sweep`, the chunk files and tables :mod:`kinetics.sweep_store` and the
+plot :mod:`kinetics.output.sweep_plot`.
 """
 
 from __future__ import annotations
 
 import re
+from dataclasses import dataclass
 from pathlib import Path
 
 import click
 
-from .errors import UsageError
+from kinetics.cli.common import caution, first_use_note, load_scheme, prepare
+from kinetics.cli.paths import check_output_path, check_output_paths
+from kinetics.errors import UsageError
 
-__all__ = ["sweep", "sweep_figure"]
+__all__ = ["sweep"]
 
-_QUANTITIES = ("half_life", "t_max", "c_max", "limit")
 _PLOT_FORMATS = (".png", ".svg")
 _TERMINAL_ROWS = 40
 
 
 def _check_table_path(path: Path | None, inputs, option: str) -> Path | None:
-    from .export import check_output_path
-    from .sweep_store import TABLE_FORMATS
+    from kinetics.sweep_store import TABLE_FORMATS
 
     if path is None:
         return None
@@ -36,11 +38,13 @@ def _check_table_path(path: Path | None, inputs, option: str) -> Path | None:
 
 def _plot_target(spec: str, plan) -> tuple[str, str]:
     """``'t_max:B'`` -> the summary column of that quantity and species."""
+    from kinetics.analysis import BATCH_QUANTITIES
+
     m = re.match(r"^\s*(?P<q>\w+)\s*[:\s]\s*(?P<species>\S+)\s*$", spec)
-    if not m or m["q"] not in _QUANTITIES:
+    if not m or m["q"] not in BATCH_QUANTITIES:
         raise UsageError(
             f"--plot {spec!r} is not QUANTITY:SPECIES",
-            "write e.g. --plot t_max:B (quantities: " + ", ".join(_QUANTITIES) + ")",
+            "write e.g. --plot t_max:B (quantities: " + ", ".join(BATCH_QUANTITIES) + ")",
         )
     for col in plan.columns:
         if col.quantity == m["q"] and col.species == m["species"]:
@@ -58,122 +62,10 @@ def _plot_target(spec: str, plan) -> tuple[str, str]:
     )
 
 
-def sweep_figure(plan, data, column: str, quantity: str):
-    """A matplotlib figure of one summary quantity against the varied parameters.
-
-    One grid axis: a line (Monte Carlo: the median with the 2.5-97.5 % band shaded).  Two
-    grid axes: a heat map (Monte Carlo: of the median).  No grid axis (Monte Carlo only):
-    the median with its 2.5-97.5 % band as one error bar.  Log-spaced axes are drawn on a
-    log scale.
-
-    Parameters
-    ----------
-    plan : SweepPlan
-    data : pandas.DataFrame
-        Grid columns and the plotted column(s).
-    column : str
-        The summary column, e.g. ``t_max B [min]``.
-    quantity : str
-
-    Returns
-    -------
-    matplotlib.figure.Figure
-    """
-    import numpy as np
-    from matplotlib.backends.backend_agg import FigureCanvasAgg
-    from matplotlib.figure import Figure
-
-    from .sweep import _band_label
-
-    mc = plan.samples > 0
-    fig = Figure(figsize=(6.4, 4.4), layout="constrained")
-    FigureCanvasAgg(fig)
-    ax = fig.add_subplot()
-    value = _band_label(column, 50.0) if mc else column
-    axes = plan.parameters
-    title = plan.scheme.title or plan.scheme.source
-    if len(axes) == 1:
-        p = axes[0]
-        order = np.argsort(data[p.column].to_numpy())
-        x = data[p.column].to_numpy()[order]
-        y = data[value].to_numpy()[order]
-        if mc:
-            lo = data[_band_label(column, 2.5)].to_numpy()[order]
-            hi = data[_band_label(column, 97.5)].to_numpy()[order]
-            ax.fill_between(x, lo, hi, color="0.8", label="2.5-97.5 %")
-            ax.plot(x, y, "k-o", ms=3, label="median")
-            ax.legend(frameon=False)
-        else:
-            ax.plot(x, y, "k-o", ms=3)
-        ax.set_xlabel(p.column)
-        ax.set_ylabel(value if not mc else column + " (median)")
-        if p.spacing == "log":
-            ax.set_xscale("log")
-    elif len(axes) == 2:
-        p, q = axes
-        nx, ny = p.values.size, q.values.size
-        z = data[value].to_numpy().reshape(nx, ny)
-        finite = z[np.isfinite(z)]
-        norm = None
-        if finite.size and finite.min() > 0 and finite.max() > 100 * finite.min():
-            from matplotlib.colors import LogNorm
-
-            norm = LogNorm(finite.min(), finite.max())
-        if finite.size < z.size:
-            ax.text(
-                0.0,
-                -0.16,
-                "white cells: the quantity does not apply there",
-                transform=ax.transAxes,
-                fontsize=8,
-                va="top",
-            )
-        mesh = ax.pcolormesh(
-            _edges(q.values, q.spacing),
-            _edges(p.values, p.spacing),
-            z,
-            cmap="cividis",
-            shading="flat",
-            norm=norm,
-        )
-        cbar = fig.colorbar(mesh, ax=ax)
-        cbar.set_label(value)
-        ax.set_xlabel(q.column)
-        ax.set_ylabel(p.column)
-        if q.spacing == "log":
-            ax.set_xscale("log")
-        if p.spacing == "log":
-            ax.set_yscale("log")
-    else:
-        y = float(data[value].iloc[0])
-        lo = float(data[_band_label(column, 2.5)].iloc[0])
-        hi = float(data[_band_label(column, 97.5)].iloc[0])
-        ax.errorbar([0], [y], yerr=[[y - lo], [hi - y]], fmt="ko", capsize=6)
-        ax.set_xticks([0], ["median, 2.5-97.5 %"])
-        ax.set_ylabel(column)
-    ax.set_title(title, fontsize=10, parse_math=False)  # the user's text, drawn as written
-    return fig
-
-
-def _edges(values, spacing: str):
-    """Cell edges around grid values (geometric midpoints on a log axis)."""
-    import numpy as np
-
-    v = np.asarray(values, dtype=float)
-    if v.size == 1:
-        return np.array([v[0] * 0.9, v[0] * 1.1]) if v[0] else np.array([-0.5, 0.5])
-    if spacing == "log" and np.all(v > 0):
-        lv = np.log(v)
-        mid = (lv[1:] + lv[:-1]) / 2
-        return np.exp(np.concatenate([[2 * lv[0] - mid[0]], mid, [2 * lv[-1] - mid[-1]]]))
-    mid = (v[1:] + v[:-1]) / 2
-    return np.concatenate([[2 * v[0] - mid[0]], mid, [2 * v[-1] - mid[-1]]])
-
-
 def _sweep_to_files(plan, paths, curves_file, samples_path, **options):
     """Run the sweep into its chunk store and tables, with progress; the plot's data."""
-    from .sweep_store import run_sweep
-    from .terminal import progress
+    from kinetics.cli.terminal import progress
+    from kinetics.sweep_store import run_sweep
 
     # one bar for both phases: computing the chunks, then writing the tables from them
     with progress(2 * plan.n_chunks, "sweeping") as bar:
@@ -213,8 +105,8 @@ def _sweep_in_memory(plan, engine: str, scheduler: str | None):
     """Every set's summary row (Monte Carlo: the bands), with progress; nothing on disk."""
     import pandas as pd
 
-    from .sweep import percentile_bands, run_chunks, summary_frame
-    from .terminal import progress
+    from kinetics.cli.terminal import progress
+    from kinetics.sweep import percentile_bands, run_chunks, summary_frame
 
     results = {}
     with progress(plan.n_chunks, "sweeping") as bar:
@@ -234,7 +126,7 @@ def _print_table(frame) -> None:
     from rich.markup import escape
     from rich.table import Table
 
-    from .terminal import console
+    from kinetics.cli.terminal import console
 
     out = console()
     table = Table(show_edge=False)
@@ -414,45 +306,12 @@ def sweep(
     stacked batches; with --out every finished chunk is kept in <out>.chunks/ so
     that an interrupted sweep continues with --resume.
     """
-    from .cli import _prepare
-    from .cli import load_scheme as load  # prints the scheme's warnings
-    from .export import check_output_path, check_output_paths
-    from .overview import CAUTION
-    from .sweep import make_plan
+    from kinetics.sweep import make_plan
 
-    times, time_unit, _ = _prepare(until, points, times_text, time_unit)
-    if scheduler is not None and engine != "dask":
-        raise UsageError("--scheduler needs --engine dask", "add --engine dask")
-    if workers is not None and (engine != "dask" or scheduler is not None):
-        raise UsageError(
-            "--workers sets the size of a local Dask cluster",
-            "use it with --engine dask and no --scheduler",
-        )
-    if samples_out is not None and not samples:
-        raise UsageError("--samples-out needs --samples", "e.g. --samples 1000 --spread k1=15%")
-    if resume and not (outputs or samples_out or curves_path):
-        raise UsageError("--resume needs the --out of the interrupted sweep", "add --out")
-    if (plot_spec is None) != (plot_out is None):
-        raise UsageError(
-            "--plot and --plot-out go together", "write e.g. --plot t_max:B --plot-out sweep.png"
-        )
-    inputs = [scheme_file]
-    paths = check_output_paths(outputs, inputs, formats={".csv": "", ".parquet": "", ".json": ""})
-    samples_path = _check_table_path(samples_out, inputs, "--samples-out")
-    curves_file = _check_table_path(curves_path, inputs, "--curves")
-    if plot_out is not None:
-        if plot_out.suffix.lower() not in _PLOT_FORMATS:
-            raise UsageError(
-                f"--plot-out {str(plot_out)!r} must end in .png or .svg",
-                "e.g. --plot-out sweep.png",
-            )
-        check_output_path(plot_out, inputs)
-    every = [*paths, samples_path, curves_file, plot_out]
-    named = [p.resolve() for p in every if p is not None]
-    if len(set(named)) != len(named):
-        raise UsageError("two outputs have the same file name", "give each output its own name")
-
-    scheme = load(scheme_file)
+    times, time_unit, _ = prepare(until, points, times_text, time_unit)
+    _check_options(engine, scheduler, workers, samples, samples_out, resume, outputs, curves_path)
+    out = _Outputs.checked(scheme_file, outputs, samples_out, curves_path, plot_spec, plot_out)
+    scheme = load_scheme(scheme_file)
     plan = make_plan(
         scheme,
         vary,
@@ -464,50 +323,111 @@ def sweep(
         chunk_size=chunk_size,
         precision=precision,
     )
-    plot_column = plot_quantity = None
-    if plot_spec is not None:
-        plot_column, plot_quantity = _plot_target(plot_spec, plan)
-        if not plan.parameters and not plan.samples:
-            raise UsageError("--plot needs at least one --vary", "e.g. --vary k2=0.01:1:25:log")
-        if len(plan.parameters) > 2:
-            raise UsageError(
-                f"--plot draws against one or two varied parameters, not {len(plan.parameters)}",
-                "sweep at most two parameters for a plot",
-            )
-    if not no_caution:
-        click.echo(CAUTION, err=True)
-    from .cli import first_use_note
-
+    plot = _plot_choice(plot_spec, plan)
+    caution(no_caution)
     first_use_note(sweeps=True)
-
-    if paths or samples_path or curves_file:
-        columns = []
-        if plot_column is not None:
-            from .sweep import _band_label
-
-            columns = list(plan.grid_columns)
-            if plan.samples:
-                columns += [_band_label(plot_column, p) for p in (2.5, 50.0, 97.5)]
-            else:
-                columns.append(plot_column)
+    if out.tables:
         plot_data = _sweep_to_files(
             plan,
-            paths,
-            curves_file,
-            samples_path,
+            out.paths,
+            out.curves,
+            out.samples,
             resume=resume,
             keep_chunks=keep_chunks,
             engine=engine,
             scheduler=scheduler,
             workers=workers,
-            plot_columns=columns,
+            plot_columns=_plot_columns(plan, plot),
         )
     else:
         table = _sweep_in_memory(plan, engine, scheduler)
         _print_table(table)  # after the progress bar: stdout stays out of its way
         plot_data = table
-    if plot_column is not None:
-        from .plotting import save_figure
+    if plot is not None:
+        from kinetics.output.plotting import save_figure
+        from kinetics.output.sweep_plot import sweep_figure
 
-        save_figure(sweep_figure(plan, plot_data, plot_column, plot_quantity), plot_out)
-        click.echo(f"wrote {plot_out}", err=True)
+        save_figure(sweep_figure(plan, plot_data, *plot), out.plot)
+        click.echo(f"wrote {out.plot}", err=True)
+
+
+def _check_options(engine, scheduler, workers, samples, samples_out, resume, outputs, curves):
+    """Refuse options that do not go together, before any file is read."""
+    if scheduler is not None and engine != "dask":
+        raise UsageError("--scheduler needs --engine dask", "add --engine dask")
+    if workers is not None and (engine != "dask" or scheduler is not None):
+        raise UsageError(
+            "--workers sets the size of a local Dask cluster",
+            "use it with --engine dask and no --scheduler",
+        )
+    if samples_out is not None and not samples:
+        raise UsageError("--samples-out needs --samples", "e.g. --samples 1000 --spread k1=15%")
+    if resume and not (outputs or samples_out or curves):
+        raise UsageError("--resume needs the --out of the interrupted sweep", "add --out")
+
+
+@dataclass(frozen=True)
+class _Outputs:
+    """The checked output files of a sweep (None where not asked for)."""
+
+    paths: list[Path]
+    samples: Path | None
+    curves: Path | None
+    plot: Path | None
+
+    @property
+    def tables(self) -> bool:
+        """True when a table goes to a file (the sweep then runs through its chunk store)."""
+        return bool(self.paths or self.samples or self.curves)
+
+    @classmethod
+    def checked(cls, scheme_file, outputs, samples_out, curves_path, plot_spec, plot_out):
+        if (plot_spec is None) != (plot_out is None):
+            raise UsageError(
+                "--plot and --plot-out go together",
+                "write e.g. --plot t_max:B --plot-out sweep.png",
+            )
+        inputs = [scheme_file]
+        formats = {".csv": "", ".parquet": "", ".json": ""}
+        paths = check_output_paths(outputs, inputs, formats=formats)
+        samples_path = _check_table_path(samples_out, inputs, "--samples-out")
+        curves_file = _check_table_path(curves_path, inputs, "--curves")
+        if plot_out is not None:
+            if plot_out.suffix.lower() not in _PLOT_FORMATS:
+                raise UsageError(
+                    f"--plot-out {str(plot_out)!r} must end in .png or .svg",
+                    "e.g. --plot-out sweep.png",
+                )
+            check_output_path(plot_out, inputs)
+        every = [*paths, samples_path, curves_file, plot_out]
+        named = [p.resolve() for p in every if p is not None]
+        if len(set(named)) != len(named):
+            raise UsageError("two outputs have the same file name", "give each output its own name")
+        return cls(paths, samples_path, curves_file, plot_out)
+
+
+def _plot_choice(plot_spec, plan) -> tuple[str, str] | None:
+    """(summary column, quantity) of ``--plot``, checked against the plan; None without."""
+    if plot_spec is None:
+        return None
+    plot = _plot_target(plot_spec, plan)
+    if not plan.parameters and not plan.samples:
+        raise UsageError("--plot needs at least one --vary", "e.g. --vary k2=0.01:1:25:log")
+    if len(plan.parameters) > 2:
+        raise UsageError(
+            f"--plot draws against one or two varied parameters, not {len(plan.parameters)}",
+            "sweep at most two parameters for a plot",
+        )
+    return plot
+
+
+def _plot_columns(plan, plot) -> list[str]:
+    """The columns the plot needs from the tables written (Monte Carlo: the bands)."""
+    if plot is None:
+        return []
+    from kinetics.sweep import band_label
+
+    columns = list(plan.grid_columns)
+    if plan.samples:
+        return columns + [band_label(plot[0], p) for p in (2.5, 50.0, 97.5)]
+    return [*columns, plot[0]]

@@ -1,7 +1,8 @@
 """Terminal rendering with rich: tables with units in every header.
 
 Colour is used only when writing to a terminal (rich detects it; ``NO_COLOR``
-is honoured).  This module prints; the library modules never do.
+is honoured).  This module prints; the library modules never do.  Tables are built
+from plain arrays and lists (the command line never needs pandas).
 """
 
 from __future__ import annotations
@@ -12,8 +13,8 @@ from rich.console import Console
 from rich.table import Table
 
 if TYPE_CHECKING:
-    from .scheme import Scheme
-    from .solution import Solution
+    from kinetics.scheme import Scheme
+    from kinetics.solution import Solution
 
 __all__ = [
     "console",
@@ -123,14 +124,14 @@ def render_check(scheme: Scheme, report: dict, full_tables: bool = False) -> Non
     ----------
     scheme : Scheme
     report : dict
-        :func:`kinetics.overview.check_report` of ``scheme``.
+        :func:`kinetics.output.overview.check_report` of ``scheme``.
     full_tables : bool, optional
         Print every table however long.  Otherwise a scheme with more than
         :data:`CHECK_TABLE_ROWS` species or steps gets an overview: counts of
         species, roles, steps and components, the balance verdict and every
         problem found, and where to find the rest (``--full-tables``, ``--json``).
     """
-    from .overview import CHECK_TABLE_ROWS
+    from kinetics.output.overview import CHECK_TABLE_ROWS
 
     out = console()
     title = report["title"] or report["source"]
@@ -196,7 +197,7 @@ def _print_counts(report: dict, out: Console) -> None:
     """The overview of a large scheme instead of its tables: counts and ranges."""
     from collections import Counter
 
-    from .overview import CHECK_TABLE_ROWS
+    from kinetics.output.overview import CHECK_TABLE_ROWS
 
     details, steps = report["species_details"], report["reactions"]
     out.print(
@@ -388,14 +389,18 @@ _HEADER_WIDTH = 14
 def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> None:
     """Print the summary quantities as tables with units in every header, then the
     whole-scheme quantities (relaxation times, selectivity...) of :attr:`Summary.scheme`."""
-    from .overview import SUMMARY_COLUMNS, scheme_lines, summary_header
+    from kinetics.output.summary_text import (
+        SUMMARY_COLUMNS,
+        scheme_lines,
+        summary_header,
+        summary_notes,
+    )
 
     out = out or console()
     out.print("[bold]Summary[/bold] (on the exact solution, not read off the grid)")
     columns = [c for c in SUMMARY_COLUMNS if c[0] in TERMINAL_SUMMARY]
     headers = ["species"] + [summary_header(c, time_unit, conc_unit) for c in columns]
     rows = []
-    notes = []
     for name, entry in summary.items():
         cells = [str(name)]
         for key, _, _ in columns:
@@ -407,17 +412,8 @@ def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> N
                 text = "unbounded"
             cells.append(text)
         rows.append(cells)
-        maxima = entry.get("maxima") or []
-        if len(maxima) > 1:
-            listed = ", ".join(
-                f"{m['height']:.4g} at {m['time']:.4g} {time_unit}"
-                for m in maxima
-                if m.get("time") is not None and m.get("height") is not None
-            )
-            notes.append(f"{name}: local maxima {listed}")
-        notes.extend(f"{name}: {note}" for note in entry.get("notes") or [])
     print_fitted(out, headers, rows)
-    for note in dict.fromkeys(notes):
+    for note in summary_notes(summary, time_unit, conc_unit):
         out.print(f"  note: {_escape(note)}")
     lines = scheme_lines(getattr(summary, "scheme", None) or {}, time_unit, conc_unit)
     if lines:
@@ -444,28 +440,33 @@ def render_solution(
     max_rows : int, optional
         The table is thinned to about this many rows (first and last always shown).
     summary : dict, optional
-        Species -> quantities in ``time_unit`` (see :func:`kinetics.overview.summary_in_units`).
+        Species -> quantities in ``time_unit`` (see
+        :func:`kinetics.analysis.solution_summary.summary_in_units`).
     species : list of str, optional
         Columns to show (default: every species, at most ``max_columns`` of them).
     max_columns : int, optional
         Without ``species``, show only the first this many species and say so.
     """
+    from kinetics.units import time_factor
+
     out = console()
     hidden = 0
     if not species and len(solution.species) > max_columns:
         hidden = len(solution.species) - max_columns
         species = solution.species[:max_columns]
     if summary:
-        from .overview import Summary
+        from kinetics.analysis.solution_summary import Summary
 
         kept = {k: v for k, v in summary.items() if not species or k in species}
         shown = Summary(kept, getattr(summary, "scheme", None))
         render_summary(shown, time_unit, solution.concentration_unit, out)
-    frame = solution.to_frame(time_unit)
-    if species:
-        keep = [frame.columns[0]] + [f"{name} [{solution.concentration_unit}]" for name in species]
-        frame = frame[keep]
-    n = len(frame)
+    # the table straight from the arrays (the command line never needs pandas)
+    shown_species = species or solution.species
+    unit = solution.concentration_unit
+    headers = [f"time [{time_unit}]"] + [f"{name} [{unit}]" for name in shown_species]
+    columns = [solution.times / time_factor(time_unit)]
+    columns += [solution.concentrations[:, solution.species.index(name)] for name in shown_species]
+    n = len(solution.times)
     step = max(1, (n - 1) // (max_rows - 1)) if n > max_rows else 1
     rows = list(range(0, n, step))
     if rows[-1] != n - 1:
@@ -474,9 +475,8 @@ def render_solution(
     if step > 1:
         title += f": {len(rows)} of {n} points shown (1 in {step}); --out writes them all"
     out.print(f"[bold]{title}")
-    values = frame.to_numpy()
-    cells = [[f"{v:.6g}" for v in values[i]] for i in rows]
-    print_fitted(out, [str(c) for c in frame.columns], cells, align="right")
+    cells = [[f"{column[i]:.6g}" for column in columns] for i in rows]
+    print_fitted(out, headers, cells, align="right")
     if hidden:
         out.print(
             f"{hidden} more species not shown; choose columns with --species, "

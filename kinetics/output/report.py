@@ -18,9 +18,21 @@ import datetime as _dt
 from html import escape
 from typing import TYPE_CHECKING
 
+from kinetics import files
+from kinetics._version import __version__
+from kinetics.output.overview import CAUTION, certificate_sentence, inputs_tables
+from kinetics.output.summary_text import (
+    DEFINITIONS,
+    SCHEME_DEFINITIONS,
+    SUMMARY_COLUMNS,
+    scheme_lines,
+    summary_header,
+    summary_notes,
+)
+
 if TYPE_CHECKING:
-    from .scheme import Scheme
-    from .solution import Solution
+    from kinetics.scheme import Scheme
+    from kinetics.solution import Solution
 
 __all__ = ["build_report", "write_report"]
 
@@ -93,8 +105,6 @@ def _img(png: bytes, alt: str) -> str:
 
 
 def _inputs_section(scheme: Scheme) -> str:
-    from .overview import inputs_tables
-
     tables = inputs_tables(scheme)
     parts = ["<h2>Inputs</h2>"]
     unit = scheme.concentration_unit
@@ -146,7 +156,7 @@ def _inputs_section(scheme: Scheme) -> str:
 
 
 def _balance_section(scheme: Scheme) -> str:
-    from .balance import mass_balance
+    from kinetics.balance import mass_balance
 
     b = mass_balance(scheme)
     if not b.checked:
@@ -185,20 +195,12 @@ def _balance_section(scheme: Scheme) -> str:
 
 
 def _summary_section(summary: dict | None, time_unit: str, conc_unit: str) -> str:
-    from .overview import (
-        DEFINITIONS,
-        SCHEME_DEFINITIONS,
-        SUMMARY_COLUMNS,
-        scheme_lines,
-        summary_header,
-    )
-
     parts = ["<h2>Summary quantities (exact)</h2>"]
     if not summary:
         parts.append("<p>No summary quantities are available.</p>")
         return "\n".join(parts)
     headers = ["species"] + [summary_header(c, time_unit, conc_unit) for c in SUMMARY_COLUMNS]
-    rows, notes = [], []
+    rows = []
     for name, entry in summary.items():
         row = [escape(name)]
         for key, _, _ in SUMMARY_COLUMNS:
@@ -213,15 +215,6 @@ def _summary_section(summary: dict | None, time_unit: str, conc_unit: str) -> st
                 cell = "unbounded"
             row.append(cell)
         rows.append(row)
-        maxima = entry.get("maxima") or []
-        if len(maxima) > 1:
-            listed = ", ".join(
-                f"{m['height']:.4g} {escape(conc_unit)} at {m['time']:.4g} {escape(time_unit)}"
-                for m in maxima
-                if m.get("time") is not None and m.get("height") is not None
-            )
-            notes.append(f"{escape(name)}: local maxima {listed}")
-        notes.extend(f"{escape(name)}: {escape(n)}" for n in entry.get("notes") or [])
     # two tables: the decision quantities, then time scales and areas
     split = [k for k, _, _ in SUMMARY_COLUMNS].index("time_to_limit") + 1
     for first, last, caption in ((1, split, "Main quantities"), (split, None, "Time scales")):
@@ -231,8 +224,9 @@ def _summary_section(summary: dict | None, time_unit: str, conc_unit: str) -> st
         numeric = {j for j, i in enumerate(cols, 1) if SUMMARY_COLUMNS[i - 1][0] != "limit_kind"}
         parts.append(f"<h3>{caption}</h3>")
         parts.append(f'<div class="scroll">{_table(part_headers, part_rows, numeric)}</div>')
+    notes = summary_notes(summary, time_unit, conc_unit)
     if notes:
-        items = "".join(f"<li>{n}</li>" for n in dict.fromkeys(notes))
+        items = "".join(f"<li>{escape(n)}</li>" for n in notes)
         parts.append(f'<ul class="notes">{items}</ul>')
     lines = scheme_lines(getattr(summary, "scheme", None) or {}, time_unit, conc_unit)
     if lines:
@@ -287,7 +281,8 @@ def build_report(
     solution : Solution
         The solved table (its times are the rows of the concentration table).
     summary : dict or None
-        Species -> quantities in ``time_unit`` (see :func:`kinetics.overview.summary_in_units`).
+        Species -> quantities in ``time_unit`` (see
+        :func:`kinetics.analysis.solution_summary.summary_in_units`).
     time_unit : str
         Unit of time throughout the report.
     sha256 : str, optional
@@ -308,69 +303,19 @@ def build_report(
     str
         One complete HTML document.
     """
-    from . import __version__
-    from .overview import CAUTION, certificate_sentence
-    from .plotting import concentration_figure, figure_bytes, species_graph_figure
-
     heading = title if title is not None else (scheme.title or scheme.source)
     when = (generated or _dt.datetime.now(_dt.UTC)).strftime("%Y-%m-%d %H:%M:%S UTC")
-    unit = solution.concentration_unit
-    settings = settings or {}
-    grid = ", ".join(f"{escape(str(k))} = {escape(str(v))}" for k, v in settings.items())
-    parts = [
-        "<!DOCTYPE html>",
-        '<html lang="en"><head><meta charset="utf-8">',
-        '<meta name="viewport" content="width=device-width, initial-scale=1">',
-        '<link rel="icon" href="data:,">',
-        f"<title>{escape(heading)} — kinetics report</title>",
-        f"<style>{_CSS}</style></head><body><main>",
-        f"<h1>{escape(heading)}</h1>",
-        '<p class="meta">',
-        f"Scheme file: <code>{escape(scheme.source)}</code><br>",
-        f"SHA-256 of the file: <code>{escape(sha256 or 'not recorded')}</code><br>",
-        f"Software: kinetics {escape(__version__)} · generated {escape(when)}<br>",
-        f"Time grid: {grid or '—'} ({len(solution.times)} points)",
-        "</p>",
-    ]
-    lines = CAUTION.splitlines()
-    parts.append(
-        '<div class="caution" role="note"><strong>'
-        + escape(lines[0])
-        + "</strong>"
-        + "<br>".join(escape(line) for line in lines[1:])
-        + "<br>SAFETY.md (printed by <code>kinetics safety</code>) states the limits of the "
-        "model in full; defer to local codes, licensed practice and your organisation's "
-        "safety review.</div>"
-    )
+    parts = _head(heading, scheme, solution, sha256, settings or {}, when)
+    parts.append(_caution_box())
     parts.append("<h2>Scheme as written</h2>")
     parts.append(f'<pre class="scheme">{escape(scheme.text.rstrip())}</pre>')
-
-    parts.append("<h2>Species graph</h2>")
-    graph = species_graph_figure(scheme)
-    if graph is None:
-        parts.append("<p>The scheme has too many species for a readable drawing.</p>")
-    else:
-        parts.append(
-            "<figure>"
-            + _img(figure_bytes(graph, "png", dpi=110), "species graph")
-            + "<figcaption>One box per species, one arrow per step, labelled with its rate "
-            "constant; dashed boxes are species held in excess.</figcaption></figure>"
-        )
+    parts.append(_graph_section(scheme))
     parts.append(_inputs_section(scheme))
     parts.append(_balance_section(scheme))
-    parts.append(_summary_section(summary, time_unit, unit))
-
-    parts.append("<h2>Concentrations</h2>")
-    figure = concentration_figure(
-        plot_solution or solution, time_unit, summary, species=species, title=heading
-    )
-    parts.append(
-        '<figure id="concentration-plot">'
-        + _img(figure_bytes(figure, "png", dpi=110), "concentration against time")
-        + f"<figcaption>Concentration [{escape(unit)}] against time [{escape(time_unit)}], "
-        "linear scale (left) and logarithmic scale (right). Stars mark maxima, open circles "
-        "half-lives.</figcaption></figure>"
-    )
+    parts.append(_summary_section(summary, time_unit, solution.concentration_unit))
+    plotted = plot_solution or solution
+    unit = solution.concentration_unit
+    parts.append(_plot_section(plotted, time_unit, unit, summary, species, heading))
     parts.append(
         f"<h3>Table ({len(solution.times)} points; exact values, 8 significant digits)</h3>"
     )
@@ -386,9 +331,71 @@ def build_report(
     return "\n".join(parts) + "\n"
 
 
+def _head(heading: str, scheme: Scheme, solution: Solution, sha256, settings, when) -> list:
+    """The document head and the provenance lines (file, hash, software, date, grid)."""
+    grid = ", ".join(f"{escape(str(k))} = {escape(str(v))}" for k, v in settings.items())
+    return [
+        "<!DOCTYPE html>",
+        '<html lang="en"><head><meta charset="utf-8">',
+        '<meta name="viewport" content="width=device-width, initial-scale=1">',
+        '<link rel="icon" href="data:,">',
+        f"<title>{escape(heading)} — kinetics report</title>",
+        f"<style>{_CSS}</style></head><body><main>",
+        f"<h1>{escape(heading)}</h1>",
+        '<p class="meta">',
+        f"Scheme file: <code>{escape(scheme.source)}</code><br>",
+        f"SHA-256 of the file: <code>{escape(sha256 or 'not recorded')}</code><br>",
+        f"Software: kinetics {escape(__version__)} · generated {escape(when)}<br>",
+        f"Time grid: {grid or '—'} ({len(solution.times)} points)",
+        "</p>",
+    ]
+
+
+def _caution_box() -> str:
+    lines = CAUTION.splitlines()
+    return (
+        '<div class="caution" role="note"><strong>'
+        + escape(lines[0])
+        + "</strong>"
+        + "<br>".join(escape(line) for line in lines[1:])
+        + "<br>SAFETY.md (printed by <code>kinetics safety</code>) states the limits of the "
+        "model in full; defer to local codes, licensed practice and your organisation's "
+        "safety review.</div>"
+    )
+
+
+def _graph_section(scheme: Scheme) -> str:
+    from kinetics.output.graph_figure import species_graph_figure
+    from kinetics.output.plotting import figure_bytes
+
+    graph = species_graph_figure(scheme)
+    if graph is None:
+        return (
+            "<h2>Species graph</h2>\n<p>The scheme has too many species for a readable drawing.</p>"
+        )
+    return (
+        "<h2>Species graph</h2>\n<figure>"
+        + _img(figure_bytes(graph, "png", dpi=110), "species graph")
+        + "<figcaption>One box per species, one arrow per step, labelled with its rate "
+        "constant; dashed boxes are species held in excess.</figcaption></figure>"
+    )
+
+
+def _plot_section(solution: Solution, time_unit: str, unit: str, summary, species, heading):
+    from kinetics.output.plotting import concentration_figure, figure_bytes
+
+    figure = concentration_figure(solution, time_unit, summary, species=species, title=heading)
+    return (
+        "<h2>Concentrations</h2>\n"
+        '<figure id="concentration-plot">'
+        + _img(figure_bytes(figure, "png", dpi=110), "concentration against time")
+        + f"<figcaption>Concentration [{escape(unit)}] against time [{escape(time_unit)}], "
+        "linear scale (left) and logarithmic scale (right). Stars mark maxima, open circles "
+        "half-lives.</figcaption></figure>"
+    )
+
+
 def write_report(path, html: str) -> None:
     """Write the report text to ``path`` (UTF-8), atomically."""
-    from .export import atomic_path
-
-    with atomic_path(path) as tmp:
+    with files.atomic_path(path) as tmp:
         tmp.write_text(html, encoding="utf-8")
