@@ -296,6 +296,32 @@ def test_internal_error_is_one_sentence_with_status_1(chain, capsys, monkeypatch
     assert "Traceback" not in err
 
 
+@pytest.mark.parametrize(
+    "cls",
+    [
+        "RateMatrixError",
+        "ConcentrationError",
+        "TimesError",
+        "SpeciesError",
+        "SettingError",
+        "WorkingRangeError",
+        "TableSizeError",
+        "GrowthError",
+        "ArgumentTypeError",
+    ],
+)
+def test_every_core_error_is_one_line_and_status_2(chain, capsys, monkeypatch, cls):
+    import kinetics.errors
+    import kinetics.solution
+
+    def refused(scheme, times):
+        raise getattr(kinetics.errors, cls)("the library refused this", "do that instead")
+
+    monkeypatch.setattr(kinetics.solution, "solve", refused)
+    status, out, err = run(capsys, "solve", chain, "--until", "1h", "--no-caution")
+    assert (status, out, err) == (2, "", "kinetics: the library refused this; do that instead\n")
+
+
 def test_interrupted_run_leaves_no_file(chain, capsys, monkeypatch, tmp_path):
     import kinetics.files
     import kinetics.output.export
