@@ -24,8 +24,10 @@ and its exact curve), :mod:`~kinetics.analysis.scan`, :mod:`~kinetics.analysis.h
 and :mod:`~kinetics.analysis.roots` (the scan and the batched root finder),
 :mod:`~kinetics.analysis.limits`, :mod:`~kinetics.analysis.turning` (maxima),
 :mod:`~kinetics.analysis.crossings` (half-lives, times to a fraction and to the limit),
-:mod:`~kinetics.analysis.areas`, :mod:`~kinetics.analysis.relaxation` and
-:mod:`~kinetics.analysis.summary` (everything from one shared scan).
+:mod:`~kinetics.analysis.areas`, :mod:`~kinetics.analysis.relaxation`,
+:mod:`~kinetics.analysis.survey` (what the quantities share, computed once),
+:mod:`~kinetics.analysis.summary` (everything from one shared scan) and
+:mod:`~kinetics.analysis.solution_summary` (the summary of a solved scheme in its units).
 
 Definitions
 -----------
