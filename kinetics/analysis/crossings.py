@@ -9,6 +9,7 @@ turning points, so the curve is monotone between them) and refined by
 from __future__ import annotations
 
 from collections.abc import Sequence
+from typing import NamedTuple
 
 import numpy as np
 
@@ -20,6 +21,7 @@ from kinetics.analysis.survey import Survey
 from kinetics.analysis.tolerances import REL_NOISE_C
 
 __all__ = [
+    "Crossing",
     "fraction_times",
     "half_life",
     "half_life_detail",
@@ -30,23 +32,35 @@ __all__ = [
 ]
 
 
-def level_roots(problem: Problem, probs: list[tuple]) -> np.ndarray:
-    """Roots [s] of c_i(t) = level, one per (i, samples of c_i, ka, kb, level) with c_i
-    monotone on the sample interval [ka, kb]."""
-    if not probs:
+class Crossing(NamedTuple):
+    """One level crossing to find: c_i is monotone between samples ``ka`` and ``kb`` and
+    crosses ``level`` [conc] there."""
+
+    species: int
+    samples: tuple[np.ndarray, ...]
+    ka: int
+    kb: int
+    level: float
+
+
+def level_roots(problem: Problem, crossings: list[Crossing]) -> np.ndarray:
+    """Roots [s] of c_i(t) = level, one per crossing."""
+    if not crossings:
         return np.zeros(0)
-    sp = np.array([p[0] for p in probs], dtype=int)
-    LV = np.array([p[4] for p in probs], dtype=float)
+    sp = np.array([c.species for c in crossings], dtype=int)
+    LV = np.array([c.level for c in crossings], dtype=float)
 
-    def at(k: int, which: int) -> np.ndarray:  # sample ``which`` at end ``k`` (2: ka, 3: kb)
-        return np.array([p[1][which][p[k]] for p in probs], dtype=float)
+    def at(end: str, which: int) -> np.ndarray:  # sample ``which`` (t, c, c', c'') at an end
+        return np.array([c.samples[which][getattr(c, end)] for c in crossings], dtype=float)
 
-    A, B = at(2, 0), at(3, 0)
-    GA, GB = at(2, 1) - LV, at(3, 1) - LV
+    A, B = at("ka", 0), at("kb", 0)
+    GA, GB = at("ka", 1) - LV, at("kb", 1) - LV
     NA = REL_NOISE_C * np.maximum(np.abs(GA + LV), LV)
     NB = REL_NOISE_C * np.maximum(np.abs(GB + LV), LV)
     no = np.zeros(sp.size, dtype=bool)
-    brackets = Brackets(A, B, GA, GB, at(2, 2), at(3, 2), at(2, 3), at(3, 3), sp, LV, no, NA, NB)
+    brackets = Brackets(
+        A, B, GA, GB, at("ka", 2), at("kb", 2), at("ka", 3), at("kb", 3), sp, LV, no, NA, NB
+    )
     return find_roots(problem, brackets)[0]
 
 
@@ -98,7 +112,7 @@ def fraction_times(survey: Survey, requests: Sequence[tuple[int, float]]) -> lis
         if neg.size:
             kb = int(neg[0])
             ka = int(np.flatnonzero(s[:kb] > 0)[-1])
-            probs.append((i, smp, ka, kb, target))
+            probs.append(Crossing(i, smp, ka, kb, target))
             where.append(r)
             continue
         out[r] = FractionTime(i, phi, None, _never_reason(problem, i, phi, lim, t[-1]))
@@ -108,9 +122,9 @@ def fraction_times(survey: Survey, requests: Sequence[tuple[int, float]]) -> lis
     return out  # type: ignore[return-value]
 
 
-def _settling_problem(survey: Survey, i: int, thr: float):
-    """(i, samples, ka, kb, level) of the last exit of c_i from the band of half-width
-    ``thr`` around its limit, 0.0 when it never leaves it, inf when it never settles."""
+def _settling_problem(survey: Survey, i: int, thr: float) -> Crossing | float:
+    """The last exit of c_i from the band of half-width ``thr`` around its limit; 0.0 when
+    it never leaves the band, inf when it does not settle within the scan."""
     L = survey.limits.limit.values
     smp = survey.samples(i)
     v = smp[1]
@@ -126,7 +140,7 @@ def _settling_problem(survey: Survey, i: int, thr: float):
         return np.inf  # not settled within the scan
     kb = ka + 1 + int(inside[0])
     lev = L[i] + thr if v[ka] > L[i] else L[i] - thr
-    return (i, smp, ka, kb, lev)
+    return Crossing(i, smp, ka, kb, lev)
 
 
 def settling_times(survey: Survey, tolerance: float) -> TimeToLimit:
@@ -143,12 +157,12 @@ def settling_times(survey: Survey, tolerance: float) -> TimeToLimit:
         if lim.unbounded[i]:
             continue  # no limit to approach; the others are still timed
         found = _settling_problem(survey, i, tolerance * (L[i] if L[i] > 0 else big))
-        if isinstance(found, tuple):
+        if isinstance(found, Crossing):
             probs.append(found)
         else:
             per[i] = found
     if probs:
-        per[np.array([p[0] for p in probs])] = level_roots(problem, probs)
+        per[np.array([p.species for p in probs])] = level_roots(problem, probs)
     if not lim.bounded:
         who = ", ".join(problem.names[i] for i in np.flatnonzero(lim.unbounded))
         verb = "grows" if lim.unbounded.sum() == 1 else "grow"
