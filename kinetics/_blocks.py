@@ -1,50 +1,114 @@
 r"""Block-triangular propagation of large sparse schemes (private).
 
-The species graph (edge :math:`j \to i` when :math:`k_{ij} > 0`) is condensed
-into its strongly connected components; in a topological order of the
-condensation the rate matrix is block lower triangular, and so is its
-exponential.  The permuted matrix is cut into square tiles along that order and
-only tiles that carry a nonzero are stored, so a decay-like chain of thousands of
-species costs a few banded tile products instead of dense ones.
+The species graph (edge :math:`j \to i` when :math:`k_{ij} > 0`) is restricted to the
+species reachable from those present at the start (or fed), then condensed into its
+strongly connected components (blocks); in a topological order of the blocks the rate
+matrix is block lower triangular, and so is its exponential.
 
-The exponential of one interval, :math:`F = e^{hK}`, is computed with the same
-nonnegative shift-Taylor-square algorithm as the dense engine (Xue & Ye 2013),
-in plain double precision, on the tile-sparse matrix:
+**One interval.**  :math:`F = e^{hK}` comes from the nonnegative shift-Taylor-square
+algorithm (Xue & Ye 2013), with :math:`\sigma \ge \max_i q_i` (:math:`q_i` the
+outflow of species i) and :math:`Y = \tfrac{h}{2^j}(K + \sigma I) \ge 0`:
 
 .. math::
 
-    F = \left(e^{-\sigma h/2^j}\, T_m\!\left(\tfrac{h}{2^j}(K + \sigma I)\right)
-        \right)^{2^j},
+    F = \left(e^{-\sigma h/2^j}\, T_m(Y)\right)^{2^j}, \qquad
+    T_m(Y) = \sum_{k=0}^{m} Y^k / k!.
 
-with the Taylor polynomial evaluated by Paterson-Stockmeyer.  Entries that
-fall below ``DROP`` (1e-150) are dropped after each product; this keeps the band
-of the tiles bounded, and it is why entries below about 1e-150 are not resolved
-on this route (README, Limits of the method).  The time grid is then walked with sparse products
-:math:`c_{k+1} = F c_k` (nonnegative, so relative errors only add up).
+* The Taylor polynomial is summed column by column over the sparse pattern
+  (:func:`kinetics._block_kernels.column_taylor`); its columns fill the *panels*
+  (one dense panel per tile of columns, from the tile's first row down to the last
+  row with a nonzero), and the squarings are panel products in BLAS.
+* The diagonal blocks of :math:`F` are exact: a species that forms a block of its
+  own has :math:`F_{ii} = e^{-q_i t}` (a double-double exponential), a larger
+  block's :math:`e^{tK_{bb}}` is summed and squared in double-double with its own
+  shift.  They replace the diagonal blocks of the panels at every squaring.  This is
+  what makes the route accurate over long times: rounding the shifted diagonal
+  :math:`\sigma - q_i` to double acts like a leak of about :math:`u\sigma` per
+  second (Issue 11 measured :math:`2\cdot 10^{-11}` on a 2,000-species network);
+  with exact diagonal blocks the off-diagonal errors add along the path instead.
+* The diagonal :math:`\sigma - q_i` and the exact outflow :math:`q_i` come from
+  ``K + K_low`` in double-double.
+* No entry is dropped; entries below :data:`FLUSH` (:math:`2^{-1060}`) are set to
+  zero so that BLAS does not run into subnormal numbers (about 300 times slower).
+
+**The grid.**  A uniform grid is walked with one :math:`F(\Delta t)`, other grids
+with one :math:`F` per distinct interval.  The state is carried in double-double:
+the diagonal blocks act in double-double, the coupling between blocks is one BLAS
+product per tile in double.  The state is scaled by a power of two so that its
+largest start value is about one.
+
+**Certificate** (per time point, relative, for every concentration above ``floor``;
+relative errors composed as :math:`\prod(1+\epsilon_i) - 1`):
+
+* *rounding*: an entry whose longest path from a species present at the start
+  crosses :math:`\Lambda` blocks is off by at most :math:`(1 + c)^{\Lambda}
+  (1+\eta) - 1`, where :math:`c` is the per-crossing error (Taylor sum,
+  :math:`\gamma` of the tile products and of the coupling product in each step, the
+  diagonal blocks rounded to double) and :math:`\eta` the double-double error of the
+  diagonal blocks accumulated over the steps.  (Each factor of a product that
+  stays inside one block is exact to double-double, so only the factors that cross
+  from one block to another carry a double rounding, and a path crosses at most
+  :math:`\Lambda` of them however many steps and squarings it spans.)
+* *truncation*, a posteriori and rigorous: for nonnegative commuting factors
+  :math:`e^{Y} - T_m(Y) \le G e^{Y}` with :math:`G = Y^{m+1}/(m+1)!` (Lagrange
+  remainder), hence :math:`F - F_{\rm computed} \le 2^j G F` entrywise; applied to
+  each computed state through :math:`(I - 2^j G)^{-1}` (a Neumann series
+  summed until it falls below the floor), entries where it is not small relative
+  to the state go to the absolute part;
+* *absolute* (1-norm, scaled by the floor): flushed entries, underflow,
+  truncation mass on entries below the floor;
+* *time*: a grid time that differs from the sum of the steps by :math:`\delta`
+  moves a concentration by at most :math:`(\Lambda/t + \sigma)\,|\delta|`
+  relative;
+* the final rounding to double.
 
 References
 ----------
 J. Xue, Q. Ye, "Computing exponentials of essentially non-negative matrices
 entrywise to high relative accuracy", Math. Comp. 82, 1577-1596 (2013).
 doi:10.1090/S0025-5718-2012-02677-2
-R. Tarjan, "Depth-first search and linear graph algorithms", SIAM J. Comput.
-1, 146-160 (1972) (strongly connected components; networkx implementation).
+M. Shao, W. Gao, J. Xue, "Aggressively truncated Taylor series method for accurate
+computation of exponentials of essentially nonnegative matrices", SIAM J. Matrix
+Anal. Appl. 35, 317-338 (2014) (a posteriori truncation with the Lagrange form).
+T. Ogita, S. M. Rump, S. Oishi, "Accurate sum and dot product", SIAM J. Sci.
+Comput. 26, 1955-1988 (2005) (double-double products of the diagonal blocks).
+R. Tarjan, "Depth-first search and linear graph algorithms", SIAM J. Comput. 1,
+146-160 (1972) (strongly connected components; scipy implementation).
 """
 
 from __future__ import annotations
 
 import math
+from fractions import Fraction
 
 import numpy as np
 import scipy.sparse
 
+from kinetics._doubledouble import DD_UNIT
 from kinetics.network import condensation
 
-__all__ = ["block_order", "expm_blocks", "propagate_blocks"]
+__all__ = ["FLUSH", "TILE", "block_order", "propagate_blocks"]
 
+#: Target width of a tile of columns (a block wider than this is a tile of its own).
 TILE = 128
-DROP = 1e-150
+#: Entries of the panels below this are set to zero (no subnormal numbers in BLAS).
+FLUSH = 2.0**-1060
+#: Target norm of the scaled matrix Y in the Taylor phase.
+YMAX = 8.0
 _U = 2.0**-53
+_EPS_SINGLE = 2.0**-96  # double-double exponential of a scalar (conservative)
+_TRUNC_REL = 2.0**-40  # a truncation bound above this fraction of an entry is absolute
+
+
+def _gamma(k: float) -> float:
+    return k * _U / (1.0 - k * _U)
+
+
+def _compose(*eps: float) -> float:
+    out = 1.0
+    for e in eps:
+        out *= 1.0 + e
+    return out - 1.0
 
 
 def block_order(K) -> tuple[np.ndarray, list[list[int]]]:
@@ -72,254 +136,640 @@ def block_order(K) -> tuple[np.ndarray, list[list[int]]]:
     return order, blocks
 
 
-class _Tiles:
-    """Square matrix stored as a dict of dense tiles ``(I, J) -> ndarray``."""
+def _reachable(src, dst, n: int, seeds: np.ndarray) -> np.ndarray:
+    """Mask of the species reachable (along ``src -> dst``) from the ``seeds`` mask."""
+    from scipy.sparse.csgraph import breadth_first_order
 
-    def __init__(self, bounds: np.ndarray, tiles: dict | None = None) -> None:
-        self.bounds = bounds  # tile I covers rows bounds[I]:bounds[I+1]
-        self.tiles: dict[tuple[int, int], np.ndarray] = tiles if tiles is not None else {}
+    start = np.flatnonzero(seeds)
+    # a virtual species n that feeds every seed
+    rows = np.r_[src, np.full(start.size, n)]
+    cols = np.r_[dst, start]
+    adj = scipy.sparse.csr_array((np.ones(rows.size), (rows, cols)), shape=(n + 1, n + 1))
+    found = breadth_first_order(adj, n, directed=True, return_predecessors=False)
+    mask = np.zeros(n + 1, dtype=bool)
+    mask[found] = True
+    return mask[:n]
 
-    @property
-    def nt(self) -> int:
-        return len(self.bounds) - 1
 
-    @classmethod
-    def from_sparse(cls, S, bounds):
-        coo = scipy.sparse.coo_array(S)
-        out = cls(bounds)
-        nt = len(bounds) - 1
-        ti = np.searchsorted(bounds, coo.row, side="right") - 1
-        tj = np.searchsorted(bounds, coo.col, side="right") - 1
-        key = ti * nt + tj
-        orderk = np.argsort(key, kind="stable")
-        key, ti, tj = key[orderk], ti[orderk], tj[orderk]
-        rows, cols, vals = coo.row[orderk], coo.col[orderk], coo.data[orderk]
-        starts = np.flatnonzero(np.r_[True, key[1:] != key[:-1]]) if key.size else []
-        ends = np.r_[starts[1:], key.size] if key.size else []
-        for a, b in zip(starts, ends, strict=True):
-            i, j = int(ti[a]), int(tj[a])
-            blk = np.zeros((bounds[i + 1] - bounds[i], bounds[j + 1] - bounds[j]))
-            np.add.at(blk, (rows[a:b] - bounds[i], cols[a:b] - bounds[j]), vals[a:b])
-            if blk.any():
-                out.tiles[(i, j)] = blk
-        return out
+class _Layout:
+    """Species in block order, blocks, tiles and path lengths of one scheme.
 
-    @classmethod
-    def identity(cls, bounds, scale: float = 1.0):
-        out = cls(bounds)
-        for i in range(len(bounds) - 1):
-            w = bounds[i + 1] - bounds[i]
-            out.tiles[(i, i)] = np.eye(w) * scale
-        return out
+    Built from the (augmented) rate matrix ``K`` (CSR, n x n), its low parts
+    ``K_low`` (or None) and the scaled start vector ``x0``.  Only species
+    reachable from a nonzero start value take part; ``species[p]`` is the
+    original index of position ``p``.
+    """
 
-    def matmul(self, other: _Tiles) -> _Tiles:
-        by_row: dict[int, list[tuple[int, np.ndarray]]] = {}
-        for (l_, j), blk in other.tiles.items():
-            by_row.setdefault(l_, []).append((j, blk))
-        out: dict[tuple[int, int], np.ndarray] = {}
-        for (i, l_), a in self.tiles.items():
-            for j, b in by_row.get(l_, ()):
-                prod = a @ b
-                key = (i, j)
-                if key in out:
-                    out[key] += prod
-                else:
-                    out[key] = prod
-        res = _Tiles(self.bounds, out)
-        res.drop()
-        return res
+    def __init__(self, K, K_low, x0: np.ndarray) -> None:
+        n = K.shape[0]
+        coo = K.tocoo()
+        off = (coo.row != coo.col) & (coo.data != 0)
+        keep = np.flatnonzero(_reachable(coo.col[off], coo.row[off], n, x0 > 0))
+        Kr = K[keep][:, keep].tocoo()
+        off = Kr.row != Kr.col
+        comps = condensation(Kr.col[off], Kr.row[off], keep.size)
+        members = [comps.members[c] for c in comps.order]
+        local = np.concatenate(members) if members else np.zeros(0, dtype=int)
+        self.species = keep[local]
+        self.size = self.species.size
+        sizes = np.array([b.size for b in members], dtype=np.int64)
+        self.starts = np.r_[0, np.cumsum(sizes)].astype(np.int64)
+        self.block_of = np.repeat(np.arange(sizes.size), sizes)
+        self.first = self.starts[self.block_of]
+        self.crossings = self._crossings(comps, x0[self.species])
+        self.bounds = self._tiles(sizes)
+        self.tile_of = np.searchsorted(self.bounds, np.arange(self.size), side="right") - 1
+        perm = self.species
+        self.K = scipy.sparse.csr_array(K[perm][:, perm])
+        self.K_low = None if K_low is None else scipy.sparse.csr_array(K_low[perm][:, perm])
+        self._outflows()
+        single = sizes == 1
+        self.singles = self.starts[:-1][single]
+        pairs = zip(self.starts[:-1].tolist(), sizes.tolist(), strict=True)
+        self.groups = [(s, z) for s, z in pairs if z > 1]
 
-    def iadd(self, other: _Tiles) -> _Tiles:
-        """``self += other`` in place (returns self)."""
-        for k, v in other.tiles.items():
-            if k in self.tiles:
-                self.tiles[k] += v
+    def _crossings(self, comps, x0p: np.ndarray) -> np.ndarray:
+        """Longest path, in block crossings, from a block holding a start value."""
+        nb = len(comps.order)
+        rank = np.empty(nb, dtype=np.int64)
+        rank[np.array(comps.order, dtype=np.int64)] = np.arange(nb)
+        seeded = np.zeros(nb, dtype=bool)
+        seeded[self.block_of[x0p > 0]] = True
+        depth = np.full(nb, -1, dtype=np.int64)
+        for c in comps.order:
+            r = rank[c]
+            best = 0 if seeded[r] else -1
+            for pred in comps.predecessors[c]:
+                best = max(best, depth[rank[pred]] + 1)
+            depth[r] = best
+        return depth[self.block_of]
+
+    def _tiles(self, sizes: np.ndarray) -> np.ndarray:
+        """Tile bounds along block bounds, each tile about :data:`TILE` wide."""
+        bounds = [0]
+        width = 0
+        for z in sizes.tolist():
+            if width and width + z > TILE:
+                bounds.append(bounds[-1] + width)
+                width = 0
+            width += z
+        if width:
+            bounds.append(bounds[-1] + width)
+        return np.array(bounds, dtype=np.int64)
+
+    def _outflows(self) -> None:
+        """Outflow q_i = -(K_ii + K_low_ii) as a double-double pair (qh, ql)."""
+        dh = -self.K.diagonal()
+        dl = np.zeros_like(dh) if self.K_low is None else -self.K_low.diagonal()
+        hi = dh + dl
+        z = hi - dh
+        self.qh = hi
+        self.ql = (dh - (hi - z)) + (dl - z)  # Knuth's TwoSum
+        # column sums of K (growth when positive) for the norm of F
+        colsum = np.asarray(self.K.sum(axis=0)).ravel()
+        if self.K_low is not None:
+            colsum = colsum + np.asarray(self.K_low.sum(axis=0)).ravel()
+        self.growth = max(0.0, float(colsum.max(initial=0.0))) * (1 + 4 * _U)
+
+
+def _taylor_plan(sigma: float, h: float, boost: int) -> tuple[int, int, float]:
+    """Squarings ``j``, Taylor degree ``m`` and ``y = sigma h / 2^j``.
+
+    ``m`` is the smallest degree with :math:`2^j y^{m+1}/(m+1)! \\le 2^{-70}` (the
+    a posteriori truncation bound :math:`2^j G`, see the module docstring), times
+    ``boost`` (raised when that bound asks for more).
+    """
+    beta = sigma * h
+    j = max(0, math.ceil(math.log2(beta / YMAX))) if beta > 0 else 0
+    y = math.ldexp(beta, -j)
+    m = 2
+    target = -(70 + j) * math.log(2.0)
+    while (m + 1) * math.log(max(y, 1e-300)) - math.lgamma(m + 2) > target:
+        m += 1
+    return j, max(2, m * boost), y
+
+
+class _Interval:
+    """:math:`F = e^{hK}` of a layout, its pieces for stepping and its bounds.
+
+    Attributes used by the grid walk: ``off`` (panels with the diagonal blocks
+    zeroed), ``dh``/``dl`` (exact decay factors of single-species blocks),
+    ``groups`` (double-double diagonal blocks of larger ones), ``hop`` (relative
+    error per block crossing), ``eta`` (double-double error of the diagonal blocks
+    per step), ``squarings``, and the truncation operator (``Y``, ``m``).
+    """
+
+    def __init__(self, lay: _Layout, h: float, boost: int = 1) -> None:
+        self.lay = lay
+        self.h = h
+        sigma = float(lay.qh.max(initial=0.0))
+        at_max = lay.qh == sigma
+        if np.any(lay.ql[at_max] > 0):
+            sigma = float(np.nextafter(sigma, np.inf))
+        self.sigma = sigma
+        self.squarings, self.m, _ = _taylor_plan(sigma, h, boost)
+        self.scale = 2.0**self.squarings
+        tau = math.ldexp(h, -self.squarings)
+        self.Y = self._scaled(sigma, h, self.squarings)
+        self.indptr = self.Y.indptr.astype(np.int64)
+        self.indices = self.Y.indices.astype(np.int64)
+        y1 = float(np.asarray(self.Y.sum(axis=0)).max(initial=0.0)) * (1 + 4 * _U)
+        # ||G||_1 <= y1^(m+1) / (m+1)!  (G = Y^(m+1) / (m+1)!, the truncation operator)
+        self.gnorm = math.exp((self.m + 1) * math.log(max(y1, 1e-300)) - math.lgamma(self.m + 2))
+        eh, _ = _dd_scalar_exp(sigma, tau)
+        panels, ops = self._taylor(eh)
+        levels = self._diagonal_levels(h)
+        self._overwrite(panels, levels[0])
+        for level in levels[1:]:
+            panels = _square(panels, lay.bounds)
+            self._overwrite(panels, level)
+        self.panels = panels
+        self.off = [p.copy() for p in panels]
+        self._overwrite(self.off, None)
+        last = levels[-1]
+        self.dh, self.dl = last["dh"], last["dl"]
+        self.groups = last["groups"]
+        self._bounds(levels, ops)
+
+    def _scaled(self, sigma: float, h: float, j: int):
+        """``Y = fl(h (K + K_low + sigma I)) / 2^j`` in CSC form (exact diagonal shift)."""
+        lay = self.lay
+        coo = lay.K.tocoo()
+        vals = coo.data.copy()
+        if lay.K_low is not None:
+            low = lay.K_low.tocoo()
+            extra = scipy.sparse.csr_array((low.data, (low.row, low.col)), shape=lay.K.shape)
+            vals = vals + extra[coo.row, coo.col]
+        off = coo.row != coo.col
+        n = lay.size
+        # sigma - q_i in double-double (TwoSum), then times h, rounded once
+        s = sigma - lay.qh
+        z = s - sigma
+        err = (sigma - (s - z)) + (-lay.qh - z) - lay.ql
+        diag = s * h + err * h
+        rows = np.r_[coo.row[off], np.arange(n)]
+        cols = np.r_[coo.col[off], np.arange(n)]
+        data = np.r_[vals[off] * h, diag]
+        Y = scipy.sparse.csc_array((np.ldexp(data, -j), (rows, cols)), shape=(n, n))
+        Y.sum_duplicates()
+        Y.sort_indices()
+        return Y
+
+    def _taylor(self, factor: float):
+        """Panels of ``factor * T_m(Y)`` (column tiles; rows from the tile start)."""
+        from kinetics import _block_kernels as bk
+
+        lay, Y = self.lay, self.Y
+        indptr, indices = self.indptr, self.indices
+        reach = np.empty(lay.size, dtype=np.int64)
+        bk.reach_within(indptr, indices, self.m, reach)
+        panels = []
+        ops = 0
+        for J in range(lay.bounds.size - 1):
+            b0, b1 = int(lay.bounds[J]), int(lay.bounds[J + 1])
+            end = int(reach[b0:b1].max()) + 1
+            out = np.empty((end - b0, b1 - b0))
+            V, W = np.zeros_like(out), np.zeros_like(out)
+            alive = np.empty(end - b0, dtype=np.bool_)
+            bk.column_taylor(indptr, indices, Y.data, b0, self.m, factor, out, V, W, alive)
+            out[out < FLUSH] = 0.0
+            panels.append(_trim(out))
+            ops += out.size
+        return panels, ops
+
+    def _diagonal_levels(self, h: float) -> list[dict]:
+        """Exact diagonal blocks of ``exp(h 2^(i-j) K)`` for ``i = 0 .. j``."""
+        from kinetics import _block_kernels as bk
+
+        lay, j = self.lay, self.squarings
+        s = lay.singles
+        groups = [_group_levels(lay, start, size, h, j) for start, size in lay.groups]
+        levels = []
+        for i in range(j + 1):
+            t = math.ldexp(h, i - j)
+            dh = np.zeros(lay.size)
+            dl = np.zeros(lay.size)
+            oh, ol = np.empty(s.size), np.empty(s.size)
+            bk.singleton_exponentials(lay.qh[s], lay.ql[s], t, oh, ol)
+            dh[s], dl[s] = oh, ol
+            eps = max([_EPS_SINGLE] + [g[i][2] for g in groups])
+            pairs = zip(lay.groups, groups, strict=True)
+            blocks = [(start, g[i][0], g[i][1]) for (start, _), g in pairs]
+            levels.append({"dh": dh, "dl": dl, "groups": blocks, "eps": eps})
+        return levels
+
+    def _overwrite(self, panels: list, level: dict | None) -> None:
+        """Diagonal blocks of the panels set to ``level`` (zero when None)."""
+        lay = self.lay
+        s = lay.singles
+        tiles = lay.tile_of[s]
+        for J in np.unique(tiles).tolist():
+            p = s[tiles == J]
+            loc = p - lay.bounds[J]
+            value = 0.0 if level is None else level["dh"][p]
+            if level is not None:
+                value = np.where(value < FLUSH, 0.0, value)
+            panels[J][loc, loc] = value
+        for k, (start, size) in enumerate(lay.groups):
+            J = lay.tile_of[start]
+            a = start - lay.bounds[J]
+            if level is None:
+                panels[J][a : a + size, a : a + size] = 0.0
             else:
-                self.tiles[k] = v.copy()
-        return self
+                blk = level["groups"][k][1]
+                panels[J][a : a + size, a : a + size] = np.where(blk < FLUSH, 0.0, blk)
 
-    def scale(self, alpha: float) -> _Tiles:
-        return _Tiles(self.bounds, {k: v * alpha for k, v in self.tiles.items()})
-
-    def drop(self) -> None:
-        for k in list(self.tiles):
-            v = self.tiles[k]
-            v[v < DROP] = 0.0
-            if not v.any():
-                del self.tiles[k]
-
-    def to_csr(self, n: int):
-        rows, cols, vals = [], [], []
-        for (i, j), v in self.tiles.items():
-            r, c = np.nonzero(v)
-            rows.append(r + self.bounds[i])
-            cols.append(c + self.bounds[j])
-            vals.append(v[r, c])
-        if not rows:
-            return scipy.sparse.csr_array((n, n))
-        return scipy.sparse.csr_array(
-            (np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))), shape=(n, n)
+    def _bounds(self, levels: list[dict], taylor_ops: int) -> None:
+        """Per-crossing error ``hop``, per-step ``eta`` and absolute ``absolute``."""
+        lay, m = self.lay, self.m
+        n = lay.size
+        d = int(np.bincount(self.Y.indices, minlength=1).max(initial=1))
+        width = int(np.diff(lay.bounds).max(initial=1))
+        nt = lay.bounds.size - 1
+        e0 = _compose(
+            (1 + _gamma(d)) ** m * (1 + _U) ** m - 1,  # terms: a sum of d products, / k
+            _gamma(m + 1),  # the terms summed
+            (1 + 3 * _U) ** m - 1,  # Y rounded (relative 3u per entry)
+            3 * _U,  # the factor exp(-sigma tau) and its product
         )
+        gsq = _compose(_gamma(width), _gamma(nt))
+        c = e0
+        # absolute error (1-norm per unit column) of F: underflow and flushing
+        tiny = 2.0**-1075
+        absolute = n * (m * (d + 1) * tiny + FLUSH)
+        for i in range(self.squarings):
+            c = _compose(c, _U + levels[i]["eps"], gsq)
+            g = (1 + c) * math.exp(lay.growth * self.tau_of(i))
+            absolute = 2 * g * absolute + n * (n * tiny + FLUSH)
+        self.hop = _compose(c, gsq, _U)
+        groups_max = max([size for _, size in lay.groups], default=1)
+        self.eta = _compose(levels[-1]["eps"], (groups_max**2 + groups_max + 4) * DD_UNIT,
+                            4 * DD_UNIT)  # fmt: skip
+        self.absolute = absolute + n * (width * tiny) * nt
+        self.norm = (1 + c) * math.exp(lay.growth * self.tau_of(self.squarings))
+        self.taylor_ops = taylor_ops
 
-    def max_row_nnz(self) -> int:
-        cnt = np.zeros(self.nt, dtype=int)
-        for i, _j in self.tiles:
-            cnt[i] += 1
-        return int(cnt.max(initial=1)) * TILE
+    def apply_truncation(self, v: np.ndarray) -> np.ndarray:
+        """Upper bound of :math:`2^j G v`, :math:`G = Y^{m+1}/(m+1)!` (nonnegative ``v``)."""
+        from kinetics import _block_kernels as bk
+
+        out, work = np.empty(v.size), np.empty(v.size)
+        bk.power_apply(self.indptr, self.indices, self.Y.data, v, self.m + 1,
+                       self.scale * 1.01, out, work)  # fmt: skip
+        return out
+
+    def tau_of(self, level: int) -> float:
+        """The interval of level ``level`` of the squarings [s]."""
+        return math.ldexp(self.h, level - self.squarings)
 
 
-def _drop_csr(S):
-    """Remove entries below ``DROP`` from a nonnegative CSR matrix (in place)."""
-    S = scipy.sparse.csr_array(S)
-    S.data[S.data < DROP] = 0.0
-    S.eliminate_zeros()
-    return S
+def _trim(P: np.ndarray, keep: int | None = None) -> np.ndarray:
+    """Panel without its trailing zero rows (at least ``keep`` rows, default its width)."""
+    keep = P.shape[1] if keep is None else keep
+    rows = np.flatnonzero(P[keep:].any(axis=1))
+    end = keep + (int(rows[-1]) + 1 if rows.size else 0)
+    return P if end == P.shape[0] else P[:end].copy()
 
 
-def _scaled_inverse_factorials(m: int, rho: float) -> np.ndarray:
-    """``rho**k / k!`` for ``k = 0..m``, correctly rounded (via :mod:`decimal`)."""
-    from decimal import Context, Decimal
-
-    ctx = Context(prec=40, Emin=-999999, Emax=999999)
-    out = np.empty(m + 1)
-    v = Decimal(1)
-    r = Decimal(rho)
-    for k in range(m + 1):
-        if k:
-            v = ctx.divide(ctx.multiply(v, r), Decimal(k))
-        out[k] = float(v)
+def _square(panels: list, bounds: np.ndarray) -> list:
+    """``F F`` for a block lower triangular ``F`` stored as column panels (BLAS)."""
+    nt = bounds.size - 1
+    ends = [int(bounds[J]) + panels[J].shape[0] for J in range(nt)]
+    out = []
+    for J in range(nt):
+        PJ = panels[J]
+        b0, eJ = int(bounds[J]), ends[J]
+        last = int(np.searchsorted(bounds, eJ, side="left"))  # tiles L in [J, last)
+        end = max(ends[J:last])
+        R = np.zeros((end - b0, PJ.shape[1]))
+        for L in range(J, last):
+            r0 = int(bounds[L]) - b0
+            r1 = min(int(bounds[L + 1]), eJ) - b0
+            PL = panels[L]
+            if r1 - r0 < PL.shape[1]:
+                PL = PL[:, : r1 - r0]
+            R[r0 : r0 + PL.shape[0]] += PL @ PJ[r0:r1]
+        R[R < FLUSH] = 0.0
+        out.append(_trim(R))
     return out
 
 
-def _plan_double(beta: float, n: int):
-    """Squarings and Paterson-Stockmeyer split for a double-precision target."""
-    from kinetics.propagate import _plan
+def _dd_scalar_exp(sigma: float, t: float) -> tuple[float, float]:
+    """``exp(-sigma t)`` as a double-double pair."""
+    from kinetics import _block_kernels as bk
 
-    # large y: Taylor products of narrow bands are cheap, squarings are not
-    return _plan(beta, n, "double", _U / 2, ymax=64.0, square_cost=8.0)
+    oh, ol = np.empty(1), np.empty(1)
+    bk.singleton_exponentials(np.array([sigma]), np.zeros(1), t, oh, ol)
+    return float(oh[0]), float(ol[0])
 
 
-def expm_blocks(Kp, h: float) -> tuple[scipy.sparse.csr_array, float]:
-    """``exp(h Kp)`` of a (permuted, block lower triangular) sparse matrix.
+def _dd_block(lay: _Layout, start: int, size: int, h: float, j: int):
+    """Shift, ``Y = h 2^-j (K_bb + sigma_b I)`` in double-double, and ``y = ||Y||_1``."""
+    from kinetics import _block_kernels as bk
+
+    sl = slice(start, start + size)
+    Ah = lay.K[sl, sl].toarray()
+    Al = np.zeros_like(Ah) if lay.K_low is None else lay.K_low[sl, sl].toarray()
+    qh, ql = lay.qh[sl], lay.ql[sl]
+    sigma = float(qh.max())
+    if np.any(ql[qh == sigma] > 0):
+        sigma = float(np.nextafter(sigma, np.inf))
+    # off-diagonal pairs normalised (TwoSum), diagonal sigma - q in double-double
+    s = Ah + Al
+    z = s - Ah
+    Bh, Bl = s, (Ah - (s - z)) + (Al - z)
+    d = sigma - qh
+    z = d - sigma
+    e = (sigma - (d - z)) + (-qh - z) - ql
+    idx = np.arange(size)
+    Bh[idx, idx] = d + e
+    Bl[idx, idx] = e - ((d + e) - d)
+    bk.dd_scale(Bh, Bl, h, 0.0)
+    Yh, Yl = np.ldexp(Bh, -j), np.ldexp(Bl, -j)
+    return sigma, Yh, Yl, float(np.abs(Yh).sum(axis=0).max()) * (1 + 4 * _U)
+
+
+def _group_levels(lay: _Layout, start: int, size: int, h: float, j: int) -> list:
+    """``exp(h 2^(i-j) K_bb)`` (hi, lo, relative bound) for ``i = 0..j``, double-double.
+
+    Horner's rule for the Taylor polynomial with the block's own shift, then
+    squarings.  Truncation: :math:`e^Y - T_m \\le G e^Y` with :math:`G = Y^{m+1}/(m+1)!`;
+    with :math:`\\kappa_T = \\max (G T)_{ab}/T_{ab}` (in double, on the computed
+    polynomial) the relative truncation is at most :math:`2\\kappa_T` for
+    :math:`\\kappa_T \\le 1/8`, and :math:`2^i` times that after ``i`` squarings.
+    Rounding: Xue & Ye (2013), Theorem 3.2, with the double-double product bound.
+    """
+    from kinetics import _block_kernels as bk
+    from kinetics import _kernels
+
+    sigma, Yh, Yl, y = _dd_block(lay, start, size, h, j)
+    flag = np.bool_(True)
+    gdd = (size * size + size + 4) * DD_UNIT
+    m = max(size + 4, _taylor_plan(1.0, y, 1)[1] if y > 0 else 2)
+    for _attempt in range(6):
+        Th, Tl = np.zeros((size, size)), np.zeros((size, size))
+        bk.dd_add_identity(Th, Tl)
+        Ph, Pl = np.empty_like(Th), np.empty_like(Th)
+        for k in range(m, 0, -1):
+            _kernels.product(Yh, Yl, Th, Tl, Ph, Pl, flag)
+            bk.dd_divide(Ph, Pl, k)
+            bk.dd_add_identity(Ph, Pl)
+            Th, Tl, Ph, Pl = Ph, Pl, Th, Tl
+        kappa = _kappa(Yh, Th, m)
+        if kappa <= 2.0**-100:
+            break
+        m *= 2
+    eh, el = _dd_scalar_exp(sigma, math.ldexp(h, -j))
+    bk.dd_scale(Th, Tl, eh, el)
+    eps = _compose(m * (gdd + 4 * DD_UNIT), (1 + 3 * DD_UNIT) ** m - 1, 4 * DD_UNIT)
+    trunc = 2 * kappa if kappa <= 0.125 else 1.0
+    out = [(Th, Tl, _compose(eps, trunc))]
+    for i in range(1, j + 1):
+        Fh, Fl = np.empty_like(Th), np.empty_like(Th)
+        _kernels.product(Th, Tl, Th, Tl, Fh, Fl, flag)
+        eps = 2 * eps + eps * eps + gdd * (1 + eps) ** 2
+        out.append((Fh, Fl, _compose(eps, min(1.0, 2.0**i * trunc))))
+        Th, Tl = Fh, Fl
+    return out
+
+
+def _kappa(Yh: np.ndarray, Th: np.ndarray, m: int) -> float:
+    """``max (Y^{m+1} T / (m+1)!)_{ab} / T_{ab}`` over entries above ``2^-1000``.
+
+    Infinite when an entry below that has ``(G T)_{ab} > 2^{-1040}`` (not negligible).
+    """
+    G = Th.copy()
+    for k in range(1, m + 2):
+        G = (Yh @ G) / k
+    G *= 1.0 + 8 * (m + 2) * Yh.shape[0] * _U  # rounding of this estimate
+    big = Th > 2.0**-1000
+    if np.any(G[~big] > 2.0**-1040):
+        return math.inf
+    return float((G[big] / Th[big]).max(initial=0.0))
+
+
+def _grid(times: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Step ``h[k]`` taken to reach ``times[k]`` and the exact shortfall ``times[k] - sum h``.
+
+    A uniform grid (within ``4 u t_max``) uses one step throughout, so that one
+    exponential serves every interval; the first step from 0 is separate unless it
+    equals that step.
+    """
+    from kinetics import _kernels
+
+    p = times.size
+    h = np.zeros(p)
+    first = int(np.searchsorted(times, 0.0, side="right"))
+    rest = times[first:]
+    dt = -1.0
+    if rest.size >= 3:
+        dt = _kernels.uniform_step(np.ascontiguousarray(rest), 4 * _U * float(rest[-1]))
+    if dt > 0:
+        h[first] = dt if abs(rest[0] - dt) <= 4 * _U * float(rest[-1]) else rest[0]
+        h[first + 1 :] = dt
+    else:
+        prev = np.r_[0.0, times[:-1]]
+        h[first:] = times[first:] - prev[first:]
+    total = Fraction(0)
+    short = np.zeros(p)
+    for k in range(first, p):
+        total += Fraction(float(h[k]))
+        short[k] = float(Fraction(float(times[k])) - total)
+    return h, short
+
+
+class _Walk:
+    """The grid walk of one layout: states (double-double) and their bounds."""
+
+    def __init__(self, lay: _Layout, x0: np.ndarray, floor: float, boost: int) -> None:
+        self.lay = lay
+        self.floor = floor
+        self.boost = boost
+        self.cache: dict[float, _Interval] = {}
+        self.xh = x0[lay.species].astype(float)
+        self.xl = np.zeros(lay.size)
+        self.trunc = 0.0  # relative truncation, composed over the steps
+        self.absolute = 0.0  # 1-norm absolute error bound
+        self.eta = 0.0  # double-double error of the diagonal blocks, composed
+        self.hop = 0.0  # largest per-crossing error of the intervals used
+        self.sigma = 0.0
+        self.failed = False
+
+    def step(self, h: float) -> None:
+        """Advance the state by ``h`` (> 0)."""
+        from kinetics import _block_kernels as bk
+
+        if h not in self.cache:
+            self.cache[h] = _Interval(self.lay, h, self.boost)
+        iv = self.cache[h]
+        lay = self.lay
+        xh, xl = self.xh, self.xl
+        norm1 = float(np.abs(xh).sum())
+        coupling = np.zeros(lay.size)
+        for J, P in enumerate(iv.off):
+            b0, b1 = int(lay.bounds[J]), int(lay.bounds[J + 1])
+            coupling[b0 : b0 + P.shape[0]] += P @ xh[b0:b1]
+        nh, nl = np.empty_like(xh), np.empty_like(xl)
+        bk.scale_diagonal(iv.dh, iv.dl, xh, xl, coupling, lay.singles, nh, nl)
+        for (start, size), (_, Fh, Fl) in zip(lay.groups, iv.groups, strict=True):
+            self._group_step(start, size, Fh, Fl, coupling, nh, nl)
+        self.xh, self.xl = nh, nl
+        self.absolute = iv.norm * self.absolute + iv.absolute * norm1 * (1 + self.trunc)
+        self.eta = _compose(self.eta, iv.eta)
+        self.hop = max(self.hop, iv.hop)
+        self.sigma = max(self.sigma, iv.sigma)
+        self._truncation(iv)
+
+    def _group_step(self, start, size, Fh, Fl, coupling, nh, nl) -> None:
+        from kinetics import _block_kernels as bk
+        from kinetics import _kernels
+
+        sl = slice(start, start + size)
+        oh, ol = np.empty((size, 1)), np.empty((size, 1))
+        _kernels.product(Fh, Fl, self.xh[sl, None].copy(), self.xl[sl, None].copy(), oh, ol,
+                         np.bool_(True))  # fmt: skip
+        one = np.ones(size)
+        idx = np.arange(size)
+        bk.scale_diagonal(one, np.zeros(size), oh[:, 0].copy(), ol[:, 0].copy(),
+                          coupling[sl].copy(), idx, nh[sl], nl[sl])  # fmt: skip
+
+    def _truncation(self, iv: _Interval) -> None:
+        """Compose the a posteriori truncation bound of the step just taken.
+
+        With ``z`` the new state and :math:`A = 2^j G` (module docstring) the
+        truncation error of the step is at most :math:`S = \\sum_{r \\ge 1} A^r z`.  If
+        :math:`A z \\le \\delta z + e` (``e`` on the entries where the ratio is not
+        small), then :math:`S \\le (\\delta z + \\sum_{r \\ge 0} A^r e)/(1 - \\delta)`:
+        relative part :math:`\\delta/(1-\\delta)`, absolute part the 1-norm of the rest.
+        """
+        z = self.xh
+        lam = int(self.lay.crossings.max(initial=0))
+        mu = (1 + _compose((1 + self.hop) ** lam - 1, self.eta)) * (1 + 4 * _U)
+        w = iv.apply_truncation(z * mu)
+        ratio = np.full(z.size, np.inf)
+        pos = z > 0
+        ratio[pos] = w[pos] / z[pos]
+        rel = ratio <= _TRUNC_REL
+        delta = float(ratio[rel].max(initial=0.0))
+        excess = np.where(rel, 0.0, w)
+        total = float(excess.sum())
+        stop = 2.0**-80 * self.floor
+        cur = excess
+        for _ in range(64):
+            if cur.sum() <= stop:
+                break
+            cur = iv.apply_truncation(cur)
+            total += float(cur.sum())
+        qn = iv.scale * 1.01 * iv.gnorm
+        rest = float(cur.sum()) * qn / (1 - qn) if qn < 1 else math.inf
+        self.trunc = _compose(self.trunc, delta / (1 - delta) * mu)
+        self.absolute += (total + rest) / (1 - delta)
+
+    def bound(self, t: float, short: float) -> float:
+        """Relative bound of every state entry above the floor at time ``t``."""
+        z = self.xh
+        claimed = z >= self.floor
+        lam = int(self.lay.crossings[claimed].max(initial=0))
+        rho = _compose((1 + self.hop) ** lam - 1, self.eta)
+        smallest = float(z[claimed].min(initial=np.inf))
+        absolute = self.absolute / smallest if math.isfinite(smallest) else 0.0
+        drift = math.expm1((lam / t + self.sigma) * abs(short)) if t > 0 else 0.0
+        return _compose(rho, self.trunc, absolute, drift, _U)
+
+
+def _run(lay: _Layout, x0: np.ndarray, times: np.ndarray, floor: float, boost: int):
+    """States (p, size) and bounds (p,) of the grid walk; the walk itself."""
+    walk = _Walk(lay, x0, floor, boost)
+    h, short = _grid(times)
+    p = times.size
+    X = np.empty((p, lay.size))
+    bound = np.zeros(p)
+    for k in range(p):
+        if h[k] > 0:
+            walk.step(float(h[k]))
+        X[k] = walk.xh
+        if times[k] > 0:
+            bound[k] = walk.bound(float(times[k]), float(short[k]))
+    return X, bound, walk
+
+
+def propagate_blocks(K, c0, times, feed, *, K_low=None, floor=None):
+    """Grid propagation of a large scheme, block by block (see the module docstring).
 
     Parameters
     ----------
-    Kp : scipy.sparse matrix, shape (n, n)
-        Essentially nonnegative rate matrix [1/s] in block order.
-    h : float
-        Interval [s], > 0.
+    K : scipy.sparse matrix or ndarray, shape (n, n)
+        Rate matrix [1/s] (already checked by :mod:`kinetics.propagate`).
+    c0 : ndarray, shape (n,)
+        Initial concentrations [conc], >= 0.
+    times : ndarray, shape (p,)
+        Times [s], >= 0, nondecreasing.
+    feed : ndarray, shape (n,), or None
+        Zero-order feed [conc/s].
+    K_low : scipy.sparse matrix or ndarray, shape (n, n), optional
+        Low-order parts: the exact rate matrix is ``K + K_low`` (in particular the
+        diagonal, minus the sum of the outflow constants, to double-double).
+    floor : float, optional
+        Concentrations [conc] above which the bound holds (default
+        :data:`kinetics.propagate.TINY`).
 
     Returns
     -------
-    (csr_array, float)
-        The nonnegative exponential and its componentwise relative rounding
-        bound (Xue & Ye 2013, Theorem 3.2, with the row length of the tiles).
-    """
-    from kinetics.propagate import _rounding_bound
-
-    Kp = scipy.sparse.csr_array(Kp, dtype=float)
-    n = Kp.shape[0]
-    bounds = np.unique(np.r_[np.arange(0, n, TILE), n])
-    diag = Kp.diagonal()
-    sigma = float(-diag.min()) if n else 0.0
-    B = Kp + sigma * scipy.sparse.eye_array(n, format="csr")
-    beta = max(float(abs(B).sum(axis=0).max()), abs(sigma)) * h
-    plan = _plan_double(beta, n)
-    scale = 2.0**-plan.j
-    # Taylor polynomial in Z = Y / rho with coefficients rho^k / k! (Y = rho Z);
-    # rho a power of two near ||Y||_1, so neither Z^k nor the coefficients leave
-    # the range of doubles for degrees of a few hundred
-    y = beta * scale
-    rho = 2.0 ** math.ceil(math.log2(y)) if y > 0 else 1.0
-    # the Taylor phase multiplies narrow bands: sparse CSR products are cheap
-    Z = scipy.sparse.csr_array(B * (h * scale / rho))
-    s, r = plan.ps, plan.pr
-    coef = _scaled_inverse_factorials(plan.degree, rho)
-    pw = [scipy.sparse.eye_array(n, format="csr"), Z]
-    for _ in range(2, s + 1):
-        pw.append(_drop_csr(pw[-1] @ Z))
-    ys = pw[s]
-
-    def block(i):
-        acc = float(coef[i * s]) * pw[0]
-        for l_ in range(1, s):
-            acc = acc + float(coef[i * s + l_]) * pw[l_]
-        return acc
-
-    Tc = block(r)
-    for i in range(r - 1, -1, -1):
-        Tc = _drop_csr(Tc @ ys + block(i))
-    T = _Tiles.from_sparse(Tc, bounds)
-    T = T.scale(math.exp(-sigma * h * scale))
-    T.drop()
-    for _ in range(plan.j):
-        T = T.matmul(T)
-    width = min(n, T.max_row_nnz())
-    return T.to_csr(n), _rounding_bound(beta, width, plan, _U)
-
-
-def propagate_blocks(K, c0, times, feed):
-    """Grid propagation of a large scheme through :func:`expm_blocks`.
-
-    Parameters are those of :func:`kinetics.propagate.propagate` (already
-    checked).  Returns ``(concentrations (p, n), error_bound (p,))``.
+    (ndarray (p, n), ndarray (p,))
+        Concentrations (all >= 0) and, per time, a bound on the relative error of
+        every concentration above ``floor`` against the exact solution for
+        ``K + K_low``, ``c0`` and ``feed``.
 
     The many small tile products run with one BLAS thread: threaded BLAS on
-    tiles this small spends its time synchronising (measured on the
-    2,000-species chain: 4.9 s with two OpenBLAS threads, 0.9 s with one).
+    tiles this small spends its time synchronising (measured on the 2,000-species
+    chain: 4.9 s with two OpenBLAS threads, 0.9 s with one).
     """
     from threadpoolctl import threadpool_limits
 
+    if floor is None:
+        from kinetics.propagate import TINY as floor
     with threadpool_limits(limits=1, user_api="blas"):
-        return _propagate_blocks(K, c0, times, feed)
+        return _propagate(K, c0, times, feed, K_low, float(floor))
 
 
-def _propagate_blocks(K, c0, times, feed):
+def _augmented(K, K_low, c0, feed):
+    """Rate matrix (CSR), low parts and start vector with the feed as a species of value 1."""
     K = scipy.sparse.csr_array(K, dtype=float)
+    low = None if K_low is None else scipy.sparse.csr_array(K_low, dtype=float)
+    x = np.asarray(c0, dtype=float).copy()
+    if feed is None or not np.any(feed):
+        return K, low, x
     n = K.shape[0]
-    if feed is not None:
-        coo = K.tocoo()
-        fr = np.nonzero(feed)[0]
-        K = scipy.sparse.csr_array(
-            (
-                np.r_[coo.data, feed[fr]],
-                (np.r_[coo.row, fr], np.r_[coo.col, np.full(fr.size, n)]),
-            ),
-            shape=(n + 1, n + 1),
-        )
-        x = np.append(c0, 1.0)
-    else:
-        x = c0.astype(float).copy()
-    N = K.shape[0]
-    order, _ = block_order(K)
-    inv = np.empty_like(order)
-    inv[order] = np.arange(N)
-    Kp = K[order][:, order]
-    xp = x[order]
+    fr = np.flatnonzero(feed)
+    coo = K.tocoo()
+    K = scipy.sparse.csr_array(
+        (np.r_[coo.data, feed[fr]], (np.r_[coo.row, fr], np.r_[coo.col, np.full(fr.size, n)])),
+        shape=(n + 1, n + 1),
+    )
+    if low is not None:
+        low = scipy.sparse.csr_array(scipy.sparse.block_diag([low, np.zeros((1, 1))]))
+    return K, low, np.append(x, 1.0)
+
+
+def _propagate(K, c0, times, feed, K_low, floor):
+    n = K.shape[0]
+    K, K_low, x = _augmented(K, K_low, c0, feed)
+    top = float(x[:n].max(initial=0.0))
+    if x.size > n and times.size:
+        top = max(top, float(np.max(feed)) * float(times[-1]), 1e-300)
+    scale = math.ldexp(1.0, -math.frexp(top)[1]) if top > 0 else 1.0
+    xs = x * scale
     p = times.size
     out = np.zeros((p, n))
     bound = np.zeros(p)
-    cache: dict[float, tuple] = {}
-    t_prev = 0.0
-    cur = 0.0
-    from kinetics.propagate import _uniform_step
-
-    first = int(np.searchsorted(times, 0.0, side="right"))
-    dt = _uniform_step(times[first:]) if p - first >= 3 else None
-    for k in range(p):
-        hstep = times[k] - t_prev
-        if dt is not None and k > first:
-            hstep = dt  # uniform grid: one exponential for every step
-        if hstep > 0:
-            if hstep not in cache:
-                cache[hstep] = expm_blocks(Kp, hstep)
-            F, eps = cache[hstep]
-            xp = F @ xp
-            width = max(1, int(np.diff(F.indptr).max(initial=1)))
-            cur += eps + width * _U / (1 - width * _U)
-        full = xp[inv]
-        out[k] = full[:n]
-        bound[k] = cur + (_U if hstep > 0 or k else 0.0)
-        t_prev = times[k]
+    lay = _Layout(K, K_low, xs)
+    if lay.size and p:
+        for boost in (1, 2, 4, 8):
+            X, bound, walk = _run(lay, xs, times, floor * scale, boost)
+            if walk.trunc <= 2.0**-50:
+                break
+        keep = lay.species < n
+        out[:, lay.species[keep]] = np.maximum(X[:, keep], 0.0) / scale
     out[times == 0.0] = c0
-    return np.maximum(out, 0.0), bound
+    bound[times == 0.0] = 0.0
+    return out, bound
