@@ -502,10 +502,14 @@ def _group_levels(lay: _Layout, start: int, size: int, h: float, j: int) -> list
     from kinetics import _block_kernels as bk
     from kinetics import _kernels
 
+    from scipy.sparse.csgraph import shortest_path
+
     sigma, Yh, Yl, y = _dd_block(lay, start, size, h, j)
     flag = np.bool_(True)
     gdd = (size * size + size + 4) * DD_UNIT
-    m = max(size + 4, _taylor_plan(1.0, y, 1)[1] if y > 0 else 2)
+    # every entry of exp(Y) is positive (one block): the degree reaches every entry
+    hops = shortest_path(scipy.sparse.csr_array(Yh != 0), unweighted=True)
+    m = max(int(hops.max()) + 2, _taylor_plan(1.0, y, 1)[1] if y > 0 else 2)
     for _attempt in range(6):
         Th, Tl = np.zeros((size, size)), np.zeros((size, size))
         bk.dd_add_identity(Th, Tl)
@@ -538,9 +542,10 @@ def _kappa(Yh: np.ndarray, Th: np.ndarray, m: int) -> float:
 
     Infinite when an entry below that has ``(G T)_{ab} > 2^{-1040}`` (not negligible).
     """
+    Ys = scipy.sparse.csr_array(Yh)
     G = Th.copy()
     for k in range(1, m + 2):
-        G = (Yh @ G) / k
+        G = (Ys @ G) / k
     G *= 1.0 + 8 * (m + 2) * Yh.shape[0] * _U  # rounding of this estimate
     big = Th > 2.0**-1000
     if np.any(G[~big] > 2.0**-1040):
