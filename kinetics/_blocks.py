@@ -85,9 +85,16 @@ import numpy as np
 import scipy.sparse
 
 from kinetics._doubledouble import DD_UNIT
-from kinetics.network import condensation
 
-__all__ = ["FLUSH", "TILE", "block_order", "propagate_blocks"]
+__all__ = [
+    "FLUSH",
+    "RATES",
+    "TILE",
+    "block_order",
+    "prefers_blocks",
+    "propagate_blocks",
+    "route_costs",
+]
 
 #: Target width of a tile of columns (a block wider than this is a tile of its own).
 TILE = 128
@@ -98,6 +105,17 @@ YMAX = 8.0
 _U = 2.0**-53
 _EPS_SINGLE = 2.0**-96  # double-double exponential of a scalar (conservative)
 _TRUNC_REL = 2.0**-40  # a truncation bound above this fraction of an entry is absolute
+
+#: Seconds per operation, one thread, measured by ``benchmarks/calibrate_routes.py``
+#: on the machine kind this project is developed on (2 cores, AVX-512, OpenBLAS):
+#: a double-double multiply-add of the dense engine's products (``dd``), a
+#: multiply-add of a BLAS panel product (``blas``) and of a matrix-vector product
+#: (``gemv``), a multiply-add of the column Taylor sum (``scatter``); ``fixed`` is
+#: the block route's set-up (components, tiles, plans) and ``dense`` the number of
+#: full products the dense engine spends per Taylor degree ``sqrt(m)``, squaring and
+#: doubling step (fitted to its measured times on strongly connected schemes).
+RATES = {"dd": 1.3e-9, "blas": 3.0e-11, "gemv": 1.5e-10, "scatter": 5.0e-10,
+         "fixed": 0.015, "dense": 1.0}  # fmt: skip
 
 
 def _gamma(k: float) -> float:
@@ -126,6 +144,8 @@ def block_order(K) -> tuple[np.ndarray, list[list[int]]]:
     blocks : list of list of int
         The strongly connected components, upstream first.
     """
+    from kinetics.network import condensation
+
     K = scipy.sparse.coo_array(K)
     n = K.shape[0]
     off = (K.row != K.col) & (K.data != 0)
@@ -161,6 +181,8 @@ class _Layout:
     """
 
     def __init__(self, K, K_low, x0: np.ndarray) -> None:
+        from kinetics.network import condensation
+
         n = K.shape[0]
         coo = K.tocoo()
         off = (coo.row != coo.col) & (coo.data != 0)
@@ -499,10 +521,10 @@ def _group_levels(lay: _Layout, start: int, size: int, h: float, j: int) -> list
     :math:`\\kappa_T \\le 1/8`, and :math:`2^i` times that after ``i`` squarings.
     Rounding: Xue & Ye (2013), Theorem 3.2, with the double-double product bound.
     """
+    from scipy.sparse.csgraph import shortest_path
+
     from kinetics import _block_kernels as bk
     from kinetics import _kernels
-
-    from scipy.sparse.csgraph import shortest_path
 
     sigma, Yh, Yl, y = _dd_block(lay, start, size, h, j)
     flag = np.bool_(True)
@@ -778,3 +800,63 @@ def _propagate(K, c0, times, feed, K_low, floor):
     out[times == 0.0] = c0
     bound[times == 0.0] = 0.0
     return out, bound
+
+
+def route_costs(K, times) -> dict[str, float]:
+    r"""Predicted seconds of the dense double-double engine and of the block route.
+
+    Parameters
+    ----------
+    K : scipy.sparse matrix or ndarray, shape (n, n)
+        Rate matrix [1/s].
+    times : ndarray
+        The grid [s] (its last value and its length).
+
+    Returns
+    -------
+    dict
+        ``{"dense": seconds, "blocks": seconds}`` from operation counts times
+        :data:`RATES`:
+
+        * dense: :math:`n^3 (2\sqrt{m} + j + \log_2 p)` double-double multiply-adds
+          (Paterson-Stockmeyer Taylor sum, squarings, doubling over the grid);
+        * blocks: the double-double Horner sum (sparse ``Y``) and squarings of every
+          block of two or more species, :math:`j\,n^3/6` BLAS multiply-adds for the
+          squarings of a lower triangular exponential, :math:`m\,\mathrm{nnz}\,n/2`
+          for the column Taylor sum and :math:`p\,n^2/2` for the steps, plus
+          the set-up.
+
+    The fill of the block route's exponential is taken as a full lower triangle
+    (an upper bound: a chain fills a band), so the route is never chosen for a
+    scheme where it would be much slower than predicted.
+    """
+    from scipy.sparse.csgraph import connected_components
+
+    K = scipy.sparse.csr_array(K)
+    n = K.shape[0]
+    t = np.asarray(times, dtype=float)
+    positive = t[t > 0]
+    if n == 0 or positive.size == 0:
+        return {"dense": 0.0, "blocks": RATES["fixed"]}
+    p = positive.size
+    h = float(positive.max()) / p
+    sigma = float(max(-K.diagonal().min(initial=0.0), 0.0))
+    jd, md, _ = _taylor_plan(sigma, h, 1)
+    dense = RATES["dd"] * RATES["dense"] * n**3 * (2 * math.sqrt(md) + jd + math.log2(p + 1))
+    if dense < RATES["fixed"]:
+        return {"dense": dense, "blocks": math.inf}
+    _, labels = connected_components(K, directed=True, connection="strong")
+    sizes = np.bincount(labels).astype(float)
+    j, m, _ = _taylor_plan(sigma, h, 1)
+    groups = sizes[sizes > 1]
+    nnz = float(K.nnz)
+    dd = RATES["dd"] * float(np.sum(m * 3 * groups**2 + (j + 2) * groups**3))
+    blocks = (RATES["fixed"] + dd + RATES["blas"] * j * n**3 / 6
+              + RATES["scatter"] * m * nnz * n / 2 + RATES["gemv"] * p * n**2 / 2)  # fmt: skip
+    return {"dense": dense, "blocks": blocks}
+
+
+def prefers_blocks(K, times) -> bool:
+    """Whether the block route is predicted cheaper than the dense engine (:func:`route_costs`)."""
+    cost = route_costs(K, times)
+    return cost["blocks"] < cost["dense"]

@@ -686,13 +686,14 @@ def propagate_certified(K, c0, times, feed=None, *, precision: Precision = "auto
     c0 = _vector(c0, n, "initial concentrations")
     times = _times(times)
     f = None if feed is None else _vector(feed, n, "feed")
-    if scipy.sparse.issparse(K) and n <= DENSE_DOUBLE_MAX:
-        K = K.toarray()
-    if scipy.sparse.issparse(K) or n > DENSE_DOUBLE_MAX:
-        from kinetics._blocks import propagate_blocks
+    from kinetics._blocks import prefers_blocks, propagate_blocks
 
-        conc, bound = propagate_blocks(K, c0, times, f)
+    # route by predicted cost (calibrated model in kinetics._blocks.route_costs)
+    if prefers_blocks(K, times):
+        conc, bound = propagate_blocks(K, c0, times, f, floor=TINY)
         return Propagation(times, conc, bound, "blocks")
+    if scipy.sparse.issparse(K):
+        K = K.toarray()
     if n > DENSE_MAX and precision == "auto":
         precision = "double"  # double-double costs too much at this size
     A = _augment(K[None], None if f is None else f[None])

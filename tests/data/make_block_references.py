@@ -35,7 +35,11 @@ def network(n: int, seed: int) -> list[tuple[int, int, float]]:
     rng = np.random.default_rng(seed)
     steps = []
     for i in range(n - 1):
-        targets = rng.choice(np.arange(i + 1, min(n, i + 7)), size=min(n - 1 - i, 1 + int(rng.integers(0, 2))), replace=False)
+        targets = rng.choice(
+            np.arange(i + 1, min(n, i + 7)),
+            size=min(n - 1 - i, 1 + int(rng.integers(0, 2))),
+            replace=False,
+        )
         for j in sorted(targets.tolist()):
             steps.append((i, j, float(10.0 ** rng.uniform(-1, 2))))
             if rng.random() < 1 / 12:
@@ -56,7 +60,9 @@ def reference(n: int, steps, c0: dict[int, str], t: str, prec: int = 1400):
     for i, v in c0.items():
         x[i, 0] = flint.arb(v)
     E = (K * flint.arb(float(t))).exp() * x  # the time as the double the test passes
-    return [(E[i, 0].mid().str(25, radius=False), E[i, 0].rad().str(3, radius=False)) for i in range(n)]
+    return [
+        (E[i, 0].mid().str(25, radius=False), E[i, 0].rad().str(3, radius=False)) for i in range(n)
+    ]
 
 
 def main() -> None:
@@ -68,8 +74,9 @@ def main() -> None:
             t0 = time.perf_counter()
             refs[t] = reference(n, steps, c0, t)
             print(f"n = {n}, t = {t} s: {time.perf_counter() - t0:.1f} s", flush=True)
-        cases.append({"n": n, "steps": [[a, b, repr(k)] for a, b, k in steps],
-                      "c0": c0, "references": refs})
+        cases.append(
+            {"n": n, "steps": [[a, b, repr(k)] for a, b, k in steps], "c0": c0, "references": refs}
+        )
     (HERE / "block_references.json").write_text(json.dumps({"cases": cases}, indent=0))
 
 
