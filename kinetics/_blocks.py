@@ -845,12 +845,16 @@ def route_costs(K, times) -> dict[str, float]:
     dense = RATES["dd"] * RATES["dense"] * n**3 * (2 * math.sqrt(md) + jd + math.log2(p + 1))
     if dense < RATES["fixed"]:
         return {"dense": dense, "blocks": math.inf}
-    _, labels = connected_components(K, directed=True, connection="strong")
-    sizes = np.bincount(labels).astype(float)
+    count, labels = connected_components(K, directed=True, connection="strong")
+    sizes = np.bincount(labels, minlength=count).astype(float)
+    coo = K.tocoo()
+    inside = labels[coo.row] == labels[coo.col]
+    nnz_in = np.bincount(labels[coo.row[inside]], minlength=count).astype(float)
     j, m, _ = _taylor_plan(sigma, h, 1)
-    groups = sizes[sizes > 1]
+    big = sizes > 1
     nnz = float(K.nnz)
-    dd = RATES["dd"] * float(np.sum(m * 3 * groups**2 + (j + 2) * groups**3))
+    # per block of two or more: Horner (sparse Y times a dense block) and squarings
+    dd = RATES["dd"] * float(np.sum(m * nnz_in[big] * sizes[big] + (j + 2) * sizes[big] ** 3))
     blocks = (RATES["fixed"] + dd + RATES["blas"] * j * n**3 / 6
               + RATES["scatter"] * m * nnz * n / 2 + RATES["gemv"] * p * n**2 / 2)  # fmt: skip
     return {"dense": dense, "blocks": blocks}
