@@ -111,11 +111,12 @@ _TRUNC_REL = 2.0**-40  # a truncation bound above this fraction of an entry is a
 #: a double-double multiply-add of the dense engine's products (``dd``), a
 #: multiply-add of a BLAS panel product (``blas``) and of a matrix-vector product
 #: (``gemv``), a multiply-add of the column Taylor sum (``scatter``); ``fixed`` is
-#: the block route's set-up (components, tiles, plans) and ``dense`` the number of
+#: the block route's set-up (components, tiles, plans), ``step`` its interpreter
+#: overhead per time step, and ``dense`` the number of
 #: full products the dense engine spends per Taylor degree ``sqrt(m)``, squaring and
 #: doubling step (fitted to its measured times on strongly connected schemes).
 RATES = {"dd": 1.3e-9, "blas": 3.0e-11, "gemv": 1.5e-10, "scatter": 5.0e-10,
-         "fixed": 0.015, "dense": 1.0}  # fmt: skip
+         "fixed": 0.015, "step": 2.0e-4, "dense": 1.0}  # fmt: skip
 
 
 def _gamma(k: float) -> float:
@@ -123,10 +124,13 @@ def _gamma(k: float) -> float:
 
 
 def _compose(*eps: float) -> float:
-    out = 1.0
-    for e in eps:
-        out *= 1.0 + e
-    return out - 1.0
+    """``prod(1 + e_i) - 1``, accurate for tiny ``e_i`` and rounded up (margin 2^-40)."""
+    return math.expm1(math.fsum(math.log1p(e) for e in eps)) * (1 + 2.0**-40)
+
+
+def _power(eps: float, k: float) -> float:
+    """``(1 + eps)^k - 1``, accurate for tiny ``eps`` and rounded up."""
+    return math.expm1(k * math.log1p(eps)) * (1 + 2.0**-40)
 
 
 def block_order(K) -> tuple[np.ndarray, list[list[int]]]:
@@ -205,6 +209,10 @@ class _Layout:
         self.K = scipy.sparse.csr_array(K[perm][:, perm])
         self.K_low = None if K_low is None else scipy.sparse.csr_array(K_low[perm][:, perm])
         self._outflows()
+        N = self.K if self.K_low is None else self.K + self.K_low
+        N = scipy.sparse.csr_array(N - scipy.sparse.diags_array(N.diagonal()))
+        N.eliminate_zeros()
+        self.N = N  # the formation rates (off-diagonal), nonnegative
         single = sizes == 1
         self.singles = self.starts[:-1][single]
         pairs = zip(self.starts[:-1].tolist(), sizes.tolist(), strict=True)
@@ -350,6 +358,10 @@ class _Interval:
         for J in range(lay.bounds.size - 1):
             b0, b1 = int(lay.bounds[J]), int(lay.bounds[J + 1])
             end = int(reach[b0:b1].max()) + 1
+            if end == b1 and (b0, b1 - b0) in lay.groups:
+                # one block and nothing downstream: the panel is its exact diagonal block
+                panels.append(np.zeros((b1 - b0, b1 - b0)))
+                continue
             out = np.empty((end - b0, b1 - b0))
             V, W = np.zeros_like(out), np.zeros_like(out)
             alive = np.empty(end - b0, dtype=np.bool_)
@@ -409,9 +421,9 @@ class _Interval:
         width = int(np.diff(lay.bounds).max(initial=1))
         nt = lay.bounds.size - 1
         e0 = _compose(
-            (1 + _gamma(d)) ** m * (1 + _U) ** m - 1,  # terms: a sum of d products, / k
+            _power(_compose(_gamma(d), _U), m),  # terms: a sum of d products, / k
             _gamma(m + 1),  # the terms summed
-            (1 + 3 * _U) ** m - 1,  # Y rounded (relative 3u per entry)
+            _power(3 * _U, m),  # Y rounded (relative 3u per entry)
             3 * _U,  # the factor exp(-sigma tau) and its product
         )
         gsq = _compose(_gamma(width), _gamma(nt))
@@ -427,7 +439,9 @@ class _Interval:
         groups_max = max([size for _, size in lay.groups], default=1)
         self.eta = _compose(levels[-1]["eps"], (groups_max**2 + groups_max + 4) * DD_UNIT,
                             4 * DD_UNIT)  # fmt: skip
-        self.absolute = absolute + n * (width * tiny) * nt
+        self.absolute = absolute
+        # underflow of a step's products (coupling, double-double diagonal): fixed amount
+        self.fixed = n * (width * nt + 16 + groups_max) * tiny
         self.norm = (1 + c) * math.exp(lay.growth * self.tau_of(self.squarings))
         self.taylor_ops = taylor_ops
 
@@ -531,7 +545,9 @@ def _group_levels(lay: _Layout, start: int, size: int, h: float, j: int) -> list
     gdd = (size * size + size + 4) * DD_UNIT
     # every entry of exp(Y) is positive (one block): the degree reaches every entry
     hops = shortest_path(scipy.sparse.csr_array(Yh != 0), unweighted=True)
-    m = max(int(hops.max()) + 2, _taylor_plan(1.0, y, 1)[1] if y > 0 else 2)
+    m = int(hops.max()) + 2
+    while (m + 1) * math.log(max(y, 1e-300)) - math.lgamma(m + 2) > -110 * math.log(2.0):
+        m += 1
     for _attempt in range(6):
         Th, Tl = np.zeros((size, size)), np.zeros((size, size))
         bk.dd_add_identity(Th, Tl)
@@ -547,7 +563,7 @@ def _group_levels(lay: _Layout, start: int, size: int, h: float, j: int) -> list
         m *= 2
     eh, el = _dd_scalar_exp(sigma, math.ldexp(h, -j))
     bk.dd_scale(Th, Tl, eh, el)
-    eps = _compose(m * (gdd + 4 * DD_UNIT), (1 + 3 * DD_UNIT) ** m - 1, 4 * DD_UNIT)
+    eps = _compose(m * (gdd + 4 * DD_UNIT), _power(3 * DD_UNIT, m), 4 * DD_UNIT)
     trunc = 2 * kappa if kappa <= 0.125 else 1.0
     out = [(Th, Tl, _compose(eps, trunc))]
     for i in range(1, j + 1):
@@ -641,7 +657,7 @@ class _Walk:
         for (start, size), (_, Fh, Fl) in zip(lay.groups, iv.groups, strict=True):
             self._group_step(start, size, Fh, Fl, coupling, nh, nl)
         self.xh, self.xl = nh, nl
-        self.absolute = iv.norm * self.absolute + iv.absolute * norm1 * (1 + self.trunc)
+        self.absolute = iv.norm * self.absolute + iv.absolute * 2 * norm1 + iv.fixed
         self.eta = _compose(self.eta, iv.eta)
         self.hop = max(self.hop, iv.hop)
         self.sigma = max(self.sigma, iv.sigma)
@@ -671,7 +687,7 @@ class _Walk:
         """
         z = self.xh
         lam = int(self.lay.crossings.max(initial=0))
-        mu = (1 + _compose((1 + self.hop) ** lam - 1, self.eta)) * (1 + 4 * _U)
+        mu = (1 + _compose(_power(self.hop, lam), self.eta)) * (1 + 4 * _U)
         w = iv.apply_truncation(z * mu)
         ratio = np.full(z.size, np.inf)
         pos = z > 0
@@ -693,15 +709,41 @@ class _Walk:
         self.absolute += (total + rest) / (1 - delta)
 
     def bound(self, t: float, short: float) -> float:
-        """Relative bound of every state entry above the floor at time ``t``."""
+        """Relative bound of every state entry above the floor at time ``t``.
+
+        ``short`` [s] is what the grid time exceeds the sum of the steps taken by
+        (rounding of the grid); see :meth:`_drift`.
+        """
         z = self.xh
         claimed = z >= self.floor
-        lam = int(self.lay.crossings[claimed].max(initial=0))
-        rho = _compose((1 + self.hop) ** lam - 1, self.eta)
-        smallest = float(z[claimed].min(initial=np.inf))
-        absolute = self.absolute / smallest if math.isfinite(smallest) else 0.0
-        drift = math.expm1((lam / t + self.sigma) * abs(short)) if t > 0 else 0.0
-        return _compose(rho, self.trunc, absolute, drift, _U)
+        if not claimed.any():
+            return _compose(_power(self.hop, 0), self.eta, self.trunc, _U)
+        lam = int(self.lay.crossings[claimed].max())
+        rho = _compose(_power(self.hop, lam), self.eta)
+        absolute = self.absolute / float(z[claimed].min())
+        return _compose(rho, self.trunc, absolute, self._drift(abs(short), claimed), _U)
+
+    def _drift(self, d: float, claimed: np.ndarray) -> float:
+        r"""Relative change of the claimed entries when the time moves by ``d`` [s].
+
+        With :math:`F(d) = e^{-\sigma d} e^{dB}`, :math:`B = K + \sigma I \ge 0`:
+        :math:`e^{-\sigma d} x \le F(d) x \le x + d Bx + \tfrac{d^2}{2} B^2 x +
+        \tfrac{(d\|B\|_\infty)^3}{6} e^{d\|B\|_\infty} \|x\|_\infty`; the ratios
+        :math:`(Bx)_i/x_i` and :math:`(B^2x)_i/x_i` come from the computed state,
+        hence the factor 2 (the state is exact to far better than a factor 2).
+        """
+        if d == 0.0:
+            return 0.0
+        lay, z = self.lay, self.xh
+        shift = self.sigma - (lay.qh + lay.ql)
+        Bz = lay.N @ z + shift * z
+        BBz = lay.N @ Bz + shift * Bz
+        norm = float((np.asarray(lay.N.sum(axis=1)).ravel() + shift).max())
+        zc = z[claimed]
+        first = d * float((Bz[claimed] / zc).max())
+        second = d * d / 2 * float((BBz[claimed] / zc).max())
+        third = (d * norm) ** 3 / 6 * math.exp(d * norm) * float(z.max()) / float(zc.min())
+        return 2 * max(first + second + third, math.expm1(self.sigma * d))
 
 
 def _run(lay: _Layout, x0: np.ndarray, times: np.ndarray, floor: float, boost: int):
@@ -823,8 +865,9 @@ def route_costs(K, times) -> dict[str, float]:
         * blocks: the double-double Horner sum (sparse ``Y``) and squarings of every
           block of two or more species, :math:`j\,n^3/6` BLAS multiply-adds for the
           squarings of a lower triangular exponential, :math:`m\,\mathrm{nnz}\,n/2`
-          for the column Taylor sum and :math:`p\,n^2/2` for the steps, plus
-          the set-up.
+          for the column Taylor sum, and per step :math:`n^2/2` for the coupling, the
+          double-double products of the blocks, :math:`(m+1)(\mathrm{nnz}+n)` for the
+          truncation bound and the interpreter's overhead; plus the set-up.
 
     The fill of the block route's exponential is taken as a full lower triangle
     (an upper bound: a chain fills a band), so the route is never chosen for a
@@ -855,8 +898,11 @@ def route_costs(K, times) -> dict[str, float]:
     nnz = float(K.nnz)
     # per block of two or more: Horner (sparse Y times a dense block) and squarings
     dd = RATES["dd"] * float(np.sum(m * nnz_in[big] * sizes[big] + (j + 2) * sizes[big] ** 3))
+    # per step: the coupling products, the double-double blocks, the truncation bound
+    step = (RATES["step"] + RATES["gemv"] * n**2 / 2 + RATES["dd"] * float(np.sum(sizes[big] ** 2))
+            + RATES["scatter"] * (m + 1) * (nnz + n))  # fmt: skip
     blocks = (RATES["fixed"] + dd + RATES["blas"] * j * n**3 / 6
-              + RATES["scatter"] * m * nnz * n / 2 + RATES["gemv"] * p * n**2 / 2)  # fmt: skip
+              + RATES["scatter"] * m * nnz * n / 2 + p * step)  # fmt: skip
     return {"dense": dense, "blocks": blocks}
 
 
