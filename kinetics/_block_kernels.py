@@ -219,3 +219,30 @@ def dd_scale(Ah, Al, ch, cl):
             hi = p + e
             Al[i, j] = e - (hi - p)
             Ah[i, j] = hi
+
+
+@njit(**_JIT)
+def taylor_apply(indptr, indices, data, v, m, scale, out):
+    r"""``out = sum_{k=1}^{m} (scale Y)^k v / k!`` for nonnegative CSC ``Y`` and ``v``.
+
+    Term ``k`` is ``fl(fl(fl(Y t_{k-1}) scale) / k)``; the terms are summed in
+    increasing ``k``.
+    """
+    n = v.shape[0]
+    cur = np.empty(n)
+    nxt = np.empty(n)
+    for i in range(n):
+        cur[i] = v[i]
+        out[i] = 0.0
+    for k in range(1, m + 1):
+        for i in range(n):
+            nxt[i] = 0.0
+        for col in range(n):
+            a = cur[col]
+            if a == 0.0:
+                continue
+            for q in range(indptr[col], indptr[col + 1]):
+                nxt[indices[q]] += data[q] * a
+        for i in range(n):
+            cur[i] = nxt[i] * scale / k
+            out[i] += cur[i]

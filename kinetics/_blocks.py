@@ -213,10 +213,32 @@ class _Layout:
         N = scipy.sparse.csr_array(N - scipy.sparse.diags_array(N.diagonal()))
         N.eliminate_zeros()
         self.N = N  # the formation rates (off-diagonal), nonnegative
+        sigma = float(self.qh.max(initial=0.0))
+        if np.any(self.ql[self.qh == sigma] > 0):
+            sigma = float(np.nextafter(sigma, np.inf))
+        self.sigma = sigma  # at least every outflow q_i (exactly)
+        self._shifted = None
         single = sizes == 1
         self.singles = self.starts[:-1][single]
         pairs = zip(self.starts[:-1].tolist(), sizes.tolist(), strict=True)
         self.groups = [(s, z) for s, z in pairs if z > 1]
+
+    def shifted(self):
+        """``B = N + diag(sigma - q)`` (CSC, nonnegative, diagonal rounded up), its 1-norm
+        and its largest number of nonzeros in a row."""
+        if self._shifted is None:
+            d = self.sigma - self.qh
+            z = d - self.sigma
+            err = (self.sigma - (d - z)) + (-self.qh - z) - self.ql
+            diag = np.nextafter(d + err, np.inf)  # >= sigma - q_i
+            B = scipy.sparse.csc_array(self.N + scipy.sparse.diags_array(np.maximum(diag, 0.0)))
+            B.sort_indices()
+            beta = float(np.asarray(B.sum(axis=0)).max(initial=0.0)) * (1 + 4 * _U)
+            rows = int(np.bincount(B.indices, minlength=1).max(initial=1))
+            B.indptr = B.indptr.astype(np.int64)
+            B.indices = B.indices.astype(np.int64)
+            self._shifted = (B, beta, rows)
+        return self._shifted
 
     def _crossings(self, comps, x0p: np.ndarray) -> np.ndarray:
         """Longest path, in block crossings, from a block holding a start value."""
@@ -468,7 +490,13 @@ def _trim(P: np.ndarray, keep: int | None = None) -> np.ndarray:
 
 
 def _square(panels: list, bounds: np.ndarray) -> list:
-    """``F F`` for a block lower triangular ``F`` stored as column panels (BLAS)."""
+    """``F F`` for a block lower triangular ``F`` stored as column panels.
+
+    Each panel of the result is a sum of BLAS products accumulated in place
+    (``dgemm`` with ``beta = 1`` on the transposes, which are Fortran-ordered views).
+    """
+    from scipy.linalg.blas import dgemm
+
     nt = bounds.size - 1
     ends = [int(bounds[J]) + panels[J].shape[0] for J in range(nt)]
     out = []
@@ -484,7 +512,10 @@ def _square(panels: list, bounds: np.ndarray) -> list:
             PL = panels[L]
             if r1 - r0 < PL.shape[1]:
                 PL = PL[:, : r1 - r0]
-            R[r0 : r0 + PL.shape[0]] += PL @ PJ[r0:r1]
+            part = R[r0 : r0 + PL.shape[0]]
+            res = dgemm(1.0, PJ[r0:r1].T, PL.T, beta=1.0, c=part.T, overwrite_c=True)
+            if not np.shares_memory(res, part):  # scipy had to copy: write back
+                part[...] = res.T
         R[R < FLUSH] = 0.0
         out.append(_trim(R))
     return out
@@ -591,34 +622,57 @@ def _kappa(Yh: np.ndarray, Th: np.ndarray, m: int) -> float:
     return float((G[big] / Th[big]).max(initial=0.0))
 
 
-def _grid(times: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Step ``h[k]`` taken to reach ``times[k]`` and the exact shortfall ``times[k] - sum h``.
+def _round_down(x: Fraction) -> float:
+    """The largest double not above ``x`` (``x >= 0``)."""
+    f = float(x)
+    return float(np.nextafter(f, 0.0)) if Fraction(f) > x else f
 
-    A uniform grid (within ``4 u t_max``) uses one step throughout, so that one
-    exponential serves every interval; the first step from 0 is separate unless it
-    equals that step.
+
+def _grid(times: np.ndarray):
+    """Steps to the grid: ``(h, delta, residual, in_place)``.
+
+    ``h[k]`` is the step taken before output ``k`` (0 for none), ``delta[k] >= 0`` a
+    double that a short correction step (:meth:`_Walk.correct`) adds to reach
+    ``times[k]``, ``residual[k] >= 0`` what is still missing after that (zero
+    except in rare cases, below ``u delta``).  A grid uniform from 0 (within
+    ``4 u t_max``) is walked with one step ``dt'`` of few significant bits, so that
+    the positions ``k dt'`` and the remainders ``t_k - k dt'`` are exact and one
+    exponential serves every interval; then the corrections apply to the outputs
+    only (``in_place`` False).  Other grids step from each time to the next and
+    correct the walk itself.
     """
     from kinetics import _kernels
 
     p = times.size
-    h = np.zeros(p)
+    h, delta, residual = np.zeros(p), np.zeros(p), np.zeros(p)
     first = int(np.searchsorted(times, 0.0, side="right"))
     rest = times[first:]
     dt = -1.0
     if rest.size >= 3:
-        dt = _kernels.uniform_step(np.ascontiguousarray(rest), 4 * _U * float(rest[-1]))
+        tol = 4 * _U * float(rest[-1])
+        dt = _kernels.uniform_step(np.ascontiguousarray(rest), tol)
+        if dt > 0 and abs(float(rest[0]) - dt) > tol:
+            dt = -1.0  # uniform, but not from 0
     if dt > 0:
-        h[first] = dt if abs(rest[0] - dt) <= 4 * _U * float(rest[-1]) else rest[0]
-        h[first + 1 :] = dt
-    else:
-        prev = np.r_[0.0, times[:-1]]
-        h[first:] = times[first:] - prev[first:]
-    total = Fraction(0)
-    short = np.zeros(p)
+        steps = np.arange(1, rest.size + 1)
+        q = min(Fraction(float(t)) / int(k) for t, k in zip(rest, steps, strict=True))
+        bits = 53 - math.ceil(math.log2(rest.size + 2))
+        mant, expo = math.frexp(_round_down(q))
+        step = math.ldexp(math.floor(math.ldexp(mant, bits)), expo - bits)
+        h[first:] = step
+        delta[first:] = rest - steps * step  # exact: k dt' is a double, t_k within 2x
+        return h, delta, residual, False
+    pos = Fraction(0)
     for k in range(first, p):
-        total += Fraction(float(h[k]))
-        short[k] = float(Fraction(float(times[k])) - total)
-    return h, short
+        gap = Fraction(float(times[k])) - pos
+        if gap == 0:
+            continue
+        h[k] = _round_down(gap)
+        rem = gap - Fraction(float(h[k]))
+        delta[k] = _round_down(rem)
+        pos += Fraction(float(h[k])) + Fraction(float(delta[k]))
+        residual[k] = float(Fraction(float(times[k])) - pos) * (1 + 2.0**-50)
+    return h, delta, residual, True
 
 
 class _Walk:
@@ -677,88 +731,126 @@ class _Walk:
                           coupling[sl].copy(), idx, nh[sl], nl[sl])  # fmt: skip
 
     def _truncation(self, iv: _Interval) -> None:
-        """Compose the a posteriori truncation bound of the step just taken.
-
-        With ``z`` the new state and :math:`A = 2^j G` (module docstring) the
-        truncation error of the step is at most :math:`S = \\sum_{r \\ge 1} A^r z`.  If
-        :math:`A z \\le \\delta z + e` (``e`` on the entries where the ratio is not
-        small), then :math:`S \\le (\\delta z + \\sum_{r \\ge 0} A^r e)/(1 - \\delta)`:
-        relative part :math:`\\delta/(1-\\delta)`, absolute part the 1-norm of the rest.
-        """
-        z = self.xh
+        """Compose the a posteriori truncation bound of the step just taken (:func:`_neumann`)."""
         lam = int(self.lay.crossings.max(initial=0))
         mu = (1 + _compose(_power(self.hop, lam), self.eta)) * (1 + 4 * _U)
-        w = iv.apply_truncation(z * mu)
-        ratio = np.full(z.size, np.inf)
-        pos = z > 0
-        ratio[pos] = w[pos] / z[pos]
-        rel = ratio <= _TRUNC_REL
-        delta = float(ratio[rel].max(initial=0.0))
-        excess = np.where(rel, 0.0, w)
-        total = float(excess.sum())
-        stop = 2.0**-80 * self.floor
-        cur = excess
-        for _ in range(64):
-            if cur.sum() <= stop:
-                break
-            cur = iv.apply_truncation(cur)
-            total += float(cur.sum())
         qn = iv.scale * 1.01 * iv.gnorm
-        rest = float(cur.sum()) * qn / (1 - qn) if qn < 1 else math.inf
-        self.trunc = _compose(self.trunc, delta / (1 - delta) * mu)
-        self.absolute += (total + rest) / (1 - delta)
+        rel, absolute = _neumann(iv.apply_truncation, self.xh, mu, self.floor, qn)
+        self.trunc = _compose(self.trunc, rel)
+        self.absolute += absolute
 
-    def bound(self, t: float, short: float) -> float:
-        """Relative bound of every state entry above the floor at time ``t``.
+    def correct(self, d: float, in_place: bool):
+        r"""The state moved on by ``d`` [s] (small, >= 0): :math:`e^{-\sigma d} T_m(dB) x`.
 
-        ``short`` [s] is what the grid time exceeds the sum of the steps taken by
-        (rounding of the grid); see :meth:`_drift`.
+        Returns ``(state, relative, absolute)``: the moved state (hi parts) and the
+        bounds it adds (zero when ``in_place``: then they are composed into the walk,
+        which continues from the moved state).  Truncation as for a step
+        (:func:`_neumann` with :math:`G = (dB)^{m+1}/(m+1)!`); rounding: the Taylor
+        terms carry at most ``eps`` relative, and they are at most ``ratio`` of the
+        state they are added to.
         """
-        z = self.xh
+        from kinetics import _block_kernels as bk
+
+        lay = self.lay
+        B, beta, rows = lay.shifted()
+        m = 1
+        while (m + 1) * math.log(max(d * beta, 1e-300)) - math.lgamma(m + 2) > -80 * math.log(2.0):
+            m += 1
+        delta = np.empty(lay.size)
+        bk.taylor_apply(B.indptr, B.indices, B.data, self.xh, m, d, delta)
+        ch, cl = _dd_scalar_exp(lay.sigma, d)
+        one = np.ones(lay.size)
+        yh, yl = np.empty(lay.size), np.empty(lay.size)
+        bk.scale_diagonal(one * ch, one * cl, self.xh, self.xl, delta * ch,
+                          np.arange(lay.size), yh, yl)  # fmt: skip
+        pos = yh > 0
+        ratio = float((delta[pos] / yh[pos]).max(initial=0.0))
+        eps = _compose(_power(_compose(_gamma(rows), 2 * _U), m), _gamma(m), _U)
+        rounding = _compose(eps * ratio * (1 + 4 * _U), 8 * DD_UNIT)
+        scale = d ** (m + 1) * 1.01
+        qn = scale * math.exp((m + 1) * math.log(max(beta, 1e-300)) - math.lgamma(m + 2))
+
+        def apply(v):
+            out, work = np.empty(v.size), np.empty(v.size)
+            bk.power_apply(B.indptr, B.indices, B.data, v, m + 1, scale, out, work)
+            return out
+
+        mu = 1 + 2 * rounding + 4 * _U
+        trunc, absolute = _neumann(apply, yh, mu, self.floor, qn)
+        if not in_place:
+            return yh, _compose(rounding, trunc), absolute
+        self.xh, self.xl = yh, yl
+        self.eta = _compose(self.eta, rounding)
+        self.trunc = _compose(self.trunc, trunc)
+        self.absolute += absolute
+        return yh, 0.0, 0.0
+
+    def bound(self, z: np.ndarray, rel: float, absolute: float, residual: float) -> float:
+        """Relative bound of every entry of ``z`` (the state at a grid time) above the floor.
+
+        ``rel``, ``absolute``: what a correction step to this time added;
+        ``residual`` [s]: what the grid time still exceeds the state's time by
+        (rare, below ``u`` times the correction), counted to first order.
+        """
         claimed = z >= self.floor
         if not claimed.any():
-            return _compose(_power(self.hop, 0), self.eta, self.trunc, _U)
+            return _compose(self.eta, self.trunc, rel, _U)
         lam = int(self.lay.crossings[claimed].max())
         rho = _compose(_power(self.hop, lam), self.eta)
-        absolute = self.absolute / float(z[claimed].min())
-        return _compose(rho, self.trunc, absolute, self._drift(abs(short), claimed), _U)
+        absolute = (self.absolute + absolute) / float(z[claimed].min())
+        drift = 0.0
+        if residual > 0:
+            lay = self.lay
+            B, _, _ = lay.shifted()
+            Bz = B @ z
+            drift = 2 * residual * float((Bz[claimed] / z[claimed]).max())
+        return _compose(rho, self.trunc, rel, absolute, drift, _U)
 
-    def _drift(self, d: float, claimed: np.ndarray) -> float:
-        r"""Relative change of the claimed entries when the time moves by ``d`` [s].
 
-        With :math:`F(d) = e^{-\sigma d} e^{dB}`, :math:`B = K + \sigma I \ge 0`:
-        :math:`e^{-\sigma d} x \le F(d) x \le x + d Bx + \tfrac{d^2}{2} B^2 x +
-        \tfrac{(d\|B\|_\infty)^3}{6} e^{d\|B\|_\infty} \|x\|_\infty`; the ratios
-        :math:`(Bx)_i/x_i` and :math:`(B^2x)_i/x_i` come from the computed state,
-        hence the factor 2 (the state is exact to far better than a factor 2).
-        """
-        if d == 0.0:
-            return 0.0
-        lay, z = self.lay, self.xh
-        shift = self.sigma - (lay.qh + lay.ql)
-        Bz = lay.N @ z + shift * z
-        BBz = lay.N @ Bz + shift * Bz
-        norm = float((np.asarray(lay.N.sum(axis=1)).ravel() + shift).max())
-        zc = z[claimed]
-        first = d * float((Bz[claimed] / zc).max())
-        second = d * d / 2 * float((BBz[claimed] / zc).max())
-        third = (d * norm) ** 3 / 6 * math.exp(d * norm) * float(z.max()) / float(zc.min())
-        return 2 * max(first + second + third, math.expm1(self.sigma * d))
+def _neumann(apply, z: np.ndarray, mu: float, floor: float, qn: float) -> tuple[float, float]:
+    r"""Relative and absolute parts of :math:`S = \sum_{r \ge 1} A^r (\mu z)`.
+
+    ``apply(v)`` returns an upper bound of :math:`A v` for a nonnegative operator
+    ``A`` of 1-norm at most ``qn``.  If :math:`A \mu z \le \delta z + e` (``e`` on
+    the entries where the ratio exceeds :data:`_TRUNC_REL`), then
+    :math:`S \le (\delta z + \sum_{r \ge 0} A^r e)/(1 - \delta)`; the relative part
+    is :math:`\mu\delta/(1-\delta)` (the exact state is at least :math:`z/\mu`), the
+    absolute part the 1-norm of the rest, summed until it falls below
+    :math:`2^{-80}` ``floor`` and closed with the geometric remainder.
+    """
+    w = apply(z * mu)
+    ratio = np.full(z.size, np.inf)
+    pos = z > 0
+    ratio[pos] = w[pos] / z[pos]
+    rel = ratio <= _TRUNC_REL
+    delta = float(ratio[rel].max(initial=0.0))
+    cur = np.where(rel, 0.0, w)
+    total = float(cur.sum())
+    for _ in range(64):
+        if cur.sum() <= 2.0**-80 * floor:
+            break
+        cur = apply(cur)
+        total += float(cur.sum())
+    rest = float(cur.sum()) * qn / (1 - qn) if qn < 1 else math.inf
+    return delta / (1 - delta) * mu, (total + rest) / (1 - delta)
 
 
 def _run(lay: _Layout, x0: np.ndarray, times: np.ndarray, floor: float, boost: int):
     """States (p, size) and bounds (p,) of the grid walk; the walk itself."""
     walk = _Walk(lay, x0, floor, boost)
-    h, short = _grid(times)
+    h, delta, residual, in_place = _grid(times)
     p = times.size
     X = np.empty((p, lay.size))
     bound = np.zeros(p)
     for k in range(p):
         if h[k] > 0:
             walk.step(float(h[k]))
-        X[k] = walk.xh
+        z, rel, absolute = walk.xh, 0.0, 0.0
+        if delta[k] > 0:
+            z, rel, absolute = walk.correct(float(delta[k]), in_place)
+        X[k] = z
         if times[k] > 0:
-            bound[k] = walk.bound(float(times[k]), float(short[k]))
+            bound[k] = walk.bound(z, rel, absolute, float(residual[k]))
     return X, bound, walk
 
 
