@@ -125,12 +125,14 @@ def _gamma(k: float) -> float:
 
 def _compose(*eps: float) -> float:
     """``prod(1 + e_i) - 1``, accurate for tiny ``e_i`` and rounded up (margin 2^-40)."""
-    return math.expm1(math.fsum(math.log1p(e) for e in eps)) * (1 + 2.0**-40)
+    total = math.fsum(math.log1p(e) for e in eps)
+    return math.expm1(total) * (1 + 2.0**-40) if total < 700 else math.inf
 
 
 def _power(eps: float, k: float) -> float:
     """``(1 + eps)^k - 1``, accurate for tiny ``eps`` and rounded up."""
-    return math.expm1(k * math.log1p(eps)) * (1 + 2.0**-40)
+    total = k * math.log1p(eps)
+    return math.expm1(total) * (1 + 2.0**-40) if total < 700 else math.inf
 
 
 def block_order(K) -> tuple[np.ndarray, list[list[int]]]:
@@ -686,7 +688,9 @@ class _Walk:
         self.xh = x0[lay.species].astype(float)
         self.xl = np.zeros(lay.size)
         self.trunc = 0.0  # relative truncation, composed over the steps
-        self.absolute = 0.0  # 1-norm absolute error bound
+        self.absolute = 0.0  # 1-norm absolute error bound: underflow, flushing
+        self.cut = 0.0  # 1-norm absolute error bound: truncation where not relative
+        self.worst_cut = 0.0  # largest truncation share of a bound (for a retry)
         self.eta = 0.0  # double-double error of the diagonal blocks, composed
         self.hop = 0.0  # largest per-crossing error of the intervals used
         self.sigma = 0.0
@@ -737,7 +741,7 @@ class _Walk:
         qn = iv.scale * 1.01 * iv.gnorm
         rel, absolute = _neumann(iv.apply_truncation, self.xh, mu, self.floor, qn)
         self.trunc = _compose(self.trunc, rel)
-        self.absolute += absolute
+        self.cut += absolute
 
     def correct(self, d: float, in_place: bool):
         r"""The state moved on by ``d`` [s] (small, >= 0): :math:`e^{-\sigma d} T_m(dB) x`.
@@ -782,29 +786,31 @@ class _Walk:
         self.xh, self.xl = yh, yl
         self.eta = _compose(self.eta, rounding)
         self.trunc = _compose(self.trunc, trunc)
-        self.absolute += absolute
+        self.cut += absolute
         return yh, 0.0, 0.0
 
     def bound(self, z: np.ndarray, rel: float, absolute: float, residual: float) -> float:
-        """Relative bound of every entry of ``z`` (the state at a grid time) above the floor.
+        """Relative bound of every entry of the state at a grid time whose exact value is
+        above the floor.
 
-        ``rel``, ``absolute``: what a correction step to this time added;
-        ``residual`` [s]: what the grid time still exceeds the state's time by
-        (rare, below ``u`` times the correction), counted to first order.
+        ``z`` is the computed state; ``rel``, ``absolute``: what a correction step to
+        this time added; ``residual`` [s]: what the grid time still exceeds the
+        state's time by (rare, below ``u`` times the correction), counted to first
+        order.  Absolute parts count at the floor (an entry whose exact value is just
+        above the floor may be computed below it).
         """
-        claimed = z >= self.floor
-        if not claimed.any():
-            return _compose(self.eta, self.trunc, rel, _U)
-        lam = int(self.lay.crossings[claimed].max())
+        floor = max(self.floor, 2.0**-1074)
+        claimed = z >= floor
+        lam = int(self.lay.crossings[claimed].max(initial=0))
         rho = _compose(_power(self.hop, lam), self.eta)
-        absolute = (self.absolute + absolute) / float(z[claimed].min())
+        cut = (self.cut + absolute) / floor
+        self.worst_cut = max(self.worst_cut, _compose(self.trunc, rel, cut))
         drift = 0.0
-        if residual > 0:
-            lay = self.lay
-            B, _, _ = lay.shifted()
+        if residual > 0 and claimed.any():
+            B, _, _ = self.lay.shifted()
             Bz = B @ z
             drift = 2 * residual * float((Bz[claimed] / z[claimed]).max())
-        return _compose(rho, self.trunc, rel, absolute, drift, _U)
+        return _compose(rho, self.trunc, rel, cut, self.absolute / floor, drift, _U)
 
 
 def _neumann(apply, z: np.ndarray, mu: float, floor: float, qn: float) -> tuple[float, float]:
@@ -925,9 +931,10 @@ def _propagate(K, c0, times, feed, K_low, floor):
     bound = np.zeros(p)
     lay = _Layout(K, K_low, xs)
     if lay.size and p:
-        for boost in (1, 2, 4, 8):
+        for boost in (1, 2, 4, 8, 16):
+            # more Taylor terms while truncation (a posteriori) is a visible share
             X, bound, walk = _run(lay, xs, times, floor * scale, boost)
-            if walk.trunc <= 2.0**-50:
+            if walk.worst_cut <= 2.0**-50:
                 break
         keep = lay.species < n
         out[:, lay.species[keep]] = np.maximum(X[:, keep], 0.0) / scale
