@@ -20,25 +20,37 @@ outflow of species i) and :math:`Y = \tfrac{h}{2^j}(K + \sigma I) \ge 0`:
   row with a nonzero), and the squarings are panel products in BLAS.
 * The diagonal blocks of :math:`F` are exact: a species that forms a block of its
   own has :math:`F_{ii} = e^{-q_i t}` (a double-double exponential), a larger
-  block's :math:`e^{tK_{bb}}` is summed and squared in double-double with its own
-  shift.  They replace the diagonal blocks of the panels at every squaring.  This is
-  what makes the route accurate over long times: rounding the shifted diagonal
-  :math:`\sigma - q_i` to double acts like a leak of about :math:`u\sigma` per
-  second (Issue 11 measured :math:`2\cdot 10^{-11}` on a 2,000-species network);
-  with exact diagonal blocks the off-diagonal errors add along the path instead.
+  block's :math:`e^{tK_{bb}}` is summed (Horner, the sparse :math:`Y` on the left)
+  and squared in double-double with its own shift.  They replace the diagonal
+  blocks of the panels at every squaring.  This is what makes the route accurate
+  over long times: rounding the shifted diagonal :math:`\sigma - q_i` to double acts
+  like a leak of about :math:`u\sigma` per second (:math:`2\cdot 10^{-11}` on the
+  2,000-species decay network below when the whole exponential was squared in
+  double); with exact diagonal blocks the errors of the off-diagonal part add along
+  a path instead of doubling with every squaring.  Chains need nothing else (no
+  divided differences): their blocks are single species.
 * The diagonal :math:`\sigma - q_i` and the exact outflow :math:`q_i` come from
-  ``K + K_low`` in double-double.
+  ``K + K_low`` in double-double, so the result is that of the constants, not of a
+  rounded diagonal.
 * No entry is dropped; entries below :data:`FLUSH` (:math:`2^{-1060}`) are set to
   zero so that BLAS does not run into subnormal numbers (about 300 times slower).
 
-**The grid.**  A uniform grid is walked with one :math:`F(\Delta t)`, other grids
-with one :math:`F` per distinct interval.  The state is carried in double-double:
-the diagonal blocks act in double-double, the coupling between blocks is one BLAS
-product per tile in double.  The state is scaled by a power of two so that its
-largest start value is about one.
+**The grid.**  The state is carried in double-double: the diagonal blocks act in
+double-double, the coupling between blocks is one BLAS product per tile.  A grid
+uniform from 0 is walked with one step :math:`\Delta t'` of few significant bits
+(:math:`k\Delta t'` exact, :math:`\Delta t' \le t_k/k`), so one exponential serves
+every interval; each output is then moved on by the exact remainder
+:math:`t_k - k\Delta t'` (a few ulp) with a short nonnegative Taylor step
+:math:`e^{-\sigma\delta}T_m(\delta B)`.  Other grids step from one time to the next
+(one exponential per distinct interval) and correct the walk itself.  The state is
+scaled by a power of two so that its largest start value is about one.
 
-**Certificate** (per time point, relative, for every concentration above ``floor``;
-relative errors composed as :math:`\prod(1+\epsilon_i) - 1`):
+**Route.**  :func:`route_costs` predicts the seconds of this route and of the dense
+engine from operation counts and measured rates (:data:`RATES`,
+``benchmarks/calibrate_routes.py``); :mod:`kinetics.propagate` takes the cheaper.
+
+**Certificate** (per time point, relative, for every concentration whose exact
+value is above ``floor``; relative errors composed as :math:`\prod(1+\epsilon_i) - 1`):
 
 * *rounding*: an entry whose longest path from a species present at the start
   crosses :math:`\Lambda` blocks is off by at most :math:`(1 + c)^{\Lambda}
@@ -54,13 +66,21 @@ relative errors composed as :math:`\prod(1+\epsilon_i) - 1`):
   remainder), hence :math:`F - F_{\rm computed} \le 2^j G F` entrywise; applied to
   each computed state through :math:`(I - 2^j G)^{-1}` (a Neumann series
   summed until it falls below the floor), entries where it is not small relative
-  to the state go to the absolute part;
-* *absolute* (1-norm, scaled by the floor): flushed entries, underflow,
-  truncation mass on entries below the floor;
-* *time*: a grid time that differs from the sum of the steps by :math:`\delta`
-  moves a concentration by at most :math:`(\Lambda/t + \sigma)\,|\delta|`
-  relative;
+  to the state go to the absolute part.  The same for the correction steps.  When
+  truncation is a visible share of a bound, the walk is redone with more terms;
+* *absolute* (1-norm, counted at the floor): flushed entries, underflow,
+  truncation mass on entries where it is not relatively small;
 * the final rounding to double.
+
+The bound is a worst case: on the schemes below it is 1e-11 to 1e-10 while the
+measured errors are 1e-15 to 5e-15.
+
+**Measured** (one thread; ``benchmarks/bench_propagate.py``, ``tests/test_blocks.py``):
+the 2,000-species chain on 101 points to 1,000 s in 0.3-0.4 s, every member above
+1e-300 within 5.1e-15 of Bateman's closed form; the 2,000-species decay network
+(each species to 1-3 of the next 50) in 0.6-0.7 s, within 4.7e-15 of the dense
+double-double engine; two networks of 300 and 420 species against ball arithmetic
+(python-flint), trace species down to 1e-300 at 1 ms included, within 2e-15.
 
 References
 ----------
