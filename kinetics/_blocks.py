@@ -994,12 +994,15 @@ def route_costs(K, times) -> dict[str, float]:
     """
     from scipy.sparse.csgraph import connected_components
 
-    K = scipy.sparse.csr_array(K)
     n = K.shape[0]
+    most = _dense_most(n, len(times))
+    if most < RATES["fixed"]:
+        return {"dense": most, "blocks": math.inf}
     t = np.asarray(times, dtype=float)
     positive = t[t > 0]
-    if n == 0 or positive.size == 0:
-        return {"dense": 0.0, "blocks": RATES["fixed"]}
+    if positive.size == 0:
+        return {"dense": 0.0, "blocks": math.inf}
+    K = scipy.sparse.csr_array(K)
     p = positive.size
     h = float(positive.max()) / p
     sigma = float(max(-K.diagonal().min(initial=0.0), 0.0))
@@ -1025,7 +1028,18 @@ def route_costs(K, times) -> dict[str, float]:
     return {"dense": dense, "blocks": blocks}
 
 
+def _dense_most(n: int, points: int) -> float:
+    """Most the dense engine can cost [s]: 64 squarings and degree 400 (no look at K)."""
+    return RATES["dd"] * RATES["dense"] * n**3 * (2 * 20 + 64 + math.log2(points + 1))
+
+
 def prefers_blocks(K, times) -> bool:
-    """Whether the block route is predicted cheaper than the dense engine (:func:`route_costs`)."""
+    """Whether the block route is predicted cheaper than the dense engine (:func:`route_costs`).
+
+    A scheme so small that the dense engine costs less than the block route's set-up
+    whatever its constants is decided from its size alone (a few microseconds).
+    """
+    if _dense_most(K.shape[0], len(times)) < RATES["fixed"]:
+        return False
     cost = route_costs(K, times)
     return cost["blocks"] < cost["dense"]
