@@ -72,26 +72,55 @@ def strongly_connected(n, rng):
     return K
 
 
+def random_sparse(n, p, rng):
+    """An invented random scheme: each ordered pair linked with probability p."""
+    K = np.zeros((n, n))
+    mask = (rng.random((n, n)) < p) & ~np.eye(n, dtype=bool)
+    K[mask] = 10.0 ** rng.uniform(-3, 1, mask.sum())
+    return K - np.diag(K.sum(axis=0))
+
+
+def forward(n, rng):
+    """An invented forward network: each species forms one or two of the next eight."""
+    K = np.zeros((n, n))
+    for i in range(n - 1):
+        for j in rng.choice(np.arange(i + 1, min(n, i + 9)), size=min(2, n - 1 - i)):
+            K[j, i] += 10.0 ** rng.uniform(-3, 1)
+    return K - np.diag(K.sum(axis=0))
+
+
 def compare():
     rng = np.random.default_rng(3)
-    t = np.linspace(0.0, 100.0, 101)
-    print("\nscheme                      dense: model  measured | blocks: model  measured")
-    for n in (60, 150, 300, 400):
-        K = strongly_connected(n, rng)
+    cases = [
+        ("strongly connected", n, strongly_connected(n, rng), 101) for n in (60, 150, 300, 400)
+    ]
+    cases += [("random sparse 3/n", n, random_sparse(n, 3.0 / n, rng), 201) for n in (100, 200)]
+    cases += [("forward", n, forward(n, rng), 101) for n in (120, 300)]
+    print("\nscheme                      points | dense: model  measured | blocks: model  measured"
+          " | chosen  faster")  # fmt: skip
+    for name, n, K, points in cases:
+        t = np.linspace(0.0, 100.0, points)
         c0 = np.zeros(n)
         c0[0] = 1.0
         Ks = scipy.sparse.csr_array(K)
         cost = route_costs(Ks, t)
         propagate_batch(K[None], c0, t[:3], precision="double-double")
-        td = best(lambda K=K, c0=c0: propagate_batch(K[None], c0, t, precision="double-double"), 2)
-        tb = best(lambda Ks=Ks, c0=c0: propagate_blocks(Ks, c0, t, None), 2)
-        print(f"strongly connected n = {n:4d}: {cost['dense']:7.3f} s {td:7.3f} s | "
-              f"{cost['blocks']:7.3f} s {tb:7.3f} s")  # fmt: skip
+        td = best(
+            lambda K=K, c0=c0, t=t: propagate_batch(K[None], c0, t, precision="double-double"), 3
+        )
+        tb = best(lambda Ks=Ks, c0=c0, t=t: propagate_blocks(Ks, c0, t, None), 3)
+        chosen = "blocks" if cost["blocks"] < cost["dense"] else "dense"
+        faster = "blocks" if tb < td else "dense"
+        print(f"{name:18s} n = {n:4d} {points:4d} | {cost['dense']:7.3f} s {td:7.3f} s | "
+              f"{cost['blocks']:7.3f} s {tb:7.3f} s | {chosen:6s}  {faster}")  # fmt: skip
 
 
 def main():
     with threadpool_limits(limits=1, user_api="blas"):
         r = rates()
+    import os
+
+    print(f"load average: {os.getloadavg()}")
     print("seconds per operation (one thread):")
     for k, v in r.items():
         print(f"  {k:8s} {v:.3e}   (RATES now: {RATES.get(k, float('nan')):.3e})")

@@ -132,11 +132,12 @@ _TRUNC_REL = 2.0**-40  # a truncation bound above this fraction of an entry is a
 #: multiply-add of a BLAS panel product (``blas``) and of a matrix-vector product
 #: (``gemv``), a multiply-add of the column Taylor sum (``scatter``); ``fixed`` is
 #: the block route's set-up (components, tiles, plans), ``step`` its interpreter
-#: overhead per time step, and ``dense`` the number of
-#: full products the dense engine spends per Taylor degree ``sqrt(m)``, squaring and
-#: doubling step (fitted to its measured times on strongly connected schemes).
+#: overhead per time step, ``dense`` the number of full products the dense engine
+#: spends per Taylor degree ``sqrt(m)``, squaring and doubling step and ``double``
+#: its cost in plain double relative to double-double (both fitted to its measured
+#: times on random sparse schemes of 100-400 species).
 RATES = {"dd": 1.3e-9, "blas": 3.0e-11, "gemv": 1.5e-10, "scatter": 5.0e-10,
-         "fixed": 0.015, "step": 2.0e-4, "dense": 1.0}  # fmt: skip
+         "fixed": 0.015, "step": 2.0e-4, "dense": 0.55, "double": 0.2}  # fmt: skip
 
 
 def _gamma(k: float) -> float:
@@ -578,6 +579,14 @@ def _dd_block(lay: _Layout, start: int, size: int, h: float, j: int):
     return sigma, Yh, Yl, float(np.abs(Yh).sum(axis=0).max()) * (1 + 4 * _U)
 
 
+def _dd_degree(y: float) -> int:
+    """Smallest ``m >= 2`` with :math:`y^{m+1}/(m+1)! \\le 2^{-110}`."""
+    m = 2
+    while (m + 1) * math.log(max(y, 1e-300)) - math.lgamma(m + 2) > -110 * math.log(2.0):
+        m += 1
+    return m
+
+
 def _group_levels(lay: _Layout, start: int, size: int, h: float, j: int) -> list:
     """``exp(h 2^(i-j) K_bb)`` (hi, lo, relative bound) for ``i = 0..j``, double-double.
 
@@ -598,9 +607,9 @@ def _group_levels(lay: _Layout, start: int, size: int, h: float, j: int) -> list
     gdd = (size * size + size + 4) * DD_UNIT
     # every entry of exp(Y) is positive (one block): the degree reaches every entry
     hops = shortest_path(scipy.sparse.csr_array(Yh != 0), unweighted=True)
-    m = int(hops.max()) + 2
-    while (m + 1) * math.log(max(y, 1e-300)) - math.lgamma(m + 2) > -110 * math.log(2.0):
-        m += 1
+    # degree: the scalar remainder below 2^-110, plus the longest shortest path (an
+    # entry reached in p steps sees the remainder of degree m - p)
+    m = int(hops.max()) + _dd_degree(y)
     for _attempt in range(6):
         Th, Tl = np.zeros((size, size)), np.zeros((size, size))
         bk.dd_add_identity(Th, Tl)
@@ -821,7 +830,9 @@ class _Walk:
         """
         floor = max(self.floor, 2.0**-1074)
         claimed = z >= floor
-        lam = int(self.lay.crossings[claimed].max(initial=0))
+        # an entry exactly above the floor is computed above half of it (else the
+        # bound exceeds 1/2 anyway): its crossings count
+        lam = int(self.lay.crossings[z >= floor / 2].max(initial=0))
         rho = _compose(_power(self.hop, lam), self.eta)
         cut = (self.cut + absolute) / floor
         self.worst_cut = max(self.worst_cut, _compose(self.trunc, rel, cut))
@@ -963,8 +974,8 @@ def _propagate(K, c0, times, feed, K_low, floor):
     return out, bound
 
 
-def route_costs(K, times) -> dict[str, float]:
-    r"""Predicted seconds of the dense double-double engine and of the block route.
+def route_costs(K, times, precision: str = "auto") -> dict[str, float]:
+    r"""Predicted seconds of the dense engine and of the block route.
 
     Parameters
     ----------
@@ -972,6 +983,9 @@ def route_costs(K, times) -> dict[str, float]:
         Rate matrix [1/s].
     times : ndarray
         The grid [s] (its last value and its length).
+    precision : str
+        The dense engine's arithmetic: ``"double"`` costs it :data:`RATES`
+        ``["double"]`` of the double-double figure; otherwise double-double.
 
     Returns
     -------
@@ -979,18 +993,16 @@ def route_costs(K, times) -> dict[str, float]:
         ``{"dense": seconds, "blocks": seconds}`` from operation counts times
         :data:`RATES`:
 
-        * dense: :math:`n^3 (2\sqrt{m} + j + \log_2 p)` double-double multiply-adds
+        * dense: :math:`n^3 (2\\sqrt{m} + j + \\log_2 p)` double-double multiply-adds
           (Paterson-Stockmeyer Taylor sum, squarings, doubling over the grid);
-        * blocks: the double-double Horner sum (sparse ``Y``) and squarings of every
-          block of two or more species, :math:`j\,n^3/6` BLAS multiply-adds for the
-          squarings of a lower triangular exponential, :math:`m\,\mathrm{nnz}\,n/2`
-          for the column Taylor sum, and per step :math:`n^2/2` for the coupling, the
-          double-double products of the blocks, :math:`(m+1)(\mathrm{nnz}+n)` for the
+        * blocks, for every block of :math:`b \\ge 2` species with :math:`z` nonzeros:
+          Horner :math:`m (b^2 + z b)`, its truncation check :math:`(m+1) z b`,
+          squarings :math:`(j+1) b^3` and per step :math:`2b^2` double-double
+          multiply-adds; for the whole scheme :math:`j\\,n^3/6` BLAS multiply-adds of
+          squarings (a full lower triangle: an upper bound, a chain fills a band),
+          :math:`m\\,\\mathrm{nnz}\\,n/2` for the column Taylor sum, and per step
+          :math:`n^2/2` for the coupling, :math:`(m+1)(\\mathrm{nnz}+n)` for the
           truncation bound and the interpreter's overhead; plus the set-up.
-
-    The fill of the block route's exponential is taken as a full lower triangle
-    (an upper bound: a chain fills a band), so the route is never chosen for a
-    scheme where it would be much slower than predicted.
     """
     from scipy.sparse.csgraph import connected_components
 
@@ -1008,21 +1020,21 @@ def route_costs(K, times) -> dict[str, float]:
     sigma = float(max(-K.diagonal().min(initial=0.0), 0.0))
     jd, md, _ = _taylor_plan(sigma, h, 1)
     dense = RATES["dd"] * RATES["dense"] * n**3 * (2 * math.sqrt(md) + jd + math.log2(p + 1))
-    if dense < RATES["fixed"]:
-        return {"dense": dense, "blocks": math.inf}
+    if precision == "double":
+        dense *= RATES["double"]
     count, labels = connected_components(K, directed=True, connection="strong")
-    sizes = np.bincount(labels, minlength=count).astype(float)
+    b = np.bincount(labels, minlength=count).astype(float)
     coo = K.tocoo()
     inside = labels[coo.row] == labels[coo.col]
-    nnz_in = np.bincount(labels[coo.row[inside]], minlength=count).astype(float)
-    j, m, _ = _taylor_plan(sigma, h, 1)
-    big = sizes > 1
+    z = np.bincount(labels[coo.row[inside]], minlength=count).astype(float)
+    j, m, y = _taylor_plan(sigma, h, 1)
+    big = b > 1
+    b, z = b[big], z[big]
+    mb = _dd_degree(y) + 10
+    dd = RATES["dd"] * float(np.sum(mb * (b**2 + z * b) + (j + 1) * b**3 + 2 * p * b**2))
+    dd += RATES["blas"] * float(np.sum((mb + 1) * z * b))
     nnz = float(K.nnz)
-    # per block of two or more: Horner (sparse Y times a dense block) and squarings
-    dd = RATES["dd"] * float(np.sum(m * nnz_in[big] * sizes[big] + (j + 2) * sizes[big] ** 3))
-    # per step: the coupling products, the double-double blocks, the truncation bound
-    step = (RATES["step"] + RATES["gemv"] * n**2 / 2 + RATES["dd"] * float(np.sum(sizes[big] ** 2))
-            + RATES["scatter"] * (m + 1) * (nnz + n))  # fmt: skip
+    step = RATES["step"] + RATES["gemv"] * n**2 / 2 + RATES["scatter"] * (m + 1) * (nnz + n)
     blocks = (RATES["fixed"] + dd + RATES["blas"] * j * n**3 / 6
               + RATES["scatter"] * m * nnz * n / 2 + p * step)  # fmt: skip
     return {"dense": dense, "blocks": blocks}
@@ -1033,7 +1045,7 @@ def _dense_most(n: int, points: int) -> float:
     return RATES["dd"] * RATES["dense"] * n**3 * (2 * 20 + 64 + math.log2(points + 1))
 
 
-def prefers_blocks(K, times) -> bool:
+def prefers_blocks(K, times, precision: str = "auto") -> bool:
     """Whether the block route is predicted cheaper than the dense engine (:func:`route_costs`).
 
     A scheme so small that the dense engine costs less than the block route's set-up
@@ -1041,5 +1053,5 @@ def prefers_blocks(K, times) -> bool:
     """
     if _dense_most(K.shape[0], len(times)) < RATES["fixed"]:
         return False
-    cost = route_costs(K, times)
+    cost = route_costs(K, times, precision)
     return cost["blocks"] < cost["dense"]

@@ -689,7 +689,7 @@ def propagate_certified(K, c0, times, feed=None, *, precision: Precision = "auto
     from kinetics._blocks import prefers_blocks, propagate_blocks
 
     # route by predicted cost (calibrated model in kinetics._blocks.route_costs)
-    if prefers_blocks(K, times):
+    if prefers_blocks(K, times, precision):
         conc, bound = propagate_blocks(K, c0, times, f, floor=TINY)
         return Propagation(times, conc, bound, "blocks")
     if scipy.sparse.issparse(K):
