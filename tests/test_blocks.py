@@ -31,23 +31,23 @@ DATA = pathlib.Path(__file__).parent / "data" / "block_references.json"
 
 
 def rate_matrix(n, steps):
-    """K (CSR, diagonal rounded once by math.fsum) and K_low (exact diagonal minus K's)."""
-    rows, cols, vals = [], [], []
-    out: dict[int, list[float]] = {}
+    """K (CSR: every entry a sum of constants rounded once by math.fsum) and K_low (the
+    exact sums minus K's entries), so that K + K_low is the matrix of the constants."""
+    sums: dict[tuple[int, int], list[float]] = {}
     for src, dst, k in steps:
-        rows.append(dst)
-        cols.append(src)
-        vals.append(k)
-        out.setdefault(src, []).append(k)
-    diag, low = np.zeros(n), np.zeros(n)
-    for src, ks in out.items():
+        sums.setdefault((dst, src), []).append(k)
+        sums.setdefault((src, src), []).append(-k)
+    rows, cols, vals, lows = [], [], [], []
+    for (i, j), ks in sums.items():
         rounded = math.fsum(ks)
-        diag[src] = -rounded
-        low[src] = -float(sum(Fraction(k) for k in ks) - Fraction(rounded))
-    K = scipy.sparse.csr_array(
-        (np.r_[vals, diag], (np.r_[rows, np.arange(n)], np.r_[cols, np.arange(n)])), shape=(n, n)
-    )
-    return K, scipy.sparse.diags_array(low).tocsr()
+        rows.append(i)
+        cols.append(j)
+        vals.append(rounded)
+        lows.append(float(sum(Fraction(k) for k in ks) - Fraction(rounded)))
+    K = scipy.sparse.csr_array((vals, (rows, cols)), shape=(n, n))
+    K_low = scipy.sparse.csr_array((lows, (rows, cols)), shape=(n, n))
+    K_low.eliminate_zeros()
+    return K, K_low
 
 
 def _compose(a, b):
