@@ -798,7 +798,8 @@ class _Walk:
                           np.arange(lay.size), yh, yl)  # fmt: skip
         pos = yh > 0
         ratio = float((delta[pos] / yh[pos]).max(initial=0.0))
-        eps = _compose(_power(_compose(_gamma(rows), 2 * _U), m), _gamma(m), _U)
+        # per term: a sum of `rows` products, B rounded (u), the factor d and / k (2u)
+        eps = _compose(_power(_compose(_gamma(rows), 4 * _U), m), _gamma(m), _U)
         rounding = _compose(eps * ratio * (1 + 4 * _U), 8 * DD_UNIT)
         scale = d ** (m + 1) * 1.01
         qn = scale * math.exp((m + 1) * math.log(max(beta, 1e-300)) - math.lgamma(m + 2))
