@@ -33,6 +33,7 @@ __all__ = [
     "YMAX",
     "Interval",
     "Layout",
+    "components",
     "compose",
     "dd_degree",
     "dd_scalar_exp",
@@ -83,6 +84,40 @@ def _reachable(src, dst, n: int, seeds: np.ndarray) -> np.ndarray:
     return mask[:n]
 
 
+def components(src, dst, n: int) -> tuple[list[np.ndarray], tuple[np.ndarray, np.ndarray]]:
+    """Strongly connected components in topological order and the edges between them.
+
+    Returns the members of each component (upstream first) and the distinct edges
+    ``(source rank, target rank)`` between components, sorted by source.  scipy's
+    labels usually come in (reverse) topological order already; when they do not,
+    the order is :func:`kinetics.network.condensation`'s.
+    """
+    from scipy.sparse.csgraph import connected_components
+
+    adj = scipy.sparse.csr_array((np.ones(src.size), (src, dst)), shape=(n, n))
+    count, labels = connected_components(adj, directed=True, connection="strong")
+    a, b = labels[src], labels[dst]
+    cross = a != b
+    a, b = a[cross], b[cross]
+    if np.all(a > b):
+        rank = count - 1 - np.arange(count)  # label count-1 first
+    elif np.all(a < b):
+        rank = np.arange(count)
+    else:
+        from kinetics.network import condensation
+
+        comps = condensation(src, dst, n)
+        labels = comps.labels
+        a, b = labels[src][cross], labels[dst][cross]
+        rank = np.empty(count, dtype=np.int64)
+        rank[np.array(comps.order, dtype=np.int64)] = np.arange(count)
+    by_rank = np.argsort(rank[labels], kind="stable")
+    sizes = np.bincount(rank[labels], minlength=count)
+    members = np.split(by_rank, np.cumsum(sizes)[:-1]) if count else []
+    pairs = np.unique(np.stack([rank[a], rank[b]]), axis=1) if a.size else np.zeros((2, 0), int)
+    return members, (pairs[0], pairs[1])
+
+
 class Layout:
     """Species in block order, blocks, tiles and path lengths of one scheme.
 
@@ -93,16 +128,13 @@ class Layout:
     """
 
     def __init__(self, K, K_low, x0: np.ndarray) -> None:
-        from kinetics.network import condensation
-
         n = K.shape[0]
         coo = K.tocoo()
         off = (coo.row != coo.col) & (coo.data != 0)
         keep = np.flatnonzero(_reachable(coo.col[off], coo.row[off], n, x0 > 0))
         Kr = K[keep][:, keep].tocoo()
-        off = Kr.row != Kr.col
-        comps = condensation(Kr.col[off], Kr.row[off], keep.size)
-        members = [comps.members[c] for c in comps.order]
+        off = (Kr.row != Kr.col) & (Kr.data != 0)
+        members, edges = components(Kr.col[off], Kr.row[off], keep.size)
         local = np.concatenate(members) if members else np.zeros(0, dtype=int)
         self.species = keep[local]
         self.size = self.species.size
@@ -110,7 +142,7 @@ class Layout:
         self.starts = np.r_[0, np.cumsum(sizes)].astype(np.int64)
         self.block_of = np.repeat(np.arange(sizes.size), sizes)
         self.first = self.starts[self.block_of]
-        self.crossings = self._crossings(comps, x0[self.species])
+        self.crossings = self._crossings(edges, x0[self.species])
         self.bounds = self._tiles(sizes)
         self.tile_of = np.searchsorted(self.bounds, np.arange(self.size), side="right") - 1
         perm = self.species
@@ -148,20 +180,15 @@ class Layout:
             self._shifted = (B, beta, rows)
         return self._shifted
 
-    def _crossings(self, comps, x0p: np.ndarray) -> np.ndarray:
+    def _crossings(self, edges, x0p: np.ndarray) -> np.ndarray:
         """Longest path, in block crossings, from a block holding a start value."""
-        nb = len(comps.order)
-        rank = np.empty(nb, dtype=np.int64)
-        rank[np.array(comps.order, dtype=np.int64)] = np.arange(nb)
-        seeded = np.zeros(nb, dtype=bool)
-        seeded[self.block_of[x0p > 0]] = True
+        nb = self.starts.size - 1
         depth = np.full(nb, -1, dtype=np.int64)
-        for c in comps.order:
-            r = rank[c]
-            best = 0 if seeded[r] else -1
-            for pred in comps.predecessors[c]:
-                best = max(best, depth[rank[pred]] + 1)
-            depth[r] = best
+        depth[self.block_of[x0p > 0]] = 0
+        src, dst = edges
+        for a, b in zip(src.tolist(), dst.tolist(), strict=True):  # sorted by source
+            if depth[a] + 1 > depth[b]:
+                depth[b] = depth[a] + 1
         return depth[self.block_of]
 
     def _tiles(self, sizes: np.ndarray) -> np.ndarray:

@@ -24,6 +24,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from kinetics import _block_kernels
+from kinetics._block_exp import components
 from kinetics._blocks import block_order, propagate_blocks, route_costs
 from kinetics.propagate import TINY, propagate_batch, propagate_certified
 
@@ -214,6 +215,22 @@ def test_block_order_is_block_lower_triangular():
     for a, b in itertools.pairwise(starts):
         assert not P[a:b, b:].any()  # nothing flows upstream of a block
     assert sorted(len(b) for b in blocks)[-3:] == [2, 5, 9]
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.integers(2, 40), st.integers(0, 2**32 - 1))
+def test_components_come_upstream_first(n, seed):
+    rng = np.random.default_rng(seed)
+    src, dst = rng.integers(0, n, 2 * n), rng.integers(0, n, 2 * n)
+    src, dst = src[src != dst], dst[src != dst]
+    members, (a, b) = components(src, dst, n)
+    rank = np.empty(n, dtype=int)
+    for r, m in enumerate(members):
+        rank[m] = r
+    assert sorted(np.concatenate(members).tolist()) == list(range(n))
+    assert np.all(rank[src] <= rank[dst])  # every step flows downstream or stays in a block
+    assert np.all(a < b)
+    assert np.all(np.diff(a) >= 0)
 
 
 def test_unreachable_species_stay_exactly_zero_and_time_zero_is_c0():
