@@ -108,6 +108,47 @@ def bench_small():
               f"{worst_rel(c, ref, 1e-10):.2e}   LSODA/propagate = {t_ls / t_p:6.1f}x")  # fmt: skip
 
 
+BRANCHED_TEXT = """title: invented 10-species branched scheme (benchmark only)
+A -> B  k1 = 0.5 1/s
+A -> C  k2 = 0.2 1/s
+B -> D  k3 = 0.1 1/s
+C -> D  k4 = 0.05 1/s
+D -> E  k5 = 0.02 1/s
+D -> F  k6 = 0.03 1/s
+E -> G  k7 = 0.01 1/s
+F -> G  k8 = 0.2 1/s
+G -> H  k9 = 0.005 1/s
+H -> I  k10 = 0.5 1/s
+I <=> J kf = 0.001 1/s, kr = 0.0005 1/s
+start A = 1 mol/L
+"""
+
+
+def bench_api():
+    """Public API against the engine call, and both against LSODA on a long and a short window."""
+    import kinetics
+    from kinetics.propagate import propagate_certified
+
+    print("\n== public API: kinetics.solve vs the engine call, 10 species, 201 points ==")
+    scheme = kinetics.parse(BRANCHED_TEXT)
+    Kh, Kl = scheme.rate_matrix_pair()
+    K = Kh + Kl
+    c0 = scheme.initial_vector
+    for until in (1000.0, 10.0):
+        t = np.linspace(0.0, until, 201)
+
+        def lsoda(t=t, until=until):
+            return solve_ivp(lambda _t, y: K @ y, (0, until), c0, method="LSODA", t_eval=t,
+                             rtol=1e-10, atol=1e-20, jac=lambda _t, _y: K).y.T  # fmt: skip
+
+        t_ls, _ = best_of(lsoda, repeat=10)
+        t_e, _ = best_of(lambda t=t: propagate_certified(Kh, c0, t, K_low=Kl), repeat=300)
+        t_a, _ = best_of(lambda t=t: kinetics.solve(scheme, t), repeat=300)
+        print(f"window {until:6.0f} s: LSODA {t_ls * 1e3:6.2f} ms | engine {t_e * 1e3:6.3f} ms"
+              f" | solve {t_a * 1e3:6.3f} ms | solve/engine {t_a / t_e:4.2f}"
+              f" | LSODA/solve {t_ls / t_a:6.1f}x")  # fmt: skip
+
+
 def chain_matrix(n):
     k = np.logspace(-4, 2, n)
     rows = np.r_[np.arange(n), np.arange(1, n)]
@@ -362,6 +403,11 @@ def accuracy(cases):
 
 
 def main():
+    from threadpoolctl import threadpool_limits
+
+    # one BLAS thread for every timing, baselines included: on two cores threaded BLAS
+    # on these sizes is several times slower, and it would flatter the ratios
+    threadpool_limits(limits=1, user_api="blas")
     ap = argparse.ArgumentParser(description=__doc__)
     ap.add_argument("--accuracy", type=int, default=0, help="number of random networks")
     ap.add_argument("--skip-chain", action="store_true")
@@ -370,6 +416,7 @@ def main():
     args = ap.parse_args()
     print(f"load average (1, 5, 15 min): {os.getloadavg()}")
     bench_small()
+    bench_api()
     if not args.skip_chain:
         bench_chain()
         bench_decay(args.full_reference)

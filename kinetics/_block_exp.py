@@ -24,6 +24,7 @@ import math
 import numpy as np
 import scipy.sparse
 
+from kinetics import _doubledouble as dd
 from kinetics._doubledouble import DD_UNIT
 
 __all__ = [
@@ -167,10 +168,8 @@ class Layout:
         """``B = N + diag(sigma - q)`` (CSC, nonnegative, diagonal rounded up), its 1-norm
         and its largest number of nonzeros in a row."""
         if self._shifted is None:
-            d = self.sigma - self.qh
-            z = d - self.sigma
-            err = (self.sigma - (d - z)) + (-self.qh - z) - self.ql
-            diag = np.nextafter(d + err, np.inf)  # >= sigma - q_i
+            dh, _ = dd.add(self.sigma, 0.0, -self.qh, -self.ql)
+            diag = np.nextafter(dh, np.inf)  # >= sigma - q_i (|lo| <= ulp(hi) / 2)
             B = scipy.sparse.csc_array(self.N + scipy.sparse.diags_array(np.maximum(diag, 0.0)))
             B.sort_indices()
             beta = float(np.asarray(B.sum(axis=0)).max(initial=0.0)) * (1 + 4 * UNIT)
@@ -208,10 +207,7 @@ class Layout:
         """Outflow q_i = -(K_ii + K_low_ii) as a double-double pair (qh, ql)."""
         dh = -self.K.diagonal()
         dl = np.zeros_like(dh) if self.K_low is None else -self.K_low.diagonal()
-        hi = dh + dl
-        z = hi - dh
-        self.qh = hi
-        self.ql = (dh - (hi - z)) + (dl - z)  # Knuth's TwoSum
+        self.qh, self.ql = dd.two_sum(dh, dl)
         # column sums of K (growth when positive) for the norm of F
         colsum = np.asarray(self.K.sum(axis=0)).ravel()
         if self.K_low is not None:
@@ -289,11 +285,9 @@ class Interval:
             vals = vals + extra[coo.row, coo.col]
         off = coo.row != coo.col
         n = lay.size
-        # sigma - q_i in double-double (TwoSum), then times h, rounded once
-        s = sigma - lay.qh
-        z = s - sigma
-        err = (sigma - (s - z)) + (-lay.qh - z) - lay.ql
-        diag = s * h + err * h
+        # sigma - q_i in double-double, then times h (rounded once or twice)
+        sh, sl = dd.add(sigma, 0.0, -lay.qh, -lay.ql)
+        diag = sh * h + sl * h
         rows = np.r_[coo.row[off], np.arange(n)]
         cols = np.r_[coo.col[off], np.arange(n)]
         data = np.r_[vals[off] * h, diag]
@@ -467,7 +461,6 @@ def dd_scalar_exp(sigma: float, t: float) -> tuple[float, float]:
 
 def _dd_block(lay: Layout, start: int, size: int, h: float, j: int):
     """Shift, ``Y = h 2^-j (K_bb + sigma_b I)`` in double-double, and ``y = ||Y||_1``."""
-    from kinetics import _block_kernels as bk
 
     sl = slice(start, start + size)
     Ah = lay.K[sl, sl].toarray()
@@ -476,17 +469,11 @@ def _dd_block(lay: Layout, start: int, size: int, h: float, j: int):
     sigma = float(qh.max())
     if np.any(ql[qh == sigma] > 0):
         sigma = float(np.nextafter(sigma, np.inf))
-    # off-diagonal pairs normalised (TwoSum), diagonal sigma - q in double-double
-    s = Ah + Al
-    z = s - Ah
-    Bh, Bl = s, (Ah - (s - z)) + (Al - z)
-    d = sigma - qh
-    z = d - sigma
-    e = (sigma - (d - z)) + (-qh - z) - ql
+    # off-diagonal pairs normalised, diagonal sigma - q in double-double, times h
+    Bh, Bl = dd.two_sum(Ah, Al)
     idx = np.arange(size)
-    Bh[idx, idx] = d + e
-    Bl[idx, idx] = e - ((d + e) - d)
-    bk.dd_scale(Bh, Bl, h, 0.0)
+    Bh[idx, idx], Bl[idx, idx] = dd.add(sigma, 0.0, -qh, -ql)
+    Bh, Bl = dd.product(Bh, Bl, h, 0.0)
     Yh, Yl = np.ldexp(Bh, -j), np.ldexp(Bl, -j)
     return sigma, Yh, Yl, float(np.abs(Yh).sum(axis=0).max()) * (1 + 4 * UNIT)
 
@@ -536,7 +523,7 @@ def _group_levels(lay: Layout, start: int, size: int, h: float, j: int) -> list:
             break
         m *= 2
     eh, el = dd_scalar_exp(sigma, math.ldexp(h, -j))
-    bk.dd_scale(Th, Tl, eh, el)
+    Th, Tl = dd.product(Th, Tl, eh, el)
     eps = compose(m * (gdd + 4 * DD_UNIT), power(3 * DD_UNIT, m), 4 * DD_UNIT)
     trunc = 2 * kappa if kappa <= 0.125 else 1.0
     out = [(Th, Tl, compose(eps, trunc))]

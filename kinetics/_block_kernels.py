@@ -14,7 +14,8 @@ that touch every nonzero of a large sparse scheme live here:
   decay factors :math:`e^{-q_i t}` of species that form a block of their own and the
   product of a double-double state with them;
 * :func:`dd_divide`, :func:`dd_add_identity` -- the two elementwise double-double
-  steps of a Horner evaluation on a small dense block.
+  steps of a Horner evaluation on a small dense block;
+* :func:`taylor_apply` -- :math:`\sum_{k=1}^m (sY)^k v/k!` for a short correction step.
 
 The double-double primitives (TwoProduct, TwoSum, the exponential) are those of
 :mod:`kinetics._kernels`; the rules of that module hold here too (strict IEEE, no
@@ -206,19 +207,6 @@ def dd_add_identity(Ah, Al):
         hi = s + f
         Al[i, i] = f - (hi - s)
         Ah[i, i] = hi
-
-
-@njit(**_JIT)
-def dd_scale(Ah, Al, ch, cl):
-    """``A *= c`` elementwise (double-double, nonnegative)."""
-    n, m = Ah.shape
-    for i in range(n):
-        for j in range(m):
-            p, e = two_prod(ch, Ah[i, j])
-            e += ch * Al[i, j] + cl * Ah[i, j]
-            hi = p + e
-            Al[i, j] = e - (hi - p)
-            Ah[i, j] = hi
 
 
 @njit(**_JIT)

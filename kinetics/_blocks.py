@@ -403,7 +403,7 @@ def _run(lay: Layout, x0: np.ndarray, times: np.ndarray, floor: float, boost: in
     return X, bound, walk
 
 
-def propagate_blocks(K, c0, times, feed, *, K_low=None, floor=None):
+def propagate_blocks(K, c0, times, feed, *, K_low=None, feed_low=None, floor=None):
     """Grid propagation of a large scheme, block by block (see the module docstring).
 
     Parameters
@@ -419,6 +419,8 @@ def propagate_blocks(K, c0, times, feed, *, K_low=None, floor=None):
     K_low : scipy.sparse matrix or ndarray, shape (n, n), optional
         Low-order parts: the exact rate matrix is ``K + K_low`` (in particular the
         diagonal, minus the sum of the outflow constants, to double-double).
+    feed_low : ndarray, shape (n,), optional
+        Low-order parts of the feed (exact feed ``feed + feed_low``).
     floor : float, optional
         Concentrations [conc] above which the bound holds (default
         :data:`kinetics.propagate.TINY`).
@@ -439,10 +441,31 @@ def propagate_blocks(K, c0, times, feed, *, K_low=None, floor=None):
     if floor is None:
         from kinetics.propagate import TINY as floor
     with threadpool_limits(limits=1, user_api="blas"):
-        return _propagate(K, c0, times, feed, K_low, float(floor))
+        K_low, feed_low = _low_parts(K_low, feed_low, K.shape[0], feed is not None)
+        return _propagate(K, c0, times, feed, K_low, feed_low, float(floor))
 
 
-def _augmented(K, K_low, c0, feed):
+def _low_parts(K_low, feed_low, n: int, fed: bool):
+    """Checked low parts: sparse ``K_low`` kept sparse (shape, finite), others by
+    :func:`kinetics.checks.low_parts`."""
+    from kinetics import checks
+    from kinetics.errors import UsageError
+
+    if K_low is not None:
+        if scipy.sparse.issparse(K_low):
+            K_low = scipy.sparse.csr_array(K_low, dtype=float)
+            if K_low.shape != (n, n):
+                raise UsageError(f"K_low must have shape {(n, n)}, got {K_low.shape}")
+            if not np.isfinite(K_low.data).all():
+                raise UsageError("K_low has a non-finite entry")
+        else:
+            K_low = checks.low_parts(K_low, (n, n), "K_low")
+    if feed_low is not None and fed:
+        feed_low = checks.low_parts(feed_low, (n,), "feed_low")
+    return K_low, feed_low if fed else None
+
+
+def _augmented(K, K_low, c0, feed, feed_low):
     """Rate matrix (CSR), low parts and start vector with the feed as a species of value 1."""
     K = scipy.sparse.csr_array(K, dtype=float)
     low = None if K_low is None else scipy.sparse.csr_array(K_low, dtype=float)
@@ -456,14 +479,20 @@ def _augmented(K, K_low, c0, feed):
         (np.r_[coo.data, feed[fr]], (np.r_[coo.row, fr], np.r_[coo.col, np.full(fr.size, n)])),
         shape=(n + 1, n + 1),
     )
-    if low is not None:
-        low = scipy.sparse.csr_array(scipy.sparse.block_diag([low, np.zeros((1, 1))]))
+    if low is not None or feed_low is not None:
+        lc = scipy.sparse.coo_array((n, n)) if low is None else low.tocoo()
+        fl = np.zeros(n) if feed_low is None else np.asarray(feed_low, dtype=float)
+        lr = np.flatnonzero(fl)
+        low = scipy.sparse.csr_array(
+            (np.r_[lc.data, fl[lr]], (np.r_[lc.row, lr], np.r_[lc.col, np.full(lr.size, n)])),
+            shape=(n + 1, n + 1),
+        )
     return K, low, np.append(x, 1.0)
 
 
-def _propagate(K, c0, times, feed, K_low, floor):
+def _propagate(K, c0, times, feed, K_low, feed_low, floor):
     n = K.shape[0]
-    K, K_low, x = _augmented(K, K_low, c0, feed)
+    K, K_low, x = _augmented(K, K_low, c0, feed, feed_low)
     top = float(x[:n].max(initial=0.0))
     if x.size > n and times.size:
         top = max(top, float(np.max(feed)) * float(times[-1]), 1e-300)

@@ -130,26 +130,40 @@ def dd_exp(xh, xl):
 
 
 @njit(**_JIT)
-def shift_and_norm(A, t, sigma, beta):
-    """Shift ``sigma = max(-a_ii)`` and ``beta = max(||t B||_1, |sigma| t)``, per member."""
+def shift_and_norm(A, Al, t, sigma, sigma_lo, beta):
+    r"""Shift :math:`\sigma = \max_i(-a_{ii})` and :math:`\beta = \max(\|tB\|_1, \sigma t)`.
+
+    ``A + Al`` is the matrix as a double-double pair (``Al`` the low parts, zero for a
+    matrix given in doubles), so :math:`\sigma` is the exact largest outflow
+    ``sigma + sigma_lo``; the norm uses the high parts (it only chooses plans and scales
+    bounds, and is rounded up to a quarter power of two by the caller).
+    """
     b, n, _ = A.shape
     for q in range(b):
-        sg = -A[q, 0, 0] if n else 0.0
+        sh = 0.0
+        sl = 0.0
+        if n:
+            sh = -A[q, 0, 0]
+            sl = -Al[q, 0, 0]
         for i in range(1, n):
-            if -A[q, i, i] > sg:
-                sg = -A[q, i, i]
+            xh = -A[q, i, i]
+            xl = -Al[q, i, i]
+            if xh > sh or (xh == sh and xl > sl):
+                sh = xh
+                sl = xl
         norm = 0.0
         for c in range(n):
             col = 0.0
             for a in range(n):
                 x = A[q, a, c]
                 if a == c:
-                    x += sg
+                    x += sh
                 col += abs(x)
             if col > norm:
                 norm = col
-        sigma[q] = sg
-        beta[q] = max(norm, abs(sg)) * t[q]
+        sigma[q] = sh
+        sigma_lo[q] = sl
+        beta[q] = max(norm, abs(sh)) * t[q]
 
 
 @njit(**_JIT)
@@ -308,14 +322,16 @@ def _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh, Fl, Ph, Pl, Th, Tl, Wh
     for i in range(n):
         Ph[0, i, i] = 1.0
     copy_pair(Yh, Yl, Ph[1], Pl[1])
+    # powers of Y, and Horner steps, with the sparser factor on the left (its zero
+    # entries are skipped; everything here is a polynomial in Y, so the factors commute)
     for q in range(2, s + 1):
-        product(Ph[q - 1], Pl[q - 1], Yh, Yl, Ph[q], Pl[q], dd)
+        product(Yh, Yl, Ph[q - 1], Pl[q - 1], Ph[q], Pl[q], dd)
     # Horner in Y^s over the blocks sum_l c_(i s + l) Y^l
     fill(Th, 0.0)
     fill(Tl, 0.0)
     for blk in range(r, -1, -1):
         if blk < r:
-            product(Th, Tl, Ph[s], Pl[s], Wh, Wl, dd)
+            product(Ph[s], Pl[s], Th, Tl, Wh, Wl, dd)
             copy_pair(Wh, Wl, Th, Tl)
         for q in range(s):
             _scale_add(Th, Tl, Ph[q], Pl[q], ih[blk * s + q], il[blk * s + q], dd)
@@ -339,13 +355,16 @@ def _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh, Fl, Ph, Pl, Th, Tl, Wh
 
 
 @njit(**_JIT)
-def exponentials(A, t, sigma, j, s, r, ih, il, dd, Fh, Fl, Y, P, M):
-    """Exponentials ``exp(t_q A_q)`` of a stack sharing one plan, shift and scale inside.
+def exponentials(A, Al, t, sigma, sigma_lo, j, s, r, ih, il, dd, Fh, Fl, Y, P, M):
+    r"""Exponentials ``exp(t_q (A_q + Al_q))`` of a stack sharing one plan, shift and scale inside.
 
-    ``A`` (b, n, n) essentially nonnegative; ``sigma`` the shifts; ``ih + il`` the
-    inverse factorials.  Writes ``Fh``, ``Fl`` and the scaled shifted matrices
-    ``Y = t B / 2^j`` (double).  ``P`` (2, s + 1, n, n) and ``M`` (6, n, n) are scratch
-    space (see :func:`scratch`).
+    ``A + Al`` (b, n, n) essentially nonnegative, a double-double pair (``Al`` zero for a
+    matrix given in doubles); ``sigma + sigma_lo`` the shifts (:func:`shift_and_norm`);
+    ``ih + il`` the inverse factorials.  The shifted diagonal :math:`\sigma - q_i` is
+    formed in double-double from the exact outflow :math:`q_i`, so a large outflow does
+    not leave a rounding error that acts like a leak over long times.  Writes ``Fh``,
+    ``Fl`` and the scaled shifted matrices ``Y = t B / 2^j`` (double).  ``P``
+    (2, s + 1, n, n) and ``M`` (6, n, n) are scratch space (see :func:`scratch`).
     """
     b, n, _ = A.shape
     scale = 2.0**-j
@@ -355,36 +374,40 @@ def exponentials(A, t, sigma, j, s, r, ih, il, dd, Fh, Fl, Y, P, M):
         tt = t[q] * scale  # exact: power-of-two scaling
         for a in range(n):
             for c in range(n):
-                x = A[q, a, c]
+                xh = A[q, a, c]
+                xl = Al[q, a, c]
+                if a == c:  # B = A + sigma I in double-double (nonnegative by the choice of sigma)
+                    xh, xl = _dd_add(xh, xl, sigma[q], sigma_lo[q])
+                    if xh < 0.0:
+                        xh = 0.0
+                        xl = 0.0
                 if dd:
-                    lo = 0.0
-                    if a == c:  # B = A + sigma I exactly (TwoSum on the diagonal)
-                        x, lo = two_sum(x, sigma[q])
-                    p, e = two_prod(x, tt)
-                    e += lo * tt
+                    p, e = two_prod(xh, tt)
+                    e += xl * tt
                     hi = p + e
                     Yh[a, c] = hi
                     Yl[a, c] = e - (hi - p)
                 else:
-                    if a == c:
-                        x = x + sigma[q]
-                    Yh[a, c] = x * tt
+                    Yh[a, c] = (xh + xl) * tt
                     Yl[a, c] = 0.0
         copy(Yh, Y[q])
-        # the factor exp(-sigma t / 2^j); sigma t exact by TwoProduct, the scaling exact
+        # the factor exp(-sigma t / 2^j); sigma t by TwoProduct, the scaling exact
+        xh, xl = two_prod(sigma[q], t[q])
+        xl += sigma_lo[q] * t[q]
         if dd:
-            xh, xl = two_prod(sigma[q], t[q])
             eh, el = dd_exp(-xh * scale, -xl * scale)
         else:
-            eh, el = np.exp(-sigma[q] * t[q] * scale), 0.0
+            eh, el = np.exp(-(xh + xl) * scale), 0.0
         _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh[q], Fl[q], Ph, Pl, Th, Tl, Wh, Wl)
 
 
 @njit(**_JIT)
-def truncation_ratios(Y, F, power, coef, tiny, M):
+def truncation_ratios(Y, F, power, coef, tiny, M, plain):
     """Largest ``(coef Y^power F)_ab / F_ab`` per member (entries ``F_ab > tiny``).
 
-    ``M`` (at least 4, n, n) is scratch space (see :func:`scratch`).
+    ``M`` (at least 4, n, n) is scratch space (see :func:`scratch`); ``plain`` is
+    ``np.bool_(False)`` (the products are in plain double; a flag rather than the literal
+    ``False`` so that :func:`product` is compiled once for both uses).
     """
     b, n, _ = Y.shape
     out = np.zeros(b)
@@ -399,13 +422,13 @@ def truncation_ratios(Y, F, power, coef, tiny, M):
         e = power
         while e > 0:
             if e & 1:
-                product(G, zero, W, zero, Z, zero, False)
+                product(G, zero, W, zero, Z, zero, plain)
                 copy(Z, G)
             e >>= 1
             if e:
-                product(W, zero, W, zero, Z, zero, False)
+                product(W, zero, W, zero, Z, zero, plain)
                 copy(Z, W)
-        product(G, zero, F[q], zero, Z, zero, False)
+        product(G, zero, F[q], zero, Z, zero, plain)
         worst = 0.0
         for a in range(n):
             for c in range(n):
@@ -424,76 +447,102 @@ def truncation_ratios(Y, F, power, coef, tiny, M):
 
 
 @njit(**_JIT)
-def grid_powers(Fh, Fl, x0h, x0l, columns, skip, dd, X, row0):
-    """States ``F^k x0`` for ``k = 0 .. columns - 1`` by doubling, per member.
+def grid_steps(Fh, Fl, x0h, x0l, columns, skip, dd, X, row0):
+    """States ``F^k x0`` for ``k = 0 .. columns - 1`` by repeated products, per member.
 
-    ``V <- [V, F^(2^i) V]``: state ``k`` passes through one product per set bit of
-    ``k``.  The states are kept as rows (``V[k] = F^k x0``), so a doubling step is the
-    product ``V[:need] (F^(2^i))^T`` of contiguous rows.  State ``k >= skip`` is rounded
-    to double and written to ``X[q, row0 + k - skip, :]`` (``X`` has shape (b, p, N)).
+    Each state is one product ``x_{k+1} = F x_k`` (as the row ``x_k^T F^T``, so that the
+    inner loop runs over contiguous entries), in double-double for members with ``dd``:
+    TwoProduct with the Veltkamp halves of :math:`F^T` computed once, TwoSum of the
+    running sums (Ogita, Rump & Oishi's ``Dot2``).  This costs ``columns`` matrix-vector
+    products and no squarings (doubling ``F`` would add one ``N^3`` product per level).
+    State ``k >= skip`` is rounded to double and written to ``X[q, row0 + k - skip, :]``
+    (``X`` has shape (b, p, N)).
     """
     b, N, _ = Fh.shape
-    Th = np.empty((N, N))  # (F^(2^i))^T
+    Th = np.empty((N, N))  # F^T and its Veltkamp halves
     Tl = np.empty((N, N))
-    Wh = np.empty((N, N))
-    Wl = np.empty((N, N))
-    Vh = np.empty((columns, N))
-    Vl = np.zeros((columns, N))
+    T1 = np.empty((N, N))
+    T2 = np.empty((N, N))
+    vh = np.empty(N)
+    vl = np.empty(N)
+    sh = np.empty(N)
+    se = np.empty(N)
     for q in range(b):
         for i in range(N):
             for j in range(N):
-                Th[j, i] = Fh[q, i, j]
+                x = Fh[q, i, j]
+                Th[j, i] = x
                 Tl[j, i] = Fl[q, i, j]
+                c = _SPLITTER * x
+                hi = c - (c - x)
+                T1[j, i] = hi
+                T2[j, i] = x - hi
         for i in range(N):
-            Vh[0, i] = x0h[q, i]
-            Vl[0, i] = x0l[q, i]
-        have = 1
-        while have < columns:
-            need = min(have, columns - have)
-            # the new rows do not overlap the ones they are computed from
-            product(
-                Vh[:need], Vl[:need], Th, Tl, Vh[have : have + need], Vl[have : have + need],
-                dd[q],
-            )  # fmt: skip
-            have += need
-            if have < columns:
-                product(Th, Tl, Th, Tl, Wh, Wl, dd[q])  # (F^T)^2 = (F^2)^T
-                copy_pair(Wh, Wl, Th, Tl)
-        for k in range(skip, columns):
+            vh[i] = x0h[q, i]
+            vl[i] = x0l[q, i]
+        if skip == 0:
             for i in range(N):
-                X[q, row0 + k - skip, i] = max(Vh[k, i] + Vl[k, i], 0.0)
+                X[q, row0, i] = max(vh[i] + vl[i], 0.0)
+        for k in range(1, columns):
+            for j in range(N):
+                sh[j] = 0.0
+                se[j] = 0.0
+            if dd[q]:
+                for r in range(N):
+                    a = vh[r]
+                    al = vl[r]
+                    if a == 0.0 and al == 0.0:
+                        continue
+                    c = _SPLITTER * a
+                    a1 = c - (c - a)
+                    a2 = a - a1
+                    for j in range(N):
+                        bb = Th[r, j]
+                        p = a * bb
+                        e = ((a1 * T1[r, j] - p) + a1 * T2[r, j] + a2 * T1[r, j]) + a2 * T2[r, j]
+                        e += a * Tl[r, j] + al * bb
+                        s0 = sh[j]
+                        s = s0 + p
+                        z = s - s0
+                        sh[j] = s
+                        se[j] += ((s0 - (s - z)) + (p - z)) + e
+                for j in range(N):
+                    hi = sh[j] + se[j]
+                    vl[j] = se[j] - (hi - sh[j])
+                    vh[j] = hi
+            else:
+                for r in range(N):
+                    a = vh[r]
+                    if a == 0.0:
+                        continue
+                    for j in range(N):
+                        sh[j] += a * Th[r, j]
+                for j in range(N):
+                    vh[j] = sh[j]
+                    vl[j] = 0.0
+            if k >= skip:
+                for i in range(N):
+                    X[q, row0 + k - skip, i] = max(vh[i] + vl[i], 0.0)
 
 
 @njit(**_JIT)
 def grid_bounds(eps, gamma, columns, skip, start_bound, bound, row0):
-    r"""Error bounds of the columns of :func:`grid_powers`, per member.
+    r"""Error bounds of the states of :func:`grid_steps`, per member.
 
-    The factor ``F^(2^i)`` of doubling level ``i`` has the bound
-    :math:`\epsilon_{i+1} = 2\epsilon_i + \epsilon_i^2 + \gamma (1 + \epsilon_i)^2`
-    (Xue & Ye 2013, Theorem 3.2) and each product with it adds :math:`\gamma`; column
-    ``k`` adds the bounds of the levels of the set bits of ``k`` to ``start_bound``.
+    Each product with :math:`F` (bound :math:`\epsilon`) in arithmetic with product
+    error :math:`\gamma` multiplies the relative error by :math:`(1 + \epsilon)(1 +
+    \gamma)`: state ``k`` has :math:`(1 + s)\,((1 + \epsilon)(1 + \gamma))^k - 1` with
+    ``s`` the bound of the start state (relative errors of nonnegative factors
+    multiply).
     """
-    levels = np.empty(64)
     for q in range(eps.shape[0]):
-        e = eps[q]
-        g = gamma[q]
-        count = 0
-        have = 1
-        while have < columns:
-            levels[count] = e + g
-            count += 1
-            have += min(have, columns - have)
-            e = 2.0 * e + e * e + g * (1.0 + e) ** 2
-        for k in range(skip, columns):
-            acc = start_bound[q]
-            bits = k
-            level = 0
-            while bits:
-                if bits & 1:
-                    acc += levels[level]
-                bits >>= 1
-                level += 1
-            bound[q, row0 + k - skip] = acc
+        step = eps[q] + gamma[q] + eps[q] * gamma[q]
+        acc = start_bound[q]
+        for k in range(columns):
+            if k:
+                acc = acc + step + acc * step
+            if k >= skip:
+                bound[q, row0 + k - skip] = acc
 
 
 @njit(**_JIT)
@@ -535,3 +584,65 @@ def scratch(name: str, shape: tuple[int, ...]) -> np.ndarray:
     if a is None or a.shape != shape:
         a = pool[name] = np.empty(shape)
     return a
+
+
+@njit(**_JIT)
+def squared_bound(eps, gamma):
+    r"""Relative bound of :math:`F^2` from the bound ``eps`` of ``F`` (nonnegative ``F``).
+
+    .. math:: \epsilon' = 2\epsilon + \epsilon^2 + \gamma (1 + \epsilon)^2
+
+    (Xue & Ye 2013, Theorem 3.2), with :math:`\gamma` the relative error of one
+    nonnegative product in the route's arithmetic.
+    """
+    return 2.0 * eps + eps * eps + gamma * (1.0 + eps) ** 2
+
+
+@njit(**_JIT)
+def grid_residuals(times, start, t_first, dt, skip, out):
+    """``out[k] = times[k] - T_k`` for the exact times ``T_k`` the grid route reaches.
+
+    ``T_k = t_first + (k - start) dt`` (or ``(k - start + 1) dt`` with ``skip``), formed
+    with TwoProduct so that the residual is exact up to one rounding of a tiny number.
+    """
+    for k in range(start, times.shape[0]):
+        steps = float(k - start + skip)
+        p, e = two_prod(steps, dt)
+        base = 0.0 if skip else t_first
+        s, f = two_sum(base, p)
+        f += e
+        out[k] = (times[k] - s) - f
+
+
+@njit(**_JIT)
+def residual_bounds(A, X, delta, species, gamma, tiny, bound):
+    r"""Add the effect of the time residuals ``delta`` to the bounds, per member and time.
+
+    The grid route reaches :math:`T_k = t_k - \delta_k` instead of :math:`t_k`; to first
+    order the relative change of :math:`x_i` is :math:`|\delta_k|\,|(Ax)_i|/x_i`.  The
+    numerator is bounded by :math:`|\mathrm{fl}(Ax)_i| + \gamma (|A|x)_i` (rounding
+    allowance of the computed product), doubled for the first-order step.  Only the
+    first ``species`` rows count (the feed row of an augmented matrix is constant).
+    """
+    b, p, N = X.shape
+    for k in range(p):
+        d = abs(delta[k])
+        if d == 0.0:
+            continue
+        for q in range(b):
+            worst = 0.0
+            for i in range(species):
+                x = X[q, k, i]
+                if x <= tiny:
+                    continue
+                s = 0.0
+                a = 0.0
+                for c in range(N):
+                    v = A[q, i, c] * X[q, k, c]
+                    s += v
+                    a += abs(v)
+                r = (abs(s) + gamma * a) / x
+                if r > worst:
+                    worst = r
+            e = np.expm1(2.0 * d * worst)
+            bound[q, k] = bound[q, k] + e + bound[q, k] * e

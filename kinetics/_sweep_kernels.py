@@ -400,9 +400,12 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
     N = np.empty((total, nm))
     s = np.zeros((total, nm), dtype=np.int8)
     flags = np.zeros(nm, dtype=np.bool_)
-    CT = np.empty((n, total))
-    DT = np.empty((n, total))
-    D2T = np.empty((n, total))
+    # points along rows for the products below, as flat buffers: an (n, M) view of one is
+    # C-contiguous (a column slice of an (n, total) array would not be, and would compile
+    # a second version of matmul_double)
+    CTbuf = np.empty(n * total)
+    DTbuf = np.empty(n * total)
+    D2Tbuf = np.empty(n * total)
     diag = np.empty(n)
     kp = np.empty(n + 1, dtype=np.int64)
     ki = np.empty(n * n, dtype=np.int64)
@@ -472,14 +475,17 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
         if nm:
             # all scan points at once, points along rows: D = K C + f, D2 = K D (a few
             # rates per species, each an operation on a whole row of points)
+            CT = CTbuf[: n * M].reshape((n, M))
+            DT = DTbuf[: n * M].reshape((n, M))
+            D2T = D2Tbuf[: n * M].reshape((n, M))
             for jj in range(M):
                 for i in range(n):
                     CT[i, jj] = X[jj, i]
-            matmul_double(Kq, CT[:, :M], DT[:, :M])
+            matmul_double(Kq, CT, DT)
             for i in range(n):
                 for jj in range(M):
                     DT[i, jj] += f[i]
-            matmul_double(Kq, DT[:, :M], D2T[:, :M])
+            matmul_double(Kq, DT, D2T)
             for jj in range(M):
                 for a in range(nm):
                     i = mx[a]

@@ -104,8 +104,13 @@ def element_counts(text: str) -> dict[str, float]:
     ValueError
         When the formula does not parse (see :func:`parse_formula`).
     """
-    atoms = parse_formula(text).atoms
-    return {str(el): float(n) for el, n in atoms.items()}
+    return dict(_counts(text))
+
+
+@functools.lru_cache(maxsize=4096)
+def _counts(text: str) -> tuple[tuple[str, float], ...]:
+    """:func:`element_counts` as a tuple, kept per formula (schemes repeat formulas)."""
+    return tuple((str(el), float(n)) for el, n in parse_formula(text).atoms.items())
 
 
 def formula_mass(text: str) -> float:
@@ -188,21 +193,33 @@ def atom_balance(reaction: Reaction, formulas: dict[str, str | None]) -> AtomBal
         ``None`` when some species of the reaction has no formula (the check
         then does not apply).
     """
-    if any(formulas.get(name) is None for _, name in reaction.left + reaction.right):
+    left = tuple((c, formulas.get(name)) for c, name in reaction.left)
+    right = tuple((c, formulas.get(name)) for c, name in reaction.right)
+    if any(formula is None for _, formula in left + right):
         return None
+    left_counts, right_counts, ok = _balance_of_formulas(left, right)
+    return AtomBalance(dict(left_counts), dict(right_counts), ok)
+
+
+@functools.lru_cache(maxsize=65536)
+def _balance_of_formulas(left, right) -> tuple[tuple, tuple, bool]:
+    """Element counts of both sides given as (coefficient, formula) pairs, and the verdict.
+
+    Kept per combination of formulas: large schemes repeat the same few (isomers).
+    """
 
     def side(terms) -> dict[str, float]:
         total: dict[str, float] = {}
-        for coefficient, name in terms:
-            for el, n in element_counts(formulas[name]).items():
+        for coefficient, formula in terms:
+            for el, n in _counts(formula):
                 total[el] = total.get(el, 0.0) + coefficient * n
         return total
 
-    left, right = side(reaction.left), side(reaction.right)
-    ok = set(left) == set(right) and all(
-        abs(left[el] - right[el]) <= 1e-9 * max(abs(left[el]), 1.0) for el in left
+    lhs, rhs = side(left), side(right)
+    ok = set(lhs) == set(rhs) and all(
+        abs(lhs[el] - rhs[el]) <= 1e-9 * max(abs(lhs[el]), 1.0) for el in lhs
     )
-    return AtomBalance(left, right, ok)
+    return tuple(lhs.items()), tuple(rhs.items()), ok
 
 
 @dataclass(frozen=True)

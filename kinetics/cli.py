@@ -7,9 +7,8 @@ clear message on stderr and no traceback (``--debug`` shows one).
 
 from __future__ import annotations
 
+import contextlib
 import json
-import math
-import re
 import sys
 from pathlib import Path
 
@@ -17,76 +16,42 @@ import click
 
 from . import __version__
 from .errors import KineticsError, UsageError
-from .overview import CAUTION  # the two-line short form of SAFETY.md
+from .overview import CAUTION, CHECK_TABLE_ROWS  # CAUTION: the short form of SAFETY.md
+from .units import parse_duration, parse_time_list
 
-_DURATION = re.compile(
-    r"^\s*(?P<number>[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)\s*(?P<unit>.*)$"
-)
-
-
-def parse_duration(text: str, option: str = "--until") -> tuple[float, str]:
-    """``"90 min"`` -> (5400.0, "min"): a duration in seconds and the unit as written."""
-    from .solution import time_factor
-
-    match = _DURATION.match(text)
-    if not match or not match["unit"].strip():
-        raise UsageError(
-            f"{option} {text!r} is not a duration with a unit", f"write e.g. {option} '90 min'"
-        )
-    unit = match["unit"].strip()
-    try:
-        factor = time_factor(unit)
-    except UsageError:
-        raise UsageError(
-            f"{option} {text!r}: {unit!r} is not a unit of time", "use s, min, h or d"
-        ) from None
-    value = float(match["number"])
-    if not (math.isfinite(value) and value > 0):
-        raise UsageError(
-            f"{option} {text!r} is not a positive duration", f"write e.g. {option} '90 min'"
-        )
-    return value * factor, unit
+#: Commands defined in their own modules, imported only when named or listed by
+#: ``--help`` (``solve`` and ``check`` start without them): name -> (module, object).
+_LAZY_COMMANDS = {"fit": ("kinetics.fit_cli", "fit"), "sweep": ("kinetics.sweep_cli", "sweep")}
 
 
-def parse_time_list(text: str) -> tuple[list[float], str]:
-    """``"0,5,10,30 min"`` -> ([0, 300, 600, 1800], "min"): times in seconds and the unit.
-
-    The unit is written once, after the last number.
-    """
-    from .solution import time_factor
-
-    example = "write e.g. --times '0,5,10,30 min'"
-    pieces = [p.strip() for p in text.split(",")]
-    if not pieces or not pieces[-1]:
-        raise UsageError(f"--times {text!r} is not a list of times with one unit", example)
-    match = _DURATION.match(pieces[-1])
-    if not match or not match["unit"].strip():
-        raise UsageError(
-            f"--times {text!r} does not end with a unit of time",
-            example + " (unit once, at the end)",
-        )
-    unit = match["unit"].strip()
-    try:
-        factor = time_factor(unit)
-    except UsageError:
-        raise UsageError(
-            f"--times {text!r}: {unit!r} is not a unit of time", "use s, min, h or d"
-        ) from None
-    values = []
-    for piece in pieces[:-1]:
-        try:
-            values.append(float(piece))
-        except ValueError:
-            raise UsageError(f"--times {text!r}: {piece!r} is not a number", example) from None
-    values.append(float(match["number"]))
-    return [v * factor for v in values], unit
+class PipeClosed(Exception):
+    """stdout was closed by its reader before the output was complete (``| head``)."""
 
 
 class _Group(click.Group):
-    """Keeps commands in the order they are defined in ``--help``."""
+    """Keeps commands in the order they are defined in ``--help``; loads some on demand."""
 
     def list_commands(self, ctx):
-        return list(self.commands)
+        return list(self.commands) + [n for n in _LAZY_COMMANDS if n not in self.commands]
+
+    def get_command(self, ctx, cmd_name):
+        if cmd_name in _LAZY_COMMANDS and cmd_name not in self.commands:
+            import importlib
+
+            module, name = _LAZY_COMMANDS[cmd_name]
+            self.add_command(getattr(importlib.import_module(module), name), cmd_name)
+        return super().get_command(ctx, cmd_name)
+
+    def invoke(self, ctx):
+        # click and rich would turn a closed pipe into exit status 1, the status of a bug
+        try:
+            return super().invoke(ctx)
+        except BrokenPipeError as exc:
+            raise PipeClosed() from exc
+        except SystemExit as exc:
+            if isinstance(exc.__context__, BrokenPipeError):  # rich's console
+                raise PipeClosed() from exc
+            raise
 
 
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
@@ -102,6 +67,20 @@ def cli(ctx, debug):
       kinetics solve networks/consecutive_intermediate.scheme --until 3h --out table.csv
     """
     ctx.obj = {"debug": debug}
+
+
+def load_scheme(path, **options):
+    """Load a scheme file and print its warnings on stderr (``kinetics: warning: ...``).
+
+    The command-line side of :attr:`kinetics.scheme.Scheme.warnings`: every command
+    that reads a scheme calls this.
+    """
+    from .parsing import load
+
+    scheme = load(path, **options)
+    for warning in scheme.warnings:
+        click.echo(f"kinetics: warning: {warning}", err=True)
+    return scheme
 
 
 def _caution(quiet: bool) -> None:
@@ -136,7 +115,13 @@ def first_use_note(sweeps: bool = False) -> None:
     is_flag=True,
     help="Report an atom imbalance without failing (as 'balance: lumped' in the file).",
 )
-def check(scheme_file, as_json, allow_imbalance):
+@click.option(
+    "--full-tables",
+    is_flag=True,
+    help="Print the species and steps tables however long (by default a scheme with more "
+    f"than {CHECK_TABLE_ROWS} species or steps gets an overview).",
+)
+def check(scheme_file, as_json, allow_imbalance, full_tables):
     """Check a scheme file and report species, steps, balance and structure.
 
     \b
@@ -144,15 +129,18 @@ def check(scheme_file, as_json, allow_imbalance):
       kinetics check networks/reversible_isomerisation.scheme --json
     """
     from .overview import check_report
-    from .parsing import load
-    from .terminal import render_check
+    from .terminal import progress, render_check
 
-    scheme = load(scheme_file, strict_balance=not allow_imbalance)
-    report = check_report(scheme)
+    # a scheme of 100,000s of reactions takes a while: say which phase runs (stderr, terminal)
+    with progress(2, f"reading {scheme_file.name}") as bar:
+        scheme = load_scheme(scheme_file, strict_balance=not allow_imbalance)
+        bar.step("checking the structure")
+        report = check_report(scheme)
+        bar.step()
     if as_json:
         click.echo(json.dumps(report, indent=2, allow_nan=False))
     else:
-        render_check(scheme, report)
+        render_check(scheme, report, full_tables=full_tables)
 
 
 def _grid(until, points, times_text):
@@ -214,7 +202,8 @@ def _plot_solution(result, scheme):
 
     if len(result.times) >= 201:
         return result
-    return sol.solve(scheme, np.linspace(0.0, float(result.times[-1]), 401))
+    fine = sol.solve(scheme, np.linspace(0.0, float(result.times[-1]), 401))
+    return fine if result.unit_factors is None else fine.in_unit(result.concentration_unit)
 
 
 _GRID_OPTIONS = [
@@ -241,6 +230,14 @@ _GRID_OPTIONS = [
         is_flag=True,
         help="Do not print the two-line caution on stderr (for scripts; see SAFETY.md).",
     ),
+    click.option(
+        "--concentration-unit",
+        "conc_unit",
+        help="Unit of concentrations in tables, plots and the summary: an amount unit "
+        "(mmol/L), a mass unit converted per species with its molar mass (mg/L; mg/kg for "
+        "a file per mass of soil) or '% of applied' (default: the unit of the first start "
+        "value as written).",
+    ),
 ]
 
 
@@ -261,12 +258,15 @@ def _prepare(until, points, times_text, time_unit):
     return times, time_unit, settings
 
 
-def _solve_and_summarise(scheme, times, time_unit, bar):
+def _solve_and_summarise(scheme, times, time_unit, bar, conc_unit=None):
     from . import solution as sol
     from .overview import compute_summary, summary_in_units
 
     bar.describe("solving")
     result = sol.solve(scheme, times)
+    unit = conc_unit or scheme.written_unit
+    if unit and unit != scheme.concentration_unit:
+        result = result.in_unit(unit)
     bar.step("summary quantities")
     raw = compute_summary(result)
     summary = summary_in_units(raw, time_unit) if raw is not None else None
@@ -291,7 +291,16 @@ _OUT_HELP = "Output file, format from the extension: " + ", ".join(
 )
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object on stdout.")
 def solve(
-    scheme_file, until, points, times_text, time_unit, species_text, no_caution, outputs, as_json
+    scheme_file,
+    until,
+    points,
+    times_text,
+    time_unit,
+    species_text,
+    no_caution,
+    conc_unit,
+    outputs,
+    as_json,
 ):
     """Solve a scheme exactly on a time grid; print or write the table and the summary.
 
@@ -309,36 +318,80 @@ def solve(
     """
     from .export import check_output_paths
     from .overview import solution_json
-    from .parsing import load
     from .terminal import progress, render_solution
 
     times, time_unit, settings = _prepare(until, points, times_text, time_unit)
     paths = check_output_paths(outputs, [scheme_file])
-    scheme = load(scheme_file)
+    scheme = load_scheme(scheme_file)
     species = _species_list(species_text, scheme)
     if species:
         settings["species"] = species
+    _check_sheet_sizes(paths, len(times), scheme)
     _caution(no_caution)
     first_use_note()
-    with progress(2 + len(paths), "solving") as bar:
-        result, summary = _solve_and_summarise(scheme, times, time_unit, bar)
-        document = solution_json(result, time_unit, summary, settings)
-        for path in paths:
-            bar.describe(f"writing {path.name}")
-            _write_output(path, result, scheme, time_unit, summary, document, species)
-            bar.step()
-    for path in paths:
-        click.echo(f"wrote {path}", err=True)
+    with progress(2, "solving") as bar:
+        result, summary = _solve_and_summarise(scheme, times, time_unit, bar, conc_unit)
+    needs_document = as_json or any(p.suffix.lower() in (".json", ".parquet") for p in paths)
+    document = solution_json(result, time_unit, summary, settings) if needs_document else None
+    # the result reaches stdout before any file is written: a full disk loses nothing
     if as_json:
-        click.echo(json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False))
+        echo_long(json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False))
     elif not paths:
         render_solution(result, time_unit, summary=summary, species=species)
+    write_outputs(
+        paths,
+        lambda path: _write_output(path, result, scheme, time_unit, summary, document, species),
+    )
+
+
+def echo_long(text: str, piece: int = 1 << 16) -> None:
+    """Print a long text on stdout in pieces (with a newline).
+
+    One write of many megabytes into a pipe whose reader stops early (``| head``)
+    ends without an error and the rest is dropped silently; written in pieces, the
+    next piece meets the closed pipe and the run ends as :func:`main` says.
+    """
+    for start in range(0, len(text), piece):
+        click.echo(text[start : start + piece], nl=False)
+    click.echo()
+
+
+def _check_sheet_sizes(paths, n_times: int, scheme) -> None:
+    """Refuse, before solving, a concentration table larger than a spreadsheet holds."""
+    from .export import check_xlsx_size
+
+    for path in paths:
+        if path.suffix.lower() == ".xlsx":
+            check_xlsx_size(n_times + 1, len(scheme.species_names) + 1, path)
+
+
+def write_outputs(paths, write_one) -> None:
+    """Write each output file with ``write_one(path)`` and say ``wrote PATH`` as each is done.
+
+    When one fails (full disk, interrupt), the error names it and carries a note naming
+    the later files, which were not written either; those already written are complete
+    and stay.
+    """
+    from .terminal import progress
+
+    paths = list(paths)
+    with progress(len(paths), "writing") as bar:
+        for i, path in enumerate(paths):
+            bar.describe(f"writing {path.name}")
+            try:
+                write_one(path)
+            except BaseException as exc:
+                if paths[i + 1 :]:
+                    exc.add_note("also not written: " + ", ".join(map(str, paths[i + 1 :])))
+                raise
+            click.echo(f"wrote {path}", err=True)
+            bar.step()
 
 
 def _write_output(path, result, scheme, time_unit, summary, document, species) -> None:
     """Write one --out file; the format follows the extension (already checked)."""
     from . import export
-    from .overview import inputs_tables, summary_rows
+    from .overview import inputs_tables, scheme_rows, summary_rows
 
     suffix = path.suffix.lower()
     frame = result.to_frame(time_unit)
@@ -363,6 +416,7 @@ def _write_output(path, result, scheme, time_unit, summary, document, species) -
             summary_rows=rows,
             inputs=inputs_tables(scheme),
             scheme_text=scheme.text,
+            scheme_rows=scheme_rows(summary, time_unit, result.concentration_unit),
         )
     elif suffix in (".png", ".svg"):
         from .plotting import save_plot
@@ -384,7 +438,16 @@ def _write_output(path, result, scheme, time_unit, summary, document, species) -
 )
 @click.option("--title", help="Title of the report (default: the title in the scheme file).")
 def report(
-    scheme_file, until, points, times_text, time_unit, species_text, no_caution, output, title
+    scheme_file,
+    until,
+    points,
+    times_text,
+    time_unit,
+    species_text,
+    no_caution,
+    conc_unit,
+    output,
+    title,
 ):
     """Write a self-contained HTML report: scheme, graph, inputs, summary, plot, table.
 
@@ -399,19 +462,18 @@ def report(
     import hashlib
 
     from .export import check_output_paths
-    from .parsing import load
     from .report import build_report, write_report
     from .terminal import progress
 
     times, time_unit, settings = _prepare(until, points, times_text, time_unit)
     (path,) = check_output_paths([output], [scheme_file], {".html": "HTML report"})
-    scheme = load(scheme_file)
+    scheme = load_scheme(scheme_file)
     species = _species_list(species_text, scheme)
     digest = hashlib.sha256(Path(scheme_file).read_bytes()).hexdigest()
     _caution(no_caution)
     first_use_note()
     with progress(4, "solving") as bar:
-        result, summary = _solve_and_summarise(scheme, times, time_unit, bar)
+        result, summary = _solve_and_summarise(scheme, times, time_unit, bar, conc_unit)
         bar.describe("drawing")
         html = build_report(
             scheme,
@@ -455,24 +517,102 @@ def safety():
     click.echo(files("kinetics").joinpath("SAFETY.md").read_text(encoding="utf-8"), nl=False)
 
 
+class Stopped(BaseException):
+    """Raised in the main thread when the process gets SIGTERM or SIGHUP.
+
+    A ``BaseException`` (like ``KeyboardInterrupt``), so that every cleanup that
+    runs for an interrupt (temporary files, partial tables) runs for it too.
+    """
+
+    def __init__(self, name: str) -> None:
+        super().__init__(name)
+        self.name = name
+        self.status, self.word = STOP_SIGNALS[name]
+
+
+#: Signals turned into :class:`Stopped`, with the exit status (128 + the signal number,
+#: as a shell reports a process killed by it) and the word said on stderr.
+STOP_SIGNALS = {"SIGTERM": (143, "terminated"), "SIGHUP": (129, "hung up")}
+#: Exit status when stdout is closed before the output is complete (``| head``):
+#: 128 + SIGPIPE, what a shell reports for a program stopped by a closed pipe.
+BROKEN_PIPE = 141
+
+
+@contextlib.contextmanager
+def _signals_stop_the_run():
+    """While running, SIGTERM and SIGHUP raise :class:`Stopped` (signals the parent made
+    the process ignore, as ``nohup`` does for SIGHUP, stay ignored)."""
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    previous = {}
+
+    def stop(signum, frame):
+        for number in previous:  # one stop is enough: later ones must not cut the cleanup
+            signal.signal(number, signal.SIG_IGN)
+        raise Stopped(signal.Signals(signum).name)
+
+    for name in STOP_SIGNALS:
+        number = getattr(signal, name, None)
+        if number is not None and signal.getsignal(number) is not signal.SIG_IGN:
+            previous[number] = signal.signal(number, stop)
+    try:
+        yield
+    finally:
+        for number, handler in previous.items():
+            signal.signal(number, handler)
+
+
+def _silence_stdout() -> None:
+    """Point stdout at the null device, so that flushing it at exit cannot fail again."""
+    import os
+
+    try:
+        fd = sys.stdout.fileno()
+    except (AttributeError, OSError, ValueError):
+        return
+    null = os.open(os.devnull, os.O_WRONLY)
+    os.dup2(null, fd)
+    os.close(null)
+
+
+def _say(exc: BaseException, message: str) -> None:
+    """The error's one line on stderr, then its notes (files written or not)."""
+    click.echo(f"kinetics: {message}", err=True)
+    for note in getattr(exc, "__notes__", ()):
+        click.echo(f"kinetics: {note}", err=True)
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the command line with ``argv`` (default: ``sys.argv[1:]``); return the exit status.
 
-    Exit status: 0 success, 2 a user mistake (one sentence on stderr), 1 an
-    internal error (a bug: one sentence, the traceback only with ``--debug``),
-    130 interrupted.
+    Exit status: 0 success, 2 a user mistake or a file that cannot be read or written
+    (one sentence on stderr), 1 an internal error (a bug: one sentence, the traceback
+    only with ``--debug``), 130 interrupted (Ctrl-C), 143 terminated (SIGTERM), 129 hung
+    up (SIGHUP), 141 stdout closed early (``| head``, nothing said).  An interrupted or
+    stopped run leaves no partial output file.
     """
     args, debug = _split_debug(list(sys.argv[1:] if argv is None else argv))
     try:
-        result = cli.main(args=args, prog_name="kinetics", standalone_mode=False)
+        with _signals_stop_the_run():
+            result = cli.main(args=args, prog_name="kinetics", standalone_mode=False)
     except click.exceptions.Exit as exc:
         return exc.exit_code
-    except (click.exceptions.Abort, KeyboardInterrupt):
-        click.echo("kinetics: interrupted", err=True)
+    except Stopped as exc:
+        _say(exc, exc.word)
+        return exc.status
+    except (click.exceptions.Abort, KeyboardInterrupt) as exc:
+        _say(exc.__cause__ or exc, "interrupted")
         return 130
     except click.exceptions.NoArgsIsHelpError as exc:
         click.echo(exc.format_message(), err=True)
         return 2
+    except PipeClosed:
+        _silence_stdout()
+        return BROKEN_PIPE
     except click.ClickException as exc:
         if debug:
             raise
@@ -483,21 +623,27 @@ def main(argv: list[str] | None = None) -> int:
     except KineticsError as exc:
         if debug:
             raise
-        click.echo(f"kinetics: {exc}", err=True)
+        _say(exc, str(exc))
         return 2
     except OSError as exc:
+        if isinstance(exc, BrokenPipeError):
+            _silence_stdout()
+            return BROKEN_PIPE
         if debug:
             raise
-        where = f" {exc.filename!r}" if exc.filename else ""
-        click.echo(f"kinetics: cannot access{where}: {exc.strerror or exc}", err=True)
+        reason = exc.strerror or str(exc)
+        if exc.filename:
+            _say(exc, f"cannot access {exc.filename!r}: {reason}")
+        else:
+            _say(exc, f"a file operation failed ({reason}); --debug shows which one")
         return 2
     except Exception as exc:
         if debug:
             raise
-        click.echo(
-            f"kinetics: internal error ({type(exc).__name__}: {exc}); "
+        _say(
+            exc,
+            f"internal error ({type(exc).__name__}: {exc}); "
             "this is a bug, please report it with the output of --debug",
-            err=True,
         )
         return 1
     return result if isinstance(result, int) else 0
@@ -506,12 +652,3 @@ def main(argv: list[str] | None = None) -> int:
 def run() -> None:  # pragma: no cover - console-script entry point
     """Console-script entry point."""
     sys.exit(main())
-
-
-from .fit_cli import fit as _fit_command  # noqa: E402
-
-cli.add_command(_fit_command)
-
-from .sweep_cli import sweep as _sweep_command  # noqa: E402
-
-cli.add_command(_sweep_command)

@@ -18,15 +18,93 @@ All errors pickle (parallel sweeps send them between processes).
 
 from __future__ import annotations
 
+import numbers
+
 __all__ = [
+    "MAX_SHOWN_ERRORS",
+    "ArgumentTypeError",
     "DataError",
     "GrowthError",
     "KineticsError",
+    "OutputFileError",
     "SchemeError",
     "SchemeErrors",
     "SchemeFileError",
     "UsageError",
+    "shorten",
+    "shown_value",
+    "type_name",
 ]
+
+#: Longest piece of a user's text quoted in a message [characters]; longer pieces are cut.
+QUOTE_LIMIT = 60
+#: Widest part of a source line shown under a message [characters].
+LINE_WINDOW = 120
+#: Most problems printed by ``str(SchemeErrors)``; the rest are counted.
+MAX_SHOWN_ERRORS = 50
+
+
+def shorten(text: str, limit: int = QUOTE_LIMIT) -> str:
+    """``text`` itself, or its first ``limit`` characters, an ellipsis and the full length.
+
+    Messages quote what a user wrote; a megabyte of it must not be echoed back.
+
+    Parameters
+    ----------
+    text : str
+        The quoted text.
+    limit : int, optional
+        Most characters kept [characters].
+
+    Returns
+    -------
+    str
+
+    Examples
+    --------
+    >>> shorten("1/s xxxxxxxxxx", 6)
+    '1/s xx… (14 characters)'
+    >>> shorten("1/s")
+    '1/s'
+    """
+    if len(text) <= limit:
+        return text
+    return f"{text[:limit]}… ({len(text):,} characters)"
+
+
+def shown_value(value) -> str:
+    """A value as a message quotes it: a number in plain Python form (never
+    ``np.float64(-300.0)``), anything else as its cut ``repr``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> shown_value(np.float64(-300.0)), shown_value("a")
+    ('-300.0', "'a'")
+    """
+    if isinstance(value, numbers.Real) and not isinstance(value, bool):
+        return repr(float(value)) if not isinstance(value, numbers.Integral) else str(int(value))
+    return shorten(repr(value))
+
+
+def type_name(value) -> str:
+    """``None`` for None, else the name of the value's type (for messages about arguments)."""
+    return "None" if value is None else type(value).__name__
+
+
+def _window(text: str, column: int, width: int) -> tuple[str, int, int]:
+    """The part of a long line shown under a message: (shown text, caret column, caret cap).
+
+    The caret column is 1-based in the shown text; ``…`` marks cut ends.
+    """
+    if len(text) <= width:
+        return text, column, width
+    start = max(0, min(column - 1 - width // 3, len(text) - width)) if column > 0 else 0
+    shown = text[start : start + width]
+    lead = "…" if start > 0 else ""
+    tail = "…" if start + width < len(text) else ""
+    caret = column - start + len(lead) if column > 0 else 0
+    return lead + shown + tail, caret, len(lead) + width - caret + 1
 
 
 class KineticsError(Exception):
@@ -96,10 +174,11 @@ class SchemeError(KineticsError, ValueError):
     def __str__(self) -> str:
         out = self.headline()
         if self.text:
-            out += "\n    " + self.text.rstrip("\n")
-            if self.column > 0:
-                width = max(1, len(self.snippet))
-                out += "\n    " + " " * (self.column - 1) + "^" * width
+            shown, column, room = _window(self.text.rstrip("\n"), self.column, LINE_WINDOW)
+            out += "\n    " + shown
+            if column > 0:
+                width = max(1, min(len(self.snippet), room))
+                out += "\n    " + " " * (column - 1) + "^" * width
         return out
 
 
@@ -123,13 +202,18 @@ class SchemeErrors(KineticsError, ValueError):
     def __str__(self) -> str:
         if len(self.errors) == 1:
             return str(self.errors[0])
-        parts = [f"{len(self.errors)} problems in {self.errors[0].source}:"]
-        parts.extend(str(e) for e in self.errors)
+        count = len(self.errors)
+        shown = self.errors[:MAX_SHOWN_ERRORS]
+        head = f"{count:,} problems in {self.errors[0].source}"
+        parts = [head + (f" (the first {len(shown)} follow):" if count > len(shown) else ":")]
+        parts.extend(str(e) for e in shown)
+        if count > len(shown):
+            parts.append(f"... and {count - len(shown):,} more; correct these first")
         return "\n".join(parts)
 
 
-class SchemeFileError(KineticsError, OSError):
-    """A scheme or data file that cannot be read at all (missing, a folder, not UTF-8)."""
+class _FileProblem(KineticsError, OSError):
+    """An error told as ``path: problem; hint`` about a whole file."""
 
     def __init__(self, problem: str, path: str = "", hint: str = "") -> None:
         super().__init__(problem)
@@ -143,6 +227,18 @@ class SchemeFileError(KineticsError, OSError):
     def __str__(self) -> str:
         head = f"{self.path}: {self.problem}" if self.path else self.problem
         return f"{head}; {self.hint}" if self.hint else head
+
+
+class SchemeFileError(_FileProblem):
+    """A scheme or data file that cannot be read at all (missing, a folder, not UTF-8)."""
+
+
+class OutputFileError(_FileProblem):
+    """An output file that cannot be written (full disk, no permission, read-only folder).
+
+    The message names the file the user asked for, never the hidden temporary file it
+    is written through; nothing of it is left behind.
+    """
 
 
 class _ProblemAndHint(KineticsError):
@@ -162,6 +258,14 @@ class _ProblemAndHint(KineticsError):
 
 class UsageError(_ProblemAndHint, ValueError):
     """A wrong argument to a command or to a library function (times, options, names)."""
+
+
+class ArgumentTypeError(_ProblemAndHint, TypeError):
+    """A library function called with an argument of the wrong type.
+
+    For example a file name or ``None`` where a checked scheme is needed, or a
+    single string where a list of names is needed.
+    """
 
 
 class DataError(KineticsError, ValueError):

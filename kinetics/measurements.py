@@ -37,7 +37,13 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .errors import DataError, UsageError
-from .units import convert, describe_dimension, parse_unit, temperature_to_kelvin
+from .units import (
+    TIME_UNITS,
+    convert,
+    describe_dimension,
+    parse_unit,
+    temperature_to_kelvin,
+)
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -373,13 +379,13 @@ def _time_factor(unit: str, source: str) -> float:
         spec = parse_unit(unit)
     except ValueError:
         raise DataError(
-            f"the time column has an unknown unit {unit!r}", source, "use s, min, h or d"
+            f"the time column has an unknown unit {unit!r}", source, f"use {TIME_UNITS}"
         ) from None
     if spec.offset or spec.dims != {"[time]": 1}:
         raise DataError(
             f"the time column unit {unit!r} is {describe_dimension(spec.dims)}, not a time",
             source,
-            "use s, min, h or d",
+            f"use {TIME_UNITS}",
         )
     return convert(1.0, unit, "s")
 

@@ -130,9 +130,15 @@ def summarise_network(scheme: Scheme, *, max_cycles: int = 50) -> NetworkSummary
             roles[name] = "end product"
         else:
             roles[name] = "inert"
-    matrix_graph = graph.subgraph([s.name for s in scheme.species]).copy()
-    matrix_graph.remove_edges_from(
-        [(a, b) for a, b, co in matrix_graph.edges(data="co_reactant") if co]
+    # the graph of the matrix species without co-reactant edges, built directly (a copy
+    # of a subgraph view costs seconds for 20,000 steps), nodes in matrix order
+    matrix = set(scheme.index)
+    matrix_graph = nx.DiGraph()
+    matrix_graph.add_nodes_from(s.name for s in scheme.species)
+    matrix_graph.add_edges_from(
+        (a, b)
+        for a, b, co in graph.edges(data="co_reactant")
+        if not co and a in matrix and b in matrix
     )
     pairs = sorted(
         {

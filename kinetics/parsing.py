@@ -44,15 +44,23 @@ does not recognise, every error included, goes to the general reader
 second pass (``_Builder``) resolves names, units and orders across the whole
 file.  All errors of both passes are collected and raised together as one
 :class:`~kinetics.errors.SchemeErrors`.  The work is linear in the size of the
-file (``benchmarks/bench_parse.py``).
+file (``benchmarks/bench_parse.py``): lines longer than :data:`MAX_LINE_LENGTH`,
+units longer than ``units.MAX_UNIT_LENGTH`` and numbers longer than
+:data:`MAX_NUMBER_LENGTH` are refused before they are read, and :func:`load`
+reads a file in chunks up to :data:`MAX_SCHEME_BYTES`.  Errors that follow from
+a line that failed to read (its species "occur in no reaction") are not
+reported; probable mistakes that do not stop the file become
+``Scheme.warnings``.
 """
 
 from __future__ import annotations
 
+import codecs
 import contextlib
 import difflib
 import gc
 import math
+import os
 import re
 import sys
 from dataclasses import dataclass
@@ -62,7 +70,8 @@ from typing import ClassVar
 
 import numpy as np
 
-from .errors import SchemeError, SchemeErrors, SchemeFileError, UsageError
+from .amounts import Kind, amount_unit, kind_of
+from .errors import SchemeError, SchemeErrors, SchemeFileError, UsageError, shorten
 from .scheme import Arrhenius, RateConstant, Reaction, Scheme, Species, Step
 from .units import (
     concentration_order,
@@ -72,7 +81,25 @@ from .units import (
     temperature_to_kelvin,
 )
 
-__all__ = ["ARROWS", "DIRECTIVES", "load", "parse"]
+__all__ = [
+    "ARROWS",
+    "DIRECTIVES",
+    "MAX_LINE_LENGTH",
+    "MAX_NUMBER_LENGTH",
+    "MAX_SCHEME_BYTES",
+    "load",
+    "parse",
+]
+
+#: Longest line read [characters]; a longer one is refused before it is parsed, so that
+#: the work per statement stays bounded (README states the limit).
+MAX_LINE_LENGTH = 10_000
+#: Largest scheme file or text read [bytes of UTF-8; characters for text] (README).
+MAX_SCHEME_BYTES = 32 * 1024 * 1024
+#: Longest number read [characters]: a double has 17 significant digits.
+MAX_NUMBER_LENGTH = 40
+#: Characters of a refused line kept for its message.
+MAX_SHOWN_LINE = 100
 
 #: Arrows of the language: irreversible and reversible, with Unicode synonyms.
 ARROWS = {"->": False, "→": False, "<=>": True, "⇌": True}
@@ -112,10 +139,13 @@ class _Line:
     text: str  # the whole line as written
     code: str  # the line without its comment, right-stripped
 
+    shown: str = ""  # the line as errors show it, made once (a line may have many errors)
+
     def error(self, problem: str, column: int = 0, snippet: str = "", hint: str = ""):
-        # tabs shown as one space each, so that the caret under the line stays aligned
-        shown = self.text.replace("\t", " ")
-        return SchemeError(problem, self.source, self.number, column, shown, snippet, hint)
+        if not self.shown:
+            # tabs shown as one space each, so that the caret under the line stays aligned
+            self.shown = self.text.replace("\t", " ")
+        return SchemeError(problem, self.source, self.number, column, self.shown, snippet, hint)
 
 
 def _strip_comment(text: str) -> str:
@@ -188,7 +218,7 @@ def _read_value(
     match = _NUMBER_RE.match(text)
     if not match:
         return line.error(
-            f"could not read a number for {what} in {text!r}",
+            f"could not read a number for {what} in {_q(text)}",
             column0 + 1,
             text or " ",
             f"write a number and a unit, e.g. {example}",
@@ -197,7 +227,22 @@ def _read_value(
     rest = text[match.end() :]
     unit = rest.strip()
     unit_col = column0 + match.end() + (len(rest) - len(rest.lstrip())) + 1
+    if len(number) > MAX_NUMBER_LENGTH:
+        return line.error(
+            f"{what} is a number of {len(number):,} characters (at most {MAX_NUMBER_LENGTH})",
+            column0 + 1,
+            number,
+            f"write it with an exponent, e.g. {example}",
+        )
     value = float(number)
+    if _underflows(number, value):
+        return line.error(
+            f"{what} is {number}, which is too small for a floating-point number (it would "
+            "become 0; the smallest is about 5e-324)",
+            column0 + 1,
+            number,
+            "check the exponent, or write 0 if you mean zero",
+        )
     if math.isnan(value) or math.isinf(value):
         spelled_out = number.lstrip("+-")[:1].lower() in ("n", "i")
         return line.error(
@@ -229,11 +274,21 @@ def _unit_of(line: _Line, value: _Value, what: str, example: str):
         reason = str(exc)
         detail = "" if reason.startswith("unknown unit") else f" ({reason})"
         return line.error(
-            f"unknown unit {value.unit!r} for {what}{detail}",
+            f"unknown unit {_q(value.unit)} for {what}{detail}",
             value.unit_column,
             value.unit,
             hint,
         )
+
+
+def _q(text: str) -> str:
+    """A user's text quoted in a message, cut when it is long."""
+    return repr(shorten(text))
+
+
+def _fraction(number: str) -> Fraction:
+    """The decimal ``number`` as the readers matched it, exactly (see :func:`_scaled`)."""
+    return _scaled(number, Fraction(1))
 
 
 def _scaled(number: str, factor: Fraction) -> Fraction:
@@ -242,17 +297,36 @@ def _scaled(number: str, factor: Fraction) -> Fraction:
     One rational construction instead of two (``Fraction(number) * factor``):
     this runs once per rate constant of a file.
     """
-    mantissa, _, exp_text = number.lower().partition("e")
+    text = number.lower()
+    sign = -1 if text.startswith("-") else 1
+    mantissa, _, exp_text = text.lstrip("+-").partition("e")
     whole, _, frac = mantissa.partition(".")
     digits = whole + frac
     if not digits.isdigit() or not (exp_text.lstrip("+-").isdigit() or not exp_text):
-        return Fraction(number) * factor  # signs, nan and the like: the general way
+        return Fraction(number) * factor  # not a plain decimal: the general way
+    if not digits.strip("0"):
+        return Fraction(0)  # also 0e999999999, whose power of ten is never built
     exponent = (int(exp_text) if exp_text else 0) - len(frac)
-    if abs(exponent) > 400:
-        return Fraction(number) * factor
+    if abs(exponent) > 2 * MAX_NUMBER_LENGTH + 400:
+        # the readers refuse numbers beyond the double range before they get here
+        raise ValueError(f"{shorten(number)} is far beyond the range of a double")
     if exponent >= 0:
-        return Fraction(int(digits) * 10**exponent * factor.numerator, factor.denominator)
-    return Fraction(int(digits) * factor.numerator, 10**-exponent * factor.denominator)
+        return Fraction(sign * int(digits) * 10**exponent * factor.numerator, factor.denominator)
+    return Fraction(sign * int(digits) * factor.numerator, 10**-exponent * factor.denominator)
+
+
+def _plain_number(number: str) -> bool:
+    """True for a number the readers accept as it stands: short, finite, and not a
+    nonzero value that a double would round to 0."""
+    if len(number) > MAX_NUMBER_LENGTH:
+        return False
+    value = float(number)
+    return math.isfinite(value) and not _underflows(number, value)
+
+
+def _underflows(number: str, value: float) -> bool:
+    """True when a nonzero decimal ``number`` became the double ``value`` 0."""
+    return value == 0 and any(d in "123456789" for d in number.lower().partition("e")[0])
 
 
 def _exact(value: Fraction) -> float | None:
@@ -301,7 +375,7 @@ class BalanceStatement:
             column = line.code.index(":") + 2 + len(after) - len(after.lstrip())
             return [
                 line.error(
-                    f"unknown balance mode {mode!r}",
+                    f"unknown balance mode {_q(mode)}",
                     column,
                     mode or " ",
                     "write 'balance: lumped' to allow atom imbalance, or 'balance: strict'",
@@ -343,7 +417,12 @@ class ListStatement:
             return None
         kind = match.group(1)
         example = cls._EXAMPLES[kind]
+        article = "an" if kind == "excess" else "a"
         body = code[match.end() :]
+        if _ARROW_RE.search(body):  # "start -> B  k1 = ...": a reaction with a keyword
+            return [_keyword_error(line, kind, match.start(1), "a species")]
+        if body.lstrip().startswith("="):  # "start = 0.1 1/s": a constant named so
+            return [_keyword_error(line, kind, match.start(1), "a constant")]
         errors: list[SchemeError] = []
         items: list[_Item] = []
         declared: list[str] = []
@@ -361,7 +440,7 @@ class ListStatement:
             if not piece:
                 errors.append(
                     line.error(
-                        f"an empty item in a '{kind}' statement (a comma too many?)",
+                        f"an empty item in {article} '{kind}' statement (a comma too many?)",
                         col0 + 1,
                         " ",
                         f"write NAME = VALUE items separated by commas, e.g. {example}",
@@ -371,12 +450,15 @@ class ListStatement:
             if not m:
                 errors.append(
                     line.error(
-                        f"could not read {piece!r} in a '{kind}' statement",
+                        f"could not read {_q(piece)} in {article} '{kind}' statement",
                         col0 + 1,
                         piece or " ",
                         f"write NAME = VALUE, e.g. {example}",
                     )
                 )
+                lead = _NAME_RE.match(piece)
+                if lead:  # "excess W 55 M": W is still meant to be in excess
+                    declared.append(lead.group(0))
                 continue
             name = m.group("name")
             declared.append(name)
@@ -462,7 +544,7 @@ def _read_constant(line: _Line, name: str, name_col0: int, text: str, text_col0:
             if key not in ("A", "Ea"):
                 errors.append(
                     line.error(
-                        f"could not read {piece!r} in the Arrhenius parameters of {name}",
+                        f"could not read {_q(piece)} in the Arrhenius parameters of {name}",
                         col0 + 1,
                         piece or " ",
                         "write arrhenius(A = 1.0e13 1/s, Ea = 95 kJ/mol)",
@@ -544,14 +626,7 @@ class ConstantStatement:
         if isinstance(spec, list):
             return spec
         if name in _RESERVED:
-            return [
-                line.error(
-                    f"'{name}' is a keyword of the scheme language and cannot name a constant",
-                    lead + 1,
-                    name,
-                    "choose another name, e.g. k1",
-                )
-            ]
+            return [_keyword_error(line, name, lead, "a constant")]
         return cls(spec, line)
 
 
@@ -624,7 +699,7 @@ class ReactionStatement:
                 col = arrow.start() - len(rest) + (len(rest) - len(rest.lstrip())) + 1
                 errors.append(
                     line.error(
-                        f"could not read {rest.strip()!r} on the left of the arrow",
+                        f"could not read {_q(rest.strip())} on the left of the arrow",
                         col,
                         rest.strip(),
                         "write species joined by '+', e.g. A + W -> B",
@@ -678,8 +753,8 @@ def _fast_terms(code: str, start: int, end: int):
             terms.append(_Term(1.0, name, m.start(2) + 1))
             continue
         coefficient = float(coef)
-        if not coefficient > 0:
-            return None
+        if not (coefficient > 0 and _plain_number(coef)):
+            return None  # the general reader words the message
         terms.append(_Term(coefficient, name, m.start(2) + 1))
     return tuple(terms)
 
@@ -692,8 +767,8 @@ def _fast_ref(code: str, m, name_group: int):
     column = m.start(name_group) + 1
     if number is None:
         return _ConstantRef(name, column, None)
-    if not math.isfinite(float(number)):
-        return None
+    if not _plain_number(number):
+        return None  # the general reader words the message
     number_at, unit_at = m.start(name_group + 1), m.start(name_group + 2)
     value = _Value(number, unit, number_at + 1, unit_at + 1)
     spec = _ConstantSpec(name, column, value, None, None, code[number_at : m.end(name_group + 2)])
@@ -747,7 +822,7 @@ def _read_terms(line: _Line, text: str, offset: int, side: str):
                 where = "after '+'" if terms else "here"
                 problem = f"expected a species name {where} on the {side} of the arrow"
             else:
-                problem = f"expected a species name on the {side} of the arrow, found {snippet!r}"
+                problem = f"expected a species name on the {side} of the arrow, found {_q(snippet)}"
             return line.error(problem, column, snippet, hint)
         coef_text = match.group("coef")
         coefficient = float(coef_text) if coef_text else 1.0
@@ -760,13 +835,16 @@ def _read_terms(line: _Line, text: str, offset: int, side: str):
                 coef_text,
                 "coefficients are positive numbers; leave out a species that does not take part",
             )
-        if name in _RESERVED:
+        if coef_text is not None and not _plain_number(coef_text):
             return line.error(
-                f"'{name}' is a keyword of the scheme language and cannot name a species",
-                column,
-                name,
-                "choose another name",
+                f"stoichiometric coefficient of {name} is {_q(coef_text)}, which is too large "
+                "to count molecules",
+                offset + match.start("coef") + 1,
+                coef_text,
+                "write a coefficient such as 2 or 0.5",
             )
+        if name in _RESERVED:
+            return _keyword_error(line, name, column - 1, "a species")
         terms.append(_Term(coefficient, name, column))
         pos = match.end()
         plus = _PLUS_RE.match(text, pos)
@@ -799,9 +877,9 @@ def _read_constant_refs(line: _Line, text: str, offset: int, reversible: bool, a
             bad = re.match(r"\S+", piece)
             snippet = bad.group(0) if bad else piece or " "
             hint = f"name the constant and give its value, e.g. {example}"
-            problem = f"could not read the rate constant {piece!r}"
+            problem = f"could not read the rate constant {_q(piece)}"
             if m and not m.group("eq"):
-                problem = f"unexpected text after {m.group('name')!r}: {piece[m.end() :]!r}"
+                problem = f"unexpected text after {_q(m.group('name'))}: {_q(piece[m.end() :])}"
                 hint = (
                     "join products with '+' (A -> B + C) and write the constant as NAME or "
                     "NAME = VALUE UNIT"
@@ -812,14 +890,7 @@ def _read_constant_refs(line: _Line, text: str, offset: int, reversible: bool, a
             continue
         name = m.group("name")
         if name in _RESERVED:
-            errors.append(
-                line.error(
-                    f"'{name}' is a keyword of the scheme language and cannot name a constant",
-                    col0 + 1,
-                    name,
-                    "choose another name, e.g. k1",
-                )
-            )
+            errors.append(_keyword_error(line, name, col0, "a constant"))
             continue
         if m.group("eq"):
             rest = piece[m.end() :]
@@ -862,9 +933,19 @@ _KEYWORD_STARTS = {"title", "balance", "temperature", *ListStatement._EXAMPLES}
 _NAME_STARTS = (ReactionStatement, ConstantStatement)
 
 
+def _keyword_error(line: _Line, name: str, column0: int, what: str) -> SchemeError:
+    """The one message for a keyword used as the name of a species or a constant."""
+    return line.error(
+        f"'{name}' is a keyword of the scheme language and cannot name {what}",
+        column0 + 1,
+        name,
+        "choose another name, e.g. k1" if what == "a constant" else "choose another name",
+    )
+
+
 def _unknown_arrow(line: _Line, arrow: str, column0: int) -> SchemeError:
     return line.error(
-        f"unknown arrow {arrow!r}",
+        f"unknown arrow {_q(arrow)}",
         column0 + 1,
         arrow,
         "write -> (or →) for an irreversible step and <=> (or ⇌) for a reversible one",
@@ -905,7 +986,7 @@ def _unknown_statement(line: _Line) -> SchemeError:
         if rest.strip() and not _DIRECTIVE_LIKE.match(code):
             word = re.match(r"\S+", rest.lstrip()).group(0)
             return line.error(
-                f"could not read this line: expected an arrow before {word!r}",
+                f"could not read this line: expected an arrow before {_q(word)}",
                 column0 + 1,
                 word,
                 "a reaction reads A -> B + 2 C  k1 = 0.1 1/s (or <=> for a reversible step)",
@@ -927,19 +1008,68 @@ def _unknown_statement(line: _Line) -> SchemeError:
     if close:
         hint = f"did you mean '{close[0]}'? ({_EXAMPLES[close[0]]})"
     return line.error(
-        f"could not read this line (unknown statement {snippet!r})", lead + 1, snippet, hint
+        f"could not read this line (unknown statement {_q(snippet)})", lead + 1, snippet, hint
     )
 
 
-def _read_statements(text: str, source: str):
+#: Control characters that never occur in a text file (tab, form feed, vertical tab and
+#: line ends aside, which count as white space).
+_CONTROL_RE = re.compile(r"[\x00-\x08\x0e-\x1f\x7f]")
+
+
+def _unreadable_line(source: str, number: int, raw: str) -> SchemeError:
+    """The error for a line refused before it is parsed: too long, or not text."""
+    if len(raw) > MAX_LINE_LENGTH:
+        return SchemeError(
+            f"this line has {len(raw):,} characters; a line may have at most {MAX_LINE_LENGTH:,}",
+            source,
+            number,
+            1,
+            raw[:MAX_SHOWN_LINE] + "…",
+            raw[:1],
+            "write one statement per line (is this a scheme file?)",
+        )
+    bad = _CONTROL_RE.search(raw)
+    return SchemeError(
+        f"this line contains the control character U+{ord(bad.group(0)):04X}, which a "
+        "scheme file never holds",
+        source,
+        number,
+        bad.start() + 1,
+        _CONTROL_RE.sub(" ", raw),
+        " ",
+        "save the scheme as plain UTF-8 text (is this a scheme file?)",
+    )
+
+
+@dataclass(slots=True)
+class _Failures:
+    """What the lines that failed to read would have said: the words on them and the
+    kinds of statement they were.  The second pass reports no follow-on errors about
+    these (a species of a broken reaction line "occurs in no reaction"; an Arrhenius
+    constant "needs a temperature" when the temperature line is broken)."""
+
+    names: set[str]
+    kinds: set[type]
+
+    def note(self, kind: type | None, code: str) -> None:
+        self.names.update(_NAME_RE.findall(code[:MAX_LINE_LENGTH]))
+        if kind is not None:
+            self.kinds.add(kind)
+
+
+def _read_statements(text: str, source: str, failures: _Failures):
     statements = []
     errors: list[SchemeError] = []
     if text.startswith("\ufeff"):  # a byte-order mark left by some editors
         text = text[1:]
-    # lines end at "\n" only (as editors count them), with an optional "\r" before it
+    if "\r" in text:  # lines end at "\n", "\r\n" or a lone "\r", as editors count them
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
     for number, raw in enumerate(text.split("\n"), start=1):
-        if raw.endswith("\r"):
-            raw = raw[:-1]
+        if len(raw) > MAX_LINE_LENGTH or _CONTROL_RE.search(raw):
+            errors.append(_unreadable_line(source, number, raw))
+            failures.note(None, raw)
+            continue
         code = raw.split("#", 1)[0].rstrip() if "#" in raw else raw.rstrip()
         if not code or code.isspace():
             continue
@@ -959,6 +1089,7 @@ def _read_statements(text: str, source: str):
                 continue
             if isinstance(result, list):
                 errors.extend(result)
+                failures.note(kind, code)
             elif isinstance(result, tuple):  # a statement kept despite some errors
                 statements.append(result[0])
                 errors.extend(result[1])
@@ -967,6 +1098,7 @@ def _read_statements(text: str, source: str):
             break
         else:
             errors.append(_unknown_statement(line))
+            failures.note(None, code)
     return statements, errors
 
 
@@ -979,53 +1111,104 @@ def _did_you_mean(name: str, candidates) -> str:
     return f"did you mean {close[0]}?" if close else ""
 
 
-#: Dimensions a start, excess or feed value may have (one kind per file).
-_CONCENTRATION_FAMILIES = {
-    (("[length]", -3), ("[substance]", 1)): "concentration",
-    (("[substance]", 1),): "amount",
-    (("[length]", -3), ("[mass]", 1)): "mass concentration",
-    (("[mass]", 1),): "mass",
-    (): "pure number",
-}
-_ARTICLE = {
-    "concentration": "a",
-    "amount": "an",
-    "mass concentration": "a",
-    "mass": "a",
-    "pure number": "a",
-}
-_PLURAL = {
-    "concentration": "concentrations",
-    "amount": "amounts",
-    "mass concentration": "mass concentrations",
-    "mass": "masses",
-    "pure number": "pure numbers",
-}
 #: Unit of each kind when a feed is written in a form whose concentration part
 #: cannot be cut out (``mol/(L*min)``), with its exact factor to SI.
 _FAMILY_UNITS = {
-    (("[length]", -3), ("[substance]", 1)): ("mol/L", Fraction(1000)),
-    (("[substance]", 1),): ("mol", Fraction(1)),
-    (("[length]", -3), ("[mass]", 1)): ("g/L", Fraction(1)),
-    (("[mass]", 1),): ("g", Fraction(1, 1000)),
-    (): ("1", Fraction(1)),
+    ("amount", "volume"): ("mol/L", Fraction(1000)),
+    ("amount", "absolute"): ("mol", Fraction(1)),
+    ("amount", "soil"): ("mol/kg", Fraction(1)),
+    ("mass", "volume"): ("g/L", Fraction(1)),
+    ("mass", "absolute"): ("g", Fraction(1, 1000)),
+    ("mass", "soil"): ("g/kg", Fraction(1, 1000)),
+    ("number", "ratio"): ("1", Fraction(1)),
 }
+_DEFAULT_KIND = Kind("amount", "volume", Fraction(1000))
 
 
 class _Builder:
     """Second pass: resolve names, units, orders and balance across the file."""
 
-    def __init__(self, statements, errors, source, text, strict_balance):
+    def __init__(self, statements, errors, source, text, strict_balance, failures=None):
         self.statements = statements
+        self.failures = failures or _Failures(set(), set())
         self.errors: list[SchemeError] = errors
         self.source = source
         self.text = text
         self.strict_balance = strict_balance
         self._orders_ok: set = set()  # (order, unit, co-reactants) found consistent
         self._suggestions_left = 50  # "did you mean" costs a scan of all names
+        self.warnings: list[str] = []
 
     def error(self, line: _Line, problem, column=0, snippet="", hint=""):
         self.errors.append(line.error(problem, column, snippet, hint))
+
+    def warn(self, line: _Line | None, sentence: str) -> None:
+        """A probable mistake that does not stop the file (``Scheme.warnings``)."""
+        where = f"{self.source}:{line.number}" if line is not None else self.source
+        self.warnings.append(f"{where}: {sentence}")
+
+    # -- whole-file checks -------------------------------------------------------
+    def _repeated_steps(self, steps, reactions) -> None:
+        """A step written twice with one constant is an error; with two, a warning.
+
+        Steps are compared by what they do (:attr:`Step.key`), so ``A -> B + C`` and
+        ``A -> C + B`` are the same step; the rates of parallel steps add up.
+        """
+        first: dict[tuple, Step] = {}
+        told: set[tuple[int, int]] = set()
+        for step in steps:
+            seen = first.setdefault(step.key, step)
+            if seen is step:
+                continue
+            pair = (seen.reaction, step.reaction)
+            if pair in told:
+                continue  # the reverse step of a reversible line repeated
+            told.add(pair)
+            earlier, r = reactions[seen.reaction].line.number, reactions[step.reaction]
+            if seen.constant == step.constant:
+                self.error(
+                    r.line,
+                    f"the step {step.equation} with {step.constant} is written twice "
+                    f"(lines {earlier} and {r.line.number}); its rate would count twice",
+                    r.arrow_column,
+                    "<=>" if r.reversible else "->",
+                    "remove one of the two lines",
+                )
+            else:
+                self.warn(
+                    r.line,
+                    f"the step {step.equation} also occurs on line {earlier}: parallel "
+                    f"steps, their constants add up ({seen.constant} + {step.constant})",
+                )
+
+    def _unused_constants(self, st, constants, reactions) -> None:
+        used = {ref.name for r in reactions for ref in r.constants}
+        for s in st:
+            if isinstance(s, ConstantStatement) and s.spec.name not in used:
+                self.warn(
+                    s.line,
+                    f"rate constant {s.spec.name} is defined but no reaction uses it "
+                    "(a misspelt name?)",
+                )
+
+    def _nothing_to_start(self, values, lists, reactions) -> None:
+        """Say so when every concentration stays 0 (no start value above 0, no feed)."""
+        start, feed = values["start"][0], values["feed"][0]
+        if any(v > 0 for v in start.values()) or any(v > 0 for v in feed.values()):
+            return
+        starts = [s for s in lists if s.kind == "start"]
+        if starts:
+            self.warn(
+                starts[0].line,
+                "every start value is 0 and nothing is fed: all concentrations stay 0",
+            )
+        else:
+            self.warn(
+                None,
+                "the file has no start line, so every species starts at 0 and all "
+                "concentrations stay 0; add e.g. start "
+                f"{reactions[0].left[0].name} = 1 mol/L",
+            )
 
     def _did_you_mean(self, name: str, candidates) -> str:
         """A suggestion for the first few misspelt names only (each costs a scan)."""
@@ -1067,10 +1250,13 @@ class _Builder:
                 excess_names.update(s.declared)
                 for item in s.items:
                     excess_items.setdefault(item.name, (item, s.line))
-        self.excess_units = {}
+        self.excess_dims = {}  # of the amount each excess value stands for
         for name, (item, _) in excess_items.items():
             try:
-                self.excess_units[name] = parse_unit(item.value.unit)
+                kind = kind_of(item.value.unit)
+                self.excess_dims[name] = (
+                    kind.amount_dims if kind else parse_unit(item.value.unit).dims
+                )
             except ValueError:
                 pass  # reported with the excess statement
 
@@ -1086,18 +1272,26 @@ class _Builder:
         all_species = list(order)
 
         temperature = self._temperature(st)
-        conc_unit, unit_factor, family_dims, family_origin = self._concentration_unit(lists)
-        self.conc_unit = conc_unit
-        values = self._lists(lists, order, excess_names, family_dims, unit_factor, family_origin)
+        self._temperature_failed = temperature is None and (
+            TemperatureStatement in self.failures.kinds
+            or any(isinstance(s, TemperatureStatement) for s in st)
+        )
+        conc_unit, unit_factor, family, family_origin, written = self._concentration_unit(lists)
+        self.conc_unit, self.family = conc_unit, family
+        values = self._lists(lists, order, excess_names, family, unit_factor, family_origin)
         excess_values, excess_si = values["excess"]
 
         constants = self._constants(st, reactions, temperature)
         reaction_objs, steps = self._reactions(reactions, excess_names, constants, excess_si)
 
         species_objs, excess_objs = self._species(all_species, excess_names, order, values)
+        self._convert_masses(values, species_objs + excess_objs, unit_factor)
         self._balance(reaction_objs, species_objs + excess_objs, allow_imbalance, reactions)
+        self._repeated_steps(steps, reactions)
         if self.errors:
             raise SchemeErrors(self.errors)
+        self._unused_constants(st, constants, reactions)
+        self._nothing_to_start(values, lists, reactions)
         scheme = Scheme(
             species=tuple(species_objs),
             excess_species=tuple(excess_objs),
@@ -1109,10 +1303,12 @@ class _Builder:
             feed=values["feed"][0],
             temperature=temperature,
             concentration_unit=conc_unit,
+            written_unit=written,
             title=title,
             source=self.source,
             text=self.text,
             allow_imbalance=allow_imbalance,
+            warnings=tuple(self.warnings),
             _excess_si=excess_si,
             _unit_factor=unit_factor,
         )
@@ -1135,22 +1331,33 @@ class _Builder:
         return getattr(found[0], attribute) if found else default
 
     def _check_rates(self, scheme: Scheme, reactions) -> None:
-        """Every effective rate constant must be a finite double (no overflow)."""
+        """Every effective rate constant must be a finite double, and not a nonzero
+        product that rounds to 0 (underflow)."""
         rates = scheme.rates
-        if np.isfinite(rates).all():
-            return
+        bad = np.flatnonzero(~np.isfinite(rates) | (rates == 0))
         reported = set()
-        for index in np.flatnonzero(~np.isfinite(rates)):
+        for index in bad:
             step = scheme.steps[index]
             statement = reactions[step.reaction]
             if step.reaction in reported:
                 continue
+            if rates[index] == 0:
+                constant = scheme.constants[step.constant]
+                nominal = (
+                    constant.value_si != 0
+                    if constant.arrhenius is None
+                    else constant.arrhenius.prefactor_si != 0
+                )
+                if not nominal or any(scheme.excess[n] == 0 for _, n in step.co_reactants):
+                    continue  # a constant or an excess concentration written as 0
+                what = "underflows to 0 (it is below 5e-324 1/s)"
+            else:
+                what = f"overflows (it is beyond {sys.float_info.max:.3g} 1/s)"
             reported.add(step.reaction)
             ref = statement.constants[0 if step.direction == "forward" else 1]
             self.error(
                 statement.line,
-                f"the effective rate constant of {step.equation} overflows "
-                f"(it is beyond {sys.float_info.max:.3g} 1/s)",
+                f"the effective rate constant of {step.equation} {what}",
                 ref.column,
                 ref.name,
                 "check the value and unit of the constant and of the excess concentrations",
@@ -1181,11 +1388,11 @@ class _Builder:
             )
             return None
         try:
-            kelvin = temperature_to_kelvin(Fraction(value.number), value.unit)
+            kelvin = temperature_to_kelvin(_fraction(value.number), value.unit)
         except ValueError:
             self.error(
                 line,
-                f"the temperature is given in {value.unit!r}, which is not a temperature unit",
+                f"the temperature is given in {_q(value.unit)}, which is not a temperature unit",
                 value.unit_column,
                 value.unit,
                 "write the temperature in K or degC, e.g. temperature = 60 degC",
@@ -1207,9 +1414,12 @@ class _Builder:
         """Pick the scheme's concentration unit: the unit of the first start value.
 
         Without start values, the first excess concentration, then the first feed
-        (its concentration part) decides; without any, ``mol/L``.  Returns the
-        unit, its exact factor to SI, its dimension and a description of where it
-        came from (for the message when another value does not fit).
+        (its concentration part) decides; without any, ``mol/L``.  Values in mass
+        units are kept as amounts: the scheme's unit is then the amount twin of the
+        mass unit (``mg/L`` -> ``mmol/L``, :func:`kinetics.amounts.amount_unit`).
+        Returns the unit, its exact factor to SI, the :class:`~kinetics.amounts.Kind`
+        of the first value, where it came from (for the message when another value
+        does not fit) and the unit as written (the default unit of outputs).
         """
         for kind in ("start", "excess", "feed"):
             for s in lists:
@@ -1217,39 +1427,43 @@ class _Builder:
                     continue
                 for item in s.items:
                     try:
-                        spec = parse_unit(item.value.unit)
+                        found = kind_of(item.value.unit, per_time=kind == "feed")
                     except ValueError:
                         continue  # reported when the item itself is checked
-                    dims = spec.dims
-                    if kind == "feed":
-                        dims["[time]"] = dims.get("[time]", 0) + 1
-                    dims_t = tuple(sorted((k, v) for k, v in dims.items() if v))
-                    if dims_t not in _CONCENTRATION_FAMILIES:
+                    if found is None:
                         continue
                     origin = f"{kind} {item.name} = {item.value.text} on line {s.line.number}"
-                    if kind != "feed":
-                        unit = pint_text(item.value.unit) if item.value.unit else "1"
-                        return unit, spec.factor, dims_t, origin
-                    # a feed in mol/L/min: the concentration unit is mol/L
-                    unit = _concentration_part(item.value.unit)
-                    try:
-                        part = parse_unit(unit) if unit else None
-                    except ValueError:
-                        part = None
-                    if part is None or part.dimensions != dims_t:
-                        unit, factor = _FAMILY_UNITS[dims_t]
-                        return unit, factor, dims_t, origin
-                    return pint_text(unit), part.factor, dims_t, origin
-        dims_t = (("[length]", -3), ("[substance]", 1))
-        return "mol/L", Fraction(1000), dims_t, ""
+                    unit, factor = self._written_unit(item.value.unit, kind, found)
+                    if found.substance == "mass":
+                        return (*amount_unit(kind_of(unit)), found, origin, unit)
+                    return unit, factor, found, origin, unit
+        return "mol/L", Fraction(1000), _DEFAULT_KIND, "", "mol/L"
 
-    def _lists(self, lists, order, excess_names, family_dims, unit_factor, family_origin):
-        family = _CONCENTRATION_FAMILIES[family_dims]
+    @staticmethod
+    def _written_unit(text: str, kind: str, found: Kind) -> tuple[str, Fraction]:
+        """The concentration unit a value was written in, and its SI factor (a feed
+        in ``mol/L/min`` was written in ``mol/L``)."""
+        if kind != "feed":
+            unit = pint_text(text) if text else "1"
+            return unit, (found.factor if text else Fraction(1))
+        unit = _concentration_part(text)
+        try:
+            part = kind_of(unit) if unit else None
+        except ValueError:
+            part = None
+        if part is None or (part.substance, part.basis) != (found.substance, found.basis):
+            return _FAMILY_UNITS[(found.substance, found.basis)]
+        return pint_text(unit), part.factor
+
+    def _lists(self, lists, order, excess_names, family, unit_factor, family_origin):
         out = {kind: ({}, {}) for kind in ("start", "excess", "feed", "formula", "molar_mass")}
+        self._masses_to_convert: list = []
         seen: dict[tuple[str, str], int] = {}
         for s in lists:
             for item in s.items:
                 if item.name not in order:
+                    if item.name in self.failures.names:
+                        continue  # on a line that failed to read: that error is the cause
                     hint = self._did_you_mean(item.name, order) or (
                         "a species must take part in a reaction before it can be given "
                         + _WHAT_LISTED[s.kind]
@@ -1305,7 +1519,7 @@ class _Builder:
                             "write a molar mass such as 180.2 g/mol",
                         )
                         continue
-                    grams = _exact(Fraction(v.number) * spec.factor * 1000)
+                    grams = _exact(_scaled(v.number, spec.factor * 1000))
                     if grams is None or grams == 0:
                         self.error(
                             s.line,
@@ -1323,21 +1537,22 @@ class _Builder:
                 if isinstance(spec, SchemeError):
                     self.errors.append(spec)
                     continue
-                dims = spec.dims
-                if s.kind == "feed":
-                    dims["[time]"] = dims.get("[time]", 0) + 1
-                dims_t = tuple(sorted((k, x) for k, x in dims.items() if x))
-                if dims_t != family_dims or spec.offset:
-                    self.errors.append(
-                        self._family_error(s, item, spec, dims_t, family, family_origin)
-                    )
+                kind = kind_of(v.unit, per_time=s.kind == "feed")
+                if kind is None or kind.basis != family.basis:
+                    self.errors.append(self._family_error(s, item, spec, kind, family_origin))
                     continue
-                si = Fraction(v.number) * spec.factor
+                si = _scaled(v.number, spec.factor)
+                if kind.substance == "mass":  # an amount once the molar masses are known
+                    self._masses_to_convert.append((s, item, si))
+                    out[s.kind][1][item.name] = None
+                    continue
                 value = _exact(si / unit_factor)
-                if value is None:
+                if not value and si:
+                    size = "too large" if value is None else "too small"
                     self.error(
                         s.line,
-                        f"{s.kind} {item.name} = {v.text} is too large in {self.conc_unit}",
+                        f"{s.kind} {item.name} = {v.text} is {size} in {self.conc_unit}"
+                        + ("" if value is None else " (it would become 0)"),
                         v.column,
                         v.text,
                         "check the value and its unit",
@@ -1347,35 +1562,76 @@ class _Builder:
                 out[s.kind][1][item.name] = si
         return out
 
-    def _family_error(self, s, item, spec, dims_t, family, family_origin):
+    def _convert_masses(self, values, species, unit_factor) -> None:
+        """Turn the values written as masses into amounts: n = m / M (M in g/mol)."""
+        masses = {sp.name: sp.molar_mass for sp in species}
+        for s, item, si in self._masses_to_convert:
+            v = item.value
+            grams = masses.get(item.name)
+            if grams is None:
+                what = {"start": "start value", "excess": "excess value", "feed": "feed"}
+                self.error(
+                    s.line,
+                    f"the {what[s.kind]} of {item.name} is a mass ({v.text}); the scheme "
+                    f"counts molecules, and {item.name} has no molar mass to convert it",
+                    item.name_column,
+                    item.name,
+                    f"give its formula (formula {item.name} = ...) or its molar mass "
+                    f"(molar_mass {item.name} = ... g/mol), or write the value as an amount "
+                    f"({self.conc_unit})",
+                )
+                continue
+            amount = si * 1000 / Fraction(grams)  # kg / (kg/mol) -> mol, per basis
+            value = _exact(amount / unit_factor)
+            if not value and amount:
+                self.error(
+                    s.line,
+                    f"{s.kind} {item.name} = {v.text} is too "
+                    + ("large" if value is None else "small")
+                    + f" in {self.conc_unit}"
+                    + ("" if value is None else " (it would become 0)"),
+                    v.column,
+                    v.text,
+                    "check the value and its unit",
+                )
+                continue
+            values[s.kind][0][item.name] = value
+            values[s.kind][1][item.name] = amount
+
+    def _family_error(self, s, item, spec, kind, family_origin):
         v = item.value
-        is_known_family = dims_t in _CONCENTRATION_FAMILIES
+        family = self.family
         what = describe_dimension(spec.dims)
         col = v.unit_column if v.unit else v.column
         snippet = v.unit or v.number
         example = {"start": "0.5 mol/L", "excess": "55 mol/L", "feed": "0.01 mol/L/min"}[s.kind]
-        if is_known_family and not spec.offset:
-            other = _CONCENTRATION_FAMILIES[dims_t]
+        if kind is not None:
             origin = f" ({family_origin})" if family_origin else ""
             if s.kind == "feed":
                 problem = (
-                    f"the feed of {item.name} is {v.text}, a feed of {_PLURAL[other]}, but "
-                    f"this file gives {_PLURAL[family]}{origin}"
+                    f"the feed of {item.name} is {v.text}, a feed of {kind.plural}, but "
+                    f"this file gives {family.plural}{origin}"
                 )
             elif not v.unit:
                 problem = (
                     f"{s.kind} {item.name} = {v.number} has no unit, but this file gives "
-                    f"{_PLURAL[family]}{origin}"
+                    f"{family.plural}{origin}"
                 )
             else:
                 problem = (
-                    f"{s.kind} {item.name} = {v.text} is {_ARTICLE[other]} {other}, but this "
-                    f"file gives {_PLURAL[family]}{origin}"
+                    f"{s.kind} {item.name} = {v.text} is {kind.article} {kind.name}, but this "
+                    f"file gives {family.plural}{origin}"
                 )
-            if {other, family} == {"amount", "concentration"}:
+            if {kind.name, family.name} == {"amount", "concentration"}:
                 hint = (
                     "amounts (mol) and concentrations (mol/L) may not be mixed in one file; "
-                    f"write every value as {_ARTICLE[family]} {family}"
+                    f"write every value as {family.article} {family.name}"
+                )
+            elif "number" not in (kind.substance, family.substance):
+                hint = (
+                    "values per volume, per mass of soil and absolute amounts may not be "
+                    f"mixed in one file; write every value as {family.article} {family.name}"
+                    + (" (amounts and masses of one kind may be mixed)")
                 )
             else:
                 hint = f"write every value in one kind of unit, e.g. {example}"
@@ -1442,7 +1698,7 @@ class _Builder:
         for r in reactions:
             for ref in r.constants:
                 if ref.spec is None and ref.name not in constants:
-                    if ref.name in defined:
+                    if ref.name in defined or ref.name in self.failures.names:
                         continue  # its definition had an error, already reported
                     hint = self._did_you_mean(ref.name, constants)
                     hint = hint or (
@@ -1496,7 +1752,7 @@ class _Builder:
                     "write Ea in kJ/mol or J/mol, e.g. Ea = 95 kJ/mol",
                 )
                 return None
-            if temperature is None:
+            if temperature is None and not self._temperature_failed:
                 self.error(
                     line,
                     f"{spec.name} follows the Arrhenius law but the file sets no temperature",
@@ -1504,8 +1760,8 @@ class _Builder:
                     spec.name,
                     "add a line such as temperature = 60 degC",
                 )
-            energy = _exact(Fraction(ea.number) * e_unit.factor)
-            prefactor = Fraction(a.number) * a_unit.factor
+            energy = _exact(_scaled(ea.number, e_unit.factor))
+            prefactor = _scaled(a.number, a_unit.factor)
             if energy is None or _exact(prefactor) is None:
                 bad = a if energy is not None else ea
                 self.error(
@@ -1537,10 +1793,11 @@ class _Builder:
             )
             return None
         value_si = _scaled(v.number, unit.factor)
-        if _exact(value_si) is None:
+        if not _exact(value_si) and value_si:
+            size = "too large" if _exact(value_si) is None else "too small (0 in SI units)"
             self.error(
                 line,
-                f"rate constant {spec.name} = {v.text} is too large",
+                f"rate constant {spec.name} = {v.text} is {size}",
                 v.column,
                 v.text,
                 "check the value and its unit",
@@ -1653,10 +1910,10 @@ class _Builder:
                 k_dims = parse_unit(constant.unit).dims
                 total = dict(k_dims)
                 for t in partners:
-                    spec = self.excess_units.get(t.name)
-                    if spec is None:
+                    dims = self.excess_dims.get(t.name)
+                    if dims is None:
                         continue
-                    for k, v in spec.dims.items():
+                    for k, v in dims.items():
                         total[k] = total.get(k, 0) + v * Fraction(t.coefficient)
                 total = {k: v for k, v in total.items() if v}
                 if total != {"[time]": -1}:
@@ -1709,7 +1966,7 @@ class _Builder:
                 col = line.code.find(item.formula, item.name_column - 1) + 1
                 self.error(
                     line,
-                    f"the formula {item.formula!r} of {name} does not parse ({exc})",
+                    f"the formula {_q(item.formula)} of {name} does not parse ({exc})",
                     col,
                     item.formula,
                     "write element symbols with counts, e.g. C6H12O6 or Ca(OH)2",
@@ -1771,8 +2028,8 @@ def _plain_constant(spec: _ConstantSpec, line: _Line) -> RateConstant | None:
     if order is None:
         return None
     value_si = _scaled(v.number, unit.factor)
-    if _exact(value_si) is None:
-        return None
+    if not _exact(value_si) and value_si:
+        return None  # too large or too small for a double: _Builder._constant says so
     return RateConstant(spec.name, spec.text, value_si, v.unit, order, None, line.number)
 
 
@@ -1821,9 +2078,21 @@ def parse(text: str, source: str = "<text>", *, strict_balance: bool = True) -> 
             f"parse() reads scheme text (str), not {type(text).__name__}",
             "decode bytes first, or use kinetics.load(path) for a file",
         )
+    if len(text) > MAX_SCHEME_BYTES:
+        limit = f"{MAX_SCHEME_BYTES:,}"
+        raise SchemeErrors(
+            [
+                SchemeError(
+                    f"the scheme text has {len(text):,} characters; the limit is {limit}",
+                    source,
+                    hint=_TOO_LARGE,
+                )
+            ]
+        )
     with _collector_paused():
-        statements, errors = _read_statements(text, source)
-        return _Builder(statements, errors, source, text, strict_balance).build()
+        failures = _Failures(set(), set())
+        statements, errors = _read_statements(text, source, failures)
+        return _Builder(statements, errors, source, text, strict_balance, failures).build()
 
 
 @contextlib.contextmanager
@@ -1842,6 +2111,68 @@ def _collector_paused():
     finally:
         if enabled:
             gc.enable()
+
+
+def _read_text(path: Path, name: str) -> str:
+    """The UTF-8 text of a file, read in chunks up to :data:`MAX_SCHEME_BYTES`.
+
+    Reading stops at the first chunk that shows the file is not a scheme: too
+    large, binary (a NUL byte) or not UTF-8, so that ``/dev/zero`` or a large
+    binary file is refused at once and never held in memory.
+    """
+    decoder = codecs.getincrementaldecoder("utf-8-sig")()
+    parts: list[str] = []
+    size = lines = 0
+    limit = f"{MAX_SCHEME_BYTES // (1024 * 1024)} MiB"
+    try:
+        with path.open("rb") as handle:
+            if os.fstat(handle.fileno()).st_size > MAX_SCHEME_BYTES:
+                raise SchemeFileError(
+                    f"the file is larger than {limit}, the limit for a scheme", name, _TOO_LARGE
+                )
+            while chunk := handle.read(_CHUNK):
+                size += len(chunk)
+                if size > MAX_SCHEME_BYTES:
+                    raise SchemeFileError(
+                        f"the file is larger than {limit}, the limit for a scheme",
+                        name,
+                        _TOO_LARGE,
+                    )
+                if b"\0" in chunk:
+                    line = lines + chunk[: chunk.index(b"\0")].count(b"\n") + 1
+                    raise SchemeFileError(
+                        f"the file is not text (it holds a NUL byte, first on line {line})",
+                        name,
+                        "a scheme is plain UTF-8 text; is this the right file?",
+                    )
+                parts.append(_decoded(decoder, chunk, lines, name))
+                lines += chunk.count(b"\n")
+            parts.append(_decoded(decoder, b"", lines, name))
+    except OSError as exc:
+        if isinstance(exc, SchemeFileError):
+            raise
+        raise SchemeFileError(f"cannot read the file ({exc.strerror or exc})", name) from exc
+    return "".join(parts)
+
+
+def _decoded(decoder, chunk: bytes, lines: int, name: str) -> str:
+    """One chunk decoded (an empty chunk ends the text); ``lines`` lines came before it."""
+    try:
+        return decoder.decode(chunk, final=not chunk)
+    except UnicodeDecodeError as exc:
+        line = lines + exc.object[: exc.start].count(b"\n") + 1
+        raise SchemeFileError(
+            f"the file is not UTF-8 text (undecodable byte at line {line})",
+            name,
+            "save it as UTF-8 (plain text)",
+        ) from None
+
+
+_CHUNK = 1 << 20
+_TOO_LARGE = (
+    "a scheme of 500,000 reactions takes about 25 MB; is this the right file? (split a "
+    "larger scheme into independent parts)"
+)
 
 
 def load(path, *, strict_balance: bool = True) -> Scheme:
@@ -1870,17 +2201,5 @@ def load(path, *, strict_balance: bool = True) -> Scheme:
         raise SchemeFileError("no such file", str(path), "check the path (and the current folder)")
     if p.is_dir():
         raise SchemeFileError("this is a folder, not a scheme file", str(path), "name a file")
-    try:
-        data = p.read_bytes()
-    except OSError as exc:
-        raise SchemeFileError(f"cannot read the file ({exc.strerror})", str(path)) from exc
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = data[: exc.start].count(b"\n") + 1
-        raise SchemeFileError(
-            f"the file is not UTF-8 text (undecodable byte at line {line})",
-            str(path),
-            "save it as UTF-8 (plain text)",
-        ) from exc
+    text = _read_text(p, str(path))
     return parse(text, str(path), strict_balance=strict_balance)

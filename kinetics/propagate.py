@@ -57,7 +57,6 @@ cross-check in the tests.
 
 from __future__ import annotations
 
-import functools
 import math
 from dataclasses import dataclass, field
 from functools import lru_cache
@@ -67,7 +66,8 @@ import numpy as np
 import scipy.sparse
 
 from kinetics import _doubledouble as dd
-from kinetics.errors import GrowthError, UsageError
+from kinetics import checks
+from kinetics.errors import UsageError
 
 __all__ = [
     "DENSE_DOUBLE_MAX",
@@ -78,10 +78,9 @@ __all__ = [
     "propagate",
     "propagate_batch",
     "propagate_certified",
-    "sensitivities",
 ]
 
-Precision = Literal["auto", "double", "double-double"]
+Precision = Literal["auto", "double", "double-double"]  # checks.PRECISIONS
 
 #: Largest scheme for which ``precision="auto"`` may choose double-double (where the
 #: plain-double bound is not small enough): with the compiled kernels this costs about
@@ -101,90 +100,6 @@ AUTO_RTOL = 2.0**-46
 # --------------------------------------------------------------------------
 # input checking
 # --------------------------------------------------------------------------
-
-
-def _rate_matrix(K, allow_sparse: bool = True):
-    if scipy.sparse.issparse(K):
-        if not allow_sparse:
-            K = K.toarray()
-        else:
-            K = scipy.sparse.csr_array(K, dtype=float)
-            if K.ndim != 2 or K.shape[0] != K.shape[1]:
-                raise UsageError(f"rate matrix must be square, got shape {K.shape}")
-            if not np.all(np.isfinite(K.data)):
-                raise UsageError("rate matrix has a non-finite entry")
-            coo = K.tocoo()
-            off = coo.row != coo.col
-            if np.any(coo.data[off] < 0):
-                raise UsageError(
-                    "rate matrix has a negative off-diagonal entry",
-                    "off-diagonal entries are rates of formation and must be >= 0",
-                )
-            return K
-    try:
-        K = np.array(K, dtype=float)
-    except (TypeError, ValueError) as exc:
-        raise UsageError(f"rate matrix is not numeric: {exc}") from None
-    if K.ndim != 2 or K.shape[0] != K.shape[1]:
-        raise UsageError(f"rate matrix must be square, got shape {K.shape}")
-    _check_offdiag(K[None])
-    return K
-
-
-def _check_offdiag(K):
-    from kinetics import _kernels
-
-    if not np.isfinite(K).all():
-        raise UsageError("rate matrix has a non-finite entry")
-    if _kernels.negative_offdiagonal(np.ascontiguousarray(K)):
-        raise UsageError(
-            "rate matrix has a negative off-diagonal entry",
-            "off-diagonal entries are rates of formation and must be >= 0",
-        )
-
-
-def _vector(v, n: int, what: str, lead: tuple = ()) -> np.ndarray:
-    try:
-        v = np.array(v, dtype=float)
-    except (TypeError, ValueError) as exc:
-        raise UsageError(f"{what} is not numeric: {exc}") from None
-    if v.shape == (n,) and lead:
-        v = np.broadcast_to(v, (*lead, n)).copy()
-    if v.shape != (*lead, n):
-        raise UsageError(f"{what} must have shape {(*lead, n)}, got {v.shape}")
-    if not np.isfinite(v).all():
-        raise UsageError(f"{what} has a non-finite entry")
-    if (v < 0).any():
-        raise UsageError(
-            f"{what} has a negative entry",
-            "concentrations and feed rates must be >= 0",
-        )
-    return v
-
-
-def _times(times) -> np.ndarray:
-    try:
-        t = np.array(times, dtype=float)
-    except (TypeError, ValueError) as exc:
-        raise UsageError(f"times are not numeric: {exc}") from None
-    if t.ndim == 0:
-        t = t.reshape(1)
-    if t.ndim != 1:
-        raise UsageError(f"times must be a 1-D list, got shape {t.shape}")
-    if not np.isfinite(t).all():
-        raise UsageError("times must be finite")
-    if (t < 0).any():
-        raise UsageError("times must be >= 0", "time 0 is the start of the reaction")
-    if (t[1:] < t[:-1]).any():
-        raise UsageError("times must be in nondecreasing order", "sort the time list")
-    return t
-
-
-def _check_precision(precision) -> None:
-    if precision not in ("auto", "double", "double-double"):
-        raise UsageError(
-            f"unknown precision {precision!r}", "use 'auto', 'double' or 'double-double'"
-        )
 
 
 def _augment(K, feed):
@@ -209,6 +124,7 @@ class _Plan:
     j: int  # number of squarings
     ps: int  # Paterson-Stockmeyer block size s
     pr: int  # number of Horner steps r; Taylor degree m = s (r + 1) - 1
+    ymax: float = 16.0  # largest scaled norm beta / 2^j left to the Taylor sum
 
     @property
     def degree(self) -> int:
@@ -216,29 +132,46 @@ class _Plan:
 
 
 @lru_cache(maxsize=4096)
-def _ps_blocks(m: int) -> tuple[int, int]:
-    """Cheapest Paterson-Stockmeyer split (s, r) with s (r + 1) - 1 >= m."""
+def _ps_blocks(m: int, density: float = 1.0) -> tuple[int, int, float]:
+    """Cheapest Paterson-Stockmeyer split (s, r) with s (r + 1) - 1 >= m, and its cost.
+
+    Cost in dense products: the powers :math:`Y^2 .. Y^s` are products with ``Y`` on the
+    left (its zeros skipped, relative cost ``density``); each Horner step is a product
+    with :math:`Y^s` on the left, sparse only for ``s = 1`` (plain Horner).
+    """
     best = None
     for s in range(1, m + 2):
         r = max(0, math.ceil((m + 1) / s) - 1)
-        cost = (s - 1) + r
+        cost = (s - 1) * density + r * (density if s == 1 else 1.0)
         if best is None or cost < best[0]:
             best = (cost, s, r)
-    return best[1], best[2]
+    return best[1], best[2], best[0]
 
 
 @lru_cache(maxsize=4096)
 def _plan(
-    beta: float, n: int, route: str, target: float, ymax: float = 16.0, square_cost: float = 1.0
+    beta: float,
+    n: int,
+    route: str,
+    target: float,
+    ymax: float = 16.0,
+    square_cost: float = 1.0,
+    reach: int | None = None,
+    density: float = 1.0,
 ) -> _Plan:
     r"""Choose squarings j and Taylor degree m for ``||tB||_1 <= beta``.
 
     The scalar remainder estimate (Shao, Gao & Xue 2014, sec. 3) is
     :math:`2^j \, y^{m+1} e^{y}/(m+1)!` with :math:`y = \beta/2^j`; the cost is the
-    number of matrix products, :math:`(s-1) + r + j`.
+    number of dense matrix products (:func:`_ps_blocks`) plus ``j`` squarings.
+    ``reach`` is the longest shortest path of the species graph (default ``n - 1``,
+    a chain): an entry reached by a path of ``p`` steps needs the terms of degree
+    ``p`` and more, so the degree grows with it.  The plan is a guess checked a
+    posteriori (:func:`_expm_group`).
     """
     if beta <= 0.0:
-        return _Plan(route, 0, 2, 0)
+        return _Plan(route, 0, 2, 0, ymax)
+    p_ = n - 1 if reach is None else max(0, min(reach, n - 1))
     jmin = max(0, math.ceil(math.log2(beta) - math.log2(ymax)))
     best = None
     log_target = math.log(target)
@@ -248,72 +181,105 @@ def _plan(
             break
         base = j * math.log(2.0) + y
         # the pattern of T_m(Y)^(2^j) holds every path of length <= m 2^j
-        m = max(1, math.ceil((n - 1) / 2.0**j))
+        m = max(1, math.ceil(p_ / 2.0**j))
         while base + (m + 1) * math.log(y) - math.lgamma(m + 2) > log_target and m < 1000:
             m += 1
         # entrywise, an entry reached by a path of p steps sees the scalar tail
         # shifted by p (interleavings of the path with the diagonal); the
         # squarings damp this, so add the longest path only for few squarings
-        m += (n - 1) if j <= 3 else (n - 1) // 2 if j <= 6 else 0
-        # an entry whose shortest path has p = n - 1 steps: relative truncation
-        # error about C(p, m + 1) / 2^(j m) (Taylor coefficients of T_m^N)
-        p_ = n - 1
+        m += p_ if j <= 3 else p_ // 2 if j <= 6 else 0
+        # an entry whose shortest path has p steps: relative truncation error about
+        # C(p, m + 1) / 2^(j m) (Taylor coefficients of T_m^N)
         while m + 1 <= p_ and (
             math.lgamma(p_ + 1) - math.lgamma(m + 2) - math.lgamma(p_ - m) - m * j * math.log(2.0)
             > log_target
         ):
             m += 1
-        s, r = _ps_blocks(max(m, 2))
-        cost = (s - 1) + r + square_cost * j
+        if m > _DEGREE_MAX and j < jmin + 11:
+            continue  # the a posteriori check forms Y^(m+1): keep its entries in range
+        s, r, cost = _ps_blocks(max(m, 2), density)
+        cost += square_cost * j
         if best is None or cost < best[0]:
-            best = (cost, _Plan(route, j, s, r))
+            best = (cost, _Plan(route, j, s, r, ymax))
     return best[1]
 
 
-def _rounding_bound(beta: float, n: int, plan: _Plan, unit: float) -> float:
-    r"""Componentwise relative rounding-error bound of one exponential.
+def _gamma(n: int, route_dd: bool) -> float:
+    """Relative error of one entry of a nonnegative product with inner dimension ``n``."""
+    return (n * n + n + 4) * dd.DD_UNIT if route_dd else n * _U / (1 - n * _U)
 
-    * representation of :math:`tB/2^j` (the shifted diagonal is rounded once):
-      :math:`\epsilon_{in} \approx 2u(\beta + n)`, first order in the entrywise
-      relative perturbation (Xue & Ye 2008);
-    * Taylor sum of nonnegative terms: :math:`\epsilon_0 = (m + n + 4)\gamma`;
-    * each squaring :math:`\epsilon_{i+1} = 2\epsilon_i + \epsilon_i^2 +
-      \gamma_n (1 + \epsilon_i)^2` (Xue & Ye 2013, Theorem 3.2), with
-      :math:`\gamma_n = n u / (1 - n u)` for a nonnegative product in double and
-      :math:`(n^2 + n) u_{dd}` in double-double.
-    """
-    # representation error of t B / 2^j: a perturbation of the data, not amplified
-    return _arithmetic_bound(n, plan, unit) + 2 * unit * (beta + n)
+
+#: relative perturbation of the entries of tB/2^j as formed (per route), and the
+#: absolute error of the shifted diagonal relative to sigma (double-double route only:
+#: on the double route that rounding is part of the first)
+_INPUT_RELATIVE = {False: 2 * _U, True: 8 * dd.DD_UNIT}
+_DIAGONAL_ABSOLUTE = {False: 0.0, True: 8 * dd.DD_UNIT}
 
 
 @lru_cache(maxsize=4096)
-def _arithmetic_bound(n: int, plan: _Plan, unit: float) -> float:
-    """The part of :func:`_rounding_bound` that depends on the plan only."""
+def _arithmetic_bound(n: int, plan: _Plan) -> float:
+    """Rounding bound of the Taylor sum, the shift factor and the squarings of one plan.
+
+    The plan was chosen so that :math:`y = \\beta/2^j \\le` ``plan.ymax`` (:func:`_plan`),
+    which bounds the error of the factor :math:`e^{-\\sigma t/2^j}` (its argument is at
+    most :math:`y`) independently of the member.
+    """
+    from kinetics import _kernels
+
+    route_dd = plan.route == "double-double"
+    unit = dd.DD_UNIT if route_dd else _U
+    gamma = _gamma(n, route_dd)
     m = plan.degree
-    if unit == _U:
-        gamma = n * unit / (1 - n * unit)
-    else:
-        gamma = (n * n + n + 4) * unit
-    # Taylor sum (term k costs k products) and the factor exp(-sigma t / 2^j)
-    eps = (m + 4) * gamma + (m + 8) * unit
+    factor = (8 if route_dd else 4) * unit * (1 + plan.ymax)
+    eps = (m + 4) * gamma + (m + 8) * unit + factor
     for _ in range(plan.j):
-        eps = 2 * eps + eps * eps + gamma * (1 + eps) ** 2
-    return eps
+        eps = _kernels.squared_bound(eps, gamma)
+    return float(eps)
 
 
-def _expm_group(A, t, sigma, plan: _Plan):
-    r"""Exponentials ``exp(t_i A_i)`` for members sharing one plan.
+def _rounding_bound(beta, n: int, plan: _Plan, unit: float | None = None):
+    r"""Componentwise relative bound of one exponential, truncation excluded.
+
+    Everything between the matrix :math:`A` (exact, as the pair ``A + A_low``) and the
+    computed :math:`T_m(Y)^{2^j} e^{-\sigma t}` before the final rounding to double:
+
+    * input: the entries of :math:`Y = tB/2^j` as formed carry a relative error
+      :math:`\delta` (two roundings in double; a few units of :math:`2^{-104}` in
+      double-double, where the diagonal :math:`\sigma - q_i` is formed exactly up to
+      :math:`\eta\sigma`); first order in an entrywise relative perturbation of a
+      nonnegative matrix (Xue & Ye 2008) the exponential moves by at most
+      :math:`2\delta(\beta + n) + \eta\beta`, taken through ``expm1``;
+    * Taylor sum of nonnegative terms and the factor :math:`e^{-\sigma t/2^j}`:
+      :math:`\epsilon_0 = (m + 4)\gamma + (m + 8)u + c\,u (1 + y)` with :math:`y \le` ``plan.ymax``
+      the largest argument of the factor;
+    * each squaring :math:`\epsilon_{i+1} = 2\epsilon_i + \epsilon_i^2 + \gamma (1 +
+      \epsilon_i)^2` (Xue & Ye 2013, Theorem 3.2), with :math:`\gamma = nu/(1 - nu)`
+      for a nonnegative product in double and :math:`(n^2 + n + 4) u_{dd}` in
+      double-double (:func:`_arithmetic_bound`);
+
+    composed as :math:`(1 + \epsilon_{in})(1 + \epsilon_j) - 1`.
+    """
+    route_dd = plan.route == "double-double"
+    delta = _INPUT_RELATIVE[route_dd]
+    eps_in = np.expm1(2 * delta * (np.asarray(beta) + n) + _DIAGONAL_ABSOLUTE[route_dd] * beta)
+    return _compose(eps_in, _arithmetic_bound(n, plan))
+
+
+def _expm_group(A, Al, t, sigma, sigma_lo, plan: _Plan):
+    r"""Exponentials ``exp(t_i (A_i + Al_i))`` for members sharing one plan.
 
     Returns ``(Fh, Fl, trunc)`` (``Fl`` is zero on the double route).  The Taylor
     sum, the factor :math:`e^{-\sigma t/2^j}` and the squarings run in the compiled
     kernels of :mod:`kinetics._kernels`.
 
-    ``trunc`` is the a posteriori componentwise estimate of the Taylor truncation
-    error: with :math:`G = Y^{m+1}/(m+1)!` the remainder satisfies
-    :math:`0 \le e^{Y} - T_m(Y) \le G e^{Y}` entrywise, hence, to first order,
-    :math:`e^{2^j Y} - T_m(Y)^{2^j} \lesssim 2^j G\, T_m(Y)^{2^j}` (in the spirit of
-    Shao, Gao & Xue 2014, sec. 4); the largest ratio of that estimate to the
-    computed entry, per member.
+    ``trunc`` bounds the Taylor truncation entrywise, a posteriori: with
+    :math:`G = Y^{m+1}/(m+1)!` the remainder of nonnegative terms satisfies
+    :math:`0 \le e^{Y} - T_m(Y) \le G e^{Y}`, and since everything commutes,
+    :math:`0 \le e^{2^j Y} - T_m(Y)^{2^j} \le 2^j G e^{2^j Y}`.  With
+    :math:`r = \max (2^j G F)_{ab} / F_{ab}` for the computed :math:`F \approx
+    T_m(Y)^{2^j}`, the error :math:`E \le cF` satisfies :math:`c \le r + rc`, so
+    :math:`c \le r/(1 - r) \le 2r` for :math:`r \le 1/2` (Shao, Gao & Xue 2014, sec. 4,
+    for the estimate; the factor 2 also covers the rounding of :math:`G F`).
     """
     from kinetics import _kernels
 
@@ -323,20 +289,49 @@ def _expm_group(A, t, sigma, plan: _Plan):
         # zero low parts, read-only like the cached ones (one compiled signature for both)
         il = np.zeros_like(ih)
         il.flags.writeable = False
-    A = np.ascontiguousarray(A, dtype=float)
     Fh = np.empty_like(A)
     Fl = np.empty_like(A)
     n = A.shape[-1]
     Y = _kernels.scratch("scaled", A.shape)  # internal to this function
     mats = _kernels.scratch("mats", (6, n, n))  # work matrices of both kernels below
     _kernels.exponentials(
-        A, np.ascontiguousarray(t, dtype=float), np.ascontiguousarray(sigma, dtype=float),
-        plan.j, plan.ps, plan.pr, ih, il, np.bool_(use_dd), Fh, Fl, Y,
-        _kernels.scratch("powers", (2, plan.ps + 1, n, n)), mats,
+        A, Al, np.ascontiguousarray(t, dtype=float), np.ascontiguousarray(sigma, dtype=float),
+        np.ascontiguousarray(sigma_lo, dtype=float), plan.j, plan.ps, plan.pr, ih, il,
+        np.bool_(use_dd), Fh, Fl, Y, _kernels.scratch("powers", (2, plan.ps + 1, n, n)), mats,
     )  # fmt: skip
     m = plan.degree
-    ratio = _kernels.truncation_ratios(Y, Fh, m + 1, math.exp(-math.lgamma(m + 2)), TINY, mats)
-    return Fh, Fl, 2.0 * 2.0**plan.j * ratio
+    ratio = _kernels.truncation_ratios(
+        Y, Fh, m + 1, math.exp(-math.lgamma(m + 2)), TINY, mats, np.bool_(False)
+    )
+    r = 2.0**plan.j * ratio
+    return Fh, Fl, np.where(r <= 0.5, 2.0 * r, np.inf)
+
+
+#: largest Taylor degree a plan prefers (powers of Y beyond it reach the subnormal
+#: range on stiff matrices, where products are slow)
+_DEGREE_MAX = 40
+#: below this size the plan assumes the longest path (n - 1) and a dense matrix
+_PATTERN_FROM = 33
+
+
+def _pattern(A) -> tuple[int | None, float]:
+    """Longest shortest path and density of the union of the patterns of a stack.
+
+    Both only steer the plan (:func:`_plan`); a union of patterns has shorter paths
+    than each member, and the a posteriori truncation check covers a plan that is
+    too optimistic.
+    """
+    N = A.shape[-1]
+    if N < _PATTERN_FROM:
+        return None, 1.0
+    from scipy.sparse.csgraph import shortest_path
+
+    links = (A != 0).any(axis=0)
+    np.fill_diagonal(links, False)
+    distances = shortest_path(scipy.sparse.csr_array(links), unweighted=True)
+    reach = int(distances[np.isfinite(distances)].max(initial=0))
+    density = math.ceil(16 * (links.sum() + N) / N**2) / 16  # rounded up: few plans
+    return reach, density
 
 
 def _distinct(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -347,21 +342,30 @@ def _distinct(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return values, inverse.reshape(-1)
 
 
-def _expm_stack(A, t, precision: str, target: float | None = None):
-    """``exp(t_i A_i)`` for a stack, with per-member route and error bound.
+def _grid_growth(eps: float, gamma: float, columns: int) -> float:
+    """Bound of the last of ``columns`` states ``F^k x``, ``F`` with bound ``eps``."""
+    growth = (columns - 1) * math.log1p(_compose(eps, gamma)) if columns > 1 else 0.0
+    return math.expm1(growth) if growth < 700.0 else math.inf  # guard: no overflow, no nan
 
-    Returns ``(Fh, Fl, bound, is_dd)``; ``bound[i]`` is the componentwise
-    relative bound of ``Fh + Fl`` (before any rounding to double), ``is_dd[i]``
-    tells whether member ``i`` took the double-double route.
+
+def _expm_stack(A, Al, t, precision: str, target: float | None = None, columns: int = 1):
+    """``exp(t_i (A_i + Al_i))`` for a stack, with per-member route and error bound.
+
+    Returns ``(Fh, Fl, bound, is_dd)``; ``bound[i]`` is the componentwise relative
+    bound of ``Fh + Fl`` against the exponential of the exact pair ``A + Al`` (before
+    any rounding to double), ``is_dd[i]`` tells whether member ``i`` took the
+    double-double route.  Under ``precision="auto"`` plain double is taken only where
+    its a priori bound, grown over a grid of ``columns`` states, stays within
+    :data:`AUTO_RTOL`.
     """
     from kinetics import _kernels
 
-    A = np.ascontiguousarray(A, dtype=float)
     b, n, _ = A.shape
     t = np.full(b, t, dtype=float) if np.ndim(t) == 0 else np.array(t, dtype=float)
     sigma = np.empty(b)
+    sigma_lo = np.empty(b)
     beta = np.empty(b)
-    _kernels.shift_and_norm(A, t, sigma, beta)
+    _kernels.shift_and_norm(A, Al, t, sigma, sigma_lo, beta)
     Fh = np.empty_like(A)
     Fl = np.empty_like(A)
     bound = np.empty(b)
@@ -372,12 +376,13 @@ def _expm_stack(A, t, precision: str, target: float | None = None):
         bq = np.where(beta > 0, np.exp2(np.ceil(4.0 * np.log2(beta)) / 4.0), 0.0)
     bq = np.maximum(bq, beta)
     values, which = _distinct(bq)
+    reach, density = _pattern(A)
     if precision == "auto":
-        # plain double where its a priori bound is small enough, else double-double
-        arith = np.array(
-            [_arithmetic_bound(n, _plan(v, n, "double", _U / 2), _U) for v in values.tolist()]
+        # plain double where its a priori bound (over the whole grid) is small enough
+        predicted = np.array(
+            [_predicted_double(v, n, columns, reach, density) for v in values.tolist()]
         )
-        route_dd = arith[which] + 2 * _U * (beta + n) > AUTO_RTOL
+        route_dd = ~(predicted[which] <= AUTO_RTOL)  # guard: a nan bound is not small
     else:
         route_dd = np.full(b, precision == "double-double")
     kinds, inverse = _distinct(2 * which + route_dd)
@@ -388,7 +393,7 @@ def _expm_stack(A, t, precision: str, target: float | None = None):
         v, use_dd = divmod(code, 2)
         route = "double-double" if use_dd else "double"
         tgt = target if target is not None else (2.0**-64 if use_dd else _U / 2)
-        p = _plan(float(values[v]), n, route, tgt)
+        p = _plan(float(values[v]), n, route, tgt, reach=reach, density=density)
         key = (p.route, p.j, p.ps, p.pr)
         groups[key] = np.concatenate([groups[key], sel]) if key in groups else sel
         plans[key] = p
@@ -396,52 +401,32 @@ def _expm_stack(A, t, precision: str, target: float | None = None):
         plan = plans[key]
         # one group holding the whole stack (the usual case) needs no gathering
         idx = slice(None) if members.size == b else np.sort(members)
-        unit = _U if plan.route == "double" else dd.DD_UNIT
         tgt = _U / 2 if plan.route == "double" else 2.0**-64
         for _attempt in range(4):
-            h, lo, trunc = _expm_group(A[idx], t[idx], sigma[idx], plan)
+            h, lo, trunc = _expm_group(A[idx], Al[idx], t[idx], sigma[idx], sigma_lo[idx], plan)
             if (trunc <= tgt).all() or plan.pr > 80:
                 break
-            plan = _Plan(plan.route, plan.j, plan.ps, plan.pr + 2)
+            plan = _Plan(plan.route, plan.j, plan.ps, plan.pr + 2, plan.ymax)
         Fh[idx], Fl[idx] = h, lo
         is_dd[idx] = plan.route == "double-double"
-        bound[idx] = _rounding_bound(beta[idx], n, plan, unit) + trunc
+        rounding = _rounding_bound(beta[idx], n, plan)
+        bound[idx] = rounding + trunc + rounding * trunc
     return Fh, Fl, bound, is_dd
 
 
-def _gamma_mv(n: int, route_dd: bool) -> float:
-    return (n * n + n + 4) * dd.DD_UNIT if route_dd else n * _U / (1 - n * _U)
+@lru_cache(maxsize=4096)
+def _predicted_double(
+    beta: float, n: int, columns: int, reach: int | None = None, density: float = 1.0
+) -> float:
+    """A priori bound of the double route for norm ``beta`` over a grid of ``columns``."""
+    plan = _plan(beta, n, "double", _U / 2, reach=reach, density=density)
+    eps = _compose(float(_rounding_bound(beta, n, plan)), _U)
+    return _compose(_grid_growth(eps, _gamma(n, False), columns), eps)
 
 
 # --------------------------------------------------------------------------
 # public dense exponentials
 # --------------------------------------------------------------------------
-
-
-def _guard_growth(func):
-    """Run ``func`` with overflow silenced, then refuse non-finite results with a clear error.
-
-    A result can only overflow when the scheme grows (a positive eigenvalue of K,
-    e.g. ``A -> 2 A``) for long enough to exceed about 1e308.
-    """
-
-    @functools.wraps(func)
-    def wrapper(*args, **kwargs):
-        with np.errstate(over="ignore", invalid="ignore", under="ignore"):
-            result = func(*args, **kwargs)
-        parts = result if isinstance(result, tuple) else (result,)
-        for part in parts:
-            values = getattr(part, "concentrations", part)
-            if isinstance(values, np.ndarray) and not np.all(np.isfinite(values)):
-                raise GrowthError(
-                    "the concentrations grow beyond the range of double precision (about 1e308)",
-                    "the scheme makes more of a species than it consumes (e.g. A -> 2 A) or "
-                    "feeds it for a very long time; shorten the time window or check the "
-                    "stoichiometry",
-                )
-        return result
-
-    return wrapper
 
 
 def expm_nonnegative(A, t: float = 1.0, *, precision: Precision = "auto") -> np.ndarray:
@@ -484,7 +469,7 @@ def expm_nonnegative(A, t: float = 1.0, *, precision: Precision = "auto") -> np.
     return expm_nonnegative_certified(A, t, precision=precision)[0]
 
 
-@_guard_growth
+@checks.guard_growth
 def expm_nonnegative_certified(
     A, t: float = 1.0, *, precision: Precision = "auto"
 ) -> tuple[np.ndarray, float]:
@@ -499,16 +484,17 @@ def expm_nonnegative_certified(
         worst-case bound; the truncation part is the first-order a posteriori
         estimate of Shao, Gao & Xue (2014).
     """
-    _check_precision(precision)
-    A = _rate_matrix(A, allow_sparse=False)
+    checks.precision(precision)
+    A = checks.rate_matrix(A, allow_sparse=False)
     t = float(t)
     if not (math.isfinite(t) and t >= 0):
         raise UsageError("time must be finite and >= 0")
     n = A.shape[0]
     if t == 0.0 or n == 0:
         return np.eye(n), 0.0
-    Fh, _, bound, _ = _expm_stack(A[None], np.array([t]), precision)
-    return np.maximum(Fh[0], 0.0), float(bound[0] + _U)
+    A = np.ascontiguousarray(A[None])
+    Fh, _, bound, _ = _expm_stack(A, np.zeros_like(A), np.array([t]), precision)
+    return np.maximum(Fh[0], 0.0), float(_compose(bound[0], _U))
 
 
 # --------------------------------------------------------------------------
@@ -565,14 +551,35 @@ def _mv(Fh, Fl, vh, vl, is_dd):
 
 
 def _gamma_stack(N: int, is_dd):
-    return np.where(is_dd, _gamma_mv(N, True), _gamma_mv(N, False))
+    return np.where(is_dd, _gamma(N, True), _gamma(N, False))
 
 
-def _propagate_dense_stack(A, x0, times, precision: str):
-    """Core grid propagation for a stack of (augmented) matrices.
+def _compose(a, b):
+    """Relative bound of a product of two factors with bounds ``a`` and ``b``."""
+    return a + b + a * b
 
-    A: (b, N, N), x0: (b, N).  Returns (X (b, p, N), bound (b, p), route label).
+
+def _propagate_dense_stack(A, Al, x0, times, precision: str, species: int):
+    """Core grid propagation for a stack of (augmented) matrices ``A + Al``.
+
+    A, Al: (b, N, N), x0: (b, N).  Returns (X (b, p, N), bound (b, p), route label);
+    ``bound`` covers everything between the exact pair, the given start values and
+    times, and the returned doubles (the final rounding included); the first
+    ``species`` rows are concentrations (the others a constant feed row).
     """
+    from kinetics import _kernels
+
+    if A.shape[-1] ** 3 < _kernels.BLAS_FROM:
+        return _propagate_dense_stack_run(A, Al, x0, times, precision, species)
+    from threadpoolctl import threadpool_limits
+
+    # the kernels call BLAS for plain-double products of this size; threaded BLAS on
+    # these matrices was 5-40 times slower on two cores (threads wait for each other)
+    with threadpool_limits(limits=1, user_api="blas"):
+        return _propagate_dense_stack_run(A, Al, x0, times, precision, species)
+
+
+def _propagate_dense_stack_run(A, Al, x0, times, precision: str, species: int):
     from kinetics import _kernels
 
     b, N, _ = A.shape
@@ -587,8 +594,8 @@ def _propagate_dense_stack(A, x0, times, precision: str):
     cur_bound = np.zeros(b)
     labels = set()
 
-    def exp_of(h):
-        Fh, Fl, eps, is_dd = _expm_stack(A, np.full(b, h), precision)
+    def exp_of(h, columns=1):
+        Fh, Fl, eps, is_dd = _expm_stack(A, Al, np.full(b, h), precision, columns=columns)
         if np.any(is_dd):
             labels.add("double-double")
         if not np.all(is_dd):
@@ -602,26 +609,28 @@ def _propagate_dense_stack(A, x0, times, precision: str):
         start += 1
     if start == p:
         return X, bound, precision
-    # first nonzero time
-    t_prev = 0.0
+    residual = np.zeros(p)  # times[k] minus the exact time the route reaches
     dt = _uniform_step(times[start:]) if p - start >= 3 else None
     if dt is not None:
         t_first = times[start]
         # a grid dt, 2 dt, ... (the usual linspace from 0) needs one exponential
         skip = 1 if abs(t_first - dt) <= 4 * _U * times[-1] else 0
+        M = p - start - 1 + skip
         if not skip:
             Fh, Fl, eps, is_dd = exp_of(t_first)
             vh, vl = _mv(Fh, Fl, vh, vl, is_dd)
-            cur_bound = cur_bound + eps + _gamma_stack(N, is_dd)
-        Fh, Fl, eps, is_dd = exp_of(dt)
-        M = p - start - 1 + skip
-        # states F^k v for k = 0..M by doubling: V <- [V, F^(2^i) V] (compiled)
-        _kernels.grid_powers(
+            cur_bound = _compose(eps, _gamma_stack(N, is_dd))
+        Fh, Fl, eps, is_dd = exp_of(dt, columns=M + 1)
+        # states F^k v for k = 0..M, one product each (compiled)
+        _kernels.grid_steps(
             Fh, Fl, vh[..., 0].copy(), vl[..., 0].copy(), M + 1, skip, np.asarray(is_dd), X, start
         )
         _kernels.grid_bounds(eps, _gamma_stack(N, is_dd), M + 1, skip, cur_bound, bound, start)
+        _kernels.grid_residuals(times, start, t_first, dt, skip, residual)
     else:
         cache: dict[float, tuple] = {}
+        reached = (0.0, 0.0)  # exact time reached so far, double-double
+        t_prev = 0.0
         for k in range(start, p):
             h = times[k] - t_prev
             if h > 0:
@@ -629,19 +638,36 @@ def _propagate_dense_stack(A, x0, times, precision: str):
                     cache[h] = exp_of(h)
                 Fh, Fl, eps, is_dd = cache[h]
                 vh, vl = _mv(Fh, Fl, vh, vl, is_dd)
-                cur_bound = cur_bound + eps + _gamma_stack(N, is_dd)
+                cur_bound = _compose(cur_bound, _compose(eps, _gamma_stack(N, is_dd)))
+                hi, lo = _kernels.two_sum(reached[0], h)
+                lo += reached[1]
+                reached = (hi + lo, lo - ((hi + lo) - hi))
             np.maximum((vh + vl)[:, :, 0], 0.0, out=X[:, k])
             bound[:, k] = cur_bound
+            residual[k] = (times[k] - reached[0]) - reached[1]
             t_prev = times[k]
-    bound[:, start:] += _U
+    if residual.any():
+        gamma = (N + 2) * _U
+        _kernels.residual_bounds(A, X, residual, species, gamma, TINY, bound)
+    # the final rounding of hi + lo to double
+    bound[:, start:] = _compose(bound[:, start:], _U)
     label = "+".join(sorted(labels)) if labels else precision
     # the grid kernel and the interval loop above clip at zero as they write (a sum
     # hi + lo of nonnegative products can round to -0.0 or a tiny negative lo)
     return X, bound, label
 
 
-@_guard_growth
-def propagate_certified(K, c0, times, feed=None, *, precision: Precision = "auto") -> Propagation:
+@checks.guard_growth
+def propagate_certified(
+    K,
+    c0,
+    times,
+    feed=None,
+    *,
+    precision: Precision = "auto",
+    K_low=None,
+    feed_low=None,
+) -> Propagation:
     r"""Concentrations on a time grid with a componentwise error bound.
 
     .. math::
@@ -661,50 +687,65 @@ def propagate_certified(K, c0, times, feed=None, *, precision: Precision = "auto
         Zero-order feed rates [conc/s], >= 0.
     precision : {"auto", "double", "double-double"}
         Arithmetic of the dense engine (the block route for large schemes is
-        plain double).
+        plain double).  ``"auto"`` takes plain double only where its a priori
+        bound over the whole grid is within :data:`AUTO_RTOL`.
+    K_low, feed_low : array_like, optional
+        Low-order parts of ``K`` and ``feed`` when the exact values are the
+        double-double sums ``K + K_low`` and ``feed + feed_low`` (how
+        :func:`kinetics.solve` passes a scheme, so that a diagonal
+        :math:`-\sum k` is not rounded before the engine sees it).
 
     Returns
     -------
     Propagation
-        ``concentrations`` of shape (p, n) and ``error_bound`` of shape (p,).
+        ``concentrations`` of shape (p, n) and ``error_bound`` of shape (p,):
+        every concentration above 1e-290 at ``times[k]`` is within
+        ``error_bound[k]`` (relative) of the exact solution for the exact inputs
+        (``K + K_low``, ``c0``, ``feed + feed_low`` and the given times).
 
     Notes
     -----
-    A uniform grid is propagated with powers of :math:`e^{K\Delta t}`
-    (:math:`F^{k}v` from :math:`F^{2^i}` by doubling); other grids interval by
-    interval.  All factors are nonnegative, so relative errors add up instead of
-    cancelling.  Time 0 returns ``c0`` exactly.
+    A uniform grid is propagated with one exponential :math:`F = e^{K\Delta t}` and
+    one product :math:`F v` per point; other grids interval by interval.  All factors
+    are nonnegative, so relative errors add up instead of cancelling.  Where the grid
+    reaches a time that differs from the requested one in the last bits, the bound
+    includes the effect of that residual.  Time 0 returns ``c0`` exactly.
 
     References
     ----------
     J. Xue, Q. Ye, Math. Comp. 82, 1577-1596 (2013); M. Shao, W. Gao, J. Xue,
     SIAM J. Matrix Anal. Appl. 35, 317-338 (2014).
     """
-    _check_precision(precision)
-    K = _rate_matrix(K)
+    checks.precision(precision)
+    K = checks.rate_matrix(K)
     n = K.shape[0]
-    c0 = _vector(c0, n, "initial concentrations")
-    times = _times(times)
-    f = None if feed is None else _vector(feed, n, "feed")
+    c0 = checks.vector(c0, n, "initial concentrations")
+    times = checks.times(times)
+    f = None if feed is None else checks.vector(feed, n, "feed")
     from kinetics._blocks import prefers_blocks, propagate_blocks
 
     # route by predicted cost (calibrated model in kinetics._blocks.route_costs)
     if prefers_blocks(K, times, precision):
-        conc, bound = propagate_blocks(K, c0, times, f, floor=TINY)
+        conc, bound = propagate_blocks(K, c0, times, f, K_low=K_low, feed_low=feed_low, floor=TINY)
         return Propagation(times, conc, bound, "blocks")
     if scipy.sparse.issparse(K):
         K = K.toarray()
-    if n > DENSE_MAX and precision == "auto":
-        precision = "double"  # double-double costs too much at this size
+    Kl = checks.low_parts(K_low, (n, n), "K_low")
+    fl = None if f is None else checks.low_parts(feed_low, (n,), "feed_low")
     A = _augment(K[None], None if f is None else f[None])
+    Al = _augment(Kl[None], None if f is None else fl[None])
     x0 = c0 if f is None else np.append(c0, 1.0)
-    X, bound, label = _propagate_dense_stack(A, x0[None], times, precision)
+    X, bound, label = _propagate_dense_stack(
+        np.ascontiguousarray(A), np.ascontiguousarray(Al), x0[None], times, precision, n
+    )
     conc = X[0, :, :n].copy()
     conc[times == 0.0] = c0
     return Propagation(times, conc, bound[0], label)
 
 
-def propagate(K, c0, times, feed=None, *, precision: Precision = "auto") -> np.ndarray:
+def propagate(
+    K, c0, times, feed=None, *, precision: Precision = "auto", K_low=None, feed_low=None
+) -> np.ndarray:
     r"""Concentrations of a first-order scheme at the given times.
 
     .. math::
@@ -725,7 +766,9 @@ def propagate(K, c0, times, feed=None, *, precision: Precision = "auto") -> np.n
     feed : array_like, shape (n,), optional
         Zero-order feed [conc/s], >= 0.
     precision : {"auto", "double", "double-double"}
-        See :func:`expm_nonnegative`.
+        See :func:`propagate_certified`.
+    K_low, feed_low : array_like, optional
+        Low-order parts of double-double inputs (see :func:`propagate_certified`).
 
     Returns
     -------
@@ -756,12 +799,22 @@ def propagate(K, c0, times, feed=None, *, precision: Precision = "auto") -> np.n
     T. J. Dekker, Numer. Math. 18, 224-242 (1971).
     T. Ogita, S. M. Rump, S. Oishi, SIAM J. Sci. Comput. 26, 1955-1988 (2005).
     """
-    return propagate_certified(K, c0, times, feed, precision=precision).concentrations
+    return propagate_certified(
+        K, c0, times, feed, precision=precision, K_low=K_low, feed_low=feed_low
+    ).concentrations
 
 
-@_guard_growth
+@checks.guard_growth
 def propagate_batch(
-    K, c0, times, feed=None, *, precision: Precision = "auto", return_bound: bool = False
+    K,
+    c0,
+    times,
+    feed=None,
+    *,
+    precision: Precision = "auto",
+    return_bound: bool = False,
+    K_low=None,
+    feed_low=None,
 ):
     r"""Concentrations for a stack of parameter sets on one time grid.
 
@@ -784,7 +837,10 @@ def propagate_batch(
         As in :func:`propagate`; for large sweeps ``"double"`` is several
         times faster (error bound then a few 1e-13 or worse on stiff sets).
     return_bound : bool
-        Also return the componentwise bounds, shape (b, p).
+        Also return the componentwise bounds, shape (b, p) (as in
+        :func:`propagate_certified`).
+    K_low, feed_low : array_like, optional
+        Low-order parts of double-double inputs, shapes as ``K`` and ``feed``.
 
     Returns
     -------
@@ -802,7 +858,7 @@ def propagate_batch(
     ----------
     J. Xue, Q. Ye, Math. Comp. 82, 1577-1596 (2013).
     """
-    _check_precision(precision)
+    checks.precision(precision)
     try:
         K = np.array(K, dtype=float)
     except (TypeError, ValueError) as exc:
@@ -810,123 +866,19 @@ def propagate_batch(
     if K.ndim != 3 or K.shape[1] != K.shape[2]:
         raise UsageError(f"a batch of rate matrices must have shape (b, n, n), got {K.shape}")
     b, n, _ = K.shape
-    _check_offdiag(K)
-    c0 = _vector(c0, n, "initial concentrations", (b,))
-    times = _times(times)
-    f = None if feed is None else _vector(feed, n, "feed", (b,))
-    A = _augment(K, f)
+    checks.offdiagonal_nonnegative(K)
+    c0 = checks.vector(c0, n, "initial concentrations", (b,))
+    times = checks.times(times)
+    f = None if feed is None else checks.vector(feed, n, "feed", (b,))
+    Kl = checks.low_parts(K_low, (b, n, n), "K_low")
+    fl = None if f is None else checks.low_parts(feed_low, (b, n), "feed_low")
+    A = np.ascontiguousarray(_augment(K, f))
+    Al = np.ascontiguousarray(_augment(Kl, fl))
     x0 = c0 if f is None else np.concatenate([c0, np.ones((b, 1))], axis=1)
     if b == 0:
         out = np.zeros((0, times.size, n))
         return (out, np.zeros((0, times.size))) if return_bound else out
-    X, bound, _ = _propagate_dense_stack(A, x0, times, precision)
+    X, bound, _ = _propagate_dense_stack(A, Al, x0, times, precision, n)
     conc = X if f is None else X[:, :, :n].copy()
     conc[:, times == 0.0] = c0[:, None, :]
     return (conc, bound) if return_bound else conc
-
-
-# --------------------------------------------------------------------------
-# sensitivities
-# --------------------------------------------------------------------------
-
-
-@_guard_growth
-def sensitivities(
-    K, c0, times, directions, feed=None, *, precision: Precision = "auto"
-) -> np.ndarray:
-    r"""Directional derivatives :math:`\partial c(t)/\partial\theta` along ``dK``.
-
-    For :math:`K(\theta) = K + \theta E` the sensitivity
-    :math:`s = \partial c/\partial\theta` obeys :math:`s' = K s + E c`,
-    :math:`s(0) = 0`, i.e. it is the Frechet derivative of the exponential,
-
-    .. math::
-
-        s(t) = L(tK, tE)\, c_0 + \dots, \qquad
-        \exp\begin{bmatrix} tK & tE \\ 0 & tK \end{bmatrix}
-        = \begin{bmatrix} e^{tK} & L(tK, tE) \\ 0 & e^{tK} \end{bmatrix}.
-
-    ``E`` has both signs (a rate constant appears with ``-1`` on the diagonal),
-    so it is split as :math:`E = E^+ - E^-` with :math:`E^\pm \ge 0` and the
-    nonnegative system of size :math:`3n`
-
-    .. math::
-
-        \frac{d}{dt}\begin{bmatrix} s^+ \\ s^- \\ c \end{bmatrix} =
-        \begin{bmatrix} K & 0 & E^+ \\ 0 & K & E^- \\ 0 & 0 & K \end{bmatrix}
-        \begin{bmatrix} s^+ \\ s^- \\ c \end{bmatrix} +
-        \begin{bmatrix} 0 \\ 0 \\ f \end{bmatrix}
-
-    is propagated with the entrywise engine; :math:`s = s^+ - s^-`.
-
-    Parameters
-    ----------
-    K : array_like, shape (n, n)
-        Rate matrix [1/s].
-    c0 : array_like, shape (n,)
-        Initial concentrations [conc].
-    times : array_like, shape (p,)
-        Times [s].
-    directions : array_like, shape (d, n, n)
-        Direction matrices :math:`E = \partial K/\partial\theta` [1/s per unit of
-        θ], e.g. the derivative of K with respect to one rate constant.
-    feed : array_like, shape (n,), optional
-        Zero-order feed [conc/s].
-    precision : {"auto", "double", "double-double"}
-        As in :func:`propagate`.
-
-    Returns
-    -------
-    ndarray, shape (d, p, n)
-        :math:`\partial c/\partial\theta` [conc per unit of θ].
-
-    Notes
-    -----
-    :math:`s^+` and :math:`s^-` are each accurate entry by entry; their
-    difference carries an absolute error of about the rounding unit times
-    :math:`s^+ + s^-`.  Dense route (the 3n system must stay below a few
-    hundred species).
-
-    References
-    ----------
-    A. H. Al-Mohy, N. J. Higham, "Computing the Frechet derivative of the matrix
-    exponential, with an application to condition number estimation", SIAM J.
-    Matrix Anal. Appl. 30, 1639-1657 (2009) (block form; scipy's
-    ``expm_frechet``, used as a cross-check).
-    C. Van Loan, "Computing integrals involving the matrix exponential", IEEE
-    Trans. Automat. Control 23, 395-404 (1978).
-    """
-    K = _rate_matrix(K, allow_sparse=False)
-    n = K.shape[0]
-    c0 = _vector(c0, n, "initial concentrations")
-    times = _times(times)
-    f = None if feed is None else _vector(feed, n, "feed")
-    try:
-        E = np.array(directions, dtype=float)
-    except (TypeError, ValueError) as exc:
-        raise UsageError(f"directions are not numeric: {exc}") from None
-    if E.ndim == 2:
-        E = E[None]
-    if E.ndim != 3 or E.shape[1:] != (n, n):
-        raise UsageError(f"directions must have shape (d, {n}, {n}), got {E.shape}")
-    if not np.all(np.isfinite(E)):
-        raise UsageError("directions have a non-finite entry")
-    d = E.shape[0]
-    if d == 0:
-        return np.zeros((0, times.size, n))
-    Ep = np.maximum(E, 0.0)
-    Em = np.maximum(-E, 0.0)
-    big = np.zeros((d, 3 * n, 3 * n))
-    big[:, :n, :n] = K
-    big[:, n : 2 * n, n : 2 * n] = K
-    big[:, 2 * n :, 2 * n :] = K
-    big[:, :n, 2 * n :] = Ep
-    big[:, n : 2 * n, 2 * n :] = Em
-    x0 = np.zeros((d, 3 * n))
-    x0[:, 2 * n :] = c0
-    fb = None
-    if f is not None:
-        fb = np.zeros((d, 3 * n))
-        fb[:, 2 * n :] = f
-    X = propagate_batch(big, x0, times, fb, precision=precision)
-    return X[:, :, :n] - X[:, :, n : 2 * n]

@@ -14,6 +14,13 @@ and have no row or column.
 
 The matrix is assembled from a fixed pattern (row, column, coefficient, step)
 times the step rates, so a batch of parameter sets costs one multiply.
+
+The engine receives K as a double-double pair :math:`K_{hi} + K_{lo}`: the step
+rates are the exact values of the constants as written (exact unit conversion,
+exact products with excess concentrations, Arrhenius constants to 40 digits)
+rounded to double-double, and the entries, above all the diagonal
+:math:`-\\sum k`, are summed without rounding.  A diagonal rounded to double would
+act like a small spurious leak (or source) that slow modes feel over long times.
 """
 
 from __future__ import annotations
@@ -26,12 +33,21 @@ from typing import TYPE_CHECKING
 import numpy as np
 import scipy.sparse
 
-from .errors import UsageError
+from . import _doubledouble as dd
+from .errors import UsageError, shown_value
 
 if TYPE_CHECKING:
     from .scheme import Scheme
 
-__all__ = ["RatePattern", "dense_rate_matrix", "rate_pattern", "sparse_rate_matrix", "step_rates"]
+__all__ = [
+    "RatePattern",
+    "dense_rate_matrix",
+    "rate_matrix_pair",
+    "rate_pattern",
+    "sparse_rate_matrix",
+    "step_rate_pairs",
+    "step_rates",
+]
 
 
 @dataclass(frozen=True)
@@ -56,22 +72,61 @@ class RatePattern:
         """Entry values for step rates of shape ``(n_steps,)`` or ``(batch, n_steps)``."""
         return self.coefficients * np.asarray(rates)[..., self.steps]
 
+    def dense_pair(self, rates, rates_low=None) -> tuple[np.ndarray, np.ndarray]:
+        """Dense K as a double-double pair ``(K_hi, K_lo)`` for step rates ``rates + rates_low``.
+
+        Each entry :math:`\\sum_e c_e k_{s(e)}` is formed with error-free products and
+        double-double sums, so ``K_hi`` is the entry rounded once and ``K_lo`` the
+        rest (a few units of :math:`2^{-106}` relative).
+
+        Parameters
+        ----------
+        rates, rates_low : array_like, shape ``(n_steps,)`` or ``(batch, n_steps)``
+            Step rates [1/s] and their low-order parts (zero when not given).
+
+        Returns
+        -------
+        (ndarray, ndarray)
+            Shape ``(n, n)`` or ``(batch, n, n)``.
+        """
+        hi, lo = self._entries(rates, rates_low)
+        Kh, Kl = dd.accumulate(self.rows * self.n + self.cols, hi, lo, self.n * self.n)
+        shape = (*hi.shape[:-1], self.n, self.n)
+        return Kh.reshape(shape), Kl.reshape(shape)
+
     def dense(self, rates: np.ndarray) -> np.ndarray:
         """Dense K of shape ``(n, n)`` or ``(batch, n, n)`` for the given step rates [1/s]."""
-        rates = np.asarray(rates, dtype=float)
-        values = self.values(rates)
-        out = np.zeros((*rates.shape[:-1], self.n, self.n))
-        flat = out.reshape(-1, self.n * self.n)
+        return self.dense_pair(rates)[0]
+
+    def sparse_pair(self, rates, rates_low=None):
+        """K as a pair of CSR matrices with one pattern (see :meth:`dense_pair`)."""
+        hi, lo = self._entries(rates, rates_low)
         linear = self.rows * self.n + self.cols
-        for b, vals in enumerate(values.reshape(-1, values.shape[-1])):
-            np.add.at(flat[b], linear, vals)
-        return out
+        where, inverse = np.unique(linear, return_inverse=True)
+        Kh, Kl = dd.accumulate(inverse.reshape(-1), hi, lo, where.size)
+        rows, cols = np.divmod(where, self.n)
+        shape = (self.n, self.n)
+
+        def csr(values):
+            return scipy.sparse.csr_array(
+                scipy.sparse.coo_array((values, (rows, cols)), shape=shape)
+            )
+
+        return csr(Kh), csr(Kl)
 
     def sparse(self, rates: np.ndarray) -> scipy.sparse.csr_array:
         """Sparse K (CSR, duplicates summed) for one set of step rates [1/s]."""
-        values = self.values(np.asarray(rates, dtype=float))
-        return scipy.sparse.csr_array(
-            scipy.sparse.coo_array((values, (self.rows, self.cols)), shape=(self.n, self.n))
+        return self.sparse_pair(rates)[0]
+
+    def _entries(self, rates, rates_low):
+        rates = np.asarray(rates, dtype=float)
+        low = np.zeros_like(rates) if rates_low is None else np.asarray(rates_low, dtype=float)
+        c = self.coefficients
+        return dd.product(
+            np.broadcast_to(c, rates.shape[:-1] + c.shape),
+            np.zeros(c.shape),
+            rates[..., self.steps],
+            low[..., self.steps],
         )
 
 
@@ -159,13 +214,48 @@ def step_rates(
 
     Notes
     -----
-    Non-integer excess coefficients use floating-point powers (one extra rounding).
+    Non-integer excess coefficients and Arrhenius constants are evaluated to 40
+    decimal digits before the one rounding.
     """
+    return np.array(
+        [_to_float(x) for x in _exact_rates(scheme, constants, temperature, excess)], dtype=float
+    ).reshape(len(scheme.steps))
+
+
+def step_rate_pairs(
+    scheme: Scheme,
+    constants: dict[str, float] | None = None,
+    temperature: float | None = None,
+    excess: dict[str, float] | None = None,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Effective rate constant of each step [1/s] as a double-double pair ``(hi, lo)``.
+
+    The same values as :func:`step_rates` (which returns ``hi``), with the low-order
+    parts that make ``hi + lo`` the exact value of the constants as written to about
+    :math:`2^{-106}` relative (Arrhenius constants to 40 decimal digits).
+
+    Parameters
+    ----------
+    scheme, constants, temperature, excess
+        As in :func:`step_rates`.
+
+    Returns
+    -------
+    (numpy.ndarray, numpy.ndarray)
+        ``hi`` and ``lo``, one entry per step.
+    """
+    pairs = [dd.pair(x) for x in _exact_rates(scheme, constants, temperature, excess)]
+    hi = np.array([p[0] for p in pairs], dtype=float).reshape(len(scheme.steps))
+    lo = np.array([p[1] for p in pairs], dtype=float).reshape(len(scheme.steps))
+    return hi, lo
+
+
+def _exact_rates(scheme: Scheme, constants, temperature, excess) -> list:
+    """The exact effective rate of every step (``Fraction``; ``inf`` on overflow)."""
     constants = constants or {}
     excess = excess or {}
     _check_overrides(scheme, constants, temperature, excess)
     temperature = scheme.temperature if temperature is None else temperature
-    # one exact value per constant, then one float per (constant, co-reactants) pair
     exact: dict[str, Fraction] = {}
     for name, definition in scheme.constants.items():
         if name in constants:
@@ -176,30 +266,28 @@ def step_rates(
                     f"rate constant {name} follows the Arrhenius law and needs a temperature",
                     "give the temperature in kelvin",
                 )
-            exact[name] = Fraction(definition.arrhenius.at(temperature))
+            exact[name] = definition.arrhenius.exact(temperature)
         else:
             exact[name] = definition.value_si
-    cache: dict[tuple, float] = {}
-    plain = {name: _to_float(k) for name, k in exact.items()}  # steps without co-reactants
-    values = []
+    cache: dict[tuple, Fraction | float] = {}
+    values: list = []
     for step in scheme.steps:
         if not step.co_reactants:
-            values.append(plain[step.constant])
+            values.append(exact[step.constant])
             continue
         key = (step.constant, step.co_reactants)
-        value = cache.get(key)
-        if value is None:
-            value = _effective(scheme, exact[step.constant], step.co_reactants, excess)
-            cache[key] = value
-        values.append(value)
-    return np.array(values, dtype=float).reshape(len(scheme.steps))
+        if key not in cache:
+            cache[key] = _effective(scheme, exact[step.constant], step.co_reactants, excess)
+        values.append(cache[key])
+    return values
 
 
-def _effective(scheme: Scheme, k: Fraction, co_reactants, excess) -> float:
-    """k times the excess concentrations to their powers, rounded once (inf on overflow)."""
-    if not co_reactants:
-        return _to_float(k)
-    floating = False
+def _effective(scheme: Scheme, k: Fraction, co_reactants, excess) -> Fraction | float:
+    """k times the excess concentrations to their powers, exactly (``inf`` on overflow).
+
+    Integer powers are exact rationals; other powers are evaluated to 40 decimal
+    digits (:func:`kinetics._doubledouble.decimal_power`).
+    """
     result: Fraction | float = k
     for nu, name in co_reactants:
         if name in excess:
@@ -207,15 +295,17 @@ def _effective(scheme: Scheme, k: Fraction, co_reactants, excess) -> float:
         else:
             w = scheme._excess_si[name]
         nu = Fraction(nu)
-        if nu.denominator == 1 and nu <= 64 and not floating:
+        if nu.denominator == 1 and nu <= 64:
             result = result * w ** int(nu)
         else:
-            floating = True
-            try:
-                result = float(result) * float(w) ** float(nu)
-            except OverflowError:
-                return math.inf
-    return _to_float(result)
+            result = result * dd.decimal_power(w, nu)
+        if result > _HUGE:
+            return math.inf
+    return result
+
+
+#: beyond this an exact product is certainly outside the double range
+_HUGE = Fraction(2) ** 1100
 
 
 def _to_float(value) -> float:
@@ -236,7 +326,7 @@ def _check_overrides(scheme: Scheme, constants, temperature, excess) -> None:
                 "known constants: " + ", ".join(scheme.constants),
             )
         if not (math.isfinite(value) and value >= 0):
-            raise UsageError(f"rate constant {name} = {value!r} must be finite and >= 0")
+            raise UsageError(f"rate constant {name} = {shown_value(value)} must be finite and >= 0")
     for name, value in excess.items():
         if name not in scheme._excess_si:
             raise UsageError(
@@ -244,9 +334,11 @@ def _check_overrides(scheme: Scheme, constants, temperature, excess) -> None:
                 "excess species: " + (", ".join(scheme._excess_si) or "none"),
             )
         if not (math.isfinite(value) and value >= 0):
-            raise UsageError(f"excess concentration {name} = {value!r} must be finite and >= 0")
+            raise UsageError(
+                f"excess concentration {name} = {shown_value(value)} must be finite and >= 0"
+            )
     if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
-        raise UsageError(f"temperature {temperature!r} K must be finite and above 0 K")
+        raise UsageError(f"temperature {shown_value(temperature)} K must be finite and above 0 K")
 
 
 def dense_rate_matrix(scheme: Scheme, rates: np.ndarray | None = None) -> np.ndarray:
@@ -267,6 +359,38 @@ def dense_rate_matrix(scheme: Scheme, rates: np.ndarray | None = None) -> np.nda
     """
     rates = scheme.rates if rates is None else rates
     return rate_pattern(scheme).dense(rates)
+
+
+#: schemes with more species keep their rate matrix sparse
+DENSE_STORAGE_MAX = 200
+
+
+def rate_matrix_pair(scheme: Scheme):
+    """The scheme's rate matrix as a double-double pair ``(K_hi, K_lo)`` [1/s].
+
+    ``K_hi`` is every entry rounded once from the exact sum of the constants as
+    written, ``K_lo`` the rest, so the diagonal :math:`-\\sum k` reaches the engine
+    unrounded.  Read-only dense arrays up to :data:`DENSE_STORAGE_MAX` species, CSR
+    matrices above.
+
+    Examples
+    --------
+    Two outflows of 0.1 and 0.2 1/s: the diagonal is exactly -0.3, which no double is.
+
+    >>> import kinetics
+    >>> s = kinetics.parse("A -> B  k1 = 0.1 1/s\\nA -> C  k2 = 0.2 1/s\\nstart A = 1 M")
+    >>> Kh, Kl = rate_matrix_pair(s)
+    >>> from fractions import Fraction
+    >>> Fraction(Kh[0, 0]) + Fraction(Kl[0, 0]) + Fraction(3, 10) < Fraction(1, 10**32)
+    True
+    """
+    pattern = rate_pattern(scheme)
+    if len(scheme.species) > DENSE_STORAGE_MAX:
+        return pattern.sparse_pair(*scheme.rate_pairs)
+    Kh, Kl = pattern.dense_pair(*scheme.rate_pairs)
+    Kh.setflags(write=False)
+    Kl.setflags(write=False)
+    return Kh, Kl
 
 
 def sparse_rate_matrix(scheme: Scheme, rates: np.ndarray | None = None) -> scipy.sparse.csr_array:

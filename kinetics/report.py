@@ -185,7 +185,13 @@ def _balance_section(scheme: Scheme) -> str:
 
 
 def _summary_section(summary: dict | None, time_unit: str, conc_unit: str) -> str:
-    from .overview import DEFINITIONS, SUMMARY_COLUMNS, summary_header
+    from .overview import (
+        DEFINITIONS,
+        SCHEME_DEFINITIONS,
+        SUMMARY_COLUMNS,
+        scheme_lines,
+        summary_header,
+    )
 
     parts = ["<h2>Summary quantities (exact)</h2>"]
     if not summary:
@@ -228,9 +234,13 @@ def _summary_section(summary: dict | None, time_unit: str, conc_unit: str) -> st
     if notes:
         items = "".join(f"<li>{n}</li>" for n in dict.fromkeys(notes))
         parts.append(f'<ul class="notes">{items}</ul>')
+    lines = scheme_lines(getattr(summary, "scheme", None) or {}, time_unit, conc_unit)
+    if lines:
+        parts.append("<h3>Whole scheme</h3>")
+        parts.append(_table(["quantity", "value"], [[escape(a), escape(b)] for a, b in lines]))
     parts.append('<h3>Definitions</h3><dl class="defs">')
-    for key, _header, _ in SUMMARY_COLUMNS:
-        text = DEFINITIONS.get(key)
+    texts = [DEFINITIONS.get(key) for key, _header, _ in SUMMARY_COLUMNS]
+    for text in [*texts, *SCHEME_DEFINITIONS.values()]:
         if text:
             label, _, rest = text.partition(": ")
             parts.append(f"<dt>{escape(label)}</dt><dd>{escape(rest)}</dd>")

@@ -23,8 +23,8 @@ from functools import cached_property
 
 import numpy as np
 
-from .errors import UsageError
-from .units import GAS_CONSTANT
+from .errors import UsageError, shown_value
+from .units import GAS_CONSTANT_EXACT
 
 __all__ = ["Arrhenius", "RateConstant", "Reaction", "Scheme", "Species", "Step"]
 
@@ -90,15 +90,39 @@ class Arrhenius:
         Returns
         -------
         float
-            :math:`A \\exp(-E_a / R T)` in SI base units [1/s for first order].
+            :math:`A \\exp(-E_a / R T)` in SI base units [1/s for first order],
+            correctly rounded from :meth:`exact`.
+
+        Examples
+        --------
+        Half-life of 1 h at 298.15 K for A = 1e13 1/s needs Ea near 101.7 kJ/mol
+        (k = ln 2 / 3600 s; closed form Ea = R T ln(A/k), checked here by the round trip):
+
+        >>> import math
+        >>> from kinetics.units import GAS_CONSTANT
+        >>> T = 298.15
+        >>> Ea = GAS_CONSTANT * T * math.log(1e13 / (math.log(2) / 3600))
+        >>> a = Arrhenius(Fraction(10**13), Ea)
+        >>> round(math.log(2) / a.at(T), 6)
+        3600.0
         """
+        from . import _doubledouble as dd
+
+        return dd.pair(self.exact(temperature))[0]
+
+    def exact(self, temperature: float) -> Fraction:
+        """:math:`A \\exp(-E_a/RT)` from the given A, Ea and T, to 40 decimal digits.
+
+        The prefactor is the exact SI value of what the file wrote, ``Ea`` and the
+        temperature are taken as the doubles given, and R is the exact CODATA 2018 value
+        (:data:`kinetics.units.GAS_CONSTANT_EXACT`).
+        """
+        from . import _doubledouble as dd
+
         if not temperature > 0:
-            raise UsageError(f"temperature {temperature!r} K must be above 0 K")
-        try:
-            prefactor = float(self.prefactor_si)
-        except OverflowError:
-            prefactor = math.inf
-        return prefactor * math.exp(-self.activation_energy / (GAS_CONSTANT * temperature))
+            raise UsageError(f"temperature {shown_value(temperature)} K must be above 0 K")
+        exponent = -Fraction(self.activation_energy) / (GAS_CONSTANT_EXACT * Fraction(temperature))
+        return self.prefactor_si * dd.decimal_exp(exponent)
 
 
 @dataclass(frozen=True, slots=True)
@@ -172,11 +196,26 @@ class Step:
     direction: str = "forward"
 
     @property
+    def key(self) -> tuple:
+        """What the step does, independent of how it is written and of its constant:
+        reactant, co-reactants and products with their coefficients, each sorted by name.
+        Two steps with one key are parallel (their rates add up)."""
+        return (self.reactant, _merged(self.co_reactants), _merged(self.products))
+
+    @property
     def equation(self) -> str:
         """The step written out, e.g. ``A + W -> B``."""
         left = " + ".join([self.reactant] + [_term(c, n) for c, n in self.co_reactants])
         right = " + ".join(_term(c, n) for c, n in self.products)
         return f"{left} -> {right}"
+
+
+def _merged(terms: tuple[tuple[float, str], ...]) -> tuple[tuple[str, float], ...]:
+    """Terms with one entry per species (``B + B`` is ``2 B``), sorted by name."""
+    total: dict[str, float] = {}
+    for coefficient, name in terms:
+        total[name] = total.get(name, 0.0) + coefficient
+    return tuple(sorted(total.items()))
 
 
 def _term(coefficient: float, name: str) -> str:
@@ -242,7 +281,8 @@ class Scheme:
     temperature : float or None
         [K].
     concentration_unit : str
-        A pint-parsable unit, as the user wrote it.
+        A pint-parsable unit of amounts, as the user wrote it; for a file in mass units
+        its amount twin (``mmol/L`` for ``mg/L``: masses are converted with molar masses).
     title : str
     source : str
         File name, or ``"<text>"``.
@@ -250,6 +290,14 @@ class Scheme:
         The scheme as written.
     allow_imbalance : bool
         True when the file opted out of the atom-balance error (lumped schemes).
+    written_unit : str
+        The unit of the first start value as written (``mg/L``): the unit outputs use
+        unless told otherwise (see :meth:`kinetics.solution.Solution.in_unit`); equal to
+        ``concentration_unit`` for files in amounts.
+    warnings : tuple of str
+        Sentences about probable mistakes that do not stop the file from loading
+        (parallel steps, constants no step uses, nothing to start from), each led by
+        ``file:line:``; the command line prints them on stderr.
     """
 
     species: tuple[Species, ...]
@@ -262,10 +310,12 @@ class Scheme:
     feed: dict[str, float]
     temperature: float | None
     concentration_unit: str
+    written_unit: str = ""
     title: str = ""
     source: str = "<text>"
     text: str = ""
     allow_imbalance: bool = False
+    warnings: tuple[str, ...] = ()
     _excess_si: dict[str, Fraction] = field(default_factory=dict, repr=False)
     _unit_factor: Fraction = field(default=Fraction(1), repr=False)
 
@@ -350,11 +400,36 @@ class Scheme:
         return step_rates(self, constants=constants, temperature=temperature)
 
     @cached_property
+    def rate_pairs(self) -> tuple[np.ndarray, np.ndarray]:
+        """Effective rate constant of every step as a double-double pair ``(hi, lo)`` [1/s].
+
+        ``hi + lo`` is the exact value of the constants as written to about
+        :math:`2^{-106}` (see :func:`kinetics.ratematrix.step_rate_pairs`).
+        """
+        from .ratematrix import step_rate_pairs
+
+        hi, lo = step_rate_pairs(self)
+        hi.setflags(write=False)
+        lo.setflags(write=False)
+        return hi, lo
+
+    @cached_property
     def rates(self) -> np.ndarray:
         """Effective rate constant of every step at the scheme's values [1/s]."""
-        rates = self.step_rates()
-        rates.setflags(write=False)
-        return rates
+        return self.rate_pairs[0]
+
+    @cached_property
+    def _rate_matrix_pair(self) -> tuple:
+        from .ratematrix import rate_matrix_pair
+
+        return rate_matrix_pair(self)
+
+    def rate_matrix_pair(self):
+        """The rate matrix as a double-double pair ``(K_hi, K_lo)`` [1/s], computed once.
+
+        See :func:`kinetics.ratematrix.rate_matrix_pair`.
+        """
+        return self._rate_matrix_pair
 
     def rate_matrix(self) -> np.ndarray:
         """The rate matrix K [1/s], dense, species × species in matrix order.
@@ -415,7 +490,10 @@ class Scheme:
                 )
             exact = _checked_fraction(value, f"rate constant {name}")
             new_constants[name] = replace(
-                new_constants[name], value_si=exact, arrhenius=None, text=f"{value!r} (SI)"
+                new_constants[name],
+                value_si=exact,
+                arrhenius=None,
+                text=f"{shown_value(value)} (SI)",
             )
         new_initial = dict(self.initial)
         for name, value in (initial or {}).items():
@@ -439,7 +517,9 @@ class Scheme:
             )
             new_excess[name] = float(value)
         if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
-            raise UsageError(f"temperature {temperature!r} K must be finite and above 0 K")
+            raise UsageError(
+                f"temperature {shown_value(temperature)} K must be finite and above 0 K"
+            )
         return replace(
             self,
             constants=new_constants,
@@ -454,7 +534,7 @@ def _checked_fraction(value: float, what: str) -> Fraction:
     try:
         number = float(value)
     except (TypeError, ValueError):
-        raise UsageError(f"{what} must be a number, not {value!r}") from None
+        raise UsageError(f"{what} must be a number, not {shown_value(value)}") from None
     if not (math.isfinite(number) and number >= 0):
-        raise UsageError(f"{what} = {value!r} must be finite and >= 0")
+        raise UsageError(f"{what} = {shown_value(value)} must be finite and >= 0")
     return Fraction(number)

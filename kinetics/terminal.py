@@ -15,7 +15,14 @@ if TYPE_CHECKING:
     from .scheme import Scheme
     from .solution import Solution
 
-__all__ = ["console", "progress", "render_check", "render_solution", "render_summary"]
+__all__ = [
+    "console",
+    "print_fitted",
+    "progress",
+    "render_check",
+    "render_solution",
+    "render_summary",
+]
 
 #: Width used when stdout is not a terminal: wide enough never to cut a column.
 PIPE_WIDTH = 10_000
@@ -38,9 +45,16 @@ class _Progress:
     """A progress bar on stderr that appears only if the work lasts over ``delay`` seconds."""
 
     def __init__(self, total: int, description: str, delay: float) -> None:
+        import sys
         import threading
 
-        from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+        from rich.progress import (
+            BarColumn,
+            Progress,
+            TextColumn,
+            TimeElapsedColumn,
+            TimeRemainingColumn,
+        )
 
         self._enabled = console(stderr=True).is_terminal
         self._progress = Progress(
@@ -48,8 +62,12 @@ class _Progress:
             BarColumn(),
             TextColumn("{task.completed}/{task.total}"),
             TimeElapsedColumn(),
+            TimeRemainingColumn(),
             console=Console(stderr=True),
             transient=True,
+            # stdout passes through the bar only when it is the same screen; a table
+            # redirected to a file or a pipe must never be diverted to stderr
+            redirect_stdout=sys.stdout.isatty(),
         )
         self._task = self._progress.add_task(description, total=total)
         self._started = False
@@ -98,8 +116,22 @@ def _num(x, digits: int = 6) -> str:
     return f"{x:.{digits}g}"
 
 
-def render_check(scheme: Scheme, report: dict) -> None:
-    """Print the ``check`` summary: species, steps, balance and structure."""
+def render_check(scheme: Scheme, report: dict, full_tables: bool = False) -> None:
+    """Print the ``check`` summary: species, steps, balance and structure.
+
+    Parameters
+    ----------
+    scheme : Scheme
+    report : dict
+        :func:`kinetics.overview.check_report` of ``scheme``.
+    full_tables : bool, optional
+        Print every table however long.  Otherwise a scheme with more than
+        :data:`CHECK_TABLE_ROWS` species or steps gets an overview: counts of
+        species, roles, steps and components, the balance verdict and every
+        problem found, and where to find the rest (``--full-tables``, ``--json``).
+    """
+    from .overview import CHECK_TABLE_ROWS
+
     out = console()
     title = report["title"] or report["source"]
     out.print(f"[bold]{_escape(title)}[/bold]")
@@ -107,7 +139,30 @@ def render_check(scheme: Scheme, report: dict) -> None:
     if report["temperature_K"] is not None:
         t = report["temperature_K"]
         out.print(f"temperature: {t:.6g} K ({t - 273.15:.6g} °C)")
+    rows = max(len(report["species_details"]), len(report["reactions"]))
+    brief = rows > CHECK_TABLE_ROWS and not full_tables
+    if brief:
+        _print_counts(report, out)
+    else:
+        _print_check_tables(report, out)
+    _render_rate_matrix(report, out)
 
+    if report["feed"]:
+        if brief and len(report["feed"]) > CHECK_TABLE_ROWS:
+            out.print(f"feed: {len(report['feed'])} species fed")
+        else:
+            feeds = ", ".join(f"{_escape(k)} {_num(v)} {unit}/s" for k, v in report["feed"].items())
+            out.print(f"feed: {feeds}")
+    _print_balance(report["balance"], out, brief)
+    if brief:
+        _print_network_counts(report["network"], out)
+    else:
+        _print_network(report["network"], out)
+
+
+def _print_check_tables(report: dict, out: Console) -> None:
+    """The species and steps tables of ``check``, one row each."""
+    unit = report["concentration_unit"]
     table = Table(title="Species (matrix order)", title_justify="left")
     for header in ("species", "role", "formula", "molar mass [g/mol]", f"start [{unit}]"):
         table.add_column(_escape(header))
@@ -135,13 +190,42 @@ def render_check(scheme: Scheme, report: dict) -> None:
             _num(r["k_per_s"], 8),
         )
     out.print(steps)
-    _render_rate_matrix(report, out)
 
-    if report["feed"]:
-        feeds = ", ".join(f"{_escape(k)} {_num(v)} {unit}/s" for k, v in report["feed"].items())
-        out.print(f"feed: {feeds}")
 
-    balance = report["balance"]
+def _print_counts(report: dict, out: Console) -> None:
+    """The overview of a large scheme instead of its tables: counts and ranges."""
+    from collections import Counter
+
+    from .overview import CHECK_TABLE_ROWS
+
+    details, steps = report["species_details"], report["reactions"]
+    out.print(
+        f"[bold]Overview[/bold]: {len(details)} species and {len(steps)} steps; tables are "
+        f"printed for up to {CHECK_TABLE_ROWS} rows (--full-tables prints them all, "
+        "--json gives everything as one object)"
+    )
+    roles = Counter(d["role"] for d in details)
+    out.print("species: " + ", ".join(f"{n} {role}" for role, n in roles.most_common()))
+    with_formula = sum(1 for d in details if d["formula"])
+    with_mass = sum(1 for d in details if d["molar_mass_g_per_mol"] is not None)
+    started = sum(1 for d in details if d["excess"] is None and d["start"])
+    out.print(
+        f"  {started} with a start value, {with_formula} with a formula, "
+        f"{with_mass} with a molar mass"
+    )
+    reactions = len(report["balance"]["reactions"])
+    reverse = sum(1 for r in steps if r["direction"] == "reverse")
+    out.print(
+        f"steps: {len(steps)} from {reactions} reactions ({reverse} reversible), "
+        f"{len(report['constants'])} rate constants"
+    )
+    rates = [r["k_per_s"] for r in steps if r["k_per_s"] is not None]
+    if rates:
+        out.print(f"  k from {_num(min(rates))} to {_num(max(rates))} 1/s")
+
+
+def _print_balance(balance: dict, out: Console, brief: bool = False) -> None:
+    """The balance verdict, every problem it found, and the mass exchanged with excess."""
     if not balance["checked"]:
         verdict = "not checked (no formulas or molar masses given)"
     elif balance["ok"]:
@@ -162,10 +246,23 @@ def render_check(scheme: Scheme, report: dict) -> None:
             out.print(f"  line {r['line']}: {_escape(r['equation'])}: left {left}, right {right}")
     if balance["max_relative_residual"] is not None:
         out.print(f"  largest relative residual of m·K = 0: {balance['max_relative_residual']:.3g}")
-    for step in balance["mass_changing_steps"]:
+    changing = balance["mass_changing_steps"]
+    exchanging = 0
+    for step in changing:
+        if brief and "creates or destroys" not in step["reason"]:
+            exchanging += 1  # not a problem: mass taken from or given to excess species
+            continue
         out.print(f"  {_escape(step['equation'])}: {_escape(step['reason'])}")
+    if exchanging:
+        verb = "step exchanges" if exchanging == 1 else "steps exchange"
+        out.print(
+            f"  {exchanging} {verb} mass with species held in excess "
+            "(listed by --full-tables and --json)"
+        )
 
-    net = report["network"]
+
+def _print_network(net: dict, out: Console) -> None:
+    """Reversible pairs, cycles and components, each listed."""
     if net["reversible_pairs"]:
         out.print(
             "reversible pairs: " + ", ".join(" <=> ".join(p) for p in net["reversible_pairs"])
@@ -180,6 +277,21 @@ def render_check(scheme: Scheme, report: dict) -> None:
             "disconnected sub-schemes: "
             + "; ".join("{" + ", ".join(c) + "}" for c in net["sub_schemes"])
         )
+
+
+def _print_network_counts(net: dict, out: Console) -> None:
+    """Reversible pairs, cycles and components of a large scheme, counted."""
+    if net["reversible_pairs"]:
+        out.print(f"reversible pairs: {len(net['reversible_pairs'])}")
+    if net["cycles"]:
+        out.print(f"cycles: {len(net['cycles'])} (listed by --full-tables and --json)")
+    for key, label in (
+        ("strongly_connected_components", "strongly connected components"),
+        ("sub_schemes", "disconnected sub-schemes"),
+    ):
+        if net[key]:
+            sizes = sorted((len(c) for c in net[key]), reverse=True)
+            out.print(f"{label}: {len(sizes)}, the largest with {sizes[0]} species")
 
 
 def _cell(value) -> str:
@@ -205,20 +317,87 @@ TERMINAL_SUMMARY = (
 )
 
 
+def _width(text: str) -> int:
+    from rich.cells import cell_len
+
+    return cell_len(text)
+
+
+def print_fitted(
+    out: Console, headers: list[str], rows: list[list[str]], left: int = 1, align: str = "left"
+) -> None:
+    """Print a table whose cells are never cut: columns that do not fit the console's width
+    go to a further table below, each part repeating the first ``left`` (label) columns.
+
+    Each column is as wide as its widest cell (headers wrap at spaces); only a column wider
+    than the console on its own folds its text onto further lines, keeping every character.
+
+    Parameters
+    ----------
+    out : rich.console.Console
+    headers : list of str
+        Plain text (escaped here).
+    rows : list of list of str
+        Plain text cells.
+    left : int
+        Label columns, repeated in every part, aligned by ``align``; the others right.
+    align : {"left", "right"}
+    """
+    widths, full = [], []
+    for j, header in enumerate(headers):
+        cells = max((_width(row[j]) for row in rows), default=1)
+        word = max((_width(w) for w in header.split()), default=1)
+        widths.append(max(cells, word, min(_width(header), _HEADER_WIDTH)))
+        full.append(max(cells, _width(header)))
+    if 1 + sum(w + 3 for w in full) <= out.width:
+        widths = full  # everything fits on one line per row, headers too
+    # a column takes its width, one space of padding on each side and one border; the
+    # labels give way (fold) first, so that they and the widest other column fit
+    widest = max(1, out.width - 4)
+    widths = [min(w, widest) for w in widths]
+    other = max((w + 3 for w in widths[left:]), default=0)
+    spare = out.width - 1 - other - 3 * left
+    if left and sum(widths[:left]) > spare:
+        widths[:left] = [max(1, spare // left)] * left
+    cost = [w + 3 for w in widths]
+    budget = out.width - 1 - sum(cost[:left])
+    groups: list[list[int]] = []
+    for j in range(left, len(headers)):
+        if groups and sum(cost[k] for k in groups[-1]) + cost[j] <= budget:
+            groups[-1].append(j)
+        else:
+            groups.append([j])
+    for group in groups or [[]]:
+        table = Table()
+        for j in [*range(left), *group]:
+            table.add_column(
+                _escape(headers[j]),
+                justify=align if j < left else "right",
+                width=widths[j],
+                overflow="fold",
+            )
+        for row in rows:
+            table.add_row(*(_escape(row[j]) for j in [*range(left), *group]))
+        out.print(table)
+
+
+#: Headers up to this width stay on one line when the cells are narrower.
+_HEADER_WIDTH = 14
+
+
 def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> None:
-    """Print the summary quantities as a table with units in every header."""
-    from .overview import SUMMARY_COLUMNS, summary_header
+    """Print the summary quantities as tables with units in every header, then the
+    whole-scheme quantities (relaxation times, selectivity...) of :attr:`Summary.scheme`."""
+    from .overview import SUMMARY_COLUMNS, scheme_lines, summary_header
 
     out = out or console()
     out.print("[bold]Summary[/bold] (on the exact solution, not read off the grid)")
-    table = Table()
-    table.add_column("species")
     columns = [c for c in SUMMARY_COLUMNS if c[0] in TERMINAL_SUMMARY]
-    for column in columns:
-        table.add_column(_escape(summary_header(column, time_unit, conc_unit)), justify="right")
+    headers = ["species"] + [summary_header(c, time_unit, conc_unit) for c in columns]
+    rows = []
     notes = []
     for name, entry in summary.items():
-        cells = [_escape(name)]
+        cells = [str(name)]
         for key, _, _ in columns:
             value = entry.get(key)
             text = _cell(value)
@@ -227,7 +406,7 @@ def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> N
             if key == "limit" and value is None and entry.get("unbounded"):
                 text = "unbounded"
             cells.append(text)
-        table.add_row(*cells)
+        rows.append(cells)
         maxima = entry.get("maxima") or []
         if len(maxima) > 1:
             listed = ", ".join(
@@ -237,9 +416,14 @@ def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> N
             )
             notes.append(f"{name}: local maxima {listed}")
         notes.extend(f"{name}: {note}" for note in entry.get("notes") or [])
-    out.print(table)
+    print_fitted(out, headers, rows)
     for note in dict.fromkeys(notes):
         out.print(f"  note: {_escape(note)}")
+    lines = scheme_lines(getattr(summary, "scheme", None) or {}, time_unit, conc_unit)
+    if lines:
+        out.print("[bold]Whole scheme[/bold]")
+        for label, text in lines:
+            out.print(f"  {_escape(label)}: {_escape(text)}")
 
 
 def render_solution(
@@ -272,7 +456,10 @@ def render_solution(
         hidden = len(solution.species) - max_columns
         species = solution.species[:max_columns]
     if summary:
-        shown = {k: v for k, v in summary.items() if not species or k in species}
+        from .overview import Summary
+
+        kept = {k: v for k, v in summary.items() if not species or k in species}
+        shown = Summary(kept, getattr(summary, "scheme", None))
         render_summary(shown, time_unit, solution.concentration_unit, out)
     frame = solution.to_frame(time_unit)
     if species:
@@ -287,13 +474,9 @@ def render_solution(
     if step > 1:
         title += f": {len(rows)} of {n} points shown (1 in {step}); --out writes them all"
     out.print(f"[bold]{title}")
-    table = Table()
-    for column in frame.columns:
-        table.add_column(_escape(column), justify="right")
     values = frame.to_numpy()
-    for i in rows:
-        table.add_row(*(f"{v:.6g}" for v in values[i]))
-    out.print(table)
+    cells = [[f"{v:.6g}" for v in values[i]] for i in rows]
+    print_fitted(out, [str(c) for c in frame.columns], cells, align="right")
     if hidden:
         out.print(
             f"{hidden} more species not shown; choose columns with --species, "

@@ -18,26 +18,37 @@ Notation accepted on top of everything pint parses:
 from __future__ import annotations
 
 import functools
+import math
 import re
 from dataclasses import dataclass
 from fractions import Fraction
 
 __all__ = [
+    "COMMON_UNITS",
     "GAS_CONSTANT",
     "MAX_EXPONENT",
+    "MAX_UNIT_LENGTH",
+    "OFFSET_TEMPERATURES",
+    "TIME_UNITS",
     "UnitSpec",
     "concentration_order",
     "convert",
     "describe_dimension",
+    "is_mass_ratio",
     "normalise_unit",
+    "parse_duration",
+    "parse_time_list",
     "parse_unit",
+    "parse_unit_by_pint",
     "pint_text",
     "temperature_to_kelvin",
+    "time_factor",
 ]
 
 #: Molar gas constant R [J/(mol K)]: exactly N_A k = 6.02214076e23 * 1.380649e-23
 #: = 8.31446261815324 in the 2019 SI (CODATA 2018; both factors are defined exactly).
-GAS_CONSTANT = 8.31446261815324
+GAS_CONSTANT_EXACT = Fraction("8.31446261815324")
+GAS_CONSTANT = float(GAS_CONSTANT_EXACT)
 
 _SUPERSCRIPTS = str.maketrans("⁰¹²³⁴⁵⁶⁷⁸⁹⁻⁺", "0123456789-+")
 _PIECE = re.compile(r"\(|\)|/|\*|[^\s*/·⋅()]+")
@@ -46,6 +57,11 @@ _BARE_POWER = re.compile(r"^\^?(?P<exp>[-+]?\d+)$")
 _WORD = re.compile(r"^(?:[^\W\d]+|%|\d+)$")
 _GLUED = re.compile(r"(?<=[^\W\d_])(\^?[-+]?\d+)(?=[^\W\d_])")
 _NUMBER = re.compile(r"^[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$")
+
+#: Longest unit accepted [characters].  Units chemists write are short (``L mol-1 s-1``);
+#: a longer one is text run on after the unit, and pint's reading of it grows with the
+#: square of its length.
+MAX_UNIT_LENGTH = 60
 
 #: Largest exponent accepted in a unit (``s-1``, ``m3``, ``M-2`` ...).  Larger ones
 #: are certainly typing mistakes, and exact rational powers of them cost time.
@@ -56,12 +72,158 @@ MAX_EXPONENT = 12
 def registry():
     """Return the package's one pint registry (exact rational magnitudes).
 
-    Created on first use (loading pint's definitions takes a fraction of a
-    second), then shared.
+    Created on first use, then shared.  Importing pint and loading its
+    definitions takes most of a second, so :func:`parse_unit` reads the units
+    of :data:`COMMON_UNITS` without it (the tests check that table against
+    this registry, unit by unit and in combinations).
     """
     import pint
 
     return pint.UnitRegistry(non_int_type=Fraction, autoconvert_offset_to_baseunit=True)
+
+
+_TIME, _LENGTH, _SUBSTANCE, _MASS, _TEMPERATURE = (
+    "[time]",
+    "[length]",
+    "[substance]",
+    "[mass]",
+    "[temperature]",
+)
+_ENERGY = {_MASS: 1, _LENGTH: 2, _TIME: -2}
+_PREFIXES = {"": 1, "k": 1000, "d": Fraction(1, 10), "c": Fraction(1, 100)}
+_PREFIXES |= {"m": Fraction(1, 10**3), "u": Fraction(1, 10**6), "n": Fraction(1, 10**9)}
+_PREFIXES |= {"p": Fraction(1, 10**12)}
+
+
+def _common_units() -> dict[str, tuple[str, Fraction, dict[str, int]]]:
+    """Symbol -> (pint's name, exact factor to SI base units, dimension exponents).
+
+    SI definitions (BIPM, The International System of Units, 9th edition, 2019):
+    1 min = 60 s, 1 h = 3600 s, 1 d = 86400 s, 1 L = 1 dm^3, 1 M = 1 mol/L; the
+    thermochemical calorie is 4.184 J exactly (NIST SP 811, 2008).
+    """
+    # (symbol, pint's name, factor, dimensions, prefixes allowed)
+    bases = [
+        ("s", "second", 1, {_TIME: 1}, "munp"),
+        ("mol", "mole", 1, {_SUBSTANCE: 1}, "kmunp"),
+        ("m", "meter", 1, {_LENGTH: 1}, "dcmun"),
+        ("L", "liter", Fraction(1, 1000), {_LENGTH: 3}, "mud"),
+        ("l", "liter", Fraction(1, 1000), {_LENGTH: 3}, "mud"),
+        ("M", "molar", 1000, {_SUBSTANCE: 1, _LENGTH: -3}, "munp"),
+        ("g", "gram", Fraction(1, 1000), {_MASS: 1}, "kmu"),
+        ("J", "joule", 1, _ENERGY, "k"),
+        ("cal", "calorie", Fraction(4184, 1000), _ENERGY, "k"),
+    ]
+    prefix_names = {"k": "kilo", "d": "deci", "c": "centi", "m": "milli", "u": "micro"}
+    prefix_names |= {"n": "nano", "p": "pico", "": ""}
+    table = {}
+    for symbol, name, factor, dims, prefixes in bases:
+        for prefix in ["", *prefixes]:
+            table[prefix + symbol] = (prefix_names[prefix] + name, factor * _PREFIXES[prefix], dims)
+    plain = [
+        ("sec", "second", 1, {_TIME: 1}),
+        ("second", "second", 1, {_TIME: 1}),
+        ("min", "minute", 60, {_TIME: 1}),
+        ("minute", "minute", 60, {_TIME: 1}),
+        ("h", "hour", 3600, {_TIME: 1}),
+        ("hr", "hour", 3600, {_TIME: 1}),
+        ("hour", "hour", 3600, {_TIME: 1}),
+        ("d", "day", 86400, {_TIME: 1}),
+        ("day", "day", 86400, {_TIME: 1}),
+        ("mole", "mole", 1, {_SUBSTANCE: 1}),
+        ("liter", "liter", Fraction(1, 1000), {_LENGTH: 3}),
+        ("litre", "liter", Fraction(1, 1000), {_LENGTH: 3}),
+        ("K", "kelvin", 1, {_TEMPERATURE: 1}),
+        ("kelvin", "kelvin", 1, {_TEMPERATURE: 1}),
+        ("%", "percent", Fraction(1, 100), {}),
+    ]
+    table |= {symbol: (name, Fraction(f), dims) for symbol, name, f, dims in plain}
+    return {k: (name, Fraction(f), dims) for k, (name, f, dims) in table.items()}
+
+
+#: Units read without pint (see :func:`parse_unit`): symbol -> (pint's name for it,
+#: exact factor to SI base units, dimension exponents).  Every entry, and products
+#: and powers of them, must read exactly as pint reads them (tests/test_units.py).
+COMMON_UNITS = _common_units()
+#: Temperatures with an offset, read without pint: pint syntax -> (scale, offset) with
+#: T/K = (value + offset) * scale.  T/K = t/degC + 273.15 (BIPM, SI brochure, 9th
+#: edition, 2019, 2.3.1); T/K = (t/degF + 459.67) * 5/9 (NIST SP 811, 2008, B.8).
+OFFSET_TEMPERATURES = {
+    "degC": (Fraction(1), Fraction(27315, 100)),
+    "degF": (Fraction(5, 9), Fraction(45967, 100)),
+}
+_TOKEN = re.compile(r"\*\*|[*/()]|[-+]?\d+|[^\W\d]+|%|.")
+_INTEGER = re.compile(r"^[-+]?\d+$")
+
+
+def _quick_unit(normal: str) -> tuple[Fraction, tuple[tuple[str, Fraction], ...]] | None:
+    """Factor and dimensions of a pint-syntax unit made only of :data:`COMMON_UNITS`.
+
+    ``None`` for anything else (another unit, a number other than 1, an
+    exponent beyond the limit that pint's path reports): pint then decides.
+    Operators as pint reads them: ``**`` first, then ``*`` and ``/`` from left
+    to right.
+    """
+    tokens = _TOKEN.findall(normal)
+    parsed = _quick_product(tokens, 0)
+    if parsed is None or parsed[0] != len(tokens):
+        return None
+    _, factor, dims, names = parsed
+    if any(abs(p) > 2 * MAX_EXPONENT for p in names.values()):
+        return None
+    return factor, tuple(sorted((k, Fraction(v)) for k, v in dims.items() if v))
+
+
+#: A partial reading: (next token, factor, dimension exponents, exponent per pint name).
+_Reading = tuple[int, Fraction, dict[str, int], dict[str, int]]
+
+
+def _quick_product(tokens: list[str], at: int) -> _Reading | None:
+    """Read ``power (('*' | '/') power)*`` from ``tokens[at:]``."""
+    result = _quick_power(tokens, at)
+    while result is not None and result[0] < len(tokens) and tokens[result[0]] in ("*", "/"):
+        sign = 1 if tokens[result[0]] == "*" else -1
+        right = _quick_power(tokens, result[0] + 1)
+        if right is None:
+            return None
+        _, factor, dims, names = result
+        factor = factor * right[1] if sign == 1 else factor / right[1]
+        for mine, theirs in ((dims, right[2]), (names, right[3])):
+            for k, v in theirs.items():
+                mine[k] = mine.get(k, 0) + sign * v
+        result = (right[0], factor, dims, names)
+    return result
+
+
+def _quick_power(tokens: list[str], at: int) -> _Reading | None:
+    """Read ``('(' product ')' | '1' | unit) ('**' integer)?`` from ``tokens[at:]``."""
+    if at >= len(tokens):
+        return None
+    token = tokens[at]
+    if token == "(":
+        inner = _quick_product(tokens, at + 1)
+        if inner is None or inner[0] >= len(tokens) or tokens[inner[0]] != ")":
+            return None
+        reading = (inner[0] + 1, *inner[1:])
+    elif token == "1":
+        reading = (at + 1, Fraction(1), {}, {})
+    elif token in COMMON_UNITS:
+        name, factor, dims = COMMON_UNITS[token]
+        reading = (at + 1, factor, dict(dims), {name: 1})
+    else:
+        return None
+    at = reading[0]
+    if at < len(tokens) and tokens[at] == "**":
+        if at + 1 >= len(tokens) or not _INTEGER.match(tokens[at + 1]):
+            return None
+        e = int(tokens[at + 1])
+        reading = (
+            at + 2,
+            reading[1] ** e,
+            {k: v * e for k, v in reading[2].items()},
+            {k: v * e for k, v in reading[3].items()},
+        )
+    return reading
 
 
 def normalise_unit(text: str) -> str:
@@ -184,10 +346,35 @@ def parse_unit(text: str) -> UnitSpec:
     """
     if not text.strip():
         return UnitSpec(text, Fraction(1), ())
-    ureg = registry()
+    if len(text) > MAX_UNIT_LENGTH:
+        raise ValueError(
+            f"a unit has at most {MAX_UNIT_LENGTH} characters; this one has {len(text):,}"
+        )
     normal = normalise_unit(text)
     if _NUMBER.match(normal.strip()):
         raise ValueError(f"{text!r} is a number, not a unit")
+    if normal in OFFSET_TEMPERATURES:
+        return UnitSpec(text, Fraction(1), (("[temperature]", Fraction(1)),), True)
+    quick = _quick_unit(normal)
+    if quick is not None:
+        return UnitSpec(text, quick[0], quick[1], False)
+    return _pint_unit(text, normal)
+
+
+def parse_unit_by_pint(text: str) -> UnitSpec:
+    """:func:`parse_unit` without the table of common units: pint reads every unit.
+
+    The reference that :data:`COMMON_UNITS` is checked against; slower (it
+    builds the registry on first use).
+    """
+    normal = normalise_unit(text)
+    if not text.strip() or _NUMBER.match(normal.strip()):
+        return parse_unit(text)
+    return _pint_unit(text, normal)
+
+
+def _pint_unit(text: str, normal: str) -> UnitSpec:
+    ureg = registry()
     try:
         unit = ureg.parse_units(normal)
     except Exception as exc:  # pint raises several unrelated types
@@ -200,6 +387,34 @@ def parse_unit(text: str) -> UnitSpec:
         return UnitSpec(text, Fraction(1), _dims_tuple(quantity.dimensionality), True)
     base = ureg.Quantity(Fraction(1), unit).to_base_units()
     return UnitSpec(text, Fraction(base.magnitude), _dims_tuple(base.dimensionality), False)
+
+
+@functools.lru_cache(maxsize=256)
+def is_mass_ratio(text: str) -> bool:
+    """True for a mass divided by a mass (``mg/kg``, ``ug/g``, ``mg kg-1``).
+
+    pint reduces such a unit to a pure number; a soil scientist means a mass of
+    substance per mass of soil.  False for units that do not parse.
+
+    Examples
+    --------
+    >>> is_mass_ratio("mg/kg"), is_mass_ratio("%"), is_mass_ratio("mg/L")
+    (True, False, False)
+    """
+    try:
+        if parse_unit(text).dimensions:
+            return False
+        unit = registry().parse_units(normalise_unit(text))
+    except Exception:  # pint raises several unrelated types
+        return False
+    ureg = registry()
+    up: dict = {}
+    down: dict = {}
+    for name, power in unit._units.items():  # pint's unit container: name -> exponent
+        side = up if power > 0 else down
+        for dim, exp in ureg.get_dimensionality(name).items():
+            side[dim] = side.get(dim, 0) + exp * abs(power)
+    return up == {"[mass]": 1} and down == {"[mass]": 1}
 
 
 def pint_text(text: str) -> str:
@@ -221,6 +436,8 @@ def pint_text(text: str) -> str:
     ('mmol/L', 'mmol*L**-1')
     """
     spec = parse_unit(text)
+    if normalise_unit(text) == text.strip():
+        return text.strip()  # exactly the string parse_unit gave pint (or its table)
     try:
         unit = registry().parse_units(text.strip())
         base = registry().Quantity(Fraction(1), unit).to_base_units()
@@ -311,8 +528,18 @@ def temperature_to_kelvin(value: float | Fraction, unit: str) -> float:
     spec = parse_unit(unit)
     if spec.dims != {"[temperature]": 1}:
         raise ValueError(f"{unit!r} is not a temperature unit")
+    if not spec.offset:  # kelvin: T = value * factor, exact
+        return _float_kelvin(Fraction(value) * spec.factor, value, unit)
+    scale_offset = OFFSET_TEMPERATURES.get(normalise_unit(unit))
+    if scale_offset is not None:
+        scale, offset = scale_offset
+        return _float_kelvin((Fraction(value) + offset) * scale, value, unit)
     ureg = registry()
     kelvin = ureg.Quantity(Fraction(value), normalise_unit(unit)).to("kelvin").magnitude
+    return _float_kelvin(kelvin, value, unit)
+
+
+def _float_kelvin(kelvin, value, unit: str) -> float:
     try:
         return float(kelvin)
     except OverflowError:
@@ -382,3 +609,213 @@ def _order_of(key: tuple[tuple[str, Fraction], ...]) -> int | None:
     if rest == {"[substance]": -m, "[length]": 3 * m} or rest == {"[substance]": -m}:
         return int(m)
     return None
+
+
+# ---------------------------------------------------------------------------
+# durations and time units (the one home of the readers of --until, --times and
+# --time-unit, and of the seconds per unit of time)
+
+#: The units of time offered in messages; pint also reads plurals and prefixed seconds.
+TIME_UNITS = (
+    "s, min, h, d, week, month (1/12 year), year (365.25 d; also yr or a), or prefixed "
+    "seconds such as ms and us"
+)
+
+_DURATION = re.compile(
+    r"^\s*(?P<number>[-+]?(?:(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
+    r"|(?:nan|inf(?:inity)?)(?![\w])))\s*(?P<unit>.*)$",
+    re.IGNORECASE | re.DOTALL,
+)
+#: Longest text read as a duration or a time list [characters] (a list of 10,000 times).
+MAX_DURATION_TEXT = 200_000
+
+
+def time_factor(unit: str) -> float:
+    """Seconds per ``unit`` (``"min"`` -> 60.0).
+
+    Parameters
+    ----------
+    unit : str
+        A unit of time in chemists' notation (``s``, ``min``, ``h``, ``d``, ``week``,
+        ``year``...).
+
+    Returns
+    -------
+    float
+        The exact factor to seconds, rounded once [s per unit].
+
+    Raises
+    ------
+    UsageError
+        When ``unit`` is unknown or not a unit of time.
+
+    Examples
+    --------
+    >>> time_factor("h"), time_factor("week")
+    (3600.0, 604800.0)
+    """
+    from .errors import ArgumentTypeError, UsageError, shorten, type_name
+
+    hint = f"use {TIME_UNITS}"
+    if not isinstance(unit, str):
+        raise ArgumentTypeError(
+            f"the time unit must be text such as 'min', not {type_name(unit)}", hint
+        )
+    try:
+        spec = parse_unit(unit)
+    except ValueError:
+        raise UsageError(f"unknown time unit {shorten(unit)!r}", hint) from None
+    if spec.offset or spec.dims != {"[time]": 1}:
+        raise UsageError(f"{shorten(unit)!r} is not a unit of time", hint)
+    return float(spec.factor)
+
+
+def _number_and_unit(text: str):
+    match = _DURATION.match(text)
+    if not match:
+        return None, ""
+    return match["number"], match["unit"].strip()
+
+
+def _finite_value(number: str, quoted: str, example: str) -> float:
+    """``float(number)``, refusing nan and infinities with a message that quotes the user."""
+    from .errors import UsageError
+
+    value = float(number)
+    if math.isnan(value):
+        raise UsageError(f"{quoted} is not a number", example)
+    if math.isinf(value):
+        spelled = number.lstrip("+-")[:1].lower() == "i"
+        reason = "" if spelled else " (beyond the range of double precision, about 1.8e308)"
+        raise UsageError(f"{quoted} is not a finite duration{reason}", example)
+    return value
+
+
+def parse_duration(text: str, option: str = "--until") -> tuple[float, str]:
+    """Read a duration with its unit: ``"90 min"`` -> ``(5400.0, "min")``.
+
+    Parameters
+    ----------
+    text : str
+        A positive, finite number and a unit of time, as typed on the command line.
+    option : str, optional
+        The option the text came from, for messages.
+
+    Returns
+    -------
+    tuple of (float, str)
+        The duration [s] and the unit as written.
+
+    Raises
+    ------
+    UsageError
+        For a missing or unknown unit, a number that is not finite, zero or negative;
+        the message quotes the text as written (in the user's unit).
+
+    Examples
+    --------
+    >>> parse_duration("90 min")
+    (5400.0, 'min')
+    """
+    from .errors import UsageError, shorten
+
+    example = f"write e.g. {option} '90 min'"
+    quoted = f"{option} {shorten(text)!r}"
+    if len(text) > MAX_DURATION_TEXT:
+        raise UsageError(f"{quoted} is too long to be a duration", example)
+    number, unit = _number_and_unit(text)
+    if number is None or not unit:
+        raise UsageError(f"{quoted} is not a duration with a unit", example)
+    value = _finite_value(number, quoted, example)
+    try:
+        factor = time_factor(unit)
+    except UsageError as exc:
+        raise UsageError(f"{quoted}: {exc.problem}", exc.hint) from None
+    if not value > 0:
+        raise UsageError(f"{quoted} is not a positive duration", example)
+    seconds = value * factor
+    if not math.isfinite(seconds):
+        raise UsageError(
+            f"{quoted} is beyond the range of double precision in seconds (about 1.8e308 s)",
+            example,
+        )
+    return seconds, unit
+
+
+def parse_time_list(text: str, option: str = "--times") -> tuple[list[float], str]:
+    """Read a list of times with one unit at the end: ``"0,5,10 min"`` -> seconds and unit.
+
+    Parameters
+    ----------
+    text : str
+        Comma-separated numbers, the unit written once after the last one.
+    option : str, optional
+        The option the text came from, for messages.
+
+    Returns
+    -------
+    tuple of (list of float, str)
+        The times [s], in the order given, and the unit as written.
+
+    Raises
+    ------
+    UsageError
+        For a missing or unknown unit, a piece that is not a finite number, a negative
+        time or times out of order; messages quote the times as written.
+
+    Examples
+    --------
+    >>> parse_time_list("0,5,10 min")
+    ([0.0, 300.0, 600.0], 'min')
+    """
+    from .errors import UsageError, shorten
+
+    example = f"write e.g. {option} '0,5,10,30 min'"
+    quoted = f"{option} {shorten(text)!r}"
+    if len(text) > MAX_DURATION_TEXT:
+        raise UsageError(
+            f"{quoted} is too long (at most {MAX_DURATION_TEXT:,} characters)", example
+        )
+    pieces = [p.strip() for p in text.split(",")]
+    if not pieces[-1]:
+        raise UsageError(f"{quoted} is not a list of times with one unit", example)
+    number, unit = _number_and_unit(pieces[-1])
+    for piece in [*pieces[:-1], number]:
+        if piece == "":
+            raise UsageError(f"{quoted} has an empty item (a comma too many?)", example)
+        if piece is None or _number_and_unit(piece) != (piece, ""):
+            bad = pieces[-1] if piece is None else piece
+            raise UsageError(f"{quoted}: {shorten(bad)!r} is not a number", example)
+    if not unit:
+        raise UsageError(
+            f"{quoted} does not end with a unit of time", example + " (unit once, at the end)"
+        )
+    try:
+        factor = time_factor(unit)
+    except UsageError as exc:
+        raise UsageError(f"{quoted}: {exc.problem}", exc.hint) from None
+    values = []
+    for piece in [*pieces[:-1], number]:
+        value = float(piece)
+        if not math.isfinite(value):
+            raise UsageError(f"{quoted}: {shorten(piece)} {unit} is not a finite time", example)
+        if value < 0:
+            raise UsageError(
+                f"{quoted}: {shorten(piece)} {unit} is negative",
+                "times start at 0 (the start values)",
+            )
+        if values and value < values[-1][0]:
+            raise UsageError(
+                f"{quoted}: the times are not in increasing order ({values[-1][1]} {unit} "
+                f"comes before {shorten(piece)} {unit})",
+                "sort the time list",
+            )
+        values.append((value, shorten(piece)))
+    seconds = [v * factor for v, _ in values]
+    if not math.isfinite(seconds[-1]):
+        raise UsageError(
+            f"{quoted}: {values[-1][1]} {unit} is beyond the range of double precision in "
+            "seconds (about 1.8e308 s)",
+            example,
+        )
+    return seconds, unit

@@ -363,3 +363,28 @@ def test_rounded_grid_times_are_covered_by_the_bound():
         single, single_bound = propagate_blocks(K, c0, t[k : k + 1], None)
         err = worst_relative(X[k : k + 1], single, TINY)
         assert err <= _compose(bound[k], single_bound[0])
+
+
+def test_feed_low_parts_are_honoured_and_bad_low_parts_refused():
+    # two feeds of 0.1 and 0.2 mol/L/s into the first member: their exact sum is no
+    # double; the low part carries the rest
+    n = 230
+    K, _ = rate_matrix(n, [(i, i + 1, 0.5) for i in range(n - 1)])
+    feed = np.zeros(n)
+    exact = Fraction(0.1) + Fraction(0.2)
+    feed[0] = float(exact)
+    feed_low = np.zeros(n)
+    feed_low[0] = float(exact - Fraction(feed[0]))
+    t = np.array([0.0, 2.0, 40.0])
+    X, bound = propagate_blocks(K, np.zeros(n), t, feed, feed_low=feed_low)
+    with mpmath.workdps(50):
+        for k, tk in enumerate(t[1:], start=1):
+            # closed form of a fed first member: A = f (1 - exp(-k t)) / k
+            ref = mpmath.mpf(exact.numerator) / exact.denominator * -mpmath.expm1(-0.5 * tk) / 0.5
+            assert float(abs(mpmath.mpf(float(X[k, 0])) - ref) / ref) <= max(bound[k], 2e-16)
+    from kinetics.errors import UsageError
+
+    with pytest.raises(UsageError, match=r"K_low must have shape \(230, 230\), got \(3, 3\)"):
+        propagate_blocks(K, np.ones(n), t, None, K_low=scipy.sparse.csr_array(np.eye(3)))
+    with pytest.raises(UsageError, match="K_low has a non-finite entry"):
+        propagate_blocks(K, np.ones(n), t, None, K_low=scipy.sparse.diags_array(np.full(n, np.nan)))

@@ -152,3 +152,98 @@ def test_terminal_check_prints_the_rate_matrix_of_a_small_scheme(tmp_path, capsy
     out = capsys.readouterr().out
     assert "Rate matrix K [1/s]" in out
     assert "-0.002" in out
+
+
+# -- large schemes: an overview instead of tables -----------------------------------------
+
+
+def _chain(steps: int, formulas: bool = True) -> str:
+    """A chain S0 -> S1 -> ... of isomers with one reversible step and one with water."""
+    lines = ["title: invented chain", "excess W = 55 mol/L", "S0 <=> S1  kf = 1 1/s, kr = 0.5 1/s"]
+    lines += [f"S{i} -> S{i + 1}  k{i} = {i + 1} 1/min" for i in range(1, steps - 1)]
+    lines.append(f"S{steps - 1} + W -> P  kw = 2e-3 M-1 s-1")
+    lines.append("start S0 = 1 mol/L")
+    if formulas:
+        names = ", ".join(f"S{i} = C4H8O2" for i in range(steps))
+        lines.append(f"formula {names}, W = H2O, P = C4H10O3")
+    return "\n".join(lines) + "\n"
+
+
+def test_scheme_at_the_table_limit_gets_the_tables(tmp_path, capsys):
+    from kinetics.overview import CHECK_TABLE_ROWS
+
+    path = tmp_path / "limit.scheme"
+    path.write_text(_chain(CHECK_TABLE_ROWS - 2), encoding="utf-8")  # 200 steps, 200 species
+    assert main(["check", str(path)]) == 0
+    out = capsys.readouterr().out
+    assert "Species (matrix order)" in out
+    assert "Overview" not in out
+
+
+def test_large_scheme_gets_the_overview(tmp_path, capsys):
+    from kinetics.overview import CHECK_TABLE_ROWS
+
+    path = tmp_path / "large.scheme"
+    path.write_text(_chain(CHECK_TABLE_ROWS + 50), encoding="utf-8")
+    assert main(["check", str(path)]) == 0
+    out = capsys.readouterr().out
+    # counts of the chain as written: S0..S249 and P in the matrix, W held in excess;
+    # residual of S249 + W -> P: (106.12 - 88.106) / 88.106 g/mol (periodictable's masses)
+    assert out.splitlines() == [
+        "invented chain",
+        "Overview: 252 species and 251 steps; tables are printed for up to 200 rows "
+        "(--full-tables prints them all, --json gives everything as one object)",
+        "species: 249 intermediate, 1 starting material, 1 end product, 1 held in excess",
+        "  1 with a start value, 252 with a formula, 252 with a molar mass",
+        "steps: 251 from 250 reactions (1 reversible), 251 rate constants",
+        "  k from 0.0333333 to 4.15 1/s",
+        "rate matrix K: 251 x 251 (shown for up to 12 species; all entries are in check --json)",
+        "mass balance: balanced",
+        "  largest relative residual of m·K = 0: 0.204",
+        "  1 step exchanges mass with species held in excess (listed by --full-tables and --json)",
+        "reversible pairs: 1",
+        "strongly connected components: 1, the largest with 2 species",
+    ]
+
+
+def test_overview_lists_every_problem(tmp_path, capsys):
+    # two unbalanced reactions and one without formulas: each is listed, as in the tables
+    from kinetics.overview import CHECK_TABLE_ROWS
+
+    text = _chain(CHECK_TABLE_ROWS + 50)
+    text = text.replace("S7 -> S8  k7", "S7 -> 2 S8  k7").replace("S9 -> S10  k9", "S9 -> Q  k9")
+    text += "S20 -> S20b  k_odd = 1 1/s\n"  # S20b has no formula
+    path = tmp_path / "problems.scheme"
+    path.write_text(text.replace("S10 = C4H8O2", "S10 = C4H8O2, Q = C2H4O"), encoding="utf-8")
+    assert main(["check", str(path), "--allow-imbalance"]) == 0
+    out = capsys.readouterr().out.splitlines()
+    assert "mass balance: NOT balanced" in out
+    assert "  line 10: S7 -> 2 S8: left C4 H8 O2, right C8 H16 O4" in out
+    assert "  line 12: S9 -> Q: left C4 H8 O2, right C2 H4 O1" in out
+    assert "  line 255: S20 -> S20b: no formula for S20b" in out
+    assert "  S7 -> 2 S8: creates or destroys mass (88.106 g/mol in, 176.212 g/mol out)" in out
+    assert "  S9 -> Q: creates or destroys mass (88.106 g/mol in, 44.053 g/mol out)" in out
+    assert "disconnected sub-schemes: 2, the largest with 242 species" in out
+
+
+def test_full_tables_option_prints_the_tables_of_a_large_scheme(tmp_path, capsys):
+    from kinetics.overview import CHECK_TABLE_ROWS
+
+    path = tmp_path / "large.scheme"
+    path.write_text(_chain(CHECK_TABLE_ROWS + 50), encoding="utf-8")
+    assert main(["check", str(path), "--full-tables"]) == 0
+    out = capsys.readouterr().out
+    assert "Species (matrix order)" in out
+    assert "Overview" not in out
+    assert "│ S249 " in out
+    assert "reversible pairs: S0 <=> S1" in out
+
+
+def test_json_of_a_large_scheme_is_unchanged_by_the_overview(tmp_path, capsys):
+    from kinetics.overview import CHECK_TABLE_ROWS, check_report
+
+    path = tmp_path / "large.scheme"
+    path.write_text(_chain(CHECK_TABLE_ROWS + 50), encoding="utf-8")
+    report = run_json(path, capsys)
+    assert report == json.loads(json.dumps(check_report(kinetics.load(path))))
+    assert len(report["reactions"]) == 251

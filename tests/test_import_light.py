@@ -5,6 +5,9 @@ from __future__ import annotations
 import json
 import subprocess
 import sys
+from pathlib import Path
+
+import pytest
 
 HEAVY = [
     "matplotlib",
@@ -49,3 +52,65 @@ def test_plotting_does_not_use_pyplot():
         "import sys\nassert 'matplotlib.pyplot' not in sys.modules"
     )
     assert "matplotlib" in _loaded_after(code)
+
+
+def _modules_after(code: str, names: list[str]) -> list[str]:
+    probe = (
+        f"{code}\nimport json, sys\n"
+        f"print(json.dumps(sorted(m for m in {names!r} if m in sys.modules)))"
+    )
+    done = subprocess.run(
+        [sys.executable, "-c", probe], capture_output=True, text=True, timeout=120, check=False
+    )
+    assert done.returncode == 0, done.stderr
+    return json.loads(done.stdout.strip().splitlines()[-1])
+
+
+EXAMPLE = str(
+    Path(__file__).resolve().parent.parent / "networks" / "consecutive_intermediate.scheme"
+)
+UNNEEDED = ["pint", "kinetics.fit", "kinetics.sweep", "kinetics.fit_cli", "kinetics.sweep_cli"]
+
+
+def test_check_loads_neither_the_engine_nor_tables_nor_units_registry():
+    code = f"from kinetics.cli import main\nassert main(['check', {EXAMPLE!r}]) == 0"
+    assert _modules_after(code, [*HEAVY, *UNNEEDED, "pandas"]) == []
+
+
+def test_solve_loads_only_what_it_needs():
+    code = (
+        "from kinetics.cli import main\n"
+        f"assert main(['solve', {EXAMPLE!r}, '--until', '2h', '--no-caution']) == 0"
+    )
+    assert _modules_after(code, [*UNNEEDED, "matplotlib", "openpyxl", "pyarrow.parquet"]) == []
+
+
+@pytest.mark.xfail(reason="terminal.render_solution builds a pandas DataFrame (to_frame)")
+def test_solve_in_the_terminal_does_not_load_pandas():
+    # pandas costs about a quarter of the start-up of `solve`; the command line and the
+    # JSON document no longer need it (benchmarks/bench_startup.py measures the start-up)
+    code = (
+        "from kinetics.cli import main\n"
+        f"assert main(['solve', {EXAMPLE!r}, '--until', '2h', '--no-caution']) == 0"
+    )
+    assert _modules_after(code, ["pandas"]) == []
+
+
+def test_lazy_public_names_keep_their_meaning():
+    code = (
+        "import kinetics, kinetics.sweep, kinetics.fit\n"
+        "import inspect\n"
+        "assert inspect.isfunction(kinetics.sweep) and inspect.isfunction(kinetics.fit)\n"
+        "from kinetics import fit, sweep, solve, Scheme, FitResult\n"
+        "assert sweep is kinetics.sweep and fit is kinetics.fit\n"
+        "assert all(hasattr(kinetics, name) for name in kinetics.__all__)\n"
+        "assert kinetics.analysis.__name__ == 'kinetics.analysis'\n"
+    )
+    assert _modules_after(code, []) == []
+
+
+def test_unknown_attribute_is_an_attribute_error():
+    import kinetics
+
+    with pytest.raises(AttributeError, match="module 'kinetics' has no attribute 'nothing'"):
+        kinetics.nothing  # noqa: B018

@@ -8,18 +8,27 @@ Reference values are the SI definitions (BIPM, The International System of Units
 
 from __future__ import annotations
 
+import re
+import subprocess
+import sys
 from fractions import Fraction
 
 import pytest
+from hypothesis import assume, given, settings
+from hypothesis import strategies as st
 
 from kinetics.units import (
+    COMMON_UNITS,
     GAS_CONSTANT,
     MAX_EXPONENT,
+    MAX_UNIT_LENGTH,
     concentration_order,
     convert,
     describe_dimension,
     normalise_unit,
     parse_unit,
+    parse_unit_by_pint,
+    registry,
     temperature_to_kelvin,
 )
 
@@ -202,3 +211,248 @@ def test_pint_text_keeps_what_pint_reads_and_rewrites_the_rest():
     assert pint_text("M") == "M"
     assert pint_text("mmol L-1") == "mmol*L**-1"
     assert pint_text("mol dm-3") == "mol*dm**-3"
+
+
+# -- the table of common units read without pint -----------------------------------------
+
+
+@pytest.mark.parametrize("symbol", sorted(COMMON_UNITS))
+def test_every_common_unit_reads_as_pint_reads_it(symbol):
+    # reference: pint's own definitions file (parse_unit_by_pint builds its registry)
+    assert parse_unit(symbol) == parse_unit_by_pint(symbol)
+    assert parse_unit_by_pint(symbol).factor == COMMON_UNITS[symbol][1]
+
+
+@pytest.mark.parametrize(
+    "unit",
+    [
+        "L mol-1 s-1",
+        "M-1 s-1",
+        "mol/L/min",
+        "(mol/L)-1 s-1",
+        "mol dm-3",
+        "1/min",
+        "h-1",
+        "kJ/mol",
+        "kcal mol-1",
+        "L2 mol-2 s-1",
+        "g/mol",
+        "umol/L/h",
+        "mol/(L*s)",
+        "mol/L*s",
+        "s/1",
+        f"m{MAX_EXPONENT}",
+        "(min^12)^2",
+        "min^12 minute^12 min",  # pint adds the powers of one unit: 25 > 2 * MAX_EXPONENT
+    ],
+)
+def test_combinations_of_common_units_read_as_pint_reads_them(unit):
+    try:
+        expected = parse_unit_by_pint(unit)
+    except ValueError as exc:
+        with pytest.raises(ValueError, match=re.escape(str(exc))):
+            parse_unit.__wrapped__(unit)
+    else:
+        assert parse_unit.__wrapped__(unit) == expected
+
+
+_ATOMS = sorted(k for k in COMMON_UNITS if k != "%")
+
+
+@st.composite
+def _pint_expressions(draw, depth=2):
+    pieces = [draw(st.sampled_from([*_ATOMS, "1"]))]
+    for _ in range(draw(st.integers(0, 3))):
+        pieces.append(draw(st.sampled_from(["*", "/"])))
+        if depth and draw(st.booleans()):
+            pieces.append("(" + draw(_pint_expressions(depth=depth - 1)) + ")")
+        else:
+            pieces.append(draw(st.sampled_from(_ATOMS)))
+        if draw(st.booleans()):
+            pieces.append(f"**{draw(st.integers(-3, 3))}")
+    return "".join(pieces)
+
+
+@settings(max_examples=150, deadline=None)
+@given(_pint_expressions())
+def test_random_products_of_common_units_read_as_pint_reads_them(unit):
+    # reference: pint (an independent reader of the same expression); longer units are
+    # refused before either reader sees them (tested with the language limits)
+    assume(len(unit) <= MAX_UNIT_LENGTH)
+    try:
+        expected = parse_unit_by_pint(unit)
+    except ValueError:
+        with pytest.raises(ValueError):  # noqa: PT011 - both readers refuse it
+            parse_unit.__wrapped__(unit)
+    else:
+        assert parse_unit.__wrapped__(unit) == expected
+
+
+@pytest.mark.parametrize("unit", ["degC", "°C", "degF", "K", "kelvin"])
+@pytest.mark.parametrize("value", [25.0, -40.0, 0.1, Fraction(1, 3), 1e300])
+def test_temperatures_without_pint_agree_with_pint(unit, value):
+    # reference: pint's conversion to kelvin in exact rational arithmetic
+    assert parse_unit(unit) == parse_unit_by_pint(unit)
+    ureg = registry()
+    exact = ureg.Quantity(Fraction(value), normalise_unit(unit)).to("kelvin").magnitude
+    assert temperature_to_kelvin(value, unit) == float(exact)
+
+
+def test_common_units_do_not_load_pint():
+    code = (
+        "import sys\nfrom kinetics.units import parse_unit, pint_text, temperature_to_kelvin\n"
+        "for u in ['1/min', 'min-1', 'M-1 s-1', 'mol/L', 'h', 'kJ/mol', 'degC', 'umol/L/h']:\n"
+        "    parse_unit(u)\n"
+        "pint_text('mol/L')\ntemperature_to_kelvin(45.0, 'degC')\n"
+        "assert 'pint' not in sys.modules"
+    )
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=False)
+    assert done.returncode == 0, done.stderr
+
+
+# ---------------------------------------------------------------------------------------
+# long units, mass ratios, durations and time lists (issue 12)
+
+
+def test_a_unit_longer_than_the_limit_is_refused_before_pint_reads_it():
+    from kinetics.units import MAX_UNIT_LENGTH
+
+    with pytest.raises(ValueError, match="a unit has at most 60 characters; this one has 40,004"):
+        parse_unit("1/s " + "x" * 40_000)
+    assert MAX_UNIT_LENGTH == 60
+
+
+@pytest.mark.parametrize(
+    ("unit", "ratio"),
+    [
+        ("mg/kg", True),
+        ("ug/g", True),
+        ("mg kg-1", True),
+        ("%", False),
+        ("ppm", False),
+        ("mg/L", False),
+        ("mol/kg", False),
+        ("1/s", False),
+        ("nonsense", False),
+    ],
+)
+def test_mass_ratio(unit, ratio):
+    from kinetics.units import is_mass_ratio
+
+    assert is_mass_ratio(unit) is ratio
+
+
+@pytest.mark.parametrize(
+    ("text", "seconds", "unit"),
+    [
+        # SI brochure (9th ed.): min, h, d; a year of 365.25 d and a week of 7 d are
+        # pint's definitions (common practice, no source)
+        ("90 min", 5400.0, "min"),
+        ("2h", 7200.0, "h"),
+        ("2 weeks", 1_209_600.0, "weeks"),
+        ("1 year", 31_557_600.0, "year"),
+        ("5 yr", 157_788_000.0, "yr"),
+        ("1e300 s", 1e300, "s"),
+    ],
+)
+def test_parse_duration(text, seconds, unit):
+    from kinetics.units import parse_duration
+
+    assert parse_duration(text) == (seconds, unit)
+
+
+UNITS_HINT = (
+    "use s, min, h, d, week, month (1/12 year), year (365.25 d; also yr or a), or prefixed "
+    "seconds such as ms and us"
+)
+
+
+@pytest.mark.parametrize(
+    ("text", "message"),
+    [
+        ("-300 min", "--until '-300 min' is not a positive duration; write e.g. --until '90 min'"),
+        ("0 min", "--until '0 min' is not a positive duration; write e.g. --until '90 min'"),
+        ("inf min", "--until 'inf min' is not a finite duration; write e.g. --until '90 min'"),
+        ("nan min", "--until 'nan min' is not a number; write e.g. --until '90 min'"),
+        (
+            "1e999 s",
+            "--until '1e999 s' is not a finite duration (beyond the range of double "
+            "precision, about 1.8e308); write e.g. --until '90 min'",
+        ),
+        (
+            "1e306 year",
+            "--until '1e306 year' is beyond the range of double precision in seconds (about "
+            "1.8e308 s); write e.g. --until '90 min'",
+        ),
+        ("5y", f"--until '5y': unknown time unit 'y'; {UNITS_HINT}"),
+        ("3 furlong", f"--until '3 furlong': 'furlong' is not a unit of time; {UNITS_HINT}"),
+        ("90", "--until '90' is not a duration with a unit; write e.g. --until '90 min'"),
+        (  # quotes are cut at 60 characters
+            "1 " + "s" * 100_000,
+            "--until '1 "
+            + "s" * 58
+            + "… (100,002 characters)': unknown time unit '"
+            + "s" * 60
+            + "… (100,000 characters)'; "
+            + UNITS_HINT,
+        ),
+    ],
+)
+def test_duration_messages_quote_what_was_typed(text, message):
+    from kinetics.errors import UsageError
+    from kinetics.units import parse_duration
+
+    with pytest.raises(UsageError) as info:
+        parse_duration(text)
+    assert str(info.value) == message
+
+
+@pytest.mark.parametrize(
+    ("text", "message"),
+    [
+        ("0,-5 min", "--times '0,-5 min': -5 min is negative; times start at 0 (the start values)"),
+        (
+            "0,inf min",
+            "--times '0,inf min': inf min is not a finite time; write e.g. --times '0,5,10,30 min'",
+        ),
+        (
+            "0,10,5 min",
+            "--times '0,10,5 min': the times are not in increasing order (10 min comes before "
+            "5 min); sort the time list",
+        ),
+        ("a,b min", "--times 'a,b min': 'a' is not a number; write e.g. --times '0,5,10,30 min'"),
+        (
+            "0,,5 min",
+            "--times '0,,5 min' has an empty item (a comma too many?); write e.g. --times "
+            "'0,5,10,30 min'",
+        ),
+        (
+            "0,5,10",
+            "--times '0,5,10' does not end with a unit of time; write e.g. --times "
+            "'0,5,10,30 min' (unit once, at the end)",
+        ),
+    ],
+)
+def test_time_list_messages_quote_the_times_in_their_unit(text, message):
+    from kinetics.errors import UsageError
+    from kinetics.units import parse_time_list
+
+    with pytest.raises(UsageError) as info:
+        parse_time_list(text)
+    assert str(info.value) == message
+
+
+def test_time_list_in_seconds():
+    from kinetics.units import parse_time_list
+
+    assert parse_time_list("0, 5 , 10 min") == ([0.0, 300.0, 600.0], "min")
+
+
+def test_time_factor_lists_the_units_of_time():
+    from kinetics.errors import UsageError
+    from kinetics.units import time_factor
+
+    assert time_factor("week") == 604_800.0
+    with pytest.raises(UsageError) as info:
+        time_factor("y")
+    assert str(info.value) == f"unknown time unit 'y'; {UNITS_HINT}"
