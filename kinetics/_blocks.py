@@ -131,10 +131,11 @@ _TRUNC_REL = 2.0**-40  # a truncation bound above this fraction of an entry is a
 #: the block route's set-up (components, tiles, plans), ``step`` its interpreter
 #: overhead per time step, ``dense`` the number of full products the dense engine
 #: spends per Taylor degree ``sqrt(m)``, squaring and doubling step and ``double``
-#: its cost in plain double relative to double-double (both fitted to its measured
-#: times on random sparse schemes of 100-400 species).
+#: its cost in plain double relative to double-double (both fitted to the measured
+#: times of the engine merged from main on 2 December, on the eight schemes of
+#: ``benchmarks/calibrate_routes.py``).
 RATES = {"dd": 1.3e-9, "blas": 3.0e-11, "gemv": 1.5e-10, "scatter": 5.0e-10,
-         "fixed": 0.015, "step": 2.0e-4, "dense": 0.55, "double": 0.2}  # fmt: skip
+         "fixed": 0.008, "step": 2.0e-4, "dense": 0.21, "double": 0.5}  # fmt: skip
 
 
 def block_order(K) -> tuple[np.ndarray, list[list[int]]]:
