@@ -722,13 +722,14 @@ def propagate_certified(
     c0 = checks.vector(c0, n, "initial concentrations")
     times = checks.times(times)
     f = None if feed is None else checks.vector(feed, n, "feed")
-    if scipy.sparse.issparse(K) and n <= DENSE_DOUBLE_MAX:
-        K = K.toarray()
-    if scipy.sparse.issparse(K) or n > DENSE_DOUBLE_MAX:
-        from kinetics._blocks import propagate_blocks
+    from kinetics._blocks import prefers_blocks, propagate_blocks
 
-        conc, bound = propagate_blocks(K, c0, times, f)
+    # route by predicted cost (calibrated model in kinetics._blocks.route_costs)
+    if prefers_blocks(K, times, precision):
+        conc, bound = propagate_blocks(K, c0, times, f, K_low=K_low, feed_low=feed_low, floor=TINY)
         return Propagation(times, conc, bound, "blocks")
+    if scipy.sparse.issparse(K):
+        K = K.toarray()
     Kl = checks.low_parts(K_low, (n, n), "K_low")
     fl = None if f is None else checks.low_parts(feed_low, (n,), "feed_low")
     A = _augment(K[None], None if f is None else f[None])
