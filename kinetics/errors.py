@@ -28,6 +28,8 @@ __all__ = [
     "SchemeError",
     "SchemeErrors",
     "SchemeFileError",
+    "UnitError",
+    "UnknownUnitError",
     "UsageError",
     "shorten",
     "shown_value",
@@ -219,6 +221,31 @@ class SchemeFileError(KineticsError, OSError):
     def __str__(self) -> str:
         head = f"{self.path}: {self.problem}" if self.path else self.problem
         return f"{head}; {self.hint}" if self.hint else head
+
+
+class UnitError(KineticsError, ValueError):
+    """A unit that cannot be read: a piece that is no unit, an exponent beyond the limit,
+    a number where a unit belongs, or a unit longer than a chemist writes.
+
+    Raised by :func:`kinetics.units.parse_unit` with a message that names the piece;
+    the readers of files turn it into a :class:`SchemeError` with a place and a hint.
+
+    Examples
+    --------
+    >>> isinstance(UnitError("the exponent 99 is too large"), ValueError)
+    True
+    """
+
+
+class UnknownUnitError(UnitError):
+    """A unit whose pieces read well but that no unit of the registry matches
+    (``sec-1``, ``mol/Lt``).
+
+    Examples
+    --------
+    >>> str(UnknownUnitError("unknown unit 'sec-1'"))
+    "unknown unit 'sec-1'"
+    """
 
 
 class _ProblemAndHint(KineticsError):
