@@ -15,10 +15,11 @@ from ..suggest import close_matches
 from .grammar import BAD_ARROW_RE, DIRECTIVE_LIKE, FIRST_WORD, NAME_RE
 from .messages import STATEMENT_EXAMPLES, quoted, unknown_arrow
 from .reactions import ReactionStatement, fast_reaction, read_terms
-from .source import MAX_LINE_LENGTH, Line, raw_lines, unreadable_line
+from .source import CONTROL_RE, MAX_LINE_LENGTH, Line, raw_lines, unreadable_line
 from .statements import (
     BalanceStatement,
     ConstantStatement,
+    KeptList,
     ListStatement,
     TemperatureStatement,
     TitleStatement,
@@ -112,15 +113,14 @@ for a reversible one"
     failed_names: set[str] = set()
     failed_kinds: set[type] = set()
     for number, raw in raw_lines(text):
-        refused = unreadable_line(source, number, raw)
-        if refused is not None:
-            errors.append(refused)
+        if len(raw) > MAX_LINE_LENGTH or CONTROL_RE.search(raw):
+            errors.append(unreadable_line(source, number, raw))
             failed_names.update(NAME_RE.findall(raw[:MAX_LINE_LENGTH]))
             continue
         code = raw.split("#", 1)[0].rstrip() if "#" in raw else raw.rstrip()
         if not code or code.isspace():
             continue
-        line = Line(source, number, raw, code)
+        line = Line(source, number, raw, code, raw.replace("\t", " ") if "\t" in raw else "")
         first = FIRST_WORD.match(code)
         offered = STATEMENT_KINDS
         if first is not None and first.group(1).lower() not in _KEYWORD_STARTS:
@@ -137,9 +137,9 @@ for a reversible one"
                 errors.extend(result)
                 failed_names.update(NAME_RE.findall(code))
                 failed_kinds.add(kind)
-            elif isinstance(result, tuple):  # a statement kept despite some errors
-                statements.append(result[0])
-                errors.extend(result[1])
+            elif isinstance(result, KeptList):  # a statement kept despite some errors
+                statements.append(result.statement)
+                errors.extend(result.errors)
             else:
                 statements.append(result)
             break

@@ -13,12 +13,13 @@ import codecs
 import os
 import re
 from collections.abc import Iterator
-from dataclasses import dataclass, field
 from pathlib import Path
+from typing import NamedTuple
 
 from ..errors import SchemeError, SchemeErrors, SchemeFileError
 
 __all__ = [
+    "CONTROL_RE",
     "MAX_LINE_LENGTH",
     "MAX_SCHEME_BYTES",
     "MAX_SHOWN_LINE",
@@ -51,9 +52,10 @@ TOO_LARGE_HINT = (
 CONTROL_RE = re.compile(r"[\x00-\x08\x0e-\x1f\x7f]")
 
 
-@dataclass(frozen=True, slots=True)
-class Line:
+class Line(NamedTuple):
     """One line of a scheme: where it is, the text as written, and its code.
+
+    An immutable record (a named tuple: one per line of a large file).
 
     Attributes
     ----------
@@ -66,8 +68,10 @@ class Line:
     code : str
         The line without its comment, right-stripped.
     shown : str
-        The line as messages show it: each tab one space, so that the caret under
-        the line stays aligned (made once; a line may have many errors).
+        The line as messages show it, each tab one space so that the caret under the
+        line stays aligned; empty when that is ``text`` itself.  Made once by the
+        reader (a line may have many errors, and they share it):
+        ``text.replace("\t", " ") if "\t" in text else ""``.
 
     Examples
     --------
@@ -82,11 +86,7 @@ class Line:
     number: int
     text: str
     code: str
-    shown: str = field(init=False, repr=False, compare=False)
-
-    def __post_init__(self) -> None:
-        # str.replace returns the line itself when it has no tab: no copy for most lines
-        object.__setattr__(self, "shown", self.text.replace("\t", " "))
+    shown: str = ""
 
     def error(
         self, problem: str, column: int = 0, snippet: str = "", hint: str = ""
@@ -98,7 +98,8 @@ class Line:
         >>> Line("t", 1, "A -> B", "A -> B").error("a problem", 1, "A").headline()
         't:1:1: a problem'
         """
-        return SchemeError(problem, self.source, self.number, column, self.shown, snippet, hint)
+        shown = self.shown or self.text
+        return SchemeError(problem, self.source, self.number, column, shown, snippet, hint)
 
 
 def check_text_size(text: str, source: str) -> None:
@@ -145,8 +146,11 @@ def raw_lines(text: str) -> Iterator[tuple[int, str]]:
     return enumerate(text.split("\n"), start=1)
 
 
-def unreadable_line(source: str, number: int, raw: str) -> SchemeError | None:
-    """The error for a line refused before it is parsed (too long, or not text), or None.
+def unreadable_line(source: str, number: int, raw: str) -> SchemeError:
+    """The error for a line refused before it is parsed: too long, or not text.
+
+    Call it for a line longer than :data:`MAX_LINE_LENGTH` or one that
+    :data:`CONTROL_RE` finds a control character in.
 
     Parameters
     ----------
@@ -159,13 +163,10 @@ def unreadable_line(source: str, number: int, raw: str) -> SchemeError | None:
 
     Returns
     -------
-    SchemeError or None
-        None for a line that may be parsed.
+    SchemeError
 
     Examples
     --------
-    >>> unreadable_line("t", 1, "A -> B  k1 = 1 1/s") is None
-    True
     >>> unreadable_line("t", 2, "A\\x00").headline()
     't:2:2: this line contains the control character U+0000, which a scheme file never \
 holds; save the scheme as plain UTF-8 text (is this a scheme file?)'
@@ -181,8 +182,7 @@ holds; save the scheme as plain UTF-8 text (is this a scheme file?)'
             "write one statement per line (is this a scheme file?)",
         )
     bad = CONTROL_RE.search(raw)
-    if bad is None:
-        return None
+    assert bad is not None  # the line is not too long, so it holds a control character
     return SchemeError(
         f"this line contains the control character U+{ord(bad.group(0)):04X}, which a "
         "scheme file never holds",

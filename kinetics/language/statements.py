@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
-from typing import ClassVar
+from typing import ClassVar, NamedTuple
 
 from ..errors import SchemeError
 from .grammar import (
@@ -35,6 +35,7 @@ __all__ = [
     "ConstantSpec",
     "ConstantStatement",
     "Item",
+    "KeptList",
     "ListStatement",
     "TemperatureStatement",
     "TitleStatement",
@@ -172,9 +173,7 @@ class ListStatement:
     }
 
     @classmethod
-    def from_line(
-        cls, line: Line
-    ) -> ListStatement | tuple[ListStatement, list[SchemeError]] | list[SchemeError] | None:
+    def from_line(cls, line: Line) -> ListStatement | KeptList | list[SchemeError] | None:
         """The statement of ``line``; with errors, the statement that keeps the declared
         names and the errors; only errors; or None when the line lists nothing."""
         code = line.code
@@ -203,7 +202,7 @@ class ListStatement:
         if not errors:
             return cls(kind, tuple(items), line, tuple(declared))
         # keep the names: an excess species with a bad value is still in excess
-        return cls(kind, (), line, tuple(declared)), errors
+        return KeptList(cls(kind, (), line, tuple(declared)), errors)
 
     @classmethod
     def _read_item(
@@ -246,9 +245,20 @@ class ListStatement:
         return Item(name, col0 + 1, value)
 
 
-@dataclass(frozen=True, slots=True)
-class ConstantSpec:
-    """A rate-constant definition: a plain value or Arrhenius parameters.
+class KeptList(NamedTuple):
+    """A list statement kept despite errors in its items, with those errors.
+
+    The statement lists no items but keeps every declared name: a species with
+    a bad excess value is still in excess (no follow-on errors about it).
+    """
+
+    statement: ListStatement
+    errors: list[SchemeError]
+
+
+class ConstantSpec(NamedTuple):
+    """A rate-constant definition: a plain value or Arrhenius parameters (an immutable
+    record, like :class:`~kinetics.language.quantities.Value`).
 
     Examples
     --------
