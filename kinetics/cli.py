@@ -7,6 +7,7 @@ clear message on stderr and no traceback (``--debug`` shows one).
 
 from __future__ import annotations
 
+import contextlib
 import json
 import sys
 from pathlib import Path
@@ -23,6 +24,10 @@ from .units import parse_duration, parse_time_list
 _LAZY_COMMANDS = {"fit": ("kinetics.fit_cli", "fit"), "sweep": ("kinetics.sweep_cli", "sweep")}
 
 
+class PipeClosed(Exception):
+    """stdout was closed by its reader before the output was complete (``| head``)."""
+
+
 class _Group(click.Group):
     """Keeps commands in the order they are defined in ``--help``; loads some on demand."""
 
@@ -36,6 +41,17 @@ class _Group(click.Group):
             module, name = _LAZY_COMMANDS[cmd_name]
             self.add_command(getattr(importlib.import_module(module), name), cmd_name)
         return super().get_command(ctx, cmd_name)
+
+    def invoke(self, ctx):
+        # click and rich would turn a closed pipe into exit status 1, the status of a bug
+        try:
+            return super().invoke(ctx)
+        except BrokenPipeError as exc:
+            raise PipeClosed() from exc
+        except SystemExit as exc:
+            if isinstance(exc.__context__, BrokenPipeError):  # rich's console
+                raise PipeClosed() from exc
+            raise
 
 
 @click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
@@ -113,10 +129,14 @@ def check(scheme_file, as_json, allow_imbalance, full_tables):
       kinetics check networks/reversible_isomerisation.scheme --json
     """
     from .overview import check_report
-    from .terminal import render_check
+    from .terminal import progress, render_check
 
-    scheme = load_scheme(scheme_file, strict_balance=not allow_imbalance)
-    report = check_report(scheme)
+    # a scheme of 100,000s of reactions takes a while: say which phase runs (stderr, terminal)
+    with progress(2, f"reading {scheme_file.name}") as bar:
+        scheme = load_scheme(scheme_file, strict_balance=not allow_imbalance)
+        bar.step("checking the structure")
+        report = check_report(scheme)
+        bar.step()
     if as_json:
         click.echo(json.dumps(report, indent=2, allow_nan=False))
     else:
@@ -306,28 +326,72 @@ def solve(
     species = _species_list(species_text, scheme)
     if species:
         settings["species"] = species
+    _check_sheet_sizes(paths, len(times), scheme)
     _caution(no_caution)
     first_use_note()
-    with progress(2 + len(paths), "solving") as bar:
+    with progress(2, "solving") as bar:
         result, summary = _solve_and_summarise(scheme, times, time_unit, bar, conc_unit)
-        needs_document = as_json or any(p.suffix.lower() in (".json", ".parquet") for p in paths)
-        document = solution_json(result, time_unit, summary, settings) if needs_document else None
-        for path in paths:
-            bar.describe(f"writing {path.name}")
-            _write_output(path, result, scheme, time_unit, summary, document, species)
-            bar.step()
-    for path in paths:
-        click.echo(f"wrote {path}", err=True)
+    needs_document = as_json or any(p.suffix.lower() in (".json", ".parquet") for p in paths)
+    document = solution_json(result, time_unit, summary, settings) if needs_document else None
+    # the result reaches stdout before any file is written: a full disk loses nothing
     if as_json:
-        click.echo(json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False))
+        echo_long(json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False))
     elif not paths:
         render_solution(result, time_unit, summary=summary, species=species)
+    write_outputs(
+        paths,
+        lambda path: _write_output(path, result, scheme, time_unit, summary, document, species),
+    )
+
+
+def echo_long(text: str, piece: int = 1 << 16) -> None:
+    """Print a long text on stdout in pieces (with a newline).
+
+    One write of many megabytes into a pipe whose reader stops early (``| head``)
+    ends without an error and the rest is dropped silently; written in pieces, the
+    next piece meets the closed pipe and the run ends as :func:`main` says.
+    """
+    for start in range(0, len(text), piece):
+        click.echo(text[start : start + piece], nl=False)
+    click.echo()
+
+
+def _check_sheet_sizes(paths, n_times: int, scheme) -> None:
+    """Refuse, before solving, a concentration table larger than a spreadsheet holds."""
+    from .export import check_xlsx_size
+
+    for path in paths:
+        if path.suffix.lower() == ".xlsx":
+            check_xlsx_size(n_times + 1, len(scheme.species_names) + 1, path)
+
+
+def write_outputs(paths, write_one) -> None:
+    """Write each output file with ``write_one(path)`` and say ``wrote PATH`` as each is done.
+
+    When one fails (full disk, interrupt), the error names it and carries a note naming
+    the later files, which were not written either; those already written are complete
+    and stay.
+    """
+    from .terminal import progress
+
+    paths = list(paths)
+    with progress(len(paths), "writing") as bar:
+        for i, path in enumerate(paths):
+            bar.describe(f"writing {path.name}")
+            try:
+                write_one(path)
+            except BaseException as exc:
+                if paths[i + 1 :]:
+                    exc.add_note("also not written: " + ", ".join(map(str, paths[i + 1 :])))
+                raise
+            click.echo(f"wrote {path}", err=True)
+            bar.step()
 
 
 def _write_output(path, result, scheme, time_unit, summary, document, species) -> None:
     """Write one --out file; the format follows the extension (already checked)."""
     from . import export
-    from .overview import inputs_tables, summary_rows
+    from .overview import certificate_rows, inputs_tables, scheme_rows, summary_rows
 
     suffix = path.suffix.lower()
     frame = result.to_frame(time_unit)
@@ -350,8 +414,9 @@ def _write_output(path, result, scheme, time_unit, summary, document, species) -
             frame,
             path,
             summary_rows=rows,
-            inputs=inputs_tables(scheme),
+            inputs={**inputs_tables(scheme), "error bound": certificate_rows(result, time_unit)},
             scheme_text=scheme.text,
+            scheme_rows=scheme_rows(summary, time_unit, result.concentration_unit),
         )
     elif suffix in (".png", ".svg"):
         from .plotting import save_plot
@@ -452,24 +517,102 @@ def safety():
     click.echo(files("kinetics").joinpath("SAFETY.md").read_text(encoding="utf-8"), nl=False)
 
 
+class Stopped(BaseException):
+    """Raised in the main thread when the process gets SIGTERM or SIGHUP.
+
+    A ``BaseException`` (like ``KeyboardInterrupt``), so that every cleanup that
+    runs for an interrupt (temporary files, partial tables) runs for it too.
+    """
+
+    def __init__(self, name: str) -> None:
+        super().__init__(name)
+        self.name = name
+        self.status, self.word = STOP_SIGNALS[name]
+
+
+#: Signals turned into :class:`Stopped`, with the exit status (128 + the signal number,
+#: as a shell reports a process killed by it) and the word said on stderr.
+STOP_SIGNALS = {"SIGTERM": (143, "terminated"), "SIGHUP": (129, "hung up")}
+#: Exit status when stdout is closed before the output is complete (``| head``):
+#: 128 + SIGPIPE, what a shell reports for a program stopped by a closed pipe.
+BROKEN_PIPE = 141
+
+
+@contextlib.contextmanager
+def _signals_stop_the_run():
+    """While running, SIGTERM and SIGHUP raise :class:`Stopped` (signals the parent made
+    the process ignore, as ``nohup`` does for SIGHUP, stay ignored)."""
+    import signal
+    import threading
+
+    if threading.current_thread() is not threading.main_thread():
+        yield
+        return
+    previous = {}
+
+    def stop(signum, frame):
+        for number in previous:  # one stop is enough: later ones must not cut the cleanup
+            signal.signal(number, signal.SIG_IGN)
+        raise Stopped(signal.Signals(signum).name)
+
+    for name in STOP_SIGNALS:
+        number = getattr(signal, name, None)
+        if number is not None and signal.getsignal(number) is not signal.SIG_IGN:
+            previous[number] = signal.signal(number, stop)
+    try:
+        yield
+    finally:
+        for number, handler in previous.items():
+            signal.signal(number, handler)
+
+
+def _silence_stdout() -> None:
+    """Point stdout at the null device, so that flushing it at exit cannot fail again."""
+    import os
+
+    try:
+        fd = sys.stdout.fileno()
+    except (AttributeError, OSError, ValueError):
+        return
+    null = os.open(os.devnull, os.O_WRONLY)
+    os.dup2(null, fd)
+    os.close(null)
+
+
+def _say(exc: BaseException, message: str) -> None:
+    """The error's one line on stderr, then its notes (files written or not)."""
+    click.echo(f"kinetics: {message}", err=True)
+    for note in getattr(exc, "__notes__", ()):
+        click.echo(f"kinetics: {note}", err=True)
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the command line with ``argv`` (default: ``sys.argv[1:]``); return the exit status.
 
-    Exit status: 0 success, 2 a user mistake (one sentence on stderr), 1 an
-    internal error (a bug: one sentence, the traceback only with ``--debug``),
-    130 interrupted.
+    Exit status: 0 success, 2 a user mistake or a file that cannot be read or written
+    (one sentence on stderr), 1 an internal error (a bug: one sentence, the traceback
+    only with ``--debug``), 130 interrupted (Ctrl-C), 143 terminated (SIGTERM), 129 hung
+    up (SIGHUP), 141 stdout closed early (``| head``, nothing said).  An interrupted or
+    stopped run leaves no partial output file.
     """
     args, debug = _split_debug(list(sys.argv[1:] if argv is None else argv))
     try:
-        result = cli.main(args=args, prog_name="kinetics", standalone_mode=False)
+        with _signals_stop_the_run():
+            result = cli.main(args=args, prog_name="kinetics", standalone_mode=False)
     except click.exceptions.Exit as exc:
         return exc.exit_code
-    except (click.exceptions.Abort, KeyboardInterrupt):
-        click.echo("kinetics: interrupted", err=True)
+    except Stopped as exc:
+        _say(exc, exc.word)
+        return exc.status
+    except (click.exceptions.Abort, KeyboardInterrupt) as exc:
+        _say(exc.__cause__ or exc, "interrupted")
         return 130
     except click.exceptions.NoArgsIsHelpError as exc:
         click.echo(exc.format_message(), err=True)
         return 2
+    except PipeClosed:
+        _silence_stdout()
+        return BROKEN_PIPE
     except click.ClickException as exc:
         if debug:
             raise
@@ -480,21 +623,27 @@ def main(argv: list[str] | None = None) -> int:
     except KineticsError as exc:
         if debug:
             raise
-        click.echo(f"kinetics: {exc}", err=True)
+        _say(exc, str(exc))
         return 2
     except OSError as exc:
+        if isinstance(exc, BrokenPipeError):
+            _silence_stdout()
+            return BROKEN_PIPE
         if debug:
             raise
-        where = f" {exc.filename!r}" if exc.filename else ""
-        click.echo(f"kinetics: cannot access{where}: {exc.strerror or exc}", err=True)
+        reason = exc.strerror or str(exc)
+        if exc.filename:
+            _say(exc, f"cannot access {exc.filename!r}: {reason}")
+        else:
+            _say(exc, f"a file operation failed ({reason}); --debug shows which one")
         return 2
     except Exception as exc:
         if debug:
             raise
-        click.echo(
-            f"kinetics: internal error ({type(exc).__name__}: {exc}); "
+        _say(
+            exc,
+            f"internal error ({type(exc).__name__}: {exc}); "
             "this is a bug, please report it with the output of --debug",
-            err=True,
         )
         return 1
     return result if isinstance(result, int) else 0

@@ -22,9 +22,11 @@ import numbers
 
 __all__ = [
     "MAX_SHOWN_ERRORS",
+    "ArgumentTypeError",
     "DataError",
     "GrowthError",
     "KineticsError",
+    "OutputFileError",
     "SchemeError",
     "SchemeErrors",
     "SchemeFileError",
@@ -33,6 +35,7 @@ __all__ = [
     "UsageError",
     "shorten",
     "shown_value",
+    "type_name",
 ]
 
 #: Longest piece of a user's text quoted in a message [characters]; longer pieces are cut.
@@ -84,6 +87,11 @@ def shown_value(value) -> str:
     if isinstance(value, numbers.Real) and not isinstance(value, bool):
         return repr(float(value)) if not isinstance(value, numbers.Integral) else str(int(value))
     return shorten(repr(value))
+
+
+def type_name(value) -> str:
+    """``None`` for None, else the name of the value's type (for messages about arguments)."""
+    return "None" if value is None else type(value).__name__
 
 
 def _window(text: str, column: int, width: int) -> tuple[str, int, int]:
@@ -206,8 +214,8 @@ class SchemeErrors(KineticsError, ValueError):
         return "\n".join(parts)
 
 
-class SchemeFileError(KineticsError, OSError):
-    """A scheme or data file that cannot be read at all (missing, a folder, not UTF-8)."""
+class _FileProblem(KineticsError, OSError):
+    """An error told as ``path: problem; hint`` about a whole file."""
 
     def __init__(self, problem: str, path: str = "", hint: str = "") -> None:
         super().__init__(problem)
@@ -221,6 +229,18 @@ class SchemeFileError(KineticsError, OSError):
     def __str__(self) -> str:
         head = f"{self.path}: {self.problem}" if self.path else self.problem
         return f"{head}; {self.hint}" if self.hint else head
+
+
+class SchemeFileError(_FileProblem):
+    """A scheme or data file that cannot be read at all (missing, a folder, not UTF-8)."""
+
+
+class OutputFileError(_FileProblem):
+    """An output file that cannot be written (full disk, no permission, read-only folder).
+
+    The message names the file the user asked for, never the hidden temporary file it
+    is written through; nothing of it is left behind.
+    """
 
 
 class UnitError(KineticsError, ValueError):
@@ -265,6 +285,14 @@ class _ProblemAndHint(KineticsError):
 
 class UsageError(_ProblemAndHint, ValueError):
     """A wrong argument to a command or to a library function (times, options, names)."""
+
+
+class ArgumentTypeError(_ProblemAndHint, TypeError):
+    """A library function called with an argument of the wrong type.
+
+    For example a file name or ``None`` where a checked scheme is needed, or a
+    single string where a list of names is needed.
+    """
 
 
 class DataError(KineticsError, ValueError):

@@ -194,7 +194,7 @@ def fit(
     for path, sets in runs:
         conditions = dict(parse_condition(text, scheme) for text in sets)
         datasets.append(read_measurements(path, scheme, conditions))
-    from .cli import first_use_note
+    from .cli import echo_long, first_use_note, write_outputs
 
     first_use_note()
     result = run_fit(
@@ -211,19 +211,21 @@ def fit(
         from .overview import CAUTION
 
         click.echo(CAUTION, err=True)
-    for path in paths:
-        if path.suffix.lower() == ".json":
+    # the estimates reach stdout before any file is written: a full disk loses nothing
+    if as_json:
+        echo_long(json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False))
+    else:
+        click.echo(render_fit(result))
+
+    def write_one(path: Path) -> None:
+        if path == plot_path:
+            save_fit_plot(result, path, time_unit)
+        elif path.suffix.lower() == ".json":
             export.write_json(document, path)
         else:
             export.write_csv(result.to_frame(), path)
-        click.echo(f"wrote {path}", err=True)
-    if plot_path is not None:
-        save_fit_plot(result, plot_path, time_unit)
-        click.echo(f"wrote {plot_path}", err=True)
-    if as_json:
-        click.echo(json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False))
-    else:
-        click.echo(render_fit(result))
+
+    write_outputs([*paths, *([plot_path] if plot_path is not None else [])], write_one)
 
 
 def fit_document(result: FitResult, scheme_file=None) -> dict:
@@ -375,7 +377,7 @@ def fit_figure(result: FitResult, time_unit: str | None = None) -> Figure:
         if m.conditions.get("temperature") is not None:
             t = m.conditions["temperature"]
             title += f"  ({t - 273.15:.4g} °C)"
-        top.set_title(title, fontsize=10)
+        top.set_title(title, fontsize=10, parse_math=False)  # a file name, drawn as written
         top.set_ylabel(f"concentration [{conc}]")
         bottom.set_ylabel(f"data − fit [{conc}]")
         bottom.set_xlabel(f"time [{unit}]")

@@ -151,7 +151,7 @@ def sweep_figure(plan, data, column: str, quantity: str):
         ax.errorbar([0], [y], yerr=[[y - lo], [hi - y]], fmt="ko", capsize=6)
         ax.set_xticks([0], ["median, 2.5-97.5 %"])
         ax.set_ylabel(column)
-    ax.set_title(title, fontsize=10)
+    ax.set_title(title, fontsize=10, parse_math=False)  # the user's text, drawn as written
     return fig
 
 
@@ -168,6 +168,64 @@ def _edges(values, spacing: str):
         return np.exp(np.concatenate([[2 * lv[0] - mid[0]], mid, [2 * lv[-1] - mid[-1]]]))
     mid = (v[1:] + v[:-1]) / 2
     return np.concatenate([[2 * v[0] - mid[0]], mid, [2 * v[-1] - mid[-1]]])
+
+
+def _sweep_to_files(plan, paths, curves_file, samples_path, **options):
+    """Run the sweep into its chunk store and tables, with progress; the plot's data."""
+    from .sweep_store import run_sweep
+    from .terminal import progress
+
+    # one bar for both phases: computing the chunks, then writing the tables from them
+    with progress(2 * plan.n_chunks, "sweeping") as bar:
+        last = [0]
+
+        def tick(done, total):
+            for _ in range(done - last[0]):
+                bar.step()
+            last[0] = done
+
+        def writing(done, total):
+            if done == 1:
+                bar.describe("writing tables")
+            bar.step()
+
+        report = run_sweep(
+            plan,
+            paths,
+            curves_path=curves_file,
+            samples_path=samples_path,
+            on_progress=tick,
+            on_writing=writing,
+            **options,
+        )
+    if report.reused:
+        click.echo(
+            f"resumed: {report.reused} of {plan.n_chunks} chunks were already "
+            f"done, computed {report.computed}",
+            err=True,
+        )
+    for p in report.written:
+        click.echo(f"wrote {p}", err=True)
+    return report.plot_data
+
+
+def _sweep_in_memory(plan, engine: str, scheduler: str | None):
+    """Every set's summary row (Monte Carlo: the bands), with progress; nothing on disk."""
+    import pandas as pd
+
+    from .sweep import percentile_bands, run_chunks, summary_frame
+    from .terminal import progress
+
+    results = {}
+    with progress(plan.n_chunks, "sweeping") as bar:
+
+        def finished(result):
+            results[result.index] = result
+            bar.step()
+
+        run_chunks(plan, range(plan.n_chunks), finished, engine=engine, scheduler=scheduler)
+    table = pd.concat([summary_frame(plan, results[k]) for k in range(plan.n_chunks)])
+    return percentile_bands(plan, table) if plan.samples else table
 
 
 def _print_table(frame) -> None:
@@ -361,7 +419,6 @@ def sweep(
     from .export import check_output_path, check_output_paths
     from .overview import CAUTION
     from .sweep import make_plan
-    from .sweep import sweep as sweep_table
 
     times, time_unit, _ = _prepare(until, points, times_text, time_unit)
     if scheduler is not None and engine != "dask":
@@ -423,61 +480,32 @@ def sweep(
 
     first_use_note(sweeps=True)
 
-    from .terminal import progress
-
-    plot_data = None
-    with progress(plan.n_chunks, "sweeping") as bar:
-        if paths or samples_path or curves_file:
+    if paths or samples_path or curves_file:
+        columns = []
+        if plot_column is not None:
             from .sweep import _band_label
-            from .sweep_store import run_sweep
 
-            columns = []
-            if plot_column is not None:
-                columns = list(plan.grid_columns)
-                if plan.samples:
-                    columns += [_band_label(plot_column, p) for p in (2.5, 50.0, 97.5)]
-                else:
-                    columns.append(plot_column)
-            state = {"last": 0}
-
-            def tick(done, total):
-                for _ in range(done - state["last"]):
-                    bar.step()
-                state["last"] = done
-
-            report = run_sweep(
-                plan,
-                paths,
-                curves_path=curves_file,
-                samples_path=samples_path,
-                resume=resume,
-                keep_chunks=keep_chunks,
-                engine=engine,
-                scheduler=scheduler,
-                workers=workers,
-                plot_columns=columns,
-                on_progress=tick,
-            )
-            if report.reused:
-                click.echo(
-                    f"resumed: {report.reused} of {plan.n_chunks} chunks were already "
-                    f"done, computed {report.computed}",
-                    err=True,
-                )
-            for p in report.written:
-                click.echo(f"wrote {p}", err=True)
-            plot_data = report.plot_data
-        else:
-            if engine == "dask":
-                table = sweep_table(scheme, plan, engine="dask", scheduler=scheduler)
-            else:
-                table = sweep_table(scheme, plan)
+            columns = list(plan.grid_columns)
             if plan.samples:
-                from .sweep import percentile_bands
-
-                table = percentile_bands(plan, table)
-            _print_table(table)
-            plot_data = table
+                columns += [_band_label(plot_column, p) for p in (2.5, 50.0, 97.5)]
+            else:
+                columns.append(plot_column)
+        plot_data = _sweep_to_files(
+            plan,
+            paths,
+            curves_file,
+            samples_path,
+            resume=resume,
+            keep_chunks=keep_chunks,
+            engine=engine,
+            scheduler=scheduler,
+            workers=workers,
+            plot_columns=columns,
+        )
+    else:
+        table = _sweep_in_memory(plan, engine, scheduler)
+        _print_table(table)  # after the progress bar: stdout stays out of its way
+        plot_data = table
     if plot_column is not None:
         from .plotting import save_figure
 

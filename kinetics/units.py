@@ -659,9 +659,13 @@ def time_factor(unit: str) -> float:
     >>> time_factor("h"), time_factor("week")
     (3600.0, 604800.0)
     """
-    from .errors import UsageError, shorten
+    from .errors import ArgumentTypeError, UsageError, shorten, type_name
 
     hint = f"use {TIME_UNITS}"
+    if not isinstance(unit, str):
+        raise ArgumentTypeError(
+            f"the time unit must be text such as 'min', not {type_name(unit)}", hint
+        )
     try:
         spec = parse_unit(unit)
     except ValueError:

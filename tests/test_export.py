@@ -163,7 +163,7 @@ def test_xlsx_round_trip_of_awkward_doubles(tmp_path):
     export.write_xlsx(frame, tmp_path / "odd.xlsx")
     rows = list(load_workbook(tmp_path / "odd.xlsx")["concentrations"].iter_rows(values_only=True))
     assert [r[1] for r in rows[1:]] == values
-    # the number formatter of openpyxl is restored after the save
+    # exact numbers without patching openpyxl's private cell writer
     from openpyxl.cell import _writer
     from openpyxl.compat import safe_string
 
