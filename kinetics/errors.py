@@ -43,6 +43,8 @@ __all__ = [
     "SpeciesError",
     "TableSizeError",
     "TimesError",
+    "UnitError",
+    "UnknownUnitError",
     "UsageError",
     "WorkingRangeError",
     "shorten",
@@ -252,6 +254,31 @@ class OutputFileError(_FileProblem):
 
     The message names the file the user asked for, never the hidden temporary file it
     is written through; nothing of it is left behind.
+    """
+
+
+class UnitError(KineticsError, ValueError):
+    """A unit that cannot be read: a piece that is no unit, an exponent beyond the limit,
+    a number where a unit belongs, or a unit longer than a chemist writes.
+
+    Raised by :func:`kinetics.units.parse_unit` with a message that names the piece;
+    the readers of files turn it into a :class:`SchemeError` with a place and a hint.
+
+    Examples
+    --------
+    >>> isinstance(UnitError("the exponent 99 is too large"), ValueError)
+    True
+    """
+
+
+class UnknownUnitError(UnitError):
+    """A unit whose pieces read well but that no unit of the registry matches
+    (``sec-1``, ``mol/Lt``).
+
+    Examples
+    --------
+    >>> str(UnknownUnitError("unknown unit 'sec-1'"))
+    "unknown unit 'sec-1'"
     """
 
 

@@ -70,7 +70,6 @@ from kinetics import checks
 from kinetics.errors import UsageError
 
 __all__ = [
-    "DENSE_DOUBLE_MAX",
     "DENSE_MAX",
     "Propagation",
     "expm_nonnegative",
@@ -82,13 +81,10 @@ __all__ = [
 
 Precision = Literal["auto", "double", "double-double"]  # checks.PRECISIONS
 
-#: Largest scheme for which ``precision="auto"`` may choose double-double (where the
-#: plain-double bound is not small enough): with the compiled kernels this costs about
-#: 8 ms for 100 species and 60 ms for 200 on a 201-point grid.
+#: Largest scheme of a batch (:func:`propagate_batch`, sweeps) and of the dense routes
+#: the summaries rely on; single solves choose between the dense engine and the block
+#: route by predicted cost (:func:`kinetics._blocks.prefers_blocks`).
 DENSE_MAX = 200
-#: Largest scheme handled as one dense matrix at all (faster there than the block route,
-#: and it keeps trace entries); larger ones go block by block.
-DENSE_DOUBLE_MAX = 200
 
 _U = 2.0**-53  # unit roundoff of IEEE double
 #: Entries below this are outside the relative-accuracy guarantee (underflow).
@@ -521,7 +517,7 @@ class Propagation:
         the sensitivity to errors in the rate constants themselves.
     precision : str
         Route used: ``"double"``, ``"double-double"``, ``"blocks"`` (block
-        triangular, plain double) or a combination.
+        triangular, exact diagonal blocks; :mod:`kinetics._blocks`) or a combination.
     """
 
     times: np.ndarray
@@ -686,8 +682,8 @@ def propagate_certified(
     feed : array_like, shape (n,), optional
         Zero-order feed rates [conc/s], >= 0.
     precision : {"auto", "double", "double-double"}
-        Arithmetic of the dense engine (the block route for large schemes is
-        plain double).  ``"auto"`` takes plain double only where its a priori
+        Arithmetic of the dense engine (the block route, chosen by predicted cost for
+        large sparse schemes, has its own).  ``"auto"`` takes plain double only where its a priori
         bound over the whole grid is within :data:`AUTO_RTOL`.
     K_low, feed_low : array_like, optional
         Low-order parts of ``K`` and ``feed`` when the exact values are the
@@ -722,13 +718,14 @@ def propagate_certified(
     c0 = checks.vector(c0, n, "initial concentrations")
     times = checks.times(times)
     f = None if feed is None else checks.vector(feed, n, "feed")
-    if scipy.sparse.issparse(K) and n <= DENSE_DOUBLE_MAX:
-        K = K.toarray()
-    if scipy.sparse.issparse(K) or n > DENSE_DOUBLE_MAX:
-        from kinetics._blocks import propagate_blocks
+    from kinetics._blocks import prefers_blocks, propagate_blocks
 
-        conc, bound = propagate_blocks(K, c0, times, f)
+    # route by predicted cost (calibrated model in kinetics._blocks.route_costs)
+    if prefers_blocks(K, times, precision):
+        conc, bound = propagate_blocks(K, c0, times, f, K_low=K_low, feed_low=feed_low, floor=TINY)
         return Propagation(times, conc, bound, "blocks")
+    if scipy.sparse.issparse(K):
+        K = K.toarray()
     Kl = checks.low_parts(K_low, (n, n), "K_low")
     fl = None if f is None else checks.low_parts(feed_low, (n,), "feed_low")
     A = _augment(K[None], None if f is None else f[None])
@@ -782,13 +779,12 @@ def propagate(
 
     Notes
     -----
-    Schemes with at most :data:`DENSE_MAX` species (with the feed) use the dense
-    entrywise engine (see the module docstring): every entry above 1e-290 is
-    accurate to a few units of rounding (the bound is in
-    :func:`propagate_certified`).  Larger schemes are split into the
-    strongly connected components of the species graph and propagated in
-    topological order through a block-triangular, block-sparse matrix
-    exponential in plain double precision (:mod:`kinetics._blocks`).
+    Small and dense schemes use the dense entrywise engine (see the module
+    docstring); large sparse ones, where it is predicted to be cheaper, are split into
+    the strongly connected components of the species graph and propagated through a
+    block-triangular exponential with exact diagonal blocks (:mod:`kinetics._blocks`).
+    Either way every entry above 1e-290 is accurate entry by entry, and
+    :func:`propagate_certified` returns the bound.
 
     References
     ----------

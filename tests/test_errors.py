@@ -148,3 +148,15 @@ def test_core_errors_pickle_and_read_problem_then_hint(cls):
     assert type(copy) is cls
     assert vars(copy) == vars(error)
     assert str(copy) == str(error)
+
+
+def test_unit_errors_are_value_errors_and_pickle():
+    from kinetics.errors import UnitError, UnknownUnitError
+
+    assert issubclass(UnitError, KineticsError)
+    assert issubclass(UnitError, ValueError)
+    assert issubclass(UnknownUnitError, UnitError)
+    for error in (UnitError("the exponent 99 is too large"), UnknownUnitError("unknown unit 'x'")):
+        copy = pickle.loads(pickle.dumps(error))
+        assert type(copy) is type(error)
+        assert str(copy) == str(error)
