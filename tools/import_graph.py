@@ -33,7 +33,16 @@ ROOT = Path(__file__).resolve().parents[1] / "kinetics"
 LAYERS = [
     ["errors", "_version", "jsonready", "files", "units", "suggest", "_doubledouble"],
     ["scheme", "amounts", "balance", "network", "ratematrix", "parsing", "language"],
-    ["checks", "propagate", "sensitivity", "engine", "_kernels", "_blocks", "_block_exp"],
+    [
+        "checks",
+        "propagate",
+        "sensitivity",
+        "engine",
+        "_kernels",
+        "_blocks",
+        "_block_exp",
+        "_block_kernels",
+    ],
     ["analysis", "solution"],
     ["sweep", "sweep_summary", "sweep_store", "_sweep_kernels", "fit", "measurements"],
     ["output"],

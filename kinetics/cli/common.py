@@ -111,7 +111,7 @@ def species_list(text: str | None, scheme, option: str = "--species") -> list[st
     """Names from ``--species A,B`` checked against the scheme's matrix species."""
     if text is None:
         return None
-    import difflib
+    from kinetics.suggest import close_matches
 
     names = [n.strip() for n in text.split(",") if n.strip()]
     if not names:
@@ -119,8 +119,7 @@ def species_list(text: str | None, scheme, option: str = "--species") -> list[st
     known = scheme.species_names
     for name in names:
         if name not in known:
-            same_case = [k for k in known if k.lower() == name.lower()]
-            close = same_case or difflib.get_close_matches(name, known, n=1)
+            close = close_matches(name, known, fold_case=True)
             hint = f"did you mean {close[0]!r}? " if close else ""
             raise UsageError(
                 f"{option} names {name!r}, which is not a species of the scheme",
