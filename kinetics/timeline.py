@@ -1,0 +1,656 @@
+r"""A timeline of operations on a scheme: additions, removals, temperature steps, ramps, feeds.
+
+A run is rarely one stretch of constant conditions from time 0.  A timeline lists what
+happens during it, in the core's units (seconds, kelvin, the scheme's concentration unit):
+
+==========================  ==============================================================
+statement                   meaning
+==========================  ==============================================================
+``At(T, Addition(...))``    at time T the named species rise instantly by the amounts
+``At(T, Removal(...))``     at time T a fraction of each named species is taken out; the
+                            amount removed is recorded (elution, filtration, a sample)
+``At(T, TemperatureStep)``  from time T on every Arrhenius constant follows the new
+                            temperature
+``Every(P, action, T0, T1)``  the addition or removal at T0, T0 + P, ... up to T1 and the
+                            end of the solved window (T0 defaults to P)
+``FeedWindow(T0, T1, ...)``   a zero-order feed that runs only between T0 and T1
+``TemperatureRamp(...)``    a linear temperature ramp between T0 and T1
+==========================  ==============================================================
+
+Between operations the scheme is linear with constant coefficients, and each operation
+is a nonnegative map of the concentrations (:math:`c \mapsto c + a` with
+:math:`a \ge 0`, or :math:`c_i \mapsto (1 - p) c_i` with :math:`0 \le p \le 1`), so the
+whole timeline is solved exactly stretch by stretch (:mod:`kinetics.timeline_solve`).
+
+Each statement may carry a :class:`Place` (file, line, column, text): the scheme
+language fills it, so a mistake is reported where it was written.  :func:`expand`
+checks a timeline against a scheme and a window, collects every mistake, and turns
+it into the sorted list of operations the solver applies.
+
+Examples
+--------
+A second portion of reagent at 30 min and a heating step at 2 h (K):
+
+>>> line = Timeline([At(1800.0, Addition({"A": 0.25})), At(7200.0, TemperatureStep(333.15))])
+>>> len(line.statements)
+2
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+import numbers
+from dataclasses import dataclass, field
+from fractions import Fraction
+from typing import TYPE_CHECKING
+
+from .errors import SchemeError, SchemeErrors, shown_value
+
+if TYPE_CHECKING:
+    from .scheme import Scheme
+
+__all__ = [
+    "MAX_OPERATIONS",
+    "Addition",
+    "At",
+    "Every",
+    "FeedWindow",
+    "Operation",
+    "Place",
+    "Plan",
+    "Removal",
+    "TemperatureRamp",
+    "TemperatureStep",
+    "Timeline",
+    "expand",
+]
+
+#: Most operations a timeline may create inside the solved window (a repeated operation
+#: counts once per repetition): about 250,000 stretches take some seconds to solve.
+MAX_OPERATIONS = 250_000
+
+
+@dataclass(frozen=True, slots=True)
+class Place:
+    """Where a statement was written, for messages (filled by the scheme language).
+
+    Attributes
+    ----------
+    source : str
+        File name, or ``"<timeline>"`` for a timeline built in Python.
+    line, column : int
+        1-based position (0 when unknown).
+    text : str
+        The whole source line.
+    snippet : str
+        The part of the line a message underlines.
+    """
+
+    source: str = "<timeline>"
+    line: int = 0
+    column: int = 0
+    text: str = ""
+    snippet: str = ""
+
+    def error(self, problem: str, hint: str = "") -> SchemeError:
+        """A :class:`~kinetics.errors.SchemeError` located here."""
+        return SchemeError(
+            problem, self.source, self.line, self.column, self.text, self.snippet, hint
+        )
+
+
+def _pairs(values) -> tuple[tuple[str, float], ...]:
+    """``{name: value}`` or pairs as a tuple of pairs (hashable, in the order given)."""
+    items = values.items() if hasattr(values, "items") else values
+    return tuple((str(name), value) for name, value in items)
+
+
+@dataclass(frozen=True, slots=True)
+class Addition:
+    """Instant rise of named species [the scheme's concentration unit].
+
+    Parameters
+    ----------
+    amounts : dict of str to float
+        Species name -> amount added, >= 0.
+    """
+
+    amounts: tuple[tuple[str, float], ...]
+
+    def __init__(self, amounts) -> None:
+        object.__setattr__(self, "amounts", _pairs(amounts))
+
+
+@dataclass(frozen=True, slots=True)
+class Removal:
+    """A fraction of each named species taken out at once; the amount is recorded.
+
+    Parameters
+    ----------
+    species : tuple of str
+        The species removed from.
+    fraction : float, Fraction or str
+        The part removed, from 0 to 1 (1 for a complete elution).  Kept exact: the
+        part left, :math:`1 - p`, and :math:`p` are each rounded once.
+
+    Examples
+    --------
+    >>> Removal.percent(30, "D").fraction
+    Fraction(3, 10)
+    """
+
+    species: tuple[str, ...]
+    fraction: Fraction
+
+    def __init__(self, species, fraction) -> None:
+        names = (species,) if isinstance(species, str) else tuple(species)
+        object.__setattr__(self, "species", names)
+        object.__setattr__(self, "fraction", _fraction(fraction))
+
+    @classmethod
+    def percent(cls, percent, *species: str) -> Removal:
+        """The removal of ``percent`` % (exact: 30 % is 3/10) of ``species``."""
+        value = _fraction(percent)
+        return cls(species, value / 100 if value is not None else value)
+
+
+def _fraction(value) -> Fraction | None:
+    """``value`` as an exact Fraction (None when it is not a finite number)."""
+    try:
+        return Fraction(value)
+    except (TypeError, ValueError, OverflowError):
+        return None
+
+
+@dataclass(frozen=True, slots=True)
+class TemperatureStep:
+    """From the operation on, every Arrhenius constant follows ``temperature`` [K]."""
+
+    temperature: float
+
+
+Action = Addition | Removal | TemperatureStep
+
+
+@dataclass(frozen=True, slots=True)
+class At:
+    """One operation at ``time`` [s] (``at T: ...``)."""
+
+    time: float
+    action: Action
+    place: Place = field(default_factory=Place)
+
+
+@dataclass(frozen=True, slots=True)
+class Every:
+    """An addition or removal repeated every ``period`` [s] (``every T from T0 until T1``).
+
+    The operation acts at ``start``, ``start + period``, ... (``start`` defaults to
+    ``period``) up to ``until`` [s] and the end of the solved window; the repetitions
+    up to ``until`` that fall after the window are not applied, and the solution says so.
+    """
+
+    period: float
+    action: Action
+    start: float | None = None
+    until: float | None = None
+    place: Place = field(default_factory=Place)
+
+
+@dataclass(frozen=True, slots=True)
+class FeedWindow:
+    """A zero-order feed [concentration_unit/s] that runs only from ``start`` to ``end`` [s].
+
+    The scheme's own ``feed`` stays on all the time; feeds of one species add up.
+    """
+
+    start: float
+    end: float
+    rates: tuple[tuple[str, float], ...]
+    place: Place = field(default_factory=Place)
+
+    def __init__(self, start, end, rates, place: Place | None = None) -> None:
+        object.__setattr__(self, "start", start)
+        object.__setattr__(self, "end", end)
+        object.__setattr__(self, "rates", _pairs(rates))
+        object.__setattr__(self, "place", place or Place())
+
+
+@dataclass(frozen=True, slots=True)
+class TemperatureRamp:
+    """A linear ramp from ``initial`` to ``final`` [K] between ``start`` and ``end`` [s].
+
+    After the ramp the temperature stays at ``final`` until the next temperature step.
+    """
+
+    start: float
+    end: float
+    initial: float
+    final: float
+    place: Place = field(default_factory=Place)
+
+
+Statement = At | Every | FeedWindow | TemperatureRamp
+
+
+@dataclass(frozen=True)
+class Timeline:
+    """The statements of a run, in the order written (ties at one time keep this order).
+
+    Parameters
+    ----------
+    statements : sequence of At, Every, FeedWindow or TemperatureRamp
+    """
+
+    statements: tuple = ()
+
+    def __init__(self, statements=()) -> None:
+        object.__setattr__(self, "statements", tuple(statements))
+
+    def __add__(self, other: Timeline) -> Timeline:
+        return Timeline(self.statements + tuple(other.statements))
+
+
+# --------------------------------------------------------------------------
+# the expanded plan
+# --------------------------------------------------------------------------
+
+
+@dataclass(frozen=True, slots=True)
+class Operation:
+    """One applied addition or removal.
+
+    Attributes
+    ----------
+    time : float
+        [s].
+    action : Addition or Removal
+    statement : int
+        Index of the statement it comes from.
+    """
+
+    time: float
+    action: Action
+    statement: int
+
+
+@dataclass(frozen=True)
+class Plan:
+    """A checked timeline inside a window ``[0, end]``, ready to solve.
+
+    Attributes
+    ----------
+    end : float
+        Last solved time [s].
+    operations : tuple of Operation
+        Additions and removals in the order applied (by time, then statement).
+    steps : tuple of (float, float, int)
+        Temperature steps ``(time [s], temperature [K], statement)`` in time order.
+    ramps : tuple of TemperatureRamp
+        In time order, none overlapping.
+    ramp_statements : tuple of int
+        The statement of each ramp.
+    feeds : tuple of (FeedWindow, int)
+        Feed windows that start inside the window, with their statement.
+    skipped : tuple of (int, int, float)
+        Per statement, operations after the end of the window that were not applied:
+        ``(statement, count, first time [s])``.
+    notes : tuple of str
+        Sentences about operations without effect (a temperature operation in a
+        scheme with no Arrhenius constant, operations after the window).
+    """
+
+    end: float
+    operations: tuple[Operation, ...]
+    steps: tuple[tuple[float, float, int], ...]
+    ramps: tuple[TemperatureRamp, ...]
+    ramp_statements: tuple[int, ...]
+    feeds: tuple[tuple[FeedWindow, int], ...]
+    skipped: tuple[tuple[int, int, float], ...]
+    notes: tuple[str, ...]
+
+    def breakpoints(self) -> list[float]:
+        """Every time inside ``[0, end]`` at which something changes [s], sorted."""
+        times = {op.time for op in self.operations}
+        times.update(t for t, _, _ in self.steps)
+        for ramp in self.ramps:
+            times.update((ramp.start, ramp.end))
+        for window, _ in self.feeds:
+            times.update((window.start, window.end))
+        return sorted(t for t in times if t <= self.end)
+
+
+def _seconds(value: float) -> str:
+    return f"{shown_value(value)} s"
+
+
+class _Checker:
+    """Collects every mistake of a timeline against a scheme (one pass)."""
+
+    def __init__(self, scheme: Scheme, end: float) -> None:
+        self.scheme = scheme
+        self.end = end
+        self.errors: list[SchemeError] = []
+        self.notes: list[str] = []
+        self.count = 0
+        matrix = set(scheme.species_names)
+        self.species = matrix
+        self.excess = {s.name for s in scheme.excess_species}
+        self.arrhenius = any(c.arrhenius is not None for c in scheme.constants.values())
+
+    def time(self, value, what: str, place: Place) -> bool:
+        if isinstance(value, bool) or not isinstance(value, numbers.Real):
+            self.errors.append(
+                place.error(f"{what} must be a number of seconds, not {shown_value(value)}")
+            )
+            return False
+        if not (math.isfinite(value) and value >= 0):
+            self.errors.append(
+                place.error(
+                    f"{what} must be finite and >= 0 s, not {_seconds(value)}",
+                    "operations happen at or after time 0, when the start values apply",
+                )
+            )
+            return False
+        return True
+
+    def name(self, name: str, place: Place) -> bool:
+        if name in self.species:
+            return True
+        if name in self.excess:
+            self.errors.append(
+                place.error(
+                    f"{name} is held in excess (constant) and cannot be changed by an operation",
+                    "add or remove a species of the rate matrix",
+                )
+            )
+        else:
+            self.errors.append(
+                place.error(
+                    f"{name!r} is not a species of the scheme",
+                    "species: " + ", ".join(self.scheme.species_names),
+                )
+            )
+        return False
+
+    def amount(self, name: str, value, what: str, place: Place) -> None:
+        ok = isinstance(value, numbers.Real) and not isinstance(value, bool)
+        if not ok or not (math.isfinite(value) and value >= 0):
+            self.errors.append(
+                place.error(
+                    f"{what} of {name} must be a finite number >= 0, not {shown_value(value)}",
+                    "give an amount in the scheme's concentration unit "
+                    f"({self.scheme.concentration_unit})",
+                )
+            )
+
+    def action(self, action, place: Place) -> None:
+        if isinstance(action, Addition):
+            if not action.amounts:
+                self.errors.append(place.error("an addition names no species", "e.g. add A = 0.1"))
+            for name, value in action.amounts:
+                if self.name(name, place):
+                    self.amount(name, value, "the amount added", place)
+        elif isinstance(action, Removal):
+            if not action.species:
+                self.errors.append(place.error("a removal names no species", "e.g. remove D"))
+            for name in action.species:
+                self.name(name, place)
+            p = action.fraction
+            if p is None or not 0 <= p <= 1:
+                shown = "a non-number" if p is None else f"{shown_value(float(p) * 100)} %"
+                self.errors.append(
+                    place.error(
+                        f"cannot remove {shown}: the part removed must be from 0 to 100 %",
+                        "write 100 % for a complete removal",
+                    )
+                )
+        elif isinstance(action, TemperatureStep):
+            self.temperature(action.temperature, "the new temperature", place)
+        else:
+            self.errors.append(
+                place.error(
+                    f"{type(action).__name__} is not an operation",
+                    "use Addition, Removal or TemperatureStep",
+                )
+            )
+
+    def temperature(self, value, what: str, place: Place) -> None:
+        ok = isinstance(value, numbers.Real) and not isinstance(value, bool)
+        if not ok or not (math.isfinite(value) and value > 0):
+            self.errors.append(
+                place.error(
+                    f"{what} must be finite and above 0 K, not {shown_value(value)}",
+                    "give a thermodynamic temperature in kelvin",
+                )
+            )
+        elif not self.arrhenius:
+            self.notes.append(
+                _note(
+                    place,
+                    "a temperature operation has no effect: no rate constant of the scheme "
+                    "follows the Arrhenius law",
+                )
+            )
+
+    def limit(self, count: int, place: Place) -> bool:
+        self.count += count
+        if self.count > MAX_OPERATIONS:
+            self.errors.append(
+                place.error(
+                    f"the timeline would create {self.count:,} operations up to "
+                    f"{_seconds(self.end)}, more than {MAX_OPERATIONS:,}",
+                    "repeat less often, end the repetition earlier with 'until', "
+                    "or solve a shorter window",
+                )
+            )
+            return False
+        return True
+
+
+def _note(place: Place, sentence: str) -> str:
+    """A note led by ``source:line:`` like the warnings of a scheme."""
+    lead = f"{place.source}:{place.line}: " if place.line > 0 else ""
+    return lead + sentence
+
+
+def _repetitions(every: Every, end: float) -> tuple[list[float], int, int, float]:
+    """Times of ``every`` inside the window, their count, and the count and first time of
+    those after the window (up to ``until``).
+
+    Times are :math:`T_0 + kP`, each computed exactly and rounded once.
+    """
+    period = Fraction(every.period)
+    first = Fraction(every.period if every.start is None else every.start)
+    last = Fraction(end) if every.until is None else min(Fraction(every.until), Fraction(end))
+    inside = 0 if last < first else math.floor((last - first) / period) + 1
+    times = [float(first + k * period) for k in range(inside)] if inside <= MAX_OPERATIONS else []
+    after = 0
+    if every.until is not None and Fraction(every.until) >= first:
+        after = math.floor((Fraction(every.until) - first) / period) + 1 - inside
+    return times, inside, after, float(first + inside * period) if after else math.nan
+
+
+def _check_every(check: _Checker, every: Every) -> bool:
+    place = every.place
+    ok = check.time(every.period, "the period of a repeated operation", place)
+    if ok and every.period <= 0:
+        check.errors.append(
+            place.error(
+                "the period of a repeated operation must be above 0 s, not 0 s",
+                "e.g. every 24 h",
+            )
+        )
+        ok = False
+    if every.start is not None:
+        ok = check.time(every.start, "the first time of a repeated operation", place) and ok
+    if every.until is not None:
+        ok = check.time(every.until, "the end of a repeated operation", place) and ok
+    first = every.period if every.start is None else every.start
+    if ok and every.until is not None and every.until < first:
+        check.errors.append(
+            place.error(
+                f"the repetition ends ({_seconds(every.until)}) before it starts "
+                f"({_seconds(first)})",
+                "give 'until' after 'from'",
+            )
+        )
+        ok = False
+    if not isinstance(every.action, (Addition, Removal)):
+        check.errors.append(
+            place.error("only an addition or a removal can be repeated", "use 'at' for the rest")
+        )
+        return False
+    check.action(every.action, place)
+    return ok
+
+
+def _check_window(check: _Checker, start, end, place: Place, what: str) -> bool:
+    ok = check.time(start, f"the start of {what}", place)
+    ok = check.time(end, f"the end of {what}", place) and ok
+    if ok and not end > start:
+        check.errors.append(
+            place.error(
+                f"{what} ends ({_seconds(end)}) before it starts ({_seconds(start)})",
+                "write 'from T0 to T1' with T0 before T1",
+            )
+        )
+        ok = False
+    return ok
+
+
+def _check_ramps(check: _Checker, ramps, steps) -> None:
+    """Ramps must not overlap one another, and no temperature step may fall inside one."""
+    ordered = sorted(ramps, key=lambda r: (r.start, r.end))
+    for earlier, later in itertools.pairwise(ordered):
+        if later.start < earlier.end:
+            check.errors.append(
+                later.place.error(
+                    f"this ramp ({_seconds(later.start)} to {_seconds(later.end)}) overlaps the "
+                    f"ramp from {_seconds(earlier.start)} to {_seconds(earlier.end)}",
+                    "let one ramp end before the next starts",
+                )
+            )
+    for time, _, _, place in steps:
+        for ramp in ordered:
+            if ramp.start <= time < ramp.end:
+                check.errors.append(
+                    place.error(
+                        f"a temperature step at {_seconds(time)} falls inside the ramp from "
+                        f"{_seconds(ramp.start)} to {_seconds(ramp.end)}",
+                        "move the step to the end of the ramp or split the ramp",
+                    )
+                )
+
+
+def expand(scheme: Scheme, timeline: Timeline, end: float) -> Plan:
+    """Check a timeline against a scheme and expand it inside the window ``[0, end]``.
+
+    Parameters
+    ----------
+    scheme : Scheme
+    timeline : Timeline
+    end : float
+        Last solved time [s].
+
+    Returns
+    -------
+    Plan
+
+    Raises
+    ------
+    kinetics.errors.SchemeErrors
+        Every mistake at once, each at its statement's :class:`Place`.
+
+    Examples
+    --------
+    >>> import kinetics
+    >>> s = kinetics.parse("P -> D  k = 1 1/d\\nD -> X  kd = 0.1 1/h\\nstart P = 1 M")
+    >>> plan = expand(s, Timeline([Every(86400.0, Removal.percent(100, "D"))]), 3 * 86400.0)
+    >>> [op.time for op in plan.operations]
+    [86400.0, 172800.0, 259200.0]
+    """
+    check = _Checker(scheme, end)
+    operations: list[tuple[float, int, int, Action]] = []
+    steps: list[tuple[float, float, int, Place]] = []
+    ramps: list[tuple[TemperatureRamp, int]] = []
+    feeds: list[tuple[FeedWindow, int]] = []
+    skipped: list[tuple[int, int, float]] = []
+    for index, statement in enumerate(timeline.statements):
+        if isinstance(statement, At):
+            ok = check.time(statement.time, "the time of an operation", statement.place)
+            check.action(statement.action, statement.place)
+            if not ok:
+                continue
+            if statement.time > end:
+                skipped.append((index, 1, float(statement.time)))
+            elif isinstance(statement.action, TemperatureStep):
+                steps.append((float(statement.time), statement.action.temperature, index,
+                              statement.place))  # fmt: skip
+            elif check.limit(1, statement.place):
+                operations.append((float(statement.time), index, 0, statement.action))
+        elif isinstance(statement, Every):
+            if not _check_every(check, statement):
+                continue
+            times, inside, after, first_after = _repetitions(statement, end)
+            if not check.limit(inside, statement.place):
+                continue
+            operations.extend((t, index, k, statement.action) for k, t in enumerate(times))
+            if after:
+                skipped.append((index, after, first_after))
+        elif isinstance(statement, FeedWindow):
+            ok = _check_window(check, statement.start, statement.end, statement.place,
+                               "the feed window")  # fmt: skip
+            for name, rate in statement.rates:
+                if check.name(name, statement.place):
+                    check.amount(name, rate, "the feed rate", statement.place)
+            if ok and check.limit(2, statement.place):
+                if statement.start > end:
+                    skipped.append((index, 1, float(statement.start)))
+                else:
+                    feeds.append((statement, index))
+        elif isinstance(statement, TemperatureRamp):
+            ok = _check_window(check, statement.start, statement.end, statement.place, "the ramp")
+            check.temperature(statement.initial, "the ramp's first temperature", statement.place)
+            check.temperature(statement.final, "the ramp's last temperature", statement.place)
+            if ok and check.limit(2, statement.place):
+                if statement.start > end:
+                    skipped.append((index, 1, float(statement.start)))
+                else:
+                    ramps.append((statement, index))
+        else:
+            check.errors.append(
+                Place().error(
+                    f"statement {index + 1} ({type(statement).__name__}) is not a timeline "
+                    "statement",
+                    "use At, Every, FeedWindow or TemperatureRamp",
+                )
+            )
+    _check_ramps(check, [r for r, _ in ramps], steps)
+    if check.errors:
+        raise SchemeErrors(check.errors)
+    notes = list(dict.fromkeys(check.notes))
+    for index, count, first in skipped:
+        place = timeline.statements[index].place
+        many = count != 1
+        notes.append(
+            _note(
+                place,
+                f"{count:,} operation{'s' if many else ''} from {_seconds(first)} on "
+                f"{'fall' if many else 'falls'} after the end of the window ({_seconds(end)}) "
+                f"and {'were' if many else 'was'} not applied",
+            )
+        )
+    operations.sort(key=lambda o: (o[0], o[1], o[2]))
+    ramps.sort(key=lambda r: r[0].start)
+    return Plan(
+        end=float(end),
+        operations=tuple(Operation(t, a, i) for t, i, _, a in operations),
+        steps=tuple(sorted(((t, T, i) for t, T, i, _ in steps), key=lambda s: (s[0], s[2]))),
+        ramps=tuple(r for r, _ in ramps),
+        ramp_statements=tuple(i for _, i in ramps),
+        feeds=tuple(feeds),
+        skipped=tuple(skipped),
+        notes=tuple(notes),
+    )
