@@ -566,6 +566,24 @@ def _moved_difference(fine: list, coarse: list) -> np.ndarray:
     return _relative_difference(a[:, None], b[:, None]) if a.size else np.zeros(0)
 
 
+def _envelope(plan: Plan, best: _Pass, rows: np.ndarray, moved: np.ndarray):
+    """The ramp estimate as a running maximum from the first ramp on.
+
+    The difference of two refinements can pass through zero at one time while the
+    error of the finer one does not; errors made during a ramp are carried forward
+    (the maps after it are nonnegative, so relative errors do not grow), hence the
+    estimate at a time is the largest difference seen up to it.  An amount moved by an
+    operation shares the estimate of the concentrations just before it.
+    """
+    rows = np.where(best.times <= plan.ramps[0].start, 0.0, rows)
+    rows = np.maximum.accumulate(rows) if rows.size else rows
+    when = np.array([m[0] for m in best.moved])
+    up_to = np.searchsorted(best.times, when, side="right") - 1
+    carried = np.where(up_to >= 0, rows[np.maximum(up_to, 0)], 0.0) if rows.size else 0.0
+    moved = np.where(when <= plan.ramps[0].start, 0.0, np.maximum(moved, carried))
+    return rows, np.maximum.accumulate(moved) if moved.size else moved
+
+
 def _events(plan: Plan, best: _Pass, moved_estimate: np.ndarray) -> tuple[Event, ...]:
     """Every applied operation as an :class:`Event`, in time order."""
     records = [
@@ -676,8 +694,7 @@ def solve_timeline(
     conditions = _Conditions(scheme, plan, precision)
     best, estimate, moved_estimate, notes = _refine(scheme, plan, conditions, t, ramp_rtol)
     if plan.ramps and conditions.arrhenius:
-        first_ramp = plan.ramps[0].start
-        estimate = np.where(best.times <= first_ramp, 0.0, estimate)
+        estimate, moved_estimate = _envelope(plan, best, estimate, moved_estimate)
     return TimelineSolution(
         times=best.times,
         after=best.after,
