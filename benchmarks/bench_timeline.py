@@ -83,9 +83,15 @@ def lsoda_loop(K, c0, grid, index):
         t_eval = np.concatenate([inside, [b]]) if b > a else [b]
         if b > a:
             r = solve_ivp(
-                lambda t, y: K @ y, (a, b), x, method="LSODA", t_eval=t_eval,
-                rtol=1e-10, atol=1e-20, jac=lambda t, y: K,
-            )  # fmt: skip
+                lambda t, y: K @ y,
+                (a, b),
+                x,
+                method="LSODA",
+                t_eval=t_eval,
+                rtol=1e-10,
+                atol=1e-20,
+                jac=lambda t, y: K,
+            )
             y = r.y.T
         else:
             y = x[None]
@@ -141,8 +147,10 @@ def run(name, text, parent):
     acc_ours = accuracy(sol.times, sol.concentrations, sol.after, ref)
     acc_base = accuracy(sol.times, base, sol.after, ref)
     print(f"{name}: {OPERATIONS} additions, {grid.size} output times, {sol.times.size} rows")
-    print(f"  timeline solver   {t_ours * 1e3:8.1f} ms   worst relative error {acc_ours:.1e}"
-          f"   (certified bound at the end {sol.error_bound[-1]:.1e})")  # fmt: skip
+    print(
+        f"  timeline solver   {t_ours * 1e3:8.1f} ms   worst relative error {acc_ours:.1e}"
+        f"   (certified bound at the end {sol.error_bound[-1]:.1e})"
+    )
     print(f"  LSODA restarted   {t_base * 1e3:8.1f} ms   worst relative error {acc_base:.1e}")
     print(f"  speed ratio       {t_base / t_ours:8.1f} x")
     return t_base / t_ours

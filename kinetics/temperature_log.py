@@ -250,17 +250,22 @@ class _Reader:
             if ";" in text or "\t" in text:
                 hint = "separate the columns with commas; " + hint
             raise self.fail(
-                line, 1, f"the header has {len(cells)} column{'s' if len(cells) != 1 else ''}; "
-                "a temperature record has two: time and temperature", hint,
-            )  # fmt: skip
+                line,
+                1,
+                f"the header has {len(cells)} column{'s' if len(cells) != 1 else ''}; "
+                "a temperature record has two: time and temperature",
+                hint,
+            )
         parsed = []
         for (cell, column), want in zip(cells, ("time", "temperature"), strict=True):
             match = _HEADER.match(cell)
             if not match:
                 raise self.fail(
-                    line, column, f"the column {shorten(cell)!r} has no unit in square brackets",
+                    line,
+                    column,
+                    f"the column {shorten(cell)!r} has no unit in square brackets",
                     _EXAMPLE,
-                )  # fmt: skip
+                )
             if match["name"].strip().lower() != want:
                 raise self.fail(
                     line, column, f"the column {shorten(cell)!r} should be the {want}", _EXAMPLE
@@ -271,16 +276,20 @@ class _Reader:
             factor = time_factor(time_unit)
         except UsageError:
             raise self.fail(
-                line, time_column, f"{shorten(time_unit)!r} is not a unit of time",
+                line,
+                time_column,
+                f"{shorten(time_unit)!r} is not a unit of time",
                 f"use {TIME_UNITS}",
-            ) from None  # fmt: skip
+            ) from None
         try:
             temperature_to_kelvin(300.0, temp_unit)
         except ValueError:
             raise self.fail(
-                line, temp_column, f"{shorten(temp_unit)!r} is not a unit of temperature",
+                line,
+                temp_column,
+                f"{shorten(temp_unit)!r} is not a unit of temperature",
                 "use degC or K",
-            ) from None  # fmt: skip
+            ) from None
         return factor, temp_unit
 
     def number(self, line: int, cell: str, column: int, what: str) -> float:
@@ -319,28 +328,42 @@ def parse_temperature_log(text: str, source: str = "<text>") -> TemperatureLog:
         cells = _cells(line)
         if len(cells) != 2:
             raise reader.fail(
-                number, cells[min(2, len(cells) - 1)][1],
+                number,
+                cells[min(2, len(cells) - 1)][1],
                 f"this reading has {len(cells)} cells; a reading has a time and a temperature",
                 "write one reading per line, such as '12,21.5'",
-            )  # fmt: skip
+            )
         (t_text, t_col), (T_text, T_col) = cells
         t = reader.number(number, t_text, t_col, "time") * factor
         kelvin = temperature_to_kelvin(reader.number(number, T_text, T_col, "temperature"), unit)
         if t < 0:
-            raise reader.fail(number, t_col, f"the time {t_text} is negative",
-                              "times count from the start of the run, 0 or later")  # fmt: skip
+            raise reader.fail(
+                number,
+                t_col,
+                f"the time {t_text} is negative",
+                "times count from the start of the run, 0 or later",
+            )
         if times and not t > times[-1]:
             raise reader.fail(
-                number, t_col, f"the time {t_text} is not after the time of line {lines[-1]}",
+                number,
+                t_col,
+                f"the time {t_text} is not after the time of line {lines[-1]}",
                 "sort the readings by time, each time once",
-            )  # fmt: skip
+            )
         if not kelvin > 0:
-            raise reader.fail(number, T_col, f"the temperature {T_text} {unit} is not above 0 K",
-                              "check the unit in the header (degC or K)")  # fmt: skip
+            raise reader.fail(
+                number,
+                T_col,
+                f"the temperature {T_text} {unit} is not above 0 K",
+                "check the unit in the header (degC or K)",
+            )
         times.append(t)
         temperatures.append(kelvin)
         lines.append(number)
     if not times:
-        raise DataError("the temperature record has a header but no readings", source,
-                        "add one reading per line, such as '0,21.5'")  # fmt: skip
+        raise DataError(
+            "the temperature record has a header but no readings",
+            source,
+            "add one reading per line, such as '0,21.5'",
+        )
     return TemperatureLog(np.array(times), np.array(temperatures), source, tuple(lines))

@@ -374,14 +374,17 @@ class _Checker:
             )
         return False
 
-    def amount(self, name: str, value, what: str, place: Place) -> None:
+    def amount(self, name: str, value, place: Place, rate: bool = False) -> None:
         ok = isinstance(value, numbers.Real) and not isinstance(value, bool)
         if not ok or not (math.isfinite(value) and value >= 0):
+            unit = self.scheme.concentration_unit
+            what = f"the feed rate of {name}" if rate else f"the amount of {name} added"
             self.errors.append(
                 place.error(
-                    f"{what} of {name} must be a finite number >= 0, not {shown_value(value)}",
-                    "give an amount in the scheme's concentration unit "
-                    f"({self.scheme.concentration_unit})",
+                    f"{what} must be a finite number >= 0, not {shown_value(value)}",
+                    f"give a rate in {unit} per second"
+                    if rate
+                    else f"give an amount in the scheme's concentration unit ({unit})",
                 )
             )
 
@@ -391,7 +394,7 @@ class _Checker:
                 self.errors.append(place.error("an addition names no species", "e.g. add A = 0.1"))
             for name, value in action.amounts:
                 if self.name(name, place):
-                    self.amount(name, value, "the amount added", place)
+                    self.amount(name, value, place)
         elif isinstance(action, Removal):
             if not action.species:
                 self.errors.append(place.error("a removal names no species", "e.g. remove D"))
@@ -399,7 +402,7 @@ class _Checker:
                 self.name(name, place)
             p = action.fraction
             if p is None or not 0 <= p <= 1:
-                shown = "a non-number" if p is None else f"{shown_value(float(p) * 100)} %"
+                shown = "a non-number" if p is None else f"{float(p * 100):g} %"
                 self.errors.append(
                     place.error(
                         f"cannot remove {shown}: the part removed must be from 0 to 100 %",
@@ -421,7 +424,8 @@ class _Checker:
         if not ok or not (math.isfinite(value) and value > 0):
             self.errors.append(
                 place.error(
-                    f"{what} must be finite and above 0 K, not {shown_value(value)}",
+                    f"{what} must be finite and above 0 K, not {shown_value(value)}"
+                    + (" K" if ok else ""),
                     "give a thermodynamic temperature in kelvin",
                 )
             )
@@ -586,8 +590,9 @@ def expand(scheme: Scheme, timeline: Timeline, end: float) -> Plan:
             if statement.time > end:
                 skipped.append((index, 1, float(statement.time)))
             elif isinstance(statement.action, TemperatureStep):
-                steps.append((float(statement.time), statement.action.temperature, index,
-                              statement.place))  # fmt: skip
+                steps.append(
+                    (float(statement.time), statement.action.temperature, index, statement.place)
+                )
             elif check.limit(1, statement.place):
                 operations.append((float(statement.time), index, 0, statement.action))
         elif isinstance(statement, Every):
@@ -600,11 +605,12 @@ def expand(scheme: Scheme, timeline: Timeline, end: float) -> Plan:
             if after:
                 skipped.append((index, after, first_after))
         elif isinstance(statement, FeedWindow):
-            ok = _check_window(check, statement.start, statement.end, statement.place,
-                               "the feed window")  # fmt: skip
+            ok = _check_window(
+                check, statement.start, statement.end, statement.place, "the feed window"
+            )
             for name, rate in statement.rates:
                 if check.name(name, statement.place):
-                    check.amount(name, rate, "the feed rate", statement.place)
+                    check.amount(name, rate, statement.place, rate=True)
             if ok and check.limit(2, statement.place):
                 if statement.start > end:
                     skipped.append((index, 1, float(statement.start)))

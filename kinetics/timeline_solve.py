@@ -593,18 +593,20 @@ def _events(plan: Plan, best: _Pass, moved_estimate: np.ndarray) -> tuple[Event,
     for t, T, i in plan.steps:
         records.append((t, i, Event(t, "temperature", None, 0.0, T, statement=i)))
     for r, i in zip(plan.ramps, plan.ramp_statements, strict=True):
-        records.append((r.start, i, Event(r.start, "temperature", None, 0.0, r.initial,
-                                          statement=i)))  # fmt: skip
+        records.append(
+            (r.start, i, Event(r.start, "temperature", None, 0.0, r.initial, statement=i))
+        )
         if r.end <= plan.end:
-            records.append((r.end, i, Event(r.end, "temperature", None, 0.0, r.final,
-                                            statement=i)))  # fmt: skip
+            records.append((r.end, i, Event(r.end, "temperature", None, 0.0, r.final, statement=i)))
     for window, i in plan.feeds:
         for name, rate in window.rates:
-            records.append((window.start, i, Event(window.start, "feed on", name, 0.0, rate,
-                                                   statement=i)))  # fmt: skip
+            records.append(
+                (window.start, i, Event(window.start, "feed on", name, 0.0, rate, statement=i))
+            )
             if window.end <= plan.end:
-                records.append((window.end, i, Event(window.end, "feed off", name, 0.0, rate,
-                                                     statement=i)))  # fmt: skip
+                records.append(
+                    (window.end, i, Event(window.end, "feed off", name, 0.0, rate, statement=i))
+                )
     records.sort(key=lambda r: (r[0], r[1]))
     return tuple(r[2] for r in records)
 

@@ -149,8 +149,9 @@ def assert_matches(sol, rows, moved, rtol=1e-13):
     assert sol.after.tolist() == [r[1] for r in rows]
     worst = 0.0
     with mpmath.workdps(DPS):
-        for got, bound, (_, _, exact) in zip(sol.concentrations, sol.error_bound, rows,
-                                             strict=True):  # fmt: skip
+        for got, bound, (_, _, exact) in zip(
+            sol.concentrations, sol.error_bound, rows, strict=True
+        ):
             for g, e in zip(got.tolist(), exact, strict=True):
                 if e > mpmath.mpf("1e-290"):
                     err = float(abs(mp(g) - e) / e)
@@ -247,11 +248,13 @@ def test_three_applications_14_days_apart():
 def test_removals_and_additions_at_one_time_in_statement_order():
     scheme = kinetics.parse(PORTIONS)
     times = [0.0, 600.0, 1200.0, 2400.0]
-    line = Timeline([
-        At(1200.0, Removal.percent(25, "B", "A")),
-        At(1200.0, Addition({"B": 0.125})),
-        Every(600.0, Removal.percent(10, "C"), start=600.0, until=2400.0),
-    ])  # fmt: skip
+    line = Timeline(
+        [
+            At(1200.0, Removal.percent(25, "B", "A")),
+            At(1200.0, Addition({"B": 0.125})),
+            Every(600.0, Removal.percent(10, "C"), start=600.0, until=2400.0),
+        ]
+    )
     sol = solve_timeline(scheme, line, times)
     ops = [
         (600.0, "remove", (Fraction(1, 10), ("C",))),
@@ -300,8 +303,9 @@ def radau(scheme, ramp, times, edges, jumps=None):
     rows = [y] if times[0] == 0.0 else []
     for a, b in itertools.pairwise(edges):
         inside = times[(times > a) & (times <= b)]
-        r = solve_ivp(rhs, (a, b), y, method="Radau", rtol=1e-12, atol=1e-30, t_eval=inside,
-                      jac=jac)  # fmt: skip
+        r = solve_ivp(
+            rhs, (a, b), y, method="Radau", rtol=1e-12, atol=1e-30, t_eval=inside, jac=jac
+        )
         rows.extend(r.y.T)
         y = r.y[:, -1].copy()
         if jumps and b in jumps:
