@@ -299,8 +299,9 @@ class _Reader:
             value = math.nan
         if not math.isfinite(value):
             problem = f"the {what} {shorten(cell)!r} is not a number" if cell else f"no {what}"
+            example = "12 (its unit is in the header)" if what == "time" else "21.5"
             raise self.fail(
-                line, column, problem, f"write the {what} as a plain number such as 21.5"
+                line, column, problem, f"write the {what} as a number such as {example}"
             )
         return value
 
@@ -324,13 +325,15 @@ def parse_temperature_log(text: str, source: str = "<text>") -> TemperatureLog:
         raise DataError("the temperature record is empty", source, _EXAMPLE)
     factor, unit = reader.header(*rows[0])
     times, temperatures, lines = [], [], []
+    previous = ""
     for number, line in rows[1:]:
         cells = _cells(line)
         if len(cells) != 2:
             raise reader.fail(
                 number,
                 cells[min(2, len(cells) - 1)][1],
-                f"this reading has {len(cells)} cells; a reading has a time and a temperature",
+                f"this reading has {len(cells)} cell{'s' if len(cells) != 1 else ''}; "
+                "a reading has a time and a temperature",
                 "write one reading per line, such as '12,21.5'",
             )
         (t_text, t_col), (T_text, T_col) = cells
@@ -347,9 +350,10 @@ def parse_temperature_log(text: str, source: str = "<text>") -> TemperatureLog:
             raise reader.fail(
                 number,
                 t_col,
-                f"the time {t_text} is not after the time of line {lines[-1]}",
+                f"the time {t_text} is not after the time {previous} of line {lines[-1]}",
                 "sort the readings by time, each time once",
             )
+        previous = t_text
         if not kelvin > 0:
             raise reader.fail(
                 number,

@@ -61,7 +61,7 @@ __all__ = ["Event", "TimelineSolution", "solve_timeline"]
 
 _U = 2.0**-53  # unit roundoff of IEEE double
 #: Sub-steps of all ramps together beyond which refinement stops (with a note).
-MAX_RAMP_SUBSTEPS = 16384
+MAX_RAMP_SUBSTEPS = 4096
 #: Gauss-Legendre nodes and weights on [-1, 1] for the moments of a ramp sub-step: with
 #: ln k changing by at most 1/2 per panel, the relative error is below 1e-16.
 _NODES = np.polynomial.legendre.leggauss(6)
@@ -238,7 +238,7 @@ class _Conditions:
         r = self.plan.ramps[ramp]
         slope = (r.final - r.initial) / (r.end - r.start)
         Ta, Tb = r.initial + slope * (a - r.start), r.initial + slope * (b - r.start)
-        spread = max(law.activation_energy for law in self.arrhenius.values()) / GAS_CONSTANT
+        spread = max(abs(law.activation_energy) for law in self.arrhenius.values()) / GAS_CONSTANT
         panels = max(1, math.ceil(2.0 * spread * abs(1.0 / Ta - 1.0 / Tb)))
         x, w = _NODES
         edges = np.linspace(a, b, panels + 1)
@@ -392,7 +392,7 @@ class _Chain:
             removed = take * x[i]
             x[i] = keep * x[i]
             bound = e if p == 1 else _compose(e, _U)
-            self.moved.append((op.time, "remove", name, -removed, bound, op.statement))
+            self.moved.append((op.time, "remove", name, -float(removed), bound, op.statement))
         if 0 < p < 1:
             e = _compose(_compose(e, _U), _U)
         return x, e
@@ -517,7 +517,7 @@ def _first_substeps(plan: Plan, conditions: _Conditions) -> list[int]:
 
     if not conditions.arrhenius:
         return [1] * len(plan.ramps)
-    spread = max(law.activation_energy for law in conditions.arrhenius.values()) / GAS_CONSTANT
+    spread = max(abs(law.activation_energy) for law in conditions.arrhenius.values()) / GAS_CONSTANT
     return [
         max(4, math.ceil(4.0 * spread * abs(1.0 / r.initial - 1.0 / r.final))) for r in plan.ramps
     ]
