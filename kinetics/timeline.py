@@ -575,56 +575,58 @@ def expand(scheme: Scheme, timeline: Timeline, end: float) -> Plan:
     >>> [op.time for op in plan.operations]
     [86400.0, 172800.0, 259200.0]
     """
-    check = _Checker(scheme, end)
-    operations: list[tuple[float, int, int, Action]] = []
-    steps: list[tuple[float, float, int, Place]] = []
-    ramps: list[tuple[TemperatureRamp, int]] = []
-    feeds: list[tuple[FeedWindow, int]] = []
-    skipped: list[tuple[int, int, float]] = []
+    collect = _Collector(_Checker(scheme, end), end)
     for index, statement in enumerate(timeline.statements):
+        collect.add(index, statement)
+    return collect.plan(timeline)
+
+
+class _Collector:
+    """The operations, steps, ramps and feeds of a timeline, gathered while checking."""
+
+    def __init__(self, check: _Checker, end: float) -> None:
+        self.check = check
+        self.end = end
+        self.operations: list[tuple[float, int, int, Action]] = []
+        self.steps: list[tuple[float, float, int, Place]] = []
+        self.ramps: list[tuple[TemperatureRamp, int]] = []
+        self.feeds: list[tuple[FeedWindow, int]] = []
+        self.skipped: list[tuple[int, int, float]] = []
+
+    def add(self, index: int, statement) -> None:
+        """Check one statement and gather what it does inside the window."""
+        check, place = self.check, getattr(statement, "place", Place())
         if isinstance(statement, At):
-            ok = check.time(statement.time, "the time of an operation", statement.place)
-            check.action(statement.action, statement.place)
+            ok = check.time(statement.time, "the time of an operation", place)
+            check.action(statement.action, place)
             if not ok:
-                continue
-            if statement.time > end:
-                skipped.append((index, 1, float(statement.time)))
+                return
+            if statement.time > self.end:
+                self.skipped.append((index, 1, float(statement.time)))
             elif isinstance(statement.action, TemperatureStep):
-                steps.append(
-                    (float(statement.time), statement.action.temperature, index, statement.place)
-                )
-            elif check.limit(1, statement.place):
-                operations.append((float(statement.time), index, 0, statement.action))
+                step = (float(statement.time), statement.action.temperature, index, place)
+                self.steps.append(step)
+            elif check.limit(1, place):
+                self.operations.append((float(statement.time), index, 0, statement.action))
         elif isinstance(statement, Every):
             if not _check_every(check, statement):
-                continue
-            times, inside, after, first_after = _repetitions(statement, end)
-            if not check.limit(inside, statement.place):
-                continue
-            operations.extend((t, index, k, statement.action) for k, t in enumerate(times))
-            if after:
-                skipped.append((index, after, first_after))
+                return
+            times, inside, after, first_after = _repetitions(statement, self.end)
+            if check.limit(inside, place):
+                self.operations.extend((t, index, k, statement.action) for k, t in enumerate(times))
+                if after:
+                    self.skipped.append((index, after, first_after))
         elif isinstance(statement, FeedWindow):
-            ok = _check_window(
-                check, statement.start, statement.end, statement.place, "the feed window"
-            )
+            ok = _check_window(check, statement.start, statement.end, place, "the feed window")
             for name, rate in statement.rates:
-                if check.name(name, statement.place):
-                    check.amount(name, rate, statement.place, rate=True)
-            if ok and check.limit(2, statement.place):
-                if statement.start > end:
-                    skipped.append((index, 1, float(statement.start)))
-                else:
-                    feeds.append((statement, index))
+                if check.name(name, place):
+                    check.amount(name, rate, place, rate=True)
+            self._window(ok, index, statement, self.feeds)
         elif isinstance(statement, TemperatureRamp):
-            ok = _check_window(check, statement.start, statement.end, statement.place, "the ramp")
-            check.temperature(statement.initial, "the ramp's first temperature", statement.place)
-            check.temperature(statement.final, "the ramp's last temperature", statement.place)
-            if ok and check.limit(2, statement.place):
-                if statement.start > end:
-                    skipped.append((index, 1, float(statement.start)))
-                else:
-                    ramps.append((statement, index))
+            ok = _check_window(check, statement.start, statement.end, place, "the ramp")
+            check.temperature(statement.initial, "the ramp's first temperature", place)
+            check.temperature(statement.final, "the ramp's last temperature", place)
+            self._window(ok, index, statement, self.ramps)
         else:
             check.errors.append(
                 Place().error(
@@ -633,30 +635,41 @@ def expand(scheme: Scheme, timeline: Timeline, end: float) -> Plan:
                     "use At, Every, FeedWindow or TemperatureRamp",
                 )
             )
-    _check_ramps(check, [r for r, _ in ramps], steps)
-    if check.errors:
-        raise SchemeErrors(check.errors)
-    notes = list(dict.fromkeys(check.notes))
-    for index, count, first in skipped:
-        place = timeline.statements[index].place
-        many = count != 1
-        notes.append(
-            _note(
-                place,
-                f"{count:,} operation{'s' if many else ''} from {_seconds(first)} on "
-                f"{'fall' if many else 'falls'} after the end of the window ({_seconds(end)}) "
-                f"and {'were' if many else 'was'} not applied",
+
+    def _window(self, ok: bool, index: int, statement, into: list) -> None:
+        if ok and self.check.limit(2, statement.place):
+            if statement.start > self.end:
+                self.skipped.append((index, 1, float(statement.start)))
+            else:
+                into.append((statement, index))
+
+    def plan(self, timeline: Timeline) -> Plan:
+        """The checked plan; every mistake found is raised at once."""
+        check = self.check
+        _check_ramps(check, [r for r, _ in self.ramps], self.steps)
+        if check.errors:
+            raise SchemeErrors(check.errors)
+        notes = list(dict.fromkeys(check.notes))
+        for index, count, first in self.skipped:
+            many = count != 1
+            notes.append(
+                _note(
+                    timeline.statements[index].place,
+                    f"{count:,} operation{'s' if many else ''} from {_seconds(first)} on "
+                    f"{'fall' if many else 'falls'} after the end of the window "
+                    f"({_seconds(self.end)}) and {'were' if many else 'was'} not applied",
+                )
             )
+        operations = sorted(self.operations, key=lambda o: (o[0], o[1], o[2]))
+        ramps = sorted(self.ramps, key=lambda r: r[0].start)
+        steps = sorted(((t, T, i) for t, T, i, _ in self.steps), key=lambda s: (s[0], s[2]))
+        return Plan(
+            end=float(self.end),
+            operations=tuple(Operation(t, a, i) for t, i, _, a in operations),
+            steps=tuple(steps),
+            ramps=tuple(r for r, _ in ramps),
+            ramp_statements=tuple(i for _, i in ramps),
+            feeds=tuple(self.feeds),
+            skipped=tuple(self.skipped),
+            notes=tuple(notes),
         )
-    operations.sort(key=lambda o: (o[0], o[1], o[2]))
-    ramps.sort(key=lambda r: r[0].start)
-    return Plan(
-        end=float(end),
-        operations=tuple(Operation(t, a, i) for t, i, _, a in operations),
-        steps=tuple(sorted(((t, T, i) for t, T, i, _ in steps), key=lambda s: (s[0], s[2]))),
-        ramps=tuple(r for r, _ in ramps),
-        ramp_statements=tuple(i for _, i in ramps),
-        feeds=tuple(feeds),
-        skipped=tuple(skipped),
-        notes=tuple(notes),
-    )

@@ -20,15 +20,21 @@ the exact inputs (the scheme's constants, the start values, the amounts, the fra
 and the times as given) and the returned doubles, for every concentration above 1e-290.
 
 **Ramps.**  Under a linear temperature ramp :math:`K(t)` changes continuously.  The ramp
-is cut into sub-steps; each uses the time average of every Arrhenius constant over the
-sub-step (the first term of the Magnus expansion, :math:`\int K\,\mathrm{d}t`, which keeps
-:math:`K` essentially nonnegative; exact when the :math:`K(t)` commute).  The whole
-timeline is solved with :math:`N`, :math:`2N` and :math:`4N` sub-steps (more while needed);
-``ramp_estimate`` is the entrywise relative difference between the two finest solutions,
-accepted only where the differences shrink at least twofold per halving, so that it is
-not below the error of the finest one for a method of order one or more.  It is an
-estimate (checked against a stiff integrator in the tests), reported beside the
-certified ``error_bound``.
+is cut into sub-steps (also at output times and operations inside it).  A sub-step
+:math:`[a, a + h]` is two half-stretches of length :math:`h/2` with constant, essentially
+nonnegative matrices: with the moments :math:`m_0 = \int k\,\mathrm{d}t` and
+:math:`m_1 = \int (\tfrac{t - a}{h} - \tfrac12)\, k\,\mathrm{d}t` of each Arrhenius
+constant, the first half uses :math:`(m_0 - 4 m_1)/h`, the second :math:`(m_0 + 4m_1)/h`.
+This is the commutator-free fourth-order Magnus-type scheme (the exponents sum to
+:math:`\int K`, their commutator gives the second Magnus term); it is exact when the
+:math:`K(t)` commute, e.g. for a single temperature-dependent step.  The whole timeline is
+solved with :math:`N`, :math:`2N`, :math:`4N`, ... sub-steps until the entrywise relative
+difference of the two finest solutions is within ``ramp_rtol`` and shrinks at least
+twofold per halving (about sixteenfold for this scheme, so the difference is several
+times the error of the finer solution).  ``ramp_estimate`` at a row is the largest such
+difference up to that row (a difference can pass through zero while the error does not).
+It is an estimate, checked against a stiff integrator in the tests and reported beside
+the certified ``error_bound``; it may not be below the true error.
 
 References
 ----------
@@ -36,6 +42,8 @@ W. Magnus, "On the exponential solution of differential equations for a linear
 operator", Comm. Pure Appl. Math. 7, 649-673 (1954). doi:10.1002/cpa.3160070404
 S. Blanes, F. Casas, J. A. Oteo, J. Ros, "The Magnus expansion and some of its
 applications", Phys. Rep. 470, 151-238 (2009). doi:10.1016/j.physrep.2008.11.001
+S. Blanes, P. C. Moan, "Fourth- and sixth-order commutator-free Magnus integrators for
+linear and non-linear dynamical systems", Appl. Numer. Math. 56, 1519-1537 (2006).
 J. Xue, Q. Ye, Math. Comp. 82, 1577-1596 (2013) (the entrywise engine).
 """
 
@@ -59,7 +67,7 @@ if TYPE_CHECKING:
 
 __all__ = ["Event", "TimelineSolution", "solve_timeline"]
 
-_U = 2.0**-53  # unit roundoff of IEEE double
+_U = np.finfo(float).eps / 2  # unit roundoff of IEEE double
 #: Sub-steps of all ramps together beyond which refinement stops (with a note).
 MAX_RAMP_SUBSTEPS = 4096
 #: Gauss-Legendre nodes and weights on [-1, 1] for the moments of a ramp sub-step: with
