@@ -128,3 +128,34 @@ def test_a_bad_start_in_a_step_takes_the_checked_route():
     with pytest.raises(UsageError) as info:
         p.step(np.array([np.nan]), 1.0)
     assert info.value.problem == "start concentrations has a non-finite entry"
+
+
+def test_large_schemes_take_the_block_route_one_stretch_at_a_time():
+    # a chain of 201 species: above DENSE_DOUBLE_MAX, each stretch as propagate_certified
+    n = 201
+    K = np.zeros((n, n))
+    for i in range(n - 1):
+        K[i, i] = -(1.0 + 0.01 * i)
+        K[i + 1, i] = 1.0 + 0.01 * i
+    p = StretchPropagator(K, np.r_[1e-3, np.zeros(n - 1)])
+    start = np.r_[1.0, np.zeros(n - 1)]
+    r = p.advance(np.array([start, 2 * start]), [0.5, 0.25], [1e-17, 0.0])
+    single = propagate_certified(K, start, [0.5], np.r_[1e-3, np.zeros(n - 1)])
+    np.testing.assert_array_equal(r.concentrations[0], single.concentrations[0])
+    assert r.error_bound[0] > single.error_bound[0]  # the low part of the length counted
+    y, bound = p.step(start, 0.5)
+    assert bound >= single.error_bound[0]
+    np.testing.assert_array_equal(y, single.concentrations[0])
+
+
+def test_example_in_the_docstring():
+    import doctest
+
+    from kinetics import propagate
+
+    finder = doctest.DocTestFinder()
+    runner = doctest.DocTestRunner()
+    for test in finder.find(StretchPropagator, "StretchPropagator", globs=vars(propagate)):
+        runner.run(test)
+    assert runner.failures == 0
+    assert runner.tries >= 3

@@ -232,3 +232,11 @@ def test_mean_kinetic_temperature_refuses_bad_arguments(args, message):
 def test_a_window_of_no_length_gives_the_reading_in_force():
     log = TemperatureLog(np.array([0.0, 100.0]), np.array([300.0, 310.0]))
     assert log.mean_kinetic_temperature(end=0.0) == 300.0
+
+
+def test_examples_in_the_docstrings():
+    import doctest
+
+    import kinetics.temperature_log as module
+
+    assert doctest.testmod(module).failed == 0

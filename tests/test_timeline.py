@@ -267,3 +267,11 @@ def test_statements_are_hashable_values():
     assert a == At(1.0, Addition([("A", 1.0)]))
     assert len({a, At(1.0, Addition({"A": 1.0}))}) == 1
     assert (Timeline([a]) + Timeline([a])).statements == (a, a)
+
+
+def test_examples_in_the_docstrings():
+    import doctest
+
+    import kinetics.timeline as module
+
+    assert doctest.testmod(module).failed == 0

@@ -212,3 +212,11 @@ def test_mass_is_conserved_with_the_moved_amounts_counted(ops):
     total = sol.concentrations.sum(axis=1) - moved
     assert np.all(sol.concentrations >= 0)
     np.testing.assert_allclose(total, 1.0, rtol=1e-13 * (1 + len(ops)))
+
+
+def test_examples_in_the_docstrings():
+    import doctest
+
+    import kinetics.timeline_solve as module
+
+    assert doctest.testmod(module).failed == 0
