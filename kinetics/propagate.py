@@ -1056,6 +1056,7 @@ class StretchPropagator:
         self.species = n
         self.precision = precision
         self._kept: dict[float, tuple] = {}
+        self._ready: dict[float, tuple] = {}  # kept exponentials arranged for step()
         self._large = n > DENSE_DOUBLE_MAX
         if scipy.sparse.issparse(K) and not self._large:
             K = K.toarray()
@@ -1159,27 +1160,33 @@ class StretchPropagator:
         :meth:`advance` (which this calls for a new length or an unusual start).
         """
         start = np.asarray(start, dtype=float)
-        kept = self._kept.get(length)
+        ready = self._ready.get(length)
         usual = start.shape == (self.species,) and start.min() >= 0.0 and start.max() < np.inf
-        if kept is None or not usual:
+        if ready is None and usual and length in self._kept:
+            Fh, Fl, eps, is_dd = self._kept[length]
+            N = Fh.shape[-1]
+            ready = (Fh[None], Fl[None], np.array([is_dd]), _compose(eps, _gamma(N, is_dd)))
+            self._ready[length] = ready
+        if ready is None or not usual:
             r = self.advance(start[None], [length], [length_low])
             return r.concentrations[0], float(r.error_bound[0])
         from kinetics import _kernels
 
-        Fh, Fl, eps, is_dd = kept
+        Fh, Fl, is_dd, eps = ready
         n, N = self.species, Fh.shape[-1]
         v = np.ones((1, N, 1))
         v[0, :n, 0] = start
         oh, ol = np.empty((1, N, 1)), np.empty((1, N, 1))
-        _kernels.apply(Fh[None], Fl[None], v, np.zeros((1, N, 1)), np.array([is_dd]), oh, ol)
+        _kernels.apply(Fh, Fl, v, np.zeros((1, N, 1)), is_dd, oh, ol)
         if not np.isfinite(oh).all():  # growth: let the checked route say so
             r = self.advance(start[None], [length], [length_low])
             return r.concentrations[0], float(r.error_bound[0])
         X = np.maximum(oh + ol, 0.0).reshape(1, 1, N)
-        bound = np.array([[_compose(eps, _gamma(N, is_dd))]])
-        if length_low:
-            gamma = (N + 2) * _U
-            _kernels.residual_bounds(self._A, X, np.array([length_low]), n, gamma, TINY, bound)
+        if not length_low:
+            return X[0, 0, :n].copy(), eps + _U + eps * _U
+        bound = np.array([[eps]])
+        gamma = (N + 2) * _U
+        _kernels.residual_bounds(self._A, X, np.array([length_low]), n, gamma, TINY, bound)
         return X[0, 0, :n].copy(), float(_compose(bound[0, 0], _U))
 
     def _advance_large(self, starts, h):

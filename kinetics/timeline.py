@@ -469,7 +469,10 @@ def _repetitions(every: Every, end: float) -> tuple[list[float], int, int, float
     first = Fraction(every.period if every.start is None else every.start)
     last = Fraction(end) if every.until is None else min(Fraction(every.until), Fraction(end))
     inside = 0 if last < first else math.floor((last - first) / period) + 1
-    times = [float(first + k * period) for k in range(inside)] if inside <= MAX_OPERATIONS else []
+    # over a common denominator: int / int is rounded once (correctly) by Python
+    scale = math.lcm(period.denominator, first.denominator)
+    a, p = int(first * scale), int(period * scale)
+    times = [(a + k * p) / scale for k in range(inside)] if inside <= MAX_OPERATIONS else []
     after = 0
     if every.until is not None and Fraction(every.until) >= first:
         after = math.floor((Fraction(every.until) - first) / period) + 1 - inside
