@@ -386,9 +386,8 @@ class _Chain:
         if isinstance(op.action, Addition):
             for name, amount in op.action.amounts:
                 i = index[name]
-                if amount:
-                    x[i] = x[i] + amount
-                    self.moved.append((op.time, "add", name, float(amount), 0.0, op.statement))
+                x[i] = x[i] + amount
+                self.moved.append((op.time, "add", name, float(amount), 0.0, op.statement))
             if any(amount for _, amount in op.action.amounts):
                 e = _compose(e, _U)
             return x, e

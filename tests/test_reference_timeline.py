@@ -24,6 +24,8 @@ from fractions import Fraction
 import mpmath
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy.integrate import solve_ivp
 
 import kinetics
@@ -399,3 +401,49 @@ def test_degradation_under_a_record_equals_isothermal_at_the_equivalent_temperat
     flat = kinetics.solve(scheme.with_values(temperature=T_eq), [0.0, end])
     assert under["A"][-1] == pytest.approx(flat["A"][-1], rel=1e-13)
     assert under["A"][-1] < 0.9  # the record degrades noticeably
+
+
+@settings(max_examples=8, deadline=None)
+@given(
+    ops=st.lists(
+        st.tuples(
+            st.floats(0.0, 3.0),
+            st.sampled_from(["A", "B", "C"]),
+            st.one_of(st.floats(0.0, 1.0), st.fractions(0, 1, max_denominator=100)),
+            st.booleans(),
+        ),
+        max_size=4,
+    ),
+    window=st.tuples(st.floats(0.0, 2.0), st.floats(0.1, 2.0), st.floats(0.0, 1e-4)),
+    step=st.tuples(st.floats(0.0, 3.0), st.floats(290.0, 320.0)),
+)
+def test_random_timelines_match_the_reference_within_their_bound(ops, window, step):
+    # random additions, removals, a feed window and a temperature step, against mpmath
+    scheme = kinetics.parse(HEATED)
+    start, length, rate = window
+    line = Timeline(
+        [
+            At(t * HOUR, Addition({s: float(v)}) if add else Removal(s, min(v, 1)))
+            for t, s, v, add in ops
+        ]
+        + [
+            FeedWindow(start * HOUR, (start + length) * HOUR, {"B": rate}),
+            At(step[0] * HOUR, TemperatureStep(step[1])),
+        ]
+    )
+    times = np.linspace(0.0, 3 * HOUR, 4)
+    sol = solve_timeline(scheme, line, times)
+    reference_ops = sorted(
+        (
+            (t * HOUR, "add", {s: float(v)})
+            if add
+            else (t * HOUR, "remove", (Fraction(min(v, 1)), (s,)))
+            for t, s, v, add in ops
+        ),
+        key=lambda o: o[0],
+    )
+    feeds = [(start * HOUR, (start + length) * HOUR, {"B": rate})]
+    rows, moved = mp_timeline(
+        scheme, times.tolist(), reference_ops, [(step[0] * HOUR, step[1])], feeds
+    )
+    assert_matches(sol, rows, moved)
