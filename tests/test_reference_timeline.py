@@ -164,7 +164,7 @@ def assert_matches(sol, rows, moved, rtol=1e-13):
         changes = [e for e in sol.events if e.action in ("add", "remove")]
         assert [(e.action, e.species) for e in changes] == [m[:2] for m in moved]
         for event, (_, _, exact) in zip(changes, moved, strict=True):
-            if exact != 0:
+            if abs(exact) > mpmath.mpf("1e-290"):  # the floor of the engine's guarantee
                 err = float(abs(mp(event.change) - exact) / abs(exact))
                 worst = max(worst, err)
                 assert err <= event.error_bound
@@ -407,7 +407,7 @@ def test_degradation_under_a_record_equals_isothermal_at_the_equivalent_temperat
 @given(
     ops=st.lists(
         st.tuples(
-            st.floats(0.0, 3.0),
+            st.integers(0, 3000).map(lambda k: k / 1000),
             st.sampled_from(["A", "B", "C"]),
             st.one_of(st.floats(0.0, 1.0), st.fractions(0, 1, max_denominator=100)),
             st.booleans(),
@@ -418,7 +418,10 @@ def test_degradation_under_a_record_equals_isothermal_at_the_equivalent_temperat
     step=st.tuples(st.floats(0.0, 3.0), st.floats(290.0, 320.0)),
 )
 def test_random_timelines_match_the_reference_within_their_bound(ops, window, step):
-    # random additions, removals, a feed window and a temperature step, against mpmath
+    # random additions, removals, a feed window and a temperature step, against mpmath;
+    # operation times on a 3.6 s lattice: mpmath.expm truncates its Taylor sum normwise,
+    # so an entry far below 1e-50 of the largest one (a stretch of 1e-100 s) is outside
+    # the reference's reach (not the solver's)
     scheme = kinetics.parse(HEATED)
     start, length, rate = window
     line = Timeline(
