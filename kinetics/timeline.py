@@ -63,6 +63,7 @@ __all__ = [
     "TemperatureRamp",
     "TemperatureStep",
     "Timeline",
+    "check",
     "expand",
 ]
 
@@ -439,12 +440,16 @@ class _Checker:
             )
 
     def limit(self, count: int, place: Place) -> bool:
+        """Count operations; refuse (once, at the statement that crosses) beyond the limit."""
+        if self.count > MAX_OPERATIONS:
+            return False
         self.count += count
         if self.count > MAX_OPERATIONS:
+            window = "" if math.isinf(self.end) else f" up to {_seconds(self.end)}"
             self.errors.append(
                 place.error(
-                    f"the timeline would create {self.count:,} operations up to "
-                    f"{_seconds(self.end)}, more than {MAX_OPERATIONS:,}",
+                    f"the timeline would create {self.count:,} operations{window}, "
+                    f"more than {MAX_OPERATIONS:,}",
                     "repeat less often, end the repetition earlier with 'until', "
                     "or solve a shorter window",
                 )
@@ -467,7 +472,12 @@ def _repetitions(every: Every, end: float) -> tuple[list[float], int, int, float
     """
     period = Fraction(every.period)
     first = Fraction(every.period if every.start is None else every.start)
-    last = Fraction(end) if every.until is None else min(Fraction(every.until), Fraction(end))
+    if every.until is None:
+        last = Fraction(end)
+    else:
+        last = (
+            Fraction(every.until) if math.isinf(end) else min(Fraction(every.until), Fraction(end))
+        )
     inside = 0 if last < first else math.floor((last - first) / period) + 1
     # over a common denominator: int / int is rounded once (correctly) by Python
     scale = math.lcm(period.denominator, first.denominator)
@@ -584,6 +594,32 @@ def expand(scheme: Scheme, timeline: Timeline, end: float) -> Plan:
     return collect.plan(timeline)
 
 
+def check(scheme: Scheme, timeline: Timeline) -> list[SchemeError]:
+    """Every mistake of a timeline that does not depend on the solved window.
+
+    For the scheme language, which reports all mistakes of a file at once before the
+    window is known; :func:`expand` repeats these checks and adds the count of
+    repetitions inside the window.
+
+    Returns
+    -------
+    list of SchemeError
+        Empty for a correct timeline.
+
+    Examples
+    --------
+    >>> import kinetics
+    >>> s = kinetics.parse("A -> B  k = 1 1/s\\nstart A = 1 M")
+    >>> [e.problem for e in check(s, Timeline([At(-1.0, Addition({"A": 1.0}))]))]
+    ['the time of an operation must be finite and >= 0 s, not -1.0 s']
+    """
+    collect = _Collector(_Checker(scheme, math.inf), math.inf)
+    for index, statement in enumerate(timeline.statements):
+        collect.add(index, statement)
+    _check_ramps(collect.check, [r for r, _ in collect.ramps], collect.steps)
+    return collect.check.errors
+
+
 class _Collector:
     """The operations, steps, ramps and feeds of a timeline, gathered while checking."""
 
@@ -614,6 +650,8 @@ class _Collector:
         elif isinstance(statement, Every):
             if not _check_every(check, statement):
                 return
+            if math.isinf(self.end) and statement.until is None:
+                return  # no window yet: nothing to count
             times, inside, after, first_after = _repetitions(statement, self.end)
             if check.limit(inside, place):
                 self.operations.extend((t, index, k, statement.action) for k, t in enumerate(times))

@@ -20,6 +20,7 @@ from kinetics.timeline import (
     TemperatureRamp,
     TemperatureStep,
     Timeline,
+    check,
     expand,
 )
 
@@ -275,3 +276,21 @@ def test_examples_in_the_docstrings():
     import kinetics.timeline as module
 
     assert doctest.testmod(module).failed == 0
+
+
+def test_check_without_a_window_for_the_language():
+    # the scheme language reports every mistake of a file before the window is known
+    line = Timeline(
+        [
+            Every(3600.0, Addition({"A": 1.0})),  # unbounded: nothing to count yet
+            Every(1.0, Addition({"A": 1.0}), until=1e6),
+            At(5.0, Removal.percent(120, "B")),
+        ]
+    )
+    assert [e.headline() for e in check(SCHEME, line)] == [
+        "<timeline>: the timeline would create 1,000,000 operations, more than 250,000; "
+        "repeat less often, end the repetition earlier with 'until', or solve a shorter window",
+        "<timeline>: cannot remove 120 %: the part removed must be from 0 to 100 %; "
+        "write 100 % for a complete removal",
+    ]
+    assert check(SCHEME, Timeline([Every(3600.0, Addition({"A": 1.0}))])) == []
