@@ -109,7 +109,8 @@ def _pairs(values) -> tuple[tuple[str, float], ...]:
 
 @dataclass(frozen=True, slots=True)
 class Addition:
-    """Instant rise of named species [the scheme's concentration unit].
+    """Instant rise of named species [the scheme's ``concentration_unit``; for a scheme
+    written in mass units that is its amount twin, so masses are converted first].
 
     Parameters
     ----------

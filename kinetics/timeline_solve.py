@@ -58,6 +58,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from . import _doubledouble as dd
+from .errors import UsageError, shown_value
 from .propagate import TINY, StretchPropagator
 from .solution import check_times
 from .timeline import Addition, Plan, Removal, Timeline, expand
@@ -697,9 +698,15 @@ def solve_timeline(
     True
     """
     t = check_times(times)
+    if not (isinstance(ramp_rtol, float | int) and 0 < ramp_rtol < 1):
+        raise UsageError(
+            f"ramp_rtol must be a number between 0 and 1, not {shown_value(ramp_rtol)}",
+            "e.g. 1e-10 (relative accuracy of the ramp sub-steps)",
+        )
     plan = expand(scheme, timeline, float(t[-1]))
     if include_operations:
-        t = np.union1d(t, [op.time for op in plan.operations])
+        extra = np.setdiff1d([op.time for op in plan.operations if op.time >= t[0]], t)
+        t = np.sort(np.concatenate([t, extra]), kind="stable")
     conditions = _Conditions(scheme, plan, precision)
     best, estimate, moved_estimate, notes = _refine(scheme, plan, conditions, t, ramp_rtol)
     if plan.ramps and conditions.arrhenius:

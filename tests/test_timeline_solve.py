@@ -15,6 +15,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import kinetics
+from kinetics.errors import SchemeErrors, UsageError, shown_value
 from kinetics.timeline import (
     Addition,
     At,
@@ -220,3 +221,26 @@ def test_examples_in_the_docstrings():
     import kinetics.timeline_solve as module
 
     assert doctest.testmod(module).failed == 0
+
+
+@pytest.mark.parametrize("bad", [0.0, 1.5, float("nan"), "1e-9"])
+def test_ramp_rtol_is_checked(bad):
+    with pytest.raises(UsageError) as info:
+        solve_timeline(CLOSED, Timeline([]), [0.0, 1.0], ramp_rtol=bad)
+    assert (
+        info.value.problem == f"ramp_rtol must be a number between 0 and 1, not {shown_value(bad)}"
+    )
+    assert info.value.hint == "e.g. 1e-10 (relative accuracy of the ramp sub-steps)"
+
+
+def test_include_operations_keeps_repeated_output_times():
+    line = Timeline([At(0.5 * HOUR, Addition({"A": 0.1}))])
+    sol = solve_timeline(CLOSED, line, [0.0, HOUR, HOUR], include_operations=True)
+    assert sol.times.tolist() == [0.0, 0.5 * HOUR, 0.5 * HOUR, HOUR, HOUR]
+
+
+def test_mistakes_in_the_timeline_come_out_together():
+    line = Timeline([At(-1.0, Addition({"A": 1.0})), At(1.0, Addition({"Z": 1.0}))])
+    with pytest.raises(SchemeErrors) as info:
+        solve_timeline(CLOSED, line, [0.0, HOUR])
+    assert len(info.value.errors) == 2
