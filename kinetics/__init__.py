@@ -16,6 +16,7 @@ except PackageNotFoundError:  # pragma: no cover - running from a source tree
     __version__ = "0.0.0"
 
 from .errors import (
+    ArgumentTypeError,
     DataError,
     GrowthError,
     KineticsError,
@@ -32,8 +33,8 @@ _LAZY = {
     "fit": "fit",
     "Measurements": "measurements",
     "read_measurements": "measurements",
-    "load": "parsing",
-    "parse": "parsing",
+    "load": "language",
+    "parse": "language",
     "Scheme": "scheme",
     "Solution": "solution",
     "solve": "solution",
@@ -79,6 +80,7 @@ class _Package(type(sys.modules[__name__])):
 sys.modules[__name__].__class__ = _Package
 
 __all__ = [
+    "ArgumentTypeError",
     "DataError",
     "FitResult",
     "GrowthError",

@@ -44,7 +44,11 @@ Intermediate maxima
     time).  The highest one is flagged *global* when it is also at least the start value
     and the long-time limit (otherwise the supremum over :math:`t \ge 0` is at
     :math:`t = 0` or approached as :math:`t \to \infty`).  Maxima after the end of the
-    chosen time window are found all the same and flagged ``beyond_window``.  Cycles can
+    chosen time window are found all the same and flagged ``beyond_window``.  Where
+    :math:`(Kc + f)_i` is only rounding noise (a species in quasi-steady state, e.g. the
+    short-lived daughter of a long-lived parent), the derivative is taken as
+    :math:`e^{tK}g^+ - e^{tK}g^-` with :math:`g^\pm` the positive and negative parts of
+    :math:`Kc_0 + f`, each propagated entrywise accurately.  Cycles can
     give several local maxima; all are listed.  Local maxima whose size is below the
     rounding level of the curve (damped oscillation about an equilibrium after ~30
     relaxation times) cannot be resolved in double precision and are not reported.
@@ -69,10 +73,10 @@ Time to the limit
     For a tolerance :math:`\epsilon` (default 0.01): the time after which every species
     stays within :math:`\epsilon` of its own limit,
     :math:`|c_i(s) - c_i(\infty)| \le \epsilon\,c_i(\infty)` for all :math:`s \ge t`.  A
-    species whose limit is zero is compared with :math:`\epsilon` times the largest limit
-    of any species (the largest start value when all limits are zero).  Reported per
-    species and for the whole scheme (the largest of them); ``None`` when the scheme has no
-    finite limit.
+    species whose limit is zero is compared with :math:`\epsilon` times the largest finite
+    limit of any species (the largest start value when all limits are zero).  Reported per
+    species and for the whole scheme (the largest of them).  A species that grows without
+    bound has none; the others are still reported, and the whole scheme has ``None``.
 
 Relaxation times
     :math:`\tau_k = 1/|\operatorname{Re}\lambda_k|` for the nonzero eigenvalues
@@ -144,11 +148,16 @@ import numpy as np
 import scipy.linalg
 import scipy.sparse
 
+from kinetics import checks
 from kinetics.errors import UsageError
 from kinetics.network import condensation
-from kinetics.propagate import propagate
+from kinetics.propagate import DENSE_MAX, propagate, propagate_batch
 
 __all__ = [
+    "MAX_LIFETIMES",
+    "MAX_RATE",
+    "MAX_SCALE",
+    "MAX_TIME",
     "Areas",
     "FractionTime",
     "Limit",
@@ -159,6 +168,7 @@ __all__ = [
     "TimeToLimit",
     "YieldsAndSelectivity",
     "areas",
+    "check_working_range",
     "half_life",
     "half_life_detail",
     "intermediate_maxima",
@@ -190,6 +200,18 @@ _XTOL = 1e-13
 # Eigenvalue gaps (relative) for "repeated" and "nearly repeated" rates.
 _REPEATED = 1e-10
 _NEARLY = 1e-3
+
+#: Working range of the engine and of the scan (README, "Limits of the method"): the
+#: fastest consumption rate sum k of a species [1/s], the latest time [s], and the
+#: number of shortest lifetimes 1/sigma (sigma = the largest sum k) a time may span.
+#: The entrywise error of the exponential grows about in proportion to sigma t
+#: (measured: 4e-6 relative at sigma t = 5e26 in double-double).
+MAX_RATE = 1e100
+MAX_TIME = 1e100
+MAX_LIFETIMES = 1e27
+#: Largest concentration times the cube of the fastest consumption rate (the summary forms
+#: third derivatives of the curves; the double range ends near 1.8e308).
+MAX_SCALE = 1e300
 
 _NEVER, _DECAY, _CONST = -2, -1, 0  # growth degree of a class: t^q (see _Structure)
 _EXP = 10**9
@@ -353,6 +375,73 @@ def _check_fraction(x, what: str) -> float:
     if not 0.0 < x < 1.0:
         raise UsageError(f"{what} must lie strictly between 0 and 1, got {x!r}", "e.g. 0.5")
     return x
+
+
+def check_working_range(
+    rates, t_end: float, names: Sequence[str] | None = None, amount: float = 0.0
+) -> None:
+    r"""Refuse a problem outside the engine's working range, before any work is done.
+
+    Parameters
+    ----------
+    rates : array_like, shape (n,)
+        Consumption rate :math:`\sum k` of each species [1/s] (:math:`-K_{ii}`).
+    t_end : float
+        The latest time asked for [s].
+    names : sequence of str, optional
+        Species names for the message.
+    amount : float, optional
+        The largest concentration the problem can reach by simple bounds [conc]: start
+        values plus feed times the time span.
+
+    Raises
+    ------
+    kinetics.errors.UsageError
+        When a rate exceeds :data:`MAX_RATE`, ``t_end`` exceeds :data:`MAX_TIME`,
+        :math:`\sigma t_{end}` (:math:`\sigma = \max \sum k`) exceeds :data:`MAX_LIFETIMES`,
+        or :math:`\max(\sigma, 1)^3` ``amount`` exceeds :data:`MAX_SCALE` (the summary forms
+        the third derivative of the curves).
+
+    Examples
+    --------
+    >>> check_working_range([1e-8, 1e10], 1e9)
+    >>> try:
+    ...     check_working_range([1.0], 1e300)
+    ... except UsageError as exc:
+    ...     print(exc.problem)
+    the times reach 1e+300 s, beyond the working range of 1e+100 s
+    """
+    r = np.asarray(rates, dtype=float).reshape(-1)
+    if names is None:
+        names = [f"species {i}" for i in range(r.size)]
+    k = int(np.argmax(r)) if r.size else 0
+    sigma = float(r[k]) if r.size else 0.0
+    if not sigma <= MAX_RATE:  # also nan
+        raise UsageError(
+            f"{names[k]} is consumed at {sigma:.3g} 1/s (its sum of rate constants), beyond "
+            f"the working range of {MAX_RATE:.0e} 1/s (the fastest chemical steps take about "
+            "1e13 1/s)",
+            "check the constants and their units",
+        )
+    if t_end > MAX_TIME:
+        raise UsageError(
+            f"the times reach {t_end:.6g} s, beyond the working range of {MAX_TIME:.0e} s",
+            "give a shorter time span",
+        )
+    if sigma * t_end > MAX_LIFETIMES:
+        raise UsageError(
+            f"the times reach {t_end:.6g} s, {sigma * t_end:.3g} times the shortest lifetime "
+            f"in the scheme ({names[k]}: 1/sum k = {1 / sigma:.3g} s); the exact engine spans "
+            f"at most {MAX_LIFETIMES:.0e} lifetimes",
+            "give a shorter time span",
+        )
+    if amount * max(sigma, 1.0) ** 3 > MAX_SCALE:
+        raise UsageError(
+            f"the concentrations (up to {amount:.3g} in the scheme's unit) are too large for "
+            f"the rates of the scheme ({names[k]} is consumed at {sigma:.3g} 1/s): their rates "
+            "of change leave the range of numbers",
+            "give the start values and feeds in a larger unit",
+        )
 
 
 # ---------------------------------------------------------------------------------------
@@ -655,6 +744,8 @@ class SchemeSummary:
     yield_basis : float
         [conc] total start concentration the yields refer to.
     limit_notes : tuple of str
+    formed_at_window_end, formed_in_limit : dict of str to float, or None
+        [conc] amount of each end product formed, Delta c_P.
     """
 
     relaxation_times: tuple[float, ...]
@@ -671,10 +762,23 @@ class SchemeSummary:
     selectivity_in_limit: dict[str, float] | None
     yield_basis: float
     limit_notes: tuple[str, ...] = ()
+    formed_at_window_end: dict[str, float] | None = None
+    formed_in_limit: dict[str, float] | None = None
 
     def to_dict(self) -> dict[str, Any]:
         def sel(d):
             return None if d is None else {k: _num(v) for k, v in d.items()}
+
+        def ratios(d):
+            # S_P/Q = dc_P / dc_Q for each pair of end products, in their order
+            if d is None:
+                return None
+            names = list(d)
+            return {
+                f"{p}/{q}": _num(d[p] / d[q]) if d[q] != 0 else None
+                for k, p in enumerate(names)
+                for q in names[k + 1 :]
+            }
 
         return {
             "relaxation_times": [_num(x) for x in self.relaxation_times],
@@ -691,6 +795,10 @@ class SchemeSummary:
             "selectivity_in_limit": sel(self.selectivity_in_limit),
             "yield_basis": _num(self.yield_basis),
             "limit_notes": list(self.limit_notes),
+            "amount_formed_at_window_end": sel(self.formed_at_window_end),
+            "amount_formed_in_limit": sel(self.formed_in_limit),
+            "selectivity_ratios_at_window_end": ratios(self.formed_at_window_end),
+            "selectivity_ratios_in_limit": ratios(self.formed_in_limit),
         }
 
 
@@ -835,19 +943,27 @@ class _Structure:
 
 #: Largest scheme whose reported quantities use the double-double engine.
 _FULL_PRECISION_MAX = 20
+#: Larger schemes too when sigma t over the scan exceeds this (plain double would lose
+#: more than the 1e-12 rounding-noise level assumed for the scan).
+_DOUBLE_SIGMA_T = 1e4
 
 
 class _Context:
     """Shared work for all derived quantities of one problem (K, c0, feed)."""
 
-    def __init__(self, K, c0, feed=None, *, names=None, t_window=None) -> None:
+    def __init__(self, K, c0, feed=None, *, names=None, t_window=None, K_low=None) -> None:
         self.Kd, self.Ks = _check_matrix(K)
         n = self.Ks.shape[0]
         self.n = n
-        # reported values: the entrywise engine in full ("auto") precision on small
-        # schemes; above _FULL_PRECISION_MAX species its plain-double route, whose
-        # entrywise error (~1e-14) is far below the 1e-10 aimed at here
-        self.precision = "auto" if n <= _FULL_PRECISION_MAX else "double"
+        # low-order parts of K (the exact matrix is K + K_low, see
+        # kinetics.ratematrix.rate_matrix_pair): every propagation takes them
+        self.K_low = None
+        if K_low is not None:
+            self.K_low = (
+                checks.low_parts(K_low, (n, n), "K_low")
+                if self.Kd is not None
+                else scipy.sparse.csr_array(K_low, dtype=float)
+            )
         self.c0 = _check_vector(c0, n, "c0", "start concentrations, one per species, >= 0")
         if feed is None:
             self.f = np.zeros(n)
@@ -862,11 +978,28 @@ class _Context:
             raise UsageError(f"{len(names)} species names for {n} species", "one name per row")
         self.names = names
         self.t_window = None if t_window is None else _check_positive_time(t_window, "t_window")
+        window = self.t_window or 0.0
+        amount = float(self.c0.sum() + self.f.sum() * window)
+        check_working_range(-self.Ks.diagonal(), window, names, amount)
         self.struct = _Structure(self.Ks, self.Kd)
         self.absK = abs(self.Ks)
         self._limit: tuple | None = None
         self._grid: dict | None = None
         self._stat: list | None = None
+        # every value (scan and refinement) from the entrywise engine in full ("auto")
+        # precision on small schemes; above _FULL_PRECISION_MAX species its plain-double
+        # route, whose entrywise error (about 1e-16 per unit of sigma t) stays below the
+        # rounding-noise level assumed here unless the scheme is stiff over the scan
+        span = self._scan_span()
+        sigma_t = float(np.max(-self.Ks.diagonal())) * (span[1] if span else 0.0)
+        small = n <= _FULL_PRECISION_MAX
+        self.precision = "auto" if small or sigma_t > _DOUBLE_SIGMA_T else "double"
+        # exact split K c0 + f = g+ - g- of the derivative at t = 0 (see _state)
+        self._split = None
+        if self.Kd is not None and n <= DENSE_MAX:
+            diag = np.diag(self.Kd)
+            gp = (self.Kd - np.diag(diag)) @ self.c0 + self.f
+            self._split = (gp, -diag * self.c0)
 
     # -- matrix helpers ----------------------------------------------------------------
     @property
@@ -883,20 +1016,65 @@ class _Context:
         return _REL_NOISE_D * ((self.absK @ C.T).T + np.abs(self.f))
 
     def _propagate(self, times: np.ndarray, precision: str | None = None) -> np.ndarray:
-        """c at arbitrary (unsorted) times, one engine call.
-
-        The scan that brackets roots uses ``precision="double"`` (signs and
-        brackets need far less than the final accuracy); every reported value is
-        refined with the default entrywise-accurate engine.
-        """
+        """c at arbitrary (unsorted) times, one engine call."""
         times = np.asarray(times, dtype=float)
         if times.size == 0:
             return np.zeros((0, self.n))
         order = np.argsort(times, kind="stable")
         out = np.empty((times.size, self.n))
         precision = precision or self.precision
-        out[order] = propagate(self.K, self.c0, times[order], self.feed, precision=precision)
+        out[order] = propagate(
+            self.K, self.c0, times[order], self.feed, precision=precision, K_low=self.K_low
+        )
         return out
+
+    def _state(self, times: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        r"""c, its exact derivative :math:`d = Kc + f` and the noise of ``d`` at (unsorted) times.
+
+        Two evaluations of the derivative, and per entry the one with the smaller
+        rounding noise is kept:
+
+        * :math:`Kc + f` from the propagated ``c`` (noise :math:`10^{-12}(|K|c + f)`);
+        * :math:`d(t) = e^{tK} g^+ - e^{tK} g^-` with the exact split
+          :math:`Kc_0 + f = g^+ - g^-`, :math:`g^+ = K_{off} c_0 + f`,
+          :math:`g^- = -\operatorname{diag}(K) c_0` (both >= 0), each propagated entrywise
+          accurately (noise: the larger of :math:`10^{-12}` and the engine's bound, times
+          :math:`e^{tK}(g^+ + g^-)`).
+
+        The second one keeps the sign of the derivative of a species in quasi-steady state
+        (inflow and outflow equal to many digits, e.g. a short-lived daughter of a
+        long-lived parent), where :math:`Kc + f` is pure cancellation.  Dense schemes only
+        (up to :data:`kinetics.propagate.DENSE_MAX` species); larger ones use the first.
+        """
+        times = np.asarray(times, dtype=float)
+        C = self._propagate(times)
+        D = self._apply(C) + self.f
+        N = self._noise_d(C)
+        # the second evaluation only where the first leaves a sign unknown
+        unknown = np.flatnonzero(np.any((np.abs(D) <= N) & (N > 0), axis=1))
+        if self._split is None or unknown.size == 0:
+            return C, D, N
+        t = times[unknown]
+        order = np.argsort(t, kind="stable")
+        Kd = self.Kd
+        Kl = np.zeros_like(Kd) if self.K_low is None else self.K_low
+        X, bound = propagate_batch(
+            np.stack([Kd, Kd]),
+            np.stack(self._split),
+            t[order],
+            precision=self.precision,
+            return_bound=True,
+            K_low=np.stack([Kl, Kl]),
+        )
+        P, Q = np.empty((2, t.size, self.n))
+        P[order], Q[order] = X[0], X[1]
+        rel = np.empty(t.size)
+        rel[order] = np.maximum(bound.max(axis=0), _REL_NOISE_D)
+        N_split = rel[:, None] * (P + Q)
+        better = N_split < N[unknown]
+        D[unknown] = np.where(better, P - Q, D[unknown])
+        N[unknown] = np.where(better, N_split, N[unknown])
+        return C, D, N
 
     def _solve_block(self, cl: _Class, rhs: np.ndarray) -> np.ndarray:
         """x = (-K_CC)^{-1} rhs for a decaying class (a nonsingular M-matrix)."""
@@ -1058,6 +1236,9 @@ class _Context:
         if grow:
             t_hi = min(t_hi, 300.0 / max(grow))
         t_hi = max(t_hi, 10 * t_lo)
+        # within the working range (quantities later than that are reported as not found)
+        sigma = float(np.max(-self.Ks.diagonal()))
+        t_hi = min(t_hi, MAX_TIME, MAX_LIFETIMES / sigma if sigma > 0 else MAX_TIME)
         return t_lo, t_hi
 
     def _base_times(self) -> np.ndarray:
@@ -1104,26 +1285,24 @@ class _Context:
         if self._grid is not None:
             return self._grid
         T = self._base_times()
-        C = self._propagate(T, precision="double")
-        g = self._eval_grid(T, C)
+        g = self._eval_grid(T, *self._state(T))
         for _ in range(3):
             new = self._hidden_turns(g)
             if new.size == 0:
                 break
-            Cn = self._propagate(new, precision="double")
+            Cn, Dn, Nn = self._state(new)
             T = np.concatenate([g["T"], new])
-            C = np.concatenate([g["C"], Cn])
             order = np.argsort(T, kind="stable")
-            g = self._eval_grid(T[order], C[order])
+            parts = zip("CDN", (Cn, Dn, Nn), strict=True)
+            C, D, N = (np.concatenate([g[k], x])[order] for k, x in parts)
+            g = self._eval_grid(T[order], C, D, N)
         self._grid = g
         return g
 
-    def _eval_grid(self, T, C) -> dict:
+    def _eval_grid(self, T, C, D, N) -> dict:
         ok = np.all(np.isfinite(C), axis=1)
-        T, C = T[ok], C[ok]
-        D = self._apply(C) + self.f
+        T, C, D, N = T[ok], C[ok], D[ok], N[ok]
         D2 = self._apply(D)
-        N = self._noise_d(C)
         # rounding noise of K (K c + f): the noise of each d_j carried through |K|
         N2 = (self.absK @ (N + _REL_NOISE_D * np.abs(D)).T).T
         D3 = self._apply(D2)
@@ -1210,15 +1389,13 @@ class _Context:
             k = np.flatnonzero(active)
             if k.size == 0:
                 break
-            C = self._propagate(x[k])
-            D = self._apply(C) + self.f
+            C, D, N1 = self._state(x[k])
             rows = np.arange(k.size)
             sp = species[k]
             ci, di = C[rows, sp], D[rows, sp]
             D2 = self._apply(D)
             d2i = D2[rows, sp]
             d3i = self._apply(D2)[rows, sp]
-            N1 = self._noise_d(C)
             N2 = (self.absK @ (N1 + _REL_NOISE_D * np.abs(D)).T).T
             N3 = (self.absK @ (N2 + _REL_NOISE_D * np.abs(D2)).T).T
             dk = deriv[k]
@@ -1437,19 +1614,14 @@ class _Context:
         lim, _ = self.limit_parts()
         n = self.n
         per = np.full(n, np.nan)
-        if not lim.bounded:
-            who = ", ".join(self.names[i] for i in np.flatnonzero(lim.unbounded))
-            verb = "grows" if lim.unbounded.sum() == 1 else "grow"
-            return TimeToLimit(
-                None,
-                per,
-                tolerance,
-                f"no finite limit: {who} {verb} without bound",
-            )
         L = lim.values
-        big = L.max() if L.max() > 0 else self.c0.max()
+        finite = L[~lim.unbounded]
+        big = finite.max(initial=0.0)
+        big = big if big > 0 else self.c0.max()
         probs = []
         for i in range(n):
+            if lim.unbounded[i]:
+                continue  # no limit to approach; the others are still timed
             thr = tolerance * (L[i] if L[i] > 0 else big)
             smp = self.samples(i)
             v = smp[1]
@@ -1470,6 +1642,10 @@ class _Context:
             probs.append((i, smp, ka, kb, lev))
         if probs:
             per[np.array([p[0] for p in probs])] = self._level_roots(probs)
+        if not lim.bounded:
+            who = ", ".join(self.names[i] for i in np.flatnonzero(lim.unbounded))
+            verb = "grows" if lim.unbounded.sum() == 1 else "grow"
+            return TimeToLimit(None, per, tolerance, f"no finite limit: {who} {verb} without bound")
         if np.isinf(per).any():
             return TimeToLimit(None, per, tolerance, "not settled within the scanned time span")
         return TimeToLimit(float(per.max()), per, tolerance, "")
@@ -1477,10 +1653,14 @@ class _Context:
     def areas(self, times_end: np.ndarray) -> np.ndarray:
         """Exact int_0^T c dt via the augmented system d(area)/dt = c (Van Loan 1978)."""
         n = self.n
+        Kal = None
         if self.Kd is not None:
             Ka = np.zeros((2 * n, 2 * n))
             Ka[:n, :n] = self.Kd
             Ka[n:, :n] = np.eye(n)
+            if self.K_low is not None:
+                Kal = np.zeros((2 * n, 2 * n))
+                Kal[:n, :n] = self.K_low
         else:
             eye = scipy.sparse.identity(n, format="csr")
             Ka = scipy.sparse.bmat([[self.Ks, None], [eye, None]], format="csr")
@@ -1489,7 +1669,7 @@ class _Context:
         fa = None if self.feed is None else np.concatenate([self.f, np.zeros(n)])
         order = np.argsort(times_end, kind="stable")
         out = np.empty((times_end.size, n))
-        out[order] = propagate(Ka, c0a, times_end[order], fa)[:, n:]
+        out[order] = propagate(Ka, c0a, times_end[order], fa, K_low=Kal)[:, n:]
         return out
 
 
@@ -1802,7 +1982,9 @@ def time_to_limit(K, c0, feed=None, tolerance: float = 0.01) -> TimeToLimit:
     -----
     For ``A -> B``: :math:`t = \ln(1/\epsilon)/k`.  For ``A <=> B`` from pure A:
     :math:`t = \ln(\max(1, k_f/k_r)/\epsilon)/(k_f + k_r)`.  When every limit is zero the
-    largest start value is the scale.  None when some species grows without bound.
+    largest start value is the scale.  A species that grows without bound has no time
+    (nan); the others are timed all the same (the scale is then the largest finite limit),
+    and the time for the whole scheme is None.
 
     References
     ----------
@@ -2116,6 +2298,8 @@ def summarise(
     feed=None,
     t_window: float | None = None,
     tolerance: float = 0.01,
+    *,
+    K_low=None,
 ) -> dict[str, SpeciesSummary]:
     r"""All derived quantities per species, ready for a table or JSON.
 
@@ -2133,6 +2317,9 @@ def summarise(
         End of the chosen time window [s] (for flags and the windowed area).
     tolerance : float
         Tolerance of the time to the limit [-], default 0.01.
+    K_low : array_like or sparse, optional
+        Low-order parts of ``K`` (the exact matrix is ``K + K_low``; see
+        :func:`kinetics.ratematrix.rate_matrix_pair`).
 
     Returns
     -------
@@ -2155,7 +2342,7 @@ def summarise(
     ----------
     See the module docstring.
     """
-    return summarise_all(K, c0, species, feed, t_window, tolerance)[0]
+    return summarise_all(K, c0, species, feed, t_window, tolerance, K_low=K_low)[0]
 
 
 def summarise_all(
@@ -2165,6 +2352,8 @@ def summarise_all(
     feed=None,
     t_window: float | None = None,
     tolerance: float = 0.01,
+    *,
+    K_low=None,
 ) -> tuple[dict[str, SpeciesSummary], SchemeSummary]:
     r"""Per-species summaries and the scheme-wide quantities, from one shared scan.
 
@@ -2182,6 +2371,8 @@ def summarise_all(
         End of the chosen time window [s].
     tolerance : float
         Tolerance of the time to the limit [-], default 0.01.
+    K_low : array_like or sparse, optional
+        Low-order parts of ``K`` (see :func:`summarise`).
 
     Returns
     -------
@@ -2202,7 +2393,7 @@ def summarise_all(
     See the module docstring.
     """
     names = list(species)
-    ctx = _Context(K, c0, feed, names=names, t_window=t_window)
+    ctx = _Context(K, c0, feed, names=names, t_window=t_window, K_low=K_low)
     tolerance = _check_fraction(tolerance, "tolerance")
     n = ctx.n
     if len(set(names)) != n:
@@ -2272,5 +2463,7 @@ def summarise_all(
         selectivity_in_limit=share(ys.selectivity_in_limit),
         yield_basis=ys.basis,
         limit_notes=lim.notes,
+        formed_at_window_end=share(ys.formed_at_window_end),
+        formed_in_limit=share(ys.formed_in_limit),
     )
     return out, scheme

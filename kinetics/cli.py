@@ -391,7 +391,7 @@ def write_outputs(paths, write_one) -> None:
 def _write_output(path, result, scheme, time_unit, summary, document, species) -> None:
     """Write one --out file; the format follows the extension (already checked)."""
     from . import export
-    from .overview import inputs_tables, summary_rows
+    from .overview import certificate_rows, inputs_tables, scheme_rows, summary_rows
 
     suffix = path.suffix.lower()
     frame = result.to_frame(time_unit)
@@ -414,8 +414,9 @@ def _write_output(path, result, scheme, time_unit, summary, document, species) -
             frame,
             path,
             summary_rows=rows,
-            inputs=inputs_tables(scheme),
+            inputs={**inputs_tables(scheme), "error bound": certificate_rows(result, time_unit)},
             scheme_text=scheme.text,
+            scheme_rows=scheme_rows(summary, time_unit, result.concentration_unit),
         )
     elif suffix in (".png", ".svg"):
         from .plotting import save_plot

@@ -22,6 +22,7 @@ import numbers
 
 __all__ = [
     "MAX_SHOWN_ERRORS",
+    "ArgumentTypeError",
     "DataError",
     "GrowthError",
     "KineticsError",
@@ -29,9 +30,12 @@ __all__ = [
     "SchemeError",
     "SchemeErrors",
     "SchemeFileError",
+    "UnitError",
+    "UnknownUnitError",
     "UsageError",
     "shorten",
     "shown_value",
+    "type_name",
 ]
 
 #: Longest piece of a user's text quoted in a message [characters]; longer pieces are cut.
@@ -83,6 +87,11 @@ def shown_value(value) -> str:
     if isinstance(value, numbers.Real) and not isinstance(value, bool):
         return repr(float(value)) if not isinstance(value, numbers.Integral) else str(int(value))
     return shorten(repr(value))
+
+
+def type_name(value) -> str:
+    """``None`` for None, else the name of the value's type (for messages about arguments)."""
+    return "None" if value is None else type(value).__name__
 
 
 def _window(text: str, column: int, width: int) -> tuple[str, int, int]:
@@ -234,6 +243,31 @@ class OutputFileError(_FileProblem):
     """
 
 
+class UnitError(KineticsError, ValueError):
+    """A unit that cannot be read: a piece that is no unit, an exponent beyond the limit,
+    a number where a unit belongs, or a unit longer than a chemist writes.
+
+    Raised by :func:`kinetics.units.parse_unit` with a message that names the piece;
+    the readers of files turn it into a :class:`SchemeError` with a place and a hint.
+
+    Examples
+    --------
+    >>> isinstance(UnitError("the exponent 99 is too large"), ValueError)
+    True
+    """
+
+
+class UnknownUnitError(UnitError):
+    """A unit whose pieces read well but that no unit of the registry matches
+    (``sec-1``, ``mol/Lt``).
+
+    Examples
+    --------
+    >>> str(UnknownUnitError("unknown unit 'sec-1'"))
+    "unknown unit 'sec-1'"
+    """
+
+
 class _ProblemAndHint(KineticsError):
     """An error told as ``problem; hint`` with no place in a file."""
 
@@ -251,6 +285,14 @@ class _ProblemAndHint(KineticsError):
 
 class UsageError(_ProblemAndHint, ValueError):
     """A wrong argument to a command or to a library function (times, options, names)."""
+
+
+class ArgumentTypeError(_ProblemAndHint, TypeError):
+    """A library function called with an argument of the wrong type.
+
+    For example a file name or ``None`` where a checked scheme is needed, or a
+    single string where a list of names is needed.
+    """
 
 
 class DataError(KineticsError, ValueError):

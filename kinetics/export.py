@@ -429,6 +429,7 @@ def write_xlsx(
     summary_rows: list[dict] | None = None,
     inputs: dict[str, list[dict]] | None = None,
     scheme_text: str = "",
+    scheme_rows: list[dict] | None = None,
 ) -> None:
     """Write an Excel workbook with sheets ``concentrations``, ``summary`` and ``inputs``.
 
@@ -447,6 +448,9 @@ def write_xlsx(
         Named tables of the scheme as parsed (see :func:`kinetics.overview.inputs_tables`).
     scheme_text : str, optional
         The scheme as written, appended to the inputs sheet line by line.
+    scheme_rows : list of dict, optional
+        Whole-scheme quantities (see :func:`kinetics.overview.scheme_rows`), written below
+        the species rows of the summary sheet.
 
     Raises
     ------
@@ -488,6 +492,8 @@ def write_xlsx(
             _append(summary_sheet, [row.get(h) for h in header])
     else:
         summary_sheet.append(["no summary quantities available"])
+    if scheme_rows:
+        _xlsx_block(summary_sheet, "whole scheme", scheme_rows, bold)
 
     inputs_sheet = book.create_sheet("inputs")
     for name, table in tables.items():

@@ -63,6 +63,7 @@ import numpy as np
 from .errors import DataError, UsageError
 from .measurements import Measurements, measurements_from_frame, parse_condition, read_measurements
 from .ratematrix import rate_pattern, step_rates
+from .sensitivity import block_sensitivities
 from .units import GAS_CONSTANT, parse_unit, time_factor
 
 if TYPE_CHECKING:
@@ -79,7 +80,6 @@ __all__ = [
     "chi2_error_level",
     "fit",
     "parse_free",
-    "propagate_sensitivities",
 ]
 
 #: The weighting schemes of :func:`fit`.
@@ -174,7 +174,7 @@ def parse_free(free: str | Sequence[str], scheme: Scheme) -> list[Parameter]:
                 raise UsageError(f"the free parameter {piece!r} is listed twice", "list it once")
             names.append(piece)
     if not names:
-        raise UsageError("no free parameter given", "write e.g. --free k1,k2")
+        raise UsageError("no free parameter given", "name at least one, e.g. k1 or k1,k2")
     return [_parameter(name, scheme) for name in names]
 
 
@@ -221,7 +221,7 @@ def _parameter(name: str, scheme: Scheme) -> Parameter:
     if constants[name].arrhenius is not None:
         raise UsageError(
             f"free parameter {name!r} follows the Arrhenius law",
-            f"free its parameters instead: --free {name}.A,{name}.Ea",
+            f"free its parameters instead: {name}.A and {name}.Ea",
         )
     unit = constants[name].unit
     return Parameter(name, "constant", name, unit, float(parse_unit(unit).factor))
@@ -232,155 +232,6 @@ def _suggest(name: str, candidates, listing: str) -> str:
     close = folded or difflib.get_close_matches(name, list(candidates), n=1)
     text = f"{listing} " + ", ".join(candidates)
     return f"did you mean {close[0]!r}? ({text})" if close else text
-
-
-# ---------------------------------------------------------------------------------------
-# Propagation with sensitivities (block form of the Fréchet derivative)
-# ---------------------------------------------------------------------------------------
-
-
-def _expm_stack(A: np.ndarray) -> np.ndarray:
-    """exp of a stack of small dense matrices: scaling, Taylor degree 16, squaring.
-
-    Scaled to a 1-norm of at most 1/2, the truncation error is below
-    :math:`0.5^{17}/17! \\approx 2\\cdot10^{-20}` (Moler & Van Loan 2003, method 3).
-    """
-    N = A.shape[1]
-    nu = np.abs(A).sum(axis=1).max(axis=1)
-    with np.errstate(divide="ignore"):
-        s = np.ceil(np.log2(np.maximum(nu, 1e-300) / 0.5))
-    s = np.maximum(s, 0).astype(int)
-    Y = A / np.ldexp(1.0, s)[:, None, None]
-    eye = np.eye(N)
-    X = eye + Y / 16.0
-    for k in range(15, 0, -1):  # Horner form of sum_k Y^k / k!
-        X = eye + (Y @ X) / k
-    for r in range(int(s.max(initial=0))):
-        mask = s > r
-        if mask.all():
-            X = X @ X
-        else:
-            X[mask] = X[mask] @ X[mask]
-    return X
-
-
-def _group_steps(steps: np.ndarray, rtol: float = 1e-13) -> tuple[np.ndarray, np.ndarray]:
-    """Distinct time steps, merging those equal up to a few units of rounding.
-
-    A grid such as ``numpy.linspace`` has steps that differ in their last bits;
-    one exponential then serves them all (the time error is below ``rtol`` of a
-    step).
-    """
-    order = np.argsort(steps, kind="stable")
-    sorted_steps = steps[order]
-    new_group = np.ones(steps.size, dtype=bool)
-    if steps.size > 1:
-        new_group[1:] = np.diff(sorted_steps) > rtol * np.abs(sorted_steps[1:])
-    group = np.cumsum(new_group) - 1
-    starts = np.flatnonzero(new_group)
-    which = np.empty(steps.size, dtype=int)
-    which[order] = group
-    return sorted_steps[starts], which
-
-
-def propagate_sensitivities(
-    K: np.ndarray,
-    c0: np.ndarray,
-    times: np.ndarray,
-    directions: np.ndarray | None = None,
-    feed: np.ndarray | None = None,
-    start_vectors: np.ndarray | None = None,
-) -> tuple[np.ndarray, np.ndarray]:
-    r"""Concentrations and their exact derivatives on a time grid.
-
-    .. math::
-
-        \frac{d}{dt}\begin{bmatrix} c \\ s_1 \\ \vdots \\ s_q \end{bmatrix} =
-        \begin{bmatrix} K & & & \\ E_1 & K & & \\ \vdots & & \ddots & \\
-        E_q & & & K \end{bmatrix}
-        \begin{bmatrix} c \\ s_1 \\ \vdots \\ s_q \end{bmatrix}
-        + \begin{bmatrix} f \\ 0 \\ \vdots \\ 0 \end{bmatrix}
-
-    propagated interval by interval with the exponential of the block matrix
-    (Van Loan 1978), which gives :math:`s_j(t) = \partial c(t)/\partial\theta_j`
-    for :math:`\partial K/\partial\theta_j = E_j` exactly (the Fréchet derivative
-    of the matrix exponential, no finite differences).
-
-    Parameters
-    ----------
-    K : numpy.ndarray, shape (n, n)
-        Rate matrix [1/s].
-    c0 : numpy.ndarray, shape (n,)
-        Start concentrations [conc].
-    times : numpy.ndarray, shape (m,)
-        Times [s], >= 0, nondecreasing.
-    directions : numpy.ndarray, shape (q, n, n), optional
-        :math:`E_j = \partial K/\partial\theta_j` [1/s per unit of θ].
-    feed : numpy.ndarray, shape (n,), optional
-        Zero-order feed [conc/s].
-    start_vectors : numpy.ndarray, shape (r, n), optional
-        Derivatives of the start vector :math:`\partial c_0/\partial\phi_i` for
-        parameters that enter only the start values [conc per unit of φ].
-
-    Returns
-    -------
-    c : numpy.ndarray, shape (m, n)
-        Concentrations [conc].
-    S : numpy.ndarray, shape (q + r, m, n)
-        Derivatives: first along each direction, then along each start vector.
-
-    Notes
-    -----
-    Accuracy is that of a scaling-and-squaring exponential (about 1e-13 relative
-    to the largest entry), ample for a Jacobian; the concentrations reported by a
-    fit are recomputed with the entrywise engine (:func:`kinetics.propagate.propagate`).
-
-    References
-    ----------
-    C. Van Loan, IEEE Trans. Automat. Control 23, 395-404 (1978).
-    C. Moler, C. Van Loan, "Nineteen dubious ways to compute the exponential of a
-    matrix, twenty-five years later", SIAM Review 45, 3-49 (2003).
-    """
-    K = np.asarray(K, dtype=float)
-    n = K.shape[0]
-    E = np.zeros((0, n, n)) if directions is None else np.asarray(directions, dtype=float)
-    q = E.shape[0]
-    V = np.zeros((0, n)) if start_vectors is None else np.asarray(start_vectors, dtype=float)
-    r = V.shape[0]
-    has_feed = feed is not None and np.any(np.asarray(feed) != 0)
-    N = n * (q + 1) + (1 if has_feed else 0)
-    B = np.zeros((N, N))
-    for j in range(q + 1):
-        B[j * n : (j + 1) * n, j * n : (j + 1) * n] = K
-    for j in range(q):
-        B[(j + 1) * n : (j + 2) * n, :n] = E[j]  # s_j' = K s_j + E_j c
-    X = np.zeros((N, 1 + r))
-    X[:n, 0] = c0
-    if has_feed:
-        B[:n, -1] = feed
-        X[-1, 0] = 1.0
-    for i in range(r):
-        X[:n, 1 + i] = V[i]
-    times = np.asarray(times, dtype=float)
-    steps = np.diff(np.concatenate([[0.0], times]))
-    unique, which = _group_steps(steps)
-    positive = unique > 0
-    F = np.empty((unique.size, N, N))
-    if np.any(positive):
-        with np.errstate(over="ignore", invalid="ignore"):
-            F[positive] = _expm_stack(unique[positive, None, None] * B[None])
-    out = np.empty((times.size, N, 1 + r))
-    for i in range(times.size):
-        if steps[i] > 0:
-            X = F[which[i]] @ X
-        out[i] = X
-    c = out[:, :n, 0]
-    S = np.empty((q + r, times.size, n))
-    for j in range(q):
-        S[j] = out[:, (j + 1) * n : (j + 2) * n, 0]
-    for i in range(r):
-        S[q + i] = out[:, :n, 1 + i]
-    return c, S
 
 
 # ---------------------------------------------------------------------------------------
@@ -491,7 +342,8 @@ class _Model:
         rates, c0, drates, dc0 = self._run_state(run, theta, derivatives)
         K = self.pattern.dense(rates)
         if self.engine == "entrywise":
-            from .propagate import propagate, sensitivities
+            from .propagate import propagate
+            from .sensitivity import sensitivities
 
             c = propagate(K, c0, run.times, run.feed)
             if not derivatives:
@@ -506,13 +358,13 @@ class _Model:
                     S[j] = propagate(K, dc0[j], run.times)
             return c, S
         if not derivatives:
-            c, _ = propagate_sensitivities(K, c0, run.times, None, run.feed)
+            c, _ = block_sensitivities(K, c0, run.times, None, run.feed)
             return c, None
         rate_params = [j for j, p in enumerate(self.params) if p.kind != "start"]
         start_params = [j for j, p in enumerate(self.params) if p.kind == "start"]
         E = self.pattern.dense(drates[rate_params]) if rate_params else None
         V = dc0[start_params] if start_params else None
-        c, S_part = propagate_sensitivities(K, c0, run.times, E, run.feed, V)
+        c, S_part = block_sensitivities(K, c0, run.times, E, run.feed, V)
         S = np.empty((len(self.params), run.times.size, K.shape[0]))
         S[rate_params + start_params] = S_part
         return c, S
@@ -954,7 +806,7 @@ def _sigma(m: Measurements, weights, rows, cols, y) -> np.ndarray:
             raise DataError(
                 "weights 'column' need standard deviations, but the table has no sd columns",
                 m.source,
-                "add columns such as 'B sd [mol/L]', or use --weights equal or relative",
+                "add columns such as 'B sd [mol/L]', or use the weights 'equal' or 'relative'",
             )
         sd = m.sd[rows, cols]
         missing = np.isnan(sd)

@@ -31,9 +31,13 @@ __all__ = [
     "CAUTION",
     "CHECK_TABLE_ROWS",
     "DEFINITIONS",
+    "SCHEME_DEFINITIONS",
+    "Summary",
     "check_report",
     "compute_summary",
     "inputs_tables",
+    "scheme_lines",
+    "scheme_rows",
     "solution_json",
     "summary_in_units",
     "summary_rows",
@@ -107,9 +111,36 @@ DEFINITIONS = {
     ),
 }
 
+#: Plain-words definitions of the whole-scheme quantities (``scheme_summary`` in JSON).
+SCHEME_DEFINITIONS = {
+    "relaxation_times": (
+        "Relaxation times: 1/|Re λ| for the nonzero eigenvalues λ of the rate matrix, longest "
+        "first; every curve is a sum of terms decaying with these time constants."
+    ),
+    "oscillation_periods": (
+        "Oscillation periods: 2π/|Im λ| of complex eigenvalues (damped oscillations, from "
+        "cycles of steps)."
+    ),
+    "relaxation_note": (
+        "Curve shape: where constants are equal along a path the rate matrix is defective and "
+        "the curves contain t·e^(−kt) terms instead of pure exponentials."
+    ),
+    "time_to_limit": (
+        "All within 1 % of their limits at: the latest of the species' times to their limits; "
+        "empty when a species grows without bound."
+    ),
+    "selectivity": (
+        "Selectivity between end products: the amounts formed (Δc), their ratios, and each "
+        "product's share of all end products formed, at the end of the window and in the limit."
+    ),
+}
+
 #: Keys of a species summary that hold a time [s] (converted to the table's time unit).
 TIME_KEYS = frozenset(
     {
+        "relaxation_times",
+        "oscillation_periods",
+        "growth_times",
         "half_life",
         "time_to_90_percent_remaining",
         "time_to_10_percent_remaining",
@@ -243,6 +274,22 @@ def check_report(scheme: Scheme) -> dict:
     }
 
 
+class Summary(dict):
+    """Species -> summary quantities (a plain dict), with the whole-scheme quantities.
+
+    Attributes
+    ----------
+    scheme : dict
+        Relaxation times, oscillation periods, the note on equal constants, the time for all
+        species to come within 1 % of their limits, end products and their selectivity
+        (see :class:`kinetics.analysis.SchemeSummary`); JSON key ``scheme_summary``.
+    """
+
+    def __init__(self, species=(), scheme: dict | None = None) -> None:
+        super().__init__(species)
+        self.scheme = dict(scheme or {})
+
+
 def solution_json(
     solution: Solution,
     time_unit: str,
@@ -276,11 +323,62 @@ def solution_json(
         "points": len(solution.times),
         "summary": summary,
         **({} if summary is not None else {"summary_note": SUMMARY_SKIPPED_NOTE}),
+        "scheme_summary": getattr(summary, "scheme", None) or None,
         "times": times.tolist(),
         "concentrations": {
             name: solution.concentrations[:, i].tolist() for i, name in enumerate(solution.species)
         },
+        **_certificate(solution),
     }
+
+
+#: What ``error_bound`` certifies, in one sentence (JSON note, report, Excel).
+CERTIFICATE_NOTE = (
+    "error_bound[k] bounds the relative error of every concentration above 1e-290 at "
+    "times[k] against the exact solution for the constants as written: input "
+    "representation, rounding of every operation, Taylor truncation, the time grid and the "
+    "final rounding to double are all included"
+)
+
+
+def _certificate(solution: Solution) -> dict:
+    if solution.error_bound is None:
+        return {}
+    return {
+        "error_bound": [_finite(float(b)) for b in solution.error_bound],
+        "error_bound_note": CERTIFICATE_NOTE,
+    }
+
+
+def certificate_sentence(solution: Solution) -> str | None:
+    """The certificate of a solution in one sentence (None when it has none).
+
+    >>> import kinetics
+    >>> s = kinetics.parse("A -> B  k1 = 0.1 1/s\\nstart A = 1 mol/L")
+    >>> print(certificate_sentence(kinetics.solve(s, [0, 1, 2])))  # doctest: +ELLIPSIS
+    Every concentration above 1e-290 is within 1.1e-16 (relative) of the exact solution ...
+    """
+    if solution.error_bound is None or solution.error_bound.size == 0:
+        return None
+    worst = float(solution.error_bound.max())
+    return (
+        f"Every concentration above 1e-290 is within {worst:.2g} (relative) of the exact "
+        "solution for the constants as written, at every time of the table (rounding of "
+        "every operation, truncation, the time grid and the final rounding included)."
+    )
+
+
+def certificate_rows(solution: Solution, time_unit: str) -> list[dict]:
+    """One row per time: the time in ``time_unit`` and its relative error bound."""
+    from .solution import time_factor
+
+    if solution.error_bound is None:
+        return []
+    factor = time_factor(time_unit)
+    return [
+        {f"time [{time_unit}]": float(t) / factor, "relative error bound": _finite(float(b))}
+        for t, b in zip(solution.times, solution.error_bound, strict=True)
+    ]
 
 
 #: Largest scheme whose summary quantities are computed by ``solve`` and ``report``
@@ -292,31 +390,44 @@ SUMMARY_SKIPPED_NOTE = (
 )
 
 
-def compute_summary(solution: Solution) -> dict[str, dict] | None:
+def compute_summary(solution: Solution) -> Summary | None:
     """Summary quantities of every species in SI time [s] and the concentration unit.
 
-    Uses :func:`kinetics.analysis.summarise` on the scheme of ``solution`` with the
-    solution's time window.  Returns ``None`` above :data:`SUMMARY_MAX` species.
+    Uses :func:`kinetics.analysis.summarise_all` on the scheme of ``solution`` with the
+    solution's time window; the whole-scheme quantities are in :attr:`Summary.scheme`.
+    Returns ``None`` above :data:`SUMMARY_MAX` species.
     """
-    from .analysis import summarise
+    from .analysis import summarise_all
 
     scheme = solution.scheme
     if len(scheme.species) > SUMMARY_MAX:
         return None
     feed = scheme.feed_vector if scheme.feed else None
     window = float(solution.times[-1])
-    raw = summarise(
-        scheme.rate_matrix(),
+    K, K_low = scheme.rate_matrix_pair()
+    per, whole = summarise_all(
+        K,
         scheme.initial_vector,
         scheme.species_names,
         feed=feed,
         t_window=window,
+        K_low=K_low,
     )
-    out = {name: (s.to_dict() if hasattr(s, "to_dict") else dict(s)) for name, s in raw.items()}
+    out = {name: s.to_dict() for name, s in per.items()}
+    scheme_wide = whole.to_dict()
     if solution.unit_factors is not None:  # reported in another unit (Solution.in_unit)
-        for name, factor in zip(solution.species, solution.unit_factors, strict=True):
+        factors = dict(zip(solution.species, solution.unit_factors, strict=True))
+        for name, factor in factors.items():
             _scale_concentrations(out[name], float(factor))
-    return out
+        # amounts formed per end product in its reported unit (the ratios and shares stay
+        # those of the amounts of substance)
+        for key in ("amount_formed_at_window_end", "amount_formed_in_limit"):
+            formed = scheme_wide.get(key)
+            if formed:
+                scheme_wide[key] = {
+                    p: None if v is None else v * float(factors[p]) for p, v in formed.items()
+                }
+    return Summary(out, scheme_wide)
 
 
 #: Keys of a species summary that hold a concentration (scaled by Solution.in_unit).
@@ -345,16 +456,18 @@ def _convert_times(value, key: str, factor: float):
     return value
 
 
-def summary_in_units(summary: dict[str, dict], time_unit: str) -> dict[str, dict]:
+def summary_in_units(summary: dict[str, dict], time_unit: str) -> Summary:
     """Convert every time-valued entry of a summary from seconds to ``time_unit``.
 
     Times [s] become [time_unit], areas [conc*s] become [conc*time_unit]; non-finite
-    numbers become ``None`` (JSON null); concentrations are unchanged.
+    numbers become ``None`` (JSON null); concentrations are unchanged.  The whole-scheme
+    quantities (:attr:`Summary.scheme`) are converted too.
     """
     from .solution import time_factor
 
     factor = time_factor(time_unit)
-    return {name: _convert_times(d, "", factor) for name, d in summary.items()}
+    scheme = _convert_times(getattr(summary, "scheme", {}), "", factor)
+    return Summary({name: _convert_times(d, "", factor) for name, d in summary.items()}, scheme)
 
 
 def summary_header(key_header_kind: tuple[str, str, str], time_unit: str, conc_unit: str) -> str:
@@ -362,6 +475,73 @@ def summary_header(key_header_kind: tuple[str, str, str], time_unit: str, conc_u
     _, header, kind = key_header_kind
     unit = {"time": time_unit, "conc": conc_unit, "area": f"{conc_unit}·{time_unit}"}.get(kind)
     return f"{header} [{unit}]" if unit else header
+
+
+def _listing(values, digits: int = 6) -> str:
+    """``[1.0, 2.5]`` -> ``"1, 2.5"``; a mapping -> ``"C 1, D 2.5"``; empty -> ``"—"``."""
+    if isinstance(values, dict):
+        items = [f"{k} {'—' if v is None else format(v, f'.{digits}g')}" for k, v in values.items()]
+    else:
+        items = ["—" if v is None else format(v, f".{digits}g") for v in values]
+    return ", ".join(items) if items else "—"
+
+
+def scheme_lines(scheme: dict, time_unit: str, conc_unit: str) -> list[tuple[str, str]]:
+    """The whole-scheme quantities as (label with unit, text) pairs, for tables and reports.
+
+    Parameters
+    ----------
+    scheme : dict
+        :attr:`Summary.scheme`, already in ``time_unit``.
+    time_unit, conc_unit : str
+        Units for the labels.
+    """
+    if not scheme:
+        return []
+    lines = [(f"relaxation times [{time_unit}]", _listing(scheme.get("relaxation_times") or []))]
+    if scheme.get("oscillation_periods"):
+        lines.append(
+            (f"oscillation periods [{time_unit}]", _listing(scheme["oscillation_periods"]))
+        )
+    if scheme.get("growth_times"):
+        lines.append((f"growth e-folding times [{time_unit}]", _listing(scheme["growth_times"])))
+    if scheme.get("relaxation_note"):
+        lines.append(("curve shape", scheme["relaxation_note"]))
+    pct = f"{100 * scheme.get('tolerance', 0.01):g} %"
+    settle = scheme.get("time_to_limit")
+    lines.append(
+        (
+            f"all within {pct} of their limits at [{time_unit}]",
+            _listing([settle]) if settle is not None else scheme.get("time_to_limit_note") or "—",
+        )
+    )
+    products = scheme.get("end_products") or []
+    lines.append(("end products", ", ".join(products) if products else "none"))
+    for where, label in (
+        ("at_window_end", "at the end of the window"),
+        ("in_limit", "in the limit"),
+    ):
+        formed = scheme.get(f"amount_formed_{where}")
+        if formed is None:
+            continue
+        lines.append((f"amount formed {label} [{conc_unit}]", _listing(formed)))
+        if len(formed) > 1:
+            lines.append(
+                (
+                    f"ratio of amounts formed {label}",
+                    _listing(scheme[f"selectivity_ratios_{where}"]),
+                )
+            )
+        share = scheme.get(f"selectivity_{where}")
+        if share is not None:
+            lines.append((f"share of end products formed {label}", _listing(share)))
+    return lines
+
+
+def scheme_rows(summary, time_unit: str, conc_unit: str) -> list[dict]:
+    """The whole-scheme quantities of a :class:`Summary` as rows ``quantity``, ``value``."""
+    lines = scheme_lines(getattr(summary, "scheme", None) or {}, time_unit, conc_unit)
+    return [{"quantity": label, "value": text} for label, text in lines]
 
 
 def summary_rows(summary: dict[str, dict], time_unit: str, conc_unit: str) -> list[dict]:

@@ -24,11 +24,15 @@ if TYPE_CHECKING:
     from .solution import Solution
 
 __all__ = [
+    "SPLIT_RATIO",
+    "Label",
     "concentration_figure",
     "figure_bytes",
+    "place_labels",
     "save_figure",
     "save_plot",
     "species_graph_figure",
+    "split_by_height",
 ]
 
 #: Line styles and markers, combined per curve (black-and-white readable).
@@ -93,6 +97,35 @@ def _marks(summary: dict | None, name: str, t_end: float):
     return half, shown, notes
 
 
+#: A species whose peak is at least this many times the largest peak of all the others
+#: is drawn against a right-hand axis of the linear panel (``linear="auto"``).
+SPLIT_RATIO = 5.0
+#: Labels: font size [pt], padding of their boxes [pt], gap to the point they mark [pt].
+LABEL_SIZE = 8.0
+_LABEL_PAD = 0.2 * LABEL_SIZE + 1.0
+_LABEL_GAP = 8.0
+
+
+def split_by_height(peaks: dict[str, float], ratio: float = SPLIT_RATIO) -> list[str]:
+    """Species to draw on a right-hand axis: the few that stand above a gap of ``ratio`` or
+    more between consecutive peak heights (largest first), when they are fewer than the
+    species below the gap (which would otherwise be squashed); else none.
+
+    >>> split_by_height({"P": 12.0, "M1": 3.1, "M2": 5.6, "CO2": 94.0})
+    ['CO2']
+    >>> split_by_height({"A": 1.0, "B": 0.5, "C": 0.9})
+    []
+    >>> split_by_height({"A": 0.8, "B": 0.6, "C": 0.7, "HV": 0.01})
+    []
+    """
+    order = sorted((h, n) for n, h in peaks.items() if h > 0)[::-1]
+    for k in range(len(order) - 1):
+        if order[k][0] >= ratio * order[k + 1][0]:
+            top = [n for _, n in order[: k + 1]]
+            return top if len(top) < len(peaks) - len(top) else []
+    return []
+
+
 def concentration_figure(
     solution: Solution,
     time_unit: str = "s",
@@ -100,6 +133,7 @@ def concentration_figure(
     *,
     species: list[str] | None = None,
     title: str | None = None,
+    linear: str = "auto",
 ) -> Figure:
     """Concentration against time, on a linear and on a logarithmic scale.
 
@@ -119,23 +153,37 @@ def concentration_figure(
         Species to draw (default: all).
     title : str, optional
         Figure title (default: the scheme's title).
+    linear : {"auto", "shared"}, optional
+        ``"auto"``: species that rise far above all others (a lumped end product with a
+        large stoichiometric factor) get a right-hand axis of their own in the linear panel
+        (see :func:`split_by_height`), so the others are not squashed; ``"shared"``: one
+        axis for all.
 
     Returns
     -------
     matplotlib.figure.Figure
-        Two panels: linear concentration axis and logarithmic concentration axis.
+        Two panels: linear concentration axis (with a right-hand axis when split) and
+        logarithmic concentration axis.  Labels of maxima and half-lives never overlap each
+        other and stay inside the linear panel (see :func:`place_labels`).
     """
+    from .errors import UsageError
     from .solution import time_factor
 
+    if linear not in ("auto", "shared"):
+        raise UsageError(f"linear={linear!r} is not known", "use 'auto' or 'shared'")
     names = list(species) if species else list(solution.species)
     t = solution.times / time_factor(time_unit)
     t_end = float(t[-1]) if t.size else 0.0
     unit = solution.concentration_unit
     fig = _new_figure(11.0, 4.8)
     ax_lin, ax_log = fig.subplots(1, 2)
+    peaks = {n: float(np.max(solution[n], initial=0.0)) for n in names}
+    right = split_by_height(peaks) if linear == "auto" else []
+    ax_right = ax_lin.twinx() if right else None
     n_points = t.size
     every = max(1, n_points // 9)
     notes: list[str] = []
+    labels: list[Label] = []
     peak = 0.0
     positive_min = math.inf
     marked = {"maximum": False, "half-life": False}
@@ -145,14 +193,15 @@ def concentration_figure(
         style = _style(j)
         offset = (i * every) // max(1, len(names)) if every > 1 else 0
         kw = {
-            "label": name,
+            "label": name + (" (right axis)" if name in right else ""),
             "linewidth": 1.8,
             "markersize": 5.5,
             "markevery": (offset, every),
             "markerfacecolor": "white" if i % 2 else style["color"],
             **style,
         }
-        ax_lin.plot(t, c, **kw)
+        ax_this = ax_right if name in right else ax_lin
+        ax_this.plot(t, c, **kw)
         positive = np.where(c > 0, c, np.nan)
         ax_log.plot(t, positive, **kw)
         if np.any(c > 0):
@@ -163,43 +212,28 @@ def concentration_figure(
         c0 = float(solution.concentrations[0, j])
         marked["maximum"] |= bool(maxima)
         marked["half-life"] |= half is not None and c0 > 0
-        for ax in (ax_lin, ax_log):
+        for ax in (ax_this, ax_log):
             if half is not None and c0 > 0:
                 ax.plot([half], [c0 / 2], "o", ms=10, mfc="none", mec="black", mew=1.6, zorder=5)
                 ax.axvline(half, color="0.45", linestyle=(0, (1, 2)), linewidth=0.9, zorder=1)
             for tm, cm in maxima:
                 ax.plot([tm], [cm], "*", ms=13, color="black", mec="white", mew=0.6, zorder=6)
         if half is not None and c0 > 0:
-            # half-lives labelled below-right, maxima above-right: they rarely collide
-            ax_lin.annotate(
-                f"t½ {name} = {_fmt(half)} {time_unit}",
-                (half, c0 / 2),
-                xytext=(10, -10),
-                textcoords="offset points",
-                ha="left",
-                va="top",
-                fontsize=8,
-                bbox={"boxstyle": "round,pad=0.2", "fc": "white", "ec": "0.6", "alpha": 0.9},
-                zorder=7,
-            )
+            text = f"t½ {name} = {_fmt(half)} {time_unit}"
+            labels.append(Label(text, ax_this, (half, c0 / 2), below=True))
         for tm, cm in maxima:
-            ax_lin.annotate(
-                f"max {name} = {_fmt(cm)} at {_fmt(tm)} {time_unit}",
-                (tm, cm),
-                xytext=(8, 8),
-                textcoords="offset points",
-                ha="left",
-                va="bottom",
-                fontsize=8,
-                bbox={"boxstyle": "round,pad=0.2", "fc": "white", "ec": "0.6", "alpha": 0.9},
-                zorder=7,
-            )
+            text = f"max {name} = {_fmt(cm)} at {_fmt(tm)} {time_unit}"
+            labels.append(Label(text, ax_this, (tm, cm), below=False))
     for ax in (ax_lin, ax_log):
         ax.set_xlabel(f"time [{time_unit}]")
         ax.set_ylabel(f"concentration [{unit}]")
         ax.grid(True, color="0.88", linewidth=0.7)
         ax.set_xlim(0, t_end if t_end > 0 else 1)
     ax_lin.set_ylim(bottom=0)
+    if ax_right is not None:
+        ax_right.set_ylim(bottom=0)
+        ax_right.set_ylabel(f"{', '.join(right)} [{unit}] (right axis)")
+        ax_lin.set_ylabel(f"other species [{unit}]")
     ax_lin.set_title("linear scale", fontsize=10)
     ax_log.set_yscale("log")
     if peak > 0:
@@ -209,19 +243,135 @@ def concentration_figure(
     heading = title if title is not None else (solution.scheme.title or solution.scheme.source)
     if heading:  # the user's text, drawn as written ("$" starts no formula)
         fig.suptitle(heading, fontsize=12, parse_math=False)
-    handles, labels = ax_lin.get_legend_handles_labels()
+    handles, legend = ax_lin.get_legend_handles_labels()
+    if ax_right is not None:
+        more = ax_right.get_legend_handles_labels()
+        handles, legend = handles + more[0], legend + more[1]
+        order = sorted(range(len(legend)), key=lambda k: names.index(legend[k].split(" (")[0]))
+        handles, legend = [handles[k] for k in order], [legend[k] for k in order]
     from matplotlib.lines import Line2D
 
     if marked["maximum"]:
         handles.append(Line2D([], [], marker="*", ls="none", color="black", ms=11))
-        labels.append("maximum")
+        legend.append("maximum")
     if marked["half-life"]:
         handles.append(Line2D([], [], marker="o", ls="none", mfc="none", mec="black", ms=9))
-        labels.append("half-life")
-    fig.legend(handles, labels, loc="outside lower center", ncol=min(len(labels), 8), fontsize=9)
+        legend.append("half-life")
+    fig.legend(handles, legend, loc="outside lower center", ncol=min(len(legend), 8), fontsize=9)
     if notes:
         fig.text(0.01, 0.005, "; ".join(notes), fontsize=7, color="0.3", ha="left", va="bottom")
+    place_labels(fig, ax_lin, labels)
     return fig
+
+
+class Label:
+    """A text to place near a point of an axes (data coordinates of that axes); ``below``
+    prefers a place below the point (half-lives) to one above it (maxima)."""
+
+    def __init__(self, text: str, ax, point: tuple[float, float], below: bool) -> None:
+        self.text = text
+        self.ax = ax
+        self.point = point
+        self.below = below
+
+
+def _overlaps(a, b) -> bool:
+    """Rectangles (x0, y0, x1, y1) share some area."""
+    return a[0] < b[2] and b[0] < a[2] and a[1] < b[3] and b[1] < a[3]
+
+
+def place_labels(fig: Figure, ax, labels: list[Label]) -> list:
+    """Place the labels so that no two overlap, none covers a marked point, and all stay
+    inside the panel ``ax``; a label moved away from its point gets a leader line.
+
+    The figure's layout is computed first and then frozen, so that the positions found in
+    points (1/72 inch, independent of the resolution the figure is saved at) stay valid.
+    Candidates per label, in order: beside the point (above or below, right or left), then
+    stacked further up or down in steps of one label height, then the same in the other
+    direction; the first free one is taken (labels are placed from left to right).
+
+    Returns
+    -------
+    list of matplotlib.text.Annotation
+    """
+    if not labels:
+        return []
+    fig.draw_without_rendering()  # runs the layout engine once
+    fig.set_layout_engine("none")
+    renderer = fig.canvas.get_renderer()
+    to_pt = 72.0 / fig.dpi
+    box = ax.get_window_extent(renderer)
+    frame = (box.x0 * to_pt, box.y0 * to_pt, box.x1 * to_pt, box.y1 * to_pt)
+    # marked points (stars and circles) are obstacles of about their marker size
+    taken = []
+    for label in labels:
+        x, y = label.ax.transData.transform(label.point) * to_pt
+        taken.append((x - 6, y - 6, x + 6, y + 6))
+    style = {"boxstyle": "round,pad=0.2", "fc": "white", "ec": "0.6", "alpha": 0.9}
+    out = []
+    order = sorted(labels, key=lambda lb: label_anchor(lb, to_pt)[0])
+    for label in order:
+        probe = fig.text(0, 0, label.text, fontsize=LABEL_SIZE)
+        ext = probe.get_window_extent(renderer)
+        probe.remove()
+        w = ext.width * to_pt + 2 * _LABEL_PAD
+        h = ext.height * to_pt + 2 * _LABEL_PAD
+        x, y = label_anchor(label, to_pt)
+        spot = _free_spot(x, y, w, h, label.below, frame, taken)
+        dx, dy = spot[0] + _LABEL_PAD - x, spot[1] + _LABEL_PAD - y
+        far = max(abs(dx + w / 2) - w / 2, abs(dy + h / 2) - h / 2) > 2 * _LABEL_GAP
+        leader = {"arrowstyle": "-", "color": "0.45", "lw": 0.7, "shrinkB": 5}
+        ann = label.ax.annotate(
+            label.text,
+            label.point,
+            xytext=(dx, dy),
+            textcoords="offset points",
+            ha="left",
+            va="bottom",
+            fontsize=LABEL_SIZE,
+            bbox=style,
+            zorder=7,
+            annotation_clip=False,
+            arrowprops=leader if far else None,
+        )
+        ann.set_in_layout(False)
+        taken.append((spot[0], spot[1], spot[0] + w, spot[1] + h))
+        out.append(ann)
+    return out
+
+
+def label_anchor(label: Label, to_pt: float) -> tuple[float, float]:
+    """The marked point of a label in figure points."""
+    x, y = label.ax.transData.transform(label.point) * to_pt
+    return float(x), float(y)
+
+
+def _free_spot(x, y, w, h, below, frame, taken) -> tuple[float, float]:
+    """Lower-left corner [pt] of the first free w x h box near (x, y) inside ``frame``."""
+    g = _LABEL_GAP
+    right, left = x + g, x - g - w
+    up, down = y + g, y - g - h
+    first = [(right, down), (left, down), (right, up), (left, up)]
+    if not below:
+        first = [(right, up), (left, up), (right, down), (left, down)]
+    step = h + 2.0
+    reach = int((frame[3] - frame[1]) / step) + 1
+    stacks = [(xx, up + k * step) for k in range(1, reach) for xx in (right, left)]
+    stacks += [(xx, down - k * step) for k in range(1, reach) for xx in (right, left)]
+    # finally anywhere in the panel, scanning rows from the top
+    cols = max(1, int((frame[2] - frame[0] - w) / 12.0))
+    grid = [
+        (frame[0] + 2 + c * 12.0, frame[3] - 2 - h - r * step)
+        for r in range(reach)
+        for c in range(cols + 1)
+    ]
+    for cx, cy in [*first, *stacks, *grid]:
+        cx = min(max(cx, frame[0] + 2), frame[2] - 2 - w)
+        rect = (cx, cy, cx + w, cy + h)
+        inside = cy >= frame[1] + 2 and cy + h <= frame[3] - 2
+        if inside and not any(_overlaps(rect, other) for other in taken):
+            return cx, cy
+    return min(max(right, frame[0] + 2), frame[2] - 2 - w), up  # no room: beside the point
 
 
 def _layers(scheme: Scheme, graph) -> dict[str, int]:
@@ -421,6 +571,8 @@ def save_plot(
     summary: dict | None = None,
     *,
     species: list[str] | None = None,
+    linear: str = "auto",
 ) -> None:
     """Draw :func:`concentration_figure` and write it to ``path`` (.png or .svg), atomically."""
-    save_figure(concentration_figure(solution, time_unit, summary, species=species), path)
+    fig = concentration_figure(solution, time_unit, summary, species=species, linear=linear)
+    save_figure(fig, path)

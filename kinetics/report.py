@@ -185,7 +185,13 @@ def _balance_section(scheme: Scheme) -> str:
 
 
 def _summary_section(summary: dict | None, time_unit: str, conc_unit: str) -> str:
-    from .overview import DEFINITIONS, SUMMARY_COLUMNS, summary_header
+    from .overview import (
+        DEFINITIONS,
+        SCHEME_DEFINITIONS,
+        SUMMARY_COLUMNS,
+        scheme_lines,
+        summary_header,
+    )
 
     parts = ["<h2>Summary quantities (exact)</h2>"]
     if not summary:
@@ -228,9 +234,13 @@ def _summary_section(summary: dict | None, time_unit: str, conc_unit: str) -> st
     if notes:
         items = "".join(f"<li>{n}</li>" for n in dict.fromkeys(notes))
         parts.append(f'<ul class="notes">{items}</ul>')
+    lines = scheme_lines(getattr(summary, "scheme", None) or {}, time_unit, conc_unit)
+    if lines:
+        parts.append("<h3>Whole scheme</h3>")
+        parts.append(_table(["quantity", "value"], [[escape(a), escape(b)] for a, b in lines]))
     parts.append('<h3>Definitions</h3><dl class="defs">')
-    for key, _header, _ in SUMMARY_COLUMNS:
-        text = DEFINITIONS.get(key)
+    texts = [DEFINITIONS.get(key) for key, _header, _ in SUMMARY_COLUMNS]
+    for text in [*texts, *SCHEME_DEFINITIONS.values()]:
         if text:
             label, _, rest = text.partition(": ")
             parts.append(f"<dt>{escape(label)}</dt><dd>{escape(rest)}</dd>")
@@ -299,7 +309,7 @@ def build_report(
         One complete HTML document.
     """
     from . import __version__
-    from .overview import CAUTION
+    from .overview import CAUTION, certificate_sentence
     from .plotting import concentration_figure, figure_bytes, species_graph_figure
 
     heading = title if title is not None else (scheme.title or scheme.source)
@@ -364,6 +374,9 @@ def build_report(
     parts.append(
         f"<h3>Table ({len(solution.times)} points; exact values, 8 significant digits)</h3>"
     )
+    sentence = certificate_sentence(solution)
+    if sentence is not None:
+        parts.append(f'<p class="certificate">{escape(sentence)}</p>')
     parts.append(_concentration_table(solution, time_unit, species))
     parts.append(
         f"<footer>kinetics {escape(__version__)} · {escape(when)} · input SHA-256 "

@@ -83,7 +83,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from .errors import UsageError
+from .errors import ArgumentTypeError, GrowthError, UsageError, type_name
 from .units import GAS_CONSTANT, convert, parse_unit, temperature_to_kelvin
 
 if TYPE_CHECKING:
@@ -116,6 +116,13 @@ __all__ = [
 
 #: Percentiles of the Monte Carlo bands.
 PERCENTILES = (2.5, 50.0, 97.5)
+#: Most values on one grid axis (each is converted with an exact rational unit factor).
+MAX_AXIS = 1_000_000
+#: Most parameter sets of one sweep (about 1.4 h at 50 us per set).
+MAX_SETS = 100_000_000
+#: Most values a sweep keeps in memory (API, or the command without --out): sets x
+#: columns, or sets x times x species with curves.
+MAX_MEMORY_VALUES = 100_000_000
 #: Sets per chunk by default (memory per chunk: about sets x points x species x 8 bytes
 #: when curves are kept).
 DEFAULT_CHUNK = 1000
@@ -126,6 +133,10 @@ _NUMBER_RE = re.compile(rf"^\s*{_NUMBER}\s*$")
 _VARY_HELP = (
     "write NAME=LO:HI:N[:log][:UNIT] or NAME=V1,V2,V3[:UNIT], e.g. k2=0.01:1:25:log, "
     "temperature=20:80:13:degC, k3.Ea=80:100:5:kJ/mol, start:A=0.1,0.2,0.5"
+)
+_GRID_HELP = (
+    "give each parameter a list of numbers in the unit the file uses for it, e.g. "
+    "{'k2': [0.02, 0.045, 0.09]}, or a range as text, e.g. {'k2': '0.01:1:25:log'}"
 )
 _SPREAD_HELP = (
     "write NAME=P% (lognormal for rate constants, A, start and excess values) or an "
@@ -172,10 +183,12 @@ def _suggest(name: str, known: Iterable[str]) -> str:
     return f"did you mean {close[0]!r}? " if close else ""
 
 
-def _resolve(scheme: Scheme, name: str, option: str, spec: str) -> _Target:
-    """Map a parameter name to what it changes in the scheme, or raise UsageError."""
+def _resolve(scheme: Scheme, name: str, where: str) -> _Target:
+    """Map a parameter name to what it changes in the scheme, or raise UsageError.
+
+    ``where`` names the place of the name in messages (``--vary 'k2=...'``, ``grid['k2']``).
+    """
     name = name.strip()
-    where = f"{option} {spec!r}"
     constants = scheme.constants
     arrhenius = [c for c, d in constants.items() if d.arrhenius is not None]
     if name in ("temperature", "T"):
@@ -246,12 +259,12 @@ def _resolve(scheme: Scheme, name: str, option: str, spec: str) -> _Target:
     )
 
 
-def _check_unit(target: _Target, unit: str, where: str) -> None:
+def _check_unit(target: _Target, unit: str, where: str, hint: str = _VARY_HELP) -> None:
     """The unit must have the dimension of the file's unit for that quantity."""
     try:
         spec = parse_unit(unit)
     except ValueError:
-        raise UsageError(f"{where}: {unit!r} is not a unit", _VARY_HELP) from None
+        raise UsageError(f"{where}: {unit!r} is not a unit", hint) from None
     if target.kind == "temperature":
         if spec.dims != {"[temperature]": 1}:
             raise UsageError(f"{where}: {unit!r} is not a temperature unit", "use K or degC")
@@ -286,9 +299,11 @@ def _to_internal(target: _Target, values: np.ndarray, unit: str) -> np.ndarray:
     return np.array([float(Fraction(float(v)) * factor) for v in values])
 
 
-def _check_values(target: _Target, internal: np.ndarray, where: str) -> None:
+def _check_values(
+    target: _Target, internal: np.ndarray, where: str, hint: str = _VARY_HELP
+) -> None:
     if not np.all(np.isfinite(internal)):
-        raise UsageError(f"{where}: a value is not a finite number", _VARY_HELP)
+        raise UsageError(f"{where}: a value is not a finite number", hint)
     if target.kind == "temperature" and np.any(internal <= 0):
         raise UsageError(f"{where}: a temperature is at or below absolute zero", "check the unit")
     if target.kind in ("constant", "prefactor", "start", "excess") and np.any(internal < 0):
@@ -390,14 +405,19 @@ def parse_vary(scheme: Scheme, spec: str, option: str = "--vary") -> Parameter:
     computed with ``numpy.linspace`` and ``numpy.geomspace`` (end points exact).  Values
     are converted to internal units with exact rational unit factors (one rounding).
     """
-    where = f"{option} {spec!r}"
+    return _parse_vary(scheme, spec, f"{option} {spec!r}", _VARY_HELP)
+
+
+def _parse_vary(scheme: Scheme, spec: str, where: str, help_: str) -> Parameter:
+    """:func:`parse_vary` with the place and the hint of its messages given."""
     if "=" not in spec:
-        raise UsageError(f"{where} has no '='", _VARY_HELP)
+        raise UsageError(f"{where} has no '='", help_)
     name, _, body = spec.partition("=")
     body = body.strip()
     if not name.strip() or not body:
-        raise UsageError(f"{where} needs a name and values", _VARY_HELP)
-    target = _resolve(scheme, name, option, spec)
+        raise UsageError(f"{where} needs a name and values", help_)
+    target = _resolve(scheme, name, where)
+    texts = None
     fields = [f.strip() for f in body.split(":")]
     unit = ""
     spacing = "list"
@@ -407,12 +427,17 @@ def parse_vary(scheme: Scheme, spec: str, option: str = "--vary") -> Parameter:
             count = int(fields[2])
         except ValueError:
             raise UsageError(
-                f"{where}: the number of values {fields[2]!r} is not a whole number", _VARY_HELP
+                f"{where}: the number of values {fields[2]!r} is not a whole number", help_
             ) from None
         if count < 1 or str(count) != fields[2].lstrip("+"):
             raise UsageError(
                 f"{where}: the number of values must be a whole number >= 1, not {fields[2]!r}",
-                _VARY_HELP,
+                help_,
+            )
+        if count > MAX_AXIS:
+            raise UsageError(
+                f"{where}: {count:,} values on one axis are too many (at most {MAX_AXIS:,})",
+                "use fewer values",
             )
         spacing = "lin"
         for extra in fields[3:]:
@@ -421,12 +446,12 @@ def parse_vary(scheme: Scheme, spec: str, option: str = "--vary") -> Parameter:
             elif extra and not unit:
                 unit = extra
             else:
-                raise UsageError(f"{where}: unexpected field {extra!r}", _VARY_HELP)
+                raise UsageError(f"{where}: unexpected field {extra!r}", help_)
         if not (math.isfinite(lo) and math.isfinite(hi)):
-            raise UsageError(f"{where}: the range ends must be finite numbers", _VARY_HELP)
+            raise UsageError(f"{where}: the range ends must be finite numbers", help_)
         if count == 1 and lo != hi:
             raise UsageError(
-                f"{where}: a range from {lo:g} to {hi:g} needs at least 2 values", _VARY_HELP
+                f"{where}: a range from {lo:g} to {hi:g} needs at least 2 values", help_
             )
         if spacing == "log":
             if lo <= 0 or hi <= 0:
@@ -439,20 +464,40 @@ def parse_vary(scheme: Scheme, spec: str, option: str = "--vary") -> Parameter:
     else:
         head, *rest = fields
         if len(rest) > 1:
-            raise UsageError(f"{where} is neither a range LO:HI:N nor a list", _VARY_HELP)
+            raise UsageError(f"{where} is neither a range LO:HI:N nor a list", help_)
         numbers, spaced_unit = _split_unit(head)
         unit = rest[0] if rest else spaced_unit
         if rest and spaced_unit:
-            raise UsageError(f"{where} gives two units", _VARY_HELP)
+            raise UsageError(f"{where} gives two units", help_)
         items = [x for x in numbers.split(",")]
         if any(not _NUMBER_RE.match(x) for x in items):
             bad = next(x for x in items if not _NUMBER_RE.match(x))
-            raise UsageError(f"{where}: {bad!r} is not a number", _VARY_HELP)
+            raise UsageError(f"{where}: {bad!r} is not a number", help_)
         values = np.array([float(x) for x in items])
-    unit = unit or target.unit
-    _check_unit(target, unit, where)
+        texts = items
+    return _parameter(target, values, unit or target.unit, spacing, where, help_, texts)
+
+
+def _check_range(values: np.ndarray, texts: list[str], where: str) -> None:
+    """Values that are not finite: written beyond the range of doubles (``1e400``), or nan."""
+    bad = np.flatnonzero(~np.isfinite(values))
+    if bad.size:
+        k = bad[0]
+        what = "not a number" if np.isnan(values[k]) else "beyond the range of numbers (1.8e308)"
+        raise UsageError(
+            f"{where}: {texts[k].strip()} is {what}",
+            "give finite values within the working range (README, Limits of the method)",
+        )
+
+
+def _parameter(
+    target: _Target, values, unit: str, spacing: str, where: str, help_: str, texts=None
+) -> Parameter:
+    """A grid axis from values in ``unit`` (checked and converted to internal units)."""
+    _check_range(values, texts or [repr(float(v)) for v in values], where)
+    _check_unit(target, unit, where, help_)
     internal = _to_internal(target, values, unit)
-    _check_values(target, internal, where)
+    _check_values(target, internal, where, help_)
     return Parameter(
         target.name,
         target.kind,
@@ -463,6 +508,41 @@ def parse_vary(scheme: Scheme, spec: str, option: str = "--vary") -> Parameter:
         spacing,
         f"{target.label} [{unit}]",
     )
+
+
+def _grid_axis(scheme: Scheme, name, value) -> Parameter:
+    """One entry ``name: value`` of an API grid mapping (numbers in the file's unit or text)."""
+    if not isinstance(name, str):
+        raise ArgumentTypeError(
+            f"a grid name must be text such as 'k2', not {type_name(name)}", _GRID_HELP
+        )
+    if isinstance(value, str):
+        return _parse_vary(scheme, f"{name}={value}", f"grid[{name!r}] = {value!r}", _GRID_HELP)
+    where = f"grid[{name!r}]"
+    target = _resolve(scheme, name, where)
+    if value is None or isinstance(value, Mapping | bytes):
+        raise ArgumentTypeError(
+            f"{where} must be a list of numbers, not {type_name(value)}", _GRID_HELP
+        )
+    items = np.atleast_1d(np.asarray(value, dtype=object))
+    if items.ndim != 1:
+        raise UsageError(
+            f"{where} must be a flat list of values, not an array of shape {items.shape}",
+            _GRID_HELP,
+        )
+    if items.size == 0:
+        raise UsageError(f"{where} has no values", _GRID_HELP)
+    if items.size > MAX_AXIS:
+        raise UsageError(
+            f"{where}: {items.size:,} values on one axis are too many (at most {MAX_AXIS:,})",
+            "use fewer values",
+        )
+    values = np.empty(items.size)
+    for j, x in enumerate(items):
+        if isinstance(x, bool) or not isinstance(x, int | float | np.integer | np.floating):
+            raise UsageError(f"{where}: {x!r} is not a number", _GRID_HELP)
+        values[j] = float(x)
+    return _parameter(target, values, target.unit, "list", where, _GRID_HELP)
 
 
 # ---------------------------------------------------------------------------------------
@@ -544,14 +624,22 @@ def parse_spread(scheme: Scheme, spec: str, option: str = "--spread") -> Spread:
     A temperature standard deviation in degC (or degF) is a temperature *difference*
     (1 degC = 1 K).
     """
-    where = f"{option} {spec!r}"
+    return _parse_spread(scheme, spec, f"{option} {spec!r}")
+
+
+def _parse_spread(scheme: Scheme, spec: str, where: str) -> Spread:
+    """:func:`parse_spread` with the place of its messages given."""
+    if not isinstance(spec, str):
+        raise ArgumentTypeError(
+            f"a spread must be text such as 'k1=15%', not {type_name(spec)}", _SPREAD_HELP
+        )
     if "=" not in spec:
         raise UsageError(f"{where} has no '='", _SPREAD_HELP)
     name, _, body = spec.partition("=")
     body = body.strip()
     if not name.strip() or not body:
         raise UsageError(f"{where} needs a name and a spread", _SPREAD_HELP)
-    target = _resolve(scheme, name, option, spec)
+    target = _resolve(scheme, name, where)
     normal = target.kind in ("temperature", "energy")
     column = f"{target.label} [{target.unit}]"
     m = re.match(rf"^({_NUMBER})\s*%$", body)
@@ -895,6 +983,7 @@ def make_plan(
     chunk_size: int = DEFAULT_CHUNK,
     precision: str = "double",
     summary_method: str = "batch",
+    api: bool = False,
 ) -> SweepPlan:
     """Check a sweep definition and build its :class:`SweepPlan`.
 
@@ -919,6 +1008,9 @@ def make_plan(
     precision : {"double", "auto", "double-double"}
         Precision of the propagation engine.
     summary_method : {"batch", "reference"}
+    api : bool
+        Word the messages for the Python API (``grid['k2']``, ``samples``) instead of the
+        command line (``--vary 'k2=...'``, ``--samples``).
 
     Returns
     -------
@@ -928,41 +1020,42 @@ def make_plan(
     ------
     kinetics.errors.UsageError
     """
-    from .solution import check_times, time_factor
+    from .solution import check_times, require_scheme, time_factor
 
+    words = _API_WORDS if api else _CLI_WORDS
+    require_scheme(scheme, "sweep" if api else "make_plan")
     t = check_times(times)
     if t[-1] <= 0:
         raise UsageError("the time grid has no time after 0", "give a positive end time")
     time_factor(time_unit)
-    if isinstance(vary, Mapping):
-        specs: list = []
-        for k, v in vary.items():
-            if isinstance(v, str):
-                specs.append(f"{k}={v}")
-            else:
-                values = np.atleast_1d(np.asarray(v, dtype=float))
-                specs.append(f"{k}=" + ",".join(repr(float(x)) for x in values))
-    else:
-        specs = list(vary)
-    parameters = tuple(p if isinstance(p, Parameter) else parse_vary(scheme, p) for p in specs)
-    spreads = tuple(s if isinstance(s, Spread) else parse_spread(scheme, s) for s in spread)
+    parameters = _axes(scheme, vary, words)
+    if isinstance(spread, str):
+        spread = [spread]
+    if spread is None or not isinstance(spread, Iterable):
+        raise ArgumentTypeError(
+            f"the spread must be a list of texts such as 'k1=15%', not {type_name(spread)}",
+            _SPREAD_HELP,
+        )
+    spreads = tuple(
+        s if isinstance(s, Spread) else _parse_spread(scheme, s, words.place(words.spread, s))
+        for s in spread
+    )
     seen: set[str] = set()
     for p in (*parameters, *spreads):
         if p.name in seen:
-            raise UsageError(
-                f"{p.name} is varied twice",
-                "give each parameter once, in either --vary or --spread",
-            )
+            raise UsageError(f"{p.name} is varied twice", words.once)
         seen.add(p.name)
     if isinstance(samples, bool) or not isinstance(samples, int | np.integer) or samples < 0:
-        raise UsageError(f"--samples must be a whole number >= 0, not {samples!r}", "e.g. 1000")
+        raise UsageError(
+            f"{words.samples} must be a whole number >= 0, not {samples!r}", "e.g. 1000"
+        )
     samples = int(samples)
     if spreads and samples == 0:
-        raise UsageError("--spread needs --samples", "e.g. --samples 1000 --spread k1=15%")
+        raise UsageError(words.spread_needs, words.mc_example)
     if samples and not spreads:
-        raise UsageError("--samples needs at least one --spread", "e.g. --spread k1=15%")
+        raise UsageError(words.samples_need, words.mc_example)
     if isinstance(seed, bool) or not isinstance(seed, int | np.integer) or seed < 0:
-        raise UsageError(f"--seed must be a whole number >= 0, not {seed!r}", "e.g. --seed 1")
+        raise UsageError(f"{words.seed} must be a whole number >= 0, not {seed!r}", "e.g. 1")
     if (
         isinstance(chunk_size, bool)
         or not isinstance(chunk_size, int | np.integer)
@@ -980,7 +1073,13 @@ def make_plan(
     ):
         raise UsageError("the scheme sets no temperature", "add a temperature line")
     columns = _summary_columns(scheme, parameters, spreads, time_unit)
-    return SweepPlan(
+    n_sets = math.prod(p.values.size for p in parameters) * max(samples, 1)
+    if n_sets > MAX_SETS:
+        raise UsageError(
+            f"{n_sets:,} parameter sets are too many (at most {MAX_SETS:,}; about 50 us each)",
+            f"use fewer values or {words.samples}",
+        )
+    plan = SweepPlan(
         scheme,
         parameters,
         spreads,
@@ -993,6 +1092,109 @@ def make_plan(
         columns,
         summary_method,
     )
+    if api:  # the API keeps every result in memory: refuse before checking each set
+        _check_memory(plan, curves=False)
+    _check_sets(plan)
+    return plan
+
+
+@dataclass(frozen=True)
+class _Words:
+    """How messages name the parts of a sweep: command-line options or API arguments."""
+
+    vary: str
+    spread: str
+    samples: str
+    seed: str
+    once: str
+    mc_example: str
+    vary_help: str
+    spread_needs: str
+    samples_need: str
+
+    @staticmethod
+    def place(option: str, spec: str) -> str:
+        return f"{option} {spec!r}"
+
+
+_CLI_WORDS = _Words(
+    "--vary",
+    "--spread",
+    "--samples",
+    "--seed",
+    "give each parameter once, in either --vary or --spread",
+    "e.g. --samples 1000 --spread k1=15%",
+    _VARY_HELP,
+    "--spread needs --samples",
+    "--samples needs at least one --spread",
+)
+_API_WORDS = _Words(
+    "grid entry",
+    "spread entry",
+    "samples",
+    "seed",
+    "give each parameter once, in either the grid or the spread",
+    "e.g. monte_carlo(scheme, ['k1=15%'], 1000, times)",
+    _GRID_HELP,
+    "a spread needs samples > 0",
+    "samples need at least one spread",
+)
+
+
+def _axes(scheme: Scheme, vary, words: _Words) -> tuple[Parameter, ...]:
+    """Grid axes from texts, a mapping (API) or ready parameters."""
+    if isinstance(vary, Mapping):
+        return tuple(_grid_axis(scheme, k, v) for k, v in vary.items())
+    if isinstance(vary, str):
+        vary = [vary]
+    if not isinstance(vary, Iterable):
+        raise ArgumentTypeError(
+            f"the grid must be a mapping or a list of texts, not {type_name(vary)}",
+            _GRID_HELP,
+        )
+    out = []
+    for p in vary:
+        if isinstance(p, Parameter):
+            out.append(p)
+        elif isinstance(p, str):
+            out.append(_parse_vary(scheme, p, words.place(words.vary, p), words.vary_help))
+        else:
+            raise ArgumentTypeError(
+                f"a grid entry must be text such as 'k2=0.01:1:25:log', not {type_name(p)}",
+                _GRID_HELP,
+            )
+    return tuple(out)
+
+
+def _check_sets(plan: SweepPlan, block: int = 100_000) -> None:
+    """Refuse a plan with a set outside the engine's working range, before any work."""
+    from .analysis import MAX_RATE, MAX_SCALE, check_working_range
+    from .ratematrix import rate_pattern
+
+    pattern = rate_pattern(plan.scheme)
+    diag = np.flatnonzero(pattern.rows == pattern.cols)
+    n = pattern.n
+    t_end = float(plan.times[-1])
+    check_working_range([], t_end)  # the time span alone, for every set
+    for start in range(0, plan.n_sets, block):
+        stop = min(plan.n_sets, start + block)
+        display, internal = plan.set_values(start, stop)
+        rates, c0, feed = _inputs(plan, internal)
+        out = np.zeros((stop - start, n))
+        for e in diag:
+            out[:, pattern.rows[e]] -= pattern.coefficients[e] * rates[:, pattern.steps[e]]
+        amount = c0.sum(axis=1) + (0.0 if feed is None else feed.sum() * t_end)
+        with np.errstate(invalid="ignore", over="ignore"):
+            worst = np.where(np.isfinite(out), out, np.inf).max(axis=1)
+            worst = np.maximum(worst / MAX_RATE, amount * np.maximum(worst, 1.0) ** 3 / MAX_SCALE)
+        i = int(np.argmax(np.where(np.isnan(worst), np.inf, worst)))
+        try:
+            check_working_range(out[i], t_end, plan.scheme.species_names, float(amount[i]))
+        except UsageError as exc:
+            values = ", ".join(
+                f"{c} = {v:.6g}" for c, v in zip(plan.parameter_columns, display[i], strict=True)
+            )
+            raise UsageError(f"set {start + i} ({values}): {exc.problem}", exc.hint) from None
 
 
 # ---------------------------------------------------------------------------------------
@@ -1146,10 +1348,28 @@ class ChunkResult:
     curves: np.ndarray | None = None
 
 
+#: Curves of a plain-double sweep are recomputed in full precision for the members whose
+#: certified bound exceeds this (stiff sets: the double route loses about 1e-16 sigma t).
+CURVE_RTOL = 1e-9
+
+
 def _propagate_batch(K, c0, times, feed, precision):
     from .propagate import propagate_batch
 
-    return propagate_batch(K, c0, times, feed, precision=precision)
+    if precision != "double":
+        return propagate_batch(K, c0, times, feed, precision=precision)
+    try:
+        conc, bound = propagate_batch(K, c0, times, feed, precision="double", return_bound=True)
+    except GrowthError:  # plain double can overflow on very stiff members: decide below
+        conc, bound = np.zeros((K.shape[0], np.size(times), K.shape[1])), None
+    redo = (
+        np.arange(K.shape[0])
+        if bound is None
+        else np.flatnonzero(~(bound.max(axis=1, initial=0.0) <= CURVE_RTOL))
+    )
+    if redo.size:
+        conc[redo] = propagate_batch(K[redo], c0[redo], times, feed, precision="auto")
+    return conc
 
 
 def _reference_summaries(plan: SweepPlan, K, c0, feed) -> dict[str, np.ndarray]:
@@ -1529,7 +1749,22 @@ def curve_bands(plan: SweepPlan, curves: np.ndarray, grid_point: int) -> pd.Data
 # ---------------------------------------------------------------------------------------
 
 
+def _check_memory(plan: SweepPlan, curves: bool) -> None:
+    """Refuse a sweep whose results held in memory exceed :data:`MAX_MEMORY_VALUES`."""
+    values = plan.n_sets * (len(plan.parameter_columns) + len(plan.columns))
+    if curves:
+        values = max(values, plan.n_sets * plan.times.size * len(plan.scheme.species))
+    if values > MAX_MEMORY_VALUES:
+        raise UsageError(
+            f"the sweep would hold {values:,} values in memory ({plan.n_sets:,} sets), more "
+            f"than {MAX_MEMORY_VALUES:,} (about {8 * MAX_MEMORY_VALUES // 10**6} MB per copy)",
+            "sweep fewer sets, or write the table to a file chunk by chunk (the command "
+            "kinetics sweep does that with --out)",
+        )
+
+
 def _in_memory(plan: SweepPlan, curves: bool, engine: str, scheduler: str | None):
+    _check_memory(plan, curves)
     results: dict[int, ChunkResult] = {}
     run_chunks(
         plan,
@@ -1606,7 +1841,13 @@ def sweep(
         plan = grid
     else:
         plan = make_plan(
-            scheme, grid, times, time_unit=time_unit, chunk_size=chunk_size, precision=precision
+            scheme,
+            grid,
+            times,
+            time_unit=time_unit,
+            chunk_size=chunk_size,
+            precision=precision,
+            api=True,
         )
     parts = _in_memory(plan, curves, engine, scheduler)
     table = pd.concat([summary_frame(plan, r) for r in parts]) if parts else None
@@ -1672,6 +1913,7 @@ def monte_carlo(
         time_unit=time_unit,
         chunk_size=chunk_size,
         precision=precision,
+        api=True,
     )
     parts = _in_memory(plan, False, "local", None)
     table = pd.concat([summary_frame(plan, r) for r in parts])

@@ -59,7 +59,9 @@ Members that need the general treatment of :mod:`kinetics.analysis` -- damped
 oscillations (complex eigenvalues with :math:`|\mathrm{Im}| > 0.2 |\mathrm{Re}|`),
 exponential growth, a sign change of the derivative across scan points of unknown sign,
 a cubic model of the derivative that hints at two turning points hidden between scan
-points, a half-life crossing across such points, or a scheme without any rate -- are
+points, a half-life crossing across such points, a scheme without any rate, or a stiff
+member whose scan spans more than 1e7 shortest lifetimes (the plain-double ladder would
+lose more than 1e-10) -- are
 handed to :func:`kinetics.analysis.summarise` one by one (about 8 % of random branched
 networks with reverse steps; 24 % before maxima after a minimum were refined here).  The
 result equals :func:`kinetics.analysis.summarise` per member to about 1e-12 relative
@@ -110,6 +112,12 @@ _SEGMENT_STEPS = 12
 _NEWTON_Y = 0.25
 _NEWTON_TERMS = 14
 _MAX_NEWTON = 60
+
+# The compiled ladder runs in plain double: its relative error grows about as
+# 1e-17 sigma t (sigma the largest sum of constants of a species; measured against the
+# two-member Bateman solution: 1e-10 at sigma t = 5e7, 1e-6 at 5e10).  Members whose
+# scan spans more than this go to kinetics.analysis (entrywise double-double).
+_STIFF_SIGMA_T = 1e7
 
 _NEVER, _DECAY, _CONST, _EXP = -2, -1, 0, 10**9
 _DECAYING, _CRITICAL, _GROWING = 0, 1, 2
@@ -425,9 +433,12 @@ def _group(K, c0, f, members, offdiag, out, fallback) -> None:
     r_max = np.where(any_rate, np.where(pos, rates, 0.0).max(axis=1), 1.0)
     r_min = np.where(any_rate, np.where(pos, rates, np.inf).min(axis=1), 1.0)
     oscillating = np.any((np.abs(ev.imag) > 0.2 * np.abs(ev.real)) & (ev.imag != 0), axis=1)
-    special = growing | oscillating | ~any_rate
     t_lo = _SCAN_FAST / r_max
     t_hi = np.maximum(_SCAN_SLOW / r_min, 10 * t_lo)
+    # stiff members (sigma t over the scan beyond _STIFF_SIGMA_T) go to kinetics.analysis
+    sigma = np.max(-np.diagonal(Kg, axis1=1, axis2=2), axis=1)
+    stiff = sigma * t_hi > _STIFF_SIGMA_T
+    special = growing | oscillating | ~any_rate | stiff
     scale = np.exp2(np.floor(np.log2(1.0 / r_max)))
     fast = np.flatnonzero(~special)
     fallback[members[special]] = True

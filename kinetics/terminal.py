@@ -15,7 +15,14 @@ if TYPE_CHECKING:
     from .scheme import Scheme
     from .solution import Solution
 
-__all__ = ["console", "progress", "render_check", "render_solution", "render_summary"]
+__all__ = [
+    "console",
+    "print_fitted",
+    "progress",
+    "render_check",
+    "render_solution",
+    "render_summary",
+]
 
 #: Width used when stdout is not a terminal: wide enough never to cut a column.
 PIPE_WIDTH = 10_000
@@ -310,20 +317,87 @@ TERMINAL_SUMMARY = (
 )
 
 
+def _width(text: str) -> int:
+    from rich.cells import cell_len
+
+    return cell_len(text)
+
+
+def print_fitted(
+    out: Console, headers: list[str], rows: list[list[str]], left: int = 1, align: str = "left"
+) -> None:
+    """Print a table whose cells are never cut: columns that do not fit the console's width
+    go to a further table below, each part repeating the first ``left`` (label) columns.
+
+    Each column is as wide as its widest cell (headers wrap at spaces); only a column wider
+    than the console on its own folds its text onto further lines, keeping every character.
+
+    Parameters
+    ----------
+    out : rich.console.Console
+    headers : list of str
+        Plain text (escaped here).
+    rows : list of list of str
+        Plain text cells.
+    left : int
+        Label columns, repeated in every part, aligned by ``align``; the others right.
+    align : {"left", "right"}
+    """
+    widths, full = [], []
+    for j, header in enumerate(headers):
+        cells = max((_width(row[j]) for row in rows), default=1)
+        word = max((_width(w) for w in header.split()), default=1)
+        widths.append(max(cells, word, min(_width(header), _HEADER_WIDTH)))
+        full.append(max(cells, _width(header)))
+    if 1 + sum(w + 3 for w in full) <= out.width:
+        widths = full  # everything fits on one line per row, headers too
+    # a column takes its width, one space of padding on each side and one border; the
+    # labels give way (fold) first, so that they and the widest other column fit
+    widest = max(1, out.width - 4)
+    widths = [min(w, widest) for w in widths]
+    other = max((w + 3 for w in widths[left:]), default=0)
+    spare = out.width - 1 - other - 3 * left
+    if left and sum(widths[:left]) > spare:
+        widths[:left] = [max(1, spare // left)] * left
+    cost = [w + 3 for w in widths]
+    budget = out.width - 1 - sum(cost[:left])
+    groups: list[list[int]] = []
+    for j in range(left, len(headers)):
+        if groups and sum(cost[k] for k in groups[-1]) + cost[j] <= budget:
+            groups[-1].append(j)
+        else:
+            groups.append([j])
+    for group in groups or [[]]:
+        table = Table()
+        for j in [*range(left), *group]:
+            table.add_column(
+                _escape(headers[j]),
+                justify=align if j < left else "right",
+                width=widths[j],
+                overflow="fold",
+            )
+        for row in rows:
+            table.add_row(*(_escape(row[j]) for j in [*range(left), *group]))
+        out.print(table)
+
+
+#: Headers up to this width stay on one line when the cells are narrower.
+_HEADER_WIDTH = 14
+
+
 def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> None:
-    """Print the summary quantities as a table with units in every header."""
-    from .overview import SUMMARY_COLUMNS, summary_header
+    """Print the summary quantities as tables with units in every header, then the
+    whole-scheme quantities (relaxation times, selectivity...) of :attr:`Summary.scheme`."""
+    from .overview import SUMMARY_COLUMNS, scheme_lines, summary_header
 
     out = out or console()
     out.print("[bold]Summary[/bold] (on the exact solution, not read off the grid)")
-    table = Table()
-    table.add_column("species")
     columns = [c for c in SUMMARY_COLUMNS if c[0] in TERMINAL_SUMMARY]
-    for column in columns:
-        table.add_column(_escape(summary_header(column, time_unit, conc_unit)), justify="right")
+    headers = ["species"] + [summary_header(c, time_unit, conc_unit) for c in columns]
+    rows = []
     notes = []
     for name, entry in summary.items():
-        cells = [_escape(name)]
+        cells = [str(name)]
         for key, _, _ in columns:
             value = entry.get(key)
             text = _cell(value)
@@ -332,7 +406,7 @@ def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> N
             if key == "limit" and value is None and entry.get("unbounded"):
                 text = "unbounded"
             cells.append(text)
-        table.add_row(*cells)
+        rows.append(cells)
         maxima = entry.get("maxima") or []
         if len(maxima) > 1:
             listed = ", ".join(
@@ -342,9 +416,14 @@ def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> N
             )
             notes.append(f"{name}: local maxima {listed}")
         notes.extend(f"{name}: {note}" for note in entry.get("notes") or [])
-    out.print(table)
+    print_fitted(out, headers, rows)
     for note in dict.fromkeys(notes):
         out.print(f"  note: {_escape(note)}")
+    lines = scheme_lines(getattr(summary, "scheme", None) or {}, time_unit, conc_unit)
+    if lines:
+        out.print("[bold]Whole scheme[/bold]")
+        for label, text in lines:
+            out.print(f"  {_escape(label)}: {_escape(text)}")
 
 
 def render_solution(
@@ -377,7 +456,10 @@ def render_solution(
         hidden = len(solution.species) - max_columns
         species = solution.species[:max_columns]
     if summary:
-        shown = {k: v for k, v in summary.items() if not species or k in species}
+        from .overview import Summary
+
+        kept = {k: v for k, v in summary.items() if not species or k in species}
+        shown = Summary(kept, getattr(summary, "scheme", None))
         render_summary(shown, time_unit, solution.concentration_unit, out)
     frame = solution.to_frame(time_unit)
     if species:
@@ -392,13 +474,9 @@ def render_solution(
     if step > 1:
         title += f": {len(rows)} of {n} points shown (1 in {step}); --out writes them all"
     out.print(f"[bold]{title}")
-    table = Table()
-    for column in frame.columns:
-        table.add_column(_escape(column), justify="right")
     values = frame.to_numpy()
-    for i in rows:
-        table.add_row(*(f"{v:.6g}" for v in values[i]))
-    out.print(table)
+    cells = [[f"{v:.6g}" for v in values[i]] for i in rows]
+    print_fitted(out, [str(c) for c in frame.columns], cells, align="right")
     if hidden:
         out.print(
             f"{hidden} more species not shown; choose columns with --species, "

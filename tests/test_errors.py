@@ -107,3 +107,15 @@ def test_hierarchy():
     assert issubclass(SchemeError, ValueError)
     assert issubclass(SchemeErrors, ValueError)
     assert issubclass(SchemeFileError, OSError)
+
+
+def test_unit_errors_are_value_errors_and_pickle():
+    from kinetics.errors import UnitError, UnknownUnitError
+
+    assert issubclass(UnitError, KineticsError)
+    assert issubclass(UnitError, ValueError)
+    assert issubclass(UnknownUnitError, UnitError)
+    for error in (UnitError("the exponent 99 is too large"), UnknownUnitError("unknown unit 'x'")):
+        copy = pickle.loads(pickle.dumps(error))
+        assert type(copy) is type(error)
+        assert str(copy) == str(error)

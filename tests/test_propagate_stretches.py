@@ -139,10 +139,14 @@ def test_large_schemes_take_the_block_route_one_stretch_at_a_time():
         K[i + 1, i] = 1.0 + 0.01 * i
     p = StretchPropagator(K, np.r_[1e-3, np.zeros(n - 1)])
     start = np.r_[1.0, np.zeros(n - 1)]
+    feed = np.r_[1e-3, np.zeros(n - 1)]
     r = p.advance(np.array([start, 2 * start]), [0.5, 0.25], [1e-17, 0.0])
-    single = propagate_certified(K, start, [0.5], np.r_[1e-3, np.zeros(n - 1)])
-    np.testing.assert_array_equal(r.concentrations[0], single.concentrations[0])
-    assert r.error_bound[0] > single.error_bound[0]  # the low part of the length counted
+    single = propagate_certified(K, start, [0.5], feed)
+    other = propagate_certified(K, 2 * start, [0.25], feed)
+    np.testing.assert_array_equal(r.concentrations[1], other.concentrations[0])
+    # the low part of the length: the state carried to 0.5 + 1e-17 s, and counted
+    np.testing.assert_allclose(r.concentrations[0], single.concentrations[0], rtol=1e-14)
+    assert r.error_bound[0] > single.error_bound[0]
     y, bound = p.step(start, 0.5)
     assert bound >= single.error_bound[0]
     np.testing.assert_array_equal(y, single.concentrations[0])

@@ -26,7 +26,7 @@ import scipy.optimize
 
 import kinetics
 from kinetics.analysis import time_to_fraction
-from kinetics.fit import chi2_error_level, fit, propagate_sensitivities
+from kinetics.fit import chi2_error_level, fit
 from kinetics.units import convert
 
 
@@ -182,19 +182,6 @@ def test_arrhenius_global_fit_recovers_a_and_ea():
     assert result.value("k1.Ea") == pytest.approx(75.0, rel=1e-8, abs=0)
     assert result.estimates["k1.A"].unit == "1/s"
     assert result.estimates["k1.Ea"].unit == "kJ/mol"
-
-
-def test_sensitivities_match_expm_frechet():
-    """Reference: scipy.linalg.expm_frechet, L(tK, tE) c0 at each time."""
-    K = np.array([[-0.3, 0.0, 0.1], [0.3, -0.2, 0.0], [0.0, 0.2, -0.1]])
-    E = np.array([[0.0, 0.0, 0.0], [0.0, -0.2, 0.0], [0.0, 0.2, 0.0]])  # dK/d ln k2
-    c0 = np.array([1.0, 0.2, 0.0])
-    times = np.array([0.0, 0.5, 2.0, 7.5, 30.0])
-    c, S = propagate_sensitivities(K, c0, times, E[None])
-    for i, t in enumerate(times):
-        expm, frechet = scipy.linalg.expm_frechet(t * K, t * E)
-        np.testing.assert_allclose(c[i], expm @ c0, rtol=1e-13, atol=1e-15)
-        np.testing.assert_allclose(S[0, i], frechet @ c0, rtol=1e-11, atol=1e-14)
 
 
 def test_chi2_error_level_hand_computation():
