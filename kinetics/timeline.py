@@ -46,6 +46,7 @@ from fractions import Fraction
 from typing import TYPE_CHECKING
 
 from .errors import SchemeError, SchemeErrors, shown_value
+from .suggest import close_matches
 
 if TYPE_CHECKING:
     from .scheme import Scheme
@@ -368,12 +369,10 @@ class _Checker:
                 )
             )
         else:
-            self.errors.append(
-                place.error(
-                    f"{name!r} is not a species of the scheme",
-                    "species: " + ", ".join(self.scheme.species_names),
-                )
-            )
+            listing = "species: " + ", ".join(self.scheme.species_names)
+            close = close_matches(name, self.scheme.species_names, fold_case=True)
+            hint = f"did you mean {close[0]!r}? ({listing})" if close else listing
+            self.errors.append(place.error(f"{name!r} is not a species of the scheme", hint))
         return False
 
     def amount(self, name: str, value, place: Place, rate: bool = False) -> None:

@@ -75,6 +75,10 @@ def problems(line: Timeline, end: float = 100.0, scheme=SCHEME) -> list[str]:
             "<timeline>: 'Q' is not a species of the scheme; species: A, B, C",
         ),
         (
+            Timeline([At(5.0, Addition({"b": 1}))]),
+            "<timeline>: 'b' is not a species of the scheme; did you mean 'B'? (species: A, B, C)",
+        ),
+        (
             Timeline([At(5.0, Removal.percent(10, "W"))]),
             "<timeline>: W is held in excess (constant) and cannot be changed by an operation; "
             "add or remove a species of the rate matrix",
