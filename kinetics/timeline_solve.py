@@ -287,10 +287,11 @@ class _Conditions:
 def _temperature_regions(scheme: Scheme, plan: Plan) -> list[tuple[float, object]]:
     """``(from time, regime)`` in time order: regime a temperature [K] (None: the
     scheme's) or the index of a ramp."""
+    # at one time: a ramp's end, then a step (which overrides it), then a ramp's start
     changes: list[tuple[float, int, object]] = [(0.0, -1, None)]
-    changes += [(t, 0, T) for t, T, _ in plan.steps]
+    changes += [(t, 1, T) for t, T, _ in plan.steps]
     for i, r in enumerate(plan.ramps):
-        changes += [(r.start, 1, ("ramp", i)), (r.end, 1, r.final)]
+        changes += [(r.start, 2, ("ramp", i)), (r.end, 0, r.final)]
     changes.sort(key=lambda c: (c[0], c[1]))
     return [(t, regime) for t, _, regime in changes]
 

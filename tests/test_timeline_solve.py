@@ -244,3 +244,19 @@ def test_mistakes_in_the_timeline_come_out_together():
     with pytest.raises(SchemeErrors) as info:
         solve_timeline(CLOSED, line, [0.0, HOUR])
     assert len(info.value.errors) == 2
+
+
+def test_a_step_at_the_end_of_a_ramp_takes_over_from_it():
+    line = Timeline(
+        [TemperatureRamp(HOUR, 2 * HOUR, 300.0, 320.0), At(2 * HOUR, TemperatureStep(290.0))]
+    )
+    sol = solve_timeline(HEATED, line, [0.0, 1.5 * HOUR, 2 * HOUR, 3 * HOUR], ramp_rtol=1e-6)
+    assert sol.temperatures.tolist() == [298.15, 310.0, 290.0, 290.0]
+    cooled = HEATED.with_values(temperature=290.0)
+    at_two = solve_timeline(HEATED, line, [0.0, 2 * HOUR], ramp_rtol=1e-6).concentrations[-1]
+    # after 2 h: the isothermal stretch at 290 K from the state the ramp left (exact)
+    tail = kinetics.solve(
+        cooled.with_values(initial=dict(zip(cooled.species_names, at_two, strict=True))),
+        [0.0, HOUR],
+    )
+    np.testing.assert_allclose(sol.concentrations[-1], tail.concentrations[-1], rtol=1e-14)
