@@ -324,7 +324,9 @@ def parse_temperature_log(text: str, source: str = "<text>") -> TemperatureLog:
     if not rows:
         raise DataError("the temperature record is empty", source, _EXAMPLE)
     factor, unit = reader.header(*rows[0])
-    times, temperatures, lines = [], [], []
+    times: list[float] = []
+    temperatures: list[float] = []
+    lines: list[int] = []
     previous = ""
     for number, line in rows[1:]:
         cells = _cells(line)

@@ -348,6 +348,7 @@ class _Checker:
                 place.error(f"{what} must be a number of seconds, not {shown_value(value)}")
             )
             return False
+        value = float(value)
         if not (math.isfinite(value) and value >= 0):
             self.errors.append(
                 place.error(

@@ -59,7 +59,7 @@ import numpy as np
 
 from . import _doubledouble as dd
 from .errors import UsageError, shown_value
-from .propagate import TINY, StretchPropagator
+from .propagate import TINY, Precision, StretchPropagator
 from .solution import check_times
 from .timeline import Addition, Plan, Removal, Timeline, expand
 
@@ -180,7 +180,7 @@ class TimelineSolution:
 class _Conditions:
     """Rate matrices, feeds and propagators of the stretches, each built once."""
 
-    def __init__(self, scheme: Scheme, plan: Plan, precision: str) -> None:
+    def __init__(self, scheme: Scheme, plan: Plan, precision: Precision) -> None:
         self.scheme = scheme
         self.plan = plan
         self.precision = precision
@@ -302,17 +302,17 @@ def _pieces(scheme: Scheme, plan: Plan, level: list[int], times: np.ndarray):
     ``level[i]`` is the number of sub-steps of ramp ``i``; the output times inside a ramp
     also end sub-steps, and each sub-step is two half-stretches (see :meth:`_Conditions._combined`).
     """
-    cuts = set(plan.breakpoints())
+    edges = set(plan.breakpoints())
     for i, r in enumerate(plan.ramps):
         N = level[i]
         span = Fraction(r.end) - Fraction(r.start)
-        cuts.update(float(Fraction(r.start) + k * span / N) for k in range(1, N))
-        cuts.update(t for t in times.tolist() if r.start < t < r.end)
-    cuts = sorted(t for t in cuts | {0.0, plan.end} if t <= plan.end)
+        edges.update(float(Fraction(r.start) + k * span / N) for k in range(1, N))
+        edges.update(t for t in times.tolist() if r.start < t < r.end)
+    cuts = sorted(t for t in edges | {0.0, plan.end} if t <= plan.end)
     regions = _temperature_regions(scheme, plan)
     region_starts = np.array([t for t, _ in regions])
     feeds = [(w.start, w.end) for w, _ in plan.feeds]
-    pieces = []
+    pieces: list[tuple[float, float, tuple]] = []
     for a, b in itertools.pairwise(cuts):
         regime = regions[np.searchsorted(region_starts, a, side="right") - 1][1]
         active = tuple(k for k, (s, e) in enumerate(feeds) if s <= a and b <= e)
@@ -633,11 +633,8 @@ def _temperatures(scheme: Scheme, plan: Plan, times: np.ndarray) -> np.ndarray |
             r = plan.ramps[regime[1]]
             out[row] = r.initial + (r.final - r.initial) * (t - r.start) / (r.end - r.start)
         else:
-            out[row] = (
-                np.nan
-                if regime is None and scheme.temperature is None
-                else (scheme.temperature if regime is None else regime)
-            )
+            kelvin = scheme.temperature if regime is None else regime
+            out[row] = np.nan if kelvin is None else float(kelvin)  # type: ignore[arg-type]
     return out
 
 
@@ -646,7 +643,7 @@ def solve_timeline(
     timeline: Timeline,
     times,
     *,
-    precision: str = "auto",
+    precision: Precision = "auto",
     ramp_rtol: float = 1e-10,
     include_operations: bool = False,
 ) -> TimelineSolution:
