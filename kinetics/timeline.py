@@ -1,21 +1,21 @@
 r"""A timeline of operations on a scheme: additions, removals, temperature steps, ramps, feeds.
 
 A run is rarely one stretch of constant conditions from time 0.  A timeline lists what
-happens during it, in the core's units (seconds, kelvin, the scheme's concentration unit):
+happens during it, in the core's units (seconds, kelvin, the scheme's concentration unit).
+Each statement is what one line of the scheme language says:
 
-==========================  ==============================================================
-statement                   meaning
-==========================  ==============================================================
-``At(T, Addition(...))``    at time T the named species rise instantly by the amounts
-``At(T, Removal(...))``     at time T a fraction of each named species is taken out; the
-                            amount removed is recorded (elution, filtration, a sample)
-``At(T, TemperatureStep)``  from time T on every Arrhenius constant follows the new
-                            temperature
-``Every(P, action, T0, T1)``  the addition or removal at T0, T0 + P, ... up to T1 and the
-                            end of the solved window (T0 defaults to P)
-``FeedWindow(T0, T1, ...)``   a zero-order feed that runs only between T0 and T1
-``TemperatureRamp(...)``    a linear temperature ramp between T0 and T1
-==========================  ==============================================================
+* ``At(T, Addition({S: C}))`` (``at T: add S = C``): the named species rise instantly;
+* ``At(T, Removal.percent(P, S))`` (``at T: remove P % of S``): that part of each named
+  species is taken out, and the amount removed is recorded (elution, filtration, a sample);
+* ``At(T, TemperatureStep(X))`` (``at T: temperature = X``): from T on every Arrhenius
+  constant follows the new temperature;
+* ``Every(P, action, start=T0, until=T1)`` (``every P from T0 until T1: ...``): the
+  addition or removal at T0, T0 + P, ... up to T1 and the end of the solved window (T0
+  defaults to P; repetitions up to T1 after the window are not applied, and noted);
+* ``FeedWindow(T0, T1, {S: R})`` (``from T0 to T1: feed S = R``): a zero-order feed that
+  runs only between T0 and T1 (the scheme's own ``feed`` stays always on);
+* ``TemperatureRamp(T0, T1, X1, X2)`` (``from T0 to T1: temperature X1 -> X2``): a linear
+  ramp.
 
 Between operations the scheme is linear with constant coefficients, and each operation
 is a nonnegative map of the concentrations (:math:`c \mapsto c + a` with
@@ -23,9 +23,11 @@ is a nonnegative map of the concentrations (:math:`c \mapsto c + a` with
 whole timeline is solved exactly stretch by stretch (:mod:`kinetics.timeline_solve`).
 
 Each statement may carry a :class:`Place` (file, line, column, text): the scheme
-language fills it, so a mistake is reported where it was written.  :func:`expand`
-checks a timeline against a scheme and a window, collects every mistake, and turns
-it into the sorted list of operations the solver applies.
+language fills it, so a mistake is reported where it was written.  :func:`check` finds
+every mistake that does not depend on the solved window (for the language, which reports
+all mistakes of a file at once); :func:`expand` checks a timeline against a scheme and a
+window, raises every mistake at once, and turns the timeline into the sorted operations
+the solver applies.  A timeline may create at most :data:`MAX_OPERATIONS` operations.
 
 Examples
 --------
