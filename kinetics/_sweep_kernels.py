@@ -22,6 +22,7 @@ import numpy as np
 from numba import njit
 
 from ._kernels import matmul_double, two_sum
+from .analysis.tolerances import REL_NOISE_C, REL_NOISE_D, XTOL
 
 # the constants of the method live in kinetics.sweep_summary (numba reads module globals
 # as compile-time constants)
@@ -29,11 +30,8 @@ from .sweep_summary import _MAX_NEWTON as MAX_NEWTON
 from .sweep_summary import _NEWTON_TERMS as NEWTON_TERMS
 from .sweep_summary import _NEWTON_Y as NEWTON_Y
 from .sweep_summary import _RATIO as RATIO
-from .sweep_summary import _REL_NOISE_C as REL_NOISE_C
-from .sweep_summary import _REL_NOISE_D as REL_NOISE_D
 from .sweep_summary import _SEGMENT_STEPS as SEGMENT_STEPS
 from .sweep_summary import _U0 as U0
-from .sweep_summary import _XTOL as XTOL
 
 _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
 # small helpers are inlined into their callers (numba IR inlining)

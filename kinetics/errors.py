@@ -13,6 +13,12 @@ the offending text and says what to write instead.  The message is built in
         A -> B    k3 = 0.1 sec-1
                            ^^^^^
 
+A wrong value given to a library function has a type per kind of mistake
+(:class:`RateMatrixError`, :class:`TimesError`, :class:`SpeciesError`...), all
+subclasses of :class:`ArgumentValueError`; :class:`UsageError`, the wrong argument on
+the command line, is one of them too.  The command line turns every
+:class:`KineticsError` into one line on stderr and exit status 2.
+
 All errors pickle (parallel sweeps send them between processes).
 """
 
@@ -23,14 +29,24 @@ import numbers
 __all__ = [
     "MAX_SHOWN_ERRORS",
     "ArgumentTypeError",
+    "ArgumentValueError",
+    "ConcentrationError",
     "DataError",
     "GrowthError",
     "KineticsError",
     "OutputFileError",
+    "RateMatrixError",
     "SchemeError",
     "SchemeErrors",
     "SchemeFileError",
+    "SettingError",
+    "SpeciesError",
+    "TableSizeError",
+    "TimesError",
+    "UnitError",
+    "UnknownUnitError",
     "UsageError",
+    "WorkingRangeError",
     "shorten",
     "shown_value",
     "type_name",
@@ -241,6 +257,31 @@ class OutputFileError(_FileProblem):
     """
 
 
+class UnitError(KineticsError, ValueError):
+    """A unit that cannot be read: a piece that is no unit, an exponent beyond the limit,
+    a number where a unit belongs, or a unit longer than a chemist writes.
+
+    Raised by :func:`kinetics.units.parse_unit` with a message that names the piece;
+    the readers of files turn it into a :class:`SchemeError` with a place and a hint.
+
+    Examples
+    --------
+    >>> isinstance(UnitError("the exponent 99 is too large"), ValueError)
+    True
+    """
+
+
+class UnknownUnitError(UnitError):
+    """A unit whose pieces read well but that no unit of the registry matches
+    (``sec-1``, ``mol/Lt``).
+
+    Examples
+    --------
+    >>> str(UnknownUnitError("unknown unit 'sec-1'"))
+    "unknown unit 'sec-1'"
+    """
+
+
 class _ProblemAndHint(KineticsError):
     """An error told as ``problem; hint`` with no place in a file."""
 
@@ -256,8 +297,70 @@ class _ProblemAndHint(KineticsError):
         return f"{self.problem}; {self.hint}" if self.hint else self.problem
 
 
-class UsageError(_ProblemAndHint, ValueError):
-    """A wrong argument to a command or to a library function (times, options, names)."""
+class ArgumentValueError(_ProblemAndHint, ValueError):
+    """A value given to a library function or a command that cannot be used.
+
+    The common base of :class:`UsageError` (the command line) and of the typed errors of
+    the numerical core (:class:`RateMatrixError`, :class:`ConcentrationError`,
+    :class:`TimesError`, :class:`SpeciesError`, :class:`SettingError`,
+    :class:`WorkingRangeError`, :class:`TableSizeError`): ``except ArgumentValueError``
+    catches a wrong value wherever it was given.
+
+    Examples
+    --------
+    >>> issubclass(TimesError, ArgumentValueError) and issubclass(UsageError, ArgumentValueError)
+    True
+    """
+
+
+class UsageError(ArgumentValueError):
+    """A wrong argument or option on the command line (the command ends with exit status 2).
+
+    Library modules that have no typed error of their own for a mistake raise it too.
+    """
+
+
+class RateMatrixError(ArgumentValueError):
+    """An array given as a rate matrix K [1/s] that is not one: not numeric, not square,
+    empty, with inf or nan, or with a negative off-diagonal entry (a rate of formation).
+
+    Examples
+    --------
+    >>> str(RateMatrixError("the rate matrix K is empty", "a scheme needs at least one species"))
+    'the rate matrix K is empty; a scheme needs at least one species'
+    """
+
+
+class ConcentrationError(ArgumentValueError):
+    """Start concentrations or zero-order feed rates that cannot be used (wrong length,
+    not numeric, inf or nan, negative)."""
+
+
+class TimesError(ArgumentValueError):
+    """Times [s] that cannot be used: not numbers, not a flat increasing list, negative,
+    an empty list, or a time window or grid end that is not a positive finite time."""
+
+
+class SpeciesError(ArgumentValueError):
+    """A species name or index that the scheme does not have, or names that are not one
+    per species and unique."""
+
+
+class SettingError(ArgumentValueError):
+    """A setting of a library function outside its allowed values: a fraction or a
+    tolerance outside (0, 1), or a choice such as ``where=`` or ``linear=`` that is not
+    one of those listed."""
+
+
+class TableSizeError(ArgumentValueError):
+    """A table larger than the chosen output format holds (an Excel sheet holds at most
+    1,048,576 rows and 16,384 columns); another format holds it."""
+
+
+class WorkingRangeError(ArgumentValueError):
+    """A problem beyond the working range of the exact engine: a rate above 1e100 1/s, a
+    time above 1e100 s, more than 1e27 shortest lifetimes, or concentrations too large for
+    the rates (see :func:`kinetics.analysis.check_working_range`)."""
 
 
 class ArgumentTypeError(_ProblemAndHint, TypeError):

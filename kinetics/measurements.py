@@ -26,7 +26,6 @@ column or row, and what to write instead.
 from __future__ import annotations
 
 import csv
-import difflib
 import io
 import math
 import re
@@ -37,6 +36,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .errors import DataError, UsageError
+from .suggest import close_matches
 from .units import (
     TIME_UNITS,
     convert,
@@ -437,8 +437,7 @@ def _concentration_factor(scheme, species: str, unit: str, column: str, source: 
 
 
 def _did_you_mean(name: str, candidates) -> str:
-    folded = [c for c in candidates if c.lower() == name.lower()]
-    close = folded or difflib.get_close_matches(name, list(candidates), n=1)
+    close = close_matches(name, candidates, fold_case=True)
     listing = "the species are " + ", ".join(candidates)
     if close:
         return f"did you mean {close[0]!r}? ({listing})"

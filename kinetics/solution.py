@@ -15,7 +15,14 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .errors import ArgumentTypeError, UsageError, type_name
+from .errors import (
+    ArgumentTypeError,
+    SettingError,
+    SpeciesError,
+    TimesError,
+    WorkingRangeError,
+    type_name,
+)
 from .propagate import propagate_certified
 from .units import time_factor
 
@@ -92,29 +99,29 @@ def check_times(times) -> np.ndarray:
             warnings.simplefilter("ignore", np.exceptions.ComplexWarning)
             t = np.asarray(times, dtype=float)
     except (TypeError, ValueError) as exc:
-        raise UsageError(
+        raise TimesError(
             "the times are not numbers", "give times in seconds as a list of numbers"
         ) from exc
     kind = np.asarray(times).dtype.kind
     if kind in "bc":
         what = "True/False values" if kind == "b" else "complex numbers"
-        raise UsageError(f"the times are {what}", "give times in seconds as real numbers")
+        raise TimesError(f"the times are {what}", "give times in seconds as real numbers")
     if t.ndim != 1:
         shape = "a single number" if t.ndim == 0 else f"an array of shape {t.shape}"
-        raise UsageError(
+        raise TimesError(
             f"the times must be a flat list of times, not {shape}",
             "e.g. [0, 600, 1200] or numpy.linspace(0, 3600, 201); for one time give [t]",
         )
     if t.size == 0:
-        raise UsageError("the time list is empty", "give at least one time")
+        raise TimesError("the time list is empty", "give at least one time")
     if not np.all(np.isfinite(t)):
-        raise UsageError("a time is not a finite number", "give finite times in seconds")
+        raise TimesError("a time is not a finite number", "give finite times in seconds")
     if np.any(t < 0):
-        raise UsageError(
+        raise TimesError(
             f"a time is negative ({float(t[t < 0][0]):g} s)", "times start at 0 (the start values)"
         )
     if np.any(np.diff(t) < 0):
-        raise UsageError("the times are not in increasing order", "sort the time list")
+        raise TimesError("the times are not in increasing order", "sort the time list")
     return t
 
 
@@ -124,11 +131,11 @@ def _check_size(points: int, species: int = 0) -> None:
         return
     size = f"{MAX_VALUES:,} values (times x species; about {8 * MAX_VALUES // 10**6} MB per copy)"
     if species == 0:
-        raise UsageError(
+        raise WorkingRangeError(
             f"{points:,} times are too many: one run computes at most {size}",
             "use fewer times, e.g. 201 (the default), or solve the time span in parts",
         )
-    raise UsageError(
+    raise WorkingRangeError(
         f"{points:,} times x {species} species = {points * species:,} values are too many: "
         f"one run computes at most {size}",
         f"use at most {MAX_VALUES // species:,} times, or solve the time span in parts",
@@ -141,12 +148,12 @@ def time_grid(until: float, points: int = 201) -> np.ndarray:
     At most :data:`MAX_VALUES` points (a larger grid is refused before it is made).
     """
     if not (np.isfinite(until) and until > 0):
-        raise UsageError(
+        raise TimesError(
             f"the end time must be positive and finite, not {float(until):g} s",
             "give the end of the window in seconds, e.g. 5400 for 90 min",
         )
     if points < 2:
-        raise UsageError(f"a grid needs at least 2 points, not {points}", "e.g. --points 201")
+        raise TimesError(f"a grid needs at least 2 points, not {points}", "e.g. --points 201")
     _check_size(points)
     return np.linspace(0.0, until, points)
 
@@ -238,7 +245,7 @@ class Solution:
         try:
             return self.concentrations[:, self.species.index(name)]
         except ValueError:
-            raise UsageError(
+            raise SpeciesError(
                 f"{name} is not a species of this scheme",
                 "species are " + ", ".join(self.species),
             ) from None
@@ -280,7 +287,7 @@ class Solution:
             Species name -> quantities (``half_life``, ``t_max``, ``c_max``, ``limit``...),
             ``None`` where a quantity does not apply.
         """
-        from .overview import compute_summary, summary_in_units
+        from .analysis.solution_summary import compute_summary, summary_in_units
 
         return summary_in_units(compute_summary(self) or {}, time_unit)
 
@@ -315,7 +322,7 @@ class Solution:
         -------
         matplotlib.figure.Figure
         """
-        from .plotting import concentration_figure, save_figure
+        from .output.plotting import concentration_figure, save_figure
 
         if isinstance(species, str):
             raise ArgumentTypeError(
@@ -323,7 +330,7 @@ class Solution:
                 f"write species=[{species!r}]",
             )
         for name in species or []:
-            self[name]  # raises UsageError for an unknown name
+            self[name]  # raises SpeciesError for an unknown name
         if not (summary is None or isinstance(summary, str | dict)):
             raise ArgumentTypeError(
                 f"summary must be 'auto', None or a dict, not {type_name(summary)}",
@@ -331,7 +338,9 @@ class Solution:
             )
         if isinstance(summary, str):
             if summary != "auto":
-                raise UsageError(f"summary={summary!r} is not known", "use 'auto', None or a dict")
+                raise SettingError(
+                    f"summary={summary!r} is not known", "use 'auto', None or a dict"
+                )
             summary = self.summary(time_unit)
         if path is not None:
             from pathlib import Path
@@ -342,7 +351,7 @@ class Solution:
                     "e.g. solution.plot('curves.png')",
                 )
             if Path(path).suffix.lower() not in (".png", ".svg"):
-                raise UsageError(
+                raise SettingError(
                     f"cannot save a plot as {str(path)!r}", "use a .png or .svg file name"
                 )
         fig = concentration_figure(self, time_unit, summary, species=species, linear=linear)

@@ -88,18 +88,18 @@ import math
 
 import numpy as np
 
+from .analysis.tolerances import CLASS_TOL as _CLASS_TOL
+from .analysis.tolerances import CONST as _CONST
+from .analysis.tolerances import DECAY as _DECAY
+from .analysis.tolerances import EXPONENTIAL as _EXP
+from .analysis.tolerances import GLOBAL_TOL as _GLOBAL_TOL
+from .analysis.tolerances import NEVER as _NEVER
+from .analysis.tolerances import SCAN_FAST as _SCAN_FAST
+from .analysis.tolerances import SCAN_SLOW as _SCAN_SLOW
 from .errors import UsageError
 
 __all__ = ["summarise_batch"]
 
-# the same thresholds as kinetics.analysis (see there)
-_REL_NOISE_D = 1e-12
-_REL_NOISE_C = 1e-12
-_SCAN_FAST = 1e-3
-_SCAN_SLOW = 50.0
-_XTOL = 1e-13
-_CLASS_TOL = 1e-12
-_GLOBAL_TOL = 1e-12
 # ladder and scan grid in scaled time: levels u_l = 2^-15 4^l; the scan starts with 4
 # steps of level 2 up to tau0 = 2^-9, then segments [tau0 4^d, tau0 4^(d+1)] of 12 steps
 # of level d + 2 (about 20 points per decade)
@@ -119,7 +119,6 @@ _MAX_NEWTON = 60
 # scan spans more than this go to kinetics.analysis (entrywise double-double).
 _STIFF_SIGMA_T = 1e7
 
-_NEVER, _DECAY, _CONST, _EXP = -2, -1, 0, 10**9
 _DECAYING, _CRITICAL, _GROWING = 0, 1, 2
 
 

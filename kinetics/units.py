@@ -23,6 +23,8 @@ import re
 from dataclasses import dataclass
 from fractions import Fraction
 
+from .errors import UnitError, UnknownUnitError
+
 __all__ = [
     "COMMON_UNITS",
     "GAS_CONSTANT",
@@ -278,7 +280,7 @@ def normalise_unit(text: str) -> str:
         if match:
             piece = f"{match['name']}**{_exponent(match['exp'])}"
         elif not _WORD.match(piece):
-            raise ValueError(f"cannot read {piece!r} in a unit")
+            raise UnitError(f"cannot read {piece!r} in a unit")
         if previous_is_word:
             out.append("*")
         out.append(piece)
@@ -289,7 +291,7 @@ def normalise_unit(text: str) -> str:
 def _exponent(text: str) -> str:
     value = int(text)
     if abs(value) > MAX_EXPONENT:
-        raise ValueError(f"the exponent {value} is too large")
+        raise UnitError(f"the exponent {value} is too large")
     return str(value)
 
 
@@ -341,18 +343,21 @@ def parse_unit(text: str) -> UnitSpec:
 
     Raises
     ------
-    ValueError
-        When pint cannot read the unit (callers turn this into a located error).
+    UnknownUnitError
+        When the pieces read well but name no known unit (a ``ValueError``).
+    UnitError
+        For any other unit that cannot be read (a ``ValueError``); callers turn
+        both into a located error.
     """
     if not text.strip():
         return UnitSpec(text, Fraction(1), ())
     if len(text) > MAX_UNIT_LENGTH:
-        raise ValueError(
+        raise UnitError(
             f"a unit has at most {MAX_UNIT_LENGTH} characters; this one has {len(text):,}"
         )
     normal = normalise_unit(text)
     if _NUMBER.match(normal.strip()):
-        raise ValueError(f"{text!r} is a number, not a unit")
+        raise UnitError(f"{text!r} is a number, not a unit")
     if normal in OFFSET_TEMPERATURES:
         return UnitSpec(text, Fraction(1), (("[temperature]", Fraction(1)),), True)
     quick = _quick_unit(normal)
@@ -378,10 +383,10 @@ def _pint_unit(text: str, normal: str) -> UnitSpec:
     try:
         unit = ureg.parse_units(normal)
     except Exception as exc:  # pint raises several unrelated types
-        raise ValueError(f"unknown unit {text!r}") from exc
+        raise UnknownUnitError(f"unknown unit {text!r}") from exc
     # nested powers ((min^12)^12) multiply: bound the result before exact conversion
     if any(abs(power) > 2 * MAX_EXPONENT for _, power in unit._units.items()):
-        raise ValueError(f"the exponents in {text!r} are too large")
+        raise UnitError(f"the exponents in {text!r} are too large")
     quantity = ureg.Quantity(Fraction(1), unit)
     if not quantity._is_multiplicative:
         return UnitSpec(text, Fraction(1), _dims_tuple(quantity.dimensionality), True)

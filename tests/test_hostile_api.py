@@ -25,7 +25,7 @@ import pytest
 import kinetics
 from kinetics.analysis import summarise_all
 from kinetics.cli import main
-from kinetics.errors import ArgumentTypeError, UsageError
+from kinetics.errors import ArgumentTypeError, TimesError, UsageError, WorkingRangeError
 from kinetics.sweep import sweep
 
 PAIR = "A -> B  k1 = 0.1 1/s\nB -> C  k2 = 0.05 1/s\nstart A = 1 mol/L\n"
@@ -193,7 +193,7 @@ def test_too_many_points_are_refused_before_allocating(pair, capsys):
 
 
 def test_table_size_counts_species(scheme):
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(WorkingRangeError) as info:
         kinetics.solve(scheme, np.linspace(0.0, 1.0, 4_000_000))
     assert str(info.value) == (
         "4,000,000 times x 3 species = 12,000,000 values are too many: one run computes at "
@@ -242,7 +242,7 @@ def test_sweep_axis_and_memory_limits(pair, scheme, capsys):
 
 
 def test_api_huge_time(scheme):
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(WorkingRangeError) as info:
         kinetics.solve(scheme, [0, 1e300])
     assert str(info.value) == RANGE_TIME[len("kinetics: ") : -1]
 
@@ -296,24 +296,24 @@ def test_api_sweep_huge_constant(scheme):
         ),
         (
             lambda s: kinetics.solve(s, np.array([[0.0, 1.0], [2.0, 3.0]])),
-            UsageError,
+            TimesError,
             "the times must be a flat list of times, not an array of shape (2, 2); e.g. "
             "[0, 600, 1200] or numpy.linspace(0, 3600, 201); for one time give [t]",
         ),
         (
             lambda s: kinetics.solve(s, 5.0),
-            UsageError,
+            TimesError,
             "the times must be a flat list of times, not a single number; e.g. [0, 600, 1200] "
             "or numpy.linspace(0, 3600, 201); for one time give [t]",
         ),
         (
             lambda s: kinetics.solve(s, np.array([0, 1j])),
-            UsageError,
+            TimesError,
             "the times are complex numbers; give times in seconds as real numbers",
         ),
         (
             lambda s: kinetics.solve(s, [False, True]),
-            UsageError,
+            TimesError,
             "the times are True/False values; give times in seconds as real numbers",
         ),
         (
@@ -526,8 +526,8 @@ def test_report_excel_and_api_carry_the_whole_scheme(tmp_path, capsys):
 
 @pytest.mark.parametrize("name", ["missing/x.png", "missing/x.html"])
 def test_writers_name_the_missing_folder_not_a_temporary_file(scheme, tmp_path, monkeypatch, name):
-    from kinetics import plotting, report
     from kinetics.errors import OutputFileError
+    from kinetics.output import plotting, report
 
     monkeypatch.chdir(tmp_path)
     result = kinetics.solve(scheme, [0, 1, 2])

@@ -27,6 +27,7 @@ from hypothesis import strategies as st
 import kinetics
 from kinetics import KineticsError, SchemeErrors, SchemeFileError, UsageError, load, parse
 from kinetics.cli import main
+from kinetics.errors import TimesError
 
 SRC = "t.scheme"
 ROOT = Path(__file__).resolve().parents[1]
@@ -444,7 +445,7 @@ def test_a_broken_excess_line_still_declares_its_species():
 
 def test_api_messages_show_plain_numbers():
     scheme = parse("A -> B  k1 = 1 1/s\nstart A = 1 M")
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(TimesError) as info:
         kinetics.solve(scheme, np.array([0.0, -300.0]))
     assert str(info.value) == "a time is negative (-300 s); times start at 0 (the start values)"
     with pytest.raises(UsageError) as info:

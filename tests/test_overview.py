@@ -1,4 +1,5 @@
-"""The JSON-ready objects of overview.py: the certificate of a solution where users see it."""
+"""The JSON-ready objects of kinetics.output.overview: the certificate of a solution where
+users see it."""
 
 from __future__ import annotations
 
@@ -7,7 +8,7 @@ import json
 import numpy as np
 
 import kinetics
-from kinetics.overview import (
+from kinetics.output.overview import (
     CERTIFICATE_NOTE,
     certificate_rows,
     certificate_sentence,

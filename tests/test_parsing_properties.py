@@ -25,8 +25,10 @@ from hypothesis import strategies as st
 
 from kinetics import KineticsError, parse
 from kinetics.balance import mass_balance
+from kinetics.language.reactions import ReactionStatement
+from kinetics.language.reactions import fast_reaction as _fast_reaction
+from kinetics.language.source import Line as _Line
 from kinetics.network import summarise_network
-from kinetics.parsing import ReactionStatement, _fast_reaction, _Line
 
 SETTINGS = settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 

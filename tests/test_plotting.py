@@ -11,8 +11,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import kinetics
-from kinetics import plotting
-from kinetics.overview import compute_summary, summary_in_units
+from kinetics.analysis.solution_summary import compute_summary, summary_in_units
+from kinetics.errors import SettingError
+from kinetics.output import graph_figure, plotting
+from kinetics.output.labels import Label, place_labels
 
 # A -> B -> C, k1 = 0.1, k2 = 0.05 1/min, A0 = 1 mol/L.  Consecutive first-order reactions
 # (any physical chemistry textbook): t_max = ln(k1/k2)/(k1 - k2) = 13.863 min, B_max = 0.5.
@@ -123,7 +125,7 @@ def test_species_graph_drawing():
         "B + W -> D  k4 = 0.1 M-1 s-1\nexcess W = 2 mol/L\nstart A = 1 mol/L\n"
         "feed B = 0.1 mol/L/s\n"
     )
-    fig = plotting.species_graph_figure(scheme)
+    fig = graph_figure.species_graph_figure(scheme)
     texts = [t.get_text() for t in fig.axes[0].texts]
     for name in ("A", "B", "C", "D", "W"):
         assert name in texts
@@ -137,7 +139,7 @@ def test_species_graph_drawing():
 def test_species_graph_too_large_is_not_drawn():
     lines = [f"S{i} -> S{i + 1}  k{i} = 1 1/s" for i in range(70)] + ["start S0 = 1 mol/L"]
     scheme = kinetics.parse("\n".join(lines))
-    assert plotting.species_graph_figure(scheme, max_species=60) is None
+    assert graph_figure.species_graph_figure(scheme, max_species=60) is None
 
 
 def test_solution_plot_method(solved, tmp_path):
@@ -239,7 +241,7 @@ def test_lumped_end_product_gets_a_right_hand_axis():
 
 def test_linear_option_is_checked(solved):
     _, result, _ = solved
-    with pytest.raises(kinetics.UsageError) as info:
+    with pytest.raises(SettingError) as info:
         result.plot(linear="twin")
     assert str(info.value) == "linear='twin' is not known; use 'auto' or 'shared'"
 
@@ -263,10 +265,10 @@ def test_label_layout_property(points):
     ax.set_xlim(0, 1)
     ax.set_ylim(0, 1)
     labels = [
-        plotting.Label(f"max S{k} = {y:.4g} at {x:.4g} min", ax, (x, y), below)
+        Label(f"max S{k} = {y:.4g} at {x:.4g} min", ax, (x, y), below)
         for k, (x, y, below) in enumerate(points)
     ]
-    plotting.place_labels(fig, ax, labels)
+    place_labels(fig, ax, labels)
     fig.draw_without_rendering()
     renderer = fig.canvas.get_renderer()
     panel = ax.get_window_extent(renderer)

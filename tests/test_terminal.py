@@ -10,7 +10,7 @@ from rich.cells import cell_len
 from rich.console import Console
 
 import kinetics
-from kinetics import terminal
+from kinetics.cli import terminal
 
 LONG = """Parent_compound_long -> Daughter_intermediate_long   k1 = 0.123456789 1/s
 Daughter_intermediate_long -> Granddaughter_product_long   k2 = 0.0123456789 1/s

@@ -456,3 +456,23 @@ def test_time_factor_lists_the_units_of_time():
     with pytest.raises(UsageError) as info:
         time_factor("y")
     assert str(info.value) == f"unknown time unit 'y'; {UNITS_HINT}"
+
+
+@pytest.mark.parametrize(
+    ("unit", "kind", "message"),
+    [
+        ("sek-1", "UnknownUnitError", "unknown unit 'sek-1'"),
+        ("s^-99", "UnitError", "the exponent -99 is too large"),
+        ("1e-3", "UnitError", "cannot read '1e-3' in a unit"),
+        ("12", "UnitError", "'12' is a number, not a unit"),
+        ("(min^12)^12", "UnitError", "the exponents in '(min^12)^12' are too large"),
+    ],
+)
+def test_parse_unit_raises_typed_errors(unit, kind, message):
+    # readers choose their wording by the type of the error, never by its text
+    from kinetics import errors
+
+    with pytest.raises(errors.UnitError) as info:
+        parse_unit(unit)
+    assert type(info.value).__name__ == kind
+    assert str(info.value) == message

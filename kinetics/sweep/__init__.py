@@ -84,7 +84,7 @@ from .api import monte_carlo, sweep
 from .engines import run_chunks
 from .evaluation import CURVE_RTOL, ChunkResult, chunk_result, evaluate_chunk
 from .inputs import set_inputs, set_matrices
-from .plan import DEFAULT_CHUNK, QUANTITIES, Column, SweepPlan, make_plan
+from .plan import DEFAULT_CHUNK, Column, SweepPlan, make_plan
 from .spec import Parameter, Spread, parse_spread, parse_vary
 from .tables import (
     BOUND_COLUMN,
@@ -103,7 +103,6 @@ __all__ = [
     "CURVE_RTOL",
     "DEFAULT_CHUNK",
     "PERCENTILES",
-    "QUANTITIES",
     "ChunkResult",
     "Column",
     "Parameter",

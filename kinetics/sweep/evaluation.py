@@ -7,9 +7,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..analysis import BATCH_QUANTITIES
 from ..errors import GrowthError
 from .inputs import set_matrices
-from .plan import QUANTITIES, SweepPlan
+from .plan import SweepPlan
 
 __all__ = ["CURVE_RTOL", "ChunkResult", "chunk_result", "evaluate_chunk"]
 
@@ -85,14 +86,14 @@ def _reference_summaries(plan: SweepPlan, K, K_low, c0, feed) -> dict[str, np.nd
     from ..analysis import summarise
 
     b, n = c0.shape
-    out = {q: np.full((b, n), np.nan) for q in QUANTITIES}
+    out = {q: np.full((b, n), np.nan) for q in BATCH_QUANTITIES}
     names = plan.scheme.species_names
     t_window = float(plan.times[-1])
     for i in range(b):
         s = summarise(K[i], c0[i], names, feed=feed, t_window=t_window, K_low=K_low[i])
         for j, name in enumerate(names):
             d = s[name]
-            for q in QUANTITIES:
+            for q in BATCH_QUANTITIES:
                 v = getattr(d, q)
                 if v is not None and math.isfinite(v):
                     out[q][i, j] = v

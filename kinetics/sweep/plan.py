@@ -19,7 +19,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from .. import parameters
-from ..errors import UsageError
+from ..errors import UsageError, WorkingRangeError
 from .inputs import input_rates
 from .spec import API_WORDS, CLI_WORDS, Parameter, Spread, Words, axes, spreads_of
 
@@ -30,7 +30,6 @@ __all__ = [
     "DEFAULT_CHUNK",
     "MAX_MEMORY_VALUES",
     "MAX_SETS",
-    "QUANTITIES",
     "Column",
     "SweepPlan",
     "check_memory",
@@ -92,9 +91,6 @@ class Column:
     @property
     def header(self) -> str:
         return f"{self.quantity} {self.species} [{self.unit}]"
-
-
-QUANTITIES = ("half_life", "t_max", "c_max", "limit")
 
 
 @dataclass(frozen=True, eq=False)
@@ -470,7 +466,7 @@ def _check_sets(plan: SweepPlan, block: int = 100_000) -> None:
         i = int(np.argmax(np.where(np.isnan(worst), np.inf, worst)))
         try:
             check_working_range(out[i], t_end, plan.scheme.species_names, float(amount[i]))
-        except UsageError as exc:
+        except WorkingRangeError as exc:
             values = ", ".join(
                 f"{c} = {v:.6g}" for c, v in zip(plan.parameter_columns, display[i], strict=True)
             )

@@ -41,7 +41,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from ..errors import KineticsError, UsageError
-from ..export import atomic_path, output_error, spreadsheet_frame
+from ..files import atomic_path, output_error, spreadsheet_frame
 from .engines import run_chunks
 from .evaluation import ChunkResult
 from .plan import SweepPlan
