@@ -23,7 +23,10 @@ from functools import cached_property
 
 import numpy as np
 
+from . import activity
+from .definitions import Dependencies, NamedQuantity, constant_values, follow
 from .errors import UsageError, shown_value
+from .requirements import Requirement
 from .units import GAS_CONSTANT_EXACT
 
 __all__ = ["Arrhenius", "RateConstant", "Reaction", "Scheme", "Species", "Step"]
@@ -135,15 +138,22 @@ class RateConstant:
     text : str
         The definition as written (``0.12 1/min`` or ``arrhenius(...)``).
     value_si : Fraction or None
-        Exact value in SI base units (``None`` for Arrhenius constants, whose
-        value depends on the temperature).
+        Exact value in SI base units (``None`` for constants whose value depends on
+        the temperature: Arrhenius constants and constants derived from a temperature
+        law).  A constant derived from an expression holds the exact value of the
+        expression (transcendental functions to 40 digits).
     unit : str
-        Unit as written (for Arrhenius: the unit of A).
+        Unit as written (for Arrhenius: the unit of A; for an expression: the SI unit
+        of its dimension, :func:`kinetics.units.si_unit`).
     order : int
         Concentration order implied by the units: 0 for 1/time, 1 for
         1/(concentration time), ...
     arrhenius : Arrhenius or None
     line : int
+    derived : Dependencies or None
+        For a constant defined by an expression (``k2 = k1 / 3``): the scheme's graph of
+        definitions it follows from (:mod:`kinetics.definitions`); None for a constant
+        written as a value or as an Arrhenius law of plain values.
     """
 
     name: str
@@ -153,6 +163,25 @@ class RateConstant:
     order: int
     arrhenius: Arrhenius | None = None
     line: int = 0
+    derived: Dependencies | None = None
+
+    def exact(self, temperature: float | None) -> Fraction:
+        """The exact constant in SI base units (at ``temperature`` [K] when it depends on one).
+
+        Raises
+        ------
+        UsageError
+            When it depends on the temperature and ``temperature`` is None.
+        """
+        if self.value_si is not None:
+            return self.value_si
+        if temperature is None:
+            law = "follows the Arrhenius law" if self.arrhenius else "depends on the temperature"
+            raise UsageError(f"rate constant {self.name} {law} and needs a temperature")
+        if self.arrhenius is not None:
+            return self.arrhenius.exact(temperature)
+        assert self.derived is not None  # a constant has a value, a law or an expression
+        return self.derived.value(self.name, temperature)
 
     def si_value(self, temperature: float | None) -> float:
         """The constant in SI base units (at ``temperature`` [K] for Arrhenius ones)."""
@@ -162,7 +191,11 @@ class RateConstant:
                     f"rate constant {self.name} follows the Arrhenius law and needs a temperature"
                 )
             return self.arrhenius.at(temperature)
-        return float(self.value_si)
+        if self.value_si is not None:
+            return float(self.value_si)
+        from . import _doubledouble as dd
+
+        return dd.pair(self.exact(temperature))[0]
 
 
 @dataclass(frozen=True, slots=True)
@@ -204,9 +237,10 @@ class Step:
 
     @property
     def equation(self) -> str:
-        """The step written out, e.g. ``A + W -> B``."""
+        """The step written out, e.g. ``A + W -> B`` (``P -> (untracked)`` for the share of
+        a decay that goes to no species of the scheme)."""
         left = " + ".join([self.reactant] + [_term(c, n) for c, n in self.co_reactants])
-        right = " + ".join(_term(c, n) for c, n in self.products)
+        right = " + ".join(_term(c, n) for c, n in self.products) or "(untracked)"
         return f"{left} -> {right}"
 
 
@@ -298,6 +332,20 @@ class Scheme:
         Sentences about probable mistakes that do not stop the file from loading
         (parallel steps, constants no step uses, nothing to start from), each led by
         ``file:line:``; the command line prints them on stderr.
+    quantities : dict of str to NamedQuantity
+        Named quantities that are not rate constants (``t_p = 50 h``, ``Ea_f = 95
+        kJ/mol``), with exact SI values.
+    dependencies : Dependencies
+        The graph of the definitions written as expressions and of everything they
+        refer to: which named quantity drives which constant
+        (:meth:`driven_by`, :meth:`exact_constants`, :meth:`with_values`).
+    requirements : tuple of Requirement
+        The ``require`` lines, thresholds in ``concentration_unit``.
+    start_activities : dict of str to Fraction
+        Start values written as activities [Bq; Bq per basis unit for a scheme per
+        volume or mass], exact; ``initial`` holds the amounts they give
+        (:func:`kinetics.activity.amount_from_activity`), which follow the decay
+        constants when values change.
     """
 
     species: tuple[Species, ...]
@@ -316,6 +364,10 @@ class Scheme:
     text: str = ""
     allow_imbalance: bool = False
     warnings: tuple[str, ...] = ()
+    quantities: dict[str, NamedQuantity] = field(default_factory=dict)
+    dependencies: Dependencies = field(default_factory=Dependencies)
+    requirements: tuple[Requirement, ...] = ()
+    start_activities: dict[str, Fraction] = field(default_factory=dict)
     _excess_si: dict[str, Fraction] = field(default_factory=dict, repr=False)
     _unit_factor: Fraction = field(default=Fraction(1), repr=False)
 
@@ -450,6 +502,66 @@ class Scheme:
         """A first-order constant in 1/s, or a higher-order one in SI base units."""
         return self.constants[name].si_value(self.temperature)
 
+    def exact_constants(
+        self,
+        temperature: float | None = None,
+        quantities: dict[str, float | Fraction] | None = None,
+    ) -> dict[str, Fraction]:
+        """The exact value of every rate constant, following the named quantities.
+
+        The one place where constants are evaluated: plain values as written, Arrhenius
+        and other temperature laws at ``temperature`` (40 digits), and constants derived
+        from expressions evaluated again from new values of the quantities they follow
+        (:mod:`kinetics.definitions`).  Sweeps and fits that vary a named quantity call
+        this for each set of values.
+
+        Parameters
+        ----------
+        temperature : float, optional
+            [K]; default the scheme's.
+        quantities : dict of str to float or Fraction, optional
+            New values of named quantities or constants in SI base units [s for a time,
+            K for a temperature, J/mol for an energy, 1/s for a first-order constant];
+            Fractions are taken exactly.
+
+        Returns
+        -------
+        dict of str to Fraction
+            Every constant of :attr:`constants` [SI base units].
+
+        Raises
+        ------
+        UsageError
+            For an unknown name, a value that is not finite, or a constant that needs a
+            temperature when there is none.
+        ExpressionError
+            When a definition cannot be evaluated with the new values, or a constant
+            becomes negative.
+
+        Examples
+        --------
+        >>> from kinetics import parse
+        >>> scheme = parse("t_p = 50 h\nP -> D  lam = ln(2) / t_p\nstart P = 1 mol")
+        >>> lam = scheme.exact_constants(quantities={"t_p": Fraction(36000)})["lam"]
+        >>> round(float(lam) * 36000, 12)  # ln 2 / t_p for t_p = 10 h
+        0.69314718056
+        """
+        values = {n: _named_value(self, n, v) for n, v in (quantities or {}).items()}
+        t = self.temperature if temperature is None else temperature
+        return constant_values(self.constants, self.dependencies, t, values)
+
+    def driven_by(self, name: str) -> tuple[str, ...]:
+        """The rate constants whose values follow from the named quantity ``name``.
+
+        Examples
+        --------
+        >>> from kinetics import parse
+        >>> parse("t_p = 50 h\nP -> D  lam = ln(2) / t_p\nstart P = 1 mol").driven_by("t_p")
+        ('lam',)
+        """
+        _named_value(self, name, 0)
+        return tuple(n for n in self.dependencies.driven_by(name) if n in self.constants)
+
     def with_values(
         self,
         *,
@@ -457,6 +569,7 @@ class Scheme:
         temperature: float | None = None,
         initial: dict[str, float] | None = None,
         excess: dict[str, float] | None = None,
+        quantities: dict[str, float | Fraction] | None = None,
     ) -> Scheme:
         """A copy with some values replaced.
 
@@ -471,29 +584,41 @@ class Scheme:
             New start concentrations [concentration_unit].
         excess : dict of str to float, optional
             New excess concentrations [concentration_unit].
+        quantities : dict of str to float or Fraction, optional
+            New values of named quantities (or constants) in SI base units (see
+            :meth:`exact_constants`); Fractions are taken exactly.
 
         Returns
         -------
         Scheme
+            Constants derived from a changed quantity follow it exactly; start values
+            written as activities follow the new decay constants; thresholds written as
+            percentages of a start value follow it.
 
         Raises
         ------
         UsageError
             For unknown names and for values that are negative or not finite.
+        ExpressionError
+            When a definition cannot be evaluated with the new values.
         """
-        new_constants = dict(self.constants)
+        fixed: dict[str, Fraction] = {}
+        texts: dict[str, str] = {}
         for name, value in (constants or {}).items():
-            if name not in new_constants:
+            if name not in self.constants:
                 raise UsageError(
                     f"no rate constant named {name!r} in the scheme",
-                    "known constants: " + ", ".join(new_constants),
+                    "known constants: " + ", ".join(self.constants),
                 )
-            exact = _checked_fraction(value, f"rate constant {name}")
-            new_constants[name] = replace(
-                new_constants[name],
-                value_si=exact,
-                arrhenius=None,
-                text=f"{shown_value(value)} (SI)",
+            fixed[name] = _checked_fraction(value, f"rate constant {name}")
+            texts[name] = f"{shown_value(value)} (SI)"
+        for name, value in (quantities or {}).items():
+            fixed[name] = _named_value(self, name, value)
+            texts[name] = f"{shown_value(float(value))} (SI)"
+        new_constants, new_quantities, graph = self.constants, self.quantities, self.dependencies
+        if fixed:
+            new_constants, new_quantities, graph = follow(
+                self.constants, self.quantities, self.dependencies, fixed, texts
             )
         new_initial = dict(self.initial)
         for name, value in (initial or {}).items():
@@ -520,14 +645,57 @@ class Scheme:
             raise UsageError(
                 f"temperature {shown_value(temperature)} K must be finite and above 0 K"
             )
-        return replace(
+        scheme = replace(
             self,
             constants=new_constants,
+            quantities=new_quantities,
+            dependencies=graph,
             temperature=self.temperature if temperature is None else float(temperature),
             initial=new_initial,
             excess=new_excess,
+            start_activities={
+                k: v for k, v in self.start_activities.items() if k not in (initial or {})
+            },
             _excess_si=new_excess_si,
         )
+        return _follow_starts(scheme, changed=bool(initial))
+
+
+def _named_value(scheme: Scheme, name: str, value) -> Fraction:
+    """A new value of a named quantity or constant, checked [SI base units], exact."""
+    if name not in scheme.quantities and name not in scheme.constants:
+        known = [*scheme.quantities, *scheme.dependencies.by_name]
+        raise UsageError(
+            f"no named quantity {name!r} in the scheme",
+            "named quantities: " + (", ".join(dict.fromkeys(known)) or "none"),
+        )
+    if name in scheme.constants:
+        return _checked_fraction(value, f"rate constant {name}")
+    if isinstance(value, (Fraction, int)) and not isinstance(value, bool):
+        return Fraction(value)
+    try:
+        number = float(value)
+    except (TypeError, ValueError):
+        raise UsageError(f"{name} must be a number, not {shown_value(value)}") from None
+    if not math.isfinite(number):
+        raise UsageError(f"{name} = {shown_value(value)} must be finite")
+    return Fraction(number)
+
+
+def _follow_starts(scheme: Scheme, changed: bool) -> Scheme:
+    """Start values written as activities from the scheme's decay constants; thresholds
+    written as percentages of start values from the start values."""
+    initial = scheme.initial
+    if scheme.start_activities:
+        initial = {**initial, **activity.start_amounts(scheme, scheme.start_activities)}
+        changed = changed or initial != scheme.initial
+    if not changed:
+        return scheme
+    return replace(
+        scheme,
+        initial=initial,
+        requirements=tuple(r.for_start(initial) for r in scheme.requirements),
+    )
 
 
 def _checked_fraction(value: float, what: str) -> Fraction:
