@@ -48,6 +48,7 @@ __all__ = [
     "dims_of",
     "evaluate",
     "names_in",
+    "nodes",
     "shown",
     "uses_law",
 ]
@@ -124,7 +125,8 @@ class Number:
     """A number with its unit as written, scaled exactly to SI base units.
 
     ``offset`` marks a temperature on a scale with an offset (``25 degC``, already in
-    kelvin): it may only stand alone or as the whole argument of a law.
+    kelvin): it may only stand alone or as the whole argument of a law.  ``unit`` is the
+    unit as written (``""`` for a pure number).
     """
 
     value: Fraction
@@ -132,6 +134,7 @@ class Number:
     text: str
     column: int
     offset: bool = False
+    unit: str = ""
 
 
 @dataclass(frozen=True, slots=True)
@@ -213,6 +216,8 @@ class LawSpec:
         As written in a call.
     title : str
         As a message names it (``"the Arrhenius law"``).
+    label : str
+        As a message names its parameters (``"Arrhenius"``: "the Arrhenius parameters").
     parameters : tuple of Parameter
     example : str
         A whole call for hints.
@@ -227,6 +232,7 @@ class LawSpec:
 
     name: str
     title: str
+    label: str
     parameters: tuple[Parameter, ...]
     example: str
     positional: bool
@@ -264,8 +270,15 @@ def _children(node: Expr) -> tuple[Expr, ...]:
     return ()
 
 
-def _walk(node: Expr) -> list[Expr]:
-    """Every node of a tree, without recursion."""
+def nodes(node: Expr) -> list[Expr]:
+    """Every node of a tree, parents before children, left to right (without recursion).
+
+    Examples
+    --------
+    >>> tree = Unary("-", Name("x", "x", 2), "-x", 1)
+    >>> [type(n).__name__ for n in nodes(tree)]
+    ['Unary', 'Name']
+    """
     out: list[Expr] = []
     stack = [node]
     while stack:
@@ -284,12 +297,12 @@ def names_in(expr: Expr) -> list[Name]:
     >>> [n.name for n in names_in(tree)]
     ['k1']
     """
-    return [n for n in _walk(expr) if isinstance(n, Name)]
+    return [n for n in nodes(expr) if isinstance(n, Name)]
 
 
 def uses_law(expr: Expr) -> bool:
     """True when ``expr`` calls a temperature law (its value depends on the temperature)."""
-    return any(isinstance(n, LawCall) for n in _walk(expr))
+    return any(isinstance(n, LawCall) for n in nodes(expr))
 
 
 # -- evaluation ----------------------------------------------------------------------------
@@ -407,7 +420,8 @@ class _Evaluation:
         dims = _product(left.dims, right.dims, sign)
         if right.value == 0 and node.op == "/":
             raise ExpressionError(
-                f"division by zero: {node.right.text} is 0",
+                "division by zero"
+                + ("" if isinstance(node.right, Number) else f": {node.right.text} is 0"),
                 "check the value",
                 node.right.column,
                 node.right.text,

@@ -167,6 +167,7 @@ LAWS: dict[str, LawSpec] = {
     "arrhenius": LawSpec(
         "arrhenius",
         "the Arrhenius law",
+        "Arrhenius",
         (
             Parameter(
                 "A",
@@ -193,6 +194,7 @@ LAWS: dict[str, LawSpec] = {
     "eyring": LawSpec(
         "eyring",
         "the Eyring equation",
+        "Eyring",
         (
             Parameter(
                 "dH",
@@ -219,6 +221,7 @@ LAWS: dict[str, LawSpec] = {
     "q10": LawSpec(
         "q10",
         "a Q10 law",
+        "Q10",
         (
             Parameter(
                 "k_ref",

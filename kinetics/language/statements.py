@@ -14,10 +14,14 @@ from dataclasses import dataclass
 from typing import ClassVar, NamedTuple
 
 from ..errors import SchemeError
+from ..expressions import Expr
+from ..units import parse_unit
+from .arithmetic import CALLABLE, read_expression
 from .grammar import (
     ARRHENIUS_RE,
     ARROW_RE,
     CONSTANT_LINE,
+    DECAY_KEYS,
     ITEM_RE,
     NAME_RE,
     NUMBER_RE,
@@ -25,6 +29,7 @@ from .grammar import (
     TERM_RE,
     split_plain,
     split_top,
+    top_level_equals,
 )
 from .messages import keyword_error, quoted, unknown_arrow
 from .quantities import Value, read_value
@@ -257,14 +262,14 @@ class KeptList(NamedTuple):
 
 
 class ConstantSpec(NamedTuple):
-    """A rate-constant definition: a plain value or Arrhenius parameters (an immutable
-    record, like :class:`~kinetics.language.quantities.Value`).
+    """A definition ``name = ...``: a plain value, Arrhenius parameters of plain values, or
+    an expression (an immutable record, like :class:`~kinetics.language.quantities.Value`).
 
     Examples
     --------
     >>> spec = ConstantSpec("k1", 1, Value("0.12", "1/min", 6, 11), text="0.12 1/min")
-    >>> spec.is_arrhenius
-    False
+    >>> spec.is_arrhenius, spec.expression is None
+    (False, True)
     """
 
     name: str
@@ -273,17 +278,23 @@ class ConstantSpec(NamedTuple):
     prefactor: Value | None = None
     energy: Value | None = None
     text: str = ""
+    expression: Expr | None = None
 
     @property
     def is_arrhenius(self) -> bool:
-        """True for ``arrhenius(A = ..., Ea = ...)``."""
+        """True for ``arrhenius(A = ..., Ea = ...)`` with plain values."""
         return self.prefactor is not None
 
 
 def read_constant(
-    line: Line, name: str, name_col0: int, text: str, text_col0: int
+    line: Line, name: str, name_col0: int, text: str, text_col0: int, *, rate: bool = True
 ) -> ConstantSpec | list[SchemeError]:
-    """Read the right-hand side of ``name = ...``: a value with a unit, or Arrhenius.
+    """Read the right-hand side of ``name = ...``: a value with a unit, Arrhenius parameters
+    or an expression (:mod:`~kinetics.language.arithmetic`).
+
+    A plain value (a number and a unit pint reads, or words without operators) and an
+    Arrhenius law of plain values keep their own readers and messages; anything else is
+    read as an expression.
 
     Parameters
     ----------
@@ -295,6 +306,10 @@ def read_constant(
         0-based columns of the name and of the right-hand side ``text``.
     text : str
         The right-hand side.
+    rate : bool, optional
+        True on a reaction line (the value is a rate constant: it needs a unit and
+        cannot be negative); False on a line of its own (a named quantity of any
+        dimension, checked once it is known how the file uses it).
 
     Returns
     -------
@@ -308,14 +323,24 @@ def read_constant(
     ('1.0e13 1/s', '95 kJ/mol')
     >>> [e.problem for e in read_constant(Line("t", 1, "k1 = 2", "k1 = 2"), "k1", 0, "2", 5)]
     ['rate constant k1 has no unit']
+    >>> code = "k2 = k1 / 3"
+    >>> read_constant(Line("t", 1, code, code), "k2", 0, code[5:], 5).expression.op
+    '/'
     """
     arr = ARRHENIUS_RE.match(text)
-    if arr:
+    if arr and all(_plain_value(piece.partition("=")[2]) for piece, _ in split_top(arr["body"], 0)):
         return _read_arrhenius(line, name, name_col0, text, text_col0, arr)
-    value = read_value(line, text, text_col0, f"rate constant {name}", "0.12 1/min")
+    if not _plain_value(text):
+        what = f"rate constant {name}" if rate else name
+        tree = read_expression(line, text, text_col0, what, name)
+        if isinstance(tree, list):
+            return tree
+        return ConstantSpec(name, name_col0 + 1, text=text.strip(), expression=tree)
+    what, example = (f"rate constant {name}", "0.12 1/min") if rate else (name, "50 h")
+    value = read_value(line, text, text_col0, what, example, signed=not rate)
     if isinstance(value, SchemeError):
         return [value]
-    if not value.unit:
+    if not value.unit and rate:
         return [
             line.error(
                 f"rate constant {name} has no unit",
@@ -325,6 +350,24 @@ def read_constant(
             )
         ]
     return ConstantSpec(name, name_col0 + 1, value=value, text=text.strip())
+
+
+def _plain_value(text: str) -> bool:
+    """True for a number followed by nothing, by a unit pint reads, or by words without
+    operators (read as a unit, with the messages of a unit)."""
+    match = NUMBER_RE.match(text.strip())
+    if match is None:
+        return False
+    rest = text.strip()[match.end() :].strip()
+    if not rest or rest == "%":
+        return True
+    try:
+        parse_unit(rest)
+    except ValueError:
+        core = re.sub(r"(?<=[^\W\d])(?:\^|\*\*)?[-+]?\d+", "", rest)  # s-1, s^-1, m3
+        core = re.sub(r"^1\s*/", "", core)  # 1/min
+        return not re.search(r"[-+*^(),=%]|\s/|/\s", core)
+    return True
 
 
 def _read_arrhenius(
@@ -373,7 +416,9 @@ def _read_arrhenius(
 
 @dataclass(frozen=True, slots=True)
 class ConstantStatement:
-    """``k1 = 0.12 1/min`` or ``k3 = arrhenius(A = ..., Ea = ...)`` on a line of its own.
+    """``NAME = expression`` on a line of its own: a rate constant (``k1 = 0.12 1/min``,
+    ``k3 = arrhenius(A = ..., Ea = ...)``) or a named quantity of any dimension
+    (``t_p = 50 h``, ``lam = 0.88 * ln(2) / t_p``).
 
     Examples
     --------
@@ -395,13 +440,12 @@ class ConstantStatement:
         name = match.group("name")
         rest = line.code.lstrip()[match.end() :]
         rest_col0 = lead + match.end() + (len(rest) - len(rest.lstrip()))
-        if "=" in rest and TERM_RE.match(rest) and not NUMBER_RE.match(rest.lstrip()):
+        if top_level_equals(rest) and TERM_RE.match(rest) and not NUMBER_RE.match(rest.lstrip()):
             # "A = B + C  k1 = ...": a reaction written with '=' for its arrow
-            if not ARRHENIUS_RE.match(rest.strip()):
-                return [unknown_arrow(line, "=", line.code.index("=", lead))]
-        spec = read_constant(line, name, lead, rest.strip(), rest_col0)
+            return [unknown_arrow(line, "=", line.code.index("=", lead))]
+        if name in RESERVED or name in CALLABLE or name in DECAY_KEYS:
+            return [keyword_error(line, name, lead, "a constant")]
+        spec = read_constant(line, name, lead, rest.strip(), rest_col0, rate=False)
         if isinstance(spec, list):
             return spec
-        if name in RESERVED:
-            return [keyword_error(line, name, lead, "a constant")]
         return cls(spec, line)
