@@ -118,7 +118,7 @@ class Q10:
     --------
     Two steps of 10 K with Q10 = 2 multiply by 4 (hand value):
 
-    >>> Q10(Fraction(1, 100), Fraction(29815, 100), Fraction(2)).exact(318.15)
+    >>> Q10(Fraction(1, 100), Fraction(300), Fraction(2)).exact(320.0)
     Fraction(1, 25)
     """
 

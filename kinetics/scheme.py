@@ -541,7 +541,7 @@ class Scheme:
         Examples
         --------
         >>> from kinetics import parse
-        >>> scheme = parse("t_p = 50 h\nP -> D  lam = ln(2) / t_p\nstart P = 1 mol")
+        >>> scheme = parse("t_p = 50 h\\nP -> D  lam = ln(2) / t_p\\nstart P = 1 mol")
         >>> lam = scheme.exact_constants(quantities={"t_p": Fraction(36000)})["lam"]
         >>> round(float(lam) * 36000, 12)  # ln 2 / t_p for t_p = 10 h
         0.69314718056
@@ -556,7 +556,7 @@ class Scheme:
         Examples
         --------
         >>> from kinetics import parse
-        >>> parse("t_p = 50 h\nP -> D  lam = ln(2) / t_p\nstart P = 1 mol").driven_by("t_p")
+        >>> parse("t_p = 50 h\\nP -> D  lam = ln(2) / t_p\\nstart P = 1 mol").driven_by("t_p")
         ('lam',)
         """
         _named_value(self, name, 0)

@@ -62,7 +62,7 @@ def test_unknown_directive():
         e,
         "t.scheme:2:1: could not read this line (unknown statement 'initial'); a line is a "
         "reaction (A -> B  k1 = 0.1 1/s), a constant (k1 = 0.1 1/s) or one of title:, start, "
-        "excess, feed, formula, molar_mass, temperature =, balance:",
+        "excess, feed, formula, molar_mass, temperature =, balance:, require",  # issue 15
         2,
         1,
         "initial",

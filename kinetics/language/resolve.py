@@ -8,14 +8,18 @@ warnings.  Every error of the file (both passes) is raised together.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from ..errors import SchemeError
 from ..scheme import Scheme, Step
+from .activities import start_from_activities
 from .checks import check_rates, nothing_to_start, repeated_steps, unused_constants
 from .concentrations import choose_unit
 from .constants import resolve_definitions, resolve_temperature
 from .messages import Diagnostics
 from .names import ExcessDeclarations, single, species_order
 from .reader import ParsedFile
+from .requirements import resolve_requirements
 from .species import check_atom_balance, make_species
 from .statements import BalanceStatement, TitleStatement
 from .steps import StepBuilder
@@ -79,7 +83,8 @@ def resolve(parsed: ParsedFile, strict_balance: bool = True) -> Scheme:
         parsed.statements, parsed.reactions, found, definitions.used, definitions.quantities
     )
     start, feed = values.values["start"], values.values["feed"]
-    nothing_to_start(start, feed, parsed.lists, parsed.reactions, found)
+    activities = {name: float(a) for name, (a, _, _) in values.activities.items()}
+    nothing_to_start({**start, **activities}, feed, parsed.lists, parsed.reactions, found)
     scheme = Scheme(
         species=tuple(matrix),
         excess_species=tuple(held),
@@ -104,7 +109,10 @@ def resolve(parsed: ParsedFile, strict_balance: bool = True) -> Scheme:
     )
     check_rates(scheme, parsed.reactions, found)
     found.raise_if_any()
-    return scheme
+    scheme = start_from_activities(scheme, values.activities, found)
+    requirements = resolve_requirements(parsed.statements, scheme, unit, found)
+    found.raise_if_any()
+    return replace(scheme, requirements=requirements) if requirements else scheme
 
 
 def _no_reactions(parsed: ParsedFile, found: Diagnostics) -> None:

@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
+from fractions import Fraction
 from typing import ClassVar, NamedTuple
 
 from ..errors import SchemeError
@@ -32,7 +33,7 @@ from .grammar import (
     top_level_equals,
 )
 from .messages import keyword_error, quoted, unknown_arrow
-from .quantities import Value, read_value
+from .quantities import Value, fraction, number_problem, read_value
 from .source import Line
 
 __all__ = [
@@ -42,6 +43,7 @@ __all__ = [
     "Item",
     "KeptList",
     "ListStatement",
+    "RequireStatement",
     "TemperatureStatement",
     "TitleStatement",
     "read_constant",
@@ -449,3 +451,95 @@ class ConstantStatement:
         if isinstance(spec, list):
             return spec
         return cls(spec, line)
+
+
+#: An example of a requirement (in hints).
+REQUIRE_EXAMPLE = "require IMP <= 0.15 % of API"
+_COMPARISON = re.compile(r"\s*(<=|>=|≤|≥|==|=<|=>|<|>|=)")
+_PERCENT = re.compile(
+    rf"\s*(?P<number>{NUMBER_RE.pattern})\s*%\s*(?:of\s+(?P<of>{NAME_RE.pattern}))?\s*$"
+)
+
+
+@dataclass(frozen=True, slots=True)
+class RequireStatement:
+    """``require S <= VALUE`` or ``require S >= VALUE``.
+
+    ``VALUE`` is a concentration or amount (``2 mmol/L``), a percentage of the species'
+    own start value (``90 %``) or a percentage of another species' start value
+    (``0.15 % of API``).
+
+    Examples
+    --------
+    >>> code = "require IMP <= 0.15 % of API"
+    >>> s = RequireStatement.from_line(Line("t", 1, code, code))
+    >>> s.species, s.comparison, s.share, s.of, s.text
+    ('IMP', '<=', Fraction(3, 2000), 'API', 'IMP <= 0.15 % of API')
+    """
+
+    species: str
+    species_column: int
+    comparison: str
+    value: Value | None
+    share: Fraction | None
+    of: str | None
+    value_column: int
+    text: str
+    line: Line
+
+    @classmethod
+    def from_line(cls, line: Line) -> RequireStatement | list[SchemeError] | None:
+        """The statement of ``line``, its errors, or None when it is no requirement."""
+        code = line.code
+        match = re.match(r"\s*require(?=\s|$)", code)
+        if not match:
+            return None
+        if ARROW_RE.search(code):
+            return [keyword_error(line, "require", match.end() - 7, "a species")]
+        body = code[match.end() :]
+        name = re.match(rf"\s*({NAME_RE.pattern})", body)
+        if name is None:
+            problem = (
+                "'require' states nothing"
+                if not body.strip()
+                else f"expected a species name after 'require', found {quoted(body.strip())}"
+            )
+            col = match.end() + len(body) - len(body.lstrip()) + 1 if body.strip() else 1
+            snippet = body.strip() or "require"
+            return [line.error(problem, col, snippet, f"write e.g. {REQUIRE_EXAMPLE}")]
+        at = match.end() + name.end()
+        comparison = _COMPARISON.match(code, at)
+        if comparison is None or comparison.group(1) not in ("<=", ">=", "≤", "≥"):
+            found = comparison.group(1) if comparison else (code[at:].split() or [""])[0]
+            column = (
+                comparison.start(1) if comparison else at + len(code[at:]) - len(code[at:].lstrip())
+            ) + 1
+            return [
+                line.error(
+                    f"unknown comparison {quoted(found)} in a requirement"
+                    if found
+                    else "a requirement needs a comparison",
+                    column,
+                    found or " ",
+                    "write <= (stays at or below) or >= (stays at or above), e.g. "
+                    + REQUIRE_EXAMPLE,
+                )
+            ]
+        op = {"≤": "<=", "≥": ">="}.get(comparison.group(1), comparison.group(1))
+        rest = code[comparison.end() :]
+        rest_col0 = comparison.end() + len(rest) - len(rest.lstrip())
+        text = code[match.end() :].strip()
+        species, species_col = name.group(1), match.end() + name.start(1) + 1
+        percent = _PERCENT.match(rest)
+        if percent is not None:
+            number = percent.group("number")
+            problem = number_problem(number, f"the limit of {species}", "90 %", False)
+            if problem is not None:
+                return [line.error(problem[0], rest_col0 + 1, number, problem[1])]
+            share = fraction(number) / 100
+            of = percent.group("of") or species
+            return cls(species, species_col, op, None, share, of, rest_col0 + 1, text, line)
+        value = read_value(line, rest.strip(), rest_col0, f"the limit of {species}", "2 mmol/L")
+        if isinstance(value, SchemeError):
+            return [value]
+        return cls(species, species_col, op, value, None, None, value.column, text, line)
