@@ -669,17 +669,21 @@ def _named_value(scheme: Scheme, name: str, value) -> Fraction:
             f"no named quantity {name!r} in the scheme",
             "named quantities: " + (", ".join(dict.fromkeys(known)) or "none"),
         )
-    if name in scheme.constants:
-        return _checked_fraction(value, f"rate constant {name}")
     if isinstance(value, (Fraction, int)) and not isinstance(value, bool):
-        return Fraction(value)
-    try:
-        number = float(value)
-    except (TypeError, ValueError):
-        raise UsageError(f"{name} must be a number, not {shown_value(value)}") from None
-    if not math.isfinite(number):
-        raise UsageError(f"{name} = {shown_value(value)} must be finite")
-    return Fraction(number)
+        exact = Fraction(value)  # taken exactly
+    elif name in scheme.constants:
+        return _checked_fraction(value, f"rate constant {name}")
+    else:
+        try:
+            number = float(value)
+        except (TypeError, ValueError):
+            raise UsageError(f"{name} must be a number, not {shown_value(value)}") from None
+        if not math.isfinite(number):
+            raise UsageError(f"{name} = {shown_value(value)} must be finite")
+        exact = Fraction(number)
+    if name in scheme.constants and exact < 0:
+        raise UsageError(f"rate constant {name} = {shown_value(value)} must be finite and >= 0")
+    return exact
 
 
 def _follow_starts(scheme: Scheme, changed: bool) -> Scheme:

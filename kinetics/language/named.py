@@ -489,7 +489,7 @@ def graph_of(
                 definitions.setdefault(ref.name, leaves[ref.name])
     if not definitions:
         return Dependencies()
-    graph = Dependencies.ordered(definitions.values())
+    graph = Dependencies.ordered(sorted(definitions.values(), key=lambda d: d.line))
     for name, c in list(results.constants.items()):
         value = None if name in graph.on_temperature else c.value_si
         results.constants[name] = RateConstant(
