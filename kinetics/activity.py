@@ -48,9 +48,10 @@ def decay_constants(scheme: Scheme) -> dict[str, Fraction]:
     r""":math:`\lambda_i` of every matrix species [1/s]: the sum of the effective constants
     of the steps that consume it, at the scheme's values.
 
-    Each sum is formed exactly from the double-double step rates
-    (:attr:`kinetics.scheme.Scheme.rate_pairs`, the exact constants to about
-    :math:`2^{-106}`).
+    Each sum is formed exactly from the exact constants of the steps
+    (:meth:`kinetics.scheme.Scheme.exact_constants`); a step with partners in excess
+    contributes its double-double effective rate (:attr:`kinetics.scheme.Scheme.rate_pairs`,
+    exact to about :math:`2^{-106}`).
 
     Parameters
     ----------
@@ -71,10 +72,14 @@ def decay_constants(scheme: Scheme) -> dict[str, Fraction]:
     >>> float(lam["P"]) == math.log(2) / 3600, lam["D"]
     (True, Fraction(0, 1))
     """
+    exact = scheme.exact_constants()
     hi, lo = scheme.rate_pairs
     out = {name: Fraction(0) for name in scheme.species_names}
     for step, h, low in zip(scheme.steps, hi.tolist(), lo.tolist(), strict=True):
-        out[step.reactant] += Fraction(h) + Fraction(low)
+        if step.co_reactants:
+            out[step.reactant] += Fraction(h) + Fraction(low)
+        else:
+            out[step.reactant] += exact[step.constant]
     return out
 
 

@@ -275,7 +275,8 @@ class _Reader:
         match = _NUMBER.match(self.text, at)
         assert match is not None  # atom() saw a digit or a point
         number = match.group(0)
-        problem = number_problem(number, self.what, "50 h", True)
+        example = "0.12 1/min" if self.what.startswith("rate constant") else "50 h"
+        problem = number_problem(number, self.what, example, True)
         if problem is not None:
             self.fail(problem[0], at, number, problem[1])
         self.pos = match.end()

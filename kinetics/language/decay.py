@@ -99,7 +99,8 @@ def _fraction(r, expr, values, found) -> Fraction | bool | None:
     if q.dims:
         problem = f"which is {describe_dimension(dict(q.dims))}, not a pure number"
     elif q.value is not None and not 0 <= q.value <= 1:
-        problem = f"which is {_percent(q.value)} %, outside 0 to 100 %"
+        shown_as = "" if expr.text.endswith("%") else f" ({_percent(q.value)} %)"
+        problem = f"outside 0 to 100 %{shown_as}"
     if problem is None:
         return q.value
     if found is not None:
