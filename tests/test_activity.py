@@ -39,7 +39,8 @@ def test_decay_constants_add_every_branch_and_the_untracked_share():
     # 60 % + 30 % + the untracked 10 %: the parent decays with its half-life, ln 2 / 10 h
     assert float(lam["P"]) == pytest.approx(math.log(2) / 36000, rel=1e-15)
     assert lam["D"] == Fraction(1, 7200)
-    assert lam["E"] == 0 and lam["F"] == 0
+    assert lam["E"] == 0
+    assert lam["F"] == 0
 
 
 def test_amount_from_activity_is_exact():

@@ -100,4 +100,5 @@ def test_law_messages(law, message):
 def test_the_table_of_laws():
     assert sorted(LAWS) == ["arrhenius", "eyring", "q10"]
     assert LAWS["q10"].keys == ("k_ref", "T_ref", "Q10")
-    assert LAWS["q10"].positional and not LAWS["arrhenius"].positional
+    assert LAWS["q10"].positional
+    assert not LAWS["arrhenius"].positional
