@@ -7,7 +7,8 @@ Tc-99m, Tc-99m 6.0067 h.  The scheme is solved by ``kinetics.solve`` (the exact 
 the references are closed forms evaluated with mpmath at 50 digits:
 
 * Bateman (1910) for a parent and daughter with branching fraction f:
-  :math:`N_D(t) = f \\lambda_P N_{P,0} (e^{-\\lambda_P t} - e^{-\\lambda_D t}) / (\\lambda_D - \\lambda_P)`,
+  :math:`N_D(t) = f \\lambda_P N_{P,0} (e^{-\\lambda_P t} - e^{-\\lambda_D t})
+  / (\\lambda_D - \\lambda_P)`,
   activities :math:`A = \\lambda N`;
 * the time of the daughter's activity maximum
   :math:`t_m = \\ln(\\lambda_D/\\lambda_P) / (\\lambda_D - \\lambda_P)` (textbook result, e.g.
