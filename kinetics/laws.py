@@ -12,6 +12,7 @@ and to :func:`kinetics.expressions.evaluate` under the names a file writes:
 
 from __future__ import annotations
 
+import math
 from collections.abc import Mapping
 from dataclasses import dataclass
 from fractions import Fraction
@@ -140,6 +141,11 @@ class Q10:
                 "write T_ref above 0 K, e.g. 25 degC",
             )
         steps = (t - self.reference_temperature) / 10
+        if abs(float(steps) * math.log(float(self.factor))) > 9000:
+            raise ExpressionError(
+                f"the Q10 factor {shown(self.factor)} over {shown(steps * 10)} K is beyond 1e±3900",
+                "check the temperatures and the factor",
+            )
         if steps.denominator == 1 and abs(steps) <= 1000:
             return self.reference * self.factor ** int(steps)
         return self.reference * dd.decimal_power(self.factor, steps)

@@ -102,3 +102,11 @@ def test_the_table_of_laws():
     assert LAWS["q10"].keys == ("k_ref", "T_ref", "Q10")
     assert LAWS["q10"].positional
     assert not LAWS["arrhenius"].positional
+
+
+def test_q10_beyond_the_range_is_an_error():
+    with pytest.raises(ExpressionError) as info:
+        Q10(Fraction(1), Fraction(300), Fraction(5, 2)).exact(3e17)
+    assert str(info.value) == (
+        "the Q10 factor 2.5 over 3e+17 K is beyond 1e±3900; check the temperatures and the factor"
+    )

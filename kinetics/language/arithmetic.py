@@ -250,7 +250,7 @@ class _Reader:
             op = before[-1]
             self.fail(f"expected a value after {quoted(op)} in {self.what}", len(before) - 1, op)
         self.count(at)
-        if c.isdigit() or c == ".":
+        if _NUMBER.match(self.text, at):
             return self.number()
         if c == "(":
             self.deeper(at)
@@ -273,7 +273,7 @@ class _Reader:
     def number(self) -> Number:
         at = self.pos
         match = _NUMBER.match(self.text, at)
-        assert match is not None  # atom() saw a digit or a point
+        assert match is not None  # atom() saw a number
         number = match.group(0)
         example = "0.12 1/min" if self.what.startswith("rate constant") else "50 h"
         problem = number_problem(number, self.what, example, True)
