@@ -333,19 +333,15 @@ class Scheme:
         (parallel steps, constants no step uses, nothing to start from), each led by
         ``file:line:``; the command line prints them on stderr.
     quantities : dict of str to NamedQuantity
-        Named quantities that are not rate constants (``t_p = 50 h``, ``Ea_f = 95
-        kJ/mol``), with exact SI values.
+        Named quantities that are not rate constants (``t_p = 50 h``), exact SI values.
     dependencies : Dependencies
-        The graph of the definitions written as expressions and of everything they
-        refer to: which named quantity drives which constant
-        (:meth:`driven_by`, :meth:`exact_constants`, :meth:`with_values`).
+        Which named quantity drives which constant (:meth:`driven_by`,
+        :meth:`exact_constants`, :meth:`with_values`).
     requirements : tuple of Requirement
         The ``require`` lines, thresholds in ``concentration_unit``.
     start_activities : dict of str to Fraction
-        Start values written as activities [Bq; Bq per basis unit for a scheme per
-        volume or mass], exact; ``initial`` holds the amounts they give
-        (:func:`kinetics.activity.amount_from_activity`), which follow the decay
-        constants when values change.
+        Start values written as activities [Bq, or Bq per volume or mass], exact;
+        ``initial`` holds their amounts, which follow the decay constants.
     """
 
     species: tuple[Species, ...]
@@ -509,20 +505,16 @@ class Scheme:
     ) -> dict[str, Fraction]:
         """The exact value of every rate constant, following the named quantities.
 
-        The one place where constants are evaluated: plain values as written, Arrhenius
-        and other temperature laws at ``temperature`` (40 digits), and constants derived
-        from expressions evaluated again from new values of the quantities they follow
-        (:mod:`kinetics.definitions`).  Sweeps and fits that vary a named quantity call
-        this for each set of values.
+        Plain values as written, temperature laws at ``temperature`` (40 digits), derived
+        constants from new values of what they follow (:mod:`kinetics.definitions`).
 
         Parameters
         ----------
         temperature : float, optional
             [K]; default the scheme's.
         quantities : dict of str to float or Fraction, optional
-            New values of named quantities or constants in SI base units [s for a time,
-            K for a temperature, J/mol for an energy, 1/s for a first-order constant];
-            Fractions are taken exactly.
+            New values of named quantities or constants [SI base units: s, K, J/mol,
+            1/s], Fractions taken exactly.
 
         Returns
         -------
@@ -543,22 +535,16 @@ class Scheme:
         >>> from kinetics import parse
         >>> scheme = parse("t_p = 50 h\\nP -> D  lam = ln(2) / t_p\\nstart P = 1 mol")
         >>> lam = scheme.exact_constants(quantities={"t_p": Fraction(36000)})["lam"]
-        >>> round(float(lam) * 36000, 12)  # ln 2 / t_p for t_p = 10 h
-        0.69314718056
+        >>> round(float(lam) * 36000, 12), scheme.driven_by("t_p")  # ln 2 for t_p = 10 h
+        (0.69314718056, ('lam',))
         """
         values = {n: _named_value(self, n, v) for n, v in (quantities or {}).items()}
         t = self.temperature if temperature is None else temperature
         return constant_values(self.constants, self.dependencies, t, values)
 
     def driven_by(self, name: str) -> tuple[str, ...]:
-        """The rate constants whose values follow from the named quantity ``name``.
-
-        Examples
-        --------
-        >>> from kinetics import parse
-        >>> parse("t_p = 50 h\\nP -> D  lam = ln(2) / t_p\\nstart P = 1 mol").driven_by("t_p")
-        ('lam',)
-        """
+        """The rate constants whose values follow from the named quantity ``name`` (see
+        the example of :meth:`exact_constants`)."""
         _named_value(self, name, 0)
         return tuple(n for n in self.dependencies.driven_by(name) if n in self.constants)
 
@@ -585,15 +571,12 @@ class Scheme:
         excess : dict of str to float, optional
             New excess concentrations [concentration_unit].
         quantities : dict of str to float or Fraction, optional
-            New values of named quantities (or constants) in SI base units (see
-            :meth:`exact_constants`); Fractions are taken exactly.
+            New values of named quantities [SI base units], Fractions taken exactly.
 
         Returns
         -------
         Scheme
-            Constants derived from a changed quantity follow it exactly; start values
-            written as activities follow the new decay constants; thresholds written as
-            percentages of a start value follow it.
+            Derived constants, start activities and percentage thresholds follow.
 
         Raises
         ------
@@ -602,63 +585,73 @@ class Scheme:
         ExpressionError
             When a definition cannot be evaluated with the new values.
         """
-        fixed: dict[str, Fraction] = {}
-        texts: dict[str, str] = {}
-        for name, value in (constants or {}).items():
-            if name not in self.constants:
-                raise UsageError(
-                    f"no rate constant named {name!r} in the scheme",
-                    "known constants: " + ", ".join(self.constants),
-                )
-            fixed[name] = _checked_fraction(value, f"rate constant {name}")
-            texts[name] = f"{shown_value(value)} (SI)"
-        for name, value in (quantities or {}).items():
-            fixed[name] = _named_value(self, name, value)
-            texts[name] = f"{shown_value(float(value))} (SI)"
-        new_constants, new_quantities, graph = self.constants, self.quantities, self.dependencies
-        if fixed:
-            new_constants, new_quantities, graph = follow(
-                self.constants, self.quantities, self.dependencies, fixed, texts
-            )
-        new_initial = dict(self.initial)
-        for name, value in (initial or {}).items():
-            if name not in self.index:
-                raise UsageError(
-                    f"no species named {name!r} in the rate matrix of the scheme",
-                    "species: " + ", ".join(self.species_names),
-                )
-            _checked_fraction(value, f"start value of {name}")
-            new_initial[name] = float(value)
-        new_excess = dict(self.excess)
-        new_excess_si = dict(self._excess_si)
-        for name, value in (excess or {}).items():
-            if name not in new_excess:
-                raise UsageError(
-                    f"no excess species named {name!r} in the scheme",
-                    "excess species: " + (", ".join(new_excess) or "none"),
-                )
-            new_excess_si[name] = (
-                _checked_fraction(value, f"excess concentration of {name}") * self._unit_factor
-            )
-            new_excess[name] = float(value)
-        if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
-            raise UsageError(
-                f"temperature {shown_value(temperature)} K must be finite and above 0 K"
-            )
-        scheme = replace(
-            self,
-            constants=new_constants,
-            quantities=new_quantities,
-            dependencies=graph,
-            temperature=self.temperature if temperature is None else float(temperature),
-            initial=new_initial,
-            excess=new_excess,
-            start_activities={
-                k: v for k, v in self.start_activities.items() if k not in (initial or {})
-            },
-            _excess_si=new_excess_si,
+        return _with_values(
+            self, constants or {}, temperature, initial or {}, excess or {}, quantities or {}
         )
-        return _follow_starts(scheme, changed=bool(initial))
+
+
+def _with_values(
+    scheme: Scheme,
+    constants: dict[str, float],
+    temperature: float | None,
+    initial: dict[str, float],
+    excess: dict[str, float],
+    quantities: dict[str, float | Fraction],
+) -> Scheme:
+    """The body of :meth:`Scheme.with_values` (arguments as there, None as empty)."""
+    fixed: dict[str, Fraction] = {}
+    texts: dict[str, str] = {}
+    for name, value in constants.items():
+        if name not in scheme.constants:
+            raise UsageError(
+                f"no rate constant named {name!r} in the scheme",
+                "known constants: " + ", ".join(scheme.constants),
+            )
+        fixed[name] = _checked_fraction(value, f"rate constant {name}")
+        texts[name] = f"{shown_value(value)} (SI)"
+    for name, value in quantities.items():
+        fixed[name] = _named_value(scheme, name, value)
+        texts[name] = f"{shown_value(float(value))} (SI)"
+    new_constants, new_quantities, graph = scheme.constants, scheme.quantities, scheme.dependencies
+    if fixed:
+        new_constants, new_quantities, graph = follow(
+            scheme.constants, scheme.quantities, scheme.dependencies, fixed, texts
+        )
+    new_initial = dict(scheme.initial)
+    for name, value in initial.items():
+        if name not in scheme.index:
+            raise UsageError(
+                f"no species named {name!r} in the rate matrix of the scheme",
+                "species: " + ", ".join(scheme.species_names),
+            )
+        _checked_fraction(value, f"start value of {name}")
+        new_initial[name] = float(value)
+    new_excess = dict(scheme.excess)
+    new_excess_si = dict(scheme._excess_si)
+    for name, value in excess.items():
+        if name not in new_excess:
+            raise UsageError(
+                f"no excess species named {name!r} in the scheme",
+                "excess species: " + (", ".join(new_excess) or "none"),
+            )
+        new_excess_si[name] = (
+            _checked_fraction(value, f"excess concentration of {name}") * scheme._unit_factor
+        )
+        new_excess[name] = float(value)
+    if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
+        raise UsageError(f"temperature {shown_value(temperature)} K must be finite and above 0 K")
+    new = replace(
+        scheme,
+        constants=new_constants,
+        quantities=new_quantities,
+        dependencies=graph,
+        temperature=scheme.temperature if temperature is None else float(temperature),
+        initial=new_initial,
+        excess=new_excess,
+        start_activities={k: v for k, v in scheme.start_activities.items() if k not in initial},
+        _excess_si=new_excess_si,
+    )
+    return _follow_starts(new, changed=bool(initial))
 
 
 def _named_value(scheme: Scheme, name: str, value) -> Fraction:

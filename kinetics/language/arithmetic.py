@@ -285,7 +285,11 @@ class _Reader:
             self.pos += 1
             return Number(fraction(number) / 100, (), self.span(at), self.col(at), unit="%")
         glued = self.pos == after
-        unit = None if glued and not _UNIT_WORD.match(self.text, after) else self.unit_at(self.pos)
+        unit = (
+            None
+            if glued and not _UNIT_WORD.match(self.text, after)
+            else _unit_span(self.text, self.pos)
+        )
         if unit is None:
             self.pos = after
             return Number(fraction(number), (), number, self.col(at))
@@ -301,54 +305,6 @@ class _Reader:
             return Number(kelvin, spec.dimensions, self.span(at), self.col(at), True, unit_text)
         value_si = scaled(number, spec.factor)
         return Number(value_si, spec.dimensions, self.span(at), self.col(at), unit=unit_text)
-
-    def unit_at(self, p: int) -> tuple[int, int] | None:
-        """The span of a unit starting at ``p``, or None when no unit starts there."""
-        t = self.text
-        start = p
-        q = self.unit_factor(p + 2) if t.startswith("1/", p) else self.unit_factor(p)
-        if q is None:
-            return None
-        p = q
-        while True:
-            if t[p : p + 1] in ("/", "·", "⋅") and t[p : p + 1]:
-                q = self.unit_factor(p + 1)
-                if q is not None:
-                    p = q
-                    continue
-            gap = _SPACES.match(t, p).end()
-            if gap > p and t[gap : gap + 1] not in ("", "("):
-                q = self.unit_factor(gap)
-                if q is not None:
-                    p = q
-                    continue
-            return start, p
-
-    def unit_factor(self, p: int) -> int | None:
-        """The end of one unit word (with its exponent) or parenthesised group at ``p``."""
-        t = self.text
-        if t[p : p + 1] == "(":
-            depth, q = 0, p
-            while q < len(t):
-                if t[q] == "(":
-                    depth += 1
-                elif t[q] == ")":
-                    depth -= 1
-                    if depth == 0:
-                        break
-                elif not _UNIT_GROUP.fullmatch(t[q]):
-                    return None
-                q += 1
-            if q >= len(t):
-                return None
-            end = q + 1
-        else:
-            word = _UNIT_WORD.match(t, p)
-            if word is None or _CALL_AHEAD.match(t, p):
-                return None
-            end = word.end()
-        exponent = _EXPONENT.match(t, end)
-        return exponent.end() if exponent else end
 
     # -- names and calls -------------------------------------------------------------------
     def name_or_call(self, name: str) -> Expr:
@@ -377,7 +333,7 @@ class _Reader:
         arguments = self.arguments()
         self.depth -= 1
         if law is not None:
-            return self.law_call(law, arguments, at)
+            return _law_call(self, law, arguments, at)
         if len(arguments) != 1 or arguments[0][0] is not None:
             self.fail(
                 f"{name} takes one value; found {len(arguments)}",
@@ -418,49 +374,99 @@ class _Reader:
                 )
             self.trailing()
 
-    def law_call(
-        self, law: LawSpec, arguments: list[tuple[str | None, Expr, str, int]], at: int
-    ) -> LawCall:
-        given: dict[str, Expr] = {}
-        errors: list[SchemeError] = []
-        label = f"the {law.label} parameters of {self.owner}"
-        keys = law.keys
-        by_position = law.positional
-        for index, (key, tree, piece, start) in enumerate(arguments):
-            by_position = by_position and key is None
-            if by_position:
-                key = keys[index] if index < len(keys) else None
-            if key is None or key not in keys:
-                errors.append(
-                    self.line.error(
-                        f"could not read {quoted(piece)} in {label}",
-                        self.col(start),
-                        piece or " ",
-                        f"write {law.example}",
-                    )
-                )
-                continue
-            if key in given:
-                errors.append(
-                    self.line.error(
-                        f"{label} give {key} twice",
-                        self.col(start),
-                        piece,
-                        f"give {_joined(keys)} once each: {law.example}",
-                    )
-                )
-                continue
-            given[key] = tree
-        if not errors and set(given) != set(keys):
-            missing = _joined([k for k in keys if k not in given])
+
+def _law_call(
+    reader: _Reader, law: LawSpec, arguments: list[tuple[str | None, Expr, str, int]], at: int
+) -> LawCall:
+    """The call of ``law`` with its arguments checked: keys known, each once, none missing."""
+    given: dict[str, Expr] = {}
+    errors: list[SchemeError] = []
+    label = f"the {law.label} parameters of {reader.owner}"
+    keys = law.keys
+    by_position = law.positional
+    for index, (key, tree, piece, start) in enumerate(arguments):
+        by_position = by_position and key is None
+        if by_position:
+            key = keys[index] if index < len(keys) else None
+        if key is None or key not in keys:
             errors.append(
-                self.line.error(
-                    f"{label} lack {missing}", self.col(at), self.span(at), f"write {law.example}"
+                reader.line.error(
+                    f"could not read {quoted(piece)} in {label}",
+                    reader.col(start),
+                    piece or " ",
+                    f"write {law.example}",
                 )
             )
-        if errors:
-            raise _Stop(errors)
-        return LawCall(law, tuple((k, given[k]) for k in keys), self.span(at), self.col(at))
+            continue
+        if key in given:
+            errors.append(
+                reader.line.error(
+                    f"{label} give {key} twice",
+                    reader.col(start),
+                    piece,
+                    f"give {_joined(keys)} once each: {law.example}",
+                )
+            )
+            continue
+        given[key] = tree
+    if not errors and set(given) != set(keys):
+        missing = _joined([k for k in keys if k not in given])
+        errors.append(
+            reader.line.error(
+                f"{label} lack {missing}", reader.col(at), reader.span(at), f"write {law.example}"
+            )
+        )
+    if errors:
+        raise _Stop(errors)
+    return LawCall(law, tuple((k, given[k]) for k in keys), reader.span(at), reader.col(at))
+
+
+def _unit_span(t: str, p: int) -> tuple[int, int] | None:
+    """The span of a unit starting at ``p``, or None when no unit starts there."""
+    start = p
+    q = _unit_factor(t, p + 2) if t.startswith("1/", p) else _unit_factor(t, p)
+    if q is None:
+        return None
+    p = q
+    while True:
+        if t[p : p + 1] in ("/", "·", "⋅") and t[p : p + 1]:
+            q = _unit_factor(t, p + 1)
+            if q is not None:
+                p = q
+                continue
+        gap = _SPACES.match(t, p).end()
+        if gap > p and t[gap : gap + 1] not in ("", "("):
+            q = _unit_factor(t, gap)
+            if q is not None:
+                p = q
+                continue
+        return start, p
+
+
+def _unit_factor(t: str, p: int) -> int | None:
+    """The end of one unit word (with its exponent) or parenthesised group at ``p``."""
+    if t[p : p + 1] == "(":
+        depth, q = 0, p
+        while q < len(t):
+            if t[q] == "(":
+                depth += 1
+            elif t[q] == ")":
+                depth -= 1
+                if depth == 0:
+                    break
+            elif not _UNIT_GROUP.fullmatch(t[q]):
+                return None
+            q += 1
+        if q >= len(t):
+            return None
+        end = q + 1
+    else:
+        word = _UNIT_WORD.match(t, p)
+        if word is None or _CALL_AHEAD.match(t, p):
+            return None
+        end = word.end()
+    exponent = _EXPONENT.match(t, end)
+    return exponent.end() if exponent else end
 
 
 def _joined(words) -> str:
