@@ -342,25 +342,23 @@ def constant_values(
     derived = graph.evaluate(temperature, values) if graph else {}
     out: dict[str, Fraction] = {}
     for name, c in constants.items():
+        value = c.value_si  # the common case: a plain value as written (never negative)
         if name in values:
-            out[name] = Fraction(values[name])
-            continue
-        if name in derived:
+            value = Fraction(values[name])
+        elif name in derived:
             value = derived[name].value
-        elif c.arrhenius is not None:
-            value = None if temperature is None else c.arrhenius.exact(temperature)
-        else:
-            value = c.value_si
+            if value is not None and value < 0:
+                raise ExpressionError(
+                    f"rate constant {name} = {c.text} becomes negative ({shown(value)})",
+                    "give values that keep every rate constant at or above 0",
+                )
+        elif c.arrhenius is not None and temperature is not None:
+            value = c.arrhenius.exact(temperature)
         if value is None:
             law = "follows the Arrhenius law" if c.arrhenius else "depends on the temperature"
             raise UsageError(
                 f"rate constant {name} {law} and needs a temperature",
                 "give the temperature in kelvin",
-            )
-        if value < 0:
-            raise ExpressionError(
-                f"rate constant {name} = {c.text} becomes negative ({shown(value)})",
-                "give values that keep every rate constant at or above 0",
             )
         out[name] = value
     return out

@@ -264,7 +264,8 @@ def resolve_definitions(
     for rest in untracked:
         entries[rest.name] = rest.entry()
     failed = check_references(entries, plain, species, parsed.failed_names, found)
-    values = {n: plain_value(c, t) for n, c in plain.items()}
+    used = {ref.name for e in entries.values() for ref in names_in(e.expression)}
+    values = {n: plain_value(plain[n], t) for n in used if n in plain}
     results = evaluate_entries(entries, values, failed, t, temperature.failed, found)
     check_parents(parsed.reactions, results.values, found)
     kept = [r for r in untracked if r.kept(results.values)]
@@ -272,7 +273,7 @@ def resolve_definitions(
         if rest not in kept:
             entries.pop(rest.name)
             results.constants.pop(rest.name, None)
-    leaves = {n: d for n, c in plain.items() if (d := plain_leaf(n, c)) is not None}
+    leaves = {n: d for n in used if n in plain and (d := plain_leaf(n, plain[n])) is not None}
     graph = graph_of(results, entries, leaves)
     constants: dict[str, RateConstant] = {}
     quantities: dict[str, NamedQuantity] = {}
@@ -285,7 +286,6 @@ def resolve_definitions(
     for rest in kept:
         constants[rest.name] = results.constants[rest.name]
     _undefined(parsed, names, constants, found)
-    used = {ref.name for e in entries.values() for ref in names_in(e.expression)}
     return Resolved(constants, quantities, graph, kept, used)
 
 
