@@ -204,8 +204,8 @@ def _unit_ratio(scheme: Scheme, unit: str) -> Fraction:
             f"unknown unit of activity {shorten(unit)!r}", "write e.g. MBq, kBq or mCi"
         ) from None
     wanted = dict(amount.dims)
-    wanted["[substance]"] = wanted.get("[substance]", 0) - 1
-    wanted["[time]"] = wanted.get("[time]", 0) - 1
+    wanted["[substance]"] = wanted.get("[substance]", Fraction(0)) - 1
+    wanted["[time]"] = wanted.get("[time]", Fraction(0)) - 1
     if spec.offset or spec.dimensions != dims_of(wanted):
         basis = dict(wanted)
         basis.pop("[time]", None)
@@ -219,9 +219,12 @@ def _unit_ratio(scheme: Scheme, unit: str) -> Fraction:
 
 
 def _basis_name(basis: dict) -> str:
-    return {(("[length]", 3),): "volume", (("[mass]", 1),): "mass"}.get(
-        tuple(sorted((k, -int(v)) for k, v in basis.items() if v)), describe_dimension(basis)
-    )
+    names: dict[tuple[tuple[str, int], ...], str] = {
+        (("[length]", 3),): "volume",
+        (("[mass]", 1),): "mass",
+    }
+    key = tuple(sorted((k, -int(v)) for k, v in basis.items() if v))
+    return names.get(key, describe_dimension(basis))
 
 
 def activities(scheme: Scheme, amounts, unit: str = "Bq") -> np.ndarray:

@@ -64,7 +64,7 @@ _MAX_BINARY_EXPONENT = 13_300
 _ROUNDING = Context(prec=60, Emax=10**9, Emin=-(10**9))
 
 
-def dims_of(mapping: Mapping[str, object]) -> Dims:
+def dims_of(mapping: Mapping[str, int | Fraction]) -> Dims:
     """Dimension exponents as the sorted tuple every node and quantity carries.
 
     Examples

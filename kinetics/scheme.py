@@ -609,9 +609,9 @@ def _with_values(
             )
         fixed[name] = _checked_fraction(value, f"rate constant {name}")
         texts[name] = f"{shown_value(value)} (SI)"
-    for name, value in quantities.items():
-        fixed[name] = _named_value(scheme, name, value)
-        texts[name] = f"{shown_value(float(value))} (SI)"
+    for name, given in quantities.items():
+        fixed[name] = _named_value(scheme, name, given)
+        texts[name] = f"{shown_value(float(given))} (SI)"
     new_constants, new_quantities, graph = scheme.constants, scheme.quantities, scheme.dependencies
     if fixed:
         new_constants, new_quantities, graph = follow(

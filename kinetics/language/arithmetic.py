@@ -19,6 +19,8 @@ cannot be read gives one located error (several for the parameters of a law).
 from __future__ import annotations
 
 import re
+from collections.abc import Iterable
+from typing import NoReturn
 
 from ..errors import SchemeError
 from ..expressions import (
@@ -128,12 +130,12 @@ class _Reader:
         """1-based column of ``text[index]`` in the line."""
         return self.column0 + index + 1
 
-    def fail(self, problem: str, index: int, snippet: str, hint: str = EXPRESSION_HINT):
+    def fail(self, problem: str, index: int, snippet: str, hint: str = EXPRESSION_HINT) -> NoReturn:
         raise _Stop([self.line.error(problem, self.col(index), snippet or " ", hint)])
 
     def skip(self) -> str:
         """Move past spaces; the next character ('' at the end)."""
-        self.pos = _SPACES.match(self.text, self.pos).end()
+        self.pos = _after_spaces(self.text, self.pos)
         return self.text[self.pos : self.pos + 1]
 
     def span(self, start: int) -> str:
@@ -434,7 +436,7 @@ def _unit_span(t: str, p: int) -> tuple[int, int] | None:
             if q is not None:
                 p = q
                 continue
-        gap = _SPACES.match(t, p).end()
+        gap = _after_spaces(t, p)
         if gap > p and t[gap : gap + 1] not in ("", "("):
             q = _unit_factor(t, gap)
             if q is not None:
@@ -469,14 +471,20 @@ def _unit_factor(t: str, p: int) -> int | None:
     return exponent.end() if exponent else end
 
 
-def _joined(words) -> str:
-    words = list(words)
+def _after_spaces(text: str, at: int) -> int:
+    """The index of the first character at or after ``at`` that is no space."""
+    match = _SPACES.match(text, at)
+    return at if match is None else match.end()
+
+
+def _joined(items: Iterable[str]) -> str:
+    words = list(items)
     return words[0] if len(words) == 1 else ", ".join(words[:-1]) + " and " + words[-1]
 
 
 def _example(name: str) -> str:
     law = LAWS.get(name.lower())
-    return law.example if law is not None else f"{name}(2)"
+    return f"{name}(2)" if law is None else str(law.example)
 
 
 def _unit_hint(error: SchemeError) -> SchemeError:

@@ -51,13 +51,16 @@ class BranchCheck:
         r = self.statement
         decay = r.decay
         assert decay is not None  # checks are made for decay steps only
-        return _half_life(r, decay.half_life, values, found) is not False and (
-            decay.fraction is None or _fraction(r, decay.fraction, values, found) is not False
+        return _half_life(r, decay.half_life, values, found)[0] and (
+            decay.fraction is None or _fraction(r, decay.fraction, values, found)[0]
         )
 
 
 def _value(
-    r: ReactionStatement, expr: Expr, values: Mapping[str, ExactQuantity], found
+    r: ReactionStatement,
+    expr: Expr,
+    values: Mapping[str, ExactQuantity],
+    found: Diagnostics | None,
 ) -> ExactQuantity | None:
     try:
         return evaluate(expr, values, None)
@@ -67,18 +70,23 @@ def _value(
         return None
 
 
-def _half_life(r, expr, values, found) -> Fraction | bool | None:
-    """The half-life [s] (None when unknown), or False after an error."""
+def _half_life(
+    r: ReactionStatement,
+    expr: Expr,
+    values: Mapping[str, ExactQuantity],
+    found: Diagnostics | None,
+) -> tuple[bool, Fraction | None]:
+    """(usable, the half-life [s] or None when unknown); errors go to ``found``."""
     q = _value(r, expr, values, found)
     if q is None:
-        return False
+        return False, None
     problem = None
     if q.dims != _TIME:
         problem = f"which is {describe_dimension(dict(q.dims))}, not a time"
     elif q.value is not None and not q.value > 0:
         problem = "which is not above 0"
     if problem is None:
-        return q.value
+        return True, q.value
     if found is not None:
         found.error(
             r.line,
@@ -87,14 +95,19 @@ def _half_life(r, expr, values, found) -> Fraction | bool | None:
             expr.text,
             f"write a time above 0, e.g. {DECAY_EXAMPLE}",
         )
-    return False
+    return False, None
 
 
-def _fraction(r, expr, values, found) -> Fraction | bool | None:
-    """The fraction (None when unknown), or False after an error."""
+def _fraction(
+    r: ReactionStatement,
+    expr: Expr,
+    values: Mapping[str, ExactQuantity],
+    found: Diagnostics | None,
+) -> tuple[bool, Fraction | None]:
+    """(usable, the fraction or None when unknown); errors go to ``found``."""
     q = _value(r, expr, values, found)
     if q is None:
-        return False
+        return False, None
     problem = None
     if q.dims:
         problem = f"which is {describe_dimension(dict(q.dims))}, not a pure number"
@@ -102,7 +115,7 @@ def _fraction(r, expr, values, found) -> Fraction | bool | None:
         shown_as = "" if expr.text.endswith("%") else f" ({_percent(q.value)} %)"
         problem = f"outside 0 to 100 %{shown_as}"
     if problem is None:
-        return q.value
+        return True, q.value
     if found is not None:
         found.error(
             r.line,
@@ -111,7 +124,7 @@ def _fraction(r, expr, values, found) -> Fraction | bool | None:
             expr.text,
             f"write a percentage or a number from 0 to 1, e.g. {DECAY_EXAMPLE}",
         )
-    return False
+    return False, None
 
 
 @dataclass(frozen=True)
@@ -151,14 +164,13 @@ class Remainder:
                 return False  # the branch reports it
             decay = r.decay
             assert decay is not None
-            f = (
-                Fraction(1)
-                if decay.fraction is None
-                else _fraction(r, decay.fraction, values, None)
-            )
-            if f is None:
-                return True  # unknown until the temperature is known
-            total += f  # type: ignore[operator]
+            f = Fraction(1)
+            if decay.fraction is not None:
+                f_known = _fraction(r, decay.fraction, values, None)[1]
+                if f_known is None:
+                    return True  # unknown until the temperature is known
+                f = f_known
+            total += f
         last = self.branches[-1]
         lines = ", ".join(str(r.line.number) for r in self.branches)
         if total > 1:
@@ -274,10 +286,10 @@ def check_parents(
                 f"give all of {parent}'s steps by half_life and fraction, or all by rate constants",
             )
             continue
-        value = _half_life(r, decay.half_life, values, None)
-        if value is False:
+        usable, value = _half_life(r, decay.half_life, values, None)
+        if not usable:
             continue
-        seen = first.setdefault(parent, (r, value))  # type: ignore[arg-type]
+        seen = first.setdefault(parent, (r, value))
         if seen[0] is r or seen[1] is None or value is None or seen[1] == value:
             continue
         earlier = seen[0].decay

@@ -510,8 +510,8 @@ def plain_leaf(name: str, c: RateConstant | NamedQuantity) -> Definition | None:
     if isinstance(c, NamedQuantity):
         if c.value_si is None:
             return None
-        node = Number(c.value_si, c.dims, c.text, 0, unit=c.unit)
-        return Definition(name, node, c.text, c.line, c.dims)
+        number = Number(c.value_si, c.dims, c.text, 0, unit=c.unit)
+        return Definition(name, number, c.text, c.line, c.dims)
     dims: Dims = parse_unit(c.unit).dimensions if c.unit else ()
     if c.arrhenius is not None:
         a = Number(c.arrhenius.prefactor_si, dims, c.arrhenius.prefactor_text, 0)

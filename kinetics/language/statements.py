@@ -533,9 +533,9 @@ class RequireStatement:
         percent = _PERCENT.match(rest)
         if percent is not None:
             number = percent.group("number")
-            problem = number_problem(number, f"the limit of {species}", "90 %", False)
-            if problem is not None:
-                return [line.error(problem[0], rest_col0 + 1, number, problem[1])]
+            trouble = number_problem(number, f"the limit of {species}", "90 %", False)
+            if trouble is not None:
+                return [line.error(trouble[0], rest_col0 + 1, number, trouble[1])]
             share = fraction(number) / 100
             of = percent.group("of") or species
             return cls(species, species_col, op, None, share, of, rest_col0 + 1, text, line)
