@@ -110,3 +110,17 @@ def test_q10_beyond_the_range_is_an_error():
     assert str(info.value) == (
         "the Q10 factor 2.5 over 3e+17 K is beyond 1e±3900; check the temperatures and the factor"
     )
+
+
+def test_schemes_with_laws_pickle():
+    import pickle
+
+    scheme = parse(
+        "k = eyring(dH = 80 kJ/mol, dS = -20 J/mol/K)\nk2 = q10(k, 30 degC, 2)\nA -> B  k\n"
+        "B -> C  k2\ntemperature = 25 degC\nstart A = 1 M"
+    )
+    again = pickle.loads(pickle.dumps(scheme))
+    assert list(again.rates) == list(scheme.rates)
+    assert list(again.with_values(temperature=310.0).rates) == list(
+        scheme.with_values(temperature=310.0).rates
+    )
