@@ -37,7 +37,14 @@ from .units import describe_dimension
 if TYPE_CHECKING:
     from .scheme import RateConstant
 
-__all__ = ["Definition", "Dependencies", "NamedQuantity", "constant_values", "follow"]
+__all__ = [
+    "Definition",
+    "Dependencies",
+    "NamedQuantity",
+    "constant_values",
+    "follow",
+    "needs_temperature",
+]
 
 
 @dataclass(frozen=True, slots=True)
@@ -355,13 +362,28 @@ def constant_values(
         elif c.arrhenius is not None and temperature is not None:
             value = c.arrhenius.exact(temperature)
         if value is None:
-            law = "follows the Arrhenius law" if c.arrhenius else "depends on the temperature"
-            raise UsageError(
-                f"rate constant {name} {law} and needs a temperature",
-                "give the temperature in kelvin",
-            )
+            raise needs_temperature(name, c.arrhenius is not None)
         out[name] = value
     return out
+
+
+def needs_temperature(name: str, arrhenius: bool) -> UsageError:
+    """The one error of a constant that depends on a temperature when none is given.
+
+    Examples
+    --------
+    >>> str(needs_temperature("k2", False))
+    'rate constant k2 depends on the temperature (through a temperature law) and none is \
+given; give the temperature in kelvin'
+    """
+    if arrhenius:
+        problem = f"rate constant {name} follows the Arrhenius law and needs a temperature"
+    else:
+        problem = (
+            f"rate constant {name} depends on the temperature (through a temperature law) "
+            "and none is given"
+        )
+    return UsageError(problem, "give the temperature in kelvin")
 
 
 def follow(

@@ -24,7 +24,13 @@ from functools import cached_property
 import numpy as np
 
 from . import activity
-from .definitions import Dependencies, NamedQuantity, constant_values, follow
+from .definitions import (
+    Dependencies,
+    NamedQuantity,
+    constant_values,
+    follow,
+    needs_temperature,
+)
 from .errors import UsageError, shown_value
 from .requirements import Requirement
 from .units import GAS_CONSTANT_EXACT
@@ -176,8 +182,7 @@ class RateConstant:
         if self.value_si is not None:
             return self.value_si
         if temperature is None:
-            law = "follows the Arrhenius law" if self.arrhenius else "depends on the temperature"
-            raise UsageError(f"rate constant {self.name} {law} and needs a temperature")
+            raise needs_temperature(self.name, self.arrhenius is not None)
         if self.arrhenius is not None:
             return self.arrhenius.exact(temperature)
         assert self.derived is not None  # a constant has a value, a law or an expression

@@ -165,3 +165,29 @@ def test_bad_new_values(values, error, message):
     with pytest.raises(error) as info:
         scheme.exact_constants(quantities=values)
     assert str(info.value) == message
+
+
+def test_messages_of_constants_that_need_a_temperature():
+    scheme = parse(
+        "k = eyring(dH = 80 kJ/mol, dS = 0 J/mol/K)\nk2 = k / 2\nA -> B  k\nB -> C  k2\n"
+        "temperature = 300 K\nstart A = 1 M"
+    )
+    message = (
+        "rate constant k2 depends on the temperature (through a temperature law) and none is "
+        "given; give the temperature in kelvin"
+    )
+    with pytest.raises(UsageError) as info:
+        scheme.constants["k2"].exact(None)
+    assert str(info.value) == message
+    with pytest.raises(ExpressionError) as info:
+        scheme.dependencies.value("k2", None)
+    assert str(info.value) == (
+        "k2 depends on the temperature (through a temperature law); give the temperature in kelvin"
+    )
+    arrhenius = parse("A -> B  k = arrhenius(A = 1 1/s, Ea = 1 kJ/mol)\ntemperature = 300 K")
+    with pytest.raises(UsageError) as info:
+        arrhenius.constants["k"].exact(None)
+    assert str(info.value) == (
+        "rate constant k follows the Arrhenius law and needs a temperature; give the "
+        "temperature in kelvin"
+    )

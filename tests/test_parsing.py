@@ -1133,6 +1133,27 @@ def test_other_malformed_reaction_lines(text, headline, column):
 
 NOTATION_ERRORS = [
     (
+        "A -> B  k = 1 1/s * 10 ** 3000 * 10 ** 3000\nstart A = 1 M",
+        [
+            "t.scheme:1:32: 1 1/s * 10 ** 3000 * 10 ** 3000 is too large (beyond 1e±4000); "
+            "check the values and their units"
+        ],
+    ),
+    (
+        "A -> B  k = foo_bar(2) * 1 1/s\nstart A = 1 M",
+        [
+            "t.scheme:1:13: unknown function 'foo_bar' in rate constant k; the functions are "
+            "ln, exp, log10, sqrt, arrhenius, eyring and q10"
+        ],
+    ),
+    (
+        "P -> D  half_life = 1e300 s\nstart P = 1e300 GBq",
+        [
+            "t.scheme:2:11: start P = 1e300 GBq gives an amount that is too large in mol; "
+            "check the value and its unit"
+        ],
+    ),
+    (
         "A -> B  k = 0.5 1/min +\nstart A = 1 M\n",
         [
             (

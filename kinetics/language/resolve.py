@@ -83,7 +83,7 @@ def resolve(parsed: ParsedFile, strict_balance: bool = True) -> Scheme:
         parsed.statements, parsed.reactions, found, definitions.used, definitions.quantities
     )
     start, feed = values.values["start"], values.values["feed"]
-    activities = {name: float(a) for name, (a, _, _) in values.activities.items()}
+    activities = {name: float(a > 0) for name, (a, _, _) in values.activities.items()}
     nothing_to_start({**start, **activities}, feed, parsed.lists, parsed.reactions, found)
     scheme = Scheme(
         species=tuple(matrix),
