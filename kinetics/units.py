@@ -236,6 +236,8 @@ def _quick_power(tokens: list[str], at: int) -> _Reading | None:
         if at + 1 >= len(tokens) or not _INTEGER.match(tokens[at + 1]):
             return None
         e = int(tokens[at + 1])
+        if e == 0:
+            return None  # pint refuses a power 0 (s**0): let it say so
         reading = (
             at + 2,
             reading[1] ** e,
