@@ -34,7 +34,10 @@ __all__ = [
     "accumulate",
     "add",
     "decimal_exp",
+    "decimal_ln",
+    "decimal_log10",
     "decimal_power",
+    "decimal_sqrt",
     "inverse_factorials",
     "pair",
     "product",
@@ -201,3 +204,35 @@ def decimal_power(w, nu) -> Fraction:
         return Fraction(0)
     ctx = Context(prec=DIGITS + 10, Emax=10**9, Emin=-(10**9))
     return decimal_exp(Fraction(ctx.multiply(ctx.ln(_decimal(w)), _decimal(nu))))
+
+
+def decimal_ln(x) -> Fraction:
+    r""":math:`\ln x` of an exact ``x > 0`` to :data:`DIGITS` significant digits, as a ``Fraction``.
+
+    Python's ``decimal`` module rounds ``ln`` correctly in its context precision.
+
+    >>> float(decimal_ln(2))
+    0.6931471805599453
+    """
+    ctx = Context(prec=DIGITS, Emax=10**9, Emin=-(10**9))
+    return Fraction(ctx.ln(_decimal(x)))
+
+
+def decimal_log10(x) -> Fraction:
+    r""":math:`\log_{10} x` of an exact ``x > 0`` to :data:`DIGITS` significant digits.
+
+    >>> float(decimal_log10(2))
+    0.3010299956639812
+    """
+    ctx = Context(prec=DIGITS, Emax=10**9, Emin=-(10**9))
+    return Fraction(ctx.log10(_decimal(x)))
+
+
+def decimal_sqrt(x) -> Fraction:
+    r""":math:`\sqrt{x}` of an exact ``x >= 0`` to :data:`DIGITS` significant digits.
+
+    >>> float(decimal_sqrt(2))
+    1.4142135623730951
+    """
+    ctx = Context(prec=DIGITS, Emax=10**9, Emin=-(10**9))
+    return Fraction(ctx.sqrt(_decimal(x)))

@@ -28,10 +28,12 @@ import numbers
 
 __all__ = [
     "MAX_SHOWN_ERRORS",
+    "ActivityError",
     "ArgumentTypeError",
     "ArgumentValueError",
     "ConcentrationError",
     "DataError",
+    "ExpressionError",
     "GrowthError",
     "KineticsError",
     "OutputFileError",
@@ -393,4 +395,41 @@ class GrowthError(_ProblemAndHint, OverflowError):
 
     Only a scheme that makes more of a species than it consumes (``A -> 2 A``)
     or a feed over very long times can do this.
+    """
+
+
+class ExpressionError(_ProblemAndHint, ValueError):
+    """An expression of named quantities that cannot be evaluated: a dimension that does not
+    fit (``50 h + 2 mol``), a function outside its domain (``ln`` of a negative number), a
+    result beyond the range of a double, or a named quantity set to a value its dependants
+    cannot take.
+
+    Raised by :mod:`kinetics.expressions`; ``column`` and ``snippet`` say where in the
+    defining line the problem is (1-based; 0 when unknown), and the scheme reader turns
+    the error into a located :class:`SchemeError`.
+
+    Examples
+    --------
+    >>> error = ExpressionError("ln of a negative number (-2)", "check the sign", 6, "ln(x)")
+    >>> str(error), error.column
+    ('ln of a negative number (-2); check the sign', 6)
+    """
+
+    def __init__(self, problem: str, hint: str = "", column: int = 0, snippet: str = "") -> None:
+        super().__init__(problem, hint)
+        self.column = column
+        self.snippet = snippet
+
+    def __reduce__(self):
+        return (type(self), (self.problem, self.hint, self.column, self.snippet))
+
+
+class ActivityError(_ProblemAndHint, ValueError):
+    """Activities that cannot be formed or converted: an activity unit that does not fit the
+    scheme's amounts, or an activity given for a species that does not decay.
+
+    Examples
+    --------
+    >>> str(ActivityError("'mol' is not a unit of activity", "write e.g. MBq"))
+    "'mol' is not a unit of activity; write e.g. MBq"
     """

@@ -255,20 +255,8 @@ def _exact_rates(scheme: Scheme, constants, temperature, excess) -> list:
     constants = constants or {}
     excess = excess or {}
     _check_overrides(scheme, constants, temperature, excess)
-    temperature = scheme.temperature if temperature is None else temperature
-    exact: dict[str, Fraction] = {}
-    for name, definition in scheme.constants.items():
-        if name in constants:
-            exact[name] = Fraction(constants[name])
-        elif definition.arrhenius is not None:
-            if temperature is None:
-                raise UsageError(
-                    f"rate constant {name} follows the Arrhenius law and needs a temperature",
-                    "give the temperature in kelvin",
-                )
-            exact[name] = definition.arrhenius.exact(temperature)
-        else:
-            exact[name] = definition.value_si
+    # the one evaluation of the constants: plain, temperature laws, derived (exact)
+    exact = scheme.exact_constants(temperature, constants)
     cache: dict[tuple, Fraction | float] = {}
     values: list = []
     for step in scheme.steps:

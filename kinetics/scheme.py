@@ -23,7 +23,16 @@ from functools import cached_property, lru_cache
 
 import numpy as np
 
+from . import activity
+from .definitions import (
+    Dependencies,
+    NamedQuantity,
+    constant_values,
+    follow,
+    needs_temperature,
+)
 from .errors import UsageError, shown_value
+from .requirements import Requirement
 from .units import GAS_CONSTANT_EXACT
 
 __all__ = [
@@ -232,15 +241,22 @@ class RateConstant:
     text : str
         The definition as written (``0.12 1/min`` or ``arrhenius(...)``).
     value_si : Fraction or None
-        Exact value in SI base units (``None`` for Arrhenius constants, whose
-        value depends on the temperature).
+        Exact value in SI base units (``None`` for constants whose value depends on
+        the temperature: Arrhenius constants and constants derived from a temperature
+        law).  A constant derived from an expression holds the exact value of the
+        expression (transcendental functions to 40 digits).
     unit : str
-        Unit as written (for Arrhenius: the unit of A).
+        Unit as written (for Arrhenius: the unit of A; for an expression: the SI unit
+        of its dimension, :func:`kinetics.units.si_unit`).
     order : int
         Concentration order implied by the units: 0 for 1/time, 1 for
         1/(concentration time), ...
     arrhenius : Arrhenius or None
     line : int
+    derived : Dependencies or None
+        For a constant defined by an expression (``k2 = k1 / 3``): the scheme's graph of
+        definitions it follows from (:mod:`kinetics.definitions`); None for a constant
+        written as a value or as an Arrhenius law of plain values.
     """
 
     name: str
@@ -250,6 +266,24 @@ class RateConstant:
     order: int
     arrhenius: Arrhenius | None = None
     line: int = 0
+    derived: Dependencies | None = None
+
+    def exact(self, temperature: float | None) -> Fraction:
+        """The exact constant in SI base units (at ``temperature`` [K] when it depends on one).
+
+        Raises
+        ------
+        UsageError
+            When it depends on the temperature and ``temperature`` is None.
+        """
+        if self.value_si is not None:
+            return self.value_si
+        if temperature is None:
+            raise needs_temperature(self.name, self.arrhenius is not None)
+        if self.arrhenius is not None:
+            return self.arrhenius.exact(temperature)
+        assert self.derived is not None  # a constant has a value, a law or an expression
+        return self.derived.value(self.name, temperature)
 
     def si_value(self, temperature: float | None) -> float:
         """The constant in SI base units (at ``temperature`` [K] for Arrhenius ones)."""
@@ -259,7 +293,11 @@ class RateConstant:
                     f"rate constant {self.name} follows the Arrhenius law and needs a temperature"
                 )
             return self.arrhenius.at(temperature)
-        return float(self.value_si)
+        if self.value_si is not None:
+            return float(self.value_si)
+        from . import _doubledouble as dd
+
+        return dd.pair(self.exact(temperature))[0]
 
 
 @dataclass(frozen=True, slots=True)
@@ -301,9 +339,10 @@ class Step:
 
     @property
     def equation(self) -> str:
-        """The step written out, e.g. ``A + W -> B``."""
+        """The step written out, e.g. ``A + W -> B`` (``P -> (untracked)`` for the share of
+        a decay that goes to no species of the scheme)."""
         left = " + ".join([self.reactant] + [_term(c, n) for c, n in self.co_reactants])
-        right = " + ".join(_term(c, n) for c, n in self.products)
+        right = " + ".join(_term(c, n) for c, n in self.products) or "(untracked)"
         return f"{left} -> {right}"
 
 
@@ -395,6 +434,16 @@ class Scheme:
         Sentences about probable mistakes that do not stop the file from loading
         (parallel steps, constants no step uses, nothing to start from), each led by
         ``file:line:``; the command line prints them on stderr.
+    quantities : dict of str to NamedQuantity
+        Named quantities that are not rate constants (``t_p = 50 h``), exact SI values.
+    dependencies : Dependencies
+        Which named quantity drives which constant (:meth:`driven_by`,
+        :meth:`exact_constants`, :meth:`with_values`).
+    requirements : tuple of Requirement
+        The ``require`` lines, thresholds in ``concentration_unit``.
+    start_activities : dict of str to Fraction
+        Start values written as activities [Bq, or Bq per volume or mass], exact;
+        ``initial`` holds their amounts, which follow the decay constants.
     """
 
     species: tuple[Species, ...]
@@ -413,6 +462,10 @@ class Scheme:
     text: str = ""
     allow_imbalance: bool = False
     warnings: tuple[str, ...] = ()
+    quantities: dict[str, NamedQuantity] = field(default_factory=dict)
+    dependencies: Dependencies = field(default_factory=Dependencies)
+    requirements: tuple[Requirement, ...] = ()
+    start_activities: dict[str, Fraction] = field(default_factory=dict)
     _excess_si: dict[str, Fraction] = field(default_factory=dict, repr=False)
     _unit_factor: Fraction = field(default=Fraction(1), repr=False)
 
@@ -558,6 +611,56 @@ class Scheme:
         """A first-order constant in 1/s, or a higher-order one in SI base units."""
         return self.constants[name].si_value(self.temperature)
 
+    def exact_constants(
+        self,
+        temperature: float | None = None,
+        quantities: dict[str, float | Fraction] | None = None,
+    ) -> dict[str, Fraction]:
+        """The exact value of every rate constant, following the named quantities.
+
+        Plain values as written, temperature laws at ``temperature`` (40 digits), derived
+        constants from new values of what they follow (:mod:`kinetics.definitions`).
+
+        Parameters
+        ----------
+        temperature : float, optional
+            [K]; default the scheme's.
+        quantities : dict of str to float or Fraction, optional
+            New values of named quantities or constants [SI base units: s, K, J/mol,
+            1/s], Fractions taken exactly.
+
+        Returns
+        -------
+        dict of str to Fraction
+            Every constant of :attr:`constants` [SI base units].
+
+        Raises
+        ------
+        UsageError
+            For an unknown name, a value that is not finite, or a constant that needs a
+            temperature when there is none.
+        ExpressionError
+            When a definition cannot be evaluated with the new values, or a constant
+            becomes negative.
+
+        Examples
+        --------
+        >>> from kinetics import parse
+        >>> scheme = parse("t_p = 50 h\\nP -> D  lam = ln(2) / t_p\\nstart P = 1 mol")
+        >>> lam = scheme.exact_constants(quantities={"t_p": Fraction(36000)})["lam"]
+        >>> round(float(lam) * 36000, 12), scheme.driven_by("t_p")  # ln 2 for t_p = 10 h
+        (0.69314718056, ('lam',))
+        """
+        values = {n: _named_value(self, n, v) for n, v in (quantities or {}).items()}
+        t = self.temperature if temperature is None else temperature
+        return constant_values(self.constants, self.dependencies, t, values)
+
+    def driven_by(self, name: str) -> tuple[str, ...]:
+        """The rate constants whose values follow from the named quantity ``name`` (see
+        the example of :meth:`exact_constants`)."""
+        _named_value(self, name, 0)
+        return tuple(n for n in self.dependencies.driven_by(name) if n in self.constants)
+
     def with_values(
         self,
         *,
@@ -565,6 +668,7 @@ class Scheme:
         temperature: float | None = None,
         initial: dict[str, float] | None = None,
         excess: dict[str, float] | None = None,
+        quantities: dict[str, float | Fraction] | None = None,
     ) -> Scheme:
         """A copy with some values replaced.
 
@@ -579,63 +683,129 @@ class Scheme:
             New start concentrations [concentration_unit].
         excess : dict of str to float, optional
             New excess concentrations [concentration_unit].
+        quantities : dict of str to float or Fraction, optional
+            New values of named quantities [SI base units], Fractions taken exactly.
 
         Returns
         -------
         Scheme
+            Derived constants, start activities and percentage thresholds follow.
 
         Raises
         ------
         UsageError
             For unknown names and for values that are negative or not finite.
+        ExpressionError
+            When a definition cannot be evaluated with the new values.
         """
-        new_constants = dict(self.constants)
-        for name, value in (constants or {}).items():
-            if name not in new_constants:
-                raise UsageError(
-                    f"no rate constant named {name!r} in the scheme",
-                    "known constants: " + ", ".join(new_constants),
-                )
-            exact = _checked_fraction(value, f"rate constant {name}")
-            new_constants[name] = replace(
-                new_constants[name],
-                value_si=exact,
-                arrhenius=None,
-                text=f"{shown_value(value)} (SI)",
-            )
-        new_initial = dict(self.initial)
-        for name, value in (initial or {}).items():
-            if name not in self.index:
-                raise UsageError(
-                    f"no species named {name!r} in the rate matrix of the scheme",
-                    "species: " + ", ".join(self.species_names),
-                )
-            _checked_fraction(value, f"start value of {name}")
-            new_initial[name] = float(value)
-        new_excess = dict(self.excess)
-        new_excess_si = dict(self._excess_si)
-        for name, value in (excess or {}).items():
-            if name not in new_excess:
-                raise UsageError(
-                    f"no excess species named {name!r} in the scheme",
-                    "excess species: " + (", ".join(new_excess) or "none"),
-                )
-            new_excess_si[name] = (
-                _checked_fraction(value, f"excess concentration of {name}") * self._unit_factor
-            )
-            new_excess[name] = float(value)
-        if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
-            raise UsageError(
-                f"temperature {shown_value(temperature)} K must be finite and above 0 K"
-            )
-        return replace(
-            self,
-            constants=new_constants,
-            temperature=self.temperature if temperature is None else float(temperature),
-            initial=new_initial,
-            excess=new_excess,
-            _excess_si=new_excess_si,
+        return _with_values(
+            self, constants or {}, temperature, initial or {}, excess or {}, quantities or {}
         )
+
+
+def _with_values(
+    scheme: Scheme,
+    constants: dict[str, float],
+    temperature: float | None,
+    initial: dict[str, float],
+    excess: dict[str, float],
+    quantities: dict[str, float | Fraction],
+) -> Scheme:
+    """The body of :meth:`Scheme.with_values` (arguments as there, None as empty)."""
+    fixed: dict[str, Fraction] = {}
+    texts: dict[str, str] = {}
+    for name, value in constants.items():
+        if name not in scheme.constants:
+            raise UsageError(
+                f"no rate constant named {name!r} in the scheme",
+                "known constants: " + ", ".join(scheme.constants),
+            )
+        fixed[name] = _checked_fraction(value, f"rate constant {name}")
+        texts[name] = f"{shown_value(value)} (SI)"
+    for name, given in quantities.items():
+        fixed[name] = _named_value(scheme, name, given)
+        texts[name] = f"{shown_value(float(given))} (SI)"
+    new_constants, new_quantities, graph = scheme.constants, scheme.quantities, scheme.dependencies
+    if fixed:
+        new_constants, new_quantities, graph = follow(
+            scheme.constants, scheme.quantities, scheme.dependencies, fixed, texts
+        )
+    new_initial = dict(scheme.initial)
+    for name, value in initial.items():
+        if name not in scheme.index:
+            raise UsageError(
+                f"no species named {name!r} in the rate matrix of the scheme",
+                "species: " + ", ".join(scheme.species_names),
+            )
+        _checked_fraction(value, f"start value of {name}")
+        new_initial[name] = float(value)
+    new_excess = dict(scheme.excess)
+    new_excess_si = dict(scheme._excess_si)
+    for name, value in excess.items():
+        if name not in new_excess:
+            raise UsageError(
+                f"no excess species named {name!r} in the scheme",
+                "excess species: " + (", ".join(new_excess) or "none"),
+            )
+        new_excess_si[name] = (
+            _checked_fraction(value, f"excess concentration of {name}") * scheme._unit_factor
+        )
+        new_excess[name] = float(value)
+    if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
+        raise UsageError(f"temperature {shown_value(temperature)} K must be finite and above 0 K")
+    new = replace(
+        scheme,
+        constants=new_constants,
+        quantities=new_quantities,
+        dependencies=graph,
+        temperature=scheme.temperature if temperature is None else float(temperature),
+        initial=new_initial,
+        excess=new_excess,
+        start_activities={k: v for k, v in scheme.start_activities.items() if k not in initial},
+        _excess_si=new_excess_si,
+    )
+    return _follow_starts(new, changed=bool(initial))
+
+
+def _named_value(scheme: Scheme, name: str, value) -> Fraction:
+    """A new value of a named quantity or constant, checked [SI base units], exact."""
+    if name not in scheme.quantities and name not in scheme.constants:
+        known = [*scheme.quantities, *scheme.dependencies.by_name]
+        raise UsageError(
+            f"no named quantity {name!r} in the scheme",
+            "named quantities: " + (", ".join(dict.fromkeys(known)) or "none"),
+        )
+    if isinstance(value, (Fraction, int)) and not isinstance(value, bool):
+        exact = Fraction(value)  # taken exactly
+    elif name in scheme.constants:
+        return _checked_fraction(value, f"rate constant {name}")
+    else:
+        try:
+            number = float(value)
+        except (TypeError, ValueError):
+            raise UsageError(f"{name} must be a number, not {shown_value(value)}") from None
+        if not math.isfinite(number):
+            raise UsageError(f"{name} = {shown_value(value)} must be finite")
+        exact = Fraction(number)
+    if name in scheme.constants and exact < 0:
+        raise UsageError(f"rate constant {name} = {shown_value(value)} must be finite and >= 0")
+    return exact
+
+
+def _follow_starts(scheme: Scheme, changed: bool) -> Scheme:
+    """Start values written as activities from the scheme's decay constants; thresholds
+    written as percentages of start values from the start values."""
+    initial = scheme.initial
+    if scheme.start_activities:
+        initial = {**initial, **activity.start_amounts(scheme, scheme.start_activities)}
+        changed = changed or initial != scheme.initial
+    if not changed:
+        return scheme
+    return replace(
+        scheme,
+        initial=initial,
+        requirements=tuple(r.for_start(initial) for r in scheme.requirements),
+    )
 
 
 def _checked_fraction(value: float, what: str) -> Fraction:

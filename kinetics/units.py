@@ -26,11 +26,15 @@ from fractions import Fraction
 from .errors import UnitError, UnknownUnitError
 
 __all__ = [
+    "AVOGADRO_EXACT",
+    "BOLTZMANN_EXACT",
     "COMMON_UNITS",
     "GAS_CONSTANT",
+    "GAS_CONSTANT_EXACT",
     "MAX_EXPONENT",
     "MAX_UNIT_LENGTH",
     "OFFSET_TEMPERATURES",
+    "PLANCK_EXACT",
     "TIME_UNITS",
     "UnitSpec",
     "concentration_order",
@@ -43,6 +47,7 @@ __all__ = [
     "parse_unit",
     "parse_unit_by_pint",
     "pint_text",
+    "si_unit",
     "temperature_to_kelvin",
     "time_factor",
 ]
@@ -51,6 +56,13 @@ __all__ = [
 #: = 8.31446261815324 in the 2019 SI (CODATA 2018; both factors are defined exactly).
 GAS_CONSTANT_EXACT = Fraction("8.31446261815324")
 GAS_CONSTANT = float(GAS_CONSTANT_EXACT)
+#: Boltzmann constant k_B [J/K], exact in the 2019 SI (BIPM, SI brochure, 9th edition,
+#: 2019, table 1; CODATA 2018).
+BOLTZMANN_EXACT = Fraction("1.380649e-23")
+#: Planck constant h [J s], exact in the 2019 SI (same source).
+PLANCK_EXACT = Fraction("6.62607015e-34")
+#: Avogadro constant N_A [1/mol], exact in the 2019 SI (same source).
+AVOGADRO_EXACT = Fraction("6.02214076e23")
 
 _SUPERSCRIPTS = str.maketrans("⁰¹²³⁴⁵⁶⁷⁸⁹⁻⁺", "0123456789-+")
 _PIECE = re.compile(r"\(|\)|/|\*|[^\s*/·⋅()]+")
@@ -95,6 +107,7 @@ _ENERGY = {_MASS: 1, _LENGTH: 2, _TIME: -2}
 _PREFIXES = {"": 1, "k": 1000, "d": Fraction(1, 10), "c": Fraction(1, 100)}
 _PREFIXES |= {"m": Fraction(1, 10**3), "u": Fraction(1, 10**6), "n": Fraction(1, 10**9)}
 _PREFIXES |= {"p": Fraction(1, 10**12)}
+_PREFIXES |= {"M": 10**6, "G": 10**9, "T": 10**12}
 
 
 def _common_units() -> dict[str, tuple[str, Fraction, dict[str, int]]]:
@@ -115,9 +128,13 @@ def _common_units() -> dict[str, tuple[str, Fraction, dict[str, int]]]:
         ("g", "gram", Fraction(1, 1000), {_MASS: 1}, "kmu"),
         ("J", "joule", 1, _ENERGY, "k"),
         ("cal", "calorie", Fraction(4184, 1000), _ENERGY, "k"),
+        # activities: 1 Bq = 1/s (one decay per second), 1 Ci = 3.7e10 Bq exactly
+        # (BIPM, SI brochure, 9th edition, 2019, table 4; NIST SP 811, 2008, B.8)
+        ("Bq", "becquerel", 1, {_TIME: -1}, "kMGT"),
+        ("Ci", "curie", 37 * 10**9, {_TIME: -1}, "mun"),
     ]
     prefix_names = {"k": "kilo", "d": "deci", "c": "centi", "m": "milli", "u": "micro"}
-    prefix_names |= {"n": "nano", "p": "pico", "": ""}
+    prefix_names |= {"n": "nano", "p": "pico", "M": "mega", "G": "giga", "T": "tera", "": ""}
     table = {}
     for symbol, name, factor, dims, prefixes in bases:
         for prefix in ["", *prefixes]:
@@ -219,6 +236,8 @@ def _quick_power(tokens: list[str], at: int) -> _Reading | None:
         if at + 1 >= len(tokens) or not _INTEGER.match(tokens[at + 1]):
             return None
         e = int(tokens[at + 1])
+        if e == 0:
+            return None  # pint refuses a power 0 (s**0): let it say so
         reading = (
             at + 2,
             reading[1] ** e,
@@ -588,6 +607,63 @@ def describe_dimension(dims: dict) -> str:
         return f"a rate constant of order {order + 1} (concentration^-{order}/time)"
     text = " ".join(f"{k.strip('[]')}^{v}" for k, v in key)
     return f"the dimension {text}"
+
+
+#: SI base unit of each dimension pint names (for :func:`si_unit`).
+_BASE_SYMBOLS = {
+    _MASS: "kg",
+    _LENGTH: "m",
+    _SUBSTANCE: "mol",
+    _TIME: "s",
+    _TEMPERATURE: "K",
+    "[current]": "A",
+    "[luminosity]": "cd",
+}
+
+
+def si_unit(dims: dict) -> str:
+    """The SI base unit of a dimension, written so that :func:`parse_unit` reads it back.
+
+    Parameters
+    ----------
+    dims : dict
+        Dimension exponents (integers) as produced by :func:`parse_unit`.
+
+    Returns
+    -------
+    str
+        ``"1"`` for a pure number, else base units with their powers, the negative
+        powers after one ``/``.
+
+    Raises
+    ------
+    UnitError
+        For a dimension without an SI base unit or a non-integer exponent.
+
+    Examples
+    --------
+    >>> si_unit({"[time]": -1}), si_unit({"[length]": 3, "[substance]": -1, "[time]": -1})
+    ('1/s', 'm3/(mol s)')
+    >>> parse_unit(si_unit({"[mass]": 1, "[length]": 2, "[time]": -2})).factor
+    Fraction(1, 1)
+    """
+    up: list[str] = []
+    down: list[str] = []
+    order = list(_BASE_SYMBOLS)
+    for dim in sorted(dims, key=lambda d: order.index(d) if d in order else len(order)):
+        power = Fraction(dims[dim])
+        if not power:
+            continue
+        if dim not in _BASE_SYMBOLS or power.denominator != 1:
+            raise UnitError(f"no SI base unit for {dim} to the power {power}")
+        symbol = _BASE_SYMBOLS[dim]
+        size = abs(int(power))
+        (up if power > 0 else down).append(symbol if size == 1 else f"{symbol}{size}")
+    numerator = " ".join(up) or "1"
+    if not down:
+        return numerator
+    denominator = down[0] if len(down) == 1 else "(" + " ".join(down) + ")"
+    return f"{numerator}/{denominator}"
 
 
 def concentration_order(dims: dict) -> int | None:

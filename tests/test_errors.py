@@ -160,3 +160,19 @@ def test_unit_errors_are_value_errors_and_pickle():
         copy = pickle.loads(pickle.dumps(error))
         assert type(copy) is type(error)
         assert str(copy) == str(error)
+
+
+def test_expression_and_activity_errors_are_value_errors_and_pickle():
+    from kinetics.errors import ActivityError, ExpressionError
+
+    for error in (
+        ExpressionError("ln of -2 is undefined", "check the sign", 7, "-2"),
+        ActivityError("'mol' is not an activity", "write e.g. MBq"),
+    ):
+        assert isinstance(error, KineticsError)
+        assert isinstance(error, ValueError)
+        copy = pickle.loads(pickle.dumps(error))
+        assert type(copy) is type(error)
+        assert vars(copy) == vars(error)
+        assert str(copy) == str(error)
+    assert str(ExpressionError("a", "b", 3, "x")) == "a; b"

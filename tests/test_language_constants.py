@@ -84,8 +84,12 @@ def test_different_values_for_one_name():
 
 
 def test_undefined_constant_unless_its_definition_failed():
-    _, found = constants_of("A -> B  k1\nk2 = fast\nB -> C  k2")
-    assert [e.problem for e in found.errors] == ["rate constant k1 is used but never defined"]
+    # issue 15 made "k2 = fast" an expression; a unit that cannot be read still fails
+    _, found = constants_of("A -> B  k1\nk2 = 1 sek-1\nB -> C  k2")
+    assert [e.problem for e in found.errors] == [
+        "unknown unit 'sek-1' for rate constant k2",
+        "rate constant k1 is used but never defined",
+    ]
 
 
 def test_arrhenius_needs_a_temperature_unless_the_temperature_failed():

@@ -131,3 +131,36 @@ def test_statements_are_immutable():
 def test_errors_are_scheme_errors():
     result = TemperatureStatement.from_line(line("temperature = hot"))
     assert all(isinstance(e, SchemeError) for e in result)
+
+
+# -- issue 15: expressions on the right-hand side, requirements ------------------------
+
+
+def test_read_constant_keeps_plain_values_and_reads_expressions():
+    from fractions import Fraction
+
+    from kinetics.language.statements import RequireStatement
+
+    code = "k = 2 * k1"
+    spec = read_constant(line(code), "k", 0, code[4:], 4)
+    assert (spec.value, spec.expression.op, spec.text) == (None, "*", "2 * k1")
+    code = "k = 0.5 1/min"
+    assert read_constant(line(code), "k", 0, code[4:], 4).value.text == "0.5 1/min"
+    code = "k = arrhenius(A = 1 1/s, Ea = Ea_f)"
+    assert read_constant(line(code), "k", 0, code[4:], 4).expression.law.name == "arrhenius"
+    # on a line of its own a value may be negative or have no unit (a named quantity)
+    assert ConstantStatement.from_line(line("dS = -20 J/mol/K")).spec.value.number == "-20"
+    assert ConstantStatement.from_line(line("f = 0.876")).spec.value.unit == ""
+    [error] = ConstantStatement.from_line(line("exp = 2"))
+    assert error.problem == "'exp' is a keyword of the scheme language and cannot name a constant"
+    s = RequireStatement.from_line(line("require API ≥ 90 %"))
+    assert (s.species, s.comparison, s.share, s.of, s.value) == (
+        "API",
+        ">=",
+        Fraction(9, 10),
+        "API",
+        None,
+    )
+    s = RequireStatement.from_line(line("require IMP <= 2 mmol/L"))
+    assert (s.value.text, s.share, s.value_column) == ("2 mmol/L", None, 16)
+    assert RequireStatement.from_line(line("requirement = 2 h")) is None

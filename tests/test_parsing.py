@@ -62,7 +62,7 @@ def test_unknown_directive():
         e,
         "t.scheme:2:1: could not read this line (unknown statement 'initial'); a line is a "
         "reaction (A -> B  k1 = 0.1 1/s), a constant (k1 = 0.1 1/s) or one of title:, start, "
-        "excess, feed, formula, molar_mass, temperature =, balance:",
+        "excess, feed, formula, molar_mass, temperature =, balance:, require",  # issue 15
         2,
         1,
         "initial",
@@ -1124,3 +1124,818 @@ def test_other_malformed_reaction_lines(text, headline, column):
     e = only_error(text)
     assert e.headline() == headline
     assert e.column == column
+
+
+# ---------------------------------------------------------------------------
+# Issue 15: named quantities and expressions, decay steps written with half-lives,
+# start values as activities and requirements: every message, with its place
+
+
+NOTATION_ERRORS = [
+    (
+        "A -> B  k = 1 1/s * 10 ** 3000 * 10 ** 3000\nstart A = 1 M",
+        [
+            "t.scheme:1:32: 1 1/s * 10 ** 3000 * 10 ** 3000 is too large (beyond 1e±4000); "
+            "check the values and their units"
+        ],
+    ),
+    (
+        "A -> B  k = foo_bar(2) * 1 1/s\nstart A = 1 M",
+        [
+            "t.scheme:1:13: unknown function 'foo_bar' in rate constant k; the functions are "
+            "ln, exp, log10, sqrt, arrhenius, eyring and q10"
+        ],
+    ),
+    (
+        "P -> D  half_life = 1e300 s\nstart P = 1e300 GBq",
+        [
+            "t.scheme:2:11: start P = 1e300 GBq gives an amount that is too large in mol; "
+            "check the value and its unit"
+        ],
+    ),
+    (
+        "A -> B  k = 0.5 1/min +\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:23: expected a value after '+' in rate constant k; write "
+                "numbers with units, names, + - * / ** and parentheses, e.g. 0.88 * "
+                "ln(2) / t_p"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k = (2 * k1\nk1 = 1 1/s\nstart A = 1 M\n",
+        [
+            ("t.scheme:1:13: a parenthesis is not closed in rate constant k; close it with ')'"),
+        ],
+    ),
+    (
+        "A -> B  k = 2 * k1)\nk1 = 1 1/s\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:19: a closing parenthesis without an opening one in rate "
+                "constant k; remove it, or open it earlier"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k = 2 k1 3\nk1 = 1 1/s\nstart A = 1 M\n",
+        [
+            ("t.scheme:1:15: unknown unit 'k1 3' for rate constant k; write a unit such as 1/s"),
+        ],
+    ),
+    (
+        "A -> B  k = log(2) / 1 s\nstart A = 1 M\n",
+        [
+            ("t.scheme:1:13: unknown function 'log' in rate constant k; did you mean log10?"),
+        ],
+    ),
+    (
+        "A -> B  k = ln / 1 s\nstart A = 1 M\n",
+        [
+            ("t.scheme:1:13: ln is a function and needs a value in parentheses; write e.g. ln(2)"),
+        ],
+    ),
+    (
+        "A -> B  k = ln(2, 3) / 1 s\nstart A = 1 M\n",
+        [
+            "t.scheme:1:13: ln takes one value; found 2; write e.g. ln(2)",
+        ],
+    ),
+    (
+        "A -> B  k = 2 * $ 1/s\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:17: could not read '$' in rate constant k; write numbers "
+                "with units, names, + - * / ** and parentheses, e.g. 0.88 * ln(2) / t_p"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k = 1 / 5 sek\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:19: unknown unit 'sek' for rate constant k; write a unit "
+                "such as 1/s, or * to multiply by a named quantity (2 * k1)"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k = 1e999 * 1 1/s\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:13: rate constant k is 1e999, which is too large for a "
+                "floating-point number; write a finite value, e.g. 0.12 1/min"
+            ),
+        ],
+    ),
+    (
+        (
+            "A -> B  k = (((((((((((((((((((((((((((((((((((((((((((((1 "
+            "1/s)))))))))))))))))))))))))))))))))))))))))))))\nstart A = 1 M\n"
+        ),
+        [
+            (
+                "t.scheme:1:53: the expression of rate constant k is nested more than "
+                "40 levels deep; split it into named quantities on lines of their own"
+            ),
+        ],
+    ),
+    (
+        "t_p =\nA -> B  k = 1 / t_p\nstart A = 1 M\n",
+        [
+            "t.scheme:1:6: t_p has no value; write e.g. t_p = 50 h",
+        ],
+    ),
+    (
+        (
+            "A -> B  k = arrhenius(A = 1 1/s, Ea = Ea_f, T = 3 K)\nEa_f = 1 "
+            "kJ/mol\ntemperature = 300 K\nstart A = 1 M\n"
+        ),
+        [
+            (
+                "t.scheme:1:45: could not read 'T = 3 K' in the Arrhenius parameters "
+                "of k; write arrhenius(A = 1.0e13 1/s, Ea = 95 kJ/mol)"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k = eyring(dH = 80 kJ/mol)\ntemperature = 300 K\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:13: the Eyring parameters of k lack dS; write eyring(dH = "
+                "80 kJ/mol, dS = -20 J/mol/K)"
+            ),
+        ],
+    ),
+    (
+        (
+            "A -> B  k = eyring(dH = 80 kJ/mol, dS = 1 J/mol, dH = 1 "
+            "J/mol)\ntemperature = 300 K\nstart A = 1 M\n"
+        ),
+        [
+            (
+                "t.scheme:1:50: the Eyring parameters of k give dH twice; give dH and "
+                "dS once each: eyring(dH = 80 kJ/mol, dS = -20 J/mol/K)"
+            ),
+        ],
+    ),
+    (
+        ("A -> B  k = q10(1 1/d, 25 degC, 2, 4)\ntemperature = 300 K\nstart A = 1 M\n"),
+        [
+            (
+                "t.scheme:1:36: could not read '4' in the Q10 parameters of k; write "
+                "q10(0.05 1/d, 25 degC, 2.5)"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k = q10(1 1/d, 25 degC, 2)\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:9: k follows a Q10 law but the file sets no temperature; "
+                "add a line such as temperature = 60 degC"
+            ),
+        ],
+    ),
+    (
+        ("A -> B  k = eyring(dH = 80 kJ/mol, dS = 1 J/mol)\ntemperature = 300 K\nstart A = 1 M\n"),
+        [
+            (
+                "t.scheme:1:41: the activation entropy of k is 1 J/mol, which is a "
+                "molar energy, not a molar entropy (energy per amount and kelvin); "
+                "write dS in J/mol/K, e.g. dS = -20 J/mol/K"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k = q10(1 mol, 25 degC, 2)\ntemperature = 300 K\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:17: the reference rate constant of k is 1 mol, which is an "
+                "amount of substance, not a rate constant; give k_ref in the units of "
+                "a rate constant, e.g. 0.05 1/d"
+            ),
+        ],
+    ),
+    (
+        ("A -> B  k = q10(1 1/d, 25 degC + 1 K, 2)\ntemperature = 300 K\nstart A = 1 M\n"),
+        [
+            (
+                "t.scheme:1:24: 25 degC is a temperature on a scale with an offset, "
+                "which cannot take part in arithmetic; write it alone (T_ref = 25 "
+                "degC) or in kelvin (298.15 K)"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k = 1 / t_q\nt_p = 5 h\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:17: t_q is used in the definition of k but is never "
+                "defined; did you mean t_p?"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k = 1 / B\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:17: B is used in the definition of k but is a species, not "
+                "a named quantity; expressions use named quantities; a species enters "
+                "through its start value"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k = temperature / 1 K / 1 s\ntemperature = 300 K\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:13: temperature is used in the definition of k but is "
+                "never defined; the temperature enters an expression through "
+                "arrhenius(), eyring() or q10()"
+            ),
+        ],
+    ),
+    (
+        "a = b * 2\nb = a / 2\nA -> B  k = 1 1/s\nstart A = 1 M\n",
+        [
+            ("t.scheme:2:5: a depends on itself: a -> b -> a; define one of them by a value"),
+        ],
+    ),
+    (
+        "a = a + 1\nA -> B  k = 1 1/s\nstart A = 1 M\n",
+        [
+            ("t.scheme:1:5: a depends on itself: a -> a; define one of them by a value"),
+        ],
+    ),
+    (
+        "A -> B  k = 2 k1\nk1 = 1 1/s\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:13: k1 is read as a unit in '2 k1', but it is also a named "
+                "quantity of this file; write 2 * k1 to multiply by it"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k = 2 * t1 h\nt1 = 1\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:20: unexpected 'h' after '2 * t1' in rate constant k; join "
+                "values with an operator (+ - * / **), e.g. 2 * k1"
+            ),
+        ],
+    ),
+    (
+        "ln = 5 h\nA -> B  k = 1 1/s\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:1: 'ln' is a keyword of the scheme language and cannot "
+                "name a constant; choose another name, e.g. k1"
+            ),
+        ],
+    ),
+    (
+        "A -> B  half_life = 5 h\nfraction = 2\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:2:1: 'fraction' is a keyword of the scheme language and "
+                "cannot name a constant; choose another name, e.g. k1"
+            ),
+        ],
+    ),
+    (
+        "t = 5 h\nt = 6 h\nA -> B  k = 1 / t\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:2:1: t is defined twice with different values (5 h on line "
+                "1, 6 h here); give each constant one value, or refer to it by name "
+                "alone: t"
+            ),
+        ],
+    ),
+    (
+        "t = 5 h\nt = 2 * 3 h\nA -> B  k = 1 / t\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:2:1: t is defined twice with different values (5 h on line "
+                "1, 2 * 3 h here); give each constant one value, or refer to it by "
+                "name alone: t"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k = 5 h * 2\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:17: rate constant k = 5 h * 2 is a time, not a rate "
+                "constant; a first-order constant has the unit 1/time (e.g. 1/s, "
+                "min-1); a pseudo-first-order one concentration^-1/time (e.g. M-1 s-1)"
+            ),
+        ],
+    ),
+    (
+        "t = 5 h\nA -> B  k = 1 / t - 1 1/min\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:2:19: rate constant k = 1 / t - 1 1/min is negative "
+                "(-0.0166111 in SI units); a rate constant cannot be negative; check "
+                "the signs in the expression"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k = 1e300 1/s * 1e300\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:23: rate constant k = 1e300 1/s * 1e300 is too large; "
+                "check the values and their units"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k = 1e-300 1/s * 1e-300\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:24: rate constant k = 1e-300 1/s * 1e-300 is too small (0 "
+                "in SI units); check the values and their units"
+            ),
+        ],
+    ),
+    (
+        "A + W -> B  k = 2 1/s\nexcess W = 1 M\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:13: the units of k (1/s) imply a first-order step, but A "
+                "reacts here with W held in excess (a pseudo-first-order step needs "
+                "concentration^-1/time); give k in M-1 s-1: multiplied by the excess "
+                "concentration it gives 1/s"
+            ),
+        ],
+    ),
+    (
+        "A <=> B  half_life = 5 h\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:10: a decay step written with half_life is irreversible; "
+                "write -> (or →), e.g. P -> D  half_life = 65.9 h, fraction = 87.6 %"
+            ),
+        ],
+    ),
+    (
+        "A + W -> B  half_life = 5 h\nexcess W = 1 M\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:5: a decay step written with half_life has one species on "
+                "its left; this one has 2; write the decaying species alone, e.g. P -> "
+                "D  half_life = 65.9 h, fraction = 87.6 %"
+            ),
+        ],
+    ),
+    (
+        "A -> B  fraction = 50 %\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:9: this decay step gives a fraction but no half-life; give "
+                "the half-life of the decaying species, e.g. P -> D  half_life = 65.9 "
+                "h, fraction = 87.6 %"
+            ),
+        ],
+    ),
+    (
+        "A -> B  half_life = 5 h, half_life = 6 h\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:26: half_life is given twice; write e.g. P -> D  half_life "
+                "= 65.9 h, fraction = 87.6 %"
+            ),
+        ],
+    ),
+    (
+        "A -> B  half_life = 5 h, k1\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:26: a decay step is given by half_life and fraction only; "
+                "found 'k1'; write e.g. P -> D  half_life = 65.9 h, fraction = 87.6 %"
+            ),
+        ],
+    ),
+    (
+        "A -> B  half_life = 5 mol\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:21: the half-life of A -> B is 5 mol, which is an amount "
+                "of substance, not a time; write a time above 0, e.g. P -> D  "
+                "half_life = 65.9 h, fraction = 87.6 %"
+            ),
+        ],
+    ),
+    (
+        "A -> B  half_life = 0 h\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:21: the half-life of A -> B is 0 h, which is not above 0; "
+                "write a time above 0, e.g. P -> D  half_life = 65.9 h, fraction = "
+                "87.6 %"
+            ),
+        ],
+    ),
+    (
+        "A -> B  half_life = 5 h, fraction = 150 %\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:37: the fraction of A -> B is 150 %, outside 0 to 100 %; "
+                "write a percentage or a number from 0 to 1, e.g. P -> D  half_life = "
+                "65.9 h, fraction = 87.6 %"
+            ),
+        ],
+    ),
+    (
+        "A -> B  half_life = 5 h, fraction = 2 h\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:37: the fraction of A -> B is 2 h, which is a time, not a "
+                "pure number; write a percentage or a number from 0 to 1, e.g. P -> D  "
+                "half_life = 65.9 h, fraction = 87.6 %"
+            ),
+        ],
+    ),
+    (
+        (
+            "A -> B  half_life = 5 h, fraction = 60 %\nA -> C  half_life = 5 h, "
+            "fraction = 60 %\nstart A = 1 M\n"
+        ),
+        [
+            (
+                "t.scheme:2:37: the branching fractions of A add up to 120 %, more "
+                "than 100 %; the branches of one decaying species share its decays; "
+                "check the fractions on lines 1, 2"
+            ),
+        ],
+    ),
+    (
+        (
+            "A -> B  half_life = 5 h, fraction = 60 %\nA -> C  half_life = 6 h, "
+            "fraction = 30 %\nstart A = 1 M\n"
+        ),
+        [
+            (
+                "t.scheme:2:21: the half-life of A is 6 h here but 5 h on line 1 "
+                "(21600 s and 18000 s); each branch gives the half-life of the "
+                "decaying species (of all its decays): write the same one on every "
+                "branch"
+            ),
+        ],
+    ),
+    (
+        "A -> B  half_life = 5 h\nA -> C  k1 = 1 1/s\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:1: A decays by half_life here and also reacts by the rate "
+                "constant k1 on line 2; give all of A's steps by half_life and "
+                "fraction, or all by rate constants"
+            ),
+        ],
+    ),
+    (
+        "A -> B  half_life = 5 h\nA -> C  half_life = 5 h\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:2:21: the branching fractions of A add up to 200 %, more "
+                "than 100 %; the branches of one decaying species share its decays; "
+                "check the fractions on lines 1, 2"
+            ),
+        ],
+    ),
+    (
+        "half_life = 5 h\nA -> B  k = 1 1/s\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:1: 'half_life' is a keyword of the scheme language and "
+                "cannot name a constant; choose another name, e.g. k1"
+            ),
+        ],
+    ),
+    (
+        "P -> D  half_life = 5 h\nstart P = 1 GBq, D = 1 mol/L\n",
+        [
+            (
+                "t.scheme:2:13: start P = 1 GBq is an activity, but this file gives "
+                "concentrations (start D = 1 mol/L on line 2); an activity sets a "
+                "number of atoms: give activities with amounts (GBq with mol), "
+                "activities per volume with concentrations (MBq/L with mol/L)"
+            ),
+        ],
+    ),
+    (
+        "P -> D  half_life = 5 h\nstart D = 1 GBq, P = 1 mol\n",
+        [
+            (
+                "t.scheme:2:7: start D = 1 GBq is an activity, but D does not decay in "
+                "this scheme (no step consumes it), so its activity is 0; give its "
+                "start value as an amount (e.g. start D = 1 mol), or leave it out"
+            ),
+        ],
+    ),
+    (
+        "P -> D  half_life = 5 h\nstart P = 1 MBq/L, D = 1 mol\n",
+        [
+            (
+                "t.scheme:2:13: start P = 1 MBq/L is an activity per volume, but this "
+                "file gives amounts (start D = 1 mol on line 2); an activity sets a "
+                "number of atoms: give activities with amounts (GBq with mol), "
+                "activities per volume with concentrations (MBq/L with mol/L)"
+            ),
+        ],
+    ),
+    (
+        "P -> D  half_life = 5 h\nstart P = 1 GBq\nexcess W = 1 GBq\n",
+        [
+            (
+                "t.scheme:3:8: W occurs in no reaction; a species must take part in a "
+                "reaction before it can be given an excess concentration"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire\n",
+        [
+            ("t.scheme:3:1: 'require' states nothing; write e.g. require IMP <= 0.15 % of API"),
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire 5 <= 3\n",
+        [
+            (
+                "t.scheme:3:9: expected a species name after 'require', found '5 <= "
+                "3'; write e.g. require IMP <= 0.15 % of API"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire B\n",
+        [
+            (
+                "t.scheme:3:10: a requirement needs a comparison; write <= (stays at "
+                "or below) or >= (stays at or above), e.g. require IMP <= 0.15 % of API"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire B < 1 M\n",
+        [
+            (
+                "t.scheme:3:11: unknown comparison '<' in a requirement; write <= "
+                "(stays at or below) or >= (stays at or above), e.g. require IMP <= "
+                "0.15 % of API"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire B == 1 M\n",
+        [
+            (
+                "t.scheme:3:11: unknown comparison '==' in a requirement; write <= "
+                "(stays at or below) or >= (stays at or above), e.g. require IMP <= "
+                "0.15 % of API"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire B <= fast\n",
+        [
+            (
+                "t.scheme:3:14: could not read a number for the limit of B in 'fast'; "
+                "write a number and a unit, e.g. 2 mmol/L"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire B <= -1 M\n",
+        [
+            (
+                "t.scheme:3:14: the limit of B is negative (-1); this value cannot be "
+                "negative; write e.g. 2 mmol/L"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire B <= 1\n",
+        [
+            (
+                "t.scheme:3:14: the limit of B is 1 with no unit; write it with a "
+                "unit, e.g. require B <= 1 M, or as a percentage of a start value "
+                "(require IMP <= 0.15 % of API)"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire B <= 1 mol\n",
+        [
+            (
+                "t.scheme:3:16: the limit of B is 1 mol, which is an amount, but this "
+                "file gives concentrations (start A = 1 M on line 2); write it in the "
+                "file's kind of unit, e.g. require B <= 1 M"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire B <= 1 sek\n",
+        [
+            ("t.scheme:3:16: unknown unit 'sek' for the limit of B; write a unit such as mmol/L"),
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire B <= 1 mg/L\n",
+        [
+            (
+                "t.scheme:3:16: the limit of B is a mass (1 mg/L), and B has no molar "
+                "mass to convert it; give its formula or molar mass, or write the "
+                "limit as an amount (M)"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire C <= 1 M\n",
+        [
+            "t.scheme:3:9: C occurs in no reaction; name a species of a reaction",
+        ],
+    ),
+    (
+        ("A + W -> B  k1 = 1 M-1 s-1\nexcess W = 1 M\nstart A = 1 M\nrequire W <= 1 M\n"),
+        [
+            (
+                "t.scheme:4:9: W is held in excess (constant); a species held in "
+                "excess keeps its concentration; require something of a species that "
+                "changes"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire B <= 5 % of C\n",
+        [
+            "t.scheme:3:14: C occurs in no reaction; name a species of a reaction",
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire B <= 5 % of B\n",
+        [
+            (
+                "t.scheme:3:14: B has no start value, so a percentage of it is 0; give "
+                "B a start value, or the limit as a concentration, e.g. require B <= 2 "
+                "M"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire B <= 1e999 %\n",
+        [
+            (
+                "t.scheme:3:14: the limit of B is 1e999, which is too large for a "
+                "floating-point number; write a finite value, e.g. 90 %"
+            ),
+        ],
+    ),
+    (
+        "require -> B  k1 = 1 1/s\nstart A = 1 M\n",
+        [
+            (
+                "t.scheme:1:1: 'require' is a keyword of the scheme language and "
+                "cannot name a species; choose another name"
+            ),
+            (
+                "t.scheme:2:7: A occurs in no reaction; a species must take part in a "
+                "reaction before it can be given a start value"
+            ),
+        ],
+    ),
+    (
+        "A -> B  k1 = 1 1/s\nstart A = 1 M\nrequire B <= 5 M extra\n",
+        [
+            (
+                "t.scheme:3:16: unknown unit 'M extra' for the limit of B; write a "
+                "unit such as mmol/L"
+            ),
+        ],
+    ),
+]
+
+
+@pytest.mark.parametrize(("text", "headlines"), NOTATION_ERRORS)
+def test_notation_messages(text, headlines):
+    with pytest.raises(SchemeErrors) as info:
+        parse(text, SRC)
+    assert [e.headline() for e in info.value.errors] == headlines
+
+
+def test_expression_limits_are_located():
+    deep = "A -> B  k = " + "(" * 45 + "1 1/s" + ")" * 45 + "\nstart A = 1 M\n"
+    with pytest.raises(SchemeErrors) as info:
+        parse(deep, SRC)
+    assert [e.headline() for e in info.value.errors] == [
+        "t.scheme:1:53: the expression of rate constant k is nested more than 40 levels deep; "
+        "split it into named quantities on lines of their own"
+    ]
+    long = "A -> B  k = " + " + ".join(["1 1/s"] * 300) + "\nstart A = 1 M\n"
+    with pytest.raises(SchemeErrors) as info:
+        parse(long, SRC)
+    assert [e.headline() for e in info.value.errors] == [
+        "t.scheme:1:1037: the expression of rate constant k has more than 256 terms; split it "
+        "into named quantities on lines of their own"
+    ]
+
+
+def test_a_branch_constant_equals_the_hand_value():
+    # 0.88 ln 2 / 50 h: a branch of 88 % of a 50 h half-life (hand value with mpmath)
+    import mpmath as mp
+
+    mp.mp.dps = 50
+    scheme = parse("A -> B  lam = 0.88 * ln(2) / (50 h)\nstart A = 1 M", SRC)
+    lam = scheme.constants["lam"]
+    hand = mp.mpf("0.88") * mp.log(2) / 180000
+    assert abs(mp.mpf(lam.value_si.numerator) / lam.value_si.denominator - hand) < 1e-45
+    assert float(scheme.rates[0]) == float(hand)
+    assert (lam.unit, lam.order, lam.text) == ("1/s", 0, "0.88 * ln(2) / (50 h)")
+    # without the parentheses the unit still binds to its number
+    same = parse("A -> B  lam = 0.88 * ln(2) / 50 h\nstart A = 1 M", SRC)
+    assert same.constants["lam"].value_si == lam.value_si
+
+
+def test_mixed_units_convert_exactly():
+    # 1 h + 30 min = 5400 s; 2 mmol/L per 1 umol/L = 2000 (SI brochure, 9th ed., table 8)
+    text = (
+        "t = 1 h + 30 min\nratio = 2 mmol/L / (1 umol/L)\nA -> B  k = ratio / t\n"
+        "B -> C  k2 = 1.5e-4 M-1 s-1 * 55 mol/L\nstart A = 1 M"
+    )
+    scheme = parse(text, SRC)
+    assert scheme.quantities["t"].value_si == 5400
+    assert scheme.quantities["ratio"].value_si == 2000
+    assert scheme.constants["k"].value_si == Fraction(2000, 5400)
+    assert scheme.constants["k2"].value_si == Fraction(15, 10**5) * 55 / 1000 * 1000
+
+
+def test_named_quantities_of_every_dimension():
+    text = """\
+t_p = 50 h
+f = 87.6 %
+T_ref = 25 degC
+Ea_f = 95 kJ/mol
+dS = -20 J/mol/K
+P -> D  k = f * ln(2) / t_p
+D -> E  kf = arrhenius(A = 4.0e10 1/s, Ea = Ea_f)
+E -> F  ke = eyring(dH = Ea_f, dS = dS)
+F -> G  kq = q10(k_ref = 0.05 1/d, T_ref = T_ref, Q10 = 2.5)
+temperature = 40 degC
+start P = 1 M
+"""
+    scheme = parse(text, SRC)
+    q = scheme.quantities
+    assert [(n, q[n].value_si, q[n].unit) for n in q] == [
+        ("t_p", 180000, "h"),
+        ("f", Fraction(876, 1000), "%"),
+        ("T_ref", Fraction(29815, 100), "K"),
+        ("Ea_f", 95000, "kJ/mol"),
+        ("dS", -20, "J/mol/K"),
+    ]
+    assert scheme.driven_by("Ea_f") == ("kf", "ke")
+    assert scheme.driven_by("T_ref") == ("kq",)
+    assert scheme.constants["kf"].arrhenius.activation_energy == 95000.0
+    hotter = scheme.with_values(temperature=330.0)
+    assert all(hotter.rates[1:] > scheme.rates[1:])
+    assert hotter.rates[0] == scheme.rates[0]
+
+
+def test_decay_steps_written_with_half_lives():
+    text = (
+        "P -> D  half_life = 65.9 h, fraction = 87.6 %\nP -> E  half_life = 65.9 h, "
+        "fraction = 12 %\nD -> F  half_life = 6 h\nstart P = 1 mol"
+    )
+    scheme = parse(text, SRC)
+    assert [s.equation for s in scheme.steps] == ["P -> D", "P -> E", "D -> F", "P -> (untracked)"]
+    assert scheme.warnings == (
+        "t.scheme:1: the branching fractions of P add up to 99.6 %; the other 0.4 % of its "
+        "decays go to no species of the scheme (untracked)",
+    )
+    # the parent still decays with its half-life: the three constants add up to ln 2 / t
+    assert float(
+        sum(scheme.exact_constants()[s.constant] for s in scheme.steps[:2])
+        + scheme.exact_constants()["lambda(P untracked)"]
+    ) == pytest.approx(math.log(2) / (65.9 * 3600), rel=1e-15)
+    whole = parse(
+        "P -> D  half_life = 5 h, fraction = 40 %\n"
+        "P -> E  half_life = 5 h, fraction = 60 %\nstart P = 1 mol",
+        SRC,
+    )
+    assert [s.equation for s in whole.steps] == ["P -> D", "P -> E"]
+    assert whole.warnings == ()
+
+
+def test_start_values_as_activities_and_requirements():
+    scheme = parse("P -> D  half_life = 65.9 h\nstart P = 10 GBq\nrequire P >= 50 %", SRC)
+    assert scheme.concentration_unit == "mol"
+    assert scheme.start_activities == {"P": 10**10}
+    # N = A t / ln 2 = 3.4227e15 atoms = 5.6834 nmol (hand value)
+    assert scheme.initial["P"] == pytest.approx(5.6834e-9, rel=1e-4)
+    (r,) = scheme.requirements
+    assert (r.text, r.comparison, r.threshold) == ("P >= 50 %", ">=", scheme.initial["P"] / 2)

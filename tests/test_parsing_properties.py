@@ -408,3 +408,134 @@ def test_fast_reader_agrees_with_the_general_reader(code):
     fast = _fast_reaction(line)
     if fast is not None:
         assert fast == ReactionStatement.from_line_general(line)
+
+
+# ---------------------------------------------------------------------------
+# issue 15: named quantities and expressions, written in any order, evaluated exactly
+
+TIME_UNITS = {"s": Fraction(1), "min": Fraction(60), "h": Fraction(3600), "d": Fraction(86400)}
+
+
+@st.composite
+def expression_schemes(draw) -> tuple[list[str], dict[str, Fraction]]:
+    """Lines defining times, rates derived from them by rational arithmetic, and a chain
+    of steps using the rates; the exact value of every rate, computed here."""
+    lines: list[str] = []
+    times: dict[str, Fraction] = {}
+    for i in range(draw(st.integers(1, 3))):
+        number, unit = draw(st.integers(1, 500)), draw(st.sampled_from(sorted(TIME_UNITS)))
+        times[f"t{i}"] = number * TIME_UNITS[unit]
+        lines.append(f"t{i} = {number} {unit}")
+    rates: dict[str, Fraction] = {}
+    for i in range(draw(st.integers(1, 5))):
+        name = f"k{i}"
+        form = draw(st.sampled_from(["time", "scaled", "sum"] if rates else ["time"]))
+        if form == "time":
+            t = draw(st.sampled_from(sorted(times)))
+            p, q = draw(st.integers(1, 9)), draw(st.integers(1, 9))
+            rates[name] = Fraction(p, q) / times[t]
+            text = f"{p} / {q} / {t}" if draw(st.booleans()) else f"({p} / {q}) * {t} ** -1"
+        elif form == "scaled":
+            other = draw(st.sampled_from(sorted(rates)))
+            p = draw(st.integers(1, 20))
+            rates[name] = rates[other] * p / 7
+            text = f"{other} * {p} / 7"
+        else:
+            a, b = draw(st.sampled_from(sorted(rates))), draw(st.sampled_from(sorted(rates)))
+            rates[name] = (rates[a] + rates[b]) / 2
+            text = f"({a} + {b}) / 2"
+        lines.append(f"{name} = {text}")
+    for i, name in enumerate(rates):
+        lines.append(f"S{i} -> S{i + 1}  {name}")
+    lines.append("start S0 = 1 mol/L")
+    order = draw(st.permutations(range(len(lines))))
+    return [lines[i] for i in order], rates
+
+
+@SETTINGS
+@given(expression_schemes())
+def test_expressions_in_any_order_give_the_exact_values(drawn):
+    lines, rates = drawn
+    scheme = parse("\n".join(lines), "generated.scheme")
+    assert {n: scheme.constants[n].value_si for n in rates} == rates
+    np.testing.assert_array_equal(scheme.rates, [float(rates[s.constant]) for s in scheme.steps])
+
+
+EXPRESSION_LINES = [
+    "t_p = 50 h",
+    "lam = 0.88 * ln(2) / t_p",
+    "k4 = lam / 3",
+    "P -> Q  k4",
+    "Q -> R  half_life = 6 h, fraction = 87.6 %",
+    "kq = q10(0.05 1/d, 25 degC, 2.5)",
+    "R -> S  kq",
+    "ke = eyring(dH = 80 kJ/mol, dS = -20 J/mol/K)",
+    "S -> U  ke",
+    "start P = 10 GBq",
+    "require Q <= 0.15 % of P",
+    "temperature = 300 K",
+]
+EXPRESSION_TOKENS = ["ln(", "exp(", "sqrt(", "log10(", "**", "^", "%", "half_life", "fraction"]
+EXPRESSION_TOKENS += ["require ", " <= ", " >= ", "GBq", "q10(", "eyring(", "t_p", "lam", " of "]
+EXPRESSION_ALPHABET = st.sampled_from([*"Pkt_ =()*/+-%^,0123456789.", *EXPRESSION_TOKENS])
+
+
+@st.composite
+def mutated_expression_schemes(draw) -> str:
+    lines = list(EXPRESSION_LINES)
+    for _ in range(draw(st.integers(1, 4))):
+        i = draw(st.integers(0, len(lines) - 1))
+        line = lines[i]
+        j = draw(st.integers(0, len(line)))
+        op = draw(st.sampled_from(["delete", "insert", "cut"]))
+        if op == "delete" and line:
+            j = min(j, len(line) - 1)
+            line = line[:j] + line[j + 1 :]
+        elif op == "insert":
+            line = line[:j] + draw(EXPRESSION_ALPHABET) + line[j:]
+        else:
+            line = line[:j] + line[draw(st.integers(j, len(line))) :]
+        lines[i] = line
+    return "\n".join(lines)
+
+
+def test_the_valid_expression_lines_parse():
+    scheme = parse("\n".join(EXPRESSION_LINES))
+    assert scheme.driven_by("t_p") == ("lam", "k4")
+
+
+@settings(max_examples=150, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(mutated_expression_schemes())
+def test_mutated_expression_schemes_raise_only_our_errors(text):
+    exercise(text)
+
+
+@SETTINGS
+@given(st.lists(EXPRESSION_ALPHABET, max_size=40).map(lambda t: "k = " + "".join(t)))
+def test_random_expressions_raise_only_our_errors(text):
+    exercise(text + "\nA -> B  k\nstart A = 1 M")
+
+
+expression_refs = st.sampled_from(
+    [
+        "k1 = 2 * k0",
+        "k1 = k0 / 3",
+        "k1 = 0.5 1/min + 1 1/h",
+        "k1 = 1 s^-1",
+        "half_life = 5 h",
+        "half_life = 5 h, fraction = 20 %",
+        "k1 = 2 1/s * 3",
+        "k1 = 1e-3 M-1 s-1",
+        "k1 = arrhenius(A = 1 1/s, Ea = 1 kJ/mol)",
+    ]
+)
+
+
+@settings(max_examples=100, deadline=None)
+@given(st.sampled_from(["A -> B  ", "A + W -> B ", "A <=> B  "]), expression_refs)
+def test_fast_reader_agrees_with_the_general_reader_on_expressions(head, refs):
+    code = head + refs
+    line = _Line("x", 1, code, code)
+    fast = _fast_reaction(line)
+    if fast is not None:
+        assert fast == ReactionStatement.from_line_general(line)

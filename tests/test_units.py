@@ -476,3 +476,12 @@ def test_parse_unit_raises_typed_errors(unit, kind, message):
         parse_unit(unit)
     assert type(info.value).__name__ == kind
     assert str(info.value) == message
+
+
+@pytest.mark.parametrize("unit", ["s**0", "1*Bq**0"])
+def test_a_power_zero_is_refused_as_pint_refuses_it(unit):
+    # reference: pint, which reads no unit to the power 0 (found by the random products above)
+    with pytest.raises(ValueError, match="unknown unit"):
+        parse_unit_by_pint(unit)
+    with pytest.raises(ValueError, match="unknown unit"):
+        parse_unit.__wrapped__(unit)

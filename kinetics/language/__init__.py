@@ -16,6 +16,14 @@ The scheme language (one statement per line, ``#`` starts a comment)::
     formula A = C6H12O6
     molar_mass G = 180.2 g/mol
     balance: lumped                         # atom imbalance is a warning only
+    t_p = 50 h                              # a named quantity of any dimension
+    G -> H              lam = 0.88 * ln(2) / t_p
+    H -> J              half_life = 6 h, fraction = 87.6 %
+    require G <= 0.15 % of A
+
+Named quantities, expressions (:mod:`~kinetics.language.arithmetic`), decay steps
+written with half-lives, start values as activities and requirements are described in
+README.md ("The scheme language").
 
 Atom balance and its opt-out
 ----------------------------
@@ -61,16 +69,21 @@ Modules (each imports only those above it)
 ``grammar``        arrows, keywords, the patterns of names and numbers
 ``messages``       shared wordings; :class:`Diagnostics` (a file's problems)
 ``quantities``     numbers with units: reading, exact scaling, range checks
-``statements``     title, balance, temperature, list and constant statements
-``reactions``      reaction statements and the fast reader of plain lines
+``arithmetic``     expressions: numbers with units, names, operators, functions, laws
+``statements``     title, balance, temperature, list, constant and require statements
+``reactions``      reaction statements (and decay steps) and the fast reader of plain lines
 ``reader``         first pass: text -> :class:`ParsedFile`
 ``names``          species in order, excess declarations, single statements
-``constants``      temperature and rate constants
+``named``          expressions resolved: references, cycles, evaluation, the graph
+``decay``          decay steps written with half-lives and branching fractions
+``constants``      temperature, rate constants and named quantities
 ``concentrations`` the file's concentration unit; values that do not fit it
 ``values``         start, excess, feed, formula and molar-mass values
 ``steps``          reactions -> first-order steps; orders implied by units
 ``species``        species, formulas, molar masses; atom balance
 ``checks``         whole-file checks and warnings
+``activities``     start values written as activities, turned into amounts
+``requirements``   ``require`` lines: species and thresholds
 ``resolve``        second pass: :class:`ParsedFile` -> Scheme
 ``entry``          :func:`parse` and :func:`load`
 =================  ==========================================================

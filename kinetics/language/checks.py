@@ -112,23 +112,40 @@ def unused_constants(
     statements: Iterable[object],
     reactions: Iterable[ReactionStatement],
     found: Diagnostics,
+    expressions: Iterable[str] = (),
+    quantities: Iterable[str] = (),
 ) -> None:
-    """Warn about a constant defined on a line of its own that no reaction uses.
+    """Warn about a constant or named quantity defined on a line of its own that neither a
+    reaction nor another definition uses.
+
+    Parameters
+    ----------
+    statements : iterable
+        The statements of the file.
+    reactions : iterable of ReactionStatement
+        Its reactions.
+    found : Diagnostics
+        Where warnings go.
+    expressions : iterable of str, optional
+        The names the file's expressions refer to.
+    quantities : iterable of str, optional
+        The definitions that are named quantities rather than rate constants.
 
     Examples
     --------
     >>> from kinetics import parse
     >>> parse("k9 = 1 1/s\\nA -> B  k1 = 1 1/s\\nstart A = 1 M").warnings
     ('<text>:1: rate constant k9 is defined but no reaction uses it (a misspelt name?)',)
+    >>> parse("t_q = 5 h\\nA -> B  k1 = 1 1/s\\nstart A = 1 M").warnings
+    ('<text>:1: t_q is defined but nothing uses it (a misspelt name?)',)
     """
-    used = {ref.name for r in reactions for ref in r.constants}
+    used = {ref.name for r in reactions for ref in r.constants} | set(expressions)
+    named = set(quantities)
     for s in statements:
         if isinstance(s, ConstantStatement) and s.spec.name not in used:
-            found.warn(
-                s.line,
-                f"rate constant {s.spec.name} is defined but no reaction uses it "
-                "(a misspelt name?)",
-            )
+            what = s.spec.name if s.spec.name in named else f"rate constant {s.spec.name}"
+            user = "nothing" if s.spec.name in named else "no reaction"
+            found.warn(s.line, f"{what} is defined but {user} uses it (a misspelt name?)")
 
 
 def nothing_to_start(

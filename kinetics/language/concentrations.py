@@ -15,7 +15,7 @@ from fractions import Fraction
 
 from ..amounts import Kind, amount_unit, kind_of
 from ..errors import SchemeError
-from ..units import UnitSpec, describe_dimension, pint_text
+from ..units import UnitSpec, describe_dimension, parse_unit, pint_text
 from .statements import Item, ListStatement
 
 __all__ = [
@@ -76,7 +76,9 @@ def choose_unit(lists: Iterable[ListStatement]) -> ConcentrationUnit:
     """The scheme's concentration unit: the unit of the first start value.
 
     Without start values, the first excess concentration, then the first feed
-    (its concentration part) decides; without any, ``mol/L``.  Values in mass
+    (its concentration part) decides; a file whose start values are all activities
+    is kept in amounts of their basis (``GBq`` -> ``mol``, ``MBq/L`` -> ``mol/L``);
+    without any, ``mol/L``.  Values in mass
     units are kept as amounts: the scheme's unit is then the amount twin of the
     mass unit (``mg/L`` -> ``mmol/L``, :func:`kinetics.amounts.amount_unit`).
 
@@ -106,7 +108,34 @@ def choose_unit(lists: Iterable[ListStatement]) -> ConcentrationUnit:
                 chosen = _unit_of_item(item, s, kind)
                 if chosen is not None:
                     return chosen
+    for s in lists:  # only activities: amounts of their basis (GBq -> mol, MBq/L -> mol/L)
+        for item in s.items if s.kind == "start" else ():
+            chosen = _unit_of_activity(item, s)
+            if chosen is not None:
+                return chosen
     return DEFAULT_UNIT
+
+
+def _unit_of_activity(item: Item, s: ListStatement) -> ConcentrationUnit | None:
+    """The unit a start value written as an activity gives a file without amounts."""
+    if item.value is None:
+        return None
+    try:
+        dims = parse_unit(item.value.unit).dims
+    except ValueError:
+        return None
+    if dims.get("[time]") != -1:
+        return None
+    dims.pop("[time]")
+    unit = {(): "mol", (("[length]", -3),): "mol/L", (("[mass]", -1),): "mol/kg"}.get(
+        tuple(sorted((k, int(v)) for k, v in dims.items() if v))
+    )
+    if unit is None:
+        return None
+    kind = kind_of(unit)
+    assert kind is not None  # an amount unit
+    origin = f"start {item.name} = {item.value.text} on line {s.line.number}"
+    return ConcentrationUnit(unit, kind.factor, kind, origin, unit)
 
 
 def _unit_of_item(item: Item, s: ListStatement, kind: str) -> ConcentrationUnit | None:

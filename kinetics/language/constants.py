@@ -9,8 +9,11 @@ defined.
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass
 
+from ..definitions import Dependencies, NamedQuantity
+from ..expressions import names_in
 from ..scheme import Arrhenius, RateConstant
 from ..units import (
     UnitSpec,
@@ -19,18 +22,22 @@ from ..units import (
     parse_unit,
     temperature_to_kelvin,
 )
+from .decay import BranchCheck, Remainder, check_parents, remainders
 from .messages import Diagnostics, quoted
-from .quantities import exact, fraction, scaled, unit_of
+from .named import Entry, check_references, evaluate_entries, graph_of, plain_leaf, plain_value
+from .quantities import exact, exact_kelvin, fraction, scaled, unit_of
 from .reactions import ReactionStatement
 from .reader import ParsedFile
 from .source import Line
 from .statements import ConstantSpec, ConstantStatement, TemperatureStatement
 
 __all__ = [
+    "Resolved",
     "Temperature",
     "plain_constant",
     "rate_constant",
     "resolve_constants",
+    "resolve_definitions",
     "resolve_temperature",
 ]
 
@@ -127,6 +134,31 @@ def _kelvin(temps: list[TemperatureStatement], found: Diagnostics) -> float | No
     return kelvin
 
 
+@dataclass
+class Resolved:
+    """Every definition of a file, resolved.
+
+    Attributes
+    ----------
+    constants : dict of str to RateConstant
+        The rate constants, in order of first definition.
+    quantities : dict of str to NamedQuantity
+        The named quantities that are not rate constants.
+    graph : Dependencies
+        The definitions written as expressions and what they use.
+    untracked : list of Remainder
+        Decaying parents whose branches leave a share untracked (a step to nothing).
+    used : set of str
+        Every name an expression refers to.
+    """
+
+    constants: dict[str, RateConstant]
+    quantities: dict[str, NamedQuantity]
+    graph: Dependencies
+    untracked: list[Remainder]
+    used: set[str]
+
+
 def resolve_constants(
     parsed: ParsedFile, temperature: Temperature, found: Diagnostics
 ) -> dict[str, RateConstant]:
@@ -134,7 +166,8 @@ def resolve_constants(
 
     A constant defined twice with the same value is one constant; with another
     value it is an error.  A name used on a reaction line but never defined is an
-    error (with a "did you mean" for the first few).
+    error (with a "did you mean" for the first few).  See :func:`resolve_definitions`
+    for the named quantities and the graph.
 
     Parameters
     ----------
@@ -160,39 +193,197 @@ def resolve_constants(
     >>> found.errors[0].headline()
     't:3:9: rate constant k_1 is used but never defined; did you mean k1?'
     """
-    specs: list[tuple[ConstantSpec, Line]] = []
+    return resolve_definitions(parsed, temperature, found).constants
+
+
+def resolve_definitions(
+    parsed: ParsedFile,
+    temperature: Temperature,
+    found: Diagnostics,
+    species: Iterable[str] = (),
+) -> Resolved:
+    """Every definition of the file: rate constants, named quantities and their graph.
+
+    Definitions written as plain values keep their readers (:func:`plain_constant`,
+    :func:`rate_constant`); expressions are checked and evaluated by
+    :mod:`~kinetics.language.named`, decay steps by :mod:`~kinetics.language.decay`.
+
+    Parameters
+    ----------
+    parsed : ParsedFile
+        The first pass of the file.
+    temperature : Temperature
+        The file's temperature.
+    found : Diagnostics
+        Where errors and warnings go.
+    species : iterable of str, optional
+        The species of the file (an expression that names one is told so).
+
+    Returns
+    -------
+    Resolved
+
+    Examples
+    --------
+    >>> from kinetics.language.reader import read_statements
+    >>> parsed = read_statements("t_p = 50 h\\nA -> B  k = ln(2) / t_p", "t")
+    >>> resolved = resolve_definitions(parsed, Temperature(None, False), Diagnostics("t"))
+    >>> resolved.quantities["t_p"].value_si, resolved.graph.driven_by("t_p")
+    (Fraction(180000, 1), ('k',))
+    """
+    t = temperature.kelvin
+    rate_names = {ref.name for r in parsed.reactions for ref in r.constants}
+    entries: dict[str, Entry] = {}
+    plain: dict[str, RateConstant | NamedQuantity] = {}
+    first: dict[str, tuple[str, int]] = {}  # name -> (text, line) of its first definition
+    specs = _specs(parsed)
+    names = {spec.name for spec, _, _ in specs}
+    for spec, line, statement in specs:
+        name = spec.name
+        if spec.value is not None and spec.value.unit in names:
+            _unit_is_a_name(spec, line, found)
+            continue
+        if spec.expression is not None:
+            check = BranchCheck(statement) if statement and statement.decay else None
+            entry = Entry(spec, line, statement is not None or name in rate_names, check)
+            if name not in first:
+                entries[name] = entry
+                first[name] = (spec.text, line.number)
+            elif " ".join(spec.text.split()) != " ".join(first[name][0].split()):
+                _twice(name, first[name], spec, line, name in rate_names, found)
+            continue
+        value = _plain(spec, line, statement is not None or name in rate_names, temperature, found)
+        if value is None:
+            continue
+        if name not in first:
+            plain[name] = value
+            first[name] = (value.text, line.number)
+        elif name not in plain or not _same(plain[name], value):
+            _twice(name, first[name], spec, line, isinstance(value, RateConstant), found)
+    untracked = remainders(parsed.reactions)
+    for rest in untracked:
+        entries[rest.name] = rest.entry()
+    failed = check_references(entries, plain, species, parsed.failed_names, found)
+    used = {ref.name for e in entries.values() for ref in names_in(e.expression)}
+    values = {n: plain_value(plain[n], t) for n in used if n in plain}
+    results = evaluate_entries(entries, values, failed, t, temperature.failed, found)
+    check_parents(parsed.reactions, results.values, found)
+    kept = [r for r in untracked if r.kept(results.values)]
+    for rest in untracked:
+        if rest not in kept:
+            entries.pop(rest.name)
+            results.constants.pop(rest.name, None)
+    leaves = {n: d for n in used if n in plain and (d := plain_leaf(n, plain[n])) is not None}
+    graph = graph_of(results, entries, leaves)
+    constants: dict[str, RateConstant] = {}
+    quantities: dict[str, NamedQuantity] = {}
+    for name in first:
+        c = results.constants.get(name) or plain.get(name) or results.quantities.get(name)
+        if isinstance(c, RateConstant):
+            constants[name] = c
+        elif isinstance(c, NamedQuantity):
+            quantities[name] = c
+    for rest in kept:
+        constants[rest.name] = results.constants[rest.name]
+    _undefined(parsed, names, constants, found)
+    return Resolved(constants, quantities, graph, kept, used)
+
+
+def _specs(parsed: ParsedFile) -> list[tuple[ConstantSpec, Line, ReactionStatement | None]]:
+    """Every definition with its line and, on a reaction line, its statement."""
+    specs: list[tuple[ConstantSpec, Line, ReactionStatement | None]] = []
     for s in parsed.statements:
         if isinstance(s, ConstantStatement):
-            specs.append((s.spec, s.line))
+            specs.append((s.spec, s.line, None))
         elif isinstance(s, ReactionStatement):
-            specs.extend((ref.spec, s.line) for ref in s.constants if ref.spec is not None)
-    constants: dict[str, RateConstant] = {}
-    first_line: dict[str, int] = {}
-    for spec, line in specs:
-        constant = plain_constant(spec, line)  # the common case, quickly
-        if constant is None:
-            constant = rate_constant(spec, line, temperature, found)  # and every message
-        if constant is None:
-            continue
-        old = constants.get(spec.name)
-        if old is None:
-            constants[spec.name] = constant
-            first_line[spec.name] = line.number
-        elif not _same(old, constant):
+            specs.extend((ref.spec, s.line, s) for ref in s.constants if ref.spec is not None)
+    return specs
+
+
+def _plain(
+    spec: ConstantSpec, line: Line, rate: bool, temperature: Temperature, found: Diagnostics
+) -> RateConstant | NamedQuantity | None:
+    """A definition by a plain value: a rate constant (old readers and messages) or a
+    named quantity of another dimension (only on a line of its own)."""
+    constant = plain_constant(spec, line) if rate else None  # the common case, quickly
+    if constant is not None:
+        return constant
+    v = spec.value
+    if spec.is_arrhenius or v is None:
+        return rate_constant(spec, line, temperature, found)
+    what = f"rate constant {spec.name}" if rate else spec.name
+    unit = unit_of(line, v, what, "1/s" if rate else "h")
+    if not isinstance(unit, UnitSpec):
+        found.add(unit)
+        return None
+    if rate or unit.rate_order is not None:
+        if not v.unit:
             found.error(
                 line,
-                f"rate constant {spec.name} is defined twice with different values "
-                f"({old.text} on line {first_line[spec.name]}, {constant.text} here)",
-                spec.column,
-                spec.name,
-                f"give each constant one value, or refer to it by name alone: {spec.name}",
+                f"rate constant {spec.name} has no unit",
+                v.column,
+                v.number,
+                f"write its unit after the number, e.g. {spec.name} = {v.number} 1/s",
             )
-    _undefined(parsed, {spec.name for spec, _ in specs}, constants, found)
-    return constants
+            return None
+        if fraction(v.number) < 0:
+            found.error(
+                line,
+                f"rate constant {spec.name} is negative ({v.number})",
+                v.column,
+                v.number,
+                "this value cannot be negative; write e.g. 0.12 1/min",
+            )
+            return None
+        return plain_constant(spec, line) or rate_constant(spec, line, temperature, found)
+    if unit.offset:  # kept in kelvin
+        kelvin = exact_kelvin(v.number, v.unit)
+        return NamedQuantity(spec.name, spec.text, kelvin, "K", unit.dimensions, line.number)
+    value = scaled(v.number, unit.factor)
+    return NamedQuantity(spec.name, spec.text, value, v.unit, unit.dimensions, line.number)
 
 
-def _same(old: RateConstant, new: RateConstant) -> bool:
+def _unit_is_a_name(spec: ConstantSpec, line: Line, found: Diagnostics) -> None:
+    """``k = 2 k1`` with ``k1`` defined: the unit reader would take k1 for a unit."""
+    v = spec.value
+    assert v is not None
+    found.error(
+        line,
+        f"{v.unit} is read as a unit in {quoted(v.text)}, but it is also a named quantity "
+        "of this file",
+        v.column,
+        v.text,
+        f"write {v.number} * {v.unit} to multiply by it",
+    )
+
+
+def _twice(
+    name: str,
+    first: tuple[str, int],
+    spec: ConstantSpec,
+    line: Line,
+    rate: bool,
+    found: Diagnostics,
+) -> None:
+    what = f"rate constant {name}" if rate else name
+    found.error(
+        line,
+        f"{what} is defined twice with different values "
+        f"({first[0]} on line {first[1]}, {spec.text} here)",
+        spec.column,
+        name,
+        f"give each constant one value, or refer to it by name alone: {name}",
+    )
+
+
+def _same(old: RateConstant | NamedQuantity, new: RateConstant | NamedQuantity) -> bool:
     """True when two definitions of one name give the same constant."""
+    if isinstance(old, NamedQuantity) or isinstance(new, NamedQuantity):
+        return old == new or (
+            isinstance(old, NamedQuantity)
+            and isinstance(new, NamedQuantity)
+            and (old.value_si, old.dims) == (new.value_si, new.dims)
+        )
     if (old.arrhenius is None) != (new.arrhenius is None) or old.value_si != new.value_si:
         return False
     if old.arrhenius is None or new.arrhenius is None:

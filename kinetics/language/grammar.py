@@ -13,6 +13,7 @@ __all__ = [
     "ARROW_CHARS",
     "ARROW_RE",
     "BAD_ARROW_RE",
+    "DECAY_KEYS",
     "DIRECTIVES",
     "NAME",
     "NAME_RE",
@@ -21,14 +22,18 @@ __all__ = [
     "TERM_RE",
     "split_plain",
     "split_top",
+    "top_level_equals",
 ]
 
 #: Arrows of the language: irreversible and reversible, with Unicode synonyms.
 ARROWS = {"->": False, "→": False, "<=>": True, "⇌": True}
 #: Directive keywords that start a line.
-DIRECTIVES = ("start", "excess", "feed", "formula", "molar_mass", "temperature")
+DIRECTIVES = ("start", "excess", "feed", "formula", "molar_mass", "temperature", "require")
 #: Words that cannot name a species or a constant.
 RESERVED = frozenset({*DIRECTIVES, "title", "balance", "arrhenius"})
+#: Keys of a decay step written without a named constant
+#: (``P -> D  half_life = 65.9 h, fraction = 87.6 %``); they cannot name a constant.
+DECAY_KEYS = ("half_life", "fraction")
 
 #: A species or constant name: a letter, then letters, digits, ``_`` and ``'``.
 NAME = r"[^\W\d_][\w']*"
@@ -119,3 +124,23 @@ def split_top(text: str, offset: int) -> list[tuple[str, int]]:
             start = i + 1
     pieces.append(_piece(text[start:], offset + start))
     return pieces
+
+
+def top_level_equals(text: str) -> bool:
+    """True when ``text`` holds ``=`` outside parentheses (``A = B + C  k1 = ...``, a
+    reaction written with ``=`` for its arrow; not ``arrhenius(A = ..., Ea = ...)``).
+
+    Examples
+    --------
+    >>> top_level_equals("B + C  k1 = 1 1/s"), top_level_equals("eyring(dH = 1 J/mol)")
+    (True, False)
+    """
+    depth = 0
+    for ch in text:
+        if ch == "(":
+            depth += 1
+        elif ch == ")":
+            depth = max(0, depth - 1)
+        elif ch == "=" and depth == 0:
+            return True
+    return False

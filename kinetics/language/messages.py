@@ -37,6 +37,7 @@ STATEMENT_EXAMPLES = {
     "formula": "formula A = C6H12O6",
     "molar_mass": "molar_mass A = 180.2 g/mol",
     "temperature": "temperature = 60 degC",
+    "require": "require API >= 90 %",
 }
 
 #: What each list statement gives a species, as a message names it.

@@ -11,7 +11,7 @@ from fractions import Fraction
 from typing import NamedTuple
 
 from ..errors import SchemeError, UnknownUnitError, shorten
-from ..units import UnitSpec, parse_unit
+from ..units import OFFSET_TEMPERATURES, UnitSpec, normalise_unit, parse_unit, temperature_to_kelvin
 from .grammar import NUMBER_RE
 from .messages import quoted
 from .source import Line
@@ -20,7 +20,9 @@ __all__ = [
     "MAX_NUMBER_LENGTH",
     "Value",
     "exact",
+    "exact_kelvin",
     "fraction",
+    "number_problem",
     "plain_number",
     "read_value",
     "scaled",
@@ -100,14 +102,21 @@ def read_value(
     number = match.group(0)
     rest = text[match.end() :]
     unit_col = column0 + match.end() + (len(rest) - len(rest.lstrip())) + 1
-    problem = _number_problem(number, what, example, signed)
+    problem = number_problem(number, what, example, signed)
     if problem is not None:
         return line.error(problem[0], column0 + 1, number, problem[1])
     return Value(number, rest.strip(), column0 + 1, unit_col)
 
 
-def _number_problem(number: str, what: str, example: str, signed: bool) -> tuple[str, str] | None:
-    """(problem, hint) for a number the readers refuse, or None."""
+def number_problem(number: str, what: str, example: str, signed: bool) -> tuple[str, str] | None:
+    """(problem, hint) for a number the readers refuse, or None.
+
+    Examples
+    --------
+    >>> number_problem("1e-400", "t_p", "50 h", False)[0]
+    't_p is 1e-400, which is too small for a floating-point number (it would become 0; \
+the smallest is about 5e-324)'
+    """
     if len(number) > MAX_NUMBER_LENGTH:
         return (
             f"{what} is a number of {len(number):,} characters (at most {MAX_NUMBER_LENGTH})",
@@ -274,3 +283,21 @@ def exact(value: Fraction) -> float | None:
     except OverflowError:
         return None
     return result if math.isfinite(result) else None
+
+
+def exact_kelvin(number: str, unit: str) -> Fraction:
+    """A temperature written as ``number unit`` in kelvin, exactly for K, degC and degF.
+
+    Examples
+    --------
+    >>> exact_kelvin("25", "degC"), exact_kelvin("300", "K")
+    (Fraction(5963, 20), Fraction(300, 1))
+    """
+    scale_offset = OFFSET_TEMPERATURES.get(normalise_unit(unit))
+    if scale_offset is not None:
+        scale, offset = scale_offset
+        return (fraction(number) + offset) * scale
+    spec = parse_unit(unit)
+    if not spec.offset:
+        return scaled(number, spec.factor)
+    return Fraction(temperature_to_kelvin(fraction(number), unit))

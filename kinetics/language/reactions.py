@@ -10,13 +10,17 @@ which words the messages.  Tests compare the two readers on generated lines.
 from __future__ import annotations
 
 import re
+from fractions import Fraction
 from typing import NamedTuple
 
 from ..errors import SchemeError
+from ..expressions import Binary, Expr, Function, Number
+from .arithmetic import CALLABLE, read_expression
 from .grammar import (
     ARROW_CHARS,
     ARROW_RE,
     ARROWS,
+    DECAY_KEYS,
     NAME,
     PLUS_RE,
     REF_RE,
@@ -29,7 +33,18 @@ from .quantities import Value, plain_number
 from .source import Line
 from .statements import ConstantSpec, read_constant
 
-__all__ = ["ConstantRef", "ReactionStatement", "Term", "fast_reaction", "read_terms"]
+__all__ = [
+    "ConstantRef",
+    "DecaySpec",
+    "ReactionStatement",
+    "Term",
+    "decay_name",
+    "fast_reaction",
+    "read_terms",
+]
+
+#: An example of a decay step written with its half-life (in hints).
+DECAY_EXAMPLE = "P -> D  half_life = 65.9 h, fraction = 87.6 %"
 
 
 class Term(NamedTuple):
@@ -48,6 +63,49 @@ class ConstantRef(NamedTuple):
     name: str
     column: int
     spec: ConstantSpec | None
+
+
+class DecaySpec(NamedTuple):
+    """A decay step written without a named constant: ``half_life = ..., fraction = ...``.
+
+    Attributes
+    ----------
+    half_life : Expr
+        The half-life of the parent (of all its decays, not of this branch).
+    fraction : Expr or None
+        The share of the parent's decays that take this branch (None: all of them).
+    column : int
+        1-based column of ``half_life``.
+    text : str
+        As written.
+    """
+
+    half_life: Expr
+    fraction: Expr | None
+    column: int
+    text: str
+
+    def constant(self) -> Expr:
+        r"""The branch's first-order constant, :math:`k = f \ln 2 / t_{1/2}`."""
+        ln2 = Function("ln", Number(Fraction(2), (), "2", self.column), "ln(2)", self.column)
+        top: Expr = ln2
+        if self.fraction is not None:
+            top = Binary("*", self.fraction, ln2, f"{self.fraction.text} * ln(2)", self.column)
+        text = f"{top.text} / ({self.half_life.text})"
+        return Binary("/", top, self.half_life, text, self.column)
+
+
+def decay_name(parent: str, products: tuple[str, ...]) -> str:
+    """The name of the constant of a decay step written with its half-life.
+
+    Examples
+    --------
+    >>> decay_name("P", ("D",)), decay_name("P", ())
+    ('lambda(P->D)', 'lambda(P untracked)')
+    """
+    if not products:
+        return f"lambda({parent} untracked)"
+    return f"lambda({parent}->{'+'.join(products)})"
 
 
 class ReactionStatement(NamedTuple):
@@ -70,6 +128,7 @@ class ReactionStatement(NamedTuple):
     arrow_column: int
     constants: tuple[ConstantRef, ...]
     line: Line
+    decay: DecaySpec | None = None
 
     @classmethod
     def from_line(cls, line: Line) -> ReactionStatement | list[SchemeError] | None:
@@ -116,7 +175,18 @@ class ReactionStatement(NamedTuple):
             errors.extend(constants)
         if errors or isinstance(left, SchemeError) or isinstance(constants, list):
             return errors
-        return cls(tuple(left[0]), tuple(right[0]), reversible, arrow.start() + 1, constants, line)
+        decay = None
+        if isinstance(constants, DecaySpec):
+            decay = constants
+            problem = _decay_problem(line, left[0], reversible, decay)
+            if problem is not None:
+                return [problem]
+            name = decay_name(left[0][0].name, tuple(dict.fromkeys(t.name for t in right[0])))
+            spec = ConstantSpec(name, decay.column, text=decay.text, expression=decay.constant())
+            constants = (ConstantRef(name, decay.column, spec),)
+        return cls(
+            tuple(left[0]), tuple(right[0]), reversible, arrow.start() + 1, constants, line, decay
+        )
 
 
 def _arrow_problem(line: Line, arrows: list[re.Match[str]]) -> SchemeError | None:
@@ -229,11 +299,85 @@ def _term_problem(line: Line, coef_text: str | None, name: str, column: int) -> 
     return None
 
 
+def _decay_problem(
+    line: Line, left: list[Term], reversible: bool, decay: DecaySpec
+) -> SchemeError | None:
+    """The error of a decay step that is reversible or has more than one reactant."""
+    if reversible:
+        return line.error(
+            "a decay step written with half_life is irreversible",
+            decay.column,
+            "half_life",
+            f"write -> (or →), e.g. {DECAY_EXAMPLE}",
+        )
+    if len(left) != 1:
+        return line.error(
+            f"a decay step written with half_life has one species on its left; this one "
+            f"has {len(left)}",
+            left[1].column,
+            left[1].name,
+            f"write the decaying species alone, e.g. {DECAY_EXAMPLE}",
+        )
+    return None
+
+
+def _read_decay(line: Line, pieces: list[tuple[str, int]]) -> DecaySpec | list[SchemeError]:
+    """``half_life = ..., fraction = ...`` after the products."""
+    found: dict[str, tuple[Expr, int]] = {}
+    errors: list[SchemeError] = []
+    for piece, col0 in pieces:
+        m = REF_RE.match(piece)
+        key = m.group("name") if m else ""
+        if m is None or key not in DECAY_KEYS or not m.group("eq"):
+            errors.append(
+                line.error(
+                    f"a decay step is given by half_life and fraction only; found {quoted(piece)}",
+                    col0 + 1,
+                    piece or " ",
+                    f"write e.g. {DECAY_EXAMPLE}",
+                )
+            )
+            continue
+        if key in found:
+            errors.append(
+                line.error(f"{key} is given twice", col0 + 1, piece, f"write e.g. {DECAY_EXAMPLE}")
+            )
+            continue
+        what = "the half-life" if key == "half_life" else "the fraction"
+        tree = read_expression(line, piece[m.end() :], col0 + m.end(), f"{what} of this step", key)
+        if isinstance(tree, list):
+            errors.extend(tree)
+        else:
+            found[key] = (tree, col0 + 1)
+    if not errors and "half_life" not in found:
+        errors.append(
+            line.error(
+                "this decay step gives a fraction but no half-life",
+                pieces[0][1] + 1,
+                pieces[0][0],
+                f"give the half-life of the decaying species, e.g. {DECAY_EXAMPLE}",
+            )
+        )
+    if errors:
+        return errors
+    fraction = found.get("fraction")
+    text = ", ".join(p for p, _ in pieces)
+    return DecaySpec(
+        found["half_life"][0], fraction[0] if fraction else None, found["half_life"][1], text
+    )
+
+
 def _read_constant_refs(
     line: Line, text: str, offset: int, reversible: bool
-) -> tuple[ConstantRef, ...] | list[SchemeError]:
-    """Read the constants after the products: ``k1``, ``k1 = ...``, ``kf = ..., kr = ...``."""
+) -> tuple[ConstantRef, ...] | DecaySpec | list[SchemeError]:
+    """Read the constants after the products: ``k1``, ``k1 = ...``, ``kf = ..., kr = ...``,
+    or a decay step's ``half_life = ..., fraction = ...``."""
     example = "kf = 2.0e-3 1/s, kr = 5.0e-4 1/s" if reversible else "k1 = 0.12 1/min"
+    pieces = split_top(text, offset)
+    for piece, _ in pieces:
+        m = REF_RE.match(piece)
+        if m and m.group("name") in DECAY_KEYS and m.group("eq"):
+            return _read_decay(line, pieces)
     if not text.strip():
         return [
             line.error(
@@ -246,7 +390,7 @@ def _read_constant_refs(
         ]
     errors: list[SchemeError] = []
     refs: list[ConstantRef] = []
-    for piece, col0 in split_top(text, offset):
+    for piece, col0 in pieces:
         found = _read_constant_ref(line, piece, col0, example)
         if isinstance(found, ConstantRef):
             refs.append(found)
@@ -288,7 +432,7 @@ def _read_constant_ref(
             col0 = col0 + m.end()
         return [line.error(problem, col0 + 1, snippet, hint)]
     name = m.group("name")
-    if name in RESERVED:
+    if name in RESERVED or name in CALLABLE or name in DECAY_KEYS:
         return [keyword_error(line, name, col0, "a constant")]
     if not m.group("eq"):
         return ConstantRef(name, col0 + 1, None)
@@ -306,6 +450,10 @@ _COEF = r"(?:\d+(?:\.\d*)?|\.\d+)"
 _SIDE = rf"(?:{_COEF}\s*)?{NAME}(?:\s*\+\s*(?:{_COEF}\s*)?{NAME})*"
 _PLAIN_NUMBER = r"(?>(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?)"  # atomic, as the general reader
 _PLAIN_UNIT = r"[^\s,=()<>→⇌][^,=()<>→⇌]*?"
+
+
+#: Characters after a number that make a constant an expression (``2 * k1``).
+_OPERATORS = re.compile(r"[+*^%]|\s[/-]|[/-]\s")
 
 
 def _ref_pattern(tag: str) -> str:
@@ -378,13 +526,13 @@ def _fast_terms(code: str, start: int, end: int) -> tuple[Term, ...] | None:
 def _fast_ref(code: str, m: re.Match[str], name_group: int) -> ConstantRef | None:
     """The constant reference in groups ``name_group`` (name), +1 (number), +2 (unit)."""
     name, number, unit = m.group(name_group, name_group + 1, name_group + 2)
-    if name in RESERVED:
+    if name in RESERVED or name in DECAY_KEYS or name in CALLABLE:
         return None
     column = m.start(name_group) + 1
     if number is None:
         return ConstantRef(name, column, None)
-    if not plain_number(number):
-        return None  # the general reader words the message
+    if not plain_number(number) or _OPERATORS.search(unit):
+        return None  # the general reader words the message, or reads an expression
     number_at, unit_at = m.start(name_group + 1), m.start(name_group + 2)
     value = Value(number, unit, number_at + 1, unit_at + 1)
     spec = ConstantSpec(name, column, value, None, None, code[number_at : m.end(name_group + 2)])

@@ -21,6 +21,7 @@ from .statements import (
     ConstantStatement,
     KeptList,
     ListStatement,
+    RequireStatement,
     TemperatureStatement,
     TitleStatement,
 )
@@ -32,6 +33,7 @@ Statement = (
     | BalanceStatement
     | TemperatureStatement
     | ListStatement
+    | RequireStatement
     | ReactionStatement
     | ConstantStatement
 )
@@ -41,17 +43,18 @@ STATEMENT_KINDS: tuple[type[Statement], ...] = (
     BalanceStatement,
     TemperatureStatement,
     ListStatement,
+    RequireStatement,
     ReactionStatement,
     ConstantStatement,
 )
 #: A line whose first word is no keyword can only be a reaction or a constant
 #: (the other statements start with their keyword): a speed-up for large files.
-_KEYWORD_STARTS = frozenset({"title", "balance", "temperature", *ListStatement.EXAMPLES})
+_KEYWORD_STARTS = frozenset({"title", "balance", "temperature", "require", *ListStatement.EXAMPLES})
 _NAME_STARTS: tuple[type[Statement], ...] = (ReactionStatement, ConstantStatement)
 #: The hint of a line that is no statement at all.
 _WHAT_A_LINE_IS = (
     "a line is a reaction (A -> B  k1 = 0.1 1/s), a constant (k1 = 0.1 1/s) or one of "
-    "title:, start, excess, feed, formula, molar_mass, temperature =, balance:"
+    "title:, start, excess, feed, formula, molar_mass, temperature =, balance:, require"
 )
 
 

@@ -8,14 +8,18 @@ warnings.  Every error of the file (both passes) is raised together.
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from ..errors import SchemeError
-from ..scheme import Scheme
+from ..scheme import Scheme, Step
+from .activities import start_from_activities
 from .checks import check_rates, nothing_to_start, repeated_steps, unused_constants
 from .concentrations import choose_unit
-from .constants import resolve_constants, resolve_temperature
+from .constants import resolve_definitions, resolve_temperature
 from .messages import Diagnostics
 from .names import ExcessDeclarations, single, species_order
 from .reader import ParsedFile
+from .requirements import resolve_requirements
 from .species import check_atom_balance, make_species
 from .statements import BalanceStatement, TitleStatement
 from .steps import StepBuilder
@@ -62,18 +66,25 @@ def resolve(parsed: ParsedFile, strict_balance: bool = True) -> Scheme:
     unit = choose_unit(parsed.lists)
     context = ValueContext(order, excess.names, parsed.failed_names, unit)
     values = resolve_values(parsed.lists, context, found)
-    constants = resolve_constants(parsed, temperature, found)
+    definitions = resolve_definitions(parsed, temperature, found, order)
+    constants = definitions.constants
     builder = StepBuilder(found, excess.names, excess.dims, values.si["excess"], constants)
     reactions, steps = builder.build(parsed.reactions)
+    for rest in definitions.untracked:  # the share of a parent's decays no branch takes
+        if any(s.reaction == rest.reaction for s in steps):
+            steps.append(Step(rest.parent, (), rest.name, (), rest.reaction))
     matrix, held = make_species(order, excess.names, values, found)
     convert_masses(values, matrix + held, unit, found)
     if not allow_imbalance:
         check_atom_balance(reactions, parsed.reactions, matrix + held, found)
     repeated_steps(steps, parsed.reactions, found)
     found.raise_if_any()
-    unused_constants(parsed.statements, parsed.reactions, found)
+    unused_constants(
+        parsed.statements, parsed.reactions, found, definitions.used, definitions.quantities
+    )
     start, feed = values.values["start"], values.values["feed"]
-    nothing_to_start(start, feed, parsed.lists, parsed.reactions, found)
+    activities = {name: float(a > 0) for name, (a, _, _) in values.activities.items()}
+    nothing_to_start({**start, **activities}, feed, parsed.lists, parsed.reactions, found)
     scheme = Scheme(
         species=tuple(matrix),
         excess_species=tuple(held),
@@ -91,12 +102,17 @@ def resolve(parsed: ParsedFile, strict_balance: bool = True) -> Scheme:
         text=parsed.text,
         allow_imbalance=allow_imbalance,
         warnings=tuple(found.warnings),
+        quantities=definitions.quantities,
+        dependencies=definitions.graph,
         _excess_si={k: v for k, v in values.si["excess"].items() if v is not None},
         _unit_factor=unit.factor,
     )
     check_rates(scheme, parsed.reactions, found)
     found.raise_if_any()
-    return scheme
+    scheme = start_from_activities(scheme, values.activities, found)
+    requirements = resolve_requirements(parsed.statements, scheme, unit, found)
+    found.raise_if_any()
+    return replace(scheme, requirements=requirements) if requirements else scheme
 
 
 def _no_reactions(parsed: ParsedFile, found: Diagnostics) -> None:

@@ -11,13 +11,18 @@ from __future__ import annotations
 
 import re
 from dataclasses import dataclass
+from fractions import Fraction
 from typing import ClassVar, NamedTuple
 
 from ..errors import SchemeError
+from ..expressions import Expr
+from ..units import parse_unit
+from .arithmetic import CALLABLE, read_expression
 from .grammar import (
     ARRHENIUS_RE,
     ARROW_RE,
     CONSTANT_LINE,
+    DECAY_KEYS,
     ITEM_RE,
     NAME_RE,
     NUMBER_RE,
@@ -25,9 +30,10 @@ from .grammar import (
     TERM_RE,
     split_plain,
     split_top,
+    top_level_equals,
 )
 from .messages import keyword_error, quoted, unknown_arrow
-from .quantities import Value, read_value
+from .quantities import Value, fraction, number_problem, read_value
 from .source import Line
 
 __all__ = [
@@ -37,6 +43,7 @@ __all__ = [
     "Item",
     "KeptList",
     "ListStatement",
+    "RequireStatement",
     "TemperatureStatement",
     "TitleStatement",
     "read_constant",
@@ -257,14 +264,14 @@ class KeptList(NamedTuple):
 
 
 class ConstantSpec(NamedTuple):
-    """A rate-constant definition: a plain value or Arrhenius parameters (an immutable
-    record, like :class:`~kinetics.language.quantities.Value`).
+    """A definition ``name = ...``: a plain value, Arrhenius parameters of plain values, or
+    an expression (an immutable record, like :class:`~kinetics.language.quantities.Value`).
 
     Examples
     --------
     >>> spec = ConstantSpec("k1", 1, Value("0.12", "1/min", 6, 11), text="0.12 1/min")
-    >>> spec.is_arrhenius
-    False
+    >>> spec.is_arrhenius, spec.expression is None
+    (False, True)
     """
 
     name: str
@@ -273,17 +280,23 @@ class ConstantSpec(NamedTuple):
     prefactor: Value | None = None
     energy: Value | None = None
     text: str = ""
+    expression: Expr | None = None
 
     @property
     def is_arrhenius(self) -> bool:
-        """True for ``arrhenius(A = ..., Ea = ...)``."""
+        """True for ``arrhenius(A = ..., Ea = ...)`` with plain values."""
         return self.prefactor is not None
 
 
 def read_constant(
-    line: Line, name: str, name_col0: int, text: str, text_col0: int
+    line: Line, name: str, name_col0: int, text: str, text_col0: int, *, rate: bool = True
 ) -> ConstantSpec | list[SchemeError]:
-    """Read the right-hand side of ``name = ...``: a value with a unit, or Arrhenius.
+    """Read the right-hand side of ``name = ...``: a value with a unit, Arrhenius parameters
+    or an expression (:mod:`~kinetics.language.arithmetic`).
+
+    A plain value (a number and a unit pint reads, or words without operators) and an
+    Arrhenius law of plain values keep their own readers and messages; anything else is
+    read as an expression.
 
     Parameters
     ----------
@@ -295,6 +308,10 @@ def read_constant(
         0-based columns of the name and of the right-hand side ``text``.
     text : str
         The right-hand side.
+    rate : bool, optional
+        True on a reaction line (the value is a rate constant: it needs a unit and
+        cannot be negative); False on a line of its own (a named quantity of any
+        dimension, checked once it is known how the file uses it).
 
     Returns
     -------
@@ -308,14 +325,24 @@ def read_constant(
     ('1.0e13 1/s', '95 kJ/mol')
     >>> [e.problem for e in read_constant(Line("t", 1, "k1 = 2", "k1 = 2"), "k1", 0, "2", 5)]
     ['rate constant k1 has no unit']
+    >>> code = "k2 = k1 / 3"
+    >>> read_constant(Line("t", 1, code, code), "k2", 0, code[5:], 5).expression.op
+    '/'
     """
     arr = ARRHENIUS_RE.match(text)
-    if arr:
+    if arr and all(_plain_value(piece.partition("=")[2]) for piece, _ in split_top(arr["body"], 0)):
         return _read_arrhenius(line, name, name_col0, text, text_col0, arr)
-    value = read_value(line, text, text_col0, f"rate constant {name}", "0.12 1/min")
+    if not _plain_value(text):
+        what = f"rate constant {name}" if rate else name
+        tree = read_expression(line, text, text_col0, what, name)
+        if isinstance(tree, list):
+            return tree
+        return ConstantSpec(name, name_col0 + 1, text=text.strip(), expression=tree)
+    what, example = (f"rate constant {name}", "0.12 1/min") if rate else (name, "50 h")
+    value = read_value(line, text, text_col0, what, example, signed=not rate)
     if isinstance(value, SchemeError):
         return [value]
-    if not value.unit:
+    if not value.unit and rate:
         return [
             line.error(
                 f"rate constant {name} has no unit",
@@ -325,6 +352,24 @@ def read_constant(
             )
         ]
     return ConstantSpec(name, name_col0 + 1, value=value, text=text.strip())
+
+
+def _plain_value(text: str) -> bool:
+    """True for a number followed by nothing, by a unit pint reads, or by words without
+    operators (read as a unit, with the messages of a unit)."""
+    match = NUMBER_RE.match(text.strip())
+    if match is None:
+        return False
+    rest = text.strip()[match.end() :].strip()
+    if not rest or rest == "%":
+        return True
+    try:
+        parse_unit(rest)
+    except ValueError:
+        core = re.sub(r"(?<=[^\W\d])(?:\^|\*\*)?[-+]?\d+", "", rest)  # s-1, s^-1, m3
+        core = re.sub(r"^1\s*/", "", core)  # 1/min
+        return not re.search(r"[-+*^(),=%]|\s/|/\s", core)
+    return True
 
 
 def _read_arrhenius(
@@ -373,7 +418,9 @@ def _read_arrhenius(
 
 @dataclass(frozen=True, slots=True)
 class ConstantStatement:
-    """``k1 = 0.12 1/min`` or ``k3 = arrhenius(A = ..., Ea = ...)`` on a line of its own.
+    """``NAME = expression`` on a line of its own: a rate constant (``k1 = 0.12 1/min``,
+    ``k3 = arrhenius(A = ..., Ea = ...)``) or a named quantity of any dimension
+    (``t_p = 50 h``, ``lam = 0.88 * ln(2) / t_p``).
 
     Examples
     --------
@@ -395,13 +442,104 @@ class ConstantStatement:
         name = match.group("name")
         rest = line.code.lstrip()[match.end() :]
         rest_col0 = lead + match.end() + (len(rest) - len(rest.lstrip()))
-        if "=" in rest and TERM_RE.match(rest) and not NUMBER_RE.match(rest.lstrip()):
+        if top_level_equals(rest) and TERM_RE.match(rest) and not NUMBER_RE.match(rest.lstrip()):
             # "A = B + C  k1 = ...": a reaction written with '=' for its arrow
-            if not ARRHENIUS_RE.match(rest.strip()):
-                return [unknown_arrow(line, "=", line.code.index("=", lead))]
-        spec = read_constant(line, name, lead, rest.strip(), rest_col0)
+            return [unknown_arrow(line, "=", line.code.index("=", lead))]
+        if name in RESERVED or name in CALLABLE or name in DECAY_KEYS:
+            return [keyword_error(line, name, lead, "a constant")]
+        spec = read_constant(line, name, lead, rest.strip(), rest_col0, rate=False)
         if isinstance(spec, list):
             return spec
-        if name in RESERVED:
-            return [keyword_error(line, name, lead, "a constant")]
         return cls(spec, line)
+
+
+#: An example of a requirement (in hints).
+REQUIRE_EXAMPLE = "require IMP <= 0.15 % of API"
+_COMPARISON = re.compile(r"\s*(<=|>=|≤|≥|==|=<|=>|<|>|=)")
+_PERCENT = re.compile(
+    rf"\s*(?P<number>{NUMBER_RE.pattern})\s*%\s*(?:of\s+(?P<of>{NAME_RE.pattern}))?\s*$"
+)
+
+
+@dataclass(frozen=True, slots=True)
+class RequireStatement:
+    """``require S <= VALUE`` or ``require S >= VALUE``.
+
+    ``VALUE`` is a concentration or amount (``2 mmol/L``), a percentage of the species'
+    own start value (``90 %``) or a percentage of another species' start value
+    (``0.15 % of API``).
+
+    Examples
+    --------
+    >>> code = "require IMP <= 0.15 % of API"
+    >>> s = RequireStatement.from_line(Line("t", 1, code, code))
+    >>> s.species, s.comparison, s.share, s.of, s.text
+    ('IMP', '<=', Fraction(3, 2000), 'API', 'IMP <= 0.15 % of API')
+    """
+
+    species: str
+    species_column: int
+    comparison: str
+    value: Value | None
+    share: Fraction | None
+    of: str | None
+    value_column: int
+    text: str
+    line: Line
+
+    @classmethod
+    def from_line(cls, line: Line) -> RequireStatement | list[SchemeError] | None:
+        """The statement of ``line``, its errors, or None when it is no requirement."""
+        code = line.code
+        match = re.match(r"\s*require(?=\s|$)", code)
+        if not match:
+            return None
+        if ARROW_RE.search(code):
+            return [keyword_error(line, "require", match.end() - 7, "a species")]
+        body = code[match.end() :]
+        name = re.match(rf"\s*({NAME_RE.pattern})", body)
+        if name is None:
+            problem = (
+                "'require' states nothing"
+                if not body.strip()
+                else f"expected a species name after 'require', found {quoted(body.strip())}"
+            )
+            col = match.end() + len(body) - len(body.lstrip()) + 1 if body.strip() else 1
+            snippet = body.strip() or "require"
+            return [line.error(problem, col, snippet, f"write e.g. {REQUIRE_EXAMPLE}")]
+        at = match.end() + name.end()
+        comparison = _COMPARISON.match(code, at)
+        if comparison is None or comparison.group(1) not in ("<=", ">=", "≤", "≥"):
+            found = comparison.group(1) if comparison else (code[at:].split() or [""])[0]
+            column = (
+                comparison.start(1) if comparison else at + len(code[at:]) - len(code[at:].lstrip())
+            ) + 1
+            return [
+                line.error(
+                    f"unknown comparison {quoted(found)} in a requirement"
+                    if found
+                    else "a requirement needs a comparison",
+                    column,
+                    found or " ",
+                    "write <= (stays at or below) or >= (stays at or above), e.g. "
+                    + REQUIRE_EXAMPLE,
+                )
+            ]
+        op = {"≤": "<=", "≥": ">="}.get(comparison.group(1), comparison.group(1))
+        rest = code[comparison.end() :]
+        rest_col0 = comparison.end() + len(rest) - len(rest.lstrip())
+        text = code[match.end() :].strip()
+        species, species_col = name.group(1), match.end() + name.start(1) + 1
+        percent = _PERCENT.match(rest)
+        if percent is not None:
+            number = percent.group("number")
+            trouble = number_problem(number, f"the limit of {species}", "90 %", False)
+            if trouble is not None:
+                return [line.error(trouble[0], rest_col0 + 1, number, trouble[1])]
+            share = fraction(number) / 100
+            of = percent.group("of") or species
+            return cls(species, species_col, op, None, share, of, rest_col0 + 1, text, line)
+        value = read_value(line, rest.strip(), rest_col0, f"the limit of {species}", "2 mmol/L")
+        if isinstance(value, SchemeError):
+            return [value]
+        return cls(species, species_col, op, value, None, None, value.column, text, line)

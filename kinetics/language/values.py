@@ -22,7 +22,14 @@ from .quantities import Value, exact, scaled, unit_of
 from .source import Line
 from .statements import Item, ListStatement
 
-__all__ = ["AMOUNT_KINDS", "ListedValues", "ValueContext", "convert_masses", "resolve_values"]
+__all__ = [
+    "AMOUNT_KINDS",
+    "ListedValues",
+    "ValueContext",
+    "activity_basis",
+    "convert_masses",
+    "resolve_values",
+]
 
 #: The list statements whose values are amounts or concentrations.
 AMOUNT_KINDS = ("start", "excess", "feed")
@@ -69,9 +76,14 @@ class ListedValues:
         The ``molar_mass`` values [g/mol].
     pending : list of (ListStatement, Item, Fraction)
         The values written as masses, with their SI mass, for :func:`convert_masses`.
+    activities : dict of str to (Fraction, Item, Line)
+        Start values written as activities: the SI activity [Bq, or Bq per unit of the
+        basis], converted to amounts once the decay constants are known
+        (:func:`kinetics.language.activities.start_from_activities`).
     """
 
     def __init__(self) -> None:
+        self.activities: dict[str, tuple[Fraction, Item, Line]] = {}
         self.values: dict[str, dict[str, float]] = {kind: {} for kind in AMOUNT_KINDS}
         self.si: dict[str, dict[str, Fraction | None]] = {kind: {} for kind in AMOUNT_KINDS}
         self.formulas: dict[str, tuple[Item, Line]] = {}
@@ -178,6 +190,9 @@ def _resolve_item(
     if not isinstance(spec, UnitSpec):
         found.add(spec)
         return
+    if s.kind == "start" and activity_basis(spec) is not None:
+        _activity(s, item, spec, context.unit, out, found)
+        return
     kind = kind_of(v.unit, per_time=s.kind == "feed")
     if kind is None or kind.basis != context.unit.family.basis:
         found.add(family_error(s, item, spec, kind, context.unit))
@@ -191,6 +206,58 @@ def _resolve_item(
     if value is not None:
         out.values[s.kind][item.name] = value
         out.si[s.kind][item.name] = si
+
+
+#: The basis of an activity: the dimension besides 1/time -> the basis' name.
+_ACTIVITY_BASES = {(): "absolute", (("[length]", 3),): "volume", (("[mass]", 1),): "soil"}
+
+
+def activity_basis(spec: UnitSpec) -> str | None:
+    """``"absolute"`` for an activity (Bq), ``"volume"`` per volume (Bq/L), ``"soil"``
+    per mass (Bq/kg); None for any other unit.
+
+    Examples
+    --------
+    >>> from kinetics.units import parse_unit
+    >>> activity_basis(parse_unit("GBq")), activity_basis(parse_unit("MBq/L"))
+    ('absolute', 'volume')
+    >>> activity_basis(parse_unit("mol/L")) is None
+    True
+    """
+    dims = spec.dims
+    if spec.offset or dims.get("[time]") != -1:
+        return None
+    rest = tuple(sorted((k, -int(v)) for k, v in dims.items() if k != "[time]" and v))
+    return _ACTIVITY_BASES.get(rest)
+
+
+def _activity(
+    s: ListStatement,
+    item: Item,
+    spec: UnitSpec,
+    unit: ConcentrationUnit,
+    out: ListedValues,
+    found: Diagnostics,
+) -> None:
+    """A start value written as an activity: kept for the decay constants, or refused
+    when the file's values are of another basis."""
+    v = item.value
+    assert v is not None
+    family = unit.family
+    if activity_basis(spec) != family.basis or family.substance == "number":
+        per = {"absolute": "", "volume": " per volume", "soil": " per mass"}
+        origin = f" ({unit.origin})" if unit.origin else ""
+        found.error(
+            s.line,
+            f"start {item.name} = {v.text} is an activity{per[activity_basis(spec) or '']}, "
+            f"but this file gives {family.plural}{origin}",
+            v.unit_column,
+            v.unit,
+            "an activity sets a number of atoms: give activities with amounts (GBq with "
+            "mol), activities per volume with concentrations (MBq/L with mol/L)",
+        )
+        return
+    out.activities[item.name] = (scaled(v.number, spec.factor), item, s.line)
 
 
 def _molar_mass(s: ListStatement, name: str, v: Value, found: Diagnostics) -> float | None:
