@@ -335,7 +335,7 @@ def resolve(scheme: Scheme, name: str, words) -> Target:
     constants = scheme.constants
     allowed = words.allowed
     if "temperature" in allowed and name in ("temperature", "T"):
-        if not any(c.arrhenius is not None for c in constants.values()):
+        if not scheme.temperature_constants:
             raise words.temperature_unused()
         unit = file_temperature_unit(scheme)
         return Target("temperature", "temperature", "", unit, "temperature", scheme.temperature)

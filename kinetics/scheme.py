@@ -655,6 +655,20 @@ class Scheme:
         t = self.temperature if temperature is None else temperature
         return constant_values(self.constants, self.dependencies, t, values)
 
+    @property
+    def temperature_constants(self) -> tuple[str, ...]:
+        """The rate constants whose values follow the temperature.
+
+        Arrhenius lines, Eyring and Q10 laws, and constants defined from them: the ones
+        without a fixed value (``value_si`` None).
+
+        >>> from kinetics import parse
+        >>> parse("A -> B  k1 = arrhenius(A = 1e13 1/s, Ea = 95 kJ/mol)\\n"
+        ...       "temperature = 60 degC\\nstart A = 1 M").temperature_constants
+        ('k1',)
+        """
+        return tuple(name for name, c in self.constants.items() if c.value_si is None)
+
     def driven_by(self, name: str) -> tuple[str, ...]:
         """The rate constants whose values follow from the named quantity ``name`` (see
         the example of :meth:`exact_constants`)."""

@@ -342,7 +342,7 @@ class _Checker:
         matrix = set(scheme.species_names)
         self.species = matrix
         self.excess = {s.name for s in scheme.excess_species}
-        self.arrhenius = any(c.arrhenius is not None for c in scheme.constants.values())
+        self.arrhenius = bool(scheme.temperature_constants)
 
     def time(self, value, what: str, place: Place) -> bool:
         if isinstance(value, bool) or not isinstance(value, numbers.Real):

@@ -348,3 +348,15 @@ def test_ambiguity_is_always_reported_when_only_c_is_measured(abc, seed):
     frame = pd.DataFrame({"time [min]": t, "C [mol/L]": c + rng.normal(0.0, 0.01, t.size)})
     result = fit(abc, frame, "k1,k2", profile=False)
     assert any("intermediate B" in w for w in result.warnings), result.warnings
+
+
+def test_constants_defined_from_the_free_ones_follow_them(tmp_path):
+    # k2 = k1 / 3: data made with k1 = 0.3 1/h (and so k2 = 0.1 1/h) give back k1 = 0.3
+    # 1/h only if k2 follows k1 inside the fit (exact data from kinetics.solve)
+    s = kinetics.parse("A -> B  k1 = 0.1 1/h\nB -> C  k2 = k1 / 3\nstart A = 1 mol/L\n")
+    truth = s.with_values(constants={"k1": 0.3 / 3600})
+    t = np.linspace(0.0, 20 * 3600.0, 9)
+    frame = pd.DataFrame({"time [s]": t, "B [mol/L]": kinetics.solve(truth, t)["B"]})
+    frame.to_csv(tmp_path / "d.csv", index=False)
+    result = kinetics.fit(s, tmp_path / "d.csv", free=["k1"])
+    assert result.value("k1") == pytest.approx(0.3, rel=1e-9)

@@ -813,3 +813,27 @@ def test_monte_carlo_bands_carry_the_worst_bound_of_their_samples(chain):
         bands["relative error bound"], result.bound.reshape(2, 20).max(axis=1)
     )
     assert "relative error bound" not in percentile_bands(plan, rows.iloc[:, :-1]).columns
+
+
+def test_constants_defined_from_others_follow_the_varied_ones():
+    # k2 = k1 / 3 follows k1 in every set: each row equals a solve of the scheme with
+    # that k1 (Scheme.with_values, where the definitions are followed exactly)
+    s = kinetics.parse("A -> B  k1 = 0.1 1/h\nB -> C  k2 = k1 / 3\nstart A = 1 mol/L\n")
+    table = kinetics.sweep(s, {"k1": [0.5, 1.0]}, [0.0, 3600.0 * 20])
+    for row, k1 in zip(table.itertuples(index=False), (0.5, 1.0), strict=True):
+        one = kinetics.solve(s.with_values(constants={"k1": k1 / 3600}), [0.0, 72000.0])
+        expected = one.summary("s")["B"]["t_max"]
+        assert row[2] == pytest.approx(expected, rel=1e-12)
+
+
+def test_temperature_laws_other_than_arrhenius_follow_the_temperature():
+    # an eyring constant in a temperature sweep equals a solve at that temperature
+    s = kinetics.parse(
+        "API -> D  k1 = eyring(dH = 90 kJ/mol, dS = -20 J/(mol K))\n"
+        "temperature = 25 degC\nstart API = 1 mol/L\n"
+    )
+    table = kinetics.sweep(s, {"temperature": [30.0, 40.0]}, [0.0, 3600.0])
+    for row, celsius in zip(table.itertuples(index=False), (30.0, 40.0), strict=True):
+        one = kinetics.solve(s.with_values(temperature=celsius + 273.15), [0.0, 3600.0])
+        expected = one.summary("s")["API"]["half_life"]
+        assert row[1] == pytest.approx(expected, rel=1e-12)

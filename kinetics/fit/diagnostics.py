@@ -227,7 +227,7 @@ def fit_warnings(state: FitState) -> list[str]:
     model = state.model
     out += _plausibility(model.scheme, model, model.runs, state.params, state.theta)
     temps = {d.conditions.get("temperature") for d in state.datasets} - {None}
-    if temps and not any(c.arrhenius for c in model.scheme.constants.values()):
+    if temps and not model.scheme.temperature_constants:
         out.append(
             "A temperature is set for a data set, but no constant of the scheme depends on "
             "the temperature (none is defined with arrhenius)."

@@ -12,6 +12,7 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
+from fractions import Fraction
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -190,11 +191,45 @@ class Model:
                 dk[parts["prefactor"], c] = k[c]
             if "energy" in parts:
                 dk[parts["energy"], c] = -k[c] * self.t_ref / run.temperature
+        self._follow(run, k, dk, derivatives)
         rates = self.phi * k[self.step_const]
         if not derivatives:
             return rates, c0, None, None
         drates = self.phi[None, :] * dk[:, self.step_const]
         return rates, c0, drates, dc0
+
+    def _follow(self, run: Run, k: np.ndarray, dk: np.ndarray, derivatives: bool) -> None:
+        """Constants defined from the fitted ones follow them (in place), with derivatives.
+
+        The followers are evaluated exactly (:meth:`kinetics.scheme.Scheme.exact_constants`);
+        their derivatives by the chain rule, with each partial derivative from a central
+        difference of exact evaluations at a relative step of 2^-40 (rational definitions
+        differentiate exactly; the others carry about 1e-25 relative).
+        """
+        free = [self.const_names[c] for c in sorted(set(self.const_of.values()))]
+        followers = [
+            f
+            for f in dict.fromkeys(x for c in free for x in self.scheme.driven_by(c))
+            if f not in free
+        ]
+        if not followers:
+            return
+        at = {c: Fraction(float(k[self.const_names.index(c)])) for c in free}
+        exact = self.scheme.exact_constants(run.temperature, at)
+        index = {name: i for i, name in enumerate(self.const_names)}
+        for f in followers:
+            k[index[f]] = float(exact[f])
+        if not derivatives:
+            return
+        for c in free:
+            h = at[c] * Fraction(1, 2**40)
+            if h == 0:
+                continue
+            up = self.scheme.exact_constants(run.temperature, {**at, c: at[c] + h})
+            down = self.scheme.exact_constants(run.temperature, {**at, c: at[c] - h})
+            for f in followers:
+                slope = float((up[f] - down[f]) / (2 * h))
+                dk[:, index[f]] += slope * dk[:, index[c]]
 
     def _solve_run(self, run: Run, theta, derivatives: bool):
         rates, c0, drates, dc0 = self.run_state(run, theta, derivatives)
@@ -359,16 +394,17 @@ def build_runs(scheme, datasets, params, weights) -> list[Run]:
     runs = []
     for m in datasets:
         temperature = m.conditions.get("temperature", scheme.temperature)
-        k_base = np.empty(len(names))
-        for i, name in enumerate(names):
+        given = {}
+        for name in names:
             if name in m.conditions:
                 if name in free_consts:
                     raise UsageError(
                         f"{name} is free but {m.source} also sets it", "free it or set it, not both"
                     )
-                k_base[i] = m.conditions[name]
-            else:
-                k_base[i] = scheme.constants[name].si_value(temperature)
+                given[name] = m.conditions[name]
+        # the run's constants, exactly; constants defined from the given ones follow
+        exact = scheme.exact_constants(temperature, given)
+        k_base = np.array([float(exact[name]) for name in names])
         initial = dict(scheme.initial)
         for key, value in m.conditions.items():
             if key.startswith("start:"):

@@ -60,6 +60,54 @@ def _constant_pairs(plan: SweepPlan, name: str, varied: _SetValues):
     )
 
 
+def _followers(plan: SweepPlan, varied: _SetValues, constants: dict, b: int) -> dict:
+    """Pairs of the constants that follow the varied ones through the file's definitions.
+
+    A constant defined from others (``k2 = k1 / 3``) or by a temperature law other than
+    a plain ``arrhenius`` line (``eyring(...)``, ``q10(...)``, expressions) is evaluated
+    exactly for each distinct set by :meth:`kinetics.scheme.Scheme.exact_constants`
+    (40 digits), with the varied constants and the temperature of that set.
+    """
+    scheme = plan.scheme
+    deps = scheme.dependencies
+    if not deps:
+        return {}
+    changed = [c for c, v in constants.items() if v is not None]
+    affected: set[str] = set()
+    for c in changed:
+        affected.update(scheme.driven_by(c))
+    t = varied.get("temperature")
+    if t is not None:
+        hot = set(deps.on_temperature) & set(scheme.constants)
+        for c in hot:
+            affected.add(c)
+            affected.update(scheme.driven_by(c))
+    affected -= set(changed)
+    if not affected:
+        return {}
+    columns = [
+        np.broadcast_to(np.asarray(constants[c][j], dtype=float), (b,))
+        for c in changed
+        for j in (0, 1)
+    ]
+    temps = np.full(b, np.nan) if t is None else np.asarray(t[0], dtype=float)
+    cache: dict[tuple, dict] = {}
+    out = {c: (np.empty(b), np.empty(b)) for c in affected}
+    for i in range(b):
+        key = (float(temps[i]), *(float(col[i]) for col in columns))
+        values = cache.get(key)
+        if values is None:
+            given = {
+                c: Fraction(key[1 + 2 * m]) + Fraction(key[2 + 2 * m])
+                for m, c in enumerate(changed)
+            }
+            exact = scheme.exact_constants(None if t is None else key[0], given)
+            values = cache[key] = {c: dd.pair(exact[c]) for c in affected}
+        for c in affected:
+            out[c][0][i], out[c][1][i] = values[c]
+    return out
+
+
 def _excess_power(w, nu):
     """:math:`W^\\nu` for excess concentrations ``w`` [SI] given as pairs ``(hi, lo)``.
 
@@ -131,6 +179,7 @@ def input_pairs(plan: SweepPlan, internal: np.ndarray, low: np.ndarray):
     hi = np.broadcast_to(base_hi, (b, base_hi.size)).copy()
     lo = np.broadcast_to(base_lo, (b, base_lo.size)).copy()
     constants = {c: _constant_pairs(plan, c, varied) for c in scheme.constants}
+    constants.update(_followers(plan, varied, constants, b))
     for s, step in enumerate(scheme.steps):
         rate = _step_rate(plan, s, constants[step.constant], varied, b)
         if rate is not None:
