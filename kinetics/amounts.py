@@ -34,7 +34,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .errors import UsageError, shorten
+from .errors import OutputUnitError, shorten
 from .units import is_mass_ratio, parse_unit
 
 if TYPE_CHECKING:
@@ -272,7 +272,7 @@ def output_factors(scheme: Scheme, unit: str) -> np.ndarray:
 
     Raises
     ------
-    UsageError
+    OutputUnitError
         For a unit of another basis, a mass unit where a species that can be present
         has no molar mass, and "% of applied" with a feed or nothing applied.
     """
@@ -280,13 +280,13 @@ def output_factors(scheme: Scheme, unit: str) -> np.ndarray:
     if is_percent_of_applied(unit):
         applied = float(np.sum(scheme.initial_vector))
         if scheme.feed:
-            raise UsageError(
+            raise OutputUnitError(
                 f"'{PERCENT_OF_APPLIED}' is not defined for a scheme with a feed (the "
                 "applied amount grows with time)",
                 f"choose a unit such as {scheme.concentration_unit}",
             )
         if not applied > 0:
-            raise UsageError(
+            raise OutputUnitError(
                 f"'{PERCENT_OF_APPLIED}' needs start values above 0 (nothing is applied)",
                 "add a start line, e.g. start A = 1 mg/kg",
             )
@@ -297,7 +297,7 @@ def output_factors(scheme: Scheme, unit: str) -> np.ndarray:
     if here is None or there is None or there.basis != here.basis or here.basis == "ratio":
         described = f"{there.article} {there.name}" if there else "no amount or mass unit"
         gives = here.plural if here else "values"
-        raise UsageError(
+        raise OutputUnitError(
             f"the output unit {shorten(unit)!r} is {described}, but the scheme gives "
             f"{gives} ({scheme.concentration_unit})",
             "report in an amount or a mass unit of the same kind (e.g. mmol/L or mg/L for "
@@ -310,7 +310,7 @@ def output_factors(scheme: Scheme, unit: str) -> np.ndarray:
     present = reachable(scheme)
     missing = [s.name for s in scheme.species if s.molar_mass is None and s.name in present]
     if missing:
-        raise UsageError(
+        raise OutputUnitError(
             f"{', '.join(missing[:5])}{' ...' if len(missing) > 5 else ''} "
             f"{'has' if len(missing) == 1 else 'have'} no molar mass, so "
             f"{'its' if len(missing) == 1 else 'their'} {shorten(unit)} cannot be computed",

@@ -20,7 +20,7 @@ from fractions import Fraction
 from functools import cached_property
 from typing import TYPE_CHECKING
 
-from .errors import ExpressionError, UsageError
+from .errors import ExpressionError, TemperatureError
 from .expressions import (
     Dims,
     ExactQuantity,
@@ -340,7 +340,7 @@ def constant_values(
 
     Raises
     ------
-    UsageError
+    TemperatureError
         When a constant depends on the temperature and none is given.
     ExpressionError
         When a definition cannot be evaluated, or a constant becomes negative.
@@ -367,7 +367,7 @@ def constant_values(
     return out
 
 
-def needs_temperature(name: str, arrhenius: bool) -> UsageError:
+def needs_temperature(name: str, arrhenius: bool) -> TemperatureError:
     """The one error of a constant that depends on a temperature when none is given.
 
     Examples
@@ -383,7 +383,7 @@ given; give the temperature in kelvin'
             f"rate constant {name} depends on the temperature (through a temperature law) "
             "and none is given"
         )
-    return UsageError(problem, "give the temperature in kelvin")
+    return TemperatureError(problem, "give the temperature in kelvin")
 
 
 def follow(

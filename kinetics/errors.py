@@ -32,11 +32,14 @@ __all__ = [
     "ArgumentTypeError",
     "ArgumentValueError",
     "ConcentrationError",
+    "ConditionError",
+    "ConstantError",
     "DataError",
     "ExpressionError",
     "GrowthError",
     "KineticsError",
     "OutputFileError",
+    "OutputUnitError",
     "RateMatrixError",
     "SchemeError",
     "SchemeErrors",
@@ -44,6 +47,7 @@ __all__ = [
     "SettingError",
     "SpeciesError",
     "TableSizeError",
+    "TemperatureError",
     "TimesError",
     "UnitError",
     "UnknownUnitError",
@@ -304,8 +308,10 @@ class ArgumentValueError(_ProblemAndHint, ValueError):
 
     The common base of :class:`UsageError` (the command line) and of the typed errors of
     the numerical core (:class:`RateMatrixError`, :class:`ConcentrationError`,
-    :class:`TimesError`, :class:`SpeciesError`, :class:`SettingError`,
-    :class:`WorkingRangeError`, :class:`TableSizeError`): ``except ArgumentValueError``
+    :class:`TimesError`, :class:`TemperatureError`, :class:`ConstantError`,
+    :class:`ConditionError`, :class:`OutputUnitError`, :class:`SpeciesError`,
+    :class:`SettingError`, :class:`WorkingRangeError`, :class:`TableSizeError`):
+    ``except ArgumentValueError``
     catches a wrong value wherever it was given.
 
     Examples
@@ -340,7 +346,55 @@ class ConcentrationError(ArgumentValueError):
 
 class TimesError(ArgumentValueError):
     """Times [s] that cannot be used: not numbers, not a flat increasing list, negative,
-    an empty list, or a time window or grid end that is not a positive finite time."""
+    an empty list, or a time window or grid end that is not a positive finite time; also
+    a duration or time list written as text that cannot be read, and a unit of time that
+    is unknown or not a time (``--until '5y'``, ``time_unit="kg"``).
+
+    Examples
+    --------
+    >>> from kinetics.units import time_factor
+    >>> try:
+    ...     time_factor("kg")
+    ... except TimesError as error:
+    ...     print(error.problem)
+    'kg' is not a unit of time
+    """
+
+
+class TemperatureError(ArgumentValueError):
+    """A temperature [K] that cannot be used: not finite or not above 0 K, or none given
+    where a rate constant depends on the temperature (an Arrhenius or other temperature
+    law).
+
+    Examples
+    --------
+    >>> str(TemperatureError("temperature -3 K must be finite and above 0 K"))
+    'temperature -3 K must be finite and above 0 K'
+    """
+
+
+class ConstantError(ArgumentValueError):
+    """A rate constant or named quantity given to a library function that the scheme does
+    not have, or a value it cannot take (not a number, not finite, a negative rate
+    constant).
+
+    Examples
+    --------
+    >>> isinstance(ConstantError("no rate constant named 'k9' in the scheme"), ValueError)
+    True
+    """
+
+
+class ConditionError(ArgumentValueError):
+    """A run condition ``KEY=VALUE`` of a measured data set that cannot be used: not of
+    that form, an unknown key, a unit of the wrong kind, or a value out of range (see
+    :func:`kinetics.measurements.parse_condition`)."""
+
+
+class OutputUnitError(ArgumentValueError):
+    """An output unit that does not fit the scheme: another kind of concentration, a mass
+    unit for a species without a molar mass, or "% of applied" for a scheme with a feed
+    or with nothing applied (see :func:`kinetics.amounts.output_factors`)."""
 
 
 class SpeciesError(ArgumentValueError):

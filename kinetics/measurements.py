@@ -35,7 +35,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .errors import DataError, UsageError
+from .errors import ConditionError, DataError
 from .suggest import close_matches
 from .units import (
     TIME_UNITS,
@@ -465,16 +465,18 @@ def parse_condition(text: str, scheme: Scheme) -> tuple[str, float]:
 
     Raises
     ------
-    UsageError
+    ConditionError
         For an unknown key, a missing or wrong-dimension unit.
     """
     key, sep, value = text.partition("=")
     key = key.strip()
     if not sep or not key or not value.strip():
-        raise UsageError(f"--set {text!r} is not KEY=VALUE", "write e.g. --set temperature=40degC")
+        raise ConditionError(
+            f"--set {text!r} is not KEY=VALUE", "write e.g. --set temperature=40degC"
+        )
     match = _NUMBER_UNIT.match(value)
     if not match:
-        raise UsageError(
+        raise ConditionError(
             f"--set {text!r}: {value.strip()!r} is not a number with a unit",
             "write e.g. --set temperature=40degC",
         )
@@ -486,16 +488,16 @@ def parse_condition(text: str, scheme: Scheme) -> tuple[str, float]:
         try:
             kelvin = temperature_to_kelvin(number, unit or "K")
         except ValueError:
-            raise UsageError(
+            raise ConditionError(
                 f"--set {text!r}: {unit!r} is not a temperature unit", "use K or degC"
             ) from None
         if not kelvin > 0:
-            raise UsageError(f"--set {text!r}: the temperature is at or below absolute zero")
+            raise ConditionError(f"--set {text!r}: the temperature is at or below absolute zero")
         return key, kelvin
     if key.startswith("start:"):
         species = key[len("start:") :].strip()
         if species not in scheme.species_names:
-            raise UsageError(
+            raise ConditionError(
                 f"--set {text!r}: {species!r} is not a species of the scheme",
                 _did_you_mean(species, scheme.species_names),
             )
@@ -503,11 +505,11 @@ def parse_condition(text: str, scheme: Scheme) -> tuple[str, float]:
         try:
             converted = convert(number, unit or target, target)
         except ValueError:
-            raise UsageError(
+            raise ConditionError(
                 f"--set {text!r}: {unit!r} is not a concentration unit like {target}"
             ) from None
         if converted < 0:
-            raise UsageError(f"--set {text!r}: a start concentration cannot be negative")
+            raise ConditionError(f"--set {text!r}: a start concentration cannot be negative")
         return f"start:{species}", converted
     if key in scheme.constants:
         constant = scheme.constants[key]
@@ -516,17 +518,17 @@ def parse_condition(text: str, scheme: Scheme) -> tuple[str, float]:
             spec = parse_unit(unit)
             goal = parse_unit(si_unit)
         except ValueError:
-            raise UsageError(f"--set {text!r}: unknown unit {unit!r}") from None
+            raise ConditionError(f"--set {text!r}: unknown unit {unit!r}") from None
         if not unit or spec.dimensions != goal.dimensions:
-            raise UsageError(
+            raise ConditionError(
                 f"--set {text!r}: {key} needs a unit like {si_unit}",
                 f"write e.g. --set {key}=0.1 {si_unit}",
             )
         si = float(number * spec.factor)
         if not si > 0:
-            raise UsageError(f"--set {text!r}: a rate constant must be positive")
+            raise ConditionError(f"--set {text!r}: a rate constant must be positive")
         return key, si
-    raise UsageError(
+    raise ConditionError(
         f"--set {text!r}: unknown key {key!r}",
         "use temperature=..., start:SPECIES=... or the name of a rate constant",
     )

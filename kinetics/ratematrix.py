@@ -34,7 +34,13 @@ import numpy as np
 import scipy.sparse
 
 from . import _doubledouble as dd
-from .errors import UsageError, shown_value
+from .errors import (
+    ConcentrationError,
+    ConstantError,
+    SpeciesError,
+    TemperatureError,
+    shown_value,
+)
 
 if TYPE_CHECKING:
     from .scheme import Scheme
@@ -208,9 +214,15 @@ def step_rates(
 
     Raises
     ------
-    UsageError
-        For an unknown constant or excess name, a value that is negative or not
-        finite, or a temperature that is not above 0 K.
+    ConstantError
+        For an unknown constant name, or a constant that is negative or not finite.
+    SpeciesError
+        For an unknown excess species.
+    ConcentrationError
+        For an excess concentration that is negative or not finite.
+    TemperatureError
+        For a temperature that is not finite and above 0 K, or none where a constant
+        needs one.
 
     Notes
     -----
@@ -309,24 +321,28 @@ def _to_float(value) -> float:
 def _check_overrides(scheme: Scheme, constants, temperature, excess) -> None:
     for name, value in constants.items():
         if name not in scheme.constants:
-            raise UsageError(
+            raise ConstantError(
                 f"no rate constant named {name!r} in the scheme",
                 "known constants: " + ", ".join(scheme.constants),
             )
         if not (math.isfinite(value) and value >= 0):
-            raise UsageError(f"rate constant {name} = {shown_value(value)} must be finite and >= 0")
+            raise ConstantError(
+                f"rate constant {name} = {shown_value(value)} must be finite and >= 0"
+            )
     for name, value in excess.items():
         if name not in scheme._excess_si:
-            raise UsageError(
+            raise SpeciesError(
                 f"no excess species named {name!r} in the scheme",
                 "excess species: " + (", ".join(scheme._excess_si) or "none"),
             )
         if not (math.isfinite(value) and value >= 0):
-            raise UsageError(
+            raise ConcentrationError(
                 f"excess concentration {name} = {shown_value(value)} must be finite and >= 0"
             )
     if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
-        raise UsageError(f"temperature {shown_value(temperature)} K must be finite and above 0 K")
+        raise TemperatureError(
+            f"temperature {shown_value(temperature)} K must be finite and above 0 K"
+        )
 
 
 def dense_rate_matrix(scheme: Scheme, rates: np.ndarray | None = None) -> np.ndarray:

@@ -31,7 +31,14 @@ from .definitions import (
     follow,
     needs_temperature,
 )
-from .errors import UsageError, shown_value
+from .errors import (
+    ArgumentValueError,
+    ConcentrationError,
+    ConstantError,
+    SpeciesError,
+    TemperatureError,
+    shown_value,
+)
 from .requirements import Requirement
 from .units import GAS_CONSTANT_EXACT
 
@@ -137,7 +144,7 @@ class Arrhenius:
         from . import _doubledouble as dd
 
         if not temperature > 0:
-            raise UsageError(f"temperature {shown_value(temperature)} K must be above 0 K")
+            raise TemperatureError(f"temperature {shown_value(temperature)} K must be above 0 K")
         exponent = -Fraction(self.activation_energy) / (GAS_CONSTANT_EXACT * Fraction(temperature))
         return self.prefactor_si * dd.decimal_exp(exponent)
 
@@ -196,7 +203,7 @@ def arrhenius_pairs(
 
     Raises
     ------
-    UsageError
+    TemperatureError
         For a temperature that is not above 0 K.
 
     References
@@ -273,7 +280,7 @@ class RateConstant:
 
         Raises
         ------
-        UsageError
+        TemperatureError
             When it depends on the temperature and ``temperature`` is None.
         """
         if self.value_si is not None:
@@ -289,9 +296,7 @@ class RateConstant:
         """The constant in SI base units (at ``temperature`` [K] for Arrhenius ones)."""
         if self.arrhenius is not None:
             if temperature is None:
-                raise UsageError(
-                    f"rate constant {self.name} follows the Arrhenius law and needs a temperature"
-                )
+                raise needs_temperature(self.name, arrhenius=True)
             return self.arrhenius.at(temperature)
         if self.value_si is not None:
             return float(self.value_si)
@@ -500,13 +505,13 @@ class Scheme:
 
         Raises
         ------
-        UsageError
+        SpeciesError
             When the scheme has no species of that name.
         """
         try:
             return self._by_name[name]
         except KeyError:
-            raise UsageError(
+            raise SpeciesError(
                 f"no species named {name!r} in the scheme",
                 "species: " + ", ".join(self._by_name),
             ) from None
@@ -636,9 +641,10 @@ class Scheme:
 
         Raises
         ------
-        UsageError
-            For an unknown name, a value that is not finite, or a constant that needs a
-            temperature when there is none.
+        ConstantError
+            For an unknown name or a value that is not finite.
+        TemperatureError
+            For a constant that needs a temperature when there is none.
         ExpressionError
             When a definition cannot be evaluated with the new values, or a constant
             becomes negative.
@@ -707,8 +713,15 @@ class Scheme:
 
         Raises
         ------
-        UsageError
-            For unknown names and for values that are negative or not finite.
+        ConstantError
+            For an unknown rate constant or named quantity, or a value of one that is
+            negative or not finite.
+        SpeciesError
+            For an unknown species or excess species.
+        ConcentrationError
+            For a start value or an excess concentration that is negative or not finite.
+        TemperatureError
+            For a temperature that is not finite and above 0 K.
         ExpressionError
             When a definition cannot be evaluated with the new values.
         """
@@ -730,11 +743,11 @@ def _with_values(
     texts: dict[str, str] = {}
     for name, value in constants.items():
         if name not in scheme.constants:
-            raise UsageError(
+            raise ConstantError(
                 f"no rate constant named {name!r} in the scheme",
                 "known constants: " + ", ".join(scheme.constants),
             )
-        fixed[name] = _checked_fraction(value, f"rate constant {name}")
+        fixed[name] = _checked_fraction(value, f"rate constant {name}", ConstantError)
         texts[name] = f"{shown_value(value)} (SI)"
     for name, given in quantities.items():
         fixed[name] = _named_value(scheme, name, given)
@@ -747,26 +760,29 @@ def _with_values(
     new_initial = dict(scheme.initial)
     for name, value in initial.items():
         if name not in scheme.index:
-            raise UsageError(
+            raise SpeciesError(
                 f"no species named {name!r} in the rate matrix of the scheme",
                 "species: " + ", ".join(scheme.species_names),
             )
-        _checked_fraction(value, f"start value of {name}")
+        _checked_fraction(value, f"start value of {name}", ConcentrationError)
         new_initial[name] = float(value)
     new_excess = dict(scheme.excess)
     new_excess_si = dict(scheme._excess_si)
     for name, value in excess.items():
         if name not in new_excess:
-            raise UsageError(
+            raise SpeciesError(
                 f"no excess species named {name!r} in the scheme",
                 "excess species: " + (", ".join(new_excess) or "none"),
             )
         new_excess_si[name] = (
-            _checked_fraction(value, f"excess concentration of {name}") * scheme._unit_factor
+            _checked_fraction(value, f"excess concentration of {name}", ConcentrationError)
+            * scheme._unit_factor
         )
         new_excess[name] = float(value)
     if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
-        raise UsageError(f"temperature {shown_value(temperature)} K must be finite and above 0 K")
+        raise TemperatureError(
+            f"temperature {shown_value(temperature)} K must be finite and above 0 K"
+        )
     new = replace(
         scheme,
         constants=new_constants,
@@ -785,24 +801,24 @@ def _named_value(scheme: Scheme, name: str, value) -> Fraction:
     """A new value of a named quantity or constant, checked [SI base units], exact."""
     if name not in scheme.quantities and name not in scheme.constants:
         known = [*scheme.quantities, *scheme.dependencies.by_name]
-        raise UsageError(
+        raise ConstantError(
             f"no named quantity {name!r} in the scheme",
             "named quantities: " + (", ".join(dict.fromkeys(known)) or "none"),
         )
     if isinstance(value, (Fraction, int)) and not isinstance(value, bool):
         exact = Fraction(value)  # taken exactly
     elif name in scheme.constants:
-        return _checked_fraction(value, f"rate constant {name}")
+        return _checked_fraction(value, f"rate constant {name}", ConstantError)
     else:
         try:
             number = float(value)
         except (TypeError, ValueError):
-            raise UsageError(f"{name} must be a number, not {shown_value(value)}") from None
+            raise ConstantError(f"{name} must be a number, not {shown_value(value)}") from None
         if not math.isfinite(number):
-            raise UsageError(f"{name} = {shown_value(value)} must be finite")
+            raise ConstantError(f"{name} = {shown_value(value)} must be finite")
         exact = Fraction(number)
     if name in scheme.constants and exact < 0:
-        raise UsageError(f"rate constant {name} = {shown_value(value)} must be finite and >= 0")
+        raise ConstantError(f"rate constant {name} = {shown_value(value)} must be finite and >= 0")
     return exact
 
 
@@ -822,11 +838,12 @@ def _follow_starts(scheme: Scheme, changed: bool) -> Scheme:
     )
 
 
-def _checked_fraction(value: float, what: str) -> Fraction:
+def _checked_fraction(value: float, what: str, error: type[ArgumentValueError]) -> Fraction:
+    """``value`` as an exact Fraction, or ``error`` when it is not a finite number >= 0."""
     try:
         number = float(value)
     except (TypeError, ValueError):
-        raise UsageError(f"{what} must be a number, not {shown_value(value)}") from None
+        raise error(f"{what} must be a number, not {shown_value(value)}") from None
     if not (math.isfinite(number) and number >= 0):
-        raise UsageError(f"{what} = {shown_value(value)} must be finite and >= 0")
+        raise error(f"{what} = {shown_value(value)} must be finite and >= 0")
     return Fraction(number)

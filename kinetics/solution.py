@@ -211,7 +211,7 @@ class Solution:
 
         Raises
         ------
-        UsageError
+        OutputUnitError
             For a unit of another kind, or a mass unit where a species that can be
             present has no molar mass.
 

@@ -38,7 +38,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .errors import DataError, UsageError, shorten
+from .errors import DataError, TimesError, UsageError, shorten
 from .timeline import At, Place, TemperatureStep, Timeline
 from .units import GAS_CONSTANT, TIME_UNITS, temperature_to_kelvin, time_factor
 
@@ -274,7 +274,7 @@ class _Reader:
         (time_unit, time_column), (temp_unit, temp_column) = parsed
         try:
             factor = time_factor(time_unit)
-        except UsageError:
+        except TimesError:
             raise self.fail(
                 line,
                 time_column,

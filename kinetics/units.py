@@ -23,7 +23,7 @@ import re
 from dataclasses import dataclass
 from fractions import Fraction
 
-from .errors import UnitError, UnknownUnitError
+from .errors import ArgumentTypeError, TimesError, UnitError, UnknownUnitError, shorten, type_name
 
 __all__ = [
     "AVOGADRO_EXACT",
@@ -727,7 +727,7 @@ def time_factor(unit: str) -> float:
 
     Raises
     ------
-    UsageError
+    TimesError
         When ``unit`` is unknown or not a unit of time.
 
     Examples
@@ -735,8 +735,6 @@ def time_factor(unit: str) -> float:
     >>> time_factor("h"), time_factor("week")
     (3600.0, 604800.0)
     """
-    from .errors import ArgumentTypeError, UsageError, shorten, type_name
-
     hint = f"use {TIME_UNITS}"
     if not isinstance(unit, str):
         raise ArgumentTypeError(
@@ -745,9 +743,9 @@ def time_factor(unit: str) -> float:
     try:
         spec = parse_unit(unit)
     except ValueError:
-        raise UsageError(f"unknown time unit {shorten(unit)!r}", hint) from None
+        raise TimesError(f"unknown time unit {shorten(unit)!r}", hint) from None
     if spec.offset or spec.dims != {"[time]": 1}:
-        raise UsageError(f"{shorten(unit)!r} is not a unit of time", hint)
+        raise TimesError(f"{shorten(unit)!r} is not a unit of time", hint)
     return float(spec.factor)
 
 
@@ -760,15 +758,13 @@ def _number_and_unit(text: str):
 
 def _finite_value(number: str, quoted: str, example: str) -> float:
     """``float(number)``, refusing nan and infinities with a message that quotes the user."""
-    from .errors import UsageError
-
     value = float(number)
     if math.isnan(value):
-        raise UsageError(f"{quoted} is not a number", example)
+        raise TimesError(f"{quoted} is not a number", example)
     if math.isinf(value):
         spelled = number.lstrip("+-")[:1].lower() == "i"
         reason = "" if spelled else " (beyond the range of double precision, about 1.8e308)"
-        raise UsageError(f"{quoted} is not a finite duration{reason}", example)
+        raise TimesError(f"{quoted} is not a finite duration{reason}", example)
     return value
 
 
@@ -789,7 +785,7 @@ def parse_duration(text: str, option: str = "--until") -> tuple[float, str]:
 
     Raises
     ------
-    UsageError
+    TimesError
         For a missing or unknown unit, a number that is not finite, zero or negative;
         the message quotes the text as written (in the user's unit).
 
@@ -798,25 +794,23 @@ def parse_duration(text: str, option: str = "--until") -> tuple[float, str]:
     >>> parse_duration("90 min")
     (5400.0, 'min')
     """
-    from .errors import UsageError, shorten
-
     example = f"write e.g. {option} '90 min'"
     quoted = f"{option} {shorten(text)!r}"
     if len(text) > MAX_DURATION_TEXT:
-        raise UsageError(f"{quoted} is too long to be a duration", example)
+        raise TimesError(f"{quoted} is too long to be a duration", example)
     number, unit = _number_and_unit(text)
     if number is None or not unit:
-        raise UsageError(f"{quoted} is not a duration with a unit", example)
+        raise TimesError(f"{quoted} is not a duration with a unit", example)
     value = _finite_value(number, quoted, example)
     try:
         factor = time_factor(unit)
-    except UsageError as exc:
-        raise UsageError(f"{quoted}: {exc.problem}", exc.hint) from None
+    except TimesError as exc:
+        raise TimesError(f"{quoted}: {exc.problem}", exc.hint) from None
     if not value > 0:
-        raise UsageError(f"{quoted} is not a positive duration", example)
+        raise TimesError(f"{quoted} is not a positive duration", example)
     seconds = value * factor
     if not math.isfinite(seconds):
-        raise UsageError(
+        raise TimesError(
             f"{quoted} is beyond the range of double precision in seconds (about 1.8e308 s)",
             example,
         )
@@ -840,7 +834,7 @@ def parse_time_list(text: str, option: str = "--times") -> tuple[list[float], st
 
     Raises
     ------
-    UsageError
+    TimesError
         For a missing or unknown unit, a piece that is not a finite number, a negative
         time or times out of order; messages quote the times as written.
 
@@ -849,44 +843,42 @@ def parse_time_list(text: str, option: str = "--times") -> tuple[list[float], st
     >>> parse_time_list("0,5,10 min")
     ([0.0, 300.0, 600.0], 'min')
     """
-    from .errors import UsageError, shorten
-
     example = f"write e.g. {option} '0,5,10,30 min'"
     quoted = f"{option} {shorten(text)!r}"
     if len(text) > MAX_DURATION_TEXT:
-        raise UsageError(
+        raise TimesError(
             f"{quoted} is too long (at most {MAX_DURATION_TEXT:,} characters)", example
         )
     pieces = [p.strip() for p in text.split(",")]
     if not pieces[-1]:
-        raise UsageError(f"{quoted} is not a list of times with one unit", example)
+        raise TimesError(f"{quoted} is not a list of times with one unit", example)
     number, unit = _number_and_unit(pieces[-1])
     for piece in [*pieces[:-1], number]:
         if piece == "":
-            raise UsageError(f"{quoted} has an empty item (a comma too many?)", example)
+            raise TimesError(f"{quoted} has an empty item (a comma too many?)", example)
         if piece is None or _number_and_unit(piece) != (piece, ""):
             bad = pieces[-1] if piece is None else piece
-            raise UsageError(f"{quoted}: {shorten(bad)!r} is not a number", example)
+            raise TimesError(f"{quoted}: {shorten(bad)!r} is not a number", example)
     if not unit:
-        raise UsageError(
+        raise TimesError(
             f"{quoted} does not end with a unit of time", example + " (unit once, at the end)"
         )
     try:
         factor = time_factor(unit)
-    except UsageError as exc:
-        raise UsageError(f"{quoted}: {exc.problem}", exc.hint) from None
+    except TimesError as exc:
+        raise TimesError(f"{quoted}: {exc.problem}", exc.hint) from None
     values = []
     for piece in [*pieces[:-1], number]:
         value = float(piece)
         if not math.isfinite(value):
-            raise UsageError(f"{quoted}: {shorten(piece)} {unit} is not a finite time", example)
+            raise TimesError(f"{quoted}: {shorten(piece)} {unit} is not a finite time", example)
         if value < 0:
-            raise UsageError(
+            raise TimesError(
                 f"{quoted}: {shorten(piece)} {unit} is negative",
                 "times start at 0 (the start values)",
             )
         if values and value < values[-1][0]:
-            raise UsageError(
+            raise TimesError(
                 f"{quoted}: the times are not in increasing order ({values[-1][1]} {unit} "
                 f"comes before {shorten(piece)} {unit})",
                 "sort the time list",
@@ -894,7 +886,7 @@ def parse_time_list(text: str, option: str = "--times") -> tuple[list[float], st
         values.append((value, shorten(piece)))
     seconds = [v * factor for v, _ in values]
     if not math.isfinite(seconds[-1]):
-        raise UsageError(
+        raise TimesError(
             f"{quoted}: {values[-1][1]} {unit} is beyond the range of double precision in "
             "seconds (about 1.8e308 s)",
             example,

@@ -14,7 +14,7 @@ import pytest
 
 from kinetics import parse
 from kinetics.definitions import Definition, Dependencies
-from kinetics.errors import ExpressionError, UsageError
+from kinetics.errors import ConstantError, ExpressionError, TemperatureError
 from kinetics.expressions import Binary, Name, Number, dims_of
 
 TIME = dims_of({"[time]": 1})
@@ -146,12 +146,12 @@ def test_with_values_of_quantities():
     [
         (
             {"t_x": 1.0},
-            UsageError,
+            ConstantError,
             "no named quantity 't_x' in the scheme; named quantities: t_p, f, lam, k2",
         ),
-        ({"t_p": float("nan")}, UsageError, "t_p = nan must be finite"),
-        ({"t_p": "long"}, UsageError, "t_p must be a number, not 'long'"),
-        ({"lam": -1.0}, UsageError, "rate constant lam = -1.0 must be finite and >= 0"),
+        ({"t_p": float("nan")}, ConstantError, "t_p = nan must be finite"),
+        ({"t_p": "long"}, ConstantError, "t_p must be a number, not 'long'"),
+        ({"lam": -1.0}, ConstantError, "rate constant lam = -1.0 must be finite and >= 0"),
         (
             {"f": -1},
             ExpressionError,
@@ -176,7 +176,7 @@ def test_messages_of_constants_that_need_a_temperature():
         "rate constant k2 depends on the temperature (through a temperature law) and none is "
         "given; give the temperature in kelvin"
     )
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(TemperatureError) as info:
         scheme.constants["k2"].exact(None)
     assert str(info.value) == message
     with pytest.raises(ExpressionError) as info:
@@ -185,7 +185,7 @@ def test_messages_of_constants_that_need_a_temperature():
         "k2 depends on the temperature (through a temperature law); give the temperature in kelvin"
     )
     arrhenius = parse("A -> B  k = arrhenius(A = 1 1/s, Ea = 1 kJ/mol)\ntemperature = 300 K")
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(TemperatureError) as info:
         arrhenius.constants["k"].exact(None)
     assert str(info.value) == (
         "rate constant k follows the Arrhenius law and needs a temperature; give the "

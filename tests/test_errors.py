@@ -11,8 +11,11 @@ from kinetics import parse
 from kinetics.errors import (
     ArgumentValueError,
     ConcentrationError,
+    ConditionError,
+    ConstantError,
     DataError,
     KineticsError,
+    OutputUnitError,
     RateMatrixError,
     SchemeError,
     SchemeErrors,
@@ -20,6 +23,7 @@ from kinetics.errors import (
     SettingError,
     SpeciesError,
     TableSizeError,
+    TemperatureError,
     TimesError,
     UsageError,
     WorkingRangeError,
@@ -35,6 +39,10 @@ CORE_VALUE_ERRORS = (
     SettingError,
     WorkingRangeError,
     TableSizeError,
+    TemperatureError,
+    ConstantError,
+    ConditionError,
+    OutputUnitError,
 )
 
 FULL = SchemeError(
@@ -176,3 +184,43 @@ def test_expression_and_activity_errors_are_value_errors_and_pickle():
         assert vars(copy) == vars(error)
         assert str(copy) == str(error)
     assert str(ExpressionError("a", "b", 3, "x")) == "a; b"
+
+
+#: Library modules that still raise the command line's UsageError (issue 13 moves them to
+#: the typed errors; this list only shrinks).  Everything else outside kinetics/cli/ must
+#: not name UsageError at all.
+STILL_RAISING_USAGE_ERROR = {
+    "_blocks.py",
+    "checks.py",
+    "fit/estimation.py",
+    "fit/model.py",
+    "parameters.py",
+    "propagate.py",
+    "sensitivity.py",
+    "sweep/engines.py",
+    "sweep/inputs.py",
+    "sweep/plan.py",
+    "sweep/spec.py",
+    "sweep/store.py",
+    "sweep/tables.py",
+    "sweep_summary.py",
+    "temperature_log.py",
+    "timeline_solve.py",
+}
+
+
+def test_usage_error_stays_with_the_command_line():
+    import ast
+    from pathlib import Path
+
+    package = Path(__file__).resolve().parents[1] / "kinetics"
+    naming = set()
+    for path in package.rglob("*.py"):
+        # the engine's modules keep their names when they move into kinetics/engine/
+        relative = path.relative_to(package).as_posix().removeprefix("engine/")
+        if relative.startswith("cli/") or relative in ("errors.py", "__init__.py"):
+            continue
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        if any(isinstance(n, ast.Name) and n.id == "UsageError" for n in ast.walk(tree)):
+            naming.add(relative)
+    assert naming <= STILL_RAISING_USAGE_ERROR, sorted(naming - STILL_RAISING_USAGE_ERROR)

@@ -25,9 +25,9 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 import kinetics
-from kinetics import KineticsError, SchemeErrors, SchemeFileError, UsageError, load, parse
+from kinetics import KineticsError, SchemeErrors, SchemeFileError, load, parse
 from kinetics.cli import main
-from kinetics.errors import TimesError
+from kinetics.errors import ConstantError, OutputUnitError, TimesError
 
 SRC = "t.scheme"
 ROOT = Path(__file__).resolve().parents[1]
@@ -448,7 +448,7 @@ def test_api_messages_show_plain_numbers():
     with pytest.raises(TimesError) as info:
         kinetics.solve(scheme, np.array([0.0, -300.0]))
     assert str(info.value) == "a time is negative (-300 s); times start at 0 (the start values)"
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ConstantError) as info:
         scheme.with_values(constants={"k1": np.float64(-1.0)})
     assert str(info.value) == "rate constant k1 = -1.0 must be finite and >= 0"
 
@@ -605,14 +605,14 @@ def test_mass_values_that_cannot_be_converted_are_refused(text, message):
 )
 def test_output_units_that_depend_on_what_is_missing_are_refused(text, unit, message):
     result = kinetics.solve(parse(text, SRC), [0.0, 1.0])
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(OutputUnitError) as info:
         result.in_unit(unit)
     assert str(info.value) == message
 
 
 def test_a_species_that_is_never_present_needs_no_molar_mass():
     scheme = parse("A -> B  k1 = 1 1/s\nC -> D  k2 = 1 1/s\nstart A = 1 g/L\nformula A = H2O")
-    with pytest.raises(UsageError, match=r"^B has no molar mass"):
+    with pytest.raises(OutputUnitError, match=r"^B has no molar mass"):
         kinetics.solve(scheme, [0.0, 1.0]).in_unit("g/L")
     scheme = parse(
         "A -> B  k1 = 1 1/s\nC -> D  k2 = 1 1/s\nstart A = 1 g/L\nformula A = H2O, B = H2O"

@@ -13,7 +13,7 @@ import pytest
 
 import kinetics
 import kinetics.language
-from kinetics import SchemeErrors, UsageError
+from kinetics import ArgumentTypeError, SchemeErrors
 from kinetics.language import load, parse
 from kinetics.language.reader import read_statements
 from kinetics.language.resolve import resolve
@@ -57,7 +57,7 @@ def test_balance_opt_outs():
 
 
 def test_parse_refuses_bytes():
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ArgumentTypeError) as info:
         parse(b"A -> B  k1 = 1 1/s")  # type: ignore[arg-type]
     assert str(info.value) == (
         "parse() reads scheme text (str), not bytes; decode bytes first, or use "

@@ -13,7 +13,7 @@ import pytest
 
 import kinetics
 from kinetics.cli import main
-from kinetics.errors import DataError, KineticsError, UsageError
+from kinetics.errors import ConditionError, DataError, KineticsError
 from kinetics.measurements import measurements_from_frame, parse_condition, read_measurements
 
 SCHEME = """A -> B    k1 = 0.1 1/min
@@ -215,7 +215,7 @@ def test_conditions(scheme):
             "--set 'k1=3 mol/L': k1 needs a unit like 1/min; write e.g. --set k1=0.1 1/min",
         ),
     ]:
-        with pytest.raises(UsageError) as info:
+        with pytest.raises(ConditionError) as info:
             parse_condition(text, scheme)
         assert str(info.value) == message
 

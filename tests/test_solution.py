@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 import kinetics
-from kinetics.errors import SettingError, SpeciesError, TimesError, UsageError
+from kinetics.errors import SettingError, SpeciesError, TimesError
 from kinetics.solution import check_times, time_factor, time_grid
 
 CHAIN = "A -> B  k1 = 0.3 1/s\nB -> C  k2 = 0.1 1/s\nstart A = 2 mol/L\n"
@@ -116,9 +116,9 @@ def test_time_factor():
     assert time_factor("min") == 60.0
     assert time_factor("h") == 3600.0
     assert time_factor("d") == 86400.0
-    with pytest.raises(UsageError, match="'kg' is not a unit of time"):
+    with pytest.raises(TimesError, match="'kg' is not a unit of time"):
         time_factor("kg")
-    with pytest.raises(UsageError, match="unknown time unit 'bananas'"):
+    with pytest.raises(TimesError, match="unknown time unit 'bananas'"):
         time_factor("bananas")
 
 

@@ -399,10 +399,10 @@ UNITS_HINT = (
     ],
 )
 def test_duration_messages_quote_what_was_typed(text, message):
-    from kinetics.errors import UsageError
+    from kinetics.errors import TimesError
     from kinetics.units import parse_duration
 
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(TimesError) as info:
         parse_duration(text)
     assert str(info.value) == message
 
@@ -434,10 +434,10 @@ def test_duration_messages_quote_what_was_typed(text, message):
     ],
 )
 def test_time_list_messages_quote_the_times_in_their_unit(text, message):
-    from kinetics.errors import UsageError
+    from kinetics.errors import TimesError
     from kinetics.units import parse_time_list
 
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(TimesError) as info:
         parse_time_list(text)
     assert str(info.value) == message
 
@@ -449,11 +449,11 @@ def test_time_list_in_seconds():
 
 
 def test_time_factor_lists_the_units_of_time():
-    from kinetics.errors import UsageError
+    from kinetics.errors import TimesError
     from kinetics.units import time_factor
 
     assert time_factor("week") == 604_800.0
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(TimesError) as info:
         time_factor("y")
     assert str(info.value) == f"unknown time unit 'y'; {UNITS_HINT}"
 

@@ -7,7 +7,7 @@ import gc
 import os
 from collections.abc import Iterator
 
-from ..errors import UsageError
+from ..errors import ArgumentTypeError
 from ..scheme import Scheme
 from .reader import read_statements
 from .resolve import resolve
@@ -36,7 +36,7 @@ def parse(text: str, source: str = "<text>", *, strict_balance: bool = True) -> 
     ------
     SchemeErrors
         With every mistake found in the text, each with line, column and a hint.
-    UsageError
+    ArgumentTypeError
         When ``text`` is not a string.
 
     Examples
@@ -49,7 +49,7 @@ def parse(text: str, source: str = "<text>", *, strict_balance: bool = True) -> 
     (['A', 'B'], 0.002)
     """
     if not isinstance(text, str):
-        raise UsageError(
+        raise ArgumentTypeError(
             f"parse() reads scheme text (str), not {type(text).__name__}",
             "decode bytes first, or use kinetics.load(path) for a file",
         )
