@@ -10,6 +10,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from ..jsonready import finite_or_none
 from ..measurements import Measurements
 from .model import Parameter
 
@@ -187,15 +188,18 @@ class FitResult:
         estimates = {}
         for e in self.estimates.values():
             estimates[e.name] = {
-                "value": _num(e.value),
+                "value": finite_or_none(e.value),
                 "unit": e.unit,
-                "std_error": _num(e.std_error),
-                "relative_std_error": _num(e.relative_std_error),
-                "ci95": [_num(e.ci95[0]), _num(e.ci95[1])],
-                "ci95_profile": [_num(e.ci95_profile[0]), _num(e.ci95_profile[1])],
-                "t_value": _num(e.t_value),
-                "p_value": _num(e.p_value),
-                "initial": _num(e.initial),
+                "std_error": finite_or_none(e.std_error),
+                "relative_std_error": finite_or_none(e.relative_std_error),
+                "ci95": [finite_or_none(e.ci95[0]), finite_or_none(e.ci95[1])],
+                "ci95_profile": [
+                    finite_or_none(e.ci95_profile[0]),
+                    finite_or_none(e.ci95_profile[1]),
+                ],
+                "t_value": finite_or_none(e.t_value),
+                "p_value": finite_or_none(e.p_value),
+                "initial": finite_or_none(e.initial),
             }
         return {
             "estimates": estimates,
@@ -203,12 +207,12 @@ class FitResult:
             "statistics": _json_ready(self.statistics),
             "correlation": {
                 "names": self.names,
-                "matrix": [[_num(x) for x in row] for row in self.correlation],
+                "matrix": [[finite_or_none(x) for x in row] for row in self.correlation],
             },
             "covariance": {
                 "names": self.names,
                 "units": [p.unit for p in self.parameters],
-                "matrix": [[_num(x) for x in row] for row in self.covariance],
+                "matrix": [[finite_or_none(x) for x in row] for row in self.covariance],
             },
             "alternatives": _json_ready(self.alternatives),
             "weights": self.weights,
@@ -225,13 +229,6 @@ class FitResult:
         }
 
 
-def _num(x):
-    if x is None:
-        return None
-    x = float(x)
-    return x if math.isfinite(x) else None
-
-
 def _json_ready(obj):
     if isinstance(obj, Mapping):
         return {str(k): _json_ready(v) for k, v in obj.items()}
@@ -242,7 +239,7 @@ def _json_ready(obj):
     if isinstance(obj, (int, np.integer)):
         return int(obj)
     if isinstance(obj, (float, np.floating)):
-        return _num(obj)
+        return finite_or_none(obj)
     return obj
 
 

@@ -12,11 +12,11 @@ Text in CSV and Excel files never starts a formula (see
 
 from __future__ import annotations
 
-import math
 from typing import TYPE_CHECKING
 
 from kinetics import files
 from kinetics.errors import TableSizeError
+from kinetics.jsonready import finite_or_none
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -143,8 +143,7 @@ def _xlsx_value(value):
     if isinstance(value, numbers.Integral):
         return int(value)
     if isinstance(value, numbers.Real):
-        value = float(value)
-        return value if math.isfinite(value) else None
+        return finite_or_none(value)
     if isinstance(value, list | tuple | dict):
         import json
 

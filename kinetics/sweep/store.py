@@ -29,7 +29,6 @@ from __future__ import annotations
 
 import contextlib
 import json
-import math
 import os
 import re
 import tempfile
@@ -42,6 +41,7 @@ import numpy as np
 
 from ..errors import KineticsError, UsageError
 from ..files import atomic_path, output_error, spreadsheet_frame
+from ..jsonready import finite_or_none
 from .engines import run_chunks
 from .evaluation import ChunkResult
 from .plan import SweepPlan
@@ -242,8 +242,7 @@ class ChunkStore:
 
 def _json_value(x):
     if isinstance(x, float | np.floating):
-        x = float(x)
-        return x if math.isfinite(x) else None
+        return finite_or_none(x)
     if isinstance(x, np.integer):
         return int(x)
     return x
