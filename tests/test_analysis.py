@@ -29,15 +29,7 @@ from kinetics.errors import (
 )
 from kinetics.propagate import propagate
 
-
-def chain(*k):
-    n = len(k) + 1
-    K = np.zeros((n, n))
-    for j, kj in enumerate(k):
-        K[j, j] -= kj
-        K[j + 1, j] += kj
-    return K
-
+from conftest import chain_matrix
 
 CYCLE = np.array([[-1, 0, 1, 0], [1, -1, 0, 0], [0, 1, -1 - 1e-6, 0], [0, 0, 1e-6, 0]])
 
@@ -54,9 +46,9 @@ CYCLE = np.array([[-1, 0, 1, 0], [1, -1, 0, 0], [0, 1, -1 - 1e-6, 0], [0, 0, 1e-
         (np.zeros((2, 3)), [1, 0], RateMatrixError),  # not square
         (np.array([[np.nan, 0], [0, 0]]), [1, 0], RateMatrixError),  # nan
         ("abc", [1, 0], RateMatrixError),  # not numeric
-        (chain(1.0), [1, 0, 0], ConcentrationError),  # wrong length
-        (chain(1.0), [1, -1], ConcentrationError),  # negative start
-        (chain(1.0), [1, np.inf], ConcentrationError),  # inf start
+        (chain_matrix([1.0]), [1, 0, 0], ConcentrationError),  # wrong length
+        (chain_matrix([1.0]), [1, -1], ConcentrationError),  # negative start
+        (chain_matrix([1.0]), [1, np.inf], ConcentrationError),  # inf start
     ],
 )
 def test_bad_arrays_raise_typed_errors(K, c0, kind):
@@ -73,19 +65,19 @@ def test_bad_arrays_raise_typed_errors(K, c0, kind):
 @pytest.mark.parametrize(
     ("call", "kind"),
     [
-        (lambda: an.half_life(chain(1.0), [1, 0], 2), SpeciesError),
-        (lambda: an.half_life(chain(1.0), [1, 0], True), SpeciesError),
-        (lambda: an.half_life(chain(1.0), [1, 0], 0.5), SpeciesError),
-        (lambda: an.time_to_fraction(chain(1.0), [1, 0], 0, 1.0), SettingError),
-        (lambda: an.time_to_fraction(chain(1.0), [1, 0], 0, 0.0), SettingError),
-        (lambda: an.time_to_limit(chain(1.0), [1, 0], tolerance=2.0), SettingError),
-        (lambda: an.intermediate_maxima(chain(1.0), [1, 0], 1, t_window=-1.0), TimesError),
-        (lambda: an.areas(chain(1.0), [1, 0], [-1.0]), TimesError),
-        (lambda: an.long_time_limit(chain(1.0), [1, 0], feed=[-1, 0]), ConcentrationError),
-        (lambda: an.summarise(chain(1.0), [1, 0], ["A", "A"]), SpeciesError),
-        (lambda: an.summarise(chain(1.0), [1, 0], ["A"]), SpeciesError),
-        (lambda: an.yields_and_selectivity(chain(1.0), [1, 0], basis=5), SpeciesError),
-        (lambda: an.long_time_limit(chain(1e101), [1, 0]), WorkingRangeError),
+        (lambda: an.half_life(chain_matrix([1.0]), [1, 0], 2), SpeciesError),
+        (lambda: an.half_life(chain_matrix([1.0]), [1, 0], True), SpeciesError),
+        (lambda: an.half_life(chain_matrix([1.0]), [1, 0], 0.5), SpeciesError),
+        (lambda: an.time_to_fraction(chain_matrix([1.0]), [1, 0], 0, 1.0), SettingError),
+        (lambda: an.time_to_fraction(chain_matrix([1.0]), [1, 0], 0, 0.0), SettingError),
+        (lambda: an.time_to_limit(chain_matrix([1.0]), [1, 0], tolerance=2.0), SettingError),
+        (lambda: an.intermediate_maxima(chain_matrix([1.0]), [1, 0], 1, t_window=-1.0), TimesError),
+        (lambda: an.areas(chain_matrix([1.0]), [1, 0], [-1.0]), TimesError),
+        (lambda: an.long_time_limit(chain_matrix([1.0]), [1, 0], feed=[-1, 0]), ConcentrationError),
+        (lambda: an.summarise(chain_matrix([1.0]), [1, 0], ["A", "A"]), SpeciesError),
+        (lambda: an.summarise(chain_matrix([1.0]), [1, 0], ["A"]), SpeciesError),
+        (lambda: an.yields_and_selectivity(chain_matrix([1.0]), [1, 0], basis=5), SpeciesError),
+        (lambda: an.long_time_limit(chain_matrix([1e101]), [1, 0]), WorkingRangeError),
     ],
 )
 def test_bad_arguments_raise_typed_errors(call, kind):
@@ -142,7 +134,7 @@ def test_fraction_with_feed_and_growth():
 
 def test_time_to_fraction_solves_the_curve():
     # the returned time satisfies c_i(t) = phi c0_i on the exact solution
-    K = chain(0.7, 0.2, 3.0)
+    K = chain_matrix([0.7, 0.2, 3.0])
     K[0, 2] += 0.4  # C -> A, a back step
     K[2, 2] -= 0.4
     for phi in (0.9, 0.5, 0.05):
@@ -158,7 +150,7 @@ def test_time_to_fraction_solves_the_curve():
 
 def test_beyond_window_flag():
     # A -> B -> C with t_max = ln(k1/k2)/(k1 - k2) = 13.86 s (textbook)
-    K = chain(0.1, 0.05)
+    K = chain_matrix([0.1, 0.05])
     (m,) = an.intermediate_maxima(K, [1.0, 0, 0], 1, t_window=10.0)
     assert m.beyond_window
     assert m.is_global
@@ -178,7 +170,7 @@ def test_cycle_start_species_maxima_are_not_global():
 
 
 def test_no_maxima_for_monotone_species():
-    K = chain(1.0, 2.0)
+    K = chain_matrix([1.0, 2.0])
     assert an.intermediate_maxima(K, [1.0, 0, 0], 0) == []
     assert an.intermediate_maxima(K, [1.0, 0, 0], 2) == []
     # a species that is never formed
@@ -215,15 +207,15 @@ def test_time_to_limit_first_order_decay():
     # A -> B: |c - c_inf| = A0 e^(-kt) <= 0.01 A0 at t = ln(100)/k (definition in the
     # module docstring, zero limit measured against the largest limit A0)
     k = 0.25
-    res = an.time_to_limit(chain(k), [1.0, 0.0])
+    res = an.time_to_limit(chain_matrix([k]), [1.0, 0.0])
     np.testing.assert_allclose(res.per_species, [math.log(100) / k] * 2, rtol=1e-10, atol=0)
-    res = an.time_to_limit(chain(k), [1.0, 0.0], tolerance=1e-3)
+    res = an.time_to_limit(chain_matrix([k]), [1.0, 0.0], tolerance=1e-3)
     np.testing.assert_allclose(res.time, math.log(1000) / k, rtol=1e-10, atol=0)
 
 
 def test_relaxation_defective_only_along_paths():
     # -k repeated on A and C, linked by A -> B -> C: defective (Rothblum 1975)
-    K = chain(0.5, 1.0, 0.5)
+    K = chain_matrix([0.5, 1.0, 0.5])
     rt = an.relaxation_times(K)
     assert rt.defective
     np.testing.assert_allclose(rt.times, [2.0, 2.0, 1.0], rtol=1e-15, atol=0)
@@ -237,7 +229,7 @@ def test_relaxation_defective_only_along_paths():
 
 
 def test_sparse_input_gives_the_same_results():
-    K = chain(0.3, 1.7, 0.05)
+    K = chain_matrix([0.3, 1.7, 0.05])
     Ks = scipy.sparse.csr_matrix(K)
     c0 = [1.0, 0, 0, 0]
     a = an.intermediate_maxima(K, c0, 1)
@@ -254,7 +246,7 @@ def test_sparse_input_gives_the_same_results():
 def test_areas_match_trapezoid_on_a_fine_grid():
     # independent check: trapezoid rule on 20001 points of the exact curve (error
     # h^2/12 max|c''| T, below 1e-7 here)
-    K = chain(0.9, 0.3)
+    K = chain_matrix([0.9, 0.3])
     K[0, 1] += 0.2  # B -> A
     K[1, 1] -= 0.2
     c0 = [1.0, 0.5, 0.0]
@@ -271,7 +263,7 @@ def test_areas_match_trapezoid_on_a_fine_grid():
 
 
 def test_summary_to_dict_is_json():
-    K = chain(0.1, 0.05)
+    K = chain_matrix([0.1, 0.05])
     s = an.summarise(K, [1.0, 0, 0], ["A", "B", "C"], t_window=60.0)
     d = {k: v.to_dict() for k, v in s.items()}
     text = json.dumps(d, allow_nan=False)
@@ -300,7 +292,7 @@ def test_summary_unbounded_species():
 def test_yield_basis():
     # B_max = A0 (k1/k2)^(k2/(k2-k1)) (textbook); basis = A only, or all starting materials
     k1, k2 = 1.0, 0.5
-    K = chain(k1, k2)
+    K = chain_matrix([k1, k2])
     K = np.pad(K, ((0, 1), (0, 1)))  # an inert fourth species that starts with material
     c0 = [2.0, 0, 0, 3.0]
     bmax = 2.0 * (k1 / k2) ** (k2 / (k2 - k1))
@@ -321,7 +313,7 @@ def test_yield_basis():
 def random_chains(draw):
     n = draw(st.integers(3, 6))
     logk = draw(st.lists(st.floats(-2, 2), min_size=n - 1, max_size=n - 1))
-    K = chain(*(10.0**x for x in logk))
+    K = chain_matrix(list(10.0**x for x in logk))
     # optional forward branches j -> i (i > j + 1), keeping the scheme triangular
     for j in range(n - 2):
         if draw(st.booleans()):
@@ -377,5 +369,5 @@ def test_scheme_summary_json():
 
 
 def test_defective_note_names_upstream_species_first():
-    rt = an.relaxation_times(chain(0.3, 0.3), names=["A", "B", "C"])
+    rt = an.relaxation_times(chain_matrix([0.3, 0.3]), names=["A", "B", "C"])
     assert "for both A and B" in rt.note

@@ -12,6 +12,8 @@ import pytest
 from kinetics.cli import CAUTION, main
 from kinetics.cli.entry import split_debug
 
+from conftest import run_cli
+
 ROOT = Path(__file__).resolve().parents[1]
 
 # A -> B -> C with k1 = 0.1 1/min, k2 = 0.05 1/min, A0 = 1 mol/L (issue 4 check values).
@@ -31,18 +33,14 @@ def chain(tmp_path, monkeypatch):
     return path
 
 
-def run(capsys, *argv):
-    status = main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    return status, out, err
-
-
 # ---------------------------------------------------------------------------------------
 # solve: JSON contract
 
 
 def test_solve_json_contract(chain, capsys):
-    status, out, err = run(capsys, "solve", chain, "--until", "90 min", "--points", "31", "--json")
+    status, out, err = run_cli(
+        capsys, "solve", chain, "--until", "90 min", "--points", "31", "--json"
+    )
     assert status == 0, err
     doc = json.loads(out)
     assert doc["time_unit"] == "min"
@@ -70,7 +68,7 @@ def test_solve_json_contract(chain, capsys):
 
 
 def test_solve_json_times_list_and_time_unit(chain, capsys):
-    status, out, err = run(
+    status, out, err = run_cli(
         capsys, "solve", chain, "--times", "0, 0.25,0.5,1 h", "--time-unit", "min", "--json"
     )
     assert status == 0, err
@@ -89,7 +87,7 @@ def test_solve_json_times_list_and_time_unit(chain, capsys):
 
 
 def test_solve_prints_summary_and_table_with_units(chain, capsys):
-    status, out, err = run(capsys, "solve", chain, "--until", "2h", "--points", "5")
+    status, out, err = run_cli(capsys, "solve", chain, "--until", "2h", "--points", "5")
     assert status == 0, err
     assert "\x1b[" not in out  # no colour codes when not writing to a terminal
     for header in (
@@ -118,7 +116,9 @@ def test_wide_table_is_not_truncated_in_a_pipe(tmp_path, capsys, monkeypatch):
     lines.append(f"start {names[0]} = 1 mol/L")
     path = tmp_path / "wide.scheme"
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")
-    status, out, err = run(capsys, "solve", path, "--until", "1h", "--points", "3", "--no-caution")
+    status, out, err = run_cli(
+        capsys, "solve", path, "--until", "1h", "--points", "3", "--no-caution"
+    )
     assert status == 0, err
     for name in names:
         assert f"{name} [mol/L]" in out
@@ -129,7 +129,7 @@ def test_species_option_limits_the_table(chain, capsys, monkeypatch):
     from kinetics import _kernels
 
     monkeypatch.setattr(_kernels, "on_disk", lambda kernel: True)  # compiled before
-    status, out, err = run(
+    status, out, err = run_cli(
         capsys, "solve", chain, "--until", "1h", "--points", "3", "--species", "B", "--no-caution"
     )
     assert status == 0, err
@@ -142,7 +142,7 @@ def test_no_caution_flag_and_quiet_progress(chain, capsys, monkeypatch):
     from kinetics import _kernels
 
     monkeypatch.setattr(_kernels, "on_disk", lambda kernel: True)  # compiled before
-    status, _out, err = run(
+    status, _out, err = run_cli(
         capsys, "solve", chain, "--until", "1h", "--points", "3", "--no-caution"
     )
     assert status == 0
@@ -153,7 +153,7 @@ def test_first_use_note_when_the_engine_is_not_compiled_yet(chain, capsys, monke
     from kinetics import _kernels
 
     monkeypatch.setattr(_kernels, "on_disk", lambda kernel: False)
-    status, _out, err = run(
+    status, _out, err = run_cli(
         capsys, "solve", chain, "--until", "1h", "--points", "3", "--no-caution"
     )
     assert status == 0
@@ -166,7 +166,7 @@ def test_first_use_note_when_the_engine_is_not_compiled_yet(chain, capsys, monke
 def test_kernels_are_found_on_disk_after_a_solve(chain, capsys):
     from kinetics import _kernels
 
-    assert run(capsys, "solve", chain, "--until", "1h", "--points", "3")[0] == 0
+    assert run_cli(capsys, "solve", chain, "--until", "1h", "--points", "3")[0] == 0
     assert _kernels.on_disk(_kernels.exponentials)
 
 
@@ -186,7 +186,7 @@ def test_several_outputs(chain, capsys, tmp_path):
     argv = ["solve", chain, "--until", "60 min", "--points", "7", "--no-caution"]
     for o in outs:
         argv += ["--out", o]
-    status, out, err = run(capsys, *argv)
+    status, out, err = run_cli(capsys, *argv)
     assert status == 0, err
     assert out == ""  # with --out, the table is written, not printed
     for o in outs:
@@ -237,7 +237,7 @@ ERRORS = [
 @pytest.mark.parametrize(("argv", "message"), ERRORS)
 def test_user_mistake_is_one_sentence_and_status_2(chain, capsys, argv, message):
     argv = [a.replace("{chain}", str(chain)) for a in argv]
-    status, out, err = run(capsys, *argv)
+    status, out, err = run_cli(capsys, *argv)
     assert status == 2
     assert message in err
     assert err.startswith("kinetics: ")
@@ -247,7 +247,7 @@ def test_user_mistake_is_one_sentence_and_status_2(chain, capsys, argv, message)
 
 
 def test_exact_message_for_a_missing_output_folder(chain, capsys):
-    status, _, err = run(capsys, "solve", chain, "--until", "1h", "--out", "nowhere/t.csv")
+    status, _, err = run_cli(capsys, "solve", chain, "--until", "1h", "--out", "nowhere/t.csv")
     assert status == 2
     assert err == (
         "kinetics: the folder of the output file 'nowhere/t.csv' does not exist; "
@@ -256,7 +256,7 @@ def test_exact_message_for_a_missing_output_folder(chain, capsys):
 
 
 def test_exact_message_for_an_output_that_is_the_input(chain, capsys):
-    status, _, err = run(capsys, "solve", chain, "--until", "1h", "--out", chain)
+    status, _, err = run_cli(capsys, "solve", chain, "--until", "1h", "--out", chain)
     assert status == 2
     assert err == (
         f"kinetics: the output file {str(chain)!r} is an input file; "
@@ -268,7 +268,7 @@ def test_exact_message_for_an_output_that_is_the_input(chain, capsys):
 def test_scheme_mistake_is_reported_with_its_line(tmp_path, capsys):
     bad = tmp_path / "bad.scheme"
     bad.write_text("A -> B  k1 = 0.1 furlongs-1\nstart A = 1 mol/L\n", encoding="utf-8")
-    status, _out, err = run(capsys, "solve", bad, "--until", "1h")
+    status, _out, err = run_cli(capsys, "solve", bad, "--until", "1h")
     assert status == 2
     assert f"{bad}:1:" in err
     assert "Traceback" not in err
@@ -290,7 +290,7 @@ def test_internal_error_is_one_sentence_with_status_1(chain, capsys, monkeypatch
         raise RuntimeError("simulated failure")
 
     monkeypatch.setattr(kinetics.solution, "solve", broken)
-    status, _out, err = run(capsys, "solve", chain, "--until", "1h", "--no-caution")
+    status, _out, err = run_cli(capsys, "solve", chain, "--until", "1h", "--no-caution")
     assert status == 1
     assert "internal error (RuntimeError: simulated failure)" in err
     assert "Traceback" not in err
@@ -318,7 +318,7 @@ def test_every_core_error_is_one_line_and_status_2(chain, capsys, monkeypatch, c
         raise getattr(kinetics.errors, cls)("the library refused this", "do that instead")
 
     monkeypatch.setattr(kinetics.solution, "solve", refused)
-    status, out, err = run(capsys, "solve", chain, "--until", "1h", "--no-caution")
+    status, out, err = run_cli(capsys, "solve", chain, "--until", "1h", "--no-caution")
     assert (status, out, err) == (2, "", "kinetics: the library refused this; do that instead\n")
 
 
@@ -334,7 +334,7 @@ def test_interrupted_run_leaves_no_file(chain, capsys, monkeypatch, tmp_path):
             raise KeyboardInterrupt
 
     monkeypatch.setattr(kinetics.output.export, "write_csv", interrupted)
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys, "solve", chain, "--until", "1h", "--points", "3", "--out", "t.csv", "--no-caution"
     )
     assert status == 130
@@ -349,7 +349,7 @@ def test_interrupted_run_leaves_no_file(chain, capsys, monkeypatch, tmp_path):
 
 @pytest.mark.parametrize("command", ["solve", "report", "check"])
 def test_help_shows_a_worked_example(capsys, command):
-    status, out, _err = run(capsys, command, "--help")
+    status, out, _err = run_cli(capsys, command, "--help")
     assert status == 0
     assert "Example" in out
     assert f"kinetics {command} networks/" in out
@@ -360,7 +360,7 @@ def test_help_shows_a_worked_example(capsys, command):
 
 
 def test_solve_help_documents_every_option(capsys):
-    status, out, _ = run(capsys, "solve", "--help")
+    status, out, _ = run_cli(capsys, "solve", "--help")
     assert status == 0
     for option in ("--until", "--points", "--times", "--time-unit", "--out", "--json"):
         assert option in out
@@ -373,13 +373,13 @@ def test_solve_help_documents_every_option(capsys):
 def test_version(capsys):
     from kinetics import __version__
 
-    status, out, _ = run(capsys, "--version")
+    status, out, _ = run_cli(capsys, "--version")
     assert status == 0
     assert __version__ in out
 
 
 def test_no_arguments_shows_help_with_status_2(capsys):
-    status, _out, err = run(capsys)
+    status, _out, err = run_cli(capsys)
     assert status == 2
     assert "Commands:" in err
     assert "solve" in err
@@ -397,7 +397,7 @@ def test_debug_flag_anywhere_is_moved_to_the_front():
 
 def test_report_command_prints_the_caution_and_honours_options(chain, capsys, tmp_path):
     out = tmp_path / "r.html"
-    status, stdout, err = run(
+    status, stdout, err = run_cli(
         capsys,
         "report",
         chain,
@@ -423,7 +423,7 @@ def test_report_command_prints_the_caution_and_honours_options(chain, capsys, tm
 
 
 def test_check_tables_keep_the_units_in_their_headers(chain, capsys):
-    status, out, err = run(capsys, "check", chain)
+    status, out, err = run_cli(capsys, "check", chain)
     assert status == 0, err
     for header in ("molar mass [g/mol]", "start [mol/L]", "k [1/s]"):
         assert header in out  # brackets are not swallowed as rich markup

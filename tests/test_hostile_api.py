@@ -24,17 +24,12 @@ import pytest
 
 import kinetics
 from kinetics.analysis import summarise_all
-from kinetics.cli import main
 from kinetics.errors import ArgumentTypeError, TimesError, UsageError, WorkingRangeError
 from kinetics.sweep import sweep
 
+from conftest import run_cli
+
 PAIR = "A -> B  k1 = 0.1 1/s\nB -> C  k2 = 0.05 1/s\nstart A = 1 mol/L\n"
-
-
-def run(capsys, *argv):
-    status = main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    return status, out, err
 
 
 @pytest.fixture
@@ -91,7 +86,7 @@ def test_stiff_pair_summary_against_bateman(ratio):
 def test_stiff_pair_on_the_command_line(tmp_path, capsys):
     path = tmp_path / "decay.scheme"
     path.write_text(_stiff(1e21), encoding="utf-8")
-    status, out, err = run(capsys, "solve", path, "--until", "1e9 s", "--json", "--no-caution")
+    status, out, err = run_cli(capsys, "solve", path, "--until", "1e9 s", "--json", "--no-caution")
     assert status == 0, err
     import json
 
@@ -141,16 +136,20 @@ RANGE_TIME = (
 
 def test_huge_rate_constant_is_refused(tmp_path, capsys):
     path = _write(tmp_path, "A -> B  k1 = 1e308 1/s\nstart A = 1 mol/L\n")
-    assert run(capsys, "solve", path, "--until", "1 s", "--no-caution") == (2, "", RANGE_RATE)
+    assert run_cli(capsys, "solve", path, "--until", "1 s", "--no-caution") == (2, "", RANGE_RATE)
 
 
 def test_huge_end_time_is_refused(pair, capsys):
-    assert run(capsys, "solve", pair, "--until", "1e300 s", "--no-caution") == (2, "", RANGE_TIME)
+    assert run_cli(capsys, "solve", pair, "--until", "1e300 s", "--no-caution") == (
+        2,
+        "",
+        RANGE_TIME,
+    )
 
 
 def test_too_many_lifetimes_are_refused(tmp_path, capsys):
     path = _write(tmp_path, "A -> B  k1 = 1e20 1/s\nstart A = 1 mol/L\n")
-    assert run(capsys, "solve", path, "--until", "1e9 s", "--no-caution") == (
+    assert run_cli(capsys, "solve", path, "--until", "1e9 s", "--no-caution") == (
         2,
         "",
         "kinetics: the times reach 1e+09 s, 1e+29 times the shortest lifetime in the scheme "
@@ -161,7 +160,7 @@ def test_too_many_lifetimes_are_refused(tmp_path, capsys):
 
 def test_huge_concentration_with_a_fast_step_is_refused(tmp_path, capsys):
     path = _write(tmp_path, "A -> B  k1 = 1e10 1/s\nstart A = 1e300 mol/L\n")
-    assert run(capsys, "solve", path, "--until", "1 s", "--no-caution") == (
+    assert run_cli(capsys, "solve", path, "--until", "1 s", "--no-caution") == (
         2,
         "",
         "kinetics: the concentrations (up to 1e+300 in the scheme's unit) are too large for "
@@ -181,7 +180,7 @@ def test_huge_concentration_with_slow_steps_is_solved(scheme):
 
 
 def test_too_many_points_are_refused_before_allocating(pair, capsys):
-    assert run(
+    assert run_cli(
         capsys, "solve", pair, "--until", "10 s", "--points", "100000000", "--no-caution"
     ) == (
         2,
@@ -203,7 +202,9 @@ def test_table_size_counts_species(scheme):
 
 
 def test_sweep_value_beyond_double_range(pair, capsys):
-    assert run(capsys, "sweep", pair, "--until", "10 s", "--vary", "k2=1e400", "--no-caution") == (
+    assert run_cli(
+        capsys, "sweep", pair, "--until", "10 s", "--vary", "k2=1e400", "--no-caution"
+    ) == (
         2,
         "",
         "kinetics: --vary 'k2=1e400': 1e400 is beyond the range of numbers (1.8e308); give "
@@ -212,7 +213,7 @@ def test_sweep_value_beyond_double_range(pair, capsys):
 
 
 def test_sweep_set_beyond_the_working_range(pair, capsys):
-    status, out, err = run(
+    status, out, err = run_cli(
         capsys, "sweep", pair, "--until", "10 s", "--vary", "k2=1,1e308", "--no-caution"
     )
     assert (status, out) == (2, "")
@@ -224,7 +225,7 @@ def test_sweep_set_beyond_the_working_range(pair, capsys):
 
 
 def test_sweep_axis_and_memory_limits(pair, scheme, capsys):
-    assert run(
+    assert run_cli(
         capsys, "sweep", pair, "--until", "10 s", "--vary", "k2=0.1:1:100000000", "--no-caution"
     ) == (
         2,
@@ -434,7 +435,7 @@ def _json(tmp_path, capsys, text, *args):
     import json
 
     path = _write(tmp_path, text)
-    status, out, err = run(capsys, "solve", path, *args, "--json", "--no-caution")
+    status, out, err = run_cli(capsys, "solve", path, *args, "--json", "--no-caution")
     assert status == 0, err
     return json.loads(out)
 
@@ -502,8 +503,12 @@ def test_report_excel_and_api_carry_the_whole_scheme(tmp_path, capsys):
     path = _write(tmp_path, BRANCH)
     html = tmp_path / "r.html"
     xlsx = tmp_path / "r.xlsx"
-    assert run(capsys, "report", path, "--until", "30 min", "--out", html, "--no-caution")[0] == 0
-    assert run(capsys, "solve", path, "--until", "30 min", "--out", xlsx, "--no-caution")[0] == 0
+    assert (
+        run_cli(capsys, "report", path, "--until", "30 min", "--out", html, "--no-caution")[0] == 0
+    )
+    assert (
+        run_cli(capsys, "solve", path, "--until", "30 min", "--out", xlsx, "--no-caution")[0] == 0
+    )
     text = html.read_text(encoding="utf-8")
     for label in (
         "<h3>Whole scheme</h3>",

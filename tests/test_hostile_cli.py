@@ -17,7 +17,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from kinetics.cli import main
+from conftest import run_cli
 
 SCHEME = """title: fuzz chain
 A -> B   k1 = 0.12 1/min
@@ -92,12 +92,6 @@ def folder(tmp_path, monkeypatch):
     return tmp_path
 
 
-def run(capsys, argv: list[str]) -> tuple[int, str]:
-    status = main(argv)
-    _, err = capsys.readouterr()
-    return status, err
-
-
 def assert_clean(status: int, err: str, argv: list[str]) -> None:
     assert status in (0, 2), (argv, status, err)
     assert "Traceback" not in err, (argv, err)
@@ -116,14 +110,14 @@ FUZZ = settings(
 @FUZZ
 @given(st.one_of(solve_args("solve"), solve_args("report"), st.just(["check", "s.scheme"])))
 def test_solve_report_and_check_never_crash(folder, capsys, argv):
-    status, err = run(capsys, argv)
+    status, _, err = run_cli(capsys, *argv)
     assert_clean(status, err, argv)
 
 
 @settings(max_examples=25, deadline=None, suppress_health_check=list(HealthCheck))
 @given(sweep_args())
 def test_sweep_never_crashes(folder, capsys, argv):
-    status, err = run(capsys, argv)
+    status, _, err = run_cli(capsys, *argv)
     assert_clean(status, err, argv)
 
 
@@ -131,7 +125,9 @@ def test_time_grows_linearly_with_a_times_list(folder, capsys):
     def cpu(count: int) -> float:
         times = ",".join(str(k) for k in range(count)) + " s"
         start = time.process_time()
-        status, err = run(capsys, ["solve", "s.scheme", "--times", times, "--json", "--no-caution"])
+        status, _, err = run_cli(
+            capsys, "solve", "s.scheme", "--times", times, "--json", "--no-caution"
+        )
         assert (status, err) == (0, "")
         return time.process_time() - start
 

@@ -26,8 +26,9 @@ from hypothesis import strategies as st
 
 import kinetics
 from kinetics import KineticsError, SchemeErrors, SchemeFileError, load, parse
-from kinetics.cli import main
 from kinetics.errors import ConstantError, OutputUnitError, TimesError
+
+from conftest import run_cli
 
 SRC = "t.scheme"
 ROOT = Path(__file__).resolve().parents[1]
@@ -37,12 +38,6 @@ def headlines(text: str) -> list[str]:
     with pytest.raises(SchemeErrors) as info:
         parse(text, SRC)
     return [e.headline() for e in info.value.errors]
-
-
-def run(capsys, *argv) -> tuple[int, str, str]:
-    status = main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    return status, out, err
 
 
 # ---------------------------------------------------------------------------------------
@@ -128,7 +123,7 @@ def test_lone_carriage_returns_end_lines():
 def test_dev_zero_ends_at_once_with_a_message(capsys):
     if not os.path.exists("/dev/zero"):
         pytest.skip("no /dev/zero here")
-    status, _, err = run(capsys, "check", "/dev/zero")
+    status, _, err = run_cli(capsys, "check", "/dev/zero")
     assert status == 2
     assert err == (
         "kinetics: /dev/zero: the file is not text (it holds a NUL byte, first on line 1); a "
@@ -183,7 +178,7 @@ def test_a_file_is_decoded_across_chunk_boundaries(tmp_path):
 def test_at_most_fifty_problems_are_printed(capsys, tmp_path):
     path = tmp_path / "bad.scheme"
     path.write_text("A -> B  k1 = 1 1/s\nstart A = 1 M\n" + "this is not a line\n" * 100_000)
-    status, _, err = run(capsys, "check", path)
+    status, _, err = run_cli(capsys, "check", path)
     lines = err.splitlines()
     assert status == 2
     assert lines[0] == f"kinetics: 100,000 problems in {path} (the first 50 follow):"
@@ -262,7 +257,7 @@ def test_probable_mistakes_are_warned_about(text, warnings, rates):
 def test_warnings_reach_stderr_and_the_json(capsys, tmp_path):
     path = tmp_path / "p.scheme"
     path.write_text("A -> B  k1 = 0.1 1/s\nA -> B  k2 = 0.2 1/s\nstart A = 1 M\n")
-    status, out, err = run(capsys, "check", path, "--json")
+    status, out, err = run_cli(capsys, "check", path, "--json")
     warning = (
         f"{path}:2: the step A -> B also occurs on line 1: parallel steps, their constants add "
         "up (k1 + k2)"
@@ -465,7 +460,7 @@ def test_api_messages_show_plain_numbers():
 def test_command_line_durations(capsys, tmp_path, argv, message):
     path = tmp_path / "a.scheme"
     path.write_text("A -> B  k1 = 1 1/s\nstart A = 1 M\n")
-    status, _, err = run(capsys, "solve", path, "--no-caution", *argv)
+    status, _, err = run_cli(capsys, "solve", path, "--no-caution", *argv)
     assert status == 2
     assert err.startswith(f"kinetics: {message}")
     assert "np." not in err
@@ -506,11 +501,13 @@ def test_solve_reports_in_the_written_mass_unit(capsys, tmp_path):
     path = tmp_path / "m.scheme"
     path.write_text(MASS_SCHEME)
     out_csv = tmp_path / "t.csv"
-    status, _, err = run(capsys, "solve", path, "--until", "365d", "--out", out_csv, "--no-caution")
+    status, _, err = run_cli(
+        capsys, "solve", path, "--until", "365d", "--out", out_csv, "--no-caution"
+    )
     assert status == 0, err
     header = out_csv.read_text().splitlines()[0]
     assert header == "time [d],P [mg/L],M1 [mg/L],M2 [mg/L],CO2 [mg/L]"
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys,
         "solve",
         path,

@@ -34,18 +34,14 @@ from kinetics.output import export
 from kinetics.sweep import chunk_result, make_plan
 from kinetics.sweep import store as sweep_store
 
+from conftest import run_cli
+
 ROOT = Path(__file__).resolve().parents[1]
 CHAIN = """title: Hostile chain
 A -> B    k1 = 0.1 1/min
 B -> C    k2 = 0.05 1/min
 start A = 1 mol/L
 """
-
-
-def run(capsys, *argv):
-    status = main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    return status, out, err
 
 
 @pytest.fixture
@@ -105,7 +101,7 @@ def _inputs_cells(path: Path):
 
 def test_title_and_file_name_are_text_cells_in_the_workbook(folder, capsys):
     source = scheme_file(folder, "=cmd|x!A1.scheme", title=HYPERLINK)
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys, "solve", source.name, "--until", "1h", "--out", "t.xlsx", "--no-caution"
     )
     assert (status, err) == (0, "wrote t.xlsx\n")
@@ -147,7 +143,7 @@ def test_control_characters_and_overlong_text_make_a_valid_workbook(folder, caps
     # a scheme file never holds control characters (the language refuses them); any text
     # that reaches the writer another way is still made safe
     source = scheme_file(folder, title="\x01bell\x1b[31m")
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys, "solve", source, "--until", "1h", "--out", "c.xlsx", "--no-caution"
     )
     assert status == 2
@@ -168,7 +164,7 @@ def test_control_characters_and_overlong_text_make_a_valid_workbook(folder, caps
 
 def test_a_table_larger_than_a_sheet_is_refused_before_solving(folder, capsys):
     source = scheme_file(folder)
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys,
         "solve",
         source,
@@ -218,7 +214,7 @@ def test_json_and_parquet_keep_the_text_as_written(folder, capsys):
 
 def test_a_pipe_or_device_as_output_is_refused(folder, capsys):
     os.mkfifo(folder / "fifo.csv")
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys, "solve", scheme_file(folder), "--until", "1h", "--out", "fifo.csv", "--no-caution"
     )
     assert (status, err) == (
@@ -231,7 +227,7 @@ def test_a_pipe_or_device_as_output_is_refused(folder, capsys):
 def test_a_link_to_an_output_stays_a_link(folder, capsys):
     (folder / "real.csv").write_text("old\n", encoding="utf-8")
     (folder / "link.csv").symlink_to("real.csv")
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys, "solve", scheme_file(folder), "--until", "1h", "--out", "link.csv", "--no-caution"
     )
     assert (status, err) == (0, "wrote link.csv\n")
@@ -241,7 +237,7 @@ def test_a_link_to_an_output_stays_a_link(folder, capsys):
 
 def test_a_long_output_name_is_written(folder, capsys):
     name = "n" * 246 + ".csv"  # 250 bytes: the longest names the file system allows, nearly
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys, "solve", scheme_file(folder), "--until", "1h", "--out", name, "--no-caution"
     )
     assert (status, err) == (0, f"wrote {name}\n")
@@ -256,7 +252,7 @@ SCRIPT_TITLE = 'costs $x^{ and $ </title><script>alert("t")</script> & done'
 
 def test_report_escapes_title_file_name_and_scheme(folder, capsys):
     source = scheme_file(folder, "<img src=x onerror=alert(1)>.scheme", title=SCRIPT_TITLE)
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys, "report", source.name, "--until", "1h", "--out", "r.html", "--no-caution"
     )
     assert (status, err) == (0, "wrote r.html\n")
@@ -273,12 +269,12 @@ def test_report_escapes_title_file_name_and_scheme(folder, capsys):
 def test_dollar_signs_in_titles_and_file_names_are_drawn_as_written(folder, capsys):
     # matplotlib reads $...$ as a formula unless told not to; a bad one was an internal error
     source = scheme_file(folder, "$x^{.scheme", title="$\\frac{$")
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys, "solve", source, "--until", "1h", "--out", "p.png", "--out", "p.svg", "--no-caution"
     )
     assert (status, err) == (0, "wrote p.png\nwrote p.svg\n")
     assert "$\\frac{$" in (folder / "p.svg").read_text(encoding="utf-8").replace("&#36;", "$")
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys,
         "sweep",
         source,
@@ -295,7 +291,7 @@ def test_dollar_signs_in_titles_and_file_names_are_drawn_as_written(folder, caps
     assert (status, err) == (0, "wrote s.png\n")
     data = folder / "$run{.csv"
     data.write_text("time [min],B [mol/L]\n0,0\n5,0.3\n10,0.45\n20,0.5\n40,0.35\n", "utf-8")
-    status, out, err = run(
+    status, out, err = run_cli(
         capsys,
         "fit",
         source,
@@ -358,7 +354,7 @@ def too_large(path) -> str:
 def test_full_disk_names_the_file_and_leaves_nothing(folder, capsys, small_disk, name):
     source = scheme_file(folder)
     small_disk(4096)
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys, "solve", source, "--until", "1h", "--points", "2000", "--out", name, "--no-caution"
     )
     assert (status, err) == (2, too_large(name))  # no ZipFile traceback for .xlsx
@@ -368,7 +364,7 @@ def test_full_disk_names_the_file_and_leaves_nothing(folder, capsys, small_disk,
 def test_full_disk_report(folder, capsys, small_disk):
     source = scheme_file(folder)
     small_disk(4096)
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys, "report", source, "--until", "1h", "--out", "r.html", "--no-caution"
     )
     assert (status, err) == (2, too_large("r.html"))
@@ -378,7 +374,7 @@ def test_full_disk_report(folder, capsys, small_disk):
 def test_several_outputs_say_which_were_written(folder, capsys, small_disk):
     source = scheme_file(folder)
     small_disk(100_000)  # 2000 points: Parquet about 75 kB, CSV 156 kB, JSON 211 kB
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys,
         "solve",
         source,
@@ -403,7 +399,7 @@ def test_fit_prints_the_estimates_before_a_full_disk(folder, capsys, small_disk)
     source = ROOT / "networks" / "consecutive_intermediate.scheme"
     data = ROOT / "networks" / "consecutive_intermediate_samples.csv"
     small_disk(20_000)  # fit.json fits, the plot does not
-    status, out, err = run(
+    status, out, err = run_cli(
         capsys,
         "fit",
         source,
@@ -432,7 +428,7 @@ def test_enospc_is_worded_with_the_file_and_what_to_do(folder, capsys, monkeypat
         raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
 
     monkeypatch.setattr(Path, "write_text", full)
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys, "solve", source, "--until", "1h", "--out", "t.json", "--no-caution"
     )
     assert status == 2
@@ -475,7 +471,7 @@ def test_an_os_error_without_a_file_name_says_so(folder, capsys, monkeypatch):
         raise OSError(errno.ENOSPC, os.strerror(errno.ENOSPC))
 
     monkeypatch.setattr(kinetics.solution, "solve", failing)
-    status, _, err = run(capsys, "solve", scheme_file(folder), "--until", "1h", "--no-caution")
+    status, _, err = run_cli(capsys, "solve", scheme_file(folder), "--until", "1h", "--no-caution")
     assert (status, err) == (
         2,
         "kinetics: a file operation failed (No space left on device); --debug shows which one\n",
@@ -498,7 +494,7 @@ def test_sweep_table_on_a_full_disk_keeps_the_chunks_for_resume(folder, capsys, 
         "--no-caution",
     ]
     small_disk(8192)  # the manifest fits, the table does not
-    status, _, err = run(capsys, *argv)
+    status, _, err = run_cli(capsys, *argv)
     assert status == 2
     assert err == too_large("s.csv") + (
         "kinetics: the finished chunks are kept in 's.csv.chunks': the same command with "
@@ -506,7 +502,7 @@ def test_sweep_table_on_a_full_disk_keeps_the_chunks_for_resume(folder, capsys, 
     )
     assert sorted(p.name for p in folder.iterdir()) == ["chain.scheme", "s.csv.chunks"]
     small_disk(None)
-    status, _, err = run(capsys, *argv, "--resume")
+    status, _, err = run_cli(capsys, *argv, "--resume")
     assert (status, err) == (
         0,
         "resumed: 4 of 4 chunks were already done, computed 0\nwrote s.csv\n",
@@ -526,7 +522,7 @@ def test_chunk_on_a_full_disk(folder, capsys, monkeypatch):
     monkeypatch.setattr(sweep_store.np, "savez", savez)
     # one thread: chunk 0 is finished before chunk 1 fails (with two, either may be first)
     monkeypatch.setattr("os.cpu_count", lambda: 1)
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys,
         "sweep",
         source,
@@ -565,7 +561,7 @@ def test_a_sweep_refuses_an_output_another_sweep_is_writing(folder, capsys):
     held = sweep_store.OutputLock(folder / "s.csv")  # as if another process ran
     try:
         for extra in (["--out", "s.csv"], ["--out", "t.csv", "--curves", "s.csv"]):
-            status, _, err = run(capsys, *argv, *extra)
+            status, _, err = run_cli(capsys, *argv, *extra)
             assert (status, err) == (
                 2,
                 f"kinetics: another sweep (process {os.getpid()}) is writing 's.csv'; wait "
@@ -581,7 +577,7 @@ def test_a_sweep_refuses_an_output_another_sweep_is_writing(folder, capsys):
 def test_a_lock_file_left_by_a_dead_process_is_taken_over(folder, capsys):
     (folder / ".s.csv.lock").write_text("999999999", encoding="ascii")
     source = scheme_file(folder)
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys,
         "sweep",
         source,
@@ -656,7 +652,7 @@ def test_sigterm_while_writing_tables_leaves_no_part_file(folder, capsys):
             time.sleep(0.002)
         assert parts, "the sweep ended before it wrote its tables"
         # a second sweep on the same output is refused while this one runs
-        status, _, err = run(capsys, *argv)
+        status, _, err = run_cli(capsys, *argv)
         assert (status, err) == (
             2,
             f"kinetics: another sweep (process {proc.pid}) is writing 's.csv'; wait until "
@@ -689,7 +685,7 @@ def test_sigterm_in_process_exits_143_and_leaves_no_file(folder, capsys, monkeyp
 
     monkeypatch.setattr(export, "write_csv", killed)
     before = signal.getsignal(signal.SIGTERM)
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys, "solve", source, "--until", "1h", "--out", "a.csv", "--out", "b.csv", "--no-caution"
     )
     assert (status, err) == (143, "kinetics: terminated\nkinetics: also not written: b.csv\n")
@@ -754,7 +750,7 @@ def test_progress_shows_the_remaining_time_on_a_terminal(monkeypatch, capsys):
 
 def test_progress_is_silent_when_stderr_is_not_a_terminal(folder, capsys):
     source = scheme_file(folder)
-    status, _, err = run(
+    status, _, err = run_cli(
         capsys,
         "sweep",
         source,

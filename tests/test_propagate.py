@@ -20,44 +20,19 @@ from kinetics.propagate import (
     propagate_certified,
 )
 
-
-def chain(ks, last_decays: bool = False):
-    n = len(ks) + 1
-    K = np.zeros((n, n))
-    for i, k in enumerate(ks):
-        K[i, i] -= k
-        K[i + 1, i] += k
-    return K
-
-
-def bateman(ks, A0, t):
-    """Bateman, Proc. Cambridge Philos. Soc. 15, 423 (1910): member n of a chain.
-
-    N_n(t) = A0 prod_{i<n} k_i sum_i exp(-k_i t) / prod_{j != i} (k_j - k_i),
-    summed over the n decaying members (all distinct constants).
-    """
-    out = []
-    for n in range(1, len(ks) + 1):
-        kk = ks[:n]
-        s = 0.0
-        for i in range(n):
-            den = np.prod([kk[j] - kk[i] for j in range(n) if j != i])
-            s += np.exp(-kk[i] * t) / den
-        out.append(A0 * np.prod(kk[:-1]) * s)
-    return np.array(out)
-
+from conftest import bateman_chain, chain_matrix
 
 # ---------------------------------------------------------------- closed forms
 
 
 def test_bateman_well_separated_chain():
     ks = [1.0, 0.3, 0.05, 0.01]
-    K = chain(ks)
+    K = chain_matrix(ks)
     t = np.linspace(0, 50, 11)
     c = propagate(K, [2.0, 0, 0, 0, 0], t)
     for j, tj in enumerate(t):
         # reference: Bateman 1910 closed form (well-separated constants, no cancellation)
-        ref = bateman(ks, 2.0, tj)
+        ref = bateman_chain(ks, 2.0, tj)
         np.testing.assert_allclose(c[j, :4], ref, rtol=1e-13, atol=0)
     # the stable end product takes the rest of the mass (conservation)
     np.testing.assert_allclose(c[:, :].sum(axis=1), 2.0, rtol=1e-14, atol=0)
@@ -66,7 +41,7 @@ def test_bateman_well_separated_chain():
 @pytest.mark.parametrize("t", [0.01, 1.0, 10.0, 40.0])
 def test_equal_constants_limit(t):
     k = 0.7
-    K = chain([k] * 6)
+    K = chain_matrix([k] * 6)
     c = propagate(K, [1.5, 0, 0, 0, 0, 0, 0], [t])[0]
     for n in range(6):
         # reference: A0 (kt)^n e^{-kt} / n!, equal-constant chain (textbook result)
@@ -78,7 +53,7 @@ def test_feed_closed_form():
     # A fed at f [conc/s], A -> B with k: A(t) = c0 e^{-kt} + f/k (1 - e^{-kt});
     # B(t) = B0 + f t + c0 - A(t)  (closed form of dA/dt = f - kA, common practice, no source)
     k, f, c0 = 0.2, 0.05, 1.0
-    K = chain([k])
+    K = chain_matrix([k])
     t = np.array([0.0, 0.1, 1.0, 7.5, 100.0])
     c = propagate(K, [c0, 0.0], t, feed=[f, 0.0])
     A = c0 * np.exp(-k * t) + f / k * -np.expm1(-k * t)
@@ -166,7 +141,7 @@ def test_hypothesis_agrees_with_scipy_in_norm(case):
 
 
 def test_time_zero_returns_c0_exactly():
-    K = chain([0.3, 0.1])
+    K = chain_matrix([0.3, 0.1])
     c0 = np.array([0.1, 0.7, 1e-300])
     c = propagate(K, c0, [0.0, 0.0, 1.0])
     assert c[0].tolist() == c0.tolist()
@@ -174,7 +149,7 @@ def test_time_zero_returns_c0_exactly():
 
 
 def test_uniform_and_irregular_grids_agree():
-    K = chain([2.0, 0.5, 0.01])
+    K = chain_matrix([2.0, 0.5, 0.01])
     c0 = [1.0, 0.0, 0.0, 0.0]
     t = np.linspace(0.0, 20.0, 41)
     a = propagate(K, c0, t)  # uniform: powers of exp(K dt)
@@ -186,7 +161,7 @@ def test_uniform_and_irregular_grids_agree():
 
 
 def test_single_times_match_grid():
-    K = chain([2.0, 0.5, 0.01])
+    K = chain_matrix([2.0, 0.5, 0.01])
     c0 = [1.0, 0.0, 0.0, 0.0]
     t = np.linspace(0.0, 20.0, 41)
     a = propagate(K, c0, t)
@@ -196,18 +171,18 @@ def test_single_times_match_grid():
 
 def test_stiff_long_times_bounded_nonnegative():
     # t * max k up to 1e10, constants over 12 orders
-    K = chain([1e4, 1e-8, 1e2, 1e-4])
+    K = chain_matrix([1e4, 1e-8, 1e2, 1e-4])
     t = np.array([0.0, 1e-6, 1.0, 1e3, 1e6])
     c = propagate(K, [1.0, 0, 0, 0, 0], t)
     assert np.all(c >= 0)
     np.testing.assert_allclose(c.sum(axis=1), 1.0, rtol=1e-14, atol=0)
     # reference: Bateman 1910 for the first two members (well separated)
-    np.testing.assert_allclose(c[1:, :2], [bateman([1e4, 1e-8], 1.0, x) for x in t[1:]],
+    np.testing.assert_allclose(c[1:, :2], [bateman_chain([1e4, 1e-8], 1.0, x) for x in t[1:]],
                                rtol=1e-12, atol=1e-300)  # fmt: skip
 
 
 def test_double_route_is_bounded_and_close():
-    K = chain([2.0, 0.5, 0.01])
+    K = chain_matrix([2.0, 0.5, 0.01])
     t = np.linspace(0, 10, 21)
     a = propagate_certified(K, [1, 0, 0, 0], t, precision="double")
     b = propagate_certified(K, [1, 0, 0, 0], t, precision="double-double")
@@ -240,7 +215,7 @@ def test_batch_equals_single_bit_for_bit():
 
 
 def test_batch_broadcasts_c0():
-    K = np.stack([chain([1.0, 2.0]), chain([0.5, 0.1])])
+    K = np.stack([chain_matrix([1.0, 2.0]), chain_matrix([0.5, 0.1])])
     X = propagate_batch(K, [1.0, 0.0, 0.0], [0.0, 1.0])
     assert X.shape == (2, 2, 3)
     np.testing.assert_allclose(X[1, 1, 0], math.exp(-0.5), rtol=1e-15, atol=0)
@@ -319,7 +294,7 @@ def test_large_scheme_takes_the_block_route():
 
 
 def test_small_sparse_input_equals_dense():
-    K = chain([1.0, 0.1])
+    K = chain_matrix([1.0, 0.1])
     t = [0.0, 1.0, 5.0]
     np.testing.assert_array_equal(
         propagate(scipy.sparse.csc_array(K), [1, 0, 0], t), propagate(K, [1, 0, 0], t)
@@ -332,13 +307,13 @@ def test_small_sparse_input_equals_dense():
 @pytest.mark.parametrize(
     ("K", "c0", "times", "feed"),
     [
-        (chain([1.0]), [1, 0], [1.0, 0.5], None),  # unsorted times
-        (chain([1.0]), [1, 0], [-1.0], None),  # negative time
-        (chain([1.0]), [1, 0], [np.nan], None),  # non-finite time
-        (chain([1.0]), [1, 0], [[0.0, 1.0]], None),  # not 1-D
-        (chain([1.0]), [1, 0, 0], [1.0], None),  # wrong c0 shape
-        (chain([1.0]), [-1, 0], [1.0], None),  # negative concentration
-        (chain([1.0]), [1, 0], [1.0], [0.0, -1.0]),  # negative feed
+        (chain_matrix([1.0]), [1, 0], [1.0, 0.5], None),  # unsorted times
+        (chain_matrix([1.0]), [1, 0], [-1.0], None),  # negative time
+        (chain_matrix([1.0]), [1, 0], [np.nan], None),  # non-finite time
+        (chain_matrix([1.0]), [1, 0], [[0.0, 1.0]], None),  # not 1-D
+        (chain_matrix([1.0]), [1, 0, 0], [1.0], None),  # wrong c0 shape
+        (chain_matrix([1.0]), [-1, 0], [1.0], None),  # negative concentration
+        (chain_matrix([1.0]), [1, 0], [1.0], [0.0, -1.0]),  # negative feed
         (np.array([[-1.0, -0.5], [1.0, 0.0]]), [1, 0], [1.0], None),  # negative off-diagonal
         (np.ones((2, 3)), [1, 0], [1.0], None),  # not square
         (np.array([[np.inf, 0], [0, 0]]), [1, 0], [1.0], None),  # non-finite rate
@@ -352,9 +327,9 @@ def test_bad_input_raises_usage_error(K, c0, times, feed):
 
 def test_bad_precision_and_batch_shape():
     with pytest.raises(UsageError):
-        propagate(chain([1.0]), [1, 0], [1.0], precision="quad")
+        propagate(chain_matrix([1.0]), [1, 0], [1.0], precision="quad")
     with pytest.raises(UsageError):
-        propagate_batch(chain([1.0]), [1, 0], [1.0])
+        propagate_batch(chain_matrix([1.0]), [1, 0], [1.0])
 
 
 def test_growth_beyond_double_range_is_a_clear_error():
@@ -380,7 +355,7 @@ def test_auto_route_certifies_its_target_on_any_grid(n, points, uniform, until, 
     from kinetics.propagate import AUTO_RTOL
 
     rng = np.random.default_rng(seed)
-    K = chain(list(10.0 ** rng.uniform(-2, 1, n - 1)))
+    K = chain_matrix(list(10.0 ** rng.uniform(-2, 1, n - 1)))
     times = np.linspace(0.0, until, points) if uniform else np.sort(rng.uniform(0, until, points))
     result = propagate_certified(K, np.eye(n)[0], times)
     assert result.error_bound.max() <= AUTO_RTOL

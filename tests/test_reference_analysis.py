@@ -14,18 +14,10 @@ import pytest
 
 from kinetics import analysis as an
 
+from conftest import chain_matrix
+
 MIN = 60.0  # s
 HOUR = 3600.0  # s
-
-
-def chain(*k):
-    """Matrix of the chain S0 -> S1 -> ... with rate constants k [1/s]."""
-    n = len(k) + 1
-    K = np.zeros((n, n))
-    for j, kj in enumerate(k):
-        K[j, j] -= kj
-        K[j + 1, j] += kj
-    return K
 
 
 def start(n, **at):
@@ -46,7 +38,7 @@ def test_consecutive_tmax_and_bmax_textbook_values():
     # B_max = A0 (k1/k2)^(k2/(k2-k1)); k1 = 0.1, k2 = 0.05 1/min -> 13.863 min, 0.5 A0.
     k1, k2 = 0.1 / MIN, 0.05 / MIN
     A0 = 2.0
-    K = chain(k1, k2)
+    K = chain_matrix([k1, k2])
     (m,) = an.intermediate_maxima(K, [A0, 0, 0], 1)
     assert m.is_global
     t_closed = math.log(k1 / k2) / (k1 - k2)
@@ -62,7 +54,7 @@ def test_consecutive_equal_constants_defective_case():
     # Equal constants (limit of the consecutive-reaction formulas, textbook result):
     # B(t) = A0 k t e^(-k t), t_max = 1/k, B_max = A0/e.
     k = 0.37
-    K = chain(k, k)
+    K = chain_matrix([k, k])
     (m,) = an.intermediate_maxima(K, [1.0, 0, 0], 1)
     np.testing.assert_allclose(m.time, 1 / k, rtol=1e-12, atol=0)
     np.testing.assert_allclose(m.height, 1 / math.e, rtol=1e-12, atol=0)
@@ -79,7 +71,7 @@ def test_consecutive_nearly_equal_constants():
     k2 = k1 * (1 + mp.mpf("1e-9"))
     t_ref = mp.log(k1 / k2) / (k1 - k2)
     b_ref = (k1 / k2) ** (k2 / (k2 - k1))
-    K = chain(float(k1), float(k2))
+    K = chain_matrix([float(k1), float(k2)])
     (m,) = an.intermediate_maxima(K, [1.0, 0, 0], 1)
     np.testing.assert_allclose(m.time, float(t_ref), rtol=1e-10, atol=0)
     np.testing.assert_allclose(m.height, float(b_ref), rtol=1e-12, atol=0)
@@ -91,7 +83,7 @@ def test_maximum_between_points_of_a_coarse_grid():
     # 20 min, the maximum at 13.8629 min) is found to 1e-9 relative; value from the
     # consecutive-reaction closed form (Atkins & de Paula).
     k1, k2 = 0.1 / MIN, 0.05 / MIN
-    K = chain(k1, k2)
+    K = chain_matrix([k1, k2])
     grid = np.linspace(0, 100 * MIN, 11)
     t_closed = math.log(k1 / k2) / (k1 - k2)
     summary = an.summarise(K, [1.0, 0, 0], ["A", "B", "C"], t_window=grid[-1])
@@ -274,7 +266,7 @@ def test_chain_area_to_infinity_is_a0_over_k_for_every_member():
     # A -> B -> C -> D: every intermediate carries the whole material once, so
     # AUC_inf(X) = A0/k_X (mass balance of the integrated chain; Bateman 1910 integrated).
     k = (0.3, 2.0, 0.07)
-    K = chain(*k)
+    K = chain_matrix(k)
     ar = an.areas(K, [1.0, 0, 0, 0], 1.0)
     np.testing.assert_allclose(ar.to_infinity[:3], [1 / x for x in k], rtol=1e-14, atol=0)
     assert np.isinf(ar.to_infinity[3])
@@ -348,7 +340,7 @@ def test_cycle_with_leak_lists_every_local_maximum():
 def test_chain_with_mpmath_reference_for_maxima(species):
     # A 4-step chain with distinct constants; the maxima of B and C from the mpmath
     # eigen-decomposition at 40 digits (a reference library).
-    K = chain(1.3, 0.21, 4.0, 0.05)
+    K = chain_matrix([1.3, 0.21, 4.0, 0.05])
     c0 = [1.0, 0, 0, 0, 0]
     ref = _mp_maxima(K, c0, species, t_end=60.0, step=0.05)
     got = an.intermediate_maxima(K, c0, species)

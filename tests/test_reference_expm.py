@@ -19,18 +19,10 @@ import pytest
 
 from kinetics.propagate import expm_nonnegative_certified, propagate
 
+from conftest import chain_matrix
+
 REF_DPS = 50
 FLOOR = mpmath.mpf("1e-300")  # entries below this are outside the accuracy target
-
-
-def chain(ks):
-    """Rate matrix of A1 -> A2 -> ... with constants ks; the last species is stable."""
-    n = len(ks) + 1
-    K = np.zeros((n, n))
-    for i, k in enumerate(ks):
-        K[i, i] -= k
-        K[i + 1, i] += k
-    return K
 
 
 def mp_expm(A: np.ndarray, t: float):
@@ -53,9 +45,9 @@ def worst_relative_error(F: np.ndarray, E) -> float:
 
 NAMED = {
     # four steps with equal constants: defective (one Jordan block of size 5)
-    "equal-constants chain": (chain([1.0, 1.0, 1.0, 1.0]), 2.5, 1e-13),
+    "equal-constants chain": (chain_matrix([1.0, 1.0, 1.0, 1.0]), 2.5, 1e-13),
     # near-defective: Bateman's formula divides by 1e-9 here
-    "nearly equal constants": (chain([1.0, 1.0 + 1e-9, 1.0 - 1e-9]), 3.0, 1e-13),
+    "nearly equal constants": (chain_matrix([1.0, 1.0 + 1e-9, 1.0 - 1e-9]), 3.0, 1e-13),
     # A -> B -> C -> A with a leak from C (complex eigenvalues)
     "irreversible cycle with leak": (
         np.array([[-1.0, 0.0, 2.0], [1.0, -3.0, 0.0], [0.0, 3.0, -2.5]]),
@@ -77,8 +69,12 @@ NAMED = {
         1e-13,
     ),
     # 20-step chain at an early time: the last species is about 1e-79
-    "trace species of a 20-step chain": (chain([1.0] * 20), 1e-3, 1e-13),
-    "20-step chain, trace species at 0.5 s": (chain(list(np.linspace(0.5, 3.0, 20))), 0.5, 1e-13),
+    "trace species of a 20-step chain": (chain_matrix([1.0] * 20), 1e-3, 1e-13),
+    "20-step chain, trace species at 0.5 s": (
+        chain_matrix(list(np.linspace(0.5, 3.0, 20))),
+        0.5,
+        1e-13,
+    ),
 }
 
 
@@ -107,7 +103,7 @@ def test_trace_species_really_is_trace():
 @pytest.mark.parametrize("t", [1e-3, 1.0, 1e3])
 def test_stiff_30_species_chain(t):
     # constants log-spaced 1e-6 .. 1e6 1/s (12 orders of magnitude)
-    K = chain(list(np.logspace(-6, 6, 29)))
+    K = chain_matrix(list(np.logspace(-6, 6, 29)))
     F, bound = expm_nonnegative_certified(K, t)
     err = worst_relative_error(F, mp_expm(K, t))
     assert np.all(F >= 0)

@@ -17,6 +17,8 @@ import scipy.stats
 import kinetics
 from kinetics.sweep import chunk_result, make_plan, monte_carlo, set_matrices, sweep
 
+from conftest import bateman_chain
+
 # Molar gas constant R = N_A k_B, exact in the 2019 SI from the defined Avogadro and
 # Boltzmann constants (CODATA 2018: 8.314462618... J/(mol K))
 R = 6.02214076e23 * 1.380649e-23
@@ -121,12 +123,7 @@ def test_curves_follow_bateman():
     for i, k2 in enumerate([0.05, 0.1, 0.2]):
         k = [1.0, k2, 0.01]
         # Bateman 1910: c_n(t) = A0 prod_{j<n} k_j sum_i exp(-k_i t) / prod_{j!=i} (k_j - k_i)
-        c = np.zeros((times.size, 3))
-        for n in range(3):
-            pre = np.prod(k[:n])
-            for ii in range(n + 1):
-                den = np.prod([k[j] - k[ii] for j in range(n + 1) if j != ii])
-                c[:, n] += pre * np.exp(-k[ii] * times) / den
+        c = bateman_chain(k, 1.0, times).T
         np.testing.assert_allclose(result.curves[i, :, :3], c, rtol=1e-10, atol=1e-14)
 
 

@@ -15,14 +15,7 @@ from kinetics.errors import UsageError
 from kinetics.propagate import propagate
 from kinetics.sensitivity import block_sensitivities, sensitivities
 
-
-def chain(ks):
-    n = len(ks) + 1
-    K = np.zeros((n, n))
-    for i, k in enumerate(ks):
-        K[i, i] -= k
-        K[i + 1, i] += k
-    return K
+from conftest import chain_matrix
 
 
 def test_sensitivities_against_mpmath_finite_difference():
@@ -51,7 +44,7 @@ def test_sensitivities_against_mpmath_finite_difference():
 
 
 def test_sensitivities_against_expm_frechet():
-    K = chain([1.0, 0.25, 0.05])
+    K = chain_matrix([1.0, 0.25, 0.05])
     E = np.zeros((4, 4))
     E[1, 1], E[2, 1] = -1.0, 1.0  # d/dk2
     c0 = np.array([1.0, 0.0, 0.0, 0.0])
@@ -76,7 +69,7 @@ def test_block_route_matches_expm_frechet():
 
 def test_both_routes_agree_with_start_vectors_and_a_feed():
     # the derivative along a start vector is the propagated start vector (linearity)
-    K = chain([0.8, 0.3])
+    K = chain_matrix([0.8, 0.3])
     E = np.zeros((1, 3, 3))
     E[0, 0, 0], E[0, 1, 0] = -1.0, 1.0  # d/dk1
     c0 = np.array([1.0, 0.0, 0.0])
@@ -94,4 +87,4 @@ def test_both_routes_agree_with_start_vectors_and_a_feed():
 
 def test_bad_directions_are_refused():
     with pytest.raises(UsageError, match=r"directions must have shape \(d, 2, 2\)"):
-        sensitivities(chain([1.0]), [1, 0], [1.0], np.zeros((1, 3, 3)))
+        sensitivities(chain_matrix([1.0]), [1, 0], [1.0], np.zeros((1, 3, 3)))
