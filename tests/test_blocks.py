@@ -85,7 +85,11 @@ def bateman_mp(ks, t, upto, dps=700):
 # ---------------------------------------------------------------- ball arithmetic
 
 
-@pytest.mark.parametrize("case", [0, 1], ids=["300 species", "420 species"])
+@pytest.mark.parametrize(
+    "case",
+    [0, pytest.param(1, marks=pytest.mark.slow)],  # the larger one is slow
+    ids=["300 species", "420 species"],
+)
 def test_trace_species_against_ball_arithmetic(case):
     data = json.loads(DATA.read_text())["cases"][case]
     n = data["n"]
@@ -117,6 +121,7 @@ def test_trace_species_against_ball_arithmetic(case):
 # ---------------------------------------------------------------- closed forms
 
 
+@pytest.mark.slow  # 2,000 species, 700-digit references
 def test_chain_of_2000_against_bateman():
     n = 2000
     ks = np.logspace(-4, 2, n)

@@ -107,6 +107,7 @@ FUZZ = settings(
 )
 
 
+@pytest.mark.slow  # fuzzing the command line
 @FUZZ
 @given(st.one_of(solve_args("solve"), solve_args("report"), st.just(["check", "s.scheme"])))
 def test_solve_report_and_check_never_crash(folder, capsys, argv):
@@ -114,6 +115,7 @@ def test_solve_report_and_check_never_crash(folder, capsys, argv):
     assert_clean(status, err, argv)
 
 
+@pytest.mark.slow  # fuzzing the command line
 @settings(max_examples=25, deadline=None, suppress_health_check=list(HealthCheck))
 @given(sweep_args())
 def test_sweep_never_crashes(folder, capsys, argv):
@@ -121,6 +123,7 @@ def test_sweep_never_crashes(folder, capsys, argv):
     assert_clean(status, err, argv)
 
 
+@pytest.mark.slow  # timing runs of growing size
 def test_time_grows_linearly_with_a_times_list(folder, capsys):
     def cpu(count: int) -> float:
         times = ",".join(str(k) for k in range(count)) + " s"

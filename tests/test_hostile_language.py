@@ -175,6 +175,7 @@ def test_a_file_is_decoded_across_chunk_boundaries(tmp_path):
     assert load(path).initial == {"A": 1.0}
 
 
+@pytest.mark.slow  # a file of thousands of mistakes
 def test_at_most_fifty_problems_are_printed(capsys, tmp_path):
     path = tmp_path / "bad.scheme"
     path.write_text("A -> B  k1 = 1 1/s\nstart A = 1 M\n" + "this is not a line\n" * 100_000)
@@ -694,6 +695,7 @@ def test_fuzzed_bytes_raise_only_our_errors(tmp_path_factory, data):
         pass
 
 
+@pytest.mark.slow  # timing runs of growing size
 @settings(max_examples=8, deadline=None, suppress_health_check=list(HealthCheck))
 @given(st.one_of(documents, mutated_examples()))
 def test_parse_time_is_linear_in_the_number_of_lines(text):
@@ -702,6 +704,7 @@ def test_parse_time_is_linear_in_the_number_of_lines(text):
     assert_linear(text, "\n".join([text] * 8))
 
 
+@pytest.mark.slow  # timing runs of growing size
 @settings(max_examples=8, deadline=None, suppress_health_check=list(HealthCheck))
 @given(statements.filter(lambda s: "\n" not in s and "\r" not in s and s.strip()))
 def test_parse_time_is_linear_in_the_length_of_a_line(line):

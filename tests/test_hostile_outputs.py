@@ -266,6 +266,7 @@ def test_report_escapes_title_file_name_and_scheme(folder, capsys):
     assert "<code>&lt;img src=x onerror=alert(1)&gt;.scheme</code>" in html
 
 
+@pytest.mark.slow  # draws figures
 def test_dollar_signs_in_titles_and_file_names_are_drawn_as_written(folder, capsys):
     # matplotlib reads $...$ as a formula unless told not to; a bad one was an internal error
     source = scheme_file(folder, "$x^{.scheme", title="$\\frac{$")
@@ -350,6 +351,7 @@ def too_large(path) -> str:
     )
 
 
+@pytest.mark.slow  # every writer against a small disk
 @pytest.mark.parametrize("name", ["t.csv", "t.xlsx", "t.json", "t.parquet", "t.png", "t.svg"])
 def test_full_disk_names_the_file_and_leaves_nothing(folder, capsys, small_disk, name):
     source = scheme_file(folder)
@@ -361,6 +363,7 @@ def test_full_disk_names_the_file_and_leaves_nothing(folder, capsys, small_disk,
     assert sorted(p.name for p in folder.iterdir()) == ["chain.scheme"]
 
 
+@pytest.mark.slow  # the HTML report against a small disk
 def test_full_disk_report(folder, capsys, small_disk):
     source = scheme_file(folder)
     small_disk(4096)
@@ -623,6 +626,7 @@ def _kinetics(*argv, **kw):
     return subprocess.Popen([sys.executable, "-m", "kinetics", *map(str, argv)], **kw)
 
 
+@pytest.mark.slow  # subprocesses and a signal
 def test_sigterm_while_writing_tables_leaves_no_part_file(folder, capsys):
     source = scheme_file(folder)
     argv = [
@@ -704,6 +708,7 @@ def test_a_signal_the_parent_ignores_stays_ignored(folder, capsys):
     capsys.readouterr()
 
 
+@pytest.mark.slow  # subprocesses
 @pytest.mark.parametrize("extra", [[], ["--json"]])
 def test_a_closed_pipe_ends_quietly(folder, extra):
     source = scheme_file(folder)

@@ -9,6 +9,9 @@ from pathlib import Path
 
 import pytest
 
+#: Every check starts fresh interpreters (about 0.5-1 s each).
+pytestmark = pytest.mark.slow
+
 HEAVY = [
     "matplotlib",
     "dask",

@@ -246,6 +246,7 @@ def test_linear_option_is_checked(solved):
     assert str(info.value) == "linear='twin' is not known; use 'auto' or 'shared'"
 
 
+@pytest.mark.slow  # draws many random label sets
 @settings(max_examples=25, deadline=None)
 @given(
     st.lists(
