@@ -342,8 +342,18 @@ class UnitSpec:
 
     @functools.cached_property
     def rate_order(self) -> int | None:
-        """Reaction order minus one implied by this unit as a rate constant (see
-        :func:`concentration_order`); None if it is no rate-constant unit."""
+        """Reaction order minus one implied by this unit as a rate constant.
+
+        See :func:`concentration_order`; None if it is no rate-constant unit.
+
+        Examples
+        --------
+        A rate ``k c^2`` in M/s needs k in M⁻¹ s⁻¹ (closed form: the unit of k is
+        concentration^(1-n) / time for a step of order n):
+
+        >>> parse_unit("M-1 s-1").rate_order, parse_unit("1/min").rate_order
+        (1, 0)
+        """
         return _order_of(self.dimensions)
 
 
@@ -367,6 +377,15 @@ def parse_unit(text: str) -> UnitSpec:
     UnitError
         For any other unit that cannot be read (a ``ValueError``); callers turn
         both into a located error.
+
+    Examples
+    --------
+    1 M⁻¹ s⁻¹ is 10⁻³ m³ mol⁻¹ s⁻¹ (closed form: 1 M = 1 mol/L and 1 L = 10⁻³ m³, SI
+    brochure, 9th edition, 2019, table 8):
+
+    >>> spec = parse_unit("M-1 s-1")
+    >>> spec.factor, {name: int(power) for name, power in spec.dims.items()}
+    (Fraction(1, 1000), {'[length]': 3, '[substance]': -1, '[time]': -1})
     """
     if not text.strip():
         return UnitSpec(text, Fraction(1), ())
@@ -390,6 +409,14 @@ def parse_unit_by_pint(text: str) -> UnitSpec:
 
     The reference that :data:`COMMON_UNITS` is checked against; slower (it
     builds the registry on first use).
+
+    Examples
+    --------
+    1 L mol⁻¹ min⁻¹ is 10⁻³ m³ / (mol 60 s) (closed form; 1 L = 10⁻³ m³ and 1 min = 60 s,
+    SI brochure, 9th edition, 2019, table 8):
+
+    >>> parse_unit_by_pint("L mol-1 min-1").factor
+    Fraction(1, 60000)
     """
     normal = normalise_unit(text)
     if not text.strip() or _NUMBER.match(normal.strip()):
@@ -500,8 +527,11 @@ def convert(value: float, from_unit: str, to_unit: str) -> float:
 
     Examples
     --------
-    >>> convert(90.0, "min", "h")
-    1.5
+    1 h = 60 min and 1 L = 1 dm³ = 10⁻³ m³ (SI brochure, 9th edition, 2019, table 8), so
+    90 min is 1.5 h and 2.5 mmol/L is 2.5 mol/m³:
+
+    >>> convert(90.0, "min", "h"), convert(2.5, "mmol/L", "mol/m3")
+    (1.5, 2.5)
     """
     a, b = parse_unit(from_unit), parse_unit(to_unit)
     if a.offset or b.offset:
@@ -546,8 +576,12 @@ def temperature_to_kelvin(value: float | Fraction, unit: str) -> float:
 
     Examples
     --------
-    >>> temperature_to_kelvin(25.0, "degC")
-    298.15
+    Closed forms of the scales: :math:`T/\\mathrm{K} = t/{}^\\circ\\mathrm{C} + 273.15`
+    and :math:`T/\\mathrm{K} = (t/{}^\\circ\\mathrm{F} + 459.67) \\cdot 5/9`, so water boils
+    (at 1 atm) near 100 degC = 212 degF = 373.15 K:
+
+    >>> temperature_to_kelvin(25.0, "degC"), temperature_to_kelvin(212, "degF")
+    (298.15, 373.15)
     """
     spec = parse_unit(unit)
     if spec.dims != {"[temperature]": 1}:
@@ -672,6 +706,24 @@ def concentration_order(dims: dict) -> int | None:
     ``1/time`` gives 0, ``1/(concentration time)`` gives 1, and so on; ``None``
     when the dimension is not of the form ``concentration^-m / time``.  A
     dimension ``amount^-m / time`` (files in amounts) also counts.
+
+    Parameters
+    ----------
+    dims : dict
+        Dimension exponents as produced by :func:`parse_unit`.
+
+    Returns
+    -------
+    int or None
+        m, the order of the step minus one.
+
+    Examples
+    --------
+    Closed form: the rate ``k c^n`` [concentration/time] needs k in
+    concentration^(1-n)/time, so M⁻² s⁻¹ belongs to a third-order step:
+
+    >>> [concentration_order(parse_unit(u).dims) for u in ("1/s", "M-2 s-1", "mol/L")]
+    [0, 2, None]
     """
     return _order_of(tuple(sorted((k, Fraction(v)) for k, v in dims.items() if v)))
 
@@ -732,8 +784,11 @@ def time_factor(unit: str) -> float:
 
     Examples
     --------
-    >>> time_factor("h"), time_factor("week")
-    (3600.0, 604800.0)
+    1 h = 3600 s and 1 d = 86 400 s (SI brochure, 9th edition, 2019, table 8); a week is
+    7 d and a year the Julian year of 365.25 d (closed forms):
+
+    >>> time_factor("h"), time_factor("week"), time_factor("year")
+    (3600.0, 604800.0, 31557600.0)
     """
     hint = f"use {TIME_UNITS}"
     if not isinstance(unit, str):
@@ -791,8 +846,10 @@ def parse_duration(text: str, option: str = "--until") -> tuple[float, str]:
 
     Examples
     --------
-    >>> parse_duration("90 min")
-    (5400.0, 'min')
+    1 min = 60 s and 1 d = 86 400 s (SI brochure, 9th edition, 2019, table 8):
+
+    >>> parse_duration("90 min"), parse_duration("1.5 d")
+    ((5400.0, 'min'), (129600.0, 'd'))
     """
     example = f"write e.g. {option} '90 min'"
     quoted = f"{option} {shorten(text)!r}"
@@ -840,6 +897,8 @@ def parse_time_list(text: str, option: str = "--times") -> tuple[list[float], st
 
     Examples
     --------
+    1 min = 60 s (SI brochure, 9th edition, 2019, table 8):
+
     >>> parse_time_list("0,5,10 min")
     ([0.0, 300.0, 600.0], 'min')
     """
