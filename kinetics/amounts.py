@@ -165,6 +165,12 @@ def kind_of(unit: str, per_time: bool = False) -> Kind | None:
     --------
     >>> kind_of("mg/kg").name, kind_of("mmol/L").name, kind_of("1/s") is None
     ('mass per mass of soil', 'concentration', True)
+
+    The factor to SI: 1 mg/L is 10⁻⁶ kg / 10⁻³ m³ = 10⁻³ kg/m³ (closed form; 1 L = 10⁻³ m³,
+    SI brochure, 9th edition, 2019, table 8):
+
+    >>> kind_of("mg/L").factor
+    Fraction(1, 1000)
     """
     spec = parse_unit(unit)
     if spec.offset:
@@ -203,8 +209,11 @@ def amount_unit(kind: Kind) -> tuple[str, Fraction]:
 
     Examples
     --------
-    >>> amount_unit(kind_of("mg/L"))
-    ('mmol/L', Fraction(1, 1))
+    Closed form n = m / M: a number of mg/L divided by M [g/mol] is a number of mmol/L, and
+    1 mmol/L is 1 mol/m³ (SI factor 1):
+
+    >>> amount_unit(kind_of("mg/L")), amount_unit(kind_of("ug/kg"))
+    (('mmol/L', Fraction(1, 1)), ('umol/kg', Fraction(1, 1000000)))
     """
     if kind.substance != "mass":
         raise ValueError("amount_unit() converts mass kinds only")
@@ -275,6 +284,18 @@ def output_factors(scheme: Scheme, unit: str) -> np.ndarray:
     OutputUnitError
         For a unit of another basis, a mass unit where a species that can be present
         has no molar mass, and "% of applied" with a feed or nothing applied.
+
+    Examples
+    --------
+    Closed forms: a mass concentration is the amount concentration times the molar mass
+    (mmol/L times g/mol is mg/L), 1 mmol/L is 1000 umol/L, and "% of applied" divides by
+    the 2 mmol/L applied:
+
+    >>> from kinetics import parse
+    >>> s = parse("A -> B  k1 = 0.1 1/s\\nmolar_mass A = 180.16 g/mol, B = 90.08 g/mol\\n"
+    ...           "start A = 2 mmol/L")
+    >>> [output_factors(s, u).tolist() for u in ("mg/L", "umol/L", "% of applied")]
+    [[180.16, 90.08], [1000.0, 1000.0], [50.0, 50.0]]
     """
     n = len(scheme.species)
     if is_percent_of_applied(unit):

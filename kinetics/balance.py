@@ -64,6 +64,11 @@ def parse_formula(text: str):
     Returns
     -------
     periodictable.formulas.Formula
+
+    Examples
+    --------
+    >>> str(parse_formula("CH3COOH").hill)
+    'C2H4O2'
     """
     import periodictable
 
@@ -103,6 +108,11 @@ def element_counts(text: str) -> dict[str, float]:
     ------
     ValueError
         When the formula does not parse (see :func:`parse_formula`).
+
+    Examples
+    --------
+    >>> element_counts("Ca(OH)2")
+    {'Ca': 1.0, 'O': 2.0, 'H': 2.0}
     """
     return dict(_counts(text))
 
@@ -140,6 +150,15 @@ def formula_mass(text: str) -> float:
     weights, revised periodically; the 2021 revision: T. Prohaska et al.,
     "Standard atomic weights of the elements 2021 (IUPAC Technical Report)",
     Pure Appl. Chem. 94, 573-600 (2022).
+
+    Examples
+    --------
+    Glucose with the conventional standard atomic weights C 12.011, H 1.008 and
+    O 15.999 (the IUPAC table cited above): 6 · 12.011 + 12 · 1.008 + 6 · 15.999
+    = 180.156 g/mol:
+
+    >>> round(formula_mass("C6H12O6"), 6), round(formula_mass("H2O"), 6)
+    (180.156, 18.015)
     """
     return float(parse_formula(text).mass)
 
@@ -192,6 +211,16 @@ def atom_balance(reaction: Reaction, formulas: dict[str, str | None]) -> AtomBal
     AtomBalance or None
         ``None`` when some species of the reaction has no formula (the check
         then does not apply).
+
+    Examples
+    --------
+    Ethane splitting into two methyl radicals, C2H6 -> 2 CH3: 2 C and 6 H on each side
+    (closed form above):
+
+    >>> from kinetics import parse
+    >>> s = parse("A -> 2 B  k1 = 0.1 1/s\\nformula A = C2H6, B = CH3\\nstart A = 1 M")
+    >>> atom_balance(s.reactions[0], {"A": "C2H6", "B": "CH3"})
+    AtomBalance(left={'C': 2.0, 'H': 6.0}, right={'C': 2.0, 'H': 6.0}, ok=True)
     """
     left = tuple((c, formulas.get(name)) for c, name in reaction.left)
     right = tuple((c, formulas.get(name)) for c, name in reaction.right)
@@ -284,6 +313,18 @@ def mass_balance(scheme: Scheme) -> MassBalance:
     Co-reactants held in excess add mass to the tracked species and excess
     products take it away; such steps are named but do not fail the check.
     A step whose total mass (excess species included) changes fails it.
+
+    Examples
+    --------
+    A lumped step from 100 g/mol to 80 g/mol loses a fifth of the mass it converts
+    (closed form above: r = |80 k - 100 k| / (100 k) = 0.2):
+
+    >>> from kinetics import parse
+    >>> s = parse("A -> B  k1 = 0.1 1/s\\nmolar_mass A = 100 g/mol, B = 80 g/mol\\n"
+    ...           "balance: lumped\\nstart A = 1 M")
+    >>> result = mass_balance(s)
+    >>> round(result.max_relative_residual, 12), result.ok
+    (0.2, False)
     """
     all_species = scheme.species + scheme.excess_species
     formulas = {s.name: s.formula for s in all_species}

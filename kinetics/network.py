@@ -45,6 +45,13 @@ def species_graph(scheme: Scheme) -> nx.DiGraph:
     Node attributes: ``excess`` (bool), ``index`` (matrix index or None).
     Edge attributes: ``steps`` (list of step indices), ``constants`` (list of names).
     Co-reactants in excess get an edge to the products too (``co_reactant=True``).
+
+    Examples
+    --------
+    >>> import kinetics
+    >>> s = kinetics.parse("A -> B  k1 = 1 1/s\\nB <=> C  k2 = 1 1/s, k3 = 1 1/s\\nstart A = 1 M")
+    >>> sorted(species_graph(s).edges)
+    [('A', 'B'), ('B', 'C'), ('C', 'B')]
     """
     graph = nx.DiGraph()
     for s in scheme.species:
@@ -110,6 +117,23 @@ def summarise_network(scheme: Scheme, *, max_cycles: int = 50) -> NetworkSummary
     scheme : Scheme
     max_cycles : int, optional
         At most this many cycles are listed (large networks can have very many).
+
+    Returns
+    -------
+    NetworkSummary
+
+    Examples
+    --------
+    >>> import kinetics
+    >>> s = kinetics.parse(
+    ...     "A -> B  k1 = 1 1/s\\nB <=> C  k2 = 1 1/s, k3 = 1 1/s\\nC -> D  k4 = 1 1/s\\n"
+    ...     "start A = 1 M"
+    ... )
+    >>> summary = summarise_network(s)
+    >>> summary.roles["A"], summary.roles["C"], summary.roles["D"]
+    ('starting material', 'intermediate', 'end product')
+    >>> summary.reversible_pairs, summary.strongly_connected
+    ([('B', 'C')], [['B', 'C']])
     """
     graph = species_graph(scheme)
     order = {name: i for i, name in enumerate(graph.nodes)}
@@ -212,6 +236,18 @@ def condensation(sources, targets, n: int) -> Condensation:
         Edge ends; repeated edges are allowed.
     n : int
         Number of species.
+
+    Returns
+    -------
+    Condensation
+
+    Examples
+    --------
+    Species 0 feeds the loop 1 <-> 2, which feeds nothing; species 3 stands alone:
+
+    >>> c = condensation([0, 1, 2], [1, 2, 1], 4)
+    >>> c.count, [m.tolist() for m in c.members], c.labels.tolist()
+    (3, [[1, 2], [0], [3]], [1, 0, 0, 2])
     """
     import scipy.sparse
     from scipy.sparse.csgraph import connected_components
