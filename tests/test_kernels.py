@@ -158,12 +158,12 @@ def engine_outputs(data) -> dict[str, np.ndarray]:
         _kernels.shift_and_norm(A, Al, t, sigma, sigma_lo, beta)
         Fh, Fl, Y = np.empty_like(A), np.empty_like(A), np.empty_like(A)
         mats = np.empty((6, n, n))
+        ratio = np.empty(b)
         _kernels.exponentials(
             A, Al, t, sigma, sigma_lo, j, s, r, data[key + "ih"], data[key + "il"],
             np.bool_(data[key + "dd"]), Fh, Fl, Y, np.empty((2, s + 1, n, n)), mats,
+            m + 1, math.exp(-math.lgamma(m + 2)), tiny, ratio,
         )  # fmt: skip
-        coef = math.exp(-math.lgamma(m + 2))
-        ratio = _kernels.truncation_ratios(Y, Fh, m + 1, coef, tiny, mats, np.bool_(False))
         vh = np.ascontiguousarray(Fh[:, :, :1][:, ::-1])
         oh, ol = np.empty(vh.shape), np.empty(vh.shape)
         _kernels.apply(Fh, Fl, vh, vh * 2.0**-60, np.full(b, bool(data[key + "dd"])), oh, ol)
@@ -172,9 +172,10 @@ def engine_outputs(data) -> dict[str, np.ndarray]:
         for label, x in results.items():
             out[f"out/exp/{name}/{label}"] = x
         out[f"out/exp/{name}/negative"] = np.array(_kernels.negative_offdiagonal(A))
-        out[f"out/exp/{name}/squared"] = np.array(
-            [_kernels.squared_bound(float(e), float(g)) for e, g in zip(beta, sigma, strict=True)]
-        )
+        pairs = [(float(e), float(g)) for e, g in zip(beta, sigma, strict=True)]
+        squared = [_kernels.squared_bound(e, g) for e, g in pairs]
+        assert squared == [_kernels.squared_bound.py_func(e, g) for e, g in pairs]
+        out[f"out/exp/{name}/squared"] = np.array(squared)
     for name in _cases(data, "in/grid/"):
         key = f"in/grid/{name}/"
         Fh, Fl = out[f"out/exp/{name}/Fh"], out[f"out/exp/{name}/Fl"]
@@ -186,12 +187,11 @@ def engine_outputs(data) -> dict[str, np.ndarray]:
         bound = np.zeros((b, p))
         residual = np.zeros(p)
         x0h, x0l = data[key + "x0h"], data[key + "x0l"]
-        _kernels.grid_steps(Fh, Fl, x0h, x0l, columns, skip, data[key + "dd"], X, row0)
-        _kernels.grid_bounds(
-            data[key + "eps"], data[key + "gamma"], columns, skip, data[key + "start_bound"],
-            bound, row0,
+        _kernels.grid(
+            Fh, Fl, x0h, x0l, columns, skip, data[key + "dd"], X, row0, data[key + "eps"],
+            data[key + "gamma"], data[key + "start_bound"], bound, times, times[row0],
+            float(data[key + "dt"]), residual,
         )  # fmt: skip
-        _kernels.grid_residuals(times, row0, times[row0], float(data[key + "dt"]), skip, residual)
         A = data[f"in/exp/{name}/A"]
         _kernels.residual_bounds(A, X, residual, N - 1, 1e-15, tiny, bound)
         out[f"out/grid/{name}/X"] = X
