@@ -52,6 +52,10 @@ _SPLITTER = 134217729.0  # 2**27 + 1, Veltkamp splitting constant (Dekker 1971, 
 BLAS_FROM = 48**3
 
 _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
+#: helpers called only from kernels: no wrapper for calls from Python and no cache file of
+#: their own (a kernel's cached code includes the helpers it calls); each saves about
+#: 50 ms of the first use
+_HELPER = {"nogil": True, "error_model": "numpy", "no_cpython_wrapper": True}
 
 
 @njit(**_JIT)
@@ -81,7 +85,7 @@ def two_sum(a, b):
 _LN2 = (0.6931471805599453, 2.3190468138462996e-17, 5.707708438416212e-34)
 
 
-@njit(**_JIT)
+@njit(**_HELPER)
 def _dd_add(ah, al, bh, bl):
     """Double-double sum, either sign (the accurate variant of Bailey's QD library)."""
     s, e = two_sum(ah, bh)
@@ -191,24 +195,17 @@ def negative_offdiagonal(K):
     return False
 
 
-@njit(**_JIT)
-def copy_pair(Ah, Al, Bh, Bl):
-    """``B = A`` for a pair of 2-D arrays (explicit loops: a slice assignment costs numba
-    seconds of compilation per call site)."""
-    copy(Ah, Bh)
-    copy(Al, Bl)
-
-
-@njit(**_JIT)
+@njit(**_HELPER)
 def copy(A, B):
-    """``B = A`` for 2-D arrays, by explicit loops (see :func:`copy_pair`)."""
+    """``B = A`` for 2-D arrays, by explicit loops (a slice assignment costs numba seconds
+    of compilation per call site)."""
     n, m = A.shape
     for i in range(n):
         for j in range(m):
             B[i, j] = A[i, j]
 
 
-@njit(**_JIT)
+@njit(**_HELPER)
 def fill(A, value):
     """Every entry of the 2-D array ``A`` set to ``value``."""
     n, m = A.shape
@@ -217,7 +214,7 @@ def fill(A, value):
             A[i, j] = value
 
 
-@njit(**_JIT)
+@njit(**_HELPER)
 def matmul_double(A, B, out):
     """``out = A B`` in plain double for nonnegative data; zero entries of ``A`` are skipped."""
     n, k = A.shape
@@ -290,26 +287,6 @@ def product(Ah, Al, Bh, Bl, Ch, Cl, dd):
 
 
 @njit(**_JIT)
-def _scale_add(Th, Tl, Ph, Pl, ch, cl, dd):
-    """``T += c P`` elementwise (nonnegative ``c``, ``P``)."""
-    n, m = Th.shape
-    if not dd:  # the route is decided outside the loops, so the plain one vectorises
-        for i in range(n):
-            for j in range(m):
-                Th[i, j] += ch * Ph[i, j]
-        return
-    for i in range(n):
-        for j in range(m):
-            p, e = two_prod(ch, Ph[i, j])
-            e += ch * Pl[i, j] + cl * Ph[i, j]
-            s, f = two_sum(Th[i, j], p)
-            f += Tl[i, j] + e
-            hi = s + f
-            Tl[i, j] = f - (hi - s)
-            Th[i, j] = hi
-
-
-@njit(**_JIT)
 def exponentials(
     A, Al, t, sigma, sigma_lo, j, s, r, ih, il, dd, Fh, Fl, Y, P, M, power, coef, tiny, ratio
 ):
@@ -338,9 +315,14 @@ def exponentials(
     b, n, _ = A.shape
     plain = dd and not dd  # false, as a variable: product() keeps a single signature
     scale = 2.0**-j
-    Yh, Yl, Th, Tl, Wh, Wl = M[0], M[1], M[2], M[3], M[4], M[5]
-    zero, G, W, Z = M[0], M[1], M[2], M[3]  # the truncation check reuses them
     Ph, Pl = P[0], P[1]
+    Yh, Yl = Ph[1], Pl[1]  # Y is the first power
+    Th, Tl, Wh, Wl = M[2], M[3], M[4], M[5]  # Horner sum and product (swapped, not copied)
+    zero, G, W, Z = M[0], M[1], M[2], M[3]  # the truncation check (after the sum is stored)
+    fill(Ph[0], 0.0)  # Y^0
+    fill(Pl[0], 0.0)
+    for i in range(n):
+        Ph[0, i, i] = 1.0
     for q in range(b):
         # 1. Y and the factor
         tt = t[q] * scale  # exact: power-of-two scaling
@@ -372,11 +354,6 @@ def exponentials(
             eh, el = np.exp(-(xh + xl) * scale), 0.0
         # 2. powers of Y, and Horner steps, with the sparser factor on the left (its zero
         # entries are skipped; everything here is a polynomial in Y, so the factors commute)
-        fill(Ph[0], 0.0)
-        fill(Pl[0], 0.0)
-        for i in range(n):
-            Ph[0, i, i] = 1.0
-        copy_pair(Yh, Yl, Ph[1], Pl[1])
         for k in range(2, s + 1):
             product(Yh, Yl, Ph[k - 1], Pl[k - 1], Ph[k], Pl[k], dd)
         # Horner in Y^s over the blocks sum_l c_(i s + l) Y^l
@@ -385,9 +362,26 @@ def exponentials(
         for blk in range(r, -1, -1):
             if blk < r:
                 product(Ph[s], Pl[s], Th, Tl, Wh, Wl, dd)
-                copy_pair(Wh, Wl, Th, Tl)
+                Th, Wh = Wh, Th
+                Tl, Wl = Wl, Tl
+            # T += c_(blk s + k) Y^k (nonnegative terms)
             for k in range(s):
-                _scale_add(Th, Tl, Ph[k], Pl[k], ih[blk * s + k], il[blk * s + k], dd)
+                ch = ih[blk * s + k]
+                cl = il[blk * s + k]
+                if not dd:  # the route is decided outside the loops: the plain one vectorises
+                    for a in range(n):
+                        for c in range(n):
+                            Th[a, c] += ch * Ph[k, a, c]
+                    continue
+                for a in range(n):
+                    for c in range(n):
+                        p, e = two_prod(ch, Ph[k, a, c])
+                        e += ch * Pl[k, a, c] + cl * Ph[k, a, c]
+                        sm, f = two_sum(Th[a, c], p)
+                        f += Tl[a, c] + e
+                        hi = sm + f
+                        Tl[a, c] = f - (hi - sm)
+                        Th[a, c] = hi
         # times the factor, then the squarings
         if dd:
             for a in range(n):
@@ -403,8 +397,10 @@ def exponentials(
                     Th[a, c] *= eh
         for _ in range(j):
             product(Th, Tl, Th, Tl, Wh, Wl, dd)
-            copy_pair(Wh, Wl, Th, Tl)
-        copy_pair(Th, Tl, Fh[q], Fl[q])
+            Th, Wh = Wh, Th
+            Tl, Wl = Wl, Tl
+        copy(Th, Fh[q])
+        copy(Tl, Fl[q])
         # 3. G = Y^power by binary powering, then G F (nonnegative, plain double)
         F = Fh[q]
         fill(zero, 0.0)
