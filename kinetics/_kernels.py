@@ -167,7 +167,8 @@ def shift_and_norm(A, Al, t, sigma, sigma_lo, beta):
                 norm = col
         sigma[q] = sh
         sigma_lo[q] = sl
-        beta[q] = max(norm, abs(sh)) * t[q]
+        ash = abs(sh)
+        beta[q] = (ash if ash > norm else norm) * t[q]  # max(norm, |sh|)
 
 
 @njit(**_JIT)
@@ -486,7 +487,8 @@ def grid(
             vl[i] = x0l[q, i]
         if skip == 0:
             for i in range(N):
-                X[q, row0, i] = max(vh[i] + vl[i], 0.0)
+                x = vh[i] + vl[i]
+                X[q, row0, i] = 0.0 if 0.0 > x else x  # max(x, 0.0)
         for k in range(1, columns):
             for j in range(N):
                 sh[j] = 0.0
@@ -526,7 +528,8 @@ def grid(
                     vl[j] = 0.0
             if k >= skip:
                 for i in range(N):
-                    X[q, row0 + k - skip, i] = max(vh[i] + vl[i], 0.0)
+                    x = vh[i] + vl[i]
+                    X[q, row0 + k - skip, i] = 0.0 if 0.0 > x else x  # max(x, 0.0)
     # 2. bounds
     for q in range(eps.shape[0]):
         step = eps[q] + gamma[q] + eps[q] * gamma[q]
