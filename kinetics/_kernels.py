@@ -245,8 +245,8 @@ def product(Ah, Al, Bh, Bl, Ch, Cl, dd):
         fill(Cl, 0.0)
         return
     # Veltkamp halves of the right factor, once per product
-    B1 = np.empty(k * m).reshape((k, m))  # float vectors reshaped: one allocation routine
-    B2 = np.empty(k * m).reshape((k, m))  # for every kernel (each kind compiles on first use)
+    B1 = np.empty((k, m))
+    B2 = np.empty((k, m))
     for r in range(k):
         for j in range(m):
             b = Bh[r, j]
@@ -464,10 +464,10 @@ def grid(
     # One body on purpose, longer than the usual limit (see exponentials).
     # 1. states
     b, N, _ = Fh.shape
-    Th = np.empty(N * N).reshape((N, N))  # F^T and its Veltkamp halves
-    Tl = np.empty(N * N).reshape((N, N))
-    T1 = np.empty(N * N).reshape((N, N))
-    T2 = np.empty(N * N).reshape((N, N))
+    Th = np.empty((N, N))  # F^T and its Veltkamp halves
+    Tl = np.empty((N, N))
+    T1 = np.empty((N, N))
+    T2 = np.empty((N, N))
     vh = np.empty(N)
     vl = np.empty(N)
     sh = np.empty(N)
