@@ -26,7 +26,10 @@ of the sparse, often triangular matrices of reaction schemes cheaper.
 
 The compiled code is cached on disk next to this module (numba ``cache=True``),
 so only the very first call after installation pays the compilation (about
-5 s; :func:`on_disk` lets the command line say so).
+4 s of CPU for the kernels of a solve; :func:`on_disk` lets the command line say
+so).  Python calls one kernel per step (:func:`exponentials`, :func:`grid`,
+:func:`product` and a few small ones); helpers called only from kernels are
+compiled into them (DEVELOPERS.md, "Compiled kernels", says why).
 
 References
 ----------
