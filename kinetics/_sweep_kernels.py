@@ -21,7 +21,7 @@ import math
 import numpy as np
 from numba import njit
 
-from ._kernels import fill, matmul_double
+from ._kernels import matmul_double
 
 # the constants of the method live in kinetics.sweep_summary (numba reads module globals
 # as compile-time constants)
@@ -41,9 +41,6 @@ _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
 _STEP = {"nogil": True, "error_model": "numpy", "no_cpython_wrapper": True}
 # small helpers are inlined into their callers (numba IR inlining)
 _INLINE = {**_JIT, "inline": "always"}
-# min and max are written as comparisons, and every array is allocated as a float or int64
-# vector (reshaped): the builtins and each kind of np.empty/np.zeros call compile an
-# overload of their own on first use
 
 FLUSH = 1e-290  # entries below are outside the relative-accuracy range (and slow)
 TAIL = 0.5**17 / math.factorial(17)  # remainder of the ladder's Taylor sum at y = 1/2
@@ -118,9 +115,8 @@ def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
         degree[level] = na + t
     m = degree[top]
     for level in range(1, top + 1):
-        if degree[level] > m:
-            m = degree[level]
-    powers = np.empty((m + 1) * na * na).reshape((m + 1, na, na))
+        m = max(m, degree[level])
+    powers = np.empty((m + 1, na, na))
     for i in range(na):
         for j in range(na):
             powers[0, i, j] = 1.0 if i == j else 0.0
@@ -152,7 +148,7 @@ def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
         for e in range(na * na):
             out[e] = (flat[0, e] + acc[e]) * ex
         _flush(P[level])
-    Q = np.empty(na * na).reshape((na, na))
+    Q = np.empty((na, na))
     for level in range(top + 1, levels + 1):
         matmul_double(P[level - 1], P[level - 1], Q)
         _flush(Q)
@@ -229,7 +225,7 @@ def _g(kp, ki, kv, f, x, sp, deriv, level):
 def _mark(i, mark, need, used):
     """Append species ``i`` to ``need[:used]`` once."""
     if not mark[i]:
-        mark[i] = 1
+        mark[i] = True
         need[used] = i
         used += 1
     return used
@@ -257,8 +253,8 @@ def _refine(
 
     ``P`` holds the ladder levels transposed; ``K`` and ``B`` come in compressed rows
     (``kp, ki, kv`` and ``bp, bi, bv``); ``work``
-    holds scratch arrays of shapes (na,), (na,), (na + 15, na), (n,), and (na,) twice
-    (integers: marks 0 or 1, species indices).
+    holds scratch arrays of shapes (na,), (na,), (na + 15, na), (n,), and (na,) (bool and
+    integer).
     """
     na = x_a.shape[0]
     x, xa, W, D, mark, need = work
@@ -306,17 +302,14 @@ def _refine(
     frac = ga / den if den != 0.0 else (np.nan if ga == 0.0 else np.inf * ga)
     if np.isnan(frac):
         frac = 0.5
-    if 0.02 > frac:  # min(max(frac, 0.02), 0.98)
-        frac = 0.02
-    if 0.98 < frac:
-        frac = 0.98
+    frac = min(max(frac, 0.02), 0.98)
     delta = frac * w
     height = 0.0
     # g and dg/dt need c only at sp, at the species of the row of sp and (for a maximum)
     # at the species of their rows: the state is summed at those entries only
     used = 0
     for i in range(na):
-        mark[i] = 0
+        mark[i] = False
     used = _mark(sp, mark, need, used)
     for e in range(kp[sp], kp[sp + 1]):
         used = _mark(ki[e], mark, need, used)
@@ -389,8 +382,7 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
     na = n + 1 if has_feed else n
     levels = n_seg + 1
     total = 1 + 4 + SEGMENT_STEPS * n_seg
-    taus = np.empty(total)
-    taus[0] = 0.0
+    taus = np.zeros(total)
     ilevel = np.empty(total - 1, dtype=np.int64)
     j = 0
     for seg in range(n_seg + 1):
@@ -400,18 +392,17 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
             j += 1
             taus[j] = taus[j - 1] + _step(level)
             ilevel[j - 1] = level
-    A = np.empty(na * na).reshape((na, na))
-    fill(A, 0.0)  # the feed row stays zero
-    B = np.empty(na * na).reshape((na, na))
-    P = np.empty((levels + 1) * na * na).reshape((levels + 1, na, na))
-    PT = np.empty((levels + 1) * na * na).reshape((levels + 1, na, na))
-    X = np.empty(total * na).reshape((total, na))
+    A = np.zeros((na, na))
+    B = np.empty((na, na))
+    P = np.empty((levels + 1, na, na))
+    PT = np.empty((levels + 1, na, na))
+    X = np.empty((total, na))
     nm = mx.shape[0]
-    D = np.empty(total * nm).reshape((total, nm))
-    D2 = np.empty(total * nm).reshape((total, nm))
-    N = np.empty(total * nm).reshape((total, nm))
-    s = np.empty(total * nm, dtype=np.int64).reshape((total, nm))  # signs, each written first
-    flags = np.empty(nm, dtype=np.int64)  # 0 or 1, each written first
+    D = np.empty((total, nm))
+    D2 = np.empty((total, nm))
+    N = np.empty((total, nm))
+    s = np.zeros((total, nm), dtype=np.int8)
+    flags = np.zeros(nm, dtype=np.bool_)
     # points along rows for the products below, as flat buffers: an (n, M) view of one is
     # C-contiguous (a column slice of an (n, total) array would not be, and would compile
     # a second version of matmul_double)
@@ -430,10 +421,9 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
     Dq = np.empty(nm)
     Nq = np.empty(nm)
     res = np.empty(2)
-    w_rows = na + NEWTON_TERMS + 1
     rwork = (
-        np.empty(na), np.empty(na), np.empty(w_rows * na).reshape((w_rows, na)), np.empty(n),
-        np.empty(na, dtype=np.int64), np.empty(na, dtype=np.int64),
+        np.empty(na), np.empty(na), np.empty((na + NEWTON_TERMS + 1, na)), np.empty(n),
+        np.zeros(na, dtype=np.bool_), np.empty(na, dtype=np.int64),
     )  # fmt: skip
     for q in range(b):
         Kq = K[q]
@@ -446,8 +436,7 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
                 A[a, n] = f[a] * sc
         sigma = 0.0
         for a in range(na):
-            if -A[a, a] > sigma:
-                sigma = -A[a, a]
+            sigma = max(sigma, -A[a, a])
         for a in range(na):
             for c in range(na):
                 B[a, c] = A[a, c] + (sigma if a == c else 0.0)
@@ -456,8 +445,7 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
             col = 0.0
             for a in range(n):
                 col += abs(B[a, c])
-            if col > norm:
-                norm = col
+            norm = max(norm, col)
         norm += sigma
         _sparse(Kq, kp, ki, kv)
         _sparse(B, bp, bi, bv)
@@ -472,9 +460,7 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
         stop_f = (
             math.floor(math.log(NEWTON_Y / (U0 * norm)) / math.log(RATIO)) if norm > 0 else levels
         )
-        stop = 1 if 1 > stop_f else stop_f  # min(max(stop_f, 1), levels)
-        if levels < stop:
-            stop = levels
+        stop = int(min(max(stop_f, 1), levels))
         # scan, up to the member's own t_hi
         for i in range(n):
             X[0, i] = c0[q, i]
@@ -515,7 +501,7 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
                 flagged = False
                 h = (taus[jj + 1] - taus[jj]) * sc
                 for a in range(nm):
-                    flags[a] = 0
+                    flags[a] = False
                     sg = s[jj, a]
                     if sg == 0 or s[jj + 1, a] != sg:
                         continue
@@ -523,12 +509,11 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
                         continue
                     g0, g1 = D[jj, a], D[jj + 1, a]
                     m0, m1 = h * D2[jj, a], h * D2[jj + 1, a]
-                    tol = N[jj + 1, a] if N[jj + 1, a] > N[jj, a] else N[jj, a]
-                    low = abs(g1) if abs(g1) < abs(g0) else abs(g0)
-                    if 4.0 / 27.0 * (abs(m0) + abs(m1)) < low - tol:
+                    tol = max(N[jj, a], N[jj + 1, a])
+                    if 4.0 / 27.0 * (abs(m0) + abs(m1)) < min(abs(g0), abs(g1)) - tol:
                         continue
                     if _hermite_hit(g0, g1, m0, m1, tol, sg):
-                        flags[a] = 1
+                        flags[a] = True
                         flagged = True
                 if not flagged:
                     continue
@@ -590,7 +575,7 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
                 jb = -1
                 for jj in range(M):
                     gv = X[jj, i] - target
-                    noise = REL_NOISE_C * (target if target > X[jj, i] else X[jj, i])
+                    noise = REL_NOISE_C * max(X[jj, i], target)
                     if abs(gv) <= noise:
                         continue
                     if gv > 0:
