@@ -83,9 +83,9 @@ def best(action, repeat: int) -> float:
 
 def check_in_process(path: Path) -> None:
     """What ``kinetics check FILE`` does, without the interpreter start-up."""
-    from kinetics.overview import check_report
+    from kinetics.cli.terminal import render_check
+    from kinetics.output.overview import check_report
     from kinetics.parsing import load
-    from kinetics.terminal import render_check
 
     scheme = load(path)
     report = check_report(scheme)

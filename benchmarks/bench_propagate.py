@@ -2,17 +2,23 @@
 
 Usage::
 
-    python benchmarks/bench_propagate.py            # speed (about a minute)
+    python benchmarks/bench_propagate.py            # speed (a few minutes)
     python benchmarks/bench_propagate.py --accuracy 300   # + random stiff networks
+    python benchmarks/bench_propagate.py --full-reference # + all 2,000 species of the
+                                                          # decay network (minutes more)
 
 Baselines (measured in the same run): scipy's solve_ivp (LSODA, rtol 1e-10,
-analytic Jacobian), scipy.sparse.linalg.expm_multiply on the same grid and one
-dense scipy.linalg.expm.  Reference values: mpmath at 50 digits.
+analytic Jacobian), scipy.sparse.linalg.expm_multiply on the same grid, one
+dense scipy.linalg.expm, dense scipy.linalg.expm with stepping (decay network)
+and the dense double-double engine (strongly connected scheme).  Reference
+values: mpmath at 50 digits, Bateman's closed form in mpmath, and the dense
+double-double engine (itself checked against mpmath in tests/test_reference_expm.py).
 """
 
 from __future__ import annotations
 
 import argparse
+import os
 import time
 import tracemalloc
 
@@ -23,7 +29,13 @@ import scipy.sparse
 import scipy.sparse.linalg
 from scipy.integrate import solve_ivp
 
-from kinetics.propagate import expm_nonnegative_certified, propagate, propagate_batch
+from kinetics._blocks import route_costs
+from kinetics.propagate import (
+    expm_nonnegative_certified,
+    propagate,
+    propagate_batch,
+    propagate_certified,
+)
 
 
 def best_of(fn, repeat=5):
@@ -144,9 +156,10 @@ def chain_matrix(n):
     return scipy.sparse.csr_array((np.r_[-k, k[:-1]], (rows, cols)), shape=(n, n)), k
 
 
-def bateman_mp(k, t, upto):
-    """Bateman 1910 for the first members of the chain, in mpmath at 400 digits."""
-    with mpmath.workdps(400):
+def bateman_mp(k, t, upto, dps=400):
+    """Bateman 1910 for the first members of the chain, in mpmath (the close constants
+    make the sum cancel by hundreds of digits)."""
+    with mpmath.workdps(dps):
         ks = [mpmath.mpf(float(x)) for x in k[:upto]]
         T = mpmath.mpf(float(t))
         out = []
@@ -173,6 +186,7 @@ def bench_chain():
     c0[0] = 1.0
     t = np.linspace(0.0, 1000.0, 101)
     t_p, c = best_of(lambda: propagate(K, c0, t), repeat=3)
+    bound = propagate_certified(K, c0, t).error_bound
     tracemalloc.start()
     propagate(K, c0, t)
     peak = tracemalloc.get_traced_memory()[1] / 1e6
@@ -185,21 +199,112 @@ def bench_chain():
     t0 = time.perf_counter()
     scipy.linalg.expm(Kd * 10.0)
     t_ex = time.perf_counter() - t0
-    print(f"propagate:        {t_p:7.3f} s  negatives {int((c < 0).sum())}  peak {peak:.0f} MB")
+    print(f"propagate:        {t_p:7.3f} s  negatives {int((c < 0).sum())}  peak {peak:.0f} MB"
+          f"  certified bound {bound.max():.1e}")  # fmt: skip
     print(f"expm_multiply:    {t_em:7.3f} s  negatives {int((em < 0).sum())}  "
           f"ratio {t_em / t_p:5.1f}x")  # fmt: skip
     print(f"one dense expm:   {t_ex:7.3f} s  ratio {t_ex / t_p:5.1f}x")
     worst = 0.0
-    for j in (10, 50, 100):
-        ref = bateman_mp(k, t[j], 40)
+    for j in (1, 10, 100):
+        upto = int(np.flatnonzero(c[j] > 1e-300).max()) + 3  # every member above 1e-300
+        ref = bateman_mp(k, t[j], upto, dps=700)
         with mpmath.workdps(50):
-            for i in range(40):
-                if ref[i] > 1e-280:
+            for i in range(upto):
+                if ref[i] > 1e-300:
                     worst = max(worst, float(abs(mpmath.mpf(float(c[j, i])) - ref[i]) / ref[i]))
-    print(f"first 40 species at t = 100, 500, 1000 s vs Bateman (mpmath, 400 digits): "
+    print(f"every member above 1e-300 at t = 10, 100, 1000 s vs Bateman (mpmath, 700 digits): "
           f"worst rel. error {worst:.2e}")  # fmt: skip
     mass = np.abs(c.sum(axis=1) + 0.0)
     print(f"total at 1000 s (leaky end): {mass[-1]:.16f}")
+
+
+def decay_network(n=2000, reach=50, seed=3):
+    """An invented decay network: each species decays to 1-3 of the next ``reach`` species,
+    constants 10^U(-4, 2) 1/s (species in topological order)."""
+    rng = np.random.default_rng(seed)
+    rows, cols, vals = [], [], []
+    for j in range(n - 1):
+        ahead = np.arange(j + 1, min(n, j + reach + 1))
+        for i in rng.choice(ahead, size=min(int(rng.integers(1, 4)), ahead.size), replace=False):
+            rows.append(i)
+            cols.append(j)
+            vals.append(10.0 ** rng.uniform(-4, 2))
+    K = scipy.sparse.csr_array((vals, (rows, cols)), shape=(n, n))
+    out = np.asarray(K.sum(axis=0)).ravel()
+    return scipy.sparse.csr_array(K - scipy.sparse.diags_array(out))
+
+
+def bench_decay(full_reference):
+    print("\n== 2000-species decay network (each to 1-3 of the next 50, k = 10^U(-4, 2) 1/s), "
+          "101 points to 1000 s ==")  # fmt: skip
+    n = 2000
+    K = decay_network(n)
+    c0 = np.zeros(n)
+    c0[0] = 1.0
+    t = np.linspace(0.0, 1000.0, 101)
+    propagate(K, c0, t[:3])
+    t_p, c = best_of(lambda: propagate(K, c0, t), repeat=3)
+    bound = propagate_certified(K, c0, t).error_bound
+    Kd = K.toarray()
+
+    def expm_stepping():
+        F = scipy.linalg.expm(Kd * 10.0)
+        out = [c0]
+        for _ in range(100):
+            out.append(F @ out[-1])
+        return np.array(out)
+
+    t_s, s = best_of(expm_stepping, repeat=1)
+    # species 0..m-1 form a closed sub-scheme (nothing flows upstream): the dense
+    # double-double engine on that sub-matrix is an exact reference for them
+    m = n if full_reference else 400
+    ref = propagate_batch(Kd[None, :m, :m], c0[:m], t, precision="double-double")[0]
+    big = ref > 1e-300
+
+    def worst(x):
+        return float((np.abs(x[:, :m][big] - ref[big]) / ref[big]).max())
+
+    print(f"propagate:               {t_p:7.3f} s  worst rel. error {worst(c):.1e} "
+          f"(first {m} species, entries > 1e-300)  negatives {int((c < 0).sum())}  "
+          f"certified bound {bound.max():.1e}")  # fmt: skip
+    print(f"scipy expm + stepping:   {t_s:7.3f} s  worst rel. error {worst(s):.1e}  "
+          f"negatives {int((s < 0).sum())}  ratio {t_s / t_p:5.1f}x")  # fmt: skip
+
+
+def strongly_connected(n, rng):
+    """An invented strongly connected scheme: a ring plus about two random steps each."""
+    K = np.zeros((n, n))
+    K[(np.arange(n) + 1) % n, np.arange(n)] = 10.0 ** rng.uniform(-3, 1, n)
+    mask = (rng.random((n, n)) < 2.0 / n) & ~np.eye(n, dtype=bool)
+    K[mask] += 10.0 ** rng.uniform(-3, 1, mask.sum())
+    K -= np.diag(K.sum(axis=0))
+    return K
+
+
+def bench_scc():
+    print("\n== 400-species strongly connected scheme, 101 points to 100 s: dense double-double "
+          "engine vs block route ==")  # fmt: skip
+    from kinetics._blocks import propagate_blocks
+
+    rng = np.random.default_rng(3)
+    n = 400
+    K = strongly_connected(n, rng)
+    Ks = scipy.sparse.csr_array(K)
+    c0 = np.zeros(n)
+    c0[0] = 1.0
+    t = np.linspace(0.0, 100.0, 101)
+    propagate_batch(K[None], c0, t[:3], precision="double-double")
+    t_d, ref = best_of(lambda: propagate_batch(K[None], c0, t, precision="double-double")[0], 2)
+    t_b, (c, bound) = best_of(lambda: propagate_blocks(Ks, c0, t, None), 2)
+    t_a, _ = best_of(lambda: propagate(Ks, c0, t), 2)
+    big = ref > 1e-300
+    err = float((np.abs(c[big] - ref[big]) / ref[big]).max())
+    cost = route_costs(Ks, t)
+    route = "blocks" if cost["blocks"] < cost["dense"] else "dense"
+    print(f"dense double-double: {t_d:7.3f} s | block route: {t_b:7.3f} s (dense/blocks = "
+          f"{t_d / t_b:4.1f}x, blocks vs dense {err:.1e}, bound {bound.max():.1e})")  # fmt: skip
+    print(f"cost model: dense {cost['dense']:.3f} s, blocks {cost['blocks']:.3f} s -> {route}; "
+          f"propagate() took {t_a:7.3f} s")  # fmt: skip
 
 
 def random_sparse_scheme(n, p, rng):
@@ -306,11 +411,16 @@ def main():
     ap = argparse.ArgumentParser(description=__doc__)
     ap.add_argument("--accuracy", type=int, default=0, help="number of random networks")
     ap.add_argument("--skip-chain", action="store_true")
+    ap.add_argument("--full-reference", action="store_true",
+                    help="decay network: reference for all 2,000 species (minutes)")  # fmt: skip
     args = ap.parse_args()
+    print(f"load average (1, 5, 15 min): {os.getloadavg()}")
     bench_small()
     bench_api()
     if not args.skip_chain:
         bench_chain()
+        bench_decay(args.full_reference)
+        bench_scc()
     bench_mid()
     bench_batch()
     if args.accuracy:

@@ -10,6 +10,10 @@ The scheme is an invented 10-species branched network with a reversible end pair
 sweep varies two rate constants on a log grid; every set is solved on 201 time points
 and summarised (half-lives, intermediate maxima with their times, long-time limits).
 
+The public call ``kinetics.sweep(..., curves=True)`` (summary table and the curves as a
+labelled ``xarray.DataArray``) is timed against the engine call it wraps (the chunks with
+summaries and curves kept in memory), measured in the same run: target at most 1.5 times.
+
 Baseline: a Python loop over scipy.integrate.solve_ivp (LSODA, rtol 1e-10, atol 1e-12,
 analytic Jacobian) on the same 201 points, timed on a subset of the sets and scaled per
 set.  The baseline only integrates; it does not compute the summary quantities.
@@ -30,7 +34,7 @@ from scipy.integrate import solve_ivp
 
 import kinetics
 from kinetics.analysis import summarise
-from kinetics.sweep import _dense_batch, _inputs, chunk_result, make_plan, run_chunks
+from kinetics.sweep import chunk_result, curves_long_frame, make_plan, run_chunks, set_matrices
 
 SCHEME = """\
 title: benchmark network, ten species, branched, reversible end pair (invented)
@@ -71,6 +75,14 @@ def run_sweep_in_memory(plan, curves: bool, threads: int) -> tuple[float, list]:
     return time.perf_counter() - t0, [out[k] for k in range(plan.n_chunks)]
 
 
+def api_with_curves(scheme, plan):
+    """The public ``kinetics.sweep(..., curves=True)`` on the same plan (the summary table
+    and the labelled curves): its time and its curves."""
+    t0 = time.perf_counter()
+    _, curves = kinetics.sweep(scheme, plan, curves=True)
+    return time.perf_counter() - t0, curves
+
+
 def baseline(plan, count: int, repeat: int = 3) -> tuple[float, np.ndarray, np.ndarray]:
     """Seconds per set of solve_ivp (LSODA) on ``count`` sets spread over the grid.
 
@@ -78,9 +90,8 @@ def baseline(plan, count: int, repeat: int = 3) -> tuple[float, np.ndarray, np.n
     runs, so both are taken at their minimum, as timeit recommends).
     """
     idx = np.linspace(0, plan.n_sets - 1, count).astype(int)
-    _, internal = plan.set_values(0, plan.n_sets)
-    rates, c0, _ = _inputs(plan, internal[idx])
-    K = _dense_batch(plan, rates)
+    K, _, c0, _ = set_matrices(plan, 0, plan.n_sets)
+    K, c0 = K[idx], c0[idx]
     out = np.empty((count, plan.times.size, K.shape[1]))
     return min(_lsoda_pass(plan, K, c0, out) for _ in range(repeat)) / count, idx, out
 
@@ -108,13 +119,13 @@ def check(plan, parts, idx, ivp) -> tuple[float, float]:
     """Largest relative differences: summaries vs analysis.summarise, curves vs LSODA."""
     summary = np.concatenate([p.summary for p in parts])
     curves = np.concatenate([p.curves for p in parts])
-    _, internal = plan.set_values(0, plan.n_sets)
     names = plan.scheme.species_names
     worst_summary = 0.0
     for i in idx[:10]:
-        rates, c0, feed = _inputs(plan, internal[i : i + 1])
-        K = _dense_batch(plan, rates)[0]
-        ref = summarise(K, c0[0], names, feed=feed, t_window=float(plan.times[-1]))
+        K, K_low, c0, feed = set_matrices(plan, i, i + 1)
+        ref = summarise(
+            K[0], c0[0], names, feed=feed, t_window=float(plan.times[-1]), K_low=K_low[0]
+        )
         for j, col in enumerate(plan.columns):
             want = getattr(ref[col.species], col.quantity)
             got = summary[i, j]
@@ -131,7 +142,7 @@ def check(plan, parts, idx, ivp) -> tuple[float, float]:
 
 
 def million(chunk: int, threads: int) -> None:
-    from kinetics.sweep_store import run_sweep
+    from kinetics.sweep.store import run_sweep
 
     scheme = kinetics.parse(SCHEME)
     times = np.linspace(0.0, 8 * 3600.0, 201)
@@ -173,13 +184,22 @@ def main() -> None:
     )
     # warm up imports and caches on a small plan
     chunk_result(plan_for(16, 16)[1], 0, 16, curves=True)
+    import xarray  # noqa: F401  (its import is paid once, not in the timed runs)
+
     # best of two runs each (the first run also pays for allocating the arrays)
     t_summary = min(run_sweep_in_memory(plan, False, args.threads)[0] for _ in range(2))
-    t_full, parts = math.inf, None
-    for _ in range(2):
-        parts = None  # the previous run's curves are freed before the next run is timed
+    # the engine and the public call alternate, best of four each (same load for both)
+    t_full, t_api, parts, curves = math.inf, math.inf, None, None
+    for _ in range(4):
+        parts = curves = None  # the previous run's curves are freed before the next run
         t, parts = run_sweep_in_memory(plan, True, args.threads)
         t_full = min(t_full, t)
+        t, curves = api_with_curves(scheme, plan)
+        t_api = min(t_api, t)
+    t0 = time.perf_counter()
+    curves_long_frame(curves)
+    t_long = time.perf_counter() - t0
+    curves = None
     t_one = min(run_sweep_in_memory(plan, True, 1)[0] for _ in range(2))
     per_set = t_full / plan.n_sets
     t_ivp, idx, ivp = baseline(plan, args.baseline)
@@ -196,6 +216,13 @@ def main() -> None:
     print(
         f"  the same on one thread       : {t_one:7.2f} s  "
         f"({1e6 * t_one / plan.n_sets:7.1f} us per set)"
+    )
+    print(
+        f"kinetics.sweep(..., curves=True): {t_api:7.2f} s = {t_api / t_full:.2f} x the engine "
+        f"call above (summaries + curves in memory)  target <= 1.5: "
+        f"{'met' if t_api / t_full <= 1.5 else 'NOT met'}; curves_long_frame of its curves "
+        f"(the long table, {plan.n_sets * plan.times.size * len(scheme.species):,} rows): "
+        f"{t_long:.2f} s more"
     )
     print(
         f"solve_ivp LSODA loop (rtol 1e-10, analytic Jacobian), {args.baseline} sets, "

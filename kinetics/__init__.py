@@ -8,14 +8,10 @@
 """
 
 import sys
-from importlib.metadata import PackageNotFoundError, version
 
-try:
-    __version__ = version("stepwise-kinetics")
-except PackageNotFoundError:  # pragma: no cover - running from a source tree
-    __version__ = "0.0.0"
-
+from ._version import __version__
 from .errors import (
+    ArgumentTypeError,
     DataError,
     GrowthError,
     KineticsError,
@@ -32,8 +28,8 @@ _LAZY = {
     "fit": "fit",
     "Measurements": "measurements",
     "read_measurements": "measurements",
-    "load": "parsing",
-    "parse": "parsing",
+    "load": "language",
+    "parse": "language",
     "Scheme": "scheme",
     "Solution": "solution",
     "solve": "solution",
@@ -79,6 +75,7 @@ class _Package(type(sys.modules[__name__])):
 sys.modules[__name__].__class__ = _Package
 
 __all__ = [
+    "ArgumentTypeError",
     "DataError",
     "FitResult",
     "GrowthError",

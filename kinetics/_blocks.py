@@ -1,50 +1,141 @@
 r"""Block-triangular propagation of large sparse schemes (private).
 
-The species graph (edge :math:`j \to i` when :math:`k_{ij} > 0`) is condensed
-into its strongly connected components; in a topological order of the
-condensation the rate matrix is block lower triangular, and so is its
-exponential.  The permuted matrix is cut into square tiles along that order and
-only tiles that carry a nonzero are stored, so a decay-like chain of thousands of
-species costs a few banded tile products instead of dense ones.
+The species graph (edge :math:`j \to i` when :math:`k_{ij} > 0`) is restricted to the
+species reachable from those present at the start (or fed), then condensed into its
+strongly connected components (blocks); in a topological order of the blocks the rate
+matrix is block lower triangular, and so is its exponential.
 
-The exponential of one interval, :math:`F = e^{hK}`, is computed with the same
-nonnegative shift-Taylor-square algorithm as the dense engine (Xue & Ye 2013),
-in plain double precision, on the tile-sparse matrix:
+**One interval.**  :math:`F = e^{hK}` comes from the nonnegative shift-Taylor-square
+algorithm (Xue & Ye 2013), with :math:`\sigma \ge \max_i q_i` (:math:`q_i` the
+outflow of species i) and :math:`Y = \tfrac{h}{2^j}(K + \sigma I) \ge 0`:
 
 .. math::
 
-    F = \left(e^{-\sigma h/2^j}\, T_m\!\left(\tfrac{h}{2^j}(K + \sigma I)\right)
-        \right)^{2^j},
+    F = \left(e^{-\sigma h/2^j}\, T_m(Y)\right)^{2^j}, \qquad
+    T_m(Y) = \sum_{k=0}^{m} Y^k / k!.
 
-with the Taylor polynomial evaluated by Paterson-Stockmeyer.  Entries that
-fall below ``DROP`` (1e-150) are dropped after each product; this keeps the band
-of the tiles bounded, and it is why entries below about 1e-150 are not resolved
-on this route (README, Limits of the method).  The time grid is then walked with sparse products
-:math:`c_{k+1} = F c_k` (nonnegative, so relative errors only add up).
+* The Taylor polynomial is summed column by column over the sparse pattern
+  (:func:`kinetics._block_kernels.column_taylor`, in :mod:`kinetics._block_exp`); its
+  columns fill the *panels* (one dense panel per tile of columns, from the tile's
+  first row down to the last row with a nonzero), and the squarings are panel
+  products in BLAS.
+* The diagonal blocks of :math:`F` are exact: a species that forms a block of its
+  own has :math:`F_{ii} = e^{-q_i t}` (a double-double exponential), a larger
+  block's :math:`e^{tK_{bb}}` is summed (Horner, the sparse :math:`Y` on the left)
+  and squared in double-double with its own shift.  They replace the diagonal
+  blocks of the panels at every squaring.  This is what makes the route accurate
+  over long times: rounding the shifted diagonal :math:`\sigma - q_i` to double acts
+  like a leak of about :math:`u\sigma` per second (:math:`2\cdot 10^{-11}` on the
+  2,000-species decay network below when the whole exponential was squared in
+  double); with exact diagonal blocks the errors of the off-diagonal part add along
+  a path instead of doubling with every squaring.  Chains need nothing else (no
+  divided differences): their blocks are single species.
+* The diagonal :math:`\sigma - q_i` and the exact outflow :math:`q_i` come from
+  ``K + K_low`` in double-double, so the result is that of the constants, not of a
+  rounded diagonal.
+* No entry is dropped; entries below :data:`kinetics._block_exp.FLUSH`
+  (:math:`2^{-1060}`) are set to zero so that BLAS does not run into subnormal
+  numbers (about 300 times slower).
+
+**The grid.**  The state is carried in double-double: the diagonal blocks act in
+double-double, the coupling between blocks is one BLAS product per tile.  A grid
+uniform from 0 is walked with one step :math:`\Delta t'` of few significant bits
+(:math:`k\Delta t'` exact, :math:`\Delta t' \le t_k/k`), so one exponential serves
+every interval; each output is then moved on by the exact remainder
+:math:`t_k - k\Delta t'` (a few ulp) with a short nonnegative Taylor step
+:math:`e^{-\sigma\delta}T_m(\delta B)`.  Other grids step from one time to the next
+(one exponential per distinct interval) and correct the walk itself.  The state is
+scaled by a power of two so that its largest start value is about one.
+
+**Route.**  :func:`route_costs` predicts the seconds of this route and of the dense
+engine from operation counts and measured rates (:data:`RATES`,
+``benchmarks/calibrate_routes.py``); :mod:`kinetics.propagate` takes the cheaper.
+
+**Certificate** (per time point, relative, for every concentration whose exact
+value is above ``floor``; relative errors composed as :math:`\prod(1+\epsilon_i) - 1`):
+
+* *rounding*: an entry whose longest path from a species present at the start
+  crosses :math:`\Lambda` blocks is off by at most :math:`(1 + c)^{\Lambda}
+  (1+\eta) - 1`, where :math:`c` is the per-crossing error (Taylor sum,
+  :math:`\gamma` of the tile products and of the coupling product in each step, the
+  diagonal blocks rounded to double) and :math:`\eta` the double-double error of the
+  diagonal blocks accumulated over the steps.  (Each factor of a product that
+  stays inside one block is exact to double-double, so only the factors that cross
+  from one block to another carry a double rounding, and a path crosses at most
+  :math:`\Lambda` of them however many steps and squarings it spans.)
+* *truncation*, a posteriori and rigorous: for nonnegative commuting factors
+  :math:`e^{Y} - T_m(Y) \le G e^{Y}` with :math:`G = Y^{m+1}/(m+1)!` (Lagrange
+  remainder), hence :math:`F - F_{\rm computed} \le 2^j G F` entrywise; applied to
+  each computed state through :math:`(I - 2^j G)^{-1}` (a Neumann series
+  summed until it falls below the floor), entries where it is not small relative
+  to the state go to the absolute part.  The same for the correction steps.  When
+  truncation is a visible share of a bound, the walk is redone with more terms;
+* *absolute* (1-norm, counted at the floor): flushed entries, underflow,
+  truncation mass on entries where it is not relatively small;
+* the final rounding to double.
+
+The bound is a worst case: on the schemes below it is 1e-11 to 1e-10 while the
+measured errors are 1e-15 to 5e-15.
+
+**Measured** (one thread; ``benchmarks/bench_propagate.py``, ``tests/test_blocks.py``):
+the 2,000-species chain on 101 points to 1,000 s in 0.3-0.4 s, every member above
+1e-300 within 5.1e-15 of Bateman's closed form; the 2,000-species decay network
+(each species to 1-3 of the next 50) in 0.6-0.7 s, within 4.7e-15 of the dense
+double-double engine; two networks of 300 and 420 species against ball arithmetic
+(python-flint), trace species down to 1e-300 at 1 ms included, within 2e-15.
 
 References
 ----------
 J. Xue, Q. Ye, "Computing exponentials of essentially non-negative matrices
 entrywise to high relative accuracy", Math. Comp. 82, 1577-1596 (2013).
 doi:10.1090/S0025-5718-2012-02677-2
-R. Tarjan, "Depth-first search and linear graph algorithms", SIAM J. Comput.
-1, 146-160 (1972) (strongly connected components; networkx implementation).
+M. Shao, W. Gao, J. Xue, "Aggressively truncated Taylor series method for accurate
+computation of exponentials of essentially nonnegative matrices", SIAM J. Matrix
+Anal. Appl. 35, 317-338 (2014) (a posteriori truncation with the Lagrange form).
+T. Ogita, S. M. Rump, S. Oishi, "Accurate sum and dot product", SIAM J. Sci.
+Comput. 26, 1955-1988 (2005) (double-double products of the diagonal blocks).
+R. Tarjan, "Depth-first search and linear graph algorithms", SIAM J. Comput. 1,
+146-160 (1972) (strongly connected components; scipy implementation).
 """
 
 from __future__ import annotations
 
 import math
+from fractions import Fraction
 
 import numpy as np
 import scipy.sparse
 
-from kinetics.network import condensation
+from kinetics._block_exp import (
+    UNIT,
+    Interval,
+    Layout,
+    compose,
+    dd_degree,
+    dd_scalar_exp,
+    gamma,
+    power,
+    taylor_plan,
+)
+from kinetics._doubledouble import DD_UNIT
 
-__all__ = ["block_order", "expm_blocks", "propagate_blocks"]
+__all__ = ["RATES", "block_order", "prefers_blocks", "propagate_blocks", "route_costs"]
 
-TILE = 128
-DROP = 1e-150
-_U = 2.0**-53
+_TRUNC_REL = 2.0**-40  # a truncation bound above this fraction of an entry is absolute
+
+#: Seconds per operation, one thread, measured by ``benchmarks/calibrate_routes.py``
+#: on the machine kind this project is developed on (2 cores, AVX-512, OpenBLAS):
+#: a double-double multiply-add of the dense engine's products (``dd``), a
+#: multiply-add of a BLAS panel product (``blas``) and of a matrix-vector product
+#: (``gemv``), a multiply-add of the column Taylor sum (``scatter``); ``fixed`` is
+#: the block route's set-up (components, tiles, plans), ``step`` its interpreter
+#: overhead per time step, ``dense`` the number of full products the dense engine
+#: spends per Taylor degree ``sqrt(m)``, squaring and doubling step and ``double``
+#: its cost in plain double relative to double-double (both fitted to the measured
+#: times of the engine merged from main on 2 December, on the eight schemes of
+#: ``benchmarks/calibrate_routes.py``).
+RATES = {"dd": 1.3e-9, "blas": 3.0e-11, "gemv": 1.5e-10, "scatter": 5.0e-10,
+         "fixed": 0.008, "step": 2.0e-4, "dense": 0.21, "double": 0.5}  # fmt: skip
 
 
 def block_order(K) -> tuple[np.ndarray, list[list[int]]]:
@@ -62,6 +153,8 @@ def block_order(K) -> tuple[np.ndarray, list[list[int]]]:
     blocks : list of list of int
         The strongly connected components, upstream first.
     """
+    from kinetics.network import condensation
+
     K = scipy.sparse.coo_array(K)
     n = K.shape[0]
     off = (K.row != K.col) & (K.data != 0)
@@ -72,254 +165,435 @@ def block_order(K) -> tuple[np.ndarray, list[list[int]]]:
     return order, blocks
 
 
-class _Tiles:
-    """Square matrix stored as a dict of dense tiles ``(I, J) -> ndarray``."""
-
-    def __init__(self, bounds: np.ndarray, tiles: dict | None = None) -> None:
-        self.bounds = bounds  # tile I covers rows bounds[I]:bounds[I+1]
-        self.tiles: dict[tuple[int, int], np.ndarray] = tiles if tiles is not None else {}
-
-    @property
-    def nt(self) -> int:
-        return len(self.bounds) - 1
-
-    @classmethod
-    def from_sparse(cls, S, bounds):
-        coo = scipy.sparse.coo_array(S)
-        out = cls(bounds)
-        nt = len(bounds) - 1
-        ti = np.searchsorted(bounds, coo.row, side="right") - 1
-        tj = np.searchsorted(bounds, coo.col, side="right") - 1
-        key = ti * nt + tj
-        orderk = np.argsort(key, kind="stable")
-        key, ti, tj = key[orderk], ti[orderk], tj[orderk]
-        rows, cols, vals = coo.row[orderk], coo.col[orderk], coo.data[orderk]
-        starts = np.flatnonzero(np.r_[True, key[1:] != key[:-1]]) if key.size else []
-        ends = np.r_[starts[1:], key.size] if key.size else []
-        for a, b in zip(starts, ends, strict=True):
-            i, j = int(ti[a]), int(tj[a])
-            blk = np.zeros((bounds[i + 1] - bounds[i], bounds[j + 1] - bounds[j]))
-            np.add.at(blk, (rows[a:b] - bounds[i], cols[a:b] - bounds[j]), vals[a:b])
-            if blk.any():
-                out.tiles[(i, j)] = blk
-        return out
-
-    @classmethod
-    def identity(cls, bounds, scale: float = 1.0):
-        out = cls(bounds)
-        for i in range(len(bounds) - 1):
-            w = bounds[i + 1] - bounds[i]
-            out.tiles[(i, i)] = np.eye(w) * scale
-        return out
-
-    def matmul(self, other: _Tiles) -> _Tiles:
-        by_row: dict[int, list[tuple[int, np.ndarray]]] = {}
-        for (l_, j), blk in other.tiles.items():
-            by_row.setdefault(l_, []).append((j, blk))
-        out: dict[tuple[int, int], np.ndarray] = {}
-        for (i, l_), a in self.tiles.items():
-            for j, b in by_row.get(l_, ()):
-                prod = a @ b
-                key = (i, j)
-                if key in out:
-                    out[key] += prod
-                else:
-                    out[key] = prod
-        res = _Tiles(self.bounds, out)
-        res.drop()
-        return res
-
-    def iadd(self, other: _Tiles) -> _Tiles:
-        """``self += other`` in place (returns self)."""
-        for k, v in other.tiles.items():
-            if k in self.tiles:
-                self.tiles[k] += v
-            else:
-                self.tiles[k] = v.copy()
-        return self
-
-    def scale(self, alpha: float) -> _Tiles:
-        return _Tiles(self.bounds, {k: v * alpha for k, v in self.tiles.items()})
-
-    def drop(self) -> None:
-        for k in list(self.tiles):
-            v = self.tiles[k]
-            v[v < DROP] = 0.0
-            if not v.any():
-                del self.tiles[k]
-
-    def to_csr(self, n: int):
-        rows, cols, vals = [], [], []
-        for (i, j), v in self.tiles.items():
-            r, c = np.nonzero(v)
-            rows.append(r + self.bounds[i])
-            cols.append(c + self.bounds[j])
-            vals.append(v[r, c])
-        if not rows:
-            return scipy.sparse.csr_array((n, n))
-        return scipy.sparse.csr_array(
-            (np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))), shape=(n, n)
-        )
-
-    def max_row_nnz(self) -> int:
-        cnt = np.zeros(self.nt, dtype=int)
-        for i, _j in self.tiles:
-            cnt[i] += 1
-        return int(cnt.max(initial=1)) * TILE
+def _round_down(x: Fraction) -> float:
+    """The largest double not above ``x`` (``x >= 0``)."""
+    f = float(x)
+    return float(np.nextafter(f, 0.0)) if Fraction(f) > x else f
 
 
-def _drop_csr(S):
-    """Remove entries below ``DROP`` from a nonnegative CSR matrix (in place)."""
-    S = scipy.sparse.csr_array(S)
-    S.data[S.data < DROP] = 0.0
-    S.eliminate_zeros()
-    return S
+def _grid(times: np.ndarray):
+    """Steps to the grid: ``(h, delta, residual, in_place)``.
+
+    ``h[k]`` is the step taken before output ``k`` (0 for none), ``delta[k] >= 0`` a
+    double that a short correction step (:meth:`_Walk.correct`) adds to reach
+    ``times[k]``, ``residual[k] >= 0`` what is still missing after that (zero
+    except in rare cases, below ``u delta``).  A grid uniform from 0 (within
+    ``4 u t_max``) is walked with one step ``dt'`` of few significant bits, so that
+    the positions ``k dt'`` and the remainders ``t_k - k dt'`` are exact and one
+    exponential serves every interval; then the corrections apply to the outputs
+    only (``in_place`` False).  Other grids step from each time to the next and
+    correct the walk itself.
+    """
+    from kinetics import _kernels
+
+    p = times.size
+    h, delta, residual = np.zeros(p), np.zeros(p), np.zeros(p)
+    first = int(np.searchsorted(times, 0.0, side="right"))
+    rest = times[first:]
+    dt = -1.0
+    if rest.size >= 3:
+        tol = 4 * UNIT * float(rest[-1])
+        dt = _kernels.uniform_step(np.ascontiguousarray(rest), tol)
+        if dt > 0 and abs(float(rest[0]) - dt) > tol:
+            dt = -1.0  # uniform, but not from 0
+    if dt > 0:
+        steps = np.arange(1, rest.size + 1)
+        q = min(Fraction(float(t)) / int(k) for t, k in zip(rest, steps, strict=True))
+        bits = 53 - math.ceil(math.log2(rest.size + 2))
+        mant, expo = math.frexp(_round_down(q))
+        step = math.ldexp(math.floor(math.ldexp(mant, bits)), expo - bits)
+        h[first:] = step
+        delta[first:] = rest - steps * step  # exact: k dt' is a double, t_k within 2x
+        return h, delta, residual, False
+    pos = Fraction(0)
+    for k in range(first, p):
+        gap = Fraction(float(times[k])) - pos
+        if gap == 0:
+            continue
+        h[k] = _round_down(gap)
+        rem = gap - Fraction(float(h[k]))
+        delta[k] = _round_down(rem)
+        pos += Fraction(float(h[k])) + Fraction(float(delta[k]))
+        residual[k] = float(Fraction(float(times[k])) - pos) * (1 + 2.0**-50)
+    return h, delta, residual, True
 
 
-def _scaled_inverse_factorials(m: int, rho: float) -> np.ndarray:
-    """``rho**k / k!`` for ``k = 0..m``, correctly rounded (via :mod:`decimal`)."""
-    from decimal import Context, Decimal
+class _Walk:
+    """The grid walk of one layout: states (double-double) and their bounds."""
 
-    ctx = Context(prec=40, Emin=-999999, Emax=999999)
-    out = np.empty(m + 1)
-    v = Decimal(1)
-    r = Decimal(rho)
-    for k in range(m + 1):
-        if k:
-            v = ctx.divide(ctx.multiply(v, r), Decimal(k))
-        out[k] = float(v)
-    return out
+    def __init__(self, lay: Layout, x0: np.ndarray, floor: float, boost: int) -> None:
+        self.lay = lay
+        self.floor = floor
+        self.boost = boost
+        self.cache: dict[float, Interval] = {}
+        self.xh = x0[lay.species].astype(float)
+        self.xl = np.zeros(lay.size)
+        self.trunc = 0.0  # relative truncation, composed over the steps
+        self.absolute = 0.0  # 1-norm absolute error bound: underflow, flushing
+        self.cut = 0.0  # 1-norm absolute error bound: truncation where not relative
+        self.worst_cut = 0.0  # largest truncation share of a bound (for a retry)
+        self.eta = 0.0  # double-double error of the diagonal blocks, composed
+        self.hop = 0.0  # largest per-crossing error of the intervals used
+        self.sigma = 0.0
+        self.failed = False
+
+    def step(self, h: float) -> None:
+        """Advance the state by ``h`` (> 0)."""
+        from kinetics import _block_kernels as bk
+
+        if h not in self.cache:
+            self.cache[h] = Interval(self.lay, h, self.boost)
+        iv = self.cache[h]
+        lay = self.lay
+        xh, xl = self.xh, self.xl
+        norm1 = float(np.abs(xh).sum())
+        coupling = np.zeros(lay.size)
+        for J, P in enumerate(iv.off):
+            b0, b1 = int(lay.bounds[J]), int(lay.bounds[J + 1])
+            coupling[b0 : b0 + P.shape[0]] += P @ xh[b0:b1]
+        nh, nl = np.empty_like(xh), np.empty_like(xl)
+        bk.scale_diagonal(iv.dh, iv.dl, xh, xl, coupling, lay.singles, nh, nl)
+        for (start, size), (_, Fh, Fl) in zip(lay.groups, iv.groups, strict=True):
+            self._group_step(start, size, Fh, Fl, coupling, nh, nl)
+        self.xh, self.xl = nh, nl
+        self.absolute = iv.norm * self.absolute + iv.absolute * 2 * norm1 + iv.fixed
+        self.eta = compose(self.eta, iv.eta)
+        self.hop = max(self.hop, iv.hop)
+        self.sigma = max(self.sigma, iv.sigma)
+        self._truncation(iv)
+
+    def _group_step(self, start, size, Fh, Fl, coupling, nh, nl) -> None:
+        from kinetics import _block_kernels as bk
+        from kinetics import _kernels
+
+        sl = slice(start, start + size)
+        oh, ol = np.empty((size, 1)), np.empty((size, 1))
+        _kernels.product(Fh, Fl, self.xh[sl, None].copy(), self.xl[sl, None].copy(), oh, ol,
+                         np.bool_(True))  # fmt: skip
+        one = np.ones(size)
+        idx = np.arange(size)
+        bk.scale_diagonal(one, np.zeros(size), oh[:, 0].copy(), ol[:, 0].copy(),
+                          coupling[sl].copy(), idx, nh[sl], nl[sl])  # fmt: skip
+
+    def _truncation(self, iv: Interval) -> None:
+        """Compose the a posteriori truncation bound of the step just taken (:func:`_neumann`)."""
+        lam = int(self.lay.crossings.max(initial=0))
+        mu = (1 + compose(power(self.hop, lam), self.eta)) * (1 + 4 * UNIT)
+        qn = iv.scale * 1.01 * iv.gnorm
+        rel, absolute = _neumann(iv.apply_truncation, self.xh, mu, self.floor, qn)
+        self.trunc = compose(self.trunc, rel)
+        self.cut += absolute
+
+    def correct(self, d: float, in_place: bool):
+        r"""The state moved on by ``d`` [s] (small, >= 0): :math:`e^{-\sigma d} T_m(dB) x`.
+
+        Returns ``(state, relative, absolute)``: the moved state (hi parts) and the
+        bounds it adds (zero when ``in_place``: then they are composed into the walk,
+        which continues from the moved state).  Truncation as for a step
+        (:func:`_neumann` with :math:`G = (dB)^{m+1}/(m+1)!`); rounding: the Taylor
+        terms carry at most ``eps`` relative, and they are at most ``ratio`` of the
+        state they are added to.
+        """
+        from kinetics import _block_kernels as bk
+
+        lay = self.lay
+        B, beta, rows = lay.shifted()
+        m = 1
+        while (m + 1) * math.log(max(d * beta, 1e-300)) - math.lgamma(m + 2) > -80 * math.log(2.0):
+            m += 1
+        delta = np.empty(lay.size)
+        bk.taylor_apply(B.indptr, B.indices, B.data, self.xh, m, d, delta)
+        ch, cl = dd_scalar_exp(lay.sigma, d)
+        one = np.ones(lay.size)
+        yh, yl = np.empty(lay.size), np.empty(lay.size)
+        bk.scale_diagonal(one * ch, one * cl, self.xh, self.xl, delta * ch,
+                          np.arange(lay.size), yh, yl)  # fmt: skip
+        pos = yh > 0
+        ratio = float((delta[pos] / yh[pos]).max(initial=0.0))
+        # per term: a sum of `rows` products, B rounded (u), the factor d and / k (2u)
+        eps = compose(power(compose(gamma(rows), 4 * UNIT), m), gamma(m), UNIT)
+        rounding = compose(eps * ratio * (1 + 4 * UNIT), 8 * DD_UNIT)
+        scale = d ** (m + 1) * 1.01
+        qn = scale * math.exp((m + 1) * math.log(max(beta, 1e-300)) - math.lgamma(m + 2))
+
+        def apply(v):
+            out, work = np.empty(v.size), np.empty(v.size)
+            bk.power_apply(B.indptr, B.indices, B.data, v, m + 1, scale, out, work)
+            return out
+
+        mu = 1 + 2 * rounding + 4 * UNIT
+        trunc, absolute = _neumann(apply, yh, mu, self.floor, qn)
+        if not in_place:
+            return yh, compose(rounding, trunc), absolute
+        self.xh, self.xl = yh, yl
+        self.eta = compose(self.eta, rounding)
+        self.trunc = compose(self.trunc, trunc)
+        self.cut += absolute
+        return yh, 0.0, 0.0
+
+    def bound(self, z: np.ndarray, rel: float, absolute: float, residual: float) -> float:
+        """Relative bound of every entry of the state at a grid time whose exact value is
+        above the floor.
+
+        ``z`` is the computed state; ``rel``, ``absolute``: what a correction step to
+        this time added; ``residual`` [s]: what the grid time still exceeds the
+        state's time by (rare, below ``u`` times the correction), counted to first
+        order.  Absolute parts count at the floor (an entry whose exact value is just
+        above the floor may be computed below it).
+        """
+        floor = max(self.floor, 2.0**-1074)
+        claimed = z >= floor
+        # an entry exactly above the floor is computed above half of it (else the
+        # bound exceeds 1/2 anyway): its crossings count
+        lam = int(self.lay.crossings[z >= floor / 2].max(initial=0))
+        rho = compose(power(self.hop, lam), self.eta)
+        cut = (self.cut + absolute) / floor
+        self.worst_cut = max(self.worst_cut, compose(self.trunc, rel, cut))
+        drift = 0.0
+        if residual > 0 and claimed.any():
+            B, _, _ = self.lay.shifted()
+            Bz = B @ z
+            drift = 2 * residual * float((Bz[claimed] / z[claimed]).max())
+        return compose(rho, self.trunc, rel, cut, self.absolute / floor, drift, UNIT)
 
 
-def _plan_double(beta: float, n: int):
-    """Squarings and Paterson-Stockmeyer split for a double-precision target."""
-    from kinetics.propagate import _plan
+def _neumann(apply, z: np.ndarray, mu: float, floor: float, qn: float) -> tuple[float, float]:
+    r"""Relative and absolute parts of :math:`S = \sum_{r \ge 1} A^r (\mu z)`.
 
-    # large y: Taylor products of narrow bands are cheap, squarings are not
-    return _plan(beta, n, "double", _U / 2, ymax=64.0, square_cost=8.0)
+    ``apply(v)`` returns an upper bound of :math:`A v` for a nonnegative operator
+    ``A`` of 1-norm at most ``qn``.  If :math:`A \mu z \le \delta z + e` (``e`` on
+    the entries where the ratio exceeds :data:`_TRUNC_REL`), then
+    :math:`S \le (\delta z + \sum_{r \ge 0} A^r e)/(1 - \delta)`; the relative part
+    is :math:`\mu\delta/(1-\delta)` (the exact state is at least :math:`z/\mu`), the
+    absolute part the 1-norm of the rest, summed until it falls below
+    :math:`2^{-80}` ``floor`` and closed with the geometric remainder.
+    """
+    w = apply(z * mu)
+    ratio = np.full(z.size, np.inf)
+    pos = z > 0
+    ratio[pos] = w[pos] / z[pos]
+    rel = ratio <= _TRUNC_REL
+    delta = float(ratio[rel].max(initial=0.0))
+    cur = np.where(rel, 0.0, w)
+    total = float(cur.sum())
+    for _ in range(64):
+        if cur.sum() <= 2.0**-80 * floor:
+            break
+        cur = apply(cur)
+        total += float(cur.sum())
+    rest = float(cur.sum()) * qn / (1 - qn) if qn < 1 else math.inf
+    return delta / (1 - delta) * mu, (total + rest) / (1 - delta)
 
 
-def expm_blocks(Kp, h: float) -> tuple[scipy.sparse.csr_array, float]:
-    """``exp(h Kp)`` of a (permuted, block lower triangular) sparse matrix.
+def _run(lay: Layout, x0: np.ndarray, times: np.ndarray, floor: float, boost: int):
+    """States (p, size) and bounds (p,) of the grid walk; the walk itself."""
+    walk = _Walk(lay, x0, floor, boost)
+    h, delta, residual, in_place = _grid(times)
+    p = times.size
+    X = np.empty((p, lay.size))
+    bound = np.zeros(p)
+    for k in range(p):
+        if h[k] > 0:
+            walk.step(float(h[k]))
+        z, rel, absolute = walk.xh, 0.0, 0.0
+        if delta[k] > 0:
+            z, rel, absolute = walk.correct(float(delta[k]), in_place)
+        X[k] = z
+        if times[k] > 0:
+            bound[k] = walk.bound(z, rel, absolute, float(residual[k]))
+    return X, bound, walk
+
+
+def propagate_blocks(K, c0, times, feed, *, K_low=None, feed_low=None, floor=None):
+    """Grid propagation of a large scheme, block by block (see the module docstring).
 
     Parameters
     ----------
-    Kp : scipy.sparse matrix, shape (n, n)
-        Essentially nonnegative rate matrix [1/s] in block order.
-    h : float
-        Interval [s], > 0.
+    K : scipy.sparse matrix or ndarray, shape (n, n)
+        Rate matrix [1/s] (already checked by :mod:`kinetics.propagate`).
+    c0 : ndarray, shape (n,)
+        Initial concentrations [conc], >= 0.
+    times : ndarray, shape (p,)
+        Times [s], >= 0, nondecreasing.
+    feed : ndarray, shape (n,), or None
+        Zero-order feed [conc/s].
+    K_low : scipy.sparse matrix or ndarray, shape (n, n), optional
+        Low-order parts: the exact rate matrix is ``K + K_low`` (in particular the
+        diagonal, minus the sum of the outflow constants, to double-double).
+    feed_low : ndarray, shape (n,), optional
+        Low-order parts of the feed (exact feed ``feed + feed_low``).
+    floor : float, optional
+        Concentrations [conc] above which the bound holds (default
+        :data:`kinetics.propagate.TINY`).
 
     Returns
     -------
-    (csr_array, float)
-        The nonnegative exponential and its componentwise relative rounding
-        bound (Xue & Ye 2013, Theorem 3.2, with the row length of the tiles).
-    """
-    from kinetics.propagate import _rounding_bound
-
-    Kp = scipy.sparse.csr_array(Kp, dtype=float)
-    n = Kp.shape[0]
-    bounds = np.unique(np.r_[np.arange(0, n, TILE), n])
-    diag = Kp.diagonal()
-    sigma = float(-diag.min()) if n else 0.0
-    B = Kp + sigma * scipy.sparse.eye_array(n, format="csr")
-    beta = max(float(abs(B).sum(axis=0).max()), abs(sigma)) * h
-    plan = _plan_double(beta, n)
-    scale = 2.0**-plan.j
-    # Taylor polynomial in Z = Y / rho with coefficients rho^k / k! (Y = rho Z);
-    # rho a power of two near ||Y||_1, so neither Z^k nor the coefficients leave
-    # the range of doubles for degrees of a few hundred
-    y = beta * scale
-    rho = 2.0 ** math.ceil(math.log2(y)) if y > 0 else 1.0
-    # the Taylor phase multiplies narrow bands: sparse CSR products are cheap
-    Z = scipy.sparse.csr_array(B * (h * scale / rho))
-    s, r = plan.ps, plan.pr
-    coef = _scaled_inverse_factorials(plan.degree, rho)
-    pw = [scipy.sparse.eye_array(n, format="csr"), Z]
-    for _ in range(2, s + 1):
-        pw.append(_drop_csr(pw[-1] @ Z))
-    ys = pw[s]
-
-    def block(i):
-        acc = float(coef[i * s]) * pw[0]
-        for l_ in range(1, s):
-            acc = acc + float(coef[i * s + l_]) * pw[l_]
-        return acc
-
-    Tc = block(r)
-    for i in range(r - 1, -1, -1):
-        Tc = _drop_csr(Tc @ ys + block(i))
-    T = _Tiles.from_sparse(Tc, bounds)
-    T = T.scale(math.exp(-sigma * h * scale))
-    T.drop()
-    for _ in range(plan.j):
-        T = T.matmul(T)
-    width = min(n, T.max_row_nnz())
-    return T.to_csr(n), _rounding_bound(beta, width, plan, _U)
-
-
-def propagate_blocks(K, c0, times, feed):
-    """Grid propagation of a large scheme through :func:`expm_blocks`.
-
-    Parameters are those of :func:`kinetics.propagate.propagate` (already
-    checked).  Returns ``(concentrations (p, n), error_bound (p,))``.
+    (ndarray (p, n), ndarray (p,))
+        Concentrations (all >= 0) and, per time, a bound on the relative error of
+        every concentration above ``floor`` against the exact solution for
+        ``K + K_low``, ``c0`` and ``feed``.
 
     The many small tile products run with one BLAS thread: threaded BLAS on
-    tiles this small spends its time synchronising (measured on the
-    2,000-species chain: 4.9 s with two OpenBLAS threads, 0.9 s with one).
+    tiles this small spends its time synchronising (measured on the 2,000-species
+    chain: 4.9 s with two OpenBLAS threads, 0.9 s with one).
     """
     from threadpoolctl import threadpool_limits
 
+    if floor is None:
+        from kinetics.propagate import TINY as floor
     with threadpool_limits(limits=1, user_api="blas"):
-        return _propagate_blocks(K, c0, times, feed)
+        K_low, feed_low = _low_parts(K_low, feed_low, K.shape[0], feed is not None)
+        return _propagate(K, c0, times, feed, K_low, feed_low, float(floor))
 
 
-def _propagate_blocks(K, c0, times, feed):
+def _low_parts(K_low, feed_low, n: int, fed: bool):
+    """Checked low parts: sparse ``K_low`` kept sparse (shape, finite), others by
+    :func:`kinetics.checks.low_parts`."""
+    from kinetics import checks
+    from kinetics.errors import UsageError
+
+    if K_low is not None:
+        if scipy.sparse.issparse(K_low):
+            K_low = scipy.sparse.csr_array(K_low, dtype=float)
+            if K_low.shape != (n, n):
+                raise UsageError(f"K_low must have shape {(n, n)}, got {K_low.shape}")
+            if not np.isfinite(K_low.data).all():
+                raise UsageError("K_low has a non-finite entry")
+        else:
+            K_low = checks.low_parts(K_low, (n, n), "K_low")
+    if feed_low is not None and fed:
+        feed_low = checks.low_parts(feed_low, (n,), "feed_low")
+    return K_low, feed_low if fed else None
+
+
+def _augmented(K, K_low, c0, feed, feed_low):
+    """Rate matrix (CSR), low parts and start vector with the feed as a species of value 1."""
     K = scipy.sparse.csr_array(K, dtype=float)
+    low = None if K_low is None else scipy.sparse.csr_array(K_low, dtype=float)
+    x = np.asarray(c0, dtype=float).copy()
+    if feed is None or not np.any(feed):
+        return K, low, x
     n = K.shape[0]
-    if feed is not None:
-        coo = K.tocoo()
-        fr = np.nonzero(feed)[0]
-        K = scipy.sparse.csr_array(
-            (
-                np.r_[coo.data, feed[fr]],
-                (np.r_[coo.row, fr], np.r_[coo.col, np.full(fr.size, n)]),
-            ),
+    fr = np.flatnonzero(feed)
+    coo = K.tocoo()
+    K = scipy.sparse.csr_array(
+        (np.r_[coo.data, feed[fr]], (np.r_[coo.row, fr], np.r_[coo.col, np.full(fr.size, n)])),
+        shape=(n + 1, n + 1),
+    )
+    if low is not None or feed_low is not None:
+        lc = scipy.sparse.coo_array((n, n)) if low is None else low.tocoo()
+        fl = np.zeros(n) if feed_low is None else np.asarray(feed_low, dtype=float)
+        lr = np.flatnonzero(fl)
+        low = scipy.sparse.csr_array(
+            (np.r_[lc.data, fl[lr]], (np.r_[lc.row, lr], np.r_[lc.col, np.full(lr.size, n)])),
             shape=(n + 1, n + 1),
         )
-        x = np.append(c0, 1.0)
-    else:
-        x = c0.astype(float).copy()
-    N = K.shape[0]
-    order, _ = block_order(K)
-    inv = np.empty_like(order)
-    inv[order] = np.arange(N)
-    Kp = K[order][:, order]
-    xp = x[order]
+    return K, low, np.append(x, 1.0)
+
+
+def _propagate(K, c0, times, feed, K_low, feed_low, floor):
+    n = K.shape[0]
+    K, K_low, x = _augmented(K, K_low, c0, feed, feed_low)
+    top = float(x[:n].max(initial=0.0))
+    if x.size > n and times.size:
+        top = max(top, float(np.max(feed)) * float(times[-1]), 1e-300)
+    scale = math.ldexp(1.0, -math.frexp(top)[1]) if top > 0 else 1.0
+    xs = x * scale
     p = times.size
     out = np.zeros((p, n))
     bound = np.zeros(p)
-    cache: dict[float, tuple] = {}
-    t_prev = 0.0
-    cur = 0.0
-    from kinetics.propagate import _uniform_step
-
-    first = int(np.searchsorted(times, 0.0, side="right"))
-    dt = _uniform_step(times[first:]) if p - first >= 3 else None
-    for k in range(p):
-        hstep = times[k] - t_prev
-        if dt is not None and k > first:
-            hstep = dt  # uniform grid: one exponential for every step
-        if hstep > 0:
-            if hstep not in cache:
-                cache[hstep] = expm_blocks(Kp, hstep)
-            F, eps = cache[hstep]
-            xp = F @ xp
-            width = max(1, int(np.diff(F.indptr).max(initial=1)))
-            cur += eps + width * _U / (1 - width * _U)
-        full = xp[inv]
-        out[k] = full[:n]
-        bound[k] = cur + (_U if hstep > 0 or k else 0.0)
-        t_prev = times[k]
+    lay = Layout(K, K_low, xs)
+    if lay.size and p:
+        for boost in (1, 2, 4, 8, 16):
+            # more Taylor terms while truncation (a posteriori) is a visible share
+            X, bound, walk = _run(lay, xs, times, floor * scale, boost)
+            if walk.worst_cut <= 2.0**-50:
+                break
+        keep = lay.species < n
+        out[:, lay.species[keep]] = np.maximum(X[:, keep], 0.0) / scale
     out[times == 0.0] = c0
-    return np.maximum(out, 0.0), bound
+    bound[times == 0.0] = 0.0
+    return out, bound
+
+
+def route_costs(K, times, precision: str = "auto") -> dict[str, float]:
+    r"""Predicted seconds of the dense engine and of the block route.
+
+    Parameters
+    ----------
+    K : scipy.sparse matrix or ndarray, shape (n, n)
+        Rate matrix [1/s].
+    times : ndarray
+        The grid [s] (its last value and its length).
+    precision : str
+        The dense engine's arithmetic: ``"double"`` costs it :data:`RATES`
+        ``["double"]`` of the double-double figure; otherwise double-double.
+
+    Returns
+    -------
+    dict
+        ``{"dense": seconds, "blocks": seconds}`` from operation counts times
+        :data:`RATES`:
+
+        * dense: :math:`n^3 (2\\sqrt{m} + j + \\log_2 p)` double-double multiply-adds
+          (Paterson-Stockmeyer Taylor sum, squarings, doubling over the grid);
+        * blocks, for every block of :math:`b \\ge 2` species with :math:`z` nonzeros:
+          Horner :math:`m (b^2 + z b)`, its truncation check :math:`(m+1) z b`,
+          squarings :math:`(j+1) b^3` and per step :math:`2b^2` double-double
+          multiply-adds; for the whole scheme :math:`j\\,n^3/6` BLAS multiply-adds of
+          squarings (a full lower triangle: an upper bound, a chain fills a band),
+          :math:`m\\,\\mathrm{nnz}\\,n/2` for the column Taylor sum, and per step
+          :math:`n^2/2` for the coupling, :math:`(m+1)(\\mathrm{nnz}+n)` for the
+          truncation bound and the interpreter's overhead; plus the set-up.
+    """
+    from scipy.sparse.csgraph import connected_components
+
+    n = K.shape[0]
+    most = _dense_most(n, len(times))
+    if most < RATES["fixed"]:
+        return {"dense": most, "blocks": math.inf}
+    t = np.asarray(times, dtype=float)
+    positive = t[t > 0]
+    if positive.size == 0:
+        return {"dense": 0.0, "blocks": math.inf}
+    K = scipy.sparse.csr_array(K)
+    p = positive.size
+    h = float(positive.max()) / p
+    sigma = float(max(-K.diagonal().min(initial=0.0), 0.0))
+    jd, md, _ = taylor_plan(sigma, h, 1)
+    dense = RATES["dd"] * RATES["dense"] * n**3 * (2 * math.sqrt(md) + jd + math.log2(p + 1))
+    if precision == "double":
+        dense *= RATES["double"]
+    count, labels = connected_components(K, directed=True, connection="strong")
+    b = np.bincount(labels, minlength=count).astype(float)
+    coo = K.tocoo()
+    inside = labels[coo.row] == labels[coo.col]
+    z = np.bincount(labels[coo.row[inside]], minlength=count).astype(float)
+    j, m, y = taylor_plan(sigma, h, 1)
+    big = b > 1
+    b, z = b[big], z[big]
+    mb = dd_degree(y) + 10
+    dd = RATES["dd"] * float(np.sum(mb * (b**2 + z * b) + (j + 1) * b**3 + 2 * p * b**2))
+    dd += RATES["blas"] * float(np.sum((mb + 1) * z * b))
+    nnz = float(K.nnz)
+    step = RATES["step"] + RATES["gemv"] * n**2 / 2 + RATES["scatter"] * (m + 1) * (nnz + n)
+    blocks = (RATES["fixed"] + dd + RATES["blas"] * j * n**3 / 6
+              + RATES["scatter"] * m * nnz * n / 2 + p * step)  # fmt: skip
+    return {"dense": dense, "blocks": blocks}
+
+
+def _dense_most(n: int, points: int) -> float:
+    """Most the dense engine can cost [s]: 64 squarings and degree 400 (no look at K)."""
+    return RATES["dd"] * RATES["dense"] * n**3 * (2 * 20 + 64 + math.log2(points + 1))
+
+
+def prefers_blocks(K, times, precision: str = "auto") -> bool:
+    """Whether the block route is predicted cheaper than the dense engine (:func:`route_costs`).
+
+    A scheme so small that the dense engine costs less than the block route's set-up
+    whatever its constants is decided from its size alone (a few microseconds).
+    """
+    if _dense_most(K.shape[0], len(times)) < RATES["fixed"]:
+        return False
+    cost = route_costs(K, times, precision)
+    return cost["blocks"] < cost["dense"]

@@ -21,7 +21,8 @@ import math
 import numpy as np
 from numba import njit
 
-from ._kernels import matmul_double
+from ._kernels import matmul_double, two_sum
+from .analysis.tolerances import REL_NOISE_C, REL_NOISE_D, XTOL
 
 # the constants of the method live in kinetics.sweep_summary (numba reads module globals
 # as compile-time constants)
@@ -29,11 +30,8 @@ from .sweep_summary import _MAX_NEWTON as MAX_NEWTON
 from .sweep_summary import _NEWTON_TERMS as NEWTON_TERMS
 from .sweep_summary import _NEWTON_Y as NEWTON_Y
 from .sweep_summary import _RATIO as RATIO
-from .sweep_summary import _REL_NOISE_C as REL_NOISE_C
-from .sweep_summary import _REL_NOISE_D as REL_NOISE_D
 from .sweep_summary import _SEGMENT_STEPS as SEGMENT_STEPS
 from .sweep_summary import _U0 as U0
-from .sweep_summary import _XTOL as XTOL
 
 _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
 # steps called only from summarise_members: no wrapper for calls from Python and no cache
@@ -370,12 +368,16 @@ def _hermite_hit(g0, g1, m0, m1, tol, sg):
 
 
 @njit(**_JIT)
-def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax, half, status):
+def summarise_members(
+    K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax, half, status
+):
     """Steps 2-5 of :mod:`kinetics.sweep_summary` for each member of a stack.
 
-    ``K`` (b, n, n) [1/s]; ``f`` (n,) feed (zeros without); ``scale`` the powers of two
-    of the scaled time; ``t_hi`` the scan ends [s]; ``mx`` the species that can turn over,
-    ``hl`` those with a start value; ``n_seg`` the scan segments of the stack.  Writes
+    ``K`` (b, n, n) [1/s] with ``q_low`` (b, n) the low parts of its diagonal (the exact
+    diagonal is ``K[i, i] + q_low[i]``); ``f`` (n,) feed (zeros without); ``scale`` the
+    powers of two of the scaled time; ``t_hi`` the scan ends [s]; ``mx`` the species that
+    can turn over, ``hl`` those with a start value; ``n_seg`` the scan segments of the
+    stack.  Writes
     ``tmax``, ``cmax`` (interior maxima, global or not), ``half`` [s] and ``status``.
     """
     b, n, _ = K.shape
@@ -434,12 +436,24 @@ def summarise_members(K, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax
                 A[a, c] = Kq[a, c] * sc
             if has_feed:
                 A[a, n] = f[a] * sc
+        # the shift from the exact diagonal: sigma, a double, at least every exact outflow
+        # (the next double up when the largest one has a positive low part), and each
+        # sigma - q_a formed from the pair before one rounding (unchanged where q_low = 0)
         sigma = 0.0
-        for a in range(na):
-            sigma = max(sigma, -A[a, a])
+        sigma_lo = 0.0
+        for a in range(n):
+            qh = -A[a, a]
+            ql = -q_low[q, a] * sc
+            if qh > sigma or (qh == sigma and ql > sigma_lo):
+                sigma = qh
+                sigma_lo = ql
+        if sigma_lo > 0.0:
+            sigma = np.nextafter(sigma, np.inf)
         for a in range(na):
             for c in range(na):
-                B[a, c] = A[a, c] + (sigma if a == c else 0.0)
+                B[a, c] = A[a, c]
+            sh, sl = two_sum(sigma, A[a, a])
+            B[a, a] = sh + (sl + (q_low[q, a] * sc if a < n else 0.0))
         norm = 0.0  # largest column sum of |B| over the species, plus the shift
         for c in range(n):
             col = 0.0

@@ -13,20 +13,114 @@ the offending text and says what to write instead.  The message is built in
         A -> B    k3 = 0.1 sec-1
                            ^^^^^
 
+A wrong value given to a library function has a type per kind of mistake
+(:class:`RateMatrixError`, :class:`TimesError`, :class:`SpeciesError`...), all
+subclasses of :class:`ArgumentValueError`; :class:`UsageError`, the wrong argument on
+the command line, is one of them too.  The command line turns every
+:class:`KineticsError` into one line on stderr and exit status 2.
+
 All errors pickle (parallel sweeps send them between processes).
 """
 
 from __future__ import annotations
 
+import numbers
+
 __all__ = [
+    "MAX_SHOWN_ERRORS",
+    "ArgumentTypeError",
+    "ArgumentValueError",
+    "ConcentrationError",
     "DataError",
     "GrowthError",
     "KineticsError",
+    "OutputFileError",
+    "RateMatrixError",
     "SchemeError",
     "SchemeErrors",
     "SchemeFileError",
+    "SettingError",
+    "SpeciesError",
+    "TableSizeError",
+    "TimesError",
+    "UnitError",
+    "UnknownUnitError",
     "UsageError",
+    "WorkingRangeError",
+    "shorten",
+    "shown_value",
+    "type_name",
 ]
+
+#: Longest piece of a user's text quoted in a message [characters]; longer pieces are cut.
+QUOTE_LIMIT = 60
+#: Widest part of a source line shown under a message [characters].
+LINE_WINDOW = 120
+#: Most problems printed by ``str(SchemeErrors)``; the rest are counted.
+MAX_SHOWN_ERRORS = 50
+
+
+def shorten(text: str, limit: int = QUOTE_LIMIT) -> str:
+    """``text`` itself, or its first ``limit`` characters, an ellipsis and the full length.
+
+    Messages quote what a user wrote; a megabyte of it must not be echoed back.
+
+    Parameters
+    ----------
+    text : str
+        The quoted text.
+    limit : int, optional
+        Most characters kept [characters].
+
+    Returns
+    -------
+    str
+
+    Examples
+    --------
+    >>> shorten("1/s xxxxxxxxxx", 6)
+    '1/s xx… (14 characters)'
+    >>> shorten("1/s")
+    '1/s'
+    """
+    if len(text) <= limit:
+        return text
+    return f"{text[:limit]}… ({len(text):,} characters)"
+
+
+def shown_value(value) -> str:
+    """A value as a message quotes it: a number in plain Python form (never
+    ``np.float64(-300.0)``), anything else as its cut ``repr``.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> shown_value(np.float64(-300.0)), shown_value("a")
+    ('-300.0', "'a'")
+    """
+    if isinstance(value, numbers.Real) and not isinstance(value, bool):
+        return repr(float(value)) if not isinstance(value, numbers.Integral) else str(int(value))
+    return shorten(repr(value))
+
+
+def type_name(value) -> str:
+    """``None`` for None, else the name of the value's type (for messages about arguments)."""
+    return "None" if value is None else type(value).__name__
+
+
+def _window(text: str, column: int, width: int) -> tuple[str, int, int]:
+    """The part of a long line shown under a message: (shown text, caret column, caret cap).
+
+    The caret column is 1-based in the shown text; ``…`` marks cut ends.
+    """
+    if len(text) <= width:
+        return text, column, width
+    start = max(0, min(column - 1 - width // 3, len(text) - width)) if column > 0 else 0
+    shown = text[start : start + width]
+    lead = "…" if start > 0 else ""
+    tail = "…" if start + width < len(text) else ""
+    caret = column - start + len(lead) if column > 0 else 0
+    return lead + shown + tail, caret, len(lead) + width - caret + 1
 
 
 class KineticsError(Exception):
@@ -96,10 +190,11 @@ class SchemeError(KineticsError, ValueError):
     def __str__(self) -> str:
         out = self.headline()
         if self.text:
-            out += "\n    " + self.text.rstrip("\n")
-            if self.column > 0:
-                width = max(1, len(self.snippet))
-                out += "\n    " + " " * (self.column - 1) + "^" * width
+            shown, column, room = _window(self.text.rstrip("\n"), self.column, LINE_WINDOW)
+            out += "\n    " + shown
+            if column > 0:
+                width = max(1, min(len(self.snippet), room))
+                out += "\n    " + " " * (column - 1) + "^" * width
         return out
 
 
@@ -123,13 +218,18 @@ class SchemeErrors(KineticsError, ValueError):
     def __str__(self) -> str:
         if len(self.errors) == 1:
             return str(self.errors[0])
-        parts = [f"{len(self.errors)} problems in {self.errors[0].source}:"]
-        parts.extend(str(e) for e in self.errors)
+        count = len(self.errors)
+        shown = self.errors[:MAX_SHOWN_ERRORS]
+        head = f"{count:,} problems in {self.errors[0].source}"
+        parts = [head + (f" (the first {len(shown)} follow):" if count > len(shown) else ":")]
+        parts.extend(str(e) for e in shown)
+        if count > len(shown):
+            parts.append(f"... and {count - len(shown):,} more; correct these first")
         return "\n".join(parts)
 
 
-class SchemeFileError(KineticsError, OSError):
-    """A scheme or data file that cannot be read at all (missing, a folder, not UTF-8)."""
+class _FileProblem(KineticsError, OSError):
+    """An error told as ``path: problem; hint`` about a whole file."""
 
     def __init__(self, problem: str, path: str = "", hint: str = "") -> None:
         super().__init__(problem)
@@ -143,6 +243,43 @@ class SchemeFileError(KineticsError, OSError):
     def __str__(self) -> str:
         head = f"{self.path}: {self.problem}" if self.path else self.problem
         return f"{head}; {self.hint}" if self.hint else head
+
+
+class SchemeFileError(_FileProblem):
+    """A scheme or data file that cannot be read at all (missing, a folder, not UTF-8)."""
+
+
+class OutputFileError(_FileProblem):
+    """An output file that cannot be written (full disk, no permission, read-only folder).
+
+    The message names the file the user asked for, never the hidden temporary file it
+    is written through; nothing of it is left behind.
+    """
+
+
+class UnitError(KineticsError, ValueError):
+    """A unit that cannot be read: a piece that is no unit, an exponent beyond the limit,
+    a number where a unit belongs, or a unit longer than a chemist writes.
+
+    Raised by :func:`kinetics.units.parse_unit` with a message that names the piece;
+    the readers of files turn it into a :class:`SchemeError` with a place and a hint.
+
+    Examples
+    --------
+    >>> isinstance(UnitError("the exponent 99 is too large"), ValueError)
+    True
+    """
+
+
+class UnknownUnitError(UnitError):
+    """A unit whose pieces read well but that no unit of the registry matches
+    (``sec-1``, ``mol/Lt``).
+
+    Examples
+    --------
+    >>> str(UnknownUnitError("unknown unit 'sec-1'"))
+    "unknown unit 'sec-1'"
+    """
 
 
 class _ProblemAndHint(KineticsError):
@@ -160,8 +297,78 @@ class _ProblemAndHint(KineticsError):
         return f"{self.problem}; {self.hint}" if self.hint else self.problem
 
 
-class UsageError(_ProblemAndHint, ValueError):
-    """A wrong argument to a command or to a library function (times, options, names)."""
+class ArgumentValueError(_ProblemAndHint, ValueError):
+    """A value given to a library function or a command that cannot be used.
+
+    The common base of :class:`UsageError` (the command line) and of the typed errors of
+    the numerical core (:class:`RateMatrixError`, :class:`ConcentrationError`,
+    :class:`TimesError`, :class:`SpeciesError`, :class:`SettingError`,
+    :class:`WorkingRangeError`, :class:`TableSizeError`): ``except ArgumentValueError``
+    catches a wrong value wherever it was given.
+
+    Examples
+    --------
+    >>> issubclass(TimesError, ArgumentValueError) and issubclass(UsageError, ArgumentValueError)
+    True
+    """
+
+
+class UsageError(ArgumentValueError):
+    """A wrong argument or option on the command line (the command ends with exit status 2).
+
+    Library modules that have no typed error of their own for a mistake raise it too.
+    """
+
+
+class RateMatrixError(ArgumentValueError):
+    """An array given as a rate matrix K [1/s] that is not one: not numeric, not square,
+    empty, with inf or nan, or with a negative off-diagonal entry (a rate of formation).
+
+    Examples
+    --------
+    >>> str(RateMatrixError("the rate matrix K is empty", "a scheme needs at least one species"))
+    'the rate matrix K is empty; a scheme needs at least one species'
+    """
+
+
+class ConcentrationError(ArgumentValueError):
+    """Start concentrations or zero-order feed rates that cannot be used (wrong length,
+    not numeric, inf or nan, negative)."""
+
+
+class TimesError(ArgumentValueError):
+    """Times [s] that cannot be used: not numbers, not a flat increasing list, negative,
+    an empty list, or a time window or grid end that is not a positive finite time."""
+
+
+class SpeciesError(ArgumentValueError):
+    """A species name or index that the scheme does not have, or names that are not one
+    per species and unique."""
+
+
+class SettingError(ArgumentValueError):
+    """A setting of a library function outside its allowed values: a fraction or a
+    tolerance outside (0, 1), or a choice such as ``where=`` or ``linear=`` that is not
+    one of those listed."""
+
+
+class TableSizeError(ArgumentValueError):
+    """A table larger than the chosen output format holds (an Excel sheet holds at most
+    1,048,576 rows and 16,384 columns); another format holds it."""
+
+
+class WorkingRangeError(ArgumentValueError):
+    """A problem beyond the working range of the exact engine: a rate above 1e100 1/s, a
+    time above 1e100 s, more than 1e27 shortest lifetimes, or concentrations too large for
+    the rates (see :func:`kinetics.analysis.check_working_range`)."""
+
+
+class ArgumentTypeError(_ProblemAndHint, TypeError):
+    """A library function called with an argument of the wrong type.
+
+    For example a file name or ``None`` where a checked scheme is needed, or a
+    single string where a list of names is needed.
+    """
 
 
 class DataError(KineticsError, ValueError):

@@ -26,7 +26,6 @@ column or row, and what to write instead.
 from __future__ import annotations
 
 import csv
-import difflib
 import io
 import math
 import re
@@ -37,7 +36,14 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .errors import DataError, UsageError
-from .units import convert, describe_dimension, parse_unit, temperature_to_kelvin
+from .suggest import close_matches
+from .units import (
+    TIME_UNITS,
+    convert,
+    describe_dimension,
+    parse_unit,
+    temperature_to_kelvin,
+)
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -373,13 +379,13 @@ def _time_factor(unit: str, source: str) -> float:
         spec = parse_unit(unit)
     except ValueError:
         raise DataError(
-            f"the time column has an unknown unit {unit!r}", source, "use s, min, h or d"
+            f"the time column has an unknown unit {unit!r}", source, f"use {TIME_UNITS}"
         ) from None
     if spec.offset or spec.dims != {"[time]": 1}:
         raise DataError(
             f"the time column unit {unit!r} is {describe_dimension(spec.dims)}, not a time",
             source,
-            "use s, min, h or d",
+            f"use {TIME_UNITS}",
         )
     return convert(1.0, unit, "s")
 
@@ -431,8 +437,7 @@ def _concentration_factor(scheme, species: str, unit: str, column: str, source: 
 
 
 def _did_you_mean(name: str, candidates) -> str:
-    folded = [c for c in candidates if c.lower() == name.lower()]
-    close = folded or difflib.get_close_matches(name, list(candidates), n=1)
+    close = close_matches(name, candidates, fold_case=True)
     listing = "the species are " + ", ".join(candidates)
     if close:
         return f"did you mean {close[0]!r}? ({listing})"

@@ -34,7 +34,7 @@ import numpy as np
 import scipy.sparse
 
 from . import _doubledouble as dd
-from .errors import UsageError
+from .errors import UsageError, shown_value
 
 if TYPE_CHECKING:
     from .scheme import Scheme
@@ -326,7 +326,7 @@ def _check_overrides(scheme: Scheme, constants, temperature, excess) -> None:
                 "known constants: " + ", ".join(scheme.constants),
             )
         if not (math.isfinite(value) and value >= 0):
-            raise UsageError(f"rate constant {name} = {value!r} must be finite and >= 0")
+            raise UsageError(f"rate constant {name} = {shown_value(value)} must be finite and >= 0")
     for name, value in excess.items():
         if name not in scheme._excess_si:
             raise UsageError(
@@ -334,9 +334,11 @@ def _check_overrides(scheme: Scheme, constants, temperature, excess) -> None:
                 "excess species: " + (", ".join(scheme._excess_si) or "none"),
             )
         if not (math.isfinite(value) and value >= 0):
-            raise UsageError(f"excess concentration {name} = {value!r} must be finite and >= 0")
+            raise UsageError(
+                f"excess concentration {name} = {shown_value(value)} must be finite and >= 0"
+            )
     if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
-        raise UsageError(f"temperature {temperature!r} K must be finite and above 0 K")
+        raise UsageError(f"temperature {shown_value(temperature)} K must be finite and above 0 K")
 
 
 def dense_rate_matrix(scheme: Scheme, rates: np.ndarray | None = None) -> np.ndarray:

@@ -19,14 +19,22 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field, replace
 from fractions import Fraction
-from functools import cached_property
+from functools import cached_property, lru_cache
 
 import numpy as np
 
-from .errors import UsageError
+from .errors import UsageError, shown_value
 from .units import GAS_CONSTANT_EXACT
 
-__all__ = ["Arrhenius", "RateConstant", "Reaction", "Scheme", "Species", "Step"]
+__all__ = [
+    "Arrhenius",
+    "RateConstant",
+    "Reaction",
+    "Scheme",
+    "Species",
+    "Step",
+    "arrhenius_pairs",
+]
 
 
 @dataclass(frozen=True, slots=True)
@@ -120,9 +128,98 @@ class Arrhenius:
         from . import _doubledouble as dd
 
         if not temperature > 0:
-            raise UsageError(f"temperature {temperature!r} K must be above 0 K")
+            raise UsageError(f"temperature {shown_value(temperature)} K must be above 0 K")
         exponent = -Fraction(self.activation_energy) / (GAS_CONSTANT_EXACT * Fraction(temperature))
         return self.prefactor_si * dd.decimal_exp(exponent)
+
+
+#: distinct (Arrhenius, A, Ea, T) evaluations kept by :func:`arrhenius_pairs`
+ARRHENIUS_CACHE = 4096
+
+
+@lru_cache(maxsize=ARRHENIUS_CACHE)
+def _exact_pair(arrhenius: Arrhenius, a_hi, a_lo, energy, temperature) -> tuple[float, float]:
+    """One exact evaluation, rounded to a double-double pair (``None``: the law's own value)."""
+    from . import _doubledouble as dd
+
+    law = arrhenius
+    if a_hi is not None or energy is not None:
+        law = replace(
+            arrhenius,
+            prefactor_si=arrhenius.prefactor_si
+            if a_hi is None
+            else Fraction(a_hi) + Fraction(a_lo),
+            activation_energy=arrhenius.activation_energy if energy is None else energy,
+        )
+    return dd.pair(law.exact(temperature))
+
+
+def arrhenius_pairs(
+    arrhenius: Arrhenius, temperature, prefactor=None, prefactor_low=None, energy=None
+) -> tuple[np.ndarray, np.ndarray]:
+    r"""Arrhenius constants for arrays of temperatures and parameters, as double-double pairs.
+
+    .. math:: k(T) = A \exp\left(-\frac{E_a}{R T}\right)
+
+    Every value goes through :meth:`Arrhenius.exact` (40 significant digits, exact R),
+    once per distinct ``(A, Ea, T)``: a temperature grid costs one exact evaluation per
+    temperature, and repeated values (the rows of a sweep grid, the evaluations of a
+    fit) are taken from a cache of :data:`ARRHENIUS_CACHE` entries.
+
+    Parameters
+    ----------
+    arrhenius : Arrhenius
+        The law; its own ``A`` (exact) and ``Ea`` where ``prefactor``/``energy`` are None.
+    temperature : float or array_like
+        Thermodynamic temperatures [K], above 0.
+    prefactor, prefactor_low : float or array_like, optional
+        Pre-exponential factors as double-double pairs [SI base units, 1/s for first
+        order] (``prefactor_low`` zero when not given).
+    energy : float or array_like, optional
+        Activation energies [J/mol] (the doubles given, as :meth:`Arrhenius.exact` takes
+        them).
+
+    Returns
+    -------
+    (numpy.ndarray, numpy.ndarray)
+        ``hi`` and ``lo`` of the broadcast shape; ``hi + lo`` is the exact constant to
+        about :math:`2^{-106}` relative (``(inf, 0)`` beyond the double range).
+
+    Raises
+    ------
+    UsageError
+        For a temperature that is not above 0 K.
+
+    References
+    ----------
+    S. Arrhenius, Z. Phys. Chem. 4, 226 (1889).
+
+    Examples
+    --------
+    The ratio of k at 35 and 25 degC for Ea = 83.144 kJ/mol is
+    :math:`\exp(E_a/R\,(1/T_1 - 1/T_2)) \approx 2.97` (Arrhenius equation):
+
+    >>> law = Arrhenius(Fraction(10**12), 83144.0)
+    >>> hi, lo = arrhenius_pairs(law, [298.15, 308.15])
+    >>> round(float(hi[1] / hi[0]), 2)
+    2.97
+    """
+    columns = [np.asarray(temperature, dtype=float)]
+    if prefactor is not None:
+        low = 0.0 if prefactor_low is None else prefactor_low
+        columns += [np.asarray(prefactor, dtype=float), np.asarray(low, dtype=float)]
+    if energy is not None:
+        columns.append(np.asarray(energy, dtype=float))
+    shape = np.broadcast_shapes(*(x.shape for x in columns))
+    rows = np.stack([np.broadcast_to(x, shape).reshape(-1) for x in columns], axis=1)
+    distinct, inverse = np.unique(rows, axis=0, return_inverse=True)
+    values = np.empty((distinct.shape[0], 2))
+    for i, row in enumerate(distinct.tolist()):
+        ah, alo = (row[1], row[2]) if prefactor is not None else (None, None)
+        e = row[-1] if energy is not None else None
+        values[i] = _exact_pair(arrhenius, ah, alo, e, row[0])
+    out = values[inverse.reshape(-1)]
+    return out[:, 0].reshape(shape), out[:, 1].reshape(shape)
 
 
 @dataclass(frozen=True, slots=True)
@@ -196,11 +293,26 @@ class Step:
     direction: str = "forward"
 
     @property
+    def key(self) -> tuple:
+        """What the step does, independent of how it is written and of its constant:
+        reactant, co-reactants and products with their coefficients, each sorted by name.
+        Two steps with one key are parallel (their rates add up)."""
+        return (self.reactant, _merged(self.co_reactants), _merged(self.products))
+
+    @property
     def equation(self) -> str:
         """The step written out, e.g. ``A + W -> B``."""
         left = " + ".join([self.reactant] + [_term(c, n) for c, n in self.co_reactants])
         right = " + ".join(_term(c, n) for c, n in self.products)
         return f"{left} -> {right}"
+
+
+def _merged(terms: tuple[tuple[float, str], ...]) -> tuple[tuple[str, float], ...]:
+    """Terms with one entry per species (``B + B`` is ``2 B``), sorted by name."""
+    total: dict[str, float] = {}
+    for coefficient, name in terms:
+        total[name] = total.get(name, 0.0) + coefficient
+    return tuple(sorted(total.items()))
 
 
 def _term(coefficient: float, name: str) -> str:
@@ -266,7 +378,8 @@ class Scheme:
     temperature : float or None
         [K].
     concentration_unit : str
-        A pint-parsable unit, as the user wrote it.
+        A pint-parsable unit of amounts, as the user wrote it; for a file in mass units
+        its amount twin (``mmol/L`` for ``mg/L``: masses are converted with molar masses).
     title : str
     source : str
         File name, or ``"<text>"``.
@@ -274,6 +387,14 @@ class Scheme:
         The scheme as written.
     allow_imbalance : bool
         True when the file opted out of the atom-balance error (lumped schemes).
+    written_unit : str
+        The unit of the first start value as written (``mg/L``): the unit outputs use
+        unless told otherwise (see :meth:`kinetics.solution.Solution.in_unit`); equal to
+        ``concentration_unit`` for files in amounts.
+    warnings : tuple of str
+        Sentences about probable mistakes that do not stop the file from loading
+        (parallel steps, constants no step uses, nothing to start from), each led by
+        ``file:line:``; the command line prints them on stderr.
     """
 
     species: tuple[Species, ...]
@@ -286,12 +407,25 @@ class Scheme:
     feed: dict[str, float]
     temperature: float | None
     concentration_unit: str
+    written_unit: str = ""
     title: str = ""
     source: str = "<text>"
     text: str = ""
     allow_imbalance: bool = False
+    warnings: tuple[str, ...] = ()
     _excess_si: dict[str, Fraction] = field(default_factory=dict, repr=False)
     _unit_factor: Fraction = field(default=Fraction(1), repr=False)
+
+    # -- exact values --------------------------------------------------------
+    @property
+    def excess_si(self) -> dict[str, Fraction]:
+        """Excess concentrations as exact SI values [mol/m^3] (a copy)."""
+        return dict(self._excess_si)
+
+    @property
+    def concentration_si(self) -> Fraction:
+        """The SI value of one :attr:`concentration_unit` [mol/m^3], exact."""
+        return self._unit_factor
 
     # -- names and vectors -------------------------------------------------
     @property
@@ -464,7 +598,10 @@ class Scheme:
                 )
             exact = _checked_fraction(value, f"rate constant {name}")
             new_constants[name] = replace(
-                new_constants[name], value_si=exact, arrhenius=None, text=f"{value!r} (SI)"
+                new_constants[name],
+                value_si=exact,
+                arrhenius=None,
+                text=f"{shown_value(value)} (SI)",
             )
         new_initial = dict(self.initial)
         for name, value in (initial or {}).items():
@@ -488,7 +625,9 @@ class Scheme:
             )
             new_excess[name] = float(value)
         if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
-            raise UsageError(f"temperature {temperature!r} K must be finite and above 0 K")
+            raise UsageError(
+                f"temperature {shown_value(temperature)} K must be finite and above 0 K"
+            )
         return replace(
             self,
             constants=new_constants,
@@ -503,7 +642,7 @@ def _checked_fraction(value: float, what: str) -> Fraction:
     try:
         number = float(value)
     except (TypeError, ValueError):
-        raise UsageError(f"{what} must be a number, not {value!r}") from None
+        raise UsageError(f"{what} must be a number, not {shown_value(value)}") from None
     if not (math.isfinite(number) and number >= 0):
-        raise UsageError(f"{what} = {value!r} must be finite and >= 0")
+        raise UsageError(f"{what} = {shown_value(value)} must be finite and >= 0")
     return Fraction(number)

@@ -7,50 +7,154 @@ vector and returns concentrations with their names and units.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import os
+import warnings
+from collections.abc import Iterator
+from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .errors import UsageError
+from .errors import (
+    ArgumentTypeError,
+    SettingError,
+    SpeciesError,
+    TimesError,
+    WorkingRangeError,
+    type_name,
+)
 from .propagate import propagate_certified
-from .units import convert, parse_unit
+from .units import time_factor
 
 if TYPE_CHECKING:
     import pandas as pd
 
     from .scheme import Scheme
 
-__all__ = ["Solution", "check_times", "solve", "time_grid"]
+#: relative rounding a unit conversion adds: the factor (a few roundings) and the product
+_CONVERSION_ROUNDING = 4 * 2.0**-53
+
+__all__ = [
+    "MAX_VALUES",
+    "Solution",
+    "check_times",
+    "require_scheme",
+    "solve",
+    "time_grid",
+]
+
+
+#: Largest table a solve produces: points x species (80 MB per copy of the table; the
+#: JSON and spreadsheet outputs hold several copies).  README, "Limits of the method".
+MAX_VALUES = 10_000_000
+
+
+def require_scheme(scheme, function: str) -> Scheme:
+    """Return ``scheme`` if it is a checked :class:`~kinetics.scheme.Scheme`, else refuse it.
+
+    Parameters
+    ----------
+    scheme : object
+        What the caller passed.
+    function : str
+        The public function's name for the message, e.g. ``"solve"``.
+
+    Raises
+    ------
+    kinetics.errors.ArgumentTypeError
+        With a hint to :func:`kinetics.load` (a file name) or :func:`kinetics.parse` (text).
+    """
+    from .scheme import Scheme
+
+    if isinstance(scheme, Scheme):
+        return scheme
+    if isinstance(scheme, str) and ("\n" in scheme or "->" in scheme):
+        raise ArgumentTypeError(
+            f"{function}() needs a checked scheme, not the text of one",
+            f"parse it first: kinetics.{function}(kinetics.parse(text), ...)",
+        )
+    if isinstance(scheme, str | os.PathLike):
+        name = os.fspath(scheme)
+        raise ArgumentTypeError(
+            f"{function}() needs a checked scheme, not the file name {name!r}",
+            f"read it first: kinetics.{function}(kinetics.load({name!r}), ...)",
+        )
+    raise ArgumentTypeError(
+        f"{function}() needs a checked scheme, not {type_name(scheme)}",
+        "get one from kinetics.load('file.scheme') or kinetics.parse(text)",
+    )
 
 
 def check_times(times) -> np.ndarray:
-    """Validate a time list [s]: finite, >= 0, nondecreasing; return it as a float array."""
+    """Validate a time list [s]: a flat list, finite, >= 0, nondecreasing; return it as floats."""
+    if isinstance(times, Iterator):
+        times = list(times)
+    if times is None or isinstance(times, str | bytes | dict):
+        raise ArgumentTypeError(
+            f"the times must be a list of numbers in seconds, not {type_name(times)}",
+            "e.g. [0, 600, 1200] or numpy.linspace(0, 3600, 201)",
+        )
     try:
-        t = np.asarray(times, dtype=float).reshape(-1)
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", np.exceptions.ComplexWarning)
+            t = np.asarray(times, dtype=float)
     except (TypeError, ValueError) as exc:
-        raise UsageError(
+        raise TimesError(
             "the times are not numbers", "give times in seconds as a list of numbers"
         ) from exc
+    kind = np.asarray(times).dtype.kind
+    if kind in "bc":
+        what = "True/False values" if kind == "b" else "complex numbers"
+        raise TimesError(f"the times are {what}", "give times in seconds as real numbers")
+    if t.ndim != 1:
+        shape = "a single number" if t.ndim == 0 else f"an array of shape {t.shape}"
+        raise TimesError(
+            f"the times must be a flat list of times, not {shape}",
+            "e.g. [0, 600, 1200] or numpy.linspace(0, 3600, 201); for one time give [t]",
+        )
     if t.size == 0:
-        raise UsageError("the time list is empty", "give at least one time")
+        raise TimesError("the time list is empty", "give at least one time")
     if not np.all(np.isfinite(t)):
-        raise UsageError("a time is not a finite number", "give finite times in seconds")
+        raise TimesError("a time is not a finite number", "give finite times in seconds")
     if np.any(t < 0):
-        raise UsageError(
-            f"a time is negative ({t[t < 0][0]!r} s)", "times start at 0 (the start values)"
+        raise TimesError(
+            f"a time is negative ({float(t[t < 0][0]):g} s)", "times start at 0 (the start values)"
         )
     if np.any(np.diff(t) < 0):
-        raise UsageError("the times are not in increasing order", "sort the time list")
+        raise TimesError("the times are not in increasing order", "sort the time list")
     return t
 
 
+def _check_size(points: int, species: int = 0) -> None:
+    """Refuse a table above :data:`MAX_VALUES` values before it is allocated."""
+    if points * max(species, 1) <= MAX_VALUES:
+        return
+    size = f"{MAX_VALUES:,} values (times x species; about {8 * MAX_VALUES // 10**6} MB per copy)"
+    if species == 0:
+        raise WorkingRangeError(
+            f"{points:,} times are too many: one run computes at most {size}",
+            "use fewer times, e.g. 201 (the default), or solve the time span in parts",
+        )
+    raise WorkingRangeError(
+        f"{points:,} times x {species} species = {points * species:,} values are too many: "
+        f"one run computes at most {size}",
+        f"use at most {MAX_VALUES // species:,} times, or solve the time span in parts",
+    )
+
+
 def time_grid(until: float, points: int = 201) -> np.ndarray:
-    """A uniform grid of ``points`` times from 0 to ``until`` [s] inclusive."""
+    """A uniform grid of ``points`` times from 0 to ``until`` [s] inclusive.
+
+    At most :data:`MAX_VALUES` points (a larger grid is refused before it is made).
+    """
     if not (np.isfinite(until) and until > 0):
-        raise UsageError(f"the end time must be positive, not {until!r}", "e.g. --until 90min")
+        raise TimesError(
+            f"the end time must be positive and finite, not {float(until):g} s",
+            "give the end of the window in seconds, e.g. 5400 for 90 min",
+        )
     if points < 2:
-        raise UsageError(f"a grid needs at least 2 points, not {points}", "e.g. --points 201")
+        raise TimesError(f"a grid needs at least 2 points, not {points}", "e.g. --points 201")
+    _check_size(points)
     return np.linspace(0.0, until, points)
 
 
@@ -71,6 +175,9 @@ class Solution:
     error_bound : numpy.ndarray or None
         Shape ``(m,)``: the relative error the engine certifies for every entry
         above 1e-290 at each time (see :func:`kinetics.propagate.propagate_certified`).
+    unit_factors : numpy.ndarray or None
+        Shape ``(n,)``: per species, the factor from the scheme's unit to
+        ``concentration_unit`` (set by :meth:`in_unit`; None in the scheme's unit).
     """
 
     times: np.ndarray
@@ -79,13 +186,66 @@ class Solution:
     concentration_unit: str
     scheme: Scheme
     error_bound: np.ndarray | None = None
+    unit_factors: np.ndarray | None = None
+    _amounts: np.ndarray | None = field(default=None, repr=False)  # in the scheme's unit
+
+    def in_unit(self, unit: str) -> Solution:
+        """The same solution with concentrations in another unit.
+
+        Mass units are applied per species with its molar mass; "% of applied" is the
+        percentage of the total amount at time zero (see :mod:`kinetics.amounts`).
+
+        .. math:: m_i(t) = n_i(t)\\, M_i, \\qquad
+                  p_i(t) = 100\\, n_i(t) / \\textstyle\\sum_j n_j(0)
+
+        Parameters
+        ----------
+        unit : str
+            An amount or mass unit of the scheme's kind (``mmol/L``, ``mg/L``; ``mg/kg``
+            for a scheme per mass of soil) or ``"% of applied"``.
+
+        Returns
+        -------
+        Solution
+            Its :meth:`summary`, :meth:`to_frame` and :meth:`plot` use ``unit``.
+
+        Raises
+        ------
+        UsageError
+            For a unit of another kind, or a mass unit where a species that can be
+            present has no molar mass.
+
+        Examples
+        --------
+        >>> import kinetics
+        >>> s = kinetics.parse("A -> B  k1 = 1 1/s\\nstart A = 0.5 M\\nformula A = H2O, B = H2O")
+        >>> # 0.5 mol/L times 18.015 g/mol (water, standard atomic weights)
+        >>> float(kinetics.solve(s, [0.0]).in_unit("g/L").concentrations[0, 0])
+        9.0075
+        """
+        from .amounts import PERCENT_OF_APPLIED, is_percent_of_applied, output_factors
+
+        factors = output_factors(self.scheme, unit)
+        amounts = self.concentrations if self._amounts is None else self._amounts
+        label = PERCENT_OF_APPLIED if is_percent_of_applied(unit) else unit.strip()
+        bound = self.error_bound
+        if bound is not None:  # the factor and the product: a few more units of rounding
+            bound = bound + _CONVERSION_ROUNDING * (1 + bound)
+        return replace(
+            self,
+            concentrations=amounts * factors,
+            concentration_unit=label,
+            unit_factors=factors,
+            error_bound=bound,
+            _amounts=amounts,
+        )
 
     def __getitem__(self, name: str) -> np.ndarray:
         """The curve of one species [concentration_unit]."""
         try:
             return self.concentrations[:, self.species.index(name)]
         except ValueError:
-            raise UsageError(
+            raise SpeciesError(
                 f"{name} is not a species of this scheme",
                 "species are " + ", ".join(self.species),
             ) from None
@@ -127,7 +287,7 @@ class Solution:
             Species name -> quantities (``half_life``, ``t_max``, ``c_max``, ``limit``...),
             ``None`` where a quantity does not apply.
         """
-        from .overview import compute_summary, summary_in_units
+        from .analysis.solution_summary import compute_summary, summary_in_units
 
         return summary_in_units(compute_summary(self) or {}, time_unit)
 
@@ -138,6 +298,7 @@ class Solution:
         time_unit: str = "s",
         summary: dict | str | None = "auto",
         species: list[str] | None = None,
+        linear: str = "auto",
     ):
         """Plot concentration against time (linear and log panels); optionally save it.
 
@@ -152,41 +313,51 @@ class Solution:
             computes them with :meth:`summary`; ``None`` marks nothing.
         species : list of str, optional
             Species to draw (default: all).
+        linear : {"auto", "shared"}, optional
+            ``"auto"`` gives the few species that rise far above all others (e.g. a lumped
+            end product with a large stoichiometric factor) a right-hand axis of their own in
+            the linear panel; ``"shared"`` draws all against one axis.
 
         Returns
         -------
         matplotlib.figure.Figure
         """
-        from .plotting import concentration_figure, save_figure
+        from .output.plotting import concentration_figure, save_figure
 
+        if isinstance(species, str):
+            raise ArgumentTypeError(
+                f"species must be a list of names, not the string {species!r}",
+                f"write species=[{species!r}]",
+            )
         for name in species or []:
-            self[name]  # raises UsageError for an unknown name
+            self[name]  # raises SpeciesError for an unknown name
+        if not (summary is None or isinstance(summary, str | dict)):
+            raise ArgumentTypeError(
+                f"summary must be 'auto', None or a dict, not {type_name(summary)}",
+                "leave it out to mark the maxima and half-lives",
+            )
         if isinstance(summary, str):
             if summary != "auto":
-                raise UsageError(f"summary={summary!r} is not known", "use 'auto', None or a dict")
+                raise SettingError(
+                    f"summary={summary!r} is not known", "use 'auto', None or a dict"
+                )
             summary = self.summary(time_unit)
         if path is not None:
             from pathlib import Path
 
+            if not isinstance(path, str | os.PathLike):
+                raise ArgumentTypeError(
+                    f"path must be a file name, not {type_name(path)}",
+                    "e.g. solution.plot('curves.png')",
+                )
             if Path(path).suffix.lower() not in (".png", ".svg"):
-                raise UsageError(
+                raise SettingError(
                     f"cannot save a plot as {str(path)!r}", "use a .png or .svg file name"
                 )
-        fig = concentration_figure(self, time_unit, summary, species=species)
+        fig = concentration_figure(self, time_unit, summary, species=species, linear=linear)
         if path is not None:
             save_figure(fig, path)
         return fig
-
-
-def time_factor(unit: str) -> float:
-    """Seconds per ``unit`` (``"min"`` -> 60.0); UsageError when it is not a time unit."""
-    try:
-        spec = parse_unit(unit)
-    except ValueError:
-        raise UsageError(f"unknown time unit {unit!r}", "use s, min, h or d") from None
-    if spec.dims != {"[time]": 1}:
-        raise UsageError(f"{unit!r} is not a unit of time", "use s, min, h or d")
-    return convert(1.0, unit, "s")
 
 
 def solve(scheme: Scheme, times) -> Solution:
@@ -212,9 +383,15 @@ def solve(scheme: Scheme, times) -> Solution:
     >>> round(float(kinetics.solve(s, [0, 1]).concentrations[1, 0]), 12)
     0.367879441171
     """
+    from .analysis import check_working_range
+
+    scheme = require_scheme(scheme, "solve")
     t = check_times(times)
+    _check_size(t.size, len(scheme.species))
     Kh, Kl = scheme.rate_matrix_pair()
     feed = scheme.feed_vector if scheme.feed else None
+    amount = float(scheme.initial_vector.sum() + (0.0 if feed is None else feed.sum() * t[-1]))
+    check_working_range(-Kh.diagonal(), float(t[-1]), scheme.species_names, amount)
     result = propagate_certified(Kh, scheme.initial_vector, t, feed, K_low=Kl)
     return Solution(
         t,

@@ -59,7 +59,9 @@ Members that need the general treatment of :mod:`kinetics.analysis` -- damped
 oscillations (complex eigenvalues with :math:`|\mathrm{Im}| > 0.2 |\mathrm{Re}|`),
 exponential growth, a sign change of the derivative across scan points of unknown sign,
 a cubic model of the derivative that hints at two turning points hidden between scan
-points, a half-life crossing across such points, or a scheme without any rate -- are
+points, a half-life crossing across such points, a scheme without any rate, or a stiff
+member whose scan spans more than 1e7 shortest lifetimes (the plain-double ladder would
+lose more than 1e-10) -- are
 handed to :func:`kinetics.analysis.summarise` one by one (about 8 % of random branched
 networks with reverse steps; 24 % before maxima after a minimum were refined here).  The
 result equals :func:`kinetics.analysis.summarise` per member to about 1e-12 relative
@@ -86,18 +88,18 @@ import math
 
 import numpy as np
 
+from .analysis.tolerances import CLASS_TOL as _CLASS_TOL
+from .analysis.tolerances import CONST as _CONST
+from .analysis.tolerances import DECAY as _DECAY
+from .analysis.tolerances import EXPONENTIAL as _EXP
+from .analysis.tolerances import GLOBAL_TOL as _GLOBAL_TOL
+from .analysis.tolerances import NEVER as _NEVER
+from .analysis.tolerances import SCAN_FAST as _SCAN_FAST
+from .analysis.tolerances import SCAN_SLOW as _SCAN_SLOW
 from .errors import UsageError
 
 __all__ = ["summarise_batch"]
 
-# the same thresholds as kinetics.analysis (see there)
-_REL_NOISE_D = 1e-12
-_REL_NOISE_C = 1e-12
-_SCAN_FAST = 1e-3
-_SCAN_SLOW = 50.0
-_XTOL = 1e-13
-_CLASS_TOL = 1e-12
-_GLOBAL_TOL = 1e-12
 # ladder and scan grid in scaled time: levels u_l = 2^-15 4^l; the scan starts with 4
 # steps of level 2 up to tau0 = 2^-9, then segments [tau0 4^d, tau0 4^(d+1)] of 12 steps
 # of level d + 2 (about 20 points per decade)
@@ -111,7 +113,12 @@ _NEWTON_Y = 0.25
 _NEWTON_TERMS = 14
 _MAX_NEWTON = 60
 
-_NEVER, _DECAY, _CONST, _EXP = -2, -1, 0, 10**9
+# The compiled ladder runs in plain double: its relative error grows about as
+# 1e-17 sigma t (sigma the largest sum of constants of a species; measured against the
+# two-member Bateman solution: 1e-10 at sigma t = 5e7, 1e-6 at 5e10).  Members whose
+# scan spans more than this go to kinetics.analysis (entrywise double-double).
+_STIFF_SIGMA_T = 1e7
+
 _DECAYING, _CRITICAL, _GROWING = 0, 1, 2
 
 
@@ -295,13 +302,13 @@ def _limits(pat: _Pattern, cls: _Classes, K, c0, f, has_c0, has_f):
 # ---------------------------------------------------------------------------------------
 
 
-def _reference(K, c0, f, t_window, out, members) -> None:
+def _reference(K, Kl, c0, f, t_window, out, members) -> None:
     from .analysis import summarise
 
     n = c0.shape[1]
     names = [f"s{i}" for i in range(n)]
     for i in members:
-        s = summarise(K[i], c0[i], names, feed=f, t_window=t_window)
+        s = summarise(K[i], c0[i], names, feed=f, t_window=t_window, K_low=Kl[i])
         for j, name in enumerate(names):
             d = s[name]
             for q in ("half_life", "t_max", "c_max", "limit"):
@@ -329,6 +336,7 @@ def summarise_batch(
     feed: np.ndarray | None = None,
     *,
     t_window: float | None = None,
+    K_low: np.ndarray | None = None,
 ) -> dict[str, np.ndarray]:
     r"""Half-lives, intermediate maxima and long-time limits of a stack of problems.
 
@@ -342,6 +350,12 @@ def summarise_batch(
         Zero-order feed shared by all members [conc/s].
     t_window : float, optional
         End of the time window [s] (only for flags; does not change the quantities).
+    K_low : ndarray, shape (b, n, n), optional
+        Low-order parts of ``K`` when the exact matrices are the double-double sums
+        ``K + K_low`` (:meth:`kinetics.ratematrix.RatePattern.dense_pair`): the shifted
+        diagonal :math:`\sigma - q_i` of the ladder is formed from the exact diagonal
+        before it is rounded, and members handed to :func:`kinetics.analysis.summarise`
+        take the pair.
 
     Returns
     -------
@@ -373,6 +387,9 @@ def summarise_batch(
     f = None if feed is None else np.asarray(feed, dtype=float).reshape(n)
     if f is not None and not f.any():
         f = None
+    Kl = np.zeros_like(K) if K_low is None else np.asarray(K_low, dtype=float)
+    if Kl.shape != K.shape:
+        raise UsageError("summarise_batch needs K_low of the shape of K", "check the shapes")
     out = {q: np.full((b, n), np.nan) for q in ("half_life", "t_max", "c_max", "limit")}
     if b == 0:
         return out
@@ -385,13 +402,13 @@ def summarise_batch(
     fallback = np.zeros(b, dtype=bool)
     for g in np.unique(group_of):
         members = np.flatnonzero(group_of == g)
-        _group(K, c0, f, members, offdiag[members[0]], out, fallback)
+        _group(K, Kl, c0, f, members, offdiag[members[0]], out, fallback)
     if fallback.any():
-        _reference(K, c0, f, t_window, out, np.flatnonzero(fallback))
+        _reference(K, Kl, c0, f, t_window, out, np.flatnonzero(fallback))
     return out
 
 
-def _group(K, c0, f, members, offdiag, out, fallback) -> None:
+def _group(K, Kl, c0, f, members, offdiag, out, fallback) -> None:
     """Members sharing one nonzero pattern and start pattern."""
     pat = _Pattern(offdiag)
     Kg, cg = K[members], c0[members]
@@ -425,9 +442,12 @@ def _group(K, c0, f, members, offdiag, out, fallback) -> None:
     r_max = np.where(any_rate, np.where(pos, rates, 0.0).max(axis=1), 1.0)
     r_min = np.where(any_rate, np.where(pos, rates, np.inf).min(axis=1), 1.0)
     oscillating = np.any((np.abs(ev.imag) > 0.2 * np.abs(ev.real)) & (ev.imag != 0), axis=1)
-    special = growing | oscillating | ~any_rate
     t_lo = _SCAN_FAST / r_max
     t_hi = np.maximum(_SCAN_SLOW / r_min, 10 * t_lo)
+    # stiff members (sigma t over the scan beyond _STIFF_SIGMA_T) go to kinetics.analysis
+    sigma = np.max(-np.diagonal(Kg, axis1=1, axis2=2), axis=1)
+    stiff = sigma * t_hi > _STIFF_SIGMA_T
+    special = growing | oscillating | ~any_rate | stiff
     scale = np.exp2(np.floor(np.log2(1.0 / r_max)))
     fast = np.flatnonzero(~special)
     fallback[members[special]] = True
@@ -451,8 +471,9 @@ def _group(K, c0, f, members, offdiag, out, fallback) -> None:
     cmax = np.full((fast.size, n), np.nan)
     half = np.full((fast.size, n), np.nan)
     status = np.empty(fast.size, dtype=np.int8)
+    q_low = np.ascontiguousarray(np.diagonal(Kl[members[fast]], axis1=1, axis2=2))
     kernels.summarise_members(
-        np.ascontiguousarray(Kf), np.zeros(n) if f is None else f, f is not None,
+        np.ascontiguousarray(Kf), q_low, np.zeros(n) if f is None else f, f is not None,
         np.ascontiguousarray(cf), sc, np.ascontiguousarray(t_hi[fast]), mx, hl, n_seg,
         tmax, cmax, half, status,
     )  # fmt: skip

@@ -18,24 +18,33 @@ Notation accepted on top of everything pint parses:
 from __future__ import annotations
 
 import functools
+import math
 import re
 from dataclasses import dataclass
 from fractions import Fraction
+
+from .errors import UnitError, UnknownUnitError
 
 __all__ = [
     "COMMON_UNITS",
     "GAS_CONSTANT",
     "MAX_EXPONENT",
+    "MAX_UNIT_LENGTH",
     "OFFSET_TEMPERATURES",
+    "TIME_UNITS",
     "UnitSpec",
     "concentration_order",
     "convert",
     "describe_dimension",
+    "is_mass_ratio",
     "normalise_unit",
+    "parse_duration",
+    "parse_time_list",
     "parse_unit",
     "parse_unit_by_pint",
     "pint_text",
     "temperature_to_kelvin",
+    "time_factor",
 ]
 
 #: Molar gas constant R [J/(mol K)]: exactly N_A k = 6.02214076e23 * 1.380649e-23
@@ -50,6 +59,11 @@ _BARE_POWER = re.compile(r"^\^?(?P<exp>[-+]?\d+)$")
 _WORD = re.compile(r"^(?:[^\W\d]+|%|\d+)$")
 _GLUED = re.compile(r"(?<=[^\W\d_])(\^?[-+]?\d+)(?=[^\W\d_])")
 _NUMBER = re.compile(r"^[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$")
+
+#: Longest unit accepted [characters].  Units chemists write are short (``L mol-1 s-1``);
+#: a longer one is text run on after the unit, and pint's reading of it grows with the
+#: square of its length.
+MAX_UNIT_LENGTH = 60
 
 #: Largest exponent accepted in a unit (``s-1``, ``m3``, ``M-2`` ...).  Larger ones
 #: are certainly typing mistakes, and exact rational powers of them cost time.
@@ -266,7 +280,7 @@ def normalise_unit(text: str) -> str:
         if match:
             piece = f"{match['name']}**{_exponent(match['exp'])}"
         elif not _WORD.match(piece):
-            raise ValueError(f"cannot read {piece!r} in a unit")
+            raise UnitError(f"cannot read {piece!r} in a unit")
         if previous_is_word:
             out.append("*")
         out.append(piece)
@@ -277,7 +291,7 @@ def normalise_unit(text: str) -> str:
 def _exponent(text: str) -> str:
     value = int(text)
     if abs(value) > MAX_EXPONENT:
-        raise ValueError(f"the exponent {value} is too large")
+        raise UnitError(f"the exponent {value} is too large")
     return str(value)
 
 
@@ -329,14 +343,21 @@ def parse_unit(text: str) -> UnitSpec:
 
     Raises
     ------
-    ValueError
-        When pint cannot read the unit (callers turn this into a located error).
+    UnknownUnitError
+        When the pieces read well but name no known unit (a ``ValueError``).
+    UnitError
+        For any other unit that cannot be read (a ``ValueError``); callers turn
+        both into a located error.
     """
     if not text.strip():
         return UnitSpec(text, Fraction(1), ())
+    if len(text) > MAX_UNIT_LENGTH:
+        raise UnitError(
+            f"a unit has at most {MAX_UNIT_LENGTH} characters; this one has {len(text):,}"
+        )
     normal = normalise_unit(text)
     if _NUMBER.match(normal.strip()):
-        raise ValueError(f"{text!r} is a number, not a unit")
+        raise UnitError(f"{text!r} is a number, not a unit")
     if normal in OFFSET_TEMPERATURES:
         return UnitSpec(text, Fraction(1), (("[temperature]", Fraction(1)),), True)
     quick = _quick_unit(normal)
@@ -362,15 +383,43 @@ def _pint_unit(text: str, normal: str) -> UnitSpec:
     try:
         unit = ureg.parse_units(normal)
     except Exception as exc:  # pint raises several unrelated types
-        raise ValueError(f"unknown unit {text!r}") from exc
+        raise UnknownUnitError(f"unknown unit {text!r}") from exc
     # nested powers ((min^12)^12) multiply: bound the result before exact conversion
     if any(abs(power) > 2 * MAX_EXPONENT for _, power in unit._units.items()):
-        raise ValueError(f"the exponents in {text!r} are too large")
+        raise UnitError(f"the exponents in {text!r} are too large")
     quantity = ureg.Quantity(Fraction(1), unit)
     if not quantity._is_multiplicative:
         return UnitSpec(text, Fraction(1), _dims_tuple(quantity.dimensionality), True)
     base = ureg.Quantity(Fraction(1), unit).to_base_units()
     return UnitSpec(text, Fraction(base.magnitude), _dims_tuple(base.dimensionality), False)
+
+
+@functools.lru_cache(maxsize=256)
+def is_mass_ratio(text: str) -> bool:
+    """True for a mass divided by a mass (``mg/kg``, ``ug/g``, ``mg kg-1``).
+
+    pint reduces such a unit to a pure number; a soil scientist means a mass of
+    substance per mass of soil.  False for units that do not parse.
+
+    Examples
+    --------
+    >>> is_mass_ratio("mg/kg"), is_mass_ratio("%"), is_mass_ratio("mg/L")
+    (True, False, False)
+    """
+    try:
+        if parse_unit(text).dimensions:
+            return False
+        unit = registry().parse_units(normalise_unit(text))
+    except Exception:  # pint raises several unrelated types
+        return False
+    ureg = registry()
+    up: dict = {}
+    down: dict = {}
+    for name, power in unit._units.items():  # pint's unit container: name -> exponent
+        side = up if power > 0 else down
+        for dim, exp in ureg.get_dimensionality(name).items():
+            side[dim] = side.get(dim, 0) + exp * abs(power)
+    return up == {"[mass]": 1} and down == {"[mass]": 1}
 
 
 def pint_text(text: str) -> str:
@@ -565,3 +614,213 @@ def _order_of(key: tuple[tuple[str, Fraction], ...]) -> int | None:
     if rest == {"[substance]": -m, "[length]": 3 * m} or rest == {"[substance]": -m}:
         return int(m)
     return None
+
+
+# ---------------------------------------------------------------------------
+# durations and time units (the one home of the readers of --until, --times and
+# --time-unit, and of the seconds per unit of time)
+
+#: The units of time offered in messages; pint also reads plurals and prefixed seconds.
+TIME_UNITS = (
+    "s, min, h, d, week, month (1/12 year), year (365.25 d; also yr or a), or prefixed "
+    "seconds such as ms and us"
+)
+
+_DURATION = re.compile(
+    r"^\s*(?P<number>[-+]?(?:(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
+    r"|(?:nan|inf(?:inity)?)(?![\w])))\s*(?P<unit>.*)$",
+    re.IGNORECASE | re.DOTALL,
+)
+#: Longest text read as a duration or a time list [characters] (a list of 10,000 times).
+MAX_DURATION_TEXT = 200_000
+
+
+def time_factor(unit: str) -> float:
+    """Seconds per ``unit`` (``"min"`` -> 60.0).
+
+    Parameters
+    ----------
+    unit : str
+        A unit of time in chemists' notation (``s``, ``min``, ``h``, ``d``, ``week``,
+        ``year``...).
+
+    Returns
+    -------
+    float
+        The exact factor to seconds, rounded once [s per unit].
+
+    Raises
+    ------
+    UsageError
+        When ``unit`` is unknown or not a unit of time.
+
+    Examples
+    --------
+    >>> time_factor("h"), time_factor("week")
+    (3600.0, 604800.0)
+    """
+    from .errors import ArgumentTypeError, UsageError, shorten, type_name
+
+    hint = f"use {TIME_UNITS}"
+    if not isinstance(unit, str):
+        raise ArgumentTypeError(
+            f"the time unit must be text such as 'min', not {type_name(unit)}", hint
+        )
+    try:
+        spec = parse_unit(unit)
+    except ValueError:
+        raise UsageError(f"unknown time unit {shorten(unit)!r}", hint) from None
+    if spec.offset or spec.dims != {"[time]": 1}:
+        raise UsageError(f"{shorten(unit)!r} is not a unit of time", hint)
+    return float(spec.factor)
+
+
+def _number_and_unit(text: str):
+    match = _DURATION.match(text)
+    if not match:
+        return None, ""
+    return match["number"], match["unit"].strip()
+
+
+def _finite_value(number: str, quoted: str, example: str) -> float:
+    """``float(number)``, refusing nan and infinities with a message that quotes the user."""
+    from .errors import UsageError
+
+    value = float(number)
+    if math.isnan(value):
+        raise UsageError(f"{quoted} is not a number", example)
+    if math.isinf(value):
+        spelled = number.lstrip("+-")[:1].lower() == "i"
+        reason = "" if spelled else " (beyond the range of double precision, about 1.8e308)"
+        raise UsageError(f"{quoted} is not a finite duration{reason}", example)
+    return value
+
+
+def parse_duration(text: str, option: str = "--until") -> tuple[float, str]:
+    """Read a duration with its unit: ``"90 min"`` -> ``(5400.0, "min")``.
+
+    Parameters
+    ----------
+    text : str
+        A positive, finite number and a unit of time, as typed on the command line.
+    option : str, optional
+        The option the text came from, for messages.
+
+    Returns
+    -------
+    tuple of (float, str)
+        The duration [s] and the unit as written.
+
+    Raises
+    ------
+    UsageError
+        For a missing or unknown unit, a number that is not finite, zero or negative;
+        the message quotes the text as written (in the user's unit).
+
+    Examples
+    --------
+    >>> parse_duration("90 min")
+    (5400.0, 'min')
+    """
+    from .errors import UsageError, shorten
+
+    example = f"write e.g. {option} '90 min'"
+    quoted = f"{option} {shorten(text)!r}"
+    if len(text) > MAX_DURATION_TEXT:
+        raise UsageError(f"{quoted} is too long to be a duration", example)
+    number, unit = _number_and_unit(text)
+    if number is None or not unit:
+        raise UsageError(f"{quoted} is not a duration with a unit", example)
+    value = _finite_value(number, quoted, example)
+    try:
+        factor = time_factor(unit)
+    except UsageError as exc:
+        raise UsageError(f"{quoted}: {exc.problem}", exc.hint) from None
+    if not value > 0:
+        raise UsageError(f"{quoted} is not a positive duration", example)
+    seconds = value * factor
+    if not math.isfinite(seconds):
+        raise UsageError(
+            f"{quoted} is beyond the range of double precision in seconds (about 1.8e308 s)",
+            example,
+        )
+    return seconds, unit
+
+
+def parse_time_list(text: str, option: str = "--times") -> tuple[list[float], str]:
+    """Read a list of times with one unit at the end: ``"0,5,10 min"`` -> seconds and unit.
+
+    Parameters
+    ----------
+    text : str
+        Comma-separated numbers, the unit written once after the last one.
+    option : str, optional
+        The option the text came from, for messages.
+
+    Returns
+    -------
+    tuple of (list of float, str)
+        The times [s], in the order given, and the unit as written.
+
+    Raises
+    ------
+    UsageError
+        For a missing or unknown unit, a piece that is not a finite number, a negative
+        time or times out of order; messages quote the times as written.
+
+    Examples
+    --------
+    >>> parse_time_list("0,5,10 min")
+    ([0.0, 300.0, 600.0], 'min')
+    """
+    from .errors import UsageError, shorten
+
+    example = f"write e.g. {option} '0,5,10,30 min'"
+    quoted = f"{option} {shorten(text)!r}"
+    if len(text) > MAX_DURATION_TEXT:
+        raise UsageError(
+            f"{quoted} is too long (at most {MAX_DURATION_TEXT:,} characters)", example
+        )
+    pieces = [p.strip() for p in text.split(",")]
+    if not pieces[-1]:
+        raise UsageError(f"{quoted} is not a list of times with one unit", example)
+    number, unit = _number_and_unit(pieces[-1])
+    for piece in [*pieces[:-1], number]:
+        if piece == "":
+            raise UsageError(f"{quoted} has an empty item (a comma too many?)", example)
+        if piece is None or _number_and_unit(piece) != (piece, ""):
+            bad = pieces[-1] if piece is None else piece
+            raise UsageError(f"{quoted}: {shorten(bad)!r} is not a number", example)
+    if not unit:
+        raise UsageError(
+            f"{quoted} does not end with a unit of time", example + " (unit once, at the end)"
+        )
+    try:
+        factor = time_factor(unit)
+    except UsageError as exc:
+        raise UsageError(f"{quoted}: {exc.problem}", exc.hint) from None
+    values = []
+    for piece in [*pieces[:-1], number]:
+        value = float(piece)
+        if not math.isfinite(value):
+            raise UsageError(f"{quoted}: {shorten(piece)} {unit} is not a finite time", example)
+        if value < 0:
+            raise UsageError(
+                f"{quoted}: {shorten(piece)} {unit} is negative",
+                "times start at 0 (the start values)",
+            )
+        if values and value < values[-1][0]:
+            raise UsageError(
+                f"{quoted}: the times are not in increasing order ({values[-1][1]} {unit} "
+                f"comes before {shorten(piece)} {unit})",
+                "sort the time list",
+            )
+        values.append((value, shorten(piece)))
+    seconds = [v * factor for v, _ in values]
+    if not math.isfinite(seconds[-1]):
+        raise UsageError(
+            f"{quoted}: {values[-1][1]} {unit} is beyond the range of double precision in "
+            "seconds (about 1.8e308 s)",
+            example,
+        )
+    return seconds, unit

@@ -16,7 +16,17 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from kinetics import analysis as an
-from kinetics.errors import KineticsError, UsageError
+from kinetics.errors import (
+    ArgumentValueError,
+    ConcentrationError,
+    KineticsError,
+    RateMatrixError,
+    SettingError,
+    SpeciesError,
+    TimesError,
+    UsageError,
+    WorkingRangeError,
+)
 from kinetics.propagate import propagate
 
 
@@ -38,44 +48,51 @@ CYCLE = np.array([[-1, 0, 1, 0], [1, -1, 0, 0], [0, 1, -1 - 1e-6, 0], [0, 0, 1e-
 
 
 @pytest.mark.parametrize(
-    ("K", "c0"),
+    ("K", "c0", "kind"),
     [
-        (np.array([[-1.0, -0.1], [1.0, 0.0]]), [1, 0]),  # negative off-diagonal
-        (np.zeros((2, 3)), [1, 0]),  # not square
-        (np.array([[np.nan, 0], [0, 0]]), [1, 0]),  # nan
-        ("abc", [1, 0]),  # not numeric
-        (chain(1.0), [1, 0, 0]),  # wrong length
-        (chain(1.0), [1, -1]),  # negative start
-        (chain(1.0), [1, np.inf]),  # inf start
+        (np.array([[-1.0, -0.1], [1.0, 0.0]]), [1, 0], RateMatrixError),  # negative off-diagonal
+        (np.zeros((2, 3)), [1, 0], RateMatrixError),  # not square
+        (np.array([[np.nan, 0], [0, 0]]), [1, 0], RateMatrixError),  # nan
+        ("abc", [1, 0], RateMatrixError),  # not numeric
+        (chain(1.0), [1, 0, 0], ConcentrationError),  # wrong length
+        (chain(1.0), [1, -1], ConcentrationError),  # negative start
+        (chain(1.0), [1, np.inf], ConcentrationError),  # inf start
     ],
 )
-def test_bad_arrays_raise_usage_error(K, c0):
-    with pytest.raises(UsageError) as err:
+def test_bad_arrays_raise_typed_errors(K, c0, kind):
+    with pytest.raises(kind) as err:
         an.long_time_limit(K, c0)
+    # a value error of the core: KineticsError and ValueError, never the command line's
+    # UsageError
     assert isinstance(err.value, KineticsError)
+    assert isinstance(err.value, ArgumentValueError)
+    assert not isinstance(err.value, UsageError)
     assert err.value.hint
 
 
 @pytest.mark.parametrize(
-    "call",
+    ("call", "kind"),
     [
-        lambda: an.half_life(chain(1.0), [1, 0], 2),
-        lambda: an.half_life(chain(1.0), [1, 0], True),
-        lambda: an.half_life(chain(1.0), [1, 0], 0.5),
-        lambda: an.time_to_fraction(chain(1.0), [1, 0], 0, 1.0),
-        lambda: an.time_to_fraction(chain(1.0), [1, 0], 0, 0.0),
-        lambda: an.time_to_limit(chain(1.0), [1, 0], tolerance=2.0),
-        lambda: an.intermediate_maxima(chain(1.0), [1, 0], 1, t_window=-1.0),
-        lambda: an.areas(chain(1.0), [1, 0], [-1.0]),
-        lambda: an.long_time_limit(chain(1.0), [1, 0], feed=[-1, 0]),
-        lambda: an.summarise(chain(1.0), [1, 0], ["A", "A"]),
-        lambda: an.summarise(chain(1.0), [1, 0], ["A"]),
-        lambda: an.yields_and_selectivity(chain(1.0), [1, 0], basis=5),
+        (lambda: an.half_life(chain(1.0), [1, 0], 2), SpeciesError),
+        (lambda: an.half_life(chain(1.0), [1, 0], True), SpeciesError),
+        (lambda: an.half_life(chain(1.0), [1, 0], 0.5), SpeciesError),
+        (lambda: an.time_to_fraction(chain(1.0), [1, 0], 0, 1.0), SettingError),
+        (lambda: an.time_to_fraction(chain(1.0), [1, 0], 0, 0.0), SettingError),
+        (lambda: an.time_to_limit(chain(1.0), [1, 0], tolerance=2.0), SettingError),
+        (lambda: an.intermediate_maxima(chain(1.0), [1, 0], 1, t_window=-1.0), TimesError),
+        (lambda: an.areas(chain(1.0), [1, 0], [-1.0]), TimesError),
+        (lambda: an.long_time_limit(chain(1.0), [1, 0], feed=[-1, 0]), ConcentrationError),
+        (lambda: an.summarise(chain(1.0), [1, 0], ["A", "A"]), SpeciesError),
+        (lambda: an.summarise(chain(1.0), [1, 0], ["A"]), SpeciesError),
+        (lambda: an.yields_and_selectivity(chain(1.0), [1, 0], basis=5), SpeciesError),
+        (lambda: an.long_time_limit(chain(1e101), [1, 0]), WorkingRangeError),
     ],
 )
-def test_bad_arguments_raise_usage_error(call):
-    with pytest.raises(UsageError):
+def test_bad_arguments_raise_typed_errors(call, kind):
+    with pytest.raises(kind) as err:
         call()
+    assert isinstance(err.value, ArgumentValueError)
+    assert not isinstance(err.value, UsageError)
 
 
 # ---------------------------------------------------------------------------------------

@@ -132,7 +132,7 @@ def test_allow_imbalance_flag(tmp_path, capsys):
 
 def test_large_scheme_json_gives_sparse_entries_instead_of_dense_rows():
     # a 2,500-step chain: the dense matrix would be 2501 x 2501 (common practice, no source)
-    from kinetics.overview import DENSE_JSON_MAX, check_report
+    from kinetics.output.overview import DENSE_JSON_MAX, check_report
 
     n = DENSE_JSON_MAX + 500
     text = "\n".join(f"S{i} -> S{i + 1}  k{i} = 0.5 1/s" for i in range(n))
@@ -170,7 +170,7 @@ def _chain(steps: int, formulas: bool = True) -> str:
 
 
 def test_scheme_at_the_table_limit_gets_the_tables(tmp_path, capsys):
-    from kinetics.overview import CHECK_TABLE_ROWS
+    from kinetics.output.overview import CHECK_TABLE_ROWS
 
     path = tmp_path / "limit.scheme"
     path.write_text(_chain(CHECK_TABLE_ROWS - 2), encoding="utf-8")  # 200 steps, 200 species
@@ -181,7 +181,7 @@ def test_scheme_at_the_table_limit_gets_the_tables(tmp_path, capsys):
 
 
 def test_large_scheme_gets_the_overview(tmp_path, capsys):
-    from kinetics.overview import CHECK_TABLE_ROWS
+    from kinetics.output.overview import CHECK_TABLE_ROWS
 
     path = tmp_path / "large.scheme"
     path.write_text(_chain(CHECK_TABLE_ROWS + 50), encoding="utf-8")
@@ -208,7 +208,7 @@ def test_large_scheme_gets_the_overview(tmp_path, capsys):
 
 def test_overview_lists_every_problem(tmp_path, capsys):
     # two unbalanced reactions and one without formulas: each is listed, as in the tables
-    from kinetics.overview import CHECK_TABLE_ROWS
+    from kinetics.output.overview import CHECK_TABLE_ROWS
 
     text = _chain(CHECK_TABLE_ROWS + 50)
     text = text.replace("S7 -> S8  k7", "S7 -> 2 S8  k7").replace("S9 -> S10  k9", "S9 -> Q  k9")
@@ -227,7 +227,7 @@ def test_overview_lists_every_problem(tmp_path, capsys):
 
 
 def test_full_tables_option_prints_the_tables_of_a_large_scheme(tmp_path, capsys):
-    from kinetics.overview import CHECK_TABLE_ROWS
+    from kinetics.output.overview import CHECK_TABLE_ROWS
 
     path = tmp_path / "large.scheme"
     path.write_text(_chain(CHECK_TABLE_ROWS + 50), encoding="utf-8")
@@ -240,7 +240,7 @@ def test_full_tables_option_prints_the_tables_of_a_large_scheme(tmp_path, capsys
 
 
 def test_json_of_a_large_scheme_is_unchanged_by_the_overview(tmp_path, capsys):
-    from kinetics.overview import CHECK_TABLE_ROWS, check_report
+    from kinetics.output.overview import CHECK_TABLE_ROWS, check_report
 
     path = tmp_path / "large.scheme"
     path.write_text(_chain(CHECK_TABLE_ROWS + 50), encoding="utf-8")

@@ -9,8 +9,8 @@ from pathlib import Path
 
 import pytest
 
-from kinetics import cli
 from kinetics.cli import CAUTION, main
+from kinetics.cli.entry import split_debug
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -296,24 +296,51 @@ def test_internal_error_is_one_sentence_with_status_1(chain, capsys, monkeypatch
     assert "Traceback" not in err
 
 
-def test_interrupted_run_leaves_no_file(chain, capsys, monkeypatch, tmp_path):
-    import kinetics.export
+@pytest.mark.parametrize(
+    "cls",
+    [
+        "RateMatrixError",
+        "ConcentrationError",
+        "TimesError",
+        "SpeciesError",
+        "SettingError",
+        "WorkingRangeError",
+        "TableSizeError",
+        "GrowthError",
+        "ArgumentTypeError",
+    ],
+)
+def test_every_core_error_is_one_line_and_status_2(chain, capsys, monkeypatch, cls):
+    import kinetics.errors
+    import kinetics.solution
 
-    original = kinetics.export.write_csv
+    def refused(scheme, times):
+        raise getattr(kinetics.errors, cls)("the library refused this", "do that instead")
+
+    monkeypatch.setattr(kinetics.solution, "solve", refused)
+    status, out, err = run(capsys, "solve", chain, "--until", "1h", "--no-caution")
+    assert (status, out, err) == (2, "", "kinetics: the library refused this; do that instead\n")
+
+
+def test_interrupted_run_leaves_no_file(chain, capsys, monkeypatch, tmp_path):
+    import kinetics.files
+    import kinetics.output.export
+
+    original = kinetics.output.export.write_csv
 
     def interrupted(frame, path):
-        with kinetics.export.atomic_path(path) as tmp:
+        with kinetics.files.atomic_path(path) as tmp:
             tmp.write_text("time [min],A [mol/L]\n0,", encoding="utf-8")
             raise KeyboardInterrupt
 
-    monkeypatch.setattr(kinetics.export, "write_csv", interrupted)
+    monkeypatch.setattr(kinetics.output.export, "write_csv", interrupted)
     status, _, err = run(
         capsys, "solve", chain, "--until", "1h", "--points", "3", "--out", "t.csv", "--no-caution"
     )
     assert status == 130
     assert "interrupted" in err
     assert list(tmp_path.iterdir()) == [chain]
-    monkeypatch.setattr(kinetics.export, "write_csv", original)
+    monkeypatch.setattr(kinetics.output.export, "write_csv", original)
 
 
 # ---------------------------------------------------------------------------------------
@@ -360,8 +387,8 @@ def test_no_arguments_shows_help_with_status_2(capsys):
 
 
 def test_debug_flag_anywhere_is_moved_to_the_front():
-    assert cli._split_debug(["solve", "x", "--debug"]) == (["--debug", "solve", "x"], True)
-    assert cli._split_debug(["solve", "--", "--debug"]) == (["solve", "--", "--debug"], False)
+    assert split_debug(["solve", "x", "--debug"]) == (["--debug", "solve", "x"], True)
+    assert split_debug(["solve", "--", "--debug"]) == (["solve", "--", "--debug"], False)
 
 
 # ---------------------------------------------------------------------------------------

@@ -9,12 +9,32 @@ import pytest
 
 from kinetics import parse
 from kinetics.errors import (
+    ArgumentValueError,
+    ConcentrationError,
     DataError,
     KineticsError,
+    RateMatrixError,
     SchemeError,
     SchemeErrors,
     SchemeFileError,
+    SettingError,
+    SpeciesError,
+    TableSizeError,
+    TimesError,
     UsageError,
+    WorkingRangeError,
+)
+
+#: The typed errors of the library for a wrong value (issue 13: the core raises these,
+#: UsageError stays with the command line).
+CORE_VALUE_ERRORS = (
+    RateMatrixError,
+    ConcentrationError,
+    TimesError,
+    SpeciesError,
+    SettingError,
+    WorkingRangeError,
+    TableSizeError,
 )
 
 FULL = SchemeError(
@@ -107,3 +127,36 @@ def test_hierarchy():
     assert issubclass(SchemeError, ValueError)
     assert issubclass(SchemeErrors, ValueError)
     assert issubclass(SchemeFileError, OSError)
+
+
+@pytest.mark.parametrize("cls", CORE_VALUE_ERRORS)
+def test_core_errors_share_a_base_with_usage_error_but_are_not_one(cls):
+    # except ArgumentValueError (or ValueError, or KineticsError) catches a wrong value
+    # wherever it was given; the command line's UsageError is a sibling, not a parent
+    assert issubclass(cls, ArgumentValueError)
+    assert issubclass(cls, ValueError)
+    assert issubclass(cls, KineticsError)
+    assert not issubclass(cls, UsageError)
+    assert issubclass(UsageError, ArgumentValueError)
+
+
+@pytest.mark.parametrize("cls", CORE_VALUE_ERRORS)
+def test_core_errors_pickle_and_read_problem_then_hint(cls):
+    error = cls("the times are not in increasing order", "sort the time list")
+    assert str(error) == "the times are not in increasing order; sort the time list"
+    copy = pickle.loads(pickle.dumps(error))
+    assert type(copy) is cls
+    assert vars(copy) == vars(error)
+    assert str(copy) == str(error)
+
+
+def test_unit_errors_are_value_errors_and_pickle():
+    from kinetics.errors import UnitError, UnknownUnitError
+
+    assert issubclass(UnitError, KineticsError)
+    assert issubclass(UnitError, ValueError)
+    assert issubclass(UnknownUnitError, UnitError)
+    for error in (UnitError("the exponent 99 is too large"), UnknownUnitError("unknown unit 'x'")):
+        copy = pickle.loads(pickle.dumps(error))
+        assert type(copy) is type(error)
+        assert str(copy) == str(error)

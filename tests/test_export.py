@@ -15,10 +15,12 @@ import pandas as pd
 import pytest
 
 import kinetics
-from kinetics import export
+from kinetics import files
+from kinetics.analysis.solution_summary import compute_summary, summary_in_units
 from kinetics.cli import main
+from kinetics.cli.paths import check_output_paths
 from kinetics.errors import UsageError
-from kinetics.overview import compute_summary, summary_in_units
+from kinetics.output import export
 
 SCHEME = """title: Export test
 A -> B          k1 = 0.1 1/min
@@ -145,7 +147,7 @@ def test_atomic_write_leaves_the_old_file_on_failure(tmp_path):
     target.write_text("old content\n", encoding="utf-8")
 
     def interrupted_write():
-        with export.atomic_path(target) as tmp:
+        with files.atomic_path(target) as tmp:
             tmp.write_text("half a tab", encoding="utf-8")
             raise RuntimeError("disk went away")
 
@@ -163,7 +165,7 @@ def test_xlsx_round_trip_of_awkward_doubles(tmp_path):
     export.write_xlsx(frame, tmp_path / "odd.xlsx")
     rows = list(load_workbook(tmp_path / "odd.xlsx")["concentrations"].iter_rows(values_only=True))
     assert [r[1] for r in rows[1:]] == values
-    # the number formatter of openpyxl is restored after the save
+    # exact numbers without patching openpyxl's private cell writer
     from openpyxl.cell import _writer
     from openpyxl.compat import safe_string
 
@@ -186,16 +188,16 @@ def test_json_refuses_nan(tmp_path):
 def test_check_output_paths(tmp_path):
     scheme = tmp_path / "in.scheme"
     scheme.write_text("x", encoding="utf-8")
-    ok = export.check_output_paths([tmp_path / "a.CSV", tmp_path / "b.png"], [scheme])
+    ok = check_output_paths([tmp_path / "a.CSV", tmp_path / "b.png"], [scheme])
     assert [p.name for p in ok] == ["a.CSV", "b.png"]
     with pytest.raises(UsageError, match="is an input file"):
-        export.check_output_paths([scheme], [scheme])
+        check_output_paths([scheme], [scheme])
     with pytest.raises(UsageError, match="is a folder"):
-        export.check_output_paths([tmp_path], [scheme])
+        check_output_paths([tmp_path], [scheme])
     with pytest.raises(UsageError, match=r"extension '\.doc'"):
-        export.check_output_paths([tmp_path / "a.doc"], [scheme])
+        check_output_paths([tmp_path / "a.doc"], [scheme])
     with pytest.raises(UsageError, match="given twice"):
-        export.check_output_paths([tmp_path / "a.csv", tmp_path / "./a.csv"], [scheme])
+        check_output_paths([tmp_path / "a.csv", tmp_path / "./a.csv"], [scheme])
 
 
 def test_written_files_get_ordinary_permissions(tmp_path):
@@ -204,7 +206,7 @@ def test_written_files_get_ordinary_permissions(tmp_path):
     import os
     import stat
 
-    from kinetics.export import atomic_path
+    from kinetics.files import atomic_path
 
     target = tmp_path / "table.csv"
     with atomic_path(target) as tmp:

@@ -57,7 +57,7 @@ def test_export_round_trip(tmp_path, scheme):
     """A table written by `kinetics solve --out` reads back as the same doubles."""
     sol = kinetics.solve(scheme, np.linspace(0, 3600, 7))
     path = tmp_path / "t.csv"
-    from kinetics.export import write_csv
+    from kinetics.output.export import write_csv
 
     write_csv(sol.to_frame("min"), path)
     m = read_measurements(path, scheme)
@@ -118,7 +118,8 @@ def test_mass_concentration_through_molar_mass(tmp_path, scheme):
         (
             "time [mol/L],B [mol/L]\n0,0.1\n",
             "d.csv: the time column unit 'mol/L' is a concentration (amount/volume), not a "
-            "time; use s, min, h or d",
+            "time; use s, min, h, d, week, month (1/12 year), year (365.25 d; also yr or a), "
+            "or prefixed seconds such as ms and us",
         ),
         (
             "B [mol/L],time [min]\n0,0.1\n",

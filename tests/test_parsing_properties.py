@@ -25,8 +25,10 @@ from hypothesis import strategies as st
 
 from kinetics import KineticsError, parse
 from kinetics.balance import mass_balance
+from kinetics.language.reactions import ReactionStatement
+from kinetics.language.reactions import fast_reaction as _fast_reaction
+from kinetics.language.source import Line as _Line
 from kinetics.network import summarise_network
-from kinetics.parsing import ReactionStatement, _fast_reaction, _Line
 
 SETTINGS = settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 
@@ -101,6 +103,7 @@ def schemes(draw) -> Model:
     shared: dict[int, list[str]] = {0: [], 1: []}  # constants by order, for sharing by name
     appearances: dict[str, list[str]] = {}  # reaction line -> its species, left to right
     line_steps: dict[str, list] = {}  # reaction line -> its steps, forward then reverse
+    written_steps: set[tuple] = set()  # what each step does, with its constant
     counter = 0
 
     def new_constant(order: int) -> tuple[str, str]:
@@ -153,6 +156,7 @@ def schemes(draw) -> Model:
             return str(int(c)) if c.denominator == 1 else str(float(c))
 
         order = 1 if partner else 0
+        before = (len(model.lines), dict(model.constants), {o: list(v) for o, v in shared.items()})
         k_name, k_text = constant_text(order)
         constants_text = k_text
         names_used = [k_name]
@@ -163,6 +167,14 @@ def schemes(draw) -> Model:
         text = f"{side(left)} {arrow_kind} {side(right)}{gap}{constants_text}{comment}"
         if text in appearances:
             continue  # the very same line twice: keep the generator's bookkeeping simple
+        keys = {step_key(reactant, right, partner, k_name)}
+        if reversible:
+            keys.add(step_key(product, left, None, names_used[1]))
+        if keys & written_steps:  # a step repeated with its constant is refused (issue 12)
+            del model.lines[before[0] :]  # forget the constants drawn for this line
+            model.constants, shared = before[1], before[2]
+            continue
+        written_steps.update(keys)
         model.lines.append(text)
         appearances[text] = [n for _, n in left + right]
         line_steps[text] = [(reactant, right, k_name, [partner] if partner else [])]
@@ -201,6 +213,14 @@ def schemes(draw) -> Model:
             if name not in excess_names and name not in model.species:
                 model.species.append(name)
     return model
+
+
+def step_key(reactant, terms, partner, constant) -> tuple:
+    """A step as the parser compares steps: products merged by name, and its constant."""
+    total: dict[str, Fraction] = {}
+    for c, n in terms:
+        total[n] = total.get(n, 0) + c
+    return (reactant, partner, tuple(sorted(total.items())), constant)
 
 
 def expected_rate_matrix(model: Model) -> np.ndarray:

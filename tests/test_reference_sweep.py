@@ -15,7 +15,7 @@ import scipy.integrate
 import scipy.stats
 
 import kinetics
-from kinetics.sweep import chunk_result, make_plan, monte_carlo, sweep
+from kinetics.sweep import chunk_result, make_plan, monte_carlo, set_matrices, sweep
 
 # Molar gas constant R = N_A k_B, exact in the 2019 SI from the defined Avogadro and
 # Boltzmann constants (CODATA 2018: 8.314462618... J/(mol K))
@@ -144,11 +144,7 @@ def test_curves_against_scipy_radau():
     times = np.linspace(0.0, 3600.0, 21)
     plan = make_plan(s, ["k2=0.01,0.2", "kr=0.4"], times)
     result = chunk_result(plan, 0, plan.n_sets, curves=True)
-    from kinetics.sweep import _dense_batch, _inputs
-
-    _, internal = plan.set_values(0, plan.n_sets)
-    rates, c0, _ = _inputs(plan, internal)
-    K = _dense_batch(plan, rates)
+    K, _, c0, _ = set_matrices(plan, 0, plan.n_sets)
     for i in range(plan.n_sets):
         sol = scipy.integrate.solve_ivp(
             lambda t, c, M=K[i]: M @ c,
@@ -201,3 +197,50 @@ def test_monte_carlo_temperature_is_normal():
     # each sample follows the Arrhenius equation at its own temperature (Arrhenius 1889)
     k = math.log(2) / samples["half_life A [s]"].to_numpy()
     np.testing.assert_allclose(k, 1e12 * np.exp(-83144.0 / (R * (t + 273.15))), rtol=1e-9)
+
+
+STIFF = """\
+A -> B      k1 = 7.3e5 1/min
+A -> C      k2 = 0.0013 1/h
+B <=> D     kf = 3.3e4 1/s, kr = 1.7e-3 1/s
+C -> E      k3 = 2.9e-6 1/s
+start A = 0.5 mol/L
+"""
+
+
+@pytest.mark.parametrize("precision", ["double", "auto"])
+def test_stiff_sweep_is_exact_for_the_constants_as_written(precision):
+    """Curves of a sweep against Arb balls of the matrix built exactly from the decimal
+    constants (issue 11: every route, sweeps included), and the certified bound column."""
+    from fractions import Fraction
+
+    flint = pytest.importorskip("flint")
+    # the ball reference of the certificate tests (python-flint arb_mat.exp, exact diagonal)
+    from test_reference_certificate import BITS, reference, true_error
+
+    s = kinetics.parse(STIFF)
+    times = [0.0, 1e-6, 0.5, 3600.0, 1e7]
+    k2s, krs = ["0.0013", "0.0377"], ["1.7e-3", "2.3e-5"]
+    plan = make_plan(s, [f"k2={','.join(k2s)}", f"kr={','.join(krs)}"], times, precision=precision)
+    result = chunk_result(plan, 0, plan.n_sets, curves=True)
+    idx = s.index
+    saved, flint.ctx.prec = flint.ctx.prec, BITS
+    try:
+        for i in range(plan.n_sets):
+            k2, kr = Fraction(k2s[i // 2]) / 3600, Fraction(krs[i % 2])
+            steps = {
+                ("B", "A"): Fraction("7.3e5") / 60,  # exact unit factors: 1 min = 60 s
+                ("C", "A"): k2,
+                ("D", "B"): Fraction("3.3e4"),
+                ("B", "D"): kr,
+                ("E", "C"): Fraction("2.9e-6"),
+            }
+            constants = {(idx[a], idx[b]): k for (a, b), k in steps.items()}
+            worst = 0.0
+            for k, t in enumerate(times[1:], start=1):
+                exact = reference(len(idx), constants, s.initial_vector, Fraction(t))
+                worst = max(worst, true_error(result.curves[i, k], exact))
+            assert worst <= result.bound[i]  # the certificate never undercuts the truth
+            assert worst <= (1e-9 if precision == "double" else 1e-13)
+    finally:
+        flint.ctx.prec = saved

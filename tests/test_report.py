@@ -13,7 +13,7 @@ import pytest
 
 from kinetics import __version__
 from kinetics.cli import CAUTION, main
-from kinetics.overview import DEFINITIONS
+from kinetics.output.summary_text import DEFINITIONS
 
 # A title and a species name that would break the page if not escaped.
 SCHEME = """title: <script>alert("x")</script> & "quotes" <b>bold</b>

@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 import kinetics
-from kinetics.errors import UsageError
+from kinetics.errors import SettingError, SpeciesError, TimesError, UsageError
 from kinetics.solution import check_times, time_factor, time_grid
 
 CHAIN = "A -> B  k1 = 0.3 1/s\nB -> C  k2 = 0.1 1/s\nstart A = 2 mol/L\n"
@@ -67,17 +67,18 @@ def test_summary_method_in_the_chosen_unit():
     assert summary["C"]["limit"] == pytest.approx(2.0, rel=1e-12, abs=0)
 
 
-def test_unknown_species_is_a_usage_error():
+def test_unknown_species_is_a_species_error():
     result = kinetics.solve(kinetics.parse(CHAIN), [0.0, 1.0])
-    with pytest.raises(UsageError, match="Q is not a species of this scheme; species are A, B, C"):
+    with pytest.raises(SpeciesError) as info:
         result["Q"]
-    with pytest.raises(UsageError, match="not a species"):
+    assert str(info.value) == "Q is not a species of this scheme; species are A, B, C"
+    with pytest.raises(SpeciesError, match="not a species"):
         result.plot(species=["Q"], summary=None)
 
 
 def test_plot_refuses_other_file_types(tmp_path):
     result = kinetics.solve(kinetics.parse(CHAIN), [0.0, 1.0])
-    with pytest.raises(UsageError, match=r"use a \.png or \.svg file name"):
+    with pytest.raises(SettingError, match=r"use a \.png or \.svg file name"):
         result.plot(tmp_path / "x.pdf", summary=None)
     assert list(tmp_path.iterdir()) == []
 
@@ -94,18 +95,18 @@ def test_plot_refuses_other_file_types(tmp_path):
     ],
 )
 def test_bad_times(times, message):
-    with pytest.raises(UsageError, match=message):
+    with pytest.raises(TimesError, match=message):
         check_times(times)
-    with pytest.raises(UsageError, match=message):
+    with pytest.raises(TimesError, match=message):
         kinetics.solve(kinetics.parse(CHAIN), times)
 
 
 def test_time_grid():
     grid = time_grid(90.0, 4)
     assert grid.tolist() == [0.0, 30.0, 60.0, 90.0]
-    with pytest.raises(UsageError, match="the end time must be positive"):
+    with pytest.raises(TimesError, match="the end time must be positive"):
         time_grid(0.0)
-    with pytest.raises(UsageError, match="at least 2 points"):
+    with pytest.raises(TimesError, match="at least 2 points"):
         time_grid(10.0, 1)
 
 

@@ -22,14 +22,17 @@ from kinetics.errors import UsageError
 from kinetics.ratematrix import dense_rate_matrix, step_rates
 from kinetics.sweep import (
     chunk_result,
+    curves_frame,
+    curves_long_frame,
     make_plan,
     monte_carlo,
     parse_spread,
     parse_vary,
     set_inputs,
+    set_matrices,
     sweep,
 )
-from kinetics.sweep_store import ChunkStore, run_sweep
+from kinetics.sweep.store import ChunkStore, run_sweep
 
 CONSECUTIVE = """\
 title: test chain
@@ -315,23 +318,44 @@ def test_results_do_not_depend_on_chunking(chain):
     np.testing.assert_array_equal(ra.curves, np.concatenate([p.curves for p in parts]))
 
 
-def test_curves_long_format(chain):
-    _table, curves = sweep(chain, ["k1=0.1,0.2"], [0.0, 60.0, 120.0], time_unit="min", curves=True)
-    assert list(curves.columns) == [
+def test_curves_labelled_array_and_long_format(chain):
+    # issue 11 changed this contract: curves=True gives a labelled array (it was the long
+    # table, which curves_long_frame now makes from it, with the same columns)
+    table, curves = sweep(chain, ["k1=0.1,0.2"], [0.0, 60.0, 120.0], time_unit="min", curves=True)
+    assert curves.dims == ("set", "time", "species")
+    assert curves.shape == (2, 3, 4)
+    assert curves.attrs["units"] == "mol/L"
+    assert list(curves.coords["species"].values) == ["A", "B", "C", "D"]
+    assert curves.coords["time"].attrs["units"] == "min"
+    np.testing.assert_array_equal(curves.coords["time"].values, [0.0, 1.0, 2.0])
+    np.testing.assert_array_equal(curves.coords["k1"].values, [0.1, 0.2])
+    assert curves.coords["k1"].attrs["units"] == "1/min"
+    np.testing.assert_array_equal(
+        curves.coords["error_bound"].values, table["relative error bound"].to_numpy()
+    )
+    # first-order decay A0 exp(-k1 t) (textbook closed form), k1 = 0.2 1/min
+    np.testing.assert_allclose(
+        curves.sel(set=1, species="A").values,
+        0.8 * np.exp(-0.2 * np.array([0.0, 1.0, 2.0])),
+        rtol=1e-13,
+    )
+    long = curves_long_frame(curves)
+    assert list(long.columns) == [
         "set",
         "k1 [1/min]",
         "time [min]",
         "species",
         "concentration [mol/L]",
     ]
-    assert len(curves) == 2 * 3 * 4
-    first = curves[(curves["set"] == 1) & (curves["species"] == "A")]
-    # first-order decay A0 exp(-k1 t) (textbook closed form), k1 = 0.2 1/min
-    np.testing.assert_allclose(
-        first["concentration [mol/L]"],
-        0.8 * np.exp(-0.2 * np.array([0.0, 1.0, 2.0])),
-        rtol=1e-13,
+    assert len(long) == 2 * 3 * 4
+    first = long[(long["set"] == 1) & (long["species"] == "A")]
+    np.testing.assert_array_equal(
+        first["concentration [mol/L]"], curves.sel(set=1, species="A").values
     )
+    # the same table the command writes chunk by chunk
+    plan = make_plan(chain, ["k1=0.1,0.2"], [0.0, 60.0, 120.0], time_unit="min")
+    part = chunk_result(plan, 0, 2, curves=True)
+    pd.testing.assert_frame_equal(long, curves_frame(plan, part))
 
 
 # ---------------------------------------------------------------------------------------
@@ -374,7 +398,11 @@ def test_monte_carlo_bands_per_grid_point(chain):
 def test_outputs_read_back_equal_the_api(chain, tmp_path):
     vary = ["k2=0.01:1:7:log", "start:A=0,0.8"]  # start 0: empty half-life cells
     times = np.linspace(0, 3 * 3600, 31)
-    want = sweep(chain, vary, times, time_unit="h", chunk_size=5).reset_index(drop=True)
+    # with curves both tables end in the certified bound of each set's curves (issue 11)
+    want, _ = sweep(chain, vary, times, time_unit="h", chunk_size=5, curves=True)
+    want = want.reset_index(drop=True)
+    assert list(want.columns)[-1] == "relative error bound"
+    assert (want["relative error bound"] <= 1e-9).all()  # plain double, CURVE_RTOL
     plan = make_plan(chain, vary, times, time_unit="h", chunk_size=5)
     paths = [tmp_path / "s.csv", tmp_path / "s.parquet", tmp_path / "s.json"]
     report = run_sweep(plan, paths, curves_path=tmp_path / "c.parquet")
@@ -401,7 +429,7 @@ def test_resume_computes_only_missing_chunks(chain, tmp_path):
     out = tmp_path / "r.csv"
     calls = []
 
-    import kinetics.sweep_store as store_mod
+    from kinetics.sweep import store as store_mod
 
     real = store_mod.ChunkStore.write
 
@@ -688,3 +716,100 @@ def test_batched_summaries_with_two_maxima_and_a_minimum(monkeypatch):
     assert len(intermediate_maxima(K[0], c0[0], 1)) == 2
     assert got["t_max"][0, 1] < 10.0
     assert got["t_max"][3, 1] > 50.0
+
+
+# ---------------------------------------------------------------------------------------
+# Exact inputs (issue 11): the rate matrices of the sets are those of the constants
+# ---------------------------------------------------------------------------------------
+
+
+def _same_pair(a, b):
+    np.testing.assert_array_equal(a[0], b[0])
+    np.testing.assert_array_equal(a[1], b[1])
+
+
+def test_unvaried_steps_keep_the_schemes_exact_pairs(chain):
+    plan = make_plan(chain, ["start:A=0.1,0.5,0.9"], [0.0, 600.0])
+    K, K_low, _, _ = set_matrices(plan, 0, plan.n_sets)
+    for i in range(plan.n_sets):
+        _same_pair((K[i], K_low[i]), chain.rate_matrix_pair())
+
+
+def test_the_files_own_values_reproduce_its_rate_matrix_bit_for_bit(chain):
+    # a value given as text is the decimal written (0.045 min-1 = 0.00075 1/s exactly),
+    # not the double nearest 0.045 divided by 60
+    plan = make_plan(chain, ["k2=0.045", "k1=0.12:1/min"], [0.0, 600.0])
+    K, K_low, _, _ = set_matrices(plan, 0, 1)
+    _same_pair((K[0], K_low[0]), chain.rate_matrix_pair())
+    s = kinetics.parse(REVERSIBLE)
+    plan = make_plan(s, ["temperature=45", "kf.Ea=88:kJ/mol", "kr.A=1.5e10"], [0.0, 600.0])
+    K, K_low, _, _ = set_matrices(plan, 0, 1)
+    _same_pair((K[0], K_low[0]), s.rate_matrix_pair())
+
+
+def test_varied_excess_concentrations_are_exact():
+    from fractions import Fraction
+
+    s = kinetics.parse(PSEUDO, strict_balance=False)
+    plan = make_plan(s, ["excess:W=55.5,20.25:mol/L"], [0.0, 600.0])  # the file: umol/L
+    rates = step_rates(s)  # order of the steps: hydrolysis first
+    K, K_low, _, _ = set_matrices(plan, 0, 2)
+    p = s.index["P"]
+    for i, w in enumerate([Fraction("55.5"), Fraction("20.25")]):
+        # k_hyd [W] in 1/s: 2.5e-4 M-1 d-1 / 86400 s/d * W mol/L (exact rational)
+        exact = -(Fraction("2.5e-4") / 86400 * w + Fraction("0.021") / 86400)
+        got = Fraction(K[i, p, p]) + Fraction(K_low[i, p, p])
+        assert abs(got - exact) <= abs(exact) * Fraction(1, 2**100)
+    assert rates[0] == K[0, s.index["M1"], p]
+
+
+def test_batched_summaries_take_the_exact_pair():
+    """With decimal constants (diagonals that no double holds) summarise_batch(K_low=...)
+    equals kinetics.analysis.summarise of the same pair member by member."""
+    from fractions import Fraction
+
+    from kinetics._doubledouble import pair
+    from kinetics.sweep_summary import summarise_batch
+
+    rng = np.random.default_rng(5)
+    for _ in range(6):
+        n, b = int(rng.integers(3, 7)), 3
+        K, Kl = np.zeros((b, n, n)), np.zeros((b, n, n))
+        for m in range(b):
+            diag = [Fraction(0)] * n
+            for j in range(n):
+                for i in range(n):
+                    if i != j and rng.random() < (0.5 if i > j else 0.1):
+                        k = Fraction(f"{rng.uniform(0.001, 1.0):.4f}")
+                        K[m, i, j], Kl[m, i, j] = pair(k)
+                        diag[j] -= k
+            for j in range(n):
+                K[m, j, j], Kl[m, j, j] = pair(diag[j])
+        c0 = np.zeros((b, n))
+        c0[:, 0] = 1.0
+        got = summarise_batch(K, c0, t_window=1000.0, K_low=Kl)
+        names = [f"s{i}" for i in range(n)]
+        for m in range(b):
+            ref = summarise(K[m], c0[m], names, t_window=1000.0, K_low=Kl[m])
+            for i, name in enumerate(names):
+                for q in QUANTITIES:
+                    want = getattr(ref[name], q)
+                    if want is None:
+                        assert math.isnan(got[q][m, i]), (q, name)
+                    else:
+                        assert got[q][m, i] == pytest.approx(want, rel=1e-9, abs=1e-300)
+
+
+def test_monte_carlo_bands_carry_the_worst_bound_of_their_samples(chain):
+    from kinetics.sweep import percentile_bands, summary_frame
+
+    t = np.linspace(0, 3600, 5)
+    plan = make_plan(chain, ["k2=0.02,0.09"], t, samples=20, spread=["k1=15%"], chunk_size=40)
+    result = chunk_result(plan, 0, plan.n_sets, curves=True)
+    rows = summary_frame(plan, result)
+    bands = percentile_bands(plan, rows)
+    assert list(bands.columns)[-1] == "relative error bound"
+    np.testing.assert_array_equal(
+        bands["relative error bound"], result.bound.reshape(2, 20).max(axis=1)
+    )
+    assert "relative error bound" not in percentile_bands(plan, rows.iloc[:, :-1]).columns

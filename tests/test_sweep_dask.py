@@ -33,9 +33,22 @@ start A = 0.80 mol/L
 
 @pytest.fixture(scope="module")
 def cluster():
-    with distributed.LocalCluster(
-        n_workers=2, processes=True, threads_per_worker=1, dashboard_address=None
-    ) as c:
+    import dask
+
+    # generous start-up timeouts: worker processes import the package and load the
+    # compiled kernels, which takes long on a loaded two-core machine
+    with (
+        dask.config.set(
+            {"distributed.comm.timeouts.connect": "90s", "distributed.comm.timeouts.tcp": "90s"}
+        ),
+        distributed.LocalCluster(
+            n_workers=2,
+            processes=True,
+            threads_per_worker=1,
+            dashboard_address=None,
+            timeout="90s",
+        ) as c,
+    ):
         yield c
 
 

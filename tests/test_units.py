@@ -14,13 +14,14 @@ import sys
 from fractions import Fraction
 
 import pytest
-from hypothesis import given, settings
+from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 from kinetics.units import (
     COMMON_UNITS,
     GAS_CONSTANT,
     MAX_EXPONENT,
+    MAX_UNIT_LENGTH,
     concentration_order,
     convert,
     describe_dimension,
@@ -275,7 +276,9 @@ def _pint_expressions(draw, depth=2):
 @settings(max_examples=150, deadline=None)
 @given(_pint_expressions())
 def test_random_products_of_common_units_read_as_pint_reads_them(unit):
-    # reference: pint (an independent reader of the same expression)
+    # reference: pint (an independent reader of the same expression); longer units are
+    # refused before either reader sees them (tested with the language limits)
+    assume(len(unit) <= MAX_UNIT_LENGTH)
     try:
         expected = parse_unit_by_pint(unit)
     except ValueError:
@@ -305,3 +308,171 @@ def test_common_units_do_not_load_pint():
     )
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=False)
     assert done.returncode == 0, done.stderr
+
+
+# ---------------------------------------------------------------------------------------
+# long units, mass ratios, durations and time lists (issue 12)
+
+
+def test_a_unit_longer_than_the_limit_is_refused_before_pint_reads_it():
+    from kinetics.units import MAX_UNIT_LENGTH
+
+    with pytest.raises(ValueError, match="a unit has at most 60 characters; this one has 40,004"):
+        parse_unit("1/s " + "x" * 40_000)
+    assert MAX_UNIT_LENGTH == 60
+
+
+@pytest.mark.parametrize(
+    ("unit", "ratio"),
+    [
+        ("mg/kg", True),
+        ("ug/g", True),
+        ("mg kg-1", True),
+        ("%", False),
+        ("ppm", False),
+        ("mg/L", False),
+        ("mol/kg", False),
+        ("1/s", False),
+        ("nonsense", False),
+    ],
+)
+def test_mass_ratio(unit, ratio):
+    from kinetics.units import is_mass_ratio
+
+    assert is_mass_ratio(unit) is ratio
+
+
+@pytest.mark.parametrize(
+    ("text", "seconds", "unit"),
+    [
+        # SI brochure (9th ed.): min, h, d; a year of 365.25 d and a week of 7 d are
+        # pint's definitions (common practice, no source)
+        ("90 min", 5400.0, "min"),
+        ("2h", 7200.0, "h"),
+        ("2 weeks", 1_209_600.0, "weeks"),
+        ("1 year", 31_557_600.0, "year"),
+        ("5 yr", 157_788_000.0, "yr"),
+        ("1e300 s", 1e300, "s"),
+    ],
+)
+def test_parse_duration(text, seconds, unit):
+    from kinetics.units import parse_duration
+
+    assert parse_duration(text) == (seconds, unit)
+
+
+UNITS_HINT = (
+    "use s, min, h, d, week, month (1/12 year), year (365.25 d; also yr or a), or prefixed "
+    "seconds such as ms and us"
+)
+
+
+@pytest.mark.parametrize(
+    ("text", "message"),
+    [
+        ("-300 min", "--until '-300 min' is not a positive duration; write e.g. --until '90 min'"),
+        ("0 min", "--until '0 min' is not a positive duration; write e.g. --until '90 min'"),
+        ("inf min", "--until 'inf min' is not a finite duration; write e.g. --until '90 min'"),
+        ("nan min", "--until 'nan min' is not a number; write e.g. --until '90 min'"),
+        (
+            "1e999 s",
+            "--until '1e999 s' is not a finite duration (beyond the range of double "
+            "precision, about 1.8e308); write e.g. --until '90 min'",
+        ),
+        (
+            "1e306 year",
+            "--until '1e306 year' is beyond the range of double precision in seconds (about "
+            "1.8e308 s); write e.g. --until '90 min'",
+        ),
+        ("5y", f"--until '5y': unknown time unit 'y'; {UNITS_HINT}"),
+        ("3 furlong", f"--until '3 furlong': 'furlong' is not a unit of time; {UNITS_HINT}"),
+        ("90", "--until '90' is not a duration with a unit; write e.g. --until '90 min'"),
+        (  # quotes are cut at 60 characters
+            "1 " + "s" * 100_000,
+            "--until '1 "
+            + "s" * 58
+            + "… (100,002 characters)': unknown time unit '"
+            + "s" * 60
+            + "… (100,000 characters)'; "
+            + UNITS_HINT,
+        ),
+    ],
+)
+def test_duration_messages_quote_what_was_typed(text, message):
+    from kinetics.errors import UsageError
+    from kinetics.units import parse_duration
+
+    with pytest.raises(UsageError) as info:
+        parse_duration(text)
+    assert str(info.value) == message
+
+
+@pytest.mark.parametrize(
+    ("text", "message"),
+    [
+        ("0,-5 min", "--times '0,-5 min': -5 min is negative; times start at 0 (the start values)"),
+        (
+            "0,inf min",
+            "--times '0,inf min': inf min is not a finite time; write e.g. --times '0,5,10,30 min'",
+        ),
+        (
+            "0,10,5 min",
+            "--times '0,10,5 min': the times are not in increasing order (10 min comes before "
+            "5 min); sort the time list",
+        ),
+        ("a,b min", "--times 'a,b min': 'a' is not a number; write e.g. --times '0,5,10,30 min'"),
+        (
+            "0,,5 min",
+            "--times '0,,5 min' has an empty item (a comma too many?); write e.g. --times "
+            "'0,5,10,30 min'",
+        ),
+        (
+            "0,5,10",
+            "--times '0,5,10' does not end with a unit of time; write e.g. --times "
+            "'0,5,10,30 min' (unit once, at the end)",
+        ),
+    ],
+)
+def test_time_list_messages_quote_the_times_in_their_unit(text, message):
+    from kinetics.errors import UsageError
+    from kinetics.units import parse_time_list
+
+    with pytest.raises(UsageError) as info:
+        parse_time_list(text)
+    assert str(info.value) == message
+
+
+def test_time_list_in_seconds():
+    from kinetics.units import parse_time_list
+
+    assert parse_time_list("0, 5 , 10 min") == ([0.0, 300.0, 600.0], "min")
+
+
+def test_time_factor_lists_the_units_of_time():
+    from kinetics.errors import UsageError
+    from kinetics.units import time_factor
+
+    assert time_factor("week") == 604_800.0
+    with pytest.raises(UsageError) as info:
+        time_factor("y")
+    assert str(info.value) == f"unknown time unit 'y'; {UNITS_HINT}"
+
+
+@pytest.mark.parametrize(
+    ("unit", "kind", "message"),
+    [
+        ("sek-1", "UnknownUnitError", "unknown unit 'sek-1'"),
+        ("s^-99", "UnitError", "the exponent -99 is too large"),
+        ("1e-3", "UnitError", "cannot read '1e-3' in a unit"),
+        ("12", "UnitError", "'12' is a number, not a unit"),
+        ("(min^12)^12", "UnitError", "the exponents in '(min^12)^12' are too large"),
+    ],
+)
+def test_parse_unit_raises_typed_errors(unit, kind, message):
+    # readers choose their wording by the type of the error, never by its text
+    from kinetics import errors
+
+    with pytest.raises(errors.UnitError) as info:
+        parse_unit(unit)
+    assert type(info.value).__name__ == kind
+    assert str(info.value) == message

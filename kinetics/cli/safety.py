@@ -1,0 +1,20 @@
+"""The ``kinetics safety`` command: the limits of the model, in full."""
+
+from __future__ import annotations
+
+import click
+
+__all__ = ["safety"]
+
+
+@click.command()
+def safety():
+    """Print SAFETY.md: the limits of the model and what a process-safety review must address.
+
+    \b
+    Example:
+      kinetics safety | less
+    """
+    from importlib.resources import files
+
+    click.echo(files("kinetics").joinpath("SAFETY.md").read_text(encoding="utf-8"), nl=False)

@@ -1,0 +1,233 @@
+"""The ``kinetics solve`` and ``kinetics report`` commands: solve a scheme on a time grid,
+print or write the table and the summary, or write the HTML report."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import click
+
+from kinetics.cli.common import (
+    caution,
+    echo_long,
+    first_use_note,
+    grid_options,
+    load_scheme,
+    prepare,
+    species_list,
+    write_outputs,
+)
+from kinetics.cli.paths import OUTPUT_FORMATS, check_output_paths
+from kinetics.errors import UsageError
+
+__all__ = ["report", "solve"]
+
+_OUT_HELP = "Output file, format from the extension: " + ", ".join(
+    suffix.lstrip(".") for suffix in OUTPUT_FORMATS
+)
+
+
+def _plot_solution(result, scheme):
+    """The solution on a grid fine enough to draw smooth curves (at least 201 points)."""
+    import numpy as np
+
+    from kinetics import solution as sol
+
+    if len(result.times) >= 201:
+        return result
+    fine = sol.solve(scheme, np.linspace(0.0, float(result.times[-1]), 401))
+    return fine if result.unit_factors is None else fine.in_unit(result.concentration_unit)
+
+
+def _solve_and_summarise(scheme, times, time_unit, bar, conc_unit=None):
+    from kinetics import solution as sol
+    from kinetics.analysis.solution_summary import compute_summary, summary_in_units
+
+    bar.describe("solving")
+    result = sol.solve(scheme, times)
+    unit = conc_unit or scheme.written_unit
+    if unit and unit != scheme.concentration_unit:
+        result = result.in_unit(unit)
+    bar.step("summary quantities")
+    raw = compute_summary(result)
+    summary = summary_in_units(raw, time_unit) if raw is not None else None
+    bar.step()
+    return result, summary
+
+
+@click.command()
+@click.argument("scheme_file", type=click.Path(dir_okay=True, path_type=Path))
+@grid_options
+@click.option(
+    "--out",
+    "outputs",
+    multiple=True,
+    type=click.Path(path_type=Path),
+    help=_OUT_HELP + " (several allowed).",
+)
+@click.option("--json", "as_json", is_flag=True, help="Print one JSON object on stdout.")
+def solve(
+    scheme_file,
+    until,
+    points,
+    times_text,
+    time_unit,
+    species_text,
+    no_caution,
+    conc_unit,
+    outputs,
+    as_json,
+):
+    """Solve a scheme exactly on a time grid; print or write the table and the summary.
+
+    The summary (half-lives, intermediate maxima, long-time limits...) is computed
+    on the exact solution, not read off the grid.  Without --out the summary and
+    the concentration table are printed; each --out writes one file, its format
+    chosen by the extension.
+
+    \b
+    Examples:
+      kinetics solve networks/consecutive_intermediate.scheme --until 2h
+      kinetics solve networks/consecutive_intermediate.scheme --until '90 min' --points 91 \\
+          --out table.csv --out table.xlsx --out curves.png
+      kinetics solve networks/decay_pair_branching.scheme --times '0,6,12,24,48 h' --json
+    """
+    from kinetics.cli.terminal import progress, render_solution
+    from kinetics.output.overview import solution_json
+
+    times, time_unit, settings = prepare(until, points, times_text, time_unit)
+    paths = check_output_paths(outputs, [scheme_file])
+    scheme = load_scheme(scheme_file)
+    species = species_list(species_text, scheme)
+    if species:
+        settings["species"] = species
+    _check_sheet_sizes(paths, len(times), scheme)
+    caution(no_caution)
+    first_use_note()
+    with progress(2, "solving") as bar:
+        result, summary = _solve_and_summarise(scheme, times, time_unit, bar, conc_unit)
+    needs_document = as_json or any(p.suffix.lower() in (".json", ".parquet") for p in paths)
+    document = solution_json(result, time_unit, summary, settings) if needs_document else None
+    # the result reaches stdout before any file is written: a full disk loses nothing
+    if as_json:
+        echo_long(json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False))
+    elif not paths:
+        render_solution(result, time_unit, summary=summary, species=species)
+    write_outputs(
+        paths,
+        lambda path: _write_output(path, result, scheme, time_unit, summary, document, species),
+    )
+
+
+def _check_sheet_sizes(paths, n_times: int, scheme) -> None:
+    """Refuse, before solving, a concentration table larger than a spreadsheet holds."""
+    from kinetics.output.export import check_xlsx_size
+
+    for path in paths:
+        if path.suffix.lower() == ".xlsx":
+            check_xlsx_size(n_times + 1, len(scheme.species_names) + 1, path)
+
+
+def _write_output(path, result, scheme, time_unit, summary, document, species) -> None:
+    """Write one --out file; the format follows the extension (already checked)."""
+    from kinetics.output import export
+    from kinetics.output.overview import certificate_rows, inputs_tables
+    from kinetics.output.summary_text import scheme_rows, summary_rows
+
+    suffix = path.suffix.lower()
+    frame = result.to_frame(time_unit)
+    if suffix == ".csv":
+        export.write_csv(frame, path)
+    elif suffix == ".json":
+        export.write_json(document, path)
+    elif suffix == ".parquet":
+        meta = {
+            "source": scheme.source,
+            "title": scheme.title,
+            "time_unit": time_unit,
+            "concentration_unit": result.concentration_unit,
+            "software": document["software"],
+        }
+        export.write_parquet(frame, path, meta)
+    elif suffix == ".xlsx":
+        rows = summary_rows(summary, time_unit, result.concentration_unit) if summary else []
+        export.write_xlsx(
+            frame,
+            path,
+            summary_rows=rows,
+            inputs={**inputs_tables(scheme), "error bound": certificate_rows(result, time_unit)},
+            scheme_text=scheme.text,
+            scheme_rows=scheme_rows(summary, time_unit, result.concentration_unit),
+        )
+    elif suffix in (".png", ".svg"):
+        from kinetics.output.plotting import save_plot
+
+        save_plot(path, _plot_solution(result, scheme), time_unit, summary, species=species)
+    else:  # pragma: no cover - check_output_paths refuses other extensions
+        raise UsageError(f"unknown output format {suffix!r}")
+
+
+@click.command()
+@click.argument("scheme_file", type=click.Path(dir_okay=True, path_type=Path))
+@grid_options
+@click.option(
+    "--out",
+    "output",
+    required=True,
+    type=click.Path(path_type=Path),
+    help="The report file (.html); one self-contained page, viewable offline.",
+)
+@click.option("--title", help="Title of the report (default: the title in the scheme file).")
+def report(
+    scheme_file,
+    until,
+    points,
+    times_text,
+    time_unit,
+    species_text,
+    no_caution,
+    conc_unit,
+    output,
+    title,
+):
+    """Write a self-contained HTML report: scheme, graph, inputs, summary, plot, table.
+
+    The page needs no network access: styles are inline and plots are embedded
+    images.  It records the software version, the date and the SHA-256 of the
+    scheme file, and carries the caution box of SAFETY.md.
+
+    \b
+    Example:
+      kinetics report networks/consecutive_intermediate.scheme --until 2h --out report.html
+    """
+    import hashlib
+
+    from kinetics.cli.terminal import progress
+    from kinetics.output.report import build_report, write_report
+
+    times, time_unit, settings = prepare(until, points, times_text, time_unit)
+    (path,) = check_output_paths([output], [scheme_file], {".html": "HTML report"})
+    scheme = load_scheme(scheme_file)
+    species = species_list(species_text, scheme)
+    digest = hashlib.sha256(Path(scheme_file).read_bytes()).hexdigest()
+    caution(no_caution)
+    first_use_note()
+    with progress(4, "solving") as bar:
+        result, summary = _solve_and_summarise(scheme, times, time_unit, bar, conc_unit)
+        bar.describe("drawing")
+        html = build_report(
+            scheme,
+            result,
+            summary,
+            time_unit,
+            sha256=digest,
+            settings=settings,
+            species=species,
+            title=title,
+            plot_solution=_plot_solution(result, scheme),
+        )
+        bar.step(f"writing {path.name}")
+        write_report(path, html)
+        bar.step()
+    click.echo(f"wrote {path}", err=True)

@@ -1,0 +1,459 @@
+"""The model of a fit: free parameters, the runs of measured data, residuals and Jacobian.
+
+:class:`Model` evaluates the weighted residuals of every run and their exact Jacobian in
+the fitted coordinates :math:`\\theta` (``ln k``, ``ln A``, ``ln c0``, ``Ea/(R T_ref)``),
+through the block-form Fréchet derivative of :mod:`kinetics.sensitivity` (or the
+entrywise one, ``engine="entrywise"``).  Arrhenius constants come from the one law,
+:func:`kinetics.scheme.arrhenius_pairs`.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from .. import parameters
+from ..errors import DataError, UsageError
+from ..measurements import (
+    Measurements,
+    measurements_from_frame,
+    parse_condition,
+    read_measurements,
+)
+from ..parameters import FIT_WORDS, Target
+from ..ratematrix import rate_pattern, step_rates
+from ..scheme import arrhenius_pairs
+from ..sensitivity import block_sensitivities
+from ..units import GAS_CONSTANT, time_factor
+
+if TYPE_CHECKING:
+    from ..scheme import Scheme
+
+__all__ = [
+    "RELATIVE_FLOOR",
+    "WEIGHTS",
+    "Model",
+    "Parameter",
+    "Run",
+    "as_runs",
+    "build_runs",
+    "initial_values",
+    "parse_free",
+]
+
+#: The weighting schemes of :func:`kinetics.fit.fit`.
+WEIGHTS = ("equal", "relative", "column")
+#: ``relative`` weights: the standard deviation is ``max(|y|, RELATIVE_FLOOR * max|y|)``
+#: of the column, so that readings of zero do not get an infinite weight.
+RELATIVE_FLOOR = 1e-3
+
+
+#: A free parameter of a fit: what its name refers to (see :mod:`kinetics.parameters`).
+Parameter = Target
+
+
+def parse_free(free: str | Sequence[str], scheme: Scheme) -> list[Parameter]:
+    """Resolve the names of free parameters (``--free k1,k2 --free start:A``).
+
+    Parameters
+    ----------
+    free : str or sequence of str
+        Names, each item may hold several separated by commas: ``k1`` (a rate
+        constant), ``k3.A`` / ``k3.Ea`` (Arrhenius parameters of ``k3``),
+        ``start:A`` (the start concentration of ``A``).
+    scheme : Scheme
+
+    Returns
+    -------
+    list of Parameter
+        In the order given.
+
+    Raises
+    ------
+    UsageError
+        For an unknown or repeated name, or a plain name for an Arrhenius constant.
+    """
+    items = [free] if isinstance(free, str) else list(free)
+    names: list[str] = []
+    for item in items:
+        for piece in str(item).split(","):
+            piece = piece.strip()
+            if not piece:
+                continue
+            if piece in names:
+                raise UsageError(f"the free parameter {piece!r} is listed twice", "list it once")
+            names.append(piece)
+    if not names:
+        raise UsageError("no free parameter given", "name at least one, e.g. k1 or k1,k2")
+    return [parameters.resolve(scheme, name, FIT_WORDS) for name in names]
+
+
+@dataclass
+class Run:
+    data: Measurements
+    times: np.ndarray  # unique model times [s]
+    t_index: np.ndarray  # per residual: index into times
+    s_index: np.ndarray  # per residual: species matrix index
+    column: np.ndarray  # per residual: column of data.values
+    row: np.ndarray  # per residual: row of data.values
+    y: np.ndarray
+    sigma: np.ndarray
+    temperature: float | None
+    k_base: np.ndarray  # per constant [SI] at this run's conditions
+    c0: np.ndarray
+    feed: np.ndarray | None
+    fixed: dict = field(default_factory=dict)
+
+
+class Model:
+    """Weighted residuals and their exact Jacobian in the fitted coordinates θ."""
+
+    def __init__(self, scheme, runs, params, engine="block"):
+        self.scheme = scheme
+        self.runs = runs
+        self.params = params
+        self.engine = engine
+        self.pattern = rate_pattern(scheme)
+        self.const_names = list(scheme.constants)
+        index = {c: i for i, c in enumerate(self.const_names)}
+        self.step_const = np.array([index[s.constant] for s in scheme.steps], dtype=int)
+        # excess factors of each step (the constant set to 1 in SI)
+        self.phi = step_rates(scheme, constants={c: 1.0 for c in self.const_names})
+        temps = [r.temperature for r in runs if r.temperature is not None]
+        self.t_ref = float(np.mean(temps)) if temps else 298.15
+        self.const_of = {p.target: index[p.target] for p in params if p.kind != "start"}
+        self.evaluations = 0
+        self.jacobian_evaluations = 0
+        self.n_points = int(sum(r.y.size for r in runs))
+
+    # -- coordinates ------------------------------------------------------------------
+    def theta_of(self, values_si: dict[str, float]) -> np.ndarray:
+        out = []
+        for p in self.params:
+            v = values_si[p.name]
+            out.append(v / (GAS_CONSTANT * self.t_ref) if p.kind == "energy" else math.log(v))
+        return np.array(out)
+
+    def si_values(self, theta) -> np.ndarray:
+        """Parameter values in SI (start values in the concentration unit)."""
+        theta = np.asarray(theta, dtype=float)
+        return np.array(
+            [
+                t * GAS_CONSTANT * self.t_ref if p.kind == "energy" else math.exp(t)
+                for p, t in zip(self.params, theta, strict=True)
+            ]
+        )
+
+    def dsi_dtheta(self, theta) -> np.ndarray:
+        si = self.si_values(theta)
+        return np.array(
+            [
+                GAS_CONSTANT * self.t_ref if p.kind == "energy" else v
+                for p, v in zip(self.params, si, strict=True)
+            ]
+        )
+
+    def run_state(self, run: Run, theta, derivatives: bool):
+        """Step rates, start vector, and d(rates)/dθ_j, d(c0)/dθ_j for one run."""
+        si = self.si_values(theta)
+        k = run.k_base.copy()
+        dk = np.zeros((len(self.params), k.size))
+        c0 = run.c0.copy()
+        dc0 = np.zeros((len(self.params), c0.size))
+        arrhenius: dict[int, dict] = {}
+        for j, p in enumerate(self.params):
+            if p.kind == "constant":
+                c = self.const_of[p.target]
+                k[c] = si[j]
+                dk[j, c] = si[j]  # d k / d ln k
+            elif p.kind in ("prefactor", "energy"):
+                arrhenius.setdefault(self.const_of[p.target], {})[p.kind] = j
+            else:
+                i = self.scheme.index[p.target]
+                c0[i] = si[j]
+                dc0[j, i] = si[j]  # d c0 / d ln c0
+        for c, parts in arrhenius.items():
+            law = self.scheme.constants[self.const_names[c]].arrhenius
+            hi, _ = arrhenius_pairs(  # the one Arrhenius law, exact for the values given
+                law,
+                run.temperature,
+                prefactor=si[parts["prefactor"]] if "prefactor" in parts else None,
+                energy=si[parts["energy"]] if "energy" in parts else None,
+            )
+            k[c] = float(hi)
+            if "prefactor" in parts:
+                dk[parts["prefactor"], c] = k[c]
+            if "energy" in parts:
+                dk[parts["energy"], c] = -k[c] * self.t_ref / run.temperature
+        rates = self.phi * k[self.step_const]
+        if not derivatives:
+            return rates, c0, None, None
+        drates = self.phi[None, :] * dk[:, self.step_const]
+        return rates, c0, drates, dc0
+
+    def _solve_run(self, run: Run, theta, derivatives: bool):
+        rates, c0, drates, dc0 = self.run_state(run, theta, derivatives)
+        K = self.pattern.dense(rates)
+        if self.engine == "entrywise":
+            from ..propagate import propagate
+            from ..sensitivity import sensitivities
+
+            c = propagate(K, c0, run.times, run.feed)
+            if not derivatives:
+                return c, None
+            rate_params = [j for j, p in enumerate(self.params) if p.kind != "start"]
+            S = np.zeros((len(self.params), run.times.size, K.shape[0]))
+            if rate_params:
+                E = self.pattern.dense(drates[rate_params])
+                S[rate_params] = sensitivities(K, c0, run.times, E, run.feed)
+            for j, p in enumerate(self.params):
+                if p.kind == "start":
+                    S[j] = propagate(K, dc0[j], run.times)
+            return c, S
+        if not derivatives:
+            c, _ = block_sensitivities(K, c0, run.times, None, run.feed)
+            return c, None
+        rate_params = [j for j, p in enumerate(self.params) if p.kind != "start"]
+        start_params = [j for j, p in enumerate(self.params) if p.kind == "start"]
+        E = self.pattern.dense(drates[rate_params]) if rate_params else None
+        V = dc0[start_params] if start_params else None
+        c, S_part = block_sensitivities(K, c0, run.times, E, run.feed, V)
+        S = np.empty((len(self.params), run.times.size, K.shape[0]))
+        S[rate_params + start_params] = S_part
+        return c, S
+
+    def predictions(self, theta) -> list[np.ndarray]:
+        """Model values at the measured points, one array per run [conc]."""
+        out = []
+        for run in self.runs:
+            c, _ = self._solve_run(run, theta, False)
+            out.append(c[run.t_index, run.s_index])
+        return out
+
+    def residuals(self, theta) -> np.ndarray:
+        """Weighted residuals (model − data)/σ of all runs."""
+        self.evaluations += 1
+        parts = []
+        for run in self.runs:
+            c, _ = self._solve_run(run, theta, False)
+            parts.append((c[run.t_index, run.s_index] - run.y) / run.sigma)
+        return np.concatenate(parts)
+
+    def jacobian(self, theta) -> np.ndarray:
+        """Exact Jacobian of :meth:`residuals` with respect to θ, shape (N, p)."""
+        self.jacobian_evaluations += 1
+        parts = []
+        for run in self.runs:
+            _, S = self._solve_run(run, theta, True)
+            parts.append((S[:, run.t_index, run.s_index] / run.sigma).T)
+        return np.concatenate(parts, axis=0)
+
+
+def as_runs(data, scheme) -> list[Measurements]:
+    """Normalise the ``data`` argument of :func:`fit` into a list of Measurements."""
+    import pandas as pd
+
+    items = data if isinstance(data, (list, tuple)) and not _is_pair(data) else [data]
+    out = []
+    for item in items:
+        conditions: Mapping = {}
+        if _is_pair(item):
+            item, conditions = item
+        if isinstance(item, Measurements):
+            m = item
+        elif isinstance(item, pd.DataFrame):
+            m = measurements_from_frame(item, scheme)
+        elif isinstance(item, (str, Path)):
+            m = read_measurements(item, scheme)
+        else:
+            raise UsageError(
+                f"cannot use {type(item).__name__} as measured data",
+                "give a Measurements object, a DataFrame or a CSV path",
+            )
+        if conditions:
+            m = m.with_conditions(_parse_conditions(conditions, scheme))
+        out.append(m)
+    if not out:
+        raise UsageError("no measured data given", "give at least one data table")
+    return out
+
+
+def _is_pair(obj) -> bool:
+    return (
+        isinstance(obj, tuple)
+        and len(obj) == 2
+        and isinstance(obj[1], Mapping)
+        and not isinstance(obj[0], Mapping)
+    )
+
+
+def _parse_conditions(conditions: Mapping, scheme) -> dict:
+    out = {}
+    for key, value in conditions.items():
+        if isinstance(value, str):
+            k, v = parse_condition(f"{key}={value}", scheme)
+        else:
+            k, v = parse_condition(f"{key}=1", scheme)[0], float(value)
+            if key == "temperature":
+                k = "temperature"
+        out[k] = v
+    return out
+
+
+def _sigma(m: Measurements, weights, rows, cols, y) -> np.ndarray:
+    if isinstance(weights, Mapping):
+        sd = np.empty(y.size)
+        for k, j in enumerate(cols):
+            name = m.species[j]
+            if name not in weights:
+                raise UsageError(
+                    f"no standard deviation given for {name}",
+                    "give one for every measured species",
+                )
+            sd[k] = float(weights[name])
+        if np.any(~(sd > 0)):
+            raise UsageError("standard deviations must be positive")
+        return sd
+    if weights == "equal":
+        return np.ones(y.size)
+    if weights == "relative":
+        sd = np.abs(y)
+        for j in np.unique(cols):
+            sel = cols == j
+            floor = RELATIVE_FLOOR * np.max(np.abs(y[sel]))
+            sd[sel] = np.maximum(sd[sel], floor if floor > 0 else 1.0)
+        return sd
+    if weights == "column":
+        if m.sd is None:
+            raise DataError(
+                "weights 'column' need standard deviations, but the table has no sd columns",
+                m.source,
+                "add columns such as 'B sd [mol/L]', or use the weights 'equal' or 'relative'",
+            )
+        sd = m.sd[rows, cols]
+        missing = np.isnan(sd)
+        if np.any(missing):
+            k = int(np.argmax(missing))
+            when = m.times[rows[k]] / time_factor(m.time_unit)  # in the table's own unit
+            raise DataError(
+                f"the value of {m.species[cols[k]]} at time {when:g} {m.time_unit} has no "
+                "standard deviation",
+                m.source,
+                f"fill the column '{m.species[cols[k]]} sd' wherever a value is given",
+            )
+        return sd
+    raise UsageError(
+        f"unknown weighting {weights!r}", "use equal, relative, column or a dict of SDs"
+    )
+
+
+def build_runs(scheme, datasets, params, weights) -> list[Run]:
+    free_consts = {p.target for p in params if p.kind != "start"}
+    free_starts = {p.target for p in params if p.kind == "start"}
+    names = list(scheme.constants)
+    runs = []
+    for m in datasets:
+        temperature = m.conditions.get("temperature", scheme.temperature)
+        k_base = np.empty(len(names))
+        for i, name in enumerate(names):
+            if name in m.conditions:
+                if name in free_consts:
+                    raise UsageError(
+                        f"{name} is free but {m.source} also sets it", "free it or set it, not both"
+                    )
+                k_base[i] = m.conditions[name]
+            else:
+                k_base[i] = scheme.constants[name].si_value(temperature)
+        initial = dict(scheme.initial)
+        for key, value in m.conditions.items():
+            if key.startswith("start:"):
+                if key[6:] in free_starts:
+                    raise UsageError(
+                        f"{key} is free but {m.source} also sets it", "free it or set it, not both"
+                    )
+                initial[key[6:]] = value
+        c0 = np.zeros(len(scheme.species))
+        for name, value in initial.items():
+            c0[scheme.index[name]] = value
+        times = np.unique(m.times)
+        mask = ~np.isnan(m.values)
+        rows, cols = np.nonzero(mask)
+        order = np.lexsort((rows, cols))  # column by column, then time
+        rows, cols = rows[order], cols[order]
+        y = m.values[rows, cols]
+        s_index = np.array([scheme.index[m.species[j]] for j in cols], dtype=int)
+        t_index = np.searchsorted(times, m.times[rows])
+        runs.append(
+            Run(
+                data=m,
+                times=times,
+                t_index=t_index,
+                s_index=s_index,
+                column=cols,
+                row=rows,
+                y=y,
+                sigma=_sigma(m, weights, rows, cols, y),
+                temperature=temperature,
+                k_base=k_base,
+                c0=c0,
+                feed=scheme.feed_vector if scheme.feed else None,
+            )
+        )
+    return runs
+
+
+def initial_values(scheme, params, runs) -> dict[str, float]:
+    out = {}
+    positive = np.concatenate([r.times[r.times > 0] for r in runs])
+    rate_guess = 1.0 / float(np.median(positive)) if positive.size else 1.0
+    for p in params:
+        if p.kind == "constant":
+            value = scheme.constants[p.target].si_value(scheme.temperature)
+            # a constant written as 0 cannot start a search in ln k: start at 1/(typical time)
+            if not value > 0:
+                value = rate_guess / _excess_factor(scheme, p.target)
+            out[p.name] = value
+        elif p.kind == "prefactor":
+            out[p.name] = float(scheme.constants[p.target].arrhenius.prefactor_si)
+        elif p.kind == "energy":
+            out[p.name] = scheme.constants[p.target].arrhenius.activation_energy
+        else:
+            value = scheme.initial.get(p.target, 0.0)
+            if not value > 0:
+                value = _start_guess(p.target, runs)
+            out[p.name] = value
+    return out
+
+
+def _excess_factor(scheme, constant: str) -> float:
+    """Excess-concentration factor [SI] of the first step that uses ``constant``."""
+    rates = step_rates(scheme, constants={c: 1.0 for c in scheme.constants})
+    for rate, st in zip(rates, scheme.steps, strict=True):
+        if st.constant == constant and rate > 0:
+            return float(rate)
+    return 1.0
+
+
+def _start_guess(species, runs) -> float:
+    best_t, best = math.inf, 0.0
+    largest = 0.0
+    for run in runs:
+        m = run.data
+        if species in m.species:
+            col = m.values[:, m.species.index(species)]
+            ok = ~np.isnan(col) & (col > 0)
+            if np.any(ok):
+                i = int(np.argmax(ok))
+                if m.times[i] < best_t:
+                    best_t, best = m.times[i], float(col[i])
+        vals = m.values[~np.isnan(m.values)]
+        if vals.size:
+            largest = max(largest, float(np.max(vals)))
+    if best > 0:
+        return best
+    return largest if largest > 0 else 1.0

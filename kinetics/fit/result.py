@@ -1,0 +1,315 @@
+"""The outcome of a fit: estimates, covariance, residuals and the fitted scheme."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass, field, replace
+from fractions import Fraction
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from ..measurements import Measurements
+from .model import Parameter
+
+if TYPE_CHECKING:
+    import pandas as pd
+
+    from ..scheme import Scheme
+    from ..solution import Solution
+
+__all__ = [
+    "Estimate",
+    "FitResult",
+    "engine_predictions",
+    "make_result",
+    "scheme_with_estimates",
+]
+
+
+@dataclass(frozen=True)
+class Estimate:
+    """One fitted parameter, in the unit the scheme file uses for it.
+
+    Attributes
+    ----------
+    name, unit : str
+    value : float
+    std_error : float
+        Standard error (delta method from the fitted coordinate); NaN when unknown.
+    ci95 : tuple of float
+        95 % interval from the linearised covariance, ``value ± t·std_error``
+        (t distribution with N − p degrees of freedom).
+    ci95_profile : tuple of (float or None)
+        95 % interval from the profile of the sum of squares; ``None`` for a side
+        the data do not bound.
+    t_value, p_value : float
+        One-sided t-test of H0: value = 0 (``value / std_error``).
+    initial : float
+        The start value of the search (from the scheme).
+    """
+
+    name: str
+    value: float
+    unit: str
+    std_error: float
+    ci95: tuple[float, float]
+    ci95_profile: tuple[float | None, float | None]
+    t_value: float
+    p_value: float
+    initial: float
+
+    @property
+    def relative_std_error(self) -> float:
+        """std_error / |value|."""
+        return self.std_error / abs(self.value) if self.value else math.nan
+
+
+@dataclass(frozen=True, eq=False)
+class FitResult:
+    """The outcome of :func:`fit`.
+
+    Attributes
+    ----------
+    scheme : Scheme
+        The scheme as given (start values of the search).
+    parameters : list of Parameter
+    estimates : dict of str to Estimate
+    covariance : numpy.ndarray
+        (p, p) in display units (linearised, delta method).
+    correlation : numpy.ndarray
+        (p, p).
+    residuals : list of numpy.ndarray
+        Per run, data − model [concentration_unit], shaped like the run's
+        ``values`` (NaN where no value was measured).
+    weighted_residuals : numpy.ndarray
+        (model − data)/σ of every measured value, in fitting order.
+    statistics : dict
+        Points, degrees of freedom, sum of squares, residual SD, chi-square error
+        levels, R² per species, evaluation counts, convergence.
+    warnings : list of str
+        Plain sentences.
+    alternatives : list of dict
+        Other optima that fit as well (name -> value, plus ``"sum_of_squares"``).
+    data : list of Measurements
+    weights : str
+    """
+
+    scheme: Scheme
+    parameters: list[Parameter]
+    estimates: dict[str, Estimate]
+    covariance: np.ndarray
+    correlation: np.ndarray
+    residuals: list[np.ndarray]
+    weighted_residuals: np.ndarray
+    statistics: dict
+    warnings: list[str]
+    alternatives: list[dict]
+    data: list[Measurements]
+    weights: str
+    _theta: np.ndarray = field(repr=False, default=None)
+    _si: np.ndarray = field(repr=False, default=None)
+
+    @property
+    def names(self) -> list[str]:
+        """Names of the free parameters, in order."""
+        return [p.name for p in self.parameters]
+
+    @property
+    def diagnostics(self) -> dict:
+        """Search diagnostics: convergence, scaled-Jacobian condition number, evaluation
+        counts (model evaluations and exact Jacobians), starts, alternative optima."""
+        keys = (
+            "converged",
+            "message",
+            "optimality",
+            "condition_number",
+            "model_evaluations",
+            "model_evaluations_search",
+            "jacobian_evaluations",
+            "starts",
+            "distinct_optima",
+            "engine_difference",
+        )
+        out = {k: self.statistics[k] for k in keys}
+        out["alternatives"] = list(self.alternatives)
+        return out
+
+    def value(self, name: str) -> float:
+        """The estimate of ``name`` in its display unit."""
+        return self.estimates[name].value
+
+    def fitted_scheme(self, run: int = 0) -> Scheme:
+        """The scheme with the fitted values and the conditions of data set ``run``."""
+        return scheme_with_estimates(
+            self.scheme, self.parameters, self._si, self.data[run].conditions
+        )
+
+    def predict(self, times, run: int = 0) -> Solution:
+        """Fitted curves of data set ``run`` at ``times`` [s] (entrywise engine)."""
+        from ..solution import solve
+
+        return solve(self.fitted_scheme(run), times)
+
+    def to_frame(self) -> pd.DataFrame:
+        """One row per parameter: value, unit, standard error, both intervals, t-test."""
+        import pandas as pd
+
+        rows = []
+        for e in self.estimates.values():
+            rows.append(
+                {
+                    "parameter": e.name,
+                    "value": e.value,
+                    "unit": e.unit,
+                    "std_error": e.std_error,
+                    "relative_std_error": e.relative_std_error,
+                    "ci95_low": e.ci95[0],
+                    "ci95_high": e.ci95[1],
+                    "profile_low": np.nan if e.ci95_profile[0] is None else e.ci95_profile[0],
+                    "profile_high": np.nan if e.ci95_profile[1] is None else e.ci95_profile[1],
+                    "t_value": e.t_value,
+                    "p_value": e.p_value,
+                }
+            )
+        return pd.DataFrame(rows)
+
+    def to_dict(self) -> dict:
+        """A JSON-ready dictionary (NaN and infinity become ``None``); the fit.json contract.
+
+        Keys: ``estimates`` (name -> ``value``, ``unit``, ``std_error``, ``ci95``,
+        ``ci95_profile``, ``relative_std_error``, ``t_value``, ``p_value``,
+        ``initial``), ``correlation`` (``names``, ``matrix``), ``covariance``,
+        ``statistics``, ``warnings``, ``alternatives``, ``data``, ``weights``,
+        ``concentration_unit``.
+        """
+        estimates = {}
+        for e in self.estimates.values():
+            estimates[e.name] = {
+                "value": _num(e.value),
+                "unit": e.unit,
+                "std_error": _num(e.std_error),
+                "relative_std_error": _num(e.relative_std_error),
+                "ci95": [_num(e.ci95[0]), _num(e.ci95[1])],
+                "ci95_profile": [_num(e.ci95_profile[0]), _num(e.ci95_profile[1])],
+                "t_value": _num(e.t_value),
+                "p_value": _num(e.p_value),
+                "initial": _num(e.initial),
+            }
+        return {
+            "estimates": estimates,
+            "warnings": list(self.warnings),
+            "statistics": _json_ready(self.statistics),
+            "correlation": {
+                "names": self.names,
+                "matrix": [[_num(x) for x in row] for row in self.correlation],
+            },
+            "covariance": {
+                "names": self.names,
+                "units": [p.unit for p in self.parameters],
+                "matrix": [[_num(x) for x in row] for row in self.covariance],
+            },
+            "alternatives": _json_ready(self.alternatives),
+            "weights": self.weights,
+            "concentration_unit": self.scheme.concentration_unit,
+            "data": [
+                {
+                    "source": d.source,
+                    "species": list(d.species),
+                    "points": d.points,
+                    "conditions": _json_ready(_conditions_text(d.conditions)),
+                }
+                for d in self.data
+            ],
+        }
+
+
+def _num(x):
+    if x is None:
+        return None
+    x = float(x)
+    return x if math.isfinite(x) else None
+
+
+def _json_ready(obj):
+    if isinstance(obj, Mapping):
+        return {str(k): _json_ready(v) for k, v in obj.items()}
+    if isinstance(obj, (list, tuple)):
+        return [_json_ready(v) for v in obj]
+    if isinstance(obj, (bool, np.bool_)):
+        return bool(obj)
+    if isinstance(obj, (int, np.integer)):
+        return int(obj)
+    if isinstance(obj, (float, np.floating)):
+        return _num(obj)
+    return obj
+
+
+def _conditions_text(conditions: dict) -> dict:
+    out = {}
+    for key, value in conditions.items():
+        if key == "temperature":
+            out["temperature [K]"] = value
+        elif key.startswith("start:"):
+            out[key] = value
+        else:
+            out[f"{key} [SI]"] = value
+    return out
+
+
+def scheme_with_estimates(scheme, params, si, conditions) -> Scheme:
+    plain = {p.target: float(v) for p, v in zip(params, si, strict=True) if p.kind == "constant"}
+    for key, value in conditions.items():
+        if key in scheme.constants:
+            plain[key] = value
+    initial = {p.target: float(v) for p, v in zip(params, si, strict=True) if p.kind == "start"}
+    initial.update({k[6:]: v for k, v in conditions.items() if k.startswith("start:")})
+    new = scheme.with_values(
+        constants=plain, temperature=conditions.get("temperature"), initial=initial
+    )
+    arr_parts: dict[str, dict] = {}
+    for p, v in zip(params, si, strict=True):
+        if p.kind in ("prefactor", "energy"):
+            arr_parts.setdefault(p.target, {})[p.kind] = float(v)
+    if arr_parts:
+        constants = dict(new.constants)
+        for name, parts in arr_parts.items():
+            if name in plain:
+                continue
+            old = constants[name]
+            arr = old.arrhenius
+            arr = replace(
+                arr,
+                prefactor_si=Fraction(parts["prefactor"])
+                if "prefactor" in parts
+                else arr.prefactor_si,
+                activation_energy=parts.get("energy", arr.activation_energy),
+            )
+            constants[name] = replace(old, arrhenius=arr, text=f"{old.text} (fitted)")
+        new = replace(new, constants=constants)
+    return new
+
+
+def engine_predictions(scheme, params, si, runs):
+    """Model values at the data points with the entrywise engine, and data − model tables."""
+    from ..propagate import propagate
+
+    preds, tables = [], []
+    for run in runs:
+        s = scheme_with_estimates(scheme, params, si, run.data.conditions)
+        K, K_low = s.rate_matrix_pair()  # the exact constants, diagonal unrounded
+        c0 = s.initial_vector
+        c = propagate(K, c0, run.times, s.feed_vector if s.feed else None, K_low=K_low)
+        pred = c[run.t_index, run.s_index]
+        preds.append(pred)
+        table = np.full(run.data.values.shape, np.nan)
+        table[run.row, run.column] = run.y - pred
+        tables.append(table)
+    return preds, tables
+
+
+def make_result(*, theta: np.ndarray, si: np.ndarray, **fields) -> FitResult:
+    """A :class:`FitResult` that keeps the fitted coordinates and SI values (for
+    :meth:`FitResult.fitted_scheme`); ``fields`` are its public attributes."""
+    return FitResult(**fields, _theta=theta, _si=si)

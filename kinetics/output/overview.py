@@ -1,0 +1,296 @@
+"""JSON-ready overviews of a scheme and of a solution (pure: no printing, no files).
+
+These dictionaries are a contract: the ``check --json`` and ``solve --json``
+outputs are exactly them, and users' scripts read their keys.
+
+``check_report(scheme)`` keys: ``title``, ``source``, ``species`` (names in
+matrix order), ``excess_species``, ``species_details``, ``rate_matrix`` (rows,
+1/s), ``feed`` (name -> value per second), ``initial`` (name -> value),
+``concentration_unit``, ``temperature_K``, ``constants``, ``reactions``
+(one object per step: ``equation``, ``k_per_s``, ``reaction``, ``direction``,
+``constant``, ``given``, ``line``), ``balance`` (``ok`` and per-reaction
+details), ``network`` (roles, reversible pairs, cycles, components), ``warnings``
+(sentences about probable mistakes, see :attr:`kinetics.scheme.Scheme.warnings`).
+
+Above :data:`DENSE_JSON_MAX` species the dense ``rate_matrix`` would be
+hundreds of megabytes of JSON: it is then ``null`` and the nonzero entries are
+given as ``rate_matrix_entries`` (``[row, column, value]`` triplets, 1/s).
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING
+
+from kinetics._version import __version__
+from kinetics.jsonready import finite_or_none
+from kinetics.units import time_factor
+
+if TYPE_CHECKING:
+    from kinetics.scheme import Scheme
+    from kinetics.solution import Solution
+
+__all__ = [
+    "CAUTION",
+    "CERTIFICATE_NOTE",
+    "CHECK_TABLE_ROWS",
+    "DENSE_JSON_MAX",
+    "certificate_rows",
+    "certificate_sentence",
+    "check_report",
+    "inputs_tables",
+    "solution_json",
+]
+
+#: The two-line caution printed by ``solve`` and ``report`` (short form of SAFETY.md).
+CAUTION = (
+    "Caution: a first-order, isothermal, ideally mixed model; not a hazard or safety assessment.\n"
+    "Runaway, heat release, gas evolution and scale-up need a process-safety review: "
+    "see SAFETY.md (kinetics safety)."
+)
+
+#: Largest table ``kinetics check`` prints by default [rows]: above it a table is no
+#: longer read but scrolled, and drawing tens of thousands of rows takes seconds.  A
+#: scheme with more species or steps gets an overview instead (counts, the balance
+#: verdict and every problem found); ``--full-tables`` and ``--json`` give everything.
+CHECK_TABLE_ROWS = 200
+
+#: Largest scheme whose ``check --json`` carries the dense rate matrix.
+DENSE_JSON_MAX = 2000
+
+
+def check_report(scheme: Scheme) -> dict:
+    """Everything ``kinetics check`` reports, as a JSON-ready dict."""
+    from kinetics.balance import mass_balance
+    from kinetics.network import summarise_network
+
+    balance = mass_balance(scheme)
+    network = summarise_network(scheme)
+    K = scheme.rate_matrix_sparse().tocoo()
+    if len(scheme.species) <= DENSE_JSON_MAX:
+        dense_rows = K.toarray().tolist()
+        entries = None
+    else:
+        dense_rows = None
+        entries = [
+            [int(i), int(j), float(v)] for i, j, v in zip(K.row, K.col, K.data, strict=True) if v
+        ]
+    details = []
+    for s in scheme.species + scheme.excess_species:
+        details.append(
+            {
+                "name": s.name,
+                "role": network.roles[s.name],
+                "formula": s.formula,
+                "molar_mass_g_per_mol": s.molar_mass,
+                "start": scheme.initial.get(s.name, 0.0) if not s.excess else None,
+                "excess": scheme.excess.get(s.name) if s.excess else None,
+                "feed_per_s": scheme.feed.get(s.name),
+            }
+        )
+    steps = []
+    for i, step in enumerate(scheme.steps):
+        constant = scheme.constants[step.constant]
+        reaction = scheme.reactions[step.reaction]
+        steps.append(
+            {
+                "equation": step.equation,
+                "k_per_s": float(scheme.rates[i]),
+                "reaction": reaction.equation,
+                "direction": step.direction,
+                "constant": step.constant,
+                "given": constant.text,
+                "line": reaction.line,
+            }
+        )
+    constants = {}
+    for name, c in scheme.constants.items():
+        entry = {"given": c.text, "unit": c.unit, "order": c.order + 1, "line": c.line}
+        entry["si_value"] = (
+            finite_or_none(c.si_value(scheme.temperature))
+            if (c.arrhenius is None or scheme.temperature is not None)
+            else None
+        )
+        if c.arrhenius is not None:
+            entry["arrhenius"] = {
+                "A": c.arrhenius.prefactor_text,
+                "Ea": c.arrhenius.energy_text,
+                "Ea_J_per_mol": c.arrhenius.activation_energy,
+            }
+        constants[name] = entry
+    return {
+        "title": scheme.title,
+        "source": scheme.source,
+        "software": f"kinetics {__version__}",
+        "species": scheme.species_names,
+        "excess_species": [s.name for s in scheme.excess_species],
+        "species_details": details,
+        "rate_matrix": dense_rows,
+        **({"rate_matrix_entries": entries} if entries is not None else {}),
+        "feed": dict(scheme.feed),
+        "initial": {name: scheme.initial.get(name, 0.0) for name in scheme.species_names},
+        "excess": dict(scheme.excess),
+        "concentration_unit": scheme.concentration_unit,
+        "temperature_K": scheme.temperature,
+        "constants": constants,
+        "reactions": steps,
+        "balance": balance.to_dict(),
+        "network": network.to_dict(),
+        "warnings": list(scheme.warnings),
+    }
+
+
+def solution_json(
+    solution: Solution,
+    time_unit: str,
+    summary: dict | None = None,
+    settings: dict | None = None,
+) -> dict:
+    """The ``solve --json`` object: table settings, the table and the summary.
+
+    Parameters
+    ----------
+    solution : Solution
+    time_unit : str
+        Unit of ``times`` and of every time in ``summary``.
+    summary : dict, optional
+        Species -> quantities, already in ``time_unit`` (see
+        :func:`kinetics.analysis.solution_summary.summary_in_units`);
+        written as ``null`` when not given.
+    settings : dict, optional
+        How the grid was asked for (``until``, ``points``, ``times``), as written.
+    """
+    from kinetics.analysis.solution_summary import SUMMARY_SKIPPED_NOTE
+
+    times = solution.times / time_factor(time_unit)  # the time column of Solution.to_frame
+    return {
+        "source": solution.scheme.source,
+        "title": solution.scheme.title,
+        "software": f"kinetics {__version__}",
+        "species": solution.species,
+        "time_unit": time_unit,
+        "concentration_unit": solution.concentration_unit,
+        "settings": dict(settings or {}),
+        "points": len(solution.times),
+        "summary": summary,
+        **({} if summary is not None else {"summary_note": SUMMARY_SKIPPED_NOTE}),
+        "scheme_summary": getattr(summary, "scheme", None) or None,
+        "times": times.tolist(),
+        "concentrations": {
+            name: solution.concentrations[:, i].tolist() for i, name in enumerate(solution.species)
+        },
+        **_certificate(solution),
+    }
+
+
+#: What ``error_bound`` certifies, in one sentence (JSON note, report, Excel).
+CERTIFICATE_NOTE = (
+    "error_bound[k] bounds the relative error of every concentration above 1e-290 at "
+    "times[k] against the exact solution for the constants as written: input "
+    "representation, rounding of every operation, Taylor truncation, the time grid and the "
+    "final rounding to double are all included"
+)
+
+
+def _certificate(solution: Solution) -> dict:
+    if solution.error_bound is None:
+        return {}
+    return {
+        "error_bound": [finite_or_none(float(b)) for b in solution.error_bound],
+        "error_bound_note": CERTIFICATE_NOTE,
+    }
+
+
+def certificate_sentence(solution: Solution) -> str | None:
+    """The certificate of a solution in one sentence (None when it has none).
+
+    >>> import kinetics
+    >>> s = kinetics.parse("A -> B  k1 = 0.1 1/s\\nstart A = 1 mol/L")
+    >>> print(certificate_sentence(kinetics.solve(s, [0, 1, 2])))  # doctest: +ELLIPSIS
+    Every concentration above 1e-290 is within 1.1e-16 (relative) of the exact solution ...
+    """
+    if solution.error_bound is None or solution.error_bound.size == 0:
+        return None
+    worst = float(solution.error_bound.max())
+    return (
+        f"Every concentration above 1e-290 is within {worst:.2g} (relative) of the exact "
+        "solution for the constants as written, at every time of the table (rounding of "
+        "every operation, truncation, the time grid and the final rounding included)."
+    )
+
+
+def certificate_rows(solution: Solution, time_unit: str) -> list[dict]:
+    """One row per time: the time in ``time_unit`` and its relative error bound."""
+    if solution.error_bound is None:
+        return []
+    factor = time_factor(time_unit)
+    return [
+        {f"time [{time_unit}]": float(t) / factor, "relative error bound": finite_or_none(float(b))}
+        for t, b in zip(solution.times, solution.error_bound, strict=True)
+    ]
+
+
+def inputs_tables(scheme: Scheme) -> dict[str, list[dict]]:
+    """The scheme as parsed, as rows for spreadsheets and reports.
+
+    Returns
+    -------
+    dict
+        ``species`` (name, role, formula, molar mass [g/mol], start, excess, feed),
+        ``constants`` (name, as written, unit as written, SI value, SI unit),
+        ``steps`` (equation, constant, effective k [1/s], line) and ``settings``
+        (temperature, concentration unit, title, source).
+    """
+    from kinetics.network import summarise_network
+
+    roles = summarise_network(scheme).roles
+    unit = scheme.concentration_unit
+    species = []
+    for s in scheme.species + scheme.excess_species:
+        species.append(
+            {
+                "species": s.name,
+                "role": roles.get(s.name, ""),
+                "formula": s.formula or "",
+                "molar mass [g/mol]": s.molar_mass,
+                f"start [{unit}]": None if s.excess else scheme.initial.get(s.name, 0.0),
+                f"held in excess [{unit}]": scheme.excess.get(s.name) if s.excess else None,
+                f"feed [{unit}/s]": scheme.feed.get(s.name),
+            }
+        )
+    constants = []
+    for name, c in scheme.constants.items():
+        si = None
+        if c.arrhenius is None or scheme.temperature is not None:
+            si = finite_or_none(c.si_value(scheme.temperature))
+        si_unit = {0: "1/s", 1: "m3/(mol s)"}.get(c.order, f"m{3 * c.order}/(mol{c.order} s)")
+        constants.append(
+            {
+                "constant": name,
+                "as written": c.text,
+                "unit as written": c.unit,
+                "SI value": si,
+                "SI unit": si_unit,
+                "Ea [J/mol]": c.arrhenius.activation_energy if c.arrhenius else None,
+                "line": c.line,
+            }
+        )
+    steps = []
+    for i, step in enumerate(scheme.steps):
+        steps.append(
+            {
+                "step": step.equation,
+                "constant": step.constant,
+                "effective k [1/s]": float(scheme.rates[i]),
+                "line": scheme.reactions[step.reaction].line,
+            }
+        )
+    settings = [
+        {"setting": "title", "value": scheme.title},
+        {"setting": "source", "value": scheme.source},
+        {"setting": "concentration unit", "value": unit},
+        {
+            "setting": "temperature [K]",
+            "value": scheme.temperature if scheme.temperature is not None else "",
+        },
+    ]
+    return {"species": species, "constants": constants, "steps": steps, "settings": settings}

@@ -1,0 +1,524 @@
+r"""The one grammar of parameter names, shared by sweeps and fits.
+
+A *parameter* is one input of a scheme that a sweep varies or a fit frees:
+
+``k2``
+    A rate constant defined by value (not an Arrhenius constant).
+``k3.A``, ``k3.Ea``
+    Pre-exponential factor and activation energy of an Arrhenius constant ``k3``,
+
+    .. math:: k(T) = A \exp\left(-\frac{E_a}{R T}\right)
+
+    evaluated only by :func:`kinetics.scheme.arrhenius_pairs` (R exact, CODATA 2018).
+``temperature`` (also ``T``)
+    The temperature of the scheme (changes every Arrhenius constant).
+``start:A``, ``excess:W``
+    The start concentration of a species, the concentration of a co-reactant held in
+    excess (``start A`` with a space is read the same way).
+
+:func:`resolve` maps a name to its :class:`Target` (what it changes and the unit the file
+uses for it); :func:`check_unit` and :func:`to_internal` read values in a unit and convert
+them to the *internal units* of the core:
+
+============  ===============================================  ==========================
+kind          internal unit                                    low part kept
+============  ===============================================  ==========================
+constant      SI base units (1/s for first order)              exact conversion
+prefactor     SI base units of A                               exact conversion
+energy        J/mol                                            none: Ea is the double
+temperature   K                                                none: T is the double
+start         the scheme's concentration unit                  exact conversion
+excess        the scheme's concentration unit                  exact conversion
+============  ===============================================  ==========================
+
+Values are converted with exact rational unit factors and kept as double-double pairs
+``(hi, lo)``: ``hi`` the nearest double, ``lo`` the rest, so a rate constant of a sweep is
+the exact value of what was written (a value given as text, ``k2=0.045``, is read as the
+decimal it is, exactly as the scheme file reads it).  Activation energies and temperatures
+follow the scheme's own convention (:meth:`kinetics.scheme.Arrhenius.exact` takes them
+as the doubles nearest to what was written), so a sweep at the file's own values
+reproduces the file's rate constants bit for bit.
+
+Messages name the parameter the way the caller presents it: a sweep names the place of
+the name (``--vary 'k2=...'``, ``grid['k2']``, see :class:`SweepWords`), a fit the free
+parameter (:data:`FIT_WORDS`); both wordings live here, beside the grammar.
+"""
+
+from __future__ import annotations
+
+import difflib
+import re
+from dataclasses import dataclass
+from decimal import Decimal
+from fractions import Fraction
+from typing import TYPE_CHECKING
+
+import numpy as np
+
+from . import _doubledouble as dd
+from .errors import UsageError
+from .units import parse_unit, temperature_to_kelvin
+
+if TYPE_CHECKING:
+    from .scheme import Arrhenius, Scheme
+
+__all__ = [
+    "ALL_KINDS",
+    "FIT_KINDS",
+    "FIT_WORDS",
+    "NUMBER",
+    "SweepWords",
+    "Target",
+    "check_unit",
+    "check_values",
+    "closest",
+    "energy_unit",
+    "file_temperature_unit",
+    "from_internal",
+    "resolve",
+    "to_internal",
+]
+
+#: Every kind of parameter, in the order of the table in the module docstring.
+ALL_KINDS = ("constant", "prefactor", "energy", "temperature", "start", "excess")
+#: The kinds a fit can free.
+FIT_KINDS = ("constant", "prefactor", "energy", "start")
+#: A decimal number as users write it (the values of ``--vary``, the number before a unit).
+NUMBER = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
+_NAME_START = re.compile(r"^(start|excess)\s*[:\s]\s*(?P<species>\S+)$")
+_ENERGY_DIMS = {"[mass]": 1, "[length]": 2, "[time]": -2, "[substance]": -1}
+
+
+@dataclass(frozen=True)
+class Target:
+    """What a parameter name refers to, with the unit the file uses for it.
+
+    Attributes
+    ----------
+    name : str
+        Canonical name: ``k2``, ``k3.A``, ``k3.Ea``, ``temperature``, ``start:A``,
+        ``excess:W``.
+    kind : str
+        One of :data:`ALL_KINDS`.
+    target : str
+        The constant or species it changes (empty for the temperature).
+    unit : str
+        The unit the file uses for it (the display unit of results).
+    label : str
+        Stem of a table column (``start A``; the column is ``start A [mol/L]``).
+    nominal : float
+        The file's value in internal units (``nan`` when the file has none).
+    """
+
+    name: str
+    kind: str
+    target: str
+    unit: str
+    label: str = ""
+    nominal: float = float("nan")
+
+    @property
+    def log(self) -> bool:
+        """True when a fit searches the logarithm of the value (all kinds but ``energy``)."""
+        return self.kind != "energy"
+
+    @property
+    def si_per_unit(self) -> float:
+        """Internal value of one :attr:`unit` (1 for start and excess values, which the
+        core keeps in the scheme's concentration unit; not defined for temperatures)."""
+        if self.kind in ("start", "excess"):
+            return 1.0
+        if self.kind == "temperature":
+            raise ValueError("a temperature unit has an offset, not a factor")
+        return float(parse_unit(self.unit).factor)
+
+
+# ---------------------------------------------------------------------------------------
+# Wording of the mistakes
+# ---------------------------------------------------------------------------------------
+
+
+def closest(name: str, candidates, fold_case: bool = False) -> str | None:
+    """The candidate closest to a mistyped ``name`` (same letters in another case first)."""
+    candidates = list(candidates)
+    if fold_case:
+        same = [c for c in candidates if c.lower() == name.lower()]
+        if same:
+            return same[0]
+    close = difflib.get_close_matches(name, candidates, n=1)
+    return close[0] if close else None
+
+
+class SweepWords:
+    """Messages of :func:`resolve` for a sweep: each starts with the place of the name.
+
+    Parameters
+    ----------
+    where : str
+        ``--vary 'k2=0.1:1:3'``, ``grid['k2']``, ``--spread 'k1=15%'``.
+    """
+
+    allowed = ALL_KINDS
+
+    def __init__(self, where: str) -> None:
+        self.where = where
+
+    @staticmethod
+    def _did_you_mean(name: str, known) -> str:
+        close = closest(name, known)
+        return f"did you mean {close!r}? " if close else ""
+
+    def unknown(self, scheme: Scheme, name: str) -> UsageError:
+        constants = scheme.constants
+        known = [*constants, "temperature", "start:<species>", "excess:<species>"]
+        return UsageError(
+            f"{self.where}: {name!r} is not a rate constant or parameter of the scheme",
+            self._did_you_mean(name, constants) + "parameters are " + ", ".join(known),
+        )
+
+    def whole_arrhenius(self, name: str) -> UsageError:
+        return UsageError(
+            f"{self.where}: {name} follows the Arrhenius law",
+            f"vary {name}.A, {name}.Ea or temperature instead",
+        )
+
+    def no_constant(self, scheme: Scheme, name: str, base: str) -> UsageError:
+        constants = scheme.constants
+        return UsageError(
+            f"{self.where}: the scheme has no rate constant {base!r}",
+            self._did_you_mean(base, constants) + "the constants are " + ", ".join(constants),
+        )
+
+    def not_a_part(self, scheme: Scheme, name: str, base: str, part: str) -> UsageError:
+        return self.unknown(scheme, name)
+
+    def no_part(self, name: str, base: str, part: str) -> UsageError:
+        return UsageError(
+            f"{self.where}: {base} is given as a number, not by the Arrhenius law, so it has "
+            f"no {part}",
+            f"vary {base} itself, e.g. {base}=0.1:1:10:log",
+        )
+
+    def not_a_species(self, scheme: Scheme, name: str, kind: str, species: str) -> UsageError:
+        known = scheme.species_names if kind == "start" else [s.name for s in scheme.excess_species]
+        if kind == "start" and species in scheme.excess:
+            hint = f"{species} is held in excess: vary excess:{species}"
+        elif kind == "excess" and not known:
+            hint = "the scheme declares no species in excess"
+        else:
+            hint = self._did_you_mean(species, known) + "the species are " + ", ".join(known)
+        what = "a species of the scheme" if kind == "start" else "a species held in excess"
+        return UsageError(f"{self.where}: {species!r} is not {what}", hint)
+
+    def temperature_unused(self) -> UsageError:
+        return UsageError(
+            f"{self.where}: the scheme has no Arrhenius constant, so the temperature changes "
+            "nothing",
+            "define a constant as k = arrhenius(A = ..., Ea = ...) to sweep temperatures",
+        )
+
+
+class _FitWords:
+    """Messages of :func:`resolve` for a fit: each names the free parameter."""
+
+    allowed = FIT_KINDS
+
+    @staticmethod
+    def _listing(name: str, candidates, listing: str) -> str:
+        candidates = list(candidates)
+        close = closest(name, candidates, fold_case=True)
+        text = f"{listing} " + ", ".join(candidates)
+        return f"did you mean {close!r}? ({text})" if close else text
+
+    def unknown(self, scheme: Scheme, name: str) -> UsageError:
+        return UsageError(
+            f"free parameter {name!r} is not a rate constant of the scheme",
+            self._listing(name, scheme.constants, "the constants are")
+            + "; start values are written start:SPECIES",
+        )
+
+    def whole_arrhenius(self, name: str) -> UsageError:
+        return UsageError(
+            f"free parameter {name!r} follows the Arrhenius law",
+            f"free its parameters instead: {name}.A and {name}.Ea",
+        )
+
+    def no_constant(self, scheme: Scheme, name: str, base: str) -> UsageError:
+        return UsageError(
+            f"free parameter {name!r}: there is no rate constant {base!r}",
+            self._listing(base, scheme.constants, "the constants are"),
+        )
+
+    def not_a_part(self, scheme: Scheme, name: str, base: str, part: str) -> UsageError:
+        return UsageError(
+            f"free parameter {name!r}: {part!r} is not an Arrhenius parameter",
+            f"write {base}.A or {base}.Ea",
+        )
+
+    def no_part(self, name: str, base: str, part: str) -> UsageError:
+        return UsageError(
+            f"free parameter {name!r}: {base} is not an Arrhenius constant",
+            f"free {base} itself, or define it as {base} = arrhenius(A = ..., Ea = ...)",
+        )
+
+    def not_a_species(self, scheme: Scheme, name: str, kind: str, species: str) -> UsageError:
+        return UsageError(
+            f"free parameter {name!r}: {species!r} is not a species of the scheme",
+            self._listing(species, scheme.species_names, "the species are"),
+        )
+
+    def temperature_unused(self) -> UsageError:  # pragma: no cover - fits free no temperature
+        raise AssertionError("a fit does not free the temperature")
+
+
+#: Messages of :func:`resolve` for the free parameters of a fit.
+FIT_WORDS = _FitWords()
+
+
+# ---------------------------------------------------------------------------------------
+# Names
+# ---------------------------------------------------------------------------------------
+
+
+def energy_unit(arrhenius: Arrhenius) -> str:
+    """The unit the file wrote ``Ea`` in (``J/mol`` when it wrote none).
+
+    >>> from fractions import Fraction
+    >>> from kinetics.scheme import Arrhenius
+    >>> energy_unit(Arrhenius(Fraction(1), 8.0e4, "1e10 1/s", "80 kJ/mol"))
+    'kJ/mol'
+    """
+    m = re.match(rf"^\s*{NUMBER}\s*(?P<unit>.*?)\s*$", arrhenius.energy_text or "")
+    return m["unit"] if m and m["unit"] else "J/mol"
+
+
+def file_temperature_unit(scheme: Scheme) -> str:
+    """The unit written on the ``temperature`` line of the scheme (``K`` if none)."""
+    for raw in scheme.text.splitlines():
+        code = raw.split("#", 1)[0]
+        m = re.match(rf"^\s*temperature\s*=\s*({NUMBER})\s*(?P<unit>.*?)\s*$", code)
+        if m:
+            return m["unit"] or "K"
+    return "K"
+
+
+def resolve(scheme: Scheme, name: str, words) -> Target:
+    """Map a parameter name to what it changes in the scheme.
+
+    Parameters
+    ----------
+    scheme : Scheme
+    name : str
+        ``k2``, ``k3.A``, ``k3.Ea``, ``temperature``, ``start:A``, ``excess:W`` (surrounding
+        blanks are ignored).
+    words : SweepWords or FIT_WORDS
+        Who asks: the kinds it allows (``words.allowed``) and the wording of its messages.
+
+    Returns
+    -------
+    Target
+
+    Raises
+    ------
+    UsageError
+        For a name that refers to nothing the caller may change, worded by ``words``.
+
+    Examples
+    --------
+    >>> import kinetics
+    >>> s = kinetics.parse("A -> B  k1 = 0.12 1/min\\nstart A = 1 mol/L")
+    >>> t = resolve(s, "k1", FIT_WORDS)
+    >>> (t.kind, t.unit, round(t.nominal, 6))
+    ('constant', '1/min', 0.002)
+    """
+    name = name.strip()
+    constants = scheme.constants
+    allowed = words.allowed
+    if "temperature" in allowed and name in ("temperature", "T"):
+        if not any(c.arrhenius is not None for c in constants.values()):
+            raise words.temperature_unused()
+        unit = file_temperature_unit(scheme)
+        return Target("temperature", "temperature", "", unit, "temperature", scheme.temperature)
+    m = _NAME_START.match(name)
+    if m and m[1] in allowed:
+        return _species_target(scheme, name, m[1], m["species"], words)
+    base, dot, part = name.partition(".")
+    if dot:
+        return _arrhenius_target(scheme, name, base, part, words)
+    if name in constants:
+        d = constants[name]
+        if d.arrhenius is not None:
+            raise words.whole_arrhenius(name)
+        return Target(name, "constant", name, d.unit, name, float(d.value_si))
+    raise words.unknown(scheme, name)
+
+
+def _species_target(scheme: Scheme, name: str, kind: str, species: str, words) -> Target:
+    if kind == "start":
+        known = scheme.species_names
+        table = scheme.initial
+    else:
+        known = [s.name for s in scheme.excess_species]
+        table = scheme.excess
+    if species not in known:
+        raise words.not_a_species(scheme, name, kind, species)
+    return Target(
+        f"{kind}:{species}",
+        kind,
+        species,
+        scheme.concentration_unit,
+        f"{kind} {species}",
+        float(table.get(species, 0.0)),
+    )
+
+
+def _arrhenius_target(scheme: Scheme, name: str, base: str, part: str, words) -> Target:
+    constants = scheme.constants
+    if base not in constants:
+        if isinstance(words, SweepWords) and not _is_part_name(base, part):
+            raise words.unknown(scheme, name)
+        raise words.no_constant(scheme, name, base)
+    if part not in ("A", "Ea"):
+        raise words.not_a_part(scheme, name, base, part)
+    d = constants[base]
+    if d.arrhenius is None:
+        raise words.no_part(name, base, part)
+    if part == "A":
+        return Target(name, "prefactor", base, d.unit, name, float(d.arrhenius.prefactor_si))
+    unit = energy_unit(d.arrhenius)
+    return Target(name, "energy", base, unit, name, float(d.arrhenius.activation_energy))
+
+
+def _is_part_name(base: str, part: str) -> bool:
+    """``k3.A`` or ``k3.Ea`` with an identifier before the dot (how a sweep reads names)."""
+    return part in ("A", "Ea") and re.match(r"^[^\W\d_][\w']*$", base) is not None
+
+
+# ---------------------------------------------------------------------------------------
+# Units and values
+# ---------------------------------------------------------------------------------------
+
+
+def check_unit(target: Target, unit: str, where: str, hint: str) -> None:
+    """Refuse a ``unit`` without the dimension of the file's unit for ``target``.
+
+    Raises
+    ------
+    UsageError
+        ``{where}: 'm' is not a unit``, ``... is not a temperature unit``, ``... is not a
+        molar energy`` or ``... does not have the dimension of '1/min', the unit of k1 in
+        the file``.
+    """
+    try:
+        spec = parse_unit(unit)
+    except ValueError:
+        raise UsageError(f"{where}: {unit!r} is not a unit", hint) from None
+    if target.kind == "temperature":
+        if spec.dims != {"[temperature]": 1}:
+            raise UsageError(f"{where}: {unit!r} is not a temperature unit", "use K or degC")
+        return
+    if target.kind == "energy":
+        if spec.dims != _ENERGY_DIMS:
+            raise UsageError(
+                f"{where}: {unit!r} is not a molar energy", "write Ea in kJ/mol or J/mol"
+            )
+        return
+    ref = parse_unit(target.unit)
+    if spec.dimensions != ref.dimensions:
+        raise UsageError(
+            f"{where}: {unit!r} does not have the dimension of {target.unit!r}, the unit of "
+            f"{target.name} in the file",
+            f"write the values in {target.unit} or leave out the unit",
+        )
+
+
+def to_internal(target: Target, values, unit: str, texts=None) -> tuple[np.ndarray, np.ndarray]:
+    r"""Values in ``unit`` -> internal units, as double-double pairs ``(hi, lo)``.
+
+    Parameters
+    ----------
+    target : Target
+    values : array_like
+        The values in ``unit``.
+    unit : str
+        A unit of the dimension of ``target.unit`` (see :func:`check_unit`).
+    texts : sequence of str, optional
+        The values as written (decimal text): converted exactly from the text, so
+        ``0.045`` is 45/1000, not the double nearest to it.
+
+    Returns
+    -------
+    (numpy.ndarray, numpy.ndarray)
+        ``hi`` (each value rounded once) and ``lo`` (the exact rest; zero for temperatures
+        and activation energies, which are defined as doubles, see the module docstring).
+
+    .. math:: x_\mathrm{internal} = x \cdot f_\mathrm{unit}, \qquad
+              T/\mathrm{K} = (t + t_0)\, s \ \text{(offset temperature scales)}
+
+    Examples
+    --------
+    0.045 1/min is exactly 0.00075 1/s (1 min = 60 s, SI brochure, 9th ed., table 8):
+
+    >>> from fractions import Fraction
+    >>> hi, lo = to_internal(Target("k", "constant", "k", "1/s"), [0.045], "1/min", ["0.045"])
+    >>> Fraction(hi[0]) + Fraction(lo[0]) - Fraction(3, 4000) < Fraction(1, 10**35)
+    True
+    """
+    values = np.asarray(values, dtype=float).reshape(-1)
+    lo = np.zeros(values.size)
+    if target.kind == "temperature":
+        exact = _exact_numbers(values, texts)
+        return np.array([temperature_to_kelvin(x, unit) for x in exact]), lo
+    if target.kind == "energy":
+        factor = parse_unit(unit).factor
+        return np.array([float(x * factor) for x in _exact_numbers(values, texts)]), lo
+    if target.kind in ("start", "excess"):
+        factor = parse_unit(unit).factor / parse_unit(target.unit).factor
+    else:
+        factor = parse_unit(unit).factor
+    hi = np.empty(values.size)
+    for i, x in enumerate(_exact_numbers(values, texts)):
+        hi[i], lo[i] = dd.pair(x * factor)
+    return hi, lo
+
+
+def _exact_numbers(values: np.ndarray, texts) -> list[Fraction]:
+    """The values as exact rationals: of their decimal text where given, else of the double."""
+    if texts is None:
+        return [Fraction(float(v)) for v in values]
+    out = []
+    for text, v in zip(texts, values, strict=True):
+        d = Decimal(text.strip())
+        # beyond 1e+-400 the double is 0 or out of range anyway: no huge exact integers
+        out.append(Fraction(d) if -400 <= d.adjusted() <= 400 else Fraction(float(v)))
+    return out
+
+
+def from_internal(target: Target, x: np.ndarray, unit: str) -> np.ndarray:
+    """Internal values -> ``unit`` (the inverse of :func:`to_internal`, rounded)."""
+    if target.kind in ("start", "excess"):
+        return (
+            x
+            if unit == target.unit
+            else x / float(parse_unit(unit).factor / parse_unit(target.unit).factor)
+        )
+    if target.kind == "temperature":
+        if unit in ("K", "kelvin"):
+            return x
+        offset = temperature_to_kelvin(0.0, unit)
+        scale = temperature_to_kelvin(1.0, unit) - offset
+        return (x - offset) / scale
+    return x / float(parse_unit(unit).factor)
+
+
+def check_values(target: Target, internal: np.ndarray, where: str, hint: str) -> None:
+    """Refuse values a scheme cannot take: not finite, negative, at or below 0 K."""
+    if not np.all(np.isfinite(internal)):
+        raise UsageError(f"{where}: a value is not a finite number", hint)
+    if target.kind == "temperature" and np.any(internal <= 0):
+        raise UsageError(f"{where}: a temperature is at or below absolute zero", "check the unit")
+    if target.kind in ("constant", "prefactor", "start", "excess") and np.any(internal < 0):
+        what = {"start": "a start concentration", "excess": "an excess concentration"}.get(
+            target.kind, "a rate constant"
+        )
+        raise UsageError(f"{where}: {what} is negative", "give values >= 0")
