@@ -1047,8 +1047,7 @@ class StretchPropagator:
         n, N = self.species, Fh.shape[-1]
         v = np.ones((1, N, 1))
         v[0, :n, 0] = start
-        oh, ol = np.empty((1, N, 1)), np.empty((1, N, 1))
-        _kernels.apply(Fh, Fl, v, np.zeros((1, N, 1)), is_dd, oh, ol)
+        oh, ol = _mv(Fh, Fl, v, np.zeros((1, N, 1)), is_dd)
         if not np.isfinite(oh).all():  # growth: let the checked route say so
             r = self.advance(start[None], [length], [length_low])
             return r.concentrations[0], float(r.error_bound[0])

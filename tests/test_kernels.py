@@ -134,6 +134,9 @@ def test_on_disk_is_silent_when_the_cache_layout_is_unknown():
 # --------------------------------------------------------------------------
 
 REFERENCES = Path(__file__).resolve().parent / "data" / "kernel_references.npz"
+#: the arguments of _sweep_kernels.summarise_members, in order
+SWEEP_ARGUMENTS = ("K", "q_low", "f", "has_feed", "c0", "scale", "t_hi", "mx", "hl", "n_seg",
+                   "tmax", "cmax", "half", "status")  # fmt: skip
 
 
 def _cases(data, prefix):
@@ -193,7 +196,7 @@ def engine_outputs(data) -> dict[str, np.ndarray]:
             float(data[key + "dt"]), residual,
         )  # fmt: skip
         A = data[f"in/exp/{name}/A"]
-        _kernels.residual_bounds(A, X, residual, N - 1, 1e-15, tiny, bound)
+        _kernels.residual_corrections(A, X, residual, N - 1, 1e-15, tiny, bound)
         out[f"out/grid/{name}/X"] = X
         out[f"out/grid/{name}/bound"] = bound
         out[f"out/grid/{name}/residual"] = residual
@@ -201,12 +204,10 @@ def engine_outputs(data) -> dict[str, np.ndarray]:
         t = data[f"in/uniform/{name}"]
         out[f"out/uniform/{name}"] = np.array(_kernels.uniform_step(t, 4 * 2.0**-53 * t[-1]))
     for i in _cases(data, "in/sweep/"):
-        args = [data[f"in/sweep/{i}/{name}"].copy() for name in
-                ("K", "f", "has_feed", "c0", "scale", "t_hi", "mx", "hl", "n_seg", "tmax",
-                 "cmax", "half", "status")]  # fmt: skip
-        args[2], args[8] = bool(args[2]), int(args[8])
+        args = [data[f"in/sweep/{i}/{name}"].copy() for name in SWEEP_ARGUMENTS]
+        args[3], args[9] = bool(args[3]), int(args[9])
         _sweep_kernels.summarise_members(*args)
-        for label, x in zip(("tmax", "cmax", "half", "status"), args[9:], strict=True):
+        for label, x in zip(("tmax", "cmax", "half", "status"), args[10:], strict=True):
             out[f"out/sweep/{i}/{label}"] = x
     return out
 

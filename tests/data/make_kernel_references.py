@@ -20,7 +20,7 @@ import numpy as np
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE.parent))
 
-from test_kernels import REFERENCES, engine_outputs  # noqa: E402
+from test_kernels import REFERENCES, SWEEP_ARGUMENTS, engine_outputs  # noqa: E402
 
 from kinetics import _sweep_kernels, sweep_summary  # noqa: E402
 from kinetics._doubledouble import inverse_factorials  # noqa: E402
@@ -129,14 +129,16 @@ def inputs() -> dict[str, np.ndarray]:
             np.fill_diagonal(Kb[q], -Kb[q].sum(axis=0))
         c0 = np.zeros((b, 8))
         c0[:, 0] = 1.0
-        sweep_summary.summarise_batch(Kb, c0)
+        # low parts of the diagonal, as an exact sum of constants leaves them
+        Kl = np.zeros_like(Kb)
+        for q in range(b):
+            np.fill_diagonal(Kl[q], np.diag(Kb[q]) * rng.uniform(-1, 1, 8) * 2.0**-54)
+        sweep_summary.summarise_batch(Kb, c0, K_low=Kl)
     finally:
         _sweep_kernels.summarise_members = kernel
-    names = ("K", "f", "has_feed", "c0", "scale", "t_hi", "mx", "hl", "n_seg", "tmax", "cmax",
-             "half", "status")  # fmt: skip
     for i, args in enumerate(recorded):
         args[-1][:] = 0  # the status array is allocated empty (every entry is written)
-        for name, a in zip(names, args, strict=True):
+        for name, a in zip(SWEEP_ARGUMENTS, args, strict=True):
             data[f"in/sweep/{i}/{name}"] = a
     return data
 
