@@ -664,5 +664,6 @@ def residual_corrections(A, X, delta, species, gamma, tiny, bound):
                     worst = e
             if largest <= 1e-3:
                 for i in range(N):
-                    X[q, k, i] = max(X[q, k, i] + d * y[i], 0.0)
+                    x = X[q, k, i] + d * y[i]
+                    X[q, k, i] = 0.0 if 0.0 > x else x  # max(x, 0.0)
             bound[q, k] = bound[q, k] + worst + bound[q, k] * worst

@@ -542,10 +542,11 @@ def _mv(Fh, Fl, vh, vl, is_dd):
 
     oh = np.empty(vh.shape)
     ol = np.empty(vh.shape)
-    if vh.shape[0] == 1:
-        # one member: the product kernel itself (already compiled with the exponentials;
-        # the loop over a stack is compiled only when a batch needs it)
-        _kernels.product(Fh[0], Fl[0], vh[0], vl[0], oh[0], ol[0], np.bool_(is_dd[0]))
+    if vh.shape[0] <= 4:
+        # a few members: the product kernel itself, member by member (it is compiled with
+        # the exponentials; the loop over a stack is compiled only when a batch needs it)
+        for q in range(vh.shape[0]):
+            _kernels.product(Fh[q], Fl[q], vh[q], vl[q], oh[q], ol[q], np.bool_(is_dd[q]))
     else:
         _kernels.apply(Fh, Fl, vh, vl, np.asarray(is_dd, dtype=bool), oh, ol)
     return oh, ol
