@@ -140,6 +140,15 @@ class Arrhenius:
         The prefactor is the exact SI value of what the file wrote, ``Ea`` and the
         temperature are taken as the doubles given, and R is the exact CODATA 2018 value
         (:data:`kinetics.units.GAS_CONSTANT_EXACT`).
+
+        Examples
+        --------
+        A = 1e13 1/s and Ea = 100 kJ/mol at 298.15 K, against the closed form in floats:
+
+        >>> import math
+        >>> k = Arrhenius(Fraction(10**13), 1e5).exact(298.15)
+        >>> math.isclose(k, 1e13 * math.exp(-1e5 / (8.31446261815324 * 298.15)), rel_tol=1e-14)
+        True
         """
         from . import _doubledouble as dd
 
@@ -213,7 +222,8 @@ def arrhenius_pairs(
     Examples
     --------
     The ratio of k at 35 and 25 degC for Ea = 83.144 kJ/mol is
-    :math:`\exp(E_a/R\,(1/T_1 - 1/T_2)) \approx 2.97` (Arrhenius equation):
+    :math:`\exp(E_a/R\,(1/T_1 - 1/T_2)) \approx 2.97` (closed form of the Arrhenius
+    equation):
 
     >>> law = Arrhenius(Fraction(10**12), 83144.0)
     >>> hi, lo = arrhenius_pairs(law, [298.15, 308.15])
@@ -282,6 +292,15 @@ class RateConstant:
         ------
         TemperatureError
             When it depends on the temperature and ``temperature`` is None.
+
+        Examples
+        --------
+        0.12 1/min is exactly 1/500 1/s (1 min = 60 s, SI brochure, 9th edition, 2019,
+        table 8):
+
+        >>> from kinetics import parse
+        >>> parse("A -> B  k1 = 0.12 1/min\\nstart A = 1 M").constants["k1"].exact(None)
+        Fraction(1, 500)
         """
         if self.value_si is not None:
             return self.value_si
@@ -293,7 +312,20 @@ class RateConstant:
         return self.derived.value(self.name, temperature)
 
     def si_value(self, temperature: float | None) -> float:
-        """The constant in SI base units (at ``temperature`` [K] for Arrhenius ones)."""
+        """The constant in SI base units (at ``temperature`` [K] for Arrhenius ones).
+
+        Examples
+        --------
+        The closed form :math:`A e^{-E_a/RT}` for A = 1e13 1/s, Ea = 100 kJ/mol at
+        298.15 K, rounded once:
+
+        >>> from kinetics import parse
+        >>> s = parse("A -> B  k1 = 0.12 1/min\\n"
+        ...           "B -> C  k2 = arrhenius(A = 1e13 1/s, Ea = 100 kJ/mol)\\n"
+        ...           "temperature = 25 degC\\nstart A = 1 mmol/L")
+        >>> s.constants["k2"].si_value(298.15)
+        3.0252269963687423e-05
+        """
         if self.arrhenius is not None:
             if temperature is None:
                 raise needs_temperature(self.name, arrhenius=True)
@@ -482,7 +514,17 @@ class Scheme:
 
     @property
     def concentration_si(self) -> Fraction:
-        """The SI value of one :attr:`concentration_unit` [mol/m^3], exact."""
+        """The SI value of one :attr:`concentration_unit` [mol/m^3], exact.
+
+        Examples
+        --------
+        1 mmol/L = 10⁻³ mol / 10⁻³ m³ = 1 mol/m³ (closed form; SI brochure, 9th edition,
+        2019, table 8 for the litre):
+
+        >>> from kinetics import parse
+        >>> parse("A -> B  k1 = 1 1/s\\nstart A = 1 mmol/L").concentration_si
+        Fraction(1, 1)
+        """
         return self._unit_factor
 
     # -- names and vectors -------------------------------------------------
@@ -560,6 +602,22 @@ class Scheme:
         -------
         numpy.ndarray
             One rate per step, in the order of :attr:`steps`.
+
+        Examples
+        --------
+        From 25 to 35 degC the Arrhenius constant grows by the closed form
+        :math:`\\exp(E_a/R\\,(1/T_1 - 1/T_2))`, the plain one stays:
+
+        >>> import math
+        >>> from kinetics import parse
+        >>> s = parse("A -> B  k1 = 0.12 1/min\\n"
+        ...           "B -> C  k2 = arrhenius(A = 1e13 1/s, Ea = 100 kJ/mol)\\n"
+        ...           "temperature = 25 degC\\nstart A = 1 mmol/L")
+        >>> cold, hot = s.step_rates(), s.step_rates(temperature=308.15)
+        >>> bool(hot[0] == cold[0]), round(float(hot[1] / cold[1]), 4)
+        (True, 3.7028)
+        >>> round(math.exp(1e5 / 8.31446261815324 * (1 / 298.15 - 1 / 308.15)), 4)
+        3.7028
         """
         from .ratematrix import step_rates
 
@@ -581,7 +639,20 @@ class Scheme:
 
     @cached_property
     def rates(self) -> np.ndarray:
-        """Effective rate constant of every step at the scheme's values [1/s]."""
+        """Effective rate constant of every step at the scheme's values [1/s].
+
+        Examples
+        --------
+        0.12 1/min = 0.002 1/s (SI brochure, 9th edition, 2019, table 8), and the closed
+        form :math:`A e^{-E_a/RT}` at 25 degC:
+
+        >>> from kinetics import parse
+        >>> s = parse("A -> B  k1 = 0.12 1/min\\n"
+        ...           "B -> C  k2 = arrhenius(A = 1e13 1/s, Ea = 100 kJ/mol)\\n"
+        ...           "temperature = 25 degC\\nstart A = 1 mmol/L")
+        >>> s.rates.tolist()
+        [0.002, 3.0252269963687423e-05]
+        """
         return self.rate_pairs[0]
 
     @cached_property
@@ -601,6 +672,14 @@ class Scheme:
         """The rate matrix K [1/s], dense, species × species in matrix order.
 
         .. math:: \\frac{dc}{dt} = K c + f
+
+        Examples
+        --------
+        A chain A -> B -> C: K = [[-k1, 0, 0], [k1, -k2, 0], [0, k2, 0]] (closed form):
+
+        >>> from kinetics import parse
+        >>> parse("A -> B  k1 = 2 1/s\\nB -> C  k2 = 1 1/s\\nstart A = 1 M").rate_matrix().tolist()
+        [[-2.0, 0.0, 0.0], [2.0, -1.0, 0.0], [0.0, 1.0, 0.0]]
         """
         from .ratematrix import dense_rate_matrix
 
@@ -613,7 +692,16 @@ class Scheme:
         return sparse_rate_matrix(self, self.rates)
 
     def constant_per_second(self, name: str) -> float:
-        """A first-order constant in 1/s, or a higher-order one in SI base units."""
+        """A first-order constant in 1/s, or a higher-order one in SI base units.
+
+        Examples
+        --------
+        0.12 1/min is 0.002 1/s (1 min = 60 s, SI brochure, 9th edition, 2019, table 8):
+
+        >>> from kinetics import parse
+        >>> parse("A -> B  k1 = 0.12 1/min\\nstart A = 1 M").constant_per_second("k1")
+        0.002
+        """
         return self.constants[name].si_value(self.temperature)
 
     def exact_constants(
