@@ -106,7 +106,18 @@ class Measurements:
 
     @property
     def points(self) -> int:
-        """Number of measured (non-missing) values."""
+        """Number of measured (non-missing) values.
+
+        Examples
+        --------
+        >>> import pandas as pd
+        >>> from kinetics import parse
+        >>> scheme = parse("A -> B  k1 = 0.1 1/min\\n"
+        ...                "molar_mass A = 180.16 g/mol, B = 90.08 g/mol\\nstart A = 1 mmol/L")
+        >>> frame = pd.DataFrame({"time [min]": [0, 30, 60], "B [mmol/L]": [0.0, 0.1, None]})
+        >>> measurements_from_frame(frame, scheme).points
+        2
+        """
         return int(np.count_nonzero(~np.isnan(self.values)))
 
     def with_conditions(self, conditions: dict) -> Measurements:
@@ -126,7 +137,18 @@ class Measurements:
         )
 
     def to_frame(self) -> pd.DataFrame:
-        """The table with unit-labelled columns (``time [<time_unit>]``, ``B [<unit>]``)."""
+        """The table with unit-labelled columns (``time [<time_unit>]``, ``B [<unit>]``).
+
+        Examples
+        --------
+        >>> import pandas as pd
+        >>> from kinetics import parse
+        >>> scheme = parse("A -> B  k1 = 0.1 1/min\\n"
+        ...                "molar_mass A = 180.16 g/mol, B = 90.08 g/mol\\nstart A = 1 mmol/L")
+        >>> frame = pd.DataFrame({"time [min]": [0, 30], "B [mg/L]": [0.0, 9.008]})
+        >>> measurements_from_frame(frame, scheme).to_frame().columns.tolist()
+        ['time [min]', 'B [mmol/L]']
+        """
         import pandas as pd
 
         data = {f"time [{self.time_unit}]": self.times / convert(1.0, self.time_unit, "s")}
@@ -155,6 +177,22 @@ def read_measurements(path, scheme: Scheme, conditions: dict | None = None) -> M
     ------
     DataError
         For a missing or unreadable file and for every problem of the table.
+
+    Examples
+    --------
+    Times in hours become seconds and umol/L the scheme's mmol/L (closed forms:
+    1 h = 3600 s, SI brochure, 9th edition, 2019, table 8; 1 umol = 10⁻³ mmol):
+
+    >>> import tempfile
+    >>> from kinetics import parse
+    >>> scheme = parse("A -> B  k1 = 0.1 1/min\\nmolar_mass A = 180.16 g/mol, B = 90.08 g/mol\\n"
+    ...                "start A = 1 mmol/L")
+    >>> with tempfile.TemporaryDirectory() as folder:
+    ...     path = Path(folder) / "run1.csv"
+    ...     _ = path.write_text("time [h],B [umol/L]\\n0,0\\n0.5,250\\n", encoding="utf-8")
+    ...     data = read_measurements(path, scheme)
+    >>> data.times.tolist(), data.values.tolist()
+    ([0.0, 1800.0], [[0.0], [0.25]])
     """
     p = Path(path)
     source = str(path)
@@ -197,6 +235,20 @@ def measurements_from_frame(
     Returns
     -------
     Measurements
+
+    Examples
+    --------
+    A mass concentration becomes an amount concentration through the molar mass (closed
+    form c = ρ / M): 9.008 mg/L of B at 90.08 g/mol is 0.1 mmol/L:
+
+    >>> import pandas as pd
+    >>> from kinetics import parse
+    >>> scheme = parse("A -> B  k1 = 0.1 1/min\\nmolar_mass A = 180.16 g/mol, B = 90.08 g/mol\\n"
+    ...                "start A = 1 mmol/L")
+    >>> frame = pd.DataFrame({"time [min]": [0, 30], "B [mg/L]": [0.0, 9.008]})
+    >>> data = measurements_from_frame(frame, scheme)
+    >>> data.times.tolist(), data.values[:, 0].round(12).tolist()
+    ([0.0, 1800.0], [0.0, 0.1])
     """
     header = [str(c) for c in frame.columns]
     body = []
@@ -467,6 +519,18 @@ def parse_condition(text: str, scheme: Scheme) -> tuple[str, float]:
     ------
     ConditionError
         For an unknown key, a missing or wrong-dimension unit.
+
+    Examples
+    --------
+    Closed forms: T/K = t/°C + 273.15; 1 h = 3600 s (SI brochure, 9th edition, 2019,
+    table 8), so 6 1/h is 1/600 1/s:
+
+    >>> from kinetics import parse
+    >>> scheme = parse("A -> B  k1 = 0.1 1/min\\nstart A = 1 mmol/L")
+    >>> parse_condition("temperature=25degC", scheme), parse_condition("k1=6 1/h", scheme)
+    (('temperature', 298.15), ('k1', 0.0016666666666666666))
+    >>> parse_condition("start:A=250 umol/L", scheme)
+    ('start:A', 0.25)
     """
     key, sep, value = text.partition("=")
     key = key.strip()
