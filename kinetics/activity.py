@@ -64,7 +64,7 @@ def decay_constants(scheme: Scheme) -> dict[str, Fraction]:
 
     Examples
     --------
-    A half-life of 1 h: :math:`\lambda = \ln 2 / 3600` 1/s (textbook definition):
+    A half-life of 1 h: :math:`\lambda = \ln 2 / 3600` 1/s (closed form of the decay law):
 
     >>> import math
     >>> from kinetics import parse
@@ -105,7 +105,8 @@ def amount_from_activity(activity: Fraction, decay_constant: Fraction) -> Fracti
 
     Examples
     --------
-    1 Bq of a species with :math:`\lambda` = 1/s is one atom, :math:`1/N_A` mol:
+    1 Bq of a species with :math:`\lambda` = 1/s is one atom, :math:`1/N_A` mol (closed form
+    :math:`n = A / (\lambda N_A)`, N_A exact in the 2019 SI):
 
     >>> amount_from_activity(Fraction(1), Fraction(1)) * 602214076 * 10**15
     Fraction(1, 1)
@@ -137,6 +138,18 @@ def start_amounts(scheme: Scheme, values: dict[str, Fraction]) -> dict[str, floa
     ------
     ActivityError
         For a species that does not decay.
+
+    Examples
+    --------
+    Closed form :math:`n = A / (\\lambda N_A)` with :math:`\\lambda = \\ln 2 / t_{1/2}`:
+    1 GBq of a species with a half-life of 6 h is about 51.7 pmol:
+
+    >>> import math
+    >>> from kinetics import parse
+    >>> scheme = parse("P -> D  half_life = 6 h\\nstart P = 1 umol")
+    >>> amount = start_amounts(scheme, {"P": Fraction(10**9)})["P"]  # [umol]
+    >>> math.isclose(amount, 1e9 / (math.log(2) / 21600 * 6.02214076e23) * 1e6, rel_tol=1e-14)
+    True
     """
     lam = decay_constants(scheme)
     per_unit = parse_unit(scheme.concentration_unit).factor
@@ -182,6 +195,9 @@ def activity_factors(scheme: Scheme, unit: str = "Bq") -> np.ndarray:
 
     Examples
     --------
+    Closed form :math:`A = \lambda N`: 1 umol decaying at 1/s is
+    :math:`10^{-6} \cdot 6.02214076 \times 10^{23}` = 6.02e17 Bq (N_A exact in the 2019 SI):
+
     >>> from kinetics import parse
     >>> scheme = parse("P -> D  k1 = 1 1/s\nstart P = 1 umol")
     >>> float(activity_factors(scheme, "MBq")[0])  # 1 umol decaying at 1/s
@@ -246,6 +262,8 @@ def activities(scheme: Scheme, amounts, unit: str = "Bq") -> np.ndarray:
 
     Examples
     --------
+    Closed form :math:`A = \lambda N`, as in :func:`activity_factors`:
+
     >>> from kinetics import parse
     >>> scheme = parse("P -> D  k1 = 1 1/s\nstart P = 1 umol")
     >>> activities(scheme, [[1.0, 0.0]], "MBq").tolist()
@@ -264,6 +282,8 @@ def amounts_from_activities(scheme: Scheme, values, unit: str = "Bq") -> np.ndar
 
     Examples
     --------
+    Closed form :math:`N = A / \\lambda`, the inverse of :func:`activities`:
+
     >>> from kinetics import parse
     >>> scheme = parse("P -> D  k1 = 1 1/s\\nstart P = 1 umol")
     >>> amounts_from_activities(scheme, [602214076000.0, 0.0], "MBq").tolist()

@@ -244,6 +244,16 @@ class Dependencies:
         ------
         ExpressionError
             When it depends on the temperature and none is given.
+
+        Examples
+        --------
+        Closed form :math:`\\lambda = \\ln 2 / t_{1/2}` for a half-life of 50 h:
+
+        >>> import math
+        >>> from kinetics import parse
+        >>> s = parse("t_p = 50 h\\nP -> D  lam = ln(2) / t_p\\nstart P = 1 mol")
+        >>> math.isclose(s.dependencies.value("lam", None), math.log(2) / 180000, rel_tol=1e-15)
+        True
         """
         cache = self._values
         key = (name, temperature)
@@ -344,6 +354,21 @@ def constant_values(
         When a constant depends on the temperature and none is given.
     ExpressionError
         When a definition cannot be evaluated, or a constant becomes negative.
+
+    Examples
+    --------
+    A branch of 88 % of a decay with a half-life of 50 h, closed form
+    :math:`\\lambda = 0.88 \\ln 2 / t_{1/2}`, and with the half-life set to 10 h:
+
+    >>> import math
+    >>> from kinetics import parse
+    >>> s = parse("t_p = 50 h\\nP -> D  lam = 0.88 * ln(2) / t_p\\nstart P = 1 mol")
+    >>> lam = constant_values(s.constants, s.dependencies, None)["lam"]
+    >>> math.isclose(lam, 0.88 * math.log(2) / 180000, rel_tol=1e-15)
+    True
+    >>> new = constant_values(s.constants, s.dependencies, None, {"t_p": Fraction(36000)})
+    >>> math.isclose(new["lam"], 0.88 * math.log(2) / 36000, rel_tol=1e-15)
+    True
     """
     values = values or {}
     derived = graph.evaluate(temperature, values) if graph else {}

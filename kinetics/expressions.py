@@ -301,7 +301,13 @@ def names_in(expr: Expr) -> list[Name]:
 
 
 def uses_law(expr: Expr) -> bool:
-    """True when ``expr`` calls a temperature law (its value depends on the temperature)."""
+    """True when ``expr`` calls a temperature law (its value depends on the temperature).
+
+    Examples
+    --------
+    >>> uses_law(Number(Fraction(2), (), "2", 1))
+    False
+    """
     return any(isinstance(n, LawCall) for n in nodes(expr))
 
 
@@ -340,7 +346,7 @@ def evaluate(
 
     Examples
     --------
-    :math:`0.88 \ln 2 / 50\,\mathrm{h}` (a branch of a 50 h half-life), hand value
+    :math:`0.88 \ln 2 / 50\,\mathrm{h}` (a branch of a 50 h half-life), closed form
     :math:`3.3887 \times 10^{-6}` 1/s:
 
     >>> hours = (("[time]", Fraction(1)),)

@@ -84,13 +84,36 @@ class Eyring:
     entropy: Fraction
 
     def exact(self, temperature: float) -> Fraction:
-        """The constant [1/s] at ``temperature`` [K] (the double given) to 40 digits."""
+        r"""The constant [1/s] at ``temperature`` [K] (the double given) to 40 digits.
+
+        Examples
+        --------
+        The closed form :math:`k_B T/h \cdot e^{\Delta S/R} e^{-\Delta H/RT}` in floats,
+        with the exact 2019 SI values of k_B, h and R, for ΔH = 80 kJ/mol and
+        ΔS = -20 J/(mol K) at 298.15 K:
+
+        >>> import math
+        >>> k = Eyring(Fraction(80000), Fraction(-20)).exact(298.15)
+        >>> kB, h, R = 1.380649e-23, 6.62607015e-34, 8.31446261815324
+        >>> by_hand = kB * 298.15 / h * math.exp(-20 / R) * math.exp(-80000 / (R * 298.15))
+        >>> math.isclose(k, by_hand, rel_tol=1e-13)
+        True
+        """
         t = _kelvin(temperature)
         exponent = self.entropy / GAS_CONSTANT_EXACT - self.enthalpy / (GAS_CONSTANT_EXACT * t)
         return BOLTZMANN_EXACT * t / PLANCK_EXACT * dd.decimal_exp(exponent)
 
     def at(self, temperature: float) -> float:
-        """The constant [1/s] at ``temperature`` [K], correctly rounded from :meth:`exact`."""
+        r"""The constant [1/s] at ``temperature`` [K], correctly rounded from :meth:`exact`.
+
+        Examples
+        --------
+        The closed form :math:`k_B T/h \cdot e^{\Delta S/R} e^{-\Delta H/RT}` for
+        ΔH = 80 kJ/mol and ΔS = -20 J/(mol K) at 298.15 K is about 5.41e-3 1/s:
+
+        >>> f"{Eyring(Fraction(80000), Fraction(-20)).at(298.15):.4g}"
+        '0.00541'
+        """
         return dd.pair(self.exact(temperature))[0]
 
 
@@ -117,7 +140,7 @@ class Q10:
 
     Examples
     --------
-    Two steps of 10 K with Q10 = 2 multiply by 4 (hand value):
+    Two steps of 10 K with Q10 = 2 multiply by 4 (closed form above):
 
     >>> Q10(Fraction(1, 100), Fraction(300), Fraction(2)).exact(320.0)
     Fraction(1, 25)
@@ -128,7 +151,16 @@ class Q10:
     factor: Fraction
 
     def exact(self, temperature: float) -> Fraction:
-        """The constant at ``temperature`` [K] (the double given), exact or to 40 digits."""
+        r"""The constant at ``temperature`` [K] (the double given), exact or to 40 digits.
+
+        Examples
+        --------
+        Closed form :math:`k_\mathrm{ref} Q_{10}^{(T - T_\mathrm{ref})/10\,\mathrm{K}}`:
+        two steps of 10 K with Q10 = 2 multiply by 4 exactly:
+
+        >>> Q10(Fraction(1, 100), Fraction(300), Fraction(2)).exact(320.0)
+        Fraction(1, 25)
+        """
         t = _kelvin(temperature)
         if not self.factor > 0:
             raise ExpressionError(
@@ -151,7 +183,18 @@ class Q10:
         return self.reference * dd.decimal_power(self.factor, steps)
 
     def at(self, temperature: float) -> float:
-        """The constant at ``temperature`` [K], correctly rounded from :meth:`exact`."""
+        r"""The constant at ``temperature`` [K], correctly rounded from :meth:`exact`.
+
+        Examples
+        --------
+        Closed form :math:`k_\mathrm{ref} Q_{10}^{(T - T_\mathrm{ref})/10\,\mathrm{K}}`:
+        half a step (5 K) with Q10 = 2 multiplies by :math:`\sqrt 2`:
+
+        >>> import math
+        >>> k = Q10(Fraction(1, 100), Fraction(300), Fraction(2)).at(305.0)
+        >>> math.isclose(k, 0.01 * math.sqrt(2), rel_tol=1e-15)
+        True
+        """
         return dd.pair(self.exact(temperature))[0]
 
 

@@ -31,10 +31,49 @@ NUMERICAL = {
         "parse_duration",
         "parse_time_list",
     ],
+    "kinetics.amounts": ["kind_of", "amount_unit", "output_factors"],
+    "kinetics.balance": ["formula_mass", "mass_balance"],
+    "kinetics.ratematrix": [
+        "RatePattern.values",
+        "RatePattern.dense_pair",
+        "RatePattern.dense",
+        "RatePattern.sparse_pair",
+        "RatePattern.sparse",
+        "rate_pattern",
+        "step_rates",
+        "step_rate_pairs",
+        "dense_rate_matrix",
+        "sparse_rate_matrix",
+    ],
+    "kinetics.scheme": [
+        "Arrhenius.at",
+        "Arrhenius.exact",
+        "arrhenius_pairs",
+        "RateConstant.exact",
+        "RateConstant.si_value",
+        "Scheme.concentration_si",
+        "Scheme.step_rates",
+        "Scheme.rates",
+        "Scheme.rate_matrix",
+        "Scheme.constant_per_second",
+    ],
+    "kinetics.measurements": ["read_measurements", "measurements_from_frame", "parse_condition"],
+    "kinetics.expressions": ["evaluate"],
+    "kinetics.definitions": ["Dependencies.value", "constant_values"],
+    "kinetics.laws": ["Eyring.exact", "Eyring.at", "Q10.exact", "Q10.at"],
+    "kinetics.activity": [
+        "decay_constants",
+        "amount_from_activity",
+        "start_amounts",
+        "activity_factors",
+        "activities",
+        "amounts_from_activities",
+    ],
+    "kinetics.requirements": ["Requirement.for_start"],
 }
 
 #: Words that name a source in an Examples section.
-SOURCE = re.compile(r"closed form|table|edition|example \d", re.IGNORECASE)
+SOURCE = re.compile(r"closed\s+form|table|edition|example \d", re.IGNORECASE)
 
 
 def public_modules() -> list[str]:
