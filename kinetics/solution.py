@@ -146,6 +146,11 @@ def time_grid(until: float, points: int = 201) -> np.ndarray:
     """A uniform grid of ``points`` times from 0 to ``until`` [s] inclusive.
 
     At most :data:`MAX_VALUES` points (a larger grid is refused before it is made).
+
+    Examples
+    --------
+    >>> time_grid(60.0, 4).tolist()
+    [0.0, 20.0, 40.0, 60.0]
     """
     if not (np.isfinite(until) and until > 0):
         raise TimesError(
@@ -259,6 +264,19 @@ class Solution:
         ----------
         time_unit : str, optional
             Unit of the time column, e.g. ``"min"``.
+
+        Examples
+        --------
+        A -> B with k = 0.1 1/min: closed form c_A = c_A(0) e^(-kt), e^-1 = 0.3679 after
+        10 min (1 min = 60 s, SI brochure, 9th edition, 2019, table 8):
+
+        >>> import kinetics
+        >>> s = kinetics.parse("A -> B  k1 = 0.1 1/min\\nstart A = 1 mol/L")
+        >>> frame = kinetics.solve(s, [0.0, 600.0]).to_frame("min")
+        >>> frame.columns.tolist(), frame["time [min]"].tolist()
+        (['time [min]', 'A [mol/L]', 'B [mol/L]'], [0.0, 10.0])
+        >>> round(float(frame["A [mol/L]"].iloc[1]), 6)
+        0.367879
         """
         import pandas as pd
 
@@ -286,6 +304,20 @@ class Solution:
         dict of str to dict
             Species name -> quantities (``half_life``, ``t_max``, ``c_max``, ``limit``...),
             ``None`` where a quantity does not apply.
+
+        Examples
+        --------
+        A -> B -> C with k1 = 0.1 and k2 = 0.05 1/min: closed forms t½(A) = ln 2 / k1 =
+        6.93 min, t_max(B) = ln(k2/k1) / (k2 - k1) = 13.86 min and c_max(B) = 0.5 mol/L
+        (Bateman 1910):
+
+        >>> import kinetics
+        >>> s = kinetics.parse("A -> B  k1 = 0.1 1/min\\nB -> C  k2 = 0.05 1/min\\n"
+        ...                    "start A = 1 mol/L")
+        >>> summary = kinetics.solve(s, [0.0, 1200.0]).summary("min")
+        >>> a, b = summary["A"], summary["B"]
+        >>> round(a["half_life"], 9), round(b["t_max"], 9), b["c_max"]
+        (6.931471806, 13.862943611, 0.5)
         """
         from .analysis.solution_summary import compute_summary, summary_in_units
 
@@ -378,6 +410,8 @@ def solve(scheme: Scheme, times) -> Solution:
 
     Examples
     --------
+    Closed form c_A = c_A(0) e^(-kt): e^-1 = 0.367879441171 after 1 s at k = 1 1/s:
+
     >>> import kinetics
     >>> s = kinetics.parse("A -> B  k1 = 1 1/s\\nstart A = 1 mol/L")
     >>> round(float(kinetics.solve(s, [0, 1]).concentrations[1, 0]), 12)

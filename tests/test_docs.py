@@ -70,6 +70,23 @@ NUMERICAL = {
         "amounts_from_activities",
     ],
     "kinetics.requirements": ["Requirement.for_start"],
+    "kinetics.analysis": [
+        "areas",
+        "half_life",
+        "half_life_detail",
+        "intermediate_maxima",
+        "lifetimes",
+        "long_time_limit",
+        "mean_residence_time",
+        "relaxation_times",
+        "summarise",
+        "summarise_all",
+        "time_to_fraction",
+        "time_to_fraction_detail",
+        "time_to_limit",
+        "yields_and_selectivity",
+    ],
+    "kinetics.solution": ["solve", "Solution.to_frame", "Solution.summary"],
 }
 
 #: Words that name a source in an Examples section.

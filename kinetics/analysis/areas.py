@@ -92,6 +92,18 @@ def areas(K, c0, times_end, feed=None) -> Areas:
     ----------
     Van Loan, C. F. IEEE Trans. Automat. Control 23, 395-404 (1978).
     Gibaldi, M.; Perrier, D. "Pharmacokinetics", 2nd ed., Marcel Dekker (1982): AUC.
+
+    Examples
+    --------
+    A chain A -> B -> C with k1 = 0.1 and k2 = 0.05 1/s from c_A(0) = 1: closed forms
+    ∫ c_A dt = (1 - e^(-k1 T)) / k1 up to T, and c(0)/k1, c(0)/k2 to infinity:
+
+    >>> import math
+    >>> result = areas([[-0.1, 0, 0], [0.1, -0.05, 0], [0, 0.05, 0]], [1.0, 0, 0], 100.0)
+    >>> result.to_infinity.tolist()
+    [10.0, 20.0, inf]
+    >>> math.isclose(result.to_end[0, 0], (1 - math.exp(-10)) / 0.1, rel_tol=1e-13)
+    True
     """
     problem = Problem(K, c0, feed)
     T = inputs.times_end(times_end)
@@ -128,6 +140,13 @@ def mean_residence_time(K, c0, feed=None) -> np.ndarray:
     References
     ----------
     Yamaoka, K.; Nakagawa, T.; Uno, T. J. Pharmacokinet. Biopharm. 6, 547-558 (1978).
+
+    Examples
+    --------
+    First-order decay: closed form 1/k for a species with a start value:
+
+    >>> mean_residence_time([[-0.1, 0.0], [0.1, 0.0]], [1.0, 0.0]).tolist()
+    [10.0, nan]
     """
     problem = Problem(K, c0, feed)
     return residence_times(problem, limit_parts(problem))

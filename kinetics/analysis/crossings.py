@@ -213,6 +213,15 @@ def time_to_fraction_detail(K, c0, i: int, fraction: float, feed=None) -> Fracti
     FOCUS Work Group on Degradation Kinetics, "Guidance document on estimating persistence
     and degradation kinetics from environmental fate studies on pesticides in EU
     registration" (2006): DT50 and DT90.
+
+    Examples
+    --------
+    A <=> B with equal constants levels off at half of A's start (closed form
+    c_A(∞) = kr / (kf + kr) c_A(0)), so a quarter is never reached:
+
+    >>> detail = time_to_fraction_detail([[-1.0, 1.0], [1.0, -1.0]], [1.0, 0.0], 0, 0.25)
+    >>> detail.time is None, detail.reason.split(",")[0]
+    (True, 'species 0 levels off at 50 % of its start value (its long-time limit')
     """
     problem = Problem(K, c0, feed)
     i = inputs.species_index(i, problem.n)
@@ -248,6 +257,15 @@ def time_to_fraction(K, c0, i: int, fraction: float, feed=None) -> float | None:
     ----------
     Connors, K. A.; Amidon, G. L.; Stella, V. J. "Chemical Stability of Pharmaceuticals",
     2nd ed., Wiley (1986).
+
+    Examples
+    --------
+    DT90 of first-order decay (10 % left), closed form t = ln 10 / k:
+
+    >>> import math
+    >>> t = time_to_fraction([[-0.1, 0.0], [0.1, 0.0]], [1.0, 0.0], 0, 0.1)
+    >>> math.isclose(t, math.log(10) / 0.1, rel_tol=1e-12)
+    True
     """
     return time_to_fraction_detail(K, c0, i, fraction, feed).time
 
@@ -280,6 +298,14 @@ def half_life_detail(K, c0, i: int, feed=None) -> FractionTime:
     ----------
     Atkins, P.; de Paula, J. "Atkins' Physical Chemistry", 10th ed., Oxford University
     Press (2014).
+
+    Examples
+    --------
+    First-order decay with k = 0.1 1/s, closed form t½ = ln 2 / k = 6.93 s:
+
+    >>> detail = half_life_detail([[-0.1, 0.0], [0.1, 0.0]], [1.0, 0.0], 0)
+    >>> round(detail.time, 10), detail.reason
+    (6.9314718056, '')
     """
     return time_to_fraction_detail(K, c0, i, 0.5, feed)
 
@@ -310,6 +336,15 @@ def half_life(K, c0, i: int, feed=None) -> float | None:
     ----------
     Atkins, P.; de Paula, J. "Atkins' Physical Chemistry", 10th ed., Oxford University
     Press (2014).
+
+    Examples
+    --------
+    First-order decay A -> B with k = 0.1 1/s, closed form t½ = ln 2 / k:
+
+    >>> import math
+    >>> t = half_life([[-0.1, 0.0], [0.1, 0.0]], [1.0, 0.0], 0)
+    >>> math.isclose(t, math.log(2) / 0.1, rel_tol=1e-13)
+    True
     """
     return half_life_detail(K, c0, i, feed).time
 
@@ -349,6 +384,16 @@ def time_to_limit(K, c0, feed=None, tolerance: float = 0.01) -> TimeToLimit:
     References
     ----------
     IUPAC Gold Book, "relaxation time".
+
+    Examples
+    --------
+    First-order decay: |c(t) - c(∞)| = e^(-kt) c(0), so the closed form for a tolerance of
+    1 % is t = ln(100) / k:
+
+    >>> import math
+    >>> result = time_to_limit([[-0.1, 0.0], [0.1, 0.0]], [1.0, 0.0])
+    >>> math.isclose(result.time, math.log(100) / 0.1, rel_tol=1e-12)
+    True
     """
     tolerance = inputs.fraction(tolerance, "tolerance")
     return settling_times(Survey.of(Problem(K, c0, feed)), tolerance)

@@ -225,5 +225,14 @@ def long_time_limit(K, c0, feed=None, *, names: Sequence[str] | None = None) -> 
     Academic Press (1979).
     Grassmann, W. K.; Taksar, M. I.; Heyman, D. P. Operations Research 33, 1107-1116 (1985).
     IUPAC Gold Book, "chemical relaxation".
+
+    Examples
+    --------
+    A <=> B with kf = 2 1/s and kr = 1 1/s: the closed form of the equilibrium is
+    c(∞) = c(0) [kr, kf] / (kf + kr):
+
+    >>> limit = long_time_limit([[-2.0, 1.0], [2.0, -1.0]], [1.0, 0.0])
+    >>> limit.values.round(15).tolist(), limit.kind
+    ([0.333333333333333, 0.666666666666667], ('equilibrium', 'equilibrium'))
     """
     return limit_parts(Problem(K, c0, feed, names=names)).limit

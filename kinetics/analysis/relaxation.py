@@ -146,6 +146,15 @@ def lifetimes(K) -> tuple[np.ndarray, np.ndarray]:
     ----------
     Atkins, P.; de Paula, J. "Atkins' Physical Chemistry", 10th ed., Oxford University
     Press (2014), first-order reactions.
+
+    Examples
+    --------
+    A chain A -> B -> C with k1 = 0.1 and k2 = 0.05 1/s: closed forms τ = 1/k and
+    t½ = ln 2 · τ; the end product never leaves:
+
+    >>> tau, first_order_half_life = lifetimes([[-0.1, 0, 0], [0.1, -0.05, 0], [0, 0.05, 0]])
+    >>> tau.tolist(), first_order_half_life.round(6).tolist()
+    ([10.0, 20.0, inf], [6.931472, 13.862944, inf])
     """
     _, Ks = inputs.rate_matrix(K)
     k_out = -Ks.diagonal()
@@ -188,6 +197,15 @@ def relaxation_times(K, *, names: Sequence[str] | None = None) -> RelaxationTime
     ----------
     IUPAC Gold Book, "chemical relaxation", "relaxation time".
     Rothblum, U. G. Linear Algebra Appl. 12, 281-292 (1975).
+
+    Examples
+    --------
+    A <=> B relaxes with the eigenvalue -(kf + kr) of K (closed form τ = 1/(kf + kr));
+    the other eigenvalue is the conserved total (a zero mode):
+
+    >>> result = relaxation_times([[-2.0, 1.0], [2.0, -1.0]])
+    >>> result.times.round(15).tolist(), result.zero_modes
+    ([0.333333333333333], 1)
     """
     Kd, Ks = inputs.rate_matrix(K)
     n = Ks.shape[0]

@@ -111,6 +111,15 @@ def yields_and_selectivity(
     ----------
     Atkins, P.; de Paula, J. "Atkins' Physical Chemistry", 10th ed., Oxford University
     Press (2014), parallel and consecutive reactions.
+
+    Examples
+    --------
+    Parallel steps A -> B (k1 = 0.2 1/s) and A -> C (k2 = 0.1 1/s): closed form yields
+    k1/(k1 + k2) = 2/3 and k2/(k1 + k2) = 1/3:
+
+    >>> result = yields_and_selectivity([[-0.3, 0, 0], [0.2, 0, 0], [0.1, 0, 0]], [1.0, 0, 0])
+    >>> result.end_products, result.formed_in_limit.round(15).tolist()
+    ((1, 2), [0.666666666666667, 0.333333333333333])
     """
     return yields_of(Survey.of(Problem(K, c0, feed, t_window=t_window)), basis)
 
@@ -248,6 +257,16 @@ def summarise(
     References
     ----------
     See the module docstring.
+
+    Examples
+    --------
+    The intermediate of A -> B -> C with k1 = 0.1 and k2 = 0.05 1/s: closed forms
+    τ_B = 1/k2, t_max = ln(k2/k1)/(k2 - k1) = 13.86 s, c_max = 0.5 and ∫ c_B dt = 1/k2:
+
+    >>> K = [[-0.1, 0, 0], [0.1, -0.05, 0], [0, 0.05, 0]]
+    >>> b = summarise(K, [1.0, 0, 0], ["A", "B", "C"])["B"]
+    >>> b.lifetime, round(b.t_max, 10), round(b.c_max, 13), round(b.area_to_infinity, 12)
+    (20.0, 13.8629436112, 0.5, 20.0)
     """
     return summarise_all(K, c0, species, feed, t_window, tolerance, K_low=K_low)[0]
 
@@ -298,6 +317,16 @@ def summarise_all(
     References
     ----------
     See the module docstring.
+
+    Examples
+    --------
+    A -> B -> C with k1 = 0.1 and k2 = 0.05 1/s: the relaxation times are the closed forms
+    1/k2 and 1/k1, and all of A ends in C:
+
+    >>> K = [[-0.1, 0, 0], [0.1, -0.05, 0], [0, 0.05, 0]]
+    >>> species, scheme = summarise_all(K, [1.0, 0, 0], ["A", "B", "C"])
+    >>> scheme.relaxation_times, scheme.end_products, scheme.formed_in_limit
+    ((20.0, 10.0), ('C',), {'C': 1.0})
     """
     names = list(species)
     problem = Problem(K, c0, feed, names=names, t_window=t_window, K_low=K_low)

@@ -173,6 +173,16 @@ def intermediate_maxima(K, c0, i: int, feed=None, t_window: float | None = None)
     Bateman, H. Proc. Cambridge Philos. Soc. 15, 423-427 (1910).
     Atkins, P.; de Paula, J. "Atkins' Physical Chemistry", 10th ed., Oxford University
     Press (2014), consecutive reactions.
+
+    Examples
+    --------
+    A -> B -> C with k1 = 0.1 and k2 = 0.05 1/s: closed forms (Bateman 1910)
+    t_max = ln(k2/k1) / (k2 - k1) and c_max = c_A(0) (k1/k2)^(k2/(k2 - k1)) = 0.5:
+
+    >>> import math
+    >>> (peak,) = intermediate_maxima([[-0.1, 0, 0], [0.1, -0.05, 0], [0, 0.05, 0]], [1.0, 0, 0], 1)
+    >>> math.isclose(peak.time, math.log(0.5) / -0.05, rel_tol=1e-13), round(peak.height, 13)
+    (True, 0.5)
     """
     problem = Problem(K, c0, feed, t_window=t_window)
     i = inputs.species_index(i, problem.n)
