@@ -8,6 +8,7 @@
 """
 
 import sys
+import types
 
 from ._version import __version__
 from .errors import (
@@ -58,7 +59,7 @@ def __dir__() -> list[str]:
     return sorted(set(globals()) | set(__all__))
 
 
-class _Package(type(sys.modules[__name__])):
+class _Package(types.ModuleType):
     """The package module: ``kinetics.fit`` and ``kinetics.sweep`` stay the functions.
 
     Importing the submodules ``kinetics.fit`` or ``kinetics.sweep`` would

@@ -55,7 +55,7 @@ PERCENT_OF_APPLIED = "% of applied"
 _PERCENT_RE = re.compile(r"^\s*(?:%|percent)\s*(?:of\s*)?applied\s*$", re.IGNORECASE)
 
 _SUBSTANCE = {"[substance]": 1}
-_BASES = {  # dimension of the basis -> its name
+_BASES: dict[tuple[tuple[str, Fraction | int], ...], str] = {  # basis dimension -> name
     (("[length]", -3),): "volume",
     (("[mass]", -1),): "soil",
     (): "absolute",
@@ -177,7 +177,7 @@ def kind_of(unit: str, per_time: bool = False) -> Kind | None:
         return None
     dims = spec.dims
     if per_time:
-        dims["[time]"] = dims.get("[time]", 0) + 1
+        dims["[time]"] = dims.get("[time]", Fraction(0)) + 1
     dims = {k: v for k, v in dims.items() if v}
     if not dims:
         if unit.strip() and is_mass_ratio(_without_time(unit) if per_time else unit):

@@ -329,11 +329,20 @@ def mass_balance(scheme: Scheme) -> MassBalance:
     all_species = scheme.species + scheme.excess_species
     formulas = {s.name: s.formula for s in all_species}
     masses = {s.name: s.molar_mass for s in all_species}
+    reactions, atoms_ok = _atoms_per_reaction(scheme, formulas)
+    known = {name: m for name, m in masses.items() if m is not None}
+    changing = _mass_changing_steps(scheme, known)
+    ok = atoms_ok and not any("creates or destroys" in c["reason"] for c in changing)
+    return MassBalance(ok, bool(known), reactions, _largest_residual(scheme), changing)
+
+
+def _atoms_per_reaction(scheme: Scheme, formulas: dict[str, str | None]) -> tuple[list, bool]:
+    """Each reaction's atom verdict as a JSON-ready entry, and whether all balance."""
     reactions = []
     atoms_ok = True
     for r in scheme.reactions:
         result = atom_balance(r, formulas)
-        entry = {"equation": r.equation, "line": r.line}
+        entry: dict[str, object] = {"equation": r.equation, "line": r.line}
         if result is None:
             entry["atoms"] = "not checked"
             missing = sorted({n for _, n in r.left + r.right if formulas.get(n) is None})
@@ -344,56 +353,56 @@ def mass_balance(scheme: Scheme) -> MassBalance:
             entry["right"] = result.right
             atoms_ok &= result.ok
         reactions.append(entry)
+    return reactions, atoms_ok
 
-    # numerical check on the tracked species: m^T K = 0 column by column
+
+def _largest_residual(scheme: Scheme) -> float | None:
+    """The largest relative residual r_j of m^T K = 0 (None without known molar masses)."""
     m = scheme.molar_masses
-    K = scheme.rate_matrix_sparse()
-    residual = None
     known = ~np.isnan(m)
-    if known.any():
-        mm = np.where(known, m, 0.0)
-        r = K.T @ mm  # (m^T K)_j
-        # scale: total first-order outflow of species j, sum of k_s over its steps
-        outflow = np.zeros(len(m))
-        rates = scheme.rates
-        for s, step in enumerate(scheme.steps):
-            outflow[scheme.index[step.reactant]] += rates[s]
-        # only columns whose every entry belongs to a species of known mass
-        touches_unknown = abs(K).T @ (~known).astype(float) > 0
-        cols = known & (outflow > 0) & ~touches_unknown
-        if cols.any():
-            rel = np.abs(r[cols]) / (mm[cols] * outflow[cols])
-            residual = float(rel.max())
+    if not known.any():
+        return None
+    K = scheme.rate_matrix_sparse()
+    mm = np.where(known, m, 0.0)
+    r = K.T @ mm  # (m^T K)_j
+    # scale: total first-order outflow of species j, sum of k_s over its steps
+    outflow = np.zeros(len(m))
+    rates = scheme.rates
+    for s, step in enumerate(scheme.steps):
+        outflow[scheme.index[step.reactant]] += rates[s]
+    # only columns whose every entry belongs to a species of known mass
+    touches_unknown = abs(K).T @ (~known).astype(float) > 0
+    cols = known & (outflow > 0) & ~touches_unknown
+    if not cols.any():
+        return None
+    return float((np.abs(r[cols]) / (mm[cols] * outflow[cols])).max())
 
+
+def _mass_changing_steps(scheme: Scheme, masses: dict[str, float]) -> list[dict]:
+    """The steps whose tracked mass changes, with the reason (only steps whose species all
+    have known molar masses [g/mol]; the others are reported per reaction)."""
     changing = []
     for step in scheme.steps:
         left = [(1.0, step.reactant), *step.co_reactants]
         right = list(step.products)
-        names = [n for _, n in left + right]
-        if any(masses.get(n) is None for n in names):
-            continue  # not checked: reported per reaction above
+        if any(n not in masses for _, n in left + right):
+            continue
         tracked_in = masses[step.reactant]
         tracked_out = sum(c * masses[n] for c, n in step.products if n in scheme.index)
-        if abs(tracked_out - tracked_in) > 1e-9 * tracked_in:
-            reasons = []
-            if step.co_reactants:
-                reasons.append(
-                    "takes up mass from "
-                    + ", ".join(n for _, n in step.co_reactants)
-                    + " (held in excess)"
-                )
-            excess_products = [n for _, n in step.products if n not in scheme.index]
-            if excess_products:
-                reasons.append(
-                    "releases mass as " + ", ".join(excess_products) + " (held in excess)"
-                )
-            total_in = sum(c * masses[n] for c, n in left)
-            total_out = sum(c * masses[n] for c, n in right)
-            if abs(total_out - total_in) > 1e-9 * total_in:
-                reasons.append(
-                    f"creates or destroys mass ({total_in:.6g} g/mol in, {total_out:.6g} g/mol out)"
-                )
-            changing.append({"equation": step.equation, "reason": "; ".join(reasons)})
-    ok = atoms_ok and not any("creates or destroys" in c["reason"] for c in changing)
-    checked = any(v is not None for v in masses.values())
-    return MassBalance(ok, checked, reactions, residual, changing)
+        if abs(tracked_out - tracked_in) <= 1e-9 * tracked_in:
+            continue
+        reasons = []
+        if step.co_reactants:
+            partners = ", ".join(n for _, n in step.co_reactants)
+            reasons.append(f"takes up mass from {partners} (held in excess)")
+        excess_products = [n for _, n in step.products if n not in scheme.index]
+        if excess_products:
+            reasons.append("releases mass as " + ", ".join(excess_products) + " (held in excess)")
+        total_in = sum(c * masses[n] for c, n in left)
+        total_out = sum(c * masses[n] for c, n in right)
+        if abs(total_out - total_in) > 1e-9 * total_in:
+            reasons.append(
+                f"creates or destroys mass ({total_in:.6g} g/mol in, {total_out:.6g} g/mol out)"
+            )
+        changing.append({"equation": step.equation, "reason": "; ".join(reasons)})
+    return changing

@@ -166,7 +166,7 @@ def summarise_network(scheme: Scheme, *, max_cycles: int = 50) -> NetworkSummary
     )
     pairs = sorted(
         {
-            tuple(sorted((a, b), key=order.get))
+            tuple(sorted((a, b), key=order.__getitem__))
             for a, b in matrix_graph.edges
             if a != b and matrix_graph.has_edge(b, a)
         },
@@ -186,9 +186,9 @@ def summarise_network(scheme: Scheme, *, max_cycles: int = 50) -> NetworkSummary
     for node in nx.topological_sort(condensation):
         members = condensation.nodes[node]["members"]
         if len(members) > 1:
-            components.append(sorted(members, key=order.get))
+            components.append(sorted(members, key=order.__getitem__))
     # excess species are constant: they do not couple the parts they take part in
-    weak = [sorted(c, key=order.get) for c in nx.weakly_connected_components(matrix_graph)]
+    weak = [sorted(c, key=order.__getitem__) for c in nx.weakly_connected_components(matrix_graph)]
     weak.sort(key=lambda c: order[c[0]])
     return NetworkSummary(roles, pairs, cycles, components, weak if len(weak) > 1 else [])
 

@@ -104,7 +104,8 @@ _TIME, _LENGTH, _SUBSTANCE, _MASS, _TEMPERATURE = (
     "[temperature]",
 )
 _ENERGY = {_MASS: 1, _LENGTH: 2, _TIME: -2}
-_PREFIXES = {"": 1, "k": 1000, "d": Fraction(1, 10), "c": Fraction(1, 100)}
+_PREFIXES: dict[str, Fraction | int] = {"": 1, "k": 1000, "d": Fraction(1, 10)}
+_PREFIXES |= {"c": Fraction(1, 100)}
 _PREFIXES |= {"m": Fraction(1, 10**3), "u": Fraction(1, 10**6), "n": Fraction(1, 10**9)}
 _PREFIXES |= {"p": Fraction(1, 10**12)}
 _PREFIXES |= {"M": 10**6, "G": 10**9, "T": 10**12}
@@ -118,7 +119,7 @@ def _common_units() -> dict[str, tuple[str, Fraction, dict[str, int]]]:
     thermochemical calorie is 4.184 J exactly (NIST SP 811, 2008).
     """
     # (symbol, pint's name, factor, dimensions, prefixes allowed)
-    bases = [
+    bases: list[tuple[str, str, Fraction | int, dict[str, int], str]] = [
         ("s", "second", 1, {_TIME: 1}, "munp"),
         ("mol", "mole", 1, {_SUBSTANCE: 1}, "kmunp"),
         ("m", "meter", 1, {_LENGTH: 1}, "dcmun"),
@@ -135,11 +136,11 @@ def _common_units() -> dict[str, tuple[str, Fraction, dict[str, int]]]:
     ]
     prefix_names = {"k": "kilo", "d": "deci", "c": "centi", "m": "milli", "u": "micro"}
     prefix_names |= {"n": "nano", "p": "pico", "M": "mega", "G": "giga", "T": "tera", "": ""}
-    table = {}
+    table: dict[str, tuple[str, Fraction | int, dict[str, int]]] = {}
     for symbol, name, factor, dims, prefixes in bases:
         for prefix in ["", *prefixes]:
             table[prefix + symbol] = (prefix_names[prefix] + name, factor * _PREFIXES[prefix], dims)
-    plain = [
+    plain: list[tuple[str, str, Fraction | int, dict[str, int]]] = [
         ("sec", "second", 1, {_TIME: 1}),
         ("second", "second", 1, {_TIME: 1}),
         ("min", "minute", 60, {_TIME: 1}),
@@ -604,7 +605,7 @@ def _float_kelvin(kelvin, value, unit: str) -> float:
         raise ValueError(f"the temperature {value} {unit} is too large") from None
 
 
-_NAMED_DIMENSIONS = {
+_NAMED_DIMENSIONS: dict[tuple[tuple[str, Fraction | int], ...], str] = {
     (("[time]", -1),): "a frequency (1/time)",
     (("[time]", 1),): "a time",
     (("[length]", -3), ("[substance]", 1)): "a concentration (amount/volume)",
@@ -926,7 +927,7 @@ def parse_time_list(text: str, option: str = "--times") -> tuple[list[float], st
         factor = time_factor(unit)
     except TimesError as exc:
         raise TimesError(f"{quoted}: {exc.problem}", exc.hint) from None
-    values = []
+    values: list[tuple[float, str]] = []
     for piece in [*pieces[:-1], number]:
         value = float(piece)
         if not math.isfinite(value):
