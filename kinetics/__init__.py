@@ -1,7 +1,7 @@
-"""Check, solve exactly, analyse, sweep and export first-order reaction schemes.
+r"""Check, solve exactly, analyse, sweep and export first-order reaction schemes.
 
 >>> import kinetics
->>> scheme = kinetics.parse("A -> B  k1 = 0.1 1/min\\nstart A = 1 mol/L")
+>>> scheme = kinetics.parse("A -> B  k1 = 0.1 1/min\nstart A = 1 mol/L")
 >>> result = kinetics.solve(scheme, [0.0, 600.0])
 >>> result.to_frame(time_unit="min").columns.tolist()
 ['time [min]', 'A [mol/L]', 'B [mol/L]']

@@ -45,8 +45,9 @@ __all__ = [
 
 
 def decay_constants(scheme: Scheme) -> dict[str, Fraction]:
-    r""":math:`\lambda_i` of every matrix species [1/s]: the sum of the effective constants
-    of the steps that consume it, at the scheme's values.
+    r""":math:`\lambda_i` of every matrix species [1/s].
+
+    The sum of the effective constants of the steps that consume it, at the scheme's values.
 
     Each sum is formed exactly from the exact constants of the steps
     (:meth:`kinetics.scheme.Scheme.exact_constants`); a step with partners in excess
@@ -120,7 +121,7 @@ def amount_from_activity(activity: Fraction, decay_constant: Fraction) -> Fracti
 
 
 def start_amounts(scheme: Scheme, values: dict[str, Fraction]) -> dict[str, float]:
-    """Start values [scheme's concentration unit] of the activities ``values``.
+    r"""Start values [scheme's concentration unit] of the activities ``values``.
 
     Parameters
     ----------
@@ -141,12 +142,12 @@ def start_amounts(scheme: Scheme, values: dict[str, Fraction]) -> dict[str, floa
 
     Examples
     --------
-    Closed form :math:`n = A / (\\lambda N_A)` with :math:`\\lambda = \\ln 2 / t_{1/2}`:
+    Closed form :math:`n = A / (\lambda N_A)` with :math:`\lambda = \ln 2 / t_{1/2}`:
     1 GBq of a species with a half-life of 6 h is about 51.7 pmol:
 
     >>> import math
     >>> from kinetics import parse
-    >>> scheme = parse("P -> D  half_life = 6 h\\nstart P = 1 umol")
+    >>> scheme = parse("P -> D  half_life = 6 h\nstart P = 1 umol")
     >>> amount = start_amounts(scheme, {"P": Fraction(10**9)})["P"]  # [umol]
     >>> math.isclose(amount, 1e9 / (math.log(2) / 21600 * 6.02214076e23) * 1e6, rel_tol=1e-14)
     True
@@ -273,7 +274,7 @@ def activities(scheme: Scheme, amounts, unit: str = "Bq") -> np.ndarray:
 
 
 def amounts_from_activities(scheme: Scheme, values, unit: str = "Bq") -> np.ndarray:
-    """Amounts [scheme's concentration unit] whose activities are ``values`` [``unit``].
+    r"""Amounts [scheme's concentration unit] whose activities are ``values`` [``unit``].
 
     Raises
     ------
@@ -282,10 +283,10 @@ def amounts_from_activities(scheme: Scheme, values, unit: str = "Bq") -> np.ndar
 
     Examples
     --------
-    Closed form :math:`N = A / \\lambda`, the inverse of :func:`activities`:
+    Closed form :math:`N = A / \lambda`, the inverse of :func:`activities`:
 
     >>> from kinetics import parse
-    >>> scheme = parse("P -> D  k1 = 1 1/s\\nstart P = 1 umol")
+    >>> scheme = parse("P -> D  k1 = 1 1/s\nstart P = 1 umol")
     >>> amounts_from_activities(scheme, [602214076000.0, 0.0], "MBq").tolist()
     [1.0, 0.0]
     """

@@ -1,4 +1,4 @@
-"""Amounts and masses: what a concentration unit measures, and molar-mass conversions.
+r"""Amounts and masses: what a concentration unit measures, and molar-mass conversions.
 
 Stoichiometry counts molecules, so a scheme is solved in amounts of substance.
 A file may give its values as amounts (``mmol/L``) or as masses (``mg/L``); masses
@@ -20,7 +20,7 @@ numerator and denominator are both masses.
 
 The output unit :data:`PERCENT_OF_APPLIED` reports every species as a percentage of
 the total amount applied at time zero (the sum of the start values in amounts):
-:math:`100\\, n_i(t) / \\sum_j n_j(0)`.
+:math:`100\, n_i(t) / \sum_j n_j(0)`.
 """
 
 from __future__ import annotations
@@ -258,12 +258,12 @@ def _kind_or_none(unit: str) -> Kind | None:
 
 
 def output_factors(scheme: Scheme, unit: str) -> np.ndarray:
-    """Per matrix species, the factor from the scheme's unit to the output ``unit``.
+    r"""Per matrix species, the factor from the scheme's unit to the output ``unit``.
 
-    .. math:: c_i^{\\mathrm{out}} = f_i\\, c_i, \\qquad
-              f_i = \\frac{u_\\mathrm{scheme}\\, M_i / 1000}{u_\\mathrm{out}}
-              \\ \\text{(mass units)}, \\qquad
-              f_i = \\frac{100}{\\sum_j c_j(0)} \\ \\text{(\\% of applied)}
+    .. math:: c_i^{\mathrm{out}} = f_i\, c_i, \qquad
+              f_i = \frac{u_\mathrm{scheme}\, M_i / 1000}{u_\mathrm{out}}
+              \ \text{(mass units)}, \qquad
+              f_i = \frac{100}{\sum_j c_j(0)} \ \text{(\% of applied)}
 
     with :math:`u` the SI factors of the units and :math:`M_i` [g/mol].
 
@@ -292,7 +292,7 @@ def output_factors(scheme: Scheme, unit: str) -> np.ndarray:
     the 2 mmol/L applied:
 
     >>> from kinetics import parse
-    >>> s = parse("A -> B  k1 = 0.1 1/s\\nmolar_mass A = 180.16 g/mol, B = 90.08 g/mol\\n"
+    >>> s = parse("A -> B  k1 = 0.1 1/s\nmolar_mass A = 180.16 g/mol, B = 90.08 g/mol\n"
     ...           "start A = 2 mmol/L")
     >>> [output_factors(s, u).tolist() for u in ("mg/L", "umol/L", "% of applied")]
     [[180.16, 90.08], [1000.0, 1000.0], [50.0, 50.0]]

@@ -1,4 +1,4 @@
-"""Atom and mass balance of a scheme.
+r"""Atom and mass balance of a scheme.
 
 Mass conservation is checked two ways:
 
@@ -8,10 +8,10 @@ Mass conservation is checked two ways:
 2. **Numerically**, for the tracked species: with the molar-mass vector
    :math:`m` [g/mol], a closed scheme satisfies
 
-   .. math:: m^\\mathsf{T} K = 0,
+   .. math:: m^\mathsf{T} K = 0,
 
    i.e. every step turns reactant mass into the same product mass.  The largest
-   relative residual :math:`|(m^\\mathsf{T} K)_j| / (m_j \\sum_s k_s)` is reported,
+   relative residual :math:`|(m^\mathsf{T} K)_j| / (m_j \sum_s k_s)` is reported,
    the sum running over the steps that consume species :math:`j`: it is the
    fraction of the reactant's mass gained or lost per unit of conversion (0.2 for
    a lumped step 100 g/mol -> 80 g/mol), over the columns whose species all have
@@ -124,9 +124,9 @@ def _counts(text: str) -> tuple[tuple[str, float], ...]:
 
 
 def formula_mass(text: str) -> float:
-    """Molar mass of a formula [g/mol] from standard atomic weights.
+    r"""Molar mass of a formula [g/mol] from standard atomic weights.
 
-    .. math:: M = \\sum_e n_e A_{r,e} \\; \\mathrm{g/mol}
+    .. math:: M = \sum_e n_e A_{r,e} \; \mathrm{g/mol}
 
     Parameters
     ----------
@@ -194,10 +194,10 @@ class AtomBalance:
 
 
 def atom_balance(reaction: Reaction, formulas: dict[str, str | None]) -> AtomBalance | None:
-    """Compare element counts of both sides of ``reaction``.
+    r"""Compare element counts of both sides of ``reaction``.
 
-    .. math:: \\sum_{i \\in \\mathrm{left}} \\nu_i n_{e,i} =
-              \\sum_{j \\in \\mathrm{right}} \\nu_j n_{e,j} \\quad \\text{for every element } e
+    .. math:: \sum_{i \in \mathrm{left}} \nu_i n_{e,i} =
+              \sum_{j \in \mathrm{right}} \nu_j n_{e,j} \quad \text{for every element } e
 
     Parameters
     ----------
@@ -218,7 +218,7 @@ def atom_balance(reaction: Reaction, formulas: dict[str, str | None]) -> AtomBal
     (closed form above):
 
     >>> from kinetics import parse
-    >>> s = parse("A -> 2 B  k1 = 0.1 1/s\\nformula A = C2H6, B = CH3\\nstart A = 1 M")
+    >>> s = parse("A -> 2 B  k1 = 0.1 1/s\nformula A = C2H6, B = CH3\nstart A = 1 M")
     >>> atom_balance(s.reactions[0], {"A": "C2H6", "B": "CH3"})
     AtomBalance(left={'C': 2.0, 'H': 6.0}, right={'C': 2.0, 'H': 6.0}, ok=True)
     """
@@ -253,7 +253,7 @@ def _balance_of_formulas(left, right) -> tuple[tuple, tuple, bool]:
 
 @dataclass(frozen=True)
 class MassBalance:
-    """The mass-balance verdict of a scheme.
+    r"""The mass-balance verdict of a scheme.
 
     Attributes
     ----------
@@ -266,7 +266,7 @@ class MassBalance:
     checked : bool
         False when no species has a formula or molar mass (nothing could be checked).
     max_relative_residual : float or None
-        Largest :math:`|(m^T K)_j| / (m_j \\sum k)` over species with known
+        Largest :math:`|(m^T K)_j| / (m_j \sum k)` over species with known
         molar mass; ``None`` when no molar masses are known.
     mass_changing_steps : list of dict
         Steps whose tracked mass changes: ``equation``, ``reason``.
@@ -290,9 +290,9 @@ class MassBalance:
 
 
 def mass_balance(scheme: Scheme) -> MassBalance:
-    """Check the atom balance of each reaction and the numerical mass balance m·K = 0.
+    r"""Check the atom balance of each reaction and the numerical mass balance m·K = 0.
 
-    .. math:: r_j = \\frac{|(m^\\mathsf{T} K)_j|}{m_j \\sum_{s:\\,\\mathrm{reactant}(s)=j} k_s}
+    .. math:: r_j = \frac{|(m^\mathsf{T} K)_j|}{m_j \sum_{s:\,\mathrm{reactant}(s)=j} k_s}
 
     Parameters
     ----------
@@ -320,8 +320,8 @@ def mass_balance(scheme: Scheme) -> MassBalance:
     (closed form above: r = |80 k - 100 k| / (100 k) = 0.2):
 
     >>> from kinetics import parse
-    >>> s = parse("A -> B  k1 = 0.1 1/s\\nmolar_mass A = 100 g/mol, B = 80 g/mol\\n"
-    ...           "balance: lumped\\nstart A = 1 M")
+    >>> s = parse("A -> B  k1 = 0.1 1/s\nmolar_mass A = 100 g/mol, B = 80 g/mol\n"
+    ...           "balance: lumped\nstart A = 1 M")
     >>> result = mass_balance(s)
     >>> round(result.max_relative_residual, 12), result.ok
     (0.2, False)
@@ -379,8 +379,11 @@ def _largest_residual(scheme: Scheme) -> float | None:
 
 
 def _mass_changing_steps(scheme: Scheme, masses: dict[str, float]) -> list[dict]:
-    """The steps whose tracked mass changes, with the reason (only steps whose species all
-    have known molar masses [g/mol]; the others are reported per reaction)."""
+    """The steps whose tracked mass changes, with the reason.
+
+    Only steps whose species all have known molar masses [g/mol]; the others are reported
+    per reaction.
+    """
     changing = []
     for step in scheme.steps:
         left = [(1.0, step.reactant), *step.co_reactants]

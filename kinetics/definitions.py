@@ -238,7 +238,7 @@ class Dependencies:
         return out
 
     def value(self, name: str, temperature: float | None) -> Fraction:
-        """The exact value of one definition [SI base units].
+        r"""The exact value of one definition [SI base units].
 
         Raises
         ------
@@ -247,11 +247,11 @@ class Dependencies:
 
         Examples
         --------
-        Closed form :math:`\\lambda = \\ln 2 / t_{1/2}` for a half-life of 50 h:
+        Closed form :math:`\lambda = \ln 2 / t_{1/2}` for a half-life of 50 h:
 
         >>> import math
         >>> from kinetics import parse
-        >>> s = parse("t_p = 50 h\\nP -> D  lam = ln(2) / t_p\\nstart P = 1 mol")
+        >>> s = parse("t_p = 50 h\nP -> D  lam = ln(2) / t_p\nstart P = 1 mol")
         >>> math.isclose(s.dependencies.value("lam", None), math.log(2) / 180000, rel_tol=1e-15)
         True
         """
@@ -289,8 +289,9 @@ class Dependencies:
 
     @staticmethod
     def ordered(definitions: Iterable[Definition]) -> Dependencies:
-        """The graph of ``definitions`` given in any order (each placed after the names it
-        uses, otherwise in the order given).
+        """The graph of ``definitions`` given in any order.
+
+        Each is placed after the names it uses, otherwise in the order given.
 
         Raises
         ------
@@ -330,7 +331,7 @@ def constant_values(
     temperature: float | None,
     values: Mapping[str, Fraction] | None = None,
 ) -> dict[str, Fraction]:
-    """The exact value of every rate constant [SI base units], following the graph.
+    r"""The exact value of every rate constant [SI base units], following the graph.
 
     Parameters
     ----------
@@ -358,11 +359,11 @@ def constant_values(
     Examples
     --------
     A branch of 88 % of a decay with a half-life of 50 h, closed form
-    :math:`\\lambda = 0.88 \\ln 2 / t_{1/2}`, and with the half-life set to 10 h:
+    :math:`\lambda = 0.88 \ln 2 / t_{1/2}`, and with the half-life set to 10 h:
 
     >>> import math
     >>> from kinetics import parse
-    >>> s = parse("t_p = 50 h\\nP -> D  lam = 0.88 * ln(2) / t_p\\nstart P = 1 mol")
+    >>> s = parse("t_p = 50 h\nP -> D  lam = 0.88 * ln(2) / t_p\nstart P = 1 mol")
     >>> lam = constant_values(s.constants, s.dependencies, None)["lam"]
     >>> math.isclose(lam, 0.88 * math.log(2) / 180000, rel_tol=1e-15)
     True
@@ -418,8 +419,9 @@ def follow(
     values: Mapping[str, Fraction],
     texts: Mapping[str, str],
 ) -> tuple[dict[str, RateConstant], dict[str, NamedQuantity], Dependencies]:
-    """Constants, quantities and graph with new ``values`` [SI base units], and every
-    definition that follows from them evaluated again (exactly).
+    """Constants, quantities and graph with new ``values`` [SI base units].
+
+    Every definition that follows from them is evaluated again (exactly).
 
     A name given a value becomes that number (a constant becomes a plain one, without
     its Arrhenius law or expression); the definitions that use it follow.
@@ -472,8 +474,11 @@ def follow(
 
 
 def _arrhenius_record(c: RateConstant, expr: Expr, env: Mapping[str, ExactQuantity]):
-    """The Arrhenius record of ``c`` with A and Ea evaluated again (a constant written as
-    ``arrhenius(A = ..., Ea = Ea_f)`` keeps A and Ea for the code that reads them)."""
+    """The Arrhenius record of ``c`` with A and Ea evaluated again.
+
+    A constant written as ``arrhenius(A = ..., Ea = Ea_f)`` keeps A and Ea for the code that
+    reads them.
+    """
     if c.arrhenius is None or not isinstance(expr, LawCall) or expr.law.name != "arrhenius":
         return c.arrhenius
     args = {key: evaluate(e, env, None, c.name).value for key, e in expr.arguments}

@@ -95,8 +95,10 @@ def shorten(text: str, limit: int = QUOTE_LIMIT) -> str:
 
 
 def shown_value(value) -> str:
-    """A value as a message quotes it: a number in plain Python form (never
-    ``np.float64(-300.0)``), anything else as its cut ``repr``.
+    """A value as a message quotes it.
+
+    A number in plain Python form (never ``np.float64(-300.0)``), anything else as its cut
+    ``repr``.
 
     Examples
     --------
@@ -264,8 +266,10 @@ class OutputFileError(_FileProblem):
 
 
 class UnitError(KineticsError, ValueError):
-    """A unit that cannot be read: a piece that is no unit, an exponent beyond the limit,
-    a number where a unit belongs, or a unit longer than a chemist writes.
+    """A unit that cannot be read.
+
+    A piece that is no unit, an exponent beyond the limit, a number where a unit belongs, or
+    a unit longer than a chemist writes.
 
     Raised by :func:`kinetics.units.parse_unit` with a message that names the piece;
     the readers of files turn it into a :class:`SchemeError` with a place and a hint.
@@ -278,8 +282,9 @@ class UnitError(KineticsError, ValueError):
 
 
 class UnknownUnitError(UnitError):
-    """A unit whose pieces read well but that no unit of the registry matches
-    (``sec-1``, ``mol/Lt``).
+    """A unit whose pieces read well but that no unit of the registry matches.
+
+    For example ``sec-1`` or ``mol/Lt``.
 
     Examples
     --------
@@ -329,8 +334,10 @@ class UsageError(ArgumentValueError):
 
 
 class RateMatrixError(ArgumentValueError):
-    """An array given as a rate matrix K [1/s] that is not one: not numeric, not square,
-    empty, with inf or nan, or with a negative off-diagonal entry (a rate of formation).
+    """An array given as a rate matrix K [1/s] that is not one.
+
+    Not numeric, not square, empty, with inf or nan, or with a negative off-diagonal entry
+    (a rate of formation).
 
     Examples
     --------
@@ -340,15 +347,19 @@ class RateMatrixError(ArgumentValueError):
 
 
 class ConcentrationError(ArgumentValueError):
-    """Start concentrations or zero-order feed rates that cannot be used (wrong length,
-    not numeric, inf or nan, negative)."""
+    """Start concentrations or zero-order feed rates that cannot be used.
+
+    A wrong length, not numeric, inf or nan, negative.
+    """
 
 
 class TimesError(ArgumentValueError):
-    """Times [s] that cannot be used: not numbers, not a flat increasing list, negative,
-    an empty list, or a time window or grid end that is not a positive finite time; also
-    a duration or time list written as text that cannot be read, and a unit of time that
-    is unknown or not a time (``--until '5y'``, ``time_unit="kg"``).
+    """Times [s] that cannot be used.
+
+    Not numbers, not a flat increasing list, negative, an empty list, or a time window or
+    grid end that is not a positive finite time; also a duration or time list written as
+    text that cannot be read, and a unit of time that is unknown or not a time (``--until
+    '5y'``, ``time_unit="kg"``).
 
     Examples
     --------
@@ -362,9 +373,10 @@ class TimesError(ArgumentValueError):
 
 
 class TemperatureError(ArgumentValueError):
-    """A temperature [K] that cannot be used: not finite or not above 0 K, or none given
-    where a rate constant depends on the temperature (an Arrhenius or other temperature
-    law).
+    """A temperature [K] that cannot be used.
+
+    Not finite or not above 0 K, or none given where a rate constant depends on the
+    temperature (an Arrhenius or other temperature law).
 
     Examples
     --------
@@ -374,9 +386,10 @@ class TemperatureError(ArgumentValueError):
 
 
 class ConstantError(ArgumentValueError):
-    """A rate constant or named quantity given to a library function that the scheme does
-    not have, or a value it cannot take (not a number, not finite, a negative rate
-    constant).
+    """A rate constant or named quantity that the scheme does not have or cannot take.
+
+    Given to a library function: an unknown name, or a value that is not a number, not
+    finite, or a negative rate constant.
 
     Examples
     --------
@@ -386,37 +399,51 @@ class ConstantError(ArgumentValueError):
 
 
 class ConditionError(ArgumentValueError):
-    """A run condition ``KEY=VALUE`` of a measured data set that cannot be used: not of
-    that form, an unknown key, a unit of the wrong kind, or a value out of range (see
-    :func:`kinetics.measurements.parse_condition`)."""
+    """A run condition ``KEY=VALUE`` of a measured data set that cannot be used.
+
+    Not of that form, an unknown key, a unit of the wrong kind, or a value out of range (see
+    :func:`kinetics.measurements.parse_condition`).
+    """
 
 
 class OutputUnitError(ArgumentValueError):
-    """An output unit that does not fit the scheme: another kind of concentration, a mass
-    unit for a species without a molar mass, or "% of applied" for a scheme with a feed
-    or with nothing applied (see :func:`kinetics.amounts.output_factors`)."""
+    """An output unit that does not fit the scheme.
+
+    Another kind of concentration, a mass unit for a species without a molar mass, or "% of
+    applied" for a scheme with a feed or with nothing applied (see
+    :func:`kinetics.amounts.output_factors`).
+    """
 
 
 class SpeciesError(ArgumentValueError):
-    """A species name or index that the scheme does not have, or names that are not one
-    per species and unique."""
+    """A species name or index that the scheme does not have.
+
+    Or names that are not one per species and unique.
+    """
 
 
 class SettingError(ArgumentValueError):
-    """A setting of a library function outside its allowed values: a fraction or a
-    tolerance outside (0, 1), or a choice such as ``where=`` or ``linear=`` that is not
-    one of those listed."""
+    """A setting of a library function outside its allowed values.
+
+    A fraction or a tolerance outside (0, 1), or a choice such as ``where=`` or ``linear=``
+    that is not one of those listed.
+    """
 
 
 class TableSizeError(ArgumentValueError):
-    """A table larger than the chosen output format holds (an Excel sheet holds at most
-    1,048,576 rows and 16,384 columns); another format holds it."""
+    """A table larger than the chosen output format holds; another format holds it.
+
+    An Excel sheet holds at most 1,048,576 rows and 16,384 columns.
+    """
 
 
 class WorkingRangeError(ArgumentValueError):
-    """A problem beyond the working range of the exact engine: a rate above 1e100 1/s, a
-    time above 1e100 s, more than 1e27 shortest lifetimes, or concentrations too large for
-    the rates (see :func:`kinetics.analysis.check_working_range`)."""
+    """A problem beyond the working range of the exact engine.
+
+    A rate above 1e100 1/s, a time above 1e100 s, more than 1e27 shortest lifetimes, or
+    concentrations too large for the rates (see
+    :func:`kinetics.analysis.check_working_range`).
+    """
 
 
 class ArgumentTypeError(_ProblemAndHint, TypeError):
@@ -453,10 +480,11 @@ class GrowthError(_ProblemAndHint, OverflowError):
 
 
 class ExpressionError(_ProblemAndHint, ValueError):
-    """An expression of named quantities that cannot be evaluated: a dimension that does not
-    fit (``50 h + 2 mol``), a function outside its domain (``ln`` of a negative number), a
-    result beyond the range of a double, or a named quantity set to a value its dependants
-    cannot take.
+    """An expression of named quantities that cannot be evaluated.
+
+    A dimension that does not fit (``50 h + 2 mol``), a function outside its domain (``ln``
+    of a negative number), a result beyond the range of a double, or a named quantity set to
+    a value its dependants cannot take.
 
     Raised by :mod:`kinetics.expressions`; ``column`` and ``snippet`` say where in the
     defining line the problem is (1-based; 0 when unknown), and the scheme reader turns
@@ -479,8 +507,10 @@ class ExpressionError(_ProblemAndHint, ValueError):
 
 
 class ActivityError(_ProblemAndHint, ValueError):
-    """Activities that cannot be formed or converted: an activity unit that does not fit the
-    scheme's amounts, or an activity given for a species that does not decay.
+    """Activities that cannot be formed or converted.
+
+    An activity unit that does not fit the scheme's amounts, or an activity given for a
+    species that does not decay.
 
     Examples
     --------

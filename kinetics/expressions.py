@@ -158,8 +158,10 @@ class Unary:
 
 @dataclass(frozen=True, slots=True)
 class Binary:
-    """``x + y``, ``x - y``, ``x * y``, ``x / y`` or ``x ** y`` (``op`` one of ``+-*/`` or
-    ``**``; ``column`` is the operator's)."""
+    """``x + y``, ``x - y``, ``x * y``, ``x / y`` or ``x ** y``.
+
+    ``op`` is one of ``+-*/`` or ``**``; ``column`` is the operator's.
+    """
 
     op: str
     left: Expr
@@ -506,8 +508,10 @@ class _Evaluation:
 
 
 def _bounded(value: Fraction, node: Expr) -> Fraction:
-    """``value`` itself; rounded to 60 digits when it needs more than MAX_EXACT_BITS; an
-    error beyond 10**±4000."""
+    """``value`` itself, or rounded to 60 digits when it needs more than MAX_EXACT_BITS.
+
+    An error beyond 10**±4000.
+    """
     if not value:
         return value
     num, den = value.numerator, value.denominator

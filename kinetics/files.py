@@ -1,5 +1,7 @@
-"""Writing output files safely: atomically, with one error that names the file, and with
-text cells that no spreadsheet program reads as a formula.
+"""Writing output files safely.
+
+Atomically, with one error that names the file, and with text cells that no spreadsheet program
+reads as a formula.
 
 Every file is written to a temporary file in the target folder and then renamed over the
 target (:func:`atomic_path`), so an interrupted run never leaves a half-written table; a
@@ -46,7 +48,7 @@ FORMULA_TRIGGERS = frozenset("=+-@\t\r\uff1d\uff0b\uff0d\uff20")
 
 
 def spreadsheet_text(text: str) -> str:
-    """Text for a CSV or spreadsheet cell that no spreadsheet program reads as a formula.
+    r"""Text for a CSV or spreadsheet cell that no spreadsheet program reads as a formula.
 
     A text whose first character, or whose first character after leading blanks (some
     programs trim them when they import a CSV file), is one of :data:`FORMULA_TRIGGERS`
@@ -66,7 +68,7 @@ def spreadsheet_text(text: str) -> str:
     Examples
     --------
     >>> spreadsheet_text('=HYPERLINK("http://example.invalid")')
-    '\\'=HYPERLINK("http://example.invalid")'
+    '\'=HYPERLINK("http://example.invalid")'
     >>> spreadsheet_text("B [mol/L]")
     'B [mol/L]'
     """

@@ -1,5 +1,6 @@
-r"""Temperature laws of rate constants: Eyring and Q10 beside Arrhenius, and the table of
-the laws an expression may call.
+r"""Temperature laws of rate constants: Eyring and Q10 beside Arrhenius.
+
+Also the table of the laws an expression may call.
 
 Each law is an immutable record of its parameters in exact SI values with an
 ``exact(temperature)`` method (40 significant digits, exact CODATA constants) and an

@@ -106,14 +106,14 @@ class Measurements:
 
     @property
     def points(self) -> int:
-        """Number of measured (non-missing) values.
+        r"""Number of measured (non-missing) values.
 
         Examples
         --------
         >>> import pandas as pd
         >>> from kinetics import parse
-        >>> scheme = parse("A -> B  k1 = 0.1 1/min\\n"
-        ...                "molar_mass A = 180.16 g/mol, B = 90.08 g/mol\\nstart A = 1 mmol/L")
+        >>> scheme = parse("A -> B  k1 = 0.1 1/min\n"
+        ...                "molar_mass A = 180.16 g/mol, B = 90.08 g/mol\nstart A = 1 mmol/L")
         >>> frame = pd.DataFrame({"time [min]": [0, 30, 60], "B [mmol/L]": [0.0, 0.1, None]})
         >>> measurements_from_frame(frame, scheme).points
         2
@@ -137,14 +137,14 @@ class Measurements:
         )
 
     def to_frame(self) -> pd.DataFrame:
-        """The table with unit-labelled columns (``time [<time_unit>]``, ``B [<unit>]``).
+        r"""The table with unit-labelled columns (``time [<time_unit>]``, ``B [<unit>]``).
 
         Examples
         --------
         >>> import pandas as pd
         >>> from kinetics import parse
-        >>> scheme = parse("A -> B  k1 = 0.1 1/min\\n"
-        ...                "molar_mass A = 180.16 g/mol, B = 90.08 g/mol\\nstart A = 1 mmol/L")
+        >>> scheme = parse("A -> B  k1 = 0.1 1/min\n"
+        ...                "molar_mass A = 180.16 g/mol, B = 90.08 g/mol\nstart A = 1 mmol/L")
         >>> frame = pd.DataFrame({"time [min]": [0, 30], "B [mg/L]": [0.0, 9.008]})
         >>> measurements_from_frame(frame, scheme).to_frame().columns.tolist()
         ['time [min]', 'B [mmol/L]']
@@ -158,7 +158,7 @@ class Measurements:
 
 
 def read_measurements(path, scheme: Scheme, conditions: dict | None = None) -> Measurements:
-    """Read a measured-data CSV file for ``scheme``.
+    r"""Read a measured-data CSV file for ``scheme``.
 
     Parameters
     ----------
@@ -185,11 +185,11 @@ def read_measurements(path, scheme: Scheme, conditions: dict | None = None) -> M
 
     >>> import tempfile
     >>> from kinetics import parse
-    >>> scheme = parse("A -> B  k1 = 0.1 1/min\\nmolar_mass A = 180.16 g/mol, B = 90.08 g/mol\\n"
+    >>> scheme = parse("A -> B  k1 = 0.1 1/min\nmolar_mass A = 180.16 g/mol, B = 90.08 g/mol\n"
     ...                "start A = 1 mmol/L")
     >>> with tempfile.TemporaryDirectory() as folder:
     ...     path = Path(folder) / "run1.csv"
-    ...     _ = path.write_text("time [h],B [umol/L]\\n0,0\\n0.5,250\\n", encoding="utf-8")
+    ...     _ = path.write_text("time [h],B [umol/L]\n0,0\n0.5,250\n", encoding="utf-8")
     ...     data = read_measurements(path, scheme)
     >>> data.times.tolist(), data.values.tolist()
     ([0.0, 1800.0], [[0.0], [0.25]])
@@ -220,7 +220,7 @@ def read_measurements(path, scheme: Scheme, conditions: dict | None = None) -> M
 def measurements_from_frame(
     frame: pd.DataFrame, scheme: Scheme, source: str = "<frame>", conditions: dict | None = None
 ) -> Measurements:
-    """Turn a DataFrame with unit-labelled columns into :class:`Measurements`.
+    r"""Turn a DataFrame with unit-labelled columns into :class:`Measurements`.
 
     Parameters
     ----------
@@ -243,7 +243,7 @@ def measurements_from_frame(
 
     >>> import pandas as pd
     >>> from kinetics import parse
-    >>> scheme = parse("A -> B  k1 = 0.1 1/min\\nmolar_mass A = 180.16 g/mol, B = 90.08 g/mol\\n"
+    >>> scheme = parse("A -> B  k1 = 0.1 1/min\nmolar_mass A = 180.16 g/mol, B = 90.08 g/mol\n"
     ...                "start A = 1 mmol/L")
     >>> frame = pd.DataFrame({"time [min]": [0, 30], "B [mg/L]": [0.0, 9.008]})
     >>> data = measurements_from_frame(frame, scheme)
@@ -266,9 +266,40 @@ def measurements_from_frame(
 
 
 def _build(header, body, scheme, source, conditions, first_row) -> Measurements:
+    """The measurements of a table (header cells and rows of cells), checked."""
     header = list(header)
     while header and not header[-1].strip():  # trailing empty columns of spreadsheets
         header.pop()
+    parsed = _parsed_header(header, source)
+    time_unit = parsed[0][1]
+    time_factor = _time_factor(time_unit, source)
+    columns = _species_columns(header, parsed, scheme, source)
+    if not body:
+        raise DataError("the table has a header but no rows", source, "add measured rows")
+    times, raw = _read_rows(header, body, columns, time_factor, first_row, source)
+    order = np.argsort(times, kind="stable")
+    times, raw = times[order], raw[order]
+    value_idx = [j for j, c in enumerate(columns) if c[0] == "value"]
+    species = tuple(columns[j][1] for j in value_idx)
+    values = raw[:, value_idx]
+    sd = _standard_deviations(header, columns, species, raw, source)
+    if np.all(np.isnan(values)):
+        raise DataError("the table has no measured values (all cells blank)", source)
+    return Measurements(
+        times=times,
+        species=species,
+        values=values,
+        concentration_unit=scheme.concentration_unit,
+        time_unit=time_unit,
+        units=tuple(columns[j][3] for j in value_idx),
+        source=source,
+        sd=sd,
+        conditions=dict(conditions),
+    )
+
+
+def _parsed_header(header: list[str], source: str) -> list[tuple[str, str]]:
+    """(name, unit) of every column; the first is the time."""
     if len(header) < 2:
         hint = "write a header such as 'time [min],B [mol/L]'"
         if header and (";" in header[0] or "\t" in header[0]):
@@ -286,38 +317,30 @@ def _build(header, body, scheme, source, conditions, first_row) -> Measurements:
                 "write headers as 'time [min]' and 'B [mol/L]'",
             )
         parsed.append((match["name"].strip(), match["unit"].strip()))
-    time_name, time_unit = parsed[0]
-    if time_name.lower() not in _TIME_NAMES:
+    if parsed[0][0].lower() not in _TIME_NAMES:
         raise DataError(
             f"the first column must be the time, not {header[0].strip()!r}",
             source,
             "put a column such as 'time [min]' first",
         )
-    time_factor = _time_factor(time_unit, source)
+    return parsed
 
+
+def _species_columns(header, parsed, scheme, source) -> list[tuple]:
+    """(kind, species, factor, unit, column) of every species column, checked.
+
+    ``kind`` is ``"value"`` or ``"sd"`` (a column ``B sd``); ``factor`` converts a cell
+    to the scheme's concentration unit.
+    """
     names = scheme.species_names
     excess = [s.name for s in scheme.excess_species]
     seen: dict[str, int] = {}
-    columns = []  # (kind, species, factor, unit, col)
+    columns = []
     for col, (name, unit) in enumerate(parsed[1:], start=1):
-        kind = "value"
-        species = name
+        kind, species = "value", name
         if name.endswith(" sd") or name.endswith(" SD"):
             kind, species = "sd", name[:-3].strip()
-        if species in excess:
-            raise DataError(
-                f"column {header[col].strip()!r} is {species}, which is held in excess "
-                "(constant) and cannot be fitted",
-                source,
-                "remove the column",
-            )
-        if species not in names:
-            raise DataError(
-                f"column {header[col].strip()!r} names {species!r}, which is not a species of "
-                "the scheme",
-                source,
-                _did_you_mean(species, names),
-            )
+        _check_species_column(header[col].strip(), species, names, excess, source)
         key = f"{kind}:{species}"
         if key in seen:
             raise DataError(
@@ -328,9 +351,7 @@ def _build(header, body, scheme, source, conditions, first_row) -> Measurements:
         seen[key] = col
         factor = _concentration_factor(scheme, species, unit, header[col].strip(), source)
         columns.append((kind, species, factor, unit, col))
-
-    value_columns = [c for c in columns if c[0] == "value"]
-    if not value_columns:
+    if not any(c[0] == "value" for c in columns):
         raise DataError(
             "the table has no measured species column",
             source,
@@ -344,12 +365,30 @@ def _build(header, body, scheme, source, conditions, first_row) -> Measurements:
                 source,
                 f"add a column '{species} [unit]'",
             )
+    return columns
 
-    m = len(body)
-    if m == 0:
-        raise DataError("the table has a header but no rows", source, "add measured rows")
-    times = np.empty(m)
-    raw = np.full((m, len(columns)), np.nan)
+
+def _check_species_column(column: str, species: str, names, excess, source: str) -> None:
+    """Refuse a column of a species held in excess or of no species of the scheme."""
+    if species in excess:
+        raise DataError(
+            f"column {column!r} is {species}, which is held in excess "
+            "(constant) and cannot be fitted",
+            source,
+            "remove the column",
+        )
+    if species not in names:
+        raise DataError(
+            f"column {column!r} names {species!r}, which is not a species of the scheme",
+            source,
+            _did_you_mean(species, names),
+        )
+
+
+def _read_rows(header, body, columns, time_factor, first_row, source):
+    """Times [s] and the converted cells of every row (NaN where blank), in file order."""
+    times = np.empty(len(body))
+    raw = np.full((len(body), len(columns)), np.nan)
     for i, row in enumerate(body):
         line = i + first_row
         if len(row) > len(header) and any(c.strip() for c in row[len(header) :]):
@@ -372,40 +411,26 @@ def _build(header, body, scheme, source, conditions, first_row) -> Measurements:
             cell = row[col].strip() if col < len(row) else ""
             if cell:
                 raw[i, j] = factor(_number(cell, line, header[col].strip(), source))
-    order = np.argsort(times, kind="stable")
-    times = times[order]
-    raw = raw[order]
+    return times, raw
 
-    value_idx = [j for j, c in enumerate(columns) if c[0] == "value"]
-    species = tuple(columns[j][1] for j in value_idx)
-    values = raw[:, value_idx]
-    sd = None
-    if any(c[0] == "sd" for c in columns):
-        sd = np.full_like(values, np.nan)
-        for j, c in enumerate(columns):
-            if c[0] == "sd":
-                k = species.index(c[1])
-                sd[:, k] = raw[:, j]
-                bad = raw[:, j][~np.isnan(raw[:, j])]
-                if np.any(bad <= 0):
-                    raise DataError(
-                        f"column {header[c[4]].strip()!r} has a standard deviation <= 0",
-                        source,
-                        "standard deviations must be positive",
-                    )
-    if np.all(np.isnan(values)):
-        raise DataError("the table has no measured values (all cells blank)", source)
-    return Measurements(
-        times=times,
-        species=species,
-        values=values,
-        concentration_unit=scheme.concentration_unit,
-        time_unit=time_unit,
-        units=tuple(columns[j][3] for j in value_idx),
-        source=source,
-        sd=sd,
-        conditions=dict(conditions),
-    )
+
+def _standard_deviations(header, columns, species, raw, source) -> np.ndarray | None:
+    """The standard deviations of the values (NaN where not given), or None without any."""
+    if not any(c[0] == "sd" for c in columns):
+        return None
+    sd = np.full((raw.shape[0], len(species)), np.nan)
+    for j, c in enumerate(columns):
+        if c[0] != "sd":
+            continue
+        sd[:, species.index(c[1])] = raw[:, j]
+        given = raw[:, j][~np.isnan(raw[:, j])]
+        if np.any(given <= 0):
+            raise DataError(
+                f"column {header[c[4]].strip()!r} has a standard deviation <= 0",
+                source,
+                "standard deviations must be positive",
+            )
+    return sd
 
 
 def _number(cell: str, line: int, column: str, source: str) -> float:
@@ -497,7 +522,7 @@ def _did_you_mean(name: str, candidates) -> str:
 
 
 def parse_condition(text: str, scheme: Scheme) -> tuple[str, float]:
-    """Parse one run condition ``KEY=VALUE`` (the ``--set`` option of ``kinetics fit``).
+    r"""Parse one run condition ``KEY=VALUE`` (the ``--set`` option of ``kinetics fit``).
 
     Keys:
 
@@ -526,7 +551,7 @@ def parse_condition(text: str, scheme: Scheme) -> tuple[str, float]:
     table 8), so 6 1/h is 1/600 1/s:
 
     >>> from kinetics import parse
-    >>> scheme = parse("A -> B  k1 = 0.1 1/min\\nstart A = 1 mmol/L")
+    >>> scheme = parse("A -> B  k1 = 0.1 1/min\nstart A = 1 mmol/L")
     >>> parse_condition("temperature=25degC", scheme), parse_condition("k1=6 1/h", scheme)
     (('temperature', 298.15), ('k1', 0.0016666666666666666))
     >>> parse_condition("start:A=250 umol/L", scheme)
@@ -548,51 +573,66 @@ def parse_condition(text: str, scheme: Scheme) -> tuple[str, float]:
     unit = match["unit"].strip()
     if unit.startswith("/"):  # 0.01/min
         unit = "1" + unit
+    where = f"--set {text!r}"
     if key == "temperature":
-        try:
-            kelvin = temperature_to_kelvin(number, unit or "K")
-        except ValueError:
-            raise ConditionError(
-                f"--set {text!r}: {unit!r} is not a temperature unit", "use K or degC"
-            ) from None
-        if not kelvin > 0:
-            raise ConditionError(f"--set {text!r}: the temperature is at or below absolute zero")
-        return key, kelvin
+        return key, _temperature_condition(number, unit, where)
     if key.startswith("start:"):
         species = key[len("start:") :].strip()
-        if species not in scheme.species_names:
-            raise ConditionError(
-                f"--set {text!r}: {species!r} is not a species of the scheme",
-                _did_you_mean(species, scheme.species_names),
-            )
-        target = scheme.concentration_unit
-        try:
-            converted = convert(number, unit or target, target)
-        except ValueError:
-            raise ConditionError(
-                f"--set {text!r}: {unit!r} is not a concentration unit like {target}"
-            ) from None
-        if converted < 0:
-            raise ConditionError(f"--set {text!r}: a start concentration cannot be negative")
-        return f"start:{species}", converted
+        return f"start:{species}", _start_condition(number, unit, species, scheme, where)
     if key in scheme.constants:
-        constant = scheme.constants[key]
-        si_unit = constant.unit
-        try:
-            spec = parse_unit(unit)
-            goal = parse_unit(si_unit)
-        except ValueError:
-            raise ConditionError(f"--set {text!r}: unknown unit {unit!r}") from None
-        if not unit or spec.dimensions != goal.dimensions:
-            raise ConditionError(
-                f"--set {text!r}: {key} needs a unit like {si_unit}",
-                f"write e.g. --set {key}=0.1 {si_unit}",
-            )
-        si = float(number * spec.factor)
-        if not si > 0:
-            raise ConditionError(f"--set {text!r}: a rate constant must be positive")
-        return key, si
+        return key, _constant_condition(number, unit, key, scheme, where)
     raise ConditionError(
         f"--set {text!r}: unknown key {key!r}",
         "use temperature=..., start:SPECIES=... or the name of a rate constant",
     )
+
+
+def _temperature_condition(number: float, unit: str, where: str) -> float:
+    """A run temperature [K] from a number and its unit (K when none is written)."""
+    try:
+        kelvin = temperature_to_kelvin(number, unit or "K")
+    except ValueError:
+        raise ConditionError(
+            f"{where}: {unit!r} is not a temperature unit", "use K or degC"
+        ) from None
+    if not kelvin > 0:
+        raise ConditionError(f"{where}: the temperature is at or below absolute zero")
+    return kelvin
+
+
+def _start_condition(number: float, unit: str, species: str, scheme: Scheme, where: str) -> float:
+    """A start value [scheme's concentration unit] of ``species``."""
+    if species not in scheme.species_names:
+        raise ConditionError(
+            f"{where}: {species!r} is not a species of the scheme",
+            _did_you_mean(species, scheme.species_names),
+        )
+    target = scheme.concentration_unit
+    try:
+        converted = convert(number, unit or target, target)
+    except ValueError:
+        raise ConditionError(
+            f"{where}: {unit!r} is not a concentration unit like {target}"
+        ) from None
+    if converted < 0:
+        raise ConditionError(f"{where}: a start concentration cannot be negative")
+    return converted
+
+
+def _constant_condition(number: float, unit: str, key: str, scheme: Scheme, where: str) -> float:
+    """A rate constant held in a run [SI base units], from a number with its unit."""
+    si_unit = scheme.constants[key].unit
+    try:
+        spec = parse_unit(unit)
+        goal = parse_unit(si_unit)
+    except ValueError:
+        raise ConditionError(f"{where}: unknown unit {unit!r}") from None
+    if not unit or spec.dimensions != goal.dimensions:
+        raise ConditionError(
+            f"{where}: {key} needs a unit like {si_unit}",
+            f"write e.g. --set {key}=0.1 {si_unit}",
+        )
+    si = float(number * spec.factor)
+    if not si > 0:
+        raise ConditionError(f"{where}: a rate constant must be positive")
+    return si

@@ -40,7 +40,7 @@ ROLES = ("starting material", "intermediate", "end product", "held in excess", "
 
 
 def species_graph(scheme: Scheme) -> nx.DiGraph:
-    """Species graph of ``scheme``: nodes are species, edges are steps reactant -> product.
+    r"""Species graph of ``scheme``: nodes are species, edges are steps reactant -> product.
 
     Node attributes: ``excess`` (bool), ``index`` (matrix index or None).
     Edge attributes: ``steps`` (list of step indices), ``constants`` (list of names).
@@ -49,7 +49,7 @@ def species_graph(scheme: Scheme) -> nx.DiGraph:
     Examples
     --------
     >>> import kinetics
-    >>> s = kinetics.parse("A -> B  k1 = 1 1/s\\nB <=> C  k2 = 1 1/s, k3 = 1 1/s\\nstart A = 1 M")
+    >>> s = kinetics.parse("A -> B  k1 = 1 1/s\nB <=> C  k2 = 1 1/s, k3 = 1 1/s\nstart A = 1 M")
     >>> sorted(species_graph(s).edges)
     [('A', 'B'), ('B', 'C'), ('C', 'B')]
     """
@@ -110,7 +110,7 @@ class NetworkSummary:
 
 
 def summarise_network(scheme: Scheme, *, max_cycles: int = 50) -> NetworkSummary:
-    """Roles, reversible pairs, cycles and components of ``scheme``'s species graph.
+    r"""Roles, reversible pairs, cycles and components of ``scheme``'s species graph.
 
     Parameters
     ----------
@@ -126,7 +126,7 @@ def summarise_network(scheme: Scheme, *, max_cycles: int = 50) -> NetworkSummary
     --------
     >>> import kinetics
     >>> s = kinetics.parse(
-    ...     "A -> B  k1 = 1 1/s\\nB <=> C  k2 = 1 1/s, k3 = 1 1/s\\nC -> D  k4 = 1 1/s\\n"
+    ...     "A -> B  k1 = 1 1/s\nB <=> C  k2 = 1 1/s, k3 = 1 1/s\nC -> D  k4 = 1 1/s\n"
     ...     "start A = 1 M"
     ... )
     >>> summary = summarise_network(s)
@@ -137,23 +137,7 @@ def summarise_network(scheme: Scheme, *, max_cycles: int = 50) -> NetworkSummary
     """
     graph = species_graph(scheme)
     order = {name: i for i, name in enumerate(graph.nodes)}
-    # roles follow the reactions as written: a reversible reaction A <=> B counts in its
-    # forward direction only (A is the starting material, B the product)
-    forward = [step for step in scheme.steps if step.direction == "forward"]
-    consumed = {step.reactant for step in forward}
-    formed = {p for step in forward for _, p in step.products if p != step.reactant}
-    roles = {}
-    for name, data in graph.nodes(data=True):
-        if data["excess"]:
-            roles[name] = "held in excess"
-        elif name in consumed and name in formed:
-            roles[name] = "intermediate"
-        elif name in consumed:
-            roles[name] = "starting material"
-        elif name in formed:
-            roles[name] = "end product"
-        else:
-            roles[name] = "inert"
+    roles = _roles(scheme, graph)
     # the graph of the matrix species without co-reactant edges, built directly (a copy
     # of a subgraph view costs seconds for 20,000 steps), nodes in matrix order
     matrix = set(scheme.index)
@@ -191,6 +175,30 @@ def summarise_network(scheme: Scheme, *, max_cycles: int = 50) -> NetworkSummary
     weak = [sorted(c, key=order.__getitem__) for c in nx.weakly_connected_components(matrix_graph)]
     weak.sort(key=lambda c: order[c[0]])
     return NetworkSummary(roles, pairs, cycles, components, weak if len(weak) > 1 else [])
+
+
+def _roles(scheme: Scheme, graph: nx.DiGraph) -> dict[str, str]:
+    """The role of every species (one of :data:`ROLES`) in the species graph of ``scheme``.
+
+    Roles follow the reactions as written: a reversible reaction A <=> B counts in its
+    forward direction only (A is the starting material, B the product).
+    """
+    forward = [step for step in scheme.steps if step.direction == "forward"]
+    consumed = {step.reactant for step in forward}
+    formed = {p for step in forward for _, p in step.products if p != step.reactant}
+    roles = {}
+    for name, data in graph.nodes(data=True):
+        if data["excess"]:
+            roles[name] = "held in excess"
+        elif name in consumed and name in formed:
+            roles[name] = "intermediate"
+        elif name in consumed:
+            roles[name] = "starting material"
+        elif name in formed:
+            roles[name] = "end product"
+        else:
+            roles[name] = "inert"
+    return roles
 
 
 @dataclass(frozen=True)

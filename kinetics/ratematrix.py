@@ -1,10 +1,10 @@
-"""The rate matrix K, the feed vector and their sparse forms.
+r"""The rate matrix K, the feed vector and their sparse forms.
 
-For a scheme of irreversible first-order steps :math:`X_r \\to \\sum_p \\nu_p X_p`
+For a scheme of irreversible first-order steps :math:`X_r \to \sum_p \nu_p X_p`
 with effective constants :math:`k_s` [1/s], the concentrations obey
 
-.. math:: \\frac{dc}{dt} = K c + f, \\qquad
-          K_{rr} \\mathrel{-}= k_s, \\quad K_{pr} \\mathrel{+}= \\nu_p k_s,
+.. math:: \frac{dc}{dt} = K c + f, \qquad
+          K_{rr} \mathrel{-}= k_s, \quad K_{pr} \mathrel{+}= \nu_p k_s,
 
 so column *j* of K describes what happens to species *j*: its diagonal entry is
 minus its total outflow, its off-diagonal entries (all >= 0) are the rates at
@@ -19,7 +19,7 @@ The engine receives K as a double-double pair :math:`K_{hi} + K_{lo}`: the step
 rates are the exact values of the constants as written (exact unit conversion,
 exact products with excess concentrations, Arrhenius constants to 40 digits)
 rounded to double-double, and the entries, above all the diagonal
-:math:`-\\sum k`, are summed without rounding.  A diagonal rounded to double would
+:math:`-\sum k`, are summed without rounding.  A diagonal rounded to double would
 act like a small spurious leak (or source) that slow modes feel over long times.
 """
 
@@ -58,7 +58,7 @@ __all__ = [
 
 @dataclass(frozen=True)
 class RatePattern:
-    """Sparse pattern of K: entry ``K[rows[e], cols[e]] += coefficients[e] * rates[steps[e]]``.
+    r"""Sparse pattern of K: entry ``K[rows[e], cols[e]] += coefficients[e] * rates[steps[e]]``.
 
     Attributes
     ----------
@@ -73,7 +73,7 @@ class RatePattern:
     (closed form of :func:`rate_pattern`):
 
     >>> import kinetics
-    >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\\nstart A = 1 M")
+    >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\nstart A = 1 M")
     >>> p = rate_pattern(s)
     >>> p.rows.tolist(), p.cols.tolist(), p.steps.tolist(), p.coefficients.tolist()
     ([0, 1, 1, 0], [0, 0, 1, 1], [0, 0, 1, 1], [-1.0, 1.0, -1.0, 1.0])
@@ -86,23 +86,23 @@ class RatePattern:
     coefficients: np.ndarray
 
     def values(self, rates: np.ndarray) -> np.ndarray:
-        """Entry values for step rates of shape ``(n_steps,)`` or ``(batch, n_steps)``.
+        r"""Entry values for step rates of shape ``(n_steps,)`` or ``(batch, n_steps)``.
 
         Examples
         --------
         Closed form :math:`c_e k_{s(e)}`: for A <=> B with rates 1 and 2 1/s:
 
         >>> import kinetics
-        >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\\nstart A = 1 M")
+        >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\nstart A = 1 M")
         >>> rate_pattern(s).values([1.0, 2.0]).tolist()
         [-1.0, 1.0, -2.0, 2.0]
         """
         return self.coefficients * np.asarray(rates)[..., self.steps]
 
     def dense_pair(self, rates, rates_low=None) -> tuple[np.ndarray, np.ndarray]:
-        """Dense K as a double-double pair ``(K_hi, K_lo)`` for step rates ``rates + rates_low``.
+        r"""Dense K as a double-double pair ``(K_hi, K_lo)`` for step rates ``rates + rates_low``.
 
-        Each entry :math:`\\sum_e c_e k_{s(e)}` is formed with error-free products and
+        Each entry :math:`\sum_e c_e k_{s(e)}` is formed with error-free products and
         double-double sums, so ``K_hi`` is the entry rounded once and ``K_lo`` the
         rest (a few units of :math:`2^{-106}` relative).
 
@@ -123,7 +123,7 @@ class RatePattern:
 
         >>> from fractions import Fraction
         >>> import kinetics
-        >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\\nstart A = 1 M")
+        >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\nstart A = 1 M")
         >>> Kh, Kl = rate_pattern(s).dense_pair(*s.rate_pairs)
         >>> abs(Fraction(Kh[1, 0]) + Fraction(Kl[1, 0]) - Fraction(1, 500)) < Fraction(1, 10**34)
         True
@@ -134,7 +134,7 @@ class RatePattern:
         return Kh.reshape(shape), Kl.reshape(shape)
 
     def dense(self, rates: np.ndarray) -> np.ndarray:
-        """Dense K of shape ``(n, n)`` or ``(batch, n, n)`` for the given step rates [1/s].
+        r"""Dense K of shape ``(n, n)`` or ``(batch, n, n)`` for the given step rates [1/s].
 
         Examples
         --------
@@ -142,21 +142,21 @@ class RatePattern:
         of :func:`rate_pattern`):
 
         >>> import kinetics
-        >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\\nstart A = 1 M")
+        >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\nstart A = 1 M")
         >>> rate_pattern(s).dense([[1.0, 2.0], [3.0, 4.0]]).tolist()
         [[[-1.0, 2.0], [1.0, -2.0]], [[-3.0, 4.0], [3.0, -4.0]]]
         """
         return self.dense_pair(rates)[0]
 
     def sparse_pair(self, rates, rates_low=None):
-        """K as a pair of CSR matrices with one pattern (see :meth:`dense_pair`).
+        r"""K as a pair of CSR matrices with one pattern (see :meth:`dense_pair`).
 
         Examples
         --------
         Closed form of :func:`rate_pattern`, as for :meth:`dense`:
 
         >>> import kinetics
-        >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\\nstart A = 1 M")
+        >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\nstart A = 1 M")
         >>> Kh, Kl = rate_pattern(s).sparse_pair([1.0, 2.0])
         >>> Kh.toarray().tolist(), Kl.nnz
         ([[-1.0, 2.0], [1.0, -2.0]], 4)
@@ -176,7 +176,7 @@ class RatePattern:
         return csr(Kh), csr(Kl)
 
     def sparse(self, rates: np.ndarray) -> scipy.sparse.csr_array:
-        """Sparse K (CSR, duplicates summed) for one set of step rates [1/s].
+        r"""Sparse K (CSR, duplicates summed) for one set of step rates [1/s].
 
         Examples
         --------
@@ -184,7 +184,7 @@ class RatePattern:
         :math:`K_{BA} = k_1 + k_2`):
 
         >>> import kinetics
-        >>> s = kinetics.parse("A -> B  k1 = 1 1/s\\nA -> B  k2 = 2 1/s\\nstart A = 1 M")
+        >>> s = kinetics.parse("A -> B  k1 = 1 1/s\nA -> B  k2 = 2 1/s\nstart A = 1 M")
         >>> rate_pattern(s).sparse([1.0, 2.0]).toarray().tolist()
         [[-3.0, 0.0], [3.0, 0.0]]
         """
@@ -203,12 +203,12 @@ class RatePattern:
 
 
 def rate_pattern(scheme: Scheme) -> RatePattern:
-    """Build the sparse pattern of the rate matrix of ``scheme``.
+    r"""Build the sparse pattern of the rate matrix of ``scheme``.
 
-    .. math:: K = \\sum_e c_e \\, k_{s(e)} \\, \\mathbf{e}_{r(e)} \\mathbf{e}_{q(e)}^\\mathsf{T}
+    .. math:: K = \sum_e c_e \, k_{s(e)} \, \mathbf{e}_{r(e)} \mathbf{e}_{q(e)}^\mathsf{T}
 
     Diagonal entries (outflows, :math:`c_e = -1`) come first for each step, then
-    the formation entries (:math:`c_e = \\nu_p`); excess products are dropped
+    the formation entries (:math:`c_e = \nu_p`); excess products are dropped
     (their concentration is held constant).
 
     Parameters
@@ -228,7 +228,7 @@ def rate_pattern(scheme: Scheme) -> RatePattern:
     above):
 
     >>> import kinetics
-    >>> rate_pattern(kinetics.parse("A -> 2 B  k1 = 0.5 1/s\\nstart A = 1 M")).dense([0.5])
+    >>> rate_pattern(kinetics.parse("A -> 2 B  k1 = 0.5 1/s\nstart A = 1 M")).dense([0.5])
     array([[-0.5,  0. ],
            [ 1. ,  0. ]])
     """
@@ -266,9 +266,9 @@ def step_rates(
     temperature: float | None = None,
     excess: dict[str, float] | None = None,
 ) -> np.ndarray:
-    """Effective first-order rate constant of each step [1/s].
+    r"""Effective first-order rate constant of each step [1/s].
 
-    .. math:: k_\\mathrm{eff} = k \\prod_j [W_j]^{\\nu_j}
+    .. math:: k_\mathrm{eff} = k \prod_j [W_j]^{\nu_j}
 
     The product is formed exactly (rational arithmetic) for constants given as
     numbers, so that a pseudo-first-order constant carries one rounding only.
@@ -307,12 +307,12 @@ def step_rates(
 
     Examples
     --------
-    Hydrolysis in water held in excess, closed form :math:`k_\\mathrm{eff} = k [W]`:
+    Hydrolysis in water held in excess, closed form :math:`k_\mathrm{eff} = k [W]`:
     1.5e-4 M⁻¹ s⁻¹ times 55 mol/L is 8.25e-3 1/s, and half of it at 27.5 mol/L:
 
     >>> import kinetics
     >>> s = kinetics.parse(
-    ...     "E + W -> F  k4 = 1.5e-4 M-1 s-1\\nexcess W = 55 mol/L\\nstart E = 1 M"
+    ...     "E + W -> F  k4 = 1.5e-4 M-1 s-1\nexcess W = 55 mol/L\nstart E = 1 M"
     ... )
     >>> step_rates(s), step_rates(s, excess={"W": 27.5})
     (array([0.00825]), array([0.004125]))
@@ -328,7 +328,7 @@ def step_rate_pairs(
     temperature: float | None = None,
     excess: dict[str, float] | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Effective rate constant of each step [1/s] as a double-double pair ``(hi, lo)``.
+    r"""Effective rate constant of each step [1/s] as a double-double pair ``(hi, lo)``.
 
     The same values as :func:`step_rates` (which returns ``hi``), with the low-order
     parts that make ``hi + lo`` the exact value of the constants as written to about
@@ -351,7 +351,7 @@ def step_rate_pairs(
 
     >>> from fractions import Fraction
     >>> import kinetics
-    >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\\nstart A = 1 M")
+    >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\nstart A = 1 M")
     >>> hi, lo = step_rate_pairs(s)
     >>> exact = Fraction(hi[0]) + Fraction(lo[0])
     >>> float(hi[0]), abs(exact - Fraction(1, 500)) < Fraction(1, 10**34)
@@ -384,7 +384,7 @@ def _exact_rates(scheme: Scheme, constants, temperature, excess) -> list:
 
 
 def _effective(scheme: Scheme, k: Fraction, co_reactants, excess) -> Fraction | float:
-    """k times the excess concentrations to their powers, exactly (``inf`` on overflow).
+    """K times the excess concentrations to their powers, exactly (``inf`` on overflow).
 
     Integer powers are exact rationals; other powers are evaluated to 40 decimal
     digits (:func:`kinetics._doubledouble.decimal_power`).
@@ -447,9 +447,9 @@ def _check_overrides(scheme: Scheme, constants, temperature, excess) -> None:
 
 
 def dense_rate_matrix(scheme: Scheme, rates: np.ndarray | None = None) -> np.ndarray:
-    """The dense rate matrix K [1/s] for step ``rates`` (default: the scheme's).
+    r"""The dense rate matrix K [1/s] for step ``rates`` (default: the scheme's).
 
-    .. math:: K_{rr} \\mathrel{-}= k_s, \\qquad K_{pr} \\mathrel{+}= \\nu_p k_s
+    .. math:: K_{rr} \mathrel{-}= k_s, \qquad K_{pr} \mathrel{+}= \nu_p k_s
 
     Parameters
     ----------
@@ -468,7 +468,7 @@ def dense_rate_matrix(scheme: Scheme, rates: np.ndarray | None = None) -> np.nda
     0.002 1/s and kr = 0.03 1/min = 0.0005 1/s:
 
     >>> import kinetics
-    >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\\nstart A = 1 M")
+    >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\nstart A = 1 M")
     >>> dense_rate_matrix(s).tolist()
     [[-0.002, 0.0005], [0.002, -0.0005]]
     """
@@ -481,10 +481,10 @@ DENSE_STORAGE_MAX = 200
 
 
 def rate_matrix_pair(scheme: Scheme):
-    """The scheme's rate matrix as a double-double pair ``(K_hi, K_lo)`` [1/s].
+    r"""The scheme's rate matrix as a double-double pair ``(K_hi, K_lo)`` [1/s].
 
     ``K_hi`` is every entry rounded once from the exact sum of the constants as
-    written, ``K_lo`` the rest, so the diagonal :math:`-\\sum k` reaches the engine
+    written, ``K_lo`` the rest, so the diagonal :math:`-\sum k` reaches the engine
     unrounded.  Read-only dense arrays up to :data:`DENSE_STORAGE_MAX` species, CSR
     matrices above.
 
@@ -493,7 +493,7 @@ def rate_matrix_pair(scheme: Scheme):
     Two outflows of 0.1 and 0.2 1/s: the diagonal is exactly -0.3, which no double is.
 
     >>> import kinetics
-    >>> s = kinetics.parse("A -> B  k1 = 0.1 1/s\\nA -> C  k2 = 0.2 1/s\\nstart A = 1 M")
+    >>> s = kinetics.parse("A -> B  k1 = 0.1 1/s\nA -> C  k2 = 0.2 1/s\nstart A = 1 M")
     >>> Kh, Kl = rate_matrix_pair(s)
     >>> from fractions import Fraction
     >>> Fraction(Kh[0, 0]) + Fraction(Kl[0, 0]) + Fraction(3, 10) < Fraction(1, 10**32)
@@ -509,7 +509,7 @@ def rate_matrix_pair(scheme: Scheme):
 
 
 def sparse_rate_matrix(scheme: Scheme, rates: np.ndarray | None = None) -> scipy.sparse.csr_array:
-    """The rate matrix K [1/s] in CSR form for step ``rates`` (default: the scheme's).
+    r"""The rate matrix K [1/s] in CSR form for step ``rates`` (default: the scheme's).
 
     Parameters
     ----------
@@ -527,7 +527,7 @@ def sparse_rate_matrix(scheme: Scheme, rates: np.ndarray | None = None) -> scipy
     The same K as :func:`dense_rate_matrix` (closed form there), stored sparse:
 
     >>> import kinetics
-    >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\\nstart A = 1 M")
+    >>> s = kinetics.parse("A <=> B  kf = 0.12 1/min, kr = 0.03 1/min\nstart A = 1 M")
     >>> sparse_rate_matrix(s).toarray().tolist()
     [[-0.002, 0.0005], [0.002, -0.0005]]
     """

@@ -73,7 +73,7 @@ class Requirement:
         return bool(out) if out.ndim == 0 else out
 
     def for_start(self, initial: Mapping[str, float]) -> Requirement:
-        """This requirement for new start values (a percentage follows its start value).
+        """The requirement for new start values (a percentage follows its start value).
 
         Examples
         --------

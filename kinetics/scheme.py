@@ -80,9 +80,9 @@ class Species:
 
 @dataclass(frozen=True, slots=True)
 class Arrhenius:
-    """Arrhenius parameters of a rate constant.
+    r"""Arrhenius parameters of a rate constant.
 
-    .. math:: k(T) = A \\exp\\left(-\\frac{E_a}{R T}\\right)
+    .. math:: k(T) = A \exp\left(-\frac{E_a}{R T}\right)
 
     Attributes
     ----------
@@ -104,7 +104,7 @@ class Arrhenius:
     energy_text: str = ""
 
     def at(self, temperature: float) -> float:
-        """The constant in SI units at ``temperature`` [K] (``inf`` if it overflows).
+        r"""The constant in SI units at ``temperature`` [K] (``inf`` if it overflows).
 
         Parameters
         ----------
@@ -114,7 +114,7 @@ class Arrhenius:
         Returns
         -------
         float
-            :math:`A \\exp(-E_a / R T)` in SI base units [1/s for first order],
+            :math:`A \exp(-E_a / R T)` in SI base units [1/s for first order],
             correctly rounded from :meth:`exact`.
 
         Examples
@@ -135,7 +135,7 @@ class Arrhenius:
         return dd.pair(self.exact(temperature))[0]
 
     def exact(self, temperature: float) -> Fraction:
-        """:math:`A \\exp(-E_a/RT)` from the given A, Ea and T, to 40 decimal digits.
+        r""":math:`A \exp(-E_a/RT)` from the given A, Ea and T, to 40 decimal digits.
 
         The prefactor is the exact SI value of what the file wrote, ``Ea`` and the
         temperature are taken as the doubles given, and R is the exact CODATA 2018 value
@@ -286,7 +286,7 @@ class RateConstant:
     derived: Dependencies | None = None
 
     def exact(self, temperature: float | None) -> Fraction:
-        """The exact constant in SI base units (at ``temperature`` [K] when it depends on one).
+        r"""The exact constant in SI base units (at ``temperature`` [K] when it depends on one).
 
         Raises
         ------
@@ -299,7 +299,7 @@ class RateConstant:
         table 8):
 
         >>> from kinetics import parse
-        >>> parse("A -> B  k1 = 0.12 1/min\\nstart A = 1 M").constants["k1"].exact(None)
+        >>> parse("A -> B  k1 = 0.12 1/min\nstart A = 1 M").constants["k1"].exact(None)
         Fraction(1, 500)
         """
         if self.value_si is not None:
@@ -312,7 +312,7 @@ class RateConstant:
         return self.derived.value(self.name, temperature)
 
     def si_value(self, temperature: float | None) -> float:
-        """The constant in SI base units (at ``temperature`` [K] for Arrhenius ones).
+        r"""The constant in SI base units (at ``temperature`` [K] for Arrhenius ones).
 
         Examples
         --------
@@ -320,9 +320,9 @@ class RateConstant:
         298.15 K, rounded once:
 
         >>> from kinetics import parse
-        >>> s = parse("A -> B  k1 = 0.12 1/min\\n"
-        ...           "B -> C  k2 = arrhenius(A = 1e13 1/s, Ea = 100 kJ/mol)\\n"
-        ...           "temperature = 25 degC\\nstart A = 1 mmol/L")
+        >>> s = parse("A -> B  k1 = 0.12 1/min\n"
+        ...           "B -> C  k2 = arrhenius(A = 1e13 1/s, Ea = 100 kJ/mol)\n"
+        ...           "temperature = 25 degC\nstart A = 1 mmol/L")
         >>> s.constants["k2"].si_value(298.15)
         3.0252269963687423e-05
         """
@@ -369,15 +369,20 @@ class Step:
 
     @property
     def key(self) -> tuple:
-        """What the step does, independent of how it is written and of its constant:
-        reactant, co-reactants and products with their coefficients, each sorted by name.
-        Two steps with one key are parallel (their rates add up)."""
+        """What the step does, independent of how it is written and of its constant.
+
+        Reactant, co-reactants and products with their coefficients, each sorted by
+        name. Two steps with one key are parallel (their rates add up).
+        """
         return (self.reactant, _merged(self.co_reactants), _merged(self.products))
 
     @property
     def equation(self) -> str:
-        """The step written out, e.g. ``A + W -> B`` (``P -> (untracked)`` for the share of
-        a decay that goes to no species of the scheme)."""
+        """The step written out, e.g. ``A + W -> B``.
+
+        ``P -> (untracked)`` for the share of a decay that goes to no species of the
+        scheme.
+        """
         left = " + ".join([self.reactant] + [_term(c, n) for c, n in self.co_reactants])
         right = " + ".join(_term(c, n) for c, n in self.products) or "(untracked)"
         return f"{left} -> {right}"
@@ -514,7 +519,7 @@ class Scheme:
 
     @property
     def concentration_si(self) -> Fraction:
-        """The SI value of one :attr:`concentration_unit` [mol/m^3], exact.
+        r"""The SI value of one :attr:`concentration_unit` [mol/m^3], exact.
 
         Examples
         --------
@@ -522,7 +527,7 @@ class Scheme:
         2019, table 8 for the litre):
 
         >>> from kinetics import parse
-        >>> parse("A -> B  k1 = 1 1/s\\nstart A = 1 mmol/L").concentration_si
+        >>> parse("A -> B  k1 = 1 1/s\nstart A = 1 mmol/L").concentration_si
         Fraction(1, 1)
         """
         return self._unit_factor
@@ -585,11 +590,11 @@ class Scheme:
     def step_rates(
         self, constants: dict[str, float] | None = None, temperature: float | None = None
     ) -> np.ndarray:
-        """Effective first-order rate constant of every step [1/s].
+        r"""Effective first-order rate constant of every step [1/s].
 
-        .. math:: k_\\mathrm{eff} = k \\prod_j [W_j]^{\\nu_j}
+        .. math:: k_\mathrm{eff} = k \prod_j [W_j]^{\nu_j}
 
-        for excess co-reactants :math:`W_j` with coefficients :math:`\\nu_j`.
+        for excess co-reactants :math:`W_j` with coefficients :math:`\nu_j`.
 
         Parameters
         ----------
@@ -606,13 +611,13 @@ class Scheme:
         Examples
         --------
         From 25 to 35 degC the Arrhenius constant grows by the closed form
-        :math:`\\exp(E_a/R\\,(1/T_1 - 1/T_2))`, the plain one stays:
+        :math:`\exp(E_a/R\,(1/T_1 - 1/T_2))`, the plain one stays:
 
         >>> import math
         >>> from kinetics import parse
-        >>> s = parse("A -> B  k1 = 0.12 1/min\\n"
-        ...           "B -> C  k2 = arrhenius(A = 1e13 1/s, Ea = 100 kJ/mol)\\n"
-        ...           "temperature = 25 degC\\nstart A = 1 mmol/L")
+        >>> s = parse("A -> B  k1 = 0.12 1/min\n"
+        ...           "B -> C  k2 = arrhenius(A = 1e13 1/s, Ea = 100 kJ/mol)\n"
+        ...           "temperature = 25 degC\nstart A = 1 mmol/L")
         >>> cold, hot = s.step_rates(), s.step_rates(temperature=308.15)
         >>> bool(hot[0] == cold[0]), round(float(hot[1] / cold[1]), 4)
         (True, 3.7028)
@@ -639,7 +644,7 @@ class Scheme:
 
     @cached_property
     def rates(self) -> np.ndarray:
-        """Effective rate constant of every step at the scheme's values [1/s].
+        r"""Effective rate constant of every step at the scheme's values [1/s].
 
         Examples
         --------
@@ -647,9 +652,9 @@ class Scheme:
         form :math:`A e^{-E_a/RT}` at 25 degC:
 
         >>> from kinetics import parse
-        >>> s = parse("A -> B  k1 = 0.12 1/min\\n"
-        ...           "B -> C  k2 = arrhenius(A = 1e13 1/s, Ea = 100 kJ/mol)\\n"
-        ...           "temperature = 25 degC\\nstart A = 1 mmol/L")
+        >>> s = parse("A -> B  k1 = 0.12 1/min\n"
+        ...           "B -> C  k2 = arrhenius(A = 1e13 1/s, Ea = 100 kJ/mol)\n"
+        ...           "temperature = 25 degC\nstart A = 1 mmol/L")
         >>> s.rates.tolist()
         [0.002, 3.0252269963687423e-05]
         """
@@ -669,16 +674,16 @@ class Scheme:
         return self._rate_matrix_pair
 
     def rate_matrix(self) -> np.ndarray:
-        """The rate matrix K [1/s], dense, species × species in matrix order.
+        r"""The rate matrix K [1/s], dense, species × species in matrix order.
 
-        .. math:: \\frac{dc}{dt} = K c + f
+        .. math:: \frac{dc}{dt} = K c + f
 
         Examples
         --------
         A chain A -> B -> C: K = [[-k1, 0, 0], [k1, -k2, 0], [0, k2, 0]] (closed form):
 
         >>> from kinetics import parse
-        >>> parse("A -> B  k1 = 2 1/s\\nB -> C  k2 = 1 1/s\\nstart A = 1 M").rate_matrix().tolist()
+        >>> parse("A -> B  k1 = 2 1/s\nB -> C  k2 = 1 1/s\nstart A = 1 M").rate_matrix().tolist()
         [[-2.0, 0.0, 0.0], [2.0, -1.0, 0.0], [0.0, 1.0, 0.0]]
         """
         from .ratematrix import dense_rate_matrix
@@ -692,14 +697,14 @@ class Scheme:
         return sparse_rate_matrix(self, self.rates)
 
     def constant_per_second(self, name: str) -> float:
-        """A first-order constant in 1/s, or a higher-order one in SI base units.
+        r"""A first-order constant in 1/s, or a higher-order one in SI base units.
 
         Examples
         --------
         0.12 1/min is 0.002 1/s (1 min = 60 s, SI brochure, 9th edition, 2019, table 8):
 
         >>> from kinetics import parse
-        >>> parse("A -> B  k1 = 0.12 1/min\\nstart A = 1 M").constant_per_second("k1")
+        >>> parse("A -> B  k1 = 0.12 1/min\nstart A = 1 M").constant_per_second("k1")
         0.002
         """
         return self.constants[name].si_value(self.temperature)
@@ -709,7 +714,7 @@ class Scheme:
         temperature: float | None = None,
         quantities: dict[str, float | Fraction] | None = None,
     ) -> dict[str, Fraction]:
-        """The exact value of every rate constant, following the named quantities.
+        r"""The exact value of every rate constant, following the named quantities.
 
         Plain values as written, temperature laws at ``temperature`` (40 digits), derived
         constants from new values of what they follow (:mod:`kinetics.definitions`).
@@ -740,7 +745,7 @@ class Scheme:
         Examples
         --------
         >>> from kinetics import parse
-        >>> scheme = parse("t_p = 50 h\\nP -> D  lam = ln(2) / t_p\\nstart P = 1 mol")
+        >>> scheme = parse("t_p = 50 h\nP -> D  lam = ln(2) / t_p\nstart P = 1 mol")
         >>> lam = scheme.exact_constants(quantities={"t_p": Fraction(36000)})["lam"]
         >>> round(float(lam) * 36000, 12), scheme.driven_by("t_p")  # ln 2 for t_p = 10 h
         (0.69314718056, ('lam',))
@@ -751,21 +756,23 @@ class Scheme:
 
     @property
     def temperature_constants(self) -> tuple[str, ...]:
-        """The rate constants whose values follow the temperature.
+        r"""The rate constants whose values follow the temperature.
 
         Arrhenius lines, Eyring and Q10 laws, and constants defined from them: the ones
         without a fixed value (``value_si`` None).
 
         >>> from kinetics import parse
-        >>> parse("A -> B  k1 = arrhenius(A = 1e13 1/s, Ea = 95 kJ/mol)\\n"
-        ...       "temperature = 60 degC\\nstart A = 1 M").temperature_constants
+        >>> parse("A -> B  k1 = arrhenius(A = 1e13 1/s, Ea = 95 kJ/mol)\n"
+        ...       "temperature = 60 degC\nstart A = 1 M").temperature_constants
         ('k1',)
         """
         return tuple(name for name, c in self.constants.items() if c.value_si is None)
 
     def driven_by(self, name: str) -> tuple[str, ...]:
-        """The rate constants whose values follow from the named quantity ``name`` (see
-        the example of :meth:`exact_constants`)."""
+        """The rate constants whose values follow from the named quantity ``name``.
+
+        See the example of :meth:`exact_constants`.
+        """
         _named_value(self, name, 0)
         return tuple(n for n in self.dependencies.driven_by(name) if n in self.constants)
 
@@ -911,8 +918,11 @@ def _named_value(scheme: Scheme, name: str, value) -> Fraction:
 
 
 def _follow_starts(scheme: Scheme, changed: bool) -> Scheme:
-    """Start values written as activities from the scheme's decay constants; thresholds
-    written as percentages of start values from the start values."""
+    """Start values and thresholds that follow the start values.
+
+    Start values written as activities from the scheme's decay constants; thresholds written
+    as percentages of start values from the start values.
+    """
     initial = scheme.initial
     if scheme.start_activities:
         initial = {**initial, **activity.start_amounts(scheme, scheme.start_activities)}

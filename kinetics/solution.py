@@ -195,13 +195,13 @@ class Solution:
     _amounts: np.ndarray | None = field(default=None, repr=False)  # in the scheme's unit
 
     def in_unit(self, unit: str) -> Solution:
-        """The same solution with concentrations in another unit.
+        r"""The same solution with concentrations in another unit.
 
         Mass units are applied per species with its molar mass; "% of applied" is the
         percentage of the total amount at time zero (see :mod:`kinetics.amounts`).
 
-        .. math:: m_i(t) = n_i(t)\\, M_i, \\qquad
-                  p_i(t) = 100\\, n_i(t) / \\textstyle\\sum_j n_j(0)
+        .. math:: m_i(t) = n_i(t)\, M_i, \qquad
+                  p_i(t) = 100\, n_i(t) / \textstyle\sum_j n_j(0)
 
         Parameters
         ----------
@@ -223,7 +223,7 @@ class Solution:
         Examples
         --------
         >>> import kinetics
-        >>> s = kinetics.parse("A -> B  k1 = 1 1/s\\nstart A = 0.5 M\\nformula A = H2O, B = H2O")
+        >>> s = kinetics.parse("A -> B  k1 = 1 1/s\nstart A = 0.5 M\nformula A = H2O, B = H2O")
         >>> # 0.5 mol/L times 18.015 g/mol (water, standard atomic weights)
         >>> float(kinetics.solve(s, [0.0]).in_unit("g/L").concentrations[0, 0])
         9.0075
@@ -256,7 +256,7 @@ class Solution:
             ) from None
 
     def to_frame(self, time_unit: str = "s") -> pd.DataFrame:
-        """The table as a DataFrame with unit-labelled columns.
+        r"""The table as a DataFrame with unit-labelled columns.
 
         Columns are ``time [<time_unit>]`` then ``<species> [<concentration_unit>]``.
 
@@ -271,7 +271,7 @@ class Solution:
         10 min (1 min = 60 s, SI brochure, 9th edition, 2019, table 8):
 
         >>> import kinetics
-        >>> s = kinetics.parse("A -> B  k1 = 0.1 1/min\\nstart A = 1 mol/L")
+        >>> s = kinetics.parse("A -> B  k1 = 0.1 1/min\nstart A = 1 mol/L")
         >>> frame = kinetics.solve(s, [0.0, 600.0]).to_frame("min")
         >>> frame.columns.tolist(), frame["time [min]"].tolist()
         (['time [min]', 'A [mol/L]', 'B [mol/L]'], [0.0, 10.0])
@@ -287,7 +287,7 @@ class Solution:
         return pd.DataFrame(data)
 
     def summary(self, time_unit: str = "s") -> dict[str, dict]:
-        """The exact summary quantities of every species, times in ``time_unit``.
+        r"""The exact summary quantities of every species, times in ``time_unit``.
 
         Half-lives, maxima, long-time limits and the other quantities of
         :func:`kinetics.analysis.summarise`, computed on the exact solution over
@@ -312,7 +312,7 @@ class Solution:
         (Bateman 1910):
 
         >>> import kinetics
-        >>> s = kinetics.parse("A -> B  k1 = 0.1 1/min\\nB -> C  k2 = 0.05 1/min\\n"
+        >>> s = kinetics.parse("A -> B  k1 = 0.1 1/min\nB -> C  k2 = 0.05 1/min\n"
         ...                    "start A = 1 mol/L")
         >>> summary = kinetics.solve(s, [0.0, 1200.0]).summary("min")
         >>> a, b = summary["A"], summary["B"]
@@ -393,9 +393,9 @@ class Solution:
 
 
 def solve(scheme: Scheme, times) -> Solution:
-    """Solve a scheme exactly on a list of times.
+    r"""Solve a scheme exactly on a list of times.
 
-    .. math:: c(t) = e^{tK} c_0 + \\int_0^t e^{sK}\\,ds\\, f
+    .. math:: c(t) = e^{tK} c_0 + \int_0^t e^{sK}\,ds\, f
 
     Parameters
     ----------
@@ -413,7 +413,7 @@ def solve(scheme: Scheme, times) -> Solution:
     Closed form c_A = c_A(0) e^(-kt): e^-1 = 0.367879441171 after 1 s at k = 1 1/s:
 
     >>> import kinetics
-    >>> s = kinetics.parse("A -> B  k1 = 1 1/s\\nstart A = 1 mol/L")
+    >>> s = kinetics.parse("A -> B  k1 = 1 1/s\nstart A = 1 mol/L")
     >>> round(float(kinetics.solve(s, [0, 1]).concentrations[1, 0]), 12)
     0.367879441171
     """

@@ -546,7 +546,7 @@ def convert(value: float, from_unit: str, to_unit: str) -> float:
 
 
 def temperature_to_kelvin(value: float | Fraction, unit: str) -> float:
-    """Convert a temperature to kelvin (accepts K, degC, degF and °C).
+    r"""Convert a temperature to kelvin (accepts K, degC, degF and °C).
 
     Parameters
     ----------
@@ -567,7 +567,7 @@ def temperature_to_kelvin(value: float | Fraction, unit: str) -> float:
 
     Notes
     -----
-    .. math:: T/\\mathrm{K} = t/{}^\\circ\\mathrm{C} + 273.15
+    .. math:: T/\mathrm{K} = t/{}^\circ\mathrm{C} + 273.15
 
     computed exactly (rational arithmetic) and rounded once.
 
@@ -577,8 +577,8 @@ def temperature_to_kelvin(value: float | Fraction, unit: str) -> float:
 
     Examples
     --------
-    Closed forms of the scales: :math:`T/\\mathrm{K} = t/{}^\\circ\\mathrm{C} + 273.15`
-    and :math:`T/\\mathrm{K} = (t/{}^\\circ\\mathrm{F} + 459.67) \\cdot 5/9`, so water boils
+    Closed forms of the scales: :math:`T/\mathrm{K} = t/{}^\circ\mathrm{C} + 273.15`
+    and :math:`T/\mathrm{K} = (t/{}^\circ\mathrm{F} + 459.67) \cdot 5/9`, so water boils
     (at 1 atm) near 100 degC = 212 degF = 373.15 K:
 
     >>> temperature_to_kelvin(25.0, "degC"), temperature_to_kelvin(212, "degF")
@@ -909,6 +909,24 @@ def parse_time_list(text: str, option: str = "--times") -> tuple[list[float], st
         raise TimesError(
             f"{quoted} is too long (at most {MAX_DURATION_TEXT:,} characters)", example
         )
+    numbers, unit = _numbers_and_unit(text, quoted, example)
+    try:
+        factor = time_factor(unit)
+    except TimesError as exc:
+        raise TimesError(f"{quoted}: {exc.problem}", exc.hint) from None
+    values = _ordered_times(numbers, unit, quoted, example)
+    seconds = [v * factor for v, _ in values]
+    if not math.isfinite(seconds[-1]):
+        raise TimesError(
+            f"{quoted}: {values[-1][1]} {unit} is beyond the range of double precision in "
+            "seconds (about 1.8e308 s)",
+            example,
+        )
+    return seconds, unit
+
+
+def _numbers_and_unit(text: str, quoted: str, example: str) -> tuple[list[str], str]:
+    """The numbers of a time list as written and its unit (written once, at the end)."""
     pieces = [p.strip() for p in text.split(",")]
     if not pieces[-1]:
         raise TimesError(f"{quoted} is not a list of times with one unit", example)
@@ -923,12 +941,15 @@ def parse_time_list(text: str, option: str = "--times") -> tuple[list[float], st
         raise TimesError(
             f"{quoted} does not end with a unit of time", example + " (unit once, at the end)"
         )
-    try:
-        factor = time_factor(unit)
-    except TimesError as exc:
-        raise TimesError(f"{quoted}: {exc.problem}", exc.hint) from None
+    return [*pieces[:-1], number], unit
+
+
+def _ordered_times(
+    numbers: list[str], unit: str, quoted: str, example: str
+) -> list[tuple[float, str]]:
+    """The times in the list's unit with their text: finite, >= 0 and in increasing order."""
     values: list[tuple[float, str]] = []
-    for piece in [*pieces[:-1], number]:
+    for piece in numbers:
         value = float(piece)
         if not math.isfinite(value):
             raise TimesError(f"{quoted}: {shorten(piece)} {unit} is not a finite time", example)
@@ -944,11 +965,4 @@ def parse_time_list(text: str, option: str = "--times") -> tuple[list[float], st
                 "sort the time list",
             )
         values.append((value, shorten(piece)))
-    seconds = [v * factor for v, _ in values]
-    if not math.isfinite(seconds[-1]):
-        raise TimesError(
-            f"{quoted}: {values[-1][1]} {unit} is beyond the range of double precision in "
-            "seconds (about 1.8e308 s)",
-            example,
-        )
-    return seconds, unit
+    return values

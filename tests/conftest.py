@@ -37,12 +37,12 @@ def chain_matrix(ks: Sequence[float]) -> np.ndarray:
 
 
 def bateman_chain(ks: Sequence[float], c0: float, t) -> np.ndarray:
-    """Members 1..n of the chain ``chain_matrix(ks)`` started with ``c0`` in S0 only.
+    r"""Members 1..n of the chain ``chain_matrix(ks)`` started with ``c0`` in S0 only.
 
     Bateman, Proc. Cambridge Philos. Soc. 15, 423 (1910), for distinct constants:
 
-    .. math:: c_n(t) = c_0 \\prod_{i<n} k_i \\sum_{i \\le n}
-              \\frac{e^{-k_i t}}{\\prod_{j \\ne i} (k_j - k_i)}
+    .. math:: c_n(t) = c_0 \prod_{i<n} k_i \sum_{i \le n}
+              \frac{e^{-k_i t}}{\prod_{j \ne i} (k_j - k_i)}
 
     summed over the n decaying members (the stable end member is not returned).
 

@@ -1,5 +1,6 @@
-"""Static checks that CI runs through the test command: mypy on the package, ruff on the
-repository (both configured in pyproject.toml).
+"""Static checks that CI runs through the test command.
+
+mypy on the package, ruff on the repository (both configured in pyproject.toml).
 
 Run as tests (rather than as extra steps of ``.ci/run``) so that CI keeps running exactly
 README's test command, and a contributor's ``python -m pytest`` sees what CI sees.

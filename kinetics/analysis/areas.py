@@ -25,8 +25,10 @@ __all__ = ["areas", "areas_to", "mean_residence_time", "residence_times"]
 
 
 def areas_to(problem: Problem, times_end: np.ndarray) -> np.ndarray:
-    r"""Exact :math:`\int_0^T c\,dt` [conc*s] for each T of ``times_end``, shape (len, n),
-    via the augmented system d(area)/dt = c (Van Loan 1978)."""
+    r"""Exact :math:`\int_0^T c\,dt` [conc*s] for each T of ``times_end``, shape (len, n).
+
+    Via the augmented system d(area)/dt = c (Van Loan 1978).
+    """
     n = problem.n
     Kal = None
     if problem.Kd is not None:

@@ -1,5 +1,6 @@
-r"""Crossings of levels: times to a fraction of the start value (half-life, DT50, DT90,
-t90) and the time after which every species stays near its limit.
+r"""Crossings of levels: times to a fraction of the start value and to the limit.
+
+Half-life, DT50, DT90 and t90, and the time after which every species stays near its limit.
 
 Each crossing is bracketed between consecutive samples of the curve (scan points and
 turning points, so the curve is monotone between them) and refined by
@@ -33,8 +34,10 @@ __all__ = [
 
 
 class Crossing(NamedTuple):
-    """One level crossing to find: c_i is monotone between samples ``ka`` and ``kb`` and
-    crosses ``level`` [conc] there."""
+    """One level crossing to find.
+
+    c_i is monotone between samples ``ka`` and ``kb`` and crosses ``level`` [conc] there.
+    """
 
     species: int
     samples: tuple[np.ndarray, ...]
@@ -123,8 +126,10 @@ def fraction_times(survey: Survey, requests: Sequence[tuple[int, float]]) -> lis
 
 
 def _settling_problem(survey: Survey, i: int, thr: float) -> Crossing | float:
-    """The last exit of c_i from the band of half-width ``thr`` around its limit; 0.0 when
-    it never leaves the band, inf when it does not settle within the scan."""
+    """The last exit of c_i from the band of half-width ``thr`` around its limit.
+
+    0.0 when it never leaves the band, inf when it does not settle within the scan.
+    """
     L = survey.limits.limit.values
     smp = survey.samples(i)
     v = smp[1]
@@ -144,8 +149,10 @@ def _settling_problem(survey: Survey, i: int, thr: float) -> Crossing | float:
 
 
 def settling_times(survey: Survey, tolerance: float) -> TimeToLimit:
-    """Time after which each species (and the whole scheme) stays within ``tolerance``
-    of its limit (module Definitions of :mod:`kinetics.analysis`)."""
+    """Time after which each species (and the scheme) stays within ``tolerance`` of its limit.
+
+    See the module Definitions of :mod:`kinetics.analysis`.
+    """
     problem = survey.problem
     lim = survey.limits.limit
     per = np.full(problem.n, np.nan)

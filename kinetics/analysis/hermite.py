@@ -1,5 +1,6 @@
-"""Hermite interpolation of a function from its values and derivatives at both ends of
-an interval: the start of the root finder and the check for hidden turning points.
+"""Hermite interpolation of a function from its values and derivatives at both ends.
+
+Over an interval: the start of the root finder and the check for hidden turning points.
 
 References
 ----------

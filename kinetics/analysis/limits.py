@@ -42,8 +42,11 @@ class LimitParts:
 
 @dataclass(frozen=True)
 class _Degrees:
-    """Per class the growth degree q; per species the limit L, the area to infinity X and
-    the growth rate (slope [conc/s] or exponent [1/s], nan when bounded)."""
+    """Growth degrees, limits, areas to infinity and growth rates of a problem.
+
+    Per class the growth degree q; per species the limit L, the area to infinity X and the
+    growth rate (slope [conc/s] or exponent [1/s], nan when bounded).
+    """
 
     q: np.ndarray
     L: np.ndarray
@@ -52,8 +55,10 @@ class _Degrees:
 
 
 def _degree(kind: str, forcing: int) -> int:
-    """Growth degree of a class of this kind, forced by upstream classes of degree
-    ``forcing`` (t^q: a critical class integrates what flows in, one power higher)."""
+    """Growth degree of a class of this kind, forced by upstream classes of degree ``forcing``.
+
+    t^q: a critical class integrates what flows in, one power higher.
+    """
     if kind == GROWING or forcing >= EXPONENTIAL:
         return EXPONENTIAL
     if kind == CRITICAL:
@@ -96,8 +101,10 @@ def _degrees(p: Problem) -> _Degrees:
 
 
 def _growth_rate(p: Problem, c: int, q, L, rate, gexp) -> None:
-    """Slope of a linearly growing class or exponent of an exponentially growing one
-    (in place in ``rate`` and ``gexp``)."""
+    """Slope of a linearly growing class or exponent of an exponentially growing one.
+
+    In place in ``rate`` and ``gexp``.
+    """
     st = p.struct
     cl = st.classes[c]
     idx = cl.members

@@ -1,5 +1,7 @@
-r"""One analysis problem: a checked rate matrix, start values, feed, names and window,
-with the exact curve :math:`c(t)` and its exact derivative :math:`d = Kc + f`.
+r"""One analysis problem with its exact curve and derivative.
+
+A checked rate matrix, start values, feed, names and window, with the exact curve :math:`c(t)`
+and its exact derivative :math:`d = Kc + f`.
 
 Every attribute is set when the problem is built; the scan, the turning points, the
 limits and the areas are computed from it by the functions of the other modules.
@@ -30,8 +32,11 @@ _DOUBLE_SIGMA_T = 1e4
 
 @dataclass(frozen=True)
 class State:
-    """The curve at some times: c [conc], :math:`d = Kc + f` [conc/s] and the rounding
-    noise of ``d`` [conc/s], each of shape (times, n)."""
+    """The curve at some times: c, its derivative and the derivative's rounding noise.
+
+    c [conc], :math:`d = Kc + f` [conc/s] and the rounding noise of ``d`` [conc/s], each of
+    shape (times, n).
+    """
 
     C: np.ndarray
     D: np.ndarray
@@ -115,12 +120,14 @@ class Problem:
         return (self.Ks @ X.T).T
 
     def noise_of_product(self, N: np.ndarray, D: np.ndarray) -> np.ndarray:
-        """Rounding noise of the rows of K D, from the noise N of D: :math:`|K| (N +
-        10^{-12} |D|)`, row by row."""
+        """Rounding noise of the rows of K D, from the noise N of D.
+
+        :math:`|K| (N + 10^{-12} |D|)`, row by row.
+        """
         return (self.absK @ (N + REL_NOISE_D * np.abs(D)).T).T
 
     def propagate(self, times: np.ndarray, precision: str | None = None) -> np.ndarray:
-        """c at arbitrary (unsorted) times [conc], one engine call."""
+        """C at arbitrary (unsorted) times [conc], one engine call."""
         times = np.asarray(times, dtype=float)
         if times.size == 0:
             return np.zeros((0, self.n))
@@ -161,8 +168,10 @@ class Problem:
         return State(C, D, N)
 
     def _split_derivative(self, t: np.ndarray, rows: np.ndarray, D, N) -> None:
-        """Replace d (and its noise) at ``rows`` by :math:`e^{tK}g^+ - e^{tK}g^-` where
-        that has the smaller noise (in place)."""
+        """Replace d and its noise at ``rows`` by the split evaluation where it is less noisy.
+
+        The split evaluation is :math:`e^{tK}g^+ - e^{tK}g^-` (in place).
+        """
         order = np.argsort(t, kind="stable")
         Kd = self.Kd
         Kl = np.zeros_like(Kd) if self.K_low is None else self.K_low
@@ -184,14 +193,14 @@ class Problem:
         N[rows] = np.where(better, N_split, N[rows])
 
     def solve_block(self, cl: Class, rhs: np.ndarray) -> np.ndarray:
-        """x = (-K_CC)^{-1} rhs for a decaying class (a nonsingular M-matrix)."""
+        """X = (-K_CC)^{-1} rhs for a decaying class (a nonsingular M-matrix)."""
         idx = cl.members
         if idx.size == 1:
             return rhs / -float(self.Ks[idx[0], idx[0]])
         return scipy.linalg.solve(-block(self.Ks, self.Kd, idx), rhs)
 
     def inflow(self, cl: Class, x: np.ndarray) -> np.ndarray:
-        """sum over other species j of K[i, j] x_j for the members i of a class."""
+        """Sum over other species j of K[i, j] x_j for the members i of a class."""
         idx = cl.members
         rows = self.Ks[idx]
         tot = rows @ x

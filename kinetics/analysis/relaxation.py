@@ -1,5 +1,7 @@
-r"""Time scales of a scheme from its rate matrix: first-order lifetimes, relaxation
-times and oscillation periods, and whether K is (nearly) defective.
+r"""Time scales of a scheme from its rate matrix.
+
+First-order lifetimes, relaxation times and oscillation periods, and whether K is (nearly)
+defective.
 
 References
 ----------
@@ -56,8 +58,10 @@ def _ill_conditioned(Ks, Kd, members: np.ndarray) -> bool:
 
 
 def _repeated_along_paths(st: Structure, evs: np.ndarray, owner: np.ndarray):
-    """Pairs of eigenvalues of two classes linked by a reaction path that are equal (to
-    1e-10) or nearly equal (to 1e-3), upstream class first."""
+    """Equal or nearly equal eigenvalues of two classes linked by a reaction path.
+
+    Pairs equal to 1e-10 or nearly equal to 1e-3, upstream class first.
+    """
     exact, near = [], []
     srt = np.argsort(evs.real, kind="stable")
     for a_pos in range(srt.size):

@@ -30,7 +30,7 @@ __all__ = [
 
 @dataclass(frozen=True)
 class Maximum:
-    """One local maximum of a concentration curve.
+    r"""One local maximum of a concentration curve.
 
     Attributes
     ----------
@@ -44,7 +44,7 @@ class Maximum:
         True when ``time`` lies after the end of the chosen time window.
     is_global : bool
         True for the highest local maximum when it is also the maximum over all
-        :math:`t \\ge 0` (at least the start value and the long-time limit).
+        :math:`t \ge 0` (at least the start value and the long-time limit).
     """
 
     species: int
@@ -54,6 +54,7 @@ class Maximum:
     is_global: bool = False
 
     def to_dict(self) -> dict[str, Any]:
+        """JSON-ready form (non-finite numbers as None)."""
         return {
             "time": finite_or_none(self.time),
             "height": finite_or_none(self.height),
@@ -84,12 +85,12 @@ class FractionTime:
 
 @dataclass(frozen=True)
 class Limit:
-    """The long-time limit :math:`c(\\infty)` of every species.
+    r"""The long-time limit :math:`c(\infty)` of every species.
 
     Attributes
     ----------
     values : ndarray
-        :math:`c_i(\\infty)` [conc]; ``inf`` where the species grows without bound.
+        :math:`c_i(\infty)` [conc]; ``inf`` where the species grows without bound.
     unbounded : ndarray of bool
     kind : tuple of str
         Per species: ``"not formed"`` (stays zero), ``"transient"`` (decays to zero),
@@ -142,19 +143,19 @@ class TimeToLimit:
 
 @dataclass(frozen=True)
 class RelaxationTimes:
-    """Characteristic times from the eigenvalues of ``K``.
+    r"""Characteristic times from the eigenvalues of ``K``.
 
     Attributes
     ----------
     eigenvalues : ndarray of complex
-        Nonzero eigenvalues [1/s] with :math:`\\operatorname{Im} \\ge 0` (one per complex
+        Nonzero eigenvalues [1/s] with :math:`\operatorname{Im} \ge 0` (one per complex
         pair), slowest first.
     times : ndarray
-        :math:`1/|\\operatorname{Re}\\lambda|` [s] of the decaying ones, longest first.
+        :math:`1/|\operatorname{Re}\lambda|` [s] of the decaying ones, longest first.
     periods : ndarray
-        :math:`2\\pi/\\operatorname{Im}\\lambda` [s] of the complex pairs.
+        :math:`2\pi/\operatorname{Im}\lambda` [s] of the complex pairs.
     growth_times : ndarray
-        :math:`1/\\operatorname{Re}\\lambda` [s] of growing modes (e-folding times).
+        :math:`1/\operatorname{Re}\lambda` [s] of growing modes (e-folding times).
     zero_modes : int
         Number of zero eigenvalues (one per closed class: conserved quantities).
     defective, nearly_defective : bool
@@ -174,16 +175,16 @@ class RelaxationTimes:
 
 @dataclass(frozen=True)
 class Areas:
-    """Areas under the curves.
+    r"""Areas under the curves.
 
     Attributes
     ----------
     times_end : ndarray
         [s] the upper limits T.
     to_end : ndarray
-        :math:`\\int_0^T c_i\\,dt` [conc*s], shape ``(len(times_end), n)``.
+        :math:`\int_0^T c_i\,dt` [conc*s], shape ``(len(times_end), n)``.
     to_infinity : ndarray
-        :math:`\\int_0^\\infty c_i\\,dt` [conc*s], inf where the limit is nonzero.
+        :math:`\int_0^\infty c_i\,dt` [conc*s], inf where the limit is nonzero.
     """
 
     times_end: np.ndarray
@@ -193,20 +194,20 @@ class Areas:
 
 @dataclass(frozen=True)
 class YieldsAndSelectivity:
-    """Yields of intermediates at their maxima and selectivity between end products.
+    r"""Yields of intermediates at their maxima and selectivity between end products.
 
     Attributes
     ----------
     basis : float
         Start amount the yields refer to [conc].
     yield_at_max : ndarray
-        :math:`c_{i,\\max}/\\text{basis}` for intermediates, nan for other species.
+        :math:`c_{i,\max}/\text{basis}` for intermediates, nan for other species.
     end_products : tuple of int
     formed_at_window_end, formed_in_limit : ndarray or None
-        :math:`\\Delta c_P` of each end product [conc] at the end of the window and for
-        :math:`t\\to\\infty` (None without window / without finite limit).
+        :math:`\Delta c_P` of each end product [conc] at the end of the window and for
+        :math:`t\to\infty` (None without window / without finite limit).
     selectivity_at_window_end, selectivity_in_limit : ndarray or None
-        Fractional selectivity :math:`\\Delta c_P / \\sum_Q \\Delta c_Q`.
+        Fractional selectivity :math:`\Delta c_P / \sum_Q \Delta c_Q`.
     """
 
     basis: float
@@ -218,7 +219,7 @@ class YieldsAndSelectivity:
     selectivity_in_limit: np.ndarray | None
 
     def ratio(self, p: int, q: int, where: str = "limit") -> float:
-        """Selectivity :math:`S_{P/Q} = \\Delta c_P / \\Delta c_Q` between two end products.
+        r"""Selectivity :math:`S_{P/Q} = \Delta c_P / \Delta c_Q` between two end products.
 
         Parameters
         ----------
@@ -271,6 +272,7 @@ class SpeciesSummary:
     notes: tuple[str, ...] = field(default=())
 
     def to_dict(self) -> dict[str, Any]:
+        """JSON-ready form (non-finite numbers as None)."""
         return {
             "start": finite_or_none(self.start),
             "half_life": finite_or_none(self.half_life),
@@ -337,6 +339,8 @@ class SchemeSummary:
     formed_in_limit: dict[str, float] | None = None
 
     def to_dict(self) -> dict[str, Any]:
+        """JSON-ready form (non-finite numbers as None)."""
+
         def sel(d):
             return None if d is None else {k: finite_or_none(v) for k, v in d.items()}
 

@@ -135,8 +135,11 @@ def _evaluate(problem: Problem, s: _Search, k: np.ndarray) -> _Evaluation:
 
 
 def _round(problem: Problem, s: _Search, k: np.ndarray, it: int) -> None:
-    """One Newton round for the active problems ``k``: narrow each bracket around the
-    new point, accept converged roots, and choose the next points."""
+    """One Newton round for the active problems ``k``.
+
+    Narrow each bracket around the new point, accept converged roots, and choose the next
+    points.
+    """
     e = _evaluate(problem, s, k)
     a, b, ga, gb = s.a, s.b, s.ga, s.gb
     left = np.sign(e.g) == np.sign(ga[k])

@@ -1,5 +1,6 @@
-"""The scan: a log-like grid over every time scale of K with the exact curve, its first
-three derivatives and their rounding noise at each point.
+"""The scan: a log-like grid over every time scale of K.
+
+At each point the exact curve, its first three derivatives and their rounding noise.
 
 Every turning point and crossing is bracketed between consecutive scan points and then
 refined by :mod:`kinetics.analysis.roots`; points are added where a cubic model of the
@@ -30,9 +31,12 @@ _HIDDEN_MAX = 400
 
 @dataclass(frozen=True)
 class Grid:
-    """Scan points [s] with c [conc], :math:`D = Kc + f`, :math:`D_2 = KD`, :math:`D_3 =
-    KD_2` and the rounding noise ``N``, ``N2``, ``N3`` of the three derivatives; arrays of
-    shape (points, n), times ``T`` of shape (points,)."""
+    """Scan points [s] with the curve, three derivatives and their rounding noise.
+
+    c [conc], :math:`D = Kc + f`, :math:`D_2 = KD`, :math:`D_3 = KD_2` and the rounding
+    noise ``N``, ``N2``, ``N3`` of the three derivatives; arrays of shape (points, n), times
+    ``T`` of shape (points,).
+    """
 
     T: np.ndarray
     C: np.ndarray
@@ -63,9 +67,10 @@ def _oscillation_times(problem: Problem, t_hi: float) -> list[np.ndarray]:
 
 
 def base_times(problem: Problem) -> np.ndarray:
-    """Scan times [s]: a log-like grid made of octaves [2^e, 2^(e+1)) with 8 equal steps
-    each (about 27 points per decade), plus about 8 points per period of damped
-    oscillations and the end of the window.
+    """Scan times [s]: a log-like grid over every time scale.
+
+    Octaves [2^e, 2^(e+1)) with 8 equal steps each (about 27 points per decade), plus about
+    8 points per period of damped oscillations and the end of the window.
 
     All log-grid points are exact binary multiples of their octave's step, so the engine
     needs one exponential per octave (it reuses the exponential of a repeated step).
@@ -103,9 +108,11 @@ def evaluate_grid(problem: Problem, T: np.ndarray, state: State) -> Grid:
 
 
 def hidden_turns(g: Grid) -> np.ndarray:
-    """New points inside intervals where a cubic Hermite model of the derivative
-    (from its values and slopes at both ends) changes sign although the end values
-    have the same sign: two turning points may hide between the grid points."""
+    """New points where two turning points may hide between the grid points.
+
+    Inside intervals where a cubic Hermite model of the derivative (from its values and
+    slopes at both ends) changes sign although the end values have the same sign.
+    """
     T, D, D2, N = g.T, g.D, g.D2, g.N
     if T.size < 2:
         return np.zeros(0)
@@ -135,8 +142,10 @@ def hidden_turns(g: Grid) -> np.ndarray:
 
 
 def scan(problem: Problem) -> Grid:
-    """The scan grid of ``problem``: :func:`base_times`, then up to three rounds of
-    points added by :func:`hidden_turns`."""
+    """The scan grid of ``problem``.
+
+    :func:`base_times`, then up to three rounds of points added by :func:`hidden_turns`.
+    """
     T = base_times(problem)
     g = evaluate_grid(problem, T, problem.state(T))
     for _ in range(_HIDDEN_ROUNDS):

@@ -77,7 +77,7 @@ class Summary(dict):
 
 
 def compute_summary(solution: Solution) -> Summary | None:
-    """Summary quantities of every species in SI time [s] and the concentration unit.
+    r"""Summary quantities of every species in SI time [s] and the concentration unit.
 
     Uses :func:`kinetics.analysis.summarise_all` on the scheme of ``solution`` with the
     solution's time window; the whole-scheme quantities are in :attr:`Summary.scheme`.
@@ -86,7 +86,7 @@ def compute_summary(solution: Solution) -> Summary | None:
     Examples
     --------
     >>> import kinetics
-    >>> s = kinetics.parse("A -> B  k1 = 0.1 1/s\\nstart A = 1 mol/L")
+    >>> s = kinetics.parse("A -> B  k1 = 0.1 1/s\nstart A = 1 mol/L")
     >>> summary = compute_summary(kinetics.solve(s, [0, 60]))
     >>> round(summary["A"]["half_life"], 12)  # ln 2 / k (first-order decay, textbook)
     6.931471805599

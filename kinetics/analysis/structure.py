@@ -1,5 +1,7 @@
-"""The class structure of a rate matrix: strongly connected components of the species
-graph in topological order, each classified as decaying, critical (closed) or growing.
+"""The class structure of a rate matrix.
+
+Strongly connected components of the species graph in topological order, each classified as
+decaying, critical (closed) or growing.
 
 References
 ----------
@@ -120,7 +122,7 @@ def _classify_block(idx: np.ndarray, B: np.ndarray, outlet: bool) -> Class:
 
 
 class Structure:
-    """Strongly connected components of the species graph, in topological order.
+    r"""Strongly connected components of the species graph, in topological order.
 
     Parameters
     ----------
@@ -143,10 +145,10 @@ class Structure:
         Classes with a step into each class.
     classes : list of Class
     sigma : float
-        Largest consumption rate :math:`\\max_i -K_{ii}` [1/s].
+        Largest consumption rate :math:`\max_i -K_{ii}` [1/s].
     rates : ndarray
-        Nonzero time-scale rates [1/s]: :math:`|\\operatorname{Re}\\lambda|` and
-        :math:`|\\operatorname{Im}\\lambda|` of the nonzero eigenvalues of the classes.
+        Nonzero time-scale rates [1/s]: :math:`|\operatorname{Re}\lambda|` and
+        :math:`|\operatorname{Im}\lambda|` of the nonzero eigenvalues of the classes.
     """
 
     def __init__(self, Ks: scipy.sparse.csr_array, Kd: np.ndarray | None) -> None:
@@ -192,9 +194,11 @@ class Structure:
         return out
 
     def scan_span(self) -> tuple[float, float] | None:
-        """First and last time of the scan [s]: :data:`SCAN_FAST` of the fastest and
-        :data:`SCAN_SLOW` of the slowest time constant, within the working range; None
-        for a scheme without any rate."""
+        """First and last time of the scan [s].
+
+        :data:`SCAN_FAST` of the fastest and :data:`SCAN_SLOW` of the slowest time
+        constant, within the working range; None for a scheme without any rate.
+        """
         r = self.rates
         if r.size == 0:
             return None

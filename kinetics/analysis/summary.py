@@ -1,5 +1,6 @@
-r"""Everything at once: per-species summaries and the whole-scheme quantities from one
-shared scan, and the yields of intermediates and selectivity between end products.
+r"""Everything at once: per-species and whole-scheme quantities from one shared scan.
+
+Also the yields of intermediates and the selectivity between end products.
 """
 
 from __future__ import annotations

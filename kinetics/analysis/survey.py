@@ -1,5 +1,7 @@
-"""Everything the summary quantities share for one problem: the scan, the turning points
-of every species and the limits, computed once."""
+"""Everything the summary quantities share for one problem, computed once.
+
+The scan, the turning points of every species and the limits.
+"""
 
 from __future__ import annotations
 

@@ -24,8 +24,10 @@ __all__ = ["Turns", "intermediate_maxima", "maxima", "samples", "turning_points"
 
 @dataclass(frozen=True)
 class Turns:
-    """The turning points of one species in time order: times [s], heights [conc] and
-    types (+1 maximum, -1 minimum)."""
+    """The turning points of one species in time order.
+
+    Times [s], heights [conc] and types (+1 maximum, -1 minimum).
+    """
 
     t: np.ndarray
     c: np.ndarray
@@ -36,8 +38,10 @@ _NONE = Turns(np.zeros(0), np.zeros(0), np.zeros(0, dtype=int))
 
 
 def _sign_changes(grid: Grid, n: int) -> tuple[list[tuple], list[int]]:
-    """One (species, left point, right point) per sign change of a derivative whose
-    sign is known, with the type of the turning point it brackets."""
+    """One (species, left point, right point) per sign change of a known derivative.
+
+    With the type of the turning point it brackets.
+    """
     s = np.sign(grid.D) * (np.abs(grid.D) > grid.N)
     found, types = [], []
     for i in range(n):
@@ -93,10 +97,12 @@ def turning_points(problem: Problem, grid: Grid) -> tuple[Turns, ...]:
 
 
 def samples(grid: Grid, turns: Turns, i: int) -> tuple[np.ndarray, ...]:
-    """Times, values, slopes and curvatures (nan if unknown) of c_i on the grid plus
-    its turning points.
+    """Times, values, slopes and curvatures of c_i on the grid plus its turning points.
 
-    Between consecutive samples c_i is monotone (every turning point is a sample)."""
+    nan where unknown.
+
+    Between consecutive samples c_i is monotone (every turning point is a sample).
+    """
     t = np.concatenate([grid.T, turns.t])
     v = np.concatenate([grid.C[:, i], turns.c])
     d = np.concatenate([grid.D[:, i], np.zeros(turns.t.size)])
@@ -107,8 +113,10 @@ def samples(grid: Grid, turns: Turns, i: int) -> tuple[np.ndarray, ...]:
 
 
 def maxima(problem: Problem, turns: Turns, limit: Limit, i: int) -> list[Maximum]:
-    """The local maxima of species ``i``; the highest is global when it reaches the
-    larger of the start value and the limit."""
+    """The local maxima of species ``i``.
+
+    The highest is global when it reaches the larger of the start value and the limit.
+    """
     sel = turns.type == 1
     times, heights = turns.t[sel], turns.c[sel]
     if times.size == 0:
