@@ -3,14 +3,17 @@
 :func:`compute_summary` runs :func:`kinetics.analysis.summarise_all` on the scheme of a
 :class:`~kinetics.solution.Solution` over its time window and reports concentrations in
 the solution's unit; :func:`summary_in_units` converts every time from seconds to the
-unit the user reads.  ``Solution.summary``, ``solve --json``, the spreadsheet, the plot
-and the report all show these mappings.
+unit the user reads.  A scheme with ``require`` lines also gets when each is first broken
+and when all hold together (:mod:`kinetics.analysis.requirements`).
+``Solution.summary``, ``solve --json``, the spreadsheet, the plot and the report all show
+these mappings.
 """
 
 from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
+from kinetics.analysis.requirements import requirement_times
 from kinetics.analysis.summary import summarise_all
 from kinetics.jsonready import finite_or_none
 from kinetics.units import time_factor
@@ -52,6 +55,10 @@ TIME_KEYS = frozenset(
         "time_to_limit",
         "mean_residence_time",
         "time",
+        "first_broken",
+        "holds_between",
+        "all_hold_from",
+        "all_hold_until",
     }
 )
 #: Keys that hold an area under a curve [concentration * s].
@@ -69,11 +76,19 @@ class Summary(dict):
         Relaxation times, oscillation periods, the note on equal constants, the time for all
         species to come within 1 % of their limits, end products and their selectivity
         (see :class:`kinetics.analysis.SchemeSummary`); JSON key ``scheme_summary``.
+    requirements : dict
+        For a scheme with ``require`` lines: ``requirements`` (one object per line:
+        ``text``, ``first_broken``, ``beyond_window``...), ``all_hold_from`` and
+        ``all_hold_until`` (see
+        :meth:`kinetics.analysis.requirements.RequirementTimes.to_dict`); empty otherwise.
     """
 
-    def __init__(self, species=(), scheme: dict | None = None) -> None:
+    def __init__(
+        self, species=(), scheme: dict | None = None, requirements: dict | None = None
+    ) -> None:
         super().__init__(species)
         self.scheme = dict(scheme or {})
+        self.requirements = dict(requirements or {})
 
 
 def compute_summary(solution: Solution) -> Summary | None:
@@ -107,6 +122,17 @@ def compute_summary(solution: Solution) -> Summary | None:
     )
     out = {name: s.to_dict() for name, s in per.items()}
     scheme_wide = whole.to_dict()
+    checked = {}
+    if scheme.requirements:
+        checked = requirement_times(
+            K,
+            scheme.initial_vector,
+            scheme.requirements,
+            scheme.species_names,
+            feed=feed,
+            t_window=window,
+            K_low=K_low,
+        ).to_dict()
     if solution.unit_factors is not None:  # reported in another unit (Solution.in_unit)
         factors = dict(zip(solution.species, solution.unit_factors, strict=True))
         for name, factor in factors.items():
@@ -119,7 +145,7 @@ def compute_summary(solution: Solution) -> Summary | None:
                 scheme_wide[key] = {
                     p: None if v is None else v * float(factors[p]) for p, v in formed.items()
                 }
-    return Summary(out, scheme_wide)
+    return Summary(out, scheme_wide, checked)
 
 
 def _scale_concentrations(entry: dict, factor: float) -> None:
@@ -153,4 +179,7 @@ def summary_in_units(summary: dict[str, dict], time_unit: str) -> Summary:
     """
     factor = time_factor(time_unit)
     scheme = _convert_times(getattr(summary, "scheme", {}), "", factor)
-    return Summary({name: _convert_times(d, "", factor) for name, d in summary.items()}, scheme)
+    checked = _convert_times(getattr(summary, "requirements", {}), "", factor)
+    return Summary(
+        {name: _convert_times(d, "", factor) for name, d in summary.items()}, scheme, checked
+    )

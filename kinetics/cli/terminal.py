@@ -391,6 +391,7 @@ def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> N
     whole-scheme quantities (relaxation times, selectivity...) of :attr:`Summary.scheme`."""
     from kinetics.output.summary_text import (
         SUMMARY_COLUMNS,
+        requirement_lines,
         scheme_lines,
         summary_header,
         summary_notes,
@@ -419,6 +420,11 @@ def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> N
     if lines:
         out.print("[bold]Whole scheme[/bold]")
         for label, text in lines:
+            out.print(f"  {_escape(label)}: {_escape(text)}")
+    checked = requirement_lines(getattr(summary, "requirements", None) or {}, time_unit)
+    if checked:
+        out.print("[bold]Requirements[/bold] (on the exact solution)")
+        for label, text in checked:
             out.print(f"  {_escape(label)}: {_escape(text)}")
 
 
@@ -458,7 +464,9 @@ def render_solution(
         from kinetics.analysis.solution_summary import Summary
 
         kept = {k: v for k, v in summary.items() if not species or k in species}
-        shown = Summary(kept, getattr(summary, "scheme", None))
+        shown = Summary(
+            kept, getattr(summary, "scheme", None), getattr(summary, "requirements", None)
+        )
         render_summary(shown, time_unit, solution.concentration_unit, out)
     # the table straight from the arrays (the command line never needs pandas)
     shown_species = species or solution.species

@@ -158,6 +158,14 @@ def solution_json(
         written as ``null`` when not given.
     settings : dict, optional
         How the grid was asked for (``until``, ``points``, ``times``), as written.
+
+    Notes
+    -----
+    A scheme with ``require`` lines adds ``requirements`` (one object per line: ``text``,
+    ``first_broken`` in ``time_unit`` or null when it always holds, ``beyond_window``,
+    ``holds_at_start``, ``holds_between``), ``all_hold_from`` and ``all_hold_until`` (the
+    first window in which all hold together; ``all_hold_until`` null when it has no end,
+    both null when they never hold together).
     """
     from kinetics.analysis.solution_summary import SUMMARY_SKIPPED_NOTE
 
@@ -174,11 +182,25 @@ def solution_json(
         "summary": summary,
         **({} if summary is not None else {"summary_note": SUMMARY_SKIPPED_NOTE}),
         "scheme_summary": getattr(summary, "scheme", None) or None,
+        **_requirements(summary),
         "times": times.tolist(),
         "concentrations": {
             name: solution.concentrations[:, i].tolist() for i, name in enumerate(solution.species)
         },
         **_certificate(solution),
+    }
+
+
+def _requirements(summary) -> dict:
+    """``requirements`` and ``all_hold_until`` (with ``all_hold_from``) of a scheme with
+    ``require`` lines, in the summary's time unit; nothing for a scheme without."""
+    checked = getattr(summary, "requirements", None)
+    if not checked:
+        return {}
+    return {
+        "requirements": checked["requirements"],
+        "all_hold_from": checked["all_hold_from"],
+        "all_hold_until": checked["all_hold_until"],
     }
 
 

@@ -23,8 +23,10 @@ from kinetics._version import __version__
 from kinetics.output.overview import CAUTION, certificate_sentence, inputs_tables
 from kinetics.output.summary_text import (
     DEFINITIONS,
+    REQUIREMENT_DEFINITION,
     SCHEME_DEFINITIONS,
     SUMMARY_COLUMNS,
+    requirement_lines,
     scheme_lines,
     summary_header,
     summary_notes,
@@ -232,6 +234,12 @@ def _summary_section(summary: dict | None, time_unit: str, conc_unit: str) -> st
     if lines:
         parts.append("<h3>Whole scheme</h3>")
         parts.append(_table(["quantity", "value"], [[escape(a), escape(b)] for a, b in lines]))
+    checked = requirement_lines(getattr(summary, "requirements", None) or {}, time_unit)
+    if checked:
+        parts.append("<h3>Requirements</h3>")
+        parts.append(_table(["requirement", "when"], [[escape(a), escape(b)] for a, b in checked]))
+        label, _, rest = REQUIREMENT_DEFINITION.partition(": ")
+        parts.append(f'<dl class="defs"><dt>{escape(label)}</dt><dd>{escape(rest)}</dd></dl>')
     parts.append('<h3>Definitions</h3><dl class="defs">')
     texts = [DEFINITIONS.get(key) for key, _header, _ in SUMMARY_COLUMNS]
     for text in [*texts, *SCHEME_DEFINITIONS.values()]:

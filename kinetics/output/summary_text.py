@@ -9,8 +9,10 @@ from __future__ import annotations
 
 __all__ = [
     "DEFINITIONS",
+    "REQUIREMENT_DEFINITION",
     "SCHEME_DEFINITIONS",
     "SUMMARY_COLUMNS",
+    "requirement_lines",
     "scheme_lines",
     "scheme_rows",
     "summary_header",
@@ -103,6 +105,14 @@ SCHEME_DEFINITIONS = {
     ),
 }
 
+#: What the requirement lines mean (terminal, report, spreadsheet).
+REQUIREMENT_DEFINITION = (
+    "Requirements: for every require line, the first time it is broken (a root of the exact "
+    "solution, found after the end of the window too and then flagged) or 'holds'; and the "
+    "time window in which all of them hold together (the shelf life of a stability scheme, "
+    "the earliest and latest safe quench of a process)."
+)
+
 #: Columns of the summary table: (key, header, kind), kind is "time", "conc", "area" or "".
 SUMMARY_COLUMNS = (
     ("start", "start", "conc"),
@@ -191,10 +201,58 @@ def scheme_lines(scheme: dict, time_unit: str, conc_unit: str) -> list[tuple[str
     return lines
 
 
+def _span(a, b) -> str:
+    return f"from {a:.6g} on" if b is None else f"from {a:.6g} to {b:.6g}"
+
+
+def requirement_lines(checked: dict, time_unit: str) -> list[tuple[str, str]]:
+    """The requirements of a summary as (label, text) pairs.
+
+    Parameters
+    ----------
+    checked : dict
+        :attr:`kinetics.analysis.solution_summary.Summary.requirements`, in ``time_unit``.
+    time_unit : str
+
+    Examples
+    --------
+    >>> row = {"text": "API >= 90 %", "first_broken": 10.5, "beyond_window": False,
+    ...        "holds_at_start": True, "holds_between": [[0.0, 10.5]]}
+    >>> checked = {"requirements": [row], "all_hold_from": 0.0, "all_hold_until": 10.5}
+    >>> for label, text in requirement_lines(checked, "d"):
+    ...     print(f"{label}: {text}")
+    require API >= 90 %: first broken at 10.5 d
+    all requirements hold [d]: from 0 to 10.5
+    """
+    rows = checked.get("requirements") or []
+    lines = []
+    for row in rows:
+        when = row.get("first_broken")
+        spans = row.get("holds_between") or []
+        if when is None:
+            text = "holds at all times" if row.get("holds_at_start") else "holds"
+        elif when == 0:
+            text = "broken from the start"
+        else:
+            text = f"first broken at {when:.6g} {time_unit}"
+            if row.get("beyond_window"):
+                text += " (after the window)"
+        again = [s for s in spans if s[0] > 0]
+        if again:
+            text += "; holds " + ", ".join(_span(a, b) for a, b in again) + f" {time_unit}"
+        lines.append((f"require {row.get('text', '')}", text))
+    if rows:
+        start, end = checked.get("all_hold_from"), checked.get("all_hold_until")
+        text = "never all together" if start is None else _span(start, end)
+        lines.append((f"all requirements hold [{time_unit}]", text))
+    return lines
+
+
 def scheme_rows(summary, time_unit: str, conc_unit: str) -> list[dict]:
     """The whole-scheme quantities of a :class:`~kinetics.analysis.solution_summary.Summary`
-    as rows ``quantity``, ``value``."""
+    as rows ``quantity``, ``value``, then its requirements (:func:`requirement_lines`)."""
     lines = scheme_lines(getattr(summary, "scheme", None) or {}, time_unit, conc_unit)
+    lines += requirement_lines(getattr(summary, "requirements", None) or {}, time_unit)
     return [{"quantity": label, "value": text} for label, text in lines]
 
 
