@@ -106,10 +106,14 @@ class RequirementTimes:
     window : (float, float) or None
         [s] the first interval in which every requirement holds (end ``inf`` when they
         hold from then on); None when they never hold together.
+    windows : tuple of (float, float)
+        [s] every interval in which all hold together, in time order (``window`` is the
+        first).
     """
 
     times: tuple[RequirementTime, ...]
     window: tuple[float, float] | None
+    windows: tuple[tuple[float, float], ...] = ()
 
     @property
     def all_hold_until(self) -> float | None:
@@ -211,8 +215,8 @@ def _intervals(start: bool, events: list[tuple[float, bool]]) -> tuple[tuple[flo
     return tuple(out)
 
 
-def _together(intervals: Sequence[tuple[tuple[float, float], ...]]) -> tuple[float, float] | None:
-    """The first interval common to every list of intervals (None when there is none)."""
+def _together(intervals: Sequence[tuple[tuple[float, float], ...]]) -> list[tuple[float, float]]:
+    """The intervals common to every list of intervals, in time order."""
     common: list[tuple[float, float]] = [(0.0, np.inf)]
     for own in intervals:
         common = [
@@ -221,8 +225,7 @@ def _together(intervals: Sequence[tuple[tuple[float, float], ...]]) -> tuple[flo
             for c, d in own
             if max(a, c) < min(b, d) or (max(a, c) == min(b, d) == 0.0)
         ]
-    common.sort()
-    return common[0] if common else None
+    return sorted(common)
 
 
 def requirements_on(survey: Survey, requirements: Sequence[Requirement]) -> RequirementTimes:
@@ -254,8 +257,8 @@ def requirements_on(survey: Survey, requirements: Sequence[Requirement]) -> Requ
             broken = spans[0][1] if spans and np.isfinite(spans[0][1]) else None
         beyond = bool(broken is not None and window_end is not None and broken > window_end)
         out.append(RequirementTime(req, start, broken, beyond, spans))
-    window = _together([t.holds_between for t in out]) if out else None
-    return RequirementTimes(tuple(out), window)
+    windows = _together([t.holds_between for t in out]) if out else []
+    return RequirementTimes(tuple(out), windows[0] if windows else None, tuple(windows))
 
 
 def requirement_times(
