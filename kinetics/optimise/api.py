@@ -17,6 +17,7 @@ from .search import (
     best_of,
     choose_starts,
     grid_candidates,
+    margin_scales,
     refine,
     violation,
 )
@@ -74,9 +75,9 @@ def _goal(scheme, species, sense, best_time, until, yield_basis, settings, time_
 
 def _requirement_rows(model: Model, point) -> tuple[dict, ...]:
     rows = []
+    scales = margin_scales(model, point.thresholds)
     for k, req in enumerate(model.requirements):
-        level = float(point.thresholds[k])
-        scale = abs(level) if level else float(model.scheme.initial_vector.max(initial=1.0))
+        level, scale = float(point.thresholds[k]), float(scales[k])
         margin = float(point.margins[k])
         rows.append(
             {
@@ -97,8 +98,7 @@ def _inside(model: Model, best: float, x: np.ndarray) -> float:
     gap = model.goal.sign * (p.objective - best) + FLAT_SHARE * abs(best)
     q = gap / max(abs(best), 1e-300)
     if p.margins.size:
-        level = np.where(p.thresholds > 0, np.abs(p.thresholds), 1.0)
-        q = min(q, float(np.min(p.margins / level)) + FEASIBLE_TOL)
+        q = min(q, float(np.min(p.margins / margin_scales(model, p.thresholds))) + FEASIBLE_TOL)
     return float(q)
 
 
@@ -200,7 +200,7 @@ def optimise(
     consecutive reactions):
 
     >>> import math, kinetics
-    >>> s = kinetics.parse("A -> B  k1 = 0.3 1/s\\nB -> C  k2 = 0.1 1/s\\nstart A = 1 mol/L")
+    >>> s = kinetics.parse("A -> B  k1 = 0.3 1/s\nB -> C  k2 = 0.1 1/s\nstart A = 1 mol/L")
     >>> best = optimise(s, "B", "time=0:30:s")
     >>> round(best.best["time"] / (math.log(3) / 0.2), 8)
     1.0
@@ -268,7 +268,7 @@ def landscape(optimum: Optimum, scheme: Scheme, points: int = 41):
             x[j] = axes[shown.index(j)][k]
         times = axes[shown.index(model.time_at)] if timed else [model.end_time(x)]
         values, margins, here = model.values(x, times)
-        levels = np.array([abs(r.threshold) or 1.0 for r in here.requirements])
+        levels = margin_scales(model, np.array([r.threshold for r in here.requirements]))
         where: list = list(index)
         if timed:
             where.insert(shown.index(model.time_at), slice(None))

@@ -6,8 +6,8 @@ r"""The search: a coarse grid over the settings, then local refinement with exac
    for each grid point the best time in ``[0, end]`` is found exactly on the exact
    solution (:mod:`kinetics.analysis`: the turning points of the target species and the
    windows in which every requirement holds, :mod:`kinetics.analysis.requirements`).
-2. *Starts.*  The best feasible grid points that are not neighbours of each other (the
-   least infeasible ones when none is feasible).
+2. *Starts.*  The best grid points that no neighbour beats (one per hill of the target,
+   feasible ones first, the least infeasible when none is feasible).
 3. *Local refinement* from each start by sequential least-squares quadratic programming
    (``scipy.optimize.minimize(method="SLSQP")``) in coordinates scaled to ``[0, 1]``, with
    the exact gradient of the target and the exact Jacobian of the requirement margins
@@ -33,10 +33,24 @@ from ..analysis.requirements import requirements_on
 from ..analysis.survey import Survey
 from .model import Model, Point
 
-__all__ = ["GRID_POINTS", "Candidate", "grid_candidates", "refine", "scaled_problem"]
+__all__ = [
+    "FEASIBLE_TOL",
+    "GRID_POINTS",
+    "Candidate",
+    "best_of",
+    "choose_starts",
+    "grid_candidates",
+    "margin_scales",
+    "refine",
+    "scaled_problem",
+    "violation",
+]
 
 #: Points of the coarse grid in all (per axis: the d-th root, at least 3).
 GRID_POINTS = 81
+#: Most iterations of one local search (each costs one point with derivatives; the line
+#: searches a few more).
+_MAX_ITERATIONS = 60
 #: A margin above this fraction of its level counts as met (rounding of the margins).
 FEASIBLE_TOL = 1e-9
 
@@ -59,17 +73,17 @@ class Candidate:
     violation: float
 
 
-def _scales(model: Model, point: Point) -> np.ndarray:
+def margin_scales(model: Model, thresholds: np.ndarray) -> np.ndarray:
     """Scale of each margin: its level, or the largest start value for a level of 0."""
     floor = max(float(model.scheme.initial_vector.max(initial=0.0)), 1e-300)
-    return np.where(point.thresholds > 0, np.abs(point.thresholds), floor)
+    return np.where(thresholds > 0, np.abs(thresholds), floor)
 
 
 def violation(model: Model, point: Point) -> float:
     """Sum of the scaled shortfalls of the requirements at ``point`` (0 when all hold)."""
     if point.margins.size == 0:
         return 0.0
-    short = np.maximum(-point.margins / _scales(model, point), 0.0)
+    short = np.maximum(-point.margins / margin_scales(model, point.thresholds), 0.0)
     return float(np.sum(short[short > FEASIBLE_TOL]))
 
 
@@ -160,18 +174,22 @@ def _insert(index: tuple, others: list[int], at: int, k: int) -> tuple:
 
 
 def choose_starts(model: Model, grid, count: int) -> list[Candidate]:
-    """The best grid points that are not neighbours of each other (step 2)."""
+    """The best grid points that no neighbour on the grid beats (one per hill), best
+    first, at most ``count`` (step 2)."""
+    table = dict(grid)
     ranked = sorted(
         grid,
         key=lambda kc: (kc[1].violation > 0, kc[1].violation, -model.goal.sign * kc[1].objective),
     )
-    chosen: list[tuple[tuple, Candidate]] = []
+    out: list[Candidate] = []
     for key, c in ranked:
-        if all(max(abs(a - b) for a, b in zip(key, k, strict=True)) > 1 for k, _ in chosen):
-            chosen.append((key, c))
-        if len(chosen) == count:
+        around = itertools.product((-1, 0, 1), repeat=len(key))
+        near = (tuple(a + b for a, b in zip(key, step, strict=True)) for step in around)
+        if not any(_better(model, table[k], c) for k in near if k in table and k != key):
+            out.append(c)
+        if len(out) == count:
             break
-    return [c for _, c in chosen]
+    return out
 
 
 class ScaledProblem:
@@ -209,10 +227,11 @@ class ScaledProblem:
 
 
 def scaled_problem(model: Model, start: Candidate) -> ScaledProblem:
-    """The problem of ``model`` scaled at ``start`` (target by its size there)."""
-    p = model.point(start.x)
-    scale = max(abs(p.objective), float(model.scheme.initial_vector.max(initial=0.0)), 1e-300)
-    return ScaledProblem(model, scale, _scales(model, p))
+    """The problem of ``model`` scaled at ``start`` (the target by its size there, each
+    margin by its level)."""
+    scale = max(abs(start.objective), float(model.scheme.initial_vector.max(initial=0.0)))
+    levels = np.array([r.threshold for r in model.scheme_at(start.x).requirements])
+    return ScaledProblem(model, max(scale, 1e-300), margin_scales(model, levels))
 
 
 def refine(model: Model, start: Candidate, tol: float = 1e-12) -> Candidate:
@@ -231,10 +250,12 @@ def refine(model: Model, start: Candidate, tol: float = 1e-12) -> Candidate:
         method="SLSQP",
         bounds=[(0.0, 1.0)] * u0.size,
         constraints=constraints,
-        options={"ftol": tol, "maxiter": 200},
+        options={"ftol": tol, "maxiter": _MAX_ITERATIONS},
     )
     x = problem.x_of(found.x)
-    p = model.point(x)
+    last = problem.last
+    same = last is not None and np.array_equal(last[1].x, x)
+    p = last[1] if same else model.point(x)
     return Candidate(x, p.objective, violation(model, p))
 
 

@@ -105,6 +105,28 @@ def _is_temperature(setting: Setting) -> bool:
     return parse_unit(setting.unit).dims == {"[temperature]": 1}
 
 
+class _OverWords(SweepWords):
+    """The messages of :func:`kinetics.parameters.resolve` for an optimisation."""
+
+    def __init__(self, where: str, scheme: Scheme) -> None:
+        super().__init__(where)
+        self.quantities = list(scheme.quantities)
+
+    def unknown(self, scheme: Scheme, name: str) -> UsageError:
+        known = [*self.quantities, *scheme.constants]
+        listed = ["time", "temperature", *known, "start:<species>", "excess:<species>"]
+        return UsageError(
+            f"{self.where}: {name!r} is not a setting of the scheme",
+            self._did_you_mean(name, known) + "settings are " + ", ".join(listed),
+        )
+
+    def whole_arrhenius(self, name: str) -> UsageError:
+        return UsageError(
+            f"{self.where}: {name} follows the Arrhenius law, so the temperature sets it",
+            "optimise the temperature, or name A or Ea in the file as a quantity and optimise that",
+        )
+
+
 def _bounds(where: str, body: str) -> tuple[float, float, str, tuple[str, str]]:
     m = _RANGE.match(body)
     if m is None:
@@ -197,7 +219,7 @@ def parse_over(scheme: Scheme, spec: str, option: str = "--over") -> Setting:
         return _time(where, lo, hi, unit)
     if name in scheme.quantities:
         return _quantity(scheme, where, name, lo, hi, unit, texts)
-    target = parameters.resolve(scheme, name, SweepWords(where))
+    target = parameters.resolve(scheme, name, _OverWords(where, scheme))
     if target.kind in ("prefactor", "energy"):
         raise UsageError(
             f"{where}: an optimisation changes whole quantities, not one part of an Arrhenius law",

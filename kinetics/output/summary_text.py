@@ -201,8 +201,10 @@ def scheme_lines(scheme: dict, time_unit: str, conc_unit: str) -> list[tuple[str
     return lines
 
 
-def _span(a, b) -> str:
-    return f"from {a:.6g} on" if b is None else f"from {a:.6g} to {b:.6g}"
+def _span(a, b, unit: str = "") -> str:
+    """``from 3 h on`` (no end) or ``from 3 to 5 h``."""
+    unit = f" {unit}" if unit else ""
+    return f"from {a:.6g}{unit} on" if b is None else f"from {a:.6g} to {b:.6g}{unit}"
 
 
 def requirement_lines(checked: dict, time_unit: str) -> list[tuple[str, str]]:
@@ -239,7 +241,8 @@ def requirement_lines(checked: dict, time_unit: str) -> list[tuple[str, str]]:
                 text += " (after the window)"
         again = [s for s in spans if s[0] > 0]
         if again:
-            text += "; holds " + ", ".join(_span(a, b) for a, b in again) + f" {time_unit}"
+            word = "holds again" if row.get("holds_at_start") else "holds"
+            text += f"; {word} " + ", ".join(_span(a, b, time_unit) for a, b in again)
         lines.append((f"require {row.get('text', '')}", text))
     if rows:
         start, end = checked.get("all_hold_from"), checked.get("all_hold_until")
