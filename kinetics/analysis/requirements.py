@@ -46,6 +46,7 @@ from kinetics.requirements import Requirement
 __all__ = [
     "RequirementTime",
     "RequirementTimes",
+    "first_broken_batch",
     "requirement_times",
     "requirements_on",
 ]
@@ -325,3 +326,56 @@ def requirement_times(
     if len(set(names)) != problem.n:
         raise SpeciesError("species names are not unique", "give each species its own name")
     return requirements_on(Survey.of(problem), list(requirements))
+
+
+def first_broken_batch(
+    K,
+    c0,
+    requirements: Sequence[Requirement],
+    species: Sequence[str],
+    feed=None,
+    t_window: float | None = None,
+    *,
+    K_low=None,
+) -> np.ndarray:
+    """The first time each requirement is broken, for a stack of problems (a sweep).
+
+    Parameters
+    ----------
+    K : ndarray, shape (b, n, n)
+        Rate matrices [1/s].
+    c0 : ndarray, shape (b, n)
+        Start concentrations [conc]; a threshold written as a percentage of a start value
+        follows each member's start value
+        (:meth:`~kinetics.requirements.Requirement.for_start`).
+    requirements : sequence of Requirement
+    species : sequence of str
+    feed : ndarray, shape (n,), optional
+    t_window : float, optional
+        [s] (does not change the times).
+    K_low : ndarray, shape (b, n, n), optional
+
+    Returns
+    -------
+    ndarray, shape (b, r)
+        [s] per member and requirement the first time it is broken (0 when it does not
+        hold at the start), NaN when it holds at every time.
+
+    Notes
+    -----
+    Each member is evaluated by :func:`requirement_times` (its own scan of the exact
+    solution), so a member costs about as much as the summary of one ``solve``.
+    """
+    names = list(species)
+    K = np.asarray(K, dtype=float)
+    c0 = np.asarray(c0, dtype=float)
+    out = np.full((K.shape[0], len(requirements)), np.nan)
+    for m in range(K.shape[0]):
+        start = dict(zip(names, c0[m], strict=True))
+        own = [r.for_start(start) for r in requirements]
+        low = None if K_low is None else K_low[m]
+        found = requirement_times(K[m], c0[m], own, names, feed, t_window, K_low=low)
+        for k, t in enumerate(found.times):
+            if t.first_broken is not None:
+                out[m, k] = t.first_broken
+    return out

@@ -36,10 +36,29 @@ def _check_table_path(path: Path | None, inputs, option: str) -> Path | None:
     return check_output_path(path, inputs)
 
 
+def _requirement_column(spec: str, plan) -> tuple[str, str]:
+    """``'first_broken:API >= 90 %'`` (or ``first_broken:1``) -> that requirement's column."""
+    wanted = spec.split(":", 1)[1].strip() if ":" in spec else ""
+    columns = [c for c in plan.columns if c.quantity == "first_broken"]
+    for k, col in enumerate(columns, 1):
+        if wanted in (col.species, str(k)):
+            return col.header, "first_broken"
+    listed = "; ".join(f"{k}: {c.species}" for k, c in enumerate(columns, 1))
+    raise UsageError(
+        f"--plot {spec!r} names no requirement of the scheme",
+        f"write first_broken:TEXT or first_broken:N ({listed})"
+        if columns
+        else "the scheme has no require line",
+    )
+
+
 def _plot_target(spec: str, plan) -> tuple[str, str]:
-    """``'t_max:B'`` -> the summary column of that quantity and species."""
+    """``'t_max:B'`` -> the summary column of that quantity and species;
+    ``'first_broken:API >= 90 %'`` -> the column of that requirement."""
     from kinetics.analysis import BATCH_QUANTITIES
 
+    if spec.strip().startswith("first_broken"):
+        return _requirement_column(spec, plan)
     m = re.match(r"^\s*(?P<q>\w+)\s*[:\s]\s*(?P<species>\S+)\s*$", spec)
     if not m or m["q"] not in BATCH_QUANTITIES:
         raise UsageError(
@@ -228,7 +247,8 @@ Examples:
     "--plot",
     "plot_spec",
     metavar="QUANTITY:SPECIES",
-    help="Plot one quantity against the grid axes, e.g. t_max:B.",
+    help="Plot one quantity against the grid axes, e.g. t_max:B, or when a requirement is "
+    "first broken, e.g. 'first_broken:API >= 90 %'.",
 )
 @click.option("--plot-out", type=click.Path(path_type=Path), help="The plot file: .png or .svg.")
 @click.option(

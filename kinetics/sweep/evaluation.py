@@ -136,13 +136,21 @@ def chunk_result(
         from ..sweep_summary import summarise_batch
 
         q = summarise_batch(K, c0, feed, t_window=float(plan.times[-1]), K_low=K_low)
+    if plan.scheme.requirements:
+        from ..analysis.requirements import first_broken_batch
+
+        q["first_broken"] = first_broken_batch(
+            K, c0, plan.scheme.requirements, plan.scheme.species_names, feed,
+            float(plan.times[-1]), K_low=K_low,
+        )  # fmt: skip
     from ..solution import time_factor
 
     tf = time_factor(plan.time_unit)
     summary = np.empty((stop - start, len(plan.columns)))
     for j, col in enumerate(plan.columns):
         v = q[col.quantity][:, col.index]
-        summary[:, j] = v / tf if col.quantity in ("half_life", "t_max") else v
+        timed = col.quantity in ("half_life", "t_max", "first_broken")
+        summary[:, j] = v / tf if timed else v
     if not curves:
         return ChunkResult(index, start, stop, display, summary)
     conc, bound = _propagate_batch(K, K_low, c0, plan.times, feed, plan.precision)

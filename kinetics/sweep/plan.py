@@ -83,7 +83,7 @@ def _standard_normals(seed: int, first: int, count: int, width: int) -> np.ndarr
 class Column:
     """One summary column: ``<quantity> <species> [unit]``."""
 
-    quantity: str  # half_life | t_max | c_max | limit
+    quantity: str  # half_life | t_max | c_max | limit | first_broken (of a requirement)
     species: str
     index: int  # matrix index of the species
     unit: str
@@ -275,7 +275,8 @@ def _summary_columns(scheme: Scheme, parameters, spreads, time_unit: str) -> tup
     * ``half_life``: species with a start value (in the file, or varied/sampled);
     * ``t_max``, ``c_max``: species that are formed (a step or a feed) and consumed
       (an outgoing step) -- only those can have an interior maximum;
-    * ``limit``: every species.
+    * ``limit``: every species;
+    * ``first_broken``: every requirement (``first_broken <text> [unit]``).
     """
     names = scheme.species_names
     started = {n for n, v in scheme.initial.items() if v > 0}
@@ -298,6 +299,10 @@ def _summary_columns(scheme: Scheme, parameters, spreads, time_unit: str) -> tup
             cols.append(Column("c_max", n, i, conc))
     for i, n in enumerate(names):
         cols.append(Column("limit", n, i, conc))
+    # one column per require line: first_broken <text> [time unit] (the text stands in
+    # the place of the species; index is the requirement's position)
+    for k, r in enumerate(scheme.requirements):
+        cols.append(Column("first_broken", r.text, k, time_unit))
     return tuple(cols)
 
 
