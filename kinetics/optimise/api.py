@@ -10,6 +10,7 @@ import numpy as np
 
 from ..errors import UsageError
 from ..solution import require_scheme
+from .local import refine
 from .model import SENSES, Goal, Model
 from .result import FLAT_SHARE, Optimum
 from .search import (
@@ -18,7 +19,6 @@ from .search import (
     choose_starts,
     grid_candidates,
     margin_scales,
-    refine,
     violation,
 )
 from .settings import Setting, parse_over
@@ -212,7 +212,9 @@ def optimise(
     grid = grid_candidates(model)
     counts = {"grid": model.evaluations}
     chosen = choose_starts(model, grid, max(1, int(starts)))
-    found = [refine(model, c) for c in chosen]
+    found: list = []
+    for c in chosen:
+        found.append(refine(model, c, found))
     best = best_of(model, [*found, *chosen])
     counts["local"] = model.evaluations - counts["grid"]
     counts["with_gradient"] = model.gradients

@@ -47,6 +47,7 @@ from ..propagate import propagate
 from ..ratematrix import DENSE_STORAGE_MAX, rate_pattern, step_rate_pairs
 from ..sensitivity import sensitivities
 from ..units import time_factor
+from .curvature import second_derivatives
 from .settings import Setting, apply
 
 if TYPE_CHECKING:
@@ -112,6 +113,9 @@ class Point:
     gradient, jacobian : ndarray or None
         :math:`\\partial\\phi/\\partial x` (d,) and :math:`\\partial h/\\partial x` (r, d)
         [per internal unit].
+    hessian, curvatures : ndarray or None
+        :math:`\\partial^2\\phi/\\partial x^2` (d, d) and the second derivatives of the
+        margins (r, d, d), when asked for.
     """
 
     x: np.ndarray
@@ -121,6 +125,8 @@ class Point:
     thresholds: np.ndarray
     gradient: np.ndarray | None = None
     jacobian: np.ndarray | None = None
+    hessian: np.ndarray | None = None
+    curvatures: np.ndarray | None = None
 
 
 class Model:
@@ -203,30 +209,46 @@ class Model:
         margins = self.senses * (C[:, self.watched] - thresholds)
         return self._target(C, here.initial_vector), margins, here
 
-    def point(self, x, gradient: bool = False) -> Point:
-        """The target and margins at ``x`` [internal units], with derivatives on request."""
+    def point(self, x, gradient: bool = False, hessian: bool = False) -> Point:
+        """The target and margins at ``x`` [internal units], with first (and second)
+        derivatives on request."""
         x = np.asarray(x, dtype=float)
         t = self.end_time(x)
         target, margins, here = self.values(x, [t])
         thresholds = np.array([r.threshold for r in here.requirements])
-        if not gradient:
+        if not (gradient or hessian):
             return Point(x, t, float(target[0]), margins[0], thresholds)
         self.gradients += 1
-        dc, dthr = self._derivatives(x, here, t)
+        slopes = {j: self._rate_slopes(x, j) for j in self._rated}
+        dc, dthr = self._derivatives(here, t, slopes)
         c0 = here.initial_vector
-        i = self.index
+        i, total = self.index, float(c0.sum())
+        dtotal = np.array([1.0 if s.kind == "start" else 0.0 for s in self.settings])
+        c_i = float(target[0]) * (total if self.goal.yield_basis else 1.0)
+        grad = dc[:, i].copy()
         if self.goal.yield_basis:
-            total = float(c0.sum())
-            c_i = float(target[0]) * total
-            dtotal = np.array([1.0 if s.kind == "start" else 0.0 for s in self.settings])
             grad = (dc[:, i] * total - c_i * dtotal) / total**2
-        else:
-            grad = dc[:, i].copy()
         jac = self.senses[:, None] * (dc[:, self.watched].T - dthr)
-        return Point(x, t, float(target[0]), margins[0], thresholds, grad, jac)
+        if not hessian:
+            return Point(x, t, float(target[0]), margins[0], thresholds, grad, jac)
+        H = second_derivatives(self, x, here, t, slopes, dc)
+        if H is None:  # too large for the block system: first derivatives only
+            return Point(x, t, float(target[0]), margins[0], thresholds, grad, jac)
+        hess = H[:, :, i]
+        if self.goal.yield_basis:
+            cross = np.outer(dc[:, i], dtotal)
+            hess = hess / total - (cross + cross.T) / total**2
+            hess = hess + 2 * c_i * np.outer(dtotal, dtotal) / total**3
+        curv = self.senses[:, None, None] * np.moveaxis(H[:, :, self.watched], 2, 0)
+        return Point(x, t, float(target[0]), margins[0], thresholds, grad, jac, hess, curv)
+
+    @property
+    def _rated(self) -> list[int]:
+        """The settings that change step rates (all but time and start values)."""
+        return [j for j in self.rest if self.settings[j].kind != "start"]
 
     # -- derivatives -----------------------------------------------------------------------
-    def _derivatives(self, x, here: Scheme, t: float) -> tuple[np.ndarray, np.ndarray]:
+    def _derivatives(self, here: Scheme, t: float, slopes) -> tuple[np.ndarray, np.ndarray]:
         """dc(t)/dx_j (d, n) and d(thresholds)/dx_j (r, d)."""
         Kh, Kl = here.rate_matrix_pair()
         c0 = here.initial_vector
@@ -234,9 +256,9 @@ class Model:
         n, d = len(here.species), len(self.settings)
         dc = np.zeros((d, n))
         dthr = np.zeros((len(self.requirements), d))
-        moved = [j for j in self.rest if self.settings[j].kind != "start"]
+        moved = list(slopes)
         if moved:
-            E = np.stack([self.pattern.dense(self._rate_slopes(x, j)) for j in moved])
+            E = np.stack([self.pattern.dense(slopes[j]) for j in moved])
             dc[moved] = sensitivities(Kh, c0, [t], E, feed, K_low=Kl)[:, 0, :]
         for j, s in enumerate(self.settings):
             if s.kind == "time":
@@ -251,22 +273,30 @@ class Model:
                         dthr[r, j] = float(req.share)
         return dc, dthr
 
-    def _rates(self, x, j: int, value: Fraction) -> list[Fraction]:
-        """The exact effective step rates with setting ``j`` at ``value``."""
+    def rates_at(self, x, changes: dict[int, float]) -> list[Fraction]:
+        """The exact effective step rates [1/s] with the settings ``changes`` (index ->
+        value [internal units]) moved from ``x``."""
         y = np.array(x, dtype=float)
-        y[j] = float(value)
+        for j, v in changes.items():
+            y[j] = v
         hi, lo = step_rate_pairs(self.scheme_at(y))
         return [Fraction(float(a)) + Fraction(float(b)) for a, b in zip(hi, lo, strict=True)]
+
+    def steps_of(self, x, j: int, step: Fraction) -> tuple[float, float]:
+        """Two values of setting ``j`` around ``x[j]`` a relative ``step`` apart (the
+        lower one at ``x[j]`` itself where the setting cannot go below 0)."""
+        s = self.settings[j]
+        v = Fraction(float(x[j]))
+        h = abs(v) * step or Fraction(s.hi_internal - s.lo_internal) * step
+        a, b = float(v - h), float(v + h)
+        if a < 0 <= s.lo_internal:
+            a = float(v)
+        return a, b
 
     def _rate_slopes(self, x, j: int) -> np.ndarray:
         """:math:`\\partial k_s/\\partial x_j` of every step [1/s per internal unit]:
         central difference of exact evaluations (one-sided at a bound at zero)."""
-        s = self.settings[j]
-        v = Fraction(float(x[j]))
-        h = abs(v) * _STEP or Fraction(s.hi_internal - s.lo_internal) * _STEP
-        a, b = float(v - h), float(v + h)
-        if a < 0 <= s.lo_internal:
-            a = float(v)
-        fa, fb = Fraction(a), Fraction(b)
-        up, down = self._rates(x, j, fb), self._rates(x, j, fa)
-        return np.array([float((u - w) / (fb - fa)) for u, w in zip(up, down, strict=True)])
+        a, b = self.steps_of(x, j, _STEP)
+        up, down = self.rates_at(x, {j: b}), self.rates_at(x, {j: a})
+        width = Fraction(b) - Fraction(a)
+        return np.array([float((u - w) / width) for u, w in zip(up, down, strict=True)])

@@ -1,4 +1,5 @@
-r"""The search: a coarse grid over the settings, then local refinement with exact gradients.
+r"""The global part of the search: a coarse grid over the settings and the starts of the
+local searches (:mod:`kinetics.optimise.local`).
 
 1. *Global start.*  The target and the requirement margins on a grid over the bounds
    (about 81 points in all; one engine call per value of the settings other than the
@@ -8,16 +9,8 @@ r"""The search: a coarse grid over the settings, then local refinement with exac
    windows in which every requirement holds, :mod:`kinetics.analysis.requirements`).
 2. *Starts.*  The best grid points that no neighbour beats (one per hill of the target,
    feasible ones first, the least infeasible when none is feasible).
-3. *Local refinement* from each start by sequential least-squares quadratic programming
-   (``scipy.optimize.minimize(method="SLSQP")``) in coordinates scaled to ``[0, 1]``, with
-   the exact gradient of the target and the exact Jacobian of the requirement margins
-   (:mod:`kinetics.optimise.model`).  The best feasible end point wins.
-
-References
-----------
-D. Kraft, "A software package for sequential quadratic programming", DFVLR-FB 88-28,
-Deutsche Forschungs- und Versuchsanstalt für Luft- und Raumfahrt (1988) (SLSQP).
-J. Nocedal, S. J. Wright, "Numerical Optimization", 2nd ed., Springer (2006), ch. 18.
+3. *Local refinement* from each start (:mod:`kinetics.optimise.local`); the best feasible
+   end point wins (:func:`best_of`).
 """
 
 from __future__ import annotations
@@ -41,16 +34,11 @@ __all__ = [
     "choose_starts",
     "grid_candidates",
     "margin_scales",
-    "refine",
-    "scaled_problem",
     "violation",
 ]
 
 #: Points of the coarse grid in all (per axis: the d-th root, at least 3).
 GRID_POINTS = 81
-#: Most iterations of one local search (each costs one point with derivatives; the line
-#: searches a few more).
-_MAX_ITERATIONS = 60
 #: A margin above this fraction of its level counts as met (rounding of the margins).
 FEASIBLE_TOL = 1e-9
 
@@ -190,73 +178,6 @@ def choose_starts(model: Model, grid, count: int) -> list[Candidate]:
         if len(out) == count:
             break
     return out
-
-
-class ScaledProblem:
-    """The target and margins of a model in coordinates ``u`` in ``[0, 1]^d``, for scipy,
-    each point solved once (the objective, its gradient and the constraints share it)."""
-
-    def __init__(self, model: Model, scale: float, margin_scales: np.ndarray) -> None:
-        self.model = model
-        self.lo, self.span = model.lower, model.upper - model.lower
-        self.scale = scale
-        self.margin_scales = margin_scales
-        self.last: tuple[bytes, Point] | None = None
-
-    def x_of(self, u) -> np.ndarray:
-        """Settings [internal units] of scaled coordinates (clipped to the bounds)."""
-        return self.lo + np.clip(np.asarray(u, dtype=float), 0.0, 1.0) * self.span
-
-    def at(self, u) -> Point:
-        key = np.asarray(u, dtype=float).tobytes()
-        if self.last is None or self.last[0] != key:
-            self.last = (key, self.model.point(self.x_of(u), gradient=True))
-        return self.last[1]
-
-    def fun(self, u) -> float:
-        return -self.model.goal.sign * self.at(u).objective / self.scale
-
-    def jac(self, u) -> np.ndarray:
-        return -self.model.goal.sign * self.at(u).gradient * self.span / self.scale
-
-    def cons(self, u) -> np.ndarray:
-        return self.at(u).margins / self.margin_scales
-
-    def cons_jac(self, u) -> np.ndarray:
-        return self.at(u).jacobian * self.span[None, :] / self.margin_scales[:, None]
-
-
-def scaled_problem(model: Model, start: Candidate) -> ScaledProblem:
-    """The problem of ``model`` scaled at ``start`` (the target by its size there, each
-    margin by its level)."""
-    scale = max(abs(start.objective), float(model.scheme.initial_vector.max(initial=0.0)))
-    levels = np.array([r.threshold for r in model.scheme_at(start.x).requirements])
-    return ScaledProblem(model, max(scale, 1e-300), margin_scales(model, levels))
-
-
-def refine(model: Model, start: Candidate, tol: float = 1e-12) -> Candidate:
-    """Local refinement from ``start`` (step 3): SLSQP with exact derivatives."""
-    from scipy.optimize import minimize
-
-    problem = scaled_problem(model, start)
-    constraints = []
-    if model.requirements:
-        constraints = [{"type": "ineq", "fun": problem.cons, "jac": problem.cons_jac}]
-    u0 = (start.x - problem.lo) / problem.span
-    found = minimize(
-        problem.fun,
-        u0,
-        jac=problem.jac,
-        method="SLSQP",
-        bounds=[(0.0, 1.0)] * u0.size,
-        constraints=constraints,
-        options={"ftol": tol, "maxiter": _MAX_ITERATIONS},
-    )
-    x = problem.x_of(found.x)
-    last = problem.last
-    same = last is not None and np.array_equal(last[1].x, x)
-    p = last[1] if same else model.point(x)
-    return Candidate(x, p.objective, violation(model, p))
 
 
 def best_of(model: Model, candidates) -> Candidate:
