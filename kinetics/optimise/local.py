@@ -42,6 +42,7 @@ __all__ = [
     "refine",
     "scaled_problem",
     "slsqp",
+    "trust_region_step",
 ]
 
 #: Most iterations of one SLSQP search (each costs one point with derivatives; the line
