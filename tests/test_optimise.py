@@ -11,6 +11,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import kinetics
 from kinetics.errors import UsageError
@@ -126,7 +128,7 @@ def test_the_landscape_holds_the_others_at_the_optimum():
             "'Q' is not a species of the scheme that changes; species: A, B, C",
         ),
         (
-            {"over": [], "until": None},
+            {"over": "start:A=1:2", "until": None},
             "no time given: the end time is needed; add --until, e.g. --until 10h, or --over "
             "time=0:10:h",
         ),
@@ -144,7 +146,21 @@ def test_the_landscape_holds_the_others_at_the_optimum():
             {"over": ["time=0:1:s", "time=0:2:s"]},
             "--over names time twice; give each setting once",
         ),
-        ({"over": [], "until": -1.0}, "the end time must be positive, not -1 s; e.g. --until 10h"),
+        (
+            {"over": [], "until": -1.0, "best_time": True},
+            "the end time must be positive, not -1 s; e.g. --until 10h",
+        ),
+        (
+            {"over": [], "until": 5.0},
+            "nothing to optimise: no setting is given; give at least one, e.g. --over "
+            "temperature=20:80:degC or --over time=0:10:h",
+        ),
+        (
+            {"over": "temperature=20:80:degC", "until": 5.0},
+            "--over 'temperature=20:80:degC': no constant of the scheme follows the "
+            "temperature, so it changes nothing; define a constant by a temperature law, e.g. "
+            "k = arrhenius(A = ..., Ea = ...), to optimise the temperature",
+        ),
     ],
 )
 def test_mistakes_are_refused_in_one_sentence(kwargs, message):
@@ -161,3 +177,15 @@ def test_a_yield_needs_start_values():
     assert str(err.value) == (
         "a yield needs start values; give the starting materials start values"
     )
+
+
+@settings(max_examples=15, deadline=None)
+@given(k1=st.floats(0.01, 10.0), ratio=st.floats(0.05, 0.9))
+def test_the_best_quench_of_any_a_to_b_to_c_is_the_textbook_maximum(k1, ratio):
+    # invariant: t_max = ln(k1/k2)/(k1 - k2), B_max = (k1/k2)^(k2/(k2 - k1)) (Atkins & de Paula)
+    k2 = k1 * ratio
+    scheme = kinetics.parse(f"A -> B  k1 = {k1!r} 1/s\nB -> C  k2 = {k2!r} 1/s\nstart A = 1 mol/L")
+    t_max = math.log(k1 / k2) / (k1 - k2)
+    best = optimise(scheme, "B", f"time=0:{3 * t_max!r}:s")
+    assert best.objective == pytest.approx((k1 / k2) ** (k2 / (k2 - k1)), rel=1e-12)
+    assert best.x[0] == pytest.approx(t_max, rel=1e-6)

@@ -93,7 +93,6 @@ def _print(optimum) -> None:
     "--over",
     "over",
     multiple=True,
-    required=True,
     metavar="NAME=LO:HI:UNIT",
     help="A setting and its bounds, e.g. temperature=20:80:degC or time=0:10:h.",
 )

@@ -54,6 +54,11 @@ def _goal(scheme, species, sense, best_time, until, yield_basis, settings, time_
             f"{species!r} is not a species of the scheme that changes",
             "species: " + ", ".join(scheme.species_names),
         )
+    if not settings and not best_time:
+        raise UsageError(
+            "nothing to optimise: no setting is given",
+            "give at least one, e.g. --over temperature=20:80:degC or --over time=0:10:h",
+        )
     timed = any(s.kind == "time" for s in settings)
     if best_time and timed:
         raise UsageError(

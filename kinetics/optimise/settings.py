@@ -120,6 +120,14 @@ class _OverWords(SweepWords):
             self._did_you_mean(name, known) + "settings are " + ", ".join(listed),
         )
 
+    def temperature_unused(self) -> UsageError:
+        return UsageError(
+            f"{self.where}: no constant of the scheme follows the temperature, so it "
+            "changes nothing",
+            "define a constant by a temperature law, e.g. k = arrhenius(A = ..., Ea = ...), "
+            "to optimise the temperature",
+        )
+
     def whole_arrhenius(self, name: str) -> UsageError:
         return UsageError(
             f"{self.where}: {name} follows the Arrhenius law, so the temperature sets it",

@@ -80,12 +80,13 @@ def optimum_lines(optimum: Optimum) -> list[tuple[str, str]]:
             (f"require {r['text']}", f"{r['value']:.6g} (limit {r['threshold']:.6g}), {state}")
         )
     c = optimum.counts
+    starts = c.get("starts", 0)
     lines.append(
         (
             "model evaluations",
             f"grid {c.get('grid', 0)}, local {c.get('local', 0)} ({c.get('with_gradient', 0)} "
-            f"with exact gradients, {c.get('starts', 0)} starts), flat ranges "
-            f"{c.get('flatness', 0)}",
+            f"with exact derivatives, {starts} start{'' if starts == 1 else 's'}), flat "
+            f"ranges {c.get('flatness', 0)}",
         )
     )
     lines.extend(("note", note) for note in optimum.notes)
