@@ -100,12 +100,13 @@ def _best_time(model: Model, x: np.ndarray) -> Candidate:
         inside = (turns.t > a) & (turns.t < min(b, end)) & (turns.type == kind)
         times += [float(t) for t in turns.t[inside]]
     times = np.unique(np.clip(times, 0.0, end))
-    j = model.time_at
+    targets, margins, _ = model.values(x, times)  # every candidate time in one engine call
+    levels = np.array([r.threshold for r in here.requirements])
     best = None
-    for t in times:
+    for k, t in enumerate(times):
         y = np.array(x, dtype=float)
-        y[j] = t
-        p = model.point(y)
+        y[model.time_at] = t
+        p = Point(y, float(t), float(targets[k]), margins[k], levels)
         c = Candidate(y, p.objective, violation(model, p))
         if best is None or _better(model, c, best):
             best = c
