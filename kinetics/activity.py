@@ -40,7 +40,9 @@ __all__ = [
     "amount_from_activity",
     "amounts_from_activities",
     "decay_constants",
+    "decay_rates",
     "start_amounts",
+    "start_amounts_for_rates",
 ]
 
 
@@ -151,6 +153,76 @@ def start_amounts(scheme: Scheme, values: dict[str, Fraction]) -> dict[str, floa
             ) from None
         exact = amount / per_unit
         out[name] = exact.numerator / exact.denominator
+    return out
+
+
+def decay_rates(scheme: Scheme, rates) -> np.ndarray:
+    r""":math:`\lambda_i = \sum_{s:\ i \to \dots} k_s` of every matrix species for step
+    rates given per set (linear in the rates: the derivatives of :math:`\lambda` follow
+    from those of the rates the same way).
+
+    Parameters
+    ----------
+    scheme : Scheme
+    rates : array_like, shape (..., n_steps)
+        Effective step rates [1/s] in the order of the scheme's steps.
+
+    Returns
+    -------
+    numpy.ndarray, shape (..., n_species)
+        [1/s], species in matrix order.
+
+    Examples
+    --------
+    >>> from kinetics import parse
+    >>> scheme = parse("P -> D  k1 = 1 1/s\nP -> E  k2 = 2 1/s\nstart P = 1 umol")
+    >>> decay_rates(scheme, [[1.0, 2.0]]).tolist()
+    [[3.0, 0.0, 0.0]]
+    """
+    rates = np.asarray(rates, dtype=float)
+    consumed = np.zeros((len(scheme.steps), len(scheme.species)))
+    for s, step in enumerate(scheme.steps):
+        consumed[s, scheme.index[step.reactant]] = 1.0
+    return rates @ consumed
+
+
+def start_amounts_for_rates(scheme: Scheme, rates) -> dict[str, np.ndarray]:
+    r"""The start values of the scheme's start activities for other step rates.
+
+    .. math:: n_i = \frac{A_i}{\lambda_i N_A u_c}
+
+    with :math:`\lambda_i` from :func:`decay_rates` and :math:`u_c` the SI value of the
+    scheme's concentration unit: the conversion of :func:`start_amounts` for a stack of
+    parameter sets (sweeps, fits), in floating point (a few roundings).
+
+    Parameters
+    ----------
+    scheme : Scheme
+        Its start activities (:attr:`kinetics.scheme.Scheme.start_activities`).
+    rates : array_like, shape (b, n_steps)
+        Effective step rates [1/s] of each set, in the order of the scheme's steps.
+
+    Returns
+    -------
+    dict of str to numpy.ndarray
+        Species -> start values (b,) [scheme's concentration unit].
+
+    Raises
+    ------
+    ActivityError
+        For a set in which a species with a start activity does not decay.
+    """
+    lam = decay_rates(scheme, np.atleast_2d(rates))
+    per_unit = parse_unit(scheme.concentration_unit).factor
+    out = {}
+    for name, value in scheme.start_activities.items():
+        own = lam[:, scheme.index[name]]
+        if not np.all(own > 0):
+            raise ActivityError(
+                f"{name} has a start activity but does not decay in a set of values",
+                "keep its decay constants above 0, or give its start value as an amount",
+            )
+        out[name] = float(value / (AVOGADRO_EXACT * per_unit)) / own
     return out
 
 

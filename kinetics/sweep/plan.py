@@ -19,7 +19,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from .. import parameters
-from ..errors import UsageError, WorkingRangeError
+from ..errors import ActivityError, ExpressionError, UsageError, WorkingRangeError
 from .inputs import input_rates
 from .spec import API_WORDS, CLI_WORDS, Parameter, Spread, Words, axes, spreads_of
 
@@ -442,6 +442,26 @@ def _check_options(chunk_size, precision: str, summary_method: str) -> None:
         raise UsageError(f"unknown summary method {summary_method!r}", "use batch or reference")
 
 
+def _set_text(plan: SweepPlan, values) -> str:
+    return ", ".join(f"{c} = {v:.6g}" for c, v in zip(plan.parameter_columns, values, strict=True))
+
+
+def _located_inputs(plan: SweepPlan, start: int, display, internal):
+    """:func:`input_rates` of a block of sets; a set whose values a definition of the
+    scheme cannot take is named (``set 3 (t_p [h] = -1): ...``)."""
+    try:
+        return input_rates(plan, internal)
+    except (ExpressionError, ActivityError):
+        for i in range(internal.shape[0]):
+            try:
+                input_rates(plan, internal[i : i + 1])
+            except (ExpressionError, ActivityError) as exc:
+                raise UsageError(
+                    f"set {start + i} ({_set_text(plan, display[i])}): {exc.problem}", exc.hint
+                ) from None
+        raise  # pragma: no cover - a block fails only where one of its sets does
+
+
 def _check_sets(plan: SweepPlan, block: int = 100_000) -> None:
     """Refuse a plan with a set outside the engine's working range, before any work."""
     from ..analysis import MAX_RATE, MAX_SCALE, check_working_range
@@ -455,7 +475,7 @@ def _check_sets(plan: SweepPlan, block: int = 100_000) -> None:
     for start in range(0, plan.n_sets, block):
         stop = min(plan.n_sets, start + block)
         display, internal = plan.set_values(start, stop)
-        rates, c0, feed = input_rates(plan, internal)
+        rates, c0, feed = _located_inputs(plan, start, display, internal)
         out = np.zeros((stop - start, n))
         for e in diag:
             out[:, pattern.rows[e]] -= pattern.coefficients[e] * rates[:, pattern.steps[e]]
@@ -467,7 +487,5 @@ def _check_sets(plan: SweepPlan, block: int = 100_000) -> None:
         try:
             check_working_range(out[i], t_end, plan.scheme.species_names, float(amount[i]))
         except WorkingRangeError as exc:
-            values = ", ".join(
-                f"{c} = {v:.6g}" for c, v in zip(plan.parameter_columns, display[i], strict=True)
-            )
+            values = _set_text(plan, display[i])
             raise UsageError(f"set {start + i} ({values}): {exc.problem}", exc.hint) from None
