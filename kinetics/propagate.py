@@ -230,7 +230,7 @@ def _arithmetic_bound(n: int, plan: _Plan) -> float:
     factor = (8 if route_dd else 4) * unit * (1 + plan.ymax)
     eps = (m + 4) * gamma + (m + 8) * unit + factor
     for _ in range(plan.j):
-        eps = _kernels.squared_bound(eps, gamma)
+        eps = _kernels.squared_bound.py_func(eps, gamma)  # scalars: not compiled
     return float(eps)
 
 
@@ -290,16 +290,15 @@ def _expm_group(A, Al, t, sigma, sigma_lo, plan: _Plan):
     Fl = np.empty_like(A)
     n = A.shape[-1]
     Y = _kernels.scratch("scaled", A.shape)  # internal to this function
-    mats = _kernels.scratch("mats", (6, n, n))  # work matrices of both kernels below
+    mats = _kernels.scratch("mats", (6, n, n))  # work matrices of the kernel
+    m = plan.degree
+    ratio = np.empty(A.shape[0])
     _kernels.exponentials(
         A, Al, np.ascontiguousarray(t, dtype=float), np.ascontiguousarray(sigma, dtype=float),
         np.ascontiguousarray(sigma_lo, dtype=float), plan.j, plan.ps, plan.pr, ih, il,
         np.bool_(use_dd), Fh, Fl, Y, _kernels.scratch("powers", (2, plan.ps + 1, n, n)), mats,
+        m + 1, math.exp(-math.lgamma(m + 2)), TINY, ratio,
     )  # fmt: skip
-    m = plan.degree
-    ratio = _kernels.truncation_ratios(
-        Y, Fh, m + 1, math.exp(-math.lgamma(m + 2)), TINY, mats, np.bool_(False)
-    )
     r = 2.0**plan.j * ratio
     return Fh, Fl, np.where(r <= 0.5, 2.0 * r, np.inf)
 
@@ -543,7 +542,13 @@ def _mv(Fh, Fl, vh, vl, is_dd):
 
     oh = np.empty(vh.shape)
     ol = np.empty(vh.shape)
-    _kernels.apply(Fh, Fl, vh, vl, np.asarray(is_dd, dtype=bool), oh, ol)
+    if vh.shape[0] <= 4:
+        # a few members: the product kernel itself, member by member (it is compiled with
+        # the exponentials; the loop over a stack is compiled only when a batch needs it)
+        for q in range(vh.shape[0]):
+            _kernels.product(Fh[q], Fl[q], vh[q], vl[q], oh[q], ol[q], np.bool_(is_dd[q]))
+    else:
+        _kernels.apply(Fh, Fl, vh, vl, np.asarray(is_dd, dtype=bool), oh, ol)
     return oh, ol
 
 
@@ -618,12 +623,11 @@ def _propagate_dense_stack_run(A, Al, x0, times, precision: str, species: int):
             vh, vl = _mv(Fh, Fl, vh, vl, is_dd)
             cur_bound = _compose(eps, _gamma_stack(N, is_dd))
         Fh, Fl, eps, is_dd = exp_of(dt, columns=M + 1)
-        # states F^k v for k = 0..M, one product each (compiled)
-        _kernels.grid_steps(
-            Fh, Fl, vh[..., 0].copy(), vl[..., 0].copy(), M + 1, skip, np.asarray(is_dd), X, start
-        )
-        _kernels.grid_bounds(eps, _gamma_stack(N, is_dd), M + 1, skip, cur_bound, bound, start)
-        _kernels.grid_residuals(times, start, t_first, dt, skip, residual)
+        # states F^k v for k = 0..M (one product each), their bounds and time residuals
+        _kernels.grid(
+            Fh, Fl, vh[..., 0].copy(), vl[..., 0].copy(), M + 1, skip, np.asarray(is_dd), X,
+            start, eps, _gamma_stack(N, is_dd), cur_bound, bound, times, t_first, dt, residual,
+        )  # fmt: skip
     else:
         cache: dict[float, tuple] = {}
         reached = (0.0, 0.0)  # exact time reached so far, double-double
@@ -1044,8 +1048,7 @@ class StretchPropagator:
         n, N = self.species, Fh.shape[-1]
         v = np.ones((1, N, 1))
         v[0, :n, 0] = start
-        oh, ol = np.empty((1, N, 1)), np.empty((1, N, 1))
-        _kernels.apply(Fh, Fl, v, np.zeros((1, N, 1)), is_dd, oh, ol)
+        oh, ol = _mv(Fh, Fl, v, np.zeros((1, N, 1)), is_dd)
         if not np.isfinite(oh).all():  # growth: let the checked route say so
             r = self.advance(start[None], [length], [length_low])
             return r.concentrations[0], float(r.error_bound[0])
