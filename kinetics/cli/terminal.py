@@ -429,6 +429,7 @@ def render_solution(
     summary: dict | None = None,
     species: list[str] | None = None,
     max_columns: int = 12,
+    activity: dict | None = None,
 ) -> None:
     """Print the summary table (when given) and the concentration table (about ``max_rows`` rows).
 
@@ -446,7 +447,11 @@ def render_solution(
         Columns to show (default: every species, at most ``max_columns`` of them).
     max_columns : int, optional
         Without ``species``, show only the first this many species and say so.
+    activity : dict, optional
+        What a solution in activity units adds to the summary
+        (:func:`kinetics.analysis.solution_summary.activity_summary`).
     """
+    from kinetics.output.summary_text import activity_lines
     from kinetics.units import time_factor
 
     out = console()
@@ -460,6 +465,11 @@ def render_solution(
         kept = {k: v for k, v in summary.items() if not species or k in species}
         shown = Summary(kept, getattr(summary, "scheme", None))
         render_summary(shown, time_unit, solution.concentration_unit, out)
+    lines = activity_lines(activity, time_unit)
+    if lines:
+        out.print("[bold]Activity maxima and equilibria[/bold]")
+        for label, text in lines:
+            out.print(f"  {_escape(label)}: {_escape(text)}")
     # the table straight from the arrays (the command line never needs pandas)
     shown_species = species or solution.species
     unit = solution.concentration_unit
@@ -471,7 +481,7 @@ def render_solution(
     rows = list(range(0, n, step))
     if rows[-1] != n - 1:
         rows.append(n - 1)
-    title = "Concentrations[/bold] (exact)"
+    title = f"{'Activities' if solution.activity_unit else 'Concentrations'}[/bold] (exact)"
     if step > 1:
         title += f": {len(rows)} of {n} points shown (1 in {step}); --out writes them all"
     out.print(f"[bold]{title}")

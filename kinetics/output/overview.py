@@ -155,13 +155,16 @@ def solution_json(
     summary : dict, optional
         Species -> quantities, already in ``time_unit`` (see
         :func:`kinetics.analysis.solution_summary.summary_in_units`);
-        written as ``null`` when not given.
+        written as ``null`` when not given.  A solution in activity units adds the key
+        ``activity`` (:func:`kinetics.analysis.solution_summary.activity_summary`), its
+        ``concentration_unit`` and ``concentrations`` then hold activities.
     settings : dict, optional
         How the grid was asked for (``until``, ``points``, ``times``), as written.
     """
-    from kinetics.analysis.solution_summary import SUMMARY_SKIPPED_NOTE
+    from kinetics.analysis.solution_summary import SUMMARY_SKIPPED_NOTE, activity_summary
 
     times = solution.times / time_factor(time_unit)  # the time column of Solution.to_frame
+    activity = activity_summary(solution, summary)
     return {
         "source": solution.scheme.source,
         "title": solution.scheme.title,
@@ -174,6 +177,7 @@ def solution_json(
         "summary": summary,
         **({} if summary is not None else {"summary_note": SUMMARY_SKIPPED_NOTE}),
         "scheme_summary": getattr(summary, "scheme", None) or None,
+        **({"activity": activity} if activity is not None else {}),
         "times": times.tolist(),
         "concentrations": {
             name: solution.concentrations[:, i].tolist() for i, name in enumerate(solution.species)

@@ -25,6 +25,7 @@ from kinetics.output.summary_text import (
     DEFINITIONS,
     SCHEME_DEFINITIONS,
     SUMMARY_COLUMNS,
+    activity_lines,
     scheme_lines,
     summary_header,
     summary_notes,
@@ -313,6 +314,7 @@ def build_report(
     parts.append(_inputs_section(scheme))
     parts.append(_balance_section(scheme))
     parts.append(_summary_section(summary, time_unit, solution.concentration_unit))
+    parts.append(_activity_section(solution, summary, time_unit))
     plotted = plot_solution or solution
     unit = solution.concentration_unit
     parts.append(_plot_section(plotted, time_unit, unit, summary, species, heading))
@@ -329,6 +331,17 @@ def build_report(
     )
     parts.append("</main></body></html>")
     return "\n".join(parts) + "\n"
+
+
+def _activity_section(solution: Solution, summary: dict | None, time_unit: str) -> str:
+    """Activity maxima and equilibria of a solution in activity units ("" otherwise)."""
+    from kinetics.analysis.solution_summary import activity_summary
+
+    lines = activity_lines(activity_summary(solution, summary), time_unit)
+    if not lines:
+        return ""
+    rows = [[escape(a), escape(b)] for a, b in lines]
+    return "<h3>Activity maxima and equilibria</h3>\n" + _table(["quantity", "value"], rows)
 
 
 def _head(heading: str, scheme: Scheme, solution: Solution, sha256, settings, when) -> list:
@@ -386,10 +399,11 @@ def _plot_section(solution: Solution, time_unit: str, unit: str, summary, specie
 
     figure = concentration_figure(solution, time_unit, summary, species=species, title=heading)
     return (
-        "<h2>Concentrations</h2>\n"
+        f"<h2>{'Activities' if solution.activity_unit else 'Concentrations'}</h2>\n"
         '<figure id="concentration-plot">'
-        + _img(figure_bytes(figure, "png", dpi=110), "concentration against time")
-        + f"<figcaption>Concentration [{escape(unit)}] against time [{escape(time_unit)}], "
+        + _img(figure_bytes(figure, "png", dpi=110), f"{solution.quantity} against time")
+        + f"<figcaption>{solution.quantity.capitalize()} [{escape(unit)}] against time "
+        f"[{escape(time_unit)}], "
         "linear scale (left) and logarithmic scale (right). Stars mark maxima, open circles "
         "half-lives.</figcaption></figure>"
     )

@@ -11,6 +11,7 @@ __all__ = [
     "DEFINITIONS",
     "SCHEME_DEFINITIONS",
     "SUMMARY_COLUMNS",
+    "activity_lines",
     "scheme_lines",
     "scheme_rows",
     "summary_header",
@@ -247,3 +248,53 @@ def summary_notes(summary: dict[str, dict], time_unit: str, conc_unit: str) -> l
             notes.append(f"{name}: local maxima {listed}")
         notes.extend(f"{name}: {note}" for note in entry.get("notes") or [])
     return list(dict.fromkeys(notes))
+
+
+_EQUILIBRIUM_WORDS = {
+    "secular": "secular equilibrium",
+    "transient": "transient equilibrium",
+}
+
+
+def activity_lines(activity: dict | None, time_unit: str) -> list[tuple[str, str]]:
+    """What a summary in activity units adds, as (label, text) pairs: the activity maxima,
+    why they fall where the amounts peak, and the equilibria of daughters and parents.
+
+    Parameters
+    ----------
+    activity : dict or None
+        :func:`kinetics.analysis.solution_summary.activity_summary` (times in
+        ``time_unit``).
+    time_unit : str
+
+    Examples
+    --------
+    >>> lines = activity_lines({"unit": "MBq", "maxima": {"D": {"time": 18.5,
+    ...     "activity": 120.0}}, "maximum_note": "n", "equilibria": [{"parent": "P",
+    ...     "daughter": "D", "kind": "transient", "ratio": 1.1}]}, "h")
+    >>> lines[0]
+    ('activity maxima', 'D 120 MBq at 18.5 h')
+    >>> lines[2]
+    ('D/P in the long run', 'transient equilibrium: activity ratio 1.1')
+    """
+    if not activity:
+        return []
+    unit = activity["unit"]
+    maxima = activity.get("maxima") or {}
+    listed = "; ".join(
+        f"{name} {_listing([m['activity']])} {unit} at {_listing([m['time']])} {time_unit}"
+        for name, m in maxima.items()
+    )
+    lines = [("activity maxima", listed or "none inside the window")]
+    lines.append(("why there", activity.get("maximum_note", "")))
+    for e in activity.get("equilibria") or []:
+        label = f"{e['daughter']}/{e['parent']} in the long run"
+        if e["kind"] in _EQUILIBRIUM_WORDS:
+            text = f"{_EQUILIBRIUM_WORDS[e['kind']]}: activity ratio {_listing([e['ratio']])}"
+        else:
+            text = (
+                f"no equilibrium: {e['daughter']} decays no faster than what feeds "
+                f"{e['parent']}, so the ratio keeps growing"
+            )
+        lines.append((label, text))
+    return lines
