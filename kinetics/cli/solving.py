@@ -65,9 +65,14 @@ def _check_activity(scheme, activity_unit, conc_unit) -> None:
     activity_factors(scheme, activity_unit)
 
 
-def _solve_and_summarise(scheme, times, time_unit, bar, conc_unit=None, activity_unit=None):
+def _solve_and_summarise(
+    scheme, times, time_unit, bar, conc_unit=None, activity_unit=None, sensitivity=False
+):
+    """The solution, its summary in ``time_unit`` and (when asked) the sensitivities of
+    the summary quantities."""
     from kinetics import solution as sol
     from kinetics.analysis.solution_summary import compute_summary, summary_in_units
+    from kinetics.analysis.summary_sensitivity import summary_sensitivities
 
     bar.describe("solving")
     result = sol.solve(scheme, times)
@@ -79,8 +84,12 @@ def _solve_and_summarise(scheme, times, time_unit, bar, conc_unit=None, activity
     bar.step("summary quantities")
     raw = compute_summary(result)
     summary = summary_in_units(raw, time_unit) if raw is not None else None
+    sensitivities = None
+    if sensitivity and raw is not None:
+        bar.describe("sensitivities")
+        sensitivities = summary_sensitivities(result, raw)
     bar.step()
-    return result, summary
+    return result, summary, sensitivities
 
 
 @click.command()
@@ -95,6 +104,12 @@ def _solve_and_summarise(scheme, times, time_unit, bar, conc_unit=None, activity
 )
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object on stdout.")
 @_ACTIVITY_OPTION
+@click.option(
+    "--sensitivity",
+    is_flag=True,
+    help="Also report the normalised sensitivities ∂ln Q/∂ln p of the summary quantities to "
+    "every named quantity, rate constant and the temperature (exact; JSON key 'sensitivity').",
+)
 def solve(
     scheme_file,
     until,
@@ -107,6 +122,7 @@ def solve(
     outputs,
     as_json,
     activity_unit,
+    sensitivity,
 ):
     """Solve a scheme exactly on a time grid; print or write the table and the summary.
 
@@ -121,7 +137,8 @@ def solve(
       kinetics solve networks/consecutive_intermediate.scheme --until '90 min' --points 91 \\
           --out table.csv --out table.xlsx --out curves.png
       kinetics solve networks/decay_pair_branching.scheme --times '0,6,12,24,48 h' --json
-      kinetics solve networks/generator_half_lives.scheme --until 10d --activity MBq
+      kinetics solve networks/generator_half_lives.scheme --until 5d --activity MBq
+      kinetics solve networks/consecutive_intermediate.scheme --until 2h --sensitivity
     """
     from kinetics.cli.terminal import progress, render_solution
     from kinetics.output.overview import solution_json
@@ -137,11 +154,15 @@ def solve(
     caution(no_caution)
     first_use_note()
     with progress(2, "solving") as bar:
-        result, summary = _solve_and_summarise(
-            scheme, times, time_unit, bar, conc_unit, activity_unit
+        result, summary, sensitivities = _solve_and_summarise(
+            scheme, times, time_unit, bar, conc_unit, activity_unit, sensitivity
         )
     needs_document = as_json or any(p.suffix.lower() in (".json", ".parquet") for p in paths)
-    document = solution_json(result, time_unit, summary, settings) if needs_document else None
+    document = (
+        solution_json(result, time_unit, summary, settings, sensitivities)
+        if needs_document
+        else None
+    )
     # the result reaches stdout before any file is written: a full disk loses nothing
     if as_json:
         echo_long(json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False))
@@ -151,7 +172,14 @@ def solve(
             from kinetics.analysis.solution_summary import activity_summary
 
             activity = activity_summary(result, summary)
-        render_solution(result, time_unit, summary=summary, species=species, activity=activity)
+        render_solution(
+            result,
+            time_unit,
+            summary=summary,
+            species=species,
+            activity=activity,
+            sensitivity=sensitivities,
+        )
     write_outputs(
         paths,
         lambda path: _write_output(path, result, scheme, time_unit, summary, document, species),
@@ -255,8 +283,8 @@ def report(
     caution(no_caution)
     first_use_note()
     with progress(4, "solving") as bar:
-        result, summary = _solve_and_summarise(
-            scheme, times, time_unit, bar, conc_unit, activity_unit
+        result, summary, sensitivities = _solve_and_summarise(
+            scheme, times, time_unit, bar, conc_unit, activity_unit, sensitivity=True
         )
         bar.describe("drawing")
         html = build_report(
@@ -269,6 +297,7 @@ def report(
             species=species,
             title=title,
             plot_solution=_plot_solution(result, scheme),
+            sensitivity=sensitivities,
         )
         bar.step(f"writing {path.name}")
         write_report(path, html)

@@ -430,6 +430,7 @@ def render_solution(
     species: list[str] | None = None,
     max_columns: int = 12,
     activity: dict | None = None,
+    sensitivity: dict | None = None,
 ) -> None:
     """Print the summary table (when given) and the concentration table (about ``max_rows`` rows).
 
@@ -450,8 +451,12 @@ def render_solution(
     activity : dict, optional
         What a solution in activity units adds to the summary
         (:func:`kinetics.analysis.solution_summary.activity_summary`).
+    sensitivity : dict, optional
+        Sensitivities of the summary quantities, printed ranked
+        (:func:`kinetics.analysis.summary_sensitivity.ranked`).
     """
-    from kinetics.output.summary_text import activity_lines
+    from kinetics.analysis.summary_sensitivity import ranked
+    from kinetics.output.summary_text import HINGE_HEADERS, activity_lines, hinge_rows
     from kinetics.units import time_factor
 
     out = console()
@@ -470,6 +475,13 @@ def render_solution(
         out.print("[bold]Activity maxima and equilibria[/bold]")
         for label, text in lines:
             out.print(f"  {_escape(label)}: {_escape(text)}")
+    if sensitivity is not None:
+        out.print("[bold]What this answer hinges on[/bold] (exact ∂ln Q/∂ln p, largest first)")
+        rows = hinge_rows(ranked(sensitivity))
+        if rows:
+            print_fitted(out, list(HINGE_HEADERS), rows, left=2)
+        else:
+            out.print("  no summary quantity depends on a parameter")
     # the table straight from the arrays (the command line never needs pandas)
     shown_species = species or solution.species
     unit = solution.concentration_unit

@@ -144,6 +144,7 @@ def solution_json(
     time_unit: str,
     summary: dict | None = None,
     settings: dict | None = None,
+    sensitivity: dict | None = None,
 ) -> dict:
     """The ``solve --json`` object: table settings, the table and the summary.
 
@@ -160,6 +161,10 @@ def solution_json(
         ``concentration_unit`` and ``concentrations`` then hold activities.
     settings : dict, optional
         How the grid was asked for (``until``, ``points``, ``times``), as written.
+    sensitivity : dict, optional
+        Normalised sensitivities of the summary quantities, key ``sensitivity``: quantity
+        -> species -> parameter -> value
+        (:func:`kinetics.analysis.summary_sensitivity.summary_sensitivities`).
     """
     from kinetics.analysis.solution_summary import SUMMARY_SKIPPED_NOTE, activity_summary
 
@@ -178,6 +183,7 @@ def solution_json(
         **({} if summary is not None else {"summary_note": SUMMARY_SKIPPED_NOTE}),
         "scheme_summary": getattr(summary, "scheme", None) or None,
         **({"activity": activity} if activity is not None else {}),
+        **({"sensitivity": sensitivity} if sensitivity is not None else {}),
         "times": times.tolist(),
         "concentrations": {
             name: solution.concentrations[:, i].tolist() for i, name in enumerate(solution.species)

@@ -9,9 +9,11 @@ from __future__ import annotations
 
 __all__ = [
     "DEFINITIONS",
+    "HINGE_HEADERS",
     "SCHEME_DEFINITIONS",
     "SUMMARY_COLUMNS",
     "activity_lines",
+    "hinge_rows",
     "scheme_lines",
     "scheme_rows",
     "summary_header",
@@ -298,3 +300,30 @@ def activity_lines(activity: dict | None, time_unit: str) -> list[tuple[str, str
             )
         lines.append((label, text))
     return lines
+
+
+#: Headers of the ranked table "what this answer hinges on".
+HINGE_HEADERS = ("rank", "answer", "hinges most on", "then on", "reading")
+
+
+def hinge_rows(ranked_rows) -> list[list[str]]:
+    """The ranked sensitivities as table rows (:data:`HINGE_HEADERS`).
+
+    Parameters
+    ----------
+    ranked_rows : list of (quantity, species, [(parameter, value), ...])
+        :func:`kinetics.analysis.summary_sensitivity.ranked`.
+
+    Examples
+    --------
+    >>> hinge_rows([("t_max", "B", [("k2", -0.6), ("k1", -0.4)])])[0]
+    ['1', 't_max B', 'k2 (-0.6)', 'k1 (-0.4)', '1 % more k2: t_max B about 0.6 % lower']
+    """
+    rows = []
+    for rank, (key, species, found) in enumerate(ranked_rows, 1):
+        cells = [f"{name} ({value:.4g})" for name, value in found[:2]]
+        name, value = found[0]
+        way = "higher" if value > 0 else "lower"
+        reading = f"1 % more {name}: {key} {species} about {abs(value):.3g} % {way}"
+        rows.append([str(rank), f"{key} {species}", cells[0], [*cells, "—"][1], reading])
+    return rows
