@@ -40,6 +40,7 @@ __all__ = [
     "Equilibrium",
     "activities",
     "activity_factors",
+    "activity_factors_for",
     "amount_from_activity",
     "amounts_from_activities",
     "decay_constants",
@@ -273,6 +274,32 @@ def activity_factors(scheme: Scheme, unit: str = "Bq") -> np.ndarray:
     return np.array(
         [float(lam[name] * AVOGADRO_EXACT * factor) for name in scheme.species_names], dtype=float
     )
+
+
+def activity_factors_for(scheme: Scheme, decay, unit: str = "Bq") -> np.ndarray:
+    r"""Activity per amount for decay constants given per set (a sweep):
+    :math:`f_i = \lambda_i N_A u_c / u_A`, as :func:`activity_factors` for the scheme's own.
+
+    Parameters
+    ----------
+    scheme : Scheme
+        Its concentration unit.
+    decay : array_like, shape (..., n_species)
+        :math:`\lambda` [1/s] of each set (:func:`decay_rates`, or :math:`-K_{ii}`).
+    unit : str, optional
+        See :func:`activity_factors`.
+
+    Returns
+    -------
+    numpy.ndarray
+        The same shape [``unit`` per concentration unit].
+
+    Raises
+    ------
+    ActivityError
+        When ``unit`` is unknown or does not fit the scheme's concentration unit.
+    """
+    return np.asarray(decay, dtype=float) * float(AVOGADRO_EXACT * _unit_ratio(scheme, unit))
 
 
 def _unit_ratio(scheme: Scheme, unit: str) -> Fraction:

@@ -899,3 +899,20 @@ def test_cli_sweep_of_a_named_quantity(tmp_path, capsys):
     argv = ["sweep", str(path), "--vary", "t_p=40:60:5:h", "--until", "200h", "--out", str(out)]
     assert main([*argv, "--no-caution"]) == 0
     assert pd.read_csv(out)["t_p [h]"].tolist() == [40.0, 45.0, 50.0, 55.0, 60.0]
+
+
+def test_a_sweep_in_activity_units_equals_solves_in_activity_units():
+    # heights, limits and curves as activities with each set's decay constants: every row
+    # equals Solution.in_activity of a solve with that t_p
+    s = kinetics.parse(GENERATOR)
+    times = [0.0, 100 * 3600.0]
+    table, curves = kinetics.sweep(s, ["t_p=40,60"], times, curves=True, activity="MBq")
+    assert "c_max D [MBq]" in table.columns
+    assert curves.name == "activity"
+    for k, row in enumerate(table.itertuples(index=False)):
+        one = kinetics.solve(s.with_values(quantities={"t_p": row[0] * 3600}), times)
+        active = one.in_activity("MBq")
+        assert row[3] == pytest.approx(active.summary("s")["D"]["c_max"], rel=1e-12, abs=0)
+        np.testing.assert_allclose(curves.values[k], active.concentrations, rtol=1e-12, atol=0)
+    assert (table["limit G [MBq]"] == 0).all()
+    assert np.signbit(table["limit G [MBq]"]).sum() == 0

@@ -276,6 +276,12 @@ Examples:
     help="Precision of the propagation engine for --curves.",
 )
 @click.option("--no-caution", is_flag=True, help="Do not print the two-line caution on stderr.")
+@click.option(
+    "--activity",
+    "activity_unit",
+    help="Heights, limits and curves as activities A = λN in this unit (MBq, GBq, Ci ...), "
+    "with each set's decay constants.",
+)
 def sweep(
     scheme_file,
     vary,
@@ -299,6 +305,7 @@ def sweep(
     keep_chunks,
     precision,
     no_caution,
+    activity_unit,
 ):
     """Sweep rate constants, Arrhenius parameters, temperature and start values.
 
@@ -325,6 +332,7 @@ def sweep(
         time_unit=time_unit,
         chunk_size=chunk_size,
         precision=precision,
+        activity_unit=activity_unit,
     )
     plot = _plot_choice(plot_spec, plan)
     caution(no_caution)
