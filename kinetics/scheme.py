@@ -680,42 +680,9 @@ class Scheme:
         t = self.temperature if temperature is None else temperature
         return constant_values(self.constants, self.dependencies, t, values)
 
-    def constant_slopes(
-        self,
-        wrt,
-        temperature: float | None = None,
-        quantities: dict[str, float | Fraction] | None = None,
-    ) -> dict[str, dict[str, Fraction]]:
-        """Exact derivatives of every rate constant with respect to the names ``wrt``.
-
-        Parameters
-        ----------
-        wrt : iterable of str
-            Named quantities, rate constants and ``"temperature"``.
-        temperature, quantities
-            As for :meth:`exact_constants`.
-
-        Returns
-        -------
-        dict of str to dict of str to Fraction
-            Constant -> name -> :math:`\\partial k/\\partial p` [SI per SI unit of p]
-            (:func:`kinetics.definitions.constant_slopes`; no finite differences).
-
-        Examples
-        --------
-        >>> from kinetics import parse
-        >>> scheme = parse("t_p = 50 h\\nP -> D  lam = ln(2) / t_p\\nstart P = 1 mol")
-        >>> d = scheme.constant_slopes(["t_p"])["lam"]["t_p"]  # -ln 2 / t_p**2
-        >>> round(float(d) * 180000**2, 12)
-        -0.69314718056
-        """
-        wrt = list(wrt)
-        for name in wrt:
-            if name != "temperature":
-                _named_value(self, name, 0)
-        values = {n: _named_value(self, n, v) for n, v in (quantities or {}).items()}
-        t = self.temperature if temperature is None else temperature
-        return constant_slopes(self.constants, self.dependencies, t, wrt, values)
+    def constant_slopes(self, wrt, temperature=None, quantities=None) -> dict[str, dict]:
+        """Exact derivatives of every rate constant by name (:func:`_constant_slopes`)."""
+        return _constant_slopes(self, list(wrt), temperature, quantities or {})
 
     @property
     def temperature_constants(self) -> tuple[str, ...]:
@@ -841,6 +808,44 @@ def _with_values(
         _excess_si=new_excess_si,
     )
     return _follow_starts(new, changed=bool(initial))
+
+
+def _constant_slopes(
+    scheme: Scheme,
+    wrt: list[str],
+    temperature: float | None,
+    quantities: dict[str, float | Fraction],
+) -> dict[str, dict[str, Fraction]]:
+    """The body of :meth:`Scheme.constant_slopes`.
+
+    Parameters
+    ----------
+    scheme : Scheme
+    wrt : list of str
+        Named quantities, rate constants and ``"temperature"``.
+    temperature, quantities
+        As for :meth:`Scheme.exact_constants`.
+
+    Returns
+    -------
+    dict of str to dict of str to Fraction
+        Constant -> name -> :math:`\\partial k/\\partial p` [SI per SI unit of p]
+        (:func:`kinetics.definitions.constant_slopes`; no finite differences).
+
+    Examples
+    --------
+    >>> from kinetics import parse
+    >>> scheme = parse("t_p = 50 h\\nP -> D  lam = ln(2) / t_p\\nstart P = 1 mol")
+    >>> d = scheme.constant_slopes(["t_p"])["lam"]["t_p"]  # -ln 2 / t_p**2
+    >>> round(float(d) * 180000**2, 12)
+    -0.69314718056
+    """
+    for name in wrt:
+        if name != "temperature":
+            _named_value(scheme, name, 0)
+    values = {n: _named_value(scheme, n, v) for n, v in quantities.items()}
+    t = scheme.temperature if temperature is None else temperature
+    return constant_slopes(scheme.constants, scheme.dependencies, t, wrt, values)
 
 
 def _named_value(scheme: Scheme, name: str, value) -> Fraction:
