@@ -21,17 +21,21 @@ import math
 import numpy as np
 from numba import njit
 
-from ._kernels import matmul_double, two_sum
-from .analysis.tolerances import REL_NOISE_C, REL_NOISE_D, XTOL
+from .analysis.tolerances import (
+    MAX_NEWTON,
+    NEWTON_TERMS,
+    NEWTON_Y,
+    RATIO,
+    REL_NOISE_C,
+    REL_NOISE_D,
+    SEGMENT_STEPS,
+    U0,
+    XTOL,
+)
+from .engine.kernels import matmul_double, two_sum
 
-# the constants of the method live in kinetics.sweep_summary (numba reads module globals
-# as compile-time constants)
-from .sweep_summary import _MAX_NEWTON as MAX_NEWTON
-from .sweep_summary import _NEWTON_TERMS as NEWTON_TERMS
-from .sweep_summary import _NEWTON_Y as NEWTON_Y
-from .sweep_summary import _RATIO as RATIO
-from .sweep_summary import _SEGMENT_STEPS as SEGMENT_STEPS
-from .sweep_summary import _U0 as U0
+# the constants of the method live in kinetics.analysis.tolerances (numba reads module
+# globals as compile-time constants)
 
 _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
 # steps called only from summarise_members: no wrapper for calls from Python and no cache

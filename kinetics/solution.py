@@ -15,6 +15,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from .engine import propagate_certified
 from .errors import (
     ArgumentTypeError,
     SettingError,
@@ -23,7 +24,6 @@ from .errors import (
     WorkingRangeError,
     type_name,
 )
-from .propagate import propagate_certified
 from .units import time_factor
 
 if TYPE_CHECKING:

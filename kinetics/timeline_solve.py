@@ -58,8 +58,8 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from . import _doubledouble as dd
+from .engine import TINY, Precision, StretchPropagator
 from .errors import UsageError, shown_value
-from .propagate import TINY, Precision, StretchPropagator
 from .solution import check_times
 from .timeline import Addition, Plan, Removal, Timeline, expand
 

@@ -11,7 +11,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from kinetics import _kernels
+from kinetics.engine import kernels as _kernels
 
 # nonnegative doubles over a wide range of magnitudes, as in exponentials of stiff schemes
 # (products stay clear of overflow and of the subnormal range, where no split is exact)

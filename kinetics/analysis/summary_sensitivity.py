@@ -9,7 +9,7 @@ temperature) the normalised sensitivity is
 a rise of 1 % in :math:`p` changes :math:`Q` by about :math:`S` %.  Everything is exact:
 
 * :math:`\partial c(t)/\partial p` from the Fréchet derivative of the matrix exponential
-  (:func:`kinetics.sensitivity.point_sensitivities`) along
+  (:func:`kinetics.engine.sensitivity.point_sensitivities`) along
   :math:`\partial K/\partial p = \sum_c (\partial k_c/\partial p)\,\partial K/\partial k_c`,
   with :math:`\partial k_c/\partial p` differentiated exactly through the file's
   definitions (:meth:`kinetics.scheme.Scheme.constant_slopes`); start values written as
@@ -143,7 +143,7 @@ class _Derivatives:
 
     def at(self, times: np.ndarray):
         """c (m, n) and dc/dp (P, m, n) at ``times`` [s]."""
-        from kinetics.sensitivity import point_sensitivities
+        from kinetics.engine import point_sensitivities
 
         V = self.dc0[self.moving_starts] if self.moving_starts else None
         E = self.E if self.constants else None

@@ -1,6 +1,6 @@
 r"""Compiled kernels of the dense entrywise engine (private; numba).
 
-The dense engine of :mod:`kinetics.propagate` spends its time in a few dozen
+The dense engine of :mod:`kinetics.engine.propagate` spends its time in a few dozen
 products of small nonnegative matrices per exponential and per time grid.  As
 array expressions (a temporary tensor per product) their cost is dominated by
 interpreter overhead; here each product is one compiled loop nest, and a whole
