@@ -538,9 +538,10 @@ def to_internal(target: Target, values, unit: str, texts=None) -> tuple[np.ndarr
         exact = _exact_numbers(values, texts)
         return np.array([temperature_to_kelvin(x, unit) for x in exact]), lo
     if target.is_temperature and parse_unit(unit).offset:  # a named temperature in degC
+        hi = np.empty(values.size)
         for i, x in enumerate(_exact_numbers(values, texts)):
-            values[i], lo[i] = dd.pair(_offset_kelvin(x, unit))
-        return values, lo
+            hi[i], lo[i] = dd.pair(_offset_kelvin(x, unit))
+        return hi, lo
     if target.kind == "energy":
         factor = parse_unit(unit).factor
         return np.array([float(x * factor) for x in _exact_numbers(values, texts)]), lo

@@ -916,3 +916,17 @@ def test_a_sweep_in_activity_units_equals_solves_in_activity_units():
         np.testing.assert_allclose(curves.values[k], active.concentrations, rtol=1e-12, atol=0)
     assert (table["limit G [MBq]"] == 0).all()
     assert np.signbit(table["limit G [MBq]"]).sum() == 0
+
+
+def test_a_named_temperature_is_swept_in_degrees_celsius():
+    # T_ref of a Q10 law: 20, 25, 30 degC = 293.15, 298.15, 303.15 K (SI brochure, 9th ed.,
+    # 2.3.1); each row equals a solve with that T_ref, and the column keeps the degrees
+    s = kinetics.parse(
+        "T_ref = 25 degC\nA -> B  k = q10(0.1 1/h, T_ref, 2.5)\ntemperature = 30 degC\n"
+        "start A = 1 mol/L\n"
+    )
+    table = kinetics.sweep(s, ["T_ref=20:30:3:degC"], [0.0, 36000.0])
+    assert table["T_ref [degC]"].tolist() == [20.0, 25.0, 30.0]
+    for celsius, half_life in zip((20, 25, 30), table["half_life A [s]"], strict=True):
+        one = kinetics.solve(s.with_values(quantities={"T_ref": celsius + 273.15}), [0, 1.0])
+        assert half_life == pytest.approx(one.summary("s")["A"]["half_life"], rel=1e-12, abs=0)
