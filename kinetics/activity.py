@@ -46,6 +46,7 @@ __all__ = [
     "decay_constants",
     "decay_rates",
     "equilibria",
+    "start_amount_slopes",
     "start_amounts",
     "start_amounts_for_rates",
 ]
@@ -234,6 +235,33 @@ def start_amounts_for_rates(scheme: Scheme, rates) -> dict[str, np.ndarray]:
             )
         out[name] = float(value / (AVOGADRO_EXACT * per_unit)) / own
     return out
+
+
+def start_amount_slopes(amount, decay, decay_slopes) -> np.ndarray:
+    r"""How the amount of a start activity moves with its decay constant:
+    :math:`n_0 = A/(\lambda N_A)` gives :math:`\partial n_0/\partial p =
+    -(n_0/\lambda)\,\partial\lambda/\partial p`.
+
+    Parameters
+    ----------
+    amount : float
+        :math:`n_0` [scheme's concentration unit].
+    decay : float
+        :math:`\lambda` [1/s], above 0.
+    decay_slopes : array_like
+        :math:`\partial\lambda/\partial p` for each parameter [1/s per unit of p].
+
+    Returns
+    -------
+    numpy.ndarray
+        :math:`\partial n_0/\partial p` [concentration unit per unit of p].
+
+    Examples
+    --------
+    >>> start_amount_slopes(2.0, 0.5, [0.25]).tolist()  # twice as fast, half the atoms
+    [-1.0]
+    """
+    return -amount / decay * np.asarray(decay_slopes, dtype=float)
 
 
 def activity_factors(scheme: Scheme, unit: str = "Bq") -> np.ndarray:

@@ -103,6 +103,7 @@ class _Derivatives:
     """The scheme's rate matrix, start values and their derivatives by parameter."""
 
     def __init__(self, scheme: Scheme, params: dict[str, float]) -> None:
+        from kinetics.activity import start_amount_slopes
         from kinetics.ratematrix import rate_pattern, step_rates
 
         names = list(params)
@@ -134,7 +135,7 @@ class _Derivatives:
         self.dc0 = np.zeros((len(names), n))
         for name in scheme.start_activities:
             i = scheme.index[name]
-            self.dc0[:, i] = -self.c0[i] / self.lam[i] * self.dlam[:, i]
+            self.dc0[:, i] = start_amount_slopes(self.c0[i], self.lam[i], self.dlam[:, i])
         self.moving_starts = [j for j in range(len(names)) if np.any(self.dc0[j])]
 
     def dK(self, j: int) -> np.ndarray:

@@ -114,7 +114,7 @@ class Run:
     c0: np.ndarray
     feed: np.ndarray | None
     fixed: dict = field(default_factory=dict)  # constants the run's conditions set [SI]
-    activities: dict = field(default_factory=dict)  # matrix index -> start activity
+    activities: dict = field(default_factory=dict)  # start activities: name -> matrix index
 
 
 class Model:
@@ -218,7 +218,7 @@ class Model:
             for name, i in run.activities.items():
                 c0[i] = amounts[name][0]
                 if dlam is not None:
-                    dc0[:, i] = -c0[i] / lam[i] * dlam[:, i]
+                    dc0[:, i] = activity.start_amount_slopes(c0[i], lam[i], dlam[:, i])
         if not derivatives:
             return rates, c0, None, None
         return rates, c0, drates, dc0
