@@ -22,12 +22,14 @@ if TYPE_CHECKING:
     from kinetics.solution import Solution
 
 __all__ = [
+    "ACTIVITY_MAXIMUM_NOTE",
     "AREA_KEYS",
     "CONCENTRATION_KEYS",
     "SUMMARY_MAX",
     "SUMMARY_SKIPPED_NOTE",
     "TIME_KEYS",
     "Summary",
+    "activity_summary",
     "compute_summary",
     "summary_in_units",
 ]
@@ -141,7 +143,9 @@ def compute_summary(solution: Solution) -> Summary | None:
         # those of the amounts of substance)
         for key in ("amount_formed_at_window_end", "amount_formed_in_limit"):
             formed = scheme_wide.get(key)
-            if formed:
+            if formed and solution.activity_unit is not None:
+                scheme_wide.pop(key)  # end products are stable: their activity is 0
+            elif formed:
                 scheme_wide[key] = {
                     p: None if v is None else v * float(factors[p]) for p, v in formed.items()
                 }
@@ -183,3 +187,51 @@ def summary_in_units(summary: dict[str, dict], time_unit: str) -> Summary:
     return Summary(
         {name: _convert_times(d, "", factor) for name, d in summary.items()}, scheme, checked
     )
+
+
+#: Why an activity peaks when its amount does (the note of :func:`activity_summary`).
+ACTIVITY_MAXIMUM_NOTE = (
+    "the activity of a species is its decay constant times its number of atoms; the "
+    "decay constants are constant in time here, so each activity maximum falls at the "
+    "time of the amount maximum (it would not if a decay constant changed with time)"
+)
+
+
+def activity_summary(solution: Solution, summary: dict | None) -> dict | None:
+    """What a solution in activity units adds to its summary (JSON key ``activity``).
+
+    Parameters
+    ----------
+    solution : Solution
+        In activity units (:meth:`kinetics.solution.Solution.in_activity`).
+    summary : dict or None
+        Its summary, already in the unit of time of the report
+        (:func:`summary_in_units`).
+
+    Returns
+    -------
+    dict or None
+        ``unit``; ``decay_constants_per_s`` (species -> :math:`\\lambda` [1/s]);
+        ``maxima`` (species -> ``time`` and ``activity`` of the interior maximum of each
+        decaying species that is formed, in the report's units); ``maximum_note``
+        (:data:`ACTIVITY_MAXIMUM_NOTE`); ``equilibria`` (the long-time ratio of each
+        daughter's activity to its parent's, :func:`kinetics.activity.equilibria`).
+        None for a solution in concentrations.
+    """
+    from kinetics import activity
+
+    if solution.activity_unit is None:
+        return None
+    scheme = solution.scheme
+    lam = activity.decay_constants(scheme)
+    maxima = {}
+    for name, entry in (summary or {}).items():
+        if entry.get("t_max") is not None and lam[name] > 0:
+            maxima[name] = {"time": entry["t_max"], "activity": entry.get("c_max")}
+    return {
+        "unit": solution.activity_unit,
+        "decay_constants_per_s": {name: float(value) for name, value in lam.items()},
+        "maxima": maxima,
+        "maximum_note": ACTIVITY_MAXIMUM_NOTE,
+        "equilibria": [e.to_dict() for e in activity.equilibria(scheme)],
+    }

@@ -167,6 +167,8 @@ Parameters (NAME), as written in the scheme file:
                      k3 = arrhenius(A = ..., Ea = ...)
   temperature        the temperature (changes every Arrhenius constant)
   start:A, excess:W  a start concentration, an excess concentration
+  t_p                a named quantity (t_p = 50 h); the constants defined
+                     from it follow it exactly
 \b
 Values (--vary NAME=VALUES):
   LO:HI:N[:log][:UNIT]   N values from LO to HI, linear or log spacing
@@ -181,9 +183,10 @@ Monte Carlo (--samples N --spread NAME=SPREAD --seed S):
   ln k = ln k0 + ln(1.15) z, z standard normal (k0 is the median, the
   geometric standard deviation is 1.15); temperature and Ea are normal with
   an absolute standard deviation (temperature=2K, k3.Ea=2kJ/mol) or a
-  percentage.  --out then holds the percentile bands 2.5/50/97.5 of every
-  quantity per grid point, --samples-out every sample, --curves the bands
-  of the concentration curves.
+  percentage; a named quantity either way (t_p=10%, t_p=2h).  --out then
+  holds the percentile bands 2.5/50/97.5 of every quantity per grid point,
+  --samples-out every sample, --curves the bands of the concentration
+  curves.
 \b
 Examples:
   kinetics sweep networks/consecutive_intermediate.scheme --until 3h \\
@@ -293,6 +296,12 @@ Examples:
     help="Precision of the propagation engine for --curves.",
 )
 @click.option("--no-caution", is_flag=True, help="Do not print the two-line caution on stderr.")
+@click.option(
+    "--activity",
+    "activity_unit",
+    help="Heights, limits and curves as activities A = λN in this unit (MBq, GBq, Ci ...), "
+    "with each set's decay constants.",
+)
 def sweep(
     scheme_file,
     vary,
@@ -316,6 +325,7 @@ def sweep(
     keep_chunks,
     precision,
     no_caution,
+    activity_unit,
 ):
     """Sweep rate constants, Arrhenius parameters, temperature and start values.
 
@@ -342,6 +352,7 @@ def sweep(
         time_unit=time_unit,
         chunk_size=chunk_size,
         precision=precision,
+        activity_unit=activity_unit,
     )
     plot = _plot_choice(plot_spec, plan)
     caution(no_caution)

@@ -144,6 +144,7 @@ def solution_json(
     time_unit: str,
     summary: dict | None = None,
     settings: dict | None = None,
+    sensitivity: dict | None = None,
 ) -> dict:
     """The ``solve --json`` object: table settings, the table and the summary.
 
@@ -155,9 +156,15 @@ def solution_json(
     summary : dict, optional
         Species -> quantities, already in ``time_unit`` (see
         :func:`kinetics.analysis.solution_summary.summary_in_units`);
-        written as ``null`` when not given.
+        written as ``null`` when not given.  A solution in activity units adds the key
+        ``activity`` (:func:`kinetics.analysis.solution_summary.activity_summary`), its
+        ``concentration_unit`` and ``concentrations`` then hold activities.
     settings : dict, optional
         How the grid was asked for (``until``, ``points``, ``times``), as written.
+    sensitivity : dict, optional
+        Normalised sensitivities of the summary quantities, key ``sensitivity``: quantity
+        -> species -> parameter -> value
+        (:func:`kinetics.analysis.summary_sensitivity.summary_sensitivities`).
 
     Notes
     -----
@@ -167,9 +174,10 @@ def solution_json(
     first window in which all hold together; ``all_hold_until`` null when it has no end,
     both null when they never hold together).
     """
-    from kinetics.analysis.solution_summary import SUMMARY_SKIPPED_NOTE
+    from kinetics.analysis.solution_summary import SUMMARY_SKIPPED_NOTE, activity_summary
 
     times = solution.times / time_factor(time_unit)  # the time column of Solution.to_frame
+    activity = activity_summary(solution, summary)
     return {
         "source": solution.scheme.source,
         "title": solution.scheme.title,
@@ -183,6 +191,8 @@ def solution_json(
         **({} if summary is not None else {"summary_note": SUMMARY_SKIPPED_NOTE}),
         "scheme_summary": getattr(summary, "scheme", None) or None,
         **_requirements(summary),
+        **({"activity": activity} if activity is not None else {}),
+        **({"sensitivity": sensitivity} if sensitivity is not None else {}),
         "times": times.tolist(),
         "concentrations": {
             name: solution.concentrations[:, i].tolist() for i, name in enumerate(solution.species)

@@ -9,9 +9,12 @@ from __future__ import annotations
 
 __all__ = [
     "DEFINITIONS",
+    "HINGE_HEADERS",
     "REQUIREMENT_DEFINITION",
     "SCHEME_DEFINITIONS",
     "SUMMARY_COLUMNS",
+    "activity_lines",
+    "hinge_rows",
     "requirement_lines",
     "scheme_lines",
     "scheme_rows",
@@ -308,3 +311,80 @@ def summary_notes(summary: dict[str, dict], time_unit: str, conc_unit: str) -> l
             notes.append(f"{name}: local maxima {listed}")
         notes.extend(f"{name}: {note}" for note in entry.get("notes") or [])
     return list(dict.fromkeys(notes))
+
+
+_EQUILIBRIUM_WORDS = {
+    "secular": "secular equilibrium",
+    "transient": "transient equilibrium",
+}
+
+
+def activity_lines(activity: dict | None, time_unit: str) -> list[tuple[str, str]]:
+    """What a summary in activity units adds, as (label, text) pairs: the activity maxima,
+    why they fall where the amounts peak, and the equilibria of daughters and parents.
+
+    Parameters
+    ----------
+    activity : dict or None
+        :func:`kinetics.analysis.solution_summary.activity_summary` (times in
+        ``time_unit``).
+    time_unit : str
+
+    Examples
+    --------
+    >>> lines = activity_lines({"unit": "MBq", "maxima": {"D": {"time": 18.5,
+    ...     "activity": 120.0}}, "maximum_note": "n", "equilibria": [{"parent": "P",
+    ...     "daughter": "D", "kind": "transient", "ratio": 1.1}]}, "h")
+    >>> lines[0]
+    ('activity maxima', 'D 120 MBq at 18.5 h')
+    >>> lines[2]
+    ('D/P in the long run', 'transient equilibrium: activity ratio 1.1')
+    """
+    if not activity:
+        return []
+    unit = activity["unit"]
+    maxima = activity.get("maxima") or {}
+    listed = "; ".join(
+        f"{name} {_listing([m['activity']])} {unit} at {_listing([m['time']])} {time_unit}"
+        for name, m in maxima.items()
+    )
+    lines = [("activity maxima", listed or "none inside the window")]
+    lines.append(("why there", activity.get("maximum_note", "")))
+    for e in activity.get("equilibria") or []:
+        label = f"{e['daughter']}/{e['parent']} in the long run"
+        if e["kind"] in _EQUILIBRIUM_WORDS:
+            text = f"{_EQUILIBRIUM_WORDS[e['kind']]}: activity ratio {_listing([e['ratio']])}"
+        else:
+            text = (
+                f"no equilibrium: {e['daughter']} decays no faster than what feeds "
+                f"{e['parent']}, so the ratio keeps growing"
+            )
+        lines.append((label, text))
+    return lines
+
+
+#: Headers of the ranked table "what this answer hinges on".
+HINGE_HEADERS = ("rank", "answer", "hinges most on", "then on", "reading")
+
+
+def hinge_rows(ranked_rows) -> list[list[str]]:
+    """The ranked sensitivities as table rows (:data:`HINGE_HEADERS`).
+
+    Parameters
+    ----------
+    ranked_rows : list of (quantity, species, [(parameter, value), ...])
+        :func:`kinetics.analysis.summary_sensitivity.ranked`.
+
+    Examples
+    --------
+    >>> hinge_rows([("t_max", "B", [("k2", -0.6), ("k1", -0.4)])])[0]
+    ['1', 't_max B', 'k2 (-0.6)', 'k1 (-0.4)', '1 % more k2: t_max B about 0.6 % lower']
+    """
+    rows = []
+    for rank, (key, species, found) in enumerate(ranked_rows, 1):
+        cells = [f"{name} ({value:.4g})" for name, value in found[:2]]
+        name, value = found[0]
+        way = "higher" if value > 0 else "lower"
+        reading = f"1 % more {name}: {key} {species} about {abs(value):.3g} % {way}"
+        rows.append([str(rank), f"{key} {species}", cells[0], [*cells, "—"][1], reading])
+    return rows
