@@ -28,6 +28,14 @@ _OUT_HELP = "Output file, format from the extension: " + ", ".join(
 )
 
 
+_ACTIVITY_OPTION = click.option(
+    "--activity",
+    "activity_unit",
+    help="Report activities A = λN instead of concentrations, in this unit: Bq, kBq, MBq, "
+    "GBq, Ci, mCi, uCi (per volume, e.g. MBq/L, for a scheme per volume).",
+)
+
+
 def _plot_solution(result, scheme):
     """The solution on a grid fine enough to draw smooth curves (at least 201 points)."""
     import numpy as np
@@ -37,23 +45,51 @@ def _plot_solution(result, scheme):
     if len(result.times) >= 201:
         return result
     fine = sol.solve(scheme, np.linspace(0.0, float(result.times[-1]), 401))
+    if result.activity_unit is not None:
+        return fine.in_activity(result.activity_unit)
     return fine if result.unit_factors is None else fine.in_unit(result.concentration_unit)
 
 
-def _solve_and_summarise(scheme, times, time_unit, bar, conc_unit=None):
+def _check_activity(scheme, activity_unit, conc_unit) -> None:
+    """Refuse, before solving, ``--activity`` with ``--concentration-unit`` or a unit that
+    is no activity of the scheme's kind."""
+    if activity_unit is None:
+        return
+    if conc_unit is not None:
+        raise UsageError(
+            "give either --activity or --concentration-unit, not both",
+            "--activity MBq reports activities, --concentration-unit amounts or masses",
+        )
+    from kinetics.activity import activity_factors
+
+    activity_factors(scheme, activity_unit)
+
+
+def _solve_and_summarise(
+    scheme, times, time_unit, bar, conc_unit=None, activity_unit=None, sensitivity=False
+):
+    """The solution, its summary in ``time_unit`` and (when asked) the sensitivities of
+    the summary quantities."""
     from kinetics import solution as sol
     from kinetics.analysis.solution_summary import compute_summary, summary_in_units
+    from kinetics.analysis.summary_sensitivity import summary_sensitivities
 
     bar.describe("solving")
     result = sol.solve(scheme, times)
     unit = conc_unit or scheme.written_unit
-    if unit and unit != scheme.concentration_unit:
+    if activity_unit is not None:
+        result = result.in_activity(activity_unit)
+    elif unit and unit != scheme.concentration_unit:
         result = result.in_unit(unit)
     bar.step("summary quantities")
     raw = compute_summary(result)
     summary = summary_in_units(raw, time_unit) if raw is not None else None
+    sensitivities = None
+    if sensitivity and raw is not None:
+        bar.describe("sensitivities")
+        sensitivities = summary_sensitivities(result, raw)
     bar.step()
-    return result, summary
+    return result, summary, sensitivities
 
 
 @click.command()
@@ -67,6 +103,13 @@ def _solve_and_summarise(scheme, times, time_unit, bar, conc_unit=None):
     help=_OUT_HELP + " (several allowed).",
 )
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object on stdout.")
+@_ACTIVITY_OPTION
+@click.option(
+    "--sensitivity",
+    is_flag=True,
+    help="Also report the normalised sensitivities ∂ln Q/∂ln p of the summary quantities to "
+    "every named quantity, rate constant and the temperature (exact; JSON key 'sensitivity').",
+)
 def solve(
     scheme_file,
     until,
@@ -78,6 +121,8 @@ def solve(
     conc_unit,
     outputs,
     as_json,
+    activity_unit,
+    sensitivity,
 ):
     """Solve a scheme exactly on a time grid; print or write the table and the summary.
 
@@ -92,6 +137,8 @@ def solve(
       kinetics solve networks/consecutive_intermediate.scheme --until '90 min' --points 91 \\
           --out table.csv --out table.xlsx --out curves.png
       kinetics solve networks/decay_pair_branching.scheme --times '0,6,12,24,48 h' --json
+      kinetics solve networks/generator_half_lives.scheme --until 5d --activity MBq
+      kinetics solve networks/consecutive_intermediate.scheme --until 2h --sensitivity
     """
     from kinetics.cli.terminal import progress, render_solution
     from kinetics.output.overview import solution_json
@@ -102,18 +149,37 @@ def solve(
     species = species_list(species_text, scheme)
     if species:
         settings["species"] = species
+    _check_activity(scheme, activity_unit, conc_unit)
     _check_sheet_sizes(paths, len(times), scheme)
     caution(no_caution)
     first_use_note()
     with progress(2, "solving") as bar:
-        result, summary = _solve_and_summarise(scheme, times, time_unit, bar, conc_unit)
+        result, summary, sensitivities = _solve_and_summarise(
+            scheme, times, time_unit, bar, conc_unit, activity_unit, sensitivity
+        )
     needs_document = as_json or any(p.suffix.lower() in (".json", ".parquet") for p in paths)
-    document = solution_json(result, time_unit, summary, settings) if needs_document else None
+    document = (
+        solution_json(result, time_unit, summary, settings, sensitivities)
+        if needs_document
+        else None
+    )
     # the result reaches stdout before any file is written: a full disk loses nothing
     if as_json:
         echo_long(json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False))
     elif not paths:
-        render_solution(result, time_unit, summary=summary, species=species)
+        activity = document.get("activity") if document else None
+        if activity is None and activity_unit is not None:
+            from kinetics.analysis.solution_summary import activity_summary
+
+            activity = activity_summary(result, summary)
+        render_solution(
+            result,
+            time_unit,
+            summary=summary,
+            species=species,
+            activity=activity,
+            sensitivity=sensitivities,
+        )
     write_outputs(
         paths,
         lambda path: _write_output(path, result, scheme, time_unit, summary, document, species),
@@ -179,6 +245,7 @@ def _write_output(path, result, scheme, time_unit, summary, document, species) -
     help="The report file (.html); one self-contained page, viewable offline.",
 )
 @click.option("--title", help="Title of the report (default: the title in the scheme file).")
+@_ACTIVITY_OPTION
 def report(
     scheme_file,
     until,
@@ -190,6 +257,7 @@ def report(
     conc_unit,
     output,
     title,
+    activity_unit,
 ):
     """Write a self-contained HTML report: scheme, graph, inputs, summary, plot, table.
 
@@ -211,10 +279,13 @@ def report(
     scheme = load_scheme(scheme_file)
     species = species_list(species_text, scheme)
     digest = hashlib.sha256(Path(scheme_file).read_bytes()).hexdigest()
+    _check_activity(scheme, activity_unit, conc_unit)
     caution(no_caution)
     first_use_note()
     with progress(4, "solving") as bar:
-        result, summary = _solve_and_summarise(scheme, times, time_unit, bar, conc_unit)
+        result, summary, sensitivities = _solve_and_summarise(
+            scheme, times, time_unit, bar, conc_unit, activity_unit, sensitivity=True
+        )
         bar.describe("drawing")
         html = build_report(
             scheme,
@@ -226,6 +297,7 @@ def report(
             species=species,
             title=title,
             plot_solution=_plot_solution(result, scheme),
+            sensitivity=sensitivities,
         )
         bar.step(f"writing {path.name}")
         write_report(path, html)
