@@ -119,6 +119,7 @@ def _browser_or_skip():
     return sync_playwright
 
 
+@pytest.mark.slow  # starts a browser
 @pytest.mark.browser
 def test_report_in_headless_chromium(report, tmp_path):
     sync_playwright = _browser_or_skip()
