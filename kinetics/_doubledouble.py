@@ -194,7 +194,7 @@ def decimal_exp(x) -> Fraction:
 
 
 def decimal_power(w, nu) -> Fraction:
-    """:math:`w^\nu` for exact ``w > 0`` and a non-integer exponent, to :data:`DIGITS` digits.
+    r""":math:`w^\nu` for exact ``w > 0`` and a non-integer exponent, to :data:`DIGITS` digits.
 
     >>> round(float(decimal_power(Fraction(55), Fraction(1, 2))), 12)
     7.416198487096

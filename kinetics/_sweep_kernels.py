@@ -54,7 +54,8 @@ OK, FALLBACK = 0, 1
 @njit(**_INLINE)
 def _matvec_t(AT, x, out):
     """``out = A x`` from the transpose ``AT``: one contiguous row of ``AT`` per entry of ``x``
-    (independent lanes, so the inner loop vectorises)."""
+    (independent lanes, so the inner loop vectorises).
+    """
     m, n = AT.shape
     for i in range(n):
         out[i] = 0.0
@@ -217,7 +218,7 @@ def _sign(x):
 
 @njit(**_INLINE)
 def _g(kp, ki, kv, f, x, sp, deriv, level):
-    """g at state x: ``(K c + f)_sp`` for a maximum, ``c_sp - level`` for a half-life."""
+    """G at state x: ``(K c + f)_sp`` for a maximum, ``c_sp - level`` for a half-life."""
     if deriv:
         return f[sp] + _row_dot(kp, ki, kv, sp, x)
     return x[sp] - level

@@ -59,7 +59,7 @@ def _trim(x: Fraction) -> Fraction:
 
 
 def _combine(*terms: tuple[Fraction, Slope]) -> Slope:
-    """:math:`\\sum_i a_i \\, s_i` of slopes ``s_i`` scaled by ``a_i``."""
+    r""":math:`\sum_i a_i \, s_i` of slopes ``s_i`` scaled by ``a_i``."""
     out: Slope = {}
     for factor, slope in terms:
         if not factor:
@@ -174,8 +174,9 @@ class _Slopes:
         return value, self._power(node, u, du, v, dv, value)
 
     def _power(self, node: Binary, u, du: Slope, p, dp: Slope, value) -> Slope:
-        """:math:`(u^p)' = u^p (p' \\ln u + p u'/u)`; at :math:`u = 0` only constant
-        exponents of at least 1."""
+        r""":math:`(u^p)' = u^p (p' \ln u + p u'/u)`; at :math:`u = 0` only constant
+        exponents of at least 1.
+        """
         if not du and not dp:
             return {}
         if u == 0:

@@ -127,7 +127,8 @@ class Target:
     @property
     def log(self) -> bool:
         """True when a fit searches the logarithm of the value: every kind but ``energy``
-        and named quantities whose value is not above 0 (an activation entropy)."""
+        and named quantities whose value is not above 0 (an activation entropy).
+        """
         if self.kind == "quantity":
             return self.nominal > 0
         return self.kind != "energy"
@@ -143,7 +144,8 @@ class Target:
     def si_per_unit(self) -> float:
         """Internal value of one :attr:`unit` (1 for start and excess values, which the
         core keeps in the scheme's concentration unit; not defined for units with an
-        offset)."""
+        offset).
+        """
         if self.kind in ("start", "excess"):
             return 1.0
         spec = parse_unit(self.unit)
@@ -355,7 +357,7 @@ def file_temperature_unit(scheme: Scheme) -> str:
 
 
 def resolve(scheme: Scheme, name: str, words) -> Target:
-    """Map a parameter name to what it changes in the scheme.
+    r"""Map a parameter name to what it changes in the scheme.
 
     Parameters
     ----------
@@ -378,7 +380,7 @@ def resolve(scheme: Scheme, name: str, words) -> Target:
     Examples
     --------
     >>> import kinetics
-    >>> s = kinetics.parse("A -> B  k1 = 0.12 1/min\\nstart A = 1 mol/L")
+    >>> s = kinetics.parse("A -> B  k1 = 0.12 1/min\nstart A = 1 mol/L")
     >>> t = resolve(s, "k1", FIT_WORDS)
     >>> (t.kind, t.unit, round(t.nominal, 6))
     ('constant', '1/min', 0.002)
@@ -412,7 +414,8 @@ def resolve(scheme: Scheme, name: str, words) -> Target:
 
 def _nominal(scheme: Scheme, name: str) -> float:
     """The file's value of a constant or named quantity [SI; K] (at the scheme's
-    temperature for one that follows it; ``nan`` without a temperature)."""
+    temperature for one that follows it; ``nan`` without a temperature).
+    """
     known = scheme.quantities.get(name) or scheme.constants[name]
     if known.value_si is not None:
         return float(known.value_si)

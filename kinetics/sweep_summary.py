@@ -222,7 +222,7 @@ class _Classes:
 
 
 def _inflow(K: np.ndarray, idx: np.ndarray, x: np.ndarray) -> np.ndarray:
-    """sum over species j outside the class of K[i, j] x_j, for the members i of a class.
+    """Sum over species j outside the class of K[i, j] x_j, for the members i of a class.
 
     Zero entries of K are skipped, so an infinite x_j of an unconnected species is harmless.
     """
@@ -235,7 +235,7 @@ def _inflow(K: np.ndarray, idx: np.ndarray, x: np.ndarray) -> np.ndarray:
 
 
 def _solve_class(K: np.ndarray, idx: np.ndarray, rhs: np.ndarray) -> np.ndarray:
-    """x = (-K_CC)^{-1} rhs for a decaying class (a nonsingular M-matrix), stacked."""
+    """X = (-K_CC)^{-1} rhs for a decaying class (a nonsingular M-matrix), stacked."""
     if idx.size == 1:
         return rhs / -K[:, idx[0], idx[0]][:, None]
     B = K[:, idx][:, :, idx]

@@ -85,7 +85,8 @@ class TemperatureLog:
 
     def timeline(self) -> Timeline:
         """The record as temperature steps: one at the first reading and one at each
-        reading that differs from the previous one."""
+        reading that differs from the previous one.
+        """
         statements = []
         previous = math.nan
         lines = self.lines or (0,) * self.times.size
@@ -99,7 +100,8 @@ class TemperatureLog:
         self, activation_energy: float = DEFAULT_ACTIVATION_ENERGY, end: float | None = None
     ) -> float:
         """Mean kinetic temperature [K] from the first reading to ``end`` [s] (default:
-        the last reading); see :func:`mean_kinetic_temperature`."""
+        the last reading); see :func:`mean_kinetic_temperature`.
+        """
         return mean_kinetic_temperature(self.times, self.temperatures, activation_energy, end)
 
 
@@ -166,18 +168,18 @@ def mean_kinetic_temperature(
 def equivalent_temperatures(
     log: TemperatureLog, scheme: Scheme, end: float | None = None
 ) -> dict[str, float]:
-    """Equivalent isothermal temperature [K] of every Arrhenius constant of ``scheme``.
+    r"""Equivalent isothermal temperature [K] of every Arrhenius constant of ``scheme``.
 
     The temperature at which the constant, held constant, gives the same integral
-    :math:`\\int k\\,dt` over the record's window as the record (see the module
+    :math:`\int k\,dt` over the record's window as the record (see the module
     docstring); a step shares its constant's value.
 
     Examples
     --------
     >>> import kinetics
     >>> s = kinetics.parse(
-    ...     "A -> B  k = arrhenius(A = 1e12 1/s, Ea = 83.144 kJ/mol)\\n"
-    ...     "temperature = 25 degC\\nstart A = 1 M")
+    ...     "A -> B  k = arrhenius(A = 1e12 1/s, Ea = 83.144 kJ/mol)\n"
+    ...     "temperature = 25 degC\nstart A = 1 M")
     >>> log = TemperatureLog(np.array([0.0, 43200.0]), np.array([298.15, 308.15]))
     >>> round(equivalent_temperatures(log, s, end=86400.0)["k"], 2)
     304.37
@@ -307,11 +309,11 @@ class _Reader:
 
 
 def parse_temperature_log(text: str, source: str = "<text>") -> TemperatureLog:
-    """Check a record given as text (see :func:`read_temperature_log`).
+    r"""Check a record given as text (see :func:`read_temperature_log`).
 
     Examples
     --------
-    >>> log = parse_temperature_log("time [h],temperature [degC]\\n0,25\\n12,35\\n")
+    >>> log = parse_temperature_log("time [h],temperature [degC]\n0,25\n12,35\n")
     >>> log.times.tolist(), log.temperatures.tolist()
     ([0.0, 43200.0], [298.15, 308.15])
     """

@@ -565,7 +565,7 @@ def _check_ramps(check: _Checker, ramps, steps) -> None:
 
 
 def expand(scheme: Scheme, timeline: Timeline, end: float) -> Plan:
-    """Check a timeline against a scheme and expand it inside the window ``[0, end]``.
+    r"""Check a timeline against a scheme and expand it inside the window ``[0, end]``.
 
     Parameters
     ----------
@@ -586,7 +586,7 @@ def expand(scheme: Scheme, timeline: Timeline, end: float) -> Plan:
     Examples
     --------
     >>> import kinetics
-    >>> s = kinetics.parse("P -> D  k = 1 1/d\\nD -> X  kd = 0.1 1/h\\nstart P = 1 M")
+    >>> s = kinetics.parse("P -> D  k = 1 1/d\nD -> X  kd = 0.1 1/h\nstart P = 1 M")
     >>> plan = expand(s, Timeline([Every(86400.0, Removal.percent(100, "D"))]), 3 * 86400.0)
     >>> [op.time for op in plan.operations]
     [86400.0, 172800.0, 259200.0]
@@ -598,7 +598,7 @@ def expand(scheme: Scheme, timeline: Timeline, end: float) -> Plan:
 
 
 def check(scheme: Scheme, timeline: Timeline) -> list[SchemeError]:
-    """Every mistake of a timeline that does not depend on the solved window.
+    r"""Every mistake of a timeline that does not depend on the solved window.
 
     For the scheme language, which reports all mistakes of a file at once before the
     window is known; :func:`expand` repeats these checks and adds the count of
@@ -612,7 +612,7 @@ def check(scheme: Scheme, timeline: Timeline) -> list[SchemeError]:
     Examples
     --------
     >>> import kinetics
-    >>> s = kinetics.parse("A -> B  k = 1 1/s\\nstart A = 1 M")
+    >>> s = kinetics.parse("A -> B  k = 1 1/s\nstart A = 1 M")
     >>> [e.problem for e in check(s, Timeline([At(-1.0, Addition({"A": 1.0}))]))]
     ['the time of an operation must be finite and >= 0 s, not -1.0 s']
     """

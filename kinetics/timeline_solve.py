@@ -241,7 +241,8 @@ class _Conditions:
 
     def _ramp_moments(self, ramp: int, a: float, b: float) -> dict[str, tuple[float, float]]:
         """Moments m0, m1 of every Arrhenius constant over ``[a, b]`` (Gauss-Legendre,
-        panels over which ln k changes by at most 1/2)."""
+        panels over which ln k changes by at most 1/2).
+        """
         from .units import GAS_CONSTANT
 
         r = self.plan.ramps[ramp]
@@ -286,7 +287,8 @@ class _Conditions:
 
 def _temperature_regions(scheme: Scheme, plan: Plan) -> list[tuple[float, object]]:
     """``(from time, regime)`` in time order: regime a temperature [K] (None: the
-    scheme's) or the index of a ramp."""
+    scheme's) or the index of a ramp.
+    """
     # at one time: a ramp's end, then a step (which overrides it), then a ramp's start
     changes: list[tuple[float, int, object]] = [(0.0, -1, None)]
     changes += [(t, 1, T) for t, T, _ in plan.steps]

@@ -1,5 +1,6 @@
 """What the commands share: reading a scheme with its warnings, the time grid and its
-options, species lists, the caution, the first-use note and writing output files."""
+options, species lists, the caution, the first-use note and writing output files.
+"""
 
 from __future__ import annotations
 

@@ -126,7 +126,8 @@ BROKEN_PIPE = 141
 @contextlib.contextmanager
 def _signals_stop_the_run():
     """While running, SIGTERM and SIGHUP raise :class:`Stopped` (signals the parent made
-    the process ignore, as ``nohup`` does for SIGHUP, stay ignored)."""
+    the process ignore, as ``nohup`` does for SIGHUP, stay ignored).
+    """
     import signal
     import threading
 

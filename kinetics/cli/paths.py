@@ -1,5 +1,6 @@
 """Output files named on the command line: known formats, an existing folder, never an
-input file, never twice."""
+input file, never twice.
+"""
 
 from __future__ import annotations
 

@@ -1,5 +1,6 @@
 """The ``kinetics solve`` and ``kinetics report`` commands: solve a scheme on a time grid,
-print or write the table and the summary, or write the HTML report."""
+print or write the table and the summary, or write the HTML report.
+"""
 
 from __future__ import annotations
 
@@ -52,7 +53,8 @@ def _plot_solution(result, scheme):
 
 def _check_activity(scheme, activity_unit, conc_unit) -> None:
     """Refuse, before solving, ``--activity`` with ``--concentration-unit`` or a unit that
-    is no activity of the scheme's kind."""
+    is no activity of the scheme's kind.
+    """
     if activity_unit is None:
         return
     if conc_unit is not None:
@@ -69,7 +71,8 @@ def _solve_and_summarise(
     scheme, times, time_unit, bar, conc_unit=None, activity_unit=None, sensitivity=False
 ):
     """The solution, its summary in ``time_unit`` and (when asked) the sensitivities of
-    the summary quantities."""
+    the summary quantities.
+    """
     from kinetics import solution as sol
     from kinetics.analysis.solution_summary import compute_summary, summary_in_units
     from kinetics.analysis.summary_sensitivity import summary_sensitivities

@@ -388,7 +388,8 @@ _HEADER_WIDTH = 14
 
 def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> None:
     """Print the summary quantities as tables with units in every header, then the
-    whole-scheme quantities (relaxation times, selectivity...) of :attr:`Summary.scheme`."""
+    whole-scheme quantities (relaxation times, selectivity...) of :attr:`Summary.scheme`.
+    """
     from kinetics.output.summary_text import (
         SUMMARY_COLUMNS,
         requirement_lines,

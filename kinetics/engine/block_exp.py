@@ -166,7 +166,8 @@ class Layout:
 
     def shifted(self):
         """``B = N + diag(sigma - q)`` (CSC, nonnegative, diagonal rounded up), its 1-norm
-        and its largest number of nonzeros in a row."""
+        and its largest number of nonzeros in a row.
+        """
         if self._shifted is None:
             dh, _ = dd.add(self.sigma, 0.0, -self.qh, -self.ql)
             diag = np.nextafter(dh, np.inf)  # >= sigma - q_i (|lo| <= ulp(hi) / 2)
@@ -216,9 +217,9 @@ class Layout:
 
 
 def taylor_plan(sigma: float, h: float, boost: int) -> tuple[int, int, float]:
-    """Squarings ``j``, Taylor degree ``m`` and ``y = sigma h / 2^j``.
+    r"""Squarings ``j``, Taylor degree ``m`` and ``y = sigma h / 2^j``.
 
-    ``m`` is the smallest degree with :math:`2^j y^{m+1}/(m+1)! \\le 2^{-70}` (the
+    ``m`` is the smallest degree with :math:`2^j y^{m+1}/(m+1)! \le 2^{-70}` (the
     a posteriori truncation bound :math:`2^j G`, see the module docstring), times
     ``boost`` (raised when that bound asks for more).
     """
@@ -461,7 +462,6 @@ def dd_scalar_exp(sigma: float, t: float) -> tuple[float, float]:
 
 def _dd_block(lay: Layout, start: int, size: int, h: float, j: int):
     """Shift, ``Y = h 2^-j (K_bb + sigma_b I)`` in double-double, and ``y = ||Y||_1``."""
-
     sl = slice(start, start + size)
     Ah = lay.K[sl, sl].toarray()
     Al = np.zeros_like(Ah) if lay.K_low is None else lay.K_low[sl, sl].toarray()
@@ -479,7 +479,7 @@ def _dd_block(lay: Layout, start: int, size: int, h: float, j: int):
 
 
 def dd_degree(y: float) -> int:
-    """Smallest ``m >= 2`` with :math:`y^{m+1}/(m+1)! \\le 2^{-110}`."""
+    r"""Smallest ``m >= 2`` with :math:`y^{m+1}/(m+1)! \le 2^{-110}`."""
     m = 2
     while (m + 1) * math.log(max(y, 1e-300)) - math.lgamma(m + 2) > -110 * math.log(2.0):
         m += 1
@@ -487,13 +487,13 @@ def dd_degree(y: float) -> int:
 
 
 def _group_levels(lay: Layout, start: int, size: int, h: float, j: int) -> list:
-    """``exp(h 2^(i-j) K_bb)`` (hi, lo, relative bound) for ``i = 0..j``, double-double.
+    r"""``exp(h 2^(i-j) K_bb)`` (hi, lo, relative bound) for ``i = 0..j``, double-double.
 
     Horner's rule for the Taylor polynomial with the block's own shift, then
-    squarings.  Truncation: :math:`e^Y - T_m \\le G e^Y` with :math:`G = Y^{m+1}/(m+1)!`;
-    with :math:`\\kappa_T = \\max (G T)_{ab}/T_{ab}` (in double, on the computed
-    polynomial) the relative truncation is at most :math:`2\\kappa_T` for
-    :math:`\\kappa_T \\le 1/8`, and :math:`2^i` times that after ``i`` squarings.
+    squarings.  Truncation: :math:`e^Y - T_m \le G e^Y` with :math:`G = Y^{m+1}/(m+1)!`;
+    with :math:`\kappa_T = \max (G T)_{ab}/T_{ab}` (in double, on the computed
+    polynomial) the relative truncation is at most :math:`2\kappa_T` for
+    :math:`\kappa_T \le 1/8`, and :math:`2^i` times that after ``i`` squarings.
     Rounding: Xue & Ye (2013), Theorem 3.2, with the double-double product bound.
     """
     from scipy.sparse.csgraph import shortest_path

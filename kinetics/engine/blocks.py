@@ -448,7 +448,8 @@ def propagate_blocks(K, c0, times, feed, *, K_low=None, feed_low=None, floor=Non
 
 def _low_parts(K_low, feed_low, n: int, fed: bool):
     """Checked low parts: sparse ``K_low`` kept sparse (shape, finite), others by
-    :func:`kinetics.checks.low_parts`."""
+    :func:`kinetics.checks.low_parts`.
+    """
     from kinetics.engine import checks
     from kinetics.errors import UsageError
 

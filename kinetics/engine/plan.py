@@ -156,10 +156,10 @@ DIAGONAL_ABSOLUTE = {False: 0.0, True: 8 * dd.DD_UNIT}
 
 @lru_cache(maxsize=4096)
 def arithmetic_bound(n: int, plan: Plan) -> float:
-    """Rounding bound of the Taylor sum, the shift factor and the squarings of one plan.
+    r"""Rounding bound of the Taylor sum, the shift factor and the squarings of one plan.
 
-    The plan was chosen so that :math:`y = \\beta/2^j \\le` ``plan.ymax`` (:func:`choose_plan`),
-    which bounds the error of the factor :math:`e^{-\\sigma t/2^j}` (its argument is at
+    The plan was chosen so that :math:`y = \beta/2^j \le` ``plan.ymax`` (:func:`choose_plan`),
+    which bounds the error of the factor :math:`e^{-\sigma t/2^j}` (its argument is at
     most :math:`y`) independently of the member.
     """
     from kinetics.engine import kernels

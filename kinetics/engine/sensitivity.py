@@ -156,10 +156,10 @@ def sensitivities(
 
 
 def _expm_signed(A: np.ndarray) -> np.ndarray:
-    """exp of a stack of small dense matrices: scaling, Taylor degree 16, squaring.
+    r"""Exp of a stack of small dense matrices: scaling, Taylor degree 16, squaring.
 
     Scaled to a 1-norm of at most 1/2, the truncation error is below
-    :math:`0.5^{17}/17! \\approx 2\\cdot10^{-20}` (Moler & Van Loan 2003, method 3).
+    :math:`0.5^{17}/17! \approx 2\cdot10^{-20}` (Moler & Van Loan 2003, method 3).
     """
     N = A.shape[1]
     nu = np.abs(A).sum(axis=1).max(axis=1)

@@ -1,5 +1,6 @@
 """Stretches of constant conditions applied to many start vectors: one exponential per
-distinct length, kept (the timeline of operations uses this)."""
+distinct length, kept (the timeline of operations uses this).
+"""
 
 from __future__ import annotations
 

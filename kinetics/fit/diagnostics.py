@@ -307,7 +307,8 @@ def _identifiability_warnings(state: FitState) -> list[str]:
 
 def _parameter_warnings(state: FitState, j: int) -> list[str]:
     """Parameter ``j``: at the end of the search range, not significant, an open or a
-    markedly non-linear profile interval."""
+    markedly non-linear profile interval.
+    """
     out: list[str] = []
     q = state.params[j]
     e = state.estimates[q.name]

@@ -164,7 +164,8 @@ class Search:
 
 def _relevant_cost(model, candidates, n_points: int, p: int) -> float:
     """Twice the cost beyond which an optimum cannot matter: outside the joint 95 % region
-    of the best point (F-based, Bates & Watts 1988, eq. 2.44)."""
+    of the best point (F-based, Bates & Watts 1988, eq. 2.44).
+    """
     import scipy.stats
 
     relevant = 2.0 * candidates[0].cost
@@ -267,7 +268,8 @@ class Linearised:
 
 def _linearised(model, params, search: Search) -> Linearised:
     """The exact Jacobian at the optimum (also for finite-difference searches) and the
-    covariance it gives."""
+    covariance it gives.
+    """
     import scipy.stats
 
     theta = search.best.x
@@ -512,7 +514,8 @@ def _model(scheme, data, free, weights, engine) -> tuple[Model, list[Parameter],
 
 def _statistics(model, params, search: Search, lin: Linearised, evaluations_search: int):
     """Statistics at the optimum, residuals recomputed with the entrywise engine on the
-    fitted scheme's exact constants; the data − model tables and weighted residuals."""
+    fitted scheme's exact constants; the data − model tables and weighted residuals.
+    """
     runs = model.runs
     engine_pred, residual_tables = engine_predictions(model.scheme, params, lin.si, runs)
     block_pred = model.predictions(lin.theta)

@@ -1,7 +1,7 @@
-"""The model of a fit: free parameters, the runs of measured data, residuals and Jacobian.
+r"""The model of a fit: free parameters, the runs of measured data, residuals and Jacobian.
 
 :class:`Model` evaluates the weighted residuals of every run and their exact Jacobian in
-the fitted coordinates :math:`\\theta` (``ln k``, ``ln A``, ``ln c0``, ``Ea/(R T_ref)``),
+the fitted coordinates :math:`\theta` (``ln k``, ``ln A``, ``ln c0``, ``Ea/(R T_ref)``),
 through the block-form Fréchet derivative of :mod:`kinetics.sensitivity` (or the
 entrywise one, ``engine="entrywise"``).  Arrhenius constants come from the one law,
 :func:`kinetics.scheme.arrhenius_pairs`.
@@ -147,7 +147,8 @@ class Model:
     def scale(self, j: int) -> float | None:
         """The unit of a linear coordinate θ_j [SI]: R T_ref for an activation energy, the
         size of the file's value for a named quantity not above 0 (an activation
-        entropy); None for the logarithmic coordinates of every other parameter."""
+        entropy); None for the logarithmic coordinates of every other parameter.
+        """
         p = self.params[j]
         if p.kind == "energy":
             return GAS_CONSTANT * self.t_ref
@@ -261,7 +262,8 @@ class Model:
     def _solve_run(self, run: Run, theta, derivatives: bool):
         """Concentrations at the run's times and, with ``derivatives``, dc/dθ_j: the part
         through the rate matrix (the Fréchet derivative) plus the part through the start
-        values (a start value, or a start activity that follows a decay constant)."""
+        values (a start value, or a start activity that follows a decay constant).
+        """
         rates, c0, drates, dc0 = self.run_state(run, theta, derivatives)
         K = self.pattern.dense(rates)
         rate_params = [j for j, p in enumerate(self.params) if p.kind != "start"]
@@ -316,7 +318,8 @@ class Model:
 
     def jacobian(self, theta) -> np.ndarray:
         """Exact Jacobian of :meth:`residuals` with respect to θ, shape (N, p) (zero where
-        the values leave the domain of a definition, as :meth:`residuals` is constant)."""
+        the values leave the domain of a definition, as :meth:`residuals` is constant).
+        """
         self.jacobian_evaluations += 1
         parts = []
         for run in self.runs:

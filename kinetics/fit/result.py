@@ -124,7 +124,8 @@ class FitResult:
     @property
     def diagnostics(self) -> dict:
         """Search diagnostics: convergence, scaled-Jacobian condition number, evaluation
-        counts (model evaluations and exact Jacobians), starts, alternative optima."""
+        counts (model evaluations and exact Jacobians), starts, alternative optima.
+        """
         keys = (
             "converged",
             "message",
@@ -152,10 +153,10 @@ class FitResult:
         )
 
     def followed(self) -> dict[str, dict]:
-        """The rate constants that follow the fitted values (defined from a free named
+        r"""The rate constants that follow the fitted values (defined from a free named
         quantity or constant), with the linearised 95 % interval they inherit.
 
-        .. math:: \\sigma_k^2 = g^T C g, \\qquad g_j = \\partial k / \\partial p_j
+        .. math:: \sigma_k^2 = g^T C g, \qquad g_j = \partial k / \partial p_j
 
         with :math:`C` the covariance of the estimates (delta method) and :math:`g` the
         exact derivatives of the definitions (:meth:`kinetics.scheme.Scheme.constant_slopes`).
@@ -380,5 +381,6 @@ def engine_predictions(scheme, params, si, runs):
 
 def make_result(*, theta: np.ndarray, si: np.ndarray, **fields) -> FitResult:
     """A :class:`FitResult` that keeps the fitted coordinates and SI values (for
-    :meth:`FitResult.fitted_scheme`); ``fields`` are its public attributes."""
+    :meth:`FitResult.fitted_scheme`); ``fields`` are its public attributes.
+    """
     return FitResult(**fields, _theta=theta, _si=si)

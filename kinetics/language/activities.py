@@ -1,8 +1,8 @@
-"""Start values written as activities (``start P = 10 GBq``), turned into amounts.
+r"""Start values written as activities (``start P = 10 GBq``), turned into amounts.
 
-Once the steps of a file are known, each species' decay constant :math:`\\lambda` (the sum of
+Once the steps of a file are known, each species' decay constant :math:`\lambda` (the sum of
 the constants of the steps that consume it, :func:`kinetics.activity.decay_constants`)
-turns its start activity into a number of atoms, :math:`N = A / \\lambda`, and an amount
+turns its start activity into a number of atoms, :math:`N = A / \lambda`, and an amount
 :math:`n = N / N_A` (:func:`kinetics.activity.amount_from_activity`).  A species that no
 step consumes is stable: its activity is 0, and an activity given for it is an error.
 """
@@ -27,7 +27,7 @@ __all__ = ["start_from_activities"]
 def start_from_activities(
     scheme: Scheme, activities: Mapping[str, tuple[Fraction, Item, Line]], found: Diagnostics
 ) -> Scheme:
-    """The scheme with the start values written as activities set from its decay constants.
+    r"""The scheme with the start values written as activities set from its decay constants.
 
     Parameters
     ----------
@@ -46,10 +46,10 @@ def start_from_activities(
     Examples
     --------
     10 GBq of a species with a half-life of 65.9 h (invented) is
-    :math:`N = A t_{1/2} / \\ln 2 = 3.4227 \\times 10^{15}` atoms, 5.6834 nmol (hand value):
+    :math:`N = A t_{1/2} / \ln 2 = 3.4227 \times 10^{15}` atoms, 5.6834 nmol (hand value):
 
     >>> from kinetics import parse
-    >>> scheme = parse("P -> D  half_life = 65.9 h\\nstart P = 10 GBq")
+    >>> scheme = parse("P -> D  half_life = 65.9 h\nstart P = 10 GBq")
     >>> round(scheme.initial["P"] * 1e9, 4), scheme.concentration_unit
     (5.6834, 'mol')
     """

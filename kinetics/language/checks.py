@@ -61,16 +61,16 @@ add up (k1 + k2)',)
 
 
 def check_rates(scheme: Scheme, reactions: Sequence[ReactionStatement], found: Diagnostics) -> None:
-    """Every effective rate constant must be a finite double, and not a nonzero
+    r"""Every effective rate constant must be a finite double, and not a nonzero
     product that rounds to 0 (underflow).
 
-    The effective constant of a pseudo-first-order step is :math:`k \\prod_j w_j^{\\nu_j}`
+    The effective constant of a pseudo-first-order step is :math:`k \prod_j w_j^{\nu_j}`
     over its partners in excess (:attr:`kinetics.scheme.Scheme.rates`).
 
     Examples
     --------
     >>> from kinetics import parse
-    >>> text = "A + W -> B  k1 = 1e300 M-1 s-1\\nexcess W = 1e10 M\\nstart A = 1 M"
+    >>> text = "A + W -> B  k1 = 1e300 M-1 s-1\nexcess W = 1e10 M\nstart A = 1 M"
     >>> try:
     ...     parse(text)
     ... except Exception as exc:
@@ -115,7 +115,7 @@ def unused_constants(
     expressions: Iterable[str] = (),
     quantities: Iterable[str] = (),
 ) -> None:
-    """Warn about a constant or named quantity defined on a line of its own that neither a
+    r"""Warn about a constant or named quantity defined on a line of its own that neither a
     reaction nor another definition uses.
 
     Parameters
@@ -134,9 +134,9 @@ def unused_constants(
     Examples
     --------
     >>> from kinetics import parse
-    >>> parse("k9 = 1 1/s\\nA -> B  k1 = 1 1/s\\nstart A = 1 M").warnings
+    >>> parse("k9 = 1 1/s\nA -> B  k1 = 1 1/s\nstart A = 1 M").warnings
     ('<text>:1: rate constant k9 is defined but no reaction uses it (a misspelt name?)',)
-    >>> parse("t_q = 5 h\\nA -> B  k1 = 1 1/s\\nstart A = 1 M").warnings
+    >>> parse("t_q = 5 h\nA -> B  k1 = 1 1/s\nstart A = 1 M").warnings
     ('<text>:1: t_q is defined but nothing uses it (a misspelt name?)',)
     """
     used = {ref.name for r in reactions for ref in r.constants} | set(expressions)

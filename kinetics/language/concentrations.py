@@ -73,7 +73,7 @@ DEFAULT_UNIT = ConcentrationUnit(
 
 
 def choose_unit(lists: Iterable[ListStatement]) -> ConcentrationUnit:
-    """The scheme's concentration unit: the unit of the first start value.
+    r"""The scheme's concentration unit: the unit of the first start value.
 
     Without start values, the first excess concentration, then the first feed
     (its concentration part) decides; a file whose start values are all activities
@@ -94,7 +94,7 @@ def choose_unit(lists: Iterable[ListStatement]) -> ConcentrationUnit:
     Examples
     --------
     >>> from kinetics.language.reader import read_statements
-    >>> parsed = read_statements("feed A = 2 mg/L/h\\nstart B = 1 mg/L", "t")
+    >>> parsed = read_statements("feed A = 2 mg/L/h\nstart B = 1 mg/L", "t")
     >>> chosen = choose_unit(parsed.lists)
     >>> chosen.unit, chosen.written, chosen.origin
     ('mmol/L', 'mg/L', 'start B = 1 mg/L on line 2')
@@ -159,7 +159,8 @@ def _unit_of_item(item: Item, s: ListStatement, kind: str) -> ConcentrationUnit 
 
 def _written_unit(text: str, kind: str, found: Kind) -> tuple[str, Fraction]:
     """The concentration unit a value was written in, and its SI factor (a feed
-    in ``mol/L/min`` was written in ``mol/L``)."""
+    in ``mol/L/min`` was written in ``mol/L``).
+    """
     if kind != "feed":
         unit = pint_text(text) if text else "1"
         return unit, (found.factor if text else Fraction(1))

@@ -162,7 +162,7 @@ class Resolved:
 def resolve_constants(
     parsed: ParsedFile, temperature: Temperature, found: Diagnostics
 ) -> dict[str, RateConstant]:
-    """Every rate constant defined in the file, by name, with errors in ``found``.
+    r"""Every rate constant defined in the file, by name, with errors in ``found``.
 
     A constant defined twice with the same value is one constant; with another
     value it is an error.  A name used on a reaction line but never defined is an
@@ -185,7 +185,7 @@ def resolve_constants(
     Examples
     --------
     >>> from kinetics.language.reader import read_statements
-    >>> parsed = read_statements("k1 = 0.12 1/min\\nA -> B  k1\\nB -> C  k_1", "t")
+    >>> parsed = read_statements("k1 = 0.12 1/min\nA -> B  k1\nB -> C  k_1", "t")
     >>> found = Diagnostics("t")
     >>> constants = resolve_constants(parsed, Temperature(None, False), found)
     >>> {name: c.value_si for name, c in constants.items()}
@@ -202,7 +202,7 @@ def resolve_definitions(
     found: Diagnostics,
     species: Iterable[str] = (),
 ) -> Resolved:
-    """Every definition of the file: rate constants, named quantities and their graph.
+    r"""Every definition of the file: rate constants, named quantities and their graph.
 
     Definitions written as plain values keep their readers (:func:`plain_constant`,
     :func:`rate_constant`); expressions are checked and evaluated by
@@ -226,7 +226,7 @@ def resolve_definitions(
     Examples
     --------
     >>> from kinetics.language.reader import read_statements
-    >>> parsed = read_statements("t_p = 50 h\\nA -> B  k = ln(2) / t_p", "t")
+    >>> parsed = read_statements("t_p = 50 h\nA -> B  k = ln(2) / t_p", "t")
     >>> resolved = resolve_definitions(parsed, Temperature(None, False), Diagnostics("t"))
     >>> resolved.quantities["t_p"].value_si, resolved.graph.driven_by("t_p")
     (Fraction(180000, 1), ('k',))
@@ -304,7 +304,8 @@ def _plain(
     spec: ConstantSpec, line: Line, rate: bool, temperature: Temperature, found: Diagnostics
 ) -> RateConstant | NamedQuantity | None:
     """A definition by a plain value: a rate constant (old readers and messages) or a
-    named quantity of another dimension (only on a line of its own)."""
+    named quantity of another dimension (only on a line of its own).
+    """
     constant = plain_constant(spec, line) if rate else None  # the common case, quickly
     if constant is not None:
         return constant
@@ -518,7 +519,7 @@ def rate_constant(
 def _arrhenius_constant(
     spec: ConstantSpec, line: Line, temperature: Temperature, found: Diagnostics
 ) -> RateConstant | None:
-    """k = A exp(-Ea / (R T)) (Arrhenius 1889): A and Ea checked and scaled to SI."""
+    """K = A exp(-Ea / (R T)) (Arrhenius 1889): A and Ea checked and scaled to SI."""
     a, ea = spec.prefactor, spec.energy
     assert a is not None  # an Arrhenius spec has both
     assert ea is not None

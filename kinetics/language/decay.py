@@ -140,7 +140,7 @@ class Remainder:
         return decay_name(self.parent, ())
 
     def entry(self) -> Entry:
-        """The constant :math:`(1 - \\sum f) \\ln 2 / t_{1/2}` as an expression entry."""
+        r"""The constant :math:`(1 - \sum f) \ln 2 / t_{1/2}` as an expression entry."""
         first = self.branches[0]
         decay = first.decay
         assert decay is not None
@@ -198,7 +198,8 @@ class Remainder:
 
     def kept(self, values: Mapping[str, ExactQuantity]) -> bool:
         """True when the untracked share is a step: above 0, or written with names (a
-        sweep may change it)."""
+        sweep may change it).
+        """
         q = values.get(self.name)
         if q is None:
             return False
@@ -226,12 +227,12 @@ def _balanced_sum(terms: list[Expr], col: int) -> Expr:
 
 
 def remainders(reactions: Sequence[ReactionStatement]) -> list[Remainder]:
-    """The untracked share of every parent with several branches or a fraction.
+    r"""The untracked share of every parent with several branches or a fraction.
 
     Examples
     --------
     >>> from kinetics.language.reader import read_statements
-    >>> text = "P -> D  half_life = 5 h, fraction = 90 %\\nQ -> R  half_life = 2 h"
+    >>> text = "P -> D  half_life = 5 h, fraction = 90 %\nQ -> R  half_life = 2 h"
     >>> [(r.parent, r.name) for r in remainders(read_statements(text, "t").reactions)]
     [('P', 'lambda(P untracked)')]
     """
@@ -252,12 +253,12 @@ def check_parents(
     values: Mapping[str, ExactQuantity],
     found: Diagnostics,
 ) -> None:
-    """One half-life per parent, and no parent that also reacts by a rate constant.
+    r"""One half-life per parent, and no parent that also reacts by a rate constant.
 
     Examples
     --------
     >>> from kinetics.language.reader import read_statements
-    >>> text = "P -> D  half_life = 5 h, fraction = 50 %\\n"
+    >>> text = "P -> D  half_life = 5 h, fraction = 50 %\n"
     >>> text += "P -> E  half_life = 6 h, fraction = 50 %"
     >>> found = Diagnostics("t")
     >>> check_parents(read_statements(text, "t").reactions, {}, found)

@@ -17,7 +17,7 @@ __all__ = ["load", "parse"]
 
 
 def parse(text: str, source: str = "<text>", *, strict_balance: bool = True) -> Scheme:
-    """Parse scheme text into a checked :class:`~kinetics.scheme.Scheme`.
+    r"""Parse scheme text into a checked :class:`~kinetics.scheme.Scheme`.
 
     Parameters
     ----------
@@ -44,7 +44,7 @@ def parse(text: str, source: str = "<text>", *, strict_balance: bool = True) -> 
     A first-order constant of 0.12 1/min is 0.002 1/s (1 min = 60 s, SI brochure,
     9th edition, 2019, table 8):
 
-    >>> s = parse("A -> B  k1 = 0.12 1/min\\nstart A = 1 mol/L")
+    >>> s = parse("A -> B  k1 = 0.12 1/min\nstart A = 1 mol/L")
     >>> s.species_names, float(s.rates[0])
     (['A', 'B'], 0.002)
     """
@@ -77,7 +77,7 @@ def _collector_paused() -> Iterator[None]:
 
 
 def load(path: str | os.PathLike[str], *, strict_balance: bool = True) -> Scheme:
-    """Read and check a scheme file.
+    r"""Read and check a scheme file.
 
     Parameters
     ----------
@@ -103,7 +103,7 @@ def load(path: str | os.PathLike[str], *, strict_balance: bool = True) -> Scheme
     >>> from pathlib import Path
     >>> with tempfile.TemporaryDirectory() as folder:
     ...     path = Path(folder) / "decay.scheme"
-    ...     _ = path.write_text("A -> B  k1 = 1 1/h\\nstart A = 2 mmol/L\\n")
+    ...     _ = path.write_text("A -> B  k1 = 1 1/h\nstart A = 2 mmol/L\n")
     ...     scheme = load(path)
     >>> scheme.species_names, scheme.concentration_unit
     (['A', 'B'], 'mmol/L')

@@ -119,7 +119,7 @@ def check_references(
     skip: Iterable[str],
     found: Diagnostics,
 ) -> set[str]:
-    """Report names that no line defines, numbers whose unit is a defined name, and cycles.
+    r"""Report names that no line defines, numbers whose unit is a defined name, and cycles.
 
     Parameters
     ----------
@@ -142,7 +142,7 @@ def check_references(
     Examples
     --------
     >>> from kinetics.language.reader import read_statements
-    >>> parsed = read_statements("a = 2 * b\\nb = a / 2\\nc = 3 * d", "t")
+    >>> parsed = read_statements("a = 2 * b\nb = a / 2\nc = 3 * d", "t")
     >>> entries = {s.spec.name: Entry(s.spec, s.line, False) for s in parsed.statements}
     >>> found = Diagnostics("t")
     >>> sorted(check_references(entries, (), (), (), found))
@@ -465,7 +465,7 @@ def graph_of(
     entries: Mapping[str, Entry],
     leaves: Mapping[str, Definition],
 ) -> Dependencies:
-    """The scheme's graph: the evaluated entries and the plain definitions they use.
+    r"""The scheme's graph: the evaluated entries and the plain definitions they use.
 
     ``results.constants`` get the graph as their ``derived`` field (and lose the value
     when it depends on the temperature).
@@ -473,7 +473,7 @@ def graph_of(
     Examples
     --------
     >>> from kinetics import parse
-    >>> graph = parse("t_p = 50 h\\nA -> B  k = ln(2) / t_p\\nstart A = 1 M").dependencies
+    >>> graph = parse("t_p = 50 h\nA -> B  k = ln(2) / t_p\nstart A = 1 M").dependencies
     >>> [d.name for d in graph.definitions]
     ['t_p', 'k']
     """

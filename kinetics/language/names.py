@@ -27,12 +27,12 @@ _S = TypeVar("_S", bound=_Located)
 
 
 def species_order(reactions: Iterable[ReactionStatement]) -> dict[str, Line]:
-    """Every species of the reactions, in order of first appearance, with that line.
+    r"""Every species of the reactions, in order of first appearance, with that line.
 
     Examples
     --------
     >>> from kinetics.language.reader import read_statements
-    >>> parsed = read_statements("A -> B + C  k1 = 1 1/s\\nC <=> A  k2, k3", "t")
+    >>> parsed = read_statements("A -> B + C  k1 = 1 1/s\nC <=> A  k2, k3", "t")
     >>> {name: line.number for name, line in species_order(parsed.reactions).items()}
     {'A': 1, 'B': 1, 'C': 1}
     """
@@ -94,7 +94,7 @@ class ExcessDeclarations:
 def single(
     statements: Iterable[object], kind: type[_S], what: str, found: Diagnostics
 ) -> _S | None:
-    """The statement of ``kind`` that may occur once (title, balance mode), or None.
+    r"""The statement of ``kind`` that may occur once (title, balance mode), or None.
 
     Every further one is an error in ``found``.
 
@@ -102,7 +102,7 @@ def single(
     --------
     >>> from kinetics.language.reader import read_statements
     >>> from kinetics.language.statements import TitleStatement
-    >>> parsed = read_statements("title: one\\ntitle: two", "t")
+    >>> parsed = read_statements("title: one\ntitle: two", "t")
     >>> found = Diagnostics("t")
     >>> single(parsed.statements, TitleStatement, "title", found).text
     'one'

@@ -49,7 +49,8 @@ DECAY_EXAMPLE = "P -> D  half_life = 65.9 h, fraction = 87.6 %"
 
 class Term(NamedTuple):
     """One species of a reaction side with its stoichiometric coefficient (an
-    immutable record, like :class:`~kinetics.language.quantities.Value`)."""
+    immutable record, like :class:`~kinetics.language.quantities.Value`).
+    """
 
     coefficient: float
     name: str
@@ -58,7 +59,8 @@ class Term(NamedTuple):
 
 class ConstantRef(NamedTuple):
     """A constant after the products: by name alone (``spec`` None) or defined there
-    (an immutable record)."""
+    (an immutable record).
+    """
 
     name: str
     column: int
@@ -371,7 +373,8 @@ def _read_constant_refs(
     line: Line, text: str, offset: int, reversible: bool
 ) -> tuple[ConstantRef, ...] | DecaySpec | list[SchemeError]:
     """Read the constants after the products: ``k1``, ``k1 = ...``, ``kf = ..., kr = ...``,
-    or a decay step's ``half_life = ..., fraction = ...``."""
+    or a decay step's ``half_life = ..., fraction = ...``.
+    """
     example = "kf = 2.0e-3 1/s, kr = 5.0e-4 1/s" if reversible else "k1 = 0.12 1/min"
     pieces = split_top(text, offset)
     for piece, _ in pieces:

@@ -25,7 +25,7 @@ __all__ = ["resolve_requirements"]
 def resolve_requirements(
     statements: Iterable[object], scheme: Scheme, unit: ConcentrationUnit, found: Diagnostics
 ) -> tuple[Requirement, ...]:
-    """Every ``require`` line of the file as a :class:`~kinetics.requirements.Requirement`.
+    r"""Every ``require`` line of the file as a :class:`~kinetics.requirements.Requirement`.
 
     Parameters
     ----------
@@ -45,7 +45,7 @@ def resolve_requirements(
     Examples
     --------
     >>> from kinetics import parse
-    >>> text = "API -> IMP  k1 = 0.01 1/d\\nstart API = 2 mmol/L\\nrequire IMP <= 0.15 % of API"
+    >>> text = "API -> IMP  k1 = 0.01 1/d\nstart API = 2 mmol/L\nrequire IMP <= 0.15 % of API"
     >>> [(r.species, r.comparison, r.threshold) for r in parse(text).requirements]
     [('IMP', '<=', 0.003)]
     """

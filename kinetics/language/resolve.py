@@ -29,7 +29,7 @@ __all__ = ["resolve"]
 
 
 def resolve(parsed: ParsedFile, strict_balance: bool = True) -> Scheme:
-    """The checked scheme of a file read by :func:`~kinetics.language.reader.read_statements`.
+    r"""The checked scheme of a file read by :func:`~kinetics.language.reader.read_statements`.
 
     Parameters
     ----------
@@ -50,7 +50,7 @@ def resolve(parsed: ParsedFile, strict_balance: bool = True) -> Scheme:
     Examples
     --------
     >>> from kinetics.language.reader import read_statements
-    >>> scheme = resolve(read_statements("A -> B  k1 = 0.12 1/min\\nstart A = 1 M", "t"))
+    >>> scheme = resolve(read_statements("A -> B  k1 = 0.12 1/min\nstart A = 1 M", "t"))
     >>> scheme.species_names, scheme.concentration_unit
     (['A', 'B'], 'M')
     """

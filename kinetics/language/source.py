@@ -129,14 +129,14 @@ def check_text_size(text: str, source: str) -> None:
 
 
 def raw_lines(text: str) -> Iterator[tuple[int, str]]:
-    """The lines of ``text`` with their 1-based numbers, as editors count them.
+    r"""The lines of ``text`` with their 1-based numbers, as editors count them.
 
-    A byte-order mark at the start is dropped; lines end at ``"\\n"``, ``"\\r\\n"``
-    or a lone ``"\\r"``.
+    A byte-order mark at the start is dropped; lines end at ``"\n"``, ``"\r\n"``
+    or a lone ``"\r"``.
 
     Examples
     --------
-    >>> list(raw_lines("\\ufeffA -> B\\r\\nstart A = 1 M\\rx"))
+    >>> list(raw_lines("\ufeffA -> B\r\nstart A = 1 M\rx"))
     [(1, 'A -> B'), (2, 'start A = 1 M'), (3, 'x')]
     """
     if text.startswith("\ufeff"):  # a byte-order mark left by some editors
@@ -229,7 +229,7 @@ the current folder)
 
 
 def read_text(path: Path, name: str) -> str:
-    """The UTF-8 text of a file, read in chunks up to :data:`MAX_SCHEME_BYTES`.
+    r"""The UTF-8 text of a file, read in chunks up to :data:`MAX_SCHEME_BYTES`.
 
     Reading stops at the first chunk that shows the file is not a scheme: too
     large, binary (a NUL byte) or not UTF-8, so that ``/dev/zero`` or a large
@@ -257,9 +257,9 @@ def read_text(path: Path, name: str) -> str:
     >>> import tempfile
     >>> with tempfile.TemporaryDirectory() as folder:
     ...     path = Path(folder) / "t.scheme"
-    ...     _ = path.write_bytes(b"\\xef\\xbb\\xbfA -> B  k1 = 1 1/s\\n")
+    ...     _ = path.write_bytes(b"\xef\xbb\xbfA -> B  k1 = 1 1/s\n")
     ...     read_text(path, "t.scheme")
-    'A -> B  k1 = 1 1/s\\n'
+    'A -> B  k1 = 1 1/s\n'
     """
     decoder = codecs.getincrementaldecoder("utf-8-sig")()
     parts: list[str] = []

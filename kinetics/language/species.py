@@ -25,7 +25,7 @@ def make_species(
     values: ListedValues,
     found: Diagnostics,
 ) -> tuple[list[Species], list[Species]]:
-    """The species of the matrix and those held in excess, in order of appearance.
+    r"""The species of the matrix and those held in excess, in order of appearance.
 
     A formula gives the molar mass (:func:`kinetics.balance.formula_mass`); a
     species may have a formula or a molar mass, not both.
@@ -50,7 +50,7 @@ def make_species(
     >>> from kinetics.language.reader import read_statements
     >>> from kinetics.language.names import species_order
     >>> from kinetics.language.values import ListedValues
-    >>> parsed = read_statements("A + W -> B  k1 = 1 M-1 s-1\\nformula A = H2O2", "t")
+    >>> parsed = read_statements("A + W -> B  k1 = 1 M-1 s-1\nformula A = H2O2", "t")
     >>> values = ListedValues()
     >>> values.formulas["A"] = (parsed.lists[0].items[0], parsed.lists[0].line)
     >>> matrix, held = make_species(

@@ -182,7 +182,8 @@ class ListStatement:
     @classmethod
     def from_line(cls, line: Line) -> ListStatement | KeptList | list[SchemeError] | None:
         """The statement of ``line``; with errors, the statement that keeps the declared
-        names and the errors; only errors; or None when the line lists nothing."""
+        names and the errors; only errors; or None when the line lists nothing.
+        """
         code = line.code
         match = re.match(r"\s*(start|excess|feed|formula|molar_mass)(?=\s|$)", code)
         if not match:
@@ -356,7 +357,8 @@ def read_constant(
 
 def _plain_value(text: str) -> bool:
     """True for a number followed by nothing, by a unit pint reads, or by words without
-    operators (read as a unit, with the messages of a unit)."""
+    operators (read as a unit, with the messages of a unit).
+    """
     match = NUMBER_RE.match(text.strip())
     if match is None:
         return False

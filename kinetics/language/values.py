@@ -94,7 +94,7 @@ class ListedValues:
 def resolve_values(
     lists: Iterable[ListStatement], context: ValueContext, found: Diagnostics
 ) -> ListedValues:
-    """Check and scale every item of the list statements; errors go to ``found``.
+    r"""Check and scale every item of the list statements; errors go to ``found``.
 
     Parameters
     ----------
@@ -114,7 +114,7 @@ def resolve_values(
     >>> from kinetics.language.reader import read_statements
     >>> from kinetics.language.concentrations import choose_unit
     >>> from kinetics.language.names import species_order
-    >>> parsed = read_statements("A -> B  k1 = 1 1/s\\nstart A = 1 M, B = 20 mmol/L", "t")
+    >>> parsed = read_statements("A -> B  k1 = 1 1/s\nstart A = 1 M, B = 20 mmol/L", "t")
     >>> context = ValueContext(
     ...     species_order(parsed.reactions), frozenset(), frozenset(), choose_unit(parsed.lists)
     ... )
@@ -240,7 +240,8 @@ def _activity(
     found: Diagnostics,
 ) -> None:
     """A start value written as an activity: kept for the decay constants, or refused
-    when the file's values are of another basis."""
+    when the file's values are of another basis.
+    """
     v = item.value
     assert v is not None
     family = unit.family
@@ -313,7 +314,7 @@ def _in_unit(
 def convert_masses(
     values: ListedValues, species: Iterable[Species], unit: ConcentrationUnit, found: Diagnostics
 ) -> None:
-    """Turn the values written as masses into amounts: n = m / M (M in g/mol).
+    r"""Turn the values written as masses into amounts: n = m / M (M in g/mol).
 
     Parameters
     ----------
@@ -331,7 +332,7 @@ def convert_masses(
     >>> from kinetics.language.reader import read_statements
     >>> from kinetics.language.concentrations import choose_unit
     >>> from kinetics.language.names import species_order
-    >>> parsed = read_statements("A -> B  k1 = 1 1/s\\nstart A = 18 mg/L", "t")
+    >>> parsed = read_statements("A -> B  k1 = 1 1/s\nstart A = 18 mg/L", "t")
     >>> chosen = choose_unit(parsed.lists)
     >>> context = ValueContext(species_order(parsed.reactions), frozenset(), frozenset(), chosen)
     >>> listed = resolve_values(parsed.lists, context, Diagnostics("t"))

@@ -1,5 +1,6 @@
 """``kinetics.optimise``: the best settings of a scheme under its requirements, how flat the
-optimum is, and the target over the settings for a figure."""
+optimum is, and the target over the settings for a figure.
+"""
 
 from __future__ import annotations
 
@@ -98,7 +99,8 @@ def _requirement_rows(model: Model, point) -> tuple[dict, ...]:
 
 def _inside(model: Model, best: float, x: np.ndarray) -> float:
     """>= 0 where the target is within FLAT_SHARE of ``best`` and every requirement holds:
-    the smaller of the scaled gaps."""
+    the smaller of the scaled gaps.
+    """
     p = model.point(x)
     gap = model.goal.sign * (p.objective - best) + FLAT_SHARE * abs(best)
     q = gap / max(abs(best), 1e-300)
@@ -130,7 +132,8 @@ def _edge(model: Model, best: float, x: np.ndarray, j: int, bound: float) -> flo
 def flat_ranges(model: Model, x, objective: float) -> tuple[tuple[float, float], ...]:
     """Per setting the range around ``x`` (the others held) in which the target stays within
     :data:`~kinetics.optimise.result.FLAT_SHARE` of ``objective`` and every requirement
-    holds [internal units]; the roots are refined by Brent's method on exact values."""
+    holds [internal units]; the roots are refined by Brent's method on exact values.
+    """
     x = np.asarray(x, dtype=float)
     return tuple(
         (

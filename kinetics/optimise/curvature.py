@@ -51,8 +51,9 @@ _STEP = Fraction(1, 2**26)
 
 
 def rate_curvatures(model: Model, x, i: int, j: int) -> np.ndarray:
-    """:math:`\\partial^2 k_s/\\partial x_i \\partial x_j` of every step [1/s per internal
-    unit squared], from second differences of exact evaluations."""
+    r""":math:`\partial^2 k_s/\partial x_i \partial x_j` of every step [1/s per internal
+    unit squared], from second differences of exact evaluations.
+    """
     ai, bi = model.steps_of(x, i, _STEP)
     if i == j:
         v = float(x[i])
@@ -98,8 +99,9 @@ def _augmented(model: Model, here: Scheme, slopes, starts, c0):
 
 
 def second_derivatives(model: Model, x, here: Scheme, t: float, slopes, dc) -> np.ndarray | None:
-    """:math:`\\partial^2 c(t)/\\partial x_p \\partial x_q` of every species, shape (d, d, n)
-    [conc per internal units squared]; None for a system above :data:`BLOCK_MAX` rows."""
+    r""":math:`\partial^2 c(t)/\partial x_p \partial x_q` of every species, shape (d, d, n)
+    [conc per internal units squared]; None for a system above :data:`BLOCK_MAX` rows.
+    """
     starts = [j for j in model.rest if model.settings[j].kind == "start"]
     n, d = len(here.species), len(model.settings)
     m = len(slopes) + len(starts)

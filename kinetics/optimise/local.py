@@ -146,15 +146,17 @@ def _logarithmic(setting, lo: float, hi: float) -> bool:
 
 def scaled_problem(model: Model, start: Candidate) -> ScaledProblem:
     """The problem of ``model`` scaled at ``start`` (the target by its size there, each
-    margin by its level)."""
+    margin by its level).
+    """
     scale = max(abs(start.objective), float(model.scheme.initial_vector.max(initial=0.0)))
     levels = np.array([r.threshold for r in model.scheme_at(start.x).requirements])
     return ScaledProblem(model, max(scale, 1e-300), margin_scales(model, levels))
 
 
 def trust_region_step(g: np.ndarray, H: np.ndarray, radius: float) -> np.ndarray:
-    """The minimiser of :math:`g^T p + \\frac12 p^T H p` with :math:`\\|p\\| \\le` radius
-    (Moré-Sorensen for a small dense H: eigenvalues, then a bisection on lambda)."""
+    r"""The minimiser of :math:`g^T p + \frac12 p^T H p` with :math:`\|p\| \le` radius
+    (Moré-Sorensen for a small dense H: eigenvalues, then a bisection on lambda).
+    """
     w, Q = np.linalg.eigh(0.5 * (H + H.T))
     a = Q.T @ g
 
@@ -263,7 +265,8 @@ def slsqp(model: Model, start: Candidate, tol: float = 1e-12) -> Candidate:
 
 def refine(model: Model, start: Candidate, known=()) -> Candidate:
     """Newton steps from ``start``, then SLSQP from the best point unless they converged
-    (``known``: optima found from other starts, see :func:`newton`)."""
+    (``known``: optima found from other starts, see :func:`newton`).
+    """
     reached, converged = newton(model, start, [k for k in known if k.violation == 0])
     if converged:
         return reached

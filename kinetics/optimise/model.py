@@ -63,7 +63,7 @@ _STEP = Fraction(1, 2**40)
 
 @dataclass(frozen=True)
 class Goal:
-    """What is optimised.
+    r"""What is optimised.
 
     Attributes
     ----------
@@ -76,7 +76,7 @@ class Goal:
     end : float or None
         [s] the end time (``--until``).
     yield_basis : bool
-        True: the target is the yield :math:`c_B / \\sum_j c_{0,j}` [-].
+        True: the target is the yield :math:`c_B / \sum_j c_{0,j}` [-].
     time_unit : str
         The unit the best time is reported in.
     """
@@ -96,7 +96,7 @@ class Goal:
 
 @dataclass(frozen=True)
 class Point:
-    """The target and the margins of the requirements at one set of settings.
+    r"""The target and the margins of the requirements at one set of settings.
 
     Attributes
     ----------
@@ -107,14 +107,14 @@ class Point:
     objective : float
         The target [the scheme's concentration unit, or - for a yield].
     margins : ndarray
-        Per requirement :math:`\\pm(c_i(t) - L)` [conc], >= 0 where it holds.
+        Per requirement :math:`\pm(c_i(t) - L)` [conc], >= 0 where it holds.
     thresholds : ndarray
         Per requirement its level :math:`L` [conc] at these settings.
     gradient, jacobian : ndarray or None
-        :math:`\\partial\\phi/\\partial x` (d,) and :math:`\\partial h/\\partial x` (r, d)
+        :math:`\partial\phi/\partial x` (d,) and :math:`\partial h/\partial x` (r, d)
         [per internal unit].
     hessian, curvatures : ndarray or None
-        :math:`\\partial^2\\phi/\\partial x^2` (d, d) and the second derivatives of the
+        :math:`\partial^2\phi/\partial x^2` (d, d) and the second derivatives of the
         margins (r, d, d), when asked for.
     """
 
@@ -196,7 +196,8 @@ class Model:
 
     def values(self, x, times) -> tuple[np.ndarray, np.ndarray, Scheme]:
         """Targets (m,) and margins (m, r) at many times for one set of the other settings
-        (one engine call), and the scheme there."""
+        (one engine call), and the scheme there.
+        """
         self.evaluations += np.size(times)
         here = self.scheme_at(x)
         Kh, Kl = here.rate_matrix_pair()
@@ -211,7 +212,8 @@ class Model:
 
     def point(self, x, gradient: bool = False, hessian: bool = False) -> Point:
         """The target and margins at ``x`` [internal units], with first (and second)
-        derivatives on request."""
+        derivatives on request.
+        """
         x = np.asarray(x, dtype=float)
         t = self.end_time(x)
         target, margins, here = self.values(x, [t])
@@ -275,7 +277,8 @@ class Model:
 
     def rates_at(self, x, changes: dict[int, float]) -> list[Fraction]:
         """The exact effective step rates [1/s] with the settings ``changes`` (index ->
-        value [internal units]) moved from ``x``."""
+        value [internal units]) moved from ``x``.
+        """
         y = np.array(x, dtype=float)
         for j, v in changes.items():
             y[j] = v
@@ -284,7 +287,8 @@ class Model:
 
     def steps_of(self, x, j: int, step: Fraction) -> tuple[float, float]:
         """Two values of setting ``j`` around ``x[j]`` a relative ``step`` apart (the
-        lower one at ``x[j]`` itself where the setting cannot go below 0)."""
+        lower one at ``x[j]`` itself where the setting cannot go below 0).
+        """
         s = self.settings[j]
         v = Fraction(float(x[j]))
         h = abs(v) * step or Fraction(s.hi_internal - s.lo_internal) * step
@@ -294,8 +298,9 @@ class Model:
         return a, b
 
     def _rate_slopes(self, x, j: int) -> np.ndarray:
-        """:math:`\\partial k_s/\\partial x_j` of every step [1/s per internal unit]:
-        central difference of exact evaluations (one-sided at a bound at zero)."""
+        r""":math:`\partial k_s/\partial x_j` of every step [1/s per internal unit]:
+        central difference of exact evaluations (one-sided at a bound at zero).
+        """
         a, b = self.steps_of(x, j, _STEP)
         up, down = self.rates_at(x, {j: b}), self.rates_at(x, {j: a})
         width = Fraction(b) - Fraction(a)

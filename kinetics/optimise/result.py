@@ -1,5 +1,6 @@
 """The result of an optimisation: the best settings, the target there, which requirements
-bind, and how flat the optimum is."""
+bind, and how flat the optimum is.
+"""
 
 from __future__ import annotations
 
@@ -73,7 +74,8 @@ class Optimum:
         """JSON-ready: ``best`` (name -> ``value`` with ``unit``), ``objective``,
         ``objective_unit``, ``active_requirements``, ``feasible``, ``requirements``,
         ``flat_within_1_percent`` (name -> ``low``, ``high``, ``unit``), ``bounds``,
-        ``target``, ``evaluations`` and ``notes``."""
+        ``target``, ``evaluations`` and ``notes``.
+        """
         g = self.goal
         flat = {}
         for s, (a, b) in zip(self.settings, self.flat, strict=True):

@@ -164,7 +164,8 @@ def _insert(index: tuple, others: list[int], at: int, k: int) -> tuple:
 
 def choose_starts(model: Model, grid, count: int) -> list[Candidate]:
     """The best grid points that no neighbour on the grid beats (one per hill), best
-    first, at most ``count`` (step 2)."""
+    first, at most ``count`` (step 2).
+    """
     table = dict(grid)
     ranked = sorted(
         grid,

@@ -186,7 +186,7 @@ def _quantity(scheme: Scheme, where: str, name: str, lo, hi, unit, texts) -> Set
 
 
 def parse_over(scheme: Scheme, spec: str, option: str = "--over") -> Setting:
-    """Read one ``NAME=LO:HI[:UNIT]`` into a :class:`Setting`.
+    r"""Read one ``NAME=LO:HI[:UNIT]`` into a :class:`Setting`.
 
     Parameters
     ----------
@@ -209,8 +209,8 @@ def parse_over(scheme: Scheme, spec: str, option: str = "--over") -> Setting:
     Examples
     --------
     >>> import kinetics
-    >>> s = kinetics.parse("A -> B  k = arrhenius(A = 1e10 1/s, Ea = 80 kJ/mol)\\n"
-    ...                    "temperature = 40 degC\\nstart A = 1 mol/L")
+    >>> s = kinetics.parse("A -> B  k = arrhenius(A = 1e10 1/s, Ea = 80 kJ/mol)\n"
+    ...                    "temperature = 40 degC\nstart A = 1 mol/L")
     >>> t = parse_over(s, "temperature=20:80:degC")
     >>> (t.kind, t.lo_internal, t.hi_internal)
     ('temperature', 293.15, 353.15)

@@ -193,11 +193,11 @@ def write_xlsx(
     scheme_text: str = "",
     scheme_rows: list[dict] | None = None,
 ) -> None:
-    """Write an Excel workbook with sheets ``concentrations``, ``summary`` and ``inputs``.
+    r"""Write an Excel workbook with sheets ``concentrations``, ``summary`` and ``inputs``.
 
     Numbers are numeric cells that read back as the same doubles; every text (titles,
     file names, species names, notes, the scheme) is a text cell passed through
-    :func:`kinetics.files.spreadsheet_text`, with control characters shown as ``\\xNN``
+    :func:`kinetics.files.spreadsheet_text`, with control characters shown as ``\xNN``
     and texts longer than a cell holds (32,767 characters) cut with a note.
 
     Parameters

@@ -1,5 +1,6 @@
 """What a fit reports: the fit.json document, a plain-text summary of the estimates and
-the plot of data against fitted curves (pure producers: no printing)."""
+the plot of data against fitted curves (pure producers: no printing).
+"""
 
 from __future__ import annotations
 

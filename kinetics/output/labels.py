@@ -1,5 +1,6 @@
 """Labels of marked points that never overlap: each beside its point when there is room,
-else moved away with a leader line, always inside its panel."""
+else moved away with a leader line, always inside its panel.
+"""
 
 from __future__ import annotations
 
@@ -18,7 +19,8 @@ _LABEL_GAP = 8.0
 
 class Label:
     """A text to place near a point of an axes (data coordinates of that axes); ``below``
-    prefers a place below the point (half-lives) to one above it (maxima)."""
+    prefers a place below the point (half-lives) to one above it (maxima).
+    """
 
     def __init__(self, text: str, ax, point: tuple[float, float], below: bool) -> None:
         self.text = text

@@ -1,6 +1,7 @@
 """What ``kinetics optimise`` reports: the JSON object, the lines of the terminal and the
 figure of the target over the settings with the feasible region shaded (pure: no
-printing, no files; matplotlib imported lazily)."""
+printing, no files; matplotlib imported lazily).
+"""
 
 from __future__ import annotations
 
@@ -48,14 +49,14 @@ def _target_words(optimum: Optimum) -> str:
 
 
 def optimum_lines(optimum: Optimum) -> list[tuple[str, str]]:
-    """The optimum as (label, text) pairs: the target, each setting with its flat range,
+    r"""The optimum as (label, text) pairs: the target, each setting with its flat range,
     the target's value, each requirement, the model evaluations.
 
     Examples
     --------
     >>> import kinetics
     >>> from kinetics.optimise import optimise
-    >>> s = kinetics.parse("A -> B  k1 = 0.3 1/s\\nB -> C  k2 = 0.1 1/s\\nstart A = 1 mol/L")
+    >>> s = kinetics.parse("A -> B  k1 = 0.3 1/s\nB -> C  k2 = 0.1 1/s\nstart A = 1 mol/L")
     >>> for label, text in optimum_lines(optimise(s, "B", "time=0:30:s"))[:3]:
     ...     print(f"{label}: {text}")
     target: maximise B at the end time

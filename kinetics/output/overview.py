@@ -203,7 +203,8 @@ def solution_json(
 
 def _requirements(summary) -> dict:
     """``requirements`` and ``all_hold_until`` (with ``all_hold_from``) of a scheme with
-    ``require`` lines, in the summary's time unit; nothing for a scheme without."""
+    ``require`` lines, in the summary's time unit; nothing for a scheme without.
+    """
     checked = getattr(summary, "requirements", None)
     if not checked:
         return {}
@@ -233,10 +234,10 @@ def _certificate(solution: Solution) -> dict:
 
 
 def certificate_sentence(solution: Solution) -> str | None:
-    """The certificate of a solution in one sentence (None when it has none).
+    r"""The certificate of a solution in one sentence (None when it has none).
 
     >>> import kinetics
-    >>> s = kinetics.parse("A -> B  k1 = 0.1 1/s\\nstart A = 1 mol/L")
+    >>> s = kinetics.parse("A -> B  k1 = 0.1 1/s\nstart A = 1 mol/L")
     >>> print(certificate_sentence(kinetics.solve(s, [0, 1, 2])))  # doctest: +ELLIPSIS
     Every concentration above 1e-290 is within 1.1e-16 (relative) of the exact solution ...
     """

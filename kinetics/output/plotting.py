@@ -207,7 +207,8 @@ def concentration_figure(
 @dataclass(frozen=True)
 class _Panels:
     """The figure, its linear and log panels, the right-hand axis (or None) and the
-    species drawn against it."""
+    species drawn against it.
+    """
 
     fig: Figure
     lin: object

@@ -256,7 +256,8 @@ def requirement_lines(checked: dict, time_unit: str) -> list[tuple[str, str]]:
 
 def scheme_rows(summary, time_unit: str, conc_unit: str) -> list[dict]:
     """The whole-scheme quantities of a :class:`~kinetics.analysis.solution_summary.Summary`
-    as rows ``quantity``, ``value``, then its requirements (:func:`requirement_lines`)."""
+    as rows ``quantity``, ``value``, then its requirements (:func:`requirement_lines`).
+    """
     lines = scheme_lines(getattr(summary, "scheme", None) or {}, time_unit, conc_unit)
     lines += requirement_lines(getattr(summary, "requirements", None) or {}, time_unit)
     return [{"quantity": label, "value": text} for label, text in lines]

@@ -55,7 +55,7 @@ def sweep(
     scheduler: str | None = None,
     activity: str | None = None,
 ) -> pd.DataFrame | tuple[pd.DataFrame, pd.DataFrame]:
-    """Evaluate a scheme on a Cartesian grid of parameters; one summary row per set.
+    r"""Evaluate a scheme on a Cartesian grid of parameters; one summary row per set.
 
     Parameters
     ----------
@@ -91,7 +91,7 @@ def sweep(
         :data:`BOUND_COLUMN`, and the curves come as an ``xarray.DataArray`` of dims
         ``(set, time, species)``.
 
-    .. math:: c^{(i)}(t) = e^{tK^{(i)}} c_0^{(i)} + \\int_0^t e^{sK^{(i)}}\\,ds\\, f
+    .. math:: c^{(i)}(t) = e^{tK^{(i)}} c_0^{(i)} + \int_0^t e^{sK^{(i)}}\,ds\, f
 
     Notes
     -----
@@ -102,7 +102,7 @@ def sweep(
     --------
     >>> import kinetics
     >>> from kinetics.sweep import sweep
-    >>> s = kinetics.parse("A -> B  k1 = 0.1 1/min\\nB -> C  k2 = 0.05 1/min\\nstart A = 1 M")
+    >>> s = kinetics.parse("A -> B  k1 = 0.1 1/min\nB -> C  k2 = 0.05 1/min\nstart A = 1 M")
     >>> table = sweep(s, ["k2=0.05,0.2"], [0.0, 3600.0], time_unit="min")
     >>> list(table.columns)[:3]
     ['k2 [1/min]', 'half_life A [min]', 't_max B [min]']
@@ -142,7 +142,7 @@ def monte_carlo(
     precision: str = "double",
     activity: str | None = None,
 ) -> tuple[pd.DataFrame, pd.DataFrame]:
-    """Monte Carlo propagation of parameter uncertainty; samples and percentile bands.
+    r"""Monte Carlo propagation of parameter uncertainty; samples and percentile bands.
 
     Parameters
     ----------
@@ -167,12 +167,12 @@ def monte_carlo(
         One row per grid point: percentiles 2.5/50/97.5 of each quantity
         (see :func:`percentile_bands`).
 
-    .. math:: \\ln k = \\ln k_0 + \\ln(1+s)\\,z, \\qquad T = T_0 + \\sigma_T z
+    .. math:: \ln k = \ln k_0 + \ln(1+s)\,z, \qquad T = T_0 + \sigma_T z
 
     Notes
     -----
     The sample quantile of probability :math:`p` has a standard error of about
-    :math:`\\sqrt{p(1-p)/N}/f(x_p)` (density :math:`f` at the quantile), so the 2.5 %
+    :math:`\sqrt{p(1-p)/N}/f(x_p)` (density :math:`f` at the quantile), so the 2.5 %
     and 97.5 % bands need a few thousand samples to be stable to about a percent.
     """
     import pandas as pd

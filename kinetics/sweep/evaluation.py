@@ -103,7 +103,7 @@ def _reference_summaries(plan: SweepPlan, K, K_low, c0, feed) -> dict[str, np.nd
 def chunk_result(
     plan: SweepPlan, start: int, stop: int, curves: bool = False, index: int = -1
 ) -> ChunkResult:
-    """Evaluate sets ``start .. stop-1`` of ``plan`` (one stacked batch).
+    r"""Evaluate sets ``start .. stop-1`` of ``plan`` (one stacked batch).
 
     Parameters
     ----------
@@ -121,7 +121,7 @@ def chunk_result(
 
     Notes
     -----
-    .. math:: c^{(i)}(t) = e^{tK^{(i)}} c_0^{(i)} + \\int_0^t e^{sK^{(i)}}\\,ds\\, f
+    .. math:: c^{(i)}(t) = e^{tK^{(i)}} c_0^{(i)} + \int_0^t e^{sK^{(i)}}\,ds\, f
 
     for every set ``i`` at once; the summary quantities are those of
     :func:`kinetics.analysis.summarise` (see :mod:`kinetics.sweep_summary`).  Each member is
@@ -164,7 +164,8 @@ def chunk_result(
 
 def _activity_factors(plan: SweepPlan, K, K_low) -> np.ndarray | None:
     """Activity per amount of each set and species (b, n), or None for concentrations:
-    the decay constants are each set's :math:`-K_{ii}` (:mod:`kinetics.activity`)."""
+    the decay constants are each set's :math:`-K_{ii}` (:mod:`kinetics.activity`).
+    """
     if plan.activity_unit is None:
         return None
     from ..activity import activity_factors_for

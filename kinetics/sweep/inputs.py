@@ -39,9 +39,9 @@ class _SetValues:
 
 
 def _constant_pairs(plan: SweepPlan, name: str, varied: _SetValues):
-    """Values of constant ``name`` [SI] for the sets, as pairs; None when no set changes it.
+    r"""Values of constant ``name`` [SI] for the sets, as pairs; None when no set changes it.
 
-    .. math:: k = A \\exp(-E_a/(R T)) \\text{ for Arrhenius constants}
+    .. math:: k = A \exp(-E_a/(R T)) \text{ for Arrhenius constants}
     """
     from ..scheme import arrhenius_pairs
 
@@ -114,7 +114,7 @@ def _followers(plan: SweepPlan, varied: _SetValues, constants: dict, b: int) -> 
 
 
 def _excess_power(w, nu):
-    """:math:`W^\\nu` for excess concentrations ``w`` [SI] given as pairs ``(hi, lo)``.
+    r""":math:`W^\nu` for excess concentrations ``w`` [SI] given as pairs ``(hi, lo)``.
 
     Integer powers by double-double products; others exactly to 40 digits
     (:func:`kinetics._doubledouble.decimal_power`), once per distinct value.
@@ -133,9 +133,9 @@ def _excess_power(w, nu):
 
 
 def _step_rate(plan: SweepPlan, s: int, k, varied: _SetValues, b: int):
-    """Effective rate pairs of step ``s`` for the sets (None: the file's own, unchanged).
+    r"""Effective rate pairs of step ``s`` for the sets (None: the file's own, unchanged).
 
-    .. math:: k_\\mathrm{eff} = k \\prod_j [W_j]^{\\nu_j}
+    .. math:: k_\mathrm{eff} = k \prod_j [W_j]^{\nu_j}
     """
     scheme = plan.scheme
     step = scheme.steps[s]

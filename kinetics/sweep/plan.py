@@ -475,7 +475,8 @@ def _set_text(plan: SweepPlan, values) -> str:
 
 def _located_inputs(plan: SweepPlan, start: int, display, internal):
     """:func:`input_rates` of a block of sets; a set whose values a definition of the
-    scheme cannot take is named (``set 3 (t_p [h] = -1): ...``)."""
+    scheme cannot take is named (``set 3 (t_p [h] = -1): ...``).
+    """
     try:
         return input_rates(plan, internal)
     except (ExpressionError, ActivityError):

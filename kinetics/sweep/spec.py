@@ -124,7 +124,7 @@ def _split_unit(text: str) -> tuple[str, str]:
 
 
 def parse_vary(scheme: Scheme, spec: str, option: str = "--vary") -> Parameter:
-    """Parse one ``NAME=VALUES`` specification into a grid axis.
+    r"""Parse one ``NAME=VALUES`` specification into a grid axis.
 
     Parameters
     ----------
@@ -149,9 +149,9 @@ def parse_vary(scheme: Scheme, spec: str, option: str = "--vary") -> Parameter:
     -----
     .. math::
 
-        x_j = x_{lo} + \\frac{j}{N-1}(x_{hi} - x_{lo}) \\ \\text{(lin)}, \\qquad
-        x_j = x_{lo} \\left(\\frac{x_{hi}}{x_{lo}}\\right)^{j/(N-1)} \\ \\text{(log)},
-        \\qquad j = 0 \\ldots N-1
+        x_j = x_{lo} + \frac{j}{N-1}(x_{hi} - x_{lo}) \ \text{(lin)}, \qquad
+        x_j = x_{lo} \left(\frac{x_{hi}}{x_{lo}}\right)^{j/(N-1)} \ \text{(log)},
+        \qquad j = 0 \ldots N-1
 
     computed with ``numpy.linspace`` and ``numpy.geomspace`` (end points exact).  Values
     are converted to internal units with exact rational unit factors (one rounding).
@@ -304,7 +304,7 @@ def _grid_axis(scheme: Scheme, name, value) -> Parameter:
 
 @dataclass(frozen=True)
 class Spread:
-    """The distribution of one Monte Carlo parameter.
+    r"""The distribution of one Monte Carlo parameter.
 
     Attributes
     ----------
@@ -313,9 +313,9 @@ class Spread:
     unit : str
         Unit of the sampled values in the result table (the file's unit).
     distribution : str
-        ``lognormal`` (:math:`x = x_0 (1+s)^z`) or ``normal`` (:math:`x = x_0 + \\sigma z`).
+        ``lognormal`` (:math:`x = x_0 (1+s)^z`) or ``normal`` (:math:`x = x_0 + \sigma z`).
     sigma : float
-        Lognormal: :math:`\\ln(1+s)`; normal: :math:`\\sigma` in internal units
+        Lognormal: :math:`\ln(1+s)`; normal: :math:`\sigma` in internal units
         ([K] or [J/mol]); or, for a relative normal spread, the fraction of the nominal value.
     relative : bool
         Normal spreads only: ``sigma`` is a fraction of the nominal value.
@@ -352,7 +352,7 @@ class Spread:
 
 
 def parse_spread(scheme: Scheme, spec: str, option: str = "--spread") -> Spread:
-    """Parse one ``NAME=SPREAD`` Monte Carlo specification.
+    r"""Parse one ``NAME=SPREAD`` Monte Carlo specification.
 
     Parameters
     ----------
@@ -374,8 +374,8 @@ def parse_spread(scheme: Scheme, spec: str, option: str = "--spread") -> Spread:
     -----
     .. math::
 
-        \\text{lognormal: } \\ln x \\sim N(\\ln x_0, \\ln^2(1+s)); \\qquad
-        \\text{normal: } x \\sim N(x_0, \\sigma^2)
+        \text{lognormal: } \ln x \sim N(\ln x_0, \ln^2(1+s)); \qquad
+        \text{normal: } x \sim N(x_0, \sigma^2)
 
     A temperature standard deviation in degC (or degF) is a temperature *difference*
     (1 degC = 1 K).

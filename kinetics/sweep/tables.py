@@ -88,7 +88,7 @@ def _long_frame(sets, parameters, time, species, label, values) -> pd.DataFrame:
 
 
 def curves_array(plan: SweepPlan, results: Sequence[ChunkResult], values=None):
-    """The curves of consecutive chunks as one labelled array.
+    r"""The curves of consecutive chunks as one labelled array.
 
     Parameters
     ----------
@@ -110,7 +110,7 @@ def curves_array(plan: SweepPlan, results: Sequence[ChunkResult], values=None):
         each coordinate's ``attrs["units"]``; ``attrs["column"]`` keeps the column name of
         the tables.  :func:`curves_long_frame` converts it to the long table.
 
-    .. math:: c^{(i)}(t) = e^{tK^{(i)}} c_0^{(i)} + \\int_0^t e^{sK^{(i)}}\\,ds\\, f
+    .. math:: c^{(i)}(t) = e^{tK^{(i)}} c_0^{(i)} + \int_0^t e^{sK^{(i)}}\,ds\, f
     """
     import xarray as xr
 
@@ -146,7 +146,7 @@ def curves_array(plan: SweepPlan, results: Sequence[ChunkResult], values=None):
 
 
 def curves_long_frame(curves) -> pd.DataFrame:
-    """The labelled curves of :func:`curves_array` as a long table (one row per value).
+    r"""The labelled curves of :func:`curves_array` as a long table (one row per value).
 
     Parameters
     ----------
@@ -164,7 +164,7 @@ def curves_long_frame(curves) -> pd.DataFrame:
     --------
     >>> import kinetics
     >>> from kinetics.sweep import sweep
-    >>> s = kinetics.parse("A -> B  k1 = 0.1 1/min\\nstart A = 1 M")
+    >>> s = kinetics.parse("A -> B  k1 = 0.1 1/min\nstart A = 1 M")
     >>> _, curves = sweep(s, ["k1=0.1,0.2"], [0.0, 60.0], time_unit="min", curves=True)
     >>> list(curves_long_frame(curves).columns)
     ['set', 'k1 [1/min]', 'time [min]', 'species', 'concentration [M]']
@@ -194,7 +194,7 @@ def band_label(column: str, p: float) -> str:
 
 
 def percentile_bands(plan: SweepPlan, summary: pd.DataFrame) -> pd.DataFrame:
-    """Percentile bands (2.5/50/97.5) of every summary quantity, one row per grid point.
+    r"""Percentile bands (2.5/50/97.5) of every summary quantity, one row per grid point.
 
     Parameters
     ----------
@@ -212,12 +212,12 @@ def percentile_bands(plan: SweepPlan, summary: pd.DataFrame) -> pd.DataFrame:
 
     Notes
     -----
-    With the sorted values :math:`x_{(1)} \\le \\dots \\le x_{(N)}` of the samples in
+    With the sorted values :math:`x_{(1)} \le \dots \le x_{(N)}` of the samples in
     which the quantity exists,
 
-    .. math:: Q(p) = x_{(\\lfloor h \\rfloor + 1)} + (h - \\lfloor h \\rfloor)
-              (x_{(\\lfloor h \\rfloor + 2)} - x_{(\\lfloor h \\rfloor + 1)}), \\qquad
-              h = (N - 1)\\, p / 100
+    .. math:: Q(p) = x_{(\lfloor h \rfloor + 1)} + (h - \lfloor h \rfloor)
+              (x_{(\lfloor h \rfloor + 2)} - x_{(\lfloor h \rfloor + 1)}), \qquad
+              h = (N - 1)\, p / 100
 
     (:func:`numpy.nanpercentile`, linear interpolation between order statistics); a
     quantity that exists in no sample gives empty cells.
