@@ -33,6 +33,7 @@ from .definitions import (
 )
 from .errors import UsageError, shown_value
 from .requirements import Requirement
+from .timeline_statements import Timeline
 from .units import GAS_CONSTANT_EXACT
 
 __all__ = [
@@ -444,6 +445,11 @@ class Scheme:
     start_activities : dict of str to Fraction
         Start values written as activities [Bq, or Bq per volume or mass], exact;
         ``initial`` holds their amounts, which follow the decay constants.
+    timeline : Timeline
+        The operations of the run (additions, removals, temperature steps and ramps,
+        feed windows; :mod:`kinetics.timeline`), empty for a run of constant
+        conditions; :func:`kinetics.solve` honours them.  Set it with
+        :meth:`with_timeline`; its numbers written as names follow :meth:`with_values`.
     """
 
     species: tuple[Species, ...]
@@ -466,6 +472,7 @@ class Scheme:
     dependencies: Dependencies = field(default_factory=Dependencies)
     requirements: tuple[Requirement, ...] = ()
     start_activities: dict[str, Fraction] = field(default_factory=dict)
+    timeline: Timeline = field(default_factory=Timeline)
     _excess_si: dict[str, Fraction] = field(default_factory=dict, repr=False)
     _unit_factor: Fraction = field(default=Fraction(1), repr=False)
 
@@ -675,6 +682,62 @@ class Scheme:
         _named_value(self, name, 0)
         return tuple(n for n in self.dependencies.driven_by(name) if n in self.constants)
 
+    def with_timeline(self, timeline: Timeline) -> Scheme:
+        """A copy of the scheme with the operations of ``timeline`` (replacing its own).
+
+        The Python way to give a scheme operations without writing them in its text:
+        times in seconds, temperatures in kelvin, amounts in :attr:`concentration_unit`,
+        volumes in m^3 (see :mod:`kinetics.timeline`).  :func:`kinetics.solve` then
+        solves the run exactly stretch by stretch, and its :attr:`Solution.events
+        <kinetics.solution.Solution.events>` records what each operation moved.
+
+        Parameters
+        ----------
+        timeline : Timeline
+
+        Returns
+        -------
+        Scheme
+
+        Raises
+        ------
+        kinetics.errors.ArgumentTypeError
+            When ``timeline`` is not a :class:`~kinetics.timeline.Timeline`.
+        kinetics.errors.SchemeErrors
+            Every mistake that does not depend on the solved window, at once (unknown
+            species, a removal above 100 %, overlapping ramps, ...).
+
+        Examples
+        --------
+        A second portion of A after 30 min (k = 0.02 1/min; closed form
+        :math:`A(t) = A_0 e^{-kt} + a\\,e^{-k(t - 30)}` for t >= 30 min):
+
+        >>> import math, kinetics
+        >>> from kinetics.timeline import Addition, At, Timeline
+        >>> s = kinetics.parse("A -> B  k = 0.02 1/min\\nstart A = 0.5 mol/L")
+        >>> run = s.with_timeline(Timeline([At(1800.0, Addition({"A": 0.25}))]))
+        >>> sol = kinetics.solve(run, [0.0, 1800.0, 3600.0])
+        >>> sol.times.tolist()  # the time of the addition twice: just before and after
+        [0.0, 1800.0, 1800.0, 3600.0]
+        >>> expected = 0.5 * math.exp(-1.2) + 0.25 * math.exp(-0.6)
+        >>> bool(abs(sol["A"][-1] - expected) < 1e-15)
+        True
+        >>> [(e.action, e.species, e.change) for e in sol.events]
+        [('add', 'A', 0.25)]
+        """
+        from .errors import ArgumentTypeError, SchemeErrors, type_name
+        from .timeline import check
+
+        if not isinstance(timeline, Timeline):
+            raise ArgumentTypeError(
+                f"with_timeline() needs a Timeline, not {type_name(timeline)}",
+                "build one from kinetics.timeline: Timeline([At(1800.0, Addition({'A': 0.25}))])",
+            )
+        errors = check(self, timeline)
+        if errors:
+            raise SchemeErrors(errors)
+        return replace(self, timeline=timeline)
+
     def with_values(
         self,
         *,
@@ -703,7 +766,8 @@ class Scheme:
         Returns
         -------
         Scheme
-            Derived constants, start activities and percentage thresholds follow.
+            Derived constants, start activities, percentage thresholds and the numbers
+            of the timeline written as names follow.
 
         Raises
         ------
@@ -767,8 +831,13 @@ def _with_values(
         new_excess[name] = float(value)
     if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
         raise UsageError(f"temperature {shown_value(temperature)} K must be finite and above 0 K")
+    timeline = scheme.timeline
+    if quantities and timeline.names:
+        known = {n: q.value_si for n, q in new_quantities.items() if q.value_si is not None}
+        timeline = timeline.follow(known)
     new = replace(
         scheme,
+        timeline=timeline,
         constants=new_constants,
         quantities=new_quantities,
         dependencies=graph,

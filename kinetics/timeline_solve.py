@@ -58,9 +58,9 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from . import _doubledouble as dd
+from .checks import time_list
 from .errors import UsageError, shown_value
 from .propagate import TINY, Precision, StretchPropagator
-from .solution import check_times
 from .timeline import Addition, Plan, Removal, Timeline, expand
 
 if TYPE_CHECKING:
@@ -95,7 +95,9 @@ class Event:
         The species concerned (None for a temperature).
     change : float
         Signed concentration moved [concentration_unit]: the amount added, minus the
-        amount removed (the eluate), 0 for temperatures and feeds.
+        amount removed (the eluate), 0 for temperatures and feeds.  In a run with
+        volumes, an addition's change is its rise after mixing (the dilution of what was
+        there is not counted); an addition of solvent alone has species None.
     value : float or None
         New temperature [K] (``"temperature"``) or feed rate [concentration_unit/s]
         (``"feed on"``, ``"feed off"``).
@@ -105,6 +107,9 @@ class Event:
         Relative estimate of the ramp sub-stepping error in ``change`` (0 without ramps).
     statement : int
         Index of the timeline statement it comes from (-1 for a temperature record).
+    volume : float or None
+        Volume of the run just after an addition or removal [m^3] (None in a run
+        without volumes, and for temperatures and feeds).
     """
 
     time: float
@@ -115,6 +120,7 @@ class Event:
     error_bound: float = 0.0
     ramp_estimate: float = 0.0
     statement: int = -1
+    volume: float | None = None
 
 
 @dataclass(frozen=True)
@@ -349,7 +355,7 @@ class _Chain:
         self.end = np.empty((P, n))  # before the operations at the stretch end
         self.end_bound = np.empty(P)
         self.jumps: dict[float, tuple] = {}  # time -> (before, bound, after, bound)
-        self.moved: list[tuple[float, str, str, float, float, int]] = []
+        self.moved: list[tuple] = []  # (time, action, species, change, bound, statement, volume)
 
     def run(self) -> None:
         """Propagate stretch by stretch, applying the operations at their times."""
@@ -384,16 +390,10 @@ class _Chain:
 
     def _apply(self, op, x, e: float):
         """One nonnegative map, with the roundings it adds to the bound."""
-        index = self.scheme.index
         if isinstance(op.action, Addition):
-            for name, amount in op.action.amounts:
-                i = index[name]
-                x[i] = x[i] + amount
-                self.moved.append((op.time, "add", name, float(amount), 0.0, op.statement))
-            if any(amount for _, amount in op.action.amounts):
-                e = _compose(e, _U)
-            return x, e
+            return self._add(op, x, e)
         assert isinstance(op.action, Removal)
+        index = self.scheme.index
         p = op.action.fraction
         keep, take = float(1 - p), float(p)
         for name in op.action.species:
@@ -401,9 +401,32 @@ class _Chain:
             removed = take * x[i]
             x[i] = keep * x[i]
             bound = e if p == 1 else _compose(e, _U)
-            self.moved.append((op.time, "remove", name, -float(removed), bound, op.statement))
+            self.moved.append(
+                (op.time, "remove", name, -float(removed), bound, op.statement, op.volume)
+            )
         if 0 < p < 1:
             e = _compose(_compose(e, _U), _U)
+        return x, e
+
+    def _add(self, op, x, e: float):
+        r"""An addition: :math:`c \mapsto \kappa c + \sigma a` with the exact factors
+        :math:`\kappa = V/(V + v)` and :math:`\sigma = V_0/(V + v)` of a run with volumes
+        (both 1 otherwise), each rounded once."""
+        index = self.scheme.index
+        if op.kept != 1:
+            x = float(op.kept) * x  # the factor and the product: two roundings
+            e = _compose(_compose(e, _U), _U)
+        amounts = op.action.amounts
+        for name, amount in amounts:
+            i = index[name]
+            added = float(amount) if op.share == 1 else float(Fraction(amount) * op.share)
+            x[i] = x[i] + added
+            rounded = 0.0 if op.share == 1 else _U
+            self.moved.append((op.time, "add", name, added, rounded, op.statement, op.volume))
+        if not amounts:  # solvent alone: a dilution
+            self.moved.append((op.time, "add", None, 0.0, 0.0, op.statement, op.volume))
+        if any(amount for _, amount in amounts):
+            e = _compose(e, _U) if op.share == 1 else _compose(_compose(e, _U), _U)
         return x, e
 
 
@@ -596,7 +619,7 @@ def _envelope(plan: Plan, best: _Pass, rows: np.ndarray, moved: np.ndarray):
 def _events(plan: Plan, best: _Pass, moved_estimate: np.ndarray) -> tuple[Event, ...]:
     """Every applied operation as an :class:`Event`, in time order."""
     records = [
-        (m[0], m[5], Event(m[0], m[1], m[2], m[3], None, m[4], float(est), m[5]))
+        (m[0], m[5], Event(m[0], m[1], m[2], m[3], None, m[4], float(est), m[5], m[6]))
         for m, est in zip(best.moved, moved_estimate.tolist(), strict=True)
     ]
     for t, T, i in plan.steps:
@@ -695,7 +718,7 @@ def solve_timeline(
     >>> bool(abs(sol.removed("D")[1][0] - first) < 1e-15)
     True
     """
-    t = check_times(times)
+    t = time_list(times)
     if not (isinstance(ramp_rtol, float | int) and 0 < ramp_rtol < 1):
         raise UsageError(
             f"ramp_rtol must be a number between 0 and 1, not {shown_value(ramp_rtol)}",
