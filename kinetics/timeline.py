@@ -240,7 +240,8 @@ class _Checker:
 
     def action(self, action, place: Place) -> None:
         if isinstance(action, Addition):
-            if not action.amounts and not self.added_volume(action.volume, place):
+            volume = self.added_volume(action.volume, place)
+            if not action.amounts and not volume:
                 self.errors.append(place.error("an addition names no species", "e.g. add A = 0.1"))
             for name, value in action.amounts:
                 if self.name(name, place):

@@ -53,9 +53,9 @@ OPERATION_EXAMPLES = {
     "from": "from 1 h to 3 h: feed A = 0.01 mol/L/min",
     "volume": "volume = 1.0 L",
 }
-_HEAD = re.compile(r"\s*(?P<kw>at|every|from)\s")
+_HEAD = re.compile(r"\s*(?P<kw>at|every|from)(?=[\s:])(?!\s*=)")
 _EVERY = re.compile(
-    r"every\s+(?P<p>.*?)(?:\s+from\s+(?P<a>.*?))?(?:\s+until\s+(?P<b>.*?))?\s*$", re.DOTALL
+    r"every\s*(?P<p>.*?)(?:\s+from\s+(?P<a>.*?))?(?:\s+until\s+(?P<b>.*?))?\s*$", re.DOTALL
 )
 _WINDOW = re.compile(r"from\s+(?P<a>.*?)\s+to\s+(?P<b>.*?)\s*$")
 _ACTION = re.compile(r"(?P<word>[^\W\d]\w*)")
@@ -341,10 +341,9 @@ def _items(
 ) -> tuple[AmountItem, ...]:
     """``S = Q, S2 = Q2`` (``text`` at 0-based ``col0``)."""
     if not text.strip():
+        verb = "feed" if what == "a feed" else "add"
         errors.append(
-            line.error(
-                f"{what} names nothing", col0 + 1, " ", f"write e.g. {what.split()[-1]} {example}"
-            )
+            line.error(f"{what} names nothing", col0 + 1, " ", f"write e.g. {verb} {example}")
         )
         return ()
     items = []
@@ -377,7 +376,7 @@ def _add(line: Line, body: str, at: int, errors: list) -> AddAction | None:
     """``add S = C, ...`` or ``add V [with S = C, ...]`` (``body`` at 0-based ``at``)."""
     portion = _PORTION.match(body)
     rest = body[3:]
-    if portion is not None and portion["v"].strip() and "=" not in portion["v"]:
+    if portion is not None and _is_volume(portion["v"], portion["items"]):
         volume = read_quantity(
             line, portion["v"], at + portion.start("v"), "the volume added", "100 mL"
         )
@@ -395,6 +394,15 @@ def _add(line: Line, body: str, at: int, errors: list) -> AddAction | None:
         return AddAction(items, volume, at + 1, body)
     items = _items(line, rest, at + 3, "an addition", "A = 0.25 mol/L", errors)
     return AddAction(items, None, at + 1, body) if items else None
+
+
+def _is_volume(text: str, items: str | None) -> bool:
+    """True when the words after ``add`` are a portion's volume: a number (with its unit),
+    a single name, or anything followed by ``with``."""
+    text = text.strip()
+    if not text or "=" in text:
+        return False
+    return items is not None or bool(NUMBER_RE.match(text)) or bool(NAME_RE.fullmatch(text))
 
 
 def _remove(line: Line, body: str, at: int, errors: list) -> RemoveAction | None:

@@ -146,7 +146,7 @@ def resolve_timeline(
     volumes = [s for s in statements if isinstance(s, VolumeStatement)]
     if not ops and not volumes:
         return Timeline()
-    reader = _Reader(unit, quantities, molar_masses, found)
+    reader = _Reader(unit, quantities, molar_masses, found, outline.species_names)
     start = reader.start_volume(volumes)
     reader.start = start
     built = [b for s in ops if (b := reader.statement(s)) is not None]
@@ -163,7 +163,8 @@ def resolve_timeline(
 class _Reader:
     """Numbers of operation lines in core units, with their bindings."""
 
-    def __init__(self, unit, quantities, molar_masses, found: Diagnostics) -> None:
+    def __init__(self, unit, quantities, molar_masses, found: Diagnostics, species=()) -> None:
+        self.species = set(species)
         self.unit: ConcentrationUnit = unit
         self.quantities: Mapping[str, NamedQuantity] = quantities
         self.molar = molar_masses
@@ -298,6 +299,8 @@ class _Reader:
             )  # fmt: skip
             return None
         try:
+            if parse_unit(value.unit).dims != {"[temperature]": 1}:
+                raise ValueError(value.unit)
             return float(exact_kelvin(value.number, value.unit))
         except ValueError:
             self.error(
@@ -370,6 +373,13 @@ class _Reader:
 
     def addition(self, line: Line, action: AddAction, bound: list) -> Addition | None:
         portion = None
+        if action.volume is not None and action.volume.name in self.species:
+            name = action.volume.name
+            self.error(
+                line, f"the addition of {name} gives no amount", action.volume.column, name,
+                f"write e.g. add {name} = 0.25 {self.unit.unit}",
+            )  # fmt: skip
+            return None
         if action.volume is not None:
             portion = self.number(line, action.volume, _VOLUME, "the volume added", "100 mL")
             if portion is None:
