@@ -301,14 +301,8 @@ class _Checker:
                     "give a thermodynamic temperature in kelvin",
                 )
             )
-        elif not self.arrhenius:
-            self.notes.append(
-                _note(
-                    place,
-                    "a temperature operation has no effect: no rate constant of the scheme "
-                    "follows the Arrhenius law",
-                )
-            )
+        elif not self.arrhenius and not any(n.endswith(_NO_EFFECT) for n in self.notes):
+            self.notes.append(_note(place, _NO_EFFECT))
 
     def limit(self, count: int, place: Place) -> bool:
         """Count operations; refuse (once, at the statement that crosses) beyond the limit."""
@@ -327,6 +321,13 @@ class _Checker:
             )
             return False
         return True
+
+
+#: The note of a temperature operation in a scheme without Arrhenius constant (once).
+_NO_EFFECT = (
+    "a temperature operation has no effect: no rate constant of the scheme follows the "
+    "Arrhenius law"
+)
 
 
 def _note(place: Place, sentence: str) -> str:
