@@ -152,6 +152,9 @@ class Solution:
     ramp_estimate : numpy.ndarray or None
         Shape ``(m,)``: the estimated relative error of temperature-ramp sub-steps
         (see :mod:`kinetics.timeline_solve`), reported beside ``error_bound``.
+    stretches : tuple of kinetics.timeline_solve.Stretch
+        With operations: the stretches of constant conditions of the run (the summary
+        quantities are computed on them).
     """
 
     times: np.ndarray
@@ -167,6 +170,7 @@ class Solution:
     after: np.ndarray | None = None
     temperatures: np.ndarray | None = None
     ramp_estimate: np.ndarray | None = None
+    stretches: tuple = ()
     _events: tuple[Event, ...] | None = field(default=None, repr=False)  # the scheme's unit
 
     def in_unit(self, unit: str) -> Solution:
@@ -418,4 +422,5 @@ def _solve_timeline(scheme: Scheme, t: np.ndarray) -> Solution:
         after=run.after,
         temperatures=run.temperatures,
         ramp_estimate=run.ramp_estimate if run.ramp_substeps else None,
+        stretches=run.stretches,
     )

@@ -66,7 +66,7 @@ from .timeline import Addition, Plan, Removal, Timeline, expand
 if TYPE_CHECKING:
     from .scheme import Scheme
 
-__all__ = ["Event", "TimelineSolution", "solve_timeline"]
+__all__ = ["Event", "Stretch", "TimelineSolution", "solve_timeline"]
 
 _U = np.finfo(float).eps / 2  # unit roundoff of IEEE double
 #: Sub-steps of all ramps together beyond which refinement stops (with a note).
@@ -154,6 +154,9 @@ class TimelineSolution:
     concentration_unit : str
     ramp_substeps : int
         Sub-steps of all ramps in the returned solution (0 without ramps).
+    stretches : tuple of Stretch
+        The stretches of constant conditions the window was solved in, in time order
+        (for the summary quantities of the run).
     """
 
     times: np.ndarray
@@ -167,6 +170,7 @@ class TimelineSolution:
     notes: tuple[str, ...]
     concentration_unit: str
     ramp_substeps: int = 0
+    stretches: tuple[Stretch, ...] = ()
 
     def __getitem__(self, name: str) -> np.ndarray:
         """The curve of one species [concentration_unit]."""
@@ -532,6 +536,7 @@ class _Pass:
     bound: np.ndarray
     moved: list
     substeps: int
+    chain: _Chain
 
 
 def _one_pass(scheme, plan, conditions, times, level) -> _Pass:
@@ -540,7 +545,48 @@ def _one_pass(scheme, plan, conditions, times, level) -> _Pass:
     chain.run()
     rows_t, after, where = _rows(times, chain)
     conc, bound = _evaluate(where, chain, conditions)
-    return _Pass(rows_t, after, conc, bound, chain.moved, sum(level))
+    return _Pass(rows_t, after, conc, bound, chain.moved, sum(level), chain)
+
+
+@dataclass(frozen=True)
+class Stretch:
+    """One stretch of constant conditions of a solved run (a sub-step inside a ramp).
+
+    Attributes
+    ----------
+    start, end : float
+        [s].
+    K, K_low : numpy.ndarray
+        The rate matrix as a double-double pair [1/s] (shared between stretches of
+        the same conditions: do not modify).
+    feed : numpy.ndarray or None
+        The feed in force [concentration_unit/s].
+    start_values, end_values : numpy.ndarray
+        Concentrations just after the operations at ``start`` and just before those at
+        ``end`` [concentration_unit].
+    ramp : bool
+        True for a half sub-step of a temperature ramp (its ``K`` the Magnus-type
+        average, see the module docstring).
+    """
+
+    start: float
+    end: float
+    K: np.ndarray
+    K_low: np.ndarray
+    feed: np.ndarray | None
+    start_values: np.ndarray
+    end_values: np.ndarray
+    ramp: bool = False
+
+
+def _stretches(chain: _Chain, conditions: _Conditions) -> tuple[Stretch, ...]:
+    out = []
+    for j, (a, b, key) in enumerate(chain.pieces):
+        Kh, Kl = conditions._matrix(key[0])
+        feed, _ = conditions._feed(key[1])
+        ramp = key[0][0] == "ramp"
+        out.append(Stretch(a, b, Kh, Kl, feed, chain.start[j], chain.end[j], ramp))
+    return tuple(out)
 
 
 def _first_substeps(plan: Plan, conditions: _Conditions) -> list[int]:
@@ -744,4 +790,5 @@ def solve_timeline(
         notes=plan.notes + tuple(notes),
         concentration_unit=scheme.concentration_unit,
         ramp_substeps=best.substeps if plan.ramps and conditions.arrhenius else 0,
+        stretches=_stretches(best.chain, conditions),
     )

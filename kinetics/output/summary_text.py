@@ -188,6 +188,8 @@ def scheme_lines(scheme: dict, time_unit: str, conc_unit: str) -> list[tuple[str
         share = scheme.get(f"selectivity_{where}")
         if share is not None:
             lines.append((f"share of end products formed {label}", _listing(share)))
+    if scheme.get("timeline_note"):
+        lines.append(("with operations", scheme["timeline_note"]))
     lines.extend(_record_lines(scheme.get("temperature_log")))
     return lines
 
@@ -277,6 +279,7 @@ def summary_notes(summary: dict[str, dict], time_unit: str, conc_unit: str) -> l
         if len(maxima) > 1:
             listed = ", ".join(
                 f"{m['height']:.4g} {conc_unit} at {m['time']:.4g} {time_unit}"
+                + (f" ({m['at_operation']} an operation)" if m.get("at_operation") else "")
                 for m in maxima
                 if m.get("time") is not None and m.get("height") is not None
             )
