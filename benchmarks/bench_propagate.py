@@ -29,7 +29,7 @@ import scipy.sparse
 import scipy.sparse.linalg
 from scipy.integrate import solve_ivp
 
-from kinetics._blocks import route_costs
+from kinetics.engine.blocks import route_costs
 from kinetics.propagate import (
     expm_nonnegative_certified,
     propagate,
@@ -284,7 +284,7 @@ def strongly_connected(n, rng):
 def bench_scc():
     print("\n== 400-species strongly connected scheme, 101 points to 100 s: dense double-double "
           "engine vs block route ==")  # fmt: skip
-    from kinetics._blocks import propagate_blocks
+    from kinetics.engine.blocks import propagate_blocks
 
     rng = np.random.default_rng(3)
     n = 400

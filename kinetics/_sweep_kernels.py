@@ -21,19 +21,26 @@ import math
 import numpy as np
 from numba import njit
 
-from ._kernels import matmul_double, two_sum
-from .analysis.tolerances import REL_NOISE_C, REL_NOISE_D, XTOL
+from .analysis.tolerances import (
+    MAX_NEWTON,
+    NEWTON_TERMS,
+    NEWTON_Y,
+    RATIO,
+    REL_NOISE_C,
+    REL_NOISE_D,
+    SEGMENT_STEPS,
+    U0,
+    XTOL,
+)
+from .engine.kernels import matmul_double, two_sum
 
-# the constants of the method live in kinetics.sweep_summary (numba reads module globals
-# as compile-time constants)
-from .sweep_summary import _MAX_NEWTON as MAX_NEWTON
-from .sweep_summary import _NEWTON_TERMS as NEWTON_TERMS
-from .sweep_summary import _NEWTON_Y as NEWTON_Y
-from .sweep_summary import _RATIO as RATIO
-from .sweep_summary import _SEGMENT_STEPS as SEGMENT_STEPS
-from .sweep_summary import _U0 as U0
+# the constants of the method live in kinetics.analysis.tolerances (numba reads module
+# globals as compile-time constants)
 
 _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
+# steps called only from summarise_members: no wrapper for calls from Python and no cache
+# file of their own (summarise_members' cached code includes them)
+_STEP = {"nogil": True, "error_model": "numpy", "no_cpython_wrapper": True}
 # small helpers are inlined into their callers (numba IR inlining)
 _INLINE = {**_JIT, "inline": "always"}
 
@@ -59,7 +66,7 @@ def _matvec_t(AT, x, out):
             out[i] += AT[j, i] * xj
 
 
-@njit(**_JIT)
+@njit(**_STEP)
 def _flush(M):
     n, m = M.shape
     for i in range(n):
@@ -73,7 +80,7 @@ def _step(level):
     return U0 * float(RATIO) ** level
 
 
-@njit(**_JIT)
+@njit(**_STEP)
 def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
     r"""Levels :math:`P_\ell = e^{u_\ell A}`, :math:`u_\ell = 2^{-15} 4^\ell`, of one member.
 
@@ -151,7 +158,7 @@ def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
         _flush(P[level])
 
 
-@njit(**_JIT)
+@njit(**_STEP)
 def _sparse(M, ptr, idx, val):
     """Compressed rows of ``M``: row ``i`` holds ``val[ptr[i]:ptr[i+1]]`` at ``idx``."""
     n, m = M.shape
@@ -191,7 +198,7 @@ def _noise(d, fi, kii, ci):
     return REL_NOISE_D * ((d - fi) - kii * ci + abs(kii) * ci + abs(fi))
 
 
-@njit(**_JIT)
+@njit(**_STEP)
 def _derivatives(kp, ki, kv, diag, f, c, mx, D, N):
     """``D = (K c + f)_i`` and its noise level ``N`` for the species ``mx``.
 
@@ -226,7 +233,7 @@ def _mark(i, mark, need, used):
     return used
 
 
-@njit(**_JIT)
+@njit(**_STEP)
 def _refine(
     kp, ki, kv, bp, bi, bv, f, sigma, P, stop, sc, sp, deriv, level, tau_a, x_a, lev, out, work
 ):
@@ -349,7 +356,7 @@ def _refine(
     out[1] = height
 
 
-@njit(**_JIT)
+@njit(**_STEP)
 def _hermite_hit(g0, g1, m0, m1, tol, sg):
     """A sign change of the cubic Hermite model at the interior sixteenths."""
     for q in range(1, 16):

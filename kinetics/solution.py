@@ -13,7 +13,8 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .checks import time_list as check_times
+from .engine import propagate_certified
+from .engine.checks import time_list as check_times
 from .errors import (
     ArgumentTypeError,
     SettingError,
@@ -22,7 +23,6 @@ from .errors import (
     WorkingRangeError,
     type_name,
 )
-from .propagate import propagate_certified
 from .units import time_factor
 
 if TYPE_CHECKING:

@@ -94,24 +94,12 @@ from .analysis.tolerances import DECAY as _DECAY
 from .analysis.tolerances import EXPONENTIAL as _EXP
 from .analysis.tolerances import GLOBAL_TOL as _GLOBAL_TOL
 from .analysis.tolerances import NEVER as _NEVER
+from .analysis.tolerances import RATIO, TAU0
 from .analysis.tolerances import SCAN_FAST as _SCAN_FAST
 from .analysis.tolerances import SCAN_SLOW as _SCAN_SLOW
 from .errors import UsageError
 
 __all__ = ["summarise_batch"]
-
-# ladder and scan grid in scaled time: levels u_l = 2^-15 4^l; the scan starts with 4
-# steps of level 2 up to tau0 = 2^-9, then segments [tau0 4^d, tau0 4^(d+1)] of 12 steps
-# of level d + 2 (about 20 points per decade)
-_U0 = 2.0**-15
-_RATIO = 4
-_TAU0 = 2.0**-9
-_SEGMENT_STEPS = 12
-# brackets are narrowed until u ||B|| <= 1/4, then a Taylor series of this many terms
-# beyond the longest path of the species graph gives the state (remainder < 0.25^14/14!)
-_NEWTON_Y = 0.25
-_NEWTON_TERMS = 14
-_MAX_NEWTON = 60
 
 # The compiled ladder runs in plain double: its relative error grows about as
 # 1e-17 sigma t (sigma the largest sum of constants of a species; measured against the
@@ -456,7 +444,7 @@ def _group(K, Kl, c0, f, members, offdiag, out, fallback) -> None:
     Kf, cf = Kg[fast], cg[fast]
     sc = scale[fast]
     tau_hi = t_hi[fast] / sc
-    n_seg = max(1, math.ceil(math.log(float(tau_hi.max()) / _TAU0) / math.log(_RATIO)))
+    n_seg = max(1, math.ceil(math.log(float(tau_hi.max()) / TAU0) / math.log(RATIO)))
     n = Kf.shape[1]
     # only species that are formed (a step or the feed) and consumed can turn over
     formed = offdiag.any(axis=1)

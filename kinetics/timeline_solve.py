@@ -58,9 +58,9 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from . import _doubledouble as dd
-from .checks import time_list
+from .engine import TINY, Precision, StretchPropagator
+from .engine.checks import time_list
 from .errors import UsageError, shown_value
-from .propagate import TINY, Precision, StretchPropagator
 from .timeline import Addition, Plan, Removal, Timeline, expand
 
 if TYPE_CHECKING:

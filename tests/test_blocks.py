@@ -23,9 +23,9 @@ import scipy.sparse
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from kinetics import _block_kernels
-from kinetics._block_exp import components
-from kinetics._blocks import block_order, propagate_blocks, route_costs
+from kinetics.engine import block_kernels as _block_kernels
+from kinetics.engine.block_exp import components
+from kinetics.engine.blocks import block_order, propagate_blocks, route_costs
 from kinetics.propagate import TINY, propagate_batch, propagate_certified
 
 DATA = pathlib.Path(__file__).parent / "data" / "block_references.json"

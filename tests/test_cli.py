@@ -126,7 +126,7 @@ def test_wide_table_is_not_truncated_in_a_pipe(tmp_path, capsys, monkeypatch):
 
 
 def test_species_option_limits_the_table(chain, capsys, monkeypatch):
-    from kinetics import _kernels
+    from kinetics.engine import kernels as _kernels
 
     monkeypatch.setattr(_kernels, "on_disk", lambda kernel: True)  # compiled before
     status, out, err = run(
@@ -139,7 +139,7 @@ def test_species_option_limits_the_table(chain, capsys, monkeypatch):
 
 
 def test_no_caution_flag_and_quiet_progress(chain, capsys, monkeypatch):
-    from kinetics import _kernels
+    from kinetics.engine import kernels as _kernels
 
     monkeypatch.setattr(_kernels, "on_disk", lambda kernel: True)  # compiled before
     status, _out, err = run(
@@ -150,7 +150,7 @@ def test_no_caution_flag_and_quiet_progress(chain, capsys, monkeypatch):
 
 
 def test_first_use_note_when_the_engine_is_not_compiled_yet(chain, capsys, monkeypatch):
-    from kinetics import _kernels
+    from kinetics.engine import kernels as _kernels
 
     monkeypatch.setattr(_kernels, "on_disk", lambda kernel: False)
     status, _out, err = run(
@@ -164,7 +164,7 @@ def test_first_use_note_when_the_engine_is_not_compiled_yet(chain, capsys, monke
 
 
 def test_kernels_are_found_on_disk_after_a_solve(chain, capsys):
-    from kinetics import _kernels
+    from kinetics.engine import kernels as _kernels
 
     assert run(capsys, "solve", chain, "--until", "1h", "--points", "3")[0] == 0
     assert _kernels.on_disk(_kernels.exponentials)

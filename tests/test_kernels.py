@@ -2,14 +2,16 @@
 
 from __future__ import annotations
 
+import math
 from fractions import Fraction
+from pathlib import Path
 
 import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from kinetics import _kernels
+from kinetics.engine import kernels as _kernels
 
 # nonnegative doubles over a wide range of magnitudes, as in exponentials of stiff schemes
 # (products stay clear of overflow and of the subnormal range, where no split is exact)
@@ -125,3 +127,101 @@ def test_dd_exp_against_mpmath(seed):
 def test_on_disk_is_silent_when_the_cache_layout_is_unknown():
     # a future numba without these internals: the first-use note is simply not printed
     assert _kernels.on_disk(object()) is True
+
+
+# --------------------------------------------------------------------------
+# the engine's outputs on fixed inputs, bit for bit
+# --------------------------------------------------------------------------
+
+REFERENCES = Path(__file__).resolve().parent / "data" / "kernel_references.npz"
+#: the arguments of _sweep_kernels.summarise_members, in order
+SWEEP_ARGUMENTS = ("K", "q_low", "f", "has_feed", "c0", "scale", "t_hi", "mx", "hl", "n_seg",
+                   "tmax", "cmax", "half", "status")  # fmt: skip
+
+
+def _cases(data, prefix):
+    return sorted({k.split("/")[2] for k in data if k.startswith(prefix)})
+
+
+def engine_outputs(data) -> dict[str, np.ndarray]:
+    """Outputs of the kernels for the stored inputs ``data`` (keys ``in/...``).
+
+    The same function writes the references (``tests/data/make_kernel_references.py``).
+    """
+    from kinetics import _sweep_kernels
+
+    out: dict[str, np.ndarray] = {}
+    tiny = float(data["in/tiny"])
+    for name in _cases(data, "in/exp/"):
+        key = f"in/exp/{name}/"
+        A, Al, t = data[key + "A"], data[key + "Al"], data[key + "t"]
+        j, s, r, m = (int(x) for x in data[key + "plan"])
+        b, n, _ = A.shape
+        sigma, sigma_lo, beta = np.empty(b), np.empty(b), np.empty(b)
+        _kernels.shift_and_norm(A, Al, t, sigma, sigma_lo, beta)
+        Fh, Fl, Y = np.empty_like(A), np.empty_like(A), np.empty_like(A)
+        mats = np.empty((6, n, n))
+        ratio = np.empty(b)
+        _kernels.exponentials(
+            A, Al, t, sigma, sigma_lo, j, s, r, data[key + "ih"], data[key + "il"],
+            np.bool_(data[key + "dd"]), Fh, Fl, Y, np.empty((2, s + 1, n, n)), mats,
+            m + 1, math.exp(-math.lgamma(m + 2)), tiny, ratio,
+        )  # fmt: skip
+        vh = np.ascontiguousarray(Fh[:, :, :1][:, ::-1])
+        oh, ol = np.empty(vh.shape), np.empty(vh.shape)
+        _kernels.apply(Fh, Fl, vh, vh * 2.0**-60, np.full(b, bool(data[key + "dd"])), oh, ol)
+        results = {"sigma": sigma, "sigma_lo": sigma_lo, "beta": beta, "Fh": Fh, "Fl": Fl,
+                   "Y": Y, "ratio": ratio, "oh": oh, "ol": ol}  # fmt: skip
+        for label, x in results.items():
+            out[f"out/exp/{name}/{label}"] = x
+        out[f"out/exp/{name}/negative"] = np.array(_kernels.negative_offdiagonal(A))
+        pairs = [(float(e), float(g)) for e, g in zip(beta, sigma, strict=True)]
+        squared = [_kernels.squared_bound(e, g) for e, g in pairs]
+        assert squared == [_kernels.squared_bound.py_func(e, g) for e, g in pairs]
+        out[f"out/exp/{name}/squared"] = np.array(squared)
+    for name in _cases(data, "in/grid/"):
+        key = f"in/grid/{name}/"
+        Fh, Fl = out[f"out/exp/{name}/Fh"], out[f"out/exp/{name}/Fl"]
+        columns, skip, row0 = (int(x) for x in data[key + "shape"])
+        times = data[key + "times"]
+        b, N, _ = Fh.shape
+        p = times.size
+        X = np.zeros((b, p, N))
+        bound = np.zeros((b, p))
+        residual = np.zeros(p)
+        x0h, x0l = data[key + "x0h"], data[key + "x0l"]
+        _kernels.grid(
+            Fh, Fl, x0h, x0l, columns, skip, data[key + "dd"], X, row0, data[key + "eps"],
+            data[key + "gamma"], data[key + "start_bound"], bound, times, times[row0],
+            float(data[key + "dt"]), residual,
+        )  # fmt: skip
+        A = data[f"in/exp/{name}/A"]
+        _kernels.residual_corrections(A, X, residual, N - 1, 1e-15, tiny, bound)
+        out[f"out/grid/{name}/X"] = X
+        out[f"out/grid/{name}/bound"] = bound
+        out[f"out/grid/{name}/residual"] = residual
+    for name in ("regular", "irregular"):
+        t = data[f"in/uniform/{name}"]
+        out[f"out/uniform/{name}"] = np.array(_kernels.uniform_step(t, 4 * 2.0**-53 * t[-1]))
+    for i in _cases(data, "in/sweep/"):
+        args = [data[f"in/sweep/{i}/{name}"].copy() for name in SWEEP_ARGUMENTS]
+        args[3], args[9] = bool(args[3]), int(args[9])
+        _sweep_kernels.summarise_members(*args)
+        for label, x in zip(("tmax", "cmax", "half", "status"), args[10:], strict=True):
+            out[f"out/sweep/{i}/{label}"] = x
+    return out
+
+
+def test_engine_outputs_are_bit_identical_to_stored_values():
+    # the kernels' own earlier outputs (tests/data/make_kernel_references.py): a change of
+    # the compiled code (structure, inlining, signatures) must not change a single bit
+    stored = np.load(REFERENCES)
+    data = {k: stored[k] for k in stored.files}
+    got = engine_outputs(data)
+    expected = sorted(k for k in data if k.startswith("out/"))
+    assert sorted(got) == expected
+    for key in expected:
+        a, b = np.asarray(got[key]), data[key]
+        assert a.shape == b.shape, key
+        assert a.dtype == b.dtype, key
+        assert a.tobytes() == b.tobytes(), key

@@ -260,7 +260,7 @@ def sparse_chain(ks):
 def test_block_route_matches_dense_engine():
     # the block route itself (the public functions send large sparse schemes there by
     # predicted cost; see test_large_scheme_takes_the_block_route)
-    from kinetics._blocks import propagate_blocks
+    from kinetics.engine.blocks import propagate_blocks
 
     n = 80
     ks = np.logspace(-3, 1, n)
@@ -279,7 +279,7 @@ def test_block_route_matches_dense_engine():
 
 
 def test_block_route_permuted_scheme_with_cycle_and_feed():
-    from kinetics._blocks import propagate_blocks
+    from kinetics.engine.blocks import propagate_blocks
 
     rng = np.random.default_rng(11)
     n = 70

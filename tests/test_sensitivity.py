@@ -11,9 +11,9 @@ import numpy as np
 import pytest
 import scipy.linalg
 
+from kinetics.engine.sensitivity import block_sensitivities, sensitivities
 from kinetics.errors import UsageError
 from kinetics.propagate import propagate
-from kinetics.sensitivity import block_sensitivities, sensitivities
 
 
 def chain(ks):

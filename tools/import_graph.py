@@ -10,7 +10,7 @@ connected component of the graph of modules with more than one member (its eleme
 cycles are counted too); an import of the package root (``from kinetics import x`` where
 ``x`` is no submodule) is an edge to ``kinetics/__init__.py``.  A private name is one with
 a leading underscore and no trailing double underscore, imported by ``from M import _x``
-from another module; private modules (``from kinetics import _kernels``) are listed apart.
+from another module; private modules (``from kinetics import _sweep_kernels``) are listed apart.
 A string constant that is the full name of a module of the package (``"kinetics.cli.fit"``
 in a table of commands loaded on demand) counts as an import of it.
 

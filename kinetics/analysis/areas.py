@@ -19,7 +19,7 @@ from kinetics.analysis import inputs
 from kinetics.analysis.limits import LimitParts, limit_parts
 from kinetics.analysis.problem import Problem
 from kinetics.analysis.results import Areas
-from kinetics.propagate import propagate
+from kinetics.engine import propagate
 
 __all__ = ["areas", "areas_to", "mean_residence_time", "residence_times"]
 

@@ -13,12 +13,11 @@ import numpy as np
 import scipy.linalg
 import scipy.sparse
 
-from kinetics import checks
 from kinetics.analysis import inputs
 from kinetics.analysis.structure import Class, Structure, block
 from kinetics.analysis.tolerances import REL_NOISE_D
 from kinetics.analysis.working_range import check_working_range
-from kinetics.propagate import DENSE_MAX, propagate, propagate_batch
+from kinetics.engine import DENSE_MAX, checks, propagate, propagate_batch
 
 __all__ = ["Problem", "State"]
 

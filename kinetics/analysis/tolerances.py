@@ -43,3 +43,18 @@ GLOBAL_TOL = 1e-12
 #: Growth degree q of a class of the species graph (its concentrations behave as t^q):
 #: never reached, decays to zero, tends to a constant, grows exponentially.
 NEVER, DECAY, CONST, EXPONENTIAL = -2, -1, 0, 10**9
+
+# The ladder and scan grid of the batched summaries (kinetics.sweep_summary and its
+# compiled kernels), in scaled time: levels u_l = U0 RATIO^l; the scan starts with 4
+# steps of level 2 up to TAU0, then segments [TAU0 4^d, TAU0 4^(d+1)] of SEGMENT_STEPS
+# steps of level d + 2 (about 20 points per decade)
+U0 = 2.0**-15
+RATIO = 4
+TAU0 = 2.0**-9
+SEGMENT_STEPS = 12
+# brackets are narrowed until u ||B|| <= NEWTON_Y, then a Taylor series of NEWTON_TERMS
+# terms beyond the longest path of the species graph gives the state
+# (remainder < 0.25^14/14!); at most MAX_NEWTON refinement steps
+NEWTON_Y = 0.25
+NEWTON_TERMS = 14
+MAX_NEWTON = 60

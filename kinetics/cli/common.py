@@ -51,14 +51,14 @@ FIRST_USE = (
 
 def first_use_note(sweeps: bool = False) -> None:
     """Say on stderr that the compiled kernels are built now, when they are not on disk."""
-    from kinetics import _kernels
+    from kinetics.engine import kernels
 
-    kernels = [_kernels.exponentials]
+    entries = [kernels.exponentials]
     if sweeps:
         from kinetics import _sweep_kernels
 
-        kernels.append(_sweep_kernels.summarise_members)
-    if not all(_kernels.on_disk(k) for k in kernels):
+        entries.append(_sweep_kernels.summarise_members)
+    if not all(kernels.on_disk(k) for k in entries):
         click.echo(FIRST_USE, err=True)
 
 

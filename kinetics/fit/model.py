@@ -19,6 +19,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .. import parameters
+from ..engine import block_sensitivities
 from ..errors import DataError, UsageError
 from ..measurements import (
     Measurements,
@@ -29,7 +30,6 @@ from ..measurements import (
 from ..parameters import FIT_WORDS, Target
 from ..ratematrix import rate_pattern, step_rates
 from ..scheme import arrhenius_pairs
-from ..sensitivity import block_sensitivities
 from ..units import GAS_CONSTANT, time_factor
 
 if TYPE_CHECKING:
@@ -235,8 +235,7 @@ class Model:
         rates, c0, drates, dc0 = self.run_state(run, theta, derivatives)
         K = self.pattern.dense(rates)
         if self.engine == "entrywise":
-            from ..propagate import propagate
-            from ..sensitivity import sensitivities
+            from ..engine import propagate, sensitivities
 
             c = propagate(K, c0, run.times, run.feed)
             if not derivatives:

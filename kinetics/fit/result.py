@@ -293,7 +293,7 @@ def scheme_with_estimates(scheme, params, si, conditions) -> Scheme:
 
 def engine_predictions(scheme, params, si, runs):
     """Model values at the data points with the entrywise engine, and data − model tables."""
-    from ..propagate import propagate
+    from ..engine import propagate
 
     preds, tables = [], []
     for run in runs:

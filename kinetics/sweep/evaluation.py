@@ -57,7 +57,7 @@ def _propagate_batch(K, K_low, c0, times, feed, precision):
     With ``precision="double"`` the members whose plain-double bound exceeds
     :data:`CURVE_RTOL` (or that overflow in double) are recomputed with ``"auto"``.
     """
-    from ..propagate import propagate_batch
+    from ..engine import propagate_batch
 
     if precision != "double":
         conc, bound = propagate_batch(

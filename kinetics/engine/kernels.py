@@ -1,6 +1,6 @@
 r"""Compiled kernels of the dense entrywise engine (private; numba).
 
-The dense engine of :mod:`kinetics.propagate` spends its time in a few dozen
+The dense engine of :mod:`kinetics.engine.propagate` spends its time in a few dozen
 products of small nonnegative matrices per exponential and per time grid.  As
 array expressions (a temporary tensor per product) their cost is dominated by
 interpreter overhead; here each product is one compiled loop nest, and a whole
@@ -26,7 +26,10 @@ of the sparse, often triangular matrices of reaction schemes cheaper.
 
 The compiled code is cached on disk next to this module (numba ``cache=True``),
 so only the very first call after installation pays the compilation (about
-5 s; :func:`on_disk` lets the command line say so).
+4 s of CPU for the kernels of a solve; :func:`on_disk` lets the command line say
+so).  Python calls one kernel per step (:func:`exponentials`, :func:`grid`,
+:func:`product` and a few small ones); helpers called only from kernels are
+compiled into them (DEVELOPERS.md, "Compiled kernels", says why).
 
 References
 ----------
@@ -52,6 +55,10 @@ _SPLITTER = 134217729.0  # 2**27 + 1, Veltkamp splitting constant (Dekker 1971, 
 BLAS_FROM = 48**3
 
 _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
+#: helpers called only from kernels: no wrapper for calls from Python and no cache file of
+#: their own (a kernel's cached code includes the helpers it calls); each saves about
+#: 50 ms of the first use
+_HELPER = {"nogil": True, "error_model": "numpy", "no_cpython_wrapper": True}
 
 
 @njit(**_JIT)
@@ -81,7 +88,7 @@ def two_sum(a, b):
 _LN2 = (0.6931471805599453, 2.3190468138462996e-17, 5.707708438416212e-34)
 
 
-@njit(**_JIT)
+@njit(**_HELPER)
 def _dd_add(ah, al, bh, bl):
     """Double-double sum, either sign (the accurate variant of Bailey's QD library)."""
     s, e = two_sum(ah, bh)
@@ -163,7 +170,8 @@ def shift_and_norm(A, Al, t, sigma, sigma_lo, beta):
                 norm = col
         sigma[q] = sh
         sigma_lo[q] = sl
-        beta[q] = max(norm, abs(sh)) * t[q]
+        ash = abs(sh)
+        beta[q] = (ash if ash > norm else norm) * t[q]  # max(norm, |sh|)
 
 
 @njit(**_JIT)
@@ -191,24 +199,17 @@ def negative_offdiagonal(K):
     return False
 
 
-@njit(**_JIT)
-def copy_pair(Ah, Al, Bh, Bl):
-    """``B = A`` for a pair of 2-D arrays (explicit loops: a slice assignment costs numba
-    seconds of compilation per call site)."""
-    copy(Ah, Bh)
-    copy(Al, Bl)
-
-
-@njit(**_JIT)
+@njit(**_HELPER)
 def copy(A, B):
-    """``B = A`` for 2-D arrays, by explicit loops (see :func:`copy_pair`)."""
+    """``B = A`` for 2-D arrays, by explicit loops (a slice assignment costs numba seconds
+    of compilation per call site)."""
     n, m = A.shape
     for i in range(n):
         for j in range(m):
             B[i, j] = A[i, j]
 
 
-@njit(**_JIT)
+@njit(**_HELPER)
 def fill(A, value):
     """Every entry of the 2-D array ``A`` set to ``value``."""
     n, m = A.shape
@@ -217,7 +218,7 @@ def fill(A, value):
             A[i, j] = value
 
 
-@njit(**_JIT)
+@njit(**_HELPER)
 def matmul_double(A, B, out):
     """``out = A B`` in plain double for nonnegative data; zero entries of ``A`` are skipped."""
     n, k = A.shape
@@ -290,87 +291,44 @@ def product(Ah, Al, Bh, Bl, Ch, Cl, dd):
 
 
 @njit(**_JIT)
-def _scale_add(Th, Tl, Ph, Pl, ch, cl, dd):
-    """``T += c P`` elementwise (nonnegative ``c``, ``P``)."""
-    n, m = Th.shape
-    if not dd:  # the route is decided outside the loops, so the plain one vectorises
-        for i in range(n):
-            for j in range(m):
-                Th[i, j] += ch * Ph[i, j]
-        return
-    for i in range(n):
-        for j in range(m):
-            p, e = two_prod(ch, Ph[i, j])
-            e += ch * Pl[i, j] + cl * Ph[i, j]
-            s, f = two_sum(Th[i, j], p)
-            f += Tl[i, j] + e
-            hi = s + f
-            Tl[i, j] = f - (hi - s)
-            Th[i, j] = hi
-
-
-@njit(**_JIT)
-def _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh, Fl, Ph, Pl, Th, Tl, Wh, Wl):
-    """``(e_h + e_l) T_m(Y)^(2^j)`` with Paterson-Stockmeyer (degree ``s (r + 1) - 1``).
-
-    ``Ph, Pl`` (s + 1, n, n) and ``Th, Tl, Wh, Wl`` (n, n) are scratch space, allocated
-    once per stack (fresh memory per member made the double route twice as slow).
-    """
-    n = Yh.shape[0]
-    fill(Ph[0], 0.0)
-    fill(Pl[0], 0.0)
-    for i in range(n):
-        Ph[0, i, i] = 1.0
-    copy_pair(Yh, Yl, Ph[1], Pl[1])
-    # powers of Y, and Horner steps, with the sparser factor on the left (its zero
-    # entries are skipped; everything here is a polynomial in Y, so the factors commute)
-    for q in range(2, s + 1):
-        product(Yh, Yl, Ph[q - 1], Pl[q - 1], Ph[q], Pl[q], dd)
-    # Horner in Y^s over the blocks sum_l c_(i s + l) Y^l
-    fill(Th, 0.0)
-    fill(Tl, 0.0)
-    for blk in range(r, -1, -1):
-        if blk < r:
-            product(Ph[s], Pl[s], Th, Tl, Wh, Wl, dd)
-            copy_pair(Wh, Wl, Th, Tl)
-        for q in range(s):
-            _scale_add(Th, Tl, Ph[q], Pl[q], ih[blk * s + q], il[blk * s + q], dd)
-    # factor exp(-sigma t / 2^j), then the squarings
-    if dd:
-        for a in range(n):
-            for b in range(n):
-                p, e = two_prod(eh, Th[a, b])
-                e += eh * Tl[a, b] + el * Th[a, b]
-                hi = p + e
-                Tl[a, b] = e - (hi - p)
-                Th[a, b] = hi
-    else:
-        for a in range(n):
-            for b in range(n):
-                Th[a, b] *= eh
-    for _ in range(j):
-        product(Th, Tl, Th, Tl, Wh, Wl, dd)
-        copy_pair(Wh, Wl, Th, Tl)
-    copy_pair(Th, Tl, Fh, Fl)
-
-
-@njit(**_JIT)
-def exponentials(A, Al, t, sigma, sigma_lo, j, s, r, ih, il, dd, Fh, Fl, Y, P, M):
+def exponentials(
+    A, Al, t, sigma, sigma_lo, j, s, r, ih, il, dd, Fh, Fl, Y, P, M, power, coef, tiny, ratio
+):
     r"""Exponentials ``exp(t_q (A_q + Al_q))`` of a stack sharing one plan, shift and scale inside.
 
     ``A + Al`` (b, n, n) essentially nonnegative, a double-double pair (``Al`` zero for a
     matrix given in doubles); ``sigma + sigma_lo`` the shifts (:func:`shift_and_norm`);
     ``ih + il`` the inverse factorials.  The shifted diagonal :math:`\sigma - q_i` is
     formed in double-double from the exact outflow :math:`q_i`, so a large outflow does
-    not leave a rounding error that acts like a leak over long times.  Writes ``Fh``,
-    ``Fl`` and the scaled shifted matrices ``Y = t B / 2^j`` (double).  ``P``
-    (2, s + 1, n, n) and ``M`` (6, n, n) are scratch space (see :func:`scratch`).
+    not leave a rounding error that acts like a leak over long times.  Per member:
+
+    1. ``Y = t B / 2^j`` (written to ``Y``, double) and the factor
+       :math:`e^{-\sigma t / 2^j}`;
+    2. the Taylor polynomial :math:`T_m(Y)` of degree ``m = s (r + 1) - 1`` by
+       Paterson-Stockmeyer (powers ``Y^0 .. Y^s``, then Horner in ``Y^s``), times the
+       factor, squared ``j`` times, written to ``Fh``, ``Fl``;
+    3. ``ratio[q]``, the largest ``(coef Y^power F)_ab / F_ab`` over the entries
+       ``F_ab > tiny`` (plain double), for the a posteriori truncation bound.
+
+    ``P`` (2, s + 1, n, n) and ``M`` (6, n, n) are scratch space (see :func:`scratch`;
+    fresh memory per member made the double route twice as slow).
     """
+    # One body on purpose, longer than the usual limit: numba compiles every kernel
+    # called from Python with all it calls, and one body compiles faster than the same
+    # code in inlined helpers (benchmarks/bench_first_use.py).
     b, n, _ = A.shape
+    plain = dd and not dd  # false, as a variable: product() keeps a single signature
     scale = 2.0**-j
-    Yh, Yl, Th, Tl, Wh, Wl = M[0], M[1], M[2], M[3], M[4], M[5]
     Ph, Pl = P[0], P[1]
+    Yh, Yl = Ph[1], Pl[1]  # Y is the first power
+    Th, Tl, Wh, Wl = M[2], M[3], M[4], M[5]  # Horner sum and product (swapped, not copied)
+    zero, G, W, Z = M[0], M[1], M[2], M[3]  # the truncation check (after the sum is stored)
+    fill(Ph[0], 0.0)  # Y^0
+    fill(Pl[0], 0.0)
+    for i in range(n):
+        Ph[0, i, i] = 1.0
     for q in range(b):
+        # 1. Y and the factor
         tt = t[q] * scale  # exact: power-of-two scaling
         for a in range(n):
             for c in range(n):
@@ -391,73 +349,123 @@ def exponentials(A, Al, t, sigma, sigma_lo, j, s, r, ih, il, dd, Fh, Fl, Y, P, M
                     Yh[a, c] = (xh + xl) * tt
                     Yl[a, c] = 0.0
         copy(Yh, Y[q])
-        # the factor exp(-sigma t / 2^j); sigma t by TwoProduct, the scaling exact
+        # sigma t by TwoProduct, the scaling exact
         xh, xl = two_prod(sigma[q], t[q])
         xl += sigma_lo[q] * t[q]
         if dd:
             eh, el = dd_exp(-xh * scale, -xl * scale)
         else:
             eh, el = np.exp(-(xh + xl) * scale), 0.0
-        _exponential(Yh, Yl, ih, il, s, r, eh, el, j, dd, Fh[q], Fl[q], Ph, Pl, Th, Tl, Wh, Wl)
-
-
-@njit(**_JIT)
-def truncation_ratios(Y, F, power, coef, tiny, M, plain):
-    """Largest ``(coef Y^power F)_ab / F_ab`` per member (entries ``F_ab > tiny``).
-
-    ``M`` (at least 4, n, n) is scratch space (see :func:`scratch`); ``plain`` is
-    ``np.bool_(False)`` (the products are in plain double; a flag rather than the literal
-    ``False`` so that :func:`product` is compiled once for both uses).
-    """
-    b, n, _ = Y.shape
-    out = np.zeros(b)
-    zero, G, W, Z = M[0], M[1], M[2], M[3]
-    fill(zero, 0.0)
-    for q in range(b):
-        # G = Y^power by binary powering (nonnegative, plain double)
+        # 2. powers of Y, and Horner steps, with the sparser factor on the left (its zero
+        # entries are skipped; everything here is a polynomial in Y, so the factors commute)
+        for k in range(2, s + 1):
+            product(Yh, Yl, Ph[k - 1], Pl[k - 1], Ph[k], Pl[k], dd)
+        # Horner in Y^s over the blocks sum_l c_(i s + l) Y^l
+        fill(Th, 0.0)
+        fill(Tl, 0.0)
+        for blk in range(r, -1, -1):
+            if blk < r:
+                product(Ph[s], Pl[s], Th, Tl, Wh, Wl, dd)
+                Th, Wh = Wh, Th
+                Tl, Wl = Wl, Tl
+            # T += c_(blk s + k) Y^k (nonnegative terms)
+            for k in range(s):
+                ch = ih[blk * s + k]
+                cl = il[blk * s + k]
+                if not dd:  # the route is decided outside the loops: the plain one vectorises
+                    for a in range(n):
+                        for c in range(n):
+                            Th[a, c] += ch * Ph[k, a, c]
+                    continue
+                for a in range(n):
+                    for c in range(n):
+                        p, e = two_prod(ch, Ph[k, a, c])
+                        e += ch * Pl[k, a, c] + cl * Ph[k, a, c]
+                        sm, f = two_sum(Th[a, c], p)
+                        f += Tl[a, c] + e
+                        hi = sm + f
+                        Tl[a, c] = f - (hi - sm)
+                        Th[a, c] = hi
+        # times the factor, then the squarings
+        if dd:
+            for a in range(n):
+                for c in range(n):
+                    p, e = two_prod(eh, Th[a, c])
+                    e += eh * Tl[a, c] + el * Th[a, c]
+                    hi = p + e
+                    Tl[a, c] = e - (hi - p)
+                    Th[a, c] = hi
+        else:
+            for a in range(n):
+                for c in range(n):
+                    Th[a, c] *= eh
+        for _ in range(j):
+            product(Th, Tl, Th, Tl, Wh, Wl, dd)
+            Th, Wh = Wh, Th
+            Tl, Wl = Wl, Tl
+        copy(Th, Fh[q])
+        copy(Tl, Fl[q])
+        # 3. G = Y^power by binary powering, then G F (nonnegative, plain double)
+        F = Fh[q]
+        fill(zero, 0.0)
         fill(G, 0.0)
         for i in range(n):
             G[i, i] = 1.0
         copy(Y[q], W)
-        e = power
-        while e > 0:
-            if e & 1:
+        bits = power
+        while bits > 0:
+            if bits & 1:
                 product(G, zero, W, zero, Z, zero, plain)
                 copy(Z, G)
-            e >>= 1
-            if e:
+            bits >>= 1
+            if bits:
                 product(W, zero, W, zero, Z, zero, plain)
                 copy(Z, W)
-        product(G, zero, F[q], zero, Z, zero, plain)
+        product(G, zero, F, zero, Z, zero, plain)
         worst = 0.0
         for a in range(n):
             for c in range(n):
                 g = coef * Z[a, c]
-                f = F[q, a, c]
+                f = F[a, c]
                 if f > tiny:
-                    ratio = g / f
+                    rq = g / f
                 elif g > tiny:
-                    ratio = np.inf
+                    rq = np.inf
                 else:
-                    ratio = 0.0
-                if ratio > worst:
-                    worst = ratio
-        out[q] = worst
-    return out
+                    rq = 0.0
+                if rq > worst:
+                    worst = rq
+        ratio[q] = worst
 
 
 @njit(**_JIT)
-def grid_steps(Fh, Fl, x0h, x0l, columns, skip, dd, X, row0):
-    """States ``F^k x0`` for ``k = 0 .. columns - 1`` by repeated products, per member.
+def grid(
+    Fh, Fl, x0h, x0l, columns, skip, dd, X, row0, eps, gamma, start_bound, bound, times,
+    t_first, dt, residual,
+):  # fmt: skip
+    r"""A uniform time grid: the states, their error bounds and the time residuals.
 
-    Each state is one product ``x_{k+1} = F x_k`` (as the row ``x_k^T F^T``, so that the
-    inner loop runs over contiguous entries), in double-double for members with ``dd``:
-    TwoProduct with the Veltkamp halves of :math:`F^T` computed once, TwoSum of the
-    running sums (Ogita, Rump & Oishi's ``Dot2``).  This costs ``columns`` matrix-vector
-    products and no squarings (doubling ``F`` would add one ``N^3`` product per level).
-    State ``k >= skip`` is rounded to double and written to ``X[q, row0 + k - skip, :]``
-    (``X`` has shape (b, p, N)).
+    1. States ``F^k x0`` for ``k = 0 .. columns - 1`` by repeated products, per member.
+       Each state is one product ``x_{k+1} = F x_k`` (as the row ``x_k^T F^T``, so that
+       the inner loop runs over contiguous entries), in double-double for members with
+       ``dd``: TwoProduct with the Veltkamp halves of :math:`F^T` computed once, TwoSum
+       of the running sums (Ogita, Rump & Oishi's ``Dot2``).  This costs ``columns``
+       matrix-vector products and no squarings (doubling ``F`` would add one ``N^3``
+       product per level).  State ``k >= skip`` is rounded to double and written to
+       ``X[q, row0 + k - skip, :]`` (``X`` has shape (b, p, N)).
+    2. Their bounds, written to ``bound[q, row0 + k - skip]``: each product with
+       :math:`F` (bound :math:`\epsilon`) in arithmetic with product error
+       :math:`\gamma` multiplies the relative error by :math:`(1 + \epsilon)(1 +
+       \gamma)`, so state ``k`` has :math:`(1 + s)\,((1 + \epsilon)(1 + \gamma))^k - 1`
+       with ``s`` the bound of the start state (``start_bound``; relative errors of
+       nonnegative factors multiply).
+    3. ``residual[k] = times[k] - T_k`` for ``k >= row0``, the exact times the grid
+       reaches being ``T_k = t_first + (k - row0) dt`` (or ``(k - row0 + 1) dt`` with
+       ``skip``), formed with TwoProduct so that the residual is exact up to one
+       rounding of a tiny number.
     """
+    # One body on purpose, longer than the usual limit (see exponentials).
+    # 1. states
     b, N, _ = Fh.shape
     Th = np.empty((N, N))  # F^T and its Veltkamp halves
     Tl = np.empty((N, N))
@@ -482,7 +490,8 @@ def grid_steps(Fh, Fl, x0h, x0l, columns, skip, dd, X, row0):
             vl[i] = x0l[q, i]
         if skip == 0:
             for i in range(N):
-                X[q, row0, i] = max(vh[i] + vl[i], 0.0)
+                x = vh[i] + vl[i]
+                X[q, row0, i] = 0.0 if 0.0 > x else x  # max(x, 0.0)
         for k in range(1, columns):
             for j in range(N):
                 sh[j] = 0.0
@@ -522,19 +531,9 @@ def grid_steps(Fh, Fl, x0h, x0l, columns, skip, dd, X, row0):
                     vl[j] = 0.0
             if k >= skip:
                 for i in range(N):
-                    X[q, row0 + k - skip, i] = max(vh[i] + vl[i], 0.0)
-
-
-@njit(**_JIT)
-def grid_bounds(eps, gamma, columns, skip, start_bound, bound, row0):
-    r"""Error bounds of the states of :func:`grid_steps`, per member.
-
-    Each product with :math:`F` (bound :math:`\epsilon`) in arithmetic with product
-    error :math:`\gamma` multiplies the relative error by :math:`(1 + \epsilon)(1 +
-    \gamma)`: state ``k`` has :math:`(1 + s)\,((1 + \epsilon)(1 + \gamma))^k - 1` with
-    ``s`` the bound of the start state (relative errors of nonnegative factors
-    multiply).
-    """
+                    x = vh[i] + vl[i]
+                    X[q, row0 + k - skip, i] = 0.0 if 0.0 > x else x  # max(x, 0.0)
+    # 2. bounds
     for q in range(eps.shape[0]):
         step = eps[q] + gamma[q] + eps[q] * gamma[q]
         acc = start_bound[q]
@@ -543,6 +542,14 @@ def grid_bounds(eps, gamma, columns, skip, start_bound, bound, row0):
                 acc = acc + step + acc * step
             if k >= skip:
                 bound[q, row0 + k - skip] = acc
+    # 3. time residuals
+    for k in range(row0, times.shape[0]):
+        steps = float(k - row0 + skip)
+        p, e = two_prod(steps, dt)
+        base = 0.0 if skip else t_first
+        s, f = two_sum(base, p)
+        f += e
+        residual[k] = (times[k] - s) - f
 
 
 @njit(**_JIT)
@@ -593,25 +600,11 @@ def squared_bound(eps, gamma):
     .. math:: \epsilon' = 2\epsilon + \epsilon^2 + \gamma (1 + \epsilon)^2
 
     (Xue & Ye 2013, Theorem 3.2), with :math:`\gamma` the relative error of one
-    nonnegative product in the route's arithmetic.
+    nonnegative product in the route's arithmetic.  Python calls the same formula
+    uncompiled (``squared_bound.py_func``): a kernel for one scalar costs compilation on
+    first use and a slower call; the square as a product rounds alike in both.
     """
-    return 2.0 * eps + eps * eps + gamma * (1.0 + eps) ** 2
-
-
-@njit(**_JIT)
-def grid_residuals(times, start, t_first, dt, skip, out):
-    """``out[k] = times[k] - T_k`` for the exact times ``T_k`` the grid route reaches.
-
-    ``T_k = t_first + (k - start) dt`` (or ``(k - start + 1) dt`` with ``skip``), formed
-    with TwoProduct so that the residual is exact up to one rounding of a tiny number.
-    """
-    for k in range(start, times.shape[0]):
-        steps = float(k - start + skip)
-        p, e = two_prod(steps, dt)
-        base = 0.0 if skip else t_first
-        s, f = two_sum(base, p)
-        f += e
-        out[k] = (times[k] - s) - f
+    return 2.0 * eps + eps * eps + gamma * ((1.0 + eps) * (1.0 + eps))
 
 
 @njit(**_JIT)
@@ -671,5 +664,6 @@ def residual_corrections(A, X, delta, species, gamma, tiny, bound):
                     worst = e
             if largest <= 1e-3:
                 for i in range(N):
-                    X[q, k, i] = max(X[q, k, i] + d * y[i], 0.0)
+                    x = X[q, k, i] + d * y[i]
+                    X[q, k, i] = 0.0 if 0.0 > x else x  # max(x, 0.0)
             bound[q, k] = bound[q, k] + worst + bound[q, k] * worst

@@ -3,7 +3,7 @@ r"""The exponential of one interval for the block route (private).
 :class:`Layout` holds a scheme in block order (strongly connected components of
 the species reachable from the start, topologically sorted, in tiles of columns);
 :class:`Interval` computes :math:`F = e^{hK}` on it as described in
-:mod:`kinetics._blocks` (column Taylor sum, exact diagonal blocks, panel squarings)
+:mod:`kinetics.engine.blocks` (column Taylor sum, exact diagonal blocks, panel squarings)
 together with the parts of the certificate that belong to one interval: the error
 per block crossing, the double-double error of the diagonal blocks per step, the
 absolute (underflow, flushing) part and the truncation operator
@@ -298,7 +298,7 @@ class Interval:
 
     def _taylor(self, factor: float):
         """Panels of ``factor * T_m(Y)`` (column tiles; rows from the tile start)."""
-        from kinetics import _block_kernels as bk
+        from kinetics.engine import block_kernels as bk
 
         lay, Y = self.lay, self.Y
         indptr, indices = self.indptr, self.indices
@@ -324,7 +324,7 @@ class Interval:
 
     def _diagonal_levels(self, h: float) -> list[dict]:
         """Exact diagonal blocks of ``exp(h 2^(i-j) K)`` for ``i = 0 .. j``."""
-        from kinetics import _block_kernels as bk
+        from kinetics.engine import block_kernels as bk
 
         lay, j = self.lay, self.squarings
         s = lay.singles
@@ -398,7 +398,7 @@ class Interval:
 
     def apply_truncation(self, v: np.ndarray) -> np.ndarray:
         """Upper bound of :math:`2^j G v`, :math:`G = Y^{m+1}/(m+1)!` (nonnegative ``v``)."""
-        from kinetics import _block_kernels as bk
+        from kinetics.engine import block_kernels as bk
 
         out, work = np.empty(v.size), np.empty(v.size)
         bk.power_apply(self.indptr, self.indices, self.Y.data, v, self.m + 1,
@@ -452,7 +452,7 @@ def square(panels: list, bounds: np.ndarray) -> list:
 
 def dd_scalar_exp(sigma: float, t: float) -> tuple[float, float]:
     """``exp(-sigma t)`` as a double-double pair."""
-    from kinetics import _block_kernels as bk
+    from kinetics.engine import block_kernels as bk
 
     oh, ol = np.empty(1), np.empty(1)
     bk.singleton_exponentials(np.array([sigma]), np.zeros(1), t, oh, ol)
@@ -498,8 +498,8 @@ def _group_levels(lay: Layout, start: int, size: int, h: float, j: int) -> list:
     """
     from scipy.sparse.csgraph import shortest_path
 
-    from kinetics import _block_kernels as bk
-    from kinetics import _kernels
+    from kinetics.engine import block_kernels as bk
+    from kinetics.engine import kernels
 
     sigma, Yh, Yl, y = _dd_block(lay, start, size, h, j)
     flag = np.bool_(True)
@@ -514,7 +514,7 @@ def _group_levels(lay: Layout, start: int, size: int, h: float, j: int) -> list:
         bk.dd_add_identity(Th, Tl)
         Ph, Pl = np.empty_like(Th), np.empty_like(Th)
         for k in range(m, 0, -1):
-            _kernels.product(Yh, Yl, Th, Tl, Ph, Pl, flag)
+            kernels.product(Yh, Yl, Th, Tl, Ph, Pl, flag)
             bk.dd_divide(Ph, Pl, k)
             bk.dd_add_identity(Ph, Pl)
             Th, Tl, Ph, Pl = Ph, Pl, Th, Tl
@@ -529,7 +529,7 @@ def _group_levels(lay: Layout, start: int, size: int, h: float, j: int) -> list:
     out = [(Th, Tl, compose(eps, trunc))]
     for i in range(1, j + 1):
         Fh, Fl = np.empty_like(Th), np.empty_like(Th)
-        _kernels.product(Th, Tl, Th, Tl, Fh, Fl, flag)
+        kernels.product(Th, Tl, Th, Tl, Fh, Fl, flag)
         eps = 2 * eps + eps * eps + gdd * (1 + eps) ** 2
         out.append((Fh, Fl, compose(eps, min(1.0, 2.0**i * trunc))))
         Th, Tl = Fh, Fl

@@ -1,6 +1,6 @@
 """Input checks of the propagation engine: one home for each check and its wording.
 
-Every public function of the engine (:mod:`kinetics.propagate`,
+Every public function of the engine (:mod:`kinetics.engine.propagate`,
 :mod:`kinetics.sensitivity`) validates its arrays here, so a mistake gets the same
 message whichever function received it.
 """
@@ -70,11 +70,11 @@ def rate_matrix(K, allow_sparse: bool = True):
 
 def offdiagonal_nonnegative(K) -> None:
     """Refuse a stack (b, n, n) with a non-finite entry or a negative off-diagonal."""
-    from kinetics import _kernels
+    from kinetics.engine import kernels
 
     if not np.isfinite(K).all():
         raise UsageError("rate matrix has a non-finite entry")
-    if _kernels.negative_offdiagonal(np.ascontiguousarray(K)):
+    if kernels.negative_offdiagonal(np.ascontiguousarray(K)):
         raise UsageError(
             "rate matrix has a negative off-diagonal entry",
             "off-diagonal entries are rates of formation and must be >= 0",

@@ -1,6 +1,6 @@
 r"""Compiled loops of the block-triangular route (private; numba).
 
-:mod:`kinetics._blocks` keeps the plans, the tiles and the error bounds; the loops
+:mod:`kinetics.engine.blocks` keeps the plans, the tiles and the error bounds; the loops
 that touch every nonzero of a large sparse scheme live here:
 
 * :func:`column_taylor` -- the Taylor polynomial
@@ -18,7 +18,7 @@ that touch every nonzero of a large sparse scheme live here:
 * :func:`taylor_apply` -- :math:`\sum_{k=1}^m (sY)^k v/k!` for a short correction step.
 
 The double-double primitives (TwoProduct, TwoSum, the exponential) are those of
-:mod:`kinetics._kernels`; the rules of that module hold here too (strict IEEE, no
+:mod:`kinetics.engine.kernels`; the rules of that module hold here too (strict IEEE, no
 ``fastmath``, ``cache=True``, ``nogil=True``, no slice assignments in kernels).
 
 All operands are nonnegative, so a sum of ``d`` products carries a relative
@@ -30,7 +30,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-from kinetics._kernels import dd_exp, two_prod, two_sum
+from kinetics.engine.kernels import dd_exp, two_prod, two_sum
 
 _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
 

@@ -49,7 +49,7 @@ scaled by a power of two so that its largest start value is about one.
 
 **Route.**  :func:`route_costs` predicts the seconds of this route and of the dense
 engine from operation counts and measured rates (:data:`RATES`,
-``benchmarks/calibrate_routes.py``); :mod:`kinetics.propagate` takes the cheaper.
+``benchmarks/calibrate_routes.py``); :mod:`kinetics.engine.propagate` takes the cheaper.
 
 **Certificate** (per time point, relative, for every concentration whose exact
 value is above ``floor``; relative errors composed as :math:`\prod(1+\epsilon_i) - 1`):
@@ -106,7 +106,8 @@ from fractions import Fraction
 import numpy as np
 import scipy.sparse
 
-from kinetics._block_exp import (
+from kinetics._doubledouble import DD_UNIT
+from kinetics.engine.block_exp import (
     UNIT,
     Interval,
     Layout,
@@ -117,7 +118,6 @@ from kinetics._block_exp import (
     power,
     taylor_plan,
 )
-from kinetics._doubledouble import DD_UNIT
 
 __all__ = ["RATES", "block_order", "prefers_blocks", "propagate_blocks", "route_costs"]
 
@@ -184,7 +184,7 @@ def _grid(times: np.ndarray):
     only (``in_place`` False).  Other grids step from each time to the next and
     correct the walk itself.
     """
-    from kinetics import _kernels
+    from kinetics.engine import kernels
 
     p = times.size
     h, delta, residual = np.zeros(p), np.zeros(p), np.zeros(p)
@@ -193,7 +193,7 @@ def _grid(times: np.ndarray):
     dt = -1.0
     if rest.size >= 3:
         tol = 4 * UNIT * float(rest[-1])
-        dt = _kernels.uniform_step(np.ascontiguousarray(rest), tol)
+        dt = kernels.uniform_step(np.ascontiguousarray(rest), tol)
         if dt > 0 and abs(float(rest[0]) - dt) > tol:
             dt = -1.0  # uniform, but not from 0
     if dt > 0:
@@ -239,7 +239,7 @@ class _Walk:
 
     def step(self, h: float) -> None:
         """Advance the state by ``h`` (> 0)."""
-        from kinetics import _block_kernels as bk
+        from kinetics.engine import block_kernels as bk
 
         if h not in self.cache:
             self.cache[h] = Interval(self.lay, h, self.boost)
@@ -263,12 +263,12 @@ class _Walk:
         self._truncation(iv)
 
     def _group_step(self, start, size, Fh, Fl, coupling, nh, nl) -> None:
-        from kinetics import _block_kernels as bk
-        from kinetics import _kernels
+        from kinetics.engine import block_kernels as bk
+        from kinetics.engine import kernels
 
         sl = slice(start, start + size)
         oh, ol = np.empty((size, 1)), np.empty((size, 1))
-        _kernels.product(Fh, Fl, self.xh[sl, None].copy(), self.xl[sl, None].copy(), oh, ol,
+        kernels.product(Fh, Fl, self.xh[sl, None].copy(), self.xl[sl, None].copy(), oh, ol,
                          np.bool_(True))  # fmt: skip
         one = np.ones(size)
         idx = np.arange(size)
@@ -294,7 +294,7 @@ class _Walk:
         terms carry at most ``eps`` relative, and they are at most ``ratio`` of the
         state they are added to.
         """
-        from kinetics import _block_kernels as bk
+        from kinetics.engine import block_kernels as bk
 
         lay = self.lay
         B, beta, rows = lay.shifted()
@@ -410,7 +410,7 @@ def propagate_blocks(K, c0, times, feed, *, K_low=None, feed_low=None, floor=Non
     Parameters
     ----------
     K : scipy.sparse matrix or ndarray, shape (n, n)
-        Rate matrix [1/s] (already checked by :mod:`kinetics.propagate`).
+        Rate matrix [1/s] (already checked by :mod:`kinetics.engine.propagate`).
     c0 : ndarray, shape (n,)
         Initial concentrations [conc], >= 0.
     times : ndarray, shape (p,)
@@ -440,7 +440,7 @@ def propagate_blocks(K, c0, times, feed, *, K_low=None, feed_low=None, floor=Non
     from threadpoolctl import threadpool_limits
 
     if floor is None:
-        from kinetics.propagate import TINY as floor
+        from kinetics.engine.plan import TINY as floor
     with threadpool_limits(limits=1, user_api="blas"):
         K_low, feed_low = _low_parts(K_low, feed_low, K.shape[0], feed is not None)
         return _propagate(K, c0, times, feed, K_low, feed_low, float(floor))
@@ -449,7 +449,7 @@ def propagate_blocks(K, c0, times, feed, *, K_low=None, feed_low=None, floor=Non
 def _low_parts(K_low, feed_low, n: int, fed: bool):
     """Checked low parts: sparse ``K_low`` kept sparse (shape, finite), others by
     :func:`kinetics.checks.low_parts`."""
-    from kinetics import checks
+    from kinetics.engine import checks
     from kinetics.errors import UsageError
 
     if K_low is not None:

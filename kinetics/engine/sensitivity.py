@@ -1,0 +1,298 @@
+r"""Derivatives of the concentrations with respect to parameters: the Fréchet derivative.
+
+For :math:`K(\theta)` the sensitivity :math:`s = \partial c/\partial\theta` obeys
+:math:`s' = K s + (\partial K/\partial\theta) c` with :math:`s(0) = \partial c_0/\partial\theta`:
+it is the Fréchet derivative of the matrix exponential, and the block-triangular
+exponential of Van Loan (1978) gives it exactly, with no finite differences.  Two
+routes, one home:
+
+* :func:`sensitivities`, entrywise and certified piece by piece: the direction is split
+  into its nonnegative parts and a nonnegative system of size :math:`3n` goes through
+  the entrywise engine of :mod:`kinetics.engine.propagate`;
+* :func:`block_sensitivities`, every direction at once in one block matrix and a
+  scaling-and-squaring exponential of a matrix with entries of both signs: the fast
+  route of the fit's Jacobian.
+
+References
+----------
+C. Van Loan, "Computing integrals involving the matrix exponential", IEEE Trans.
+Automat. Control 23, 395-404 (1978). doi:10.1109/TAC.1978.1101743
+A. H. Al-Mohy, N. J. Higham, "Computing the Fréchet derivative of the matrix
+exponential, with an application to condition number estimation", SIAM J. Matrix
+Anal. Appl. 30, 1639-1657 (2009). doi:10.1137/080716426
+C. Moler, C. Van Loan, "Nineteen dubious ways to compute the exponential of a matrix,
+twenty-five years later", SIAM Review 45, 3-49 (2003). doi:10.1137/S00361445024180
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from kinetics.engine import checks
+from kinetics.engine.propagate import propagate_batch
+from kinetics.errors import UsageError
+
+__all__ = ["block_sensitivities", "sensitivities"]
+
+
+@checks.guard_growth
+def sensitivities(
+    K,
+    c0,
+    times,
+    directions,
+    feed=None,
+    *,
+    precision: str = "auto",
+    K_low=None,
+    feed_low=None,
+) -> np.ndarray:
+    r"""Directional derivatives :math:`\partial c(t)/\partial\theta` along ``dK``.
+
+    For :math:`K(\theta) = K + \theta E` the sensitivity
+    :math:`s = \partial c/\partial\theta` obeys :math:`s' = K s + E c`,
+    :math:`s(0) = 0`, i.e. it is the Frechet derivative of the exponential,
+
+    .. math::
+
+        s(t) = L(tK, tE)\, c_0 + \dots, \qquad
+        \exp\begin{bmatrix} tK & tE \\ 0 & tK \end{bmatrix}
+        = \begin{bmatrix} e^{tK} & L(tK, tE) \\ 0 & e^{tK} \end{bmatrix}.
+
+    ``E`` has both signs (a rate constant appears with ``-1`` on the diagonal),
+    so it is split as :math:`E = E^+ - E^-` with :math:`E^\pm \ge 0` and the
+    nonnegative system of size :math:`3n`
+
+    .. math::
+
+        \frac{d}{dt}\begin{bmatrix} s^+ \\ s^- \\ c \end{bmatrix} =
+        \begin{bmatrix} K & 0 & E^+ \\ 0 & K & E^- \\ 0 & 0 & K \end{bmatrix}
+        \begin{bmatrix} s^+ \\ s^- \\ c \end{bmatrix} +
+        \begin{bmatrix} 0 \\ 0 \\ f \end{bmatrix}
+
+    is propagated with the entrywise engine; :math:`s = s^+ - s^-`.
+
+    Parameters
+    ----------
+    K : array_like, shape (n, n)
+        Rate matrix [1/s].
+    c0 : array_like, shape (n,)
+        Initial concentrations [conc].
+    times : array_like, shape (p,)
+        Times [s].
+    directions : array_like, shape (d, n, n)
+        Direction matrices :math:`E = \partial K/\partial\theta` [1/s per unit of
+        θ], e.g. the derivative of K with respect to one rate constant.
+    feed : array_like, shape (n,), optional
+        Zero-order feed [conc/s].
+    precision : {"auto", "double", "double-double"}
+        As in :func:`kinetics.propagate.propagate`.
+    K_low, feed_low : array_like, optional
+        Low-order parts of double-double inputs (see
+        :func:`kinetics.propagate.propagate_certified`).
+
+    Returns
+    -------
+    ndarray, shape (d, p, n)
+        :math:`\partial c/\partial\theta` [conc per unit of θ].
+
+    Notes
+    -----
+    :math:`s^+` and :math:`s^-` are each accurate entry by entry; their
+    difference carries an absolute error of about the rounding unit times
+    :math:`s^+ + s^-`.  Dense route (the 3n system must stay below a few
+    hundred species).
+
+    References
+    ----------
+    A. H. Al-Mohy, N. J. Higham, "Computing the Frechet derivative of the matrix
+    exponential, with an application to condition number estimation", SIAM J.
+    Matrix Anal. Appl. 30, 1639-1657 (2009) (block form; scipy's
+    ``expm_frechet``, used as a cross-check).
+    C. Van Loan, "Computing integrals involving the matrix exponential", IEEE
+    Trans. Automat. Control 23, 395-404 (1978).
+    """
+    K = checks.rate_matrix(K, allow_sparse=False)
+    n = K.shape[0]
+    c0 = checks.vector(c0, n, "initial concentrations")
+    times = checks.times(times)
+    f = None if feed is None else checks.vector(feed, n, "feed")
+    try:
+        E = np.array(directions, dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise UsageError(f"directions are not numeric: {exc}") from None
+    if E.ndim == 2:
+        E = E[None]
+    if E.ndim != 3 or E.shape[1:] != (n, n):
+        raise UsageError(f"directions must have shape (d, {n}, {n}), got {E.shape}")
+    if not np.all(np.isfinite(E)):
+        raise UsageError("directions have a non-finite entry")
+    d = E.shape[0]
+    if d == 0:
+        return np.zeros((0, times.size, n))
+    Ep = np.maximum(E, 0.0)
+    Em = np.maximum(-E, 0.0)
+    Kl = checks.low_parts(K_low, (n, n), "K_low")
+    big = np.zeros((d, 3 * n, 3 * n))
+    big_low = np.zeros((d, 3 * n, 3 * n))
+    for i in range(3):
+        big[:, i * n : (i + 1) * n, i * n : (i + 1) * n] = K
+        big_low[:, i * n : (i + 1) * n, i * n : (i + 1) * n] = Kl
+    big[:, :n, 2 * n :] = Ep
+    big[:, n : 2 * n, 2 * n :] = Em
+    x0 = np.zeros((d, 3 * n))
+    x0[:, 2 * n :] = c0
+    fb = fb_low = None
+    if f is not None:
+        fb = np.zeros((d, 3 * n))
+        fb[:, 2 * n :] = f
+        fb_low = np.zeros((d, 3 * n))
+        fb_low[:, 2 * n :] = checks.low_parts(feed_low, (n,), "feed_low")
+    X = propagate_batch(big, x0, times, fb, precision=precision, K_low=big_low, feed_low=fb_low)
+    return X[:, :, :n] - X[:, :, n : 2 * n]
+
+
+def _expm_signed(A: np.ndarray) -> np.ndarray:
+    """exp of a stack of small dense matrices: scaling, Taylor degree 16, squaring.
+
+    Scaled to a 1-norm of at most 1/2, the truncation error is below
+    :math:`0.5^{17}/17! \\approx 2\\cdot10^{-20}` (Moler & Van Loan 2003, method 3).
+    """
+    N = A.shape[1]
+    nu = np.abs(A).sum(axis=1).max(axis=1)
+    with np.errstate(divide="ignore"):
+        s = np.ceil(np.log2(np.maximum(nu, 1e-300) / 0.5))
+    s = np.maximum(s, 0).astype(int)
+    Y = A / np.ldexp(1.0, s)[:, None, None]
+    eye = np.eye(N)
+    X = eye + Y / 16.0
+    for k in range(15, 0, -1):  # Horner form of sum_k Y^k / k!
+        X = eye + (Y @ X) / k
+    for r in range(int(s.max(initial=0))):
+        mask = s > r
+        if mask.all():
+            X = X @ X
+        else:
+            X[mask] = X[mask] @ X[mask]
+    return X
+
+
+def _group_steps(steps: np.ndarray, rtol: float = 1e-13) -> tuple[np.ndarray, np.ndarray]:
+    """Distinct time steps, merging those equal up to a few units of rounding.
+
+    A grid such as ``numpy.linspace`` has steps that differ in their last bits;
+    one exponential then serves them all (the time error is below ``rtol`` of a
+    step).
+    """
+    order = np.argsort(steps, kind="stable")
+    sorted_steps = steps[order]
+    new_group = np.ones(steps.size, dtype=bool)
+    if steps.size > 1:
+        new_group[1:] = np.diff(sorted_steps) > rtol * np.abs(sorted_steps[1:])
+    group = np.cumsum(new_group) - 1
+    starts = np.flatnonzero(new_group)
+    which = np.empty(steps.size, dtype=int)
+    which[order] = group
+    return sorted_steps[starts], which
+
+
+def block_sensitivities(
+    K: np.ndarray,
+    c0: np.ndarray,
+    times: np.ndarray,
+    directions: np.ndarray | None = None,
+    feed: np.ndarray | None = None,
+    start_vectors: np.ndarray | None = None,
+) -> tuple[np.ndarray, np.ndarray]:
+    r"""Concentrations and their exact derivatives on a time grid.
+
+    .. math::
+
+        \frac{d}{dt}\begin{bmatrix} c \\ s_1 \\ \vdots \\ s_q \end{bmatrix} =
+        \begin{bmatrix} K & & & \\ E_1 & K & & \\ \vdots & & \ddots & \\
+        E_q & & & K \end{bmatrix}
+        \begin{bmatrix} c \\ s_1 \\ \vdots \\ s_q \end{bmatrix}
+        + \begin{bmatrix} f \\ 0 \\ \vdots \\ 0 \end{bmatrix}
+
+    propagated interval by interval with the exponential of the block matrix
+    (Van Loan 1978), which gives :math:`s_j(t) = \partial c(t)/\partial\theta_j`
+    for :math:`\partial K/\partial\theta_j = E_j` exactly (the Fréchet derivative
+    of the matrix exponential, no finite differences).
+
+    Parameters
+    ----------
+    K : numpy.ndarray, shape (n, n)
+        Rate matrix [1/s].
+    c0 : numpy.ndarray, shape (n,)
+        Start concentrations [conc].
+    times : numpy.ndarray, shape (m,)
+        Times [s], >= 0, nondecreasing.
+    directions : numpy.ndarray, shape (q, n, n), optional
+        :math:`E_j = \partial K/\partial\theta_j` [1/s per unit of θ].
+    feed : numpy.ndarray, shape (n,), optional
+        Zero-order feed [conc/s].
+    start_vectors : numpy.ndarray, shape (r, n), optional
+        Derivatives of the start vector :math:`\partial c_0/\partial\phi_i` for
+        parameters that enter only the start values [conc per unit of φ].
+
+    Returns
+    -------
+    c : numpy.ndarray, shape (m, n)
+        Concentrations [conc].
+    S : numpy.ndarray, shape (q + r, m, n)
+        Derivatives: first along each direction, then along each start vector.
+
+    Notes
+    -----
+    Accuracy is that of a scaling-and-squaring exponential of a matrix with entries
+    of both signs (about 1e-13 relative to the largest entry), ample for a Jacobian
+    and 6-10 times faster than :func:`sensitivities` on the small schemes a fit
+    solves many times; the concentrations a fit reports are recomputed with the
+    entrywise engine (:func:`kinetics.propagate.propagate`).
+
+    References
+    ----------
+    C. Van Loan, IEEE Trans. Automat. Control 23, 395-404 (1978).
+    C. Moler, C. Van Loan, "Nineteen dubious ways to compute the exponential of a
+    matrix, twenty-five years later", SIAM Review 45, 3-49 (2003).
+    """
+    K = np.asarray(K, dtype=float)
+    n = K.shape[0]
+    E = np.zeros((0, n, n)) if directions is None else np.asarray(directions, dtype=float)
+    q = E.shape[0]
+    V = np.zeros((0, n)) if start_vectors is None else np.asarray(start_vectors, dtype=float)
+    r = V.shape[0]
+    has_feed = feed is not None and np.any(np.asarray(feed) != 0)
+    N = n * (q + 1) + (1 if has_feed else 0)
+    B = np.zeros((N, N))
+    for j in range(q + 1):
+        B[j * n : (j + 1) * n, j * n : (j + 1) * n] = K
+    for j in range(q):
+        B[(j + 1) * n : (j + 2) * n, :n] = E[j]  # s_j' = K s_j + E_j c
+    X = np.zeros((N, 1 + r))
+    X[:n, 0] = c0
+    if has_feed:
+        B[:n, -1] = feed
+        X[-1, 0] = 1.0
+    for i in range(r):
+        X[:n, 1 + i] = V[i]
+    times = np.asarray(times, dtype=float)
+    steps = np.diff(np.concatenate([[0.0], times]))
+    unique, which = _group_steps(steps)
+    positive = unique > 0
+    F = np.empty((unique.size, N, N))
+    if np.any(positive):
+        with np.errstate(over="ignore", invalid="ignore"):
+            F[positive] = _expm_signed(unique[positive, None, None] * B[None])
+    out = np.empty((times.size, N, 1 + r))
+    for i in range(times.size):
+        if steps[i] > 0:
+            X = F[which[i]] @ X
+        out[i] = X
+    c = out[:, :n, 0]
+    S = np.empty((q + r, times.size, n))
+    for j in range(q):
+        S[j] = out[:, (j + 1) * n : (j + 2) * n, 0]
+    for i in range(r):
+        S[q + i] = out[:, :n, 1 + i]
+    return c, S
