@@ -140,9 +140,8 @@ def _final_state(solution: Solution, end: float) -> dict:
     s = stretches[-1]
     K, K_low, feed = s.K, s.K_low, s.feed
     c, time = s.start_values, s.start
-    after = solution.after
-    if after is not None and after[-1] and solution.times[-1] == end:
-        c, time = solution.concentrations[-1], end  # operations at the end of the window
+    if any(e.time == end for e in solution.events):
+        c, time = solution.concentrations[-1], end  # conditions change at the window's end
     steps = [e for e in solution.events if e.action == "temperature" and e.time == end]
     if steps and steps[-1].value is not None:
         K, K_low = scheme.with_values(temperature=steps[-1].value).rate_matrix_pair()
