@@ -15,6 +15,12 @@ A *parameter* is one input of a scheme that a sweep varies or a fit frees:
 ``start:A``, ``excess:W``
     The start concentration of a species, the concentration of a co-reactant held in
     excess (``start A`` with a space is read the same way).
+``t_q``, ``dose``, ``p_el``
+    A named quantity of the file that an operation uses (``at t_q: add A = dose``,
+    ``every t_el: remove p_el of D``): the time of an operation, an amount added, a volume
+    or a part removed (:attr:`kinetics.timeline.Timeline.names`).  In a scheme with
+    operations, any other named quantity too (kind ``quantity``: ``Ea_1`` of
+    ``k1 = arrhenius(A = ..., Ea = Ea_1)``); the constants defined from it follow.
 
 :func:`resolve` maps a name to its :class:`Target` (what it changes and the unit the file
 uses for it); :func:`check_unit` and :func:`to_internal` read values in a unit and convert
@@ -29,6 +35,8 @@ energy        J/mol                                            none: Ea is the d
 temperature   K                                                none: T is the double
 start         the scheme's concentration unit                  exact conversion
 excess        the scheme's concentration unit                  exact conversion
+operation     SI base units (s, mol/m^3, m^3; a pure number)   exact conversion
+quantity      SI base units                                    exact conversion
 ============  ===============================================  ==========================
 
 Values are converted with exact rational unit factors and kept as double-double pairs
@@ -80,9 +88,18 @@ __all__ = [
 ]
 
 #: Every kind of parameter, in the order of the table in the module docstring.
-ALL_KINDS = ("constant", "prefactor", "energy", "temperature", "start", "excess")
+ALL_KINDS = (
+    "constant",
+    "prefactor",
+    "energy",
+    "temperature",
+    "start",
+    "excess",
+    "operation",
+    "quantity",
+)
 #: The kinds a fit can free.
-FIT_KINDS = ("constant", "prefactor", "energy", "start")
+FIT_KINDS = ("constant", "prefactor", "energy", "start", "operation", "quantity")
 #: A decimal number as users write it (the values of ``--vary``, the number before a unit).
 NUMBER = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
 _NAME_START = re.compile(r"^(start|excess)\s*[:\s]\s*(?P<species>\S+)$")
@@ -171,6 +188,7 @@ class SweepWords:
     def unknown(self, scheme: Scheme, name: str) -> UsageError:
         constants = scheme.constants
         known = [*constants, "temperature", "start:<species>", "excess:<species>"]
+        known += list(scheme.timeline.names)
         return UsageError(
             f"{self.where}: {name!r} is not a rate constant or parameter of the scheme",
             self._did_you_mean(name, constants) + "parameters are " + ", ".join(known),
@@ -350,7 +368,21 @@ def resolve(scheme: Scheme, name: str, words) -> Target:
         if d.arrhenius is not None:
             raise words.whole_arrhenius(name)
         return Target(name, "constant", name, d.unit, name, float(d.value_si))
+    if "operation" in allowed and scheme.timeline and name in scheme.quantities:
+        return _operation_target(scheme, name)
     raise words.unknown(scheme, name)
+
+
+def _operation_target(scheme: Scheme, name: str) -> Target:
+    """A named quantity of a scheme with operations: its unit as written (or its SI unit);
+    kind ``operation`` when an operation uses it, else ``quantity``."""
+    from .units import si_unit
+
+    q = scheme.quantities[name]
+    unit = q.unit if q.unit else si_unit(dict(q.dims)) if q.dims else ""
+    nominal = float(q.value_si) if q.value_si is not None else float("nan")
+    kind = "operation" if name in scheme.timeline.names else "quantity"
+    return Target(name, kind, name, unit, name, nominal)
 
 
 def _species_target(scheme: Scheme, name: str, kind: str, species: str, words) -> Target:
@@ -517,8 +549,12 @@ def check_values(target: Target, internal: np.ndarray, where: str, hint: str) ->
         raise UsageError(f"{where}: a value is not a finite number", hint)
     if target.kind == "temperature" and np.any(internal <= 0):
         raise UsageError(f"{where}: a temperature is at or below absolute zero", "check the unit")
-    if target.kind in ("constant", "prefactor", "start", "excess") and np.any(internal < 0):
-        what = {"start": "a start concentration", "excess": "an excess concentration"}.get(
-            target.kind, "a rate constant"
-        )
+    if target.kind in ("constant", "prefactor", "start", "excess", "operation") and np.any(
+        internal < 0
+    ):
+        what = {
+            "start": "a start concentration",
+            "excess": "an excess concentration",
+            "operation": f"a value of {target.name}",
+        }.get(target.kind, "a rate constant")
         raise UsageError(f"{where}: {what} is negative", "give values >= 0")

@@ -53,9 +53,9 @@ GRID_HELP = (
     "{'k2': [0.02, 0.045, 0.09]}, or a range as text, e.g. {'k2': '0.01:1:25:log'}"
 )
 SPREAD_HELP = (
-    "write NAME=P% (lognormal for rate constants, A, start and excess values) or an "
-    "absolute standard deviation for temperature and Ea, e.g. k1=15%, temperature=2K, "
-    "k3.Ea=2kJ/mol"
+    "write NAME=P% (lognormal for rate constants, A, start and excess values and the "
+    "named quantities of operations) or an absolute standard deviation for temperature, "
+    "Ea and operation times, e.g. k1=15%, temperature=2K, k3.Ea=2kJ/mol, t_q=10min"
 )
 
 
@@ -396,7 +396,7 @@ def _parse_spread(scheme: Scheme, spec: str, where: str) -> Spread:
     if not name.strip() or not body:
         raise UsageError(f"{where} needs a name and a spread", SPREAD_HELP)
     target = parameters.resolve(scheme, name, SweepWords(where))
-    normal = target.kind in ("temperature", "energy")
+    normal = target.kind in ("temperature", "energy", "operation", "quantity")
     m = re.match(rf"^({NUMBER})\s*%$", body)
     if m:
         distribution, sigma, relative = _relative_spread(target, float(m[1]), where)
