@@ -56,7 +56,7 @@ from __future__ import annotations
 
 import difflib
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from decimal import Decimal
 from fractions import Fraction
 from typing import TYPE_CHECKING
@@ -84,6 +84,7 @@ __all__ = [
     "file_temperature_unit",
     "from_internal",
     "resolve",
+    "scheme_with",
     "to_internal",
 ]
 
@@ -383,6 +384,83 @@ def _operation_target(scheme: Scheme, name: str) -> Target:
     nominal = float(q.value_si) if q.value_si is not None else float("nan")
     kind = "operation" if name in scheme.timeline.names else "quantity"
     return Target(name, kind, name, unit, name, nominal)
+
+
+def scheme_with(
+    scheme: Scheme,
+    targets,
+    values,
+    lows=None,
+    *,
+    temperature: float | None = None,
+    initial: dict[str, float] | None = None,
+    given: dict | None = None,
+) -> Scheme:
+    """The scheme with new values of parameters of any kind (a sweep's set, a fit's
+    estimates), exactly.
+
+    Rate constants and named quantities go through :meth:`kinetics.scheme.Scheme.
+    with_values` as exact values (the constants defined from them, and the operations
+    whose numbers are named, follow); Arrhenius parameters replace ``A`` or ``Ea`` in the
+    constant's law, which stays a law (it follows the temperature of operations too).
+
+    Parameters
+    ----------
+    scheme : Scheme
+    targets : sequence of Target
+        What each value changes.
+    values : sequence of float
+        In internal units (see the module docstring).
+    lows : sequence of float, optional
+        Exact rests of ``values`` (double-double pairs).
+    temperature : float, optional
+        [K], unless a target sets it.
+    initial : dict of str to float, optional
+        Start values [concentration_unit] besides the targets.
+    given : dict of str to float or Fraction, optional
+        Other rate constants or named quantities [SI].
+
+    Examples
+    --------
+    >>> import kinetics
+    >>> s = kinetics.parse("A -> B  k = arrhenius(A = 1e10 1/s, Ea = 80 kJ/mol)\\n"
+    ...                    "temperature = 25 degC\\nstart A = 1 M")
+    >>> t = resolve(s, "k.Ea", FIT_WORDS)
+    >>> new = scheme_with(s, [t], [90e3])
+    >>> new.constants["k"].arrhenius.activation_energy
+    90000.0
+    """
+    lows = [0.0] * len(targets) if lows is None else lows
+    quantities = {n: Fraction(v) for n, v in (given or {}).items()}
+    start, excess, parts = dict(initial or {}), {}, {}
+    for t, v, lo in zip(targets, values, lows, strict=True):
+        exact = Fraction(float(v)) + Fraction(float(lo))
+        if t.kind == "temperature":
+            temperature = float(v)
+        elif t.kind == "start":
+            start[t.target] = float(v)
+        elif t.kind == "excess":
+            excess[t.target] = float(v)
+        elif t.kind in ("prefactor", "energy"):
+            parts.setdefault(t.target, {})[t.kind] = exact
+        else:  # a rate constant, a named quantity
+            quantities[t.target or t.name] = exact
+    new = scheme.with_values(
+        temperature=temperature, initial=start, excess=excess, quantities=quantities
+    )
+    if not parts:
+        return new
+    constants = dict(new.constants)
+    for name, part in parts.items():
+        old = constants[name]
+        law = old.arrhenius
+        law = replace(
+            law,
+            prefactor_si=part.get("prefactor", law.prefactor_si),
+            activation_energy=float(part.get("energy", law.activation_energy)),
+        )
+        constants[name] = replace(old, arrhenius=law, text=f"{old.text} (new A or Ea)")
+    return replace(new, constants=constants)
 
 
 def _species_target(scheme: Scheme, name: str, kind: str, species: str, words) -> Target:

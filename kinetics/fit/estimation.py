@@ -34,6 +34,7 @@ __all__ = [
     "SEARCH_DECADES",
     "START_DECADES",
     "START_ENERGY",
+    "START_OPERATION",
     "Linearised",
     "Search",
     "fit",
@@ -44,6 +45,11 @@ SEARCH_DECADES = 10.0
 #: Spread of the multi-start design around the start value (decades / RT_ref units).
 START_DECADES = 2.0
 START_ENERGY = 8.0
+#: Half-width of the start design for named quantities (operation times and amounts) in
+#: their logarithm: a factor of 2 either side.  An operation moved past a sample time
+#: makes the residuals jump, so a fit of an operation time needs a starting value in the
+#: file near the truth rather than a search over decades.
+START_OPERATION = math.log(2.0)
 _ENERGY_RANGE = (-100e3, 1000e3)  # J/mol, search range of an activation energy
 _EPS = np.finfo(float).eps
 _MAX_POLISHED = 8  # distinct optima polished at most
@@ -80,7 +86,11 @@ def _start_points(model, theta0, lower, upper, starts, seed) -> np.ndarray:
         u = sampler.random(count - 1)
         half = np.array(
             [
-                START_ENERGY if q.kind == "energy" else START_DECADES * math.log(10.0)
+                START_ENERGY
+                if q.kind == "energy"
+                else START_OPERATION
+                if q.kind in ("operation", "quantity")
+                else START_DECADES * math.log(10.0)
                 for q in model.params
             ]
         )

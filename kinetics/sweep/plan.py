@@ -371,10 +371,6 @@ def make_plan(
         p.kind in ("prefactor", "energy") for p in (*parameters, *spreads)
     ):
         raise UsageError("the scheme sets no temperature", "add a temperature line")
-    if scheme.timeline:
-        from .runs import check_run_parameters
-
-        check_run_parameters(scheme, (*parameters, *spreads))
     columns = _summary_columns(scheme, parameters, spreads, time_unit)
     n_sets = math.prod(p.values.size for p in parameters) * max(samples, 1)
     if n_sets > MAX_SETS:

@@ -15,67 +15,22 @@ certified ``error_bound`` of the run (a ramp's sub-step estimate is not part of 
 
 from __future__ import annotations
 
-from fractions import Fraction
 from typing import TYPE_CHECKING
 
 import numpy as np
 
-from ..errors import UsageError
-from ..timeline import At, TemperatureRamp, TemperatureStep
+from .. import parameters
 
 if TYPE_CHECKING:
     from ..scheme import Scheme
     from .plan import SweepPlan
 
-__all__ = ["check_run_parameters", "run_chunk", "set_scheme"]
-
-
-def check_run_parameters(scheme: Scheme, named) -> None:
-    """Refuse what a run with operations cannot vary: the Arrhenius parameters of a
-    constant when the operations change the temperature (the law itself must then be
-    kept, with a named quantity for its A or Ea).
-
-    Parameters
-    ----------
-    scheme : Scheme
-    named : iterable
-        The grid axes and spreads (each with ``name`` and ``kind``).
-
-    Raises
-    ------
-    kinetics.errors.UsageError
-
-    Examples
-    --------
-    >>> import kinetics
-    >>> s = kinetics.parse("A -> B  k = arrhenius(A = 1e10 1/s, Ea = 80 kJ/mol)\\n"
-    ...     "temperature = 25 degC\\nstart A = 1 M\\nat 1 h: temperature = 40 degC")
-    >>> from types import SimpleNamespace as P
-    >>> check_run_parameters(s, [P(name="k.Ea", kind="energy")])
-    Traceback (most recent call last):
-    ...
-    kinetics.errors.UsageError: k.Ea cannot be varied in a run whose operations change \
-the temperature; name it in the file (Ea_k = 80 kJ/mol, then Ea = Ea_k in the law) and vary \
-the name
-    """
-    heats = any(
-        isinstance(s, TemperatureRamp)
-        or (isinstance(s, At) and isinstance(s.action, TemperatureStep))
-        for s in scheme.timeline.statements
-    )
-    for p in named:
-        if p.kind in ("prefactor", "energy") and heats:
-            base, _, part = p.name.partition(".")
-            raise UsageError(
-                f"{p.name} cannot be varied in a run whose operations change the temperature",
-                f"name it in the file ({part}_{base} = "
-                + ("80 kJ/mol" if part == "Ea" else "1e13 1/s")
-                + f", then {part} = {part}_{base} in the law) and vary the name",
-            )
+__all__ = ["run_chunk", "set_scheme"]
 
 
 def set_scheme(plan: SweepPlan, internal: np.ndarray, low: np.ndarray) -> Scheme:
-    """The scheme of one set: its values given exactly, its operations following them.
+    """The scheme of one set: its values given exactly, its operations following them
+    (:func:`kinetics.parameters.scheme_with`).
 
     Parameters
     ----------
@@ -83,37 +38,8 @@ def set_scheme(plan: SweepPlan, internal: np.ndarray, low: np.ndarray) -> Scheme
     internal, low : numpy.ndarray
         The set's values in internal units and their exact rests, shape (p + s,).
     """
-    from ..scheme import arrhenius_pairs
-
-    scheme = plan.scheme
-    quantities: dict[str, Fraction] = {}
-    initial, excess, arrhenius = {}, {}, {}
-    temperature = None
-    for j, p in enumerate([*plan.parameters, *plan.spreads]):
-        exact = Fraction(float(internal[j])) + Fraction(float(low[j]))
-        if p.kind == "temperature":
-            temperature = float(internal[j])
-        elif p.kind == "start":
-            initial[p.target] = float(internal[j])
-        elif p.kind == "excess":
-            excess[p.target] = float(internal[j])
-        elif p.kind in ("prefactor", "energy"):
-            arrhenius.setdefault(p.target, {})[p.kind] = float(internal[j])
-        else:  # a rate constant or a named quantity: exact, the rest follows
-            quantities[p.target or p.name] = exact
-    if arrhenius:  # no temperature operations (check_run_parameters): plain at the set's T
-        t = scheme.temperature if temperature is None else temperature
-        for name, parts in arrhenius.items():
-            hi, lo = arrhenius_pairs(
-                scheme.constants[name].arrhenius,
-                t,
-                prefactor=parts.get("prefactor"),
-                energy=parts.get("energy"),
-            )
-            quantities[name] = Fraction(float(hi)) + Fraction(float(lo))
-    return scheme.with_values(
-        temperature=temperature, initial=initial, excess=excess, quantities=quantities
-    )
+    named = [*plan.parameters, *plan.spreads]  # each has name, kind and target
+    return parameters.scheme_with(plan.scheme, named, internal, low)
 
 
 def run_chunk(plan: SweepPlan, start: int, stop: int, curves: bool = False):
