@@ -683,60 +683,12 @@ class Scheme:
         return tuple(n for n in self.dependencies.driven_by(name) if n in self.constants)
 
     def with_timeline(self, timeline: Timeline) -> Scheme:
-        """A copy of the scheme with the operations of ``timeline`` (replacing its own).
+        """A copy with the operations of ``timeline`` instead of its own, checked: every
+        mistake that does not depend on the window at once (see
+        :func:`kinetics.timeline.attach`, with an example)."""
+        from .timeline import attach
 
-        The Python way to give a scheme operations without writing them in its text:
-        times in seconds, temperatures in kelvin, amounts in :attr:`concentration_unit`,
-        volumes in m^3 (see :mod:`kinetics.timeline`).  :func:`kinetics.solve` then
-        solves the run exactly stretch by stretch, and its :attr:`Solution.events
-        <kinetics.solution.Solution.events>` records what each operation moved.
-
-        Parameters
-        ----------
-        timeline : Timeline
-
-        Returns
-        -------
-        Scheme
-
-        Raises
-        ------
-        kinetics.errors.ArgumentTypeError
-            When ``timeline`` is not a :class:`~kinetics.timeline.Timeline`.
-        kinetics.errors.SchemeErrors
-            Every mistake that does not depend on the solved window, at once (unknown
-            species, a removal above 100 %, overlapping ramps, ...).
-
-        Examples
-        --------
-        A second portion of A after 30 min (k = 0.02 1/min; closed form
-        :math:`A(t) = A_0 e^{-kt} + a\\,e^{-k(t - 30)}` for t >= 30 min):
-
-        >>> import math, kinetics
-        >>> from kinetics.timeline import Addition, At, Timeline
-        >>> s = kinetics.parse("A -> B  k = 0.02 1/min\\nstart A = 0.5 mol/L")
-        >>> run = s.with_timeline(Timeline([At(1800.0, Addition({"A": 0.25}))]))
-        >>> sol = kinetics.solve(run, [0.0, 1800.0, 3600.0])
-        >>> sol.times.tolist()  # the time of the addition twice: just before and after
-        [0.0, 1800.0, 1800.0, 3600.0]
-        >>> expected = 0.5 * math.exp(-1.2) + 0.25 * math.exp(-0.6)
-        >>> bool(abs(sol["A"][-1] - expected) < 1e-15)
-        True
-        >>> [(e.action, e.species, e.change) for e in sol.events]
-        [('add', 'A', 0.25)]
-        """
-        from .errors import ArgumentTypeError, SchemeErrors, type_name
-        from .timeline import check
-
-        if not isinstance(timeline, Timeline):
-            raise ArgumentTypeError(
-                f"with_timeline() needs a Timeline, not {type_name(timeline)}",
-                "build one from kinetics.timeline: Timeline([At(1800.0, Addition({'A': 0.25}))])",
-            )
-        errors = check(self, timeline)
-        if errors:
-            raise SchemeErrors(errors)
-        return replace(self, timeline=timeline)
+        return attach(self, timeline)
 
     def with_values(
         self,

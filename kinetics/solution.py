@@ -387,12 +387,12 @@ def solve(scheme: Scheme, times) -> Solution:
     scheme = require_scheme(scheme, "solve")
     t = check_times(times)
     _check_size(t.size, len(scheme.species))
-    if scheme.timeline:
-        return _solve_timeline(scheme, t)
     Kh, Kl = scheme.rate_matrix_pair()
     feed = scheme.feed_vector if scheme.feed else None
     amount = float(scheme.initial_vector.sum() + (0.0 if feed is None else feed.sum() * t[-1]))
     check_working_range(-Kh.diagonal(), float(t[-1]), scheme.species_names, amount)
+    if scheme.timeline:
+        return _solve_timeline(scheme, t)
     result = propagate_certified(Kh, scheme.initial_vector, t, feed, K_low=Kl)
     return Solution(
         t,

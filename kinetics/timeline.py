@@ -82,6 +82,7 @@ __all__ = [
     "TemperatureRamp",
     "TemperatureStep",
     "Timeline",
+    "attach",
     "check",
     "expand",
 ]
@@ -636,3 +637,49 @@ def _volumes(operations: list[Operation], start: float | None) -> tuple[Operatio
         else:
             out.append(replace(op, volume=float(V)))
     return tuple(out)
+
+
+def attach(scheme: Scheme, timeline: Timeline) -> Scheme:
+    r"""A copy of ``scheme`` with the operations of ``timeline`` (replacing its own).
+
+    The Python way to give a scheme operations without writing them in its text
+    (:meth:`kinetics.scheme.Scheme.with_timeline` calls this): times in seconds,
+    temperatures in kelvin, amounts in the scheme's concentration unit, volumes in m^3.
+    :func:`kinetics.solve` then solves the run exactly stretch by stretch, and
+    ``Solution.events`` records what each operation moved.
+
+    Raises
+    ------
+    kinetics.errors.ArgumentTypeError
+        When ``timeline`` is not a :class:`Timeline`.
+    kinetics.errors.SchemeErrors
+        Every mistake that does not depend on the solved window, at once.
+
+    Examples
+    --------
+    A second portion of A after 30 min (k = 0.02 1/min; closed form
+    :math:`A(t) = A_0 e^{-kt} + a\,e^{-k(t - 30)}` for t >= 30 min):
+
+    >>> import math, kinetics
+    >>> s = kinetics.parse("A -> B  k = 0.02 1/min\nstart A = 0.5 mol/L")
+    >>> run = s.with_timeline(Timeline([At(1800.0, Addition({"A": 0.25}))]))
+    >>> sol = kinetics.solve(run, [0.0, 1800.0, 3600.0])
+    >>> sol.times.tolist()  # the time of the addition twice: just before and after
+    [0.0, 1800.0, 1800.0, 3600.0]
+    >>> expected = 0.5 * math.exp(-1.2) + 0.25 * math.exp(-0.6)
+    >>> bool(abs(sol["A"][-1] - expected) < 1e-15)
+    True
+    >>> [(e.action, e.species, e.change) for e in sol.events]
+    [('add', 'A', 0.25)]
+    """
+    from .errors import ArgumentTypeError, type_name
+
+    if not isinstance(timeline, Timeline):
+        raise ArgumentTypeError(
+            f"with_timeline() needs a Timeline, not {type_name(timeline)}",
+            "build one from kinetics.timeline: Timeline([At(1800.0, Addition({'A': 0.25}))])",
+        )
+    errors = check(scheme, timeline)
+    if errors:
+        raise SchemeErrors(errors)
+    return replace(scheme, timeline=timeline)

@@ -160,8 +160,8 @@ def resolve_timeline(
     return timeline
 
 
-class _Reader:
-    """Numbers of operation lines in core units, with their bindings."""
+class _Numbers:
+    """Numbers of operation lines in core units: times, volumes, temperatures, names."""
 
     def __init__(self, unit, quantities, molar_masses, found: Diagnostics, species=()) -> None:
         self.species = set(species)
@@ -312,7 +312,10 @@ class _Reader:
             )
             return None
 
-    # -- statements ----------------------------------------------------------------
+
+class _Reader(_Numbers):
+    """The core statement of each operation line, with its bindings."""
+
     def statement(self, s: OperationStatement):
         """The core statement of one line (None after an error)."""
         line, bound = s.line, []
