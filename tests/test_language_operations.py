@@ -3,9 +3,14 @@ messages of lines that cannot be read (each pinned verbatim)."""
 
 from __future__ import annotations
 
+from fractions import Fraction
+
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 import kinetics
+from kinetics import KineticsError
 from kinetics.language.operations import (
     AddAction,
     FeedAction,
@@ -220,3 +225,70 @@ def test_examples_in_the_docstrings():
     import kinetics.language.operations as module
 
     assert doctest.testmod(module).failed == 0
+
+
+# ---------------------------------------------------------------------------------------
+# properties: random operation lines round-trip; mutated ones raise only our errors
+
+# exact unit factors (SI brochure, 9th ed.): 1 min = 60 s, 1 h = 3600 s, 1 d = 86400 s
+TIME_UNITS = {"s": 1, "min": 60, "h": 3600, "d": 86400}
+AMOUNT_UNITS = {"mol/L": Fraction(1), "mmol/L": Fraction(1, 1000), "M": Fraction(1)}
+numbers = st.sampled_from(["0", "1", "2.5", "30", "0.125", "1e1", "7"])
+times = st.tuples(numbers, st.sampled_from(sorted(TIME_UNITS)))
+
+
+@st.composite
+def operation_lines(draw):
+    """A random valid operation line and the core statement it must give."""
+    (n, unit) = draw(times)
+    t = float(Fraction(n) * TIME_UNITS[unit])
+    kind = draw(st.sampled_from(["add", "remove", "every"]))
+    if kind == "add":
+        amount, a_unit = draw(numbers), draw(st.sampled_from(sorted(AMOUNT_UNITS)))
+        species = draw(st.sampled_from(["A", "B", "C"]))
+        line = f"at {n} {unit}: add {species} = {amount} {a_unit}"
+        return line, ("at", t, species, float(Fraction(amount) * AMOUNT_UNITS[a_unit]))
+    share = draw(st.sampled_from(["0", "12.5", "50", "100"]))
+    species = draw(st.sampled_from(["A", "B", "C"]))
+    if kind == "remove":
+        return f"at {n} {unit}:remove {share} % of {species}", (
+            "at", t, species, Fraction(share) / 100,
+        )  # fmt: skip
+    (p, p_unit) = draw(times.filter(lambda x: Fraction(x[0]) > 0))
+    period = float(Fraction(p) * TIME_UNITS[p_unit])
+    return f"every {p} {p_unit} from {n} {unit}: remove {share}% of {species}", (
+        "every", period, species, Fraction(share) / 100, t,
+    )  # fmt: skip
+
+
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.lists(operation_lines(), min_size=1, max_size=5))
+def test_random_operation_lines_round_trip(drawn):
+    text = BASE + "\n".join(f"  {line}   # c" for line, _ in drawn)
+    statements = kinetics.parse(text).timeline.statements
+    assert len(statements) == len(drawn)
+    for s, (_, want) in zip(statements, drawn, strict=True):
+        if want[0] == "every":
+            assert (s.period, s.start) == (want[1], want[4])
+        else:
+            assert s.time == want[1]
+        if hasattr(s.action, "amounts"):
+            assert s.action.amounts == ((want[2], want[3]),)
+        else:
+            assert (s.action.species, s.action.fraction) == ((want[2],), want[3])
+
+
+OPERATION_ALPHABET = st.sampled_from(
+    ["at", "every", "from", "to", "until", ":", " ", "add", "remove", "%", "of", "A", "=",
+     "1", "-2", "h", "min", "mol/L", ",", "temperature", "degC", "->", "feed", "with", "mL",
+     "t_q", "volume", "nan", "1e999"]
+)  # fmt: skip
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.lists(OPERATION_ALPHABET, min_size=1, max_size=14).map(" ".join))
+def test_random_operation_soup_raises_only_our_errors(line):
+    try:
+        kinetics.parse(BASE + "t_q = 1 h\n" + line)
+    except KineticsError:
+        pass
