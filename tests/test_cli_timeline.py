@@ -212,3 +212,24 @@ def test_temperature_log_mistakes(files, capsys, text, message):
     assert status == 2
     assert out == ""
     assert err.strip().splitlines()[-1] == message
+
+
+def test_an_operation_after_the_window_is_noted(files, capsys):
+    (files / "late.scheme").write_text(HOT + "at 10 d: add A = 1 M\n", encoding="utf-8")
+    status, out, err = run(capsys, "solve", "late.scheme", "--until", "1d", "--json")
+    assert status == 0, err
+    assert json.loads(out)["timeline_notes"] == [
+        "late.scheme:4: 1 operation from 864000.0 s on falls after the end of the window "
+        "(86400.0 s) and was not applied"
+    ]
+    status, out, _ = run(capsys, "solve", "late.scheme", "--until", "1d", "--points", "3")
+    assert "note: late.scheme:4: 1 operation from 864000.0 s on falls after" in out
+
+
+def test_check_json_lists_the_operations(files, capsys):
+    status, out, err = run(capsys, "check", "gen.scheme", "--json")
+    assert status == 0, err
+    assert json.loads(out)["operations"] == {
+        "statements": [{"line": 5, "text": "every 24 h: remove 100 % of D"}],
+        "volume_L": None,
+    }

@@ -5,7 +5,10 @@ test_reference_timeline.py):
 * the parent-daughter ingrowth formula after a complete elution (Bateman form; H. Bateman,
   Proc. Cambridge Philos. Soc. 15, 423-427 (1910); any radiochemistry textbook), evaluated
   with mpmath at 50 digits;
-* closed forms of a single first-order step with a second portion (linear ODE, textbook);
+* closed forms of a single first-order step (linear ODE, textbook): a second portion, a
+  temperature step between Arrhenius stretches (c = c0 exp(-k1 t1 - k2 (t - t1)), constants
+  from the one Arrhenius law at 50 digits), a dosing window (c = r/k (1 - e^(-kt)), then
+  decay) and three applications 14 days apart (a sum of decays);
 * linearity: the solution with an addition at T is the solution without it plus the
   response to the addition started at T (superposition; exact identity);
 * mpmath matrix exponentials at 50 digits stretch by stretch, with the dilution of a
@@ -17,6 +20,7 @@ All cases are invented scenarios.
 
 from __future__ import annotations
 
+import math
 from fractions import Fraction
 
 import mpmath
@@ -155,3 +159,47 @@ def test_a_semi_batch_run_with_portions_matches_the_reference():
                     assert err <= max(bound, 1e-15)
                     assert err < 1e-13
     assert [e.volume for e in sol.events] == pytest.approx([1.25e-3, 1.25e-3, 1.35e-3], rel=1e-15)
+
+
+def test_a_temperature_step_between_arrhenius_stretches():
+    # A = exp(-k(25 degC) t1 - k(60 degC) (t - t1)) for a single step (closed form)
+    scheme = kinetics.parse(
+        "A -> B  k = arrhenius(A = 1e10 1/s, Ea = 80 kJ/mol)\ntemperature = 25 degC\n"
+        "start A = 1 M\nat 2 h: temperature = 60 degC\n"
+    )
+    sol = kinetics.solve(scheme, [0.0, 2 * HOUR, 3 * HOUR])
+    law = scheme.constants["k"].arrhenius
+    with mpmath.workdps(50):
+        exponent = mp(law.exact(298.15)) * 7200 + mp(law.exact(333.15)) * 3600
+        assert abs(mp(sol["A"][-1]) / mpmath.exp(-exponent) - 1) < mpmath.mpf("1e-14")
+
+
+def test_a_dosing_window():
+    # A -> B, k; feed r on [1 h, 3 h]: A = r/k (1 - e^(-k(t - 1 h))) inside, then decays
+    scheme = kinetics.parse(
+        "A -> B  k = 0.5 1/h\nstart B = 0 mol/L\nfrom 1 h to 3 h: feed A = 0.2 mol/L/h\n"
+    )
+    sol = kinetics.solve(scheme, [0.0, 2 * HOUR, 3 * HOUR, 5 * HOUR])
+    k, r = 0.5, 0.2
+    inside = r / k * (1 - math.exp(-k * 1))
+    at_end = r / k * (1 - math.exp(-k * 2))
+    later = at_end * math.exp(-k * 2)
+    assert sol["A"].tolist()[0] == 0.0
+    assert sol["A"][1] == pytest.approx(inside, rel=1e-14)
+    assert sol["A"][2] == pytest.approx(at_end, rel=1e-14)
+    assert sol["A"][3] == pytest.approx(later, rel=1e-14)
+    assert [e.action for e in sol.events] == ["feed on", "feed off"]
+
+
+def test_three_applications_14_days_apart():
+    # P(t) = a sum over applications of e^(-k (t - t_i)) (superposition of first-order decays)
+    scheme = kinetics.parse(
+        "P -> M  k = 0.0693 1/d\nstart P = 0 mmol/kg\nevery 14 d from 0 d until 28 d: "
+        "add P = 1.5 mmol/kg\n"
+    )
+    sol = kinetics.solve(scheme, np.linspace(0.0, 42 * DAY, 7))
+    k = 0.0693
+    for t, after, p in zip(sol.times / DAY, sol.after, sol["P"], strict=True):
+        doses = [d for d in (0, 14, 28) if d < t or (d == t and after)]
+        exact = sum(1.5 * math.exp(-k * (t - d)) for d in doses)
+        assert p == pytest.approx(exact, rel=1e-13, abs=0)

@@ -488,7 +488,7 @@ def render_solution(
             f"{hidden} more species not shown; choose columns with --species, "
             "or write them all with --out table.csv"
         )
-    if solution.events or solution.notes:
+    if solution.after is not None:
         render_events(solution, time_unit, out)
 
 
@@ -509,6 +509,12 @@ def render_events(solution: Solution, time_unit: str, out: Console, max_rows: in
         ]
         cells = [[_cell(r[h]) for h in headers] for r in shown]
         print_fitted(out, headers, cells, align="right")
+    if solution.ramp_estimate is not None:
+        worst = float(solution.ramp_estimate.max(initial=0.0))
+        out.print(
+            f"temperature ramps: estimated error of the sub-steps up to {worst:.2g} (relative; "
+            "an estimate beside the certified bound, see --json ramp_estimate)"
+        )
     for note in solution.notes:
         out.print(f"note: {_escape(note)}")
 

@@ -139,6 +139,21 @@ def check_report(scheme: Scheme) -> dict:
         "balance": balance.to_dict(),
         "network": network.to_dict(),
         "warnings": list(scheme.warnings),
+        "operations": _operations(scheme),
+    }
+
+
+def _operations(scheme: Scheme) -> dict | None:
+    """The timeline of a scheme as written (``check --json``): each statement's line and
+    text, and the volume of the run [L]; None without operations."""
+    line = scheme.timeline
+    if not line and line.volume is None:
+        return None
+    return {
+        "statements": [
+            {"line": s.place.line, "text": s.place.text.strip()} for s in line.statements
+        ],
+        "volume_L": None if line.volume is None else line.volume * 1000,
     }
 
 
