@@ -20,6 +20,7 @@ from fractions import Fraction
 from functools import cached_property
 from typing import TYPE_CHECKING
 
+from .derivatives import Slope, slopes
 from .errors import ExpressionError, UsageError
 from .expressions import (
     Dims,
@@ -41,6 +42,7 @@ __all__ = [
     "Definition",
     "Dependencies",
     "NamedQuantity",
+    "constant_slopes",
     "constant_values",
     "follow",
     "needs_temperature",
@@ -263,6 +265,56 @@ class Dependencies:
     def _values(self) -> dict[tuple[str, float | None], Fraction]:
         return {}
 
+    def slopes(
+        self,
+        temperature: float | None,
+        wrt: Iterable[str],
+        values: Mapping[str, Fraction] | None = None,
+    ) -> dict[str, Slope]:
+        r"""The derivatives of every definition with respect to the names ``wrt``, exactly.
+
+        A name of ``wrt`` is a parameter (its definition is set aside, as
+        :meth:`evaluate` does with ``values``); everything that follows from it carries
+        its total derivative, by the chain rule through the graph
+        (:func:`kinetics.derivatives.slopes`, no finite differences).
+
+        Parameters
+        ----------
+        temperature : float or None
+            [K]; needed where a temperature law enters.
+        wrt : iterable of str
+            Names of the graph, and ``"temperature"`` for the temperature itself.
+        values : Mapping of str to Fraction, optional
+            New values of some names [SI base units], as for :meth:`evaluate`.
+
+        Returns
+        -------
+        dict of str to Slope
+            For every definition, :math:`\partial\,\mathrm{value}/\partial p` by
+            parameter ``p`` [SI per SI unit of p]; an empty mapping for one that does not
+            depend on any.
+
+        Raises
+        ------
+        ExpressionError
+            Where a definition cannot be evaluated or differentiated.
+        """
+        values = dict(values or {})
+        wrt = set(wrt)
+        env = self.evaluate(temperature, values)
+        moving = {"temperature": Fraction(1)} if "temperature" in wrt else {}
+        out: dict[str, Slope] = {}
+        for d in self.definitions:
+            if d.name in wrt:
+                out[d.name] = {d.name: Fraction(1)}
+            elif d.name in values or not (
+                any(out.get(n) for n in d.uses) or (moving and d.name in self.on_temperature)
+            ):
+                out[d.name] = {}
+            else:
+                out[d.name] = slopes(d.expression, env, out, temperature, moving, d.name)[1]
+        return out
+
     def fixed(self, values: Mapping[str, Fraction]) -> Dependencies:
         """A copy in which the definitions of ``values`` become those numbers [SI units].
 
@@ -364,6 +416,54 @@ def constant_values(
         if value is None:
             raise needs_temperature(name, c.arrhenius is not None)
         out[name] = value
+    return out
+
+
+def constant_slopes(
+    constants: Mapping[str, RateConstant],
+    graph: Dependencies,
+    temperature: float | None,
+    wrt: Iterable[str],
+    values: Mapping[str, Fraction] | None = None,
+) -> dict[str, Slope]:
+    r"""The derivatives of every rate constant with respect to the names ``wrt``, exactly.
+
+    Parameters
+    ----------
+    constants : Mapping of str to RateConstant
+        The scheme's constants.
+    graph : Dependencies
+        The scheme's definitions.
+    temperature : float or None
+        [K].
+    wrt : iterable of str
+        Named quantities, constants and ``"temperature"``.
+    values : Mapping of str to Fraction, optional
+        New values of named quantities or constants [SI base units].
+
+    Returns
+    -------
+    dict of str to Slope
+        Per constant, :math:`\partial k/\partial p` [SI per SI unit of p]: 1 for a
+        constant with respect to itself, through the graph for derived ones
+        (:meth:`Dependencies.slopes`), through the Arrhenius law for the temperature
+        (:meth:`kinetics.scheme.Arrhenius.slopes`).
+    """
+    wrt = set(wrt)
+    values = values or {}
+    derived = graph.slopes(temperature, wrt, values) if graph else {}
+    out: dict[str, Slope] = {}
+    for name, c in constants.items():
+        if name in wrt:
+            out[name] = {name: Fraction(1)}
+        elif name in derived:
+            out[name] = derived[name]
+        elif c.arrhenius is not None and "temperature" in wrt and name not in values:
+            if temperature is None:
+                raise needs_temperature(name, True)
+            out[name] = {"temperature": c.arrhenius.slopes(temperature)["temperature"]}
+        else:
+            out[name] = {}
     return out
 
 

@@ -228,6 +228,11 @@ class LawSpec:
     exact : callable
         ``exact(values, temperature)``: the law at ``temperature`` [K] from the SI
         values of the parameters (a mapping key -> Fraction), to 40 digits.
+    slopes : callable or None
+        ``slopes(values, temperature, k)``: the partial derivatives
+        :math:`\\partial k / \\partial x` of the law (whose value is ``k``) with respect
+        to each parameter (by key) and to the temperature (key ``"temperature"``) [SI],
+        to 40 digits (:mod:`kinetics.derivatives` differentiates expressions with them).
     """
 
     name: str
@@ -238,6 +243,9 @@ class LawSpec:
     positional: bool
     result_of: str | None
     exact: Callable[[Mapping[str, Fraction], float], Fraction]
+    slopes: Callable[[Mapping[str, Fraction], float, Fraction], Mapping[str, Fraction]] | None = (
+        None
+    )
 
     @property
     def keys(self) -> tuple[str, ...]:

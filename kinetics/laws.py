@@ -168,6 +168,43 @@ def _q10(values: Mapping[str, Fraction], temperature: float) -> Fraction:
     return Q10(values["k_ref"], values["T_ref"], values["Q10"]).exact(temperature)
 
 
+# -- partial derivatives (differentiated by hand from the equations above) ----------------
+
+
+def _arrhenius_slopes(values: Mapping[str, Fraction], temperature: float, k: Fraction) -> dict:
+    # the one Arrhenius law's derivatives (Arrhenius.slopes), Ea as the double it is kept as
+    return Arrhenius(values["A"], float(values["Ea"])).slopes(temperature)
+
+
+def _eyring_slopes(values: Mapping[str, Fraction], temperature: float, k: Fraction) -> dict:
+    r""":math:`\partial k/\partial\Delta H = -k/RT`, :math:`\partial k/\partial\Delta S = k/R`,
+    :math:`\partial k/\partial T = k\,(1/T + \Delta H/RT^2)`."""
+    t = _kelvin(temperature)
+    rt = GAS_CONSTANT_EXACT * t
+    return {
+        "dH": -k / rt,
+        "dS": k / GAS_CONSTANT_EXACT,
+        "temperature": k * (1 / t + values["dH"] / (rt * t)),
+    }
+
+
+def _q10_slopes(values: Mapping[str, Fraction], temperature: float, k: Fraction) -> dict:
+    r""":math:`\partial k/\partial k_\mathrm{ref} = Q_{10}^{(T - T_\mathrm{ref})/10\,\mathrm{K}}`,
+    :math:`\partial k/\partial T = -\partial k/\partial T_\mathrm{ref}
+    = k \ln Q_{10} / 10\,\mathrm{K}`,
+    :math:`\partial k/\partial Q_{10} = k\,(T - T_\mathrm{ref}) / (10\,\mathrm{K}\, Q_{10})`."""
+    t = _kelvin(temperature)
+    law = Q10(Fraction(1), values["T_ref"], values["Q10"])
+    growth = law.exact(temperature)  # checks Q10 > 0 and T_ref > 0 with their messages
+    per_kelvin = k * (Fraction(0) if law.factor == 1 else dd.decimal_ln(law.factor)) / 10
+    return {
+        "k_ref": growth,
+        "T_ref": -per_kelvin,
+        "Q10": k * (t - law.reference_temperature) / (10 * law.factor),
+        "temperature": per_kelvin,
+    }
+
+
 #: The temperature laws an expression may call, by the name a file writes.
 LAWS: dict[str, LawSpec] = {
     "arrhenius": LawSpec(
@@ -196,6 +233,7 @@ LAWS: dict[str, LawSpec] = {
         False,
         "A",
         _arrhenius,
+        _arrhenius_slopes,
     ),
     "eyring": LawSpec(
         "eyring",
@@ -223,6 +261,7 @@ LAWS: dict[str, LawSpec] = {
         False,
         None,
         _eyring,
+        _eyring_slopes,
     ),
     "q10": LawSpec(
         "q10",
@@ -258,5 +297,6 @@ LAWS: dict[str, LawSpec] = {
         True,
         "k_ref",
         _q10,
+        _q10_slopes,
     ),
 }

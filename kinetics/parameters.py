@@ -15,12 +15,15 @@ A *parameter* is one input of a scheme that a sweep varies or a fit frees:
 ``start:A``, ``excess:W``
     The start concentration of a species, the concentration of a co-reactant held in
     excess (``start A`` with a space is read the same way).
-``t_q``, ``dose``, ``p_el``
-    A named quantity of the file that an operation uses (``at t_q: add A = dose``,
-    ``every t_el: remove p_el of D``): the time of an operation, an amount added, a volume
-    or a part removed (:attr:`kinetics.timeline.Timeline.names`).  In a scheme with
-    operations, any other named quantity too (kind ``quantity``: ``Ea_1`` of
-    ``k1 = arrhenius(A = ..., Ea = Ea_1)``); the constants defined from it follow.
+``t_p`` (any named quantity of the file)
+    A quantity defined on a line of its own (``t_p = 50 h``, ``Ea_f = 80 kJ/mol``,
+    ``T_ref = 25 degC``): the constants defined from it follow it exactly
+    (:meth:`kinetics.scheme.Scheme.exact_constants`).  A rate constant defined by an
+    expression (``k2 = k1 / 3``) is a ``constant``: varied, it becomes the value given.
+``t_q``, ``dose``, ``p_el`` (named quantities an operation uses)
+    The time of an operation, an amount added, a volume or a part removed (``at t_q: add
+    A = dose``, ``every t_el: remove p_el of D``; :attr:`kinetics.timeline.Timeline.names`):
+    kind ``operation``; the operations move with them.
 
 :func:`resolve` maps a name to its :class:`Target` (what it changes and the unit the file
 uses for it); :func:`check_unit` and :func:`to_internal` read values in a unit and convert
@@ -35,8 +38,8 @@ energy        J/mol                                            none: Ea is the d
 temperature   K                                                none: T is the double
 start         the scheme's concentration unit                  exact conversion
 excess        the scheme's concentration unit                  exact conversion
+quantity      SI base units (K for temperatures)               exact conversion
 operation     SI base units (s, mol/m^3, m^3; a pure number)   exact conversion
-quantity      SI base units                                    exact conversion
 ============  ===============================================  ==========================
 
 Values are converted with exact rational unit factors and kept as double-double pairs
@@ -65,7 +68,7 @@ import numpy as np
 
 from . import _doubledouble as dd
 from .errors import UsageError
-from .units import parse_unit, temperature_to_kelvin
+from .units import OFFSET_TEMPERATURES, normalise_unit, parse_unit, temperature_to_kelvin
 
 if TYPE_CHECKING:
     from .scheme import Arrhenius, Scheme
@@ -80,6 +83,7 @@ __all__ = [
     "check_unit",
     "check_values",
     "closest",
+    "column_header",
     "energy_unit",
     "file_temperature_unit",
     "from_internal",
@@ -96,11 +100,11 @@ ALL_KINDS = (
     "temperature",
     "start",
     "excess",
-    "operation",
     "quantity",
+    "operation",
 )
 #: The kinds a fit can free.
-FIT_KINDS = ("constant", "prefactor", "energy", "start", "operation", "quantity")
+FIT_KINDS = ("constant", "prefactor", "energy", "start", "quantity", "operation")
 #: A decimal number as users write it (the values of ``--vary``, the number before a unit).
 NUMBER = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
 _NAME_START = re.compile(r"^(start|excess)\s*[:\s]\s*(?P<species>\S+)$")
@@ -115,11 +119,11 @@ class Target:
     ----------
     name : str
         Canonical name: ``k2``, ``k3.A``, ``k3.Ea``, ``temperature``, ``start:A``,
-        ``excess:W``.
+        ``excess:W``, ``t_p``.
     kind : str
         One of :data:`ALL_KINDS`.
     target : str
-        The constant or species it changes (empty for the temperature).
+        The constant, species or named quantity it changes (empty for the temperature).
     unit : str
         The unit the file uses for it (the display unit of results).
     label : str
@@ -137,18 +141,44 @@ class Target:
 
     @property
     def log(self) -> bool:
-        """True when a fit searches the logarithm of the value (all kinds but ``energy``)."""
+        """True when a fit searches the logarithm of the value: every kind but ``energy``
+        and named quantities whose value is not above 0 (an activation entropy)."""
+        if self.kind == "quantity":
+            return self.nominal > 0
         return self.kind != "energy"
+
+    @property
+    def is_temperature(self) -> bool:
+        """True for the temperature and for named quantities that are temperatures."""
+        if self.kind == "quantity":
+            return parse_unit(self.unit).dims == {"[temperature]": 1}
+        return self.kind == "temperature"
 
     @property
     def si_per_unit(self) -> float:
         """Internal value of one :attr:`unit` (1 for start and excess values, which the
-        core keeps in the scheme's concentration unit; not defined for temperatures)."""
+        core keeps in the scheme's concentration unit; not defined for units with an
+        offset)."""
         if self.kind in ("start", "excess"):
             return 1.0
-        if self.kind == "temperature":
+        spec = parse_unit(self.unit)
+        if self.kind == "temperature" or spec.offset:
             raise ValueError("a temperature unit has an offset, not a factor")
-        return float(parse_unit(self.unit).factor)
+        return float(spec.factor)
+
+    @property
+    def column(self) -> str:
+        """The header of its table column: ``k2 [1/min]``, ``f [-]`` for a pure number."""
+        return column_header(self.label, self.unit)
+
+
+def column_header(label: str, unit: str) -> str:
+    """A table header with its unit: ``k2 [1/min]``; a pure number is ``[-]``.
+
+    >>> column_header("start A", "mol/L"), column_header("f", "")
+    ('start A [mol/L]', 'f [-]')
+    """
+    return f"{label} [{unit or '-'}]"
 
 
 # ---------------------------------------------------------------------------------------
@@ -187,12 +217,17 @@ class SweepWords:
         return f"did you mean {close!r}? " if close else ""
 
     def unknown(self, scheme: Scheme, name: str) -> UsageError:
-        constants = scheme.constants
-        known = [*constants, "temperature", "start:<species>", "excess:<species>"]
-        known += list(scheme.timeline.names)
+        names = [*scheme.constants, *scheme.quantities]
+        known = [*names, "temperature", "start:<species>", "excess:<species>"]
         return UsageError(
             f"{self.where}: {name!r} is not a rate constant or parameter of the scheme",
-            self._did_you_mean(name, constants) + "parameters are " + ", ".join(known),
+            self._did_you_mean(name, names) + "parameters are " + ", ".join(known),
+        )
+
+    def drives_nothing(self, name: str) -> UsageError:
+        return UsageError(
+            f"{self.where}: no rate constant is defined from {name}, so it changes nothing",
+            f"vary a quantity that a constant is defined from, e.g. k = ln(2) / {name}",
         )
 
     def whole_arrhenius(self, name: str) -> UsageError:
@@ -250,10 +285,23 @@ class _FitWords:
         return f"did you mean {close!r}? ({text})" if close else text
 
     def unknown(self, scheme: Scheme, name: str) -> UsageError:
+        if scheme.quantities:
+            return UsageError(
+                f"free parameter {name!r} is not a rate constant or named quantity of the scheme",
+                self._listing(name, [*scheme.constants, *scheme.quantities], "the names are")
+                + "; start values are written start:SPECIES",
+            )
         return UsageError(
             f"free parameter {name!r} is not a rate constant of the scheme",
             self._listing(name, scheme.constants, "the constants are")
             + "; start values are written start:SPECIES",
+        )
+
+    def drives_nothing(self, name: str) -> UsageError:
+        return UsageError(
+            f"free parameter {name!r}: no rate constant is defined from it, so the data "
+            "cannot tell its value",
+            f"free a quantity that a constant is defined from, e.g. k = ln(2) / {name}",
         )
 
     def whole_arrhenius(self, name: str) -> UsageError:
@@ -368,22 +416,27 @@ def resolve(scheme: Scheme, name: str, words) -> Target:
         d = constants[name]
         if d.arrhenius is not None:
             raise words.whole_arrhenius(name)
-        return Target(name, "constant", name, d.unit, name, float(d.value_si))
-    if "operation" in allowed and scheme.timeline and name in scheme.quantities:
-        return _operation_target(scheme, name)
+        return Target(name, "constant", name, d.unit, name, _nominal(scheme, name))
+    if "operation" in allowed and name in scheme.timeline.names:
+        q = scheme.quantities[name]
+        return Target(name, "operation", name, q.unit, name, _nominal(scheme, name))
+    if "quantity" in allowed and name in scheme.quantities:
+        if not scheme.driven_by(name):
+            raise words.drives_nothing(name)
+        q = scheme.quantities[name]
+        return Target(name, "quantity", name, q.unit, name, _nominal(scheme, name))
     raise words.unknown(scheme, name)
 
 
-def _operation_target(scheme: Scheme, name: str) -> Target:
-    """A named quantity of a scheme with operations: its unit as written (or its SI unit);
-    kind ``operation`` when an operation uses it, else ``quantity``."""
-    from .units import si_unit
-
-    q = scheme.quantities[name]
-    unit = q.unit if q.unit else si_unit(dict(q.dims)) if q.dims else ""
-    nominal = float(q.value_si) if q.value_si is not None else float("nan")
-    kind = "operation" if name in scheme.timeline.names else "quantity"
-    return Target(name, kind, name, unit, name, nominal)
+def _nominal(scheme: Scheme, name: str) -> float:
+    """The file's value of a constant or named quantity [SI; K] (at the scheme's
+    temperature for one that follows it; ``nan`` without a temperature)."""
+    known = scheme.quantities.get(name) or scheme.constants[name]
+    if known.value_si is not None:
+        return float(known.value_si)
+    if scheme.temperature is None:
+        return float("nan")
+    return float(scheme.dependencies.value(name, scheme.temperature))
 
 
 def scheme_with(
@@ -523,7 +576,7 @@ def check_unit(target: Target, unit: str, where: str, hint: str) -> None:
         spec = parse_unit(unit)
     except ValueError:
         raise UsageError(f"{where}: {unit!r} is not a unit", hint) from None
-    if target.kind == "temperature":
+    if target.is_temperature:
         if spec.dims != {"[temperature]": 1}:
             raise UsageError(f"{where}: {unit!r} is not a temperature unit", "use K or degC")
         return
@@ -579,6 +632,11 @@ def to_internal(target: Target, values, unit: str, texts=None) -> tuple[np.ndarr
     if target.kind == "temperature":
         exact = _exact_numbers(values, texts)
         return np.array([temperature_to_kelvin(x, unit) for x in exact]), lo
+    if target.is_temperature and parse_unit(unit).offset:  # a named temperature in degC
+        hi = np.empty(values.size)
+        for i, x in enumerate(_exact_numbers(values, texts)):
+            hi[i], lo[i] = dd.pair(_offset_kelvin(x, unit))
+        return hi, lo
     if target.kind == "energy":
         factor = parse_unit(unit).factor
         return np.array([float(x * factor) for x in _exact_numbers(values, texts)]), lo
@@ -590,6 +648,15 @@ def to_internal(target: Target, values, unit: str, texts=None) -> tuple[np.ndarr
     for i, x in enumerate(_exact_numbers(values, texts)):
         hi[i], lo[i] = dd.pair(x * factor)
     return hi, lo
+
+
+def _offset_kelvin(x: Fraction, unit: str) -> Fraction:
+    """A temperature on a scale with an offset (degC, degF) in kelvin, exactly."""
+    scale_offset = OFFSET_TEMPERATURES.get(normalise_unit(unit))
+    if scale_offset is None:
+        return Fraction(temperature_to_kelvin(x, unit))
+    scale, offset = scale_offset
+    return (x + offset) * scale
 
 
 def _exact_numbers(values: np.ndarray, texts) -> list[Fraction]:
@@ -612,7 +679,7 @@ def from_internal(target: Target, x: np.ndarray, unit: str) -> np.ndarray:
             if unit == target.unit
             else x / float(parse_unit(unit).factor / parse_unit(target.unit).factor)
         )
-    if target.kind == "temperature":
+    if target.is_temperature:
         if unit in ("K", "kelvin"):
             return x
         offset = temperature_to_kelvin(0.0, unit)
@@ -625,7 +692,7 @@ def check_values(target: Target, internal: np.ndarray, where: str, hint: str) ->
     """Refuse values a scheme cannot take: not finite, negative, at or below 0 K."""
     if not np.all(np.isfinite(internal)):
         raise UsageError(f"{where}: a value is not a finite number", hint)
-    if target.kind == "temperature" and np.any(internal <= 0):
+    if target.is_temperature and np.any(internal <= 0):
         raise UsageError(f"{where}: a temperature is at or below absolute zero", "check the unit")
     if target.kind in ("constant", "prefactor", "start", "excess", "operation") and np.any(
         internal < 0

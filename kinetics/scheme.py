@@ -27,6 +27,7 @@ from . import activity
 from .definitions import (
     Dependencies,
     NamedQuantity,
+    constant_slopes,
     constant_values,
     follow,
     needs_temperature,
@@ -141,6 +142,30 @@ class Arrhenius:
             raise UsageError(f"temperature {shown_value(temperature)} K must be above 0 K")
         exponent = -Fraction(self.activation_energy) / (GAS_CONSTANT_EXACT * Fraction(temperature))
         return self.prefactor_si * dd.decimal_exp(exponent)
+
+    def slopes(self, temperature: float) -> dict[str, Fraction]:
+        """Partial derivatives of :meth:`exact` with respect to ``A``, ``Ea`` and the
+        temperature [SI], differentiated by hand:
+
+        .. math:: \\frac{\\partial k}{\\partial A} = e^{-E_a/RT}, \\quad
+                  \\frac{\\partial k}{\\partial E_a} = -\\frac{k}{RT}, \\quad
+                  \\frac{\\partial k}{\\partial T} = \\frac{k E_a}{R T^2}
+
+        Without an activation energy, :math:`k = A` and :math:`\\partial k/\\partial E_a =
+        -A/RT`:
+
+        >>> d = Arrhenius(Fraction(2), 0.0).slopes(300.0)
+        >>> d["A"], d["Ea"] == -2 / (GAS_CONSTANT_EXACT * 300), d["temperature"]
+        (Fraction(1, 1), True, Fraction(0, 1))
+        """
+        k = Arrhenius(Fraction(1), self.activation_energy).exact(temperature)
+        rt = GAS_CONSTANT_EXACT * Fraction(temperature)
+        value = self.prefactor_si * k
+        return {
+            "A": k,
+            "Ea": -value / rt,
+            "temperature": value * Fraction(self.activation_energy) / (rt * Fraction(temperature)),
+        }
 
 
 #: distinct (Arrhenius, A, Ea, T) evaluations kept by :func:`arrhenius_pairs`
@@ -662,6 +687,10 @@ class Scheme:
         t = self.temperature if temperature is None else temperature
         return constant_values(self.constants, self.dependencies, t, values)
 
+    def constant_slopes(self, wrt, temperature=None, quantities=None) -> dict[str, dict]:
+        """Exact derivatives of every rate constant by name (:func:`_constant_slopes`)."""
+        return _constant_slopes(self, list(wrt), temperature, quantities or {})
+
     @property
     def temperature_constants(self) -> tuple[str, ...]:
         """The rate constants whose values follow the temperature.
@@ -800,6 +829,44 @@ def _with_values(
         _excess_si=new_excess_si,
     )
     return _follow_starts(new, changed=bool(initial))
+
+
+def _constant_slopes(
+    scheme: Scheme,
+    wrt: list[str],
+    temperature: float | None,
+    quantities: dict[str, float | Fraction],
+) -> dict[str, dict[str, Fraction]]:
+    """The body of :meth:`Scheme.constant_slopes`.
+
+    Parameters
+    ----------
+    scheme : Scheme
+    wrt : list of str
+        Named quantities, rate constants and ``"temperature"``.
+    temperature, quantities
+        As for :meth:`Scheme.exact_constants`.
+
+    Returns
+    -------
+    dict of str to dict of str to Fraction
+        Constant -> name -> :math:`\\partial k/\\partial p` [SI per SI unit of p]
+        (:func:`kinetics.definitions.constant_slopes`; no finite differences).
+
+    Examples
+    --------
+    >>> from kinetics import parse
+    >>> scheme = parse("t_p = 50 h\\nP -> D  lam = ln(2) / t_p\\nstart P = 1 mol")
+    >>> d = scheme.constant_slopes(["t_p"])["lam"]["t_p"]  # -ln 2 / t_p**2
+    >>> round(float(d) * 180000**2, 12)
+    -0.69314718056
+    """
+    for name in wrt:
+        if name != "temperature":
+            _named_value(scheme, name, 0)
+    values = {n: _named_value(scheme, n, v) for n, v in quantities.items()}
+    t = scheme.temperature if temperature is None else temperature
+    return constant_slopes(scheme.constants, scheme.dependencies, t, wrt, values)
 
 
 def _named_value(scheme: Scheme, name: str, value) -> Fraction:

@@ -3,6 +3,6 @@
 The one Fréchet derivative lives in :mod:`kinetics.engine.sensitivity`.
 """
 
-from kinetics.engine.sensitivity import block_sensitivities, sensitivities
+from kinetics.engine.sensitivity import block_sensitivities, point_sensitivities, sensitivities
 
-__all__ = ["block_sensitivities", "sensitivities"]
+__all__ = ["block_sensitivities", "point_sensitivities", "sensitivities"]

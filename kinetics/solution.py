@@ -138,6 +138,8 @@ class Solution:
     unit_factors : numpy.ndarray or None
         Shape ``(n,)``: per species, the factor from the scheme's unit to
         ``concentration_unit`` (set by :meth:`in_unit`; None in the scheme's unit).
+    activity_unit : str or None
+        The unit of activity when the values are activities (:meth:`in_activity`).
     events : tuple of kinetics.timeline_solve.Event
         The operations of the scheme's timeline that were applied, in time order, each
         with what it moved (``change`` in :attr:`concentration_unit`); empty for a run
@@ -164,6 +166,7 @@ class Solution:
     scheme: Scheme
     error_bound: np.ndarray | None = None
     unit_factors: np.ndarray | None = None
+    activity_unit: str | None = None
     _amounts: np.ndarray | None = field(default=None, repr=False)  # in the scheme's unit
     events: tuple[Event, ...] = ()
     notes: tuple[str, ...] = ()
@@ -172,6 +175,58 @@ class Solution:
     ramp_estimate: np.ndarray | None = None
     stretches: tuple = ()
     _events: tuple[Event, ...] | None = field(default=None, repr=False)  # the scheme's unit
+
+    @property
+    def quantity(self) -> str:
+        """What the values are: ``"activity"`` or ``"concentration"`` (axis labels)."""
+        return "activity" if self.activity_unit else "concentration"
+
+    def in_activity(self, unit: str) -> Solution:
+        """The same solution as activities :math:`A_i = \\lambda_i N_A n_i` in ``unit``.
+
+        Parameters
+        ----------
+        unit : str
+            ``Bq``, ``kBq``, ``MBq``, ``GBq``, ``Ci``, ``mCi``, ``uCi`` for a scheme in
+            amounts; per volume or mass (``MBq/L``) for one per volume or mass
+            (:func:`kinetics.activity.activity_factors`).
+
+        Returns
+        -------
+        Solution
+            Its table headers read ``P [MBq]``; its :meth:`summary` gives activities
+            (maxima, limits, areas as numbers of decays); stable species have 0.
+
+        Raises
+        ------
+        ActivityError
+            For a unit that is no activity of the scheme's kind.
+
+        Examples
+        --------
+        >>> import kinetics
+        >>> s = kinetics.parse("P -> D  k1 = 1 1/s\\nstart P = 1 umol")
+        >>> a = kinetics.solve(s, [0.0]).in_activity("MBq")
+        >>> a.to_frame().columns.tolist(), float(a["P"][0])
+        (['time [s]', 'P [MBq]', 'D [MBq]'], 602214076000.0)
+        """
+        from .activity import activity_factors
+
+        factors = activity_factors(self.scheme, unit)
+        amounts = self.concentrations if self._amounts is None else self._amounts
+        bound = self.error_bound
+        if bound is not None:  # the factor and the product: a few more units of rounding
+            bound = bound + _CONVERSION_ROUNDING * (1 + bound)
+        return replace(
+            self,
+            concentrations=amounts * factors,
+            concentration_unit=unit.strip(),
+            unit_factors=factors,
+            activity_unit=unit.strip(),
+            error_bound=bound,
+            _amounts=amounts,
+            **self._events_times(factors),
+        )
 
     def in_unit(self, unit: str) -> Solution:
         """The same solution with concentrations in another unit.
@@ -215,21 +270,26 @@ class Solution:
         bound = self.error_bound
         if bound is not None:  # the factor and the product: a few more units of rounding
             bound = bound + _CONVERSION_ROUNDING * (1 + bound)
-        scale = dict(zip(self.species, factors.tolist(), strict=True))
-        base = self.events if self._events is None else self._events
-        events = tuple(
-            e if e.species is None else replace(e, change=e.change * scale[e.species]) for e in base
-        )
         return replace(
             self,
             concentrations=amounts * factors,
             concentration_unit=label,
             unit_factors=factors,
+            activity_unit=None,
             error_bound=bound,
             _amounts=amounts,
-            events=events,
-            _events=base,
+            **self._events_times(factors),
         )
+
+    def _events_times(self, factors: np.ndarray) -> dict:
+        """The events with each species' ``change`` times its output factor (from the
+        changes in the scheme's unit, kept aside)."""
+        scale = dict(zip(self.species, factors.tolist(), strict=True))
+        base = self.events if self._events is None else self._events
+        events = tuple(
+            e if e.species is None else replace(e, change=e.change * scale[e.species]) for e in base
+        )
+        return {"events": events, "_events": base}
 
     def __getitem__(self, name: str) -> np.ndarray:
         """The curve of one species [concentration_unit]."""

@@ -20,7 +20,10 @@ from kinetics.activity import (
     amount_from_activity,
     amounts_from_activities,
     decay_constants,
+    decay_rates,
+    equilibria,
     start_amounts,
+    start_amounts_for_rates,
 )
 from kinetics.errors import ActivityError
 
@@ -118,3 +121,36 @@ def test_start_activities_follow_the_decay_constants():
     # a start value given as an amount replaces the activity
     given = scheme.with_values(initial={"P": 1e-12})
     assert (given.initial["P"], given.start_activities) == (1e-12, {})
+
+
+def test_decay_rates_and_start_amounts_for_a_stack_of_rates():
+    # lambda is the sum of the consuming steps; n = A / (lambda N_A) (2019 SI, N_A exact)
+    scheme = parse("P -> D  k1 = 1 1/s\nP -> E  k2 = 3 1/s\nstart P = 4 Bq")
+    rates = np.array([[1.0, 3.0], [0.5, 1.5]])
+    np.testing.assert_array_equal(decay_rates(scheme, rates), [[4.0, 0, 0], [2.0, 0, 0]])
+    atoms = start_amounts_for_rates(scheme, rates)["P"] * float(N_A)
+    np.testing.assert_allclose(atoms, [1.0, 2.0], rtol=1e-15, atol=0)  # 4 Bq / (4 or 2 1/s)
+    with pytest.raises(ActivityError) as info:
+        start_amounts_for_rates(scheme, [[0.0, 0.0]])
+    assert str(info.value) == (
+        "P has a start activity but does not decay in a set of values; keep its decay "
+        "constants above 0, or give its start value as an amount"
+    )
+
+
+def test_equilibria_of_a_chain_follow_the_slowest_ancestor():
+    # Q (500 h) -> P (50 h) -> D (5 h), invented: the long run follows Q's decay, so
+    # A_P/A_Q -> lam_P/(lam_P - lam_Q) = 10/9 and A_D/A_P -> lam_D/(lam_D - lam_Q) = 100/99
+    # (the textbook transient ratio with the slowest decay constant of the chain; our
+    # convention calls the second secular: lam_Q is 1 % of lam_D)
+    scheme = parse(
+        "Q -> P  half_life = 500 h\nP -> D  half_life = 50 h\nD -> G  half_life = 5 h\n"
+        "start Q = 1 mol"
+    )
+    pairs = {(e.parent, e.daughter): e for e in equilibria(scheme)}
+    assert pairs[("Q", "P")].kind == "transient"
+    assert pairs[("Q", "P")].ratio == pytest.approx(10 / 9, rel=1e-14)
+    assert pairs[("P", "D")].kind == "secular"
+    assert pairs[("P", "D")].ratio == pytest.approx(100 / 99, rel=1e-14)
+    # cycles and feeds have no such ratios
+    assert equilibria(parse("A <=> B  kf = 1 1/s, kr = 2 1/s\nstart A = 1 mol")) == []

@@ -60,6 +60,14 @@ def test_analysis_imports_neither_output_nor_the_command_line(graph):
         (a, b)
         for a, b in g.edges
         if a.startswith("kinetics.analysis")
-        and b.startswith(("kinetics.output", "kinetics.cli", "kinetics.sweep", "kinetics.fit"))
+        and b.startswith(
+            (
+                "kinetics.output",
+                "kinetics.cli",
+                "kinetics.sweep",
+                "kinetics.fit",
+                "kinetics.optimise",
+            )
+        )
     ]
     assert upward == []

@@ -360,3 +360,120 @@ def test_constants_defined_from_the_free_ones_follow_them(tmp_path):
     frame.to_csv(tmp_path / "d.csv", index=False)
     result = kinetics.fit(s, tmp_path / "d.csv", free=["k1"])
     assert result.value("k1") == pytest.approx(0.3, rel=1e-9)
+
+
+# -- named quantities (issue 15) ----------------------------------------------------------
+
+GENERATOR = """\
+t_p = 50 h
+f = 87.6 %
+P -> D  lam_d = f * ln(2) / t_p
+P -> S  lam_s = (1 - f) * ln(2) / t_p
+D -> G  half_life = 5 h
+start P = 1 GBq
+"""
+
+
+@pytest.fixture(scope="module")
+def generator_data():
+    """Exact daughter and parent amounts (kinetics.solve of the scheme with t_p = 42 h),
+    the daughter with a relative error of at most 1 % (deterministic)."""
+    s = kinetics.parse(GENERATOR)
+    t = np.linspace(0.0, 200 * 3600.0, 15)
+    sol = kinetics.solve(s.with_values(quantities={"t_p": 42 * 3600}), t)
+    wobble = 1 + 0.01 * np.sin(np.arange(t.size))
+    return s, t, sol, pd.DataFrame({"time [s]": t, "D [mol]": sol["D"] * wobble})
+
+
+def test_a_named_quantity_is_fitted_and_the_constants_follow_it(generator_data):
+    s, t, sol, _ = generator_data
+    exact = pd.DataFrame({"time [s]": t, "D [mol]": sol["D"], "P [mol]": sol["P"]})
+    result = fit(s, exact, "t_p", weights="relative")
+    assert result.value("t_p") == pytest.approx(42.0, rel=1e-9, abs=0)
+    assert result.estimates["t_p"].unit == "h"
+    # the fitted scheme: lam_d = 0.876 ln 2 / 42 h and the start amount of 1 GBq with it
+    fitted = result.fitted_scheme()
+    assert float(fitted.exact_constants()["lam_d"]) == pytest.approx(
+        0.876 * math.log(2) / (42 * 3600), rel=1e-12
+    )
+    assert fitted.initial["P"] == pytest.approx(sol["P"][0], rel=1e-12, abs=0)
+
+
+def test_the_constants_that_follow_carry_the_interval_of_the_fitted_quantity(generator_data):
+    s, _, _, noisy_d = generator_data
+    result = fit(s, noisy_d, "t_p", weights="relative")
+    e = result.estimates["t_p"]
+    followed = result.followed()
+    assert set(followed) == {"lam_d", "lam_s"}
+    lam = followed["lam_d"]
+    # lam_d = f ln 2 / t_p: its relative standard error is that of t_p (delta method)
+    assert lam["value"] == pytest.approx(0.876 * math.log(2) / (e.value * 3600), rel=1e-12)
+    assert lam["std_error"] / lam["value"] == pytest.approx(e.std_error / e.value, rel=1e-9, abs=0)
+    doc = result.to_dict()
+    assert doc["followed"]["lam_s"]["unit"] == "1/s"
+    assert len(doc["followed"]["lam_s"]["ci95"]) == 2
+
+
+def test_the_jacobian_of_a_named_quantity_matches_central_differences(generator_data):
+    # t_p drives two constants and, through them, the start amount of 1 GBq (n = A/lambda)
+    s, _, _, noisy_d = generator_data
+    params = parse_free("t_p,f", s)
+    model = Model(
+        s, build_runs(s, [measurements_from_frame(noisy_d, s)], params, "relative"), params
+    )
+    theta = np.log([45 * 3600.0, 0.8])
+    J = model.jacobian(theta)
+    h = 1e-6
+    for j in range(2):
+        step = np.zeros(2)
+        step[j] = h
+        column = (model.residuals(theta + step) - model.residuals(theta - step)) / (2 * h)
+        np.testing.assert_allclose(J[:, j], column, rtol=1e-6, atol=1e-9)
+
+
+def test_two_named_quantities_and_the_domain_of_their_definitions(generator_data):
+    # f above 1 would make lam_s negative: such starts are left out, the fit finds f
+    s, _, _, noisy_d = generator_data
+    result = fit(s, noisy_d, "t_p,f", weights="relative")
+    assert result.value("t_p") == pytest.approx(42.0, rel=0.01, abs=0)
+    assert result.value("f") == pytest.approx(87.6, rel=0.01, abs=0)
+
+
+def test_a_quantity_below_zero_is_searched_on_a_linear_scale():
+    s = kinetics.parse(
+        "dS = -20 J/(mol K)\nA -> B  k = eyring(dH = 90 kJ/mol, dS = dS)\n"
+        "temperature = 60 degC\nstart A = 1 mol/L\n"
+    )
+    t = np.linspace(0.0, 60.0, 12)
+    data = kinetics.solve(s.with_values(quantities={"dS": -5}), t)
+    result = fit(s, pd.DataFrame({"time [s]": t, "A [mol/L]": data["A"]}), "dS")
+    assert result.value("dS") == pytest.approx(-5.0, abs=1e-9)
+
+
+def test_cli_fit_of_a_named_quantity(tmp_path, generator_data, capsys):
+    _, _, _, noisy_d = generator_data
+    scheme = tmp_path / "g.scheme"
+    scheme.write_text(GENERATOR, encoding="utf-8")
+    data = tmp_path / "d.csv"
+    noisy_d.to_csv(data, index=False)
+    out = tmp_path / "fit.json"
+    assert (
+        main(
+            [
+                "fit",
+                str(scheme),
+                str(data),
+                "--free",
+                "t_p",
+                "--weights",
+                "relative",
+                "--out",
+                str(out),
+            ]
+        )
+        == 0
+    )
+    printed = capsys.readouterr().out
+    assert "constants that follow the fitted values (delta method):" in printed
+    assert "lam_d = " in printed
+    assert json.loads(out.read_text(encoding="utf-8"))["estimates"]["t_p"]["unit"] == "h"

@@ -69,7 +69,15 @@ def _modules_after(code: str, names: list[str]) -> list[str]:
 EXAMPLE = str(
     Path(__file__).resolve().parent.parent / "networks" / "consecutive_intermediate.scheme"
 )
-UNNEEDED = ["pint", "kinetics.fit", "kinetics.sweep", "kinetics.cli.fit", "kinetics.cli.sweep"]
+UNNEEDED = [
+    "pint",
+    "kinetics.fit",
+    "kinetics.sweep",
+    "kinetics.cli.fit",
+    "kinetics.cli.sweep",
+    "kinetics.optimise",
+    "kinetics.cli.optimise",
+]
 
 
 def test_check_loads_neither_the_engine_nor_tables_nor_units_registry():

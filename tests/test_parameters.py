@@ -241,3 +241,94 @@ def test_one_exact_evaluation_per_distinct_temperature(monkeypatch):
     assert np.unique(hi).size == 3
     arrhenius_pairs(law, grid)  # again: from the cache
     assert len(calls) == 3
+
+
+# -- named quantities (issue 15) ----------------------------------------------------------
+
+NAMED = """\
+t_p = 50 h
+f = 87.6 %
+T_ref = 25 degC
+dS = -20 J/(mol K)
+spare = 3 h
+P -> D  lam_d = f * ln(2) / t_p
+D -> E  kq = q10(0.1 1/h, T_ref, 2.5)
+E -> F  ke = eyring(dH = 90 kJ/mol, dS = dS)
+temperature = 30 degC
+start P = 1 mol
+"""
+
+
+def test_named_quantities_are_parameters_of_their_own_unit():
+    s = kinetics.parse(NAMED)
+    for words in (SweepWords("here"), FIT_WORDS):
+        t_p = resolve(s, "t_p", words)
+        assert (t_p.kind, t_p.unit, t_p.nominal, t_p.si_per_unit) == (
+            "quantity",
+            "h",
+            180000.0,
+            3600.0,
+        )
+        assert t_p.log
+    f = resolve(s, "f", FIT_WORDS)
+    assert (f.unit, f.nominal, f.si_per_unit) == ("%", 0.876, 0.01)
+    ds = resolve(s, "dS", FIT_WORDS)
+    assert ds.nominal == -20.0
+    assert not ds.log  # a value below 0: a linear coordinate
+    t_ref = resolve(s, "T_ref", SweepWords("here"))
+    assert t_ref.is_temperature
+    assert t_ref.nominal == 298.15
+    # a constant defined by a temperature law: its value at the file's temperature
+    assert resolve(s, "ke", FIT_WORDS).nominal == float(s.exact_constants()["ke"])
+
+
+def test_named_quantities_convert_exactly():
+    s = kinetics.parse(NAMED)
+    # 40 h = 144000 s; 30 degC = 303.15 K exactly (SI brochure, 9th ed., 2.3.1); 50 % = 1/2
+    hi, lo = to_internal(resolve(s, "t_p", FIT_WORDS), [40.0], "h", ["40"])
+    assert (hi[0], lo[0]) == (144000.0, 0.0)
+    hi, lo = to_internal(resolve(s, "T_ref", FIT_WORDS), [30.0], "degC", ["30"])
+    assert abs(Fraction(hi[0]) + Fraction(lo[0]) - Fraction(30315, 100)) < Fraction(1, 10**28)
+    assert parameters.from_internal(resolve(s, "T_ref", FIT_WORDS), hi, "degC")[0] == (
+        pytest.approx(30.0, abs=1e-12)
+    )
+    hi, _ = to_internal(resolve(s, "f", FIT_WORDS), [50.0], "%", ["50"])
+    assert hi[0] == 0.5
+
+
+def test_messages_of_named_quantities():
+    s = kinetics.parse(NAMED)
+    with pytest.raises(UsageError) as info:
+        resolve(s, "spare", SweepWords("grid['spare']"))
+    assert str(info.value) == (
+        "grid['spare']: no rate constant is defined from spare, so it changes nothing; vary a "
+        "quantity that a constant is defined from, e.g. k = ln(2) / spare"
+    )
+    with pytest.raises(UsageError) as info:
+        resolve(s, "spare", FIT_WORDS)
+    assert str(info.value) == (
+        "free parameter 'spare': no rate constant is defined from it, so the data cannot tell "
+        "its value; free a quantity that a constant is defined from, e.g. k = ln(2) / spare"
+    )
+    with pytest.raises(UsageError) as info:
+        resolve(s, "t_q", FIT_WORDS)
+    assert str(info.value) == (
+        "free parameter 't_q' is not a rate constant or named quantity of the scheme; did you "
+        "mean 't_p'? (the names are lam_d, kq, ke, t_p, f, T_ref, dS, spare); start values are "
+        "written start:SPECIES"
+    )
+    with pytest.raises(UsageError) as info:
+        resolve(s, "t_q", SweepWords("grid['t_q']"))
+    assert str(info.value) == (
+        "grid['t_q']: 't_q' is not a rate constant or parameter of the scheme; did you mean "
+        "'t_p'? parameters are lam_d, kq, ke, t_p, f, T_ref, dS, spare, temperature, "
+        "start:<species>, excess:<species>"
+    )
+    with pytest.raises(UsageError) as info:
+        parameters.check_unit(resolve(s, "T_ref", FIT_WORDS), "h", "here", "hint")
+    assert str(info.value) == "here: 'h' is not a temperature unit; use K or degC"
+
+
+def test_column_headers():
+    assert parameters.column_header("f", "") == "f [-]"
+    assert resolve(kinetics.parse(NAMED), "t_p", FIT_WORDS).column == "t_p [h]"

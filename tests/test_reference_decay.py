@@ -106,3 +106,107 @@ def test_the_half_life_is_a_named_quantity_that_drives_both_branches(scheme):
     np.testing.assert_allclose(float(lam), float(mp.log(2)) / (2 * 65.94 * HOUR), rtol=1e-15)
     # the start activity is kept: twice the half-life, twice the atoms
     np.testing.assert_allclose(longer.initial["Mo99"], 2 * scheme.initial["Mo99"], rtol=1e-15)
+
+
+# -- the same checks through the outputs (solve --activity; issue 15, section 2) ----------
+
+
+def test_solution_in_activity_units_follows_bateman(scheme):
+    hours = [0.0, 6.0, 22.9, 48.0, 200.0]
+    solution = kinetics.solve(scheme, np.array(hours) * HOUR).in_activity("MBq")
+    frame = solution.to_frame("h")
+    assert list(frame.columns) == ["time [h]", "Mo99 [MBq]", "Tc99m [MBq]", "Tc99 [MBq]"]
+    for row, h in enumerate(hours):
+        parent, daughter, *_ = _bateman(h)
+        np.testing.assert_allclose(frame["Mo99 [MBq]"][row], parent / 1e6, rtol=1e-12)
+        np.testing.assert_allclose(frame["Tc99m [MBq]"][row], daughter / 1e6, rtol=1e-12, atol=1e-9)
+        assert frame["Tc99 [MBq]"][row] == 0.0
+
+
+def test_the_summary_gives_the_activity_maximum_at_the_textbook_time(scheme):
+    from kinetics.analysis.solution_summary import activity_summary
+
+    _, _, lp, ld, _ = _bateman(0)
+    t_m = float(mp.log(ld / lp) / (ld - lp))
+    solution = kinetics.solve(scheme, [0.0, 100 * HOUR]).in_activity("MBq")
+    summary = solution.summary("s")
+    extra = activity_summary(solution, summary)
+    maximum = extra["maxima"]["Tc99m"]
+    np.testing.assert_allclose(maximum["time"], t_m, rtol=1e-10)
+    _, height, *_ = _bateman(mp.mpf(t_m) / HOUR)
+    np.testing.assert_allclose(maximum["activity"], height / 1e6, rtol=1e-12)
+    assert "constant in time" in extra["maximum_note"]
+    assert set(extra["maxima"]) == {"Tc99m"}  # the only decaying species formed
+
+
+def test_the_summary_gives_the_transient_equilibrium_ratio(scheme):
+    from kinetics.activity import equilibria
+
+    _, _, lp, ld, f = _bateman(0)
+    (pair,) = [e for e in equilibria(scheme) if e.daughter == "Tc99m"]
+    assert (pair.parent, pair.kind) == ("Mo99", "transient")
+    np.testing.assert_allclose(pair.ratio, float(f * ld / (ld - lp)), rtol=1e-14)
+
+
+def test_secular_and_no_equilibrium():
+    # textbook limits: lambda_P << lambda_D gives A_D/A_P -> f (secular); a daughter that
+    # decays more slowly than its parent has no equilibrium (invented half-lives)
+    from kinetics.activity import equilibria
+
+    secular = kinetics.parse("P -> D  half_life = 5000 h\nD -> G  half_life = 5 h\nstart P = 1 mol")
+    (e,) = equilibria(secular)
+    assert e.kind == "secular"
+    np.testing.assert_allclose(e.ratio, 1 / (1 - 5 / 5000), rtol=1e-14)
+    none = kinetics.parse("P -> D  half_life = 5 h\nD -> G  half_life = 50 h\nstart P = 1 mol")
+    (e,) = equilibria(none)
+    assert (e.kind, e.ratio) == ("none", None)
+
+
+def test_solve_activity_on_the_command_line(tmp_path, capsys):
+    import json
+
+    from kinetics.cli import main
+
+    path = tmp_path / "generator.scheme"
+    path.write_text(TEXT, encoding="utf-8")
+    argv = ["solve", str(path), "--until", "100h", "--points", "5", "--activity", "MBq"]
+    assert main([*argv, "--json", "--no-caution"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["concentration_unit"] == "MBq"
+    _, _, lp, ld, f = _bateman(0)
+    np.testing.assert_allclose(
+        doc["activity"]["maxima"]["Tc99m"]["time"],
+        float(mp.log(ld / lp) / (ld - lp)) / HOUR,
+        rtol=1e-10,
+    )
+    ratios = {e["daughter"]: e["ratio"] for e in doc["activity"]["equilibria"]}
+    np.testing.assert_allclose(ratios["Tc99m"], float(f * ld / (ld - lp)), rtol=1e-14)
+    parent, _, *_ = _bateman(100)
+    np.testing.assert_allclose(doc["concentrations"]["Mo99"][-1], parent / 1e6, rtol=1e-12)
+    out = tmp_path / "table.csv"
+    assert main([*argv, "--out", str(out), "--no-caution"]) == 0
+    assert out.read_text(encoding="utf-8").splitlines()[0] == (
+        "time [h],Mo99 [MBq],Tc99m [MBq],Tc99 [MBq]"
+    )
+    assert main([*argv, "--no-caution"]) == 0
+    printed = capsys.readouterr().out
+    assert "Tc99m/Mo99 in the long run: transient equilibrium" in printed
+    assert "Activities (exact)" in printed
+
+
+def test_activity_option_messages(tmp_path, capsys):
+    from kinetics.cli import main
+
+    path = tmp_path / "generator.scheme"
+    path.write_text(TEXT, encoding="utf-8")
+    base = ["solve", str(path), "--until", "1h", "--no-caution"]
+    assert main([*base, "--activity", "MBq", "--concentration-unit", "mmol"]) == 2
+    assert capsys.readouterr().err.strip().splitlines()[-1] == (
+        "kinetics: give either --activity or --concentration-unit, not both; --activity MBq "
+        "reports activities, --concentration-unit amounts or masses"
+    )
+    assert main([*base, "--activity", "mol"]) == 2
+    assert capsys.readouterr().err.strip().splitlines()[-1] == (
+        "kinetics: 'mol' is an amount of substance, not an activity (the scheme is kept in "
+        "mol); write e.g. MBq for a scheme in amounts, MBq/L for one per volume"
+    )

@@ -837,3 +837,96 @@ def test_temperature_laws_other_than_arrhenius_follow_the_temperature():
         one = kinetics.solve(s.with_values(temperature=celsius + 273.15), [0.0, 3600.0])
         expected = one.summary("s")["API"]["half_life"]
         assert row[1] == pytest.approx(expected, rel=1e-12)
+
+
+# -- named quantities (issue 15) ----------------------------------------------------------
+
+GENERATOR = """\
+t_p = 50 h
+f = 87.6 %
+P -> D  lam_d = f * ln(2) / t_p
+P -> S  lam_s = (1 - f) * ln(2) / t_p
+D -> G  half_life = 5 h
+start P = 1 GBq
+"""
+
+
+def test_a_named_quantity_is_swept_and_what_follows_from_it_follows():
+    # each row equals a solve of the scheme with that t_p (Scheme.with_values follows the
+    # definitions and the start activity exactly): the constants and the start amount
+    s = kinetics.parse(GENERATOR)
+    times = [0.0, 200 * 3600.0]
+    table = kinetics.sweep(s, ["t_p=40:60:5:h"], times)
+    assert table.columns[0] == "t_p [h]"
+    assert table["t_p [h]"].tolist() == [40.0, 45.0, 50.0, 55.0, 60.0]
+    for row in table.itertuples(index=False):
+        one = kinetics.solve(s.with_values(quantities={"t_p": row[0] * 3600}), times)
+        summary = one.summary("s")
+        assert row[2] == pytest.approx(summary["D"]["t_max"], rel=1e-12, abs=0)
+        assert row[3] == pytest.approx(summary["D"]["c_max"], rel=1e-12, abs=0)
+        # every atom of the start ends in S or G: the start amount followed t_p
+        assert row[-2] + row[-1] == pytest.approx(one.concentrations[0, 0], rel=1e-12, abs=0)
+
+
+def test_named_quantities_in_monte_carlo_either_way():
+    s = kinetics.parse(GENERATOR)
+    for spread in ("t_p=10%", "t_p=2h"):
+        rows, _ = kinetics.monte_carlo(s, [spread], 8, [0.0, 3600.0 * 200])
+        assert rows["t_p [h]"].std() > 0
+        first = rows.iloc[0]
+        one = kinetics.solve(
+            s.with_values(quantities={"t_p": first["t_p [h]"] * 3600}), [0.0, 3600.0 * 200]
+        )
+        assert first["t_max D [s]"] == pytest.approx(
+            one.summary("s")["D"]["t_max"], rel=1e-9, abs=0
+        )
+
+
+def test_a_set_outside_the_domain_of_a_definition_is_named():
+    s = kinetics.parse(GENERATOR)
+    with pytest.raises(UsageError) as info:
+        kinetics.sweep(s, {"f": [50, 120]}, [0.0, 3600.0])
+    assert str(info.value) == (
+        "set 1 (f [%] = 120): rate constant lam_s = (1 - f) * ln(2) / t_p becomes negative "
+        "(-7.70164e-07); give values that keep every rate constant at or above 0"
+    )
+
+
+def test_cli_sweep_of_a_named_quantity(tmp_path, capsys):
+    path = tmp_path / "g.scheme"
+    path.write_text(GENERATOR, encoding="utf-8")
+    out = tmp_path / "s.csv"
+    argv = ["sweep", str(path), "--vary", "t_p=40:60:5:h", "--until", "200h", "--out", str(out)]
+    assert main([*argv, "--no-caution"]) == 0
+    assert pd.read_csv(out)["t_p [h]"].tolist() == [40.0, 45.0, 50.0, 55.0, 60.0]
+
+
+def test_a_sweep_in_activity_units_equals_solves_in_activity_units():
+    # heights, limits and curves as activities with each set's decay constants: every row
+    # equals Solution.in_activity of a solve with that t_p
+    s = kinetics.parse(GENERATOR)
+    times = [0.0, 100 * 3600.0]
+    table, curves = kinetics.sweep(s, ["t_p=40,60"], times, curves=True, activity="MBq")
+    assert "c_max D [MBq]" in table.columns
+    assert curves.name == "activity"
+    for k, row in enumerate(table.itertuples(index=False)):
+        one = kinetics.solve(s.with_values(quantities={"t_p": row[0] * 3600}), times)
+        active = one.in_activity("MBq")
+        assert row[3] == pytest.approx(active.summary("s")["D"]["c_max"], rel=1e-12, abs=0)
+        np.testing.assert_allclose(curves.values[k], active.concentrations, rtol=1e-12, atol=0)
+    assert (table["limit G [MBq]"] == 0).all()
+    assert np.signbit(table["limit G [MBq]"]).sum() == 0
+
+
+def test_a_named_temperature_is_swept_in_degrees_celsius():
+    # T_ref of a Q10 law: 20, 25, 30 degC = 293.15, 298.15, 303.15 K (SI brochure, 9th ed.,
+    # 2.3.1); each row equals a solve with that T_ref, and the column keeps the degrees
+    s = kinetics.parse(
+        "T_ref = 25 degC\nA -> B  k = q10(0.1 1/h, T_ref, 2.5)\ntemperature = 30 degC\n"
+        "start A = 1 mol/L\n"
+    )
+    table = kinetics.sweep(s, ["T_ref=20:30:3:degC"], [0.0, 36000.0])
+    assert table["T_ref [degC]"].tolist() == [20.0, 25.0, 30.0]
+    for celsius, half_life in zip((20, 25, 30), table["half_life A [s]"], strict=True):
+        one = kinetics.solve(s.with_values(quantities={"T_ref": celsius + 273.15}), [0, 1.0])
+        assert half_life == pytest.approx(one.summary("s")["A"]["half_life"], rel=1e-12, abs=0)

@@ -44,7 +44,7 @@ LAYERS = [
         "_block_kernels",
     ],
     ["analysis", "solution"],
-    ["parameters", "sweep", "sweep_summary", "_sweep_kernels", "fit", "measurements"],
+    ["parameters", "sweep", "sweep_summary", "_sweep_kernels", "fit", "measurements", "optimise"],
     ["output"],
     ["cli", "__main__"],
 ]

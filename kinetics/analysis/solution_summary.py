@@ -3,14 +3,17 @@
 :func:`compute_summary` runs :func:`kinetics.analysis.summarise_all` on the scheme of a
 :class:`~kinetics.solution.Solution` over its time window and reports concentrations in
 the solution's unit; :func:`summary_in_units` converts every time from seconds to the
-unit the user reads.  ``Solution.summary``, ``solve --json``, the spreadsheet, the plot
-and the report all show these mappings.
+unit the user reads.  A scheme with ``require`` lines also gets when each is first broken
+and when all hold together (:mod:`kinetics.analysis.requirements`).
+``Solution.summary``, ``solve --json``, the spreadsheet, the plot and the report all show
+these mappings.
 """
 
 from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
+from kinetics.analysis.requirements import requirement_times
 from kinetics.analysis.summary import summarise_all
 from kinetics.jsonready import finite_or_none
 from kinetics.units import time_factor
@@ -19,12 +22,14 @@ if TYPE_CHECKING:
     from kinetics.solution import Solution
 
 __all__ = [
+    "ACTIVITY_MAXIMUM_NOTE",
     "AREA_KEYS",
     "CONCENTRATION_KEYS",
     "SUMMARY_MAX",
     "SUMMARY_SKIPPED_NOTE",
     "TIME_KEYS",
     "Summary",
+    "activity_summary",
     "compute_summary",
     "summary_in_units",
 ]
@@ -52,6 +57,10 @@ TIME_KEYS = frozenset(
         "time_to_limit",
         "mean_residence_time",
         "time",
+        "first_broken",
+        "holds_between",
+        "all_hold_from",
+        "all_hold_until",
     }
 )
 #: Keys that hold an area under a curve [concentration * s].
@@ -69,11 +78,19 @@ class Summary(dict):
         Relaxation times, oscillation periods, the note on equal constants, the time for all
         species to come within 1 % of their limits, end products and their selectivity
         (see :class:`kinetics.analysis.SchemeSummary`); JSON key ``scheme_summary``.
+    requirements : dict
+        For a scheme with ``require`` lines: ``requirements`` (one object per line:
+        ``text``, ``first_broken``, ``beyond_window``...), ``all_hold_from`` and
+        ``all_hold_until`` (see
+        :meth:`kinetics.analysis.requirements.RequirementTimes.to_dict`); empty otherwise.
     """
 
-    def __init__(self, species=(), scheme: dict | None = None) -> None:
+    def __init__(
+        self, species=(), scheme: dict | None = None, requirements: dict | None = None
+    ) -> None:
         super().__init__(species)
         self.scheme = dict(scheme or {})
+        self.requirements = dict(requirements or {})
 
 
 def compute_summary(solution: Solution) -> Summary | None:
@@ -96,10 +113,15 @@ def compute_summary(solution: Solution) -> Summary | None:
     scheme = solution.scheme
     if len(scheme.species) > SUMMARY_MAX:
         return None
+    checked = {}
     if solution.after is not None:  # a run with operations: on its piecewise solution
         from kinetics.analysis.run_summary import summarise_run
 
         out, scheme_wide = summarise_run(solution.in_unit(scheme.concentration_unit))
+        if scheme.requirements:
+            scheme_wide["timeline_note"] += (
+                "; the requirements of the file are not checked on a run with operations"
+            )
     else:
         feed = scheme.feed_vector if scheme.feed else None
         window = float(solution.times[-1])
@@ -114,6 +136,16 @@ def compute_summary(solution: Solution) -> Summary | None:
         )
         out = {name: s.to_dict() for name, s in per.items()}
         scheme_wide = whole.to_dict()
+        if scheme.requirements:
+            checked = requirement_times(
+                K,
+                scheme.initial_vector,
+                scheme.requirements,
+                scheme.species_names,
+                feed=feed,
+                t_window=window,
+                K_low=K_low,
+            ).to_dict()
     if solution.unit_factors is not None:  # reported in another unit (Solution.in_unit)
         factors = dict(zip(solution.species, solution.unit_factors, strict=True))
         for name, factor in factors.items():
@@ -122,11 +154,13 @@ def compute_summary(solution: Solution) -> Summary | None:
         # those of the amounts of substance)
         for key in ("amount_formed_at_window_end", "amount_formed_in_limit"):
             formed = scheme_wide.get(key)
-            if formed:
+            if formed and solution.activity_unit is not None:
+                scheme_wide.pop(key)  # end products are stable: their activity is 0
+            elif formed:
                 scheme_wide[key] = {
                     p: None if v is None else v * float(factors[p]) for p, v in formed.items()
                 }
-    return Summary(out, scheme_wide)
+    return Summary(out, scheme_wide, checked)
 
 
 def _scale_concentrations(entry: dict, factor: float) -> None:
@@ -160,4 +194,55 @@ def summary_in_units(summary: dict[str, dict], time_unit: str) -> Summary:
     """
     factor = time_factor(time_unit)
     scheme = _convert_times(getattr(summary, "scheme", {}), "", factor)
-    return Summary({name: _convert_times(d, "", factor) for name, d in summary.items()}, scheme)
+    checked = _convert_times(getattr(summary, "requirements", {}), "", factor)
+    return Summary(
+        {name: _convert_times(d, "", factor) for name, d in summary.items()}, scheme, checked
+    )
+
+
+#: Why an activity peaks when its amount does (the note of :func:`activity_summary`).
+ACTIVITY_MAXIMUM_NOTE = (
+    "the activity of a species is its decay constant times its number of atoms; the "
+    "decay constants are constant in time here, so each activity maximum falls at the "
+    "time of the amount maximum (it would not if a decay constant changed with time)"
+)
+
+
+def activity_summary(solution: Solution, summary: dict | None) -> dict | None:
+    """What a solution in activity units adds to its summary (JSON key ``activity``).
+
+    Parameters
+    ----------
+    solution : Solution
+        In activity units (:meth:`kinetics.solution.Solution.in_activity`).
+    summary : dict or None
+        Its summary, already in the unit of time of the report
+        (:func:`summary_in_units`).
+
+    Returns
+    -------
+    dict or None
+        ``unit``; ``decay_constants_per_s`` (species -> :math:`\\lambda` [1/s]);
+        ``maxima`` (species -> ``time`` and ``activity`` of the interior maximum of each
+        decaying species that is formed, in the report's units); ``maximum_note``
+        (:data:`ACTIVITY_MAXIMUM_NOTE`); ``equilibria`` (the long-time ratio of each
+        daughter's activity to its parent's, :func:`kinetics.activity.equilibria`).
+        None for a solution in concentrations.
+    """
+    from kinetics import activity
+
+    if solution.activity_unit is None:
+        return None
+    scheme = solution.scheme
+    lam = activity.decay_constants(scheme)
+    maxima = {}
+    for name, entry in (summary or {}).items():
+        if entry.get("t_max") is not None and lam[name] > 0:
+            maxima[name] = {"time": entry["t_max"], "activity": entry.get("c_max")}
+    return {
+        "unit": solution.activity_unit,
+        "decay_constants_per_s": {name: float(value) for name, value in lam.items()},
+        "maxima": maxima,
+        "maximum_note": ACTIVITY_MAXIMUM_NOTE,
+        "equilibria": [e.to_dict() for e in activity.equilibria(scheme)],
+    }

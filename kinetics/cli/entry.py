@@ -4,7 +4,7 @@
 status: 0 on success, 2 for a user mistake (bad file, bad option, a wrong value of
 any kind: every :class:`~kinetics.errors.KineticsError`), with one clear message on
 stderr and no traceback (``--debug`` shows one).  The commands live one family per
-module of this package; ``fit`` and ``sweep`` are imported only when named (or listed
+module of this package; ``fit``, ``sweep`` and ``optimise`` are imported only when named (or listed
 by ``--help``), so that ``solve`` and ``check`` start without them.
 """
 
@@ -34,7 +34,11 @@ __all__ = [
 
 #: Commands defined in their own modules, imported only when named or listed by
 #: ``--help`` (``solve`` and ``check`` start without them): name -> (module, object).
-_LAZY_COMMANDS = {"fit": ("kinetics.cli.fit", "fit"), "sweep": ("kinetics.cli.sweep", "sweep")}
+_LAZY_COMMANDS = {
+    "fit": ("kinetics.cli.fit", "fit"),
+    "sweep": ("kinetics.cli.sweep", "sweep"),
+    "optimise": ("kinetics.cli.optimise", "optimise"),
+}
 
 
 class PipeClosed(Exception):

@@ -81,6 +81,8 @@ Free parameters (--free, comma separated, repeatable):
   k1             a rate constant of the scheme
   k3.A,k3.Ea     the Arrhenius prefactor and activation energy of k3
   start:A        the start concentration of A (shared by all data files)
+  t_p            a named quantity (t_p = 50 h): the constants defined from
+                 it follow it, and are reported with their intervals
 The scheme's values are the start of the search; everything not free is fixed.
 
 \b

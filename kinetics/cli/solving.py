@@ -28,6 +28,14 @@ _OUT_HELP = "Output file, format from the extension: " + ", ".join(
 )
 
 
+_ACTIVITY_OPTION = click.option(
+    "--activity",
+    "activity_unit",
+    help="Report activities A = λN instead of concentrations, in this unit: Bq, kBq, MBq, "
+    "GBq, Ci, mCi, uCi (per volume, e.g. MBq/L, for a scheme per volume).",
+)
+
+
 def _plot_solution(result, scheme):
     """The solution on a grid fine enough to draw smooth curves (at least 201 points), with
     the times of every operation (each drawn as a jump)."""
@@ -41,6 +49,8 @@ def _plot_solution(result, scheme):
         return result
     grid = result.times if len(result.times) >= 201 else np.linspace(0.0, result.times[-1], 401)
     fine = sol.solve(scheme, np.union1d(grid, jumps))
+    if result.activity_unit is not None:
+        return fine.in_activity(result.activity_unit)
     return fine if result.unit_factors is None else fine.in_unit(result.concentration_unit)
 
 
@@ -67,22 +77,48 @@ _LOG_HELP = (
 )
 
 
-def _solve_and_summarise(scheme, times, time_unit, bar, conc_unit=None, log=None):
+def _check_activity(scheme, activity_unit, conc_unit) -> None:
+    """Refuse, before solving, ``--activity`` with ``--concentration-unit`` or a unit that
+    is no activity of the scheme's kind."""
+    if activity_unit is None:
+        return
+    if conc_unit is not None:
+        raise UsageError(
+            "give either --activity or --concentration-unit, not both",
+            "--activity MBq reports activities, --concentration-unit amounts or masses",
+        )
+    from kinetics.activity import activity_factors
+
+    activity_factors(scheme, activity_unit)
+
+
+def _solve_and_summarise(
+    scheme, times, time_unit, bar, conc_unit=None, activity_unit=None, sensitivity=False, log=None
+):
+    """The solution, its summary in ``time_unit`` and (when asked) the sensitivities of
+    the summary quantities (not for a run with operations: they are those of one stretch)."""
     from kinetics import solution as sol
     from kinetics.analysis.solution_summary import compute_summary, summary_in_units
+    from kinetics.analysis.summary_sensitivity import summary_sensitivities
 
     bar.describe("solving")
     result = sol.solve(scheme, times)
     unit = conc_unit or scheme.written_unit
-    if unit and unit != scheme.concentration_unit:
+    if activity_unit is not None:
+        result = result.in_activity(activity_unit)
+    elif unit and unit != scheme.concentration_unit:
         result = result.in_unit(unit)
     bar.step("summary quantities")
     raw = compute_summary(result)
     summary = summary_in_units(raw, time_unit) if raw is not None else None
     if summary is not None and log is not None:
         summary.scheme["temperature_log"] = log.summary(scheme, float(times[-1]))
+    sensitivities = None
+    if sensitivity and raw is not None and not scheme.timeline:
+        bar.describe("sensitivities")
+        sensitivities = summary_sensitivities(result, raw)
     bar.step()
-    return result, summary
+    return result, summary, sensitivities
 
 
 @click.command()
@@ -97,6 +133,13 @@ def _solve_and_summarise(scheme, times, time_unit, bar, conc_unit=None, log=None
 )
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object on stdout.")
 @click.option("--temperature-log", "log_path", type=click.Path(path_type=Path), help=_LOG_HELP)
+@_ACTIVITY_OPTION
+@click.option(
+    "--sensitivity",
+    is_flag=True,
+    help="Also report the normalised sensitivities ∂ln Q/∂ln p of the summary quantities to "
+    "every named quantity, rate constant and the temperature (exact; JSON key 'sensitivity').",
+)
 def solve(
     scheme_file,
     until,
@@ -109,6 +152,8 @@ def solve(
     outputs,
     as_json,
     log_path,
+    activity_unit,
+    sensitivity,
 ):
     """Solve a scheme exactly on a time grid; print or write the table and the summary.
 
@@ -123,6 +168,8 @@ def solve(
       kinetics solve networks/consecutive_intermediate.scheme --until '90 min' --points 91 \\
           --out table.csv --out table.xlsx --out curves.png
       kinetics solve networks/decay_pair_branching.scheme --times '0,6,12,24,48 h' --json
+      kinetics solve networks/generator_half_lives.scheme --until 5d --activity MBq
+      kinetics solve networks/consecutive_intermediate.scheme --until 2h --sensitivity
       kinetics solve networks/generator_daily_elution.scheme --until 10d --out eluates.csv
 
     A scheme with operations (at/every/from lines) is solved exactly stretch by stretch: a
@@ -144,18 +191,42 @@ def solve(
     species = species_list(species_text, scheme)
     if species:
         settings["species"] = species
+    _check_activity(scheme, activity_unit, conc_unit)
+    if sensitivity and scheme.timeline:
+        raise UsageError(
+            "--sensitivity is not available for a run with operations",
+            "leave it out, or sweep a parameter (kinetics sweep --vary) to see its effect",
+        )
     _check_sheet_sizes(paths, len(times), scheme)
     caution(no_caution)
     first_use_note()
     with progress(2, "solving") as bar:
-        result, summary = _solve_and_summarise(scheme, times, time_unit, bar, conc_unit, log)
+        result, summary, sensitivities = _solve_and_summarise(
+            scheme, times, time_unit, bar, conc_unit, activity_unit, sensitivity, log
+        )
     needs_document = as_json or any(p.suffix.lower() in (".json", ".parquet") for p in paths)
-    document = solution_json(result, time_unit, summary, settings) if needs_document else None
+    document = (
+        solution_json(result, time_unit, summary, settings, sensitivities)
+        if needs_document
+        else None
+    )
     # the result reaches stdout before any file is written: a full disk loses nothing
     if as_json:
         echo_long(json.dumps(document, indent=2, allow_nan=False, ensure_ascii=False))
     elif not paths:
-        render_solution(result, time_unit, summary=summary, species=species)
+        activity = document.get("activity") if document else None
+        if activity is None and activity_unit is not None:
+            from kinetics.analysis.solution_summary import activity_summary
+
+            activity = activity_summary(result, summary)
+        render_solution(
+            result,
+            time_unit,
+            summary=summary,
+            species=species,
+            activity=activity,
+            sensitivity=sensitivities,
+        )
     write_outputs(
         paths,
         lambda path: _write_output(
@@ -242,6 +313,7 @@ def _write_output(
 )
 @click.option("--title", help="Title of the report (default: the title in the scheme file).")
 @click.option("--temperature-log", "log_path", type=click.Path(path_type=Path), help=_LOG_HELP)
+@_ACTIVITY_OPTION
 def report(
     scheme_file,
     until,
@@ -254,6 +326,7 @@ def report(
     output,
     title,
     log_path,
+    activity_unit,
 ):
     """Write a self-contained HTML report: scheme, graph, inputs, summary, plot, table.
 
@@ -278,10 +351,13 @@ def report(
         settings["temperature_log"] = str(log_path)
     species = species_list(species_text, scheme)
     digest = hashlib.sha256(Path(scheme_file).read_bytes()).hexdigest()
+    _check_activity(scheme, activity_unit, conc_unit)
     caution(no_caution)
     first_use_note()
     with progress(4, "solving") as bar:
-        result, summary = _solve_and_summarise(scheme, times, time_unit, bar, conc_unit, log)
+        result, summary, sensitivities = _solve_and_summarise(
+            scheme, times, time_unit, bar, conc_unit, activity_unit, sensitivity=True, log=log
+        )
         bar.describe("drawing")
         html = build_report(
             scheme,
@@ -293,6 +369,7 @@ def report(
             species=species,
             title=title,
             plot_solution=_plot_solution(result, scheme),
+            sensitivity=sensitivities,
         )
         bar.step(f"writing {path.name}")
         write_report(path, html)

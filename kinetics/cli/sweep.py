@@ -36,10 +36,29 @@ def _check_table_path(path: Path | None, inputs, option: str) -> Path | None:
     return check_output_path(path, inputs)
 
 
+def _requirement_column(spec: str, plan) -> tuple[str, str]:
+    """``'first_broken:API >= 90 %'`` (or ``first_broken:1``) -> that requirement's column."""
+    wanted = spec.split(":", 1)[1].strip() if ":" in spec else ""
+    columns = [c for c in plan.columns if c.quantity == "first_broken"]
+    for k, col in enumerate(columns, 1):
+        if wanted in (col.species, str(k)):
+            return col.header, "first_broken"
+    listed = "; ".join(f"{k}: {c.species}" for k, c in enumerate(columns, 1))
+    raise UsageError(
+        f"--plot {spec!r} names no requirement of the scheme",
+        f"write first_broken:TEXT or first_broken:N ({listed})"
+        if columns
+        else "the scheme has no require line",
+    )
+
+
 def _plot_target(spec: str, plan) -> tuple[str, str]:
-    """``'t_max:B'`` -> the summary column of that quantity and species."""
+    """``'t_max:B'`` -> the summary column of that quantity and species;
+    ``'first_broken:API >= 90 %'`` -> the column of that requirement."""
     from kinetics.analysis import BATCH_QUANTITIES
 
+    if spec.strip().startswith("first_broken"):
+        return _requirement_column(spec, plan)
     m = re.match(r"^\s*(?P<q>\w+)\s*[:\s]\s*(?P<species>\S+)\s*$", spec)
     if not m or m["q"] not in BATCH_QUANTITIES:
         raise UsageError(
@@ -148,6 +167,8 @@ Parameters (NAME), as written in the scheme file:
                      k3 = arrhenius(A = ..., Ea = ...)
   temperature        the temperature (changes every Arrhenius constant)
   start:A, excess:W  a start concentration, an excess concentration
+  t_p                a named quantity (t_p = 50 h); the constants defined
+                     from it follow it exactly
 \b
 Values (--vary NAME=VALUES):
   LO:HI:N[:log][:UNIT]   N values from LO to HI, linear or log spacing
@@ -162,9 +183,10 @@ Monte Carlo (--samples N --spread NAME=SPREAD --seed S):
   ln k = ln k0 + ln(1.15) z, z standard normal (k0 is the median, the
   geometric standard deviation is 1.15); temperature and Ea are normal with
   an absolute standard deviation (temperature=2K, k3.Ea=2kJ/mol) or a
-  percentage.  --out then holds the percentile bands 2.5/50/97.5 of every
-  quantity per grid point, --samples-out every sample, --curves the bands
-  of the concentration curves.
+  percentage; a named quantity either way (t_p=10%, t_p=2h).  --out then
+  holds the percentile bands 2.5/50/97.5 of every quantity per grid point,
+  --samples-out every sample, --curves the bands of the concentration
+  curves.
 \b
 Examples:
   kinetics sweep networks/consecutive_intermediate.scheme --until 3h \\
@@ -228,7 +250,8 @@ Examples:
     "--plot",
     "plot_spec",
     metavar="QUANTITY:SPECIES",
-    help="Plot one quantity against the grid axes, e.g. t_max:B.",
+    help="Plot one quantity against the grid axes, e.g. t_max:B, or when a requirement is "
+    "first broken, e.g. 'first_broken:API >= 90 %'.",
 )
 @click.option("--plot-out", type=click.Path(path_type=Path), help="The plot file: .png or .svg.")
 @click.option(
@@ -273,6 +296,12 @@ Examples:
     help="Precision of the propagation engine for --curves.",
 )
 @click.option("--no-caution", is_flag=True, help="Do not print the two-line caution on stderr.")
+@click.option(
+    "--activity",
+    "activity_unit",
+    help="Heights, limits and curves as activities A = λN in this unit (MBq, GBq, Ci ...), "
+    "with each set's decay constants.",
+)
 def sweep(
     scheme_file,
     vary,
@@ -296,6 +325,7 @@ def sweep(
     keep_chunks,
     precision,
     no_caution,
+    activity_unit,
 ):
     """Sweep rate constants, Arrhenius parameters, temperature and start values.
 
@@ -322,6 +352,7 @@ def sweep(
         time_unit=time_unit,
         chunk_size=chunk_size,
         precision=precision,
+        activity_unit=activity_unit,
     )
     plot = _plot_choice(plot_spec, plan)
     caution(no_caution)

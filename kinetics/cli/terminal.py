@@ -391,6 +391,7 @@ def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> N
     whole-scheme quantities (relaxation times, selectivity...) of :attr:`Summary.scheme`."""
     from kinetics.output.summary_text import (
         SUMMARY_COLUMNS,
+        requirement_lines,
         scheme_lines,
         summary_header,
         summary_notes,
@@ -420,6 +421,11 @@ def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> N
         out.print("[bold]Whole scheme[/bold]")
         for label, text in lines:
             out.print(f"  {_escape(label)}: {_escape(text)}")
+    checked = requirement_lines(getattr(summary, "requirements", None) or {}, time_unit)
+    if checked:
+        out.print("[bold]Requirements[/bold] (on the exact solution)")
+        for label, text in checked:
+            out.print(f"  {_escape(label)}: {_escape(text)}")
 
 
 def render_solution(
@@ -429,6 +435,8 @@ def render_solution(
     summary: dict | None = None,
     species: list[str] | None = None,
     max_columns: int = 12,
+    activity: dict | None = None,
+    sensitivity: dict | None = None,
 ) -> None:
     """Print the summary table (when given) and the concentration table (about ``max_rows`` rows).
 
@@ -446,7 +454,15 @@ def render_solution(
         Columns to show (default: every species, at most ``max_columns`` of them).
     max_columns : int, optional
         Without ``species``, show only the first this many species and say so.
+    activity : dict, optional
+        What a solution in activity units adds to the summary
+        (:func:`kinetics.analysis.solution_summary.activity_summary`).
+    sensitivity : dict, optional
+        Sensitivities of the summary quantities, printed ranked
+        (:func:`kinetics.analysis.summary_sensitivity.ranked`).
     """
+    from kinetics.analysis.summary_sensitivity import ranked
+    from kinetics.output.summary_text import HINGE_HEADERS, activity_lines, hinge_rows
     from kinetics.units import time_factor
 
     out = console()
@@ -458,8 +474,22 @@ def render_solution(
         from kinetics.analysis.solution_summary import Summary
 
         kept = {k: v for k, v in summary.items() if not species or k in species}
-        shown = Summary(kept, getattr(summary, "scheme", None))
+        shown = Summary(
+            kept, getattr(summary, "scheme", None), getattr(summary, "requirements", None)
+        )
         render_summary(shown, time_unit, solution.concentration_unit, out)
+    lines = activity_lines(activity, time_unit)
+    if lines:
+        out.print("[bold]Activity maxima and equilibria[/bold]")
+        for label, text in lines:
+            out.print(f"  {_escape(label)}: {_escape(text)}")
+    if sensitivity is not None:
+        out.print("[bold]What this answer hinges on[/bold] (exact ∂ln Q/∂ln p, largest first)")
+        rows = hinge_rows(ranked(sensitivity))
+        if rows:
+            print_fitted(out, list(HINGE_HEADERS), rows, left=2)
+        else:
+            out.print("  no summary quantity depends on a parameter")
     # the table straight from the arrays (the command line never needs pandas)
     shown_species = species or solution.species
     unit = solution.concentration_unit
@@ -471,7 +501,7 @@ def render_solution(
     rows = list(range(0, n, step))
     if rows[-1] != n - 1:
         rows.append(n - 1)
-    title = "Concentrations[/bold] (exact)"
+    title = f"{'Activities' if solution.activity_unit else 'Concentrations'}[/bold] (exact)"
     if step > 1:
         title += f": {len(rows)} of {n} points shown (1 in {step}); --out writes them all"
     out.print(f"[bold]{title}")

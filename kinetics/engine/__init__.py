@@ -40,7 +40,11 @@ from kinetics.engine.propagate import (
     propagate_batch,
     propagate_certified,
 )
-from kinetics.engine.sensitivity import block_sensitivities, sensitivities
+from kinetics.engine.sensitivity import (
+    block_sensitivities,
+    point_sensitivities,
+    sensitivities,
+)
 from kinetics.engine.stretch import StretchPropagator
 
 __all__ = [
@@ -53,6 +57,7 @@ __all__ = [
     "block_sensitivities",
     "expm_nonnegative",
     "expm_nonnegative_certified",
+    "point_sensitivities",
     "propagate",
     "propagate_batch",
     "propagate_certified",

@@ -96,7 +96,8 @@ def _species_params(scheme, params) -> dict[str, int]:
         if q.kind == "start":
             owners.add(q.target)
         else:
-            owners.update(st.reactant for st in scheme.steps if st.constant == q.target)
+            driven = {q.target, *scheme.driven_by(q.target)} if q.kind == "quantity" else {q.target}
+            owners.update(st.reactant for st in scheme.steps if st.constant in driven)
         for o in owners:
             counts[o] = counts.get(o, 0) + 1
     return counts

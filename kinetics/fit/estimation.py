@@ -51,6 +51,7 @@ START_ENERGY = 8.0
 #: file near the truth rather than a search over decades.
 START_OPERATION = math.log(2.0)
 _ENERGY_RANGE = (-100e3, 1000e3)  # J/mol, search range of an activation energy
+_LINEAR_SPAN = 50.0  # search range of a named quantity not above 0, in units of its size
 _EPS = np.finfo(float).eps
 _MAX_POLISHED = 8  # distinct optima polished at most
 
@@ -63,11 +64,14 @@ _MAX_POLISHED = 8  # distinct optima polished at most
 def _bounds(model, theta0):
     lower, upper = [], []
     span = SEARCH_DECADES * math.log(10.0)
-    for p, t in zip(model.params, theta0, strict=True):
+    for j, (p, t) in enumerate(zip(model.params, theta0, strict=True)):
         if p.kind == "energy":
             scale = GAS_CONSTANT * model.t_ref
             lower.append(min(_ENERGY_RANGE[0] / scale, t - 1.0))
             upper.append(max(_ENERGY_RANGE[1] / scale, t + 1.0))
+        elif model.scale(j) is not None:  # a named quantity not above 0, in units of itself
+            lower.append(t - _LINEAR_SPAN)
+            upper.append(t + _LINEAR_SPAN)
         else:
             lower.append(t - span)
             upper.append(t + span)
@@ -88,10 +92,12 @@ def _start_points(model, theta0, lower, upper, starts, seed) -> np.ndarray:
             [
                 START_ENERGY
                 if q.kind == "energy"
+                else 1.0
+                if model.scale(j) is not None
                 else START_OPERATION
-                if q.kind in ("operation", "quantity")
+                if q.kind == "operation"
                 else START_DECADES * math.log(10.0)
-                for q in model.params
+                for j, q in enumerate(model.params)
             ]
         )
         for row in u:
@@ -182,6 +188,9 @@ def _search(model, params, starts, seed, tol, jacobian, max_evaluations) -> Sear
     lower, upper = _bounds(model, theta0)
     max_nfev = max_evaluations or 200 * (len(params) + 1)
     points = _start_points(model, theta0, lower, upper, starts, seed)
+    # starts where a definition of the scheme cannot take the values (f above 1 in
+    # k = (1 - f) ln 2 / t) are left out; the scheme's own values always stay
+    points = np.array([x for i, x in enumerate(points) if i == 0 or model.feasible(x)])
     loose = 1e-6 if len(points) > 1 else tol  # a single start goes straight to the optimum
     candidates = [
         _least_squares(model, x0, lower, upper, loose, jacobian, max_nfev) for x0 in points
@@ -346,9 +355,7 @@ def _display(model, j, t):
     """Fitted coordinate ``t`` of parameter ``j`` in its display unit (None stays None)."""
     if t is None:
         return None
-    q = model.params[j]
-    si = t * GAS_CONSTANT * model.t_ref if q.kind == "energy" else math.exp(t)
-    return si / q.si_per_unit
+    return model.si_of(j, t) / model.params[j].si_per_unit
 
 
 def _profile(model, search: Search, lin: Linearised, j: int):

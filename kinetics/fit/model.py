@@ -18,9 +18,9 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .. import parameters
+from .. import activity, parameters
 from ..engine import block_sensitivities
-from ..errors import DataError, UsageError
+from ..errors import ActivityError, DataError, ExpressionError, UsageError
 from ..measurements import (
     Measurements,
     measurements_from_frame,
@@ -36,6 +36,7 @@ if TYPE_CHECKING:
     from ..scheme import Scheme
 
 __all__ = [
+    "OUTSIDE",
     "RELATIVE_FLOOR",
     "WEIGHTS",
     "Model",
@@ -56,6 +57,9 @@ WEIGHTS = ("equal", "relative", "column")
 RELATIVE_FLOOR = 1e-3
 
 
+#: The weighted residual of every point where the values leave the domain of a definition.
+OUTSIDE = 1e100
+
 #: A free parameter of a fit: what its name refers to (see :mod:`kinetics.parameters`).
 Parameter = Target
 
@@ -68,7 +72,8 @@ def parse_free(free: str | Sequence[str], scheme: Scheme) -> list[Parameter]:
     free : str or sequence of str
         Names, each item may hold several separated by commas: ``k1`` (a rate
         constant), ``k3.A`` / ``k3.Ea`` (Arrhenius parameters of ``k3``),
-        ``start:A`` (the start concentration of ``A``).
+        ``start:A`` (the start concentration of ``A``), ``t_p`` (a named quantity that
+        constants are defined from; they follow it).
     scheme : Scheme
 
     Returns
@@ -162,7 +167,8 @@ class Run:
     k_base: np.ndarray  # per constant [SI] at this run's conditions
     c0: np.ndarray
     feed: np.ndarray | None
-    fixed: dict = field(default_factory=dict)
+    fixed: dict = field(default_factory=dict)  # constants the run's conditions set [SI]
+    activities: dict = field(default_factory=dict)  # start activities: name -> matrix index
 
 
 class Model:
@@ -186,36 +192,43 @@ class Model:
             for p in params
             if p.kind in ("constant", "prefactor", "energy")
         }
+        self.quantity_of = {p.target: j for j, p in enumerate(params) if p.kind == "quantity"}
         self.evaluations = 0
         self.jacobian_evaluations = 0
         self.n_points = int(sum(r.y.size for r in runs))
 
     # -- coordinates ------------------------------------------------------------------
+    def scale(self, j: int) -> float | None:
+        """The unit of a linear coordinate θ_j [SI]: R T_ref for an activation energy, the
+        size of the file's value for a named quantity not above 0 (an activation
+        entropy); None for the logarithmic coordinates of every other parameter."""
+        p = self.params[j]
+        if p.kind == "energy":
+            return GAS_CONSTANT * self.t_ref
+        if p.log:
+            return None
+        return abs(p.nominal) if math.isfinite(p.nominal) and p.nominal != 0 else 1.0
+
     def theta_of(self, values_si: dict[str, float]) -> np.ndarray:
         out = []
-        for p in self.params:
-            v = values_si[p.name]
-            out.append(v / (GAS_CONSTANT * self.t_ref) if p.kind == "energy" else math.log(v))
+        for j, p in enumerate(self.params):
+            v, scale = values_si[p.name], self.scale(j)
+            out.append(math.log(v) if scale is None else v / scale)
         return np.array(out)
+
+    def si_of(self, j: int, t: float) -> float:
+        """The SI value of coordinate ``t`` of parameter ``j``."""
+        scale = self.scale(j)
+        return math.exp(t) if scale is None else t * scale
 
     def si_values(self, theta) -> np.ndarray:
         """Parameter values in SI (start values in the concentration unit)."""
         theta = np.asarray(theta, dtype=float)
-        return np.array(
-            [
-                t * GAS_CONSTANT * self.t_ref if p.kind == "energy" else math.exp(t)
-                for p, t in zip(self.params, theta, strict=True)
-            ]
-        )
+        return np.array([self.si_of(j, t) for j, t in enumerate(theta)])
 
     def dsi_dtheta(self, theta) -> np.ndarray:
         si = self.si_values(theta)
-        return np.array(
-            [
-                GAS_CONSTANT * self.t_ref if p.kind == "energy" else v
-                for p, v in zip(self.params, si, strict=True)
-            ]
-        )
+        return np.array([v if self.scale(j) is None else self.scale(j) for j, v in enumerate(si)])
 
     def run_state(self, run: Run, theta, derivatives: bool):
         """Step rates, start vector, and d(rates)/dθ_j, d(c0)/dθ_j for one run."""
@@ -232,9 +245,7 @@ class Model:
                 dk[j, c] = si[j]  # d k / d ln k
             elif p.kind in ("prefactor", "energy"):
                 arrhenius.setdefault(self.const_of[p.target], {})[p.kind] = j
-            elif p.kind in ("operation", "quantity"):
-                continue  # only runs with operations (solved by _with_operations)
-            else:
+            elif p.kind == "start":
                 i = self.scheme.index[p.target]
                 c0[i] = si[j]
                 dc0[j, i] = si[j]  # d c0 / d ln c0
@@ -251,45 +262,55 @@ class Model:
                 dk[parts["prefactor"], c] = k[c]
             if "energy" in parts:
                 dk[parts["energy"], c] = -k[c] * self.t_ref / run.temperature
-        self._follow(run, k, dk, derivatives)
+        self._follow(run, k, dk, si, theta, derivatives)
         rates = self.phi * k[self.step_const]
+        drates = self.phi[None, :] * dk[:, self.step_const] if derivatives else None
+        if run.activities:  # start activities: n = A / (lambda N_A), lambda from the rates
+            amounts = activity.start_amounts_for_rates(self.scheme, rates[None])
+            lam = activity.decay_rates(self.scheme, rates)
+            dlam = activity.decay_rates(self.scheme, drates) if derivatives else None
+            for name, i in run.activities.items():
+                c0[i] = amounts[name][0]
+                if dlam is not None:
+                    dc0[:, i] = activity.start_amount_slopes(c0[i], lam[i], dlam[:, i])
         if not derivatives:
             return rates, c0, None, None
-        drates = self.phi[None, :] * dk[:, self.step_const]
         return rates, c0, drates, dc0
 
-    def _follow(self, run: Run, k: np.ndarray, dk: np.ndarray, derivatives: bool) -> None:
+    def _follow(self, run: Run, k, dk, si, theta, derivatives: bool) -> None:
         """Constants defined from the fitted ones follow them (in place), with derivatives.
 
-        The followers are evaluated exactly (:meth:`kinetics.scheme.Scheme.exact_constants`);
-        their derivatives by the chain rule, with each partial derivative from a central
-        difference of exact evaluations at a relative step of 2^-40 (rational definitions
-        differentiate exactly; the others carry about 1e-25 relative).
+        The followers are evaluated exactly (:meth:`kinetics.scheme.Scheme.exact_constants`)
+        and differentiated exactly by the chain rule through the definitions
+        (:meth:`kinetics.scheme.Scheme.constant_slopes`, no finite differences).
         """
         free = [self.const_names[c] for c in sorted(set(self.const_of.values()))]
+        sources = free + list(self.quantity_of)
         followers = [
             f
-            for f in dict.fromkeys(x for c in free for x in self.scheme.driven_by(c))
-            if f not in free
+            for f in dict.fromkeys(x for c in sources for x in self.scheme.driven_by(c))
+            if f not in free and f not in run.fixed
         ]
         if not followers:
             return
-        at = {c: Fraction(float(k[self.const_names.index(c)])) for c in free}
-        exact = self.scheme.exact_constants(run.temperature, at)
         index = {name: i for i, name in enumerate(self.const_names)}
+        at = {c: Fraction(float(k[index[c]])) for c in free}
+        at.update({q: Fraction(float(si[j])) for q, j in self.quantity_of.items()})
+        given = {**{c: Fraction(v) for c, v in run.fixed.items()}, **at}
+        exact = self.scheme.exact_constants(run.temperature, given)
         for f in followers:
             k[index[f]] = float(exact[f])
         if not derivatives:
             return
-        for c in free:
-            h = at[c] * Fraction(1, 2**40)
-            if h == 0:
-                continue
-            up = self.scheme.exact_constants(run.temperature, {**at, c: at[c] + h})
-            down = self.scheme.exact_constants(run.temperature, {**at, c: at[c] - h})
-            for f in followers:
-                slope = float((up[f] - down[f]) / (2 * h))
-                dk[:, index[f]] += slope * dk[:, index[c]]
+        dsi = self.dsi_dtheta(theta)
+        slopes = self.scheme.constant_slopes(sources, run.temperature, given)
+        for f in followers:
+            for source, slope in slopes[f].items():
+                if source in self.quantity_of:
+                    j = self.quantity_of[source]
+                    dk[j, index[f]] += float(slope) * dsi[j]
+                else:
+                    dk[:, index[f]] += float(slope) * dk[:, index[source]]
 
     def _with_operations(self, run: Run, theta, derivatives: bool):
         """Values of a run with operations, and their derivatives by central differences.
@@ -323,35 +344,38 @@ class Model:
         return run.data.conditions
 
     def _solve_run(self, run: Run, theta, derivatives: bool):
+        """Concentrations at the run's times and, with ``derivatives``, dc/dθ_j: the part
+        through the rate matrix (the Fréchet derivative) plus the part through the start
+        values (a start value, or a start activity that follows a decay constant); a run
+        with operations is solved stretch by stretch (:meth:`_with_operations`)."""
         if self.scheme.timeline:
             return self._with_operations(run, theta, derivatives)
         rates, c0, drates, dc0 = self.run_state(run, theta, derivatives)
         K = self.pattern.dense(rates)
+        rate_params = [j for j, p in enumerate(self.params) if p.kind != "start"]
+        start_params = [j for j in range(len(self.params)) if derivatives and np.any(dc0[j])]
         if self.engine == "entrywise":
             from ..engine import propagate, sensitivities
 
             c = propagate(K, c0, run.times, run.feed)
             if not derivatives:
                 return c, None
-            rate_params = [j for j, p in enumerate(self.params) if p.kind != "start"]
             S = np.zeros((len(self.params), run.times.size, K.shape[0]))
             if rate_params:
                 E = self.pattern.dense(drates[rate_params])
                 S[rate_params] = sensitivities(K, c0, run.times, E, run.feed)
-            for j, p in enumerate(self.params):
-                if p.kind == "start":
-                    S[j] = propagate(K, dc0[j], run.times)
+            for j in start_params:
+                S[j] += propagate(K, dc0[j], run.times)
             return c, S
         if not derivatives:
             c, _ = block_sensitivities(K, c0, run.times, None, run.feed)
             return c, None
-        rate_params = [j for j, p in enumerate(self.params) if p.kind != "start"]
-        start_params = [j for j, p in enumerate(self.params) if p.kind == "start"]
         E = self.pattern.dense(drates[rate_params]) if rate_params else None
         V = dc0[start_params] if start_params else None
         c, S_part = block_sensitivities(K, c0, run.times, E, run.feed, V)
-        S = np.empty((len(self.params), run.times.size, K.shape[0]))
-        S[rate_params + start_params] = S_part
+        S = np.zeros((len(self.params), run.times.size, K.shape[0]))
+        S[rate_params] = S_part[: len(rate_params)]
+        S[start_params] += S_part[len(rate_params) :]
         return c, S
 
     def predictions(self, theta) -> list[np.ndarray]:
@@ -363,22 +387,42 @@ class Model:
         return out
 
     def residuals(self, theta) -> np.ndarray:
-        """Weighted residuals (model − data)/σ of all runs."""
+        """Weighted residuals (model − data)/σ of all runs.
+
+        Values a definition of the scheme cannot take (a named quantity that makes a
+        constant negative) give residuals of :data:`OUTSIDE` each: the search steps back.
+        """
         self.evaluations += 1
         parts = []
         for run in self.runs:
-            c, _ = self._solve_run(run, theta, False)
+            try:
+                c, _ = self._solve_run(run, theta, False)
+            except (ExpressionError, ActivityError):
+                return np.full(self.n_points, OUTSIDE)
             parts.append((c[run.t_index, run.s_index] - run.y) / run.sigma)
         return np.concatenate(parts)
 
     def jacobian(self, theta) -> np.ndarray:
-        """Exact Jacobian of :meth:`residuals` with respect to θ, shape (N, p)."""
+        """Exact Jacobian of :meth:`residuals` with respect to θ, shape (N, p) (zero where
+        the values leave the domain of a definition, as :meth:`residuals` is constant)."""
         self.jacobian_evaluations += 1
         parts = []
         for run in self.runs:
-            _, S = self._solve_run(run, theta, True)
+            try:
+                _, S = self._solve_run(run, theta, True)
+            except (ExpressionError, ActivityError):
+                return np.zeros((self.n_points, len(self.params)))
             parts.append((S[:, run.t_index, run.s_index] / run.sigma).T)
         return np.concatenate(parts, axis=0)
+
+    def feasible(self, theta) -> bool:
+        """True when every definition of the scheme takes the values θ (cheap: no solve)."""
+        try:
+            for run in self.runs:
+                self.run_state(run, theta, False)
+        except (ExpressionError, ActivityError):
+            return False
+        return True
 
 
 def as_runs(data, scheme) -> list[Measurements]:
@@ -508,6 +552,12 @@ def build_runs(scheme, datasets, params, weights) -> list[Run]:
         c0 = np.zeros(len(scheme.species))
         for name, value in initial.items():
             c0[scheme.index[name]] = value
+        # start values written as activities follow the decay constants (unless set)
+        activities = {
+            name: scheme.index[name]
+            for name in scheme.start_activities
+            if name not in free_starts and f"start:{name}" not in m.conditions
+        }
         times = np.unique(m.times)
         mask = ~np.isnan(m.values)
         rows, cols = np.nonzero(mask)
@@ -530,6 +580,8 @@ def build_runs(scheme, datasets, params, weights) -> list[Run]:
                 k_base=k_base,
                 c0=c0,
                 feed=scheme.feed_vector if scheme.feed else None,
+                fixed=given,
+                activities=activities,
             )
         )
     return runs

@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from fractions import Fraction
 from typing import TYPE_CHECKING
 
 import numpy as np
@@ -25,6 +26,10 @@ __all__ = [
     "make_result",
     "scheme_with_estimates",
 ]
+
+
+#: Kinds of free parameters that other constants can be defined from.
+_SOURCES = ("quantity", "constant")
 
 
 @dataclass(frozen=True)
@@ -145,6 +150,56 @@ class FitResult:
             self.scheme, self.parameters, self._si, self.data[run].conditions
         )
 
+    def followed(self) -> dict[str, dict]:
+        """The rate constants that follow the fitted values (defined from a free named
+        quantity or constant), with the linearised 95 % interval they inherit.
+
+        .. math:: \\sigma_k^2 = g^T C g, \\qquad g_j = \\partial k / \\partial p_j
+
+        with :math:`C` the covariance of the estimates (delta method) and :math:`g` the
+        exact derivatives of the definitions (:meth:`kinetics.scheme.Scheme.constant_slopes`).
+
+        Returns
+        -------
+        dict of str to dict
+            Constant -> ``value``, ``unit`` (as the file writes the constant),
+            ``std_error``, ``ci95``; empty when no constant follows a free value.
+        """
+        import scipy.stats
+
+        from ..units import parse_unit
+
+        free = {p.target: j for j, p in enumerate(self.parameters) if p.kind in _SOURCES}
+        names = [
+            f
+            for f in dict.fromkeys(x for c in free for x in self.scheme.driven_by(c))
+            if f not in free
+        ]
+        if not names:
+            return {}
+        given = {c: Fraction(float(self._si[j])) for c, j in free.items()}
+        temperature = self.data[0].conditions.get("temperature")
+        values = self.scheme.exact_constants(temperature, given)
+        slopes = self.scheme.constant_slopes(list(free), temperature, given)
+        dof = self.statistics.get("degrees_of_freedom", 0)
+        t_crit = float(scipy.stats.t.ppf(0.975, dof)) if dof > 0 else math.nan
+        out = {}
+        for name in names:
+            unit = self.scheme.constants[name].unit
+            factor = float(parse_unit(unit).factor)
+            g = np.zeros(len(self.parameters))
+            for c, j in free.items():
+                g[j] = float(slopes[name].get(c, 0)) * self.parameters[j].si_per_unit / factor
+            value = float(values[name]) / factor
+            se = math.sqrt(max(float(g @ self.covariance @ g), 0.0))
+            out[name] = {
+                "value": value,
+                "unit": unit,
+                "std_error": se,
+                "ci95": (value - t_crit * se, value + t_crit * se),
+            }
+        return out
+
     def predict(self, times, run: int = 0) -> Solution:
         """Fitted curves of data set ``run`` at ``times`` [s] (entrywise engine)."""
         from ..solution import solve
@@ -179,7 +234,9 @@ class FitResult:
 
         Keys: ``estimates`` (name -> ``value``, ``unit``, ``std_error``, ``ci95``,
         ``ci95_profile``, ``relative_std_error``, ``t_value``, ``p_value``,
-        ``initial``), ``correlation`` (``names``, ``matrix``), ``covariance``,
+        ``initial``), ``followed`` (the constants defined from free values, see
+        :meth:`followed`: name -> ``value``, ``unit``, ``std_error``, ``ci95``),
+        ``correlation`` (``names``, ``matrix``), ``covariance``,
         ``statistics``, ``warnings``, ``alternatives``, ``data``, ``weights``,
         ``concentration_unit``.
         """
@@ -196,8 +253,18 @@ class FitResult:
                 "p_value": _num(e.p_value),
                 "initial": _num(e.initial),
             }
+        followed = {
+            name: {
+                "value": _num(f["value"]),
+                "unit": f["unit"],
+                "std_error": _num(f["std_error"]),
+                "ci95": [_num(f["ci95"][0]), _num(f["ci95"][1])],
+            }
+            for name, f in self.followed().items()
+        }
         return {
             "estimates": estimates,
+            "followed": followed,
             "warnings": list(self.warnings),
             "statistics": _json_ready(self.statistics),
             "correlation": {

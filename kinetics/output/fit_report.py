@@ -75,6 +75,15 @@ def render_fit(result: FitResult) -> str:
     widths = [max(len(r[i]) for r in rows) for i in range(len(rows[0]))]
     lines = ["  ".join(cell.ljust(w) for cell, w in zip(r, widths, strict=True)) for r in rows]
     lines.insert(1, "  ".join("-" * w for w in widths))
+    followed = result.followed()
+    if followed:
+        lines.append("")
+        lines.append("constants that follow the fitted values (delta method):")
+        for name, f in followed.items():
+            lines.append(
+                f"  {name} = {_g(f['value'], 7)} {f['unit']}  "
+                f"95 % (linear) {_g(f['ci95'][0])} … {_g(f['ci95'][1])}"
+            )
     st = result.statistics
     lines.append("")
     lines.append(

@@ -162,6 +162,7 @@ def solution_json(
     time_unit: str,
     summary: dict | None = None,
     settings: dict | None = None,
+    sensitivity: dict | None = None,
 ) -> dict:
     """The ``solve --json`` object: table settings, the table and the summary.
 
@@ -173,13 +174,28 @@ def solution_json(
     summary : dict, optional
         Species -> quantities, already in ``time_unit`` (see
         :func:`kinetics.analysis.solution_summary.summary_in_units`);
-        written as ``null`` when not given.
+        written as ``null`` when not given.  A solution in activity units adds the key
+        ``activity`` (:func:`kinetics.analysis.solution_summary.activity_summary`), its
+        ``concentration_unit`` and ``concentrations`` then hold activities.
     settings : dict, optional
         How the grid was asked for (``until``, ``points``, ``times``), as written.
+    sensitivity : dict, optional
+        Normalised sensitivities of the summary quantities, key ``sensitivity``: quantity
+        -> species -> parameter -> value
+        (:func:`kinetics.analysis.summary_sensitivity.summary_sensitivities`).
+
+    Notes
+    -----
+    A scheme with ``require`` lines adds ``requirements`` (one object per line: ``text``,
+    ``first_broken`` in ``time_unit`` or null when it always holds, ``beyond_window``,
+    ``holds_at_start``, ``holds_between``), ``all_hold_from`` and ``all_hold_until`` (the
+    first window in which all hold together; ``all_hold_until`` null when it has no end,
+    both null when they never hold together).
     """
-    from kinetics.analysis.solution_summary import SUMMARY_SKIPPED_NOTE
+    from kinetics.analysis.solution_summary import SUMMARY_SKIPPED_NOTE, activity_summary
 
     times = solution.times / time_factor(time_unit)  # the time column of Solution.to_frame
+    activity = activity_summary(solution, summary)
     return {
         "source": solution.scheme.source,
         "title": solution.scheme.title,
@@ -192,6 +208,9 @@ def solution_json(
         "summary": summary,
         **({} if summary is not None else {"summary_note": SUMMARY_SKIPPED_NOTE}),
         "scheme_summary": getattr(summary, "scheme", None) or None,
+        **_requirements(summary),
+        **({"activity": activity} if activity is not None else {}),
+        **({"sensitivity": sensitivity} if sensitivity is not None else {}),
         "times": times.tolist(),
         "concentrations": {
             name: solution.concentrations[:, i].tolist() for i, name in enumerate(solution.species)
@@ -199,6 +218,19 @@ def solution_json(
         **_certificate(solution),
         "events": event_rows(solution, time_unit),
         **_timeline(solution),
+    }
+
+
+def _requirements(summary) -> dict:
+    """``requirements`` and ``all_hold_until`` (with ``all_hold_from``) of a scheme with
+    ``require`` lines, in the summary's time unit; nothing for a scheme without."""
+    checked = getattr(summary, "requirements", None)
+    if not checked:
+        return {}
+    return {
+        "requirements": checked["requirements"],
+        "all_hold_from": checked["all_hold_from"],
+        "all_hold_until": checked["all_hold_until"],
     }
 
 

@@ -188,7 +188,14 @@ def concentration_figure(
     drawn = _Drawn()
     for i, name in enumerate(names):
         _draw_species(panels, drawn, solution, t, i, name, len(names), summary, time_unit)
-    _axes(panels, drawn, solution.concentration_unit, time_unit, float(t[-1]) if t.size else 0.0)
+    _axes(
+        panels,
+        drawn,
+        solution.concentration_unit,
+        time_unit,
+        float(t[-1]) if t.size else 0.0,
+        solution.quantity,
+    )
     _mark_operations(panels, drawn, solution, time_unit)
     heading = title if title is not None else (solution.scheme.title or solution.scheme.source)
     if heading:  # the user's text, drawn as written ("$" starts no formula)
@@ -268,11 +275,18 @@ def _draw_species(p: _Panels, drawn: _Drawn, solution, t, i, name, count, summar
         drawn.labels.append(Label(text, ax_this, (tm, cm), below=False))
 
 
-def _axes(p: _Panels, drawn: _Drawn, unit: str, time_unit: str, t_end: float) -> None:
-    """Labels, limits, scales and titles of both panels."""
+def _axes(
+    p: _Panels,
+    drawn: _Drawn,
+    unit: str,
+    time_unit: str,
+    t_end: float,
+    quantity: str = "concentration",
+) -> None:
+    """Labels, limits, scales and titles of both panels (``quantity``: the axis word)."""
     for ax in (p.lin, p.log):
         ax.set_xlabel(f"time [{time_unit}]")
-        ax.set_ylabel(f"concentration [{unit}]")
+        ax.set_ylabel(f"{quantity} [{unit}]")
         ax.grid(True, color="0.88", linewidth=0.7)
         ax.set_xlim(0, t_end if t_end > 0 else 1)
     p.lin.set_ylim(bottom=0)

@@ -29,8 +29,13 @@ from kinetics.output.overview import (
 )
 from kinetics.output.summary_text import (
     DEFINITIONS,
+    HINGE_HEADERS,
+    REQUIREMENT_DEFINITION,
     SCHEME_DEFINITIONS,
     SUMMARY_COLUMNS,
+    activity_lines,
+    hinge_rows,
+    requirement_lines,
     scheme_lines,
     summary_header,
     summary_notes,
@@ -238,6 +243,12 @@ def _summary_section(summary: dict | None, time_unit: str, conc_unit: str) -> st
     if lines:
         parts.append("<h3>Whole scheme</h3>")
         parts.append(_table(["quantity", "value"], [[escape(a), escape(b)] for a, b in lines]))
+    checked = requirement_lines(getattr(summary, "requirements", None) or {}, time_unit)
+    if checked:
+        parts.append("<h3>Requirements</h3>")
+        parts.append(_table(["requirement", "when"], [[escape(a), escape(b)] for a, b in checked]))
+        label, _, rest = REQUIREMENT_DEFINITION.partition(": ")
+        parts.append(f'<dl class="defs"><dt>{escape(label)}</dt><dd>{escape(rest)}</dd></dl>')
     parts.append('<h3>Definitions</h3><dl class="defs">')
     texts = [DEFINITIONS.get(key) for key, _header, _ in SUMMARY_COLUMNS]
     for text in [*texts, *SCHEME_DEFINITIONS.values()]:
@@ -325,6 +336,7 @@ def build_report(
     title: str | None = None,
     plot_solution: Solution | None = None,
     generated: _dt.datetime | None = None,
+    sensitivity: dict | None = None,
 ) -> str:
     """The HTML text of the report.
 
@@ -350,6 +362,9 @@ def build_report(
         A finer solution used for the plot only (default: ``solution``).
     generated : datetime, optional
         Date of the report (default: now, UTC).
+    sensitivity : dict, optional
+        Sensitivities of the summary quantities: the ranked table "what this answer hinges
+        on" (:func:`kinetics.analysis.summary_sensitivity.summary_sensitivities`).
 
     Returns
     -------
@@ -368,6 +383,8 @@ def build_report(
     if solution.after is not None:
         parts.append(_timeline_section(scheme, solution, time_unit))
     parts.append(_summary_section(summary, time_unit, solution.concentration_unit))
+    parts.append(_activity_section(solution, summary, time_unit))
+    parts.append(_hinge_section(sensitivity))
     plotted = plot_solution or solution
     unit = solution.concentration_unit
     parts.append(_plot_section(plotted, time_unit, unit, summary, species, heading))
@@ -384,6 +401,33 @@ def build_report(
     )
     parts.append("</main></body></html>")
     return "\n".join(parts) + "\n"
+
+
+def _activity_section(solution: Solution, summary: dict | None, time_unit: str) -> str:
+    """Activity maxima and equilibria of a solution in activity units ("" otherwise)."""
+    from kinetics.analysis.solution_summary import activity_summary
+
+    lines = activity_lines(activity_summary(solution, summary), time_unit)
+    if not lines:
+        return ""
+    rows = [[escape(a), escape(b)] for a, b in lines]
+    return "<h3>Activity maxima and equilibria</h3>\n" + _table(["quantity", "value"], rows)
+
+
+def _hinge_section(sensitivity: dict | None) -> str:
+    """The ranked table "what this answer hinges on" ("" without sensitivities)."""
+    from kinetics.analysis.summary_sensitivity import ranked
+
+    rows = hinge_rows(ranked(sensitivity))
+    if not rows:
+        return ""
+    cells = [[escape(cell) for cell in row] for row in rows]
+    return (
+        "<h3>What this answer hinges on</h3>\n<p>Normalised sensitivities ∂ln Q/∂ln p of "
+        "the summary quantities, exact (Fréchet derivative of the exponential, implicit "
+        "differentiation at crossings and maxima), largest first.</p>\n"
+        + _table(list(HINGE_HEADERS), cells, {0})
+    )
 
 
 def _head(heading: str, scheme: Scheme, solution: Solution, sha256, settings, when) -> list:
@@ -441,10 +485,11 @@ def _plot_section(solution: Solution, time_unit: str, unit: str, summary, specie
 
     figure = concentration_figure(solution, time_unit, summary, species=species, title=heading)
     return (
-        "<h2>Concentrations</h2>\n"
+        f"<h2>{'Activities' if solution.activity_unit else 'Concentrations'}</h2>\n"
         '<figure id="concentration-plot">'
-        + _img(figure_bytes(figure, "png", dpi=110), "concentration against time")
-        + f"<figcaption>Concentration [{escape(unit)}] against time [{escape(time_unit)}], "
+        + _img(figure_bytes(figure, "png", dpi=110), f"{solution.quantity} against time")
+        + f"<figcaption>{solution.quantity.capitalize()} [{escape(unit)}] against time "
+        f"[{escape(time_unit)}], "
         "linear scale (left) and logarithmic scale (right). Stars mark maxima, open circles "
         "half-lives.</figcaption></figure>"
     )

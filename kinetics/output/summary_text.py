@@ -9,8 +9,13 @@ from __future__ import annotations
 
 __all__ = [
     "DEFINITIONS",
+    "HINGE_HEADERS",
+    "REQUIREMENT_DEFINITION",
     "SCHEME_DEFINITIONS",
     "SUMMARY_COLUMNS",
+    "activity_lines",
+    "hinge_rows",
+    "requirement_lines",
     "scheme_lines",
     "scheme_rows",
     "summary_header",
@@ -102,6 +107,14 @@ SCHEME_DEFINITIONS = {
         "product's share of all end products formed, at the end of the window and in the limit."
     ),
 }
+
+#: What the requirement lines mean (terminal, report, spreadsheet).
+REQUIREMENT_DEFINITION = (
+    "Requirements: for every require line, the first time it is broken (a root of the exact "
+    "solution, found after the end of the window too and then flagged) or 'holds'; and the "
+    "time window in which all of them hold together (the shelf life of a stability scheme, "
+    "the earliest and latest safe quench of a process)."
+)
 
 #: Columns of the summary table: (key, header, kind), kind is "time", "conc", "area" or "".
 SUMMARY_COLUMNS = (
@@ -229,10 +242,61 @@ def _record_lines(record: dict | None) -> list[tuple[str, str]]:
     return lines
 
 
+def _span(a, b, unit: str = "") -> str:
+    """``from 3 h on`` (no end) or ``from 3 to 5 h``."""
+    unit = f" {unit}" if unit else ""
+    return f"from {a:.6g}{unit} on" if b is None else f"from {a:.6g} to {b:.6g}{unit}"
+
+
+def requirement_lines(checked: dict, time_unit: str) -> list[tuple[str, str]]:
+    """The requirements of a summary as (label, text) pairs.
+
+    Parameters
+    ----------
+    checked : dict
+        :attr:`kinetics.analysis.solution_summary.Summary.requirements`, in ``time_unit``.
+    time_unit : str
+
+    Examples
+    --------
+    >>> row = {"text": "API >= 90 %", "first_broken": 10.5, "beyond_window": False,
+    ...        "holds_at_start": True, "holds_between": [[0.0, 10.5]]}
+    >>> checked = {"requirements": [row], "all_hold_from": 0.0, "all_hold_until": 10.5}
+    >>> for label, text in requirement_lines(checked, "d"):
+    ...     print(f"{label}: {text}")
+    require API >= 90 %: first broken at 10.5 d
+    all requirements hold [d]: from 0 to 10.5
+    """
+    rows = checked.get("requirements") or []
+    lines = []
+    for row in rows:
+        when = row.get("first_broken")
+        spans = row.get("holds_between") or []
+        if when is None:
+            text = "holds at all times" if row.get("holds_at_start") else "holds"
+        elif when == 0:
+            text = "broken from the start"
+        else:
+            text = f"first broken at {when:.6g} {time_unit}"
+            if row.get("beyond_window"):
+                text += " (after the window)"
+        again = [s for s in spans if s[0] > 0]
+        if again:
+            word = "holds again" if row.get("holds_at_start") else "holds"
+            text += f"; {word} " + ", ".join(_span(a, b, time_unit) for a, b in again)
+        lines.append((f"require {row.get('text', '')}", text))
+    if rows:
+        start, end = checked.get("all_hold_from"), checked.get("all_hold_until")
+        text = "never all together" if start is None else _span(start, end)
+        lines.append((f"all requirements hold [{time_unit}]", text))
+    return lines
+
+
 def scheme_rows(summary, time_unit: str, conc_unit: str) -> list[dict]:
     """The whole-scheme quantities of a :class:`~kinetics.analysis.solution_summary.Summary`
-    as rows ``quantity``, ``value``."""
+    as rows ``quantity``, ``value``, then its requirements (:func:`requirement_lines`)."""
     lines = scheme_lines(getattr(summary, "scheme", None) or {}, time_unit, conc_unit)
+    lines += requirement_lines(getattr(summary, "requirements", None) or {}, time_unit)
     return [{"quantity": label, "value": text} for label, text in lines]
 
 
@@ -286,3 +350,80 @@ def summary_notes(summary: dict[str, dict], time_unit: str, conc_unit: str) -> l
             notes.append(f"{name}: local maxima {listed}")
         notes.extend(f"{name}: {note}" for note in entry.get("notes") or [])
     return list(dict.fromkeys(notes))
+
+
+_EQUILIBRIUM_WORDS = {
+    "secular": "secular equilibrium",
+    "transient": "transient equilibrium",
+}
+
+
+def activity_lines(activity: dict | None, time_unit: str) -> list[tuple[str, str]]:
+    """What a summary in activity units adds, as (label, text) pairs: the activity maxima,
+    why they fall where the amounts peak, and the equilibria of daughters and parents.
+
+    Parameters
+    ----------
+    activity : dict or None
+        :func:`kinetics.analysis.solution_summary.activity_summary` (times in
+        ``time_unit``).
+    time_unit : str
+
+    Examples
+    --------
+    >>> lines = activity_lines({"unit": "MBq", "maxima": {"D": {"time": 18.5,
+    ...     "activity": 120.0}}, "maximum_note": "n", "equilibria": [{"parent": "P",
+    ...     "daughter": "D", "kind": "transient", "ratio": 1.1}]}, "h")
+    >>> lines[0]
+    ('activity maxima', 'D 120 MBq at 18.5 h')
+    >>> lines[2]
+    ('D/P in the long run', 'transient equilibrium: activity ratio 1.1')
+    """
+    if not activity:
+        return []
+    unit = activity["unit"]
+    maxima = activity.get("maxima") or {}
+    listed = "; ".join(
+        f"{name} {_listing([m['activity']])} {unit} at {_listing([m['time']])} {time_unit}"
+        for name, m in maxima.items()
+    )
+    lines = [("activity maxima", listed or "none inside the window")]
+    lines.append(("why there", activity.get("maximum_note", "")))
+    for e in activity.get("equilibria") or []:
+        label = f"{e['daughter']}/{e['parent']} in the long run"
+        if e["kind"] in _EQUILIBRIUM_WORDS:
+            text = f"{_EQUILIBRIUM_WORDS[e['kind']]}: activity ratio {_listing([e['ratio']])}"
+        else:
+            text = (
+                f"no equilibrium: {e['daughter']} decays no faster than what feeds "
+                f"{e['parent']}, so the ratio keeps growing"
+            )
+        lines.append((label, text))
+    return lines
+
+
+#: Headers of the ranked table "what this answer hinges on".
+HINGE_HEADERS = ("rank", "answer", "hinges most on", "then on", "reading")
+
+
+def hinge_rows(ranked_rows) -> list[list[str]]:
+    """The ranked sensitivities as table rows (:data:`HINGE_HEADERS`).
+
+    Parameters
+    ----------
+    ranked_rows : list of (quantity, species, [(parameter, value), ...])
+        :func:`kinetics.analysis.summary_sensitivity.ranked`.
+
+    Examples
+    --------
+    >>> hinge_rows([("t_max", "B", [("k2", -0.6), ("k1", -0.4)])])[0]
+    ['1', 't_max B', 'k2 (-0.6)', 'k1 (-0.4)', '1 % more k2: t_max B about 0.6 % lower']
+    """
+    rows = []
+    for rank, (key, species, found) in enumerate(ranked_rows, 1):
+        cells = [f"{name} ({value:.4g})" for name, value in found[:2]]
+        name, value = found[0]
+        way = "higher" if value > 0 else "lower"
+        reading = f"1 % more {name}: {key} {species} about {abs(value):.3g} % {way}"
+        rows.append([str(rank), f"{key} {species}", cells[0], [*cells, "—"][1], reading])
+    return rows

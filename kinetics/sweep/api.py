@@ -53,6 +53,7 @@ def sweep(
     precision: str = "double",
     engine: str = "local",
     scheduler: str | None = None,
+    activity: str | None = None,
 ) -> pd.DataFrame | tuple[pd.DataFrame, pd.DataFrame]:
     """Evaluate a scheme on a Cartesian grid of parameters; one summary row per set.
 
@@ -77,6 +78,9 @@ def sweep(
     engine : {"local", "dask"}
     scheduler : str, optional
         Dask scheduler address.
+    activity : str, optional
+        Report heights, limits and curves as activities in this unit (``"MBq"``), with the
+        decay constants of each set (:mod:`kinetics.activity`).
 
     Returns
     -------
@@ -116,6 +120,7 @@ def sweep(
             chunk_size=chunk_size,
             precision=precision,
             api=True,
+            activity_unit=activity,
         )
     parts, every = _in_memory(plan, curves, engine, scheduler)
     table = pd.concat([summary_frame(plan, r) for r in parts]) if parts else None
@@ -135,6 +140,7 @@ def monte_carlo(
     time_unit: str = "s",
     chunk_size: int = DEFAULT_CHUNK,
     precision: str = "double",
+    activity: str | None = None,
 ) -> tuple[pd.DataFrame, pd.DataFrame]:
     """Monte Carlo propagation of parameter uncertainty; samples and percentile bands.
 
@@ -150,7 +156,7 @@ def monte_carlo(
     seed : int
     grid : sequence of str or mapping, optional
         Grid axes; the samples are drawn around every grid point.
-    time_unit, chunk_size, precision
+    time_unit, chunk_size, precision, activity
         As for :func:`sweep`.
 
     Returns
@@ -182,6 +188,7 @@ def monte_carlo(
         chunk_size=chunk_size,
         precision=precision,
         api=True,
+        activity_unit=activity,
     )
     parts, _ = _in_memory(plan, False, "local", None)
     table = pd.concat([summary_frame(plan, r) for r in parts])

@@ -141,17 +141,41 @@ def chunk_result(
         from ..sweep_summary import summarise_batch
 
         q = summarise_batch(K, c0, feed, t_window=float(plan.times[-1]), K_low=K_low)
+    if plan.scheme.requirements:
+        from ..analysis.requirements import first_broken_batch
+
+        q["first_broken"] = first_broken_batch(
+            K, c0, plan.scheme.requirements, plan.scheme.species_names, feed,
+            float(plan.times[-1]), K_low=K_low,
+        )  # fmt: skip
     from ..solution import time_factor
 
     tf = time_factor(plan.time_unit)
+    factors = _activity_factors(plan, K, K_low)
     summary = np.empty((stop - start, len(plan.columns)))
     for j, col in enumerate(plan.columns):
         v = q[col.quantity][:, col.index]
-        summary[:, j] = v / tf if col.quantity in ("half_life", "t_max") else v
+        if col.quantity in ("half_life", "t_max", "first_broken"):
+            summary[:, j] = v / tf
+        else:
+            summary[:, j] = v if factors is None else v * factors[:, col.index]
     if not curves:
         return ChunkResult(index, start, stop, display, summary)
     conc, bound = _propagate_batch(K, K_low, c0, plan.times, feed, plan.precision)
+    if factors is not None:
+        conc = conc * factors[:, None, :]
     return ChunkResult(index, start, stop, display, summary, conc, bound)
+
+
+def _activity_factors(plan: SweepPlan, K, K_low) -> np.ndarray | None:
+    """Activity per amount of each set and species (b, n), or None for concentrations:
+    the decay constants are each set's :math:`-K_{ii}` (:mod:`kinetics.activity`)."""
+    if plan.activity_unit is None:
+        return None
+    from ..activity import activity_factors_for
+
+    decay = 0.0 - (np.diagonal(K, axis1=1, axis2=2) + np.diagonal(K_low, axis1=1, axis2=2))
+    return activity_factors_for(plan.scheme, decay, plan.activity_unit)
 
 
 def evaluate_chunk(plan: SweepPlan, k: int, curves: bool = False) -> ChunkResult:

@@ -14,6 +14,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from .. import _doubledouble as dd
+from .. import activity
 from ..errors import UsageError
 
 if TYPE_CHECKING:
@@ -60,21 +61,28 @@ def _constant_pairs(plan: SweepPlan, name: str, varied: _SetValues):
     )
 
 
+def _quantities(plan: SweepPlan) -> list[str]:
+    """The named quantities the sets vary (grid axes and spreads)."""
+    return [p.name for p in (*plan.parameters, *plan.spreads) if p.kind == "quantity"]
+
+
 def _followers(plan: SweepPlan, varied: _SetValues, constants: dict, b: int) -> dict:
     """Pairs of the constants that follow the varied ones through the file's definitions.
 
-    A constant defined from others (``k2 = k1 / 3``) or by a temperature law other than
-    a plain ``arrhenius`` line (``eyring(...)``, ``q10(...)``, expressions) is evaluated
+    A constant defined from others (``k2 = k1 / 3``) or from named quantities
+    (``lam = 0.88 * ln(2) / t_p`` with ``t_p`` varied), or by a temperature law other than
+    a plain ``arrhenius`` line (``eyring(...)``, ``q10(...)``, expressions), is evaluated
     exactly for each distinct set by :meth:`kinetics.scheme.Scheme.exact_constants`
-    (40 digits), with the varied constants and the temperature of that set.
+    (40 digits), with the varied constants and quantities and the temperature of that set.
     """
     scheme = plan.scheme
     deps = scheme.dependencies
     if not deps:
         return {}
     changed = [c for c, v in constants.items() if v is not None]
+    sources = changed + _quantities(plan)
     affected: set[str] = set()
-    for c in changed:
+    for c in sources:
         affected.update(scheme.driven_by(c))
     t = varied.get("temperature")
     if t is not None:
@@ -85,11 +93,8 @@ def _followers(plan: SweepPlan, varied: _SetValues, constants: dict, b: int) -> 
     affected -= set(changed)
     if not affected:
         return {}
-    columns = [
-        np.broadcast_to(np.asarray(constants[c][j], dtype=float), (b,))
-        for c in changed
-        for j in (0, 1)
-    ]
+    pairs = [constants[c] for c in changed] + [varied.get(q) for q in _quantities(plan)]
+    columns = [np.broadcast_to(np.asarray(x[j], dtype=float), (b,)) for x in pairs for j in (0, 1)]
     temps = np.full(b, np.nan) if t is None else np.asarray(t[0], dtype=float)
     cache: dict[tuple, dict] = {}
     out = {c: (np.empty(b), np.empty(b)) for c in affected}
@@ -99,7 +104,7 @@ def _followers(plan: SweepPlan, varied: _SetValues, constants: dict, b: int) -> 
         if values is None:
             given = {
                 c: Fraction(key[1 + 2 * m]) + Fraction(key[2 + 2 * m])
-                for m, c in enumerate(changed)
+                for m, c in enumerate(sources)
             }
             exact = scheme.exact_constants(None if t is None else key[0], given)
             values = cache[key] = {c: dd.pair(exact[c]) for c in affected}
@@ -185,6 +190,10 @@ def input_pairs(plan: SweepPlan, internal: np.ndarray, low: np.ndarray):
         if rate is not None:
             hi[:, s], lo[:, s] = rate
     c0 = np.broadcast_to(scheme.initial_vector, (b, len(scheme.species))).copy()
+    if scheme.start_activities and (np.any(hi != base_hi) or np.any(lo != base_lo)):
+        # start values written as activities follow the decay constants of each set
+        for name, amounts in activity.start_amounts_for_rates(scheme, hi + lo).items():
+            c0[:, scheme.index[name]] = amounts
     for p in [*plan.parameters, *plan.spreads]:
         if p.kind == "start":
             c0[:, scheme.index[p.target]] = varied.get(p.name)[0]
@@ -210,19 +219,29 @@ def set_inputs(plan: SweepPlan, i: int) -> dict[str, Any]:
     -------
     dict
         ``constants`` (name -> SI value, Arrhenius constants evaluated), ``temperature``
-        [K] or None, ``initial`` (species -> conc), ``excess`` (species -> conc).
+        [K] or None, ``initial`` (species -> conc), ``excess`` (species -> conc),
+        ``quantities`` (named quantity -> SI value; the constants that follow them are
+        not in ``constants``: :meth:`kinetics.scheme.Scheme.with_values` follows them).
     """
     if not 0 <= i < plan.n_sets:
         raise UsageError(f"set {i} does not exist", f"sets are 0 .. {plan.n_sets - 1}")
     _, internal = plan.set_values(i, i + 1)
     varied = _SetValues(plan, internal, plan.internal_low(i, i + 1))
-    out: dict[str, Any] = {"constants": {}, "temperature": None, "initial": {}, "excess": {}}
+    out: dict[str, Any] = {
+        "constants": {},
+        "temperature": None,
+        "initial": {},
+        "excess": {},
+        "quantities": {},
+    }
     if varied.get("temperature") is not None:
         out["temperature"] = float(varied.get("temperature")[0][0])
     for c in plan.scheme.constants:
         k = _constant_pairs(plan, c, varied)
         if k is not None:
             out["constants"][c] = float(np.asarray(k[0]).reshape(-1)[0])
+    for q in _quantities(plan):
+        out["quantities"][q] = float(varied.get(q)[0][0])
     for p in [*plan.parameters, *plan.spreads]:
         if p.kind in ("start", "excess"):
             out["initial" if p.kind == "start" else "excess"][p.target] = float(

@@ -19,7 +19,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from .. import parameters
-from ..errors import UsageError, WorkingRangeError
+from ..errors import ActivityError, ExpressionError, UsageError, WorkingRangeError
 from .inputs import input_rates
 from .spec import API_WORDS, CLI_WORDS, Parameter, Spread, Words, axes, spreads_of
 
@@ -83,7 +83,7 @@ def _standard_normals(seed: int, first: int, count: int, width: int) -> np.ndarr
 class Column:
     """One summary column: ``<quantity> <species> [unit]``."""
 
-    quantity: str  # half_life | t_max | c_max | limit
+    quantity: str  # half_life | t_max | c_max | limit | first_broken (of a requirement)
     species: str
     index: int  # matrix index of the species
     unit: str
@@ -123,6 +123,9 @@ class SweepPlan:
     summary_method : str
         ``batch`` (vectorised, :mod:`kinetics.sweep_summary`) or ``reference``
         (:func:`kinetics.analysis.summarise` once per set; slow, for checks).
+    activity_unit : str or None
+        Heights, limits and curves as activities in this unit (each set's decay
+        constants, :func:`kinetics.activity.activity_factors_for`); None: concentrations.
     """
 
     scheme: Scheme
@@ -136,6 +139,7 @@ class SweepPlan:
     precision: str
     columns: tuple[Column, ...]
     summary_method: str = "batch"
+    activity_unit: str | None = None
     _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     # -- sizes -------------------------------------------------------------------------
@@ -179,7 +183,13 @@ class SweepPlan:
 
     @property
     def concentration_unit(self) -> str:
-        return self.scheme.concentration_unit
+        """The unit of heights, limits and curves (an activity unit for activities)."""
+        return self.activity_unit or self.scheme.concentration_unit
+
+    @property
+    def value_name(self) -> str:
+        """What the curves hold: ``"activity"`` or ``"concentration"``."""
+        return "activity" if self.activity_unit else "concentration"
 
     # -- definition hash -------------------------------------------------------------------
     def definition(self, curves: bool = False) -> dict[str, Any]:
@@ -199,6 +209,7 @@ class SweepPlan:
             "summary_method": self.summary_method,
             "columns": self.summary_columns,
             "curves": bool(curves),
+            **({"activity_unit": self.activity_unit} if self.activity_unit else {}),
         }
 
     def definition_hash(self, curves: bool = False) -> str:
@@ -269,13 +280,16 @@ class SweepPlan:
         return display, internal
 
 
-def _summary_columns(scheme: Scheme, parameters, spreads, time_unit: str) -> tuple[Column, ...]:
+def _summary_columns(
+    scheme: Scheme, parameters, spreads, time_unit: str, conc: str
+) -> tuple[Column, ...]:
     """Which quantities can apply to which species, in a fixed order.
 
     * ``half_life``: species with a start value (in the file, or varied/sampled);
     * ``t_max``, ``c_max``: species that are formed (a step or a feed) and consumed
       (an outgoing step) -- only those can have an interior maximum;
-    * ``limit``: every species.
+    * ``limit``: every species;
+    * ``first_broken``: every requirement (``first_broken <text> [unit]``).
     """
     names = scheme.species_names
     started = {n for n, v in scheme.initial.items() if v > 0}
@@ -287,7 +301,6 @@ def _summary_columns(scheme: Scheme, parameters, spreads, time_unit: str) -> tup
         for _, product in step.products:
             if product != step.reactant:
                 formed.add(product)
-    conc = scheme.concentration_unit
     cols: list[Column] = []
     for i, n in enumerate(names):
         if n in started:
@@ -298,6 +311,11 @@ def _summary_columns(scheme: Scheme, parameters, spreads, time_unit: str) -> tup
             cols.append(Column("c_max", n, i, conc))
     for i, n in enumerate(names):
         cols.append(Column("limit", n, i, conc))
+    # one column per require line: first_broken <text> [time unit] (the text stands in
+    # the place of the species; index is the requirement's position); not for a scheme
+    # with operations (its sets are runs, whose requirements are not checked)
+    for k, r in enumerate(() if scheme.timeline else scheme.requirements):
+        cols.append(Column("first_broken", r.text, k, time_unit))
     return tuple(cols)
 
 
@@ -314,6 +332,7 @@ def make_plan(
     precision: str = "double",
     summary_method: str = "batch",
     api: bool = False,
+    activity_unit: str | None = None,
 ) -> SweepPlan:
     """Check a sweep definition and build its :class:`SweepPlan`.
 
@@ -341,6 +360,8 @@ def make_plan(
     api : bool
         Word the messages for the Python API (``grid['k2']``, ``samples``) instead of the
         command line (``--vary 'k2=...'``, ``--samples``).
+    activity_unit : str, optional
+        Report heights, limits and curves as activities in this unit (``MBq``).
 
     Returns
     -------
@@ -371,7 +392,13 @@ def make_plan(
         p.kind in ("prefactor", "energy") for p in (*parameters, *spreads)
     ):
         raise UsageError("the scheme sets no temperature", "add a temperature line")
-    columns = _summary_columns(scheme, parameters, spreads, time_unit)
+    if activity_unit is not None:
+        from ..activity import activity_factors
+
+        activity_factors(scheme, activity_unit)  # refuses a unit of another kind
+        activity_unit = activity_unit.strip()
+    conc = activity_unit or scheme.concentration_unit
+    columns = _summary_columns(scheme, parameters, spreads, time_unit, conc)
     n_sets = math.prod(p.values.size for p in parameters) * max(samples, 1)
     if n_sets > MAX_SETS:
         raise UsageError(
@@ -390,6 +417,7 @@ def make_plan(
         precision,
         columns,
         summary_method,
+        activity_unit,
     )
     if api:  # the API keeps every result in memory: refuse before checking each set
         check_memory(plan, curves=False)
@@ -442,6 +470,26 @@ def _check_options(chunk_size, precision: str, summary_method: str) -> None:
         raise UsageError(f"unknown summary method {summary_method!r}", "use batch or reference")
 
 
+def _set_text(plan: SweepPlan, values) -> str:
+    return ", ".join(f"{c} = {v:.6g}" for c, v in zip(plan.parameter_columns, values, strict=True))
+
+
+def _located_inputs(plan: SweepPlan, start: int, display, internal):
+    """:func:`input_rates` of a block of sets; a set whose values a definition of the
+    scheme cannot take is named (``set 3 (t_p [h] = -1): ...``)."""
+    try:
+        return input_rates(plan, internal)
+    except (ExpressionError, ActivityError):
+        for i in range(internal.shape[0]):
+            try:
+                input_rates(plan, internal[i : i + 1])
+            except (ExpressionError, ActivityError) as exc:
+                raise UsageError(
+                    f"set {start + i} ({_set_text(plan, display[i])}): {exc.problem}", exc.hint
+                ) from None
+        raise  # pragma: no cover - a block fails only where one of its sets does
+
+
 def _check_sets(plan: SweepPlan, block: int = 100_000) -> None:
     """Refuse a plan with a set outside the engine's working range, before any work."""
     from ..analysis import MAX_RATE, MAX_SCALE, check_working_range
@@ -455,7 +503,7 @@ def _check_sets(plan: SweepPlan, block: int = 100_000) -> None:
     for start in range(0, plan.n_sets, block):
         stop = min(plan.n_sets, start + block)
         display, internal = plan.set_values(start, stop)
-        rates, c0, feed = input_rates(plan, internal)
+        rates, c0, feed = _located_inputs(plan, start, display, internal)
         out = np.zeros((stop - start, n))
         for e in diag:
             out[:, pattern.rows[e]] -= pattern.coefficients[e] * rates[:, pattern.steps[e]]
@@ -467,7 +515,5 @@ def _check_sets(plan: SweepPlan, block: int = 100_000) -> None:
         try:
             check_working_range(out[i], t_end, plan.scheme.species_names, float(amount[i]))
         except WorkingRangeError as exc:
-            values = ", ".join(
-                f"{c} = {v:.6g}" for c, v in zip(plan.parameter_columns, display[i], strict=True)
-            )
+            values = _set_text(plan, display[i])
             raise UsageError(f"set {start + i} ({values}): {exc.problem}", exc.hint) from None

@@ -46,16 +46,16 @@ MAX_AXIS = 1_000_000
 _NUMBER_RE = re.compile(rf"^\s*{NUMBER}\s*$")
 VARY_HELP = (
     "write NAME=LO:HI:N[:log][:UNIT] or NAME=V1,V2,V3[:UNIT], e.g. k2=0.01:1:25:log, "
-    "temperature=20:80:13:degC, k3.Ea=80:100:5:kJ/mol, start:A=0.1,0.2,0.5"
+    "temperature=20:80:13:degC, k3.Ea=80:100:5:kJ/mol, start:A=0.1,0.2,0.5, t_p=40:60:5:h"
 )
 GRID_HELP = (
     "give each parameter a list of numbers in the unit the file uses for it, e.g. "
     "{'k2': [0.02, 0.045, 0.09]}, or a range as text, e.g. {'k2': '0.01:1:25:log'}"
 )
 SPREAD_HELP = (
-    "write NAME=P% (lognormal for rate constants, A, start and excess values and the "
-    "named quantities of operations) or an absolute standard deviation for temperature, "
-    "Ea and operation times, e.g. k1=15%, temperature=2K, k3.Ea=2kJ/mol, t_q=10min"
+    "write NAME=P% (lognormal for rate constants, A, start and excess values and named "
+    "quantities above 0) or an absolute standard deviation for temperature, Ea and named "
+    "quantities, e.g. k1=15%, temperature=2K, k3.Ea=2kJ/mol, t_p=2h, t_q=10min"
 )
 
 
@@ -257,7 +257,7 @@ def _parameter(
         values,
         internal,
         spacing,
-        f"{target.label} [{unit}]",
+        parameters.column_header(target.label, unit),
         low,
     )
 
@@ -339,8 +339,8 @@ class Spread:
     text: str
 
     def as_target(self) -> Target:
-        """What the spread varies (name, kind, target and the file's unit)."""
-        return Target(self.name, self.kind, self.target, self.unit)
+        """What the spread varies (name, kind, target, the file's unit and value)."""
+        return Target(self.name, self.kind, self.target, self.unit, nominal=self.nominal)
 
     def describe(self) -> dict[str, Any]:
         return {
@@ -396,7 +396,8 @@ def _parse_spread(scheme: Scheme, spec: str, where: str) -> Spread:
     if not name.strip() or not body:
         raise UsageError(f"{where} needs a name and a spread", SPREAD_HELP)
     target = parameters.resolve(scheme, name, SweepWords(where))
-    normal = target.kind in ("temperature", "energy", "operation", "quantity")
+    # a named quantity may be spread either way (t_p=10% lognormal, dS=5J/(mol K) normal)
+    normal = target.kind in ("temperature", "energy", "quantity", "operation")
     m = re.match(rf"^({NUMBER})\s*%$", body)
     if m:
         distribution, sigma, relative = _relative_spread(target, float(m[1]), where)
@@ -407,7 +408,7 @@ def _parse_spread(scheme: Scheme, spec: str, where: str) -> Spread:
         )
     else:
         distribution, sigma, relative = "normal", _absolute_spread(target, body, where), False
-    column = f"{target.label} [{target.unit}]"
+    column = target.column
     return Spread(
         target.name,
         target.kind,
@@ -427,7 +428,7 @@ def _relative_spread(target: Target, pct: float, where: str) -> tuple[str, float
     if not (math.isfinite(pct) and pct > 0):
         raise UsageError(f"{where}: the spread must be a positive percentage", SPREAD_HELP)
     s = pct / 100.0
-    if target.kind not in ("temperature", "energy"):
+    if target.kind not in ("temperature", "energy") and target.log:
         return "lognormal", math.log1p(s), False
     if s >= 0.25:
         raise UsageError(f"{where}: a spread of {pct:g} % is too wide", "use below 25 %")

@@ -68,7 +68,7 @@ def curves_frame(plan: SweepPlan, result: ChunkResult) -> pd.DataFrame:
         parameters,
         (f"time [{plan.time_unit}]", plan.times / time_factor(plan.time_unit)),
         plan.scheme.species_names,
-        f"concentration [{plan.concentration_unit}]",
+        f"{plan.value_name} [{plan.concentration_unit}]",
         result.curves,
     )
 
@@ -140,8 +140,8 @@ def curves_array(plan: SweepPlan, results: Sequence[ChunkResult], values=None):
         values,
         dims=("set", "time", "species"),
         coords=coords,
-        name="concentration",
-        attrs={"units": unit, "column": f"concentration [{unit}]"},
+        name=plan.value_name,
+        attrs={"units": unit, "column": f"{plan.value_name} [{unit}]"},
     )
 
 
@@ -288,7 +288,7 @@ def curve_bands(plan: SweepPlan, curves: np.ndarray, grid_point: int) -> pd.Data
     tf = time_factor(plan.time_unit)
     data[f"time [{plan.time_unit}]"] = np.repeat(plan.times / tf, n)
     data["species"] = pd.Categorical.from_codes(np.tile(np.arange(n), m), plan.scheme.species_names)
-    label = f"concentration [{plan.concentration_unit}]"
+    label = f"{plan.value_name} [{plan.concentration_unit}]"
     for k, p in enumerate(PERCENTILES):
         data[band_label(label, p)] = pct[k].reshape(-1)
     return pd.DataFrame(data)

@@ -1,0 +1,117 @@
+"""The ``kinetics optimise`` command (kinetics/cli/optimise.py) and what it reports
+(kinetics/output/optimum.py).  Reference: for A -> B -> C the best quench time is
+ln(k1/k2)/(k1 - k2) (Atkins & de Paula, "Physical Chemistry", 10th ed., 2014)."""
+
+from __future__ import annotations
+
+import doctest
+import json
+import math
+from pathlib import Path
+
+import pytest
+
+from kinetics.cli import main
+from kinetics.output import optimum as module
+from kinetics.output.overview import CAUTION
+
+NETWORKS = Path(__file__).resolve().parent.parent / "networks"
+QUENCH = str(NETWORKS / "quench_window.scheme")
+
+
+@pytest.fixture
+def chain(tmp_path):
+    path = tmp_path / "chain.scheme"
+    path.write_text(
+        "title: chain\nA -> B  k1 = 0.3 1/min\nB -> C  k2 = 0.1 1/min\nstart A = 1 mol/L\n"
+    )
+    return path
+
+
+def test_doctests_run():
+    failed, _ = doctest.testmod(module, optionflags=doctest.ELLIPSIS)
+    assert failed == 0
+
+
+def test_json_carries_best_objective_and_active_requirements(capsys):
+    argv = ["optimise", QUENCH, "--maximise", "P", "--over", "temperature=30:90:degC"]
+    assert main([*argv, "--over", "time=0:8:h", "--json"]) == 0
+    captured = capsys.readouterr()
+    doc = json.loads(captured.out)
+    assert set(doc["best"]) == {"temperature", "time"}
+    assert doc["best"]["time"]["unit"] == "h"
+    assert doc["best"]["temperature"]["unit"] == "degC"
+    assert doc["objective_unit"] == "mol/L"
+    assert doc["active_requirements"] == ["IMP <= 0.15 % of SM"]
+    assert doc["feasible"] is True
+    assert CAUTION in captured.err
+
+
+def test_the_terminal_shows_the_optimum_and_the_flat_ranges(chain, capsys):
+    assert main(["optimise", str(chain), "--maximise", "B", "--over", "time=0:30:min"]) == 0
+    out = capsys.readouterr().out
+    best = math.log(3) / 0.2
+    assert "target: maximise B at the end time" in out
+    assert f"time [min]: {best:.6g} (within 1 % of the best from" in out
+    assert "B at the optimum [mol/L]: 0.57735" in out
+
+
+def test_best_time_reports_the_time_in_the_unit_of_until(chain, capsys):
+    argv = ["optimise", str(chain), "--maximise", "B", "--best-time", "--until", "1h"]
+    assert main([*argv, "--over", "start:A=1:2", "--json", "--no-caution"]) == 0
+    captured = capsys.readouterr()
+    doc = json.loads(captured.out)
+    assert doc["best"]["time"]["unit"] == "h"
+    assert doc["best"]["time"]["value"] == pytest.approx(math.log(3) / 0.2 / 60, rel=1e-7)
+    assert doc["best"]["start:A"]["value"] == pytest.approx(2.0)
+    assert doc["target"]["at"] == "best time"
+    assert captured.err == ""
+
+
+def test_the_plot_and_the_json_file_are_written(chain, tmp_path, capsys):
+    figure, document = tmp_path / "opt.png", tmp_path / "opt.json"
+    argv = ["optimise", str(chain), "--maximise", "B", "--over", "time=0:30:min", "--no-caution"]
+    assert main([*argv, "--plot-out", str(figure), "--out", str(document)]) == 0
+    assert figure.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert json.loads(document.read_text())["target"]["species"] == "B"
+    err = capsys.readouterr().err
+    assert f"wrote {document}" in err
+    assert f"wrote {figure}" in err
+
+
+def test_a_two_setting_plot_with_a_broken_region(tmp_path, capsys):
+    figure = tmp_path / "opt.svg"
+    argv = ["optimise", QUENCH, "--minimise", "IMP", "--over", "temperature=30:90:degC"]
+    assert main([*argv, "--until", "3h", "--plot-out", str(figure), "--no-caution"]) == 0
+    assert figure.read_text().startswith("<?xml")
+
+
+@pytest.mark.parametrize(
+    ("extra", "message"),
+    [
+        (
+            ["--maximise", "B", "--minimise", "C"],
+            "kinetics: give one target: --maximise SPECIES or --minimise SPECIES; e.g. "
+            "--maximise P",
+        ),
+        (
+            ["--maximise", "B", "--plot-out", "x.pdf"],
+            "kinetics: --plot-out 'x.pdf' must end in .png or .svg; e.g. --plot-out optimum.png",
+        ),
+        (
+            ["--maximise", "B", "--until", "soon"],
+            "kinetics: --until 'soon' is not a duration with a unit; write e.g. --until '90 min'",
+        ),
+    ],
+)
+def test_mistakes_are_one_line_with_status_2(chain, capsys, extra, message):
+    argv = ["optimise", str(chain), "--over", "time=0:30:min", *extra]
+    assert main(argv) == 2
+    assert capsys.readouterr().err.strip() == message
+
+
+def test_help_shows_a_worked_example_on_a_file_that_exists(capsys):
+    assert main(["optimise", "--help"]) == 0
+    out = capsys.readouterr().out
+    line = next(x for x in out.splitlines() if "kinetics optimise networks/" in x)
+    assert (NETWORKS.parent / line.split()[2]).is_file()

@@ -1,0 +1,80 @@
+"""Local refinement (kinetics/optimise/local.py): Newton steps with the exact Hessian, the
+trust-region step, the logarithmic time coordinate and SLSQP where a requirement binds.
+Reference: the maximum of B in A -> B -> C at t = ln(k1/k2)/(k1 - k2) (Atkins & de Paula,
+"Physical Chemistry", 10th ed., 2014)."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+import kinetics
+from kinetics.optimise import Goal, Model, parse_over
+from kinetics.optimise.local import (
+    TIME_FLOOR,
+    newton,
+    refine,
+    scaled_problem,
+    trust_region_step,
+)
+from kinetics.optimise.search import Candidate
+
+K1, K2 = 0.3, 0.1
+CHAIN = kinetics.parse(f"A -> B  k1 = {K1} 1/s\nB -> C  k2 = {K2} 1/s\nstart A = 1 mol/L")
+T_MAX = math.log(K1 / K2) / (K1 - K2)
+
+
+def _model(scheme=CHAIN, over=("time=0:30:s",)):
+    return Model(scheme, [parse_over(scheme, s) for s in over], Goal("B"))
+
+
+def test_newton_converges_to_the_textbook_maximum_in_few_steps():
+    model = _model()
+    start = Candidate(np.array([12.0]), model.point([12.0]).objective, 0.0)
+    found, converged = newton(model, start)
+    assert converged
+    assert found.x[0] == pytest.approx(T_MAX, rel=1e-12)
+    assert model.gradients <= 8
+
+
+def test_a_search_that_reaches_a_known_optimum_ends_there():
+    model = _model()
+    known = Candidate(np.array([T_MAX]), model.point([T_MAX]).objective, 0.0)
+    start = Candidate(np.array([12.0]), model.point([12.0]).objective, 0.0)
+    found, converged = newton(model, start, [known])
+    assert converged
+    assert found is known
+
+
+def test_the_time_is_searched_in_its_logarithm():
+    problem = scaled_problem(_model(), Candidate(np.array([5.0]), 0.5, 0.0))
+    assert problem.log.tolist() == [True]
+    np.testing.assert_allclose(problem.x_of([0.0, 1.0][:1]), [30.0 * TIME_FLOOR])
+    u = problem.u_of([T_MAX])
+    assert problem.x_of(u)[0] == pytest.approx(T_MAX, rel=1e-14)
+    dx, ddx = problem.slopes(u)
+    assert ddx[0] == pytest.approx(dx[0] * math.log(1 / TIME_FLOOR), rel=1e-12)
+    assert dx[0] == pytest.approx(T_MAX * math.log(1 / TIME_FLOOR), rel=1e-12)
+
+
+def test_the_trust_region_step_stays_within_its_radius():
+    g, H = np.array([1.0, -2.0]), np.array([[-1.0, 0.0], [0.0, 2.0]])  # indefinite
+    p = trust_region_step(g, H, 0.5)
+    assert np.linalg.norm(p) == pytest.approx(0.5, rel=1e-9)
+    assert g @ p + 0.5 * p @ H @ p < 0
+    q = trust_region_step(np.array([1.0]), np.array([[4.0]]), 1.0)  # the Newton step fits
+    assert q[0] == pytest.approx(-0.25)
+
+
+def test_an_active_requirement_hands_over_to_sqp():
+    scheme = kinetics.parse(
+        f"A -> B  k1 = {K1} 1/s\nB -> C  k2 = {K2} 1/s\nstart A = 1 mol/L\nrequire C <= 10 % of A"
+    )
+    model = _model(scheme)
+    start = Candidate(np.array([1.0]), model.point([1.0]).objective, 0.0)
+    found = refine(model, start)
+    p = model.point(found.x)
+    assert p.margins[0] == pytest.approx(0.0, abs=1e-12)  # C at its limit before B's top
+    assert found.x[0] < T_MAX
