@@ -38,12 +38,13 @@ def test_operation_quantities_and_other_named_quantities():
     assert (hi[0], lo[0]) == (5400.0, 0.0)
 
 
-def test_named_quantities_need_a_scheme_with_operations():
+def test_a_quantity_no_operation_and_no_constant_uses_changes_nothing():
     plain = kinetics.parse("A -> B  k1 = 1 1/h\nstart A = 1 M\nt_q = 3 h\n")
     with pytest.raises(UsageError) as info:
         parameters.resolve(plain, "t_q", SweepWords("--vary 't_q=1:2:2'"))
-    assert str(info.value).startswith(
-        "--vary 't_q=1:2:2': 't_q' is not a rate constant or parameter of the scheme"
+    assert str(info.value) == (
+        "--vary 't_q=1:2:2': no rate constant is defined from t_q, so it changes nothing; "
+        "vary a quantity that a constant is defined from, e.g. k = ln(2) / t_q"
     )
 
 

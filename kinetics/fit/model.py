@@ -100,14 +100,14 @@ def parse_free(free: str | Sequence[str], scheme: Scheme) -> list[Parameter]:
         raise UsageError("no free parameter given", "name at least one, e.g. k1 or k1,k2")
     params = [parameters.resolve(scheme, name, FIT_WORDS) for name in names]
     for p in params:
-        if p.kind in ("operation", "quantity"):
+        if p.kind == "operation":
             _check_free_quantity(scheme, p)
     return params
 
 
 def _check_free_quantity(scheme: Scheme, p: Parameter) -> None:
-    """A named quantity can be freed when it is positive and no part removed (a fit
-    searches its logarithm, which a part above 100 % would leave)."""
+    """A named quantity of an operation can be freed when it is positive and no part
+    removed (a fit searches its logarithm, which a part above 100 % would leave)."""
     if not p.nominal > 0:
         raise UsageError(
             f"free parameter {p.name!r} is {p.nominal:g} in the file; a fit frees positive "
