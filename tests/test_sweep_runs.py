@@ -92,5 +92,5 @@ def test_a_name_that_is_no_quantity_of_the_scheme():
         kinetics.sweep(scheme, {"t_x": [1.0]}, times=[0, HOUR])
     assert str(info.value) == (
         "grid['t_x']: 't_x' is not a rate constant or parameter of the scheme; parameters "
-        "are kP, kD, temperature, start:<species>, excess:<species>, p_el, t_el"
+        "are kP, kD, t_el, p_el, temperature, start:<species>, excess:<species>"
     )
