@@ -233,3 +233,13 @@ def test_check_json_lists_the_operations(files, capsys):
         "statements": [{"line": 5, "text": "every 24 h: remove 100 % of D"}],
         "volume_L": None,
     }
+
+
+def test_sensitivities_are_refused_for_a_run_with_operations(files, capsys):
+    status, out, err = run(capsys, "solve", "gen.scheme", "--until", "1d", "--sensitivity")
+    assert status == 2
+    assert out == ""
+    assert err.strip().splitlines()[-1] == (
+        "kinetics: --sensitivity is not available for a run with operations; leave it out, or "
+        "sweep a parameter (kinetics sweep --vary) to see its effect"
+    )
