@@ -73,8 +73,10 @@ def measure(label: str, solution) -> None:
 def main() -> None:
     print(f"load average {os.getloadavg()[0]:.2f} on {os.cpu_count()} CPUs; best of {REPEATS}")
     times = np.linspace(0.0, 5 * 3600.0, 201)
-    for label, named in (("10-species chain, 11 constants", False),
-                         ("same, 10 named half-lives drive them", True)):
+    for label, named in (
+        ("10-species chain, 11 constants", False),
+        ("same, 10 named half-lives drive them", True),
+    ):
         measure(label, kinetics.solve(kinetics.parse(chain(named)), times))
     generator = kinetics.load(ROOT / "networks" / "generator_half_lives.scheme")
     solution = kinetics.solve(generator, np.linspace(0.0, 5 * 86400.0, 201)).in_activity("MBq")

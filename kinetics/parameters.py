@@ -20,6 +20,10 @@ A *parameter* is one input of a scheme that a sweep varies or a fit frees:
     ``T_ref = 25 degC``): the constants defined from it follow it exactly
     (:meth:`kinetics.scheme.Scheme.exact_constants`).  A rate constant defined by an
     expression (``k2 = k1 / 3``) is a ``constant``: varied, it becomes the value given.
+``t_q``, ``dose``, ``p_el`` (named quantities an operation uses)
+    The time of an operation, an amount added, a volume or a part removed (``at t_q: add
+    A = dose``, ``every t_el: remove p_el of D``; :attr:`kinetics.timeline.Timeline.names`):
+    kind ``operation``; the operations move with them.
 
 :func:`resolve` maps a name to its :class:`Target` (what it changes and the unit the file
 uses for it); :func:`check_unit` and :func:`to_internal` read values in a unit and convert
@@ -35,6 +39,7 @@ temperature   K                                                none: T is the do
 start         the scheme's concentration unit                  exact conversion
 excess        the scheme's concentration unit                  exact conversion
 quantity      SI base units (K for temperatures)               exact conversion
+operation     SI base units (s, mol/m^3, m^3; a pure number)   exact conversion
 ============  ===============================================  ==========================
 
 Values are converted with exact rational unit factors and kept as double-double pairs
@@ -54,7 +59,7 @@ from __future__ import annotations
 
 import difflib
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from decimal import Decimal
 from fractions import Fraction
 from typing import TYPE_CHECKING
@@ -83,13 +88,23 @@ __all__ = [
     "file_temperature_unit",
     "from_internal",
     "resolve",
+    "scheme_with",
     "to_internal",
 ]
 
 #: Every kind of parameter, in the order of the table in the module docstring.
-ALL_KINDS = ("constant", "prefactor", "energy", "temperature", "start", "excess", "quantity")
+ALL_KINDS = (
+    "constant",
+    "prefactor",
+    "energy",
+    "temperature",
+    "start",
+    "excess",
+    "quantity",
+    "operation",
+)
 #: The kinds a fit can free.
-FIT_KINDS = ("constant", "prefactor", "energy", "start", "quantity")
+FIT_KINDS = ("constant", "prefactor", "energy", "start", "quantity", "operation")
 #: A decimal number as users write it (the values of ``--vary``, the number before a unit).
 NUMBER = r"[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?"
 _NAME_START = re.compile(r"^(start|excess)\s*[:\s]\s*(?P<species>\S+)$")
@@ -404,6 +419,9 @@ def resolve(scheme: Scheme, name: str, words) -> Target:
         if d.arrhenius is not None:
             raise words.whole_arrhenius(name)
         return Target(name, "constant", name, d.unit, name, _nominal(scheme, name))
+    if "operation" in allowed and name in scheme.timeline.names:
+        q = scheme.quantities[name]
+        return Target(name, "operation", name, q.unit, name, _nominal(scheme, name))
     if "quantity" in allowed and name in scheme.quantities:
         if not scheme.driven_by(name):
             raise words.drives_nothing(name)
@@ -422,6 +440,83 @@ def _nominal(scheme: Scheme, name: str) -> float:
     if scheme.temperature is None:
         return float("nan")
     return float(scheme.dependencies.value(name, scheme.temperature))
+
+
+def scheme_with(
+    scheme: Scheme,
+    targets,
+    values,
+    lows=None,
+    *,
+    temperature: float | None = None,
+    initial: dict[str, float] | None = None,
+    given: dict | None = None,
+) -> Scheme:
+    r"""The scheme with new values of parameters of any kind (a sweep's set, a fit's
+    estimates), exactly.
+
+    Rate constants and named quantities go through :meth:`kinetics.scheme.Scheme.
+    with_values` as exact values (the constants defined from them, and the operations
+    whose numbers are named, follow); Arrhenius parameters replace ``A`` or ``Ea`` in the
+    constant's law, which stays a law (it follows the temperature of operations too).
+
+    Parameters
+    ----------
+    scheme : Scheme
+    targets : sequence of Target
+        What each value changes.
+    values : sequence of float
+        In internal units (see the module docstring).
+    lows : sequence of float, optional
+        Exact rests of ``values`` (double-double pairs).
+    temperature : float, optional
+        [K], unless a target sets it.
+    initial : dict of str to float, optional
+        Start values [concentration_unit] besides the targets.
+    given : dict of str to float or Fraction, optional
+        Other rate constants or named quantities [SI].
+
+    Examples
+    --------
+    >>> import kinetics
+    >>> s = kinetics.parse("A -> B  k = arrhenius(A = 1e10 1/s, Ea = 80 kJ/mol)\n"
+    ...                    "temperature = 25 degC\nstart A = 1 M")
+    >>> t = resolve(s, "k.Ea", FIT_WORDS)
+    >>> new = scheme_with(s, [t], [90e3])
+    >>> new.constants["k"].arrhenius.activation_energy
+    90000.0
+    """
+    lows = [0.0] * len(targets) if lows is None else lows
+    quantities = {n: Fraction(v) for n, v in (given or {}).items()}
+    start, excess, parts = dict(initial or {}), {}, {}
+    for t, v, lo in zip(targets, values, lows, strict=True):
+        exact = Fraction(float(v)) + Fraction(float(lo))
+        if t.kind == "temperature":
+            temperature = float(v)
+        elif t.kind == "start":
+            start[t.target] = float(v)
+        elif t.kind == "excess":
+            excess[t.target] = float(v)
+        elif t.kind in ("prefactor", "energy"):
+            parts.setdefault(t.target, {})[t.kind] = exact
+        else:  # a rate constant, a named quantity
+            quantities[t.target or t.name] = exact
+    new = scheme.with_values(
+        temperature=temperature, initial=start, excess=excess, quantities=quantities
+    )
+    if not parts:
+        return new
+    constants = dict(new.constants)
+    for name, part in parts.items():
+        old = constants[name]
+        law = old.arrhenius
+        law = replace(
+            law,
+            prefactor_si=part.get("prefactor", law.prefactor_si),
+            activation_energy=float(part.get("energy", law.activation_energy)),
+        )
+        constants[name] = replace(old, arrhenius=law, text=f"{old.text} (new A or Ea)")
+    return replace(new, constants=constants)
 
 
 def _species_target(scheme: Scheme, name: str, kind: str, species: str, words) -> Target:
@@ -602,8 +697,12 @@ def check_values(target: Target, internal: np.ndarray, where: str, hint: str) ->
         raise UsageError(f"{where}: a value is not a finite number", hint)
     if target.is_temperature and np.any(internal <= 0):
         raise UsageError(f"{where}: a temperature is at or below absolute zero", "check the unit")
-    if target.kind in ("constant", "prefactor", "start", "excess") and np.any(internal < 0):
-        what = {"start": "a start concentration", "excess": "an excess concentration"}.get(
-            target.kind, "a rate constant"
-        )
+    if target.kind in ("constant", "prefactor", "start", "excess", "operation") and np.any(
+        internal < 0
+    ):
+        what = {
+            "start": "a start concentration",
+            "excess": "an excess concentration",
+            "operation": f"a value of {target.name}",
+        }.get(target.kind, "a rate constant")
         raise UsageError(f"{where}: {what} is negative", "give values >= 0")

@@ -41,6 +41,7 @@ from .errors import (
     shown_value,
 )
 from .requirements import Requirement
+from .timeline_statements import Timeline
 from .units import GAS_CONSTANT_EXACT
 
 __all__ = [
@@ -509,6 +510,11 @@ class Scheme:
     start_activities : dict of str to Fraction
         Start values written as activities [Bq, or Bq per volume or mass], exact;
         ``initial`` holds their amounts, which follow the decay constants.
+    timeline : Timeline
+        The operations of the run (additions, removals, temperature steps and ramps,
+        feed windows; :mod:`kinetics.timeline`), empty for a run of constant
+        conditions; :func:`kinetics.solve` honours them.  Set it with
+        :meth:`with_timeline`; its numbers written as names follow :meth:`with_values`.
     """
 
     species: tuple[Species, ...]
@@ -531,6 +537,7 @@ class Scheme:
     dependencies: Dependencies = field(default_factory=Dependencies)
     requirements: tuple[Requirement, ...] = ()
     start_activities: dict[str, Fraction] = field(default_factory=dict)
+    timeline: Timeline = field(default_factory=Timeline)
     _excess_si: dict[str, Fraction] = field(default_factory=dict, repr=False)
     _unit_factor: Fraction = field(default=Fraction(1), repr=False)
 
@@ -794,6 +801,16 @@ class Scheme:
         _named_value(self, name, 0)
         return tuple(n for n in self.dependencies.driven_by(name) if n in self.constants)
 
+    def with_timeline(self, timeline: Timeline) -> Scheme:
+        """A copy with the operations of ``timeline`` instead of its own, checked.
+
+        Every mistake that does not depend on the window is reported at once (see
+        :func:`kinetics.timeline.attach`, with an example).
+        """
+        from .timeline import attach
+
+        return attach(self, timeline)
+
     def with_values(
         self,
         *,
@@ -822,7 +839,8 @@ class Scheme:
         Returns
         -------
         Scheme
-            Derived constants, start activities and percentage thresholds follow.
+            Derived constants, start activities, percentage thresholds and the numbers
+            of the timeline written as names follow.
 
         Raises
         ------
@@ -896,8 +914,13 @@ def _with_values(
         raise TemperatureError(
             f"temperature {shown_value(temperature)} K must be finite and above 0 K"
         )
+    timeline = scheme.timeline
+    if quantities and timeline.names:
+        known = {n: q.value_si for n, q in new_quantities.items() if q.value_si is not None}
+        timeline = timeline.follow(known)
     new = replace(
         scheme,
+        timeline=timeline,
         constants=new_constants,
         quantities=new_quantities,
         dependencies=graph,

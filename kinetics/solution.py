@@ -8,14 +8,13 @@ vector and returns concentrations with their names and units.
 from __future__ import annotations
 
 import os
-import warnings
-from collections.abc import Iterator
 from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING
 
 import numpy as np
 
 from .engine import propagate_certified
+from .engine.checks import time_list as check_times
 from .errors import (
     ArgumentTypeError,
     SettingError,
@@ -30,6 +29,7 @@ if TYPE_CHECKING:
     import pandas as pd
 
     from .scheme import Scheme
+    from .timeline_solve import Event
 
 #: relative rounding a unit conversion adds: the factor (a few roundings) and the product
 _CONVERSION_ROUNDING = 4 * 2.0**-53
@@ -83,46 +83,6 @@ def require_scheme(scheme, function: str) -> Scheme:
         f"{function}() needs a checked scheme, not {type_name(scheme)}",
         "get one from kinetics.load('file.scheme') or kinetics.parse(text)",
     )
-
-
-def check_times(times) -> np.ndarray:
-    """Validate a time list [s]: a flat list, finite, >= 0, nondecreasing; return it as floats."""
-    if isinstance(times, Iterator):
-        times = list(times)
-    if times is None or isinstance(times, str | bytes | dict):
-        raise ArgumentTypeError(
-            f"the times must be a list of numbers in seconds, not {type_name(times)}",
-            "e.g. [0, 600, 1200] or numpy.linspace(0, 3600, 201)",
-        )
-    try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore", np.exceptions.ComplexWarning)
-            t = np.asarray(times, dtype=float)
-    except (TypeError, ValueError) as exc:
-        raise TimesError(
-            "the times are not numbers", "give times in seconds as a list of numbers"
-        ) from exc
-    kind = np.asarray(times).dtype.kind
-    if kind in "bc":
-        what = "True/False values" if kind == "b" else "complex numbers"
-        raise TimesError(f"the times are {what}", "give times in seconds as real numbers")
-    if t.ndim != 1:
-        shape = "a single number" if t.ndim == 0 else f"an array of shape {t.shape}"
-        raise TimesError(
-            f"the times must be a flat list of times, not {shape}",
-            "e.g. [0, 600, 1200] or numpy.linspace(0, 3600, 201); for one time give [t]",
-        )
-    if t.size == 0:
-        raise TimesError("the time list is empty", "give at least one time")
-    if not np.all(np.isfinite(t)):
-        raise TimesError("a time is not a finite number", "give finite times in seconds")
-    if np.any(t < 0):
-        raise TimesError(
-            f"a time is negative ({float(t[t < 0][0]):g} s)", "times start at 0 (the start values)"
-        )
-    if np.any(np.diff(t) < 0):
-        raise TimesError("the times are not in increasing order", "sort the time list")
-    return t
 
 
 def _check_size(points: int, species: int = 0) -> None:
@@ -185,6 +145,23 @@ class Solution:
         ``concentration_unit`` (set by :meth:`in_unit`; None in the scheme's unit).
     activity_unit : str or None
         The unit of activity when the values are activities (:meth:`in_activity`).
+    events : tuple of kinetics.timeline_solve.Event
+        The operations of the scheme's timeline that were applied, in time order, each
+        with what it moved (``change`` in :attr:`concentration_unit`); empty for a run
+        without operations.
+    notes : tuple of str
+        Operations not applied (after the window) or without effect.
+    after : numpy.ndarray of bool or None
+        Shape ``(m,)``, with operations: True for the row just after the operations at
+        its time (such a time appears twice: just before and just after).
+    temperatures : numpy.ndarray or None
+        Shape ``(m,)``: the temperature in force [K] when the timeline changes it.
+    ramp_estimate : numpy.ndarray or None
+        Shape ``(m,)``: the estimated relative error of temperature-ramp sub-steps
+        (see :mod:`kinetics.timeline_solve`), reported beside ``error_bound``.
+    stretches : tuple of kinetics.timeline_solve.Stretch
+        With operations: the stretches of constant conditions of the run (the summary
+        quantities are computed on them).
     """
 
     times: np.ndarray
@@ -196,6 +173,13 @@ class Solution:
     unit_factors: np.ndarray | None = None
     activity_unit: str | None = None
     _amounts: np.ndarray | None = field(default=None, repr=False)  # in the scheme's unit
+    events: tuple[Event, ...] = ()
+    notes: tuple[str, ...] = ()
+    after: np.ndarray | None = None
+    temperatures: np.ndarray | None = None
+    ramp_estimate: np.ndarray | None = None
+    stretches: tuple = ()
+    _events: tuple[Event, ...] | None = field(default=None, repr=False)  # the scheme's unit
 
     @property
     def quantity(self) -> str:
@@ -246,6 +230,7 @@ class Solution:
             activity_unit=unit.strip(),
             error_bound=bound,
             _amounts=amounts,
+            **self._events_times(factors),
         )
 
     def in_unit(self, unit: str) -> Solution:
@@ -298,7 +283,20 @@ class Solution:
             activity_unit=None,
             error_bound=bound,
             _amounts=amounts,
+            **self._events_times(factors),
         )
+
+    def _events_times(self, factors: np.ndarray) -> dict:
+        """The events with each species' ``change`` times its output factor.
+
+        The changes in the scheme's unit are kept aside.
+        """
+        scale = dict(zip(self.species, factors.tolist(), strict=True))
+        base = self.events if self._events is None else self._events
+        events = tuple(
+            e if e.species is None else replace(e, change=e.change * scale[e.species]) for e in base
+        )
+        return {"events": events, "_events": base}
 
     def __getitem__(self, name: str) -> np.ndarray:
         """The curve of one species [concentration_unit]."""
@@ -463,6 +461,14 @@ def solve(scheme: Scheme, times) -> Solution:
     -------
     Solution
 
+    Notes
+    -----
+    A scheme with operations (:attr:`Scheme.timeline <kinetics.scheme.Scheme.timeline>`,
+    written in its file or given by :meth:`~kinetics.scheme.Scheme.with_timeline`) is
+    solved exactly stretch by stretch (:func:`kinetics.timeline_solve.solve_timeline`):
+    a time of an addition or removal appears twice in the result (just before and just
+    after), and :attr:`Solution.events` records what each operation moved.
+
     Examples
     --------
     Closed form c_A = c_A(0) e^(-kt): e^-1 = 0.367879441171 after 1 s at k = 1 1/s:
@@ -481,6 +487,8 @@ def solve(scheme: Scheme, times) -> Solution:
     feed = scheme.feed_vector if scheme.feed else None
     amount = float(scheme.initial_vector.sum() + (0.0 if feed is None else feed.sum() * t[-1]))
     check_working_range(-Kh.diagonal(), float(t[-1]), scheme.species_names, amount)
+    if scheme.timeline:
+        return _solve_timeline(scheme, t)
     result = propagate_certified(Kh, scheme.initial_vector, t, feed, K_low=Kl)
     return Solution(
         t,
@@ -489,4 +497,26 @@ def solve(scheme: Scheme, times) -> Solution:
         scheme.concentration_unit,
         scheme,
         result.error_bound,
+    )
+
+
+def _solve_timeline(scheme: Scheme, t: np.ndarray) -> Solution:
+    """:func:`solve` of a scheme with operations (times checked)."""
+    from .timeline_solve import solve_timeline
+
+    run = solve_timeline(scheme, scheme.timeline, t)
+    _check_size(run.times.size, len(scheme.species))
+    return Solution(
+        run.times,
+        scheme.species_names,
+        run.concentrations,
+        scheme.concentration_unit,
+        scheme,
+        run.error_bound,
+        events=run.events,
+        notes=run.notes,
+        after=run.after,
+        temperatures=run.temperatures,
+        ramp_estimate=run.ramp_estimate if run.ramp_substeps else None,
+        stretches=run.stretches,
     )

@@ -47,6 +47,7 @@ if TYPE_CHECKING:
 
 __all__ = [
     "DEFAULT_ACTIVATION_ENERGY",
+    "HELD",
     "TemperatureLog",
     "equivalent_temperatures",
     "mean_kinetic_temperature",
@@ -57,6 +58,12 @@ __all__ = [
 #: Activation energy customary for the mean kinetic temperature in stability work
 #: [J/mol] (83.144 kJ/mol, i.e. :math:`\Delta H / R` = 10,000 K); common practice, no source.
 DEFAULT_ACTIVATION_ENERGY = 83144.0
+
+#: How a record is read, in one sentence (summaries and reports).
+HELD = (
+    "each reading holds until the next (piecewise constant); before the first reading the "
+    "scheme's own temperature applies, after the last one the last reading holds"
+)
 
 _HEADER = re.compile(r"^\s*(?P<name>[^\[\]]*?)\s*\[(?P<unit>[^\[\]]*)\]\s*$")
 _EXAMPLE = "write the header as 'time [h],temperature [degC]'"
@@ -95,6 +102,76 @@ class TemperatureLog:
                 statements.append(At(t, TemperatureStep(T), Place(self.source, line)))
             previous = T
         return Timeline(statements)
+
+    def apply(self, scheme: Scheme) -> Scheme:
+        """The scheme under this record: its timeline gains the record's temperature steps.
+
+        Raises
+        ------
+        kinetics.errors.SchemeErrors
+            When the steps collide with the scheme's own ramps (see
+            :func:`kinetics.timeline.check`).
+        """
+        return scheme.with_timeline(scheme.timeline + self.timeline())
+
+    def summary(self, scheme: Scheme, end: float) -> dict:
+        r"""The record in the summary of a run that ends at ``end`` [s] (JSON-ready).
+
+        Keys: ``source``, ``readings``, ``held`` (how the record is read),
+        ``mean_kinetic_temperature_K`` and ``_degC`` (Haynes, with
+        ``activation_energy_J_per_mol`` 83,144: common practice, no source), and
+        ``equivalent_temperatures``: per Arrhenius constant of ``scheme`` its steps, its
+        ``Ea`` and the equivalent isothermal temperature (K and degC) over the same window.
+        Temperatures are None when the window ends before the first reading.
+
+        Examples
+        --------
+        >>> import kinetics
+        >>> s = kinetics.parse(
+        ...     "A -> B  k = arrhenius(A = 1e12 1/s, Ea = 83.144 kJ/mol)\n"
+        ...     "temperature = 25 degC\nstart A = 1 M")
+        >>> log = TemperatureLog(np.array([0.0, 43200.0]), np.array([298.15, 308.15]))
+        >>> row = log.summary(s, 86400.0)
+        >>> round(row["mean_kinetic_temperature_K"], 2), row["equivalent_temperatures"][0]["steps"]
+        (304.37, ['A -> B'])
+        """
+        inside = end >= float(self.times[0])
+
+        def both(kelvin):
+            if kelvin is None:
+                return {"K": None, "degC": None}
+            return {"K": kelvin, "degC": kelvin - 273.15}
+
+        mkt = self.mean_kinetic_temperature(end=end) if inside else None
+        equivalents = []
+        for name, c in scheme.constants.items():
+            if c.arrhenius is None:
+                continue
+            kelvin = (
+                self.mean_kinetic_temperature(c.arrhenius.activation_energy, end)
+                if inside
+                else None
+            )
+            t = both(kelvin)
+            equivalents.append(
+                {
+                    "constant": name,
+                    "steps": [s.equation for s in scheme.steps if s.constant == name],
+                    "activation_energy_J_per_mol": c.arrhenius.activation_energy,
+                    "temperature_K": t["K"],
+                    "temperature_degC": t["degC"],
+                }
+            )
+        t = both(mkt)
+        return {
+            "source": self.source,
+            "readings": int(self.times.size),
+            "held": HELD,
+            "activation_energy_J_per_mol": DEFAULT_ACTIVATION_ENERGY,
+            "mean_kinetic_temperature_K": t["K"],
+            "mean_kinetic_temperature_degC": t["degC"],
+            "equivalent_temperatures": equivalents,
+        }
 
     def mean_kinetic_temperature(
         self, activation_energy: float = DEFAULT_ACTIVATION_ENERGY, end: float | None = None

@@ -43,20 +43,36 @@ from __future__ import annotations
 import itertools
 import math
 import numbers
-from dataclasses import dataclass, field
+from dataclasses import dataclass, replace
 from fractions import Fraction
 from typing import TYPE_CHECKING
 
 from .errors import SchemeError, SchemeErrors, shown_value
 from .suggest import close_matches
+from .timeline_statements import (
+    TIME_FIELDS,
+    Action,
+    Addition,
+    At,
+    Binding,
+    Every,
+    FeedWindow,
+    Place,
+    Removal,
+    TemperatureRamp,
+    TemperatureStep,
+    Timeline,
+)
 
 if TYPE_CHECKING:
     from .scheme import Scheme
 
 __all__ = [
     "MAX_OPERATIONS",
+    "TIME_FIELDS",
     "Addition",
     "At",
+    "Binding",
     "Every",
     "FeedWindow",
     "Operation",
@@ -66,6 +82,7 @@ __all__ = [
     "TemperatureRamp",
     "TemperatureStep",
     "Timeline",
+    "attach",
     "check",
     "expand",
 ]
@@ -73,188 +90,6 @@ __all__ = [
 #: Most operations a timeline may create inside the solved window (a repeated operation
 #: counts once per repetition): about 250,000 stretches take some seconds to solve.
 MAX_OPERATIONS = 250_000
-
-
-@dataclass(frozen=True, slots=True)
-class Place:
-    """Where a statement was written, for messages (filled by the scheme language).
-
-    Attributes
-    ----------
-    source : str
-        File name, or ``"<timeline>"`` for a timeline built in Python.
-    line, column : int
-        1-based position (0 when unknown).
-    text : str
-        The whole source line.
-    snippet : str
-        The part of the line a message underlines.
-    """
-
-    source: str = "<timeline>"
-    line: int = 0
-    column: int = 0
-    text: str = ""
-    snippet: str = ""
-
-    def error(self, problem: str, hint: str = "") -> SchemeError:
-        """A :class:`~kinetics.errors.SchemeError` located here."""
-        return SchemeError(
-            problem, self.source, self.line, self.column, self.text, self.snippet, hint
-        )
-
-
-def _pairs(values) -> tuple[tuple[str, float], ...]:
-    """``{name: value}`` or pairs as a tuple of pairs (hashable, in the order given)."""
-    items = values.items() if hasattr(values, "items") else values
-    return tuple((str(name), value) for name, value in items)
-
-
-@dataclass(frozen=True, slots=True)
-class Addition:
-    """Instant rise of named species [the scheme's ``concentration_unit``; for a scheme
-    written in mass units that is its amount twin, so masses are converted first].
-
-    Parameters
-    ----------
-    amounts : dict of str to float
-        Species name -> amount added, >= 0.
-    """
-
-    amounts: tuple[tuple[str, float], ...]
-
-    def __init__(self, amounts) -> None:
-        object.__setattr__(self, "amounts", _pairs(amounts))
-
-
-@dataclass(frozen=True, slots=True)
-class Removal:
-    """A fraction of each named species taken out at once; the amount is recorded.
-
-    Parameters
-    ----------
-    species : tuple of str
-        The species removed from.
-    fraction : float, Fraction or str
-        The part removed, from 0 to 1 (1 for a complete elution).  Kept exact: the
-        part left, :math:`1 - p`, and :math:`p` are each rounded once.
-
-    Examples
-    --------
-    >>> Removal.percent(30, "D").fraction
-    Fraction(3, 10)
-    """
-
-    species: tuple[str, ...]
-    fraction: Fraction
-
-    def __init__(self, species, fraction) -> None:
-        names = (species,) if isinstance(species, str) else tuple(species)
-        object.__setattr__(self, "species", names)
-        object.__setattr__(self, "fraction", _fraction(fraction))
-
-    @classmethod
-    def percent(cls, percent, *species: str) -> Removal:
-        """The removal of ``percent`` % (exact: 30 % is 3/10) of ``species``."""
-        value = _fraction(percent)
-        return cls(species, value / 100 if value is not None else value)
-
-
-def _fraction(value) -> Fraction | None:
-    """``value`` as an exact Fraction (None when it is not a finite number)."""
-    try:
-        return Fraction(value)
-    except (TypeError, ValueError, OverflowError):
-        return None
-
-
-@dataclass(frozen=True, slots=True)
-class TemperatureStep:
-    """From the operation on, every Arrhenius constant follows ``temperature`` [K]."""
-
-    temperature: float
-
-
-Action = Addition | Removal | TemperatureStep
-
-
-@dataclass(frozen=True, slots=True)
-class At:
-    """One operation at ``time`` [s] (``at T: ...``)."""
-
-    time: float
-    action: Action
-    place: Place = field(default_factory=Place)
-
-
-@dataclass(frozen=True, slots=True)
-class Every:
-    """An addition or removal repeated every ``period`` [s] (``every T from T0 until T1``).
-
-    The operation acts at ``start``, ``start + period``, ... (``start`` defaults to
-    ``period``) up to ``until`` [s] and the end of the solved window; the repetitions
-    up to ``until`` that fall after the window are not applied, and the solution says so.
-    """
-
-    period: float
-    action: Action
-    start: float | None = None
-    until: float | None = None
-    place: Place = field(default_factory=Place)
-
-
-@dataclass(frozen=True, slots=True)
-class FeedWindow:
-    """A zero-order feed [concentration_unit/s] that runs only from ``start`` to ``end`` [s].
-
-    The scheme's own ``feed`` stays on all the time; feeds of one species add up.
-    """
-
-    start: float
-    end: float
-    rates: tuple[tuple[str, float], ...]
-    place: Place = field(default_factory=Place)
-
-    def __init__(self, start, end, rates, place: Place | None = None) -> None:
-        object.__setattr__(self, "start", start)
-        object.__setattr__(self, "end", end)
-        object.__setattr__(self, "rates", _pairs(rates))
-        object.__setattr__(self, "place", place or Place())
-
-
-@dataclass(frozen=True, slots=True)
-class TemperatureRamp:
-    """A linear ramp from ``initial`` to ``final`` [K] between ``start`` and ``end`` [s].
-
-    After the ramp the temperature stays at ``final`` until the next temperature step.
-    """
-
-    start: float
-    end: float
-    initial: float
-    final: float
-    place: Place = field(default_factory=Place)
-
-
-Statement = At | Every | FeedWindow | TemperatureRamp
-
-
-@dataclass(frozen=True)
-class Timeline:
-    """The statements of a run, in the order written (ties at one time keep this order).
-
-    Parameters
-    ----------
-    statements : sequence of At, Every, FeedWindow or TemperatureRamp
-    """
-
-    statements: tuple = ()
-
-    def __init__(self, statements=()) -> None:
-        object.__setattr__(self, "statements", tuple(statements))
-
-    def __add__(self, other: Timeline) -> Timeline:
-        return Timeline(self.statements + tuple(other.statements))
 
 
 # --------------------------------------------------------------------------
@@ -273,11 +108,22 @@ class Operation:
     action : Addition or Removal
     statement : int
         Index of the statement it comes from.
+    kept : Fraction
+        For an addition in a run with volumes: :math:`V/(V + v)`, the factor every
+        concentration is diluted by (1 otherwise).
+    share : Fraction
+        For an addition in a run with volumes: :math:`V_0/(V + v)`, the factor of its
+        amounts (1 otherwise); see :class:`Addition`.
+    volume : float or None
+        Volume of the run just after [m^3] (None without volumes).
     """
 
     time: float
     action: Action
     statement: int
+    kept: Fraction = Fraction(1)
+    share: Fraction = Fraction(1)
+    volume: float | None = None
 
 
 @dataclass(frozen=True)
@@ -333,9 +179,10 @@ def _seconds(value: float) -> str:
 class _Checker:
     """Collects every mistake of a timeline against a scheme (one pass)."""
 
-    def __init__(self, scheme: Scheme, end: float) -> None:
+    def __init__(self, scheme: Scheme, end: float, volume: float | None = None) -> None:
         self.scheme = scheme
         self.end = end
+        self.volume = volume
         self.errors: list[SchemeError] = []
         self.notes: list[str] = []
         self.count = 0
@@ -394,7 +241,8 @@ class _Checker:
 
     def action(self, action, place: Place) -> None:
         if isinstance(action, Addition):
-            if not action.amounts:
+            volume = self.added_volume(action.volume, place)
+            if not action.amounts and not volume:
                 self.errors.append(place.error("an addition names no species", "e.g. add A = 0.1"))
             for name, value in action.amounts:
                 if self.name(name, place):
@@ -423,6 +271,27 @@ class _Checker:
                 )
             )
 
+    def added_volume(self, value, place: Place) -> bool:
+        """Check the volume an addition brings; True when it is above 0 (and usable)."""
+        ok = isinstance(value, numbers.Real) and not isinstance(value, bool)
+        if not ok or not (math.isfinite(value) and value >= 0):
+            self.errors.append(
+                place.error(
+                    f"the volume added must be a finite number >= 0, not {shown_value(value)}",
+                    "give a volume in m^3 (in a scheme file, e.g. add 100 mL with B = 0.5 M)",
+                )
+            )
+            return True  # reported: no second error about the species
+        if value > 0 and self.volume is None:
+            self.errors.append(
+                place.error(
+                    "an addition with a volume of its own needs the volume of the run",
+                    "give the start volume (in a scheme file, a line such as volume = 1.0 L)",
+                )
+            )
+            return True
+        return value > 0
+
     def temperature(self, value, what: str, place: Place) -> None:
         ok = isinstance(value, numbers.Real) and not isinstance(value, bool)
         if not ok or not (math.isfinite(value) and value > 0):
@@ -433,14 +302,8 @@ class _Checker:
                     "give a thermodynamic temperature in kelvin",
                 )
             )
-        elif not self.arrhenius:
-            self.notes.append(
-                _note(
-                    place,
-                    "a temperature operation has no effect: no rate constant of the scheme "
-                    "follows the Arrhenius law",
-                )
-            )
+        elif not self.arrhenius and not any(n.endswith(_NO_EFFECT) for n in self.notes):
+            self.notes.append(_note(place, _NO_EFFECT))
 
     def limit(self, count: int, place: Place) -> bool:
         """Count operations; refuse (once, at the statement that crosses) beyond the limit."""
@@ -459,6 +322,13 @@ class _Checker:
             )
             return False
         return True
+
+
+#: The note of a temperature operation in a scheme without Arrhenius constant (once).
+_NO_EFFECT = (
+    "a temperature operation has no effect: no rate constant of the scheme follows the "
+    "Arrhenius law"
+)
 
 
 def _note(place: Place, sentence: str) -> str:
@@ -591,18 +461,44 @@ def expand(scheme: Scheme, timeline: Timeline, end: float) -> Plan:
     >>> [op.time for op in plan.operations]
     [86400.0, 172800.0, 259200.0]
     """
-    collect = _Collector(_Checker(scheme, end), end)
+    collect = _Collector(_checker(scheme, timeline, end), end)
     for index, statement in enumerate(timeline.statements):
         collect.add(index, statement)
     return collect.plan(timeline)
 
 
-def check(scheme: Scheme, timeline: Timeline) -> list[SchemeError]:
+def _checker(scheme: Scheme, timeline: Timeline, end: float) -> _Checker:
+    """A checker for ``timeline``, with the mistake of its start volume if any."""
+    found = _Checker(scheme, end, timeline.volume)
+    volume = timeline.volume
+    if volume is not None:
+        ok = isinstance(volume, numbers.Real) and not isinstance(volume, bool)
+        if not ok or not (math.isfinite(volume) and volume > 0):
+            found.errors.append(
+                Place().error(
+                    f"the volume of the run must be a finite number above 0, not "
+                    f"{shown_value(volume)}",
+                    "give the start volume in m^3 (in a scheme file: volume = 1.0 L)",
+                )
+            )
+            found.volume = 1.0  # checked: no follow-on errors about additions
+    return found
+
+
+def check(scheme: Scheme, timeline: Timeline, notes: list | None = None) -> list[SchemeError]:
     r"""Every mistake of a timeline that does not depend on the solved window.
 
     For the scheme language, which reports all mistakes of a file at once before the
     window is known; :func:`expand` repeats these checks and adds the count of
     repetitions inside the window.
+
+    Parameters
+    ----------
+    scheme : Scheme
+    timeline : Timeline
+    notes : list, optional
+        Receives the sentences about operations without effect (a temperature
+        operation in a scheme without Arrhenius constant), as :attr:`Plan.notes`.
 
     Returns
     -------
@@ -616,10 +512,12 @@ def check(scheme: Scheme, timeline: Timeline) -> list[SchemeError]:
     >>> [e.problem for e in check(s, Timeline([At(-1.0, Addition({"A": 1.0}))]))]
     ['the time of an operation must be finite and >= 0 s, not -1.0 s']
     """
-    collect = _Collector(_Checker(scheme, math.inf), math.inf)
+    collect = _Collector(_checker(scheme, timeline, math.inf), math.inf)
     for index, statement in enumerate(timeline.statements):
         collect.add(index, statement)
     _check_ramps(collect.check, [r for r, _ in collect.ramps], collect.steps)
+    if notes is not None:
+        notes.extend(dict.fromkeys(collect.check.notes))
     return collect.check.errors
 
 
@@ -705,11 +603,12 @@ class _Collector:
                 )
             )
         operations = sorted(self.operations, key=lambda o: (o[0], o[1], o[2]))
+        applied = _volumes([Operation(t, a, i) for t, i, _, a in operations], timeline.volume)
         ramps = sorted(self.ramps, key=lambda r: r[0].start)
         steps = sorted(((t, T, i) for t, T, i, _ in self.steps), key=lambda s: (s[0], s[2]))
         return Plan(
             end=float(self.end),
-            operations=tuple(Operation(t, a, i) for t, i, _, a in operations),
+            operations=applied,
             steps=tuple(steps),
             ramps=tuple(r for r, _ in ramps),
             ramp_statements=tuple(i for _, i in ramps),
@@ -717,3 +616,70 @@ class _Collector:
             skipped=tuple(self.skipped),
             notes=tuple(notes),
         )
+
+
+def _volumes(operations: list[Operation], start: float | None) -> tuple[Operation, ...]:
+    """The operations with the dilution of each addition, in a run with volumes.
+
+    With :math:`V` the volume before an addition of volume :math:`v`, the kept factor is
+    :math:`V/(V + v)` and the share of its amounts :math:`V_0/(V + v)` (exact).
+    """
+    if start is None:
+        return tuple(operations)
+    V0 = Fraction(start)
+    V = V0
+    out = []
+    for op in operations:
+        if isinstance(op.action, Addition):
+            v = Fraction(op.action.volume)
+            out.append(replace(op, kept=V / (V + v), share=V0 / (V + v), volume=float(V + v)))
+            V += v
+        else:
+            out.append(replace(op, volume=float(V)))
+    return tuple(out)
+
+
+def attach(scheme: Scheme, timeline: Timeline) -> Scheme:
+    r"""A copy of ``scheme`` with the operations of ``timeline`` (replacing its own).
+
+    The Python way to give a scheme operations without writing them in its text
+    (:meth:`kinetics.scheme.Scheme.with_timeline` calls this): times in seconds,
+    temperatures in kelvin, amounts in the scheme's concentration unit, volumes in m^3.
+    :func:`kinetics.solve` then solves the run exactly stretch by stretch, and
+    ``Solution.events`` records what each operation moved.
+
+    Raises
+    ------
+    kinetics.errors.ArgumentTypeError
+        When ``timeline`` is not a :class:`Timeline`.
+    kinetics.errors.SchemeErrors
+        Every mistake that does not depend on the solved window, at once.
+
+    Examples
+    --------
+    A second portion of A after 30 min (k = 0.02 1/min; closed form
+    :math:`A(t) = A_0 e^{-kt} + a\,e^{-k(t - 30)}` for t >= 30 min):
+
+    >>> import math, kinetics
+    >>> s = kinetics.parse("A -> B  k = 0.02 1/min\nstart A = 0.5 mol/L")
+    >>> run = s.with_timeline(Timeline([At(1800.0, Addition({"A": 0.25}))]))
+    >>> sol = kinetics.solve(run, [0.0, 1800.0, 3600.0])
+    >>> sol.times.tolist()  # the time of the addition twice: just before and after
+    [0.0, 1800.0, 1800.0, 3600.0]
+    >>> expected = 0.5 * math.exp(-1.2) + 0.25 * math.exp(-0.6)
+    >>> bool(abs(sol["A"][-1] - expected) < 1e-15)
+    True
+    >>> [(e.action, e.species, e.change) for e in sol.events]
+    [('add', 'A', 0.25)]
+    """
+    from .errors import ArgumentTypeError, type_name
+
+    if not isinstance(timeline, Timeline):
+        raise ArgumentTypeError(
+            f"with_timeline() needs a Timeline, not {type_name(timeline)}",
+            "build one from kinetics.timeline: Timeline([At(1800.0, Addition({'A': 0.25}))])",
+        )
+    errors = check(scheme, timeline)
+    if errors:
+        raise SchemeErrors(errors)
+    return replace(scheme, timeline=timeline)

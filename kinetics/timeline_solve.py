@@ -59,14 +59,14 @@ import numpy as np
 
 from . import _doubledouble as dd
 from .engine import TINY, Precision, StretchPropagator
+from .engine.checks import time_list
 from .errors import UsageError, shown_value
-from .solution import check_times
 from .timeline import Addition, Plan, Removal, Timeline, expand
 
 if TYPE_CHECKING:
     from .scheme import Scheme
 
-__all__ = ["Event", "TimelineSolution", "solve_timeline"]
+__all__ = ["Event", "Stretch", "TimelineSolution", "solve_timeline"]
 
 _U = np.finfo(float).eps / 2  # unit roundoff of IEEE double
 #: Sub-steps of all ramps together beyond which refinement stops (with a note).
@@ -95,7 +95,9 @@ class Event:
         The species concerned (None for a temperature).
     change : float
         Signed concentration moved [concentration_unit]: the amount added, minus the
-        amount removed (the eluate), 0 for temperatures and feeds.
+        amount removed (the eluate), 0 for temperatures and feeds.  In a run with
+        volumes, an addition's change is its rise after mixing (the dilution of what was
+        there is not counted); an addition of solvent alone has species None.
     value : float or None
         New temperature [K] (``"temperature"``) or feed rate [concentration_unit/s]
         (``"feed on"``, ``"feed off"``).
@@ -105,6 +107,9 @@ class Event:
         Relative estimate of the ramp sub-stepping error in ``change`` (0 without ramps).
     statement : int
         Index of the timeline statement it comes from (-1 for a temperature record).
+    volume : float or None
+        Volume of the run just after an addition or removal [m^3] (None in a run
+        without volumes, and for temperatures and feeds).
     """
 
     time: float
@@ -115,6 +120,7 @@ class Event:
     error_bound: float = 0.0
     ramp_estimate: float = 0.0
     statement: int = -1
+    volume: float | None = None
 
 
 @dataclass(frozen=True)
@@ -148,6 +154,9 @@ class TimelineSolution:
     concentration_unit : str
     ramp_substeps : int
         Sub-steps of all ramps in the returned solution (0 without ramps).
+    stretches : tuple of Stretch
+        The stretches of constant conditions the window was solved in, in time order
+        (for the summary quantities of the run).
     """
 
     times: np.ndarray
@@ -161,6 +170,7 @@ class TimelineSolution:
     notes: tuple[str, ...]
     concentration_unit: str
     ramp_substeps: int = 0
+    stretches: tuple[Stretch, ...] = ()
 
     def __getitem__(self, name: str) -> np.ndarray:
         """The curve of one species [concentration_unit]."""
@@ -351,7 +361,7 @@ class _Chain:
         self.end = np.empty((P, n))  # before the operations at the stretch end
         self.end_bound = np.empty(P)
         self.jumps: dict[float, tuple] = {}  # time -> (before, bound, after, bound)
-        self.moved: list[tuple[float, str, str, float, float, int]] = []
+        self.moved: list[tuple] = []  # (time, action, species, change, bound, statement, volume)
 
     def run(self) -> None:
         """Propagate stretch by stretch, applying the operations at their times."""
@@ -386,16 +396,10 @@ class _Chain:
 
     def _apply(self, op, x, e: float):
         """One nonnegative map, with the roundings it adds to the bound."""
-        index = self.scheme.index
         if isinstance(op.action, Addition):
-            for name, amount in op.action.amounts:
-                i = index[name]
-                x[i] = x[i] + amount
-                self.moved.append((op.time, "add", name, float(amount), 0.0, op.statement))
-            if any(amount for _, amount in op.action.amounts):
-                e = _compose(e, _U)
-            return x, e
+            return self._add(op, x, e)
         assert isinstance(op.action, Removal)
+        index = self.scheme.index
         p = op.action.fraction
         keep, take = float(1 - p), float(p)
         for name in op.action.species:
@@ -403,9 +407,33 @@ class _Chain:
             removed = take * x[i]
             x[i] = keep * x[i]
             bound = e if p == 1 else _compose(e, _U)
-            self.moved.append((op.time, "remove", name, -float(removed), bound, op.statement))
+            self.moved.append(
+                (op.time, "remove", name, -float(removed), bound, op.statement, op.volume)
+            )
         if 0 < p < 1:
             e = _compose(_compose(e, _U), _U)
+        return x, e
+
+    def _add(self, op, x, e: float):
+        r"""An addition: :math:`c \mapsto \kappa c + \sigma a` with the exact factors
+        :math:`\kappa = V/(V + v)` and :math:`\sigma = V_0/(V + v)` of a run with volumes
+        (both 1 otherwise), each rounded once.
+        """
+        index = self.scheme.index
+        if op.kept != 1:
+            x = float(op.kept) * x  # the factor and the product: two roundings
+            e = _compose(_compose(e, _U), _U)
+        amounts = op.action.amounts
+        for name, amount in amounts:
+            i = index[name]
+            added = float(amount) if op.share == 1 else float(Fraction(amount) * op.share)
+            x[i] = x[i] + added
+            rounded = 0.0 if op.share == 1 else _U
+            self.moved.append((op.time, "add", name, added, rounded, op.statement, op.volume))
+        if not amounts:  # solvent alone: a dilution
+            self.moved.append((op.time, "add", None, 0.0, 0.0, op.statement, op.volume))
+        if any(amount for _, amount in amounts):
+            e = _compose(e, _U) if op.share == 1 else _compose(_compose(e, _U), _U)
         return x, e
 
 
@@ -511,6 +539,7 @@ class _Pass:
     bound: np.ndarray
     moved: list
     substeps: int
+    chain: _Chain
 
 
 def _one_pass(scheme, plan, conditions, times, level) -> _Pass:
@@ -519,7 +548,48 @@ def _one_pass(scheme, plan, conditions, times, level) -> _Pass:
     chain.run()
     rows_t, after, where = _rows(times, chain)
     conc, bound = _evaluate(where, chain, conditions)
-    return _Pass(rows_t, after, conc, bound, chain.moved, sum(level))
+    return _Pass(rows_t, after, conc, bound, chain.moved, sum(level), chain)
+
+
+@dataclass(frozen=True)
+class Stretch:
+    """One stretch of constant conditions of a solved run (a sub-step inside a ramp).
+
+    Attributes
+    ----------
+    start, end : float
+        [s].
+    K, K_low : numpy.ndarray
+        The rate matrix as a double-double pair [1/s] (shared between stretches of
+        the same conditions: do not modify).
+    feed : numpy.ndarray or None
+        The feed in force [concentration_unit/s].
+    start_values, end_values : numpy.ndarray
+        Concentrations just after the operations at ``start`` and just before those at
+        ``end`` [concentration_unit].
+    ramp : bool
+        True for a half sub-step of a temperature ramp (its ``K`` the Magnus-type
+        average, see the module docstring).
+    """
+
+    start: float
+    end: float
+    K: np.ndarray
+    K_low: np.ndarray
+    feed: np.ndarray | None
+    start_values: np.ndarray
+    end_values: np.ndarray
+    ramp: bool = False
+
+
+def _stretches(chain: _Chain, conditions: _Conditions) -> tuple[Stretch, ...]:
+    out = []
+    for j, (a, b, key) in enumerate(chain.pieces):
+        Kh, Kl = conditions._matrix(key[0])
+        feed, _ = conditions._feed(key[1])
+        ramp = key[0][0] == "ramp"
+        out.append(Stretch(a, b, Kh, Kl, feed, chain.start[j], chain.end[j], ramp))
+    return tuple(out)
 
 
 def _first_substeps(plan: Plan, conditions: _Conditions) -> list[int]:
@@ -598,7 +668,7 @@ def _envelope(plan: Plan, best: _Pass, rows: np.ndarray, moved: np.ndarray):
 def _events(plan: Plan, best: _Pass, moved_estimate: np.ndarray) -> tuple[Event, ...]:
     """Every applied operation as an :class:`Event`, in time order."""
     records = [
-        (m[0], m[5], Event(m[0], m[1], m[2], m[3], None, m[4], float(est), m[5]))
+        (m[0], m[5], Event(m[0], m[1], m[2], m[3], None, m[4], float(est), m[5], m[6]))
         for m, est in zip(best.moved, moved_estimate.tolist(), strict=True)
     ]
     for t, T, i in plan.steps:
@@ -697,7 +767,7 @@ def solve_timeline(
     >>> bool(abs(sol.removed("D")[1][0] - first) < 1e-15)
     True
     """
-    t = check_times(times)
+    t = time_list(times)
     if not (isinstance(ramp_rtol, float | int) and 0 < ramp_rtol < 1):
         raise UsageError(
             f"ramp_rtol must be a number between 0 and 1, not {shown_value(ramp_rtol)}",
@@ -723,4 +793,5 @@ def solve_timeline(
         notes=plan.notes + tuple(notes),
         concentration_unit=scheme.concentration_unit,
         ramp_substeps=best.substeps if plan.ramps and conditions.arrhenius else 0,
+        stretches=_stretches(best.chain, conditions),
     )

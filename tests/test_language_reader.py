@@ -48,7 +48,7 @@ def test_tabs_are_shown_as_spaces_under_the_message():
 
 
 def test_every_statement_kind_is_offered():
-    assert len(STATEMENT_KINDS) == 7  # issue 15 adds require
+    assert len(STATEMENT_KINDS) == 9  # issue 15 adds require, issue 14 operations and volume
 
 
 def test_unknown_statement_wordings():

@@ -50,7 +50,7 @@ SECOND_ORDER_UNITS = {  # in (mol/L)^-1 s^-1, i.e. per unit of the scheme's mol/
 }
 CONCENTRATION_UNITS = {"mol/L": Fraction(1), "mmol/L": Fraction(1, 1000), "M": Fraction(1)}
 RESERVED = {"start", "excess", "feed", "formula", "molar_mass", "temperature", "title"}
-RESERVED |= {"balance", "arrhenius", "nan", "inf", "infinity"}
+RESERVED |= {"balance", "arrhenius", "nan", "inf", "infinity", "volume"}
 
 names = (
     st.text(string.ascii_letters, min_size=1, max_size=1)

@@ -97,7 +97,9 @@ def compute_summary(solution: Solution) -> Summary | None:
     r"""Summary quantities of every species in SI time [s] and the concentration unit.
 
     Uses :func:`kinetics.analysis.summarise_all` on the scheme of ``solution`` with the
-    solution's time window; the whole-scheme quantities are in :attr:`Summary.scheme`.
+    solution's time window (a run with operations: :func:`kinetics.analysis.run_summary.
+    summarise_run` on its exact piecewise solution); the whole-scheme quantities are in
+    :attr:`Summary.scheme`.
     Returns ``None`` above :data:`SUMMARY_MAX` species.
 
     Examples
@@ -111,30 +113,39 @@ def compute_summary(solution: Solution) -> Summary | None:
     scheme = solution.scheme
     if len(scheme.species) > SUMMARY_MAX:
         return None
-    feed = scheme.feed_vector if scheme.feed else None
-    window = float(solution.times[-1])
-    K, K_low = scheme.rate_matrix_pair()
-    per, whole = summarise_all(
-        K,
-        scheme.initial_vector,
-        scheme.species_names,
-        feed=feed,
-        t_window=window,
-        K_low=K_low,
-    )
-    out = {name: s.to_dict() for name, s in per.items()}
-    scheme_wide = whole.to_dict()
     checked = {}
-    if scheme.requirements:
-        checked = requirement_times(
+    if solution.after is not None:  # a run with operations: on its piecewise solution
+        from kinetics.analysis.run_summary import summarise_run
+
+        out, scheme_wide = summarise_run(solution.in_unit(scheme.concentration_unit))
+        if scheme.requirements:
+            scheme_wide["timeline_note"] += (
+                "; the requirements of the file are not checked on a run with operations"
+            )
+    else:
+        feed = scheme.feed_vector if scheme.feed else None
+        window = float(solution.times[-1])
+        K, K_low = scheme.rate_matrix_pair()
+        per, whole = summarise_all(
             K,
             scheme.initial_vector,
-            scheme.requirements,
             scheme.species_names,
             feed=feed,
             t_window=window,
             K_low=K_low,
-        ).to_dict()
+        )
+        out = {name: s.to_dict() for name, s in per.items()}
+        scheme_wide = whole.to_dict()
+        if scheme.requirements:
+            checked = requirement_times(
+                K,
+                scheme.initial_vector,
+                scheme.requirements,
+                scheme.species_names,
+                feed=feed,
+                t_window=window,
+                K_low=K_low,
+            ).to_dict()
     if solution.unit_factors is not None:  # reported in another unit (Solution.in_unit)
         factors = dict(zip(solution.species, solution.unit_factors, strict=True))
         for name, factor in factors.items():

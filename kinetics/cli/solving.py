@@ -38,17 +38,46 @@ _ACTIVITY_OPTION = click.option(
 
 
 def _plot_solution(result, scheme):
-    """The solution on a grid fine enough to draw smooth curves (at least 201 points)."""
+    """The solution on a grid fine enough to draw smooth curves (at least 201 points), with
+    the times of every operation (each drawn as a jump).
+    """
     import numpy as np
 
     from kinetics import solution as sol
 
-    if len(result.times) >= 201:
+    jumps = sorted({e.time for e in result.events if e.action in ("add", "remove")})
+    missing = np.setdiff1d(jumps, result.times)
+    if len(result.times) >= 201 and not missing.size:
         return result
-    fine = sol.solve(scheme, np.linspace(0.0, float(result.times[-1]), 401))
+    grid = result.times if len(result.times) >= 201 else np.linspace(0.0, result.times[-1], 401)
+    fine = sol.solve(scheme, np.union1d(grid, jumps))
     if result.activity_unit is not None:
         return fine.in_activity(result.activity_unit)
     return fine if result.unit_factors is None else fine.in_unit(result.concentration_unit)
+
+
+def events_path(path: Path) -> Path:
+    """The sibling file of a CSV table that holds the operations: ``run.csv`` ->
+    ``run_events.csv``.
+    """
+    return path.with_name(f"{path.stem}_events{path.suffix}")
+
+
+def _with_log(scheme, log_path):
+    """The scheme under the temperature record of ``--temperature-log`` (or as it is)."""
+    if log_path is None:
+        return scheme, None
+    from kinetics.temperature_log import read_temperature_log
+
+    log = read_temperature_log(log_path)
+    return log.apply(scheme), log
+
+
+_LOG_HELP = (
+    "A data logger's temperature record (CSV with columns 'time [unit]' and 'temperature "
+    "[degC or K]'); each reading holds until the next (piecewise constant) and the scheme's "
+    "Arrhenius constants follow it. The summary adds its mean kinetic temperature."
+)
 
 
 def _check_activity(scheme, activity_unit, conc_unit) -> None:
@@ -68,10 +97,10 @@ def _check_activity(scheme, activity_unit, conc_unit) -> None:
 
 
 def _solve_and_summarise(
-    scheme, times, time_unit, bar, conc_unit=None, activity_unit=None, sensitivity=False
+    scheme, times, time_unit, bar, conc_unit=None, activity_unit=None, sensitivity=False, log=None
 ):
     """The solution, its summary in ``time_unit`` and (when asked) the sensitivities of
-    the summary quantities.
+    the summary quantities (not for a run with operations: they are those of one stretch).
     """
     from kinetics import solution as sol
     from kinetics.analysis.solution_summary import compute_summary, summary_in_units
@@ -87,8 +116,10 @@ def _solve_and_summarise(
     bar.step("summary quantities")
     raw = compute_summary(result)
     summary = summary_in_units(raw, time_unit) if raw is not None else None
+    if summary is not None and log is not None:
+        summary.scheme["temperature_log"] = log.summary(scheme, float(times[-1]))
     sensitivities = None
-    if sensitivity and raw is not None:
+    if sensitivity and raw is not None and not scheme.timeline:
         bar.describe("sensitivities")
         sensitivities = summary_sensitivities(result, raw)
     bar.step()
@@ -106,6 +137,7 @@ def _solve_and_summarise(
     help=_OUT_HELP + " (several allowed).",
 )
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object on stdout.")
+@click.option("--temperature-log", "log_path", type=click.Path(path_type=Path), help=_LOG_HELP)
 @_ACTIVITY_OPTION
 @click.option(
     "--sensitivity",
@@ -124,6 +156,7 @@ def solve(
     conc_unit,
     outputs,
     as_json,
+    log_path,
     activity_unit,
     sensitivity,
 ):
@@ -142,23 +175,39 @@ def solve(
       kinetics solve networks/decay_pair_branching.scheme --times '0,6,12,24,48 h' --json
       kinetics solve networks/generator_half_lives.scheme --until 5d --activity MBq
       kinetics solve networks/consecutive_intermediate.scheme --until 2h --sensitivity
+      kinetics solve networks/generator_daily_elution.scheme --until 10d --out eluates.csv
+
+    A scheme with operations (at/every/from lines) is solved exactly stretch by stretch: a
+    time of an addition or removal appears twice in the table (just before and just
+    after), and a CSV table gets a sibling NAME_events.csv with what each operation moved.
     """
     from kinetics.cli.terminal import progress, render_solution
     from kinetics.output.overview import solution_json
 
     times, time_unit, settings = prepare(until, points, times_text, time_unit)
-    paths = check_output_paths(outputs, [scheme_file])
-    scheme = load_scheme(scheme_file)
+    inputs = [scheme_file] + ([log_path] if log_path is not None else [])
+    paths = check_output_paths(outputs, inputs)
+    scheme, log = _with_log(load_scheme(scheme_file), log_path)
+    if log_path is not None:
+        settings["temperature_log"] = str(log_path)
+    siblings = _event_files(paths, scheme)
+    if siblings:
+        paths = check_output_paths([*paths, *siblings], inputs)
     species = species_list(species_text, scheme)
     if species:
         settings["species"] = species
     _check_activity(scheme, activity_unit, conc_unit)
+    if sensitivity and scheme.timeline:
+        raise UsageError(
+            "--sensitivity is not available for a run with operations",
+            "leave it out, or sweep a parameter (kinetics sweep --vary) to see its effect",
+        )
     _check_sheet_sizes(paths, len(times), scheme)
     caution(no_caution)
     first_use_note()
     with progress(2, "solving") as bar:
         result, summary, sensitivities = _solve_and_summarise(
-            scheme, times, time_unit, bar, conc_unit, activity_unit, sensitivity
+            scheme, times, time_unit, bar, conc_unit, activity_unit, sensitivity, log
         )
     needs_document = as_json or any(p.suffix.lower() in (".json", ".parquet") for p in paths)
     document = (
@@ -185,8 +234,17 @@ def solve(
         )
     write_outputs(
         paths,
-        lambda path: _write_output(path, result, scheme, time_unit, summary, document, species),
+        lambda path: _write_output(
+            path, result, scheme, time_unit, summary, document, species, path in siblings
+        ),
     )
+
+
+def _event_files(paths, scheme) -> list[Path]:
+    """The sibling ``*_events.csv`` of each CSV table, for a scheme with operations."""
+    if not scheme.timeline:
+        return []
+    return [events_path(p) for p in paths if p.suffix.lower() == ".csv"]
 
 
 def _check_sheet_sizes(paths, n_times: int, scheme) -> None:
@@ -198,13 +256,24 @@ def _check_sheet_sizes(paths, n_times: int, scheme) -> None:
             check_xlsx_size(n_times + 1, len(scheme.species_names) + 1, path)
 
 
-def _write_output(path, result, scheme, time_unit, summary, document, species) -> None:
-    """Write one --out file; the format follows the extension (already checked)."""
+def _write_output(
+    path, result, scheme, time_unit, summary, document, species, events_only=False
+) -> None:
+    """Write one --out file; the format follows the extension (already checked).  With
+    ``events_only``, the sibling CSV of the operations (:func:`events_path`).
+    """
+    import pandas as pd
+
     from kinetics.output import export
-    from kinetics.output.overview import certificate_rows, inputs_tables
+    from kinetics.output.overview import certificate_rows, event_table, inputs_tables
     from kinetics.output.summary_text import scheme_rows, summary_rows
 
     suffix = path.suffix.lower()
+    events = event_table(result, time_unit) if result.after is not None else None
+    if events_only:
+        columns = list(events[0]) if events else [f"time [{time_unit}]", "action", "species"]
+        export.write_csv(pd.DataFrame(events, columns=columns), path)
+        return
     frame = result.to_frame(time_unit)
     if suffix == ".csv":
         export.write_csv(frame, path)
@@ -228,6 +297,7 @@ def _write_output(path, result, scheme, time_unit, summary, document, species) -
             inputs={**inputs_tables(scheme), "error bound": certificate_rows(result, time_unit)},
             scheme_text=scheme.text,
             scheme_rows=scheme_rows(summary, time_unit, result.concentration_unit),
+            events=events,
         )
     elif suffix in (".png", ".svg"):
         from kinetics.output.plotting import save_plot
@@ -248,6 +318,7 @@ def _write_output(path, result, scheme, time_unit, summary, document, species) -
     help="The report file (.html); one self-contained page, viewable offline.",
 )
 @click.option("--title", help="Title of the report (default: the title in the scheme file).")
+@click.option("--temperature-log", "log_path", type=click.Path(path_type=Path), help=_LOG_HELP)
 @_ACTIVITY_OPTION
 def report(
     scheme_file,
@@ -260,6 +331,7 @@ def report(
     conc_unit,
     output,
     title,
+    log_path,
     activity_unit,
 ):
     """Write a self-contained HTML report: scheme, graph, inputs, summary, plot, table.
@@ -278,8 +350,11 @@ def report(
     from kinetics.output.report import build_report, write_report
 
     times, time_unit, settings = prepare(until, points, times_text, time_unit)
-    (path,) = check_output_paths([output], [scheme_file], {".html": "HTML report"})
-    scheme = load_scheme(scheme_file)
+    inputs = [scheme_file] + ([log_path] if log_path is not None else [])
+    (path,) = check_output_paths([output], inputs, {".html": "HTML report"})
+    scheme, log = _with_log(load_scheme(scheme_file), log_path)
+    if log_path is not None:
+        settings["temperature_log"] = str(log_path)
     species = species_list(species_text, scheme)
     digest = hashlib.sha256(Path(scheme_file).read_bytes()).hexdigest()
     _check_activity(scheme, activity_unit, conc_unit)
@@ -287,7 +362,7 @@ def report(
     first_use_note()
     with progress(4, "solving") as bar:
         result, summary, sensitivities = _solve_and_summarise(
-            scheme, times, time_unit, bar, conc_unit, activity_unit, sensitivity=True
+            scheme, times, time_unit, bar, conc_unit, activity_unit, sensitivity=True, log=log
         )
         bar.describe("drawing")
         html = build_report(

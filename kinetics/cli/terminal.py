@@ -506,13 +506,56 @@ def render_solution(
     if step > 1:
         title += f": {len(rows)} of {n} points shown (1 in {step}); --out writes them all"
     out.print(f"[bold]{title}")
-    cells = [[f"{column[i]:.6g}" for column in columns] for i in rows]
+    after = solution.after.tolist() if solution.after is not None else [False] * n
+    cells = [
+        [f"{c[i]:.6g}" + ("+" if k == 0 and after[i] else "") for k, c in enumerate(columns)]
+        for i in rows
+    ]
     print_fitted(out, headers, cells, align="right")
+    if any(after):
+        out.print("t+ : just after the operations at time t (the row before is just before them)")
     if hidden:
         out.print(
             f"{hidden} more species not shown; choose columns with --species, "
             "or write them all with --out table.csv"
         )
+    if solution.after is not None:
+        render_events(solution, time_unit, out)
+
+
+def render_events(solution: Solution, time_unit: str, out: Console, max_rows: int = 25) -> None:
+    """Print the operations of a run (what each moved) and the notes about the timeline."""
+    from kinetics.output.overview import event_table
+
+    rows = event_table(solution, time_unit)
+    if rows:
+        shown = rows if len(rows) <= max_rows else rows[: max_rows - 1] + rows[-1:]
+        title = "Operations[/bold] (what each moved, exact)"
+        if len(shown) < len(rows):
+            title += f": {len(shown)} of {len(rows)} shown; --out table.csv writes them all"
+        out.print(f"[bold]{title}")
+        always = list(rows[0])[:4]  # time, action, species, change
+        headers = [
+            h for h in rows[0] if h in always or any(r[h] not in (None, "", 0.0) for r in rows)
+        ]
+        cells = [[_cell(r[h]) for h in headers] for r in shown]
+        print_fitted(out, headers, cells, align="right")
+    if solution.ramp_estimate is not None:
+        worst = float(solution.ramp_estimate.max(initial=0.0))
+        out.print(
+            f"temperature ramps: estimated error of the sub-steps up to {worst:.2g} (relative; "
+            "an estimate beside the certified bound, see --json ramp_estimate)"
+        )
+    for note in solution.notes:
+        out.print(f"note: {_escape(note)}")
+
+
+def _cell(value) -> str:
+    if value is None:
+        return ""
+    if isinstance(value, float):
+        return f"{value:.6g}"
+    return str(value)
 
 
 def _escape(text: str) -> str:

@@ -8,11 +8,19 @@ message whichever function received it.
 from __future__ import annotations
 
 import functools
+import warnings
+from collections.abc import Iterator
 
 import numpy as np
 import scipy.sparse
 
-from kinetics.errors import GrowthError, UsageError
+from kinetics.errors import (
+    ArgumentTypeError,
+    GrowthError,
+    TimesError,
+    UsageError,
+    type_name,
+)
 
 __all__ = [
     "PRECISIONS",
@@ -21,6 +29,7 @@ __all__ = [
     "offdiagonal_nonnegative",
     "precision",
     "rate_matrix",
+    "time_list",
     "times",
     "vector",
 ]
@@ -108,6 +117,52 @@ def times(times) -> np.ndarray:
         raise UsageError("times must be >= 0", "time 0 is the start of the reaction")
     if (t[1:] < t[:-1]).any():
         raise UsageError("times must be in nondecreasing order", "sort the time list")
+    return t
+
+
+def time_list(times) -> np.ndarray:
+    """Validate a time list [s] a user gave and return it as floats.
+
+    For :func:`kinetics.solve` and the timeline solver: a flat list, finite, >= 0,
+    nondecreasing.
+
+    The engine's own :func:`times` is terser; this one words each mistake for a chemist.
+    """
+    if isinstance(times, Iterator):
+        times = list(times)
+    if times is None or isinstance(times, str | bytes | dict):
+        raise ArgumentTypeError(
+            f"the times must be a list of numbers in seconds, not {type_name(times)}",
+            "e.g. [0, 600, 1200] or numpy.linspace(0, 3600, 201)",
+        )
+    try:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", np.exceptions.ComplexWarning)
+            t = np.asarray(times, dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise TimesError(
+            "the times are not numbers", "give times in seconds as a list of numbers"
+        ) from exc
+    kind = np.asarray(times).dtype.kind
+    if kind in "bc":
+        what = "True/False values" if kind == "b" else "complex numbers"
+        raise TimesError(f"the times are {what}", "give times in seconds as real numbers")
+    if t.ndim != 1:
+        shape = "a single number" if t.ndim == 0 else f"an array of shape {t.shape}"
+        raise TimesError(
+            f"the times must be a flat list of times, not {shape}",
+            "e.g. [0, 600, 1200] or numpy.linspace(0, 3600, 201); for one time give [t]",
+        )
+    if t.size == 0:
+        raise TimesError("the time list is empty", "give at least one time")
+    if not np.all(np.isfinite(t)):
+        raise TimesError("a time is not a finite number", "give finite times in seconds")
+    if np.any(t < 0):
+        raise TimesError(
+            f"a time is negative ({float(t[t < 0][0]):g} s)", "times start at 0 (the start values)"
+        )
+    if np.any(np.diff(t) < 0):
+        raise TimesError("the times are not in increasing order", "sort the time list")
     return t
 
 

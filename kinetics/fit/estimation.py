@@ -34,6 +34,7 @@ __all__ = [
     "SEARCH_DECADES",
     "START_DECADES",
     "START_ENERGY",
+    "START_OPERATION",
     "Linearised",
     "Search",
     "fit",
@@ -44,6 +45,11 @@ SEARCH_DECADES = 10.0
 #: Spread of the multi-start design around the start value (decades / RT_ref units).
 START_DECADES = 2.0
 START_ENERGY = 8.0
+#: Half-width of the start design for named quantities (operation times and amounts) in
+#: their logarithm: a factor of 2 either side.  An operation moved past a sample time
+#: makes the residuals jump, so a fit of an operation time needs a starting value in the
+#: file near the truth rather than a search over decades.
+START_OPERATION = math.log(2.0)
 _ENERGY_RANGE = (-100e3, 1000e3)  # J/mol, search range of an activation energy
 _LINEAR_SPAN = 50.0  # search range of a named quantity not above 0, in units of its size
 _EPS = np.finfo(float).eps
@@ -88,6 +94,8 @@ def _start_points(model, theta0, lower, upper, starts, seed) -> np.ndarray:
                 if q.kind == "energy"
                 else 1.0
                 if model.scale(j) is not None
+                else START_OPERATION
+                if q.kind == "operation"
                 else START_DECADES * math.log(10.0)
                 for j, q in enumerate(model.params)
             ]

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from fractions import Fraction
 from typing import TYPE_CHECKING
 
@@ -12,7 +12,7 @@ import numpy as np
 
 from ..jsonready import finite_or_none
 from ..measurements import Measurements
-from .model import Parameter
+from .model import Parameter, run_values, scheme_with_estimates
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -322,45 +322,6 @@ def _conditions_text(conditions: dict) -> dict:
     return out
 
 
-def scheme_with_estimates(scheme, params, si, conditions) -> Scheme:
-    plain = {p.target: float(v) for p, v in zip(params, si, strict=True) if p.kind == "constant"}
-    for key, value in conditions.items():
-        if key in scheme.constants:
-            plain[key] = value
-    initial = {p.target: float(v) for p, v in zip(params, si, strict=True) if p.kind == "start"}
-    initial.update({k[6:]: v for k, v in conditions.items() if k.startswith("start:")})
-    quantities = {
-        p.target: float(v) for p, v in zip(params, si, strict=True) if p.kind == "quantity"
-    }
-    new = scheme.with_values(
-        constants=plain,
-        temperature=conditions.get("temperature"),
-        initial=initial,
-        quantities=quantities,
-    )
-    arr_parts: dict[str, dict] = {}
-    for p, v in zip(params, si, strict=True):
-        if p.kind in ("prefactor", "energy"):
-            arr_parts.setdefault(p.target, {})[p.kind] = float(v)
-    if arr_parts:
-        constants = dict(new.constants)
-        for name, parts in arr_parts.items():
-            if name in plain:
-                continue
-            old = constants[name]
-            arr = old.arrhenius
-            arr = replace(
-                arr,
-                prefactor_si=Fraction(parts["prefactor"])
-                if "prefactor" in parts
-                else arr.prefactor_si,
-                activation_energy=parts.get("energy", arr.activation_energy),
-            )
-            constants[name] = replace(old, arrhenius=arr, text=f"{old.text} (fitted)")
-        new = replace(new, constants=constants)
-    return new
-
-
 def engine_predictions(scheme, params, si, runs):
     """Model values at the data points with the entrywise engine, and data − model tables."""
     from ..engine import propagate
@@ -368,9 +329,12 @@ def engine_predictions(scheme, params, si, runs):
     preds, tables = [], []
     for run in runs:
         s = scheme_with_estimates(scheme, params, si, run.data.conditions)
-        K, K_low = s.rate_matrix_pair()  # the exact constants, diagonal unrounded
-        c0 = s.initial_vector
-        c = propagate(K, c0, run.times, s.feed_vector if s.feed else None, K_low=K_low)
+        if s.timeline:  # a run with operations: solved stretch by stretch
+            c = run_values(s, run.times)
+        else:
+            K, K_low = s.rate_matrix_pair()  # the exact constants, diagonal unrounded
+            c0 = s.initial_vector
+            c = propagate(K, c0, run.times, s.feed_vector if s.feed else None, K_low=K_low)
         pred = c[run.t_index, run.s_index]
         preds.append(pred)
         table = np.full(run.data.values.shape, np.nan)

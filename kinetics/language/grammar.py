@@ -28,7 +28,16 @@ __all__ = [
 #: Arrows of the language: irreversible and reversible, with Unicode synonyms.
 ARROWS = {"->": False, "→": False, "<=>": True, "⇌": True}
 #: Directive keywords that start a line.
-DIRECTIVES = ("start", "excess", "feed", "formula", "molar_mass", "temperature", "require")
+DIRECTIVES = (
+    "start",
+    "excess",
+    "feed",
+    "formula",
+    "molar_mass",
+    "temperature",
+    "require",
+    "volume",
+)
 #: Words that cannot name a species or a constant.
 RESERVED = frozenset({*DIRECTIVES, "title", "balance", "arrhenius"})
 #: Keys of a decay step written without a named constant

@@ -38,6 +38,9 @@ STATEMENT_EXAMPLES = {
     "molar_mass": "molar_mass A = 180.2 g/mol",
     "temperature": "temperature = 60 degC",
     "require": "require API >= 90 %",
+    "volume": "volume = 1.0 L",
+    "at": "at 30 min: add A = 0.25 mol/L",
+    "every": "every 24 h: remove 100 % of D",
 }
 
 #: What each list statement gives a species, as a message names it.

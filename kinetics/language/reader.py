@@ -14,6 +14,7 @@ from ..errors import SchemeError
 from ..suggest import close_matches
 from .grammar import BAD_ARROW_RE, DIRECTIVE_LIKE, FIRST_WORD, NAME_RE
 from .messages import STATEMENT_EXAMPLES, quoted, unknown_arrow
+from .operations import OPERATION_KEYWORDS, OperationStatement, VolumeStatement
 from .reactions import ReactionStatement, fast_reaction, read_terms
 from .source import CONTROL_RE, MAX_LINE_LENGTH, Line, raw_lines, unreadable_line
 from .statements import (
@@ -34,6 +35,8 @@ Statement = (
     | TemperatureStatement
     | ListStatement
     | RequireStatement
+    | OperationStatement
+    | VolumeStatement
     | ReactionStatement
     | ConstantStatement
 )
@@ -44,12 +47,17 @@ STATEMENT_KINDS: tuple[type[Statement], ...] = (
     TemperatureStatement,
     ListStatement,
     RequireStatement,
+    OperationStatement,
+    VolumeStatement,
     ReactionStatement,
     ConstantStatement,
 )
 #: A line whose first word is no keyword can only be a reaction or a constant
 #: (the other statements start with their keyword): a speed-up for large files.
-_KEYWORD_STARTS = frozenset({"title", "balance", "temperature", "require", *ListStatement.EXAMPLES})
+_KEYWORD_STARTS = frozenset(
+    {"title", "balance", "temperature", "require", "volume", *OPERATION_KEYWORDS}
+    | set(ListStatement.EXAMPLES)
+)
 _NAME_STARTS: tuple[type[Statement], ...] = (ReactionStatement, ConstantStatement)
 #: The hint of a line that is no statement at all.
 _WHAT_A_LINE_IS = (

@@ -20,6 +20,7 @@ from .messages import Diagnostics
 from .names import ExcessDeclarations, single, species_order
 from .reader import ParsedFile
 from .requirements import resolve_requirements
+from .schedule import Outline, operation_names, resolve_timeline
 from .species import check_atom_balance, make_species
 from .statements import BalanceStatement, TitleStatement
 from .steps import StepBuilder
@@ -78,9 +79,23 @@ def resolve(parsed: ParsedFile, strict_balance: bool = True) -> Scheme:
     if not allow_imbalance:
         check_atom_balance(reactions, parsed.reactions, matrix + held, found)
     repeated_steps(steps, parsed.reactions, found)
+    outline = Outline(
+        [s.name for s in matrix],
+        tuple(held),
+        tuple(n for n, c in constants.items() if c.value_si is None),
+        unit.unit,
+    )
+    molar = {s.name: s.molar_mass for s in matrix}
+    timeline = resolve_timeline(
+        parsed.statements, outline, unit, definitions.quantities, molar, found
+    )
     found.raise_if_any()
     unused_constants(
-        parsed.statements, parsed.reactions, found, definitions.used, definitions.quantities
+        parsed.statements,
+        parsed.reactions,
+        found,
+        definitions.used | operation_names(parsed.statements),
+        definitions.quantities,
     )
     start, feed = values.values["start"], values.values["feed"]
     activities = {name: float(a > 0) for name, (a, _, _) in values.activities.items()}
@@ -104,6 +119,7 @@ def resolve(parsed: ParsedFile, strict_balance: bool = True) -> Scheme:
         warnings=tuple(found.warnings),
         quantities=definitions.quantities,
         dependencies=definitions.graph,
+        timeline=timeline,
         _excess_si={k: v for k, v in values.si["excess"].items() if v is not None},
         _unit_factor=unit.factor,
     )

@@ -192,8 +192,12 @@ def write_xlsx(
     inputs: dict[str, list[dict]] | None = None,
     scheme_text: str = "",
     scheme_rows: list[dict] | None = None,
+    events: list[dict] | None = None,
 ) -> None:
-    r"""Write an Excel workbook with sheets ``concentrations``, ``summary`` and ``inputs``.
+    r"""Write an Excel workbook of the solution, its summary and its inputs.
+
+    The sheets are ``concentrations``, ``summary`` and ``inputs`` (and ``events`` for a
+    run with operations).
 
     Numbers are numeric cells that read back as the same doubles; every text (titles,
     file names, species names, notes, the scheme) is a text cell passed through
@@ -213,6 +217,9 @@ def write_xlsx(
     scheme_rows : list of dict, optional
         Whole-scheme quantities (see :func:`kinetics.output.summary_text.scheme_rows`),
         written below the species rows of the summary sheet.
+    events : list of dict, optional
+        The operations of the run (see :func:`kinetics.output.overview.event_table`):
+        a sheet ``events`` when given.
 
     Raises
     ------
@@ -267,7 +274,22 @@ def write_xlsx(
             [{"line": i, "text": t} for i, t in enumerate(lines, 1)],
             bold,
         )
-    for sh in (sheet, summary_sheet, inputs_sheet):
+    sheets = [sheet, summary_sheet, inputs_sheet]
+    if events is not None:
+        check_xlsx_size(len(events) + 1, XLSX_MAX_COLUMNS, path)
+        events_sheet = book.create_sheet("events")
+        if events:
+            header = list(events[0])
+            _append(events_sheet, header)
+            for cell in events_sheet[1]:
+                cell.font = bold
+            for row in events:
+                _append(events_sheet, [row.get(h) for h in header])
+            events_sheet.freeze_panes = "A2"
+        else:
+            events_sheet.append(["no operation was applied inside the window"])
+        sheets.append(events_sheet)
+    for sh in sheets:
         for column in sh.columns:
             width = max((len(str(c.value)) for c in column if c.value is not None), default=8)
             sh.column_dimensions[column[0].column_letter].width = min(max(10, width + 2), 60)

@@ -34,9 +34,12 @@ __all__ = [
     "CERTIFICATE_NOTE",
     "CHECK_TABLE_ROWS",
     "DENSE_JSON_MAX",
+    "RAMP_NOTE",
     "certificate_rows",
     "certificate_sentence",
     "check_report",
+    "event_rows",
+    "event_table",
     "inputs_tables",
     "solution_json",
 ]
@@ -136,6 +139,22 @@ def check_report(scheme: Scheme) -> dict:
         "balance": balance.to_dict(),
         "network": network.to_dict(),
         "warnings": list(scheme.warnings),
+        "operations": _operations(scheme),
+    }
+
+
+def _operations(scheme: Scheme) -> dict | None:
+    """The timeline of a scheme as written (``check --json``): each statement's line and
+    text, and the volume of the run [L]; None without operations.
+    """
+    line = scheme.timeline
+    if not line and line.volume is None:
+        return None
+    return {
+        "statements": [
+            {"line": s.place.line, "text": s.place.text.strip()} for s in line.statements
+        ],
+        "volume_L": None if line.volume is None else line.volume * 1000,
     }
 
 
@@ -198,6 +217,8 @@ def solution_json(
             name: solution.concentrations[:, i].tolist() for i, name in enumerate(solution.species)
         },
         **_certificate(solution),
+        "events": event_rows(solution, time_unit),
+        **_timeline(solution),
     }
 
 
@@ -213,6 +234,98 @@ def _requirements(summary) -> dict:
         "all_hold_from": checked["all_hold_from"],
         "all_hold_until": checked["all_hold_until"],
     }
+
+
+def _timeline(solution: Solution) -> dict:
+    """The rows just after operations and the notes of a run with operations."""
+    if solution.after is None:
+        return {}
+    out: dict = {"after": solution.after.tolist(), "timeline_notes": list(solution.notes)}
+    if solution.ramp_estimate is not None:
+        out["ramp_estimate"] = [finite_or_none(float(x)) for x in solution.ramp_estimate]
+        out["ramp_estimate_note"] = RAMP_NOTE
+    return out
+
+
+#: What ``ramp_estimate`` is, in one sentence (JSON note, report).
+RAMP_NOTE = (
+    "ramp_estimate[k] estimates the relative error of the temperature-ramp sub-steps at "
+    "times[k] (differences of successive refinements, checked against a stiff integrator in "
+    "the tests); it is an estimate beside the certified error_bound, not part of it"
+)
+
+
+def event_rows(solution: Solution, time_unit: str) -> list[dict]:
+    r"""The recorded operations of a solution as JSON-ready objects, in time order.
+
+    Keys: ``time`` [time_unit], ``action`` (``add``, ``remove``, ``temperature``,
+    ``feed on``, ``feed off``), ``species`` (None for a temperature or an addition of
+    solvent alone), ``change`` (signed, in the solution's concentration unit: what was
+    added, minus what was removed, 0 for temperatures and feeds), ``temperature_K`` (the
+    new temperature), ``rate`` (a feed's rate [concentration unit per time_unit]),
+    ``volume_L`` (the run's volume just after, in a run with volumes), ``error_bound``
+    (certified relative bound of ``change``) and ``ramp_estimate``.
+
+    Examples
+    --------
+    >>> import kinetics
+    >>> s = kinetics.parse("P -> D  k = 1 1/h\nD -> X  k2 = 0.1 1/h\nstart P = 1 M\n"
+    ...                    "every 1 h: remove 100 % of D")
+    >>> rows = event_rows(kinetics.solve(s, [0, 7200]), "h")
+    >>> [(r["time"], r["action"], r["species"]) for r in rows]
+    [(1.0, 'remove', 'D'), (2.0, 'remove', 'D')]
+    """
+    factor = time_factor(time_unit)
+    scale = dict.fromkeys(solution.species, 1.0)
+    if solution.unit_factors is not None:
+        scale = dict(zip(solution.species, solution.unit_factors.tolist(), strict=True))
+    rows = []
+    for e in solution.events:
+        feed = e.action.startswith("feed") and e.value is not None and e.species is not None
+        rows.append(
+            {
+                "time": finite_or_none(e.time / factor),
+                "action": e.action,
+                "species": e.species,
+                "change": finite_or_none(e.change),
+                "temperature_K": e.value if e.action == "temperature" else None,
+                "rate": finite_or_none(e.value * scale[e.species] * factor) if feed else None,
+                "volume_L": None if e.volume is None else finite_or_none(e.volume * 1000),
+                "error_bound": finite_or_none(float(e.error_bound)),
+                "ramp_estimate": finite_or_none(float(e.ramp_estimate)),
+            }
+        )
+    return rows
+
+
+def event_table(solution: Solution, time_unit: str) -> list[dict]:
+    """:func:`event_rows` as table rows with units in the column names (CSV, Excel, report).
+
+    Columns: ``time [time_unit]``, ``action``, ``species``, ``change [unit]``,
+    ``temperature [K]``, ``feed rate [unit/time_unit]``, ``volume after [L]`` (in a run with
+    volumes), ``relative error bound``, ``ramp estimate`` (with ramps).
+    """
+    unit = solution.concentration_unit
+    rows = event_rows(solution, time_unit)
+    volumes = any(r["volume_L"] is not None for r in rows)
+    ramps = any(r["ramp_estimate"] for r in rows)
+    table = []
+    for r in rows:
+        row = {
+            f"time [{time_unit}]": r["time"],
+            "action": r["action"],
+            "species": r["species"] or "",
+            f"change [{unit}]": r["change"],
+            "temperature [K]": r["temperature_K"],
+            f"feed rate [{unit}/{time_unit}]": r["rate"],
+        }
+        if volumes:
+            row["volume after [L]"] = r["volume_L"]
+        row["relative error bound"] = r["error_bound"]
+        if ramps:
+            row["ramp estimate"] = r["ramp_estimate"]
+        table.append(row)
+    return table
 
 
 #: What ``error_bound`` certifies, in one sentence (JSON note, report, Excel).

@@ -35,6 +35,7 @@ __all__ = [
     "LINE_STYLES",
     "LOG_FLOOR",
     "MARKERS",
+    "OPERATION_MARKS",
     "SPLIT_RATIO",
     "concentration_figure",
     "figure_bytes",
@@ -170,7 +171,10 @@ def concentration_figure(
         Two panels: linear concentration axis (with a right-hand axis when split) and
         logarithmic concentration axis.  Labels of maxima and half-lives never overlap each
         other and stay inside the linear panel (see
-        :func:`kinetics.output.labels.place_labels`).
+        :func:`kinetics.output.labels.place_labels`).  The operations of a run
+        (``solution.events``) are marked on the time axis of both panels, one marker
+        shape per kind (see :data:`OPERATION_MARKS`); a time at which the solution has
+        two rows (just before and just after an operation) is drawn as a vertical jump.
     """
     if linear not in ("auto", "shared"):
         raise SettingError(f"linear={linear!r} is not known", "use 'auto' or 'shared'")
@@ -192,6 +196,7 @@ def concentration_figure(
         float(t[-1]) if t.size else 0.0,
         solution.quantity,
     )
+    _mark_operations(panels, drawn, solution, time_unit)
     heading = title if title is not None else (solution.scheme.title or solution.scheme.source)
     if heading:  # the user's text, drawn as written ("$" starts no formula)
         fig.suptitle(heading, fontsize=12, parse_math=False)
@@ -223,6 +228,7 @@ class _Drawn:
 
     labels: list[Label] = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
+    operations: list[str] = field(default_factory=list)
     peak: float = 0.0
     positive_min: float = math.inf
     maximum: bool = False
@@ -313,7 +319,52 @@ def _legend(p: _Panels, drawn: _Drawn, names: list[str]) -> None:
     if drawn.half_life:
         handles.append(Line2D([], [], marker="o", ls="none", mfc="none", mec="black", ms=9))
         legend.append("half-life")
+    for action in drawn.operations:
+        marker, words = OPERATION_MARKS[action]
+        handles.append(Line2D([], [], marker=marker, ls="none", color="0.15", ms=8))
+        legend.append(words)
     p.fig.legend(handles, legend, loc="outside lower center", ncol=min(len(legend), 8), fontsize=9)
+
+
+#: Marker and legend words of each kind of operation on the time axis.
+OPERATION_MARKS = {
+    "add": ("^", "addition"),
+    "remove": ("v", "removal"),
+    "temperature": ("d", "temperature change"),
+    "feed on": (">", "feed on"),
+    "feed off": ("<", "feed off"),
+}
+#: Most operations that also get a faint vertical line across the panels.
+OPERATION_LINES = 40
+
+
+def _mark_operations(p: _Panels, drawn: _Drawn, solution, time_unit: str) -> None:
+    """Markers on the time axis at every operation (one shape per kind)."""
+    events = getattr(solution, "events", ())
+    if not events:
+        return
+    factor = time_factor(time_unit)
+    by_kind: dict[str, list[float]] = {}
+    for e in events:
+        by_kind.setdefault(e.action, []).append(e.time / factor)
+    times = sorted({x for xs in by_kind.values() for x in xs})
+    for ax in (p.lin, p.log):
+        for action, xs in by_kind.items():
+            ax.plot(
+                xs,
+                [0.0] * len(xs),
+                marker=OPERATION_MARKS[action][0],
+                ls="none",
+                color="0.15",
+                ms=7,
+                clip_on=False,
+                zorder=7,
+                transform=ax.get_xaxis_transform(),
+            )
+        if len(times) <= OPERATION_LINES:
+            for x in times:
+                ax.axvline(x, color="0.6", linestyle=(0, (4, 3)), linewidth=0.6, zorder=0)
+    drawn.operations = [a for a in OPERATION_MARKS if a in by_kind]
 
 
 def _tight(fig: Figure) -> str | None:

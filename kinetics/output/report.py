@@ -20,7 +20,13 @@ from typing import TYPE_CHECKING
 
 from kinetics import files
 from kinetics._version import __version__
-from kinetics.output.overview import CAUTION, certificate_sentence, inputs_tables
+from kinetics.output.overview import (
+    CAUTION,
+    RAMP_NOTE,
+    certificate_sentence,
+    event_table,
+    inputs_tables,
+)
 from kinetics.output.summary_text import (
     DEFINITIONS,
     HINGE_HEADERS,
@@ -260,6 +266,53 @@ def _summary_section(summary: dict | None, time_unit: str, conc_unit: str) -> st
     return "\n".join(parts)
 
 
+#: Most operations listed in the timeline section (the first and the last ones).
+REPORT_EVENTS = 200
+
+
+def _timeline_section(scheme: Scheme, solution: Solution, time_unit: str) -> str:
+    """The operations as written, what each moved, and the notes of the timeline."""
+    parts = ["<h2>Timeline of operations</h2>"]
+    written = []
+    for s in scheme.timeline.statements:
+        place = s.place
+        where = f"{place.source}:{place.line}" if place.line else place.source
+        written.append([escape(where), escape(place.text.strip() or type(s).__name__)])
+    if scheme.timeline.volume is not None:
+        parts.append(f"<p>Volume of the run at time 0: {scheme.timeline.volume * 1000:.6g} L</p>")
+    if written and len(written) <= REPORT_EVENTS:
+        parts.append(_table(["written at", "statement"], written))
+    elif written:
+        parts.append(f"<p>{len(written):,} timeline statements (see the scheme and record).</p>")
+    rows = event_table(solution, time_unit)
+    if rows:
+        shown = rows if len(rows) <= REPORT_EVENTS else rows[:REPORT_EVENTS]
+        headers = list(rows[0])
+        cells = [[_num(r[h]) if h not in ("action", "species") else escape(r[h]) for h in headers]
+                 for r in shown]  # fmt: skip
+        numeric = {i for i, h in enumerate(headers) if h not in ("action", "species")}
+        parts.append(
+            f"<h3>Operations applied ({len(rows):,}"
+            + (f"; the first {REPORT_EVENTS} shown" if len(shown) < len(rows) else "")
+            + ")</h3>"
+        )
+        parts.append(f'<div class="scroll">{_table(headers, cells, numeric)}</div>')
+        parts.append(
+            "<p>A time of an addition or removal appears twice in the concentration table: "
+            "just before and just after the operation. <em>change</em> is what the operation "
+            "moved (negative: taken out, e.g. an eluate).</p>"
+        )
+    else:
+        parts.append("<p>No operation was applied inside the window.</p>")
+    if solution.ramp_estimate is not None:
+        worst = float(solution.ramp_estimate.max(initial=0.0))
+        parts.append(f"<p>Temperature ramps: largest estimate {worst:.2g}. {escape(RAMP_NOTE)}</p>")
+    if solution.notes:
+        items = "".join(f"<li>{escape(n)}</li>" for n in solution.notes)
+        parts.append(f'<ul class="notes">{items}</ul>')
+    return "\n".join(parts)
+
+
 def _concentration_table(solution: Solution, time_unit: str, species) -> str:
     frame = solution.to_frame(time_unit)
     if species:
@@ -327,6 +380,8 @@ def build_report(
     parts.append(_graph_section(scheme))
     parts.append(_inputs_section(scheme))
     parts.append(_balance_section(scheme))
+    if solution.after is not None:
+        parts.append(_timeline_section(scheme, solution, time_unit))
     parts.append(_summary_section(summary, time_unit, solution.concentration_unit))
     parts.append(_activity_section(solution, summary, time_unit))
     parts.append(_hinge_section(sensitivity))

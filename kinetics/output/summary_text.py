@@ -201,6 +201,45 @@ def scheme_lines(scheme: dict, time_unit: str, conc_unit: str) -> list[tuple[str
         share = scheme.get(f"selectivity_{where}")
         if share is not None:
             lines.append((f"share of end products formed {label}", _listing(share)))
+    if scheme.get("timeline_note"):
+        lines.append(("with operations", scheme["timeline_note"]))
+    lines.extend(_record_lines(scheme.get("temperature_log")))
+    return lines
+
+
+def _record_lines(record: dict | None) -> list[tuple[str, str]]:
+    """The mean kinetic temperature of a temperature record and the equivalent isothermal
+    temperature of each Arrhenius constant (see
+    :meth:`kinetics.temperature_log.TemperatureLog.summary`).
+    """
+    if not record:
+        return []
+
+    def degrees(celsius) -> str:
+        return (
+            "— (the window ends before the first reading)"
+            if celsius is None
+            else (f"{celsius:.4g} °C")
+        )
+
+    energy = record["activation_energy_J_per_mol"] / 1000
+    lines = [
+        (
+            f"mean kinetic temperature of {record['source']} (Ea {energy:g} kJ/mol, "
+            "common practice)",
+            degrees(record["mean_kinetic_temperature_degC"]),
+        )
+    ]
+    for e in record["equivalent_temperatures"]:
+        steps = ", ".join(e["steps"]) or "no step"
+        lines.append(
+            (
+                f"equivalent isothermal temperature of {e['constant']} ({steps}; Ea "
+                f"{e['activation_energy_J_per_mol'] / 1000:g} kJ/mol)",
+                degrees(e["temperature_degC"]),
+            )
+        )
+    lines.append(("temperature record", record["held"]))
     return lines
 
 
@@ -306,6 +345,7 @@ def summary_notes(summary: dict[str, dict], time_unit: str, conc_unit: str) -> l
         if len(maxima) > 1:
             listed = ", ".join(
                 f"{m['height']:.4g} {conc_unit} at {m['time']:.4g} {time_unit}"
+                + (f" ({m['at_operation']} an operation)" if m.get("at_operation") else "")
                 for m in maxima
                 if m.get("time") is not None and m.get("height") is not None
             )

@@ -128,6 +128,11 @@ def chunk_result(
     computed independently of the others, so the result does not depend on how the sets
     are split into chunks or which machine runs them.
     """
+    if plan.scheme.timeline:  # operations: each set solved as its own run
+        from .runs import run_chunk
+
+        display, summary, conc, bound = run_chunk(plan, start, stop, curves)
+        return ChunkResult(index, start, stop, display, summary, conc, bound)
     display, _ = plan.set_values(start, stop)
     K, K_low, c0, feed = set_matrices(plan, start, stop)
     if plan.summary_method == "reference":

@@ -55,7 +55,7 @@ GRID_HELP = (
 SPREAD_HELP = (
     "write NAME=P% (lognormal for rate constants, A, start and excess values and named "
     "quantities above 0) or an absolute standard deviation for temperature, Ea and named "
-    "quantities, e.g. k1=15%, temperature=2K, k3.Ea=2kJ/mol, t_p=2h"
+    "quantities, e.g. k1=15%, temperature=2K, k3.Ea=2kJ/mol, t_p=2h, t_q=10min"
 )
 
 
@@ -397,7 +397,7 @@ def _parse_spread(scheme: Scheme, spec: str, where: str) -> Spread:
         raise UsageError(f"{where} needs a name and a spread", SPREAD_HELP)
     target = parameters.resolve(scheme, name, SweepWords(where))
     # a named quantity may be spread either way (t_p=10% lognormal, dS=5J/(mol K) normal)
-    normal = target.kind in ("temperature", "energy", "quantity")
+    normal = target.kind in ("temperature", "energy", "quantity", "operation")
     m = re.match(rf"^({NUMBER})\s*%$", body)
     if m:
         distribution, sigma, relative = _relative_spread(target, float(m[1]), where)

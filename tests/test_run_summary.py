@@ -1,0 +1,131 @@
+"""The summary of a run with operations, on its exact piecewise solution.
+
+Reference values are closed forms of first-order kinetics (any physical chemistry
+textbook): c = c0 e^(-kt) for one decay step, the consecutive-step intermediate
+B = A0 k1/(k2 - k1) (e^(-k1 t) - e^(-k2 t)) (Bateman form; H. Bateman, Proc. Cambridge
+Philos. Soc. 15, 423-427 (1910)), areas (1 - e^(-kT))/k, and the conservation of mass in a
+closed scheme (what is formed is what is there plus what was removed).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+import kinetics
+from kinetics.analysis.run_summary import summarise_run
+
+HOUR = 3600.0
+
+
+def summary(text, end_hours, points=3):
+    sol = kinetics.solve(kinetics.parse(text), np.linspace(0.0, end_hours * HOUR, points))
+    return summarise_run(sol)
+
+
+def test_a_maximum_just_before_a_removal():
+    per, _ = summary(
+        "A -> B  k1 = 1 1/h\nB -> C  k2 = 0.01 1/h\nstart A = 1 M\nat 2 h: remove 100 % of B", 3
+    )
+    b = per["B"]
+    exact = 1.0 / (0.01 - 1.0) * (math.exp(-1.0 * 2) - math.exp(-0.01 * 2))
+    assert b["t_max"] == 2 * HOUR
+    assert b["c_max"] == pytest.approx(exact, rel=1e-13)
+    (top,) = [m for m in b["maxima"] if m["global"]]
+    assert top["at_operation"] == "just before"
+    # the decay of A is untouched: its half-life is ln 2 / k1
+    assert per["A"]["half_life"] == pytest.approx(math.log(2) * HOUR, rel=1e-12)
+
+
+def test_a_maximum_just_after_an_addition():
+    per, _ = summary("A -> B  k1 = 1 1/h\nstart A = 0.1 M\nat 1 h: add A = 1 M", 2)
+    a = per["A"]
+    assert a["t_max"] == HOUR
+    assert a["c_max"] == pytest.approx(1.0 + 0.1 * math.exp(-1.0), rel=1e-14)
+    assert a["maxima"][0]["at_operation"] == "just after"
+
+
+def test_a_removal_that_takes_the_species_below_the_level_is_the_crossing():
+    per, _ = summary("A -> B  k = 0.01 1/h\nstart A = 1 M\nat 1 h: remove 60 % of A", 2)
+    a = per["A"]
+    assert a["half_life"] == HOUR
+    assert a["time_to_90_percent_remaining"] == HOUR
+    # 10 % left: 0.4 e^(-0.01) e^(-0.01 (t - 1 h)) = 0.1, found beyond the window
+    tail = math.log(0.4 * math.exp(-0.01) / 0.1) / 0.01
+    assert a["time_to_10_percent_remaining"] == pytest.approx((1 + tail) * HOUR, rel=1e-10)
+
+
+def test_times_to_a_fraction_lose_their_meaning_when_material_is_added():
+    per, _ = summary("A -> B  k1 = 1 1/h\nstart A = 1 M\nat 1 h: add A = 1 M", 2)
+    a = per["A"]
+    assert a["half_life"] is None
+    assert a["time_to_10_percent_remaining"] is None
+    assert a["half_life_note"] == (
+        "material of A is added after time 0 (from 3600 s on), so a time to fall to a fraction "
+        "of its start value loses its meaning"
+    )
+    assert a["half_life_note"] in a["notes"]
+    assert a["yield_at_max"] is None
+    assert a["mean_residence_time"] is None
+
+
+def test_areas_add_up_stretch_by_stretch():
+    per, _ = summary("A -> B  k = 0.5 1/h\nstart A = 1 M\nat 2 h: add A = 0.3 M", 5)
+    a = per["A"]
+    window = (1 - math.exp(-0.5 * 5)) / 0.5 + 0.3 * (1 - math.exp(-0.5 * 3)) / 0.5
+    assert a["area_to_window_end"] == pytest.approx(window * HOUR, rel=1e-13)
+    assert a["area_to_infinity"] == pytest.approx((1 / 0.5 + 0.3 / 0.5) * HOUR, rel=1e-13)
+
+
+@pytest.mark.parametrize("end", [1, 2])
+def test_the_limit_refers_to_the_conditions_after_the_last_operation(end):
+    # the feed window has ended (also when it ends with the window): all fed A ends in B
+    per, whole = summary(
+        "A -> B  k = 1 1/h\nstart A = 1 M\nfrom 0 h to 1 h: feed A = 0.5 mol/L/h", end
+    )
+    assert per["B"]["limit"] == pytest.approx(1.5, rel=1e-14)
+    assert per["A"]["limit"] == 0.0
+    assert "refer to the conditions after the last operation" in whole["timeline_note"]
+
+
+def test_amounts_formed_count_what_was_removed():
+    _, whole = summary("A -> B  k = 1 1/h\nstart A = 1 M\nat 1 h: remove 50 % of B", 3)
+    assert whole["end_products"] == ["B"]
+    formed = whole["amount_formed_at_window_end"]["B"]
+    assert formed == pytest.approx(1 - math.exp(-3.0), rel=1e-13)
+    assert whole["amount_formed_in_limit"]["B"] == pytest.approx(1.0, rel=1e-13)
+    assert whole["selectivity_at_window_end"] == {"B": 1.0}
+
+
+def test_no_amounts_formed_in_a_run_with_volumes():
+    _, whole = summary("A -> B  k = 1 1/h\nstart A = 1 mol/L\nvolume = 1 L\nat 1 h: add 1 L", 2)
+    assert whole["amount_formed_at_window_end"] is None
+    assert whole["selectivity_in_limit"] is None
+    assert "amounts formed are not given in a run with volumes" in whole["timeline_note"]
+
+
+def test_a_maximum_inside_a_ramp_is_found_on_its_sub_steps():
+    # B of A -> B -> C during a heating ramp: the summary's maximum is at least as high as
+    # every row of a fine table, and within the ramp estimate of the highest one
+    text = (
+        "A -> B  k1 = arrhenius(A = 1e9 1/s, Ea = 70 kJ/mol)\n"
+        "B -> C  k2 = arrhenius(A = 1e12 1/s, Ea = 90 kJ/mol)\n"
+        "temperature = 25 degC\nstart A = 1 M\nfrom 0 h to 4 h: temperature 25 degC -> 80 degC"
+    )
+    sol = kinetics.solve(kinetics.parse(text), np.linspace(0.0, 4 * HOUR, 2001))
+    per, _ = summarise_run(sol)
+    b = per["B"]
+    grid = float(sol["B"].max())
+    assert b["c_max"] >= grid * (1 - 1e-12)
+    assert b["c_max"] == pytest.approx(grid, rel=1e-5)
+    assert 0 < b["t_max"] < 4 * HOUR
+
+
+def test_examples_in_the_docstrings():
+    import doctest
+
+    import kinetics.analysis.run_summary as module
+
+    assert doctest.testmod(module).failed == 0
