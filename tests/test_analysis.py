@@ -63,6 +63,36 @@ def test_bad_arrays_raise_typed_errors(K, c0, kind):
 
 
 @pytest.mark.parametrize(
+    ("K", "c0", "feed"),
+    [
+        (np.array([[-1.0, -0.1], [1.0, 0.0]]), [1, 0], None),
+        (scipy.sparse.csr_array(np.array([[-1.0, -0.1], [1.0, 0.0]])), [1, 0], None),
+        (np.zeros((2, 3)), [1, 0], None),
+        (np.array([[np.nan, 0], [0, 0]]), [1, 0], None),
+        ("abc", [1, 0], None),
+        (chain_matrix([1.0]), [1, 0, 0], None),
+        (chain_matrix([1.0]), [1, -1], None),
+        (chain_matrix([1.0]), [1, 0], [0, np.inf]),
+    ],
+)
+def test_the_analysis_words_a_mistake_as_the_engine_does(K, c0, feed):
+    # one home per check (kinetics.engine.checks): the same mistake, the same message
+    # (the messages themselves are pinned in test_propagate)
+    with pytest.raises(ArgumentValueError) as analysis:
+        an.long_time_limit(K, c0, feed=feed)
+    with pytest.raises(ArgumentValueError) as engine:
+        propagate(K, c0, [1.0], feed)
+    assert type(analysis.value) is type(engine.value)
+    assert str(analysis.value) == str(engine.value)
+
+
+def test_an_empty_rate_matrix_is_refused():
+    with pytest.raises(RateMatrixError) as err:
+        an.long_time_limit(np.zeros((0, 0)), [])
+    assert str(err.value) == "the rate matrix K is empty; a scheme needs at least one species"
+
+
+@pytest.mark.parametrize(
     ("call", "kind"),
     [
         (lambda: an.half_life(chain_matrix([1.0]), [1, 0], 2), SpeciesError),

@@ -190,11 +190,6 @@ def test_expression_and_activity_errors_are_value_errors_and_pickle():
 #: the typed errors; this list only shrinks).  Everything else outside kinetics/cli/ must
 #: not name UsageError at all.
 STILL_RAISING_USAGE_ERROR = {
-    "engine/blocks.py",
-    "engine/checks.py",
-    "engine/propagate.py",
-    "engine/sensitivity.py",
-    "engine/stretch.py",
     "fit/estimation.py",
     "fit/model.py",
     "optimise/api.py",
