@@ -86,6 +86,25 @@ def test_the_analysis_words_a_mistake_as_the_engine_does(K, c0, feed):
     assert str(analysis.value) == str(engine.value)
 
 
+def test_a_window_end_and_area_limits_are_worded_as_every_time():
+    # one wording per mistake: the window end as kinetics.solution.time_grid's end, the
+    # upper limits of areas as any time list (kinetics.engine.checks)
+    with pytest.raises(TimesError) as err:
+        an.intermediate_maxima(chain_matrix([1.0]), [1, 0], 1, t_window=-1.0)
+    assert str(err.value) == (
+        "t_window must be positive and finite, not -1 s; give the end of the window in "
+        "seconds, e.g. 5400 for 90 min"
+    )
+    with pytest.raises(TimesError) as err:
+        an.areas(chain_matrix([1.0]), [1, 0], [5.0, -1.0])
+    assert str(err.value) == "a time is negative (-1 s); times start at 0 (the start values)"
+    with pytest.raises(TimesError) as err:
+        an.areas(chain_matrix([1.0]), [1, 0], [np.inf])
+    assert str(err.value) == "a time is not a finite number; give finite times in seconds"
+    # in any order
+    assert an.areas(chain_matrix([1.0]), [1, 0], [2.0, 1.0]).to_end.shape == (2, 2)
+
+
 def test_an_empty_rate_matrix_is_refused():
     with pytest.raises(RateMatrixError) as err:
         an.long_time_limit(np.zeros((0, 0)), [])

@@ -6,8 +6,6 @@ of K) or raises the typed error of :mod:`kinetics.errors` for that mistake.
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 import scipy.sparse
 
@@ -16,12 +14,10 @@ from kinetics.errors import (
     RateMatrixError,
     SettingError,
     SpeciesError,
-    TimesError,
 )
 
 __all__ = [
     "fraction",
-    "positive_time",
     "rate_matrix",
     "species_index",
     "species_names",
@@ -87,22 +83,6 @@ def species_names(names, n: int) -> list[str]:
     return names
 
 
-def positive_time(t, what: str) -> float:
-    """A positive finite time [s].
-
-    Raises
-    ------
-    kinetics.errors.TimesError
-    """
-    try:
-        t = float(t)
-    except (TypeError, ValueError) as exc:
-        raise TimesError(f"{what} {t!r} is not a number", "give a time in seconds") from exc
-    if not math.isfinite(t) or t <= 0:
-        raise TimesError(f"{what} must be a positive finite time, got {t!r}", "seconds, > 0")
-    return t
-
-
 def fraction(x, what: str) -> float:
     """A number strictly between 0 and 1 (a fraction of the start value, a tolerance).
 
@@ -122,16 +102,13 @@ def fraction(x, what: str) -> float:
 
 
 def times_end(values) -> np.ndarray:
-    """Upper limits of areas [s]: a flat array of finite times >= 0.
+    """Upper limits of areas [s]: a flat array of finite times >= 0, in any order.
+
+    The checks and their wording are those of every time list
+    (:func:`kinetics.engine.checks.time_points`).
 
     Raises
     ------
     kinetics.errors.TimesError
     """
-    try:
-        T = np.atleast_1d(np.array(values, dtype=float)).reshape(-1)
-    except (TypeError, ValueError) as exc:
-        raise TimesError("times_end is not numeric", "give times in seconds") from exc
-    if not np.all(np.isfinite(T)) or (T < 0).any():
-        raise TimesError("times_end must be finite and >= 0", "give times in seconds")
-    return T
+    return checks.time_points(values)

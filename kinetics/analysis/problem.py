@@ -85,7 +85,7 @@ class Problem:
             self.f = checks.vector(feed, n, "feed", checks.FEED_HINT)
             self.feed = self.f if self.f.any() else None
         self.names = inputs.species_names(names, n)
-        self.t_window = None if t_window is None else inputs.positive_time(t_window, "t_window")
+        self.t_window = None if t_window is None else checks.end_time(t_window, "t_window")
         window = self.t_window or 0.0
         amount = float(self.c0.sum() + self.f.sum() * window)
         check_working_range(-self.Ks.diagonal(), window, self.names, amount)

@@ -8,6 +8,7 @@ message whichever function received it.
 from __future__ import annotations
 
 import functools
+import math
 import warnings
 from collections.abc import Iterator
 
@@ -26,16 +27,19 @@ from kinetics.errors import (
 )
 
 __all__ = [
+    "END_HINT",
     "FEED_HINT",
     "K_HINT",
     "PRECISIONS",
     "START_HINT",
+    "end_time",
     "guard_growth",
     "low_parts",
     "offdiagonal_nonnegative",
     "precision",
     "rate_matrix",
     "time_list",
+    "time_points",
     "times",
     "vector",
 ]
@@ -51,6 +55,8 @@ K_HINT = (
 )
 #: What start concentrations are, the hint of every mistake in them.
 START_HINT = "start concentrations, one per species, >= 0"
+#: What the end of a time window is, the hint of every mistake in it.
+END_HINT = "give the end of the window in seconds, e.g. 5400 for 90 min"
 #: What feed rates are, the hint of every mistake in them.
 FEED_HINT = "zero-order feed rates [conc/s], >= 0"
 
@@ -185,8 +191,8 @@ def _numbers(times) -> np.ndarray:
     return t
 
 
-def _flat(t: np.ndarray) -> np.ndarray:
-    """``t`` itself when it is a flat list of finite times >= 0 in nondecreasing order."""
+def _flat(t: np.ndarray, ordered: bool = True) -> np.ndarray:
+    """``t`` itself when it is a flat list of finite times >= 0 (nondecreasing if ``ordered``)."""
     if t.ndim != 1:
         shape = "a single number" if t.ndim == 0 else f"an array of shape {t.shape}"
         raise TimesError(
@@ -199,7 +205,7 @@ def _flat(t: np.ndarray) -> np.ndarray:
         raise TimesError(
             f"a time is negative ({float(t[t < 0][0]):g} s)", "times start at 0 (the start values)"
         )
-    if np.any(t[1:] < t[:-1]):
+    if ordered and np.any(t[1:] < t[:-1]):
         raise TimesError("the times are not in increasing order", "sort the time list")
     return t
 
@@ -220,6 +226,20 @@ def times(times) -> np.ndarray:
     return _flat(t.reshape(1) if t.ndim == 0 else t)
 
 
+def time_points(times) -> np.ndarray:
+    """Times [s] in any order (upper limits of areas...): one number or any array of them.
+
+    Flattened; each time finite and >= 0, with the wording of :func:`time_list`.
+
+    Raises
+    ------
+    kinetics.errors.TimesError
+    kinetics.errors.ArgumentTypeError
+        ``None``, text or a mapping instead of times.
+    """
+    return _flat(_numbers(times).reshape(-1), ordered=False)
+
+
 def time_list(times) -> np.ndarray:
     """Validate a time list [s] a user gave and return it as floats.
 
@@ -236,6 +256,30 @@ def time_list(times) -> np.ndarray:
     if t.ndim == 1 and t.size == 0:
         raise TimesError("the time list is empty", "give at least one time")
     return _flat(t)
+
+
+def end_time(t, what: str = "the end time") -> float:
+    """The end of a time window [s]: a positive finite number.
+
+    For :func:`kinetics.solution.time_grid` and the ``t_window`` of the analysis; ``what``
+    names the argument in the message.
+
+    Raises
+    ------
+    kinetics.errors.TimesError
+
+    Examples
+    --------
+    >>> end_time(5400)
+    5400.0
+    """
+    try:
+        end = float(t)
+    except (TypeError, ValueError) as exc:
+        raise TimesError(f"{what} {t!r} is not a number", END_HINT) from exc
+    if not (math.isfinite(end) and end > 0):
+        raise TimesError(f"{what} must be positive and finite, not {end:g} s", END_HINT)
+    return end
 
 
 def precision(precision) -> None:
