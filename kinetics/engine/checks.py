@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import functools
 import math
-import warnings
 from collections.abc import Iterator
 
 import numpy as np
@@ -78,7 +77,7 @@ def _square(shape: tuple) -> None:
 def _sparse_rate_matrix(K) -> scipy.sparse.csr_array:
     Ks = scipy.sparse.csr_array(K, dtype=float)
     _square(Ks.shape)
-    if not np.all(np.isfinite(Ks.data)):
+    if not np.isfinite(Ks.data).all():
         raise RateMatrixError("the rate matrix K contains inf or nan", K_HINT)
     coo = Ks.tocoo()
     bad = (coo.row != coo.col) & (coo.data < 0)
@@ -177,18 +176,16 @@ def _numbers(times) -> np.ndarray:
             "e.g. [0, 600, 1200] or numpy.linspace(0, 3600, 201)",
         )
     try:
-        with warnings.catch_warnings():
-            warnings.simplefilter("ignore", np.exceptions.ComplexWarning)
-            t = np.array(times, dtype=float)
+        given = np.asarray(times)
+        kind = given.dtype.kind
+        if kind not in "bc":
+            return given.astype(float)
     except (TypeError, ValueError) as exc:
         raise TimesError(
             "the times are not numbers", "give times in seconds as a list of numbers"
         ) from exc
-    kind = (times if isinstance(times, np.ndarray) else np.asarray(times)).dtype.kind
-    if kind in "bc":
-        what = "True/False values" if kind == "b" else "complex numbers"
-        raise TimesError(f"the times are {what}", "give times in seconds as real numbers")
-    return t
+    what = "True/False values" if kind == "b" else "complex numbers"
+    raise TimesError(f"the times are {what}", "give times in seconds as real numbers")
 
 
 def _flat(t: np.ndarray, ordered: bool = True) -> np.ndarray:
@@ -199,13 +196,13 @@ def _flat(t: np.ndarray, ordered: bool = True) -> np.ndarray:
             f"the times must be a flat list of times, not {shape}",
             "e.g. [0, 600, 1200] or numpy.linspace(0, 3600, 201); for one time give [t]",
         )
-    if not np.all(np.isfinite(t)):
+    if not np.isfinite(t).all():
         raise TimesError("a time is not a finite number", "give finite times in seconds")
-    if np.any(t < 0):
+    if (t < 0).any():
         raise TimesError(
             f"a time is negative ({float(t[t < 0][0]):g} s)", "times start at 0 (the start values)"
         )
-    if ordered and np.any(t[1:] < t[:-1]):
+    if ordered and (t[1:] < t[:-1]).any():
         raise TimesError("the times are not in increasing order", "sort the time list")
     return t
 
