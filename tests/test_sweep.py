@@ -43,6 +43,7 @@ from kinetics.sweep import (
     set_matrices,
     sweep,
 )
+from kinetics.sweep.spec import SPREAD_HELP, VARY_HELP
 from kinetics.sweep.store import ChunkStore, run_sweep
 
 CONSECUTIVE = """\
@@ -140,31 +141,108 @@ def test_temperature_and_arrhenius_parameters():
 
 
 @pytest.mark.parametrize(
-    ("spec", "error", "words"),
+    ("spec", "error", "problem", "hint"),
     [
-        ("k9=0.1:1:3", ConstantError, "is not a rate constant"),
-        ("k1", ParameterSpecError, "no '='"),
-        ("k1=", ParameterSpecError, "needs a name and values"),
-        ("k1=0.1:1:3:log:1/min:extra", ParameterSpecError, "unexpected field"),
-        ("k1=0:1:3:log", ParameterSpecError, "log spacing needs positive"),
-        ("k1=0.1:1:0", ParameterSpecError, "whole number >= 1"),
-        ("k1=0.1:1:2.5", ParameterSpecError, "not a whole number"),
-        ("k1=0.1:1:1", ParameterSpecError, "at least 2 values"),
-        ("k1=a,b", ParameterSpecError, "is not a number"),
-        ("k1=0.1:1:3:meter", ConstantError, "does not have the dimension"),
-        ("k1=0.1:1:3:bananas", ConstantError, "is not a unit"),
-        ("k1=-1,2", ConstantError, "negative"),
-        ("start:A=-1,2", ConcentrationError, "negative"),
-        ("temperature=20:80:3:degC", TemperatureError, "no Arrhenius constant"),
-        ("start:Z=1,2", SpeciesError, "not a species"),
-        ("excess:A=1,2", SpeciesError, "held in excess"),
-        ("k1.Ea=80,90", ConstantError, "not by the Arrhenius law"),
+        (
+            "k9=0.1:1:3",
+            ConstantError,
+            ": 'k9' is not a rate constant or parameter of the scheme",
+            "parameters are k1, k2, k3, temperature, start:<species>, excess:<species>",
+        ),
+        ("k1", ParameterSpecError, " has no '='", VARY_HELP),
+        ("k1=", ParameterSpecError, " needs a name and values", VARY_HELP),
+        ("k1=0.1:1:3:log:1/min:extra", ParameterSpecError, ": unexpected field 'extra'", VARY_HELP),
+        ("k1=1:2:3:4:5", ParameterSpecError, ": unexpected field '5'", VARY_HELP),
+        (
+            "k1=0:1:3:log",
+            ParameterSpecError,
+            ": log spacing needs positive ends",
+            "use linear spacing or LO > 0",
+        ),
+        (
+            "k1=0.1:1:0",
+            ParameterSpecError,
+            ": the number of values must be a whole number >= 1, not '0'",
+            VARY_HELP,
+        ),
+        (
+            "k1=0.1:1:2.5",
+            ParameterSpecError,
+            ": the number of values '2.5' is not a whole number",
+            VARY_HELP,
+        ),
+        (
+            "k1=1:2:2000000",
+            ParameterSpecError,
+            ": 2,000,000 values on one axis are too many (at most 1,000,000)",
+            "use fewer values",
+        ),
+        (
+            "k1=0.1:1:1",
+            ParameterSpecError,
+            ": a range from 0.1 to 1 needs at least 2 values",
+            VARY_HELP,
+        ),
+        ("k1=a,b", ParameterSpecError, ": 'a' is not a number", VARY_HELP),
+        (
+            "k1=1,2:1/s:1/min",
+            ParameterSpecError,
+            " is neither a range LO:HI:N nor a list",
+            VARY_HELP,
+        ),
+        ("k1=1,2 1/s:1/min", ParameterSpecError, " gives two units", VARY_HELP),
+        (
+            "k1=0.1:1:3:meter",
+            ConstantError,
+            ": 'meter' does not have the dimension of '1/min', the unit of k1 in the file",
+            "write the values in 1/min or leave out the unit",
+        ),
+        ("k1=0.1:1:3:bananas", ConstantError, ": 'bananas' is not a unit", VARY_HELP),
+        (
+            "k1=1e400,2",
+            ConstantError,
+            ": 1e400 is beyond the range of numbers (1.8e308)",
+            "give finite values within the working range (README, Limits of the method)",
+        ),
+        ("k1=-1,2", ConstantError, ": a rate constant is negative", "give values >= 0"),
+        (
+            "start:A=-1,2",
+            ConcentrationError,
+            ": a start concentration is negative",
+            "give values >= 0",
+        ),
+        (
+            "temperature=20:80:3:degC",
+            TemperatureError,
+            ": the scheme has no Arrhenius constant, so the temperature changes nothing",
+            "define a constant as k = arrhenius(A = ..., Ea = ...) to sweep temperatures",
+        ),
+        (
+            "start:Z=1,2",
+            SpeciesError,
+            ": 'Z' is not a species of the scheme",
+            "the species are A, B, C, D",
+        ),
+        (
+            "excess:A=1,2",
+            SpeciesError,
+            ": 'A' is not a species held in excess",
+            "the scheme declares no species in excess",
+        ),
+        (
+            "k1.Ea=80,90",
+            ConstantError,
+            ": k1 is given as a number, not by the Arrhenius law, so it has no Ea",
+            "vary k1 itself, e.g. k1=0.1:1:10:log",
+        ),
     ],
 )
-def test_bad_vary_is_one_clear_sentence(chain, spec, error, words):
+def test_bad_vary_is_one_clear_sentence(chain, spec, error, problem, hint):
+    # each message starts with the place of the mistake (the option and what was written)
     with pytest.raises(error) as info:
         parse_vary(chain, spec)
-    assert words in str(info.value)
+    place = f"--vary {spec!r}"
+    assert str(info.value) == f"{place}{problem}; {hint}"
     assert "\n" not in str(info.value)
 
 
@@ -183,15 +261,30 @@ def test_bad_arrhenius_specs():
 @pytest.mark.parametrize(
     ("spec", "error", "words"),
     [
-        ("k1=15", ParameterSpecError, "must be a percentage"),
-        ("k1=-5%", ParameterSpecError, "positive percentage"),
-        ("k1", ParameterSpecError, "no '='"),
-        ("k7=5%", ConstantError, "is not a rate constant"),
+        (
+            "k1=15",
+            ParameterSpecError,
+            ": the spread of k1 must be a percentage (lognormal); write e.g. k1=15%",
+        ),
+        (
+            "k1=-5%",
+            ParameterSpecError,
+            f": the spread must be a positive percentage; {SPREAD_HELP}",
+        ),
+        ("k1", ParameterSpecError, f" has no '='; {SPREAD_HELP}"),
+        ("k1=", ParameterSpecError, f" needs a name and a spread; {SPREAD_HELP}"),
+        (
+            "k7=5%",
+            ConstantError,
+            ": 'k7' is not a rate constant or parameter of the scheme; parameters are k1, k2, "
+            "k3, temperature, start:<species>, excess:<species>",
+        ),
     ],
 )
 def test_bad_spread(chain, spec, error, words):
-    with pytest.raises(error, match=words):
+    with pytest.raises(error) as info:
         parse_spread(chain, spec)
+    assert str(info.value) == f"--spread {spec!r}{words}"
 
 
 def test_spread_definitions():
@@ -210,6 +303,30 @@ def test_spread_definitions():
         "--spread 'temperature=100K': a standard deviation of 100 K is too wide; it would give "
         "temperatures near or below 0 K"
     )
+
+
+@pytest.mark.parametrize(
+    ("spec", "error", "message"),
+    [
+        ("temperature=30%", ParameterSpecError, ": a spread of 30 % is too wide; use below 25 %"),
+        (
+            "temperature=abc",
+            ParameterSpecError,
+            f": 'abc' is not a number with a unit; {SPREAD_HELP}",
+        ),
+        (
+            "temperature=0K",
+            ParameterSpecError,
+            f": the standard deviation must be positive; {SPREAD_HELP}",
+        ),
+        ("temperature=2kg", TemperatureError, ": 'kg' is not a temperature unit; use K or degC"),
+        ("kf.Ea=2K", ConstantError, ": 'K' is not a molar energy; write Ea in kJ/mol or J/mol"),
+    ],
+)
+def test_bad_absolute_spread(spec, error, message):
+    with pytest.raises(error) as info:
+        parse_spread(kinetics.parse(REVERSIBLE), spec)
+    assert str(info.value) == f"--spread {spec!r}{message}"
 
 
 def test_plan_checks(chain):
@@ -497,8 +614,13 @@ def test_resume_refuses_another_definition(chain, tmp_path):
     store = ChunkStore(tmp_path / "x.csv.chunks", plan, curves=False, resume=False)
     store.write(chunk_result(plan, 0, 2, index=0))
     other = make_plan(chain, ["k2=0.01:1:7:log"], times, chunk_size=2)
-    with pytest.raises(SweepStoreError, match="different sweep"):
+    with pytest.raises(SweepStoreError) as info:
         ChunkStore(tmp_path / "x.csv.chunks", other, curves=False, resume=True)
+    assert str(info.value) == (
+        f"the chunks in {str(tmp_path / 'x.csv.chunks')!r} belong to a different sweep (other "
+        "scheme, parameters, times, chunk size or options); run without --resume to start "
+        "again, or repeat the original options"
+    )
     # the same definition keeps its chunk
     again = ChunkStore(tmp_path / "x.csv.chunks", plan, curves=False, resume=True)
     assert again.done() == {0}

@@ -462,7 +462,10 @@ def _absolute_spread(target: Target, body: str, where: str) -> float:
         parameters.check_unit(target, unit, where, VARY_HELP)
         return float(Fraction(value) * parse_unit(unit).factor)
     if unit not in _KELVIN_PER_DEGREE:
-        raise ParameterSpecError(f"{where}: {unit!r} is not a temperature unit", "use K or degC")
+        # the type and wording of kinetics.parameters.check_unit for a temperature
+        raise parameters.value_error(target)(
+            f"{where}: {unit!r} is not a temperature unit", "use K or degC"
+        )
     sigma = value * _KELVIN_PER_DEGREE[unit]
     if sigma >= 0.25 * target.nominal:
         raise ParameterSpecError(
