@@ -12,33 +12,25 @@ canonical units of the core:
 
 Species held in excess are constant and are not part of the rate matrix; the
 matrix species are the others, in order of first appearance in the reactions.
+
+The exact arithmetic of rate constants (:class:`Arrhenius`, :func:`arrhenius_pairs`,
+:class:`RateConstant`) lives in :mod:`kinetics.rate_constants` and is re-exported here;
+the rate matrices in :mod:`kinetics.ratematrix`; the exact constants at new values and the
+copy with new values (:meth:`Scheme.exact_constants`, :meth:`Scheme.with_values`) in
+:mod:`kinetics.new_values`.
 """
 
 from __future__ import annotations
 
-import math
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from fractions import Fraction
 from functools import cached_property
 
 import numpy as np
 
-from . import activity
-from .definitions import (
-    Dependencies,
-    NamedQuantity,
-    constant_slopes,
-    constant_values,
-    follow,
-)
-from .errors import (
-    ArgumentValueError,
-    ConcentrationError,
-    ConstantError,
-    SpeciesError,
-    TemperatureError,
-    shown_value,
-)
+from . import new_values
+from .definitions import Dependencies, NamedQuantity
+from .errors import SpeciesError
 from .rate_constants import ARRHENIUS_CACHE as ARRHENIUS_CACHE
 from .rate_constants import Arrhenius, RateConstant, arrhenius_pairs
 from .requirements import Requirement
@@ -449,76 +441,12 @@ class Scheme:
         """
         return self.constants[name].si_value(self.temperature)
 
-    def exact_constants(
-        self,
-        temperature: float | None = None,
-        quantities: dict[str, float | Fraction] | None = None,
-    ) -> dict[str, Fraction]:
-        r"""The exact value of every rate constant, following the named quantities.
-
-        Plain values as written, temperature laws at ``temperature`` (40 digits), derived
-        constants from new values of what they follow (:mod:`kinetics.definitions`).
-
-        Parameters
-        ----------
-        temperature : float, optional
-            [K]; default the scheme's.
-        quantities : dict of str to float or Fraction, optional
-            New values of named quantities or constants [SI base units: s, K, J/mol,
-            1/s], Fractions taken exactly.
-
-        Returns
-        -------
-        dict of str to Fraction
-            Every constant of :attr:`constants` [SI base units].
-
-        Raises
-        ------
-        ConstantError
-            For an unknown name or a value that is not finite.
-        TemperatureError
-            For a constant that needs a temperature when there is none.
-        ExpressionError
-            When a definition cannot be evaluated with the new values, or a constant
-            becomes negative.
-
-        Examples
-        --------
-        >>> from kinetics import parse
-        >>> scheme = parse("t_p = 50 h\nP -> D  lam = ln(2) / t_p\nstart P = 1 mol")
-        >>> lam = scheme.exact_constants(quantities={"t_p": Fraction(36000)})["lam"]
-        >>> round(float(lam) * 36000, 12), scheme.driven_by("t_p")  # ln 2 for t_p = 10 h
-        (0.69314718056, ('lam',))
-        """
-        values = {n: _named_value(self, n, v) for n, v in (quantities or {}).items()}
-        t = self.temperature if temperature is None else temperature
-        return constant_values(self.constants, self.dependencies, t, values)
-
-    def constant_slopes(self, wrt, temperature=None, quantities=None) -> dict[str, dict]:
-        """Exact derivatives of every rate constant by name (:func:`_constant_slopes`)."""
-        return _constant_slopes(self, list(wrt), temperature, quantities or {})
-
-    @property
-    def temperature_constants(self) -> tuple[str, ...]:
-        r"""The rate constants whose values follow the temperature.
-
-        Arrhenius lines, Eyring and Q10 laws, and constants defined from them: the ones
-        without a fixed value (``value_si`` None).
-
-        >>> from kinetics import parse
-        >>> parse("A -> B  k1 = arrhenius(A = 1e13 1/s, Ea = 95 kJ/mol)\n"
-        ...       "temperature = 60 degC\nstart A = 1 M").temperature_constants
-        ('k1',)
-        """
-        return tuple(name for name, c in self.constants.items() if c.value_si is None)
-
-    def driven_by(self, name: str) -> tuple[str, ...]:
-        """The rate constants whose values follow from the named quantity ``name``.
-
-        See the example of :meth:`exact_constants`.
-        """
-        _named_value(self, name, 0)
-        return tuple(n for n in self.dependencies.driven_by(name) if n in self.constants)
+    # -- new values: functions of kinetics.new_values, with their documentation -----
+    exact_constants = new_values.exact_constants
+    constant_slopes = new_values.constant_slopes
+    temperature_constants = property(new_values.temperature_constants)
+    driven_by = new_values.driven_by
+    with_values = new_values.with_values
 
     def with_timeline(self, timeline: Timeline) -> Scheme:
         """A copy with the operations of ``timeline`` instead of its own, checked.
@@ -529,217 +457,3 @@ class Scheme:
         from .timeline import attach
 
         return attach(self, timeline)
-
-    def with_values(
-        self,
-        *,
-        constants: dict[str, float] | None = None,
-        temperature: float | None = None,
-        initial: dict[str, float] | None = None,
-        excess: dict[str, float] | None = None,
-        quantities: dict[str, float | Fraction] | None = None,
-    ) -> Scheme:
-        """A copy with some values replaced.
-
-        Parameters
-        ----------
-        constants : dict of str to float, optional
-            New values of named rate constants in SI base units [1/s for first
-            order]; an Arrhenius constant becomes a plain one.
-        temperature : float, optional
-            New temperature [K].
-        initial : dict of str to float, optional
-            New start concentrations [concentration_unit].
-        excess : dict of str to float, optional
-            New excess concentrations [concentration_unit].
-        quantities : dict of str to float or Fraction, optional
-            New values of named quantities [SI base units], Fractions taken exactly.
-
-        Returns
-        -------
-        Scheme
-            Derived constants, start activities, percentage thresholds and the numbers
-            of the timeline written as names follow.
-
-        Raises
-        ------
-        ConstantError
-            For an unknown rate constant or named quantity, or a value of one that is
-            negative or not finite.
-        SpeciesError
-            For an unknown species or excess species.
-        ConcentrationError
-            For a start value or an excess concentration that is negative or not finite.
-        TemperatureError
-            For a temperature that is not finite and above 0 K.
-        ExpressionError
-            When a definition cannot be evaluated with the new values.
-        """
-        return _with_values(
-            self, constants or {}, temperature, initial or {}, excess or {}, quantities or {}
-        )
-
-
-def _with_values(
-    scheme: Scheme,
-    constants: dict[str, float],
-    temperature: float | None,
-    initial: dict[str, float],
-    excess: dict[str, float],
-    quantities: dict[str, float | Fraction],
-) -> Scheme:
-    """The body of :meth:`Scheme.with_values` (arguments as there, None as empty)."""
-    fixed: dict[str, Fraction] = {}
-    texts: dict[str, str] = {}
-    for name, value in constants.items():
-        if name not in scheme.constants:
-            raise ConstantError(
-                f"no rate constant named {name!r} in the scheme",
-                "known constants: " + ", ".join(scheme.constants),
-            )
-        fixed[name] = _checked_fraction(value, f"rate constant {name}", ConstantError)
-        texts[name] = f"{shown_value(value)} (SI)"
-    for name, given in quantities.items():
-        fixed[name] = _named_value(scheme, name, given)
-        texts[name] = f"{shown_value(float(given))} (SI)"
-    new_constants, new_quantities, graph = scheme.constants, scheme.quantities, scheme.dependencies
-    if fixed:
-        new_constants, new_quantities, graph = follow(
-            scheme.constants, scheme.quantities, scheme.dependencies, fixed, texts
-        )
-    new_initial = dict(scheme.initial)
-    for name, value in initial.items():
-        if name not in scheme.index:
-            raise SpeciesError(
-                f"no species named {name!r} in the rate matrix of the scheme",
-                "species: " + ", ".join(scheme.species_names),
-            )
-        _checked_fraction(value, f"start value of {name}", ConcentrationError)
-        new_initial[name] = float(value)
-    new_excess = dict(scheme.excess)
-    new_excess_si = dict(scheme._excess_si)
-    for name, value in excess.items():
-        if name not in new_excess:
-            raise SpeciesError(
-                f"no excess species named {name!r} in the scheme",
-                "excess species: " + (", ".join(new_excess) or "none"),
-            )
-        new_excess_si[name] = (
-            _checked_fraction(value, f"excess concentration of {name}", ConcentrationError)
-            * scheme._unit_factor
-        )
-        new_excess[name] = float(value)
-    if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
-        raise TemperatureError(
-            f"temperature {shown_value(temperature)} K must be finite and above 0 K"
-        )
-    timeline = scheme.timeline
-    if quantities and timeline.names:
-        known = {n: q.value_si for n, q in new_quantities.items() if q.value_si is not None}
-        timeline = timeline.follow(known)
-    new = replace(
-        scheme,
-        timeline=timeline,
-        constants=new_constants,
-        quantities=new_quantities,
-        dependencies=graph,
-        temperature=scheme.temperature if temperature is None else float(temperature),
-        initial=new_initial,
-        excess=new_excess,
-        start_activities={k: v for k, v in scheme.start_activities.items() if k not in initial},
-        _excess_si=new_excess_si,
-    )
-    return _follow_starts(new, changed=bool(initial))
-
-
-def _constant_slopes(
-    scheme: Scheme,
-    wrt: list[str],
-    temperature: float | None,
-    quantities: dict[str, float | Fraction],
-) -> dict[str, dict[str, Fraction]]:
-    r"""The body of :meth:`Scheme.constant_slopes`.
-
-    Parameters
-    ----------
-    scheme : Scheme
-    wrt : list of str
-        Named quantities, rate constants and ``"temperature"``.
-    temperature, quantities
-        As for :meth:`Scheme.exact_constants`.
-
-    Returns
-    -------
-    dict of str to dict of str to Fraction
-        Constant -> name -> :math:`\partial k/\partial p` [SI per SI unit of p]
-        (:func:`kinetics.definitions.constant_slopes`; no finite differences).
-
-    Examples
-    --------
-    >>> from kinetics import parse
-    >>> scheme = parse("t_p = 50 h\nP -> D  lam = ln(2) / t_p\nstart P = 1 mol")
-    >>> d = scheme.constant_slopes(["t_p"])["lam"]["t_p"]  # -ln 2 / t_p**2
-    >>> round(float(d) * 180000**2, 12)
-    -0.69314718056
-    """
-    for name in wrt:
-        if name != "temperature":
-            _named_value(scheme, name, 0)
-    values = {n: _named_value(scheme, n, v) for n, v in quantities.items()}
-    t = scheme.temperature if temperature is None else temperature
-    return constant_slopes(scheme.constants, scheme.dependencies, t, wrt, values)
-
-
-def _named_value(scheme: Scheme, name: str, value) -> Fraction:
-    """A new value of a named quantity or constant, checked [SI base units], exact."""
-    if name not in scheme.quantities and name not in scheme.constants:
-        known = [*scheme.quantities, *scheme.dependencies.by_name]
-        raise ConstantError(
-            f"no named quantity {name!r} in the scheme",
-            "named quantities: " + (", ".join(dict.fromkeys(known)) or "none"),
-        )
-    if isinstance(value, (Fraction, int)) and not isinstance(value, bool):
-        exact = Fraction(value)  # taken exactly
-    elif name in scheme.constants:
-        return _checked_fraction(value, f"rate constant {name}", ConstantError)
-    else:
-        try:
-            number = float(value)
-        except (TypeError, ValueError):
-            raise ConstantError(f"{name} must be a number, not {shown_value(value)}") from None
-        if not math.isfinite(number):
-            raise ConstantError(f"{name} = {shown_value(value)} must be finite")
-        exact = Fraction(number)
-    if name in scheme.constants and exact < 0:
-        raise ConstantError(f"rate constant {name} = {shown_value(value)} must be finite and >= 0")
-    return exact
-
-
-def _follow_starts(scheme: Scheme, changed: bool) -> Scheme:
-    """Start values and thresholds that follow the start values.
-
-    Start values written as activities from the scheme's decay constants; thresholds written
-    as percentages of start values from the start values.
-    """
-    initial = scheme.initial
-    if scheme.start_activities:
-        initial = {**initial, **activity.start_amounts(scheme, scheme.start_activities)}
-        changed = changed or initial != scheme.initial
-    if not changed:
-        return scheme
-    return replace(
-        scheme,
-        initial=initial,
-        requirements=tuple(r.for_start(initial) for r in scheme.requirements),
-    )
-
-
-def _checked_fraction(value: float, what: str, error: type[ArgumentValueError]) -> Fraction:
-    """``value`` as an exact Fraction, or ``error`` when it is not a finite number >= 0."""
-    try:
-        number = float(value)
-    except (TypeError, ValueError):
-        raise error(f"{what} must be a number, not {shown_value(value)}") from None
-    if not (math.isfinite(number) and number >= 0):
-        raise error(f"{what} = {shown_value(value)} must be finite and >= 0")
-    return Fraction(number)
