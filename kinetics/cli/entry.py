@@ -71,18 +71,21 @@ class _Group(click.Group):
             raise
 
 
-@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
+_HELP = """Check, solve exactly, analyse and export first-order reaction schemes.
+
+\b
+Examples:
+  kinetics check networks/consecutive_intermediate.scheme
+  kinetics solve networks/consecutive_intermediate.scheme --until 3h --out table.csv
+"""
+
+
+@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]}, help=_HELP)
 @click.version_option(__version__, "--version", prog_name="kinetics")
 @click.option("--debug", is_flag=True, help="Show the Python traceback of an error.")
 @click.pass_context
 def cli(ctx, debug):
-    """Check, solve exactly, analyse and export first-order reaction schemes.
-
-    \b
-    Examples:
-      kinetics check networks/consecutive_intermediate.scheme
-      kinetics solve networks/consecutive_intermediate.scheme --until 3h --out table.csv
-    """
+    """The ``kinetics`` command group (the help text is :data:`_HELP`); keeps ``--debug``."""
     ctx.obj = {"debug": debug}
 
 

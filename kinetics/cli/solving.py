@@ -126,7 +126,30 @@ def _solve_and_summarise(
     return result, summary, sensitivities
 
 
-@click.command()
+_SOLVE_HELP = """Solve a scheme exactly on a time grid; print or write the table and the summary.
+
+The summary (half-lives, intermediate maxima, long-time limits...) is computed
+on the exact solution, not read off the grid.  Without --out the summary and
+the concentration table are printed; each --out writes one file, its format
+chosen by the extension.
+
+\b
+Examples:
+  kinetics solve networks/consecutive_intermediate.scheme --until 2h
+  kinetics solve networks/consecutive_intermediate.scheme --until '90 min' --points 91 \\
+      --out table.csv --out table.xlsx --out curves.png
+  kinetics solve networks/decay_pair_branching.scheme --times '0,6,12,24,48 h' --json
+  kinetics solve networks/generator_half_lives.scheme --until 5d --activity MBq
+  kinetics solve networks/consecutive_intermediate.scheme --until 2h --sensitivity
+  kinetics solve networks/generator_daily_elution.scheme --until 10d --out eluates.csv
+
+A scheme with operations (at/every/from lines) is solved exactly stretch by stretch: a
+time of an addition or removal appears twice in the table (just before and just
+after), and a CSV table gets a sibling NAME_events.csv with what each operation moved.
+"""
+
+
+@click.command(help=_SOLVE_HELP)
 @click.argument("scheme_file", type=click.Path(dir_okay=True, path_type=Path))
 @grid_options
 @click.option(
@@ -160,27 +183,7 @@ def solve(
     activity_unit,
     sensitivity,
 ):
-    """Solve a scheme exactly on a time grid; print or write the table and the summary.
-
-    The summary (half-lives, intermediate maxima, long-time limits...) is computed
-    on the exact solution, not read off the grid.  Without --out the summary and
-    the concentration table are printed; each --out writes one file, its format
-    chosen by the extension.
-
-    \b
-    Examples:
-      kinetics solve networks/consecutive_intermediate.scheme --until 2h
-      kinetics solve networks/consecutive_intermediate.scheme --until '90 min' --points 91 \\
-          --out table.csv --out table.xlsx --out curves.png
-      kinetics solve networks/decay_pair_branching.scheme --times '0,6,12,24,48 h' --json
-      kinetics solve networks/generator_half_lives.scheme --until 5d --activity MBq
-      kinetics solve networks/consecutive_intermediate.scheme --until 2h --sensitivity
-      kinetics solve networks/generator_daily_elution.scheme --until 10d --out eluates.csv
-
-    A scheme with operations (at/every/from lines) is solved exactly stretch by stretch: a
-    time of an addition or removal appears twice in the table (just before and just
-    after), and a CSV table gets a sibling NAME_events.csv with what each operation moved.
-    """
+    """Run ``kinetics solve`` (the help text is :data:`_SOLVE_HELP`)."""
     from kinetics.cli.terminal import progress, render_solution
     from kinetics.output.overview import solution_json
 
@@ -307,7 +310,19 @@ def _write_output(
         raise UsageError(f"unknown output format {suffix!r}")
 
 
-@click.command()
+_REPORT_HELP = """Write a self-contained HTML report: scheme, graph, inputs, summary, plot, table.
+
+The page needs no network access: styles are inline and plots are embedded
+images.  It records the software version, the date and the SHA-256 of the
+scheme file, and carries the caution box of SAFETY.md.
+
+\b
+Example:
+  kinetics report networks/consecutive_intermediate.scheme --until 2h --out report.html
+"""
+
+
+@click.command(help=_REPORT_HELP)
 @click.argument("scheme_file", type=click.Path(dir_okay=True, path_type=Path))
 @grid_options
 @click.option(
@@ -334,16 +349,7 @@ def report(
     log_path,
     activity_unit,
 ):
-    """Write a self-contained HTML report: scheme, graph, inputs, summary, plot, table.
-
-    The page needs no network access: styles are inline and plots are embedded
-    images.  It records the software version, the date and the SHA-256 of the
-    scheme file, and carries the caution box of SAFETY.md.
-
-    \b
-    Example:
-      kinetics report networks/consecutive_intermediate.scheme --until 2h --out report.html
-    """
+    """Run ``kinetics report`` (the help text is :data:`_REPORT_HELP`)."""
     import hashlib
 
     from kinetics.cli.terminal import progress
