@@ -1,5 +1,7 @@
-"""The ``kinetics solve`` and ``kinetics report`` commands: solve a scheme on a time grid,
-print or write the table and the summary, or write the HTML report.
+"""The ``kinetics solve`` and ``kinetics report`` commands.
+
+``solve`` solves a scheme on a time grid and prints or writes the table and the summary;
+``report`` writes the HTML report.
 """
 
 from __future__ import annotations
@@ -38,8 +40,9 @@ _ACTIVITY_OPTION = click.option(
 
 
 def _plot_solution(result, scheme):
-    """The solution on a grid fine enough to draw smooth curves (at least 201 points), with
-    the times of every operation (each drawn as a jump).
+    """The solution on a grid fine enough to draw smooth curves (at least 201 points).
+
+    The grid holds the times of every operation, so that each is drawn as a jump.
     """
     import numpy as np
 
@@ -57,8 +60,9 @@ def _plot_solution(result, scheme):
 
 
 def events_path(path: Path) -> Path:
-    """The sibling file of a CSV table that holds the operations: ``run.csv`` ->
-    ``run_events.csv``.
+    """The sibling file of a CSV table that holds the operations.
+
+    ``run.csv`` -> ``run_events.csv``.
     """
     return path.with_name(f"{path.stem}_events{path.suffix}")
 
@@ -81,8 +85,10 @@ _LOG_HELP = (
 
 
 def _check_activity(scheme, activity_unit, conc_unit) -> None:
-    """Refuse, before solving, ``--activity`` with ``--concentration-unit`` or a unit that
-    is no activity of the scheme's kind.
+    """Refuse, before solving, an ``--activity`` that cannot be shown.
+
+    That is ``--activity`` with ``--concentration-unit``, or a unit that is no activity of the
+    scheme's kind.
     """
     if activity_unit is None:
         return
@@ -99,8 +105,10 @@ def _check_activity(scheme, activity_unit, conc_unit) -> None:
 def _solve_and_summarise(
     scheme, times, time_unit, bar, conc_unit=None, activity_unit=None, sensitivity=False, log=None
 ):
-    """The solution, its summary in ``time_unit`` and (when asked) the sensitivities of
-    the summary quantities (not for a run with operations: they are those of one stretch).
+    """The solution, its summary in ``time_unit`` and (when asked) its sensitivities.
+
+    The sensitivities are those of the summary quantities; a run with operations has none
+    (they would be those of one stretch).
     """
     from kinetics import solution as sol
     from kinetics.analysis.solution_summary import compute_summary, summary_in_units
@@ -262,8 +270,9 @@ def _check_sheet_sizes(paths, n_times: int, scheme) -> None:
 def _write_output(
     path, result, scheme, time_unit, summary, document, species, events_only=False
 ) -> None:
-    """Write one --out file; the format follows the extension (already checked).  With
-    ``events_only``, the sibling CSV of the operations (:func:`events_path`).
+    """Write one --out file; the format follows the extension (already checked).
+
+    With ``events_only``, write the sibling CSV of the operations (:func:`events_path`).
     """
     import pandas as pd
 
