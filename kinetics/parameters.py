@@ -71,7 +71,8 @@ from .errors import UsageError
 from .units import OFFSET_TEMPERATURES, normalise_unit, parse_unit, temperature_to_kelvin
 
 if TYPE_CHECKING:
-    from .scheme import Arrhenius, Scheme
+    from .rate_constants import Arrhenius
+    from .scheme import Scheme
 
 __all__ = [
     "ALL_KINDS",

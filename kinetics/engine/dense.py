@@ -205,11 +205,11 @@ def propagate_stack(A, Al, x0, times, precision: str, species: int):
 
     if A.shape[-1] ** 3 < kernels.BLAS_FROM:
         return _run_stack(A, Al, x0, times, precision, species)
-    from threadpoolctl import threadpool_limits
+    from kinetics.engine.threads import one_blas_thread
 
     # the kernels call BLAS for plain-double products of this size; threaded BLAS on
     # these matrices was 5-40 times slower on two cores (threads wait for each other)
-    with threadpool_limits(limits=1, user_api="blas"):
+    with one_blas_thread():
         return _run_stack(A, Al, x0, times, precision, species)
 
 

@@ -28,8 +28,8 @@ from ..measurements import (
     read_measurements,
 )
 from ..parameters import FIT_WORDS, Target
+from ..rate_constants import arrhenius_pairs
 from ..ratematrix import rate_pattern, step_rates
-from ..scheme import arrhenius_pairs
 from ..units import GAS_CONSTANT, time_factor
 
 if TYPE_CHECKING:

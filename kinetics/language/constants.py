@@ -14,7 +14,7 @@ from dataclasses import dataclass, field
 
 from ..definitions import Dependencies, NamedQuantity
 from ..expressions import names_in
-from ..scheme import Arrhenius, RateConstant
+from ..rate_constants import Arrhenius, RateConstant
 from ..units import (
     UnitSpec,
     concentration_order,

@@ -36,7 +36,7 @@ from ..expressions import (
     shown,
 )
 from ..laws import LAWS
-from ..scheme import Arrhenius, RateConstant
+from ..rate_constants import Arrhenius, RateConstant
 from ..units import concentration_order, describe_dimension, parse_unit, si_unit
 from .messages import Diagnostics, quoted
 from .quantities import exact

@@ -13,7 +13,8 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from fractions import Fraction
 
-from ..scheme import RateConstant, Reaction, Step
+from ..rate_constants import RateConstant
+from ..scheme import Reaction, Step
 from ..units import describe_dimension, parse_unit
 from .messages import Diagnostics
 from .reactions import ConstantRef, ReactionStatement, Term

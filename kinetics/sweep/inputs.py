@@ -42,7 +42,7 @@ def _constant_pairs(plan: SweepPlan, name: str, varied: _SetValues):
 
     .. math:: k = A \exp(-E_a/(R T)) \text{ for Arrhenius constants}
     """
-    from ..scheme import arrhenius_pairs
+    from ..rate_constants import arrhenius_pairs
 
     scheme = plan.scheme
     law = scheme.constants[name].arrhenius
