@@ -584,8 +584,10 @@ def route_costs(K, times, precision: str = "auto") -> dict[str, float]:
 
 
 def block_sizes(K) -> tuple[np.ndarray, np.ndarray, float]:
-    """Species ``b`` and inner nonzeros ``z`` of each strongly connected block of two or
-    more species, and the number of nonzeros of ``K`` (dense or sparse).
+    """Sizes of the strongly connected blocks of ``K``, and its number of nonzeros.
+
+    ``b`` is the number of species and ``z`` the inner nonzeros of each block of two or
+    more species; the count of nonzeros is of ``K`` itself (dense or sparse).
 
     They depend on the pattern only and are remembered for :data:`PATTERN_CACHE`
     patterns: finding the blocks costs more than a small scheme's whole solve.
