@@ -340,8 +340,9 @@ class _Walk:
         return yh, 0.0, 0.0
 
     def bound(self, z: np.ndarray, rel: float, absolute: float, residual: float) -> float:
-        """Relative bound of every entry of the state at a grid time whose exact value is
-        above the floor.
+        """Relative bound of every entry above the floor of the state at a grid time.
+
+        An entry counts when its exact value is above the floor.
 
         ``z`` is the computed state; ``rel``, ``absolute``: what a correction step to
         this time added; ``residual`` [s]: what the grid time still exceeds the
@@ -455,7 +456,9 @@ def propagate_blocks(K, c0, times, feed, *, K_low=None, feed_low=None, floor=Non
 
 
 def _low_parts(K_low, feed_low, n: int, fed: bool):
-    """Checked low parts: sparse ``K_low`` kept sparse (shape, finite), others by
+    """Checked low parts of the rate matrix and the feed.
+
+    A sparse ``K_low`` is kept sparse (shape, finite); the others are checked by
     :func:`kinetics.checks.low_parts`.
     """
     from kinetics.engine import checks
@@ -581,8 +584,10 @@ def route_costs(K, times, precision: str = "auto") -> dict[str, float]:
 
 
 def block_sizes(K) -> tuple[np.ndarray, np.ndarray, float]:
-    """Species ``b`` and inner nonzeros ``z`` of each strongly connected block of two or
-    more species, and the number of nonzeros of ``K`` (dense or sparse).
+    """Sizes of the strongly connected blocks of ``K``, and its number of nonzeros.
+
+    ``b`` is the number of species and ``z`` the inner nonzeros of each block of two or
+    more species; the count of nonzeros is of ``K`` itself (dense or sparse).
 
     They depend on the pattern only and are remembered for :data:`PATTERN_CACHE`
     patterns: finding the blocks costs more than a small scheme's whole solve.

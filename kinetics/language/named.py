@@ -82,10 +82,12 @@ class Entry:
 
     @property
     def name(self) -> str:
+        """The name the expression defines."""
         return self.spec.name
 
     @property
     def expression(self) -> Expr:
+        """The expression as written, parsed."""
         assert self.spec.expression is not None  # an entry is an expression
         return self.spec.expression
 
