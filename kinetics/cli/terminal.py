@@ -569,11 +569,14 @@ def render_events(solution: Solution, time_unit: str, out: Console, max_rows: in
 
 
 def _cell(value) -> str:
+    """One table cell: "—" for no value, yes/no, six significant digits, markup escaped."""
     if value is None:
-        return ""
+        return "—"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
     if isinstance(value, float):
         return f"{value:.6g}"
-    return str(value)
+    return _escape(str(value))
 
 
 def _escape(text: str) -> str:
