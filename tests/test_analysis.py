@@ -105,6 +105,16 @@ def test_a_window_end_and_area_limits_are_worded_as_every_time():
     assert an.areas(chain_matrix([1.0]), [1, 0], [2.0, 1.0]).to_end.shape == (2, 2)
 
 
+def test_a_sparse_rate_matrix_with_stored_zeros_is_left_as_given():
+    # the analysis drops stored zeros from its own copy, never from the caller's matrix
+    data = np.array([-1.0, 0.0, 1.0, 0.0])
+    K = scipy.sparse.csr_array((data, np.array([0, 1, 0, 1]), np.array([0, 2, 4])), shape=(2, 2))
+    # A -> B at 1/s: everything ends in B (closed form of the long-time limit)
+    np.testing.assert_allclose(an.long_time_limit(K, [1, 0]).values, [0.0, 1.0], atol=1e-15)
+    assert K.nnz == 4
+    assert K.data.tolist() == data.tolist()
+
+
 def test_an_empty_rate_matrix_is_refused():
     with pytest.raises(RateMatrixError) as err:
         an.long_time_limit(np.zeros((0, 0)), [])

@@ -41,7 +41,7 @@ def rate_matrix(K) -> tuple[np.ndarray | None, scipy.sparse.csr_array]:
     """
     checked = checks.rate_matrix(K)
     if scipy.sparse.issparse(checked):
-        Ks = checked
+        Ks = checked.copy()  # the check may share the caller's arrays: leave them as given
         Ks.eliminate_zeros()
         Kd = Ks.toarray() if Ks.shape[0] <= _DENSE_COPY_MAX else None
     else:
