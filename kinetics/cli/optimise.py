@@ -137,6 +137,7 @@ def optimise(
     """
     from kinetics.cli.terminal import progress
     from kinetics.optimise import optimise as search
+    from kinetics.optimise.words import CLI_WORDS
     from kinetics.output.optimum import optimum_json
 
     species, sense = _target(maximise, minimise)
@@ -155,6 +156,7 @@ def optimise(
             until=end,
             yield_basis=as_yield,
             time_unit=time_unit,
+            words=CLI_WORDS,
         )
         bar.step()
     document = optimum_json(found, scheme)

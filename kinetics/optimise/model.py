@@ -42,7 +42,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from ..errors import UsageError
+from ..errors import WorkingRangeError
 from ..propagate import propagate
 from ..ratematrix import DENSE_STORAGE_MAX, rate_pattern, step_rate_pairs
 from ..sensitivity import sensitivities
@@ -148,7 +148,7 @@ class Model:
 
     def __init__(self, scheme: Scheme, settings, goal: Goal) -> None:
         if len(scheme.species) > DENSE_STORAGE_MAX:
-            raise UsageError(
+            raise WorkingRangeError(
                 f"an optimisation solves schemes of up to {DENSE_STORAGE_MAX} species; "
                 f"this one has {len(scheme.species)}",
                 "lump species or split the scheme",

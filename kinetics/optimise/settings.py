@@ -32,9 +32,10 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .. import parameters
-from ..errors import UsageError
+from ..errors import ArgumentValueError, SettingError, TimesError
 from ..parameters import NUMBER, SweepWords
 from ..units import describe_dimension, parse_unit, temperature_to_kelvin
+from .words import API_WORDS, Words
 
 if TYPE_CHECKING:
     from ..scheme import Scheme
@@ -108,42 +109,52 @@ def _is_temperature(setting: Setting) -> bool:
 class _OverWords(SweepWords):
     """The messages of :func:`kinetics.parameters.resolve` for an optimisation."""
 
-    def __init__(self, where: str, scheme: Scheme) -> None:
+    def __init__(self, where: str, scheme: Scheme, words: Words) -> None:
         super().__init__(where)
         self.quantities = list(scheme.quantities)
+        self.units = {name: d.unit for name, d in scheme.constants.items()}
+        self.words = words
 
-    def unknown(self, scheme: Scheme, name: str) -> UsageError:
+    def unknown(self, scheme: Scheme, name: str) -> SettingError:
         known = [*self.quantities, *scheme.constants]
         listed = ["time", "temperature", *known, "start:<species>", "excess:<species>"]
-        return UsageError(
+        return SettingError(
             f"{self.where}: {name!r} is not a setting of the scheme",
             self._did_you_mean(name, known) + "settings are " + ", ".join(listed),
         )
 
-    def temperature_unused(self) -> UsageError:
-        return UsageError(
+    def temperature_unused(self) -> SettingError:
+        return SettingError(
             f"{self.where}: no constant of the scheme follows the temperature, so it "
             "changes nothing",
             "define a constant by a temperature law, e.g. k = arrhenius(A = ..., Ea = ...), "
             "to optimise the temperature",
         )
 
-    def whole_arrhenius(self, name: str) -> UsageError:
-        return UsageError(
+    def whole_arrhenius(self, name: str) -> SettingError:
+        return SettingError(
             f"{self.where}: {name} follows the Arrhenius law, so the temperature sets it",
             "optimise the temperature, or name A or Ea in the file as a quantity and optimise that",
+        )
+
+    def no_part(self, name: str, base: str, part: str) -> SettingError:
+        example = self.words.give(f"{base}=0.5:2:{self.units[base]}")
+        return SettingError(
+            f"{self.where}: {base} is given as a number, not by the Arrhenius law, so it has "
+            f"no {part}",
+            f"optimise {base} itself, e.g. {example}",
         )
 
 
 def _bounds(where: str, body: str) -> tuple[float, float, str, tuple[str, str]]:
     m = _RANGE.match(body)
     if m is None:
-        raise UsageError(f"{where}: the range must be LO:HI:UNIT", OVER_HELP)
+        raise SettingError(f"{where}: the range must be LO:HI:UNIT", OVER_HELP)
     lo, hi = float(m[1]), float(m[2])
     if not (np.isfinite(lo) and np.isfinite(hi)):
-        raise UsageError(f"{where}: a bound is not a finite number", OVER_HELP)
+        raise SettingError(f"{where}: a bound is not a finite number", OVER_HELP)
     if not hi > lo:
-        raise UsageError(
+        raise SettingError(
             f"{where}: the upper bound {m[2]} is not above the lower bound {m[1]}",
             "write the lower bound first, e.g. temperature=20:80:degC",
         )
@@ -152,15 +163,15 @@ def _bounds(where: str, body: str) -> tuple[float, float, str, tuple[str, str]]:
 
 def _time(where: str, lo: float, hi: float, unit: str) -> Setting:
     if not unit:
-        raise UsageError(f"{where}: the time range has no unit", "write e.g. time=0:10:h")
+        raise TimesError(f"{where}: the time range has no unit", "write e.g. time=0:10:h")
     try:
         spec = parse_unit(unit)
     except ValueError:
-        raise UsageError(f"{where}: {unit!r} is not a unit", "write e.g. time=0:10:h") from None
+        raise TimesError(f"{where}: {unit!r} is not a unit", "write e.g. time=0:10:h") from None
     if spec.dims != {"[time]": 1}:
-        raise UsageError(f"{where}: {unit!r} is not a unit of time", "write e.g. time=0:10:h")
+        raise TimesError(f"{where}: {unit!r} is not a unit of time", "write e.g. time=0:10:h")
     if lo < 0:
-        raise UsageError(f"{where}: a time is negative", "times start at 0")
+        raise TimesError(f"{where}: a time is negative", "times start at 0")
     f = float(spec.factor)
     return Setting("time", "time", "", unit, lo, hi, lo * f, hi * f)
 
@@ -171,10 +182,10 @@ def _quantity(scheme: Scheme, where: str, name: str, lo, hi, unit, texts) -> Set
     try:
         spec = parse_unit(unit)
     except ValueError:
-        raise UsageError(f"{where}: {unit!r} is not a unit", OVER_HELP) from None
+        raise SettingError(f"{where}: {unit!r} is not a unit", OVER_HELP) from None
     wanted = dict(q.dims)
     if spec.dims != wanted:
-        raise UsageError(
+        raise SettingError(
             f"{where}: {unit!r} is not {describe_dimension(wanted)}, the dimension of {name}",
             f"write the range in {q.unit or 'the unit of ' + name}",
         )
@@ -185,7 +196,7 @@ def _quantity(scheme: Scheme, where: str, name: str, lo, hi, unit, texts) -> Set
     return Setting(name, "quantity", name, unit, lo, hi, a, b)
 
 
-def parse_over(scheme: Scheme, spec: str, option: str = "--over") -> Setting:
+def parse_over(scheme: Scheme, spec: str, words: Words = API_WORDS) -> Setting:
     r"""Read one ``NAME=LO:HI[:UNIT]`` into a :class:`Setting`.
 
     Parameters
@@ -194,8 +205,9 @@ def parse_over(scheme: Scheme, spec: str, option: str = "--over") -> Setting:
     spec : str
         ``temperature=20:80:degC``, ``time=0:10:h``, ``t_p=40:60:h``, ``k2=0.01:1:1/min``,
         ``start:A=0.5:2:mol/L``; without a unit the file's unit for that quantity.
-    option : str
-        Option name for messages.
+    words : Words
+        How messages name the setting (:data:`~kinetics.optimise.words.API_WORDS`:
+        ``over entry '...'``; the command line passes ``CLI_WORDS``: ``--over '...'``).
 
     Returns
     -------
@@ -203,8 +215,11 @@ def parse_over(scheme: Scheme, spec: str, option: str = "--over") -> Setting:
 
     Raises
     ------
-    kinetics.errors.UsageError
-        One sentence naming the place, what is wrong and how to write it.
+    kinetics.errors.TimesError
+        For a time range without a unit of time, or from a negative time.
+    kinetics.errors.SettingError
+        For any other mistake: one sentence naming the setting, what is wrong and how to
+        write it.
 
     Examples
     --------
@@ -215,24 +230,35 @@ def parse_over(scheme: Scheme, spec: str, option: str = "--over") -> Setting:
     >>> (t.kind, t.lo_internal, t.hi_internal)
     ('temperature', 293.15, 353.15)
     """
-    where = f"{option} {spec!r}"
+    where = words.place(spec)
     if "=" not in spec:
-        raise UsageError(f"{where} has no '='", OVER_HELP)
+        raise SettingError(f"{where} has no '='", OVER_HELP)
     name, _, body = spec.partition("=")
     name = name.strip()
     if not name:
-        raise UsageError(f"{where} needs a name before '='", OVER_HELP)
+        raise SettingError(f"{where} needs a name before '='", OVER_HELP)
     lo, hi, unit, texts = _bounds(where, body)
     if name == "time":
         return _time(where, lo, hi, unit)
     if name in scheme.quantities:
         return _quantity(scheme, where, name, lo, hi, unit, texts)
-    target = parameters.resolve(scheme, name, _OverWords(where, scheme))
+    try:
+        return _parameter(scheme, where, name, (lo, hi, unit, texts), words)
+    except SettingError:
+        raise
+    except ArgumentValueError as error:  # a message of kinetics.parameters, typed here
+        raise SettingError(error.problem, error.hint) from None
+
+
+def _parameter(scheme: Scheme, where: str, name: str, bounds, words: Words) -> Setting:
+    """A setting of a rate constant, the temperature or a start or excess value."""
+    lo, hi, unit, texts = bounds
+    target = parameters.resolve(scheme, name, _OverWords(where, scheme, words))
     if target.kind in ("prefactor", "energy"):
-        raise UsageError(
+        raise SettingError(
             f"{where}: an optimisation changes whole quantities, not one part of an Arrhenius law",
-            f"name the part in the file (e.g. Ea1 = 85 kJ/mol, used as Ea = Ea1) and write "
-            f"--over 'Ea1={lo:g}:{hi:g}:{unit or 'kJ/mol'}'",
+            "name the part in the file (e.g. Ea1 = 85 kJ/mol, used as Ea = Ea1) and "
+            + words.give(f"Ea1={lo:g}:{hi:g}:{unit or 'kJ/mol'}"),
         )
     unit = unit or target.unit
     parameters.check_unit(target, unit, where, OVER_HELP)
