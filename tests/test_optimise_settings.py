@@ -96,16 +96,9 @@ def test_ranges_are_read_and_converted_exactly(spec, kind, unit, low, high):
             "over entry 't_p=1:5:K': 'K' is not a time, the dimension of t_p; write the range in h",
         ),
         (
-            "k1.Ea=70:90:kJ/mol",
-            "over entry 'k1.Ea=70:90:kJ/mol': an optimisation changes whole quantities, not one "
-            "part of an Arrhenius law; name the part in the file (e.g. Ea1 = 85 kJ/mol, used as "
-            "Ea = Ea1) and give 'Ea1=70:90:kJ/mol' in over",
-        ),
-        (
             "k1=1:2:1/s",
             "over entry 'k1=1:2:1/s': k1 follows the Arrhenius law, so the temperature sets it; "
-            "optimise the temperature, or name A or Ea in the file as a quantity and optimise "
-            "that",
+            "optimise the temperature, or its parts k1.A or k1.Ea",
         ),
         (
             "t_q=1:2:h",
@@ -162,12 +155,29 @@ def test_every_mistake_is_one_sentence(spec, message):
 
 def test_the_command_line_names_its_option():
     with pytest.raises(SettingError) as err:
-        parse_over(SCHEME, "k1.Ea=70:90:kJ/mol", CLI_WORDS)
+        parse_over(SCHEME, "k3.A=1:2:1/s", CLI_WORDS)
     assert str(err.value) == (
-        "--over 'k1.Ea=70:90:kJ/mol': an optimisation changes whole quantities, not one part "
-        "of an Arrhenius law; name the part in the file (e.g. Ea1 = 85 kJ/mol, used as Ea = "
-        "Ea1) and write --over 'Ea1=70:90:kJ/mol'"
+        "--over 'k3.A=1:2:1/s': k3 is given as a number, not by the Arrhenius law, so it has "
+        "no A; optimise k3 itself, e.g. write --over 'k3=0.5:2:1/min'"
     )
+
+
+def test_the_parts_of_an_arrhenius_constant_are_settings():
+    from kinetics.units import GAS_CONSTANT_EXACT
+
+    over = [parse_over(SCHEME, s) for s in ("k1.A=1e9:1e11:1/s", "k1.Ea=70:90:kJ/mol")]
+    assert [(s.kind, s.target, s.unit) for s in over] == [
+        ("prefactor", "k1", "1/s"),
+        ("energy", "k1", "kJ/mol"),
+    ]
+    assert over[1].lo_internal == 70000.0
+    assert over[1].shown(85000.0) == pytest.approx(85.0, rel=1e-15)
+    here = apply(SCHEME, over, [2e10, 85000.0])
+    law = here.constants["k1"].arrhenius
+    assert (float(law.prefactor_si), law.activation_energy) == (2e10, 85000.0)
+    # the law stays a law at the scheme's 50 degC: k = A exp(-Ea/RT) (Arrhenius 1889)
+    k1 = 2e10 * math.exp(-85000.0 / (float(GAS_CONSTANT_EXACT) * 323.15))
+    assert float(here.exact_constants()["k1"]) == pytest.approx(k1, rel=1e-14)
 
 
 def test_the_scheme_at_a_set_of_values_follows_every_definition():

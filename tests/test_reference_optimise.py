@@ -99,3 +99,28 @@ def test_the_quench_window_example_matches_a_two_setting_brute_force_scan():
     # at least as good and better by at most the change over a cell (about 1e-4)
     assert scan <= best.objective <= scan * (1 + 2e-4)
     assert best.active_requirements == ["IMP <= 0.15 % of SM"]
+
+
+def test_an_arrhenius_prefactor_as_a_setting_matches_a_constrained_brute_force_scan():
+    # more k1 makes more B and, later, more C: the optimum sits on the requirement on C
+    scheme = kinetics.parse(CHAIN + "require C <= 10 % of A\n")
+    best = optimise(scheme, "B", "k1.A=1e8:1e12:1/s", until=QUENCH)
+    T = 323.15
+
+    def closed(prefactor):
+        k1, k2 = prefactor * np.exp(-80e3 / (R * T)), _k(1e13, 105e3, T)
+        a = np.exp(-k1 * QUENCH)
+        b = k1 / (k2 - k1) * (a - np.exp(-k2 * QUENCH))
+        return b, 1.0 - a - b
+
+    grid = np.geomspace(1e8, 1e12, 200_001)
+    b, c = closed(grid)
+    ok = c <= 0.1
+    k = int(np.argmax(np.where(ok, b, -np.inf)))
+    scan = float(b[k])
+    if k + 1 < grid.size and not ok[k + 1]:  # the scan's best sits at the limit: refine it
+        edge = brentq(lambda x: closed(x)[1] - 0.1, grid[k], grid[k + 1], xtol=1e-3)
+        scan = max(scan, float(closed(edge)[0]))
+    assert best.objective == pytest.approx(scan, rel=1e-6)
+    assert best.active_requirements == ["C <= 10 % of A"]
+    assert best.best["k1.A"] == pytest.approx(float(grid[k]), rel=1e-4)

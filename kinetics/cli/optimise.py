@@ -22,6 +22,7 @@ _EPILOG = """\b
 Settings (--over NAME=LO:HI:UNIT, several allowed):
   time (the end time, with --at-end), temperature, a named quantity of the
   file (t_p=40:60:h), a rate constant written as a value (k2=0.01:1:1/min),
+  a part of an Arrhenius constant (k1.A=1e9:1e11:1/s, k1.Ea=70:90:kJ/mol),
   start:A or excess:W.  Without a unit, the file's unit for that quantity.
 \b
 Every require line of the file must hold at the time the target is read

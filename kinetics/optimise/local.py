@@ -74,7 +74,8 @@ class ScaledProblem:
     constraints share it).
 
     A setting maps linearly, :math:`x = l + u\,(h - l)`, or, for the time and for a
-    quantity whose bounds span a factor of 10 or more, logarithmically,
+    quantity or an Arrhenius prefactor whose bounds span a factor of 10 or more,
+    logarithmically,
     :math:`x = \exp(\ln l' + u \ln(h/l'))` with :math:`l'` the lower bound (or
     :data:`TIME_FLOOR` of the upper one for a time from 0): the target of first-order
     kinetics depends on :math:`k t` and on :math:`\ln k` linearly in the Arrhenius
@@ -148,7 +149,7 @@ def _logarithmic(setting, lo: float, hi: float) -> bool:
     """True for a setting searched in the logarithm of its value."""
     if setting.kind == "time":
         return hi > 0
-    return setting.kind == "quantity" and lo > 0 and hi >= 10 * lo
+    return setting.kind in ("quantity", "prefactor") and lo > 0 and hi >= 10 * lo
 
 
 def scaled_problem(model: Model, start: Candidate) -> ScaledProblem:

@@ -11,14 +11,18 @@ a named quantity (``t_p``, ``Ea1``)
     A quantity of the file (``name = expression``); the constants defined from it follow.
 a rate constant written as a value (``k2``)
     Through the one parameter grammar (:mod:`kinetics.parameters`), as a sweep names it.
+``k1.A``, ``k1.Ea``
+    The prefactor or the activation energy of a constant that follows the Arrhenius law
+    (the law stays a law: the constant follows the temperature too).
 ``start:A``, ``excess:W``
     A start concentration or the concentration of a co-reactant held in excess.
 
 Values are read in the unit given (or the file's unit for the quantity), converted with
 exact rational unit factors (:mod:`kinetics.units`) and kept in *internal units*: seconds,
-kelvin, SI base units for named quantities and constants, the scheme's concentration unit
-for start and excess values.  :func:`apply` makes the scheme of a set of values with
-:meth:`kinetics.scheme.Scheme.with_values`, so that every derived constant, start activity
+kelvin, SI base units for named quantities, constants and Arrhenius parts, the scheme's
+concentration unit for start and excess values.  :func:`apply` makes the scheme of a set
+of values with :func:`kinetics.parameters.scheme_with` (through
+:meth:`kinetics.scheme.Scheme.with_values`), so that every derived constant, start activity
 and percentage threshold follows exactly as it does anywhere else.
 """
 
@@ -43,7 +47,7 @@ if TYPE_CHECKING:
 __all__ = ["OVER_HELP", "SETTING_KINDS", "Setting", "apply", "parse_over"]
 
 #: What a setting can be.
-SETTING_KINDS = ("time", "temperature", "quantity", "start", "excess")
+SETTING_KINDS = ("time", "temperature", "quantity", "start", "excess", "prefactor", "energy")
 OVER_HELP = (
     "write NAME=LO:HI:UNIT, e.g. temperature=20:80:degC, time=0:10:h, t_p=40:60:h, "
     "start:A=0.5:2:mol/L"
@@ -58,9 +62,11 @@ class Setting:
     Attributes
     ----------
     name : str
-        ``time``, ``temperature``, a named quantity, a constant, ``start:A``, ``excess:W``.
+        ``time``, ``temperature``, a named quantity, a constant, ``k1.A``, ``k1.Ea``,
+        ``start:A``, ``excess:W``.
     kind : str
-        One of :data:`SETTING_KINDS` (a constant counts as a ``quantity``).
+        One of :data:`SETTING_KINDS` (a constant counts as a ``quantity``; ``prefactor``
+        and ``energy`` are the parts of an Arrhenius constant).
     target : str
         The quantity, constant or species it changes (empty for time and temperature).
     unit : str
@@ -134,7 +140,7 @@ class _OverWords(SweepWords):
     def whole_arrhenius(self, name: str) -> SettingError:
         return SettingError(
             f"{self.where}: {name} follows the Arrhenius law, so the temperature sets it",
-            "optimise the temperature, or name A or Ea in the file as a quantity and optimise that",
+            f"optimise the temperature, or its parts {name}.A or {name}.Ea",
         )
 
     def no_part(self, name: str, base: str, part: str) -> SettingError:
@@ -254,12 +260,6 @@ def _parameter(scheme: Scheme, where: str, name: str, bounds, words: Words) -> S
     """A setting of a rate constant, the temperature or a start or excess value."""
     lo, hi, unit, texts = bounds
     target = parameters.resolve(scheme, name, _OverWords(where, scheme, words))
-    if target.kind in ("prefactor", "energy"):
-        raise SettingError(
-            f"{where}: an optimisation changes whole quantities, not one part of an Arrhenius law",
-            "name the part in the file (e.g. Ea1 = 85 kJ/mol, used as Ea = Ea1) and "
-            + words.give(f"Ea1={lo:g}:{hi:g}:{unit or 'kJ/mol'}"),
-        )
     unit = unit or target.unit
     parameters.check_unit(target, unit, where, OVER_HELP)
     hi_lo, _ = parameters.to_internal(target, [lo, hi], unit, list(texts))
@@ -275,24 +275,15 @@ def apply(scheme: Scheme, settings, values) -> Scheme:
     """The scheme with the settings (other than ``time``) at ``values`` [internal units].
 
     Derived constants, start activities and thresholds written as percentages of start
-    values follow (:meth:`kinetics.scheme.Scheme.with_values`); values are taken exactly
+    values follow (:func:`kinetics.parameters.scheme_with`); values are taken exactly
     (each double as the rational it is).
     """
-    temperature = None
-    quantities: dict[str, Fraction] = {}
-    initial: dict[str, float] = {}
-    excess: dict[str, float] = {}
+    targets, chosen = [], []
     for s, v in zip(settings, values, strict=True):
-        if s.kind == "temperature":
-            temperature = float(v)
-        elif s.kind == "quantity":
-            quantities[s.target] = Fraction(float(v))
-        elif s.kind == "start":
-            initial[s.target] = float(v)
-        elif s.kind == "excess":
-            excess[s.target] = float(v)
-    if temperature is None and not quantities and not initial and not excess:
+        if s.kind != "time":
+            kind = "constant" if s.kind == "quantity" else s.kind
+            targets.append(parameters.Target(s.name, kind, s.target, s.unit))
+            chosen.append(float(v))
+    if not targets:
         return scheme
-    return scheme.with_values(
-        temperature=temperature, quantities=quantities, initial=initial, excess=excess
-    )
+    return parameters.scheme_with(scheme, targets, chosen)
