@@ -102,3 +102,17 @@ def test_a_search_about_to_step_onto_a_known_optimum_stops_before_solving_it():
     assert converged
     assert found is known
     assert model.evaluations == 1  # the start only: its Newton step lands on the known one
+
+
+def test_a_linear_setting_with_large_values_maps_without_overflow():
+    # an activation energy [J/mol] is searched linearly: its scaled coordinate never goes
+    # through exp (filterwarnings = error turns an overflow warning into a failure)
+    scheme = kinetics.parse(
+        "A -> B  k1 = arrhenius(A = 1e10 1/s, Ea = 80 kJ/mol)\nB -> C  k2 = 1e-3 1/s\n"
+        "temperature = 50 degC\nstart A = 1 mol/L"
+    )
+    model = Model(scheme, [parse_over(scheme, "k1.Ea=75:85:kJ/mol")], Goal("B", end=600.0))
+    problem = scaled_problem(model, Candidate(np.array([80e3]), 0.1, 0.0))
+    assert problem.log.tolist() == [False]
+    np.testing.assert_allclose(problem.x_of([0.0, 0.5, 1.0][:1]), [75e3])
+    assert problem.x_of([0.5])[0] == pytest.approx(80e3, rel=1e-15)

@@ -99,7 +99,7 @@ class ScaledProblem:
     def x_of(self, u) -> np.ndarray:
         """Settings [internal units] of scaled coordinates (clipped to the bounds)."""
         v = self.lo + np.clip(np.asarray(u, dtype=float), 0.0, 1.0) * self.span
-        return np.clip(np.where(self.log, np.exp(v), v), *self.bounds)
+        return np.clip(np.where(self.log, np.exp(np.where(self.log, v, 0.0)), v), *self.bounds)
 
     def u_of(self, x) -> np.ndarray:
         """Scaled coordinates of settings [internal units] (inverse of :meth:`x_of`)."""
