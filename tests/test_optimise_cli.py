@@ -188,3 +188,17 @@ def test_help_shows_a_worked_example_on_a_file_that_exists(capsys):
     out = capsys.readouterr().out
     line = next(x for x in out.splitlines() if "kinetics optimise networks/" in x)
     assert (NETWORKS.parent / line.split()[2]).is_file()
+
+
+def test_sensitivity_adds_the_key_and_the_line_it_hinges_on(capsys):
+    argv = ["optimise", QUENCH, "--maximise", "P", "--over", "temperature=30:90:degC"]
+    argv += ["--over", "time=0:8:h", "--no-caution", "--sensitivity"]
+    assert main([*argv, "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert set(doc["sensitivity"]) == {"objective", "best"}
+    assert set(doc["sensitivity"]["objective"]) == {"k1", "k2", "k3"}
+    assert set(doc["sensitivity"]["best"]) == {"temperature", "time"}
+    assert main(argv) == 0
+    assert "the optimum hinges on (d ln target / d ln p): k1 +0.157" in capsys.readouterr().out
+    assert main([*argv[:-1], "--json"]) == 0
+    assert "sensitivity" not in json.loads(capsys.readouterr().out)

@@ -103,6 +103,11 @@ def _print(optimum) -> None:
     help="The end time (without --over time), or the latest time with --best-time: '8h'.",
 )
 @click.option("--yield", "as_yield", is_flag=True, help="Optimise the yield c/Σc0 instead.")
+@click.option(
+    "--sensitivity",
+    is_flag=True,
+    help="Also the exact sensitivities of the optimum to the parameters of the scheme.",
+)
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object on stdout.")
 @click.option(
     "--out", "outputs", multiple=True, type=click.Path(path_type=Path), help="A .json file."
@@ -125,6 +130,7 @@ def optimise(
     over,
     until,
     as_yield,
+    sensitivity,
     as_json,
     outputs,
     plot_out,
@@ -158,6 +164,7 @@ def optimise(
             yield_basis=as_yield,
             time_unit=time_unit,
             words=CLI_WORDS,
+            sensitivity=sensitivity,
         )
         bar.step()
     document = optimum_json(found, scheme)

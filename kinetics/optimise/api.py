@@ -167,6 +167,7 @@ def optimise(
     starts: int = STARTS,
     time_unit: str = "s",
     words: Words = API_WORDS,
+    sensitivity: bool = False,
 ) -> Optimum:
     r"""The best settings for a target species under every ``require`` line of the scheme.
 
@@ -196,6 +197,9 @@ def optimise(
         How messages name the arguments: :data:`~kinetics.optimise.words.API_WORDS`
         (``over``, ``until``), or ``CLI_WORDS`` (``--over``, ``--until``) for the command
         line.
+    sensitivity : bool
+        Also compute the exact normalised sensitivities of the optimum to the parameters
+        of the scheme (:func:`kinetics.optimise.sensitivity.optimum_sensitivities`).
 
     Returns
     -------
@@ -276,10 +280,17 @@ def optimise(
     counts["flatness"] = model.evaluations - before
     unit = "-" if goal.yield_basis else scheme.concentration_unit
     rows = _requirement_rows(model, point)
-    return Optimum(
+    found = Optimum(
         model.settings, goal, best.x, point.objective, unit, feasible, rows, flat, counts,
         tuple(notes),
     )  # fmt: skip
+    if not (sensitivity and feasible):
+        return found
+    from dataclasses import replace
+
+    from .sensitivity import optimum_sensitivities
+
+    return replace(found, sensitivity=optimum_sensitivities(found, scheme))
 
 
 def landscape(optimum: Optimum, scheme: Scheme, points: int = 41):

@@ -26,7 +26,8 @@ def optimum_json(optimum: Optimum, scheme: Scheme) -> dict:
     :meth:`kinetics.optimise.Optimum.to_dict`: ``best`` (setting -> ``value`` and
     ``unit``), ``objective`` (the target at the optimum) with ``objective_unit``,
     ``active_requirements`` (their texts), ``feasible``, ``requirements``,
-    ``flat_within_1_percent``, ``bounds``, ``target``, ``evaluations``, ``notes``.
+    ``flat_within_1_percent``, ``bounds``, ``target``, ``evaluations``, ``notes``, and
+    ``sensitivity`` when it was asked for.
     """
     return {
         "source": scheme.source,
@@ -91,7 +92,18 @@ def optimum_lines(optimum: Optimum) -> list[tuple[str, str]]:
         )
     )
     lines.extend(("note", note) for note in optimum.notes)
+    lines.extend(_hinges(optimum))
     return lines
+
+
+def _hinges(optimum: Optimum, count: int = 5) -> list[tuple[str, str]]:
+    """The parameters the target at the optimum hinges on most (d ln target / d ln p)."""
+    if optimum.sensitivity is None:
+        return []
+    values = [(p, v) for p, v in optimum.sensitivity["objective"].items() if v is not None]
+    values.sort(key=lambda pv: -abs(pv[1]))
+    shown = ", ".join(f"{p} {v:+.3g}" for p, v in values[:count])
+    return [("the optimum hinges on (d ln target / d ln p)", shown or "nothing computed")]
 
 
 def optimum_figure(optimum: Optimum, axes, target, margin, title: str = ""):
