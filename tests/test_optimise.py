@@ -16,6 +16,7 @@ from hypothesis import strategies as st
 
 import kinetics
 from kinetics.errors import (
+    ActivityError,
     ConcentrationError,
     SettingError,
     SpeciesError,
@@ -190,6 +191,23 @@ def test_mistakes_are_refused_in_one_sentence(kwargs, error, message):
         optimise(CHAIN, **arguments)
     assert type(err.value) is error
     assert str(err.value) == message
+
+
+def test_an_activity_target_is_refused_with_a_yield_or_for_a_stable_species():
+    scheme = kinetics.parse("P -> D  half_life = 66 h\nstart P = 10 GBq")
+    with pytest.raises(SettingError) as err:
+        optimise(scheme, "D", "time=0:1:h", yield_basis=True, activity="GBq")
+    assert str(err.value) == (
+        "yield_basis=True and activity ask for two targets; optimise the yield or the activity"
+    )
+    with pytest.raises(ActivityError) as err:
+        optimise(scheme, "D", "time=0:1:h", activity="GBq")
+    assert str(err.value) == (
+        "D does not decay: its activity is 0 at every setting; optimise its amount instead, "
+        "or the activity of a species that decays"
+    )
+    with pytest.raises(ActivityError):
+        optimise(scheme, "P", "time=0:1:h", activity="mol")
 
 
 def test_a_yield_needs_start_values():

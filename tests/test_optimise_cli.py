@@ -202,3 +202,20 @@ def test_sensitivity_adds_the_key_and_the_line_it_hinges_on(capsys):
     assert "the optimum hinges on (d ln target / d ln p): k1 +0.157" in capsys.readouterr().out
     assert main([*argv[:-1], "--json"]) == 0
     assert "sensitivity" not in json.loads(capsys.readouterr().out)
+
+
+def test_the_activity_of_a_daughter_at_its_best_time(tmp_path, capsys):
+    path = tmp_path / "generator.scheme"
+    path.write_text("P -> D  half_life = 66 h\nD -> X  half_life = 6 h\nstart P = 10 GBq\n")
+    argv = ["optimise", str(path), "--maximise", "D", "--best-time", "--until", "400h"]
+    assert main([*argv, "--activity", "GBq", "--json", "--no-caution"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["objective_unit"] == "GBq"
+    assert doc["target"]["quantity"] == "activity"
+    lam_p, lam_d = math.log(2) / 66, math.log(2) / 6  # per hour
+    t_max = math.log(lam_d / lam_p) / (lam_d - lam_p)  # Bateman; textbook maximum
+    assert doc["best"]["time"]["value"] == pytest.approx(t_max, rel=1e-9)
+    assert main([*argv, "--activity", "GBq", "--yield", "--no-caution"]) == 2
+    assert capsys.readouterr().err.strip() == (
+        "kinetics: a yield and --activity ask for two targets; optimise the yield or the activity"
+    )

@@ -124,3 +124,40 @@ def test_an_arrhenius_prefactor_as_a_setting_matches_a_constrained_brute_force_s
     assert best.objective == pytest.approx(scan, rel=1e-6)
     assert best.active_requirements == ["C <= 10 % of A"]
     assert best.best["k1.A"] == pytest.approx(float(grid[k]), rel=1e-4)
+
+
+# a generator P -> D -> X with invented half-lives; daughter activity A_D = lambda_D N_D,
+# N_D = N_P0 lambda_P/(lambda_D - lambda_P) (exp(-lambda_P t) - exp(-lambda_D t))
+# (Bateman 1910), its maximum at t = ln(lambda_D/lambda_P)/(lambda_D - lambda_P)
+GENERATOR = "t_d = 6 h\nP -> D  half_life = 66 h\nD -> X  lam = ln(2) / t_d\nstart P = 10 GBq\n"
+LAMBDA_P = math.log(2) / (66 * 3600.0)
+
+
+def _daughter(t, t_d):
+    """Daughter activity [GBq] at t [s] for a daughter half-life t_d [s] (Bateman)."""
+    lam_d = math.log(2) / t_d
+    return 10.0 * lam_d / (lam_d - LAMBDA_P) * (np.exp(-LAMBDA_P * t) - np.exp(-lam_d * t))
+
+
+def test_the_best_time_of_the_daughter_activity_is_the_textbook_maximum():
+    scheme = kinetics.parse(GENERATOR)
+    best = optimise(scheme, "D", [], best_time=True, until=400 * 3600.0, activity="GBq")
+    lam_d = math.log(2) / (6 * 3600.0)
+    t_max = math.log(lam_d / LAMBDA_P) / (lam_d - LAMBDA_P)
+    assert best.best["time"] == pytest.approx(t_max, rel=1e-9)
+    assert best.objective == pytest.approx(float(_daughter(t_max, 6 * 3600.0)), rel=1e-9)
+    assert best.unit == "GBq"
+    assert best.to_dict()["target"]["quantity"] == "activity"
+
+
+def test_the_best_daughter_half_life_matches_a_brute_force_scan_of_the_activity():
+    # the decay constant of the target moves with the setting: d(lambda N) by the product
+    # rule with exact derivatives of lambda (the Newton steps use its second derivative)
+    scheme = kinetics.parse(GENERATOR)
+    best = optimise(scheme, "D", "t_d=1:20:h", until=24 * 3600.0, activity="GBq")
+    t_d = np.linspace(3600.0, 20 * 3600.0, 1_000_001)
+    scan = _daughter(24 * 3600.0, t_d)
+    k = int(np.argmax(scan))
+    assert best.objective == pytest.approx(float(scan[k]), rel=1e-6)
+    assert best.objective >= float(scan[k]) * (1 - 1e-12)
+    assert best.best["t_d"] * 3600.0 == pytest.approx(float(t_d[k]), rel=1e-4)

@@ -104,6 +104,12 @@ def _print(optimum) -> None:
 )
 @click.option("--yield", "as_yield", is_flag=True, help="Optimise the yield c/Σc0 instead.")
 @click.option(
+    "--activity",
+    "activity",
+    metavar="UNIT",
+    help="Optimise the activity of the species in this unit instead, e.g. MBq.",
+)
+@click.option(
     "--sensitivity",
     is_flag=True,
     help="Also the exact sensitivities of the optimum to the parameters of the scheme.",
@@ -130,6 +136,7 @@ def optimise(
     over,
     until,
     as_yield,
+    activity,
     sensitivity,
     as_json,
     outputs,
@@ -165,6 +172,7 @@ def optimise(
             time_unit=time_unit,
             words=CLI_WORDS,
             sensitivity=sensitivity,
+            activity=activity,
         )
         bar.step()
     document = optimum_json(found, scheme)

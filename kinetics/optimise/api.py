@@ -10,7 +10,14 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from ..errors import ConcentrationError, SettingError, SpeciesError, TimesError, shown_value
+from ..errors import (
+    ActivityError,
+    ConcentrationError,
+    SettingError,
+    SpeciesError,
+    TimesError,
+    shown_value,
+)
 from ..solution import require_scheme
 from .local import refine
 from .model import SENSES, Goal, Model
@@ -49,7 +56,8 @@ def _settings(scheme: Scheme, over, words: Words) -> list[Setting]:
     return out
 
 
-def _goal(scheme, species, sense, best_time, until, yield_basis, settings, time_unit, words):
+def _goal(scheme, species, sense, best_time, until, yield_basis, settings, time_unit, words,
+          activity=None):  # fmt: skip
     if sense not in SENSES:
         raise SettingError(f"sense {sense!r} is not known", "use 'maximise' or 'minimise'")
     if species not in scheme.index:
@@ -74,7 +82,25 @@ def _goal(scheme, species, sense, best_time, until, yield_basis, settings, time_
         raise ConcentrationError(
             f"{words.yield_basis} needs start values", "give the starting materials start values"
         )
-    return Goal(species, sense, best_time, until, yield_basis, time_unit)
+    if activity is not None:
+        _check_activity(scheme, species, yield_basis, words)
+    return Goal(species, sense, best_time, until, yield_basis, time_unit, activity)
+
+
+def _check_activity(scheme, species, yield_basis, words: Words) -> None:
+    """Refuse an activity target together with a yield, or of a species that no step
+    consumes (its activity is 0).
+    """
+    if yield_basis:
+        raise SettingError(
+            f"{words.yield_basis} and {words.activity} ask for two targets",
+            "optimise the yield or the activity",
+        )
+    if not any(step.reactant == species for step in scheme.steps):
+        raise ActivityError(
+            f"{species} does not decay: its activity is 0 at every setting",
+            "optimise its amount instead, or the activity of a species that decays",
+        )
 
 
 def _check_until(until, words: Words) -> None:
@@ -168,6 +194,7 @@ def optimise(
     time_unit: str = "s",
     words: Words = API_WORDS,
     sensitivity: bool = False,
+    activity: str | None = None,
 ) -> Optimum:
     r"""The best settings for a target species under every ``require`` line of the scheme.
 
@@ -197,6 +224,10 @@ def optimise(
         How messages name the arguments: :data:`~kinetics.optimise.words.API_WORDS`
         (``over``, ``until``), or ``CLI_WORDS`` (``--over``, ``--until``) for the command
         line.
+    activity : str, optional
+        A unit of activity (``MBq``, ``mCi``): optimise the activity :math:`A = \lambda N`
+        of the species (:mod:`kinetics.activity`) in that unit instead of its
+        concentration.
     sensitivity : bool
         Also compute the exact normalised sensitivities of the optimum to the parameters
         of the scheme (:func:`kinetics.optimise.sensitivity.optimum_sensitivities`).
@@ -218,6 +249,9 @@ def optimise(
         For a target that is not a species of the scheme that changes.
     kinetics.errors.ConcentrationError
         For a yield of a scheme without start values.
+    kinetics.errors.ActivityError
+        For an activity unit that does not fit the scheme, or a species that does not
+        decay.
     kinetics.errors.WorkingRangeError
         For a scheme of more species than the search solves.
 
@@ -251,7 +285,10 @@ def optimise(
     """
     scheme = require_scheme(scheme, "optimise")
     settings = _settings(scheme, over, words)
-    goal = _goal(scheme, species, sense, best_time, until, yield_basis, settings, time_unit, words)
+    goal = _goal(
+        scheme, species, sense, best_time, until, yield_basis, settings, time_unit, words,
+        activity,
+    )  # fmt: skip
     model = Model(scheme, settings, goal)
     grid = grid_candidates(model)
     counts = {"grid": model.evaluations}
@@ -278,7 +315,7 @@ def optimise(
         else tuple((float(v), float(v)) for v in best.x)
     )
     counts["flatness"] = model.evaluations - before
-    unit = "-" if goal.yield_basis else scheme.concentration_unit
+    unit = "-" if goal.yield_basis else goal.activity or scheme.concentration_unit
     rows = _requirement_rows(model, point)
     found = Optimum(
         model.settings, goal, best.x, point.objective, unit, feasible, rows, flat, counts,

@@ -90,7 +90,11 @@ class Optimum:
                 "species": g.species,
                 "sense": g.sense,
                 "at": "best time" if g.best_time else "end",
-                "quantity": "yield" if g.yield_basis else "concentration",
+                "quantity": "yield"
+                if g.yield_basis
+                else "activity"
+                if g.activity
+                else "concentration",
             },
             "best": {
                 s.name: {"value": finite_or_none(s.shown(v)), "unit": s.unit}

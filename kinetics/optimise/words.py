@@ -40,6 +40,8 @@ class Words:
         How to give a first setting.
     yield_basis : str
         Asking for a yield: ``a yield`` or ``yield_basis=True``.
+    activity : str
+        Asking for an activity: ``--activity`` or ``activity``.
     target : str
         Before the quoted target species: ``species=`` (nothing on the command line).
 
@@ -61,6 +63,7 @@ class Words:
     until: str
     first_setting: str
     yield_basis: str
+    activity: str
     target: str
 
     def place(self, spec: str) -> str:
@@ -85,6 +88,7 @@ CLI_WORDS = Words(
     until="the end time",
     first_setting="give at least one, e.g. --over temperature=20:80:degC or --over time=0:10:h",
     yield_basis="a yield",
+    activity="--activity",
     target="",
 )
 API_WORDS = Words(
@@ -101,5 +105,6 @@ API_WORDS = Words(
     until="until",
     first_setting="give at least one in over, e.g. 'temperature=20:80:degC' or 'time=0:10:h'",
     yield_basis="yield_basis=True",
+    activity="activity",
     target="species=",
 )

@@ -40,6 +40,8 @@ def optimum_json(optimum: Optimum, scheme: Scheme) -> dict:
 def _target_words(optimum: Optimum) -> str:
     g = optimum.goal
     what = f"the yield of {g.species}" if g.yield_basis else g.species
+    if g.activity:
+        what = f"the activity of {g.species}"
     if g.best_time:
         time = next(s for s in optimum.settings if s.kind == "time")
         return f"{g.sense} {what} at its best time up to {time.high:.6g} {time.unit}"
@@ -73,6 +75,8 @@ def optimum_lines(optimum: Optimum) -> list[tuple[str, str]]:
             text += f" (within 1 % of the best from {f['low']:.6g} to {f['high']:.6g})"
         lines.append((s.label, text))
     what = f"yield of {optimum.goal.species}" if optimum.goal.yield_basis else optimum.goal.species
+    if optimum.goal.activity:
+        what = f"activity of {optimum.goal.species}"
     lines.append((f"{what} at the optimum [{optimum.unit}]", f"{optimum.objective:.6g}"))
     for r in optimum.requirements:
         state = "active (at its limit)" if r["active"] else "holds"
