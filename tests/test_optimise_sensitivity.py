@@ -57,6 +57,7 @@ def _central(scheme, extra, run):
     ("text", "over", "until", "active"),
     [
         (CHAIN, ["temperature=20:100:degC"], 3600.0, []),
+        (CHAIN, ["time=0:10:h"], None, []),
         (
             CHAIN + "A -> I  k3 = arrhenius(A = 1e14 1/s, Ea = 125 kJ/mol)\n"
             "require I <= 0.02 % of A\n",
@@ -76,7 +77,10 @@ def test_they_match_central_differences_of_re_optimised_problems(text, over, unt
     assert best.active_requirements == active
     found = best.sensitivity
     extras = parameter_settings(scheme, best.settings)
-    assert [e.name for e in extras] == ["Ea2", "k1", "k2", *(["k3"] if active else [])]
+    names = ["Ea2", "k1", "k2", *(["k3"] if active else [])]
+    if not any(s.name == "temperature" for s in best.settings):
+        names.append("temperature")
+    assert [e.name for e in extras] == names
     for extra in extras:
         want = _central(scheme, extra, run)
         assert found["objective"][extra.name] == pytest.approx(want["objective"], abs=1e-5)
