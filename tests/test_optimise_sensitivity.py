@@ -123,3 +123,25 @@ def test_settings_and_what_follows_from_them_are_not_parameters():
     assert [(e.name, e.kind) for e in parameter_settings(scheme, best.settings)] == [
         ("k2", "prefactor")
     ]
+
+
+def test_the_best_time_of_a_daughter_activity_follows_its_half_life():
+    # t* = ln(lambda_D/lambda_P)/(lambda_D - lambda_P) (Bateman 1910; textbook maximum of
+    # the daughter's activity), differentiated by mpmath; invented half-lives
+    import mpmath
+
+    scheme = kinetics.parse(
+        "t_d = 6 h\nP -> D  half_life = 66 h\nD -> X  lam = ln(2) / t_d\nstart P = 10 GBq"
+    )
+    best = optimise(scheme, "D", [], best_time=True, until=400 * 3600.0, activity="GBq",
+                    sensitivity=True)  # fmt: skip
+    lam_p = mpmath.log(2) / (66 * 3600)
+
+    def t_star(t_d):
+        lam_d = mpmath.log(2) / t_d
+        return mpmath.log(lam_d / lam_p) / (lam_d - lam_p)
+
+    with mpmath.workdps(30):
+        t_d = mpmath.mpf(6 * 3600)
+        want = float(mpmath.diff(t_star, t_d) * t_d / t_star(t_d))
+    assert best.sensitivity["best"]["time"]["t_d"] == pytest.approx(want, rel=1e-9)
