@@ -74,7 +74,7 @@ class Goal:
         True: at the best time in ``[0, end]`` (the time is then a setting of its own);
         False: at the end time (``end``, or the ``time`` setting).
     end : float or None
-        [s] the end time (``--until``).
+        [s] the end time (``until`` of :func:`~kinetics.optimise.optimise`).
     yield_basis : bool
         True: the target is the yield :math:`c_B / \sum_j c_{0,j}` [-].
     time_unit : str
