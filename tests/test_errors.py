@@ -194,9 +194,6 @@ def test_expression_and_activity_errors_are_value_errors_and_pickle():
 #: the typed errors; this list only shrinks).  Everything else outside kinetics/cli/ must
 #: not name UsageError at all.
 STILL_RAISING_USAGE_ERROR = {
-    "optimise/api.py",
-    "optimise/model.py",
-    "optimise/settings.py",
     "temperature_log.py",
     "timeline_solve.py",
 }
