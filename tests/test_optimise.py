@@ -162,13 +162,13 @@ def test_the_landscape_holds_the_others_at_the_optimum():
         (
             {"over": [], "until": -1.0, "best_time": True},
             TimesError,
-            "until must be positive, not -1 s; give a time in seconds, e.g. until=36000.0",
+            "until must be positive and finite, not -1 s; give a time in seconds, e.g. "
+            "until=36000.0",
         ),
         (
             {"over": [], "until": "10h", "best_time": True},
             TimesError,
-            "until must be a number of seconds, not '10h'; give a time in seconds, e.g. "
-            "until=36000.0",
+            "until '10h' is not a number; give a time in seconds, e.g. until=36000.0",
         ),
         (
             {"over": [], "until": 5.0},

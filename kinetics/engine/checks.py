@@ -255,11 +255,12 @@ def time_list(times) -> np.ndarray:
     return _flat(t)
 
 
-def end_time(t, what: str = "the end time") -> float:
+def end_time(t, what: str = "the end time", hint: str = END_HINT) -> float:
     """The end of a time window [s]: a positive finite number.
 
-    For :func:`kinetics.solution.time_grid` and the ``t_window`` of the analysis; ``what``
-    names the argument in the message.
+    For :func:`kinetics.solution.time_grid`, the ``t_window`` of the analysis and the
+    ``until`` of an optimisation; ``what`` names the argument in the message and ``hint``
+    says what to give instead.
 
     Raises
     ------
@@ -270,12 +271,14 @@ def end_time(t, what: str = "the end time") -> float:
     >>> end_time(5400)
     5400.0
     """
+    if isinstance(t, bool):
+        raise TimesError(f"{what} {t!r} is not a number", hint)
     try:
         end = float(t)
     except (TypeError, ValueError) as exc:
-        raise TimesError(f"{what} {t!r} is not a number", END_HINT) from exc
+        raise TimesError(f"{what} {t!r} is not a number", hint) from exc
     if not (math.isfinite(end) and end > 0):
-        raise TimesError(f"{what} must be positive and finite, not {end:g} s", END_HINT)
+        raise TimesError(f"{what} must be positive and finite, not {end:g} s", hint)
     return end
 
 

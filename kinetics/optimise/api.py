@@ -4,19 +4,18 @@ optimum is, and the target over the settings for a figure.
 
 from __future__ import annotations
 
-import numbers
 from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
 import numpy as np
 
+from ..engine import checks
 from ..errors import (
     ActivityError,
     ConcentrationError,
     SettingError,
     SpeciesError,
     TimesError,
-    shown_value,
 )
 from ..solution import require_scheme
 from .local import refine
@@ -105,15 +104,7 @@ def _check_activity(scheme, species, yield_basis, words: Words) -> None:
 
 def _check_until(until, words: Words) -> None:
     """Refuse an end time that is not a positive finite number of seconds."""
-    if isinstance(until, bool) or not isinstance(until, numbers.Real):
-        raise TimesError(
-            f"{words.until} must be a number of seconds, not {shown_value(until)}",
-            words.until_example,
-        )
-    if not (np.isfinite(until) and until > 0):
-        raise TimesError(
-            f"{words.until} must be positive, not {float(until):g} s", words.until_example
-        )
+    checks.end_time(until, words.until, words.until_example)
 
 
 def _requirement_rows(model: Model, point) -> tuple[dict, ...]:
