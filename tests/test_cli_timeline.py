@@ -243,3 +243,32 @@ def test_sensitivities_are_refused_for_a_run_with_operations(files, capsys):
         "kinetics: --sensitivity is not available for a run with operations; leave it out, or "
         "sweep a parameter (kinetics sweep --vary) to see its effect"
     )
+
+
+def test_requirements_of_a_run_with_operations(files, capsys):
+    # D of the generator rises as the ingrowth (Bateman form) and each complete elution
+    # takes it to 0: `require D <= 0.05 M` is broken at the root of the ingrowth (before the
+    # first elution at 24 h) and holds again from the elution; a second portion of P at 36 h
+    # (add P = 2 M) breaks `require P <= 1.5 M` at that time, by the operation
+    text = GENERATOR + "require D <= 0.05 mol/L\nrequire P <= 1.5 mol/L\nat 36 h: add P = 2 M\n"
+    (files / "req.scheme").write_text(text, encoding="utf-8")
+    status, out, err = run(capsys, "solve", "req.scheme", "--until", "2d", "--json")
+    assert status == 0, err
+    doc = json.loads(out)
+    d, p = doc["requirements"]
+    lo, hi = 0.0, 24.0
+    for _ in range(60):  # bisection of the closed form
+        mid = (lo + hi) / 2
+        lo, hi = (mid, hi) if ingrowth(mid, 1.0) < 0.05 else (lo, mid)
+    assert d["first_broken"] == pytest.approx(lo / 24, rel=1e-12)
+    assert d["holds_between"][1][0] == 1.0  # holds again from the elution at 24 h
+    assert d["broken_by_operation"] is False
+    assert p["first_broken"] == 1.5
+    assert p["broken_by_operation"] is True
+    assert doc["all_hold_until"] == pytest.approx(lo / 24, rel=1e-12)
+    status, out, err = run(capsys, "solve", "req.scheme", "--until", "2d")
+    assert (
+        "  require P <= 1.5 mol/L: first broken at 1.5 d (by the operation at that time); "
+        "holds again from 3.94552 d on\n"
+    ) in out
+    assert "not checked" not in out

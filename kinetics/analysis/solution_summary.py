@@ -115,13 +115,13 @@ def compute_summary(solution: Solution) -> Summary | None:
         return None
     checked = {}
     if solution.after is not None:  # a run with operations: on its piecewise solution
-        from kinetics.analysis.run_summary import summarise_run
+        from kinetics.analysis.run_summary import Run, run_requirements, summarise_run
 
-        out, scheme_wide = summarise_run(solution.in_unit(scheme.concentration_unit))
+        own = solution.in_unit(scheme.concentration_unit)
+        run = Run(own)
+        out, scheme_wide = summarise_run(own, run=run)
         if scheme.requirements:
-            scheme_wide["timeline_note"] += (
-                "; the requirements of the file are not checked on a run with operations"
-            )
+            checked = run_requirements(own, run=run).to_dict()
     else:
         feed = scheme.feed_vector if scheme.feed else None
         window = float(solution.times[-1])
