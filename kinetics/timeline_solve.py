@@ -60,7 +60,7 @@ import numpy as np
 from . import _doubledouble as dd
 from .engine import TINY, Precision, StretchPropagator
 from .engine.checks import time_list
-from .errors import UsageError, shown_value
+from .errors import SettingError, shown_value
 from .timeline import Addition, Plan, Removal, Timeline, expand
 
 if TYPE_CHECKING:
@@ -748,8 +748,10 @@ def solve_timeline(
     ------
     kinetics.errors.SchemeErrors
         For mistakes in the timeline, all at once.
-    kinetics.errors.UsageError
-        For bad times.
+    kinetics.errors.SettingError
+        For a ``ramp_rtol`` outside (0, 1).
+    kinetics.errors.ArgumentValueError
+        For bad times (:func:`kinetics.engine.checks.time_list`).
 
     Examples
     --------
@@ -769,7 +771,7 @@ def solve_timeline(
     """
     t = time_list(times)
     if not (isinstance(ramp_rtol, float | int) and 0 < ramp_rtol < 1):
-        raise UsageError(
+        raise SettingError(
             f"ramp_rtol must be a number between 0 and 1, not {shown_value(ramp_rtol)}",
             "e.g. 1e-10 (relative accuracy of the ramp sub-steps)",
         )

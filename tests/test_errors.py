@@ -208,8 +208,6 @@ STILL_RAISING_USAGE_ERROR = {
     "sweep/store.py",
     "sweep/tables.py",
     "sweep_summary.py",
-    "temperature_log.py",
-    "timeline_solve.py",
 }
 
 

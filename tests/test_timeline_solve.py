@@ -15,7 +15,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import kinetics
-from kinetics.errors import SchemeErrors, UsageError, shown_value
+from kinetics.errors import SchemeErrors, SettingError, shown_value
 from kinetics.timeline import (
     Addition,
     At,
@@ -225,8 +225,9 @@ def test_examples_in_the_docstrings():
 
 @pytest.mark.parametrize("bad", [0.0, 1.5, float("nan"), "1e-9"])
 def test_ramp_rtol_is_checked(bad):
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(SettingError) as info:
         solve_timeline(CLOSED, Timeline([]), [0.0, 1.0], ramp_rtol=bad)
+    assert type(info.value) is SettingError
     assert (
         info.value.problem == f"ramp_rtol must be a number between 0 and 1, not {shown_value(bad)}"
     )
