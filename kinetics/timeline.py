@@ -49,6 +49,7 @@ from typing import TYPE_CHECKING
 
 from .errors import SchemeError, SchemeErrors, shown_value
 from .suggest import close_matches
+from .time_text import TimedText
 from .timeline_statements import (
     TIME_FIELDS,
     Action,
@@ -332,9 +333,9 @@ _NO_EFFECT = (
 
 
 def _note(place: Place, sentence: str) -> str:
-    """A note led by ``source:line:`` like the warnings of a scheme."""
+    """A note led by ``source:line:`` like the warnings of a scheme (times kept)."""
     lead = f"{place.source}:{place.line}: " if place.line > 0 else ""
-    return lead + sentence
+    return lead + sentence if lead else sentence
 
 
 def _repetitions(every: Every, end: float) -> tuple[list[float], int, int, float]:
@@ -594,14 +595,14 @@ class _Collector:
         notes = list(dict.fromkeys(check.notes))
         for index, count, first in self.skipped:
             many = count != 1
-            notes.append(
-                _note(
-                    timeline.statements[index].place,
-                    f"{count:,} operation{'s' if many else ''} from {_seconds(first)} on "
-                    f"{'fall' if many else 'falls'} after the end of the window "
-                    f"({_seconds(self.end)}) and {'were' if many else 'was'} not applied",
-                )
+            sentence = TimedText(
+                f"{count:,} operation{'s' if many else ''} from ",
+                first,
+                f" on {'fall' if many else 'falls'} after the end of the window (",
+                self.end,
+                f") and {'were' if many else 'was'} not applied",
             )
+            notes.append(_note(timeline.statements[index].place, sentence))
         operations = sorted(self.operations, key=lambda o: (o[0], o[1], o[2]))
         applied = _volumes([Operation(t, a, i) for t, i, _, a in operations], timeline.volume)
         ramps = sorted(self.ramps, key=lambda r: r[0].start)

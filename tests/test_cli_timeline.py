@@ -219,11 +219,11 @@ def test_an_operation_after_the_window_is_noted(files, capsys):
     status, out, err = run(capsys, "solve", "late.scheme", "--until", "1d", "--json")
     assert status == 0, err
     assert json.loads(out)["timeline_notes"] == [
-        "late.scheme:4: 1 operation from 864000.0 s on falls after the end of the window "
-        "(86400.0 s) and was not applied"
+        "late.scheme:4: 1 operation from 10 d on falls after the end of the window "
+        "(1 d) and was not applied"
     ]
     status, out, _ = run(capsys, "solve", "late.scheme", "--until", "1d", "--points", "3")
-    assert "note: late.scheme:4: 1 operation from 864000.0 s on falls after" in out
+    assert "note: late.scheme:4: 1 operation from 10 d on falls after" in out
 
 
 def test_check_json_lists_the_operations(files, capsys):
@@ -272,3 +272,41 @@ def test_requirements_of_a_run_with_operations(files, capsys):
         "holds again from 3.94552 d on\n"
     ) in out
     assert "not checked" not in out
+
+
+def test_notes_quote_times_in_the_unit_of_the_command(files, capsys):
+    # operations written in hours, the run solved to 10 h and shown in hours (or minutes)
+    text = (
+        "A -> B  k = 0.1 1/h\nstart A = 1 M\nevery 2 h from 5 h: add A = 1 M\n"
+        "at 50 h: add A = 1 M\n"
+    )
+    (files / "notes.scheme").write_text(text, encoding="utf-8")
+    status, out, err = run(capsys, "solve", "notes.scheme", "--until", "10h")
+    assert status == 0, err
+    skipped = (
+        "notes.scheme:4: 1 operation from 50 h on falls after the end of the window (10 h) and "
+        "was not applied"
+    )
+    assert f"\nnote: {skipped}\n" in out
+    assert (
+        "  note: A: material of A is added after time 0 (from 5 h on), so a time to fall to a "
+        "fraction of its start value loses its meaning\n"
+    ) in out
+    assert (
+        "  with operations: the long-time limit, the time to it, lifetimes and relaxation times "
+        "refer to the conditions after the last operation (from 9 h on, continued without end); "
+        f"{skipped}\n"
+    ) in out
+    status, out, err = run(
+        capsys, "solve", "notes.scheme", "--until", "10h", "--time-unit", "min", "--json"
+    )
+    doc = json.loads(out)
+    assert doc["timeline_notes"] == [
+        "notes.scheme:4: 1 operation from 3000 min on falls after the end of the window "
+        "(600 min) and was not applied"
+    ]
+    assert doc["summary"]["A"]["half_life_note"] == (
+        "material of A is added after time 0 (from 300 min on), so a time to fall to a "
+        "fraction of its start value loses its meaning"
+    )
+    assert "(from 540 min on, continued without end)" in doc["scheme_summary"]["timeline_note"]

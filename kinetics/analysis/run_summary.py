@@ -46,6 +46,7 @@ from kinetics.analysis.problem import Problem
 from kinetics.analysis.requirements import RequirementTimes, RunPieces, requirements_on_run
 from kinetics.analysis.summary import summarise_all
 from kinetics.analysis.survey import Survey
+from kinetics.time_text import TimedText, joined
 
 if TYPE_CHECKING:
     from kinetics.solution import Solution
@@ -419,9 +420,10 @@ def _crossings(entry: dict, run: Run, j: int, moved: dict, notes: list) -> None:
     for key in _FRACTIONS.values():
         entry[key] = None
     if name in moved["in"]:
-        entry["half_life_note"] = (
-            f"material of {name} is added after time 0 (from {moved['in'][name]:.6g} s on), "
-            "so a time to fall to a fraction of its start value loses its meaning"
+        entry["half_life_note"] = TimedText(
+            f"material of {name} is added after time 0 (from ",
+            moved["in"][name],
+            " on), so a time to fall to a fraction of its start value loses its meaning",
         )
         notes.append(entry["half_life_note"])
         return
@@ -464,13 +466,13 @@ def _whole(scheme_wide: dict, solution: Solution, moved: dict, last: dict) -> No
     """Times from time 0, amounts formed over the run, and the note on the conditions."""
     if scheme_wide.get("time_to_limit") is not None:
         scheme_wide["time_to_limit"] += last["time"]
-    note = (
+    note = TimedText(
         "the long-time limit, the time to it, lifetimes and relaxation "
-        f"times refer to the conditions after the last operation (from {last['time']:.6g} s "
-        "on, continued without end)"
+        "times refer to the conditions after the last operation (from ",
+        last["time"],
+        " on, continued without end)",
     )
-    if solution.notes:
-        note += "; " + "; ".join(solution.notes)
+    note = joined("; ", [note, *solution.notes])
     names = solution.species
     c0 = dict(zip(names, solution.scheme.initial_vector.tolist(), strict=True))
     start = dict(zip(names, last["c"].tolist(), strict=True))
