@@ -49,7 +49,7 @@ from typing import TYPE_CHECKING
 
 from .errors import SchemeError, SchemeErrors, shown_value
 from .suggest import close_matches
-from .time_text import TimedText
+from .time_text import TimedText, shown_time
 from .timeline_statements import (
     TIME_FIELDS,
     Action,
@@ -173,8 +173,13 @@ class Plan:
         return sorted(t for t in times if t <= self.end)
 
 
-def _seconds(value: float) -> str:
-    return f"{shown_value(value)} s"
+def _when(value: float, place: Place) -> str:
+    """A time [s] of a message: in the unit its line was written in (a scheme file), else
+    in seconds as given.
+    """
+    if place.time_unit == "s":
+        return f"{shown_value(value)} s"
+    return shown_time(value, place.time_unit)
 
 
 class _Checker:
@@ -202,7 +207,7 @@ class _Checker:
         if not (math.isfinite(value) and value >= 0):
             self.errors.append(
                 place.error(
-                    f"{what} must be finite and >= 0 s, not {_seconds(value)}",
+                    f"{what} must be finite and >= 0 {place.time_unit}, not {_when(value, place)}",
                     "operations happen at or after time 0, when the start values apply",
                 )
             )
@@ -312,7 +317,7 @@ class _Checker:
             return False
         self.count += count
         if self.count > MAX_OPERATIONS:
-            window = "" if math.isinf(self.end) else f" up to {_seconds(self.end)}"
+            window = "" if math.isinf(self.end) else f" up to {_when(self.end, place)}"
             self.errors.append(
                 place.error(
                     f"the timeline would create {self.count:,} operations{window}, "
@@ -369,7 +374,8 @@ def _check_every(check: _Checker, every: Every) -> bool:
     if ok and every.period <= 0:
         check.errors.append(
             place.error(
-                "the period of a repeated operation must be above 0 s, not 0 s",
+                f"the period of a repeated operation must be above 0 {place.time_unit}, not 0 "
+                f"{place.time_unit}",
                 "e.g. every 24 h",
             )
         )
@@ -382,8 +388,8 @@ def _check_every(check: _Checker, every: Every) -> bool:
     if ok and every.until is not None and every.until < first:
         check.errors.append(
             place.error(
-                f"the repetition ends ({_seconds(every.until)}) before it starts "
-                f"({_seconds(first)})",
+                f"the repetition ends ({_when(every.until, place)}) before it starts "
+                f"({_when(first, place)})",
                 "give 'until' after 'from'",
             )
         )
@@ -403,7 +409,7 @@ def _check_window(check: _Checker, start, end, place: Place, what: str) -> bool:
     if ok and not end > start:
         check.errors.append(
             place.error(
-                f"{what} ends ({_seconds(end)}) before it starts ({_seconds(start)})",
+                f"{what} ends ({_when(end, place)}) before it starts ({_when(start, place)})",
                 "write 'from T0 to T1' with T0 before T1",
             )
         )
@@ -415,11 +421,12 @@ def _check_ramps(check: _Checker, ramps, steps) -> None:
     """Ramps must not overlap one another, and no temperature step may fall inside one."""
     ordered = sorted(ramps, key=lambda r: (r.start, r.end))
     for earlier, later in itertools.pairwise(ordered):
+        at = later.place
         if later.start < earlier.end:
             check.errors.append(
                 later.place.error(
-                    f"this ramp ({_seconds(later.start)} to {_seconds(later.end)}) overlaps the "
-                    f"ramp from {_seconds(earlier.start)} to {_seconds(earlier.end)}",
+                    f"this ramp ({_when(later.start, at)} to {_when(later.end, at)}) overlaps the "
+                    f"ramp from {_when(earlier.start, at)} to {_when(earlier.end, at)}",
                     "let one ramp end before the next starts",
                 )
             )
@@ -428,8 +435,8 @@ def _check_ramps(check: _Checker, ramps, steps) -> None:
             if ramp.start <= time < ramp.end:
                 check.errors.append(
                     place.error(
-                        f"a temperature step at {_seconds(time)} falls inside the ramp from "
-                        f"{_seconds(ramp.start)} to {_seconds(ramp.end)}",
+                        f"a temperature step at {_when(time, place)} falls inside the ramp from "
+                        f"{_when(ramp.start, place)} to {_when(ramp.end, place)}",
                         "move the step to the end of the ramp or split the ramp",
                     )
                 )

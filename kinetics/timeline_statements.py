@@ -52,6 +52,9 @@ class Place:
         The whole source line.
     snippet : str
         The part of the line a message underlines.
+    time_unit : str
+        The unit of time the line's times are written in: messages quote its times in
+        it (``"s"``, the default, quotes them in seconds as given).
     """
 
     source: str = "<timeline>"
@@ -59,6 +62,7 @@ class Place:
     column: int = 0
     text: str = ""
     snippet: str = ""
+    time_unit: str = "s"
 
     def error(self, problem: str, hint: str = "") -> SchemeError:
         """A :class:`~kinetics.errors.SchemeError` located here."""

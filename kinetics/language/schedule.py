@@ -26,7 +26,7 @@ from fractions import Fraction
 
 from ..amounts import kind_of
 from ..definitions import NamedQuantity
-from ..errors import UnknownUnitError
+from ..errors import KineticsError, UnknownUnitError
 from ..scheme import Species
 from ..timeline import (
     Addition,
@@ -41,7 +41,7 @@ from ..timeline import (
     Timeline,
     check,
 )
-from ..units import describe_dimension, parse_unit
+from ..units import describe_dimension, parse_unit, time_factor
 from .concentrations import ConcentrationUnit
 from .messages import Diagnostics, quoted
 from .operations import (
@@ -321,8 +321,9 @@ class _Reader(_Numbers):
         line, bound = s.line, []
         shown = line.shown or line.text
         action = s.action
+        unit = self.written_unit(s.times)
         if s.kind == "from":
-            place = Place(line.source, line.number, s.column, shown, s.text)
+            place = Place(line.source, line.number, s.column, shown, s.text, unit)
             t0 = self.time(line, s.times[0], "start", "the start of the window", bound)
             t1 = self.time(line, s.times[1], "end", "the end of the window", bound)
             if isinstance(action, FeedAction):
@@ -335,7 +336,7 @@ class _Reader(_Numbers):
             if None in (t0, t1, first, last):
                 return None
             return TemperatureRamp(t0, t1, first, last, place, tuple(bound))
-        place = Place(line.source, line.number, action.column, shown, action.text)
+        place = Place(line.source, line.number, action.column, shown, action.text, unit)
         core = self.action(line, action, bound)
         if s.kind == "at":
             t = self.time(line, s.times[0], "time", "the time of an operation", bound)
@@ -352,6 +353,22 @@ class _Reader(_Numbers):
         ):
             return None
         return Every(times[0], core, times[1], times[2], place, tuple(bound))
+
+    def written_unit(self, times) -> str:
+        """The unit of time of the first time of a line written with one (its messages
+        quote times in it); ``"s"`` when none is.
+        """
+        for q in times:
+            if q is None:
+                continue
+            named = self.quantities.get(q.name) if q.name else None
+            text = q.value.unit if q.value is not None else (named.unit if named else "")
+            try:
+                time_factor(text)
+            except (KineticsError, ValueError):
+                continue
+            return text
+        return "s"
 
     def action(self, line: Line, action, bound: list):
         if isinstance(action, StepAction):
