@@ -244,3 +244,14 @@ def test_requirements_against_mpmath_with_repeated_elutions():
     assert inside == pytest.approx(roots, rel=1e-12)
     assert jumps  # the removals bring B back under the ceiling at operation times
     assert t.first_broken == pytest.approx(roots[0], rel=1e-12)
+
+
+@pytest.mark.parametrize("end_hours", [0, 1])
+def test_an_addition_at_time_zero_breaks_a_requirement_from_the_start(end_hours):
+    # B = 0.6 M added at 0 h, above the ceiling at once; B only rises after (A -> B)
+    out = checked(
+        "A -> B  k = 1 1/h\nstart A = 1 M\nrequire B <= 0.5 M\nat 0 h: add B = 0.6 M", end_hours
+    )
+    (t,) = out.times
+    assert (t.first_broken, t.by_operation, t.holds_between) == (0.0, True, ())
+    assert out.window is None

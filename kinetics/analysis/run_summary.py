@@ -320,14 +320,13 @@ def _pieces(solution: Solution, run: Run) -> RunPieces:
     if not stretches or last["time"] >= run.end > stretches[-1].start:
         final = Problem(last["K"], last["c"], last["feed"], names=run.names, K_low=last["K_low"])
     starts = [s.start for s in stretches]
-    before = [c0] + [s.end_values for s in stretches[:-1]]
     after = [s.start_values for s in stretches]
     ends = [s.end_values for s in stretches]
     if final is not None:
         starts.append(last["time"])
-        before.append(stretches[-1].end_values if stretches else c0)
         after.append(last["c"])
         ends.append(last["c"])
+    before = ([c0] + [s.end_values for s in stretches])[: len(starts)]
     few = sum(not s.ramp for s in stretches) <= MAX_STRETCHES
     surveyed: dict[int, Survey | None] = {}
 
