@@ -29,6 +29,17 @@ import time
 from pathlib import Path
 
 
+def _new_pair(rng: random.Random, n: int, pairs: set, kind: str) -> tuple[int, int]:
+    """A forward pair ``a < b < n`` not drawn before (a repeated step would be a parallel
+    step, which ``check`` reports as a warning for every repeat)."""
+    while True:
+        a = rng.randrange(n - 1)
+        b = rng.randrange(a + 1, n)
+        if (kind, a, b) not in pairs:
+            pairs.add((kind, a, b))
+            return a, b
+
+
 def generate(n_reactions: int, seed: int = 1) -> str:
     """An invented scheme of ``n_reactions`` reactions on ``n_reactions // 4`` species.
 
@@ -44,11 +55,11 @@ def generate(n_reactions: int, seed: int = 1) -> str:
     units = ["1/s", "1/min", "min-1", "h-1", "s-1", "d-1"]
     lines = ["title: invented isomer network for timing check", "excess W = 55 mol/L"]
     used: set[str] = set()
+    pairs: set[tuple[str, int, int]] = set()
     for i in range(n_reactions):
         kind = i % 10
         n = n_p if kind == 9 else n_s
-        a = rng.randrange(n - 1)
-        b = rng.randrange(a + 1, n)
+        a, b = _new_pair(rng, n, pairs, "P" if kind == 9 else "S")
         if kind < 6:
             lines.append(f"S{a} -> S{b}    k{i} = {rng.uniform(0.01, 5):.4g} {units[i % 6]}")
             used.update((f"S{a}", f"S{b}"))
@@ -57,7 +68,7 @@ def generate(n_reactions: int, seed: int = 1) -> str:
             lines.append(f"S{a} <=> S{b}    kf{i} = {kf:.3g} 1/s, kr{i} = 1.5e-3 1/s")
             used.update((f"S{a}", f"S{b}"))
         elif kind < 9:
-            b = rng.randrange(n_p)
+            b = rng.randrange(n_p)  # (S, P): a pair of its own kind, never repeated
             lines.append(f"S{a} + W -> P{b}    kw{i} = {rng.uniform(1e-5, 1e-3):.3g} M-1 s-1")
             used.update((f"S{a}", f"P{b}"))
         else:
@@ -67,7 +78,11 @@ def generate(n_reactions: int, seed: int = 1) -> str:
     first = next(name for name in names if name.startswith("S"))
     lines.append(f"start {first} = 1.0 mol/L")
     formulas = [f"{name} = {'C6H12O6' if name[0] == 'S' else 'C6H14O7'}" for name in names]
-    lines.append("formula " + ", ".join(formulas) + ", W = H2O")
+    formulas.append("W = H2O")
+    # a line may hold at most 10,000 characters: 100 formulas per line
+    lines.extend(
+        "formula " + ", ".join(formulas[i : i + 100]) for i in range(0, len(formulas), 100)
+    )
     return "\n".join(lines) + "\n"
 
 

@@ -84,17 +84,20 @@ def pair(value) -> tuple[float, float]:
     >>> pair(Fraction(1, 10))
     (0.1, -5.551115123125783e-18)
     """
-    if isinstance(value, float) and not math.isfinite(value):
-        return value, 0.0
-    value = Fraction(value)
+    if isinstance(value, float):
+        return value, 0.0  # a double is its own nearest double (inf and nan kept)
+    if not isinstance(value, Fraction):
+        value = Fraction(value)
+    n, d = value.numerator, value.denominator
     try:
-        hi = value.numerator / value.denominator  # correctly rounded
+        hi = n / d  # int / int is correctly rounded
     except OverflowError:
         return math.inf, 0.0
     if not math.isfinite(hi):
         return math.inf, 0.0
-    rest = value - Fraction(hi)
-    return hi, rest.numerator / rest.denominator
+    a, b = hi.as_integer_ratio()
+    # value - hi = (n b - a d) / (d b), rounded once by the integer division (no gcd)
+    return hi, (n * b - a * d) / (d * b)
 
 
 def two_sum(a, b):

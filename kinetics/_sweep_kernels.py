@@ -53,8 +53,10 @@ OK, FALLBACK = 0, 1
 
 @njit(**_INLINE)
 def _matvec_t(AT, x, out):
-    """``out = A x`` from the transpose ``AT``: one contiguous row of ``AT`` per entry of ``x``
-    (independent lanes, so the inner loop vectorises).
+    """``out = A x`` from the transpose ``AT``.
+
+    One contiguous row of ``AT`` per entry of ``x`` (independent lanes, so the inner loop
+    vectorises).
     """
     m, n = AT.shape
     for i in range(n):

@@ -36,7 +36,7 @@ from .expressions import (
 from .units import describe_dimension
 
 if TYPE_CHECKING:
-    from .scheme import RateConstant
+    from .rate_constants import RateConstant
 
 __all__ = [
     "Definition",

@@ -174,8 +174,9 @@ class _Slopes:
         return value, self._power(node, u, du, v, dv, value)
 
     def _power(self, node: Binary, u, du: Slope, p, dp: Slope, value) -> Slope:
-        r""":math:`(u^p)' = u^p (p' \ln u + p u'/u)`; at :math:`u = 0` only constant
-        exponents of at least 1.
+        r"""The slope of a power, :math:`(u^p)' = u^p (p' \ln u + p u'/u)`.
+
+        At :math:`u = 0` only a constant exponent of at least 1 has one.
         """
         if not du and not dp:
             return {}

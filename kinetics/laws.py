@@ -21,7 +21,7 @@ from fractions import Fraction
 from . import _doubledouble as dd
 from .errors import ExpressionError
 from .expressions import LawSpec, Parameter, dims_of, shown
-from .scheme import Arrhenius
+from .rate_constants import Arrhenius
 from .units import BOLTZMANN_EXACT, GAS_CONSTANT_EXACT, PLANCK_EXACT
 
 __all__ = ["LAWS", "Q10", "Eyring"]

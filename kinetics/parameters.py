@@ -71,7 +71,8 @@ from .errors import UsageError
 from .units import OFFSET_TEMPERATURES, normalise_unit, parse_unit, temperature_to_kelvin
 
 if TYPE_CHECKING:
-    from .scheme import Arrhenius, Scheme
+    from .rate_constants import Arrhenius
+    from .scheme import Scheme
 
 __all__ = [
     "ALL_KINDS",
@@ -141,8 +142,10 @@ class Target:
 
     @property
     def log(self) -> bool:
-        """True when a fit searches the logarithm of the value: every kind but ``energy``
-        and named quantities whose value is not above 0 (an activation entropy).
+        """True when a fit searches the logarithm of the value.
+
+        So it does for every kind but ``energy`` and named quantities whose value is not
+        above 0 (an activation entropy).
         """
         if self.kind == "quantity":
             return self.nominal > 0
@@ -157,9 +160,10 @@ class Target:
 
     @property
     def si_per_unit(self) -> float:
-        """Internal value of one :attr:`unit` (1 for start and excess values, which the
-        core keeps in the scheme's concentration unit; not defined for units with an
-        offset).
+        """Internal value of one :attr:`unit`; not defined for units with an offset.
+
+        It is 1 for start and excess values, which the core keeps in the scheme's
+        concentration unit.
         """
         if self.kind in ("start", "excess"):
             return 1.0
@@ -219,6 +223,7 @@ class SweepWords:
         return f"did you mean {close!r}? " if close else ""
 
     def unknown(self, scheme: Scheme, name: str) -> UsageError:
+        """The error for a name that is no rate constant or parameter of the scheme."""
         names = [*scheme.constants, *scheme.quantities]
         known = [*names, "temperature", "start:<species>", "excess:<species>"]
         return UsageError(
@@ -227,18 +232,21 @@ class SweepWords:
         )
 
     def drives_nothing(self, name: str) -> UsageError:
+        """The error for a named quantity that no rate constant is defined from."""
         return UsageError(
             f"{self.where}: no rate constant is defined from {name}, so it changes nothing",
             f"vary a quantity that a constant is defined from, e.g. k = ln(2) / {name}",
         )
 
     def whole_arrhenius(self, name: str) -> UsageError:
+        """The error for a constant that follows the Arrhenius law, varied as a whole."""
         return UsageError(
             f"{self.where}: {name} follows the Arrhenius law",
             f"vary {name}.A, {name}.Ea or temperature instead",
         )
 
     def no_constant(self, scheme: Scheme, name: str, base: str) -> UsageError:
+        """The error for ``base.A`` or ``base.Ea`` where the scheme has no constant ``base``."""
         constants = scheme.constants
         return UsageError(
             f"{self.where}: the scheme has no rate constant {base!r}",
@@ -246,9 +254,11 @@ class SweepWords:
         )
 
     def not_a_part(self, scheme: Scheme, name: str, base: str, part: str) -> UsageError:
+        """The error for ``base.part`` whose part is no Arrhenius parameter (unknown name)."""
         return self.unknown(scheme, name)
 
     def no_part(self, name: str, base: str, part: str) -> UsageError:
+        """The error for ``base.A`` or ``base.Ea`` of a constant given as a number."""
         return UsageError(
             f"{self.where}: {base} is given as a number, not by the Arrhenius law, so it has "
             f"no {part}",
@@ -256,6 +266,7 @@ class SweepWords:
         )
 
     def not_a_species(self, scheme: Scheme, name: str, kind: str, species: str) -> UsageError:
+        """The error for ``start:S`` or ``excess:S`` naming no species of that kind."""
         known = scheme.species_names if kind == "start" else [s.name for s in scheme.excess_species]
         if kind == "start" and species in scheme.excess:
             hint = f"{species} is held in excess: vary excess:{species}"
@@ -267,6 +278,7 @@ class SweepWords:
         return UsageError(f"{self.where}: {species!r} is not {what}", hint)
 
     def temperature_unused(self) -> UsageError:
+        """The error for varying the temperature of a scheme without an Arrhenius constant."""
         return UsageError(
             f"{self.where}: the scheme has no Arrhenius constant, so the temperature changes "
             "nothing",
@@ -407,6 +419,8 @@ def resolve(scheme: Scheme, name: str, words) -> Target:
         if not scheme.temperature_constants:
             raise words.temperature_unused()
         unit = file_temperature_unit(scheme)
+        # a file with an Arrhenius constant sets a temperature (the parser refuses it otherwise)
+        assert scheme.temperature is not None
         return Target("temperature", "temperature", "", unit, "temperature", scheme.temperature)
     m = _NAME_START.match(name)
     if m and m[1] in allowed:
@@ -431,8 +445,10 @@ def resolve(scheme: Scheme, name: str, words) -> Target:
 
 
 def _nominal(scheme: Scheme, name: str) -> float:
-    """The file's value of a constant or named quantity [SI; K] (at the scheme's
-    temperature for one that follows it; ``nan`` without a temperature).
+    """The file's value of a constant or named quantity [SI; K].
+
+    One that follows the temperature is taken at the scheme's temperature (``nan``
+    without one).
     """
     known = scheme.quantities.get(name) or scheme.constants[name]
     if known.value_si is not None:
@@ -452,8 +468,9 @@ def scheme_with(
     initial: dict[str, float] | None = None,
     given: dict | None = None,
 ) -> Scheme:
-    r"""The scheme with new values of parameters of any kind (a sweep's set, a fit's
-    estimates), exactly.
+    r"""The scheme with new values of parameters of any kind, exactly.
+
+    The values are a sweep's set or a fit's estimates.
 
     Rate constants and named quantities go through :meth:`kinetics.scheme.Scheme.
     with_values` as exact values (the constants defined from them, and the operations
@@ -487,8 +504,9 @@ def scheme_with(
     90000.0
     """
     lows = [0.0] * len(targets) if lows is None else lows
-    quantities = {n: Fraction(v) for n, v in (given or {}).items()}
-    start, excess, parts = dict(initial or {}), {}, {}
+    quantities: dict[str, float | Fraction] = {n: Fraction(v) for n, v in (given or {}).items()}
+    start, excess = dict(initial or {}), {}
+    parts: dict[str, dict[str, Fraction]] = {}  # constant -> its new A or Ea
     for t, v, lo in zip(targets, values, lows, strict=True):
         exact = Fraction(float(v)) + Fraction(float(lo))
         if t.kind == "temperature":
@@ -510,6 +528,7 @@ def scheme_with(
     for name, part in parts.items():
         old = constants[name]
         law = old.arrhenius
+        assert law is not None  # resolve gives A and Ea of Arrhenius constants only
         law = replace(
             law,
             prefactor_si=part.get("prefactor", law.prefactor_si),

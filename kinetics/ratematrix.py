@@ -392,9 +392,9 @@ def _effective(scheme: Scheme, k: Fraction, co_reactants, excess) -> Fraction | 
     result: Fraction | float = k
     for nu, name in co_reactants:
         if name in excess:
-            w = Fraction(excess[name]) * scheme._unit_factor
+            w = Fraction(excess[name]) * scheme.concentration_si
         else:
-            w = scheme._excess_si[name]
+            w = scheme.excess_si[name]
         nu = Fraction(nu)
         if nu.denominator == 1 and nu <= 64:
             result = result * w ** int(nu)
@@ -430,11 +430,12 @@ def _check_overrides(scheme: Scheme, constants, temperature, excess) -> None:
             raise ConstantError(
                 f"rate constant {name} = {shown_value(value)} must be finite and >= 0"
             )
+    known = scheme.excess_si
     for name, value in excess.items():
-        if name not in scheme._excess_si:
+        if name not in known:
             raise SpeciesError(
                 f"no excess species named {name!r} in the scheme",
-                "excess species: " + (", ".join(scheme._excess_si) or "none"),
+                "excess species: " + (", ".join(known) or "none"),
             )
         if not (math.isfinite(value) and value >= 0):
             raise ConcentrationError(

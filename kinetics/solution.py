@@ -217,21 +217,7 @@ class Solution:
         """
         from .activity import activity_factors
 
-        factors = activity_factors(self.scheme, unit)
-        amounts = self.concentrations if self._amounts is None else self._amounts
-        bound = self.error_bound
-        if bound is not None:  # the factor and the product: a few more units of rounding
-            bound = bound + _CONVERSION_ROUNDING * (1 + bound)
-        return replace(
-            self,
-            concentrations=amounts * factors,
-            concentration_unit=unit.strip(),
-            unit_factors=factors,
-            activity_unit=unit.strip(),
-            error_bound=bound,
-            _amounts=amounts,
-            **self._events_times(factors),
-        )
+        return self._converted(activity_factors(self.scheme, unit), unit.strip(), unit.strip())
 
     def in_unit(self, unit: str) -> Solution:
         r"""The same solution with concentrations in another unit.
@@ -269,34 +255,35 @@ class Solution:
         """
         from .amounts import PERCENT_OF_APPLIED, is_percent_of_applied, output_factors
 
-        factors = output_factors(self.scheme, unit)
-        amounts = self.concentrations if self._amounts is None else self._amounts
         label = PERCENT_OF_APPLIED if is_percent_of_applied(unit) else unit.strip()
+        return self._converted(output_factors(self.scheme, unit), label, None)
+
+    def _converted(self, factors: np.ndarray, unit: str, activity_unit: str | None) -> Solution:
+        """The same solution with each species' values times its factor, labelled ``unit``.
+
+        The amounts and the events' changes in the scheme's unit are kept aside, so that
+        conversions never compound; the bound grows by the rounding of the conversion.
+        """
+        amounts = self.concentrations if self._amounts is None else self._amounts
         bound = self.error_bound
         if bound is not None:  # the factor and the product: a few more units of rounding
             bound = bound + _CONVERSION_ROUNDING * (1 + bound)
-        return replace(
-            self,
-            concentrations=amounts * factors,
-            concentration_unit=label,
-            unit_factors=factors,
-            activity_unit=None,
-            error_bound=bound,
-            _amounts=amounts,
-            **self._events_times(factors),
-        )
-
-    def _events_times(self, factors: np.ndarray) -> dict:
-        """The events with each species' ``change`` times its output factor.
-
-        The changes in the scheme's unit are kept aside.
-        """
         scale = dict(zip(self.species, factors.tolist(), strict=True))
         base = self.events if self._events is None else self._events
         events = tuple(
             e if e.species is None else replace(e, change=e.change * scale[e.species]) for e in base
         )
-        return {"events": events, "_events": base}
+        return replace(
+            self,
+            concentrations=amounts * factors,
+            concentration_unit=unit,
+            unit_factors=factors,
+            activity_unit=activity_unit,
+            error_bound=bound,
+            _amounts=amounts,
+            events=events,
+            _events=base,
+        )
 
     def __getitem__(self, name: str) -> np.ndarray:
         """The curve of one species [concentration_unit]."""
@@ -409,40 +396,47 @@ class Solution:
         """
         from .output.plotting import concentration_figure, save_figure
 
-        if isinstance(species, str):
-            raise ArgumentTypeError(
-                f"species must be a list of names, not the string {species!r}",
-                f"write species=[{species!r}]",
-            )
-        for name in species or []:
-            self[name]  # raises SpeciesError for an unknown name
-        if not (summary is None or isinstance(summary, str | dict)):
-            raise ArgumentTypeError(
-                f"summary must be 'auto', None or a dict, not {type_name(summary)}",
-                "leave it out to mark the maxima and half-lives",
-            )
-        if isinstance(summary, str):
-            if summary != "auto":
-                raise SettingError(
-                    f"summary={summary!r} is not known", "use 'auto', None or a dict"
-                )
+        _check_plot_choices(self, summary, species)
+        if isinstance(summary, str):  # "auto"
             summary = self.summary(time_unit)
-        if path is not None:
-            from pathlib import Path
-
-            if not isinstance(path, str | os.PathLike):
-                raise ArgumentTypeError(
-                    f"path must be a file name, not {type_name(path)}",
-                    "e.g. solution.plot('curves.png')",
-                )
-            if Path(path).suffix.lower() not in (".png", ".svg"):
-                raise SettingError(
-                    f"cannot save a plot as {str(path)!r}", "use a .png or .svg file name"
-                )
+        _check_plot_path(path)
         fig = concentration_figure(self, time_unit, summary, species=species, linear=linear)
         if path is not None:
             save_figure(fig, path)
         return fig
+
+
+def _check_plot_choices(solution: Solution, summary, species) -> None:
+    """Refuse a ``species`` or ``summary`` argument of :meth:`Solution.plot` it cannot draw."""
+    if isinstance(species, str):
+        raise ArgumentTypeError(
+            f"species must be a list of names, not the string {species!r}",
+            f"write species=[{species!r}]",
+        )
+    for name in species or []:
+        solution[name]  # raises SpeciesError for an unknown name
+    if not (summary is None or isinstance(summary, str | dict)):
+        raise ArgumentTypeError(
+            f"summary must be 'auto', None or a dict, not {type_name(summary)}",
+            "leave it out to mark the maxima and half-lives",
+        )
+    if isinstance(summary, str) and summary != "auto":
+        raise SettingError(f"summary={summary!r} is not known", "use 'auto', None or a dict")
+
+
+def _check_plot_path(path) -> None:
+    """Refuse a ``path`` of :meth:`Solution.plot` that is no ``.png`` or ``.svg`` file name."""
+    if path is None:
+        return
+    from pathlib import Path
+
+    if not isinstance(path, str | os.PathLike):
+        raise ArgumentTypeError(
+            f"path must be a file name, not {type_name(path)}",
+            "e.g. solution.plot('curves.png')",
+        )
+    if Path(path).suffix.lower() not in (".png", ".svg"):
+        raise SettingError(f"cannot save a plot as {str(path)!r}", "use a .png or .svg file name")
 
 
 def solve(scheme: Scheme, times) -> Solution:

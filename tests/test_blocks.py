@@ -393,3 +393,24 @@ def test_feed_low_parts_are_honoured_and_bad_low_parts_refused():
         propagate_blocks(K, np.ones(n), t, None, K_low=scipy.sparse.csr_array(np.eye(3)))
     with pytest.raises(UsageError, match="K_low has a non-finite entry"):
         propagate_blocks(K, np.ones(n), t, None, K_low=scipy.sparse.diags_array(np.full(n, np.nan)))
+
+
+def test_block_sizes_agree_for_dense_and_sparse_and_do_not_touch_the_input():
+    """The strongly connected blocks of a chain with one reversible pair (closed form:
+    one block of two species with four nonzeros); a sparse input with a duplicate entry
+    is left as it was given."""
+    import scipy.sparse
+
+    from kinetics.engine.blocks import block_sizes
+
+    K = np.array([[-1.0, 0, 0, 0], [1.0, -2.0, 3.0, 0], [0, 2.0, -3.0, 0], [0, 0, 0, 0]])
+    b, z, nnz = block_sizes(K)
+    assert (b.tolist(), z.tolist(), nnz) == ([2.0], [4.0], 6.0)
+    # the same pattern as compressed rows with species 1's inflow from 0 stored twice
+    data = np.array([-1.0, 0.5, 0.5, -2.0, 3.0, 2.0, -3.0])
+    indices = np.array([0, 0, 0, 1, 2, 1, 2])
+    indptr = np.array([0, 1, 5, 7, 7])
+    S = scipy.sparse.csr_array((data, indices, indptr), shape=(4, 4))
+    assert block_sizes(S)[0].tolist() == [2.0]
+    assert S.indices.tolist() == indices.tolist()
+    assert S.data.tolist() == data.tolist()

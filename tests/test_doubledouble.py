@@ -80,3 +80,18 @@ def test_product_near_the_top_of_the_range():
     # the Veltkamp split is scaled there: no overflow, still exact (Dekker 1971, sec. 5)
     h, lo = dd.product(np.float64(1e300), np.float64(0.0), np.float64(1.5), np.float64(0.0))
     assert exact(h, lo) == Fraction(1e300) * Fraction(3, 2)
+
+
+@given(
+    st.integers(1, 10**30),
+    st.integers(1, 10**25),
+    st.integers(-300, 280),
+)
+def test_pair_low_part_is_the_rounded_exact_remainder(n, d, e):
+    """``lo`` is the double nearest to ``value - hi``, computed in exact rationals
+    (Python's Fraction arithmetic is the reference)."""
+    value = Fraction(n, d) * Fraction(10) ** e
+    hi, lo = dd.pair(value)
+    if math.isfinite(hi):
+        rest = value - Fraction(hi)
+        assert lo == rest.numerator / rest.denominator

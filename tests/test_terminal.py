@@ -65,3 +65,16 @@ def test_one_column_wider_than_the_screen_folds_without_loss(screen):
     assert "…" not in text
     assert "".join(c for c in text if c == "S") == "S" * 40
     assert "1.23456789012345" in text
+
+
+def test_a_quantity_without_a_value_shows_a_dash_not_an_empty_cell(screen):
+    """A -> B: the parent has no maximum after t = 0 and the product no half-life
+    (closed forms: A decays monotonically, B rises monotonically), shown as "—"."""
+    out = screen(120)
+    scheme = kinetics.parse("A -> B  k1 = 0.1 1/s\nstart A = 1 mol/L")
+    solution = kinetics.solve(scheme, np.linspace(0.0, 60.0, 4))
+    summary = solution.summary("s")
+    assert summary["B"]["half_life"] is None
+    terminal.render_summary(summary, "s", "mol/L", out=terminal.console())
+    row_b = next(line for line in out["io"].getvalue().splitlines() if line.startswith("│ B "))
+    assert "—" in row_b

@@ -16,7 +16,7 @@ import numpy as np
 
 from kinetics.analysis.problem import Problem
 from kinetics.analysis.results import Limit
-from kinetics.analysis.structure import CRITICAL, GROWING
+from kinetics.analysis.structure import CRITICAL, GROWING, Class
 from kinetics.analysis.tolerances import CONST, DECAY, EXPONENTIAL, NEVER
 
 __all__ = ["LimitParts", "limit_parts", "long_time_limit"]
@@ -89,8 +89,7 @@ def _degrees(p: Problem) -> _Degrees:
             continue
         if q[c] == CONST and cl.kind == CRITICAL:
             # closed class: keeps what it starts with plus all that flows in
-            amount = cl.u @ (p.c0[idx] + p.inflow(cl, X))
-            L[idx] = cl.v * amount / (cl.u @ cl.v)
+            L[idx] = _along_null_vector(cl, p.c0[idx] + p.inflow(cl, X))
         elif q[c] == CONST:
             L[idx] = p.solve_block(cl, p.f[idx] + p.inflow(cl, L))
         else:
@@ -98,6 +97,18 @@ def _degrees(p: Problem) -> _Degrees:
             _growth_rate(p, c, q, L, rate, gexp)
         X[idx] = np.inf  # after its own inflow is taken: the class keeps material
     return _Degrees(q, L, X, rate)
+
+
+def _along_null_vector(cl: Class, x: np.ndarray) -> np.ndarray:
+    r"""What a critical class holds of the amount (or rate) ``x`` it gets, in the long run.
+
+    :math:`v \, (u \cdot x) / (u \cdot v)` with the left and right null vectors ``u``
+    and ``v`` of its block: the class keeps :math:`u \cdot x`, spread as ``v``.
+    """
+    # a critical class has both null vectors
+    assert cl.u is not None
+    assert cl.v is not None
+    return cl.v * (cl.u @ x) / (cl.u @ cl.v)
 
 
 def _growth_rate(p: Problem, c: int, q, L, rate, gexp) -> None:
@@ -110,8 +121,7 @@ def _growth_rate(p: Problem, c: int, q, L, rate, gexp) -> None:
     idx = cl.members
     if q[c] == 1 and cl.kind == CRITICAL:
         Lfin = np.where(np.isfinite(L), L, 0.0)
-        total = cl.u @ (p.f[idx] + p.inflow(cl, Lfin))
-        rate[idx] = cl.v * total / (cl.u @ cl.v)
+        rate[idx] = _along_null_vector(cl, p.f[idx] + p.inflow(cl, Lfin))
     elif q[c] == 1:
         r = np.where(np.isfinite(rate), rate, 0.0)
         rate[idx] = p.solve_block(cl, p.inflow(cl, r))

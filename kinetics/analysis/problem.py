@@ -19,7 +19,7 @@ from kinetics.analysis import inputs
 from kinetics.analysis.structure import Class, Structure, block
 from kinetics.analysis.tolerances import REL_NOISE_D
 from kinetics.analysis.working_range import check_working_range
-from kinetics.engine import DENSE_MAX, checks, propagate, propagate_batch
+from kinetics.engine import DENSE_MAX, Precision, checks, propagate, propagate_batch
 
 __all__ = ["Problem", "State"]
 
@@ -100,9 +100,9 @@ class Problem:
         span = self.struct.scan_span()
         sigma_t = float(np.max(-self.Ks.diagonal())) * (span[1] if span else 0.0)
         small = n <= _FULL_PRECISION_MAX
-        self.precision = "auto" if small or sigma_t > _DOUBLE_SIGMA_T else "double"
+        self.precision: Precision = "auto" if small or sigma_t > _DOUBLE_SIGMA_T else "double"
         # exact split K c0 + f = g+ - g- of the derivative at t = 0 (see state)
-        self.split = None
+        self.split: tuple[np.ndarray, np.ndarray] | None = None
         if self.Kd is not None and n <= DENSE_MAX:
             diag = np.diag(self.Kd)
             gp = (self.Kd - np.diag(diag)) @ self.c0 + self.f
@@ -126,7 +126,7 @@ class Problem:
         """
         return (self.absK @ (N + REL_NOISE_D * np.abs(D)).T).T
 
-    def propagate(self, times: np.ndarray, precision: str | None = None) -> np.ndarray:
+    def propagate(self, times: np.ndarray, precision: Precision | None = None) -> np.ndarray:
         """C at arbitrary (unsorted) times [conc], one engine call."""
         times = np.asarray(times, dtype=float)
         if times.size == 0:
@@ -174,6 +174,9 @@ class Problem:
         """
         order = np.argsort(t, kind="stable")
         Kd = self.Kd
+        # both are set on a dense scheme, and only there
+        assert Kd is not None
+        assert self.split is not None
         Kl = np.zeros_like(Kd) if self.K_low is None else self.K_low
         X, bound = propagate_batch(
             np.stack([Kd, Kd]),

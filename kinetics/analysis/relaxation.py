@@ -62,7 +62,8 @@ def _repeated_along_paths(st: Structure, evs: np.ndarray, owner: np.ndarray):
 
     Pairs equal to 1e-10 or nearly equal to 1e-3, upstream class first.
     """
-    exact, near = [], []
+    exact: list[tuple[int, int]] = []
+    near: list[tuple[int, int]] = []
     srt = np.argsort(evs.real, kind="stable")
     for a_pos in range(srt.size):
         a = srt[a_pos]

@@ -84,7 +84,7 @@ def base_times(problem: Problem) -> np.ndarray:
     per = _PER_OCTAVE
     while per > 2 and (e1 - e0) * per > _MAX_LOG_POINTS:
         per //= 2
-    parts = [np.zeros(1)]
+    parts: list[np.ndarray] = [np.zeros(1)]
     for e in range(e0, e1):
         base = 2.0**e
         parts.append(base + (base / per) * np.arange(per))

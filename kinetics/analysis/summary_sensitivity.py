@@ -216,12 +216,12 @@ def summary_sensitivities(solution: Solution, summary: dict) -> dict | None:
                 if qkey == "c_max" and solution.activity_unit is not None and k == 1:
                     _add_decay(out[qkey][species], names, values, d, i)
     for species, entry in summary.items():
-        i = scheme.index.get(species)
-        if i is None or not d.lam[i] > 0:
+        j = scheme.index.get(species)
+        if j is None or not d.lam[j] > 0:
             continue
         for key in ("lifetime", "first_order_half_life"):
             if entry.get(key) is not None:
-                out[key][species] = _normalised(names, values, d.lam[i], d.dlam[:, i], -1.0)
+                out[key][species] = _normalised(names, values, d.lam[j], d.dlam[:, j], -1.0)
     return {key: per for key, per in out.items() if per}
 
 

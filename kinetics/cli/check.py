@@ -13,7 +13,15 @@ from kinetics.output.overview import CHECK_TABLE_ROWS
 __all__ = ["check"]
 
 
-@click.command()
+_CHECK_HELP = """Check a scheme file and report species, steps, balance and structure.
+
+\b
+Example:
+  kinetics check networks/reversible_isomerisation.scheme --json
+"""
+
+
+@click.command(help=_CHECK_HELP)
 @click.argument("scheme_file", type=click.Path(dir_okay=True, path_type=Path))
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object instead of tables.")
 @click.option(
@@ -28,12 +36,7 @@ __all__ = ["check"]
     f"than {CHECK_TABLE_ROWS} species or steps gets an overview).",
 )
 def check(scheme_file, as_json, allow_imbalance, full_tables):
-    """Check a scheme file and report species, steps, balance and structure.
-
-    \b
-    Example:
-      kinetics check networks/reversible_isomerisation.scheme --json
-    """
+    """Run ``kinetics check`` (the help text is :data:`_CHECK_HELP`)."""
     from kinetics.cli.terminal import progress, render_check
     from kinetics.output.overview import check_report
 

@@ -1,5 +1,7 @@
-"""What the commands share: reading a scheme with its warnings, the time grid and its
-options, species lists, the caution, the first-use note and writing output files.
+"""What the commands share: reading a scheme, the time grid, notes and output files.
+
+That is reading a scheme with its warnings, the time grid and its options, species lists,
+the caution, the first-use note and writing output files.
 """
 
 from __future__ import annotations
@@ -81,8 +83,8 @@ def time_grid(until, points, times_text):
                 "--points sets a uniform grid and cannot be combined with --times",
                 "leave out --points",
             )
-        times, unit = parse_time_list(times_text)
-        times = sol.check_times(times)
+        written, unit = parse_time_list(times_text)
+        times = sol.check_times(written)
         if times[-1] <= 0:
             raise UsageError(
                 f"--times {times_text!r} has no time after 0", "give at least one later time"

@@ -12,6 +12,9 @@ from __future__ import annotations
 
 import contextlib
 import sys
+from collections.abc import Callable
+from types import FrameType
+from typing import Any
 
 import click
 
@@ -71,18 +74,21 @@ class _Group(click.Group):
             raise
 
 
-@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]})
+_HELP = """Check, solve exactly, analyse and export first-order reaction schemes.
+
+\b
+Examples:
+  kinetics check networks/consecutive_intermediate.scheme
+  kinetics solve networks/consecutive_intermediate.scheme --until 3h --out table.csv
+"""
+
+
+@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"]}, help=_HELP)
 @click.version_option(__version__, "--version", prog_name="kinetics")
 @click.option("--debug", is_flag=True, help="Show the Python traceback of an error.")
 @click.pass_context
 def cli(ctx, debug):
-    """Check, solve exactly, analyse and export first-order reaction schemes.
-
-    \b
-    Examples:
-      kinetics check networks/consecutive_intermediate.scheme
-      kinetics solve networks/consecutive_intermediate.scheme --until 3h --out table.csv
-    """
+    """The ``kinetics`` command group (the help text is :data:`_HELP`); keeps ``--debug``."""
     ctx.obj = {"debug": debug}
 
 
@@ -125,8 +131,9 @@ BROKEN_PIPE = 141
 
 @contextlib.contextmanager
 def _signals_stop_the_run():
-    """While running, SIGTERM and SIGHUP raise :class:`Stopped` (signals the parent made
-    the process ignore, as ``nohup`` does for SIGHUP, stay ignored).
+    """While running, SIGTERM and SIGHUP raise :class:`Stopped`.
+
+    Signals the parent made the process ignore (as ``nohup`` does for SIGHUP) stay ignored.
     """
     import signal
     import threading
@@ -134,7 +141,7 @@ def _signals_stop_the_run():
     if threading.current_thread() is not threading.main_thread():
         yield
         return
-    previous = {}
+    previous: dict[int, Callable[[int, FrameType | None], Any] | int | None] = {}
 
     def stop(signum, frame):
         for number in previous:  # one stop is enough: later ones must not cut the cleanup
@@ -172,6 +179,17 @@ def _say(exc: BaseException, message: str) -> None:
         click.echo(f"kinetics: {note}", err=True)
 
 
+#: Ways a run ends that are no error of the user's or of the program (never re-raised).
+_ENDINGS = (
+    click.exceptions.Exit,
+    Stopped,
+    click.exceptions.Abort,
+    KeyboardInterrupt,
+    click.exceptions.NoArgsIsHelpError,
+    PipeClosed,
+)
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the command line with ``argv`` (default: ``sys.argv[1:]``); return the exit status.
 
@@ -185,54 +203,62 @@ def main(argv: list[str] | None = None) -> int:
     try:
         with _signals_stop_the_run():
             result = cli.main(args=args, prog_name="kinetics", standalone_mode=False)
-    except click.exceptions.Exit as exc:
+    except _ENDINGS as exc:
+        return _ended(exc)
+    except Exception as exc:
+        if debug and not isinstance(exc, BrokenPipeError):
+            raise
+        return _failed(exc)
+    return result if isinstance(result, int) else 0
+
+
+def _ended(exc: BaseException) -> int:
+    """The exit status of a run ended by help, a signal, Ctrl-C or a closed pipe."""
+    if isinstance(exc, click.exceptions.Exit):
         return exc.exit_code
-    except Stopped as exc:
+    if isinstance(exc, Stopped):
         _say(exc, exc.word)
         return exc.status
-    except (click.exceptions.Abort, KeyboardInterrupt) as exc:
+    if isinstance(exc, click.exceptions.Abort | KeyboardInterrupt):
         _say(exc.__cause__ or exc, "interrupted")
         return 130
-    except click.exceptions.NoArgsIsHelpError as exc:
+    if isinstance(exc, click.exceptions.NoArgsIsHelpError):
         click.echo(exc.format_message(), err=True)
         return 2
-    except PipeClosed:
-        _silence_stdout()
-        return BROKEN_PIPE
-    except click.ClickException as exc:
-        if debug:
-            raise
+    _silence_stdout()  # PipeClosed
+    return BROKEN_PIPE
+
+
+def _failed(exc: Exception) -> int:
+    """The exit status of a failed run, after its one sentence on stderr.
+
+    2 for a mistake on the command line, in a file, or a file that cannot be read or
+    written; 1 for an internal error (a bug); :data:`BROKEN_PIPE` when stdout was closed.
+    """
+    if isinstance(exc, click.ClickException):
         click.echo(f"kinetics: {exc.format_message()}", err=True)
         if isinstance(exc, click.UsageError) and exc.ctx is not None:
             click.echo(f"  (see: {exc.ctx.command_path} --help)", err=True)
         return 2
-    except KineticsError as exc:
-        if debug:
-            raise
+    if isinstance(exc, KineticsError):
         _say(exc, str(exc))
         return 2
-    except OSError as exc:
-        if isinstance(exc, BrokenPipeError):
-            _silence_stdout()
-            return BROKEN_PIPE
-        if debug:
-            raise
+    if isinstance(exc, BrokenPipeError):
+        _silence_stdout()
+        return BROKEN_PIPE
+    if isinstance(exc, OSError):
         reason = exc.strerror or str(exc)
         if exc.filename:
             _say(exc, f"cannot access {exc.filename!r}: {reason}")
         else:
             _say(exc, f"a file operation failed ({reason}); --debug shows which one")
         return 2
-    except Exception as exc:
-        if debug:
-            raise
-        _say(
-            exc,
-            f"internal error ({type(exc).__name__}: {exc}); "
-            "this is a bug, please report it with the output of --debug",
-        )
-        return 1
-    return result if isinstance(result, int) else 0
+    _say(
+        exc,
+        f"internal error ({type(exc).__name__}: {exc}); "
+        "this is a bug, please report it with the output of --debug",
+    )
+    return 1
 
 
 def run() -> None:  # pragma: no cover - console-script entry point

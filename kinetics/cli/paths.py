@@ -1,5 +1,6 @@
-"""Output files named on the command line: known formats, an existing folder, never an
-input file, never twice.
+"""Output files named on the command line, checked before anything is computed.
+
+Each has a known format and an existing folder; none is an input file, none is named twice.
 """
 
 from __future__ import annotations

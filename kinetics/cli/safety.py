@@ -7,14 +7,18 @@ import click
 __all__ = ["safety"]
 
 
-@click.command()
-def safety():
-    """Print SAFETY.md: the limits of the model and what a process-safety review must address.
+_SAFETY_HELP = """
+Print SAFETY.md: the limits of the model and what a process-safety review must address.
 
-    \b
-    Example:
-      kinetics safety | less
-    """
+\b
+Example:
+  kinetics safety | less
+"""
+
+
+@click.command(help=_SAFETY_HELP)
+def safety():
+    """Run ``kinetics safety`` (the help text is :data:`_SAFETY_HELP`)."""
     from importlib.resources import files
 
     click.echo(files("kinetics").joinpath("SAFETY.md").read_text(encoding="utf-8"), nl=False)

@@ -1,5 +1,7 @@
-"""The ``kinetics solve`` and ``kinetics report`` commands: solve a scheme on a time grid,
-print or write the table and the summary, or write the HTML report.
+"""The ``kinetics solve`` and ``kinetics report`` commands.
+
+``solve`` solves a scheme on a time grid and prints or writes the table and the summary;
+``report`` writes the HTML report.
 """
 
 from __future__ import annotations
@@ -38,8 +40,9 @@ _ACTIVITY_OPTION = click.option(
 
 
 def _plot_solution(result, scheme):
-    """The solution on a grid fine enough to draw smooth curves (at least 201 points), with
-    the times of every operation (each drawn as a jump).
+    """The solution on a grid fine enough to draw smooth curves (at least 201 points).
+
+    The grid holds the times of every operation, so that each is drawn as a jump.
     """
     import numpy as np
 
@@ -57,8 +60,9 @@ def _plot_solution(result, scheme):
 
 
 def events_path(path: Path) -> Path:
-    """The sibling file of a CSV table that holds the operations: ``run.csv`` ->
-    ``run_events.csv``.
+    """The sibling file of a CSV table that holds the operations.
+
+    ``run.csv`` -> ``run_events.csv``.
     """
     return path.with_name(f"{path.stem}_events{path.suffix}")
 
@@ -81,8 +85,10 @@ _LOG_HELP = (
 
 
 def _check_activity(scheme, activity_unit, conc_unit) -> None:
-    """Refuse, before solving, ``--activity`` with ``--concentration-unit`` or a unit that
-    is no activity of the scheme's kind.
+    """Refuse, before solving, an ``--activity`` that cannot be shown.
+
+    That is ``--activity`` with ``--concentration-unit``, or a unit that is no activity of the
+    scheme's kind.
     """
     if activity_unit is None:
         return
@@ -99,8 +105,10 @@ def _check_activity(scheme, activity_unit, conc_unit) -> None:
 def _solve_and_summarise(
     scheme, times, time_unit, bar, conc_unit=None, activity_unit=None, sensitivity=False, log=None
 ):
-    """The solution, its summary in ``time_unit`` and (when asked) the sensitivities of
-    the summary quantities (not for a run with operations: they are those of one stretch).
+    """The solution, its summary in ``time_unit`` and (when asked) its sensitivities.
+
+    The sensitivities are those of the summary quantities; a run with operations has none
+    (they would be those of one stretch).
     """
     from kinetics import solution as sol
     from kinetics.analysis.solution_summary import compute_summary, summary_in_units
@@ -126,7 +134,30 @@ def _solve_and_summarise(
     return result, summary, sensitivities
 
 
-@click.command()
+_SOLVE_HELP = """Solve a scheme exactly on a time grid; print or write the table and the summary.
+
+The summary (half-lives, intermediate maxima, long-time limits...) is computed
+on the exact solution, not read off the grid.  Without --out the summary and
+the concentration table are printed; each --out writes one file, its format
+chosen by the extension.
+
+\b
+Examples:
+  kinetics solve networks/consecutive_intermediate.scheme --until 2h
+  kinetics solve networks/consecutive_intermediate.scheme --until '90 min' --points 91 \\
+      --out table.csv --out table.xlsx --out curves.png
+  kinetics solve networks/decay_pair_branching.scheme --times '0,6,12,24,48 h' --json
+  kinetics solve networks/generator_half_lives.scheme --until 5d --activity MBq
+  kinetics solve networks/consecutive_intermediate.scheme --until 2h --sensitivity
+  kinetics solve networks/generator_daily_elution.scheme --until 10d --out eluates.csv
+
+A scheme with operations (at/every/from lines) is solved exactly stretch by stretch: a
+time of an addition or removal appears twice in the table (just before and just
+after), and a CSV table gets a sibling NAME_events.csv with what each operation moved.
+"""
+
+
+@click.command(help=_SOLVE_HELP)
 @click.argument("scheme_file", type=click.Path(dir_okay=True, path_type=Path))
 @grid_options
 @click.option(
@@ -160,27 +191,7 @@ def solve(
     activity_unit,
     sensitivity,
 ):
-    """Solve a scheme exactly on a time grid; print or write the table and the summary.
-
-    The summary (half-lives, intermediate maxima, long-time limits...) is computed
-    on the exact solution, not read off the grid.  Without --out the summary and
-    the concentration table are printed; each --out writes one file, its format
-    chosen by the extension.
-
-    \b
-    Examples:
-      kinetics solve networks/consecutive_intermediate.scheme --until 2h
-      kinetics solve networks/consecutive_intermediate.scheme --until '90 min' --points 91 \\
-          --out table.csv --out table.xlsx --out curves.png
-      kinetics solve networks/decay_pair_branching.scheme --times '0,6,12,24,48 h' --json
-      kinetics solve networks/generator_half_lives.scheme --until 5d --activity MBq
-      kinetics solve networks/consecutive_intermediate.scheme --until 2h --sensitivity
-      kinetics solve networks/generator_daily_elution.scheme --until 10d --out eluates.csv
-
-    A scheme with operations (at/every/from lines) is solved exactly stretch by stretch: a
-    time of an addition or removal appears twice in the table (just before and just
-    after), and a CSV table gets a sibling NAME_events.csv with what each operation moved.
-    """
+    """Run ``kinetics solve`` (the help text is :data:`_SOLVE_HELP`)."""
     from kinetics.cli.terminal import progress, render_solution
     from kinetics.output.overview import solution_json
 
@@ -259,8 +270,9 @@ def _check_sheet_sizes(paths, n_times: int, scheme) -> None:
 def _write_output(
     path, result, scheme, time_unit, summary, document, species, events_only=False
 ) -> None:
-    """Write one --out file; the format follows the extension (already checked).  With
-    ``events_only``, the sibling CSV of the operations (:func:`events_path`).
+    """Write one --out file; the format follows the extension (already checked).
+
+    With ``events_only``, write the sibling CSV of the operations (:func:`events_path`).
     """
     import pandas as pd
 
@@ -307,7 +319,19 @@ def _write_output(
         raise UsageError(f"unknown output format {suffix!r}")
 
 
-@click.command()
+_REPORT_HELP = """Write a self-contained HTML report: scheme, graph, inputs, summary, plot, table.
+
+The page needs no network access: styles are inline and plots are embedded
+images.  It records the software version, the date and the SHA-256 of the
+scheme file, and carries the caution box of SAFETY.md.
+
+\b
+Example:
+  kinetics report networks/consecutive_intermediate.scheme --until 2h --out report.html
+"""
+
+
+@click.command(help=_REPORT_HELP)
 @click.argument("scheme_file", type=click.Path(dir_okay=True, path_type=Path))
 @grid_options
 @click.option(
@@ -334,16 +358,7 @@ def report(
     log_path,
     activity_unit,
 ):
-    """Write a self-contained HTML report: scheme, graph, inputs, summary, plot, table.
-
-    The page needs no network access: styles are inline and plots are embedded
-    images.  It records the software version, the date and the SHA-256 of the
-    scheme file, and carries the caution box of SAFETY.md.
-
-    \b
-    Example:
-      kinetics report networks/consecutive_intermediate.scheme --until 2h --out report.html
-    """
+    """Run ``kinetics report`` (the help text is :data:`_REPORT_HELP`)."""
     import hashlib
 
     from kinetics.cli.terminal import progress

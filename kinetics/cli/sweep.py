@@ -53,7 +53,9 @@ def _requirement_column(spec: str, plan) -> tuple[str, str]:
 
 
 def _plot_target(spec: str, plan) -> tuple[str, str]:
-    """``'t_max:B'`` -> the summary column of that quantity and species;
+    """The column of the sweep table a ``--plot`` quantity names.
+
+    ``'t_max:B'`` -> the summary column of that quantity and species;
     ``'first_broken:API >= 90 %'`` -> the column of that requirement.
     """
     from kinetics.analysis import BATCH_QUANTITIES

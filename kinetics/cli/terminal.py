@@ -7,7 +7,7 @@ from plain arrays and lists (the command line never needs pandas).
 
 from __future__ import annotations
 
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Literal
 
 from rich.console import Console
 from rich.table import Table
@@ -225,19 +225,23 @@ def _print_counts(report: dict, out: Console) -> None:
         out.print(f"  k from {_num(min(rates))} to {_num(max(rates))} 1/s")
 
 
+def _balance_verdict(balance: dict) -> str:
+    """Balanced (where checked), not balanced, or not checked: the words of the verdict."""
+    if not balance["checked"]:
+        return "not checked (no formulas or molar masses given)"
+    if not balance["ok"]:
+        return "[red]NOT balanced[/red]"
+    verdict = "[green]balanced[/green]"
+    unchecked = [r for r in balance["reactions"] if r["atoms"] == "not checked"]
+    if unchecked:
+        verdict += f" where checked ({len(unchecked)} of {len(balance['reactions'])} "
+        verdict += "reactions not checked)"
+    return verdict
+
+
 def _print_balance(balance: dict, out: Console, brief: bool = False) -> None:
     """The balance verdict, every problem it found, and the mass exchanged with excess."""
-    if not balance["checked"]:
-        verdict = "not checked (no formulas or molar masses given)"
-    elif balance["ok"]:
-        verdict = "[green]balanced[/green]"
-        unchecked = [r for r in balance["reactions"] if r["atoms"] == "not checked"]
-        if unchecked:
-            verdict += f" where checked ({len(unchecked)} of {len(balance['reactions'])} "
-            verdict += "reactions not checked)"
-    else:
-        verdict = "[red]NOT balanced[/red]"
-    out.print(f"mass balance: {verdict}")
+    out.print(f"mass balance: {_balance_verdict(balance)}")
     for r in balance["reactions"]:
         if r["atoms"] == "not checked" and balance["checked"]:
             out.print(f"  line {r['line']}: {_escape(r['equation'])}: {_escape(r['reason'])}")
@@ -295,16 +299,6 @@ def _print_network_counts(net: dict, out: Console) -> None:
             out.print(f"{label}: {len(sizes)}, the largest with {sizes[0]} species")
 
 
-def _cell(value) -> str:
-    if value is None:
-        return "—"
-    if isinstance(value, bool):
-        return "yes" if value else "no"
-    if isinstance(value, float):
-        return f"{value:.6g}"
-    return _escape(str(value))
-
-
 #: Summary columns shown in the terminal (the files carry all of them).
 TERMINAL_SUMMARY = (
     "start",
@@ -325,10 +319,16 @@ def _width(text: str) -> int:
 
 
 def print_fitted(
-    out: Console, headers: list[str], rows: list[list[str]], left: int = 1, align: str = "left"
+    out: Console,
+    headers: list[str],
+    rows: list[list[str]],
+    left: int = 1,
+    align: Literal["left", "right"] = "left",
 ) -> None:
-    """Print a table whose cells are never cut: columns that do not fit the console's width
-    go to a further table below, each part repeating the first ``left`` (label) columns.
+    """Print a table whose cells are never cut, in parts as wide as the console.
+
+    Columns that do not fit the console's width go to a further table below, each part
+    repeating the first ``left`` (label) columns.
 
     Each column is as wide as its widest cell (headers wrap at spaces); only a column wider
     than the console on its own folds its text onto further lines, keeping every character.
@@ -387,8 +387,10 @@ _HEADER_WIDTH = 14
 
 
 def render_summary(summary: dict, time_unit: str, conc_unit: str, out=None) -> None:
-    """Print the summary quantities as tables with units in every header, then the
-    whole-scheme quantities (relaxation times, selectivity...) of :attr:`Summary.scheme`.
+    """Print the summary quantities as tables with units in every header.
+
+    Then the whole-scheme quantities (relaxation times, selectivity...) of
+    :attr:`Summary.scheme`.
     """
     from kinetics.output.summary_text import (
         SUMMARY_COLUMNS,
@@ -462,9 +464,7 @@ def render_solution(
         Sensitivities of the summary quantities, printed ranked
         (:func:`kinetics.analysis.summary_sensitivity.ranked`).
     """
-    from kinetics.analysis.summary_sensitivity import ranked
-    from kinetics.output.summary_text import HINGE_HEADERS, activity_lines, hinge_rows
-    from kinetics.units import time_factor
+    from kinetics.output.summary_text import activity_lines
 
     out = console()
     hidden = 0
@@ -485,14 +485,39 @@ def render_solution(
         for label, text in lines:
             out.print(f"  {_escape(label)}: {_escape(text)}")
     if sensitivity is not None:
-        out.print("[bold]What this answer hinges on[/bold] (exact ∂ln Q/∂ln p, largest first)")
-        rows = hinge_rows(ranked(sensitivity))
-        if rows:
-            print_fitted(out, list(HINGE_HEADERS), rows, left=2)
-        else:
-            out.print("  no summary quantity depends on a parameter")
-    # the table straight from the arrays (the command line never needs pandas)
-    shown_species = species or solution.species
+        _render_hinges(sensitivity, out)
+    _render_table(solution, time_unit, species or solution.species, max_rows, out)
+    if hidden:
+        out.print(
+            f"{hidden} more species not shown; choose columns with --species, "
+            "or write them all with --out table.csv"
+        )
+    if solution.after is not None:
+        render_events(solution, time_unit, out)
+
+
+def _render_hinges(sensitivity: dict, out: Console) -> None:
+    """Print the sensitivities of the summary quantities, largest first."""
+    from kinetics.analysis.summary_sensitivity import ranked
+    from kinetics.output.summary_text import HINGE_HEADERS, hinge_rows
+
+    out.print("[bold]What this answer hinges on[/bold] (exact ∂ln Q/∂ln p, largest first)")
+    rows = hinge_rows(ranked(sensitivity))
+    if rows:
+        print_fitted(out, list(HINGE_HEADERS), rows, left=2)
+    else:
+        out.print("  no summary quantity depends on a parameter")
+
+
+def _render_table(
+    solution: Solution, time_unit: str, shown_species: list[str], max_rows: int, out: Console
+) -> None:
+    """Print the concentration table, thinned to about ``max_rows`` rows (first and last kept).
+
+    The table is made straight from the arrays (the command line never needs pandas).
+    """
+    from kinetics.units import time_factor
+
     unit = solution.concentration_unit
     headers = [f"time [{time_unit}]"] + [f"{name} [{unit}]" for name in shown_species]
     columns = [solution.times / time_factor(time_unit)]
@@ -514,13 +539,6 @@ def render_solution(
     print_fitted(out, headers, cells, align="right")
     if any(after):
         out.print("t+ : just after the operations at time t (the row before is just before them)")
-    if hidden:
-        out.print(
-            f"{hidden} more species not shown; choose columns with --species, "
-            "or write them all with --out table.csv"
-        )
-    if solution.after is not None:
-        render_events(solution, time_unit, out)
 
 
 def render_events(solution: Solution, time_unit: str, out: Console, max_rows: int = 25) -> None:
@@ -552,11 +570,14 @@ def render_events(solution: Solution, time_unit: str, out: Console, max_rows: in
 
 
 def _cell(value) -> str:
+    """One table cell: "—" for no value, yes/no, six significant digits, markup escaped."""
     if value is None:
-        return ""
+        return "—"
+    if isinstance(value, bool):
+        return "yes" if value else "no"
     if isinstance(value, float):
         return f"{value:.6g}"
-    return str(value)
+    return _escape(str(value))
 
 
 def _escape(text: str) -> str:

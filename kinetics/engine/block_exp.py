@@ -55,6 +55,7 @@ _EPS_SINGLE = 2.0**-96  # double-double exponential of a scalar (conservative)
 
 
 def gamma(k: float) -> float:
+    """The usual bound :math:`k u / (1 - k u)` of ``k`` roundings, ``u`` the unit roundoff."""
     return k * UNIT / (1.0 - k * UNIT)
 
 
@@ -158,15 +159,17 @@ class Layout:
         if np.any(self.ql[self.qh == sigma] > 0):
             sigma = float(np.nextafter(sigma, np.inf))
         self.sigma = sigma  # at least every outflow q_i (exactly)
-        self._shifted = None
+        self._shifted: tuple[scipy.sparse.csc_array, float, int] | None = None  # see shifted
         single = sizes == 1
         self.singles = self.starts[:-1][single]
         pairs = zip(self.starts[:-1].tolist(), sizes.tolist(), strict=True)
         self.groups = [(s, z) for s, z in pairs if z > 1]
 
-    def shifted(self):
-        """``B = N + diag(sigma - q)`` (CSC, nonnegative, diagonal rounded up), its 1-norm
-        and its largest number of nonzeros in a row.
+    def shifted(self) -> tuple[scipy.sparse.csc_array, float, int]:
+        """The shifted matrix ``B = N + diag(sigma - q)``, its 1-norm and its widest row.
+
+        ``B`` is CSC, nonnegative, its diagonal rounded up; the widest row is the largest
+        number of nonzeros in a row.  Made once and kept.
         """
         if self._shifted is None:
             dh, _ = dd.add(self.sigma, 0.0, -self.qh, -self.ql)

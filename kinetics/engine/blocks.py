@@ -118,8 +118,16 @@ from kinetics.engine.block_exp import (
     power,
     taylor_plan,
 )
+from kinetics.engine.plan import PATTERN_CACHE
 
-__all__ = ["RATES", "block_order", "prefers_blocks", "propagate_blocks", "route_costs"]
+__all__ = [
+    "RATES",
+    "block_order",
+    "block_sizes",
+    "prefers_blocks",
+    "propagate_blocks",
+    "route_costs",
+]
 
 _TRUNC_REL = 2.0**-40  # a truncation bound above this fraction of an entry is absolute
 
@@ -332,8 +340,9 @@ class _Walk:
         return yh, 0.0, 0.0
 
     def bound(self, z: np.ndarray, rel: float, absolute: float, residual: float) -> float:
-        """Relative bound of every entry of the state at a grid time whose exact value is
-        above the floor.
+        """Relative bound of every entry above the floor of the state at a grid time.
+
+        An entry counts when its exact value is above the floor.
 
         ``z`` is the computed state; ``rel``, ``absolute``: what a correction step to
         this time added; ``residual`` [s]: what the grid time still exceeds the
@@ -437,17 +446,19 @@ def propagate_blocks(K, c0, times, feed, *, K_low=None, feed_low=None, floor=Non
     tiles this small spends its time synchronising (measured on the 2,000-species
     chain: 4.9 s with two OpenBLAS threads, 0.9 s with one).
     """
-    from threadpoolctl import threadpool_limits
+    from kinetics.engine.threads import one_blas_thread
 
     if floor is None:
         from kinetics.engine.plan import TINY as floor
-    with threadpool_limits(limits=1, user_api="blas"):
+    with one_blas_thread():
         K_low, feed_low = _low_parts(K_low, feed_low, K.shape[0], feed is not None)
         return _propagate(K, c0, times, feed, K_low, feed_low, float(floor))
 
 
 def _low_parts(K_low, feed_low, n: int, fed: bool):
-    """Checked low parts: sparse ``K_low`` kept sparse (shape, finite), others by
+    """Checked low parts of the rate matrix and the feed.
+
+    A sparse ``K_low`` is kept sparse (shape, finite); the others are checked by
     :func:`kinetics.checks.low_parts`.
     """
     from kinetics.engine import checks
@@ -547,8 +558,6 @@ def route_costs(K, times, precision: str = "auto") -> dict[str, float]:
           :math:`n^2/2` for the coupling, :math:`(m+1)(\\mathrm{nnz}+n)` for the
           truncation bound and the interpreter's overhead; plus the set-up.
     """
-    from scipy.sparse.csgraph import connected_components
-
     n = K.shape[0]
     most = _dense_most(n, len(times))
     if most < RATES["fixed"]:
@@ -557,30 +566,65 @@ def route_costs(K, times, precision: str = "auto") -> dict[str, float]:
     positive = t[t > 0]
     if positive.size == 0:
         return {"dense": 0.0, "blocks": math.inf}
-    K = scipy.sparse.csr_array(K)
     p = positive.size
     h = float(positive.max()) / p
     sigma = float(max(-K.diagonal().min(initial=0.0), 0.0))
-    jd, md, _ = taylor_plan(sigma, h, 1)
-    dense = RATES["dd"] * RATES["dense"] * n**3 * (2 * math.sqrt(md) + jd + math.log2(p + 1))
+    j, m, y = taylor_plan(sigma, h, 1)
+    dense = RATES["dd"] * RATES["dense"] * n**3 * (2 * math.sqrt(m) + j + math.log2(p + 1))
     if precision == "double":
         dense *= RATES["double"]
-    count, labels = connected_components(K, directed=True, connection="strong")
-    b = np.bincount(labels, minlength=count).astype(float)
-    coo = K.tocoo()
-    inside = labels[coo.row] == labels[coo.col]
-    z = np.bincount(labels[coo.row[inside]], minlength=count).astype(float)
-    j, m, y = taylor_plan(sigma, h, 1)
-    big = b > 1
-    b, z = b[big], z[big]
+    b, z, nnz = block_sizes(K)
     mb = dd_degree(y) + 10
     dd = RATES["dd"] * float(np.sum(mb * (b**2 + z * b) + (j + 1) * b**3 + 2 * p * b**2))
     dd += RATES["blas"] * float(np.sum((mb + 1) * z * b))
-    nnz = float(K.nnz)
     step = RATES["step"] + RATES["gemv"] * n**2 / 2 + RATES["scatter"] * (m + 1) * (nnz + n)
     blocks = (RATES["fixed"] + dd + RATES["blas"] * j * n**3 / 6
               + RATES["scatter"] * m * nnz * n / 2 + p * step)  # fmt: skip
     return {"dense": dense, "blocks": blocks}
+
+
+def block_sizes(K) -> tuple[np.ndarray, np.ndarray, float]:
+    """Sizes of the strongly connected blocks of ``K``, and its number of nonzeros.
+
+    ``b`` is the number of species and ``z`` the inner nonzeros of each block of two or
+    more species; the count of nonzeros is of ``K`` itself (dense or sparse).
+
+    They depend on the pattern only and are remembered for :data:`PATTERN_CACHE`
+    patterns: finding the blocks costs more than a small scheme's whole solve.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> K = np.array([[-1.0, 2.0, 0.0], [1.0, -2.0, 0.0], [0.0, 0.0, -3.0]])
+    >>> b, z, nnz = block_sizes(K)
+    >>> b.tolist(), z.tolist(), nnz
+    ([2.0], [4.0], 5.0)
+    """
+    from scipy.sparse.csgraph import connected_components
+
+    if scipy.sparse.issparse(K):
+        K = scipy.sparse.csr_array(K, copy=True)
+        K.sum_duplicates()
+        key = b"s" + K.indptr.tobytes() + K.indices.tobytes()
+    else:
+        K = np.asarray(K)
+        key = b"d" + K.shape[0].to_bytes(4, "little") + np.packbits(K != 0).tobytes()
+    found = _BLOCK_SIZES.get(key)
+    if found is None:
+        K = scipy.sparse.csr_array(K)
+        count, labels = connected_components(K, directed=True, connection="strong")
+        b = np.bincount(labels, minlength=count).astype(float)
+        coo = K.tocoo()
+        inside = labels[coo.row] == labels[coo.col]
+        z = np.bincount(labels[coo.row[inside]], minlength=count).astype(float)
+        big = b > 1
+        if len(_BLOCK_SIZES) >= PATTERN_CACHE:
+            _BLOCK_SIZES.clear()
+        found = _BLOCK_SIZES[key] = (b[big], z[big], float(coo.nnz))
+    return found
+
+
+_BLOCK_SIZES: dict[bytes, tuple[np.ndarray, np.ndarray, float]] = {}
 
 
 def _dense_most(n: int, points: int) -> float:

@@ -189,6 +189,7 @@ def mv(Fh, Fl, vh, vl, is_dd):
 
 
 def gamma_stack(N: int, is_dd):
+    """Relative bound of one product of each member, by its route (double-double or not)."""
     return np.where(is_dd, product_error(N, True), product_error(N, False))
 
 
@@ -204,37 +205,22 @@ def propagate_stack(A, Al, x0, times, precision: str, species: int):
 
     if A.shape[-1] ** 3 < kernels.BLAS_FROM:
         return _run_stack(A, Al, x0, times, precision, species)
-    from threadpoolctl import threadpool_limits
+    from kinetics.engine.threads import one_blas_thread
 
     # the kernels call BLAS for plain-double products of this size; threaded BLAS on
     # these matrices was 5-40 times slower on two cores (threads wait for each other)
-    with threadpool_limits(limits=1, user_api="blas"):
+    with one_blas_thread():
         return _run_stack(A, Al, x0, times, precision, species)
 
 
 def _run_stack(A, Al, x0, times, precision: str, species: int):
+    """:func:`propagate_stack` itself: leading zeros, then a uniform grid or each interval."""
     from kinetics.engine import kernels
 
     b, N, _ = A.shape
     p = times.size
     X = np.empty((b, p, N))  # every row is written below (fresh pages are costly to zero)
     bound = np.zeros((b, p))
-    if p == 0:
-        return X, bound, precision
-    # state as double-double column blocks (b, N, 1)
-    vh = x0[:, :, None].copy()
-    vl = np.zeros_like(vh)
-    cur_bound = np.zeros(b)
-    labels = set()
-
-    def exp_of(h, columns=1):
-        Fh, Fl, eps, is_dd = expm_stack(A, Al, np.full(b, h), precision, columns=columns)
-        if np.any(is_dd):
-            labels.add("double-double")
-        if not np.all(is_dd):
-            labels.add("double")
-        return Fh, Fl, eps, is_dd
-
     start = 0
     # leading zeros: exactly c0
     while start < p and times[start] == 0.0:
@@ -242,48 +228,108 @@ def _run_stack(A, Al, x0, times, precision: str, species: int):
         start += 1
     if start == p:
         return X, bound, precision
+    exps = _StackExponentials(A, Al, precision)
     residual = np.zeros(p)  # times[k] minus the exact time the route reaches
     dt = uniform_step(times[start:]) if p - start >= 3 else None
     if dt is not None:
-        t_first = times[start]
-        # a grid dt, 2 dt, ... (the usual linspace from 0) needs one exponential
-        skip = 1 if abs(t_first - dt) <= 4 * U * times[-1] else 0
-        M = p - start - 1 + skip
-        if not skip:
-            Fh, Fl, eps, is_dd = exp_of(t_first)
-            vh, vl = mv(Fh, Fl, vh, vl, is_dd)
-            cur_bound = compose(eps, gamma_stack(N, is_dd))
-        Fh, Fl, eps, is_dd = exp_of(dt, columns=M + 1)
-        # states F^k v for k = 0..M (one product each), their bounds and time residuals
-        kernels.grid(
-            Fh, Fl, vh[..., 0].copy(), vl[..., 0].copy(), M + 1, skip, np.asarray(is_dd), X,
-            start, eps, gamma_stack(N, is_dd), cur_bound, bound, times, t_first, dt, residual,
-        )  # fmt: skip
+        _uniform_grid(exps, x0, times, start, dt, X, bound, residual)
     else:
-        cache: dict[float, tuple] = {}
-        reached = (0.0, 0.0)  # exact time reached so far, double-double
-        t_prev = 0.0
-        for k in range(start, p):
-            h = times[k] - t_prev
-            if h > 0:
-                if h not in cache:
-                    cache[h] = exp_of(h, columns=p - start + 1)  # states ahead: all of them
-                Fh, Fl, eps, is_dd = cache[h]
-                vh, vl = mv(Fh, Fl, vh, vl, is_dd)
-                cur_bound = compose(cur_bound, compose(eps, gamma_stack(N, is_dd)))
-                hi, lo = kernels.two_sum(reached[0], h)
-                lo += reached[1]
-                reached = (hi + lo, lo - ((hi + lo) - hi))
-            np.maximum((vh + vl)[:, :, 0], 0.0, out=X[:, k])
-            bound[:, k] = cur_bound
-            residual[k] = (times[k] - reached[0]) - reached[1]
-            t_prev = times[k]
+        _each_interval(exps, x0, times, start, X, bound, residual)
     if residual.any():
         gamma = (N + 2) * U
         kernels.residual_corrections(A, X, residual, species, gamma, TINY, bound)
     # the final rounding of hi + lo to double
     bound[:, start:] = compose(bound[:, start:], U)
-    label = "+".join(sorted(labels)) if labels else precision
-    # the grid kernel and the interval loop above clip at zero as they write (a sum
-    # hi + lo of nonnegative products can round to -0.0 or a tiny negative lo)
-    return X, bound, label
+    # the grid kernel and the interval loop clip at zero as they write (a sum hi + lo
+    # of nonnegative products can round to -0.0 or a tiny negative lo)
+    return X, bound, exps.label()
+
+
+class _StackExponentials:
+    """The exponentials of one stack over steps of given lengths, and the routes they took."""
+
+    def __init__(self, A, Al, precision: str) -> None:
+        self.A = A
+        self.Al = Al
+        self.precision = precision
+        self.routes: set[str] = set()
+
+    def of(self, h: float, columns: int = 1):
+        """``(Fh, Fl, eps, is_dd)`` of :func:`expm_stack` for the step ``h`` [s]."""
+        b = self.A.shape[0]
+        Fh, Fl, eps, is_dd = expm_stack(
+            self.A, self.Al, np.full(b, h), self.precision, columns=columns
+        )
+        if np.any(is_dd):
+            self.routes.add("double-double")
+        if not np.all(is_dd):
+            self.routes.add("double")
+        return Fh, Fl, eps, is_dd
+
+    def label(self) -> str:
+        """The routes taken (``double``, ``double-double`` or both), or the precision asked."""
+        return "+".join(sorted(self.routes)) if self.routes else self.precision
+
+
+def _uniform_grid(exps: _StackExponentials, x0, times, start: int, dt: float, X, bound, residual):
+    """The states at a uniform grid ``times[start:]`` of step ``dt``, in place.
+
+    One exponential of ``dt`` (and one of the first time when the grid does not start at
+    ``dt``); the states :math:`F^k v`, their bounds and time residuals come from one call
+    of the grid kernel.
+    """
+    from kinetics.engine import kernels
+
+    b, N = x0.shape
+    p = times.size
+    # state as double-double column blocks (b, N, 1)
+    vh = x0[:, :, None].copy()
+    vl = np.zeros_like(vh)
+    cur_bound = np.zeros(b)
+    t_first = times[start]
+    # a grid dt, 2 dt, ... (the usual linspace from 0) needs one exponential
+    skip = 1 if abs(t_first - dt) <= 4 * U * times[-1] else 0
+    M = p - start - 1 + skip
+    if not skip:
+        Fh, Fl, eps, is_dd = exps.of(t_first)
+        vh, vl = mv(Fh, Fl, vh, vl, is_dd)
+        cur_bound = compose(eps, gamma_stack(N, is_dd))
+    Fh, Fl, eps, is_dd = exps.of(dt, columns=M + 1)
+    # states F^k v for k = 0..M (one product each), their bounds and time residuals
+    kernels.grid(
+        Fh, Fl, vh[..., 0].copy(), vl[..., 0].copy(), M + 1, skip, np.asarray(is_dd), X,
+        start, eps, gamma_stack(N, is_dd), cur_bound, bound, times, t_first, dt, residual,
+    )  # fmt: skip
+
+
+def _each_interval(exps: _StackExponentials, x0, times, start: int, X, bound, residual):
+    """The states at any grid ``times[start:]``, one step per interval, in place.
+
+    An exponential per distinct interval length (kept); the time reached is summed in
+    double-double, so that ``residual`` holds what each grid time still exceeds it by.
+    """
+    from kinetics.engine import kernels
+
+    b, N = x0.shape
+    p = times.size
+    vh = x0[:, :, None].copy()  # state as double-double column blocks (b, N, 1)
+    vl = np.zeros_like(vh)
+    cur_bound = np.zeros(b)
+    cache: dict[float, tuple] = {}
+    reached = (0.0, 0.0)  # exact time reached so far, double-double
+    t_prev = 0.0
+    for k in range(start, p):
+        h = times[k] - t_prev
+        if h > 0:
+            if h not in cache:
+                cache[h] = exps.of(h, columns=p - start + 1)  # states ahead: all of them
+            Fh, Fl, eps, is_dd = cache[h]
+            vh, vl = mv(Fh, Fl, vh, vl, is_dd)
+            cur_bound = compose(cur_bound, compose(eps, gamma_stack(N, is_dd)))
+            hi, lo = kernels.two_sum(reached[0], h)
+            lo += reached[1]
+            reached = (hi + lo, lo - ((hi + lo) - hi))
+        np.maximum((vh + vl)[:, :, 0], 0.0, out=X[:, k])
+        bound[:, k] = cur_bound
+        residual[k] = (times[k] - reached[0]) - reached[1]
+        t_prev = times[k]

@@ -201,8 +201,9 @@ def negative_offdiagonal(K):
 
 @njit(**_HELPER)
 def copy(A, B):
-    """``B = A`` for 2-D arrays, by explicit loops (a slice assignment costs numba seconds
-    of compilation per call site).
+    """``B = A`` for 2-D arrays, by explicit loops.
+
+    A slice assignment would cost numba seconds of compilation per call site.
     """
     n, m = A.shape
     for i in range(n):

@@ -254,7 +254,7 @@ def propagate_certified(
     Kl = checks.low_parts(K_low, (n, n), "K_low")
     fl = None if f is None else checks.low_parts(feed_low, (n,), "feed_low")
     A = augment(K[None], None if f is None else f[None])
-    Al = augment(Kl[None], None if f is None else fl[None])
+    Al = augment(Kl[None], None if fl is None else fl[None])
     x0 = c0 if f is None else np.append(c0, 1.0)
     X, bound, label = propagate_stack(
         np.ascontiguousarray(A), np.ascontiguousarray(Al), x0[None], times, precision, n

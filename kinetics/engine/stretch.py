@@ -1,5 +1,6 @@
-"""Stretches of constant conditions applied to many start vectors: one exponential per
-distinct length, kept (the timeline of operations uses this).
+"""Stretches of constant conditions applied to many start vectors.
+
+One exponential per distinct length, kept (the timeline of operations uses this).
 """
 
 from __future__ import annotations
@@ -66,7 +67,8 @@ class StretchPropagator:
         if scipy.sparse.issparse(K) and not self._large:
             K = K.toarray()
         self._inputs = (K, f, K_low, None if f is None else feed_low)
-        self._A = self._Al = None
+        self._A: np.ndarray | None = None
+        self._Al: np.ndarray | None = None
         if not self._large:
             self._A, self._Al = self._augmented()
 
@@ -78,19 +80,22 @@ class StretchPropagator:
         Kl = checks.low_parts(K_low, (n, n), "K_low")
         fl = None if f is None else checks.low_parts(feed_low, (n,), "feed_low")
         A = np.ascontiguousarray(augment(Kd[None], None if f is None else f[None]))
-        return A, np.ascontiguousarray(augment(Kl[None], None if f is None else fl[None]))
+        return A, np.ascontiguousarray(augment(Kl[None], None if fl is None else fl[None]))
 
     def _exponentials(self, lengths: np.ndarray, remember: bool):
         """``(Fh, Fl, eps, is_dd)`` stacked for ``lengths``, computing only new lengths."""
-        N = self._A.shape[-1]
+        A0, Al0 = self._A, self._Al
+        assert A0 is not None  # the pair of the dense route, set in __init__
+        assert Al0 is not None
+        N = A0.shape[-1]
         values, which = distinct(lengths)
         listed = values.tolist()
         new = [i for i, v in enumerate(listed) if v > 0.0 and v not in self._kept]
         Fh, Fl = np.empty((len(listed), N, N)), np.zeros((len(listed), N, N))
         eps, is_dd = np.zeros(len(listed)), np.zeros(len(listed), dtype=bool)
         if new:
-            A = np.ascontiguousarray(np.broadcast_to(self._A, (len(new), N, N)))
-            Al = np.ascontiguousarray(np.broadcast_to(self._Al, (len(new), N, N)))
+            A = np.ascontiguousarray(np.broadcast_to(A0, (len(new), N, N)))
+            Al = np.ascontiguousarray(np.broadcast_to(Al0, (len(new), N, N)))
             Fh[new], Fl[new], eps[new], is_dd[new] = expm_stack(A, Al, values[new], self.precision)
         for i, v in enumerate(listed):
             if v in self._kept:

@@ -104,8 +104,10 @@ def _species_params(scheme, params) -> dict[str, int]:
 
 
 def statistics(model, runs, params, preds, lin, best, candidates, polished) -> dict[str, Any]:
-    """Points, degrees of freedom, sums of squares, R² and chi-square error levels per
-    species, the condition number and the search's convergence.
+    """The statistics of a fit: per species, then the condition number and convergence.
+
+    Per species: points, degrees of freedom, sums of squares, R² and chi-square error
+    levels.
 
     ``preds`` are the model values at the data points (one array per run); ``lin`` the
     optimum's :class:`kinetics.fit.estimation.Linearised`; ``best``, ``candidates`` and
@@ -211,6 +213,7 @@ class FitState:
 
     @property
     def params(self) -> list[Parameter]:
+        """The free parameters, in the order of the coordinates θ."""
         return self.model.params
 
     @property
@@ -306,8 +309,10 @@ def _identifiability_warnings(state: FitState) -> list[str]:
 
 
 def _parameter_warnings(state: FitState, j: int) -> list[str]:
-    """Parameter ``j``: at the end of the search range, not significant, an open or a
-    markedly non-linear profile interval.
+    """The warnings about parameter ``j`` alone, in a fixed order.
+
+    At the end of the search range, not significant, an open or a markedly non-linear
+    profile interval.
     """
     out: list[str] = []
     q = state.params[j]
@@ -373,62 +378,83 @@ def _unmeasured_intermediates(scheme, measured) -> list[str]:
 
 def _plausibility(scheme, model, runs, params, theta) -> list[str]:
     """Optima at the edge of physical plausibility (extreme ratios, invisible time scales)."""
-    out = []
+    out: list[str] = []
     t_last = max(float(r.times[-1]) for r in runs)
     positive = [float(r.times[r.times > 0][0]) for r in runs if np.any(r.times > 0)]
     t_first = min(positive) if positive else 0.0
-    all_rates = []
-    for run in runs:
-        rates, *_ = model.run_state(run, theta, False)
-        all_rates.append(rates)
-    rates = np.max(np.array(all_rates), axis=0)
+    rates = np.max(np.array([model.run_state(run, theta, False)[0] for run in runs]), axis=0)
+    fast = _instantaneous(scheme, params, rates)
     seen = set()
-    fast = set()
-    for q in params:
-        own = np.array([st.constant == q.target for st in scheme.steps])
-        other = rates[~own]
-        other = other[other > 0]
-        if q.kind != "start" and np.any(own) and other.size:
-            if float(np.max(rates[own])) > RATIO_LIMIT * float(np.max(other)):
-                fast.add(q.target)
     for q in params:
         if q.kind == "start" or q.target in seen:
             continue
         seen.add(q.target)
-        own = np.array([st.constant == q.target for st in scheme.steps])
+        own = _steps_of(scheme, q.target)
         if not np.any(own):
             continue
         k = float(np.max(rates[own]))
-        other = rates[~own]
-        other = other[other > 0]
-        label = q.target
-        if other.size and k > RATIO_LIMIT * float(np.max(other)):
-            out.append(
-                f"{label} came out more than a million times larger than every other constant "
-                f"({k:.3g} 1/s): the step is effectively instantaneous for these data, which "
-                "fix only a lower bound for it."
-            )
-        elif (
-            other.size
-            and k < float(np.min(other)) / RATIO_LIMIT
-            and not any(
-                st.constant in fast for st, o in zip(scheme.steps, own, strict=True) if not o
-            )
-        ):
-            out.append(
-                f"{label} came out more than a million times smaller than every other constant "
-                f"({k:.3g} 1/s): the step is effectively absent from these data, which fix "
-                "only an upper bound for it."
-            )
-        if k * t_last < 1e-3:
-            out.append(
-                f"{label} is too slow to be seen in the measured window "
-                f"({label} × last time = {k * t_last:.2g}): less than 0.1 % of conversion "
-                "by this step; the data give only an upper bound."
-            )
-        if t_first > 0 and k * t_first > 50.0:
-            out.append(
-                f"{label} is so fast that its step is complete before the first measurement "
-                f"({label} × first time = {k * t_first:.2g}): the data give only a lower bound."
-            )
+        out += _ratio_notes(scheme, q.target, k, rates, own, fast)
+        out += _window_notes(q.target, k, t_first, t_last)
+    return out
+
+
+def _steps_of(scheme, constant: str) -> np.ndarray:
+    """Mask of the steps whose rate constant is ``constant``."""
+    return np.array([st.constant == constant for st in scheme.steps])
+
+
+def _other_rates(rates: np.ndarray, own: np.ndarray) -> np.ndarray:
+    """The rates [1/s] above 0 of the steps outside the mask ``own``."""
+    other = rates[~own]
+    return other[other > 0]
+
+
+def _instantaneous(scheme, params, rates: np.ndarray) -> set[str]:
+    """The free constants more than :data:`RATIO_LIMIT` times faster than every other step."""
+    fast = set()
+    for q in params:
+        own = _steps_of(scheme, q.target)
+        other = _other_rates(rates, own)
+        if q.kind != "start" and np.any(own) and other.size:
+            if float(np.max(rates[own])) > RATIO_LIMIT * float(np.max(other)):
+                fast.add(q.target)
+    return fast
+
+
+def _ratio_notes(scheme, label: str, k: float, rates, own, fast: set[str]) -> list[str]:
+    """A constant ``k`` [1/s] a million times above or below every other one."""
+    other = _other_rates(rates, own)
+    if other.size and k > RATIO_LIMIT * float(np.max(other)):
+        return [
+            f"{label} came out more than a million times larger than every other constant "
+            f"({k:.3g} 1/s): the step is effectively instantaneous for these data, which "
+            "fix only a lower bound for it."
+        ]
+    if (
+        other.size
+        and k < float(np.min(other)) / RATIO_LIMIT
+        and not any(st.constant in fast for st, o in zip(scheme.steps, own, strict=True) if not o)
+    ):
+        return [
+            f"{label} came out more than a million times smaller than every other constant "
+            f"({k:.3g} 1/s): the step is effectively absent from these data, which fix "
+            "only an upper bound for it."
+        ]
+    return []
+
+
+def _window_notes(label: str, k: float, t_first: float, t_last: float) -> list[str]:
+    """A constant ``k`` [1/s] too slow for the measured window, or over before it starts."""
+    out = []
+    if k * t_last < 1e-3:
+        out.append(
+            f"{label} is too slow to be seen in the measured window "
+            f"({label} × last time = {k * t_last:.2g}): less than 0.1 % of conversion "
+            "by this step; the data give only an upper bound."
+        )
+    if t_first > 0 and k * t_first > 50.0:
+        out.append(
+            f"{label} is so fast that its step is complete before the first measurement "
+            f"({label} × first time = {k * t_first:.2g}): the data give only a lower bound."
+        )
     return out

@@ -28,6 +28,8 @@ from .model import WEIGHTS, Model, Parameter, as_runs, build_runs, initial_value
 from .result import Estimate, FitResult, engine_predictions, make_result
 
 if TYPE_CHECKING:
+    from scipy.optimize import OptimizeResult
+
     from ..scheme import Scheme
 
 __all__ = [
@@ -171,8 +173,10 @@ class Search:
 
 
 def _relevant_cost(model, candidates, n_points: int, p: int) -> float:
-    """Twice the cost beyond which an optimum cannot matter: outside the joint 95 % region
-    of the best point (F-based, Bates & Watts 1988, eq. 2.44).
+    """Twice the cost beyond which an optimum cannot matter.
+
+    Such an optimum lies outside the joint 95 % region of the best point (F-based, Bates &
+    Watts 1988, eq. 2.44).
     """
     import scipy.stats
 
@@ -198,7 +202,7 @@ def _search(model, params, starts, seed, tol, jacobian, max_evaluations) -> Sear
     ]
     candidates.sort(key=lambda r: r.cost)
     relevant = _relevant_cost(model, candidates, model.n_points, len(params))
-    polished = []
+    polished: list[tuple[OptimizeResult, OptimizeResult]] = []  # (result, loose result)
     for res in candidates:
         if polished and 2.0 * res.cost > relevant:
             break
@@ -275,8 +279,9 @@ class Linearised:
 
 
 def _linearised(model, params, search: Search) -> Linearised:
-    """The exact Jacobian at the optimum (also for finite-difference searches) and the
-    covariance it gives.
+    """The exact Jacobian at the optimum and the covariance it gives.
+
+    The Jacobian is exact also for finite-difference searches.
     """
     import scipy.stats
 
@@ -521,8 +526,10 @@ def _model(scheme, data, free, weights, engine) -> tuple[Model, list[Parameter],
 
 
 def _statistics(model, params, search: Search, lin: Linearised, evaluations_search: int):
-    """Statistics at the optimum, residuals recomputed with the entrywise engine on the
-    fitted scheme's exact constants; the data − model tables and weighted residuals.
+    """Statistics at the optimum, the data − model tables and the weighted residuals.
+
+    The residuals are recomputed with the entrywise engine on the fitted scheme's exact
+    constants.
     """
     runs = model.runs
     engine_pred, residual_tables = engine_predictions(model.scheme, params, lin.si, runs)

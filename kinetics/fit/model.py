@@ -28,8 +28,8 @@ from ..measurements import (
     read_measurements,
 )
 from ..parameters import FIT_WORDS, Target
+from ..rate_constants import arrhenius_pairs
 from ..ratematrix import rate_pattern, step_rates
-from ..scheme import arrhenius_pairs
 from ..units import GAS_CONSTANT, time_factor
 
 if TYPE_CHECKING:
@@ -106,8 +106,10 @@ def parse_free(free: str | Sequence[str], scheme: Scheme) -> list[Parameter]:
 
 
 def _check_free_quantity(scheme: Scheme, p: Parameter) -> None:
-    """A named quantity of an operation can be freed when it is positive and no part
-    removed (a fit searches its logarithm, which a part above 100 % would leave).
+    """Refuse to free a named quantity of an operation unless it is positive and no part.
+
+    A part removed cannot be freed: a fit searches the logarithm of the quantity, which a
+    part above 100 % would leave.
     """
     if not p.nominal > 0:
         raise UsageError(
@@ -130,9 +132,10 @@ def _check_free_quantity(scheme: Scheme, p: Parameter) -> None:
 
 
 def scheme_with_estimates(scheme, params, si, conditions) -> Scheme:
-    """The scheme with fitted values ``si`` (internal units) and a run's conditions
-    (``temperature``, ``start:S``, constants by name) (:func:`kinetics.parameters.
-    scheme_with`).
+    """The scheme with fitted values ``si`` (internal units) and a run's conditions.
+
+    The conditions are ``temperature``, ``start:S`` and constants by name; see
+    :func:`kinetics.parameters.scheme_with`.
     """
     given = {k: v for k, v in conditions.items() if k in scheme.constants}
     initial = {k[6:]: v for k, v in conditions.items() if k.startswith("start:")}
@@ -147,8 +150,9 @@ def scheme_with_estimates(scheme, params, si, conditions) -> Scheme:
 
 
 def run_values(scheme: Scheme, times: np.ndarray) -> np.ndarray:
-    """Concentrations of a scheme with operations at ``times`` [s]: at a time of an
-    operation, the value just after it (right-continuous), shape (times, species).
+    """Concentrations of a scheme with operations at ``times`` [s], shape (times, species).
+
+    At a time of an operation, the value just after it (right-continuous).
     """
     from ..solution import solve
 
@@ -158,6 +162,8 @@ def run_values(scheme: Scheme, times: np.ndarray) -> np.ndarray:
 
 @dataclass
 class Run:
+    """One data set as the model sees it: residual indices, weights and conditions."""
+
     data: Measurements
     times: np.ndarray  # unique model times [s]
     t_index: np.ndarray  # per residual: index into times
@@ -202,9 +208,11 @@ class Model:
 
     # -- coordinates ------------------------------------------------------------------
     def scale(self, j: int) -> float | None:
-        """The unit of a linear coordinate θ_j [SI]: R T_ref for an activation energy, the
-        size of the file's value for a named quantity not above 0 (an activation
-        entropy); None for the logarithmic coordinates of every other parameter.
+        """The unit of a linear coordinate θ_j [SI]; None for a logarithmic one.
+
+        R T_ref for an activation energy, the size of the file's value for a named
+        quantity not above 0 (an activation entropy); every other parameter has a
+        logarithmic coordinate.
         """
         p = self.params[j]
         if p.kind == "energy":
@@ -214,6 +222,7 @@ class Model:
         return abs(p.nominal) if math.isfinite(p.nominal) and p.nominal != 0 else 1.0
 
     def theta_of(self, values_si: dict[str, float]) -> np.ndarray:
+        """The coordinates θ of parameter values given in SI, by name."""
         out = []
         for j, p in enumerate(self.params):
             v, scale = values_si[p.name], self.scale(j)
@@ -231,6 +240,7 @@ class Model:
         return np.array([self.si_of(j, t) for j, t in enumerate(theta)])
 
     def dsi_dtheta(self, theta) -> np.ndarray:
+        """The derivative of each parameter's SI value with respect to its coordinate."""
         si = self.si_values(theta)
         return np.array([v if self.scale(j) is None else self.scale(j) for j, v in enumerate(si)])
 
@@ -254,32 +264,49 @@ class Model:
                 c0[i] = si[j]
                 dc0[j, i] = si[j]  # d c0 / d ln c0
         for c, parts in arrhenius.items():
-            law = self.scheme.constants[self.const_names[c]].arrhenius
-            hi, _ = arrhenius_pairs(  # the one Arrhenius law, exact for the values given
-                law,
-                run.temperature,
-                prefactor=si[parts["prefactor"]] if "prefactor" in parts else None,
-                energy=si[parts["energy"]] if "energy" in parts else None,
-            )
-            k[c] = float(hi)
-            if "prefactor" in parts:
-                dk[parts["prefactor"], c] = k[c]
-            if "energy" in parts:
-                dk[parts["energy"], c] = -k[c] * self.t_ref / run.temperature
+            self._arrhenius(run, c, parts, si, k, dk)
         self._follow(run, k, dk, si, theta, derivatives)
         rates = self.phi * k[self.step_const]
         drates = self.phi[None, :] * dk[:, self.step_const] if derivatives else None
-        if run.activities:  # start activities: n = A / (lambda N_A), lambda from the rates
-            amounts = activity.start_amounts_for_rates(self.scheme, rates[None])
-            lam = activity.decay_rates(self.scheme, rates)
-            dlam = activity.decay_rates(self.scheme, drates) if derivatives else None
-            for name, i in run.activities.items():
-                c0[i] = amounts[name][0]
-                if dlam is not None:
-                    dc0[:, i] = activity.start_amount_slopes(c0[i], lam[i], dlam[:, i])
+        if run.activities:
+            self._start_activities(run, rates, drates, c0, dc0)
         if not derivatives:
             return rates, c0, None, None
         return rates, c0, drates, dc0
+
+    def _arrhenius(self, run: Run, c: int, parts: dict, si, k, dk) -> None:
+        r"""Constant ``c`` from its free Arrhenius parameters ``parts`` (in place), with slopes.
+
+        ``parts`` maps ``prefactor`` and ``energy`` to their coordinates j; the slopes are
+        :math:`\partial k/\partial \ln A = k` and
+        :math:`\partial k/\partial (E_a / R T_{ref}) = -k T_{ref}/T`.
+        """
+        law = self.scheme.constants[self.const_names[c]].arrhenius
+        hi, _ = arrhenius_pairs(  # the one Arrhenius law, exact for the values given
+            law,
+            run.temperature,
+            prefactor=si[parts["prefactor"]] if "prefactor" in parts else None,
+            energy=si[parts["energy"]] if "energy" in parts else None,
+        )
+        k[c] = float(hi)
+        if "prefactor" in parts:
+            dk[parts["prefactor"], c] = k[c]
+        if "energy" in parts:
+            dk[parts["energy"], c] = -k[c] * self.t_ref / run.temperature
+
+    def _start_activities(self, run: Run, rates, drates, c0, dc0) -> None:
+        r"""Start values written as activities, from the rates (in place), with slopes.
+
+        :math:`n = A / (\lambda N_A)` with :math:`\lambda` from the rates; the slopes
+        only when ``drates`` is given.
+        """
+        amounts = activity.start_amounts_for_rates(self.scheme, rates[None])
+        lam = activity.decay_rates(self.scheme, rates)
+        dlam = activity.decay_rates(self.scheme, drates) if drates is not None else None
+        for name, i in run.activities.items():
+            c0[i] = amounts[name][0]
+            if dlam is not None:
+                dc0[:, i] = activity.start_amount_slopes(c0[i], lam[i], dlam[:, i])
 
     def _follow(self, run: Run, k, dk, si, theta, derivatives: bool) -> None:
         """Constants defined from the fitted ones follow them (in place), with derivatives.
@@ -348,10 +375,12 @@ class Model:
         return run.data.conditions
 
     def _solve_run(self, run: Run, theta, derivatives: bool):
-        """Concentrations at the run's times and, with ``derivatives``, dc/dθ_j: the part
-        through the rate matrix (the Fréchet derivative) plus the part through the start
-        values (a start value, or a start activity that follows a decay constant); a run
-        with operations is solved stretch by stretch (:meth:`_with_operations`).
+        """Concentrations at the run's times and, with ``derivatives``, dc/dθ_j.
+
+        The derivative is the part through the rate matrix (the Fréchet derivative) plus
+        the part through the start values (a start value, or a start activity that follows
+        a decay constant); a run with operations is solved stretch by stretch
+        (:meth:`_with_operations`).
         """
         if self.scheme.timeline:
             return self._with_operations(run, theta, derivatives)
@@ -367,8 +396,8 @@ class Model:
                 return c, None
             S = np.zeros((len(self.params), run.times.size, K.shape[0]))
             if rate_params:
-                E = self.pattern.dense(drates[rate_params])
-                S[rate_params] = sensitivities(K, c0, run.times, E, run.feed)
+                directions = self.pattern.dense(drates[rate_params])
+                S[rate_params] = sensitivities(K, c0, run.times, directions, run.feed)
             for j in start_params:
                 S[j] += propagate(K, dc0[j], run.times)
             return c, S
@@ -408,8 +437,10 @@ class Model:
         return np.concatenate(parts)
 
     def jacobian(self, theta) -> np.ndarray:
-        """Exact Jacobian of :meth:`residuals` with respect to θ, shape (N, p) (zero where
-        the values leave the domain of a definition, as :meth:`residuals` is constant).
+        """Exact Jacobian of :meth:`residuals` with respect to θ, shape (N, p).
+
+        It is zero where the values leave the domain of a definition, as :meth:`residuals`
+        is constant there.
         """
         self.jacobian_evaluations += 1
         parts = []
@@ -482,7 +513,22 @@ def _parse_conditions(conditions: Mapping, scheme) -> dict:
     return out
 
 
+def _relative_sd(y: np.ndarray, cols: np.ndarray) -> np.ndarray:
+    """Standard deviations proportional to the values, floored per column.
+
+    The floor is :data:`RELATIVE_FLOOR` times the column's largest value (1 for a column
+    of zeros).
+    """
+    sd = np.abs(y)
+    for j in np.unique(cols):
+        sel = cols == j
+        floor = RELATIVE_FLOOR * np.max(np.abs(y[sel]))
+        sd[sel] = np.maximum(sd[sel], floor if floor > 0 else 1.0)
+    return sd
+
+
 def _sigma(m: Measurements, weights, rows, cols, y) -> np.ndarray:
+    """The standard deviation of each measured value, by the weighting asked."""
     if isinstance(weights, Mapping):
         sd = np.empty(y.size)
         for k, j in enumerate(cols):
@@ -499,12 +545,7 @@ def _sigma(m: Measurements, weights, rows, cols, y) -> np.ndarray:
     if weights == "equal":
         return np.ones(y.size)
     if weights == "relative":
-        sd = np.abs(y)
-        for j in np.unique(cols):
-            sel = cols == j
-            floor = RELATIVE_FLOOR * np.max(np.abs(y[sel]))
-            sd[sel] = np.maximum(sd[sel], floor if floor > 0 else 1.0)
-        return sd
+        return _relative_sd(y, cols)
     if weights == "column":
         if m.sd is None:
             raise DataError(
@@ -530,6 +571,7 @@ def _sigma(m: Measurements, weights, rows, cols, y) -> np.ndarray:
 
 
 def build_runs(scheme, datasets, params, weights) -> list[Run]:
+    """The runs of a fit: each data set with its residual indices, weights and conditions."""
     free_consts = {p.target for p in params if p.kind != "start"}
     free_starts = {p.target for p in params if p.kind == "start"}
     names = list(scheme.constants)
@@ -594,6 +636,7 @@ def build_runs(scheme, datasets, params, weights) -> list[Run]:
 
 
 def initial_values(scheme, params, runs) -> dict[str, float]:
+    """Where the search starts: each free parameter's value in SI, from the file or the data."""
     out = {}
     positive = np.concatenate([r.times[r.times > 0] for r in runs])
     rate_guess = 1.0 / float(np.median(positive)) if positive.size else 1.0

@@ -113,8 +113,8 @@ class FitResult:
     alternatives: list[dict]
     data: list[Measurements]
     weights: str
-    _theta: np.ndarray = field(repr=False, default=None)
-    _si: np.ndarray = field(repr=False, default=None)
+    _theta: np.ndarray | None = field(repr=False, default=None)
+    _si: np.ndarray | None = field(repr=False, default=None)
 
     @property
     def names(self) -> list[str]:
@@ -123,8 +123,10 @@ class FitResult:
 
     @property
     def diagnostics(self) -> dict:
-        """Search diagnostics: convergence, scaled-Jacobian condition number, evaluation
-        counts (model evaluations and exact Jacobians), starts, alternative optima.
+        """Search diagnostics: convergence, condition number, counts, starts, alternatives.
+
+        The condition number is that of the scaled Jacobian; the evaluation counts are of
+        the model and of exact Jacobians.
         """
         keys = (
             "converged",
@@ -149,12 +151,18 @@ class FitResult:
     def fitted_scheme(self, run: int = 0) -> Scheme:
         """The scheme with the fitted values and the conditions of data set ``run``."""
         return scheme_with_estimates(
-            self.scheme, self.parameters, self._si, self.data[run].conditions
+            self.scheme, self.parameters, self._fitted_si(), self.data[run].conditions
         )
 
+    def _fitted_si(self) -> np.ndarray:
+        """The fitted values in SI, in the order of the parameters (set by make_result)."""
+        assert self._si is not None  # every FitResult comes from make_result
+        return self._si
+
     def followed(self) -> dict[str, dict]:
-        r"""The rate constants that follow the fitted values (defined from a free named
-        quantity or constant), with the linearised 95 % interval they inherit.
+        r"""The rate constants that follow the fitted values, with the 95 % interval they inherit.
+
+        They are defined from a free named quantity or constant; the interval is linearised.
 
         .. math:: \sigma_k^2 = g^T C g, \qquad g_j = \partial k / \partial p_j
 
@@ -179,7 +187,8 @@ class FitResult:
         ]
         if not names:
             return {}
-        given = {c: Fraction(float(self._si[j])) for c, j in free.items()}
+        si = self._fitted_si()
+        given: dict[str, float | Fraction] = {c: Fraction(float(si[j])) for c, j in free.items()}
         temperature = self.data[0].conditions.get("temperature")
         values = self.scheme.exact_constants(temperature, given)
         slopes = self.scheme.constant_slopes(list(free), temperature, given)
@@ -344,7 +353,8 @@ def engine_predictions(scheme, params, si, runs):
 
 
 def make_result(*, theta: np.ndarray, si: np.ndarray, **fields) -> FitResult:
-    """A :class:`FitResult` that keeps the fitted coordinates and SI values (for
-    :meth:`FitResult.fitted_scheme`); ``fields`` are its public attributes.
+    """A :class:`FitResult` that keeps the fitted coordinates and SI values.
+
+    :meth:`FitResult.fitted_scheme` uses them; ``fields`` are its public attributes.
     """
     return FitResult(**fields, _theta=theta, _si=si)

@@ -1,5 +1,6 @@
-"""Whole-file checks of a scheme: steps written twice, rates a double cannot hold, and the
-warnings about probable mistakes that do not stop the file (``Scheme.warnings``).
+"""Whole-file checks of a scheme: steps written twice and rates a double cannot hold.
+
+Also the warnings about probable mistakes that do not stop the file (``Scheme.warnings``).
 """
 
 from __future__ import annotations
@@ -20,7 +21,7 @@ __all__ = ["check_rates", "nothing_to_start", "repeated_steps", "unused_constant
 def repeated_steps(
     steps: Sequence[Step], reactions: Sequence[ReactionStatement], found: Diagnostics
 ) -> None:
-    """A step written twice with one constant is an error; with two, a warning.
+    r"""A step written twice with one constant is an error; with two, a warning.
 
     Steps are compared by what they do (:attr:`Step.key`), so ``A -> B + C`` and
     ``A -> C + B`` are the same step; the rates of parallel steps add up.
@@ -28,9 +29,9 @@ def repeated_steps(
     Examples
     --------
     >>> from kinetics import parse
-    >>> parse("A -> B  k1 = 1 1/s\\nA -> B  k2 = 2 1/s\\nstart A = 1 M").warnings
-    ('<text>:2: the step A -> B also occurs on line 1: parallel steps, their constants \
-add up (k1 + k2)',)
+    >>> parse("A -> B  k1 = 1 1/s\nA -> B  k2 = 2 1/s\nstart A = 1 M").warnings
+    ('<text>:2: the step A -> B also occurs on line 1: parallel steps, their constants
+    add up (k1 + k2)',)
     """
     first: dict[tuple[object, ...], Step] = {}
     told: set[tuple[int, int]] = set()
@@ -61,8 +62,7 @@ add up (k1 + k2)',)
 
 
 def check_rates(scheme: Scheme, reactions: Sequence[ReactionStatement], found: Diagnostics) -> None:
-    r"""Every effective rate constant must be a finite double, and not a nonzero
-    product that rounds to 0 (underflow).
+    r"""Every effective rate constant must be a finite double that does not underflow to 0.
 
     The effective constant of a pseudo-first-order step is :math:`k \prod_j w_j^{\nu_j}`
     over its partners in excess (:attr:`kinetics.scheme.Scheme.rates`).
@@ -115,8 +115,10 @@ def unused_constants(
     expressions: Iterable[str] = (),
     quantities: Iterable[str] = (),
 ) -> None:
-    r"""Warn about a constant or named quantity defined on a line of its own that neither a
-    reaction nor another definition uses.
+    r"""Warn about a definition on a line of its own that nothing uses.
+
+    A constant or named quantity is unused when neither a reaction nor another definition
+    refers to it.
 
     Parameters
     ----------

@@ -158,8 +158,9 @@ def _unit_of_item(item: Item, s: ListStatement, kind: str) -> ConcentrationUnit 
 
 
 def _written_unit(text: str, kind: str, found: Kind) -> tuple[str, Fraction]:
-    """The concentration unit a value was written in, and its SI factor (a feed
-    in ``mol/L/min`` was written in ``mol/L``).
+    """The concentration unit a value was written in, and its SI factor.
+
+    A feed in ``mol/L/min`` was written in ``mol/L``.
     """
     if kind != "feed":
         unit = pint_text(text) if text else "1"

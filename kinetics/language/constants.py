@@ -10,11 +10,11 @@ defined.
 from __future__ import annotations
 
 from collections.abc import Iterable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 from ..definitions import Dependencies, NamedQuantity
 from ..expressions import names_in
-from ..scheme import Arrhenius, RateConstant
+from ..rate_constants import Arrhenius, RateConstant
 from ..units import (
     UnitSpec,
     concentration_order,
@@ -24,7 +24,15 @@ from ..units import (
 )
 from .decay import BranchCheck, Remainder, check_parents, remainders
 from .messages import Diagnostics, quoted
-from .named import Entry, check_references, evaluate_entries, graph_of, plain_leaf, plain_value
+from .named import (
+    Entry,
+    ExpressionResults,
+    check_references,
+    evaluate_entries,
+    graph_of,
+    plain_leaf,
+    plain_value,
+)
 from .quantities import exact, exact_kelvin, fraction, scaled, unit_of
 from .reactions import ReactionStatement
 from .reader import ParsedFile
@@ -232,34 +240,10 @@ def resolve_definitions(
     (Fraction(180000, 1), ('k',))
     """
     t = temperature.kelvin
-    rate_names = {ref.name for r in parsed.reactions for ref in r.constants}
-    entries: dict[str, Entry] = {}
-    plain: dict[str, RateConstant | NamedQuantity] = {}
-    first: dict[str, tuple[str, int]] = {}  # name -> (text, line) of its first definition
     specs = _specs(parsed)
     names = {spec.name for spec, _, _ in specs}
-    for spec, line, statement in specs:
-        name = spec.name
-        if spec.value is not None and spec.value.unit in names:
-            _unit_is_a_name(spec, line, found)
-            continue
-        if spec.expression is not None:
-            check = BranchCheck(statement) if statement and statement.decay else None
-            entry = Entry(spec, line, statement is not None or name in rate_names, check)
-            if name not in first:
-                entries[name] = entry
-                first[name] = (spec.text, line.number)
-            elif " ".join(spec.text.split()) != " ".join(first[name][0].split()):
-                _twice(name, first[name], spec, line, name in rate_names, found)
-            continue
-        value = _plain(spec, line, statement is not None or name in rate_names, temperature, found)
-        if value is None:
-            continue
-        if name not in first:
-            plain[name] = value
-            first[name] = (value.text, line.number)
-        elif name not in plain or not _same(plain[name], value):
-            _twice(name, first[name], spec, line, isinstance(value, RateConstant), found)
+    written = _written(parsed, specs, names, temperature, found)
+    entries, plain = written.entries, written.plain
     untracked = remainders(parsed.reactions)
     for rest in untracked:
         entries[rest.name] = rest.entry()
@@ -275,6 +259,71 @@ def resolve_definitions(
             results.constants.pop(rest.name, None)
     leaves = {n: d for n in used if n in plain and (d := plain_leaf(n, plain[n])) is not None}
     graph = graph_of(results, entries, leaves)
+    constants, quantities = _by_kind(written.first, plain, results)
+    for rest in kept:
+        constants[rest.name] = results.constants[rest.name]
+    _undefined(parsed, names, constants, found)
+    return Resolved(constants, quantities, graph, kept, used)
+
+
+@dataclass
+class _Written:
+    """The definitions as the file writes them, before any is evaluated.
+
+    Attributes
+    ----------
+    entries : dict of str to Entry
+        The definitions written as expressions (the first of each name).
+    plain : dict of str to RateConstant or NamedQuantity
+        The definitions written as plain values (the first of each name).
+    first : dict of str to (str, int)
+        Every name defined, in order: the text and line number of its first definition.
+    """
+
+    entries: dict[str, Entry] = field(default_factory=dict)
+    plain: dict[str, RateConstant | NamedQuantity] = field(default_factory=dict)
+    first: dict[str, tuple[str, int]] = field(default_factory=dict)
+
+
+def _written(
+    parsed: ParsedFile,
+    specs: list[tuple[ConstantSpec, Line, ReactionStatement | None]],
+    names: set[str],
+    temperature: Temperature,
+    found: Diagnostics,
+) -> _Written:
+    """Sort the definitions into expressions and plain values; report a name defined twice."""
+    rate_names = {ref.name for r in parsed.reactions for ref in r.constants}
+    written = _Written()
+    first = written.first
+    for spec, line, statement in specs:
+        name = spec.name
+        rate = statement is not None or name in rate_names
+        if spec.value is not None and spec.value.unit in names:
+            _unit_is_a_name(spec, line, found)
+        elif spec.expression is not None:
+            check = BranchCheck(statement) if statement and statement.decay else None
+            if name not in first:
+                written.entries[name] = Entry(spec, line, rate, check)
+                first[name] = (spec.text, line.number)
+            elif " ".join(spec.text.split()) != " ".join(first[name][0].split()):
+                _twice(name, first[name], spec, line, name in rate_names, found)
+        elif (value := _plain(spec, line, rate, temperature, found)) is None:
+            continue
+        elif name not in first:
+            written.plain[name] = value
+            first[name] = (value.text, line.number)
+        elif name not in written.plain or not _same(written.plain[name], value):
+            _twice(name, first[name], spec, line, isinstance(value, RateConstant), found)
+    return written
+
+
+def _by_kind(
+    first: dict[str, tuple[str, int]],
+    plain: dict[str, RateConstant | NamedQuantity],
+    results: ExpressionResults,
+) -> tuple[dict[str, RateConstant], dict[str, NamedQuantity]]:
+    """The resolved definitions, in order of first definition: rate constants, then the rest."""
     constants: dict[str, RateConstant] = {}
     quantities: dict[str, NamedQuantity] = {}
     for name in first:
@@ -283,10 +332,7 @@ def resolve_definitions(
             constants[name] = c
         elif isinstance(c, NamedQuantity):
             quantities[name] = c
-    for rest in kept:
-        constants[rest.name] = results.constants[rest.name]
-    _undefined(parsed, names, constants, found)
-    return Resolved(constants, quantities, graph, kept, used)
+    return constants, quantities
 
 
 def _specs(parsed: ParsedFile) -> list[tuple[ConstantSpec, Line, ReactionStatement | None]]:
@@ -303,8 +349,10 @@ def _specs(parsed: ParsedFile) -> list[tuple[ConstantSpec, Line, ReactionStateme
 def _plain(
     spec: ConstantSpec, line: Line, rate: bool, temperature: Temperature, found: Diagnostics
 ) -> RateConstant | NamedQuantity | None:
-    """A definition by a plain value: a rate constant (old readers and messages) or a
-    named quantity of another dimension (only on a line of its own).
+    """A definition by a plain value: a rate constant or a named quantity.
+
+    A rate constant keeps the old readers and messages; a named quantity of another
+    dimension may only be defined on a line of its own.
     """
     constant = plain_constant(spec, line) if rate else None  # the common case, quickly
     if constant is not None:

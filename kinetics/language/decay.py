@@ -137,6 +137,7 @@ class Remainder:
 
     @property
     def name(self) -> str:
+        """The name of the untracked share's constant (the parent's decay to nothing)."""
         return decay_name(self.parent, ())
 
     def entry(self) -> Entry:
@@ -197,8 +198,9 @@ class Remainder:
         return True
 
     def kept(self, values: Mapping[str, ExactQuantity]) -> bool:
-        """True when the untracked share is a step: above 0, or written with names (a
-        sweep may change it).
+        """True when the untracked share is a step: above 0, or written with names.
+
+        A share written with names is kept even at 0, since a sweep may change it.
         """
         q = values.get(self.name)
         if q is None:

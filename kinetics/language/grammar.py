@@ -136,8 +136,10 @@ def split_top(text: str, offset: int) -> list[tuple[str, int]]:
 
 
 def top_level_equals(text: str) -> bool:
-    """True when ``text`` holds ``=`` outside parentheses (``A = B + C  k1 = ...``, a
-    reaction written with ``=`` for its arrow; not ``arrhenius(A = ..., Ea = ...)``).
+    """True when ``text`` holds ``=`` outside parentheses.
+
+    So ``A = B + C  k1 = ...`` (a reaction written with ``=`` for its arrow) holds one, and
+    ``arrhenius(A = ..., Ea = ...)`` does not.
 
     Examples
     --------

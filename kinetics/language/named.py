@@ -36,7 +36,7 @@ from ..expressions import (
     shown,
 )
 from ..laws import LAWS
-from ..scheme import Arrhenius, RateConstant
+from ..rate_constants import Arrhenius, RateConstant
 from ..units import concentration_order, describe_dimension, parse_unit, si_unit
 from .messages import Diagnostics, quoted
 from .quantities import exact
@@ -82,10 +82,12 @@ class Entry:
 
     @property
     def name(self) -> str:
+        """The name the expression defines."""
         return self.spec.name
 
     @property
     def expression(self) -> Expr:
+        """The expression as written, parsed."""
         assert self.spec.expression is not None  # an entry is an expression
         return self.spec.expression
 

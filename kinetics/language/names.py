@@ -1,5 +1,7 @@
-"""Names across a scheme file: species in order of appearance, species held in excess,
-and the statements that may occur once.
+"""Names across a scheme file: species, species held in excess, statements made once.
+
+Species are listed in order of appearance; a statement that may occur once is refused
+the second time.
 """
 
 from __future__ import annotations

@@ -245,8 +245,9 @@ def scaled(number: str, factor: Fraction) -> Fraction:
 
 
 def plain_number(number: str) -> bool:
-    """True for a number the readers accept as it stands: short, finite, and not a
-    nonzero value that a double would round to 0.
+    """True for a number the readers accept as it stands: short, finite, and not underflowing.
+
+    A nonzero value that a double would round to 0 is not plain.
 
     Examples
     --------

@@ -48,8 +48,9 @@ DECAY_EXAMPLE = "P -> D  half_life = 65.9 h, fraction = 87.6 %"
 
 
 class Term(NamedTuple):
-    """One species of a reaction side with its stoichiometric coefficient (an
-    immutable record, like :class:`~kinetics.language.quantities.Value`).
+    """One species of a reaction side with its stoichiometric coefficient.
+
+    An immutable record, like :class:`~kinetics.language.quantities.Value`.
     """
 
     coefficient: float
@@ -58,8 +59,9 @@ class Term(NamedTuple):
 
 
 class ConstantRef(NamedTuple):
-    """A constant after the products: by name alone (``spec`` None) or defined there
-    (an immutable record).
+    """A constant after the products: by name alone (``spec`` None) or defined there.
+
+    An immutable record, like :class:`Term`.
     """
 
     name: str
@@ -372,8 +374,10 @@ def _read_decay(line: Line, pieces: list[tuple[str, int]]) -> DecaySpec | list[S
 def _read_constant_refs(
     line: Line, text: str, offset: int, reversible: bool
 ) -> tuple[ConstantRef, ...] | DecaySpec | list[SchemeError]:
-    """Read the constants after the products: ``k1``, ``k1 = ...``, ``kf = ..., kr = ...``,
-    or a decay step's ``half_life = ..., fraction = ...``.
+    """Read the constants after the products of a reaction line.
+
+    They are ``k1``, ``k1 = ...``, ``kf = ..., kr = ...``, or a decay step's
+    ``half_life = ..., fraction = ...``.
     """
     example = "kf = 2.0e-3 1/s, kr = 5.0e-4 1/s" if reversible else "k1 = 0.12 1/min"
     pieces = split_top(text, offset)

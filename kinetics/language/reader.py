@@ -97,7 +97,7 @@ class ParsedFile:
 
 
 def read_statements(text: str, source: str) -> ParsedFile:
-    """Read every line of ``text`` into a statement or its errors (the first pass).
+    r"""Read every line of ``text`` into a statement or its errors (the first pass).
 
     Parameters
     ----------
@@ -112,12 +112,12 @@ def read_statements(text: str, source: str) -> ParsedFile:
 
     Examples
     --------
-    >>> parsed = read_statements("A -> B  k1 = 1 1/s\\nstart A = 1 M\\nA => C  k2", "t")
+    >>> parsed = read_statements("A -> B  k1 = 1 1/s\nstart A = 1 M\nA => C  k2", "t")
     >>> [type(s).__name__ for s in parsed.statements], sorted(parsed.failed_names)
     (['ReactionStatement', 'ListStatement'], ['A', 'C', 'k2'])
     >>> parsed.errors[0].headline()
-    "t:3:3: unknown arrow '=>'; write -> (or →) for an irreversible step and <=> (or ⇌) \
-for a reversible one"
+    "t:3:3: unknown arrow '=>'; write -> (or →) for an irreversible step and <=> (or ⇌)
+    for a reversible one"
     """
     statements: list[Statement] = []
     errors: list[SchemeError] = []

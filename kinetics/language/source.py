@@ -53,7 +53,7 @@ CONTROL_RE = re.compile(r"[\x00-\x08\x0e-\x1f\x7f]")
 
 
 class Line(NamedTuple):
-    """One line of a scheme: where it is, the text as written, and its code.
+    r"""One line of a scheme: where it is, the text as written, and its code.
 
     An immutable record (a named tuple: one per line of a large file).
 
@@ -147,7 +147,7 @@ def raw_lines(text: str) -> Iterator[tuple[int, str]]:
 
 
 def unreadable_line(source: str, number: int, raw: str) -> SchemeError:
-    """The error for a line refused before it is parsed: too long, or not text.
+    r"""The error for a line refused before it is parsed: too long, or not text.
 
     Call it for a line longer than :data:`MAX_LINE_LENGTH` or one that
     :data:`CONTROL_RE` finds a control character in.
@@ -167,9 +167,9 @@ def unreadable_line(source: str, number: int, raw: str) -> SchemeError:
 
     Examples
     --------
-    >>> unreadable_line("t", 2, "A\\x00").headline()
-    't:2:2: this line contains the control character U+0000, which a scheme file never \
-holds; save the scheme as plain UTF-8 text (is this a scheme file?)'
+    >>> unreadable_line("t", 2, "A\x00").headline()
+    't:2:2: this line contains the control character U+0000, which a scheme file never
+    holds; save the scheme as plain UTF-8 text (is this a scheme file?)'
     """
     if len(raw) > MAX_LINE_LENGTH:
         return SchemeError(

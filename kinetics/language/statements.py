@@ -181,8 +181,10 @@ class ListStatement:
 
     @classmethod
     def from_line(cls, line: Line) -> ListStatement | KeptList | list[SchemeError] | None:
-        """The statement of ``line``; with errors, the statement that keeps the declared
-        names and the errors; only errors; or None when the line lists nothing.
+        """The statement of ``line``, or its errors, or None when the line lists nothing.
+
+        A line with errors gives the statement that keeps the declared names together with
+        the errors (:class:`KeptList`), or only the errors.
         """
         code = line.code
         match = re.match(r"\s*(start|excess|feed|formula|molar_mass)(?=\s|$)", code)
@@ -265,8 +267,10 @@ class KeptList(NamedTuple):
 
 
 class ConstantSpec(NamedTuple):
-    """A definition ``name = ...``: a plain value, Arrhenius parameters of plain values, or
-    an expression (an immutable record, like :class:`~kinetics.language.quantities.Value`).
+    """A definition ``name = ...``: a plain value, Arrhenius parameters, or an expression.
+
+    The Arrhenius parameters are plain values.  An immutable record, like
+    :class:`~kinetics.language.quantities.Value`.
 
     Examples
     --------
@@ -292,8 +296,10 @@ class ConstantSpec(NamedTuple):
 def read_constant(
     line: Line, name: str, name_col0: int, text: str, text_col0: int, *, rate: bool = True
 ) -> ConstantSpec | list[SchemeError]:
-    """Read the right-hand side of ``name = ...``: a value with a unit, Arrhenius parameters
-    or an expression (:mod:`~kinetics.language.arithmetic`).
+    """Read the right-hand side of ``name = ...``.
+
+    It is a value with a unit, Arrhenius parameters or an expression
+    (:mod:`~kinetics.language.arithmetic`).
 
     A plain value (a number and a unit pint reads, or words without operators) and an
     Arrhenius law of plain values keep their own readers and messages; anything else is
@@ -356,8 +362,9 @@ def read_constant(
 
 
 def _plain_value(text: str) -> bool:
-    """True for a number followed by nothing, by a unit pint reads, or by words without
-    operators (read as a unit, with the messages of a unit).
+    """True for a number followed by nothing, by a unit pint reads, or by plain words.
+
+    Words without operators are read as a unit, with the messages of a unit.
     """
     match = NUMBER_RE.match(text.strip())
     if match is None:
@@ -420,9 +427,10 @@ def _read_arrhenius(
 
 @dataclass(frozen=True, slots=True)
 class ConstantStatement:
-    """``NAME = expression`` on a line of its own: a rate constant (``k1 = 0.12 1/min``,
-    ``k3 = arrhenius(A = ..., Ea = ...)``) or a named quantity of any dimension
-    (``t_p = 50 h``, ``lam = 0.88 * ln(2) / t_p``).
+    """``NAME = expression`` on a line of its own: a rate constant or a named quantity.
+
+    A rate constant: ``k1 = 0.12 1/min``, ``k3 = arrhenius(A = ..., Ea = ...)``; a named
+    quantity of any dimension: ``t_p = 50 h``, ``lam = 0.88 * ln(2) / t_p``.
 
     Examples
     --------

@@ -1,5 +1,6 @@
-"""Reactions into first-order steps: the reacting species, its partners in excess, and
-the order the units of each rate constant imply.
+"""Reactions into first-order steps, each with its reacting species and partners in excess.
+
+The order of each step is the one the unit of its rate constant implies.
 
 A reaction line gives one step (two for a reversible line).  Each step consumes
 one reacting species; every other species on its side must be held in excess,
@@ -12,7 +13,8 @@ from __future__ import annotations
 from collections.abc import Mapping, Sequence
 from fractions import Fraction
 
-from ..scheme import RateConstant, Reaction, Step
+from ..rate_constants import RateConstant
+from ..scheme import Reaction, Step
 from ..units import describe_dimension, parse_unit
 from .messages import Diagnostics
 from .reactions import ConstantRef, ReactionStatement, Term
@@ -23,8 +25,9 @@ _ORDINALS = {0: "first", 1: "second", 2: "third", 3: "fourth"}
 
 
 class StepBuilder:
-    """Turns reaction statements into :class:`~kinetics.scheme.Reaction` and
-    :class:`~kinetics.scheme.Step` objects, with the errors in ``found``.
+    """Turns reaction statements into reactions and steps, with the errors in ``found``.
+
+    It makes :class:`~kinetics.scheme.Reaction` and :class:`~kinetics.scheme.Step` objects.
 
     Parameters
     ----------

@@ -213,8 +213,10 @@ _ACTIVITY_BASES = {(): "absolute", (("[length]", 3),): "volume", (("[mass]", 1),
 
 
 def activity_basis(spec: UnitSpec) -> str | None:
-    """``"absolute"`` for an activity (Bq), ``"volume"`` per volume (Bq/L), ``"soil"``
-    per mass (Bq/kg); None for any other unit.
+    """The basis of an activity unit, or None for any other unit.
+
+    ``"absolute"`` for an activity (Bq), ``"volume"`` per volume (Bq/L), ``"soil"`` per
+    mass (Bq/kg).
 
     Examples
     --------
@@ -239,8 +241,9 @@ def _activity(
     out: ListedValues,
     found: Diagnostics,
 ) -> None:
-    """A start value written as an activity: kept for the decay constants, or refused
-    when the file's values are of another basis.
+    """A start value written as an activity, kept for the decay constants.
+
+    It is refused when the file's values are of another basis.
     """
     v = item.value
     assert v is not None

@@ -173,15 +173,32 @@ def _xlsx_block(sheet, title: str, rows: list[dict], bold) -> None:
         sheet.append([])
     _append(sheet, [title])
     sheet.cell(sheet.max_row, 1).font = bold
+    _header_and_rows(sheet, rows, bold, "(none)")
+
+
+def _header_and_rows(sheet, rows: list[dict], bold, empty: str) -> bool:
+    """Append a bold header row and the rows of a table; the note ``empty`` if it has none.
+
+    Returns True when the table had rows.
+    """
     if not rows:
-        sheet.append(["(none)"])
-        return
+        sheet.append([empty])
+        return False
     header = list(rows[0])
     _append(sheet, header)
     for cell in sheet[sheet.max_row]:
         cell.font = bold
     for row in rows:
         _append(sheet, [row.get(h) for h in header])
+    return True
+
+
+def _fit_column_widths(sheets) -> None:
+    """Widen each column to its longest cell (10 to 60 characters)."""
+    for sh in sheets:
+        for column in sh.columns:
+            width = max((len(str(c.value)) for c in column if c.value is not None), default=8)
+            sh.column_dimensions[column[0].column_letter].width = min(max(10, width + 2), 60)
 
 
 def write_xlsx(
@@ -251,16 +268,7 @@ def write_xlsx(
     sheet.freeze_panes = "A2"
 
     summary_sheet = book.create_sheet("summary")
-    rows = summary_rows or []
-    if rows:
-        header = list(rows[0])
-        _append(summary_sheet, header)
-        for cell in summary_sheet[1]:
-            cell.font = bold
-        for row in rows:
-            _append(summary_sheet, [row.get(h) for h in header])
-    else:
-        summary_sheet.append(["no summary quantities available"])
+    _header_and_rows(summary_sheet, summary_rows or [], bold, "no summary quantities available")
     if scheme_rows:
         _xlsx_block(summary_sheet, "whole scheme", scheme_rows, bold)
 
@@ -278,21 +286,12 @@ def write_xlsx(
     if events is not None:
         check_xlsx_size(len(events) + 1, XLSX_MAX_COLUMNS, path)
         events_sheet = book.create_sheet("events")
-        if events:
-            header = list(events[0])
-            _append(events_sheet, header)
-            for cell in events_sheet[1]:
-                cell.font = bold
-            for row in events:
-                _append(events_sheet, [row.get(h) for h in header])
+        if _header_and_rows(
+            events_sheet, events, bold, "no operation was applied inside the window"
+        ):
             events_sheet.freeze_panes = "A2"
-        else:
-            events_sheet.append(["no operation was applied inside the window"])
         sheets.append(events_sheet)
-    for sh in sheets:
-        for column in sh.columns:
-            width = max((len(str(c.value)) for c in column if c.value is not None), default=8)
-            sh.column_dimensions[column[0].column_letter].width = min(max(10, width + 2), 60)
+    _fit_column_widths(sheets)
     # the workbook is assembled in memory, so that a failing disk shows up as one
     # error of an ordinary file write (the zip writer cannot leave a broken archive)
     data = io.BytesIO()

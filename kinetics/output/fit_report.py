@@ -1,5 +1,7 @@
-"""What a fit reports: the fit.json document, a plain-text summary of the estimates and
-the plot of data against fitted curves (pure producers: no printing).
+"""What a fit reports: the fit.json document, a summary of the estimates, and a plot.
+
+The summary is plain text; the plot shows the data against the fitted curves.  These are
+pure producers: no printing.
 """
 
 from __future__ import annotations
@@ -10,7 +12,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from kinetics._version import __version__
-from kinetics.output.plotting import LINE_STYLES, MARKERS, new_figure, save_figure
+from kinetics.output.plotting import new_figure, save_figure, style_of
 from kinetics.units import time_factor
 
 if TYPE_CHECKING:
@@ -131,9 +133,6 @@ def fit_figure(result: FitResult, time_unit: str | None = None) -> Figure:
     axes = fig.subplots(
         2, len(runs), squeeze=False, sharex="col", gridspec_kw={"height_ratios": [3, 1]}
     )
-    from matplotlib import colormaps
-
-    colours = colormaps["tab10"].colors
     species_order = result.scheme.species_names
     for r, m in enumerate(runs):
         top, bottom = axes[0, r], axes[1, r]
@@ -142,17 +141,15 @@ def fit_figure(result: FitResult, time_unit: str | None = None) -> Figure:
         curves = result.predict(grid, run=r)
         for j, name in enumerate(m.species):
             i = species_order.index(name)
-            style = {
-                "color": colours[i % len(colours)],
-                "linestyle": LINE_STYLES[i % len(LINE_STYLES)],
-            }
-            top.plot(grid / factor, curves[name], label=f"{name} fit", **style)
+            style = style_of(i)
+            line = {"color": style["color"], "linestyle": style["linestyle"]}
+            top.plot(grid / factor, curves[name], label=f"{name} fit", **line)
             ok = ~np.isnan(m.values[:, j])
             top.plot(
                 m.times[ok] / factor,
                 m.values[ok, j],
                 linestyle="none",
-                marker=MARKERS[i % len(MARKERS)],
+                marker=style["marker"],
                 markerfacecolor="none",
                 color=style["color"],
                 label=f"{name} data",
@@ -162,7 +159,7 @@ def fit_figure(result: FitResult, time_unit: str | None = None) -> Figure:
                 m.times[ok] / factor,
                 res[ok],
                 linestyle="none",
-                marker=MARKERS[i % len(MARKERS)],
+                marker=style["marker"],
                 color=style["color"],
             )
         bottom.axhline(0.0, color="black", linewidth=0.8)

@@ -1,5 +1,6 @@
-"""A drawing of the species graph: one box per species, one arrow per step (matplotlib,
-imported lazily; no pyplot).
+"""A drawing of the species graph: one box per species, one arrow per step.
+
+Drawn with matplotlib, imported lazily; no pyplot.
 """
 
 from __future__ import annotations
@@ -50,8 +51,10 @@ class _Layout:
 
 
 def _layout(scheme: Scheme, graph, matrix_edges) -> _Layout:
-    """Columns by the smallest number of steps from the start; long schemes snake over
-    several bands of :data:`GRAPH_COLUMNS_PER_BAND` columns (left to right, then back).
+    """Columns by the smallest number of steps from the start.
+
+    Long schemes snake over several bands of :data:`GRAPH_COLUMNS_PER_BAND` columns (left
+    to right, then back).
     """
     import networkx as nx
 

@@ -1,5 +1,7 @@
-"""Labels of marked points that never overlap: each beside its point when there is room,
-else moved away with a leader line, always inside its panel.
+"""Labels of marked points that never overlap, always inside their panel.
+
+Each label stands beside its point when there is room, else it is moved away with a
+leader line.
 """
 
 from __future__ import annotations
@@ -18,8 +20,9 @@ _LABEL_GAP = 8.0
 
 
 class Label:
-    """A text to place near a point of an axes (data coordinates of that axes); ``below``
-    prefers a place below the point (half-lives) to one above it (maxima).
+    """A text to place near a point of an axes (data coordinates of that axes).
+
+    ``below`` prefers a place below the point (half-lives) to one above it (maxima).
     """
 
     def __init__(self, text: str, ax, point: tuple[float, float], below: bool) -> None:
@@ -35,8 +38,9 @@ def _overlaps(a, b) -> bool:
 
 
 def place_labels(fig: Figure, ax, labels: list[Label]) -> list:
-    """Place the labels so that no two overlap, none covers a marked point, and all stay
-    inside the panel ``ax``; a label moved away from its point gets a leader line.
+    """Place the labels inside the panel ``ax`` so that no two overlap nor cover a point.
+
+    No label covers a marked point; a label moved away from its point gets a leader line.
 
     The figure's layout is computed first and then frozen, so that the positions found in
     points (1/72 inch, independent of the resolution the figure is saved at) stay valid.
@@ -52,7 +56,11 @@ def place_labels(fig: Figure, ax, labels: list[Label]) -> list:
         return []
     fig.draw_without_rendering()  # runs the layout engine once
     fig.set_layout_engine("none")
-    renderer = fig.canvas.get_renderer()
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    canvas = fig.canvas
+    assert isinstance(canvas, FigureCanvasAgg)  # every figure is made by new_figure
+    renderer = canvas.get_renderer()
     to_pt = 72.0 / fig.dpi
     box = ax.get_window_extent(renderer)
     frame = (box.x0 * to_pt, box.y0 * to_pt, box.x1 * to_pt, box.y1 * to_pt)

@@ -1,6 +1,7 @@
-"""What ``kinetics optimise`` reports: the JSON object, the lines of the terminal and the
-figure of the target over the settings with the feasible region shaded (pure: no
-printing, no files; matplotlib imported lazily).
+"""What ``kinetics optimise`` reports: the JSON object, the terminal lines and a figure.
+
+The figure shows the target over the settings with the feasible region shaded.  Pure: no
+printing, no files; matplotlib is imported lazily.
 """
 
 from __future__ import annotations
@@ -44,13 +45,16 @@ def _target_words(optimum: Optimum) -> str:
         return f"{g.sense} {what} at its best time up to {time.high:.6g} {time.unit}"
     if any(s.kind == "time" for s in optimum.settings):
         return f"{g.sense} {what} at the end time"
+    assert g.end is not None  # without a time setting the target is read at --until
     end = g.end / time_factor(g.time_unit)
     return f"{g.sense} {what} at the end time ({end:.6g} {g.time_unit})"
 
 
 def optimum_lines(optimum: Optimum) -> list[tuple[str, str]]:
-    r"""The optimum as (label, text) pairs: the target, each setting with its flat range,
-    the target's value, each requirement, the model evaluations.
+    r"""The optimum as (label, text) pairs.
+
+    The pairs are the target, each setting with its flat range, the target's value, each
+    requirement, and the model evaluations.
 
     Examples
     --------
@@ -95,8 +99,9 @@ def optimum_lines(optimum: Optimum) -> list[tuple[str, str]]:
 
 
 def optimum_figure(optimum: Optimum, axes, target, margin, title: str = ""):
-    """The target over one or two settings (the others at the optimum), the region where a
-    requirement is broken shaded and the optimum marked.
+    """The target over one or two settings (the others at the optimum), optimum marked.
+
+    The region where a requirement is broken is shaded.
 
     Parameters
     ----------

@@ -145,8 +145,9 @@ def check_report(scheme: Scheme) -> dict:
 
 
 def _operations(scheme: Scheme) -> dict | None:
-    """The timeline of a scheme as written (``check --json``): each statement's line and
-    text, and the volume of the run [L]; None without operations.
+    """The timeline of a scheme as written (``check --json``); None without operations.
+
+    It holds each statement's line and text, and the volume of the run [L].
     """
     line = scheme.timeline
     if not line and line.volume is None:
@@ -224,8 +225,10 @@ def solution_json(
 
 
 def _requirements(summary) -> dict:
-    """``requirements`` and ``all_hold_until`` (with ``all_hold_from``) of a scheme with
-    ``require`` lines, in the summary's time unit; nothing for a scheme without.
+    """The requirements of a scheme with ``require`` lines; nothing for a scheme without.
+
+    The keys are ``requirements`` and ``all_hold_until`` (with ``all_hold_from``), in the
+    summary's time unit.
     """
     checked = getattr(summary, "requirements", None)
     if not checked:
@@ -238,9 +241,7 @@ def _requirements(summary) -> dict:
 
 
 def _timeline(solution: Solution, time_unit: str) -> dict:
-    """The rows just after operations and the notes of a run with operations (their
-    times in ``time_unit``).
-    """
+    """The rows just after operations and the notes of a run (times in ``time_unit``)."""
     if solution.after is None:
         return {}
     notes = [in_time_unit(n, time_unit) for n in solution.notes]
@@ -285,7 +286,9 @@ def event_rows(solution: Solution, time_unit: str) -> list[dict]:
         scale = dict(zip(solution.species, solution.unit_factors.tolist(), strict=True))
     rows = []
     for e in solution.events:
-        feed = e.action.startswith("feed") and e.value is not None and e.species is not None
+        rate = None
+        if e.action.startswith("feed") and e.value is not None and e.species is not None:
+            rate = finite_or_none(e.value * scale[e.species] * factor)
         rows.append(
             {
                 "time": finite_or_none(e.time / factor),
@@ -293,7 +296,7 @@ def event_rows(solution: Solution, time_unit: str) -> list[dict]:
                 "species": e.species,
                 "change": finite_or_none(e.change),
                 "temperature_K": e.value if e.action == "temperature" else None,
-                "rate": finite_or_none(e.value * scale[e.species] * factor) if feed else None,
+                "rate": rate,
                 "volume_L": None if e.volume is None else finite_or_none(e.volume * 1000),
                 "error_bound": finite_or_none(float(e.error_bound)),
                 "ramp_estimate": finite_or_none(float(e.ramp_estimate)),
@@ -434,7 +437,7 @@ def inputs_tables(scheme: Scheme) -> dict[str, list[dict]]:
                 "line": scheme.reactions[step.reaction].line,
             }
         )
-    settings = [
+    settings: list[dict] = [
         {"setting": "title", "value": scheme.title},
         {"setting": "source", "value": scheme.source},
         {"setting": "concentration unit", "value": unit},

@@ -16,7 +16,7 @@ import io
 import math
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Literal
 
 import numpy as np
 
@@ -27,6 +27,7 @@ from kinetics.output.labels import Label, place_labels
 from kinetics.units import time_factor
 
 if TYPE_CHECKING:
+    from matplotlib.axes import Axes
     from matplotlib.figure import Figure
 
     from kinetics.solution import Solution
@@ -59,8 +60,12 @@ SPLIT_RATIO = 5.0
 def style_of(i: int) -> dict:
     """Colour, line style and marker of the curve of species number ``i`` (matrix order)."""
     from matplotlib import colormaps
+    from matplotlib.colors import ListedColormap
 
-    colours = colormaps["tab10"].colors
+    tab10 = colormaps["tab10"]
+    assert isinstance(tab10, ListedColormap)  # ten colours, a tuple of RGB tuples
+    colours = tab10.colors
+    assert isinstance(colours, tuple)
     return {
         "color": colours[i % len(colours)],
         "linestyle": LINE_STYLES[i % len(LINE_STYLES)],
@@ -68,7 +73,11 @@ def style_of(i: int) -> dict:
     }
 
 
-def new_figure(width: float, height: float, layout: str | None = "constrained") -> Figure:
+def new_figure(
+    width: float,
+    height: float,
+    layout: Literal["constrained", "compressed", "tight"] | None = "constrained",
+) -> Figure:
     """An empty figure [inches] on the Agg canvas (no pyplot)."""
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
@@ -112,9 +121,11 @@ def _marks(summary: dict | None, name: str, t_end: float):
 
 
 def split_by_height(peaks: dict[str, float], ratio: float = SPLIT_RATIO) -> list[str]:
-    """Species to draw on a right-hand axis: the few that stand above a gap of ``ratio`` or
-    more between consecutive peak heights (largest first), when they are fewer than the
-    species below the gap (which would otherwise be squashed); else none.
+    """Species to draw on a right-hand axis: the few far above the rest, else none.
+
+    They are the species above a gap of ``ratio`` or more between consecutive peak heights
+    (largest first), when they are fewer than the species below the gap (which would
+    otherwise be squashed).
 
     >>> split_by_height({"P": 12.0, "M1": 3.1, "M2": 5.6, "CO2": 94.0})
     ['CO2']
@@ -211,15 +222,23 @@ def concentration_figure(
 
 @dataclass(frozen=True)
 class _Panels:
-    """The figure, its linear and log panels, the right-hand axis (or None) and the
-    species drawn against it.
+    """The figure, its panels, the right-hand axis (or None) and its species.
+
+    The panels are the linear and the log one; the species are those drawn against the
+    right-hand axis.
     """
 
     fig: Figure
-    lin: object
-    log: object
-    right_ax: object | None
+    lin: Axes
+    log: Axes
+    right_ax: Axes | None
     right: list[str]
+
+    def axis_of(self, name: str) -> Axes:
+        """The axis of the linear panel the curve of species ``name`` is drawn against."""
+        if name in self.right and self.right_ax is not None:
+            return self.right_ax
+        return self.lin
 
 
 @dataclass
@@ -250,7 +269,7 @@ def _draw_species(p: _Panels, drawn: _Drawn, solution, t, i, name, count, summar
         "markerfacecolor": "white" if i % 2 else style["color"],
         **style,
     }
-    ax_this = p.right_ax if name in p.right else p.lin
+    ax_this = p.axis_of(name)
     ax_this.plot(t, c, **kw)
     positive = np.where(c > 0, c, np.nan)
     p.log.plot(t, positive, **kw)

@@ -206,6 +206,16 @@ def _balance_section(scheme: Scheme) -> str:
     return "\n".join(parts)
 
 
+def _summary_cell(entry: dict, key: str) -> str:
+    """The text of one summary quantity of a species: its number, or why there is none."""
+    cell = _num(entry.get(key))
+    if key == "t_max" and entry.get("t_max") is not None and entry.get("t_max_beyond_window"):
+        cell += " (after the window)"
+    if key == "limit" and entry.get("limit") is None and entry.get("unbounded"):
+        cell = "unbounded"
+    return cell
+
+
 def _summary_section(summary: dict | None, time_unit: str, conc_unit: str) -> str:
     parts = ["<h2>Summary quantities (exact)</h2>"]
     if not summary:
@@ -214,19 +224,7 @@ def _summary_section(summary: dict | None, time_unit: str, conc_unit: str) -> st
     headers = ["species"] + [summary_header(c, time_unit, conc_unit) for c in SUMMARY_COLUMNS]
     rows = []
     for name, entry in summary.items():
-        row = [escape(name)]
-        for key, _, _ in SUMMARY_COLUMNS:
-            cell = _num(entry.get(key))
-            if (
-                key == "t_max"
-                and entry.get("t_max") is not None
-                and entry.get("t_max_beyond_window")
-            ):
-                cell += " (after the window)"
-            if key == "limit" and entry.get("limit") is None and entry.get("unbounded"):
-                cell = "unbounded"
-            row.append(cell)
-        rows.append(row)
+        rows.append([escape(name)] + [_summary_cell(entry, key) for key, _, _ in SUMMARY_COLUMNS])
     # two tables: the decision quantities, then time scales and areas
     split = [k for k, _, _ in SUMMARY_COLUMNS].index("time_to_limit") + 1
     for first, last, caption in ((1, split, "Main quantities"), (split, None, "Time scales")):

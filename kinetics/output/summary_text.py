@@ -1,5 +1,7 @@
-"""The summary quantities in words: column headers with units, definitions, the
-whole-scheme lines, spreadsheet rows and the notes under a summary table.
+"""The summary quantities in words: headers, definitions, lines, rows and notes.
+
+They are the column headers with units, the definitions, the whole-scheme lines, the
+spreadsheet rows and the notes under a summary table.
 
 The terminal, the spreadsheet and the report all word a summary with these, so that a
 quantity reads the same wherever it is shown.
@@ -208,8 +210,9 @@ def scheme_lines(scheme: dict, time_unit: str, conc_unit: str) -> list[tuple[str
 
 
 def _record_lines(record: dict | None) -> list[tuple[str, str]]:
-    """The mean kinetic temperature of a temperature record and the equivalent isothermal
-    temperature of each Arrhenius constant (see
+    """The mean kinetic temperature of a record and each constant's isothermal equivalent.
+
+    The equivalent isothermal temperature is given for each Arrhenius constant (see
     :meth:`kinetics.temperature_log.TemperatureLog.summary`).
     """
     if not record:
@@ -296,8 +299,10 @@ def requirement_lines(checked: dict, time_unit: str) -> list[tuple[str, str]]:
 
 
 def scheme_rows(summary, time_unit: str, conc_unit: str) -> list[dict]:
-    """The whole-scheme quantities of a :class:`~kinetics.analysis.solution_summary.Summary`
-    as rows ``quantity``, ``value``, then its requirements (:func:`requirement_lines`).
+    """The whole-scheme quantities of a summary as rows ``quantity``, ``value``.
+
+    The summary is a :class:`~kinetics.analysis.solution_summary.Summary`; its requirements
+    follow (:func:`requirement_lines`).
     """
     lines = scheme_lines(getattr(summary, "scheme", None) or {}, time_unit, conc_unit)
     lines += requirement_lines(getattr(summary, "requirements", None) or {}, time_unit)
@@ -325,8 +330,10 @@ def summary_rows(summary: dict[str, dict], time_unit: str, conc_unit: str) -> li
 
 
 def summary_notes(summary: dict[str, dict], time_unit: str, conc_unit: str) -> list[str]:
-    """The notes under a summary table, one sentence each and each once: every local
-    maximum of a species with more than one, then the notes of each species.
+    """The notes under a summary table, one sentence each and each once.
+
+    Every local maximum of a species with more than one comes first, then the notes of
+    each species.
 
     Parameters
     ----------
@@ -363,8 +370,10 @@ _EQUILIBRIUM_WORDS = {
 
 
 def activity_lines(activity: dict | None, time_unit: str) -> list[tuple[str, str]]:
-    """What a summary in activity units adds, as (label, text) pairs: the activity maxima,
-    why they fall where the amounts peak, and the equilibria of daughters and parents.
+    """What a summary in activity units adds, as (label, text) pairs.
+
+    The pairs are the activity maxima, why they fall where the amounts peak, and the
+    equilibria of daughters and parents.
 
     Parameters
     ----------

@@ -1,5 +1,6 @@
-"""The plot of a sweep: one summary quantity against the varied parameters (matplotlib,
-imported lazily; no pyplot).
+"""The plot of a sweep: one summary quantity against the varied parameters.
+
+Drawn with matplotlib, imported lazily; no pyplot.
 """
 
 from __future__ import annotations

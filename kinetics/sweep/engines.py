@@ -81,6 +81,7 @@ def run_chunks(
 def _run_local(
     plan: SweepPlan, chunks: list[int], on_result, curves: bool, threads: int | None
 ) -> None:
+    """Evaluate the chunks in this process, on ``threads`` threads (default: every CPU)."""
     import os
 
     n = threads if threads is not None else (os.cpu_count() or 1)
@@ -91,6 +92,14 @@ def _run_local(
         for k in chunks:
             on_result(evaluate_chunk(plan, k, curves))
         return
+    _run_threads(plan, chunks, on_result, curves, n)
+
+
+def _run_threads(plan: SweepPlan, chunks: list[int], on_result, curves: bool, n: int) -> None:
+    """Evaluate the chunks on ``n`` threads, at most ``n`` at a time, results as they come.
+
+    An interruption cancels the chunks not started.
+    """
     from concurrent.futures import FIRST_COMPLETED, ThreadPoolExecutor, wait
 
     todo = iter(chunks)

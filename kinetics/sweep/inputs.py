@@ -28,8 +28,7 @@ class _SetValues:
     """The varied values of a range of sets, by parameter name, as pairs ``(hi, lo)``."""
 
     def __init__(self, plan: SweepPlan, internal: np.ndarray, low: np.ndarray) -> None:
-        named = [*plan.parameters, *plan.spreads]
-        self.columns = {p.name: j for j, p in enumerate(named)}
+        self.columns = {p.name: j for j, p in enumerate(plan.varied)}
         self.internal = internal
         self.low = low
 
@@ -43,7 +42,7 @@ def _constant_pairs(plan: SweepPlan, name: str, varied: _SetValues):
 
     .. math:: k = A \exp(-E_a/(R T)) \text{ for Arrhenius constants}
     """
-    from ..scheme import arrhenius_pairs
+    from ..rate_constants import arrhenius_pairs
 
     scheme = plan.scheme
     law = scheme.constants[name].arrhenius
@@ -63,7 +62,7 @@ def _constant_pairs(plan: SweepPlan, name: str, varied: _SetValues):
 
 def _quantities(plan: SweepPlan) -> list[str]:
     """The named quantities the sets vary (grid axes and spreads)."""
-    return [p.name for p in (*plan.parameters, *plan.spreads) if p.kind == "quantity"]
+    return [p.name for p in plan.varied if p.kind == "quantity"]
 
 
 def _followers(plan: SweepPlan, varied: _SetValues, constants: dict, b: int) -> dict:
@@ -102,7 +101,7 @@ def _followers(plan: SweepPlan, varied: _SetValues, constants: dict, b: int) -> 
         key = (float(temps[i]), *(float(col[i]) for col in columns))
         values = cache.get(key)
         if values is None:
-            given = {
+            given: dict[str, float | Fraction] = {
                 c: Fraction(key[1 + 2 * m]) + Fraction(key[2 + 2 * m])
                 for m, c in enumerate(sources)
             }
@@ -144,7 +143,11 @@ def _step_rate(plan: SweepPlan, s: int, k, varied: _SetValues, b: int):
         return None
     if k is None:
         d = scheme.constants[step.constant]
-        k = dd.pair(d.value_si if d.arrhenius is None else d.arrhenius.exact(scheme.temperature))
+        if d.arrhenius is None:
+            k = dd.pair(d.value_si)
+        else:
+            assert scheme.temperature is not None  # a scheme with an Arrhenius law sets one
+            k = dd.pair(d.arrhenius.exact(scheme.temperature))
     kh = np.broadcast_to(np.asarray(k[0], dtype=float), (b,))
     kl = np.broadcast_to(np.asarray(k[1], dtype=float), (b,))
     if not step.co_reactants:
@@ -194,7 +197,7 @@ def input_pairs(plan: SweepPlan, internal: np.ndarray, low: np.ndarray):
         # start values written as activities follow the decay constants of each set
         for name, amounts in activity.start_amounts_for_rates(scheme, hi + lo).items():
             c0[:, scheme.index[name]] = amounts
-    for p in [*plan.parameters, *plan.spreads]:
+    for p in plan.varied:
         if p.kind == "start":
             c0[:, scheme.index[p.target]] = varied.get(p.name)[0]
     feed = scheme.feed_vector if scheme.feed else None
@@ -212,8 +215,10 @@ def input_rates(plan: SweepPlan, internal: np.ndarray):
 
 
 def set_inputs(plan: SweepPlan, i: int) -> dict[str, Any]:
-    """The inputs of set ``i`` in the form :func:`kinetics.ratematrix.step_rates` and
-    :meth:`kinetics.scheme.Scheme.with_values` take (for checking single sets).
+    """The inputs of set ``i``, for checking single sets.
+
+    They have the form :func:`kinetics.ratematrix.step_rates` and
+    :meth:`kinetics.scheme.Scheme.with_values` take.
 
     Returns
     -------
@@ -242,7 +247,7 @@ def set_inputs(plan: SweepPlan, i: int) -> dict[str, Any]:
             out["constants"][c] = float(np.asarray(k[0]).reshape(-1)[0])
     for q in _quantities(plan):
         out["quantities"][q] = float(varied.get(q)[0][0])
-    for p in [*plan.parameters, *plan.spreads]:
+    for p in plan.varied:
         if p.kind in ("start", "excess"):
             out["initial" if p.kind == "start" else "excess"][p.target] = float(
                 varied.get(p.name)[0][0]

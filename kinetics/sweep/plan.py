@@ -90,6 +90,7 @@ class Column:
 
     @property
     def header(self) -> str:
+        """The column header: quantity, species and unit."""
         return f"{self.quantity} {self.species} [{self.unit}]"
 
 
@@ -145,6 +146,7 @@ class SweepPlan:
     # -- sizes -------------------------------------------------------------------------
     @property
     def grid_shape(self) -> tuple[int, ...]:
+        """Number of values of each grid axis."""
         return tuple(p.values.size for p in self.parameters)
 
     @property
@@ -159,6 +161,7 @@ class SweepPlan:
 
     @property
     def n_chunks(self) -> int:
+        """Number of chunks (the last one may be shorter)."""
         return -(-self.n_sets // self.chunk_size)
 
     def chunk_bounds(self, k: int) -> tuple[int, int]:
@@ -174,11 +177,18 @@ class SweepPlan:
         return [p.column for p in self.parameters] + [s.column for s in self.spreads]
 
     @property
+    def varied(self) -> tuple[Parameter | Spread, ...]:
+        """Grid axes, then sampled parameters (the order of :attr:`parameter_columns`)."""
+        return (*self.parameters, *self.spreads)
+
+    @property
     def summary_columns(self) -> list[str]:
+        """Headers of the summary columns."""
         return [c.header for c in self.columns]
 
     @property
     def grid_columns(self) -> list[str]:
+        """Headers of the grid axes."""
         return [p.column for p in self.parameters]
 
     @property
@@ -213,6 +223,7 @@ class SweepPlan:
         }
 
     def definition_hash(self, curves: bool = False) -> str:
+        """SHA-256 of :meth:`definition`: equal plans give equal results."""
         text = json.dumps(self.definition(curves), sort_keys=True)
         return hashlib.sha256(text.encode()).hexdigest()
 
@@ -262,11 +273,12 @@ class SweepPlan:
                 internal[:, j] = p.internal[pos[j]]
         if self.spreads:
             # common random numbers: sample j of every grid point uses counter block j
-            j = idx % self.samples
+            sample = idx % self.samples
             z = np.empty((b, len(self.spreads)))
-            cut = np.flatnonzero(np.diff(j) != 1) + 1
+            cut = np.flatnonzero(np.diff(sample) != 1) + 1
             for lo, hi in zip(np.r_[0, cut], np.r_[cut, b], strict=True):
-                z[lo:hi] = _standard_normals(self.seed, int(j[lo]), int(hi - lo), len(self.spreads))
+                first = int(sample[lo])
+                z[lo:hi] = _standard_normals(self.seed, first, int(hi - lo), len(self.spreads))
             for k, s in enumerate(self.spreads):
                 j = len(self.parameters) + k
                 if s.distribution == "lognormal":
@@ -381,15 +393,14 @@ def make_plan(
     parameters = axes(scheme, vary, words)
     spreads = spreads_of(scheme, spread, words)
     seen: set[str] = set()
-    for p in (*parameters, *spreads):
+    varied: tuple[Parameter | Spread, ...] = (*parameters, *spreads)
+    for p in varied:
         if p.name in seen:
             raise UsageError(f"{p.name} is varied twice", words.once)
         seen.add(p.name)
     samples = _check_sampling(samples, seed, bool(spreads), words)
     _check_options(chunk_size, precision, summary_method)
-    if scheme.temperature is None and any(
-        p.kind in ("prefactor", "energy") for p in (*parameters, *spreads)
-    ):
+    if scheme.temperature is None and any(p.kind in ("prefactor", "energy") for p in varied):
         raise UsageError("the scheme sets no temperature", "add a temperature line")
     if activity_unit is not None:
         from ..activity import activity_factors
@@ -440,7 +451,9 @@ def check_memory(plan: SweepPlan, curves: bool) -> None:
 
 def _whole(value, least: int) -> bool:
     """A whole number (not a bool) of at least ``least``."""
-    return not isinstance(value, bool) and isinstance(value, int | np.integer) and value >= least
+    return (
+        not isinstance(value, bool) and isinstance(value, int | np.integer) and bool(value >= least)
+    )
 
 
 def _check_sampling(samples, seed, has_spreads: bool, words: Words) -> int:
@@ -474,8 +487,10 @@ def _set_text(plan: SweepPlan, values) -> str:
 
 
 def _located_inputs(plan: SweepPlan, start: int, display, internal):
-    """:func:`input_rates` of a block of sets; a set whose values a definition of the
-    scheme cannot take is named (``set 3 (t_p [h] = -1): ...``).
+    """:func:`input_rates` of a block of sets, naming a set that cannot be evaluated.
+
+    A set whose values a definition of the scheme cannot take is named
+    (``set 3 (t_p [h] = -1): ...``).
     """
     try:
         return input_rates(plan, internal)

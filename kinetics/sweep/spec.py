@@ -170,63 +170,84 @@ def _parse_vary(scheme: Scheme, spec: str, where: str, help_: str) -> Parameter:
     target = parameters.resolve(scheme, name, SweepWords(where))
     texts = None
     fields = [f.strip() for f in body.split(":")]
-    unit = ""
-    spacing = "list"
     if len(fields) >= 3 and all(_NUMBER_RE.match(f) for f in fields[:3]) and "," not in body:
-        lo, hi = float(fields[0]), float(fields[1])
-        try:
-            count = int(fields[2])
-        except ValueError:
-            raise UsageError(
-                f"{where}: the number of values {fields[2]!r} is not a whole number", help_
-            ) from None
-        if count < 1 or str(count) != fields[2].lstrip("+"):
-            raise UsageError(
-                f"{where}: the number of values must be a whole number >= 1, not {fields[2]!r}",
-                help_,
-            )
-        if count > MAX_AXIS:
-            raise UsageError(
-                f"{where}: {count:,} values on one axis are too many (at most {MAX_AXIS:,})",
-                "use fewer values",
-            )
-        spacing = "lin"
-        for extra in fields[3:]:
-            if extra.lower() in ("log", "lin", "linear"):
-                spacing = "log" if extra.lower() == "log" else "lin"
-            elif extra and not unit:
-                unit = extra
-            else:
-                raise UsageError(f"{where}: unexpected field {extra!r}", help_)
-        if not (math.isfinite(lo) and math.isfinite(hi)):
-            raise UsageError(f"{where}: the range ends must be finite numbers", help_)
-        if count == 1 and lo != hi:
-            raise UsageError(
-                f"{where}: a range from {lo:g} to {hi:g} needs at least 2 values", help_
-            )
-        if spacing == "log":
-            if lo <= 0 or hi <= 0:
-                raise UsageError(
-                    f"{where}: log spacing needs positive ends", "use linear spacing or LO > 0"
-                )
-            values = np.geomspace(lo, hi, count) if count > 1 else np.array([lo])
-        else:
-            values = np.linspace(lo, hi, count) if count > 1 else np.array([lo])
+        values, unit, spacing = _range_values(fields, where, help_)
     else:
-        head, *rest = fields
-        if len(rest) > 1:
-            raise UsageError(f"{where} is neither a range LO:HI:N nor a list", help_)
-        numbers, spaced_unit = _split_unit(head)
-        unit = rest[0] if rest else spaced_unit
-        if rest and spaced_unit:
-            raise UsageError(f"{where} gives two units", help_)
-        items = [x for x in numbers.split(",")]
-        if any(not _NUMBER_RE.match(x) for x in items):
-            bad = next(x for x in items if not _NUMBER_RE.match(x))
-            raise UsageError(f"{where}: {bad!r} is not a number", help_)
-        values = np.array([float(x) for x in items])
-        texts = items
+        values, unit, texts = _listed_values(fields, where, help_)
+        spacing = "list"
     return _parameter(target, values, unit or target.unit, spacing, where, help_, texts)
+
+
+def _range_values(fields: list[str], where: str, help_: str) -> tuple[np.ndarray, str, str]:
+    """The values of a range ``LO:HI:N[:log][:UNIT]``, its unit as written and its spacing."""
+    lo, hi = float(fields[0]), float(fields[1])
+    count = _range_count(fields, where, help_)
+    spacing, unit = _range_options(fields[3:], where, help_)
+    if not (math.isfinite(lo) and math.isfinite(hi)):
+        raise UsageError(f"{where}: the range ends must be finite numbers", help_)
+    if count == 1 and lo != hi:
+        raise UsageError(f"{where}: a range from {lo:g} to {hi:g} needs at least 2 values", help_)
+    if spacing == "log":
+        if lo <= 0 or hi <= 0:
+            raise UsageError(
+                f"{where}: log spacing needs positive ends", "use linear spacing or LO > 0"
+            )
+        values = np.geomspace(lo, hi, count) if count > 1 else np.array([lo])
+    else:
+        values = np.linspace(lo, hi, count) if count > 1 else np.array([lo])
+    return values, unit, spacing
+
+
+def _range_count(fields: list[str], where: str, help_: str) -> int:
+    """The number of values ``N``, the third field of a range: a whole number, 1 to MAX_AXIS."""
+    try:
+        count = int(fields[2])
+    except ValueError:
+        raise UsageError(
+            f"{where}: the number of values {fields[2]!r} is not a whole number", help_
+        ) from None
+    if count < 1 or str(count) != fields[2].lstrip("+"):
+        raise UsageError(
+            f"{where}: the number of values must be a whole number >= 1, not {fields[2]!r}",
+            help_,
+        )
+    if count > MAX_AXIS:
+        raise UsageError(
+            f"{where}: {count:,} values on one axis are too many (at most {MAX_AXIS:,})",
+            "use fewer values",
+        )
+    return count
+
+
+def _range_options(extras: list[str], where: str, help_: str) -> tuple[str, str]:
+    """The spacing (``lin`` or ``log``) and the unit written after ``LO:HI:N``."""
+    unit = ""
+    spacing = "lin"
+    for extra in extras:
+        if extra.lower() in ("log", "lin", "linear"):
+            spacing = "log" if extra.lower() == "log" else "lin"
+        elif extra and not unit:
+            unit = extra
+        else:
+            raise UsageError(f"{where}: unexpected field {extra!r}", help_)
+    return spacing, unit
+
+
+def _listed_values(fields: list[str], where: str, help_: str) -> tuple[np.ndarray, str, list[str]]:
+    """The values of a list ``V1,V2,V3[:UNIT]`` (or with the unit after a space), as written."""
+    head, *rest = fields
+    if len(rest) > 1:
+        raise UsageError(f"{where} is neither a range LO:HI:N nor a list", help_)
+    numbers, spaced_unit = _split_unit(head)
+    unit = rest[0] if rest else spaced_unit
+    if rest and spaced_unit:
+        raise UsageError(f"{where} gives two units", help_)
+    items = [x for x in numbers.split(",")]
+    if any(not _NUMBER_RE.match(x) for x in items):
+        bad = next(x for x in items if not _NUMBER_RE.match(x))
+        raise UsageError(f"{where}: {bad!r} is not a number", help_)
+    values = np.array([float(x) for x in items])
+    return values, unit, items
 
 
 def _check_range(values: np.ndarray, texts: list[str], where: str) -> None:
@@ -343,6 +364,7 @@ class Spread:
         return Target(self.name, self.kind, self.target, self.unit, nominal=self.nominal)
 
     def describe(self) -> dict[str, Any]:
+        """JSON-ready definition (used in the definition hash and the manifest)."""
         return {
             "name": self.name,
             "distribution": self.distribution,
@@ -486,6 +508,7 @@ class Words:
 
     @staticmethod
     def place(option: str, spec: str) -> str:
+        """Where a message points: the option and the text given to it."""
         return f"{option} {spec!r}"
 
 

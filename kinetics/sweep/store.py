@@ -35,7 +35,7 @@ import tempfile
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, TextIO
 
 import numpy as np
 
@@ -50,6 +50,7 @@ from .tables import summary_frame as _summary_frame
 
 if TYPE_CHECKING:
     import pandas as pd
+    import pyarrow.parquet
 
 __all__ = ["ChunkStore", "OutputLock", "SweepRun", "TableWriter", "run_sweep"]
 
@@ -135,6 +136,7 @@ class ChunkStore:
                     p.unlink()
 
     def path(self, k: int) -> Path:
+        """The file of chunk ``k``."""
         return self.folder / f"chunk_{k:06d}.npz"
 
     def done(self) -> set[int]:
@@ -147,6 +149,7 @@ class ChunkStore:
         return out
 
     def missing(self) -> list[int]:
+        """Numbers of the chunks still to evaluate, in order."""
         have = self.done()
         return [k for k in range(self.plan.n_chunks) if k not in have]
 
@@ -181,7 +184,8 @@ class ChunkStore:
                     arrays["curves"] = result.curves
                 if result.bound is not None:
                     arrays["bound"] = result.bound
-                np.savez(fh, **arrays)
+                # numpy's stub reads **arrays as if it could hold the flag allow_pickle
+                np.savez(fh, **arrays)  # type: ignore[arg-type]
                 fh.flush()
                 os.fsync(fh.fileno())
             os.replace(tmp, target)
@@ -267,8 +271,8 @@ class TableWriter:
         self.metadata = metadata or {}
         self._ctx = atomic_path(self.path)
         self._tmp = self._ctx.__enter__()
-        self._fh = None
-        self._pq = None
+        self._fh: TextIO | None = None
+        self._pq: pyarrow.parquet.ParquetWriter | None = None
         self._rows = 0
         self._buffer: list = []
         self._buffered = 0

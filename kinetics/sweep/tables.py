@@ -129,8 +129,7 @@ def curves_array(plan: SweepPlan, results: Sequence[ChunkResult], values=None):
         "time": ("time", plan.times / time_factor(plan.time_unit), {"units": plan.time_unit}),
         "species": ("species", plan.scheme.species_names),
     }
-    named = [*plan.parameters, *plan.spreads]
-    for j, (p, column) in enumerate(zip(named, plan.parameter_columns, strict=True)):
+    for j, (p, column) in enumerate(zip(plan.varied, plan.parameter_columns, strict=True)):
         coords[p.name] = ("set", parameters[:, j], {"units": p.unit, "column": column})
     if all(r.bound is not None for r in results):
         bound = np.concatenate([r.bound for r in results])
@@ -251,8 +250,8 @@ def percentile_bands(plan: SweepPlan, summary: pd.DataFrame) -> pd.DataFrame:
             warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN columns -> NaN
             pct = np.nanpercentile(blocks, PERCENTILES, axis=1)  # (3, g, q)
     for j, name in enumerate(plan.summary_columns):
-        for k, p in enumerate(PERCENTILES):
-            data[band_label(name, p)] = pct[k, :, j]
+        for k, percent in enumerate(PERCENTILES):
+            data[band_label(name, percent)] = pct[k, :, j]
     if BOUND_COLUMN in summary:  # the worst of the grid point's samples
         data[BOUND_COLUMN] = summary[BOUND_COLUMN].to_numpy(dtype=float).reshape(g, n).max(axis=1)
     return pd.DataFrame(data)
@@ -289,6 +288,6 @@ def curve_bands(plan: SweepPlan, curves: np.ndarray, grid_point: int) -> pd.Data
     data[f"time [{plan.time_unit}]"] = np.repeat(plan.times / tf, n)
     data["species"] = pd.Categorical.from_codes(np.tile(np.arange(n), m), plan.scheme.species_names)
     label = f"{plan.value_name} [{plan.concentration_unit}]"
-    for k, p in enumerate(PERCENTILES):
-        data[band_label(label, p)] = pct[k].reshape(-1)
+    for k, percent in enumerate(PERCENTILES):
+        data[band_label(label, percent)] = pct[k].reshape(-1)
     return pd.DataFrame(data)
