@@ -172,8 +172,9 @@ def _final_state(solution: Solution, end: float) -> dict:
     if ended and feed is not None:
         feed = feed.copy()
         for e in ended:
-            i = scheme.index[e.species]
-            feed[i] = max(feed[i] - e.value, 0.0)
+            if e.species is not None and e.value is not None:  # a feed names both
+                i = scheme.index[e.species]
+                feed[i] = max(feed[i] - e.value, 0.0)
         feed = feed if feed.any() else None
     return {"time": time, "c": c, "K": K, "K_low": K_low, "feed": feed}
 
@@ -333,9 +334,9 @@ def _pieces(solution: Solution, run: Run) -> RunPieces:
     def survey(k: int) -> Survey | None:
         if k < len(stretches):
             return run.survey(k)
-        if k not in surveyed:
+        if k not in surveyed and final is not None:
             surveyed[k] = Survey.of(final)
-        return surveyed[k]
+        return surveyed.get(k)
 
     def searched(k: int, j: int) -> bool:
         if k >= len(stretches) or (few and not stretches[k].ramp):
@@ -465,13 +466,13 @@ def _whole(scheme_wide: dict, solution: Solution, moved: dict, last: dict) -> No
     """Times from time 0, amounts formed over the run, and the note on the conditions."""
     if scheme_wide.get("time_to_limit") is not None:
         scheme_wide["time_to_limit"] += last["time"]
-    note = TimedText(
+    after_last = TimedText(
         "the long-time limit, the time to it, lifetimes and relaxation "
         "times refer to the conditions after the last operation (from ",
         last["time"],
         " on, continued without end)",
     )
-    note = joined("; ", [note, *solution.notes])
+    note = joined("; ", [after_last, *solution.notes])
     names = solution.species
     c0 = dict(zip(names, solution.scheme.initial_vector.tolist(), strict=True))
     start = dict(zip(names, last["c"].tolist(), strict=True))
