@@ -91,8 +91,10 @@ class TemperatureLog:
     lines: tuple[int, ...] = ()
 
     def timeline(self) -> Timeline:
-        """The record as temperature steps: one at the first reading and one at each
-        reading that differs from the previous one.
+        """The record as temperature steps.
+
+        One at the first reading and one at each reading that differs from the previous
+        one.
         """
         statements = []
         previous = math.nan
@@ -176,8 +178,9 @@ class TemperatureLog:
     def mean_kinetic_temperature(
         self, activation_energy: float = DEFAULT_ACTIVATION_ENERGY, end: float | None = None
     ) -> float:
-        """Mean kinetic temperature [K] from the first reading to ``end`` [s] (default:
-        the last reading); see :func:`mean_kinetic_temperature`.
+        """Mean kinetic temperature [K] from the first reading to ``end`` [s].
+
+        ``end`` defaults to the last reading; see :func:`mean_kinetic_temperature`.
         """
         return mean_kinetic_temperature(self.times, self.temperatures, activation_energy, end)
 

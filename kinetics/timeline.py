@@ -174,8 +174,9 @@ class Plan:
 
 
 def _when(value: float, place: Place) -> str:
-    """A time [s] of a message: in the unit its line was written in (a scheme file), else
-    in seconds as given.
+    """A time [s] of a message.
+
+    In the unit its line was written in (a scheme file), else in seconds as given.
     """
     if place.time_unit == "s":
         return f"{shown_value(value)} s"
@@ -344,8 +345,10 @@ def _note(place: Place, sentence: str) -> str:
 
 
 def _repetitions(every: Every, end: float) -> tuple[list[float], int, int, float]:
-    """Times of ``every`` inside the window, their count, and the count and first time of
-    those after the window (up to ``until``).
+    """Times of ``every`` inside the window and after it.
+
+    The times inside the window, their count, and the count and first time of those
+    after the window (up to ``until``).
 
     Times are :math:`T_0 + kP`, each computed exactly and rounded once.
     """

@@ -250,8 +250,9 @@ class _Conditions:
         return out
 
     def _ramp_moments(self, ramp: int, a: float, b: float) -> dict[str, tuple[float, float]]:
-        """Moments m0, m1 of every Arrhenius constant over ``[a, b]`` (Gauss-Legendre,
-        panels over which ln k changes by at most 1/2).
+        """Moments m0, m1 of every Arrhenius constant over ``[a, b]``.
+
+        By Gauss-Legendre on panels over which ln k changes by at most 1/2.
         """
         from .units import GAS_CONSTANT
 
@@ -296,8 +297,9 @@ class _Conditions:
 
 
 def _temperature_regions(scheme: Scheme, plan: Plan) -> list[tuple[float, object]]:
-    """``(from time, regime)`` in time order: regime a temperature [K] (None: the
-    scheme's) or the index of a ramp.
+    """``(from time, regime)`` in time order.
+
+    The regime is a temperature [K] (None: the scheme's) or the index of a ramp.
     """
     # at one time: a ramp's end, then a step (which overrides it), then a ramp's start
     changes: list[tuple[float, int, object]] = [(0.0, -1, None)]
@@ -415,9 +417,10 @@ class _Chain:
         return x, e
 
     def _add(self, op, x, e: float):
-        r"""An addition: :math:`c \mapsto \kappa c + \sigma a` with the exact factors
-        :math:`\kappa = V/(V + v)` and :math:`\sigma = V_0/(V + v)` of a run with volumes
-        (both 1 otherwise), each rounded once.
+        r"""An addition: :math:`c \mapsto \kappa c + \sigma a`.
+
+        With the exact factors :math:`\kappa = V/(V + v)` and :math:`\sigma = V_0/(V + v)`
+        of a run with volumes (both 1 otherwise), each rounded once.
         """
         index = self.scheme.index
         if op.kept != 1:

@@ -117,8 +117,10 @@ def _pairs(values) -> tuple[tuple[str, float], ...]:
 
 @dataclass(frozen=True, slots=True)
 class Addition:
-    r"""Instant rise of named species [the scheme's ``concentration_unit``; for a scheme
-    written in mass units that is its amount twin, so masses are converted first].
+    r"""Instant rise of named species [the scheme's ``concentration_unit``].
+
+    For a scheme written in mass units that unit is its amount twin, so masses are
+    converted first.
 
     Without volumes (the default) each named species rises by its amount.  In a run
     with volumes (:attr:`Timeline.volume`, the volume :math:`V_0` at time 0), an
@@ -156,8 +158,9 @@ class Addition:
 
     @classmethod
     def portion(cls, volume: float, concentrations, start_volume: float) -> Addition:
-        """A portion of ``volume`` [m^3] holding ``concentrations`` [concentration_unit],
-        added to a run that started with ``start_volume`` [m^3] (amounts exact, rounded
+        """A portion of ``volume`` [m^3] holding ``concentrations`` [concentration_unit].
+
+        Added to a run that started with ``start_volume`` [m^3] (amounts exact, rounded
         once).
         """
         scale = Fraction(volume) / Fraction(start_volume)

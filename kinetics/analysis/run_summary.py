@@ -71,8 +71,10 @@ _FRACTIONS = {
 def summarise_run(
     solution: Solution, tolerance: float = 0.01, *, run: Run | None = None
 ) -> tuple[dict, dict]:
-    r"""Per-species and whole-scheme summary of a run with operations, in seconds and the
-    scheme's concentration unit (the keys of :func:`kinetics.analysis.summarise_all`).
+    r"""Per-species and whole-scheme summary of a run with operations.
+
+    In seconds and the scheme's concentration unit, with the keys of
+    :func:`kinetics.analysis.summarise_all`.
 
     Parameters
     ----------
@@ -150,8 +152,9 @@ def summarise_run(
 
 
 def _final_state(solution: Solution, end: float) -> dict:
-    """The conditions after the last operation: from the last stretch, with the
-    operations at the end of the window applied.
+    """The conditions after the last operation.
+
+    Those of the last stretch, with the operations at the end of the window applied.
     """
     stretches = solution.stretches
     scheme = solution.scheme
@@ -215,8 +218,9 @@ class Run:
         self._surveys: dict[int, Survey | None] = {}
 
     def screened(self) -> bool:
-        """Whether some stretches are searched for requirements only where they may
-        cross (see :data:`REQUIREMENTS_SCREENED_NOTE`).
+        """Whether some stretches are searched for requirements only where they may cross.
+
+        See :data:`REQUIREMENTS_SCREENED_NOTE`.
         """
         ramps = sum(s.ramp for s in self.stretches)
         return ramps > 0 or len(self.stretches) - ramps > MAX_STRETCHES
@@ -239,8 +243,10 @@ class Run:
         return self._surveys[k]
 
     def turns_inside(self, k: int, j: int) -> bool:
-        """Whether stretch ``k`` may hold a maximum of species ``j``: always outside ramps
-        (surveyed); inside a ramp when the slope turns from rising to falling.
+        """Whether stretch ``k`` may hold a maximum of species ``j``.
+
+        Always outside ramps (surveyed); inside a ramp when the slope turns from rising to
+        falling.
         """
         s = self.stretches[k]
         if not s.ramp:
@@ -311,8 +317,10 @@ def run_requirements(solution: Solution, *, run: Run | None = None) -> Requireme
 
 
 def _pieces(solution: Solution, run: Run) -> RunPieces:
-    """The stretches of the run and, after operations at the window's end, the final
-    conditions as one more piece continued without end.
+    """The stretches of the run as the pieces of :func:`requirements_on_run`.
+
+    After operations at the window's end, the final conditions are one more piece,
+    continued without end.
     """
     stretches = run.stretches
     c0 = solution.scheme.initial_vector
@@ -361,8 +369,9 @@ def _slope(stretch, c) -> np.ndarray:
 
 
 def _maxima(entry: dict, run: Run, j: int) -> None:
-    """Local maxima inside the stretches and at every operation; the highest is global
-    when it reaches the start value and the limit.
+    """Local maxima inside the stretches and at every operation.
+
+    The highest is global when it reaches the start value and the limit.
     """
     found = []
     stretches = run.stretches
@@ -388,8 +397,9 @@ def _maxima(entry: dict, run: Run, j: int) -> None:
 
 
 def _jump_maxima(run: Run, j: int) -> list[dict]:
-    """Maxima at operations: rising into a drop (just before), falling after a rise (just
-    after).
+    """Maxima at operations.
+
+    Rising into a drop (just before), falling after a rise (just after).
     """
     out = []
     stretches = run.stretches
@@ -453,8 +463,10 @@ def _crossings(entry: dict, run: Run, j: int, moved: dict, notes: list) -> None:
 
 
 def _areas(entry: dict, areas: list, j: int, before: int) -> None:
-    """Area to the end of the window, and to infinity: the area of the ``before``
-    stretches ahead of the final state plus its own area to infinity.
+    """Area to the end of the window, and to infinity.
+
+    To infinity: the area of the ``before`` stretches ahead of the final state plus its
+    own area to infinity.
     """
     entry["area_to_window_end"] = float(sum(a[j] for a in areas))
     tail = entry.get("area_to_infinity")

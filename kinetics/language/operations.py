@@ -1,5 +1,6 @@
-"""Operation lines of a scheme (the first pass): ``at``, ``every``, ``from ... to ...``
-and the run's ``volume``.
+"""Operation lines of a scheme (the first pass): ``at``, ``every``, ``from``, ``volume``.
+
+The lines ``at ...``, ``every ...`` and ``from ... to ...``, and the run's ``volume``.
 
 One operation per line; a time ``T`` is a duration with a unit or the name of one::
 
@@ -401,8 +402,9 @@ def _add(line: Line, body: str, at: int, errors: list[SchemeError]) -> AddAction
 
 
 def _is_volume(text: str, items: str | None) -> bool:
-    """True when the words after ``add`` are a portion's volume: a number (with its unit),
-    a single name, or anything followed by ``with``.
+    """True when the words after ``add`` are a portion's volume.
+
+    A number (with its unit), a single name, or anything followed by ``with``.
     """
     text = text.strip()
     if not text or "=" in text:

@@ -1,5 +1,6 @@
-r"""Operation lines resolved (the second pass): times, amounts and volumes in core units,
-checked together with :func:`kinetics.timeline.check`.
+r"""Operation lines resolved (the second pass): times, amounts and volumes in core units.
+
+Checked together with :func:`kinetics.timeline.check`.
 
 Every number of an operation becomes the core's unit (seconds, kelvin, the scheme's
 concentration unit, m^3), converted exactly and rounded once; a number written as the
@@ -369,8 +370,9 @@ class _Reader(_Numbers):
         return Every(times[0], core, times[1], times[2], place, tuple(bound))
 
     def written_unit(self, times: Iterable[Quantity | None]) -> str:
-        """The unit of time of the first time of a line written with one (its messages
-        quote times in it); ``"s"`` when none is.
+        """The unit of time of the first time of a line written with one.
+
+        Messages about the line quote times in it; ``"s"`` when no time has a unit.
         """
         for q in times:
             if q is None:

@@ -31,8 +31,9 @@ __all__ = ["run_chunk", "set_scheme"]
 
 
 def set_scheme(plan: SweepPlan, internal: np.ndarray, low: np.ndarray) -> Scheme:
-    """The scheme of one set: its values given exactly, its operations following them
-    (:func:`kinetics.parameters.scheme_with`).
+    """The scheme of one set: its values given exactly, its operations following them.
+
+    See :func:`kinetics.parameters.scheme_with`.
 
     Parameters
     ----------
@@ -86,8 +87,9 @@ def run_chunk(plan: SweepPlan, start: int, stop: int, curves: bool = False):
 
 
 def _first_broken(solution, run) -> list[float | None]:
-    """[s] The first time each requirement of the set is broken (None: it always holds),
-    on the exact piecewise solution of the run
+    """[s] The first time each requirement of the set is broken (None: it always holds).
+
+    On the exact piecewise solution of the run
     (:func:`kinetics.analysis.run_summary.run_requirements`).
     """
     if not solution.scheme.requirements:
