@@ -14,6 +14,8 @@ import math
 import mpmath
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import kinetics
 from kinetics.analysis.run_summary import summarise_run
@@ -255,3 +257,50 @@ def test_an_addition_at_time_zero_breaks_a_requirement_from_the_start(end_hours)
     (t,) = out.times
     assert (t.first_broken, t.by_operation, t.holds_between) == (0.0, True, ())
     assert out.window is None
+
+
+@settings(max_examples=15, deadline=None)
+@given(
+    st.lists(
+        st.tuples(
+            st.integers(1, 40),  # time [0.1 h]
+            st.sampled_from(["add", "remove"]),
+            st.integers(5, 95),  # amount [0.01 M] or part removed [%]
+        ),
+        min_size=1,
+        max_size=4,
+        unique_by=lambda op: op[0],
+    ),
+    st.integers(20, 80),  # the level [% of the start]
+)
+def test_first_broken_of_a_decay_with_operations_matches_the_closed_form(ops, level):
+    # A -> B, k = 0.3 1/h, start 1 M, require A >= level % of the start.  Per stretch
+    # A = A(a+) e^{-k (t - a)} falls monotonically (closed form), so it is broken inside
+    # the first stretch whose fall reaches the level, at a + ln(A(a+)/L)/k, or at the
+    # first removal that takes it below L (additions only raise it)
+    k, L = 0.3, level / 100
+    ops = sorted(ops)
+    lines = [f"A -> B  k = {k} 1/h", "start A = 1 M", f"require A >= {level} %"]
+    for t, kind, x in ops:
+        if kind == "add":
+            lines.append(f"at {t / 10} h: add A = {x / 100} M")
+        else:
+            lines.append(f"at {t / 10} h: remove {x} % of A")
+    out = checked("\n".join(lines), 5)
+    a, value, expected, by_op = 0.0, 1.0, None, False
+    for t, kind, x in [*ops, (math.inf, "end", 0)]:
+        stop = t / 10
+        if value >= L and a + math.log(value / L) / k < stop:
+            expected = a + math.log(value / L) / k
+            break
+        if kind == "end":
+            break
+        before = value * math.exp(-k * (stop - a))
+        value = before + x / 100 if kind == "add" else before * (1 - x / 100)
+        a = stop
+        if before >= L > value:
+            expected, by_op = stop, True
+            break
+    (t,) = out.times
+    assert t.first_broken == pytest.approx(expected * HOUR, rel=1e-12)
+    assert t.by_operation is by_op
