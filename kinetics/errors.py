@@ -40,12 +40,14 @@ __all__ = [
     "KineticsError",
     "OutputFileError",
     "OutputUnitError",
+    "ParameterSpecError",
     "RateMatrixError",
     "SchemeError",
     "SchemeErrors",
     "SchemeFileError",
     "SettingError",
     "SpeciesError",
+    "SweepStoreError",
     "TableSizeError",
     "TemperatureError",
     "TimesError",
@@ -315,7 +317,8 @@ class ArgumentValueError(_ProblemAndHint, ValueError):
     the numerical core (:class:`RateMatrixError`, :class:`ConcentrationError`,
     :class:`TimesError`, :class:`TemperatureError`, :class:`ConstantError`,
     :class:`ConditionError`, :class:`OutputUnitError`, :class:`SpeciesError`,
-    :class:`SettingError`, :class:`WorkingRangeError`, :class:`TableSizeError`):
+    :class:`SettingError`, :class:`WorkingRangeError`, :class:`TableSizeError`,
+    :class:`ParameterSpecError`, :class:`SweepStoreError`):
     ``except ArgumentValueError``
     catches a wrong value wherever it was given.
 
@@ -427,6 +430,35 @@ class SettingError(ArgumentValueError):
 
     A fraction or a tolerance outside (0, 1), or a choice such as ``where=`` or ``linear=``
     that is not one of those listed.
+    """
+
+
+class ParameterSpecError(ArgumentValueError):
+    """Parameters to vary, sample or fit, written in a form that cannot be used.
+
+    A grid axis or a spread with no ``=``, a count that is no whole number, a field that
+    is neither a number nor a unit, a spread that is too wide, a parameter named twice or
+    none at all (see :mod:`kinetics.sweep.spec` and :func:`kinetics.fit.parse_free`).
+    An unknown name is a :class:`ConstantError` (or :class:`SpeciesError`).
+
+    Examples
+    --------
+    >>> str(ParameterSpecError("--vary 'k2' has no '='", "write NAME=LO:HI:N"))
+    "--vary 'k2' has no '='; write NAME=LO:HI:N"
+    """
+
+
+class SweepStoreError(ArgumentValueError):
+    """The chunk folder or an output of a sweep on disk that cannot be used.
+
+    A path that is not a chunk folder, chunks of another sweep definition, a chunk file
+    that cannot be read or does not match, or an output another sweep is writing (see
+    :mod:`kinetics.sweep.store`).  Nothing was overwritten.
+
+    Examples
+    --------
+    >>> isinstance(SweepStoreError("'s.csv.chunks' belongs to another sweep"), ValueError)
+    True
     """
 
 

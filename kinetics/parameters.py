@@ -67,7 +67,14 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from . import _doubledouble as dd
-from .errors import UsageError
+from .errors import (
+    ArgumentValueError,
+    ConcentrationError,
+    ConstantError,
+    SpeciesError,
+    TemperatureError,
+    UnitError,
+)
 from .units import OFFSET_TEMPERATURES, normalise_unit, parse_unit, temperature_to_kelvin
 
 if TYPE_CHECKING:
@@ -91,6 +98,7 @@ __all__ = [
     "resolve",
     "scheme_with",
     "to_internal",
+    "value_error",
 ]
 
 #: Every kind of parameter, in the order of the table in the module docstring.
@@ -222,50 +230,50 @@ class SweepWords:
         close = closest(name, known)
         return f"did you mean {close!r}? " if close else ""
 
-    def unknown(self, scheme: Scheme, name: str) -> UsageError:
+    def unknown(self, scheme: Scheme, name: str) -> ConstantError:
         """The error for a name that is no rate constant or parameter of the scheme."""
         names = [*scheme.constants, *scheme.quantities]
         known = [*names, "temperature", "start:<species>", "excess:<species>"]
-        return UsageError(
+        return ConstantError(
             f"{self.where}: {name!r} is not a rate constant or parameter of the scheme",
             self._did_you_mean(name, names) + "parameters are " + ", ".join(known),
         )
 
-    def drives_nothing(self, name: str) -> UsageError:
+    def drives_nothing(self, name: str) -> ConstantError:
         """The error for a named quantity that no rate constant is defined from."""
-        return UsageError(
+        return ConstantError(
             f"{self.where}: no rate constant is defined from {name}, so it changes nothing",
             f"vary a quantity that a constant is defined from, e.g. k = ln(2) / {name}",
         )
 
-    def whole_arrhenius(self, name: str) -> UsageError:
+    def whole_arrhenius(self, name: str) -> ConstantError:
         """The error for a constant that follows the Arrhenius law, varied as a whole."""
-        return UsageError(
+        return ConstantError(
             f"{self.where}: {name} follows the Arrhenius law",
             f"vary {name}.A, {name}.Ea or temperature instead",
         )
 
-    def no_constant(self, scheme: Scheme, name: str, base: str) -> UsageError:
+    def no_constant(self, scheme: Scheme, name: str, base: str) -> ConstantError:
         """The error for ``base.A`` or ``base.Ea`` where the scheme has no constant ``base``."""
         constants = scheme.constants
-        return UsageError(
+        return ConstantError(
             f"{self.where}: the scheme has no rate constant {base!r}",
             self._did_you_mean(base, constants) + "the constants are " + ", ".join(constants),
         )
 
-    def not_a_part(self, scheme: Scheme, name: str, base: str, part: str) -> UsageError:
+    def not_a_part(self, scheme: Scheme, name: str, base: str, part: str) -> ConstantError:
         """The error for ``base.part`` whose part is no Arrhenius parameter (unknown name)."""
         return self.unknown(scheme, name)
 
-    def no_part(self, name: str, base: str, part: str) -> UsageError:
+    def no_part(self, name: str, base: str, part: str) -> ConstantError:
         """The error for ``base.A`` or ``base.Ea`` of a constant given as a number."""
-        return UsageError(
+        return ConstantError(
             f"{self.where}: {base} is given as a number, not by the Arrhenius law, so it has "
             f"no {part}",
             f"vary {base} itself, e.g. {base}=0.1:1:10:log",
         )
 
-    def not_a_species(self, scheme: Scheme, name: str, kind: str, species: str) -> UsageError:
+    def not_a_species(self, scheme: Scheme, name: str, kind: str, species: str) -> SpeciesError:
         """The error for ``start:S`` or ``excess:S`` naming no species of that kind."""
         known = scheme.species_names if kind == "start" else [s.name for s in scheme.excess_species]
         if kind == "start" and species in scheme.excess:
@@ -275,11 +283,11 @@ class SweepWords:
         else:
             hint = self._did_you_mean(species, known) + "the species are " + ", ".join(known)
         what = "a species of the scheme" if kind == "start" else "a species held in excess"
-        return UsageError(f"{self.where}: {species!r} is not {what}", hint)
+        return SpeciesError(f"{self.where}: {species!r} is not {what}", hint)
 
-    def temperature_unused(self) -> UsageError:
+    def temperature_unused(self) -> TemperatureError:
         """The error for varying the temperature of a scheme without an Arrhenius constant."""
-        return UsageError(
+        return TemperatureError(
             f"{self.where}: the scheme has no Arrhenius constant, so the temperature changes "
             "nothing",
             "define a constant as k = arrhenius(A = ..., Ea = ...) to sweep temperatures",
@@ -298,57 +306,57 @@ class _FitWords:
         text = f"{listing} " + ", ".join(candidates)
         return f"did you mean {close!r}? ({text})" if close else text
 
-    def unknown(self, scheme: Scheme, name: str) -> UsageError:
+    def unknown(self, scheme: Scheme, name: str) -> ConstantError:
         if scheme.quantities:
-            return UsageError(
+            return ConstantError(
                 f"free parameter {name!r} is not a rate constant or named quantity of the scheme",
                 self._listing(name, [*scheme.constants, *scheme.quantities], "the names are")
                 + "; start values are written start:SPECIES",
             )
-        return UsageError(
+        return ConstantError(
             f"free parameter {name!r} is not a rate constant of the scheme",
             self._listing(name, scheme.constants, "the constants are")
             + "; start values are written start:SPECIES",
         )
 
-    def drives_nothing(self, name: str) -> UsageError:
-        return UsageError(
+    def drives_nothing(self, name: str) -> ConstantError:
+        return ConstantError(
             f"free parameter {name!r}: no rate constant is defined from it, so the data "
             "cannot tell its value",
             f"free a quantity that a constant is defined from, e.g. k = ln(2) / {name}",
         )
 
-    def whole_arrhenius(self, name: str) -> UsageError:
-        return UsageError(
+    def whole_arrhenius(self, name: str) -> ConstantError:
+        return ConstantError(
             f"free parameter {name!r} follows the Arrhenius law",
             f"free its parameters instead: {name}.A and {name}.Ea",
         )
 
-    def no_constant(self, scheme: Scheme, name: str, base: str) -> UsageError:
-        return UsageError(
+    def no_constant(self, scheme: Scheme, name: str, base: str) -> ConstantError:
+        return ConstantError(
             f"free parameter {name!r}: there is no rate constant {base!r}",
             self._listing(base, scheme.constants, "the constants are"),
         )
 
-    def not_a_part(self, scheme: Scheme, name: str, base: str, part: str) -> UsageError:
-        return UsageError(
+    def not_a_part(self, scheme: Scheme, name: str, base: str, part: str) -> ConstantError:
+        return ConstantError(
             f"free parameter {name!r}: {part!r} is not an Arrhenius parameter",
             f"write {base}.A or {base}.Ea",
         )
 
-    def no_part(self, name: str, base: str, part: str) -> UsageError:
-        return UsageError(
+    def no_part(self, name: str, base: str, part: str) -> ConstantError:
+        return ConstantError(
             f"free parameter {name!r}: {base} is not an Arrhenius constant",
             f"free {base} itself, or define it as {base} = arrhenius(A = ..., Ea = ...)",
         )
 
-    def not_a_species(self, scheme: Scheme, name: str, kind: str, species: str) -> UsageError:
-        return UsageError(
+    def not_a_species(self, scheme: Scheme, name: str, kind: str, species: str) -> SpeciesError:
+        return SpeciesError(
             f"free parameter {name!r}: {species!r} is not a species of the scheme",
             self._listing(species, scheme.species_names, "the species are"),
         )
 
-    def temperature_unused(self) -> UsageError:  # pragma: no cover - fits free no temperature
+    def temperature_unused(self) -> TemperatureError:  # pragma: no cover - no temperature fit
         raise AssertionError("a fit does not free the temperature")
 
 
@@ -401,8 +409,10 @@ def resolve(scheme: Scheme, name: str, words) -> Target:
 
     Raises
     ------
-    UsageError
-        For a name that refers to nothing the caller may change, worded by ``words``.
+    kinetics.errors.ConstantError
+        For a name that refers to nothing the caller may change, worded by ``words``
+        (:class:`~kinetics.errors.SpeciesError` for an unknown species,
+        :class:`~kinetics.errors.TemperatureError` for a temperature that changes nothing).
 
     Examples
     --------
@@ -584,33 +594,53 @@ def _is_part_name(base: str, part: str) -> bool:
 # ---------------------------------------------------------------------------------------
 
 
+def value_error(target: Target) -> type[ArgumentValueError]:
+    """The typed error of a wrong unit or value given for ``target``.
+
+    :class:`~kinetics.errors.TemperatureError` for a temperature,
+    :class:`~kinetics.errors.ConcentrationError` for a start or excess concentration,
+    :class:`~kinetics.errors.ConstantError` for a rate constant, its Arrhenius parameters
+    or a named quantity.
+
+    Examples
+    --------
+    >>> value_error(Target("start:A", "start", "A", "mol/L")).__name__
+    'ConcentrationError'
+    """
+    if target.is_temperature:
+        return TemperatureError
+    if target.kind in ("start", "excess"):
+        return ConcentrationError
+    return ConstantError
+
+
 def check_unit(target: Target, unit: str, where: str, hint: str) -> None:
     """Refuse a ``unit`` without the dimension of the file's unit for ``target``.
 
     Raises
     ------
-    UsageError
+    kinetics.errors.ArgumentValueError
+        Of the type :func:`value_error` gives for ``target``:
         ``{where}: 'm' is not a unit``, ``... is not a temperature unit``, ``... is not a
         molar energy`` or ``... does not have the dimension of '1/min', the unit of k1 in
         the file``.
     """
+    error = value_error(target)
     try:
         spec = parse_unit(unit)
-    except ValueError:
-        raise UsageError(f"{where}: {unit!r} is not a unit", hint) from None
+    except UnitError:
+        raise error(f"{where}: {unit!r} is not a unit", hint) from None
     if target.is_temperature:
         if spec.dims != {"[temperature]": 1}:
-            raise UsageError(f"{where}: {unit!r} is not a temperature unit", "use K or degC")
+            raise error(f"{where}: {unit!r} is not a temperature unit", "use K or degC")
         return
     if target.kind == "energy":
         if spec.dims != _ENERGY_DIMS:
-            raise UsageError(
-                f"{where}: {unit!r} is not a molar energy", "write Ea in kJ/mol or J/mol"
-            )
+            raise error(f"{where}: {unit!r} is not a molar energy", "write Ea in kJ/mol or J/mol")
         return
     ref = parse_unit(target.unit)
     if spec.dimensions != ref.dimensions:
-        raise UsageError(
+        raise error(
             f"{where}: {unit!r} does not have the dimension of {target.unit!r}, the unit of "
             f"{target.name} in the file",
             f"write the values in {target.unit} or leave out the unit",
@@ -711,11 +741,18 @@ def from_internal(target: Target, x: np.ndarray, unit: str) -> np.ndarray:
 
 
 def check_values(target: Target, internal: np.ndarray, where: str, hint: str) -> None:
-    """Refuse values a scheme cannot take: not finite, negative, at or below 0 K."""
+    """Refuse values a scheme cannot take: not finite, negative, at or below 0 K.
+
+    Raises
+    ------
+    kinetics.errors.ArgumentValueError
+        Of the type :func:`value_error` gives for ``target``.
+    """
+    error = value_error(target)
     if not np.all(np.isfinite(internal)):
-        raise UsageError(f"{where}: a value is not a finite number", hint)
+        raise error(f"{where}: a value is not a finite number", hint)
     if target.is_temperature and np.any(internal <= 0):
-        raise UsageError(f"{where}: a temperature is at or below absolute zero", "check the unit")
+        raise error(f"{where}: a temperature is at or below absolute zero", "check the unit")
     if target.kind in ("constant", "prefactor", "start", "excess", "operation") and np.any(
         internal < 0
     ):
@@ -724,4 +761,4 @@ def check_values(target: Target, internal: np.ndarray, where: str, hint: str) ->
             "excess": "an excess concentration",
             "operation": f"a value of {target.name}",
         }.get(target.kind, "a rate constant")
-        raise UsageError(f"{where}: {what} is negative", "give values >= 0")
+        raise error(f"{where}: {what} is negative", "give values >= 0")

@@ -14,6 +14,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .engine import propagate_certified
+from .engine.checks import end_time
 from .engine.checks import time_list as check_times
 from .errors import (
     ArgumentTypeError,
@@ -112,13 +113,9 @@ def time_grid(until: float, points: int = 201) -> np.ndarray:
     >>> time_grid(60.0, 4).tolist()
     [0.0, 20.0, 40.0, 60.0]
     """
-    if not (np.isfinite(until) and until > 0):
-        raise TimesError(
-            f"the end time must be positive and finite, not {float(until):g} s",
-            "give the end of the window in seconds, e.g. 5400 for 90 min",
-        )
+    until = end_time(until)
     if points < 2:
-        raise TimesError(f"a grid needs at least 2 points, not {points}", "e.g. --points 201")
+        raise TimesError(f"a grid needs at least 2 points, not {points}", "e.g. points=201")
     _check_size(points)
     return np.linspace(0.0, until, points)
 

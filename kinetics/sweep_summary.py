@@ -97,7 +97,7 @@ from .analysis.tolerances import NEVER as _NEVER
 from .analysis.tolerances import RATIO, TAU0
 from .analysis.tolerances import SCAN_FAST as _SCAN_FAST
 from .analysis.tolerances import SCAN_SLOW as _SCAN_SLOW
-from .errors import UsageError
+from .errors import RateMatrixError
 
 __all__ = ["summarise_batch"]
 
@@ -370,14 +370,14 @@ def summarise_batch(
     K = np.asarray(K, dtype=float)
     c0 = np.asarray(c0, dtype=float)
     if K.ndim != 3 or K.shape[1] != K.shape[2] or c0.shape != K.shape[:2]:
-        raise UsageError("summarise_batch needs K (b, n, n) and c0 (b, n)", "check the shapes")
+        raise RateMatrixError("summarise_batch needs K (b, n, n) and c0 (b, n)", "check the shapes")
     b, n, _ = K.shape
     f = None if feed is None else np.asarray(feed, dtype=float).reshape(n)
     if f is not None and not f.any():
         f = None
     Kl = np.zeros_like(K) if K_low is None else np.asarray(K_low, dtype=float)
     if Kl.shape != K.shape:
-        raise UsageError("summarise_batch needs K_low of the shape of K", "check the shapes")
+        raise RateMatrixError("summarise_batch needs K_low of the shape of K", "check the shapes")
     out = {q: np.full((b, n), np.nan) for q in ("half_life", "t_max", "c_max", "limit")}
     if b == 0:
         return out

@@ -63,6 +63,65 @@ def test_bad_arrays_raise_typed_errors(K, c0, kind):
 
 
 @pytest.mark.parametrize(
+    ("K", "c0", "feed"),
+    [
+        (np.array([[-1.0, -0.1], [1.0, 0.0]]), [1, 0], None),
+        (scipy.sparse.csr_array(np.array([[-1.0, -0.1], [1.0, 0.0]])), [1, 0], None),
+        (np.zeros((2, 3)), [1, 0], None),
+        (np.array([[np.nan, 0], [0, 0]]), [1, 0], None),
+        ("abc", [1, 0], None),
+        (chain_matrix([1.0]), [1, 0, 0], None),
+        (chain_matrix([1.0]), [1, -1], None),
+        (chain_matrix([1.0]), [1, 0], [0, np.inf]),
+    ],
+)
+def test_the_analysis_words_a_mistake_as_the_engine_does(K, c0, feed):
+    # one home per check (kinetics.engine.checks): the same mistake, the same message
+    # (the messages themselves are pinned in test_propagate)
+    with pytest.raises(ArgumentValueError) as analysis:
+        an.long_time_limit(K, c0, feed=feed)
+    with pytest.raises(ArgumentValueError) as engine:
+        propagate(K, c0, [1.0], feed)
+    assert type(analysis.value) is type(engine.value)
+    assert str(analysis.value) == str(engine.value)
+
+
+def test_a_window_end_and_area_limits_are_worded_as_every_time():
+    # one wording per mistake: the window end as kinetics.solution.time_grid's end, the
+    # upper limits of areas as any time list (kinetics.engine.checks)
+    with pytest.raises(TimesError) as err:
+        an.intermediate_maxima(chain_matrix([1.0]), [1, 0], 1, t_window=-1.0)
+    assert str(err.value) == (
+        "t_window must be positive and finite, not -1 s; give the end of the window in "
+        "seconds, e.g. 5400 for 90 min"
+    )
+    with pytest.raises(TimesError) as err:
+        an.areas(chain_matrix([1.0]), [1, 0], [5.0, -1.0])
+    assert str(err.value) == "a time is negative (-1 s); times start at 0 (the start values)"
+    with pytest.raises(TimesError) as err:
+        an.areas(chain_matrix([1.0]), [1, 0], [np.inf])
+    assert str(err.value) == "a time is not a finite number; give finite times in seconds"
+    # in any order
+    assert an.areas(chain_matrix([1.0]), [1, 0], [2.0, 1.0]).to_end.shape == (2, 2)
+
+
+def test_a_sparse_rate_matrix_with_stored_zeros_is_left_as_given():
+    # the analysis drops stored zeros from its own copy, never from the caller's matrix
+    data = np.array([-1.0, 0.0, 1.0, 0.0])
+    K = scipy.sparse.csr_array((data, np.array([0, 1, 0, 1]), np.array([0, 2, 4])), shape=(2, 2))
+    # A -> B at 1/s: everything ends in B (closed form of the long-time limit)
+    np.testing.assert_allclose(an.long_time_limit(K, [1, 0]).values, [0.0, 1.0], atol=1e-15)
+    assert K.nnz == 4
+    assert K.data.tolist() == data.tolist()
+
+
+def test_an_empty_rate_matrix_is_refused():
+    with pytest.raises(RateMatrixError) as err:
+        an.long_time_limit(np.zeros((0, 0)), [])
+    assert str(err.value) == "the rate matrix K is empty; a scheme needs at least one species"
+
+
+@pytest.mark.parametrize(
     ("call", "kind"),
     [
         (lambda: an.half_life(chain_matrix([1.0]), [1, 0], 2), SpeciesError),

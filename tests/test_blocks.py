@@ -387,12 +387,20 @@ def test_feed_low_parts_are_honoured_and_bad_low_parts_refused():
             # closed form of a fed first member: A = f (1 - exp(-k t)) / k
             ref = mpmath.mpf(exact.numerator) / exact.denominator * -mpmath.expm1(-0.5 * tk) / 0.5
             assert float(abs(mpmath.mpf(float(X[k, 0])) - ref) / ref) <= max(bound[k], 2e-16)
-    from kinetics.errors import UsageError
+    from kinetics.errors import ConcentrationError, RateMatrixError
 
-    with pytest.raises(UsageError, match=r"K_low must have shape \(230, 230\), got \(3, 3\)"):
+    with pytest.raises(RateMatrixError) as info:
         propagate_blocks(K, np.ones(n), t, None, K_low=scipy.sparse.csr_array(np.eye(3)))
-    with pytest.raises(UsageError, match="K_low has a non-finite entry"):
+    assert str(info.value) == "K_low has shape (3, 3); it must have shape (230, 230)"
+    with pytest.raises(RateMatrixError) as info:
         propagate_blocks(K, np.ones(n), t, None, K_low=scipy.sparse.diags_array(np.full(n, np.nan)))
+    assert str(info.value) == "K_low contains inf or nan"
+    with pytest.raises(RateMatrixError) as info:
+        propagate_blocks(K, np.ones(n), t, None, K_low=[["x"]])
+    assert str(info.value) == "K_low is not a numeric array"
+    with pytest.raises(ConcentrationError) as info:
+        propagate_blocks(K, np.ones(n), t, feed, feed_low=np.ones(2))
+    assert str(info.value) == "feed_low has shape (2,); it must have shape (230,)"
 
 
 def test_block_sizes_agree_for_dense_and_sparse_and_do_not_touch_the_input():

@@ -15,7 +15,15 @@ import pytest
 
 import kinetics
 from kinetics.cli import main
-from kinetics.errors import DataError, UsageError
+from kinetics.errors import (
+    ArgumentTypeError,
+    ConditionError,
+    ConstantError,
+    DataError,
+    ParameterSpecError,
+    SettingError,
+    SpeciesError,
+)
 from kinetics.fit import fit, parse_free
 from kinetics.fit.model import Model, build_runs
 from kinetics.measurements import measurements_from_frame
@@ -212,28 +220,31 @@ def test_relative_weights_and_conditions(abc):
 
 
 @pytest.mark.parametrize(
-    ("free", "message"),
+    ("free", "error", "message"),
     [
         (
             "k9",
+            ConstantError,
             "free parameter 'k9' is not a rate constant of the scheme; the constants are "
             "k1, k2; start values are written start:SPECIES",
         ),
-        ("k1,k1", "the free parameter 'k1' is listed twice; list it once"),
+        ("k1,k1", ParameterSpecError, "the free parameter 'k1' is listed twice; list it once"),
         (
             "start:Z",
+            SpeciesError,
             "free parameter 'start:Z': 'Z' is not a species of the scheme; the species are A, B, C",
         ),
         (
             "k1.A",
+            ConstantError,
             "free parameter 'k1.A': k1 is not an Arrhenius constant; free k1 itself, or "
             "define it as k1 = arrhenius(A = ..., Ea = ...)",
         ),
-        ("", "no free parameter given; name at least one, e.g. k1 or k1,k2"),
+        ("", ParameterSpecError, "no free parameter given; name at least one, e.g. k1 or k1,k2"),
     ],
 )
-def test_bad_free_names(abc, free, message):
-    with pytest.raises(UsageError) as info:
+def test_bad_free_names(abc, free, error, message):
+    with pytest.raises(error) as info:
         parse_free(free, abc)
     assert str(info.value) == message
 
@@ -243,7 +254,7 @@ def test_arrhenius_names():
         "k1 = arrhenius(A = 1e10 1/s, Ea = 80 kJ/mol)\nA -> B  k1\ntemperature = 30 degC\n"
         "start A = 1 mol/L"
     )
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ConstantError) as info:
         parse_free("k1", scheme)
     assert str(info.value) == (
         "free parameter 'k1' follows the Arrhenius law; free its parameters instead: k1.A and k1.Ea"
@@ -262,10 +273,38 @@ def test_data_errors(abc, noisy):
     )
     with pytest.raises(DataError, match="weights 'column' need standard deviations"):
         fit(abc, noisy, "k1,k2", weights="column")
-    with pytest.raises(UsageError, match="start:A is free but <frame> also sets it"):
+    with pytest.raises(ConditionError) as info:
         fit(abc, [(noisy, {"start:A": "1 M"})], "k1,start:A")
-    with pytest.raises(UsageError, match="unknown weighting 'heavy'"):
+    assert (
+        str(info.value) == "start:A is free but <frame> also sets it; free it or set it, not both"
+    )
+    with pytest.raises(SettingError) as info:
         fit(abc, noisy, "k1", weights="heavy")
+    assert str(info.value) == (
+        "unknown weighting 'heavy'; use equal, relative, column or a dict of SDs"
+    )
+    with pytest.raises(SettingError) as info:
+        fit(abc, noisy, "k1", weights={"A": 1.0})
+    assert (
+        str(info.value) == "no standard deviation given for B; give one for every measured species"
+    )
+    with pytest.raises(SettingError) as info:
+        fit(abc, noisy, "k1", weights={"B": 0.0, "C": 1.0})
+    assert str(info.value) == "standard deviations must be positive"
+    with pytest.raises(SettingError) as info:
+        fit(abc, noisy, "k1", jacobian="4-point")
+    assert str(info.value) == "unknown jacobian '4-point'; use exact, 2-point or 3-point"
+    with pytest.raises(SettingError) as info:
+        fit(abc, noisy, "k1", engine="fast")
+    assert str(info.value) == "unknown engine 'fast'; use block or entrywise"
+    with pytest.raises(ArgumentTypeError) as info:
+        fit(abc, 5, "k1")
+    assert str(info.value) == (
+        "cannot use int as measured data; give a Measurements object, a DataFrame or a CSV path"
+    )
+    with pytest.raises(DataError) as info:
+        fit(abc, [], "k1")
+    assert str(info.value) == "no measured data given; give at least one data table"
 
 
 def test_cli_fit_outputs(tmp_path, noisy, capsys):

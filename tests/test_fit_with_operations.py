@@ -14,7 +14,7 @@ import pandas as pd
 import pytest
 
 import kinetics
-from kinetics.errors import UsageError
+from kinetics.errors import ConstantError
 
 HOUR = 3600.0
 GENERATOR = """P -> D   kP = 0.01 1/h
@@ -73,14 +73,14 @@ def test_an_amount_of_a_portion():
 
 def test_what_a_fit_cannot_free():
     scheme = kinetics.parse(GENERATOR.replace("100 %", "p_el") + "p_el = 90 %\n")
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ConstantError) as info:
         kinetics.fit(scheme, pd.DataFrame({"time [h]": [1.0], "D [mol/L]": [0.1]}), free="p_el")
     assert str(info.value) == (
         "free parameter 'p_el' is a part removed, which a fit cannot free; vary it in a sweep "
         "instead (kinetics sweep --vary)"
     )
     zero = kinetics.parse(GENERATOR + "t_0 = 0 h\nat t_0: add P = 0.1 M\n")
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ConstantError) as info:
         kinetics.fit(zero, pd.DataFrame({"time [h]": [1.0], "D [mol/L]": [0.1]}), free="t_0")
     assert str(info.value) == (
         "free parameter 't_0' is 0 in the file; a fit frees positive quantities only; give it "

@@ -24,7 +24,15 @@ import pytest
 
 import kinetics
 from kinetics.analysis import summarise_all
-from kinetics.errors import ArgumentTypeError, TimesError, UsageError, WorkingRangeError
+from kinetics.errors import (
+    ArgumentTypeError,
+    ConstantError,
+    ParameterSpecError,
+    SettingError,
+    TableSizeError,
+    TimesError,
+    WorkingRangeError,
+)
 from kinetics.sweep import sweep
 
 from conftest import run_cli
@@ -233,7 +241,7 @@ def test_sweep_axis_and_memory_limits(pair, scheme, capsys):
         "kinetics: --vary 'k2=0.1:1:100000000': 100,000,000 values on one axis are too many (at "
         "most 1,000,000); use fewer values\n",
     )
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(TableSizeError) as info:
         sweep(scheme, {"k1": "0.1:1:10000", "k2": "0.1:1:2000"}, [0, 10])
     assert str(info.value) == (
         "the sweep would hold 160,000,000 values in memory (20,000,000 sets), more than "
@@ -249,7 +257,7 @@ def test_api_huge_time(scheme):
 
 
 def test_api_sweep_huge_constant(scheme):
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(WorkingRangeError) as info:
         sweep(scheme, {"k2": [1e308]}, [0, 10])
     assert str(info.value) == (
         "set 0 (k2 [1/s] = 1e+308): B is consumed at 1e+308 1/s (its sum of rate constants), "
@@ -325,33 +333,33 @@ def test_api_sweep_huge_constant(scheme):
         ),
         (
             lambda s: kinetics.monte_carlo(s, ["k1=10%"], 10**12, [0, 1]),
-            UsageError,
+            SettingError,
             "1,000,000,000,000 parameter sets are too many (at most 100,000,000; about 50 us "
             "each); use fewer values or samples",
         ),
         (
             lambda s: sweep(s, {"k2": ["a"]}, [0, 10]),
-            UsageError,
+            ParameterSpecError,
             "grid['k2']: 'a' is not a number; give each parameter a list of numbers in the unit "
             "the file uses for it, e.g. {'k2': [0.02, 0.045, 0.09]}, or a range as text, e.g. "
             "{'k2': '0.01:1:25:log'}",
         ),
         (
             lambda s: sweep(s, {"k2": "0.1,x"}, [0, 10]),
-            UsageError,
+            ParameterSpecError,
             "grid['k2'] = '0.1,x': 'x' is not a number; give each parameter a list of numbers "
             "in the unit the file uses for it, e.g. {'k2': [0.02, 0.045, 0.09]}, or a range as "
             "text, e.g. {'k2': '0.01:1:25:log'}",
         ),
         (
             lambda s: sweep(s, {"k2": [float("nan")]}, [0, 10]),
-            UsageError,
+            ConstantError,
             "grid['k2']: nan is not a number; give finite values within the working range "
             "(README, Limits of the method)",
         ),
         (
             lambda s: sweep(s, {"k2": [[1, 2], [3, 4]]}, [0, 10]),
-            UsageError,
+            ParameterSpecError,
             "grid['k2'] must be a flat list of values, not an array of shape (2, 2); give each "
             "parameter a list of numbers in the unit the file uses for it, e.g. "
             "{'k2': [0.02, 0.045, 0.09]}, or a range as text, e.g. {'k2': '0.01:1:25:log'}",
@@ -371,12 +379,12 @@ def test_api_sweep_huge_constant(scheme):
         ),
         (
             lambda s: kinetics.monte_carlo(s, ["k1=10%"], 0, [0, 10]),
-            UsageError,
+            SettingError,
             "a spread needs samples > 0; e.g. monte_carlo(scheme, ['k1=15%'], 1000, times)",
         ),
         (
             lambda s: kinetics.monte_carlo(s, ["k2=abc"], 10, [0, 10]),
-            UsageError,
+            ParameterSpecError,
             "spread entry 'k2=abc': the spread of k2 must be a percentage (lognormal); "
             "write e.g. k2=15%",
         ),
@@ -417,7 +425,7 @@ def test_times_from_a_generator_are_accepted(scheme):
 def test_api_fit_messages_name_no_option(scheme, tmp_path):
     from kinetics.fit import parse_free
 
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ParameterSpecError) as info:
         parse_free([], scheme)
     assert str(info.value) == "no free parameter given; name at least one, e.g. k1 or k1,k2"
 

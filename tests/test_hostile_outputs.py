@@ -30,7 +30,7 @@ import kinetics
 from kinetics import files
 from kinetics.cli import main
 from kinetics.cli.common import FIRST_USE, FIRST_USE_SWEEP
-from kinetics.errors import OutputFileError, UsageError
+from kinetics.errors import OutputFileError, SweepStoreError
 from kinetics.output import export
 from kinetics.sweep import chunk_result, make_plan
 from kinetics.sweep import store as sweep_store
@@ -610,7 +610,7 @@ def test_a_chunk_of_another_sweep_is_never_read(tmp_path):
     manifest = {"hash": mine.definition_hash(False)}
     (folder / "manifest.json").write_text(json.dumps(manifest), encoding="utf-8")
     store = sweep_store.ChunkStore(folder, mine, curves=False, resume=True)
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(SweepStoreError) as info:
         store.read(0)
     assert str(info.value) == (
         f"the chunk file {str(folder / 'chunk_000000.npz')!r} belongs to another sweep; "

@@ -15,7 +15,13 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import kinetics
-from kinetics.errors import UsageError
+from kinetics.errors import (
+    ActivityError,
+    ConcentrationError,
+    SettingError,
+    SpeciesError,
+    TimesError,
+)
 from kinetics.optimise import api, landscape, optimise, search
 
 K1, K2 = 0.3, 0.1
@@ -117,65 +123,99 @@ def test_the_landscape_holds_the_others_at_the_optimum():
 
 
 @pytest.mark.parametrize(
-    ("kwargs", "message"),
+    ("kwargs", "error", "message"),
     [
         (
             {"over": "time=0:1:s", "sense": "max"},
+            SettingError,
             "sense 'max' is not known; use 'maximise' or 'minimise'",
         ),
         (
             {"over": "time=0:1:s", "species": "Q"},
-            "'Q' is not a species of the scheme that changes; species: A, B, C",
+            SpeciesError,
+            "species='Q' is not a species of the scheme that changes; species: A, B, C",
         ),
         (
             {"over": "start:A=1:2", "until": None},
-            "no time given: the end time is needed; add --until, e.g. --until 10h, or --over "
-            "time=0:10:h",
+            TimesError,
+            "no time given: the end time is needed; give until [s], e.g. until=36000.0, or a "
+            "time entry in over, e.g. 'time=0:10:h'",
         ),
         (
             {"over": [], "best_time": True},
-            "no time given: the latest time to consider is needed; add --until, e.g. --until "
-            "10h, or --over time=0:10:h",
+            TimesError,
+            "no time given: the latest time to consider is needed; give until [s], e.g. "
+            "until=36000.0, or a time entry in over, e.g. 'time=0:10:h'",
         ),
         (
             {"over": "time=0:1:s", "best_time": True, "until": 5.0},
-            "--best-time finds the best time itself, so --over time is not needed; give the "
-            "latest time to consider with --until, or use --at-end with --over time",
+            SettingError,
+            "best_time=True finds the best time itself, so a time entry in over is not needed; "
+            "give the latest time to consider as until [s], or set best_time=False and keep "
+            "the time entry",
         ),
         (
             {"over": ["time=0:1:s", "time=0:2:s"]},
-            "--over names time twice; give each setting once",
+            SettingError,
+            "over names time twice; give each setting once",
         ),
         (
             {"over": [], "until": -1.0, "best_time": True},
-            "the end time must be positive, not -1 s; e.g. --until 10h",
+            TimesError,
+            "until must be positive, not -1 s; give a time in seconds, e.g. until=36000.0",
+        ),
+        (
+            {"over": [], "until": "10h", "best_time": True},
+            TimesError,
+            "until must be a number of seconds, not '10h'; give a time in seconds, e.g. "
+            "until=36000.0",
         ),
         (
             {"over": [], "until": 5.0},
-            "nothing to optimise: no setting is given; give at least one, e.g. --over "
-            "temperature=20:80:degC or --over time=0:10:h",
+            SettingError,
+            "nothing to optimise: no setting is given; give at least one in over, e.g. "
+            "'temperature=20:80:degC' or 'time=0:10:h'",
         ),
         (
             {"over": "temperature=20:80:degC", "until": 5.0},
-            "--over 'temperature=20:80:degC': no constant of the scheme follows the "
+            SettingError,
+            "over entry 'temperature=20:80:degC': no constant of the scheme follows the "
             "temperature, so it changes nothing; define a constant by a temperature law, e.g. "
             "k = arrhenius(A = ..., Ea = ...), to optimise the temperature",
         ),
     ],
 )
-def test_mistakes_are_refused_in_one_sentence(kwargs, message):
+def test_mistakes_are_refused_in_one_sentence(kwargs, error, message):
     arguments = {"species": "B", **kwargs}
-    with pytest.raises(UsageError) as err:
+    with pytest.raises(error) as err:
         optimise(CHAIN, **arguments)
+    assert type(err.value) is error
     assert str(err.value) == message
+
+
+def test_an_activity_target_is_refused_with_a_yield_or_for_a_stable_species():
+    scheme = kinetics.parse("P -> D  half_life = 66 h\nstart P = 10 GBq")
+    with pytest.raises(SettingError) as err:
+        optimise(scheme, "D", "time=0:1:h", yield_basis=True, activity="GBq")
+    assert str(err.value) == (
+        "yield_basis=True and activity ask for two targets; optimise the yield or the activity"
+    )
+    with pytest.raises(ActivityError) as err:
+        optimise(scheme, "D", "time=0:1:h", activity="GBq")
+    assert str(err.value) == (
+        "D does not decay: its activity is 0 at every setting; optimise its amount instead, "
+        "or the activity of a species that decays"
+    )
+    with pytest.raises(ActivityError):
+        optimise(scheme, "P", "time=0:1:h", activity="mol")
 
 
 def test_a_yield_needs_start_values():
     scheme = kinetics.parse("A -> B  k1 = 0.3 1/s\nfeed A = 1 mol/L/s")
-    with pytest.raises(UsageError) as err:
+    with pytest.raises(ConcentrationError) as err:
         optimise(scheme, "B", "time=0:1:s", yield_basis=True)
     assert str(err.value) == (
-        "a yield needs start values; give the starting materials start values"
+        "yield_basis=True needs start values; give the starting materials start values"
     )
 
 

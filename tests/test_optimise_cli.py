@@ -110,8 +110,112 @@ def test_mistakes_are_one_line_with_status_2(chain, capsys, extra, message):
     assert capsys.readouterr().err.strip() == message
 
 
+@pytest.mark.parametrize(
+    ("argv", "message"),
+    [
+        (
+            ["--maximise", "Q", "--over", "time=0:30:min"],
+            "'Q' is not a species of the scheme that changes; species: A, B, C",
+        ),
+        (
+            ["--maximise", "B", "--over", "start:A=1:2"],
+            "no time given: the end time is needed; add --until, e.g. --until 10h, or --over "
+            "time=0:10:h",
+        ),
+        (
+            ["--maximise", "B", "--best-time"],
+            "no time given: the latest time to consider is needed; add --until, e.g. --until "
+            "10h, or --over time=0:10:h",
+        ),
+        (
+            ["--maximise", "B", "--best-time", "--until", "1h", "--over", "time=0:30:min"],
+            "--best-time finds the best time itself, so --over time is not needed; give the "
+            "latest time to consider with --until, or use --at-end with --over time",
+        ),
+        (
+            ["--maximise", "B", "--over", "time=0:30:min", "--over", "time=0:20:min"],
+            "--over names time twice; give each setting once",
+        ),
+        (
+            ["--maximise", "B", "--until", "1h"],
+            "nothing to optimise: no setting is given; give at least one, e.g. --over "
+            "temperature=20:80:degC or --over time=0:10:h",
+        ),
+        (
+            ["--maximise", "B", "--until", "1h", "--over", "temperature=20:80:degC"],
+            "--over 'temperature=20:80:degC': no constant of the scheme follows the "
+            "temperature, so it changes nothing; define a constant by a temperature law, e.g. "
+            "k = arrhenius(A = ..., Ea = ...), to optimise the temperature",
+        ),
+        (
+            ["--maximise", "B", "--over", "temperature"],
+            "--over 'temperature' has no '='; write NAME=LO:HI:UNIT, e.g. "
+            "temperature=20:80:degC, time=0:10:h, t_p=40:60:h, start:A=0.5:2:mol/L",
+        ),
+        (
+            ["--maximise", "B", "--over", "time=0:5:K"],
+            "--over 'time=0:5:K': 'K' is not a unit of time; write e.g. time=0:10:h",
+        ),
+        (
+            ["--maximise", "B", "--over", "k9=1:2"],
+            "--over 'k9=1:2': 'k9' is not a setting of the scheme; settings are time, "
+            "temperature, k1, k2, start:<species>, excess:<species>",
+        ),
+        (
+            ["--maximise", "B", "--over", "k1.A=1:2:1/s"],
+            "--over 'k1.A=1:2:1/s': k1 is given as a number, not by the Arrhenius law, so it "
+            "has no A; optimise k1 itself, e.g. write --over 'k1=0.5:2:1/min'",
+        ),
+    ],
+)
+def test_the_command_line_words_the_library_checks_with_its_options(chain, capsys, argv, message):
+    assert main(["optimise", str(chain), *argv, "--no-caution"]) == 2
+    assert capsys.readouterr().err.strip() == "kinetics: " + message
+
+
+def test_a_yield_without_start_values_is_refused_on_the_command_line(tmp_path, capsys):
+    path = tmp_path / "feed.scheme"
+    path.write_text("A -> B  k1 = 0.3 1/s\nfeed A = 1 mol/L/s\n")
+    argv = ["optimise", str(path), "--maximise", "B", "--over", "time=0:1:s", "--yield"]
+    assert main([*argv, "--no-caution"]) == 2
+    assert capsys.readouterr().err.strip() == (
+        "kinetics: a yield needs start values; give the starting materials start values"
+    )
+
+
 def test_help_shows_a_worked_example_on_a_file_that_exists(capsys):
     assert main(["optimise", "--help"]) == 0
     out = capsys.readouterr().out
     line = next(x for x in out.splitlines() if "kinetics optimise networks/" in x)
     assert (NETWORKS.parent / line.split()[2]).is_file()
+
+
+def test_sensitivity_adds_the_key_and_the_line_it_hinges_on(capsys):
+    argv = ["optimise", QUENCH, "--maximise", "P", "--over", "temperature=30:90:degC"]
+    argv += ["--over", "time=0:8:h", "--no-caution", "--sensitivity"]
+    assert main([*argv, "--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert set(doc["sensitivity"]) == {"objective", "best"}
+    assert set(doc["sensitivity"]["objective"]) == {"k1", "k2", "k3"}
+    assert set(doc["sensitivity"]["best"]) == {"temperature", "time"}
+    assert main(argv) == 0
+    assert "the optimum hinges on (d ln target / d ln p): k1 +0.157" in capsys.readouterr().out
+    assert main([*argv[:-1], "--json"]) == 0
+    assert "sensitivity" not in json.loads(capsys.readouterr().out)
+
+
+def test_the_activity_of_a_daughter_at_its_best_time(tmp_path, capsys):
+    path = tmp_path / "generator.scheme"
+    path.write_text("P -> D  half_life = 66 h\nD -> X  half_life = 6 h\nstart P = 10 GBq\n")
+    argv = ["optimise", str(path), "--maximise", "D", "--best-time", "--until", "400h"]
+    assert main([*argv, "--activity", "GBq", "--json", "--no-caution"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert doc["objective_unit"] == "GBq"
+    assert doc["target"]["quantity"] == "activity"
+    lam_p, lam_d = math.log(2) / 66, math.log(2) / 6  # per hour
+    t_max = math.log(lam_d / lam_p) / (lam_d - lam_p)  # Bateman; textbook maximum
+    assert doc["best"]["time"]["value"] == pytest.approx(t_max, rel=1e-9)
+    assert main([*argv, "--activity", "GBq", "--yield", "--no-caution"]) == 2
+    assert capsys.readouterr().err.strip() == (
+        "kinetics: a yield and --activity ask for two targets; optimise the yield or the activity"
+    )

@@ -78,3 +78,41 @@ def test_an_active_requirement_hands_over_to_sqp():
     p = model.point(found.x)
     assert p.margins[0] == pytest.approx(0.0, abs=1e-12)  # C at its limit before B's top
     assert found.x[0] < T_MAX
+
+
+def test_the_last_step_taken_unsolved_keeps_the_exact_target_and_place():
+    # the step whose predicted gain is at rounding level is taken without solving the
+    # model there: its target is the predicted one, equal to the exact value
+    model = _model()
+    start = Candidate(np.array([12.0]), model.point([12.0]).objective, 0.0)
+    found, converged = newton(model, start)
+    assert converged
+    exact = model.point(found.x).objective
+    assert found.objective == pytest.approx(exact, rel=1e-14)
+    assert found.x[0] == pytest.approx(T_MAX, rel=1e-12)
+
+
+def test_a_search_about_to_step_onto_a_known_optimum_stops_before_solving_it():
+    model = _model()
+    known = Candidate(np.array([T_MAX]), model.point([T_MAX]).objective, 0.0)
+    near = T_MAX * 1.02
+    start = Candidate(np.array([near]), model.point([near]).objective, 0.0)
+    model.evaluations = 0
+    found, converged = newton(model, start, [known])
+    assert converged
+    assert found is known
+    assert model.evaluations == 1  # the start only: its Newton step lands on the known one
+
+
+def test_a_linear_setting_with_large_values_maps_without_overflow():
+    # an activation energy [J/mol] is searched linearly: its scaled coordinate never goes
+    # through exp (filterwarnings = error turns an overflow warning into a failure)
+    scheme = kinetics.parse(
+        "A -> B  k1 = arrhenius(A = 1e10 1/s, Ea = 80 kJ/mol)\nB -> C  k2 = 1e-3 1/s\n"
+        "temperature = 50 degC\nstart A = 1 mol/L"
+    )
+    model = Model(scheme, [parse_over(scheme, "k1.Ea=75:85:kJ/mol")], Goal("B", end=600.0))
+    problem = scaled_problem(model, Candidate(np.array([80e3]), 0.1, 0.0))
+    assert problem.log.tolist() == [False]
+    np.testing.assert_allclose(problem.x_of([0.0, 0.5, 1.0][:1]), [75e3])
+    assert problem.x_of([0.5])[0] == pytest.approx(80e3, rel=1e-15)

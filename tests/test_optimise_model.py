@@ -11,7 +11,7 @@ import numpy as np
 import pytest
 
 import kinetics
-from kinetics.errors import UsageError
+from kinetics.errors import WorkingRangeError
 from kinetics.optimise import Goal, Model, parse_over
 from kinetics.units import GAS_CONSTANT_EXACT
 
@@ -102,7 +102,7 @@ def test_the_best_time_adds_a_time_setting_in_the_unit_asked():
 def test_a_scheme_too_large_is_refused():
     lines = [f"S{i} -> S{i + 1}  k{i} = 1 1/s" for i in range(201)]
     big = kinetics.parse("\n".join([*lines, "start S0 = 1 mol/L"]))
-    with pytest.raises(UsageError) as err:
+    with pytest.raises(WorkingRangeError) as err:
         Model(big, [], Goal("S1", end=1.0))
     assert str(err.value) == (
         "an optimisation solves schemes of up to 200 species; this one has 202; "

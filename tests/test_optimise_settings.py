@@ -11,9 +11,10 @@ from fractions import Fraction
 import pytest
 
 import kinetics
-from kinetics.errors import UsageError
+from kinetics.errors import SettingError, TimesError
 from kinetics.optimise import settings as module
 from kinetics.optimise.settings import apply, parse_over
+from kinetics.optimise.words import CLI_WORDS
 
 SCHEME = kinetics.parse(
     "t_p = 5 h\nT_ref = 25 degC\n"
@@ -55,68 +56,128 @@ def test_ranges_are_read_and_converted_exactly(spec, kind, unit, low, high):
     [
         (
             "temperature",
-            "--over 'temperature' has no '='; write NAME=LO:HI:UNIT, e.g. "
+            "over entry 'temperature' has no '='; write NAME=LO:HI:UNIT, e.g. "
             "temperature=20:80:degC, time=0:10:h, t_p=40:60:h, start:A=0.5:2:mol/L",
         ),
         (
             "=1:2",
-            "--over '=1:2' needs a name before '='; write NAME=LO:HI:UNIT, e.g. "
+            "over entry '=1:2' needs a name before '='; write NAME=LO:HI:UNIT, e.g. "
             "temperature=20:80:degC, time=0:10:h, t_p=40:60:h, start:A=0.5:2:mol/L",
         ),
         (
             "temperature=a:b",
-            "--over 'temperature=a:b': the range must be LO:HI:UNIT; write NAME=LO:HI:UNIT, e.g. "
-            "temperature=20:80:degC, time=0:10:h, t_p=40:60:h, start:A=0.5:2:mol/L",
+            "over entry 'temperature=a:b': the range must be LO:HI:UNIT; write "
+            "NAME=LO:HI:UNIT, e.g. temperature=20:80:degC, time=0:10:h, t_p=40:60:h, "
+            "start:A=0.5:2:mol/L",
         ),
         (
             "temperature=80:20:degC",
-            "--over 'temperature=80:20:degC': the upper bound 20 is not above the lower bound "
+            "over entry 'temperature=80:20:degC': the upper bound 20 is not above the lower bound "
             "80; write the lower bound first, e.g. temperature=20:80:degC",
         ),
         (
             "temperature=20:80:m",
-            "--over 'temperature=20:80:m': 'm' is not a temperature unit; use K or degC",
+            "over entry 'temperature=20:80:m': 'm' is not a temperature unit; use K or degC",
         ),
         (
             "time=0:5",
-            "--over 'time=0:5': the time range has no unit; write e.g. time=0:10:h",
+            "over entry 'time=0:5': the time range has no unit; write e.g. time=0:10:h",
         ),
         (
             "time=0:5:K",
-            "--over 'time=0:5:K': 'K' is not a unit of time; write e.g. time=0:10:h",
+            "over entry 'time=0:5:K': 'K' is not a unit of time; write e.g. time=0:10:h",
         ),
         (
             "time=-1:5:h",
-            "--over 'time=-1:5:h': a time is negative; times start at 0",
+            "over entry 'time=-1:5:h': a time is negative; times start at 0",
         ),
         (
             "t_p=1:5:K",
-            "--over 't_p=1:5:K': 'K' is not a time, the dimension of t_p; write the range in h",
-        ),
-        (
-            "k1.Ea=70:90:kJ/mol",
-            "--over 'k1.Ea=70:90:kJ/mol': an optimisation changes whole quantities, not one part "
-            "of an Arrhenius law; name the part in the file (e.g. Ea1 = 85 kJ/mol, used as Ea = "
-            "Ea1) and write --over 'Ea1=70:90:kJ/mol'",
+            "over entry 't_p=1:5:K': 'K' is not a time, the dimension of t_p; write the range in h",
         ),
         (
             "k1=1:2:1/s",
-            "--over 'k1=1:2:1/s': k1 follows the Arrhenius law, so the temperature sets it; "
-            "optimise the temperature, or name A or Ea in the file as a quantity and optimise "
-            "that",
+            "over entry 'k1=1:2:1/s': k1 follows the Arrhenius law, so the temperature sets it; "
+            "optimise the temperature, or its parts k1.A or k1.Ea",
         ),
         (
             "t_q=1:2:h",
-            "--over 't_q=1:2:h': 't_q' is not a setting of the scheme; did you mean 't_p'? "
+            "over entry 't_q=1:2:h': 't_q' is not a setting of the scheme; did you mean 't_p'? "
             "settings are time, temperature, t_p, T_ref, k1, k2, k3, k4, start:<species>, "
             "excess:<species>",
+        ),
+        (
+            "start:Z=1:2",
+            "over entry 'start:Z=1:2': 'Z' is not a species of the scheme; the species are A, "
+            "B, C, D, E",
+        ),
+        (
+            "excess:A=1:2",
+            "over entry 'excess:A=1:2': 'A' is not a species held in excess; the species are W",
+        ),
+        (
+            "temperature=-300:20:degC",
+            "over entry 'temperature=-300:20:degC': a temperature is at or below absolute zero; "
+            "check the unit",
+        ),
+        (
+            "k3=-1:2",
+            "over entry 'k3=-1:2': a rate constant is negative; give values >= 0",
+        ),
+        (
+            "t_p=1:5:xyz",
+            "over entry 't_p=1:5:xyz': 'xyz' is not a unit; write NAME=LO:HI:UNIT, e.g. "
+            "temperature=20:80:degC, time=0:10:h, t_p=40:60:h, start:A=0.5:2:mol/L",
+        ),
+        (
+            "time=0:5:xyz",
+            "over entry 'time=0:5:xyz': 'xyz' is not a unit; write e.g. time=0:10:h",
+        ),
+        (
+            "k9.A=1:2:1/s",
+            "over entry 'k9.A=1:2:1/s': the scheme has no rate constant 'k9'; the constants are "
+            "k1, k2, k3, k4",
+        ),
+        (
+            "k3.A=1:2:1/s",
+            "over entry 'k3.A=1:2:1/s': k3 is given as a number, not by the Arrhenius law, so it "
+            "has no A; optimise k3 itself, e.g. give 'k3=0.5:2:1/min' in over",
         ),
     ],
 )
 def test_every_mistake_is_one_sentence(spec, message):
-    with pytest.raises(UsageError) as err:
+    expected = TimesError if spec.startswith("time=") else SettingError
+    with pytest.raises(expected) as err:
         parse_over(SCHEME, spec)
+    assert type(err.value) is expected
     assert str(err.value) == message
+
+
+def test_the_command_line_names_its_option():
+    with pytest.raises(SettingError) as err:
+        parse_over(SCHEME, "k3.A=1:2:1/s", CLI_WORDS)
+    assert str(err.value) == (
+        "--over 'k3.A=1:2:1/s': k3 is given as a number, not by the Arrhenius law, so it has "
+        "no A; optimise k3 itself, e.g. write --over 'k3=0.5:2:1/min'"
+    )
+
+
+def test_the_parts_of_an_arrhenius_constant_are_settings():
+    from kinetics.units import GAS_CONSTANT_EXACT
+
+    over = [parse_over(SCHEME, s) for s in ("k1.A=1e9:1e11:1/s", "k1.Ea=70:90:kJ/mol")]
+    assert [(s.kind, s.target, s.unit) for s in over] == [
+        ("prefactor", "k1", "1/s"),
+        ("energy", "k1", "kJ/mol"),
+    ]
+    assert over[1].lo_internal == 70000.0
+    assert over[1].shown(85000.0) == pytest.approx(85.0, rel=1e-15)
+    here = apply(SCHEME, over, [2e10, 85000.0])
+    law = here.constants["k1"].arrhenius
+    assert (float(law.prefactor_si), law.activation_energy) == (2e10, 85000.0)
+    # the law stays a law at the scheme's 50 degC: k = A exp(-Ea/RT) (Arrhenius 1889)
+    k1 = 2e10 * math.exp(-85000.0 / (float(GAS_CONSTANT_EXACT) * 323.15))
+    assert float(here.exact_constants()["k1"]) == pytest.approx(k1, rel=1e-14)
 
 
 def test_the_scheme_at_a_set_of_values_follows_every_definition():

@@ -16,7 +16,7 @@ import pytest
 
 import kinetics
 from kinetics import parameters
-from kinetics.errors import UsageError
+from kinetics.errors import ConcentrationError, ConstantError, SpeciesError, TemperatureError
 from kinetics.parameters import FIT_WORDS, SweepWords, Target, resolve, to_internal
 from kinetics.scheme import Arrhenius, arrhenius_pairs
 
@@ -92,7 +92,9 @@ def test_targets_of_every_kind(scheme):
     ],
 )  # fmt: skip
 def test_sweep_messages(scheme, name, message):
-    with pytest.raises(UsageError) as info:
+    # a wrong species is a SpeciesError, every other wrong name a ConstantError
+    error = SpeciesError if name.startswith(("start:", "excess:")) else ConstantError
+    with pytest.raises(error) as info:
         resolve(scheme, name, SweepWords("--vary 'x'"))
     assert str(info.value) == message
 
@@ -100,13 +102,13 @@ def test_sweep_messages(scheme, name, message):
 def test_sweep_messages_without_arrhenius_or_excess():
     plain = kinetics.parse("A -> B  k1 = 0.1 1/s\nstart A = 1 mol/L")
     words = SweepWords("grid['temperature']")
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(TemperatureError) as info:
         resolve(plain, "temperature", words)
     assert str(info.value) == (
         "grid['temperature']: the scheme has no Arrhenius constant, so the temperature changes "
         "nothing; define a constant as k = arrhenius(A = ..., Ea = ...) to sweep temperatures"
     )
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(SpeciesError) as info:
         resolve(plain, "excess:W", words)
     assert str(info.value) == (
         "grid['temperature']: 'W' is not a species held in excess; the scheme declares no "
@@ -147,7 +149,8 @@ def test_sweep_messages_without_arrhenius_or_excess():
     ],
 )  # fmt: skip
 def test_fit_messages(scheme, name, message):
-    with pytest.raises(UsageError) as info:
+    error = SpeciesError if name.startswith("start:") else ConstantError
+    with pytest.raises(error) as info:
         resolve(scheme, name, FIT_WORDS)
     assert str(info.value) == message
 
@@ -160,23 +163,26 @@ def test_unit_messages(scheme):
               "the values in 1/min or leave out the unit"),
     ]  # fmt: skip
     for unit, message in cases:
-        with pytest.raises(UsageError) as info:
+        with pytest.raises(ConstantError) as info:
             parameters.check_unit(k1, unit, "w", "hint")
         assert str(info.value) == message
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ConstantError) as info:
         parameters.check_unit(resolve(scheme, "k3.Ea", FIT_WORDS), "K", "w", "hint")
     assert str(info.value) == "w: 'K' is not a molar energy; write Ea in kJ/mol or J/mol"
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(TemperatureError) as info:
         parameters.check_unit(resolve(scheme, "T", SweepWords("w")), "kJ/mol", "w", "hint")
     assert str(info.value) == "w: 'kJ/mol' is not a temperature unit; use K or degC"
 
 
 def test_value_messages(scheme):
     start = resolve(scheme, "start:A", SweepWords("w"))
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ConcentrationError) as info:
         parameters.check_values(start, np.array([1.0, -2.0]), "w", "hint")
     assert str(info.value) == "w: a start concentration is negative; give values >= 0"
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ConstantError) as info:
+        parameters.check_values(resolve(scheme, "k1", FIT_WORDS), np.array([np.nan]), "w", "h")
+    assert str(info.value) == "w: a value is not a finite number; h"
+    with pytest.raises(TemperatureError) as info:
         parameters.check_values(resolve(scheme, "T", SweepWords("w")), np.array([0.0]), "w", "h")
     assert str(info.value) == "w: a temperature is at or below absolute zero; check the unit"
 
@@ -298,33 +304,33 @@ def test_named_quantities_convert_exactly():
 
 def test_messages_of_named_quantities():
     s = kinetics.parse(NAMED)
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ConstantError) as info:
         resolve(s, "spare", SweepWords("grid['spare']"))
     assert str(info.value) == (
         "grid['spare']: no rate constant is defined from spare, so it changes nothing; vary a "
         "quantity that a constant is defined from, e.g. k = ln(2) / spare"
     )
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ConstantError) as info:
         resolve(s, "spare", FIT_WORDS)
     assert str(info.value) == (
         "free parameter 'spare': no rate constant is defined from it, so the data cannot tell "
         "its value; free a quantity that a constant is defined from, e.g. k = ln(2) / spare"
     )
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ConstantError) as info:
         resolve(s, "t_q", FIT_WORDS)
     assert str(info.value) == (
         "free parameter 't_q' is not a rate constant or named quantity of the scheme; did you "
         "mean 't_p'? (the names are lam_d, kq, ke, t_p, f, T_ref, dS, spare); start values are "
         "written start:SPECIES"
     )
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ConstantError) as info:
         resolve(s, "t_q", SweepWords("grid['t_q']"))
     assert str(info.value) == (
         "grid['t_q']: 't_q' is not a rate constant or parameter of the scheme; did you mean "
         "'t_p'? parameters are lam_d, kq, ke, t_p, f, T_ref, dS, spare, temperature, "
         "start:<species>, excess:<species>"
     )
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(TemperatureError) as info:
         parameters.check_unit(resolve(s, "T_ref", FIT_WORDS), "h", "here", "hint")
     assert str(info.value) == "here: 'h' is not a temperature unit; use K or degC"
 

@@ -13,7 +13,7 @@ import pytest
 
 import kinetics
 from kinetics import parameters
-from kinetics.errors import UsageError
+from kinetics.errors import ConstantError
 from kinetics.parameters import FIT_WORDS, SweepWords
 
 TEXT = """A -> B  k1 = arrhenius(A = 1e10 1/s, Ea = Ea_1)
@@ -40,7 +40,7 @@ def test_operation_quantities_and_other_named_quantities():
 
 def test_a_quantity_no_operation_and_no_constant_uses_changes_nothing():
     plain = kinetics.parse("A -> B  k1 = 1 1/h\nstart A = 1 M\nt_q = 3 h\n")
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ConstantError) as info:
         parameters.resolve(plain, "t_q", SweepWords("--vary 't_q=1:2:2'"))
     assert str(info.value) == (
         "--vary 't_q=1:2:2': no rate constant is defined from t_q, so it changes nothing; "
@@ -51,7 +51,7 @@ def test_a_quantity_no_operation_and_no_constant_uses_changes_nothing():
 def test_a_negative_operation_value_is_refused():
     scheme = kinetics.parse(TEXT)
     t = parameters.resolve(scheme, "t_q", SweepWords("--vary"))
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ConstantError) as info:
         parameters.check_values(t, np.array([-1.0]), "--vary 't_q=-1'", "e.g. t_q=1:5:9:h")
     assert str(info.value) == "--vary 't_q=-1': a value of t_q is negative; give values >= 0"
 

@@ -12,9 +12,16 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy.integrate import solve_ivp
 
-from kinetics.errors import GrowthError, UsageError
+from kinetics.errors import (
+    ConcentrationError,
+    GrowthError,
+    RateMatrixError,
+    SettingError,
+    TimesError,
+)
 from kinetics.propagate import (
     expm_nonnegative,
+    expm_nonnegative_certified,
     propagate,
     propagate_batch,
     propagate_certified,
@@ -304,32 +311,178 @@ def test_small_sparse_input_equals_dense():
 # ---------------------------------------------------------------- bad input
 
 
+K_HINT = (
+    "column j holds the outflow of species j: K[j, j] = -(sum of its rate constants), "
+    "K[i, j] = nu*k for a step j -> i, all in 1/s"
+)
+START = "start concentrations, one per species, >= 0"
+FEED = "zero-order feed rates [conc/s], >= 0"
+TIMES_EXAMPLE = "e.g. [0, 600, 1200] or numpy.linspace(0, 3600, 201); for one time give [t]"
+
+
 @pytest.mark.parametrize(
-    ("K", "c0", "times", "feed"),
+    ("K", "c0", "times", "feed", "error", "message"),
     [
-        (chain_matrix([1.0]), [1, 0], [1.0, 0.5], None),  # unsorted times
-        (chain_matrix([1.0]), [1, 0], [-1.0], None),  # negative time
-        (chain_matrix([1.0]), [1, 0], [np.nan], None),  # non-finite time
-        (chain_matrix([1.0]), [1, 0], [[0.0, 1.0]], None),  # not 1-D
-        (chain_matrix([1.0]), [1, 0, 0], [1.0], None),  # wrong c0 shape
-        (chain_matrix([1.0]), [-1, 0], [1.0], None),  # negative concentration
-        (chain_matrix([1.0]), [1, 0], [1.0], [0.0, -1.0]),  # negative feed
-        (np.array([[-1.0, -0.5], [1.0, 0.0]]), [1, 0], [1.0], None),  # negative off-diagonal
-        (np.ones((2, 3)), [1, 0], [1.0], None),  # not square
-        (np.array([[np.inf, 0], [0, 0]]), [1, 0], [1.0], None),  # non-finite rate
-        ("abc", [1, 0], [1.0], None),  # not numeric
+        (
+            chain_matrix([1.0]),
+            [1, 0],
+            [1.0, 0.5],
+            None,
+            TimesError,
+            "the times are not in increasing order; sort the time list",
+        ),
+        (
+            chain_matrix([1.0]),
+            [1, 0],
+            [-1.0],
+            None,
+            TimesError,
+            "a time is negative (-1 s); times start at 0 (the start values)",
+        ),
+        (
+            chain_matrix([1.0]),
+            [1, 0],
+            [np.nan],
+            None,
+            TimesError,
+            "a time is not a finite number; give finite times in seconds",
+        ),
+        (
+            chain_matrix([1.0]),
+            [1, 0],
+            [[0.0, 1.0]],
+            None,
+            TimesError,
+            "the times must be a flat list of times, not an array of shape (1, 2); "
+            + TIMES_EXAMPLE,
+        ),
+        (
+            chain_matrix([1.0]),
+            [1, 0],
+            ["x"],
+            None,
+            TimesError,
+            "the times are not numbers; give times in seconds as a list of numbers",
+        ),
+        (
+            chain_matrix([1.0]),
+            [1, 0, 0],
+            [1.0],
+            None,
+            ConcentrationError,
+            f"c0 has 3 entries but K has 2 species; {START}",
+        ),
+        (
+            chain_matrix([1.0]),
+            [-1, 0],
+            [1.0],
+            None,
+            ConcentrationError,
+            f"c0[0] = -1 is negative; {START}",
+        ),
+        (
+            chain_matrix([1.0]),
+            [1, np.inf],
+            [1.0],
+            None,
+            ConcentrationError,
+            f"c0 contains inf or nan; {START}",
+        ),
+        (
+            chain_matrix([1.0]),
+            ["a", 0],
+            [1.0],
+            None,
+            ConcentrationError,
+            f"c0 is not a numeric array; {START}",
+        ),
+        (
+            chain_matrix([1.0]),
+            [1, 0],
+            [1.0],
+            [0.0, -1.0],
+            ConcentrationError,
+            f"feed[1] = -1 is negative; {FEED}",
+        ),
+        (
+            np.array([[-1.0, -0.5], [1.0, 0.0]]),
+            [1, 0],
+            [1.0],
+            None,
+            RateMatrixError,
+            "K[0, 1] = -0.5 is negative; off-diagonal entries are rates of formation and "
+            f"must be >= 0; {K_HINT}",
+        ),
+        (
+            np.ones((2, 3)),
+            [1, 0],
+            [1.0],
+            None,
+            RateMatrixError,
+            f"the rate matrix K has shape (2, 3); it must be square; {K_HINT}",
+        ),
+        (
+            np.array([[np.inf, 0], [0, 0]]),
+            [1, 0],
+            [1.0],
+            None,
+            RateMatrixError,
+            f"the rate matrix K contains inf or nan; {K_HINT}",
+        ),
+        (
+            "abc",
+            [1, 0],
+            [1.0],
+            None,
+            RateMatrixError,
+            f"the rate matrix K is not a numeric array; {K_HINT}",
+        ),
     ],
 )
-def test_bad_input_raises_usage_error(K, c0, times, feed):
-    with pytest.raises(UsageError):
+def test_bad_input_raises_the_typed_error_of_the_mistake(K, c0, times, feed, error, message):
+    # one wording per mistake: the engine's checks are those of the analysis and of solve
+    with pytest.raises(error) as info:
         propagate(K, c0, times, feed)
+    assert str(info.value) == message
 
 
-def test_bad_precision_and_batch_shape():
-    with pytest.raises(UsageError):
+def test_a_sparse_rate_matrix_is_checked_with_the_same_wording():
+    K = scipy.sparse.csr_array(np.array([[-1.0, -0.5], [1.0, 0.0]]))
+    with pytest.raises(RateMatrixError) as info:
+        propagate(K, [1, 0], [1.0])
+    assert info.value.problem == (
+        "K[0, 1] = -0.5 is negative; off-diagonal entries are rates of formation and must be >= 0"
+    )
+
+
+def test_bad_precision_batch_shape_and_batch_entries():
+    with pytest.raises(SettingError) as info:
         propagate(chain_matrix([1.0]), [1, 0], [1.0], precision="quad")
-    with pytest.raises(UsageError):
+    assert str(info.value) == "unknown precision 'quad'; use 'auto', 'double' or 'double-double'"
+    with pytest.raises(RateMatrixError) as info:
         propagate_batch(chain_matrix([1.0]), [1, 0], [1.0])
+    assert str(info.value) == (
+        f"a batch of rate matrices must have shape (b, n, n), got (2, 2); {K_HINT}"
+    )
+    with pytest.raises(RateMatrixError) as info:
+        propagate_batch([[["x"]]], [1], [1.0])
+    assert str(info.value) == f"the rate matrix K is not a numeric array; {K_HINT}"
+    K = np.stack([chain_matrix([1.0]), np.array([[-1.0, 0.0], [-2.0, 0.0]])])
+    with pytest.raises(RateMatrixError) as info:
+        propagate_batch(K, [1, 0], [1.0])
+    assert info.value.problem.startswith("K[1, 1, 0] = -2 is negative")
+    with pytest.raises(ConcentrationError) as info:
+        propagate_batch(K[:1], [[1, 0], [1, 0]], [1.0])
+    assert str(info.value) == f"c0 has shape (2, 2); it must have shape (1, 2); {START}"
+    with pytest.raises(ConcentrationError) as info:
+        propagate_batch(K[:1], [[1, -3]], [1.0])
+    assert str(info.value) == f"c0[0, 1] = -3 is negative; {START}"
+
+
+def test_expm_refuses_a_bad_time():
+    with pytest.raises(TimesError) as info:
+        expm_nonnegative_certified(chain_matrix([1.0]), -1.0)
+    assert str(info.value) == "time must be finite and >= 0"
 
 
 def test_growth_beyond_double_range_is_a_clear_error():

@@ -12,7 +12,7 @@ import mpmath
 import numpy as np
 import pytest
 
-from kinetics.errors import GrowthError, UsageError
+from kinetics.errors import ConcentrationError, GrowthError, TimesError
 from kinetics.propagate import StretchPropagator, propagate_certified
 
 
@@ -107,17 +107,23 @@ def test_growth_is_refused_with_the_engine_message():
 
 
 @pytest.mark.parametrize(
-    ("starts", "lengths", "message"),
+    ("starts", "lengths", "error", "message"),
     [
-        ([[1.0]], [-1.0], "stretch lengths must be finite and >= 0"),
-        ([[1.0]], [np.inf], "stretch lengths must be finite and >= 0"),
-        ([[-1.0]], [1.0], "start concentrations has a negative entry"),
-        ([[1.0, 2.0]], [1.0], "start concentrations must have shape (1, 1), got (1, 2)"),
+        ([[1.0]], [-1.0], TimesError, "stretch lengths must be finite and >= 0"),
+        ([[1.0]], [np.inf], TimesError, "stretch lengths must be finite and >= 0"),
+        ([[1.0]], ["x"], TimesError, "stretch lengths are not numeric"),
+        ([[-1.0]], [1.0], ConcentrationError, "start concentrations[0, 0] = -1 is negative"),
+        (
+            [[1.0, 2.0]],
+            [1.0],
+            ConcentrationError,
+            "start concentrations has shape (1, 2); it must have shape (1, 1)",
+        ),
     ],
 )
-def test_bad_input_is_refused(starts, lengths, message):
+def test_bad_input_is_refused(starts, lengths, error, message):
     p = StretchPropagator([[-1.0]])
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(error) as info:
         p.advance(starts, lengths)
     assert info.value.problem == message
 
@@ -125,9 +131,11 @@ def test_bad_input_is_refused(starts, lengths, message):
 def test_a_bad_start_in_a_step_takes_the_checked_route():
     p = StretchPropagator([[-1.0]])
     p.step(np.array([1.0]), 1.0)
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ConcentrationError) as info:
         p.step(np.array([np.nan]), 1.0)
-    assert info.value.problem == "start concentrations has a non-finite entry"
+    assert str(info.value) == (
+        "start concentrations contains inf or nan; start concentrations, one per species, >= 0"
+    )
 
 
 def test_large_schemes_take_the_block_route_one_stretch_at_a_time():

@@ -99,3 +99,65 @@ def test_the_quench_window_example_matches_a_two_setting_brute_force_scan():
     # at least as good and better by at most the change over a cell (about 1e-4)
     assert scan <= best.objective <= scan * (1 + 2e-4)
     assert best.active_requirements == ["IMP <= 0.15 % of SM"]
+
+
+def test_an_arrhenius_prefactor_as_a_setting_matches_a_constrained_brute_force_scan():
+    # more k1 makes more B and, later, more C: the optimum sits on the requirement on C
+    scheme = kinetics.parse(CHAIN + "require C <= 10 % of A\n")
+    best = optimise(scheme, "B", "k1.A=1e8:1e12:1/s", until=QUENCH)
+    T = 323.15
+
+    def closed(prefactor):
+        k1, k2 = prefactor * np.exp(-80e3 / (R * T)), _k(1e13, 105e3, T)
+        a = np.exp(-k1 * QUENCH)
+        b = k1 / (k2 - k1) * (a - np.exp(-k2 * QUENCH))
+        return b, 1.0 - a - b
+
+    grid = np.geomspace(1e8, 1e12, 200_001)
+    b, c = closed(grid)
+    ok = c <= 0.1
+    k = int(np.argmax(np.where(ok, b, -np.inf)))
+    scan = float(b[k])
+    if k + 1 < grid.size and not ok[k + 1]:  # the scan's best sits at the limit: refine it
+        edge = brentq(lambda x: closed(x)[1] - 0.1, grid[k], grid[k + 1], xtol=1e-3)
+        scan = max(scan, float(closed(edge)[0]))
+    assert best.objective == pytest.approx(scan, rel=1e-6)
+    assert best.active_requirements == ["C <= 10 % of A"]
+    assert best.best["k1.A"] == pytest.approx(float(grid[k]), rel=1e-4)
+
+
+# a generator P -> D -> X with invented half-lives; daughter activity A_D = lambda_D N_D,
+# N_D = N_P0 lambda_P/(lambda_D - lambda_P) (exp(-lambda_P t) - exp(-lambda_D t))
+# (Bateman 1910), its maximum at t = ln(lambda_D/lambda_P)/(lambda_D - lambda_P)
+GENERATOR = "t_d = 6 h\nP -> D  half_life = 66 h\nD -> X  lam = ln(2) / t_d\nstart P = 10 GBq\n"
+LAMBDA_P = math.log(2) / (66 * 3600.0)
+
+
+def _daughter(t, t_d):
+    """Daughter activity [GBq] at t [s] for a daughter half-life t_d [s] (Bateman)."""
+    lam_d = math.log(2) / t_d
+    return 10.0 * lam_d / (lam_d - LAMBDA_P) * (np.exp(-LAMBDA_P * t) - np.exp(-lam_d * t))
+
+
+def test_the_best_time_of_the_daughter_activity_is_the_textbook_maximum():
+    scheme = kinetics.parse(GENERATOR)
+    best = optimise(scheme, "D", [], best_time=True, until=400 * 3600.0, activity="GBq")
+    lam_d = math.log(2) / (6 * 3600.0)
+    t_max = math.log(lam_d / LAMBDA_P) / (lam_d - LAMBDA_P)
+    assert best.best["time"] == pytest.approx(t_max, rel=1e-9)
+    assert best.objective == pytest.approx(float(_daughter(t_max, 6 * 3600.0)), rel=1e-9)
+    assert best.unit == "GBq"
+    assert best.to_dict()["target"]["quantity"] == "activity"
+
+
+def test_the_best_daughter_half_life_matches_a_brute_force_scan_of_the_activity():
+    # the decay constant of the target moves with the setting: d(lambda N) by the product
+    # rule with exact derivatives of lambda (the Newton steps use its second derivative)
+    scheme = kinetics.parse(GENERATOR)
+    best = optimise(scheme, "D", "t_d=1:20:h", until=24 * 3600.0, activity="GBq")
+    t_d = np.linspace(3600.0, 20 * 3600.0, 1_000_001)
+    scan = _daughter(24 * 3600.0, t_d)
+    k = int(np.argmax(scan))
+    assert best.objective == pytest.approx(float(scan[k]), rel=1e-6)
+    assert best.objective >= float(scan[k]) * (1 - 1e-12)
+    assert best.best["t_d"] * 3600.0 == pytest.approx(float(t_d[k]), rel=1e-4)

@@ -12,7 +12,7 @@ import pytest
 import scipy.linalg
 
 from kinetics.engine.sensitivity import block_sensitivities, sensitivities
-from kinetics.errors import UsageError
+from kinetics.errors import RateMatrixError
 from kinetics.propagate import propagate
 
 from conftest import chain_matrix
@@ -86,5 +86,12 @@ def test_both_routes_agree_with_start_vectors_and_a_feed():
 
 
 def test_bad_directions_are_refused():
-    with pytest.raises(UsageError, match=r"directions must have shape \(d, 2, 2\)"):
+    with pytest.raises(RateMatrixError) as info:
         sensitivities(chain_matrix([1.0]), [1, 0], [1.0], np.zeros((1, 3, 3)))
+    assert str(info.value) == "directions must have shape (d, 2, 2), got (1, 3, 3)"
+    with pytest.raises(RateMatrixError) as info:
+        sensitivities(chain_matrix([1.0]), [1, 0], [1.0], [[["x"]]])
+    assert str(info.value) == "directions are not numeric"
+    with pytest.raises(RateMatrixError) as info:
+        sensitivities(chain_matrix([1.0]), [1, 0], [1.0], np.full((1, 2, 2), np.nan))
+    assert str(info.value) == "directions have a non-finite entry"

@@ -104,10 +104,18 @@ def test_bad_times(times, message):
 def test_time_grid():
     grid = time_grid(90.0, 4)
     assert grid.tolist() == [0.0, 30.0, 60.0, 90.0]
-    with pytest.raises(TimesError, match="the end time must be positive"):
+    with pytest.raises(TimesError) as info:
         time_grid(0.0)
-    with pytest.raises(TimesError, match="at least 2 points"):
+    assert str(info.value) == (
+        "the end time must be positive and finite, not 0 s; give the end of the window in "
+        "seconds, e.g. 5400 for 90 min"
+    )
+    with pytest.raises(TimesError) as info:
+        time_grid("soon")
+    assert info.value.problem == "the end time 'soon' is not a number"
+    with pytest.raises(TimesError) as info:
         time_grid(10.0, 1)
+    assert str(info.value) == "a grid needs at least 2 points, not 1; e.g. points=201"
 
 
 def test_time_factor():

@@ -18,7 +18,18 @@ import pytest
 import kinetics
 from kinetics.analysis import summarise
 from kinetics.cli import main
-from kinetics.errors import UsageError
+from kinetics.errors import (
+    ConcentrationError,
+    ConstantError,
+    ExpressionError,
+    ParameterSpecError,
+    RateMatrixError,
+    SettingError,
+    SpeciesError,
+    SweepStoreError,
+    TemperatureError,
+    TimesError,
+)
 from kinetics.ratematrix import dense_rate_matrix, step_rates
 from kinetics.sweep import (
     chunk_result,
@@ -32,6 +43,7 @@ from kinetics.sweep import (
     set_matrices,
     sweep,
 )
+from kinetics.sweep.spec import SPREAD_HELP, VARY_HELP
 from kinetics.sweep.store import ChunkStore, run_sweep
 
 CONSECUTIVE = """\
@@ -129,57 +141,150 @@ def test_temperature_and_arrhenius_parameters():
 
 
 @pytest.mark.parametrize(
-    ("spec", "words"),
+    ("spec", "error", "problem", "hint"),
     [
-        ("k9=0.1:1:3", "is not a rate constant"),
-        ("k1", "no '='"),
-        ("k1=", "needs a name and values"),
-        ("k1=0.1:1:3:log:1/min:extra", "unexpected field"),
-        ("k1=0:1:3:log", "log spacing needs positive"),
-        ("k1=0.1:1:0", "whole number >= 1"),
-        ("k1=0.1:1:2.5", "not a whole number"),
-        ("k1=0.1:1:1", "at least 2 values"),
-        ("k1=a,b", "is not a number"),
-        ("k1=0.1:1:3:meter", "does not have the dimension"),
-        ("k1=0.1:1:3:bananas", "is not a unit"),
-        ("k1=-1,2", "negative"),
-        ("temperature=20:80:3:degC", "no Arrhenius constant"),
-        ("start:Z=1,2", "not a species"),
-        ("excess:A=1,2", "held in excess"),
-        ("k1.Ea=80,90", "not by the Arrhenius law"),
+        (
+            "k9=0.1:1:3",
+            ConstantError,
+            ": 'k9' is not a rate constant or parameter of the scheme",
+            "parameters are k1, k2, k3, temperature, start:<species>, excess:<species>",
+        ),
+        ("k1", ParameterSpecError, " has no '='", VARY_HELP),
+        ("k1=", ParameterSpecError, " needs a name and values", VARY_HELP),
+        ("k1=0.1:1:3:log:1/min:extra", ParameterSpecError, ": unexpected field 'extra'", VARY_HELP),
+        ("k1=1:2:3:4:5", ParameterSpecError, ": unexpected field '5'", VARY_HELP),
+        (
+            "k1=0:1:3:log",
+            ParameterSpecError,
+            ": log spacing needs positive ends",
+            "use linear spacing or LO > 0",
+        ),
+        (
+            "k1=0.1:1:0",
+            ParameterSpecError,
+            ": the number of values must be a whole number >= 1, not '0'",
+            VARY_HELP,
+        ),
+        (
+            "k1=0.1:1:2.5",
+            ParameterSpecError,
+            ": the number of values '2.5' is not a whole number",
+            VARY_HELP,
+        ),
+        (
+            "k1=1:2:2000000",
+            ParameterSpecError,
+            ": 2,000,000 values on one axis are too many (at most 1,000,000)",
+            "use fewer values",
+        ),
+        (
+            "k1=0.1:1:1",
+            ParameterSpecError,
+            ": a range from 0.1 to 1 needs at least 2 values",
+            VARY_HELP,
+        ),
+        ("k1=a,b", ParameterSpecError, ": 'a' is not a number", VARY_HELP),
+        (
+            "k1=1,2:1/s:1/min",
+            ParameterSpecError,
+            " is neither a range LO:HI:N nor a list",
+            VARY_HELP,
+        ),
+        ("k1=1,2 1/s:1/min", ParameterSpecError, " gives two units", VARY_HELP),
+        (
+            "k1=0.1:1:3:meter",
+            ConstantError,
+            ": 'meter' does not have the dimension of '1/min', the unit of k1 in the file",
+            "write the values in 1/min or leave out the unit",
+        ),
+        ("k1=0.1:1:3:bananas", ConstantError, ": 'bananas' is not a unit", VARY_HELP),
+        (
+            "k1=1e400,2",
+            ConstantError,
+            ": 1e400 is beyond the range of numbers (1.8e308)",
+            "give finite values within the working range (README, Limits of the method)",
+        ),
+        ("k1=-1,2", ConstantError, ": a rate constant is negative", "give values >= 0"),
+        (
+            "start:A=-1,2",
+            ConcentrationError,
+            ": a start concentration is negative",
+            "give values >= 0",
+        ),
+        (
+            "temperature=20:80:3:degC",
+            TemperatureError,
+            ": the scheme has no Arrhenius constant, so the temperature changes nothing",
+            "define a constant as k = arrhenius(A = ..., Ea = ...) to sweep temperatures",
+        ),
+        (
+            "start:Z=1,2",
+            SpeciesError,
+            ": 'Z' is not a species of the scheme",
+            "the species are A, B, C, D",
+        ),
+        (
+            "excess:A=1,2",
+            SpeciesError,
+            ": 'A' is not a species held in excess",
+            "the scheme declares no species in excess",
+        ),
+        (
+            "k1.Ea=80,90",
+            ConstantError,
+            ": k1 is given as a number, not by the Arrhenius law, so it has no Ea",
+            "vary k1 itself, e.g. k1=0.1:1:10:log",
+        ),
     ],
 )
-def test_bad_vary_is_one_clear_sentence(chain, spec, words):
-    with pytest.raises(UsageError) as info:
+def test_bad_vary_is_one_clear_sentence(chain, spec, error, problem, hint):
+    # each message starts with the place of the mistake (the option and what was written)
+    with pytest.raises(error) as info:
         parse_vary(chain, spec)
-    assert words in str(info.value)
+    place = f"--vary {spec!r}"
+    assert str(info.value) == f"{place}{problem}; {hint}"
     assert "\n" not in str(info.value)
 
 
 def test_bad_arrhenius_specs():
     s = kinetics.parse(REVERSIBLE)
-    for spec, words in [
-        ("kf=1,2", "follows the Arrhenius law"),
-        ("temperature=-300:20:3:degC", "absolute zero"),
-        ("kf.Ea=80:90:2:K", "not a molar energy"),
-        ("temperature=1,2:kJ/mol", "not a temperature unit"),
+    for spec, error, words in [
+        ("kf=1,2", ConstantError, "follows the Arrhenius law"),
+        ("temperature=-300:20:3:degC", TemperatureError, "absolute zero"),
+        ("kf.Ea=80:90:2:K", ConstantError, "not a molar energy"),
+        ("temperature=1,2:kJ/mol", TemperatureError, "not a temperature unit"),
     ]:
-        with pytest.raises(UsageError, match=words):
+        with pytest.raises(error, match=words):
             parse_vary(s, spec)
 
 
 @pytest.mark.parametrize(
-    ("spec", "words"),
+    ("spec", "error", "words"),
     [
-        ("k1=15", "must be a percentage"),
-        ("k1=-5%", "positive percentage"),
-        ("k1", "no '='"),
-        ("k7=5%", "is not a rate constant"),
+        (
+            "k1=15",
+            ParameterSpecError,
+            ": the spread of k1 must be a percentage (lognormal); write e.g. k1=15%",
+        ),
+        (
+            "k1=-5%",
+            ParameterSpecError,
+            f": the spread must be a positive percentage; {SPREAD_HELP}",
+        ),
+        ("k1", ParameterSpecError, f" has no '='; {SPREAD_HELP}"),
+        ("k1=", ParameterSpecError, f" needs a name and a spread; {SPREAD_HELP}"),
+        (
+            "k7=5%",
+            ConstantError,
+            ": 'k7' is not a rate constant or parameter of the scheme; parameters are k1, k2, "
+            "k3, temperature, start:<species>, excess:<species>",
+        ),
     ],
 )
-def test_bad_spread(chain, spec, words):
-    with pytest.raises(UsageError, match=words):
+def test_bad_spread(chain, spec, error, words):
+    with pytest.raises(error) as info:
         parse_spread(chain, spec)
+    assert str(info.value) == f"--spread {spec!r}{words}"
 
 
 def test_spread_definitions():
@@ -192,20 +297,69 @@ def test_spread_definitions():
     assert parse_spread(s, "temperature=1.5").sigma == 1.5  # degC difference = K
     se = parse_spread(s, "kf.Ea=2kJ/mol")
     assert se.sigma == pytest.approx(2000.0, rel=1e-15)
-    with pytest.raises(UsageError, match="too wide"):
+    with pytest.raises(ParameterSpecError) as info:
         parse_spread(s, "temperature=100K")
+    assert str(info.value) == (
+        "--spread 'temperature=100K': a standard deviation of 100 K is too wide; it would give "
+        "temperatures near or below 0 K"
+    )
+
+
+@pytest.mark.parametrize(
+    ("spec", "error", "message"),
+    [
+        ("temperature=30%", ParameterSpecError, ": a spread of 30 % is too wide; use below 25 %"),
+        (
+            "temperature=abc",
+            ParameterSpecError,
+            f": 'abc' is not a number with a unit; {SPREAD_HELP}",
+        ),
+        (
+            "temperature=0K",
+            ParameterSpecError,
+            f": the standard deviation must be positive; {SPREAD_HELP}",
+        ),
+        ("temperature=2kg", TemperatureError, ": 'kg' is not a temperature unit; use K or degC"),
+        ("kf.Ea=2K", ConstantError, ": 'K' is not a molar energy; write Ea in kJ/mol or J/mol"),
+    ],
+)
+def test_bad_absolute_spread(spec, error, message):
+    with pytest.raises(error) as info:
+        parse_spread(kinetics.parse(REVERSIBLE), spec)
+    assert str(info.value) == f"--spread {spec!r}{message}"
 
 
 def test_plan_checks(chain):
     t = np.linspace(0, 3600, 5)
-    with pytest.raises(UsageError, match="varied twice"):
+    with pytest.raises(ParameterSpecError) as info:
         make_plan(chain, ["k1=0.1,0.2", "k1=0.3,0.4"], t)
-    with pytest.raises(UsageError, match="needs --samples"):
+    assert (
+        str(info.value)
+        == "k1 is varied twice; give each parameter once, in either --vary or --spread"
+    )
+    with pytest.raises(SettingError) as info:
         make_plan(chain, [], t, spread=["k1=10%"])
-    with pytest.raises(UsageError, match="needs at least one --spread"):
+    assert str(info.value) == "--spread needs --samples; e.g. --samples 1000 --spread k1=15%"
+    with pytest.raises(SettingError) as info:
         make_plan(chain, [], t, samples=10)
-    with pytest.raises(UsageError, match="seed"):
+    assert str(info.value) == (
+        "--samples needs at least one --spread; e.g. --samples 1000 --spread k1=15%"
+    )
+    with pytest.raises(SettingError) as info:
         make_plan(chain, [], t, samples=10, spread=["k1=10%"], seed=-1)
+    assert str(info.value) == "--seed must be a whole number >= 0, not -1; e.g. 1"
+    with pytest.raises(SettingError) as info:
+        make_plan(chain, [], t, chunk_size=0)
+    assert str(info.value) == "the chunk size must be a whole number >= 1, not 0; e.g. 2000"
+    with pytest.raises(SettingError) as info:
+        make_plan(chain, [], t, precision="quad")
+    assert str(info.value) == "unknown precision 'quad'; use 'auto', 'double' or 'double-double'"
+    with pytest.raises(SettingError) as info:
+        make_plan(chain, [], t, summary_method="guess")
+    assert str(info.value) == "unknown summary method 'guess'; use batch or reference"
+    with pytest.raises(TimesError) as info:
+        make_plan(chain, [], [0.0])
+    assert str(info.value) == "the time grid has no time after 0; give a positive end time"
 
 
 # ---------------------------------------------------------------------------------------
@@ -460,8 +614,13 @@ def test_resume_refuses_another_definition(chain, tmp_path):
     store = ChunkStore(tmp_path / "x.csv.chunks", plan, curves=False, resume=False)
     store.write(chunk_result(plan, 0, 2, index=0))
     other = make_plan(chain, ["k2=0.01:1:7:log"], times, chunk_size=2)
-    with pytest.raises(UsageError, match="different sweep"):
+    with pytest.raises(SweepStoreError) as info:
         ChunkStore(tmp_path / "x.csv.chunks", other, curves=False, resume=True)
+    assert str(info.value) == (
+        f"the chunks in {str(tmp_path / 'x.csv.chunks')!r} belong to a different sweep (other "
+        "scheme, parameters, times, chunk size or options); run without --resume to start "
+        "again, or repeat the original options"
+    )
     # the same definition keeps its chunk
     again = ChunkStore(tmp_path / "x.csv.chunks", plan, curves=False, resume=True)
     assert again.done() == {0}
@@ -884,7 +1043,7 @@ def test_named_quantities_in_monte_carlo_either_way():
 
 def test_a_set_outside_the_domain_of_a_definition_is_named():
     s = kinetics.parse(GENERATOR)
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ExpressionError) as info:
         kinetics.sweep(s, {"f": [50, 120]}, [0.0, 3600.0])
     assert str(info.value) == (
         "set 1 (f [%] = 120): rate constant lam_s = (1 - f) * ln(2) / t_p becomes negative "
@@ -930,3 +1089,78 @@ def test_a_named_temperature_is_swept_in_degrees_celsius():
     for celsius, half_life in zip((20, 25, 30), table["half_life A [s]"], strict=True):
         one = kinetics.solve(s.with_values(quantities={"T_ref": celsius + 273.15}), [0, 1.0])
         assert half_life == pytest.approx(one.summary("s")["A"]["half_life"], rel=1e-12, abs=0)
+
+
+def test_library_settings_are_worded_for_the_python_api(chain, tmp_path):
+    # the command line checks --engine and --scheduler itself (click choices, its own
+    # messages); the library names its own arguments
+    from kinetics.sweep import percentile_bands, run_chunks
+    from kinetics.sweep.store import TableWriter
+    from kinetics.sweep_summary import summarise_batch
+
+    plan = make_plan(chain, ["k1=0.1,0.2"], [0.0, 60.0])
+    cases = [
+        (
+            lambda: run_chunks(plan, [0], print, scheduler="tcp://127.0.0.1:9"),
+            "a scheduler needs engine='dask'; pass engine='dask' or leave out scheduler",
+        ),
+        (
+            lambda: run_chunks(plan, [0], print, engine="cloud"),
+            "unknown engine 'cloud'; use engine='local' or engine='dask'",
+        ),
+        (
+            lambda: run_chunks(plan, [0], print, threads=0),
+            "the number of threads must be a whole number >= 1, not 0; e.g. 2",
+        ),
+        (
+            lambda: percentile_bands(plan, sweep(chain, ["k1=0.1,0.2"], [0.0, 60.0])),
+            "percentile bands need a Monte Carlo plan; make the plan with samples and a "
+            "spread, e.g. monte_carlo(scheme, ['k1=15%'], 1000, times)",
+        ),
+        (
+            lambda: curves_frame(plan, chunk_result(plan, 0, 1, index=0)),
+            "this chunk was evaluated without curves; pass curves=True",
+        ),
+        (lambda: set_inputs(plan, 2), "set 2 does not exist; sets are 0 .. 1"),
+        (lambda: plan.chunk_bounds(1), "chunk 1 does not exist; chunks are 0 .. 0"),
+        (
+            lambda: TableWriter(tmp_path / "t.txt"),
+            f"the table file {str(tmp_path / 't.txt')!r} has an unknown extension; use .csv, "
+            ".parquet or .json",
+        ),
+        (
+            lambda: run_sweep(plan, []),
+            "a sweep on disk needs an output file; give --out sweep.csv",
+        ),
+    ]
+    for call, message in cases:
+        with pytest.raises(SettingError) as info:
+            call()
+        assert str(info.value) == message
+    with pytest.raises(RateMatrixError) as info:
+        summarise_batch(np.zeros((2, 2)), np.zeros(2), None)
+    assert str(info.value) == "summarise_batch needs K (b, n, n) and c0 (b, n); check the shapes"
+    with pytest.raises(RateMatrixError) as info:
+        summarise_batch(np.zeros((1, 2, 2)), np.zeros((1, 2)), None, K_low=np.zeros((2, 2)))
+    assert str(info.value) == "summarise_batch needs K_low of the shape of K; check the shapes"
+
+
+def test_a_path_that_is_no_chunk_folder_is_left_alone(chain, tmp_path):
+    plan = make_plan(chain, ["k1=0.1,0.2"], [0.0, 60.0])
+    afile = tmp_path / "x.chunks"
+    afile.write_text("mine", encoding="utf-8")
+    with pytest.raises(SweepStoreError) as info:
+        ChunkStore(afile, plan, curves=False, resume=False)
+    assert str(info.value) == (
+        f"{str(afile)!r} exists and is not a chunk folder; remove it or choose another output name"
+    )
+    folder = tmp_path / "y.chunks"
+    folder.mkdir()
+    (folder / "notes.txt").write_text("mine", encoding="utf-8")
+    with pytest.raises(SweepStoreError) as info:
+        ChunkStore(folder, plan, curves=False, resume=False)
+    assert str(info.value) == (
+        f"{str(folder)!r} is a folder but not the chunk folder of a sweep; remove it or choose "
+        "another output name"
+    )
+    assert afile.read_text(encoding="utf-8") == "mine"

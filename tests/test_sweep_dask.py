@@ -12,7 +12,7 @@ import pytest
 
 import kinetics
 from kinetics.cli import main
-from kinetics.errors import UsageError
+from kinetics.errors import SettingError
 from kinetics.sweep import make_plan, run_chunks
 
 # a local cluster takes a few seconds to start and to import the package on its workers
@@ -131,9 +131,9 @@ def test_cli_dask_scheduler_writes_the_same_table(cluster, tmp_path):
     assert len(pd.read_csv(tmp_path / "dask.csv")) == 12
 
 
-def test_unreachable_scheduler_is_a_usage_error():
+def test_unreachable_scheduler_is_a_setting_error():
     plan = make_plan(kinetics.parse(SCHEME), ["k1=0.1,0.2"], [0.0, 60.0])
-    with pytest.raises(UsageError, match="cannot reach the Dask scheduler"):
+    with pytest.raises(SettingError, match="cannot reach the Dask scheduler"):
         run_chunks(
             plan,
             [0],

@@ -15,7 +15,7 @@ import pytest
 
 import kinetics
 from kinetics.analysis.run_summary import summarise_run
-from kinetics.errors import UsageError
+from kinetics.errors import ConstantError
 
 HOUR = 3600.0
 GENERATOR = """P -> D   kP = 0.01 1/h
@@ -88,7 +88,7 @@ def test_monte_carlo_spreads_an_operation_time():
 
 def test_a_name_that_is_no_quantity_of_the_scheme():
     scheme = kinetics.parse(GENERATOR)
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(ConstantError) as info:
         kinetics.sweep(scheme, {"t_x": [1.0]}, times=[0, HOUR])
     assert str(info.value) == (
         "grid['t_x']: 't_x' is not a rate constant or parameter of the scheme; parameters "

@@ -6,115 +6,51 @@ of K) or raises the typed error of :mod:`kinetics.errors` for that mistake.
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 import scipy.sparse
 
+from kinetics.engine import checks
 from kinetics.errors import (
-    ConcentrationError,
     RateMatrixError,
     SettingError,
     SpeciesError,
-    TimesError,
 )
 
 __all__ = [
     "fraction",
-    "positive_time",
     "rate_matrix",
     "species_index",
     "species_names",
-    "start_or_feed",
     "times_end",
 ]
 
-_K_HINT = (
-    "column j holds the outflow of species j: K[j, j] = -(sum of its rate constants), "
-    "K[i, j] = nu*k for a step j -> i, all in 1/s"
-)
 #: Largest sparse matrix also kept dense (the scan's matrix products are faster dense).
 _DENSE_COPY_MAX = 1500
 
 
-def _negative_entry(i: int, j: int, value: float) -> RateMatrixError:
-    return RateMatrixError(
-        f"K[{i}, {j}] = {value:g} is negative; off-diagonal entries are rates of "
-        "formation and must be >= 0",
-        _K_HINT,
-    )
-
-
-def _square(shape: tuple) -> None:
-    if len(shape) != 2 or shape[0] != shape[1]:
-        raise RateMatrixError(f"the rate matrix K has shape {shape}; it must be square", _K_HINT)
-
-
-def _sparse_rate_matrix(K) -> tuple[np.ndarray | None, scipy.sparse.csr_array]:
-    Ks = scipy.sparse.csr_array(K, dtype=float)
-    _square(Ks.shape)
-    if not np.all(np.isfinite(Ks.data)):
-        raise RateMatrixError("the rate matrix K contains inf or nan", _K_HINT)
-    coo = Ks.tocoo()
-    bad = (coo.row != coo.col) & (coo.data < 0)
-    if bad.any():
-        k = int(np.flatnonzero(bad)[0])
-        raise _negative_entry(int(coo.row[k]), int(coo.col[k]), float(coo.data[k]))
-    Ks.eliminate_zeros()
-    Kd = Ks.toarray() if Ks.shape[0] <= _DENSE_COPY_MAX else None
-    return Kd, Ks
-
-
-def _dense_rate_matrix(K) -> tuple[np.ndarray, scipy.sparse.csr_array]:
-    try:
-        Kd = np.array(K, dtype=float)
-    except (TypeError, ValueError) as exc:
-        raise RateMatrixError("the rate matrix K is not a numeric array", _K_HINT) from exc
-    _square(Kd.shape)
-    if not np.all(np.isfinite(Kd)):
-        raise RateMatrixError("the rate matrix K contains inf or nan", _K_HINT)
-    off = Kd - np.diag(np.diag(Kd))
-    if (off < 0).any():
-        i, j = (int(x) for x in np.argwhere(off < 0)[0])
-        raise _negative_entry(i, j, Kd[i, j])
-    Ks = scipy.sparse.csr_array(Kd)
-    Ks.eliminate_zeros()
-    return Kd, Ks
-
-
 def rate_matrix(K) -> tuple[np.ndarray | None, scipy.sparse.csr_array]:
     """A rate matrix [1/s] as (dense copy or None, CSR copy), both float.
+
+    The checks and their wording are the engine's (:func:`kinetics.engine.checks.rate_matrix`);
+    an analysis also needs at least one species.
 
     Raises
     ------
     kinetics.errors.RateMatrixError
         Not numeric, not square, empty, inf or nan, or a negative off-diagonal entry.
     """
-    Kd, Ks = _sparse_rate_matrix(K) if scipy.sparse.issparse(K) else _dense_rate_matrix(K)
+    checked = checks.rate_matrix(K)
+    if scipy.sparse.issparse(checked):
+        Ks = checked.copy()  # the check may share the caller's arrays: leave them as given
+        Ks.eliminate_zeros()
+        Kd = Ks.toarray() if Ks.shape[0] <= _DENSE_COPY_MAX else None
+    else:
+        Kd = checked
+        Ks = scipy.sparse.csr_array(Kd)
+        Ks.eliminate_zeros()
     if Ks.shape[0] == 0:
         raise RateMatrixError("the rate matrix K is empty", "a scheme needs at least one species")
     return Kd, Ks
-
-
-def start_or_feed(x, n: int, what: str, hint: str) -> np.ndarray:
-    """Start concentrations [conc] or feed rates [conc/s]: ``n`` finite values >= 0.
-
-    Raises
-    ------
-    kinetics.errors.ConcentrationError
-    """
-    try:
-        v = np.array(x, dtype=float).reshape(-1)
-    except (TypeError, ValueError) as exc:
-        raise ConcentrationError(f"{what} is not a numeric array", hint) from exc
-    if v.shape != (n,):
-        raise ConcentrationError(f"{what} has {v.size} entries but K has {n} species", hint)
-    if not np.all(np.isfinite(v)):
-        raise ConcentrationError(f"{what} contains inf or nan", hint)
-    if (v < 0).any():
-        k = int(np.flatnonzero(v < 0)[0])
-        raise ConcentrationError(f"{what}[{k}] = {v[k]:g} is negative", hint)
-    return v
 
 
 def species_index(i, n: int) -> int:
@@ -147,22 +83,6 @@ def species_names(names, n: int) -> list[str]:
     return names
 
 
-def positive_time(t, what: str) -> float:
-    """A positive finite time [s].
-
-    Raises
-    ------
-    kinetics.errors.TimesError
-    """
-    try:
-        t = float(t)
-    except (TypeError, ValueError) as exc:
-        raise TimesError(f"{what} {t!r} is not a number", "give a time in seconds") from exc
-    if not math.isfinite(t) or t <= 0:
-        raise TimesError(f"{what} must be a positive finite time, got {t!r}", "seconds, > 0")
-    return t
-
-
 def fraction(x, what: str) -> float:
     """A number strictly between 0 and 1 (a fraction of the start value, a tolerance).
 
@@ -182,16 +102,13 @@ def fraction(x, what: str) -> float:
 
 
 def times_end(values) -> np.ndarray:
-    """Upper limits of areas [s]: a flat array of finite times >= 0.
+    """Upper limits of areas [s]: a flat array of finite times >= 0, in any order.
+
+    The checks and their wording are those of every time list
+    (:func:`kinetics.engine.checks.time_points`).
 
     Raises
     ------
     kinetics.errors.TimesError
     """
-    try:
-        T = np.atleast_1d(np.array(values, dtype=float)).reshape(-1)
-    except (TypeError, ValueError) as exc:
-        raise TimesError("times_end is not numeric", "give times in seconds") from exc
-    if not np.all(np.isfinite(T)) or (T < 0).any():
-        raise TimesError("times_end must be finite and >= 0", "give times in seconds")
-    return T
+    return checks.time_points(values)

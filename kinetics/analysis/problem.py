@@ -13,13 +13,13 @@ from dataclasses import dataclass
 
 import numpy as np
 import scipy.linalg
-import scipy.sparse
 
 from kinetics.analysis import inputs
 from kinetics.analysis.structure import Class, Structure, block
 from kinetics.analysis.tolerances import REL_NOISE_D
 from kinetics.analysis.working_range import check_working_range
 from kinetics.engine import DENSE_MAX, Precision, checks, propagate, propagate_batch
+from kinetics.errors import RateMatrixError
 
 __all__ = ["Problem", "State"]
 
@@ -75,19 +75,17 @@ class Problem:
         self.n = n
         self.K_low = None
         if K_low is not None:
-            self.K_low = (
-                checks.low_parts(K_low, (n, n), "K_low")
-                if self.Kd is not None
-                else scipy.sparse.csr_array(K_low, dtype=float)
+            self.K_low = checks.low_parts(
+                K_low, (n, n), "K_low", RateMatrixError, keep_sparse=self.Kd is None
             )
-        self.c0 = inputs.start_or_feed(c0, n, "c0", "start concentrations, one per species, >= 0")
+        self.c0 = checks.vector(c0, n, "c0", checks.START_HINT)
         self.f = np.zeros(n)
         self.feed = None
         if feed is not None:
-            self.f = inputs.start_or_feed(feed, n, "feed", "zero-order feed rates [conc/s], >= 0")
+            self.f = checks.vector(feed, n, "feed", checks.FEED_HINT)
             self.feed = self.f if self.f.any() else None
         self.names = inputs.species_names(names, n)
-        self.t_window = None if t_window is None else inputs.positive_time(t_window, "t_window")
+        self.t_window = None if t_window is None else checks.end_time(t_window, "t_window")
         window = self.t_window or 0.0
         amount = float(self.c0.sum() + self.f.sum() * window)
         check_working_range(-self.Ks.diagonal(), window, self.names, amount)

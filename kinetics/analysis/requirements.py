@@ -563,19 +563,32 @@ def first_broken_batch(
 
     Notes
     -----
-    Each member is evaluated by :func:`requirement_times` (its own scan of the exact
-    solution), so a member costs about as much as the summary of one ``solve``.
+    Requirements on a species that only falls or only rises are answered for the whole
+    stack at once (:func:`kinetics.analysis.requirements_batch.monotone_first_broken`:
+    closed forms, or batched Newton steps on the exact solution); a member with any other
+    requirement, or with a feed, is evaluated by :func:`requirement_times` (its own scan
+    of the exact solution, about the cost of the summary of one ``solve``).
     """
+    from kinetics.analysis.requirements_batch import monotone_first_broken
+
     names = list(species)
     K = np.asarray(K, dtype=float)
     c0 = np.asarray(c0, dtype=float)
-    out = np.full((K.shape[0], len(requirements)), np.nan)
-    for m in range(K.shape[0]):
-        start = dict(zip(names, c0[m], strict=True))
-        own = [r.for_start(start) for r in requirements]
+    b, r = K.shape[0], len(requirements)
+    out = np.full((b, r), np.nan)
+    own = [[req.for_start(dict(zip(names, c0[m], strict=True))) for req in requirements]
+           for m in range(b)]  # fmt: skip
+    done = np.zeros((b, r), dtype=bool)
+    if r and (feed is None or not np.any(feed)):
+        index = [names.index(req.species) for req in requirements]
+        senses = [1.0 if req.comparison == ">=" else -1.0 for req in requirements]
+        levels = np.array([[q.threshold for q in row] for row in own]).reshape(b, r)
+        holds = np.array([[bool(q.holds(c0[m, i])) for q, i in zip(row, index, strict=True)]
+                          for m, row in enumerate(own)]).reshape(b, r)  # fmt: skip
+        out, done = monotone_first_broken(K, c0, index, senses, levels, holds, K_low=K_low)
+    for m in np.flatnonzero(~done.all(axis=1)):
         low = None if K_low is None else K_low[m]
-        found = requirement_times(K[m], c0[m], own, names, feed, t_window, K_low=low)
+        found = requirement_times(K[m], c0[m], own[m], names, feed, t_window, K_low=low)
         for k, t in enumerate(found.times):
-            if t.first_broken is not None:
-                out[m, k] = t.first_broken
+            out[m, k] = np.nan if t.first_broken is None else t.first_broken
     return out

@@ -22,6 +22,7 @@ _EPILOG = """\b
 Settings (--over NAME=LO:HI:UNIT, several allowed):
   time (the end time, with --at-end), temperature, a named quantity of the
   file (t_p=40:60:h), a rate constant written as a value (k2=0.01:1:1/min),
+  a part of an Arrhenius constant (k1.A=1e9:1e11:1/s, k1.Ea=70:90:kJ/mol),
   start:A or excess:W.  Without a unit, the file's unit for that quantity.
 \b
 Every require line of the file must hold at the time the target is read
@@ -102,6 +103,17 @@ def _print(optimum) -> None:
     help="The end time (without --over time), or the latest time with --best-time: '8h'.",
 )
 @click.option("--yield", "as_yield", is_flag=True, help="Optimise the yield c/Σc0 instead.")
+@click.option(
+    "--activity",
+    "activity",
+    metavar="UNIT",
+    help="Optimise the activity of the species in this unit instead, e.g. MBq.",
+)
+@click.option(
+    "--sensitivity",
+    is_flag=True,
+    help="Also the exact sensitivities of the optimum to the parameters of the scheme.",
+)
 @click.option("--json", "as_json", is_flag=True, help="Print one JSON object on stdout.")
 @click.option(
     "--out", "outputs", multiple=True, type=click.Path(path_type=Path), help="A .json file."
@@ -124,6 +136,8 @@ def optimise(
     over,
     until,
     as_yield,
+    activity,
+    sensitivity,
     as_json,
     outputs,
     plot_out,
@@ -137,6 +151,7 @@ def optimise(
     """
     from kinetics.cli.terminal import progress
     from kinetics.optimise import optimise as search
+    from kinetics.optimise.words import CLI_WORDS
     from kinetics.output.optimum import optimum_json
 
     species, sense = _target(maximise, minimise)
@@ -155,6 +170,9 @@ def optimise(
             until=end,
             yield_basis=as_yield,
             time_unit=time_unit,
+            words=CLI_WORDS,
+            sensitivity=sensitivity,
+            activity=activity,
         )
         bar.step()
     document = optimum_json(found, scheme)

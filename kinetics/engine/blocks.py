@@ -462,19 +462,12 @@ def _low_parts(K_low, feed_low, n: int, fed: bool):
     :func:`kinetics.checks.low_parts`.
     """
     from kinetics.engine import checks
-    from kinetics.errors import UsageError
+    from kinetics.errors import ConcentrationError, RateMatrixError
 
     if K_low is not None:
-        if scipy.sparse.issparse(K_low):
-            K_low = scipy.sparse.csr_array(K_low, dtype=float)
-            if K_low.shape != (n, n):
-                raise UsageError(f"K_low must have shape {(n, n)}, got {K_low.shape}")
-            if not np.isfinite(K_low.data).all():
-                raise UsageError("K_low has a non-finite entry")
-        else:
-            K_low = checks.low_parts(K_low, (n, n), "K_low")
+        K_low = checks.low_parts(K_low, (n, n), "K_low", RateMatrixError, keep_sparse=True)
     if feed_low is not None and fed:
-        feed_low = checks.low_parts(feed_low, (n,), "feed_low")
+        feed_low = checks.low_parts(feed_low, (n,), "feed_low", ConcentrationError)
     return K_low, feed_low if fed else None
 
 

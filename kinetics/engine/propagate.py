@@ -67,7 +67,7 @@ import scipy.sparse
 from kinetics.engine import checks
 from kinetics.engine.dense import augment, expm_stack, propagate_stack
 from kinetics.engine.plan import TINY, U, compose
-from kinetics.errors import UsageError
+from kinetics.errors import ConcentrationError, RateMatrixError, TimesError
 
 __all__ = [
     "Precision",
@@ -141,7 +141,7 @@ def expm_nonnegative_certified(
     A = checks.rate_matrix(A, allow_sparse=False)
     t = float(t)
     if not (math.isfinite(t) and t >= 0):
-        raise UsageError("time must be finite and >= 0")
+        raise TimesError("time must be finite and >= 0")
     n = A.shape[0]
     if t == 0.0 or n == 0:
         return np.eye(n), 0.0
@@ -240,9 +240,9 @@ def propagate_certified(
     checks.precision(precision)
     K = checks.rate_matrix(K)
     n = K.shape[0]
-    c0 = checks.vector(c0, n, "initial concentrations")
+    c0 = checks.vector(c0, n, "c0", checks.START_HINT)
     times = checks.times(times)
-    f = None if feed is None else checks.vector(feed, n, "feed")
+    f = None if feed is None else checks.vector(feed, n, "feed", checks.FEED_HINT)
     from kinetics.engine.blocks import prefers_blocks, propagate_blocks
 
     # route by predicted cost (calibrated model in kinetics._blocks.route_costs)
@@ -251,8 +251,8 @@ def propagate_certified(
         return Propagation(times, conc, bound, "blocks")
     if scipy.sparse.issparse(K):
         K = K.toarray()
-    Kl = checks.low_parts(K_low, (n, n), "K_low")
-    fl = None if f is None else checks.low_parts(feed_low, (n,), "feed_low")
+    Kl = checks.low_parts(K_low, (n, n), "K_low", RateMatrixError)
+    fl = None if f is None else checks.low_parts(feed_low, (n,), "feed_low", ConcentrationError)
     A = augment(K[None], None if f is None else f[None])
     Al = augment(Kl[None], None if fl is None else fl[None])
     x0 = c0 if f is None else np.append(c0, 1.0)
@@ -298,9 +298,12 @@ def propagate(
 
     Raises
     ------
-    kinetics.errors.UsageError
-        Negative off-diagonal rates, negative or non-finite concentrations,
-        feed or times, times out of order, wrong shapes.
+    kinetics.errors.RateMatrixError
+        Negative off-diagonal rates, inf or nan, not square.
+    kinetics.errors.ConcentrationError
+        Negative or non-finite concentrations or feed, a wrong number of them.
+    kinetics.errors.TimesError
+        Negative or non-finite times, times out of order.
 
     Notes
     -----
@@ -382,16 +385,18 @@ def propagate_batch(
     try:
         K = np.array(K, dtype=float)
     except (TypeError, ValueError) as exc:
-        raise UsageError(f"rate matrices are not numeric: {exc}") from None
+        raise RateMatrixError("the rate matrix K is not a numeric array", checks.K_HINT) from exc
     if K.ndim != 3 or K.shape[1] != K.shape[2]:
-        raise UsageError(f"a batch of rate matrices must have shape (b, n, n), got {K.shape}")
+        raise RateMatrixError(
+            f"a batch of rate matrices must have shape (b, n, n), got {K.shape}", checks.K_HINT
+        )
     b, n, _ = K.shape
     checks.offdiagonal_nonnegative(K)
-    c0 = checks.vector(c0, n, "initial concentrations", (b,))
+    c0 = checks.vector(c0, n, "c0", checks.START_HINT, (b,))
     times = checks.times(times)
-    f = None if feed is None else checks.vector(feed, n, "feed", (b,))
-    Kl = checks.low_parts(K_low, (b, n, n), "K_low")
-    fl = None if f is None else checks.low_parts(feed_low, (b, n), "feed_low")
+    f = None if feed is None else checks.vector(feed, n, "feed", checks.FEED_HINT, (b,))
+    Kl = checks.low_parts(K_low, (b, n, n), "K_low", RateMatrixError)
+    fl = None if f is None else checks.low_parts(feed_low, (b, n), "feed_low", ConcentrationError)
     A = np.ascontiguousarray(augment(K, f))
     Al = np.ascontiguousarray(augment(Kl, fl))
     x0 = c0 if f is None else np.concatenate([c0, np.ones((b, 1))], axis=1)

@@ -30,7 +30,7 @@ import numpy as np
 
 from kinetics.engine import checks
 from kinetics.engine.propagate import propagate_batch
-from kinetics.errors import UsageError
+from kinetics.errors import ConcentrationError, RateMatrixError
 
 __all__ = ["block_sensitivities", "point_sensitivities", "sensitivities"]
 
@@ -117,25 +117,25 @@ def sensitivities(
     """
     K = checks.rate_matrix(K, allow_sparse=False)
     n = K.shape[0]
-    c0 = checks.vector(c0, n, "initial concentrations")
+    c0 = checks.vector(c0, n, "c0", checks.START_HINT)
     times = checks.times(times)
-    f = None if feed is None else checks.vector(feed, n, "feed")
+    f = None if feed is None else checks.vector(feed, n, "feed", checks.FEED_HINT)
     try:
         E = np.array(directions, dtype=float)
     except (TypeError, ValueError) as exc:
-        raise UsageError(f"directions are not numeric: {exc}") from None
+        raise RateMatrixError("directions are not numeric") from exc
     if E.ndim == 2:
         E = E[None]
     if E.ndim != 3 or E.shape[1:] != (n, n):
-        raise UsageError(f"directions must have shape (d, {n}, {n}), got {E.shape}")
+        raise RateMatrixError(f"directions must have shape (d, {n}, {n}), got {E.shape}")
     if not np.all(np.isfinite(E)):
-        raise UsageError("directions have a non-finite entry")
+        raise RateMatrixError("directions have a non-finite entry")
     d = E.shape[0]
     if d == 0:
         return np.zeros((0, times.size, n))
     Ep = np.maximum(E, 0.0)
     Em = np.maximum(-E, 0.0)
-    Kl = checks.low_parts(K_low, (n, n), "K_low")
+    Kl = checks.low_parts(K_low, (n, n), "K_low", RateMatrixError)
     big = np.zeros((d, 3 * n, 3 * n))
     big_low = np.zeros((d, 3 * n, 3 * n))
     for i in range(3):
@@ -150,7 +150,7 @@ def sensitivities(
         fb = np.zeros((d, 3 * n))
         fb[:, 2 * n :] = f
         fb_low = np.zeros((d, 3 * n))
-        fb_low[:, 2 * n :] = checks.low_parts(feed_low, (n,), "feed_low")
+        fb_low[:, 2 * n :] = checks.low_parts(feed_low, (n,), "feed_low", ConcentrationError)
     X = propagate_batch(big, x0, times, fb, precision=precision, K_low=big_low, feed_low=fb_low)
     return X[:, :, :n] - X[:, :, n : 2 * n]
 

@@ -12,7 +12,7 @@ from kinetics.engine import checks
 from kinetics.engine.dense import augment, distinct, expm_stack, gamma_stack, mv
 from kinetics.engine.plan import DENSE_MAX, TINY, U, compose, product_error
 from kinetics.engine.propagate import Precision, Propagation, propagate_certified
-from kinetics.errors import UsageError
+from kinetics.errors import ConcentrationError, RateMatrixError, TimesError
 
 __all__ = ["StretchPropagator"]
 
@@ -58,7 +58,7 @@ class StretchPropagator:
         checks.precision(precision)
         K = checks.rate_matrix(K)
         n = K.shape[0]
-        f = None if feed is None else checks.vector(feed, n, "feed")
+        f = None if feed is None else checks.vector(feed, n, "feed", checks.FEED_HINT)
         self.species = n
         self.precision = precision
         self._kept: dict[float, tuple] = {}
@@ -77,8 +77,8 @@ class StretchPropagator:
         K, f, K_low, feed_low = self._inputs
         n = self.species
         Kd = K.toarray() if scipy.sparse.issparse(K) else K
-        Kl = checks.low_parts(K_low, (n, n), "K_low")
-        fl = None if f is None else checks.low_parts(feed_low, (n,), "feed_low")
+        Kl = checks.low_parts(K_low, (n, n), "K_low", RateMatrixError)
+        fl = None if f is None else checks.low_parts(feed_low, (n,), "feed_low", ConcentrationError)
         A = np.ascontiguousarray(augment(Kd[None], None if f is None else f[None]))
         return A, np.ascontiguousarray(augment(Kl[None], None if fl is None else fl[None]))
 
@@ -136,12 +136,12 @@ class StretchPropagator:
         try:
             h = np.array(lengths, dtype=float).reshape(-1)
         except (TypeError, ValueError) as exc:
-            raise UsageError(f"stretch lengths are not numeric: {exc}") from None
+            raise TimesError("stretch lengths are not numeric") from exc
         if not (np.isfinite(h).all() and (h >= 0).all()):
-            raise UsageError("stretch lengths must be finite and >= 0")
+            raise TimesError("stretch lengths must be finite and >= 0")
         m = h.size
-        starts = checks.vector(starts, n, "start concentrations", (m,))
-        low = checks.low_parts(lengths_low, (m,), "lengths_low")
+        starts = checks.vector(starts, n, "start concentrations", checks.START_HINT, (m,))
+        low = checks.low_parts(lengths_low, (m,), "lengths_low", TimesError)
         fed = self._inputs[1] is not None
         if self._large:
             rows, bound = self._advance_large(starts, h)

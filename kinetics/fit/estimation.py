@@ -21,10 +21,18 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from ..errors import DataError, UsageError
+from ..errors import DataError, SettingError
 from ..units import GAS_CONSTANT
 from .diagnostics import CONDITION_LIMIT, FitState, fit_warnings, statistics
-from .model import WEIGHTS, Model, Parameter, as_runs, build_runs, initial_values, parse_free
+from .model import (
+    Model,
+    Parameter,
+    as_runs,
+    build_runs,
+    check_weights,
+    initial_values,
+    parse_free,
+)
 from .result import Estimate, FitResult, engine_predictions, make_result
 
 if TYPE_CHECKING:
@@ -499,13 +507,10 @@ def _estimates(params, search: Search, lin: Linearised, profiles) -> dict[str, E
 
 def _check_options(jacobian: str, engine: str, weights) -> None:
     if jacobian not in ("exact", "2-point", "3-point"):
-        raise UsageError(f"unknown jacobian {jacobian!r}", "use exact, 2-point or 3-point")
+        raise SettingError(f"unknown jacobian {jacobian!r}", "use exact, 2-point or 3-point")
     if engine not in ("block", "entrywise"):
-        raise UsageError(f"unknown engine {engine!r}", "use block or entrywise")
-    if not isinstance(weights, Mapping) and weights not in WEIGHTS:
-        raise UsageError(
-            f"unknown weighting {weights!r}", "use equal, relative, column or a dict of SDs"
-        )
+        raise SettingError(f"unknown engine {engine!r}", "use block or entrywise")
+    check_weights(weights)
 
 
 def _model(scheme, data, free, weights, engine) -> tuple[Model, list[Parameter], list]:
@@ -621,8 +626,10 @@ def fit(
     ------
     DataError
         Bad data, or fewer measured values than free parameters.
-    UsageError
-        Unknown free parameters, conflicting conditions, bad options.
+    kinetics.errors.ArgumentValueError
+        Unknown free parameters (:class:`~kinetics.errors.ConstantError`), conflicting
+        conditions (:class:`~kinetics.errors.ConditionError`), bad options
+        (:class:`~kinetics.errors.SettingError`).
 
     Notes
     -----

@@ -20,7 +20,16 @@ import numpy as np
 
 from .. import activity, parameters
 from ..engine import block_sensitivities
-from ..errors import ActivityError, DataError, ExpressionError, UsageError
+from ..errors import (
+    ActivityError,
+    ArgumentTypeError,
+    ConditionError,
+    ConstantError,
+    DataError,
+    ExpressionError,
+    ParameterSpecError,
+    SettingError,
+)
 from ..measurements import (
     Measurements,
     measurements_from_frame,
@@ -44,6 +53,7 @@ __all__ = [
     "Run",
     "as_runs",
     "build_runs",
+    "check_weights",
     "initial_values",
     "parse_free",
     "run_values",
@@ -83,8 +93,11 @@ def parse_free(free: str | Sequence[str], scheme: Scheme) -> list[Parameter]:
 
     Raises
     ------
-    UsageError
-        For an unknown or repeated name, or a plain name for an Arrhenius constant.
+    kinetics.errors.ParameterSpecError
+        For a repeated name or none at all.
+    kinetics.errors.ConstantError
+        For an unknown name, or a plain name for an Arrhenius constant (see
+        :func:`kinetics.parameters.resolve`).
     """
     items = [free] if isinstance(free, str) else list(free)
     names: list[str] = []
@@ -94,10 +107,12 @@ def parse_free(free: str | Sequence[str], scheme: Scheme) -> list[Parameter]:
             if not piece:
                 continue
             if piece in names:
-                raise UsageError(f"the free parameter {piece!r} is listed twice", "list it once")
+                raise ParameterSpecError(
+                    f"the free parameter {piece!r} is listed twice", "list it once"
+                )
             names.append(piece)
     if not names:
-        raise UsageError("no free parameter given", "name at least one, e.g. k1 or k1,k2")
+        raise ParameterSpecError("no free parameter given", "name at least one, e.g. k1 or k1,k2")
     params = [parameters.resolve(scheme, name, FIT_WORDS) for name in names]
     for p in params:
         if p.kind == "operation":
@@ -112,7 +127,7 @@ def _check_free_quantity(scheme: Scheme, p: Parameter) -> None:
     part above 100 % would leave.
     """
     if not p.nominal > 0:
-        raise UsageError(
+        raise ConstantError(
             f"free parameter {p.name!r} is {p.nominal:g} in the file; a fit frees positive "
             "quantities only",
             "give it a positive starting value in the file",
@@ -125,7 +140,7 @@ def _check_free_quantity(scheme: Scheme, p: Parameter) -> None:
         if b.field == "fraction"
     }
     if p.name in fractions:
-        raise UsageError(
+        raise ConstantError(
             f"free parameter {p.name!r} is a part removed, which a fit cannot free",
             "vary it in a sweep instead (kinetics sweep --vary)",
         )
@@ -479,7 +494,7 @@ def as_runs(data, scheme) -> list[Measurements]:
         elif isinstance(item, (str, Path)):
             m = read_measurements(item, scheme)
         else:
-            raise UsageError(
+            raise ArgumentTypeError(
                 f"cannot use {type(item).__name__} as measured data",
                 "give a Measurements object, a DataFrame or a CSV path",
             )
@@ -487,7 +502,7 @@ def as_runs(data, scheme) -> list[Measurements]:
             m = m.with_conditions(_parse_conditions(conditions, scheme))
         out.append(m)
     if not out:
-        raise UsageError("no measured data given", "give at least one data table")
+        raise DataError("no measured data given", hint="give at least one data table")
     return out
 
 
@@ -534,13 +549,13 @@ def _sigma(m: Measurements, weights, rows, cols, y) -> np.ndarray:
         for k, j in enumerate(cols):
             name = m.species[j]
             if name not in weights:
-                raise UsageError(
+                raise SettingError(
                     f"no standard deviation given for {name}",
                     "give one for every measured species",
                 )
             sd[k] = float(weights[name])
         if np.any(~(sd > 0)):
-            raise UsageError("standard deviations must be positive")
+            raise SettingError("standard deviations must be positive")
         return sd
     if weights == "equal":
         return np.ones(y.size)
@@ -565,9 +580,25 @@ def _sigma(m: Measurements, weights, rows, cols, y) -> np.ndarray:
                 f"fill the column '{m.species[cols[k]]} sd' wherever a value is given",
             )
         return sd
-    raise UsageError(
-        f"unknown weighting {weights!r}", "use equal, relative, column or a dict of SDs"
-    )
+    check_weights(weights)
+    raise AssertionError(f"weights {weights!r} passed the check")  # pragma: no cover
+
+
+def check_weights(weights) -> None:
+    """Refuse weights that are not one of :data:`WEIGHTS` or a mapping of SDs.
+
+    Raises
+    ------
+    kinetics.errors.SettingError
+
+    Examples
+    --------
+    >>> check_weights("relative")
+    """
+    if not isinstance(weights, Mapping) and weights not in WEIGHTS:
+        raise SettingError(
+            f"unknown weighting {weights!r}", "use equal, relative, column or a dict of SDs"
+        )
 
 
 def build_runs(scheme, datasets, params, weights) -> list[Run]:
@@ -582,7 +613,7 @@ def build_runs(scheme, datasets, params, weights) -> list[Run]:
         for name in names:
             if name in m.conditions:
                 if name in free_consts:
-                    raise UsageError(
+                    raise ConditionError(
                         f"{name} is free but {m.source} also sets it", "free it or set it, not both"
                     )
                 given[name] = m.conditions[name]
@@ -593,7 +624,7 @@ def build_runs(scheme, datasets, params, weights) -> list[Run]:
         for key, value in m.conditions.items():
             if key.startswith("start:"):
                 if key[6:] in free_starts:
-                    raise UsageError(
+                    raise ConditionError(
                         f"{key} is free but {m.source} also sets it", "free it or set it, not both"
                     )
                 initial[key[6:]] = value

@@ -4,12 +4,20 @@ optimum is, and the target over the settings for a figure.
 
 from __future__ import annotations
 
+import numbers
 from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
 import numpy as np
 
-from ..errors import UsageError
+from ..errors import (
+    ActivityError,
+    ConcentrationError,
+    SettingError,
+    SpeciesError,
+    TimesError,
+    shown_value,
+)
 from ..solution import require_scheme
 from .local import refine
 from .model import SENSES, Goal, Model
@@ -23,6 +31,7 @@ from .search import (
     violation,
 )
 from .settings import Setting, parse_over
+from .words import API_WORDS, Words
 
 if TYPE_CHECKING:
     from ..scheme import Scheme
@@ -37,46 +46,74 @@ STARTS = 3
 _FLAT_SAMPLES = 12
 
 
-def _settings(scheme: Scheme, over) -> list[Setting]:
+def _settings(scheme: Scheme, over, words: Words) -> list[Setting]:
     items = [over] if isinstance(over, str | Setting) else list(over)
-    out = [s if isinstance(s, Setting) else parse_over(scheme, s) for s in items]
+    out = [s if isinstance(s, Setting) else parse_over(scheme, s, words) for s in items]
     names = [s.name for s in out]
     for name in names:
         if names.count(name) > 1:
-            raise UsageError(f"--over names {name} twice", "give each setting once")
+            raise SettingError(f"{words.over} names {name} twice", "give each setting once")
     return out
 
 
-def _goal(scheme, species, sense, best_time, until, yield_basis, settings, time_unit) -> Goal:
+def _goal(scheme, species, sense, best_time, until, yield_basis, settings, time_unit, words,
+          activity=None):  # fmt: skip
     if sense not in SENSES:
-        raise UsageError(f"sense {sense!r} is not known", "use 'maximise' or 'minimise'")
+        raise SettingError(f"sense {sense!r} is not known", "use 'maximise' or 'minimise'")
     if species not in scheme.index:
-        raise UsageError(
-            f"{species!r} is not a species of the scheme that changes",
+        raise SpeciesError(
+            f"{words.target}{species!r} is not a species of the scheme that changes",
             "species: " + ", ".join(scheme.species_names),
         )
     if not settings and not best_time:
-        raise UsageError(
-            "nothing to optimise: no setting is given",
-            "give at least one, e.g. --over temperature=20:80:degC or --over time=0:10:h",
-        )
+        raise SettingError("nothing to optimise: no setting is given", words.first_setting)
     timed = any(s.kind == "time" for s in settings)
     if best_time and timed:
-        raise UsageError(
-            "--best-time finds the best time itself, so --over time is not needed",
-            "give the latest time to consider with --until, or use --at-end with --over time",
+        raise SettingError(
+            f"{words.best_time} finds the best time itself, so {words.time_entry} is not needed",
+            words.at_end_hint,
         )
     if until is None and not timed:
         what = "the latest time to consider" if best_time else "the end time"
-        raise UsageError(
-            f"no time given: {what} is needed",
-            "add --until, e.g. --until 10h, or --over time=0:10:h",
-        )
-    if until is not None and not (np.isfinite(until) and until > 0):
-        raise UsageError(f"the end time must be positive, not {until:g} s", "e.g. --until 10h")
+        raise TimesError(f"no time given: {what} is needed", words.until_hint)
+    if until is not None:
+        _check_until(until, words)
     if yield_basis and not scheme.initial_vector.sum() > 0:
-        raise UsageError("a yield needs start values", "give the starting materials start values")
-    return Goal(species, sense, best_time, until, yield_basis, time_unit)
+        raise ConcentrationError(
+            f"{words.yield_basis} needs start values", "give the starting materials start values"
+        )
+    if activity is not None:
+        _check_activity(scheme, species, yield_basis, words)
+    return Goal(species, sense, best_time, until, yield_basis, time_unit, activity)
+
+
+def _check_activity(scheme, species, yield_basis, words: Words) -> None:
+    """Refuse an activity target together with a yield, or of a species that no step
+    consumes (its activity is 0).
+    """
+    if yield_basis:
+        raise SettingError(
+            f"{words.yield_basis} and {words.activity} ask for two targets",
+            "optimise the yield or the activity",
+        )
+    if not any(step.reactant == species for step in scheme.steps):
+        raise ActivityError(
+            f"{species} does not decay: its activity is 0 at every setting",
+            "optimise its amount instead, or the activity of a species that decays",
+        )
+
+
+def _check_until(until, words: Words) -> None:
+    """Refuse an end time that is not a positive finite number of seconds."""
+    if isinstance(until, bool) or not isinstance(until, numbers.Real):
+        raise TimesError(
+            f"{words.until} must be a number of seconds, not {shown_value(until)}",
+            words.until_example,
+        )
+    if not (np.isfinite(until) and until > 0):
+        raise TimesError(
+            f"{words.until} must be positive, not {float(until):g} s", words.until_example
+        )
 
 
 def _requirement_rows(model: Model, point) -> tuple[dict, ...]:
@@ -155,6 +192,9 @@ def optimise(
     yield_basis: bool = False,
     starts: int = STARTS,
     time_unit: str = "s",
+    words: Words = API_WORDS,
+    sensitivity: bool = False,
+    activity: str | None = None,
 ) -> Optimum:
     r"""The best settings for a target species under every ``require`` line of the scheme.
 
@@ -180,10 +220,40 @@ def optimise(
         Local searches from the best distinct grid points.
     time_unit : str
         The unit the best time is reported in (with ``best_time``).
+    words : Words
+        How messages name the arguments: :data:`~kinetics.optimise.words.API_WORDS`
+        (``over``, ``until``), or ``CLI_WORDS`` (``--over``, ``--until``) for the command
+        line.
+    activity : str, optional
+        A unit of activity (``MBq``, ``mCi``): optimise the activity :math:`A = \lambda N`
+        of the species (:mod:`kinetics.activity`) in that unit instead of its
+        concentration.
+    sensitivity : bool
+        Also compute the exact normalised sensitivities of the optimum to the parameters
+        of the scheme (:func:`kinetics.optimise.sensitivity.optimum_sensitivities`).
 
     Returns
     -------
     Optimum
+
+    Raises
+    ------
+    kinetics.errors.SettingError
+        For an ``over`` entry that cannot be read or names nothing the scheme has, a
+        setting given twice, none at all, a time entry with ``best_time``, or an unknown
+        ``sense``.
+    kinetics.errors.TimesError
+        For a time range without a unit of time, no end time, or an ``until`` that is not
+        a positive number of seconds.
+    kinetics.errors.SpeciesError
+        For a target that is not a species of the scheme that changes.
+    kinetics.errors.ConcentrationError
+        For a yield of a scheme without start values.
+    kinetics.errors.ActivityError
+        For an activity unit that does not fit the scheme, or a species that does not
+        decay.
+    kinetics.errors.WorkingRangeError
+        For a scheme of more species than the search solves.
 
     .. math::
 
@@ -214,8 +284,11 @@ def optimise(
     1.0
     """
     scheme = require_scheme(scheme, "optimise")
-    settings = _settings(scheme, over)
-    goal = _goal(scheme, species, sense, best_time, until, yield_basis, settings, time_unit)
+    settings = _settings(scheme, over, words)
+    goal = _goal(
+        scheme, species, sense, best_time, until, yield_basis, settings, time_unit, words,
+        activity,
+    )  # fmt: skip
     model = Model(scheme, settings, goal)
     grid = grid_candidates(model)
     counts = {"grid": model.evaluations}
@@ -242,12 +315,19 @@ def optimise(
         else tuple((float(v), float(v)) for v in best.x)
     )
     counts["flatness"] = model.evaluations - before
-    unit = "-" if goal.yield_basis else scheme.concentration_unit
+    unit = "-" if goal.yield_basis else goal.activity or scheme.concentration_unit
     rows = _requirement_rows(model, point)
-    return Optimum(
+    found = Optimum(
         model.settings, goal, best.x, point.objective, unit, feasible, rows, flat, counts,
         tuple(notes),
     )  # fmt: skip
+    if not (sensitivity and feasible):
+        return found
+    from dataclasses import replace
+
+    from .sensitivity import optimum_sensitivities
+
+    return replace(found, sensitivity=optimum_sensitivities(found, scheme))
 
 
 def landscape(optimum: Optimum, scheme: Scheme, points: int = 41):

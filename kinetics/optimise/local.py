@@ -11,8 +11,13 @@ size at the start (:class:`ScaledProblem`).
    keeps :math:`\|p\| \le \Delta` and :math:`H + \lambda I` positive definite; the radius
    :math:`\Delta` follows the ratio of the actual to the predicted change.  Converged when
    the gradient on the free settings is below :math:`10^{-12}` of the target, or a step
-   below :math:`10^{-13}`.  It stops, unconverged, at the first step that would break a
-   requirement: the optimum then lies on a requirement.
+   below :math:`10^{-13}`, or the gain the quadratic model predicts below
+   :math:`10^{-12}` of the target: that last step is then taken without solving the model
+   there (Newton's quadratic convergence puts it within the square of the step of the
+   optimum).  A search whose next step would land within :data:`SAME_HILL` of an optimum
+   found from another start, at least as good, ends there without taking it.  It stops,
+   unconverged, at the first step that would break a requirement: the optimum then lies
+   on a requirement.
 2. *SLSQP* (``scipy.optimize.minimize(method="SLSQP")``) from the best point so far, with
    the exact gradient and the exact Jacobian of the requirement margins, when Newton did
    not converge.
@@ -53,12 +58,14 @@ _MAX_NEWTON = 30
 #: Converged when the scaled gradient on the free settings is below this.
 _GRADIENT_TOL = 1e-12
 #: ... or when a step in scaled coordinates is below this, or the gain the quadratic model
-#: predicts is below this share of the target.
+#: predicts is below this share of the target (the last step is then taken unsolved).
 _STEP_TOL = 1e-13
-_GAIN_TOL = 1e-15
+_GAIN_TOL = 1e-12
 #: A Newton search this close (in scaled coordinates, per setting) to an optimum found from
 #: another start is on the same hill: it ends there.
-SAME_HILL = 1e-3
+SAME_HILL = 5e-3
+#: A last step is taken unsolved only where every margin exceeds this share of its level.
+_ROOM = 1e-6
 
 
 class ScaledProblem:
@@ -67,7 +74,8 @@ class ScaledProblem:
     constraints share it).
 
     A setting maps linearly, :math:`x = l + u\,(h - l)`, or, for the time and for a
-    quantity whose bounds span a factor of 10 or more, logarithmically,
+    quantity or an Arrhenius prefactor whose bounds span a factor of 10 or more,
+    logarithmically,
     :math:`x = \exp(\ln l' + u \ln(h/l'))` with :math:`l'` the lower bound (or
     :data:`TIME_FLOOR` of the upper one for a time from 0): the target of first-order
     kinetics depends on :math:`k t` and on :math:`\ln k` linearly in the Arrhenius
@@ -91,7 +99,7 @@ class ScaledProblem:
     def x_of(self, u) -> np.ndarray:
         """Settings [internal units] of scaled coordinates (clipped to the bounds)."""
         v = self.lo + np.clip(np.asarray(u, dtype=float), 0.0, 1.0) * self.span
-        return np.clip(np.where(self.log, np.exp(v), v), *self.bounds)
+        return np.clip(np.where(self.log, np.exp(np.where(self.log, v, 0.0)), v), *self.bounds)
 
     def u_of(self, x) -> np.ndarray:
         """Scaled coordinates of settings [internal units] (inverse of :meth:`x_of`)."""
@@ -141,7 +149,7 @@ def _logarithmic(setting, lo: float, hi: float) -> bool:
     """True for a setting searched in the logarithm of its value."""
     if setting.kind == "time":
         return hi > 0
-    return setting.kind == "quantity" and lo > 0 and hi >= 10 * lo
+    return setting.kind in ("quantity", "prefactor") and lo > 0 and hi >= 10 * lo
 
 
 def scaled_problem(model: Model, start: Candidate) -> ScaledProblem:
@@ -212,14 +220,10 @@ def newton(model: Model, start: Candidate, known=()) -> tuple[Candidate, bool]:
         if np.max(np.abs(s)) <= _STEP_TOL:
             return best, True
         if predicted <= _GAIN_TOL:
-            # nothing left to gain at rounding level: the last step places the optimum
-            # (quadratic convergence), kept when the target there is as good
-            last = model.point(problem.x_of(trial))
-            if violation(model, last) == 0 and sign * (best.objective - last.objective) >= -(
-                _GAIN_TOL
-            ):
-                return Candidate(last.x, last.objective, 0.0), True
-            return best, True
+            return _last_step(model, problem, p, best, trial, predicted), True
+        reached = _known_near(problem, known, trial, best)
+        if reached is not None:
+            return reached, True
         q = model.point(problem.x_of(trial), hessian=True)
         if violation(model, q) > 0:
             return best, False  # a requirement binds: SQP takes over
@@ -236,6 +240,33 @@ def newton(model: Model, start: Candidate, known=()) -> tuple[Candidate, bool]:
         else:
             radius = 0.25 * np.linalg.norm(s)
     return best, False
+
+
+def _last_step(model: Model, problem: ScaledProblem, p: Point, best, trial, predicted):
+    """The end of a search with nothing left to gain at rounding level.
+
+    The last Newton step places the optimum (quadratic convergence): it is taken without
+    solving the model there, its target the one the quadratic model predicts (a change
+    below :data:`_GAIN_TOL` of the target), where every requirement holds with room to
+    spare; otherwise the search ends at ``best``.
+    """
+    room = p.margins / problem.margin_scales if p.margins.size else np.array([np.inf])
+    if float(np.min(room)) <= _ROOM:
+        return best
+    gain = model.goal.sign * predicted * problem.scale
+    return Candidate(problem.x_of(trial), float(best.objective + gain), 0.0)
+
+
+def _known_near(problem: ScaledProblem, known, trial, best) -> Candidate | None:
+    """A known optimum at least as good as ``best`` within :data:`SAME_HILL` of the point a
+    Newton step is about to go to: the search would end there.
+    """
+    sign = problem.model.goal.sign
+    for other in known:
+        near = np.max(np.abs(problem.u_of(other.x) - trial)) <= SAME_HILL
+        if near and sign * (other.objective - best.objective) >= 0:
+            return other
+    return None
 
 
 def slsqp(model: Model, start: Candidate, tol: float = 1e-12) -> Candidate:

@@ -42,7 +42,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from ..errors import UsageError
+from ..errors import WorkingRangeError
 from ..propagate import propagate
 from ..ratematrix import DENSE_STORAGE_MAX, rate_pattern, step_rate_pairs
 from ..sensitivity import sensitivities
@@ -74,11 +74,14 @@ class Goal:
         True: at the best time in ``[0, end]`` (the time is then a setting of its own);
         False: at the end time (``end``, or the ``time`` setting).
     end : float or None
-        [s] the end time (``--until``).
+        [s] the end time (``until`` of :func:`~kinetics.optimise.optimise`).
     yield_basis : bool
         True: the target is the yield :math:`c_B / \sum_j c_{0,j}` [-].
     time_unit : str
         The unit the best time is reported in.
+    activity : str or None
+        A unit of activity (``MBq``): the target is the activity
+        :math:`A = \lambda N` of the species (:mod:`kinetics.activity`) in that unit.
     """
 
     species: str
@@ -87,6 +90,7 @@ class Goal:
     end: float | None = None
     yield_basis: bool = False
     time_unit: str = "s"
+    activity: str | None = None
 
     @property
     def sign(self) -> float:
@@ -148,7 +152,7 @@ class Model:
 
     def __init__(self, scheme: Scheme, settings, goal: Goal) -> None:
         if len(scheme.species) > DENSE_STORAGE_MAX:
-            raise UsageError(
+            raise WorkingRangeError(
                 f"an optimisation solves schemes of up to {DENSE_STORAGE_MAX} species; "
                 f"this one has {len(scheme.species)}",
                 "lump species or split the scheme",
@@ -170,6 +174,12 @@ class Model:
         self.senses = np.array([1.0 if r.comparison == ">=" else -1.0 for r in self.requirements])
         self.evaluations = 0
         self.gradients = 0
+        #: activity per amount and decay constant [unit s per concentration unit], or None
+        self.per_decay: float | None = None
+        if goal.activity is not None:
+            from ..activity import activity_factors_for
+
+            self.per_decay = float(activity_factors_for(scheme, 1.0, goal.activity))
 
     @property
     def lower(self) -> np.ndarray:
@@ -190,9 +200,19 @@ class Model:
         """[s] the time the target is read at."""
         return float(x[self.time_at]) if self.time_at is not None else float(self.goal.end)
 
-    def _target(self, c: np.ndarray, c0: np.ndarray) -> np.ndarray:
+    def _target(self, c: np.ndarray, here: Scheme) -> np.ndarray:
         value = c[..., self.index]
-        return value / float(c0.sum()) if self.goal.yield_basis else value
+        if self.goal.yield_basis:
+            return value / float(here.initial_vector.sum())
+        return value * self._per_amount(here)
+
+    def _per_amount(self, here: Scheme) -> float:
+        """The target per concentration of the species: 1, or its activity per amount."""
+        if self.per_decay is None:
+            return 1.0
+        Kh, Kl = here.rate_matrix_pair()
+        i = self.index
+        return self.per_decay * (0.0 - (float(Kh[i, i]) + float(Kl[i, i])))
 
     def values(self, x, times) -> tuple[np.ndarray, np.ndarray, Scheme]:
         """Targets (m,) and margins (m, r) at many times for one set of the other settings
@@ -208,7 +228,7 @@ class Model:
         C[order] = propagate(Kh, here.initial_vector, times[order], feed, K_low=Kl)
         thresholds = np.array([r.threshold for r in here.requirements])
         margins = self.senses * (C[:, self.watched] - thresholds)
-        return self._target(C, here.initial_vector), margins, here
+        return self._target(C, here), margins, here
 
     def point(self, x, gradient: bool = False, hessian: bool = False) -> Point:
         """The target and margins at ``x`` [internal units], with first (and second)
@@ -226,23 +246,57 @@ class Model:
         c0 = here.initial_vector
         i, total = self.index, float(c0.sum())
         dtotal = np.array([1.0 if s.kind == "start" else 0.0 for s in self.settings])
-        c_i = float(target[0]) * (total if self.goal.yield_basis else 1.0)
-        grad = dc[:, i].copy()
+        per = self._per_amount(here)
+        c_i = float(target[0]) * (total if self.goal.yield_basis else 1.0 / per)
+        grad = dc[:, i] * per
         if self.goal.yield_basis:
             grad = (dc[:, i] * total - c_i * dtotal) / total**2
+        dlam = self._decay_slopes(slopes)
+        if dlam is not None:
+            grad = grad + self.per_decay * c_i * dlam
         jac = self.senses[:, None] * (dc[:, self.watched].T - dthr)
         if not hessian:
             return Point(x, t, float(target[0]), margins[0], thresholds, grad, jac)
         H = second_derivatives(self, x, here, t, slopes, dc)
         if H is None:  # too large for the block system: first derivatives only
             return Point(x, t, float(target[0]), margins[0], thresholds, grad, jac)
-        hess = H[:, :, i]
+        hess = H[:, :, i] * per
         if self.goal.yield_basis:
             cross = np.outer(dc[:, i], dtotal)
             hess = hess / total - (cross + cross.T) / total**2
             hess = hess + 2 * c_i * np.outer(dtotal, dtotal) / total**3
+        if dlam is not None:
+            cross = np.outer(dlam, dc[:, i])
+            hess = hess + self.per_decay * (cross + cross.T + c_i * self._decay_curvatures(x))
         curv = self.senses[:, None, None] * np.moveaxis(H[:, :, self.watched], 2, 0)
         return Point(x, t, float(target[0]), margins[0], thresholds, grad, jac, hess, curv)
+
+    def _decay_slopes(self, slopes) -> np.ndarray | None:
+        r""":math:`\partial\lambda_i/\partial x_j` of the target species' decay constant
+        [1/s per internal unit] for an activity target whose decay constant a setting
+        moves; None otherwise.
+        """
+        if self.per_decay is None:
+            return None
+        out = np.zeros(len(self.settings))
+        for j, slope in slopes.items():
+            out[j] = -float(self.pattern.dense(slope)[self.index, self.index])
+        return out if out.any() else None
+
+    def _decay_curvatures(self, x) -> np.ndarray:
+        r""":math:`\partial^2\lambda_i/\partial x_p \partial x_q` [1/s per internal units
+        squared], from :func:`kinetics.optimise.curvature.rate_curvatures`.
+        """
+        from .curvature import rate_curvatures
+
+        d = len(self.settings)
+        out = np.zeros((d, d))
+        rated = self._rated
+        for a, p in enumerate(rated):
+            for q in rated[a:]:
+                F = self.pattern.dense(rate_curvatures(self, x, p, q))
+                out[p, q] = out[q, p] = -float(F[self.index, self.index])
+        return out
 
     @property
     def _rated(self) -> list[int]:

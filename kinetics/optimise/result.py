@@ -47,6 +47,10 @@ class Optimum:
         Model evaluations: ``grid``, ``local`` (of which ``with_gradient``), ``flatness``,
         and the number of ``starts``.
     notes : tuple of str
+    sensitivity : dict or None
+        When asked for: ``objective`` (parameter -> normalised sensitivity of the target
+        at the optimum) and ``best`` (setting -> parameter -> that of the best value), see
+        :func:`kinetics.optimise.sensitivity.optimum_sensitivities`.
     """
 
     settings: tuple[Setting, ...]
@@ -59,6 +63,7 @@ class Optimum:
     flat: tuple[tuple[float, float], ...]
     counts: dict = field(default_factory=dict)
     notes: tuple[str, ...] = ()
+    sensitivity: dict | None = None
 
     @property
     def active_requirements(self) -> list[str]:
@@ -74,18 +79,22 @@ class Optimum:
         """JSON-ready: ``best`` (name -> ``value`` with ``unit``), ``objective``,
         ``objective_unit``, ``active_requirements``, ``feasible``, ``requirements``,
         ``flat_within_1_percent`` (name -> ``low``, ``high``, ``unit``), ``bounds``,
-        ``target``, ``evaluations`` and ``notes``.
+        ``target``, ``evaluations`` and ``notes``; ``sensitivity`` when it was computed.
         """
         g = self.goal
         flat = {}
         for s, (a, b) in zip(self.settings, self.flat, strict=True):
             flat[s.name] = {"low": s.shown(a), "high": s.shown(b), "unit": s.unit}
-        return {
+        out = {
             "target": {
                 "species": g.species,
                 "sense": g.sense,
                 "at": "best time" if g.best_time else "end",
-                "quantity": "yield" if g.yield_basis else "concentration",
+                "quantity": "yield"
+                if g.yield_basis
+                else "activity"
+                if g.activity
+                else "concentration",
             },
             "best": {
                 s.name: {"value": finite_or_none(s.shown(v)), "unit": s.unit}
@@ -103,3 +112,6 @@ class Optimum:
             "evaluations": dict(self.counts),
             "notes": list(self.notes),
         }
+        if self.sensitivity is not None:
+            out["sensitivity"] = self.sensitivity
+        return out

@@ -11,14 +11,18 @@ a named quantity (``t_p``, ``Ea1``)
     A quantity of the file (``name = expression``); the constants defined from it follow.
 a rate constant written as a value (``k2``)
     Through the one parameter grammar (:mod:`kinetics.parameters`), as a sweep names it.
+``k1.A``, ``k1.Ea``
+    The prefactor or the activation energy of a constant that follows the Arrhenius law
+    (the law stays a law: the constant follows the temperature too).
 ``start:A``, ``excess:W``
     A start concentration or the concentration of a co-reactant held in excess.
 
 Values are read in the unit given (or the file's unit for the quantity), converted with
 exact rational unit factors (:mod:`kinetics.units`) and kept in *internal units*: seconds,
-kelvin, SI base units for named quantities and constants, the scheme's concentration unit
-for start and excess values.  :func:`apply` makes the scheme of a set of values with
-:meth:`kinetics.scheme.Scheme.with_values`, so that every derived constant, start activity
+kelvin, SI base units for named quantities, constants and Arrhenius parts, the scheme's
+concentration unit for start and excess values.  :func:`apply` makes the scheme of a set
+of values with :func:`kinetics.parameters.scheme_with` (through
+:meth:`kinetics.scheme.Scheme.with_values`), so that every derived constant, start activity
 and percentage threshold follows exactly as it does anywhere else.
 """
 
@@ -32,9 +36,10 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from .. import parameters
-from ..errors import UsageError
+from ..errors import ArgumentValueError, SettingError, TimesError
 from ..parameters import NUMBER, SweepWords
 from ..units import describe_dimension, parse_unit, temperature_to_kelvin
+from .words import API_WORDS, Words
 
 if TYPE_CHECKING:
     from ..scheme import Scheme
@@ -42,7 +47,7 @@ if TYPE_CHECKING:
 __all__ = ["OVER_HELP", "SETTING_KINDS", "Setting", "apply", "parse_over"]
 
 #: What a setting can be.
-SETTING_KINDS = ("time", "temperature", "quantity", "start", "excess")
+SETTING_KINDS = ("time", "temperature", "quantity", "start", "excess", "prefactor", "energy")
 OVER_HELP = (
     "write NAME=LO:HI:UNIT, e.g. temperature=20:80:degC, time=0:10:h, t_p=40:60:h, "
     "start:A=0.5:2:mol/L"
@@ -57,9 +62,11 @@ class Setting:
     Attributes
     ----------
     name : str
-        ``time``, ``temperature``, a named quantity, a constant, ``start:A``, ``excess:W``.
+        ``time``, ``temperature``, a named quantity, a constant, ``k1.A``, ``k1.Ea``,
+        ``start:A``, ``excess:W``.
     kind : str
-        One of :data:`SETTING_KINDS` (a constant counts as a ``quantity``).
+        One of :data:`SETTING_KINDS` (a constant counts as a ``quantity``; ``prefactor``
+        and ``energy`` are the parts of an Arrhenius constant).
     target : str
         The quantity, constant or species it changes (empty for time and temperature).
     unit : str
@@ -108,42 +115,52 @@ def _is_temperature(setting: Setting) -> bool:
 class _OverWords(SweepWords):
     """The messages of :func:`kinetics.parameters.resolve` for an optimisation."""
 
-    def __init__(self, where: str, scheme: Scheme) -> None:
+    def __init__(self, where: str, scheme: Scheme, words: Words) -> None:
         super().__init__(where)
         self.quantities = list(scheme.quantities)
+        self.units = {name: d.unit for name, d in scheme.constants.items()}
+        self.words = words
 
-    def unknown(self, scheme: Scheme, name: str) -> UsageError:
+    def unknown(self, scheme: Scheme, name: str) -> SettingError:
         known = [*self.quantities, *scheme.constants]
         listed = ["time", "temperature", *known, "start:<species>", "excess:<species>"]
-        return UsageError(
+        return SettingError(
             f"{self.where}: {name!r} is not a setting of the scheme",
             self._did_you_mean(name, known) + "settings are " + ", ".join(listed),
         )
 
-    def temperature_unused(self) -> UsageError:
-        return UsageError(
+    def temperature_unused(self) -> SettingError:
+        return SettingError(
             f"{self.where}: no constant of the scheme follows the temperature, so it "
             "changes nothing",
             "define a constant by a temperature law, e.g. k = arrhenius(A = ..., Ea = ...), "
             "to optimise the temperature",
         )
 
-    def whole_arrhenius(self, name: str) -> UsageError:
-        return UsageError(
+    def whole_arrhenius(self, name: str) -> SettingError:
+        return SettingError(
             f"{self.where}: {name} follows the Arrhenius law, so the temperature sets it",
-            "optimise the temperature, or name A or Ea in the file as a quantity and optimise that",
+            f"optimise the temperature, or its parts {name}.A or {name}.Ea",
+        )
+
+    def no_part(self, name: str, base: str, part: str) -> SettingError:
+        example = self.words.give(f"{base}=0.5:2:{self.units[base]}")
+        return SettingError(
+            f"{self.where}: {base} is given as a number, not by the Arrhenius law, so it has "
+            f"no {part}",
+            f"optimise {base} itself, e.g. {example}",
         )
 
 
 def _bounds(where: str, body: str) -> tuple[float, float, str, tuple[str, str]]:
     m = _RANGE.match(body)
     if m is None:
-        raise UsageError(f"{where}: the range must be LO:HI:UNIT", OVER_HELP)
+        raise SettingError(f"{where}: the range must be LO:HI:UNIT", OVER_HELP)
     lo, hi = float(m[1]), float(m[2])
     if not (np.isfinite(lo) and np.isfinite(hi)):
-        raise UsageError(f"{where}: a bound is not a finite number", OVER_HELP)
+        raise SettingError(f"{where}: a bound is not a finite number", OVER_HELP)
     if not hi > lo:
-        raise UsageError(
+        raise SettingError(
             f"{where}: the upper bound {m[2]} is not above the lower bound {m[1]}",
             "write the lower bound first, e.g. temperature=20:80:degC",
         )
@@ -152,15 +169,15 @@ def _bounds(where: str, body: str) -> tuple[float, float, str, tuple[str, str]]:
 
 def _time(where: str, lo: float, hi: float, unit: str) -> Setting:
     if not unit:
-        raise UsageError(f"{where}: the time range has no unit", "write e.g. time=0:10:h")
+        raise TimesError(f"{where}: the time range has no unit", "write e.g. time=0:10:h")
     try:
         spec = parse_unit(unit)
     except ValueError:
-        raise UsageError(f"{where}: {unit!r} is not a unit", "write e.g. time=0:10:h") from None
+        raise TimesError(f"{where}: {unit!r} is not a unit", "write e.g. time=0:10:h") from None
     if spec.dims != {"[time]": 1}:
-        raise UsageError(f"{where}: {unit!r} is not a unit of time", "write e.g. time=0:10:h")
+        raise TimesError(f"{where}: {unit!r} is not a unit of time", "write e.g. time=0:10:h")
     if lo < 0:
-        raise UsageError(f"{where}: a time is negative", "times start at 0")
+        raise TimesError(f"{where}: a time is negative", "times start at 0")
     f = float(spec.factor)
     return Setting("time", "time", "", unit, lo, hi, lo * f, hi * f)
 
@@ -171,10 +188,10 @@ def _quantity(scheme: Scheme, where: str, name: str, lo, hi, unit, texts) -> Set
     try:
         spec = parse_unit(unit)
     except ValueError:
-        raise UsageError(f"{where}: {unit!r} is not a unit", OVER_HELP) from None
+        raise SettingError(f"{where}: {unit!r} is not a unit", OVER_HELP) from None
     wanted = dict(q.dims)
     if spec.dims != wanted:
-        raise UsageError(
+        raise SettingError(
             f"{where}: {unit!r} is not {describe_dimension(wanted)}, the dimension of {name}",
             f"write the range in {q.unit or 'the unit of ' + name}",
         )
@@ -185,7 +202,7 @@ def _quantity(scheme: Scheme, where: str, name: str, lo, hi, unit, texts) -> Set
     return Setting(name, "quantity", name, unit, lo, hi, a, b)
 
 
-def parse_over(scheme: Scheme, spec: str, option: str = "--over") -> Setting:
+def parse_over(scheme: Scheme, spec: str, words: Words = API_WORDS) -> Setting:
     r"""Read one ``NAME=LO:HI[:UNIT]`` into a :class:`Setting`.
 
     Parameters
@@ -194,8 +211,9 @@ def parse_over(scheme: Scheme, spec: str, option: str = "--over") -> Setting:
     spec : str
         ``temperature=20:80:degC``, ``time=0:10:h``, ``t_p=40:60:h``, ``k2=0.01:1:1/min``,
         ``start:A=0.5:2:mol/L``; without a unit the file's unit for that quantity.
-    option : str
-        Option name for messages.
+    words : Words
+        How messages name the setting (:data:`~kinetics.optimise.words.API_WORDS`:
+        ``over entry '...'``; the command line passes ``CLI_WORDS``: ``--over '...'``).
 
     Returns
     -------
@@ -203,8 +221,11 @@ def parse_over(scheme: Scheme, spec: str, option: str = "--over") -> Setting:
 
     Raises
     ------
-    kinetics.errors.UsageError
-        One sentence naming the place, what is wrong and how to write it.
+    kinetics.errors.TimesError
+        For a time range without a unit of time, or from a negative time.
+    kinetics.errors.SettingError
+        For any other mistake: one sentence naming the setting, what is wrong and how to
+        write it.
 
     Examples
     --------
@@ -215,25 +236,30 @@ def parse_over(scheme: Scheme, spec: str, option: str = "--over") -> Setting:
     >>> (t.kind, t.lo_internal, t.hi_internal)
     ('temperature', 293.15, 353.15)
     """
-    where = f"{option} {spec!r}"
+    where = words.place(spec)
     if "=" not in spec:
-        raise UsageError(f"{where} has no '='", OVER_HELP)
+        raise SettingError(f"{where} has no '='", OVER_HELP)
     name, _, body = spec.partition("=")
     name = name.strip()
     if not name:
-        raise UsageError(f"{where} needs a name before '='", OVER_HELP)
+        raise SettingError(f"{where} needs a name before '='", OVER_HELP)
     lo, hi, unit, texts = _bounds(where, body)
     if name == "time":
         return _time(where, lo, hi, unit)
     if name in scheme.quantities:
         return _quantity(scheme, where, name, lo, hi, unit, texts)
-    target = parameters.resolve(scheme, name, _OverWords(where, scheme))
-    if target.kind in ("prefactor", "energy"):
-        raise UsageError(
-            f"{where}: an optimisation changes whole quantities, not one part of an Arrhenius law",
-            f"name the part in the file (e.g. Ea1 = 85 kJ/mol, used as Ea = Ea1) and write "
-            f"--over 'Ea1={lo:g}:{hi:g}:{unit or 'kJ/mol'}'",
-        )
+    try:
+        return _parameter(scheme, where, name, (lo, hi, unit, texts), words)
+    except SettingError:
+        raise
+    except ArgumentValueError as error:  # a message of kinetics.parameters, typed here
+        raise SettingError(error.problem, error.hint) from None
+
+
+def _parameter(scheme: Scheme, where: str, name: str, bounds, words: Words) -> Setting:
+    """A setting of a rate constant, the temperature or a start or excess value."""
+    lo, hi, unit, texts = bounds
+    target = parameters.resolve(scheme, name, _OverWords(where, scheme, words))
     unit = unit or target.unit
     parameters.check_unit(target, unit, where, OVER_HELP)
     hi_lo, _ = parameters.to_internal(target, [lo, hi], unit, list(texts))
@@ -249,24 +275,15 @@ def apply(scheme: Scheme, settings, values) -> Scheme:
     """The scheme with the settings (other than ``time``) at ``values`` [internal units].
 
     Derived constants, start activities and thresholds written as percentages of start
-    values follow (:meth:`kinetics.scheme.Scheme.with_values`); values are taken exactly
+    values follow (:func:`kinetics.parameters.scheme_with`); values are taken exactly
     (each double as the rational it is).
     """
-    temperature = None
-    quantities: dict[str, Fraction] = {}
-    initial: dict[str, float] = {}
-    excess: dict[str, float] = {}
+    targets, chosen = [], []
     for s, v in zip(settings, values, strict=True):
-        if s.kind == "temperature":
-            temperature = float(v)
-        elif s.kind == "quantity":
-            quantities[s.target] = Fraction(float(v))
-        elif s.kind == "start":
-            initial[s.target] = float(v)
-        elif s.kind == "excess":
-            excess[s.target] = float(v)
-    if temperature is None and not quantities and not initial and not excess:
+        if s.kind != "time":
+            kind = "constant" if s.kind == "quantity" else s.kind
+            targets.append(parameters.Target(s.name, kind, s.target, s.unit))
+            chosen.append(float(v))
+    if not targets:
         return scheme
-    return scheme.with_values(
-        temperature=temperature, quantities=quantities, initial=initial, excess=excess
-    )
+    return parameters.scheme_with(scheme, targets, chosen)

@@ -27,7 +27,8 @@ def optimum_json(optimum: Optimum, scheme: Scheme) -> dict:
     :meth:`kinetics.optimise.Optimum.to_dict`: ``best`` (setting -> ``value`` and
     ``unit``), ``objective`` (the target at the optimum) with ``objective_unit``,
     ``active_requirements`` (their texts), ``feasible``, ``requirements``,
-    ``flat_within_1_percent``, ``bounds``, ``target``, ``evaluations``, ``notes``.
+    ``flat_within_1_percent``, ``bounds``, ``target``, ``evaluations``, ``notes``, and
+    ``sensitivity`` when it was asked for.
     """
     return {
         "source": scheme.source,
@@ -40,6 +41,8 @@ def optimum_json(optimum: Optimum, scheme: Scheme) -> dict:
 def _target_words(optimum: Optimum) -> str:
     g = optimum.goal
     what = f"the yield of {g.species}" if g.yield_basis else g.species
+    if g.activity:
+        what = f"the activity of {g.species}"
     if g.best_time:
         time = next(s for s in optimum.settings if s.kind == "time")
         return f"{g.sense} {what} at its best time up to {time.high:.6g} {time.unit}"
@@ -76,6 +79,8 @@ def optimum_lines(optimum: Optimum) -> list[tuple[str, str]]:
             text += f" (within 1 % of the best from {f['low']:.6g} to {f['high']:.6g})"
         lines.append((s.label, text))
     what = f"yield of {optimum.goal.species}" if optimum.goal.yield_basis else optimum.goal.species
+    if optimum.goal.activity:
+        what = f"activity of {optimum.goal.species}"
     lines.append((f"{what} at the optimum [{optimum.unit}]", f"{optimum.objective:.6g}"))
     for r in optimum.requirements:
         state = "active (at its limit)" if r["active"] else "holds"
@@ -95,7 +100,18 @@ def optimum_lines(optimum: Optimum) -> list[tuple[str, str]]:
         )
     )
     lines.extend(("note", note) for note in optimum.notes)
+    lines.extend(_hinges(optimum))
     return lines
+
+
+def _hinges(optimum: Optimum, count: int = 5) -> list[tuple[str, str]]:
+    """The parameters the target at the optimum hinges on most (d ln target / d ln p)."""
+    if optimum.sensitivity is None:
+        return []
+    values = [(p, v) for p, v in optimum.sensitivity["objective"].items() if v is not None]
+    values.sort(key=lambda pv: -abs(pv[1]))
+    shown = ", ".join(f"{p} {v:+.3g}" for p, v in values[:count])
+    return [("the optimum hinges on (d ln target / d ln p)", shown or "nothing computed")]
 
 
 def optimum_figure(optimum: Optimum, axes, target, margin, title: str = ""):

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Sequence
 
-from ..errors import UsageError
+from ..errors import SettingError
 from .evaluation import ChunkResult, evaluate_chunk
 from .plan import SweepPlan
 
@@ -52,7 +52,7 @@ def run_chunks(
 
     Raises
     ------
-    kinetics.errors.UsageError
+    kinetics.errors.SettingError
         Unknown engine, ``dask`` not installed, scheduler unreachable.
 
     Notes
@@ -64,11 +64,13 @@ def run_chunks(
     chunks = list(chunks)
     if engine == "local":
         if scheduler is not None:
-            raise UsageError("--scheduler needs --engine dask", "add --engine dask")
+            raise SettingError(
+                "a scheduler needs engine='dask'", "pass engine='dask' or leave out scheduler"
+            )
         _run_local(plan, chunks, on_result, curves, threads)
         return
     if engine != "dask":
-        raise UsageError(f"unknown engine {engine!r}", "use --engine local or --engine dask")
+        raise SettingError(f"unknown engine {engine!r}", "use engine='local' or engine='dask'")
     client, cluster = _dask_client(scheduler, workers, connect_timeout)
     try:
         _run_dask(client, plan, chunks, on_result, curves)
@@ -86,7 +88,9 @@ def _run_local(
 
     n = threads if threads is not None else (os.cpu_count() or 1)
     if isinstance(n, bool) or not isinstance(n, int) or n < 1:
-        raise UsageError(f"the number of threads must be a whole number >= 1, not {n!r}", "e.g. 2")
+        raise SettingError(
+            f"the number of threads must be a whole number >= 1, not {n!r}", "e.g. 2"
+        )
     n = min(n, len(chunks))
     if n <= 1:
         for k in chunks:
@@ -126,7 +130,7 @@ def _dask_client(scheduler: str | None, workers: int | None, timeout: float = 10
     try:
         from dask.distributed import Client, LocalCluster
     except ImportError:
-        raise UsageError(
+        raise SettingError(
             "the dask engine needs the optional dependency dask[distributed]",
             'install it with pip install "stepwise-kinetics[dask]"',
         ) from None
@@ -134,7 +138,7 @@ def _dask_client(scheduler: str | None, workers: int | None, timeout: float = 10
         try:
             return Client(scheduler, timeout=f"{timeout}s"), None
         except (OSError, TimeoutError) as exc:
-            raise UsageError(
+            raise SettingError(
                 f"cannot reach the Dask scheduler at {scheduler!r} ({exc})",
                 "check the address (e.g. tcp://host:8786) and that the scheduler runs",
             ) from None

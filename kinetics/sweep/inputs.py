@@ -15,7 +15,7 @@ import numpy as np
 
 from .. import _doubledouble as dd
 from .. import activity
-from ..errors import UsageError
+from ..errors import SettingError
 
 if TYPE_CHECKING:
     from ..scheme import Scheme
@@ -229,7 +229,7 @@ def set_inputs(plan: SweepPlan, i: int) -> dict[str, Any]:
         not in ``constants``: :meth:`kinetics.scheme.Scheme.with_values` follows them).
     """
     if not 0 <= i < plan.n_sets:
-        raise UsageError(f"set {i} does not exist", f"sets are 0 .. {plan.n_sets - 1}")
+        raise SettingError(f"set {i} does not exist", f"sets are 0 .. {plan.n_sets - 1}")
     _, internal = plan.set_values(i, i + 1)
     varied = _SetValues(plan, internal, plan.internal_low(i, i + 1))
     out: dict[str, Any] = {

@@ -19,7 +19,17 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from .. import parameters
-from ..errors import ActivityError, ExpressionError, UsageError, WorkingRangeError
+from ..engine import checks
+from ..errors import (
+    ActivityError,
+    ExpressionError,
+    ParameterSpecError,
+    SettingError,
+    TableSizeError,
+    TemperatureError,
+    TimesError,
+    WorkingRangeError,
+)
 from .inputs import input_rates
 from .spec import API_WORDS, CLI_WORDS, Parameter, Spread, Words, axes, spreads_of
 
@@ -167,7 +177,7 @@ class SweepPlan:
     def chunk_bounds(self, k: int) -> tuple[int, int]:
         """First and one-past-last set of chunk ``k``."""
         if not 0 <= k < self.n_chunks:
-            raise UsageError(f"chunk {k} does not exist", f"chunks are 0 .. {self.n_chunks - 1}")
+            raise SettingError(f"chunk {k} does not exist", f"chunks are 0 .. {self.n_chunks - 1}")
         return k * self.chunk_size, min(self.n_sets, (k + 1) * self.chunk_size)
 
     # -- columns -------------------------------------------------------------------------
@@ -380,7 +390,8 @@ def make_plan(
 
     Raises
     ------
-    kinetics.errors.UsageError
+    kinetics.errors.ArgumentValueError
+        A typed error per mistake: times, parameter names, values or spreads, settings.
     """
     from ..solution import check_times, require_scheme, time_factor
 
@@ -388,7 +399,7 @@ def make_plan(
     require_scheme(scheme, "sweep" if api else "make_plan")
     t = check_times(times)
     if t[-1] <= 0:
-        raise UsageError("the time grid has no time after 0", "give a positive end time")
+        raise TimesError("the time grid has no time after 0", "give a positive end time")
     time_factor(time_unit)
     parameters = axes(scheme, vary, words)
     spreads = spreads_of(scheme, spread, words)
@@ -396,12 +407,12 @@ def make_plan(
     varied: tuple[Parameter | Spread, ...] = (*parameters, *spreads)
     for p in varied:
         if p.name in seen:
-            raise UsageError(f"{p.name} is varied twice", words.once)
+            raise ParameterSpecError(f"{p.name} is varied twice", words.once)
         seen.add(p.name)
     samples = _check_sampling(samples, seed, bool(spreads), words)
     _check_options(chunk_size, precision, summary_method)
     if scheme.temperature is None and any(p.kind in ("prefactor", "energy") for p in varied):
-        raise UsageError("the scheme sets no temperature", "add a temperature line")
+        raise TemperatureError("the scheme sets no temperature", "add a temperature line")
     if activity_unit is not None:
         from ..activity import activity_factors
 
@@ -411,7 +422,7 @@ def make_plan(
     columns = _summary_columns(scheme, parameters, spreads, time_unit, conc)
     n_sets = math.prod(p.values.size for p in parameters) * max(samples, 1)
     if n_sets > MAX_SETS:
-        raise UsageError(
+        raise SettingError(
             f"{n_sets:,} parameter sets are too many (at most {MAX_SETS:,}; about 50 us each)",
             f"use fewer values or {words.samples}",
         )
@@ -441,7 +452,7 @@ def check_memory(plan: SweepPlan, curves: bool) -> None:
     if curves:
         values = max(values, plan.n_sets * plan.times.size * len(plan.scheme.species))
     if values > MAX_MEMORY_VALUES:
-        raise UsageError(
+        raise TableSizeError(
             f"the sweep would hold {values:,} values in memory ({plan.n_sets:,} sets), more "
             f"than {MAX_MEMORY_VALUES:,} (about {8 * MAX_MEMORY_VALUES // 10**6} MB per copy)",
             "sweep fewer sets, or write the table to a file chunk by chunk (the command "
@@ -459,27 +470,26 @@ def _whole(value, least: int) -> bool:
 def _check_sampling(samples, seed, has_spreads: bool, words: Words) -> int:
     """The Monte Carlo counts: samples and spreads go together; whole numbers >= 0."""
     if not _whole(samples, 0):
-        raise UsageError(
+        raise SettingError(
             f"{words.samples} must be a whole number >= 0, not {samples!r}", "e.g. 1000"
         )
     if has_spreads and samples == 0:
-        raise UsageError(words.spread_needs, words.mc_example)
+        raise SettingError(words.spread_needs, words.mc_example)
     if samples and not has_spreads:
-        raise UsageError(words.samples_need, words.mc_example)
+        raise SettingError(words.samples_need, words.mc_example)
     if not _whole(seed, 0):
-        raise UsageError(f"{words.seed} must be a whole number >= 0, not {seed!r}", "e.g. 1")
+        raise SettingError(f"{words.seed} must be a whole number >= 0, not {seed!r}", "e.g. 1")
     return int(samples)
 
 
 def _check_options(chunk_size, precision: str, summary_method: str) -> None:
     if not _whole(chunk_size, 1):
-        raise UsageError(
+        raise SettingError(
             f"the chunk size must be a whole number >= 1, not {chunk_size!r}", "e.g. 2000"
         )
-    if precision not in ("double", "auto", "double-double"):
-        raise UsageError(f"unknown precision {precision!r}", "use double, auto or double-double")
+    checks.precision(precision)
     if summary_method not in ("batch", "reference"):
-        raise UsageError(f"unknown summary method {summary_method!r}", "use batch or reference")
+        raise SettingError(f"unknown summary method {summary_method!r}", "use batch or reference")
 
 
 def _set_text(plan: SweepPlan, values) -> str:
@@ -499,7 +509,7 @@ def _located_inputs(plan: SweepPlan, start: int, display, internal):
             try:
                 input_rates(plan, internal[i : i + 1])
             except (ExpressionError, ActivityError) as exc:
-                raise UsageError(
+                raise type(exc)(
                     f"set {start + i} ({_set_text(plan, display[i])}): {exc.problem}", exc.hint
                 ) from None
         raise  # pragma: no cover - a block fails only where one of its sets does
@@ -531,4 +541,6 @@ def _check_sets(plan: SweepPlan, block: int = 100_000) -> None:
             check_working_range(out[i], t_end, plan.scheme.species_names, float(amount[i]))
         except WorkingRangeError as exc:
             values = _set_text(plan, display[i])
-            raise UsageError(f"set {start + i} ({values}): {exc.problem}", exc.hint) from None
+            raise WorkingRangeError(
+                f"set {start + i} ({values}): {exc.problem}", exc.hint
+            ) from None

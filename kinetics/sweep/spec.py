@@ -17,7 +17,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from .. import parameters
-from ..errors import ArgumentTypeError, UsageError, type_name
+from ..errors import ArgumentTypeError, ParameterSpecError, type_name
 from ..parameters import NUMBER, SweepWords, Target
 from ..units import parse_unit
 
@@ -142,8 +142,10 @@ def parse_vary(scheme: Scheme, spec: str, option: str = "--vary") -> Parameter:
 
     Raises
     ------
-    kinetics.errors.UsageError
-        One sentence saying what is wrong and how to write it.
+    kinetics.errors.ParameterSpecError
+        One sentence saying what is wrong and how to write it (an unknown name: see
+        :func:`kinetics.parameters.resolve`; a value the scheme cannot take: see
+        :func:`kinetics.parameters.check_values`).
 
     Notes
     -----
@@ -162,11 +164,11 @@ def parse_vary(scheme: Scheme, spec: str, option: str = "--vary") -> Parameter:
 def _parse_vary(scheme: Scheme, spec: str, where: str, help_: str) -> Parameter:
     """:func:`parse_vary` with the place and the hint of its messages given."""
     if "=" not in spec:
-        raise UsageError(f"{where} has no '='", help_)
+        raise ParameterSpecError(f"{where} has no '='", help_)
     name, _, body = spec.partition("=")
     body = body.strip()
     if not name.strip() or not body:
-        raise UsageError(f"{where} needs a name and values", help_)
+        raise ParameterSpecError(f"{where} needs a name and values", help_)
     target = parameters.resolve(scheme, name, SweepWords(where))
     texts = None
     fields = [f.strip() for f in body.split(":")]
@@ -184,12 +186,14 @@ def _range_values(fields: list[str], where: str, help_: str) -> tuple[np.ndarray
     count = _range_count(fields, where, help_)
     spacing, unit = _range_options(fields[3:], where, help_)
     if not (math.isfinite(lo) and math.isfinite(hi)):
-        raise UsageError(f"{where}: the range ends must be finite numbers", help_)
+        raise ParameterSpecError(f"{where}: the range ends must be finite numbers", help_)
     if count == 1 and lo != hi:
-        raise UsageError(f"{where}: a range from {lo:g} to {hi:g} needs at least 2 values", help_)
+        raise ParameterSpecError(
+            f"{where}: a range from {lo:g} to {hi:g} needs at least 2 values", help_
+        )
     if spacing == "log":
         if lo <= 0 or hi <= 0:
-            raise UsageError(
+            raise ParameterSpecError(
                 f"{where}: log spacing needs positive ends", "use linear spacing or LO > 0"
             )
         values = np.geomspace(lo, hi, count) if count > 1 else np.array([lo])
@@ -203,16 +207,16 @@ def _range_count(fields: list[str], where: str, help_: str) -> int:
     try:
         count = int(fields[2])
     except ValueError:
-        raise UsageError(
+        raise ParameterSpecError(
             f"{where}: the number of values {fields[2]!r} is not a whole number", help_
         ) from None
     if count < 1 or str(count) != fields[2].lstrip("+"):
-        raise UsageError(
+        raise ParameterSpecError(
             f"{where}: the number of values must be a whole number >= 1, not {fields[2]!r}",
             help_,
         )
     if count > MAX_AXIS:
-        raise UsageError(
+        raise ParameterSpecError(
             f"{where}: {count:,} values on one axis are too many (at most {MAX_AXIS:,})",
             "use fewer values",
         )
@@ -229,7 +233,7 @@ def _range_options(extras: list[str], where: str, help_: str) -> tuple[str, str]
         elif extra and not unit:
             unit = extra
         else:
-            raise UsageError(f"{where}: unexpected field {extra!r}", help_)
+            raise ParameterSpecError(f"{where}: unexpected field {extra!r}", help_)
     return spacing, unit
 
 
@@ -237,26 +241,26 @@ def _listed_values(fields: list[str], where: str, help_: str) -> tuple[np.ndarra
     """The values of a list ``V1,V2,V3[:UNIT]`` (or with the unit after a space), as written."""
     head, *rest = fields
     if len(rest) > 1:
-        raise UsageError(f"{where} is neither a range LO:HI:N nor a list", help_)
+        raise ParameterSpecError(f"{where} is neither a range LO:HI:N nor a list", help_)
     numbers, spaced_unit = _split_unit(head)
     unit = rest[0] if rest else spaced_unit
     if rest and spaced_unit:
-        raise UsageError(f"{where} gives two units", help_)
+        raise ParameterSpecError(f"{where} gives two units", help_)
     items = [x for x in numbers.split(",")]
     if any(not _NUMBER_RE.match(x) for x in items):
         bad = next(x for x in items if not _NUMBER_RE.match(x))
-        raise UsageError(f"{where}: {bad!r} is not a number", help_)
+        raise ParameterSpecError(f"{where}: {bad!r} is not a number", help_)
     values = np.array([float(x) for x in items])
     return values, unit, items
 
 
-def _check_range(values: np.ndarray, texts: list[str], where: str) -> None:
+def _check_range(target: Target, values: np.ndarray, texts: list[str], where: str) -> None:
     """Values that are not finite: written beyond the range of doubles (``1e400``), or nan."""
     bad = np.flatnonzero(~np.isfinite(values))
     if bad.size:
         k = bad[0]
         what = "not a number" if np.isnan(values[k]) else "beyond the range of numbers (1.8e308)"
-        raise UsageError(
+        raise parameters.value_error(target)(
             f"{where}: {texts[k].strip()} is {what}",
             "give finite values within the working range (README, Limits of the method)",
         )
@@ -266,7 +270,7 @@ def _parameter(
     target: Target, values, unit: str, spacing: str, where: str, help_: str, texts=None
 ) -> Parameter:
     """A grid axis from values in ``unit`` (checked and converted to internal units)."""
-    _check_range(values, texts or [repr(float(v)) for v in values], where)
+    _check_range(target, values, texts or [repr(float(v)) for v in values], where)
     parameters.check_unit(target, unit, where, help_)
     internal, low = parameters.to_internal(target, values, unit, texts)
     parameters.check_values(target, internal, where, help_)
@@ -299,21 +303,21 @@ def _grid_axis(scheme: Scheme, name, value) -> Parameter:
         )
     items = np.atleast_1d(np.asarray(value, dtype=object))
     if items.ndim != 1:
-        raise UsageError(
+        raise ParameterSpecError(
             f"{where} must be a flat list of values, not an array of shape {items.shape}",
             GRID_HELP,
         )
     if items.size == 0:
-        raise UsageError(f"{where} has no values", GRID_HELP)
+        raise ParameterSpecError(f"{where} has no values", GRID_HELP)
     if items.size > MAX_AXIS:
-        raise UsageError(
+        raise ParameterSpecError(
             f"{where}: {items.size:,} values on one axis are too many (at most {MAX_AXIS:,})",
             "use fewer values",
         )
     values = np.empty(items.size)
     for j, x in enumerate(items):
         if isinstance(x, bool) or not isinstance(x, int | float | np.integer | np.floating):
-            raise UsageError(f"{where}: {x!r} is not a number", GRID_HELP)
+            raise ParameterSpecError(f"{where}: {x!r} is not a number", GRID_HELP)
         values[j] = float(x)
     return _parameter(target, values, target.unit, "list", where, GRID_HELP)
 
@@ -390,7 +394,7 @@ def parse_spread(scheme: Scheme, spec: str, option: str = "--spread") -> Spread:
 
     Raises
     ------
-    kinetics.errors.UsageError
+    kinetics.errors.ParameterSpecError
 
     Notes
     -----
@@ -412,11 +416,11 @@ def _parse_spread(scheme: Scheme, spec: str, where: str) -> Spread:
             f"a spread must be text such as 'k1=15%', not {type_name(spec)}", SPREAD_HELP
         )
     if "=" not in spec:
-        raise UsageError(f"{where} has no '='", SPREAD_HELP)
+        raise ParameterSpecError(f"{where} has no '='", SPREAD_HELP)
     name, _, body = spec.partition("=")
     body = body.strip()
     if not name.strip() or not body:
-        raise UsageError(f"{where} needs a name and a spread", SPREAD_HELP)
+        raise ParameterSpecError(f"{where} needs a name and a spread", SPREAD_HELP)
     target = parameters.resolve(scheme, name, SweepWords(where))
     # a named quantity may be spread either way (t_p=10% lognormal, dS=5J/(mol K) normal)
     normal = target.kind in ("temperature", "energy", "quantity", "operation")
@@ -424,7 +428,7 @@ def _parse_spread(scheme: Scheme, spec: str, where: str) -> Spread:
     if m:
         distribution, sigma, relative = _relative_spread(target, float(m[1]), where)
     elif not normal:
-        raise UsageError(
+        raise ParameterSpecError(
             f"{where}: the spread of {target.name} must be a percentage (lognormal)",
             f"write e.g. {target.name}=15%",
         )
@@ -448,12 +452,12 @@ def _parse_spread(scheme: Scheme, spec: str, where: str) -> Spread:
 def _relative_spread(target: Target, pct: float, where: str) -> tuple[str, float, bool]:
     """``k1=15%``: lognormal ln(1 + s); temperature and Ea: normal, a fraction of the value."""
     if not (math.isfinite(pct) and pct > 0):
-        raise UsageError(f"{where}: the spread must be a positive percentage", SPREAD_HELP)
+        raise ParameterSpecError(f"{where}: the spread must be a positive percentage", SPREAD_HELP)
     s = pct / 100.0
     if target.kind not in ("temperature", "energy") and target.log:
         return "lognormal", math.log1p(s), False
     if s >= 0.25:
-        raise UsageError(f"{where}: a spread of {pct:g} % is too wide", "use below 25 %")
+        raise ParameterSpecError(f"{where}: a spread of {pct:g} % is too wide", "use below 25 %")
     return "normal", s, True
 
 
@@ -473,19 +477,22 @@ def _absolute_spread(target: Target, body: str, where: str) -> float:
     """``temperature=2K``, ``k3.Ea=2kJ/mol``: the standard deviation in internal units."""
     m = re.match(rf"^({NUMBER})\s*(?P<unit>.*?)\s*$", body)
     if not m:
-        raise UsageError(f"{where}: {body!r} is not a number with a unit", SPREAD_HELP)
+        raise ParameterSpecError(f"{where}: {body!r} is not a number with a unit", SPREAD_HELP)
     value = float(m[1])
     unit = m["unit"] or target.unit
     if not (math.isfinite(value) and value > 0):
-        raise UsageError(f"{where}: the standard deviation must be positive", SPREAD_HELP)
+        raise ParameterSpecError(f"{where}: the standard deviation must be positive", SPREAD_HELP)
     if target.kind != "temperature":
         parameters.check_unit(target, unit, where, VARY_HELP)
         return float(Fraction(value) * parse_unit(unit).factor)
     if unit not in _KELVIN_PER_DEGREE:
-        raise UsageError(f"{where}: {unit!r} is not a temperature unit", "use K or degC")
+        # the type and wording of kinetics.parameters.check_unit for a temperature
+        raise parameters.value_error(target)(
+            f"{where}: {unit!r} is not a temperature unit", "use K or degC"
+        )
     sigma = value * _KELVIN_PER_DEGREE[unit]
     if sigma >= 0.25 * target.nominal:
-        raise UsageError(
+        raise ParameterSpecError(
             f"{where}: a standard deviation of {value:g} {unit} is too wide",
             "it would give temperatures near or below 0 K",
         )

@@ -39,7 +39,7 @@ from typing import TYPE_CHECKING, Any, TextIO
 
 import numpy as np
 
-from ..errors import KineticsError, UsageError
+from ..errors import KineticsError, SettingError, SweepStoreError
 from ..files import atomic_path, output_error, spreadsheet_frame
 from ..jsonready import finite_or_none
 from .engines import run_chunks
@@ -82,7 +82,7 @@ class ChunkStore:
 
     Raises
     ------
-    kinetics.errors.UsageError
+    kinetics.errors.SweepStoreError
         ``resume`` with a folder of another sweep definition, or a path that is not such a
         folder.
     """
@@ -94,7 +94,7 @@ class ChunkStore:
         self.hash = plan.definition_hash(curves)
         manifest = self.folder / "manifest.json"
         if self.folder.exists() and not self.folder.is_dir():
-            raise UsageError(
+            raise SweepStoreError(
                 f"{str(self.folder)!r} exists and is not a chunk folder",
                 "remove it or choose another output name",
             )
@@ -105,12 +105,12 @@ class ChunkStore:
             except (OSError, ValueError):
                 old = None
         elif self.folder.is_dir() and any(self.folder.iterdir()):
-            raise UsageError(
+            raise SweepStoreError(
                 f"{str(self.folder)!r} is a folder but not the chunk folder of a sweep",
                 "remove it or choose another output name",
             )
         if resume and old is not None and old.get("hash") != self.hash:
-            raise UsageError(
+            raise SweepStoreError(
                 f"the chunks in {str(self.folder)!r} belong to a different sweep (other "
                 "scheme, parameters, times, chunk size or options)",
                 "run without --resume to start again, or repeat the original options",
@@ -211,12 +211,12 @@ class ChunkStore:
                     z["bound"] if "bound" in z.files else None,
                 )
         except (OSError, ValueError, KeyError) as exc:
-            raise UsageError(
+            raise SweepStoreError(
                 f"the chunk file {str(self.path(k))!r} cannot be read ({exc})",
                 "delete it and run again with --resume",
             ) from None
         if owner != self.hash:
-            raise UsageError(
+            raise SweepStoreError(
                 f"the chunk file {str(self.path(k))!r} belongs to another sweep",
                 "delete the folder and run again (another sweep wrote into it)",
             )
@@ -224,7 +224,7 @@ class ChunkStore:
             stop - start,
             len(self.plan.columns),
         ):
-            raise UsageError(
+            raise SweepStoreError(
                 f"the chunk file {str(self.path(k))!r} does not match this sweep",
                 "delete it and run again with --resume",
             )
@@ -264,7 +264,7 @@ class TableWriter:
         self.path = Path(path)
         self.kind = self.path.suffix.lower()
         if self.kind not in TABLE_FORMATS:
-            raise UsageError(
+            raise SettingError(
                 f"the table file {str(path)!r} has an unknown extension",
                 "use .csv, .parquet or .json",
             )
@@ -407,7 +407,7 @@ class OutputLock:
 
     Raises
     ------
-    kinetics.errors.UsageError
+    kinetics.errors.SweepStoreError
         Another process holds the lock.
     """
 
@@ -433,7 +433,7 @@ class OutputLock:
                 holder = _read_small(fd)
                 os.close(fd)
                 who = f" (process {holder})" if holder.isdigit() else ""
-                raise UsageError(
+                raise SweepStoreError(
                     f"another sweep{who} is writing {str(self.path)!r}",
                     "wait until it has finished, or give this sweep other output names",
                 ) from None
@@ -451,7 +451,7 @@ class OutputLock:
                 self._fd = fd
                 return
             os.close(fd)
-        raise UsageError(  # pragma: no cover - twenty races lost in a row
+        raise SweepStoreError(  # pragma: no cover - twenty races lost in a row
             f"cannot take the lock {str(self.lock_path)!r}", "run again"
         )
 
@@ -563,7 +563,7 @@ def run_sweep(
 
     Raises
     ------
-    kinetics.errors.UsageError
+    kinetics.errors.SweepStoreError
         Among others: another sweep is writing one of the same outputs.
     kinetics.errors.OutputFileError
         A chunk or a table cannot be written (full disk); the finished chunks are kept
@@ -577,7 +577,7 @@ def run_sweep(
     paths = [Path(p) for p in outputs]
     anchor = paths[0] if paths else (samples_path or curves_path)
     if anchor is None:
-        raise UsageError("a sweep on disk needs an output file", "give --out sweep.csv")
+        raise SettingError("a sweep on disk needs an output file", "give --out sweep.csv")
     owned = [*paths, *(p for p in (samples_path, curves_path) if p is not None)]
     locks: list[OutputLock] = []
     try:
@@ -634,7 +634,7 @@ def _compute(plan, store, report, engine, scheduler, workers, threads, on_progre
         threads=threads,
     )
     if store.missing():  # pragma: no cover - an engine that lost a chunk
-        raise UsageError("some chunks were not computed", "run again with --resume")
+        raise SweepStoreError("some chunks were not computed", "run again with --resume")
 
 
 class _Tables:

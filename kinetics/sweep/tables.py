@@ -8,9 +8,10 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from ..errors import UsageError
+from ..errors import SettingError
 from .evaluation import ChunkResult
 from .plan import SweepPlan
+from .spec import API_WORDS
 
 if TYPE_CHECKING:
     import pandas as pd
@@ -61,7 +62,7 @@ def curves_frame(plan: SweepPlan, result: ChunkResult) -> pd.DataFrame:
     from ..solution import time_factor
 
     if result.curves is None:
-        raise UsageError("this chunk was evaluated without curves", "pass curves=True")
+        raise SettingError("this chunk was evaluated without curves", "pass curves=True")
     parameters = {name: result.parameters[:, j] for j, name in enumerate(plan.parameter_columns)}
     return _long_frame(
         np.arange(result.start, result.stop),
@@ -230,10 +231,13 @@ def percentile_bands(plan: SweepPlan, summary: pd.DataFrame) -> pd.DataFrame:
 
     n = plan.samples
     if not n:
-        raise UsageError("percentile bands need a Monte Carlo plan", "give --samples")
+        raise SettingError(
+            "percentile bands need a Monte Carlo plan",
+            f"make the plan with samples and a spread, {API_WORDS.mc_example}",
+        )
     values = summary[plan.summary_columns].to_numpy(dtype=float)
     if values.shape[0] % n:
-        raise UsageError("the sample rows do not cover whole grid points", "internal")
+        raise SettingError("the sample rows do not cover whole grid points", "internal")
     g = values.shape[0] // n
     blocks = values.reshape(g, n, -1)
     data: dict[str, Any] = {}
