@@ -191,9 +191,9 @@ def solution_json(
     -----
     A scheme with ``require`` lines adds ``requirements`` (one object per line: ``text``,
     ``first_broken`` in ``time_unit`` or null when it always holds, ``beyond_window``,
-    ``holds_at_start``, ``holds_between``), ``all_hold_from`` and ``all_hold_until`` (the
-    first window in which all hold together; ``all_hold_until`` null when it has no end,
-    both null when they never hold together).
+    ``holds_at_start``, ``holds_between``, ``broken_by_operation``), ``all_hold_from`` and
+    ``all_hold_until`` (the first window in which all hold together; ``all_hold_until``
+    null when it has no end, both null when they never hold together).
     """
     from kinetics.analysis.solution_summary import SUMMARY_SKIPPED_NOTE, activity_summary
 
