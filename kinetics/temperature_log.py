@@ -38,7 +38,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .errors import DataError, TimesError, UsageError, shorten
+from .errors import DataError, SettingError, TimesError, shorten
 from .timeline import At, Place, TemperatureStep, Timeline
 from .units import GAS_CONSTANT, TIME_UNITS, temperature_to_kelvin, time_factor
 
@@ -91,8 +91,10 @@ class TemperatureLog:
     lines: tuple[int, ...] = ()
 
     def timeline(self) -> Timeline:
-        """The record as temperature steps: one at the first reading and one at each
-        reading that differs from the previous one.
+        """The record as temperature steps.
+
+        One at the first reading and one at each reading that differs from the previous
+        one.
         """
         statements = []
         previous = math.nan
@@ -176,8 +178,9 @@ class TemperatureLog:
     def mean_kinetic_temperature(
         self, activation_energy: float = DEFAULT_ACTIVATION_ENERGY, end: float | None = None
     ) -> float:
-        """Mean kinetic temperature [K] from the first reading to ``end`` [s] (default:
-        the last reading); see :func:`mean_kinetic_temperature`.
+        """Mean kinetic temperature [K] from the first reading to ``end`` [s].
+
+        ``end`` defaults to the last reading; see :func:`mean_kinetic_temperature`.
         """
         return mean_kinetic_temperature(self.times, self.temperatures, activation_energy, end)
 
@@ -207,6 +210,13 @@ def mean_kinetic_temperature(
     -------
     float
 
+    Raises
+    ------
+    kinetics.errors.TimesError
+        When the window ends before the first reading (or there is none).
+    kinetics.errors.SettingError
+        For an activation energy that is not finite and above 0 J/mol.
+
     References
     ----------
     J. D. Haynes, J. Pharm. Sci. 60, 927-929 (1971).
@@ -224,12 +234,12 @@ def mean_kinetic_temperature(
     T = np.asarray(temperatures, dtype=float).reshape(-1)
     stop = (float(t[-1]) if end is None else float(end)) if t.size else math.nan
     if t.size == 0 or not stop >= t[0]:
-        raise UsageError(
+        raise TimesError(
             "the window of a mean kinetic temperature must start at the first reading",
             "give an end at or after the first reading time",
         )
     if not (math.isfinite(activation_energy) and activation_energy > 0):
-        raise UsageError(
+        raise SettingError(
             f"the activation energy must be finite and above 0 J/mol, not {activation_energy}"
         )
     held = np.diff(np.minimum(np.append(t, max(stop, t[-1])), stop))

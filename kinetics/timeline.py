@@ -49,6 +49,7 @@ from typing import TYPE_CHECKING
 
 from .errors import SchemeError, SchemeErrors, shown_value
 from .suggest import close_matches
+from .time_text import TimedText, shown_time
 from .timeline_statements import (
     TIME_FIELDS,
     Action,
@@ -172,8 +173,14 @@ class Plan:
         return sorted(t for t in times if t <= self.end)
 
 
-def _seconds(value: float) -> str:
-    return f"{shown_value(value)} s"
+def _when(value: float, place: Place) -> str:
+    """A time [s] of a message.
+
+    In the unit its line was written in (a scheme file), else in seconds as given.
+    """
+    if place.time_unit == "s":
+        return f"{shown_value(value)} s"
+    return shown_time(value, place.time_unit)
 
 
 class _Checker:
@@ -201,7 +208,7 @@ class _Checker:
         if not (math.isfinite(value) and value >= 0):
             self.errors.append(
                 place.error(
-                    f"{what} must be finite and >= 0 s, not {_seconds(value)}",
+                    f"{what} must be finite and >= 0 {place.time_unit}, not {_when(value, place)}",
                     "operations happen at or after time 0, when the start values apply",
                 )
             )
@@ -311,7 +318,7 @@ class _Checker:
             return False
         self.count += count
         if self.count > MAX_OPERATIONS:
-            window = "" if math.isinf(self.end) else f" up to {_seconds(self.end)}"
+            window = "" if math.isinf(self.end) else f" up to {_when(self.end, place)}"
             self.errors.append(
                 place.error(
                     f"the timeline would create {self.count:,} operations{window}, "
@@ -332,14 +339,16 @@ _NO_EFFECT = (
 
 
 def _note(place: Place, sentence: str) -> str:
-    """A note led by ``source:line:`` like the warnings of a scheme."""
+    """A note led by ``source:line:`` like the warnings of a scheme (times kept)."""
     lead = f"{place.source}:{place.line}: " if place.line > 0 else ""
-    return lead + sentence
+    return lead + sentence if lead else sentence
 
 
 def _repetitions(every: Every, end: float) -> tuple[list[float], int, int, float]:
-    """Times of ``every`` inside the window, their count, and the count and first time of
-    those after the window (up to ``until``).
+    """Times of ``every`` inside the window and after it.
+
+    The times inside the window, their count, and the count and first time of those
+    after the window (up to ``until``).
 
     Times are :math:`T_0 + kP`, each computed exactly and rounded once.
     """
@@ -368,7 +377,8 @@ def _check_every(check: _Checker, every: Every) -> bool:
     if ok and every.period <= 0:
         check.errors.append(
             place.error(
-                "the period of a repeated operation must be above 0 s, not 0 s",
+                f"the period of a repeated operation must be above 0 {place.time_unit}, not 0 "
+                f"{place.time_unit}",
                 "e.g. every 24 h",
             )
         )
@@ -381,8 +391,8 @@ def _check_every(check: _Checker, every: Every) -> bool:
     if ok and every.until is not None and every.until < first:
         check.errors.append(
             place.error(
-                f"the repetition ends ({_seconds(every.until)}) before it starts "
-                f"({_seconds(first)})",
+                f"the repetition ends ({_when(every.until, place)}) before it starts "
+                f"({_when(first, place)})",
                 "give 'until' after 'from'",
             )
         )
@@ -402,7 +412,7 @@ def _check_window(check: _Checker, start, end, place: Place, what: str) -> bool:
     if ok and not end > start:
         check.errors.append(
             place.error(
-                f"{what} ends ({_seconds(end)}) before it starts ({_seconds(start)})",
+                f"{what} ends ({_when(end, place)}) before it starts ({_when(start, place)})",
                 "write 'from T0 to T1' with T0 before T1",
             )
         )
@@ -414,11 +424,12 @@ def _check_ramps(check: _Checker, ramps, steps) -> None:
     """Ramps must not overlap one another, and no temperature step may fall inside one."""
     ordered = sorted(ramps, key=lambda r: (r.start, r.end))
     for earlier, later in itertools.pairwise(ordered):
+        at = later.place
         if later.start < earlier.end:
             check.errors.append(
                 later.place.error(
-                    f"this ramp ({_seconds(later.start)} to {_seconds(later.end)}) overlaps the "
-                    f"ramp from {_seconds(earlier.start)} to {_seconds(earlier.end)}",
+                    f"this ramp ({_when(later.start, at)} to {_when(later.end, at)}) overlaps the "
+                    f"ramp from {_when(earlier.start, at)} to {_when(earlier.end, at)}",
                     "let one ramp end before the next starts",
                 )
             )
@@ -427,8 +438,8 @@ def _check_ramps(check: _Checker, ramps, steps) -> None:
             if ramp.start <= time < ramp.end:
                 check.errors.append(
                     place.error(
-                        f"a temperature step at {_seconds(time)} falls inside the ramp from "
-                        f"{_seconds(ramp.start)} to {_seconds(ramp.end)}",
+                        f"a temperature step at {_when(time, place)} falls inside the ramp from "
+                        f"{_when(ramp.start, place)} to {_when(ramp.end, place)}",
                         "move the step to the end of the ramp or split the ramp",
                     )
                 )
@@ -594,14 +605,14 @@ class _Collector:
         notes = list(dict.fromkeys(check.notes))
         for index, count, first in self.skipped:
             many = count != 1
-            notes.append(
-                _note(
-                    timeline.statements[index].place,
-                    f"{count:,} operation{'s' if many else ''} from {_seconds(first)} on "
-                    f"{'fall' if many else 'falls'} after the end of the window "
-                    f"({_seconds(self.end)}) and {'were' if many else 'was'} not applied",
-                )
+            sentence = TimedText(
+                f"{count:,} operation{'s' if many else ''} from ",
+                first,
+                f" on {'fall' if many else 'falls'} after the end of the window (",
+                self.end,
+                f") and {'were' if many else 'was'} not applied",
             )
+            notes.append(_note(timeline.statements[index].place, sentence))
         operations = sorted(self.operations, key=lambda o: (o[0], o[1], o[2]))
         applied = _volumes([Operation(t, a, i) for t, i, _, a in operations], timeline.volume)
         ramps = sorted(self.ramps, key=lambda r: r[0].start)

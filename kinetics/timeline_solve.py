@@ -60,7 +60,7 @@ import numpy as np
 from . import _doubledouble as dd
 from .engine import TINY, Precision, StretchPropagator
 from .engine.checks import time_list
-from .errors import UsageError, shown_value
+from .errors import SettingError, shown_value
 from .timeline import Addition, Plan, Removal, Timeline, expand
 
 if TYPE_CHECKING:
@@ -250,8 +250,9 @@ class _Conditions:
         return out
 
     def _ramp_moments(self, ramp: int, a: float, b: float) -> dict[str, tuple[float, float]]:
-        """Moments m0, m1 of every Arrhenius constant over ``[a, b]`` (Gauss-Legendre,
-        panels over which ln k changes by at most 1/2).
+        """Moments m0, m1 of every Arrhenius constant over ``[a, b]``.
+
+        By Gauss-Legendre on panels over which ln k changes by at most 1/2.
         """
         from .units import GAS_CONSTANT
 
@@ -296,8 +297,9 @@ class _Conditions:
 
 
 def _temperature_regions(scheme: Scheme, plan: Plan) -> list[tuple[float, object]]:
-    """``(from time, regime)`` in time order: regime a temperature [K] (None: the
-    scheme's) or the index of a ramp.
+    """``(from time, regime)`` in time order.
+
+    The regime is a temperature [K] (None: the scheme's) or the index of a ramp.
     """
     # at one time: a ramp's end, then a step (which overrides it), then a ramp's start
     changes: list[tuple[float, int, object]] = [(0.0, -1, None)]
@@ -415,9 +417,10 @@ class _Chain:
         return x, e
 
     def _add(self, op, x, e: float):
-        r"""An addition: :math:`c \mapsto \kappa c + \sigma a` with the exact factors
-        :math:`\kappa = V/(V + v)` and :math:`\sigma = V_0/(V + v)` of a run with volumes
-        (both 1 otherwise), each rounded once.
+        r"""An addition: :math:`c \mapsto \kappa c + \sigma a`.
+
+        With the exact factors :math:`\kappa = V/(V + v)` and :math:`\sigma = V_0/(V + v)`
+        of a run with volumes (both 1 otherwise), each rounded once.
         """
         index = self.scheme.index
         if op.kept != 1:
@@ -748,8 +751,10 @@ def solve_timeline(
     ------
     kinetics.errors.SchemeErrors
         For mistakes in the timeline, all at once.
-    kinetics.errors.UsageError
-        For bad times.
+    kinetics.errors.SettingError
+        For a ``ramp_rtol`` outside (0, 1).
+    kinetics.errors.ArgumentValueError
+        For bad times (:func:`kinetics.engine.checks.time_list`).
 
     Examples
     --------
@@ -769,7 +774,7 @@ def solve_timeline(
     """
     t = time_list(times)
     if not (isinstance(ramp_rtol, float | int) and 0 < ramp_rtol < 1):
-        raise UsageError(
+        raise SettingError(
             f"ramp_rtol must be a number between 0 and 1, not {shown_value(ramp_rtol)}",
             "e.g. 1e-10 (relative accuracy of the ramp sub-steps)",
         )

@@ -52,6 +52,9 @@ class Place:
         The whole source line.
     snippet : str
         The part of the line a message underlines.
+    time_unit : str
+        The unit of time the line's times are written in: messages quote its times in
+        it (``"s"``, the default, quotes them in seconds as given).
     """
 
     source: str = "<timeline>"
@@ -59,6 +62,7 @@ class Place:
     column: int = 0
     text: str = ""
     snippet: str = ""
+    time_unit: str = "s"
 
     def error(self, problem: str, hint: str = "") -> SchemeError:
         """A :class:`~kinetics.errors.SchemeError` located here."""
@@ -113,8 +117,10 @@ def _pairs(values) -> tuple[tuple[str, float], ...]:
 
 @dataclass(frozen=True, slots=True)
 class Addition:
-    r"""Instant rise of named species [the scheme's ``concentration_unit``; for a scheme
-    written in mass units that is its amount twin, so masses are converted first].
+    r"""Instant rise of named species [the scheme's ``concentration_unit``].
+
+    For a scheme written in mass units that unit is its amount twin, so masses are
+    converted first.
 
     Without volumes (the default) each named species rises by its amount.  In a run
     with volumes (:attr:`Timeline.volume`, the volume :math:`V_0` at time 0), an
@@ -152,8 +158,9 @@ class Addition:
 
     @classmethod
     def portion(cls, volume: float, concentrations, start_volume: float) -> Addition:
-        """A portion of ``volume`` [m^3] holding ``concentrations`` [concentration_unit],
-        added to a run that started with ``start_volume`` [m^3] (amounts exact, rounded
+        """A portion of ``volume`` [m^3] holding ``concentrations`` [concentration_unit].
+
+        Added to a run that started with ``start_volume`` [m^3] (amounts exact, rounded
         once).
         """
         scale = Fraction(volume) / Fraction(start_volume)

@@ -219,11 +219,11 @@ def test_an_operation_after_the_window_is_noted(files, capsys):
     status, out, err = run(capsys, "solve", "late.scheme", "--until", "1d", "--json")
     assert status == 0, err
     assert json.loads(out)["timeline_notes"] == [
-        "late.scheme:4: 1 operation from 864000.0 s on falls after the end of the window "
-        "(86400.0 s) and was not applied"
+        "late.scheme:4: 1 operation from 10 d on falls after the end of the window "
+        "(1 d) and was not applied"
     ]
     status, out, _ = run(capsys, "solve", "late.scheme", "--until", "1d", "--points", "3")
-    assert "note: late.scheme:4: 1 operation from 864000.0 s on falls after" in out
+    assert "note: late.scheme:4: 1 operation from 10 d on falls after" in out
 
 
 def test_check_json_lists_the_operations(files, capsys):
@@ -243,3 +243,70 @@ def test_sensitivities_are_refused_for_a_run_with_operations(files, capsys):
         "kinetics: --sensitivity is not available for a run with operations; leave it out, or "
         "sweep a parameter (kinetics sweep --vary) to see its effect"
     )
+
+
+def test_requirements_of_a_run_with_operations(files, capsys):
+    # D of the generator rises as the ingrowth (Bateman form) and each complete elution
+    # takes it to 0: `require D <= 0.05 M` is broken at the root of the ingrowth (before the
+    # first elution at 24 h) and holds again from the elution; a second portion of P at 36 h
+    # (add P = 2 M) breaks `require P <= 1.5 M` at that time, by the operation
+    text = GENERATOR + "require D <= 0.05 mol/L\nrequire P <= 1.5 mol/L\nat 36 h: add P = 2 M\n"
+    (files / "req.scheme").write_text(text, encoding="utf-8")
+    status, out, err = run(capsys, "solve", "req.scheme", "--until", "2d", "--json")
+    assert status == 0, err
+    doc = json.loads(out)
+    d, p = doc["requirements"]
+    lo, hi = 0.0, 24.0
+    for _ in range(60):  # bisection of the closed form
+        mid = (lo + hi) / 2
+        lo, hi = (mid, hi) if ingrowth(mid, 1.0) < 0.05 else (lo, mid)
+    assert d["first_broken"] == pytest.approx(lo / 24, rel=1e-12)
+    assert d["holds_between"][1][0] == 1.0  # holds again from the elution at 24 h
+    assert d["broken_by_operation"] is False
+    assert p["first_broken"] == 1.5
+    assert p["broken_by_operation"] is True
+    assert doc["all_hold_until"] == pytest.approx(lo / 24, rel=1e-12)
+    status, out, err = run(capsys, "solve", "req.scheme", "--until", "2d")
+    assert (
+        "  require P <= 1.5 mol/L: first broken at 1.5 d (by the operation at that time); "
+        "holds again from 3.94552 d on\n"
+    ) in out
+    assert "not checked" not in out
+
+
+def test_notes_quote_times_in_the_unit_of_the_command(files, capsys):
+    # operations written in hours, the run solved to 10 h and shown in hours (or minutes)
+    text = (
+        "A -> B  k = 0.1 1/h\nstart A = 1 M\nevery 2 h from 5 h: add A = 1 M\n"
+        "at 50 h: add A = 1 M\n"
+    )
+    (files / "notes.scheme").write_text(text, encoding="utf-8")
+    status, out, err = run(capsys, "solve", "notes.scheme", "--until", "10h")
+    assert status == 0, err
+    skipped = (
+        "notes.scheme:4: 1 operation from 50 h on falls after the end of the window (10 h) and "
+        "was not applied"
+    )
+    assert f"\nnote: {skipped}\n" in out
+    assert (
+        "  note: A: material of A is added after time 0 (from 5 h on), so a time to fall to a "
+        "fraction of its start value loses its meaning\n"
+    ) in out
+    assert (
+        "  with operations: the long-time limit, the time to it, lifetimes and relaxation times "
+        "refer to the conditions after the last operation (from 9 h on, continued without end); "
+        f"{skipped}\n"
+    ) in out
+    status, out, err = run(
+        capsys, "solve", "notes.scheme", "--until", "10h", "--time-unit", "min", "--json"
+    )
+    doc = json.loads(out)
+    assert doc["timeline_notes"] == [
+        "notes.scheme:4: 1 operation from 3000 min on falls after the end of the window "
+        "(600 min) and was not applied"
+    ]
+    assert doc["summary"]["A"]["half_life_note"] == (
+        "material of A is added after time 0 (from 300 min on), so a time to fall to a "
+        "fraction of its start value loses its meaning"
+    )
+    assert "(from 540 min on, continued without end)" in doc["scheme_summary"]["timeline_note"]

@@ -70,6 +70,8 @@ NUMERICAL = {
         "amounts_from_activities",
     ],
     "kinetics.requirements": ["Requirement.for_start"],
+    "kinetics.analysis.requirements": ["requirements_on_run"],
+    "kinetics.analysis.run_summary": ["run_requirements"],
     "kinetics.analysis": [
         "areas",
         "half_life",

@@ -193,10 +193,7 @@ def test_expression_and_activity_errors_are_value_errors_and_pickle():
 #: Library modules that still raise the command line's UsageError (issue 13 moves them to
 #: the typed errors; this list only shrinks).  Everything else outside kinetics/cli/ must
 #: not name UsageError at all.
-STILL_RAISING_USAGE_ERROR = {
-    "temperature_log.py",
-    "timeline_solve.py",
-}
+STILL_RAISING_USAGE_ERROR: set[str] = set()
 
 
 def test_usage_error_stays_with_the_command_line():

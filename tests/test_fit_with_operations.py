@@ -86,3 +86,20 @@ def test_what_a_fit_cannot_free():
         "free parameter 't_0' is 0 in the file; a fit frees positive quantities only; give it "
         "a positive starting value in the file"
     )
+
+
+@pytest.mark.parametrize("start", [2.9, 5.0])
+def test_an_addition_time_from_closed_form_data(start):
+    # invented: A -> B (k = 0.5 1/h) with a second portion of 0.6 M of A at 2.3 h; data
+    # from the closed form A(t) = e^{-kt} + 0.6 e^{-k(t - 2.3 h)} for t >= 2.3 h (first-order
+    # decay per stretch), every 0.5 h.  A start after the truth converges to it; a start
+    # more than one sample interval before it can stop at a sample time, where the
+    # objective jumps (a sample changes from before to after the addition)
+    times = np.arange(0.5, 8.01, 0.5)
+    A = np.exp(-0.5 * times) + np.where(times >= 2.3, 0.6 * np.exp(-0.5 * (times - 2.3)), 0.0)
+    frame = pd.DataFrame({"time [h]": times, "A [mol/L]": A})
+    scheme = kinetics.parse(
+        f"A -> B  k = 0.5 1/h\nstart A = 1 mol/L\nt_q = {start} h\nat t_q: add A = 0.6 mol/L"
+    )
+    result = kinetics.fit(scheme, frame, free="t_q", profile=False).to_frame()
+    assert result["value"][0] == pytest.approx(2.3, rel=1e-12)

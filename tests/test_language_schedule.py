@@ -154,7 +154,7 @@ def test_dilution_through_kinetics_solve():
         ),
         (
             "t_q = -3 h\nat t_q: add A = 1 M",
-            "t:5:9: the time of an operation must be finite and >= 0 s, not -10800.0 s; "
+            "t:5:9: the time of an operation must be finite and >= 0 h, not -3 h; "
             "operations happen at or after time 0, when the start values apply",
         ),
         (
@@ -169,12 +169,12 @@ def test_dilution_through_kinetics_solve():
         ),
         (
             "every 0 h: remove 10 % of B",
-            "t:4:12: the period of a repeated operation must be above 0 s, not 0 s; e.g. every "
+            "t:4:12: the period of a repeated operation must be above 0 h, not 0 h; e.g. every "
             "24 h",
         ),
         (
             "from 3 h to 1 h: feed A = 1 mol/L/h",
-            "t:4:1: the feed window ends (3600.0 s) before it starts (10800.0 s); write 'from T0 "
+            "t:4:1: the feed window ends (1 h) before it starts (3 h); write 'from T0 "
             "to T1' with T0 before T1",
         ),
         (
@@ -272,12 +272,12 @@ def test_ramps_that_overlap_and_a_step_inside_a_ramp():
             source="t",
         )
     assert [e.headline() for e in info.value.errors] == [
-        "t:6:1: this ramp (7200.0 s to 14400.0 s) overlaps the ramp from 3600.0 s to 10800.0 s; "
+        "t:6:1: this ramp (2 h to 4 h) overlaps the ramp from 1 h to 3 h; "
         "let one ramp end before the next starts",
-        "t:7:9: a temperature step at 7200.0 s falls inside the ramp from 3600.0 s to "
-        "10800.0 s; move the step to the end of the ramp or split the ramp",
-        "t:7:9: a temperature step at 7200.0 s falls inside the ramp from 7200.0 s to "
-        "14400.0 s; move the step to the end of the ramp or split the ramp",
+        "t:7:9: a temperature step at 2 h falls inside the ramp from 1 h to 3 h; "
+        "move the step to the end of the ramp or split the ramp",
+        "t:7:9: a temperature step at 2 h falls inside the ramp from 2 h to 4 h; "
+        "move the step to the end of the ramp or split the ramp",
     ]
 
 
@@ -318,3 +318,26 @@ def test_examples_in_the_docstrings():
     import kinetics.language.schedule as module
 
     assert doctest.testmod(module).failed == 0
+
+
+def test_messages_quote_times_in_the_unit_of_their_line():
+    # the unit of the first time written on the line (of a named one too); 1 year of
+    # 365 d = 525 600 min (SI brochure, 9th edition, 2019, table 8)
+    with pytest.raises(kinetics.SchemeErrors) as info:
+        kinetics.parse(
+            BASE + "t_q = 90 min\nevery 2 h from 5 h until 3 h: add A = 1 M\n"
+            "every 15 min from t_q until 30 min: remove 10 % of B\n",
+            source="t",
+        )
+    assert [e.headline() for e in info.value.errors] == [
+        "t:5:31: the repetition ends (3 h) before it starts (5 h); give 'until' after 'from'",
+        "t:6:37: the repetition ends (30 min) before it starts (90 min); give 'until' after 'from'",
+    ]
+    scheme = kinetics.parse(BASE + "every 0.5 min: add A = 1 mmol/L\n", source="t")
+    with pytest.raises(kinetics.SchemeErrors) as info:
+        kinetics.solve(scheme, [0.0, 365 * 86400.0])
+    assert info.value.errors[0].headline() == (
+        "t:4:16: the timeline would create 1,051,200 operations up to 525600 min, more than "
+        "250,000; repeat less often, end the repetition earlier with 'until', or solve a "
+        "shorter window"
+    )

@@ -11,8 +11,11 @@ from __future__ import annotations
 
 import math
 
+import mpmath
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 import kinetics
 from kinetics.analysis.run_summary import summarise_run
@@ -129,3 +132,175 @@ def test_examples_in_the_docstrings():
     import kinetics.analysis.run_summary as module
 
     assert doctest.testmod(module).failed == 0
+
+
+# --------------------------------------------------------------------------
+# requirements on a run with operations (closed forms per stretch, mpmath)
+# --------------------------------------------------------------------------
+
+
+def checked(text, end_hours, points=3):
+    from kinetics.analysis.run_summary import run_requirements
+
+    sol = kinetics.solve(kinetics.parse(text), np.linspace(0.0, end_hours * HOUR, points))
+    return run_requirements(sol)
+
+
+def test_a_requirement_after_an_addition_follows_the_closed_form_of_its_stretch():
+    # A -> B, k = 0.1 1/h, a second portion of 0.5 M at 2 h; 50 % of the start is reached
+    # on the second stretch: (e^{-2k} + 0.5) e^{-k (t - 2 h)} = 0.5 (closed form A = A0
+    # e^{-kt} per stretch, any physical chemistry textbook); beyond the 4 h window
+    out = checked("A -> B  k = 0.1 1/h\nstart A = 1 M\nrequire A >= 50 %\nat 2 h: add A = 0.5 M", 4)
+    (t,) = out.times
+    exact = 2 + math.log((math.exp(-0.2) + 0.5) / 0.5) / 0.1
+    assert t.first_broken == pytest.approx(exact * HOUR, rel=1e-12)
+    assert t.beyond_window is True
+    assert t.by_operation is False
+    assert out.all_hold_until == pytest.approx(exact * HOUR, rel=1e-12)
+
+
+def test_a_removal_breaks_a_requirement_at_its_time():
+    # 60 % of A removed at 1 h: 0.4 e^{-0.01} < 0.5 just after (closed form)
+    out = checked(
+        "A -> B  k = 0.01 1/h\nstart A = 1 M\nrequire A >= 50 %\nat 1 h: remove 60 % of A", 2
+    )
+    (t,) = out.times
+    assert t.first_broken == HOUR
+    assert t.by_operation is True
+    assert t.holds_at_start is True
+    assert t.holds_between == ((0.0, HOUR),)
+    assert out.to_dict()["requirements"][0]["broken_by_operation"] is True
+
+
+def test_a_removal_makes_a_requirement_hold_again():
+    # B of A -> B (k = 1 1/h) rises as 1 - e^{-kt}: above 0.5 at ln 2 h; all of B removed
+    # at 1 h, then it rises again from 0 as e^{-k} (1 - e^{-k (t - 1 h)}), which stays
+    # below e^{-1} < 0.5 for ever (closed forms)
+    out = checked(
+        "A -> B  k = 1 1/h\nstart A = 1 M\nrequire B <= 0.5 M\nat 1 h: remove 100 % of B", 3
+    )
+    (t,) = out.times
+    assert t.first_broken == pytest.approx(math.log(2) * HOUR, rel=1e-13)
+    assert t.by_operation is False
+    (a, b), (c, d) = t.holds_between
+    assert (a, c, d) == (0.0, HOUR, math.inf)
+    assert b == pytest.approx(math.log(2) * HOUR, rel=1e-13)
+    assert out.windows[1] == (HOUR, math.inf)
+
+
+def test_a_temperature_step_changes_the_rate_of_the_second_stretch():
+    # A -> B with k = A exp(-Ea/RT) (Arrhenius; R = N_A k_B = 8.31446261815324 J/(mol K),
+    # CODATA 2018, exact); 90 % of A left: k1 T + k2 (t - T) = ln(10/9) with the step at T = 2 d
+    # (closed form per stretch)
+    text = (
+        "A -> B  k = arrhenius(A = 1.0e12 1/s, Ea = 110 kJ/mol)\ntemperature = 25 degC\n"
+        "start A = 1 M\nrequire A >= 90 %\nat 2 d: temperature = 40 degC"
+    )
+    R = 8.31446261815324
+    k1, k2 = (1e12 * math.exp(-110e3 / (R * T)) for T in (298.15, 313.15))
+    step = 2 * 86400.0
+    assert k1 * step < math.log(10 / 9)  # still above 90 % at the step
+    out = checked(text, 10 * 24)
+    exact = step + (math.log(10 / 9) - k1 * step) / k2
+    assert out.times[0].first_broken == pytest.approx(exact, rel=1e-12)
+    assert out.times[0].beyond_window is False
+
+
+def test_requirements_against_mpmath_with_repeated_elutions():
+    # intermediate B of A -> B -> C, 80 % of B removed every 3 h; require B <= 0.2 M
+    # is broken and holds again several times.  Reference: the piecewise solution by
+    # mpmath matrix exponentials at 40 digits and its roots by mpmath.findroot
+    # (a general-purpose arbitrary-precision library)
+    text = (
+        "A -> B  k1 = 0.5 1/h\nB -> C  k2 = 0.1 1/h\nstart A = 1 M\nrequire B <= 0.2 M\n"
+        "every 3 h: remove 80 % of B"
+    )
+    out = checked(text, 12)
+    (t,) = out.times
+    with mpmath.workdps(40):
+        K = mpmath.matrix([[-0.5, 0, 0], [0.5, -0.1, 0], [0, 0.1, 0]]) / 3600
+        x = mpmath.matrix([1, 0, 0])
+        starts = []
+        for k in range(5):  # stretches [3k, 3k + 3] h, the last one continued
+            starts.append(x.copy())
+            x = mpmath.expm(K * 3 * 3600) * x
+            if k < 4:
+                x[1] *= mpmath.mpf(1) / 5
+        roots = []
+
+        def level_gap(x0):
+            return lambda h: (mpmath.expm(K * h) * x0)[1] - mpmath.mpf("0.2")
+
+        for k, x0 in enumerate(starts):
+            g = level_gap(x0)
+
+            grid = np.linspace(0.0, 3 * 3600.0 if k < 4 else 200 * 3600.0, 400)
+            vals = [g(mpmath.mpf(h)) for h in grid]
+            for h0, h1, v0, v1 in zip(grid, grid[1:], vals, vals[1:], strict=False):
+                if v0 * v1 < 0:
+                    root = mpmath.findroot(g, (mpmath.mpf(h0), mpmath.mpf(h1)), solver="illinois")
+                    roots.append(3 * 3600.0 * k + float(root))
+    crossings = [e for span in t.holds_between for e in span if 0 < e < math.inf]
+    jumps = [e for e in crossings if e % (3 * 3600.0) == 0.0]
+    inside = [e for e in crossings if e % (3 * 3600.0) != 0.0]
+    assert inside == pytest.approx(roots, rel=1e-12)
+    assert jumps  # the removals bring B back under the ceiling at operation times
+    assert t.first_broken == pytest.approx(roots[0], rel=1e-12)
+
+
+@pytest.mark.parametrize("end_hours", [0, 1])
+def test_an_addition_at_time_zero_breaks_a_requirement_from_the_start(end_hours):
+    # B = 0.6 M added at 0 h, above the ceiling at once; B only rises after (A -> B)
+    out = checked(
+        "A -> B  k = 1 1/h\nstart A = 1 M\nrequire B <= 0.5 M\nat 0 h: add B = 0.6 M", end_hours
+    )
+    (t,) = out.times
+    assert (t.first_broken, t.by_operation, t.holds_between) == (0.0, True, ())
+    assert out.window is None
+
+
+@settings(max_examples=15, deadline=None)
+@given(
+    st.lists(
+        st.tuples(
+            st.integers(1, 40),  # time [0.1 h]
+            st.sampled_from(["add", "remove"]),
+            st.integers(5, 95),  # amount [0.01 M] or part removed [%]
+        ),
+        min_size=1,
+        max_size=4,
+        unique_by=lambda op: op[0],
+    ),
+    st.integers(20, 80),  # the level [% of the start]
+)
+def test_first_broken_of_a_decay_with_operations_matches_the_closed_form(ops, level):
+    # A -> B, k = 0.3 1/h, start 1 M, require A >= level % of the start.  Per stretch
+    # A = A(a+) e^{-k (t - a)} falls monotonically (closed form), so it is broken inside
+    # the first stretch whose fall reaches the level, at a + ln(A(a+)/L)/k, or at the
+    # first removal that takes it below L (additions only raise it)
+    k, L = 0.3, level / 100
+    ops = sorted(ops)
+    lines = [f"A -> B  k = {k} 1/h", "start A = 1 M", f"require A >= {level} %"]
+    for t, kind, x in ops:
+        if kind == "add":
+            lines.append(f"at {t / 10} h: add A = {x / 100} M")
+        else:
+            lines.append(f"at {t / 10} h: remove {x} % of A")
+    out = checked("\n".join(lines), 5)
+    a, value, expected, by_op = 0.0, 1.0, None, False
+    for t, kind, x in [*ops, (math.inf, "end", 0)]:
+        stop = t / 10
+        if value >= L and a + math.log(value / L) / k < stop:
+            expected = a + math.log(value / L) / k
+            break
+        if kind == "end":
+            break
+        before = value * math.exp(-k * (stop - a))
+        value = before + x / 100 if kind == "add" else before * (1 - x / 100)
+        a = stop
+        if before >= L > value:
+            expected, by_op = stop, True
+            break
+    (t,) = out.times
+    assert t.first_broken == pytest.approx(expected * HOUR, rel=1e-12)
+    assert t.by_operation is by_op

@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 
 import kinetics
-from kinetics.errors import DataError, UsageError
+from kinetics.errors import DataError, SettingError, TimesError
 from kinetics.temperature_log import (
     DEFAULT_ACTIVATION_ENERGY,
     TemperatureLog,
@@ -211,21 +211,22 @@ def test_equivalent_temperature_of_each_arrhenius_constant():
 
 
 @pytest.mark.parametrize(
-    ("args", "message"),
+    ("args", "kind", "message"),
     [
-        (([0.0], [300.0], DEFAULT_ACTIVATION_ENERGY, -1.0),
+        (([0.0], [300.0], DEFAULT_ACTIVATION_ENERGY, -1.0), TimesError,
          "the window of a mean kinetic temperature must start at the first reading; give an "
          "end at or after the first reading time"),
-        (([], [], DEFAULT_ACTIVATION_ENERGY, None),
+        (([], [], DEFAULT_ACTIVATION_ENERGY, None), TimesError,
          "the window of a mean kinetic temperature must start at the first reading; give an "
          "end at or after the first reading time"),
-        (([0.0], [300.0], 0.0, None),
+        (([0.0], [300.0], 0.0, None), SettingError,
          "the activation energy must be finite and above 0 J/mol, not 0.0"),
     ],
 )  # fmt: skip
-def test_mean_kinetic_temperature_refuses_bad_arguments(args, message):
-    with pytest.raises(UsageError) as info:
+def test_mean_kinetic_temperature_refuses_bad_arguments(args, kind, message):
+    with pytest.raises(kind) as info:
         mean_kinetic_temperature(*args)
+    assert type(info.value) is kind
     assert str(info.value) == message
 
 

@@ -207,10 +207,8 @@ def test_notes_for_operations_without_effect_or_after_the_window():
     assert plan.notes == (
         "run.scheme:3: a temperature operation has no effect: no rate constant of the scheme "
         "follows the Arrhenius law",
-        "1 operation from 500.0 s on falls after the end of the window (100.0 s) and was "
-        "not applied",
-        "3 operations from 120.0 s on fall after the end of the window (100.0 s) and were "
-        "not applied",
+        "1 operation from 500 s on falls after the end of the window (100 s) and was not applied",
+        "3 operations from 120 s on fall after the end of the window (100 s) and were not applied",
     )
     assert [op.time for op in plan.operations] == [30.0, 60.0, 90.0]
     assert plan.skipped == ((1, 1, 500.0), (2, 3, 120.0))

@@ -15,7 +15,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 import kinetics
-from kinetics.errors import SchemeErrors, UsageError, shown_value
+from kinetics.errors import SchemeErrors, SettingError, shown_value
+from kinetics.time_text import in_time_unit
 from kinetics.timeline import (
     Addition,
     At,
@@ -152,8 +153,12 @@ def test_notes_reach_the_solution():
     assert sol.notes == (
         "a temperature operation has no effect: no rate constant of the scheme follows the "
         "Arrhenius law",
-        "1 operation from 18000.0 s on falls after the end of the window (7200.0 s) and was "
+        "1 operation from 18000 s on falls after the end of the window (7200 s) and was "
         "not applied",
+    )
+    # the note keeps its times for the unit of a command
+    assert in_time_unit(sol.notes[1], "h") == (
+        "1 operation from 5 h on falls after the end of the window (2 h) and was not applied"
     )
     assert sol.ramp_substeps == 0
 
@@ -225,8 +230,9 @@ def test_examples_in_the_docstrings():
 
 @pytest.mark.parametrize("bad", [0.0, 1.5, float("nan"), "1e-9"])
 def test_ramp_rtol_is_checked(bad):
-    with pytest.raises(UsageError) as info:
+    with pytest.raises(SettingError) as info:
         solve_timeline(CLOSED, Timeline([]), [0.0, 1.0], ramp_rtol=bad)
+    assert type(info.value) is SettingError
     assert (
         info.value.problem == f"ramp_rtol must be a number between 0 and 1, not {shown_value(bad)}"
     )

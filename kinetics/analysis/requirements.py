@@ -30,7 +30,7 @@ Connors, K. A.; Amidon, G. L.; Stella, V. J. "Chemical Stability of Pharmaceutic
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -47,9 +47,11 @@ from kinetics.requirements import Requirement
 __all__ = [
     "RequirementTime",
     "RequirementTimes",
+    "RunPieces",
     "first_broken_batch",
     "requirement_times",
     "requirements_on",
+    "requirements_on_run",
 ]
 
 #: A limit within this fraction of the level is approached, not crossed (the curve then
@@ -77,6 +79,9 @@ class RequirementTime:
     holds_between : tuple of (float, float)
         [s] the intervals in which it holds, in time order; ``inf`` as the end of the last
         one when it holds from then on.
+    by_operation : bool
+        True when an operation of a run (an addition or a removal) broke it at
+        ``first_broken``: it held just before and not just after.
     """
 
     requirement: Requirement
@@ -84,6 +89,7 @@ class RequirementTime:
     first_broken: float | None
     beyond_window: bool
     holds_between: tuple[tuple[float, float], ...]
+    by_operation: bool = False
 
     def to_dict(self) -> dict:
         """JSON-ready, times [s] (null for never / for ever)."""
@@ -94,6 +100,7 @@ class RequirementTime:
             "beyond_window": bool(self.beyond_window),
             "holds_at_start": bool(self.holds_at_start),
             "holds_between": [[float(a), finite_or_none(b)] for a, b in self.holds_between],
+            "broken_by_operation": bool(self.by_operation),
         }
 
 
@@ -266,6 +273,193 @@ def requirements_on(survey: Survey, requirements: Sequence[Requirement]) -> Requ
         out.append(RequirementTime(req, start, broken, beyond, spans))
     windows = _together([t.holds_between for t in out]) if out else []
     return RequirementTimes(tuple(out), windows[0] if windows else None, tuple(windows))
+
+
+@dataclass(frozen=True)
+class RunPieces:
+    r"""A run with operations as pieces of constant conditions (:func:`requirements_on_run`).
+
+    Piece ``k`` runs from ``starts[k]`` to ``starts[k + 1]``; the last one is continued
+    without end (the conditions after the last operation).  Operations act between
+    pieces: at ``starts[k]`` the concentrations jump from ``before[k]`` to ``after[k]``.
+
+    Attributes
+    ----------
+    starts : numpy.ndarray
+        [s], shape ``(p,)``, increasing, ``starts[0] = 0``.
+    before, after : numpy.ndarray
+        [conc], shape ``(p, n)``: just before and just after the operations at each
+        start (``before[0]``: the start values of the scheme).
+    ends : numpy.ndarray
+        [conc], shape ``(p, n)``: at the end of each piece (the last: anywhere; it is
+        always searched).
+    survey : callable
+        ``survey(k)`` -> the :class:`~kinetics.analysis.survey.Survey` of piece ``k`` (its
+        problem starting at ``after[k]`` at its own time 0), or None for a piece of no
+        length.
+    searched : callable
+        ``searched(k, j)`` -> whether piece ``k`` is searched for crossings of species
+        ``j`` even when its ends lie on one side of a level (True: every crossing is
+        found; False: only a piece whose ends lie on different sides is searched).
+    """
+
+    starts: np.ndarray
+    before: np.ndarray
+    after: np.ndarray
+    ends: np.ndarray
+    survey: Callable[[int], Survey | None]
+    searched: Callable[[int, int], bool]
+
+
+def _wanted(pieces: RunPieces, k: int, plan: list) -> list[int]:
+    """The requirements to search inside piece ``k``.
+
+    All on the last piece and on pieces searched in full, else those whose ends lie on
+    different sides of the level.
+    """
+    last = k == len(pieces.starts) - 1
+    out = []
+    for r, (req, j) in enumerate(plan):
+        sides = _signs(req, np.array([pieces.after[k][j], pieces.ends[k][j]]))
+        if last or pieces.searched(k, j) or sides[0] != sides[1]:
+            out.append(r)
+    return out
+
+
+def _piece_events(pieces: RunPieces, k: int, plan: list, events: list) -> None:
+    """Sign changes of every requirement inside piece ``k``, with exact roots.
+
+    Appended to ``events[r]`` as ``(time, holds after)``.
+    """
+    a = float(pieces.starts[k])
+    last = k == len(pieces.starts) - 1
+    length = np.inf if last else float(pieces.starts[k + 1]) - a
+    wanted = _wanted(pieces, k, plan)
+    survey = pieces.survey(k) if wanted else None
+    if survey is None:
+        return
+    refine: list[Crossing] = []
+    owners: list[tuple[int, bool]] = []
+    for r in wanted:
+        req, j = plan[r]
+        _, found, (tail, final) = _events(survey, j, req)
+        if tail is not None:
+            found.append((tail, final))
+        for c, after in found:
+            if c.ka == c.kb:  # at the level at the piece's start, on the other side at once
+                events[r].append((a, after > 0))
+            elif c.samples[0][c.ka] < length:
+                refine.append(c)
+                owners.append((r, after > 0))
+    for root, (r, holds) in zip(level_roots(survey.problem, refine), owners, strict=True):
+        if root < length:
+            events[r].append((a + float(root), holds))
+
+
+def requirements_on_run(
+    pieces: RunPieces,
+    requirements: Sequence[Requirement],
+    species: Sequence[str],
+    t_window: float | None = None,
+) -> RequirementTimes:
+    r"""Requirements on the exact piecewise solution of a run with operations.
+
+    Inside each piece the exact roots as for a run without operations (see the module
+    docstring); at an operation the concentration jumps, so a requirement can be broken
+    (or hold again) *at* the time of an operation: that time is reported, with
+    :attr:`RequirementTime.by_operation` set.  After the last operation the conditions
+    are continued without end (crossings beyond the window are found and flagged).
+
+    .. math:: t_{broken} = \min\{t \ge 0 : \pm(c_i(t^+) - L) < 0\}
+
+    Parameters
+    ----------
+    pieces : RunPieces
+    requirements : sequence of Requirement
+        Thresholds in the unit of the concentrations (a share of a start value refers to
+        the value at time 0, ``pieces.before[0]``).
+    species : sequence of str
+        In the order of the columns of ``pieces.after``.
+    t_window : float, optional
+        [s] end of the solved window: later first breaks are flagged.
+
+    Returns
+    -------
+    RequirementTimes
+
+    Examples
+    --------
+    A -> B (k = 1 1/h) with ``require B <= 0.5 M``, and 60 % of B removed at
+    :math:`h` = 0.5 h.  With :math:`b = 1 - e^{-kh}` (closed form) B is :math:`0.4 b`
+    after the removal and rises as :math:`0.4 b + (1 - b)(1 - e^{-k(t - h)})`, which
+    reaches 0.5 at :math:`t = h + \ln((1 - b)/(0.5 - 0.6 b))/k`:
+
+    >>> import math
+    >>> import numpy as np
+    >>> from kinetics.analysis.problem import Problem
+    >>> from kinetics.analysis.survey import Survey
+    >>> from kinetics.requirements import Requirement
+    >>> k, h = 1 / 3600, 1800.0
+    >>> K = np.array([[-k, 0.0], [k, 0.0]])
+    >>> b = 1 - math.exp(-0.5)
+    >>> before = np.array([[1.0, 0.0], [1 - b, b]])
+    >>> after = np.array([[1.0, 0.0], [1 - b, 0.4 * b]])
+    >>> problems = [Problem(K, c) for c in after]
+    >>> pieces = RunPieces(np.array([0.0, h]), before, after, before[[1, 1]],
+    ...                    lambda i: Survey.of(problems[i]), lambda i, j: True)
+    >>> req = Requirement("B <= 0.5 M", "B", "<=", 0.5)
+    >>> out = requirements_on_run(pieces, [req], ["A", "B"])
+    >>> exact = h + math.log((1 - b) / (0.5 - 0.6 * b)) / k
+    >>> bool(abs(out.times[0].first_broken - exact) < 1e-9 * exact)
+    True
+    """
+    names = list(species)
+    plan = []
+    for req in requirements:
+        try:
+            plan.append((req, names.index(req.species)))
+        except ValueError:
+            raise SpeciesError(
+                f"the requirement names {req.species}, which is not a species of the run",
+                "species are " + ", ".join(names),
+            ) from None
+    events: list[list[tuple[float, bool]]] = [[] for _ in plan]
+    by_operation: list[set[float]] = [set() for _ in plan]
+    for k in range(len(pieces.starts)):
+        t = float(pieces.starts[k])
+        for r, (req, j) in enumerate(plan):
+            vb, va = pieces.before[k][j], pieces.after[k][j]
+            if vb != va:  # an operation moved it
+                held, holds = bool(req.holds(vb)), bool(req.holds(va))
+                events[r].append((t, holds))
+                if held and not holds:
+                    by_operation[r].add(t)
+        _piece_events(pieces, k, plan, events)
+    out = []
+    for r, (req, j) in enumerate(plan):
+        start = bool(req.holds(pieces.before[0][j]))
+        spans = _run_intervals(start, events[r])
+        if not start or not spans or spans[0][0] > 0.0:
+            broken: float | None = 0.0
+        else:
+            broken = spans[0][1] if np.isfinite(spans[0][1]) else None
+        beyond = bool(broken is not None and t_window is not None and broken > t_window)
+        at_op = broken is not None and broken in by_operation[r]
+        out.append(RequirementTime(req, start, broken, beyond, spans, at_op))
+    windows = _together([t.holds_between for t in out]) if out else []
+    return RequirementTimes(tuple(out), windows[0] if windows else None, tuple(windows))
+
+
+def _run_intervals(start: bool, events: list[tuple[float, bool]]):
+    """Intervals where a requirement holds over a run.
+
+    Events in time order; of several at one time the last (the state after an operation)
+    wins.
+    """
+    latest: dict[float, bool] = {}
+    for t, holds in sorted(events, key=lambda e: e[0]):
+        latest[t] = holds
+    return _intervals(start, list(latest.items()))
 
 
 def requirement_times(

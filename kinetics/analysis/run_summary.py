@@ -24,6 +24,13 @@ whole run:
 Every stretch is surveyed like a run of its own (a few dozen exact exponentials); runs
 of more than :data:`MAX_STRETCHES` stretches get the quantities of the last stretch, the
 limits and the areas, with a note.
+
+The ``require`` lines of the scheme (:func:`run_requirements`) are evaluated on the same
+stretches: exact roots inside each, and a requirement broken *by* an operation at the
+time of that operation; after the last operation the final conditions are continued
+without end.  Runs of more than :data:`MAX_STRETCHES` stretches (and the sub-steps of a
+ramp) search a stretch only where its ends lie on different sides of a level or its
+slope changes sign, with a note.
 """
 
 from __future__ import annotations
@@ -36,13 +43,21 @@ import numpy as np
 from kinetics.analysis.areas import areas_to
 from kinetics.analysis.crossings import fraction_times
 from kinetics.analysis.problem import Problem
+from kinetics.analysis.requirements import RequirementTimes, RunPieces, requirements_on_run
 from kinetics.analysis.summary import summarise_all
 from kinetics.analysis.survey import Survey
+from kinetics.time_text import TimedText, joined
 
 if TYPE_CHECKING:
     from kinetics.solution import Solution
 
-__all__ = ["MAX_STRETCHES", "summarise_run"]
+__all__ = [
+    "MAX_STRETCHES",
+    "REQUIREMENTS_SCREENED_NOTE",
+    "Run",
+    "run_requirements",
+    "summarise_run",
+]
 
 #: Most stretches whose maxima and crossings are searched one by one.
 MAX_STRETCHES = 500
@@ -53,9 +68,13 @@ _FRACTIONS = {
 }
 
 
-def summarise_run(solution: Solution, tolerance: float = 0.01) -> tuple[dict, dict]:
-    r"""Per-species and whole-scheme summary of a run with operations, in seconds and the
-    scheme's concentration unit (the keys of :func:`kinetics.analysis.summarise_all`).
+def summarise_run(
+    solution: Solution, tolerance: float = 0.01, *, run: Run | None = None
+) -> tuple[dict, dict]:
+    r"""Per-species and whole-scheme summary of a run with operations.
+
+    In seconds and the scheme's concentration unit, with the keys of
+    :func:`kinetics.analysis.summarise_all`.
 
     Parameters
     ----------
@@ -64,6 +83,9 @@ def summarise_run(solution: Solution, tolerance: float = 0.01) -> tuple[dict, di
         scheme's unit.
     tolerance : float
         Of the time to the limit.
+    run : Run, optional
+        The surveys of the stretches, shared with :func:`run_requirements` (built here
+        when not given).
 
     Returns
     -------
@@ -96,7 +118,7 @@ def summarise_run(solution: Solution, tolerance: float = 0.01) -> tuple[dict, di
     out = {name: per[name].to_dict() for name in names}
     scheme_wide = whole.to_dict()
     moved = _moved(solution, names)
-    run = _Run(solution, end)
+    run = Run(solution) if run is None else run
     searched = sum(not s.ramp for s in solution.stretches) <= MAX_STRETCHES
     areas = run.areas()
     before = len(areas) - (1 if areas and last["time"] < end else 0)
@@ -124,12 +146,15 @@ def summarise_run(solution: Solution, tolerance: float = 0.01) -> tuple[dict, di
             entry["yield_at_max"] = None
         entry["notes"] = notes
     _whole(scheme_wide, solution, moved, last)
+    if solution.scheme.requirements and run.screened():
+        scheme_wide["timeline_note"] += "; " + REQUIREMENTS_SCREENED_NOTE
     return out, scheme_wide
 
 
 def _final_state(solution: Solution, end: float) -> dict:
-    """The conditions after the last operation: from the last stretch, with the
-    operations at the end of the window applied.
+    """The conditions after the last operation.
+
+    Those of the last stretch, with the operations at the end of the window applied.
     """
     stretches = solution.stretches
     scheme = solution.scheme
@@ -150,8 +175,9 @@ def _final_state(solution: Solution, end: float) -> dict:
     if ended and feed is not None:
         feed = feed.copy()
         for e in ended:
-            i = scheme.index[e.species]
-            feed[i] = max(feed[i] - e.value, 0.0)
+            if e.species is not None and e.value is not None:  # a feed names both
+                i = scheme.index[e.species]
+                feed[i] = max(feed[i] - e.value, 0.0)
         feed = feed if feed.any() else None
     return {"time": time, "c": c, "K": K, "K_low": K_low, "feed": feed}
 
@@ -176,20 +202,36 @@ def _moved(solution: Solution, names) -> dict:
     return {"added": added, "removed": removed, "in": first_in, "volumes": volumes, "any": moving}
 
 
-class _Run:
-    """The stretches of a run, surveyed when a quantity needs it (each at most once)."""
+class Run:
+    """The stretches of a run, surveyed when a quantity needs it (each at most once).
 
-    def __init__(self, solution: Solution, end: float) -> None:
+    Parameters
+    ----------
+    solution : Solution
+        A solution of a scheme with operations, in the scheme's unit.
+    """
+
+    def __init__(self, solution: Solution) -> None:
         self.stretches = solution.stretches
         self.names = solution.species
-        self.end = end
+        self.end = float(solution.times[-1])
         self._surveys: dict[int, Survey | None] = {}
 
+    def screened(self) -> bool:
+        """Whether some stretches are searched for requirements only where they may cross.
+
+        See :data:`REQUIREMENTS_SCREENED_NOTE`.
+        """
+        ramps = sum(s.ramp for s in self.stretches)
+        return ramps > 0 or len(self.stretches) - ramps > MAX_STRETCHES
+
     def length(self, k: int) -> float:
+        """[s] The length of stretch ``k`` (the last one: to the end of the window)."""
         s = self.stretches[k]
         return (self.end if k == len(self.stretches) - 1 else s.end) - s.start
 
     def problem(self, k: int, window: bool = True) -> Problem:
+        """Stretch ``k`` as a problem of its own from its start (time 0 at its start)."""
         s = self.stretches[k]
         h = self.length(k) if window else None
         return Problem(s.K, s.start_values, s.feed, names=self.names, t_window=h, K_low=s.K_low)
@@ -201,8 +243,10 @@ class _Run:
         return self._surveys[k]
 
     def turns_inside(self, k: int, j: int) -> bool:
-        """Whether stretch ``k`` may hold a maximum of species ``j``: always outside ramps
-        (surveyed); inside a ramp when the slope turns from rising to falling.
+        """Whether stretch ``k`` may hold a maximum of species ``j``.
+
+        Always outside ramps (surveyed); inside a ramp when the slope turns from rising to
+        falling.
         """
         s = self.stretches[k]
         if not s.ramp:
@@ -221,15 +265,113 @@ class _Run:
         return out
 
 
+#: The note of a run whose requirements were searched only where a stretch may cross.
+REQUIREMENTS_SCREENED_NOTE = (
+    "the requirements are searched inside a stretch only where its ends lie on different "
+    f"sides of a level or its slope changes sign (in runs of more than {MAX_STRETCHES} "
+    "stretches, and on the sub-steps of temperature ramps); an excursion beyond a level "
+    "and back inside one such stretch is not seen"
+)
+
+
+def run_requirements(solution: Solution, *, run: Run | None = None) -> RequirementTimes:
+    r"""The ``require`` lines of a run with operations, on its exact piecewise solution.
+
+    When each requirement is first broken (at an operation when the operation breaks it)
+    and the windows in which all hold together, as
+    :func:`kinetics.analysis.requirements.requirements_on_run` finds them on the
+    stretches of the run, followed by the conditions after the last operation.
+
+    Parameters
+    ----------
+    solution : Solution
+        A solution of a scheme with operations, in the scheme's unit.
+    run : Run, optional
+        The surveys of the stretches, shared with :func:`summarise_run`.
+
+    Returns
+    -------
+    RequirementTimes
+        Times [s].
+
+    Examples
+    --------
+    A -> B (k = 1 1/h) with ``require B <= 0.5 M`` is broken at ln 2 h without
+    operations (closed form B = 1 - e^{-kt}); an addition of 0.3 M of B at 0.5 h
+    (B = 0.3935 + 0.3 > 0.5) breaks it at once:
+
+    >>> import kinetics
+    >>> s = kinetics.parse("A -> B  k = 1 1/h\nstart A = 1 M\nrequire B <= 0.5 M\n"
+    ...                    "at 0.5 h: add B = 0.3 M")
+    >>> (t,) = run_requirements(kinetics.solve(s, [0.0, 3600.0])).times
+    >>> t.first_broken, t.by_operation
+    (1800.0, True)
+    """
+    run = Run(solution) if run is None else run
+    return requirements_on_run(
+        _pieces(solution, run),
+        solution.scheme.requirements,
+        solution.species,
+        t_window=run.end,
+    )
+
+
+def _pieces(solution: Solution, run: Run) -> RunPieces:
+    """The stretches of the run as the pieces of :func:`requirements_on_run`.
+
+    After operations at the window's end, the final conditions are one more piece,
+    continued without end.
+    """
+    stretches = run.stretches
+    c0 = solution.scheme.initial_vector
+    last = _final_state(solution, run.end)
+    final = None
+    if not stretches or last["time"] >= run.end > stretches[-1].start:
+        final = Problem(last["K"], last["c"], last["feed"], names=run.names, K_low=last["K_low"])
+    starts = [s.start for s in stretches]
+    after = [s.start_values for s in stretches]
+    ends = [s.end_values for s in stretches]
+    if final is not None:
+        starts.append(last["time"])
+        after.append(last["c"])
+        ends.append(last["c"])
+    before = ([c0] + [s.end_values for s in stretches])[: len(starts)]
+    few = sum(not s.ramp for s in stretches) <= MAX_STRETCHES
+    surveyed: dict[int, Survey | None] = {}
+
+    def survey(k: int) -> Survey | None:
+        if k < len(stretches):
+            return run.survey(k)
+        if k not in surveyed and final is not None:
+            surveyed[k] = Survey.of(final)
+        return surveyed.get(k)
+
+    def searched(k: int, j: int) -> bool:
+        if k >= len(stretches) or (few and not stretches[k].ramp):
+            return True
+        s = stretches[k]
+        return bool(np.sign(_slope(s, s.start_values)[j]) != np.sign(_slope(s, s.end_values)[j]))
+
+    return RunPieces(
+        np.array(starts, dtype=float),
+        np.array(before),
+        np.array(after),
+        np.array(ends),
+        survey,
+        searched,
+    )
+
+
 def _slope(stretch, c) -> np.ndarray:
     """dc/dt = K c + f of a stretch at concentrations ``c`` [conc/s]."""
     d = stretch.K @ c + stretch.K_low @ c
     return d if stretch.feed is None else d + stretch.feed
 
 
-def _maxima(entry: dict, run: _Run, j: int) -> None:
-    """Local maxima inside the stretches and at every operation; the highest is global
-    when it reaches the start value and the limit.
+def _maxima(entry: dict, run: Run, j: int) -> None:
+    """Local maxima inside the stretches and at every operation.
+
+    The highest is global when it reaches the start value and the limit.
     """
     found = []
     stretches = run.stretches
@@ -254,9 +396,10 @@ def _maxima(entry: dict, run: _Run, j: int) -> None:
     entry["maxima"] = found
 
 
-def _jump_maxima(run: _Run, j: int) -> list[dict]:
-    """Maxima at operations: rising into a drop (just before), falling after a rise (just
-    after).
+def _jump_maxima(run: Run, j: int) -> list[dict]:
+    """Maxima at operations.
+
+    Rising into a drop (just before), falling after a rise (just after).
     """
     out = []
     stretches = run.stretches
@@ -280,16 +423,17 @@ def _at(time: float, height: float, where: str | None, beyond: bool = False) -> 
     }
 
 
-def _crossings(entry: dict, run: _Run, j: int, moved: dict, notes: list) -> None:
+def _crossings(entry: dict, run: Run, j: int, moved: dict, notes: list) -> None:
     """First times the species falls to 50, 90 and 10 % of its start value over the run."""
     name = run.names[j]
     c0 = entry["start"]
     for key in _FRACTIONS.values():
         entry[key] = None
     if name in moved["in"]:
-        entry["half_life_note"] = (
-            f"material of {name} is added after time 0 (from {moved['in'][name]:.6g} s on), "
-            "so a time to fall to a fraction of its start value loses its meaning"
+        entry["half_life_note"] = TimedText(
+            f"material of {name} is added after time 0 (from ",
+            moved["in"][name],
+            " on), so a time to fall to a fraction of its start value loses its meaning",
         )
         notes.append(entry["half_life_note"])
         return
@@ -319,8 +463,10 @@ def _crossings(entry: dict, run: _Run, j: int, moved: dict, notes: list) -> None
 
 
 def _areas(entry: dict, areas: list, j: int, before: int) -> None:
-    """Area to the end of the window, and to infinity: the area of the ``before``
-    stretches ahead of the final state plus its own area to infinity.
+    """Area to the end of the window, and to infinity.
+
+    To infinity: the area of the ``before`` stretches ahead of the final state plus its
+    own area to infinity.
     """
     entry["area_to_window_end"] = float(sum(a[j] for a in areas))
     tail = entry.get("area_to_infinity")
@@ -332,13 +478,13 @@ def _whole(scheme_wide: dict, solution: Solution, moved: dict, last: dict) -> No
     """Times from time 0, amounts formed over the run, and the note on the conditions."""
     if scheme_wide.get("time_to_limit") is not None:
         scheme_wide["time_to_limit"] += last["time"]
-    note = (
+    after_last = TimedText(
         "the long-time limit, the time to it, lifetimes and relaxation "
-        f"times refer to the conditions after the last operation (from {last['time']:.6g} s "
-        "on, continued without end)"
+        "times refer to the conditions after the last operation (from ",
+        last["time"],
+        " on, continued without end)",
     )
-    if solution.notes:
-        note += "; " + "; ".join(solution.notes)
+    note = joined("; ", [after_last, *solution.notes])
     names = solution.species
     c0 = dict(zip(names, solution.scheme.initial_vector.tolist(), strict=True))
     start = dict(zip(names, last["c"].tolist(), strict=True))

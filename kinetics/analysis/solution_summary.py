@@ -16,6 +16,7 @@ from typing import TYPE_CHECKING
 from kinetics.analysis.requirements import requirement_times
 from kinetics.analysis.summary import summarise_all
 from kinetics.jsonready import finite_or_none
+from kinetics.time_text import in_time_unit
 from kinetics.units import time_factor
 
 if TYPE_CHECKING:
@@ -115,13 +116,13 @@ def compute_summary(solution: Solution) -> Summary | None:
         return None
     checked = {}
     if solution.after is not None:  # a run with operations: on its piecewise solution
-        from kinetics.analysis.run_summary import summarise_run
+        from kinetics.analysis.run_summary import Run, run_requirements, summarise_run
 
-        out, scheme_wide = summarise_run(solution.in_unit(scheme.concentration_unit))
+        own = solution.in_unit(scheme.concentration_unit)
+        run = Run(own)
+        out, scheme_wide = summarise_run(own, run=run)
         if scheme.requirements:
-            scheme_wide["timeline_note"] += (
-                "; the requirements of the file are not checked on a run with operations"
-            )
+            checked = run_requirements(own, run=run).to_dict()
     else:
         feed = scheme.feed_vector if scheme.feed else None
         window = float(solution.times[-1])
@@ -172,11 +173,13 @@ def _scale_concentrations(entry: dict, factor: float) -> None:
             maximum["height"] = maximum["height"] * factor
 
 
-def _convert_times(value, key: str, factor: float):
+def _convert_times(value, key: str, factor: float, unit: str = "s"):
     if isinstance(value, dict):
-        return {k: _convert_times(v, k, factor) for k, v in value.items()}
+        return {k: _convert_times(v, k, factor, unit) for k, v in value.items()}
     if isinstance(value, list | tuple):
-        return [_convert_times(v, key, factor) for v in value]
+        return [_convert_times(v, key, factor, unit) for v in value]
+    if isinstance(value, str):
+        return in_time_unit(value, unit)  # a note that quotes times
     if isinstance(value, int | float) and not isinstance(value, bool):
         if key in TIME_KEYS or key in AREA_KEYS:
             return finite_or_none(value / factor)
@@ -188,15 +191,18 @@ def _convert_times(value, key: str, factor: float):
 def summary_in_units(summary: dict[str, dict], time_unit: str) -> Summary:
     """Convert every time-valued entry of a summary from seconds to ``time_unit``.
 
-    Times [s] become [time_unit], areas [conc*s] become [conc*time_unit]; non-finite
-    numbers become ``None`` (JSON null); concentrations are unchanged.  The whole-scheme
+    Times [s] become [time_unit], areas [conc*s] become [conc*time_unit], and so do the
+    times quoted by notes (:class:`kinetics.time_text.TimedText`); non-finite numbers
+    become ``None`` (JSON null); concentrations are unchanged.  The whole-scheme
     quantities (:attr:`Summary.scheme`) are converted too.
     """
     factor = time_factor(time_unit)
-    scheme = _convert_times(getattr(summary, "scheme", {}), "", factor)
-    checked = _convert_times(getattr(summary, "requirements", {}), "", factor)
+    scheme = _convert_times(getattr(summary, "scheme", {}), "", factor, time_unit)
+    checked = _convert_times(getattr(summary, "requirements", {}), "", factor, time_unit)
     return Summary(
-        {name: _convert_times(d, "", factor) for name, d in summary.items()}, scheme, checked
+        {name: _convert_times(d, "", factor, time_unit) for name, d in summary.items()},
+        scheme,
+        checked,
     )
 
 

@@ -544,6 +544,7 @@ def _render_table(
 def render_events(solution: Solution, time_unit: str, out: Console, max_rows: int = 25) -> None:
     """Print the operations of a run (what each moved) and the notes about the timeline."""
     from kinetics.output.overview import event_table
+    from kinetics.time_text import in_time_unit
 
     rows = event_table(solution, time_unit)
     if rows:
@@ -565,7 +566,7 @@ def render_events(solution: Solution, time_unit: str, out: Console, max_rows: in
             "an estimate beside the certified bound, see --json ramp_estimate)"
         )
     for note in solution.notes:
-        out.print(f"note: {_escape(note)}")
+        out.print(f"note: {_escape(in_time_unit(note, time_unit))}")
 
 
 def _cell(value) -> str:

@@ -1,5 +1,6 @@
-"""Operation lines of a scheme (the first pass): ``at``, ``every``, ``from ... to ...``
-and the run's ``volume``.
+"""Operation lines of a scheme (the first pass): ``at``, ``every``, ``from``, ``volume``.
+
+The lines ``at ...``, ``every ...`` and ``from ... to ...``, and the run's ``volume``.
 
 One operation per line; a time ``T`` is a duration with a unit or the name of one::
 
@@ -249,7 +250,9 @@ class OperationStatement:
         return cls(head["kw"], times, action, line, start + 1, code.strip())
 
 
-def _times(line: Line, keyword: str, head: str, start: int, errors: list) -> tuple:
+def _times(
+    line: Line, keyword: str, head: str, start: int, errors: list[SchemeError]
+) -> tuple[Quantity | None, ...]:
     """The times of the part before the colon (``head`` starts at 0-based ``start``)."""
     example = OPERATION_EXAMPLES[keyword]
     if keyword == "at":
@@ -292,7 +295,9 @@ def _times(line: Line, keyword: str, head: str, start: int, errors: list) -> tup
     return tuple(out)
 
 
-def _action(line: Line, keyword: str, text: str, col0: int, errors: list) -> Action | None:
+def _action(
+    line: Line, keyword: str, text: str, col0: int, errors: list[SchemeError]
+) -> Action | None:
     """The action after the colon (``text`` at 0-based ``col0``)."""
     lead = len(text) - len(text.lstrip())
     body, at = text.strip(), col0 + lead
@@ -337,7 +342,7 @@ def _action(line: Line, keyword: str, text: str, col0: int, errors: list) -> Act
 
 
 def _items(
-    line: Line, text: str, col0: int, what: str, example: str, errors: list
+    line: Line, text: str, col0: int, what: str, example: str, errors: list[SchemeError]
 ) -> tuple[AmountItem, ...]:
     """``S = Q, S2 = Q2`` (``text`` at 0-based ``col0``)."""
     if not text.strip():
@@ -372,7 +377,7 @@ def _items(
     return () if bad else tuple(items)
 
 
-def _add(line: Line, body: str, at: int, errors: list) -> AddAction | None:
+def _add(line: Line, body: str, at: int, errors: list[SchemeError]) -> AddAction | None:
     """``add S = C, ...`` or ``add V [with S = C, ...]`` (``body`` at 0-based ``at``)."""
     portion = _PORTION.match(body)
     rest = body[3:]
@@ -397,8 +402,9 @@ def _add(line: Line, body: str, at: int, errors: list) -> AddAction | None:
 
 
 def _is_volume(text: str, items: str | None) -> bool:
-    """True when the words after ``add`` are a portion's volume: a number (with its unit),
-    a single name, or anything followed by ``with``.
+    """True when the words after ``add`` are a portion's volume.
+
+    A number (with its unit), a single name, or anything followed by ``with``.
     """
     text = text.strip()
     if not text or "=" in text:
@@ -406,7 +412,7 @@ def _is_volume(text: str, items: str | None) -> bool:
     return items is not None or bool(NUMBER_RE.match(text)) or bool(NAME_RE.fullmatch(text))
 
 
-def _remove(line: Line, body: str, at: int, errors: list) -> RemoveAction | None:
+def _remove(line: Line, body: str, at: int, errors: list[SchemeError]) -> RemoveAction | None:
     """``remove P % of S, ...`` (``body`` at 0-based ``at``)."""
     m = _REMOVE.match(body)
     if m is None:
@@ -426,6 +432,7 @@ def _remove(line: Line, body: str, at: int, errors: list) -> RemoveAction | None
         if isinstance(share, SchemeError):
             errors.append(share)
             return None
+        assert share.value is not None  # a number was read
         share = share._replace(value=share.value._replace(unit="%"), text=text.strip())
     elif NAME_RE.fullmatch(text.strip()):
         share = Quantity(None, text.strip(), c0 + 1, text.strip())
@@ -455,7 +462,7 @@ def _remove(line: Line, body: str, at: int, errors: list) -> RemoveAction | None
     return RemoveAction(share, tuple(species), at + 1, body)
 
 
-def _ramp(line: Line, body: str, at: int, errors: list) -> RampAction | None:
+def _ramp(line: Line, body: str, at: int, errors: list[SchemeError]) -> RampAction | None:
     """``temperature X1 -> X2`` (``body`` at 0-based ``at``)."""
     m = _RAMP.match(body)
     assert m is not None

@@ -1,5 +1,6 @@
-r"""Operation lines resolved (the second pass): times, amounts and volumes in core units,
-checked together with :func:`kinetics.timeline.check`.
+r"""Operation lines resolved (the second pass): times, amounts and volumes in core units.
+
+Checked together with :func:`kinetics.timeline.check`.
 
 Every number of an operation becomes the core's unit (seconds, kelvin, the scheme's
 concentration unit, m^3), converted exactly and rounded once; a number written as the
@@ -20,13 +21,13 @@ Co-reactants held in excess keep their concentration through every operation.
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
 from dataclasses import dataclass
 from fractions import Fraction
 
 from ..amounts import kind_of
 from ..definitions import NamedQuantity
-from ..errors import UnknownUnitError
+from ..errors import KineticsError, UnknownUnitError
 from ..scheme import Species
 from ..timeline import (
     Addition,
@@ -41,7 +42,7 @@ from ..timeline import (
     Timeline,
     check,
 )
-from ..units import describe_dimension, parse_unit
+from ..units import UnitSpec, describe_dimension, parse_unit, time_factor
 from .concentrations import ConcentrationUnit
 from .messages import Diagnostics, quoted
 from .operations import (
@@ -94,7 +95,7 @@ class Outline:
     concentration_unit: str
 
 
-def operation_names(statements) -> set[str]:
+def operation_names(statements: Iterable[object]) -> set[str]:
     """The named quantities the operation lines of a file use.
 
     Examples
@@ -107,7 +108,7 @@ def operation_names(statements) -> set[str]:
 
 
 def resolve_timeline(
-    statements,
+    statements: Iterable[object],
     outline: Outline,
     unit: ConcentrationUnit,
     quantities: Mapping[str, NamedQuantity],
@@ -163,7 +164,14 @@ def resolve_timeline(
 class _Numbers:
     """Numbers of operation lines in core units: times, volumes, temperatures, names."""
 
-    def __init__(self, unit, quantities, molar_masses, found: Diagnostics, species=()) -> None:
+    def __init__(
+        self,
+        unit: ConcentrationUnit,
+        quantities: Mapping[str, NamedQuantity],
+        molar_masses: Mapping[str, float | None],
+        found: Diagnostics,
+        species: Iterable[str] = (),
+    ) -> None:
         self.species = set(species)
         self.unit: ConcentrationUnit = unit
         self.quantities: Mapping[str, NamedQuantity] = quantities
@@ -209,21 +217,25 @@ class _Numbers:
                 "e.g. volume = 1.0 L",
             )  # fmt: skip
             return None
-        return got[0]
+        return Fraction(got[0])
 
     # -- numbers -------------------------------------------------------------------
-    def number(self, line: Line, q: Quantity, dims: dict, what: str, example: str):
+    def number(
+        self, line: Line, q: Quantity, dims: dict[str, Fraction], what: str, example: str
+    ) -> tuple[Fraction, tuple[str, ...]] | None:
         """``(exact SI value, names)`` of a quantity of dimension ``dims``, or None."""
+        names: tuple[str, ...] = ()
         if q.name:
             nq = self.named(line, q, what, example)
-            if nq is None:
+            if nq is None or nq.value_si is None:
                 return None
-            value, have, names = nq.value_si, dict(nq.dims), (q.name,)
+            value, have, names = Fraction(nq.value_si), dict(nq.dims), (q.name,)
         else:
+            assert q.value is not None  # a number when there is no name
             spec = self.unit_spec(line, q.value, what, example)
             if spec is None:
                 return None
-            value, have, names = scaled(q.value.number, spec.factor), spec.dims, ()
+            value, have = scaled(q.value.number, spec.factor), dict(spec.dims)
         if {k: v for k, v in have.items() if v} != dims:
             self.error(
                 line,
@@ -257,7 +269,7 @@ class _Numbers:
             return None
         return nq
 
-    def unit_spec(self, line: Line, value: Value, what: str, example: str):
+    def unit_spec(self, line: Line, value: Value, what: str, example: str) -> UnitSpec | None:
         if not value.unit:
             self.error(
                 line,
@@ -280,7 +292,9 @@ class _Numbers:
             )
             return None
 
-    def time(self, line: Line, q: Quantity | None, field: str, what: str, bound: list):
+    def time(
+        self, line: Line, q: Quantity | None, field: str, what: str, bound: list[Binding]
+    ) -> float | None:
         """Seconds of a time (None when not written or wrong); its binding to ``bound``."""
         if q is None:
             return None
@@ -316,13 +330,15 @@ class _Numbers:
 class _Reader(_Numbers):
     """The core statement of each operation line, with its bindings."""
 
-    def statement(self, s: OperationStatement):
+    def statement(self, s: OperationStatement) -> At | Every | FeedWindow | TemperatureRamp | None:
         """The core statement of one line (None after an error)."""
-        line, bound = s.line, []
+        line = s.line
+        bound: list[Binding] = []
         shown = line.shown or line.text
         action = s.action
+        unit = self.written_unit(s.times)
         if s.kind == "from":
-            place = Place(line.source, line.number, s.column, shown, s.text)
+            place = Place(line.source, line.number, s.column, shown, s.text, unit)
             t0 = self.time(line, s.times[0], "start", "the start of the window", bound)
             t1 = self.time(line, s.times[1], "end", "the end of the window", bound)
             if isinstance(action, FeedAction):
@@ -332,10 +348,10 @@ class _Reader(_Numbers):
             assert isinstance(action, RampAction)
             first = self.kelvin(line, action.first, "the ramp's first temperature")
             last = self.kelvin(line, action.last, "the ramp's last temperature")
-            if None in (t0, t1, first, last):
+            if t0 is None or t1 is None or first is None or last is None:
                 return None
             return TemperatureRamp(t0, t1, first, last, place, tuple(bound))
-        place = Place(line.source, line.number, action.column, shown, action.text)
+        place = Place(line.source, line.number, action.column, shown, action.text, unit)
         core = self.action(line, action, bound)
         if s.kind == "at":
             t = self.time(line, s.times[0], "time", "the time of an operation", bound)
@@ -353,7 +369,26 @@ class _Reader(_Numbers):
             return None
         return Every(times[0], core, times[1], times[2], place, tuple(bound))
 
-    def action(self, line: Line, action, bound: list):
+    def written_unit(self, times: Iterable[Quantity | None]) -> str:
+        """The unit of time of the first time of a line written with one.
+
+        Messages about the line quote times in it; ``"s"`` when no time has a unit.
+        """
+        for q in times:
+            if q is None:
+                continue
+            named = self.quantities.get(q.name) if q.name else None
+            text = q.value.unit if q.value is not None else (named.unit if named else "")
+            try:
+                time_factor(text)
+            except (KineticsError, ValueError):
+                continue
+            return text
+        return "s"
+
+    def action(
+        self, line: Line, action: object, bound: list[Binding]
+    ) -> Addition | Removal | TemperatureStep | None:
         if isinstance(action, StepAction):
             kelvin = self.kelvin(line, action.value, "the new temperature")
             return None if kelvin is None else TemperatureStep(kelvin)
@@ -362,7 +397,7 @@ class _Reader(_Numbers):
         assert isinstance(action, AddAction)
         return self.addition(line, action, bound)
 
-    def removal(self, line: Line, action: RemoveAction, bound: list) -> Removal | None:
+    def removal(self, line: Line, action: RemoveAction, bound: list[Binding]) -> Removal | None:
         species = [name for name, _ in action.species]
         q = action.share
         if not q.name:
@@ -374,7 +409,7 @@ class _Reader(_Numbers):
         bound.append(Binding("fraction", got[1]))
         return Removal(species, got[0])
 
-    def addition(self, line: Line, action: AddAction, bound: list) -> Addition | None:
+    def addition(self, line: Line, action: AddAction, bound: list[Binding]) -> Addition | None:
         portion = None
         if action.volume is not None and action.volume.name in self.species:
             name = action.volume.name
@@ -391,12 +426,13 @@ class _Reader(_Numbers):
                 bound.append(Binding("volume", portion[1]))
             if self.start is None:  # the core check says what is missing
                 return Addition({}, float(portion[0]))
-        amounts = {}
+        amounts: dict[str, float] = {}
         for item in action.items:
             factors = self.amount(line, item.name, item.amount, portion)
             if factors is None:
                 continue
-            value, names, scale = Fraction(1), [], Fraction(1)
+            value, scale = Fraction(1), Fraction(1)
+            names: list[str] = []
             for number, name in factors:
                 value *= number
                 if name:
@@ -410,15 +446,22 @@ class _Reader(_Numbers):
             return None
         return Addition(amounts, 0.0 if portion is None else float(portion[0]))
 
-    def amount(self, line: Line, species: str, q: Quantity, portion):
+    def amount(
+        self,
+        line: Line,
+        species: str,
+        q: Quantity,
+        portion: tuple[Fraction, tuple[str, ...]] | None,
+    ) -> list[tuple[Fraction, str]] | None:
         """Factors ``(exact value, name or "")`` whose product is the core amount."""
         what = f"the amount of {species}"
         if q.name:
             nq = self.named(line, q, what, "0.25 mol/L")
-            if nq is None:
+            if nq is None or nq.value_si is None:
                 return None
-            unit_text, si, name = nq.unit, nq.value_si, q.name
+            unit_text, si, name = nq.unit, Fraction(nq.value_si), q.name
         else:
+            assert q.value is not None  # a number when there is no name
             spec = self.unit_spec(line, q.value, what, "0.25 mol/L")
             if spec is None:
                 return None
@@ -437,7 +480,7 @@ class _Reader(_Numbers):
                 "write e.g. A = 0.25 mol/L",
             )
             return None
-        factors = [(si, name), (1 / self.unit.factor, "")]
+        factors: list[tuple[Fraction, str]] = [(si, name), (1 / self.unit.factor, "")]
         if kind.substance == "mass":
             molar = self.molar.get(species)
             if molar is None:
@@ -482,7 +525,7 @@ class _Reader(_Numbers):
         return [*factors, (volume, names[0] if names else ""), (1 / self.start, "")]
 
     def rates(self, line: Line, action: FeedAction) -> dict[str, float] | None:
-        out = {}
+        out: dict[str, float] = {}
         for item in action.items:
             q = item.amount
             what = f"the feed rate of {item.name}"
@@ -492,6 +535,7 @@ class _Reader(_Numbers):
                     "write the rate as a number with a unit, e.g. 0.01 mol/L/min",
                 )  # fmt: skip
                 continue
+            assert q.value is not None  # a number when there is no name
             spec = self.unit_spec(line, q.value, what, "0.01 mol/L/min")
             if spec is None:
                 continue

@@ -23,6 +23,7 @@ from typing import TYPE_CHECKING
 
 from kinetics._version import __version__
 from kinetics.jsonready import finite_or_none
+from kinetics.time_text import in_time_unit
 from kinetics.units import time_factor
 
 if TYPE_CHECKING:
@@ -190,9 +191,9 @@ def solution_json(
     -----
     A scheme with ``require`` lines adds ``requirements`` (one object per line: ``text``,
     ``first_broken`` in ``time_unit`` or null when it always holds, ``beyond_window``,
-    ``holds_at_start``, ``holds_between``), ``all_hold_from`` and ``all_hold_until`` (the
-    first window in which all hold together; ``all_hold_until`` null when it has no end,
-    both null when they never hold together).
+    ``holds_at_start``, ``holds_between``, ``broken_by_operation``), ``all_hold_from`` and
+    ``all_hold_until`` (the first window in which all hold together; ``all_hold_until``
+    null when it has no end, both null when they never hold together).
     """
     from kinetics.analysis.solution_summary import SUMMARY_SKIPPED_NOTE, activity_summary
 
@@ -219,7 +220,7 @@ def solution_json(
         },
         **_certificate(solution),
         "events": event_rows(solution, time_unit),
-        **_timeline(solution),
+        **_timeline(solution, time_unit),
     }
 
 
@@ -239,11 +240,12 @@ def _requirements(summary) -> dict:
     }
 
 
-def _timeline(solution: Solution) -> dict:
-    """The rows just after operations and the notes of a run with operations."""
+def _timeline(solution: Solution, time_unit: str) -> dict:
+    """The rows just after operations and the notes of a run (times in ``time_unit``)."""
     if solution.after is None:
         return {}
-    out: dict = {"after": solution.after.tolist(), "timeline_notes": list(solution.notes)}
+    notes = [in_time_unit(n, time_unit) for n in solution.notes]
+    out: dict = {"after": solution.after.tolist(), "timeline_notes": notes}
     if solution.ramp_estimate is not None:
         out["ramp_estimate"] = [finite_or_none(float(x)) for x in solution.ramp_estimate]
         out["ramp_estimate_note"] = RAMP_NOTE

@@ -40,6 +40,7 @@ from kinetics.output.summary_text import (
     summary_header,
     summary_notes,
 )
+from kinetics.time_text import in_time_unit
 
 if TYPE_CHECKING:
     from kinetics.scheme import Scheme
@@ -306,7 +307,7 @@ def _timeline_section(scheme: Scheme, solution: Solution, time_unit: str) -> str
         worst = float(solution.ramp_estimate.max(initial=0.0))
         parts.append(f"<p>Temperature ramps: largest estimate {worst:.2g}. {escape(RAMP_NOTE)}</p>")
     if solution.notes:
-        items = "".join(f"<li>{escape(n)}</li>" for n in solution.notes)
+        items = "".join(f"<li>{escape(in_time_unit(n, time_unit))}</li>" for n in solution.notes)
         parts.append(f'<ul class="notes">{items}</ul>')
     return "\n".join(parts)
 

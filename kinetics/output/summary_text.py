@@ -282,6 +282,8 @@ def requirement_lines(checked: dict, time_unit: str) -> list[tuple[str, str]]:
             text = "broken from the start"
         else:
             text = f"first broken at {when:.6g} {time_unit}"
+            if row.get("broken_by_operation"):
+                text += " (by the operation at that time)"
             if row.get("beyond_window"):
                 text += " (after the window)"
         again = [s for s in spans if s[0] > 0]

@@ -51,8 +51,9 @@ CURVE_RTOL = 1e-9
 
 
 def _propagate_batch(K, K_low, c0, times, feed, precision):
-    """Curves (b, m, n) [conc] of the exact pairs ``K + K_low`` and the worst certified
-    relative bound of each member (b,).
+    """Curves of the exact pairs ``K + K_low`` and the worst bound of each member.
+
+    Curves (b, m, n) [conc] and the worst certified relative bound of each member (b,).
 
     With ``precision="double"`` the members whose plain-double bound exceeds
     :data:`CURVE_RTOL` (or that overflow in double) are recomputed with ``"auto"``.
@@ -168,8 +169,9 @@ def chunk_result(
 
 
 def _activity_factors(plan: SweepPlan, K, K_low) -> np.ndarray | None:
-    """Activity per amount of each set and species (b, n), or None for concentrations:
-    the decay constants are each set's :math:`-K_{ii}` (:mod:`kinetics.activity`).
+    """Activity per amount of each set and species (b, n), or None for concentrations.
+
+    The decay constants are each set's :math:`-K_{ii}` (:mod:`kinetics.activity`).
     """
     if plan.activity_unit is None:
         return None

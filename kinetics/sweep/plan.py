@@ -334,9 +334,8 @@ def _summary_columns(
     for i, n in enumerate(names):
         cols.append(Column("limit", n, i, conc))
     # one column per require line: first_broken <text> [time unit] (the text stands in
-    # the place of the species; index is the requirement's position); not for a scheme
-    # with operations (its sets are runs, whose requirements are not checked)
-    for k, r in enumerate(() if scheme.timeline else scheme.requirements):
+    # the place of the species; index is the requirement's position)
+    for k, r in enumerate(scheme.requirements):
         cols.append(Column("first_broken", r.text, k, time_unit))
     return tuple(cols)
 
