@@ -430,3 +430,22 @@ def test_scheme_summary_json():
 def test_defective_note_names_upstream_species_first():
     rt = an.relaxation_times(chain_matrix([0.3, 0.3]), names=["A", "B", "C"])
     assert "for both A and B" in rt.note
+
+
+def test_the_reason_a_species_did_not_fall_within_the_scan_quotes_the_time_in_the_reader_unit():
+    """A -> B with k = ln 2 / h: A's limit is 0, below half its start, so when the scan
+    ended before the fall the sentence names the scanned span, shown in any time unit."""
+    from kinetics.analysis.crossings import _never_reason
+    from kinetics.analysis.problem import Problem
+    from kinetics.analysis.results import Limit
+    from kinetics.time_text import in_time_unit
+
+    k = np.log(2) / 3600
+    problem = Problem(np.array([[-k, 0.0], [k, 0.0]]), np.array([1.0, 0.0]), names=["A", "B"])
+    limit = Limit(np.zeros(2), np.zeros(2, bool), ("transient", "end product"), (None,) * 2,
+                  np.full(2, np.nan))  # fmt: skip
+    reason = _never_reason(problem, 0, 0.5, limit, 1800.0)
+    assert reason == "A did not fall to 50 % of its start value within the scanned 1800 s"
+    assert in_time_unit(reason, "h") == (
+        "A did not fall to 50 % of its start value within the scanned 0.5 h"
+    )

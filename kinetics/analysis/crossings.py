@@ -20,6 +20,7 @@ from kinetics.analysis.results import FractionTime, Limit, TimeToLimit
 from kinetics.analysis.roots import Brackets, find_roots
 from kinetics.analysis.survey import Survey
 from kinetics.analysis.tolerances import REL_NOISE_C
+from kinetics.time_text import TimedText
 
 __all__ = [
     "Crossing",
@@ -90,7 +91,7 @@ def _never_reason(problem: Problem, i: int, phi: float, lim: Limit, t_end: float
             f"{name} levels off at {100 * L / c0:.6g} % of its start value (its long-time "
             f"limit, e.g. an equilibrium), above {pct}, so it never falls that low"
         )
-    return f"{name} did not fall to {pct} of its start value within the scanned {t_end:.6g} s"
+    return TimedText(f"{name} did not fall to {pct} of its start value within the scanned ", t_end)
 
 
 def fraction_times(survey: Survey, requests: Sequence[tuple[int, float]]) -> list[FractionTime]:
