@@ -103,7 +103,7 @@ def _augmented(model: Model, here: Scheme, slopes, starts, c0):
 def second_derivatives(model: Model, x, here: Scheme, t: float, slopes, dc) -> np.ndarray | None:
     r""":math:`\partial^2 c(t)/\partial x_p \partial x_q` of every species, shape (d, d, n).
 
-    In [conc per internal units squared]; None for a system above :data:`BLOCK_MAX` rows.
+    Units [conc per internal units squared]; None for a system above :data:`BLOCK_MAX` rows.
     """
     starts = [j for j in model.rest if model.settings[j].kind == "start"]
     n, d = len(here.species), len(model.settings)

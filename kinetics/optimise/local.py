@@ -311,7 +311,7 @@ def _last_step(model: Model, problem: ScaledProblem, p: Point, best, trial, pred
 def _known_near(
     problem: ScaledProblem, known: Sequence[Candidate], trial: np.ndarray, best: Candidate
 ) -> Candidate | None:
-    """A known optimum as good as ``best`` near the point a Newton step is about to go to.
+    """A known optimum at least as good as ``best`` near where a Newton step would go.
 
     Near means within :data:`SAME_HILL`: the search would end there.
     """

@@ -1,6 +1,6 @@
 r"""The model of an optimisation: the target and the requirements at a set of settings.
 
-Both exactly, with exact derivatives.
+Both are computed exactly, with exact derivatives.
 
 For settings :math:`x` (temperature, named quantities, start values..., and the time
 :math:`t` at which the batch is stopped) the concentrations at :math:`t` are
@@ -281,7 +281,7 @@ class Model:
     def _decay_slopes(self, slopes) -> np.ndarray | None:
         r""":math:`\partial\lambda_i/\partial x_j` of the target species' decay constant.
 
-        In [1/s per internal unit], for an activity target whose decay constant a setting
+        Units [1/s per internal unit]; for an activity target whose decay constant a setting
         moves; None otherwise.
         """
         if self.per_decay is None:
