@@ -214,6 +214,10 @@ def closest(name: str, candidates, fold_case: bool = False) -> str | None:
 class SweepWords:
     """Messages of :func:`resolve` for a sweep: each starts with the place of the name.
 
+    Each method returns the error to raise: a sweep's are :class:`ConstantError`,
+    :class:`TemperatureError` and :class:`SpeciesError`; the words of another command may
+    return another kind of :class:`ArgumentValueError` (an optimisation's setting errors).
+
     Parameters
     ----------
     where : str
@@ -230,7 +234,7 @@ class SweepWords:
         close = closest(name, known)
         return f"did you mean {close!r}? " if close else ""
 
-    def unknown(self, scheme: Scheme, name: str) -> ConstantError:
+    def unknown(self, scheme: Scheme, name: str) -> ArgumentValueError:
         """The error for a name that is no rate constant or parameter of the scheme."""
         names = [*scheme.constants, *scheme.quantities]
         known = [*names, "temperature", "start:<species>", "excess:<species>"]
@@ -246,7 +250,7 @@ class SweepWords:
             f"vary a quantity that a constant is defined from, e.g. k = ln(2) / {name}",
         )
 
-    def whole_arrhenius(self, name: str) -> ConstantError:
+    def whole_arrhenius(self, name: str) -> ArgumentValueError:
         """The error for a constant that follows the Arrhenius law, varied as a whole."""
         return ConstantError(
             f"{self.where}: {name} follows the Arrhenius law",
@@ -261,11 +265,11 @@ class SweepWords:
             self._did_you_mean(base, constants) + "the constants are " + ", ".join(constants),
         )
 
-    def not_a_part(self, scheme: Scheme, name: str, base: str, part: str) -> ConstantError:
+    def not_a_part(self, scheme: Scheme, name: str, base: str, part: str) -> ArgumentValueError:
         """The error for ``base.part`` whose part is no Arrhenius parameter (unknown name)."""
         return self.unknown(scheme, name)
 
-    def no_part(self, name: str, base: str, part: str) -> ConstantError:
+    def no_part(self, name: str, base: str, part: str) -> ArgumentValueError:
         """The error for ``base.A`` or ``base.Ea`` of a constant given as a number."""
         return ConstantError(
             f"{self.where}: {base} is given as a number, not by the Arrhenius law, so it has "
@@ -285,7 +289,7 @@ class SweepWords:
         what = "a species of the scheme" if kind == "start" else "a species held in excess"
         return SpeciesError(f"{self.where}: {species!r} is not {what}", hint)
 
-    def temperature_unused(self) -> TemperatureError:
+    def temperature_unused(self) -> ArgumentValueError:
         """The error for varying the temperature of a scheme without an Arrhenius constant."""
         return TemperatureError(
             f"{self.where}: the scheme has no Arrhenius constant, so the temperature changes "

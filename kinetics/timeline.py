@@ -546,48 +546,68 @@ class _Collector:
 
     def add(self, index: int, statement) -> None:
         """Check one statement and gather what it does inside the window."""
-        check, place = self.check, getattr(statement, "place", Place())
+        place = getattr(statement, "place", Place())
         if isinstance(statement, At):
-            ok = check.time(statement.time, "the time of an operation", place)
-            check.action(statement.action, place)
-            if not ok:
-                return
-            if statement.time > self.end:
-                self.skipped.append((index, 1, float(statement.time)))
-            elif isinstance(statement.action, TemperatureStep):
-                step = (float(statement.time), statement.action.temperature, index, place)
-                self.steps.append(step)
-            elif check.limit(1, place):
-                self.operations.append((float(statement.time), index, 0, statement.action))
+            self._at(index, statement, place)
         elif isinstance(statement, Every):
-            if not _check_every(check, statement):
-                return
-            if math.isinf(self.end) and statement.until is None:
-                return  # no window yet: nothing to count
-            times, inside, after, first_after = _repetitions(statement, self.end)
-            if check.limit(inside, place):
-                self.operations.extend((t, index, k, statement.action) for k, t in enumerate(times))
-                if after:
-                    self.skipped.append((index, after, first_after))
+            self._every(index, statement, place)
         elif isinstance(statement, FeedWindow):
-            ok = _check_window(check, statement.start, statement.end, place, "the feed window")
-            for name, rate in statement.rates:
-                if check.name(name, place):
-                    check.amount(name, rate, place, rate=True)
-            self._window(ok, index, statement, self.feeds)
+            self._feed(index, statement, place)
         elif isinstance(statement, TemperatureRamp):
-            ok = _check_window(check, statement.start, statement.end, place, "the ramp")
-            check.temperature(statement.initial, "the ramp's first temperature", place)
-            check.temperature(statement.final, "the ramp's last temperature", place)
-            self._window(ok, index, statement, self.ramps)
+            self._ramp(index, statement, place)
         else:
-            check.errors.append(
+            self.check.errors.append(
                 Place().error(
                     f"statement {index + 1} ({type(statement).__name__}) is not a timeline "
                     "statement",
                     "use At, Every, FeedWindow or TemperatureRamp",
                 )
             )
+
+    def _at(self, index: int, statement: At, place: Place) -> None:
+        """One operation at one time: a temperature step, or an addition or removal."""
+        check = self.check
+        ok = check.time(statement.time, "the time of an operation", place)
+        check.action(statement.action, place)
+        if not ok:
+            return
+        if statement.time > self.end:
+            self.skipped.append((index, 1, float(statement.time)))
+        elif isinstance(statement.action, TemperatureStep):
+            step = (float(statement.time), statement.action.temperature, index, place)
+            self.steps.append(step)
+        elif check.limit(1, place):
+            self.operations.append((float(statement.time), index, 0, statement.action))
+
+    def _every(self, index: int, statement: Every, place: Place) -> None:
+        """A repeated operation: its repetitions inside the window, and the count after it."""
+        check = self.check
+        if not _check_every(check, statement):
+            return
+        if math.isinf(self.end) and statement.until is None:
+            return  # no window yet: nothing to count
+        times, inside, after, first_after = _repetitions(statement, self.end)
+        if check.limit(inside, place):
+            self.operations.extend((t, index, k, statement.action) for k, t in enumerate(times))
+            if after:
+                self.skipped.append((index, after, first_after))
+
+    def _feed(self, index: int, statement: FeedWindow, place: Place) -> None:
+        """A feed window: its times and rates."""
+        check = self.check
+        ok = _check_window(check, statement.start, statement.end, place, "the feed window")
+        for name, rate in statement.rates:
+            if check.name(name, place):
+                check.amount(name, rate, place, rate=True)
+        self._window(ok, index, statement, self.feeds)
+
+    def _ramp(self, index: int, statement: TemperatureRamp, place: Place) -> None:
+        """A temperature ramp: its times and its first and last temperatures."""
+        check = self.check
+        ok = _check_window(check, statement.start, statement.end, place, "the ramp")
+        check.temperature(statement.initial, "the ramp's first temperature", place)
+        check.temperature(statement.final, "the ramp's last temperature", place)
+        self._window(ok, index, statement, self.ramps)
 
     def _window(self, ok: bool, index: int, statement, into: list) -> None:
         if ok and self.check.limit(2, statement.place):

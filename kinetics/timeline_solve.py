@@ -60,6 +60,7 @@ import numpy as np
 from . import _doubledouble as dd
 from .engine import TINY, Precision, StretchPropagator
 from .engine.checks import time_list
+from .engine.plan import U, compose
 from .errors import SettingError, shown_value
 from .timeline import Addition, Plan, Removal, Timeline, expand
 
@@ -68,17 +69,11 @@ if TYPE_CHECKING:
 
 __all__ = ["Event", "Stretch", "TimelineSolution", "solve_timeline"]
 
-_U = np.finfo(float).eps / 2  # unit roundoff of IEEE double
 #: Sub-steps of all ramps together beyond which refinement stops (with a note).
 MAX_RAMP_SUBSTEPS = 4096
 #: Gauss-Legendre nodes and weights on [-1, 1] for the moments of a ramp sub-step: with
 #: ln k changing by at most 1/2 per panel, the relative error is below 1e-16.
 _NODES = np.polynomial.legendre.leggauss(6)
-
-
-def _compose(a, b):
-    """Relative bound of a product of two factors with bounds ``a`` and ``b``."""
-    return a + b + a * b
 
 
 @dataclass(frozen=True, slots=True)
@@ -339,15 +334,6 @@ def _pieces(scheme: Scheme, plan: Plan, level: list[int], times: np.ndarray):
     return pieces
 
 
-def _length(a, b):
-    """``b - a`` as a double and its exact rest (Knuth's TwoSum; arrays or floats)."""
-    if isinstance(a, float) and isinstance(b, float):
-        s = b - a
-        z = s - b
-        return s, (b - (s - z)) + (-a - z)
-    return dd.two_sum(np.asarray(b, dtype=float), -np.asarray(a, dtype=float))
-
-
 class _Chain:
     """One pass over the stretches: states at every stretch start and end, and events."""
 
@@ -375,9 +361,9 @@ class _Chain:
             if j == 0:
                 x, e, k = self._operations_at(a, x, e, k)
             self.start[j], self.start_bound[j] = x, e
-            h, low = _length(a, b)
+            h, low = dd.two_sum(b, -a)  # the length and its exact rest
             x, eps = self.conditions.propagator(key).step(x, float(h), float(low))
-            e = _compose(e, eps)
+            e = compose(e, eps)
             self.end[j], self.end_bound[j] = x, e
             x, e, k = self._operations_at(b, x, e, k)
         if not pieces:  # a window that ends at 0
@@ -408,12 +394,12 @@ class _Chain:
             i = index[name]
             removed = take * x[i]
             x[i] = keep * x[i]
-            bound = e if p == 1 else _compose(e, _U)
+            bound = e if p == 1 else compose(e, U)
             self.moved.append(
                 (op.time, "remove", name, -float(removed), bound, op.statement, op.volume)
             )
         if 0 < p < 1:
-            e = _compose(_compose(e, _U), _U)
+            e = compose(compose(e, U), U)
         return x, e
 
     def _add(self, op, x, e: float):
@@ -425,18 +411,18 @@ class _Chain:
         index = self.scheme.index
         if op.kept != 1:
             x = float(op.kept) * x  # the factor and the product: two roundings
-            e = _compose(_compose(e, _U), _U)
+            e = compose(compose(e, U), U)
         amounts = op.action.amounts
         for name, amount in amounts:
             i = index[name]
             added = float(amount) if op.share == 1 else float(Fraction(amount) * op.share)
             x[i] = x[i] + added
-            rounded = 0.0 if op.share == 1 else _U
+            rounded = 0.0 if op.share == 1 else U
             self.moved.append((op.time, "add", name, added, rounded, op.statement, op.volume))
         if not amounts:  # solvent alone: a dilution
             self.moved.append((op.time, "add", None, 0.0, 0.0, op.statement, op.volume))
         if any(amount for _, amount in amounts):
-            e = _compose(e, _U) if op.share == 1 else _compose(_compose(e, _U), _U)
+            e = compose(e, U) if op.share == 1 else compose(compose(e, U), U)
         return x, e
 
 
@@ -509,15 +495,15 @@ def _advance_rows(propagator, members, conc, bound, remember: bool) -> None:
     """Rows ``(row, time, start, start bound, start time)`` of one stretch kind."""
     if len(members) == 1:
         row, t, x, e, a = members[0]
-        h, low = _length(a, t)
+        h, low = dd.two_sum(t, -a)
         conc[row], eps = propagator.step(x, float(h), float(low))
-        bound[row] = _compose(e, eps)
+        bound[row] = compose(e, eps)
         return
     rows = np.array([m[0] for m in members])
-    h, low = _length(np.array([m[4] for m in members]), np.array([m[1] for m in members]))
+    h, low = dd.two_sum(np.array([m[1] for m in members]), -np.array([m[4] for m in members]))
     r = propagator.advance(np.array([m[2] for m in members]), h, low, remember=remember)
     conc[rows] = r.concentrations
-    bound[rows] = _compose(np.array([m[3] for m in members]), r.error_bound)
+    bound[rows] = compose(np.array([m[3] for m in members]), r.error_bound)
 
 
 def _relative_difference(fine: np.ndarray, coarse: np.ndarray) -> np.ndarray:

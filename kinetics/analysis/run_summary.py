@@ -440,26 +440,29 @@ def _crossings(entry: dict, run: Run, j: int, moved: dict, notes: list) -> None:
     if not c0 > 0:
         entry["half_life_note"] = f"{name} starts at zero, so a fraction of its start is undefined"
         return
-    stretches = run.stretches
     for phi, key in _FRACTIONS.items():
-        level = phi * c0
-        for k, s in enumerate(stretches):
-            start = s.start_values[j]
-            if start <= level:
-                entry[key] = s.start  # an operation took it below the level
-                break
-            last = k == len(stretches) - 1
-            if s.ramp and not last and s.end_values[j] > level:
-                continue  # a short ramp sub-step that ends above the level
-            survey = run.survey(k)
-            if survey is None:
-                continue
-            (found,) = fraction_times(survey, [(j, level / start)])
-            if found.time is not None and (s.start + found.time <= s.end or last):
-                entry[key] = s.start + found.time
-                break
+        entry[key] = _first_time_at(run, j, phi * c0)
     if entry["half_life"] is not None:
         entry["half_life_note"] = None
+
+
+def _first_time_at(run: Run, j: int, level: float) -> float | None:
+    """First time [s] species ``j`` falls to ``level`` over the run (None: it does not)."""
+    stretches = run.stretches
+    for k, s in enumerate(stretches):
+        start = s.start_values[j]
+        if start <= level:
+            return s.start  # an operation took it below the level
+        last = k == len(stretches) - 1
+        if s.ramp and not last and s.end_values[j] > level:
+            continue  # a short ramp sub-step that ends above the level
+        survey = run.survey(k)
+        if survey is None:
+            continue
+        (found,) = fraction_times(survey, [(j, level / start)])
+        if found.time is not None and (s.start + found.time <= s.end or last):
+            return s.start + found.time
+    return None
 
 
 def _areas(entry: dict, areas: list, j: int, before: int) -> None:

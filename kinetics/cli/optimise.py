@@ -18,6 +18,12 @@ from kinetics.errors import UsageError
 __all__ = ["optimise"]
 
 _PLOT_FORMATS = (".png", ".svg")
+_HELP = """Find the settings that make a species highest (or lowest) while every require
+line of the scheme holds.
+
+Reports the best settings, the target there, which requirements are active (at
+their limit) and how flat the optimum is.
+"""
 _EPILOG = """\b
 Settings (--over NAME=LO:HI:UNIT, several allowed):
   time (the end time, with --at-end), temperature, a named quantity of the
@@ -80,7 +86,7 @@ def _print(optimum) -> None:
         out.print(f"  {label}: {text}", markup=False, highlight=False)
 
 
-@click.command("optimise", epilog=_EPILOG)
+@click.command("optimise", help=_HELP, epilog=_EPILOG)
 @click.argument("scheme_file", type=click.Path(dir_okay=True, path_type=Path))
 @click.option("--maximise", metavar="SPECIES", help="The species to make as high as possible.")
 @click.option("--minimise", metavar="SPECIES", help="The species to make as low as possible.")
@@ -143,12 +149,7 @@ def optimise(
     plot_out,
     no_caution,
 ):
-    """Find the settings that make a species highest (or lowest) while every require
-    line of the scheme holds.
-
-    Reports the best settings, the target there, which requirements are active (at
-    their limit) and how flat the optimum is.
-    """
+    """Run ``kinetics optimise`` (the help text is :data:`_HELP`); exit status 2 on bad input."""
     from kinetics.cli.terminal import progress
     from kinetics.optimise import optimise as search
     from kinetics.optimise.words import CLI_WORDS

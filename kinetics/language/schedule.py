@@ -431,14 +431,7 @@ class _Reader(_Numbers):
             factors = self.amount(line, item.name, item.amount, portion)
             if factors is None:
                 continue
-            value, scale = Fraction(1), Fraction(1)
-            names: list[str] = []
-            for number, name in factors:
-                value *= number
-                if name:
-                    names.append(name)
-                else:
-                    scale *= number
+            value, scale, names = _product(factors)
             amounts[item.name] = float(value)
             if names:
                 bound.append(Binding(f"amount:{item.name}", tuple(names), scale))
@@ -454,18 +447,10 @@ class _Reader(_Numbers):
         portion: tuple[Fraction, tuple[str, ...]] | None,
     ) -> list[tuple[Fraction, str]] | None:
         """Factors ``(exact value, name or "")`` whose product is the core amount."""
-        what = f"the amount of {species}"
-        if q.name:
-            nq = self.named(line, q, what, "0.25 mol/L")
-            if nq is None or nq.value_si is None:
-                return None
-            unit_text, si, name = nq.unit, Fraction(nq.value_si), q.name
-        else:
-            assert q.value is not None  # a number when there is no name
-            spec = self.unit_spec(line, q.value, what, "0.25 mol/L")
-            if spec is None:
-                return None
-            unit_text, si, name = q.value.unit, scaled(q.value.number, spec.factor), ""
+        written = self.written_amount(line, species, q)
+        if written is None:
+            return None
+        unit_text, si, name = written
         try:
             kind = kind_of(unit_text)
         except ValueError:
@@ -524,6 +509,25 @@ class _Reader(_Numbers):
         volume, names = portion
         return [*factors, (volume, names[0] if names else ""), (1 / self.start, "")]
 
+    def written_amount(
+        self, line: Line, species: str, q: Quantity
+    ) -> tuple[str, Fraction, str] | None:
+        """The unit, exact SI value and name (or "") of an amount as written.
+
+        A named quantity or a number with a unit; None after an error.
+        """
+        what = f"the amount of {species}"
+        if q.name:
+            nq = self.named(line, q, what, "0.25 mol/L")
+            if nq is None or nq.value_si is None:
+                return None
+            return nq.unit, Fraction(nq.value_si), q.name
+        assert q.value is not None  # a number when there is no name
+        spec = self.unit_spec(line, q.value, what, "0.25 mol/L")
+        if spec is None:
+            return None
+        return q.value.unit, scaled(q.value.number, spec.factor), ""
+
     def rates(self, line: Line, action: FeedAction) -> dict[str, float] | None:
         out: dict[str, float] = {}
         for item in action.items:
@@ -556,3 +560,16 @@ class _Reader(_Numbers):
                 continue
             out[item.name] = float(scaled(q.value.number, spec.factor) / self.unit.factor)
         return out if len(out) == len(action.items) else None
+
+
+def _product(factors: list[tuple[Fraction, str]]) -> tuple[Fraction, Fraction, list[str]]:
+    """The exact product of the factors, the product of those without a name, and the names."""
+    value, scale = Fraction(1), Fraction(1)
+    names: list[str] = []
+    for number, name in factors:
+        value *= number
+        if name:
+            names.append(name)
+        else:
+            scale *= number
+    return value, scale, names

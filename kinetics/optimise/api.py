@@ -1,5 +1,6 @@
-"""``kinetics.optimise``: the best settings of a scheme under its requirements, how flat the
-optimum is, and the target over the settings for a figure.
+"""``kinetics.optimise``: the best settings of a scheme under its requirements.
+
+Also how flat the optimum is, and the target over the settings for a figure.
 """
 
 from __future__ import annotations
@@ -87,8 +88,10 @@ def _goal(scheme, species, sense, best_time, until, yield_basis, settings, time_
 
 
 def _check_activity(scheme, species, yield_basis, words: Words) -> None:
-    """Refuse an activity target together with a yield, or of a species that no step
-    consumes (its activity is 0).
+    """Refuse an activity target that cannot be optimised.
+
+    That is one together with a yield, or one of a species that no step consumes (its
+    activity is 0).
     """
     if yield_basis:
         raise SettingError(
@@ -126,8 +129,10 @@ def _requirement_rows(model: Model, point) -> tuple[dict, ...]:
 
 
 def _inside(model: Model, best: float, x: np.ndarray) -> float:
-    """>= 0 where the target is within FLAT_SHARE of ``best`` and every requirement holds:
-    the smaller of the scaled gaps.
+    """The smaller of the scaled gaps of the target and of the requirements.
+
+    It is >= 0 where the target is within FLAT_SHARE of ``best`` and every requirement
+    holds.
     """
     p = model.point(x)
     gap = model.goal.sign * (p.objective - best) + FLAT_SHARE * abs(best)
@@ -158,9 +163,11 @@ def _edge(model: Model, best: float, x: np.ndarray, j: int, bound: float) -> flo
 
 
 def flat_ranges(model: Model, x, objective: float) -> tuple[tuple[float, float], ...]:
-    """Per setting the range around ``x`` (the others held) in which the target stays within
+    """Per setting the range around ``x`` (the others held) over which the optimum is flat.
+
+    In that range [internal units] the target stays within
     :data:`~kinetics.optimise.result.FLAT_SHARE` of ``objective`` and every requirement
-    holds [internal units]; the roots are refined by Brent's method on exact values.
+    holds; the roots are refined by Brent's method on exact values.
     """
     x = np.asarray(x, dtype=float)
     return tuple(
@@ -308,22 +315,23 @@ def optimise(
     counts["flatness"] = model.evaluations - before
     unit = "-" if goal.yield_basis else goal.activity or scheme.concentration_unit
     rows = _requirement_rows(model, point)
-    found = Optimum(
+    optimum = Optimum(
         model.settings, goal, best.x, point.objective, unit, feasible, rows, flat, counts,
         tuple(notes),
     )  # fmt: skip
     if not (sensitivity and feasible):
-        return found
+        return optimum
     from dataclasses import replace
 
     from .sensitivity import optimum_sensitivities
 
-    return replace(found, sensitivity=optimum_sensitivities(found, scheme))
+    return replace(optimum, sensitivity=optimum_sensitivities(optimum, scheme))
 
 
 def landscape(optimum: Optimum, scheme: Scheme, points: int = 41):
-    """The target and the requirement margins over the first one or two settings, the
-    others held at the optimum (for a figure).
+    """The target and the requirement margins over the first one or two settings.
+
+    The other settings are held at the optimum (for a figure).
 
     Returns
     -------
@@ -338,8 +346,9 @@ def landscape(optimum: Optimum, scheme: Scheme, points: int = 41):
     model = Model(scheme, [s for s in optimum.settings if not _generated(s, optimum)], optimum.goal)
     shown = list(range(min(2, len(model.settings))))
     axes = [np.linspace(model.lower[j], model.upper[j], points) for j in shown]
-    timed = model.time_at in shown
-    outer = [j for j in shown if j != model.time_at] if timed else shown
+    time_at = model.time_at if model.time_at in shown else None  # None: the time not plotted
+    timed = time_at is not None
+    outer = [j for j in shown if j != time_at]
     shape = tuple(a.size for a in axes)
     target = np.empty(shape)
     margin = np.full(shape, np.inf)
@@ -347,12 +356,12 @@ def landscape(optimum: Optimum, scheme: Scheme, points: int = 41):
         x = np.array(optimum.x, dtype=float)
         for j, k in zip(outer, index, strict=True):
             x[j] = axes[shown.index(j)][k]
-        times = axes[shown.index(model.time_at)] if timed else [model.end_time(x)]
+        times = axes[shown.index(time_at)] if time_at is not None else [model.end_time(x)]
         values, margins, here = model.values(x, times)
         levels = margin_scales(model, np.array([r.threshold for r in here.requirements]))
         where: list = list(index)
-        if timed:
-            where.insert(shown.index(model.time_at), slice(None))
+        if time_at is not None:
+            where.insert(shown.index(time_at), slice(None))
         target[tuple(where)] = values if timed else values[0]
         if levels.size:
             low = np.min(margins / levels, axis=1)

@@ -1,5 +1,6 @@
-r"""Second derivatives of the concentrations with respect to the settings (the Newton
-steps of the local search).
+r"""Second derivatives of the concentrations with respect to the settings.
+
+They serve the Newton steps of the local search.
 
 For parameters :math:`p, q` that change the rate matrix (:math:`E_p = \partial K/\partial
 x_p`, :math:`F_{pq} = \partial^2 K/\partial x_p \partial x_q`) or the start values, the
@@ -51,8 +52,9 @@ _STEP = Fraction(1, 2**26)
 
 
 def rate_curvatures(model: Model, x, i: int, j: int) -> np.ndarray:
-    r""":math:`\partial^2 k_s/\partial x_i \partial x_j` of every step [1/s per internal
-    unit squared], from second differences of exact evaluations.
+    r""":math:`\partial^2 k_s/\partial x_i \partial x_j` of every step [1/s per internal unit^2].
+
+    From second differences of exact evaluations.
     """
     ai, bi = model.steps_of(x, i, _STEP)
     if i == j:
@@ -99,8 +101,9 @@ def _augmented(model: Model, here: Scheme, slopes, starts, c0):
 
 
 def second_derivatives(model: Model, x, here: Scheme, t: float, slopes, dc) -> np.ndarray | None:
-    r""":math:`\partial^2 c(t)/\partial x_p \partial x_q` of every species, shape (d, d, n)
-    [conc per internal units squared]; None for a system above :data:`BLOCK_MAX` rows.
+    r""":math:`\partial^2 c(t)/\partial x_p \partial x_q` of every species, shape (d, d, n).
+
+    Units [conc per internal units squared]; None for a system above :data:`BLOCK_MAX` rows.
     """
     starts = [j for j in model.rest if model.settings[j].kind == "start"]
     n, d = len(here.species), len(model.settings)

@@ -1,8 +1,8 @@
-r"""Local refinement from a start: Newton steps with the exact Hessian, then sequential
-quadratic programming where a requirement binds.
+r"""Local refinement from a start: Newton steps, then SQP where a requirement binds.
 
-Both work in coordinates scaled to ``[0, 1]`` per setting, on the target divided by its
-size at the start (:class:`ScaledProblem`).
+Newton steps use the exact Hessian; sequential quadratic programming takes over where a
+requirement binds.  Both work in coordinates scaled to ``[0, 1]`` per setting, on the
+target divided by its size at the start (:class:`ScaledProblem`).
 
 1. *Projected trust-region Newton.*  With the exact gradient and Hessian of the target
    (:mod:`kinetics.optimise.model`, :mod:`kinetics.optimise.curvature`) each step solves
@@ -33,6 +33,8 @@ Deutsche Forschungs- und Versuchsanstalt für Luft- und Raumfahrt (1988) (SLSQP)
 """
 
 from __future__ import annotations
+
+from collections.abc import Sequence
 
 import numpy as np
 
@@ -69,9 +71,10 @@ _ROOM = 1e-6
 
 
 class ScaledProblem:
-    r"""The target and margins of a model in coordinates ``u`` in ``[0, 1]^d``, for scipy
-    and the Newton steps, each point solved once (the target, its derivatives and the
-    constraints share it).
+    r"""The target and margins of a model in coordinates ``u`` in ``[0, 1]^d``.
+
+    For scipy and the Newton steps; each point is solved once (the target, its
+    derivatives and the constraints share it).
 
     A setting maps linearly, :math:`x = l + u\,(h - l)`, or, for the time and for a
     quantity or an Arrhenius prefactor whose bounds span a factor of 10 or more,
@@ -115,26 +118,37 @@ class ScaledProblem:
         return first, np.where(self.log, x * self.span**2, 0.0)
 
     def at(self, u) -> Point:
+        """The point at ``u`` with first derivatives (solved once per ``u``)."""
         key = np.asarray(u, dtype=float).tobytes()
         if self.last is None or self.last[0] != key:
             self.last = (key, self.model.point(self.x_of(u), gradient=True))
         return self.last[1]
 
     def fun(self, u) -> float:
+        """The scaled target to minimise at ``u`` [-]."""
         return -self.model.goal.sign * self.at(u).objective / self.scale
 
     def jac(self, u) -> np.ndarray:
-        return -self.model.goal.sign * self.at(u).gradient * self.slopes(u)[0] / self.scale
+        """The gradient of :meth:`fun` in ``u`` [-]."""
+        gradient = self.at(u).gradient
+        assert gradient is not None  # at() asks for first derivatives
+        return -self.model.goal.sign * gradient * self.slopes(u)[0] / self.scale
 
     def cons(self, u) -> np.ndarray:
+        """The margins of the requirements at ``u``, each divided by its level [-]."""
         return self.at(u).margins / self.margin_scales
 
     def cons_jac(self, u) -> np.ndarray:
+        """The Jacobian of :meth:`cons` in ``u``, shape (r, d) [-]."""
         dx = self.slopes(u)[0]
-        return self.at(u).jacobian * dx[None, :] / self.margin_scales[:, None]
+        jacobian = self.at(u).jacobian
+        assert jacobian is not None  # at() asks for first derivatives
+        return jacobian * dx[None, :] / self.margin_scales[:, None]
 
     def derivatives(self, u, p: Point) -> tuple[np.ndarray, np.ndarray]:
         """Gradient and Hessian of the scaled target in ``u`` from those of ``p``."""
+        assert p.gradient is not None  # a point with a Hessian has a gradient too
+        assert p.hessian is not None
         dx, ddx = self.slopes(u)
         sign = -self.model.goal.sign / self.scale
         g = sign * p.gradient
@@ -153,8 +167,9 @@ def _logarithmic(setting, lo: float, hi: float) -> bool:
 
 
 def scaled_problem(model: Model, start: Candidate) -> ScaledProblem:
-    """The problem of ``model`` scaled at ``start`` (the target by its size there, each
-    margin by its level).
+    """The problem of ``model`` scaled at ``start``.
+
+    The target is divided by its size there, each margin by its level.
     """
     scale = max(abs(start.objective), float(model.scheme.initial_vector.max(initial=0.0)))
     levels = np.array([r.threshold for r in model.scheme_at(start.x).requirements])
@@ -162,8 +177,9 @@ def scaled_problem(model: Model, start: Candidate) -> ScaledProblem:
 
 
 def trust_region_step(g: np.ndarray, H: np.ndarray, radius: float) -> np.ndarray:
-    r"""The minimiser of :math:`g^T p + \frac12 p^T H p` with :math:`\|p\| \le` radius
-    (Moré-Sorensen for a small dense H: eigenvalues, then a bisection on lambda).
+    r"""The minimiser of :math:`g^T p + \frac12 p^T H p` with :math:`\|p\| \le` radius.
+
+    By Moré-Sorensen for a small dense H: eigenvalues, then a bisection on lambda.
     """
     w, Q = np.linalg.eigh(0.5 * (H + H.T))
     a = Q.T @ g
@@ -174,7 +190,7 @@ def trust_region_step(g: np.ndarray, H: np.ndarray, radius: float) -> np.ndarray
     floor = max(0.0, -float(w.min())) * (1 + 1e-12) + 1e-300
     if w.min() > 0 and size(0.0) <= radius:
         return -(Q @ (a / w))
-    lo, hi = floor, floor + np.linalg.norm(g) / radius + abs(float(w.min()))
+    lo, hi = floor, float(floor + np.linalg.norm(g) / radius + abs(float(w.min())))
     while size(hi) > radius:
         hi *= 2
     for _ in range(100):
@@ -183,10 +199,13 @@ def trust_region_step(g: np.ndarray, H: np.ndarray, radius: float) -> np.ndarray
     return -(Q @ (a / (w + hi)))
 
 
-def newton(model: Model, start: Candidate, known=()) -> tuple[Candidate, bool]:
-    """Projected trust-region Newton steps from ``start`` (step 1 of the module); a search
-    that comes within :data:`SAME_HILL` (scaled) of an optimum in ``known`` (converged
-    searches from other starts) ends there.
+def newton(
+    model: Model, start: Candidate, known: Sequence[Candidate] = ()
+) -> tuple[Candidate, bool]:
+    """Projected trust-region Newton steps from ``start`` (step 1 of the module).
+
+    A search that comes within :data:`SAME_HILL` (scaled) of an optimum in ``known``
+    (converged searches from other starts) ends there.
 
     Returns
     -------
@@ -207,16 +226,7 @@ def newton(model: Model, start: Candidate, known=()) -> tuple[Candidate, bool]:
         free = ~held
         if not free.any() or np.max(np.abs(g[free])) <= _GRADIENT_TOL:
             return best, True
-        step = np.zeros_like(u)
-        step[free] = trust_region_step(g[free], H[np.ix_(free, free)], radius)
-        trial = np.clip(u + step, 0.0, 1.0)
-        s = trial - u
-        predicted = -(g @ s + 0.5 * s @ H @ s)
-        if predicted <= 0:  # the box cut the step off its descent: shorten it instead
-            room = np.where(step > 0, (1 - u) / step, np.where(step < 0, -u / step, np.inf))
-            s = min(1.0, float(room.min())) * step
-            trial = np.clip(u + s, 0.0, 1.0)
-            predicted = -(g @ s + 0.5 * s @ H @ s)
+        trial, s, predicted = _box_step(u, g, H, free, radius)
         if np.max(np.abs(s)) <= _STEP_TOL:
             return best, True
         if predicted <= _GAIN_TOL:
@@ -229,17 +239,58 @@ def newton(model: Model, start: Candidate, known=()) -> tuple[Candidate, bool]:
             return best, False  # a requirement binds: SQP takes over
         actual = sign * (p.objective - q.objective)
         rho = actual / predicted if predicted > 0 else -1.0
-        if rho > 0 and actual >= 0:
+        accepted = rho > 0 and actual >= 0
+        if accepted:
             u, p = trial, q
             best = Candidate(q.x, q.objective, 0.0)
-            for other in known:
-                if np.max(np.abs(problem.u_of(other.x) - u)) <= SAME_HILL:
-                    return other, True
-            if rho > 0.75 and np.linalg.norm(s) >= 0.9 * radius:
-                radius = min(2 * radius, 1.0)
-        else:
-            radius = 0.25 * np.linalg.norm(s)
+            on_hill = _known_at(problem, known, u)
+            if on_hill is not None:
+                return on_hill, True
+        radius = _next_radius(radius, s, rho, accepted)
     return best, False
+
+
+def _box_step(
+    u: np.ndarray, g: np.ndarray, H: np.ndarray, free: np.ndarray, radius: float
+) -> tuple[np.ndarray, np.ndarray, float]:
+    """A trust-region step on the free settings, kept inside the box ``[0, 1]^d``.
+
+    Returns the trial point, the step to it and the gain the quadratic model predicts.
+    """
+    step = np.zeros_like(u)
+    step[free] = trust_region_step(g[free], H[np.ix_(free, free)], radius)
+    trial = np.clip(u + step, 0.0, 1.0)
+    s = trial - u
+    predicted = -(g @ s + 0.5 * s @ H @ s)
+    if predicted <= 0:  # the box cut the step off its descent: shorten it instead
+        room = np.where(step > 0, (1 - u) / step, np.where(step < 0, -u / step, np.inf))
+        s = min(1.0, float(room.min())) * step
+        trial = np.clip(u + s, 0.0, 1.0)
+        predicted = -(g @ s + 0.5 * s @ H @ s)
+    return trial, s, predicted
+
+
+def _known_at(
+    problem: ScaledProblem, known: Sequence[Candidate], u: np.ndarray
+) -> Candidate | None:
+    """A known optimum within :data:`SAME_HILL` of ``u``: the search has reached its hill."""
+    for other in known:
+        if np.max(np.abs(problem.u_of(other.x) - u)) <= SAME_HILL:
+            return other
+    return None
+
+
+def _next_radius(radius: float, s: np.ndarray, rho: float, accepted: bool) -> float:
+    """The trust radius after a step ``s`` with the ratio ``rho`` of actual to predicted gain.
+
+    Doubled (at most 1) after a very good step to the edge, a quarter of the step after a
+    refused one, else kept.
+    """
+    if not accepted:
+        return float(0.25 * np.linalg.norm(s))
+    if rho > 0.75 and np.linalg.norm(s) >= 0.9 * radius:
+        return min(2 * radius, 1.0)
+    return radius
 
 
 def _last_step(model: Model, problem: ScaledProblem, p: Point, best, trial, predicted):
@@ -257,9 +308,12 @@ def _last_step(model: Model, problem: ScaledProblem, p: Point, best, trial, pred
     return Candidate(problem.x_of(trial), float(best.objective + gain), 0.0)
 
 
-def _known_near(problem: ScaledProblem, known, trial, best) -> Candidate | None:
-    """A known optimum at least as good as ``best`` within :data:`SAME_HILL` of the point a
-    Newton step is about to go to: the search would end there.
+def _known_near(
+    problem: ScaledProblem, known: Sequence[Candidate], trial: np.ndarray, best: Candidate
+) -> Candidate | None:
+    """A known optimum at least as good as ``best`` near where a Newton step would go.
+
+    Near means within :data:`SAME_HILL`: the search would end there.
     """
     sign = problem.model.goal.sign
     for other in known:
@@ -289,14 +343,14 @@ def slsqp(model: Model, start: Candidate, tol: float = 1e-12) -> Candidate:
     )
     x = problem.x_of(found.x)
     last = problem.last
-    same = last is not None and np.array_equal(last[1].x, x)
-    p = last[1] if same else model.point(x)
+    p = last[1] if last is not None and np.array_equal(last[1].x, x) else model.point(x)
     return Candidate(x, p.objective, violation(model, p))
 
 
-def refine(model: Model, start: Candidate, known=()) -> Candidate:
-    """Newton steps from ``start``, then SLSQP from the best point unless they converged
-    (``known``: optima found from other starts, see :func:`newton`).
+def refine(model: Model, start: Candidate, known: Sequence[Candidate] = ()) -> Candidate:
+    """Newton steps from ``start``, then SLSQP from the best point unless they converged.
+
+    ``known``: optima found from other starts, see :func:`newton`.
     """
     reached, converged = newton(model, start, [k for k in known if k.violation == 0])
     if converged:

@@ -1,5 +1,6 @@
-r"""The model of an optimisation: the target and the requirements at a set of settings,
-exactly, with exact derivatives.
+r"""The model of an optimisation: the target and the requirements at a set of settings.
+
+Both are computed exactly, with exact derivatives.
 
 For settings :math:`x` (temperature, named quantities, start values..., and the time
 :math:`t` at which the batch is stopped) the concentrations at :math:`t` are
@@ -198,7 +199,11 @@ class Model:
 
     def end_time(self, x) -> float:
         """[s] the time the target is read at."""
-        return float(x[self.time_at]) if self.time_at is not None else float(self.goal.end)
+        if self.time_at is not None:
+            return float(x[self.time_at])
+        end = self.goal.end
+        assert end is not None  # without a time setting the goal has its end (checked by optimise)
+        return float(end)
 
     def _target(self, c: np.ndarray, here: Scheme) -> np.ndarray:
         value = c[..., self.index]
@@ -215,8 +220,9 @@ class Model:
         return self.per_decay * (0.0 - (float(Kh[i, i]) + float(Kl[i, i])))
 
     def values(self, x, times) -> tuple[np.ndarray, np.ndarray, Scheme]:
-        """Targets (m,) and margins (m, r) at many times for one set of the other settings
-        (one engine call), and the scheme there.
+        """Targets (m,) and margins (m, r) at many times, and the scheme there.
+
+        For one set of the other settings (one engine call).
         """
         self.evaluations += np.size(times)
         here = self.scheme_at(x)
@@ -231,8 +237,9 @@ class Model:
         return self._target(C, here), margins, here
 
     def point(self, x, gradient: bool = False, hessian: bool = False) -> Point:
-        """The target and margins at ``x`` [internal units], with first (and second)
-        derivatives on request.
+        """The target and margins at ``x`` [internal units].
+
+        With first (and second) derivatives on request.
         """
         x = np.asarray(x, dtype=float)
         t = self.end_time(x)
@@ -251,8 +258,8 @@ class Model:
         grad = dc[:, i] * per
         if self.goal.yield_basis:
             grad = (dc[:, i] * total - c_i * dtotal) / total**2
-        dlam = self._decay_slopes(slopes)
-        if dlam is not None:
+        dlam = self._decay_slopes(slopes)  # None unless per_decay is set
+        if dlam is not None and self.per_decay is not None:
             grad = grad + self.per_decay * c_i * dlam
         jac = self.senses[:, None] * (dc[:, self.watched].T - dthr)
         if not hessian:
@@ -265,15 +272,16 @@ class Model:
             cross = np.outer(dc[:, i], dtotal)
             hess = hess / total - (cross + cross.T) / total**2
             hess = hess + 2 * c_i * np.outer(dtotal, dtotal) / total**3
-        if dlam is not None:
+        if dlam is not None and self.per_decay is not None:
             cross = np.outer(dlam, dc[:, i])
             hess = hess + self.per_decay * (cross + cross.T + c_i * self._decay_curvatures(x))
         curv = self.senses[:, None, None] * np.moveaxis(H[:, :, self.watched], 2, 0)
         return Point(x, t, float(target[0]), margins[0], thresholds, grad, jac, hess, curv)
 
     def _decay_slopes(self, slopes) -> np.ndarray | None:
-        r""":math:`\partial\lambda_i/\partial x_j` of the target species' decay constant
-        [1/s per internal unit] for an activity target whose decay constant a setting
+        r""":math:`\partial\lambda_i/\partial x_j` of the target species' decay constant.
+
+        Units [1/s per internal unit]; for an activity target whose decay constant a setting
         moves; None otherwise.
         """
         if self.per_decay is None:
@@ -284,8 +292,9 @@ class Model:
         return out if out.any() else None
 
     def _decay_curvatures(self, x) -> np.ndarray:
-        r""":math:`\partial^2\lambda_i/\partial x_p \partial x_q` [1/s per internal units
-        squared], from :func:`kinetics.optimise.curvature.rate_curvatures`.
+        r""":math:`\partial^2\lambda_i/\partial x_p \partial x_q` [1/s per internal units^2].
+
+        From :func:`kinetics.optimise.curvature.rate_curvatures`.
         """
         from .curvature import rate_curvatures
 
@@ -330,8 +339,9 @@ class Model:
         return dc, dthr
 
     def rates_at(self, x, changes: dict[int, float]) -> list[Fraction]:
-        """The exact effective step rates [1/s] with the settings ``changes`` (index ->
-        value [internal units]) moved from ``x``.
+        """The exact effective step rates [1/s] with some settings moved from ``x``.
+
+        ``changes`` maps a setting's index to its value [internal units].
         """
         y = np.array(x, dtype=float)
         for j, v in changes.items():
@@ -340,8 +350,9 @@ class Model:
         return [Fraction(float(a)) + Fraction(float(b)) for a, b in zip(hi, lo, strict=True)]
 
     def steps_of(self, x, j: int, step: Fraction) -> tuple[float, float]:
-        """Two values of setting ``j`` around ``x[j]`` a relative ``step`` apart (the
-        lower one at ``x[j]`` itself where the setting cannot go below 0).
+        """Two values of setting ``j`` around ``x[j]`` a relative ``step`` apart.
+
+        The lower one is ``x[j]`` itself where the setting cannot go below 0.
         """
         s = self.settings[j]
         v = Fraction(float(x[j]))
@@ -352,8 +363,9 @@ class Model:
         return a, b
 
     def _rate_slopes(self, x, j: int) -> np.ndarray:
-        r""":math:`\partial k_s/\partial x_j` of every step [1/s per internal unit]:
-        central difference of exact evaluations (one-sided at a bound at zero).
+        r""":math:`\partial k_s/\partial x_j` of every step [1/s per internal unit].
+
+        A central difference of exact evaluations (one-sided at a bound at zero).
         """
         a, b = self.steps_of(x, j, _STEP)
         up, down = self.rates_at(x, {j: b}), self.rates_at(x, {j: a})

@@ -1,5 +1,6 @@
-"""The result of an optimisation: the best settings, the target there, which requirements
-bind, and how flat the optimum is.
+"""The result of an optimisation.
+
+The best settings, the target there, which requirements bind, and how flat the optimum is.
 """
 
 from __future__ import annotations
@@ -76,7 +77,9 @@ class Optimum:
         return {s.name: s.shown(v) for s, v in zip(self.settings, self.x, strict=True)}
 
     def to_dict(self) -> dict[str, Any]:
-        """JSON-ready: ``best`` (name -> ``value`` with ``unit``), ``objective``,
+        """The optimum as a JSON-ready dict.
+
+        Keys: ``best`` (name -> ``value`` with ``unit``), ``objective``,
         ``objective_unit``, ``active_requirements``, ``feasible``, ``requirements``,
         ``flat_within_1_percent`` (name -> ``low``, ``high``, ``unit``), ``bounds``,
         ``target``, ``evaluations`` and ``notes``; ``sensitivity`` when it was computed.

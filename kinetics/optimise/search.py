@@ -1,5 +1,6 @@
-r"""The global part of the search: a coarse grid over the settings and the starts of the
-local searches (:mod:`kinetics.optimise.local`).
+r"""The global part of the search: a coarse grid over the settings, and the local starts.
+
+The starts are those of the local searches (:mod:`kinetics.optimise.local`).
 
 1. *Global start.*  The target and the requirement margins on a grid over the bounds
    (about 81 points in all; one engine call per value of the settings other than the
@@ -85,6 +86,7 @@ def _best_time(model: Model, x: np.ndarray) -> Candidate:
     Kh, Kl = here.rate_matrix_pair()
     feed = here.feed_vector if here.feed else None
     end = model.goal.end
+    assert end is not None  # a best-time search has its latest time (checked by optimise)
     problem = Problem(
         Kh, here.initial_vector, feed, names=here.species_names, t_window=end, K_low=Kl
     )
@@ -94,12 +96,12 @@ def _best_time(model: Model, x: np.ndarray) -> Candidate:
         windows = list(requirements_on(survey, here.requirements).windows)
     turns = survey.turns[model.index]
     kind = 1 if model.goal.sign > 0 else -1
-    times = [0.0, end]
+    candidates = [0.0, end]
     for a, b in windows:
-        times += [a, min(b, end)]
+        candidates += [a, min(b, end)]
         inside = (turns.t > a) & (turns.t < min(b, end)) & (turns.type == kind)
-        times += [float(t) for t in turns.t[inside]]
-    times = np.unique(np.clip(times, 0.0, end))
+        candidates += [float(t) for t in turns.t[inside]]
+    times = np.unique(np.clip(candidates, 0.0, end))
     targets, margins, _ = model.values(x, times)  # every candidate time in one engine call
     levels = np.array([r.threshold for r in here.requirements])
     best = None
@@ -127,11 +129,12 @@ def grid_candidates(model: Model, per_axis: int | None = None) -> list[tuple[tup
     """Every point of the coarse grid, keyed by its grid index (step 1 of the module)."""
     lo, hi = model.lower, model.upper
     d = len(model.settings)
-    timed = model.time_at is not None and not model.goal.best_time
-    gridded = [j for j in range(d) if not (model.goal.best_time and j == model.time_at)]
+    time_at = model.time_at
+    timed = time_at is not None and not model.goal.best_time
+    gridded = [j for j in range(d) if not (model.goal.best_time and j == time_at)]
     count = per_axis or max(3, round(GRID_POINTS ** (1 / max(len(gridded), 1))))
     axes = {j: _axis(lo[j], hi[j], count) for j in gridded}
-    others = [j for j in gridded if j != model.time_at or not timed]
+    others = [j for j in gridded if j != time_at or not timed]
     out = []
     for index in itertools.product(range(count), repeat=len(others)):
         x = np.array([(lo[j] + hi[j]) / 2 for j in range(d)])
@@ -139,15 +142,15 @@ def grid_candidates(model: Model, per_axis: int | None = None) -> list[tuple[tup
             x[j] = axes[j][k]
         if model.goal.best_time:
             out.append((index, _best_time(model, x)))
-        elif timed:
-            times = axes[model.time_at]
+        elif time_at is not None:  # timed: the best_time case is the branch above
+            times = axes[time_at]
             targets, margins, here = model.values(x, times)
             for k, t in enumerate(times):
                 y = x.copy()
-                y[model.time_at] = t
+                y[time_at] = t
                 thr = np.array([r.threshold for r in here.requirements])
                 p = Point(y, t, float(targets[k]), margins[k], thr)
-                key = _insert(index, others, model.time_at, k)
+                key = _insert(index, others, time_at, k)
                 out.append((key, Candidate(y, p.objective, violation(model, p))))
         else:
             p = model.point(x)
@@ -163,8 +166,9 @@ def _insert(index: tuple, others: list[int], at: int, k: int) -> tuple:
 
 
 def choose_starts(model: Model, grid, count: int) -> list[Candidate]:
-    """The best grid points that no neighbour on the grid beats (one per hill), best
-    first, at most ``count`` (step 2).
+    """The best grid points that no neighbour on the grid beats (one per hill).
+
+    Best first, at most ``count`` (step 2).
     """
     table = dict(grid)
     ranked = sorted(

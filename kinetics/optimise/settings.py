@@ -1,7 +1,6 @@
-"""The settings an optimisation may change (``--over NAME=LO:HI:UNIT``) and what they do to
-the scheme.
+"""The settings an optimisation may change and what they do to the scheme.
 
-A *setting* is one input with its bounds:
+A *setting* is one input with its bounds (``--over NAME=LO:HI:UNIT``):
 
 ``time``
     The end time (the quench), with ``--at-end``.
