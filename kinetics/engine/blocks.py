@@ -598,7 +598,13 @@ def block_sizes(K) -> tuple[np.ndarray, np.ndarray, float]:
     if scipy.sparse.issparse(K):
         K = scipy.sparse.csr_array(K, copy=True)
         K.sum_duplicates()
-        key = b"s" + K.indptr.tobytes() + K.indices.tobytes()
+        index = np.int64  # one index type, so that equal patterns give equal keys
+        key = (
+            b"s"
+            + K.shape[0].to_bytes(4, "little")
+            + K.indptr.astype(index).tobytes()
+            + K.indices.astype(index).tobytes()
+        )
     else:
         K = np.asarray(K)
         key = b"d" + K.shape[0].to_bytes(4, "little") + np.packbits(K != 0).tobytes()
