@@ -125,3 +125,16 @@ def test_the_exact_pair_of_the_rates_is_used(low):
     assert done.all()
     k = 0.1 + low
     np.testing.assert_allclose(t[0], [math.log(10 / 9) / k, -math.log(0.9) / k], rtol=1e-13)
+
+
+def test_a_requirement_on_an_unknown_species_is_our_error():
+    from kinetics.errors import SpeciesError
+
+    K = np.array([[[-0.1, 0.0], [0.1, 0.0]]])
+    c0 = np.array([[1.0, 0.0]])
+    requirement = [Requirement("X <= 0.5 mol/L", "X", "<=", 0.5)]
+    with pytest.raises(SpeciesError) as err:
+        first_broken_batch(K, c0, requirement, ["A", "B"])
+    assert str(err.value) == (
+        "the requirement names X, which is not a species of the problem; species are A, B"
+    )

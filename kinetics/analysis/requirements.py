@@ -143,12 +143,17 @@ class RequirementTimes:
 
 
 def _species(problem: Problem, name: str) -> int:
+    return _species_index(problem.names, name, "problem")
+
+
+def _species_index(names: Sequence[str], name: str, where: str) -> int:
+    """The index of the species a requirement names, or our error naming ``where``."""
     try:
-        return problem.names.index(name)
+        return list(names).index(name)
     except ValueError:
         raise SpeciesError(
-            f"the requirement names {name}, which is not a species of the problem",
-            "species are " + ", ".join(problem.names),
+            f"the requirement names {name}, which is not a species of the {where}",
+            "species are " + ", ".join(names),
         ) from None
 
 
@@ -416,13 +421,7 @@ def requirements_on_run(
     names = list(species)
     plan = []
     for req in requirements:
-        try:
-            plan.append((req, names.index(req.species)))
-        except ValueError:
-            raise SpeciesError(
-                f"the requirement names {req.species}, which is not a species of the run",
-                "species are " + ", ".join(names),
-            ) from None
+        plan.append((req, _species_index(names, req.species, "run")))
     events: list[list[tuple[float, bool]]] = [[] for _ in plan]
     by_operation: list[set[float]] = [set() for _ in plan]
     for k in range(len(pieces.starts)):
@@ -580,7 +579,7 @@ def first_broken_batch(
            for m in range(b)]  # fmt: skip
     done = np.zeros((b, r), dtype=bool)
     if r and (feed is None or not np.any(feed)):
-        index = [names.index(req.species) for req in requirements]
+        index = [_species_index(names, req.species, "problem") for req in requirements]
         senses = [1.0 if req.comparison == ">=" else -1.0 for req in requirements]
         levels = np.array([[q.threshold for q in row] for row in own]).reshape(b, r)
         holds = np.array([[bool(q.holds(c0[m, i])) for q, i in zip(row, index, strict=True)]

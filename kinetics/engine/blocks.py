@@ -617,9 +617,11 @@ def block_sizes(K) -> tuple[np.ndarray, np.ndarray, float]:
         inside = labels[coo.row] == labels[coo.col]
         z = np.bincount(labels[coo.row[inside]], minlength=count).astype(float)
         big = b > 1
+        b, z = b[big], z[big]
+        b.flags.writeable = z.flags.writeable = False  # shared by every caller
         if len(_BLOCK_SIZES) >= PATTERN_CACHE:
             _BLOCK_SIZES.clear()
-        found = _BLOCK_SIZES[key] = (b[big], z[big], float(coo.nnz))
+        found = _BLOCK_SIZES[key] = (b, z, float(coo.nnz))
     return found
 
 
