@@ -144,8 +144,12 @@ def _bracket(K, K_low, c0, i: int, level: np.ndarray, scale: np.ndarray):
     return ta, tb, xa, ok
 
 
-def _newton(K, K_low, i: int, level, scale, ta, tb, xa) -> np.ndarray:
-    """The crossing in each bracket ``[ta, tb]`` of the scaled time [s]."""
+def _newton(K, K_low, i: int, level, scale, ta, tb, xa) -> tuple[np.ndarray, np.ndarray]:
+    """The crossing in each bracket ``[ta, tb]`` of the scaled time [s], and convergence.
+
+    A member that has not converged within :data:`MAX_NEWTON` steps is flagged, so that
+    the caller leaves it to the scan.
+    """
     lo, hi = np.zeros_like(ta), tb - ta
     delta = 0.5 * hi
     pending = np.arange(ta.size)
@@ -167,7 +171,9 @@ def _newton(K, K_low, i: int, level, scale, ta, tb, xa) -> np.ndarray:
         finished = (np.abs(new - d) <= XTOL * (ta[pending] + d)) | (g == 0)
         delta[pending] = new
         pending = pending[~finished]
-    return (ta + delta) * scale
+    converged = np.ones(ta.size, dtype=bool)
+    converged[pending] = False
+    return (ta + delta) * scale, converged
 
 
 def monotone_first_broken(K, c0, species, senses, levels, holds, K_low=None):
@@ -247,6 +253,6 @@ def monotone_first_broken(K, c0, species, senses, levels, holds, K_low=None):
         found = cross[ok]
         if found.size:
             ok_args = (K[found], K_low[found], i, level[found], scale[found])
-            out[found, k] = _newton(*ok_args, ta[ok], tb[ok], xa[ok])
-            done[found, k] = True
+            out[found, k], converged = _newton(*ok_args, ta[ok], tb[ok], xa[ok])
+            done[found[converged], k] = True
     return out, done
