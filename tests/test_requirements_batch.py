@@ -142,13 +142,27 @@ def test_a_requirement_on_an_unknown_species_is_our_error():
 
 def test_members_whose_newton_walk_does_not_converge_go_to_the_scan(monkeypatch):
     """With a budget of one Newton step nothing converges: every member is answered by
-    the scan, and the answers are the closed form of A -> B, t(A = x A0) = ln(1/x)/k."""
+    the scan, and the answers are the closed form of A -> B, t(B = y A0) = -ln(1 - y)/k
+    (B is formed, so the batch would bracket and refine it)."""
     from kinetics.analysis import requirements_batch
 
     monkeypatch.setattr(requirements_batch, "MAX_NEWTON", 1)
     k = np.array([0.01, 0.2])
     K = np.stack([np.array([[-x, 0.0], [x, 0.0]]) for x in k])
     c0 = np.array([[1.0, 0.0], [1.0, 0.0]])
-    requirement = [Requirement("A >= 0.9 mol/L", "A", ">=", 0.9)]
+    requirement = [Requirement("B <= 0.1 mol/L", "B", "<=", 0.1)]
+    calls = []
+    scan = requirements_batch.monotone_first_broken
+
+    def counted(*args, **kwargs):
+        out, done = scan(*args, **kwargs)
+        calls.append(done.copy())
+        return out, done
+
+    monkeypatch.setattr(
+        "kinetics.analysis.requirements_batch.monotone_first_broken", counted, raising=True
+    )
     got = first_broken_batch(K, c0, requirement, ["A", "B"])
-    np.testing.assert_allclose(got[:, 0], np.log(1 / 0.9) / k, rtol=1e-12)
+    assert calls
+    assert not calls[0].any()
+    np.testing.assert_allclose(got[:, 0], -np.log(1 - 0.1) / k, rtol=1e-12)
