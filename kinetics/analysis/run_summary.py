@@ -119,7 +119,7 @@ def summarise_run(
     scheme_wide = whole.to_dict()
     moved = _moved(solution, names)
     run = Run(solution) if run is None else run
-    searched = sum(not s.ramp for s in solution.stretches) <= MAX_STRETCHES
+    searched = run.searched()
     areas = run.areas()
     before = len(areas) - (1 if areas and last["time"] < end else 0)
     c0 = solution.scheme.initial_vector
@@ -222,8 +222,14 @@ class Run:
 
         See :data:`REQUIREMENTS_SCREENED_NOTE`.
         """
-        ramps = sum(s.ramp for s in self.stretches)
-        return ramps > 0 or len(self.stretches) - ramps > MAX_STRETCHES
+        return any(s.ramp for s in self.stretches) or not self.searched()
+
+    def searched(self) -> bool:
+        """Whether every stretch is searched in full (few enough stretches).
+
+        At most :data:`MAX_STRETCHES` stretches, the sub-steps of ramps not counted.
+        """
+        return sum(not s.ramp for s in self.stretches) <= MAX_STRETCHES
 
     def length(self, k: int) -> float:
         """[s] The length of stretch ``k`` (the last one: to the end of the window)."""
@@ -336,7 +342,7 @@ def _pieces(solution: Solution, run: Run) -> RunPieces:
         after.append(last["c"])
         ends.append(last["c"])
     before = ([c0] + [s.end_values for s in stretches])[: len(starts)]
-    few = sum(not s.ramp for s in stretches) <= MAX_STRETCHES
+    few = run.searched()
     surveyed: dict[int, Survey | None] = {}
 
     def survey(k: int) -> Survey | None:
