@@ -11,7 +11,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from kinetics._version import __version__
-from kinetics.units import time_factor
+from kinetics.time_text import shown_time
 
 if TYPE_CHECKING:
     from kinetics.optimise import Optimum
@@ -49,8 +49,7 @@ def _target_words(optimum: Optimum) -> str:
     if any(s.kind == "time" for s in optimum.settings):
         return f"{g.sense} {what} at the end time"
     assert g.end is not None  # without a time setting the target is read at --until
-    end = g.end / time_factor(g.time_unit)
-    return f"{g.sense} {what} at the end time ({end:.6g} {g.time_unit})"
+    return f"{g.sense} {what} at the end time ({shown_time(g.end, g.time_unit)})"
 
 
 def optimum_lines(optimum: Optimum) -> list[tuple[str, str]]:
