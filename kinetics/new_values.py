@@ -23,9 +23,9 @@ from .errors import (
     ConcentrationError,
     ConstantError,
     SpeciesError,
-    TemperatureError,
     shown_value,
 )
+from .units import checked_kelvin
 
 if TYPE_CHECKING:
     from .definitions import Dependencies, NamedQuantity
@@ -33,6 +33,8 @@ if TYPE_CHECKING:
     from .scheme import Scheme
 
 __all__ = [
+    "checked_constant",
+    "checked_excess",
     "constant_slopes",
     "driven_by",
     "exact_constants",
@@ -221,10 +223,8 @@ def with_values(
     new_constants, new_quantities, graph = _followed(scheme, constants or {}, quantities)
     new_initial = _new_initial(scheme, initial)
     new_excess, new_excess_si = _new_excess(scheme, excess)
-    if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
-        raise TemperatureError(
-            f"temperature {shown_value(temperature)} K must be finite and above 0 K"
-        )
+    if temperature is not None:
+        checked_kelvin(temperature)
     timeline = scheme.timeline
     if quantities and timeline.names:
         known = {n: q.value_si for n, q in new_quantities.items() if q.value_si is not None}
@@ -251,12 +251,7 @@ def _followed(
     fixed: dict[str, Fraction] = {}
     texts: dict[str, str] = {}
     for name, value in constants.items():
-        if name not in scheme.constants:
-            raise ConstantError(
-                f"no rate constant named {name!r} in the scheme",
-                "known constants: " + ", ".join(scheme.constants),
-            )
-        fixed[name] = _checked_fraction(value, f"rate constant {name}", ConstantError)
+        fixed[name] = checked_constant(scheme, name, value)
         texts[name] = f"{shown_value(value)} (SI)"
     for name, given in quantities.items():
         fixed[name] = _named_value(scheme, name, given)
@@ -289,17 +284,66 @@ def _new_excess(
     new_excess = dict(scheme.excess)
     new_excess_si = scheme.excess_si
     for name, value in excess.items():
-        if name not in new_excess:
-            raise SpeciesError(
-                f"no excess species named {name!r} in the scheme",
-                "excess species: " + (", ".join(new_excess) or "none"),
-            )
-        new_excess_si[name] = (
-            _checked_fraction(value, f"excess concentration of {name}", ConcentrationError)
-            * scheme.concentration_si
-        )
+        new_excess_si[name] = checked_excess(scheme, name, value)
         new_excess[name] = float(value)
     return new_excess, new_excess_si
+
+
+def checked_constant(scheme: Scheme, name: str, value) -> Fraction:
+    r"""A new value of the scheme's rate constant ``name`` [its SI unit], checked, exact.
+
+    The one check of a constant given for a scheme (new values, the rate matrix with
+    other constants): a known name, a finite number >= 0.
+
+    Raises
+    ------
+    kinetics.errors.ConstantError
+
+    Examples
+    --------
+    >>> from kinetics import parse
+    >>> s = parse("A -> B  k1 = 1 1/s\nstart A = 1 M")
+    >>> checked_constant(s, "k1", 0.25)
+    Fraction(1, 4)
+    >>> checked_constant(s, "k1", -1.0)
+    Traceback (most recent call last):
+    ...
+    kinetics.errors.ConstantError: rate constant k1 = -1.0 must be finite and >= 0
+    """
+    if name not in scheme.constants:
+        raise ConstantError(
+            f"no rate constant named {name!r} in the scheme",
+            "known constants: " + ", ".join(scheme.constants),
+        )
+    return _checked_fraction(value, f"rate constant {name}", ConstantError)
+
+
+def checked_excess(scheme: Scheme, name: str, value) -> Fraction:
+    r"""A new concentration of the excess species ``name``, checked, exact in SI.
+
+    ``value`` is in the scheme's concentration unit; the result is in mol/m^3.
+
+    Raises
+    ------
+    kinetics.errors.SpeciesError
+        Not an excess species of the scheme.
+    kinetics.errors.ConcentrationError
+        Not a finite number >= 0.
+
+    Examples
+    --------
+    >>> from kinetics import parse
+    >>> s = parse("A + W -> B  k = 2 1/(M*s)\nexcess W = 55 M\nstart A = 1 M")
+    >>> checked_excess(s, "W", 10.0)  # 10 mol/L = 10,000 mol/m^3
+    Fraction(10000, 1)
+    """
+    if name not in scheme.excess:
+        raise SpeciesError(
+            f"no excess species named {name!r} in the scheme",
+            "excess species: " + (", ".join(scheme.excess) or "none"),
+        )
+    checked = _checked_fraction(value, f"excess concentration of {name}", ConcentrationError)
+    return checked * scheme.concentration_si
 
 
 def _named_value(scheme: Scheme, name: str, value) -> Fraction:

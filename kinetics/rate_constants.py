@@ -16,8 +16,7 @@ from functools import lru_cache
 import numpy as np
 
 from .definitions import Dependencies, needs_temperature
-from .errors import TemperatureError, shown_value
-from .units import GAS_CONSTANT_EXACT
+from .units import GAS_CONSTANT_EXACT, checked_kelvin
 
 __all__ = ["ARRHENIUS_CACHE", "Arrhenius", "RateConstant", "arrhenius_pairs"]
 
@@ -96,8 +95,7 @@ class Arrhenius:
         """
         from . import _doubledouble as dd
 
-        if not temperature > 0:
-            raise TemperatureError(f"temperature {shown_value(temperature)} K must be above 0 K")
+        checked_kelvin(temperature)
         exponent = -Fraction(self.activation_energy) / (GAS_CONSTANT_EXACT * Fraction(temperature))
         return self.prefactor_si * dd.decimal_exp(exponent)
 

@@ -34,13 +34,8 @@ import numpy as np
 import scipy.sparse
 
 from . import _doubledouble as dd
-from .errors import (
-    ConcentrationError,
-    ConstantError,
-    SpeciesError,
-    TemperatureError,
-    shown_value,
-)
+from .new_values import checked_constant, checked_excess
+from .units import checked_kelvin
 
 if TYPE_CHECKING:
     from .scheme import Scheme
@@ -420,31 +415,13 @@ def _to_float(value) -> float:
 
 
 def _check_overrides(scheme: Scheme, constants, temperature, excess) -> None:
+    """Other constants, temperature and excess concentrations, checked as new values are."""
     for name, value in constants.items():
-        if name not in scheme.constants:
-            raise ConstantError(
-                f"no rate constant named {name!r} in the scheme",
-                "known constants: " + ", ".join(scheme.constants),
-            )
-        if not (math.isfinite(value) and value >= 0):
-            raise ConstantError(
-                f"rate constant {name} = {shown_value(value)} must be finite and >= 0"
-            )
-    known = scheme.excess_si
+        checked_constant(scheme, name, value)
     for name, value in excess.items():
-        if name not in known:
-            raise SpeciesError(
-                f"no excess species named {name!r} in the scheme",
-                "excess species: " + (", ".join(known) or "none"),
-            )
-        if not (math.isfinite(value) and value >= 0):
-            raise ConcentrationError(
-                f"excess concentration {name} = {shown_value(value)} must be finite and >= 0"
-            )
-    if temperature is not None and not (math.isfinite(temperature) and temperature > 0):
-        raise TemperatureError(
-            f"temperature {shown_value(temperature)} K must be finite and above 0 K"
-        )
+        checked_excess(scheme, name, value)
+    if temperature is not None:
+        checked_kelvin(temperature)
 
 
 def dense_rate_matrix(scheme: Scheme, rates: np.ndarray | None = None) -> np.ndarray:

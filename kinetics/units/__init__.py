@@ -54,7 +54,7 @@ from .reading import (
     pint_text,
 )
 from .reading import registry as registry
-from .temperatures import temperature_to_kelvin
+from .temperatures import checked_kelvin, temperature_to_kelvin
 
 __all__ = [
     "AVOGADRO_EXACT",
@@ -68,6 +68,7 @@ __all__ = [
     "PLANCK_EXACT",
     "TIME_UNITS",
     "UnitSpec",
+    "checked_kelvin",
     "concentration_order",
     "convert",
     "describe_dimension",

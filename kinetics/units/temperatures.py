@@ -2,12 +2,47 @@
 
 from __future__ import annotations
 
+import math
 from fractions import Fraction
 
+from ..errors import TemperatureError, shown_value
 from .notation import normalise_unit
 from .reading import OFFSET_TEMPERATURES, parse_unit, registry
 
-__all__ = ["temperature_to_kelvin"]
+__all__ = ["checked_kelvin", "temperature_to_kelvin"]
+
+
+def checked_kelvin(temperature) -> float:
+    """A thermodynamic temperature [K] given as a number, checked: finite and above 0 K.
+
+    The one check of a temperature that reaches the core in kelvin (new conditions of a
+    scheme, the rate matrix at another temperature, an Arrhenius constant).
+
+    Raises
+    ------
+    kinetics.errors.TemperatureError
+
+    Examples
+    --------
+    Absolute zero is 0 K by the definition of the kelvin (SI brochure, 9th edition, 2019,
+    section 2.3.1), so no temperature at or below it is accepted:
+
+    >>> checked_kelvin(298.15)
+    298.15
+    >>> checked_kelvin(0)
+    Traceback (most recent call last):
+    ...
+    kinetics.errors.TemperatureError: temperature 0 K must be finite and above 0 K
+    """
+    try:
+        kelvin = float(temperature)
+    except (TypeError, ValueError):
+        kelvin = math.nan
+    if not (math.isfinite(kelvin) and kelvin > 0):
+        raise TemperatureError(
+            f"temperature {shown_value(temperature)} K must be finite and above 0 K"
+        )
+    return kelvin
 
 
 def temperature_to_kelvin(value: float | Fraction, unit: str) -> float:
