@@ -15,6 +15,7 @@ import scipy.sparse
 from scipy.integrate import solve_ivp
 
 from kinetics import KineticsError, parse
+from kinetics.errors import ConcentrationError, ConstantError, SpeciesError, TemperatureError
 from kinetics.ratematrix import rate_pattern, step_rates
 
 CHAIN = """\
@@ -185,3 +186,41 @@ def test_species_by_name(chain):
     assert chain.species_by_name("W").excess
     with pytest.raises(KineticsError, match="no species named 'Q'"):
         chain.species_by_name("Q")
+
+
+@pytest.mark.parametrize(
+    ("overrides", "error", "message"),
+    [
+        (
+            {"constants": {"k9": 1.0}},
+            ConstantError,
+            "no rate constant named 'k9' in the scheme; known constants: kw",
+        ),
+        (
+            {"constants": {"kw": -2.0}},
+            ConstantError,
+            "rate constant kw = -2.0 must be finite and >= 0",
+        ),
+        (
+            {"excess": {"X": 1.0}},
+            SpeciesError,
+            "no excess species named 'X' in the scheme; excess species: W",
+        ),
+        (
+            {"excess": {"W": float("nan")}},
+            ConcentrationError,
+            "excess concentration of W = nan must be finite and >= 0",
+        ),
+        (
+            {"temperature": -5.0},
+            TemperatureError,
+            "temperature -5.0 K must be finite and above 0 K",
+        ),
+    ],
+)
+def test_other_values_are_checked_as_new_values_are(overrides, error, message):
+    """The rate matrix at other values words each mistake as Scheme.with_values does."""
+    scheme = parse("A + W -> B  kw = 2 1/(M*s)\nexcess W = 55 M\nstart A = 1 M")
+    with pytest.raises(error) as err:
+        step_rates(scheme, **overrides)
+    assert str(err.value) == message
