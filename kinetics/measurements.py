@@ -521,8 +521,11 @@ def _did_you_mean(name: str, candidates) -> str:
     return listing
 
 
-def parse_condition(text: str, scheme: Scheme) -> tuple[str, float]:
+def parse_condition(text: str, scheme: Scheme, api: bool = False) -> tuple[str, float]:
     r"""Parse one run condition ``KEY=VALUE`` (the ``--set`` option of ``kinetics fit``).
+
+    With ``api`` the messages name the ``conditions`` argument of :func:`kinetics.fit`
+    instead of the command line's ``--set``.
 
     Keys:
 
@@ -559,32 +562,40 @@ def parse_condition(text: str, scheme: Scheme) -> tuple[str, float]:
     """
     key, sep, value = text.partition("=")
     key = key.strip()
+    example = _condition_example(api)
+    where = f"conditions entry {text!r}" if api else f"--set {text!r}"
     if not sep or not key or not value.strip():
         raise ConditionError(
-            f"--set {text!r} is not KEY=VALUE", "write e.g. --set temperature=40degC"
+            f"{where} is not KEY=VALUE", f"write e.g. {example('temperature', '40degC')}"
         )
     match = _NUMBER_UNIT.match(value)
     if not match:
         raise ConditionError(
-            f"--set {text!r}: {value.strip()!r} is not a number with a unit",
-            "write e.g. --set temperature=40degC",
+            f"{where}: {value.strip()!r} is not a number with a unit",
+            f"write e.g. {example('temperature', '40degC')}",
         )
     number = float(match["number"])
     unit = match["unit"].strip()
     if unit.startswith("/"):  # 0.01/min
         unit = "1" + unit
-    where = f"--set {text!r}"
     if key == "temperature":
         return key, _temperature_condition(number, unit, where)
     if key.startswith("start:"):
         species = key[len("start:") :].strip()
         return f"start:{species}", _start_condition(number, unit, species, scheme, where)
     if key in scheme.constants:
-        return key, _constant_condition(number, unit, key, scheme, where)
+        return key, _constant_condition(number, unit, key, scheme, where, example)
     raise ConditionError(
-        f"--set {text!r}: unknown key {key!r}",
+        f"{where}: unknown key {key!r}",
         "use temperature=..., start:SPECIES=... or the name of a rate constant",
     )
+
+
+def _condition_example(api: bool):
+    """How a condition is written: ``conditions={'k1': '0.1 1/s'}`` or ``--set k1=0.1 1/s``."""
+    if api:
+        return lambda key, value: f"conditions={{{key!r}: {value!r}}}"
+    return lambda key, value: f"--set {key}={value}"
 
 
 def _temperature_condition(number: float, unit: str, where: str) -> float:
@@ -619,7 +630,9 @@ def _start_condition(number: float, unit: str, species: str, scheme: Scheme, whe
     return converted
 
 
-def _constant_condition(number: float, unit: str, key: str, scheme: Scheme, where: str) -> float:
+def _constant_condition(
+    number: float, unit: str, key: str, scheme: Scheme, where: str, example
+) -> float:
     """A rate constant held in a run [SI base units], from a number with its unit."""
     si_unit = scheme.constants[key].unit
     try:
@@ -630,7 +643,7 @@ def _constant_condition(number: float, unit: str, key: str, scheme: Scheme, wher
     if not unit or spec.dimensions != goal.dimensions:
         raise ConditionError(
             f"{where}: {key} needs a unit like {si_unit}",
-            f"write e.g. --set {key}=0.1 {si_unit}",
+            f"write e.g. {example(key, f'0.1 {si_unit}')}",
         )
     si = float(number * spec.factor)
     if not si > 0:

@@ -516,3 +516,31 @@ def test_cli_fit_of_a_named_quantity(tmp_path, generator_data, capsys):
     assert "constants that follow the fitted values (delta method):" in printed
     assert "lam_d = " in printed
     assert json.loads(out.read_text(encoding="utf-8"))["estimates"]["t_p"]["unit"] == "h"
+
+
+@pytest.mark.parametrize(
+    ("conditions", "message"),
+    [
+        (
+            {"temperature": "hot"},
+            "conditions entry 'temperature=hot': 'hot' is not a number with a unit; write e.g. "
+            "conditions={'temperature': '40degC'}",
+        ),
+        (
+            {"k1": "0.1 g"},
+            "conditions entry 'k1=0.1 g': k1 needs a unit like 1/min; write e.g. "
+            "conditions={'k1': '0.1 1/min'}",
+        ),
+        (
+            {"temperature": None},
+            "conditions entry 'temperature': None is not a number or a text with a unit; "
+            "write e.g. conditions={'temperature': '40degC'}",
+        ),
+    ],
+)
+def test_conditions_of_the_api_are_worded_for_the_api(abc, noisy, conditions, message):
+    from kinetics.errors import ConditionError
+
+    with pytest.raises(ConditionError) as err:
+        fit(abc, [(noisy[["time [min]", "B [mol/L]"]], conditions)], "k1,k2", profile=False)
+    assert str(err.value) == message

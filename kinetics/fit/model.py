@@ -10,6 +10,7 @@ entrywise one, ``engine="entrywise"``).  Arrhenius constants come from the one l
 from __future__ import annotations
 
 import math
+import numbers
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from fractions import Fraction
@@ -29,6 +30,7 @@ from ..errors import (
     ExpressionError,
     ParameterSpecError,
     SettingError,
+    shown_value,
 )
 from ..measurements import (
     Measurements,
@@ -519,11 +521,15 @@ def _parse_conditions(conditions: Mapping, scheme) -> dict:
     out = {}
     for key, value in conditions.items():
         if isinstance(value, str):
-            k, v = parse_condition(f"{key}={value}", scheme)
+            k, v = parse_condition(f"{key}={value}", scheme, api=True)
+        elif isinstance(value, numbers.Real) and not isinstance(value, bool):
+            k, v = parse_condition(f"{key}=1", scheme, api=True)[0], float(value)
         else:
-            k, v = parse_condition(f"{key}=1", scheme)[0], float(value)
-            if key == "temperature":
-                k = "temperature"
+            raise ConditionError(
+                f"conditions entry {key!r}: {shown_value(value)} is not a number or a text "
+                "with a unit",
+                "write e.g. conditions={'temperature': '40degC'}",
+            )
         out[k] = v
     return out
 
