@@ -11,6 +11,7 @@ import math
 from fractions import Fraction
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 import kinetics
@@ -145,3 +146,22 @@ def test_the_best_time_of_a_daughter_activity_follows_its_half_life():
         t_d = mpmath.mpf(6 * 3600)
         want = float(mpmath.diff(t_star, t_d) * t_d / t_star(t_d))
     assert best.sensitivity["best"]["time"]["t_d"] == pytest.approx(want, rel=1e-9)
+
+
+def test_a_point_that_is_not_stationary_for_its_active_set_gets_no_sensitivities():
+    """Moved off the optimum (1 % in both settings) while the impurity limit is still
+    listed as active, the multiplier cannot cancel the gradient: no derivative is given
+    (None), rather than the derivative of an optimum that is not there."""
+    import dataclasses
+
+    from kinetics.optimise.sensitivity import optimum_sensitivities
+
+    scheme = kinetics.parse(
+        CHAIN + "A -> I  k3 = arrhenius(A = 1e14 1/s, Ea = 125 kJ/mol)\nrequire I <= 0.02 % of A\n"
+    )
+    best = optimise(scheme, "B", ["temperature=20:100:degC", "time=0:3:h"])
+    assert best.active_requirements == ["I <= 0.02 % of A"]
+    assert all(v is not None for v in optimum_sensitivities(best, scheme)["objective"].values())
+    moved = dataclasses.replace(best, x=np.asarray(best.x) * np.array([1.01, 0.99]))
+    found = optimum_sensitivities(moved, scheme)
+    assert all(v is None for v in found["objective"].values())

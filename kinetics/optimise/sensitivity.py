@@ -55,6 +55,10 @@ __all__ = ["optimum_sensitivities", "parameter_settings"]
 
 #: A setting within this share of its range from a bound counts as held there.
 _AT_BOUND = 1e-9
+#: The multipliers of the active requirements must cancel the gradient of the free
+#: settings to this share of its size (a KKT point); otherwise the optimum found is not
+#: stationary for its active set and its sensitivities are not given (None).
+STATIONARITY = 1e-6
 
 
 def parameter_settings(scheme: Scheme, settings) -> list[Setting]:
@@ -120,6 +124,9 @@ def _derivatives(optimum: Optimum, scheme: Scheme, extra: Setting):
     mu = np.zeros(len(active))
     if active:
         mu = np.linalg.lstsq(J[:, free].T, -s * g[free], rcond=None)[0]
+        residual = np.linalg.norm(s * g[free] + J[:, free].T @ mu)
+        if residual > STATIONARITY * np.linalg.norm(g[free]):
+            return None  # not a stationary point of the active set: no derivative to take
     W = s * H
     for a, k in enumerate(active):
         W = W + mu[a] * curv[k]
