@@ -19,7 +19,6 @@ import os
 import re
 import shlex
 import shutil
-import sys
 import tempfile
 import zipfile
 from pathlib import Path
@@ -106,7 +105,11 @@ def run(command: str, out: Path) -> None:
 
 
 def main() -> None:
-    target = Path(sys.argv[1])
+    import argparse
+
+    parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
+    parser.add_argument("outdir", type=Path, help="folder for the outputs (created)")
+    target = parser.parse_args().outdir
     for k, command in enumerate(commands()):
         run(command, target / f"{k:02d}")
         print(command)
