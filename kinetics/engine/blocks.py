@@ -118,7 +118,7 @@ from kinetics.engine.block_exp import (
     power,
     taylor_plan,
 )
-from kinetics.engine.plan import PATTERN_CACHE
+from kinetics.engine.plan import remembered
 
 __all__ = [
     "RATES",
@@ -593,8 +593,6 @@ def block_sizes(K) -> tuple[np.ndarray, np.ndarray, float]:
     >>> b.tolist(), z.tolist(), nnz
     ([2.0], [4.0], 5.0)
     """
-    from scipy.sparse.csgraph import connected_components
-
     if scipy.sparse.issparse(K):
         K = scipy.sparse.csr_array(K, copy=True)
         K.sum_duplicates()
@@ -608,21 +606,22 @@ def block_sizes(K) -> tuple[np.ndarray, np.ndarray, float]:
     else:
         K = np.asarray(K)
         key = b"d" + K.shape[0].to_bytes(4, "little") + np.packbits(K != 0).tobytes()
-    found = _BLOCK_SIZES.get(key)
-    if found is None:
-        K = scipy.sparse.csr_array(K)
-        count, labels = connected_components(K, directed=True, connection="strong")
-        b = np.bincount(labels, minlength=count).astype(float)
-        coo = K.tocoo()
-        inside = labels[coo.row] == labels[coo.col]
-        z = np.bincount(labels[coo.row[inside]], minlength=count).astype(float)
-        big = b > 1
-        b, z = b[big], z[big]
-        b.flags.writeable = z.flags.writeable = False  # shared by every caller
-        if len(_BLOCK_SIZES) >= PATTERN_CACHE:
-            _BLOCK_SIZES.clear()
-        found = _BLOCK_SIZES[key] = (b, z, float(coo.nnz))
-    return found
+    return remembered(_BLOCK_SIZES, key, lambda: _block_sizes(K))
+
+
+def _block_sizes(K) -> tuple[np.ndarray, np.ndarray, float]:
+    from scipy.sparse.csgraph import connected_components
+
+    K = scipy.sparse.csr_array(K)
+    count, labels = connected_components(K, directed=True, connection="strong")
+    b = np.bincount(labels, minlength=count).astype(float)
+    coo = K.tocoo()
+    inside = labels[coo.row] == labels[coo.col]
+    z = np.bincount(labels[coo.row[inside]], minlength=count).astype(float)
+    big = b > 1
+    b, z = b[big], z[big]
+    b.flags.writeable = z.flags.writeable = False  # shared by every caller
+    return b, z, float(coo.nnz)
 
 
 _BLOCK_SIZES: dict[bytes, tuple[np.ndarray, np.ndarray, float]] = {}

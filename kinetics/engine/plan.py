@@ -39,6 +39,7 @@ __all__ = [
     "pattern_stats",
     "predicted_double",
     "product_error",
+    "remembered",
     "rounding_bound",
 ]
 
@@ -230,24 +231,45 @@ def pattern_stats(A) -> tuple[int | None, float]:
     links = (A != 0).any(axis=0)
     np.fill_diagonal(links, False)
     key = N.to_bytes(4, "little") + np.packbits(links).tobytes()
-    found = _PATTERN_STATS.get(key)
-    if found is None:
-        from scipy.sparse.csgraph import shortest_path
-
-        distances = shortest_path(scipy.sparse.csr_array(links), unweighted=True)
-        reach = int(distances[np.isfinite(distances)].max(initial=0))
-        density = math.ceil(16 * (links.sum() + N) / N**2) / 16  # rounded up: few plans
-        if len(_PATTERN_STATS) >= PATTERN_CACHE:
-            _PATTERN_STATS.clear()
-        found = _PATTERN_STATS[key] = (reach, density)
-    return found
+    return remembered(_PATTERN_STATS, key, lambda: _reach_and_density(links))
 
 
-#: patterns remembered by :func:`pattern_stats` (all-pairs shortest paths cost about
-#: 1 ms at 100 species, more than the double route's whole solve; a scheme solved again,
-#: as in a sweep or a fit, keeps its pattern)
+def _reach_and_density(links: np.ndarray) -> tuple[int, float]:
+    from scipy.sparse.csgraph import shortest_path
+
+    N = links.shape[0]
+    distances = shortest_path(scipy.sparse.csr_array(links), unweighted=True)
+    reach = int(distances[np.isfinite(distances)].max(initial=0))
+    density = math.ceil(16 * (links.sum() + N) / N**2) / 16  # rounded up: few plans
+    return reach, density
+
+
+#: patterns remembered by each of :func:`pattern_stats` and
+#: :func:`kinetics.engine.blocks.block_sizes` (all-pairs shortest paths cost about 1 ms
+#: at 100 species, more than the double route's whole solve; a scheme solved again, as in
+#: a sweep or a fit, keeps its pattern)
 PATTERN_CACHE = 256
 _PATTERN_STATS: dict[bytes, tuple[int, float]] = {}
+
+
+def remembered(store: dict, key: bytes, compute):
+    """``store[key]``, computed by ``compute()`` the first time.
+
+    The one policy of the engine's pattern caches: a value depends on its key only, and a
+    store that holds :data:`PATTERN_CACHE` entries starts afresh.
+
+    Examples
+    --------
+    >>> store = {}
+    >>> remembered(store, b"p", lambda: 3), remembered(store, b"p", lambda: 4)
+    (3, 3)
+    """
+    found = store.get(key)
+    if found is None:
+        if len(store) >= PATTERN_CACHE:
+            store.clear()
+        found = store[key] = compute()
+    return found
 
 
 def grid_growth(eps: float, gamma: float, columns: int) -> float:
