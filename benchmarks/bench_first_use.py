@@ -37,6 +37,9 @@ COMMANDS = {
         "sweep", EXAMPLE, "--until", "3h", "--samples", "500", "--spread", "k1=15%",
         "--seed", "1", "--no-caution", "--out", "{out}/bands.csv",
     ],
+    # a run with operations (daily elutions): the timeline's chain and action kernels
+    "timeline": ["solve", str(ROOT / "networks" / "generator_daily_elution.scheme"),
+                 "--until", "10d", "--no-caution"],
 }  # fmt: skip
 
 #: Runs the command line in-process and times each first compilation of a kernel.

@@ -222,8 +222,9 @@ class Chain:
         at = actions.at
         for j, (a, b, key) in enumerate(self.pieces):
             e = operate(
-                x, n, e, at[j], at[j + 1], *actions.arrays, actions.moved, actions.moved_bound
-            )
+                x.reshape(-1, 1), n, e, at[j], at[j + 1], *actions.arrays, actions.moved,
+                actions.moved_bound,
+            )  # fmt: skip
             start[j, :n], start[j, n] = x, e
             h, low = dd.two_sum(b, -a)
             x, eps = self.conditions.propagator(key).step(x, float(h), float(low))
@@ -231,7 +232,10 @@ class Chain:
             e = compose(e, eps)
             end[j, :n], end[j, n] = x, e
         P = len(self.pieces)
-        e = operate(x, n, e, at[P], at[P + 1], *actions.arrays, actions.moved, actions.moved_bound)
+        e = operate(
+            x.reshape(-1, 1), n, e, at[P], at[P + 1], *actions.arrays, actions.moved,
+            actions.moved_bound,
+        )  # fmt: skip
         final[:n], final[n] = x, e
 
     def _record(self, actions: _Actions, final) -> None:

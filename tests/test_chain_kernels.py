@@ -18,7 +18,7 @@ def run(rows, x, e=0.0, records=1):
     record = np.cumsum(is_record) - 1
     moved, bound = np.zeros(records), np.zeros(records)
     e = operate(
-        x, 2, e, 0, len(rows), kind.astype(np.int64), species.astype(np.int64),
+        x.reshape(-1, 1), 2, e, 0, len(rows), kind.astype(np.int64), species.astype(np.int64),
         first.astype(float), second.astype(float), flag.astype(bool), record.astype(np.int64),
         moved, bound,
     )  # fmt: skip

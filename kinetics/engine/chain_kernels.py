@@ -40,7 +40,9 @@ SCALE, ADD, REMOVE, ROUND = 0, 1, 2, 3
 
 @njit(**_JIT)
 def operate(x, n, e, begin, stop, kind, species, first, second, flag, record, moved, bound):
-    """Apply the actions ``begin .. stop - 1`` to ``x`` in place; return the new bound.
+    """Apply the actions ``begin .. stop - 1`` to ``x`` (a column, shape (N, 1)) in place.
+
+    Returns the new bound.
 
     ``moved[record[k]]`` and ``bound[record[k]]`` receive the signed amount and the
     bound of each removal.
@@ -50,14 +52,14 @@ def operate(x, n, e, begin, stop, kind, species, first, second, flag, record, mo
         if c == SCALE:
             f = first[k]
             for i in range(n):
-                x[i] = f * x[i]
+                x[i, 0] = f * x[i, 0]
         elif c == ADD:
             s = species[k]
-            x[s] = x[s] + first[k]
+            x[s, 0] = x[s, 0] + first[k]
         elif c == REMOVE:
             s = species[k]
-            taken = first[k] * x[s]
-            x[s] = second[k] * x[s]
+            taken = first[k] * x[s, 0]
+            x[s, 0] = second[k] * x[s, 0]
             moved[record[k]] = -taken
             bound[record[k]] = e if flag[k] else e + _U + e * _U
         else:
@@ -98,12 +100,13 @@ def chain(
     X = np.empty((1, 1, N))
     held = np.empty((1, 1))
     delta = np.empty(1)
-    x[:n, 0] = x0
+    for i in range(n):  # explicit loops: a slice assignment costs seconds of compilation
+        x[i, 0] = x0[i]
     x[N - 1, 0] = 1.0  # the feed's constant entry (a padded, unfed exponential keeps it)
     e = 0.0
     for j in range(P + 1):
         e = operate(
-            x[:, 0],
+            x,
             n,
             e,
             at[j],
@@ -119,7 +122,8 @@ def chain(
         )
         if j == P:
             break
-        start[j, :n] = x[:n, 0]
+        for i in range(n):
+            start[j, i] = x[i, 0]
         start[j, n] = e
         f = which[j]
         product(Fh[f], Fl[f], x, zero, oh, ol, is_dd[f])
@@ -138,8 +142,10 @@ def chain(
         e = e + step + e * step
         for i in range(N):
             x[i, 0] = X[0, 0, i]
-        end[j, :n] = x[:n, 0]
+        for i in range(n):
+            end[j, i] = x[i, 0]
         end[j, n] = e
-    final[:n] = x[:n, 0]
+    for i in range(n):
+        final[i] = x[i, 0]
     final[n] = e
     return -1
