@@ -10,8 +10,10 @@ Every kernel takes a flag ``dd`` per call or per member:
 
 * ``dd`` true: double-double arithmetic (value ``hi + lo``, about 106 bits).
   Each term :math:`a_{il} b_{lj}` of a product is split exactly by TwoProduct
-  (the rounding error of ``a * b`` as one fused multiply-add, :func:`fma`) and
-  summed with Knuth's TwoSum, the low parts in plain double, as in Ogita, Rump &
+  (the rounding error of ``a * b`` as one fused multiply-add, :func:`fma`), the
+  cross terms :math:`a b_{lo} + a_{lo} b` added to that error by two more fused
+  multiply-adds (one rounding each, of a term :math:`2^{-52}` below the product),
+  and summed with Knuth's TwoSum, the low parts in plain double, as in Ogita, Rump &
   Oishi's ``Dot2``.  For nonnegative operands nothing cancels, so every entry of the
   product carries a relative error of about :math:`k^2 2^{-106}` for inner
   dimension ``k`` (Ogita, Rump & Oishi 2005, Prop. 5.5 with nonnegative data).
@@ -279,8 +281,7 @@ def product(Ah, Al, Bh, Bl, Ch, Cl, dd):
                 b = Bh[r, j]
                 p = a * b
                 # TwoProduct error of a*b, then the cross terms of the dd product
-                e = fma(a, b, -p)
-                e += a * Bl[r, j] + al * b
+                e = fma(a, Bl[r, j], fma(al, b, fma(a, b, -p)))
                 # TwoSum of the running sum and p; errors gathered in plain double
                 s0 = sh[j]
                 s = s0 + p
@@ -502,8 +503,7 @@ def grid(
                     for j in range(N):
                         bb = Th[r, j]
                         p = a * bb
-                        e = fma(a, bb, -p)
-                        e += a * Tl[r, j] + al * bb
+                        e = fma(a, Tl[r, j], fma(al, bb, fma(a, bb, -p)))
                         s0 = sh[j]
                         s = s0 + p
                         z = s - s0
