@@ -313,7 +313,9 @@ def exponentials(
        Paterson-Stockmeyer (powers ``Y^0 .. Y^s``, then Horner in ``Y^s``), times the
        factor, squared ``j`` times, written to ``Fh``, ``Fl``;
     3. ``ratio[q]``, the largest ``(coef Y^power F)_ab / F_ab`` over the entries
-       ``F_ab > tiny`` (plain double), for the a posteriori truncation bound.
+       ``F_ab > tiny`` (plain double), for the a posteriori truncation bound; ``Y^power``
+       is a power of ``Y^s`` when ``power`` is a multiple of ``s`` (``power = m + 1``
+       always is: a few products instead of about :math:`\log_2 m`).
 
     ``P`` (2, s + 1, n, n) and ``M`` (6, n, n) are scratch space (see :func:`scratch`;
     fresh memory per member made the double route twice as slow).
@@ -410,14 +412,19 @@ def exponentials(
             Tl, Wl = Wl, Tl
         copy(Th, Fh[q])
         copy(Tl, Fl[q])
-        # 3. G = Y^power by binary powering, then G F (nonnegative, plain double)
+        # 3. G = Y^power by binary powering, from the power Y^s at hand when power is a
+        # multiple of s (as m + 1 = s (r + 1) is), then G F (nonnegative, plain double)
         F = Fh[q]
         fill(zero, 0.0)
         fill(G, 0.0)
         for i in range(n):
             G[i, i] = 1.0
-        copy(Y[q], W)
         bits = power
+        if power % s == 0:
+            copy(Ph[s], W)
+            bits = power // s
+        else:
+            copy(Y[q], W)
         while bits > 0:
             if bits & 1:
                 product(G, zero, W, zero, Z, zero, plain)
