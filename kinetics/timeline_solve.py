@@ -60,9 +60,10 @@ import numpy as np
 from . import _doubledouble as dd
 from .engine import TINY, Precision, StretchPropagator
 from .engine.checks import time_list
-from .engine.plan import U, compose
+from .engine.plan import compose
 from .errors import SettingError, shown_value
-from .timeline import Addition, Plan, Removal, Timeline, expand
+from .timeline import Plan, Timeline, expand
+from .timeline_chain import Chain
 
 if TYPE_CHECKING:
     from .scheme import Scheme
@@ -321,10 +322,11 @@ def _pieces(scheme: Scheme, plan: Plan, level: list[int], times: np.ndarray):
     regions = _temperature_regions(scheme, plan)
     region_starts = np.array([t for t, _ in regions])
     feeds = [(w.start, w.end) for w, _ in plan.feeds]
+    found = np.searchsorted(region_starts, cuts[:-1], side="right") - 1
     pieces: list[tuple[float, float, tuple]] = []
-    for a, b in itertools.pairwise(cuts):
-        regime = regions[np.searchsorted(region_starts, a, side="right") - 1][1]
-        active = tuple(k for k, (s, e) in enumerate(feeds) if s <= a and b <= e)
+    for (a, b), r in zip(itertools.pairwise(cuts), found.tolist(), strict=True):
+        regime = regions[r][1]
+        active = tuple(k for k, (s, e) in enumerate(feeds) if s <= a and b <= e) if feeds else ()
         if isinstance(regime, tuple):
             m = a + (b - a) / 2
             pieces.append((a, m, (("ramp", regime[1], a, b, 0), active)))
@@ -334,120 +336,27 @@ def _pieces(scheme: Scheme, plan: Plan, level: list[int], times: np.ndarray):
     return pieces
 
 
-class _Chain:
-    """One pass over the stretches: states at every stretch start and end, and events."""
-
-    def __init__(self, scheme: Scheme, plan: Plan, conditions: _Conditions, pieces) -> None:
-        self.scheme = scheme
-        self.plan = plan
-        self.conditions = conditions
-        self.pieces = pieces
-        P = len(pieces)
-        n = len(scheme.species)
-        self.start = np.empty((P, n))  # after the operations at the stretch start
-        self.start_bound = np.empty(P)
-        self.end = np.empty((P, n))  # before the operations at the stretch end
-        self.end_bound = np.empty(P)
-        self.jumps: dict[float, tuple] = {}  # time -> (before, bound, after, bound)
-        self.moved: list[tuple] = []  # (time, action, species, change, bound, statement, volume)
-
-    def run(self) -> None:
-        """Propagate stretch by stretch, applying the operations at their times."""
-        k = 0
-        x = self.scheme.initial_vector
-        e = 0.0
-        pieces = self.pieces
-        for j, (a, b, key) in enumerate(pieces):
-            if j == 0:
-                x, e, k = self._operations_at(a, x, e, k)
-            self.start[j], self.start_bound[j] = x, e
-            h, low = dd.two_sum(b, -a)  # the length and its exact rest
-            x, eps = self.conditions.propagator(key).step(x, float(h), float(low))
-            e = compose(e, eps)
-            self.end[j], self.end_bound[j] = x, e
-            x, e, k = self._operations_at(b, x, e, k)
-        if not pieces:  # a window that ends at 0
-            self._operations_at(0.0, x, e, k)
-
-    def _operations_at(self, time: float, x, e: float, k: int):
-        """Apply every operation at ``time`` (from index ``k``); record the jump."""
-        ops = self.plan.operations
-        if k >= len(ops) or ops[k].time != time:
-            return x, e, k
-        before, before_bound = x.copy(), e
-        x = x.copy()
-        while k < len(ops) and ops[k].time == time:
-            x, e = self._apply(ops[k], x, e)
-            k += 1
-        self.jumps[time] = (before, before_bound, x, e)
-        return x, e, k
-
-    def _apply(self, op, x, e: float):
-        """One nonnegative map, with the roundings it adds to the bound."""
-        if isinstance(op.action, Addition):
-            return self._add(op, x, e)
-        assert isinstance(op.action, Removal)
-        index = self.scheme.index
-        p = op.action.fraction
-        keep, take = float(1 - p), float(p)
-        for name in op.action.species:
-            i = index[name]
-            removed = take * x[i]
-            x[i] = keep * x[i]
-            bound = e if p == 1 else compose(e, U)
-            self.moved.append(
-                (op.time, "remove", name, -float(removed), bound, op.statement, op.volume)
-            )
-        if 0 < p < 1:
-            e = compose(compose(e, U), U)
-        return x, e
-
-    def _add(self, op, x, e: float):
-        r"""An addition: :math:`c \mapsto \kappa c + \sigma a`.
-
-        With the exact factors :math:`\kappa = V/(V + v)` and :math:`\sigma = V_0/(V + v)`
-        of a run with volumes (both 1 otherwise), each rounded once.
-        """
-        index = self.scheme.index
-        if op.kept != 1:
-            x = float(op.kept) * x  # the factor and the product: two roundings
-            e = compose(compose(e, U), U)
-        amounts = op.action.amounts
-        for name, amount in amounts:
-            i = index[name]
-            added = float(amount) if op.share == 1 else float(Fraction(amount) * op.share)
-            x[i] = x[i] + added
-            rounded = 0.0 if op.share == 1 else U
-            self.moved.append((op.time, "add", name, added, rounded, op.statement, op.volume))
-        if not amounts:  # solvent alone: a dilution
-            self.moved.append((op.time, "add", None, 0.0, 0.0, op.statement, op.volume))
-        if any(amount for _, amount in amounts):
-            e = compose(e, U) if op.share == 1 else compose(compose(e, U), U)
-        return x, e
-
-
 # --------------------------------------------------------------------------
 # the grid
 # --------------------------------------------------------------------------
 
 
-def _rows(times: np.ndarray, chain: _Chain):
-    """Rows of the output: each time once, a jump time twice (before, after)."""
-    jumps = chain.jumps
-    out_t, out_after, where = [], [], []
-    for t in times.tolist():
-        if t in jumps:
-            out_t += [t, t]
-            out_after += [False, True]
-            where += [("before", t), ("after", t)]
-        else:
-            out_t.append(t)
-            out_after.append(False)
-            where.append(("grid", t))
-    return np.array(out_t), np.array(out_after, dtype=bool), where
+def _rows(times: np.ndarray, chain: Chain):
+    """Rows of the output: each time once, a jump time twice (before, after).
+
+    Returns the times of the rows, whether each is just after operations, and each
+    row's source: 0 a time of the grid, 1 just before operations, 2 just after.
+    """
+    twice = np.isin(times, np.array(list(chain.jumps), dtype=float))
+    repeats = np.where(twice, 2, 1)
+    first = np.cumsum(repeats) - repeats
+    source = np.zeros(int(repeats.sum()), dtype=np.int64)
+    source[first[twice]] = 1
+    source[first[twice] + 1] = 2
+    return np.repeat(times, repeats), source == 2, source
 
 
-def _evaluate(where, chain: _Chain, conditions: _Conditions):
+def _evaluate(times: np.ndarray, source: np.ndarray, chain: Chain, conditions: _Conditions):
     """Concentrations and bounds of every row.
 
     Rows at operations and at stretch ends come from the chain.  The other rows of a
@@ -455,55 +364,42 @@ def _evaluate(where, chain: _Chain, conditions: _Conditions):
     one from the previous row: a uniform grid needs one or two exponentials per stretch
     kind); rows of one depth are batched across stretches of one kind.
     """
-    m, n = len(where), chain.start.shape[1]
+    m, n = times.size, chain.start.shape[1]
     conc = np.empty((m, n))
     bound = np.zeros(m)
+    for row in np.flatnonzero(source).tolist():
+        before, eb, after, ea = chain.jumps[float(times[row])]
+        conc[row], bound[row] = (before, eb) if source[row] == 1 else (after, ea)
+    grid = source == 0
     ends = np.array([b for _, b, _ in chain.pieces])
-    pieces = np.searchsorted(ends, [t for _, t in where], side="left").tolist()
-    inside: dict[int, list[tuple[int, float]]] = {}
-    for row, ((kind, t), j) in enumerate(zip(where, pieces, strict=True)):
-        if kind in ("before", "after"):
-            before, eb, after, ea = chain.jumps[t]
-            conc[row], bound[row] = (before, eb) if kind == "before" else (after, ea)
-            continue
-        if not ends.size or t == 0.0:
-            conc[row] = chain.start[0] if ends.size else chain.scheme.initial_vector
-            bound[row] = chain.start_bound[0] if ends.size else 0.0
-        elif t == ends[j]:
-            conc[row], bound[row] = chain.end[j], chain.end_bound[j]
-        else:
-            inside.setdefault(j, []).append((row, t))
-    depth = 0
-    while inside:
-        level: dict[tuple, list] = {}
-        for j, rows in inside.items():
-            row, t = rows[depth]
-            prev = (
-                (chain.start[j], chain.start_bound[j], chain.pieces[j][0])
-                if depth == 0
-                else (conc[rows[depth - 1][0]], bound[rows[depth - 1][0]], rows[depth - 1][1])
-            )
-            level.setdefault(chain.pieces[j][2], []).append((row, t, *prev))
-        for key, members in level.items():
-            _advance_rows(conditions.propagator(key), members, conc, bound, depth > 0)
-        depth += 1
-        inside = {j: rows for j, rows in inside.items() if len(rows) > depth}
+    if not ends.size:
+        conc[grid], bound[grid] = chain.scheme.initial_vector, 0.0
+        return conc, bound
+    starts = np.array([a for a, _, _ in chain.pieces])
+    piece = np.searchsorted(ends, times, side="left")
+    at_zero = grid & (times == 0.0)
+    conc[at_zero], bound[at_zero] = chain.start[0], chain.start_bound[0]
+    grid &= ~at_zero
+    at_end = grid & (times == ends[np.minimum(piece, ends.size - 1)])
+    conc[at_end], bound[at_end] = chain.end[piece[at_end]], chain.end_bound[piece[at_end]]
+    rows = np.flatnonzero(grid & ~at_end)  # inside a stretch, in time order
+    j = piece[rows]
+    first = np.r_[True, j[1:] != j[:-1]]
+    depth = np.arange(rows.size) - np.maximum.accumulate(np.where(first, np.arange(rows.size), 0))
+    kinds = chain.kinds[j]
+    for d in range(int(depth.max(initial=-1)) + 1):
+        level = depth == d
+        for kind in np.unique(kinds[level]).tolist():
+            k = np.flatnonzero(level & (kinds == kind))
+            if d == 0:
+                x, e, a = chain.start[j[k]], chain.start_bound[j[k]], starts[j[k]]
+            else:
+                x, e, a = conc[rows[k - 1]], bound[rows[k - 1]], times[rows[k - 1]]
+            h, low = dd.two_sum(times[rows[k]], -a)
+            r = conditions.propagator(chain.keys[kind]).advance(x, h, low, remember=d > 0)
+            conc[rows[k]] = r.concentrations
+            bound[rows[k]] = compose(e, r.error_bound)
     return conc, bound
-
-
-def _advance_rows(propagator, members, conc, bound, remember: bool) -> None:
-    """Rows ``(row, time, start, start bound, start time)`` of one stretch kind."""
-    if len(members) == 1:
-        row, t, x, e, a = members[0]
-        h, low = dd.two_sum(t, -a)
-        conc[row], eps = propagator.step(x, float(h), float(low))
-        bound[row] = compose(e, eps)
-        return
-    rows = np.array([m[0] for m in members])
-    h, low = dd.two_sum(np.array([m[1] for m in members]), -np.array([m[4] for m in members]))
-    r = propagator.advance(np.array([m[2] for m in members]), h, low, remember=remember)
-    conc[rows] = r.concentrations
-    bound[rows] = compose(np.array([m[3] for m in members]), r.error_bound)
 
 
 def _relative_difference(fine: np.ndarray, coarse: np.ndarray) -> np.ndarray:
@@ -528,15 +424,15 @@ class _Pass:
     bound: np.ndarray
     moved: list
     substeps: int
-    chain: _Chain
+    chain: Chain
 
 
 def _one_pass(scheme, plan, conditions, times, level) -> _Pass:
     pieces = _pieces(scheme, plan, level, times)
-    chain = _Chain(scheme, plan, conditions, pieces)
+    chain = Chain(scheme, plan, conditions, pieces)
     chain.run()
-    rows_t, after, where = _rows(times, chain)
-    conc, bound = _evaluate(where, chain, conditions)
+    rows_t, after, source = _rows(times, chain)
+    conc, bound = _evaluate(rows_t, source, chain, conditions)
     return _Pass(rows_t, after, conc, bound, chain.moved, sum(level), chain)
 
 
@@ -571,14 +467,16 @@ class Stretch:
     ramp: bool = False
 
 
-def _stretches(chain: _Chain, conditions: _Conditions) -> tuple[Stretch, ...]:
-    out = []
-    for j, (a, b, key) in enumerate(chain.pieces):
-        Kh, Kl = conditions._matrix(key[0])
-        feed, _ = conditions._feed(key[1])
-        ramp = key[0][0] == "ramp"
-        out.append(Stretch(a, b, Kh, Kl, feed, chain.start[j], chain.end[j], ramp))
-    return tuple(out)
+def _stretches(chain: Chain, conditions: _Conditions) -> tuple[Stretch, ...]:
+    matrices = [conditions._matrix(key[0]) for key in chain.keys]
+    feeds = [conditions._feed(key[1])[0] for key in chain.keys]
+    ramps = [key[0][0] == "ramp" for key in chain.keys]
+    return tuple(
+        Stretch(
+            a, b, matrices[k][0], matrices[k][1], feeds[k], chain.start[j], chain.end[j], ramps[k]
+        )
+        for j, ((a, b, _), k) in enumerate(zip(chain.pieces, chain.kinds.tolist(), strict=True))
+    )
 
 
 def _first_substeps(plan: Plan, conditions: _Conditions) -> list[int]:

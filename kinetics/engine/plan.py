@@ -205,10 +205,23 @@ def rounding_bound(beta, n: int, plan: Plan, unit: float | None = None):
 
     composed as :math:`(1 + \epsilon_{in})(1 + \epsilon_j) - 1`.
     """
-    route_dd = plan.route == "double-double"
+    return compose(input_bound(beta, n, plan.route == "double-double"), arithmetic_bound(n, plan))
+
+
+def input_bound(beta, n: int, route_dd: bool):
+    r"""Relative effect on :math:`e^{Y}` of forming :math:`Y = tB` (see :func:`rounding_bound`).
+
+    :math:`\operatorname{expm1}(2\delta(\beta + n) + \eta\beta)`: first order in an entrywise
+    relative perturbation :math:`\delta` of a nonnegative matrix (Xue & Ye 2008), with the
+    diagonal's absolute error :math:`\eta\sigma` on the double-double route.
+
+    Examples
+    --------
+    >>> bool(input_bound(1.0, 2, False) < 1e-14)
+    True
+    """
     delta = INPUT_RELATIVE[route_dd]
-    eps_in = np.expm1(2 * delta * (np.asarray(beta) + n) + DIAGONAL_ABSOLUTE[route_dd] * beta)
-    return compose(eps_in, arithmetic_bound(n, plan))
+    return np.expm1(2 * delta * (np.asarray(beta) + n) + DIAGONAL_ABSOLUTE[route_dd] * beta)
 
 
 #: largest Taylor degree a plan prefers (powers of Y beyond it reach the subnormal

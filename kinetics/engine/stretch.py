@@ -9,6 +9,7 @@ import numpy as np
 import scipy.sparse
 
 from kinetics.engine import checks
+from kinetics.engine.action import actions
 from kinetics.engine.dense import augment, distinct, expm_stack, gamma_stack, mv
 from kinetics.engine.plan import DENSE_MAX, TINY, U, compose, product_error
 from kinetics.engine.propagate import Precision, Propagation, propagate_certified
@@ -147,12 +148,7 @@ class StretchPropagator:
             rows, bound = self._advance_large(starts, h)
             X = np.ascontiguousarray((np.hstack([rows, np.ones((m, 1))]) if fed else rows)[None])
         else:
-            Fh, Fl, eps, is_dd = self._exponentials(h, remember)
-            x0 = np.ones((m, n + 1, 1)) if fed else np.empty((m, n, 1))
-            x0[:, :n, 0] = starts
-            oh, ol = mv(Fh, Fl, x0, np.zeros_like(x0), is_dd)
-            X = np.ascontiguousarray(np.maximum((oh + ol)[None, :, :, 0], 0.0))
-            bound = np.where(h > 0, compose(eps, gamma_stack(X.shape[-1], is_dd)), 0.0)
+            X, bound = self._dense_rows(starts, h, remember)
         bound = bound[None].copy()
         if low.any():  # carry each state to its exact length (first order) and bound it
             A = self._A if self._A is not None else self._augmented()[0]
@@ -161,6 +157,59 @@ class StretchPropagator:
         bound = np.where(h > 0, compose(bound[0], U), bound[0])
         conc = np.where((h == 0.0)[:, None], starts, X[0, :, :n])
         return Propagation(h, conc, bound, self.precision)
+
+    @property
+    def augmented(self) -> np.ndarray:
+        """The augmented rate matrix (1, N, N) of the dense route (feed as last column)."""
+        if self._A is None:
+            raise ValueError("the augmented matrix is kept for schemes of up to DENSE_MAX species")
+        return self._A
+
+    def factors(self, lengths) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """Exponentials of the augmented matrix for ``lengths`` > 0 (kept), as one step uses them.
+
+        Returns ``(Fh, Fl, eps, is_dd)``: the double-double pairs (m, N, N), the relative
+        bound of one product with each (its exponential's and the product's rounding,
+        before the final rounding to double) and the route of each.
+        """
+        h = np.asarray(lengths, dtype=float).reshape(-1)
+        Fh, Fl, eps, is_dd = self._exponentials(h, remember=True)
+        return Fh, Fl, compose(eps, gamma_stack(Fh.shape[-1], is_dd)), is_dd
+
+    def _dense_rows(self, starts, h, remember: bool):
+        """States (1, m, N) after each stretch and their bounds before the final rounding.
+
+        A length needed by one start only and not kept goes by the exponential's action
+        on that start (:mod:`kinetics.engine.action`), where that route certifies it; the
+        others by the kept or new exponentials.
+        """
+        A0, Al0 = self._A, self._Al
+        assert A0 is not None  # the pair of the dense route, set in __init__
+        assert Al0 is not None
+        n, m, N = self.species, h.size, A0.shape[-1]
+        x0 = np.ones((m, N))
+        x0[:, :n] = starts
+        X = np.empty((m, N))
+        bound = np.zeros(m)
+        rest = np.ones(m, dtype=bool)
+        if not remember:
+            _, which, counts = np.unique(h, return_inverse=True, return_counts=True)
+            once = (counts[which] == 1) & (h > 0)
+            once &= np.array([v not in self._kept for v in h.tolist()])
+            if once.any():
+                Oh, Ol, b = actions(A0[0], Al0[0], h[once], x0[once])
+                done = np.isfinite(b)
+                picked = np.flatnonzero(once)[done]
+                X[picked] = np.maximum(Oh[done] + Ol[done], 0.0)
+                bound[picked] = b[done]
+                rest[picked] = False
+        if rest.any():
+            Fh, Fl, eps, is_dd = self._exponentials(h[rest], remember)
+            v = x0[rest][..., None]
+            oh, ol = mv(Fh, Fl, v, np.zeros_like(v), is_dd)
+            X[rest] = np.maximum((oh + ol)[..., 0], 0.0)
+            bound[rest] = np.where(h[rest] > 0, compose(eps, gamma_stack(N, is_dd)), 0.0)
+        return np.ascontiguousarray(X[None]), bound
 
     def step(self, start, length: float, length_low: float = 0.0) -> tuple[np.ndarray, float]:
         """One stretch from one start: the cheap form of :meth:`advance` for chains.
