@@ -73,22 +73,27 @@ class _Actions:
     """The actions of every operation, grouped by boundary (stretch start)."""
 
     def __init__(self, plan: Plan, index: dict[str, int], boundaries: dict[float, int], P: int):
-        rows: list[_Row] = []
-        counts = np.zeros(P + 2, dtype=np.int64)
-        self.records: list[tuple[Operation, _Record]] = []
-        self.times: dict[int, float] = {}  # boundary -> time, for boundaries with operations
+        ops = plan.operations
+        at = [boundaries[op.time] for op in ops]
         known: dict[tuple, tuple[list[_Row], list[_Record]]] = {}
-        for op in plan.operations:
-            j = boundaries[op.time]
-            self.times[j] = op.time
+        encoded = []
+        for op in ops:
             key = (id(op.action), id(op.kept), id(op.share))  # the plan keeps them alive
-            if key not in known:
-                known[key] = _encoded(op, index)
-            new_rows, new_records = known[key]
-            rows += new_rows
-            counts[j + 1] += len(new_rows)
-            self.records += [(op, r) for r in new_records]
-        self.at = np.cumsum(counts)
+            found = known.get(key)
+            if found is None:
+                found = known[key] = _encoded(op, index)
+            encoded.append(found)
+        rows: list[_Row] = [row for new_rows, _ in encoded for row in new_rows]
+        lengths = [len(new_rows) for new_rows, _ in encoded]
+        counts = np.bincount(np.array(at, dtype=np.int64) + 1, lengths, minlength=P + 2)
+        #: boundary -> time, for boundaries with operations
+        self.times: dict[int, float] = dict(zip(at, (op.time for op in ops), strict=True))
+        self.records: list[tuple[Operation, _Record]] = [
+            (op, record)
+            for op, (_, records) in zip(ops, encoded, strict=True)
+            for record in records
+        ]
+        self.at = np.cumsum(counts).astype(np.int64)
         table = list(zip(*rows, strict=True)) if rows else [()] * 6
         record = np.cumsum([r[5] for r in rows], dtype=np.int64) - 1
         self.arrays = (
@@ -234,18 +239,14 @@ class Chain:
         P = len(self.pieces)
         initial = np.asarray(self.scheme.initial_vector, dtype=float)
         n = initial.size
+        start_bound, end_bound = self.start_bound.tolist(), self.end_bound.tolist()
         for j, time in actions.times.items():
-            before = (initial, 0.0) if j == 0 else (self.end[j - 1], float(self.end_bound[j - 1]))
-            after = (
-                (final[:n], float(final[n]))
-                if j == P
-                else (self.start[j], float(self.start_bound[j]))
-            )
+            before = (initial, 0.0) if j == 0 else (self.end[j - 1], end_bound[j - 1])
+            after = (final[:n], float(final[n])) if j == P else (self.start[j], start_bound[j])
             self.jumps[time] = (*before, *after)
-        removal = 0
+        removals = zip(actions.moved.tolist(), actions.moved_bound.tolist(), strict=True)
+        append = self.moved.append
         for op, (action, species, change, bound) in actions.records:
             if change is None:
-                change = float(actions.moved[removal])
-                bound = float(actions.moved_bound[removal])
-                removal += 1
-            self.moved.append((op.time, action, species, change, bound, op.statement, op.volume))
+                change, bound = next(removals)
+            append((op.time, action, species, change, bound, op.statement, op.volume))

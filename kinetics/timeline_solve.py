@@ -554,10 +554,13 @@ def _envelope(plan: Plan, best: _Pass, rows: np.ndarray, moved: np.ndarray):
 
 def _events(plan: Plan, best: _Pass, moved_estimate: np.ndarray) -> tuple[Event, ...]:
     """Every applied operation as an :class:`Event`, in time order."""
-    records = [
-        (m[0], m[5], Event(m[0], m[1], m[2], m[3], None, m[4], float(est), m[5], m[6]))
+    moved = [
+        Event(m[0], m[1], m[2], m[3], None, m[4], est, m[5], m[6])
         for m, est in zip(best.moved, moved_estimate.tolist(), strict=True)
     ]
+    if not (plan.steps or plan.ramps or plan.feeds):  # already by time, then statement
+        return tuple(moved)
+    records = [(e.time, e.statement, e) for e in moved]
     for t, T, i in plan.steps:
         records.append((t, i, Event(t, "temperature", None, 0.0, T, statement=i)))
     for r, i in zip(plan.ramps, plan.ramp_statements, strict=True):

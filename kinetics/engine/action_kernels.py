@@ -27,8 +27,48 @@ def taylor_actions(A, Al, sigma, sigma_lo, t, V, m, tiny, Oh, Ol, ratio):
     """
     # One body on purpose: a flat loop over members compiles faster than inlined helpers.
     N = A.shape[0]
-    Yh = np.empty((N, N))
-    Yl = np.empty((N, N))
+    # B = A + sigma I in double-double (sigma - q_a >= 0 by the choice of sigma), its
+    # nonzero entries by rows (shared by all members)
+    count = 0
+    for a in range(N):
+        for c in range(N):
+            if A[a, c] != 0.0 or Al[a, c] != 0.0 or a == c:
+                count += 1
+    ptr = np.zeros(N + 1, dtype=np.int64)
+    col = np.empty(count, dtype=np.int64)
+    Bh = np.empty(count)
+    Bl = np.empty(count)
+    k = 0
+    for a in range(N):
+        for c in range(N):
+            xh = A[a, c]
+            xl = Al[a, c]
+            if a == c:
+                s, e = two_sum(xh, sigma)
+                e += xl + sigma_lo
+                xh = s + e
+                xl = e - (xh - s)
+                if xh < 0.0:
+                    xh = 0.0
+                    xl = 0.0
+            elif xh == 0.0 and xl == 0.0:
+                continue
+            col[k] = c
+            Bh[k] = xh
+            Bl[k] = xl
+            k += 1
+        ptr[a + 1] = k
+    Yh = np.empty(count)
+    Yl = np.empty(count)
+    # 1/j as double-double pairs (divisions cost more than the products that replace them)
+    rh = np.empty(m + 2)
+    rl = np.empty(m + 2)
+    for j in range(1, m + 2):
+        q1 = 1.0 / j
+        qp, qe = two_prod(q1, float(j))
+        q2 = ((1.0 - qp) - qe) / j
+        rh[j] = q1 + q2
+        rl[j] = q2 - (rh[j] - q1)
     wh = np.empty(N)
     wl = np.empty(N)
     ph = np.empty(N)
@@ -37,40 +77,27 @@ def taylor_actions(A, Al, sigma, sigma_lo, t, V, m, tiny, Oh, Ol, ratio):
     y = np.empty(N)
     for q in range(t.shape[0]):
         tt = t[q]
-        for a in range(N):
-            for c in range(N):
-                xh = A[a, c]
-                xl = Al[a, c]
-                if a == c:  # sigma - q_a in double-double, >= 0 by the choice of sigma
-                    s, e = two_sum(xh, sigma)
-                    e += xl + sigma_lo
-                    xh = s + e
-                    xl = e - (xh - s)
-                    if xh < 0.0:
-                        xh = 0.0
-                        xl = 0.0
-                p, e = two_prod(xh, tt)
-                e += xl * tt
-                hi = p + e
-                Yh[a, c] = hi
-                Yl[a, c] = e - (hi - p)
+        for k in range(count):
+            p, e = two_prod(Bh[k], tt)
+            e += Bl[k] * tt
+            hi = p + e
+            Yh[k] = hi
+            Yl[k] = e - (hi - p)
         for i in range(N):
             wh[i] = V[q, i]
             wl[i] = 0.0
             Oh[q, i] = V[q, i]
             Ol[q, i] = 0.0
-        for k in range(1, m + 1):
+        for j in range(1, m + 1):
             # p = Y w: TwoProduct of the high parts, the cross terms in double, the sum
-            # by TwoSum with the errors gathered in double (Dot2; zero entries skipped)
+            # by TwoSum with the errors gathered in double (Dot2)
             for a in range(N):
                 sh = 0.0
                 se = 0.0
-                for c in range(N):
-                    yh = Yh[a, c]
-                    if yh == 0.0:
-                        continue
-                    p, e = two_prod(yh, wh[c])
-                    e += yh * wl[c] + Yl[a, c] * wh[c]
+                for k in range(ptr[a], ptr[a + 1]):
+                    c = col[k]
+                    p, e = two_prod(Yh[k], wh[c])
+                    e += Yh[k] * wl[c] + Yl[k] * wh[c]
                     s = sh + p
                     d = s - sh
                     se += ((sh - (s - d)) + (p - d)) + e
@@ -79,13 +106,12 @@ def taylor_actions(A, Al, sigma, sigma_lo, t, V, m, tiny, Oh, Ol, ratio):
                 ph[a] = hi
                 pl[a] = se - (hi - sh)
             for i in range(N):
-                # w = p / k in double-double, then S += w
-                q1 = ph[i] / k
-                qp, qe = two_prod(q1, float(k))
-                q2 = (((ph[i] - qp) - qe) + pl[i]) / k
-                hi = q1 + q2
+                # w = p (1/j) in double-double, then S += w
+                p, e = two_prod(ph[i], rh[j])
+                e += ph[i] * rl[j] + pl[i] * rh[j]
+                hi = p + e
                 wh[i] = hi
-                wl[i] = q2 - (hi - q1)
+                wl[i] = e - (hi - p)
                 s, e = two_sum(Oh[q, i], wh[i])
                 e += Ol[q, i] + wl[i]
                 hi = s + e
@@ -94,13 +120,12 @@ def taylor_actions(A, Al, sigma, sigma_lo, t, V, m, tiny, Oh, Ol, ratio):
         # a posteriori: z = Y^(m+1) S / (m+1)! in plain double, against S
         for i in range(N):
             z[i] = Oh[q, i]
-        for k in range(1, m + 2):
+        for j in range(1, m + 2):
             for a in range(N):
                 acc = 0.0
-                for c in range(N):
-                    if Yh[a, c] != 0.0:
-                        acc += Yh[a, c] * z[c]
-                y[a] = acc / k
+                for k in range(ptr[a], ptr[a + 1]):
+                    acc += Yh[k] * z[col[k]]
+                y[a] = acc * rh[j]
             for a in range(N):
                 z[a] = y[a]
         worst = 0.0

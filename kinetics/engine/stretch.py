@@ -54,6 +54,9 @@ class StretchPropagator:
 
     #: most distinct lengths whose exponentials are kept
     KEEP = 256
+    #: up to this many distinct lengths in one call, the starts of each length are
+    #: multiplied as the columns of one product (beyond, each start by its own)
+    SHARED_PRODUCTS = 32
 
     def __init__(self, K, feed=None, *, precision: Precision = "auto", K_low=None, feed_low=None):
         checks.precision(precision)
@@ -195,7 +198,7 @@ class StretchPropagator:
         if not remember:
             _, which, counts = np.unique(h, return_inverse=True, return_counts=True)
             once = (counts[which] == 1) & (h > 0)
-            once &= np.array([v not in self._kept for v in h.tolist()])
+            once &= ~np.isin(h, np.fromiter(self._kept, dtype=float, count=len(self._kept)))
             if once.any():
                 Oh, Ol, b = actions(A0[0], Al0[0], h[once], x0[once])
                 done = np.isfinite(b)
@@ -204,12 +207,34 @@ class StretchPropagator:
                 bound[picked] = b[done]
                 rest[picked] = False
         if rest.any():
-            Fh, Fl, eps, is_dd = self._exponentials(h[rest], remember)
-            v = x0[rest][..., None]
-            oh, ol = mv(Fh, Fl, v, np.zeros_like(v), is_dd)
-            X[rest] = np.maximum((oh + ol)[..., 0], 0.0)
-            bound[rest] = np.where(h[rest] > 0, compose(eps, gamma_stack(N, is_dd)), 0.0)
+            X[rest], rounding = self._products(h[rest], x0[rest], remember)
+            bound[rest] = np.where(h[rest] > 0, rounding, 0.0)
         return np.ascontiguousarray(X[None]), bound
+
+    def _products(self, h, x0, remember: bool):
+        """``F(h_i) x0_i`` (clipped at 0) and the bound of each before the final rounding.
+
+        Starts that share a length are multiplied together, as the columns of one product
+        (the bound of an entry is that of one product either way).
+        """
+        from kinetics.engine import kernels
+
+        N = x0.shape[1]
+        values, which = distinct(h)
+        if values.size > self.SHARED_PRODUCTS:
+            Fh, Fl, eps, is_dd = self._exponentials(h, remember)
+            v = x0[..., None]
+            oh, ol = mv(Fh, Fl, v, np.zeros_like(v), is_dd)
+            return np.maximum((oh + ol)[..., 0], 0.0), compose(eps, gamma_stack(N, is_dd))
+        Fh, Fl, eps, is_dd = self._exponentials(values, remember)
+        X = np.empty_like(x0)
+        for i in range(values.size):
+            sel = which == i
+            V = np.ascontiguousarray(x0[sel].T)
+            oh, ol = np.empty_like(V), np.empty_like(V)
+            kernels.product(Fh[i], Fl[i], V, np.zeros_like(V), oh, ol, np.bool_(is_dd[i]))
+            X[sel] = np.maximum(oh + ol, 0.0).T
+        return X, compose(eps, gamma_stack(N, is_dd))[which]
 
     def step(self, start, length: float, length_low: float = 0.0) -> tuple[np.ndarray, float]:
         """One stretch from one start: the cheap form of :meth:`advance` for chains.
