@@ -19,8 +19,8 @@ import numpy as np
 import scipy.sparse
 from threadpoolctl import threadpool_limits
 
-from kinetics.engine import _kernels
 from kinetics.engine import block_kernels as _block_kernels
+from kinetics.engine import kernels as _kernels
 from kinetics.engine.blocks import RATES, propagate_blocks, route_costs
 from kinetics.propagate import propagate_batch
 

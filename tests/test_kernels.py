@@ -79,6 +79,36 @@ def test_double_double_product_is_accurate_entry_by_entry(n, k, m):
             assert abs(Cl[i, j]) <= np.spacing(Ch[i, j]) / 2
 
 
+def test_double_double_grid_states_are_correctly_rounded_entry_by_entry():
+    # the grid kernel's repeated double-double products F^k x0 against exact rational
+    # arithmetic: each state, accurate to about k N^2 2^-104 before its rounding to double
+    # (Ogita, Rump & Oishi 2005, Prop. 5.5 with nonnegative data, from memory), is within
+    # u + 2^-90 of the exact value, however small the entry
+    rng = np.random.default_rng(11)
+    N, columns = 7, 6
+    Fh, Fl = _random_dd(rng, (1, N, N), zeros=0.2)
+    x0h, x0l = _random_dd(rng, (1, N), zeros=0.0)
+    X = np.zeros((1, columns, N))
+    bound = np.zeros((1, columns))
+    times = np.arange(columns, dtype=float)
+    residual = np.zeros(columns)
+    zero = np.zeros(1)
+    _kernels.grid(
+        Fh, Fl, x0h, x0l, columns, 0, np.array([True]), X, 0, zero, zero, zero, bound,
+        times, 0.0, 1.0, residual,
+    )  # fmt: skip
+    F = [[Fraction(Fh[0, i, c]) + Fraction(Fl[0, i, c]) for c in range(N)] for i in range(N)]
+    v = [Fraction(x0h[0, i]) + Fraction(x0l[0, i]) for i in range(N)]
+    tol = Fraction(1, 2**53) + Fraction(1, 2**90)
+    for k in range(columns):
+        for i in range(N):
+            if v[i] == 0:
+                assert X[0, k, i] == 0.0
+            else:
+                assert abs(Fraction(X[0, k, i]) - v[i]) / v[i] <= tol, (k, i)
+        v = [sum(F[i][c] * v[c] for c in range(N)) for i in range(N)]
+
+
 def test_double_product_is_within_gamma_k():
     # plain double, nonnegative data: relative error at most k u / (1 - k u) per entry
     # (Higham, Accuracy and Stability of Numerical Algorithms, 2nd ed., ch. 3; from memory)

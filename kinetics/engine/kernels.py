@@ -9,10 +9,12 @@ exponential or a whole time grid of a stack of parameter sets is one call.
 Every kernel takes a flag ``dd`` per call or per member:
 
 * ``dd`` true: double-double arithmetic (value ``hi + lo``, about 106 bits).
-  Each term :math:`a_{il} b_{lj}` of a product is split exactly by Dekker's
-  TwoProduct (Veltkamp splitting, no fused multiply-add needed) and summed with
-  Knuth's TwoSum, the low parts in plain double, as in Ogita, Rump & Oishi's
-  ``Dot2``.  For nonnegative operands nothing cancels, so every entry of the
+  Each term :math:`a_{il} b_{lj}` of a product is split exactly by TwoProduct
+  (the rounding error of ``a * b`` as one fused multiply-add, :func:`fma`), the
+  cross terms :math:`a b_{lo} + a_{lo} b` added to that error by two more fused
+  multiply-adds (one rounding each, of a term :math:`2^{-52}` below the product),
+  and summed with Knuth's TwoSum, the low parts in plain double, as in Ogita, Rump &
+  Oishi's ``Dot2``.  For nonnegative operands nothing cancels, so every entry of the
   product carries a relative error of about :math:`k^2 2^{-106}` for inner
   dimension ``k`` (Ogita, Rump & Oishi 2005, Prop. 5.5 with nonnegative data).
 * ``dd`` false: plain double, relative error at most
@@ -20,7 +22,8 @@ Every kernel takes a flag ``dd`` per call or per member:
 
 Numba compiles with strict IEEE semantics (no ``fastmath``, no contraction of
 ``a * b + c`` into a fused multiply-add), which the error-free transformations
-rely on; ``tests/test_kernels.py`` checks TwoProduct and the products against
+rely on; the one fused multiply-add is the explicit :func:`fma`, rounded once by
+definition; ``tests/test_kernels.py`` checks TwoProduct and the products against
 exact rational arithmetic.  Zero entries of the left factor are skipped, which makes products
 of the sparse, often triangular matrices of reaction schemes cheaper.
 
@@ -37,6 +40,7 @@ T. J. Dekker, "A floating-point technique for extending the available
 precision", Numer. Math. 18, 224-242 (1971). doi:10.1007/BF01397083
 T. Ogita, S. M. Rump, S. Oishi, "Accurate sum and dot product", SIAM J. Sci.
 Comput. 26, 1955-1988 (2005). doi:10.1137/030601818
+IEEE Std 754-2008, sec. 5.4.1 (fusedMultiplyAdd: one rounding of ``a b + c``).
 M. S. Paterson, L. J. Stockmeyer, "On the number of nonscalar multiplications
 necessary to evaluate polynomials", SIAM J. Comput. 2, 60-66 (1973).
 doi:10.1137/0202007
@@ -47,9 +51,9 @@ from __future__ import annotations
 import threading
 
 import numpy as np
-from numba import njit
+from numba import njit, types
+from numba.extending import intrinsic
 
-_SPLITTER = 134217729.0  # 2**27 + 1, Veltkamp splitting constant (Dekker 1971, sec. 5)
 #: plain-double products with at least this many multiply-adds go to BLAS (the loops
 #: win below, where a call's overhead dominates)
 BLAS_FROM = 48**3
@@ -61,18 +65,31 @@ _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
 _HELPER = {"nogil": True, "error_model": "numpy", "no_cpython_wrapper": True}
 
 
+@intrinsic
+def fma(typingctx, a, b, c):
+    """``a * b + c`` rounded once (LLVM's ``llvm.fma``; kernels only).
+
+    Exact by definition on every machine: one instruction where the processor has a fused
+    multiply-add, the C library's correctly rounded ``fma`` elsewhere (slower, as exact).
+    """
+    sig = types.float64(types.float64, types.float64, types.float64)
+
+    def codegen(context, builder, signature, args):
+        return builder.fma(*args)
+
+    return sig, codegen
+
+
 @njit(**_JIT)
 def two_prod(a, b):
-    """Error-free product ``p + e == a * b`` (Dekker's TwoProduct)."""
+    """Error-free product ``p + e == a * b`` (TwoProduct: ``e`` is one fused multiply-add).
+
+    The error ``a b - p`` of a rounded product is itself a double unless it underflows
+    (Dekker 1971, who computes it without a fused multiply-add by splitting both
+    factors), so the single rounding of :func:`fma` leaves it exact.
+    """
     p = a * b
-    c = _SPLITTER * a
-    a1 = c - (c - a)
-    a2 = a - a1
-    c = _SPLITTER * b
-    b1 = c - (c - b)
-    b2 = b - b1
-    e = ((a1 * b1 - p) + a1 * b2 + a2 * b1) + a2 * b2
-    return p, e
+    return p, fma(a, b, -p)
 
 
 @njit(**_JIT)
@@ -249,16 +266,6 @@ def product(Ah, Al, Bh, Bl, Ch, Cl, dd):
             matmul_double(Ah, Bh, Ch)
         fill(Cl, 0.0)
         return
-    # Veltkamp halves of the right factor, once per product
-    B1 = np.empty((k, m))
-    B2 = np.empty((k, m))
-    for r in range(k):
-        for j in range(m):
-            b = Bh[r, j]
-            c = _SPLITTER * b
-            hi = c - (c - b)
-            B1[r, j] = hi
-            B2[r, j] = b - hi
     sh = np.empty(m)
     se = np.empty(m)
     for i in range(n):
@@ -270,15 +277,11 @@ def product(Ah, Al, Bh, Bl, Ch, Cl, dd):
             al = Al[i, r]
             if a == 0.0 and al == 0.0:
                 continue
-            c = _SPLITTER * a
-            a1 = c - (c - a)
-            a2 = a - a1
             for j in range(m):
                 b = Bh[r, j]
                 p = a * b
                 # TwoProduct error of a*b, then the cross terms of the dd product
-                e = ((a1 * B1[r, j] - p) + a1 * B2[r, j] + a2 * B1[r, j]) + a2 * B2[r, j]
-                e += a * Bl[r, j] + al * b
+                e = fma(a, Bl[r, j], fma(al, b, fma(a, b, -p)))
                 # TwoSum of the running sum and p; errors gathered in plain double
                 s0 = sh[j]
                 s = s0 + p
@@ -310,7 +313,9 @@ def exponentials(
        Paterson-Stockmeyer (powers ``Y^0 .. Y^s``, then Horner in ``Y^s``), times the
        factor, squared ``j`` times, written to ``Fh``, ``Fl``;
     3. ``ratio[q]``, the largest ``(coef Y^power F)_ab / F_ab`` over the entries
-       ``F_ab > tiny`` (plain double), for the a posteriori truncation bound.
+       ``F_ab > tiny`` (plain double), for the a posteriori truncation bound; ``Y^power``
+       is a power of ``Y^s`` when ``power`` is a multiple of ``s`` (``power = m + 1``
+       always is: a few products instead of about :math:`\log_2 m`).
 
     ``P`` (2, s + 1, n, n) and ``M`` (6, n, n) are scratch space (see :func:`scratch`;
     fresh memory per member made the double route twice as slow).
@@ -407,14 +412,19 @@ def exponentials(
             Tl, Wl = Wl, Tl
         copy(Th, Fh[q])
         copy(Tl, Fl[q])
-        # 3. G = Y^power by binary powering, then G F (nonnegative, plain double)
+        # 3. G = Y^power by binary powering, from the power Y^s at hand when power is a
+        # multiple of s (as m + 1 = s (r + 1) is), then G F (nonnegative, plain double)
         F = Fh[q]
         fill(zero, 0.0)
         fill(G, 0.0)
         for i in range(n):
             G[i, i] = 1.0
-        copy(Y[q], W)
         bits = power
+        if power % s == 0:
+            copy(Ph[s], W)
+            bits = power // s
+        else:
+            copy(Y[q], W)
         while bits > 0:
             if bits & 1:
                 product(G, zero, W, zero, Z, zero, plain)
@@ -450,11 +460,11 @@ def grid(
     1. States ``F^k x0`` for ``k = 0 .. columns - 1`` by repeated products, per member.
        Each state is one product ``x_{k+1} = F x_k`` (as the row ``x_k^T F^T``, so that
        the inner loop runs over contiguous entries), in double-double for members with
-       ``dd``: TwoProduct with the Veltkamp halves of :math:`F^T` computed once, TwoSum
-       of the running sums (Ogita, Rump & Oishi's ``Dot2``).  This costs ``columns``
-       matrix-vector products and no squarings (doubling ``F`` would add one ``N^3``
-       product per level).  State ``k >= skip`` is rounded to double and written to
-       ``X[q, row0 + k - skip, :]`` (``X`` has shape (b, p, N)).
+       ``dd``: TwoProduct (:func:`fma`), TwoSum of the running sums (Ogita, Rump &
+       Oishi's ``Dot2``).  This costs ``columns`` matrix-vector products and no
+       squarings (doubling ``F`` would add one ``N^3`` product per level).  State
+       ``k >= skip`` is rounded to double and written to ``X[q, row0 + k - skip, :]``
+       (``X`` has shape (b, p, N)).
     2. Their bounds, written to ``bound[q, row0 + k - skip]``: each product with
        :math:`F` (bound :math:`\epsilon`) in arithmetic with product error
        :math:`\gamma` multiplies the relative error by :math:`(1 + \epsilon)(1 +
@@ -469,10 +479,8 @@ def grid(
     # One body on purpose, longer than the usual limit (see exponentials).
     # 1. states
     b, N, _ = Fh.shape
-    Th = np.empty((N, N))  # F^T and its Veltkamp halves
+    Th = np.empty((N, N))  # F^T
     Tl = np.empty((N, N))
-    T1 = np.empty((N, N))
-    T2 = np.empty((N, N))
     vh = np.empty(N)
     vl = np.empty(N)
     sh = np.empty(N)
@@ -480,13 +488,8 @@ def grid(
     for q in range(b):
         for i in range(N):
             for j in range(N):
-                x = Fh[q, i, j]
-                Th[j, i] = x
+                Th[j, i] = Fh[q, i, j]
                 Tl[j, i] = Fl[q, i, j]
-                c = _SPLITTER * x
-                hi = c - (c - x)
-                T1[j, i] = hi
-                T2[j, i] = x - hi
         for i in range(N):
             vh[i] = x0h[q, i]
             vl[i] = x0l[q, i]
@@ -504,14 +507,10 @@ def grid(
                     al = vl[r]
                     if a == 0.0 and al == 0.0:
                         continue
-                    c = _SPLITTER * a
-                    a1 = c - (c - a)
-                    a2 = a - a1
                     for j in range(N):
                         bb = Th[r, j]
                         p = a * bb
-                        e = ((a1 * T1[r, j] - p) + a1 * T2[r, j] + a2 * T1[r, j]) + a2 * T2[r, j]
-                        e += a * Tl[r, j] + al * bb
+                        e = fma(a, Tl[r, j], fma(al, bb, fma(a, bb, -p)))
                         s0 = sh[j]
                         s = s0 + p
                         z = s - s0
