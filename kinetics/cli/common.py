@@ -64,7 +64,7 @@ def first_use_note(sweeps: bool = False) -> None:
     if sweeps:
         from kinetics import _sweep_kernels
 
-        entries.append(_sweep_kernels.summarise_members)
+        entries.append(_sweep_kernels.member_kernel)
     if not all(kernels.on_disk(k) for k in entries):
         click.echo(FIRST_USE_SWEEP if sweeps else FIRST_USE, err=True)
 
