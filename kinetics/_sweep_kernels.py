@@ -306,10 +306,9 @@ def _refine(
     height = 0.0
     # g and dg/dt need c only at sp, at the species of the row of sp and (for a maximum)
     # at the species of their rows: the state is summed at those entries only
-    used = 0
     for i in range(na):
         mark[i] = False
-    used = _mark(sp, mark, need, used)
+    used = _mark(sp, mark, need, np.int64(0))  # an int64, not the literal 0: one signature
     for e in range(kp[sp], kp[sp + 1]):
         used = _mark(ki[e], mark, need, used)
     rows_used = used
@@ -393,7 +392,7 @@ def summarise_members(
     work = _work(n, n + 1 if has_feed else n, mx.shape[0], taus.size, n_seg + 1)
     member_kernel(
         K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, taus, ilevel, tmax, cmax,
-        half, status, work,
+        half, status, *work[0], *work[1], work[2], work[3],
     )  # fmt: skip
 
 
@@ -435,7 +434,8 @@ def _work(n, na, nm, total, levels):
 @njit(**_JIT)
 def member_kernel(
     K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, taus, ilevel, tmax, cmax, half,
-    status, work,
+    status, A, B, P, PT, X, D, D2, N, s, flags, CTbuf, DTbuf, D2Tbuf, diag,
+    kp, ki, kv, bp, bi, bv, x, y, Dq, Nq, res, lwork, rwork,
 ):  # fmt: skip
     """Steps 2-5 of :mod:`kinetics.sweep_summary` for each member of a stack.
 
@@ -451,9 +451,6 @@ def member_kernel(
     levels = steps.shape[0] - 1
     total = taus.shape[0]
     nm = mx.shape[0]
-    A, B, P, PT, X, D, D2, N, s, flags, CTbuf, DTbuf, D2Tbuf, diag = work[0]
-    kp, ki, kv, bp, bi, bv, x, y, Dq, Nq, res = work[1]
-    lwork, rwork = work[2], work[3]
     for q in range(b):
         Kq = K[q]
         sc = scale[q]
@@ -599,10 +596,13 @@ def member_kernel(
                         if not (s[jj - 1, a] > 0 and s[jj, a] < 0):
                             continue
                         jb = jj - 1
-                        sparse = (kp, ki, kv, bp, bi, bv)
-                        bracket = (taus[jb], X[jb], ilevel[jb])
-                        ladder = (PT, steps, stop, sc)
-                        _refine(*sparse, f, sigma, *ladder, mx[a], True, 0.0, *bracket, res, rwork)
+                        # arguments written out: star arguments pack and unpack tuples of
+                        # arrays (7 times the code per call); np.bool_, as a literal True
+                        # or False would compile _refine once for each
+                        _refine(
+                            kp, ki, kv, bp, bi, bv, f, sigma, PT, steps, stop, sc,
+                            mx[a], np.bool_(True), 0.0, taus[jb], X[jb], ilevel[jb], res, rwork,
+                        )  # fmt: skip
                         if res[1] > best:  # the first of equal heights, as analysis does
                             best = res[1]
                             tmax[q, mx[a]] = res[0]
@@ -629,9 +629,9 @@ def member_kernel(
                 if jb - lastpos > 1:
                     bad = True
                     break
-                sparse = (kp, ki, kv, bp, bi, bv)
-                bracket = (taus[jb - 1], X[jb - 1], ilevel[jb - 1])
-                ladder = (PT, steps, stop, sc)
-                _refine(*sparse, f, sigma, *ladder, i, False, target, *bracket, res, rwork)
+                _refine(
+                    kp, ki, kv, bp, bi, bv, f, sigma, PT, steps, stop, sc,
+                    i, np.bool_(False), target, taus[jb - 1], X[jb - 1], ilevel[jb - 1], res, rwork,
+                )  # fmt: skip
                 half[q, i] = res[0]
         status[q] = FALLBACK if bad else OK
