@@ -77,7 +77,7 @@ def _flush(M):
 
 
 @njit(**_STEP)
-def _ladder(B, bp, bi, bv, sigma, norm, steps, P, work):
+def _ladder(B, bp, bi, bv, sigma, norm, steps, P, degree, powers, flat, acc, Q, Pflat):
     r"""Levels :math:`P_\ell = e^{u_\ell A}`, :math:`u_\ell = 2^{-15} 4^\ell`, of one member.
 
     ``A`` is the scaled (feed-augmented) matrix, :math:`B = A + \sigma I \ge 0` (also in
@@ -92,11 +92,10 @@ def _ladder(B, bp, bi, bv, sigma, norm, steps, P, work):
     carries a relative truncation error below that bound); above, a level is the exact
     power :math:`P_{\ell+1} = (P_\ell^2)^2`.  Only nonnegative numbers are added and
     multiplied (Xue & Ye 2013), so no entry suffers cancellation; entries below 1e-290 are
-    set to zero.  ``work`` holds scratch arrays: the degrees (levels + 1,) (integer), the
-    powers (na + 17, na, na) and a flat view of them (na + 17, na * na), (na * na,),
-    (na, na), and a flat view of ``P`` (levels + 1, na * na).
+    set to zero.  Scratch arrays: ``degree`` (levels + 1,) (integer), ``powers``
+    (na + 17, na, na) and ``flat``, a flat view of it (na + 17, na * na), ``acc``
+    (na * na,), ``Q`` (na, na); ``Pflat`` is a flat view of ``P`` (levels + 1, na * na).
     """
-    degree, powers, flat, acc, Q, Pflat = work
     na = B.shape[0]
     levels = steps.shape[0] - 1
     top = 1
@@ -178,13 +177,6 @@ def _row_dot(ptr, idx, val, i, x):
 
 
 @njit(**_STEP)
-def _spmv(ptr, idx, val, x, out):
-    """``out = M x`` for compressed rows (reaction schemes have a few rates per species)."""
-    for i in range(ptr.shape[0] - 1):
-        out[i] = _row_dot(ptr, idx, val, i, x)
-
-
-@njit(**_STEP)
 def _noise(d, fi, kii, ci):
     r"""Noise level :math:`10^{-12} (|K| c + |f|)_i` of :math:`d = (K c + f)_i`.
 
@@ -192,18 +184,6 @@ def _noise(d, fi, kii, ci):
     >= 0, so it needs no second product.
     """
     return REL_NOISE_D * ((d - fi) - kii * ci + abs(kii) * ci + abs(fi))
-
-
-@njit(**_STEP)
-def _derivatives(kp, ki, kv, diag, f, c, mx, D, N):
-    """``D = (K c + f)_i`` and its noise level ``N`` for the species ``mx``.
-
-    ``K`` in compressed rows ``kp, ki, kv`` with diagonal ``diag``.
-    """
-    for a in range(mx.shape[0]):
-        i = mx[a]
-        D[a] = _row_dot(kp, ki, kv, i, c) + f[i]
-        N[a] = _noise(D[a], f[i], diag[i], c[i])
 
 
 @njit(**_STEP)
@@ -232,7 +212,7 @@ def _mark(i, mark, need, used):
 @njit(**_STEP)
 def _refine(
     kp, ki, kv, bp, bi, bv, f, sigma, P, steps, stop, sc, sp, deriv, level, tau_a, x_a, lev, out,
-    work,
+    x, xa, W, D, mark, need,
 ):  # fmt: skip
     r"""Root [s] and :math:`c_{sp}` at the root of one bracket problem; writes ``out[0:2]``.
 
@@ -251,12 +231,10 @@ def _refine(
        of the time.
 
     ``P`` holds the ladder levels transposed; ``K`` and ``B`` come in compressed rows
-    (``kp, ki, kv`` and ``bp, bi, bv``); ``work``
-    holds scratch arrays of shapes (na,), (na,), (na + 15, na), (n,), and (na,) (bool and
-    integer).
+    (``kp, ki, kv`` and ``bp, bi, bv``); scratch arrays: ``x``, ``xa`` (na,), ``W``
+    (na + 15, na), ``D`` (n,), ``mark`` (na,) (bool) and ``need`` (na,) (integer).
     """
     na = x_a.shape[0]
-    x, xa, W, D, mark, need = work
     for i in range(na):
         xa[i] = x_a[i]
     ga = _g(kp, ki, kv, f, xa, sp, deriv, level)
@@ -292,7 +270,10 @@ def _refine(
     for i in range(na):
         W[0, i] = xa[i]
     for k in range(1, J + 1):
-        _spmv(bp, bi, bv, W[k - 1], x)
+        # x = B W[k - 1] in compressed rows (reaction schemes have a few rates per species)
+        Wk = W[k - 1]
+        for i in range(na):
+            x[i] = _row_dot(bp, bi, bv, i, Wk)
         for i in range(na):
             W[k, i] = x[i] / k
     lo = 0.0
@@ -392,7 +373,7 @@ def summarise_members(
     work = _work(n, n + 1 if has_feed else n, mx.shape[0], taus.size, n_seg + 1)
     member_kernel(
         K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, taus, ilevel, tmax, cmax,
-        half, status, *work[0], *work[1], work[2], work[3],
+        half, status, *work,
     )  # fmt: skip
 
 
@@ -420,22 +401,23 @@ def _work(n, na, nm, total, levels):
         empty(na), empty(na), empty(nm), empty(nm), empty(2),
     )  # fmt: skip
     powers = empty((na + 17, na, na))
-    lwork = (
+    ladder = (
         empty(levels + 1, dtype=np.int64), powers, powers.reshape(na + 17, na * na),
         empty(na * na), empty((na, na)), P.reshape(levels + 1, na * na),
     )  # fmt: skip
-    rwork = (
-        empty(na), empty(na), empty((na + NEWTON_TERMS + 1, na)), empty(n),
-        zeros(na, dtype=np.bool_), empty(na, dtype=np.int64),
+    refine = (
+        empty((na + NEWTON_TERMS + 1, na)), empty(n), zeros(na, dtype=np.bool_),
+        empty(na, dtype=np.int64),
     )  # fmt: skip
-    return mats, rows, lwork, rwork
+    return mats + rows + ladder + refine
 
 
 @njit(**_JIT)
 def member_kernel(
     K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, taus, ilevel, tmax, cmax, half,
     status, A, B, P, PT, X, D, D2, N, s, flags, CTbuf, DTbuf, D2Tbuf, diag,
-    kp, ki, kv, bp, bi, bv, x, y, Dq, Nq, res, lwork, rwork,
+    kp, ki, kv, bp, bi, bv, x, y, Dq, Nq, res, degree, powers, flat, acc, Q, Pflat,
+    W, Dn, mark, need,
 ):  # fmt: skip
     """Steps 2-5 of :mod:`kinetics.sweep_summary` for each member of a stack.
 
@@ -487,7 +469,7 @@ def member_kernel(
         norm += sigma
         _sparse(Kq, kp, ki, kv)
         _sparse(B, bp, bi, bv)
-        _ladder(B, bp, bi, bv, sigma, norm, steps, P, lwork)
+        _ladder(B, bp, bi, bv, sigma, norm, steps, P, degree, powers, flat, acc, Q, Pflat)
         # the levels transposed: matrix-vector products then read contiguous rows
         for level in range(1, levels + 1):
             for a in range(na):
@@ -564,7 +546,11 @@ def member_kernel(
                     _matvec_t(Pm, y, x)
                     for i in range(na):
                         y[i] = x[i]
-                    _derivatives(kp, ki, kv, diag, f, x, mx, Dq, Nq)
+                    # D = (K x + f)_i and its noise level for the species mx
+                    for a in range(nm):
+                        i = mx[a]
+                        Dq[a] = _row_dot(kp, ki, kv, i, x) + f[i]
+                        Nq[a] = _noise(Dq[a], f[i], diag[i], x[i])
                     for a in range(nm):
                         if not flags[a]:
                             continue
@@ -601,7 +587,8 @@ def member_kernel(
                         # or False would compile _refine once for each
                         _refine(
                             kp, ki, kv, bp, bi, bv, f, sigma, PT, steps, stop, sc,
-                            mx[a], np.bool_(True), 0.0, taus[jb], X[jb], ilevel[jb], res, rwork,
+                            mx[a], np.bool_(True), 0.0, taus[jb], X[jb], ilevel[jb], res,
+                            x, y, W, Dn, mark, need,
                         )  # fmt: skip
                         if res[1] > best:  # the first of equal heights, as analysis does
                             best = res[1]
@@ -631,7 +618,8 @@ def member_kernel(
                     break
                 _refine(
                     kp, ki, kv, bp, bi, bv, f, sigma, PT, steps, stop, sc,
-                    i, np.bool_(False), target, taus[jb - 1], X[jb - 1], ilevel[jb - 1], res, rwork,
+                    i, np.bool_(False), target, taus[jb - 1], X[jb - 1], ilevel[jb - 1], res,
+                    x, y, W, Dn, mark, need,
                 )  # fmt: skip
                 half[q, i] = res[0]
         status[q] = FALLBACK if bad else OK
