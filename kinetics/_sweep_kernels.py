@@ -209,6 +209,7 @@ def _mark(i, mark, need, used):
     return used
 
 
+# longer than the usual limit, as compiled kernels may be (see member_kernel)
 @njit(**_STEP)
 def _refine(
     kp, ki, kv, bp, bi, bv, f, sigma, P, steps, stop, sc, sp, deriv, level, tau_a, x_a, lev, out,
@@ -412,6 +413,8 @@ def _work(n, na, nm, total, levels):
     return mats + rows + ladder + refine
 
 
+# longer than the usual limit, as compiled kernels may be: one body compiles faster than
+# the same code in kernels of its own (DEVELOPERS.md, "Compiled kernels")
 @njit(**_JIT)
 def member_kernel(
     K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, taus, ilevel, tmax, cmax, half,
@@ -421,12 +424,10 @@ def member_kernel(
 ):  # fmt: skip
     """Steps 2-5 of :mod:`kinetics.sweep_summary` for each member of a stack.
 
-    ``K`` (b, n, n) [1/s] with ``q_low`` (b, n) the low parts of its diagonal (the exact
-    diagonal is ``K[i, i] + q_low[i]``); ``f`` (n,) feed (zeros without); ``scale`` the
-    powers of two of the scaled time; ``t_hi`` the scan ends [s]; ``mx`` the species that
-    can turn over, ``hl`` those with a start value; ``n_seg`` the scan segments of the
-    stack.  Writes
-    ``tmax``, ``cmax`` (interior maxima, global or not), ``half`` [s] and ``status``.
+    The arguments of :func:`summarise_members`, with the ladder steps ``steps`` and the
+    scan grid ``taus``, ``ilevel`` (points and the level of each step) instead of
+    ``n_seg``, then the scratch arrays of :func:`_work` (allocated by the caller: each
+    kind of ``np.empty`` call in a kernel compiles code of its own).
     """
     b, n, _ = K.shape
     na = n + 1 if has_feed else n

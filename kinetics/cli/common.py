@@ -52,7 +52,8 @@ FIRST_USE = (
     "(once, about 5 s; later runs load it from disk)"
 )
 #: the same note when the sweep kernels are compiled too (measured with
-#: benchmarks/bench_first_use.py: about 5 s for solve, 8 s for a sweep)
+#: benchmarks/bench_first_use.py: about 4.5 s for solve, 6 s for a sweep of the summaries;
+#: a sweep that also needs the curves compiles the engine's kernels too)
 FIRST_USE_SWEEP = FIRST_USE.replace("about 5 s", "about 10 s")
 
 
