@@ -367,7 +367,8 @@ def summarise_members(
     # ladder steps u_l = 2^-15 4^l (exact powers of two) and the scan grid: 0, four steps
     # of level 2, then n_seg segments of SEGMENT_STEPS steps of levels 2, 3, ...
     steps = U0 * float(RATIO) ** np.arange(n_seg + 2)
-    ilevel = np.concatenate(([2] * 4, np.repeat(np.arange(2, n_seg + 2), SEGMENT_STEPS)))
+    levels = np.arange(2, n_seg + 2, dtype=np.int64)
+    ilevel = np.concatenate((np.full(4, 2, dtype=np.int64), np.repeat(levels, SEGMENT_STEPS)))
     taus = np.zeros(ilevel.size + 1)
     np.cumsum(steps[ilevel], out=taus[1:])  # sequential sums, as the scan adds them
     n = K.shape[1]
