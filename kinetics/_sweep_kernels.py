@@ -33,6 +33,7 @@ from .analysis.tolerances import (
     XTOL,
 )
 from .engine.kernels import matmul_double, two_sum
+from .engine.plan import TINY as FLUSH  # entries below: no relative accuracy (and slow)
 
 # the constants of the method live in kinetics.analysis.tolerances (numba reads module
 # globals as compile-time constants)
@@ -42,7 +43,6 @@ _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
 # no cache file of their own (member_kernel's cached code includes them)
 _STEP = {"nogil": True, "error_model": "numpy", "no_cpython_wrapper": True}
 
-FLUSH = 1e-290  # entries below are outside the relative-accuracy range (and slow)
 TAIL = 0.5**17 / math.factorial(17)  # remainder of the ladder's Taylor sum at y = 1/2
 
 #: status codes of a member
