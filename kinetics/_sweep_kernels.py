@@ -33,25 +33,23 @@ from .analysis.tolerances import (
     XTOL,
 )
 from .engine.kernels import matmul_double, two_sum
+from .engine.plan import TINY as FLUSH  # entries below: no relative accuracy (and slow)
 
 # the constants of the method live in kinetics.analysis.tolerances (numba reads module
 # globals as compile-time constants)
 
 _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
-# steps called only from summarise_members: no wrapper for calls from Python and no cache
-# file of their own (summarise_members' cached code includes them)
+# steps and helpers called only from member_kernel: no wrapper for calls from Python and
+# no cache file of their own (member_kernel's cached code includes them)
 _STEP = {"nogil": True, "error_model": "numpy", "no_cpython_wrapper": True}
-# small helpers are inlined into their callers (numba IR inlining)
-_INLINE = {**_JIT, "inline": "always"}
 
-FLUSH = 1e-290  # entries below are outside the relative-accuracy range (and slow)
 TAIL = 0.5**17 / math.factorial(17)  # remainder of the ladder's Taylor sum at y = 1/2
 
 #: status codes of a member
 OK, FALLBACK = 0, 1
 
 
-@njit(**_INLINE)
+@njit(**_STEP)
 def _matvec_t(AT, x, out):
     """``out = A x`` from the transpose ``AT``.
 
@@ -78,13 +76,8 @@ def _flush(M):
                 M[i, j] = 0.0
 
 
-@njit(**_INLINE)
-def _step(level):
-    return U0 * float(RATIO) ** level
-
-
 @njit(**_STEP)
-def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
+def _ladder(B, bp, bi, bv, sigma, norm, steps, P, degree, powers, flat, acc, Q, Pflat):
     r"""Levels :math:`P_\ell = e^{u_\ell A}`, :math:`u_\ell = 2^{-15} 4^\ell`, of one member.
 
     ``A`` is the scaled (feed-augmented) matrix, :math:`B = A + \sigma I \ge 0` (also in
@@ -99,19 +92,21 @@ def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
     carries a relative truncation error below that bound); above, a level is the exact
     power :math:`P_{\ell+1} = (P_\ell^2)^2`.  Only nonnegative numbers are added and
     multiplied (Xue & Ye 2013), so no entry suffers cancellation; entries below 1e-290 are
-    set to zero.
+    set to zero.  Scratch arrays: ``degree`` (levels + 1,) (integer), ``powers``
+    (na + 17, na, na) and ``flat``, a flat view of it (na + 17, na * na), ``acc``
+    (na * na,), ``Q`` (na, na); ``Pflat`` is a flat view of ``P`` (levels + 1, na * na).
     """
     na = B.shape[0]
+    levels = steps.shape[0] - 1
     top = 1
     for level in range(2, levels + 1):
-        if _step(level) * norm <= 0.5:
+        if steps[level] * norm <= 0.5:
             top = level
     # degree of each Taylor level: every path (na - 1 steps) plus the terms until the
     # scalar remainder y^(t+1)/(t+1)! is below that of the top case, y = 1/2 and 17 terms
     # (2^-17/17!); the low levels, with tiny y, need far fewer terms
-    degree = np.empty(top + 1, dtype=np.int64)
     for level in range(1, top + 1):
-        y = _step(level) * norm
+        y = steps[level] * norm
         t = 0
         term = y
         while term > TAIL and t < 16:
@@ -120,8 +115,8 @@ def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
         degree[level] = na + t
     m = degree[top]
     for level in range(1, top + 1):
-        m = max(m, degree[level])
-    powers = np.empty((m + 1, na, na))
+        if degree[level] > m:
+            m = degree[level]
     for i in range(na):
         for j in range(na):
             powers[0, i, j] = 1.0 if i == j else 0.0
@@ -136,10 +131,8 @@ def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
                 for j in range(na):
                     powers[k, i, j] += v * powers[k - 1, r, j]
     # Horner in the scalar u, sum_k u^k/k! B^k, on the flattened matrices (long loops)
-    flat = powers.reshape(m + 1, na * na)
-    acc = np.empty(na * na)
     for level in range(1, top + 1):
-        u = _step(level)
+        u = steps[level]
         ml = degree[level]
         c = u / ml
         for e in range(na * na):
@@ -149,11 +142,10 @@ def _ladder(B, bp, bi, bv, sigma, norm, levels, P):
             for e in range(na * na):
                 acc[e] = (flat[k, e] + acc[e]) * c
         ex = math.exp(-sigma * u)
-        out = P[level].reshape(na * na)
+        out = Pflat[level]
         for e in range(na * na):
             out[e] = (flat[0, e] + acc[e]) * ex
         _flush(P[level])
-    Q = np.empty((na, na))
     for level in range(top + 1, levels + 1):
         matmul_double(P[level - 1], P[level - 1], Q)
         _flush(Q)
@@ -176,7 +168,7 @@ def _sparse(M, ptr, idx, val):
     ptr[n] = k
 
 
-@njit(**_INLINE)
+@njit(**_STEP, inline="always")
 def _row_dot(ptr, idx, val, i, x):
     s = 0.0
     for k in range(ptr[i], ptr[i + 1]):
@@ -184,14 +176,7 @@ def _row_dot(ptr, idx, val, i, x):
     return s
 
 
-@njit(**_INLINE)
-def _spmv(ptr, idx, val, x, out):
-    """``out = M x`` for compressed rows (reaction schemes have a few rates per species)."""
-    for i in range(ptr.shape[0] - 1):
-        out[i] = _row_dot(ptr, idx, val, i, x)
-
-
-@njit(**_INLINE)
+@njit(**_STEP)
 def _noise(d, fi, kii, ci):
     r"""Noise level :math:`10^{-12} (|K| c + |f|)_i` of :math:`d = (K c + f)_i`.
 
@@ -202,23 +187,11 @@ def _noise(d, fi, kii, ci):
 
 
 @njit(**_STEP)
-def _derivatives(kp, ki, kv, diag, f, c, mx, D, N):
-    """``D = (K c + f)_i`` and its noise level ``N`` for the species ``mx``.
-
-    ``K`` in compressed rows ``kp, ki, kv`` with diagonal ``diag``.
-    """
-    for a in range(mx.shape[0]):
-        i = mx[a]
-        D[a] = _row_dot(kp, ki, kv, i, c) + f[i]
-        N[a] = _noise(D[a], f[i], diag[i], c[i])
-
-
-@njit(**_INLINE)
 def _sign(x):
     return 1 if x > 0 else (-1 if x < 0 else 0)
 
 
-@njit(**_INLINE)
+@njit(**_STEP)
 def _g(kp, ki, kv, f, x, sp, deriv, level):
     """G at state x: ``(K c + f)_sp`` for a maximum, ``c_sp - level`` for a half-life."""
     if deriv:
@@ -226,7 +199,7 @@ def _g(kp, ki, kv, f, x, sp, deriv, level):
     return x[sp] - level
 
 
-@njit(**_INLINE)
+@njit(**_STEP)
 def _mark(i, mark, need, used):
     """Append species ``i`` to ``need[:used]`` once."""
     if not mark[i]:
@@ -236,10 +209,12 @@ def _mark(i, mark, need, used):
     return used
 
 
+# longer than the usual limit, as compiled kernels may be (see member_kernel)
 @njit(**_STEP)
 def _refine(
-    kp, ki, kv, bp, bi, bv, f, sigma, P, stop, sc, sp, deriv, level, tau_a, x_a, lev, out, work
-):
+    kp, ki, kv, bp, bi, bv, f, sigma, P, steps, stop, sc, sp, deriv, level, tau_a, x_a, lev, out,
+    x, xa, W, D, mark, need,
+):  # fmt: skip
     r"""Root [s] and :math:`c_{sp}` at the root of one bracket problem; writes ``out[0:2]``.
 
     The problem is :math:`g = (K c + f)_{sp}` (a maximum, ``deriv``) or
@@ -257,12 +232,10 @@ def _refine(
        of the time.
 
     ``P`` holds the ladder levels transposed; ``K`` and ``B`` come in compressed rows
-    (``kp, ki, kv`` and ``bp, bi, bv``); ``work``
-    holds scratch arrays of shapes (na,), (na,), (na + 15, na), (n,), and (na,) (bool and
-    integer).
+    (``kp, ki, kv`` and ``bp, bi, bv``); scratch arrays: ``x``, ``xa`` (na,), ``W``
+    (na + 15, na), ``D`` (n,), ``mark`` (na,) (bool) and ``need`` (na,) (integer).
     """
     na = x_a.shape[0]
-    x, xa, W, D, mark, need = work
     for i in range(na):
         xa[i] = x_a[i]
     ga = _g(kp, ki, kv, f, xa, sp, deriv, level)
@@ -270,7 +243,7 @@ def _refine(
     gb = _g(kp, ki, kv, f, x, sp, deriv, level)
     # 1. narrowing by quarters with the next lower level
     while lev > stop:
-        u = _step(lev - 1)
+        u = steps[lev - 1]
         Pm = P[lev - 1]
         shift = float(RATIO - 1)
         g_prev = ga
@@ -293,12 +266,15 @@ def _refine(
         tau_a += shift * u
         lev -= 1
     # 2. Newton on the Taylor series of the last bracket [tau_a, tau_a + w]
-    w = _step(lev)
+    w = steps[lev]
     J = na + NEWTON_TERMS
     for i in range(na):
         W[0, i] = xa[i]
     for k in range(1, J + 1):
-        _spmv(bp, bi, bv, W[k - 1], x)
+        # x = B W[k - 1] in compressed rows (reaction schemes have a few rates per species)
+        Wk = W[k - 1]
+        for i in range(na):
+            x[i] = _row_dot(bp, bi, bv, i, Wk)
         for i in range(na):
             W[k, i] = x[i] / k
     lo = 0.0
@@ -307,15 +283,14 @@ def _refine(
     frac = ga / den if den != 0.0 else (np.nan if ga == 0.0 else np.inf * ga)
     if np.isnan(frac):
         frac = 0.5
-    frac = min(max(frac, 0.02), 0.98)
+    frac = 0.02 if 0.02 > frac else (0.98 if 0.98 < frac else frac)
     delta = frac * w
     height = 0.0
     # g and dg/dt need c only at sp, at the species of the row of sp and (for a maximum)
     # at the species of their rows: the state is summed at those entries only
-    used = 0
     for i in range(na):
         mark[i] = False
-    used = _mark(sp, mark, need, used)
+    used = _mark(sp, mark, need, np.int64(0))  # an int64, not the literal 0: one signature
     for e in range(kp[sp], kp[sp + 1]):
         used = _mark(ki[e], mark, need, used)
     rows_used = used
@@ -364,17 +339,18 @@ def _hermite_hit(g0, g1, m0, m1, tol, sg):
     """A sign change of the cubic Hermite model at the interior sixteenths."""
     for q in range(1, 16):
         x = q / 16.0
-        h00 = 2 * x**3 - 3 * x**2 + 1
-        h10 = x**3 - 2 * x**2 + x
-        h01 = -2 * x**3 + 3 * x**2
-        h11 = x**3 - x**2
+        x2 = x * x
+        x3 = x * x2
+        h00 = 2 * x3 - 3 * x2 + 1
+        h10 = x3 - 2 * x2 + x
+        h01 = -2 * x3 + 3 * x2
+        h11 = x3 - x2
         p = h00 * g0 + h10 * m0 + h01 * g1 + h11 * m1
         if _sign(p) != sg and abs(p) > tol:
             return True
     return False
 
 
-@njit(**_JIT)
 def summarise_members(
     K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax, half, status
 ):
@@ -384,56 +360,81 @@ def summarise_members(
     diagonal is ``K[i, i] + q_low[i]``); ``f`` (n,) feed (zeros without); ``scale`` the
     powers of two of the scaled time; ``t_hi`` the scan ends [s]; ``mx`` the species that
     can turn over, ``hl`` those with a start value; ``n_seg`` the scan segments of the
-    stack.  Writes
-    ``tmax``, ``cmax`` (interior maxima, global or not), ``half`` [s] and ``status``.
+    stack.  Writes ``tmax``, ``cmax`` (interior maxima, global or not), ``half`` [s] and
+    ``status``.  The scan grid is formed here, the members are computed by
+    :func:`member_kernel`.
+    """
+    # ladder steps u_l = 2^-15 4^l (exact powers of two) and the scan grid: 0, four steps
+    # of level 2, then n_seg segments of SEGMENT_STEPS steps of levels 2, 3, ...
+    steps = U0 * float(RATIO) ** np.arange(n_seg + 2)
+    levels = np.arange(2, n_seg + 2, dtype=np.int64)
+    ilevel = np.concatenate((np.full(4, 2, dtype=np.int64), np.repeat(levels, SEGMENT_STEPS)))
+    taus = np.zeros(ilevel.size + 1)
+    np.cumsum(steps[ilevel], out=taus[1:])  # sequential sums, as the scan adds them
+    n = K.shape[1]
+    work = _work(n, n + 1 if has_feed else n, mx.shape[0], taus.size, n_seg + 1)
+    member_kernel(
+        K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, taus, ilevel, tmax, cmax,
+        half, status, *work,
+    )  # fmt: skip
+
+
+def _work(n, na, nm, total, levels):
+    """The scratch arrays of :func:`member_kernel`.
+
+    Allocated here, not in the kernel: each kind of ``np.empty`` call in a kernel
+    compiles code of its own.
+    """
+    empty, zeros = np.empty, np.zeros
+    # points along rows for the products of the kernel, as flat buffers: an (n, M) view of
+    # one is C-contiguous (a column slice of an (n, total) array would not be, and would
+    # compile a second version of matmul_double)
+    P = empty((levels + 1, na, na))
+    mats = (
+        zeros((na, na)), empty((na, na)), P,
+        empty((levels + 1, na, na)), empty((total, na)), empty((total, nm)),
+        empty((total, nm)), empty((total, nm)), zeros((total, nm), dtype=np.int8),
+        zeros(nm, dtype=np.bool_), empty(n * total), empty(n * total), empty(n * total),
+        empty(n),
+    )  # fmt: skip
+    rows = (
+        empty(n + 1, dtype=np.int64), empty(n * n, dtype=np.int64), empty(n * n),
+        empty(na + 1, dtype=np.int64), empty(na * na, dtype=np.int64), empty(na * na),
+        empty(na), empty(na), empty(nm), empty(nm), empty(2),
+    )  # fmt: skip
+    powers = empty((na + 17, na, na))
+    ladder = (
+        empty(levels + 1, dtype=np.int64), powers, powers.reshape(na + 17, na * na),
+        empty(na * na), empty((na, na)), P.reshape(levels + 1, na * na),
+    )  # fmt: skip
+    refine = (
+        empty((na + NEWTON_TERMS + 1, na)), empty(n), zeros(na, dtype=np.bool_),
+        empty(na, dtype=np.int64),
+    )  # fmt: skip
+    return mats + rows + ladder + refine
+
+
+# longer than the usual limit, as compiled kernels may be: one body compiles faster than
+# the same code in kernels of its own (DEVELOPERS.md, "Compiled kernels")
+@njit(**_JIT)
+def member_kernel(
+    K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, taus, ilevel, tmax, cmax, half,
+    status, A, B, P, PT, X, D, D2, N, s, flags, CTbuf, DTbuf, D2Tbuf, diag,
+    kp, ki, kv, bp, bi, bv, x, y, Dq, Nq, res, degree, powers, flat, acc, Q, Pflat,
+    W, Dn, mark, need,
+):  # fmt: skip
+    """Steps 2-5 of :mod:`kinetics.sweep_summary` for each member of a stack.
+
+    The arguments of :func:`summarise_members`, with the ladder steps ``steps`` and the
+    scan grid ``taus``, ``ilevel`` (points and the level of each step) instead of
+    ``n_seg``, then the scratch arrays of :func:`_work` (allocated by the caller: each
+    kind of ``np.empty`` call in a kernel compiles code of its own).
     """
     b, n, _ = K.shape
     na = n + 1 if has_feed else n
-    levels = n_seg + 1
-    total = 1 + 4 + SEGMENT_STEPS * n_seg
-    taus = np.zeros(total)
-    ilevel = np.empty(total - 1, dtype=np.int64)
-    j = 0
-    for seg in range(n_seg + 1):
-        level = 2 if seg == 0 else seg + 1
-        count = 4 if seg == 0 else SEGMENT_STEPS
-        for _ in range(count):
-            j += 1
-            taus[j] = taus[j - 1] + _step(level)
-            ilevel[j - 1] = level
-    A = np.zeros((na, na))
-    B = np.empty((na, na))
-    P = np.empty((levels + 1, na, na))
-    PT = np.empty((levels + 1, na, na))
-    X = np.empty((total, na))
+    levels = steps.shape[0] - 1
+    total = taus.shape[0]
     nm = mx.shape[0]
-    D = np.empty((total, nm))
-    D2 = np.empty((total, nm))
-    N = np.empty((total, nm))
-    s = np.zeros((total, nm), dtype=np.int8)
-    flags = np.zeros(nm, dtype=np.bool_)
-    # points along rows for the products below, as flat buffers: an (n, M) view of one is
-    # C-contiguous (a column slice of an (n, total) array would not be, and would compile
-    # a second version of matmul_double)
-    CTbuf = np.empty(n * total)
-    DTbuf = np.empty(n * total)
-    D2Tbuf = np.empty(n * total)
-    diag = np.empty(n)
-    kp = np.empty(n + 1, dtype=np.int64)
-    ki = np.empty(n * n, dtype=np.int64)
-    kv = np.empty(n * n)
-    bp = np.empty(na + 1, dtype=np.int64)
-    bi = np.empty(na * na, dtype=np.int64)
-    bv = np.empty(na * na)
-    x = np.empty(na)
-    y = np.empty(na)
-    Dq = np.empty(nm)
-    Nq = np.empty(nm)
-    res = np.empty(2)
-    rwork = (
-        np.empty(na), np.empty(na), np.empty((na + NEWTON_TERMS + 1, na)), np.empty(n),
-        np.zeros(na, dtype=np.bool_), np.empty(na, dtype=np.int64),
-    )  # fmt: skip
     for q in range(b):
         Kq = K[q]
         sc = scale[q]
@@ -466,11 +467,11 @@ def summarise_members(
             col = 0.0
             for a in range(n):
                 col += abs(B[a, c])
-            norm = max(norm, col)
+            norm = col if col > norm else norm
         norm += sigma
         _sparse(Kq, kp, ki, kv)
         _sparse(B, bp, bi, bv)
-        _ladder(B, bp, bi, bv, sigma, norm, levels, P)
+        _ladder(B, bp, bi, bv, sigma, norm, steps, P, degree, powers, flat, acc, Q, Pflat)
         # the levels transposed: matrix-vector products then read contiguous rows
         for level in range(1, levels + 1):
             for a in range(na):
@@ -481,7 +482,7 @@ def summarise_members(
         stop_f = (
             math.floor(math.log(NEWTON_Y / (U0 * norm)) / math.log(RATIO)) if norm > 0 else levels
         )
-        stop = int(min(max(stop_f, 1), levels))
+        stop = 1 if stop_f < 1 else (levels if stop_f > levels else stop_f)
         # scan, up to the member's own t_hi
         for i in range(n):
             X[0, i] = c0[q, i]
@@ -530,8 +531,9 @@ def summarise_members(
                         continue
                     g0, g1 = D[jj, a], D[jj + 1, a]
                     m0, m1 = h * D2[jj, a], h * D2[jj + 1, a]
-                    tol = max(N[jj, a], N[jj + 1, a])
-                    if 4.0 / 27.0 * (abs(m0) + abs(m1)) < min(abs(g0), abs(g1)) - tol:
+                    tol = N[jj + 1, a] if N[jj + 1, a] > N[jj, a] else N[jj, a]
+                    low = abs(g1) if abs(g1) < abs(g0) else abs(g0)
+                    if 4.0 / 27.0 * (abs(m0) + abs(m1)) < low - tol:
                         continue
                     if _hermite_hit(g0, g1, m0, m1, tol, sg):
                         flags[a] = True
@@ -546,7 +548,11 @@ def summarise_members(
                     _matvec_t(Pm, y, x)
                     for i in range(na):
                         y[i] = x[i]
-                    _derivatives(kp, ki, kv, diag, f, x, mx, Dq, Nq)
+                    # D = (K x + f)_i and its noise level for the species mx
+                    for a in range(nm):
+                        i = mx[a]
+                        Dq[a] = _row_dot(kp, ki, kv, i, x) + f[i]
+                        Nq[a] = _noise(Dq[a], f[i], diag[i], x[i])
                     for a in range(nm):
                         if not flags[a]:
                             continue
@@ -578,11 +584,14 @@ def summarise_members(
                         if not (s[jj - 1, a] > 0 and s[jj, a] < 0):
                             continue
                         jb = jj - 1
-                        sparse = (kp, ki, kv, bp, bi, bv)
-                        bracket = (taus[jb], X[jb], ilevel[jb])
+                        # arguments written out: star arguments pack and unpack tuples of
+                        # arrays (7 times the code per call); np.bool_, as a literal True
+                        # or False would compile _refine once for each
                         _refine(
-                            *sparse, f, sigma, PT, stop, sc, mx[a], True, 0.0, *bracket, res, rwork
-                        )
+                            kp, ki, kv, bp, bi, bv, f, sigma, PT, steps, stop, sc,
+                            mx[a], np.bool_(True), 0.0, taus[jb], X[jb], ilevel[jb], res,
+                            x, y, W, Dn, mark, need,
+                        )  # fmt: skip
                         if res[1] > best:  # the first of equal heights, as analysis does
                             best = res[1]
                             tmax[q, mx[a]] = res[0]
@@ -596,7 +605,7 @@ def summarise_members(
                 jb = -1
                 for jj in range(M):
                     gv = X[jj, i] - target
-                    noise = REL_NOISE_C * max(X[jj, i], target)
+                    noise = REL_NOISE_C * (target if target > X[jj, i] else X[jj, i])
                     if abs(gv) <= noise:
                         continue
                     if gv > 0:
@@ -609,8 +618,10 @@ def summarise_members(
                 if jb - lastpos > 1:
                     bad = True
                     break
-                sparse = (kp, ki, kv, bp, bi, bv)
-                bracket = (taus[jb - 1], X[jb - 1], ilevel[jb - 1])
-                _refine(*sparse, f, sigma, PT, stop, sc, i, False, target, *bracket, res, rwork)
+                _refine(
+                    kp, ki, kv, bp, bi, bv, f, sigma, PT, steps, stop, sc,
+                    i, np.bool_(False), target, taus[jb - 1], X[jb - 1], ilevel[jb - 1], res,
+                    x, y, W, Dn, mark, need,
+                )  # fmt: skip
                 half[q, i] = res[0]
         status[q] = FALLBACK if bad else OK

@@ -52,7 +52,8 @@ FIRST_USE = (
     "(once, about 5 s; later runs load it from disk)"
 )
 #: the same note when the sweep kernels are compiled too (measured with
-#: benchmarks/bench_first_use.py: about 5 s for solve, 8 s for a sweep)
+#: benchmarks/bench_first_use.py: about 4.5 s for solve, 6 s for a sweep of the summaries;
+#: a sweep that also needs the curves compiles the engine's kernels too)
 FIRST_USE_SWEEP = FIRST_USE.replace("about 5 s", "about 10 s")
 
 
@@ -64,7 +65,7 @@ def first_use_note(sweeps: bool = False) -> None:
     if sweeps:
         from kinetics import _sweep_kernels
 
-        entries.append(_sweep_kernels.summarise_members)
+        entries.append(_sweep_kernels.member_kernel)
     if not all(kernels.on_disk(k) for k in entries):
         click.echo(FIRST_USE_SWEEP if sweeps else FIRST_USE, err=True)
 
