@@ -7,6 +7,7 @@ decisions (routes, plans, retries) and the bounds (:mod:`kinetics.engine.plan`).
 from __future__ import annotations
 
 import math
+import struct
 
 import numpy as np
 
@@ -21,6 +22,7 @@ from kinetics.engine.plan import (
     pattern_stats,
     predicted_double,
     product_error,
+    remembered,
     rounding_bound,
 )
 
@@ -245,6 +247,14 @@ def _run_stack(A, Al, x0, times, precision: str, species: int):
     return X, bound, exps.label()
 
 
+#: a stack of at most this many matrix entries has its exponentials remembered (at most
+#: 256 of them, :func:`kinetics.engine.plan.remembered`, 16 MB at this size): a scheme solved
+#: again on the same grid, as in a repeated or a sweeping call, skips the plan and the
+#: exponential (for 10 species they cost more than the grid itself)
+REMEMBER_ENTRIES = 64 * 64
+_EXPONENTIALS: dict[bytes, tuple] = {}
+
+
 class _StackExponentials:
     """The exponentials of one stack over steps of given lengths, and the routes they took."""
 
@@ -253,13 +263,27 @@ class _StackExponentials:
         self.Al = Al
         self.precision = precision
         self.routes: set[str] = set()
+        # what the exponentials depend on besides the step (None: too large to remember)
+        self.key = (
+            struct.pack("<3q", *A.shape) + precision.encode() + A.tobytes() + Al.tobytes()
+            if A.size <= REMEMBER_ENTRIES
+            else None
+        )
 
     def of(self, h: float, columns: int = 1):
         """``(Fh, Fl, eps, is_dd)`` of :func:`expm_stack` for the step ``h`` [s]."""
         b = self.A.shape[0]
-        Fh, Fl, eps, is_dd = expm_stack(
-            self.A, self.Al, np.full(b, h), self.precision, columns=columns
-        )
+
+        def compute():
+            return expm_stack(self.A, self.Al, np.full(b, h), self.precision, columns=columns)
+
+        if self.key is None:
+            Fh, Fl, eps, is_dd = compute()
+        else:
+            key = self.key + struct.pack("<dq", h, columns)
+            # shared by the calls that remember them: only read (by the kernels), never
+            # written (not flagged read-only: the kernels would be compiled twice)
+            Fh, Fl, eps, is_dd = remembered(_EXPONENTIALS, key, compute)
         if np.any(is_dd):
             self.routes.add("double-double")
         if not np.all(is_dd):
