@@ -201,7 +201,8 @@ def propagate_stack(A, Al, x0, times, precision: str, species: int):
     A, Al: (b, N, N), x0: (b, N).  Returns (X (b, p, N), bound (b, p), route label);
     ``bound`` covers everything between the exact pair, the given start values and
     times, and the returned doubles (the final rounding included); the first
-    ``species`` rows are concentrations (the others a constant feed row).
+    ``species`` rows are concentrations (the others a constant feed row).  The states at
+    time 0 are ``x0`` exactly.
     """
     from kinetics.engine import kernels
 
@@ -284,9 +285,9 @@ class _StackExponentials:
             # shared by the calls that remember them: only read (by the kernels), never
             # written (not flagged read-only: the kernels would be compiled twice)
             Fh, Fl, eps, is_dd = remembered(_EXPONENTIALS, key, compute)
-        if np.any(is_dd):
+        if is_dd.any():
             self.routes.add("double-double")
-        if not np.all(is_dd):
+        if not is_dd.all():
             self.routes.add("double")
         return Fh, Fl, eps, is_dd
 
@@ -306,23 +307,24 @@ def _uniform_grid(exps: _StackExponentials, x0, times, start: int, dt: float, X,
 
     b, N = x0.shape
     p = times.size
-    # state as double-double column blocks (b, N, 1)
-    vh = x0[:, :, None].copy()
-    vl = np.zeros_like(vh)
+    # the start state as a double-double pair (b, N); the kernel only reads it
+    vh = np.ascontiguousarray(x0)
+    vl = np.zeros((b, N))
     cur_bound = np.zeros(b)
-    t_first = times[start]
+    t_first = float(times[start])
     # a grid dt, 2 dt, ... (the usual linspace from 0) needs one exponential
-    skip = 1 if abs(t_first - dt) <= 4 * U * times[-1] else 0
+    skip = 1 if abs(t_first - dt) <= 4 * U * float(times[-1]) else 0
     M = p - start - 1 + skip
     if not skip:
         Fh, Fl, eps, is_dd = exps.of(t_first)
-        vh, vl = mv(Fh, Fl, vh, vl, is_dd)
+        oh, ol = mv(Fh, Fl, x0[:, :, None], vl[:, :, None], is_dd)  # as column blocks
+        vh, vl = oh[..., 0].copy(), ol[..., 0].copy()
         cur_bound = compose(eps, gamma_stack(N, is_dd))
     Fh, Fl, eps, is_dd = exps.of(dt, columns=M + 1)
     # states F^k v for k = 0..M (one product each), their bounds and time residuals
     kernels.grid(
-        Fh, Fl, vh[..., 0].copy(), vl[..., 0].copy(), M + 1, skip, np.asarray(is_dd), X,
-        start, eps, gamma_stack(N, is_dd), cur_bound, bound, times, t_first, dt, residual,
+        Fh, Fl, vh, vl, M + 1, skip, is_dd, X, start, eps, gamma_stack(N, is_dd), cur_bound,
+        bound, times, t_first, dt, residual,
     )  # fmt: skip
 
 
