@@ -649,11 +649,18 @@ def residual_corrections(A, X, delta, species, gamma, tiny, bound):
     # as columns, so that every loop below runs over them (contiguous, the same
     # operations for each): each sum still adds its terms in the order of A x.
     b, _, N = X.shape
-    cols = np.flatnonzero(delta != 0.0)
-    P = cols.size
-    d = np.empty(P)
-    for m in range(P):
-        d[m] = delta[cols[m]]
+    P = 0
+    for k in range(delta.shape[0]):
+        if delta[k] != 0.0:
+            P += 1
+    cols = np.empty(P, dtype=np.int64)  # the points with a residual, by explicit loops
+    d = np.empty(P)  # (an array expression would cost seconds of compilation)
+    P = 0
+    for k in range(delta.shape[0]):
+        if delta[k] != 0.0:
+            cols[P] = k
+            d[P] = delta[k]
+            P += 1
     AT = np.empty((N, N))  # A of the member, transposed
     first = np.empty(N, dtype=np.int64)  # column c of A is zero outside first..last - 1
     last = np.empty(N, dtype=np.int64)
