@@ -272,24 +272,31 @@ class _StackExponentials:
         )
 
     def of(self, h: float, columns: int = 1):
-        """``(Fh, Fl, eps, is_dd)`` of :func:`expm_stack` for the step ``h`` [s]."""
-        b = self.A.shape[0]
+        """``(Fh, Fl, eps, is_dd, gamma)`` for the step ``h`` [s].
+
+        :func:`expm_stack`'s exponentials, bounds and routes, and the bound of one product
+        with each member (:func:`gamma_stack`).
+        """
+        b, N, _ = self.A.shape
 
         def compute():
-            return expm_stack(self.A, self.Al, np.full(b, h), self.precision, columns=columns)
+            Fh, Fl, eps, is_dd = expm_stack(
+                self.A, self.Al, np.full(b, h), self.precision, columns=columns
+            )
+            routes = frozenset(
+                ("double-double",) * bool(is_dd.any()) + ("double",) * (not is_dd.all())
+            )
+            return Fh, Fl, eps, is_dd, gamma_stack(N, is_dd), routes
 
         if self.key is None:
-            Fh, Fl, eps, is_dd = compute()
+            *result, routes = compute()
         else:
             key = self.key + struct.pack("<dq", h, columns)
             # shared by the calls that remember them: only read (by the kernels), never
             # written (not flagged read-only: the kernels would be compiled twice)
-            Fh, Fl, eps, is_dd = remembered(_EXPONENTIALS, key, compute)
-        if is_dd.any():
-            self.routes.add("double-double")
-        if not is_dd.all():
-            self.routes.add("double")
-        return Fh, Fl, eps, is_dd
+            *result, routes = remembered(_EXPONENTIALS, key, compute)
+        self.routes |= routes
+        return tuple(result)
 
     def label(self) -> str:
         """The routes taken (``double``, ``double-double`` or both), or the precision asked."""
@@ -316,14 +323,14 @@ def _uniform_grid(exps: _StackExponentials, x0, times, start: int, dt: float, X,
     skip = 1 if abs(t_first - dt) <= 4 * U * float(times[-1]) else 0
     M = p - start - 1 + skip
     if not skip:
-        Fh, Fl, eps, is_dd = exps.of(t_first)
+        Fh, Fl, eps, is_dd, gamma = exps.of(t_first)
         oh, ol = mv(Fh, Fl, x0[:, :, None], vl[:, :, None], is_dd)  # as column blocks
         vh, vl = oh[..., 0].copy(), ol[..., 0].copy()
-        cur_bound = compose(eps, gamma_stack(N, is_dd))
-    Fh, Fl, eps, is_dd = exps.of(dt, columns=M + 1)
+        cur_bound = compose(eps, gamma)
+    Fh, Fl, eps, is_dd, gamma = exps.of(dt, columns=M + 1)
     # states F^k v for k = 0..M (one product each), their bounds and time residuals
     kernels.grid(
-        Fh, Fl, vh, vl, M + 1, skip, is_dd, X, start, eps, gamma_stack(N, is_dd), cur_bound,
+        Fh, Fl, vh, vl, M + 1, skip, is_dd, X, start, eps, gamma, cur_bound,
         bound, times, t_first, dt, residual,
     )  # fmt: skip
 
@@ -336,7 +343,7 @@ def _each_interval(exps: _StackExponentials, x0, times, start: int, X, bound, re
     """
     from kinetics.engine import kernels
 
-    b, N = x0.shape
+    b = x0.shape[0]
     p = times.size
     vh = x0[:, :, None].copy()  # state as double-double column blocks (b, N, 1)
     vl = np.zeros_like(vh)
@@ -349,9 +356,9 @@ def _each_interval(exps: _StackExponentials, x0, times, start: int, X, bound, re
         if h > 0:
             if h not in cache:
                 cache[h] = exps.of(h, columns=p - start + 1)  # states ahead: all of them
-            Fh, Fl, eps, is_dd = cache[h]
+            Fh, Fl, eps, is_dd, gamma = cache[h]
             vh, vl = mv(Fh, Fl, vh, vl, is_dd)
-            cur_bound = compose(cur_bound, compose(eps, gamma_stack(N, is_dd)))
+            cur_bound = compose(cur_bound, compose(eps, gamma))
             hi, lo = kernels.two_sum(reached[0], h)
             lo += reached[1]
             reached = (hi + lo, lo - ((hi + lo) - hi))
