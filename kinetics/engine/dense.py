@@ -249,9 +249,9 @@ def _run_stack(A, Al, x0, times, precision: str, species: int):
 
 
 #: a stack of at most this many matrix entries has its exponentials remembered (at most
-#: 256 of them, :func:`kinetics.engine.plan.remembered`, 16 MB at this size): a scheme solved
-#: again on the same grid, as in a repeated or a sweeping call, skips the plan and the
-#: exponential (for 10 species they cost more than the grid itself)
+#: 256 of them, :func:`kinetics.engine.plan.remembered`; 32 MB with their keys at this
+#: size): a scheme solved again on the same grid, as in a repeated call, skips the plan
+#: and the exponential (for 10 species they cost more than the grid itself)
 REMEMBER_ENTRIES = 64 * 64
 _EXPONENTIALS: dict[bytes, tuple] = {}
 
