@@ -476,11 +476,12 @@ def solve(scheme: Scheme, times) -> Solution:
     _check_size(t.size, len(scheme.species))
     Kh, Kl = scheme.rate_matrix_pair()
     feed = scheme.feed_vector if scheme.feed else None
-    amount = float(scheme.initial_vector.sum() + (0.0 if feed is None else feed.sum() * t[-1]))
+    c0 = scheme.initial_vector
+    amount = float(c0.sum() + (0.0 if feed is None else feed.sum() * t[-1]))
     check_working_range(-Kh.diagonal(), float(t[-1]), scheme.species_names, amount)
     if scheme.timeline:
         return _solve_timeline(scheme, t)
-    result = propagate_certified(Kh, scheme.initial_vector, t, feed, K_low=Kl)
+    result = propagate_certified(Kh, c0, t, feed, K_low=Kl)
     return Solution(
         t,
         scheme.species_names,

@@ -512,3 +512,30 @@ def test_auto_route_certifies_its_target_on_any_grid(n, points, uniform, until, 
     times = np.linspace(0.0, until, points) if uniform else np.sort(rng.uniform(0, until, points))
     result = propagate_certified(K, np.eye(n)[0], times)
     assert result.error_bound.max() <= AUTO_RTOL
+
+
+def test_a_repeated_solve_reuses_its_exponential_and_equals_the_first(monkeypatch):
+    # reference: the first call itself (a remembered exponential changes no bit), and
+    # Bateman's closed form for a changed constant (the key holds the matrix's values)
+    from kinetics.engine import dense
+
+    calls = []
+    compute = dense.expm_stack
+
+    def counted(*args, **kwargs):
+        calls.append(args[2])
+        return compute(*args, **kwargs)
+
+    monkeypatch.setattr(dense, "expm_stack", counted)
+    t = np.linspace(0.0, 10.0, 41)
+    K = chain_matrix([0.5, 0.2])
+    first = propagate_certified(K, [1.0, 0.0, 0.0], t, K_low=np.diag([0.0, 1e-20, 0.0]))
+    again = propagate_certified(K, [1.0, 0.0, 0.0], t, K_low=np.diag([0.0, 1e-20, 0.0]))
+    assert len(calls) <= 1  # none when an earlier test solved the same scheme on this grid
+    assert first.concentrations.tobytes() == again.concentrations.tobytes()
+    assert first.error_bound.tobytes() == again.error_bound.tobytes()
+    assert first.precision == again.precision
+    other = propagate(chain_matrix([0.5, 0.3]), [1.0, 0.0, 0.0], t)
+    ref = [bateman_chain([0.5, 0.3], 1.0, tk) for tk in t]
+    np.testing.assert_allclose(other[:, :2], ref, rtol=1e-13, atol=0)
+    assert len(calls) <= 2

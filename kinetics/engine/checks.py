@@ -157,6 +157,8 @@ def vector(v, n: int, what: str, hint: str, lead: tuple = ()) -> np.ndarray:
         raise ConcentrationError(
             f"{what} has shape {v.shape}; it must have shape {(*lead, n)}", hint
         )
+    if v.size and v.min() >= 0.0 and v.max() < math.inf:
+        return v  # the usual case in two reductions: a nan fails both comparisons
     if not np.isfinite(v).all():
         raise ConcentrationError(f"{what} contains inf or nan", hint)
     if (v < 0).any():
@@ -196,6 +198,10 @@ def _flat(t: np.ndarray, ordered: bool = True) -> np.ndarray:
             f"the times must be a flat list of times, not {shape}",
             "e.g. [0, 600, 1200] or numpy.linspace(0, 3600, 201); for one time give [t]",
         )
+    if ordered and t.size and t[0] >= 0.0 and t[-1] < math.inf and (t[1:] >= t[:-1]).all():
+        # the usual case in one pass: nondecreasing from t[0] >= 0 to a finite last time
+        # (any nan fails a comparison), so every time is finite and >= 0
+        return t
     if not np.isfinite(t).all():
         raise TimesError("a time is not a finite number", "give finite times in seconds")
     if (t < 0).any():
@@ -345,7 +351,7 @@ def guard_growth(func):
         parts = result if isinstance(result, tuple) else (result,)
         for part in parts:
             values = getattr(part, "concentrations", part)
-            if isinstance(values, np.ndarray) and not np.all(np.isfinite(values)):
+            if isinstance(values, np.ndarray) and not np.isfinite(values).all():
                 raise GrowthError(
                     "the concentrations grow beyond the range of double precision (about 1e308)",
                     "the scheme makes more of a species than it consumes (e.g. A -> 2 A) or "

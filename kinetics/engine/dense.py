@@ -7,6 +7,7 @@ decisions (routes, plans, retries) and the bounds (:mod:`kinetics.engine.plan`).
 from __future__ import annotations
 
 import math
+import struct
 
 import numpy as np
 
@@ -21,6 +22,7 @@ from kinetics.engine.plan import (
     pattern_stats,
     predicted_double,
     product_error,
+    remembered,
     rounding_bound,
 )
 
@@ -199,7 +201,8 @@ def propagate_stack(A, Al, x0, times, precision: str, species: int):
     A, Al: (b, N, N), x0: (b, N).  Returns (X (b, p, N), bound (b, p), route label);
     ``bound`` covers everything between the exact pair, the given start values and
     times, and the returned doubles (the final rounding included); the first
-    ``species`` rows are concentrations (the others a constant feed row).
+    ``species`` rows are concentrations (the others a constant feed row).  The states at
+    time 0 are ``x0`` exactly.
     """
     from kinetics.engine import kernels
 
@@ -245,6 +248,14 @@ def _run_stack(A, Al, x0, times, precision: str, species: int):
     return X, bound, exps.label()
 
 
+#: a stack of at most this many matrix entries has its exponentials remembered (at most
+#: 256 of them, :func:`kinetics.engine.plan.remembered`; 32 MB with their keys at this
+#: size): a scheme solved again on the same grid, as in a repeated call, skips the plan
+#: and the exponential (for 10 species they cost more than the grid itself)
+REMEMBER_ENTRIES = 64 * 64
+_EXPONENTIALS: dict[bytes, tuple] = {}
+
+
 class _StackExponentials:
     """The exponentials of one stack over steps of given lengths, and the routes they took."""
 
@@ -253,18 +264,39 @@ class _StackExponentials:
         self.Al = Al
         self.precision = precision
         self.routes: set[str] = set()
+        # what the exponentials depend on besides the step (None: too large to remember)
+        self.key = (
+            struct.pack("<3q", *A.shape) + precision.encode() + A.tobytes() + Al.tobytes()
+            if A.size <= REMEMBER_ENTRIES
+            else None
+        )
 
     def of(self, h: float, columns: int = 1):
-        """``(Fh, Fl, eps, is_dd)`` of :func:`expm_stack` for the step ``h`` [s]."""
-        b = self.A.shape[0]
-        Fh, Fl, eps, is_dd = expm_stack(
-            self.A, self.Al, np.full(b, h), self.precision, columns=columns
-        )
-        if np.any(is_dd):
-            self.routes.add("double-double")
-        if not np.all(is_dd):
-            self.routes.add("double")
-        return Fh, Fl, eps, is_dd
+        """``(Fh, Fl, eps, is_dd, gamma)`` for the step ``h`` [s].
+
+        :func:`expm_stack`'s exponentials, bounds and routes, and the bound of one product
+        with each member (:func:`gamma_stack`).
+        """
+        b, N, _ = self.A.shape
+
+        def compute():
+            Fh, Fl, eps, is_dd = expm_stack(
+                self.A, self.Al, np.full(b, h), self.precision, columns=columns
+            )
+            routes = frozenset(
+                ("double-double",) * bool(is_dd.any()) + ("double",) * (not is_dd.all())
+            )
+            return Fh, Fl, eps, is_dd, gamma_stack(N, is_dd), routes
+
+        if self.key is None:
+            *result, routes = compute()
+        else:
+            key = self.key + struct.pack("<dq", h, columns)
+            # shared by the calls that remember them: only read (by the kernels), never
+            # written (not flagged read-only: the kernels would be compiled twice)
+            *result, routes = remembered(_EXPONENTIALS, key, compute)
+        self.routes |= routes
+        return tuple(result)
 
     def label(self) -> str:
         """The routes taken (``double``, ``double-double`` or both), or the precision asked."""
@@ -282,23 +314,24 @@ def _uniform_grid(exps: _StackExponentials, x0, times, start: int, dt: float, X,
 
     b, N = x0.shape
     p = times.size
-    # state as double-double column blocks (b, N, 1)
-    vh = x0[:, :, None].copy()
-    vl = np.zeros_like(vh)
+    # the start state as a double-double pair (b, N); the kernel only reads it
+    vh = np.ascontiguousarray(x0)
+    vl = np.zeros((b, N))
     cur_bound = np.zeros(b)
-    t_first = times[start]
+    t_first = float(times[start])
     # a grid dt, 2 dt, ... (the usual linspace from 0) needs one exponential
-    skip = 1 if abs(t_first - dt) <= 4 * U * times[-1] else 0
+    skip = 1 if abs(t_first - dt) <= 4 * U * float(times[-1]) else 0
     M = p - start - 1 + skip
     if not skip:
-        Fh, Fl, eps, is_dd = exps.of(t_first)
-        vh, vl = mv(Fh, Fl, vh, vl, is_dd)
-        cur_bound = compose(eps, gamma_stack(N, is_dd))
-    Fh, Fl, eps, is_dd = exps.of(dt, columns=M + 1)
+        Fh, Fl, eps, is_dd, gamma = exps.of(t_first)
+        oh, ol = mv(Fh, Fl, x0[:, :, None], vl[:, :, None], is_dd)  # as column blocks
+        vh, vl = oh[..., 0].copy(), ol[..., 0].copy()
+        cur_bound = compose(eps, gamma)
+    Fh, Fl, eps, is_dd, gamma = exps.of(dt, columns=M + 1)
     # states F^k v for k = 0..M (one product each), their bounds and time residuals
     kernels.grid(
-        Fh, Fl, vh[..., 0].copy(), vl[..., 0].copy(), M + 1, skip, np.asarray(is_dd), X,
-        start, eps, gamma_stack(N, is_dd), cur_bound, bound, times, t_first, dt, residual,
+        Fh, Fl, vh, vl, M + 1, skip, is_dd, X, start, eps, gamma, cur_bound,
+        bound, times, t_first, dt, residual,
     )  # fmt: skip
 
 
@@ -310,7 +343,7 @@ def _each_interval(exps: _StackExponentials, x0, times, start: int, X, bound, re
     """
     from kinetics.engine import kernels
 
-    b, N = x0.shape
+    b = x0.shape[0]
     p = times.size
     vh = x0[:, :, None].copy()  # state as double-double column blocks (b, N, 1)
     vl = np.zeros_like(vh)
@@ -323,9 +356,9 @@ def _each_interval(exps: _StackExponentials, x0, times, start: int, X, bound, re
         if h > 0:
             if h not in cache:
                 cache[h] = exps.of(h, columns=p - start + 1)  # states ahead: all of them
-            Fh, Fl, eps, is_dd = cache[h]
+            Fh, Fl, eps, is_dd, gamma = cache[h]
             vh, vl = mv(Fh, Fl, vh, vl, is_dd)
-            cur_bound = compose(cur_bound, compose(eps, gamma_stack(N, is_dd)))
+            cur_bound = compose(cur_bound, compose(eps, gamma))
             hi, lo = kernels.two_sum(reached[0], h)
             lo += reached[1]
             reached = (hi + lo, lo - ((hi + lo) - hi))

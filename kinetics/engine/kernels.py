@@ -608,6 +608,27 @@ def squared_bound(eps, gamma):
     return 2.0 * eps + eps * eps + gamma * ((1.0 + eps) * (1.0 + eps))
 
 
+@njit(**_HELPER)
+def nonzero_range(M, first, last):
+    """``first[r]``, ``last[r]``: row ``r`` of ``M`` is zero outside ``first[r] .. last[r] - 1``.
+
+    A product loop over that range only adds the same values in the same order (a zero
+    term leaves a sum of nonnegative or finite values as it is); for the triangular
+    matrices of schemes without cycles it skips about half of the terms.
+    """
+    n, m = M.shape
+    for r in range(n):
+        lo = m
+        hi = 0
+        for j in range(m):
+            if M[r, j] != 0.0:
+                if j < lo:
+                    lo = j
+                hi = j + 1
+        first[r] = lo if lo < hi else 0
+        last[r] = hi
+
+
 @njit(**_JIT)
 def residual_corrections(A, X, delta, species, gamma, tiny, bound):
     r"""Carry the states from the grid's exact times to the requested ones; bound the step.
@@ -624,47 +645,83 @@ def residual_corrections(A, X, delta, species, gamma, tiny, bound):
     the first ``species`` rows count in the bound (the feed row of an augmented matrix is
     constant).
     """
-    b, p, N = X.shape
-    y = np.empty(N)
-    a = np.empty(N)
-    z = np.empty(N)
-    for k in range(p):
-        d = delta[k]
-        if d == 0.0:
-            continue
-        for q in range(b):
-            for i in range(N):
-                s = 0.0
-                m = 0.0
-                for c in range(N):
-                    v = A[q, i, c] * X[q, k, c]
-                    s += v
-                    m += abs(v)
-                y[i] = s
-                a[i] = m
-            for i in range(N):
-                m = 0.0
-                for c in range(N):
-                    m += abs(A[q, i, c]) * a[c]
-                z[i] = m
-            largest = 0.0
-            for i in range(species):
-                x = X[q, k, i]
-                if x > tiny and abs(d) * a[i] / x > largest:
-                    largest = abs(d) * a[i] / x
-            worst = 0.0
-            for i in range(species):
-                x = X[q, k, i]
-                if x <= tiny:
-                    continue
-                if largest <= 1e-3:
-                    e = gamma * abs(d) * a[i] / x + 2.0 * (0.5 * d * d * z[i] / x) + 2.0**-53
-                else:
-                    e = np.expm1(2.0 * abs(d) * (abs(y[i]) + gamma * a[i]) / x)
-                if e > worst:
-                    worst = e
-            if largest <= 1e-3:
+    # One body on purpose (see exponentials).  The points with a residual are gathered
+    # as columns, so that every loop below runs over them (contiguous, the same
+    # operations for each): each sum still adds its terms in the order of A x.
+    b, _, N = X.shape
+    P = 0
+    for k in range(delta.shape[0]):
+        if delta[k] != 0.0:
+            P += 1
+    cols = np.empty(P, dtype=np.int64)  # the points with a residual, by explicit loops
+    d = np.empty(P)  # (an array expression would cost seconds of compilation)
+    P = 0
+    for k in range(delta.shape[0]):
+        if delta[k] != 0.0:
+            cols[P] = k
+            d[P] = delta[k]
+            P += 1
+    AT = np.empty((N, N))  # A of the member, transposed
+    first = np.empty(N, dtype=np.int64)  # column c of A is zero outside first..last - 1
+    last = np.empty(N, dtype=np.int64)
+    x = np.empty((N, P))  # the states, one column per point
+    y = np.empty((N, P))  # A x
+    a = np.empty((N, P))  # |A| x (x >= 0)
+    z = np.empty((N, P))  # |A| a
+    largest = np.empty(P)
+    worst = np.empty(P)
+    for q in range(b):
+        for i in range(N):
+            for c in range(N):
+                AT[c, i] = A[q, i, c]
+        nonzero_range(AT, first, last)
+        for c in range(N):
+            for m in range(P):
+                x[c, m] = X[q, cols[m], c]
+                y[c, m] = 0.0
+                a[c, m] = 0.0
+                z[c, m] = 0.0
+        for c in range(N):
+            for i in range(first[c], last[c]):
+                w = AT[c, i]
+                for m in range(P):
+                    v = w * x[c, m]
+                    y[i, m] += v
+                    a[i, m] += abs(v)
+        for c in range(N):
+            for i in range(first[c], last[c]):
+                w = abs(AT[c, i])
+                for m in range(P):
+                    z[i, m] += w * a[c, m]
+        for m in range(P):
+            largest[m] = 0.0
+            worst[m] = 0.0
+        for i in range(species):
+            for m in range(P):
+                xi = x[i, m]
+                g = abs(d[m]) * a[i, m] / xi
+                if xi > tiny and g > largest[m]:
+                    largest[m] = g
+        for i in range(species):
+            for m in range(P):
+                xi = x[i, m]
+                dm = d[m]
+                e = gamma * abs(dm) * a[i, m] / xi + 2.0 * (0.5 * dm * dm * z[i, m] / xi) + 2.0**-53
+                if xi > tiny and e > worst[m]:
+                    worst[m] = e
+        for m in range(P):
+            k = cols[m]
+            dm = d[m]
+            if largest[m] <= 1e-3:
                 for i in range(N):
-                    x = X[q, k, i] + d * y[i]
-                    X[q, k, i] = 0.0 if 0.0 > x else x  # max(x, 0.0)
-            bound[q, k] = bound[q, k] + worst + bound[q, k] * worst
+                    xi = x[i, m] + dm * y[i, m]
+                    X[q, k, i] = 0.0 if 0.0 > xi else xi  # max(xi, 0.0)
+            else:
+                worst[m] = 0.0
+                for i in range(species):
+                    xi = x[i, m]
+                    if xi > tiny:
+                        e = np.expm1(2.0 * abs(dm) * (abs(y[i, m]) + gamma * a[i, m]) / xi)
+                        if e > worst[m]:
+                            worst[m] = e
+            bound[q, k] = bound[q, k] + worst[m] + bound[q, k] * worst[m]

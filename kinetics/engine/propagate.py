@@ -259,8 +259,8 @@ def propagate_certified(
     X, bound, label = propagate_stack(
         np.ascontiguousarray(A), np.ascontiguousarray(Al), x0[None], times, precision, n
     )
-    conc = X[0, :, :n].copy()
-    conc[times == 0.0] = c0
+    # rows at time 0 hold c0 exactly (propagate_stack); without a feed X[0] is the table
+    conc = X[0] if f is None else X[0, :, :n].copy()
     return Propagation(times, conc, bound[0], label)
 
 
