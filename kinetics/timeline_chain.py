@@ -12,8 +12,9 @@ Roundings of the maps, added to the bound:
   nearest to :math:`\kappa = V/(V + v)`: two roundings (the factor, the product);
 * an addition rounds its sum once, and a second time when its amount is scaled by
   :math:`V_0/(V + v)` (the scaled amount is itself rounded once);
-* a partial removal rounds its two products (kept and taken part) and each fraction
-  once; a complete removal is exact.
+* a partial removal rounds each fraction (kept and taken part) once and each of their
+  products once: two roundings for the state and two for the amount recorded; a complete
+  removal is exact.
 """
 
 from __future__ import annotations

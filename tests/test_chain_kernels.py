@@ -42,7 +42,8 @@ def test_partial_and_complete_removals_record_what_they_take():
     x, e, moved, bound = run(rows, x, e=1e-15, records=2)
     assert x.tolist() == [0.375, 0.0, 1.0]
     assert moved.tolist() == [-0.125, -0.25]
-    assert bound[0] == 1e-15 + U + 1e-15 * U  # a partial removal: one rounding
+    r = 1e-15 + U + 1e-15 * U  # a partial removal: the fraction's and the product's rounding
+    assert bound[0] == r + U + r * U
     e2 = 1e-15
     for _ in range(2):
         e2 = e2 + U + e2 * U

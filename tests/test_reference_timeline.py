@@ -24,7 +24,7 @@ from fractions import Fraction
 import mpmath
 import numpy as np
 import pytest
-from hypothesis import given, settings
+from hypothesis import example, given, settings
 from hypothesis import strategies as st
 from scipy.integrate import solve_ivp
 
@@ -416,6 +416,11 @@ def test_degradation_under_a_record_equals_isothermal_at_the_equivalent_temperat
     ),
     window=st.tuples(st.floats(0.0, 2.0), st.floats(0.1, 2.0), st.floats(0.0, 1e-4)),
     step=st.tuples(st.floats(0.0, 3.0), st.floats(290.0, 320.0)),
+)
+@example(  # a removal of 23/42: the fraction's own rounding belongs in the eluate's bound
+    ops=[(0.0, "A", 0.0, False), (0.111, "C", Fraction(23, 42), False)],
+    window=(0.0, 1.0, 0.0),
+    step=(1.0, 290.0),
 )
 def test_random_timelines_match_the_reference_within_their_bound(ops, window, step):
     # random additions, removals, a feed window and a temperature step, against mpmath;

@@ -20,7 +20,8 @@ ROUND     :math:`e \leftarrow (1 + e)(1 + u)^c - 1`, ``c`` = ``species``    none
 
 For a removal, ``first`` is :math:`p` and ``second`` is :math:`1 - p` (each the double
 nearest to the exact fraction); its record's bound is :math:`e` when ``flag`` is set
-(a complete removal: both products are exact) and :math:`(1 + e)(1 + u) - 1` otherwise.
+(a complete removal: both products are exact) and :math:`(1 + e)(1 + u)^2 - 1` otherwise
+(the fraction as a double, and the product).
 The caller adds the ROUND actions where the maps round (see :mod:`kinetics.timeline_solve`).
 """
 
@@ -61,7 +62,11 @@ def operate(x, n, e, begin, stop, kind, species, first, second, flag, record, mo
             taken = first[k] * x[s, 0]
             x[s, 0] = second[k] * x[s, 0]
             moved[record[k]] = -taken
-            bound[record[k]] = e if flag[k] else e + _U + e * _U
+            if flag[k]:
+                bound[record[k]] = e
+            else:  # the fraction's rounding and the product's
+                r = e + _U + e * _U
+                bound[record[k]] = r + _U + r * _U
         else:
             for _ in range(species[k]):
                 e = e + _U + e * _U
