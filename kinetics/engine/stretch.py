@@ -5,6 +5,8 @@ One exponential per distinct length, kept (the timeline of operations uses this)
 
 from __future__ import annotations
 
+import contextlib
+
 import numpy as np
 import scipy.sparse
 
@@ -13,6 +15,7 @@ from kinetics.engine.action import actions
 from kinetics.engine.dense import augment, distinct, expm_stack, gamma_stack, mv
 from kinetics.engine.plan import DENSE_MAX, TINY, U, compose, product_error
 from kinetics.engine.propagate import Precision, Propagation, propagate_certified
+from kinetics.engine.threads import one_blas_thread
 from kinetics.errors import ConcentrationError, RateMatrixError, TimesError
 
 __all__ = ["StretchPropagator"]
@@ -228,12 +231,16 @@ class StretchPropagator:
             return np.maximum((oh + ol)[..., 0], 0.0), compose(eps, gamma_stack(N, is_dd))
         Fh, Fl, eps, is_dd = self._exponentials(values, remember)
         X = np.empty_like(x0)
-        for i in range(values.size):
-            sel = which == i
-            V = np.ascontiguousarray(x0[sel].T)
-            oh, ol = np.empty_like(V), np.empty_like(V)
-            kernels.product(Fh[i], Fl[i], V, np.zeros_like(V), oh, ol, np.bool_(is_dd[i]))
-            X[sel] = np.maximum(oh + ol, 0.0).T
+        # plain-double products this large go to BLAS: one thread, as in the engine's grids
+        # (kinetics.engine.dense.propagate_stack)
+        blas = not is_dd.all() and N * N * x0.shape[0] >= kernels.BLAS_FROM
+        with one_blas_thread() if blas else contextlib.nullcontext():
+            for i in range(values.size):
+                sel = which == i
+                V = np.ascontiguousarray(x0[sel].T)
+                oh, ol = np.empty_like(V), np.empty_like(V)
+                kernels.product(Fh[i], Fl[i], V, np.zeros_like(V), oh, ol, np.bool_(is_dd[i]))
+                X[sel] = np.maximum(oh + ol, 0.0).T
         return X, compose(eps, gamma_stack(N, is_dd))[which]
 
     def step(self, start, length: float, length_low: float = 0.0) -> tuple[np.ndarray, float]:
