@@ -89,6 +89,7 @@ NUMERICAL = {
         "yields_and_selectivity",
     ],
     "kinetics.solution": ["solve", "Solution.to_frame", "Solution.summary"],
+    "kinetics.engine.action": ["actions", "degree"],
 }
 
 #: Words that name a source in an Examples section.

@@ -76,8 +76,13 @@ def degree(beta: float, N: int, target: float = TARGET) -> int:
 
     Examples
     --------
-    >>> degree(0.0, 1), degree(1.0, 1) >= 20
-    (0, True)
+    For :math:`\beta = 1` the tail after degree :math:`m` is about :math:`1/(m+1)!` (closed
+    form of the Poisson tail at mean 1): :math:`1/21! = 2.0 \times 10^{-20}` is the first
+    below :data:`TARGET` (:math:`5.4 \times 10^{-20}`), so the degree is 20; a 5-species
+    scheme adds its longest path, 4:
+
+    >>> degree(0.0, 1), degree(1.0, 1), degree(1.0, 5)
+    (0, 20, 24)
     """
     if beta <= 0.0:
         return max(0, N - 1)
