@@ -103,7 +103,8 @@ def warm_up_kernels() -> None:
     )
     kinetics.solve(small, np.linspace(0.0, 100.0, 11)).summary()
     kinetics.sweep(small, ["k1=0.05,0.1"], [0.0, 50.0, 100.0], curves=True)
-    solve_timeline(small, Timeline([At(10.0, Addition({"A": 0.5}))]), [0.0, 20.0])
+    # 5 s lies inside a stretch: the exponential's action on its start (action_kernels)
+    solve_timeline(small, Timeline([At(10.0, Addition({"A": 0.5}))]), [0.0, 5.0, 20.0])
     lines = [f"S{i} -> S{i + 1}  k{i} = {1 + 0.01 * i} 1/s" for i in range(230)]
     lines.append("S5 <=> R  kf = 2 1/s, kr = 1 1/s\nstart S0 = 1 mol/L")
     kinetics.solve(kinetics.parse("\n".join(lines)), [0.0, 0.3, 1.0, 10.0])

@@ -171,6 +171,22 @@ def test_first_use_note_when_the_engine_is_not_compiled_yet(chain, capsys, monke
     )
 
 
+def test_first_use_note_for_a_run_with_operations(tmp_path, capsys, monkeypatch):
+    from kinetics.engine import kernels as _kernels
+
+    monkeypatch.setattr(_kernels, "on_disk", lambda kernel: False)
+    scheme = tmp_path / "eluted.scheme"
+    scheme.write_text("P -> D  k1 = 0.01 1/h\nstart P = 1 mol/L\nevery 1 h: remove 50 % of D\n")
+    status, _out, err = run_cli(
+        capsys, "solve", str(scheme), "--until", "3h", "--points", "4", "--no-caution"
+    )
+    assert status == 0
+    assert err == (
+        "kinetics: compiling the engine for its first use on this installation "
+        "(once, about 7 s; later runs load it from disk)\n"
+    )
+
+
 def test_kernels_are_found_on_disk_after_a_solve(chain, capsys):
     from kinetics.engine import kernels as _kernels
 

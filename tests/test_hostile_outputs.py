@@ -29,7 +29,7 @@ from hypothesis import strategies as st
 import kinetics
 from kinetics import files
 from kinetics.cli import main
-from kinetics.cli.common import FIRST_USE, FIRST_USE_SWEEP
+from kinetics.cli.common import FIRST_USE, FIRST_USE_OPERATIONS, FIRST_USE_SWEEP
 from kinetics.errors import OutputFileError, SweepStoreError
 from kinetics.output import export
 from kinetics.sweep import chunk_result, make_plan
@@ -672,7 +672,7 @@ def test_sigterm_while_writing_tables_leaves_no_part_file(folder, capsys):
     lines = [
         x
         for x in err.decode().splitlines(keepends=True)
-        if x.rstrip() not in (FIRST_USE, FIRST_USE_SWEEP)
+        if x.rstrip() not in (FIRST_USE, FIRST_USE_SWEEP, FIRST_USE_OPERATIONS)
     ]
     assert "".join(lines) == (
         "kinetics: terminated\nkinetics: the finished chunks are kept in 's.csv.chunks': "
@@ -738,7 +738,8 @@ def test_a_closed_pipe_ends_quietly(folder, extra):
         proc.wait(timeout=120)
     assert first
     # on a fresh installation the run may first say that it compiles the engine
-    err = b"".join(x for x in err.splitlines(keepends=True) if x.decode().rstrip() != FIRST_USE)
+    notes = (FIRST_USE, FIRST_USE_SWEEP, FIRST_USE_OPERATIONS)
+    err = b"".join(x for x in err.splitlines(keepends=True) if x.decode().rstrip() not in notes)
     assert (proc.returncode, err) == (141, b"")
 
 

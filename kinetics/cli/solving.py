@@ -215,7 +215,7 @@ def solve(
         )
     _check_sheet_sizes(paths, len(times), scheme)
     caution(no_caution)
-    first_use_note()
+    first_use_note(operations=bool(scheme.timeline))
     with progress(2, "solving") as bar:
         result, summary, sensitivities = _solve_and_summarise(
             scheme, times, time_unit, bar, conc_unit, activity_unit, sensitivity, log
@@ -374,7 +374,7 @@ def report(
     digest = hashlib.sha256(Path(scheme_file).read_bytes()).hexdigest()
     _check_activity(scheme, activity_unit, conc_unit)
     caution(no_caution)
-    first_use_note()
+    first_use_note(operations=bool(scheme.timeline))
     with progress(4, "solving") as bar:
         result, summary, sensitivities = _solve_and_summarise(
             scheme, times, time_unit, bar, conc_unit, activity_unit, sensitivity=True, log=log
