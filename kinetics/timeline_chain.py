@@ -20,7 +20,7 @@ Roundings of the maps, added to the bound:
 from __future__ import annotations
 
 from fractions import Fraction
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Protocol
 
 import numpy as np
 
@@ -30,9 +30,19 @@ from .engine.plan import DENSE_MAX, U, compose
 from .timeline import Addition, Operation, Plan, Removal
 
 if TYPE_CHECKING:
+    from .engine import StretchPropagator
     from .scheme import Scheme
 
-__all__ = ["Chain"]
+
+class Conditions(Protocol):
+    """What the chain needs of the conditions of its stretches (their propagators)."""
+
+    def propagator(self, key: tuple) -> StretchPropagator:
+        """The propagator of the stretches with conditions ``key``."""
+        ...
+
+
+__all__ = ["Chain", "Conditions"]
 
 #: one action: (kind, species index or rounding count, first, second, flag, records)
 _Row = tuple[int, int, float, float, bool, bool]
@@ -128,7 +138,7 @@ class Chain:
         Per stretch, the index of its conditions in ``keys``.
     """
 
-    def __init__(self, scheme: Scheme, plan: Plan, conditions: Any, pieces) -> None:
+    def __init__(self, scheme: Scheme, plan: Plan, conditions: Conditions, pieces) -> None:
         self.scheme = scheme
         self.plan = plan
         self.conditions = conditions
