@@ -31,10 +31,10 @@ import numpy as np
 from numba import njit
 
 from kinetics.engine.kernels import product, residual_corrections
+from kinetics.engine.plan import TINY as _TINY
+from kinetics.engine.plan import U as _U
 
 _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
-_U = 2.0**-53  # unit roundoff of IEEE double (kinetics.engine.plan.U)
-_TINY = 1e-290  # kinetics.engine.plan.TINY
 
 SCALE, ADD, REMOVE, ROUND = 0, 1, 2, 3
 

@@ -178,8 +178,11 @@ class StretchPropagator:
         bound of one product with each (its exponential's and the product's rounding,
         before the final rounding to double) and the route of each.
         """
-        h = np.asarray(lengths, dtype=float).reshape(-1)
-        Fh, Fl, eps, is_dd = self._exponentials(h, remember=True)
+        return self._factors(np.asarray(lengths, dtype=float).reshape(-1), remember=True)
+
+    def _factors(self, h, remember: bool):
+        """:meth:`factors` for ``h``, keeping new exponentials only if ``remember``."""
+        Fh, Fl, eps, is_dd = self._exponentials(h, remember)
         return Fh, Fl, compose(eps, gamma_stack(Fh.shape[-1], is_dd)), is_dd
 
     def _dense_rows(self, starts, h, remember: bool):
@@ -225,11 +228,11 @@ class StretchPropagator:
         N = x0.shape[1]
         values, which = distinct(h)
         if values.size > self.SHARED_PRODUCTS:
-            Fh, Fl, eps, is_dd = self._exponentials(h, remember)
+            Fh, Fl, step, is_dd = self._factors(h, remember)
             v = x0[..., None]
             oh, ol = mv(Fh, Fl, v, np.zeros_like(v), is_dd)
-            return np.maximum((oh + ol)[..., 0], 0.0), compose(eps, gamma_stack(N, is_dd))
-        Fh, Fl, eps, is_dd = self._exponentials(values, remember)
+            return np.maximum((oh + ol)[..., 0], 0.0), step
+        Fh, Fl, step, is_dd = self._factors(values, remember)
         X = np.empty_like(x0)
         # plain-double products this large go to BLAS: one thread, as in the engine's grids
         # (kinetics.engine.dense.propagate_stack)
@@ -241,7 +244,7 @@ class StretchPropagator:
                 oh, ol = np.empty_like(V), np.empty_like(V)
                 kernels.product(Fh[i], Fl[i], V, np.zeros_like(V), oh, ol, np.bool_(is_dd[i]))
                 X[sel] = np.maximum(oh + ol, 0.0).T
-        return X, compose(eps, gamma_stack(N, is_dd))[which]
+        return X, step[which]
 
     def step(self, start, length: float, length_low: float = 0.0) -> tuple[np.ndarray, float]:
         """One stretch from one start: the cheap form of :meth:`advance` for chains.
