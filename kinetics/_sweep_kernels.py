@@ -38,10 +38,20 @@ from .engine.plan import TINY as FLUSH  # entries below: no relative accuracy (a
 # the constants of the method live in kinetics.analysis.tolerances (numba reads module
 # globals as compile-time constants)
 
-_JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
+# no reference counting (``_nrt``): the kernels allocate nothing (the scratch comes from
+# Python), so numba's runtime is not needed, and without it no incref/decref code is
+# emitted at every array view (and the runtime is not compiled on first use); no C
+# callback wrapper (``no_cfunc_wrapper``): nothing takes the kernels' addresses.  About
+# 0.4 s less of the first sweep (DEVELOPERS.md, "Compiled kernels")
+_JIT = {
+    "cache": True, "nogil": True, "error_model": "numpy", "_nrt": False, "no_cfunc_wrapper": True,
+}  # fmt: skip
 # steps and helpers called only from member_kernel: no wrapper for calls from Python and
 # no cache file of their own (member_kernel's cached code includes them)
-_STEP = {"nogil": True, "error_model": "numpy", "no_cpython_wrapper": True}
+_STEP = {
+    "nogil": True, "error_model": "numpy", "_nrt": False, "no_cfunc_wrapper": True,
+    "no_cpython_wrapper": True,
+}  # fmt: skip
 
 TAIL = 0.5**17 / math.factorial(17)  # remainder of the ladder's Taylor sum at y = 1/2
 
@@ -212,8 +222,8 @@ def _mark(i, mark, need, used):
 # longer than the usual limit, as compiled kernels may be (see member_kernel)
 @njit(**_STEP)
 def _refine(
-    kp, ki, kv, bp, bi, bv, f, sigma, P, steps, stop, sc, sp, deriv, level, tau_a, x_a, lev, out,
-    x, xa, W, D, mark, need,
+    kp, ki, kv, bp, bi, bv, f, sigma, P, steps, ratio, stop, sc, sp, deriv, level, tau_a, x_a, lev,
+    out, x, xa, W, D, mark, need,
 ):  # fmt: skip
     r"""Root [s] and :math:`c_{sp}` at the root of one bracket problem; writes ``out[0:2]``.
 
@@ -221,9 +231,9 @@ def _refine(
     :math:`g = c_{sp} - level` (a half-life), positive at the bracket's left end
     ``(tau_a, x_a)`` on ladder level ``lev``.
 
-    1. *Narrowing by quarters*: the bracket is split into four by level ``lev - 1`` (three
-       products from its left end); the first quarter whose end is not positive becomes
-       the bracket, until level ``stop`` (:math:`u \|B\| \le 1/4`).
+    1. *Narrowing by quarters*: the bracket is split into ``ratio`` (four) by level
+       ``lev - 1`` (three products from its left end); the first quarter whose end is not
+       positive becomes the bracket, until level ``stop`` (:math:`u \|B\| \le 1/4`).
     2. *Newton*: on the last bracket the state is the nonnegative Taylor series
        :math:`x(\delta) = e^{-\sigma\delta} \sum_k \delta^k B^k x_a / k!` (the longest
        path plus 14 terms); Newton steps on g with the exact derivative
@@ -234,6 +244,9 @@ def _refine(
     ``P`` holds the ladder levels transposed; ``K`` and ``B`` come in compressed rows
     (``kp, ki, kv`` and ``bp, bi, bv``); scratch arrays: ``x``, ``xa`` (na,), ``W``
     (na + 15, na), ``D`` (n,), ``mark`` (na,) (bool) and ``need`` (na,) (integer).
+    ``ratio`` is the ratio of consecutive ladder steps, an argument rather than the
+    constant, so that LLVM does not unroll the loop over the quarters with its products
+    (0.1 s less on first use).
     """
     na = x_a.shape[0]
     for i in range(na):
@@ -245,10 +258,10 @@ def _refine(
     while lev > stop:
         u = steps[lev - 1]
         Pm = P[lev - 1]
-        shift = float(RATIO - 1)
+        shift = float(ratio - 1)
         g_prev = ga
         found = False
-        for k in range(1, RATIO):
+        for k in range(1, ratio):
             _matvec_t(Pm, xa, x)
             g = _g(kp, ki, kv, f, x, sp, deriv, level)
             if _sign(g) != 1:
@@ -351,6 +364,70 @@ def _hermite_hit(g0, g1, m0, m1, tol, sg):
     return False
 
 
+@njit(**_STEP)
+def _hidden_turn(
+    taus, sc, s, D, D2, N, flags, X, PT, ilevel, ratio, mx, kp, ki, kv, f, diag, x, y, Dq, Nq
+):  # fmt: skip
+    r"""True if a scan interval hides a turn of a species ``mx`` (the general route).
+
+    An interval ``[jj, jj + 1]`` of the scan ``X`` (times ``taus * sc`` [s]) where the
+    derivative ``D`` has the same significant sign ``s`` at both ends while the second
+    derivative ``D2`` points to a turn is flagged when the cubic Hermite model of the
+    derivative changes sign at one of its sixteenths (beyond the noise levels ``N``); a
+    flagged interval is sampled at its ``ratio - 1`` inner points with the next lower
+    ladder level of ``PT`` (the levels transposed), and a significant sign against ``s``
+    there is a hidden turn.  ``K`` comes in compressed rows ``kp, ki, kv``, ``diag`` is its
+    diagonal; scratch arrays: ``flags`` (nm,) (bool), ``x``, ``y`` (na,), ``Dq``, ``Nq``
+    (nm,).  A kernel of its own, not written into :func:`member_kernel`: numba's typing and
+    lowering take longer per statement the larger the function (0.15 s less on first use).
+    """
+    M = s.shape[0]
+    nm = mx.shape[0]
+    na = X.shape[1]
+    for jj in range(M - 1):
+        flagged = False
+        h = (taus[jj + 1] - taus[jj]) * sc
+        for a in range(nm):
+            flags[a] = False
+            sg = s[jj, a]
+            if sg == 0 or s[jj + 1, a] != sg:
+                continue
+            if _sign(D2[jj, a]) != -sg or _sign(D2[jj + 1, a]) != sg:
+                continue
+            g0, g1 = D[jj, a], D[jj + 1, a]
+            m0, m1 = h * D2[jj, a], h * D2[jj + 1, a]
+            tol = N[jj + 1, a] if N[jj + 1, a] > N[jj, a] else N[jj, a]
+            low = abs(g1) if abs(g1) < abs(g0) else abs(g0)
+            if 4.0 / 27.0 * (abs(m0) + abs(m1)) < low - tol:
+                continue
+            if _hermite_hit(g0, g1, m0, m1, tol, sg):
+                flags[a] = True
+                flagged = True
+        if not flagged:
+            continue
+        # sample the interval at its quarters with the next lower level
+        for i in range(na):
+            y[i] = X[jj, i]
+        Pm = PT[ilevel[jj] - 1]
+        for _ in range(ratio - 1):
+            _matvec_t(Pm, y, x)
+            for i in range(na):
+                y[i] = x[i]
+            # D = (K x + f)_i and its noise level for the species mx
+            for a in range(nm):
+                i = mx[a]
+                Dq[a] = _row_dot(kp, ki, kv, i, x) + f[i]
+                Nq[a] = _noise(Dq[a], f[i], diag[i], x[i])
+            for a in range(nm):
+                if not flags[a]:
+                    continue
+                sg = s[jj, a]
+                ss = _sign(Dq[a]) if abs(Dq[a]) > Nq[a] else 0
+                if ss != 0 and ss != sg:
+                    return True
+    return False
+
+
 def summarise_members(
     K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, n_seg, tmax, cmax, half, status
 ):
@@ -374,7 +451,7 @@ def summarise_members(
     n = K.shape[1]
     work = _work(n, n + 1 if has_feed else n, mx.shape[0], taus.size, n_seg + 1)
     member_kernel(
-        K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, taus, ilevel, tmax, cmax,
+        K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, RATIO, taus, ilevel, tmax, cmax,
         half, status, *work,
     )  # fmt: skip
 
@@ -418,17 +495,18 @@ def _work(n, na, nm, total, levels):
 # the same code in kernels of its own (DEVELOPERS.md, "Compiled kernels")
 @njit(**_JIT)
 def member_kernel(
-    K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, taus, ilevel, tmax, cmax, half,
-    status, A, B, P, PT, X, D, D2, N, s, flags, CTbuf, DTbuf, D2Tbuf, diag,
+    K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, ratio, taus, ilevel, tmax, cmax,
+    half, status, A, B, P, PT, X, D, D2, N, s, flags, CTbuf, DTbuf, D2Tbuf, diag,
     kp, ki, kv, bp, bi, bv, x, y, Dq, Nq, res, degree, powers, flat, acc, Q, Pflat,
     W, Dn, mark, need,
 ):  # fmt: skip
     """Steps 2-5 of :mod:`kinetics.sweep_summary` for each member of a stack.
 
-    The arguments of :func:`summarise_members`, with the ladder steps ``steps`` and the
-    scan grid ``taus``, ``ilevel`` (points and the level of each step) instead of
-    ``n_seg``, then the scratch arrays of :func:`_work` (allocated by the caller: each
-    kind of ``np.empty`` call in a kernel compiles code of its own).
+    The arguments of :func:`summarise_members`, with the ladder steps ``steps``, the ratio
+    of consecutive steps ``ratio`` (see :func:`_refine`) and the scan grid ``taus``,
+    ``ilevel`` (points and the level of each step) instead of ``n_seg``, then the scratch
+    arrays of :func:`_work` (allocated by the caller: each kind of ``np.empty`` call in a
+    kernel compiles code of its own).
     """
     b, n, _ = K.shape
     na = n + 1 if has_feed else n
@@ -519,47 +597,10 @@ def member_kernel(
                     D2[jj, a] = D2T[i, jj]
                     N[jj, a] = _noise(d, f[i], diag[i], X[jj, i])
                     s[jj, a] = _sign(d) if abs(d) > N[jj, a] else 0
-            for jj in range(M - 1):
-                flagged = False
-                h = (taus[jj + 1] - taus[jj]) * sc
-                for a in range(nm):
-                    flags[a] = False
-                    sg = s[jj, a]
-                    if sg == 0 or s[jj + 1, a] != sg:
-                        continue
-                    if _sign(D2[jj, a]) != -sg or _sign(D2[jj + 1, a]) != sg:
-                        continue
-                    g0, g1 = D[jj, a], D[jj + 1, a]
-                    m0, m1 = h * D2[jj, a], h * D2[jj + 1, a]
-                    tol = N[jj + 1, a] if N[jj + 1, a] > N[jj, a] else N[jj, a]
-                    low = abs(g1) if abs(g1) < abs(g0) else abs(g0)
-                    if 4.0 / 27.0 * (abs(m0) + abs(m1)) < low - tol:
-                        continue
-                    if _hermite_hit(g0, g1, m0, m1, tol, sg):
-                        flags[a] = True
-                        flagged = True
-                if not flagged:
-                    continue
-                # sample the interval at its quarters with the next lower level
-                for i in range(na):
-                    y[i] = X[jj, i]
-                Pm = PT[ilevel[jj] - 1]
-                for _ in range(RATIO - 1):
-                    _matvec_t(Pm, y, x)
-                    for i in range(na):
-                        y[i] = x[i]
-                    # D = (K x + f)_i and its noise level for the species mx
-                    for a in range(nm):
-                        i = mx[a]
-                        Dq[a] = _row_dot(kp, ki, kv, i, x) + f[i]
-                        Nq[a] = _noise(Dq[a], f[i], diag[i], x[i])
-                    for a in range(nm):
-                        if not flags[a]:
-                            continue
-                        sg = s[jj, a]
-                        ss = _sign(Dq[a]) if abs(Dq[a]) > Nq[a] else 0
-                        if ss != 0 and ss != sg:
-                            bad = True
+            bad = _hidden_turn(
+                taus, sc, s[:M], D, D2, N, flags, X, PT, ilevel, ratio, mx, kp, ki, kv, f, diag,
+                x, y, Dq, Nq,
+            )  # fmt: skip
             # sign changes between consecutive significant points: every + to - change is a
             # local maximum, refined on its interval; the highest is the candidate for the
             # global one (a - to + change, a minimum, needs nothing); a change across points
@@ -588,7 +629,7 @@ def member_kernel(
                         # arrays (7 times the code per call); np.bool_, as a literal True
                         # or False would compile _refine once for each
                         _refine(
-                            kp, ki, kv, bp, bi, bv, f, sigma, PT, steps, stop, sc,
+                            kp, ki, kv, bp, bi, bv, f, sigma, PT, steps, ratio, stop, sc,
                             mx[a], np.bool_(True), 0.0, taus[jb], X[jb], ilevel[jb], res,
                             x, y, W, Dn, mark, need,
                         )  # fmt: skip
@@ -619,7 +660,7 @@ def member_kernel(
                     bad = True
                     break
                 _refine(
-                    kp, ki, kv, bp, bi, bv, f, sigma, PT, steps, stop, sc,
+                    kp, ki, kv, bp, bi, bv, f, sigma, PT, steps, ratio, stop, sc,
                     i, np.bool_(False), target, taus[jb - 1], X[jb - 1], ilevel[jb - 1], res,
                     x, y, W, Dn, mark, need,
                 )  # fmt: skip
