@@ -32,6 +32,7 @@ from .analysis.tolerances import (
     U0,
     XTOL,
 )
+from .collector import collector_paused
 from .engine.kernels import matmul_double, two_sum
 from .engine.plan import TINY as FLUSH  # entries below: no relative accuracy (and slow)
 
@@ -450,10 +451,13 @@ def summarise_members(
     np.cumsum(steps[ilevel], out=taus[1:])  # sequential sums, as the scan adds them
     n = K.shape[1]
     work = _work(n, n + 1 if has_feed else n, mx.shape[0], taus.size, n_seg + 1)
-    member_kernel(
-        K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, RATIO, taus, ilevel, tmax, cmax,
-        half, status, *work,
-    )  # fmt: skip
+    # the first call in a process compiles the kernel (or loads it from disk); numba's
+    # objects would set off collector passes (0.4 s of the first use)
+    with collector_paused(not member_kernel.signatures):
+        member_kernel(
+            K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, RATIO, taus, ilevel, tmax,
+            cmax, half, status, *work,
+        )  # fmt: skip
 
 
 def _work(n, na, nm, total, levels):

@@ -31,7 +31,17 @@ ROOT = Path(__file__).resolve().parents[1] / "kinetics"
 #: Layers of the package, bottom first: the first part of a module's name after
 #: ``kinetics.`` places it.
 LAYERS = [
-    ["errors", "_version", "jsonready", "files", "units", "time_text", "suggest", "_doubledouble"],
+    [
+        "errors",
+        "_version",
+        "jsonready",
+        "files",
+        "units",
+        "time_text",
+        "suggest",
+        "_doubledouble",
+        "collector",
+    ],
     [
         "scheme",
         "rate_constants",

@@ -2,11 +2,9 @@
 
 from __future__ import annotations
 
-import contextlib
-import gc
 import os
-from collections.abc import Iterator
 
+from ..collector import collector_paused
 from ..errors import ArgumentTypeError
 from ..scheme import Scheme
 from .reader import read_statements
@@ -54,26 +52,10 @@ def parse(text: str, source: str = "<text>", *, strict_balance: bool = True) -> 
             "decode bytes first, or use kinetics.load(path) for a file",
         )
     check_text_size(text, source)
-    with _collector_paused():
+    # a large file makes hundreds of thousands of small objects that all stay alive and
+    # hold no reference cycles: nothing is lost by collecting after the parse
+    with collector_paused():
         return resolve(read_statements(text, source), strict_balance)
-
-
-@contextlib.contextmanager
-def _collector_paused() -> Iterator[None]:
-    """Pause Python's cyclic garbage collector while a scheme is read.
-
-    A large file creates hundreds of thousands of small objects that all stay
-    alive; each collector pass would walk them again (a third of the time for a
-    20,000-reaction file).  They hold no reference cycles, so nothing is lost by
-    collecting after the parse.  The previous state is restored.
-    """
-    enabled = gc.isenabled()
-    gc.disable()
-    try:
-        yield
-    finally:
-        if enabled:
-            gc.enable()
 
 
 def load(path: str | os.PathLike[str], *, strict_balance: bool = True) -> Scheme:
