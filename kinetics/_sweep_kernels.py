@@ -109,7 +109,7 @@ def _ladder(B, bp, bi, bv, sigma, norm, steps, P, degree, powers, flat, acc, Q, 
     """
     na = B.shape[0]
     levels = steps.shape[0] - 1
-    top = 1
+    top = np.int64(1)  # np.int64: no literal changed by the loop (DEVELOPERS.md)
     for level in range(2, levels + 1):
         if steps[level] * norm <= 0.5:
             top = level
@@ -118,7 +118,7 @@ def _ladder(B, bp, bi, bv, sigma, norm, steps, P, degree, powers, flat, acc, Q, 
     # (2^-17/17!); the low levels, with tiny y, need far fewer terms
     for level in range(1, top + 1):
         y = steps[level] * norm
-        t = 0
+        t = np.int64(0)
         term = y
         while term > TAIL and t < 16:
             t += 1
@@ -168,7 +168,7 @@ def _ladder(B, bp, bi, bv, sigma, norm, steps, P, degree, powers, flat, acc, Q, 
 def _sparse(M, ptr, idx, val):
     """Compressed rows of ``M``: row ``i`` holds ``val[ptr[i]:ptr[i+1]]`` at ``idx``."""
     n, m = M.shape
-    k = 0
+    k = np.int64(0)  # np.int64: no literal changed by the loop
     for i in range(n):
         ptr[i] = k
         for j in range(m):
@@ -386,7 +386,7 @@ def _hidden_turn(
     nm = mx.shape[0]
     na = X.shape[1]
     for jj in range(M - 1):
-        flagged = False
+        flagged = np.bool_(False)  # np.bool_: no literal changed by the loop
         h = (taus[jj + 1] - taus[jj]) * sc
         for a in range(nm):
             flags[a] = False
@@ -570,13 +570,12 @@ def member_kernel(
             X[0, i] = c0[q, i]
         if has_feed:
             X[0, n] = 1.0
-        last = 0
+        M = total  # points of the member's scan
         for jj in range(1, total):
             if taus[jj] * sc > t_hi[q]:
+                M = jj
                 break
             _matvec_t(PT[ilevel[jj - 1]], X[jj - 1], X[jj])
-            last = jj
-        M = last + 1
         bad = False
         # maxima: signs of the derivative, hidden turns, sign changes
         if nm:
@@ -611,8 +610,8 @@ def member_kernel(
             # of unknown sign has no one-interval bracket: the general route
             if not bad:
                 for a in range(nm):
-                    ff = 0
-                    lastsig = -1
+                    ff = np.int64(0)  # np.int64: no literal changed by the loop
+                    lastsig = np.int64(-1)
                     for jj in range(M):
                         sj = s[jj, a]
                         if sj == 0:
@@ -646,7 +645,7 @@ def member_kernel(
             for a in range(hl.shape[0]):
                 i = hl[a]
                 target = 0.5 * c0[q, i]
-                lastpos = -1
+                lastpos = np.int64(-1)  # np.int64: no literal changed by the loop
                 jb = -1
                 for jj in range(M):
                     gv = X[jj, i] - target
