@@ -42,16 +42,19 @@ from .engine.plan import TINY as FLUSH  # entries below: no relative accuracy (a
 # no reference counting (``_nrt``): the kernels allocate nothing (the scratch comes from
 # Python), so numba's runtime is not needed, and without it no incref/decref code is
 # emitted at every array view (and the runtime is not compiled on first use); no C
-# callback wrapper (``no_cfunc_wrapper``): nothing takes the kernels' addresses.  About
-# 0.4 s less of the first sweep (DEVELOPERS.md, "Compiled kernels")
+# callback wrapper (``no_cfunc_wrapper``): nothing takes the kernels' addresses; no IR
+# rewrites (``no_rewrites``): they serve array expressions and constant folding, which
+# the kernels do not use.  About 0.5 s less of the first sweep (DEVELOPERS.md,
+# "Compiled kernels")
 _JIT = {
     "cache": True, "nogil": True, "error_model": "numpy", "_nrt": False, "no_cfunc_wrapper": True,
+    "no_rewrites": True,
 }  # fmt: skip
 # steps and helpers called only from member_kernel: no wrapper for calls from Python and
 # no cache file of their own (member_kernel's cached code includes them)
 _STEP = {
     "nogil": True, "error_model": "numpy", "_nrt": False, "no_cfunc_wrapper": True,
-    "no_cpython_wrapper": True,
+    "no_rewrites": True, "no_cpython_wrapper": True,
 }  # fmt: skip
 
 TAIL = 0.5**17 / math.factorial(17)  # remainder of the ladder's Taylor sum at y = 1/2
@@ -295,7 +298,7 @@ def _refine(
     hi = w
     den = ga - gb
     frac = ga / den if den != 0.0 else (np.nan if ga == 0.0 else np.inf * ga)
-    if np.isnan(frac):
+    if math.isnan(frac):
         frac = 0.5
     frac = 0.02 if 0.02 > frac else (0.98 if 0.98 < frac else frac)
     delta = frac * w
@@ -336,7 +339,7 @@ def _refine(
         else:
             hi = delta
         new = delta - g / gp
-        if not np.isfinite(new) or new <= lo or new >= hi:
+        if not math.isfinite(new) or new <= lo or new >= hi:
             new = 0.5 * (lo + hi)
         if g == 0.0:
             new = delta
@@ -538,7 +541,7 @@ def member_kernel(
                 sigma = qh
                 sigma_lo = ql
         if sigma_lo > 0.0:
-            sigma = np.nextafter(sigma, np.inf)
+            sigma = math.nextafter(sigma, math.inf)
         for a in range(na):
             for c in range(na):
                 B[a, c] = A[a, c]
