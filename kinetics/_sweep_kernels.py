@@ -182,7 +182,7 @@ def _sparse(M, ptr, idx, val):
     ptr[n] = k
 
 
-@njit(**_STEP, inline="always")
+@njit(**_STEP)
 def _row_dot(ptr, idx, val, i, x):
     s = 0.0
     for k in range(ptr[i], ptr[i + 1]):
