@@ -475,7 +475,7 @@ def _work(n, na, nm, total, levels):
     # compile a second version of matmul_double)
     P = empty((levels + 1, na, na))
     mats = (
-        zeros((na, na)), empty((na, na)), P,
+        zeros((na, na)), P,
         empty((levels + 1, na, na)), empty((total, na)), empty((total, nm)),
         empty((total, nm)), empty((total, nm)), zeros((total, nm), dtype=np.int8),
         zeros(nm, dtype=np.bool_), empty(n * total), empty(n * total), empty(n * total),
@@ -503,7 +503,7 @@ def _work(n, na, nm, total, levels):
 @njit(**_JIT)
 def member_kernel(
     K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, ratio, taus, ilevel, tmax, cmax,
-    half, status, A, B, P, PT, X, D, D2, N, s, flags, CTbuf, DTbuf, D2Tbuf, diag,
+    half, status, B, P, PT, X, D, D2, N, s, flags, CTbuf, DTbuf, D2Tbuf, diag,
     kp, ki, kv, bp, bi, bv, x, y, Dq, Nq, res, degree, powers, flat, acc, Q, Pflat,
     W, Dn, mark, need,
 ):  # fmt: skip
@@ -523,19 +523,20 @@ def member_kernel(
     for q in range(b):
         Kq = K[q]
         sc = scale[q]
-        # scaled augmented matrix, shift and norm (exact: powers of two)
+        # scaled augmented matrix A in B (its feed row stays zero), then the shift and the
+        # norm (exact: powers of two)
         for a in range(n):
             for c in range(n):
-                A[a, c] = Kq[a, c] * sc
+                B[a, c] = Kq[a, c] * sc
             if has_feed:
-                A[a, n] = f[a] * sc
+                B[a, n] = f[a] * sc
         # the shift from the exact diagonal: sigma, a double, at least every exact outflow
         # (the next double up when the largest one has a positive low part), and each
         # sigma - q_a formed from the pair before one rounding (unchanged where q_low = 0)
         sigma = 0.0
         sigma_lo = 0.0
         for a in range(n):
-            qh = -A[a, a]
+            qh = -B[a, a]
             ql = -q_low[q, a] * sc
             if qh > sigma or (qh == sigma and ql > sigma_lo):
                 sigma = qh
@@ -543,9 +544,7 @@ def member_kernel(
         if sigma_lo > 0.0:
             sigma = math.nextafter(sigma, math.inf)
         for a in range(na):
-            for c in range(na):
-                B[a, c] = A[a, c]
-            sh, sl = two_sum(sigma, A[a, a])
+            sh, sl = two_sum(sigma, B[a, a] if a < n else 0.0)
             B[a, a] = sh + (sl + (q_low[q, a] * sc if a < n else 0.0))
         norm = 0.0  # largest column sum of |B| over the species, plus the shift
         for c in range(n):
