@@ -110,8 +110,8 @@ def _ladder(B, bp, bi, bv, sigma, norm, steps, P, degree, powers, flat, acc, Q, 
     (na + 17, na, na) and ``flat``, a flat view of it (na + 17, na * na), ``acc``
     (na * na,), ``Q`` (na, na); ``Pflat`` is a flat view of ``P`` (levels + 1, na * na).
     """
-    na = B.shape[0]
-    levels = steps.shape[0] - 1
+    na = len(B)
+    levels = len(steps) - 1
     top = np.int64(1)  # np.int64: no literal changed by the loop (DEVELOPERS.md)
     for level in range(2, levels + 1):
         if steps[level] * norm <= 0.5:
@@ -252,7 +252,7 @@ def _refine(
     constant, so that LLVM does not unroll the loop over the quarters with its products
     (0.1 s less on first use).
     """
-    na = x_a.shape[0]
+    na = len(x_a)
     for i in range(na):
         xa[i] = x_a[i]
     ga = _g(kp, ki, kv, f, xa, sp, deriv, level)
@@ -385,9 +385,9 @@ def _hidden_turn(
     (nm,).  A kernel of its own, not written into :func:`member_kernel`: numba's typing and
     lowering take longer per statement the larger the function (0.15 s less on first use).
     """
-    M = s.shape[0]
-    nm = mx.shape[0]
-    na = X.shape[1]
+    M = len(s)
+    nm = len(mx)
+    _, na = X.shape
     for jj in range(M - 1):
         flagged = np.bool_(False)  # np.bool_: no literal changed by the loop
         h = (taus[jj + 1] - taus[jj]) * sc
@@ -517,9 +517,9 @@ def member_kernel(
     """
     b, n, _ = K.shape
     na = n + 1 if has_feed else n
-    levels = steps.shape[0] - 1
-    total = taus.shape[0]
-    nm = mx.shape[0]
+    levels = len(steps) - 1
+    total = len(taus)
+    nm = len(mx)
     for q in range(b):
         Kq = K[q]
         sc = scale[q]
@@ -644,7 +644,7 @@ def member_kernel(
                             cmax[q, mx[a]] = res[1]
         # half-lives: first significant fall below half the start value
         if not bad:
-            for a in range(hl.shape[0]):
+            for a in range(len(hl)):
                 i = hl[a]
                 target = 0.5 * c0[q, i]
                 lastpos = np.int64(-1)  # np.int64: no literal changed by the loop
