@@ -167,7 +167,7 @@ def test_first_use_note_when_the_engine_is_not_compiled_yet(chain, capsys, monke
     assert status == 0
     assert err.startswith(
         "kinetics: compiling the engine for its first use on this installation "
-        "(once, about 10 s; later runs load it from disk)\n"
+        "(once, about 8 s; later runs load it from disk)\n"
     )
 
 
