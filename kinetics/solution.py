@@ -8,12 +8,13 @@ vector and returns concentrations with their names and units.
 from __future__ import annotations
 
 import os
+import weakref
 from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .engine import propagate_certified
+from .engine import CheckedInputs, check_inputs
 from .engine.checks import end_time
 from .engine.checks import time_list as check_times
 from .errors import (
@@ -474,14 +475,12 @@ def solve(scheme: Scheme, times) -> Solution:
     scheme = require_scheme(scheme, "solve")
     t = check_times(times)
     _check_size(t.size, len(scheme.species))
-    Kh, Kl = scheme.rate_matrix_pair()
-    feed = scheme.feed_vector if scheme.feed else None
-    c0 = scheme.initial_vector
-    amount = float(c0.sum() + (0.0 if feed is None else feed.sum() * t[-1]))
-    check_working_range(-Kh.diagonal(), float(t[-1]), scheme.species_names, amount)
+    inputs, rates, start, fed = _engine_inputs(scheme)
+    t_end = float(t[-1])
+    check_working_range(rates, t_end, scheme.species_names, start + fed * t_end)
     if scheme.timeline:
         return _solve_timeline(scheme, t)
-    result = propagate_certified(Kh, c0, t, feed, K_low=Kl)
+    result = inputs.propagate(t)
     return Solution(
         t,
         scheme.species_names,
@@ -490,6 +489,27 @@ def solve(scheme: Scheme, times) -> Solution:
         scheme,
         result.error_bound,
     )
+
+
+#: the checked engine inputs of each scheme solved (a scheme is frozen: checked once)
+_ENGINE_INPUTS: weakref.WeakKeyDictionary[Scheme, tuple] = weakref.WeakKeyDictionary()
+
+
+def _engine_inputs(scheme: Scheme) -> tuple[CheckedInputs, np.ndarray, float, float]:
+    """The scheme's checked engine inputs, computed once.
+
+    With them the scheme's consumption rates [1/s], total start amount [conc] and total
+    feed rate [conc/s], for the working range.
+    """
+    found = _ENGINE_INPUTS.get(scheme)
+    if found is None:
+        Kh, Kl = scheme.rate_matrix_pair()
+        feed = scheme.feed_vector if scheme.feed else None
+        c0 = scheme.initial_vector
+        inputs = check_inputs(Kh, c0, feed, K_low=Kl)
+        fed = 0.0 if feed is None else float(feed.sum())
+        found = _ENGINE_INPUTS[scheme] = (inputs, -Kh.diagonal(), float(c0.sum()), fed)
+    return found
 
 
 def _solve_timeline(scheme: Scheme, t: np.ndarray) -> Solution:

@@ -59,7 +59,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 import scipy.sparse
@@ -70,8 +70,10 @@ from kinetics.engine.plan import TINY, U, compose
 from kinetics.errors import ConcentrationError, RateMatrixError, TimesError
 
 __all__ = [
+    "CheckedInputs",
     "Precision",
     "Propagation",
+    "check_inputs",
     "expm_nonnegative",
     "expm_nonnegative_certified",
     "propagate",
@@ -178,7 +180,64 @@ class Propagation:
     precision: str = field(default="double-double")
 
 
-@checks.guard_growth
+@dataclass(frozen=True, eq=False)
+class CheckedInputs:
+    """A problem's rate matrix, start values and feed, checked (:func:`check_inputs`).
+
+    :func:`kinetics.solve` keeps one per scheme, so that a scheme solved again is not
+    checked again.
+
+    Attributes
+    ----------
+    K : ndarray or scipy.sparse CSR, shape (n, n)
+        Rate matrix [1/s].
+    c0 : ndarray, shape (n,)
+        Start values [conc].
+    feed : ndarray, shape (n,), or None
+        Zero-order feed [conc/s].
+    K_low : ndarray or scipy.sparse CSR, shape (n, n), or None
+        Low-order parts of ``K`` (exact matrix ``K + K_low``).
+    feed_low : ndarray, shape (n,), or None
+        Low-order parts of ``feed``.
+    """
+
+    K: Any  # ndarray or CSR
+    c0: np.ndarray
+    feed: np.ndarray | None
+    K_low: Any  # ndarray, CSR or None
+    feed_low: np.ndarray | None
+
+    @checks.guard_growth
+    def propagate(self, times: np.ndarray, precision: Precision = "auto") -> Propagation:
+        """:func:`propagate_certified` of these inputs on checked ``times`` [s].
+
+        ``times`` as returned by :func:`kinetics.engine.checks.times`.
+        """
+        from kinetics.engine.blocks import prefers_blocks, propagate_blocks
+
+        K, f, n = self.K, self.feed, self.c0.size
+        # route by predicted cost (calibrated model in kinetics._blocks.route_costs)
+        if prefers_blocks(K, times, precision):
+            conc, bound = propagate_blocks(
+                K, self.c0, times, f, K_low=self.K_low, feed_low=self.feed_low, floor=TINY
+            )
+            return Propagation(times, conc, bound, "blocks")
+        if scipy.sparse.issparse(K):
+            K = K.toarray()
+        Kl = self.K_low
+        Kl = np.zeros((n, n)) if Kl is None else Kl.toarray() if scipy.sparse.issparse(Kl) else Kl
+        fl = None if f is None else self.feed_low
+        A = augment(K[None], None if f is None else f[None])
+        Al = augment(Kl[None], None if fl is None else fl[None])
+        x0 = self.c0 if f is None else np.append(self.c0, 1.0)
+        X, bound, label = propagate_stack(
+            np.ascontiguousarray(A), np.ascontiguousarray(Al), x0[None], times, precision, n
+        )
+        # rows at time 0 hold c0 exactly (propagate_stack); without a feed X[0] is the table
+        conc = X[0] if f is None else X[0, :, :n].copy()
+        return Propagation(times, conc, bound[0], label)
+
+
 def propagate_certified(
     K,
     c0,
@@ -238,30 +297,40 @@ def propagate_certified(
     SIAM J. Matrix Anal. Appl. 35, 317-338 (2014).
     """
     checks.precision(precision)
+    return check_inputs(K, c0, feed, K_low=K_low, feed_low=feed_low).propagate(
+        checks.times(times), precision
+    )
+
+
+def check_inputs(K, c0, feed=None, *, K_low=None, feed_low=None) -> CheckedInputs:
+    """Check a problem's rate matrix, start values and feed once, for any number of grids.
+
+    Parameters and errors as in :func:`propagate_certified` (without the times).
+
+    Returns
+    -------
+    CheckedInputs
+
+    Examples
+    --------
+    The closed form c_A = e^(-kt) (k = 1 1/s) on two grids, the inputs checked once:
+
+    >>> inputs = check_inputs([[-1.0, 0.0], [1.0, 0.0]], [1.0, 0.0])
+    >>> round(float(inputs.propagate(np.array([0.0, 1.0])).concentrations[1, 0]), 12)
+    0.367879441171
+    >>> round(float(inputs.propagate(np.array([2.0])).concentrations[0, 0]), 12)
+    0.135335283237
+    """
     K = checks.rate_matrix(K)
     n = K.shape[0]
     c0 = checks.vector(c0, n, "c0", checks.START_HINT)
-    times = checks.times(times)
     f = None if feed is None else checks.vector(feed, n, "feed", checks.FEED_HINT)
-    from kinetics.engine.blocks import prefers_blocks, propagate_blocks
-
-    # route by predicted cost (calibrated model in kinetics._blocks.route_costs)
-    if prefers_blocks(K, times, precision):
-        conc, bound = propagate_blocks(K, c0, times, f, K_low=K_low, feed_low=feed_low, floor=TINY)
-        return Propagation(times, conc, bound, "blocks")
-    if scipy.sparse.issparse(K):
-        K = K.toarray()
-    Kl = checks.low_parts(K_low, (n, n), "K_low", RateMatrixError)
+    # the low parts are checked here; the block route takes them as given (sparse kept)
+    Kl = None
+    if K_low is not None:
+        Kl = checks.low_parts(K_low, (n, n), "K_low", RateMatrixError, keep_sparse=True)
     fl = None if f is None else checks.low_parts(feed_low, (n,), "feed_low", ConcentrationError)
-    A = augment(K[None], None if f is None else f[None])
-    Al = augment(Kl[None], None if fl is None else fl[None])
-    x0 = c0 if f is None else np.append(c0, 1.0)
-    X, bound, label = propagate_stack(
-        np.ascontiguousarray(A), np.ascontiguousarray(Al), x0[None], times, precision, n
-    )
-    # rows at time 0 hold c0 exactly (propagate_stack); without a feed X[0] is the table
-    conc = X[0] if f is None else X[0, :, :n].copy()
-    return Propagation(times, conc, bound[0], label)
+    return CheckedInputs(K, c0, f, Kl, fl)
 
 
 def propagate(
