@@ -7,6 +7,7 @@ vector and returns concentrations with their names and units.
 
 from __future__ import annotations
 
+import math
 import os
 import weakref
 from dataclasses import dataclass, field, replace
@@ -470,20 +471,19 @@ def solve(scheme: Scheme, times) -> Solution:
     >>> round(float(kinetics.solve(s, [0, 1]).concentrations[1, 0]), 12)
     0.367879441171
     """
-    from .analysis import check_working_range
-
     scheme = require_scheme(scheme, "solve")
     t = check_times(times)
     _check_size(t.size, len(scheme.species))
-    inputs, rates, start, fed = _engine_inputs(scheme)
-    t_end = float(t[-1])
-    check_working_range(rates, t_end, scheme.species_names, start + fed * t_end)
+    inputs = _INPUTS.get(scheme)
+    if inputs is None:
+        inputs = _INPUTS[scheme] = _SchemeInputs(scheme)
+    inputs.check_range(float(t[-1]))
     if scheme.timeline:
         return _solve_timeline(scheme, t)
-    result = inputs.propagate(t)
+    result = inputs.engine_inputs().propagate(t)
     return Solution(
         t,
-        scheme.species_names,
+        list(inputs.names),
         result.concentrations,
         scheme.concentration_unit,
         scheme,
@@ -491,25 +491,39 @@ def solve(scheme: Scheme, times) -> Solution:
     )
 
 
-#: the checked engine inputs of each scheme solved (a scheme is frozen: checked once)
-_ENGINE_INPUTS: weakref.WeakKeyDictionary[Scheme, tuple] = weakref.WeakKeyDictionary()
+class _SchemeInputs:
+    """What :func:`solve` needs of a scheme, worked out once per scheme (it is frozen)."""
+
+    def __init__(self, scheme: Scheme) -> None:
+        self.K, self.K_low = scheme.rate_matrix_pair()
+        self.c0 = scheme.initial_vector
+        self.feed = scheme.feed_vector if scheme.feed else None
+        self.names = scheme.species_names
+        self.rates = -self.K.diagonal()  # consumption rates [1/s]
+        self.start = float(self.c0.sum())  # total start amount [conc]
+        self.fed = 0.0 if self.feed is None else float(self.feed.sum())  # [conc/s]
+        # the latest end time [s] that passed the working-range check: every condition of
+        # the check grows with the end time, so an earlier one passes too
+        self.checked_until = -math.inf
+        self.checked: CheckedInputs | None = None  # the engine's inputs, checked on first use
+
+    def check_range(self, t_end: float) -> None:
+        """:func:`kinetics.analysis.check_working_range` for times up to ``t_end`` [s]."""
+        if t_end > self.checked_until:
+            from .analysis import check_working_range
+
+            check_working_range(self.rates, t_end, self.names, self.start + self.fed * t_end)
+            self.checked_until = t_end
+
+    def engine_inputs(self) -> CheckedInputs:
+        """The engine's inputs (:func:`kinetics.engine.check_inputs`), checked once."""
+        if self.checked is None:
+            self.checked = check_inputs(self.K, self.c0, self.feed, K_low=self.K_low)
+        return self.checked
 
 
-def _engine_inputs(scheme: Scheme) -> tuple[CheckedInputs, np.ndarray, float, float]:
-    """The scheme's checked engine inputs, computed once.
-
-    With them the scheme's consumption rates [1/s], total start amount [conc] and total
-    feed rate [conc/s], for the working range.
-    """
-    found = _ENGINE_INPUTS.get(scheme)
-    if found is None:
-        Kh, Kl = scheme.rate_matrix_pair()
-        feed = scheme.feed_vector if scheme.feed else None
-        c0 = scheme.initial_vector
-        inputs = check_inputs(Kh, c0, feed, K_low=Kl)
-        fed = 0.0 if feed is None else float(feed.sum())
-        found = _ENGINE_INPUTS[scheme] = (inputs, -Kh.diagonal(), float(c0.sum()), fed)
-    return found
+#: the inputs of each scheme solved
+_INPUTS: weakref.WeakKeyDictionary[Scheme, _SchemeInputs] = weakref.WeakKeyDictionary()
 
 
 def _solve_timeline(scheme: Scheme, t: np.ndarray) -> Solution:

@@ -696,19 +696,19 @@ def residual_corrections(A, X, delta, species, gamma, tiny, bound):
         for m in range(P):
             largest[m] = 0.0
             worst[m] = 0.0
+        # one division per entry: g = |d| (|A|x)_i / x_i and the bound's terms from 1 / x_i
         for i in range(species):
             for m in range(P):
                 xi = x[i, m]
-                g = abs(d[m]) * a[i, m] / xi
-                if xi > tiny and g > largest[m]:
-                    largest[m] = g
-        for i in range(species):
-            for m in range(P):
-                xi = x[i, m]
+                r = 1.0 / xi
                 dm = d[m]
-                e = gamma * abs(dm) * a[i, m] / xi + 2.0 * (0.5 * dm * dm * z[i, m] / xi) + 2.0**-53
-                if xi > tiny and e > worst[m]:
-                    worst[m] = e
+                g = abs(dm) * a[i, m] * r
+                e = gamma * g + dm * dm * z[i, m] * r + 2.0**-53
+                if xi > tiny:
+                    if g > largest[m]:
+                        largest[m] = g
+                    if e > worst[m]:
+                        worst[m] = e
         for m in range(P):
             k = cols[m]
             dm = d[m]

@@ -66,7 +66,7 @@ import scipy.sparse
 
 from kinetics.engine import checks
 from kinetics.engine.dense import augment, expm_stack, propagate_stack
-from kinetics.engine.plan import TINY, U, compose
+from kinetics.engine.plan import DENSE_MAX, TINY, U, compose
 from kinetics.errors import ConcentrationError, RateMatrixError, TimesError
 
 __all__ = [
@@ -206,6 +206,9 @@ class CheckedInputs:
     feed: np.ndarray | None
     K_low: Any  # ndarray, CSR or None
     feed_low: np.ndarray | None
+    #: the dense engine's augmented pair (A, A_low), shape (1, N, N), and start (1, N),
+    #: made once for a scheme of at most DENSE_MAX species given dense; else None
+    stacks: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
 
     @checks.guard_growth
     def propagate(self, times: np.ndarray, precision: Precision = "auto") -> Propagation:
@@ -222,17 +225,8 @@ class CheckedInputs:
                 K, self.c0, times, f, K_low=self.K_low, feed_low=self.feed_low, floor=TINY
             )
             return Propagation(times, conc, bound, "blocks")
-        if scipy.sparse.issparse(K):
-            K = K.toarray()
-        Kl = self.K_low
-        Kl = np.zeros((n, n)) if Kl is None else Kl.toarray() if scipy.sparse.issparse(Kl) else Kl
-        fl = None if f is None else self.feed_low
-        A = augment(K[None], None if f is None else f[None])
-        Al = augment(Kl[None], None if fl is None else fl[None])
-        x0 = self.c0 if f is None else np.append(self.c0, 1.0)
-        X, bound, label = propagate_stack(
-            np.ascontiguousarray(A), np.ascontiguousarray(Al), x0[None], times, precision, n
-        )
+        stacks = self.stacks or _dense_stacks(K, self.c0, self.K_low, f, self.feed_low)
+        X, bound, label = propagate_stack(*stacks, times, precision, n)
         # rows at time 0 hold c0 exactly (propagate_stack); without a feed X[0] is the table
         conc = X[0] if f is None else X[0, :, :n].copy()
         return Propagation(times, conc, bound[0], label)
@@ -330,7 +324,25 @@ def check_inputs(K, c0, feed=None, *, K_low=None, feed_low=None) -> CheckedInput
     if K_low is not None:
         Kl = checks.low_parts(K_low, (n, n), "K_low", RateMatrixError, keep_sparse=True)
     fl = None if f is None else checks.low_parts(feed_low, (n,), "feed_low", ConcentrationError)
-    return CheckedInputs(K, c0, f, Kl, fl)
+    dense = n <= DENSE_MAX and not scipy.sparse.issparse(K)
+    stacks = _dense_stacks(K, c0, Kl, f, fl) if dense else None
+    return CheckedInputs(K, c0, f, Kl, fl, stacks)
+
+
+def _dense_stacks(K, c0, K_low, feed, feed_low) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The augmented rate matrix, its low parts (1, N, N) and the start (1, N), contiguous."""
+    n = K.shape[0]
+    if scipy.sparse.issparse(K):
+        K = K.toarray()
+    if K_low is None:
+        K_low = np.zeros((n, n))
+    elif scipy.sparse.issparse(K_low):
+        K_low = K_low.toarray()
+    fl = None if feed is None else feed_low
+    A = augment(K[None], None if feed is None else feed[None])
+    Al = augment(K_low[None], None if fl is None else fl[None])
+    x0 = c0 if feed is None else np.append(c0, 1.0)
+    return np.ascontiguousarray(A), np.ascontiguousarray(Al), x0[None]
 
 
 def propagate(
