@@ -122,8 +122,10 @@ def expm_stack(A, Al, t, precision: str, target: float | None = None, columns: i
     is_dd = np.zeros(b, dtype=bool)
     # plans are chosen for beta rounded up to a quarter power of two: a plan valid for a
     # larger norm is valid (conservative), and the members of a sweep share a few plans
-    with np.errstate(divide="ignore"):
-        bq = np.where(beta > 0, np.exp2(np.ceil(4.0 * np.log2(beta)) / 4.0), 0.0)
+    positive = beta > 0
+    bq = np.where(
+        positive, np.exp2(np.ceil(4.0 * np.log2(np.where(positive, beta, 1.0))) / 4.0), 0.0
+    )
     bq = np.maximum(bq, beta)
     values, which = distinct(bq)
     reach, density = pattern_stats(A)
@@ -136,7 +138,11 @@ def expm_stack(A, Al, t, precision: str, target: float | None = None, columns: i
     else:
         route_dd = np.full(b, precision == "double-double")
     kinds, inverse = distinct(2 * which + route_dd)
-    members_of = [np.flatnonzero(inverse == u) for u in range(kinds.size)]
+    members_of = (
+        [np.arange(b)]
+        if kinds.size == 1
+        else [np.flatnonzero(inverse == u) for u in range(kinds.size)]
+    )
     groups: dict[tuple, np.ndarray] = {}
     plans: dict[tuple, Plan] = {}
     for code, sel in zip(kinds.tolist(), members_of, strict=True):
@@ -253,7 +259,7 @@ def _run_stack(A, Al, x0, times, precision: str, species: int):
 #: size): a scheme solved again on the same grid, as in a repeated call, skips the plan
 #: and the exponential (for 10 species they cost more than the grid itself)
 REMEMBER_ENTRIES = 64 * 64
-_EXPONENTIALS: dict[bytes, tuple] = {}
+_EXPONENTIALS: dict[tuple[bytes, float, int], tuple] = {}
 
 
 class _StackExponentials:
@@ -291,7 +297,7 @@ class _StackExponentials:
         if self.key is None:
             *result, routes = compute()
         else:
-            key = self.key + struct.pack("<dq", h, columns)
+            key = (self.key, h, columns)  # a tuple: the matrix bytes are hashed once
             # shared by the calls that remember them: only read (by the kernels), never
             # written (not flagged read-only: the kernels would be compiled twice)
             *result, routes = remembered(_EXPONENTIALS, key, compute)
