@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import math
 import struct
+from typing import NamedTuple
 
 import numpy as np
 
@@ -238,13 +239,15 @@ def _run_stack(A, Al, x0, times, precision: str, species: int):
     if start == p:
         return X, bound, precision
     exps = _StackExponentials(A, Al, precision)
-    residual = np.zeros(p)  # times[k] minus the exact time the route reaches
-    dt = uniform_step(times[start:]) if p - start >= 3 else None
-    if dt is not None:
-        _uniform_grid(exps, x0, times, start, dt, X, bound, residual)
+    plan = _uniform_plan(exps, times, start)
+    if plan is not None:
+        _uniform_grid(plan, x0, times, start, X, bound)
+        residual = plan.residual  # times[k] minus the exact time the route reaches
     else:
+        residual = np.zeros(p)
         _each_interval(exps, x0, times, start, X, bound, residual)
-    if residual.any():
+        residual = residual if residual.any() else None
+    if residual is not None:
         gamma = (N + 2) * U
         kernels.residual_corrections(A, X, residual, species, gamma, TINY, bound)
     # the final rounding of hi + lo to double
@@ -309,35 +312,80 @@ class _StackExponentials:
         return "+".join(sorted(self.routes)) if self.routes else self.precision
 
 
-def _uniform_grid(exps: _StackExponentials, x0, times, start: int, dt: float, X, bound, residual):
-    """The states at a uniform grid ``times[start:]`` of step ``dt``, in place.
+class UniformPlan(NamedTuple):
+    """How a uniform grid is propagated: what depends on the matrices and the times only."""
+
+    dt: float  # the step [s]
+    skip: int  # 1: the first time is dt itself (no exponential of its own)
+    first: tuple | None  # exponential of the first time when it is not dt (StackExponentials.of)
+    step: tuple  # exponential of dt, for the grid's number of states
+    #: what each time exceeds the one the grid reaches [s] (read only; None: all zero)
+    residual: np.ndarray | None
+    routes: frozenset[str]
+
+
+#: grids of at most this many times have their plan remembered with the exponentials (the
+#: key holds the times: 32 kB at this size)
+REMEMBER_TIMES = 4096
+_UNIFORM_PLANS: dict[tuple[bytes, bytes], UniformPlan | bool] = {}
+
+
+def _uniform_plan(exps: _StackExponentials, times, start: int) -> UniformPlan | None:
+    """The plan of a uniform grid ``times[start:]`` (None for another grid), remembered."""
+    p = times.size
+
+    def compute() -> UniformPlan | bool:
+        from kinetics.engine import kernels
+
+        dt = uniform_step(times[start:]) if p - start >= 3 else None
+        if dt is None:
+            return False
+        t_first = float(times[start])
+        # a grid dt, 2 dt, ... (the usual linspace from 0) needs one exponential
+        skip = 1 if abs(t_first - dt) <= 4 * U * float(times[-1]) else 0
+        columns = p - start + skip
+        first = None if skip else exps.of(t_first)
+        step = exps.of(dt, columns=columns)
+        residual = np.zeros(p)
+        kernels.grid_residuals(times, start, skip, t_first, dt, residual)
+        kept = residual if residual.any() else None
+        return UniformPlan(dt, skip, first, step, kept, frozenset(exps.routes))
+
+    if exps.key is None or p > REMEMBER_TIMES:
+        plan = compute()
+    else:
+        plan = remembered(_UNIFORM_PLANS, (exps.key, times.tobytes()), compute)
+    if not plan:
+        return None
+    assert isinstance(plan, UniformPlan)
+    exps.routes |= plan.routes
+    return plan
+
+
+def _uniform_grid(plan: UniformPlan, x0, times, start: int, X, bound):
+    """The states at a uniform grid ``times[start:]`` of step ``plan.dt``, in place.
 
     One exponential of ``dt`` (and one of the first time when the grid does not start at
-    ``dt``); the states :math:`F^k v`, their bounds and time residuals come from one call
-    of the grid kernel.
+    ``dt``); the states :math:`F^k v` and their bounds come from one call of the grid
+    kernel (the time residuals are the plan's).
     """
     from kinetics.engine import kernels
 
     b, N = x0.shape
-    p = times.size
     # the start state as a double-double pair (b, N); the kernel only reads it
     vh = np.ascontiguousarray(x0)
     vl = np.zeros((b, N))
     cur_bound = np.zeros(b)
-    t_first = float(times[start])
-    # a grid dt, 2 dt, ... (the usual linspace from 0) needs one exponential
-    skip = 1 if abs(t_first - dt) <= 4 * U * float(times[-1]) else 0
-    M = p - start - 1 + skip
-    if not skip:
-        Fh, Fl, eps, is_dd, gamma = exps.of(t_first)
+    if plan.first is not None:
+        Fh, Fl, eps, is_dd, gamma = plan.first
         oh, ol = mv(Fh, Fl, x0[:, :, None], vl[:, :, None], is_dd)  # as column blocks
         vh, vl = oh[..., 0].copy(), ol[..., 0].copy()
         cur_bound = compose(eps, gamma)
-    Fh, Fl, eps, is_dd, gamma = exps.of(dt, columns=M + 1)
+    Fh, Fl, eps, is_dd, gamma = plan.step
     # states F^k v for k = 0..M (one product each), their bounds and time residuals
     kernels.grid(
-        Fh, Fl, vh, vl, M + 1, skip, is_dd, X, start, eps, gamma, cur_bound,
-        bound, times, t_first, dt, residual,
+        Fh, Fl, vh, vl, times.size - start + plan.skip, plan.skip, is_dd, X, start, eps, gamma,
+        cur_bound, bound,
     )  # fmt: skip
 
 

@@ -454,11 +454,8 @@ def exponentials(
 
 
 @njit(**_JIT)
-def grid(
-    Fh, Fl, x0h, x0l, columns, skip, dd, X, row0, eps, gamma, start_bound, bound, times,
-    t_first, dt, residual,
-):  # fmt: skip
-    r"""A uniform time grid: the states, their error bounds and the time residuals.
+def grid(Fh, Fl, x0h, x0l, columns, skip, dd, X, row0, eps, gamma, start_bound, bound):
+    r"""A uniform time grid: the states and their error bounds.
 
     1. States ``F^k x0`` for ``k = 0 .. columns - 1`` by repeated products, per member.
        Each state is one product ``x_{k+1} = F x_k`` (as the row ``x_k^T F^T``, so that
@@ -474,10 +471,9 @@ def grid(
        \gamma)`, so state ``k`` has :math:`(1 + s)\,((1 + \epsilon)(1 + \gamma))^k - 1`
        with ``s`` the bound of the start state (``start_bound``; relative errors of
        nonnegative factors multiply).
-    3. ``residual[k] = times[k] - T_k`` for ``k >= row0``, the exact times the grid
-       reaches being ``T_k = t_first + (k - row0) dt`` (or ``(k - row0 + 1) dt`` with
-       ``skip``), formed with TwoProduct so that the residual is exact up to one
-       rounding of a tiny number.
+
+    The times the states stand for, and how far the requested times differ from them,
+    are :func:`grid_residuals`.
     """
     # One body on purpose, longer than the usual limit (see exponentials).
     # 1. states
@@ -549,7 +545,16 @@ def grid(
                 acc = acc + step + acc * step
             if k >= skip:
                 bound[q, row0 + k - skip] = acc
-    # 3. time residuals
+
+
+@njit(**_JIT)
+def grid_residuals(times, row0, skip, t_first, dt, residual):
+    """What each requested time exceeds the exact time the grid of :func:`grid` reaches.
+
+    ``residual[k] = times[k] - T_k`` for ``k >= row0``, with ``T_k = t_first + (k - row0)
+    dt`` (or ``(k - row0 + 1) dt`` with ``skip``), formed with TwoProduct so that the
+    residual is exact up to one rounding of a tiny number.
+    """
     for k in range(row0, times.shape[0]):
         steps = float(k - row0 + skip)
         p, e = two_prod(steps, dt)
