@@ -168,6 +168,19 @@ def _cases(data, prefix):
     return sorted({k.split("/")[2] for k in data if k.startswith(prefix)})
 
 
+def _has_negative_offdiagonal(A) -> bool:
+    """Whether the engine's check refuses the stack ``A`` for a negative off-diagonal entry
+    (a compiled kernel until the check became a view of the off-diagonal entries)."""
+    from kinetics.engine import checks
+    from kinetics.errors import RateMatrixError
+
+    try:
+        checks.offdiagonal_nonnegative(A)
+    except RateMatrixError:
+        return True
+    return False
+
+
 def engine_outputs(data) -> dict[str, np.ndarray]:
     """Outputs of the kernels for the stored inputs ``data`` (keys ``in/...``).
 
@@ -199,7 +212,7 @@ def engine_outputs(data) -> dict[str, np.ndarray]:
                    "Y": Y, "ratio": ratio, "oh": oh, "ol": ol}  # fmt: skip
         for label, x in results.items():
             out[f"out/exp/{name}/{label}"] = x
-        out[f"out/exp/{name}/negative"] = np.array(_kernels.negative_offdiagonal(A))
+        out[f"out/exp/{name}/negative"] = np.array(_has_negative_offdiagonal(A))
         pairs = [(float(e), float(g)) for e, g in zip(beta, sigma, strict=True)]
         squared = [_kernels.squared_bound(e, g) for e, g in pairs]
         assert squared == [_kernels.squared_bound.py_func(e, g) for e, g in pairs]

@@ -207,18 +207,6 @@ def uniform_step(t, tol):
     return dt
 
 
-@njit(**_JIT)
-def negative_offdiagonal(K):
-    """True if any off-diagonal entry of the stack ``K`` (b, n, n) is negative."""
-    b, n, _ = K.shape
-    for q in range(b):
-        for i in range(n):
-            for j in range(n):
-                if i != j and K[q, i, j] < 0.0:
-                    return True
-    return False
-
-
 @njit(**_HELPER)
 def copy(A, B):
     """``B = A`` for 2-D arrays, by explicit loops.
