@@ -312,7 +312,7 @@ class _StackExponentials:
         return "+".join(sorted(self.routes)) if self.routes else self.precision
 
 
-class UniformPlan(NamedTuple):
+class _UniformPlan(NamedTuple):
     """How a uniform grid is propagated: what depends on the matrices and the times only."""
 
     dt: float  # the step [s]
@@ -324,17 +324,18 @@ class UniformPlan(NamedTuple):
     routes: frozenset[str]
 
 
-#: grids of at most this many times have their plan remembered with the exponentials (the
-#: key holds the times: 32 kB at this size)
+#: grids of at most this many times have their plan remembered with the exponentials (at
+#: most 256 plans, :func:`kinetics.engine.plan.remembered`; a key holds the times, 32 kB at
+#: this size: 8 MB in all)
 REMEMBER_TIMES = 4096
-_UNIFORM_PLANS: dict[tuple[bytes, bytes], UniformPlan | bool] = {}
+_UNIFORM_PLANS: dict[tuple[bytes, bytes], _UniformPlan | bool] = {}
 
 
-def _uniform_plan(exps: _StackExponentials, times, start: int) -> UniformPlan | None:
+def _uniform_plan(exps: _StackExponentials, times, start: int) -> _UniformPlan | None:
     """The plan of a uniform grid ``times[start:]`` (None for another grid), remembered."""
     p = times.size
 
-    def compute() -> UniformPlan | bool:
+    def compute() -> _UniformPlan | bool:
         from kinetics.engine import kernels
 
         dt = uniform_step(times[start:]) if p - start >= 3 else None
@@ -349,7 +350,7 @@ def _uniform_plan(exps: _StackExponentials, times, start: int) -> UniformPlan | 
         residual = np.zeros(p)
         kernels.grid_residuals(times, start, skip, t_first, dt, residual)
         kept = residual if residual.any() else None
-        return UniformPlan(dt, skip, first, step, kept, frozenset(exps.routes))
+        return _UniformPlan(dt, skip, first, step, kept, frozenset(exps.routes))
 
     if exps.key is None or p > REMEMBER_TIMES:
         plan = compute()
@@ -357,12 +358,12 @@ def _uniform_plan(exps: _StackExponentials, times, start: int) -> UniformPlan | 
         plan = remembered(_UNIFORM_PLANS, (exps.key, times.tobytes()), compute)
     if not plan:
         return None
-    assert isinstance(plan, UniformPlan)
+    assert isinstance(plan, _UniformPlan)
     exps.routes |= plan.routes
     return plan
 
 
-def _uniform_grid(plan: UniformPlan, x0, times, start: int, X, bound):
+def _uniform_grid(plan: _UniformPlan, x0, times, start: int, X, bound):
     """The states at a uniform grid ``times[start:]`` of step ``plan.dt``, in place.
 
     One exponential of ``dt`` (and one of the first time when the grid does not start at
