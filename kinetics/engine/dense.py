@@ -243,6 +243,9 @@ def _run_stack(A, Al, x0, times, precision: str, species: int):
     if plan is not None:
         _uniform_grid(plan, x0, times, start, X, bound)
         residual = plan.residual  # times[k] minus the exact time the route reaches
+    elif p - start <= FROM_START:
+        _each_from_start(exps, x0, times, start, X, bound)
+        residual = None  # each exponential is of the requested time itself
     else:
         residual = np.zeros(p)
         _each_interval(exps, x0, times, start, X, bound, residual)
@@ -388,6 +391,37 @@ def _uniform_grid(plan: _UniformPlan, x0, times, start: int, X, bound):
         Fh, Fl, vh, vl, times.size - start + plan.skip, plan.skip, is_dd, X, start, eps, gamma,
         cur_bound, bound,
     )  # fmt: skip
+
+
+#: a grid of at most this many times (after the leading zeros), not uniform, is computed
+#: time by time from the start (:func:`_each_from_start`)
+FROM_START = 4
+
+
+def _each_from_start(exps: _StackExponentials, x0, times, start: int, X, bound):
+    """The states at a few times ``times[start:]``, each from the start state, in place.
+
+    One exponential per distinct time, as many as a step per interval would need when the
+    intervals differ (the usual case for a few times), but each is of the requested time
+    itself: no time residual to correct, and one product's bound per state instead of a
+    chain of them.
+    """
+    b, N = x0.shape
+    start_h = x0[:, :, None].copy()  # column blocks (b, N, 1); exact (no low part)
+    start_l = np.zeros((b, N, 1))
+    done: dict[float, int] = {}
+    for k in range(start, times.size):
+        t = float(times[k])
+        if t in done:  # a repeated time: the same state
+            X[:, k] = X[:, done[t]]
+            bound[:, k] = bound[:, done[t]]
+            continue
+        # the route as a step per interval would take it (states ahead: all of them)
+        Fh, Fl, eps, is_dd, gamma = exps.of(t, columns=times.size - start + 1)
+        oh, ol = mv(Fh, Fl, start_h, start_l, is_dd)
+        np.maximum((oh + ol)[:, :, 0], 0.0, out=X[:, k])
+        bound[:, k] = compose(eps, gamma)
+        done[t] = k
 
 
 def _each_interval(exps: _StackExponentials, x0, times, start: int, X, bound, residual):
