@@ -571,3 +571,25 @@ def test_check_inputs_refuses_what_propagate_certified_refuses():
         check_inputs([[-1.0, -1.0], [1.0, 0.0]], [1.0, 0.0])
     with pytest.raises(ConcentrationError):
         check_inputs([[-1.0, 0.0], [1.0, 0.0]], [-1.0, 0.0])
+
+
+def test_a_few_times_each_from_the_start_and_many_by_intervals_agree_with_bateman():
+    """A few irregular times (each from the start, repeated and leading zero times) and
+    many (a step per interval) against the Bateman (1910) closed form, with their bound."""
+    ks = [1.0, 0.3, 0.05, 0.01]
+    K = chain_matrix(ks)
+    c0 = [2.0, 0, 0, 0, 0]
+    # times where the closed form in double does not cancel (t >= 5 s here)
+    few = np.array([0.0, 0.0, 5.5, 5.5, 7.25, 41.0])
+    many = np.array([0.0, 5.5, 6.0, 6.5, 7.25, 9.5, 13.0, 41.0])
+    for t in (few, many):
+        result = propagate_certified(K, c0, t)
+        assert result.precision == "double-double"
+        assert result.error_bound.max() < 1e-15
+        for j, tj in enumerate(t):
+            ref = bateman_chain(ks, 2.0, tj) if tj > 0 else np.array([2.0, 0, 0, 0])
+            np.testing.assert_allclose(result.concentrations[j, :4], ref, rtol=1e-13, atol=0)
+    a = propagate_certified(K, c0, few).concentrations
+    b = propagate_certified(K, c0, many).concentrations
+    assert np.array_equal(a[2], a[3])  # a repeated time: the same state
+    np.testing.assert_allclose(a[[2, 4, 5]], b[[1, 4, 7]], rtol=4e-16, atol=0)
