@@ -199,6 +199,10 @@ class CheckedInputs:
         Low-order parts of ``K`` (exact matrix ``K + K_low``).
     feed_low : ndarray, shape (n,), or None
         Low-order parts of ``feed``.
+    stacks : tuple of ndarray, or None
+        The dense engine's augmented pair ``(A, A_low)``, shape (1, N, N), and start,
+        shape (1, N) (N = n + 1 with a feed), made once for a scheme of at most
+        :data:`~kinetics.engine.plan.DENSE_MAX` species given dense; else None.
     """
 
     K: Any  # ndarray or CSR
@@ -206,8 +210,6 @@ class CheckedInputs:
     feed: np.ndarray | None
     K_low: Any  # ndarray, CSR or None
     feed_low: np.ndarray | None
-    #: the dense engine's augmented pair (A, A_low), shape (1, N, N), and start (1, N),
-    #: made once for a scheme of at most DENSE_MAX species given dense; else None
     stacks: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
 
     @checks.guard_growth
