@@ -154,6 +154,55 @@ def bench_api():
               f" (LSODA/that {t_ls / t_n:5.1f}x)")  # fmt: skip
 
 
+def random_ten_species_text(rng, reverse: bool) -> str:
+    """An invented 10-species scheme: each species to 1-3 of the next three, k = 10^U(-3, 1)."""
+    names = "ABCDEFGHIJ"
+    lines = []
+    for i in range(10):
+        for j in range(i + 1, min(10, i + 4)):
+            if j == i + 1 or rng.random() < 0.5:
+                lines.append(
+                    f"{names[i]} -> {names[j]}  k{i}{j} = {10 ** rng.uniform(-3, 1):.4g} 1/s"
+                )
+    if reverse:
+        lines.append(f"J -> E  kback = {10 ** rng.uniform(-3, 0):.4g} 1/s")
+    return "\n".join([*lines, "start A = 1 mol/L"])
+
+
+def bench_api_random(cases=6):
+    """kinetics.solve against LSODA on random 10-species schemes (not only the one above)."""
+    import kinetics
+
+    print("\n== public API on random 10-species schemes (constants over 4 decades), 201 points ==")
+    rng = np.random.default_rng(7)
+    ratios = {10.0: [], 100.0: []}
+    first = []
+    for case in range(cases):
+        text = random_ten_species_text(rng, reverse=bool(case % 2))
+        scheme = kinetics.parse(text)
+        K, c0 = scheme.rate_matrix(), scheme.initial_vector
+        for until in ratios:
+            t = np.linspace(0.0, until, 201)
+
+            def lsoda(t=t, until=until, K=K, c0=c0):
+                return solve_ivp(lambda _t, y: K @ y, (0, until), c0, method="LSODA", t_eval=t,
+                                 rtol=1e-10, atol=1e-20, jac=lambda _t, _y: K).y.T  # fmt: skip
+
+            t_ls, _ = best_of(lsoda, repeat=10)
+            t_a, _ = best_of(lambda t=t, s=scheme: kinetics.solve(s, t), repeat=300)
+            ratios[until].append(t_ls / t_a)
+            if until == 10.0:
+                # a scheme not solved before on every call (nothing remembered): parsed anew
+                fresh = iter([kinetics.parse(text) for _ in range(100)])
+                t_f, _ = best_of(lambda t=t, f=fresh: kinetics.solve(next(f), t), repeat=100)
+                first.append(t_ls / t_f)
+    for until, r in ratios.items():
+        print(f"window {until:5.0f} s: LSODA/solve {min(r):6.1f}x to {max(r):6.1f}x "
+              f"(median {np.median(r):6.1f}x) over {cases} schemes")  # fmt: skip
+    print(f"window    10 s, each scheme solved for the first time: LSODA/solve {min(first):5.1f}x "
+          f"to {max(first):5.1f}x (median {np.median(first):5.1f}x)")  # fmt: skip
+
+
 def chain_matrix(n):
     k = np.logspace(-4, 2, n)
     rows = np.r_[np.arange(n), np.arange(1, n)]
@@ -423,6 +472,7 @@ def main():
     print(f"load average (1, 5, 15 min): {os.getloadavg()}")
     bench_small()
     bench_api()
+    bench_api_random()
     if not args.skip_chain:
         bench_chain()
         bench_decay(args.full_reference)

@@ -7,13 +7,15 @@ vector and returns concentrations with their names and units.
 
 from __future__ import annotations
 
+import math
 import os
+import weakref
 from dataclasses import dataclass, field, replace
 from typing import TYPE_CHECKING
 
 import numpy as np
 
-from .engine import propagate_certified
+from .engine import CheckedInputs, check_inputs
 from .engine.checks import end_time
 from .engine.checks import time_list as check_times
 from .errors import (
@@ -469,27 +471,59 @@ def solve(scheme: Scheme, times) -> Solution:
     >>> round(float(kinetics.solve(s, [0, 1]).concentrations[1, 0]), 12)
     0.367879441171
     """
-    from .analysis import check_working_range
-
     scheme = require_scheme(scheme, "solve")
     t = check_times(times)
     _check_size(t.size, len(scheme.species))
-    Kh, Kl = scheme.rate_matrix_pair()
-    feed = scheme.feed_vector if scheme.feed else None
-    c0 = scheme.initial_vector
-    amount = float(c0.sum() + (0.0 if feed is None else feed.sum() * t[-1]))
-    check_working_range(-Kh.diagonal(), float(t[-1]), scheme.species_names, amount)
+    inputs = _INPUTS.get(scheme)
+    if inputs is None:
+        inputs = _INPUTS[scheme] = _SchemeInputs(scheme)
+    inputs.check_range(float(t[-1]))
     if scheme.timeline:
         return _solve_timeline(scheme, t)
-    result = propagate_certified(Kh, c0, t, feed, K_low=Kl)
+    result = inputs.engine_inputs().propagate(t)
     return Solution(
         t,
-        scheme.species_names,
+        list(inputs.names),
         result.concentrations,
         scheme.concentration_unit,
         scheme,
         result.error_bound,
     )
+
+
+class _SchemeInputs:
+    """What :func:`solve` needs of a scheme, worked out once per scheme (it is frozen)."""
+
+    def __init__(self, scheme: Scheme) -> None:
+        self.K, self.K_low = scheme.rate_matrix_pair()
+        self.c0 = scheme.initial_vector
+        self.feed = scheme.feed_vector if scheme.feed else None
+        self.names = scheme.species_names
+        self.rates = -self.K.diagonal()  # consumption rates [1/s]
+        self.start = float(self.c0.sum())  # total start amount [conc]
+        self.fed = 0.0 if self.feed is None else float(self.feed.sum())  # [conc/s]
+        # the latest end time [s] that passed the working-range check: every condition of
+        # the check grows with the end time, so an earlier one passes too
+        self.checked_until = -math.inf
+        self.checked: CheckedInputs | None = None  # the engine's inputs, checked on first use
+
+    def check_range(self, t_end: float) -> None:
+        """:func:`kinetics.analysis.check_working_range` for times up to ``t_end`` [s]."""
+        if t_end > self.checked_until:
+            from .analysis import check_working_range
+
+            check_working_range(self.rates, t_end, self.names, self.start + self.fed * t_end)
+            self.checked_until = t_end
+
+    def engine_inputs(self) -> CheckedInputs:
+        """The engine's inputs (:func:`kinetics.engine.check_inputs`), checked once."""
+        if self.checked is None:
+            self.checked = check_inputs(self.K, self.c0, self.feed, K_low=self.K_low)
+        return self.checked
+
+
+#: the inputs of each scheme solved
+_INPUTS: weakref.WeakKeyDictionary[Scheme, _SchemeInputs] = weakref.WeakKeyDictionary()
 
 
 def _solve_timeline(scheme: Scheme, t: np.ndarray) -> Solution:

@@ -539,3 +539,57 @@ def test_a_repeated_solve_reuses_its_exponential_and_equals_the_first(monkeypatc
     ref = [bateman_chain([0.5, 0.3], 1.0, tk) for tk in t]
     np.testing.assert_allclose(other[:, :2], ref, rtol=1e-13, atol=0)
     assert len(calls) <= 2
+
+
+def test_inputs_checked_once_give_the_same_numbers_on_every_grid():
+    """check_inputs(...).propagate equals propagate_certified bit for bit (dense, feed, low
+    parts, sparse); reference: the public function itself, and the Bateman closed form
+    c_A = e^(-k1 t) for the first species."""
+    from kinetics.engine import check_inputs
+    from kinetics.engine.checks import times as checked_times
+
+    K = chain_matrix([0.7, 0.2, 0.05])
+    K_low = np.zeros_like(K)
+    K_low[0, 0] = 1e-18
+    c0 = np.array([1.0, 0.0, 0.0, 0.0])
+    feed = np.array([0.0, 1e-3, 0.0, 0.0])
+    inputs = check_inputs(K, c0, feed, K_low=K_low)
+    for t in ([0.0, 1.0, 5.0], np.linspace(0.0, 30.0, 31), [2.5]):
+        expected = propagate_certified(K, c0, t, feed, K_low=K_low)
+        got = inputs.propagate(checked_times(t))
+        assert np.array_equal(got.concentrations, expected.concentrations)
+        assert np.array_equal(got.error_bound, expected.error_bound)
+    sparse = check_inputs(scipy.sparse.csr_array(K), c0)
+    got = sparse.propagate(checked_times([4.0])).concentrations[0, 0]
+    assert abs(got - math.exp(-0.7 * 4.0)) <= 1e-15 * math.exp(-2.8)
+
+
+def test_check_inputs_refuses_what_propagate_certified_refuses():
+    from kinetics.engine import check_inputs
+
+    with pytest.raises(RateMatrixError):
+        check_inputs([[-1.0, -1.0], [1.0, 0.0]], [1.0, 0.0])
+    with pytest.raises(ConcentrationError):
+        check_inputs([[-1.0, 0.0], [1.0, 0.0]], [-1.0, 0.0])
+
+
+def test_a_few_times_each_from_the_start_and_many_by_intervals_agree_with_bateman():
+    """A few irregular times (each from the start, repeated and leading zero times) and
+    many (a step per interval) against the Bateman (1910) closed form, with their bound."""
+    ks = [1.0, 0.3, 0.05, 0.01]
+    K = chain_matrix(ks)
+    c0 = [2.0, 0, 0, 0, 0]
+    # times where the closed form in double does not cancel (t >= 5 s here)
+    few = np.array([0.0, 0.0, 5.5, 5.5, 7.25, 41.0])
+    many = np.array([0.0, 5.5, 6.0, 6.5, 7.25, 9.5, 13.0, 41.0])
+    for t in (few, many):
+        result = propagate_certified(K, c0, t)
+        assert result.precision == "double-double"
+        assert result.error_bound.max() < 1e-15
+        for j, tj in enumerate(t):
+            ref = bateman_chain(ks, 2.0, tj) if tj > 0 else np.array([2.0, 0, 0, 0])
+            np.testing.assert_allclose(result.concentrations[j, :4], ref, rtol=1e-13, atol=0)
+    a = propagate_certified(K, c0, few).concentrations
+    b = propagate_certified(K, c0, many).concentrations
+    assert np.array_equal(a[2], a[3])  # a repeated time: the same state
+    np.testing.assert_allclose(a[[2, 4, 5]], b[[1, 4, 7]], rtol=4e-16, atol=0)

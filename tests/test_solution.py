@@ -147,3 +147,34 @@ def test_solution_carries_the_certified_error_bound():
         # the bound certifies the exact exponential of the given doubles; the closed form
         # evaluated in double adds about one rounding of exp (a few 1e-16)
         assert error <= result.error_bound[j] + 4e-16
+
+
+def test_a_scheme_solved_again_is_checked_against_each_new_end_time():
+    """The working-range check is remembered per scheme only up to the latest end time
+    that passed: a later end time is checked again (working range: README, "Limits of
+    the method"; lifetimes sigma t at most 1e27)."""
+    from kinetics.errors import WorkingRangeError
+
+    scheme = kinetics.parse("A -> B  k1 = 1e6 1/s\nstart A = 1 mol/L\n")
+    first = kinetics.solve(scheme, [0.0, 1e-6])
+    again = kinetics.solve(scheme, [0.0, 1e-6])
+    assert np.array_equal(first.concentrations, again.concentrations)
+    with pytest.raises(WorkingRangeError, match="lifetimes"):
+        kinetics.solve(scheme, [0.0, 1e22])
+    # an earlier end time still passes after the refusal
+    assert kinetics.solve(scheme, [0.0, 5e-7]).concentrations[1, 0] == pytest.approx(
+        math.exp(-0.5), rel=1e-15
+    )
+
+
+def test_what_a_solve_keeps_per_scheme_is_not_shared_with_its_results():
+    """Mutating one solution's species list or table leaves the next solve as it was."""
+    scheme = kinetics.parse(CHAIN)
+    first = kinetics.solve(scheme, [0.0, 1.0])
+    first.species.append("X")
+    first.concentrations[:] = -1.0
+    again = kinetics.solve(scheme, [0.0, 1.0])
+    assert again.species == ["A", "B", "C"]
+    # A(t) = A0 exp(-k1 t) (first-order decay, closed form)
+    assert again["A"][1] == pytest.approx(2.0 * math.exp(-0.3), rel=1e-15)
+    assert again.concentrations[0].tolist() == [2.0, 0.0, 0.0]

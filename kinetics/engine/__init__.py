@@ -7,7 +7,8 @@ c(t) = exp(tK) c0 + ∫ exp(sK) ds f, accurate entry by entry against the exact 
 module              owns
 ==================  ==========================================================================
 ``propagate``       the public functions: :func:`propagate`, :func:`propagate_certified`,
-                    :func:`propagate_batch`, :func:`expm_nonnegative`, :class:`Propagation`
+                    :func:`propagate_batch`, :func:`expm_nonnegative`, :class:`Propagation`,
+                    :func:`check_inputs` (inputs checked once for many grids)
 ``stretch``         :class:`StretchPropagator`: stretches applied to many start vectors
 ``sensitivity``     derivatives along directions of K: the entrywise and the block route
 ``checks``          the input checks and their wording (one home)
@@ -32,8 +33,10 @@ the engine does not load numba.
 
 from kinetics.engine.plan import AUTO_RTOL, DENSE_MAX, TINY
 from kinetics.engine.propagate import (
+    CheckedInputs,
     Precision,
     Propagation,
+    check_inputs,
     expm_nonnegative,
     expm_nonnegative_certified,
     propagate,
@@ -51,10 +54,12 @@ __all__ = [
     "AUTO_RTOL",
     "DENSE_MAX",
     "TINY",
+    "CheckedInputs",
     "Precision",
     "Propagation",
     "StretchPropagator",
     "block_sensitivities",
+    "check_inputs",
     "expm_nonnegative",
     "expm_nonnegative_certified",
     "point_sensitivities",

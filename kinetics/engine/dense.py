@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import math
 import struct
+from typing import NamedTuple
 
 import numpy as np
 
@@ -122,8 +123,10 @@ def expm_stack(A, Al, t, precision: str, target: float | None = None, columns: i
     is_dd = np.zeros(b, dtype=bool)
     # plans are chosen for beta rounded up to a quarter power of two: a plan valid for a
     # larger norm is valid (conservative), and the members of a sweep share a few plans
-    with np.errstate(divide="ignore"):
-        bq = np.where(beta > 0, np.exp2(np.ceil(4.0 * np.log2(beta)) / 4.0), 0.0)
+    positive = beta > 0
+    bq = np.where(
+        positive, np.exp2(np.ceil(4.0 * np.log2(np.where(positive, beta, 1.0))) / 4.0), 0.0
+    )
     bq = np.maximum(bq, beta)
     values, which = distinct(bq)
     reach, density = pattern_stats(A)
@@ -136,7 +139,11 @@ def expm_stack(A, Al, t, precision: str, target: float | None = None, columns: i
     else:
         route_dd = np.full(b, precision == "double-double")
     kinds, inverse = distinct(2 * which + route_dd)
-    members_of = [np.flatnonzero(inverse == u) for u in range(kinds.size)]
+    members_of = (
+        [np.arange(b)]
+        if kinds.size == 1
+        else [np.flatnonzero(inverse == u) for u in range(kinds.size)]
+    )
     groups: dict[tuple, np.ndarray] = {}
     plans: dict[tuple, Plan] = {}
     for code, sel in zip(kinds.tolist(), members_of, strict=True):
@@ -232,13 +239,18 @@ def _run_stack(A, Al, x0, times, precision: str, species: int):
     if start == p:
         return X, bound, precision
     exps = _StackExponentials(A, Al, precision)
-    residual = np.zeros(p)  # times[k] minus the exact time the route reaches
-    dt = uniform_step(times[start:]) if p - start >= 3 else None
-    if dt is not None:
-        _uniform_grid(exps, x0, times, start, dt, X, bound, residual)
+    plan = _uniform_plan(exps, times, start)
+    if plan is not None:
+        _uniform_grid(plan, x0, times, start, X, bound)
+        residual = plan.residual  # times[k] minus the exact time the route reaches
+    elif p - start <= FROM_START:
+        _each_from_start(exps, x0, times, start, X, bound)
+        residual = None  # each exponential is of the requested time itself
     else:
+        residual = np.zeros(p)
         _each_interval(exps, x0, times, start, X, bound, residual)
-    if residual.any():
+        residual = residual if residual.any() else None
+    if residual is not None:
         gamma = (N + 2) * U
         kernels.residual_corrections(A, X, residual, species, gamma, TINY, bound)
     # the final rounding of hi + lo to double
@@ -253,7 +265,7 @@ def _run_stack(A, Al, x0, times, precision: str, species: int):
 #: size): a scheme solved again on the same grid, as in a repeated call, skips the plan
 #: and the exponential (for 10 species they cost more than the grid itself)
 REMEMBER_ENTRIES = 64 * 64
-_EXPONENTIALS: dict[bytes, tuple] = {}
+_EXPONENTIALS: dict[tuple[bytes, float, int], tuple] = {}
 
 
 class _StackExponentials:
@@ -291,7 +303,7 @@ class _StackExponentials:
         if self.key is None:
             *result, routes = compute()
         else:
-            key = self.key + struct.pack("<dq", h, columns)
+            key = (self.key, h, columns)  # a tuple: the matrix bytes are hashed once
             # shared by the calls that remember them: only read (by the kernels), never
             # written (not flagged read-only: the kernels would be compiled twice)
             *result, routes = remembered(_EXPONENTIALS, key, compute)
@@ -303,36 +315,113 @@ class _StackExponentials:
         return "+".join(sorted(self.routes)) if self.routes else self.precision
 
 
-def _uniform_grid(exps: _StackExponentials, x0, times, start: int, dt: float, X, bound, residual):
-    """The states at a uniform grid ``times[start:]`` of step ``dt``, in place.
+class _UniformPlan(NamedTuple):
+    """How a uniform grid is propagated: what depends on the matrices and the times only."""
+
+    dt: float  # the step [s]
+    skip: int  # 1: the first time is dt itself (no exponential of its own)
+    first: tuple | None  # exponential of the first time when it is not dt (StackExponentials.of)
+    step: tuple  # exponential of dt, for the grid's number of states
+    #: what each time exceeds the one the grid reaches [s] (read only; None: all zero)
+    residual: np.ndarray | None
+    routes: frozenset[str]
+
+
+#: grids of at most this many times have their plan remembered with the exponentials (at
+#: most 256 plans, :func:`kinetics.engine.plan.remembered`; a key holds the times, 32 kB at
+#: this size: 8 MB in all)
+REMEMBER_TIMES = 4096
+_UNIFORM_PLANS: dict[tuple[bytes, bytes], _UniformPlan | bool] = {}
+
+
+def _uniform_plan(exps: _StackExponentials, times, start: int) -> _UniformPlan | None:
+    """The plan of a uniform grid ``times[start:]`` (None for another grid), remembered."""
+    p = times.size
+
+    def compute() -> _UniformPlan | bool:
+        from kinetics.engine import kernels
+
+        dt = uniform_step(times[start:]) if p - start >= 3 else None
+        if dt is None:
+            return False
+        t_first = float(times[start])
+        # a grid dt, 2 dt, ... (the usual linspace from 0) needs one exponential
+        skip = 1 if abs(t_first - dt) <= 4 * U * float(times[-1]) else 0
+        columns = p - start + skip
+        first = None if skip else exps.of(t_first)
+        step = exps.of(dt, columns=columns)
+        residual = np.zeros(p)
+        kernels.grid_residuals(times, start, skip, t_first, dt, residual)
+        kept = residual if residual.any() else None
+        return _UniformPlan(dt, skip, first, step, kept, frozenset(exps.routes))
+
+    if exps.key is None or p > REMEMBER_TIMES:
+        plan = compute()
+    else:
+        plan = remembered(_UNIFORM_PLANS, (exps.key, times.tobytes()), compute)
+    if not plan:
+        return None
+    assert isinstance(plan, _UniformPlan)
+    exps.routes |= plan.routes
+    return plan
+
+
+def _uniform_grid(plan: _UniformPlan, x0, times, start: int, X, bound):
+    """The states at a uniform grid ``times[start:]`` of step ``plan.dt``, in place.
 
     One exponential of ``dt`` (and one of the first time when the grid does not start at
-    ``dt``); the states :math:`F^k v`, their bounds and time residuals come from one call
-    of the grid kernel.
+    ``dt``); the states :math:`F^k v` and their bounds come from one call of the grid
+    kernel (the time residuals are the plan's).
     """
     from kinetics.engine import kernels
 
     b, N = x0.shape
-    p = times.size
     # the start state as a double-double pair (b, N); the kernel only reads it
     vh = np.ascontiguousarray(x0)
     vl = np.zeros((b, N))
     cur_bound = np.zeros(b)
-    t_first = float(times[start])
-    # a grid dt, 2 dt, ... (the usual linspace from 0) needs one exponential
-    skip = 1 if abs(t_first - dt) <= 4 * U * float(times[-1]) else 0
-    M = p - start - 1 + skip
-    if not skip:
-        Fh, Fl, eps, is_dd, gamma = exps.of(t_first)
+    if plan.first is not None:
+        Fh, Fl, eps, is_dd, gamma = plan.first
         oh, ol = mv(Fh, Fl, x0[:, :, None], vl[:, :, None], is_dd)  # as column blocks
         vh, vl = oh[..., 0].copy(), ol[..., 0].copy()
         cur_bound = compose(eps, gamma)
-    Fh, Fl, eps, is_dd, gamma = exps.of(dt, columns=M + 1)
+    Fh, Fl, eps, is_dd, gamma = plan.step
     # states F^k v for k = 0..M (one product each), their bounds and time residuals
     kernels.grid(
-        Fh, Fl, vh, vl, M + 1, skip, is_dd, X, start, eps, gamma, cur_bound,
-        bound, times, t_first, dt, residual,
+        Fh, Fl, vh, vl, times.size - start + plan.skip, plan.skip, is_dd, X, start, eps, gamma,
+        cur_bound, bound,
     )  # fmt: skip
+
+
+#: a grid of at most this many times (after the leading zeros), not uniform, is computed
+#: time by time from the start (:func:`_each_from_start`)
+FROM_START = 4
+
+
+def _each_from_start(exps: _StackExponentials, x0, times, start: int, X, bound):
+    """The states at a few times ``times[start:]``, each from the start state, in place.
+
+    One exponential per distinct time, as many as a step per interval would need when the
+    intervals differ (the usual case for a few times), but each is of the requested time
+    itself: no time residual to correct, and one product's bound per state instead of a
+    chain of them.
+    """
+    b, N = x0.shape
+    start_h = x0[:, :, None].copy()  # column blocks (b, N, 1); exact (no low part)
+    start_l = np.zeros((b, N, 1))
+    done: dict[float, int] = {}
+    for k in range(start, times.size):
+        t = float(times[k])
+        if t in done:  # a repeated time: the same state
+            X[:, k] = X[:, done[t]]
+            bound[:, k] = bound[:, done[t]]
+            continue
+        # the route as a step per interval would take it (states ahead: all of them)
+        Fh, Fl, eps, is_dd, gamma = exps.of(t, columns=times.size - start + 1)
+        oh, ol = mv(Fh, Fl, start_h, start_l, is_dd)
+        np.maximum((oh + ol)[:, :, 0], 0.0, out=X[:, k])
+        bound[:, k] = compose(eps, gamma)
+        done[t] = k
 
 
 def _each_interval(exps: _StackExponentials, x0, times, start: int, X, bound, residual):

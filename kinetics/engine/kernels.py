@@ -57,6 +57,9 @@ from numba.extending import intrinsic
 #: plain-double products with at least this many multiply-adds go to BLAS (the loops
 #: win below, where a call's overhead dominates)
 BLAS_FROM = 48**3
+#: the vector width (in doubles) the compiled loops are padded to: loops over whole groups
+#: of LANES entries need no scalar remainder (AVX2 registers hold 4 doubles)
+LANES = 4
 
 _JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
 #: helpers called only from kernels: no wrapper for calls from Python and no cache file of
@@ -202,18 +205,6 @@ def uniform_step(t, tol):
         if abs(t[k] - (t[0] + k * dt)) > tol:
             return -1.0
     return dt
-
-
-@njit(**_JIT)
-def negative_offdiagonal(K):
-    """True if any off-diagonal entry of the stack ``K`` (b, n, n) is negative."""
-    b, n, _ = K.shape
-    for q in range(b):
-        for i in range(n):
-            for j in range(n):
-                if i != j and K[q, i, j] < 0.0:
-                    return True
-    return False
 
 
 @njit(**_HELPER)
@@ -451,11 +442,8 @@ def exponentials(
 
 
 @njit(**_JIT)
-def grid(
-    Fh, Fl, x0h, x0l, columns, skip, dd, X, row0, eps, gamma, start_bound, bound, times,
-    t_first, dt, residual,
-):  # fmt: skip
-    r"""A uniform time grid: the states, their error bounds and the time residuals.
+def grid(Fh, Fl, x0h, x0l, columns, skip, dd, X, row0, eps, gamma, start_bound, bound):
+    r"""A uniform time grid: the states and their error bounds.
 
     1. States ``F^k x0`` for ``k = 0 .. columns - 1`` by repeated products, per member.
        Each state is one product ``x_{k+1} = F x_k`` (as the row ``x_k^T F^T``, so that
@@ -471,20 +459,22 @@ def grid(
        \gamma)`, so state ``k`` has :math:`(1 + s)\,((1 + \epsilon)(1 + \gamma))^k - 1`
        with ``s`` the bound of the start state (``start_bound``; relative errors of
        nonnegative factors multiply).
-    3. ``residual[k] = times[k] - T_k`` for ``k >= row0``, the exact times the grid
-       reaches being ``T_k = t_first + (k - row0) dt`` (or ``(k - row0 + 1) dt`` with
-       ``skip``), formed with TwoProduct so that the residual is exact up to one
-       rounding of a tiny number.
+
+    The times the states stand for, and how far the requested times differ from them,
+    are :func:`grid_residuals`.
     """
     # One body on purpose, longer than the usual limit (see exponentials).
     # 1. states
     b, N, _ = Fh.shape
-    Th = np.empty((N, N))  # F^T
-    Tl = np.empty((N, N))
+    # the product loops run over whole groups of LANES entries (F^T padded with zero
+    # columns): no scalar remainder loop (10 species: 13% faster, 7 species: twice as fast)
+    Np = -(-N // LANES) * LANES
+    Th = np.zeros((N, Np))  # F^T
+    Tl = np.zeros((N, Np))
     vh = np.empty(N)
     vl = np.empty(N)
-    sh = np.empty(N)
-    se = np.empty(N)
+    sh = np.empty(Np)
+    se = np.empty(Np)
     for q in range(b):
         for i in range(N):
             for j in range(N):
@@ -498,7 +488,7 @@ def grid(
                 x = vh[i] + vl[i]
                 X[q, row0, i] = 0.0 if 0.0 > x else x  # max(x, 0.0)
         for k in range(1, columns):
-            for j in range(N):
+            for j in range(Np):
                 sh[j] = 0.0
                 se[j] = 0.0
             if dd[q]:
@@ -507,7 +497,7 @@ def grid(
                     al = vl[r]
                     if a == 0.0 and al == 0.0:
                         continue
-                    for j in range(N):
+                    for j in range(Np):
                         bb = Th[r, j]
                         p = a * bb
                         e = fma(a, Tl[r, j], fma(al, bb, fma(a, bb, -p)))
@@ -525,7 +515,7 @@ def grid(
                     a = vh[r]
                     if a == 0.0:
                         continue
-                    for j in range(N):
+                    for j in range(Np):
                         sh[j] += a * Th[r, j]
                 for j in range(N):
                     vh[j] = sh[j]
@@ -543,7 +533,16 @@ def grid(
                 acc = acc + step + acc * step
             if k >= skip:
                 bound[q, row0 + k - skip] = acc
-    # 3. time residuals
+
+
+@njit(**_JIT)
+def grid_residuals(times, row0, skip, t_first, dt, residual):
+    """What each requested time exceeds the exact time the grid of :func:`grid` reaches.
+
+    ``residual[k] = times[k] - T_k`` for ``k >= row0``, with ``T_k = t_first + (k - row0)
+    dt`` (or ``(k - row0 + 1) dt`` with ``skip``), formed with TwoProduct so that the
+    residual is exact up to one rounding of a tiny number.
+    """
     for k in range(row0, times.shape[0]):
         steps = float(k - row0 + skip)
         p, e = two_prod(steps, dt)
@@ -696,19 +695,19 @@ def residual_corrections(A, X, delta, species, gamma, tiny, bound):
         for m in range(P):
             largest[m] = 0.0
             worst[m] = 0.0
+        # one division per entry: g = |d| (|A|x)_i / x_i and the bound's terms from 1 / x_i
         for i in range(species):
             for m in range(P):
                 xi = x[i, m]
-                g = abs(d[m]) * a[i, m] / xi
-                if xi > tiny and g > largest[m]:
-                    largest[m] = g
-        for i in range(species):
-            for m in range(P):
-                xi = x[i, m]
+                r = 1.0 / xi
                 dm = d[m]
-                e = gamma * abs(dm) * a[i, m] / xi + 2.0 * (0.5 * dm * dm * z[i, m] / xi) + 2.0**-53
-                if xi > tiny and e > worst[m]:
-                    worst[m] = e
+                g = abs(dm) * a[i, m] * r
+                e = gamma * g + dm * dm * z[i, m] * r + 2.0**-53
+                if xi > tiny:
+                    if g > largest[m]:
+                        largest[m] = g
+                    if e > worst[m]:
+                        worst[m] = e
         for m in range(P):
             k = cols[m]
             dm = d[m]

@@ -18,6 +18,7 @@ M. S. Paterson, L. J. Stockmeyer, SIAM J. Comput. 2, 60-66 (1973). doi:10.1137/0
 from __future__ import annotations
 
 import math
+from collections.abc import Hashable
 from dataclasses import dataclass
 from functools import lru_cache
 
@@ -265,7 +266,7 @@ PATTERN_CACHE = 256
 _PATTERN_STATS: dict[bytes, tuple[int, float]] = {}
 
 
-def remembered(store: dict, key: bytes, compute):
+def remembered(store: dict, key: Hashable, compute):
     """``store[key]``, computed by ``compute()`` the first time.
 
     The one policy of the engine's pattern caches: a value depends on its key only, and a

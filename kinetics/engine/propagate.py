@@ -59,19 +59,21 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, field
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 import scipy.sparse
 
 from kinetics.engine import checks
 from kinetics.engine.dense import augment, expm_stack, propagate_stack
-from kinetics.engine.plan import TINY, U, compose
+from kinetics.engine.plan import DENSE_MAX, TINY, U, compose
 from kinetics.errors import ConcentrationError, RateMatrixError, TimesError
 
 __all__ = [
+    "CheckedInputs",
     "Precision",
     "Propagation",
+    "check_inputs",
     "expm_nonnegative",
     "expm_nonnegative_certified",
     "propagate",
@@ -178,7 +180,60 @@ class Propagation:
     precision: str = field(default="double-double")
 
 
-@checks.guard_growth
+@dataclass(frozen=True, eq=False)
+class CheckedInputs:
+    """A problem's rate matrix, start values and feed, checked (:func:`check_inputs`).
+
+    :func:`kinetics.solve` keeps one per scheme, so that a scheme solved again is not
+    checked again.
+
+    Attributes
+    ----------
+    K : ndarray or scipy.sparse CSR, shape (n, n)
+        Rate matrix [1/s].
+    c0 : ndarray, shape (n,)
+        Start values [conc].
+    feed : ndarray, shape (n,), or None
+        Zero-order feed [conc/s].
+    K_low : ndarray or scipy.sparse CSR, shape (n, n), or None
+        Low-order parts of ``K`` (exact matrix ``K + K_low``).
+    feed_low : ndarray, shape (n,), or None
+        Low-order parts of ``feed``.
+    stacks : tuple of ndarray, or None
+        The dense engine's augmented pair ``(A, A_low)``, shape (1, N, N), and start,
+        shape (1, N) (N = n + 1 with a feed), made once for a scheme of at most
+        :data:`~kinetics.engine.plan.DENSE_MAX` species given dense; else None.
+    """
+
+    K: Any  # ndarray or CSR
+    c0: np.ndarray
+    feed: np.ndarray | None
+    K_low: Any  # ndarray, CSR or None
+    feed_low: np.ndarray | None
+    stacks: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
+
+    @checks.guard_growth
+    def propagate(self, times: np.ndarray, precision: Precision = "auto") -> Propagation:
+        """:func:`propagate_certified` of these inputs on checked ``times`` [s].
+
+        ``times`` as returned by :func:`kinetics.engine.checks.times`.
+        """
+        from kinetics.engine.blocks import prefers_blocks, propagate_blocks
+
+        K, f, n = self.K, self.feed, self.c0.size
+        # route by predicted cost (calibrated model in kinetics._blocks.route_costs)
+        if prefers_blocks(K, times, precision):
+            conc, bound = propagate_blocks(
+                K, self.c0, times, f, K_low=self.K_low, feed_low=self.feed_low, floor=TINY
+            )
+            return Propagation(times, conc, bound, "blocks")
+        stacks = self.stacks or _dense_stacks(K, self.c0, self.K_low, f, self.feed_low)
+        X, bound, label = propagate_stack(*stacks, times, precision, n)
+        # rows at time 0 hold c0 exactly (propagate_stack); without a feed X[0] is the table
+        conc = X[0] if f is None else X[0, :, :n].copy()
+        return Propagation(times, conc, bound[0], label)
+
+
 def propagate_certified(
     K,
     c0,
@@ -238,30 +293,58 @@ def propagate_certified(
     SIAM J. Matrix Anal. Appl. 35, 317-338 (2014).
     """
     checks.precision(precision)
+    return check_inputs(K, c0, feed, K_low=K_low, feed_low=feed_low).propagate(
+        checks.times(times), precision
+    )
+
+
+def check_inputs(K, c0, feed=None, *, K_low=None, feed_low=None) -> CheckedInputs:
+    """Check a problem's rate matrix, start values and feed once, for any number of grids.
+
+    Parameters and errors as in :func:`propagate_certified` (without the times).
+
+    Returns
+    -------
+    CheckedInputs
+
+    Examples
+    --------
+    The closed form c_A = e^(-kt) (k = 1 1/s) on two grids, the inputs checked once:
+
+    >>> inputs = check_inputs([[-1.0, 0.0], [1.0, 0.0]], [1.0, 0.0])
+    >>> round(float(inputs.propagate(np.array([0.0, 1.0])).concentrations[1, 0]), 12)
+    0.367879441171
+    >>> round(float(inputs.propagate(np.array([2.0])).concentrations[0, 0]), 12)
+    0.135335283237
+    """
     K = checks.rate_matrix(K)
     n = K.shape[0]
     c0 = checks.vector(c0, n, "c0", checks.START_HINT)
-    times = checks.times(times)
     f = None if feed is None else checks.vector(feed, n, "feed", checks.FEED_HINT)
-    from kinetics.engine.blocks import prefers_blocks, propagate_blocks
+    # the low parts are checked here; the block route takes them as given (sparse kept)
+    Kl = None
+    if K_low is not None:
+        Kl = checks.low_parts(K_low, (n, n), "K_low", RateMatrixError, keep_sparse=True)
+    fl = None if f is None else checks.low_parts(feed_low, (n,), "feed_low", ConcentrationError)
+    dense = n <= DENSE_MAX and not scipy.sparse.issparse(K)
+    stacks = _dense_stacks(K, c0, Kl, f, fl) if dense else None
+    return CheckedInputs(K, c0, f, Kl, fl, stacks)
 
-    # route by predicted cost (calibrated model in kinetics._blocks.route_costs)
-    if prefers_blocks(K, times, precision):
-        conc, bound = propagate_blocks(K, c0, times, f, K_low=K_low, feed_low=feed_low, floor=TINY)
-        return Propagation(times, conc, bound, "blocks")
+
+def _dense_stacks(K, c0, K_low, feed, feed_low) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The augmented rate matrix, its low parts (1, N, N) and the start (1, N), contiguous."""
+    n = K.shape[0]
     if scipy.sparse.issparse(K):
         K = K.toarray()
-    Kl = checks.low_parts(K_low, (n, n), "K_low", RateMatrixError)
-    fl = None if f is None else checks.low_parts(feed_low, (n,), "feed_low", ConcentrationError)
-    A = augment(K[None], None if f is None else f[None])
-    Al = augment(Kl[None], None if fl is None else fl[None])
-    x0 = c0 if f is None else np.append(c0, 1.0)
-    X, bound, label = propagate_stack(
-        np.ascontiguousarray(A), np.ascontiguousarray(Al), x0[None], times, precision, n
-    )
-    # rows at time 0 hold c0 exactly (propagate_stack); without a feed X[0] is the table
-    conc = X[0] if f is None else X[0, :, :n].copy()
-    return Propagation(times, conc, bound[0], label)
+    if K_low is None:
+        K_low = np.zeros((n, n))
+    elif scipy.sparse.issparse(K_low):
+        K_low = K_low.toarray()
+    fl = None if feed is None else feed_low
+    A = augment(K[None], None if feed is None else feed[None])
+    Al = augment(K_low[None], None if fl is None else fl[None])
+    x0 = c0 if feed is None else np.append(c0, 1.0)
+    return np.ascontiguousarray(A), np.ascontiguousarray(Al), x0[None]
 
 
 def propagate(
