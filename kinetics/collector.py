@@ -4,9 +4,16 @@ from __future__ import annotations
 
 import contextlib
 import gc
+import threading
 from collections.abc import Iterator
 
 __all__ = ["collector_paused"]
+
+#: blocks (of any thread) that hold the collector paused, and whether it was on before the
+#: first of them (the collector is one for the whole process)
+_lock = threading.Lock()
+_pauses = 0
+_was_enabled = False
 
 
 @contextlib.contextmanager
@@ -34,11 +41,19 @@ def collector_paused(pause: bool = True) -> Iterator[None]:
     >>> gc.isenabled()
     True
     """
-    enabled = gc.isenabled()
-    if pause:
-        gc.disable()
+    if not pause:
+        yield
+        return
+    global _pauses, _was_enabled
+    with _lock:
+        if _pauses == 0:
+            _was_enabled = gc.isenabled()
+            gc.disable()
+        _pauses += 1
     try:
         yield
     finally:
-        if enabled:
-            gc.enable()
+        with _lock:
+            _pauses -= 1
+            if _pauses == 0 and _was_enabled:
+                gc.enable()
