@@ -13,6 +13,7 @@ from typing import NamedTuple
 import numpy as np
 
 from kinetics import _doubledouble as dd
+from kinetics.collector import collector_paused
 from kinetics.engine.plan import (
     AUTO_RTOL,
     TINY,
@@ -211,6 +212,19 @@ def propagate_stack(A, Al, x0, times, precision: str, species: int):
     ``species`` rows are concentrations (the others a constant feed row).  The states at
     time 0 are ``x0`` exactly.
     """
+    from kinetics.engine import kernels
+
+    if not kernels.grid.signatures:
+        # the first call of the process loads the kernels from disk (or compiles them):
+        # numba makes many lasting objects, and collector passes over them cost a tenth
+        # of a warm command-line solve
+        with collector_paused():
+            return _blas_sized(A, Al, x0, times, precision, species)
+    return _blas_sized(A, Al, x0, times, precision, species)
+
+
+def _blas_sized(A, Al, x0, times, precision: str, species: int):
+    """:func:`_run_stack`, with one BLAS thread for the sizes whose products go to BLAS."""
     from kinetics.engine import kernels
 
     if A.shape[-1] ** 3 < kernels.BLAS_FROM:
