@@ -7,7 +7,7 @@ import gc
 import threading
 from collections.abc import Iterator
 
-__all__ = ["collector_paused"]
+__all__ = ["collector_paused", "fewer_passes"]
 
 #: blocks (of any thread) that hold the collector paused, and whether it was on before the
 #: first of them (the collector is one for the whole process)
@@ -57,3 +57,36 @@ def collector_paused(pause: bool = True) -> Iterator[None]:
             _pauses -= 1
             if _pauses == 0 and _was_enabled:
                 gc.enable()
+
+
+@contextlib.contextmanager
+def fewer_passes(youngest: int = 50_000) -> Iterator[None]:
+    """Let the collector pass less often during the ``with`` block (a command of the CLI).
+
+    The youngest generation is collected after ``youngest`` new container objects instead
+    of Python's 700: the imports of a command and numba's loading of its kernels make
+    hundreds of thousands of lasting objects, and passes over them cost 5 % of a warm
+    command (measured on ``sweep``: 1.16 -> 1.10 s CPU, the same peak memory).  The older
+    generations keep their thresholds, and the previous ones are restored after the block.
+
+    Parameters
+    ----------
+    youngest : int
+        Threshold of the youngest generation (never lowered).
+
+    Examples
+    --------
+    >>> import gc
+    >>> before = gc.get_threshold()
+    >>> with fewer_passes():
+    ...     gc.get_threshold()[0]
+    50000
+    >>> gc.get_threshold() == before
+    True
+    """
+    before = gc.get_threshold()
+    gc.set_threshold(max(youngest, before[0]), *before[1:])
+    try:
+        yield
+    finally:
+        gc.set_threshold(*before)

@@ -5,7 +5,7 @@ from __future__ import annotations
 import gc
 import threading
 
-from kinetics.collector import collector_paused
+from kinetics.collector import collector_paused, fewer_passes
 
 
 def test_nested_pauses_turn_the_collector_on_after_the_outer_block():
@@ -56,3 +56,12 @@ def test_threads_pausing_together_turn_it_on_when_the_last_is_done():
         thread.join()
     assert seen == [False]
     assert gc.isenabled()
+
+
+def test_fewer_passes_raises_the_youngest_threshold_and_restores_it():
+    before = gc.get_threshold()
+    with fewer_passes(12_345):
+        assert gc.get_threshold() == (max(12_345, before[0]), *before[1:])
+    assert gc.get_threshold() == before
+    with fewer_passes(1):  # never lowered
+        assert gc.get_threshold() == before

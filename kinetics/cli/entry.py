@@ -22,6 +22,7 @@ from kinetics._version import __version__
 from kinetics.cli.check import check
 from kinetics.cli.safety import safety
 from kinetics.cli.solving import report, solve
+from kinetics.collector import fewer_passes
 from kinetics.errors import KineticsError
 
 __all__ = [
@@ -201,7 +202,7 @@ def main(argv: list[str] | None = None) -> int:
     """
     args, debug = split_debug(list(sys.argv[1:] if argv is None else argv))
     try:
-        with _signals_stop_the_run():
+        with _signals_stop_the_run(), fewer_passes():
             result = cli.main(args=args, prog_name="kinetics", standalone_mode=False)
     except _ENDINGS as exc:
         return _ended(exc)
