@@ -456,7 +456,7 @@ def summarise_members(
     work = _work(n, n + 1 if has_feed else n, mx.shape[0], taus.size, n_seg + 1)
     # the first call in a process compiles the kernel (or loads it from disk); numba's
     # objects would set off collector passes (0.4 s of the first use)
-    with collector_paused(not member_kernel.signatures):
+    with collector_paused(not member_kernel.overloads):
         member_kernel(
             K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, RATIO, taus, ilevel, tmax,
             cmax, half, status, *work,
