@@ -159,7 +159,7 @@ def test_first_use_note_when_the_engine_is_not_compiled_yet(chain, capsys, monke
     assert status == 0
     assert err == (
         "kinetics: compiling the engine for its first use on this installation "
-        "(once, about 5 s; later runs load it from disk)\n"
+        "(once, about 4 s; later runs load it from disk)\n"
     )
     status, _out, err = run_cli(
         capsys, "sweep", chain, "--until", "1h", "--vary", "k1=0.1,0.2", "--no-caution"
