@@ -48,7 +48,8 @@ import json, sys, time
 from numba.core import dispatcher
 original = dispatcher.Dispatcher.compile
 stack, own, entry, count = [], {}, {}, {}
-OURS = ("kernels.", "block_kernels.", "_sweep_kernels.")  # modules of the package's kernels
+# modules of the package's kernels
+OURS = ("kernels.", "block_kernels.", "_sweep_kernels.", "chain_kernels.", "action_kernels.")
 def compile(self, sig):
     name = self.py_func.__module__.rsplit(".", 1)[-1] + "." + self.py_func.__name__
     before = len(self.overloads)

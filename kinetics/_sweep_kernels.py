@@ -33,7 +33,7 @@ from .analysis.tolerances import (
     XTOL,
 )
 from .collector import collector_paused
-from .engine.kernels import matmul_double, two_sum
+from .engine.kernels import HELPER, KERNEL, matmul_double, two_sum
 from .engine.plan import TINY as FLUSH  # entries below: no relative accuracy (and slow)
 
 # the constants of the method live in kinetics.analysis.tolerances (numba reads module
@@ -46,16 +46,10 @@ from .engine.plan import TINY as FLUSH  # entries below: no relative accuracy (a
 # rewrites (``no_rewrites``): they serve array expressions and constant folding, which
 # the kernels do not use.  About 0.5 s less of the first sweep (DEVELOPERS.md,
 # "Compiled kernels")
-_JIT = {
-    "cache": True, "nogil": True, "error_model": "numpy", "_nrt": False, "no_cfunc_wrapper": True,
-    "no_rewrites": True,
-}  # fmt: skip
+_JIT = {**KERNEL, "_nrt": False, "no_rewrites": True}
 # steps and helpers called only from member_kernel: no wrapper for calls from Python and
 # no cache file of their own (member_kernel's cached code includes them)
-_STEP = {
-    "nogil": True, "error_model": "numpy", "_nrt": False, "no_cfunc_wrapper": True,
-    "no_rewrites": True, "no_cpython_wrapper": True,
-}  # fmt: skip
+_STEP = {**HELPER, "_nrt": False, "no_rewrites": True}
 
 TAIL = 0.5**17 / math.factorial(17)  # remainder of the ladder's Taylor sum at y = 1/2
 

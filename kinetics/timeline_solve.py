@@ -58,12 +58,13 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from . import _doubledouble as dd
+from .collector import collector_paused
 from .engine import TINY, Precision, StretchPropagator
 from .engine.checks import time_list
 from .engine.plan import compose
 from .errors import SettingError, shown_value
 from .timeline import Plan, Timeline, expand
-from .timeline_chain import Chain
+from .timeline_chain import Chain, chain_loaded
 
 if TYPE_CHECKING:
     from .scheme import Scheme
@@ -675,7 +676,10 @@ def solve_timeline(
         extra = np.setdiff1d([op.time for op in plan.operations if op.time >= t[0]], t)
         t = np.sort(np.concatenate([t, extra]), kind="stable")
     conditions = _Conditions(scheme, plan, precision)
-    best, estimate, moved_estimate, notes = _refine(scheme, plan, conditions, t, ramp_rtol)
+    # the first run of a process loads the engine's and the chain's kernels from disk (or
+    # compiles them): collector passes over numba's objects would walk them again and again
+    with collector_paused(not chain_loaded()):
+        best, estimate, moved_estimate, notes = _refine(scheme, plan, conditions, t, ramp_rtol)
     if plan.ramps and conditions.arrhenius:
         estimate, moved_estimate = _envelope(plan, best, estimate, moved_estimate)
     return TimelineSolution(

@@ -10,12 +10,10 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-from kinetics.engine.kernels import dd_exp, two_prod, two_sum
-
-_JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
+from kinetics.engine.kernels import KERNEL, dd_exp, two_prod, two_sum
 
 
-@njit(**_JIT)
+@njit(**KERNEL)
 def taylor_actions(A, Al, sigma, sigma_lo, t, V, m, tiny, Oh, Ol, ratio):
     r"""``O_q = exp(t_q (A + Al)) V_q`` by the Taylor series of the shifted matrix.
 

@@ -30,12 +30,10 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-from kinetics.engine.kernels import dd_exp, two_prod, two_sum
-
-_JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
+from kinetics.engine.kernels import KERNEL, dd_exp, two_prod, two_sum
 
 
-@njit(**_JIT)
+@njit(**KERNEL)
 def reach_within(indptr, indices, steps, reach):
     """``reach[b]``: the largest row reachable from column ``b`` in at most ``steps``.
 
@@ -63,7 +61,7 @@ def reach_within(indptr, indices, steps, reach):
             break
 
 
-@njit(**_JIT)
+@njit(**KERNEL)
 def column_taylor(indptr, indices, data, col0, m, factor, out, V, W, alive):
     r"""``out[:, c] = factor * sum_{k<=m} Y^k e_b / k!`` for ``b = col0 + c``.
 
@@ -129,7 +127,7 @@ def column_taylor(indptr, indices, data, col0, m, factor, out, V, W, alive):
     return used
 
 
-@njit(**_JIT)
+@njit(**KERNEL)
 def power_apply(indptr, indices, data, v, p, scale, out, work):
     r"""``out = scale * Y^p v / p!`` for nonnegative CSC ``Y`` and ``v`` (p >= 1)."""
     n = v.shape[0]
@@ -150,7 +148,7 @@ def power_apply(indptr, indices, data, v, p, scale, out, work):
         out[i] = work[i] * scale
 
 
-@njit(**_JIT)
+@njit(**KERNEL)
 def singleton_exponentials(qh, ql, t, out_h, out_l):
     """``exp(-(qh + ql) t)`` as double-double pairs (0 where it underflows)."""
     for i in range(qh.shape[0]):
@@ -167,7 +165,7 @@ def singleton_exponentials(qh, ql, t, out_h, out_l):
             out_l[i] = lo
 
 
-@njit(**_JIT)
+@njit(**KERNEL)
 def scale_diagonal(dh, dl, xh, xl, add, idx, out_h, out_l):
     """``out[i] = d[i] x[i] + add[i]`` in double-double for the indices ``idx``.
 
@@ -184,7 +182,7 @@ def scale_diagonal(dh, dl, xh, xl, add, idx, out_h, out_l):
         out_h[i] = hi
 
 
-@njit(**_JIT)
+@njit(**KERNEL)
 def dd_divide(Ah, Al, k):
     """``A /= k`` elementwise for a double-double matrix and a positive integer ``k``."""
     n, m = Ah.shape
@@ -198,7 +196,7 @@ def dd_divide(Ah, Al, k):
             Ah[i, j] = hi
 
 
-@njit(**_JIT)
+@njit(**KERNEL)
 def dd_add_identity(Ah, Al):
     """``A += I`` for a square double-double matrix."""
     for i in range(Ah.shape[0]):
@@ -209,7 +207,7 @@ def dd_add_identity(Ah, Al):
         Ah[i, i] = hi
 
 
-@njit(**_JIT)
+@njit(**KERNEL)
 def taylor_apply(indptr, indices, data, v, m, scale, out):
     r"""``out = sum_{k=1}^{m} (scale Y)^k v / k!`` for nonnegative CSC ``Y`` and ``v``.
 

@@ -30,16 +30,14 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-from kinetics.engine.kernels import product, residual_corrections
+from kinetics.engine.kernels import KERNEL, product, residual_corrections
 from kinetics.engine.plan import TINY as _TINY
 from kinetics.engine.plan import U as _U
-
-_JIT = {"cache": True, "nogil": True, "error_model": "numpy"}
 
 SCALE, ADD, REMOVE, ROUND = 0, 1, 2, 3
 
 
-@njit(**_JIT)
+@njit(**KERNEL)
 def operate(x, n, e, begin, stop, kind, species, first, second, flag, record, moved, bound):
     """Apply the actions ``begin .. stop - 1`` to ``x`` (a column, shape (N, 1)) in place.
 
@@ -73,7 +71,7 @@ def operate(x, n, e, begin, stop, kind, species, first, second, flag, record, mo
     return e
 
 
-@njit(**_JIT)
+@njit(**KERNEL)
 def chain(
     Fh, Fl, is_dd, eps, A, gamma, which, low, x0, n, at, actions, start, end, final, moved, bound
 ):

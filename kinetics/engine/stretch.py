@@ -101,8 +101,10 @@ class StretchPropagator:
         Fh, Fl = np.empty((len(listed), N, N)), np.zeros((len(listed), N, N))
         eps, is_dd = np.zeros(len(listed)), np.zeros(len(listed), dtype=bool)
         if new:
-            A = np.ascontiguousarray(np.broadcast_to(A0, (len(new), N, N)))
-            Al = np.ascontiguousarray(np.broadcast_to(Al0, (len(new), N, N)))
+            # new writable copies (a broadcast view of one member is read-only: the kernels
+            # would be compiled a second time for it, 1.2 s of a run's first use)
+            A = np.repeat(A0, len(new), axis=0)
+            Al = np.repeat(Al0, len(new), axis=0)
             Fh[new], Fl[new], eps[new], is_dd[new] = expm_stack(A, Al, values[new], self.precision)
         for i, v in enumerate(listed):
             if v in self._kept:
