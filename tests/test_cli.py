@@ -183,7 +183,7 @@ def test_first_use_note_for_a_run_with_operations(tmp_path, capsys, monkeypatch)
     assert status == 0
     assert err == (
         "kinetics: compiling the engine for its first use on this installation "
-        "(once, about 7 s; later runs load it from disk)\n"
+        "(once, about 5 s; later runs load it from disk)\n"
     )
 
 

@@ -52,12 +52,12 @@ FIRST_USE = (
     "(once, about 4 s; later runs load it from disk)"
 )
 #: the same note when the sweep kernels are compiled too (measured with
-#: benchmarks/bench_first_use.py: about 4 s CPU for solve, 4.8 s for a sweep of the
+#: benchmarks/bench_first_use.py: about 3.8 s CPU for solve, 4.7 s for a sweep of the
 #: summaries; a sweep that also needs the curves compiles the engine's kernels too, 8 s)
 FIRST_USE_SWEEP = FIRST_USE.replace("about 4 s", "about 8 s")
 #: the same note for a run with operations: the timeline's chain and the exponential's
-#: action compile about 2.5 s more (benchmarks/bench_first_use.py --commands timeline)
-FIRST_USE_OPERATIONS = FIRST_USE.replace("about 4 s", "about 7 s")
+#: action compile about 1 s more (benchmarks/bench_first_use.py --commands timeline: 5 s)
+FIRST_USE_OPERATIONS = FIRST_USE.replace("about 4 s", "about 5 s")
 
 
 def first_use_note(sweeps: bool = False, operations: bool = False) -> None:
