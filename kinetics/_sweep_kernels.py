@@ -33,7 +33,7 @@ from .analysis.tolerances import (
     XTOL,
 )
 from .collector import collector_paused
-from .engine.kernels import HELPER, KERNEL, matmul_double, two_sum
+from .engine.kernels import HELPER, KERNEL, loaded, matmul_double, two_sum
 from .engine.plan import TINY as FLUSH  # entries below: no relative accuracy (and slow)
 
 # the constants of the method live in kinetics.analysis.tolerances (numba reads module
@@ -450,7 +450,7 @@ def summarise_members(
     work = _work(n, n + 1 if has_feed else n, mx.shape[0], taus.size, n_seg + 1)
     # the first call in a process compiles the kernel (or loads it from disk); numba's
     # objects would set off collector passes (0.4 s of the first use)
-    with collector_paused(not member_kernel.overloads):
+    with collector_paused(not loaded(member_kernel)):
         member_kernel(
             K, q_low, f, has_feed, c0, scale, t_hi, mx, hl, steps, RATIO, taus, ilevel, tmax,
             cmax, half, status, *work,

@@ -42,7 +42,7 @@ class Conditions(Protocol):
         ...
 
 
-__all__ = ["Chain", "Conditions", "chain_loaded"]
+__all__ = ["Chain", "Conditions"]
 
 #: one action: (kind, species index or rounding count, first, second, flag, records)
 _Row = tuple[int, int, float, float, bool, bool]
@@ -118,17 +118,6 @@ class _Actions:
         removals = int(record[-1]) + 1 if rows else 0
         self.moved = np.zeros(removals)
         self.moved_bound = np.zeros(removals)
-
-
-def chain_loaded() -> bool:
-    """Whether this process has loaded (or compiled) the compiled chain yet.
-
-    Examples
-    --------
-    >>> isinstance(chain_loaded(), bool)
-    True
-    """
-    return bool(chain.overloads)
 
 
 class Chain:

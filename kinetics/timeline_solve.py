@@ -60,11 +60,13 @@ import numpy as np
 from . import _doubledouble as dd
 from .collector import collector_paused
 from .engine import TINY, Precision, StretchPropagator
+from .engine.chain_kernels import chain
 from .engine.checks import time_list
+from .engine.kernels import loaded
 from .engine.plan import compose
 from .errors import SettingError, shown_value
 from .timeline import Plan, Timeline, expand
-from .timeline_chain import Chain, chain_loaded
+from .timeline_chain import Chain
 
 if TYPE_CHECKING:
     from .scheme import Scheme
@@ -678,7 +680,7 @@ def solve_timeline(
     conditions = _Conditions(scheme, plan, precision)
     # the first run of a process loads the engine's and the chain's kernels from disk (or
     # compiles them): collector passes over numba's objects would walk them again and again
-    with collector_paused(not chain_loaded()):
+    with collector_paused(not loaded(chain)):
         best, estimate, moved_estimate, notes = _refine(scheme, plan, conditions, t, ramp_rtol)
     if plan.ramps and conditions.arrhenius:
         estimate, moved_estimate = _envelope(plan, best, estimate, moved_estimate)

@@ -214,7 +214,7 @@ def propagate_stack(A, Al, x0, times, precision: str, species: int):
     """
     from kinetics.engine import kernels
 
-    if not kernels.grid.overloads:  # (a dict; the signatures property costs 3 us)
+    if not kernels.loaded(kernels.grid):
         # the first call of the process loads the kernels from disk (or compiles them):
         # numba makes many lasting objects, and collector passes over them cost a tenth
         # of a warm command-line solve
